@@ -1,0 +1,148 @@
+"""Command line: parse arguments, call the library, map outcomes to exit codes.
+
+Exit codes (also in the README):
+    0  plan found and verified (or: input valid, plan verified)
+    1  unexpected internal error
+    2  command-line usage error
+    3  invalid input (every problem is listed)
+    4  infeasible: the hard limits conflict (the conflicting limits are listed)
+    5  time limit reached with no plan
+    6  the plan failed independent verification
+    7  solver error or unknown solver outcome
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from collections.abc import Sequence
+from pathlib import Path
+
+from rebalance.readers import InstanceError, read_instance
+from rebalance.solve import Status
+
+EXIT_OK = 0
+EXIT_INTERNAL = 1
+EXIT_USAGE = 2
+EXIT_INVALID_INPUT = 3
+EXIT_INFEASIBLE = 4
+EXIT_NO_PLAN_IN_TIME = 5
+EXIT_VERIFICATION_FAILED = 6
+EXIT_SOLVER_ERROR = 7
+
+STATUS_EXIT = {
+    Status.INFEASIBLE: EXIT_INFEASIBLE,
+    Status.NO_PLAN_IN_TIME: EXIT_NO_PLAN_IN_TIME,
+    Status.ERROR: EXIT_SOLVER_ERROR,
+    Status.UNKNOWN: EXIT_SOLVER_ERROR,
+}
+
+
+def _err(text: str) -> None:
+    print(text, file=sys.stderr, flush=True)
+
+
+def _load(path: str):  # type: ignore[no-untyped-def]
+    try:
+        return read_instance(path)
+    except InstanceError as exc:
+        errors = [p for p in exc.problems if not p.is_warning]
+        _err(f"{path}: {len(errors)} problem(s) in the input; nothing was written")
+        for problem in exc.problems:
+            _err(("  warning: " if problem.is_warning else "  ") + str(problem))
+        return None
+
+
+def cmd_check(args: argparse.Namespace) -> int:
+    from rebalance.report import format_check
+
+    instance = _load(args.instance)
+    if instance is None:
+        return EXIT_INVALID_INPUT
+    print(format_check(instance))
+    return EXIT_OK
+
+
+def cmd_plan(args: argparse.Namespace) -> int:
+    from rebalance.planning import make_plan, options_from_instance, write_outputs
+    from rebalance.report import format_summary
+
+    instance = _load(args.instance)
+    if instance is None:
+        return EXIT_INVALID_INPUT
+    for warning in instance.warnings:
+        _err(f"warning: {warning}")
+    options = options_from_instance(
+        instance, solver=args.solver, time_limit_seconds=args.time_limit,
+        relative_gap=args.gap, seed=args.seed,
+        progress=None if args.quiet else _err)
+    result = make_plan(instance, options)
+    print(format_summary(result))
+    if result.plan is None:
+        return STATUS_EXIT.get(result.status, EXIT_SOLVER_ERROR)
+    if not result.verified:
+        _err("the plan failed verification; nothing was written")
+        return EXIT_VERIFICATION_FAILED
+    write_outputs(result, args.out)
+    print(f"\nplan written to {args.out}/")
+    return EXIT_OK
+
+
+def cmd_verify(args: argparse.Namespace) -> int:
+    from rebalance.report import format_violations
+    from rebalance.verify import verify_folder
+
+    instance = _load(args.instance)
+    if instance is None:
+        return EXIT_INVALID_INPUT
+    if not Path(args.plan_dir).is_dir():
+        _err(f"{args.plan_dir}: plan folder not found")
+        return EXIT_INVALID_INPUT
+    violations = verify_folder(instance, args.plan_dir)
+    print(format_violations(violations))
+    return EXIT_OK if not violations else EXIT_VERIFICATION_FAILED
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="rebalance",
+        description="Turn a forecast of work into a verified staffing plan.")
+    sub = parser.add_subparsers(dest="command", required=True)
+
+    p = sub.add_parser("check", help="validate an instance folder")
+    p.add_argument("instance")
+    p.set_defaults(run=cmd_check)
+
+    p = sub.add_parser("plan", help="solve an instance and write a verified plan")
+    p.add_argument("instance")
+    p.add_argument("-o", "--out", required=True, help="folder for the plan tables")
+    p.add_argument("--solver", choices=("highs", "cbc"))
+    p.add_argument("--time-limit", type=float, help="seconds for the whole run")
+    p.add_argument("--gap", type=float, help="relative gap at which to stop, e.g. 0.01")
+    p.add_argument("--seed", type=int)
+    p.add_argument("-q", "--quiet", action="store_true", help="no progress on stderr")
+    p.set_defaults(run=cmd_plan)
+
+    p = sub.add_parser("verify", help="check a plan folder against its instance")
+    p.add_argument("instance")
+    p.add_argument("plan_dir")
+    p.set_defaults(run=cmd_verify)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    args = build_parser().parse_args(argv)
+    try:
+        code: int = args.run(args)
+    except KeyboardInterrupt:
+        _err("interrupted")
+        return EXIT_INTERNAL
+    except Exception as exc:  # the last line of defence: a message, not a traceback
+        _err(f"internal error: {type(exc).__name__}: {exc}")
+        _err("please report this with the instance that caused it")
+        return EXIT_INTERNAL
+    return code
+
+
+if __name__ == "__main__":
+    sys.exit(main())

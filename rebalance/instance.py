@@ -1,0 +1,246 @@
+"""Planning instance: frozen, validated data and the rules that interpret it.
+
+An :class:`Instance` is built once, at the edge, by :func:`rebalance.readers.read_instance`,
+and trusted from then on.  A scenario is a variant made with :func:`dataclasses.replace`,
+never an in-place edit.  The small helpers here (cost look-ups, available FTE, ramp) are the
+single statement of the instance's semantics; the model builder and the verifier both call
+them so the two cannot drift apart on what a column means.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from typing import Any, Literal, NoReturn
+
+ObjectiveMode = Literal["shortfall-first", "weighted"]
+SolverName = Literal["highs", "cbc"]
+
+
+@dataclass(frozen=True)
+class Period:
+    """One planning period (a quarter by default)."""
+
+    name: str
+    year: str
+    hours_per_fte: float
+
+
+@dataclass(frozen=True)
+class Office:
+    name: str
+    location: str
+    seats: int | None = None
+    max_hires_per_period: int | None = None
+
+
+@dataclass(frozen=True)
+class Skill:
+    name: str
+    salary_per_period: float
+    onboarding_cost: float
+    time_to_hire: int
+    ramp: tuple[float, ...] = ()
+
+
+@dataclass(frozen=True)
+class Person:
+    """A member of staff.  ``last_period`` is the index of the last period worked, if any."""
+
+    person: str
+    home_office: str
+    fte: float
+    skills: tuple[tuple[str, float], ...]
+    can_detail: bool
+    can_relocate: bool
+    last_period: int | None = None
+
+    def proficiency(self, skill: str) -> float:
+        for name, value in self.skills:
+            if name == skill:
+                return value
+        return 0.0
+
+    def is_present(self, period: int) -> bool:
+        return self.last_period is None or period <= self.last_period
+
+
+@dataclass(frozen=True)
+class Demand:
+    office: str
+    skill: str
+    period: int
+    fte: float
+    priority: float = 1.0
+    hours: float | None = None
+
+
+@dataclass(frozen=True)
+class MoveCost:
+    """Costs for one direction between two locations; ``None`` falls back to the default."""
+
+    detail_cost_per_period: float | None
+    relocation_cost: float | None
+
+
+@dataclass(frozen=True)
+class Budget:
+    """Caps on new money in one budget year; ``None`` means no cap."""
+
+    year: str
+    hiring: float | None
+    moves: float | None
+
+
+@dataclass(frozen=True)
+class Policy:
+    max_away_share: float = 1.0
+    max_consecutive_detail_periods: int | None = None
+    # Seats count people present, so early recall questions belong to re-planning (issue 5).
+
+
+@dataclass(frozen=True)
+class MoveCostDefaults:
+    detail_cost_per_period: float = 0.0
+    relocation_cost: float = 0.0
+    same_location_detail_cost_per_period: float = 0.0
+    same_location_relocation_cost: float = 0.0
+
+
+@dataclass(frozen=True)
+class Objective:
+    mode: ObjectiveMode = "shortfall-first"
+    # Cost of one priority-weighted FTE-period of shortfall, used in ``weighted`` mode only.
+    shortfall_cost: float = 100_000.0
+    # Relative slack on the stage-one optimum when stage two minimises cost.
+    shortfall_tolerance: float = 1e-6
+
+
+@dataclass(frozen=True)
+class SolverSettings:
+    name: SolverName = "highs"
+    time_limit_seconds: float = 300.0
+    relative_gap: float = 1e-4
+    threads: int = 1
+    seed: int = 0
+
+
+class FrozenMap(dict):  # type: ignore[type-arg]
+    """A read-only dict that still pickles (process pools and Dask ship instances around)."""
+
+    def _read_only(self, *args: Any, **kwargs: Any) -> NoReturn:
+        raise TypeError("instance data is read-only; use Instance.with_changes")
+
+    __setitem__ = __delitem__ = clear = pop = popitem = setdefault = update = _read_only  # type: ignore[assignment]
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (FrozenMap, (dict(self),))
+
+    def __hash__(self) -> int:  # type: ignore[override]
+        return hash(tuple(sorted(self.items(), key=repr)))
+
+
+def _frozen(mapping: Mapping[Any, Any]) -> Mapping[Any, Any]:
+    return FrozenMap(mapping)
+
+
+@dataclass(frozen=True)
+class Instance:
+    """A validated planning instance.  Periods are referred to by 0-based index."""
+
+    name: str
+    periods: tuple[Period, ...]
+    periods_per_year: int
+    offices: tuple[Office, ...]
+    skills: tuple[Skill, ...]
+    staff: tuple[Person, ...]
+    demand: tuple[Demand, ...]
+    move_costs: Mapping[tuple[str, str], MoveCost] = field(default_factory=dict)
+    vacancies: Mapping[tuple[str, str], int] = field(default_factory=dict)
+    # (skill, office) -> annual rate; office None is the skill's default row.
+    attrition: Mapping[tuple[str, str | None], float] = field(default_factory=dict)
+    budgets: tuple[Budget, ...] = ()
+    policy: Policy = Policy()
+    move_cost_defaults: MoveCostDefaults = MoveCostDefaults()
+    objective: Objective = Objective()
+    solver: SolverSettings = SolverSettings()
+    warnings: tuple[str, ...] = ()
+
+    def __post_init__(self) -> None:
+        for name in ("move_costs", "vacancies", "attrition"):
+            object.__setattr__(self, name, _frozen(getattr(self, name)))
+        object.__setattr__(self, "_office", {o.name: o for o in self.offices})
+        object.__setattr__(self, "_skill", {s.name: s for s in self.skills})
+        object.__setattr__(self, "_budget", {b.year: b for b in self.budgets})
+
+    # -- look-ups -------------------------------------------------------------------------
+    @property
+    def period_names(self) -> tuple[str, ...]:
+        return tuple(p.name for p in self.periods)
+
+    @property
+    def years(self) -> tuple[str, ...]:
+        """Budget years in order of first appearance."""
+        return tuple(dict.fromkeys(p.year for p in self.periods))
+
+    def office(self, name: str) -> Office:
+        return self._office[name]  # type: ignore[attr-defined,no-any-return]
+
+    def skill(self, name: str) -> Skill:
+        return self._skill[name]  # type: ignore[attr-defined,no-any-return]
+
+    def budget(self, year: str) -> Budget | None:
+        return self._budget.get(year)  # type: ignore[attr-defined,no-any-return]
+
+    # -- semantics shared by the model and the verifier ------------------------------------
+    def detail_cost_per_period(self, from_office: str, to_office: str) -> float:
+        """Cost of one period of detail, by the locations of the home in force and destination."""
+        a, b = self.office(from_office).location, self.office(to_office).location
+        listed = self.move_costs.get((a, b))
+        if listed is not None and listed.detail_cost_per_period is not None:
+            return listed.detail_cost_per_period
+        if a == b:
+            return self.move_cost_defaults.same_location_detail_cost_per_period
+        return self.move_cost_defaults.detail_cost_per_period
+
+    def relocation_cost(self, from_office: str, to_office: str) -> float:
+        a, b = self.office(from_office).location, self.office(to_office).location
+        listed = self.move_costs.get((a, b))
+        if listed is not None and listed.relocation_cost is not None:
+            return listed.relocation_cost
+        if a == b:
+            return self.move_cost_defaults.same_location_relocation_cost
+        return self.move_cost_defaults.relocation_cost
+
+    def attrition_rate(self, skill: str, office: str) -> float:
+        """Annual rate for a skill at an office, else the skill's office-less row, else 0."""
+        rate = self.attrition.get((skill, office))
+        if rate is None:
+            rate = self.attrition.get((skill, None), 0.0)
+        return rate
+
+    def retention(self, annual_rate: float, periods_elapsed: int) -> float:
+        """Expected share still on staff after ``periods_elapsed`` periods."""
+        return float((1.0 - annual_rate) ** (periods_elapsed / self.periods_per_year))
+
+    def available_fte(self, person: Person, period: int) -> float:
+        """FTE a person brings to ``period`` after expected attrition (0 once they have left)."""
+        if not person.is_present(period):
+            return 0.0
+        rate = self.attrition_rate(person.skills[0][0], person.home_office)
+        return person.fte * self.retention(rate, period)
+
+    def hire_fte(self, skill: str, office: str, start: int, period: int) -> float:
+        """Productive FTE in ``period`` of one hire of ``skill`` at ``office`` started at ``start``."""
+        if period < start:
+            return 0.0
+        j = period - start  # 0 in the start period
+        ramp = self.skill(skill).ramp
+        productivity = ramp[j] if j < len(ramp) else 1.0
+        return productivity * self.retention(self.attrition_rate(skill, office), j)
+
+    def with_changes(self, **changes: object) -> Instance:
+        """A copy with some fields replaced (a scenario is a variant of an instance)."""
+        from dataclasses import replace
+
+        return replace(self, **changes)  # type: ignore[arg-type]

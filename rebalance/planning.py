@@ -1,0 +1,142 @@
+"""The whole job in one call: instance -> model -> solve -> plan -> verification.
+
+:func:`make_plan` is a pure function of its inputs (instance and options), which is what lets
+scenarios, sweeps and re-plans run it many times, in other processes if need be.
+"""
+
+from __future__ import annotations
+
+import json
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+from typing import Any
+
+from rebalance.instance import Instance
+from rebalance.model import Model, build_model
+from rebalance.plan import Plan, extract_plan, staged_folder, write_plan
+from rebalance.solve import SolveOptions, SolveResult, Status, solve
+from rebalance.verify import Violation, verify_plan
+
+__all__ = ["PlanResult", "make_plan", "options_from_instance", "summary_dict", "write_outputs"]
+
+
+@dataclass(frozen=True)
+class PlanResult:
+    """Everything a report needs about one solve."""
+
+    instance: Instance
+    options: SolveOptions
+    status: Status
+    plan: Plan | None
+    solve: SolveResult
+    violations: tuple[Violation, ...]
+    num_cols: int
+    num_rows: int
+    num_integer: int
+    build_seconds: float
+    extract_seconds: float
+    verify_seconds: float
+    notes: tuple[str, ...] = field(default=())
+
+    @property
+    def verified(self) -> bool:
+        return self.plan is not None and not self.violations
+
+
+def options_from_instance(instance: Instance, **overrides: Any) -> SolveOptions:
+    """Solve options from the instance's settings, with command-line overrides on top."""
+    s = instance.solver
+    options = SolveOptions(
+        solver=s.name,
+        time_limit_seconds=s.time_limit_seconds,
+        relative_gap=s.relative_gap,
+        threads=s.threads,
+        seed=s.seed,
+        mode=instance.objective.mode,
+        shortfall_cost=instance.objective.shortfall_cost,
+        shortfall_tolerance=instance.objective.shortfall_tolerance,
+    )
+    given = {k: v for k, v in overrides.items() if v is not None}
+    return replace(options, **given)
+
+
+def make_plan(instance: Instance, options: SolveOptions,
+              build: Callable[[Instance], Model] = build_model) -> PlanResult:
+    """Build, solve, extract and verify.  Never returns an unverified plan as good."""
+    started = time.perf_counter()
+    model = build(instance)
+    build_seconds = time.perf_counter() - started
+    if options.progress is not None:
+        options.progress(f"model: {model.num_cols} columns ({model.num_integer} integer), "
+                         f"{model.num_rows} rows, built in {build_seconds:.2f}s")
+    remaining = max(0.5, options.time_limit_seconds - build_seconds)
+    result = solve(model, replace(options, time_limit_seconds=remaining))
+    plan = None
+    violations: tuple[Violation, ...] = ()
+    extract_seconds = verify_seconds = 0.0
+    if result.status.has_plan and result.x is not None:
+        t0 = time.perf_counter()
+        plan = extract_plan(instance, model, result.x)
+        extract_seconds = time.perf_counter() - t0
+        t0 = time.perf_counter()
+        violations = tuple(verify_plan(instance, plan))
+        verify_seconds = time.perf_counter() - t0
+    return PlanResult(instance, options, result.status, plan, result, violations,
+                      model.num_cols, model.num_rows, model.num_integer, build_seconds,
+                      extract_seconds, verify_seconds)
+
+
+def summary_dict(result: PlanResult) -> dict[str, Any]:
+    """The content of ``summary.json``."""
+    plan = result.plan
+    stages = [
+        {"stage": s.name, "status": s.status.value, "objective": s.objective, "bound": s.bound,
+         "gap": s.gap, "seconds": round(s.seconds, 3), "solver_says": s.solver_words}
+        for s in result.solve.stages
+    ]
+    out: dict[str, Any] = {
+        "instance": result.instance.name,
+        "status": result.status.value,
+        "objective_mode": result.options.mode,
+        "weighted_shortfall": plan.weighted_shortfall if plan else None,
+        "shortfall_fte_periods": plan.shortfall_fte if plan else None,
+        "total_cost": plan.total_cost if plan else None,
+        "cost_by_kind": plan.cost_by_kind() if plan else None,
+        "hires": plan.hires_count() if plan else None,
+        "detail_periods": len(plan.details) if plan else None,
+        "reassignments": len(plan.reassignments) if plan else None,
+        "gap": result.solve.gap,
+        "stages": stages,
+        "solver": result.solve.solver,
+        "solver_version": result.solve.solver_version,
+        "model": {"columns": result.num_cols, "rows": result.num_rows,
+                  "integer_columns": result.num_integer},
+        "seconds": {"build": round(result.build_seconds, 3),
+                    "solve": round(result.solve.solve_seconds, 3),
+                    "extract": round(result.extract_seconds, 3),
+                    "verify": round(result.verify_seconds, 3)},
+        "verification": {"passed": result.verified,
+                         "violations": [str(v) for v in result.violations]},
+        "conflicts": list(result.solve.conflicts),
+        "warnings": list(result.instance.warnings),
+        "caution": CAUTION,
+    }
+    return out
+
+
+CAUTION = ("This plan supports a decision; it does not make one. Personnel rules, agreements "
+           "with staff representatives and local law govern any detail, reassignment or hire.")
+
+
+def write_outputs(result: PlanResult, out_dir: str | Path,
+                  extra: Callable[[PlanResult, Path], None] | None = None) -> None:
+    """Write plan tables and summary.json atomically (and ``extra`` files in the same swap)."""
+    if result.plan is None:
+        raise ValueError("no plan to write")
+    with staged_folder(out_dir) as folder:
+        write_plan(result.plan, folder)
+        (folder / "summary.json").write_text(json.dumps(summary_dict(result), indent=2) + "\n")
+        if extra is not None:
+            extra(result, folder)

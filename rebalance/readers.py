@@ -1,0 +1,688 @@
+"""Read an instance folder and validate it: every problem at once, each naming file, row, column.
+
+Rows are numbered as a spreadsheet shows them: the header is row 1, the first data row is row 2.
+Nothing here solves or writes anything; a caller gets an :class:`Instance` or an
+:class:`InstanceError` carrying the full list of :class:`Problem` records.
+"""
+
+from __future__ import annotations
+
+import csv
+import math
+import re
+import tomllib
+from collections.abc import Iterator, Mapping
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+from rebalance.instance import (
+    Budget,
+    Demand,
+    Instance,
+    MoveCost,
+    MoveCostDefaults,
+    Objective,
+    Office,
+    Period,
+    Person,
+    Policy,
+    Skill,
+    SolverSettings,
+)
+
+__all__ = ["InstanceError", "Problem", "RawTable", "read_instance", "read_tables"]
+
+REQUIRED_TABLES = ("offices", "skills", "staff", "demand", "budget")
+OPTIONAL_TABLES = ("move_costs", "vacancies", "attrition")
+COLUMNS: dict[str, tuple[tuple[str, ...], tuple[str, ...]]] = {
+    # table: (required columns, optional columns)
+    "offices": (("office", "location"), ("seats", "max_hires_per_period")),
+    "skills": (("skill", "salary_per_period", "onboarding_cost", "time_to_hire"), ("ramp",)),
+    "staff": (
+        ("person", "home_office", "fte", "skills"),
+        ("can_detail", "can_relocate", "last_period"),
+    ),
+    "demand": (("office", "skill", "period"), ("fte", "hours", "priority")),
+    "move_costs": (
+        ("from_location", "to_location"),
+        ("detail_cost_per_period", "relocation_cost"),
+    ),
+    "vacancies": (("office", "skill", "count"), ()),
+    "attrition": (("skill", "annual_rate"), ("office",)),
+    "budget": (("year",), ("hiring", "moves")),
+}
+TRUE_WORDS = {"true", "yes", "y", "1"}
+FALSE_WORDS = {"false", "no", "n", "0"}
+
+
+@dataclass(frozen=True)
+class Problem:
+    """One thing wrong with the input, located as precisely as the input allows."""
+
+    file: str
+    row: int | None
+    column: str | None
+    message: str
+    is_warning: bool = False
+
+    def __str__(self) -> str:
+        where = self.file if self.row is None else f"{self.file}:{self.row}"
+        col = f" {self.column}:" if self.column else ""
+        return f"{where}:{col} {self.message}"
+
+
+class InstanceError(Exception):
+    """The input is invalid; ``problems`` lists everything found, not just the first."""
+
+    def __init__(self, problems: list[Problem]) -> None:
+        self.problems = problems
+        super().__init__("\n".join(str(p) for p in problems))
+
+
+@dataclass(frozen=True)
+class RawTable:
+    """A table as text cells, with the label used in messages (a file or a sheet)."""
+
+    label: str
+    columns: tuple[str, ...]
+    rows: tuple[dict[str, str], ...]
+    first_row_number: int = 2
+
+
+def read_csv_table(path: Path) -> RawTable:
+    with path.open(newline="", encoding="utf-8-sig") as handle:
+        reader = csv.reader(handle)
+        try:
+            header = [h.strip() for h in next(reader)]
+        except StopIteration:
+            return RawTable(path.name, (), ())
+        rows = []
+        for cells in reader:
+            if not any(c.strip() for c in cells):
+                cells = []  # blank line: keep numbering, drop content
+            padded = list(cells) + [""] * (len(header) - len(cells))
+            rows.append({h: padded[i].strip() for i, h in enumerate(header)})
+    return RawTable(path.name, tuple(header), tuple(rows))
+
+
+def read_tables(folder: Path) -> tuple[dict[str, Any], dict[str, RawTable], list[Problem]]:
+    """Settings and raw tables from an instance folder, plus problems of missing files."""
+    problems: list[Problem] = []
+    settings: dict[str, Any] = {}
+    settings_path = folder / "settings.toml"
+    if not folder.is_dir():
+        return {}, {}, [Problem(str(folder), None, None, "instance folder not found")]
+    if settings_path.is_file():
+        try:
+            settings = tomllib.loads(settings_path.read_text(encoding="utf-8"))
+        except tomllib.TOMLDecodeError as exc:
+            problems.append(Problem("settings.toml", None, None, f"not valid TOML: {exc}"))
+    else:
+        problems.append(Problem("settings.toml", None, None, "file is missing"))
+    tables: dict[str, RawTable] = {}
+    for name in REQUIRED_TABLES + OPTIONAL_TABLES:
+        path = folder / f"{name}.csv"
+        if path.is_file():
+            tables[name] = read_csv_table(path)
+        elif name in REQUIRED_TABLES:
+            problems.append(Problem(f"{name}.csv", None, None, "file is missing"))
+    return settings, tables, problems
+
+
+def read_instance(path: str | Path) -> Instance:
+    """Read and validate an instance folder; raise :class:`InstanceError` listing all problems."""
+    folder = Path(path)
+    settings, tables, problems = read_tables(folder)
+    return build_instance(folder.name, settings, tables, problems)
+
+
+# --------------------------------------------------------------------------------------------
+# cell parsing
+
+
+class _Rows:
+    """Iterates a table's rows and collects problems with their locations."""
+
+    def __init__(self, table: RawTable, problems: list[Problem]) -> None:
+        self.table = table
+        self.problems = problems
+        self.row_number = 0
+        self.columns_ok = True
+        required, optional = COLUMNS[_table_name(table.label)]
+        missing = [c for c in required if c not in table.columns]
+        for column in missing:
+            self.problems.append(Problem(table.label, 1, column, "required column is missing"))
+        unknown = [c for c in table.columns if c and c not in required + optional]
+        for column in unknown:
+            self.problems.append(
+                Problem(
+                    table.label,
+                    1,
+                    column,
+                    "unknown column (expected one of: " + ", ".join(required + optional) + ")",
+                    is_warning=True,
+                )
+            )
+        self.columns_ok = not missing
+
+    def __iter__(self) -> Iterator[dict[str, str]]:
+        if not self.columns_ok:
+            return
+        for i, row in enumerate(self.table.rows):
+            self.row_number = self.table.first_row_number + i
+            if any(row.values()):
+                yield row
+
+    def error(self, column: str | None, message: str) -> None:
+        self.problems.append(Problem(self.table.label, self.row_number, column, message))
+
+    def warn(self, column: str | None, message: str) -> None:
+        self.problems.append(
+            Problem(self.table.label, self.row_number, column, message, is_warning=True)
+        )
+
+    def text(self, row: Mapping[str, str], column: str) -> str | None:
+        value = row.get(column, "")
+        if value == "":
+            self.error(column, "is empty; a value is required")
+            return None
+        return value
+
+    def number(
+        self,
+        row: Mapping[str, str],
+        column: str,
+        *,
+        required: bool = True,
+        minimum: float | None = 0.0,
+        maximum: float | None = None,
+        open_minimum: bool = False,
+        integer: bool = False,
+        expected: str | None = None,
+    ) -> float | None:
+        raw = row.get(column, "")
+        what = expected or _describe(minimum, maximum, open_minimum, integer)
+        if raw == "":
+            if required:
+                self.error(column, f"is empty; expected {what}")
+            return None
+        try:
+            value = float(raw)
+        except ValueError:
+            self.error(column, f"'{raw}' is not a number; expected {what}")
+            return None
+        bad = not math.isfinite(value)
+        bad = bad or (integer and value != int(value))
+        bad = bad or (minimum is not None and (value <= minimum if open_minimum else value < minimum))
+        bad = bad or (maximum is not None and value > maximum)
+        if bad:
+            self.error(column, f"'{raw}' is out of range; expected {what}")
+            return None
+        return value
+
+    def boolean(self, row: Mapping[str, str], column: str, default: bool) -> bool:
+        raw = row.get(column, "").lower()
+        if raw == "":
+            return default
+        if raw in TRUE_WORDS:
+            return True
+        if raw in FALSE_WORDS:
+            return False
+        self.error(column, f"'{row.get(column)}' is not a yes/no value; expected true or false")
+        return default
+
+    def reference(self, row: Mapping[str, str], column: str, known: Mapping[str, Any] | set[str],
+                  kind: str, defined_in: str) -> str | None:
+        value = self.text(row, column)
+        if value is not None and value not in known:
+            self.error(column, f"unknown {kind} '{value}'; expected one listed in {defined_in}")
+            return None
+        return value
+
+
+def _describe(minimum: float | None, maximum: float | None, open_minimum: bool,
+              integer: bool) -> str:
+    kind = "a whole number" if integer else "a number"
+    if minimum is not None and maximum is not None:
+        left = "(" if open_minimum else "["
+        return f"{kind} in {left}{minimum:g}, {maximum:g}]"
+    if minimum is not None:
+        return f"{kind} {'>' if open_minimum else '>='} {minimum:g}"
+    return kind
+
+
+def _table_name(label: str) -> str:
+    return label.removesuffix(".csv")
+
+
+SKILL_TOKEN = re.compile(r"^([^:\s]+)(?::([^:\s]+))?$")
+
+
+# --------------------------------------------------------------------------------------------
+# settings
+
+
+def _settings_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
+        tuple[Period, ...], int]:
+    def bad(key: str, message: str) -> None:
+        problems.append(Problem("settings.toml", None, key, message))
+
+    horizon = settings.get("horizon", {})
+    if not isinstance(horizon, dict):
+        bad("horizon", "must be a table")
+        return (), 4
+    periods_per_year = horizon.get("periods_per_year", 4)
+    if not isinstance(periods_per_year, int) or periods_per_year < 1:
+        bad("horizon.periods_per_year", f"'{periods_per_year}' is not a whole number >= 1")
+        periods_per_year = 4
+    default_hours = horizon.get("hours_per_fte")
+    if default_hours is not None and (not isinstance(default_hours, int | float)
+                                      or default_hours <= 0):
+        bad("horizon.hours_per_fte", f"'{default_hours}' is not a number > 0")
+        default_hours = None
+    periods: list[Period] = []
+    listed = horizon.get("periods")
+    if listed is not None:
+        if not isinstance(listed, list) or not listed:
+            bad("horizon.periods", "must be a non-empty list of {name, year[, hours_per_fte]}")
+            return (), periods_per_year
+        for i, entry in enumerate(listed, 1):
+            key = f"horizon.periods[{i}]"
+            if not isinstance(entry, dict) or "name" not in entry or "year" not in entry:
+                bad(key, "needs name and year")
+                continue
+            hours = entry.get("hours_per_fte", default_hours)
+            if not isinstance(hours, int | float) or hours <= 0:
+                bad(key + ".hours_per_fte", "is missing or not a number > 0 (no default given)")
+                continue
+            periods.append(Period(str(entry["name"]), str(entry["year"]), float(hours)))
+    else:
+        start, count = horizon.get("start"), horizon.get("count")
+        match = re.fullmatch(r"(\d{4})-Q([1-4])", str(start)) if start is not None else None
+        if match is None or not isinstance(count, int) or count < 1:
+            bad("horizon", "give either periods = [...] or start = \"YYYY-Qn\" with count = N")
+            return (), periods_per_year
+        if default_hours is None:
+            bad("horizon.hours_per_fte", "is required when periods are generated from start")
+            return (), periods_per_year
+        year, quarter = int(match.group(1)), int(match.group(2))
+        for _ in range(count):
+            periods.append(Period(f"{year}-Q{quarter}", str(year), float(default_hours)))
+            quarter += 1
+            if quarter > 4:
+                year, quarter = year + 1, 1
+    names = [p.name for p in periods]
+    for name in {n for n in names if names.count(n) > 1}:
+        bad("horizon.periods", f"period '{name}' is listed twice")
+    return tuple(periods), periods_per_year
+
+
+def _settings_sections(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
+        Policy, MoveCostDefaults, Objective, SolverSettings]:
+    def section(name: str) -> dict[str, Any]:
+        value = settings.get(name, {})
+        if not isinstance(value, dict):
+            problems.append(Problem("settings.toml", None, name, "must be a table"))
+            return {}
+        return value
+
+    def num(sec: str, table: dict[str, Any], key: str, default: Any, low: float,
+            high: float | None = None, integer: bool = False, allow_none: bool = False) -> Any:
+        if key not in table:
+            return default
+        value = table[key]
+        ok = isinstance(value, int) if integer else isinstance(value, int | float)
+        ok = ok and not isinstance(value, bool) and value >= low
+        ok = ok and (high is None or value <= high)
+        if not ok:
+            what = _describe(low, high, False, integer)
+            problems.append(Problem("settings.toml", None, f"{sec}.{key}",
+                                    f"'{value}' is not valid; expected {what}"))
+            return default
+        return value
+
+    policy_t = section("policy")
+    policy = Policy(
+        max_away_share=float(num("policy", policy_t, "max_away_share", 1.0, 0.0, 1.0)),
+        max_consecutive_detail_periods=num(
+            "policy", policy_t, "max_consecutive_detail_periods", None, 0, integer=True),
+    )
+    costs_t = section("move_costs")
+    defaults = MoveCostDefaults(
+        detail_cost_per_period=float(num("move_costs", costs_t, "detail_cost_per_period", 0.0, 0)),
+        relocation_cost=float(num("move_costs", costs_t, "relocation_cost", 0.0, 0)),
+        same_location_detail_cost_per_period=float(
+            num("move_costs", costs_t, "same_location_detail_cost_per_period", 0.0, 0)),
+        same_location_relocation_cost=float(
+            num("move_costs", costs_t, "same_location_relocation_cost", 0.0, 0)),
+    )
+    obj_t = section("objective")
+    mode = obj_t.get("mode", "shortfall-first")
+    if mode not in ("shortfall-first", "weighted"):
+        problems.append(Problem("settings.toml", None, "objective.mode",
+                                f"'{mode}' is not valid; expected shortfall-first or weighted"))
+        mode = "shortfall-first"
+    objective = Objective(
+        mode=mode,
+        shortfall_cost=float(num("objective", obj_t, "shortfall_cost", 100_000.0, 0)),
+        shortfall_tolerance=float(num("objective", obj_t, "shortfall_tolerance", 1e-6, 0, 0.1)),
+    )
+    solver_t = section("solver")
+    name = solver_t.get("name", "highs")
+    if name not in ("highs", "cbc"):
+        problems.append(Problem("settings.toml", None, "solver.name",
+                                f"'{name}' is not valid; expected highs or cbc"))
+        name = "highs"
+    solver = SolverSettings(
+        name=name,
+        time_limit_seconds=float(num("solver", solver_t, "time_limit_seconds", 300.0, 0.1)),
+        relative_gap=float(num("solver", solver_t, "relative_gap", 1e-4, 0.0, 1.0)),
+        threads=int(num("solver", solver_t, "threads", 1, 1, integer=True)),
+        seed=int(num("solver", solver_t, "seed", 0, 0, integer=True)),
+    )
+    return policy, defaults, objective, solver
+
+
+# --------------------------------------------------------------------------------------------
+# tables
+
+
+def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, RawTable],
+                   problems: list[Problem]) -> Instance:
+    """Validate settings and raw tables into an :class:`Instance` (or raise with all problems)."""
+    periods, periods_per_year = _settings_periods(settings, problems)
+    policy, defaults, objective, solver = _settings_sections(settings, problems)
+    period_index = {p.name: i for i, p in enumerate(periods)}
+
+    def table(name: str) -> RawTable:
+        # A missing file is already reported; read it as empty so other checks still run.
+        return tables.get(name) or RawTable(f"{name}.csv", COLUMNS[name][0], (), 2)
+
+    offices = _read_offices(table("offices"), problems)
+    skills = _read_skills(table("skills"), problems)
+    staff = _read_staff(table("staff"), problems, offices, skills, period_index)
+    demand = _read_demand(table("demand"), problems, offices, skills, periods,
+                          check_empty="demand" in tables)
+    locations = {o.location for o in offices.values()}
+    move_costs = _read_move_costs(tables.get("move_costs"), problems, locations)
+    vacancies = _read_vacancies(tables.get("vacancies"), problems, offices, skills)
+    attrition = _read_attrition(tables.get("attrition"), problems, offices, skills)
+    budgets = _read_budgets(table("budget"), problems, periods)
+
+    # Warnings that do not stop a solve.
+    staffed_skills = {s for p in staff for s, _ in p.skills}
+    warned: set[str] = set()
+    for d in demand:
+        if d.skill not in staffed_skills and d.skill not in warned:
+            warned.add(d.skill)
+            problems.append(Problem("demand.csv", None, "skill",
+                                    f"nobody on staff has skill '{d.skill}'; only hires can "
+                                    "cover it", is_warning=True))
+    homes = {p.home_office for p in staff}
+    for office in offices:
+        if office not in homes:
+            problems.append(Problem("offices.csv", None, "office",
+                                    f"office '{office}' has no staff", is_warning=True))
+
+    errors = [p for p in problems if not p.is_warning]
+    if errors:
+        raise InstanceError(errors + [p for p in problems if p.is_warning])
+    return Instance(
+        name=name,
+        periods=periods,
+        periods_per_year=periods_per_year,
+        offices=tuple(offices.values()),
+        skills=tuple(skills.values()),
+        staff=tuple(staff),
+        demand=tuple(demand),
+        move_costs=move_costs,
+        vacancies=vacancies,
+        attrition=attrition,
+        budgets=tuple(budgets),
+        policy=policy,
+        move_cost_defaults=defaults,
+        objective=objective,
+        solver=solver,
+        warnings=tuple(str(p) for p in problems if p.is_warning),
+    )
+
+
+def _unique(rows: _Rows, column: str, value: str | None, seen: dict[str, int]) -> bool:
+    if value is None:
+        return False
+    if value in seen:
+        rows.error(column, f"'{value}' is listed twice (first at row {seen[value]})")
+        return False
+    seen[value] = rows.row_number
+    return True
+
+
+def _read_offices(table: RawTable, problems: list[Problem]) -> dict[str, Office]:
+    rows, out, seen = _Rows(table, problems), {}, {}
+    for row in rows:
+        name = rows.text(row, "office")
+        location = rows.text(row, "location")
+        seats = rows.number(row, "seats", required=False, integer=True)
+        max_hires = rows.number(row, "max_hires_per_period", required=False, integer=True)
+        if _unique(rows, "office", name, seen) and location is not None and name is not None:
+            out[name] = Office(name, location, None if seats is None else int(seats),
+                               None if max_hires is None else int(max_hires))
+    return out
+
+
+def _read_skills(table: RawTable, problems: list[Problem]) -> dict[str, Skill]:
+    rows, out, seen = _Rows(table, problems), {}, {}
+    for row in rows:
+        name = rows.text(row, "skill")
+        salary = rows.number(row, "salary_per_period")
+        onboarding = rows.number(row, "onboarding_cost")
+        time_to_hire = rows.number(row, "time_to_hire", integer=True)
+        ramp: list[float] = []
+        for token in row.get("ramp", "").split():
+            try:
+                value = float(token)
+            except ValueError:
+                value = math.nan
+            if not 0.0 <= value <= 1.0:
+                rows.error("ramp", f"'{token}' is not valid; expected numbers in [0, 1] "
+                           "separated by spaces, e.g. '0.5 0.8'")
+                break
+            ramp.append(value)
+        ok = None not in (salary, onboarding, time_to_hire)
+        if _unique(rows, "skill", name, seen) and ok and name is not None:
+            out[name] = Skill(name, float(salary), float(onboarding),  # type: ignore[arg-type]
+                              int(time_to_hire), tuple(ramp))  # type: ignore[arg-type]
+    return out
+
+
+def _read_staff(table: RawTable, problems: list[Problem], offices: Mapping[str, Office],
+                skills: Mapping[str, Skill], period_index: Mapping[str, int]) -> list[Person]:
+    rows, out, seen = _Rows(table, problems), [], {}
+    for row in rows:
+        person = rows.text(row, "person")
+        home = rows.reference(row, "home_office", offices, "office", "offices.csv")
+        fte = rows.number(row, "fte", maximum=1.0, open_minimum=True)
+        person_skills = _parse_skills(rows, row.get("skills", ""), skills)
+        can_detail = rows.boolean(row, "can_detail", True)
+        can_relocate = rows.boolean(row, "can_relocate", False)
+        last = row.get("last_period", "")
+        last_period = None
+        if last:
+            if last not in period_index:
+                rows.error("last_period", f"unknown period '{last}'; expected one of the "
+                           "periods in settings.toml")
+            else:
+                last_period = period_index[last]
+        unique = _unique(rows, "person", person, seen)
+        if unique and home and fte is not None and person_skills and person is not None:
+            out.append(Person(person, home, fte, person_skills, can_detail, can_relocate,
+                              last_period))
+    return out
+
+
+def _parse_skills(rows: _Rows, raw: str, skills: Mapping[str, Skill]) -> tuple[
+        tuple[str, float], ...] | None:
+    if not raw:
+        rows.error("skills", "is empty; expected skill:proficiency pairs, e.g. "
+                   "'intake:1.0 statistics:0.6'")
+        return None
+    parsed: list[tuple[str, float]] = []
+    for token in raw.split():
+        match = SKILL_TOKEN.match(token)
+        if match is None:
+            rows.error("skills", f"'{token}' is malformed; expected skill:proficiency, e.g. "
+                       "'intake:0.8'")
+            return None
+        name, value = match.group(1), match.group(2)
+        try:
+            proficiency = 1.0 if value is None else float(value)
+        except ValueError:
+            proficiency = math.nan
+        if name not in skills:
+            rows.error("skills", f"unknown skill '{name}'; expected one listed in skills.csv")
+            return None
+        if not 0.0 < proficiency <= 1.0:
+            rows.error("skills", f"proficiency '{value}' for '{name}' is out of range; "
+                       "expected a number in (0, 1]")
+            return None
+        if any(name == s for s, _ in parsed):
+            rows.error("skills", f"skill '{name}' is listed twice")
+            return None
+        parsed.append((name, proficiency))
+    return tuple(parsed)
+
+
+def _read_demand(table: RawTable, problems: list[Problem], offices: Mapping[str, Office],
+                 skills: Mapping[str, Skill], periods: tuple[Period, ...],
+                 check_empty: bool = True) -> list[Demand]:
+    rows, out = _Rows(table, problems), []
+    seen: dict[tuple[str, str, str], int] = {}
+    period_index = {p.name: i for i, p in enumerate(periods)}
+    for row in rows:
+        office = rows.reference(row, "office", offices, "office", "offices.csv")
+        skill = rows.reference(row, "skill", skills, "skill", "skills.csv")
+        period = rows.reference(row, "period", period_index, "period", "settings.toml")
+        has_fte, has_hours = bool(row.get("fte")), bool(row.get("hours"))
+        fte = hours = None
+        if has_fte and has_hours:
+            rows.error("hours", "both fte and hours are given; expected exactly one")
+        elif has_fte:
+            fte = rows.number(row, "fte")
+        elif has_hours:
+            hours = rows.number(row, "hours")
+        else:
+            rows.error("fte", "neither fte nor hours is given; expected exactly one")
+        priority = rows.number(row, "priority", required=False)
+        if office is None or skill is None or period is None:
+            continue
+        key = (office, skill, period)
+        if key in seen:
+            rows.error(None, f"demand for office '{office}', skill '{skill}', period "
+                       f"'{period}' is listed twice (first at row {seen[key]})")
+            continue
+        seen[key] = rows.row_number
+        t = period_index[period]
+        if hours is not None:
+            fte = hours / periods[t].hours_per_fte
+        if fte is not None:
+            out.append(Demand(office, skill, t, fte, 1.0 if priority is None else priority,
+                              hours))
+    if check_empty and rows.columns_ok and not out and not any(
+            p.file == table.label for p in problems if not p.is_warning):
+        problems.append(Problem(table.label, None, None,
+                                "has no demand rows; expected at least one"))
+    return out
+
+
+def _read_move_costs(table: RawTable | None, problems: list[Problem],
+                     locations: set[str]) -> dict[tuple[str, str], MoveCost]:
+    if table is None:
+        return {}
+    rows, out = _Rows(table, problems), {}
+    for row in rows:
+        known = {loc: None for loc in locations}
+        a = rows.reference(row, "from_location", known, "location", "offices.csv")
+        b = rows.reference(row, "to_location", known, "location", "offices.csv")
+        detail = rows.number(row, "detail_cost_per_period", required=False)
+        relocation = rows.number(row, "relocation_cost", required=False)
+        if a is None or b is None:
+            continue
+        if (a, b) in out:
+            rows.error(None, f"move costs from '{a}' to '{b}' are listed twice")
+            continue
+        out[(a, b)] = MoveCost(detail, relocation)
+    return out
+
+
+def _read_vacancies(table: RawTable | None, problems: list[Problem],
+                    offices: Mapping[str, Office], skills: Mapping[str, Skill]) -> dict[
+                        tuple[str, str], int]:
+    if table is None:
+        return {}
+    rows, out = _Rows(table, problems), {}
+    for row in rows:
+        office = rows.reference(row, "office", offices, "office", "offices.csv")
+        skill = rows.reference(row, "skill", skills, "skill", "skills.csv")
+        count = rows.number(row, "count", integer=True)
+        if office is None or skill is None or count is None:
+            continue
+        if (office, skill) in out:
+            rows.error(None, f"vacancies for '{office}', '{skill}' are listed twice")
+            continue
+        out[(office, skill)] = int(count)
+    return out
+
+
+def _read_attrition(table: RawTable | None, problems: list[Problem],
+                    offices: Mapping[str, Office], skills: Mapping[str, Skill]) -> dict[
+                        tuple[str, str | None], float]:
+    if table is None:
+        return {}
+    rows, out = _Rows(table, problems), {}
+    for row in rows:
+        skill = rows.reference(row, "skill", skills, "skill", "skills.csv")
+        office = None
+        if row.get("office"):
+            office = rows.reference(row, "office", offices, "office", "offices.csv")
+            if office is None:
+                continue
+        rate = rows.number(row, "annual_rate", maximum=1.0, expected="a number in [0, 1)")
+        if rate is not None and rate >= 1.0:
+            rows.error("annual_rate", f"'{row['annual_rate']}' is out of range; expected a "
+                       "number in [0, 1)")
+            continue
+        if skill is None or rate is None:
+            continue
+        if (skill, office) in out:
+            rows.error(None, f"attrition for '{skill}' at '{office or 'any office'}' is "
+                       "listed twice")
+            continue
+        out[(skill, office)] = rate
+    return out
+
+
+def _read_budgets(table: RawTable, problems: list[Problem],
+                  periods: tuple[Period, ...]) -> list[Budget]:
+    rows, out, seen = _Rows(table, problems), [], {}
+    years = {p.year for p in periods}
+    for row in rows:
+        year = rows.text(row, "year")
+        if year is not None and year not in years and periods:
+            rows.error("year", f"budget year '{year}' belongs to no period; expected one of "
+                       + ", ".join(sorted(years)))
+            continue
+        hiring = rows.number(row, "hiring", required=False)
+        moves = rows.number(row, "moves", required=False)
+        if _unique(rows, "year", year, seen) and year is not None:
+            if hiring is None:
+                rows.warn("hiring", f"no hiring cap for {year}")
+            out.append(Budget(year, hiring, moves))
+    listed = {b.year for b in out}
+    if rows.columns_ok:
+        for year in sorted(years - listed):
+            problems.append(Problem(table.label, None, "year",
+                                    f"budget year '{year}' has no row; hiring is uncapped",
+                                    is_warning=True))
+    return out
+

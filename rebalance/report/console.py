@@ -1,0 +1,116 @@
+"""Readable console text for a plan result, an instance check and a verification."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+from rebalance.instance import Instance
+from rebalance.planning import CAUTION, PlanResult
+from rebalance.solve import Status
+from rebalance.verify import Violation
+
+__all__ = ["format_check", "format_summary", "format_violations"]
+
+STATUS_WORDS = {
+    Status.OPTIMAL: "optimal (proven within the relative gap)",
+    Status.FEASIBLE_WITH_GAP: "feasible, not proven optimal (stopped early)",
+    Status.INFEASIBLE: "infeasible: the hard limits cannot all hold",
+    Status.NO_PLAN_IN_TIME: "no plan found within the time limit",
+    Status.ERROR: "solver error",
+    Status.UNKNOWN: "unknown solver outcome",
+}
+
+
+def _money(value: float) -> str:
+    return f"{value:,.0f}"
+
+
+def _table(headers: Sequence[str], rows: Sequence[Sequence[object]]) -> list[str]:
+    cells = [[str(h) for h in headers]] + [[str(c) for c in r] for r in rows]
+    widths = [max(len(r[i]) for r in cells) for i in range(len(headers))]
+
+    def line(r: Sequence[str]) -> str:
+        return "  ".join(c.rjust(w) if i else c.ljust(w)
+                         for i, (c, w) in enumerate(zip(r, widths, strict=True)))
+
+    return [line(cells[0]), "  ".join("-" * w for w in widths)] + [line(r) for r in cells[1:]]
+
+
+def format_check(instance: Instance) -> str:
+    lines = [
+        f"Instance {instance.name}: valid",
+        f"  {len(instance.offices)} offices in {len({o.location for o in instance.offices})} "
+        f"locations, {len(instance.skills)} skills, {len(instance.staff)} staff, "
+        f"{len(instance.periods)} periods ({instance.periods[0].name} to "
+        f"{instance.periods[-1].name}), {len(instance.demand)} demand rows "
+        f"({sum(d.fte for d in instance.demand):,.1f} FTE-periods)",
+    ]
+    lines += [f"  warning: {w}" for w in instance.warnings]
+    return "\n".join(lines)
+
+
+def format_summary(result: PlanResult) -> str:
+    s = result.solve
+    lines = [f"Plan for {result.instance.name}: {STATUS_WORDS[result.status]}"]
+    gap = s.gap
+    lines.append(f"  solver {s.solver_version}; model {result.num_cols:,} columns "
+                 f"({result.num_integer:,} integer) x {result.num_rows:,} rows; "
+                 f"build {result.build_seconds:.2f}s, solve {s.solve_seconds:.2f}s"
+                 + (f", gap {gap:.4%}" if gap is not None else ""))
+    for stage in s.stages:
+        bound = "-" if stage.bound is None else f"{stage.bound:,.6g}"
+        objective = "-" if stage.objective is None else f"{stage.objective:,.6g}"
+        lines.append(f"  stage {stage.name}: {stage.status.value}, objective {objective}, "
+                     f"bound {bound}, {stage.seconds:.2f}s ({stage.solver_words})")
+    if s.conflicts:
+        lines.append("  limits in conflict:")
+        lines += [f"    - {c}" for c in s.conflicts]
+    plan = result.plan
+    if plan is not None:
+        demand = float(plan.coverage["demand_fte"].sum())
+        lines += [
+            "",
+            f"  weighted shortfall   {plan.weighted_shortfall:,.3f} FTE-periods "
+            f"({plan.shortfall_fte:,.3f} unweighted, {plan.shortfall_fte / demand:.1%} of "
+            f"{demand:,.1f} demanded)" if demand else "  no demand",
+            f"  total cost           {_money(plan.total_cost)}",
+            f"  hires                {plan.hires_count()}",
+            f"  detail periods       {len(plan.details)} "
+            f"({plan.details['person'].nunique()} people)",
+            f"  reassignments        {len(plan.reassignments)}",
+            "",
+        ]
+        costs = plan.costs.pivot_table(index="year", columns="kind", values="cost",
+                                       aggfunc="sum", fill_value=0.0)
+        rows = []
+        for year in result.instance.years:
+            budget = result.instance.budget(year)
+            row = costs.loc[year] if year in costs.index else None
+            hiring = 0.0 if row is None else float(row.get("onboarding", 0) + row.get(
+                "new_position_salary", 0))
+            moves = 0.0 if row is None else float(row.get("detail", 0) + row.get("relocation",
+                                                                                    0))
+            cap_h = "no cap" if budget is None or budget.hiring is None else _money(
+                budget.hiring)
+            cap_m = "no cap" if budget is None or budget.moves is None else _money(budget.moves)
+            rows.append((year, _money(hiring), cap_h, _money(moves), cap_m))
+        lines += ["  " + x for x in _table(
+            ("year", "hiring spend", "hiring cap", "moves spend", "moves cap"), rows)]
+        short = (plan.coverage[plan.coverage["shortfall_fte"] > 1e-6]
+                 .groupby("office")["shortfall_fte"].sum().sort_values(ascending=False))
+        if len(short):
+            lines += ["", "  shortfall by office (FTE-periods): " + ", ".join(
+                f"{office} {value:.2f}" for office, value in short.items())]
+        verdict = "passed" if result.verified else f"FAILED ({len(result.violations)} problems)"
+        lines += ["", f"  independent verification: {verdict}"]
+        lines += [f"    - {v}" for v in result.violations[:20]]
+    lines += ["", "  Caution: " + CAUTION]
+    return "\n".join(lines)
+
+
+def format_violations(violations: Sequence[Violation]) -> str:
+    if not violations:
+        return "verification passed: every rule and total checks out"
+    lines = [f"verification failed: {len(violations)} problems"]
+    lines += [f"  - {v}" for v in violations]
+    return "\n".join(lines)

@@ -1,0 +1,465 @@
+"""Solve a :class:`~rebalance.model.Model` with HiGHS (highspy) or CBC (through PuLP).
+
+Status is mapped once, here, from each solver's own words to :class:`Status`.  A plan stopped
+by a time limit is ``feasible_with_gap``, never ``optimal``: PuLP reports ``Optimal`` for a
+CBC run cut short, so its *solution* status is what counts.  The lexicographic objective is
+solved as two stages: least weighted shortfall, then least cost with the shortfall held.
+"""
+
+from __future__ import annotations
+
+import enum
+import math
+import os
+import re
+import sys
+import tempfile
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+from typing import Protocol
+
+import numpy as np
+import scipy.sparse as sp
+
+from rebalance.instance import ObjectiveMode, SolverName
+from rebalance.model import LIMIT_FAMILIES, Model
+
+__all__ = ["BACKENDS", "Backend", "SolveOptions", "SolveResult", "StageResult", "Status", "solve"]
+
+
+class Status(enum.Enum):
+    OPTIMAL = "optimal"
+    """Proven optimal within the requested relative gap."""
+    FEASIBLE_WITH_GAP = "feasible_with_gap"
+    """A plan was found but the solver stopped (time limit) before proving it; see the gap."""
+    INFEASIBLE = "infeasible"
+    """The hard limits cannot all hold at once; the conflicting limits are listed."""
+    NO_PLAN_IN_TIME = "no_plan_in_time"
+    """The time limit ran out before any plan was found."""
+    ERROR = "error"
+    """The solver failed (crashed, ran out of memory, reported an error)."""
+    UNKNOWN = "unknown"
+    """The solver said something this module does not recognise; treat as no plan."""
+
+    @property
+    def has_plan(self) -> bool:
+        return self in (Status.OPTIMAL, Status.FEASIBLE_WITH_GAP)
+
+
+@dataclass(frozen=True)
+class SolveOptions:
+    """How to solve: one small frozen object instead of many keyword arguments."""
+
+    solver: SolverName = "highs"
+    time_limit_seconds: float = 300.0
+    relative_gap: float = 1e-4
+    threads: int = 1
+    seed: int = 0
+    mode: ObjectiveMode = "shortfall-first"
+    shortfall_cost: float = 100_000.0
+    shortfall_tolerance: float = 1e-6
+    progress: Callable[[str], None] | None = field(default=None, compare=False)
+
+
+@dataclass(frozen=True)
+class StageResult:
+    name: str
+    status: Status
+    objective: float | None
+    bound: float | None
+    gap: float | None
+    seconds: float
+    solver_words: str
+
+
+@dataclass(frozen=True)
+class SolveResult:
+    status: Status
+    x: np.ndarray | None
+    stages: tuple[StageResult, ...]
+    solver: str
+    solver_version: str
+    solve_seconds: float
+    conflicts: tuple[str, ...] = ()
+
+    @property
+    def gap(self) -> float | None:
+        gaps = [s.gap for s in self.stages if s.gap is not None]
+        return max(gaps) if gaps else None
+
+
+@dataclass(frozen=True)
+class BackendOutcome:
+    status: Status
+    x: np.ndarray | None
+    objective: float | None
+    bound: float | None
+    words: str
+    seconds: float
+
+
+class Backend(Protocol):
+    """A MIP solver.  Every method must exist: a Protocol, not a base class with ``pass``."""
+
+    name: str
+
+    def version(self) -> str: ...
+
+    def run(self, model: Model, objective: np.ndarray, extra_rows: list[tuple[np.ndarray, float]],
+            options: SolveOptions, time_limit: float, start: np.ndarray | None) -> BackendOutcome:
+        """Minimise ``objective @ x`` over the model plus ``extra_rows`` (row, upper bound)."""
+        ...
+
+
+def relative_gap(objective: float | None, bound: float | None) -> float | None:
+    """Gap as (objective - bound) / |objective|, 0 when both agree to 1e-9 absolute."""
+    if objective is None or bound is None or not math.isfinite(bound):
+        return None
+    diff = objective - bound
+    if diff <= 1e-9 * max(1.0, abs(objective)):
+        return 0.0
+    return diff / max(abs(objective), 1e-9)
+
+
+# --------------------------------------------------------------------------------------------
+# HiGHS
+
+
+_HIGHS_BANNER_SHOWN = False
+
+
+def _new_highs():  # type: ignore[no-untyped-def]
+    """A silent Highs object; the first one made in a process prints a banner to fd 1."""
+    import highspy
+
+    global _HIGHS_BANNER_SHOWN
+    if _HIGHS_BANNER_SHOWN:
+        h = highspy.Highs()
+    else:
+        sys.stdout.flush()
+        saved, devnull = os.dup(1), os.open(os.devnull, os.O_WRONLY)
+        try:
+            os.dup2(devnull, 1)
+            h = highspy.Highs()
+        finally:
+            os.dup2(saved, 1)
+            os.close(saved)
+            os.close(devnull)
+        _HIGHS_BANNER_SHOWN = True
+    h.setOptionValue("output_flag", False)
+    return h
+
+
+class HighsBackend:
+    name = "highs"
+
+    def version(self) -> str:
+        return f"HiGHS {_new_highs().version()}"
+
+    def run(self, model: Model, objective: np.ndarray, extra_rows: list[tuple[np.ndarray, float]],
+            options: SolveOptions, time_limit: float, start: np.ndarray | None) -> BackendOutcome:
+        import highspy
+
+        started = time.perf_counter()
+        matrix, row_lo, row_hi = _stack(model, extra_rows)
+        csc = matrix.tocsc()
+        lp = highspy.HighsLp()
+        lp.num_col_ = model.num_cols
+        lp.num_row_ = int(row_lo.size)
+        lp.col_cost_ = objective.astype(float)
+        lp.col_lower_ = model.col_lower
+        lp.col_upper_ = model.col_upper
+        lp.row_lower_ = row_lo
+        lp.row_upper_ = row_hi
+        lp.a_matrix_.format_ = highspy.MatrixFormat.kColwise
+        lp.a_matrix_.start_ = csc.indptr.astype(np.int32)
+        lp.a_matrix_.index_ = csc.indices.astype(np.int32)
+        lp.a_matrix_.value_ = csc.data
+        lp.integrality_ = [
+            highspy.HighsVarType.kInteger if i else highspy.HighsVarType.kContinuous
+            for i in model.is_integer
+        ]
+        h = _new_highs()
+        h.setOptionValue("time_limit", float(max(time_limit, 0.05)))
+        h.setOptionValue("mip_rel_gap", float(options.relative_gap))
+        h.setOptionValue("random_seed", int(options.seed))
+        h.passModel(lp)
+        if start is not None:
+            solution = highspy.HighsSolution()
+            solution.col_value = list(start)
+            solution.value_valid = True
+            h.setSolution(solution)
+        h.run()
+        status = h.getModelStatus()
+        info = h.getInfo()
+        words = h.modelStatusToString(status)
+        has_solution = info.primal_solution_status == 2  # kSolutionStatusFeasible
+        x = np.asarray(h.getSolution().col_value) if has_solution else None
+        obj = float(info.objective_function_value) if has_solution else None
+        bound = float(info.mip_dual_bound) if model.num_integer else obj
+        MS = highspy.HighsModelStatus
+        if status == MS.kOptimal:
+            mapped = Status.OPTIMAL
+        elif status in (MS.kInfeasible,):
+            mapped = Status.INFEASIBLE
+        elif status in (MS.kTimeLimit, MS.kIterationLimit, MS.kSolutionLimit,
+                        MS.kInterrupt):
+            mapped = Status.FEASIBLE_WITH_GAP if has_solution else Status.NO_PLAN_IN_TIME
+        elif status in (MS.kUnbounded, MS.kUnboundedOrInfeasible, MS.kSolveError,
+                        MS.kModelError, MS.kPresolveError, MS.kPostsolveError,
+                        MS.kMemoryLimit):
+            mapped = Status.ERROR
+        else:
+            mapped = Status.UNKNOWN
+        if mapped is Status.OPTIMAL and not has_solution:
+            mapped = Status.UNKNOWN
+        return BackendOutcome(mapped, x, obj, bound, words, time.perf_counter() - started)
+
+
+# --------------------------------------------------------------------------------------------
+# CBC through PuLP
+
+
+_CBC_RESULT = re.compile(r"^Result - (.*)$", re.M)
+_CBC_OBJECTIVE = re.compile(r"^Objective value:\s*(\S+)", re.M)
+_CBC_BOUND = re.compile(r"^Lower bound:\s*(\S+)", re.M)
+
+
+class CbcBackend:
+    name = "cbc"
+
+    def version(self) -> str:
+        import pulp
+
+        return f"CBC (bundled with PuLP {pulp.__version__})"
+
+    def run(self, model: Model, objective: np.ndarray, extra_rows: list[tuple[np.ndarray, float]],
+            options: SolveOptions, time_limit: float, start: np.ndarray | None) -> BackendOutcome:
+        import pulp
+
+        started = time.perf_counter()
+        matrix, row_lo, row_hi = _stack(model, extra_rows)
+        prob = pulp.LpProblem("rebalance", pulp.LpMinimize)
+        # Names from integer indices: PuLP merges names that differ only in punctuation.
+        variables = [
+            pulp.LpVariable(
+                f"x{j}",
+                lowBound=None if not math.isfinite(lo) else lo,
+                upBound=None if not math.isfinite(hi) else hi,
+                cat=pulp.LpInteger if integer else pulp.LpContinuous,
+            )
+            for j, (lo, hi, integer) in enumerate(
+                zip(model.col_lower, model.col_upper, model.is_integer, strict=True))
+        ]
+        nz = np.flatnonzero(objective)
+        prob.setObjective(pulp.LpAffineExpression(
+            [(variables[j], float(objective[j])) for j in nz]))
+        csr = matrix.tocsr()
+        for i in range(csr.shape[0]):
+            lo_i, hi_i = row_lo[i], row_hi[i]
+            a, z = csr.indptr[i], csr.indptr[i + 1]
+            terms = [(variables[j], float(v))
+                     for j, v in zip(csr.indices[a:z], csr.data[a:z], strict=True)]
+            if not terms:
+                continue  # constant rows are checked before any backend runs
+            if lo_i == hi_i:
+                prob.addConstraint(pulp.LpConstraint(pulp.LpAffineExpression(terms),
+                                                     pulp.LpConstraintEQ, rhs=float(hi_i)),
+                                   name=f"e{i}")
+                continue
+            if math.isfinite(hi_i):
+                prob.addConstraint(pulp.LpConstraint(pulp.LpAffineExpression(terms),
+                                                     pulp.LpConstraintLE, rhs=float(hi_i)),
+                                   name=f"u{i}")
+            if math.isfinite(lo_i):
+                prob.addConstraint(pulp.LpConstraint(pulp.LpAffineExpression(terms),
+                                                     pulp.LpConstraintGE, rhs=float(lo_i)),
+                                   name=f"l{i}")
+        if start is not None:
+            for var, value in zip(variables, start, strict=True):
+                var.setInitialValue(float(round(value)) if var.cat == pulp.LpInteger
+                                    else float(value))
+        with tempfile.TemporaryDirectory(prefix="rebalance-cbc-") as tmp:
+            log_path = Path(tmp) / "cbc.log"
+            solver = pulp.PULP_CBC_CMD(
+                msg=False,
+                timeLimit=max(1.0, time_limit),
+                gapRel=options.relative_gap,
+                threads=options.threads,
+                warmStart=start is not None,
+                logPath=str(log_path),
+                options=[f"randomCbcSeed {options.seed + 1}"],
+            )
+            solver.tmpDir = tmp  # each solve its own folder
+            try:
+                prob.solve(solver)
+            except pulp.PulpSolverError as exc:
+                return BackendOutcome(Status.ERROR, None, None, None, str(exc),
+                                      time.perf_counter() - started)
+            log = log_path.read_text(errors="replace") if log_path.exists() else ""
+        result = _CBC_RESULT.findall(log)
+        words = result[-1].strip() if result else pulp.LpStatus.get(prob.status, "?")
+        sol_status = prob.sol_status
+        has_solution = sol_status in (pulp.LpSolutionOptimal, pulp.LpSolutionIntegerFeasible)
+        x = None
+        obj = None
+        if has_solution:
+            x = np.asarray([v.varValue if v.varValue is not None else 0.0 for v in variables])
+            obj = float(objective @ x)
+        bound = None
+        match = _CBC_BOUND.findall(log)
+        if match:
+            try:
+                bound = float(match[-1])
+            except ValueError:
+                bound = None
+        if sol_status == pulp.LpSolutionOptimal:
+            mapped = Status.OPTIMAL
+            if bound is None:
+                bound = obj
+        elif sol_status == pulp.LpSolutionIntegerFeasible:
+            mapped = Status.FEASIBLE_WITH_GAP
+        elif sol_status == pulp.LpSolutionInfeasible or "infeasible" in words.lower():
+            mapped = Status.INFEASIBLE
+        elif sol_status == pulp.LpSolutionNoSolutionFound:
+            mapped = Status.NO_PLAN_IN_TIME if "time" in words.lower() else Status.UNKNOWN
+        elif sol_status == pulp.LpSolutionUnbounded:
+            mapped = Status.ERROR
+        else:
+            mapped = Status.UNKNOWN
+        return BackendOutcome(mapped, x, obj, bound, words, time.perf_counter() - started)
+
+
+BACKENDS: dict[str, Callable[[], Backend]] = {"highs": HighsBackend, "cbc": CbcBackend}
+
+
+def _stack(model: Model, extra_rows: list[tuple[np.ndarray, float]]) -> tuple[
+        sp.csr_matrix, np.ndarray, np.ndarray]:
+    if not extra_rows:
+        return model.matrix, model.row_lower, model.row_upper
+    extra = sp.csr_matrix(np.vstack([r for r, _ in extra_rows]))
+    matrix = sp.vstack([model.matrix, extra], format="csr")
+    row_lo = np.concatenate([model.row_lower, np.full(len(extra_rows), -math.inf)])
+    row_hi = np.concatenate([model.row_upper, [ub for _, ub in extra_rows]])
+    return matrix, row_lo, row_hi
+
+
+# --------------------------------------------------------------------------------------------
+# the two-stage solve
+
+
+def constant_conflicts(model: Model) -> list[str]:
+    """Rows with no columns whose bounds already fail (e.g. more people at home than seats)."""
+    counts = np.diff(model.matrix.indptr)
+    bad = np.flatnonzero((counts == 0) & ((model.row_upper < -1e-9) | (model.row_lower > 1e-9)))
+    return [_describe_row(model, int(i), None) for i in bad]
+
+
+def _describe_row(model: Model, row: int, excess: float | None) -> str:
+    family, label = model.row_label(row)
+    text = f"{family.replace('_', ' ')}: {label}"
+    if excess is not None:
+        text += f" (over by {excess:.4g})"
+    return text
+
+
+def solve(model: Model, options: SolveOptions) -> SolveResult:
+    """Solve ``model`` lexicographically (or weighted) within one overall time limit."""
+    backend = BACKENDS[options.solver]()
+    started = time.perf_counter()
+    deadline = started + options.time_limit_seconds
+
+    def say(text: str) -> None:
+        if options.progress is not None:
+            options.progress(f"[{time.perf_counter() - started:7.1f}s] {text}")
+
+    conflicts = constant_conflicts(model)
+    if conflicts:
+        return SolveResult(Status.INFEASIBLE, None, (), backend.name, backend.version(),
+                           time.perf_counter() - started, tuple(conflicts))
+
+    stages: list[StageResult] = []
+    if options.mode == "weighted":
+        objective = model.cost + options.shortfall_cost * model.shortfall_weight
+        say("weighted stage: cost + shortfall_cost x weighted shortfall")
+        out = backend.run(model, objective, [], options, deadline - time.perf_counter(), None)
+        stages.append(_stage("weighted", out))
+        return _finish(model, backend, options, stages, out, started, deadline)
+
+    say("stage 1: least priority-weighted shortfall")
+    first = backend.run(model, model.shortfall_weight, [], options,
+                        deadline - time.perf_counter(), None)
+    stages.append(_stage("shortfall", first))
+    if not first.status.has_plan or first.x is None or first.objective is None:
+        return _finish(model, backend, options, stages, first, started, deadline)
+    say(f"stage 1 done: weighted shortfall {first.objective:.6g} ({first.words})")
+    remaining = deadline - time.perf_counter()
+    if remaining <= 0.5:
+        say("no time left for stage 2; keeping the stage-1 plan")
+        return _finish(model, backend, options, stages, first, started, deadline,
+                       final_status=Status.FEASIBLE_WITH_GAP)
+    # Hold the shortfall optimum (its bound if stage 1 stopped early) with a small slack.
+    held = first.objective
+    slack = max(options.shortfall_tolerance * abs(held), 1e-7)
+    say(f"stage 2: least cost with weighted shortfall <= {held + slack:.6g}")
+    second = backend.run(model, model.cost, [(model.shortfall_weight, held + slack)], options,
+                         remaining, first.x)
+    stages.append(_stage("cost", second))
+    if not second.status.has_plan:
+        # Stage 1's plan still stands; stage 2 only failed to improve its cost.
+        say(f"stage 2 found no plan ({second.words}); keeping the stage-1 plan")
+        return _finish(model, backend, options, stages, first, started, deadline,
+                       final_status=Status.FEASIBLE_WITH_GAP)
+    status = Status.OPTIMAL if (first.status is Status.OPTIMAL
+                                and second.status is Status.OPTIMAL) else Status.FEASIBLE_WITH_GAP
+    return _finish(model, backend, options, stages, second, started, deadline,
+                   final_status=status)
+
+
+def _stage(name: str, out: BackendOutcome) -> StageResult:
+    return StageResult(name, out.status, out.objective, out.bound,
+                       relative_gap(out.objective, out.bound) if out.status.has_plan else None,
+                       out.seconds, out.words)
+
+
+def _finish(model: Model, backend: Backend, options: SolveOptions, stages: list[StageResult],
+            last: BackendOutcome, started: float, deadline: float,
+            final_status: Status | None = None) -> SolveResult:
+    status = final_status or last.status
+    conflicts: tuple[str, ...] = ()
+    if status is Status.INFEASIBLE:
+        conflicts = tuple(find_conflicts(model, backend, options,
+                                         max(5.0, deadline - time.perf_counter())))
+    return SolveResult(status, last.x if status.has_plan else None, tuple(stages),
+                       backend.name, backend.version(), time.perf_counter() - started, conflicts)
+
+
+def find_conflicts(model: Model, backend: Backend, options: SolveOptions,
+                   time_limit: float) -> list[str]:
+    """Name the limits that cannot hold together: relax each limit row by an elastic column
+    and minimise the total relaxation; rows that still need relaxing are the conflict."""
+    limit_rows = [i for f in model.rows if f.name in LIMIT_FAMILIES
+                  for i in range(f.start, f.stop) if math.isfinite(model.row_upper[i])]
+    if not limit_rows:
+        return ["the solver reports the model infeasible, but no limit row can be relaxed"]
+    k = len(limit_rows)
+    elastic = sp.csr_matrix((np.full(k, -1.0), (np.asarray(limit_rows), np.arange(k))),
+                            shape=(model.num_rows, k))
+    relaxed = replace(
+        model,
+        matrix=sp.hstack([model.matrix, elastic], format="csr"),
+        col_lower=np.concatenate([model.col_lower, np.zeros(k)]),
+        col_upper=np.concatenate([model.col_upper, np.full(k, math.inf)]),
+        is_integer=np.concatenate([model.is_integer, np.zeros(k, bool)]),
+        shortfall_weight=np.concatenate([model.shortfall_weight, np.zeros(k)]),
+        cost=np.concatenate([model.cost, np.zeros(k)]),
+    )
+    objective = np.concatenate([np.zeros(model.num_cols), np.ones(k)])
+    out = backend.run(relaxed, objective, [], options, time_limit, None)
+    if out.x is None:
+        return [f"the limits conflict, but the analysis found no relaxation ({out.words})"]
+    excess = out.x[model.num_cols:]
+    return [_describe_row(model, limit_rows[i], float(excess[i]))
+            for i in np.flatnonzero(excess > 1e-6)]

@@ -1,0 +1,368 @@
+"""Independent verifier: recompute every rule and total from the instance and plan tables alone.
+
+It never imports a solver or the model builder, and never uses ``assert`` (dropped under
+``-O``): it returns a list of :class:`Violation`, empty when the plan keeps every rule.  The
+sums here are written again on purpose, apart from :mod:`rebalance.plan`, so a slip in plan
+extraction cannot hide itself.
+"""
+
+from __future__ import annotations
+
+import json
+from collections import Counter, defaultdict
+from dataclasses import dataclass
+from pathlib import Path
+
+from rebalance.instance import Instance
+from rebalance.plan import PLAN_TABLES, Plan, read_plan
+
+__all__ = ["Violation", "verify_folder", "verify_plan"]
+
+ABS_TOL = 1e-6
+REL_TOL = 1e-6
+
+
+@dataclass(frozen=True)
+class Violation:
+    rule: str
+    where: str
+    message: str
+
+    def __str__(self) -> str:
+        return f"{self.rule}: {self.where}: {self.message}"
+
+
+def _close(a: float, b: float, tol: float = ABS_TOL) -> bool:
+    return abs(a - b) <= tol + REL_TOL * max(abs(a), abs(b))
+
+
+def _over(value: float, cap: float) -> bool:
+    return value > cap + ABS_TOL + REL_TOL * abs(cap)
+
+
+def verify_folder(instance: Instance, folder: str | Path) -> list[Violation]:
+    """Verify the plan tables (and summary.json, if present) in ``folder``."""
+    path = Path(folder)
+    missing = [name for name in PLAN_TABLES if not (path / f"{name}.csv").exists()]
+    if missing:
+        return [Violation("missing_table", str(path), f"{name}.csv is missing") for name in missing]
+    checker = _Checker(instance, read_plan(path))
+    checker.run()
+    summary_path = path / "summary.json"
+    if summary_path.exists() and not checker.violations:
+        return _check_summary(checker, json.loads(summary_path.read_text()))
+    return checker.violations
+
+
+def verify_plan(instance: Instance, plan: Plan) -> list[Violation]:
+    """All rule violations of ``plan`` against ``instance``."""
+    checker = _Checker(instance, plan)
+    checker.run()
+    return checker.violations
+
+
+class _Checker:
+    def __init__(self, instance: Instance, plan: Plan) -> None:
+        self.i = instance
+        self.plan = plan
+        self.violations: list[Violation] = []
+        self.people = {p.person: p for p in instance.staff}
+        self.offices = {o.name: o for o in instance.offices}
+        self.skills = {s.name: s for s in instance.skills}
+        self.period_ix = {name: t for t, name in enumerate(instance.period_names)}
+        self.T = len(instance.periods)
+
+    def flag(self, rule: str, where: str, message: str) -> None:
+        self.violations.append(Violation(rule, where, message))
+
+    def run(self) -> None:
+        if not self._references_ok():
+            return  # later checks would only repeat the unknown names
+        home = self._check_reassignments()
+        away = self._check_details(home)
+        self._check_work(home, away)
+        self._check_hires()
+        self._check_coverage()
+        self._check_heads(home, away)
+        self._check_costs()
+
+    # -- references ----------------------------------------------------------------------
+    def _references_ok(self) -> bool:
+        ok = True
+        spec = {
+            "details": {"person": self.people, "period": self.period_ix,
+                        "from_office": self.offices, "to_office": self.offices},
+            "reassignments": {"person": self.people, "period": self.period_ix,
+                              "from_office": self.offices, "to_office": self.offices},
+            "hires": {"office": self.offices, "skill": self.skills,
+                      "start_period": self.period_ix},
+            "work": {"person": self.people, "period": self.period_ix, "office": self.offices,
+                     "skill": self.skills},
+        }
+        for table, columns in spec.items():
+            frame = self.plan.table(table)
+            for column in PLAN_TABLES[table]:
+                if column not in frame.columns:
+                    self.flag("missing_column", table, f"column {column} is missing")
+                    ok = False
+            if not ok:
+                continue
+            for column, known in columns.items():
+                for row, value in enumerate(frame[column].astype(str), 2):
+                    if value not in known:
+                        self.flag("unknown_reference", f"{table}.csv:{row}",
+                                  f"{column} '{value}' is not in the instance")
+                        ok = False
+        return ok
+
+    # -- reassignments -------------------------------------------------------------------
+    def _check_reassignments(self) -> dict[str, list[str]]:
+        """Home in force per person and period, after the plan's reassignments."""
+        home = {name: [p.home_office] * self.T for name, p in self.people.items()}
+        seen: Counter[str] = Counter()
+        for row in self.plan.reassignments.itertuples(index=False):
+            where = f"person {row.person} in {row.period}"
+            person = self.people[row.person]
+            t = self.period_ix[row.period]
+            seen[row.person] += 1
+            if seen[row.person] > 1:
+                self.flag("one_reassignment", where, "more than one reassignment")
+            if not person.can_relocate:
+                self.flag("reassignment_allowed", where, "person may not be relocated")
+            if not person.is_present(t):
+                self.flag("reassignment_present", where, "person has left by then")
+            if row.from_office != person.home_office:
+                self.flag("reassignment_from", where,
+                          f"from {row.from_office} but the home is {person.home_office}")
+            if row.to_office == person.home_office:
+                self.flag("reassignment_to", where, "reassigned to the office they are in")
+            expected = self.i.relocation_cost(person.home_office, row.to_office)
+            if not _close(float(row.cost), expected):
+                self.flag("reassignment_cost", where, f"cost {row.cost} but {expected} applies")
+            for s in range(t, self.T):
+                home[row.person][s] = row.to_office
+        return home
+
+    # -- details -------------------------------------------------------------------------
+    def _check_details(self, home: dict[str, list[str]]) -> dict[tuple[str, int], str]:
+        away: dict[tuple[str, int], str] = {}
+        m = self.i.policy.max_consecutive_detail_periods
+        for row in self.plan.details.itertuples(index=False):
+            person = self.people[row.person]
+            t = self.period_ix[row.period]
+            where = f"person {row.person} in {row.period}"
+            if (row.person, t) in away:
+                self.flag("one_detail", where, "two details in one period")
+            away[(row.person, t)] = row.to_office
+            if not person.can_detail:
+                self.flag("detail_allowed", where, "person may not be detailed")
+            if m == 0:
+                self.flag("detail_allowed", where, "details are not allowed by policy")
+            if not person.is_present(t):
+                self.flag("detail_present", where, "person has left by then")
+            if row.from_office != home[row.person][t]:
+                self.flag("detail_from", where, f"from {row.from_office} but the home in force "
+                          f"is {home[row.person][t]}")
+            if row.to_office == home[row.person][t]:
+                self.flag("detail_to", where, "detailed to their own home office")
+            expected = self.i.detail_cost_per_period(home[row.person][t], row.to_office)
+            if not _close(float(row.cost), expected):
+                self.flag("detail_cost", where, f"cost {row.cost} but {expected} applies")
+        if m is not None and m > 0:
+            by_person: dict[str, set[int]] = defaultdict(set)
+            for name, t in away:
+                by_person[name].add(t)
+            for name, periods in by_person.items():
+                for start in range(0, self.T - m):
+                    window = set(range(start, start + m + 1))
+                    if len(periods & window) > m:
+                        self.flag("consecutive_details",
+                                  f"person {name} from {self.i.periods[start].name}",
+                                  f"{len(periods & window)} detail periods in {m + 1} "
+                                  f"consecutive periods; at most {m} allowed")
+        return away
+
+    # -- work ----------------------------------------------------------------------------
+    def _check_work(self, home: dict[str, list[str]], away: dict[tuple[str, int], str]) -> None:
+        totals: dict[tuple[str, int], float] = defaultdict(float)
+        for row in self.plan.work.itertuples(index=False):
+            person = self.people[row.person]
+            t = self.period_ix[row.period]
+            where = f"person {row.person} in {row.period}"
+            fte = float(row.fte)
+            if fte < -ABS_TOL:
+                self.flag("work_negative", where, f"negative fte {fte}")
+            at = away.get((row.person, t), home[row.person][t])
+            if row.office != at:
+                self.flag("work_location", where, f"works at {row.office} but is at {at}")
+            proficiency = person.proficiency(row.skill)
+            if proficiency == 0:
+                self.flag("work_skill", where, f"does not have skill {row.skill}")
+            if not _close(float(row.output_fte), fte * proficiency):
+                self.flag("work_output", where, f"output {row.output_fte} but proficiency "
+                          f"{proficiency} x fte {fte} = {fte * proficiency}")
+            totals[(row.person, t)] += fte
+        for (name, t), total in totals.items():
+            available = self.i.available_fte(self.people[name], t)
+            if _over(total, available):
+                self.flag("work_capacity", f"person {name} in {self.i.periods[t].name}",
+                          f"works {total:.6g} FTE but has {available:.6g} available")
+
+    # -- hires ---------------------------------------------------------------------------
+    def _check_hires(self) -> None:
+        per_office_period: Counter[tuple[str, int]] = Counter()
+        vacancy_used: Counter[tuple[str, str]] = Counter()
+        for row in self.plan.hires.itertuples(index=False):
+            where = f"{row.count} {row.skill} at {row.office} from {row.start_period}"
+            skill = self.skills[row.skill]
+            s = self.period_ix[row.start_period]
+            count = float(row.count)
+            if count != int(count) or count < 1:
+                self.flag("hire_count", where, "count must be a whole number >= 1")
+            if s < skill.time_to_hire:
+                self.flag("time_to_hire", where, f"starts at period index {s}, before "
+                          f"time to hire {skill.time_to_hire}")
+            if row.funding not in ("vacancy", "new"):
+                self.flag("hire_funding", where, f"funding '{row.funding}' is not vacancy/new")
+            if row.funding == "vacancy":
+                vacancy_used[(row.office, row.skill)] += int(count)
+            per_office_period[(row.office, s)] += int(count)
+            if not _close(float(row.onboarding_cost), skill.onboarding_cost * count):
+                self.flag("hire_cost", where, "onboarding cost does not match skills.csv")
+            salary = skill.salary_per_period * (self.T - s) * count if row.funding == "new" \
+                else 0.0
+            if not _close(float(row.salary_cost), salary):
+                self.flag("hire_cost", where, f"salary cost {row.salary_cost} but {salary} "
+                          "applies")
+        for (office, s), count in per_office_period.items():
+            cap = self.offices[office].max_hires_per_period
+            if cap is not None and count > cap:
+                self.flag("max_hires", f"{office} in {self.i.periods[s].name}",
+                          f"{count} hires start; at most {cap} allowed")
+        for (office, skill), used in vacancy_used.items():
+            funded = self.i.vacancies.get((office, skill), 0)
+            if used > funded:
+                self.flag("vacancies", f"{skill} at {office}",
+                          f"{used} hires fill vacancies but {funded} are funded")
+
+    # -- coverage ------------------------------------------------------------------------
+    def _hire_output(self) -> dict[tuple[str, str, int], float]:
+        out: dict[tuple[str, str, int], float] = defaultdict(float)
+        for row in self.plan.hires.itertuples(index=False):
+            skill = self.skills[row.skill]
+            s = self.period_ix[row.start_period]
+            rate = self.i.attrition.get((row.skill, row.office),
+                                        self.i.attrition.get((row.skill, None), 0.0))
+            for t in range(s, self.T):
+                j = t - s
+                productivity = skill.ramp[j] if j < len(skill.ramp) else 1.0
+                out[(row.office, row.skill, t)] += float(row.count) * productivity * (
+                    1.0 - rate) ** (j / self.i.periods_per_year)
+        return out
+
+    def _check_coverage(self) -> None:
+        staff_out: dict[tuple[str, str, int], float] = defaultdict(float)
+        for row in self.plan.work.itertuples(index=False):
+            staff_out[(row.office, row.skill, self.period_ix[row.period])] += float(
+                row.output_fte)
+        hire_out = self._hire_output()
+        reported = {(r.office, r.skill, str(r.period)): r
+                    for r in self.plan.coverage.itertuples(index=False)}
+        weighted = 0.0
+        for d in self.i.demand:
+            name = self.i.periods[d.period].name
+            where = f"{d.skill} at {d.office} in {name}"
+            output = staff_out[(d.office, d.skill, d.period)] + hire_out[
+                (d.office, d.skill, d.period)]
+            shortfall = max(0.0, d.fte - output)
+            weighted += d.priority * shortfall
+            row = reported.get((d.office, d.skill, name))
+            if row is None:
+                self.flag("coverage_missing", where, "demand row missing from coverage.csv")
+                continue
+            if not _close(float(row.demand_fte), d.fte):
+                self.flag("coverage_demand", where, f"demand {row.demand_fte} but {d.fte}")
+            if not _close(float(row.shortfall_fte), shortfall):
+                self.flag("coverage_shortfall", where, f"shortfall {row.shortfall_fte} but "
+                          f"recomputed {shortfall:.6g}")
+        if len(reported) != len(self.i.demand):
+            self.flag("coverage_rows", "coverage.csv",
+                      f"{len(reported)} rows for {len(self.i.demand)} demand rows")
+        self.weighted_shortfall = weighted
+
+    # -- heads: away share and seats -------------------------------------------------------
+    def _check_heads(self, home: dict[str, list[str]], away: dict[tuple[str, int], str]) -> None:
+        share = self.i.policy.max_away_share
+        present: Counter[tuple[str, int]] = Counter()
+        gone: Counter[tuple[str, int]] = Counter()
+        arrived: Counter[tuple[str, int]] = Counter()
+        for name, person in self.people.items():
+            for t in range(self.T):
+                if person.is_present(t):
+                    present[(home[name][t], t)] += 1
+        for (name, t), office in away.items():
+            gone[(home[name][t], t)] += 1
+            arrived[(office, t)] += 1
+        hires_held: Counter[tuple[str, int]] = Counter()
+        for row in self.plan.hires.itertuples(index=False):
+            for t in range(self.period_ix[row.start_period], self.T):
+                hires_held[(row.office, t)] += int(row.count)
+        for office in self.i.offices:
+            for t in range(self.T):
+                where = f"{office.name} in {self.i.periods[t].name}"
+                if _over(gone[(office.name, t)], share * present[(office.name, t)]):
+                    self.flag("away_share", where, f"{gone[(office.name, t)]} of "
+                              f"{present[(office.name, t)]} people away; at most {share:g} "
+                              "of them may be")
+                if office.seats is not None:
+                    used = (present[(office.name, t)] - gone[(office.name, t)]
+                            + arrived[(office.name, t)] + hires_held[(office.name, t)])
+                    if used > office.seats:
+                        self.flag("seats", where, f"{used} seats used; {office.seats} exist")
+
+    # -- costs and budgets -----------------------------------------------------------------
+    def _check_costs(self) -> None:
+        year_of = [p.year for p in self.i.periods]
+        spend: dict[tuple[str, str], float] = defaultdict(float)
+        for row in self.plan.details.itertuples(index=False):
+            spend[(year_of[self.period_ix[row.period]], "detail")] += float(row.cost)
+        for row in self.plan.reassignments.itertuples(index=False):
+            spend[(year_of[self.period_ix[row.period]], "relocation")] += float(row.cost)
+        for row in self.plan.hires.itertuples(index=False):
+            skill = self.skills[row.skill]
+            s = self.period_ix[row.start_period]
+            spend[(year_of[s], "onboarding")] += skill.onboarding_cost * float(row.count)
+            if row.funding == "new":
+                for t in range(s, self.T):
+                    spend[(year_of[t], "new_position_salary")] += (
+                        skill.salary_per_period * float(row.count))
+        reported = {(str(r.year), r.kind): float(r.cost)
+                    for r in self.plan.costs.itertuples(index=False)}
+        for key in set(spend) | set(reported):
+            if not _close(spend.get(key, 0.0), reported.get(key, 0.0), tol=1e-4):
+                self.flag("costs", f"{key[1]} in {key[0]}", f"costs.csv says "
+                          f"{reported.get(key, 0.0):.2f}; recomputed {spend.get(key, 0.0):.2f}")
+        for year in self.i.years:
+            budget = self.i.budget(year)
+            if budget is None:
+                continue
+            hiring = spend[(year, "onboarding")] + spend[(year, "new_position_salary")]
+            moves = spend[(year, "detail")] + spend[(year, "relocation")]
+            if budget.hiring is not None and _over(hiring, budget.hiring):
+                self.flag("hiring_budget", year, f"hiring spend {hiring:.2f} exceeds "
+                          f"{budget.hiring:.2f}")
+            if budget.moves is not None and _over(moves, budget.moves):
+                self.flag("moves_budget", year, f"moves spend {moves:.2f} exceeds "
+                          f"{budget.moves:.2f}")
+        self.total_cost = sum(spend.values())
+
+
+def _check_summary(checker: _Checker, summary: dict[str, object]) -> list[Violation]:
+    out = []
+    for key, value in (("weighted_shortfall", checker.weighted_shortfall),
+                       ("total_cost", checker.total_cost)):
+        reported = summary.get(key)
+        if not isinstance(reported, int | float) or not _close(float(reported), value, tol=1e-4):
+            out.append(Violation("summary", f"summary.json {key}",
+                                 f"says {reported}; recomputed {value:.6g}"))
+    return out

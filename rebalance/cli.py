@@ -103,6 +103,36 @@ def cmd_verify(args: argparse.Namespace) -> int:
     return EXIT_OK if not violations else EXIT_VERIFICATION_FAILED
 
 
+def cmd_generate(args: argparse.Namespace) -> int:
+    from rebalance.generate import generate, spec_for_size, write_generated
+
+    out = Path(args.out)
+    if out.exists() and (not out.is_dir() or any(out.iterdir())) and not args.force:
+        _err(f"{out}: already exists and is not empty; give --force to replace it")
+        return EXIT_USAGE
+    spec = spec_for_size(
+        args.size, staff=args.staff, offices=args.offices, skills=args.skills,
+        periods=args.periods, seed=args.seed, multi_skill_share=args.multi_skill_share,
+        pool_size=args.pool_size, surge_factor=args.surge_factor,
+        budget_tightness=args.budget_tightness, vacancy_share=args.vacancy_share,
+        attrition_scale=args.attrition_scale, leaver_share=args.leaver_share)
+    problems = spec.problems()
+    if problems:
+        for problem in problems:
+            _err(f"generate: {problem}")
+        return EXIT_USAGE
+    generated = generate(spec)
+    write_generated(generated, out)
+    print(f"wrote {out}/: {spec.staff} staff in {spec.offices} offices "
+          f"({len(generated.cities)} fictional cities), {spec.skills} skills, "
+          f"{spec.periods} periods, {generated.groups} groups of interchangeable people")
+    print(f"  short: {', '.join(generated.short_offices)}")
+    print(f"  surplus: {', '.join(generated.surplus_offices)}")
+    print(f"  surge: {', '.join(generated.surge_offices)} in "
+          f"{' and '.join(generated.surge_periods)}")
+    return EXIT_OK
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="rebalance",
@@ -127,6 +157,28 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("instance")
     p.add_argument("plan_dir")
     p.set_defaults(run=cmd_verify)
+
+    p = sub.add_parser("generate", help="write a synthetic instance folder (fictional, seeded)")
+    p.add_argument("out", help="folder to write")
+    p.add_argument("--size", choices=("small", "medium", "agency", "large"), default="small",
+                   help="preset counts (staff/offices/skills/periods); the options below win")
+    p.add_argument("--staff", type=int)
+    p.add_argument("--offices", type=int)
+    p.add_argument("--skills", type=int)
+    p.add_argument("--periods", type=int, help="quarters from 2027-Q1")
+    p.add_argument("--seed", type=int, default=0)
+    p.add_argument("--multi-skill-share", type=float, help="share of groups with 2+ skills")
+    p.add_argument("--pool-size", type=float,
+                   help="mean people per group of interchangeable people (job-family compression)")
+    p.add_argument("--surge-factor", type=float,
+                   help="demand multiplier at surge offices in the two surge periods")
+    p.add_argument("--budget-tightness", type=float,
+                   help="budgets as a share of the cost of closing every gap by hiring")
+    p.add_argument("--vacancy-share", type=float, help="funded vacancies per head")
+    p.add_argument("--attrition-scale", type=float, help="multiplier on attrition rates")
+    p.add_argument("--leaver-share", type=float, help="share of people with a last period")
+    p.add_argument("--force", action="store_true", help="replace OUT if it exists")
+    p.set_defaults(run=cmd_generate)
     return parser
 
 

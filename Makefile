@@ -22,5 +22,11 @@ lint: $(STAMP)
 	$(BIN)/ruff check rebalance tests benchmarks
 	$(BIN)/mypy rebalance
 
+# Generates each size, solves it with both backends (one case at a time, one thread) and
+# rewrites benchmarks/results/<date>.csv and docs/benchmarks.md.  Takes minutes, not seconds.
+BENCH_ARGS ?= --sizes small,medium
+bench: $(STAMP)
+	$(BIN)/python benchmarks/run.py $(BENCH_ARGS)
+
 clean:
 	rm -rf $(VENV) out

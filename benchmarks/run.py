@@ -1,0 +1,462 @@
+"""Benchmark `rebalance` on generated instances; write a results CSV and docs/benchmarks.md.
+
+    .venv/bin/python benchmarks/run.py --sizes small,medium          # or: make bench
+    .venv/bin/python benchmarks/run.py --sizes agency --backends highs --time-limit agency=300
+    .venv/bin/python benchmarks/run.py --docs-only                     # rebuild the page only
+
+For each size the instance is generated (``rebalance.generate``, seed 0 unless ``--seed``),
+then every (backend, formulation) case runs in its own subprocess, one at a time, with
+``threads=1``, so that peak memory is per case and the machine stays usable for others.  Each
+case goes through the public API only: ``read_instance`` -> ``make_plan`` (which builds with
+``build_model``, solves with ``solve`` and verifies the named plan).  When ``build_model``
+takes a ``pooled`` keyword both formulations are measured; the person-level one only up to
+``--person-max-staff`` people, since past that it cannot finish inside its limit (see the
+page).  Results for the same day are merged by (size, backend, formulation), so sizes can be
+run separately and still land in one table.
+
+This is not part of the test run: it takes minutes, and timings are machine facts.
+"""
+
+from __future__ import annotations
+
+import argparse
+import csv
+import datetime as dt
+import functools
+import inspect
+import json
+import os
+import platform
+import resource
+import subprocess
+import sys
+import time
+from collections.abc import Sequence
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parent.parent
+RESULTS = ROOT / "benchmarks" / "results"
+RAW = RESULTS / "raw"  # generated instances and solver logs; not committed (.gitignore)
+NOTES = ROOT / "benchmarks" / "notes.md"
+DOC = ROOT / "docs" / "benchmarks.md"
+SIZES = ("small", "medium", "agency", "large")
+BACKENDS = ("highs", "cbc")
+TIME_LIMITS = {"small": 60.0, "medium": 120.0, "agency": 180.0, "large": 600.0}
+COLUMNS = (
+    "date", "size", "staff", "offices", "skills", "periods", "seed", "groups", "backend",
+    "formulation", "time_limit_s", "relative_gap", "status", "verified", "columns", "rows",
+    "integer_columns", "read_s", "build_s", "stage1_s", "stage2_s", "solve_s", "extract_s",
+    "verify_s", "wall_s", "stage1_status", "stage1_gap", "stage2_status", "stage2_gap", "gap",
+    "weighted_shortfall", "total_cost", "peak_mib", "solver_peak_mib", "note",
+)
+
+
+# --------------------------------------------------------------------------------------------
+# one case, in a subprocess
+
+
+def _peak_mib() -> tuple[float, float]:
+    """Peak resident memory of this process and of its largest finished child (CBC), MiB."""
+    own = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024  # KiB on Linux
+    child = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024
+    return round(own, 1), round(child, 1)
+
+
+def run_case(case: dict[str, object]) -> dict[str, object]:
+    """Solve one instance with one backend and formulation; return a result row."""
+    from rebalance.model import build_model
+    from rebalance.planning import make_plan, options_from_instance
+    from rebalance.readers import read_instance
+
+    started = time.perf_counter()
+    log = Path(str(case["log"]))
+    log.parent.mkdir(parents=True, exist_ok=True)
+    handle = log.open("w", encoding="utf-8")
+
+    def progress(text: str) -> None:
+        handle.write(f"{time.perf_counter() - started:8.2f} {text}\n")
+        handle.flush()
+
+    instance = read_instance(str(case["instance"]))
+    read_s = time.perf_counter() - started
+    formulation = str(case["formulation"])
+    build = build_model
+    if "pooled" in inspect.signature(build_model).parameters:
+        build = functools.partial(build_model, pooled=formulation == "pooled")
+    options = options_from_instance(
+        instance, solver=case["backend"], time_limit_seconds=float(case["time_limit"]),  # type: ignore[arg-type]
+        relative_gap=float(case["gap"]), threads=1, seed=0, progress=progress)  # type: ignore[arg-type]
+    if "build" in inspect.signature(make_plan).parameters:
+        result = make_plan(instance, options, build=build)
+    else:
+        result = make_plan(instance, options)
+    wall = time.perf_counter() - started
+    handle.close()
+    stages = {s.name: s for s in result.solve.stages}
+    first = stages.get("shortfall") or stages.get("weighted")
+    second = stages.get("cost")
+    own, child = _peak_mib()
+    plan = result.plan
+    return {
+        "status": result.status.value,
+        "verified": result.verified,
+        "columns": result.num_cols,
+        "rows": result.num_rows,
+        "integer_columns": result.num_integer,
+        "read_s": round(read_s, 2),
+        "build_s": round(result.build_seconds, 2),
+        "stage1_s": round(first.seconds, 2) if first else "",
+        "stage2_s": round(second.seconds, 2) if second else "",
+        "solve_s": round(result.solve.solve_seconds, 2),
+        "extract_s": round(result.extract_seconds, 2),
+        "verify_s": round(result.verify_seconds, 2),
+        "wall_s": round(wall, 2),
+        "stage1_status": first.status.value if first else "",
+        "stage1_gap": _fmt_gap(first.gap) if first else "",
+        "stage2_status": second.status.value if second else "",
+        "stage2_gap": _fmt_gap(second.gap) if second else "",
+        "gap": _fmt_gap(result.solve.gap),
+        "weighted_shortfall": round(plan.weighted_shortfall, 3) if plan is not None else "",
+        "total_cost": round(plan.total_cost) if plan is not None else "",
+        "peak_mib": own,
+        "solver_peak_mib": child if case["backend"] == "cbc" else "",
+        "note": "; ".join(str(v) for v in result.violations[:2]),
+    }
+
+
+def _fmt_gap(gap: float | None) -> str:
+    return "" if gap is None else f"{gap:.5f}"
+
+
+# --------------------------------------------------------------------------------------------
+# the driver
+
+
+def _limit_memory(gib: float) -> None:
+    cap = int(gib * 1024 ** 3)
+    resource.setrlimit(resource.RLIMIT_AS, (cap, cap))
+
+
+def _formulations(staff: int, person_max_staff: int) -> list[tuple[str, str]]:
+    """(formulation, reason to skip or '') for the build_model found at run time."""
+    from rebalance.model import build_model
+
+    if "pooled" not in inspect.signature(build_model).parameters:
+        return [("default", "")]
+    person_skip = "" if staff <= person_max_staff else (
+        f"skipped: person-level model of {staff} staff is beyond --person-max-staff "
+        f"{person_max_staff}")
+    return [("pooled", ""), ("person", person_skip)]
+
+
+def run_size(size: str, args: argparse.Namespace, date: str) -> list[dict[str, object]]:
+    from rebalance.generate import generate, spec_for_size, write_generated
+
+    spec = spec_for_size(size, seed=args.seed)
+    t0 = time.perf_counter()
+    generated = generate(spec)
+    folder = RAW / "instances" / f"{size}-seed{args.seed}"
+    write_generated(generated, folder)
+    print(f"== {size}: generated {folder.relative_to(ROOT)} in {time.perf_counter() - t0:.2f}s "
+          f"({spec.staff} staff, {generated.groups} groups)", flush=True)
+    base: dict[str, object] = {
+        "date": date, "size": size, "staff": spec.staff, "offices": spec.offices,
+        "skills": spec.skills, "periods": spec.periods, "seed": spec.seed,
+        "groups": generated.groups, "time_limit_s": args.limits[size],
+        "relative_gap": args.gap,
+    }
+    rows = []
+    for backend in args.backends:
+        for formulation, skip in _formulations(spec.staff, args.person_max_staff):
+            row = dict(base, backend=backend, formulation=formulation)
+            if skip:
+                row.update(status="not_run", note=skip)
+                rows.append(row)
+                print(f"   {backend:5} {formulation:7} {skip}", flush=True)
+                continue
+            case = {"instance": str(folder), "backend": backend, "formulation": formulation,
+                    "time_limit": args.limits[size], "gap": args.gap,
+                    "log": str(RAW / "logs" / f"{date}-{size}-{backend}-{formulation}.log")}
+            # The solve enforces its own limit; the kill is only a backstop for an overrun.
+            kill_after = args.limits[size] * 1.5 + 120
+            started = time.perf_counter()
+            try:
+                done = subprocess.run(
+                    [sys.executable, __file__, "--case", json.dumps(case),
+                     "--memory-gib", str(args.memory_gib)],
+                    capture_output=True, text=True, timeout=kill_after, cwd=ROOT,
+                    env=dict(os.environ, OMP_NUM_THREADS="1"))
+            except subprocess.TimeoutExpired:
+                row.update(status="killed", wall_s=round(time.perf_counter() - started, 1),
+                           note=f"no answer within {kill_after:.0f}s; killed")
+            else:
+                lines = [ln for ln in done.stdout.splitlines() if ln.startswith("{")]
+                if done.returncode == 0 and lines:
+                    row.update(json.loads(lines[-1]))
+                else:
+                    tail = (done.stderr.strip().splitlines() or ["no output"])[-1]
+                    row.update(status="crashed", wall_s=round(time.perf_counter() - started, 1),
+                               note=f"exit {done.returncode}: {tail[:200]}")
+            rows.append(row)
+            print(f"   {backend:5} {formulation:7} {row['status']:18} gap {row.get('gap', '')!s:8} "
+                  f"wall {row.get('wall_s', '')}s build {row.get('build_s', '')}s "
+                  f"peak {row.get('peak_mib', '')} MiB {row.get('note', '')}", flush=True)
+    return rows
+
+
+def _read_csv(path: Path) -> list[dict[str, str]]:
+    if not path.exists():
+        return []
+    with path.open(newline="") as handle:
+        return list(csv.DictReader(handle))
+
+
+def merge_results(path: Path, new_rows: list[dict[str, object]]) -> list[dict[str, str]]:
+    """Same-day rows with the same (size, backend, formulation) are replaced by new ones."""
+    key = ("size", "backend", "formulation")
+    fresh = {tuple(str(r[k]) for k in key) for r in new_rows}
+    kept = [r for r in _read_csv(path) if tuple(r[k] for k in key) not in fresh]
+    rows = kept + [{c: str(r.get(c, "")) for c in COLUMNS} for r in new_rows]
+    rows.sort(key=lambda r: (SIZES.index(r["size"]) if r["size"] in SIZES else 9,
+                             r["backend"], r["formulation"]))
+    path.parent.mkdir(parents=True, exist_ok=True)
+    tmp = path.with_suffix(".tmp")
+    with tmp.open("w", newline="") as handle:
+        out = csv.DictWriter(handle, fieldnames=list(COLUMNS), lineterminator="\n")
+        out.writeheader()
+        out.writerows(rows)
+    os.replace(tmp, path)
+    return rows
+
+
+def machine() -> list[tuple[str, str]]:
+    from importlib.metadata import version
+
+    import pulp
+
+    cpu = "unknown"
+    cpuinfo = Path("/proc/cpuinfo")
+    if cpuinfo.exists():
+        for line in cpuinfo.read_text().splitlines():
+            if line.startswith("model name"):
+                cpu = line.split(":", 1)[1].strip()
+                break
+    memory = "unknown"
+    meminfo = Path("/proc/meminfo")
+    if meminfo.exists():
+        for line in meminfo.read_text().splitlines():
+            if line.startswith("MemTotal"):
+                memory = f"{int(line.split()[1]) / 1024 ** 2:.1f} GiB"
+    cbc = "unknown"
+    try:
+        text = subprocess.run([pulp.PULP_CBC_CMD().path, "-quit"], capture_output=True,
+                              text=True, timeout=20).stdout
+        cbc = next((ln.split(":", 1)[1].strip() for ln in text.splitlines()
+                    if ln.startswith("Version")), "unknown")
+    except (OSError, subprocess.SubprocessError):
+        pass
+    commit = subprocess.run(["git", "describe", "--always", "--dirty"], capture_output=True,
+                            text=True, cwd=ROOT).stdout.strip() or "unknown"
+    return [
+        ("CPU", cpu), ("cores", str(os.cpu_count())), ("memory", memory),
+        ("OS", f"{platform.system()} {platform.release()}"),
+        ("Python", platform.python_version()), ("HiGHS (highspy)", version("highspy")),
+        ("PuLP", pulp.__version__), ("CBC (bundled with PuLP)", cbc),
+        ("rebalance commit", commit),
+    ]
+
+
+def _num(value: str) -> float | None:
+    try:
+        return float(value)
+    except ValueError:
+        return None
+
+
+def _cell(value: str, kind: str = "") -> str:
+    if value in ("", "None"):
+        return "–"
+    if kind == "gap":
+        v = _num(value)
+        return value if v is None else f"{v:.2%}"
+    if kind == "int":
+        v = _num(value)
+        return value if v is None else f"{int(v):,}"
+    return value
+
+
+def _dominant(row: dict[str, str]) -> str:
+    parts = {"read": row["read_s"], "build": row["build_s"], "stage 1": row["stage1_s"],
+             "stage 2": row["stage2_s"], "extract": row["extract_s"], "verify": row["verify_s"]}
+    values = {k: _num(v) or 0.0 for k, v in parts.items()}
+    wall = _num(row["wall_s"]) or sum(values.values())
+    if wall <= 0:
+        return "–"
+    name = max(values, key=lambda k: values[k])
+    build_share = (values["build"] + values["extract"]) / wall
+    return f"{name} {values[name] / wall:.0%}; build+extract {build_share:.0%}"
+
+
+def _targets(rows: list[dict[str, str]], default_backend: str) -> list[str]:
+    """The targets of issue 3, checked against the rows of the default backend."""
+    def case(size: str) -> dict[str, str] | None:
+        found = [r for r in rows if r["size"] == size and r["backend"] == default_backend
+                 and r["formulation"] in ("pooled", "default")]
+        return found[0] if found else None
+
+    out = []
+    medium = case("medium")
+    if medium is None:
+        out.append("- medium (both stages proven within 1% in under 60 s): not run")
+    else:
+        gaps = [_num(medium["stage1_gap"]), _num(medium["stage2_gap"])]
+        ok = (all(g is not None and g <= 0.01 for g in gaps)
+              and (_num(medium["wall_s"]) or 1e9) < 60 and medium["verified"] == "True")
+        out.append(f"- medium (both stages proven within 1% in under 60 s): "
+                   f"{'met' if ok else 'MISSED'} — {medium['status']}, stage gaps "
+                   f"{_cell(medium['stage1_gap'], 'gap')} / {_cell(medium['stage2_gap'], 'gap')},"
+                   f" {medium['wall_s']} s")
+    agency = case("agency")
+    if agency is None:
+        out.append("- agency (verified plan within 1% in under 120 s, peak under 4 GiB): not run")
+    else:
+        gap = _num(agency["gap"])
+        ok = (agency["verified"] == "True" and gap is not None and gap <= 0.01
+              and (_num(agency["wall_s"]) or 1e9) < 120
+              and (_num(agency["peak_mib"]) or 1e9) < 4096)
+        out.append(f"- agency (verified plan within 1% in under 120 s, peak under 4 GiB): "
+                   f"{'met' if ok else 'MISSED'} — {agency['status']}, gap "
+                   f"{_cell(agency['gap'], 'gap')}, {agency['wall_s']} s, "
+                   f"{agency['peak_mib']} MiB")
+    large = case("large")
+    if large is None:
+        out.append("- large (verified plan with its gap in under 10 minutes): not run")
+    else:
+        ok = (large["verified"] == "True" and large["gap"] != ""
+              and (_num(large["wall_s"]) or 1e9) < 600)
+        out.append(f"- large (verified plan with its gap in under 10 minutes): "
+                   f"{'met' if ok else 'MISSED'} — {large['status']}, gap "
+                   f"{_cell(large['gap'], 'gap')}, {large['wall_s']} s")
+    return out
+
+
+def write_doc(rows: list[dict[str, str]], csv_path: Path) -> None:
+    from rebalance.solve import SolveOptions
+
+    default_backend = SolveOptions().solver
+    lines = [
+        "# Benchmarks",
+        "",
+        "Generated by `benchmarks/run.py` (run `make bench`, or "
+        "`.venv/bin/python benchmarks/run.py --sizes small,medium`); do not edit by hand —",
+        "the commentary comes from `benchmarks/notes.md`. Raw numbers: "
+        f"`{csv_path.relative_to(ROOT)}`.",
+        "",
+        "Each size is generated with `rebalance generate --size SIZE --seed 0` (counts: staff /",
+        "offices / skills / quarters). Every case runs alone in its own process with one solver",
+        "thread, through the public API (`read_instance`, then `make_plan`, which builds the",
+        "model, solves both stages within one wall-clock limit, names people and verifies the",
+        "plan). Peak memory is the process's maximum resident set; for CBC, which PuLP runs as",
+        "a separate program, the solver's own peak is listed beside it. Gaps are relative;",
+        "stage 1 is least weighted shortfall, stage 2 least cost with that shortfall held.",
+        "",
+        "## Machine",
+        "",
+        "| | |",
+        "|---|---|",
+    ]
+    lines += [f"| {k} | {v} |" for k, v in machine()]
+    lines += ["", f"Default backend (`SolveOptions().solver`): `{default_backend}`.", "",
+              "## Targets of issue 3 (default backend)", ""]
+    lines += _targets(rows, default_backend)
+    lines += ["", "## Results", "",
+              "| size | staff / offices / skills / periods (groups) | backend | formulation "
+              "| limit s | status | verified | columns | rows | integer | build s | stage 1 s "
+              "| stage 2 s | wall s | stage 1 gap | stage 2 gap | peak MiB | solver MiB "
+              "| most time |",
+              "|" + "---|" * 19]
+    for r in rows:
+        sizes = (f"{_cell(r['staff'], 'int')} / {r['offices']} / {r['skills']} / "
+                 f"{r['periods']} ({_cell(r['groups'], 'int')})")
+        dominant = _dominant(r) if r["status"] not in ("not_run", "killed", "crashed") else "–"
+        lines.append(
+            f"| {r['size']} | {sizes} | {r['backend']} | {r['formulation']} "
+            f"| {_cell(r['time_limit_s'])} | {r['status']} | {_cell(r['verified'])} "
+            f"| {_cell(r['columns'], 'int')} | {_cell(r['rows'], 'int')} "
+            f"| {_cell(r['integer_columns'], 'int')} | {_cell(r['build_s'])} "
+            f"| {_cell(r['stage1_s'])} | {_cell(r['stage2_s'])} | {_cell(r['wall_s'])} "
+            f"| {_cell(r['stage1_gap'], 'gap')} | {_cell(r['stage2_gap'], 'gap')} "
+            f"| {_cell(r['peak_mib'])} | {_cell(r['solver_peak_mib'])} | {dominant} |")
+    notes = [r for r in rows if r["note"]]
+    if notes:
+        lines += ["", "Notes on cases:", ""]
+        lines += [f"- {r['size']} / {r['backend']} / {r['formulation']}: {r['note']}"
+                  for r in notes]
+    if NOTES.exists():
+        lines += ["", NOTES.read_text(encoding="utf-8").strip()]
+    DOC.parent.mkdir(parents=True, exist_ok=True)
+    tmp = DOC.with_suffix(".tmp")
+    tmp.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    os.replace(tmp, DOC)
+
+
+def _parse_limits(text: str) -> dict[str, float]:
+    limits = dict(TIME_LIMITS)
+    for part in filter(None, text.split(",")):
+        size, _, value = part.partition("=")
+        if size not in SIZES or not value:
+            raise argparse.ArgumentTypeError(f"'{part}': expected SIZE=SECONDS, e.g. small=60")
+        limits[size] = float(value)
+    return limits
+
+
+def _parse_list(allowed: Sequence[str]):
+    def parse(text: str) -> list[str]:
+        items = [t for t in text.split(",") if t]
+        bad = [t for t in items if t not in allowed]
+        if bad or not items:
+            raise argparse.ArgumentTypeError(f"expected a comma list of {', '.join(allowed)}")
+        return items
+    return parse
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0] if __doc__ else "")
+    parser.add_argument("--sizes", type=_parse_list(SIZES), default=["small", "medium"])
+    parser.add_argument("--backends", type=_parse_list(BACKENDS), default=list(BACKENDS))
+    parser.add_argument("--time-limit", dest="limits", type=_parse_limits, default=TIME_LIMITS,
+                        help="per-size seconds for the whole run, e.g. small=60,agency=300")
+    parser.add_argument("--gap", type=float, default=0.01, help="relative gap to stop at")
+    parser.add_argument("--seed", type=int, default=0, help="generator seed")
+    parser.add_argument("--person-max-staff", type=int, default=2000,
+                        help="run the person-level formulation only up to this many staff")
+    parser.add_argument("--memory-gib", type=float, default=12.0,
+                        help="address-space cap per case (a runaway case fails, not the host)")
+    parser.add_argument("--date", default=dt.datetime.now(dt.UTC).strftime("%Y-%m-%d"))
+    parser.add_argument("--docs-only", action="store_true",
+                        help="rebuild docs/benchmarks.md from the results CSV of --date")
+    parser.add_argument("--case", help=argparse.SUPPRESS)
+    args = parser.parse_args(argv)
+    if args.case:
+        _limit_memory(args.memory_gib)
+        print(json.dumps(run_case(json.loads(args.case))))
+        return 0
+    csv_path = RESULTS / f"{args.date}.csv"
+    if args.docs_only:
+        rows = _read_csv(csv_path)
+        if not rows:
+            print(f"{csv_path}: no results to write up", file=sys.stderr)
+            return 3
+    else:
+        new: list[dict[str, object]] = []
+        for size in args.sizes:
+            new += run_size(size, args, args.date)
+            rows = merge_results(csv_path, new)  # after each size: a long run keeps its work
+    write_doc(rows, csv_path)
+    print(f"wrote {csv_path.relative_to(ROOT)} and {DOC.relative_to(ROOT)}")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.path.insert(0, str(ROOT))
+    sys.exit(main())

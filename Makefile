@@ -4,7 +4,7 @@ VENV := .venv
 BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
 
-.PHONY: demo test lint bench clean
+.PHONY: demo test lint bench clean browser
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -15,7 +15,11 @@ $(STAMP): pyproject.toml
 demo: $(STAMP)
 	$(BIN)/rebalance plan instances/demo -o out/demo
 
-test: $(STAMP)
+# The report's browser test drives Debian's chromium (no browser download at test time).
+browser:
+	(command -v chromium && command -v chromedriver) >/dev/null || (apt-get update && apt-get install -y chromium chromium-driver)
+
+test: $(STAMP) browser
 	$(BIN)/pytest
 
 lint: $(STAMP)

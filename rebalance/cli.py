@@ -83,7 +83,9 @@ def cmd_plan(args: argparse.Namespace) -> int:
     if not result.verified:
         _err("the plan failed verification; nothing was written")
         return EXIT_VERIFICATION_FAILED
-    write_outputs(result, args.out)
+    from rebalance.report.files import plan_extras
+
+    write_outputs(result, args.out, extra=plan_extras(args.instance))
     print(f"\nplan written to {args.out}/")
     return EXIT_OK
 
@@ -101,6 +103,25 @@ def cmd_verify(args: argparse.Namespace) -> int:
     violations = verify_folder(instance, args.plan_dir)
     print(format_violations(violations))
     return EXIT_OK if not violations else EXIT_VERIFICATION_FAILED
+
+
+def cmd_report(args: argparse.Namespace) -> int:
+    from rebalance.report.files import rebuild_reports
+    from rebalance.report.inputs import stored_instance_path
+
+    if not Path(args.plan_dir).is_dir():
+        _err(f"{args.plan_dir}: plan folder not found")
+        return EXIT_INVALID_INPUT
+    source = args.instance or stored_instance_path(args.plan_dir)
+    if source is None:
+        _err(f"{args.plan_dir}: summary.json names no instance; give --instance")
+        return EXIT_USAGE
+    instance = _load(source)
+    if instance is None:
+        return EXIT_INVALID_INPUT
+    for path in rebuild_reports(args.plan_dir, instance):
+        print(f"wrote {path}")
+    return EXIT_OK
 
 
 def cmd_generate(args: argparse.Namespace) -> int:
@@ -139,7 +160,7 @@ def build_parser() -> argparse.ArgumentParser:
         description="Turn a forecast of work into a verified staffing plan.")
     sub = parser.add_subparsers(dest="command", required=True)
 
-    p = sub.add_parser("check", help="validate an instance folder")
+    p = sub.add_parser("check", help="validate an instance folder or .xlsx workbook")
     p.add_argument("instance")
     p.set_defaults(run=cmd_check)
 
@@ -157,6 +178,12 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("instance")
     p.add_argument("plan_dir")
     p.set_defaults(run=cmd_verify)
+
+    p = sub.add_parser("report", help="rebuild report.html and plan.xlsx of a plan folder")
+    p.add_argument("plan_dir")
+    p.add_argument("--instance", help="instance folder or .xlsx (default: the one named in "
+                   "the folder's summary.json)")
+    p.set_defaults(run=cmd_report)
 
     p = sub.add_parser("generate", help="write a synthetic instance folder (fictional, seeded)")
     p.add_argument("out", help="folder to write")

@@ -131,7 +131,12 @@ def read_tables(folder: Path) -> tuple[dict[str, Any], dict[str, RawTable], list
 
 
 def read_instance(path: str | Path) -> Instance:
-    """Read and validate an instance folder; raise :class:`InstanceError` listing all problems."""
+    """Read and validate an instance folder (or one ``.xlsx`` workbook); raise
+    :class:`InstanceError` listing all problems."""
+    if str(path).lower().endswith(".xlsx"):
+        from rebalance.workbook_reader import read_workbook  # only workbooks need openpyxl
+
+        return read_workbook(path)
     folder = Path(path)
     settings, tables, problems = read_tables(folder)
     return build_instance(folder.name, settings, tables, problems)
@@ -253,6 +258,9 @@ def _describe(minimum: float | None, maximum: float | None, open_minimum: bool,
 
 
 def _table_name(label: str) -> str:
+    # "staff.csv" from a folder, "demo.xlsx[staff]" from a workbook.
+    if label.endswith("]") and "[" in label:
+        return label[label.rindex("[") + 1:-1]
     return label.removesuffix(".csv")
 
 

@@ -1,0 +1,449 @@
+/* rebalance report: draws every chart as SVG from the JSON in #report-data, makes tables
+   sortable, and marks each chart drawn (data-drawn="yes") so a browser test can check it.
+   Hand-written, no libraries, so the page works offline from one file. */
+(function () {
+  "use strict";
+  var NS = "http://www.w3.org/2000/svg";
+  var C = {
+    staff: "#3f7f94", hire: "#88ad6b", short: "#c0533a", ink: "#1f2a30", soft: "#4a565d",
+    detail: "#3f7f94", move: "#7b5a97", amber: "#d9a036", grid: "#efeade", axis: "#cfc8b8",
+    muted: "#7a8388", track: "#efeadd"
+  };
+  var SKILL = ["#3f7f94", "#d9a036", "#7b5a97", "#88ad6b", "#c0533a", "#4e6a9c", "#a7825a",
+    "#5ea5a0", "#b56b8c", "#6c7a3a"];
+  var HEAT = [[247, 244, 236], [240, 217, 166], [224, 146, 90], [178, 59, 44]];
+
+  function el(tag, attrs, parent) {
+    var node = document.createElementNS(NS, tag);
+    Object.keys(attrs || {}).forEach(function (k) { node.setAttribute(k, attrs[k]); });
+    if (parent) { parent.appendChild(node); }
+    return node;
+  }
+  function label(parent, x, y, str, attrs) {
+    var t = el("text", Object.assign({ x: x, y: y }, attrs || {}), parent);
+    t.textContent = str;
+    return t;
+  }
+  function svg(box, w, h) {
+    return el("svg", { viewBox: "0 0 " + w + " " + h, preserveAspectRatio: "xMinYMin meet" }, box);
+  }
+  function empty(box, message) {
+    var s = svg(box, 900, 70);
+    label(s, 12, 40, message, { "class": "empty" });
+    return 0;
+  }
+  function fmt(v, digits) {
+    if (v === null || v === undefined || isNaN(v)) { return "-"; }
+    var a = Math.abs(v);
+    if (a >= 1e6) { return (v / 1e6).toFixed(a >= 1e7 ? 1 : 2) + "M"; }
+    if (a >= 1e4) { return Math.round(v / 1e3) + "k"; }
+    if (a >= 100) { return Math.round(v).toLocaleString("en"); }
+    return v.toFixed(digits === undefined ? 1 : digits);
+  }
+  function ticks(max, count) {
+    if (!(max > 0)) { return [0]; }
+    var raw = max / count, mag = Math.pow(10, Math.floor(Math.log10(raw)));
+    var step = [1, 2, 2.5, 5, 10].map(function (m) { return m * mag; })
+      .filter(function (s) { return s >= raw; })[0];
+    var out = [], n = Math.ceil(max / step - 1e-9);
+    for (var i = 0; i <= n; i++) { out.push(i * step); }
+    return out;
+  }
+  function shortPeriod(name) {
+    var m = /^(\d{4})-Q(\d)$/.exec(name);
+    return m ? "Q" + m[2] + " \u2019" + m[1].slice(2) : name;
+  }
+  function legend(box, items) {
+    var div = document.createElement("div");
+    div.className = "legend";
+    items.forEach(function (it) {
+      var span = document.createElement("span");
+      span.style.setProperty("--c", it.color);
+      if (it.line) { span.className = "line"; }
+      span.textContent = it.text;
+      div.appendChild(span);
+    });
+    box.appendChild(div);
+  }
+  function yAxis(g, y, values, x0, x1, format) {
+    var grid = el("g", { "class": "grid" }, g);
+    values.forEach(function (v) {
+      el("line", { x1: x0, x2: x1, y1: y(v), y2: y(v) }, grid);
+      label(grid, x0 - 5, y(v) + 3.5, format ? format(v) : fmt(v), { "text-anchor": "end" });
+    });
+  }
+  function points(xs, ys) {
+    return xs.map(function (x, i) { return x.toFixed(2) + "," + ys[i].toFixed(2); }).join(" ");
+  }
+
+  /* ---------------------------------------------------------------- demand vs covered */
+  function coverage(box, d) {
+    legend(box, [{ color: C.staff, text: "covered by current staff" },
+      { color: C.hire, text: "covered by new hires" },
+      { color: C.short, text: "not covered (shortfall)" },
+      { color: C.ink, text: "demand", line: true }]);
+    var grid = document.createElement("div");
+    grid.className = "multiples";
+    box.appendChild(grid);
+    var T = d.periods.length, marks = 0;
+    d.series.forEach(function (s) {
+      var W = 340, H = 206, ml = 40, mr = 12, mt = 30, mb = 26, iw = W - ml - mr, ih = H - mt - mb;
+      var cell = document.createElement("div");
+      grid.appendChild(cell);
+      var g = svg(cell, W, H);
+      var top = 0;
+      for (var i = 0; i < T; i++) { top = Math.max(top, s.demand[i], s.staff[i] + s.hires[i]); }
+      var tk = ticks(top * 1.05 || 1, 4), ymax = tk[tk.length - 1] || 1;
+      var x = function (i) { return ml + (T === 1 ? iw / 2 : i * iw / (T - 1)); };
+      var y = function (v) { return mt + ih - v / ymax * ih; };
+      label(g, ml - 34, 14, s.office, { "class": "title" });
+      yAxis(g, y, tk, ml, ml + iw);
+      var xs = [], base = [], staffTop = [], covTop = [], dem = [];
+      for (i = 0; i < T; i++) {
+        xs.push(x(i)); base.push(y(0)); staffTop.push(y(s.staff[i]));
+        covTop.push(y(s.staff[i] + s.hires[i])); dem.push(y(s.demand[i]));
+      }
+      var rev = function (a) { return a.slice().reverse(); };
+      el("polygon", { points: points(xs.concat(rev(xs)), dem.concat(rev(covTop))),
+        fill: C.short, "fill-opacity": 0.55 }, g);
+      el("polygon", { points: points(xs.concat(rev(xs)), covTop.concat(rev(staffTop))),
+        fill: C.hire, "fill-opacity": 0.9 }, g);
+      el("polygon", { points: points(xs.concat(rev(xs)), staffTop.concat(rev(base))),
+        fill: C.staff, "fill-opacity": 0.85 }, g);
+      el("polyline", { points: points(xs, dem), fill: "none", stroke: C.ink, "stroke-width": 2,
+        "stroke-linejoin": "round" }, g);
+      marks += 4;
+      var every = T > 8 ? Math.ceil(T / 6) : (T > 5 ? 2 : 1);
+      for (i = 0; i < T; i++) {
+        if (i % every === 0) {
+          label(g, x(i), H - 8, shortPeriod(d.periods[i]), { "text-anchor": i === 0 ? "start" :
+            (i === T - 1 ? "end" : "middle") });
+        }
+        var half = T === 1 ? iw / 2 : iw / (T - 1) / 2;
+        el("rect", { x: x(i) - half, y: mt, width: 2 * half, height: ih, fill: "transparent",
+          "data-tip": s.office + ", " + d.periods[i] + "\ndemand " + fmt(s.demand[i], 2) +
+            " FTE\nstaff cover " + fmt(s.staff[i], 2) + "\nhires add " + fmt(s.hires[i], 2) +
+            "\nshort " + fmt(s.shortfall[i], 2) }, g);
+      }
+    });
+    return marks;
+  }
+
+  /* ---------------------------------------------------------------- shortfall heat map */
+  function heatColour(t) {
+    t = Math.max(0, Math.min(1, t));
+    var seg = Math.min(HEAT.length - 2, Math.floor(t * (HEAT.length - 1)));
+    var f = t * (HEAT.length - 1) - seg, a = HEAT[seg], b = HEAT[seg + 1];
+    return "rgb(" + [0, 1, 2].map(function (k) { return Math.round(a[k] + (b[k] - a[k]) * f); })
+      .join(",") + ")";
+  }
+  function heat(box, d) {
+    var R = d.offices.length, T = d.periods.length;
+    var lw = 170, cw = Math.max(52, Math.min(96, (900 - lw - 80) / T)), ch = 30, top = 26;
+    var W = lw + T * cw + 80, H = top + (R + 1) * ch + 40;
+    var g = svg(box, W, H), max = 0, marks = 0;
+    d.cells.forEach(function (row) { row.forEach(function (c) { max = Math.max(max, c.shortfall); }); });
+    d.periods.forEach(function (p, j) {
+      label(g, lw + j * cw + cw / 2, top - 8, shortPeriod(p), { "text-anchor": "middle" });
+    });
+    label(g, lw + T * cw + 40, top - 8, "total", { "text-anchor": "middle", "class": "title" });
+    var colTotals = new Array(T).fill(0);
+    d.cells.forEach(function (row, i) {
+      var yy = top + i * ch, total = 0;
+      label(g, lw - 10, yy + ch / 2 + 4, d.offices[i], { "text-anchor": "end" });
+      row.forEach(function (c, j) {
+        total += c.shortfall; colTotals[j] += c.shortfall;
+        var t = max > 0 ? c.shortfall / max : 0;
+        var tip = d.offices[i] + ", " + d.periods[j] + "\nshort " + fmt(c.shortfall, 2) +
+          " of " + fmt(c.demand, 1) + " FTE demanded" + "\nweighted " + fmt(c.weighted, 2) +
+          (c.skills.length ? "\nskills short: " + c.skills.join(", ") : "");
+        el("rect", { x: lw + j * cw + 1, y: yy + 1, width: cw - 2, height: ch - 2, rx: 3,
+          fill: c.shortfall > 1e-6 ? heatColour(0.12 + 0.88 * t) : "#f3f0e7", "data-tip": tip }, g);
+        marks++;
+        if (c.shortfall >= 0.05) {
+          label(g, lw + j * cw + cw / 2, yy + ch / 2 + 4, c.shortfall.toFixed(1), {
+            "text-anchor": "middle", style: "pointer-events:none;fill:" + (t > 0.45 ? "#fff" : C.ink) });
+        }
+      });
+      label(g, lw + T * cw + 40, yy + ch / 2 + 4, total.toFixed(1), { "text-anchor": "middle",
+        "class": "title" });
+    });
+    var yb = top + R * ch + 4;
+    label(g, lw - 10, yb + ch / 2 + 4, "all offices", { "text-anchor": "end", "class": "title" });
+    colTotals.forEach(function (v, j) {
+      label(g, lw + j * cw + cw / 2, yb + ch / 2 + 4, v.toFixed(1), { "text-anchor": "middle",
+        "class": "title" });
+    });
+    var ly = yb + ch + 8, lx = lw;
+    label(g, lx - 10, ly + 9, "FTE short", { "text-anchor": "end" });
+    for (var k = 0; k <= 20; k++) {
+      el("rect", { x: lx + k * 8, y: ly, width: 8, height: 10, fill: heatColour(0.12 + 0.88 * k / 20) }, g);
+    }
+    label(g, lx, ly + 24, "0");
+    label(g, lx + 168, ly + 24, fmt(max, 1), { "text-anchor": "end" });
+    return marks;
+  }
+
+  /* ---------------------------------------------------------------- movements */
+  function flows(box, d) {
+    if (!d.flows.length) { return empty(box, "No one is detailed or reassigned in this plan."); }
+    legend(box, [{ color: C.detail, text: "details (person-periods)" },
+      { color: C.move, text: "reassignments (person-periods to horizon end)" }]);
+    var bands = [];
+    d.flows.forEach(function (f) {
+      if (f.detail_periods > 0) {
+        bands.push({ from: f.from, to: f.to, v: f.detail_periods, kind: "detail",
+          tip: f.from + " \u2192 " + f.to + "\n" + f.detail_periods + " detail periods, " +
+            f.detail_people + (f.detail_people === 1 ? " person" : " people") });
+      }
+      if (f.reassigned_periods > 0) {
+        bands.push({ from: f.from, to: f.to, v: f.reassigned_periods, kind: "move",
+          tip: f.from + " \u2192 " + f.to + "\n" + f.reassignments + " reassignment" +
+            (f.reassignments === 1 ? "" : "s") + " (" + f.reassigned_periods + " person-periods)" });
+      }
+    });
+    var order = {};
+    d.offices.forEach(function (o, i) { order[o] = i; });
+    var outT = {}, inT = {};
+    bands.forEach(function (b) { outT[b.from] = (outT[b.from] || 0) + b.v; inT[b.to] = (inT[b.to] || 0) + b.v; });
+    var left = d.offices.filter(function (o) { return outT[o]; });
+    var right = d.offices.filter(function (o) { return inT[o]; });
+    var W = 900, pad = 14, x0 = 210, x1 = 690, nw = 14;
+    var sum = 0;
+    Object.keys(outT).forEach(function (k) { sum += outT[k]; });
+    var n = Math.max(left.length, right.length);
+    var H = Math.max(180, 34 * n + 40), inner = H - 30 - pad * (n - 1);
+    var k = inner / sum;
+    var g = svg(box, W, H);
+    label(g, x0 + nw, 12, "home office", { "text-anchor": "end", "class": "title" });
+    label(g, x1, 12, "office helped", { "class": "title" });
+    function place(list, totals) {
+      var pos = {}, y = 24;
+      list.forEach(function (o) { pos[o] = { y: y, h: totals[o] * k, used: 0 }; y += totals[o] * k + pad; });
+      return pos;
+    }
+    var L = place(left, outT), Rr = place(right, inT);
+    bands.sort(function (a, b) { return order[a.from] - order[b.from] || order[a.to] - order[b.to]; });
+    var atSource = bands.slice();
+    atSource.forEach(function (b) { b.sy = L[b.from].y + L[b.from].used; L[b.from].used += b.v * k; });
+    var atTarget = bands.slice().sort(function (a, b) {
+      return order[a.to] - order[b.to] || order[a.from] - order[b.from];
+    });
+    atTarget.forEach(function (b) { b.ty = Rr[b.to].y + Rr[b.to].used; Rr[b.to].used += b.v * k; });
+    var xm = (x0 + nw + x1) / 2, marks = 0;
+    bands.forEach(function (b) {
+      var h = b.v * k, a = x0 + nw, c = x1;
+      var dpath = "M" + a + "," + b.sy + " C" + xm + "," + b.sy + " " + xm + "," + b.ty + " " + c + "," + b.ty +
+        " L" + c + "," + (b.ty + h) + " C" + xm + "," + (b.ty + h) + " " + xm + "," + (b.sy + h) + " " +
+        a + "," + (b.sy + h) + " Z";
+      var p = el("path", { d: dpath, fill: b.kind === "move" ? C.move : C.detail,
+        "fill-opacity": 0.45, stroke: "#fff", "stroke-width": 0.6, "data-tip": b.tip }, g);
+      p.addEventListener("mouseenter", function () { p.setAttribute("fill-opacity", 0.8); });
+      p.addEventListener("mouseleave", function () { p.setAttribute("fill-opacity", 0.45); });
+      marks++;
+    });
+    left.forEach(function (o) {
+      el("rect", { x: x0, y: L[o].y, width: nw, height: Math.max(L[o].h, 1.5), fill: C.ink, rx: 2 }, g);
+      label(g, x0 - 8, L[o].y + L[o].h / 2 + 4, o + "  " + outT[o], { "text-anchor": "end" });
+    });
+    right.forEach(function (o) {
+      el("rect", { x: x1, y: Rr[o].y, width: nw, height: Math.max(Rr[o].h, 1.5), fill: C.ink, rx: 2 }, g);
+      label(g, x1 + nw + 8, Rr[o].y + Rr[o].h / 2 + 4, inT[o] + "  " + o);
+    });
+    return marks;
+  }
+
+  /* ---------------------------------------------------------------- hires by skill */
+  function hires(box, d) {
+    if (!d.skills.length) { return empty(box, "No hires in this plan."); }
+    legend(box, d.skills.map(function (s, i) { return { color: SKILL[i % SKILL.length], text: s }; }));
+    var T = d.periods.length, W = 900, H = 250, ml = 40, mr = 10, mt = 14, mb = 28;
+    var iw = W - ml - mr, ih = H - mt - mb, totals = new Array(T).fill(0);
+    d.counts.forEach(function (row) { row.forEach(function (v, t) { totals[t] += v; }); });
+    var tk = ticks(Math.max.apply(null, totals) || 1, 4), ymax = tk[tk.length - 1] || 1;
+    var g = svg(box, W, H);
+    var y = function (v) { return mt + ih - v / ymax * ih; };
+    yAxis(g, y, tk, ml, ml + iw, function (v) { return String(Math.round(v * 10) / 10); });
+    var bw = iw / T, marks = 0;
+    for (var t = 0; t < T; t++) {
+      var acc = 0;
+      d.counts.forEach(function (row, si) {
+        if (!row[t]) { return; }
+        el("rect", { x: ml + t * bw + bw * 0.18, y: y(acc + row[t]), width: bw * 0.64,
+          height: y(acc) - y(acc + row[t]), fill: SKILL[si % SKILL.length],
+          "data-tip": d.periods[t] + "\n" + row[t] + " " + d.skills[si] + " hire" + (row[t] === 1 ? "" : "s") }, g);
+        acc += row[t];
+        marks++;
+      });
+      if (totals[t]) { label(g, ml + t * bw + bw / 2, y(acc) - 5, String(totals[t]), { "text-anchor": "middle", "class": "title" }); }
+      label(g, ml + t * bw + bw / 2, H - 9, shortPeriod(d.periods[t]), { "text-anchor": "middle" });
+    }
+    return marks;
+  }
+
+  /* ---------------------------------------------------------------- spending vs caps */
+  var PART = { onboarding: ["#6f9a55", "onboarding"],
+    new_position_salary: ["#b5d09d", "new-position salaries"],
+    detail: ["#3f7f94", "details"], relocation: ["#9cc3cf", "relocations"] };
+  function budget(box, d) {
+    if (!d.length) { return empty(box, "No budget years in this plan."); }
+    legend(box, Object.keys(PART).map(function (k) { return { color: PART[k][0], text: PART[k][1] }; })
+      .concat([{ color: C.ink, text: "cap for the year", line: true }]));
+    var W = 900, rh = 36, lw = 130, bw = 560, H = d.length * rh + 16, domain = {};
+    d.forEach(function (r) { domain[r.kind] = Math.max(domain[r.kind] || 0, r.cap || 0, r.spend); });
+    var g = svg(box, W, H), marks = 0;
+    d.forEach(function (r, i) {
+      var yy = 8 + i * rh, keys = Object.keys(r.parts), dom = (domain[r.kind] || 1) * 1.06;
+      label(g, lw - 12, yy + 17, r.year + " " + r.kind, { "text-anchor": "end", "class": "title" });
+      el("rect", { x: lw, y: yy + 4, width: bw, height: 20, fill: C.track, rx: 3 }, g);
+      var acc = 0;
+      keys.forEach(function (key) {
+        var v = r.parts[key];
+        if (v <= 0) { return; }
+        el("rect", { x: lw + acc / dom * bw, y: yy + 7, width: v / dom * bw, height: 14,
+          fill: (PART[key] || [C.staff])[0],
+          "data-tip": r.year + " " + ((PART[key] || [0, key])[1]) + ": " + Math.round(v).toLocaleString("en") }, g);
+        acc += v;
+        marks++;
+      });
+      var over = r.cap !== null && r.spend > r.cap + 0.5;
+      if (r.cap !== null) {
+        var cx = lw + r.cap / dom * bw;
+        el("line", { x1: cx, x2: cx, y1: yy + 1, y2: yy + 27, stroke: C.ink, "stroke-width": 2.5,
+          "data-tip": r.year + " " + r.kind + " cap: " + Math.round(r.cap).toLocaleString("en") }, g);
+      }
+      var words = fmt(r.spend) + (r.cap === null ? " spent, no cap" :
+        " of " + fmt(r.cap) + " (" + Math.round(100 * r.spend / (r.cap || 1)) + "% used)");
+      label(g, lw + bw + 14, yy + 18, words, over ? { style: "fill:" + C.short } : {});
+      marks++;
+    });
+    return marks;
+  }
+
+  /* ---------------------------------------------------------------- analysis charts */
+  function frontier(box, d) {
+    var W = 900, H = 300, ml = 56, mr = 24, mt = 16, mb = 40, iw = W - ml - mr, ih = H - mt - mb;
+    var xsRaw = d.points.map(function (p) { return p.x; }), ysRaw = d.points.map(function (p) { return p.y; });
+    var xmin = Math.min.apply(null, xsRaw), xmax = Math.max.apply(null, xsRaw);
+    if (xmax === xmin) { xmax = xmin + 1; }
+    var tk = ticks(Math.max.apply(null, ysRaw) * 1.05 || 1, 4), ymax = tk[tk.length - 1] || 1;
+    var x = function (v) { return ml + (v - xmin) / (xmax - xmin) * iw; };
+    var y = function (v) { return mt + ih - v / ymax * ih; };
+    var g = svg(box, W, H);
+    yAxis(g, y, tk, ml, ml + iw);
+    d.points.forEach(function (p) { label(g, x(p.x), H - 20, fmt(p.x), { "text-anchor": "middle" }); });
+    label(g, ml + iw / 2, H - 4, d.x_label.replace(/_/g, " "), { "text-anchor": "middle", "class": "title" });
+    label(g, 4, 10, d.y_label.replace(/_/g, " "), { "class": "title" });
+    el("polyline", { points: points(d.points.map(function (p) { return x(p.x); }),
+      d.points.map(function (p) { return y(p.y); })), fill: "none", stroke: C.staff, "stroke-width": 2.5 }, g);
+    d.points.forEach(function (p) {
+      if (p.knee) {
+        el("circle", { cx: x(p.x), cy: y(p.y), r: 10, fill: "none", stroke: C.amber, "stroke-width": 3 }, g);
+        label(g, x(p.x) + 13, y(p.y) - 10, "knee", { "class": "title" });
+      }
+      el("circle", { cx: x(p.x), cy: y(p.y), r: 4.5, fill: C.staff,
+        "data-tip": d.x_label + " " + fmt(p.x) + "\n" + d.y_label + " " + fmt(p.y, 2) +
+          (p.cost !== null ? "\n" + (d.cost_label || "cost") + " " + fmt(p.cost) : "") }, g);
+    });
+    return d.points.length + 1;
+  }
+  function hbars(parent, labels, values, title, colour, W) {
+    var lw = Math.min(300, 40 + 6.5 * Math.max.apply(null, labels.map(function (l) { return l.length; })));
+    var rh = 24, H = labels.length * rh + 28, bw = W - lw - 80;
+    var g = svg(parent, W, H);
+    label(g, 0, 13, title, { "class": "title" });
+    var max = Math.max.apply(null, values.map(function (v) { return Math.abs(v || 0); })) || 1;
+    var marks = 0;
+    labels.forEach(function (l, i) {
+      var v = values[i], yy = 22 + i * rh;
+      label(g, lw - 8, yy + 15, l, { "text-anchor": "end" });
+      if (v === null) { label(g, lw, yy + 15, "-"); return; }
+      el("rect", { x: lw, y: yy + 4, width: Math.max(1, Math.abs(v) / max * bw), height: rh - 8, rx: 2,
+        fill: v < 0 ? C.short : colour, "data-tip": l + "\n" + title + ": " + fmt(v, 3) }, g);
+      label(g, lw + Math.abs(v) / max * bw + 6, yy + 15, fmt(v, 2));
+      marks++;
+    });
+    return marks;
+  }
+  function scenarios(box, d) {
+    var grid = document.createElement("div");
+    grid.className = "multiples";
+    box.appendChild(grid);
+    var marks = 0;
+    d.metrics.forEach(function (m, i) {
+      var cell = document.createElement("div");
+      grid.appendChild(cell);
+      marks += hbars(cell, d.labels, m.values, m.name.replace(/_/g, " "), i === 0 ? C.short : C.staff, 420);
+    });
+    return marks;
+  }
+  function marginal(box, d) {
+    return hbars(box, d.rows.map(function (r) { return r.label; }),
+      d.rows.map(function (r) { return r.value; }), d.value_label.replace(/_/g, " "), C.move, 900);
+  }
+
+  var CHARTS = { coverage: coverage, heat: heat, flows: flows, hires: hires, budget: budget,
+    frontier: frontier, scenarios: scenarios, marginal: marginal };
+
+  /* ---------------------------------------------------------------- tooltips and tables */
+  function tooltips() {
+    var tip = document.createElement("div");
+    tip.className = "tip";
+    document.body.appendChild(tip);
+    document.addEventListener("mousemove", function (ev) {
+      var t = ev.target && ev.target.closest ? ev.target.closest("[data-tip]") : null;
+      if (!t) { tip.style.opacity = 0; return; }
+      tip.textContent = t.getAttribute("data-tip");
+      var x = ev.clientX + 14, y = ev.clientY + 14;
+      if (x + 330 > window.innerWidth) { x = ev.clientX - 330; }
+      tip.style.left = x + "px"; tip.style.top = y + "px"; tip.style.opacity = 1;
+    });
+  }
+  function sortable(table) {
+    var heads = table.querySelectorAll("thead th");
+    heads.forEach(function (th, col) {
+      function run() {
+        var body = table.tBodies[0], rows = Array.prototype.slice.call(body.rows);
+        var dir = th.getAttribute("aria-sort") === "ascending" ? -1 : 1;
+        heads.forEach(function (h) { h.removeAttribute("aria-sort"); });
+        th.setAttribute("aria-sort", dir === 1 ? "ascending" : "descending");
+        var numeric = rows.every(function (r) { return !r.cells[col] || r.cells[col].hasAttribute("data-v") || r.cells[col].textContent === ""; });
+        rows.sort(function (a, b) {
+          var ca = a.cells[col], cb = b.cells[col];
+          if (numeric) {
+            var va = parseFloat(ca && ca.getAttribute("data-v")), vb = parseFloat(cb && cb.getAttribute("data-v"));
+            va = isNaN(va) ? -Infinity : va; vb = isNaN(vb) ? -Infinity : vb;
+            return (va - vb) * dir;
+          }
+          return (ca ? ca.textContent : "").localeCompare(cb ? cb.textContent : "", "en", { numeric: true }) * dir;
+        });
+        rows.forEach(function (r) { body.appendChild(r); });
+      }
+      th.addEventListener("click", run);
+      th.addEventListener("keydown", function (ev) { if (ev.key === "Enter" || ev.key === " ") { ev.preventDefault(); run(); } });
+    });
+  }
+
+  function main() {
+    var data = JSON.parse(document.getElementById("report-data").textContent);
+    var boxes = document.querySelectorAll(".chart[data-chart]"), drawn = 0;
+    boxes.forEach(function (box) {
+      var kind = box.getAttribute("data-chart");
+      try {
+        if (!CHARTS[kind] || !data[kind]) { throw new Error("no data"); }
+        var marks = CHARTS[kind](box, data[kind]);
+        box.setAttribute("data-marks", String(marks));
+        box.setAttribute("data-drawn", "yes");
+        drawn++;
+      } catch (err) {
+        box.setAttribute("data-drawn", "error");
+        console.error("chart '" + kind + "' could not be drawn: " + err);
+      }
+    });
+    document.body.setAttribute("data-charts-total", String(boxes.length));
+    document.body.setAttribute("data-charts-drawn", String(drawn));
+    document.querySelectorAll("table.sortable").forEach(sortable);
+    tooltips();
+  }
+  if (document.readyState === "loading") { document.addEventListener("DOMContentLoaded", main); } else { main(); }
+})();

@@ -1,0 +1,51 @@
+"""Write the people-facing files of a plan folder: ``report.html`` and ``plan.xlsx``.
+
+:func:`plan_extras` plugs into :func:`rebalance.planning.write_outputs`, so the two files land in
+the same atomic folder swap as the plan tables.  :func:`rebuild_reports` redraws them later from
+the folder alone (plus the instance), e.g. after analysis tables have been added beside it.
+"""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Callable
+from pathlib import Path
+
+from rebalance.instance import Instance
+from rebalance.planning import PlanResult
+from rebalance.report.html import write_html
+from rebalance.report.inputs import ReportData, report_data, report_data_from_folder
+from rebalance.report.workbook import write_workbook
+
+__all__ = ["REPORT_FILES", "plan_extras", "rebuild_reports", "write_reports"]
+
+REPORT_FILES = ("report.html", "plan.xlsx")
+
+
+def write_reports(data: ReportData, folder: str | Path) -> list[Path]:
+    """Write report.html and plan.xlsx into ``folder``; return their paths."""
+    out = Path(folder)
+    return [write_html(data, out / REPORT_FILES[0]), write_workbook(data, out / REPORT_FILES[1])]
+
+
+def plan_extras(instance_path: str | Path | None = None) -> Callable[[PlanResult, Path], None]:
+    """An ``extra=`` callback for ``write_outputs``: reports, and where the instance came from.
+
+    The instance path is added to summary.json as ``instance_path`` (a new key; no existing
+    key changes) so ``rebalance report PLAN_DIR`` can find the instance on its own.
+    """
+
+    def extra(result: PlanResult, folder: Path) -> None:
+        if instance_path is not None:
+            summary = folder / "summary.json"
+            raw = json.loads(summary.read_text(encoding="utf-8"))
+            raw["instance_path"] = str(Path(instance_path).resolve())
+            summary.write_text(json.dumps(raw, indent=2) + "\n", encoding="utf-8")
+        write_reports(report_data(result), folder)
+
+    return extra
+
+
+def rebuild_reports(plan_dir: str | Path, instance: Instance) -> list[Path]:
+    """Redraw report.html and plan.xlsx of a plan folder, with any analysis tables in it."""
+    return write_reports(report_data_from_folder(plan_dir, instance), plan_dir)

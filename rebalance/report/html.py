@@ -1,0 +1,415 @@
+"""One self-contained HTML report of a plan: figures, charts and sortable tables, offline.
+
+The page is a single file: the style sheet and the drawing script (``assets/``, hand-written,
+no third-party code) are inlined, and the chart data rides along as JSON.  Charts are drawn
+as SVG by the script when the page opens; each chart marks itself drawn (``data-drawn``) so a
+browser test can tell a blank page from a finished one.
+
+Python's part is aggregation only: sums of plan tables by office, period and skill.  The plan
+itself is never recomputed here.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import json
+from importlib import resources
+from pathlib import Path
+from typing import Any
+
+import pandas as pd
+
+from rebalance.report import analysis_view
+from rebalance.report.htmlparts import (
+    card,
+    chart,
+    compact_money,
+    e,
+    money,
+    num,
+    section,
+    table_html,
+)
+from rebalance.report.inputs import ReportData
+
+__all__ = ["render_html", "write_html"]
+
+STATUS_WORDS = {
+    "optimal": ("proven best", "good"),
+    "feasible_with_gap": ("good plan, not proven best", "fair"),
+    "infeasible": ("no plan: limits conflict", "bad"),
+    "no_plan_in_time": ("no plan in time", "bad"),
+    "error": ("solver error", "bad"),
+}
+
+
+def _records(frame: pd.DataFrame) -> list[dict[str, Any]]:
+    """Rows as dicts (``itertuples`` would shadow a ``count`` column with tuple.count)."""
+    return [{str(k): v for k, v in row.items()} for row in frame.to_dict("records")]
+
+
+def _m(value: float) -> tuple[float, str]:
+    """A money cell: raw value to sort by, whole units to show."""
+    return float(value), money(float(value))
+
+
+def _asset(name: str) -> str:
+    return resources.files("rebalance.report").joinpath("assets", name).read_text("utf-8")
+
+
+# --------------------------------------------------------------------------------------------
+# chart data (aggregates of plan tables)
+
+
+def _coverage_series(data: ReportData) -> dict[str, Any]:
+    periods = list(data.instance.period_names)
+    cov = data.plan.coverage.copy()
+    offices = [o.name for o in data.instance.offices]
+    if len(cov):
+        # Stack what staff cover first, then what hires add, up to the demand line.
+        cov["staff_cov"] = cov[["staff_output_fte", "demand_fte"]].min(axis=1)
+        cov["hire_cov"] = (cov["covered_fte"] - cov["staff_cov"]).clip(lower=0.0)
+    series = []
+    for office in [None, *offices]:
+        part = cov if office is None else cov[cov["office"] == office]
+        if office is not None and part.empty:
+            continue
+        sums = part.groupby("period")[["demand_fte", "staff_cov", "hire_cov", "covered_fte",
+                                       "shortfall_fte"]].sum() if len(part) else pd.DataFrame()
+
+        def col(name: str, sums: pd.DataFrame = sums) -> list[float]:
+            return [round(float(sums[name].get(p, 0.0)), 4) if len(sums) else 0.0
+                    for p in periods]
+
+        series.append({"office": office or "all offices", "demand": col("demand_fte"),
+                       "staff": col("staff_cov"), "hires": col("hire_cov"),
+                       "shortfall": col("shortfall_fte")})
+    return {"periods": periods, "series": series}
+
+
+def _heat(data: ReportData) -> dict[str, Any]:
+    periods = list(data.instance.period_names)
+    cov = data.plan.coverage
+    offices = [o.name for o in data.instance.offices]
+    cells = []
+    for office in offices:
+        part = cov[cov["office"] == office]
+        row = []
+        for period in periods:
+            here = part[part["period"] == period]
+            short = here[here["shortfall_fte"] > 1e-9]
+            worst = (short.sort_values("shortfall_fte", ascending=False)["skill"].head(3)
+                     .tolist())
+            row.append({"shortfall": round(float(here["shortfall_fte"].sum()), 4),
+                        "weighted": round(float(here["weighted_shortfall"].sum()), 4),
+                        "demand": round(float(here["demand_fte"].sum()), 4),
+                        "skills": worst})
+        cells.append(row)
+    return {"offices": offices, "periods": periods, "cells": cells}
+
+
+def _flows(data: ReportData) -> dict[str, Any]:
+    periods = list(data.instance.period_names)
+    T = len(periods)
+    index = {p: i for i, p in enumerate(periods)}
+    flows: dict[tuple[str, str], dict[str, Any]] = {}
+
+    def entry(a: str, b: str) -> dict[str, Any]:
+        return flows.setdefault((a, b), {"from": a, "to": b, "detail_periods": 0,
+                                         "detail_people": set(), "reassignments": 0,
+                                         "reassigned_periods": 0})
+
+    for row in _records(data.plan.details):
+        e = entry(str(row["from_office"]), str(row["to_office"]))
+        e["detail_periods"] += 1
+        e["detail_people"].add(str(row["person"]))
+    for row in _records(data.plan.reassignments):
+        e = entry(str(row["from_office"]), str(row["to_office"]))
+        e["reassignments"] += 1
+        # One common width unit: a reassignment moves a person's work for every period
+        # from its start to the end of the horizon.
+        e["reassigned_periods"] += T - index.get(str(row["period"]), 0)
+    out = []
+    for e in flows.values():
+        e["detail_people"] = len(e["detail_people"])
+        out.append(e)
+    out.sort(key=lambda f: -(f["detail_periods"] + f["reassigned_periods"]))
+    return {"offices": [o.name for o in data.instance.offices], "flows": out}
+
+
+def _hires(data: ReportData) -> dict[str, Any]:
+    periods = list(data.instance.period_names)
+    skills = [s.name for s in data.instance.skills]
+    hires = data.plan.hires
+    counts = {s: [0] * len(periods) for s in skills}
+    index = {p: i for i, p in enumerate(periods)}
+    for row in _records(hires):
+        if row["skill"] in counts and str(row["start_period"]) in index:
+            counts[row["skill"]][index[str(row["start_period"])]] += int(row["count"])
+    used = [s for s in skills if any(counts[s])]
+    return {"periods": periods, "skills": used, "counts": [counts[s] for s in used]}
+
+
+def _budget_rows(data: ReportData) -> list[dict[str, Any]]:
+    costs = data.plan.costs.groupby(["year", "kind"])["cost"].sum() if len(
+        data.plan.costs) else pd.Series(dtype=float)
+    rows = []
+    for year in data.instance.years:
+        budget = data.instance.budget(year)
+        for kind, kinds, cap in (
+                ("hiring", ("onboarding", "new_position_salary"),
+                 None if budget is None else budget.hiring),
+                ("moves", ("detail", "relocation"), None if budget is None else budget.moves)):
+            parts = {k: float(costs.get((year, k), 0.0)) for k in kinds}
+            rows.append({"year": year, "kind": kind, "spend": sum(parts.values()),
+                         "cap": cap, "parts": parts})
+    return rows
+
+
+# --------------------------------------------------------------------------------------------
+# HTML pieces
+
+
+def _headline(data: ReportData) -> str:
+    plan, run = data.plan, data.summary
+    demand = float(plan.coverage["demand_fte"].sum()) if len(plan.coverage) else 0.0
+    share = plan.shortfall_fte / demand if demand else 0.0
+    caps = [b.hiring for b in data.instance.budgets] + [b.moves for b in data.instance.budgets]
+    cap_total = sum(c for c in caps if c is not None)
+    uncapped = any(c is None for c in caps) or len(data.instance.budgets) < len(
+        data.instance.years)
+    money_note = ("no caps set" if cap_total == 0 else
+                  f"of {compact_money(cap_total)} allowed" + (" (some lines uncapped)"
+                                                               if uncapped else ""))
+    people = plan.details["person"].nunique() if len(plan.details) else 0
+    hires_new = int(plan.hires.loc[plan.hires["funding"] == "new", "count"].sum()) if len(
+        plan.hires) else 0
+    words, tone = STATUS_WORDS.get(run.status, (run.status.replace("_", " "), "fair"))
+    gap = "" if run.gap is None else f"gap {run.gap:.1%} at stop; "
+    verified = {True: "verified independently", False: "FAILED verification",
+                None: "verification unknown"}[run.verified]
+    cards = [
+        card("Weighted shortfall", num(plan.weighted_shortfall),
+              f"FTE-periods; {share:.1%} of {num(demand, 0)} demanded not covered",
+              "warn" if share > 0.02 else "ok"),
+        card("New money", compact_money(plan.total_cost), money_note),
+        card("Hires", f"{plan.hires_count():,}",
+              f"{hires_new:,} new positions, {plan.hires_count() - hires_new:,} into vacancies"),
+        card("Details", f"{len(plan.details):,}", f"person-periods away, {people:,} people"),
+        card("Reassignments", f"{len(plan.reassignments):,}", "permanent moves"),
+        card("Plan quality", words, gap + verified, tone),
+    ]
+    return '<div class="cards">' + "".join(cards) + "</div>"
+
+
+def _shortfall_table(data: ReportData) -> str:
+    cov = data.plan.coverage
+    short = cov[cov["shortfall_fte"] > 1e-6]
+    if short.empty:
+        return '<p class="quiet">Every demand row is fully covered.</p>'
+    grouped = short.groupby(["office", "skill"]).agg(
+        shortfall=("shortfall_fte", "sum"), weighted=("weighted_shortfall", "sum"),
+        periods=("period", "nunique"), worst=("shortfall_fte", "max"))
+    demand = cov.groupby(["office", "skill"])["demand_fte"].sum()
+    rows = []
+    for key, g in grouped.sort_values("weighted", ascending=False).iterrows():
+        office, skill = str(key[0]), str(key[1])  # type: ignore[index]  # a two-level index
+        d = float(demand.get((office, skill), 0.0))
+        rows.append([office, skill, float(g["shortfall"]), float(g["weighted"]),
+                     (d and float(g["shortfall"]) / d, f"{float(g['shortfall']) / d:.0%}"
+                      if d else "-"), int(g["periods"]), float(g["worst"])])
+    return table_html(["office", "skill", "shortfall FTE-periods", "weighted",
+                       "share of demand", "periods short", "worst period FTE"], rows,
+                      name="shortfall", numeric=[False, False, True, True, True, True, True])
+
+
+def _detail_runs(data: ReportData) -> list[list[Any]]:
+    """Consecutive detail periods of one person to one office, as one row."""
+    index = {p: i for i, p in enumerate(data.instance.period_names)}
+    runs: list[list[Any]] = []
+    details = data.plan.details.copy()
+    if details.empty:
+        return runs
+    details["t"] = details["period"].map(lambda p: index.get(str(p), -1))
+    details = details.sort_values(["person", "t"])
+    current: list[Any] | None = None
+    for row in _records(details):
+        if (current is not None and current[0] == row["person"] and current[2] == row["to_office"]
+                and current[-1] == row["t"] - 1):
+            current[4] = row["period"]
+            current[5] += 1
+            current[6] += float(row["cost"])
+            current[-1] = row["t"]
+            continue
+        if current is not None:
+            runs.append(current[:-1])
+        current = [row["person"], row["from_office"], row["to_office"], row["period"],
+                   row["period"], 1, float(row["cost"]), row["t"]]
+    if current is not None:
+        runs.append(current[:-1])
+    return runs
+
+
+def render_html(data: ReportData) -> str:
+    """The whole report as one HTML string."""
+    inst, plan, run = data.instance, data.plan, data.summary
+    extra = analysis_view.analysis_payload(data)
+    payload = {
+        "coverage": _coverage_series(data),
+        "heat": _heat(data),
+        "flows": _flows(data),
+        "hires": _hires(data),
+        "budget": _budget_rows(data),
+        **extra.payload,
+    }
+    # "</" inside a script element would end it early; JSON allows the escaped form.
+    data_json = json.dumps(payload, separators=(",", ":"), allow_nan=False).replace("</", "<\\/")
+    written = dt.datetime.now(dt.UTC).strftime("%Y-%m-%d %H:%M UTC")
+    locations = len({o.location for o in inst.offices})
+    subtitle = (f"{len(inst.periods)} periods, {inst.periods[0].name} to {inst.periods[-1].name}"
+                f" &middot; {len(inst.offices)} offices in {locations} locations &middot; "
+                f"{len(inst.staff):,} staff &middot; {len(inst.skills)} skills")
+    sections = []
+    nav = [("glance", "At a glance"), ("capacity", "Work and capacity"),
+           ("gaps", "Where the gaps are"), ("moves", "Who moves where"),
+           ("hiring", "Hiring"), ("money", "Money"), *extra.nav, ("run", "How it was found")]
+    sections.append(section(
+        "glance", "At a glance",
+        "The plan's headline figures. A <em>FTE-period</em> is one full-time person for one "
+        "period; weighted shortfall multiplies each uncovered FTE-period by its priority.",
+        _headline(data)))
+    sections.append(section(
+        "capacity", "Work and capacity",
+        "Demand (dark line) against what current staff cover (blue) and what new hires add "
+        "(green), summed over skills. Red is demand left uncovered.",
+        chart("coverage", "Demand against covered work per office")))
+    sections.append(section(
+        "gaps", "Where the gaps are",
+        "Uncovered FTE by office and period; darker is a larger gap. Hover a cell for the "
+        "skills short there.",
+        chart("heat", "Shortfall by office and period") + _shortfall_table(data)))
+    runs = [[*r[:6], _m(r[6])] for r in _detail_runs(data)]
+    moves_body = chart("flows", "Staff movements between offices",
+                        "Band width: person-periods of work moved. A reassignment counts every "
+                        "period from its start to the end of the horizon.")
+    moves_body += "<h3>Details</h3>" + (table_html(
+        ["person", "home office", "to office", "from", "to", "periods", "cost"], runs,
+        name="details", numeric=[False] * 5 + [True, True]) if runs else
+        '<p class="quiet">No details in this plan.</p>')
+    reas = [[r["person"], r["from_office"], r["to_office"], r["period"], _m(r["cost"])]
+            for r in _records(plan.reassignments)]
+    moves_body += "<h3>Reassignments</h3>" + (table_html(
+        ["person", "from office", "to office", "effective", "cost"], reas,
+        name="reassignments", numeric=[False] * 4 + [True]) if reas else
+        '<p class="quiet">No reassignments in this plan.</p>')
+    sections.append(section(
+        "moves", "Who moves where",
+        "Temporary details (blue) and permanent reassignments (purple), from home office on the "
+        "left to the office helped on the right.", moves_body))
+    hires = [[r["office"], r["skill"], r["start_period"], int(r["count"]), r["funding"],
+              _m(r["onboarding_cost"]), _m(r["salary_cost"])]
+             for r in _records(plan.hires)]
+    sections.append(section(
+        "hiring", "Hiring",
+        "Hires by the period they start and by skill. New hires ramp up before they are fully "
+        "productive, so a start shows in capacity gradually.",
+        chart("hires", "Hires by start period and skill") + (table_html(
+            ["office", "skill", "start", "count", "funding", "onboarding cost",
+             "new salary to horizon end"], hires, name="hires",
+            numeric=[False, False, False, True, False, True, True]) if hires else
+            '<p class="quiet">No hires in this plan.</p>')))
+    cost_rows = [[r["year"], r["kind"], _m(r["spend"]),
+                  (r["cap"], money(r["cap"])) if r["cap"] is not None else (1e300, "no cap"),
+                  (r["spend"] / r["cap"], f"{r['spend'] / r['cap']:.0%}") if r["cap"] else
+                  (0, "-")] for r in payload["budget"]]
+    sections.append(section(
+        "money", "Money",
+        "New money only: onboarding, salaries of new positions, details and relocations, by "
+        "budget year, against each year's caps (the black tick).",
+        chart("budget", "Spending against budget by year") + table_html(
+            ["year", "budget line", "spent", "cap", "used"], cost_rows, name="costs",
+            numeric=[False, False, True, True, True])))
+    sections.extend(extra.sections)
+    sections.append(section("run", "How it was found", "", _run_details(data)))
+    toc = "".join(f'<a href="#{a}">{e(t)}</a>' for a, t in nav)
+    words, tone = STATUS_WORDS.get(run.status, (run.status.replace("_", " "), "fair"))
+    notes = "".join(f'<p class="note">{e(n)}</p>' for n in data.notes)
+    return f"""<!DOCTYPE html>
+<html lang="en">
+<head>
+<meta charset="utf-8">
+<meta name="viewport" content="width=device-width, initial-scale=1">
+<title>Staffing plan: {e(inst.name)}</title>
+<style>{_asset("report.css")}</style>
+</head>
+<body data-charts-drawn="0">
+<header class="top">
+  <div class="top-inner">
+    <div>
+      <p class="kicker">Staffing plan</p>
+      <h1>{e(inst.name)}</h1>
+      <p class="sub">{subtitle}</p>
+    </div>
+    <div class="stamp"><span class="pill {tone}">{e(words)}</span>
+      <span class="written">written {written}</span></div>
+  </div>
+  <nav class="toc">{toc}</nav>
+</header>
+<main>
+<aside class="caution" role="note"><strong>Before you act on this.</strong> {e(run.caution)}</aside>
+{notes}
+{"".join(sections)}
+</main>
+<footer><p>{e(run.caution)}</p><p>Made by rebalance from the plan tables in this folder;
+the CSV files and plan.xlsx hold every row.</p></footer>
+<script type="application/json" id="report-data">{data_json}</script>
+<script>{_asset("report.js")}</script>
+</body>
+</html>
+"""
+
+
+def _run_details(data: ReportData) -> str:
+    run = data.summary
+    def fmt(value: float | None, spec: str) -> str:
+        return "-" if value is None else format(value, spec)
+
+    facts = [
+        ("solver", run.solver_version or run.solver or "-"),
+        ("objective", run.objective_mode or "-"),
+        ("status", run.status),
+        ("relative gap at stop", fmt(run.gap, ".2%")),
+        ("model", f"{run.model_columns or 0:,} columns ({run.model_integer_columns or 0:,} "
+                  f"whole-number) and {run.model_rows or 0:,} rows"),
+        ("build / solve seconds", f"{fmt(run.build_seconds, '.2f')} / "
+                                  f"{fmt(run.solve_seconds, '.2f')}"),
+        ("independent verification", {True: "passed: every rule and total recomputed from "
+                                      "the instance and the plan tables", False: "FAILED",
+                                      None: "unknown"}[run.verified]),
+    ]
+    out = '<dl class="facts">' + "".join(f"<dt>{e(k)}</dt><dd>{e(v)}</dd>"
+                                          for k, v in facts) + "</dl>"
+    if run.stages:
+        out += table_html(["stage", "status", "objective", "bound", "gap", "seconds",
+                           "solver says"],
+                          [[s.name, s.status, s.objective, s.bound,
+                            (s.gap if s.gap is not None else -1,
+                             "-" if s.gap is None else f"{s.gap:.2%}"),
+                            s.seconds, s.solver_says] for s in run.stages],
+                          name="stages", numeric=[False, False, True, True, True, True, False])
+    for title, items in (("Violations", run.violations), ("Limits in conflict", run.conflicts),
+                         ("Input warnings", run.warnings)):
+        if items:
+            out += f"<h3>{title}</h3><ul>" + "".join(f"<li>{e(i)}</li>" for i in items) + \
+                "</ul>"
+    return out
+
+
+def write_html(data: ReportData, path: str | Path) -> Path:
+    """Write ``report.html`` (a temporary file renamed into place, so never half-written)."""
+    target = Path(path)
+    target.parent.mkdir(parents=True, exist_ok=True)
+    tmp = target.with_name(f".{target.name}.tmp")
+    tmp.write_text(render_html(data), encoding="utf-8")
+    tmp.replace(target)
+    return target

@@ -1,0 +1,185 @@
+"""What a report is made from: the instance, the plan tables, the run summary, and any analysis
+tables found beside them.  Gathered either from a fresh :class:`PlanResult` or from a plan
+folder on disk, so ``rebalance plan`` and ``rebalance report`` draw the same pages.
+
+Nothing here computes a plan; analysis tables (frontier, scenarios, marginal values) are read
+as their writers left them, with columns looked up defensively.
+"""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import pandas as pd
+
+from rebalance.instance import Instance
+from rebalance.plan import Plan, read_plan
+from rebalance.planning import CAUTION, PlanResult, summary_dict
+
+__all__ = ["ANALYSIS_FILES", "ReportData", "RunSummary", "StageSummary", "report_data",
+           "report_data_from_folder"]
+
+# Analysis tables a plan folder may hold (issue 5 writes them); each section shows only if
+# its file is there.  Several names are accepted for the scenario comparison.
+ANALYSIS_FILES: dict[str, tuple[str, ...]] = {
+    "frontier": ("frontier.csv",),
+    "scenarios": ("scenarios.csv", "comparison.csv", "compare.csv"),
+    "marginal_values": ("marginal_values.csv",),
+}
+
+
+@dataclass(frozen=True)
+class StageSummary:
+    name: str
+    status: str
+    objective: float | None
+    bound: float | None
+    gap: float | None
+    seconds: float | None
+    solver_says: str
+
+
+@dataclass(frozen=True)
+class RunSummary:
+    """The parts of ``summary.json`` a report shows, typed; missing keys read as unknown."""
+
+    instance: str
+    status: str
+    objective_mode: str
+    gap: float | None
+    solver: str
+    solver_version: str
+    model_columns: int | None
+    model_rows: int | None
+    model_integer_columns: int | None
+    build_seconds: float | None
+    solve_seconds: float | None
+    verified: bool | None
+    violations: tuple[str, ...]
+    conflicts: tuple[str, ...]
+    warnings: tuple[str, ...]
+    stages: tuple[StageSummary, ...]
+    caution: str = CAUTION
+
+    @classmethod
+    def from_dict(cls, raw: Mapping[str, Any]) -> RunSummary:
+        def num(value: Any) -> float | None:
+            return float(value) if isinstance(value, int | float) and not isinstance(
+                value, bool) else None
+
+        def whole(value: Any) -> int | None:
+            return int(value) if isinstance(value, int) and not isinstance(value, bool) else None
+
+        def texts(value: Any) -> tuple[str, ...]:
+            return tuple(str(v) for v in value) if isinstance(value, list) else ()
+
+        def section(key: str) -> dict[str, Any]:
+            value = raw.get(key)
+            return value if isinstance(value, dict) else {}
+
+        model, seconds, verification = section("model"), section("seconds"), section(
+            "verification")
+        stages = []
+        for s in raw.get("stages") or []:
+            if isinstance(s, dict):
+                stages.append(StageSummary(str(s.get("stage", "")), str(s.get("status", "")),
+                                           num(s.get("objective")), num(s.get("bound")),
+                                           num(s.get("gap")), num(s.get("seconds")),
+                                           str(s.get("solver_says", ""))))
+        passed = verification.get("passed")
+        return cls(
+            instance=str(raw.get("instance", "")),
+            status=str(raw.get("status", "unknown")),
+            objective_mode=str(raw.get("objective_mode", "")),
+            gap=num(raw.get("gap")),
+            solver=str(raw.get("solver", "")),
+            solver_version=str(raw.get("solver_version", "")),
+            model_columns=whole(model.get("columns")),
+            model_rows=whole(model.get("rows")),
+            model_integer_columns=whole(model.get("integer_columns")),
+            build_seconds=num(seconds.get("build")),
+            solve_seconds=num(seconds.get("solve")),
+            verified=passed if isinstance(passed, bool) else None,
+            violations=texts(verification.get("violations")),
+            conflicts=texts(raw.get("conflicts")),
+            warnings=texts(raw.get("warnings")),
+            stages=tuple(stages),
+            caution=str(raw.get("caution") or CAUTION),
+        )
+
+
+@dataclass(frozen=True)
+class ReportData:
+    """Everything the workbook and HTML writers read."""
+
+    instance: Instance
+    plan: Plan
+    summary: RunSummary
+    frontier: pd.DataFrame | None = None
+    scenarios: pd.DataFrame | None = None
+    marginal_values: pd.DataFrame | None = None
+    notes: tuple[str, ...] = field(default=())
+
+
+def report_data(result: PlanResult, plan_dir: str | Path | None = None) -> ReportData:
+    """Report inputs from a fresh solve (analysis tables from ``plan_dir`` when given)."""
+    if result.plan is None:
+        raise ValueError("no plan to report")
+    analysis, notes = _analysis_tables(Path(plan_dir)) if plan_dir else ({}, [])
+    return ReportData(result.instance, result.plan, RunSummary.from_dict(summary_dict(result)),
+                      notes=tuple(notes), **analysis)
+
+
+def report_data_from_folder(plan_dir: str | Path, instance: Instance) -> ReportData:
+    """Report inputs from a plan folder written by ``rebalance plan`` (and analysis commands)."""
+    folder = Path(plan_dir)
+    summary_path = folder / "summary.json"
+    notes: list[str] = []
+    raw: dict[str, Any] = {}
+    if summary_path.is_file():
+        try:
+            loaded = json.loads(summary_path.read_text(encoding="utf-8"))
+            raw = loaded if isinstance(loaded, dict) else {}
+        except json.JSONDecodeError as exc:
+            notes.append(f"summary.json could not be read ({exc}); run details are unknown")
+    else:
+        notes.append("summary.json is missing; run details are unknown")
+    raw.setdefault("instance", instance.name)
+    analysis, more = _analysis_tables(folder)
+    return ReportData(instance, read_plan(folder), RunSummary.from_dict(raw),
+                      notes=tuple(notes + more), **analysis)
+
+
+def _analysis_tables(folder: Path) -> tuple[dict[str, pd.DataFrame | None], list[str]]:
+    tables: dict[str, pd.DataFrame | None] = {}
+    notes: list[str] = []
+    for name, files in ANALYSIS_FILES.items():
+        tables[name] = None
+        for file in files:
+            path = folder / file
+            if not path.is_file():
+                continue
+            try:
+                frame = pd.read_csv(path)
+            except (ValueError, OSError) as exc:  # pandas' parser errors are ValueErrors
+                notes.append(f"{file} could not be read ({exc}); its section is left out")
+                break
+            frame.columns = [str(c).strip() for c in frame.columns]
+            tables[name] = frame if len(frame) else None
+            break
+    return tables, notes
+
+
+def stored_instance_path(plan_dir: str | Path) -> str | None:
+    """The instance path ``rebalance plan`` stored in summary.json, if any."""
+    path = Path(plan_dir) / "summary.json"
+    try:
+        raw = json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, json.JSONDecodeError):
+        return None
+    value = raw.get("instance_path") if isinstance(raw, dict) else None
+    return str(value) if value else None

@@ -1,0 +1,334 @@
+"""Read a whole instance from one ``.xlsx`` workbook, and write an instance folder as one.
+
+A workbook holds one sheet per table of the folder format, with the same columns as the CSV
+files, plus a ``settings`` sheet of ``key | value`` rows and an optional ``periods`` sheet (see
+``docs/instance-format.md``, section *Instance as one workbook*).  Cells are turned into text and
+handed to :func:`rebalance.readers.build_instance`, so a workbook is validated by exactly the
+rules a folder is; only the labels differ: every problem names ``book.xlsx[sheet]``, the row as
+the spreadsheet shows it and the column.
+"""
+
+from __future__ import annotations
+
+import csv
+import datetime as dt
+import math
+import re
+import tomllib
+from collections.abc import Mapping
+from dataclasses import dataclass, replace
+from pathlib import Path
+from typing import Any
+
+from rebalance.instance import Instance
+from rebalance.readers import (
+    COLUMNS,
+    OPTIONAL_TABLES,
+    REQUIRED_TABLES,
+    InstanceError,
+    Problem,
+    RawTable,
+    build_instance,
+)
+
+__all__ = ["SETTINGS_KEYS", "folder_to_workbook", "read_workbook"]
+
+SETTINGS_SHEET = "settings"
+PERIODS_SHEET = "periods"
+PERIOD_COLUMNS = ("name", "year", "hours_per_fte")
+# Every key settings.toml understands, dotted (horizon.periods is the periods sheet instead).
+SETTINGS_KEYS = (
+    "horizon.start", "horizon.count", "horizon.hours_per_fte", "horizon.periods_per_year",
+    "policy.max_away_share", "policy.max_consecutive_detail_periods",
+    "move_costs.detail_cost_per_period", "move_costs.relocation_cost",
+    "move_costs.same_location_detail_cost_per_period",
+    "move_costs.same_location_relocation_cost",
+    "objective.mode", "objective.shortfall_cost", "objective.shortfall_tolerance",
+    "solver.name", "solver.time_limit_seconds", "solver.relative_gap", "solver.threads",
+    "solver.seed",
+)
+_NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
+_PERIOD_KEY = re.compile(r"^horizon\.periods\[(\d+)\](?:\.(\w+))?$")
+
+
+@dataclass(frozen=True)
+class _Sheet:
+    """A sheet as text cells, header in row 1."""
+
+    columns: tuple[str, ...]
+    rows: tuple[dict[str, str], ...]
+    raw_rows: tuple[tuple[Any, ...], ...]  # typed cell values, for the settings sheet
+
+
+def read_workbook(path: str | Path) -> Instance:
+    """Read and validate an instance workbook; raise :class:`InstanceError` listing all problems.
+
+    The instance is named after the file without its suffix.
+    """
+    book_path = Path(path)
+    book = book_path.name
+    if not book_path.is_file():
+        raise InstanceError([Problem(book, None, None, "workbook not found")])
+    try:
+        sheets = _load_sheets(book_path)
+    except Exception as exc:  # openpyxl raises many kinds for a file that is not a workbook
+        raise InstanceError([Problem(book, None, None,
+                                     f"cannot be read as an .xlsx workbook ({exc})")]) from None
+
+    def label(sheet: str) -> str:
+        return f"{book}[{sheet}]"
+
+    problems: list[Problem] = []
+    tables: dict[str, RawTable] = {}
+    for name in REQUIRED_TABLES + OPTIONAL_TABLES:
+        sheet = sheets.get(name)
+        if sheet is not None:
+            tables[name] = RawTable(label(name), sheet.columns, sheet.rows)
+        elif name in REQUIRED_TABLES:
+            problems.append(Problem(label(name), None, None, "sheet is missing"))
+    known = set(REQUIRED_TABLES + OPTIONAL_TABLES + (SETTINGS_SHEET, PERIODS_SHEET))
+    for name in sheets:
+        if name not in known:
+            problems.append(Problem(label(name), None, None, "unknown sheet, ignored (expected "
+                                    "one of: " + ", ".join(sorted(known)) + ")",
+                                    is_warning=True))
+
+    settings: dict[str, Any] = {}
+    key_rows: dict[str, int] = {}
+    if SETTINGS_SHEET in sheets:
+        settings, key_rows = _settings(sheets[SETTINGS_SHEET], label(SETTINGS_SHEET), problems)
+    else:
+        problems.append(Problem(label(SETTINGS_SHEET), None, None, "sheet is missing"))
+    if PERIODS_SHEET in sheets:
+        _periods(sheets[PERIODS_SHEET], label(PERIODS_SHEET), settings, problems)
+
+    name = book_path.stem
+    try:
+        instance = build_instance(name, settings, tables, problems)
+    except InstanceError as exc:
+        raise InstanceError([_relabel(p, book, key_rows) for p in exc.problems]) from None
+    warnings = tuple(str(_relabel(p, book, key_rows)) for p in problems if p.is_warning)
+    return instance.with_changes(warnings=warnings)
+
+
+# --------------------------------------------------------------------------------------------
+# cells and sheets
+
+
+def _load_sheets(path: Path) -> dict[str, _Sheet]:
+    from openpyxl import load_workbook  # imported here: only workbook users pay for it
+
+    # read_only streams rows; data_only gives a formula's cached value, not its text.
+    wb = load_workbook(path, read_only=True, data_only=True)
+    try:
+        out: dict[str, _Sheet] = {}
+        for ws in wb.worksheets:
+            values = [tuple(r) for r in ws.iter_rows(values_only=True)]
+            header = [_text(c) for c in values[0]] if values else []
+            while header and header[-1] == "":
+                header.pop()
+            rows = []
+            for cells in values[1:]:
+                padded = list(cells) + [None] * (len(header) - len(cells))
+                rows.append({h: _text(padded[i]) for i, h in enumerate(header) if h})
+            out[ws.title.strip().lower()] = _Sheet(tuple(header), tuple(rows),
+                                                   tuple(values[1:]))
+        return out
+    finally:
+        wb.close()
+
+
+def _text(value: Any) -> str:
+    """A cell as the text a CSV file would hold."""
+    if value is None:
+        return ""
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, float):
+        # Spreadsheets store every number as a float; 3.0 in a whole-number column is "3".
+        if math.isfinite(value) and value == int(value) and abs(value) < 1e15:
+            return str(int(value))
+        return repr(value)
+    if isinstance(value, dt.datetime | dt.date):
+        return value.isoformat()
+    return str(value).strip()
+
+
+def _typed(value: Any) -> Any:
+    """A settings cell as TOML would type it: whole numbers as int, numeric text as a number."""
+    if isinstance(value, str):
+        text = value.strip()
+        if _NUMBER.match(text):
+            value = float(text)
+        elif text.lower() in ("true", "false"):
+            return text.lower() == "true"
+        else:
+            return text
+    if isinstance(value, float) and math.isfinite(value) and value == int(value):
+        return int(value)
+    if isinstance(value, dt.datetime | dt.date):
+        return value.isoformat()
+    return value
+
+
+def _settings(sheet: _Sheet, label: str, problems: list[Problem]) -> tuple[
+        dict[str, Any], dict[str, int]]:
+    """Nested settings from ``key | value`` rows, and the sheet row of each key."""
+    settings: dict[str, Any] = {}
+    key_rows: dict[str, int] = {}
+    columns = [c.lower() for c in sheet.columns]
+    for needed in ("key", "value"):
+        if needed not in columns:
+            problems.append(Problem(label, 1, needed, "required column is missing (the "
+                                    "settings sheet has columns key, value and optional note)"))
+    if "key" not in columns or "value" not in columns:
+        return settings, key_rows
+    key_at, value_at = columns.index("key"), columns.index("value")
+    for i, cells in enumerate(sheet.raw_rows):
+        row_number = i + 2
+        padded = list(cells) + [None] * (max(key_at, value_at) + 1 - len(cells))
+        key, value = _text(padded[key_at]), padded[value_at]
+        if key == "":
+            if value not in (None, ""):
+                problems.append(Problem(label, row_number, "key", "is empty but a value is "
+                                        "given; expected a key such as solver.time_limit_seconds"))
+            continue
+        if key in key_rows:
+            problems.append(Problem(label, row_number, "key", f"'{key}' is listed twice (first "
+                                    f"at row {key_rows[key]})"))
+            continue
+        if key not in SETTINGS_KEYS:
+            problems.append(Problem(label, row_number, "key", f"unknown key '{key}', ignored "
+                                    "(expected one of: " + ", ".join(SETTINGS_KEYS) + ")",
+                                    is_warning=True))
+            continue
+        key_rows[key] = row_number
+        if value is None or _text(value) == "":
+            continue  # blank value: the default applies, as when a key is left out of TOML
+        section, _, name = key.partition(".")
+        settings.setdefault(section, {})[name] = _typed(value)
+    return settings, key_rows
+
+
+def _periods(sheet: _Sheet, label: str, settings: dict[str, Any],
+             problems: list[Problem]) -> None:
+    """Explicit periods from the periods sheet into ``settings['horizon']['periods']``."""
+    for needed in ("name", "year"):
+        if needed not in sheet.columns:
+            problems.append(Problem(label, 1, needed, "required column is missing"))
+    if "name" not in sheet.columns or "year" not in sheet.columns:
+        return
+    listed = []
+    for row in sheet.rows:
+        if not any(row.values()):
+            continue
+        entry: dict[str, Any] = {"name": row.get("name", ""), "year": row.get("year", "")}
+        if row.get("hours_per_fte"):
+            entry["hours_per_fte"] = _typed(row["hours_per_fte"])
+        listed.append(entry)
+    horizon = settings.setdefault("horizon", {})
+    if isinstance(horizon, dict):
+        horizon["periods"] = listed
+
+
+def _relabel(problem: Problem, book: str, key_rows: Mapping[str, int]) -> Problem:
+    """Rename a problem that :func:`build_instance` located in a folder's files."""
+    message = _sheet_words(problem.message, book)
+    file = problem.file
+    if file == "settings.toml":
+        key = problem.column or ""
+        period = _PERIOD_KEY.match(key)
+        if period is not None:
+            # horizon.periods[i] is the i-th period row (1-based), so sheet row i + 1.
+            return Problem(f"{book}[{PERIODS_SHEET}]", int(period.group(1)) + 1,
+                           period.group(2) or "name", message, problem.is_warning)
+        if key == "horizon.periods":
+            return Problem(f"{book}[{PERIODS_SHEET}]", None, None, message, problem.is_warning)
+        if key in key_rows:
+            return Problem(f"{book}[{SETTINGS_SHEET}]", key_rows[key], "value",
+                           f"{key}: {message}", problem.is_warning)
+        return Problem(f"{book}[{SETTINGS_SHEET}]", None, "key",
+                       f"{key}: {message}" if key else message, problem.is_warning)
+    if file.endswith(".csv") and file.removesuffix(".csv") in COLUMNS:
+        file = f"{book}[{file.removesuffix('.csv')}]"
+    return replace(problem, file=file, message=message)
+
+
+def _sheet_words(message: str, book: str) -> str:
+    """'listed in offices.csv' reads 'listed in sheet offices' for a workbook."""
+    message = re.sub(r"\b(" + "|".join(COLUMNS) + r")\.csv\b", r"sheet \1", message)
+    return message.replace("settings.toml", f"sheet {SETTINGS_SHEET}")
+
+
+# --------------------------------------------------------------------------------------------
+# writing: an instance folder as one workbook (for planners who start from a folder)
+
+
+def folder_to_workbook(folder: str | Path, path: str | Path) -> Path:
+    """Copy an instance folder's files, cell for cell, into one workbook at ``path``.
+
+    The files are copied as written, not as validated, so the workbook reads back to the same
+    instance (and to the same problems, if the folder has any).  Numbers stay text-exact:
+    a cell holding ``0.15`` is stored as the number 0.15.
+    """
+    from openpyxl import Workbook
+    from openpyxl.styles import Font
+
+    source, target = Path(folder), Path(path)
+    settings_file = source / "settings.toml"
+    settings = tomllib.loads(settings_file.read_text(encoding="utf-8")) if (
+        settings_file.is_file()) else {}
+    wb = Workbook()
+    ws = wb.create_sheet(SETTINGS_SHEET)
+    wb.remove(wb.worksheets[0])  # the blank sheet a new workbook starts with
+    ws.append(["key", "value", "note"])
+    horizon = settings.get("horizon", {})
+    for key in SETTINGS_KEYS:
+        section, _, name = key.partition(".")
+        value = settings.get(section, {}).get(name)
+        if value is not None:
+            ws.append([key, value])
+    periods = horizon.get("periods") if isinstance(horizon, dict) else None
+    if periods:
+        ps = wb.create_sheet(PERIODS_SHEET)
+        ps.append(list(PERIOD_COLUMNS))
+        for entry in periods:
+            ps.append([entry.get(c) for c in PERIOD_COLUMNS])
+    for name in REQUIRED_TABLES + OPTIONAL_TABLES:
+        csv_path = source / f"{name}.csv"
+        if not csv_path.is_file():
+            continue
+        sheet = wb.create_sheet(name)
+        with csv_path.open(newline="", encoding="utf-8-sig") as handle:
+            reader = csv.reader(handle)
+            header = [h.strip() for h in next(reader, [])]
+            sheet.append(header)
+            for cells in reader:
+                sheet.append([_cell(c) if i < len(header) and header[i] in _NUMERIC_COLUMNS
+                              else (c.strip() or None) for i, c in enumerate(cells)])
+    for sheet in wb.worksheets:
+        for cell in sheet[1]:
+            cell.font = Font(bold=True)
+        sheet.freeze_panes = "A2"
+    target.parent.mkdir(parents=True, exist_ok=True)
+    wb.save(target)
+    return target
+
+
+# Columns stored as numbers; names, ids, years and periods stay text so "0042" keeps its zeros.
+_NUMERIC_COLUMNS = frozenset({
+    "seats", "max_hires_per_period", "salary_per_period", "onboarding_cost", "time_to_hire",
+    "fte", "hours", "priority", "hiring", "moves", "detail_cost_per_period",
+    "relocation_cost", "count", "annual_rate",
+})
+
+
+def _cell(text: str) -> Any:
+    """A numeric column's CSV text as a number cell (text it if it is not a number)."""
+    text = text.strip()
+    if text == "":
+        return None
+    if _NUMBER.match(text):
+        number = float(text)
+        return int(number) if number == int(number) and abs(number) < 1e15 else number
+    return text  # left as text, so the reader reports it exactly as the CSV reader would

@@ -1,0 +1,173 @@
+"""An instance read from one workbook equals the same instance read from its folder, and a
+broken workbook is reported by sheet, row and column, every problem at once."""
+
+from __future__ import annotations
+
+import dataclasses
+import subprocess
+import sys
+import tomllib
+from pathlib import Path
+
+import pandas as pd
+import pytest
+from openpyxl import load_workbook
+
+from rebalance.readers import InstanceError, read_instance
+from rebalance.workbook_reader import SETTINGS_KEYS, folder_to_workbook, read_workbook
+
+TESTS = Path(__file__).resolve().parent.parent
+ROOT = TESTS.parent
+TINY = TESTS / "data" / "tiny"
+DEMO = ROOT / "instances" / "demo"
+
+
+def _same(a, b) -> bool:
+    # Names differ (folder name vs file stem); warnings name files vs sheets.
+    return dataclasses.replace(a, name="", warnings=()) == dataclasses.replace(
+        b, name="", warnings=())
+
+
+@pytest.mark.parametrize("folder", [TINY, DEMO], ids=["tiny", "demo"])
+def test_folder_and_workbook_give_the_same_instance(folder, tmp_path):
+    book = folder_to_workbook(folder, tmp_path / f"{folder.name}.xlsx")
+    from_book = read_instance(book)  # dispatches on the .xlsx suffix
+    assert from_book.name == folder.name
+    assert _same(read_instance(folder), from_book)
+
+
+def test_workbook_written_by_another_writer_reads_the_same(tmp_path):
+    # Reference writer: pandas.DataFrame.to_excel, so the reader is not only checked against
+    # workbooks our own writer makes.  Cells are typed the way pandas infers them.
+    book = tmp_path / "tiny.xlsx"
+    settings = tomllib.loads((TINY / "settings.toml").read_text())
+    rows = [(k, settings[k.split(".")[0]][k.split(".")[1]]) for k in SETTINGS_KEYS
+            if k.split(".")[1] in settings.get(k.split(".")[0], {})]
+    with pd.ExcelWriter(book, engine="openpyxl") as writer:
+        pd.DataFrame(rows, columns=["key", "value"]).to_excel(
+            writer, sheet_name="settings", index=False)
+        for csv in sorted(TINY.glob("*.csv")):
+            pd.read_csv(csv).to_excel(writer, sheet_name=csv.stem, index=False)
+    assert _same(read_instance(TINY), read_workbook(book))
+
+
+def test_periods_sheet_lists_periods(tmp_path):
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    settings = wb["settings"]
+    for row in list(settings.iter_rows(min_row=2)):
+        if row[0].value in ("horizon.start", "horizon.count"):
+            row[0].value = None
+            row[1].value = None
+    periods = wb.create_sheet("periods")
+    periods.append(["name", "year", "hours_per_fte"])
+    for i in range(1, 5):
+        periods.append([f"P{i}", 2027, 480 if i != 3 else 400])
+    for sheet in ("demand", "staff"):
+        for row in wb[sheet].iter_rows(min_row=2):
+            for cell in row:
+                if isinstance(cell.value, str) and cell.value.startswith("2027-Q"):
+                    cell.value = "P" + cell.value[-1]
+    wb.save(book)
+    instance = read_workbook(book)
+    assert instance.period_names == ("P1", "P2", "P3", "P4")
+    assert [p.hours_per_fte for p in instance.periods] == [480, 480, 400, 480]
+    assert instance.years == ("2027",)
+
+
+# Each case: a change to the tiny workbook, and the (sheet, row, column) the problem must name.
+BROKEN = {
+    "fte-out-of-range": (("staff", "C3", 1.5), ("tiny.xlsx[staff]", 3, "fte")),
+    "unknown-office": (("staff", "B4", "nowhere"), ("tiny.xlsx[staff]", 4, "home_office")),
+    "text-in-number": (("skills", "B2", "lots"), ("tiny.xlsx[skills]", 2, "salary_per_period")),
+    "unknown-period": (("demand", "C5", "2031-Q1"), ("tiny.xlsx[demand]", 5, "period")),
+    "bad-setting": (("settings", "policy.max_away_share", 2),
+                    ("tiny.xlsx[settings]", None, "value")),
+    "bad-solver": (("settings", "solver.name", "simplex"),
+                   ("tiny.xlsx[settings]", None, "value")),
+}
+
+
+def _settings_row(ws, key: str) -> int:
+    for row in ws.iter_rows(min_row=2):
+        if row[0].value == key:
+            return row[0].row
+    raise KeyError(key)
+
+
+@pytest.mark.parametrize("case", sorted(BROKEN))
+def test_broken_workbook_names_sheet_row_and_column(case, tmp_path):
+    (sheet, cell, value), (label, row, column) = BROKEN[case]
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    if sheet == "settings":
+        at = _settings_row(wb["settings"], cell)
+        wb["settings"].cell(row=at, column=2).value = value
+        row = at
+        key = cell
+    else:
+        wb[sheet][cell] = value
+        key = None
+    wb.save(book)
+    with pytest.raises(InstanceError) as caught:
+        read_instance(book)
+    errors = [p for p in caught.value.problems if not p.is_warning]
+    # The first problem is the cause (a bad skill row also makes later references unknown).
+    assert (errors[0].file, errors[0].row, errors[0].column) == (label, row, column), errors
+    if key:
+        assert errors[0].message.startswith(key)
+    assert ".csv" not in errors[0].message and "settings.toml" not in errors[0].message
+
+
+def test_all_problems_at_once_and_missing_sheets(tmp_path):
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    wb["staff"]["C3"] = 0
+    wb["offices"]["C2"] = -1
+    del wb["budget"]
+    wb["settings"].append(["solver.nmae", "highs"])  # a typo: warned, not silently ignored
+    wb.create_sheet("notes")
+    wb.save(book)
+    with pytest.raises(InstanceError) as caught:
+        read_instance(book)
+    found = {(p.file, p.row, p.column, p.is_warning) for p in caught.value.problems}
+    assert ("tiny.xlsx[staff]", 3, "fte", False) in found
+    assert ("tiny.xlsx[offices]", 2, "seats", False) in found
+    assert ("tiny.xlsx[budget]", None, None, False) in found
+    assert ("tiny.xlsx[notes]", None, None, True) in found
+    typo = [p for p in caught.value.problems if p.column == "key"]
+    assert typo and typo[0].is_warning and "solver.nmae" in typo[0].message
+
+
+def test_not_a_workbook(tmp_path):
+    fake = tmp_path / "fake.xlsx"
+    fake.write_text("office,location\n")
+    with pytest.raises(InstanceError) as caught:
+        read_instance(fake)
+    assert caught.value.problems[0].file == "fake.xlsx"
+    with pytest.raises(InstanceError):
+        read_instance(tmp_path / "missing.xlsx")
+
+
+def test_cli_check_and_plan_accept_a_workbook(tmp_path):
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    run = [sys.executable, "-m", "rebalance.cli"]
+    checked = subprocess.run([*run, "check", str(book)], capture_output=True, text=True)
+    assert checked.returncode == 0, checked.stderr
+    assert "Instance tiny: valid" in checked.stdout
+    out = tmp_path / "plan"
+    planned = subprocess.run([*run, "plan", str(book), "-o", str(out), "-q"],
+                             capture_output=True, text=True)
+    assert planned.returncode == 0, planned.stderr
+    assert (out / "report.html").is_file() and (out / "plan.xlsx").is_file()
+    # A broken workbook: exit 3, every problem named by sheet, no traceback, nothing written.
+    wb = load_workbook(book)
+    wb["staff"]["C3"] = 7
+    wb.save(book)
+    bad_out = tmp_path / "bad"
+    failed = subprocess.run([*run, "plan", str(book), "-o", str(bad_out)], capture_output=True,
+                            text=True)
+    assert failed.returncode == 3
+    assert "tiny.xlsx[staff]:3: fte:" in failed.stderr
+    assert "Traceback" not in failed.stderr
+    assert not bad_out.exists()

@@ -3,7 +3,7 @@
 The model is written as one sparse matrix with row bounds, so that HiGHS can take it in one
 ``passModel`` call and PuLP (for CBC) can be fed row slices without building expressions term
 by term.  Columns come in named blocks (work, detail, reassignment, hire, shortfall); each block
-keeps integer key arrays (person, office, skill, period, ...) so plan extraction can decode a
+keeps integer key arrays (unit, office, skill, period, ...) so plan extraction can decode a
 solution vector without knowing solver objects.  The mathematics is written up in
 ``docs/model.md``; the comments here refer to its constraint names.
 """
@@ -19,13 +19,15 @@ import scipy.sparse as sp
 
 from rebalance.instance import Instance
 
-__all__ = ["ColumnBlock", "Model", "RowFamily", "build_model"]
+__all__ = ["ColumnBlock", "Model", "RowFamily", "build_model", "group_units"]
 
 INF = math.inf
 
 # Row families: structure rows hold the model together; limit rows are the organisation's
 # limits, which the infeasibility analysis may relax to say which ones conflict.
-STRUCTURE_FAMILIES = ("capacity", "coverage", "one_detail", "detail_from_home", "one_reassignment")
+STRUCTURE_FAMILIES = (
+    "capacity", "coverage", "one_detail", "detail_from_home", "one_reassignment", "home_stays",
+)
 LIMIT_FAMILIES = (
     "consecutive_details",
     "away_share",
@@ -76,7 +78,10 @@ class Model:
     cost: np.ndarray
     blocks: dict[str, ColumnBlock]
     rows: tuple[RowFamily, ...]
-    # Constant part of the weighted shortfall (demand nobody could ever cover is still counted).
+    # Staff indices of each unit (a pool of interchangeable people, or one person).
+    units: tuple[tuple[int, ...], ...] = ()
+    # Units whose one skill takes all their output (no work columns; see the coverage rows).
+    direct_units: frozenset[int] = frozenset()
     build_seconds: float = 0.0
 
     @property
@@ -173,8 +178,36 @@ class _Builder:
         )
 
 
-def build_model(instance: Instance) -> Model:
-    """Build the person-level model of ``instance`` (see ``docs/model.md``)."""
+def group_units(instance: Instance, pooled: bool = True) -> tuple[tuple[int, ...], ...]:
+    """Group interchangeable people into units (pools); each unit is a tuple of staff indices.
+
+    People are interchangeable when they share home office, skills with proficiencies (in
+    order: the first skill sets attrition), FTE, eligibility and leaving period.  People who
+    may be relocated stay on their own: a reassignment changes one person's home, and the
+    home in force decides where their details leave from.
+    """
+    if not pooled:
+        return tuple((p,) for p in range(len(instance.staff)))
+    groups: dict[tuple[object, ...], list[int]] = {}
+    singles: list[tuple[int, ...]] = []
+    for p, person in enumerate(instance.staff):
+        if person.can_relocate:
+            singles.append((p,))
+            continue
+        key = (person.home_office, person.skills, person.fte, person.can_detail,
+               person.last_period)
+        groups.setdefault(key, []).append(p)
+    units = [tuple(members) for members in groups.values()] + singles
+    return tuple(sorted(units))
+
+
+def build_model(instance: Instance, pooled: bool = True) -> Model:
+    """Build the model of ``instance`` (see ``docs/model.md``).
+
+    With ``pooled`` (the default) interchangeable people share columns with integer counts;
+    ``pooled=False`` gives every person their own columns (the person-level formulation,
+    kept for tests that prove both reach the same optimum).
+    """
     import time
 
     started = time.perf_counter()
@@ -185,6 +218,9 @@ def build_model(instance: Instance) -> Model:
     o_ix = {name: i for i, name in enumerate(offices)}
     k_ix = {name: i for i, name in enumerate(skills)}
     year_of = [p.year for p in instance.periods]
+    units = group_units(instance, pooled)
+    rep = [instance.staff[members[0]] for members in units]  # a representative per unit
+    size = np.asarray([len(members) for members in units], dtype=float)
 
     demand_fte: dict[tuple[int, int, int], float] = {}
     priority: dict[tuple[int, int, int], float] = {}
@@ -201,32 +237,37 @@ def build_model(instance: Instance) -> Model:
     m = instance.policy.max_consecutive_detail_periods
     details_allowed = m is None or m > 0
 
-    # ---- columns: detail d[p, a, b, t] (a = home in force, b = destination) -------------
-    det_keys: dict[str, list[int]] = {"person": [], "home": [], "office": [], "period": []}
+    # ---- columns: detail d[u, a, b, t] (a = home in force, b = destination) -------------
+    det_keys: dict[str, list[int]] = {"unit": [], "home": [], "office": [], "period": []}
     det_cost: list[float] = []
-    # ---- columns: reassignment r[p, o, t] ------------------------------------------------
-    rea_keys: dict[str, list[int]] = {"person": [], "office": [], "period": []}
-    rea_cost: list[float] = []
-    # ---- columns: work w[p, o, k, t] -------------------------------------------------------
-    work_keys: dict[str, list[int]] = {"person": [], "office": [], "skill": [], "period": []}
+    det_ub: list[float] = []
+    # ---- columns: home g[u, o, t] = 1 when u's home in force at t is o, o not the original
+    # home (single-person units only).  It never switches back, so a reassignment is the
+    # step from 0 to 1; a home column per period keeps rows sparse (one term, not a sum).
+    rea_keys: dict[str, list[int]] = {"unit": [], "office": [], "period": []}
+    rea_cost: list[float] = []  # relocation cost, charged on the last present period's column
+    # ---- columns: work w[u, o, k, t]: the unit's FTE on skill k at office o --------------
+    work_keys: dict[str, list[int]] = {"unit": [], "office": [], "skill": [], "period": []}
     work_cap: list[float] = []
 
-    avail = np.zeros((len(instance.staff), T))
-    for p, person in enumerate(instance.staff):
+    avail = np.zeros((len(units), T))  # per person of the unit
+    for u, person in enumerate(rep):
         home0 = o_ix[person.home_office]
         person_skills = {k_ix[s] for s, _ in person.skills}
         homes = range(len(offices)) if person.can_relocate else (home0,)
         for t in range(T):
-            avail[p, t] = instance.available_fte(person, t)
-            if avail[p, t] <= 0:
+            avail[u, t] = instance.available_fte(person, t)
+            if avail[u, t] <= 0:
                 continue
             if person.can_relocate:
+                last = t == T - 1 or instance.available_fte(person, t + 1) <= 0
                 for o in range(len(offices)):
                     if o != home0:
-                        rea_keys["person"].append(p)
+                        rea_keys["unit"].append(u)
                         rea_keys["office"].append(o)
                         rea_keys["period"].append(t)
-                        rea_cost.append(instance.relocation_cost(person.home_office, offices[o]))
+                        rea_cost.append(instance.relocation_cost(person.home_office, offices[o])
+                                        if last else 0.0)
             reachable = set(homes)
             if person.can_detail and details_allowed:
                 for dest in range(len(offices)):
@@ -235,24 +276,27 @@ def build_model(instance: Instance) -> Model:
                     for a in homes:
                         if a == dest:
                             continue
-                        det_keys["person"].append(p)
+                        det_keys["unit"].append(u)
                         det_keys["home"].append(a)
                         det_keys["office"].append(dest)
                         det_keys["period"].append(t)
                         det_cost.append(instance.detail_cost_per_period(offices[a], offices[dest]))
+                        det_ub.append(size[u])
                     reachable.add(dest)
+            if len(person_skills) == 1:
+                continue  # one skill: output follows where they are, no split to choose
             for o in sorted(reachable):
                 for k in sorted(person_skills & skills_wanted.get((o, t), set())):
-                    work_keys["person"].append(p)
+                    work_keys["unit"].append(u)
                     work_keys["office"].append(o)
                     work_keys["skill"].append(k)
                     work_keys["period"].append(t)
-                    work_cap.append(avail[p, t])
+                    work_cap.append(avail[u, t] * size[u])
 
     work = b.add_block("work", work_keys, np.zeros(len(work_cap)), np.asarray(work_cap), False)
-    det = b.add_block("detail", det_keys, np.zeros(len(det_cost)), np.ones(len(det_cost)), True,
+    det = b.add_block("detail", det_keys, np.zeros(len(det_cost)), np.asarray(det_ub), True,
                       cost=np.asarray(det_cost))
-    rea = b.add_block("reassignment", rea_keys, np.zeros(len(rea_cost)), np.ones(len(rea_cost)),
+    rea = b.add_block("home", rea_keys, np.zeros(len(rea_cost)), np.ones(len(rea_cost)),
                       True, cost=np.asarray(rea_cost))
 
     # ---- columns: hires h[o, k, s, funding] ------------------------------------------------
@@ -304,96 +348,111 @@ def build_model(instance: Instance) -> Model:
 
     # Index maps from keys to columns.
     D = det.keys
-    det_by_pt: dict[tuple[int, int], list[int]] = defaultdict(list)
-    det_from: dict[tuple[int, int, int], list[int]] = defaultdict(list)   # (p, a, t)
-    det_to: dict[tuple[int, int, int], list[int]] = defaultdict(list)     # (p, b, t)
+    det_by_ut: dict[tuple[int, int], list[int]] = defaultdict(list)
+    det_from: dict[tuple[int, int, int], list[int]] = defaultdict(list)   # (u, a, t)
+    det_to: dict[tuple[int, int, int], list[int]] = defaultdict(list)     # (u, b, t)
     det_from_office: dict[tuple[int, int], list[int]] = defaultdict(list)  # (a, t)
     det_to_office: dict[tuple[int, int], list[int]] = defaultdict(list)    # (b, t)
     for j in range(len(det)):
-        p, a, dest, t = int(D["person"][j]), int(D["home"][j]), int(D["office"][j]), int(
-            D["period"][j])
+        u, a, dest, t = (int(D["unit"][j]), int(D["home"][j]), int(D["office"][j]),
+                         int(D["period"][j]))
         col = det.start + j
-        det_by_pt[(p, t)].append(col)
-        det_from[(p, a, t)].append(col)
-        det_to[(p, dest, t)].append(col)
+        det_by_ut[(u, t)].append(col)
+        det_from[(u, a, t)].append(col)
+        det_to[(u, dest, t)].append(col)
         det_from_office[(a, t)].append(col)
         det_to_office[(dest, t)].append(col)
-    rea_by_p: dict[int, list[tuple[int, int, int]]] = defaultdict(list)  # p -> (col, o, t)
+    rea_by_u: dict[int, list[tuple[int, int, int]]] = defaultdict(list)  # u -> (col, o, t)
+    home_col: dict[tuple[int, int, int], int] = {}  # (u, o, t) -> column
     R = rea.keys
     for j in range(len(rea)):
-        rea_by_p[int(R["person"][j])].append((rea.start + j, int(R["office"][j]),
-                                              int(R["period"][j])))
+        u, o, t = int(R["unit"][j]), int(R["office"][j]), int(R["period"][j])
+        rea_by_u[u].append((rea.start + j, o, t))
+        home_col[(u, o, t)] = rea.start + j
 
-    def home_terms(p: int, o: int, t: int) -> tuple[float, list[int], list[float]]:
-        """h[p, o, t] as constant + sum of reassignment columns (the home in force)."""
-        home0 = o_ix[instance.staff[p].home_office]
-        const = 1.0 if o == home0 else 0.0
-        cols: list[int] = []
-        vals: list[float] = []
-        for col, dest, s in rea_by_p.get(p, ()):
-            if s <= t:
-                if o == home0:
-                    cols.append(col)
-                    vals.append(-1.0)
-                elif dest == o:
-                    cols.append(col)
-                    vals.append(1.0)
-        return const, cols, vals
+    def home_terms(u: int, o: int, t: int) -> tuple[float, list[int], list[float]]:
+        """Heads of unit u whose home in force at t is o: constant + reassignment columns."""
+        home0 = o_ix[rep[u].home_office]
+        if u not in rea_by_u:
+            return (size[u] if o == home0 else 0.0), [], []
+        if o != home0:
+            col = home_col.get((u, o, t))
+            return 0.0, ([] if col is None else [col]), ([] if col is None else [1.0])
+        cols = [c for (uu, _, tt), c in _home_cols_at(u, t)]
+        return 1.0, cols, [-1.0] * len(cols)
+
+    home_cols_by_ut: dict[tuple[int, int], list[tuple[tuple[int, int, int], int]]] = (
+        defaultdict(list))
+    for key, col in home_col.items():
+        home_cols_by_ut[(key[0], key[2])].append((key, col))
+
+    def _home_cols_at(u: int, t: int) -> list[tuple[tuple[int, int, int], int]]:
+        return home_cols_by_ut.get((u, t), [])
 
     present_home = np.zeros((len(offices), T))
-    for p, person in enumerate(instance.staff):
-        present_home[o_ix[person.home_office]] += avail[p] > 0
+    for u, person in enumerate(rep):
+        present_home[o_ix[person.home_office]] += size[u] * (avail[u] > 0)
 
     def heads_at_home(o: int, t: int) -> tuple[float, list[int], list[float]]:
         """Present people whose home in force at t is o: constant + reassignment columns."""
         cols: list[int] = []
         vals: list[float] = []
-        for p in rea_by_p:
-            if avail[p, t] > 0:
-                _, pc, pv = home_terms(p, o, t)
+        for u in rea_by_u:
+            if avail[u, t] > 0:
+                _, pc, pv = home_terms(u, o, t)
                 cols += pc
                 vals += pv
         return float(present_home[o, t]), cols, vals
 
-    # capacity: sum_k w[p,o,k,t] <= avail * (h[p,o,t] - sum_b d[p,o,b,t] + sum_a d[p,a,o,t])
+    def unit_label(u: int) -> str:
+        n = len(units[u])
+        first = instance.staff[units[u][0]].person
+        return f"person {first}" if n == 1 else f"group of {n} ({first} and alike)"
+
+    # capacity: sum_k w[u,o,k,t] <= avail * (heads at o: home and not away, or detailed in)
     W = work.keys
-    work_by_pot: dict[tuple[int, int, int], list[int]] = defaultdict(list)
+    work_by_uot: dict[tuple[int, int, int], list[int]] = defaultdict(list)
     for j in range(len(work)):
-        work_by_pot[(int(W["person"][j]), int(W["office"][j]), int(W["period"][j]))].append(
+        work_by_uot[(int(W["unit"][j]), int(W["office"][j]), int(W["period"][j]))].append(
             work.start + j)
     b.begin("capacity")
-    for (p, o, t), cols in work_by_pot.items():
-        cap = avail[p, t]
-        const, hcols, hvals = home_terms(p, o, t)
-        row_cols = list(cols) + hcols + det_from.get((p, o, t), []) + det_to.get((p, o, t), [])
-        row_vals = ([1.0] * len(cols) + [-cap * v for v in hvals]
-                    + [cap] * len(det_from.get((p, o, t), []))
-                    + [-cap] * len(det_to.get((p, o, t), [])))
-        b.row(row_cols, row_vals, -INF, cap * const,
-              f"person {instance.staff[p].person} at {offices[o]} in {instance.periods[t].name}")
+    for (u, o, t), cols in work_by_uot.items():
+        cap = avail[u, t]
+        const, hcols, hvals = home_terms(u, o, t)
+        away_cols, in_cols = det_from.get((u, o, t), []), det_to.get((u, o, t), [])
+        b.row(list(cols) + hcols + away_cols + in_cols,
+              [1.0] * len(cols) + [-cap * v for v in hvals] + [cap] * len(away_cols)
+              + [-cap] * len(in_cols),
+              -INF, cap * const, f"{unit_label(u)} at {offices[o]} in {instance.periods[t].name}")
 
-    # one_detail: at most one detail per person and period
+    # one_detail: each person on at most one detail per period
     b.begin("one_detail")
-    for (p, t), cols in det_by_pt.items():
+    for (u, t), cols in det_by_ut.items():
         if len(cols) > 1:
-            b.row(cols, [1.0] * len(cols), -INF, 1.0,
-                  f"person {instance.staff[p].person} in {instance.periods[t].name}")
+            b.row(cols, [1.0] * len(cols), -INF, size[u],
+                  f"{unit_label(u)} in {instance.periods[t].name}")
 
-    # detail_from_home: a detail leaves from the home in force (only matters if relocatable)
+    # detail_from_home: a detail leaves from the home in force (relocatable people only)
     b.begin("detail_from_home")
-    for (p, a, t), cols in det_from.items():
-        if not instance.staff[p].can_relocate:
+    for (u, a, t), cols in det_from.items():
+        if not rep[u].can_relocate:
             continue
-        const, hcols, hvals = home_terms(p, a, t)
+        const, hcols, hvals = home_terms(u, a, t)
         b.row(cols + hcols, [1.0] * len(cols) + [-v for v in hvals], -INF, const,
-              f"person {instance.staff[p].person} from {offices[a]} in "
-              f"{instance.periods[t].name}")
+              f"{unit_label(u)} from {offices[a]} in {instance.periods[t].name}")
 
-    # one_reassignment
+    # one_reassignment: one new home at most (the home columns never switch back, below)
     b.begin("one_reassignment")
-    for p, entries in rea_by_p.items():
-        b.row([c for c, _, _ in entries], [1.0] * len(entries), -INF, 1.0,
-              f"person {instance.staff[p].person}")
+    for u, entries in rea_by_u.items():
+        t_last = max(t for _, _, t in entries)
+        cols = [c for c, _, t in entries if t == t_last]
+        b.row(cols, [1.0] * len(cols), -INF, 1.0, unit_label(u))
+    b.begin("home_stays")
+    for (u, o, t), col in home_col.items():
+        before = home_col.get((u, o, t - 1))
+        if before is not None:
+            b.row([before, col], [1.0, -1.0], -INF, 0.0,
+                  f"{unit_label(u)} at {offices[o]} in {instance.periods[t].name}")
 
     # coverage: staff output + hire output + shortfall >= demand
     H = hire.keys
@@ -403,13 +462,39 @@ def build_model(instance: Instance) -> Model:
             (hire.start + j, int(H["period"][j])))
     work_by_okt: dict[tuple[int, int, int], list[tuple[int, float]]] = defaultdict(list)
     for j in range(len(work)):
-        p, k = int(W["person"][j]), int(W["skill"][j])
-        prof = instance.staff[p].proficiency(skills[k])
-        work_by_okt[(int(W["office"][j]), k, int(W["period"][j]))].append((work.start + j, prof))
+        u, k = int(W["unit"][j]), int(W["skill"][j])
+        work_by_okt[(int(W["office"][j]), k, int(W["period"][j]))].append(
+            (work.start + j, rep[u].proficiency(skills[k])))
+    # People with one skill give all their output to it, wherever they are that period:
+    # proficiency x available FTE x (heads there), with no work columns (issue 3: size).
+    direct = frozenset(u for u, person in enumerate(rep) if len(person.skills) == 1)
+    direct_terms: dict[tuple[int, int, int], list[tuple[int, float]]] = defaultdict(list)
+    direct_const: dict[tuple[int, int, int], float] = defaultdict(float)
+    for u in sorted(direct):
+        k = k_ix[rep[u].skills[0][0]]
+        home0 = o_ix[rep[u].home_office]
+        places = range(len(offices)) if rep[u].can_relocate else None
+        for t in range(T):
+            if avail[u, t] <= 0:
+                continue
+            factor = rep[u].skills[0][1] * avail[u, t]
+            there = set(places) if places is not None else {home0}
+            there |= {o for o in range(len(offices)) if (u, o, t) in det_to}
+            for o in there:
+                if (o, k, t) not in wanted:
+                    continue
+                const, hcols, hvals = home_terms(u, o, t)
+                direct_const[(o, k, t)] += factor * const
+                terms = direct_terms[(o, k, t)]
+                terms += [(c, factor * v) for c, v in zip(hcols, hvals, strict=True)]
+                terms += [(c, -factor) for c in det_from.get((u, o, t), [])]
+                terms += [(c, factor) for c in det_to.get((u, o, t), [])]
     b.begin("coverage")
     for j, (o, k, t) in enumerate(short_list):
         cols = [c for c, _ in work_by_okt.get((o, k, t), [])]
         vals = [v for _, v in work_by_okt.get((o, k, t), [])]
+        cols += [c for c, _ in direct_terms.get((o, k, t), [])]
+        vals += [v for _, v in direct_terms.get((o, k, t), [])]
         for col, s in hire_by_ok.get((o, k), []):
             eff = instance.hire_fte(skills[k], offices[o], s, t)
             if s <= t and eff > 0:
@@ -417,20 +502,22 @@ def build_model(instance: Instance) -> Model:
                 vals.append(eff)
         cols.append(short.start + j)
         vals.append(1.0)
-        b.row(cols, vals, demand_fte[(o, k, t)], INF,
+        b.row(cols, vals, demand_fte[(o, k, t)] - direct_const.get((o, k, t), 0.0), INF,
               f"{skills[k]} at {offices[o]} in {instance.periods[t].name}")
 
-    # consecutive_details: in every window of m+1 periods at most m are detail periods
+    # consecutive_details: in every window of m+1 periods at most m are detail periods; for a
+    # group, at most m x size detail-periods (plan extraction then names who goes when)
     b.begin("consecutive_details")
     if m is not None and m > 0:
-        for p in range(len(instance.staff)):
+        for u in range(len(units)):
             for start in range(0, T - m):
-                cols = [c for t in range(start, start + m + 1) for c in det_by_pt.get((p, t), [])]
-                periods_with = {t for t in range(start, start + m + 1) if det_by_pt.get((p, t))}
-                if len(periods_with) > m:
-                    b.row(cols, [1.0] * len(cols), -INF, float(m),
-                          f"person {instance.staff[p].person} in "
-                          f"{instance.periods[start].name}..{instance.periods[start + m].name}")
+                window = range(start, start + m + 1)
+                if sum(1 for t in window if det_by_ut.get((u, t))) <= m:
+                    continue
+                cols = [c for t in window for c in det_by_ut.get((u, t), [])]
+                b.row(cols, [1.0] * len(cols), -INF, m * size[u],
+                      f"{unit_label(u)} in {instance.periods[start].name}.."
+                      f"{instance.periods[start + m].name}")
 
     # away_share: away from home office a <= share * present heads with home a
     share = instance.policy.max_away_share
@@ -513,13 +600,23 @@ def build_model(instance: Instance) -> Model:
             if year_of[int(D["period"][j])] == year and det_cost[j]:
                 cols.append(det.start + j)
                 vals.append(det_cost[j])
-        for j in range(len(rea)):
-            if year_of[int(R["period"][j])] == year and rea_cost[j]:
-                cols.append(rea.start + j)
-                vals.append(rea_cost[j])
+        # Relocation is paid in the year the home changes: cost x (g[t] - g[t-1]).
+        for (u, o, t), col in home_col.items():
+            if year_of[t] != year:
+                continue
+            amount = instance.relocation_cost(rep[u].home_office, offices[o])
+            if amount:
+                cols.append(col)
+                vals.append(amount)
+                before = home_col.get((u, o, t - 1))
+                if before is not None:
+                    cols.append(before)
+                    vals.append(-amount)
         if cols:
             b.row(cols, vals, -INF, budget.moves, f"moves budget {year}")
 
     model = b.finish()
+    model.units = units
+    model.direct_units = direct
     model.build_seconds = time.perf_counter() - started
     return model

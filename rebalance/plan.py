@@ -23,7 +23,16 @@ import pandas as pd
 from rebalance.instance import Instance
 from rebalance.model import Model
 
-__all__ = ["PLAN_TABLES", "Plan", "extract_plan", "read_plan", "staged_folder", "write_plan"]
+__all__ = [
+    "PLAN_TABLES",
+    "NamingError",
+    "Plan",
+    "extract_plan",
+    "read_plan",
+    "schedule_details",
+    "staged_folder",
+    "write_plan",
+]
 
 PLAN_TABLES: dict[str, tuple[str, ...]] = {
     "details": ("person", "period", "from_office", "to_office", "cost"),
@@ -78,6 +87,52 @@ def _frame(name: str, rows: list[tuple[object, ...]]) -> pd.DataFrame:
     return pd.DataFrame(rows, columns=list(PLAN_TABLES[name]))
 
 
+class NamingError(RuntimeError):
+    """A group's detail counts cannot be split into person-level schedules (a model bug)."""
+
+
+def _edf_feasible(runs: list[int], counts: list[int], m: int) -> bool:
+    """Can ``counts[t]`` people be on detail in each later period, no one more than m in a row?
+
+    Earliest-deadline-first: detail the people with the shortest current run, so those
+    closest to the limit rest.  Among unit-length jobs with these deadlines EDF is optimal.
+    """
+    runs = list(runs)
+    for n in counts:
+        order = sorted(range(len(runs)), key=lambda i: (runs[i], i))
+        chosen = [i for i in order if runs[i] < m][:n]
+        if len(chosen) < n:
+            return False
+        picked = set(chosen)
+        runs = [r + 1 if i in picked else 0 for i, r in enumerate(runs)]
+    return True
+
+
+def schedule_details(size: int, counts: list[int], m: int | None) -> list[list[int]]:
+    """Which members of a group of ``size`` are on detail in each period.
+
+    Prefers to keep people who are already on detail there (fewer people moved, longer
+    stretches), but falls back to earliest-deadline-first whenever continuing would make a
+    later period impossible under the limit of ``m`` consecutive detail periods.
+    """
+    runs = [0] * size
+    out: list[list[int]] = []
+    for t, n in enumerate(counts):
+        eligible = [i for i in range(size) if m is None or runs[i] < m]
+        if len(eligible) < n:
+            raise NamingError(f"{n} of {size} needed on detail but only {len(eligible)} may go")
+        keep_going = sorted(eligible, key=lambda i: (runs[i] == 0, -runs[i], i))[:n]
+        chosen = keep_going
+        if m is not None:
+            after = [r + 1 if i in set(keep_going) else 0 for i, r in enumerate(runs)]
+            if not _edf_feasible(after, counts[t + 1:], m):
+                chosen = sorted(eligible, key=lambda i: (runs[i], i))[:n]
+        picked = set(chosen)
+        runs = [r + 1 if i in picked else 0 for i, r in enumerate(runs)]
+        out.append(sorted(chosen))
+    return out
+
+
 def extract_plan(instance: Instance, model: Model, x: np.ndarray) -> Plan:
     """Decode ``x`` into named tables, cleaning solver tolerance as described above."""
     offices = [o.name for o in instance.offices]
@@ -85,6 +140,8 @@ def extract_plan(instance: Instance, model: Model, x: np.ndarray) -> Plan:
     periods = instance.period_names
     T = len(periods)
     staff = instance.staff
+    units = model.units
+    m = instance.policy.max_consecutive_detail_periods
 
     def chosen(block: str) -> tuple[np.ndarray, dict[str, np.ndarray]]:
         blk = model.blocks[block]
@@ -92,13 +149,17 @@ def extract_plan(instance: Instance, model: Model, x: np.ndarray) -> Plan:
         keep = values > 0
         return values[keep], {k: v[keep] for k, v in blk.keys.items()}
 
-    # Reassignments first: they decide the home in force for every later period.
-    _, rk = chosen("reassignment")
+    # Reassignments first (single-person units only): they set the home in force.  The home
+    # columns are 1 from the reassignment on; the first such period is when it takes effect.
+    _, rk = chosen("home")
     moved_to: dict[int, tuple[int, int]] = {}
+    for u, o, t in zip(rk["unit"], rk["office"], rk["period"], strict=True):
+        p = units[u][0]
+        if p not in moved_to or t < moved_to[p][1]:
+            moved_to[p] = (int(o), int(t))
     reassignment_rows = []
-    for p, o, t in zip(rk["person"], rk["office"], rk["period"], strict=True):
+    for p, (o, t) in sorted(moved_to.items()):
         person = staff[p]
-        moved_to[int(p)] = (int(o), int(t))
         reassignment_rows.append((person.person, periods[t], person.home_office, offices[o],
                                   instance.relocation_cost(person.home_office, offices[o])))
 
@@ -108,33 +169,74 @@ def extract_plan(instance: Instance, model: Model, x: np.ndarray) -> Plan:
             return offices[move[0]]
         return staff[p].home_office
 
-    _, dk = chosen("detail")
-    detail_rows = []
+    # Details: counts per unit, period and (home, destination); then name who goes.
+    counts, dk = chosen("detail")
+    by_unit: dict[int, list[dict[tuple[int, int], int]]] = defaultdict(
+        lambda: [defaultdict(int) for _ in range(T)])
+    for n, u, a, o, t in zip(counts, dk["unit"], dk["home"], dk["office"], dk["period"],
+                             strict=True):
+        by_unit[int(u)][int(t)][(int(a), int(o))] += int(n)
     located: dict[tuple[int, int], str] = {}
-    for p, a, o, t in zip(dk["person"], dk["home"], dk["office"], dk["period"], strict=True):
-        located[(int(p), int(t))] = offices[o]
-        detail_rows.append((staff[p].person, periods[t], offices[a], offices[o],
-                            instance.detail_cost_per_period(offices[a], offices[o])))
+    detail_rows = []
+    for u, per_period in sorted(by_unit.items()):
+        members = units[u]
+        totals = [sum(c.values()) for c in per_period]
+        schedule = schedule_details(len(members), totals, m)
+        previous: dict[int, tuple[int, int]] = {}
+        for t, on_detail in enumerate(schedule):
+            left = dict(per_period[t])
+            assigned: dict[int, tuple[int, int]] = {}
+            for i in on_detail:  # keep people at the destination they were at last period
+                key = previous.get(i)
+                if key is not None and left.get(key, 0) > 0:
+                    assigned[i] = key
+                    left[key] -= 1
+            for i in on_detail:
+                if i not in assigned:
+                    key = next(k for k, c in sorted(left.items()) if c > 0)
+                    assigned[i] = key
+                    left[key] -= 1
+            previous = assigned
+            for i, (a, o) in sorted(assigned.items()):
+                p = members[i]
+                located[(p, t)] = offices[o]
+                detail_rows.append((staff[p].person, periods[t], offices[a], offices[o],
+                                    instance.detail_cost_per_period(offices[a], offices[o])))
+    detail_rows.sort(key=lambda r: (r[0], periods.index(str(r[1]))))
 
-    counts, hk = chosen("hire")
+    hire_counts, hk = chosen("hire")
     hire_rows = []
-    for n, o, k, s, new in zip(counts, hk["office"], hk["skill"], hk["period"], hk["new"],
+    for n, o, k, s, new in zip(hire_counts, hk["office"], hk["skill"], hk["period"], hk["new"],
                                strict=True):
         skill = instance.skills[k]
         salary = skill.salary_per_period * (T - s) * n if new else 0.0
         hire_rows.append((offices[o], skills[k], periods[s], int(n),
                           "new" if new else "vacancy", skill.onboarding_cost * n, salary))
 
-    # Work: only where the person is that period, never above their available FTE.
+    # Work: a unit's FTE at an office is shared evenly by the members who are there.
     wb = model.blocks["work"]
     w = np.clip(x[wb.start:wb.stop], 0.0, None)
     work_by_pt: dict[tuple[int, int], list[tuple[int, float]]] = defaultdict(list)
     for j in np.flatnonzero(w > 1e-9):
-        p, o, t = int(wb.keys["person"][j]), int(wb.keys["office"][j]), int(wb.keys["period"][j])
-        where = located.get((p, t)) or home_in_force(p, t)
-        if offices[o] == where:
-            work_by_pt[(p, t)].append((int(j), float(w[j])))
+        u, o, t = int(wb.keys["unit"][j]), int(wb.keys["office"][j]), int(wb.keys["period"][j])
+        there = [p for p in units[u]
+                 if (located.get((p, t)) or home_in_force(p, t)) == offices[o]]
+        for p in there:
+            work_by_pt[(p, t)].append((int(j), float(w[j]) / len(there)))
+    # People with one skill work it in full wherever there is demand for it.
+    wanted = {(d.office, d.skill, d.period) for d in instance.demand if d.fte > 0}
+    direct_rows: dict[tuple[int, int], tuple[str, str, float, float]] = {}
+    for u in model.direct_units:
+        for p in units[u]:
+            skill, proficiency = staff[p].skills[0]
+            for t in range(T):
+                avail = instance.available_fte(staff[p], t)
+                where = located.get((p, t)) or home_in_force(p, t)
+                if avail > 0 and (where, skill, t) in wanted:
+                    direct_rows[(p, t)] = (where, skill, avail, avail * proficiency)
     work_rows = []
+    for (p, t), (where, skill, fte, output) in direct_rows.items():
+        work_rows.append((staff[p].person, periods[t], where, skill, fte, output))
     for (p, t), entries in sorted(work_by_pt.items()):
         total = sum(v for _, v in entries)
         avail = instance.available_fte(staff[p], t)
@@ -145,6 +247,8 @@ def extract_plan(instance: Instance, model: Model, x: np.ndarray) -> Plan:
             work_rows.append((staff[p].person, periods[t], offices[o], skills[k], fte,
                               fte * staff[p].proficiency(skills[k])))
 
+    order = {name: i for i, name in enumerate(periods)}
+    work_rows.sort(key=lambda r: (str(r[0]), order[str(r[1])], str(r[3])))
     details = _frame("details", detail_rows)
     reassignments = _frame("reassignments", reassignment_rows)
     hires = _frame("hires", hire_rows)

@@ -60,6 +60,7 @@ class SolveOptions:
     mode: ObjectiveMode = "shortfall-first"
     shortfall_cost: float = 100_000.0
     shortfall_tolerance: float = 1e-6
+    heuristics: bool = True  # LP-guided rounding search before branch and bound
     progress: Callable[[str], None] | None = field(default=None, compare=False)
 
 
@@ -383,29 +384,30 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
     stages: list[StageResult] = []
     if options.mode == "weighted":
         objective = model.cost + options.shortfall_cost * model.shortfall_weight
-        say("weighted stage: cost + shortfall_cost x weighted shortfall")
-        out = backend.run(model, objective, [], options, deadline - time.perf_counter(), None)
+        say("weighted: least cost + shortfall_cost x weighted shortfall")
+        out = solve_stage(backend, model, objective, [], options, deadline, None, say)
         stages.append(_stage("weighted", out))
         return _finish(model, backend, options, stages, out, started, deadline)
 
     say("stage 1: least priority-weighted shortfall")
-    first = backend.run(model, model.shortfall_weight, [], options,
-                        deadline - time.perf_counter(), None)
+    # Stage 1 may use most of the time, but leaves stage 2 a share to lower the cost.
+    stage1_deadline = started + STAGE1_SHARE * options.time_limit_seconds
+    first = solve_stage(backend, model, model.shortfall_weight, [], options, stage1_deadline,
+                        None, say)
     stages.append(_stage("shortfall", first))
     if not first.status.has_plan or first.x is None or first.objective is None:
         return _finish(model, backend, options, stages, first, started, deadline)
     say(f"stage 1 done: weighted shortfall {first.objective:.6g} ({first.words})")
-    remaining = deadline - time.perf_counter()
-    if remaining <= 0.5:
+    if deadline - time.perf_counter() <= 0.5:
         say("no time left for stage 2; keeping the stage-1 plan")
         return _finish(model, backend, options, stages, first, started, deadline,
                        final_status=Status.FEASIBLE_WITH_GAP)
-    # Hold the shortfall optimum (its bound if stage 1 stopped early) with a small slack.
+    # Hold the stage-1 shortfall with a small slack, then minimise cost from its plan.
     held = first.objective
     slack = max(options.shortfall_tolerance * abs(held), 1e-7)
     say(f"stage 2: least cost with weighted shortfall <= {held + slack:.6g}")
-    second = backend.run(model, model.cost, [(model.shortfall_weight, held + slack)], options,
-                         remaining, first.x)
+    second = solve_stage(backend, model, model.cost, [(model.shortfall_weight, held + slack)],
+                         options, deadline, first.x, say)
     stages.append(_stage("cost", second))
     if not second.status.has_plan:
         # Stage 1's plan still stands; stage 2 only failed to improve its cost.
@@ -416,6 +418,60 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
                                 and second.status is Status.OPTIMAL) else Status.FEASIBLE_WITH_GAP
     return _finish(model, backend, options, stages, second, started, deadline,
                    final_status=status)
+
+
+STAGE1_SHARE = 0.7   # of the whole time limit, at most, for the shortfall stage
+LP_SHARE = 0.35      # of a stage's time, at most, for its LP relaxation
+RENS_SHARE = 0.3     # of a stage's time, at most, for the rounding neighbourhood search
+
+
+def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
+                extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
+                deadline: float, start: np.ndarray | None,
+                say: Callable[[str], None]) -> BackendOutcome:
+    """One objective: LP relaxation, a rounding neighbourhood search for a first plan, then
+    branch and bound from the better of that plan and ``start``.
+
+    The neighbourhood search (RENS) fixes every integer column to the floor or ceiling of its
+    LP value and solves that much smaller MIP: the LP says where people and hires should go,
+    the sub-MIP makes it whole.  Naive rounding alone leaves plans far from the bound.
+    """
+    t0 = time.perf_counter()
+    budget = deadline - t0
+    lp_bound = None
+    if model.num_integer and options.heuristics and budget > 2.0:
+        relaxed = replace(model, is_integer=np.zeros(model.num_cols, bool))
+        lp = backend.run(relaxed, objective, extra_rows, options, LP_SHARE * budget, None)
+        if lp.status is Status.OPTIMAL and lp.x is not None:
+            lp_bound = lp.objective
+            say(f"  LP relaxation {lp.objective:.6g} in {lp.seconds:.1f}s")
+            integer = model.is_integer
+            lower = model.col_lower.copy()
+            upper = model.col_upper.copy()
+            lower[integer] = np.maximum(lower[integer], np.floor(lp.x[integer] + 1e-6))
+            upper[integer] = np.minimum(upper[integer], np.ceil(lp.x[integer] - 1e-6))
+            left = deadline - time.perf_counter()
+            rens = backend.run(replace(model, col_lower=lower, col_upper=upper), objective,
+                               extra_rows, options, min(RENS_SHARE * budget, 0.5 * left), None)
+            if rens.x is not None and rens.objective is not None:
+                say(f"  rounding search: plan with {rens.objective:.6g} in {rens.seconds:.1f}s")
+                if start is None or rens.objective < float(objective @ start) - 1e-9:
+                    start = rens.x
+        else:
+            say(f"  LP relaxation not solved ({lp.words}); going straight to branch and bound")
+    left = deadline - time.perf_counter()
+    out = backend.run(model, objective, extra_rows, options, left, start)
+    if out.x is None and start is not None and out.status in (Status.NO_PLAN_IN_TIME,
+                                                             Status.UNKNOWN):
+        # Branch and bound ran out of time before taking up the start: keep the start.
+        obj = float(objective @ start)
+        out = BackendOutcome(Status.FEASIBLE_WITH_GAP, start, obj, lp_bound, out.words,
+                             out.seconds)
+    elif out.bound is not None and lp_bound is not None and out.status.has_plan:
+        out = replace(out, bound=max(out.bound, lp_bound) if out.status is not Status.OPTIMAL
+                      else out.bound)
+    seconds = time.perf_counter() - t0
+    return replace(out, seconds=seconds)
 
 
 def _stage(name: str, out: BackendOutcome) -> StageResult:

@@ -4,7 +4,7 @@ VENV := .venv
 BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
 
-.PHONY: demo test lint bench clean browser
+.PHONY: demo demand-demo test lint bench clean browser
 
 $(STAMP): pyproject.toml
 	$(PYTHON) -m venv $(VENV)
@@ -14,6 +14,10 @@ $(STAMP): pyproject.toml
 
 demo: $(STAMP)
 	$(BIN)/rebalance plan instances/demo -o out/demo
+
+# Rewrites instances/demo/demand.csv (and demand_trace.csv, demand_report/) from the history.
+demand-demo: $(STAMP)
+	$(BIN)/rebalance demand instances/demo_history -o instances/demo
 
 # The report's browser test drives Debian's chromium (no browser download at test time).
 browser:

@@ -105,6 +105,23 @@ def cmd_verify(args: argparse.Namespace) -> int:
     return EXIT_OK if not violations else EXIT_VERIFICATION_FAILED
 
 
+def cmd_demand(args: argparse.Namespace) -> int:
+    from rebalance.demand import HistoryError, format_demand_summary, run_demand, write_demand
+
+    try:
+        result = run_demand(args.history, args.out)
+    except HistoryError as exc:
+        errors = [p for p in exc.problems if not p.is_warning]
+        _err(f"{args.history}: {len(errors)} problem(s) in the input; nothing was written")
+        for problem in exc.problems:
+            _err(("  warning: " if problem.is_warning else "  ") + str(problem))
+        return EXIT_INVALID_INPUT
+    report = write_demand(result, args.out, args.report)
+    print(format_demand_summary(result, report))
+    print(f"demand written to {Path(args.out) / 'demand.csv'} (trail: demand_trace.csv)")
+    return EXIT_OK
+
+
 def cmd_report(args: argparse.Namespace) -> int:
     from rebalance.report.files import rebuild_reports
     from rebalance.report.inputs import stored_instance_path
@@ -178,6 +195,15 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("instance")
     p.add_argument("plan_dir")
     p.set_defaults(run=cmd_verify)
+
+    p = sub.add_parser("demand", help="forecast FTE demand from workload history into an "
+                       "instance's demand.csv")
+    p.add_argument("history", help="folder of case arrivals, time records, expected hours")
+    p.add_argument("-o", "--out", required=True,
+                   help="instance folder (its settings.toml, offices.csv and skills.csv are read)")
+    p.add_argument("--report", help="folder for the backtest and QC tables "
+                   "(default: OUT/demand_report)")
+    p.set_defaults(run=cmd_demand)
 
     p = sub.add_parser("report", help="rebuild report.html and plan.xlsx of a plan folder")
     p.add_argument("plan_dir")

@@ -1,0 +1,285 @@
+"""From workload history to the instance's FTE demand, with the trail behind every figure.
+
+``hours[o, s, q] = sum_c volume[o, c, q] x hours_per_case[o, c, s] + sum_a noncase[o, s, a, q]``
+and ``fte = hours / hours_per_fte`` of the period, where ``q`` is a quarter of the instance's
+horizon and monthly forecasts are summed into it.  ``demand_trace.csv`` holds one row per term.
+"""
+
+from __future__ import annotations
+
+import os
+import re
+import tempfile
+from collections.abc import Mapping
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from rebalance.demand.forecast import SEASON, backtest_series, forecast_series
+from rebalance.demand.history import History, HistoryError, month_name, read_history
+from rebalance.demand.quality import QualityResult, check_quality
+from rebalance.demand.standards import EffortStandards, estimate_standards, forecast_noncase
+from rebalance.instance import Period
+from rebalance.plan import staged_folder
+from rebalance.readers import Problem, _settings_periods, read_tables
+
+__all__ = ["DemandResult", "build_demand", "run_demand", "write_demand"]
+
+QUARTER = re.compile(r"^(\d{4})-Q([1-4])$")
+TRACE_COLUMNS = ["office", "skill", "period", "kind", "activity", "method", "forecast_volume",
+                 "adjustment_factor", "volume", "volume_lower", "volume_upper",
+                 "hours_per_case", "hours", "hours_per_fte", "fte"]
+
+
+@dataclass(frozen=True)
+class DemandResult:
+    """Everything ``rebalance demand`` writes.
+
+    ``demand``: office, skill, period, hours, priority (the instance's ``demand.csv``).
+    ``trace``: :data:`TRACE_COLUMNS`, one row per case type or non-case activity behind a
+    demand row.  ``backtest``, ``forecasts``, ``standards`` and ``quality``: the report.
+    """
+
+    demand: pd.DataFrame
+    trace: pd.DataFrame
+    backtest: pd.DataFrame
+    forecasts: pd.DataFrame
+    standards: EffortStandards
+    noncase: pd.DataFrame
+    quality: QualityResult
+    periods: tuple[Period, ...]
+
+
+def _instance_context(folder: Path, problems: list[Problem]) -> tuple[
+        tuple[Period, ...], set[str], set[str]]:
+    settings, tables, found = read_tables(folder)
+    # demand.csv is what we are about to write; only these files matter here.
+    problems.extend(p for p in found if p.file in ("settings.toml", "offices.csv", "skills.csv")
+                    or p.file == str(folder))
+    periods, _ = _settings_periods(settings, problems) if settings else ((), 4)
+    for p in periods:
+        if QUARTER.match(p.name) is None:
+            problems.append(Problem("settings.toml", None, "horizon.periods",
+                                    f"period '{p.name}' is not a calendar quarter; "
+                                    "`rebalance demand` expects periods named YYYY-Qn"))
+
+    def names(table: str, column: str) -> set[str]:
+        raw = tables.get(table)
+        return {r.get(column, "") for r in raw.rows if r.get(column)} if raw else set()
+
+    return periods, names("offices", "office"), names("skills", "skill")
+
+
+def _quarter_months(period: str) -> list[int]:
+    match = QUARTER.match(period)
+    assert match is not None  # checked in _instance_context
+    year, quarter = int(match.group(1)), int(match.group(2))
+    first = year * 12 + (quarter - 1) * 3
+    return [first, first + 1, first + 2]
+
+
+def build_demand(history: History, periods: tuple[Period, ...]) -> DemandResult:
+    """Run quality control, standards, forecasts and the hours-to-FTE step."""
+    fc_cfg = history.settings.forecast
+    quality = check_quality(history)
+    standards = estimate_standards(history, quality)
+    last = history.last_month
+    plan_months = [m for p in periods for m in _quarter_months(p.name)]
+    horizon = max(plan_months) - last
+    months_ahead = list(range(last + 1, max(plan_months) + 1))
+
+    backtest_rows: list[dict[str, Any]] = []
+    forecast_rows: list[tuple[Any, ...]] = []
+    volume: dict[tuple[str, str, str], tuple[str, float, float, float, float]] = {}
+    tail = (1 - fc_cfg.interval_level) / 2
+    adjust = _adjustment_factors(history, months_ahead)
+    for key, group in history.arrivals.groupby(["office", "case_type"], sort=True):
+        office, case_type = str(key[0]), str(key[1])
+        y = group.sort_values("month")["count"].to_numpy(dtype=float)
+        bt = backtest_series(y, fc_cfg)
+        row: dict[str, Any] = {"office": office, "case_type": case_type, "months": len(y),
+                               "origins": " ".join(month_name(int(group["month"].min()) + o - 1)
+                                                   for o in bt.origins)}
+        for method, value in bt.selection_mase.items():
+            row[f"selection_mase_{method}"] = value
+        for method, value in bt.holdout_mase.items():
+            row[f"holdout_mase_{method}"] = value
+        row["chosen"] = bt.chosen
+        row["holdout_mase_chosen"] = bt.holdout_mase[bt.chosen]
+        row["beats_baseline"] = bt.beats_baseline
+        backtest_rows.append(row)
+        fc = forecast_series(y, bt.chosen, horizon, fc_cfg.seed)
+        factors = np.array([adjust.get((office, case_type, m), 1.0) for m in months_ahead])
+        lo_m, hi_m = np.quantile(fc.paths, [tail, 1 - tail], axis=1)
+        for i, m in enumerate(months_ahead):
+            forecast_rows.append((office, case_type, month_name(m), bt.chosen, fc.mean[i],
+                                  lo_m[i], hi_m[i], factors[i]))
+        for p in periods:
+            idx = [m - last - 1 for m in _quarter_months(p.name)]
+            raw = float(fc.mean[idx].sum())
+            adjusted = float((fc.mean[idx] * factors[idx]).sum())
+            sums = (fc.paths[idx] * factors[idx, None]).sum(axis=0)
+            lo, hi = np.quantile(sums, [tail, 1 - tail])
+            volume[(office, case_type, p.name)] = (bt.chosen, raw, adjusted, float(lo),
+                                                   float(hi))
+    noncase = forecast_noncase(standards, months_ahead)
+    trace = _trace(history, standards, noncase, volume, periods, last)
+    demand = (trace.groupby(["office", "skill", "period"], sort=False)["hours"].sum()
+              .reset_index())
+    demand = demand[demand["hours"] > 0].copy()
+    demand["hours"] = demand["hours"].round(2)
+    demand["priority"] = demand["skill"].map(
+        lambda s: history.settings.priority.get(s, 1.0)).map(lambda v: f"{v:g}")
+    forecasts = pd.DataFrame(forecast_rows, columns=["office", "case_type", "month", "method",
+                                                     "volume", "lower", "upper",
+                                                     "adjustment_factor"])
+    return DemandResult(demand.reset_index(drop=True), trace, pd.DataFrame(backtest_rows),
+                        forecasts, standards, noncase, quality, periods)
+
+
+def _adjustment_factors(history: History, months: list[int]) -> dict[tuple[str, str, int],
+                                                                      float]:
+    out: dict[tuple[str, str, int], float] = {}
+    adj = history.adjustments
+    for office, case_type, first, last, factor in zip(
+            adj["office"], adj["case_type"], adj["first_month"], adj["last_month"],
+            adj["factor"], strict=True):
+        types = [str(case_type)] if isinstance(case_type, str) else list(history.case_types)
+        for m in months:
+            if int(first) <= m <= int(last):
+                for c in types:
+                    # Overlapping adjustments multiply.
+                    key = (str(office), c, m)
+                    out[key] = out.get(key, 1.0) * float(factor)
+    return out
+
+
+def _trace(history: History, standards: EffortStandards, noncase: pd.DataFrame,
+           volume: Mapping[tuple[str, str, str], tuple[str, float, float, float, float]],
+           periods: tuple[Period, ...], last: int) -> pd.DataFrame:
+    rows: list[tuple[Any, ...]] = []
+    table = standards.table
+    order = {s: i for i, s in enumerate(sorted(set(table["skill"]) | set(noncase["skill"])))}
+    for p in periods:
+        hpf = p.hours_per_fte
+        for office, case_type, skill, per_case in zip(
+                table["office"], table["case_type"], table["skill"], table["hours_per_case"],
+                strict=True):
+            key = (str(office), str(case_type), p.name)
+            if key not in volume:
+                continue  # the office has no arrivals history for this case type
+            method, raw, adjusted, lo, hi = volume[key]
+            hours = adjusted * float(per_case)
+            rows.append((office, skill, p.name, "case", case_type, method, raw,
+                         adjusted / raw if raw > 0 else 1.0, adjusted, lo, hi,
+                         float(per_case), hours, hpf, hours / hpf))
+        months = _quarter_months(p.name)
+        nc = noncase[noncase["month"].isin(months)]
+        for (office, skill, activity), group in nc.groupby(["office", "skill", "activity"]):
+            hours = float(group["hours"].sum())
+            rows.append((office, skill, p.name, "non_case", activity, "theil_sen_trend",
+                         np.nan, np.nan, np.nan, np.nan, np.nan, np.nan, hours, hpf,
+                         hours / hpf))
+    trace = pd.DataFrame(rows, columns=TRACE_COLUMNS)
+    trace["_skill"] = trace["skill"].map(order)
+    trace["_period"] = trace["period"].map({p.name: i for i, p in enumerate(periods)})
+    trace = trace.sort_values(["office", "_skill", "_period", "kind", "activity"])
+    return trace.drop(columns=["_skill", "_period"]).reset_index(drop=True)
+
+
+def run_demand(history_dir: str | Path, instance_dir: str | Path) -> DemandResult:
+    """Read and check everything, then build; raise :class:`HistoryError` with all problems."""
+    problems: list[Problem] = []
+    periods, offices, skills = _instance_context(Path(instance_dir), problems)
+    history = None
+    try:
+        history = read_history(history_dir, offices, skills)
+    except HistoryError as exc:
+        problems.extend(exc.problems)
+    if history is not None and periods:
+        _check_horizon(history, periods, problems)
+    errors = [p for p in problems if not p.is_warning]
+    if errors or history is None:
+        raise HistoryError(errors + [p for p in problems if p.is_warning])
+    return build_demand(history, periods)
+
+
+def _check_horizon(history: History, periods: tuple[Period, ...],
+                   problems: list[Problem]) -> None:
+    cfg = history.settings.forecast
+    first_plan = min(_quarter_months(p.name)[0] for p in periods)
+    last = history.last_month
+    if last >= first_plan:
+        problems.append(Problem("case_arrivals.csv", None, "month",
+                                f"history runs to {month_name(last)}, into the plan horizon "
+                                f"(starts {month_name(first_plan)}); expected history to end "
+                                "before the first period"))
+    need = cfg.min_training_months + 2 * cfg.holdout_months
+    for key, group in history.arrivals.groupby(["office", "case_type"]):
+        office, case_type = str(key[0]), str(key[1])
+        if len(group) < need:
+            problems.append(Problem("case_arrivals.csv", None, "month",
+                                    f"office '{office}', case type '{case_type}' has "
+                                    f"{len(group)} months; expected at least {need} "
+                                    f"({cfg.min_training_months} to start the baseline, "
+                                    f"{cfg.holdout_months} to choose a method and "
+                                    f"{cfg.holdout_months} held out)"))
+    if history.records.empty:
+        return
+    if int(history.records["month"].max()) < last - SEASON:
+        problems.append(Problem("time_records.csv", None, "period",
+                                "the newest time records are more than a year older than the "
+                                "newest arrivals; expected recent records"))
+
+
+def _write_csv_atomic(frame: pd.DataFrame, path: Path) -> Path:
+    """Write to a temporary file beside ``path``; the caller renames it into place."""
+    handle, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
+    os.close(handle)
+    # Ten significant digits keep volume x hours_per_case = hours exact to well under 0.01 h.
+    frame.to_csv(tmp, index=False, float_format="%.10g")
+    return Path(tmp)
+
+
+def write_demand(result: DemandResult, instance_dir: str | Path,
+                 report_dir: str | Path | None = None) -> Path:
+    """Write demand.csv and demand_trace.csv into the instance and the report folder.
+
+    Each file is written whole to a temporary name first; the report folder is swapped in at
+    once.  Returns the report folder.
+    """
+    folder = Path(instance_dir)
+    report = Path(report_dir) if report_dir is not None else folder / "demand_report"
+    demand = result.demand.copy()
+    demand["hours"] = demand["hours"].map("{:.2f}".format)
+    staged = [(_write_csv_atomic(demand, folder / "demand.csv"), folder / "demand.csv")]
+    try:
+        staged.append((_write_csv_atomic(result.trace, folder / "demand_trace.csv"),
+                       folder / "demand_trace.csv"))
+        with staged_folder(report) as tmp:
+            q = result.quality
+            result.backtest.to_csv(tmp / "backtest.csv", index=False, float_format="%.4f")
+            result.forecasts.to_csv(tmp / "forecasts.csv", index=False, float_format="%.3f")
+            result.standards.table.to_csv(tmp / "effort_standards.csv", index=False,
+                                          float_format="%.4f")
+            result.noncase.assign(month=result.noncase["month"].map(month_name)).to_csv(
+                tmp / "noncase_forecast.csv", index=False, float_format="%.3f")
+            q.summary.to_csv(tmp / "qc_summary.csv", index=False, float_format="%.2f")
+            q.compliance.assign(month=q.compliance["month"].map(month_name)).to_csv(
+                tmp / "qc_compliance.csv", index=False, float_format="%.4f")
+            flagged = q.records[q.records["check"] != ""]
+            flagged.assign(period=flagged["month"].map(month_name)).drop(
+                columns=["month"]).to_csv(tmp / "qc_flagged_records.csv", index=False,
+                                          float_format="%.3f")
+            q.coverage.to_csv(tmp / "qc_coverage.csv", index=False, float_format="%.4f")
+            (tmp / "qc_verdict.txt").write_text(q.verdict + "\n", encoding="utf-8")
+    except BaseException:
+        for tmp_path, _ in staged:
+            tmp_path.unlink(missing_ok=True)
+        raise
+    for tmp_path, target in staged:
+        os.replace(tmp_path, target)
+    return report

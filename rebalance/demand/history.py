@@ -1,0 +1,402 @@
+"""Read a workload-history folder and validate it: every problem at once, file:row: column.
+
+The folder holds case arrivals, time records, expected hours and the activity codes (see
+``docs/instance-format.md``, section *Workload history*).  Structural faults (a cell that is not
+a number, an unknown office, a missing month) are input errors and stop the run.  Faults of
+*data quality* in the time records (implausible hours, unknown activity codes, incomplete
+timesheets) are not errors here: :mod:`rebalance.demand.quality` finds, excludes and counts them.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+import tomllib
+from collections.abc import Iterator, Mapping
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import pandas as pd
+
+from rebalance.readers import InstanceError, Problem, RawTable, read_csv_table
+
+__all__ = [
+    "DemandSettings",
+    "History",
+    "HistoryError",
+    "month_index",
+    "month_name",
+    "read_history",
+]
+
+TABLES: dict[str, tuple[tuple[str, ...], tuple[str, ...], bool]] = {
+    # file stem: (required columns, optional columns, file required)
+    "case_arrivals": (("month", "office", "case_type", "count"), (), True),
+    "time_records": (("person", "period", "office", "skill", "activity", "hours"), (), True),
+    "expected_hours": (("person", "period", "expected_hours"), (), True),
+    "activities": (("activity", "kind"), ("description",), True),
+    "adjustments": (("office", "first_month", "last_month", "factor"),
+                    ("case_type", "note"), False),
+}
+ACTIVITY_KINDS = ("case", "non_case")
+MONTH = re.compile(r"^(\d{4})-(\d{2})$")
+
+
+class HistoryError(InstanceError):
+    """The history folder is invalid; ``problems`` lists everything found."""
+
+
+def month_index(name: str) -> int | None:
+    """``"2026-03"`` -> a whole number that counts months (year x 12 + month - 1)."""
+    match = MONTH.match(name)
+    if match is None or not 1 <= int(match.group(2)) <= 12:
+        return None
+    return int(match.group(1)) * 12 + int(match.group(2)) - 1
+
+
+def month_name(index: int) -> str:
+    return f"{index // 12:04d}-{index % 12 + 1:02d}"
+
+
+@dataclass(frozen=True)
+class QualitySettings:
+    completeness_tolerance: float = 0.10   # reported within +-10% of expected is complete
+    max_record_hours: float = 200.0        # one record above this is implausible
+    anomaly_threshold: float = 5.0         # robust score above which a record is anomalous
+    anomaly_min_hours: float = 24.0        # ... and at least this many hours (3 days) off it
+    anomaly_window: int = 6                # previous reporting periods in the reference set
+    anomaly_min_reference: int = 6         # score only with at least this many of them
+    anomaly_floor_share: float = 0.25      # scale is at least this share of the median
+    compliance_target: float = 0.95        # share of person-periods complete for a "good" verdict
+
+
+@dataclass(frozen=True)
+class StandardSettings:
+    shrinkage_cases: float = 200.0         # k in w = n / (n + k)
+    bootstrap_samples: int = 400
+    interval_level: float = 0.90
+    seed: int = 0
+
+
+@dataclass(frozen=True)
+class ForecastSettings:
+    holdout_months: int = 12
+    selection_origins: int = 3
+    origin_step_months: int = 6
+    min_training_months: int = 36
+    interval_level: float = 0.80
+    seed: int = 0
+
+
+@dataclass(frozen=True)
+class DemandSettings:
+    """Parameters from ``demand.toml`` in the history folder (every key optional)."""
+
+    priority: Mapping[str, float] = field(default_factory=dict)
+    quality: QualitySettings = QualitySettings()
+    standards: StandardSettings = StandardSettings()
+    forecast: ForecastSettings = ForecastSettings()
+
+
+@dataclass(frozen=True)
+class History:
+    """Validated workload history.  Months are whole numbers (see :func:`month_index`).
+
+    ``arrivals``: office, case_type, month, count (every month of every series present).
+    ``records``: row, person, month, office, skill, activity, hours (``row`` is the CSV row).
+    ``expected``: person, month, expected_hours.
+    ``adjustments``: office, case_type (None = every type), first_month, last_month, factor.
+    """
+
+    arrivals: pd.DataFrame
+    records: pd.DataFrame
+    expected: pd.DataFrame
+    activities: Mapping[str, str]
+    adjustments: pd.DataFrame
+    settings: DemandSettings
+
+    @property
+    def case_types(self) -> tuple[str, ...]:
+        return tuple(a for a, kind in self.activities.items() if kind == "case")
+
+    @property
+    def last_month(self) -> int:
+        return int(self.arrivals["month"].max())
+
+
+class _Cells:
+    """Iterates a table's rows and collects problems with their locations."""
+
+    def __init__(self, table: RawTable, stem: str, problems: list[Problem]) -> None:
+        self.table, self.problems, self.row_number = table, problems, 0
+        required, optional, _ = TABLES[stem]
+        missing = [c for c in required if c not in table.columns]
+        for column in missing:
+            problems.append(Problem(table.label, 1, column, "required column is missing"))
+        for column in table.columns:
+            if column and column not in required + optional:
+                problems.append(Problem(table.label, 1, column, "unknown column (expected one "
+                                        "of: " + ", ".join(required + optional) + ")",
+                                        is_warning=True))
+        self.columns_ok = not missing
+
+    def __iter__(self) -> Iterator[dict[str, str]]:
+        if not self.columns_ok:
+            return
+        for i, row in enumerate(self.table.rows):
+            self.row_number = self.table.first_row_number + i
+            if any(row.values()):
+                yield row
+
+    def error(self, column: str | None, message: str) -> None:
+        self.problems.append(Problem(self.table.label, self.row_number, column, message))
+
+    def text(self, row: Mapping[str, str], column: str) -> str | None:
+        value = row.get(column, "")
+        if value == "":
+            self.error(column, "is empty; a value is required")
+            return None
+        return value
+
+    def choice(self, row: Mapping[str, str], column: str, known: Mapping[str, Any] | set[str]
+               | tuple[str, ...], what: str) -> str | None:
+        value = self.text(row, column)
+        if value is not None and value not in known:
+            self.error(column, f"unknown {column.replace('_', ' ')} '{value}'; expected {what}")
+            return None
+        return value
+
+    def month(self, row: Mapping[str, str], column: str) -> int | None:
+        value = self.text(row, column)
+        if value is None:
+            return None
+        index = month_index(value)
+        if index is None:
+            self.error(column, f"'{value}' is not a month; expected YYYY-MM, e.g. 2026-03")
+        return index
+
+    def number(self, row: Mapping[str, str], column: str, *, minimum: float | None = 0.0,
+               integer: bool = False, open_minimum: bool = False) -> float | None:
+        raw = row.get(column, "")
+        kind = "a whole number" if integer else "a number"
+        what = kind if minimum is None else f"{kind} {'>' if open_minimum else '>='} {minimum:g}"
+        if raw == "":
+            self.error(column, f"is empty; expected {what}")
+            return None
+        try:
+            value = float(raw)
+        except ValueError:
+            self.error(column, f"'{raw}' is not a number; expected {what}")
+            return None
+        bad = not math.isfinite(value) or (integer and value != int(value))
+        bad = bad or (minimum is not None and (value <= minimum if open_minimum
+                                               else value < minimum))
+        if bad:
+            self.error(column, f"'{raw}' is out of range; expected {what}")
+            return None
+        return value
+
+
+def read_history(folder: str | Path, offices: set[str], skills: set[str]) -> History:
+    """Read and validate a history folder against the instance's offices and skills.
+
+    Raises :class:`HistoryError` listing every problem found.
+    """
+    path = Path(folder)
+    problems: list[Problem] = []
+    if not path.is_dir():
+        raise HistoryError([Problem(str(path), None, None, "history folder not found")])
+    tables: dict[str, RawTable] = {}
+    for stem, (required, _, needed) in TABLES.items():
+        file = path / f"{stem}.csv"
+        if file.is_file():
+            tables[stem] = read_csv_table(file)
+        elif needed:
+            problems.append(Problem(f"{stem}.csv", None, None, "file is missing"))
+            tables[stem] = RawTable(f"{stem}.csv", required, ())
+    settings = _read_settings(path / "demand.toml", skills, problems)
+    activities = _read_activities(tables["activities"], problems)
+    case_types = {a for a, kind in activities.items() if kind == "case"}
+    have_activities = bool(activities) or "activities" not in tables
+    arrivals = _read_arrivals(tables["case_arrivals"], problems, offices,
+                              case_types if have_activities else None)
+    records = _read_records(tables["time_records"], problems, offices, skills)
+    expected = _read_expected(tables["expected_hours"], problems)
+    adjustments = _read_adjustments(tables.get("adjustments"), problems, offices, case_types)
+    errors = [p for p in problems if not p.is_warning]
+    if errors:
+        raise HistoryError(errors + [p for p in problems if p.is_warning])
+    return History(arrivals, records, expected, activities, adjustments, settings)
+
+
+def _read_settings(file: Path, skills: set[str], problems: list[Problem]) -> DemandSettings:
+    if not file.is_file():
+        return DemandSettings()
+    try:
+        raw = tomllib.loads(file.read_text(encoding="utf-8"))
+    except tomllib.TOMLDecodeError as exc:
+        problems.append(Problem("demand.toml", None, None, f"not valid TOML: {exc}"))
+        return DemandSettings()
+    priority: dict[str, float] = {}
+    for skill, value in raw.get("priority", {}).items():
+        if skill not in skills:
+            problems.append(Problem("demand.toml", None, f"priority.{skill}",
+                                    f"unknown skill '{skill}'; expected one in skills.csv"))
+        elif not isinstance(value, int | float) or isinstance(value, bool) or value < 0:
+            problems.append(Problem("demand.toml", None, f"priority.{skill}",
+                                    f"'{value}' is not a number >= 0"))
+        else:
+            priority[skill] = float(value)
+
+    def section(name: str, default: Any) -> Any:
+        values = raw.get(name, {})
+        kwargs: dict[str, Any] = {}
+        for key, value in values.items():
+            if not hasattr(default, key):
+                problems.append(Problem("demand.toml", None, f"{name}.{key}", "unknown key"))
+                continue
+            wanted = type(getattr(default, key))
+            ok = isinstance(value, int) if wanted is int else isinstance(value, int | float)
+            if not ok or isinstance(value, bool) or value < 0:
+                problems.append(Problem("demand.toml", None, f"{name}.{key}",
+                                        f"'{value}' is not {'a whole' if wanted is int else 'a'}"
+                                        " number >= 0"))
+                continue
+            kwargs[key] = wanted(value)
+        return type(default)(**kwargs)
+
+    return DemandSettings(priority, section("quality", QualitySettings()),
+                          section("standards", StandardSettings()),
+                          section("forecast", ForecastSettings()))
+
+
+def _read_activities(table: RawTable, problems: list[Problem]) -> dict[str, str]:
+    cells = _Cells(table, "activities", problems)
+    out: dict[str, str] = {}
+    seen: dict[str, int] = {}
+    for row in cells:
+        activity = cells.text(row, "activity")
+        kind = cells.choice(row, "kind", ACTIVITY_KINDS, "case or non_case")
+        if activity is None or kind is None:
+            continue
+        if activity in seen:
+            cells.error("activity", f"'{activity}' is listed twice (first at row "
+                        f"{seen[activity]})")
+            continue
+        seen[activity] = cells.row_number
+        out[activity] = kind
+    return out
+
+
+def _read_arrivals(table: RawTable, problems: list[Problem], offices: set[str],
+                   case_types: set[str] | None) -> pd.DataFrame:
+    cells = _Cells(table, "case_arrivals", problems)
+    rows: list[tuple[str, str, int, int]] = []
+    seen: dict[tuple[str, str, int], int] = {}
+    for row in cells:
+        month = cells.month(row, "month")
+        office = cells.choice(row, "office", offices, "one listed in the instance's offices.csv")
+        if case_types is None:
+            case_type = cells.text(row, "case_type")
+        else:
+            case_type = cells.choice(row, "case_type", case_types,
+                                     "an activity of kind 'case' in activities.csv")
+        count = cells.number(row, "count", integer=True)
+        if month is None or office is None or case_type is None or count is None:
+            continue
+        key = (office, case_type, month)
+        if key in seen:
+            cells.error(None, f"arrivals for office '{office}', case type '{case_type}', month "
+                        f"{month_name(month)} are listed twice (first at row {seen[key]})")
+            continue
+        seen[key] = cells.row_number
+        rows.append((office, case_type, month, int(count)))
+    frame = pd.DataFrame(rows, columns=["office", "case_type", "month", "count"])
+    if cells.columns_ok and not rows and not any(p.file == table.label for p in problems):
+        problems.append(Problem(table.label, None, None, "has no rows; expected monthly "
+                                "counts"))
+    if rows:
+        # Forecasting needs every month of a series: a gap is ambiguous (no cases, or no data).
+        last = int(frame["month"].max())
+        for series, group in frame.groupby(["office", "case_type"], sort=True):
+            office, case_type = str(series[0]), str(series[1])
+            months = {int(m) for m in group["month"]}
+            first = min(months)
+            missing = [m for m in range(first, last + 1) if m not in months]
+            if missing:
+                shown = ", ".join(month_name(m) for m in missing[:6])
+                more = f" and {len(missing) - 6} more" if len(missing) > 6 else ""
+                problems.append(Problem(table.label, None, "month",
+                                        f"office '{office}', case type '{case_type}' has no row "
+                                        f"for {shown}{more}; expected one row per month up to "
+                                        f"{month_name(last)} (count 0 if no cases arrived)"))
+    return frame
+
+
+def _read_records(table: RawTable, problems: list[Problem], offices: set[str],
+                  skills: set[str]) -> pd.DataFrame:
+    cells = _Cells(table, "time_records", problems)
+    rows: list[tuple[int, str, int, str, str, str, float]] = []
+    for row in cells:
+        person = cells.text(row, "person")
+        month = cells.month(row, "period")
+        office = cells.choice(row, "office", offices, "one listed in the instance's offices.csv")
+        skill = cells.choice(row, "skill", skills, "one listed in the instance's skills.csv")
+        activity = cells.text(row, "activity")
+        # Any number is accepted here: hours out of plausible bounds are a quality finding.
+        hours = cells.number(row, "hours", minimum=None)
+        if None in (person, month, office, skill, activity, hours):
+            continue
+        rows.append((cells.row_number, person, month, office, skill, activity,  # type: ignore[arg-type]
+                     float(hours)))  # type: ignore[arg-type]
+    if cells.columns_ok and not rows and not any(p.file == table.label for p in problems):
+        problems.append(Problem(table.label, None, None, "has no rows; expected time records"))
+    return pd.DataFrame(rows, columns=["row", "person", "month", "office", "skill", "activity",
+                                       "hours"])
+
+
+def _read_expected(table: RawTable, problems: list[Problem]) -> pd.DataFrame:
+    cells = _Cells(table, "expected_hours", problems)
+    rows: list[tuple[str, int, float]] = []
+    seen: dict[tuple[str, int], int] = {}
+    for row in cells:
+        person = cells.text(row, "person")
+        month = cells.month(row, "period")
+        hours = cells.number(row, "expected_hours")
+        if person is None or month is None or hours is None:
+            continue
+        if (person, month) in seen:
+            cells.error(None, f"expected hours for '{person}' in {month_name(month)} are listed "
+                        f"twice (first at row {seen[(person, month)]})")
+            continue
+        seen[(person, month)] = cells.row_number
+        rows.append((person, month, hours))
+    return pd.DataFrame(rows, columns=["person", "month", "expected_hours"])
+
+
+def _read_adjustments(table: RawTable | None, problems: list[Problem], offices: set[str],
+                      case_types: set[str]) -> pd.DataFrame:
+    columns = ["office", "case_type", "first_month", "last_month", "factor", "note"]
+    if table is None:
+        return pd.DataFrame(columns=columns)
+    cells = _Cells(table, "adjustments", problems)
+    rows: list[tuple[str, str | None, int, int, float, str]] = []
+    for row in cells:
+        office = cells.choice(row, "office", offices, "one listed in the instance's offices.csv")
+        case_type = None
+        if row.get("case_type"):
+            case_type = cells.choice(row, "case_type", case_types,
+                                     "an activity of kind 'case' in activities.csv")
+            if case_type is None:
+                continue
+        first, last = cells.month(row, "first_month"), cells.month(row, "last_month")
+        factor = cells.number(row, "factor")
+        if office is None or first is None or last is None or factor is None:
+            continue
+        if last < first:
+            cells.error("last_month", f"{month_name(last)} is before first_month "
+                        f"{month_name(first)}; expected a month on or after it")
+            continue
+        rows.append((office, case_type, first, last, factor, row.get("note", "")))
+    return pd.DataFrame(rows, columns=columns)

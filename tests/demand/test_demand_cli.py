@@ -1,0 +1,140 @@
+"""`rebalance demand` end to end on the demo history, and on broken history input."""
+
+from __future__ import annotations
+
+import csv
+import shutil
+from pathlib import Path
+
+import pandas as pd
+import pytest
+from demand_helpers import DEMO, DEMO_HISTORY
+
+from rebalance.cli import EXIT_INVALID_INPUT, EXIT_OK, main
+from rebalance.readers import read_instance
+
+INSTANCE_FILES = ("settings.toml", "offices.csv", "skills.csv", "staff.csv", "budget.csv",
+                  "move_costs.csv", "vacancies.csv", "attrition.csv")
+
+
+def _instance_without_demand(folder: Path) -> Path:
+    folder.mkdir(parents=True, exist_ok=True)
+    for name in INSTANCE_FILES:
+        shutil.copy(DEMO / name, folder / name)
+    return folder
+
+
+@pytest.fixture(scope="module")
+def demand_run(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    out = _instance_without_demand(tmp_path_factory.mktemp("instance") / "demo")
+    assert main(["demand", str(DEMO_HISTORY), "-o", str(out)]) == EXIT_OK
+    return out
+
+
+def test_demand_csv_is_a_valid_instance_table(demand_run: Path, capsys) -> None:  # type: ignore[no-untyped-def]
+    assert main(["check", str(demand_run)]) == EXIT_OK
+    instance = read_instance(demand_run)
+    assert len(instance.demand) > 0
+    periods = instance.period_names
+    assert periods[0] == "2027-Q1" and len(periods) == 8
+    total = sum(d.fte for d in instance.demand)
+    assert 1500 < total < 2600  # roughly the demo's designed level (about 2,000 FTE-periods)
+    assert {d.priority for d in instance.demand if d.skill == "legal_review"} == {2.0}
+
+
+def test_every_fte_is_traceable(demand_run: Path) -> None:
+    instance = read_instance(demand_run)
+    trace = pd.read_csv(demand_run / "demand_trace.csv")
+    standards = pd.read_csv(demand_run / "demand_report" / "effort_standards.csv")
+    cases = trace[trace["kind"] == "case"]
+    # Each case row: volume = forecast x adjustment and hours = volume x hours per case, with
+    # hours per case exactly the effort standard of that office, case type and skill.
+    assert (cases["volume"] - cases["forecast_volume"] * cases["adjustment_factor"]
+            ).abs().max() < 1e-6
+    assert (cases["hours"] - cases["volume"] * cases["hours_per_case"]).abs().max() < 1e-4
+    merged = cases.merge(standards, left_on=["office", "activity", "skill"],
+                         right_on=["office", "case_type", "skill"], suffixes=("", "_std"))
+    assert len(merged) == len(cases)
+    assert (merged["hours_per_case"] - merged["hours_per_case_std"]).abs().max() < 1e-3
+    assert (trace["fte"] - trace["hours"] / trace["hours_per_fte"]).abs().max() < 1e-7
+    # Each demand FTE = (sum of volume x hours per case + non-case hours) / hours per FTE.
+    recomputed = trace.assign(
+        parts=trace["volume"].fillna(0) * trace["hours_per_case"].fillna(0)
+        + trace["hours"].where(trace["kind"] == "non_case", 0.0))
+    by_key = recomputed.groupby(["office", "skill", "period"]).agg(
+        hours=("parts", "sum"), hours_per_fte=("hours_per_fte", "first"))
+    assert len(by_key) == len(instance.demand)
+    for d in instance.demand:
+        row = by_key.loc[(d.office, d.skill, instance.periods[d.period].name)]
+        assert d.fte == pytest.approx(row["hours"] / row["hours_per_fte"], abs=1e-4)
+
+
+def test_backtest_and_qc_report(demand_run: Path) -> None:
+    report = demand_run / "demand_report"
+    backtest = pd.read_csv(report / "backtest.csv")
+    assert len(backtest) == 30
+    for column in ("holdout_mase_baseline", "holdout_mase_chosen", "selection_mase_holt_winters",
+                   "selection_mase_snaive_drift", "chosen", "beats_baseline"):
+        assert column in backtest.columns
+    # Done-when of issue 4: the chosen method beats the baseline on most demo series.
+    assert backtest["beats_baseline"].sum() > len(backtest) / 2
+    forecasts = pd.read_csv(report / "forecasts.csv")
+    assert ((forecasts["lower"] <= forecasts["volume"])
+            & (forecasts["volume"] <= forecasts["upper"])).all()
+    summary = pd.read_csv(report / "qc_summary.csv").set_index("check")
+    assert summary.loc["kept", "records"] > 0
+    assert (report / "qc_verdict.txt").read_text().startswith("good")
+
+
+def _edit(path: Path, row: int, column: str, value: str) -> None:
+    with path.open(newline="") as handle:
+        rows = list(csv.reader(handle))
+    rows[row - 1][rows[0].index(column)] = value
+    with path.open("w", newline="") as handle:
+        csv.writer(handle, lineterminator="\n").writerows(rows)
+
+
+BROKEN = [
+    # file, spreadsheet row, column, new value, expected message start
+    ("case_arrivals.csv", 5, "count", "lots", "case_arrivals.csv:5: count: 'lots' is not a number"),
+    ("case_arrivals.csv", 7, "office", "atlantis", "case_arrivals.csv:7: office: unknown office"),
+    ("case_arrivals.csv", 9, "month", "2026-13", "case_arrivals.csv:9: month: '2026-13' is not a "
+     "month"),
+    ("time_records.csv", 3, "hours", "eight", "time_records.csv:3: hours: 'eight' is not a number"),
+    ("time_records.csv", 4, "skill", "juggling", "time_records.csv:4: skill: unknown skill"),
+    ("expected_hours.csv", 6, "expected_hours", "-5", "expected_hours.csv:6: expected_hours: "
+     "'-5' is out of range"),
+    ("activities.csv", 3, "kind", "sometimes", "activities.csv:3: kind: unknown kind"),
+]
+
+
+def test_bad_history_lists_every_problem_and_writes_nothing(tmp_path: Path, capsys) -> None:  # type: ignore[no-untyped-def]
+    history = tmp_path / "history"
+    shutil.copytree(DEMO_HISTORY, history)
+    for name, row, column, value, _ in BROKEN:
+        _edit(history / name, row, column, value)
+    instance = _instance_without_demand(tmp_path / "instance")
+    (instance / "demand.csv").write_text("office,skill,period,fte\n")
+    before = sorted(p.name for p in instance.iterdir())
+    code = main(["demand", str(history), "-o", str(instance)])
+    err = capsys.readouterr().err
+    assert code == EXIT_INVALID_INPUT
+    for *_, message in BROKEN:
+        assert message in err, message
+    assert "nothing was written" in err and "Traceback" not in err
+    assert sorted(p.name for p in instance.iterdir()) == before
+    assert (instance / "demand.csv").read_text() == "office,skill,period,fte\n"
+
+
+def test_missing_months_and_files_are_reported(tmp_path: Path, capsys) -> None:  # type: ignore[no-untyped-def]
+    history = tmp_path / "history"
+    shutil.copytree(DEMO_HISTORY, history)
+    (history / "expected_hours.csv").unlink()
+    lines = (history / "case_arrivals.csv").read_text().splitlines(keepends=True)
+    (history / "case_arrivals.csv").write_text("".join(lines[:10] + lines[11:]))  # drop a month
+    instance = _instance_without_demand(tmp_path / "instance")
+    assert main(["demand", str(history), "-o", str(instance)]) == EXIT_INVALID_INPUT
+    err = capsys.readouterr().err
+    assert "expected_hours.csv: file is missing" in err
+    assert "has no row for 2020-10" in err
+    assert not (instance / "demand.csv").exists()

@@ -126,17 +126,27 @@ def _marginal(frame: pd.DataFrame) -> dict[str, Any] | None:
     texts = [c for c in frame.columns if not _numeric(frame, c)]
     first = find_column(frame, ("limit", "constraint", "name"), ("limit", "constraint"),
                         numeric=False)
-    keys = ([first] if first else []) + [c for c in texts if c != first and c.lower() in (
-        "year", "office", "skill", "period", "method", "kind")]
+    scope = ("where", "scope", "year", "office", "skill", "period", "location", "kind")
+    keys = ([first] if first else []) + [c for c in texts if c != first and c.lower() in scope]
+    # The method (exact re-solve or dual estimate) only tells rows apart when it varies.
+    method = find_column(frame, ("method",), numeric=False)
+    if method and frame[method].nunique() > 1:
+        keys.append(method)
     if not keys and texts:
         keys = texts[:2]
+    step = find_column(frame, ("step", "increment", "unit_step", "delta_limit"), ("step",),
+                       avoid=("shortfall", "cost"))
     rows: list[dict[str, Any]] = []
     for _, r in frame.iterrows():
         parts = [str(r[k]) for k in keys if not (isinstance(r[k], float) and math.isnan(r[k]))
                  and str(r[k]).strip()]
+        step_value = _finite([r[step]])[0] if step else None
+        text = " · ".join(parts) or f"row {len(rows) + 1}"
+        if step_value is not None:
+            text += f" (+{step_value:,g})"
         v = _finite([r[value]])[0]
         if v is not None:
-            rows.append({"label": " · ".join(parts) or f"row {len(rows) + 1}", "value": v})
+            rows.append({"label": text, "value": v})
     rows.sort(key=lambda row: -abs(row["value"]))
     if not rows:
         return None

@@ -69,12 +69,16 @@ def frame_table_html(frame: pd.DataFrame, name: str, limit: int = 200) -> str:
     headers = [str(c) for c in frame.columns]
     numeric = [pd.api.types.is_numeric_dtype(frame[c]) and not pd.api.types.is_bool_dtype(
         frame[c]) for c in frame.columns]
+    # Whole-number columns show no decimals; others three, or none for large values.
+    whole = [bool(n) and bool(((frame[c].dropna() % 1) == 0).all()) for c, n in zip(
+        frame.columns, numeric, strict=True)]
     rows = []
     for values in frame.itertuples(index=False, name=None):
         row: list[Any] = []
-        for v, is_num in zip(values, numeric, strict=True):
+        for v, is_num, is_whole in zip(values, numeric, whole, strict=True):
             if is_num and isinstance(v, int | float) and math.isfinite(float(v)):
-                row.append((v, num(float(v), 0 if abs(float(v)) >= 1000 else 3)))
+                digits = 0 if is_whole or abs(float(v)) >= 1000 else 3
+                row.append((v, num(float(v), digits)))
             else:
                 row.append("" if v is None or (isinstance(v, float) and math.isnan(v)) else v)
         rows.append(row)

@@ -175,7 +175,7 @@ def _summary_sheet(ws: Any, data: ReportData, sheet_names: Sequence[str]) -> Non
     line("share of demand not covered", plan.shortfall_fte / demand if demand else 0.0, SHARE,
          f"of {demand:,.1f} FTE-periods demanded")
     line("new money, all years", plan.total_cost, MONEY)
-    line("hires", plan.hires_count(), WHOLE)
+    line("people hired", plan.hires_count(), WHOLE)
     line("detail periods", len(plan.details), WHOLE,
          f"{plan.details['person'].nunique()} people" if len(plan.details) else "")
     line("reassignments", len(plan.reassignments), WHOLE)

@@ -25,7 +25,9 @@
     return t;
   }
   function svg(box, w, h) {
-    return el("svg", { viewBox: "0 0 " + w + " " + h, preserveAspectRatio: "xMinYMin meet" }, box);
+    // Never wider than drawn: a small chart keeps its type size on a wide page.
+    return el("svg", { viewBox: "0 0 " + w + " " + h, preserveAspectRatio: "xMinYMin meet",
+      style: "max-width:" + w + "px" }, box);
   }
   function empty(box, message) {
     var s = svg(box, 900, 70);
@@ -40,11 +42,16 @@
     if (a >= 100) { return Math.round(v).toLocaleString("en"); }
     return v.toFixed(digits === undefined ? 1 : digits);
   }
-  function ticks(max, count) {
-    if (!(max > 0)) { return [0]; }
+  function tick(v) {
+    if (Math.abs(v) >= 1e4) { return fmt(v); }
+    return String(Math.round(v * 100) / 100);
+  }
+  function ticks(max, count, whole) {
+    if (!(max > 0)) { return [0, 1]; }
     var raw = max / count, mag = Math.pow(10, Math.floor(Math.log10(raw)));
     var step = [1, 2, 2.5, 5, 10].map(function (m) { return m * mag; })
       .filter(function (s) { return s >= raw; })[0];
+    if (whole) { step = Math.max(1, Math.round(step)); }
     var out = [], n = Math.ceil(max / step - 1e-9);
     for (var i = 0; i <= n; i++) { out.push(i * step); }
     return out;
@@ -69,7 +76,7 @@
     var grid = el("g", { "class": "grid" }, g);
     values.forEach(function (v) {
       el("line", { x1: x0, x2: x1, y1: y(v), y2: y(v) }, grid);
-      label(grid, x0 - 5, y(v) + 3.5, format ? format(v) : fmt(v), { "text-anchor": "end" });
+      label(grid, x0 - 5, y(v) + 3.5, (format || tick)(v), { "text-anchor": "end" });
     });
   }
   function points(xs, ys) {
@@ -260,10 +267,10 @@
     var T = d.periods.length, W = 900, H = 250, ml = 40, mr = 10, mt = 14, mb = 28;
     var iw = W - ml - mr, ih = H - mt - mb, totals = new Array(T).fill(0);
     d.counts.forEach(function (row) { row.forEach(function (v, t) { totals[t] += v; }); });
-    var tk = ticks(Math.max.apply(null, totals) || 1, 4), ymax = tk[tk.length - 1] || 1;
+    var tk = ticks(Math.max.apply(null, totals) || 1, 4, true), ymax = tk[tk.length - 1] || 1;
     var g = svg(box, W, H);
     var y = function (v) { return mt + ih - v / ymax * ih; };
-    yAxis(g, y, tk, ml, ml + iw, function (v) { return String(Math.round(v * 10) / 10); });
+    yAxis(g, y, tk, ml, ml + iw);
     var bw = iw / T, marks = 0;
     for (var t = 0; t < T; t++) {
       var acc = 0;
@@ -322,7 +329,7 @@
 
   /* ---------------------------------------------------------------- analysis charts */
   function frontier(box, d) {
-    var W = 900, H = 300, ml = 56, mr = 24, mt = 16, mb = 40, iw = W - ml - mr, ih = H - mt - mb;
+    var W = 900, H = 300, ml = 56, mr = 24, mt = 30, mb = 40, iw = W - ml - mr, ih = H - mt - mb;
     var xsRaw = d.points.map(function (p) { return p.x; }), ysRaw = d.points.map(function (p) { return p.y; });
     var xmin = Math.min.apply(null, xsRaw), xmax = Math.max.apply(null, xsRaw);
     if (xmax === xmin) { xmax = xmin + 1; }
@@ -331,7 +338,7 @@
     var y = function (v) { return mt + ih - v / ymax * ih; };
     var g = svg(box, W, H);
     yAxis(g, y, tk, ml, ml + iw);
-    d.points.forEach(function (p) { label(g, x(p.x), H - 20, fmt(p.x), { "text-anchor": "middle" }); });
+    d.points.forEach(function (p) { label(g, x(p.x), H - 20, tick(p.x), { "text-anchor": "middle" }); });
     label(g, ml + iw / 2, H - 4, d.x_label.replace(/_/g, " "), { "text-anchor": "middle", "class": "title" });
     label(g, 4, 10, d.y_label.replace(/_/g, " "), { "class": "title" });
     el("polyline", { points: points(d.points.map(function (p) { return x(p.x); }),
@@ -373,7 +380,7 @@
     d.metrics.forEach(function (m, i) {
       var cell = document.createElement("div");
       grid.appendChild(cell);
-      marks += hbars(cell, d.labels, m.values, m.name.replace(/_/g, " "), i === 0 ? C.short : C.staff, 420);
+      marks += hbars(cell, d.labels, m.values, m.name.replace(/_/g, " "), i === 0 ? C.short : C.staff, 340);
     });
     return marks;
   }

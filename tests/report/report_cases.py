@@ -1,0 +1,125 @@
+"""Plan folders for the report tests, made by real solves of the tiny instance.
+
+Besides the plan the CLI writes, the folder gets the analysis tables the report can show
+(budget frontier, scenario comparison, marginal values), each computed here by plain re-solves
+of tiny variants, so every figure the browser draws came from a solver run.
+"""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+import tempfile
+from dataclasses import replace
+from functools import lru_cache
+from pathlib import Path
+
+import pandas as pd
+
+from rebalance import make_plan, options_from_instance, read_instance
+from rebalance.instance import Budget, Instance
+
+TESTS = Path(__file__).resolve().parent.parent
+TINY = TESTS / "data" / "tiny"
+
+
+def cli(*args: str) -> subprocess.CompletedProcess[str]:
+    return subprocess.run([sys.executable, "-m", "rebalance.cli", *args], capture_output=True,
+                          text=True, timeout=300)
+
+
+def _solve(instance: Instance) -> dict[str, float]:
+    result = make_plan(instance, options_from_instance(instance, relative_gap=0.0,
+                                                       time_limit_seconds=60.0))
+    if result.plan is None or not result.verified:
+        raise RuntimeError(f"tiny variant did not solve and verify: {result.status}")
+    plan = result.plan
+    return {"weighted_shortfall": plan.weighted_shortfall, "total_cost": plan.total_cost,
+            "hires": plan.hires_count(), "detail_periods": len(plan.details)}
+
+
+def _with_budget(instance: Instance, hiring: float | None = None,
+                 moves: float | None = None) -> Instance:
+    (budget,) = instance.budgets
+    return instance.with_changes(budgets=(Budget(
+        budget.year, budget.hiring if hiring is None else hiring,
+        budget.moves if moves is None else moves),))
+
+
+def _surge(instance: Instance, office: str, factor: float) -> Instance:
+    return instance.with_changes(demand=tuple(
+        replace(d, fte=d.fte * factor) if d.office == office else d for d in instance.demand))
+
+
+def frontier_table(instance: Instance) -> pd.DataFrame:
+    rows = [{"hiring_budget": h, **_solve(_with_budget(instance, hiring=h))}
+            for h in (0.0, 10_000.0, 20_000.0, 30_000.0, 40_000.0, 60_000.0)]
+    frame = pd.DataFrame(rows)
+    # Knee: the point farthest below the straight line from the first point to the last.
+    x, y = frame["hiring_budget"], frame["weighted_shortfall"]
+    span_x, span_y = x.iloc[-1] - x.iloc[0], y.iloc[-1] - y.iloc[0]
+    chord = y.iloc[0] + span_y * (x - x.iloc[0]) / span_x
+    frame["knee"] = False
+    frame.loc[(chord - y).idxmax(), "knee"] = True
+    return frame
+
+
+def scenario_table(instance: Instance) -> pd.DataFrame:
+    variants = {"base": instance, "surge at B +50%": _surge(instance, "B", 1.5),
+                "surge at A +40%": _surge(instance, "A", 1.4)}
+    return pd.DataFrame([{"scenario": name, **_solve(v)} for name, v in variants.items()])
+
+
+def marginal_table(instance: Instance) -> pd.DataFrame:
+    # Measured at a tight hiring budget, where tiny is short of cover, so limits bind.
+    instance = _with_budget(instance, hiring=20_000.0)
+    base = _solve(instance)
+    (budget,) = instance.budgets
+    office_b = instance.office("B")
+    relaxed = {
+        ("hiring budget", "2027", 10_000.0): _with_budget(
+            instance, hiring=(budget.hiring or 0) + 10_000),
+        ("moves budget", "2027", 5_000.0): _with_budget(
+            instance, moves=(budget.moves or 0) + 5_000),
+        ("max hires per period", "B", 1.0): instance.with_changes(offices=tuple(
+            replace(o, max_hires_per_period=(o.max_hires_per_period or 0) + 1)
+            if o.name == office_b.name else o for o in instance.offices)),
+    }
+    rows = []
+    for (limit, where, step), variant in relaxed.items():
+        after = _solve(variant)
+        rows.append({"limit": limit, "where": where, "step": step,
+                     "shortfall_reduction": base["weighted_shortfall"]
+                     - after["weighted_shortfall"],
+                     "cost_change": after["total_cost"] - base["total_cost"],
+                     "method": "re-solve"})
+    return pd.DataFrame(rows)
+
+
+@lru_cache(maxsize=1)
+def tiny_plan_folder() -> Path:
+    """A plan folder of tiny written by ``rebalance plan``, plus analysis tables."""
+    out = Path(tempfile.mkdtemp(prefix="rebalance-report-")) / "plan"
+    done = cli("plan", str(TINY), "-o", str(out), "-q")
+    if done.returncode != 0:
+        raise RuntimeError(done.stderr)
+    return out
+
+
+@lru_cache(maxsize=1)
+def tiny_analysis_folder() -> Path:
+    """The tiny plan folder with frontier, scenarios and marginal values beside it, and the
+    reports rebuilt by ``rebalance report`` so they show them."""
+    plan = tiny_plan_folder()
+    folder = plan.parent / "with-analysis"
+    folder.mkdir()
+    for file in plan.iterdir():
+        (folder / file.name).write_bytes(file.read_bytes())
+    instance = read_instance(TINY)
+    frontier_table(instance).to_csv(folder / "frontier.csv", index=False)
+    scenario_table(instance).to_csv(folder / "scenarios.csv", index=False)
+    marginal_table(instance).to_csv(folder / "marginal_values.csv", index=False)
+    done = cli("report", str(folder))
+    if done.returncode != 0:
+        raise RuntimeError(done.stderr)
+    return folder

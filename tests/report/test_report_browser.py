@@ -1,0 +1,123 @@
+"""The HTML report in a real browser: headless Chromium (Debian's package, driven through
+chromedriver by selenium) opens report.html from disk, with no network, and every chart draws.
+
+`make test` installs chromium and chromium-driver first.  Outside CI a machine without them
+skips these tests; in CI (CI=true) a missing browser is a failure, not a skip.
+"""
+
+from __future__ import annotations
+
+import os
+import shutil
+import tempfile
+from pathlib import Path
+
+import pytest
+from report_cases import tiny_analysis_folder, tiny_plan_folder
+
+ROOT = Path(__file__).resolve().parents[2]
+ARTIFACTS = ROOT / "out" / "test-artifacts"
+CHROMIUM = shutil.which("chromium") or "/usr/bin/chromium"
+CHROMEDRIVER = shutil.which("chromedriver") or "/usr/bin/chromedriver"
+FLAGS = ("--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+         "--disable-background-networking", "--disable-component-update", "--disable-sync",
+         "--hide-scrollbars", "--window-size=1280,900")
+
+
+@pytest.fixture(scope="module")
+def browser():
+    if not (Path(CHROMIUM).exists() and Path(CHROMEDRIVER).exists()):
+        message = "chromium and chromium-driver are not installed (make test installs them)"
+        if os.environ.get("CI"):
+            pytest.fail(message)
+        pytest.skip(message)
+    from selenium import webdriver
+    from selenium.webdriver.chrome.service import Service
+
+    options = webdriver.ChromeOptions()
+    options.binary_location = CHROMIUM
+    for flag in FLAGS:
+        options.add_argument(flag)
+    profile = tempfile.mkdtemp(prefix="rebalance-chromium-")
+    options.add_argument(f"--user-data-dir={profile}")
+    options.set_capability("goog:loggingPrefs", {"browser": "ALL"})
+    driver = webdriver.Chrome(service=Service(CHROMEDRIVER), options=options)
+    driver.set_page_load_timeout(60)
+    yield driver
+    driver.quit()
+    shutil.rmtree(profile, ignore_errors=True)
+
+
+def _open(driver, report: Path) -> list[dict]:
+    driver.get(report.resolve().as_uri())
+    return [entry for entry in driver.get_log("browser") if entry["level"] in ("SEVERE",
+                                                                               "WARNING")]
+
+
+CHART_STATE = """
+return Array.from(document.querySelectorAll('.chart')).map(c => ({
+  kind: c.dataset.chart, drawn: c.dataset.drawn, marks: Number(c.dataset.marks || 0),
+  shapes: c.querySelectorAll('svg rect, svg path, svg polygon, svg polyline, svg circle').length
+}));
+"""
+
+
+def test_report_with_analysis_draws_every_chart_offline(browser):
+    folder = tiny_analysis_folder()
+    problems = _open(browser, folder / "report.html")
+    assert problems == [], problems
+    charts = browser.execute_script(CHART_STATE)
+    kinds = sorted(c["kind"] for c in charts)
+    assert kinds == sorted(["coverage", "heat", "flows", "hires", "budget", "frontier",
+                            "scenarios", "marginal"])
+    for chart in charts:
+        assert chart["drawn"] == "yes", chart
+        assert chart["marks"] > 0 and chart["shapes"] > 0, chart
+    body = browser.find_element("tag name", "body")
+    assert body.get_attribute("data-charts-drawn") == str(len(charts))
+    assert body.get_attribute("data-charts-total") == str(len(charts))
+    # Self-contained: the page fetched nothing (no scripts, styles, fonts or images).
+    assert browser.execute_script(
+        "return performance.getEntriesByType('resource').length") == 0
+    # The caution is on the page people read.
+    from rebalance.planning import CAUTION
+
+    assert CAUTION in body.text
+    ARTIFACTS.mkdir(parents=True, exist_ok=True)
+    height = browser.execute_script("return document.documentElement.scrollHeight")
+    browser.set_window_size(1280, min(int(height), 12000))
+    assert browser.save_screenshot(str(ARTIFACTS / "report.png"))
+    browser.set_window_size(1280, 900)
+
+
+def test_plain_plan_report_draws_its_charts(browser):
+    problems = _open(browser, tiny_plan_folder() / "report.html")
+    assert problems == [], problems
+    charts = browser.execute_script(CHART_STATE)
+    assert sorted(c["kind"] for c in charts) == ["budget", "coverage", "flows", "heat", "hires"]
+    assert all(c["drawn"] == "yes" for c in charts), charts
+
+
+def test_tables_sort_when_a_header_is_clicked(browser):
+    _open(browser, tiny_analysis_folder() / "report.html")
+    table = browser.find_element("css selector", 'table[data-table="frontier"]')
+    headers = table.find_elements("css selector", "thead th")
+    names = [h.text for h in headers]
+    column = names.index("weighted_shortfall")
+
+    def values() -> list[float]:
+        return [float(r.find_elements("tag name", "td")[column].get_attribute("data-v"))
+                for r in table.find_elements("css selector", "tbody tr")]
+
+    def click(element) -> None:
+        # A DOM click on the header, as a mouse click delivers it (the table sits far down
+        # the page, in its own scrolling box).
+        browser.execute_script("arguments[0].click()", element)
+
+    click(headers[column])
+    ascending = values()
+    assert ascending == sorted(ascending)
+    click(headers[column])
+    descending = values()
+    assert descending == sorted(descending, reverse=True)
+    assert headers[column].get_attribute("aria-sort") == "descending"

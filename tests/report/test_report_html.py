@@ -1,0 +1,134 @@
+"""report.html without a browser: one self-contained file whose chart data add up to the plan
+tables, with analysis sections only when their tables exist, read defensively."""
+
+from __future__ import annotations
+
+import itertools
+import json
+import re
+import shutil
+from pathlib import Path
+
+import pandas as pd
+import pytest
+from report_cases import TINY, cli, tiny_analysis_folder, tiny_plan_folder
+
+from rebalance import read_instance, read_plan
+from rebalance.planning import CAUTION
+from rebalance.report.html import render_html
+from rebalance.report.inputs import report_data_from_folder
+
+
+def _payload(page: str) -> dict:
+    found = re.search(r'<script type="application/json" id="report-data">(.*?)</script>', page,
+                      re.S)
+    assert found is not None
+    return json.loads(found.group(1))
+
+
+def _page(folder: Path) -> str:
+    return (folder / "report.html").read_text(encoding="utf-8")
+
+
+def test_report_is_one_file_that_needs_no_network():
+    page = _page(tiny_plan_folder())
+    assert "<link" not in page
+    assert not re.search(r"<script[^>]+src=", page)
+    assert not re.search(r"<img\b", page)
+    assert "@import" not in page and "url(" not in page
+    # Only in-page links; the one URL-looking string is the SVG namespace the script needs.
+    assert set(re.findall(r'href="([^"#][^"]*)"', page)) == set()
+    assert set(re.findall(r"https?://[^\s\"')]+", page)) == {"http://www.w3.org/2000/svg"}
+    assert page.count(CAUTION) >= 2  # under the header and in the footer
+
+
+def test_chart_data_add_up_to_the_plan_tables():
+    folder = tiny_plan_folder()
+    instance = read_instance(TINY)
+    plan = read_plan(folder)
+    data = _payload(_page(folder))
+    everywhere = data["coverage"]["series"][0]
+    assert everywhere["office"] == "all offices"
+    # Demand against the instance itself (the input), not the plan's copy of it.
+    assert sum(everywhere["demand"]) == pytest.approx(sum(d.fte for d in instance.demand))
+    covered = [a + b for a, b in zip(everywhere["staff"], everywhere["hires"], strict=True)]
+    assert sum(covered) == pytest.approx(plan.coverage["covered_fte"].sum(), abs=1e-3)
+    heat_total = sum(c["shortfall"] for row in data["heat"]["cells"] for c in row)
+    assert heat_total == pytest.approx(plan.shortfall_fte, abs=1e-3)
+    assert sum(f["detail_periods"] for f in data["flows"]["flows"]) == len(plan.details)
+    assert sum(sum(row) for row in data["hires"]["counts"]) == plan.hires_count()
+    spend = sum(r["spend"] for r in data["budget"])
+    assert spend == pytest.approx(plan.total_cost)
+
+
+def test_analysis_sections_appear_only_with_their_tables():
+    plain = _page(tiny_plan_folder())
+    full = _page(tiny_analysis_folder())
+    for anchor in ("frontier", "scenarios", "marginal"):
+        assert f'id="{anchor}"' not in plain
+        assert f'id="{anchor}"' in full
+        assert f'data-chart="{anchor}"' in full
+    payload = _payload(full)
+    frontier = pd.read_csv(tiny_analysis_folder() / "frontier.csv")
+    assert [p["x"] for p in payload["frontier"]["points"]] == sorted(frontier["hiring_budget"])
+    assert sum(p["knee"] for p in payload["frontier"]["points"]) == 1
+    # More hiring budget never raises the least shortfall (each point is an exact re-solve).
+    shortfalls = list(frontier.sort_values("hiring_budget")["weighted_shortfall"])
+    assert all(b <= a + 1e-9 for a, b in itertools.pairwise(shortfalls))
+    marginal = payload["marginal"]["rows"]
+    assert [abs(r["value"]) for r in marginal] == sorted((abs(r["value"]) for r in marginal),
+                                                         reverse=True)
+
+
+def _copy(tmp_path: Path) -> Path:
+    folder = tmp_path / "plan"
+    shutil.copytree(tiny_plan_folder(), folder)
+    return folder
+
+
+def test_analysis_tables_with_other_column_names(tmp_path):
+    folder = _copy(tmp_path)
+    pd.DataFrame({"budget": [0, 5000, 9000], "shortfall": [3.0, 1.0, 0.5],
+                  "is_knee": ["no", "yes", "no"]}).to_csv(folder / "frontier.csv", index=False)
+    pd.DataFrame({"name": ["base", "surge"], "weighted_shortfall": [1.0, 2.5],
+                  "total_cost": [10.0, 20.0]}).to_csv(folder / "comparison.csv", index=False)
+    pd.DataFrame({"constraint": ["seats", "hiring"], "office": ["A", "B"],
+                  "delta_shortfall": [0.2, -1.5]}).to_csv(folder / "marginal_values.csv",
+                                                          index=False)
+    page = render_html(report_data_from_folder(folder, read_instance(TINY)))
+    data = _payload(page)
+    assert [p["knee"] for p in data["frontier"]["points"]] == [False, True, False]
+    assert data["scenarios"]["labels"] == ["base", "surge"]
+    assert [r["label"] for r in data["marginal"]["rows"]] == ["hiring · B", "seats · A"]
+
+
+def test_unrecognised_or_broken_analysis_tables_do_not_break_the_report(tmp_path):
+    folder = _copy(tmp_path)
+    pd.DataFrame({"a": ["x", "y"], "b": ["p", "q"]}).to_csv(folder / "frontier.csv",
+                                                            index=False)
+    (folder / "scenarios.csv").write_bytes(b"\x00\xff\x00garbage\n\"unterminated")
+    (folder / "marginal_values.csv").write_text("")
+    page = render_html(report_data_from_folder(folder, read_instance(TINY)))
+    assert 'id="frontier"' in page and 'data-chart="frontier"' not in page
+    assert "not recognised for a chart" in page
+    assert 'id="marginal"' not in page  # an empty file has nothing to show
+
+
+def test_rebuild_command(tmp_path):
+    folder = _copy(tmp_path)
+    (folder / "report.html").unlink()
+    (folder / "plan.xlsx").unlink()
+    done = cli("report", str(folder))
+    assert done.returncode == 0, done.stderr
+    assert (folder / "report.html").is_file() and (folder / "plan.xlsx").is_file()
+    assert not [p.name for p in folder.iterdir() if p.name.startswith(".")]
+    # Without a stored instance path the command asks for one; --instance supplies it.
+    summary = json.loads((folder / "summary.json").read_text())
+    summary.pop("instance_path")
+    (folder / "summary.json").write_text(json.dumps(summary))
+    asked = cli("report", str(folder))
+    assert asked.returncode == 2 and "--instance" in asked.stderr
+    given = cli("report", str(folder), "--instance", str(TINY))
+    assert given.returncode == 0, given.stderr
+    missing = cli("report", str(tmp_path / "nowhere"))
+    assert missing.returncode == 3 and "Traceback" not in missing.stderr

@@ -14,7 +14,7 @@ from pathlib import Path
 from typing import Any
 
 from rebalance.instance import Instance
-from rebalance.model import Model, build_model
+from rebalance.model import build_model
 from rebalance.plan import Plan, extract_plan, staged_folder, write_plan
 from rebalance.solve import SolveOptions, SolveResult, Status, solve
 from rebalance.verify import Violation, verify_plan
@@ -62,11 +62,13 @@ def options_from_instance(instance: Instance, **overrides: Any) -> SolveOptions:
     return replace(options, **given)
 
 
-def make_plan(instance: Instance, options: SolveOptions,
-              build: Callable[[Instance], Model] = build_model) -> PlanResult:
-    """Build, solve, extract and verify.  Never returns an unverified plan as good."""
+def make_plan(instance: Instance, options: SolveOptions, pooled: bool = True) -> PlanResult:
+    """Build, solve, extract and verify.  Never returns an unverified plan as good.
+
+    ``pooled=False`` builds the person-level formulation (same optimum, larger model).
+    """
     started = time.perf_counter()
-    model = build(instance)
+    model = build_model(instance, pooled=pooled)
     build_seconds = time.perf_counter() - started
     if options.progress is not None:
         options.progress(f"model: {model.num_cols} columns ({model.num_integer} integer), "

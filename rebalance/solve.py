@@ -416,8 +416,31 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
                        final_status=Status.FEASIBLE_WITH_GAP)
     status = Status.OPTIMAL if (first.status is Status.OPTIMAL
                                 and second.status is Status.OPTIMAL) else Status.FEASIBLE_WITH_GAP
-    return _finish(model, backend, options, stages, second, started, deadline,
-                   final_status=status)
+    return _finish(model, backend, options, stages, polish(backend, model, second, options),
+                   started, deadline, final_status=status)
+
+
+def polish(backend: Backend, model: Model, out: BackendOutcome,
+           options: SolveOptions) -> BackendOutcome:
+    """Fix the integer decisions and re-split work to the least shortfall (an LP).
+
+    Stage two may spend the small shortfall slack it is given; with the people, moves and
+    hires fixed, the best work split is cheap to find exactly, and costs do not change.
+    """
+    if out.x is None or not model.num_integer:
+        return out
+    fixed = np.rint(out.x)
+    integer = model.is_integer
+    lower, upper = model.col_lower.copy(), model.col_upper.copy()
+    lower[integer] = upper[integer] = fixed[integer]
+    lp = backend.run(replace(model, col_lower=lower, col_upper=upper,
+                             is_integer=np.zeros(model.num_cols, bool)),
+                     model.shortfall_weight, [], options, 60.0, None)
+    if lp.status is not Status.OPTIMAL or lp.x is None:
+        return out
+    x = lp.x.copy()
+    x[integer] = fixed[integer]
+    return replace(out, x=x)
 
 
 STAGE1_SHARE = 0.7   # of the whole time limit, at most, for the shortfall stage

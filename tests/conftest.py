@@ -23,7 +23,8 @@ def solve_verified(instance: Instance, **overrides: object) -> PlanResult:
     """Solve exactly (gap 0) and insist the plan passes the independent verifier."""
     overrides.setdefault("relative_gap", 0.0)
     overrides.setdefault("time_limit_seconds", 120.0)
-    result = make_plan(instance, options_from_instance(instance, **overrides))
+    pooled = bool(overrides.pop("pooled", True))
+    result = make_plan(instance, options_from_instance(instance, **overrides), pooled=pooled)
     assert result.plan is not None, result.status
     assert result.verified, [str(v) for v in result.violations]
     return result

@@ -47,7 +47,8 @@ COLUMNS = (
     "formulation", "time_limit_s", "relative_gap", "status", "verified", "columns", "rows",
     "integer_columns", "read_s", "build_s", "stage1_s", "stage2_s", "solve_s", "extract_s",
     "verify_s", "wall_s", "stage1_status", "stage1_gap", "stage2_status", "stage2_gap", "gap",
-    "weighted_shortfall", "total_cost", "peak_mib", "solver_peak_mib", "note",
+    "weighted_shortfall", "total_cost", "peak_mib", "solver_peak_mib", "load_1min", "commit",
+    "note",
 )
 
 
@@ -86,8 +87,13 @@ def run_case(case: dict[str, object]) -> dict[str, object]:
     options = options_from_instance(
         instance, solver=case["backend"], time_limit_seconds=float(case["time_limit"]),  # type: ignore[arg-type]
         relative_gap=float(case["gap"]), threads=1, seed=0, progress=progress)  # type: ignore[arg-type]
-    if "build" in inspect.signature(make_plan).parameters:
-        result = make_plan(instance, options, build=build)
+    # Whichever way this version of the API takes the formulation: a make_plan keyword, a
+    # build callable, or (one formulation only) nothing.
+    plan_params = inspect.signature(make_plan).parameters
+    if "pooled" in plan_params:
+        result = make_plan(instance, options, pooled=formulation != "person")  # type: ignore[call-arg,unused-ignore]
+    elif "build" in plan_params:
+        result = make_plan(instance, options, build=build)  # type: ignore[call-arg,unused-ignore]
     else:
         result = make_plan(instance, options)
     wall = time.perf_counter() - started
@@ -163,7 +169,7 @@ def run_size(size: str, args: argparse.Namespace, date: str) -> list[dict[str, o
         "date": date, "size": size, "staff": spec.staff, "offices": spec.offices,
         "skills": spec.skills, "periods": spec.periods, "seed": spec.seed,
         "groups": generated.groups, "time_limit_s": args.limits[size],
-        "relative_gap": args.gap,
+        "relative_gap": args.gap, "commit": _commit(),
     }
     rows = []
     for backend in args.backends:
@@ -177,6 +183,8 @@ def run_size(size: str, args: argparse.Namespace, date: str) -> list[dict[str, o
             case = {"instance": str(folder), "backend": backend, "formulation": formulation,
                     "time_limit": args.limits[size], "gap": args.gap,
                     "log": str(RAW / "logs" / f"{date}-{size}-{backend}-{formulation}.log")}
+            # Others may share the machine: the load at the start says how alone a case ran.
+            row["load_1min"] = round(os.getloadavg()[0], 2)
             # The solve enforces its own limit; the kill is only a backstop for an overrun.
             kill_after = args.limits[size] * 1.5 + 120
             started = time.perf_counter()
@@ -229,7 +237,14 @@ def merge_results(path: Path, new_rows: list[dict[str, object]]) -> list[dict[st
     return rows
 
 
-def machine() -> list[tuple[str, str]]:
+def _commit() -> str:
+    """The commit measured; "-dirty" when the working tree had uncommitted changes."""
+    done = subprocess.run(["git", "describe", "--always", "--dirty"], capture_output=True,
+                          text=True, cwd=ROOT)
+    return done.stdout.strip() or "unknown"
+
+
+def machine(rows: list[dict[str, str]]) -> list[tuple[str, str]]:
     from importlib.metadata import version
 
     import pulp
@@ -255,14 +270,13 @@ def machine() -> list[tuple[str, str]]:
                     if ln.startswith("Version")), "unknown")
     except (OSError, subprocess.SubprocessError):
         pass
-    commit = subprocess.run(["git", "describe", "--always", "--dirty"], capture_output=True,
-                            text=True, cwd=ROOT).stdout.strip() or "unknown"
+    commits = sorted({r.get("commit", "") for r in rows} - {""}) or [_commit()]
     return [
         ("CPU", cpu), ("cores", str(os.cpu_count())), ("memory", memory),
         ("OS", f"{platform.system()} {platform.release()}"),
         ("Python", platform.python_version()), ("HiGHS (highspy)", version("highspy")),
         ("PuLP", pulp.__version__), ("CBC (bundled with PuLP)", cbc),
-        ("rebalance commit", commit),
+        ("rebalance commit(s) measured", ", ".join(commits)),
     ]
 
 
@@ -359,13 +373,15 @@ def write_doc(rows: list[dict[str, str]], csv_path: Path) -> None:
         "plan). Peak memory is the process's maximum resident set; for CBC, which PuLP runs as",
         "a separate program, the solver's own peak is listed beside it. Gaps are relative;",
         "stage 1 is least weighted shortfall, stage 2 least cost with that shortfall held.",
+        "*load* is the 1-minute load average when the case started (2 cores: above 1 means",
+        "another job shared the machine and the times are pessimistic).",
         "",
         "## Machine",
         "",
         "| | |",
         "|---|---|",
     ]
-    lines += [f"| {k} | {v} |" for k, v in machine()]
+    lines += [f"| {k} | {v} |" for k, v in machine(rows)]
     lines += ["", f"Default backend (`SolveOptions().solver`): `{default_backend}`.", "",
               "## Targets of issue 3 (default backend)", ""]
     lines += _targets(rows, default_backend)
@@ -373,8 +389,8 @@ def write_doc(rows: list[dict[str, str]], csv_path: Path) -> None:
               "| size | staff / offices / skills / periods (groups) | backend | formulation "
               "| limit s | status | verified | columns | rows | integer | build s | stage 1 s "
               "| stage 2 s | wall s | stage 1 gap | stage 2 gap | peak MiB | solver MiB "
-              "| most time |",
-              "|" + "---|" * 19]
+              "| load | most time |",
+              "|" + "---|" * 20]
     for r in rows:
         sizes = (f"{_cell(r['staff'], 'int')} / {r['offices']} / {r['skills']} / "
                  f"{r['periods']} ({_cell(r['groups'], 'int')})")
@@ -386,7 +402,8 @@ def write_doc(rows: list[dict[str, str]], csv_path: Path) -> None:
             f"| {_cell(r['integer_columns'], 'int')} | {_cell(r['build_s'])} "
             f"| {_cell(r['stage1_s'])} | {_cell(r['stage2_s'])} | {_cell(r['wall_s'])} "
             f"| {_cell(r['stage1_gap'], 'gap')} | {_cell(r['stage2_gap'], 'gap')} "
-            f"| {_cell(r['peak_mib'])} | {_cell(r['solver_peak_mib'])} | {dominant} |")
+            f"| {_cell(r['peak_mib'])} | {_cell(r['solver_peak_mib'])} "
+            f"| {_cell(r.get('load_1min', ''))} | {dominant} |")
     notes = [r for r in rows if r["note"]]
     if notes:
         lines += ["", "Notes on cases:", ""]

@@ -116,9 +116,12 @@ def cmd_demand(args: argparse.Namespace) -> int:
         for problem in exc.problems:
             _err(("  warning: " if problem.is_warning else "  ") + str(problem))
         return EXIT_INVALID_INPUT
+    from rebalance.planning import CAUTION
+
     report = write_demand(result, args.out, args.report)
     print(format_demand_summary(result, report))
     print(f"demand written to {Path(args.out) / 'demand.csv'} (trail: demand_trace.csv)")
+    print("\nCaution: " + CAUTION)
     return EXIT_OK
 
 

@@ -6,7 +6,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from demand_helpers import DEMO_HISTORY, demo_names
+from demand_helpers import DEMO_HISTORY, demo_names, load_make_history
 
 from rebalance.demand.history import month_index, read_history
 from rebalance.demand.quality import check_quality, robust_scores
@@ -29,6 +29,14 @@ def test_robust_score_by_hand() -> None:
                                           np.array([[10.0, 12, 11, 13, 50]]), np.array([0.0]))
     assert median[0] == 12 and scale[0] == pytest.approx(1.4826)
     assert scores[0] == pytest.approx(8 / 1.4826)
+
+
+@pytest.fixture(scope="module")
+def generated_history(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, list]:
+    """The demo history written by instances/make_history.py into a fresh folder."""
+    out = tmp_path_factory.mktemp("history")
+    planted = load_make_history().main(out)
+    return out, planted
 
 
 @pytest.fixture(scope="module")

@@ -82,9 +82,16 @@ def _quarter_months(period: str) -> list[int]:
 
 
 def build_demand(history: History, periods: tuple[Period, ...]) -> DemandResult:
-    """Run quality control, standards, forecasts and the hours-to-FTE step."""
+    """Run quality control, standards, forecasts and the hours-to-FTE step.
+
+    Raises :class:`HistoryError` when no time record passes quality control.
+    """
     fc_cfg = history.settings.forecast
     quality = check_quality(history)
+    if not bool((~quality.records["excluded"]).any()):
+        raise HistoryError([Problem("time_records.csv", None, None,
+                                    "no time record passed quality control (see the checks "
+                                    "in docs/instance-format.md); nothing to estimate from")])
     standards = estimate_standards(history, quality)
     last = history.last_month
     plan_months = [m for p in periods for m in _quarter_months(p.name)]

@@ -138,3 +138,15 @@ def test_missing_months_and_files_are_reported(tmp_path: Path, capsys) -> None: 
     assert "expected_hours.csv: file is missing" in err
     assert "has no row for 2020-10" in err
     assert not (instance / "demand.csv").exists()
+
+
+def test_no_usable_time_records_is_invalid_input(tmp_path: Path, capsys) -> None:  # type: ignore[no-untyped-def]
+    history = tmp_path / "history"
+    shutil.copytree(DEMO_HISTORY, history)
+    expected = pd.read_csv(history / "expected_hours.csv")
+    expected["expected_hours"] = 1  # every timesheet is now over-reported, so all excluded
+    expected.to_csv(history / "expected_hours.csv", index=False)
+    instance = _instance_without_demand(tmp_path / "instance")
+    assert main(["demand", str(history), "-o", str(instance)]) == EXIT_INVALID_INPUT
+    assert "no time record passed quality control" in capsys.readouterr().err
+    assert not (instance / "demand.csv").exists()

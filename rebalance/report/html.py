@@ -34,8 +34,11 @@ from rebalance.report.inputs import ReportData
 
 __all__ = ["render_html", "write_html"]
 
+# Longer tables are cut in the page (the CSV files and plan.xlsx hold every row), so an
+# agency-sized plan still opens quickly.
+TABLE_ROWS = 500
 STATUS_WORDS = {
-    "optimal": ("proven best", "good"),
+    "optimal": ("best within the set gap", "good"),
     "feasible_with_gap": ("good plan, not proven best", "fair"),
     "infeasible": ("no plan: limits conflict", "bad"),
     "no_plan_in_time": ("no plan in time", "bad"),
@@ -220,7 +223,8 @@ def _shortfall_table(data: ReportData) -> str:
                       if d else "-"), int(g["periods"]), float(g["worst"])])
     return table_html(["office", "skill", "shortfall FTE-periods", "weighted",
                        "share of demand", "periods short", "worst period FTE"], rows,
-                      name="shortfall", numeric=[False, False, True, True, True, True, True])
+                      name="shortfall", numeric=[False, False, True, True, True, True, True],
+                      limit=TABLE_ROWS)
 
 
 def _detail_runs(data: ReportData) -> list[list[Any]]:
@@ -294,13 +298,13 @@ def render_html(data: ReportData) -> str:
                         "period from its start to the end of the horizon.")
     moves_body += "<h3>Details</h3>" + (table_html(
         ["person", "home office", "to office", "from", "to", "periods", "cost"], runs,
-        name="details", numeric=[False] * 5 + [True, True]) if runs else
+        name="details", numeric=[False] * 5 + [True, True], limit=TABLE_ROWS) if runs else
         '<p class="quiet">No details in this plan.</p>')
     reas = [[r["person"], r["from_office"], r["to_office"], r["period"], _m(r["cost"])]
             for r in _records(plan.reassignments)]
     moves_body += "<h3>Reassignments</h3>" + (table_html(
         ["person", "from office", "to office", "effective", "cost"], reas,
-        name="reassignments", numeric=[False] * 4 + [True]) if reas else
+        name="reassignments", numeric=[False] * 4 + [True], limit=TABLE_ROWS) if reas else
         '<p class="quiet">No reassignments in this plan.</p>')
     sections.append(section(
         "moves", "Who moves where",
@@ -316,7 +320,8 @@ def render_html(data: ReportData) -> str:
         chart("hires", "Hires by start period and skill") + (table_html(
             ["office", "skill", "start", "count", "funding", "onboarding cost",
              "new salary to horizon end"], hires, name="hires",
-            numeric=[False, False, False, True, False, True, True]) if hires else
+            numeric=[False, False, False, True, False, True, True], limit=TABLE_ROWS) if hires
+            else
             '<p class="quiet">No hires in this plan.</p>')))
     cost_rows = [[r["year"], r["kind"], _m(r["spend"]),
                   (r["cap"], money(r["cap"])) if r["cap"] is not None else (1e300, "no cap"),

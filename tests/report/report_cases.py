@@ -123,3 +123,46 @@ def tiny_analysis_folder() -> Path:
     if done.returncode != 0:
         raise RuntimeError(done.stderr)
     return folder
+
+
+DEMO = TESTS.parent / "instances" / "demo"
+
+
+def demo_slice() -> Instance:
+    """The demo's first year at two offices that lend each other staff, budget caps scaled to
+    their share of staff (the notebook plans the same slice).  Solves in seconds, where the
+    whole demo takes about a minute."""
+    demo = read_instance(DEMO)
+    keep = {"port-ilse-central", "fenmarch-south"}
+    periods = demo.periods[:4]
+    years = {p.year for p in periods}
+    share = sum(p.home_office in keep for p in demo.staff) / len(demo.staff)
+
+    def scaled(cap: float | None) -> float | None:
+        return None if cap is None else round(cap * share, -3)
+
+    return demo.with_changes(
+        name="demo-slice", periods=periods,
+        offices=tuple(o for o in demo.offices if o.name in keep),
+        staff=tuple(p for p in demo.staff if p.home_office in keep),
+        demand=tuple(d for d in demo.demand if d.office in keep and d.period < len(periods)),
+        vacancies={k: v for k, v in demo.vacancies.items() if k[0] in keep},
+        attrition={k: v for k, v in demo.attrition.items() if k[1] is None or k[1] in keep},
+        budgets=tuple(replace(b, hiring=scaled(b.hiring), moves=scaled(b.moves))
+                      for b in demo.budgets if b.year in years))
+
+
+@lru_cache(maxsize=1)
+def demo_slice_folder() -> Path:
+    """A plan folder of the demo slice, written the way ``rebalance plan`` writes one."""
+    from rebalance.planning import write_outputs
+    from rebalance.report.files import plan_extras
+
+    instance = demo_slice()
+    result = make_plan(instance, options_from_instance(instance, relative_gap=0.02,
+                                                       time_limit_seconds=60.0))
+    if result.plan is None or not result.verified:
+        raise RuntimeError(f"demo slice did not solve and verify: {result.status}")
+    out = Path(tempfile.mkdtemp(prefix="rebalance-report-")) / "demo-slice"
+    write_outputs(result, out, extra=plan_extras())
+    return out

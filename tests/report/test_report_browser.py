@@ -13,7 +13,7 @@ import tempfile
 from pathlib import Path
 
 import pytest
-from report_cases import tiny_analysis_folder, tiny_plan_folder
+from report_cases import demo_slice_folder, tiny_analysis_folder, tiny_plan_folder
 
 ROOT = Path(__file__).resolve().parents[2]
 ARTIFACTS = ROOT / "out" / "test-artifacts"
@@ -90,12 +90,21 @@ def test_report_with_analysis_draws_every_chart_offline(browser):
     browser.set_window_size(1280, 900)
 
 
-def test_plain_plan_report_draws_its_charts(browser):
-    problems = _open(browser, tiny_plan_folder() / "report.html")
+@pytest.mark.parametrize("make_folder", [tiny_plan_folder, demo_slice_folder],
+                         ids=["tiny", "demo-slice"])
+def test_plan_report_draws_its_charts(browser, make_folder):
+    folder = make_folder()
+    problems = _open(browser, folder / "report.html")
     assert problems == [], problems
     charts = browser.execute_script(CHART_STATE)
     assert sorted(c["kind"] for c in charts) == ["budget", "coverage", "flows", "heat", "hires"]
     assert all(c["drawn"] == "yes" for c in charts), charts
+    if folder.name == "demo-slice":
+        ARTIFACTS.mkdir(parents=True, exist_ok=True)
+        height = browser.execute_script("return document.documentElement.scrollHeight")
+        browser.set_window_size(1280, min(int(height), 12000))
+        assert browser.save_screenshot(str(ARTIFACTS / "report-demo-slice.png"))
+        browser.set_window_size(1280, 900)
 
 
 def test_tables_sort_when_a_header_is_clicked(browser):

@@ -132,3 +132,14 @@ def test_rebuild_command(tmp_path):
     assert given.returncode == 0, given.stderr
     missing = cli("report", str(tmp_path / "nowhere"))
     assert missing.returncode == 3 and "Traceback" not in missing.stderr
+
+
+def test_long_tables_are_cut_with_a_pointer_to_the_full_files():
+    from rebalance.report.htmlparts import table_html
+
+    rows = [[f"p{i}", float(i)] for i in range(30)]
+    cut = table_html(["person", "cost"], rows, name="x", numeric=[False, True], limit=10)
+    assert cut.count("<tr>") == 11  # header and ten rows
+    assert "first 10 of 30 rows" in cut and "plan.xlsx" in cut
+    whole = table_html(["person", "cost"], rows, name="x", numeric=[False, True])
+    assert whole.count("<tr>") == 31 and "Showing" not in whole

@@ -146,7 +146,7 @@
   }
   function heat(box, d) {
     var R = d.offices.length, T = d.periods.length;
-    var lw = 170, cw = Math.max(52, Math.min(96, (900 - lw - 80) / T)), ch = 30, top = 26;
+    var lw = 170, cw = Math.max(52, Math.min(110, (900 - lw - 80) / T)), ch = 32, top = 26;
     var W = lw + T * cw + 80, H = top + (R + 1) * ch + 40;
     var g = svg(box, W, H), max = 0, marks = 0;
     d.cells.forEach(function (row) { row.forEach(function (c) { max = Math.max(max, c.shortfall); }); });

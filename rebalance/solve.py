@@ -228,6 +228,12 @@ _CBC_OBJECTIVE = re.compile(r"^Objective value:\s*(\S+)", re.M)
 _CBC_BOUND = re.compile(r"^Lower bound:\s*(\S+)", re.M)
 
 
+def _bundled_cbc() -> str:
+    from pulp.apis import coin_api
+
+    return str(coin_api.COIN_CMD.executableExtension(coin_api.pulp_cbc_path))
+
+
 class CbcBackend:
     name = "cbc"
 
@@ -245,10 +251,10 @@ class CbcBackend:
         prob = pulp.LpProblem("rebalance", pulp.LpMinimize)
         # Names from integer indices: PuLP merges names that differ only in punctuation.
         variables = [
-            pulp.LpVariable(
+            prob.add_variable(
                 f"x{j}",
-                lowBound=None if not math.isfinite(lo) else lo,
-                upBound=None if not math.isfinite(hi) else hi,
+                lowBound=None if not math.isfinite(lo) else float(lo),
+                upBound=None if not math.isfinite(hi) else float(hi),
                 cat=pulp.LpInteger if integer else pulp.LpContinuous,
             )
             for j, (lo, hi, integer) in enumerate(
@@ -279,12 +285,16 @@ class CbcBackend:
                                                      pulp.LpConstraintGE, rhs=float(lo_i)),
                                    name=f"l{i}")
         if start is not None:
+            start = np.clip(start, model.col_lower, model.col_upper)
+            start = np.where(model.is_integer, np.rint(start), start)
             for var, value in zip(variables, start, strict=True):
-                var.setInitialValue(float(round(value)) if var.cat == pulp.LpInteger
-                                    else float(value))
+                var.setInitialValue(float(value))
         with tempfile.TemporaryDirectory(prefix="rebalance-cbc-") as tmp:
             log_path = Path(tmp) / "cbc.log"
-            solver = pulp.PULP_CBC_CMD(
+            # The CBC binary bundled with PuLP, driven through COIN_CMD (PULP_CBC_CMD is
+            # deprecated in PuLP 3.3).
+            solver = pulp.COIN_CMD(
+                path=_bundled_cbc(),
                 msg=False,
                 timeLimit=max(1.0, time_limit),
                 gapRel=options.relative_gap,

@@ -12,12 +12,13 @@ from __future__ import annotations
 
 import math
 from collections import defaultdict
+from collections.abc import Callable, Hashable
 from dataclasses import dataclass, field
 
 import numpy as np
 import scipy.sparse as sp
 
-from rebalance.instance import Instance
+from rebalance.instance import Instance, Person
 
 __all__ = ["ColumnBlock", "Model", "RowFamily", "build_model", "group_units"]
 
@@ -178,13 +179,18 @@ class _Builder:
         )
 
 
-def group_units(instance: Instance, pooled: bool = True) -> tuple[tuple[int, ...], ...]:
+def group_units(instance: Instance, pooled: bool = True,
+                pool_key: Callable[[Person], Hashable] | None = None) -> tuple[
+                    tuple[int, ...], ...]:
     """Group interchangeable people into units (pools); each unit is a tuple of staff indices.
 
     People are interchangeable when they share home office, skills with proficiencies (in
     order: the first skill sets attrition), FTE, eligibility and leaving period.  People who
     may be relocated stay on their own: a reassignment changes one person's home, and the
     home in force decides where their details leave from.
+
+    ``pool_key`` adds a caller's key to the grouping (re-planning keeps people with different
+    histories apart, so fixing the past by group fixes it person by person).
     """
     if not pooled:
         return tuple((p,) for p in range(len(instance.staff)))
@@ -195,13 +201,14 @@ def group_units(instance: Instance, pooled: bool = True) -> tuple[tuple[int, ...
             singles.append((p,))
             continue
         key = (person.home_office, person.skills, person.fte, person.can_detail,
-               person.last_period)
+               person.last_period, None if pool_key is None else pool_key(person))
         groups.setdefault(key, []).append(p)
     units = [tuple(members) for members in groups.values()] + singles
     return tuple(sorted(units))
 
 
-def build_model(instance: Instance, pooled: bool = True) -> Model:
+def build_model(instance: Instance, pooled: bool = True,
+                pool_key: Callable[[Person], Hashable] | None = None) -> Model:
     """Build the model of ``instance`` (see ``docs/model.md``).
 
     With ``pooled`` (the default) interchangeable people share columns with integer counts;
@@ -218,7 +225,7 @@ def build_model(instance: Instance, pooled: bool = True) -> Model:
     o_ix = {name: i for i, name in enumerate(offices)}
     k_ix = {name: i for i, name in enumerate(skills)}
     year_of = [p.year for p in instance.periods]
-    units = group_units(instance, pooled)
+    units = group_units(instance, pooled, pool_key)
     rep = [instance.staff[members[0]] for members in units]  # a representative per unit
     size = np.asarray([len(members) for members in units], dtype=float)
 

@@ -8,13 +8,13 @@ from __future__ import annotations
 
 import json
 import time
-from collections.abc import Callable
+from collections.abc import Callable, Hashable
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
-from rebalance.instance import Instance
-from rebalance.model import build_model
+from rebalance.instance import Instance, Person
+from rebalance.model import Model, build_model
 from rebalance.plan import Plan, extract_plan, staged_folder, write_plan
 from rebalance.solve import SolveOptions, SolveResult, Status, solve
 from rebalance.verify import Violation, verify_plan
@@ -62,13 +62,19 @@ def options_from_instance(instance: Instance, **overrides: Any) -> SolveOptions:
     return replace(options, **given)
 
 
-def make_plan(instance: Instance, options: SolveOptions, pooled: bool = True) -> PlanResult:
+def make_plan(instance: Instance, options: SolveOptions, pooled: bool = True,
+              pool_key: Callable[[Person], Hashable] | None = None,
+              adjust: Callable[[Model], Model] | None = None) -> PlanResult:
     """Build, solve, extract and verify.  Never returns an unverified plan as good.
 
     ``pooled=False`` builds the person-level formulation (same optimum, larger model).
+    ``pool_key`` and ``adjust`` let analyses (re-planning) keep people with different
+    histories apart and fix or bound columns of the built model before it is solved.
     """
     started = time.perf_counter()
-    model = build_model(instance, pooled=pooled)
+    model = build_model(instance, pooled=pooled, pool_key=pool_key)
+    if adjust is not None:
+        model = adjust(model)
     build_seconds = time.perf_counter() - started
     if options.progress is not None:
         options.progress(f"model: {model.num_cols} columns ({model.num_integer} integer), "

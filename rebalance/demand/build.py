@@ -116,6 +116,10 @@ def build_demand(history: History, periods: tuple[Period, ...]) -> DemandResult:
             row[f"holdout_mase_{method}"] = value
         row["chosen"] = bt.chosen
         row["holdout_mase_chosen"] = bt.holdout_mase[bt.chosen]
+        # Below 1: the chosen method beat the old three-year average on the held-out year.
+        base = bt.holdout_mase["baseline"]
+        row["holdout_mase_ratio"] = (bt.holdout_mase[bt.chosen] / base
+                                     if np.isfinite(base) and base > 0 else float("nan"))
         row["beats_baseline"] = bt.beats_baseline
         backtest_rows.append(row)
         fc = forecast_series(y, bt.chosen, horizon, fc_cfg.seed)

@@ -1,0 +1,127 @@
+"""The verifier flags a deliberately broken plan for each rule, and passes a good one."""
+
+from __future__ import annotations
+
+import json
+from dataclasses import replace
+
+import pandas as pd
+import pytest
+from conftest import solve_verified
+
+from rebalance import verify_folder, verify_plan
+from rebalance.plan import Plan, cost_table, coverage_table
+from rebalance.planning import write_outputs
+
+
+@pytest.fixture(scope="module")
+def tiny_plan():
+    from rebalance import read_instance
+    from conftest import DATA
+
+    instance = read_instance(DATA / "tiny")
+    return instance, solve_verified(instance)
+
+
+def add_rows(frame: pd.DataFrame, *rows: dict) -> pd.DataFrame:
+    return pd.concat([frame, pd.DataFrame(list(rows))], ignore_index=True)
+
+
+def detail(person, period, frm, to, cost=5000.0):
+    return {"person": person, "period": period, "from_office": frm, "to_office": to,
+            "cost": cost}
+
+
+def hire(office, skill, start, count, funding, onboarding, salary):
+    return {"office": office, "skill": skill, "start_period": start, "count": count,
+            "funding": funding, "onboarding_cost": onboarding, "salary_cost": salary}
+
+
+def consistent(instance, plan: Plan, **tables) -> Plan:
+    """Replace tables and recompute coverage and costs, so only the intended rule breaks."""
+    plan = replace(plan, **tables)
+    plan = replace(plan, coverage=coverage_table(instance, plan.work, plan.hires))
+    return replace(plan, costs=cost_table(instance, plan.details, plan.reassignments,
+                                          plan.hires))
+
+
+BREAKS = {
+    # rule: how to break it (instance, plan) -> plan
+    "detail_allowed": lambda i, p: consistent(i, p, details=add_rows(
+        p.details, detail("a3", "2027-Q2", "A", "B"))),
+    "one_detail": lambda i, p: consistent(i, p, details=add_rows(
+        p.details, detail("a1", "2027-Q2", "A", "B"))),
+    "consecutive_details": lambda i, p: consistent(i, p, details=add_rows(
+        p.details, detail("a1", "2027-Q4", "A", "B"))),
+    "detail_present": lambda i, p: consistent(i, p, details=add_rows(
+        p.details, detail("b1", "2027-Q4", "B", "A"))),
+    "detail_from": lambda i, p: consistent(i, p, details=add_rows(
+        p.details, detail("a2", "2027-Q1", "B", "A"))),
+    "detail_to": lambda i, p: consistent(i, p, details=add_rows(
+        p.details, detail("a2", "2027-Q1", "A", "A", 0.0))),
+    "detail_cost": lambda i, p: consistent(i, p, details=p.details.assign(cost=1.0)),
+    "reassignment_allowed": lambda i, p: consistent(i, p, reassignments=add_rows(
+        p.reassignments, detail("a1", "2027-Q2", "A", "B", 20000.0))),
+    "one_reassignment": lambda i, p: consistent(i, p, reassignments=add_rows(
+        p.reassignments, detail("a2", "2027-Q1", "A", "B", 20000.0),
+        detail("a2", "2027-Q3", "A", "B", 20000.0))),
+    "reassignment_cost": lambda i, p: consistent(i, p, reassignments=add_rows(
+        p.reassignments, detail("a2", "2027-Q1", "A", "B", 1.0))),
+    "work_location": lambda i, p: consistent(i, p, work=p.work.assign(
+        office=p.work["office"].where(p.work["person"] != "b1", "A"))),
+    "work_skill": lambda i, p: consistent(i, p, work=p.work.assign(
+        skill=p.work["skill"].where(p.work["person"] != "a3", "review"))),
+    "work_capacity": lambda i, p: consistent(i, p, work=p.work.assign(
+        fte=p.work["fte"] * 2, output_fte=p.work["output_fte"] * 2)),
+    "work_output": lambda i, p: replace(p, work=p.work.assign(output_fte=p.work["fte"] * 1.5)),
+    "time_to_hire": lambda i, p: consistent(i, p, hires=add_rows(
+        p.hires, hire("A", "intake", "2027-Q1", 1, "new", 5000.0, 60000.0))),
+    "max_hires": lambda i, p: consistent(i, p, hires=add_rows(
+        p.hires, hire("B", "intake", "2027-Q4", 1, "new", 5000.0, 15000.0))),
+    "vacancies": lambda i, p: consistent(i, p, hires=add_rows(
+        p.hires, hire("A", "intake", "2027-Q2", 1, "vacancy", 5000.0, 0.0))),
+    "hire_cost": lambda i, p: consistent(i, p, hires=p.hires.assign(onboarding_cost=1.0)),
+    "coverage_shortfall": lambda i, p: replace(p, coverage=p.coverage.assign(shortfall_fte=0.3)),
+    "away_share": lambda i, p: consistent(i, p, details=add_rows(
+        p.details, detail("a2", "2027-Q2", "A", "B"))),
+    "seats": lambda i, p: consistent(i, p, hires=add_rows(
+        p.hires, hire("B", "review", "2027-Q2", 6, "new", 48000.0, 360000.0))),
+    "hiring_budget": lambda i, p: consistent(i, p, hires=add_rows(
+        p.hires, hire("A", "review", "2027-Q2", 1, "new", 8000.0, 60000.0))),
+    "moves_budget": lambda i, p: consistent(i, p, details=add_rows(
+        p.details, detail("a2", "2027-Q1", "A", "B"), detail("a1", "2027-Q1", "A", "B"),
+        detail("b1", "2027-Q1", "B", "A"), detail("b1", "2027-Q2", "B", "A"))),
+    "costs": lambda i, p: replace(p, costs=p.costs.assign(cost=p.costs["cost"] + 1.0)),
+}
+
+
+def test_good_plan_passes(tiny_plan):
+    instance, result = tiny_plan
+    assert verify_plan(instance, result.plan) == []
+
+
+@pytest.mark.parametrize("rule", sorted(BREAKS))
+def test_broken_plan_is_flagged(tiny_plan, rule):
+    instance, result = tiny_plan
+    broken = BREAKS[rule](instance, result.plan)
+    rules = {v.rule for v in verify_plan(instance, broken)}
+    assert rule in rules, rules
+
+
+def test_unknown_names_are_flagged(tiny_plan):
+    instance, result = tiny_plan
+    broken = replace(result.plan, details=add_rows(result.plan.details,
+                                                   detail("nobody", "2027-Q1", "A", "B")))
+    assert {v.rule for v in verify_plan(instance, broken)} == {"unknown_reference"}
+
+
+def test_folder_summary_totals_are_checked(tiny_plan, tmp_path):
+    instance, result = tiny_plan
+    write_outputs(result, tmp_path / "plan")
+    assert verify_folder(instance, tmp_path / "plan") == []
+    summary = json.loads((tmp_path / "plan" / "summary.json").read_text())
+    summary["total_cost"] += 1000
+    (tmp_path / "plan" / "summary.json").write_text(json.dumps(summary))
+    assert [v.rule for v in verify_folder(instance, tmp_path / "plan")] == ["summary"]
+    (tmp_path / "plan" / "work.csv").unlink()
+    assert [v.rule for v in verify_folder(instance, tmp_path / "plan")] == ["missing_table"]

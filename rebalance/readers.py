@@ -264,7 +264,7 @@ def _table_name(label: str) -> str:
     return label.removesuffix(".csv")
 
 
-SKILL_TOKEN = re.compile(r"^([^:\s]+)(?::([^:\s]+))?$")
+SKILL_TOKEN = re.compile(r"^([A-Za-z0-9_.\-]+)(?::([^:\s]+))?$")
 
 
 # --------------------------------------------------------------------------------------------
@@ -418,7 +418,10 @@ def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, 
     attrition = _read_attrition(tables.get("attrition"), problems, offices, skills)
     budgets = _read_budgets(table("budget"), problems, periods)
 
-    # Warnings that do not stop a solve.
+    # Warnings that do not stop a solve (only worth saying once the tables themselves are sound).
+    if any(not p.is_warning for p in problems):
+        raise InstanceError([p for p in problems if not p.is_warning]
+                            + [p for p in problems if p.is_warning])
     staffed_skills = {s for p in staff for s, _ in p.skills}
     warned: set[str] = set()
     for d in demand:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
 
 from rebalance.instance import Instance
@@ -58,7 +59,8 @@ def format_summary(result: PlanResult) -> str:
                  f"build {result.build_seconds:.2f}s, solve {s.solve_seconds:.2f}s"
                  + (f", gap {gap:.4%}" if gap is not None else ""))
     for stage in s.stages:
-        bound = "-" if stage.bound is None else f"{stage.bound:,.6g}"
+        bound = "-" if stage.bound is None or not math.isfinite(stage.bound) else (
+            f"{stage.bound:,.6g}")
         objective = "-" if stage.objective is None else f"{stage.objective:,.6g}"
         lines.append(f"  stage {stage.name}: {stage.status.value}, objective {objective}, "
                      f"bound {bound}, {stage.seconds:.2f}s ({stage.solver_words})")

@@ -1,0 +1,79 @@
+"""The command line end to end, as a user runs it, with its documented exit codes."""
+
+from __future__ import annotations
+
+import json
+import shutil
+import subprocess
+import sys
+
+import pandas as pd
+from conftest import DATA, ROOT
+
+from rebalance.cli import (
+    EXIT_INFEASIBLE,
+    EXIT_NO_PLAN_IN_TIME,
+    EXIT_OK,
+    EXIT_VERIFICATION_FAILED,
+    main,
+)
+
+
+def run(*args: str) -> subprocess.CompletedProcess[str]:
+    return subprocess.run([sys.executable, "-m", "rebalance.cli", *args], capture_output=True,
+                          text=True, cwd=ROOT, timeout=300)
+
+
+def test_plan_then_verify(tmp_path):
+    out = tmp_path / "plan"
+    done = run("plan", str(DATA / "tiny"), "-o", str(out))
+    assert done.returncode == EXIT_OK, done.stderr
+    assert "optimal" in done.stdout and "independent verification: passed" in done.stdout
+    assert "Caution" in done.stdout
+    for name in ("details", "reassignments", "hires", "work", "coverage", "costs"):
+        assert (out / f"{name}.csv").exists()
+    summary = json.loads((out / "summary.json").read_text())
+    assert summary["status"] == "optimal" and summary["verification"]["passed"]
+    assert summary["solver"] == "highs" and summary["solver_version"].startswith("HiGHS")
+    assert run("verify", str(DATA / "tiny"), str(out)).returncode == EXIT_OK
+
+    details = pd.read_csv(out / "details.csv")
+    details.loc[0, "to_office"] = details.loc[0, "from_office"]
+    details.to_csv(out / "details.csv", index=False)
+    broken = run("verify", str(DATA / "tiny"), str(out))
+    assert broken.returncode == EXIT_VERIFICATION_FAILED
+    assert "detail_to" in broken.stdout
+
+
+def test_check_prints_a_summary(capsys):
+    assert main(["check", str(DATA / "tiny")]) == EXIT_OK
+    assert "4 staff" in capsys.readouterr().out
+
+
+def test_infeasible_limits_are_named(tmp_path, capsys):
+    instance = tmp_path / "crowded"
+    shutil.copytree(DATA / "tiny", instance)
+    (instance / "offices.csv").write_text(
+        "office,location,seats,max_hires_per_period\nA,Alder,1,1\nB,Birch,6,1\n")
+    (instance / "settings.toml").write_text(
+        (DATA / "tiny" / "settings.toml").read_text().replace("max_away_share = 0.5",
+                                                              "max_away_share = 0.34"))
+    code = main(["plan", str(instance), "-o", str(tmp_path / "out"), "-q"])
+    out = capsys.readouterr().out
+    assert code == EXIT_INFEASIBLE
+    # One seat for three people at A needs two of them away, but at most 0.34 x 3 may be.
+    assert "limits in conflict" in out
+    assert "seats: A in 2027-" in out or "away share: A in 2027-" in out
+    assert not (tmp_path / "out").exists()
+
+
+def test_no_plan_in_time_keeps_the_old_plan(tmp_path, capsys):
+    out = tmp_path / "out"
+    out.mkdir()
+    (out / "keep.txt").write_text("an earlier plan")
+    code = main(["plan", str(ROOT / "instances" / "demo"), "-o", str(out), "-q",
+                 "--time-limit", "0.05"])
+    assert code in (EXIT_NO_PLAN_IN_TIME, EXIT_OK)
+    if code == EXIT_NO_PLAN_IN_TIME:
+        assert "no plan found within the time limit" in capsys.readouterr().out
+        assert (out / "keep.txt").read_text() == "an earlier plan"

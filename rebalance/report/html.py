@@ -39,7 +39,7 @@ __all__ = ["render_html", "write_html"]
 TABLE_ROWS = 500
 STATUS_WORDS = {
     "optimal": ("best within the set gap", "good"),
-    "feasible_with_gap": ("good plan, not proven best", "fair"),
+    "feasible_with_gap": ("plan found, not proven best", "fair"),
     "infeasible": ("no plan: limits conflict", "bad"),
     "no_plan_in_time": ("no plan in time", "bad"),
     "error": ("solver error", "bad"),

@@ -19,7 +19,13 @@ import numpy as np
 import pandas as pd
 
 from rebalance.demand.forecast import SEASON, backtest_series, forecast_series
-from rebalance.demand.history import History, HistoryError, month_name, read_history
+from rebalance.demand.history import (
+    History,
+    HistoryError,
+    month_name,
+    period_name,
+    read_history,
+)
 from rebalance.demand.quality import QualityResult, check_quality
 from rebalance.demand.standards import EffortStandards, estimate_standards, forecast_noncase
 from rebalance.instance import Period
@@ -51,6 +57,7 @@ class DemandResult:
     noncase: pd.DataFrame
     quality: QualityResult
     periods: tuple[Period, ...]
+    period_kind: str = "month"  # of the time records' reporting periods
 
 
 def _instance_context(folder: Path, problems: list[Problem]) -> tuple[
@@ -148,7 +155,7 @@ def build_demand(history: History, periods: tuple[Period, ...]) -> DemandResult:
                                                      "volume", "lower", "upper",
                                                      "adjustment_factor"])
     return DemandResult(demand.reset_index(drop=True), trace, pd.DataFrame(backtest_rows),
-                        forecasts, standards, noncase, quality, periods)
+                        forecasts, standards, noncase, quality, periods, history.period_kind)
 
 
 def _adjustment_factors(history: History, months: list[int]) -> dict[tuple[str, str, int],
@@ -279,12 +286,16 @@ def write_demand(result: DemandResult, instance_dir: str | Path,
             result.noncase.assign(month=result.noncase["month"].map(month_name)).to_csv(
                 tmp / "noncase_forecast.csv", index=False, float_format="%.3f")
             q.summary.to_csv(tmp / "qc_summary.csv", index=False, float_format="%.2f")
-            q.compliance.assign(month=q.compliance["month"].map(month_name)).to_csv(
-                tmp / "qc_compliance.csv", index=False, float_format="%.4f")
+            kind = result.period_kind
+
+            def named(frame: pd.DataFrame) -> pd.DataFrame:
+                return frame.assign(period=[period_name(kind, int(p)) for p in frame["period"]])
+
+            named(q.compliance).to_csv(tmp / "qc_compliance.csv", index=False,
+                                       float_format="%.4f")
             flagged = q.records[q.records["check"] != ""]
-            flagged.assign(period=flagged["month"].map(month_name)).drop(
-                columns=["month"]).to_csv(tmp / "qc_flagged_records.csv", index=False,
-                                          float_format="%.3f")
+            named(flagged).drop(columns=["month"]).to_csv(
+                tmp / "qc_flagged_records.csv", index=False, float_format="%.3f")
             q.coverage.to_csv(tmp / "qc_coverage.csv", index=False, float_format="%.4f")
             (tmp / "qc_verdict.txt").write_text(q.verdict + "\n", encoding="utf-8")
     except BaseException:

@@ -9,6 +9,7 @@ timesheets) are not errors here: :mod:`rebalance.demand.quality` finds, excludes
 
 from __future__ import annotations
 
+import datetime
 import math
 import re
 import tomllib
@@ -27,7 +28,9 @@ __all__ = [
     "HistoryError",
     "month_index",
     "month_name",
+    "period_name",
     "read_history",
+    "reporting_period",
 ]
 
 TABLES: dict[str, tuple[tuple[str, ...], tuple[str, ...], bool]] = {
@@ -41,6 +44,8 @@ TABLES: dict[str, tuple[tuple[str, ...], tuple[str, ...], bool]] = {
 }
 ACTIVITY_KINDS = ("case", "non_case")
 MONTH = re.compile(r"^(\d{4})-(\d{2})$")
+WEEK = re.compile(r"^(\d{4})-W(\d{2})$")
+PERIODS_PER_YEAR = {"month": 12, "week": 52}
 
 
 class HistoryError(InstanceError):
@@ -57,6 +62,35 @@ def month_index(name: str) -> int | None:
 
 def month_name(index: int) -> str:
     return f"{index // 12:04d}-{index % 12 + 1:02d}"
+
+
+def reporting_period(name: str) -> tuple[str, int, int] | None:
+    """A reporting period -> (kind, index, month index); None if it is neither form.
+
+    ``YYYY-MM`` is a monthly pay period (index = month index).  ``YYYY-Www`` is an ISO week:
+    index counts weeks (Monday's ordinal // 7) and the week belongs to the month of its
+    Thursday, the ISO rule that also decides a week's year.
+    """
+    month = month_index(name)
+    if month is not None:
+        return "month", month, month
+    match = WEEK.match(name)
+    if match is None:
+        return None
+    try:
+        monday = datetime.date.fromisocalendar(int(match.group(1)), int(match.group(2)), 1)
+    except ValueError:
+        return None
+    thursday = monday + datetime.timedelta(days=3)
+    return "week", (monday.toordinal() - 1) // 7, thursday.year * 12 + thursday.month - 1
+
+
+def period_name(kind: str, index: int) -> str:
+    """Inverse of :func:`reporting_period` for its index."""
+    if kind == "month":
+        return month_name(index)
+    year, week, _ = datetime.date.fromordinal(index * 7 + 1).isocalendar()
+    return f"{year:04d}-W{week:02d}"
 
 
 @dataclass(frozen=True)
@@ -104,8 +138,9 @@ class History:
     """Validated workload history.  Months are whole numbers (see :func:`month_index`).
 
     ``arrivals``: office, case_type, month, count (every month of every series present).
-    ``records``: row, person, month, office, skill, activity, hours (``row`` is the CSV row).
-    ``expected``: person, month, expected_hours.
+    ``records``: row, person, period, month, office, skill, activity, hours (``row`` is the
+    CSV row; ``period`` the reporting period's index, ``month`` the month it belongs to).
+    ``expected``: person, period, expected_hours.  ``period_kind``: "month" or "week".
     ``adjustments``: office, case_type (None = every type), first_month, last_month, factor.
     """
 
@@ -115,6 +150,12 @@ class History:
     activities: Mapping[str, str]
     adjustments: pd.DataFrame
     settings: DemandSettings
+    period_kind: str = "month"
+
+    @property
+    def periods_per_year(self) -> int:
+        """Reporting periods in a year: the lag of "the same period a year earlier"."""
+        return PERIODS_PER_YEAR[self.period_kind]
 
     @property
     def case_types(self) -> tuple[str, ...]:
@@ -176,6 +217,25 @@ class _Cells:
             self.error(column, f"'{value}' is not a month; expected YYYY-MM, e.g. 2026-03")
         return index
 
+    def period(self, row: Mapping[str, str], column: str, kinds: dict[str, str]
+               ) -> tuple[int, int] | None:
+        """(index, month) of a reporting period; all rows of all tables share one kind."""
+        value = self.text(row, column)
+        if value is None:
+            return None
+        parsed = reporting_period(value)
+        if parsed is None:
+            self.error(column, f"'{value}' is not a reporting period; expected a month YYYY-MM "
+                       "(e.g. 2026-03) or an ISO week YYYY-Www (e.g. 2026-W09)")
+            return None
+        kind, index, month = parsed
+        first = kinds.setdefault("kind", kind)
+        if kind != first:
+            self.error(column, f"'{value}' is a {kind} but earlier rows use {first}s; expected "
+                       "one kind of reporting period throughout")
+            return None
+        return index, month
+
     def number(self, row: Mapping[str, str], column: str, *, minimum: float | None = 0.0,
                integer: bool = False, open_minimum: bool = False) -> float | None:
         raw = row.get(column, "")
@@ -221,13 +281,15 @@ def read_history(folder: str | Path, offices: set[str], skills: set[str]) -> His
     have_activities = bool(activities) or "activities" not in tables
     arrivals = _read_arrivals(tables["case_arrivals"], problems, offices,
                               case_types if have_activities else None)
-    records = _read_records(tables["time_records"], problems, offices, skills)
-    expected = _read_expected(tables["expected_hours"], problems)
+    kinds: dict[str, str] = {}
+    records = _read_records(tables["time_records"], problems, offices, skills, kinds)
+    expected = _read_expected(tables["expected_hours"], problems, kinds)
     adjustments = _read_adjustments(tables.get("adjustments"), problems, offices, case_types)
     errors = [p for p in problems if not p.is_warning]
     if errors:
         raise HistoryError(errors + [p for p in problems if p.is_warning])
-    return History(arrivals, records, expected, activities, adjustments, settings)
+    return History(arrivals, records, expected, activities, adjustments, settings,
+                   kinds.get("kind", "month"))
 
 
 def _read_settings(file: Path, skills: set[str], problems: list[Problem]) -> DemandSettings:
@@ -335,44 +397,48 @@ def _read_arrivals(table: RawTable, problems: list[Problem], offices: set[str],
 
 
 def _read_records(table: RawTable, problems: list[Problem], offices: set[str],
-                  skills: set[str]) -> pd.DataFrame:
+                  skills: set[str], kinds: dict[str, str]) -> pd.DataFrame:
     cells = _Cells(table, "time_records", problems)
-    rows: list[tuple[int, str, int, str, str, str, float]] = []
+    rows: list[tuple[int, str, int, int, str, str, str, float]] = []
     for row in cells:
         person = cells.text(row, "person")
-        month = cells.month(row, "period")
+        period = cells.period(row, "period", kinds)
         office = cells.choice(row, "office", offices, "one listed in the instance's offices.csv")
         skill = cells.choice(row, "skill", skills, "one listed in the instance's skills.csv")
         activity = cells.text(row, "activity")
         # Any number is accepted here: hours out of plausible bounds are a quality finding.
         hours = cells.number(row, "hours", minimum=None)
-        if None in (person, month, office, skill, activity, hours):
+        if person is None or period is None or office is None or skill is None:
             continue
-        rows.append((cells.row_number, person, month, office, skill, activity,  # type: ignore[arg-type]
-                     float(hours)))  # type: ignore[arg-type]
+        if activity is None or hours is None:
+            continue
+        rows.append((cells.row_number, person, period[0], period[1], office, skill, activity,
+                     float(hours)))
     if cells.columns_ok and not rows and not any(p.file == table.label for p in problems):
         problems.append(Problem(table.label, None, None, "has no rows; expected time records"))
-    return pd.DataFrame(rows, columns=["row", "person", "month", "office", "skill", "activity",
-                                       "hours"])
+    return pd.DataFrame(rows, columns=["row", "person", "period", "month", "office", "skill",
+                                       "activity", "hours"])
 
 
-def _read_expected(table: RawTable, problems: list[Problem]) -> pd.DataFrame:
+def _read_expected(table: RawTable, problems: list[Problem], kinds: dict[str, str]
+                   ) -> pd.DataFrame:
     cells = _Cells(table, "expected_hours", problems)
     rows: list[tuple[str, int, float]] = []
     seen: dict[tuple[str, int], int] = {}
     for row in cells:
         person = cells.text(row, "person")
-        month = cells.month(row, "period")
+        period = cells.period(row, "period", kinds)
         hours = cells.number(row, "expected_hours")
-        if person is None or month is None or hours is None:
+        if person is None or period is None or hours is None:
             continue
-        if (person, month) in seen:
-            cells.error(None, f"expected hours for '{person}' in {month_name(month)} are listed "
-                        f"twice (first at row {seen[(person, month)]})")
+        key = (person, period[0])
+        if key in seen:
+            cells.error(None, f"expected hours for '{person}' in {row['period']} are listed "
+                        f"twice (first at row {seen[key]})")
             continue
-        seen[(person, month)] = cells.row_number
-        rows.append((person, month, hours))
-    return pd.DataFrame(rows, columns=["person", "month", "expected_hours"])
+        seen[key] = cells.row_number
+        rows.append((person, period[0], hours))
+    return pd.DataFrame(rows, columns=["person", "period", "expected_hours"])
 
 
 def _read_adjustments(table: RawTable | None, problems: list[Problem], offices: set[str],

@@ -10,8 +10,8 @@ Checks (each record can fail several; the first in this order is its ``check``):
     the same person, period, office, skill and activity appear more than once.
 ``anomaly``
     the hours differ from the person's own recent history on that activity by a robust score
-    above the threshold (see :func:`robust_scores`) and, when the person has a value twelve
-    periods earlier, from that value too.
+    above the threshold (see :func:`robust_scores`) and, when the person has a value a year
+    earlier (12 monthly or 52 weekly periods), from that value too.
 ``incomplete``
     the person's total for the period is outside ``expected x (1 +- tolerance)``, or no
     expected hours are given for that person and period.
@@ -44,8 +44,8 @@ class QualityResult:
     ``records``: the time records with ``check`` (first failed check, "" if none), ``checks``
     (all failed, space-separated), ``score`` (robust anomaly score, NaN if not scored) and
     ``excluded`` (its timesheet failed).
-    ``timesheets``: person, month, office, reported_hours, expected_hours, complete, excluded.
-    ``compliance``: month, people, complete, share_complete.
+    ``timesheets``: person, period, office, reported_hours, expected_hours, complete, excluded.
+    ``compliance``: period, people, complete, share_complete.
     ``summary``: check, records, hours (records failing each check, first check only), plus
     rows ``excluded_with_timesheet`` and ``kept``.
     ``coverage``: office, expected_hours_all, expected_hours_kept, coverage_factor.
@@ -84,24 +84,24 @@ def check_quality(history: History) -> QualityResult:
     fails["hours_out_of_bounds"] = ((rec["hours"] < 0) | (rec["hours"] > q.max_record_hours)
                                     ).to_numpy()
     fails["unknown_activity"] = (~rec["activity"].isin(list(history.activities))).to_numpy()
-    key = ["person", "month", "office", "skill", "activity"]
+    key = ["person", "period", "office", "skill", "activity"]
     fails["duplicate"] = rec.duplicated(key, keep=False).to_numpy()
-    scores = _anomaly_scores(rec, ~fails["hours_out_of_bounds"], q)
+    scores = _anomaly_scores(rec, ~fails["hours_out_of_bounds"], q, history.periods_per_year)
     rec["score"] = scores
     fails["anomaly"] = np.nan_to_num(np.abs(scores)) > q.anomaly_threshold
     sheets = _timesheets(rec, history.expected, q)
-    incomplete = sheets.loc[~sheets["complete"], ["person", "month"]]
-    marks = rec.merge(incomplete.assign(_inc=True), on=["person", "month"], how="left")["_inc"]
+    incomplete = sheets.loc[~sheets["complete"], ["person", "period"]]
+    marks = rec.merge(incomplete.assign(_inc=True), on=["person", "period"], how="left")["_inc"]
     fails["incomplete"] = marks.fillna(False).to_numpy(dtype=bool)
 
     failed = np.column_stack([fails[c] for c in CHECKS])
     names = np.array(CHECKS)
     rec["checks"] = [" ".join(names[row]) for row in failed]
     rec["check"] = [names[row][0] if row.any() else "" for row in failed]
-    bad_sheets = rec.loc[rec["check"] != "", ["person", "month"]].drop_duplicates()
-    sheets = sheets.merge(bad_sheets.assign(excluded=True), on=["person", "month"], how="left")
+    bad_sheets = rec.loc[rec["check"] != "", ["person", "period"]].drop_duplicates()
+    sheets = sheets.merge(bad_sheets.assign(excluded=True), on=["person", "period"], how="left")
     sheets["excluded"] = sheets["excluded"].fillna(False).astype(bool) | ~sheets["complete"]
-    rec = rec.merge(sheets[["person", "month", "excluded"]], on=["person", "month"], how="left")
+    rec = rec.merge(sheets[["person", "period", "excluded"]], on=["person", "period"], how="left")
     rec["excluded"] = rec["excluded"].fillna(True).astype(bool)
 
     summary_rows = []
@@ -115,7 +115,7 @@ def check_quality(history: History) -> QualityResult:
                          float(rec.loc[~rec["excluded"], "hours"].sum())))
     summary = pd.DataFrame(summary_rows, columns=["check", "records", "hours"])
 
-    compliance = (sheets[sheets["expected_hours"].notna()].groupby("month")
+    compliance = (sheets[sheets["expected_hours"].notna()].groupby("period")
                   .agg(people=("person", "nunique"), complete=("complete", "sum"))
                   .reset_index())
     compliance["share_complete"] = compliance["complete"] / compliance["people"]
@@ -124,21 +124,22 @@ def check_quality(history: History) -> QualityResult:
     return QualityResult(rec, sheets, compliance, summary, coverage, verdict)
 
 
-def _anomaly_scores(rec: pd.DataFrame, usable: np.ndarray, q: QualitySettings) -> np.ndarray:
+def _anomaly_scores(rec: pd.DataFrame, usable: np.ndarray, q: QualitySettings,
+                    lag: int) -> np.ndarray:
     """Score each record against the person's previous periods and the period a year earlier."""
     data = rec[usable]
-    months = np.sort(data["month"].unique())
-    if len(months) == 0:
+    periods = np.sort(data["period"].unique())
+    if len(periods) == 0:
         return np.full(len(rec), np.nan)
-    col = {m: i for i, m in enumerate(months)}
-    hours = data.groupby(["person", "activity", "month"])["hours"].sum().unstack("month")
-    hours = hours.reindex(columns=months)
-    active = data.groupby(["person", "month"]).size().unstack("month").reindex(columns=months)
+    col = {m: i for i, m in enumerate(periods)}
+    hours = data.groupby(["person", "activity", "period"])["hours"].sum().unstack("period")
+    hours = hours.reindex(columns=periods)
+    active = data.groupby(["person", "period"]).size().unstack("period").reindex(columns=periods)
     present = active.reindex(hours.index.get_level_values("person")).notna().to_numpy()
     # A period the person reported in but did not book this activity counts as 0 hours.
     grid = np.where(present, np.nan_to_num(hours.to_numpy()), np.nan)
     score_grid = np.full(grid.shape, np.nan)
-    for j, month in enumerate(months):
+    for j, period in enumerate(periods):
         lo = max(0, j - q.anomaly_window)
         ref = grid[:, lo:j]
         enough = ((np.sum(~np.isnan(ref), axis=1) >= q.anomaly_min_reference)
@@ -147,37 +148,37 @@ def _anomaly_scores(rec: pd.DataFrame, usable: np.ndarray, q: QualitySettings) -
             continue
         x = grid[enough, j]
         ref = ref[enough]
-        # Hours on one activity swing with that month's cases, so the scale has a floor.
+        # Hours on one activity swing with that period's cases, so the scale has a floor.
         floor = np.maximum(q.anomaly_floor_share * np.abs(np.nanmedian(ref, axis=1)), 1.0)
         score, median, scale = robust_scores(x, ref, floor)
         # Small absolute changes are not worth a flag, whatever the score.
         score = np.where(np.abs(x - median) >= q.anomaly_min_hours, score, 0.0)
-        if month - 12 in col:
+        if period - lag in col:
             # Seasonal work: flag only what is also unusual against a year earlier, so the
             # score is the smaller of the two (same scale) wherever that value exists.
-            earlier = grid[enough, col[month - 12]]
+            earlier = grid[enough, col[period - lag]]
             year_score = (x - earlier) / scale
             smaller = np.minimum(np.abs(score), np.abs(year_score))
             score = np.where(np.isnan(earlier), score, np.sign(score) * smaller)
         score_grid[np.flatnonzero(enough), j] = score
-    lookup = pd.DataFrame(score_grid, index=hours.index, columns=months).stack()
+    lookup = pd.DataFrame(score_grid, index=hours.index, columns=periods).stack()
     lookup = lookup.reset_index()
-    lookup.columns = ["person", "activity", "month", "score"]
-    keyed = rec[["person", "activity", "month"]].merge(
-        lookup, on=["person", "activity", "month"], how="left")
+    lookup.columns = ["person", "activity", "period", "score"]
+    keyed = rec[["person", "activity", "period"]].merge(
+        lookup, on=["person", "activity", "period"], how="left")
     out = keyed["score"].to_numpy(dtype=float, copy=True)
     out[~usable] = np.nan
     return out
 
 
 def _timesheets(rec: pd.DataFrame, expected: pd.DataFrame, q: QualitySettings) -> pd.DataFrame:
-    by_office = rec.groupby(["person", "month", "office"])["hours"].sum().reset_index()
+    by_office = rec.groupby(["person", "period", "office"])["hours"].sum().reset_index()
     # The timesheet's office is where most of its hours were booked.
     main = (by_office.sort_values("hours", ascending=False)
-            .drop_duplicates(["person", "month"])[["person", "month", "office"]])
-    reported = rec.groupby(["person", "month"])["hours"].sum().rename("reported_hours")
-    sheets = (expected.merge(reported.reset_index(), on=["person", "month"], how="outer")
-              .merge(main, on=["person", "month"], how="left"))
+            .drop_duplicates(["person", "period"])[["person", "period", "office"]])
+    reported = rec.groupby(["person", "period"])["hours"].sum().rename("reported_hours")
+    sheets = (expected.merge(reported.reset_index(), on=["person", "period"], how="outer")
+              .merge(main, on=["person", "period"], how="left"))
     home = (rec.groupby("person")["office"].agg(lambda s: s.mode().iloc[0]))
     sheets["office"] = sheets["office"].fillna(sheets["person"].map(home))
     sheets["reported_hours"] = sheets["reported_hours"].fillna(0.0)
@@ -185,7 +186,7 @@ def _timesheets(rec: pd.DataFrame, expected: pd.DataFrame, q: QualitySettings) -
     sheets["complete"] = (exp.notna()
                           & (sheets["reported_hours"] >= exp * (1 - q.completeness_tolerance))
                           & (sheets["reported_hours"] <= exp * (1 + q.completeness_tolerance)))
-    return sheets.sort_values(["person", "month"]).reset_index(drop=True)
+    return sheets.sort_values(["person", "period"]).reset_index(drop=True)
 
 
 def _coverage(sheets: pd.DataFrame) -> pd.DataFrame:

@@ -52,8 +52,8 @@ def test_each_planted_defect_is_caught(quality) -> None:  # type: ignore[no-unty
     assert len(planted) >= 10
     for defect in planted:
         month = month_index(defect.period)
-        mine = rec[(rec["person"] == defect.person) & (rec["month"] == month)]
-        sheet = sheets[(sheets["person"] == defect.person) & (sheets["month"] == month)]
+        mine = rec[(rec["person"] == defect.person) & (rec["period"] == month)]
+        sheet = sheets[(sheets["person"] == defect.person) & (sheets["period"] == month)]
         assert bool(sheet["excluded"].all()), defect
         if defect.kind == "missing_timesheet":
             assert mine.empty and not bool(sheet["complete"].iloc[0]), defect
@@ -71,12 +71,12 @@ def test_no_clean_record_is_flagged(quality) -> None:  # type: ignore[no-untyped
     rec = result.records
     touched = {(d.person, month_index(d.period)) for d in planted}
     flagged = rec[rec["check"] != ""]
-    stray = flagged[[(p, m) not in touched for p, m in zip(flagged["person"], flagged["month"],
+    stray = flagged[[(p, m) not in touched for p, m in zip(flagged["person"], flagged["period"],
                                                           strict=True)]]
     assert stray.empty, stray
     # Only defective timesheets are excluded, and every record is accounted for.
     excluded = rec[rec["excluded"]]
-    assert {(p, m) for p, m in zip(excluded["person"], excluded["month"], strict=True)} <= touched
+    assert {(p, m) for p, m in zip(excluded["person"], excluded["period"], strict=True)} <= touched
     summary = result.summary.set_index("check")
     assert int(summary["records"].sum()) == len(rec)
     assert int(summary.loc["kept", "records"]) == int((~rec["excluded"]).sum())

@@ -29,9 +29,9 @@ def _history(k: float = 200.0, seed: int = 0) -> History:
             month = START + i
             arrivals.append((office, "permit", month, n))
             case_hours = n * hours_per_case[office]
-            records.append((len(records) + 2, f"{office}-1", month, office, "review",
+            records.append((len(records) + 2, f"{office}-1", month, month, office, "review",
                             "permit", case_hours))
-            records.append((len(records) + 2, f"{office}-1", month, office, "review",
+            records.append((len(records) + 2, f"{office}-1", month, month, office, "review",
                             "training", 10.0 + 2.0 * i))
             expected.append((f"{office}-1", month, case_hours + 10.0 + 2.0 * i))
     # One person books a whole office here, so the per-record bound is lifted.
@@ -40,9 +40,9 @@ def _history(k: float = 200.0, seed: int = 0) -> History:
                                                          bootstrap_samples=300, seed=seed))
     return History(
         arrivals=pd.DataFrame(arrivals, columns=["office", "case_type", "month", "count"]),
-        records=pd.DataFrame(records, columns=["row", "person", "month", "office", "skill",
-                                               "activity", "hours"]),
-        expected=pd.DataFrame(expected, columns=["person", "month", "expected_hours"]),
+        records=pd.DataFrame(records, columns=["row", "person", "period", "month", "office",
+                                               "skill", "activity", "hours"]),
+        expected=pd.DataFrame(expected, columns=["person", "period", "expected_hours"]),
         activities={"permit": "case", "training": "non_case"},
         adjustments=pd.DataFrame(columns=["office", "case_type", "first_month", "last_month",
                                           "factor", "note"]),

@@ -321,8 +321,7 @@ def render_html(data: ReportData) -> str:
             ["office", "skill", "start", "count", "funding", "onboarding cost",
              "new salary to horizon end"], hires, name="hires",
             numeric=[False, False, False, True, False, True, True], limit=TABLE_ROWS) if hires
-            else
-            '<p class="quiet">No hires in this plan.</p>')))
+            else "")))  # the chart already says there are none
     cost_rows = [[r["year"], r["kind"], _m(r["spend"]),
                   (r["cap"], money(r["cap"])) if r["cap"] is not None else (1e300, "no cap"),
                   (r["spend"] / r["cap"], f"{r['spend'] / r['cap']:.0%}") if r["cap"] else

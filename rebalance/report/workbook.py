@@ -10,7 +10,6 @@ from __future__ import annotations
 import datetime as dt
 import math
 import os
-import tempfile
 from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
@@ -76,13 +75,13 @@ def write_workbook(data: ReportData, path: str | Path) -> Path:
     for name, frame in sheets:
         _table_sheet(wb.create_sheet(name), frame)
     target.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".xlsx", dir=target.parent)
-    os.close(fd)
+    # A plain file beside the target (not mkstemp, whose 0600 mode would stick to plan.xlsx).
+    tmp = target.with_name(f".{target.name}.tmp")
     try:
         wb.save(tmp)
         os.replace(tmp, target)
     except BaseException:
-        Path(tmp).unlink(missing_ok=True)
+        tmp.unlink(missing_ok=True)
         raise
     return target
 

@@ -44,7 +44,7 @@
   }
   function tick(v) {
     if (Math.abs(v) >= 1e4) { return fmt(v); }
-    return String(Math.round(v * 100) / 100);
+    return (Math.round(v * 100) / 100).toLocaleString("en");
   }
   function ticks(max, count, whole) {
     if (!(max > 0)) { return [0, 1]; }
@@ -319,8 +319,8 @@
         el("line", { x1: cx, x2: cx, y1: yy + 1, y2: yy + 27, stroke: C.ink, "stroke-width": 2.5,
           "data-tip": r.year + " " + r.kind + " cap: " + Math.round(r.cap).toLocaleString("en") }, g);
       }
-      var words = fmt(r.spend) + (r.cap === null ? " spent, no cap" :
-        " of " + fmt(r.cap) + " (" + Math.round(100 * r.spend / (r.cap || 1)) + "% used)");
+      var words = tick(r.spend) + (r.cap === null ? " spent, no cap" :
+        " of " + tick(r.cap) + " (" + Math.round(100 * r.spend / (r.cap || 1)) + "% used)");
       label(g, lw + bw + 14, yy + 18, words, over ? { style: "fill:" + C.short } : {});
       marks++;
     });

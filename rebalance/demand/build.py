@@ -61,7 +61,8 @@ class DemandResult:
 
 
 def _instance_context(folder: Path, problems: list[Problem]) -> tuple[
-        tuple[Period, ...], set[str], set[str]]:
+        tuple[Period, ...], set[str] | None, set[str] | None]:
+    """Periods, office names and skill names of the instance (None: that file is unusable)."""
     settings, tables, found = read_tables(folder)
     # demand.csv is what we are about to write; only these files matter here.
     problems.extend(p for p in found if p.file in ("settings.toml", "offices.csv", "skills.csv")
@@ -73,16 +74,21 @@ def _instance_context(folder: Path, problems: list[Problem]) -> tuple[
                                     f"period '{p.name}' is not a calendar quarter; "
                                     "`rebalance demand` expects periods named YYYY-Qn"))
 
-    def names(table: str, column: str) -> set[str]:
+    def names(table: str, column: str) -> set[str] | None:
         raw = tables.get(table)
-        return {r.get(column, "") for r in raw.rows if r.get(column)} if raw else set()
+        if raw is None or column not in raw.columns:
+            if raw is not None:
+                problems.append(Problem(raw.label, 1, column, "required column is missing"))
+            return None  # reported above; checking names against nothing would flood
+        return {r.get(column, "") for r in raw.rows if r.get(column)}
 
     return periods, names("offices", "office"), names("skills", "skill")
 
 
 def _quarter_months(period: str) -> list[int]:
     match = QUARTER.match(period)
-    assert match is not None  # checked in _instance_context
+    if match is None:  # _instance_context reports these before anything is built
+        raise ValueError(f"period '{period}' is not a calendar quarter YYYY-Qn")
     year, quarter = int(match.group(1)), int(match.group(2))
     first = year * 12 + (quarter - 1) * 3
     return [first, first + 1, first + 2]
@@ -217,12 +223,29 @@ def run_demand(history_dir: str | Path, instance_dir: str | Path) -> DemandResul
         history = read_history(history_dir, offices, skills)
     except HistoryError as exc:
         problems.extend(exc.problems)
-    if history is not None and periods:
+    quarters = bool(periods) and all(QUARTER.match(p.name) for p in periods)
+    if history is not None and quarters:
         _check_horizon(history, periods, problems)
     errors = [p for p in problems if not p.is_warning]
     if errors or history is None:
-        raise HistoryError(errors + [p for p in problems if p.is_warning])
+        raise HistoryError(_collapse(errors) + [p for p in problems if p.is_warning])
     return build_demand(history, periods)
+
+
+def _collapse(problems: list[Problem], keep: int = 10) -> list[Problem]:
+    """Every problem, but one fault repeated on thousands of rows listed ``keep`` times."""
+    seen: dict[tuple[str, str | None, str], int] = {}
+    out: list[Problem] = []
+    for p in problems:
+        key = (p.file, p.column, p.message)
+        seen[key] = seen.get(key, 0) + 1
+        if seen[key] <= keep:
+            out.append(p)
+    for (file, column, message), count in seen.items():
+        if count > keep:
+            out.append(Problem(file, None, column, f"{message} (and {count - keep} more rows "
+                                                   "like this)"))
+    return out
 
 
 def _check_horizon(history: History, periods: tuple[Period, ...],

@@ -201,9 +201,10 @@ class _Cells:
         return value
 
     def choice(self, row: Mapping[str, str], column: str, known: Mapping[str, Any] | set[str]
-               | tuple[str, ...], what: str) -> str | None:
+               | tuple[str, ...] | None, what: str) -> str | None:
+        """A value from ``known``; ``known`` None accepts any (names could not be read)."""
         value = self.text(row, column)
-        if value is not None and value not in known:
+        if value is not None and known is not None and value not in known:
             self.error(column, f"unknown {column.replace('_', ' ')} '{value}'; expected {what}")
             return None
         return value
@@ -258,8 +259,12 @@ class _Cells:
         return value
 
 
-def read_history(folder: str | Path, offices: set[str], skills: set[str]) -> History:
+def read_history(folder: str | Path, offices: set[str] | None, skills: set[str] | None
+                 ) -> History:
     """Read and validate a history folder against the instance's offices and skills.
+
+    ``None`` for offices or skills skips that check (the caller could not read the names and
+    reports why); every other check still runs.
 
     Raises :class:`HistoryError` listing every problem found.
     """
@@ -292,7 +297,8 @@ def read_history(folder: str | Path, offices: set[str], skills: set[str]) -> His
                    kinds.get("kind", "month"))
 
 
-def _read_settings(file: Path, skills: set[str], problems: list[Problem]) -> DemandSettings:
+def _read_settings(file: Path, skills: set[str] | None, problems: list[Problem]
+                   ) -> DemandSettings:
     if not file.is_file():
         return DemandSettings()
     try:
@@ -302,7 +308,7 @@ def _read_settings(file: Path, skills: set[str], problems: list[Problem]) -> Dem
         return DemandSettings()
     priority: dict[str, float] = {}
     for skill, value in raw.get("priority", {}).items():
-        if skill not in skills:
+        if skills is not None and skill not in skills:
             problems.append(Problem("demand.toml", None, f"priority.{skill}",
                                     f"unknown skill '{skill}'; expected one in skills.csv"))
         elif not isinstance(value, int | float) or isinstance(value, bool) or value < 0:
@@ -351,7 +357,7 @@ def _read_activities(table: RawTable, problems: list[Problem]) -> dict[str, str]
     return out
 
 
-def _read_arrivals(table: RawTable, problems: list[Problem], offices: set[str],
+def _read_arrivals(table: RawTable, problems: list[Problem], offices: set[str] | None,
                    case_types: set[str] | None) -> pd.DataFrame:
     cells = _Cells(table, "case_arrivals", problems)
     rows: list[tuple[str, str, int, int]] = []
@@ -396,8 +402,8 @@ def _read_arrivals(table: RawTable, problems: list[Problem], offices: set[str],
     return frame
 
 
-def _read_records(table: RawTable, problems: list[Problem], offices: set[str],
-                  skills: set[str], kinds: dict[str, str]) -> pd.DataFrame:
+def _read_records(table: RawTable, problems: list[Problem], offices: set[str] | None,
+                  skills: set[str] | None, kinds: dict[str, str]) -> pd.DataFrame:
     cells = _Cells(table, "time_records", problems)
     rows: list[tuple[int, str, int, int, str, str, str, float]] = []
     for row in cells:
@@ -441,7 +447,7 @@ def _read_expected(table: RawTable, problems: list[Problem], kinds: dict[str, st
     return pd.DataFrame(rows, columns=["person", "period", "expected_hours"])
 
 
-def _read_adjustments(table: RawTable | None, problems: list[Problem], offices: set[str],
+def _read_adjustments(table: RawTable | None, problems: list[Problem], offices: set[str] | None,
                       case_types: set[str]) -> pd.DataFrame:
     columns = ["office", "case_type", "first_month", "last_month", "factor", "note"]
     if table is None:

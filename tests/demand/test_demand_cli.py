@@ -150,3 +150,18 @@ def test_no_usable_time_records_is_invalid_input(tmp_path: Path, capsys) -> None
     assert main(["demand", str(history), "-o", str(instance)]) == EXIT_INVALID_INPUT
     assert "no time record passed quality control" in capsys.readouterr().err
     assert not (instance / "demand.csv").exists()
+
+
+def test_instance_problems_are_reported_without_a_flood(tmp_path: Path, capsys) -> None:  # type: ignore[no-untyped-def]
+    instance = tmp_path / "instance"
+    instance.mkdir()
+    shutil.copy(DEMO / "skills.csv", instance / "skills.csv")
+    (instance / "settings.toml").write_text(
+        '[horizon]\nhours_per_fte = 450\n[[horizon.periods]]\nname = "FY27-P1"\nyear = "FY27"\n')
+    assert main(["demand", str(DEMO_HISTORY), "-o", str(instance)]) == EXIT_INVALID_INPUT
+    err = capsys.readouterr().err
+    assert "offices.csv: file is missing" in err
+    assert "period 'FY27-P1' is not a calendar quarter" in err
+    assert "unknown office" not in err  # names are not checked against a missing table
+    assert len(err.splitlines()) < 10
+    assert not (instance / "demand.csv").exists()

@@ -6,6 +6,8 @@ import warnings
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from rebalance.demand.forecast import (
     backtest_series,
@@ -137,3 +139,19 @@ def test_intervals_cover_the_mean() -> None:
         lo, hi = np.quantile(fc.paths, [0.1, 0.9], axis=1)
         assert np.all(lo <= fc.mean) and np.all(fc.mean <= hi), method
         assert np.all(hi - lo > 0), method
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.lists(st.floats(0, 1000), min_size=48, max_size=72),
+       st.floats(0.01, 100), st.floats(-500, 500))
+def test_mase_is_scale_free_and_baseline_is_equivariant(values: list[float], scale: float,
+                                                        shift: float) -> None:
+    # Hyndman and Koehler (2006): MASE is independent of the scale of the data.
+    y = np.array(values)
+    train, test = y[:-12], y[-12:]
+    forecast = three_year_average(train, 12)
+    a = mase(test, forecast, train, 12)
+    b = mase(scale * test, scale * forecast, scale * train, 12)
+    assert (np.isnan(a) and np.isnan(b)) or a == pytest.approx(b, rel=1e-9, abs=1e-12)
+    # A mean of past values moves with the data: shifting the series shifts the baseline.
+    assert np.allclose(three_year_average(train + shift, 12), forecast + shift)

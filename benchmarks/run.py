@@ -27,6 +27,7 @@ import inspect
 import json
 import os
 import platform
+import re
 import resource
 import subprocess
 import sys
@@ -84,6 +85,15 @@ def run_case(case: dict[str, object]) -> dict[str, object]:
     build = build_model
     if "pooled" in inspect.signature(build_model).parameters:
         build = functools.partial(build_model, pooled=formulation == "pooled")
+    if case.get("build_only"):
+        t0 = time.perf_counter()
+        model = build(instance)
+        own, _ = _peak_mib()
+        return {"status": "built_only", "columns": model.num_cols, "rows": model.num_rows,
+                "integer_columns": model.num_integer, "read_s": round(read_s, 2),
+                "build_s": round(time.perf_counter() - t0, 2),
+                "wall_s": round(time.perf_counter() - started, 2), "peak_mib": own,
+                "note": "model built, not solved (--build-only)"}
     options = options_from_instance(
         instance, solver=case["backend"], time_limit_seconds=float(case["time_limit"]),  # type: ignore[arg-type]
         relative_gap=float(case["gap"]), threads=1, seed=0, progress=progress)  # type: ignore[arg-type]
@@ -172,7 +182,8 @@ def run_size(size: str, args: argparse.Namespace, date: str) -> list[dict[str, o
         "relative_gap": args.gap, "commit": _commit(),
     }
     rows = []
-    for backend in args.backends:
+    # A model is the same for every backend: building it once per formulation is enough.
+    for backend in (["none"] if size in args.build_only else args.backends):
         for formulation, skip in _formulations(spec.staff, args.person_max_staff):
             row = dict(base, backend=backend, formulation=formulation)
             if skip:
@@ -182,6 +193,7 @@ def run_size(size: str, args: argparse.Namespace, date: str) -> list[dict[str, o
                 continue
             case = {"instance": str(folder), "backend": backend, "formulation": formulation,
                     "time_limit": args.limits[size], "gap": args.gap,
+                    "build_only": size in args.build_only,
                     "log": str(RAW / "logs" / f"{date}-{size}-{backend}-{formulation}.log")}
             # Others may share the machine: the load at the start says how alone a case ran.
             row["load_1min"] = round(os.getloadavg()[0], 2)
@@ -195,8 +207,10 @@ def run_size(size: str, args: argparse.Namespace, date: str) -> list[dict[str, o
                     capture_output=True, text=True, timeout=kill_after, cwd=ROOT,
                     env=dict(os.environ, OMP_NUM_THREADS="1"))
             except subprocess.TimeoutExpired:
-                row.update(status="killed", wall_s=round(time.perf_counter() - started, 1),
-                           note=f"no answer within {kill_after:.0f}s; killed")
+                row.update(status="killed", wall_s=round(time.perf_counter() - started, 1))
+                row.update(_from_log(Path(str(case["log"]))))
+                row["note"] = (f"no answer within {kill_after:.0f}s, killed; last progress: "
+                               + str(row.get("note", "none")))
             else:
                 lines = [ln for ln in done.stdout.splitlines() if ln.startswith("{")]
                 if done.returncode == 0 and lines:
@@ -210,6 +224,26 @@ def run_size(size: str, args: argparse.Namespace, date: str) -> list[dict[str, o
                   f"wall {row.get('wall_s', '')}s build {row.get('build_s', '')}s "
                   f"peak {row.get('peak_mib', '')} MiB {row.get('note', '')}", flush=True)
     return rows
+
+
+_MODEL_LINE = re.compile(r"model: (\d+) columns \((\d+) integer\), (\d+) rows, built in "
+                         r"([\d.]+)s")
+
+
+def _from_log(log: Path) -> dict[str, object]:
+    """What a killed case's progress log still tells: model size, build time, last line."""
+    if not log.exists():
+        return {}
+    lines = [ln.strip() for ln in log.read_text(errors="replace").splitlines() if ln.strip()]
+    out: dict[str, object] = {}
+    for line in lines:
+        match = _MODEL_LINE.search(line)
+        if match:
+            out.update(columns=int(match.group(1)), integer_columns=int(match.group(2)),
+                       rows=int(match.group(3)), build_s=float(match.group(4)))
+    if lines:
+        out["note"] = lines[-1][:160]
+    return out
 
 
 def _read_csv(path: Path) -> list[dict[str, str]]:
@@ -315,7 +349,8 @@ def _targets(rows: list[dict[str, str]], default_backend: str) -> list[str]:
     """The targets of issue 3, checked against the rows of the default backend."""
     def case(size: str) -> dict[str, str] | None:
         found = [r for r in rows if r["size"] == size and r["backend"] == default_backend
-                 and r["formulation"] in ("pooled", "default")]
+                 and r["formulation"] in ("pooled", "default")
+                 and r["status"] not in ("built_only", "not_run")]
         return found[0] if found else None
 
     out = []
@@ -394,7 +429,8 @@ def write_doc(rows: list[dict[str, str]], csv_path: Path) -> None:
     for r in rows:
         sizes = (f"{_cell(r['staff'], 'int')} / {r['offices']} / {r['skills']} / "
                  f"{r['periods']} ({_cell(r['groups'], 'int')})")
-        dominant = _dominant(r) if r["status"] not in ("not_run", "killed", "crashed") else "–"
+        dominant = _dominant(r) if r["status"] not in ("not_run", "killed", "crashed",
+                                                       "built_only") else "–"
         lines.append(
             f"| {r['size']} | {sizes} | {r['backend']} | {r['formulation']} "
             f"| {_cell(r['time_limit_s'])} | {r['status']} | {_cell(r['verified'])} "
@@ -443,6 +479,8 @@ def main(argv: Sequence[str] | None = None) -> int:
     parser.add_argument("--backends", type=_parse_list(BACKENDS), default=list(BACKENDS))
     parser.add_argument("--time-limit", dest="limits", type=_parse_limits, default=TIME_LIMITS,
                         help="per-size seconds for the whole run, e.g. small=60,agency=300")
+    parser.add_argument("--build-only", type=_parse_list(SIZES), default=[],
+                        help="sizes whose models are only built and measured, not solved")
     parser.add_argument("--gap", type=float, default=0.01, help="relative gap to stop at")
     parser.add_argument("--seed", type=int, default=0, help="generator seed")
     parser.add_argument("--person-max-staff", type=int, default=2000,

@@ -71,29 +71,40 @@ def _truthy(value: Any) -> bool:
 
 def _frontier(frame: pd.DataFrame) -> dict[str, Any] | None:
     x = find_column(frame, ("hiring_budget", "budget", "hiring_cap", "hiring", "budget_total"),
-                    ("budget", "hiring", "cap"), avoid=("shortfall",))
+                    ("budget", "hiring", "cap"), avoid=("shortfall", "spend", "moves"))
     y = find_column(frame, ("weighted_shortfall", "shortfall"), ("weighted_shortfall",
                                                                   "shortfall"))
     if x is None or y is None:
         return None
-    cost = find_column(frame, ("total_cost", "cost", "spend"), ("cost", "spend"),
+    cost = find_column(frame, ("total_cost", "cost", "spend"), ("cost",),
                        avoid=("shortfall",))
     knee_col = find_column(frame, ("knee", "is_knee"), ("knee",), numeric=False)
-    ordered = frame.sort_values(x)
-    points = []
-    for xs, ys, cs, ks in zip(_finite(ordered[x].tolist()), _finite(ordered[y].tolist()),
-                              _finite(ordered[cost].tolist()) if cost else [None] * len(ordered),
-                              ordered[knee_col].tolist() if knee_col else [False] * len(ordered),
-                              strict=True):
-        if xs is not None and ys is not None:
-            points.append({"x": xs, "y": ys, "cost": cs, "knee": _truthy(ks)})
-    if not points:
+    # A grid over both budgets is drawn as one line per moves budget.
+    moves = find_column(frame, ("moves_budget", "moves_cap"), ("moves_budget",),
+                        avoid=("spend",))
+    groups: list[tuple[str | None, pd.DataFrame]] = [(None, frame)]
+    if moves is not None and frame[moves].nunique() > 1:
+        groups = [(f"{moves.replace('_', ' ')} {value:,g}", part)
+                  for value, part in frame.groupby(moves, sort=True)]
+    series = []
+    for label, part in groups:
+        ordered = part.sort_values(x)
+        points = []
+        for xs, ys, cs, ks in zip(
+                _finite(ordered[x].tolist()), _finite(ordered[y].tolist()),
+                _finite(ordered[cost].tolist()) if cost else [None] * len(ordered),
+                ordered[knee_col].tolist() if knee_col else [False] * len(ordered), strict=True):
+            if xs is not None and ys is not None:
+                points.append({"x": xs, "y": ys, "cost": cs, "knee": _truthy(ks)})
+        if points:
+            series.append({"label": label, "points": points})
+    if not series:
         return None
-    return {"x_label": x, "y_label": y, "cost_label": cost, "points": points}
+    return {"x_label": x, "y_label": y, "cost_label": cost, "series": series}
 
 
-SCENARIO_METRICS = ("weighted_shortfall", "shortfall_fte_periods", "shortfall_fte", "total_cost",
-                    "cost", "hires", "detail_periods", "details", "reassignments")
+SCENARIO_METRICS = ("weighted_shortfall", "total_cost", "cost", "hires", "detail_periods",
+                    "details", "reassignments", "shortfall_fte_periods", "shortfall_fte")
 
 
 def _scenarios(frame: pd.DataFrame) -> dict[str, Any] | None:

@@ -70,11 +70,14 @@ def test_analysis_sections_appear_only_with_their_tables():
         assert f'data-chart="{anchor}"' in full
     payload = _payload(full)
     frontier = pd.read_csv(tiny_analysis_folder() / "frontier.csv")
-    assert [p["x"] for p in payload["frontier"]["points"]] == sorted(frontier["hiring_budget"])
-    assert sum(p["knee"] for p in payload["frontier"]["points"]) == 1
-    # More hiring budget never raises the least shortfall (each point is an exact re-solve).
-    shortfalls = list(frontier.sort_values("hiring_budget")["weighted_shortfall"])
-    assert all(b <= a + 1e-9 for a, b in itertools.pairwise(shortfalls))
+    lines = payload["frontier"]["series"]
+    assert len(lines) == frontier["moves_budget"].nunique() == 2
+    for line, (_, part) in zip(lines, frontier.groupby("moves_budget"), strict=True):
+        assert [p["x"] for p in line["points"]] == sorted(part["hiring_budget"])
+        assert sum(p["knee"] for p in line["points"]) == part["knee"].sum()
+        # More hiring budget never raises the least shortfall (each point an exact re-solve).
+        shortfalls = list(part.sort_values("hiring_budget")["weighted_shortfall"])
+        assert all(b <= a + 1e-9 for a, b in itertools.pairwise(shortfalls))
     marginal = payload["marginal"]["rows"]
     assert [abs(r["value"]) for r in marginal] == sorted((abs(r["value"]) for r in marginal),
                                                          reverse=True)
@@ -97,7 +100,7 @@ def test_analysis_tables_with_other_column_names(tmp_path):
                                                           index=False)
     page = render_html(report_data_from_folder(folder, read_instance(TINY)))
     data = _payload(page)
-    assert [p["knee"] for p in data["frontier"]["points"]] == [False, True, False]
+    assert [p["knee"] for p in data["frontier"]["series"][0]["points"]] == [False, True, False]
     assert data["scenarios"]["labels"] == ["base", "surge"]
     assert [r["label"] for r in data["marginal"]["rows"]] == ["hiring · B", "seats · A"]
 
@@ -143,3 +146,23 @@ def test_long_tables_are_cut_with_a_pointer_to_the_full_files():
     assert "first 10 of 30 rows" in cut and "plan.xlsx" in cut
     whole = table_html(["person", "cost"], rows, name="x", numeric=[False, True])
     assert whole.count("<tr>") == 31 and "Showing" not in whole
+
+
+def test_frontier_over_both_budgets_draws_one_line_per_moves_budget(tmp_path):
+    # Columns as the issue-5 frontier writes them (point, hiring_budget, moves_budget, ...).
+    folder = _copy(tmp_path)
+    rows = []
+    for point, (hiring, moves, short) in enumerate([(0, 10, 3.0), (5, 10, 2.0), (0, 20, 2.5),
+                                                    (5, 20, 1.0)]):
+        rows.append({"point": point, "hiring_budget": hiring, "moves_budget": moves,
+                     "status": "optimal", "verified": True, "gap": 0.0,
+                     "weighted_shortfall": short, "shortfall_fte_periods": short,
+                     "total_cost": hiring + moves, "hiring_spend": hiring, "moves_spend": moves,
+                     "hires": 0, "detail_periods": 0, "reassignments": 0, "knee": point == 3})
+    pd.DataFrame(rows).to_csv(folder / "frontier.csv", index=False)
+    data = _payload(render_html(report_data_from_folder(folder, read_instance(TINY))))
+    frontier = data["frontier"]
+    assert (frontier["x_label"], frontier["y_label"]) == ("hiring_budget", "weighted_shortfall")
+    assert [s["label"] for s in frontier["series"]] == ["moves budget 10", "moves budget 20"]
+    assert [[p["y"] for p in s["points"]] for s in frontier["series"]] == [[3.0, 2.0],
+                                                                          [2.5, 1.0]]

@@ -11,6 +11,8 @@
   };
   var SKILL = ["#3f7f94", "#d9a036", "#7b5a97", "#88ad6b", "#c0533a", "#4e6a9c", "#a7825a",
     "#5ea5a0", "#b56b8c", "#6c7a3a"];
+  // Frontier lines avoid amber, which marks the knee.
+  var LINES = ["#3f7f94", "#7b5a97", "#6c7a3a", "#c0533a", "#4e6a9c", "#a7825a"];
   var HEAT = [[247, 244, 236], [240, 217, 166], [224, 146, 90], [178, 59, 44]];
 
   function el(tag, attrs, parent) {
@@ -329,30 +331,44 @@
 
   /* ---------------------------------------------------------------- analysis charts */
   function frontier(box, d) {
+    var all = [];
+    d.series.forEach(function (s) { all = all.concat(s.points); });
+    if (d.series.length > 1) {
+      legend(box, d.series.map(function (s, i) { return { color: LINES[i % LINES.length], text: s.label, line: true }; }));
+    }
     var W = 900, H = 300, ml = 56, mr = 24, mt = 30, mb = 40, iw = W - ml - mr, ih = H - mt - mb;
-    var xsRaw = d.points.map(function (p) { return p.x; }), ysRaw = d.points.map(function (p) { return p.y; });
+    var xsRaw = all.map(function (p) { return p.x; }), ysRaw = all.map(function (p) { return p.y; });
     var xmin = Math.min.apply(null, xsRaw), xmax = Math.max.apply(null, xsRaw);
     if (xmax === xmin) { xmax = xmin + 1; }
     var tk = ticks(Math.max.apply(null, ysRaw) * 1.05 || 1, 4), ymax = tk[tk.length - 1] || 1;
     var x = function (v) { return ml + (v - xmin) / (xmax - xmin) * iw; };
     var y = function (v) { return mt + ih - v / ymax * ih; };
-    var g = svg(box, W, H);
+    var g = svg(box, W, H), marks = 0, seen = {};
     yAxis(g, y, tk, ml, ml + iw);
-    d.points.forEach(function (p) { label(g, x(p.x), H - 20, tick(p.x), { "text-anchor": "middle" }); });
+    all.forEach(function (p) {
+      if (seen[p.x]) { return; }
+      seen[p.x] = true;
+      label(g, x(p.x), H - 20, tick(p.x), { "text-anchor": "middle" });
+    });
     label(g, ml + iw / 2, H - 4, d.x_label.replace(/_/g, " "), { "text-anchor": "middle", "class": "title" });
     label(g, 4, 10, d.y_label.replace(/_/g, " "), { "class": "title" });
-    el("polyline", { points: points(d.points.map(function (p) { return x(p.x); }),
-      d.points.map(function (p) { return y(p.y); })), fill: "none", stroke: C.staff, "stroke-width": 2.5 }, g);
-    d.points.forEach(function (p) {
-      if (p.knee) {
-        el("circle", { cx: x(p.x), cy: y(p.y), r: 10, fill: "none", stroke: C.amber, "stroke-width": 3 }, g);
-        label(g, x(p.x) + 13, y(p.y) - 10, "knee", { "class": "title" });
-      }
-      el("circle", { cx: x(p.x), cy: y(p.y), r: 4.5, fill: C.staff,
-        "data-tip": d.x_label + " " + fmt(p.x) + "\n" + d.y_label + " " + fmt(p.y, 2) +
-          (p.cost !== null ? "\n" + (d.cost_label || "cost") + " " + fmt(p.cost) : "") }, g);
+    d.series.forEach(function (s, i) {
+      var colour = LINES[i % LINES.length];
+      el("polyline", { points: points(s.points.map(function (p) { return x(p.x); }),
+        s.points.map(function (p) { return y(p.y); })), fill: "none", stroke: colour, "stroke-width": 2.5 }, g);
+      marks++;
+      s.points.forEach(function (p) {
+        if (p.knee) {
+          el("circle", { cx: x(p.x), cy: y(p.y), r: 10, fill: "none", stroke: C.amber, "stroke-width": 3 }, g);
+          label(g, x(p.x) + 13, y(p.y) - 10, "knee", { "class": "title" });
+        }
+        el("circle", { cx: x(p.x), cy: y(p.y), r: 4.5, fill: colour,
+          "data-tip": (s.label ? s.label + "\n" : "") + d.x_label + " " + fmt(p.x) + "\n" + d.y_label + " " +
+            fmt(p.y, 2) + (p.cost !== null ? "\n" + (d.cost_label || "cost") + " " + fmt(p.cost) : "") }, g);
+        marks++;
+      });
     });
-    return d.points.length + 1;
+    return marks;
   }
   function hbars(parent, labels, values, title, colour, W) {
     var lw = Math.min(300, 40 + 6.5 * Math.max.apply(null, labels.map(function (l) { return l.length; })));
@@ -367,7 +383,7 @@
       if (v === null) { label(g, lw, yy + 15, "-"); return; }
       el("rect", { x: lw, y: yy + 4, width: Math.max(1, Math.abs(v) / max * bw), height: rh - 8, rx: 2,
         fill: v < 0 ? C.short : colour, "data-tip": l + "\n" + title + ": " + fmt(v, 3) }, g);
-      label(g, lw + Math.abs(v) / max * bw + 6, yy + 15, fmt(v, 2));
+      label(g, lw + Math.abs(v) / max * bw + 6, yy + 15, Number.isInteger(v) ? tick(v) : fmt(v, 2));
       marks++;
     });
     return marks;

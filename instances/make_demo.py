@@ -3,8 +3,9 @@
 The Fenmarch Regional Review Service (fictional) reviews permit applications in six offices.
 Port Ilse Central is short of staff, Hollin Cross has a surplus, and a two-quarter surge lands
 on Fenmarch South and Aldercombe in 2027-Q3 and 2027-Q4.  Every number here is invented for
-the demo.  Run ``python instances/make_demo.py`` to rewrite ``instances/demo/`` (seeded:
-the same files every time).
+the demo.  Run ``python instances/make_demo.py`` to rewrite ``instances/demo/`` except its
+demand, which ``make demand-demo`` builds from the workload history (seeded: the same files
+every time).
 """
 
 from __future__ import annotations
@@ -13,32 +14,31 @@ import csv
 from pathlib import Path
 
 import numpy as np
+from make_history import TARGET_FTE
 
 HERE = Path(__file__).parent / "demo"
 SEED = 20270101
 
 OFFICES = [
-    # office, location, seats, max hires per period, headcount, demand factor
-    ("port-ilse-central", "Port Ilse", 52, 4, 46, 1.22),   # short of staff
-    ("port-ilse-harbour", "Port Ilse", 40, 2, 34, 0.97),
-    ("hollin-cross", "Hollin Cross", 60, 2, 52, 0.72),     # surplus
-    ("fenmarch-north", "Fenmarch", 44, 3, 40, 0.98),
-    ("fenmarch-south", "Fenmarch", 42, 3, 38, 1.00),       # surge
-    ("aldercombe", "Aldercombe", 46, 3, 40, 0.95),         # surge
+    # office, location, seats, max hires per period, workload / staff capacity
+    ("port-ilse-central", "Port Ilse", 52, 4, 1.22),   # short of staff
+    ("port-ilse-harbour", "Port Ilse", 40, 2, 0.97),
+    ("hollin-cross", "Hollin Cross", 60, 2, 0.72),     # surplus
+    ("fenmarch-north", "Fenmarch", 44, 3, 0.98),
+    ("fenmarch-south", "Fenmarch", 42, 3, 1.00),       # surge in 2027-Q3/Q4 (in the history)
+    ("aldercombe", "Aldercombe", 46, 3, 0.95),         # surge in 2027-Q3/Q4 (in the history)
 ]
-SURGE = {"fenmarch-south": 1.45, "aldercombe": 1.35}
-SURGE_PERIODS = (2, 3)  # 2027-Q3 and 2027-Q4
 
 SKILLS = [
-    # skill, salary per quarter, onboarding cost, time to hire (quarters), ramp, share of staff
-    ("intake", 16000, 6000, 1, "0.6", 0.16),
-    ("technical_review", 26000, 12000, 2, "0.4 0.7", 0.22),
-    ("environmental_review", 25000, 12000, 2, "0.4 0.7", 0.14),
-    ("safety_review", 25000, 11000, 2, "0.5 0.8", 0.12),
-    ("legal_review", 29000, 14000, 3, "0.5 0.8", 0.08),
-    ("statistics", 27000, 12000, 2, "0.5 0.8", 0.08),
-    ("inspection", 21000, 9000, 1, "0.5", 0.12),
-    ("records", 14000, 4000, 1, "0.7", 0.08),
+    # skill, salary per quarter, onboarding cost, time to hire (quarters), ramp
+    ("intake", 16000, 6000, 1, "0.6"),
+    ("technical_review", 26000, 12000, 2, "0.4 0.7"),
+    ("environmental_review", 25000, 12000, 2, "0.4 0.7"),
+    ("safety_review", 25000, 11000, 2, "0.5 0.8"),
+    ("legal_review", 29000, 14000, 3, "0.5 0.8"),
+    ("statistics", 27000, 12000, 2, "0.5 0.8"),
+    ("inspection", 21000, 9000, 1, "0.5"),
+    ("records", 14000, 4000, 1, "0.7"),
 ]
 CITY_COSTS = {
     # (from, to): detail cost per quarter, relocation cost
@@ -50,6 +50,15 @@ CITY_COSTS = {
     ("Fenmarch", "Aldercombe"): (10000, 33000),
 }
 PERIODS = [f"{y}-Q{q}" for y in (2027, 2028) for q in (1, 2, 3, 4)]
+SECOND_SKILL = {
+    "intake": ("records", 0.8),
+    "technical_review": ("environmental_review", 0.6),
+    "environmental_review": ("technical_review", 0.6),
+    "safety_review": ("inspection", 0.7),
+    "statistics": ("technical_review", 0.5),
+    "inspection": ("safety_review", 0.6),
+    "records": ("intake", 0.7),
+}
 
 
 def write(name: str, header: list[str], rows: list[list[object]]) -> None:
@@ -63,58 +72,39 @@ def main() -> None:
     rng = np.random.default_rng(SEED)
     HERE.mkdir(parents=True, exist_ok=True)
     skill_names = [s[0] for s in SKILLS]
-    shares = np.array([s[5] for s in SKILLS])
-    shares = shares / shares.sum()
 
     write("offices.csv", ["office", "location", "seats", "max_hires_per_period"],
-          [[o, loc, seats, hires] for o, loc, seats, hires, _, _ in OFFICES])
+          [[o, loc, seats, hires] for o, loc, seats, hires, _ in OFFICES])
     write("skills.csv", ["skill", "salary_per_period", "onboarding_cost", "time_to_hire", "ramp"],
-          [[s, sal, onb, tth, ramp] for s, sal, onb, tth, ramp, _ in SKILLS])
+          [[s, sal, onb, tth, ramp] for s, sal, onb, tth, ramp in SKILLS])
 
+    # Staff in job families: most people hold one skill; a quarter also hold their family's
+    # usual second skill at a fixed proficiency.  Headcount per office and skill follows the
+    # workload the demo history is built around (make_history.TARGET_FTE), divided by the
+    # office's staffing factor, so Port Ilse Central is short and Hollin Cross has a surplus.
     staff_rows: list[list[object]] = []
-    capacity = {}  # (office, skill) -> FTE of output at home
     n = 0
-    for office, _, _, _, headcount, _ in OFFICES:
-        for _ in range(headcount):
-            n += 1
-            first = rng.choice(len(SKILLS), p=shares)
-            skills = [(skill_names[first], 1.0)]
-            if rng.random() < 0.35:  # about a third hold a second skill at lower proficiency
-                second = rng.choice([i for i in range(len(SKILLS)) if i != first])
-                skills.append((skill_names[second], float(rng.choice([0.5, 0.6, 0.7, 0.8]))))
-            fte = 1.0 if rng.random() < 0.88 else float(rng.choice([0.5, 0.6, 0.8]))
-            can_detail = rng.random() < 0.8
-            can_relocate = rng.random() < 0.15
-            last = ""
-            if rng.random() < 0.05:
-                last = PERIODS[int(rng.integers(2, len(PERIODS) - 1))]
-            staff_rows.append([f"E{n:04d}", office, fte,
-                               " ".join(f"{s}:{p:g}" for s, p in skills),
-                               str(can_detail).lower(), str(can_relocate).lower(), last])
-            key = (office, skills[0][0])
-            capacity[key] = capacity.get(key, 0.0) + fte
+    for office, _, _, _, factor in OFFICES:
+        for skill in skill_names:
+            heads = max(1, round(TARGET_FTE[office][skill] / factor / 0.96))
+            for _ in range(heads):
+                n += 1
+                skills = [(skill, 1.0)]
+                second = SECOND_SKILL.get(skill)
+                if second is not None and rng.random() < 0.2:
+                    skills.append(second)
+                fte = 0.5 if rng.random() < 0.05 else 1.0
+                can_detail = rng.random() < 0.9
+                can_relocate = rng.random() < 0.05
+                last = ""
+                if rng.random() < 0.03:
+                    last = PERIODS[int(rng.integers(2, len(PERIODS) - 1))]
+                staff_rows.append([f"E{n:04d}", office, fte,
+                                   " ".join(f"{s}:{p:g}" for s, p in skills),
+                                   str(can_detail).lower(), str(can_relocate).lower(), last])
     write("staff.csv", ["person", "home_office", "fte", "skills", "can_detail", "can_relocate",
                         "last_period"], staff_rows)
-
-    # Demand in hours: each office's own capacity scaled by its factor, a gentle trend, noise,
-    # and the surge.  Legal review work has priority 2 (statutory deadlines in the story).
-    hours_per_fte = 450
-    demand_rows: list[list[object]] = []
-    for office, _, _, _, _, factor in OFFICES:
-        for k, skill in enumerate(skill_names):
-            base = capacity.get((office, skill), 0.0)
-            if base == 0.0:
-                base = float(rng.choice([0.0, 1.0, 2.0]))
-            if base == 0.0:
-                continue
-            for t, period in enumerate(PERIODS):
-                level = base * factor * (1.0 + 0.012 * t) * float(rng.normal(1.0, 0.04))
-                if office in SURGE and t in SURGE_PERIODS and k < 6:
-                    level *= SURGE[office]
-                priority = 2 if skill == "legal_review" else 1
-                demand_rows.append([office, skill, period, round(level * hours_per_fte),
-                                    priority])
-    write("demand.csv", ["office", "skill", "period", "hours", "priority"], demand_rows)
+    # demand.csv comes from the workload history: `make demand-demo` (instances/make_history.py).
 
     move_rows = []
     for (a, b), (detail, relocation) in CITY_COSTS.items():
@@ -167,8 +157,8 @@ mode = "shortfall-first"
 
 [solver]
 name = "highs"
-time_limit_seconds = 50
-relative_gap = 0.005
+time_limit_seconds = 55
+relative_gap = 0.01
 """
 
 if __name__ == "__main__":

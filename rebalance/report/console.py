@@ -82,16 +82,16 @@ def format_summary(result: PlanResult) -> str:
             f"  reassignments        {len(plan.reassignments)}",
             "",
         ]
-        costs = plan.costs.pivot_table(index="year", columns="kind", values="cost",
-                                       aggfunc="sum", fill_value=0.0)
+        costs = plan.costs.groupby(["year", "kind"])["cost"].sum().to_dict()
         rows = []
         for year in result.instance.years:
             budget = result.instance.budget(year)
-            row = costs.loc[year] if year in costs.index else None
-            hiring = 0.0 if row is None else float(row.get("onboarding", 0) + row.get(
-                "new_position_salary", 0))
-            moves = 0.0 if row is None else float(row.get("detail", 0) + row.get("relocation",
-                                                                                    0))
+
+            def spent(*kinds: str, year: str = year) -> float:
+                return sum(float(costs.get((year, k), 0.0)) for k in kinds)
+
+            hiring = spent("onboarding", "new_position_salary")
+            moves = spent("detail", "relocation")
             cap_h = "no cap" if budget is None or budget.hiring is None else _money(
                 budget.hiring)
             cap_m = "no cap" if budget is None or budget.moves is None else _money(budget.moves)

@@ -1,0 +1,156 @@
+"""Budget frontier: the least weighted shortfall (and its cost) at each point of a budget grid.
+
+Each point is the instance with its hiring cap (and optionally its moves cap) replaced in every
+budget year, solved by :func:`rebalance.planning.make_plan` and verified; points are solved in
+a process pool.  The knee is the point of the shortfall-against-budget curve farthest from the
+chord between its ends, both axes scaled to [0, 1] (the "Kneedle" idea of Satopaa et al. 2011,
+"Finding a 'Kneedle' in a Haystack"): where more money starts to buy markedly less.
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import pandas as pd
+
+from rebalance.analysis.scenarios import solve_many
+from rebalance.instance import Budget, Instance
+from rebalance.planning import PlanResult
+from rebalance.solve import SolveOptions
+
+__all__ = ["FRONTIER_COLUMNS", "BudgetGrid", "Frontier", "budget_frontier", "find_knee",
+           "parse_grid", "with_budgets"]
+
+FRONTIER_COLUMNS = (
+    "point", "hiring_budget", "moves_budget", "status", "verified", "gap",
+    "weighted_shortfall", "shortfall_fte_periods", "total_cost", "hiring_spend", "moves_spend",
+    "hires", "detail_periods", "reassignments", "knee",
+)
+
+
+@dataclass(frozen=True)
+class BudgetGrid:
+    """Values to sweep.  ``as_factor``: values multiply each year's cap instead of replacing it.
+
+    ``moves`` empty keeps the instance's moves caps.
+    """
+
+    hiring: tuple[float, ...]
+    moves: tuple[float, ...] = ()
+    as_factor: bool = False
+
+
+@dataclass(frozen=True)
+class Frontier:
+    grid: BudgetGrid
+    table: pd.DataFrame  # FRONTIER_COLUMNS, one row per point
+    results: tuple[PlanResult, ...]
+
+
+def parse_grid(text: str) -> tuple[tuple[float, ...], bool]:
+    """``a,b,c`` or ``start:stop:step`` (stop included); a trailing ``x`` on every value (or on
+    the whole range) makes them factors of the instance's caps.  Raises ValueError."""
+    text = text.strip().replace("_", "")
+    factor = text.endswith("x")
+    if ":" in text:
+        parts = [p.strip().rstrip("x") for p in text.split(":")]
+        if len(parts) != 3:
+            raise ValueError(f"'{text}': expected start:stop:step")
+        start, stop, step = (float(p) for p in parts)
+        if step <= 0 or stop < start:
+            raise ValueError(f"'{text}': expected step > 0 and stop >= start")
+        n = math.floor((stop - start) / step + 1e-9) + 1
+        if n > 200:
+            raise ValueError(f"'{text}': {n} points; at most 200")
+        values = tuple(round(start + i * step, 10) for i in range(n))
+    else:
+        items = [p.strip() for p in text.split(",") if p.strip()]
+        if not items:
+            raise ValueError("an empty grid")
+        if any(p.endswith("x") for p in items) and not all(p.endswith("x") for p in items):
+            raise ValueError(f"'{text}': give factors (with x) or amounts, not both")
+        factor = all(p.endswith("x") for p in items)
+        values = tuple(float(p.rstrip("x")) for p in items)
+    if any(v < 0 or not math.isfinite(v) for v in values):
+        raise ValueError(f"'{text}': values must be finite and >= 0")
+    return values, factor
+
+
+def with_budgets(instance: Instance, hiring: float | None, moves: float | None,
+                 as_factor: bool) -> Instance:
+    """The instance with every year's hiring (and moves, unless None) cap set or scaled.
+
+    A factor leaves a year without a cap uncapped; an amount caps every year.
+    """
+    budgets = []
+    for year in instance.years:
+        old = instance.budget(year) or Budget(year, None, None)
+        if as_factor:
+            h = None if old.hiring is None or hiring is None else old.hiring * hiring
+            m = old.moves if moves is None or old.moves is None else old.moves * moves
+        else:
+            h = old.hiring if hiring is None else hiring
+            m = old.moves if moves is None else moves
+        budgets.append(Budget(year, h, m))
+    return instance.with_changes(budgets=tuple(budgets))
+
+
+def find_knee(x: Sequence[float], y: Sequence[float]) -> int | None:
+    """Index of the knee of a decreasing curve y(x), or None when it is flat or too short."""
+    if len(x) < 3:
+        return None
+    order = sorted(range(len(x)), key=lambda i: x[i])
+    xs = [x[i] for i in order]
+    ys = [y[i] for i in order]
+    dx, dy = xs[-1] - xs[0], max(ys) - min(ys)
+    if dx <= 0 or dy <= 1e-9:
+        return None
+    y0 = min(ys)
+    # Distance below the chord from the first to the last point, axes scaled to [0, 1].
+    xn = [(v - xs[0]) / dx for v in xs]
+    yn = [(v - y0) / dy for v in ys]
+    chord = [yn[0] + (yn[-1] - yn[0]) * t for t in xn]
+    gaps = [c - v for c, v in zip(chord, yn, strict=True)]
+    best = max(range(1, len(xs) - 1), key=lambda i: gaps[i])
+    return order[best] if gaps[best] > 1e-9 else None
+
+
+def budget_frontier(instance: Instance, grid: BudgetGrid, options: SolveOptions,
+                    workers: int = 2) -> Frontier:
+    """Solve every grid point (hiring x moves) and mark the knee of each moves level."""
+    moves_values: Sequence[float | None] = grid.moves or (None,)
+    points = list(itertools.product(grid.hiring, moves_values))
+    variants = [with_budgets(instance, h, m, grid.as_factor) for h, m in points]
+    results = solve_many(variants, options, workers)
+    rows = []
+    for i, ((h, m), _variant, result) in enumerate(zip(points, variants, results, strict=True)):
+        plan = result.plan
+        row: dict[str, object] = {
+            "point": i + 1, "hiring_budget": h, "moves_budget": m,
+            "status": result.status.value, "verified": result.verified, "gap": result.solve.gap,
+        }
+        if plan is not None:
+            kinds = plan.cost_by_kind()
+            row.update({
+                "weighted_shortfall": plan.weighted_shortfall,
+                "shortfall_fte_periods": plan.shortfall_fte,
+                "total_cost": plan.total_cost,
+                "hiring_spend": kinds["onboarding"] + kinds["new_position_salary"],
+                "moves_spend": kinds["detail"] + kinds["relocation"],
+                "hires": plan.hires_count(),
+                "detail_periods": len(plan.details),
+                "reassignments": len(plan.reassignments),
+            })
+        rows.append(row)
+    table = pd.DataFrame(rows, columns=list(FRONTIER_COLUMNS))
+    table["knee"] = False
+    for _, group in table.groupby(table["moves_budget"].astype(str), sort=False):
+        solved = group[group["verified"].astype(bool)]
+        knee = find_knee(solved["hiring_budget"].astype(float).tolist(),
+                         solved["weighted_shortfall"].astype(float).tolist())
+        if knee is not None:
+            table.loc[solved.index[knee], "knee"] = True
+    return Frontier(grid, table, tuple(results))

@@ -1,0 +1,188 @@
+"""How much of each limit a plan uses, recomputed from the instance and the plan tables alone.
+
+Marginal values and reasons both need to know which limits *bind*.  The answer is taken from
+the plan tables, the way the verifier reads them, not from solver row activities: a reason must
+stand on the published plan, and a limit the tables show slack on must never be cited.
+
+A limit binds when what is left of it cannot pay for one more unit of what it limits: less than
+one seat, one hire slot, one head away, one vacancy, or less money than the cheapest action the
+budget pays for (a hire starting that year, one detail period).
+"""
+
+from __future__ import annotations
+
+from collections import Counter, defaultdict
+from dataclasses import dataclass
+
+import pandas as pd
+
+from rebalance.instance import Instance
+from rebalance.plan import Plan
+
+__all__ = ["LIMIT_COLUMNS", "HireRow", "LimitUse", "hire_rows", "limit_use", "limit_use_frame"]
+
+LIMIT_COLUMNS = ("limit", "where", "period", "used", "cap", "slack", "binding")
+
+# Tolerance on money and heads: plan tables are written with float round-off.
+_TOL = 1e-6
+
+
+@dataclass(frozen=True)
+class LimitUse:
+    """One limit row: ``limit`` is a limit kind, ``where`` its scope (year, office, skill)."""
+
+    limit: str
+    where: str
+    period: str
+    used: float
+    cap: float
+    binding: bool
+
+    @property
+    def slack(self) -> float:
+        return self.cap - self.used
+
+
+@dataclass(frozen=True)
+class HireRow:
+    """One row of ``hires.csv`` (typed: the column ``count`` shadows a tuple method)."""
+
+    office: str
+    skill: str
+    start_period: str
+    count: int
+    funding: str
+    onboarding_cost: float
+
+
+def hire_rows(plan: Plan) -> list[HireRow]:
+    h = plan.hires
+    return [HireRow(str(o), str(k), str(s), int(n), str(f), float(c)) for o, k, s, n, f, c in zip(
+        h["office"].tolist(), h["skill"].tolist(), h["start_period"].tolist(),
+        h["count"].tolist(), h["funding"].tolist(), h["onboarding_cost"].tolist(), strict=True)]
+
+
+def _cheapest_hire(instance: Instance, year: str) -> float | None:
+    """Least hiring-budget money one hire starting in ``year`` needs (onboarding, and the
+    new-position salary of that year when no vacancy funds it)."""
+    T = len(instance.periods)
+    best: float | None = None
+    for t, period in enumerate(instance.periods):
+        if period.year != year:
+            continue
+        for skill in instance.skills:
+            if t < skill.time_to_hire:
+                continue
+            funded = any(n > 0 for (_, k), n in instance.vacancies.items() if k == skill.name)
+            salary = 0.0 if funded else skill.salary_per_period * sum(
+                1 for s in range(t, T) if instance.periods[s].year == year)
+            amount = skill.onboarding_cost + salary
+            best = amount if best is None else min(best, amount)
+    return best
+
+
+def _cheapest_detail(instance: Instance) -> float:
+    offices = [o.name for o in instance.offices]
+    costs = [instance.detail_cost_per_period(a, b) for a in offices for b in offices if a != b]
+    return min(costs) if costs else 0.0
+
+
+def limit_use(instance: Instance, plan: Plan) -> tuple[LimitUse, ...]:
+    """Every limit of ``instance`` with what ``plan`` uses of it, in a fixed order."""
+    names = instance.period_names
+    ix = {name: t for t, name in enumerate(names)}
+    T = len(names)
+    year_of = [p.year for p in instance.periods]
+    people = {p.person: p for p in instance.staff}
+    out: list[LimitUse] = []
+
+    # Home in force and whereabouts per person and period, from the tables.
+    home = {name: [p.home_office] * T for name, p in people.items()}
+    for row in plan.reassignments.itertuples(index=False):
+        for t in range(ix[str(row.period)], T):
+            home[str(row.person)][t] = str(row.to_office)
+    away: dict[tuple[str, int], str] = {}
+    for row in plan.details.itertuples(index=False):
+        away[(str(row.person), ix[str(row.period)])] = str(row.to_office)
+
+    # Spending per year, from the tables' own cost columns and the instance's salaries.
+    hiring: dict[str, float] = defaultdict(float)
+    moves: dict[str, float] = defaultdict(float)
+    starts: Counter[tuple[str, int]] = Counter()
+    held: Counter[tuple[str, int]] = Counter()
+    vacancy_used: Counter[tuple[str, str]] = Counter()
+    for hire in hire_rows(plan):
+        s = ix[hire.start_period]
+        n = hire.count
+        hiring[year_of[s]] += hire.onboarding_cost
+        if hire.funding == "new":
+            salary = instance.skill(hire.skill).salary_per_period * n
+            for t in range(s, T):
+                hiring[year_of[t]] += salary
+        else:
+            vacancy_used[(hire.office, hire.skill)] += n
+        starts[(hire.office, s)] += n
+        for t in range(s, T):
+            held[(hire.office, t)] += n
+    for frame in (plan.details, plan.reassignments):
+        for period, cost in zip(frame["period"].astype(str), frame["cost"].astype(float),
+                                strict=True):
+            moves[year_of[ix[period]]] += cost
+
+    cheapest_detail = _cheapest_detail(instance)
+    for year in instance.years:
+        budget = instance.budget(year)
+        if budget is None:
+            continue
+        if budget.hiring is not None:
+            step = _cheapest_hire(instance, year)
+            # No hire can start or be paid in that year: the cap cannot bind there.
+            binding = step is not None and budget.hiring - hiring[year] < step - _TOL
+            out.append(LimitUse("hiring_budget", year, "", hiring[year], budget.hiring,
+                                binding))
+        if budget.moves is not None:
+            binding = budget.moves - moves[year] < max(cheapest_detail, _TOL) - _TOL
+            out.append(LimitUse("moves_budget", year, "", moves[year], budget.moves, binding))
+
+    share = instance.policy.max_away_share
+    present: Counter[tuple[str, int]] = Counter()
+    gone: Counter[tuple[str, int]] = Counter()
+    arrived: Counter[tuple[str, int]] = Counter()
+    for name, person in people.items():
+        for t in range(T):
+            if person.is_present(t):
+                present[(home[name][t], t)] += 1
+    for (name, t), destination in away.items():
+        gone[(home[name][t], t)] += 1
+        arrived[(destination, t)] += 1
+    for office in instance.offices:
+        o = office.name
+        for t in range(T):
+            if share < 1.0:
+                cap = share * present[(o, t)]
+                out.append(LimitUse("away_share", o, names[t], float(gone[(o, t)]), cap,
+                                    cap - gone[(o, t)] < 1.0 - _TOL))
+            if office.seats is not None:
+                used = present[(o, t)] - gone[(o, t)] + arrived[(o, t)] + held[(o, t)]
+                out.append(LimitUse("seats", o, names[t], float(used), float(office.seats),
+                                    office.seats - used < 1.0 - _TOL))
+            if office.max_hires_per_period is not None:
+                cap_hires = office.max_hires_per_period
+                out.append(LimitUse("max_hires", o, names[t], float(starts[(o, t)]),
+                                    float(cap_hires), cap_hires - starts[(o, t)] < 1.0 - _TOL))
+    for (o, k), funded in sorted(instance.vacancies.items()):
+        used = vacancy_used[(o, k)]
+        out.append(LimitUse("vacancies", f"{k} at {o}", "", float(used), float(funded),
+                            funded - used < 1.0 - _TOL))
+    for skill in instance.skills:
+        # Time to hire: no hire of the skill can start before period index time_to_hire; it
+        # binds in exactly those periods (cap = earliest start index, used = period index).
+        for t in range(min(skill.time_to_hire, T)):
+            out.append(LimitUse("time_to_hire", skill.name, names[t], float(t),
+                                float(skill.time_to_hire), True))
+    return tuple(out)
+
+
+def limit_use_frame(uses: tuple[LimitUse, ...]) -> pd.DataFrame:
+    rows = [(u.limit, u.where, u.period, u.used, u.cap, u.slack, u.binding) for u in uses]
+    return pd.DataFrame(rows, columns=list(LIMIT_COLUMNS))

@@ -1,0 +1,271 @@
+"""Marginal values: what one more unit of each binding limit buys.
+
+Exact values come from re-solving the instance with that one limit relaxed by one documented
+unit (:class:`Steps`) and differencing the two verified plans: the MIP truth.  A fast estimate
+comes from the row duals of a linear programme built from the model arrays: the integer
+decisions are relaxed to within one unit of the plan's values (fixing them outright would make
+every limit row, which holds integer columns only, a constant with a meaningless dual).  The
+estimate ranks the limits and chooses which to re-solve when ``max_resolves`` is set.
+"""
+
+from __future__ import annotations
+
+import math
+from collections import defaultdict
+from collections.abc import Sequence
+from dataclasses import dataclass, replace
+
+import numpy as np
+import pandas as pd
+
+from rebalance.analysis.limits import limit_use
+from rebalance.analysis.scenarios import solve_many
+from rebalance.instance import Budget, Instance
+from rebalance.model import Model, build_model
+from rebalance.planning import PlanResult
+from rebalance.solve import SolveOptions
+
+__all__ = ["MARGINAL_COLUMNS", "Candidate", "MarginalValues", "Steps", "binding_candidates",
+           "lp_row_duals", "marginal_values"]
+
+MARGINAL_COLUMNS = (
+    "rank", "limit", "where", "current", "step", "unit", "binding_rows", "shortfall_reduction",
+    "cost_change", "estimate_shortfall_reduction", "status", "verified", "gap", "method",
+)
+
+
+@dataclass(frozen=True)
+class Steps:
+    """One unit of each limit: the amount a limit is relaxed by."""
+
+    budget: float = 100_000.0    # money, hiring or moves budget of one year
+    seats: int = 10              # seats at one office, every period
+    max_hires: int = 1           # hires that may start per period at one office
+    away_share: float = 0.05     # the policy's share of people away at once
+    vacancies: int = 1           # funded vacancies of one skill at one office
+    time_to_hire: int = 1        # periods less to hire one skill
+
+
+@dataclass(frozen=True)
+class Candidate:
+    """A binding limit and how to relax it."""
+
+    limit: str
+    where: str
+    current: float
+    step: float
+    unit: str
+    binding_rows: int
+
+    def relax(self, instance: Instance) -> Instance:
+        """``instance`` with this limit relaxed by ``step``."""
+        if self.limit in ("hiring_budget", "moves_budget"):
+            budgets = []
+            for b in instance.budgets:
+                if b.year == self.where and self.limit == "hiring_budget" and b.hiring is not None:
+                    b = Budget(b.year, b.hiring + self.step, b.moves)
+                elif b.year == self.where and b.moves is not None and self.limit == "moves_budget":
+                    b = Budget(b.year, b.hiring, b.moves + self.step)
+                budgets.append(b)
+            return instance.with_changes(budgets=tuple(budgets))
+        if self.limit in ("seats", "max_hires"):
+            offices = []
+            for o in instance.offices:
+                if o.name == self.where and self.limit == "seats" and o.seats is not None:
+                    o = replace(o, seats=o.seats + int(self.step))
+                elif (o.name == self.where and self.limit == "max_hires"
+                      and o.max_hires_per_period is not None):
+                    o = replace(o, max_hires_per_period=o.max_hires_per_period + int(self.step))
+                offices.append(o)
+            return instance.with_changes(offices=tuple(offices))
+        if self.limit == "away_share":
+            share = min(1.0, instance.policy.max_away_share + self.step)
+            return instance.with_changes(policy=replace(instance.policy, max_away_share=share))
+        if self.limit == "vacancies":
+            skill, office = self.where.split(" at ", 1)
+            vac = dict(instance.vacancies)
+            vac[(office, skill)] = vac.get((office, skill), 0) + int(self.step)
+            return instance.with_changes(vacancies=vac)
+        if self.limit == "time_to_hire":
+            # The step is negative (fewer periods); it shortens the time to hire.
+            skills = tuple(replace(s, time_to_hire=max(0, s.time_to_hire - abs(int(self.step))))
+                           if s.name == self.where else s for s in instance.skills)
+            return instance.with_changes(skills=skills)
+        raise ValueError(f"unknown limit {self.limit}")
+
+
+@dataclass(frozen=True)
+class MarginalValues:
+    table: pd.DataFrame   # MARGINAL_COLUMNS, best first (``marginal_values.csv``)
+    candidates: tuple[Candidate, ...]
+    results: tuple[PlanResult | None, ...]  # re-solve per candidate (None: not re-solved)
+
+
+def binding_candidates(base: PlanResult, steps: Steps = Steps()) -> list[Candidate]:
+    """The limits the base plan's tables show binding, one candidate per limit a planner can
+    change (a year's budget, an office's seats or hiring slots, the away share, ...)."""
+    instance = base.instance
+    plan = base.plan
+    if plan is None:
+        return []
+    uses = limit_use(instance, plan)
+    count: dict[tuple[str, str], int] = defaultdict(int)
+    for u in uses:
+        if u.binding:
+            key = (u.limit, "policy" if u.limit == "away_share" else u.where)
+            count[key] += 1
+    short_skills = set(plan.coverage.loc[
+        plan.coverage["shortfall_fte"] > 1e-6, "skill"].astype(str))
+    out: list[Candidate] = []
+    for (limit, where), n in count.items():
+        if limit == "hiring_budget":
+            budget = instance.budget(where)
+            current = budget.hiring if budget is not None and budget.hiring is not None else 0.0
+            out.append(Candidate(limit, where, current, steps.budget, "money", n))
+        elif limit == "moves_budget":
+            budget = instance.budget(where)
+            current = budget.moves if budget is not None and budget.moves is not None else 0.0
+            out.append(Candidate(limit, where, current, steps.budget, "money", n))
+        elif limit == "seats":
+            out.append(Candidate(limit, where, float(instance.office(where).seats or 0),
+                                 steps.seats, "seats", n))
+        elif limit == "max_hires":
+            out.append(Candidate(limit, where,
+                                 float(instance.office(where).max_hires_per_period or 0),
+                                 steps.max_hires, "hires per period", n))
+        elif limit == "away_share" and instance.policy.max_away_share < 1.0:
+            out.append(Candidate(limit, where, instance.policy.max_away_share,
+                                 steps.away_share, "share of people", n))
+        elif limit == "vacancies":
+            skill, office = where.split(" at ", 1)
+            out.append(Candidate(limit, where, float(instance.vacancies.get((office, skill), 0)),
+                                 steps.vacancies, "vacancies", n))
+        elif limit == "time_to_hire" and where in short_skills:
+            # It binds by definition before the first start; worth a re-solve only where
+            # demand of that skill goes uncovered.
+            out.append(Candidate(limit, where, float(instance.skill(where).time_to_hire),
+                                 -steps.time_to_hire, "periods", n))
+    return out
+
+
+def lp_row_duals(model: Model, x: np.ndarray, objective: np.ndarray) -> np.ndarray | None:
+    """Row duals of the LP with integer columns boxed to within one unit of ``x``.
+
+    Built from the model arrays with highspy, as :class:`rebalance.solve.HighsBackend` does.
+    HiGHS's row dual is the change of the objective per unit increase of the row's active
+    bound.  None when the LP is not solved to optimality.
+    """
+    import highspy
+
+    integer = model.is_integer
+    lower, upper = model.col_lower.copy(), model.col_upper.copy()
+    lower[integer] = np.maximum(lower[integer], np.rint(x[integer]) - 1.0)
+    upper[integer] = np.minimum(upper[integer], np.rint(x[integer]) + 1.0)
+    csc = model.matrix.tocsc()
+    lp = highspy.HighsLp()
+    lp.num_col_ = model.num_cols
+    lp.num_row_ = model.num_rows
+    lp.col_cost_ = objective.astype(float)
+    lp.col_lower_ = lower
+    lp.col_upper_ = upper
+    lp.row_lower_ = model.row_lower
+    lp.row_upper_ = model.row_upper
+    lp.a_matrix_.format_ = highspy.MatrixFormat.kColwise
+    lp.a_matrix_.start_ = csc.indptr.astype(np.int32)
+    lp.a_matrix_.index_ = csc.indices.astype(np.int32)
+    lp.a_matrix_.value_ = csc.data
+    h = highspy.Highs()
+    h.setOptionValue("output_flag", False)
+    h.passModel(lp)
+    h.run()
+    if h.getModelStatus() != highspy.HighsModelStatus.kOptimal:
+        return None
+    return np.asarray(h.getSolution().row_dual, dtype=float)
+
+
+def _rows_of(model: Model, candidate: Candidate, instance: Instance) -> list[tuple[int, float]]:
+    """Model rows of a candidate with the change of each row's upper bound when relaxed."""
+    out: list[tuple[int, float]] = []
+    for family in model.rows:
+        for i, label in enumerate(family.labels):
+            row = family.start + i
+            if candidate.limit == "hiring_budget" and family.name == "hiring_budget":
+                if label == f"hiring budget {candidate.where}":
+                    out.append((row, candidate.step))
+            elif candidate.limit == "moves_budget" and family.name == "moves_budget":
+                if label == f"moves budget {candidate.where}":
+                    out.append((row, candidate.step))
+            elif candidate.limit == family.name and family.name in ("seats", "max_hires"):
+                if label.startswith(f"{candidate.where} in "):
+                    out.append((row, candidate.step))
+            elif candidate.limit == "away_share" and family.name == "away_share":
+                share = instance.policy.max_away_share
+                # The bound is share x heads at home: it moves by step x heads.
+                if share > 0:
+                    out.append((row, candidate.step * model.row_upper[row] / share))
+            elif (candidate.limit == "vacancies" and family.name == "vacancies"
+                  and label == candidate.where):
+                out.append((row, candidate.step))
+    return out
+
+
+def marginal_values(base: PlanResult, options: SolveOptions, steps: Steps = Steps(),
+                    workers: int = 2, max_resolves: int | None = None,
+                    candidates: Sequence[Candidate] | None = None) -> MarginalValues:
+    """Rank the binding limits of ``base`` by what one more unit of each buys."""
+    instance = base.instance
+    chosen = list(candidates) if candidates is not None else binding_candidates(base, steps)
+    estimates = [math.nan] * len(chosen)
+    if base.solve.x is not None and chosen:
+        model = build_model(instance)
+        if model.num_cols == base.solve.x.size:
+            objective = (model.shortfall_weight if options.mode == "shortfall-first"
+                         else model.cost + options.shortfall_cost * model.shortfall_weight)
+            duals = lp_row_duals(model, base.solve.x, objective)
+            scale = 1.0 if options.mode == "shortfall-first" else options.shortfall_cost
+            if duals is not None:
+                for c, cand in enumerate(chosen):
+                    moved = _rows_of(model, cand, instance)
+                    if moved:
+                        estimates[c] = -sum(duals[r] * d for r, d in moved) / scale
+    order = sorted(range(len(chosen)), key=lambda c: (
+        -(estimates[c] if math.isfinite(estimates[c]) else math.inf), c))
+    resolve = order if max_resolves is None else order[:max_resolves]
+    relaxed = [chosen[c].relax(instance) for c in resolve]
+    solved = solve_many(relaxed, options, workers)
+    results: list[PlanResult | None] = [None] * len(chosen)
+    for c, solved_result in zip(resolve, solved, strict=True):
+        results[c] = solved_result
+    rows = []
+    plan = base.plan
+    for c, cand in enumerate(chosen):
+        result = results[c]
+        row: dict[str, object] = {
+            "limit": cand.limit, "where": cand.where, "current": cand.current,
+            "step": cand.step, "unit": cand.unit, "binding_rows": cand.binding_rows,
+            "estimate_shortfall_reduction": estimates[c],
+            "method": "re-solve with the limit relaxed; estimate from LP row duals",
+        }
+        if result is None:
+            row.update({"status": "not re-solved", "verified": False})
+        else:
+            row.update({"status": result.status.value, "verified": result.verified,
+                        "gap": _gap(base, result)})
+            if result.plan is not None and plan is not None and result.verified:
+                row["shortfall_reduction"] = plan.weighted_shortfall - \
+                    result.plan.weighted_shortfall
+                row["cost_change"] = result.plan.total_cost - plan.total_cost
+        rows.append(row)
+    table = pd.DataFrame(rows, columns=list(MARGINAL_COLUMNS))
+    table = table.sort_values(["shortfall_reduction", "cost_change"], ascending=[False, True],
+                              na_position="last", kind="stable")
+    table["rank"] = range(1, len(table) + 1)
+    index = list(table.index)
+    return MarginalValues(table.reset_index(drop=True), tuple(chosen[i] for i in index),
+                          tuple(results[i] for i in index))
+
+
+def _gap(base: PlanResult, result: PlanResult) -> float | None:
+    """The larger of the two solves' gaps: the difference is exact only when both are 0."""
+    gaps = [g for g in (base.solve.gap, result.solve.gap) if g is not None]
+    return max(gaps) if gaps else None

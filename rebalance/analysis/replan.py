@@ -1,0 +1,377 @@
+"""Minimal-change re-planning from an earlier plan at a given period.
+
+Everything before the period is fixed as it happened (details, reassignments, hires and the
+work split); hires whose recruitment has begun (start before ``at + time_to_hire``) can be
+neither undone nor added to; a detail under way at ``at`` runs to the end the old plan gave it
+unless early recall is allowed.  From ``at`` on, every change against the old plan carries a
+disruption cost, so the new plan moves away from the old one only where it pays.
+
+How: people are pooled by their whole old schedule (``make_plan``'s ``pool_key``), so every
+unit's members had identical plans and fixing a unit's counts fixes each person's past.  The
+``adjust`` hook then fixes column bounds and appends *change* columns ``plus, minus >= 0`` with
+``expr - plus + minus = old`` for each decision from ``at`` on (a detail count, a hire count,
+the step of a home column, i.e. a reassignment taking effect), costing the disruption rate.
+"""
+
+from __future__ import annotations
+
+import math
+from collections import defaultdict
+from collections.abc import Hashable
+from dataclasses import dataclass, replace
+
+import numpy as np
+import pandas as pd
+import scipy.sparse as sp
+
+from rebalance.analysis.limits import hire_rows
+from rebalance.instance import Instance, Person
+from rebalance.model import ColumnBlock, Model, RowFamily
+from rebalance.plan import Plan, cost_table, coverage_table
+from rebalance.planning import PlanResult, make_plan
+from rebalance.solve import SolveOptions
+from rebalance.verify import verify_plan
+
+__all__ = ["CHANGE_COLUMNS", "DisruptionCosts", "Replan", "ReplanError", "replan"]
+
+CHANGE_COLUMNS = ("change", "kind", "who", "skill", "period", "old", "new", "disruption_cost")
+
+
+@dataclass(frozen=True)
+class DisruptionCosts:
+    """Cost charged for each change against the old plan (money, like every other cost).
+
+    ``detail_per_period``: a person-period of detail added, dropped or sent elsewhere counts
+    once per period.  ``reassignment``: a reassignment added or dropped (moved in time or place:
+    both).  ``hire``: one hire more or fewer in an office, skill, start period and funding.
+    """
+
+    detail_per_period: float = 2_000.0
+    reassignment: float = 10_000.0
+    hire: float = 5_000.0
+
+
+@dataclass(frozen=True)
+class Replan:
+    """The new plan, what changed against the old one, and what the changes bought."""
+
+    at: int
+    result: PlanResult
+    changes: pd.DataFrame   # CHANGE_COLUMNS, one row per change (``changes.csv``)
+    summary: pd.DataFrame   # measure, old_plan, new_plan, difference (``replan.csv``)
+    disruption_cost: float
+    old_plan_violations: tuple[str, ...]
+
+
+class ReplanError(ValueError):
+    """The old plan cannot be carried into the model (its past no longer fits the data)."""
+
+    def __init__(self, problems: list[str]) -> None:
+        super().__init__("; ".join(problems))
+        self.problems = problems
+
+
+def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
+           costs: DisruptionCosts = DisruptionCosts(), allow_recall: bool = False) -> Replan:
+    """Re-plan ``instance`` from period index ``at`` keeping close to ``old``."""
+    T = len(instance.periods)
+    if not 0 <= at < T:
+        raise ReplanError([f"period index {at} is outside the horizon (0..{T - 1})"])
+    names = instance.period_names
+    ix = {name: t for t, name in enumerate(names)}
+    people = {p.person: p for p in instance.staff}
+    problems: list[str] = []
+    details: dict[str, dict[int, tuple[str, str]]] = defaultdict(dict)
+    for row in old.details.itertuples(index=False):
+        if str(row.person) not in people or str(row.period) not in ix:
+            problems.append(f"details.csv: person {row.person} in {row.period} is not in the "
+                            "instance")
+            continue
+        details[str(row.person)][ix[str(row.period)]] = (str(row.from_office),
+                                                          str(row.to_office))
+    moves: dict[str, tuple[int, str]] = {}
+    for row in old.reassignments.itertuples(index=False):
+        if str(row.person) not in people or str(row.period) not in ix:
+            problems.append(f"reassignments.csv: person {row.person} in {row.period} is not in "
+                            "the instance")
+            continue
+        moves[str(row.person)] = (ix[str(row.period)], str(row.to_office))
+    if problems:
+        raise ReplanError(problems)
+
+    def pool_key(person: Person) -> Hashable:
+        return (tuple(sorted(details.get(person.person, {}).items())),
+                moves.get(person.person))
+
+    captured: list[Model] = []
+
+    def adjust(model: Model) -> Model:
+        adjusted = _fix_and_price(instance, model, old, details, moves, at, costs, allow_recall)
+        captured.append(adjusted)
+        return adjusted
+
+    result = make_plan(instance, options, pool_key=pool_key, adjust=adjust)
+    disruption = 0.0
+    if result.solve.x is not None and captured:
+        block = captured[0].blocks["change"]
+        x = result.solve.x
+        disruption = float(captured[0].cost[block.start:block.stop]
+                           @ np.clip(x[block.start:block.stop], 0.0, None))
+    old_violations = tuple(str(v) for v in verify_plan(instance, old))
+    changes = _changes(instance, old, result.plan, at, costs) if result.plan is not None else \
+        pd.DataFrame(columns=list(CHANGE_COLUMNS))
+    summary = _summary(instance, old, result.plan, changes, disruption)
+    return Replan(at, result, changes, summary, disruption, old_violations)
+
+
+def _fix_and_price(instance: Instance, model: Model, old: Plan,
+                   details: dict[str, dict[int, tuple[str, str]]],
+                   moves: dict[str, tuple[int, str]], at: int, costs: DisruptionCosts,
+                   allow_recall: bool) -> Model:
+    offices = [o.name for o in instance.offices]
+    skills = [s.name for s in instance.skills]
+    names = instance.period_names
+    ix = {name: t for t, name in enumerate(names)}
+    staff = instance.staff
+    lower, upper = model.col_lower.copy(), model.col_upper.copy()
+    problems: list[str] = []
+
+    def fix(col: int, value: float, what: str) -> None:
+        if value > model.col_upper[col] + 1e-9:
+            problems.append(f"{what}: the old plan has {value:g} but the data now allow "
+                            f"{model.col_upper[col]:g}")
+        lower[col] = upper[col] = value
+
+    # -- details: old count per column; fixed before `at` and for runs under way ---------
+    det = model.blocks["detail"]
+    old_detail = np.zeros(len(det))
+    seen: set[tuple[int, int, int, int]] = set()
+    for j in range(len(det)):
+        u, a, b, t = (int(det.keys[k][j]) for k in ("unit", "home", "office", "period"))
+        rep = staff[model.units[u][0]].person
+        if details.get(rep, {}).get(t) == (offices[a], offices[b]):
+            old_detail[j] = len(model.units[u])
+            seen.add((u, a, b, t))
+    unit_of = {staff[p].person: u for u, members in enumerate(model.units) for p in members}
+    def under_way(person: str, t: int) -> bool:
+        """On detail on one route in every period from ``at - 1`` through ``t``."""
+        run = details.get(person, {})
+        return at > 0 and t >= at and all(run.get(s) == run.get(t) for s in range(at - 1, t + 1))
+
+    for person, by_period in details.items():
+        for t, (src, dst) in by_period.items():
+            key = (unit_of[person], offices.index(src), offices.index(dst), t)
+            if key not in seen and (t < at or (under_way(person, t) and not allow_recall)):
+                problems.append(f"detail of {person} in {names[t]} ({src} -> {dst}) is no longer "
+                                "possible with this data")
+    for j in range(len(det)):
+        u, a, b, t = (int(det.keys[k][j]) for k in ("unit", "home", "office", "period"))
+        col = det.start + j
+        if t < at:
+            fix(col, old_detail[j], f"detail {j}")
+            continue
+        if allow_recall or old_detail[j] == 0:
+            continue
+        if under_way(staff[model.units[u][0]].person, t):
+            lower[col] = old_detail[j]
+
+    # -- home columns: 1 from an old reassignment's period on --------------------------------
+    home = model.blocks["home"]
+    old_home = np.zeros(len(home))
+    for j in range(len(home)):
+        u, o, t = (int(home.keys[k][j]) for k in ("unit", "office", "period"))
+        move = moves.get(staff[model.units[u][0]].person)
+        if move is not None and move[1] == offices[o] and move[0] <= t:
+            old_home[j] = 1.0
+        if t < at:
+            fix(home.start + j, old_home[j], f"home column {j}")
+
+    # -- hires: fixed while recruitment is under way or done -------------------------------
+    hire = model.blocks["hire"]
+    old_hires: dict[tuple[int, int, int, int], float] = defaultdict(float)
+    for h in hire_rows(old):
+        old_hires[(offices.index(h.office), skills.index(h.skill), ix[h.start_period],
+                   int(h.funding == "new"))] += float(h.count)
+    old_hire = np.zeros(len(hire))
+    hire_cols: set[tuple[int, int, int, int]] = set()
+    for j in range(len(hire)):
+        o, k, s, new = (int(hire.keys[name][j]) for name in ("office", "skill", "period", "new"))
+        hire_cols.add((o, k, s, new))
+        old_hire[j] = old_hires.get((o, k, s, new), 0.0)
+        if s < at + instance.skills[k].time_to_hire:
+            fix(hire.start + j, old_hire[j], f"hire of {skills[k]} at {offices[o]}")
+    for (o, k, s, new), n in old_hires.items():
+        if (o, k, s, new) not in hire_cols and s < at + instance.skills[k].time_to_hire:
+            problems.append(f"{n:g} hire(s) of {skills[k]} at {offices[o]} from {names[s]} "
+                            "have started but the data no longer allow them")
+
+    # -- work before `at`: the split as it happened ------------------------------------------
+    work = model.blocks["work"]
+    old_work: dict[tuple[int, int, int, int], float] = defaultdict(float)
+    w = old.work
+    for person, period, office, skill, fte in zip(
+            w["person"].astype(str), w["period"].astype(str), w["office"].astype(str),
+            w["skill"].astype(str), w["fte"].astype(float), strict=True):
+        wt = ix.get(period)
+        if wt is None or wt >= at or person not in unit_of:
+            continue
+        old_work[(unit_of[person], offices.index(office), skills.index(skill), wt)] += fte
+    for j in range(len(work)):
+        wkey = (int(work.keys["unit"][j]), int(work.keys["office"][j]),
+                int(work.keys["skill"][j]), int(work.keys["period"][j]))
+        if wkey[3] < at:
+            value = min(old_work.get(wkey, 0.0), float(model.col_upper[work.start + j]))
+            lower[work.start + j] = max(0.0, value - 1e-7)
+            upper[work.start + j] = value
+    if problems:
+        raise ReplanError(problems)
+
+    # -- change columns from `at` on ---------------------------------------------------------
+    exprs: list[tuple[list[int], list[float], float, float, str, int]] = []
+    for j in range(len(det)):
+        t = int(det.keys["period"][j])
+        col = det.start + j
+        if t >= at and lower[col] < upper[col]:
+            exprs.append(([col], [1.0], old_detail[j], costs.detail_per_period,
+                          f"detail column {j}", 0))
+    home_col = {tuple(int(home.keys[k][j]) for k in ("unit", "office", "period")): home.start + j
+                for j in range(len(home))}
+    for (u, o, t), col in home_col.items():
+        if t < at:
+            continue
+        before = home_col.get((u, o, t - 1))
+        cols, vals = [col], [1.0]
+        old_step = old_home[col - home.start]
+        if before is not None:
+            cols.append(before)
+            vals.append(-1.0)
+            old_step -= old_home[before - home.start]
+        exprs.append((cols, vals, old_step, costs.reassignment,
+                      f"reassignment of unit {u} to {offices[o]} in {names[t]}", 1))
+    for j in range(len(hire)):
+        col = hire.start + j
+        if lower[col] < upper[col]:
+            exprs.append(([col], [1.0], old_hire[j], costs.hire, f"hire column {j}", 2))
+    return _with_change_columns(replace(model, col_lower=lower, col_upper=upper), exprs)
+
+
+def _with_change_columns(model: Model, exprs: list[tuple[list[int], list[float], float, float,
+                                                         str, int]]) -> Model:
+    """Append plus/minus columns and one equality row per expression (see module doc)."""
+    n, m, k = model.num_cols, model.num_rows, len(exprs)
+    rows, cols, vals = [], [], []
+    for i, (ecols, evals, _, _, _, _) in enumerate(exprs):
+        rows += [i] * (len(ecols) + 2)
+        cols += [*ecols, n + 2 * i, n + 2 * i + 1]
+        vals += [*evals, -1.0, 1.0]
+    bottom = sp.csr_matrix((vals, (rows, cols)), shape=(k, n + 2 * k))
+    top = sp.hstack([model.matrix, sp.csr_matrix((m, 2 * k))], format="csr")
+    rhs = np.asarray([e[2] for e in exprs], dtype=float)
+    rate = np.repeat(np.asarray([e[3] for e in exprs], dtype=float), 2)
+    blocks = dict(model.blocks)
+    blocks["change"] = ColumnBlock(
+        "change", n, n + 2 * k,
+        {"kind": np.repeat(np.asarray([e[5] for e in exprs], dtype=np.int64), 2),
+         "row": np.repeat(np.arange(k, dtype=np.int64), 2)})
+    family = RowFamily("replan_changes", m, m + k, tuple(e[4] for e in exprs))
+    return replace(
+        model,
+        matrix=sp.vstack([top, bottom], format="csr"),
+        row_lower=np.concatenate([model.row_lower, rhs]),
+        row_upper=np.concatenate([model.row_upper, rhs]),
+        col_lower=np.concatenate([model.col_lower, np.zeros(2 * k)]),
+        col_upper=np.concatenate([model.col_upper, np.full(2 * k, math.inf)]),
+        is_integer=np.concatenate([model.is_integer, np.zeros(2 * k, bool)]),
+        shortfall_weight=np.concatenate([model.shortfall_weight, np.zeros(2 * k)]),
+        cost=np.concatenate([model.cost, rate]),
+        blocks=blocks,
+        rows=(*model.rows, family),
+    )
+
+
+# --------------------------------------------------------------------------------------------
+# what changed, and what it bought
+
+
+def _changes(instance: Instance, old: Plan, new: Plan, at: int,
+             costs: DisruptionCosts) -> pd.DataFrame:
+    names = instance.period_names
+    ix = {name: t for t, name in enumerate(names)}
+    rows: list[tuple[object, ...]] = []
+
+    def details_of(plan: Plan) -> dict[tuple[str, int], str]:
+        return {(str(r.person), ix[str(r.period)]): f"{r.from_office} -> {r.to_office}"
+                for r in plan.details.itertuples(index=False)}
+
+    a, b = details_of(old), details_of(new)
+    for person, t in sorted(set(a) | set(b), key=lambda k: (k[1], k[0])):
+        before, after = a.get((person, t), ""), b.get((person, t), "")
+        if before != after:
+            change = "added" if not before else "dropped" if not after else "rerouted"
+            rows.append((change, "detail", person, "", names[t], before, after,
+                         costs.detail_per_period * (2 if change == "rerouted" else 1)))
+
+    def moves_of(plan: Plan) -> dict[str, tuple[str, str]]:
+        return {str(r.person): (str(r.period), f"{r.from_office} -> {r.to_office}")
+                for r in plan.reassignments.itertuples(index=False)}
+
+    ma, mb = moves_of(old), moves_of(new)
+    for person in sorted(set(ma) | set(mb)):
+        move_before, move_after = ma.get(person), mb.get(person)
+        if move_before == move_after:
+            continue
+        change = ("added" if move_before is None else "dropped" if move_after is None
+                  else "changed")
+        period = (move_after[0] if move_after is not None
+                  else move_before[0] if move_before is not None else "")
+        rows.append((change, "reassignment", person, "", period,
+                     "" if move_before is None else f"{move_before[1]} from {move_before[0]}",
+                     "" if move_after is None else f"{move_after[1]} from {move_after[0]}",
+                     costs.reassignment * (2 if change == "changed" else 1)))
+
+    def hires_of(plan: Plan) -> dict[tuple[str, str, str, str], int]:
+        out: dict[tuple[str, str, str, str], int] = defaultdict(int)
+        for h in hire_rows(plan):
+            out[(h.office, h.skill, h.start_period, h.funding)] += h.count
+        return out
+
+    ha, hb = hires_of(old), hires_of(new)
+    for key in sorted(set(ha) | set(hb), key=lambda k: (ix[k[2]], k)):
+        before_n, after_n = ha.get(key, 0), hb.get(key, 0)
+        if before_n != after_n:
+            office, skill, period, funding = key
+            rows.append(("more" if after_n > before_n else "fewer", f"hire ({funding})", office,
+                         skill, period, before_n, after_n, costs.hire * abs(after_n - before_n)))
+    frame = pd.DataFrame(rows, columns=list(CHANGE_COLUMNS))
+    del at  # every change is from `at` on by construction; the tests check it
+    return frame
+
+
+def _measures(instance: Instance, plan: Plan) -> dict[str, float]:
+    """Headline figures of a plan against ``instance`` (coverage and costs recomputed, so an
+    old plan is measured against the new data)."""
+    coverage = coverage_table(instance, plan.work, plan.hires)
+    spend = cost_table(instance, plan.details, plan.reassignments, plan.hires)
+    out = {
+        "weighted_shortfall": float(coverage["weighted_shortfall"].sum()),
+        "shortfall_fte_periods": float(coverage["shortfall_fte"].sum()),
+        "total_cost": float(spend["cost"].sum()),
+    }
+    by_kind = spend.groupby("kind")["cost"].sum()
+    for kind, cost in by_kind.items():
+        out[f"cost_{kind}"] = float(cost)
+    out["hires"] = float(plan.hires["count"].sum()) if len(plan.hires) else 0.0
+    out["detail_periods"] = float(len(plan.details))
+    out["reassignments"] = float(len(plan.reassignments))
+    return out
+
+
+def _summary(instance: Instance, old: Plan, new: Plan | None, changes: pd.DataFrame,
+             disruption: float) -> pd.DataFrame:
+    before = _measures(instance, old)
+    after = _measures(instance, new) if new is not None else {}
+    rows = [(k, before[k], after.get(k, math.nan), after.get(k, math.nan) - before[k])
+            for k in before]
+    rows.append(("changes", 0.0, float(len(changes)), float(len(changes))))
+    rows.append(("disruption_cost", 0.0, disruption, disruption))
+    return pd.DataFrame(rows, columns=["measure", "old_plan", "new_plan", "difference"])

@@ -153,6 +153,31 @@ def _new_highs():  # type: ignore[no-untyped-def]
     return h
 
 
+def _watch_highs(h, deadline: float, progress: Callable[[str], None] | None) -> None:  # type: ignore[no-untyped-def]
+    """Stop HiGHS at our own wall-clock deadline (it can overrun its time limit during root
+    work) and report best plan, bound and gap every few seconds while it searches."""
+    last = [0.0]
+
+    def interrupt(event) -> None:  # type: ignore[no-untyped-def]
+        now = time.perf_counter()
+        if now > deadline:
+            event.interrupt()
+        if progress is not None and now - last[0] >= PROGRESS_SECONDS:
+            out = event.data_out
+            if math.isfinite(out.mip_primal_bound) and math.isfinite(out.mip_dual_bound):
+                last[0] = now
+                progress(f"  searching: best plan {out.mip_primal_bound:.6g}, bound "
+                         f"{out.mip_dual_bound:.6g}, gap {out.mip_gap:.2%}, "
+                         f"{out.mip_node_count} nodes")
+
+    h.cbSimplexInterrupt += interrupt
+    h.cbIpmInterrupt += interrupt
+    h.cbMipInterrupt += interrupt
+
+
+PROGRESS_SECONDS = 5.0
+
+
 class HighsBackend:
     name = "highs"
 
@@ -187,6 +212,7 @@ class HighsBackend:
         h.setOptionValue("mip_rel_gap", float(options.relative_gap))
         h.setOptionValue("random_seed", int(options.seed))
         h.passModel(lp)
+        _watch_highs(h, started + max(time_limit, 0.05), options.progress)
         if start is not None:
             solution = highspy.HighsSolution()
             solution.col_value = list(start)
@@ -381,10 +407,14 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
     backend = BACKENDS[options.solver]()
     started = time.perf_counter()
     deadline = started + options.time_limit_seconds
+    report = options.progress
 
     def say(text: str) -> None:
-        if options.progress is not None:
-            options.progress(f"[{time.perf_counter() - started:7.1f}s] {text}")
+        if report is not None:
+            report(f"[{time.perf_counter() - started:7.1f}s] {text}")
+
+    # Backends report through the same line format, with the elapsed time of the whole run.
+    options = replace(options, progress=say if report is not None else None)
 
     conflicts = constant_conflicts(model)
     if conflicts:

@@ -103,11 +103,14 @@ def read_workbook(path: str | Path) -> Instance:
         _periods(sheets[PERIODS_SHEET], label(PERIODS_SHEET), settings, problems)
 
     name = book_path.stem
+    periods_sheet = PERIODS_SHEET in sheets
     try:
         instance = build_instance(name, settings, tables, problems)
     except InstanceError as exc:
-        raise InstanceError([_relabel(p, book, key_rows) for p in exc.problems]) from None
-    warnings = tuple(str(_relabel(p, book, key_rows)) for p in problems if p.is_warning)
+        raise InstanceError([_relabel(p, book, key_rows, periods_sheet)
+                             for p in exc.problems]) from None
+    warnings = tuple(str(_relabel(p, book, key_rows, periods_sheet)) for p in problems
+                     if p.is_warning)
     return instance.with_changes(warnings=warnings)
 
 
@@ -231,9 +234,10 @@ def _periods(sheet: _Sheet, label: str, settings: dict[str, Any],
         horizon["periods"] = listed
 
 
-def _relabel(problem: Problem, book: str, key_rows: Mapping[str, int]) -> Problem:
+def _relabel(problem: Problem, book: str, key_rows: Mapping[str, int],
+             periods_sheet: bool = False) -> Problem:
     """Rename a problem that :func:`build_instance` located in a folder's files."""
-    message = _sheet_words(problem.message, book)
+    message = _sheet_words(problem.message, periods_sheet)
     file = problem.file
     if file == "settings.toml":
         key = problem.column or ""
@@ -254,9 +258,12 @@ def _relabel(problem: Problem, book: str, key_rows: Mapping[str, int]) -> Proble
     return replace(problem, file=file, message=message)
 
 
-def _sheet_words(message: str, book: str) -> str:
+def _sheet_words(message: str, periods_sheet: bool) -> str:
     """'listed in offices.csv' reads 'listed in sheet offices' for a workbook."""
     message = re.sub(r"\b(" + "|".join(COLUMNS) + r")\.csv\b", r"sheet \1", message)
+    if periods_sheet:  # periods are named in their own sheet, not among the settings
+        message = message.replace("periods in settings.toml", f"periods in sheet {PERIODS_SHEET}")
+        message = message.replace("listed in settings.toml", f"listed in sheet {PERIODS_SHEET}")
     return message.replace("settings.toml", f"sheet {SETTINGS_SHEET}")
 
 

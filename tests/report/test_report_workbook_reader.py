@@ -71,6 +71,14 @@ def test_periods_sheet_lists_periods(tmp_path):
     wb.save(book)
     instance = read_workbook(book)
     assert instance.period_names == ("P1", "P2", "P3", "P4")
+    # A period name that is not in the periods sheet points there.
+    wb["demand"]["C2"] = "P9"
+    wb.save(book)
+    with pytest.raises(InstanceError) as caught:
+        read_workbook(book)
+    (problem,) = [p for p in caught.value.problems if not p.is_warning]
+    assert (problem.file, problem.row, problem.column) == ("tiny.xlsx[demand]", 2, "period")
+    assert problem.message.endswith("sheet periods")
     assert [p.hours_per_fte for p in instance.periods] == [480, 480, 400, 480]
     assert instance.years == ("2027",)
 

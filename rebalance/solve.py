@@ -14,6 +14,7 @@ import os
 import re
 import sys
 import tempfile
+import threading
 import time
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
@@ -254,6 +255,53 @@ _CBC_OBJECTIVE = re.compile(r"^Objective value:\s*(\S+)", re.M)
 _CBC_BOUND = re.compile(r"^Lower bound:\s*(\S+)", re.M)
 
 
+_CBC_PROGRESS = re.compile(
+    r"Cbc0010I After (\d+) nodes, \d+ on tree, (\S+) best solution, best possible (\S+)")
+
+
+_CBC_PLAN = re.compile(r"Cbc0012I Integer solution of (\S+)")
+
+
+class _CbcLogWatcher:
+    """Reads CBC's log while it runs and reports best plan, bound and gap."""
+
+    def __init__(self, path: Path, progress: Callable[[str], None] | None) -> None:
+        self.path = path
+        self.progress = progress
+        self._stop = threading.Event()
+        self._thread = threading.Thread(target=self._run, daemon=True)
+
+    def start(self) -> None:
+        if self.progress is not None:
+            self._thread.start()
+
+    def stop(self) -> None:
+        self._stop.set()
+        if self._thread.is_alive():
+            self._thread.join(timeout=2.0)
+
+    def _run(self) -> None:
+        assert self.progress is not None
+        seen: object = ""
+        while not self._stop.wait(PROGRESS_SECONDS):
+            try:
+                text = self.path.read_text(errors="replace")
+            except OSError:
+                continue
+            found = _CBC_PROGRESS.findall(text)
+            plans = _CBC_PLAN.findall(text)
+            if not found and plans and plans[-1] != seen:
+                seen = plans[-1]
+                self.progress(f"  searching: plan found with {float(seen):.6g}")
+            elif found and found[-1] != seen:
+                seen = found[-1]
+                nodes, best, bound = seen
+                gap = relative_gap(float(best), float(bound))
+                self.progress(f"  searching: best plan {float(best):.6g}, bound "
+                              f"{float(bound):.6g}, gap "
+                              f"{'-' if gap is None else f'{gap:.2%}'}, {nodes} nodes")
+
+
 def _bundled_cbc() -> str:
     from pulp.apis import coin_api
 
@@ -330,11 +378,15 @@ class CbcBackend:
                 options=[f"randomCbcSeed {options.seed + 1}"],
             )
             solver.tmpDir = tmp  # each solve its own folder
+            watcher = _CbcLogWatcher(log_path, options.progress)
             try:
+                watcher.start()
                 prob.solve(solver)
             except pulp.PulpSolverError as exc:
                 return BackendOutcome(Status.ERROR, None, None, None, str(exc),
                                       time.perf_counter() - started)
+            finally:
+                watcher.stop()
             log = log_path.read_text(errors="replace") if log_path.exists() else ""
         result = _CBC_RESULT.findall(log)
         words = result[-1].strip() if result else pulp.LpStatus.get(prob.status, "?")

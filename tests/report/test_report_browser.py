@@ -130,3 +130,17 @@ def test_tables_sort_when_a_header_is_clicked(browser):
     descending = values()
     assert descending == sorted(descending, reverse=True)
     assert headers[column].get_attribute("aria-sort") == "descending"
+
+
+def test_hovering_a_heat_map_cell_explains_it(browser):
+    _open(browser, tiny_analysis_folder() / "report.html")
+    text = browser.execute_script("""
+        const cell = document.querySelector('.chart[data-chart="heat"] rect[data-tip]');
+        const box = cell.getBoundingClientRect();
+        cell.dispatchEvent(new MouseEvent('mousemove', {bubbles: true,
+            clientX: box.x + 2, clientY: box.y + 2}));
+        const tip = document.querySelector('.tip');
+        return [tip.textContent, tip.style.opacity];  // the shown state, not mid-fade
+    """)
+    assert text[0].startswith("A, 2027-Q1") and "demanded" in text[0]
+    assert text[1] == "1"

@@ -8,10 +8,12 @@ solved as two stages: least weighted shortfall, then least cost with the shortfa
 
 from __future__ import annotations
 
+import contextlib
 import enum
 import math
 import os
 import re
+import signal
 import sys
 import tempfile
 import threading
@@ -302,6 +304,54 @@ class _CbcLogWatcher:
                               f"{'-' if gap is None else f'{gap:.2%}'}, {nodes} nodes")
 
 
+CBC_GRACE_SECONDS = 1.0
+
+
+class _Deadline:
+    """Stops this process's CBC children at a wall-clock deadline (Linux: found via /proc)."""
+
+    def __init__(self, deadline: float) -> None:
+        self.deadline = deadline
+        self.fired = False
+        self._stop = threading.Event()
+        self._thread = threading.Thread(target=self._run, daemon=True)
+
+    def start(self) -> None:
+        self._thread.start()
+
+    def stop(self) -> None:
+        self._stop.set()
+        self._thread.join(timeout=2.0)
+
+    def _run(self) -> None:
+        if self._stop.wait(max(0.0, self.deadline - time.perf_counter())):
+            return
+        self.fired = True
+        for sig, wait in ((signal.SIGINT, 1.0), (signal.SIGKILL, 0.0)):
+            children = _cbc_children()
+            if not children:
+                return
+            for pid in children:
+                with contextlib.suppress(OSError):
+                    os.kill(pid, sig)
+            if self._stop.wait(wait):
+                return
+
+
+def _cbc_children() -> list[int]:
+    me = str(os.getpid())
+    found = []
+    for stat in Path("/proc").glob("[0-9]*/stat"):
+        try:
+            fields = stat.read_text().split(") ")[-1].split()
+            name = stat.read_text().split("(")[1].split(")")[0]
+        except (OSError, IndexError):
+            continue
+        if fields[1] == me and name.startswith("cbc"):
+            found.append(int(stat.parent.name))
+    return found
+
+
 def _bundled_cbc() -> str:
     from pulp.apis import coin_api
 
@@ -370,7 +420,8 @@ class CbcBackend:
             solver = pulp.COIN_CMD(
                 path=_bundled_cbc(),
                 msg=False,
-                timeLimit=max(1.0, time_limit),
+                # PuLP's own model building already used part of the allowance.
+                timeLimit=max(1.0, time_limit - (time.perf_counter() - started)),
                 gapRel=options.relative_gap,
                 threads=options.threads,
                 warmStart=start is not None,
@@ -379,13 +430,22 @@ class CbcBackend:
             )
             solver.tmpDir = tmp  # each solve its own folder
             watcher = _CbcLogWatcher(log_path, options.progress)
+            # CBC can overrun its -sec limit in preprocessing; past our deadline it is asked to
+            # stop (SIGINT: it keeps its best plan), and killed if it does not.
+            guard = _Deadline(started + time_limit + CBC_GRACE_SECONDS)
             try:
                 watcher.start()
+                guard.start()
                 prob.solve(solver)
             except pulp.PulpSolverError as exc:
+                if guard.fired:
+                    return BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, None,
+                                          "stopped at the wall-clock limit",
+                                          time.perf_counter() - started)
                 return BackendOutcome(Status.ERROR, None, None, None, str(exc),
                                       time.perf_counter() - started)
             finally:
+                guard.stop()
                 watcher.stop()
             log = log_path.read_text(errors="replace") if log_path.exists() else ""
         result = _CBC_RESULT.findall(log)
@@ -490,7 +550,7 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
     if not first.status.has_plan or first.x is None or first.objective is None:
         return _finish(model, backend, options, stages, first, started, deadline)
     say(f"stage 1 done: weighted shortfall {first.objective:.6g} ({first.words})")
-    if deadline - time.perf_counter() <= 0.5:
+    if deadline - time.perf_counter() <= 1.0:
         say("no time left for stage 2; keeping the stage-1 plan")
         return _finish(model, backend, options, stages, first, started, deadline,
                        final_status=Status.FEASIBLE_WITH_GAP)
@@ -538,6 +598,7 @@ def polish(backend: Backend, model: Model, out: BackendOutcome,
 STAGE1_SHARE = 0.7   # of the whole time limit, at most, for the shortfall stage
 LP_SHARE = 0.35      # of a stage's time, at most, for its LP relaxation
 RENS_SHARE = 0.3     # of a stage's time, at most, for the rounding neighbourhood search
+MIN_HEURISTIC_SECONDS = 5.0  # below this a stage goes straight to branch and bound
 
 
 def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
@@ -554,7 +615,7 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
     t0 = time.perf_counter()
     budget = deadline - t0
     lp_bound = None
-    if model.num_integer and options.heuristics and budget > 2.0:
+    if model.num_integer and options.heuristics and budget > MIN_HEURISTIC_SECONDS:
         relaxed = replace(model, is_integer=np.zeros(model.num_cols, bool))
         lp = backend.run(relaxed, objective, extra_rows, options, LP_SHARE * budget, None)
         if lp.status is Status.OPTIMAL and lp.x is not None:
@@ -566,9 +627,9 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
             lower[integer] = np.maximum(lower[integer], np.floor(lp.x[integer] + 1e-6))
             upper[integer] = np.minimum(upper[integer], np.ceil(lp.x[integer] - 1e-6))
             left = deadline - time.perf_counter()
-            rens = backend.run(replace(model, col_lower=lower, col_upper=upper), objective,
+            rens = None if left < 2.0 else backend.run(replace(model, col_lower=lower, col_upper=upper), objective,
                                extra_rows, options, min(RENS_SHARE * budget, 0.5 * left), None)
-            if rens.x is not None and rens.objective is not None:
+            if rens is not None and rens.x is not None and rens.objective is not None:
                 say(f"  rounding search: plan with {rens.objective:.6g} in {rens.seconds:.1f}s")
                 if start is None or rens.objective < float(objective @ start) - 1e-9:
                     start = rens.x

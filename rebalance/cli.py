@@ -156,7 +156,8 @@ def cmd_generate(args: argparse.Namespace) -> int:
         periods=args.periods, seed=args.seed, multi_skill_share=args.multi_skill_share,
         pool_size=args.pool_size, surge_factor=args.surge_factor,
         budget_tightness=args.budget_tightness, vacancy_share=args.vacancy_share,
-        attrition_scale=args.attrition_scale, leaver_share=args.leaver_share)
+        attrition_scale=args.attrition_scale, leaver_share=args.leaver_share,
+        relocatable_share=args.relocatable_share, detail_share=args.detail_share)
     problems = spec.problems()
     if problems:
         for problem in problems:
@@ -233,6 +234,9 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--vacancy-share", type=float, help="funded vacancies per head")
     p.add_argument("--attrition-scale", type=float, help="multiplier on attrition rates")
     p.add_argument("--leaver-share", type=float, help="share of people with a last period")
+    p.add_argument("--relocatable-share", type=float,
+                   help="share of groups who may be reassigned to another office")
+    p.add_argument("--detail-share", type=float, help="share of groups who may go on detail")
     p.add_argument("--force", action="store_true", help="replace OUT if it exists")
     p.set_defaults(run=cmd_generate)
     return parser

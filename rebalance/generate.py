@@ -66,6 +66,10 @@ class GeneratorSpec:
     """Multiplier on the invented annual attrition rates (about 4-11% a year)."""
     leaver_share: float = 0.03
     """Share of people with a known last period inside the horizon."""
+    relocatable_share: float = 0.05
+    """Share of job groups whose people may be reassigned to another office for good."""
+    detail_share: float = 0.8
+    """Share of job groups whose people may go on detail."""
     start_year: int = 2027
 
     def problems(self) -> list[str]:
@@ -90,6 +94,8 @@ class GeneratorSpec:
         need(0.0 <= self.vacancy_share <= 0.5, "vacancy_share", "a number in [0, 0.5]")
         need(0.0 <= self.attrition_scale <= 4.0, "attrition_scale", "a number in [0, 4]")
         need(0.0 <= self.leaver_share <= 0.5, "leaver_share", "a number in [0, 0.5]")
+        need(0.0 <= self.relocatable_share <= 1.0, "relocatable_share", "a number in [0, 1]")
+        need(0.0 <= self.detail_share <= 1.0, "detail_share", "a number in [0, 1]")
         need(1900 <= self.start_year <= 9000, "start_year", "a year in [1900, 9000]")
         return out
 
@@ -270,7 +276,8 @@ def _templates(draw: _Draw, spec: GeneratorSpec, headcount: int, popularity: lis
             family = single[draw.weighted(popularity)]
         part_time = draw.chance(0.18)
         fte = (0.8, 0.6, 0.5)[draw.below(3)] if part_time else 1.0
-        template = _Template(family, fte, draw.chance(0.8), draw.chance(0.12))
+        template = _Template(family, fte, draw.chance(spec.detail_share),
+                             draw.chance(spec.relocatable_share))
         weight = draw.uniform(0.6, 1.4) * (0.5 if part_time else 1.0)
         if len(family) > 2:
             weight *= 0.5  # people with three skills are rarer still

@@ -163,6 +163,16 @@ def test_interchangeable_people_form_realistic_groups(tmp_path: Path) -> None:
     assert fine.groups > 1.5 * generated.groups
 
 
+def test_eligibility_knobs_move_the_shares(tmp_path: Path) -> None:
+    none = _write(spec_for_size("small", relocatable_share=0.0, detail_share=1.0),
+                  tmp_path / "none")
+    assert not any(p.can_relocate for p in none.staff)
+    assert all(p.can_detail for p in none.staff)
+    every = _write(spec_for_size("small", relocatable_share=1.0, detail_share=0.0),
+                   tmp_path / "every")
+    assert all(p.can_relocate and not p.can_detail for p in every.staff)
+
+
 def test_city_names_are_invented_and_seeded() -> None:
     a = generate(GeneratorSpec(seed=1)).cities
     assert a == generate(GeneratorSpec(seed=1)).cities

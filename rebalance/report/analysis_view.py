@@ -196,4 +196,22 @@ def analysis_payload(data: ReportData) -> AnalysisView:
         body += frame_table_html(frame, key)
         sections.append(section(key, title, e(lead), body))
         nav.append((key, title))
+    for name, frame in data.tables:
+        title, lead = TABLE_SECTIONS[name]
+        sections.append(section(name, title, e(lead), frame_table_html(frame, name, limit=500)))
+        nav.append((name, title))
     return AnalysisView(payload, tuple(sections), tuple(nav))
+
+
+# Titles and one-line explanations of the tables shown as they are (see inputs.TABLE_FILES).
+TABLE_SECTIONS = {
+    "reasons": ("Why each action", "For each hire, detail and reassignment, the pattern in the "
+                "plan that explains it, and for each remaining gap the limits that stop it being "
+                "covered."),
+    "replan": ("Re-plan against the old plan", "Headline figures of the old plan and the new "
+               "one made from the re-plan period on."),
+    "changes": ("What the re-plan changes", "Every action that differs from the old plan, "
+                "with the disruption cost charged for changing it."),
+    "scenario_actions": ("Actions that differ between scenarios", "Hires, details and "
+                         "reassignments that are not the same in every scenario's plan."),
+}

@@ -41,7 +41,8 @@ def plan_extras(instance_path: str | Path | None = None) -> Callable[[PlanResult
             raw = json.loads(summary.read_text(encoding="utf-8"))
             raw["instance_path"] = str(Path(instance_path).resolve())
             summary.write_text(json.dumps(raw, indent=2) + "\n", encoding="utf-8")
-        write_reports(report_data(result), folder)
+        # Analysis tables an analysis command wrote into this folder first are shown too.
+        write_reports(report_data(result, folder), folder)
 
     return extra
 

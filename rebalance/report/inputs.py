@@ -20,8 +20,8 @@ from rebalance.instance import Instance
 from rebalance.plan import Plan, read_plan
 from rebalance.planning import CAUTION, PlanResult, summary_dict
 
-__all__ = ["ANALYSIS_FILES", "ReportData", "RunSummary", "StageSummary", "report_data",
-           "report_data_from_folder"]
+__all__ = ["ANALYSIS_FILES", "TABLE_FILES", "ReportData", "RunSummary", "StageSummary",
+           "report_data", "report_data_from_folder", "stored_instance_path"]
 
 # Analysis tables a plan folder may hold (issue 5 writes them); each section shows only if
 # its file is there.  Several names are accepted for the scenario comparison.
@@ -29,6 +29,13 @@ ANALYSIS_FILES: dict[str, tuple[str, ...]] = {
     "frontier": ("frontier.csv",),
     "scenarios": ("scenarios.csv", "comparison.csv", "compare.csv"),
     "marginal_values": ("marginal_values.csv",),
+}
+# Further analysis tables shown as they are (no chart): name -> file.
+TABLE_FILES: dict[str, str] = {
+    "reasons": "reasons.csv",
+    "replan": "replan.csv",
+    "changes": "changes.csv",
+    "scenario_actions": "scenario_actions.csv",
 }
 
 
@@ -122,6 +129,8 @@ class ReportData:
     frontier: pd.DataFrame | None = None
     scenarios: pd.DataFrame | None = None
     marginal_values: pd.DataFrame | None = None
+    # TABLE_FILES present in the folder, in that order: (name, table).
+    tables: tuple[tuple[str, pd.DataFrame], ...] = ()
     notes: tuple[str, ...] = field(default=())
 
 
@@ -129,9 +138,9 @@ def report_data(result: PlanResult, plan_dir: str | Path | None = None) -> Repor
     """Report inputs from a fresh solve (analysis tables from ``plan_dir`` when given)."""
     if result.plan is None:
         raise ValueError("no plan to report")
-    analysis, notes = _analysis_tables(Path(plan_dir)) if plan_dir else ({}, [])
+    analysis, tables, notes = _analysis_tables(Path(plan_dir)) if plan_dir else ({}, (), [])
     return ReportData(result.instance, result.plan, RunSummary.from_dict(summary_dict(result)),
-                      notes=tuple(notes), **analysis)
+                      tables=tables, notes=tuple(notes), **analysis)
 
 
 def report_data_from_folder(plan_dir: str | Path, instance: Instance) -> ReportData:
@@ -149,29 +158,34 @@ def report_data_from_folder(plan_dir: str | Path, instance: Instance) -> ReportD
     else:
         notes.append("summary.json is missing; run details are unknown")
     raw.setdefault("instance", instance.name)
-    analysis, more = _analysis_tables(folder)
-    return ReportData(instance, read_plan(folder), RunSummary.from_dict(raw),
+    analysis, tables, more = _analysis_tables(folder)
+    return ReportData(instance, read_plan(folder), RunSummary.from_dict(raw), tables=tables,
                       notes=tuple(notes + more), **analysis)
 
 
-def _analysis_tables(folder: Path) -> tuple[dict[str, pd.DataFrame | None], list[str]]:
-    tables: dict[str, pd.DataFrame | None] = {}
+def _read_table(path: Path, notes: list[str]) -> pd.DataFrame | None:
+    try:
+        frame = pd.read_csv(path)
+    except (ValueError, OSError) as exc:  # pandas' parser errors are ValueErrors
+        notes.append(f"{path.name} could not be read ({exc}); its section is left out")
+        return None
+    frame.columns = [str(c).strip() for c in frame.columns]
+    return frame if len(frame) else None
+
+
+def _analysis_tables(folder: Path) -> tuple[dict[str, pd.DataFrame | None],
+                                             tuple[tuple[str, pd.DataFrame], ...], list[str]]:
+    charted: dict[str, pd.DataFrame | None] = {}
     notes: list[str] = []
     for name, files in ANALYSIS_FILES.items():
-        tables[name] = None
-        for file in files:
-            path = folder / file
-            if not path.is_file():
-                continue
-            try:
-                frame = pd.read_csv(path)
-            except (ValueError, OSError) as exc:  # pandas' parser errors are ValueErrors
-                notes.append(f"{file} could not be read ({exc}); its section is left out")
-                break
-            frame.columns = [str(c).strip() for c in frame.columns]
-            tables[name] = frame if len(frame) else None
-            break
-    return tables, notes
+        present = [folder / f for f in files if (folder / f).is_file()]
+        charted[name] = _read_table(present[0], notes) if present else None
+    tables = []
+    for name, file in TABLE_FILES.items():
+        frame = _read_table(folder / file, notes) if (folder / file).is_file() else None
+        if frame is not None:
+            tables.append((name, frame))
+    return charted, tuple(tables), notes
 
 
 def stored_instance_path(plan_dir: str | Path) -> str | None:

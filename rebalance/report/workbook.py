@@ -40,6 +40,10 @@ SHEET_NOTES = {
     "frontier": "budget frontier: least shortfall at each budget",
     "scenarios": "scenario comparison",
     "marginal_values": "what one more unit of each binding limit buys",
+    "reasons": "why each action is in the plan, and what stops each remaining gap",
+    "replan": "old plan against the re-plan",
+    "changes": "every change the re-plan makes to the old plan",
+    "scenario_actions": "actions that differ between scenarios",
 }
 
 
@@ -71,6 +75,7 @@ def write_workbook(data: ReportData, path: str | Path) -> Path:
         frame = getattr(data, name)
         if frame is not None:
             sheets.append((name, frame))
+    sheets.extend(data.tables)
     _summary_sheet(summary, data, [n for n, _ in sheets])
     for name, frame in sheets:
         _table_sheet(wb.create_sheet(name), frame)
@@ -119,7 +124,8 @@ def _fit_widths(ws: Any, columns: Sequence[str], frame: pd.DataFrame | None = No
             elif fmt == FTE and pd.api.types.is_numeric_dtype(sample):
                 width = max(width, len(f"{sample.abs().max():,.2f}") + 1)
             else:
-                width = max(width, int(sample.astype(str).str.len().max()))
+                lengths = [len(str(v)) for v in sample.tolist() if not pd.isna(v)]
+                width = max([width, *lengths])
         ws.column_dimensions[get_column_letter(i)].width = min(max(width + 2, 9), 48)
 
 

@@ -166,3 +166,35 @@ def test_frontier_over_both_budgets_draws_one_line_per_moves_budget(tmp_path):
     assert [s["label"] for s in frontier["series"]] == ["moves budget 10", "moves budget 20"]
     assert [[p["y"] for p in s["points"]] for s in frontier["series"]] == [[3.0, 2.0],
                                                                           [2.5, 1.0]]
+
+
+def test_tables_an_analysis_writes_before_the_reports_are_shown(tmp_path):
+    # The compare/replan/marginal commands write their tables into the staging folder and then
+    # call plan_extras, so the report of that one swap already shows them.
+    from report_cases import scenario_table
+
+    from rebalance import make_plan, options_from_instance
+    from rebalance.planning import write_outputs
+    from rebalance.report.files import plan_extras
+
+    instance = read_instance(TINY)
+    result = make_plan(instance, options_from_instance(instance, relative_gap=0.0))
+    reasons = pd.DataFrame({"action": ["hire"], "subject": ["B review"], "office": ["B"],
+                            "skill": ["review"], "first_period": ["2027-Q4"],
+                            "last_period": ["2027-Q4"], "amount": [1],
+                            "reason": ["b1 leaves after 2027-Q3"], "binding_limits": [""]})
+
+    def extra(result, folder: Path) -> None:
+        scenario_table(instance).to_csv(folder / "scenarios.csv", index=False)
+        reasons.to_csv(folder / "reasons.csv", index=False)
+        plan_extras(TINY)(result, folder)
+
+    out = tmp_path / "compare"
+    write_outputs(result, out, extra=extra)
+    page = _page(out)
+    assert 'data-chart="scenarios"' in page
+    assert 'id="reasons"' in page and "b1 leaves after 2027-Q3" in page
+    from openpyxl import load_workbook
+
+    assert load_workbook(out / "plan.xlsx").sheetnames[-2:] == ["scenarios", "reasons"]
+    assert json.loads((out / "summary.json").read_text())["instance_path"] == str(TINY)

@@ -131,7 +131,10 @@ def _marginal(frame: pd.DataFrame) -> dict[str, Any] | None:
         frame, ("shortfall_reduction", "weighted_shortfall_reduction", "delta_shortfall",
                 "shortfall_change", "value", "marginal_value"),
         ("shortfall_reduction", "reduction", "delta", "change", "per_unit", "shortfall",
-         "value"), avoid=("cost",))
+         "value"), avoid=("cost", "estimate"))
+    # A fast estimate (e.g. from LP duals) beside the exact re-solve is drawn as a tick.
+    estimate = find_column(frame, ("estimate_shortfall_reduction",), ("estimate",),
+                           avoid=("cost",))
     if value is None:
         return None
     texts = [c for c in frame.columns if not _numeric(frame, c)]
@@ -157,11 +160,14 @@ def _marginal(frame: pd.DataFrame) -> dict[str, Any] | None:
             text += f" (+{step_value:,g})"
         v = _finite([r[value]])[0]
         if v is not None:
-            rows.append({"label": text, "value": v})
+            row: dict[str, Any] = {"label": text, "value": v}
+            if estimate is not None:
+                row["estimate"] = _finite([r[estimate]])[0]
+            rows.append(row)
     rows.sort(key=lambda row: -abs(row["value"]))
     if not rows:
         return None
-    return {"value_label": value, "rows": rows[:25]}
+    return {"value_label": value, "estimate_label": estimate, "rows": rows[:25]}
 
 
 def analysis_payload(data: ReportData) -> AnalysisView:

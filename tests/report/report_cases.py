@@ -95,7 +95,8 @@ def marginal_table(instance: Instance) -> pd.DataFrame:
                      "shortfall_reduction": base["weighted_shortfall"]
                      - after["weighted_shortfall"],
                      "cost_change": after["total_cost"] - base["total_cost"],
-                     "method": "re-solve"})
+                     # No dual estimate here: a blank column, as a writer may leave it.
+                     "estimate_shortfall_reduction": None, "method": "re-solve"})
     return pd.DataFrame(rows)
 
 

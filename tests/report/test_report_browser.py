@@ -144,3 +144,25 @@ def test_hovering_a_heat_map_cell_explains_it(browser):
     """)
     assert text[0].startswith("A, 2027-Q1") and "demanded" in text[0]
     assert text[1] == "1"
+
+
+def test_marginal_values_with_estimates_draw_a_tick_per_row(browser, tmp_path):
+    # A drawing check: the table's shape follows the issue-5 marginal-values writer (exact
+    # re-solve and a dual estimate per limit); its numbers are inputs here, not results.
+    import pandas as pd
+    from report_cases import cli
+
+    folder = tmp_path / "plan"
+    shutil.copytree(tiny_plan_folder(), folder)
+    pd.DataFrame({"rank": [1, 2], "limit": ["hiring budget", "seats"], "where": ["2027", "B"],
+                  "current": [40000, 6], "step": [100000, 10], "unit": ["money", "seats"],
+                  "shortfall_reduction": [0.4, 0.0], "cost_change": [28000, 0],
+                  "estimate_shortfall_reduction": [0.5, 0.1], "status": ["optimal"] * 2,
+                  "verified": [True, True], "gap": [0.0, 0.0], "method": ["re-solve"] * 2}
+                 ).to_csv(folder / "marginal_values.csv", index=False)
+    assert cli("report", str(folder)).returncode == 0
+    assert _open(browser, folder / "report.html") == []
+    ticks = browser.execute_script("""
+        return Array.from(document.querySelectorAll('.chart[data-chart="marginal"] line'))
+            .map(l => l.getAttribute('data-tip'));""")
+    assert len(ticks) == 2 and all("estimate" in t for t in ticks)

@@ -370,12 +370,12 @@
     });
     return marks;
   }
-  function hbars(parent, labels, values, title, colour, W) {
+  function hbars(parent, labels, values, title, colour, W, ticksAt) {
     var lw = Math.min(300, 40 + 6.5 * Math.max.apply(null, labels.map(function (l) { return l.length; })));
     var rh = 24, H = labels.length * rh + 28, bw = W - lw - 80;
     var g = svg(parent, W, H);
     label(g, 0, 13, title, { "class": "title" });
-    var max = Math.max.apply(null, values.map(function (v) { return Math.abs(v || 0); })) || 1;
+    var max = Math.max.apply(null, values.concat(ticksAt || []).map(function (v) { return Math.abs(v || 0); })) || 1;
     var marks = 0;
     labels.forEach(function (l, i) {
       var v = values[i], yy = 22 + i * rh;
@@ -385,6 +385,12 @@
         fill: v < 0 ? C.short : colour, "data-tip": l + "\n" + title + ": " + fmt(v, 3) }, g);
       label(g, lw + Math.abs(v) / max * bw + 6, yy + 15, Number.isInteger(v) ? tick(v) : fmt(v, 2));
       marks++;
+      var t = ticksAt ? ticksAt[i] : null;
+      if (t !== null && t !== undefined) {
+        var tx = lw + Math.abs(t) / max * bw;
+        el("line", { x1: tx, x2: tx, y1: yy + 1, y2: yy + rh - 1, stroke: C.ink, "stroke-width": 2.5,
+          "data-tip": l + "\nestimate: " + fmt(t, 3) }, g);
+      }
     });
     return marks;
   }
@@ -401,8 +407,15 @@
     return marks;
   }
   function marginal(box, d) {
+    var estimates = d.rows.map(function (r) { return r.estimate === undefined ? null : r.estimate; });
+    var any = estimates.some(function (v) { return v !== null; });
+    if (any) {
+      legend(box, [{ color: C.move, text: (d.value_label || "").replace(/_/g, " ") + " (re-solve)" },
+        { color: C.ink, text: (d.estimate_label || "estimate").replace(/_/g, " "), line: true }]);
+    }
     return hbars(box, d.rows.map(function (r) { return r.label; }),
-      d.rows.map(function (r) { return r.value; }), d.value_label.replace(/_/g, " "), C.move, 900);
+      d.rows.map(function (r) { return r.value; }), d.value_label.replace(/_/g, " "), C.move, 900,
+      any ? estimates : null);
   }
 
   var CHARTS = { coverage: coverage, heat: heat, flows: flows, hires: hires, budget: budget,

@@ -48,7 +48,8 @@ COLUMNS = (
     "formulation", "time_limit_s", "relative_gap", "status", "verified", "columns", "rows",
     "integer_columns", "read_s", "build_s", "stage1_s", "stage2_s", "solve_s", "extract_s",
     "verify_s", "wall_s", "stage1_status", "stage1_gap", "stage2_status", "stage2_gap", "gap",
-    "weighted_shortfall", "total_cost", "peak_mib", "solver_peak_mib", "load_1min", "commit",
+    "weighted_shortfall", "total_cost", "peak_mib", "solver_peak_mib", "cpu_s", "load_1min",
+    "commit",
     "note",
 )
 
@@ -62,6 +63,13 @@ def _peak_mib() -> tuple[float, float]:
     own = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024  # KiB on Linux
     child = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024
     return round(own, 1), round(child, 1)
+
+
+def _cpu_seconds() -> float:
+    """CPU time of this process and its finished children (CBC): wall minus this is waiting."""
+    own = resource.getrusage(resource.RUSAGE_SELF)
+    child = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return round(own.ru_utime + own.ru_stime + child.ru_utime + child.ru_stime, 2)
 
 
 def run_case(case: dict[str, object]) -> dict[str, object]:
@@ -93,6 +101,7 @@ def run_case(case: dict[str, object]) -> dict[str, object]:
                 "integer_columns": model.num_integer, "read_s": round(read_s, 2),
                 "build_s": round(time.perf_counter() - t0, 2),
                 "wall_s": round(time.perf_counter() - started, 2), "peak_mib": own,
+                "cpu_s": _cpu_seconds(),
                 "note": "model built, not solved (--build-only)"}
     options = options_from_instance(
         instance, solver=case["backend"], time_limit_seconds=float(case["time_limit"]),  # type: ignore[arg-type]
@@ -136,6 +145,7 @@ def run_case(case: dict[str, object]) -> dict[str, object]:
         "total_cost": round(plan.total_cost) if plan is not None else "",
         "peak_mib": own,
         "solver_peak_mib": child if case["backend"] == "cbc" else "",
+        "cpu_s": _cpu_seconds(),
         "note": "; ".join(str(v) for v in result.violations[:2]),
     }
 
@@ -408,8 +418,9 @@ def write_doc(rows: list[dict[str, str]], csv_path: Path) -> None:
         "plan). Peak memory is the process's maximum resident set; for CBC, which PuLP runs as",
         "a separate program, the solver's own peak is listed beside it. Gaps are relative;",
         "stage 1 is least weighted shortfall, stage 2 least cost with that shortfall held.",
-        "*load* is the 1-minute load average when the case started (2 cores: above 1 means",
-        "another job shared the machine and the times are pessimistic).",
+        "*load* is the 1-minute load average when the case started and *CPU s* the CPU time",
+        "the case got (solver included): on 2 cores, a load above 2 or CPU s well below wall s",
+        "means other jobs shared the machine and the times are pessimistic.",
         "",
         "## Machine",
         "",
@@ -424,8 +435,8 @@ def write_doc(rows: list[dict[str, str]], csv_path: Path) -> None:
               "| size | staff / offices / skills / periods (groups) | backend | formulation "
               "| limit s | status | verified | columns | rows | integer | build s | stage 1 s "
               "| stage 2 s | wall s | stage 1 gap | stage 2 gap | peak MiB | solver MiB "
-              "| load | most time |",
-              "|" + "---|" * 20]
+              "| CPU s | load | most time |",
+              "|" + "---|" * 21]
     for r in rows:
         sizes = (f"{_cell(r['staff'], 'int')} / {r['offices']} / {r['skills']} / "
                  f"{r['periods']} ({_cell(r['groups'], 'int')})")
@@ -439,7 +450,7 @@ def write_doc(rows: list[dict[str, str]], csv_path: Path) -> None:
             f"| {_cell(r['stage1_s'])} | {_cell(r['stage2_s'])} | {_cell(r['wall_s'])} "
             f"| {_cell(r['stage1_gap'], 'gap')} | {_cell(r['stage2_gap'], 'gap')} "
             f"| {_cell(r['peak_mib'])} | {_cell(r['solver_peak_mib'])} "
-            f"| {_cell(r.get('load_1min', ''))} | {dominant} |")
+            f"| {_cell(r.get('cpu_s', ''))} | {_cell(r.get('load_1min', ''))} | {dominant} |")
     notes = [r for r in rows if r["note"]]
     if notes:
         lines += ["", "Notes on cases:", ""]

@@ -140,7 +140,7 @@ SETTINGS = """\
 [horizon]
 start = "2027-Q1"
 count = 8
-hours_per_fte = 450      # productive hours per FTE per quarter (common practice: about 1,800 a year)
+hours_per_fte = 450   # productive hours per FTE per quarter (common practice: ~1,800 a year)
 
 [policy]
 max_away_share = 0.15

@@ -14,10 +14,12 @@ Exit codes (also in the README):
 from __future__ import annotations
 
 import argparse
+import json
 import sys
 from collections.abc import Sequence
 from pathlib import Path
 
+from rebalance.instance import Instance
 from rebalance.readers import InstanceError, read_instance
 from rebalance.solve import Status
 
@@ -42,7 +44,7 @@ def _err(text: str) -> None:
     print(text, file=sys.stderr, flush=True)
 
 
-def _load(path: str):  # type: ignore[no-untyped-def]
+def _load(path: str) -> Instance | None:
     try:
         return read_instance(path)
     except InstanceError as exc:
@@ -175,6 +177,259 @@ def cmd_generate(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+# --------------------------------------------------------------------------------------------
+# analyses (issue 5): compare, replan, frontier, marginal
+
+
+def _analysis_options(instance, args: argparse.Namespace, progress: bool = False):
+    from rebalance.planning import options_from_instance
+
+    return options_from_instance(
+        instance, solver=args.solver, time_limit_seconds=args.time_limit,
+        relative_gap=args.gap, seed=args.seed,
+        progress=_err if progress and not args.quiet else None)
+
+
+def _plan_failed(result) -> int | None:
+    """Exit code when a solve gave no verified plan, else None."""
+    if result.plan is None:
+        _err(f"{result.instance.name}: no plan ({result.status.value}); nothing was written")
+        for conflict in result.solve.conflicts:
+            _err(f"  {conflict}")
+        return STATUS_EXIT.get(result.status, EXIT_SOLVER_ERROR)
+    if not result.verified:
+        _err(f"{result.instance.name}: the plan failed verification; nothing was written")
+        for violation in result.violations[:20]:
+            _err(f"  {violation}")
+        return EXIT_VERIFICATION_FAILED
+    return None
+
+
+def _folder_name(name: str) -> str:
+    return "".join(c if c.isalnum() or c in "-_." else "_" for c in name) or "scenario"
+
+
+def cmd_compare(args: argparse.Namespace) -> int:
+    from rebalance.analysis.output import write_tables
+    from rebalance.analysis.reasons import reasons
+    from rebalance.analysis.scenarios import ScenarioError, compare_scenarios, read_scenario
+    from rebalance.plan import write_plan
+    from rebalance.planning import CAUTION, summary_dict, write_outputs
+    from rebalance.report.files import plan_extras
+
+    instance = _load(args.instance)
+    if instance is None:
+        return EXIT_INVALID_INPUT
+    scenarios, problems = [], []
+    for path in args.scenario:
+        try:
+            scenarios.append(read_scenario(path, instance))
+        except ScenarioError as exc:
+            problems += exc.problems
+    if problems:
+        _err(f"{len(problems)} problem(s) in the scenario file(s); nothing was written")
+        for problem in problems:
+            _err(f"  {problem}")
+        return EXIT_INVALID_INPUT
+    names = ["base"] + [s.name for s in scenarios]
+    if len(set(names)) != len(names):
+        _err("scenario names must differ from each other and from 'base'")
+        return EXIT_INVALID_INPUT
+    comparison = compare_scenarios(instance, scenarios, _analysis_options(instance, args),
+                                   workers=args.workers)
+    columns = [c for c in ("scenario", "status", "verified", "gap", "weighted_shortfall",
+                           "total_cost", "hires", "detail_periods", "reassignments",
+                           "actions_differing") if c in comparison.table.columns]
+    print(comparison.table[columns].to_string(index=False))
+    for result in comparison.results:
+        code = _plan_failed(result)
+        if code is not None:
+            return code
+
+    def extra(result, folder: Path) -> None:
+        write_tables({"scenarios.csv": comparison.table,
+                      "scenario_costs.csv": comparison.costs,
+                      "scenario_actions.csv": comparison.actions,
+                      "reasons.csv": reasons(instance, result.plan).table}, folder)
+        for name, other in zip(comparison.names[1:], comparison.results[1:], strict=True):
+            if other.plan is None:
+                continue
+            sub = folder / "scenarios" / _folder_name(name)
+            sub.mkdir(parents=True)
+            write_plan(other.plan, sub)
+            (sub / "summary.json").write_text(json.dumps(summary_dict(other), indent=2) + "\n")
+            write_tables({"reasons.csv": reasons(other.instance, other.plan).table}, sub)
+        plan_extras(args.instance)(result, folder)
+
+    write_outputs(comparison.results[0], args.out, extra=extra)
+    print(f"\nbase plan, scenarios.csv and each scenario's plan written to {args.out}/")
+    print("\nCaution: " + CAUTION)
+    return EXIT_OK
+
+
+def cmd_replan(args: argparse.Namespace) -> int:
+    from rebalance.analysis.output import write_tables
+    from rebalance.analysis.reasons import reasons
+    from rebalance.analysis.replan import DisruptionCosts, ReplanError, replan
+    from rebalance.plan import PLAN_TABLES, read_plan
+    from rebalance.planning import CAUTION, write_outputs
+    from rebalance.report.files import plan_extras
+
+    instance = _load(args.instance)
+    if instance is None:
+        return EXIT_INVALID_INPUT
+    folder = Path(args.from_dir)
+    missing = [n for n in PLAN_TABLES if not (folder / f"{n}.csv").exists()]
+    if not folder.is_dir() or missing:
+        _err(f"{folder}: not a plan folder (missing {', '.join(missing) or 'the folder'})")
+        return EXIT_INVALID_INPUT
+    if args.at not in instance.period_names:
+        _err(f"--at {args.at}: not a period of the instance; expected one of "
+             f"{', '.join(instance.period_names)}")
+        return EXIT_USAGE
+    costs = DisruptionCosts(args.disruption_detail, args.disruption_reassignment,
+                            args.disruption_hire)
+    try:
+        out = replan(instance, read_plan(folder), instance.period_names.index(args.at),
+                     _analysis_options(instance, args, progress=True), costs,
+                     allow_recall=args.allow_recall)
+    except ReplanError as exc:
+        _err(f"{folder}: the old plan cannot be carried forward; nothing was written")
+        for problem in exc.problems:
+            _err(f"  {problem}")
+        return EXIT_INVALID_INPUT
+    if out.old_plan_violations:
+        _err(f"note: the old plan breaks {len(out.old_plan_violations)} rule(s) of the current "
+             "data (from the re-plan period on, the new plan repairs them)")
+    print(out.summary.to_string(index=False))
+    print(f"\n{len(out.changes)} change(s) against the old plan from {args.at} on")
+    if len(out.changes):
+        print(out.changes.head(30).to_string(index=False))
+    code = _plan_failed(out.result)
+    if code is not None:
+        return code
+
+    def extra(result, target: Path) -> None:
+        write_tables({"changes.csv": out.changes, "replan.csv": out.summary,
+                      "reasons.csv": reasons(instance, result.plan).table}, target)
+        plan_extras(args.instance)(result, target)
+
+    write_outputs(out.result, args.out, extra=extra)
+    print(f"\nnew plan, changes.csv and replan.csv written to {args.out}/")
+    print("\nCaution: " + CAUTION)
+    return EXIT_OK
+
+
+def cmd_frontier(args: argparse.Namespace) -> int:
+    from rebalance.analysis.frontier import BudgetGrid, budget_frontier, parse_grid
+    from rebalance.analysis.output import write_table
+
+    instance = _load(args.instance)
+    if instance is None:
+        return EXIT_INVALID_INPUT
+    try:
+        hiring, factor = parse_grid(args.hiring)
+        moves, moves_factor = parse_grid(args.moves) if args.moves else ((), factor)
+    except ValueError as exc:
+        _err(f"grid: {exc}")
+        return EXIT_USAGE
+    if args.moves and moves_factor != factor:
+        _err("grid: give --hiring and --moves both as factors (x) or both as amounts")
+        return EXIT_USAGE
+    frontier = budget_frontier(instance, BudgetGrid(hiring, moves, factor),
+                               _analysis_options(instance, args), workers=args.workers)
+    path = write_table(frontier.table, Path(args.out) / "frontier.csv")
+    print(frontier.table[["point", "hiring_budget", "moves_budget", "status", "gap",
+                          "weighted_shortfall", "total_cost", "knee"]].to_string(index=False))
+    print(f"\nwrote {path}")
+    failed = [r for r in frontier.results if r.plan is not None and not r.verified]
+    return EXIT_VERIFICATION_FAILED if failed else EXIT_OK
+
+
+def cmd_marginal(args: argparse.Namespace) -> int:
+    from rebalance.analysis.marginal import Steps, marginal_values
+    from rebalance.analysis.output import write_tables
+    from rebalance.analysis.reasons import reasons
+    from rebalance.planning import CAUTION, make_plan, write_outputs
+    from rebalance.report.files import plan_extras
+
+    instance = _load(args.instance)
+    if instance is None:
+        return EXIT_INVALID_INPUT
+    base = make_plan(instance, _analysis_options(instance, args, progress=True))
+    code = _plan_failed(base)
+    if code is not None:
+        return code
+    values = marginal_values(base, _analysis_options(instance, args),
+                             Steps(budget=args.budget_step), workers=args.workers,
+                             max_resolves=args.max_resolves)
+    print(values.table[["rank", "limit", "where", "step", "shortfall_reduction", "cost_change",
+                        "estimate_shortfall_reduction", "status"]].to_string(index=False))
+
+    def extra(result, folder: Path) -> None:
+        write_tables({"marginal_values.csv": values.table,
+                      "reasons.csv": reasons(instance, result.plan).table}, folder)
+        plan_extras(args.instance)(result, folder)
+
+    write_outputs(base, args.out, extra=extra)
+    print(f"\nplan, marginal_values.csv and reasons.csv written to {args.out}/")
+    print("\nCaution: " + CAUTION)
+    return EXIT_OK
+
+
+def _add_analysis_commands(sub) -> None:
+    def solver_options(p: argparse.ArgumentParser) -> None:
+        p.add_argument("--solver", choices=("highs", "cbc"))
+        p.add_argument("--time-limit", type=float, help="seconds for each solve")
+        p.add_argument("--gap", type=float, help="relative gap at which to stop, e.g. 0.01")
+        p.add_argument("--seed", type=int)
+        p.add_argument("--workers", type=int, default=2, help="solves in parallel (default 2)")
+        p.add_argument("-q", "--quiet", action="store_true", help="no progress on stderr")
+
+    p = sub.add_parser("compare", help="solve the base and surge scenarios side by side")
+    p.add_argument("instance")
+    p.add_argument("--scenario", action="append", required=True, metavar="FILE",
+                   help="scenario TOML file (repeat for several)")
+    p.add_argument("-o", "--out", required=True, help="folder for the base plan and tables")
+    solver_options(p)
+    p.set_defaults(run=cmd_compare)
+
+    p = sub.add_parser("replan", help="re-plan from a period, keeping close to an old plan")
+    p.add_argument("instance")
+    p.add_argument("--from", dest="from_dir", required=True, metavar="PLAN_DIR")
+    p.add_argument("--at", required=True, metavar="PERIOD", help="first period to re-plan")
+    p.add_argument("-o", "--out", required=True)
+    p.add_argument("--disruption-detail", type=float, default=2000.0,
+                   help="cost of each changed person-period of detail (default 2000)")
+    p.add_argument("--disruption-reassignment", type=float, default=10000.0,
+                   help="cost of each reassignment added or dropped (default 10000)")
+    p.add_argument("--disruption-hire", type=float, default=5000.0,
+                   help="cost of each hire more or fewer (default 5000)")
+    p.add_argument("--allow-recall", action="store_true",
+                   help="details under way may end early")
+    solver_options(p)
+    p.set_defaults(run=cmd_replan)
+
+    p = sub.add_parser("frontier", help="least shortfall and its cost over a budget grid")
+    p.add_argument("instance")
+    p.add_argument("--hiring", required=True, metavar="GRID",
+                   help="a,b,c or start:stop:step per year; a trailing x makes factors")
+    p.add_argument("--moves", metavar="GRID", help="moves caps to sweep as well")
+    p.add_argument("-o", "--out", required=True, help="folder for frontier.csv")
+    solver_options(p)
+    p.set_defaults(run=cmd_frontier)
+
+    p = sub.add_parser("marginal", help="plan, marginal values of binding limits, reasons")
+    p.add_argument("instance")
+    p.add_argument("-o", "--out", required=True)
+    p.add_argument("--budget-step", type=float, default=100_000.0,
+                   help="money a budget is relaxed by (default 100000)")
+    p.add_argument("--max-resolves", type=int,
+                   help="re-solve only this many limits, best LP-dual estimates first")
+    solver_options(p)
+    p.set_defaults(run=cmd_marginal)
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="rebalance",
@@ -239,6 +494,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--detail-share", type=float, help="share of groups who may go on detail")
     p.add_argument("--force", action="store_true", help="replace OUT if it exists")
     p.set_defaults(run=cmd_generate)
+    _add_analysis_commands(sub)
     return parser
 
 

@@ -125,13 +125,13 @@ class SolverSettings:
     seed: int = 0
 
 
-class FrozenMap(dict):  # type: ignore[type-arg]
+class FrozenMap(dict[Any, Any]):
     """A read-only dict that still pickles (process pools and Dask ship instances around)."""
 
     def _read_only(self, *args: Any, **kwargs: Any) -> NoReturn:
         raise TypeError("instance data is read-only; use Instance.with_changes")
 
-    __setitem__ = __delitem__ = clear = pop = popitem = setdefault = update = _read_only  # type: ignore[assignment]
+    __setitem__ = __delitem__ = clear = pop = popitem = setdefault = update = _read_only
 
     def __reduce__(self) -> tuple[Any, ...]:
         return (FrozenMap, (dict(self),))
@@ -184,13 +184,13 @@ class Instance:
         return tuple(dict.fromkeys(p.year for p in self.periods))
 
     def office(self, name: str) -> Office:
-        return self._office[name]  # type: ignore[attr-defined,no-any-return]
+        return self._office[name]  # type: ignore[attr-defined]
 
     def skill(self, name: str) -> Skill:
-        return self._skill[name]  # type: ignore[attr-defined,no-any-return]
+        return self._skill[name]  # type: ignore[attr-defined]
 
     def budget(self, year: str) -> Budget | None:
-        return self._budget.get(year)  # type: ignore[attr-defined,no-any-return]
+        return self._budget.get(year)  # type: ignore[attr-defined]
 
     # -- semantics shared by the model and the verifier ------------------------------------
     def detail_cost_per_period(self, from_office: str, to_office: str) -> float:
@@ -231,7 +231,7 @@ class Instance:
         return person.fte * self.retention(rate, period)
 
     def hire_fte(self, skill: str, office: str, start: int, period: int) -> float:
-        """Productive FTE in ``period`` of one hire of ``skill`` at ``office`` started at ``start``."""
+        """Productive FTE in ``period`` of one hire of ``skill`` at ``office`` from ``start``."""
         if period < start:
             return 0.0
         j = period - start  # 0 in the start period

@@ -63,7 +63,7 @@ class ColumnBlock:
 
 @dataclass
 class Model:
-    """A mixed-integer linear model: minimise ``objective @ x`` s.t. ``row_lower <= A x <= row_upper``.
+    """A mixed-integer linear model: min ``objective @ x``, ``row_lower <= A x <= row_upper``.
 
     Two objective vectors are kept: ``shortfall_weight`` (stage one) and ``cost`` (stage two);
     ``objective_for`` combines them for each objective mode.
@@ -557,11 +557,11 @@ def build_model(instance: Instance, pooled: bool = True,
 
     # vacancies: vacancy-funded hires per office and skill over the horizon
     b.begin("vacancies")
-    for (o, k), entries in sorted(hire_by_ok.items()):
-        cols = [c for c, _ in entries if H["new"][c - hire.start] == 0]
+    for (o, k), starts in sorted(hire_by_ok.items()):
+        funded = [c for c, _ in starts if H["new"][c - hire.start] == 0]
         vac = instance.vacancies.get((offices[o], skills[k]), 0)
-        if len(cols) > 1:
-            b.row(cols, [1.0] * len(cols), -INF, float(vac), f"{skills[k]} at {offices[o]}")
+        if len(funded) > 1:
+            b.row(funded, [1.0] * len(funded), -INF, float(vac), f"{skills[k]} at {offices[o]}")
 
     # max_hires: starts per office and period, all skills together
     b.begin("max_hires")

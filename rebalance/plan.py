@@ -13,9 +13,10 @@ import os
 import shutil
 import tempfile
 from collections import defaultdict
-from collections.abc import Iterator
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -46,6 +47,11 @@ PLAN_TABLES: dict[str, tuple[str, ...]] = {
     "costs": ("year", "kind", "cost"),
 }
 COST_KINDS = ("detail", "relocation", "onboarding", "new_position_salary")
+
+
+def records(frame: pd.DataFrame) -> Iterator[Any]:
+    """Rows as named tuples (typed loosely: the columns are checked where they are read)."""
+    return iter(frame.itertuples(index=False))
 
 
 @dataclass(frozen=True)
@@ -83,7 +89,7 @@ class Plan:
         return int(self.hires["count"].sum())
 
 
-def _frame(name: str, rows: list[tuple[object, ...]]) -> pd.DataFrame:
+def _frame(name: str, rows: Sequence[tuple[Any, ...]]) -> pd.DataFrame:
     return pd.DataFrame(rows, columns=list(PLAN_TABLES[name]))
 
 
@@ -241,11 +247,11 @@ def extract_plan(instance: Instance, model: Model, x: np.ndarray) -> Plan:
         total = sum(v for _, v in entries)
         avail = instance.available_fte(staff[p], t)
         scale = min(1.0, avail / total) if total > 0 else 0.0
-        for j, v in entries:
-            o, k = int(wb.keys["office"][j]), int(wb.keys["skill"][j])
+        for col, v in entries:
+            o_j, k_j = int(wb.keys["office"][col]), int(wb.keys["skill"][col])
             fte = v * scale
-            work_rows.append((staff[p].person, periods[t], offices[o], skills[k], fte,
-                              fte * staff[p].proficiency(skills[k])))
+            work_rows.append((staff[p].person, periods[t], offices[o_j], skills[k_j], fte,
+                              fte * staff[p].proficiency(skills[k_j])))
 
     order = {name: i for i, name in enumerate(periods)}
     work_rows.sort(key=lambda r: (str(r[0]), order[str(r[1])], str(r[3])))
@@ -264,7 +270,7 @@ def coverage_table(instance: Instance, work: pd.DataFrame, hires: pd.DataFrame) 
     staff_out = work.groupby(["office", "skill", "period"])["output_fte"].sum().to_dict()
     hire_out: dict[tuple[str, str, str], float] = defaultdict(float)
     period_ix = {name: i for i, name in enumerate(periods)}
-    for row in hires.itertuples(index=False):
+    for row in records(hires):
         s = period_ix[row.start_period]
         for t in range(s, len(periods)):
             hire_out[(row.office, row.skill, periods[t])] += row.count * instance.hire_fte(
@@ -287,11 +293,11 @@ def cost_table(instance: Instance, details: pd.DataFrame, reassignments: pd.Data
     year_of = {p.name: p.year for p in instance.periods}
     periods = instance.period_names
     totals: dict[tuple[str, str], float] = defaultdict(float)
-    for row in details.itertuples(index=False):
+    for row in records(details):
         totals[(year_of[row.period], "detail")] += row.cost
-    for row in reassignments.itertuples(index=False):
+    for row in records(reassignments):
         totals[(year_of[row.period], "relocation")] += row.cost
-    for row in hires.itertuples(index=False):
+    for row in records(hires):
         totals[(year_of[row.start_period], "onboarding")] += row.onboarding_cost
         if row.funding == "new":
             salary = instance.skill(row.skill).salary_per_period * row.count

@@ -219,7 +219,8 @@ class _Rows:
             return None
         bad = not math.isfinite(value)
         bad = bad or (integer and value != int(value))
-        bad = bad or (minimum is not None and (value <= minimum if open_minimum else value < minimum))
+        below = minimum is not None and (value <= minimum if open_minimum else value < minimum)
+        bad = bad or below
         bad = bad or (maximum is not None and value > maximum)
         if bad:
             self.error(column, f"'{raw}' is out of range; expected {what}")
@@ -470,7 +471,8 @@ def _unique(rows: _Rows, column: str, value: str | None, seen: dict[str, int]) -
 
 
 def _read_offices(table: RawTable, problems: list[Problem]) -> dict[str, Office]:
-    rows, out, seen = _Rows(table, problems), {}, {}
+    rows, out = _Rows(table, problems), {}
+    seen: dict[str, int] = {}
     for row in rows:
         name = rows.text(row, "office")
         location = rows.text(row, "location")
@@ -483,7 +485,8 @@ def _read_offices(table: RawTable, problems: list[Problem]) -> dict[str, Office]
 
 
 def _read_skills(table: RawTable, problems: list[Problem]) -> dict[str, Skill]:
-    rows, out, seen = _Rows(table, problems), {}, {}
+    rows, out = _Rows(table, problems), {}
+    seen: dict[str, int] = {}
     for row in rows:
         name = rows.text(row, "skill")
         salary = rows.number(row, "salary_per_period")
@@ -509,7 +512,8 @@ def _read_skills(table: RawTable, problems: list[Problem]) -> dict[str, Skill]:
 
 def _read_staff(table: RawTable, problems: list[Problem], offices: Mapping[str, Office],
                 skills: Mapping[str, Skill], period_index: Mapping[str, int]) -> list[Person]:
-    rows, out, seen = _Rows(table, problems), [], {}
+    rows, out = _Rows(table, problems), []
+    seen: dict[str, int] = {}
     for row in rows:
         person = rows.text(row, "person")
         home = rows.reference(row, "home_office", offices, "office", "offices.csv")
@@ -675,7 +679,8 @@ def _read_attrition(table: RawTable | None, problems: list[Problem],
 
 def _read_budgets(table: RawTable, problems: list[Problem],
                   periods: tuple[Period, ...]) -> list[Budget]:
-    rows, out, seen = _Rows(table, problems), [], {}
+    rows, out = _Rows(table, problems), []
+    seen: dict[str, int] = {}
     years = {p.year for p in periods}
     for row in rows:
         year = rows.text(row, "year")

@@ -21,7 +21,7 @@ import time
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from pathlib import Path
-from typing import Protocol
+from typing import Any, Protocol
 
 import numpy as np
 import scipy.sparse as sp
@@ -134,7 +134,7 @@ def relative_gap(objective: float | None, bound: float | None) -> float | None:
 _HIGHS_BANNER_SHOWN = False
 
 
-def _new_highs():  # type: ignore[no-untyped-def]
+def _new_highs() -> Any:
     """A silent Highs object; the first one made in a process prints a banner to fd 1."""
     import highspy
 
@@ -156,12 +156,12 @@ def _new_highs():  # type: ignore[no-untyped-def]
     return h
 
 
-def _watch_highs(h, deadline: float, progress: Callable[[str], None] | None) -> None:  # type: ignore[no-untyped-def]
+def _watch_highs(h: Any, deadline: float, progress: Callable[[str], None] | None) -> None:
     """Stop HiGHS at our own wall-clock deadline (it can overrun its time limit during root
     work) and report best plan, bound and gap every few seconds while it searches."""
     last = [0.0]
 
-    def interrupt(event) -> None:  # type: ignore[no-untyped-def]
+    def interrupt(event: Any) -> None:
         now = time.perf_counter()
         if now > deadline:
             event.interrupt()
@@ -284,7 +284,8 @@ class _CbcLogWatcher:
 
     def _run(self) -> None:
         assert self.progress is not None
-        seen: object = ""
+        seen_plan = ""
+        seen_progress: tuple[str, str, str] = ("", "", "")
         while not self._stop.wait(PROGRESS_SECONDS):
             try:
                 text = self.path.read_text(errors="replace")
@@ -292,12 +293,12 @@ class _CbcLogWatcher:
                 continue
             found = _CBC_PROGRESS.findall(text)
             plans = _CBC_PLAN.findall(text)
-            if not found and plans and plans[-1] != seen:
-                seen = plans[-1]
-                self.progress(f"  searching: plan found with {float(seen):.6g}")
-            elif found and found[-1] != seen:
-                seen = found[-1]
-                nodes, best, bound = seen
+            if not found and plans and plans[-1] != seen_plan:
+                seen_plan = plans[-1]
+                self.progress(f"  searching: plan found with {float(seen_plan):.6g}")
+            elif found and found[-1] != seen_progress:
+                seen_progress = found[-1]
+                nodes, best, bound = seen_progress
                 gap = relative_gap(float(best), float(bound))
                 self.progress(f"  searching: best plan {float(best):.6g}, bound "
                               f"{float(bound):.6g}, gap "
@@ -627,8 +628,10 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
             lower[integer] = np.maximum(lower[integer], np.floor(lp.x[integer] + 1e-6))
             upper[integer] = np.minimum(upper[integer], np.ceil(lp.x[integer] - 1e-6))
             left = deadline - time.perf_counter()
-            rens = None if left < 2.0 else backend.run(replace(model, col_lower=lower, col_upper=upper), objective,
-                               extra_rows, options, min(RENS_SHARE * budget, 0.5 * left), None)
+            narrowed = replace(model, col_lower=lower, col_upper=upper)
+            rens = None if left < 2.0 else backend.run(
+                narrowed, objective, extra_rows, options, min(RENS_SHARE * budget, 0.5 * left),
+                None)
             if rens is not None and rens.x is not None and rens.objective is not None:
                 say(f"  rounding search: plan with {rens.objective:.6g} in {rens.seconds:.1f}s")
                 if start is None or rens.objective < float(objective @ start) - 1e-9:

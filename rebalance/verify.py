@@ -10,11 +10,12 @@ from __future__ import annotations
 
 import json
 from collections import Counter, defaultdict
+from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
 
 from rebalance.instance import Instance
-from rebalance.plan import PLAN_TABLES, Plan, read_plan
+from rebalance.plan import PLAN_TABLES, Plan, read_plan, records
 
 __all__ = ["Violation", "verify_folder", "verify_plan"]
 
@@ -89,7 +90,7 @@ class _Checker:
     # -- references ----------------------------------------------------------------------
     def _references_ok(self) -> bool:
         ok = True
-        spec = {
+        spec: dict[str, dict[str, Mapping[str, object]]] = {
             "details": {"person": self.people, "period": self.period_ix,
                         "from_office": self.offices, "to_office": self.offices},
             "reassignments": {"person": self.people, "period": self.period_ix,
@@ -120,7 +121,7 @@ class _Checker:
         """Home in force per person and period, after the plan's reassignments."""
         home = {name: [p.home_office] * self.T for name, p in self.people.items()}
         seen: Counter[str] = Counter()
-        for row in self.plan.reassignments.itertuples(index=False):
+        for row in records(self.plan.reassignments):
             where = f"person {row.person} in {row.period}"
             person = self.people[row.person]
             t = self.period_ix[row.period]
@@ -147,7 +148,7 @@ class _Checker:
     def _check_details(self, home: dict[str, list[str]]) -> dict[tuple[str, int], str]:
         away: dict[tuple[str, int], str] = {}
         m = self.i.policy.max_consecutive_detail_periods
-        for row in self.plan.details.itertuples(index=False):
+        for row in records(self.plan.details):
             person = self.people[row.person]
             t = self.period_ix[row.period]
             where = f"person {row.person} in {row.period}"
@@ -185,7 +186,7 @@ class _Checker:
     # -- work ----------------------------------------------------------------------------
     def _check_work(self, home: dict[str, list[str]], away: dict[tuple[str, int], str]) -> None:
         totals: dict[tuple[str, int], float] = defaultdict(float)
-        for row in self.plan.work.itertuples(index=False):
+        for row in records(self.plan.work):
             person = self.people[row.person]
             t = self.period_ix[row.period]
             where = f"person {row.person} in {row.period}"
@@ -212,7 +213,7 @@ class _Checker:
     def _check_hires(self) -> None:
         per_office_period: Counter[tuple[str, int]] = Counter()
         vacancy_used: Counter[tuple[str, str]] = Counter()
-        for row in self.plan.hires.itertuples(index=False):
+        for row in records(self.plan.hires):
             where = f"{row.count} {row.skill} at {row.office} from {row.start_period}"
             skill = self.skills[row.skill]
             s = self.period_ix[row.start_period]
@@ -239,16 +240,16 @@ class _Checker:
             if cap is not None and count > cap:
                 self.flag("max_hires", f"{office} in {self.i.periods[s].name}",
                           f"{count} hires start; at most {cap} allowed")
-        for (office, skill), used in vacancy_used.items():
-            funded = self.i.vacancies.get((office, skill), 0)
+        for (office_name, skill_name), used in vacancy_used.items():
+            funded = self.i.vacancies.get((office_name, skill_name), 0)
             if used > funded:
-                self.flag("vacancies", f"{skill} at {office}",
+                self.flag("vacancies", f"{skill_name} at {office_name}",
                           f"{used} hires fill vacancies but {funded} are funded")
 
     # -- coverage ------------------------------------------------------------------------
     def _hire_output(self) -> dict[tuple[str, str, int], float]:
         out: dict[tuple[str, str, int], float] = defaultdict(float)
-        for row in self.plan.hires.itertuples(index=False):
+        for row in records(self.plan.hires):
             skill = self.skills[row.skill]
             s = self.period_ix[row.start_period]
             rate = self.i.attrition.get((row.skill, row.office),
@@ -262,12 +263,12 @@ class _Checker:
 
     def _check_coverage(self) -> None:
         staff_out: dict[tuple[str, str, int], float] = defaultdict(float)
-        for row in self.plan.work.itertuples(index=False):
+        for row in records(self.plan.work):
             staff_out[(row.office, row.skill, self.period_ix[row.period])] += float(
                 row.output_fte)
         hire_out = self._hire_output()
         reported = {(r.office, r.skill, str(r.period)): r
-                    for r in self.plan.coverage.itertuples(index=False)}
+                    for r in records(self.plan.coverage)}
         weighted = 0.0
         for d in self.i.demand:
             name = self.i.periods[d.period].name
@@ -300,11 +301,11 @@ class _Checker:
             for t in range(self.T):
                 if person.is_present(t):
                     present[(home[name][t], t)] += 1
-        for (name, t), office in away.items():
+        for (name, t), destination in away.items():
             gone[(home[name][t], t)] += 1
-            arrived[(office, t)] += 1
+            arrived[(destination, t)] += 1
         hires_held: Counter[tuple[str, int]] = Counter()
-        for row in self.plan.hires.itertuples(index=False):
+        for row in records(self.plan.hires):
             for t in range(self.period_ix[row.start_period], self.T):
                 hires_held[(row.office, t)] += int(row.count)
         for office in self.i.offices:
@@ -324,11 +325,11 @@ class _Checker:
     def _check_costs(self) -> None:
         year_of = [p.year for p in self.i.periods]
         spend: dict[tuple[str, str], float] = defaultdict(float)
-        for row in self.plan.details.itertuples(index=False):
+        for row in records(self.plan.details):
             spend[(year_of[self.period_ix[row.period]], "detail")] += float(row.cost)
-        for row in self.plan.reassignments.itertuples(index=False):
+        for row in records(self.plan.reassignments):
             spend[(year_of[self.period_ix[row.period]], "relocation")] += float(row.cost)
-        for row in self.plan.hires.itertuples(index=False):
+        for row in records(self.plan.hires):
             skill = self.skills[row.skill]
             s = self.period_ix[row.start_period]
             spend[(year_of[s], "onboarding")] += skill.onboarding_cost * float(row.count)
@@ -337,7 +338,7 @@ class _Checker:
                     spend[(year_of[t], "new_position_salary")] += (
                         skill.salary_per_period * float(row.count))
         reported = {(str(r.year), r.kind): float(r.cost)
-                    for r in self.plan.costs.itertuples(index=False)}
+                    for r in records(self.plan.costs)}
         for key in set(spend) | set(reported):
             if not _close(spend.get(key, 0.0), reported.get(key, 0.0), tol=1e-4):
                 self.flag("costs", f"{key[1]} in {key[0]}", f"costs.csv says "

@@ -12,7 +12,7 @@ from __future__ import annotations
 import itertools
 import math
 from collections import defaultdict
-from functools import lru_cache
+from functools import cache
 
 import numpy as np
 import pytest
@@ -94,7 +94,7 @@ def brute_force(instance: Instance) -> tuple[float, float, list[tuple[float, flo
     hire_slots = [(o.name, s.name, t) for o in instance.offices if o.max_hires_per_period != 0
                   for s in instance.skills for t in range(s.time_to_hire, T)]
 
-    @lru_cache(maxsize=None)
+    @cache
     def best_split(office: str, t: int, located: tuple[int, ...], hire_key: tuple) -> float:
         """Least weighted shortfall at one office and period by splitting people over skills."""
         hire_out = dict(hire_key)

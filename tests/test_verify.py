@@ -16,8 +16,9 @@ from rebalance.planning import write_outputs
 
 @pytest.fixture(scope="module")
 def tiny_plan():
-    from rebalance import read_instance
     from conftest import DATA
+
+    from rebalance import read_instance
 
     instance = read_instance(DATA / "tiny")
     return instance, solve_verified(instance)

@@ -11,7 +11,7 @@ from pathlib import Path
 
 import pandas as pd
 import pytest
-from report_cases import TINY, cli, tiny_analysis_folder, tiny_plan_folder
+from report_cases import TINY, tiny_analysis_folder, tiny_plan_folder
 
 from rebalance import read_instance, read_plan
 from rebalance.planning import CAUTION
@@ -117,24 +117,26 @@ def test_unrecognised_or_broken_analysis_tables_do_not_break_the_report(tmp_path
     assert 'id="marginal"' not in page  # an empty file has nothing to show
 
 
-def test_rebuild_command(tmp_path):
+def test_rebuild_command(tmp_path, capsys):
+    # In-process (rebalance.cli.main) to keep it quick; report_cases runs the CLI as a user does.
+    from rebalance.cli import main
+
     folder = _copy(tmp_path)
     (folder / "report.html").unlink()
     (folder / "plan.xlsx").unlink()
-    done = cli("report", str(folder))
-    assert done.returncode == 0, done.stderr
+    assert main(["report", str(folder)]) == 0
     assert (folder / "report.html").is_file() and (folder / "plan.xlsx").is_file()
     assert not [p.name for p in folder.iterdir() if p.name.startswith(".")]
     # Without a stored instance path the command asks for one; --instance supplies it.
     summary = json.loads((folder / "summary.json").read_text())
     summary.pop("instance_path")
     (folder / "summary.json").write_text(json.dumps(summary))
-    asked = cli("report", str(folder))
-    assert asked.returncode == 2 and "--instance" in asked.stderr
-    given = cli("report", str(folder), "--instance", str(TINY))
-    assert given.returncode == 0, given.stderr
-    missing = cli("report", str(tmp_path / "nowhere"))
-    assert missing.returncode == 3 and "Traceback" not in missing.stderr
+    capsys.readouterr()
+    assert main(["report", str(folder)]) == 2
+    assert "--instance" in capsys.readouterr().err
+    assert main(["report", str(folder), "--instance", str(TINY)]) == 0
+    assert main(["report", str(tmp_path / "nowhere")]) == 3
+    assert "Traceback" not in capsys.readouterr().err
 
 
 def test_long_tables_are_cut_with_a_pointer_to_the_full_files():

@@ -200,3 +200,15 @@ def test_tables_an_analysis_writes_before_the_reports_are_shown(tmp_path):
 
     assert load_workbook(out / "plan.xlsx").sheetnames[-2:] == ["scenarios", "reasons"]
     assert json.loads((out / "summary.json").read_text())["instance_path"] == str(TINY)
+
+
+def test_a_wide_gap_is_flagged_at_the_top(tmp_path):
+    folder = _copy(tmp_path)
+    instance = read_instance(TINY)
+    assert "a better plan may exist" not in _page(folder)  # tiny is solved to optimality
+    summary = json.loads((folder / "summary.json").read_text())
+    summary.update(status="feasible_with_gap", gap=0.4)
+    (folder / "summary.json").write_text(json.dumps(summary))
+    page = render_html(report_data_from_folder(folder, instance))
+    assert "a gap of 40%" in page and "a better plan may exist" in page
+    assert page.index("a better plan may exist") < page.index('id="glance"')

@@ -30,7 +30,7 @@ from rebalance.report.htmlparts import (
     section,
     table_html,
 )
-from rebalance.report.inputs import ReportData
+from rebalance.report.inputs import ReportData, quality_notes
 
 __all__ = ["render_html", "write_html"]
 
@@ -337,7 +337,7 @@ def render_html(data: ReportData) -> str:
     sections.append(section("run", "How it was found", "", _run_details(data)))
     toc = "".join(f'<a href="#{a}">{e(t)}</a>' for a, t in nav)
     words, tone = STATUS_WORDS.get(run.status, (run.status.replace("_", " "), "fair"))
-    notes = "".join(f'<p class="note">{e(n)}</p>' for n in (*_quality_notes(data), *data.notes))
+    notes = "".join(f'<p class="note">{e(n)}</p>' for n in (*quality_notes(data), *data.notes))
     return f"""<!DOCTYPE html>
 <html lang="en">
 <head>
@@ -371,24 +371,6 @@ the CSV files and plan.xlsx hold every row.</p></footer>
 </body>
 </html>
 """
-
-
-# Above this gap a stopped solve is flagged at the top of the page (common practice is to
-# quote a plan's gap; 5% is a judgement of when it changes what a reader should conclude).
-WIDE_GAP = 0.05
-
-
-def _quality_notes(data: ReportData) -> list[str]:
-    """Warnings a reader must see before the figures: a wide gap, a failed verification."""
-    run, notes = data.summary, []
-    if run.status == "feasible_with_gap" and (run.gap is None or run.gap > WIDE_GAP):
-        gap = "an unknown gap" if run.gap is None else f"a gap of {run.gap:.0%}"
-        notes.append(f"The solver stopped at its time limit with {gap} between this plan and "
-                     "the best bound it proved: a better plan may exist. Give it more time "
-                     "(--time-limit) before relying on these figures.")
-    if run.verified is False:
-        notes.append("This plan FAILED independent verification; see the end of the page.")
-    return notes
 
 
 def _run_details(data: ReportData) -> str:

@@ -21,7 +21,7 @@ from rebalance.plan import Plan, read_plan
 from rebalance.planning import CAUTION, PlanResult, summary_dict
 
 __all__ = ["ANALYSIS_FILES", "TABLE_FILES", "ReportData", "RunSummary", "StageSummary",
-           "report_data", "report_data_from_folder", "stored_instance_path"]
+           "quality_notes", "report_data", "report_data_from_folder", "stored_instance_path"]
 
 # Analysis tables a plan folder may hold (issue 5 writes them); each section shows only if
 # its file is there.  Several names are accepted for the scenario comparison.
@@ -132,6 +132,24 @@ class ReportData:
     # TABLE_FILES present in the folder, in that order: (name, table).
     tables: tuple[tuple[str, pd.DataFrame], ...] = ()
     notes: tuple[str, ...] = field(default=())
+
+
+# Above this gap a stopped solve is flagged at the top of the page (common practice is to
+# quote a plan's gap; 5% is a judgement of when it changes what a reader should conclude).
+WIDE_GAP = 0.05
+
+
+def quality_notes(data: ReportData) -> list[str]:
+    """Warnings a reader must see before the figures: a wide gap, a failed verification."""
+    run, notes = data.summary, []
+    if run.status == "feasible_with_gap" and (run.gap is None or run.gap > WIDE_GAP):
+        gap = "an unknown gap" if run.gap is None else f"a gap of {run.gap:.0%}"
+        notes.append(f"The solver stopped at its time limit with {gap} between this plan and "
+                     "the best bound it proved: a better plan may exist. Give it more time "
+                     "(--time-limit) before relying on these figures.")
+    if run.verified is False:
+        notes.append("This plan FAILED independent verification; the run details list why.")
+    return notes
 
 
 def report_data(result: PlanResult, plan_dir: str | Path | None = None) -> ReportData:

@@ -17,7 +17,7 @@ from typing import Any
 import pandas as pd
 
 from rebalance.plan import PLAN_TABLES
-from rebalance.report.inputs import ReportData
+from rebalance.report.inputs import ReportData, quality_notes
 
 __all__ = ["write_workbook"]
 
@@ -173,6 +173,12 @@ def _summary_sheet(ws: Any, data: ReportData, sheet_names: Sequence[str]) -> Non
                f"{instance.periods[-1].name}; {len(instance.offices)} offices, "
                f"{len(instance.staff)} staff; written "
                f"{dt.datetime.now(dt.UTC).strftime('%Y-%m-%d %H:%M')} UTC"])
+    warnings = quality_notes(data)
+    if warnings:
+        band("Read this first")
+        for text in warnings:
+            ws.append([text])
+            ws.cell(row=ws.max_row, column=1).font = Font(bold=True, color="FFB03A2E")
     band("Headline")
     line("status", run.status)
     line("weighted shortfall (FTE-periods)", plan.weighted_shortfall, FTE)

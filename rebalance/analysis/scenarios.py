@@ -9,6 +9,7 @@ the resulting plan tables.
 
 from __future__ import annotations
 
+import multiprocessing
 import tomllib
 from collections.abc import Sequence
 from concurrent.futures import ProcessPoolExecutor
@@ -258,7 +259,10 @@ def solve_many(instances: Sequence[Instance], options: SolveOptions,
         **{f: getattr(options, f) for f in options.__dataclass_fields__ if f != "progress"})
     if workers <= 1 or len(instances) <= 1:
         return [_solve(inst, plain) for inst in instances]
-    with ProcessPoolExecutor(max_workers=min(workers, len(instances))) as pool:
+    # Spawned, not forked: a child forked from a process that has run HiGHS inherits its
+    # thread pool in a broken state and spins.
+    with ProcessPoolExecutor(max_workers=min(workers, len(instances)),
+                             mp_context=multiprocessing.get_context("spawn")) as pool:
         return list(pool.map(_solve, instances, [plain] * len(instances)))
 
 

@@ -1,0 +1,256 @@
+"""A short reason for every hire, detail run and reassignment, and for every remaining shortfall
+the limits that keep it from being covered.
+
+Reasons are read off the plan tables and the instance (never off solver objects), so they can
+be checked the way the verifier checks a plan.  A shortfall cites only limits that
+:func:`rebalance.analysis.limits.limit_use` shows binding, and only those that could matter to
+it: a hire that could cover it is stopped by hiring budgets, hiring slots, seats or time to
+hire; a detail by the away share at offices with people of the skill, the moves budget of that
+year, or seats at the office.
+"""
+
+from __future__ import annotations
+
+from collections import defaultdict
+from dataclasses import dataclass
+
+import pandas as pd
+
+from rebalance.analysis.limits import LimitUse, hire_rows, limit_use
+from rebalance.instance import Instance
+from rebalance.plan import Plan
+
+__all__ = ["REASON_COLUMNS", "Reasons", "limit_key", "reasons"]
+
+REASON_COLUMNS = ("action", "subject", "office", "skill", "first_period", "last_period",
+                  "amount", "reason", "binding_limits")
+
+_EPS = 1e-6
+
+
+@dataclass(frozen=True)
+class Reasons:
+    table: pd.DataFrame  # REASON_COLUMNS (``reasons.csv``)
+    limits: tuple[LimitUse, ...]
+
+
+def limit_key(use: LimitUse) -> str:
+    """How a limit is named in ``binding_limits``: ``kind|where|period`` (period may be empty)."""
+    return f"{use.limit}|{use.where}|{use.period}"
+
+
+def _describe(use: LimitUse) -> str:
+    what = {"hiring_budget": "hiring budget", "moves_budget": "moves budget",
+            "max_hires": "hiring slots", "seats": "seats", "away_share": "away share",
+            "vacancies": "funded vacancies", "time_to_hire": "time to hire"}[use.limit]
+    if use.limit == "time_to_hire":
+        return (f"time to hire of {use.where} (no hire starts before period "
+                f"{int(use.cap) + 1})")
+    if use.limit in ("hiring_budget", "moves_budget"):
+        return f"{what} {use.where} ({use.used:,.0f} of {use.cap:,.0f} spent)"
+    when = f" in {use.period}" if use.period else ""
+    if use.limit == "away_share":
+        return f"{what} at {use.where}{when} ({use.used:g} away of {use.cap:g} allowed)"
+    return f"{what} at {use.where}{when} ({use.used:g} of {use.cap:g} used)"
+
+
+class _Context:
+    """Plan figures by office, skill and period index, shared by the reason writers."""
+
+    def __init__(self, instance: Instance, plan: Plan) -> None:
+        self.i = instance
+        self.names = instance.period_names
+        self.ix = {n: t for t, n in enumerate(self.names)}
+        c = plan.coverage
+        self.demand: dict[tuple[str, str, int], float] = {}
+        self.own: dict[tuple[str, str, int], float] = defaultdict(float)
+        self.staff_out: dict[tuple[str, str, int], float] = defaultdict(float)
+        self.short: dict[tuple[str, str, int], float] = {}
+        for o, k, p, dem, staff_out, hire_out, short in zip(
+                c["office"].astype(str), c["skill"].astype(str), c["period"].astype(str),
+                c["demand_fte"].astype(float), c["staff_output_fte"].astype(float),
+                c["hire_output_fte"].astype(float), c["shortfall_fte"].astype(float),
+                strict=True):
+            t = self.ix[p]
+            self.demand[(o, k, t)] = dem
+            self.own[(o, k, t)] = staff_out + hire_out
+            self.staff_out[(o, k, t)] = staff_out
+            self.short[(o, k, t)] = short
+        # Output of people on detail, by destination: removed to see the office's own cover.
+        self.away = {(str(p), self.ix[str(t)]): str(to) for p, t, to in zip(
+            plan.details["person"], plan.details["period"], plan.details["to_office"],
+            strict=True)}
+        self.visitor_out: dict[tuple[str, str, int], float] = defaultdict(float)
+        self.person_out: dict[tuple[str, int], dict[str, float]] = defaultdict(dict)
+        w = plan.work
+        for p, per, o, k, out in zip(w["person"].astype(str), w["period"].astype(str),
+                                     w["office"].astype(str), w["skill"].astype(str),
+                                     w["output_fte"].astype(float), strict=True):
+            t = self.ix[per]
+            if self.away.get((p, t)) == o:
+                self.visitor_out[(o, k, t)] += out
+            self.person_out[(p, t)][k] = self.person_out[(p, t)].get(k, 0.0) + out
+
+    def gap_without_visitors(self, office: str, skill: str, t: int) -> float:
+        key = (office, skill, t)
+        return self.demand.get(key, 0.0) - (self.own[key] - self.visitor_out[key])
+
+    def gap_before_hires(self, office: str, skill: str, t: int) -> float:
+        key = (office, skill, t)
+        return self.demand.get(key, 0.0) - self.staff_out[key]
+
+    def gap_without(self, person: str, office: str, skill: str, t: int) -> float:
+        key = (office, skill, t)
+        return self.demand.get(key, 0.0) - (self.own[key] - self.person_out.get(
+            (person, t), {}).get(skill, 0.0))
+
+
+def _periods(n: int) -> str:
+    return "period" if n == 1 else "periods"
+
+
+def reasons(instance: Instance, plan: Plan) -> Reasons:
+    """Reasons for ``plan``'s actions and shortfalls (see the module docstring)."""
+    ctx = _Context(instance, plan)
+    names, ix, T = ctx.names, ctx.ix, len(instance.periods)
+    rows: list[tuple[object, ...]] = []
+
+    # -- hires: how long the gap they fill lasts ---------------------------------------------
+    for h in hire_rows(plan):
+        s = ix[h.start_period]
+        out = [h.count * instance.hire_fte(h.skill, h.office, s, t) for t in range(T)]
+        gaps = [ctx.gap_before_hires(h.office, h.skill, t) for t in range(T)]
+        run = 0
+        first = next((t for t in range(s, T) if gaps[t] > _EPS), None)
+        if first is not None:
+            for t in range(first, T):
+                if gaps[t] <= _EPS:
+                    break
+                run += 1
+        funding = "fills a funded vacancy" if h.funding == "vacancy" else "a new position"
+        if first is None:
+            text = (f"adds {sum(out[s:]):.2f} FTE-periods of {h.skill} at {h.office} where "
+                    "demand is met without it; kept by the solver at no gain (review)")
+        else:
+            mean_gap = sum(gaps[first:first + run]) / run
+            lasting = ("to the end of the horizon" if first + run == T
+                       else f"until {names[first + run - 1]}")
+            text = (f"{h.skill} demand at {h.office} is above its staff's output for {run} "
+                    f"straight {_periods(run)} from {names[first]}, {lasting} (by "
+                    f"{mean_gap:.2f} FTE on average), so a hire ({funding})")
+        rows.append(("hire", f"{h.count} x {h.skill}", h.office, h.skill, h.start_period,
+                     names[T - 1], float(h.count), text, ""))
+
+    # -- details: runs of consecutive periods on one route per person -----------------------
+    runs: list[tuple[str, str, str, int, int]] = []
+    d = plan.details
+    by_person: dict[str, list[tuple[int, str, str]]] = defaultdict(list)
+    for p, per, a, b in zip(d["person"].astype(str), d["period"].astype(str),
+                            d["from_office"].astype(str), d["to_office"].astype(str),
+                            strict=True):
+        by_person[p].append((ix[per], a, b))
+    for p, items in sorted(by_person.items()):
+        items.sort()
+        start = items[0]
+        last = items[0]
+        for item in [*items[1:], (-9, "", "")]:
+            if item[0] == last[0] + 1 and item[1:] == last[1:]:
+                last = item
+                continue
+            runs.append((p, start[1], start[2], start[0], last[0]))
+            start = last = item
+    m = instance.policy.max_consecutive_detail_periods
+    for p, a, b, t1, t2 in runs:
+        out_by_skill: dict[str, float] = defaultdict(float)
+        for t in range(t1, t2 + 1):
+            for k, v in ctx.person_out.get((p, t), {}).items():
+                out_by_skill[k] += v
+        skill = max(out_by_skill, key=lambda k: out_by_skill[k]) if out_by_skill else ""
+        n = t2 - t1 + 1
+        if not skill:
+            text = f"detail to {b}; no work recorded there (review)"
+        else:
+            gap_periods = [t for t in range(T) if ctx.gap_without_visitors(b, skill, t) > _EPS]
+            before = t1 - 1 in gap_periods
+            after = t2 + 1 in gap_periods
+            spare = all(ctx.short.get((a, skill, t), 0.0) <= _EPS for t in range(t1, t2 + 1))
+            shape = (f"a {n}-{_periods(1)} spike" if not before and not after
+                     else "part of a longer gap" + (f" (details are limited to {m} periods in "
+                                                     "a row)" if m else ""))
+            source = (f"from {a}, which covers its own {skill} demand without them" if spare
+                      else f"from {a}, although {a} is short of {skill} itself then (the "
+                      f"demand at {b} weighs more)")
+            text = (f"{skill} demand at {b} exceeds what {b}'s own staff and hires cover in "
+                    f"{names[t1]}..{names[t2]}: {shape}, so a detail {source}")
+        rows.append(("detail", p, b, skill, names[t1], names[t2], float(n), text, ""))
+
+    # -- reassignments: a lasting gap at the new home -----------------------------------------
+    r = plan.reassignments
+    for p, per, a, b, cost in zip(r["person"].astype(str), r["period"].astype(str),
+                                  r["from_office"].astype(str), r["to_office"].astype(str),
+                                  r["cost"].astype(float), strict=True):
+        t0 = ix[per]
+        person = next(x for x in instance.staff if x.person == p)
+        left = [t for t in range(t0, T) if person.is_present(t)]
+        skill_gaps = {k: sum(1 for t in left if ctx.gap_without(p, b, k, t) > _EPS)
+                      for k, _ in person.skills}
+        skill = max(skill_gaps, key=lambda k: skill_gaps[k])
+        detail_cost = instance.detail_cost_per_period(a, b) * len(left)
+        text = (f"{skill} work at {b} needs them in {skill_gaps[skill]} of the {len(left)} "
+                f"{_periods(len(left))} from {per}: a lasting need, and one move ({cost:,.0f}) "
+                f"costs {'less than' if cost < detail_cost else 'no less than'} detailing them "
+                f"for all of it ({detail_cost:,.0f})")
+        rows.append(("reassignment", p, b, skill, per, names[T - 1], 1.0, text, ""))
+
+    # -- shortfalls: the binding limits that could matter -------------------------------------
+    uses = limit_use(instance, plan)
+    binding = [u for u in uses if u.binding]
+    for (o, k, t), short in sorted(ctx.short.items(), key=lambda kv: (kv[0][2], kv[0])):
+        if short <= _EPS:
+            continue
+        cited = _relevant(instance, binding, o, k, t)
+        if cited:
+            text = (f"{short:.2f} FTE short; held back by " +
+                    "; ".join(_describe(u) for u in cited))
+        else:
+            text = (f"{short:.2f} FTE short; no limit binds: nobody with {k} can be freed and "
+                    "a hire would add output only in whole heads, ramped (no binding limit)")
+        rows.append(("shortfall", f"{k} at {o}", o, k, names[t], names[t], short, text,
+                     ";".join(limit_key(u) for u in cited)))
+    return Reasons(pd.DataFrame(rows, columns=list(REASON_COLUMNS)), uses)
+
+
+def _relevant(instance: Instance, binding: list[LimitUse], office: str, skill: str,
+              t: int) -> list[LimitUse]:
+    names = instance.period_names
+    T = len(names)
+    tth = instance.skill(skill).time_to_hire
+    hire_possible = tth <= t
+    hire_years = {instance.periods[s].year for s in range(tth, T)} if hire_possible else set()
+    hire_periods = {names[s] for s in range(tth, t + 1)}
+    seat_periods = {names[s] for s in range(tth, T)} if hire_possible else set()
+    seat_periods.add(names[t])
+    sources = {p.home_office for p in instance.staff
+               if p.home_office != office and p.can_detail and p.is_present(t)
+               and p.proficiency(skill) > 0}
+    out = []
+    for u in binding:
+        if u.limit == "time_to_hire":
+            keep = u.where == skill and u.period == names[t]
+        elif u.limit == "hiring_budget":
+            keep = u.where in hire_years
+        elif u.limit == "max_hires":
+            keep = u.where == office and u.period in hire_periods
+        elif u.limit == "seats":
+            keep = u.where == office and u.period in seat_periods
+        elif u.limit == "away_share":
+            keep = u.where in sources and u.period == names[t]
+        elif u.limit == "moves_budget":
+            keep = bool(sources) and u.where == instance.periods[t].year
+        elif u.limit == "vacancies":
+            keep = hire_possible and u.where == f"{skill} at {office}"
+        else:
+            keep = False
+        if keep:
+            out.append(u)
+    return out

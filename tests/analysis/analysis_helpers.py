@@ -1,0 +1,26 @@
+"""Helpers shared by the analysis tests (not a conftest.py: that would shadow tests/conftest.py)."""
+
+from __future__ import annotations
+
+from conftest import solve_verified
+from hypothesis import assume
+from randomized import random_instance
+
+from rebalance import make_plan, options_from_instance
+from rebalance.instance import Instance
+from rebalance.planning import PlanResult
+from rebalance.solve import SolveOptions
+
+
+def exact_options(instance: Instance) -> SolveOptions:
+    """Exact solves (gap 0) with room to finish: the analyses' differences are then exact."""
+    return options_from_instance(instance, relative_gap=0.0, time_limit_seconds=60.0)
+
+
+def feasible_random(seed: int, **kwargs: int) -> tuple[Instance, PlanResult]:
+    """A random instance whose hard limits hold together (hypothesis skips the others: a
+    random seat count can be below the people already at home) and its verified plan."""
+    instance = random_instance(seed, **kwargs)
+    first = make_plan(instance, exact_options(instance))
+    assume(first.plan is not None)
+    return instance, solve_verified(instance)

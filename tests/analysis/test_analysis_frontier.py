@@ -1,0 +1,72 @@
+"""Budget frontier: grid parsing, the knee, monotonicity, and the process pool."""
+
+from __future__ import annotations
+
+import itertools
+
+import pytest
+from analysis_helpers import exact_options, feasible_random
+from conftest import solve_verified
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from rebalance.analysis.frontier import (
+    BudgetGrid,
+    budget_frontier,
+    find_knee,
+    parse_grid,
+    with_budgets,
+)
+
+
+def test_parse_grid() -> None:
+    assert parse_grid("0,50000,100000") == ((0.0, 50000.0, 100000.0), False)
+    assert parse_grid("0:100_000:25_000") == ((0.0, 25000.0, 50000.0, 75000.0, 100000.0), False)
+    assert parse_grid("0.5x,1x,2x") == ((0.5, 1.0, 2.0), True)
+    assert parse_grid("0:2:0.5x") == ((0.0, 0.5, 1.0, 1.5, 2.0), True)
+    for bad in ("", "1,2x", "5:1:1", "0:1", "-1,2", "a,b"):
+        with pytest.raises(ValueError):
+            parse_grid(bad)
+
+
+def test_knee_of_a_hand_drawn_curve() -> None:
+    # Scaled to [0, 1] the chord runs from (0, 1) to (1, 0); the point (0.25, 0.2) lies 0.55
+    # below it, farther than any other point (hand arithmetic).
+    x = [0, 25, 50, 75, 100]
+    y = [100, 20, 10, 5, 0]
+    assert find_knee(x, y) == 1
+    assert find_knee([0, 1, 2], [3, 2, 1]) is None  # a straight line has no knee
+    assert find_knee([0, 1], [1, 0]) is None
+    assert find_knee([0, 1, 2], [1, 1, 1]) is None
+
+
+@settings(max_examples=8, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(seed=st.integers(0, 10_000))
+def test_more_budget_never_raises_shortfall(seed: int) -> None:
+    # Property (hypothesis, random small instances, exact solves): a larger hiring cap only
+    # adds plans, so the least weighted shortfall cannot rise along the grid.
+    instance, _ = feasible_random(seed, people=3, periods=3)
+    grid = BudgetGrid((0.0, 10_000.0, 30_000.0, 80_000.0))
+    frontier = budget_frontier(instance, grid, exact_options(instance), workers=1)
+    table = frontier.table
+    assert table["verified"].all()
+    shortfall = table.sort_values("hiring_budget")["weighted_shortfall"].tolist()
+    for before, after in itertools.pairwise(shortfall):
+        assert after <= before + 1e-6
+    assert table["hiring_spend"].le(table["hiring_budget"] * len(instance.years) + 1e-6).all()
+
+
+def test_pool_gives_the_same_points_as_one_process(tiny) -> None:
+    grid = BudgetGrid((0.5, 1.0), as_factor=True)
+    options = exact_options(tiny)
+    pooled = budget_frontier(tiny, grid, options, workers=2).table
+    alone = budget_frontier(tiny, grid, options, workers=1).table
+    assert pooled["weighted_shortfall"].tolist() == pytest.approx(
+        alone["weighted_shortfall"].tolist())
+    # Reference: the half-budget point solved directly.
+    half = solve_verified(with_budgets(tiny, 0.5, None, as_factor=True))
+    assert half.plan is not None
+    assert pooled.loc[0, "weighted_shortfall"] == pytest.approx(half.plan.weighted_shortfall)
+    budget = tiny.budgets[0]
+    assert budget.hiring is not None
+    assert with_budgets(tiny, 0.5, None, True).budgets[0].hiring == budget.hiring / 2

@@ -1,0 +1,104 @@
+"""Surge scenarios: the file format, applying a scenario, and comparing plans."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+from analysis_helpers import feasible_random
+from conftest import ROOT, solve_verified
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from rebalance import options_from_instance, read_instance
+from rebalance.analysis.scenarios import (
+    DemandChange,
+    Scenario,
+    ScenarioError,
+    apply_scenario,
+    compare_scenarios,
+    read_scenario,
+)
+
+DEMO_SCENARIOS = ROOT / "instances" / "demo_scenarios"
+
+
+def test_demo_scenarios_read_against_the_demo_instance() -> None:
+    demo = read_instance(ROOT / "instances" / "demo")
+    files = sorted(DEMO_SCENARIOS.glob("*.toml"))
+    assert len(files) >= 2
+    for path in files:
+        scenario = read_scenario(path, demo)
+        surged = apply_scenario(demo, scenario)
+        before = sum(d.fte for d in demo.demand)
+        after = sum(d.fte for d in surged.demand)
+        assert after > before, path.name  # both demo scenarios are surges
+
+
+def test_broken_scenario_lists_every_problem(tmp_path: Path, tiny) -> None:
+    path = tmp_path / "bad.toml"
+    path.write_text('description = 3\ncolour = "red"\n[[demand]]\noffices = ["Z"]\n'
+                    'periods = ["2031-Q1"]\nmultiplier = "big"\n[[budget]]\nyears = ["1999"]\n')
+    with pytest.raises(ScenarioError) as caught:
+        read_scenario(path, tiny)
+    text = [str(p) for p in caught.value.problems]
+    assert all(t.startswith(str(path)) for t in text)
+    for needle in ("name: missing", "description: expected text", "colour: unknown key",
+                   "demand[1].offices: unknown office Z", "demand[1].periods: unknown period",
+                   "demand[1].multiplier: 'big' is not a number",
+                   "budget[1].years: unknown budget year 1999"):
+        assert any(needle in t for t in text), (needle, text)
+
+
+def test_apply_scenario_by_hand(tiny) -> None:
+    # Hand arithmetic on tests/data/tiny/demand.csv: B review is 2.0 FTE in 2027-Q2.
+    scenario = Scenario("s", "", (
+        DemandChange(("B",), ("review",), (1, 2), multiplier=1.5, add_fte=0.25),
+        DemandChange(("B",), ("intake",), (3,), add_fte=0.75, priority=3.0),
+    ))
+    surged = apply_scenario(tiny, scenario)
+    rows = {(d.office, d.skill, d.period): d for d in surged.demand}
+    assert rows[("B", "review", 1)].fte == pytest.approx(2.0 * 1.5 + 0.25)
+    assert rows[("B", "review", 2)].fte == pytest.approx(2.0 * 1.5 + 0.25)
+    assert rows[("B", "review", 0)].fte == pytest.approx(1.0)  # not selected
+    assert rows[("B", "intake", 3)].fte == pytest.approx(0.75)  # a new row
+    assert rows[("B", "intake", 3)].priority == 3.0
+    assert len(surged.demand) == len(tiny.demand) + 1
+    assert tiny.demand != surged.demand  # the base instance is untouched
+
+
+@settings(max_examples=12, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(seed=st.integers(0, 10_000), factor=st.floats(1.0, 2.5), extra=st.floats(0.0, 1.0),
+       period=st.integers(0, 2))
+def test_a_surge_that_only_adds_demand_never_lowers_shortfall(seed: int, factor: float,
+                                                              extra: float, period: int) -> None:
+    # Property (hypothesis, random small instances): more demand on the same limits can only
+    # leave the least weighted shortfall equal or higher; both are exact solves (gap 0).
+    instance, base = feasible_random(seed, people=3, periods=3)
+    scenario = Scenario("surge", "", (DemandChange(None, None, (period,), factor, extra),))
+    surged = solve_verified(apply_scenario(instance, scenario))
+    assert base.plan is not None and surged.plan is not None
+    assert surged.plan.weighted_shortfall >= base.plan.weighted_shortfall - 1e-6
+
+
+def test_compare_matches_separate_solves(tiny) -> None:
+    scenario = Scenario("b-surge", "", (DemandChange(("B",), ("review",), (3,), 2.0),))
+    options = options_from_instance(tiny, relative_gap=0.0, time_limit_seconds=60)
+    comparison = compare_scenarios(tiny, [scenario], options, workers=2)
+    assert comparison.names == ("base", "b-surge")
+    assert all(r.verified for r in comparison.results)
+    # Reference: each plan solved on its own, outside the comparison.
+    alone = [solve_verified(tiny), solve_verified(apply_scenario(tiny, scenario))]
+    table = comparison.table.set_index("scenario")
+    for name, result in zip(comparison.names, alone, strict=True):
+        assert result.plan is not None
+        assert table.loc[name, "weighted_shortfall"] == pytest.approx(
+            result.plan.weighted_shortfall, abs=1e-6)
+        assert table.loc[name, "total_cost"] == pytest.approx(result.plan.total_cost, abs=1e-3)
+    surged = comparison.results[1].plan
+    assert surged is not None
+    actions = comparison.actions
+    assert set(actions["scenario"]) <= {"b-surge"}
+    assert table.loc["b-surge", "actions_differing"] == len(actions)
+    costs = comparison.costs
+    assert costs[costs.scenario == "b-surge"]["cost"].sum() == pytest.approx(surged.total_cost)

@@ -152,12 +152,12 @@ def _marginal(frame: pd.DataFrame) -> dict[str, Any] | None:
                        avoid=("shortfall", "cost"))
     rows: list[dict[str, Any]] = []
     for _, r in frame.iterrows():
-        parts = [str(r[k]) for k in keys if not (isinstance(r[k], float) and math.isnan(r[k]))
-                 and str(r[k]).strip()]
+        parts = [str(r[k]).replace("_", " ") for k in keys
+                 if not (isinstance(r[k], float) and math.isnan(r[k])) and str(r[k]).strip()]
         step_value = _finite([r[step]])[0] if step else None
         text = " · ".join(parts) or f"row {len(rows) + 1}"
         if step_value is not None:
-            text += f" (+{step_value:,g})"
+            text += f" ({step_value:+,g})"
         v = _finite([r[value]])[0]
         if v is not None:
             row: dict[str, Any] = {"label": text, "value": v}

@@ -53,7 +53,10 @@ def table_html(headers: Sequence[str], rows: Sequence[Sequence[Any]], *, name: s
                 text = num(value, 2) if isinstance(value, float) else f"{value:,}"
                 cells.append(f'<td class="num" data-v="{value}">{e(text)}</td>')
             else:
-                cells.append(f"<td>{e('' if value is None else value)}</td>")
+                text = "" if value is None else str(value)
+                # Long prose (a reason, a method) wraps; short cells stay on one line.
+                wrap = ' class="long"' if len(text) > 48 else ""
+                cells.append(f"<td{wrap}>{e(text)}</td>")
         body.append("<tr>" + "".join(cells) + "</tr>")
     more = ""
     if limit is not None and len(rows) > limit:
@@ -78,7 +81,7 @@ def frame_table_html(frame: pd.DataFrame, name: str, limit: int = 200) -> str:
         for v, is_num, is_whole in zip(values, numeric, whole, strict=True):
             if is_num and isinstance(v, int | float) and math.isfinite(float(v)):
                 digits = 0 if is_whole or abs(float(v)) >= 1000 else 3
-                row.append((v, num(float(v), digits)))
+                row.append((v, num(float(v) + 0.0, digits)))  # + 0.0: no "-0" on show
             else:
                 row.append("" if v is None or (isinstance(v, float) and math.isnan(v)) else v)
         rows.append(row)

@@ -1,8 +1,9 @@
 """Plan folders for the report tests, made by real solves of the tiny instance.
 
-Besides the plan the CLI writes, the folder gets the analysis tables the report can show
-(budget frontier, scenario comparison, marginal values), each computed here by plain re-solves
-of tiny variants, so every figure the browser draws came from a solver run.
+Besides the plan the CLI writes, the folder gets the analysis tables the report can show:
+budget frontier, marginal values and reasons from the issue-5 analyses, and a scenario
+comparison by plain re-solves of tiny variants, so every figure the browser draws came from a
+solver run.
 """
 
 from __future__ import annotations
@@ -18,6 +19,7 @@ import pandas as pd
 
 from rebalance import make_plan, options_from_instance, read_instance
 from rebalance.instance import Budget, Instance
+from rebalance.solve import SolveOptions
 
 TESTS = Path(__file__).resolve().parent.parent
 TINY = TESTS / "data" / "tiny"
@@ -51,20 +53,17 @@ def _surge(instance: Instance, office: str, factor: float) -> Instance:
         replace(d, fte=d.fte * factor) if d.office == office else d for d in instance.demand))
 
 
+def _options(instance: Instance) -> SolveOptions:
+    return options_from_instance(instance, relative_gap=0.0, time_limit_seconds=60.0)
+
+
 def frontier_table(instance: Instance) -> pd.DataFrame:
-    """Least shortfall over a grid of both budgets (columns as the issue-5 frontier names them)."""
-    rows = [{"hiring_budget": h, "moves_budget": m,
-             **_solve(_with_budget(instance, hiring=h, moves=m))}
-            for m in (5_000.0, 30_000.0) for h in (0.0, 10_000.0, 20_000.0, 30_000.0, 60_000.0)]
-    frame = pd.DataFrame(rows)
-    frame["knee"] = False
-    # Knee of each line: the point farthest below the chord from its first point to its last.
-    for _, part in frame.groupby("moves_budget"):
-        x, y = part["hiring_budget"], part["weighted_shortfall"]
-        chord = y.iloc[0] + (y.iloc[-1] - y.iloc[0]) * (x - x.iloc[0]) / (x.iloc[-1] - x.iloc[0])
-        if (chord - y).max() > 1e-9:
-            frame.loc[(chord - y).idxmax(), "knee"] = True
-    return frame
+    """The issue-5 budget frontier over both budgets (each point an exact re-solve)."""
+    from rebalance.analysis.frontier import BudgetGrid, budget_frontier
+
+    grid = BudgetGrid(hiring=(0.0, 10_000.0, 20_000.0, 30_000.0, 60_000.0),
+                      moves=(5_000.0, 30_000.0))
+    return budget_frontier(instance, grid, _options(instance), workers=1).table
 
 
 def scenario_table(instance: Instance) -> pd.DataFrame:
@@ -74,30 +73,23 @@ def scenario_table(instance: Instance) -> pd.DataFrame:
 
 
 def marginal_table(instance: Instance) -> pd.DataFrame:
-    # Measured at a tight hiring budget, where tiny is short of cover, so limits bind.
-    instance = _with_budget(instance, hiring=20_000.0)
-    base = _solve(instance)
-    (budget,) = instance.budgets
-    office_b = instance.office("B")
-    relaxed = {
-        ("hiring budget", "2027", 10_000.0): _with_budget(
-            instance, hiring=(budget.hiring or 0) + 10_000),
-        ("moves budget", "2027", 5_000.0): _with_budget(
-            instance, moves=(budget.moves or 0) + 5_000),
-        ("max hires per period", "B", 1.0): instance.with_changes(offices=tuple(
-            replace(o, max_hires_per_period=(o.max_hires_per_period or 0) + 1)
-            if o.name == office_b.name else o for o in instance.offices)),
-    }
-    rows = []
-    for (limit, where, step), variant in relaxed.items():
-        after = _solve(variant)
-        rows.append({"limit": limit, "where": where, "step": step,
-                     "shortfall_reduction": base["weighted_shortfall"]
-                     - after["weighted_shortfall"],
-                     "cost_change": after["total_cost"] - base["total_cost"],
-                     # No dual estimate here: a blank column, as a writer may leave it.
-                     "estimate_shortfall_reduction": None, "method": "re-solve"})
-    return pd.DataFrame(rows)
+    """The issue-5 marginal values (exact re-solve and LP-dual estimate per binding limit),
+    measured at a tight hiring budget, where tiny is short of cover, so limits bind."""
+    from rebalance.analysis.marginal import Steps, marginal_values
+
+    tight = _with_budget(instance, hiring=20_000.0, moves=5_000.0)
+    base = make_plan(tight, _options(tight))
+    return marginal_values(base, _options(tight), Steps(budget=10_000.0), workers=1).table
+
+
+def reasons_table(instance: Instance) -> pd.DataFrame:
+    """The issue-5 reason for each action of tiny's plan."""
+    from rebalance.analysis.reasons import reasons
+
+    result = make_plan(instance, _options(instance))
+    if result.plan is None:
+        raise RuntimeError(f"tiny did not solve: {result.status}")
+    return reasons(instance, result.plan).table
 
 
 @lru_cache(maxsize=1)
@@ -123,6 +115,7 @@ def tiny_analysis_folder() -> Path:
     frontier_table(instance).to_csv(folder / "frontier.csv", index=False)
     scenario_table(instance).to_csv(folder / "scenarios.csv", index=False)
     marginal_table(instance).to_csv(folder / "marginal_values.csv", index=False)
+    reasons_table(instance).to_csv(folder / "reasons.csv", index=False)
     done = cli("report", str(folder))
     if done.returncode != 0:
         raise RuntimeError(done.stderr)

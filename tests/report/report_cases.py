@@ -1,9 +1,8 @@
 """Plan folders for the report tests, made by real solves of the tiny instance.
 
 Besides the plan the CLI writes, the folder gets the analysis tables the report can show:
-budget frontier, marginal values and reasons from the issue-5 analyses, and a scenario
-comparison by plain re-solves of tiny variants, so every figure the browser draws came from a
-solver run.
+budget frontier, scenario comparison, marginal values and reasons, each made by the issue-5
+analyses on tiny, so every figure the browser draws came from a solver run.
 """
 
 from __future__ import annotations
@@ -48,11 +47,6 @@ def _with_budget(instance: Instance, hiring: float | None = None,
         budget.moves if moves is None else moves),))
 
 
-def _surge(instance: Instance, office: str, factor: float) -> Instance:
-    return instance.with_changes(demand=tuple(
-        replace(d, fte=d.fte * factor) if d.office == office else d for d in instance.demand))
-
-
 def _options(instance: Instance) -> SolveOptions:
     return options_from_instance(instance, relative_gap=0.0, time_limit_seconds=60.0)
 
@@ -66,10 +60,19 @@ def frontier_table(instance: Instance) -> pd.DataFrame:
     return budget_frontier(instance, grid, _options(instance), workers=1).table
 
 
+def _comparison(instance: Instance):  # type: ignore[no-untyped-def]
+    from rebalance.analysis.scenarios import DemandChange, Scenario, compare_scenarios
+
+    surges = [Scenario("surge at B +50%", "half as much work again at B",
+                       (DemandChange(("B",), None, None, multiplier=1.5),)),
+              Scenario("surge at A +40%", "two-fifths more work at A",
+                       (DemandChange(("A",), None, None, multiplier=1.4),))]
+    return compare_scenarios(instance, surges, _options(instance), workers=1)
+
+
 def scenario_table(instance: Instance) -> pd.DataFrame:
-    variants = {"base": instance, "surge at B +50%": _surge(instance, "B", 1.5),
-                "surge at A +40%": _surge(instance, "A", 1.4)}
-    return pd.DataFrame([{"scenario": name, **_solve(v)} for name, v in variants.items()])
+    """The issue-5 scenario comparison of tiny and two surges (each its own solve)."""
+    return _comparison(instance).table
 
 
 def marginal_table(instance: Instance) -> pd.DataFrame:
@@ -113,7 +116,9 @@ def tiny_analysis_folder() -> Path:
         (folder / file.name).write_bytes(file.read_bytes())
     instance = read_instance(TINY)
     frontier_table(instance).to_csv(folder / "frontier.csv", index=False)
-    scenario_table(instance).to_csv(folder / "scenarios.csv", index=False)
+    comparison = _comparison(instance)
+    comparison.table.to_csv(folder / "scenarios.csv", index=False)
+    comparison.actions.to_csv(folder / "scenario_actions.csv", index=False)
     marginal_table(instance).to_csv(folder / "marginal_values.csv", index=False)
     reasons_table(instance).to_csv(folder / "reasons.csv", index=False)
     done = cli("report", str(folder))

@@ -19,7 +19,7 @@ def test_sheets_summary_first_then_every_plan_table():
     assert book.sheetnames == ["summary", *PLAN_TABLES]
     with_analysis = load_workbook(tiny_analysis_folder() / "plan.xlsx")
     assert with_analysis.sheetnames == ["summary", *PLAN_TABLES, "frontier", "scenarios",
-                                        "marginal_values", "reasons"]
+                                        "marginal_values", "reasons", "scenario_actions"]
 
 
 @pytest.mark.parametrize("table", list(PLAN_TABLES))

@@ -205,6 +205,16 @@ def _plan_failed(result) -> int | None:
     return None
 
 
+def _keep_frontier(out: str, folder: Path) -> None:
+    """A frontier.csv already in the output folder belongs to the instance, not to one plan:
+    carry it into the folder that replaces it."""
+    import shutil
+
+    old = Path(out) / "frontier.csv"
+    if old.is_file():
+        shutil.copy2(old, folder / "frontier.csv")
+
+
 def _folder_name(name: str) -> str:
     return "".join(c if c.isalnum() or c in "-_." else "_" for c in name) or "scenario"
 
@@ -259,6 +269,7 @@ def cmd_compare(args: argparse.Namespace) -> int:
             write_plan(other.plan, sub)
             (sub / "summary.json").write_text(json.dumps(summary_dict(other), indent=2) + "\n")
             write_tables({"reasons.csv": reasons(other.instance, other.plan).table}, sub)
+        _keep_frontier(args.out, folder)
         plan_extras(args.instance)(result, folder)
 
     write_outputs(comparison.results[0], args.out, extra=extra)
@@ -283,6 +294,15 @@ def cmd_replan(args: argparse.Namespace) -> int:
     if not folder.is_dir() or missing:
         _err(f"{folder}: not a plan folder (missing {', '.join(missing) or 'the folder'})")
         return EXIT_INVALID_INPUT
+    if args.scenario:
+        from rebalance.analysis.scenarios import ScenarioError, apply_scenario, read_scenario
+
+        try:
+            instance = apply_scenario(instance, read_scenario(args.scenario, instance))
+        except ScenarioError as exc:
+            for problem in exc.problems:
+                _err(f"  {problem}")
+            return EXIT_INVALID_INPUT
     if args.at not in instance.period_names:
         _err(f"--at {args.at}: not a period of the instance; expected one of "
              f"{', '.join(instance.period_names)}")
@@ -295,8 +315,8 @@ def cmd_replan(args: argparse.Namespace) -> int:
                      allow_recall=args.allow_recall)
     except ReplanError as exc:
         _err(f"{folder}: the old plan cannot be carried forward; nothing was written")
-        for problem in exc.problems:
-            _err(f"  {problem}")
+        for text in exc.problems:
+            _err(f"  {text}")
         return EXIT_INVALID_INPUT
     if out.old_plan_violations:
         _err(f"note: the old plan breaks {len(out.old_plan_violations)} rule(s) of the current "
@@ -312,6 +332,7 @@ def cmd_replan(args: argparse.Namespace) -> int:
     def extra(result, target: Path) -> None:
         write_tables({"changes.csv": out.changes, "replan.csv": out.summary,
                       "reasons.csv": reasons(instance, result.plan).table}, target)
+        _keep_frontier(args.out, target)
         plan_extras(args.instance)(result, target)
 
     write_outputs(out.result, args.out, extra=extra)
@@ -369,6 +390,7 @@ def cmd_marginal(args: argparse.Namespace) -> int:
     def extra(result, folder: Path) -> None:
         write_tables({"marginal_values.csv": values.table,
                       "reasons.csv": reasons(instance, result.plan).table}, folder)
+        _keep_frontier(args.out, folder)
         plan_extras(args.instance)(result, folder)
 
     write_outputs(base, args.out, extra=extra)
@@ -407,6 +429,8 @@ def _add_analysis_commands(sub) -> None:
                    help="cost of each hire more or fewer (default 5000)")
     p.add_argument("--allow-recall", action="store_true",
                    help="details under way may end early")
+    p.add_argument("--scenario", metavar="FILE",
+                   help="re-plan under a surge scenario's data (what landed at PERIOD)")
     solver_options(p)
     p.set_defaults(run=cmd_replan)
 

@@ -37,8 +37,8 @@ def _slack(instance: Instance, plan: Plan, limit: str, where: str, period: str) 
             assert budget is not None and budget.hiring is not None
             return budget.hiring - spent
         for frame in (plan.details, plan.reassignments):
-            spent += float(frame[[year_of[names.index(str(p))] == where
-                                  for p in frame["period"]]]["cost"].sum())
+            in_year = [year_of[names.index(str(p))] == where for p in frame["period"]]
+            spent += float(frame.loc[in_year, "cost"].sum()) if in_year else 0.0
         budget = instance.budget(where)
         assert budget is not None and budget.moves is not None
         return budget.moves - spent

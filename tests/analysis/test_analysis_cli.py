@@ -1,0 +1,84 @@
+"""The analysis commands end to end on tests/data/tiny, run as a user would run them."""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+from pathlib import Path
+
+import pandas as pd
+from conftest import DATA, ROOT
+
+from rebalance import read_instance, verify_folder
+from rebalance.analysis.frontier import FRONTIER_COLUMNS
+from rebalance.analysis.marginal import MARGINAL_COLUMNS
+from rebalance.analysis.reasons import REASON_COLUMNS
+from rebalance.analysis.replan import CHANGE_COLUMNS
+
+TINY = DATA / "tiny"
+
+
+def run(*args: str) -> subprocess.CompletedProcess[str]:
+    return subprocess.run([sys.executable, "-m", "rebalance.cli", *args], cwd=ROOT,
+                          capture_output=True, text=True, timeout=300)
+
+
+def test_compare_and_replan(tmp_path: Path) -> None:
+    scenario = tmp_path / "surge.toml"
+    scenario.write_text('name = "b-surge"\n[[demand]]\noffices = ["B"]\nskills = ["review"]\n'
+                        'periods = ["2027-Q3", "2027-Q4"]\nmultiplier = 1.5\n')
+    out = tmp_path / "compare"
+    done = run("compare", str(TINY), "--scenario", str(scenario), "-o", str(out), "--gap", "0")
+    assert done.returncode == 0, done.stderr
+    assert "b-surge" in done.stdout and "Caution" in done.stdout
+    table = pd.read_csv(out / "scenarios.csv")
+    assert table["scenario"].tolist() == ["base", "b-surge"]
+    assert table["verified"].all()
+    for name in ("scenario_costs.csv", "scenario_actions.csv", "reasons.csv", "report.html"):
+        assert (out / name).exists(), name
+    instance = read_instance(TINY)
+    assert verify_folder(instance, out) == []
+    assert (out / "scenarios" / "b-surge" / "hires.csv").exists()
+
+    # Re-plan from the base plan at 2027-Q3 on the same data: nothing changes.
+    again = tmp_path / "replan"
+    done = run("replan", str(TINY), "--from", str(out), "--at", "2027-Q3", "-o", str(again),
+               "--gap", "0", "-q")
+    assert done.returncode == 0, done.stderr
+    changes = pd.read_csv(again / "changes.csv")
+    assert list(changes.columns) == list(CHANGE_COLUMNS) and len(changes) == 0
+    assert verify_folder(instance, again) == []
+    assert (again / "replan.csv").exists()
+
+
+def test_bad_inputs_exit_cleanly(tmp_path: Path) -> None:
+    bad = tmp_path / "bad.toml"
+    bad.write_text('name = "x"\n[[demand]]\noffices = ["nowhere"]\n')
+    done = run("compare", str(TINY), "--scenario", str(bad), "-o", str(tmp_path / "o"))
+    assert done.returncode == 3
+    assert f"{bad}: demand[1].offices: unknown office nowhere" in done.stderr
+    assert "Traceback" not in done.stderr and not (tmp_path / "o").exists()
+    done = run("replan", str(TINY), "--from", str(tmp_path), "--at", "2027-Q2", "-o",
+               str(tmp_path / "o"))
+    assert done.returncode == 3 and "not a plan folder" in done.stderr
+    done = run("frontier", str(TINY), "--hiring", "5:1:1", "-o", str(tmp_path / "o"))
+    assert done.returncode == 2 and "grid" in done.stderr
+
+
+def test_frontier_and_marginal(tmp_path: Path) -> None:
+    out = tmp_path / "analysis"
+    done = run("frontier", str(TINY), "--hiring", "0,20000,40000", "--moves", "0,30000",
+               "-o", str(out), "--gap", "0", "--workers", "2")
+    assert done.returncode == 0, done.stderr
+    frontier = pd.read_csv(out / "frontier.csv")
+    assert list(frontier.columns) == list(FRONTIER_COLUMNS) and len(frontier) == 6
+    assert frontier["verified"].all()
+    done = run("marginal", str(TINY), "-o", str(out), "--gap", "0", "-q")
+    assert done.returncode == 0, done.stderr
+    marginal = pd.read_csv(out / "marginal_values.csv")
+    assert list(marginal.columns) == list(MARGINAL_COLUMNS)
+    reasons = pd.read_csv(out / "reasons.csv")
+    assert list(reasons.columns) == list(REASON_COLUMNS)
+    assert (out / "hires.csv").exists() and (out / "summary.json").exists()
+    # The plan folder was replaced whole, but the frontier already in it was kept.
+    assert pd.read_csv(out / "frontier.csv").equals(frontier)

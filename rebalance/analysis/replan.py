@@ -103,25 +103,19 @@ def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
         return (tuple(sorted(details.get(person.person, {}).items())),
                 moves.get(person.person))
 
-    captured: list[Model] = []
-
     def adjust(model: Model) -> Model:
-        adjusted = _fix_and_price(instance, model, old, details, moves, at, costs, allow_recall)
-        captured.append(adjusted)
-        return adjusted
+        model = _with_committed_hires(instance, model, old, at)
+        return _fix_and_price(instance, model, old, details, moves, at, costs, allow_recall)
 
     result = make_plan(instance, options, pool_key=pool_key, adjust=adjust)
-    disruption = 0.0
-    if result.solve.x is not None and captured:
-        block = captured[0].blocks["change"]
-        x = result.solve.x
-        disruption = float(captured[0].cost[block.start:block.stop]
-                           @ np.clip(x[block.start:block.stop], 0.0, None))
     # The old plan's coverage table states the old demand; only its rules are checked here.
     old_violations = tuple(str(v) for v in verify_plan(instance, old)
                            if not v.rule.startswith("coverage"))
     changes = _changes(instance, old, result.plan, at, costs) if result.plan is not None else \
         pd.DataFrame(columns=list(CHANGE_COLUMNS))
+    # Priced from the person-level change table; equal to the model's change columns except
+    # where a decision lost its column (an old detail to an office with no demand left).
+    disruption = float(changes["disruption_cost"].sum()) if len(changes) else 0.0
     summary = _summary(instance, old, result.plan, changes, disruption)
     return Replan(at, result, changes, summary, disruption, old_violations)
 
@@ -255,6 +249,120 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
         if lower[col] < upper[col]:
             exprs.append(([col], [1.0], old_hire[j], costs.hire, f"hire column {j}", 2))
     return _with_change_columns(replace(model, col_lower=lower, col_upper=upper), exprs)
+
+
+def _with_committed_hires(instance: Instance, model: Model, old: Plan, at: int) -> Model:
+    """Add hire columns the builder pruned (no demand left for them to cover) for hires whose
+    recruitment has begun: they still take seats, hiring slots, vacancies and budget.
+
+    The column goes at the end of the hire block (plan extraction decodes blocks by range),
+    with its coefficients in the existing limit rows; a limit with no row yet (the builder
+    writes none without a variable term) gets one.
+    """
+    offices = [o.name for o in instance.offices]
+    skills = [s.name for s in instance.skills]
+    names = instance.period_names
+    hire = model.blocks["hire"]
+    have = {tuple(int(hire.keys[k][j]) for k in ("office", "skill", "period", "new"))
+            for j in range(len(hire))}
+    missing: dict[tuple[int, int, int, int], int] = defaultdict(int)
+    for h in hire_rows(old):
+        key = (offices.index(h.office), skills.index(h.skill), names.index(h.start_period),
+               int(h.funding == "new"))
+        if key not in have and key[2] < at + instance.skills[key[1]].time_to_hire:
+            missing[key] += h.count
+    for (o, k, s, new), count in sorted(missing.items()):
+        model = _insert_hire(instance, model, o, k, s, new, count)
+    return model
+
+
+def _insert_hire(instance: Instance, model: Model, o: int, k: int, s: int, new: int,
+                 count: int) -> Model:
+    names = instance.period_names
+    T = len(names)
+    office, skill = instance.offices[o], instance.skills[k]
+    hire = model.blocks["hire"]
+    p = hire.stop  # the new column's index
+    row_of = {(f.name, label): f.start + i for f in model.rows for i, label in
+              enumerate(f.labels)}
+    same_start = [hire.start + j for j in range(len(hire))
+                  if int(hire.keys["office"][j]) == o and int(hire.keys["period"][j]) == s]
+    vacancy_cols = [hire.start + j for j in range(len(hire))
+                    if int(hire.keys["office"][j]) == o and int(hire.keys["skill"][j]) == k
+                    and int(hire.keys["new"][j]) == 0]
+    coef: dict[int, float] = {}
+    new_rows: list[tuple[str, str, list[int], float]] = []  # family, label, other cols, upper
+
+    def limit(family: str, label: str, value: float, others: list[int], upper: float) -> None:
+        row = row_of.get((family, label))
+        if row is not None:
+            coef[row] = coef.get(row, 0.0) + value
+        else:
+            new_rows.append((family, label, others, upper))
+            coef[-len(new_rows)] = value
+
+    if office.seats is not None:
+        for t in range(s, T):
+            heads = sum(1 for x in instance.staff if x.home_office == office.name
+                        and x.is_present(t))
+            limit("seats", f"{office.name} in {names[t]}", 1.0, [], office.seats - heads)
+    if office.max_hires_per_period is not None:
+        limit("max_hires", f"{office.name} in {names[s]}", 1.0, same_start,
+              float(office.max_hires_per_period))
+    if not new:
+        limit("vacancies", f"{skill.name} at {office.name}", 1.0, vacancy_cols,
+              float(instance.vacancies.get((office.name, skill.name), 0)))
+    for year in instance.years:
+        budget = instance.budget(year)
+        if budget is None or budget.hiring is None:
+            continue
+        amount = skill.onboarding_cost if instance.periods[s].year == year else 0.0
+        if new:
+            amount += skill.salary_per_period * sum(
+                1 for t in range(s, T) if instance.periods[t].year == year)
+        if amount:
+            limit("hiring_budget", f"hiring budget {year}", amount, [], budget.hiring)
+
+    m, n = model.num_rows, model.num_cols
+    csc = model.matrix.tocsc()
+    rows_idx = [r if r >= 0 else m + (-r - 1) for r in coef]
+    column = sp.csc_matrix((list(coef.values()), (rows_idx, [0] * len(coef))),
+                           shape=(m + len(new_rows), 1))
+    extra_r = [i for i, (_, _, others, _) in enumerate(new_rows) for _ in others]
+    extra_c = [c for (_, _, others, _) in new_rows for c in others]
+    extra = sp.csc_matrix(([1.0] * len(extra_c), (extra_r, extra_c)), shape=(len(new_rows), n))
+    grown = sp.vstack([csc, extra], format="csc")
+    matrix = sp.hstack([grown[:, :p], column, grown[:, p:]], format="csr")
+
+    def insert(array: np.ndarray, value: float) -> np.ndarray:
+        return np.insert(array, p, value)
+
+    blocks = {}
+    for name, block in model.blocks.items():
+        if name == "hire":
+            keys = {key: np.append(v, {"office": o, "skill": k, "period": s, "new": new}[key])
+                    for key, v in block.keys.items()}
+            blocks[name] = ColumnBlock(name, block.start, block.stop + 1, keys)
+        elif block.start >= p:
+            blocks[name] = ColumnBlock(name, block.start + 1, block.stop + 1, block.keys)
+        else:
+            blocks[name] = block
+    families = list(model.rows)
+    for i, (family, label, _, _) in enumerate(new_rows):
+        families.append(RowFamily(family, m + i, m + i + 1, (label,)))
+    return replace(
+        model,
+        matrix=matrix,
+        row_lower=np.concatenate([model.row_lower, np.full(len(new_rows), -math.inf)]),
+        row_upper=np.concatenate([model.row_upper, [r[3] for r in new_rows]]),
+        col_lower=insert(model.col_lower, 0.0),
+        col_upper=insert(model.col_upper, float(count)),
+        is_integer=np.insert(model.is_integer, p, True),
+        shortfall_weight=insert(model.shortfall_weight, 0.0),
+        cost=insert(model.cost, skill.onboarding_cost + new * skill.salary_per_period * (T - s)),
+        blocks=blocks,
+        rows=tuple(families),
+    )
 
 
 def _with_change_columns(model: Model, exprs: list[tuple[list[int], list[float], float, float,

@@ -100,3 +100,28 @@ def test_old_plan_naming_unknown_people_is_rejected(tiny) -> None:
                   base.plan.coverage, base.plan.costs)
     with pytest.raises(ReplanError, match="zz9"):
         replan(tiny, broken, 2, exact_options(tiny))
+
+
+def test_a_hire_under_way_is_not_undone(tiny) -> None:
+    # Hand check on tests/data/tiny: the plan hires one reviewer at B from 2027-Q4 (time to
+    # hire 1). If B's Q4 review demand vanishes, a re-plan at Q4 must keep the hire (its
+    # recruitment began in Q3), while a re-plan at Q3 may still drop it.
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    assert base.plan.hires[["office", "start_period"]].values.tolist() == [["B", "2027-Q4"]]
+    calm = apply_scenario(tiny, Scenario("calm", "", (
+        DemandChange(("B",), ("review",), (3,), multiplier=0.0),)))
+    # The builder prunes that hire's column (nothing left to cover); the re-plan adds it back.
+    kept_out = replan(calm, base.plan, 3, exact_options(calm))
+    kept = kept_out.result.plan
+    assert kept_out.result.verified and kept is not None
+    assert kept.hires[["office", "start_period", "count"]].values.tolist() == [
+        ["B", "2027-Q4", 1]]
+    # a2's Q4 detail to B goes: nothing is left for it to do there.
+    assert kept_out.changes[["change", "kind", "who"]].values.tolist() == [
+        ["dropped", "detail", "a2"]]
+    assert kept_out.disruption_cost == kept_out.changes["disruption_cost"].sum()
+    dropped = replan(calm, base.plan, 2, exact_options(calm))
+    assert dropped.result.verified and dropped.result.plan is not None
+    assert dropped.result.plan.hires_count() == 0
+    assert "fewer" in set(dropped.changes["change"])

@@ -94,8 +94,8 @@ def main() -> None:
                 if second is not None and rng.random() < 0.2:
                     skills.append(second)
                 fte = 0.5 if rng.random() < 0.05 else 1.0
-                can_detail = rng.random() < 0.9
-                can_relocate = rng.random() < 0.05
+                can_detail = rng.random() < 0.6
+                can_relocate = rng.random() < 0.02
                 last = ""
                 if rng.random() < 0.03:
                     last = PERIODS[int(rng.integers(2, len(PERIODS) - 1))]

@@ -227,7 +227,11 @@ def marginal_values(base: PlanResult, options: SolveOptions, steps: Steps = Step
                 for c, cand in enumerate(chosen):
                     moved = _rows_of(model, cand, instance)
                     if moved:
-                        estimates[c] = -sum(duals[r] * d for r, d in moved) / scale
+                        linear = -sum(duals[r] * d for r, d in moved) / scale
+                        # A linear extrapolation: it cannot remove more shortfall than there
+                        # is, nor add any (relaxing a limit never hurts).
+                        ceiling = base.plan.weighted_shortfall if base.plan else math.inf
+                        estimates[c] = min(max(linear, 0.0), ceiling)
     order = sorted(range(len(chosen)), key=lambda c: (
         -(estimates[c] if math.isfinite(estimates[c]) else math.inf), c))
     resolve = order if max_resolves is None else order[:max_resolves]

@@ -232,8 +232,9 @@ def marginal_values(base: PlanResult, options: SolveOptions, steps: Steps = Step
                         # is, nor add any (relaxing a limit never hurts).
                         ceiling = base.plan.weighted_shortfall if base.plan else math.inf
                         estimates[c] = min(max(linear, 0.0), ceiling)
+    # Best estimates first; limits with no estimate (time to hire: not a row) after them.
     order = sorted(range(len(chosen)), key=lambda c: (
-        -(estimates[c] if math.isfinite(estimates[c]) else math.inf), c))
+        (0, -estimates[c], c) if math.isfinite(estimates[c]) else (1, 0.0, c)))
     resolve = order if max_resolves is None else order[:max_resolves]
     relaxed = [chosen[c].relax(instance) for c in resolve]
     solved = solve_many(relaxed, options, workers)

@@ -119,3 +119,14 @@ def test_lp_row_duals_agree_with_scipy_highs(tiny) -> None:
                   for i in range(f.start, f.stop)]
     for i in limit_rows:
         assert duals[i] == pytest.approx(ref_duals[i], abs=1e-6)
+
+
+def test_max_resolves_takes_the_best_estimates_first(tiny) -> None:
+    base = solve_verified(tiny)
+    values = marginal_values(base, exact_options(tiny), workers=1, max_resolves=1)
+    table = values.table
+    solved = table[table["status"] != "not re-solved"]
+    assert len(solved) == 1
+    finite = table["estimate_shortfall_reduction"].dropna()
+    if len(finite):
+        assert solved["estimate_shortfall_reduction"].iloc[0] == finite.max()

@@ -160,6 +160,7 @@ def reasons(instance: Instance, plan: Plan) -> Reasons:
             runs.append((p, start[1], start[2], start[0], last[0]))
             start = last = item
     m = instance.policy.max_consecutive_detail_periods
+    priority = {(dm.office, dm.skill, dm.period): dm.priority for dm in instance.demand}
     for p, a, b, t1, t2 in runs:
         out_by_skill: dict[str, float] = defaultdict(float)
         for t in range(t1, t2 + 1):
@@ -177,9 +178,11 @@ def reasons(instance: Instance, plan: Plan) -> Reasons:
             shape = (f"a {n}-{_periods(1)} spike" if not before and not after
                      else "part of a longer gap" + (f" (details are limited to {m} periods in "
                                                      "a row)" if m else ""))
+            at_b = max(priority.get((b, skill, t), 1.0) for t in range(t1, t2 + 1))
+            at_a = max(priority.get((a, skill, t), 1.0) for t in range(t1, t2 + 1))
             source = (f"from {a}, which covers its own {skill} demand without them" if spare
-                      else f"from {a}, although {a} is short of {skill} itself then (the "
-                      f"demand at {b} weighs more)")
+                      else f"from {a}, although {a} is short of {skill} itself then "
+                      f"(priority there {at_a:g}, at {b} {at_b:g})")
             text = (f"{skill} demand at {b} exceeds what {b}'s own staff and hires cover in "
                     f"{names[t1]}..{names[t2]}: {shape}, so a detail {source}")
         rows.append(("detail", p, b, skill, names[t1], names[t2], float(n), text, ""))

@@ -216,8 +216,9 @@ def reasons(instance: Instance, plan: Plan) -> Reasons:
             text = (f"{short:.2f} FTE short; held back by " +
                     "; ".join(_describe(u) for u in cited))
         else:
-            text = (f"{short:.2f} FTE short; no limit binds: nobody with {k} can be freed and "
-                    "a hire would add output only in whole heads, ramped (no binding limit)")
+            text = (f"{short:.2f} FTE short; no binding limit found for it (the gap may be "
+                    "below what one more whole head adds after ramp-up and attrition, or the "
+                    f"people with {k} who could cover it cover larger needs elsewhere)")
         rows.append(("shortfall", f"{k} at {o}", o, k, names[t], names[t], short, text,
                      ";".join(limit_key(u) for u in cited)))
     return Reasons(pd.DataFrame(rows, columns=list(REASON_COLUMNS)), uses)

@@ -627,11 +627,17 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
             upper = model.col_upper.copy()
             lower[integer] = np.maximum(lower[integer], np.floor(lp.x[integer] + 1e-6))
             upper[integer] = np.minimum(upper[integer], np.ceil(lp.x[integer] - 1e-6))
+            if start is not None:
+                # Widen the box to hold the previous plan too: never empty, and the search
+                # mixes what the LP wants with what is known to work (stage two needs it).
+                known = np.rint(start[integer])
+                lower[integer] = np.minimum(lower[integer], known)
+                upper[integer] = np.maximum(upper[integer], known)
             left = deadline - time.perf_counter()
             narrowed = replace(model, col_lower=lower, col_upper=upper)
             rens = None if left < 2.0 else backend.run(
                 narrowed, objective, extra_rows, options, min(RENS_SHARE * budget, 0.5 * left),
-                None)
+                start)
             if rens is not None and rens.x is not None and rens.objective is not None:
                 say(f"  rounding search: plan with {rens.objective:.6g} in {rens.seconds:.1f}s")
                 if start is None or rens.objective < float(objective @ start) - 1e-9:

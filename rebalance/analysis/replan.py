@@ -152,7 +152,8 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
     def under_way(person: str, t: int) -> bool:
         """On detail on one route in every period from ``at - 1`` through ``t``."""
         run = details.get(person, {})
-        return at > 0 and t >= at and all(run.get(s) == run.get(t) for s in range(at - 1, t + 1))
+        return (at > 0 and t >= at and run.get(t) is not None
+                and all(run.get(s) == run.get(t) for s in range(at - 1, t + 1)))
 
     for person, by_period in details.items():
         for t, (src, dst) in by_period.items():

@@ -125,3 +125,23 @@ def test_a_hire_under_way_is_not_undone(tiny) -> None:
     assert dropped.result.verified and dropped.result.plan is not None
     assert dropped.result.plan.hires_count() == 0
     assert "fewer" in set(dropped.changes["change"])
+
+
+def test_a_detail_under_way_runs_on_unless_recall_is_allowed(tiny) -> None:
+    # Hand check on tests/data/tiny: a1 is on detail A -> B in Q2 and Q3. If B's Q3 review
+    # demand halves to 1.0, b1 covers it alone; at Q3 the detail is under way.
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    calm = apply_scenario(tiny, Scenario("calm", "", (
+        DemandChange(("B",), ("review",), (2,), multiplier=0.5),)))
+
+    def a1_in_q3(plan: Plan | None) -> bool:
+        assert plan is not None
+        return bool(((plan.details.person == "a1") & (plan.details.period == "2027-Q3")).any())
+
+    kept = replan(calm, base.plan, 2, exact_options(calm))
+    assert kept.result.verified and a1_in_q3(kept.result.plan)
+    recalled = replan(calm, base.plan, 2, exact_options(calm), allow_recall=True)
+    assert recalled.result.verified and not a1_in_q3(recalled.result.plan)
+    assert ["dropped", "detail", "a1", "2027-Q3"] in recalled.changes[
+        ["change", "kind", "who", "period"]].values.tolist()

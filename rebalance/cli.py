@@ -321,6 +321,8 @@ def cmd_replan(args: argparse.Namespace) -> int:
     if out.old_plan_violations:
         _err(f"note: the old plan breaks {len(out.old_plan_violations)} rule(s) of the current "
              "data (from the re-plan period on, the new plan repairs them)")
+    for note in out.notes:
+        _err(f"note: {note}")
     print(out.summary.to_string(index=False))
     print(f"\n{len(out.changes)} change(s) against the old plan from {args.at} on")
     if len(out.changes):

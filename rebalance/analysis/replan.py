@@ -61,6 +61,7 @@ class Replan:
     summary: pd.DataFrame   # measure, old_plan, new_plan, difference (``replan.csv``)
     disruption_cost: float
     old_plan_violations: tuple[str, ...]
+    notes: tuple[str, ...] = ()
 
 
 class ReplanError(ValueError):
@@ -103,9 +104,13 @@ def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
         return (tuple(sorted(details.get(person.person, {}).items())),
                 moves.get(person.person))
 
+    notes: list[str] = []
+
     def adjust(model: Model) -> Model:
         model = _with_committed_hires(instance, model, old, at)
-        return _fix_and_price(instance, model, old, details, moves, at, costs, allow_recall)
+        notes.clear()  # one model per call; keep the notes of the last
+        return _fix_and_price(instance, model, old, details, moves, at, costs, allow_recall,
+                              notes)
 
     result = make_plan(instance, options, pool_key=pool_key, adjust=adjust)
     # The old plan's coverage table states the old demand; only its rules are checked here.
@@ -117,13 +122,13 @@ def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
     # where a decision lost its column (an old detail to an office with no demand left).
     disruption = float(changes["disruption_cost"].sum()) if len(changes) else 0.0
     summary = _summary(instance, old, result.plan, changes, disruption)
-    return Replan(at, result, changes, summary, disruption, old_violations)
+    return Replan(at, result, changes, summary, disruption, old_violations, tuple(notes))
 
 
 def _fix_and_price(instance: Instance, model: Model, old: Plan,
                    details: dict[str, dict[int, tuple[str, str]]],
                    moves: dict[str, tuple[int, str]], at: int, costs: DisruptionCosts,
-                   allow_recall: bool) -> Model:
+                   allow_recall: bool, notes: list[str]) -> Model:
     offices = [o.name for o in instance.offices]
     skills = [s.name for s in instance.skills]
     names = instance.period_names
@@ -158,9 +163,16 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
     for person, by_period in details.items():
         for t, (src, dst) in by_period.items():
             key = (unit_of[person], offices.index(src), offices.index(dst), t)
-            if key not in seen and (t < at or (under_way(person, t) and not allow_recall)):
+            if key in seen:
+                continue
+            if t < at:
                 problems.append(f"detail of {person} in {names[t]} ({src} -> {dst}) is no longer "
                                 "possible with this data")
+            elif under_way(person, t) and not allow_recall:
+                # The builder writes no detail column where the person's skills are not
+                # wanted; the run cannot go on in the model, so it ends here, said aloud.
+                notes.append(f"detail of {person} in {names[t]} ({src} -> {dst}) was under way "
+                             f"but {dst} has no demand left for their skills then; it ends")
     for j in range(len(det)):
         u, a, b, t = (int(det.keys[k][j]) for k in ("unit", "home", "office", "period"))
         col = det.start + j

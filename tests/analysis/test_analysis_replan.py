@@ -145,3 +145,15 @@ def test_a_detail_under_way_runs_on_unless_recall_is_allowed(tiny) -> None:
     assert recalled.result.verified and not a1_in_q3(recalled.result.plan)
     assert ["dropped", "detail", "a1", "2027-Q3"] in recalled.changes[
         ["change", "kind", "who", "period"]].values.tolist()
+
+
+def test_a_run_whose_demand_vanished_ends_with_a_note(tiny) -> None:
+    # a1's detail to B is under way at Q3; with no B review demand left in Q3 there is nothing
+    # for it to do and no column to keep it: the run ends, and the re-plan says so.
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    gone = apply_scenario(tiny, Scenario("gone", "", (
+        DemandChange(("B",), ("review",), (2,), multiplier=0.0),)))
+    out = replan(gone, base.plan, 2, exact_options(gone))
+    assert out.result.verified
+    assert any("a1" in note and "2027-Q3" in note for note in out.notes)

@@ -22,7 +22,7 @@ from rebalance.planning import PlanResult
 from rebalance.solve import SolveOptions
 
 __all__ = ["FRONTIER_COLUMNS", "BudgetGrid", "Frontier", "budget_frontier", "find_knee",
-           "parse_grid", "with_budgets"]
+           "mark_knees", "parse_grid", "with_budgets"]
 
 FRONTIER_COLUMNS = (
     "point", "hiring_budget", "moves_budget", "status", "verified", "gap",
@@ -145,12 +145,20 @@ def budget_frontier(instance: Instance, grid: BudgetGrid, options: SolveOptions,
                 "reassignments": len(plan.reassignments),
             })
         rows.append(row)
-    table = pd.DataFrame(rows, columns=list(FRONTIER_COLUMNS))
-    table["knee"] = False
-    for _, group in table.groupby(table["moves_budget"].astype(str), sort=False):
-        solved = group[group["verified"].astype(bool)]
-        knee = find_knee(solved["hiring_budget"].astype(float).tolist(),
-                         solved["weighted_shortfall"].astype(float).tolist())
-        if knee is not None:
-            table.loc[solved.index[knee], "knee"] = True
+    table = mark_knees(pd.DataFrame(rows, columns=list(FRONTIER_COLUMNS)))
     return Frontier(grid, table, tuple(results))
+
+
+def mark_knees(table: pd.DataFrame) -> pd.DataFrame:
+    """``table`` with ``knee`` true at the knee of each moves level's verified points."""
+    out = table.copy()
+    out["knee"] = False
+    # repr, not astype(str): pandas turns None into NaN there and groupby drops NaN keys.
+    levels = out["moves_budget"].map(repr)
+    for level in dict.fromkeys(levels):
+        group = out[(levels == level) & out["verified"].astype(bool)]
+        knee = find_knee(group["hiring_budget"].astype(float).tolist(),
+                         group["weighted_shortfall"].astype(float).tolist())
+        if knee is not None:
+            out.loc[group.index[knee], "knee"] = True
+    return out

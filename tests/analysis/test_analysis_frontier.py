@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import itertools
 
+import pandas as pd
 import pytest
 from analysis_helpers import exact_options, feasible_random
 from conftest import solve_verified
@@ -14,6 +15,7 @@ from rebalance.analysis.frontier import (
     BudgetGrid,
     budget_frontier,
     find_knee,
+    mark_knees,
     parse_grid,
     with_budgets,
 )
@@ -38,6 +40,20 @@ def test_knee_of_a_hand_drawn_curve() -> None:
     assert find_knee([0, 1, 2], [3, 2, 1]) is None  # a straight line has no knee
     assert find_knee([0, 1], [1, 0]) is None
     assert find_knee([0, 1, 2], [1, 1, 1]) is None
+
+
+def test_knees_are_marked_per_moves_level() -> None:
+    # The hand-drawn curve above at two moves levels (None: the instance's caps), plus an
+    # unverified point that must be ignored.
+    rows = [{"hiring_budget": x, "moves_budget": m, "weighted_shortfall": y, "verified": True}
+            for m in (None, 5000.0)
+            for x, y in zip([0, 25, 50, 75, 100], [100, 20, 10, 5, 0], strict=True)]
+    rows.append({"hiring_budget": 10, "moves_budget": None, "weighted_shortfall": 0.0,
+                 "verified": False})
+    marked = mark_knees(pd.DataFrame(rows))
+    knees = marked[marked["knee"]]
+    assert knees["hiring_budget"].tolist() == [25, 25]
+    assert knees["moves_budget"].isna().sum() == 1
 
 
 @settings(max_examples=8, deadline=None, suppress_health_check=[HealthCheck.too_slow])

@@ -28,6 +28,7 @@ INF = math.inf
 # limits, which the infeasibility analysis may relax to say which ones conflict.
 STRUCTURE_FAMILIES = (
     "capacity", "coverage", "one_detail", "detail_from_home", "one_reassignment", "home_stays",
+    "away_definition", "detail_not_home", "detail_cost_adjustment",
 )
 LIMIT_FAMILIES = (
     "consecutive_details",
@@ -280,14 +281,17 @@ def build_model(instance: Instance, pooled: bool = True,
                 for dest in range(len(offices)):
                     if not person_skills & skills_wanted.get((dest, t), set()):
                         continue
-                    for a in homes:
+                    # A relocatable person's detail leaves from the home in force (home -1);
+                    # its cost from a new home is added by the adjustment columns below.
+                    for a in ((-1,) if person.can_relocate else homes):
                         if a == dest:
                             continue
                         det_keys["unit"].append(u)
                         det_keys["home"].append(a)
                         det_keys["office"].append(dest)
                         det_keys["period"].append(t)
-                        det_cost.append(instance.detail_cost_per_period(offices[a], offices[dest]))
+                        det_cost.append(instance.detail_cost_per_period(
+                            person.home_office if a < 0 else offices[a], offices[dest]))
                         det_ub.append(size[u])
                     reachable.add(dest)
             if len(person_skills) == 1:
@@ -305,6 +309,38 @@ def build_model(instance: Instance, pooled: bool = True,
                       cost=np.asarray(det_cost))
     rea = b.add_block("home", rea_keys, np.zeros(len(rea_cost)), np.ones(len(rea_cost)),
                       True, cost=np.asarray(rea_cost))
+
+    # ---- columns for relocatable people on detail (each a unit of one) --------------------
+    # away y[u, a, t] = on detail while the home in force is a (= detailed AND home a), and
+    # cost adjustment e[u, a, t] >= (detail cost from a) - (cost from the original home) when
+    # the home is a.  Both are linear in the person's columns: O(offices) columns per person
+    # and period instead of O(offices^2) for every (home, destination) pair.
+    det_pt: dict[tuple[int, int], list[int]] = defaultdict(list)
+    for j in range(len(det_cost)):
+        if det_keys["home"][j] < 0:
+            det_pt[(det_keys["unit"][j], det_keys["period"][j])].append(j)
+    away_keys: dict[str, list[int]] = {"unit": [], "office": [], "period": []}
+    adj_keys: dict[str, list[int]] = {"unit": [], "office": [], "period": []}
+    adj_bound: list[float] = []
+    for (u, t), js in sorted(det_pt.items()):
+        home0 = o_ix[rep[u].home_office]
+        for a in range(len(offices)):
+            away_keys["unit"].append(u)
+            away_keys["office"].append(a)
+            away_keys["period"].append(t)
+            if a == home0:
+                continue
+            delta = [instance.detail_cost_per_period(offices[a], offices[det_keys["office"][j]])
+                     - det_cost[j] for j in js if det_keys["office"][j] != a]
+            if any(delta):
+                adj_keys["unit"].append(u)
+                adj_keys["office"].append(a)
+                adj_keys["period"].append(t)
+                adj_bound.append(max(abs(d) for d in delta))
+    away = b.add_block("away", away_keys, np.zeros(len(away_keys["unit"])),
+                       np.ones(len(away_keys["unit"])), False)
+    adjust = b.add_block("detail_cost_adjustment", adj_keys, -np.asarray(adj_bound, float),
+                         np.asarray(adj_bound, float), False, cost=np.ones(len(adj_bound)))
 
     # ---- columns: hires h[o, k, s, funding] ------------------------------------------------
     hire_keys: dict[str, list[int]] = {"office": [], "skill": [], "period": [], "new": []}
@@ -365,10 +401,19 @@ def build_model(instance: Instance, pooled: bool = True,
                          int(D["period"][j]))
         col = det.start + j
         det_by_ut[(u, t)].append(col)
-        det_from[(u, a, t)].append(col)
         det_to[(u, dest, t)].append(col)
-        det_from_office[(a, t)].append(col)
         det_to_office[(dest, t)].append(col)
+        if a >= 0:
+            det_from[(u, a, t)].append(col)
+            det_from_office[(a, t)].append(col)
+    # For relocatable people the away columns stand where "detailed from a" is counted.
+    Y = away.keys
+    away_col: dict[tuple[int, int, int], int] = {}
+    for j in range(len(away)):
+        u, a, t = int(Y["unit"][j]), int(Y["office"][j]), int(Y["period"][j])
+        away_col[(u, a, t)] = away.start + j
+        det_from[(u, a, t)].append(away.start + j)
+        det_from_office[(a, t)].append(away.start + j)
     rea_by_u: dict[int, list[tuple[int, int, int]]] = defaultdict(list)  # u -> (col, o, t)
     home_col: dict[tuple[int, int, int], int] = {}  # (u, o, t) -> column
     R = rea.keys
@@ -446,6 +491,40 @@ def build_model(instance: Instance, pooled: bool = True,
             continue
         const, hcols, hvals = home_terms(u, a, t)
         b.row(cols + hcols, [1.0] * len(cols) + [-v for v in hvals], -INF, const,
+              f"{unit_label(u)} from {offices[a]} in {instance.periods[t].name}")
+
+    # away_definition: y[u,a,t] = detailed AND home a, for relocatable people
+    b.begin("away_definition")
+    for (u, a, t), col in sorted(away_col.items()):
+        on = det_by_ut[(u, t)]
+        const, hcols, hvals = home_terms(u, a, t)
+        # y >= detailed + home(a) - 1
+        b.row([*on, col, *hcols], [1.0] * len(on) + [-1.0] + hvals, -INF, 1.0 - const,
+              f"{unit_label(u)} away from {offices[a]} in {instance.periods[t].name}")
+        # y <= detailed
+        b.row([*on, col], [-1.0] * len(on) + [1.0], -INF, 0.0,
+              f"{unit_label(u)} away in {instance.periods[t].name}")
+    # detail_not_home: no detail to the office that is the home in force
+    b.begin("detail_not_home")
+    for (u, o, t), cols in sorted(det_to.items()):
+        if not rep[u].can_relocate:
+            continue
+        const, hcols, hvals = home_terms(u, o, t)
+        b.row(cols + hcols, [1.0] * len(cols) + hvals, -INF, 1.0 - const,
+              f"{unit_label(u)} to {offices[o]} in {instance.periods[t].name}")
+    # detail_cost_adjustment: e >= sum_b (c(a,b) - c(home0,b)) d[b] - M (1 - g[a]), e >= -M g[a]
+    b.begin("detail_cost_adjustment")
+    A_ = adjust.keys
+    for j in range(len(adjust)):
+        u, a, t = int(A_["unit"][j]), int(A_["office"][j]), int(A_["period"][j])
+        col, big = adjust.start + j, float(adj_bound[j])
+        g_col = home_col[(u, a, t)]
+        terms = [(det.start + i, instance.detail_cost_per_period(
+            offices[a], offices[det_keys["office"][i]]) - det_cost[i])
+            for i in det_pt[(u, t)] if det_keys["office"][i] != a]
+        b.row([c for c, _ in terms] + [col, g_col], [v for _, v in terms] + [-1.0, big],
+              -INF, big, f"{unit_label(u)} from {offices[a]} in {instance.periods[t].name}")
+        b.row([col, g_col], [-1.0, -big], -INF, 0.0,
               f"{unit_label(u)} from {offices[a]} in {instance.periods[t].name}")
 
     # one_reassignment: one new home at most (the home columns never switch back, below)
@@ -607,6 +686,10 @@ def build_model(instance: Instance, pooled: bool = True,
             if year_of[int(D["period"][j])] == year and det_cost[j]:
                 cols.append(det.start + j)
                 vals.append(det_cost[j])
+        for j in range(len(adjust)):
+            if year_of[int(adjust.keys["period"][j])] == year:
+                cols.append(adjust.start + j)
+                vals.append(1.0)
         # Relocation is paid in the year the home changes: cost x (g[t] - g[t-1]).
         for (u, o, t), col in home_col.items():
             if year_of[t] != year:

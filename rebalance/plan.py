@@ -206,8 +206,10 @@ def extract_plan(instance: Instance, model: Model, x: np.ndarray) -> Plan:
             for i, (a, o) in sorted(assigned.items()):
                 p = members[i]
                 located[(p, t)] = offices[o]
-                detail_rows.append((staff[p].person, periods[t], offices[a], offices[o],
-                                    instance.detail_cost_per_period(offices[a], offices[o])))
+                # home -1: a relocatable person, who leaves from the home in force
+                frm = home_in_force(p, t) if a < 0 else offices[a]
+                detail_rows.append((staff[p].person, periods[t], frm, offices[o],
+                                    instance.detail_cost_per_period(frm, offices[o])))
     detail_rows.sort(key=lambda r: (r[0], periods.index(str(r[1]))))
 
     hire_counts, hk = chosen("hire")

@@ -557,7 +557,9 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
                        final_status=Status.FEASIBLE_WITH_GAP)
     # Hold the stage-1 shortfall with a small slack, then minimise cost from its plan.
     held = first.objective
-    slack = max(options.shortfall_tolerance * abs(held), 1e-7)
+    # Never below the solvers' feasibility tolerance (1e-6): stage one may itself be that far
+    # under the true least shortfall, and holding it tighter would make stage two pay for it.
+    slack = max(options.shortfall_tolerance * abs(held), 1e-6)
     say(f"stage 2: least cost with weighted shortfall <= {held + slack:.6g}")
     second = solve_stage(backend, model, model.cost, [(model.shortfall_weight, held + slack)],
                          options, deadline, first.x, say)

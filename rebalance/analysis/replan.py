@@ -150,7 +150,10 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
     for j in range(len(det)):
         u, a, b, t = (int(det.keys[k][j]) for k in ("unit", "home", "office", "period"))
         rep = staff[model.units[u][0]].person
-        if details.get(rep, {}).get(t) == (offices[a], offices[b]):
+        route = details.get(rep, {}).get(t)
+        # home -1: a relocatable person's detail leaves from the home in force, which the
+        # fixed home columns decide; only the destination has to match.
+        if route is not None and route[1] == offices[b] and (a < 0 or route[0] == offices[a]):
             old_detail[j] = len(model.units[u])
             seen.add((u, a, b, t))
     unit_of = {staff[p].person: u for u, members in enumerate(model.units) for p in members}
@@ -163,7 +166,7 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
     for person, by_period in details.items():
         for t, (src, dst) in by_period.items():
             key = (unit_of[person], offices.index(src), offices.index(dst), t)
-            if key in seen:
+            if key in seen or (key[0], -1, key[2], t) in seen:
                 continue
             if t < at:
                 problems.append(f"detail of {person} in {names[t]} ({src} -> {dst}) is no longer "

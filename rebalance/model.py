@@ -208,14 +208,25 @@ def group_units(instance: Instance, pooled: bool = True,
     return tuple(sorted(units))
 
 
+PAIR_DETAILS_MAX_OFFICES = 10
+
+
 def build_model(instance: Instance, pooled: bool = True,
-                pool_key: Callable[[Person], Hashable] | None = None) -> Model:
+                pool_key: Callable[[Person], Hashable] | None = None,
+                pair_details: bool | None = None) -> Model:
     """Build the model of ``instance`` (see ``docs/model.md``).
 
     With ``pooled`` (the default) interchangeable people share columns with integer counts;
     ``pooled=False`` gives every person their own columns (the person-level formulation,
     kept for tests that prove both reach the same optimum).
+
+    ``pair_details`` chooses how a relocatable person's details are written: one column per
+    (home, destination) pair, whose LP is tight but grows with offices squared, or one per
+    destination with linear away and cost-adjustment columns.  Both are exact; the default
+    takes pairs up to ``PAIR_DETAILS_MAX_OFFICES`` offices.
     """
+    if pair_details is None:
+        pair_details = len(instance.offices) <= PAIR_DETAILS_MAX_OFFICES
     import time
 
     started = time.perf_counter()
@@ -283,7 +294,7 @@ def build_model(instance: Instance, pooled: bool = True,
                         continue
                     # A relocatable person's detail leaves from the home in force (home -1);
                     # its cost from a new home is added by the adjustment columns below.
-                    for a in ((-1,) if person.can_relocate else homes):
+                    for a in ((-1,) if person.can_relocate and not pair_details else homes):
                         if a == dest:
                             continue
                         det_keys["unit"].append(u)
@@ -506,8 +517,9 @@ def build_model(instance: Instance, pooled: bool = True,
               f"{unit_label(u)} away in {instance.periods[t].name}")
     # detail_not_home: no detail to the office that is the home in force
     b.begin("detail_not_home")
-    for (u, o, t), cols in sorted(det_to.items()):
-        if not rep[u].can_relocate:
+    for (u, o, t), to_o in sorted(det_to.items()):
+        cols = [c for c in to_o if D["home"][c - det.start] < 0]  # by-destination columns
+        if not cols:
             continue
         const, hcols, hvals = home_terms(u, o, t)
         b.row(cols + hcols, [1.0] * len(cols) + hvals, -INF, 1.0 - const,

@@ -64,15 +64,17 @@ def options_from_instance(instance: Instance, **overrides: Any) -> SolveOptions:
 
 def make_plan(instance: Instance, options: SolveOptions, pooled: bool = True,
               pool_key: Callable[[Person], Hashable] | None = None,
-              adjust: Callable[[Model], Model] | None = None) -> PlanResult:
+              adjust: Callable[[Model], Model] | None = None,
+              pair_details: bool | None = None) -> PlanResult:
     """Build, solve, extract and verify.  Never returns an unverified plan as good.
 
     ``pooled=False`` builds the person-level formulation (same optimum, larger model).
+    ``pair_details`` picks the relocatable-detail formulation (see ``build_model``).
     ``pool_key`` and ``adjust`` let analyses (re-planning) keep people with different
     histories apart and fix or bound columns of the built model before it is solved.
     """
     started = time.perf_counter()
-    model = build_model(instance, pooled=pooled, pool_key=pool_key)
+    model = build_model(instance, pooled=pooled, pool_key=pool_key, pair_details=pair_details)
     if adjust is not None:
         model = adjust(model)
     build_seconds = time.perf_counter() - started

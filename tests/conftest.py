@@ -24,7 +24,9 @@ def solve_verified(instance: Instance, **overrides: object) -> PlanResult:
     overrides.setdefault("relative_gap", 0.0)
     overrides.setdefault("time_limit_seconds", 120.0)
     pooled = bool(overrides.pop("pooled", True))
-    result = make_plan(instance, options_from_instance(instance, **overrides), pooled=pooled)
+    pair_details = overrides.pop("pair_details", None)
+    result = make_plan(instance, options_from_instance(instance, **overrides), pooled=pooled,
+                       pair_details=pair_details)  # type: ignore[arg-type]
     assert result.plan is not None, result.status
     assert result.verified, [str(v) for v in result.violations]
     return result

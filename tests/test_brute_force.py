@@ -221,8 +221,8 @@ def test_shortfall_first_matches_enumeration(seed):
         assert result.status is Status.INFEASIBLE
         assert result.plan is None and result.solve.conflicts
         return
-    for pooled in (True, False):
-        result = solve_verified(instance, pooled=pooled)
+    for pooled, pairs in ((True, True), (False, True), (True, False)):
+        result = solve_verified(instance, pooled=pooled, pair_details=pairs)
         plan = result.plan
         # Stage two may use the documented slack of 1e-6 relative on the least shortfall.
         slack = max(REL * best_shortfall, 1e-6)

@@ -81,3 +81,20 @@ def test_same_seed_same_plan():
     for name in PLAN_TABLES:
         a, b = first.plan.table(name), second.plan.table(name)
         assert a.equals(b), name
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_both_relocatable_detail_formulations_agree(seed):
+    # Per (home, destination) pair vs per destination with away and cost-adjustment columns.
+    base = random_instance(seed, people=4, periods=4, offices=4, skills=2)
+    instance = base.with_changes(staff=tuple(replace(p, can_relocate=True, can_detail=True)
+                                             for p in base.staff))
+    options = options_from_instance(instance, relative_gap=0.0)
+    if make_plan(instance, options).status is Status.INFEASIBLE:
+        assert make_plan(instance, options, pair_details=False).status is Status.INFEASIBLE
+        return
+    pairs = solve_verified(instance, pair_details=True)
+    linear = solve_verified(instance, pair_details=False)
+    assert linear.plan.weighted_shortfall == pytest.approx(pairs.plan.weighted_shortfall,
+                                                           rel=1e-6, abs=2e-6)
+    assert linear.plan.total_cost == pytest.approx(pairs.plan.total_cost, rel=1e-6, abs=1e-3)

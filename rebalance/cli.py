@@ -335,7 +335,9 @@ def cmd_replan(args: argparse.Namespace) -> int:
         write_tables({"changes.csv": out.changes, "replan.csv": out.summary,
                       "reasons.csv": reasons(instance, result.plan).table}, target)
         _keep_frontier(args.out, target)
-        plan_extras(args.instance)(result, target)
+        # Under a scenario the plan belongs to the changed data, not to the instance folder:
+        # record no instance path, so 'rebalance report' asks for one rather than mislead.
+        plan_extras(None if args.scenario else args.instance)(result, target)
 
     write_outputs(out.result, args.out, extra=extra)
     print(f"\nnew plan, changes.csv and replan.csv written to {args.out}/")

@@ -151,7 +151,7 @@ def binding_candidates(base: PlanResult, steps: Steps = Steps()) -> list[Candida
 def lp_row_duals(model: Model, x: np.ndarray, objective: np.ndarray) -> np.ndarray | None:
     """Row duals of the LP with integer columns boxed to within one unit of ``x``.
 
-    Built from the model arrays with highspy, as :class:`rebalance.solve.HighsBackend` does.
+    Built from the model arrays with highspy, as :class:`rebalance.backends.HighsBackend` does.
     HiGHS's row dual is the change of the objective per unit increase of the row's active
     bound.  None when the LP is not solved to optimality.
     """

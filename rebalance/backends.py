@@ -1,0 +1,473 @@
+"""Solver backends: HiGHS through highspy and CBC through PuLP, behind one Protocol.
+
+Status is mapped once, here, from each solver's own words to :class:`Status`.  A plan stopped
+by a time limit is ``feasible_with_gap``, never ``optimal``: PuLP reports ``Optimal`` for a
+CBC run cut short, so its *solution* status is what counts.  Both backends take the model as
+arrays, stop at our own wall-clock deadline and report progress while they search.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import enum
+import math
+import os
+import re
+import signal
+import sys
+import tempfile
+import threading
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Protocol
+
+import numpy as np
+import scipy.sparse as sp
+
+from rebalance.instance import ObjectiveMode, SolverName
+from rebalance.model import Model
+
+__all__ = ["BACKENDS", "Backend", "BackendOutcome", "SolveOptions", "Status", "relative_gap"]
+
+
+class Status(enum.Enum):
+    OPTIMAL = "optimal"
+    """Proven optimal within the requested relative gap."""
+    FEASIBLE_WITH_GAP = "feasible_with_gap"
+    """A plan was found but the solver stopped (time limit) before proving it; see the gap."""
+    INFEASIBLE = "infeasible"
+    """The hard limits cannot all hold at once; the conflicting limits are listed."""
+    NO_PLAN_IN_TIME = "no_plan_in_time"
+    """The time limit ran out before any plan was found."""
+    ERROR = "error"
+    """The solver failed (crashed, ran out of memory, reported an error)."""
+    UNKNOWN = "unknown"
+    """The solver said something this module does not recognise; treat as no plan."""
+
+    @property
+    def has_plan(self) -> bool:
+        return self in (Status.OPTIMAL, Status.FEASIBLE_WITH_GAP)
+
+
+@dataclass(frozen=True)
+class SolveOptions:
+    """How to solve: one small frozen object instead of many keyword arguments."""
+
+    solver: SolverName = "highs"
+    time_limit_seconds: float = 300.0
+    relative_gap: float = 1e-4
+    threads: int = 1
+    seed: int = 0
+    mode: ObjectiveMode = "shortfall-first"
+    shortfall_cost: float = 100_000.0
+    shortfall_tolerance: float = 1e-6
+    heuristics: bool = True  # LP-guided rounding search before branch and bound
+    progress: Callable[[str], None] | None = field(default=None, compare=False)
+
+
+@dataclass(frozen=True)
+class BackendOutcome:
+    status: Status
+    x: np.ndarray | None
+    objective: float | None
+    bound: float | None
+    words: str
+    seconds: float
+
+
+class Backend(Protocol):
+    """A MIP solver.  Every method must exist: a Protocol, not a base class with ``pass``."""
+
+    name: str
+
+    def version(self) -> str: ...
+
+    def run(self, model: Model, objective: np.ndarray, extra_rows: list[tuple[np.ndarray, float]],
+            options: SolveOptions, time_limit: float, start: np.ndarray | None) -> BackendOutcome:
+        """Minimise ``objective @ x`` over the model plus ``extra_rows`` (row, upper bound)."""
+        ...
+
+
+def relative_gap(objective: float | None, bound: float | None) -> float | None:
+    """Gap as (objective - bound) / |objective|, 0 when both agree to 1e-9 absolute."""
+    if objective is None or bound is None or not math.isfinite(bound):
+        return None
+    diff = objective - bound
+    if diff <= 1e-9 * max(1.0, abs(objective)):
+        return 0.0
+    return diff / max(abs(objective), 1e-9)
+
+
+# --------------------------------------------------------------------------------------------
+# HiGHS
+
+
+_HIGHS_BANNER_SHOWN = False
+
+
+def _new_highs() -> Any:
+    """A silent Highs object; the first one made in a process prints a banner to fd 1."""
+    import highspy
+
+    global _HIGHS_BANNER_SHOWN
+    if _HIGHS_BANNER_SHOWN:
+        h = highspy.Highs()
+    else:
+        sys.stdout.flush()
+        saved, devnull = os.dup(1), os.open(os.devnull, os.O_WRONLY)
+        try:
+            os.dup2(devnull, 1)
+            h = highspy.Highs()
+        finally:
+            os.dup2(saved, 1)
+            os.close(saved)
+            os.close(devnull)
+        _HIGHS_BANNER_SHOWN = True
+    h.setOptionValue("output_flag", False)
+    return h
+
+
+def _watch_highs(h: Any, deadline: float, progress: Callable[[str], None] | None) -> None:
+    """Stop HiGHS at our own wall-clock deadline (it can overrun its time limit during root
+    work) and report best plan, bound and gap every few seconds while it searches."""
+    last = [0.0]
+
+    def interrupt(event: Any) -> None:
+        now = time.perf_counter()
+        if now > deadline:
+            event.interrupt()
+        if progress is not None and now - last[0] >= PROGRESS_SECONDS:
+            out = event.data_out
+            if math.isfinite(out.mip_primal_bound) and math.isfinite(out.mip_dual_bound):
+                last[0] = now
+                progress(f"  searching: best plan {out.mip_primal_bound:.6g}, bound "
+                         f"{out.mip_dual_bound:.6g}, gap {out.mip_gap:.2%}, "
+                         f"{out.mip_node_count} nodes")
+
+    h.cbSimplexInterrupt += interrupt
+    h.cbIpmInterrupt += interrupt
+    h.cbMipInterrupt += interrupt
+
+
+PROGRESS_SECONDS = 5.0
+
+
+class HighsBackend:
+    name = "highs"
+
+    def version(self) -> str:
+        return f"HiGHS {_new_highs().version()}"
+
+    def run(self, model: Model, objective: np.ndarray, extra_rows: list[tuple[np.ndarray, float]],
+            options: SolveOptions, time_limit: float, start: np.ndarray | None) -> BackendOutcome:
+        import highspy
+
+        started = time.perf_counter()
+        matrix, row_lo, row_hi = _stack(model, extra_rows)
+        csc = matrix.tocsc()
+        lp = highspy.HighsLp()
+        lp.num_col_ = model.num_cols
+        lp.num_row_ = int(row_lo.size)
+        lp.col_cost_ = objective.astype(float)
+        lp.col_lower_ = model.col_lower
+        lp.col_upper_ = model.col_upper
+        lp.row_lower_ = row_lo
+        lp.row_upper_ = row_hi
+        lp.a_matrix_.format_ = highspy.MatrixFormat.kColwise
+        lp.a_matrix_.start_ = csc.indptr.astype(np.int32)
+        lp.a_matrix_.index_ = csc.indices.astype(np.int32)
+        lp.a_matrix_.value_ = csc.data
+        lp.integrality_ = [
+            highspy.HighsVarType.kInteger if i else highspy.HighsVarType.kContinuous
+            for i in model.is_integer
+        ]
+        h = _new_highs()
+        h.setOptionValue("time_limit", float(max(time_limit, 0.05)))
+        h.setOptionValue("mip_rel_gap", float(options.relative_gap))
+        h.setOptionValue("random_seed", int(options.seed))
+        h.passModel(lp)
+        _watch_highs(h, started + max(time_limit, 0.05), options.progress)
+        if start is not None:
+            solution = highspy.HighsSolution()
+            solution.col_value = list(start)
+            solution.value_valid = True
+            h.setSolution(solution)
+        h.run()
+        status = h.getModelStatus()
+        info = h.getInfo()
+        words = h.modelStatusToString(status)
+        has_solution = info.primal_solution_status == 2  # kSolutionStatusFeasible
+        x = np.asarray(h.getSolution().col_value) if has_solution else None
+        obj = float(info.objective_function_value) if has_solution else None
+        bound = float(info.mip_dual_bound) if model.num_integer else obj
+        MS = highspy.HighsModelStatus
+        if status == MS.kOptimal:
+            mapped = Status.OPTIMAL
+        elif status in (MS.kInfeasible,):
+            mapped = Status.INFEASIBLE
+        elif status in (MS.kTimeLimit, MS.kIterationLimit, MS.kSolutionLimit,
+                        MS.kInterrupt):
+            mapped = Status.FEASIBLE_WITH_GAP if has_solution else Status.NO_PLAN_IN_TIME
+        elif status in (MS.kUnbounded, MS.kUnboundedOrInfeasible, MS.kSolveError,
+                        MS.kModelError, MS.kPresolveError, MS.kPostsolveError,
+                        MS.kMemoryLimit):
+            mapped = Status.ERROR
+        else:
+            mapped = Status.UNKNOWN
+        if mapped is Status.OPTIMAL and not has_solution:
+            mapped = Status.UNKNOWN
+        return BackendOutcome(mapped, x, obj, bound, words, time.perf_counter() - started)
+
+
+# --------------------------------------------------------------------------------------------
+# CBC through PuLP
+
+
+_CBC_RESULT = re.compile(r"^Result - (.*)$", re.M)
+_CBC_OBJECTIVE = re.compile(r"^Objective value:\s*(\S+)", re.M)
+_CBC_BOUND = re.compile(r"^Lower bound:\s*(\S+)", re.M)
+
+
+_CBC_PROGRESS = re.compile(
+    r"Cbc0010I After (\d+) nodes, \d+ on tree, (\S+) best solution, best possible (\S+)")
+
+
+_CBC_PLAN = re.compile(r"Cbc0012I Integer solution of (\S+)")
+
+
+class _CbcLogWatcher:
+    """Reads CBC's log while it runs and reports best plan, bound and gap."""
+
+    def __init__(self, path: Path, progress: Callable[[str], None] | None) -> None:
+        self.path = path
+        self.progress = progress
+        self._stop = threading.Event()
+        self._thread = threading.Thread(target=self._run, daemon=True)
+
+    def start(self) -> None:
+        if self.progress is not None:
+            self._thread.start()
+
+    def stop(self) -> None:
+        self._stop.set()
+        if self._thread.is_alive():
+            self._thread.join(timeout=2.0)
+
+    def _run(self) -> None:
+        assert self.progress is not None
+        seen_plan = ""
+        seen_progress: tuple[str, str, str] = ("", "", "")
+        while not self._stop.wait(PROGRESS_SECONDS):
+            try:
+                text = self.path.read_text(errors="replace")
+            except OSError:
+                continue
+            found = _CBC_PROGRESS.findall(text)
+            plans = _CBC_PLAN.findall(text)
+            if not found and plans and plans[-1] != seen_plan:
+                seen_plan = plans[-1]
+                self.progress(f"  searching: plan found with {float(seen_plan):.6g}")
+            elif found and found[-1] != seen_progress:
+                seen_progress = found[-1]
+                nodes, best, bound = seen_progress
+                gap = relative_gap(float(best), float(bound))
+                self.progress(f"  searching: best plan {float(best):.6g}, bound "
+                              f"{float(bound):.6g}, gap "
+                              f"{'-' if gap is None else f'{gap:.2%}'}, {nodes} nodes")
+
+
+CBC_GRACE_SECONDS = 1.0
+
+
+class _Deadline:
+    """Stops this process's CBC children at a wall-clock deadline (Linux: found via /proc)."""
+
+    def __init__(self, deadline: float) -> None:
+        self.deadline = deadline
+        self.fired = False
+        self._stop = threading.Event()
+        self._thread = threading.Thread(target=self._run, daemon=True)
+
+    def start(self) -> None:
+        self._thread.start()
+
+    def stop(self) -> None:
+        self._stop.set()
+        self._thread.join(timeout=2.0)
+
+    def _run(self) -> None:
+        if self._stop.wait(max(0.0, self.deadline - time.perf_counter())):
+            return
+        self.fired = True
+        for sig, wait in ((signal.SIGINT, 1.0), (signal.SIGKILL, 0.0)):
+            children = _cbc_children()
+            if not children:
+                return
+            for pid in children:
+                with contextlib.suppress(OSError):
+                    os.kill(pid, sig)
+            if self._stop.wait(wait):
+                return
+
+
+def _cbc_children() -> list[int]:
+    me = str(os.getpid())
+    found = []
+    for stat in Path("/proc").glob("[0-9]*/stat"):
+        try:
+            fields = stat.read_text().split(") ")[-1].split()
+            name = stat.read_text().split("(")[1].split(")")[0]
+        except (OSError, IndexError):
+            continue
+        if fields[1] == me and name.startswith("cbc"):
+            found.append(int(stat.parent.name))
+    return found
+
+
+def _bundled_cbc() -> str:
+    from pulp.apis import coin_api
+
+    return str(coin_api.COIN_CMD.executableExtension(coin_api.pulp_cbc_path))
+
+
+class CbcBackend:
+    name = "cbc"
+
+    def version(self) -> str:
+        import pulp
+
+        return f"CBC (bundled with PuLP {pulp.__version__})"
+
+    def run(self, model: Model, objective: np.ndarray, extra_rows: list[tuple[np.ndarray, float]],
+            options: SolveOptions, time_limit: float, start: np.ndarray | None) -> BackendOutcome:
+        import pulp
+
+        started = time.perf_counter()
+        matrix, row_lo, row_hi = _stack(model, extra_rows)
+        prob = pulp.LpProblem("rebalance", pulp.LpMinimize)
+        # Names from integer indices: PuLP merges names that differ only in punctuation.
+        variables = [
+            prob.add_variable(
+                f"x{j}",
+                lowBound=None if not math.isfinite(lo) else float(lo),
+                upBound=None if not math.isfinite(hi) else float(hi),
+                cat=pulp.LpInteger if integer else pulp.LpContinuous,
+            )
+            for j, (lo, hi, integer) in enumerate(
+                zip(model.col_lower, model.col_upper, model.is_integer, strict=True))
+        ]
+        nz = np.flatnonzero(objective)
+        prob.setObjective(pulp.LpAffineExpression(
+            [(variables[j], float(objective[j])) for j in nz]))
+        csr = matrix.tocsr()
+        for i in range(csr.shape[0]):
+            lo_i, hi_i = row_lo[i], row_hi[i]
+            a, z = csr.indptr[i], csr.indptr[i + 1]
+            terms = [(variables[j], float(v))
+                     for j, v in zip(csr.indices[a:z], csr.data[a:z], strict=True)]
+            if not terms:
+                continue  # constant rows are checked before any backend runs
+            if lo_i == hi_i:
+                prob.addConstraint(pulp.LpConstraint(pulp.LpAffineExpression(terms),
+                                                     pulp.LpConstraintEQ, rhs=float(hi_i)),
+                                   name=f"e{i}")
+                continue
+            if math.isfinite(hi_i):
+                prob.addConstraint(pulp.LpConstraint(pulp.LpAffineExpression(terms),
+                                                     pulp.LpConstraintLE, rhs=float(hi_i)),
+                                   name=f"u{i}")
+            if math.isfinite(lo_i):
+                prob.addConstraint(pulp.LpConstraint(pulp.LpAffineExpression(terms),
+                                                     pulp.LpConstraintGE, rhs=float(lo_i)),
+                                   name=f"l{i}")
+        if start is not None:
+            start = np.clip(start, model.col_lower, model.col_upper)
+            start = np.where(model.is_integer, np.rint(start), start)
+            for var, value in zip(variables, start, strict=True):
+                var.setInitialValue(float(value))
+        with tempfile.TemporaryDirectory(prefix="rebalance-cbc-") as tmp:
+            log_path = Path(tmp) / "cbc.log"
+            # The CBC binary bundled with PuLP, driven through COIN_CMD (PULP_CBC_CMD is
+            # deprecated in PuLP 3.3).
+            solver = pulp.COIN_CMD(
+                path=_bundled_cbc(),
+                msg=False,
+                # PuLP's own model building already used part of the allowance.
+                timeLimit=max(1.0, time_limit - (time.perf_counter() - started)),
+                gapRel=options.relative_gap,
+                threads=options.threads,
+                warmStart=start is not None,
+                logPath=str(log_path),
+                options=[f"randomCbcSeed {options.seed + 1}"],
+            )
+            solver.tmpDir = tmp  # each solve its own folder
+            watcher = _CbcLogWatcher(log_path, options.progress)
+            # CBC can overrun its -sec limit in preprocessing; past our deadline it is asked to
+            # stop (SIGINT: it keeps its best plan), and killed if it does not.
+            guard = _Deadline(started + time_limit + CBC_GRACE_SECONDS)
+            try:
+                watcher.start()
+                guard.start()
+                prob.solve(solver)
+            except pulp.PulpSolverError as exc:
+                if guard.fired:
+                    return BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, None,
+                                          "stopped at the wall-clock limit",
+                                          time.perf_counter() - started)
+                return BackendOutcome(Status.ERROR, None, None, None, str(exc),
+                                      time.perf_counter() - started)
+            finally:
+                guard.stop()
+                watcher.stop()
+            log = log_path.read_text(errors="replace") if log_path.exists() else ""
+        result = _CBC_RESULT.findall(log)
+        words = result[-1].strip() if result else pulp.LpStatus.get(prob.status, "?")
+        sol_status = prob.sol_status
+        has_solution = sol_status in (pulp.LpSolutionOptimal, pulp.LpSolutionIntegerFeasible)
+        x = None
+        obj = None
+        if has_solution:
+            x = np.asarray([v.varValue if v.varValue is not None else 0.0 for v in variables])
+            obj = float(objective @ x)
+        bound = None
+        match = _CBC_BOUND.findall(log)
+        if match:
+            try:
+                bound = float(match[-1])
+            except ValueError:
+                bound = None
+        if sol_status == pulp.LpSolutionOptimal:
+            mapped = Status.OPTIMAL
+            if bound is None:
+                bound = obj
+        elif sol_status == pulp.LpSolutionIntegerFeasible:
+            mapped = Status.FEASIBLE_WITH_GAP
+        elif sol_status == pulp.LpSolutionInfeasible or "infeasible" in words.lower():
+            mapped = Status.INFEASIBLE
+        elif sol_status == pulp.LpSolutionNoSolutionFound:
+            mapped = Status.NO_PLAN_IN_TIME if "time" in words.lower() else Status.UNKNOWN
+        elif sol_status == pulp.LpSolutionUnbounded:
+            mapped = Status.ERROR
+        else:
+            mapped = Status.UNKNOWN
+        return BackendOutcome(mapped, x, obj, bound, words, time.perf_counter() - started)
+
+
+BACKENDS: dict[str, Callable[[], Backend]] = {"highs": HighsBackend, "cbc": CbcBackend}
+
+
+def _stack(model: Model, extra_rows: list[tuple[np.ndarray, float]]) -> tuple[
+        sp.csr_matrix, np.ndarray, np.ndarray]:
+    if not extra_rows:
+        return model.matrix, model.row_lower, model.row_upper
+    extra = sp.csr_matrix(np.vstack([r for r, _ in extra_rows]))
+    matrix = sp.vstack([model.matrix, extra], format="csr")
+    row_lo = np.concatenate([model.row_lower, np.full(len(extra_rows), -math.inf)])
+    row_hi = np.concatenate([model.row_upper, [ub for _, ub in extra_rows]])
+    return matrix, row_lo, row_hi
+
+
+# --------------------------------------------------------------------------------------------
+# the two-stage solve

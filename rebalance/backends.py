@@ -19,7 +19,7 @@ import tempfile
 import threading
 import time
 from collections.abc import Callable
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any, Protocol
 
@@ -218,6 +218,15 @@ class HighsBackend:
             mapped = Status.UNKNOWN
         if mapped is Status.OPTIMAL and not has_solution:
             mapped = Status.UNKNOWN
+        if x is not None and obj is not None and start is not None:
+            # Seen with HiGHS 1.16: given a feasible start, it can report a better objective
+            # while handing back the start itself.  Trust the vector, never the claim: if
+            # they disagree, solve again without the start.
+            claimed, actual = obj, float(objective @ x)
+            if abs(actual - claimed) > 1e-6 * (1.0 + abs(claimed)):
+                left = time_limit - (time.perf_counter() - started)
+                again = self.run(model, objective, extra_rows, options, max(left, 1.0), None)
+                return replace(again, seconds=time.perf_counter() - started)
         return BackendOutcome(mapped, x, obj, bound, words, time.perf_counter() - started)
 
 

@@ -31,7 +31,14 @@ from rebalance.instance import (
     SolverSettings,
 )
 
-__all__ = ["InstanceError", "Problem", "RawTable", "read_instance", "read_tables"]
+__all__ = [
+    "InstanceError",
+    "Problem",
+    "RawTable",
+    "TableRows",
+    "read_instance",
+    "read_tables",
+]
 
 REQUIRED_TABLES = ("offices", "skills", "staff", "demand", "budget")
 OPTIONAL_TABLES = ("move_costs", "vacancies", "attrition")
@@ -146,15 +153,20 @@ def read_instance(path: str | Path) -> Instance:
 # cell parsing
 
 
-class _Rows:
-    """Iterates a table's rows and collects problems with their locations."""
+class TableRows:
+    """Iterates a table's rows and collects problems with their locations.
 
-    def __init__(self, table: RawTable, problems: list[Problem]) -> None:
+    ``columns`` is (required, optional); by default the instance table of that name.  Other
+    readers (the workload history) subclass it with their own columns and cell types.
+    """
+
+    def __init__(self, table: RawTable, problems: list[Problem],
+                 columns: tuple[tuple[str, ...], tuple[str, ...]] | None = None) -> None:
         self.table = table
         self.problems = problems
         self.row_number = 0
         self.columns_ok = True
-        required, optional = COLUMNS[_table_name(table.label)]
+        required, optional = columns or COLUMNS[_table_name(table.label)]
         missing = [c for c in required if c not in table.columns]
         for column in missing:
             self.problems.append(Problem(table.label, 1, column, "required column is missing"))
@@ -460,7 +472,7 @@ def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, 
     )
 
 
-def _unique(rows: _Rows, column: str, value: str | None, seen: dict[str, int]) -> bool:
+def _unique(rows: TableRows, column: str, value: str | None, seen: dict[str, int]) -> bool:
     if value is None:
         return False
     if value in seen:
@@ -471,7 +483,7 @@ def _unique(rows: _Rows, column: str, value: str | None, seen: dict[str, int]) -
 
 
 def _read_offices(table: RawTable, problems: list[Problem]) -> dict[str, Office]:
-    rows, out = _Rows(table, problems), {}
+    rows, out = TableRows(table, problems), {}
     seen: dict[str, int] = {}
     for row in rows:
         name = rows.text(row, "office")
@@ -485,7 +497,7 @@ def _read_offices(table: RawTable, problems: list[Problem]) -> dict[str, Office]
 
 
 def _read_skills(table: RawTable, problems: list[Problem]) -> dict[str, Skill]:
-    rows, out = _Rows(table, problems), {}
+    rows, out = TableRows(table, problems), {}
     seen: dict[str, int] = {}
     for row in rows:
         name = rows.text(row, "skill")
@@ -512,7 +524,7 @@ def _read_skills(table: RawTable, problems: list[Problem]) -> dict[str, Skill]:
 
 def _read_staff(table: RawTable, problems: list[Problem], offices: Mapping[str, Office],
                 skills: Mapping[str, Skill], period_index: Mapping[str, int]) -> list[Person]:
-    rows, out = _Rows(table, problems), []
+    rows, out = TableRows(table, problems), []
     seen: dict[str, int] = {}
     for row in rows:
         person = rows.text(row, "person")
@@ -536,7 +548,7 @@ def _read_staff(table: RawTable, problems: list[Problem], offices: Mapping[str, 
     return out
 
 
-def _parse_skills(rows: _Rows, raw: str, skills: Mapping[str, Skill]) -> tuple[
+def _parse_skills(rows: TableRows, raw: str, skills: Mapping[str, Skill]) -> tuple[
         tuple[str, float], ...] | None:
     if not raw:
         rows.error("skills", "is empty; expected skill:proficiency pairs, e.g. "
@@ -571,7 +583,7 @@ def _parse_skills(rows: _Rows, raw: str, skills: Mapping[str, Skill]) -> tuple[
 def _read_demand(table: RawTable, problems: list[Problem], offices: Mapping[str, Office],
                  skills: Mapping[str, Skill], periods: tuple[Period, ...],
                  check_empty: bool = True) -> list[Demand]:
-    rows, out = _Rows(table, problems), []
+    rows, out = TableRows(table, problems), []
     seen: dict[tuple[str, str, str], int] = {}
     period_index = {p.name: i for i, p in enumerate(periods)}
     for row in rows:
@@ -614,7 +626,7 @@ def _read_move_costs(table: RawTable | None, problems: list[Problem],
                      locations: set[str]) -> dict[tuple[str, str], MoveCost]:
     if table is None:
         return {}
-    rows, out = _Rows(table, problems), {}
+    rows, out = TableRows(table, problems), {}
     for row in rows:
         known = {loc: None for loc in locations}
         a = rows.reference(row, "from_location", known, "location", "offices.csv")
@@ -635,7 +647,7 @@ def _read_vacancies(table: RawTable | None, problems: list[Problem],
                         tuple[str, str], int]:
     if table is None:
         return {}
-    rows, out = _Rows(table, problems), {}
+    rows, out = TableRows(table, problems), {}
     for row in rows:
         office = rows.reference(row, "office", offices, "office", "offices.csv")
         skill = rows.reference(row, "skill", skills, "skill", "skills.csv")
@@ -654,7 +666,7 @@ def _read_attrition(table: RawTable | None, problems: list[Problem],
                         tuple[str, str | None], float]:
     if table is None:
         return {}
-    rows, out = _Rows(table, problems), {}
+    rows, out = TableRows(table, problems), {}
     for row in rows:
         skill = rows.reference(row, "skill", skills, "skill", "skills.csv")
         office = None
@@ -679,7 +691,7 @@ def _read_attrition(table: RawTable | None, problems: list[Problem],
 
 def _read_budgets(table: RawTable, problems: list[Problem],
                   periods: tuple[Period, ...]) -> list[Budget]:
-    rows, out = _Rows(table, problems), []
+    rows, out = TableRows(table, problems), []
     seen: dict[str, int] = {}
     years = {p.year for p in periods}
     for row in rows:

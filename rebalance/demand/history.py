@@ -13,14 +13,14 @@ import datetime
 import math
 import re
 import tomllib
-from collections.abc import Iterator, Mapping
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 import pandas as pd
 
-from rebalance.readers import InstanceError, Problem, RawTable, read_csv_table
+from rebalance.readers import InstanceError, Problem, RawTable, TableRows, read_csv_table
 
 __all__ = [
     "DemandSettings",
@@ -166,39 +166,12 @@ class History:
         return int(self.arrivals["month"].max())
 
 
-class _Cells:
-    """Iterates a table's rows and collects problems with their locations."""
+class _Cells(TableRows):
+    """The instance readers' row iterator, with the history's columns and cell types."""
 
     def __init__(self, table: RawTable, stem: str, problems: list[Problem]) -> None:
-        self.table, self.problems, self.row_number = table, problems, 0
         required, optional, _ = TABLES[stem]
-        missing = [c for c in required if c not in table.columns]
-        for column in missing:
-            problems.append(Problem(table.label, 1, column, "required column is missing"))
-        for column in table.columns:
-            if column and column not in required + optional:
-                problems.append(Problem(table.label, 1, column, "unknown column (expected one "
-                                        "of: " + ", ".join(required + optional) + ")",
-                                        is_warning=True))
-        self.columns_ok = not missing
-
-    def __iter__(self) -> Iterator[dict[str, str]]:
-        if not self.columns_ok:
-            return
-        for i, row in enumerate(self.table.rows):
-            self.row_number = self.table.first_row_number + i
-            if any(row.values()):
-                yield row
-
-    def error(self, column: str | None, message: str) -> None:
-        self.problems.append(Problem(self.table.label, self.row_number, column, message))
-
-    def text(self, row: Mapping[str, str], column: str) -> str | None:
-        value = row.get(column, "")
-        if value == "":
-            self.error(column, "is empty; a value is required")
-            return None
-        return value
+        super().__init__(table, problems, (required, optional))
 
     def choice(self, row: Mapping[str, str], column: str, known: Mapping[str, Any] | set[str]
                | tuple[str, ...] | None, what: str) -> str | None:
@@ -237,7 +210,7 @@ class _Cells:
             return None
         return index, month
 
-    def number(self, row: Mapping[str, str], column: str, *, minimum: float | None = 0.0,
+    def quantity(self, row: Mapping[str, str], column: str, *, minimum: float | None = 0.0,
                integer: bool = False, open_minimum: bool = False) -> float | None:
         raw = row.get(column, "")
         kind = "a whole number" if integer else "a number"
@@ -370,7 +343,7 @@ def _read_arrivals(table: RawTable, problems: list[Problem], offices: set[str] |
         else:
             case_type = cells.choice(row, "case_type", case_types,
                                      "an activity of kind 'case' in activities.csv")
-        count = cells.number(row, "count", integer=True)
+        count = cells.quantity(row, "count", integer=True)
         if month is None or office is None or case_type is None or count is None:
             continue
         key = (office, case_type, month)
@@ -413,7 +386,7 @@ def _read_records(table: RawTable, problems: list[Problem], offices: set[str] | 
         skill = cells.choice(row, "skill", skills, "one listed in the instance's skills.csv")
         activity = cells.text(row, "activity")
         # Any number is accepted here: hours out of plausible bounds are a quality finding.
-        hours = cells.number(row, "hours", minimum=None)
+        hours = cells.quantity(row, "hours", minimum=None)
         if person is None or period is None or office is None or skill is None:
             continue
         if activity is None or hours is None:
@@ -434,7 +407,7 @@ def _read_expected(table: RawTable, problems: list[Problem], kinds: dict[str, st
     for row in cells:
         person = cells.text(row, "person")
         period = cells.period(row, "period", kinds)
-        hours = cells.number(row, "expected_hours")
+        hours = cells.quantity(row, "expected_hours")
         if person is None or period is None or hours is None:
             continue
         key = (person, period[0])
@@ -463,7 +436,7 @@ def _read_adjustments(table: RawTable | None, problems: list[Problem], offices: 
             if case_type is None:
                 continue
         first, last = cells.month(row, "first_month"), cells.month(row, "last_month")
-        factor = cells.number(row, "factor")
+        factor = cells.quantity(row, "factor")
         if office is None or first is None or last is None or factor is None:
             continue
         if last < first:

@@ -10,7 +10,6 @@ timesheets) are not errors here: :mod:`rebalance.demand.quality` finds, excludes
 from __future__ import annotations
 
 import datetime
-import math
 import re
 import tomllib
 from collections.abc import Mapping
@@ -210,27 +209,6 @@ class _Cells(TableRows):
             return None
         return index, month
 
-    def quantity(self, row: Mapping[str, str], column: str, *, minimum: float | None = 0.0,
-               integer: bool = False, open_minimum: bool = False) -> float | None:
-        raw = row.get(column, "")
-        kind = "a whole number" if integer else "a number"
-        what = kind if minimum is None else f"{kind} {'>' if open_minimum else '>='} {minimum:g}"
-        if raw == "":
-            self.error(column, f"is empty; expected {what}")
-            return None
-        try:
-            value = float(raw)
-        except ValueError:
-            self.error(column, f"'{raw}' is not a number; expected {what}")
-            return None
-        bad = not math.isfinite(value) or (integer and value != int(value))
-        bad = bad or (minimum is not None and (value <= minimum if open_minimum
-                                               else value < minimum))
-        if bad:
-            self.error(column, f"'{raw}' is out of range; expected {what}")
-            return None
-        return value
-
 
 def read_history(folder: str | Path, offices: set[str] | None, skills: set[str] | None
                  ) -> History:
@@ -343,7 +321,7 @@ def _read_arrivals(table: RawTable, problems: list[Problem], offices: set[str] |
         else:
             case_type = cells.choice(row, "case_type", case_types,
                                      "an activity of kind 'case' in activities.csv")
-        count = cells.quantity(row, "count", integer=True)
+        count = cells.number(row, "count", integer=True)
         if month is None or office is None or case_type is None or count is None:
             continue
         key = (office, case_type, month)
@@ -386,7 +364,7 @@ def _read_records(table: RawTable, problems: list[Problem], offices: set[str] | 
         skill = cells.choice(row, "skill", skills, "one listed in the instance's skills.csv")
         activity = cells.text(row, "activity")
         # Any number is accepted here: hours out of plausible bounds are a quality finding.
-        hours = cells.quantity(row, "hours", minimum=None)
+        hours = cells.number(row, "hours", minimum=None)
         if person is None or period is None or office is None or skill is None:
             continue
         if activity is None or hours is None:
@@ -407,7 +385,7 @@ def _read_expected(table: RawTable, problems: list[Problem], kinds: dict[str, st
     for row in cells:
         person = cells.text(row, "person")
         period = cells.period(row, "period", kinds)
-        hours = cells.quantity(row, "expected_hours")
+        hours = cells.number(row, "expected_hours")
         if person is None or period is None or hours is None:
             continue
         key = (person, period[0])
@@ -436,7 +414,7 @@ def _read_adjustments(table: RawTable | None, problems: list[Problem], offices: 
             if case_type is None:
                 continue
         first, last = cells.month(row, "first_month"), cells.month(row, "last_month")
-        factor = cells.quantity(row, "factor")
+        factor = cells.number(row, "factor")
         if office is None or first is None or last is None or factor is None:
             continue
         if last < first:

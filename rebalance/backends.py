@@ -469,13 +469,28 @@ BACKENDS: dict[str, Callable[[], Backend]] = {"highs": HighsBackend, "cbc": CbcB
 
 def _stack(model: Model, extra_rows: list[tuple[np.ndarray, float]]) -> tuple[
         sp.csr_matrix, np.ndarray, np.ndarray]:
-    if not extra_rows:
-        return model.matrix, model.row_lower, model.row_upper
-    extra = sp.csr_matrix(np.vstack([r for r, _ in extra_rows]))
-    matrix = sp.vstack([model.matrix, extra], format="csr")
-    row_lo = np.concatenate([model.row_lower, np.full(len(extra_rows), -math.inf)])
-    row_hi = np.concatenate([model.row_upper, [ub for _, ub in extra_rows]])
-    return matrix, row_lo, row_hi
+    """The model's rows plus ``extra_rows``, each row scaled to a largest coefficient near 1.
+
+    Money rows (budgets, cost adjustments) carry coefficients up to 1e5 beside head and FTE
+    rows near 1; left so, HiGHS's interior point method stalls on the demo-sized models.
+    Scaling by powers of two changes neither the solution nor the rounding of any value.
+    """
+    matrix, row_lo, row_hi = model.matrix, model.row_lower, model.row_upper
+    if extra_rows:
+        extra = sp.csr_matrix(np.vstack([r for r, _ in extra_rows]))
+        matrix = sp.vstack([matrix, extra], format="csr")
+        row_lo = np.concatenate([row_lo, np.full(len(extra_rows), -math.inf)])
+        row_hi = np.concatenate([row_hi, [ub for _, ub in extra_rows]])
+    largest = np.zeros(matrix.shape[0])
+    counts = np.diff(matrix.indptr)
+    nonempty = counts > 0
+    largest[nonempty] = np.maximum.reduceat(np.abs(matrix.data), matrix.indptr[:-1][nonempty])
+    factor = np.ones_like(largest)
+    big = largest > 2.0
+    factor[big] = np.exp2(-np.round(np.log2(largest[big])))
+    if not big.any():
+        return matrix, row_lo, row_hi
+    return (sp.diags(factor, format="csr") @ matrix, row_lo * factor, row_hi * factor)
 
 
 # --------------------------------------------------------------------------------------------

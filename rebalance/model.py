@@ -28,7 +28,7 @@ INF = math.inf
 # limits, which the infeasibility analysis may relax to say which ones conflict.
 STRUCTURE_FAMILIES = (
     "capacity", "coverage", "one_detail", "detail_from_home", "one_reassignment", "home_stays",
-    "away_definition", "detail_not_home", "detail_cost_adjustment",
+    "home_in_force", "one_place", "detail_not_home", "detail_cost_adjustment",
 )
 LIMIT_FAMILIES = (
     "consecutive_details",
@@ -321,35 +321,42 @@ def build_model(instance: Instance, pooled: bool = True,
     rea = b.add_block("home", rea_keys, np.zeros(len(rea_cost)), np.ones(len(rea_cost)),
                       True, cost=np.asarray(rea_cost))
 
-    # ---- columns for relocatable people on detail (each a unit of one) --------------------
-    # away y[u, a, t] = on detail while the home in force is a (= detailed AND home a), and
-    # cost adjustment e[u, a, t] >= (detail cost from a) - (cost from the original home) when
-    # the home is a.  Both are linear in the person's columns: O(offices) columns per person
-    # and period instead of O(offices^2) for every (home, destination) pair.
+    # ---- columns for relocatable people who may go on detail (each a unit of one) ----------
+    # at home x[u, a, t] = works at a as its home in force (home a and not on detail), with
+    # sum_a x + sum_b d = 1 and x[a] <= home(a): given integer homes and details, x is
+    # exact and need not be integer, and away-from-a is home(a) - x[a].  The cost adjustment
+    # e[u, L, t] >= (detail cost from location L) - (cost from the original home's location)
+    # when the home in force is at L.  Both stay O(offices) per person and period, where
+    # (home, destination) pairs would need O(offices^2).
     det_pt: dict[tuple[int, int], list[int]] = defaultdict(list)
     for j in range(len(det_cost)):
         if det_keys["home"][j] < 0:
             det_pt[(det_keys["unit"][j], det_keys["period"][j])].append(j)
-    away_keys: dict[str, list[int]] = {"unit": [], "office": [], "period": []}
-    adj_keys: dict[str, list[int]] = {"unit": [], "office": [], "period": []}
+    locations = sorted({o.location for o in instance.offices})
+    loc_of = [locations.index(o.location) for o in instance.offices]
+    at_keys: dict[str, list[int]] = {"unit": [], "office": [], "period": []}
+    adj_keys: dict[str, list[int]] = {"unit": [], "location": [], "period": []}
     adj_bound: list[float] = []
     for (u, t), js in sorted(det_pt.items()):
         home0 = o_ix[rep[u].home_office]
         for a in range(len(offices)):
-            away_keys["unit"].append(u)
-            away_keys["office"].append(a)
-            away_keys["period"].append(t)
-            if a == home0:
+            at_keys["unit"].append(u)
+            at_keys["office"].append(a)
+            at_keys["period"].append(t)
+        for loc in range(len(locations)):
+            if loc == loc_of[home0] or not any(loc_of[a] == loc for a in range(len(offices))
+                                               if a != home0):
                 continue
-            delta = [instance.detail_cost_per_period(offices[a], offices[det_keys["office"][j]])
-                     - det_cost[j] for j in js if det_keys["office"][j] != a]
+            here = next(a for a in range(len(offices)) if loc_of[a] == loc)
+            delta = [instance.detail_cost_per_period(offices[here], offices[det_keys["office"][j]])
+                     - det_cost[j] for j in js]
             if any(delta):
                 adj_keys["unit"].append(u)
-                adj_keys["office"].append(a)
+                adj_keys["location"].append(loc)
                 adj_keys["period"].append(t)
                 adj_bound.append(max(abs(d) for d in delta))
-    away = b.add_block("away", away_keys, np.zeros(len(away_keys["unit"])),
-                       np.ones(len(away_keys["unit"])), False)
+    at_home = b.add_block("at_home", at_keys, np.zeros(len(at_keys["unit"])),
+                          np.ones(len(at_keys["unit"])), False)
     adjust = b.add_block("detail_cost_adjustment", adj_keys, -np.asarray(adj_bound, float),
                          np.asarray(adj_bound, float), False, cost=np.ones(len(adj_bound)))
 
@@ -417,14 +424,15 @@ def build_model(instance: Instance, pooled: bool = True,
         if a >= 0:
             det_from[(u, a, t)].append(col)
             det_from_office[(a, t)].append(col)
-    # For relocatable people the away columns stand where "detailed from a" is counted.
-    Y = away.keys
-    away_col: dict[tuple[int, int, int], int] = {}
-    for j in range(len(away)):
-        u, a, t = int(Y["unit"][j]), int(Y["office"][j]), int(Y["period"][j])
-        away_col[(u, a, t)] = away.start + j
-        det_from[(u, a, t)].append(away.start + j)
-        det_from_office[(a, t)].append(away.start + j)
+    # Relocatable people who may go on detail are placed by their at-home columns.
+    at_col: dict[tuple[int, int, int], int] = {}
+    located_by_t: dict[int, list[int]] = defaultdict(list)
+    X = at_home.keys
+    for j in range(len(at_home)):
+        u, o, t = int(X["unit"][j]), int(X["office"][j]), int(X["period"][j])
+        at_col[(u, o, t)] = at_home.start + j
+        if not located_by_t[t] or located_by_t[t][-1] != u:
+            located_by_t[t].append(u)
     rea_by_u: dict[int, list[tuple[int, int, int]]] = defaultdict(list)  # u -> (col, o, t)
     home_col: dict[tuple[int, int, int], int] = {}  # (u, o, t) -> column
     R = rea.keys
@@ -467,6 +475,26 @@ def build_model(instance: Instance, pooled: bool = True,
                 vals += pv
         return float(present_home[o, t]), cols, vals
 
+    def at_office(u: int, o: int, t: int) -> tuple[float, list[int], list[float]]:
+        """Heads of unit u working at o in t: at home and not away, or detailed in."""
+        into = det_to.get((u, o, t), [])
+        col = at_col.get((u, o, t))
+        if col is not None:
+            return 0.0, [col, *into], [1.0] * (1 + len(into))
+        const, cols, vals = home_terms(u, o, t)
+        out = det_from.get((u, o, t), [])
+        return const, cols + out + into, vals + [-1.0] * len(out) + [1.0] * len(into)
+
+    def located_away(a: int, t: int) -> tuple[float, list[int], list[float]]:
+        """Relocatable people placed by at-home columns who are away from home a in t."""
+        const, cols, vals = 0.0, [], []
+        for u in located_by_t.get(t, []):
+            c, hc, hv = home_terms(u, a, t)
+            const += c
+            cols += [*hc, at_col[(u, a, t)]]
+            vals += [*hv, -1.0]
+        return const, cols, vals
+
     def unit_label(u: int) -> str:
         n = len(units[u])
         first = instance.staff[units[u][0]].person
@@ -481,12 +509,9 @@ def build_model(instance: Instance, pooled: bool = True,
     b.begin("capacity")
     for (u, o, t), cols in work_by_uot.items():
         cap = avail[u, t]
-        const, hcols, hvals = home_terms(u, o, t)
-        away_cols, in_cols = det_from.get((u, o, t), []), det_to.get((u, o, t), [])
-        b.row(list(cols) + hcols + away_cols + in_cols,
-              [1.0] * len(cols) + [-cap * v for v in hvals] + [cap] * len(away_cols)
-              + [-cap] * len(in_cols),
-              -INF, cap * const, f"{unit_label(u)} at {offices[o]} in {instance.periods[t].name}")
+        const, at_cols, heads = at_office(u, o, t)
+        b.row(list(cols) + at_cols, [1.0] * len(cols) + [-cap * v for v in heads], -INF,
+              cap * const, f"{unit_label(u)} at {offices[o]} in {instance.periods[t].name}")
 
     # one_detail: each person on at most one detail per period
     b.begin("one_detail")
@@ -504,17 +529,19 @@ def build_model(instance: Instance, pooled: bool = True,
         b.row(cols + hcols, [1.0] * len(cols) + [-v for v in hvals], -INF, const,
               f"{unit_label(u)} from {offices[a]} in {instance.periods[t].name}")
 
-    # away_definition: y[u,a,t] = detailed AND home a, for relocatable people
-    b.begin("away_definition")
-    for (u, a, t), col in sorted(away_col.items()):
-        on = det_by_ut[(u, t)]
+    # home_in_force: at home only at the home in force, x[u,a,t] <= N(u,a,t)
+    b.begin("home_in_force")
+    for (u, a, t), col in sorted(at_col.items()):
         const, hcols, hvals = home_terms(u, a, t)
-        # y >= detailed + home(a) - 1
-        b.row([*on, col, *hcols], [1.0] * len(on) + [-1.0] + hvals, -INF, 1.0 - const,
-              f"{unit_label(u)} away from {offices[a]} in {instance.periods[t].name}")
-        # y <= detailed
-        b.row([*on, col], [-1.0] * len(on) + [1.0], -INF, 0.0,
-              f"{unit_label(u)} away in {instance.periods[t].name}")
+        b.row([col, *hcols], [1.0] + [-v for v in hvals], -INF, const,
+              f"{unit_label(u)} at {offices[a]} in {instance.periods[t].name}")
+    # one_place: a relocatable person is at home or on one detail: sum_a x + sum_b d = 1
+    b.begin("one_place")
+    for t, located in sorted(located_by_t.items()):
+        for u in located:
+            cols = [at_col[(u, a, t)] for a in range(len(offices))] + det_by_ut[(u, t)]
+            b.row(cols, [1.0] * len(cols), 1.0, 1.0,
+                  f"{unit_label(u)} in {instance.periods[t].name}")
     # detail_not_home: no detail to the office that is the home in force
     b.begin("detail_not_home")
     for (u, o, t), to_o in sorted(det_to.items()):
@@ -524,20 +551,23 @@ def build_model(instance: Instance, pooled: bool = True,
         const, hcols, hvals = home_terms(u, o, t)
         b.row(cols + hcols, [1.0] * len(cols) + hvals, -INF, 1.0 - const,
               f"{unit_label(u)} to {offices[o]} in {instance.periods[t].name}")
-    # detail_cost_adjustment: e >= sum_b (c(a,b) - c(home0,b)) d[b] - M (1 - g[a]), e >= -M g[a]
+    # detail_cost_adjustment: e >= sum_b (c(L,b) - c(home0,b)) d[b] - M (1 - G_L),
+    # e >= -M G_L, where G_L = sum of home columns at offices in location L
     b.begin("detail_cost_adjustment")
     A_ = adjust.keys
     for j in range(len(adjust)):
-        u, a, t = int(A_["unit"][j]), int(A_["office"][j]), int(A_["period"][j])
+        u, loc, t = int(A_["unit"][j]), int(A_["location"][j]), int(A_["period"][j])
         col, big = adjust.start + j, float(adj_bound[j])
-        g_col = home_col[(u, a, t)]
+        here = next(a for a in range(len(offices)) if loc_of[a] == loc)
+        g_cols = [home_col[(u, a, t)] for a in range(len(offices))
+                  if loc_of[a] == loc and (u, a, t) in home_col]
         terms = [(det.start + i, instance.detail_cost_per_period(
-            offices[a], offices[det_keys["office"][i]]) - det_cost[i])
-            for i in det_pt[(u, t)] if det_keys["office"][i] != a]
-        b.row([c for c, _ in terms] + [col, g_col], [v for _, v in terms] + [-1.0, big],
-              -INF, big, f"{unit_label(u)} from {offices[a]} in {instance.periods[t].name}")
-        b.row([col, g_col], [-1.0, -big], -INF, 0.0,
-              f"{unit_label(u)} from {offices[a]} in {instance.periods[t].name}")
+            offices[here], offices[det_keys["office"][i]]) - det_cost[i]) for i in det_pt[(u, t)]]
+        terms = [(c, v) for c, v in terms if v]
+        label = f"{unit_label(u)} from {locations[loc]} in {instance.periods[t].name}"
+        b.row([c for c, _ in terms] + [col] + g_cols,
+              [v for _, v in terms] + [-1.0] + [big] * len(g_cols), -INF, big, label)
+        b.row([col, *g_cols], [-1.0] + [-big] * len(g_cols), -INF, 0.0, label)
 
     # one_reassignment: one new home at most (the home columns never switch back, below)
     b.begin("one_reassignment")
@@ -581,12 +611,10 @@ def build_model(instance: Instance, pooled: bool = True,
             for o in there:
                 if (o, k, t) not in wanted:
                     continue
-                const, hcols, hvals = home_terms(u, o, t)
+                const, cols, heads = at_office(u, o, t)
                 direct_const[(o, k, t)] += factor * const
-                terms = direct_terms[(o, k, t)]
-                terms += [(c, factor * v) for c, v in zip(hcols, hvals, strict=True)]
-                terms += [(c, -factor) for c in det_from.get((u, o, t), [])]
-                terms += [(c, factor) for c in det_to.get((u, o, t), [])]
+                direct_terms[(o, k, t)] += [(c, factor * v)
+                                            for c, v in zip(cols, heads, strict=True)]
     b.begin("coverage")
     for j, (o, k, t) in enumerate(short_list):
         cols = [c for c, _ in work_by_okt.get((o, k, t), [])]
@@ -621,10 +649,14 @@ def build_model(instance: Instance, pooled: bool = True,
     share = instance.policy.max_away_share
     b.begin("away_share")
     if share < 1.0:
-        for (a, t), cols in sorted(det_from_office.items()):
+        keys = set(det_from_office) | {(a, t) for t in located_by_t for a in range(len(offices))}
+        for a, t in sorted(keys):
+            cols = det_from_office.get((a, t), [])
             const, hcols, hvals = heads_at_home(a, t)
-            b.row(cols + hcols, [1.0] * len(cols) + [-share * v for v in hvals], -INF,
-                  share * const, f"{offices[a]} in {instance.periods[t].name}")
+            gone, gcols, gvals = located_away(a, t)
+            b.row(cols + gcols + hcols,
+                  [1.0] * len(cols) + gvals + [-share * v for v in hvals], -INF,
+                  share * const - gone, f"{offices[a]} in {instance.periods[t].name}")
 
     # seats: home people present and not away + detailed in + hires started <= seats
     b.begin("seats")
@@ -633,6 +665,10 @@ def build_model(instance: Instance, pooled: bool = True,
             continue
         for t in range(T):
             const, cols, vals = heads_at_home(o, t)
+            gone, gcols, gvals = located_away(o, t)
+            const -= gone
+            cols += gcols
+            vals += [-v for v in gvals]
             cols += det_from_office.get((o, t), [])
             vals += [-1.0] * len(det_from_office.get((o, t), []))
             cols += det_to_office.get((o, t), [])

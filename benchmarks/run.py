@@ -336,6 +336,10 @@ def _cell(value: str, kind: str = "") -> str:
         return "–"
     if kind == "gap":
         v = _num(value)
+        if v is not None and v > 1e3:
+            # relative_gap divides by max(|plan|, 1e-9): a plan of cost 0 above a negative
+            # bound has no meaningful relative gap.
+            return "unbounded (plan 0, bound < 0)"
         return value if v is None else f"{v:.2%}"
     if kind == "int":
         v = _num(value)

@@ -334,6 +334,8 @@ def build_model(instance: Instance, pooled: bool = True,
             det_pt[(det_keys["unit"][j], det_keys["period"][j])].append(j)
     locations = sorted({o.location for o in instance.offices})
     loc_of = [locations.index(o.location) for o in instance.offices]
+    # Costs depend on locations only: any office at a location stands for all of them.
+    office_at = {loc: a for a, loc in reversed(list(enumerate(loc_of)))}
     at_keys: dict[str, list[int]] = {"unit": [], "office": [], "period": []}
     adj_keys: dict[str, list[int]] = {"unit": [], "location": [], "period": []}
     adj_bound: list[float] = []
@@ -347,7 +349,7 @@ def build_model(instance: Instance, pooled: bool = True,
             if loc == loc_of[home0] or not any(loc_of[a] == loc for a in range(len(offices))
                                                if a != home0):
                 continue
-            here = next(a for a in range(len(offices)) if loc_of[a] == loc)
+            here = office_at[loc]
             delta = [instance.detail_cost_per_period(offices[here], offices[det_keys["office"][j]])
                      - det_cost[j] for j in js]
             if any(delta):
@@ -558,7 +560,7 @@ def build_model(instance: Instance, pooled: bool = True,
     for j in range(len(adjust)):
         u, loc, t = int(A_["unit"][j]), int(A_["location"][j]), int(A_["period"][j])
         col, big = adjust.start + j, float(adj_bound[j])
-        here = next(a for a in range(len(offices)) if loc_of[a] == loc)
+        here = office_at[loc]
         g_cols = [home_col[(u, a, t)] for a in range(len(offices))
                   if loc_of[a] == loc and (u, a, t) in home_col]
         terms = [(det.start + i, instance.detail_cost_per_period(

@@ -4,13 +4,15 @@ The model is written as one sparse matrix with row bounds, so that HiGHS can tak
 ``passModel`` call and PuLP (for CBC) can be fed row slices without building expressions term
 by term.  Columns come in named blocks (work, detail, reassignment, hire, shortfall); each block
 keeps integer key arrays (unit, office, skill, period, ...) so plan extraction can decode a
-solution vector without knowing solver objects.  The mathematics is written up in
-``docs/model.md``; the comments here refer to its constraint names.
+solution vector without knowing solver objects.  ``build_model`` adds them step by step;
+relocatable people's at-home and cost-adjustment columns are in ``rebalance.relocation``.  The
+mathematics is written up in ``docs/model.md``; the comments here refer to its constraint names.
 """
 
 from __future__ import annotations
 
 import math
+import time
 from collections import defaultdict
 from collections.abc import Callable, Hashable
 from dataclasses import dataclass, field
@@ -19,6 +21,7 @@ import numpy as np
 import scipy.sparse as sp
 
 from rebalance.instance import Instance, Person
+from rebalance.relocation import Relocation
 
 __all__ = ["ColumnBlock", "Model", "RowFamily", "build_model", "group_units"]
 
@@ -210,6 +213,9 @@ def group_units(instance: Instance, pooled: bool = True,
 
 PAIR_DETAILS_MAX_OFFICES = 10
 
+# Heads (or output) as a constant plus columns with their coefficients.
+Terms = tuple[float, list[int], list[float]]
+
 
 def build_model(instance: Instance, pooled: bool = True,
                 pool_key: Callable[[Person], Hashable] | None = None,
@@ -227,35 +233,74 @@ def build_model(instance: Instance, pooled: bool = True,
     """
     if pair_details is None:
         pair_details = len(instance.offices) <= PAIR_DETAILS_MAX_OFFICES
-    import time
-
     started = time.perf_counter()
     b = _Builder()
-    T = len(instance.periods)
-    offices = [o.name for o in instance.offices]
-    skills = [s.name for s in instance.skills]
-    o_ix = {name: i for i, name in enumerate(offices)}
-    k_ix = {name: i for i, name in enumerate(skills)}
-    year_of = [p.year for p in instance.periods]
-    units = group_units(instance, pooled, pool_key)
-    rep = [instance.staff[members[0]] for members in units]  # a representative per unit
-    size = np.asarray([len(members) for members in units], dtype=float)
+    f = _Frame(instance, group_units(instance, pooled, pool_key))
+    work, det, rea, det_cost = _add_staff_columns(b, f, pair_details)
+    relocation = Relocation(b, f, det, det_cost)
+    hire = _add_hire_columns(b, f)
+    short = _add_shortfall_columns(b, f)
+    cols = _Columns(f, work, det, det_cost, rea, hire, relocation)
+    _add_staff_rows(b, f, cols)
+    relocation.add_rows(b, f, cols)
+    _add_home_rows(b, f, cols)
+    direct = _add_coverage_rows(b, f, cols, short)
+    _add_detail_limit_rows(b, f, cols)
+    _add_seat_rows(b, f, cols)
+    _add_hiring_limit_rows(b, f, cols)
+    _add_moves_budget_rows(b, f, cols)
+    model = b.finish()
+    model.units = f.units
+    model.direct_units = direct
+    model.build_seconds = time.perf_counter() - started
+    return model
 
-    demand_fte: dict[tuple[int, int, int], float] = {}
-    priority: dict[tuple[int, int, int], float] = {}
-    for d in instance.demand:
-        key = (o_ix[d.office], k_ix[d.skill], d.period)
-        demand_fte[key] = d.fte
-        priority[key] = d.priority
-    wanted = {key for key, fte in demand_fte.items() if fte > 0}
-    # Skills wanted at an office in a period: prunes work and detail columns that cannot help.
-    skills_wanted: dict[tuple[int, int], set[int]] = defaultdict(set)
-    for o, k, t in wanted:
-        skills_wanted[(o, t)].add(k)
 
-    m = instance.policy.max_consecutive_detail_periods
-    details_allowed = m is None or m > 0
+class _Frame:
+    """The instance as every step of the build reads it: positions, units, availability, demand."""
 
+    def __init__(self, instance: Instance, units: tuple[tuple[int, ...], ...]) -> None:
+        self.instance = instance
+        self.T = T = len(instance.periods)
+        self.offices = [o.name for o in instance.offices]
+        self.skills = [s.name for s in instance.skills]
+        self.o_ix = {name: i for i, name in enumerate(self.offices)}
+        self.k_ix = {name: i for i, name in enumerate(self.skills)}
+        self.year_of = [p.year for p in instance.periods]
+        self.units = units
+        self.rep = [instance.staff[members[0]] for members in units]  # a representative per unit
+        self.size = np.asarray([len(members) for members in units], dtype=float)
+        self.avail = np.zeros((len(units), T))  # per person of the unit
+        for u, person in enumerate(self.rep):
+            for t in range(T):
+                self.avail[u, t] = instance.available_fte(person, t)
+        self.demand_fte: dict[tuple[int, int, int], float] = {}
+        self.priority: dict[tuple[int, int, int], float] = {}
+        for d in instance.demand:
+            key = (self.o_ix[d.office], self.k_ix[d.skill], d.period)
+            self.demand_fte[key] = d.fte
+            self.priority[key] = d.priority
+        self.wanted = {key for key, fte in self.demand_fte.items() if fte > 0}
+        # Skills wanted at an office in a period: prunes work and detail columns that cannot help.
+        self.skills_wanted: dict[tuple[int, int], set[int]] = defaultdict(set)
+        for o, k, t in self.wanted:
+            self.skills_wanted[(o, t)].add(k)
+        self.m = instance.policy.max_consecutive_detail_periods  # None: no limit
+
+    def unit_label(self, u: int) -> str:
+        n = len(self.units[u])
+        first = self.instance.staff[self.units[u][0]].person
+        return f"person {first}" if n == 1 else f"group of {n} ({first} and alike)"
+
+    def period(self, t: int) -> str:
+        return self.instance.periods[t].name
+
+
+def _add_staff_columns(b: _Builder, f: _Frame, pair_details: bool) -> tuple[
+        ColumnBlock, ColumnBlock, ColumnBlock, list[float]]:
+    """Add the work, detail and home blocks; return them and the detail costs."""
+    instance, offices = f.instance, f.offices
+    details_allowed = f.m is None or f.m > 0
     # ---- columns: detail d[u, a, b, t] (a = home in force, b = destination) -------------
     det_keys: dict[str, list[int]] = {"unit": [], "home": [], "office": [], "period": []}
     det_cost: list[float] = []
@@ -269,17 +314,15 @@ def build_model(instance: Instance, pooled: bool = True,
     work_keys: dict[str, list[int]] = {"unit": [], "office": [], "skill": [], "period": []}
     work_cap: list[float] = []
 
-    avail = np.zeros((len(units), T))  # per person of the unit
-    for u, person in enumerate(rep):
-        home0 = o_ix[person.home_office]
-        person_skills = {k_ix[s] for s, _ in person.skills}
+    for u, person in enumerate(f.rep):
+        home0 = f.o_ix[person.home_office]
+        person_skills = {f.k_ix[s] for s, _ in person.skills}
         homes = range(len(offices)) if person.can_relocate else (home0,)
-        for t in range(T):
-            avail[u, t] = instance.available_fte(person, t)
-            if avail[u, t] <= 0:
+        for t in range(f.T):
+            if f.avail[u, t] <= 0:
                 continue
             if person.can_relocate:
-                last = t == T - 1 or instance.available_fte(person, t + 1) <= 0
+                last = t == f.T - 1 or f.avail[u, t + 1] <= 0
                 for o in range(len(offices)):
                     if o != home0:
                         rea_keys["unit"].append(u)
@@ -290,10 +333,10 @@ def build_model(instance: Instance, pooled: bool = True,
             reachable = set(homes)
             if person.can_detail and details_allowed:
                 for dest in range(len(offices)):
-                    if not person_skills & skills_wanted.get((dest, t), set()):
+                    if not person_skills & f.skills_wanted.get((dest, t), set()):
                         continue
                     # A relocatable person's detail leaves from the home in force (home -1);
-                    # its cost from a new home is added by the adjustment columns below.
+                    # its cost from a new home is added by the adjustment columns (relocation).
                     for a in ((-1,) if person.can_relocate and not pair_details else homes):
                         if a == dest:
                             continue
@@ -303,80 +346,43 @@ def build_model(instance: Instance, pooled: bool = True,
                         det_keys["period"].append(t)
                         det_cost.append(instance.detail_cost_per_period(
                             person.home_office if a < 0 else offices[a], offices[dest]))
-                        det_ub.append(size[u])
+                        det_ub.append(f.size[u])
                     reachable.add(dest)
             if len(person_skills) == 1:
                 continue  # one skill: output follows where they are, no split to choose
             for o in sorted(reachable):
-                for k in sorted(person_skills & skills_wanted.get((o, t), set())):
+                for k in sorted(person_skills & f.skills_wanted.get((o, t), set())):
                     work_keys["unit"].append(u)
                     work_keys["office"].append(o)
                     work_keys["skill"].append(k)
                     work_keys["period"].append(t)
-                    work_cap.append(avail[u, t] * size[u])
+                    work_cap.append(f.avail[u, t] * f.size[u])
 
     work = b.add_block("work", work_keys, np.zeros(len(work_cap)), np.asarray(work_cap), False)
     det = b.add_block("detail", det_keys, np.zeros(len(det_cost)), np.asarray(det_ub), True,
                       cost=np.asarray(det_cost))
     rea = b.add_block("home", rea_keys, np.zeros(len(rea_cost)), np.ones(len(rea_cost)),
                       True, cost=np.asarray(rea_cost))
+    return work, det, rea, det_cost
 
-    # ---- columns for relocatable people who may go on detail (each a unit of one) ----------
-    # at home x[u, a, t] = works at a as its home in force (home a and not on detail), with
-    # sum_a x + sum_b d = 1 and x[a] <= home(a): given integer homes and details, x is
-    # exact and need not be integer, and away-from-a is home(a) - x[a].  The cost adjustment
-    # e[u, L, t] >= (detail cost from location L) - (cost from the original home's location)
-    # when the home in force is at L.  Both stay O(offices) per person and period, where
-    # (home, destination) pairs would need O(offices^2).
-    det_pt: dict[tuple[int, int], list[int]] = defaultdict(list)
-    for j in range(len(det_cost)):
-        if det_keys["home"][j] < 0:
-            det_pt[(det_keys["unit"][j], det_keys["period"][j])].append(j)
-    locations = sorted({o.location for o in instance.offices})
-    loc_of = [locations.index(o.location) for o in instance.offices]
-    # Costs depend on locations only: any office at a location stands for all of them.
-    office_at = {loc: a for a, loc in reversed(list(enumerate(loc_of)))}
-    at_keys: dict[str, list[int]] = {"unit": [], "office": [], "period": []}
-    adj_keys: dict[str, list[int]] = {"unit": [], "location": [], "period": []}
-    adj_bound: list[float] = []
-    for (u, t), js in sorted(det_pt.items()):
-        home0 = o_ix[rep[u].home_office]
-        for a in range(len(offices)):
-            at_keys["unit"].append(u)
-            at_keys["office"].append(a)
-            at_keys["period"].append(t)
-        for loc in range(len(locations)):
-            if loc == loc_of[home0] or not any(loc_of[a] == loc for a in range(len(offices))
-                                               if a != home0):
-                continue
-            here = office_at[loc]
-            delta = [instance.detail_cost_per_period(offices[here], offices[det_keys["office"][j]])
-                     - det_cost[j] for j in js]
-            if any(delta):
-                adj_keys["unit"].append(u)
-                adj_keys["location"].append(loc)
-                adj_keys["period"].append(t)
-                adj_bound.append(max(abs(d) for d in delta))
-    at_home = b.add_block("at_home", at_keys, np.zeros(len(at_keys["unit"])),
-                          np.ones(len(at_keys["unit"])), False)
-    adjust = b.add_block("detail_cost_adjustment", adj_keys, -np.asarray(adj_bound, float),
-                         np.asarray(adj_bound, float), False, cost=np.ones(len(adj_bound)))
 
-    # ---- columns: hires h[o, k, s, funding] ------------------------------------------------
+def _add_hire_columns(b: _Builder, f: _Frame) -> ColumnBlock:
+    """Add the hire block h[o, k, s, funding]: starts per office, skill and period."""
+    T = f.T
     hire_keys: dict[str, list[int]] = {"office": [], "skill": [], "period": [], "new": []}
     hire_ub: list[float] = []
     hire_cost: list[float] = []
-    for o, office in enumerate(instance.offices):
+    for o, office in enumerate(f.instance.offices):
         if office.max_hires_per_period == 0:
             continue
-        for k, skill in enumerate(instance.skills):
-            later_demand = [(t, demand_fte.get((o, k, t), 0.0)) for t in range(T)]
-            vac = instance.vacancies.get((office.name, skill.name), 0)
+        for k, skill in enumerate(f.instance.skills):
+            later_demand = [(t, f.demand_fte.get((o, k, t), 0.0)) for t in range(T)]
+            vac = f.instance.vacancies.get((office.name, skill.name), 0)
             for s in range(skill.time_to_hire, T):
                 # No hire where nothing it could ever cover: more than the peak needs is waste.
                 need = 0
                 for t, fte in later_demand[s:]:
-                    eff = instance.hire_fte(skill.name, office.name, s, t)
+                    eff = f.instance.hire_fte(skill.name, office.name, s, t)
                     if fte > 0 and eff > 0:
                         need = max(need, math.ceil(fte / eff - 1e-9))
                 if office.max_hires_per_period is not None:
@@ -394,369 +400,329 @@ def build_model(instance: Instance, pooled: bool = True,
                     hire_ub.append(ub)
                     hire_cost.append(skill.onboarding_cost
                                      + new * skill.salary_per_period * (T - s))
-    hire = b.add_block("hire", hire_keys, np.zeros(len(hire_ub)), np.asarray(hire_ub), True,
+    return b.add_block("hire", hire_keys, np.zeros(len(hire_ub)), np.asarray(hire_ub), True,
                        cost=np.asarray(hire_cost))
 
-    # ---- columns: shortfall s[o, k, t] -----------------------------------------------------
-    short_list = sorted(wanted)
-    short = b.add_block(
+
+def _add_shortfall_columns(b: _Builder, f: _Frame) -> ColumnBlock:
+    """Add the shortfall block s[o, k, t], one column per demand above zero, in key order."""
+    short_list = sorted(f.wanted)
+    return b.add_block(
         "shortfall",
         {"office": [x[0] for x in short_list], "skill": [x[1] for x in short_list],
          "period": [x[2] for x in short_list]},
         np.zeros(len(short_list)),
-        np.asarray([demand_fte[x] for x in short_list]),
+        np.asarray([f.demand_fte[x] for x in short_list]),
         False,
-        weight=np.asarray([priority[x] for x in short_list]),
+        weight=np.asarray([f.priority[x] for x in short_list]),
     )
 
-    # Index maps from keys to columns.
-    D = det.keys
-    det_by_ut: dict[tuple[int, int], list[int]] = defaultdict(list)
-    det_from: dict[tuple[int, int, int], list[int]] = defaultdict(list)   # (u, a, t)
-    det_to: dict[tuple[int, int, int], list[int]] = defaultdict(list)     # (u, b, t)
-    det_from_office: dict[tuple[int, int], list[int]] = defaultdict(list)  # (a, t)
-    det_to_office: dict[tuple[int, int], list[int]] = defaultdict(list)    # (b, t)
-    for j in range(len(det)):
-        u, a, dest, t = (int(D["unit"][j]), int(D["home"][j]), int(D["office"][j]),
-                         int(D["period"][j]))
-        col = det.start + j
-        det_by_ut[(u, t)].append(col)
-        det_to[(u, dest, t)].append(col)
-        det_to_office[(dest, t)].append(col)
-        if a >= 0:
-            det_from[(u, a, t)].append(col)
-            det_from_office[(a, t)].append(col)
-    # Relocatable people who may go on detail are placed by their at-home columns.
-    at_col: dict[tuple[int, int, int], int] = {}
-    located_by_t: dict[int, list[int]] = defaultdict(list)
-    X = at_home.keys
-    for j in range(len(at_home)):
-        u, o, t = int(X["unit"][j]), int(X["office"][j]), int(X["period"][j])
-        at_col[(u, o, t)] = at_home.start + j
-        if not located_by_t[t] or located_by_t[t][-1] != u:
-            located_by_t[t].append(u)
-    rea_by_u: dict[int, list[tuple[int, int, int]]] = defaultdict(list)  # u -> (col, o, t)
-    home_col: dict[tuple[int, int, int], int] = {}  # (u, o, t) -> column
-    R = rea.keys
-    for j in range(len(rea)):
-        u, o, t = int(R["unit"][j]), int(R["office"][j]), int(R["period"][j])
-        rea_by_u[u].append((rea.start + j, o, t))
-        home_col[(u, o, t)] = rea.start + j
 
-    def home_terms(u: int, o: int, t: int) -> tuple[float, list[int], list[float]]:
+class _Columns:
+    """Lookups from keys to columns, and the heads of a unit at a place as linear terms."""
+
+    def __init__(self, f: _Frame, work: ColumnBlock, det: ColumnBlock, det_cost: list[float],
+                 rea: ColumnBlock, hire: ColumnBlock, relocation: Relocation) -> None:
+        self.f = f
+        self.work, self.det, self.det_cost, self.rea, self.hire = work, det, det_cost, rea, hire
+        self.relocation = relocation
+        D = det.keys
+        self.det_by_ut: dict[tuple[int, int], list[int]] = defaultdict(list)
+        self.det_from: dict[tuple[int, int, int], list[int]] = defaultdict(list)  # (u, a, t)
+        self.det_to: dict[tuple[int, int, int], list[int]] = defaultdict(list)    # (u, b, t)
+        self.det_from_office: dict[tuple[int, int], list[int]] = defaultdict(list)  # (a, t)
+        self.det_to_office: dict[tuple[int, int], list[int]] = defaultdict(list)    # (b, t)
+        for j in range(len(det)):
+            u, a, dest, t = (int(D["unit"][j]), int(D["home"][j]), int(D["office"][j]),
+                             int(D["period"][j]))
+            col = det.start + j
+            self.det_by_ut[(u, t)].append(col)
+            self.det_to[(u, dest, t)].append(col)
+            self.det_to_office[(dest, t)].append(col)
+            if a >= 0:
+                self.det_from[(u, a, t)].append(col)
+                self.det_from_office[(a, t)].append(col)
+        self.rea_by_u: dict[int, list[tuple[int, int, int]]] = defaultdict(list)  # (col, o, t)
+        self.home_col: dict[tuple[int, int, int], int] = {}  # (u, o, t) -> column
+        self.home_cols_by_ut: dict[tuple[int, int], list[int]] = defaultdict(list)
+        R = rea.keys
+        for j in range(len(rea)):
+            u, o, t = int(R["unit"][j]), int(R["office"][j]), int(R["period"][j])
+            self.rea_by_u[u].append((rea.start + j, o, t))
+            self.home_col[(u, o, t)] = rea.start + j
+            self.home_cols_by_ut[(u, t)].append(rea.start + j)
+        self.present_home = np.zeros((len(f.offices), f.T))
+        for u, person in enumerate(f.rep):
+            self.present_home[f.o_ix[person.home_office]] += f.size[u] * (f.avail[u] > 0)
+        H = hire.keys
+        self.hire_by_ok: dict[tuple[int, int], list[tuple[int, int]]] = defaultdict(list)
+        for j in range(len(hire)):
+            self.hire_by_ok[(int(H["office"][j]), int(H["skill"][j]))].append(
+                (hire.start + j, int(H["period"][j])))
+
+    def home_terms(self, u: int, o: int, t: int) -> Terms:
         """Heads of unit u whose home in force at t is o: constant + reassignment columns."""
-        home0 = o_ix[rep[u].home_office]
-        if u not in rea_by_u:
-            return (size[u] if o == home0 else 0.0), [], []
+        home0 = self.f.o_ix[self.f.rep[u].home_office]
+        if u not in self.rea_by_u:
+            return (self.f.size[u] if o == home0 else 0.0), [], []
         if o != home0:
-            col = home_col.get((u, o, t))
+            col = self.home_col.get((u, o, t))
             return 0.0, ([] if col is None else [col]), ([] if col is None else [1.0])
-        cols = [c for (uu, _, tt), c in _home_cols_at(u, t)]
+        cols = self.home_cols_by_ut.get((u, t), [])
         return 1.0, cols, [-1.0] * len(cols)
 
-    home_cols_by_ut: dict[tuple[int, int], list[tuple[tuple[int, int, int], int]]] = (
-        defaultdict(list))
-    for key, col in home_col.items():
-        home_cols_by_ut[(key[0], key[2])].append((key, col))
-
-    def _home_cols_at(u: int, t: int) -> list[tuple[tuple[int, int, int], int]]:
-        return home_cols_by_ut.get((u, t), [])
-
-    present_home = np.zeros((len(offices), T))
-    for u, person in enumerate(rep):
-        present_home[o_ix[person.home_office]] += size[u] * (avail[u] > 0)
-
-    def heads_at_home(o: int, t: int) -> tuple[float, list[int], list[float]]:
+    def heads_at_home(self, o: int, t: int) -> Terms:
         """Present people whose home in force at t is o: constant + reassignment columns."""
         cols: list[int] = []
         vals: list[float] = []
-        for u in rea_by_u:
-            if avail[u, t] > 0:
-                _, pc, pv = home_terms(u, o, t)
+        for u in self.rea_by_u:
+            if self.f.avail[u, t] > 0:
+                _, pc, pv = self.home_terms(u, o, t)
                 cols += pc
                 vals += pv
-        return float(present_home[o, t]), cols, vals
+        return float(self.present_home[o, t]), cols, vals
 
-    def at_office(u: int, o: int, t: int) -> tuple[float, list[int], list[float]]:
+    def at_office(self, u: int, o: int, t: int) -> Terms:
         """Heads of unit u working at o in t: at home and not away, or detailed in."""
-        into = det_to.get((u, o, t), [])
-        col = at_col.get((u, o, t))
+        into = self.det_to.get((u, o, t), [])
+        col = self.relocation.at_col.get((u, o, t))
         if col is not None:
             return 0.0, [col, *into], [1.0] * (1 + len(into))
-        const, cols, vals = home_terms(u, o, t)
-        out = det_from.get((u, o, t), [])
+        const, cols, vals = self.home_terms(u, o, t)
+        out = self.det_from.get((u, o, t), [])
         return const, cols + out + into, vals + [-1.0] * len(out) + [1.0] * len(into)
 
-    def located_away(a: int, t: int) -> tuple[float, list[int], list[float]]:
-        """Relocatable people placed by at-home columns who are away from home a in t."""
-        const, cols, vals = 0.0, [], []
-        for u in located_by_t.get(t, []):
-            c, hc, hv = home_terms(u, a, t)
-            const += c
-            cols += [*hc, at_col[(u, a, t)]]
-            vals += [*hv, -1.0]
-        return const, cols, vals
 
-    def unit_label(u: int) -> str:
-        n = len(units[u])
-        first = instance.staff[units[u][0]].person
-        return f"person {first}" if n == 1 else f"group of {n} ({first} and alike)"
-
+def _add_staff_rows(b: _Builder, f: _Frame, cols: _Columns) -> None:
+    """Rows capacity, one_detail and detail_from_home."""
     # capacity: sum_k w[u,o,k,t] <= avail * (heads at o: home and not away, or detailed in)
-    W = work.keys
+    W = cols.work.keys
     work_by_uot: dict[tuple[int, int, int], list[int]] = defaultdict(list)
-    for j in range(len(work)):
+    for j in range(len(cols.work)):
         work_by_uot[(int(W["unit"][j]), int(W["office"][j]), int(W["period"][j]))].append(
-            work.start + j)
+            cols.work.start + j)
     b.begin("capacity")
-    for (u, o, t), cols in work_by_uot.items():
-        cap = avail[u, t]
-        const, at_cols, heads = at_office(u, o, t)
-        b.row(list(cols) + at_cols, [1.0] * len(cols) + [-cap * v for v in heads], -INF,
-              cap * const, f"{unit_label(u)} at {offices[o]} in {instance.periods[t].name}")
+    for (u, o, t), wcols in work_by_uot.items():
+        cap = f.avail[u, t]
+        const, at_cols, heads = cols.at_office(u, o, t)
+        b.row(list(wcols) + at_cols, [1.0] * len(wcols) + [-cap * v for v in heads], -INF,
+              cap * const, f"{f.unit_label(u)} at {f.offices[o]} in {f.period(t)}")
 
     # one_detail: each person on at most one detail per period
     b.begin("one_detail")
-    for (u, t), cols in det_by_ut.items():
-        if len(cols) > 1:
-            b.row(cols, [1.0] * len(cols), -INF, size[u],
-                  f"{unit_label(u)} in {instance.periods[t].name}")
+    for (u, t), dcols in cols.det_by_ut.items():
+        if len(dcols) > 1:
+            b.row(dcols, [1.0] * len(dcols), -INF, f.size[u], f"{f.unit_label(u)} in {f.period(t)}")
 
     # detail_from_home: a detail leaves from the home in force (relocatable people only)
     b.begin("detail_from_home")
-    for (u, a, t), cols in det_from.items():
-        if not rep[u].can_relocate:
+    for (u, a, t), dcols in cols.det_from.items():
+        if not f.rep[u].can_relocate:
             continue
-        const, hcols, hvals = home_terms(u, a, t)
-        b.row(cols + hcols, [1.0] * len(cols) + [-v for v in hvals], -INF, const,
-              f"{unit_label(u)} from {offices[a]} in {instance.periods[t].name}")
+        const, hcols, hvals = cols.home_terms(u, a, t)
+        b.row(dcols + hcols, [1.0] * len(dcols) + [-v for v in hvals], -INF, const,
+              f"{f.unit_label(u)} from {f.offices[a]} in {f.period(t)}")
 
-    # home_in_force: at home only at the home in force, x[u,a,t] <= N(u,a,t)
-    b.begin("home_in_force")
-    for (u, a, t), col in sorted(at_col.items()):
-        const, hcols, hvals = home_terms(u, a, t)
-        b.row([col, *hcols], [1.0] + [-v for v in hvals], -INF, const,
-              f"{unit_label(u)} at {offices[a]} in {instance.periods[t].name}")
-    # one_place: a relocatable person is at home or on one detail: sum_a x + sum_b d = 1
-    b.begin("one_place")
-    for t, located in sorted(located_by_t.items()):
-        for u in located:
-            cols = [at_col[(u, a, t)] for a in range(len(offices))] + det_by_ut[(u, t)]
-            b.row(cols, [1.0] * len(cols), 1.0, 1.0,
-                  f"{unit_label(u)} in {instance.periods[t].name}")
-    # detail_not_home: no detail to the office that is the home in force
-    b.begin("detail_not_home")
-    for (u, o, t), to_o in sorted(det_to.items()):
-        cols = [c for c in to_o if D["home"][c - det.start] < 0]  # by-destination columns
-        if not cols:
-            continue
-        const, hcols, hvals = home_terms(u, o, t)
-        b.row(cols + hcols, [1.0] * len(cols) + hvals, -INF, 1.0 - const,
-              f"{unit_label(u)} to {offices[o]} in {instance.periods[t].name}")
-    # detail_cost_adjustment: e >= sum_b (c(L,b) - c(home0,b)) d[b] - M (1 - G_L),
-    # e >= -M G_L, where G_L = sum of home columns at offices in location L
-    b.begin("detail_cost_adjustment")
-    A_ = adjust.keys
-    for j in range(len(adjust)):
-        u, loc, t = int(A_["unit"][j]), int(A_["location"][j]), int(A_["period"][j])
-        col, big = adjust.start + j, float(adj_bound[j])
-        here = office_at[loc]
-        g_cols = [home_col[(u, a, t)] for a in range(len(offices))
-                  if loc_of[a] == loc and (u, a, t) in home_col]
-        terms = [(det.start + i, instance.detail_cost_per_period(
-            offices[here], offices[det_keys["office"][i]]) - det_cost[i]) for i in det_pt[(u, t)]]
-        terms = [(c, v) for c, v in terms if v]
-        label = f"{unit_label(u)} from {locations[loc]} in {instance.periods[t].name}"
-        b.row([c for c, _ in terms] + [col] + g_cols,
-              [v for _, v in terms] + [-1.0] + [big] * len(g_cols), -INF, big, label)
-        b.row([col, *g_cols], [-1.0] + [-big] * len(g_cols), -INF, 0.0, label)
 
+def _add_home_rows(b: _Builder, f: _Frame, cols: _Columns) -> None:
+    """Rows one_reassignment and home_stays."""
     # one_reassignment: one new home at most (the home columns never switch back, below)
     b.begin("one_reassignment")
-    for u, entries in rea_by_u.items():
+    for u, entries in cols.rea_by_u.items():
         t_last = max(t for _, _, t in entries)
-        cols = [c for c, _, t in entries if t == t_last]
-        b.row(cols, [1.0] * len(cols), -INF, 1.0, unit_label(u))
+        last = [c for c, _, t in entries if t == t_last]
+        b.row(last, [1.0] * len(last), -INF, 1.0, f.unit_label(u))
     b.begin("home_stays")
-    for (u, o, t), col in home_col.items():
-        before = home_col.get((u, o, t - 1))
+    for (u, o, t), col in cols.home_col.items():
+        before = cols.home_col.get((u, o, t - 1))
         if before is not None:
             b.row([before, col], [1.0, -1.0], -INF, 0.0,
-                  f"{unit_label(u)} at {offices[o]} in {instance.periods[t].name}")
+                  f"{f.unit_label(u)} at {f.offices[o]} in {f.period(t)}")
 
-    # coverage: staff output + hire output + shortfall >= demand
-    H = hire.keys
-    hire_by_ok: dict[tuple[int, int], list[tuple[int, int]]] = defaultdict(list)
-    for j in range(len(hire)):
-        hire_by_ok[(int(H["office"][j]), int(H["skill"][j]))].append(
-            (hire.start + j, int(H["period"][j])))
+
+def _add_coverage_rows(b: _Builder, f: _Frame, cols: _Columns,
+                       short: ColumnBlock) -> frozenset[int]:
+    """Rows coverage: staff output + hire output + shortfall >= demand.
+
+    Returns the units whose one skill takes all their output (they have no work columns).
+    """
+    instance, rep, offices, skills = f.instance, f.rep, f.offices, f.skills
+    W = cols.work.keys
     work_by_okt: dict[tuple[int, int, int], list[tuple[int, float]]] = defaultdict(list)
-    for j in range(len(work)):
+    for j in range(len(cols.work)):
         u, k = int(W["unit"][j]), int(W["skill"][j])
         work_by_okt[(int(W["office"][j]), k, int(W["period"][j]))].append(
-            (work.start + j, rep[u].proficiency(skills[k])))
+            (cols.work.start + j, rep[u].proficiency(skills[k])))
     # People with one skill give all their output to it, wherever they are that period:
     # proficiency x available FTE x (heads there), with no work columns (issue 3: size).
     direct = frozenset(u for u, person in enumerate(rep) if len(person.skills) == 1)
     direct_terms: dict[tuple[int, int, int], list[tuple[int, float]]] = defaultdict(list)
     direct_const: dict[tuple[int, int, int], float] = defaultdict(float)
     for u in sorted(direct):
-        k = k_ix[rep[u].skills[0][0]]
-        home0 = o_ix[rep[u].home_office]
+        k = f.k_ix[rep[u].skills[0][0]]
+        home0 = f.o_ix[rep[u].home_office]
         places = range(len(offices)) if rep[u].can_relocate else None
-        for t in range(T):
-            if avail[u, t] <= 0:
+        for t in range(f.T):
+            if f.avail[u, t] <= 0:
                 continue
-            factor = rep[u].skills[0][1] * avail[u, t]
+            factor = rep[u].skills[0][1] * f.avail[u, t]
             there = set(places) if places is not None else {home0}
-            there |= {o for o in range(len(offices)) if (u, o, t) in det_to}
+            there |= {o for o in range(len(offices)) if (u, o, t) in cols.det_to}
             for o in there:
-                if (o, k, t) not in wanted:
+                if (o, k, t) not in f.wanted:
                     continue
-                const, cols, heads = at_office(u, o, t)
+                const, ocols, heads = cols.at_office(u, o, t)
                 direct_const[(o, k, t)] += factor * const
                 direct_terms[(o, k, t)] += [(c, factor * v)
-                                            for c, v in zip(cols, heads, strict=True)]
+                                            for c, v in zip(ocols, heads, strict=True)]
     b.begin("coverage")
-    for j, (o, k, t) in enumerate(short_list):
-        cols = [c for c, _ in work_by_okt.get((o, k, t), [])]
-        vals = [v for _, v in work_by_okt.get((o, k, t), [])]
-        cols += [c for c, _ in direct_terms.get((o, k, t), [])]
-        vals += [v for _, v in direct_terms.get((o, k, t), [])]
-        for col, s in hire_by_ok.get((o, k), []):
+    for j, (o, k, t) in enumerate(sorted(f.wanted)):  # the shortfall block's order
+        terms = work_by_okt.get((o, k, t), []) + direct_terms.get((o, k, t), [])
+        row = [c for c, _ in terms]
+        vals = [v for _, v in terms]
+        for col, s in cols.hire_by_ok.get((o, k), []):
             eff = instance.hire_fte(skills[k], offices[o], s, t)
             if s <= t and eff > 0:
-                cols.append(col)
+                row.append(col)
                 vals.append(eff)
-        cols.append(short.start + j)
+        row.append(short.start + j)
         vals.append(1.0)
-        b.row(cols, vals, demand_fte[(o, k, t)] - direct_const.get((o, k, t), 0.0), INF,
-              f"{skills[k]} at {offices[o]} in {instance.periods[t].name}")
+        b.row(row, vals, f.demand_fte[(o, k, t)] - direct_const.get((o, k, t), 0.0), INF,
+              f"{skills[k]} at {offices[o]} in {f.period(t)}")
+    return direct
 
+
+def _add_detail_limit_rows(b: _Builder, f: _Frame, cols: _Columns) -> None:
+    """Rows consecutive_details and away_share."""
     # consecutive_details: in every window of m+1 periods at most m are detail periods; for a
     # group, at most m x size detail-periods (plan extraction then names who goes when)
+    m = f.m
     b.begin("consecutive_details")
     if m is not None and m > 0:
-        for u in range(len(units)):
-            for start in range(0, T - m):
+        for u in range(len(f.units)):
+            for start in range(0, f.T - m):
                 window = range(start, start + m + 1)
-                if sum(1 for t in window if det_by_ut.get((u, t))) <= m:
+                if sum(1 for t in window if cols.det_by_ut.get((u, t))) <= m:
                     continue
-                cols = [c for t in window for c in det_by_ut.get((u, t), [])]
-                b.row(cols, [1.0] * len(cols), -INF, m * size[u],
-                      f"{unit_label(u)} in {instance.periods[start].name}.."
-                      f"{instance.periods[start + m].name}")
+                dcols = [c for t in window for c in cols.det_by_ut.get((u, t), [])]
+                b.row(dcols, [1.0] * len(dcols), -INF, m * f.size[u],
+                      f"{f.unit_label(u)} in {f.period(start)}..{f.period(start + m)}")
 
     # away_share: away from home office a <= share * present heads with home a
-    share = instance.policy.max_away_share
+    share = f.instance.policy.max_away_share
+    located_by_t = cols.relocation.located_by_t
     b.begin("away_share")
     if share < 1.0:
-        keys = set(det_from_office) | {(a, t) for t in located_by_t for a in range(len(offices))}
+        keys = set(cols.det_from_office) | {(a, t) for t in located_by_t
+                                            for a in range(len(f.offices))}
         for a, t in sorted(keys):
-            cols = det_from_office.get((a, t), [])
-            const, hcols, hvals = heads_at_home(a, t)
-            gone, gcols, gvals = located_away(a, t)
-            b.row(cols + gcols + hcols,
-                  [1.0] * len(cols) + gvals + [-share * v for v in hvals], -INF,
-                  share * const - gone, f"{offices[a]} in {instance.periods[t].name}")
+            dcols = cols.det_from_office.get((a, t), [])
+            const, hcols, hvals = cols.heads_at_home(a, t)
+            gone, gcols, gvals = cols.relocation.located_away(cols, a, t)
+            b.row(dcols + gcols + hcols,
+                  [1.0] * len(dcols) + gvals + [-share * v for v in hvals], -INF,
+                  share * const - gone, f"{f.offices[a]} in {f.period(t)}")
 
-    # seats: home people present and not away + detailed in + hires started <= seats
+
+def _add_seat_rows(b: _Builder, f: _Frame, cols: _Columns) -> None:
+    """Rows seats: home people present and not away + detailed in + hires started <= seats."""
     b.begin("seats")
-    for o, office in enumerate(instance.offices):
+    for o, office in enumerate(f.instance.offices):
         if office.seats is None:
             continue
-        for t in range(T):
-            const, cols, vals = heads_at_home(o, t)
-            gone, gcols, gvals = located_away(o, t)
+        for t in range(f.T):
+            const, row, vals = cols.heads_at_home(o, t)
+            gone, gcols, gvals = cols.relocation.located_away(cols, o, t)
             const -= gone
-            cols += gcols
+            row += gcols
             vals += [-v for v in gvals]
-            cols += det_from_office.get((o, t), [])
-            vals += [-1.0] * len(det_from_office.get((o, t), []))
-            cols += det_to_office.get((o, t), [])
-            vals += [1.0] * len(det_to_office.get((o, t), []))
-            for k in range(len(skills)):
-                for col, s in hire_by_ok.get((o, k), []):
+            row += cols.det_from_office.get((o, t), [])
+            vals += [-1.0] * len(cols.det_from_office.get((o, t), []))
+            row += cols.det_to_office.get((o, t), [])
+            vals += [1.0] * len(cols.det_to_office.get((o, t), []))
+            for k in range(len(f.skills)):
+                for col, s in cols.hire_by_ok.get((o, k), []):
                     if s <= t:
-                        cols.append(col)
+                        row.append(col)
                         vals.append(1.0)
-            if cols or const > office.seats:
-                b.row(cols, vals, -INF, office.seats - const,
-                      f"{office.name} in {instance.periods[t].name}")
+            if row or const > office.seats:
+                b.row(row, vals, -INF, office.seats - const, f"{office.name} in {f.period(t)}")
 
+
+def _add_hiring_limit_rows(b: _Builder, f: _Frame, cols: _Columns) -> None:
+    """Rows vacancies, max_hires and hiring_budget."""
+    hire, H = cols.hire, cols.hire.keys
     # vacancies: vacancy-funded hires per office and skill over the horizon
     b.begin("vacancies")
-    for (o, k), starts in sorted(hire_by_ok.items()):
+    for (o, k), starts in sorted(cols.hire_by_ok.items()):
         funded = [c for c, _ in starts if H["new"][c - hire.start] == 0]
-        vac = instance.vacancies.get((offices[o], skills[k]), 0)
+        vac = f.instance.vacancies.get((f.offices[o], f.skills[k]), 0)
         if len(funded) > 1:
-            b.row(funded, [1.0] * len(funded), -INF, float(vac), f"{skills[k]} at {offices[o]}")
+            b.row(funded, [1.0] * len(funded), -INF, float(vac),
+                  f"{f.skills[k]} at {f.offices[o]}")
 
     # max_hires: starts per office and period, all skills together
     b.begin("max_hires")
-    for o, office in enumerate(instance.offices):
+    for o, office in enumerate(f.instance.offices):
         cap_hires = office.max_hires_per_period
         if cap_hires is None:
             continue
-        for s in range(T):
-            cols = [c for k in range(len(skills)) for c, st in hire_by_ok.get((o, k), [])
-                    if st == s]
-            if len(cols) > 1:
-                b.row(cols, [1.0] * len(cols), -INF, float(cap_hires),
-                      f"{office.name} in {instance.periods[s].name}")
+        for s in range(f.T):
+            starting = [c for k in range(len(f.skills)) for c, st in cols.hire_by_ok.get((o, k), [])
+                        if st == s]
+            if len(starting) > 1:
+                b.row(starting, [1.0] * len(starting), -INF, float(cap_hires),
+                      f"{office.name} in {f.period(s)}")
 
     # hiring_budget per year: onboarding of all hires + new-position salaries falling in it
     b.begin("hiring_budget")
-    for year in instance.years:
-        budget = instance.budget(year)
+    for year in f.instance.years:
+        budget = f.instance.budget(year)
         if budget is None or budget.hiring is None:
             continue
-        cols, vals = [], []
+        row, vals = [], []
         for j in range(len(hire)):
             s, k, new = int(H["period"][j]), int(H["skill"][j]), int(H["new"][j])
-            skill = instance.skills[k]
-            amount = skill.onboarding_cost if year_of[s] == year else 0.0
+            skill = f.instance.skills[k]
+            amount = skill.onboarding_cost if f.year_of[s] == year else 0.0
             if new:
                 amount += skill.salary_per_period * sum(
-                    1 for t in range(s, T) if year_of[t] == year)
+                    1 for t in range(s, f.T) if f.year_of[t] == year)
             if amount:
-                cols.append(hire.start + j)
+                row.append(hire.start + j)
                 vals.append(amount)
-        if cols:
-            b.row(cols, vals, -INF, budget.hiring, f"hiring budget {year}")
+        if row:
+            b.row(row, vals, -INF, budget.hiring, f"hiring budget {year}")
 
-    # moves_budget per year: detail and relocation spending
+
+def _add_moves_budget_rows(b: _Builder, f: _Frame, cols: _Columns) -> None:
+    """Rows moves_budget per year: detail and relocation spending."""
+    det, adjust = cols.det, cols.relocation.adjust
     b.begin("moves_budget")
-    for year in instance.years:
-        budget = instance.budget(year)
+    for year in f.instance.years:
+        budget = f.instance.budget(year)
         if budget is None or budget.moves is None:
             continue
-        cols, vals = [], []
+        row, vals = [], []
         for j in range(len(det)):
-            if year_of[int(D["period"][j])] == year and det_cost[j]:
-                cols.append(det.start + j)
-                vals.append(det_cost[j])
+            if f.year_of[int(det.keys["period"][j])] == year and cols.det_cost[j]:
+                row.append(det.start + j)
+                vals.append(cols.det_cost[j])
         for j in range(len(adjust)):
-            if year_of[int(adjust.keys["period"][j])] == year:
-                cols.append(adjust.start + j)
+            if f.year_of[int(adjust.keys["period"][j])] == year:
+                row.append(adjust.start + j)
                 vals.append(1.0)
         # Relocation is paid in the year the home changes: cost x (g[t] - g[t-1]).
-        for (u, o, t), col in home_col.items():
-            if year_of[t] != year:
+        for (u, o, t), col in cols.home_col.items():
+            if f.year_of[t] != year:
                 continue
-            amount = instance.relocation_cost(rep[u].home_office, offices[o])
+            amount = f.instance.relocation_cost(f.rep[u].home_office, f.offices[o])
             if amount:
-                cols.append(col)
+                row.append(col)
                 vals.append(amount)
-                before = home_col.get((u, o, t - 1))
+                before = cols.home_col.get((u, o, t - 1))
                 if before is not None:
-                    cols.append(before)
+                    row.append(before)
                     vals.append(-amount)
-        if cols:
-            b.row(cols, vals, -INF, budget.moves, f"moves budget {year}")
-
-    model = b.finish()
-    model.units = units
-    model.direct_units = direct
-    model.build_seconds = time.perf_counter() - started
-    return model
+        if row:
+            b.row(row, vals, -INF, budget.moves, f"moves budget {year}")

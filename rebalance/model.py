@@ -5,8 +5,9 @@ The model is written as one sparse matrix with row bounds, so that HiGHS can tak
 by term.  Columns come in named blocks (work, detail, reassignment, hire, shortfall); each block
 keeps integer key arrays (unit, office, skill, period, ...) so plan extraction can decode a
 solution vector without knowing solver objects.  ``build_model`` adds them step by step;
-relocatable people's at-home and cost-adjustment columns are in ``rebalance.relocation``.  The
-mathematics is written up in ``docs/model.md``; the comments here refer to its constraint names.
+relocatable people's at-home and cost-adjustment columns are in ``rebalance.relocation``, the
+organisation's limits in ``rebalance.limits``.  The mathematics is written up in
+``docs/model.md``; the comments here refer to its constraint names.
 """
 
 from __future__ import annotations
@@ -21,6 +22,7 @@ import numpy as np
 import scipy.sparse as sp
 
 from rebalance.instance import Instance, Person
+from rebalance.limits import add_limit_rows
 from rebalance.relocation import Relocation
 
 __all__ = ["ColumnBlock", "Model", "RowFamily", "build_model", "group_units"]
@@ -245,10 +247,7 @@ def build_model(instance: Instance, pooled: bool = True,
     relocation.add_rows(b, f, cols)
     _add_home_rows(b, f, cols)
     direct = _add_coverage_rows(b, f, cols, short)
-    _add_detail_limit_rows(b, f, cols)
-    _add_seat_rows(b, f, cols)
-    _add_hiring_limit_rows(b, f, cols)
-    _add_moves_budget_rows(b, f, cols)
+    add_limit_rows(b, f, cols)
     model = b.finish()
     model.units = f.units
     model.direct_units = direct
@@ -590,139 +589,3 @@ def _add_coverage_rows(b: _Builder, f: _Frame, cols: _Columns,
         b.row(row, vals, f.demand_fte[(o, k, t)] - direct_const.get((o, k, t), 0.0), INF,
               f"{skills[k]} at {offices[o]} in {f.period(t)}")
     return direct
-
-
-def _add_detail_limit_rows(b: _Builder, f: _Frame, cols: _Columns) -> None:
-    """Rows consecutive_details and away_share."""
-    # consecutive_details: in every window of m+1 periods at most m are detail periods; for a
-    # group, at most m x size detail-periods (plan extraction then names who goes when)
-    m = f.m
-    b.begin("consecutive_details")
-    if m is not None and m > 0:
-        for u in range(len(f.units)):
-            for start in range(0, f.T - m):
-                window = range(start, start + m + 1)
-                if sum(1 for t in window if cols.det_by_ut.get((u, t))) <= m:
-                    continue
-                dcols = [c for t in window for c in cols.det_by_ut.get((u, t), [])]
-                b.row(dcols, [1.0] * len(dcols), -INF, m * f.size[u],
-                      f"{f.unit_label(u)} in {f.period(start)}..{f.period(start + m)}")
-
-    # away_share: away from home office a <= share * present heads with home a
-    share = f.instance.policy.max_away_share
-    located_by_t = cols.relocation.located_by_t
-    b.begin("away_share")
-    if share < 1.0:
-        keys = set(cols.det_from_office) | {(a, t) for t in located_by_t
-                                            for a in range(len(f.offices))}
-        for a, t in sorted(keys):
-            dcols = cols.det_from_office.get((a, t), [])
-            const, hcols, hvals = cols.heads_at_home(a, t)
-            gone, gcols, gvals = cols.relocation.located_away(cols, a, t)
-            b.row(dcols + gcols + hcols,
-                  [1.0] * len(dcols) + gvals + [-share * v for v in hvals], -INF,
-                  share * const - gone, f"{f.offices[a]} in {f.period(t)}")
-
-
-def _add_seat_rows(b: _Builder, f: _Frame, cols: _Columns) -> None:
-    """Rows seats: home people present and not away + detailed in + hires started <= seats."""
-    b.begin("seats")
-    for o, office in enumerate(f.instance.offices):
-        if office.seats is None:
-            continue
-        for t in range(f.T):
-            const, row, vals = cols.heads_at_home(o, t)
-            gone, gcols, gvals = cols.relocation.located_away(cols, o, t)
-            const -= gone
-            row += gcols
-            vals += [-v for v in gvals]
-            row += cols.det_from_office.get((o, t), [])
-            vals += [-1.0] * len(cols.det_from_office.get((o, t), []))
-            row += cols.det_to_office.get((o, t), [])
-            vals += [1.0] * len(cols.det_to_office.get((o, t), []))
-            for k in range(len(f.skills)):
-                for col, s in cols.hire_by_ok.get((o, k), []):
-                    if s <= t:
-                        row.append(col)
-                        vals.append(1.0)
-            if row or const > office.seats:
-                b.row(row, vals, -INF, office.seats - const, f"{office.name} in {f.period(t)}")
-
-
-def _add_hiring_limit_rows(b: _Builder, f: _Frame, cols: _Columns) -> None:
-    """Rows vacancies, max_hires and hiring_budget."""
-    hire, H = cols.hire, cols.hire.keys
-    # vacancies: vacancy-funded hires per office and skill over the horizon
-    b.begin("vacancies")
-    for (o, k), starts in sorted(cols.hire_by_ok.items()):
-        funded = [c for c, _ in starts if H["new"][c - hire.start] == 0]
-        vac = f.instance.vacancies.get((f.offices[o], f.skills[k]), 0)
-        if len(funded) > 1:
-            b.row(funded, [1.0] * len(funded), -INF, float(vac),
-                  f"{f.skills[k]} at {f.offices[o]}")
-
-    # max_hires: starts per office and period, all skills together
-    b.begin("max_hires")
-    for o, office in enumerate(f.instance.offices):
-        cap_hires = office.max_hires_per_period
-        if cap_hires is None:
-            continue
-        for s in range(f.T):
-            starting = [c for k in range(len(f.skills)) for c, st in cols.hire_by_ok.get((o, k), [])
-                        if st == s]
-            if len(starting) > 1:
-                b.row(starting, [1.0] * len(starting), -INF, float(cap_hires),
-                      f"{office.name} in {f.period(s)}")
-
-    # hiring_budget per year: onboarding of all hires + new-position salaries falling in it
-    b.begin("hiring_budget")
-    for year in f.instance.years:
-        budget = f.instance.budget(year)
-        if budget is None or budget.hiring is None:
-            continue
-        row, vals = [], []
-        for j in range(len(hire)):
-            s, k, new = int(H["period"][j]), int(H["skill"][j]), int(H["new"][j])
-            skill = f.instance.skills[k]
-            amount = skill.onboarding_cost if f.year_of[s] == year else 0.0
-            if new:
-                amount += skill.salary_per_period * sum(
-                    1 for t in range(s, f.T) if f.year_of[t] == year)
-            if amount:
-                row.append(hire.start + j)
-                vals.append(amount)
-        if row:
-            b.row(row, vals, -INF, budget.hiring, f"hiring budget {year}")
-
-
-def _add_moves_budget_rows(b: _Builder, f: _Frame, cols: _Columns) -> None:
-    """Rows moves_budget per year: detail and relocation spending."""
-    det, adjust = cols.det, cols.relocation.adjust
-    b.begin("moves_budget")
-    for year in f.instance.years:
-        budget = f.instance.budget(year)
-        if budget is None or budget.moves is None:
-            continue
-        row, vals = [], []
-        for j in range(len(det)):
-            if f.year_of[int(det.keys["period"][j])] == year and cols.det_cost[j]:
-                row.append(det.start + j)
-                vals.append(cols.det_cost[j])
-        for j in range(len(adjust)):
-            if f.year_of[int(adjust.keys["period"][j])] == year:
-                row.append(adjust.start + j)
-                vals.append(1.0)
-        # Relocation is paid in the year the home changes: cost x (g[t] - g[t-1]).
-        for (u, o, t), col in cols.home_col.items():
-            if f.year_of[t] != year:
-                continue
-            amount = f.instance.relocation_cost(f.rep[u].home_office, f.offices[o])
-            if amount:
-                row.append(col)
-                vals.append(amount)
-                before = cols.home_col.get((u, o, t - 1))
-                if before is not None:
-                    row.append(before)
-                    vals.append(-amount)
-        if row:
-            b.row(row, vals, -INF, budget.moves, f"moves budget {year}")

@@ -16,7 +16,7 @@ from __future__ import annotations
 import argparse
 import json
 import sys
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from pathlib import Path
 
 from rebalance.instance import Instance
@@ -215,6 +215,30 @@ def _keep_frontier(out: str, folder: Path) -> None:
         shutil.copy2(old, folder / "frontier.csv")
 
 
+def _write_analysis_plan(args: argparse.Namespace, result, instance: Instance,
+                         tables: dict, instance_path: str | None, written: str,
+                         more: Callable[[Path], None] | None = None) -> int:
+    """Write a verified analysis plan to ``args.out`` with ``tables``, its reasons and the
+    report; ``more`` adds to the folder first.  ``instance_path`` is recorded for
+    'rebalance report'."""
+    from rebalance.analysis.output import write_tables
+    from rebalance.analysis.reasons import reasons
+    from rebalance.planning import CAUTION, write_outputs
+    from rebalance.report.files import plan_extras
+
+    def extra(result, folder: Path) -> None:
+        write_tables({**tables, "reasons.csv": reasons(instance, result.plan).table}, folder)
+        if more is not None:
+            more(folder)
+        _keep_frontier(args.out, folder)
+        plan_extras(instance_path)(result, folder)
+
+    write_outputs(result, args.out, extra=extra)
+    print(f"\n{written} written to {args.out}/")
+    print("\nCaution: " + CAUTION)
+    return EXIT_OK
+
+
 def _folder_name(name: str) -> str:
     return "".join(c if c.isalnum() or c in "-_." else "_" for c in name) or "scenario"
 
@@ -224,8 +248,7 @@ def cmd_compare(args: argparse.Namespace) -> int:
     from rebalance.analysis.reasons import reasons
     from rebalance.analysis.scenarios import ScenarioError, compare_scenarios, read_scenario
     from rebalance.plan import write_plan
-    from rebalance.planning import CAUTION, summary_dict, write_outputs
-    from rebalance.report.files import plan_extras
+    from rebalance.planning import summary_dict
 
     instance = _load(args.instance)
     if instance is None:
@@ -256,11 +279,7 @@ def cmd_compare(args: argparse.Namespace) -> int:
         if code is not None:
             return code
 
-    def extra(result, folder: Path) -> None:
-        write_tables({"scenarios.csv": comparison.table,
-                      "scenario_costs.csv": comparison.costs,
-                      "scenario_actions.csv": comparison.actions,
-                      "reasons.csv": reasons(instance, result.plan).table}, folder)
+    def scenario_plans(folder: Path) -> None:
         for name, other in zip(comparison.names[1:], comparison.results[1:], strict=True):
             if other.plan is None:
                 continue
@@ -269,22 +288,17 @@ def cmd_compare(args: argparse.Namespace) -> int:
             write_plan(other.plan, sub)
             (sub / "summary.json").write_text(json.dumps(summary_dict(other), indent=2) + "\n")
             write_tables({"reasons.csv": reasons(other.instance, other.plan).table}, sub)
-        _keep_frontier(args.out, folder)
-        plan_extras(args.instance)(result, folder)
 
-    write_outputs(comparison.results[0], args.out, extra=extra)
-    print(f"\nbase plan, scenarios.csv and each scenario's plan written to {args.out}/")
-    print("\nCaution: " + CAUTION)
-    return EXIT_OK
+    tables = {"scenarios.csv": comparison.table, "scenario_costs.csv": comparison.costs,
+              "scenario_actions.csv": comparison.actions}
+    return _write_analysis_plan(args, comparison.results[0], instance, tables, args.instance,
+                                "base plan, scenarios.csv and each scenario's plan",
+                                more=scenario_plans)
 
 
 def cmd_replan(args: argparse.Namespace) -> int:
-    from rebalance.analysis.output import write_tables
-    from rebalance.analysis.reasons import reasons
     from rebalance.analysis.replan import DisruptionCosts, ReplanError, replan
     from rebalance.plan import PLAN_TABLES, read_plan
-    from rebalance.planning import CAUTION, write_outputs
-    from rebalance.report.files import plan_extras
 
     instance = _load(args.instance)
     if instance is None:
@@ -331,18 +345,12 @@ def cmd_replan(args: argparse.Namespace) -> int:
     if code is not None:
         return code
 
-    def extra(result, target: Path) -> None:
-        write_tables({"changes.csv": out.changes, "replan.csv": out.summary,
-                      "reasons.csv": reasons(instance, result.plan).table}, target)
-        _keep_frontier(args.out, target)
-        # Under a scenario the plan belongs to the changed data, not to the instance folder:
-        # record no instance path, so 'rebalance report' asks for one rather than mislead.
-        plan_extras(None if args.scenario else args.instance)(result, target)
-
-    write_outputs(out.result, args.out, extra=extra)
-    print(f"\nnew plan, changes.csv and replan.csv written to {args.out}/")
-    print("\nCaution: " + CAUTION)
-    return EXIT_OK
+    # Under a scenario the plan belongs to the changed data, not to the instance folder:
+    # record no instance path, so 'rebalance report' asks for one rather than mislead.
+    return _write_analysis_plan(args, out.result, instance,
+                                {"changes.csv": out.changes, "replan.csv": out.summary},
+                                None if args.scenario else args.instance,
+                                "new plan, changes.csv and replan.csv")
 
 
 def cmd_frontier(args: argparse.Namespace) -> int:
@@ -373,10 +381,7 @@ def cmd_frontier(args: argparse.Namespace) -> int:
 
 def cmd_marginal(args: argparse.Namespace) -> int:
     from rebalance.analysis.marginal import Steps, marginal_values
-    from rebalance.analysis.output import write_tables
-    from rebalance.analysis.reasons import reasons
-    from rebalance.planning import CAUTION, make_plan, write_outputs
-    from rebalance.report.files import plan_extras
+    from rebalance.planning import make_plan
 
     instance = _load(args.instance)
     if instance is None:
@@ -390,17 +395,8 @@ def cmd_marginal(args: argparse.Namespace) -> int:
                              max_resolves=args.max_resolves)
     print(values.table[["rank", "limit", "where", "step", "shortfall_reduction", "cost_change",
                         "estimate_shortfall_reduction", "status"]].to_string(index=False))
-
-    def extra(result, folder: Path) -> None:
-        write_tables({"marginal_values.csv": values.table,
-                      "reasons.csv": reasons(instance, result.plan).table}, folder)
-        _keep_frontier(args.out, folder)
-        plan_extras(args.instance)(result, folder)
-
-    write_outputs(base, args.out, extra=extra)
-    print(f"\nplan, marginal_values.csv and reasons.csv written to {args.out}/")
-    print("\nCaution: " + CAUTION)
-    return EXIT_OK
+    return _write_analysis_plan(args, base, instance, {"marginal_values.csv": values.table},
+                                args.instance, "plan, marginal_values.csv and reasons.csv")
 
 
 def _add_analysis_commands(sub) -> None:

@@ -287,11 +287,13 @@ class _Frame:
         self.m = instance.policy.max_consecutive_detail_periods  # None: no limit
 
     def unit_label(self, u: int) -> str:
+        """Who a row of unit ``u`` is about, for its label."""
         n = len(self.units[u])
         first = self.instance.staff[self.units[u][0]].person
         return f"person {first}" if n == 1 else f"group of {n} ({first} and alike)"
 
     def period(self, t: int) -> str:
+        """The name of period ``t``, for labels."""
         return self.instance.periods[t].name
 
 

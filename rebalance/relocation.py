@@ -101,19 +101,19 @@ class Relocation:
 
     def add_rows(self, b: _Builder, f: _Frame, cols: _Columns) -> None:
         """Rows home_in_force, one_place, detail_not_home and detail_cost_adjustment."""
-        offices, periods = f.offices, f.instance.periods
+        offices = f.offices
         # home_in_force: at home only at the home in force, x[u,a,t] <= N(u,a,t)
         b.begin("home_in_force")
         for (u, a, t), col in sorted(self.at_col.items()):
             const, hcols, hvals = cols.home_terms(u, a, t)
             b.row([col, *hcols], [1.0] + [-v for v in hvals], -math.inf, const,
-                  f"{f.unit_label(u)} at {offices[a]} in {periods[t].name}")
+                  f"{f.unit_label(u)} at {offices[a]} in {f.period(t)}")
         # one_place: a relocatable person is at home or on one detail: sum_a x + sum_b d = 1
         b.begin("one_place")
         for t, located in sorted(self.located_by_t.items()):
             for u in located:
                 row = [self.at_col[(u, a, t)] for a in range(len(offices))] + cols.det_by_ut[(u, t)]
-                b.row(row, [1.0] * len(row), 1.0, 1.0, f"{f.unit_label(u)} in {periods[t].name}")
+                b.row(row, [1.0] * len(row), 1.0, 1.0, f"{f.unit_label(u)} in {f.period(t)}")
         # detail_not_home: no detail to the office that is the home in force
         b.begin("detail_not_home")
         for (u, o, t), to_o in sorted(cols.det_to.items()):
@@ -122,7 +122,7 @@ class Relocation:
                 continue
             const, hcols, hvals = cols.home_terms(u, o, t)
             b.row(dcols + hcols, [1.0] * len(dcols) + hvals, -math.inf, 1.0 - const,
-                  f"{f.unit_label(u)} to {offices[o]} in {periods[t].name}")
+                  f"{f.unit_label(u)} to {offices[o]} in {f.period(t)}")
         # detail_cost_adjustment: e >= sum_b (c(L,b) - c(home0,b)) d[b] - M (1 - G_L),
         # e >= -M G_L, where G_L = sum of home columns at offices in location L
         b.begin("detail_cost_adjustment")
@@ -135,7 +135,7 @@ class Relocation:
             js = self.by_destination[(u, t)]
             terms = [(self.det.start + i, v)
                      for i, v in zip(js, self.cost_changes(f, loc, js), strict=True) if v]
-            label = f"{f.unit_label(u)} from {self.locations[loc]} in {periods[t].name}"
+            label = f"{f.unit_label(u)} from {self.locations[loc]} in {f.period(t)}"
             b.row([c for c, _ in terms] + [col] + g_cols,
                   [v for _, v in terms] + [-1.0] + [big] * len(g_cols), -math.inf, big, label)
             b.row([col, *g_cols], [-1.0] + [-big] * len(g_cols), -math.inf, 0.0, label)

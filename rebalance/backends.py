@@ -91,13 +91,18 @@ class Backend(Protocol):
 
 
 def relative_gap(objective: float | None, bound: float | None) -> float | None:
-    """Gap as (objective - bound) / |objective|, 0 when both agree to 1e-9 absolute."""
+    """Gap as (objective - bound) / |objective|, 0 when both agree to 1e-9 absolute.
+
+    ``None`` where it has no meaning: no bound, or a plan scoring 0 above a lower bound.
+    """
     if objective is None or bound is None or not math.isfinite(bound):
         return None
     diff = objective - bound
     if diff <= 1e-9 * max(1.0, abs(objective)):
         return 0.0
-    return diff / max(abs(objective), 1e-9)
+    if abs(objective) < 1e-9:
+        return None
+    return diff / abs(objective)
 
 
 # --------------------------------------------------------------------------------------------

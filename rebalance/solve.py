@@ -211,8 +211,26 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
     elif out.bound is not None and lp_bound is not None and out.status.has_plan:
         out = replace(out, bound=max(out.bound, lp_bound) if out.status is not Status.OPTIMAL
                       else out.bound)
+    out = _with_floor(out, options.relative_gap)
     seconds = time.perf_counter() - t0
     return replace(out, seconds=seconds)
+
+
+# Every objective solved here is shortfall or money paid (priorities, costs and disruption
+# rates are never negative), so no plan scores below 0.  The solver's bound can: the
+# relocatable cost-adjustment columns dip below 0 on their own in the relaxation.
+OBJECTIVE_FLOOR = 0.0
+
+
+def _with_floor(out: BackendOutcome, relative_gap_wanted: float) -> BackendOutcome:
+    """Raise a bound below :data:`OBJECTIVE_FLOOR` to it; a plan it proves is optimal."""
+    if not out.status.has_plan or out.bound is None or out.bound >= OBJECTIVE_FLOOR:
+        return out
+    out = replace(out, bound=OBJECTIVE_FLOOR)
+    gap = relative_gap(out.objective, out.bound)
+    if gap is not None and gap <= relative_gap_wanted:
+        out = replace(out, status=Status.OPTIMAL)
+    return out
 
 
 def _stage(name: str, out: BackendOutcome) -> StageResult:

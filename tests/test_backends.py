@@ -40,3 +40,31 @@ def test_a_start_never_replaces_a_better_plan():
         assert out.x is not None
         assert abs(float(model.cost @ out.x) - out.objective) <= 1e-6 * (1 + abs(out.objective))
     assert warm.objective <= fresh.objective + 1e-6 * (1 + abs(fresh.objective))
+
+
+def test_relative_gap_of_a_plan_scoring_zero_above_a_lower_bound_is_undefined():
+    from rebalance.backends import relative_gap
+
+    assert relative_gap(0.0, -5.0) is None
+    assert relative_gap(0.0, 0.0) == 0.0
+    assert relative_gap(100.0, 90.0) == 0.1
+    assert relative_gap(100.0, None) is None
+
+
+def test_a_bound_below_zero_is_raised_to_the_objective_floor():
+    # Costs and shortfall are never negative, so 0 bounds every stage from below; the
+    # relaxation's bound can sit under it (relocatable cost-adjustment columns).
+    import numpy as np
+
+    from rebalance.backends import BackendOutcome, Status
+    from rebalance.solve import _with_floor
+
+    x = np.zeros(1)
+    zero = BackendOutcome(Status.FEASIBLE_WITH_GAP, x, 0.0, -4e4, "Time limit reached", 1.0)
+    proven = _with_floor(zero, 0.01)
+    assert proven.status is Status.OPTIMAL and proven.bound == 0.0
+    some = BackendOutcome(Status.FEASIBLE_WITH_GAP, x, 50.0, -4e4, "Time limit reached", 1.0)
+    raised = _with_floor(some, 0.01)
+    assert raised.status is Status.FEASIBLE_WITH_GAP and raised.bound == 0.0
+    none = BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, -4e4, "Time limit reached", 1.0)
+    assert _with_floor(none, 0.01) == none

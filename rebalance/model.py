@@ -12,10 +12,12 @@ organisation's limits in ``rebalance.limits``.  The mathematics is written up in
 
 from __future__ import annotations
 
+import contextlib
+import gc
 import math
 import time
 from collections import defaultdict
-from collections.abc import Callable, Hashable
+from collections.abc import Callable, Hashable, Iterator
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -236,23 +238,41 @@ def build_model(instance: Instance, pooled: bool = True,
     if pair_details is None:
         pair_details = len(instance.offices) <= PAIR_DETAILS_MAX_OFFICES
     started = time.perf_counter()
-    b = _Builder()
-    f = _Frame(instance, group_units(instance, pooled, pool_key))
-    work, det, rea, det_cost = _add_staff_columns(b, f, pair_details)
-    relocation = Relocation(b, f, det, det_cost)
-    hire = _add_hire_columns(b, f)
-    short = _add_shortfall_columns(b, f)
-    cols = _Columns(f, work, det, det_cost, rea, hire, relocation)
-    _add_staff_rows(b, f, cols)
-    relocation.add_rows(b, f, cols)
-    _add_home_rows(b, f, cols)
-    direct = _add_coverage_rows(b, f, cols, short)
-    add_limit_rows(b, f, cols)
-    model = b.finish()
+    with _no_cycle_collection():
+        b = _Builder()
+        f = _Frame(instance, group_units(instance, pooled, pool_key))
+        work, det, rea, det_cost = _add_staff_columns(b, f, pair_details)
+        relocation = Relocation(b, f, det, det_cost)
+        hire = _add_hire_columns(b, f)
+        short = _add_shortfall_columns(b, f)
+        cols = _Columns(f, work, det, det_cost, rea, hire, relocation)
+        _add_staff_rows(b, f, cols)
+        relocation.add_rows(b, f, cols)
+        _add_home_rows(b, f, cols)
+        direct = _add_coverage_rows(b, f, cols, short)
+        add_limit_rows(b, f, cols)
+        model = b.finish()
     model.units = f.units
     model.direct_units = direct
     model.build_seconds = time.perf_counter() - started
     return model
+
+
+@contextlib.contextmanager
+def _no_cycle_collection() -> Iterator[None]:
+    """Pause Python's cycle collector while building.
+
+    The builder makes millions of small lists and tuples and no reference cycles; the
+    collector would walk them over and over (about a third of the build at agency scale,
+    issue 3).  Reference counting still frees everything as usual.
+    """
+    enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if enabled:
+            gc.enable()
 
 
 class _Frame:
@@ -285,6 +305,10 @@ class _Frame:
         for o, k, t in self.wanted:
             self.skills_wanted[(o, t)].add(k)
         self.m = instance.policy.max_consecutive_detail_periods  # None: no limit
+        # Detail cost per period by (home in force, destination): looked up once per pair,
+        # not once per column (millions of columns at agency scale, issue 3).
+        self.detail_cost = np.asarray([[instance.detail_cost_per_period(a, b)
+                                        for b in self.offices] for a in self.offices])
 
     def unit_label(self, u: int) -> str:
         """Who a row of unit ``u`` is about, for its label."""
@@ -345,8 +369,7 @@ def _add_staff_columns(b: _Builder, f: _Frame, pair_details: bool) -> tuple[
                         det_keys["home"].append(a)
                         det_keys["office"].append(dest)
                         det_keys["period"].append(t)
-                        det_cost.append(instance.detail_cost_per_period(
-                            person.home_office if a < 0 else offices[a], offices[dest]))
+                        det_cost.append(float(f.detail_cost[home0 if a < 0 else a, dest]))
                         det_ub.append(f.size[u])
                     reachable.add(dest)
             if len(person_skills) == 1:

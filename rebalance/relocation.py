@@ -37,7 +37,7 @@ class Relocation:
 
     def __init__(self, b: _Builder, f: _Frame, det: ColumnBlock, det_cost: list[float]) -> None:
         """Add the ``at_home`` and ``detail_cost_adjustment`` column blocks to ``b``."""
-        self.det, self.det_cost = det, det_cost
+        self.det, self.det_cost = det, np.asarray(det_cost, float)
         D = det.keys
         # Per-destination detail columns (positions in the detail block) by (unit, period).
         self.by_destination: dict[tuple[int, int], list[int]] = defaultdict(list)
@@ -49,9 +49,14 @@ class Relocation:
         self.loc_of = [self.locations.index(o.location) for o in instance.offices]
         # Costs depend on locations only: any office at a location stands for all of them.
         self.office_at = {loc: a for a, loc in reversed(list(enumerate(self.loc_of)))}
+        self.offices_in: dict[int, list[int]] = defaultdict(list)  # location -> offices
+        for a, loc in enumerate(self.loc_of):
+            self.offices_in[loc].append(a)
         at_keys: dict[str, list[int]] = {"unit": [], "office": [], "period": []}
         adj_keys: dict[str, list[int]] = {"unit": [], "location": [], "period": []}
         adj_bound: list[float] = []
+        # Per adjustment column: the cost change of each of the unit's details that period.
+        self.adj_changes: list[np.ndarray] = []
         for (u, t), js in sorted(self.by_destination.items()):
             home0 = f.o_ix[f.rep[u].home_office]
             for a in range(len(offices)):
@@ -63,11 +68,12 @@ class Relocation:
                         self.loc_of[a] == loc for a in range(len(offices)) if a != home0):
                     continue
                 delta = self.cost_changes(f, loc, js)
-                if any(delta):
+                if delta.any():
                     adj_keys["unit"].append(u)
                     adj_keys["location"].append(loc)
                     adj_keys["period"].append(t)
-                    adj_bound.append(max(abs(d) for d in delta))
+                    adj_bound.append(float(np.abs(delta).max()))
+                    self.adj_changes.append(delta)
         self.at_home = b.add_block("at_home", at_keys, np.zeros(len(at_keys["unit"])),
                                    np.ones(len(at_keys["unit"])), False)
         self.adjust = b.add_block("detail_cost_adjustment", adj_keys,
@@ -83,11 +89,12 @@ class Relocation:
             if not self.located_by_t[t] or self.located_by_t[t][-1] != u:
                 self.located_by_t[t].append(u)
 
-    def cost_changes(self, f: _Frame, loc: int, js: list[int]) -> list[float]:
-        """Cost of each detail (positions ``js`` in the block) from location ``loc`` instead."""
-        here = f.offices[self.office_at[loc]]
-        return [f.instance.detail_cost_per_period(here, f.offices[self.det.keys["office"][j]])
-                - self.det_cost[j] for j in js]
+    def cost_changes(self, f: _Frame, loc: int, js: list[int]) -> np.ndarray:
+        """Change in the cost of each detail (positions ``js`` in the block) were it to leave
+        from location ``loc`` instead of the original home."""
+        here = self.office_at[loc]
+        return (f.detail_cost[here, self.det.keys["office"][js]]
+                - self.det_cost[js])
 
     def located_away(self, cols: _Columns, a: int, t: int) -> Terms:
         """Relocatable people placed by at-home columns who are away from home a in t."""
@@ -130,11 +137,11 @@ class Relocation:
         for j in range(len(self.adjust)):
             u, loc, t = int(A_["unit"][j]), int(A_["location"][j]), int(A_["period"][j])
             col, big = self.adjust.start + j, float(self.adj_bound[j])
-            g_cols = [cols.home_col[(u, a, t)] for a in range(len(offices))
-                      if self.loc_of[a] == loc and (u, a, t) in cols.home_col]
+            g_cols = [cols.home_col[(u, a, t)] for a in self.offices_in[loc]
+                      if (u, a, t) in cols.home_col]
             js = self.by_destination[(u, t)]
-            terms = [(self.det.start + i, v)
-                     for i, v in zip(js, self.cost_changes(f, loc, js), strict=True) if v]
+            terms = [(self.det.start + i, float(v))
+                     for i, v in zip(js, self.adj_changes[j], strict=True) if v]
             label = f"{f.unit_label(u)} from {self.locations[loc]} in {f.period(t)}"
             b.row([c for c, _ in terms] + [col] + g_cols,
                   [v for _, v in terms] + [-1.0] + [big] * len(g_cols), -math.inf, big, label)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import importlib
 from dataclasses import replace
 
 import pytest
@@ -98,3 +99,68 @@ def test_both_relocatable_detail_formulations_agree(seed):
     assert linear.plan.weighted_shortfall == pytest.approx(pairs.plan.weighted_shortfall,
                                                            rel=1e-6, abs=2e-6)
     assert linear.plan.total_cost == pytest.approx(pairs.plan.total_cost, rel=1e-6, abs=1e-3)
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_first_plan_by_decision_leads_to_the_same_optimum(seed, monkeypatch):
+    # Large models take their first plan one kind of decision at a time (hires, then
+    # details); forced here on small instances, branch and bound from that plan must still
+    # reach the optimum of the usual LP-and-rounding path, in both stages.
+    solve_module = importlib.import_module("rebalance.solve")  # the package's name is a function
+
+    instance = with_twins(random_instance(seed, people=3, periods=4, offices=3, skills=2))
+    options = options_from_instance(instance, relative_gap=0.0)
+    usual = make_plan(instance, options)
+    said: list[str] = []
+    monkeypatch.setattr(solve_module, "LARGE_MODEL_COLUMNS", 0)
+    forced = make_plan(instance, replace(options, progress=said.append))
+    if usual.status is Status.INFEASIBLE:  # too few seats for any plan (seed 2): say so too
+        assert forced.status is Status.INFEASIBLE and forced.solve.conflicts
+        return
+    assert any("decisions alone" in line for line in said)
+    assert usual.verified and forced.verified
+    assert usual.plan is not None and forced.plan is not None
+    assert forced.status is usual.status is Status.OPTIMAL
+    assert forced.plan.weighted_shortfall == pytest.approx(usual.plan.weighted_shortfall,
+                                                           rel=1e-6, abs=1e-6)
+    assert forced.plan.total_cost == pytest.approx(usual.plan.total_cost, rel=1e-6, abs=1e-3)
+
+
+def test_first_plan_by_decision_is_a_plan_of_the_whole_model():
+    # Each pass holds the other decisions, so what it returns must satisfy every row and
+    # bound of the unrestricted model, with whole numbers where the model wants them.
+    import numpy as np
+
+    from rebalance.backends import HighsBackend, SolveOptions
+    from rebalance.model import build_model
+    from rebalance.solve import first_plan_by_decision
+
+    model = build_model(read_instance(DATA / "tiny"))
+    x = first_plan_by_decision(HighsBackend(), model, model.shortfall_weight, [],
+                               SolveOptions(), float("inf"), None, lambda _: None)
+    assert x is not None
+    activity = model.matrix @ x
+    assert np.all(activity >= model.row_lower - 1e-6)
+    assert np.all(activity <= model.row_upper + 1e-6)
+    assert np.all(x >= model.col_lower - 1e-9) and np.all(x <= model.col_upper + 1e-9)
+    assert np.allclose(x[model.is_integer], np.rint(x[model.is_integer]), atol=1e-6)
+    nothing_done = first_plan_by_decision(
+        HighsBackend(), model, model.shortfall_weight, [], SolveOptions(), 0.0, None,
+        lambda _: None)
+    assert nothing_done is None
+
+
+def test_with_two_threads_a_large_model_gets_its_lp_bound_beside_the_search(monkeypatch):
+    # On a large model the LP relaxation runs on the second thread while the first plan is
+    # sought; forced here on tiny, it must not change the optimum.
+    solve_module = importlib.import_module("rebalance.solve")
+    tiny = read_instance(DATA / "tiny")
+    usual = solve_verified(tiny)
+    said: list[str] = []
+    monkeypatch.setattr(solve_module, "LARGE_MODEL_COLUMNS", 0)
+    forced = solve_verified(tiny, threads=2, progress=said.append)
+    assert any("beside the search" in line for line in said)
+    assert forced.status is Status.OPTIMAL
+    assert forced.plan.total_cost == pytest.approx(usual.plan.total_cost, rel=1e-9)
+    assert forced.plan.weighted_shortfall == pytest.approx(usual.plan.weighted_shortfall,
+                                                           abs=1e-9)

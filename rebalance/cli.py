@@ -76,7 +76,7 @@ def cmd_plan(args: argparse.Namespace) -> int:
         _err(f"warning: {warning}")
     options = options_from_instance(
         instance, solver=args.solver, time_limit_seconds=args.time_limit,
-        relative_gap=args.gap, seed=args.seed,
+        relative_gap=args.gap, seed=args.seed, threads=args.threads,
         progress=None if args.quiet else _err)
     result = make_plan(instance, options)
     print(format_summary(result))
@@ -471,6 +471,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--time-limit", type=float, help="seconds for the whole run")
     p.add_argument("--gap", type=float, help="relative gap at which to stop, e.g. 0.01")
     p.add_argument("--seed", type=int)
+    p.add_argument("--threads", type=int,
+                   help="solver threads; with 2, a large model's LP bound runs beside the search")
     p.add_argument("-q", "--quiet", action="store_true", help="no progress on stderr")
     p.set_defaults(run=cmd_plan)
 

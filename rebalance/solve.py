@@ -162,7 +162,8 @@ MIN_HEURISTIC_SECONDS = 5.0  # below this a stage goes straight to branch and bo
 # interior point, over 120 s with simplex), while hires alone solve in seconds (issue 3).
 LARGE_MODEL_COLUMNS = 30_000
 BY_DECISION_SHARE = 0.6  # of a stage's time, at most, for the decision-by-decision passes
-BY_DECISION_PASSES = (("hire",), ("detail",))  # column blocks set free in turn
+# Column blocks set free in turn, with what the progress lines call them.
+BY_DECISION_PASSES = (("hires", ("hire",)), ("details", ("detail",)))
 
 
 def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
@@ -289,8 +290,9 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
     integer = model.is_integer
     held_at = np.rint(start) if start is not None else model.col_lower.copy()
     best, best_objective = start, (math.inf if start is None else float(objective @ start))
-    passes = [p for p in BY_DECISION_PASSES if any(name in model.blocks for name in p)]
-    for i, names in enumerate(passes):
+    passes = [(label, names) for label, names in BY_DECISION_PASSES
+              if any(name in model.blocks for name in names)]
+    for i, (label, names) in enumerate(passes):
         free = np.zeros(model.num_cols, bool)
         for name in names:
             if name in model.blocks:
@@ -302,7 +304,6 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
         held = integer & ~free
         lower, upper = model.col_lower.copy(), model.col_upper.copy()
         lower[held] = upper[held] = held_at[held]
-        label = " and ".join(names)
         # The pass's bound is for its restricted model only; say so in its progress lines.
         restricted_say = None if options.progress is None else (
             lambda text, label=label: say(text.replace("searching:", f"{label} alone:")))

@@ -311,9 +311,9 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
                           extra_rows, replace(options, progress=restricted_say),
                           left / (len(passes) - i), best)
         if out.x is None or out.objective is None:
-            say(f"  {label} decisions alone: no plan ({out.words})")
+            say(f"  {label} alone: no plan ({out.words})")
             continue
-        say(f"  {label} decisions alone: plan with {out.objective:.6g} "
+        say(f"  {label} alone: plan with {out.objective:.6g} "
             f"in {out.seconds:.1f}s")
         if out.objective < best_objective - 1e-9:
             best, best_objective = out.x, out.objective

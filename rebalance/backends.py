@@ -81,6 +81,10 @@ class Backend(Protocol):
     """A MIP solver.  Every method must exist: a Protocol, not a base class with ``pass``."""
 
     name: str
+    # True when a run hands the arrays straight to the solver; False when every run first
+    # writes the whole model out (CBC through PuLP), so that many short runs on a large
+    # model spend their time writing it (issue 3: medium, 514k columns, ran 300 s over).
+    reruns_cheaply: bool
 
     def version(self) -> str: ...
 
@@ -164,6 +168,7 @@ IPM_LP_COLUMNS = 30_000
 
 class HighsBackend:
     name = "highs"
+    reruns_cheaply = True
 
     def version(self) -> str:
         return f"HiGHS {_new_highs().version()}"
@@ -356,6 +361,7 @@ def _bundled_cbc() -> str:
 
 class CbcBackend:
     name = "cbc"
+    reruns_cheaply = False
 
     def version(self) -> str:
         import pulp

@@ -174,8 +174,9 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
     ``start``.
 
     The first plan comes from the LP relaxation and a rounding neighbourhood search, or, on
-    models above ``LARGE_MODEL_COLUMNS`` columns, from solving one kind of decision at a
-    time with the others held (:func:`first_plan_by_decision`).
+    models above ``LARGE_MODEL_COLUMNS`` columns with a backend that reruns cheaply, from
+    solving one kind of decision at a time with the others held
+    (:func:`first_plan_by_decision`).
     """
     t0 = time.perf_counter()
     budget = deadline - t0
@@ -183,7 +184,7 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
     bound_on_side: Future[BackendOutcome] | None = None
     with ThreadPoolExecutor(max_workers=1) as side:
         if model.num_integer and options.heuristics and budget > MIN_HEURISTIC_SECONDS:
-            if model.num_cols > LARGE_MODEL_COLUMNS:
+            if model.num_cols > LARGE_MODEL_COLUMNS and backend.reruns_cheaply:
                 if options.threads >= 2:
                     # The LP bound takes about as long as the passes: run it beside them.
                     relaxed = replace(model, is_integer=np.zeros(model.num_cols, bool))

@@ -344,6 +344,9 @@ def _cell(value: str, kind: str = "") -> str:
     if kind == "int":
         v = _num(value)
         return value if v is None else f"{int(v):,}"
+    if kind == "round":
+        v = _num(value)
+        return value if v is None else f"{v:,.1f}"
     return value
 
 
@@ -444,9 +447,9 @@ def write_doc(rows: list[dict[str, str]], csv_path: Path) -> None:
     lines += ["", "## Results", "",
               "| size | staff / offices / skills / periods (groups) | backend | formulation "
               "| limit s | status | verified | columns | rows | integer | build s | stage 1 s "
-              "| stage 2 s | wall s | stage 1 gap | stage 2 gap | peak MiB | solver MiB "
-              "| CPU s | load | most time |",
-              "|" + "---|" * 21]
+              "| stage 2 s | wall s | weighted shortfall | stage 1 gap | stage 2 gap "
+              "| peak MiB | solver MiB | CPU s | load | most time |",
+              "|" + "---|" * 22]
     for r in rows:
         sizes = (f"{_cell(r['staff'], 'int')} / {r['offices']} / {r['skills']} / "
                  f"{r['periods']} ({_cell(r['groups'], 'int')})")
@@ -458,6 +461,7 @@ def write_doc(rows: list[dict[str, str]], csv_path: Path) -> None:
             f"| {_cell(r['columns'], 'int')} | {_cell(r['rows'], 'int')} "
             f"| {_cell(r['integer_columns'], 'int')} | {_cell(r['build_s'])} "
             f"| {_cell(r['stage1_s'])} | {_cell(r['stage2_s'])} | {_cell(r['wall_s'])} "
+            f"| {_cell(r['weighted_shortfall'], 'round')} "
             f"| {_cell(r['stage1_gap'], 'gap')} | {_cell(r['stage2_gap'], 'gap')} "
             f"| {_cell(r['peak_mib'])} | {_cell(r['solver_peak_mib'])} "
             f"| {_cell(r.get('cpu_s', ''))} | {_cell(r.get('load_1min', ''))} | {dominant} |")

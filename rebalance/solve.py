@@ -190,8 +190,13 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                     relaxed = replace(model, is_integer=np.zeros(model.num_cols, bool))
                     bound_on_side = side.submit(backend.run, relaxed, objective, extra_rows,
                                                 replace(options, progress=None), budget, None)
-                start = first_plan_by_decision(backend, model, objective, extra_rows, options,
-                                               t0 + BY_DECISION_SHARE * budget, start, say)
+                if start is None:
+                    # Only for a first plan: stage two starts from stage one's plan, and
+                    # there the passes found nothing cheaper while holding the shortfall
+                    # (medium, agency) and ran past the limit (agency: 96 s in a 55 s share).
+                    start = first_plan_by_decision(backend, model, objective, extra_rows,
+                                                   options, t0 + BY_DECISION_SHARE * budget,
+                                                   None, say)
             else:
                 start, lp_bound = _first_plan_from_lp(backend, model, objective, extra_rows,
                                                       options, deadline, start, say)

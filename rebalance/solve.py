@@ -162,6 +162,10 @@ MIN_HEURISTIC_SECONDS = 5.0  # below this a stage goes straight to branch and bo
 # interior point, over 120 s with simplex), while hires alone solve in seconds (issue 3).
 LARGE_MODEL_COLUMNS = 30_000
 BY_DECISION_SHARE = 0.6  # of a stage's time, at most, for the decision-by-decision passes
+# Above this many nonzeros a large model with a plan already in hand gets no branch and bound
+# on the whole model: HiGHS's presolve of agency (6.8M nonzeros) ran 170 s past the limit
+# without one callback, while medium (0.8M) stopped on time (issue 3).
+WHOLE_SEARCH_MAX_NONZEROS = 3_000_000
 # Column blocks set free in turn, with what the progress lines call them.
 BY_DECISION_PASSES = (("hires", ("hire",)), ("details", ("detail",)))
 
@@ -182,9 +186,10 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
     budget = deadline - t0
     lp_bound = None
     bound_on_side: Future[BackendOutcome] | None = None
+    large = model.num_cols > LARGE_MODEL_COLUMNS and backend.reruns_cheaply
     with ThreadPoolExecutor(max_workers=1) as side:
         if model.num_integer and options.heuristics and budget > MIN_HEURISTIC_SECONDS:
-            if model.num_cols > LARGE_MODEL_COLUMNS and backend.reruns_cheaply:
+            if large:
                 if options.threads >= 2:
                     # The LP bound takes about as long as the passes: run it beside them.
                     relaxed = replace(model, is_integer=np.zeros(model.num_cols, bool))
@@ -201,7 +206,13 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                 start, lp_bound = _first_plan_from_lp(backend, model, objective, extra_rows,
                                                       options, deadline, start, say)
         left = deadline - time.perf_counter()
-        out = backend.run(model, objective, extra_rows, options, left, start)
+        if large and start is not None and model.matrix.nnz > WHOLE_SEARCH_MAX_NONZEROS:
+            say(f"  no search of the whole model: {model.matrix.nnz:,} nonzeros, more than "
+                "the solver can be stopped on time")
+            out = BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, None,
+                                 "whole-model search not started", 0.0)
+        else:
+            out = backend.run(model, objective, extra_rows, options, left, start)
         if bound_on_side is not None:
             lp = bound_on_side.result()
             if lp.status is Status.OPTIMAL and lp.objective is not None:
@@ -229,8 +240,9 @@ OBJECTIVE_FLOOR = 0.0
 
 
 def _with_floor(out: BackendOutcome, relative_gap_wanted: float) -> BackendOutcome:
-    """Raise a bound below :data:`OBJECTIVE_FLOOR` to it; a plan it proves is optimal."""
-    if not out.status.has_plan or out.bound is None or out.bound >= OBJECTIVE_FLOOR:
+    """Raise a bound below :data:`OBJECTIVE_FLOOR` (or none) to it; a plan it proves is
+    optimal."""
+    if not out.status.has_plan or (out.bound is not None and out.bound >= OBJECTIVE_FLOOR):
         return out
     out = replace(out, bound=OBJECTIVE_FLOOR)
     gap = relative_gap(out.objective, out.bound)

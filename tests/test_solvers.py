@@ -164,3 +164,18 @@ def test_with_two_threads_a_large_model_gets_its_lp_bound_beside_the_search(monk
     assert forced.plan.total_cost == pytest.approx(usual.plan.total_cost, rel=1e-9)
     assert forced.plan.weighted_shortfall == pytest.approx(usual.plan.weighted_shortfall,
                                                            abs=1e-9)
+
+
+def test_a_model_too_large_to_stop_on_time_keeps_the_first_plan(monkeypatch):
+    # Above WHOLE_SEARCH_MAX_NONZEROS a large model with a first plan gets no whole-model
+    # branch and bound (HiGHS could not be stopped in its presolve at agency size); forced
+    # here on tiny, the first plan must come back verified and never called optimal.
+    solve_module = importlib.import_module("rebalance.solve")
+    tiny = read_instance(DATA / "tiny")
+    said: list[str] = []
+    monkeypatch.setattr(solve_module, "LARGE_MODEL_COLUMNS", 0)
+    monkeypatch.setattr(solve_module, "WHOLE_SEARCH_MAX_NONZEROS", 0)
+    result = solve_verified(tiny, progress=said.append)
+    assert any("no search of the whole model" in line for line in said)
+    assert result.status is Status.FEASIBLE_WITH_GAP
+    assert all(stage.bound is not None and stage.bound >= 0 for stage in result.solve.stages)

@@ -108,10 +108,7 @@ def _hiring_limit_rows(b: _Builder, f: _Frame, cols: _Columns) -> None:
 
     # hiring_budget per year: onboarding of all hires + new-position salaries falling in it
     b.begin("hiring_budget")
-    for year in f.instance.years:
-        budget = f.instance.budget(year)
-        if budget is None or budget.hiring is None:
-            continue
+    for year, cap in _budget_caps(f, "hiring"):
         row, vals = [], []
         for j in range(len(hire)):
             s, k, new = int(H["period"][j]), int(H["skill"][j]), int(H["new"][j])
@@ -124,17 +121,14 @@ def _hiring_limit_rows(b: _Builder, f: _Frame, cols: _Columns) -> None:
                 row.append(hire.start + j)
                 vals.append(amount)
         if row:
-            b.row(row, vals, -math.inf, budget.hiring, f"hiring budget {year}")
+            b.row(row, vals, -math.inf, cap, f"hiring budget {year}")
 
 
 def _moves_budget_rows(b: _Builder, f: _Frame, cols: _Columns) -> None:
     """Rows moves_budget per year: detail and relocation spending."""
     det, adjust = cols.det, cols.relocation.adjust
     b.begin("moves_budget")
-    for year in f.instance.years:
-        budget = f.instance.budget(year)
-        if budget is None or budget.moves is None:
-            continue
+    for year, cap in _budget_caps(f, "moves"):
         row, vals = [], []
         for j in range(len(det)):
             if f.year_of[int(det.keys["period"][j])] == year and cols.det_cost[j]:
@@ -157,4 +151,15 @@ def _moves_budget_rows(b: _Builder, f: _Frame, cols: _Columns) -> None:
                     row.append(before)
                     vals.append(-amount)
         if row:
-            b.row(row, vals, -math.inf, budget.moves, f"moves budget {year}")
+            b.row(row, vals, -math.inf, cap, f"moves budget {year}")
+
+
+def _budget_caps(f: _Frame, kind: str) -> list[tuple[str, float]]:
+    """(year, cap) for every budget year with a ``kind`` ("hiring" or "moves") cap."""
+    caps = []
+    for year in f.instance.years:
+        budget = f.instance.budget(year)
+        cap = None if budget is None else getattr(budget, kind)
+        if cap is not None:
+            caps.append((year, float(cap)))
+    return caps

@@ -7,7 +7,7 @@ from collections.abc import Sequence
 
 from rebalance.instance import Instance
 from rebalance.planning import CAUTION, PlanResult
-from rebalance.solve import Status
+from rebalance.solve import StageResult, Status
 from rebalance.verify import Violation
 
 __all__ = ["format_check", "format_summary", "format_violations"]
@@ -64,6 +64,9 @@ def format_summary(result: PlanResult) -> str:
         objective = "-" if stage.objective is None else f"{stage.objective:,.6g}"
         lines.append(f"  stage {stage.name}: {stage.status.value}, objective {objective}, "
                      f"bound {bound}, {stage.seconds:.2f}s ({stage.solver_words})")
+        room = _room_left(stage)
+        if room:
+            lines.append(f"    not proven: {room}")
     if s.conflicts:
         lines.append("  limits in conflict:")
         lines += [f"    - {c}" for c in s.conflicts]
@@ -108,6 +111,24 @@ def format_summary(result: PlanResult) -> str:
         lines += [f"    - {v}" for v in result.violations[:20]]
     lines += ["", "  Caution: " + CAUTION]
     return "\n".join(lines)
+
+
+ROOM_WORDS = {
+    "shortfall": "a plan may exist with up to {room} weighted FTE-periods less shortfall",
+    "cost": "a plan with the same shortfall may cost up to {room} less",
+    "weighted": "a plan may score up to {room} lower on cost plus shortfall cost",
+}
+
+
+def _room_left(stage: StageResult) -> str | None:
+    """What a stage stopped early leaves open, in the stage's own units."""
+    if (stage.status is not Status.FEASIBLE_WITH_GAP or stage.gap is None
+            or stage.objective is None or stage.bound is None
+            or stage.name not in ROOM_WORDS):
+        return None
+    room = stage.objective - stage.bound
+    amount = _money(room) if stage.name == "cost" else f"{room:,.3g}"
+    return ROOM_WORDS[stage.name].format(room=amount) + f" (gap {stage.gap:.2%})"
 
 
 def format_violations(violations: Sequence[Violation]) -> str:

@@ -142,7 +142,7 @@ def _moves_budget_rows(b: _Builder, f: _Frame, cols: _Columns) -> None:
         for (u, o, t), col in cols.home_col.items():
             if f.year_of[t] != year:
                 continue
-            amount = f.instance.relocation_cost(f.rep[u].home_office, f.offices[o])
+            amount = float(f.relocation_cost[f.o_ix[f.rep[u].home_office], o])
             if amount:
                 row.append(col)
                 vals.append(amount)

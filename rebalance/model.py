@@ -309,6 +309,9 @@ class _Frame:
         # not once per column (millions of columns at agency scale, issue 3).
         self.detail_cost = np.asarray([[instance.detail_cost_per_period(a, b)
                                         for b in self.offices] for a in self.offices])
+        # Relocation cost by (original home, new home), likewise.
+        self.relocation_cost = np.asarray([[instance.relocation_cost(a, b)
+                                            for b in self.offices] for a in self.offices])
 
     def unit_label(self, u: int) -> str:
         """Who a row of unit ``u`` is about, for its label."""
@@ -324,7 +327,7 @@ class _Frame:
 def _add_staff_columns(b: _Builder, f: _Frame, pair_details: bool) -> tuple[
         ColumnBlock, ColumnBlock, ColumnBlock, list[float]]:
     """Add the work, detail and home blocks; return them and the detail costs."""
-    instance, offices = f.instance, f.offices
+    offices = f.offices
     details_allowed = f.m is None or f.m > 0
     # ---- columns: detail d[u, a, b, t] (a = home in force, b = destination) -------------
     det_keys: dict[str, list[int]] = {"unit": [], "home": [], "office": [], "period": []}
@@ -353,8 +356,7 @@ def _add_staff_columns(b: _Builder, f: _Frame, pair_details: bool) -> tuple[
                         rea_keys["unit"].append(u)
                         rea_keys["office"].append(o)
                         rea_keys["period"].append(t)
-                        rea_cost.append(instance.relocation_cost(person.home_office, offices[o])
-                                        if last else 0.0)
+                        rea_cost.append(float(f.relocation_cost[home0, o]) if last else 0.0)
             reachable = set(homes)
             if person.can_detail and details_allowed:
                 for dest in range(len(offices)):

@@ -201,7 +201,7 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                     # (medium, agency) and ran past the limit (agency: 96 s in a 55 s share).
                     start = first_plan_by_decision(backend, model, objective, extra_rows,
                                                    options, t0 + BY_DECISION_SHARE * budget,
-                                                   None, say)
+                                                   say)
             else:
                 start, lp_bound = _first_plan_from_lp(backend, model, objective, extra_rows,
                                                       options, deadline, start, say)
@@ -293,21 +293,22 @@ def _first_plan_from_lp(backend: Backend, model: Model, objective: np.ndarray,
 
 def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray,
                            extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
-                           deadline: float, start: np.ndarray | None,
+                           deadline: float,
                            say: Callable[[str], None]) -> np.ndarray | None:
     """A first plan for a large model: set one kind of decision free at a time (hires, then
     details), every other integer column held where the plan so far has it.
 
-    With nothing else decided, every integer column is held at its lower bound (no moves,
-    no hires: always a plan unless seats already conflict).  Each pass is a MIP over a few
+    Before the first pass every integer column is held at its lower bound (no moves, no
+    hires: always a plan unless seats already conflict).  Each pass is a MIP over a few
     thousand integer columns that presolve shrinks hard; on the medium benchmark instance the
     hires pass takes seconds and the details pass brings the shortfall within about 15% of
     the LP bound, where branch and bound on the whole model found no useful plan in the
-    same time.  Returns the best plan seen (``start`` if no pass beats it).
+    same time.  Returns the best plan seen, or None if no pass found one.
     """
     integer = model.is_integer
-    held_at = np.rint(start) if start is not None else model.col_lower.copy()
-    best, best_objective = start, (math.inf if start is None else float(objective @ start))
+    held_at = model.col_lower.copy()
+    best: np.ndarray | None = None
+    best_objective = math.inf
     passes = [(label, names) for label, names in BY_DECISION_PASSES
               if any(name in model.blocks for name in names)]
     for i, (label, names) in enumerate(passes):

@@ -137,7 +137,7 @@ def test_first_plan_by_decision_is_a_plan_of_the_whole_model():
 
     model = build_model(read_instance(DATA / "tiny"))
     x = first_plan_by_decision(HighsBackend(), model, model.shortfall_weight, [],
-                               SolveOptions(), float("inf"), None, lambda _: None)
+                               SolveOptions(), float("inf"), lambda _: None)
     assert x is not None
     activity = model.matrix @ x
     assert np.all(activity >= model.row_lower - 1e-6)
@@ -145,8 +145,7 @@ def test_first_plan_by_decision_is_a_plan_of_the_whole_model():
     assert np.all(x >= model.col_lower - 1e-9) and np.all(x <= model.col_upper + 1e-9)
     assert np.allclose(x[model.is_integer], np.rint(x[model.is_integer]), atol=1e-6)
     nothing_done = first_plan_by_decision(
-        HighsBackend(), model, model.shortfall_weight, [], SolveOptions(), 0.0, None,
-        lambda _: None)
+        HighsBackend(), model, model.shortfall_weight, [], SolveOptions(), 0.0, lambda _: None)
     assert nothing_done is None
 
 

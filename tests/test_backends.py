@@ -68,3 +68,65 @@ def test_a_bound_below_zero_is_raised_to_the_objective_floor():
     assert raised.status is Status.FEASIBLE_WITH_GAP and raised.bound == 0.0
     none = BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, -4e4, "Time limit reached", 1.0)
     assert _with_floor(none, 0.01) == none
+
+
+def test_a_run_in_a_child_process_gives_the_same_optimum_and_its_progress(monkeypatch):
+    # Above HARD_STOP_NONZEROS HiGHS runs in a child process that can be killed at the
+    # wall-clock limit; forced here on tiny, it must give the in-process optimum, in both
+    # stages.
+    from conftest import DATA, solve_verified
+
+    from rebalance import backends as backends_module
+    from rebalance import read_instance
+
+    tiny = read_instance(DATA / "tiny")
+    usual = solve_verified(tiny)
+    monkeypatch.setattr(backends_module, "HARD_STOP_NONZEROS", 0)
+    forced = solve_verified(tiny)
+    assert forced.status is usual.status
+    assert forced.plan.weighted_shortfall == usual.plan.weighted_shortfall
+    assert forced.plan.total_cost == usual.plan.total_cost
+
+
+def test_a_child_s_progress_lines_reach_this_process():
+    from rebalance.backends import BackendOutcome, SolveOptions, Status, _run_in_child
+
+    def talks(options: SolveOptions) -> BackendOutcome:
+        assert options.progress is not None
+        for i in range(3):
+            options.progress(f"line {i}")
+        return BackendOutcome(Status.OPTIMAL, None, 1.0, 1.0, "Optimal", 0.0)
+
+    said: list[str] = []
+    out = _run_in_child(talks, SolveOptions(progress=said.append), 30.0)
+    assert said == ["line 0", "line 1", "line 2"]
+    assert out.status is Status.OPTIMAL and out.objective == 1.0
+
+
+def test_a_child_past_the_wall_clock_limit_is_stopped(monkeypatch):
+    # A solver that does not give control back (HiGHS in presolve at agency scale) is killed
+    # once the limit and a grace have passed: no plan in time, never a hang.
+    import time
+
+    from rebalance import backends as backends_module
+    from rebalance.backends import BackendOutcome, SolveOptions, Status, _run_in_child
+
+    def stuck(options: SolveOptions) -> BackendOutcome:
+        time.sleep(60)
+        raise AssertionError("not reached")
+
+    started = time.perf_counter()
+    out = _run_in_child(stuck, SolveOptions(), 1.0)
+    assert time.perf_counter() - started < 10
+    assert out.status is Status.NO_PLAN_IN_TIME and out.x is None
+    assert backends_module.HIGHS_GRACE_SECONDS > 0
+
+
+def test_a_child_that_fails_reports_an_error_instead_of_a_plan():
+    from rebalance.backends import BackendOutcome, SolveOptions, Status, _run_in_child
+
+    def broken(options: SolveOptions) -> BackendOutcome:
+        raise MemoryError("out of memory in the solver")
+
+    out = _run_in_child(broken, SolveOptions(), 30.0)
+    assert out.status is Status.ERROR and "MemoryError" in out.words

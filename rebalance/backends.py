@@ -115,6 +115,8 @@ def relative_gap(objective: float | None, bound: float | None) -> float | None:
 
 
 _HIGHS_BANNER_SHOWN = False
+# Receives each better plan a run finds (columns of the model, objective) as it is found.
+PlanSink = Callable[[np.ndarray, float], None]
 
 
 def _new_highs() -> Any:
@@ -139,9 +141,11 @@ def _new_highs() -> Any:
     return h
 
 
-def _watch_highs(h: Any, deadline: float, progress: Callable[[str], None] | None) -> None:
+def _watch_highs(h: Any, deadline: float, progress: Callable[[str], None] | None,
+                 on_plan: PlanSink | None = None) -> None:
     """Stop HiGHS at our own wall-clock deadline (it can overrun its time limit during root
-    work) and report best plan, bound and gap every few seconds while it searches."""
+    work), report best plan, bound and gap every few seconds while it searches, and hand each
+    better plan to ``on_plan``."""
     last = [0.0]
 
     def interrupt(event: Any) -> None:
@@ -159,6 +163,10 @@ def _watch_highs(h: Any, deadline: float, progress: Callable[[str], None] | None
     h.cbSimplexInterrupt += interrupt
     h.cbIpmInterrupt += interrupt
     h.cbMipInterrupt += interrupt
+    if on_plan is not None:
+        # HiGHS hands the plan over in the model's own columns (after postsolve).
+        h.cbMipImprovingSolution += lambda event: on_plan(
+            np.asarray(event.data_out.mip_solution), float(event.data_out.objective_function_value))
 
 
 PROGRESS_SECONDS = 5.0
@@ -183,14 +191,15 @@ def _forget_solver_threads() -> None:
     highspy.Highs.resetGlobalScheduler(False)
 
 
-def _run_in_child(run: Callable[[SolveOptions], BackendOutcome], options: SolveOptions,
-                  wall_seconds: float) -> BackendOutcome:
-    """``run(options)`` in a forked child; its outcome, or ``NO_PLAN_IN_TIME`` once
-    ``wall_seconds`` have passed (the child is killed then).
+def _run_in_child(run: Callable[[SolveOptions, PlanSink], BackendOutcome],
+                  options: SolveOptions, wall_seconds: float) -> BackendOutcome:
+    """``run(options, on_plan)`` in a forked child; its outcome, or, once ``wall_seconds``
+    have passed (the child is killed then), the last plan it handed to ``on_plan`` as
+    ``FEASIBLE_WITH_GAP`` (no bound) or ``NO_PLAN_IN_TIME``.
 
-    Progress lines come back through the same pipe, so the caller's ``progress`` sees them in
-    this process.  A child that dies (out of memory, a crash in the solver) gives ``ERROR``
-    instead of taking the whole run down with it.
+    Progress lines and plans come back through one pipe, so the caller's ``progress`` sees
+    them in this process.  A child that dies (out of memory, a crash in the solver) gives
+    ``ERROR`` instead of taking the whole run down with it.
     """
     started = time.perf_counter()
     context = multiprocessing.get_context("fork")
@@ -200,9 +209,13 @@ def _run_in_child(run: Callable[[SolveOptions], BackendOutcome], options: SolveO
         def forward(text: str) -> None:
             sender.send(("progress", text))
 
+        def hand_over(x: np.ndarray, objective: float) -> None:
+            sender.send(("plan", (x, objective)))
+
         try:
             _forget_solver_threads()
-            out = run(replace(options, progress=None if options.progress is None else forward))
+            out = run(replace(options, progress=None if options.progress is None else forward),
+                      hand_over)
             sender.send(("outcome", out))
         except BaseException as exc:  # the parent must hear of any failure, then exit
             sender.send(("failed", f"{type(exc).__name__}: {exc}"))
@@ -213,6 +226,7 @@ def _run_in_child(run: Callable[[SolveOptions], BackendOutcome], options: SolveO
     process.start()
     sender.close()
     outcome: BackendOutcome | None = None
+    last_plan: tuple[np.ndarray, float] | None = None
     failure = ""
     try:
         while outcome is None and not failure:
@@ -230,6 +244,8 @@ def _run_in_child(run: Callable[[SolveOptions], BackendOutcome], options: SolveO
             if kind == "progress":
                 if options.progress is not None:
                     options.progress(payload)
+            elif kind == "plan":
+                last_plan = payload
             elif kind == "outcome":
                 outcome = payload
             else:
@@ -244,6 +260,10 @@ def _run_in_child(run: Callable[[SolveOptions], BackendOutcome], options: SolveO
         return replace(outcome, seconds=seconds)
     if failure:
         return BackendOutcome(Status.ERROR, None, None, None, failure, seconds)
+    if last_plan is not None:
+        x, objective = last_plan
+        return BackendOutcome(Status.FEASIBLE_WITH_GAP, x, objective, None,
+                              "stopped at the wall-clock limit", seconds)
     if process.exitcode not in (0, -signal.SIGKILL) or seconds < wall_seconds:
         return BackendOutcome(Status.ERROR, None, None, None,
                               f"the solver process ended with code {process.exitcode}",
@@ -263,13 +283,19 @@ class HighsBackend:
             options: SolveOptions, time_limit: float, start: np.ndarray | None) -> BackendOutcome:
         if model.matrix.nnz < HARD_STOP_NONZEROS:
             return self._run_here(model, objective, extra_rows, options, time_limit, start)
-        return _run_in_child(
-            lambda opts: self._run_here(model, objective, extra_rows, opts, time_limit, start),
+        out = _run_in_child(
+            lambda opts, on_plan: self._run_here(model, objective, extra_rows, opts, time_limit,
+                                                 start, on_plan),
             options, time_limit + HIGHS_GRACE_SECONDS)
+        if out.x is not None and out.bound is None:
+            # A plan handed over before the kill: score it here rather than trust the claim.
+            out = replace(out, objective=float(objective @ out.x))
+        return out
 
     def _run_here(self, model: Model, objective: np.ndarray,
                   extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
-                  time_limit: float, start: np.ndarray | None) -> BackendOutcome:
+                  time_limit: float, start: np.ndarray | None,
+                  on_plan: PlanSink | None = None) -> BackendOutcome:
         import highspy
 
         started = time.perf_counter()
@@ -301,7 +327,7 @@ class HighsBackend:
             # so no crossover.
             h.setOptionValue("solver", "ipm")
             h.setOptionValue("run_crossover", "off")
-        _watch_highs(h, started + max(time_limit, 0.05), options.progress)
+        _watch_highs(h, started + max(time_limit, 0.05), options.progress, on_plan)
         if start is not None:
             solution = highspy.HighsSolution()
             solution.col_value = list(start)

@@ -91,7 +91,7 @@ def test_a_run_in_a_child_process_gives_the_same_optimum_and_its_progress(monkey
 def test_a_child_s_progress_lines_reach_this_process():
     from rebalance.backends import BackendOutcome, SolveOptions, Status, _run_in_child
 
-    def talks(options: SolveOptions) -> BackendOutcome:
+    def talks(options: SolveOptions, on_plan) -> BackendOutcome:
         assert options.progress is not None
         for i in range(3):
             options.progress(f"line {i}")
@@ -111,7 +111,7 @@ def test_a_child_past_the_wall_clock_limit_is_stopped(monkeypatch):
     from rebalance import backends as backends_module
     from rebalance.backends import BackendOutcome, SolveOptions, Status, _run_in_child
 
-    def stuck(options: SolveOptions) -> BackendOutcome:
+    def stuck(options: SolveOptions, on_plan) -> BackendOutcome:
         time.sleep(60)
         raise AssertionError("not reached")
 
@@ -125,8 +125,49 @@ def test_a_child_past_the_wall_clock_limit_is_stopped(monkeypatch):
 def test_a_child_that_fails_reports_an_error_instead_of_a_plan():
     from rebalance.backends import BackendOutcome, SolveOptions, Status, _run_in_child
 
-    def broken(options: SolveOptions) -> BackendOutcome:
+    def broken(options: SolveOptions, on_plan) -> BackendOutcome:
         raise MemoryError("out of memory in the solver")
 
     out = _run_in_child(broken, SolveOptions(), 30.0)
     assert out.status is Status.ERROR and "MemoryError" in out.words
+
+
+def test_a_child_killed_after_finding_a_plan_keeps_its_last_plan():
+    # HiGHS can take long to give control back after an interrupt on a huge model (the large
+    # benchmark's hires pass: 30 s); the plans it handed over before the kill are not lost.
+    import time
+
+    import numpy as np
+
+    from rebalance.backends import BackendOutcome, SolveOptions, Status, _run_in_child
+
+    def slow_to_return(options: SolveOptions, on_plan) -> BackendOutcome:
+        on_plan(np.array([3.0, 1.0]), 7.0)
+        on_plan(np.array([2.0, 1.0]), 5.0)
+        time.sleep(60)
+        raise AssertionError("not reached")
+
+    out = _run_in_child(slow_to_return, SolveOptions(), 1.0)
+    assert out.status is Status.FEASIBLE_WITH_GAP and out.bound is None
+    assert out.x is not None and list(out.x) == [2.0, 1.0] and out.objective == 5.0
+
+
+def test_a_plan_found_by_a_child_before_the_kill_is_scored_and_kept(monkeypatch):
+    # Through the backend: HiGHS in a child that is killed right after its first plans.
+    from conftest import DATA
+
+    from rebalance import backends as backends_module
+    from rebalance import read_instance
+    from rebalance.backends import HighsBackend, SolveOptions, Status
+    from rebalance.model import build_model
+
+    model = build_model(read_instance(DATA.parent.parent / "instances" / "demo"))
+    monkeypatch.setattr(backends_module, "HARD_STOP_NONZEROS", 0)
+    monkeypatch.setattr(backends_module, "HIGHS_GRACE_SECONDS", -0.5)  # kill at the limit
+    out = HighsBackend().run(model, model.shortfall_weight, [], SolveOptions(), 3.0, None)
+    # HiGHS finds its first demo plans within a second; the kill comes at 2.5 s.
+    assert out.status is Status.FEASIBLE_WITH_GAP and out.words == "stopped at the wall-clock limit"
+    assert out.x is not None and out.objective == float(model.shortfall_weight @ out.x)
+    activity = model.matrix @ out.x
+    assert (activity <= model.row_upper + 1e-6).all()
+    assert (activity >= model.row_lower - 1e-6).all()

@@ -59,14 +59,16 @@ COLUMNS = (
 
 
 def _peak_mib() -> tuple[float, float]:
-    """Peak resident memory of this process and of its largest finished child (CBC), MiB."""
+    """Peak resident memory of this process and of its largest finished child, MiB: the
+    child is CBC, or HiGHS on models above ``rebalance.backends.HARD_STOP_NONZEROS``."""
     own = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024  # KiB on Linux
     child = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024
     return round(own, 1), round(child, 1)
 
 
 def _cpu_seconds() -> float:
-    """CPU time of this process and its finished children (CBC): wall minus this is waiting."""
+    """CPU time of this process and its finished children (solver processes): wall minus
+    this is waiting."""
     own = resource.getrusage(resource.RUSAGE_SELF)
     child = resource.getrusage(resource.RUSAGE_CHILDREN)
     return round(own.ru_utime + own.ru_stime + child.ru_utime + child.ru_stime, 2)
@@ -144,7 +146,7 @@ def run_case(case: dict[str, object]) -> dict[str, object]:
         "weighted_shortfall": round(plan.weighted_shortfall, 3) if plan is not None else "",
         "total_cost": round(plan.total_cost) if plan is not None else "",
         "peak_mib": own,
-        "solver_peak_mib": child if case["backend"] == "cbc" else "",
+        "solver_peak_mib": child or "",
         "cpu_s": _cpu_seconds(),
         "note": "; ".join(str(v) for v in result.violations[:2]),
     }
@@ -393,13 +395,14 @@ def _targets(rows: list[dict[str, str]], default_backend: str) -> list[str]:
                    + not_run("agency"))
     else:
         gap = _num(agency["gap"])
+        # The solver child runs beside this process: their sum bounds the peak from above.
+        peak = (_num(agency["peak_mib"]) or 1e9) + (_num(agency["solver_peak_mib"]) or 0.0)
         ok = (agency["verified"] == "True" and gap is not None and gap <= 0.01
-              and (_num(agency["wall_s"]) or 1e9) < 120
-              and (_num(agency["peak_mib"]) or 1e9) < 4096)
+              and (_num(agency["wall_s"]) or 1e9) < 120 and peak < 4096)
         out.append(f"- agency (verified plan within 1% in under 120 s, peak under 4 GiB): "
                    f"{'met' if ok else 'MISSED'} — {agency['status']}, gap "
                    f"{_cell(agency['gap'], 'gap')}, {agency['wall_s']} s, "
-                   f"{agency['peak_mib']} MiB")
+                   f"at most {peak:.0f} MiB (process + solver process)")
     large = case("large")
     if large is None:
         out.append("- large (verified plan with its gap in under 10 minutes): " + not_run("large"))
@@ -428,8 +431,9 @@ def write_doc(rows: list[dict[str, str]], csv_path: Path) -> None:
         "offices / skills / quarters). Every case runs alone in its own process with one solver",
         "thread, through the public API (`read_instance`, then `make_plan`, which builds the",
         "model, solves both stages within one wall-clock limit, names people and verifies the",
-        "plan). Peak memory is the process's maximum resident set; for CBC, which PuLP runs as",
-        "a separate program, the solver's own peak is listed beside it. Gaps are relative;",
+        "plan). Peak memory is the process's maximum resident set; the solver's own process",
+        "(CBC always, HiGHS on models above 500,000 nonzeros) is listed beside it, and the two",
+        "together bound the case's peak from above (they share pages). Gaps are relative;",
         "stage 1 is least weighted shortfall, stage 2 least cost with that shortfall held.",
         "*load* is the 1-minute load average when the case started and *CPU s* the CPU time",
         "the case got (solver included): on 2 cores, a load above 2 or CPU s well below wall s",

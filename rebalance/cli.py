@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import math
 import sys
 from collections.abc import Callable, Sequence
 from pathlib import Path
@@ -399,13 +400,37 @@ def cmd_marginal(args: argparse.Namespace) -> int:
                                 args.instance, "plan, marginal_values.csv and reasons.csv")
 
 
+def _number(kind: type, minimum: float, maximum: float | None = None,
+            what: str = "") -> Callable[[str], float]:
+    """An argparse type: a ``kind`` (int or float) in [minimum, maximum], as settings.toml
+    takes it; anything else is a usage error that says what was expected."""
+    def parse(text: str) -> float:
+        try:
+            value = kind(text)
+        except ValueError:
+            value = None
+        if value is None or not math.isfinite(value) or value < minimum or (
+                maximum is not None and value > maximum):
+            raise argparse.ArgumentTypeError(f"got {text!r}; expected {what}")
+        return value
+
+    return parse
+
+
+SECONDS = _number(float, 0.1, what="seconds, at least 0.1")
+GAP = _number(float, 0.0, 1.0, what="a relative gap from 0 to 1, e.g. 0.01")
+COUNT = _number(int, 1, what="a whole number, at least 1")
+SEED = _number(int, 0, what="a whole number, at least 0")
+MONEY = _number(float, 0.0, what="an amount of money, at least 0")
+
+
 def _add_analysis_commands(sub) -> None:
     def solver_options(p: argparse.ArgumentParser) -> None:
         p.add_argument("--solver", choices=("highs", "cbc"))
-        p.add_argument("--time-limit", type=float, help="seconds for each solve")
-        p.add_argument("--gap", type=float, help="relative gap at which to stop, e.g. 0.01")
-        p.add_argument("--seed", type=int)
-        p.add_argument("--workers", type=int, default=2, help="solves in parallel (default 2)")
+        p.add_argument("--time-limit", type=SECONDS, help="seconds for each solve")
+        p.add_argument("--gap", type=GAP, help="relative gap at which to stop, e.g. 0.01")
+        p.add_argument("--seed", type=SEED)
+        p.add_argument("--workers", type=COUNT, default=2, help="solves in parallel (default 2)")
         p.add_argument("-q", "--quiet", action="store_true", help="no progress on stderr")
 
     p = sub.add_parser("compare", help="solve the base and surge scenarios side by side")
@@ -421,11 +446,11 @@ def _add_analysis_commands(sub) -> None:
     p.add_argument("--from", dest="from_dir", required=True, metavar="PLAN_DIR")
     p.add_argument("--at", required=True, metavar="PERIOD", help="first period to re-plan")
     p.add_argument("-o", "--out", required=True)
-    p.add_argument("--disruption-detail", type=float, default=2000.0,
+    p.add_argument("--disruption-detail", type=MONEY, default=2000.0,
                    help="cost of each changed person-period of detail (default 2000)")
-    p.add_argument("--disruption-reassignment", type=float, default=10000.0,
+    p.add_argument("--disruption-reassignment", type=MONEY, default=10000.0,
                    help="cost of each reassignment added or dropped (default 10000)")
-    p.add_argument("--disruption-hire", type=float, default=5000.0,
+    p.add_argument("--disruption-hire", type=MONEY, default=5000.0,
                    help="cost of each hire more or fewer (default 5000)")
     p.add_argument("--allow-recall", action="store_true",
                    help="details under way may end early")
@@ -446,9 +471,10 @@ def _add_analysis_commands(sub) -> None:
     p = sub.add_parser("marginal", help="plan, marginal values of binding limits, reasons")
     p.add_argument("instance")
     p.add_argument("-o", "--out", required=True)
-    p.add_argument("--budget-step", type=float, default=100_000.0,
+    p.add_argument("--budget-step", default=100_000.0,
+                   type=_number(float, 1.0, what="an amount of money, at least 1"),
                    help="money a budget is relaxed by (default 100000)")
-    p.add_argument("--max-resolves", type=int,
+    p.add_argument("--max-resolves", type=COUNT,
                    help="re-solve only this many limits, best LP-dual estimates first")
     solver_options(p)
     p.set_defaults(run=cmd_marginal)
@@ -468,10 +494,10 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("instance")
     p.add_argument("-o", "--out", required=True, help="folder for the plan tables")
     p.add_argument("--solver", choices=("highs", "cbc"))
-    p.add_argument("--time-limit", type=float, help="seconds for the whole run")
-    p.add_argument("--gap", type=float, help="relative gap at which to stop, e.g. 0.01")
-    p.add_argument("--seed", type=int)
-    p.add_argument("--threads", type=int,
+    p.add_argument("--time-limit", type=SECONDS, help="seconds for the whole run")
+    p.add_argument("--gap", type=GAP, help="relative gap at which to stop, e.g. 0.01")
+    p.add_argument("--seed", type=SEED)
+    p.add_argument("--threads", type=COUNT,
                    help="solver threads; with 2, a large model's LP bound runs beside the search")
     p.add_argument("-q", "--quiet", action="store_true", help="no progress on stderr")
     p.set_defaults(run=cmd_plan)

@@ -77,3 +77,26 @@ def test_no_plan_in_time_keeps_the_old_plan(tmp_path, capsys):
     if code == EXIT_NO_PLAN_IN_TIME:
         assert "no plan found within the time limit" in capsys.readouterr().out
         assert (out / "keep.txt").read_text() == "an earlier plan"
+
+
+def test_out_of_range_solver_options_are_usage_errors_that_say_what_was_expected(
+        tmp_path, capsys):
+    # The same ranges settings.toml takes; nothing is solved or written.
+    import pytest
+
+    from rebalance.cli import EXIT_USAGE
+
+    out = tmp_path / "plan"
+    for flag, value, expected in (("--time-limit", "-5", "seconds, at least 0.1"),
+                                  ("--gap", "1.5", "a relative gap from 0 to 1"),
+                                  ("--gap", "nan", "a relative gap from 0 to 1"),
+                                  ("--threads", "0", "a whole number, at least 1"),
+                                  ("--threads", "two", "a whole number, at least 1"),
+                                  ("--seed", "-1", "a whole number, at least 0")):
+        with pytest.raises(SystemExit) as stop:
+            main(["plan", str(DATA / "tiny"), "-o", str(out), flag, value])
+        assert stop.value.code == EXIT_USAGE
+        err = capsys.readouterr().err
+        assert f"argument {flag}: got {value!r}; expected {expected}" in err
+        assert "Traceback" not in err
+    assert not out.exists()

@@ -27,7 +27,7 @@ from rebalance.instance import Instance, Person
 from rebalance.limits import add_limit_rows
 from rebalance.relocation import Relocation
 
-__all__ = ["ColumnBlock", "Model", "RowFamily", "build_model", "group_units"]
+__all__ = ["ADAPTING_FAMILIES", "ColumnBlock", "Model", "RowFamily", "build_model", "group_units"]
 
 INF = math.inf
 
@@ -37,6 +37,9 @@ STRUCTURE_FAMILIES = (
     "capacity", "coverage", "one_detail", "detail_from_home", "one_reassignment", "home_stays",
     "home_in_force", "one_place", "detail_not_home", "detail_cost_adjustment",
 )
+# Rows a work split and shortfall always satisfy once people and hires are placed (no work,
+# everything short): a rounding heuristic need not check them.
+ADAPTING_FAMILIES = ("capacity", "coverage")
 LIMIT_FAMILIES = (
     "consecutive_details",
     "away_share",

@@ -24,6 +24,7 @@ from rebalance.backends import (
     relative_gap,
 )
 from rebalance.model import LIMIT_FAMILIES, Model
+from rebalance.rounding import details_by_rounding
 
 __all__ = ["SolveOptions", "SolveResult", "StageResult", "Status", "solve", "solve_stage"]
 
@@ -167,7 +168,12 @@ BY_DECISION_SHARE = 0.6  # of a stage's time, at most, for the decision-by-decis
 # without one callback, while medium (0.8M) stopped on time (issue 3).
 WHOLE_SEARCH_MAX_NONZEROS = 3_000_000
 # Column blocks set free in turn, with what the progress lines call them.
+# Between them, ROUNDING: detail counts from the LP of the details pass, rounded and repaired
+# (rebalance.rounding); on agency it took hires-only 8,705 to 7,903 where the details MIP
+# found nothing better in 108 s.  It gets ROUNDING_SHARE of the time left when it starts.
 BY_DECISION_PASSES = (("hires", ("hire",)), ("details", ("detail",)))
+ROUNDING_AFTER = "hires"
+ROUNDING_SHARE = 0.8
 
 
 def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
@@ -187,6 +193,9 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
     lp_bound = None
     bound_on_side: Future[BackendOutcome] | None = None
     large = model.num_cols > LARGE_MODEL_COLUMNS and backend.reruns_cheaply
+    # Above this size branch and bound on the whole model gets nowhere in a stage's time
+    # (HiGHS's presolve of agency alone outlasted it): the passes get all of it instead.
+    passes_only = large and model.matrix.nnz > WHOLE_SEARCH_MAX_NONZEROS
     with ThreadPoolExecutor(max_workers=1) as side:
         if model.num_integer and options.heuristics and budget > MIN_HEURISTIC_SECONDS:
             if large:
@@ -195,20 +204,20 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                     relaxed = replace(model, is_integer=np.zeros(model.num_cols, bool))
                     bound_on_side = side.submit(backend.run, relaxed, objective, extra_rows,
                                                 replace(options, progress=None), budget, None)
-                if start is None:
-                    # Only for a first plan: stage two starts from stage one's plan, and
-                    # there the passes found nothing cheaper while holding the shortfall
-                    # (medium, agency) and ran past the limit (agency: 96 s in a 55 s share).
+                if start is None or passes_only:
+                    # Stage two of a model that branch and bound can still search starts
+                    # from stage one's plan there instead: on medium the passes found nothing
+                    # cheaper while holding the shortfall.
+                    share = 1.0 if passes_only else BY_DECISION_SHARE
                     start = first_plan_by_decision(backend, model, objective, extra_rows,
-                                                   options, t0 + BY_DECISION_SHARE * budget,
-                                                   say)
+                                                   options, t0 + share * budget, say, start)
             else:
                 start, lp_bound = _first_plan_from_lp(backend, model, objective, extra_rows,
                                                       options, deadline, start, say)
         left = deadline - time.perf_counter()
-        if large and start is not None and model.matrix.nnz > WHOLE_SEARCH_MAX_NONZEROS:
+        if passes_only and start is not None:
             say(f"  no search of the whole model: {model.matrix.nnz:,} nonzeros, more than "
-                "the solver can be stopped on time")
+                "branch and bound can use in the time")
             out = BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, None,
                                  "whole-model search not started", 0.0)
         else:
@@ -293,22 +302,25 @@ def _first_plan_from_lp(backend: Backend, model: Model, objective: np.ndarray,
 
 def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray,
                            extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
-                           deadline: float,
-                           say: Callable[[str], None]) -> np.ndarray | None:
-    """A first plan for a large model: set one kind of decision free at a time (hires, then
+                           deadline: float, say: Callable[[str], None],
+                           start: np.ndarray | None = None) -> np.ndarray | None:
+    """A plan for a large model: set one kind of decision free at a time (hires, then
     details), every other integer column held where the plan so far has it.
 
-    Before the first pass every integer column is held at its lower bound (no moves, no
-    hires: always a plan unless seats already conflict).  Each pass is a MIP over a few
+    Before the first pass every integer column is held where ``start`` has it, or without a
+    start at its lower bound (no moves, no hires: always a plan unless seats already
+    conflict).  After the hires pass (outside stage two) the detail counts of the details
+    pass's LP are rounded and repaired (:func:`~rebalance.rounding.details_by_rounding`),
+    which the details pass then starts from.  Each pass is a MIP over a few
     thousand integer columns that presolve shrinks hard; on the medium benchmark instance the
     hires pass takes seconds and the details pass brings the shortfall within about 15% of
     the LP bound, where branch and bound on the whole model found no useful plan in the
-    same time.  Returns the best plan seen, or None if no pass found one.
+    same time.  Returns the best plan seen (``start`` if no pass beat it), or None.
     """
     integer = model.is_integer
-    held_at = model.col_lower.copy()
-    best: np.ndarray | None = None
-    best_objective = math.inf
+    held_at = model.col_lower.copy() if start is None else np.rint(start)
+    best = start
+    best_objective = math.inf if start is None else float(objective @ start)
     passes = [(label, names) for label, names in BY_DECISION_PASSES
               if any(name in model.blocks for name in names)]
     for i, (label, names) in enumerate(passes):
@@ -337,6 +349,16 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
         if out.objective < best_objective - 1e-9:
             best, best_objective = out.x, out.objective
             held_at = np.rint(out.x)
+        left = deadline - time.perf_counter()
+        if label == ROUNDING_AFTER and best is not None and not extra_rows and left >= 1.0:
+            # Rounding down raises the shortfall, so it has no place under a held shortfall
+            # (stage two): only for stage one and the weighted objective.
+            rounded = details_by_rounding(backend, model, objective, extra_rows, options,
+                                          time.perf_counter() + ROUNDING_SHARE * left, best,
+                                          say)
+            if rounded is not None:
+                best, best_objective = rounded, float(objective @ rounded)
+                held_at = np.rint(rounded)
     return best
 
 

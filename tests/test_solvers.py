@@ -6,7 +6,7 @@ import importlib
 from dataclasses import replace
 
 import pytest
-from conftest import DATA, solve_verified
+from conftest import DATA, ROOT, solve_verified
 from randomized import random_instance
 
 from rebalance import Status, make_plan, options_from_instance, read_instance
@@ -178,3 +178,58 @@ def test_a_model_too_large_to_stop_on_time_keeps_the_first_plan(monkeypatch):
     assert any("no search of the whole model" in line for line in said)
     assert result.status is Status.FEASIBLE_WITH_GAP
     assert all(stage.bound is not None and stage.bound >= 0 for stage in result.solve.stages)
+
+
+def test_rounding_repairs_the_rows_a_floor_breaks_without_breaking_others():
+    # Two columns x0, x1 in [0, 2]; LP point (1.6, 0.5).  Rows: x0 + x1 <= 2 (a budget),
+    # -x0 <= -1.5 (a seat row that needs x0 out).  Flooring gives (1, 0), which breaks the
+    # seat row; the repair must step x0 up to 2 (its ceiling), not x1, and keep the budget.
+    import numpy as np
+    import scipy.sparse as sp
+
+    from rebalance.model import Model
+    from rebalance.rounding import repair_rows
+
+    model = Model(matrix=sp.csr_matrix(np.array([[1.0, 1.0], [-1.0, 0.0]])),
+                  row_lower=np.array([-np.inf, -np.inf]), row_upper=np.array([2.0, -1.5]),
+                  col_lower=np.zeros(2), col_upper=np.full(2, 2.0),
+                  is_integer=np.ones(2, bool), shortfall_weight=np.zeros(2), cost=np.zeros(2),
+                  blocks={}, rows=())
+    lp = np.array([1.6, 0.5])
+    x = np.floor(lp)
+    everything = np.ones(2, bool)
+    assert repair_rows(model, x, everything, lp, model.col_lower, np.ceil(lp), everything)
+    assert list(x) == [2.0, 0.0]
+    # With the budget at 1 the seat row cannot be met by whole steps: say so.
+    tight = replace(model, row_upper=np.array([1.0, -1.5]))
+    y = np.floor(lp)
+    assert not repair_rows(tight, y, everything, lp, model.col_lower, np.ceil(lp), everything)
+
+
+def test_details_by_rounding_gives_a_whole_plan_of_the_model_better_than_its_start():
+    # On the demo (a surge that details can meet), from the hires-only plan.
+    import numpy as np
+
+    from rebalance.backends import HighsBackend, SolveOptions
+    from rebalance.model import build_model
+    from rebalance.rounding import details_by_rounding
+
+    model = build_model(read_instance(ROOT / "instances" / "demo"))
+    backend = HighsBackend()
+    options = SolveOptions(relative_gap=0.01)
+    hires_only = model.col_upper.copy()
+    detail = model.blocks["detail"]
+    hires_only[detail.start:detail.stop] = 0
+    start = backend.run(replace(model, col_upper=hires_only), model.shortfall_weight, [],
+                        options, 60, None)
+    assert start.x is not None
+    x = details_by_rounding(backend, model, model.shortfall_weight, [], options,
+                            float("inf"), start.x, lambda _: None)
+    assert x is not None
+    assert float(model.shortfall_weight @ x) < start.objective - 1.0
+    activity = model.matrix @ x
+    assert np.all(activity >= model.row_lower - 1e-6)
+    assert np.all(activity <= model.row_upper + 1e-6)
+    assert np.all(x >= model.col_lower - 1e-9) and np.all(x <= model.col_upper + 1e-9)
+    assert np.array_equal(x[model.is_integer], np.rint(x[model.is_integer]))
+    assert x[detail.start:detail.stop].sum() > 0

@@ -177,8 +177,9 @@ IPM_LP_COLUMNS = 30_000
 
 # HiGHS answers its interrupt callback during simplex, interior point and branch and bound,
 # but not during presolve: on the agency benchmark (6.8M nonzeros) presolve ran 170 s past the
-# limit (issue 3).  Above this size each run goes to a child process that is killed when the
-# wall-clock limit plus a grace has passed; below it, runs are short and stay in process.
+# limit (issue 3).  Above this size each run goes to a child process that is killed at the
+# wall-clock limit, HiGHS being told to stop a grace before; below it, runs are short and
+# stay in process.
 HARD_STOP_NONZEROS = 500_000
 HIGHS_GRACE_SECONDS = 3.0
 
@@ -283,10 +284,12 @@ class HighsBackend:
             options: SolveOptions, time_limit: float, start: np.ndarray | None) -> BackendOutcome:
         if model.matrix.nnz < HARD_STOP_NONZEROS:
             return self._run_here(model, objective, extra_rows, options, time_limit, start)
+        # HiGHS stops itself a grace before the kill, so the kill keeps the caller's limit.
+        own_limit = max(time_limit - HIGHS_GRACE_SECONDS, 0.5 * time_limit)
         out = _run_in_child(
-            lambda opts, on_plan: self._run_here(model, objective, extra_rows, opts, time_limit,
+            lambda opts, on_plan: self._run_here(model, objective, extra_rows, opts, own_limit,
                                                  start, on_plan),
-            options, time_limit + HIGHS_GRACE_SECONDS)
+            options, time_limit)
         if out.x is not None and out.bound is None:
             # A plan handed over before the kill: score it here rather than trust the claim.
             out = replace(out, objective=float(objective @ out.x))

@@ -17,7 +17,9 @@ import argparse
 import json
 import math
 import sys
+import time
 from collections.abc import Callable, Sequence
+from dataclasses import replace
 from pathlib import Path
 
 from rebalance.instance import Instance
@@ -70,6 +72,7 @@ def cmd_plan(args: argparse.Namespace) -> int:
     from rebalance.planning import make_plan, options_from_instance, write_outputs
     from rebalance.report import format_summary
 
+    started = time.perf_counter()
     instance = _load(args.instance)
     if instance is None:
         return EXIT_INVALID_INPUT
@@ -79,6 +82,10 @@ def cmd_plan(args: argparse.Namespace) -> int:
         instance, solver=args.solver, time_limit_seconds=args.time_limit,
         relative_gap=args.gap, seed=args.seed, threads=args.threads,
         progress=None if args.quiet else _err)
+    # The limit covers the whole run, reading the instance included.
+    read_seconds = time.perf_counter() - started
+    options = replace(options, time_limit_seconds=max(
+        0.5, options.time_limit_seconds - read_seconds))
     result = make_plan(instance, options)
     print(format_summary(result))
     if result.plan is None:

@@ -26,7 +26,7 @@ from rebalance.model import ADAPTING_FAMILIES, Model
 __all__ = ["details_by_rounding", "repair_rows", "round_up"]
 
 TOLERANCE = 1e-6
-LP_SHARE = 0.7  # of the pass's time for the LP; the rest for the final work-split LP
+LP_SHARE = 0.9  # of the pass's time for the LP; the work-split LP after it takes seconds
 
 
 def details_by_rounding(backend: Backend, model: Model, objective: np.ndarray,

@@ -127,18 +127,20 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
                        final_status=Status.FEASIBLE_WITH_GAP)
     status = Status.OPTIMAL if (first.status is Status.OPTIMAL
                                 and second.status is Status.OPTIMAL) else Status.FEASIBLE_WITH_GAP
-    return _finish(model, backend, options, stages, polish(backend, model, second, options),
-                   started, deadline, final_status=status)
+    return _finish(model, backend, options, stages,
+                   polish(backend, model, second, options, deadline), started, deadline,
+                   final_status=status)
 
 
-def polish(backend: Backend, model: Model, out: BackendOutcome,
-           options: SolveOptions) -> BackendOutcome:
+def polish(backend: Backend, model: Model, out: BackendOutcome, options: SolveOptions,
+           deadline: float = math.inf) -> BackendOutcome:
     """Fix the integer decisions and re-split work to the least shortfall (an LP).
 
     Stage two may spend the small shortfall slack it is given; with the people, moves and
     hires fixed, the best work split is cheap to find exactly, and costs do not change.
     """
-    if out.x is None or not model.num_integer:
+    left = min(POLISH_SECONDS, deadline - time.perf_counter())
+    if out.x is None or not model.num_integer or left < MIN_POLISH_SECONDS:
         return out
     fixed = np.rint(out.x)
     integer = model.is_integer
@@ -146,7 +148,7 @@ def polish(backend: Backend, model: Model, out: BackendOutcome,
     lower[integer] = upper[integer] = fixed[integer]
     lp = backend.run(replace(model, col_lower=lower, col_upper=upper,
                              is_integer=np.zeros(model.num_cols, bool)),
-                     model.shortfall_weight, [], options, 60.0, None)
+                     model.shortfall_weight, [], options, left, None)
     if lp.status is not Status.OPTIMAL or lp.x is None:
         return out
     x = lp.x.copy()
@@ -155,6 +157,8 @@ def polish(backend: Backend, model: Model, out: BackendOutcome,
 
 
 STAGE1_SHARE = 0.7   # of the whole time limit, at most, for the shortfall stage
+POLISH_SECONDS = 60.0  # at most, for the final work split; never past the limit
+MIN_POLISH_SECONDS = 0.5
 LP_SHARE = 0.35      # of a stage's time, at most, for its LP relaxation
 RENS_SHARE = 0.3     # of a stage's time, at most, for the rounding neighbourhood search
 MIN_HEURISTIC_SECONDS = 5.0  # below this a stage goes straight to branch and bound

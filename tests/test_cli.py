@@ -72,7 +72,7 @@ def test_no_plan_in_time_keeps_the_old_plan(tmp_path, capsys):
     out.mkdir()
     (out / "keep.txt").write_text("an earlier plan")
     code = main(["plan", str(ROOT / "instances" / "demo"), "-o", str(out), "-q",
-                 "--time-limit", "0.05"])
+                 "--time-limit", "0.1"])
     assert code in (EXIT_NO_PLAN_IN_TIME, EXIT_OK)
     if code == EXIT_NO_PLAN_IN_TIME:
         assert "no plan found within the time limit" in capsys.readouterr().out

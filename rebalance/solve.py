@@ -175,7 +175,11 @@ WHOLE_SEARCH_MAX_NONZEROS = 3_000_000
 # Between them, ROUNDING: detail counts from the LP of the details pass, rounded and repaired
 # (rebalance.rounding); on agency it took hires-only 8,705 to 7,903 where the details MIP
 # found nothing better in 108 s.  It gets ROUNDING_SHARE of the time left when it starts.
-BY_DECISION_PASSES = (("hires", ("hire",)), ("details", ("detail",)))
+# Each pass: its label, the column blocks it sets free, and the share of the time left when
+# it starts that it may use.  The hires pass stops near 1% of its own bound in seconds up to
+# agency, but on large spent 178 s going from 1.28% to 0.09%, leaving the rounding LP too
+# little; a quarter leaves most of the time to the details.
+BY_DECISION_PASSES = (("hires", ("hire",), 0.25), ("details", ("detail",), 1.0))
 ROUNDING_AFTER = "hires"
 ROUNDING_SHARE = 0.8
 
@@ -325,9 +329,9 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
     held_at = model.col_lower.copy() if start is None else np.rint(start)
     best = start
     best_objective = math.inf if start is None else float(objective @ start)
-    passes = [(label, names) for label, names in BY_DECISION_PASSES
+    passes = [(label, names, share) for label, names, share in BY_DECISION_PASSES
               if any(name in model.blocks for name in names)]
-    for i, (label, names) in enumerate(passes):
+    for label, names, share in passes:
         free = np.zeros(model.num_cols, bool)
         for name in names:
             if name in model.blocks:
@@ -344,7 +348,7 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
             lambda text, label=label: say(text.replace("searching:", f"{label} alone:")))
         out = backend.run(replace(model, col_lower=lower, col_upper=upper), objective,
                           extra_rows, replace(options, progress=restricted_say),
-                          left / (len(passes) - i), best)
+                          share * left, best)
         if out.x is None or out.objective is None:
             say(f"  {label} alone: no plan ({out.words})")
             continue

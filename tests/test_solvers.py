@@ -233,3 +233,33 @@ def test_details_by_rounding_gives_a_whole_plan_of_the_model_better_than_its_sta
     assert np.all(x >= model.col_lower - 1e-9) and np.all(x <= model.col_upper + 1e-9)
     assert np.array_equal(x[model.is_integer], np.rint(x[model.is_integer]))
     assert x[detail.start:detail.stop].sum() > 0
+
+
+def test_pruned_rounding_keeps_the_most_short_destinations_and_still_gives_a_plan(monkeypatch):
+    # Large models keep, per person and period, only the detail destinations the start plan
+    # leaves most short; forced here on the demo with one destination each.
+    import numpy as np
+
+    from rebalance import rounding
+    from rebalance.backends import HighsBackend, SolveOptions
+    from rebalance.model import build_model
+
+    model = build_model(read_instance(ROOT / "instances" / "demo"))
+    backend = HighsBackend()
+    options = SolveOptions(relative_gap=0.01)
+    detail = model.blocks["detail"]
+    hires_only = model.col_upper.copy()
+    hires_only[detail.start:detail.stop] = 0
+    start = backend.run(replace(model, col_upper=hires_only), model.shortfall_weight, [],
+                        options, 60, None)
+    kept = rounding._most_needed(model, start.x, 1)
+    groups = set(zip(detail.keys["unit"][kept].tolist(), detail.keys["period"][kept].tolist(),
+                     strict=True))
+    assert kept.sum() == len(groups) > 0  # at most one destination per person and period
+    monkeypatch.setattr(rounding, "PRUNE_ABOVE_DETAIL_COLUMNS", 0)
+    monkeypatch.setattr(rounding, "DESTINATIONS", 1)
+    x = rounding.details_by_rounding(backend, model, model.shortfall_weight, [], options,
+                                     float("inf"), start.x, lambda _: None)
+    assert x is not None and float(model.shortfall_weight @ x) < start.objective
+    used = np.flatnonzero(x[detail.start:detail.stop] > 0.5)
+    assert kept[used].all()

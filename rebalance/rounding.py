@@ -40,10 +40,11 @@ def details_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
                         say: Callable[[str], None]) -> np.ndarray | None:
     """A plan with the detail counts of the LP relaxation rounded and repaired.
 
-    Every integer column but the details of people whose home cannot change is held where
-    ``start`` has it (relocatable people's details and homes make the LP several times
-    slower; they stay as in ``start``).  Returns the plan, or None when the LP does not
-    finish, the repair fails, or the plan is no better than ``start``.
+    Every integer column but the detail columns that name their home office is held where
+    ``start`` has it: homes, hires, and the per-destination details of relocatable people
+    (with those free the agency LP did not finish in 200 s, against 52 s held).  Returns the
+    plan, or None when the LP does not finish, the repair fails, or the plan is no better
+    than ``start``.
     """
     integer = model.is_integer
     held_at = np.rint(start)

@@ -171,15 +171,14 @@ BY_DECISION_SHARE = 0.6  # of a stage's time, at most, for the decision-by-decis
 # on the whole model: HiGHS's presolve of agency (6.8M nonzeros) ran 170 s past the limit
 # without one callback, while medium (0.8M) stopped on time (issue 3).
 WHOLE_SEARCH_MAX_NONZEROS = 3_000_000
-# Column blocks set free in turn, with what the progress lines call them.
-# Between them, ROUNDING: detail counts from the LP of the details pass, rounded and repaired
-# (rebalance.rounding); on agency it took hires-only 8,705 to 7,903 where the details MIP
-# found nothing better in 108 s.  It gets ROUNDING_SHARE of the time left when it starts.
-# Each pass: its label, the column blocks it sets free, and the share of the time left when
-# it starts that it may use.  The hires pass stops near 1% of its own bound in seconds up to
-# agency, but on large spent 178 s going from 1.28% to 0.09%, leaving the rounding LP too
-# little; a quarter leaves most of the time to the details.
+# The passes of first_plan_by_decision: what the progress lines call each, the column blocks
+# it sets free, and the share of the time left when it starts that it may use.  The hires
+# pass stops near 1% of its own bound within seconds up to agency, but on large spent 178 s
+# going from 1.28% to 0.09% and left the rounding LP too little.
 BY_DECISION_PASSES = (("hires", ("hire",), 0.25), ("details", ("detail",), 1.0))
+# After this pass, details by rounding (rebalance.rounding) gets ROUNDING_SHARE of the time
+# left: on agency it took the hires-only plan from 8,705 to 7,702 where the details MIP
+# found nothing better in 108 s.
 ROUNDING_AFTER = "hires"
 ROUNDING_SHARE = 0.8
 

@@ -263,3 +263,20 @@ def test_pruned_rounding_keeps_the_most_short_destinations_and_still_gives_a_pla
     assert x is not None and float(model.shortfall_weight @ x) < start.objective
     used = np.flatnonzero(x[detail.start:detail.stop] > 0.5)
     assert kept[used].all()
+
+
+def test_with_one_thread_a_large_model_gets_its_lp_bound_after_the_passes(monkeypatch):
+    # With one thread, a large model's stage one runs the LP relaxation after the passes
+    # (for a bound that means something), then searches with what is left; forced on tiny,
+    # the optimum must not change and must still be proven.
+    solve_module = importlib.import_module("rebalance.solve")
+    tiny = read_instance(DATA / "tiny")
+    usual = solve_verified(tiny)
+    said: list[str] = []
+    monkeypatch.setattr(solve_module, "LARGE_MODEL_COLUMNS", 0)
+    forced = solve_verified(tiny, threads=1, progress=said.append)
+    assert any("LP relaxation (after the passes, for the bound)" in line for line in said)
+    assert forced.status is Status.OPTIMAL
+    assert forced.plan.total_cost == pytest.approx(usual.plan.total_cost, rel=1e-9)
+    assert forced.plan.weighted_shortfall == pytest.approx(usual.plan.weighted_shortfall,
+                                                           abs=1e-9)

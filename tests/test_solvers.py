@@ -149,16 +149,19 @@ def test_first_plan_by_decision_is_a_plan_of_the_whole_model():
     assert nothing_done is None
 
 
-def test_with_two_threads_a_large_model_gets_its_lp_bound_beside_the_search(monkeypatch):
-    # On a large model the LP relaxation runs on the second thread while the first plan is
-    # sought; forced here on tiny, it must not change the optimum.
+@pytest.mark.parametrize(("threads", "said_of_the_lp"), [
+    (2, "beside the search"), (1, "LP relaxation (after the passes, for the bound)")])
+def test_a_large_model_gets_its_lp_bound(monkeypatch, threads, said_of_the_lp):
+    # On a large model the LP relaxation runs on a second thread while the first plan is
+    # sought, or with one thread after the passes and before the search of the whole model
+    # gets the rest; forced here on tiny, it must not change the optimum or its proof.
     solve_module = importlib.import_module("rebalance.solve")
     tiny = read_instance(DATA / "tiny")
     usual = solve_verified(tiny)
     said: list[str] = []
     monkeypatch.setattr(solve_module, "LARGE_MODEL_COLUMNS", 0)
-    forced = solve_verified(tiny, threads=2, progress=said.append)
-    assert any("beside the search" in line for line in said)
+    forced = solve_verified(tiny, threads=threads, progress=said.append)
+    assert any(said_of_the_lp in line for line in said)
     assert forced.status is Status.OPTIMAL
     assert forced.plan.total_cost == pytest.approx(usual.plan.total_cost, rel=1e-9)
     assert forced.plan.weighted_shortfall == pytest.approx(usual.plan.weighted_shortfall,
@@ -264,19 +267,3 @@ def test_pruned_rounding_keeps_the_most_short_destinations_and_still_gives_a_pla
     used = np.flatnonzero(x[detail.start:detail.stop] > 0.5)
     assert kept[used].all()
 
-
-def test_with_one_thread_a_large_model_gets_its_lp_bound_after_the_passes(monkeypatch):
-    # With one thread, a large model's stage one runs the LP relaxation after the passes
-    # (for a bound that means something), then searches with what is left; forced on tiny,
-    # the optimum must not change and must still be proven.
-    solve_module = importlib.import_module("rebalance.solve")
-    tiny = read_instance(DATA / "tiny")
-    usual = solve_verified(tiny)
-    said: list[str] = []
-    monkeypatch.setattr(solve_module, "LARGE_MODEL_COLUMNS", 0)
-    forced = solve_verified(tiny, threads=1, progress=said.append)
-    assert any("LP relaxation (after the passes, for the bound)" in line for line in said)
-    assert forced.status is Status.OPTIMAL
-    assert forced.plan.total_cost == pytest.approx(usual.plan.total_cost, rel=1e-9)
-    assert forced.plan.weighted_shortfall == pytest.approx(usual.plan.weighted_shortfall,
-                                                           abs=1e-9)

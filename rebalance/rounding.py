@@ -12,18 +12,16 @@ LP (every whole number held), which gives a plan of the whole model.
 
 from __future__ import annotations
 
-import math
 import time
 from collections.abc import Callable
 from dataclasses import replace
 
 import numpy as np
-import scipy.sparse as sp
 
 from rebalance.backends import Backend, SolveOptions, Status
 from rebalance.model import ADAPTING_FAMILIES, Model
 
-__all__ = ["details_by_rounding", "repair_rows", "round_up"]
+__all__ = ["RowActivity", "details_by_rounding", "repair_rows", "round_up"]
 
 TOLERANCE = 1e-6
 # Above this many detail columns the LP keeps only the DESTINATIONS most short destinations
@@ -35,8 +33,7 @@ LP_SHARE = 0.9  # of the pass's time for the LP; the work-split LP after it take
 
 
 def details_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
-                        extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
-                        deadline: float, start: np.ndarray,
+                        options: SolveOptions, deadline: float, start: np.ndarray,
                         say: Callable[[str], None]) -> np.ndarray | None:
     """A plan with the detail counts of the LP relaxation rounded and repaired.
 
@@ -44,7 +41,7 @@ def details_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
     ``start`` has it: homes, hires, and the per-destination details of relocatable people
     (with those free the agency LP did not finish in 200 s, against 52 s held).  Returns the
     plan, or None when the LP does not finish, the repair fails, or the plan is no better
-    than ``start``.
+    than ``start``.  Not for a held shortfall (stage two): rounding down raises it.
     """
     integer = model.is_integer
     held_at = np.rint(start)
@@ -63,7 +60,7 @@ def details_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
     relaxed = replace(model, col_lower=lower, col_upper=upper,
                       is_integer=np.zeros(model.num_cols, bool))
     budget = deadline - time.perf_counter()
-    lp = backend.run(relaxed, objective, extra_rows, replace(options, progress=None),
+    lp = backend.run(relaxed, objective, [], replace(options, progress=None),
                      LP_SHARE * budget, None)
     if lp.status is not Status.OPTIMAL or lp.x is None:
         say(f"  details by rounding: LP not solved ({lp.words})")
@@ -72,16 +69,15 @@ def details_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
     rounded = np.where(integer, held_at, lp.x)
     rounded[free] = np.floor(lp.x[free] + TOLERANCE)
     ceiling = np.where(free, np.minimum(np.ceil(lp.x - TOLERANCE), upper), rounded)
-    stack = _with_extra_rows(model, extra_rows)
-    checked = _rows_checked(stack)
-    if not repair_rows(stack, rounded, free, lp.x, lower, ceiling, checked):
+    rows = RowActivity(model, rounded, _rows_checked(model))
+    if not repair_rows(rows, free, lp.x, lower, ceiling):
         say("  details by rounding: a row could not be repaired")
         return None
-    round_up(stack, rounded, free, lp.x, ceiling, checked)
+    round_up(rows, free, lp.x, ceiling)
     lower[integer] = upper[integer] = rounded[integer]
     left = deadline - time.perf_counter()
-    split = backend.run(replace(relaxed, col_lower=lower, col_upper=upper), objective,
-                        extra_rows, replace(options, progress=None), max(left, 1.0), None)
+    split = backend.run(replace(relaxed, col_lower=lower, col_upper=upper), objective, [],
+                        replace(options, progress=None), max(left, 1.0), None)
     if split.status is not Status.OPTIMAL or split.x is None or split.objective is None:
         say(f"  details by rounding: no work split ({split.words})")
         return None
@@ -120,115 +116,96 @@ def _most_needed(model: Model, plan: np.ndarray, keep: int) -> np.ndarray:
     return kept
 
 
-def _with_extra_rows(model: Model, extra_rows: list[tuple[np.ndarray, float]]) -> Model:
-    """The model with ``extra_rows`` (row, upper bound) appended, for row checks."""
-    if not extra_rows:
-        return model
-    extra = sp.csr_matrix(np.vstack([r for r, _ in extra_rows]))
-    return replace(model, matrix=sp.vstack([model.matrix, extra], format="csr"),
-                   row_lower=np.concatenate([model.row_lower,
-                                             np.full(len(extra_rows), -math.inf)]),
-                   row_upper=np.concatenate([model.row_upper, [ub for _, ub in extra_rows]]),
-                   rows=model.rows)
-
-
-def _rows_checked(stack: Model) -> np.ndarray:
+def _rows_checked(model: Model) -> np.ndarray:
     """Rows the repair must keep: all but those a work split and shortfall always satisfy
-    (``ADAPTING_FAMILIES``) — and extra rows too (a held shortfall or cost must hold)."""
-    checked = np.ones(stack.num_rows, bool)
-    for family in stack.rows:
+    (``ADAPTING_FAMILIES``)."""
+    checked = np.ones(model.num_rows, bool)
+    for family in model.rows:
         if family.name in ADAPTING_FAMILIES:
             checked[family.start:family.stop] = False
     return checked
 
 
-def repair_rows(model: Model, x: np.ndarray, movable: np.ndarray, wanted: np.ndarray,
-                lowest: np.ndarray, highest: np.ndarray, checked: np.ndarray,
-                max_moves: int = 1_000_000) -> bool:
-    """Make every ``checked`` row of ``x`` hold by steps of one on ``movable`` columns.
+class RowActivity:
+    """The activity of every row at ``x``, kept live while columns of ``x`` move by whole
+    steps; only ``checked`` rows count."""
+
+    def __init__(self, model: Model, x: np.ndarray, checked: np.ndarray) -> None:
+        self.rows, self.cols = model.matrix.tocsr(), model.matrix.tocsc()
+        self.lo, self.hi = model.row_lower, model.row_upper
+        self.x, self.checked = x, checked
+        self.activity = self.rows @ x
+
+    def outside(self, i: int) -> float:
+        """How far row i is outside its bounds (+ above, - below, 0 inside)."""
+        if self.activity[i] > self.hi[i] + TOLERANCE:
+            return float(self.activity[i] - self.hi[i])
+        if self.activity[i] < self.lo[i] - TOLERANCE:
+            return float(self.activity[i] - self.lo[i])
+        return 0.0
+
+    def broken_rows(self) -> np.ndarray:
+        return np.flatnonzero(self.checked & ((self.activity > self.hi + TOLERANCE)
+                                              | (self.activity < self.lo - TOLERANCE)))
+
+    def fits(self, j: int, step: float) -> bool:
+        """Whether moving column j by ``step`` keeps every checked row that holds now."""
+        span = slice(self.cols.indptr[j], self.cols.indptr[j + 1])
+        for i, a in zip(self.cols.indices[span], self.cols.data[span], strict=True):
+            if self.checked[i] and self.outside(i) == 0.0:
+                after = self.activity[i] + step * a
+                if after > self.hi[i] + TOLERANCE or after < self.lo[i] - TOLERANCE:
+                    return False
+        return True
+
+    def move(self, j: int, step: float) -> None:
+        self.x[j] += step
+        span = slice(self.cols.indptr[j], self.cols.indptr[j + 1])
+        self.activity[self.cols.indices[span]] += step * self.cols.data[span]
+
+
+def repair_rows(rows: RowActivity, movable: np.ndarray, wanted: np.ndarray,
+                lowest: np.ndarray, highest: np.ndarray, max_moves: int = 1_000_000) -> bool:
+    """Make every checked row hold by steps of one on ``movable`` columns.
 
     A step on a column goes toward the row's bounds, stays within ``[lowest, highest]``, and
     breaks no other checked row; among the columns that can step, the one whose LP value
     (``wanted``) is furthest in that direction goes first.  Columns outside ``movable`` keep
     their values (continuous ones at the LP's, which the checked rows take as given).
-    Changes ``x`` in place; True when every checked row holds.
+    Changes ``rows.x`` in place; True when every checked row holds.
     """
-    rows = model.matrix.tocsr()
-    cols = model.matrix.tocsc()
-    activity = rows @ x
-    lo, hi = model.row_lower, model.row_upper
-    keeps_the_rest = _step_check(cols, activity, lo, hi, checked)
-
-    def broken(i: int) -> float:
-        """How far row i is outside its bounds (+ above, - below, 0 inside)."""
-        if activity[i] > hi[i] + TOLERANCE:
-            return float(activity[i] - hi[i])
-        if activity[i] < lo[i] - TOLERANCE:
-            return float(activity[i] - lo[i])
-        return 0.0
-
-    # Only rows broken to begin with: a step never breaks a row that holds.
-    outside = checked & ((activity > hi + TOLERANCE) | (activity < lo - TOLERANCE))
+    x, csr = rows.x, rows.rows
     moves = 0
-    for i in np.flatnonzero(outside):
-        while (excess := broken(int(i))) != 0.0:
-            span = slice(rows.indptr[i], rows.indptr[i + 1])
+    # Only rows broken to begin with: a step never breaks a row that holds.
+    for i in rows.broken_rows():
+        while (excess := rows.outside(int(i))) != 0.0:
+            span = slice(csr.indptr[i], csr.indptr[i + 1])
             options = []
-            for j, a in zip(rows.indices[span], rows.data[span], strict=True):
-                if not movable[j]:
-                    continue
+            for j, a in zip(csr.indices[span], csr.data[span], strict=True):
                 step = -1.0 if (a > 0) == (excess > 0) else 1.0
-                if not lowest[j] <= x[j] + step <= highest[j]:
-                    continue
-                # Prefer the column whose LP value leans furthest toward the step.
-                options.append((-(wanted[j] - x[j]) * step, int(j), step))
-            for _, j, step in sorted(options):
-                if keeps_the_rest(j, step):
-                    x[j] += step
-                    span_j = slice(cols.indptr[j], cols.indptr[j + 1])
-                    activity[cols.indices[span_j]] += step * cols.data[span_j]
-                    moves += 1
-                    break
-            else:
+                if movable[j] and lowest[j] <= x[j] + step <= highest[j]:
+                    # Prefer the column whose LP value leans furthest toward the step.
+                    options.append((-(wanted[j] - x[j]) * step, int(j), step))
+            chosen = next(((j, step) for _, j, step in sorted(options) if rows.fits(j, step)),
+                          None)
+            if chosen is None or moves >= max_moves:
                 return False
-            if moves >= max_moves:
-                return False
+            rows.move(*chosen)
+            moves += 1
     return True
 
 
-def round_up(model: Model, x: np.ndarray, movable: np.ndarray, wanted: np.ndarray,
-             highest: np.ndarray, checked: np.ndarray) -> int:
-    """Step ``movable`` columns of ``x`` up by one toward their LP value where no checked row
-    breaks, most wanted (largest shortfall of ``x`` below ``wanted``) first: rounding down
-    leaves budget and away-share room that the LP meant for these people.  Returns the
-    number of steps; changes ``x`` in place."""
-    cols = model.matrix.tocsc()
-    activity = model.matrix @ x
-    fits = _step_check(cols, activity, model.row_lower, model.row_upper, checked)
+def round_up(rows: RowActivity, movable: np.ndarray, wanted: np.ndarray,
+             highest: np.ndarray) -> int:
+    """Step ``movable`` columns up by one toward their LP value where no checked row breaks,
+    most wanted (largest shortfall below ``wanted``) first: rounding down leaves budget and
+    away-share room that the LP meant for these people.  Returns the number of steps."""
+    x = rows.x
     candidates = np.flatnonzero(movable & (x + 1 <= highest + TOLERANCE))
     order = candidates[np.argsort(-(wanted[candidates] - x[candidates]), kind="stable")]
     steps = 0
     for j in order:
-        if fits(int(j), 1.0):
-            x[j] += 1.0
-            span = slice(cols.indptr[j], cols.indptr[j + 1])
-            activity[cols.indices[span]] += cols.data[span]
+        if rows.fits(int(j), 1.0):
+            rows.move(int(j), 1.0)
             steps += 1
     return steps
-
-
-def _step_check(cols: sp.csc_matrix, activity: np.ndarray, lo: np.ndarray, hi: np.ndarray,
-                checked: np.ndarray) -> Callable[[int, float], bool]:
-    """``fits(j, step)``: whether moving column j by ``step`` keeps every checked row that
-    holds now within its bounds (``activity`` is read live)."""
-    def fits(j: int, step: float) -> bool:
-        span = slice(cols.indptr[j], cols.indptr[j + 1])
-        for i, a in zip(cols.indices[span], cols.data[span], strict=True):
-            if not checked[i] or not lo[i] - TOLERANCE <= activity[i] <= hi[i] + TOLERANCE:
-                continue
-            after = activity[i] + step * a
-            if after > hi[i] + TOLERANCE or after < lo[i] - TOLERANCE:
-                return False
-        return True
-
-    return fits

@@ -100,9 +100,8 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
 
     say("stage 1: least priority-weighted shortfall")
     # Stage 1 may use most of the time, but leaves stage 2 a share to lower the cost.
-    large = model.num_cols > LARGE_MODEL_COLUMNS and backend.reruns_cheaply
-    stage1_deadline = started + (LARGE_STAGE1_SHARE if large else STAGE1_SHARE) * \
-        options.time_limit_seconds
+    share = LARGE_STAGE1_SHARE if _is_large(model, backend) else STAGE1_SHARE
+    stage1_deadline = started + share * options.time_limit_seconds
     first = solve_stage(backend, model, model.shortfall_weight, [], options, stage1_deadline,
                         None, say)
     stages.append(_stage("shortfall", first))
@@ -148,8 +147,7 @@ def polish(backend: Backend, model: Model, out: BackendOutcome, options: SolveOp
     integer = model.is_integer
     lower, upper = model.col_lower.copy(), model.col_upper.copy()
     lower[integer] = upper[integer] = fixed[integer]
-    lp = backend.run(replace(model, col_lower=lower, col_upper=upper,
-                             is_integer=np.zeros(model.num_cols, bool)),
+    lp = backend.run(_relaxed(replace(model, col_lower=lower, col_upper=upper)),
                      model.shortfall_weight, [], options, left, None)
     if lp.status is not Status.OPTIMAL or lp.x is None:
         return out
@@ -206,8 +204,8 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
     t0 = time.perf_counter()
     budget = deadline - t0
     lp_bound = None
-    bound_on_side: Future[BackendOutcome] | None = None
-    large = model.num_cols > LARGE_MODEL_COLUMNS and backend.reruns_cheaply
+    bound_on_side: Future[float | None] | None = None
+    large = _is_large(model, backend)
     # Above this size branch and bound on the whole model gets nowhere in a stage's time
     # (HiGHS's presolve of agency alone outlasted it): the passes get all of it instead.
     passes_only = large and model.matrix.nnz > WHOLE_SEARCH_MAX_NONZEROS
@@ -222,9 +220,9 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
             if large:
                 if options.threads >= 2:
                     # The LP bound takes about as long as the passes: run it beside them.
-                    relaxed = replace(model, is_integer=np.zeros(model.num_cols, bool))
-                    bound_on_side = side.submit(backend.run, relaxed, objective, extra_rows,
-                                                replace(options, progress=None), budget, None)
+                    bound_on_side = side.submit(_lp_bound, backend, model, objective,
+                                                extra_rows, options, budget, say,
+                                                "beside the search")
                 if start is None or passes_only:
                     # Stage two of a model that branch and bound can still search starts
                     # from stage one's plan there instead: on medium the passes found nothing
@@ -238,33 +236,20 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                                                       options, deadline, start, say)
         left = deadline - time.perf_counter()
         if bound_after and start is not None:
-            relaxed = replace(model, is_integer=np.zeros(model.num_cols, bool))
-            lp = backend.run(relaxed, objective, extra_rows, replace(options, progress=None),
-                             left, None)
-            if lp.status is Status.OPTIMAL and lp.objective is not None:
-                lp_bound = lp.objective
-                say(f"  LP relaxation (after the passes, for the bound) {lp.objective:.6g} "
-                    f"in {lp.seconds:.1f}s")
-            else:
-                say(f"  LP relaxation not solved in the time left ({lp.words}); no bound")
+            lp_bound = _lp_bound(backend, model, objective, extra_rows, options, left, say,
+                                 "after the passes, for the bound")
             left = deadline - time.perf_counter()
         if passes_only and start is not None:
             say(f"  no search of the whole model: {model.matrix.nnz:,} nonzeros, more than "
                 "branch and bound can use in the time")
-            out = BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, None,
-                                 "whole-model search not started", 0.0)
+            out = _not_searched("whole-model search not started")
         elif bound_after and left < MIN_SEARCH_SECONDS:
-            out = BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, None,
-                                 "no time left to search the whole model", 0.0)
+            out = _not_searched("no time left to search the whole model")
         else:
             # Easy large models still get proven here; the LP bound above joins its bound.
             out = backend.run(model, objective, extra_rows, options, left, start)
         if bound_on_side is not None:
-            lp = bound_on_side.result()
-            if lp.status is Status.OPTIMAL and lp.objective is not None:
-                lp_bound = lp.objective
-                say(f"  LP relaxation (beside the search) {lp.objective:.6g} in "
-                    f"{lp.seconds:.1f}s")
+            lp_bound = bound_on_side.result()
     if out.x is None and start is not None and out.status in (Status.NO_PLAN_IN_TIME,
                                                              Status.UNKNOWN):
         # Branch and bound ran out of time before taking up the start: keep the start.
@@ -277,6 +262,34 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
     out = _with_floor(out, options.relative_gap)
     seconds = time.perf_counter() - t0
     return replace(out, seconds=seconds)
+
+
+def _is_large(model: Model, backend: Backend) -> bool:
+    """Whether ``model`` takes the large-model path (passes instead of the LP first)."""
+    return model.num_cols > LARGE_MODEL_COLUMNS and backend.reruns_cheaply
+
+
+def _relaxed(model: Model) -> Model:
+    """The same model with every column continuous."""
+    return replace(model, is_integer=np.zeros(model.num_cols, bool))
+
+
+def _not_searched(words: str) -> BackendOutcome:
+    """The outcome of a branch and bound that was not run: the stage keeps its plan."""
+    return BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, None, words, 0.0)
+
+
+def _lp_bound(backend: Backend, model: Model, objective: np.ndarray,
+              extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
+              time_limit: float, say: Callable[[str], None], when: str) -> float | None:
+    """The LP relaxation's value, a bound for the stage, or None if it did not finish."""
+    lp = backend.run(_relaxed(model), objective, extra_rows, replace(options, progress=None),
+                     time_limit, None)
+    if lp.status is Status.OPTIMAL and lp.objective is not None:
+        say(f"  LP relaxation ({when}) {lp.objective:.6g} in {lp.seconds:.1f}s")
+        return lp.objective
+    say(f"  LP relaxation ({when}) not solved ({lp.words}); no bound from it")
+    return None
 
 
 # Every objective solved here is shortfall or money paid (priorities, costs and disruption
@@ -309,8 +322,7 @@ def _first_plan_from_lp(backend: Backend, model: Model, objective: np.ndarray,
     plan found and ``start``, and the LP bound.
     """
     budget = deadline - time.perf_counter()
-    relaxed = replace(model, is_integer=np.zeros(model.num_cols, bool))
-    lp = backend.run(relaxed, objective, extra_rows, options, LP_SHARE * budget, None)
+    lp = backend.run(_relaxed(model), objective, extra_rows, options, LP_SHARE * budget, None)
     if lp.status is not Status.OPTIMAL or lp.x is None:
         say(f"  LP relaxation not solved ({lp.words}); going straight to branch and bound")
         return start, None
@@ -390,7 +402,7 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
         if label == ROUNDING_AFTER and best is not None and not extra_rows and left >= 1.0:
             # Rounding down raises the shortfall, so it has no place under a held shortfall
             # (stage two): only for stage one and the weighted objective.
-            rounded = details_by_rounding(backend, model, objective, extra_rows, options,
+            rounded = details_by_rounding(backend, model, objective, options,
                                           time.perf_counter() + ROUNDING_SHARE * left, best,
                                           say)
             if rounded is not None:

@@ -191,7 +191,7 @@ def test_rounding_repairs_the_rows_a_floor_breaks_without_breaking_others():
     import scipy.sparse as sp
 
     from rebalance.model import Model
-    from rebalance.rounding import repair_rows
+    from rebalance.rounding import RowActivity, repair_rows
 
     model = Model(matrix=sp.csr_matrix(np.array([[1.0, 1.0], [-1.0, 0.0]])),
                   row_lower=np.array([-np.inf, -np.inf]), row_upper=np.array([2.0, -1.5]),
@@ -201,12 +201,14 @@ def test_rounding_repairs_the_rows_a_floor_breaks_without_breaking_others():
     lp = np.array([1.6, 0.5])
     x = np.floor(lp)
     everything = np.ones(2, bool)
-    assert repair_rows(model, x, everything, lp, model.col_lower, np.ceil(lp), everything)
+    assert repair_rows(RowActivity(model, x, everything), everything, lp, model.col_lower,
+                       np.ceil(lp))
     assert list(x) == [2.0, 0.0]
     # With the budget at 1 the seat row cannot be met by whole steps: say so.
     tight = replace(model, row_upper=np.array([1.0, -1.5]))
     y = np.floor(lp)
-    assert not repair_rows(tight, y, everything, lp, model.col_lower, np.ceil(lp), everything)
+    assert not repair_rows(RowActivity(tight, y, everything), everything, lp, model.col_lower,
+                           np.ceil(lp))
 
 
 def test_details_by_rounding_gives_a_whole_plan_of_the_model_better_than_its_start():
@@ -226,7 +228,7 @@ def test_details_by_rounding_gives_a_whole_plan_of_the_model_better_than_its_sta
     start = backend.run(replace(model, col_upper=hires_only), model.shortfall_weight, [],
                         options, 60, None)
     assert start.x is not None
-    x = details_by_rounding(backend, model, model.shortfall_weight, [], options,
+    x = details_by_rounding(backend, model, model.shortfall_weight, options,
                             float("inf"), start.x, lambda _: None)
     assert x is not None
     assert float(model.shortfall_weight @ x) < start.objective - 1.0
@@ -261,7 +263,7 @@ def test_pruned_rounding_keeps_the_most_short_destinations_and_still_gives_a_pla
     assert kept.sum() == len(groups) > 0  # at most one destination per person and period
     monkeypatch.setattr(rounding, "PRUNE_ABOVE_DETAIL_COLUMNS", 0)
     monkeypatch.setattr(rounding, "DESTINATIONS", 1)
-    x = rounding.details_by_rounding(backend, model, model.shortfall_weight, [], options,
+    x = rounding.details_by_rounding(backend, model, model.shortfall_weight, options,
                                      float("inf"), start.x, lambda _: None)
     assert x is not None and float(model.shortfall_weight @ x) < start.objective
     used = np.flatnonzero(x[detail.start:detail.stop] > 0.5)

@@ -20,6 +20,7 @@ import numpy as np
 
 from rebalance.backends import Backend, SolveOptions, Status
 from rebalance.model import ADAPTING_FAMILIES, Model
+from rebalance.split import relaxed, resplit
 
 __all__ = ["RowActivity", "details_by_rounding", "repair_rows", "round_up"]
 
@@ -57,11 +58,9 @@ def details_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
     held = integer & ~free
     lower, upper = model.col_lower.copy(), model.col_upper.copy()
     lower[held] = upper[held] = held_at[held]
-    relaxed = replace(model, col_lower=lower, col_upper=upper,
-                      is_integer=np.zeros(model.num_cols, bool))
     budget = deadline - time.perf_counter()
-    lp = backend.run(relaxed, objective, [], replace(options, progress=None),
-                     LP_SHARE * budget, None)
+    lp = backend.run(relaxed(replace(model, col_lower=lower, col_upper=upper)), objective,
+                     [], replace(options, progress=None), LP_SHARE * budget, None)
     if lp.status is not Status.OPTIMAL or lp.x is None:
         say(f"  details by rounding: LP not solved ({lp.words})")
         return None
@@ -74,18 +73,14 @@ def details_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
         say("  details by rounding: a row could not be repaired")
         return None
     round_up(rows, free, lp.x, ceiling)
-    lower[integer] = upper[integer] = rounded[integer]
-    left = deadline - time.perf_counter()
-    split = backend.run(replace(relaxed, col_lower=lower, col_upper=upper), objective, [],
-                        replace(options, progress=None), max(left, 1.0), None)
-    if split.status is not Status.OPTIMAL or split.x is None or split.objective is None:
-        say(f"  details by rounding: no work split ({split.words})")
+    split = resplit(backend, model, rounded, objective, options,
+                    max(deadline - time.perf_counter(), 1.0))
+    if split is None or split.x is None:
+        say("  details by rounding: no work split")
         return None
-    x = split.x.copy()
-    x[integer] = rounded[integer]
-    score = float(objective @ x)
+    score = float(objective @ split.x)
     say(f"  details by rounding: plan with {score:.6g}")
-    return x if score < float(objective @ start) - 1e-9 else None
+    return split.x if score < float(objective @ start) - 1e-9 else None
 
 
 def _most_needed(model: Model, plan: np.ndarray, keep: int) -> np.ndarray:

@@ -25,6 +25,7 @@ from rebalance.backends import (
 )
 from rebalance.model import LIMIT_FAMILIES, Model
 from rebalance.rounding import details_by_rounding
+from rebalance.split import relaxed, resplit
 
 __all__ = ["SolveOptions", "SolveResult", "StageResult", "Status", "solve", "solve_stage"]
 
@@ -143,17 +144,8 @@ def polish(backend: Backend, model: Model, out: BackendOutcome, options: SolveOp
     left = min(POLISH_SECONDS, deadline - time.perf_counter())
     if out.x is None or not model.num_integer or left < MIN_POLISH_SECONDS:
         return out
-    fixed = np.rint(out.x)
-    integer = model.is_integer
-    lower, upper = model.col_lower.copy(), model.col_upper.copy()
-    lower[integer] = upper[integer] = fixed[integer]
-    lp = backend.run(_relaxed(replace(model, col_lower=lower, col_upper=upper)),
-                     model.shortfall_weight, [], options, left, None)
-    if lp.status is not Status.OPTIMAL or lp.x is None:
-        return out
-    x = lp.x.copy()
-    x[integer] = fixed[integer]
-    return replace(out, x=x)
+    split = resplit(backend, model, out.x, model.shortfall_weight, options, left)
+    return out if split is None else replace(out, x=split.x)
 
 
 STAGE1_SHARE = 0.7   # of the whole time limit, at most, for the shortfall stage
@@ -269,11 +261,6 @@ def _is_large(model: Model, backend: Backend) -> bool:
     return model.num_cols > LARGE_MODEL_COLUMNS and backend.reruns_cheaply
 
 
-def _relaxed(model: Model) -> Model:
-    """The same model with every column continuous."""
-    return replace(model, is_integer=np.zeros(model.num_cols, bool))
-
-
 def _not_searched(words: str) -> BackendOutcome:
     """The outcome of a branch and bound that was not run: the stage keeps its plan."""
     return BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, None, words, 0.0)
@@ -283,7 +270,7 @@ def _lp_bound(backend: Backend, model: Model, objective: np.ndarray,
               extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
               time_limit: float, say: Callable[[str], None], when: str) -> float | None:
     """The LP relaxation's value, a bound for the stage, or None if it did not finish."""
-    lp = backend.run(_relaxed(model), objective, extra_rows, replace(options, progress=None),
+    lp = backend.run(relaxed(model), objective, extra_rows, replace(options, progress=None),
                      time_limit, None)
     if lp.status is Status.OPTIMAL and lp.objective is not None:
         say(f"  LP relaxation ({when}) {lp.objective:.6g} in {lp.seconds:.1f}s")
@@ -322,7 +309,7 @@ def _first_plan_from_lp(backend: Backend, model: Model, objective: np.ndarray,
     plan found and ``start``, and the LP bound.
     """
     budget = deadline - time.perf_counter()
-    lp = backend.run(_relaxed(model), objective, extra_rows, options, LP_SHARE * budget, None)
+    lp = backend.run(relaxed(model), objective, extra_rows, options, LP_SHARE * budget, None)
     if lp.status is not Status.OPTIMAL or lp.x is None:
         say(f"  LP relaxation not solved ({lp.words}); going straight to branch and bound")
         return start, None

@@ -1,0 +1,44 @@
+"""Fix a plan's whole-number decisions and solve the rest as an LP.
+
+With people placed, moves made and hires counted, what is left (who works on which skill,
+the shortfall, the cost-adjustment columns) is a linear programme that solves in seconds
+even where the whole model takes minutes.  Both the final polish of a solve and the rounding
+heuristic end here.
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import numpy as np
+
+from rebalance.backends import Backend, BackendOutcome, SolveOptions, Status
+from rebalance.model import Model
+
+__all__ = ["relaxed", "resplit"]
+
+
+def relaxed(model: Model) -> Model:
+    """The same model with every column continuous."""
+    return replace(model, is_integer=np.zeros(model.num_cols, bool))
+
+
+def resplit(backend: Backend, model: Model, plan: np.ndarray, objective: np.ndarray,
+            options: SolveOptions, time_limit: float) -> BackendOutcome | None:
+    """Hold every integer column at ``plan``'s value (rounded) and minimise ``objective``
+    over the continuous ones.
+
+    Returns the outcome with the integer columns exactly whole, or None when the LP is not
+    solved to optimality in ``time_limit`` (infeasible, or out of time).
+    """
+    integer = model.is_integer
+    whole = np.rint(plan[integer])
+    lower, upper = model.col_lower.copy(), model.col_upper.copy()
+    lower[integer] = upper[integer] = whole
+    lp = backend.run(relaxed(replace(model, col_lower=lower, col_upper=upper)), objective, [],
+                     replace(options, progress=None), time_limit, None)
+    if lp.status is not Status.OPTIMAL or lp.x is None:
+        return None
+    x = lp.x.copy()
+    x[integer] = whole  # the LP's values sit within its tolerance of these
+    return replace(lp, x=x, objective=float(objective @ x))

@@ -1,10 +1,11 @@
-"""LP-guided rounding with repair: whole detail counts for a large model without a search.
+"""LP-guided rounding with repair: whole hire and detail counts for a large model, and the
+neighbourhood of the LP point for a search near it.
 
 On the agency benchmark the details-alone MIP finds no plan better than hires alone in its
-time, while the LP of the same pass (hires held, detail counts continuous) solves in under a
-minute and says where people should go.  Rounding its detail counts down keeps every budget,
-away-share, one-detail and consecutive-detail row (their detail coefficients are all
-positive), but can break a seat row: a person who stays home takes a seat there.  The repair
+time, while the LP with hire and detail counts continuous says where people should go.
+Rounding those counts down keeps every budget, vacancy, hiring-rate, away-share, one-detail
+and consecutive-detail row (their coefficients are all positive), but can break a seat row:
+a person who stays home takes a seat there.  The repair
 walks the broken rows and moves one person at a time, preferring the counts the LP wanted
 most, never breaking another row.  The work split and shortfall are then solved again as an
 LP (every whole number held), which gives a plan of the whole model.
@@ -14,7 +15,7 @@ from __future__ import annotations
 
 import time
 from collections.abc import Callable
-from dataclasses import replace
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -22,7 +23,8 @@ from rebalance.backends import Backend, SolveOptions, Status
 from rebalance.model import ADAPTING_FAMILIES, Model
 from rebalance.split import relaxed, resplit
 
-__all__ = ["RowActivity", "details_by_rounding", "repair_rows", "round_up"]
+__all__ = ["Rounding", "RowActivity", "neighbourhood", "plan_by_rounding", "repair_rows",
+           "round_up"]
 
 TOLERANCE = 1e-6
 # Above this many detail columns the LP keeps only the DESTINATIONS most short destinations
@@ -33,16 +35,27 @@ DESTINATIONS = 10
 LP_SHARE = 0.9  # of the pass's time for the LP; the work-split LP after it takes seconds
 
 
-def details_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
-                        options: SolveOptions, deadline: float, start: np.ndarray,
-                        say: Callable[[str], None]) -> np.ndarray | None:
-    """A plan with the detail counts of the LP relaxation rounded and repaired.
+@dataclass(frozen=True)
+class Rounding:
+    """What LP-guided rounding leaves: a plan, and the LP it rounded for a search near it."""
 
-    Every integer column but the detail columns that name their home office is held where
-    ``start`` has it: homes, hires, and the per-destination details of relocatable people
-    (with those free the agency LP did not finish in 200 s, against 52 s held).  Returns the
-    plan, or None when the LP does not finish, the repair fails, or the plan is no better
-    than ``start``.  Not for a held shortfall (stage two): rounding down raises it.
+    plan: np.ndarray | None  # a whole plan better than the start, or None
+    lp_x: np.ndarray | None  # the LP point (None: the LP did not finish)
+    lower: np.ndarray  # the LP's column bounds: held columns fixed where the start has them
+    upper: np.ndarray
+
+
+def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
+                     options: SolveOptions, deadline: float, start: np.ndarray,
+                     say: Callable[[str], None]) -> Rounding:
+    """A plan with the hire and detail counts of an LP relaxation rounded and repaired.
+
+    Hires and the detail columns that name their home office are continuous in the LP;
+    every other integer column is held where ``start`` has it: homes and the per-destination
+    details of relocatable people (with those free the agency LP did not finish in 200 s,
+    against 52 s held).  The plan is None when the LP does not finish, the repair fails, or
+    the plan is no better than ``start``.  Not for a held shortfall (stage two): rounding
+    down raises it.
     """
     integer = model.is_integer
     held_at = np.rint(start)
@@ -52,35 +65,57 @@ def details_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
         free[block.start:block.stop] = block.keys["home"] >= 0
         if len(block) > PRUNE_ABOVE_DETAIL_COLUMNS:
             free[block.start:block.stop] &= _most_needed(model, start, DESTINATIONS)
+    if "hire" in model.blocks:
+        free[model.blocks["hire"].start:model.blocks["hire"].stop] = True
     free &= integer
-    if not free.any():
-        return None
     held = integer & ~free
     lower, upper = model.col_lower.copy(), model.col_upper.copy()
     lower[held] = upper[held] = held_at[held]
+    if not free.any():
+        return Rounding(None, None, lower, upper)
     budget = deadline - time.perf_counter()
     lp = backend.run(relaxed(replace(model, col_lower=lower, col_upper=upper)), objective,
                      [], replace(options, progress=None), LP_SHARE * budget, None)
     if lp.status is not Status.OPTIMAL or lp.x is None:
-        say(f"  details by rounding: LP not solved ({lp.words})")
-        return None
-    say(f"  details by rounding: LP {lp.objective:.6g} in {lp.seconds:.1f}s")
+        say(f"  rounding: LP not solved ({lp.words})")
+        return Rounding(None, None, lower, upper)
+    say(f"  rounding: LP {lp.objective:.6g} in {lp.seconds:.1f}s")
+    found = Rounding(None, lp.x, lower, upper)
     rounded = np.where(integer, held_at, lp.x)
     rounded[free] = np.floor(lp.x[free] + TOLERANCE)
     ceiling = np.where(free, np.minimum(np.ceil(lp.x - TOLERANCE), upper), rounded)
     rows = RowActivity(model, rounded, _rows_checked(model))
     if not repair_rows(rows, free, lp.x, lower, ceiling):
-        say("  details by rounding: a row could not be repaired")
-        return None
+        say("  rounding: a row could not be repaired")
+        return found
     round_up(rows, free, lp.x, ceiling)
     split = resplit(backend, model, rounded, objective, options,
                     max(deadline - time.perf_counter(), 1.0))
     if split is None or split.x is None:
-        say("  details by rounding: no work split")
-        return None
+        say("  rounding: no work split")
+        return found
     score = float(objective @ split.x)
-    say(f"  details by rounding: plan with {score:.6g}")
-    return split.x if score < float(objective @ start) - 1e-9 else None
+    say(f"  rounding: plan with {score:.6g}")
+    return replace(found, plan=split.x) if score < float(objective @ start) - 1e-9 else found
+
+
+def neighbourhood(x: np.ndarray, lower: np.ndarray, upper: np.ndarray, integer: np.ndarray,
+                  plan: np.ndarray | None) -> tuple[np.ndarray, np.ndarray]:
+    """Column bounds around an LP point ``x``: every integer column between the floor and
+    the ceiling of its LP value (within ``lower`` and ``upper``), widened to hold ``plan``.
+
+    A branch and bound inside these bounds (a rounding neighbourhood search) is a much
+    smaller MIP than the model; with ``plan`` inside, it starts from a plan and never ends
+    worse than it.
+    """
+    lower, upper = lower.copy(), upper.copy()
+    lower[integer] = np.maximum(lower[integer], np.floor(x[integer] + TOLERANCE))
+    upper[integer] = np.minimum(upper[integer], np.ceil(x[integer] - TOLERANCE))
+    if plan is not None:
+        known = np.rint(plan[integer])
+        lower[integer] = np.minimum(lower[integer], known)
+        upper[integer] = np.maximum(upper[integer], known)
+    return lower, upper
 
 
 def _most_needed(model: Model, plan: np.ndarray, keep: int) -> np.ndarray:

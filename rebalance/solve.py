@@ -24,7 +24,7 @@ from rebalance.backends import (
     relative_gap,
 )
 from rebalance.model import LIMIT_FAMILIES, Model
-from rebalance.rounding import details_by_rounding
+from rebalance.rounding import neighbourhood, plan_by_rounding
 from rebalance.split import relaxed, resplit
 
 __all__ = ["SolveOptions", "SolveResult", "StageResult", "Status", "solve", "solve_stage"]
@@ -169,15 +169,12 @@ BY_DECISION_SHARE = 0.6  # of a stage's time, at most, for the decision-by-decis
 # on the whole model: HiGHS's presolve of agency (6.8M nonzeros) ran 170 s past the limit
 # without one callback, while medium (0.8M) stopped on time (issue 3).
 WHOLE_SEARCH_MAX_NONZEROS = 3_000_000
-# The passes of first_plan_by_decision: what the progress lines call each, the column blocks
-# it sets free, and the share of the time left when it starts that it may use.  The hires
-# pass stops near 1% of its own bound within seconds up to agency, but on large spent 178 s
-# going from 1.28% to 0.09% and left the rounding LP too little.
-BY_DECISION_PASSES = (("hires", ("hire",), 0.25), ("details", ("detail",), 1.0))
-# After this pass, details by rounding (rebalance.rounding) gets ROUNDING_SHARE of the time
-# left: on agency it took the hires-only plan from 8,705 to 7,702 where the details MIP
-# found nothing better in 108 s.
-ROUNDING_AFTER = "hires"
+# first_plan_by_decision: the hires pass's share of the time left when it starts (it stops
+# near 1% of its own bound within seconds up to agency, but on large spent 178 s going from
+# 1.28% to 0.09% and left the rounding LP too little), and the rounding's share of the time
+# left after it (on agency it took the hires-only plan from 8,705 to 7,702 where the details
+# MIP found nothing better in 108 s).
+HIRES_SHARE = 0.25
 ROUNDING_SHARE = 0.8
 
 
@@ -314,17 +311,10 @@ def _first_plan_from_lp(backend: Backend, model: Model, objective: np.ndarray,
         say(f"  LP relaxation not solved ({lp.words}); going straight to branch and bound")
         return start, None
     say(f"  LP relaxation {lp.objective:.6g} in {lp.seconds:.1f}s")
-    integer = model.is_integer
-    lower = model.col_lower.copy()
-    upper = model.col_upper.copy()
-    lower[integer] = np.maximum(lower[integer], np.floor(lp.x[integer] + 1e-6))
-    upper[integer] = np.minimum(upper[integer], np.ceil(lp.x[integer] - 1e-6))
-    if start is not None:
-        # Widen the box to hold the previous plan too: never empty, and the search mixes
-        # what the LP wants with what is known to work (stage two needs it).
-        known = np.rint(start[integer])
-        lower[integer] = np.minimum(lower[integer], known)
-        upper[integer] = np.maximum(upper[integer], known)
+    # Widen the box to hold the previous plan too: never empty, and the search mixes what
+    # the LP wants with what is known to work (stage two needs it).
+    lower, upper = neighbourhood(lp.x, model.col_lower, model.col_upper, model.is_integer,
+                                 start)
     left = deadline - time.perf_counter()
     narrowed = replace(model, col_lower=lower, col_upper=upper)
     rens = None if left < 2.0 else backend.run(
@@ -340,61 +330,73 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
                            extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
                            deadline: float, say: Callable[[str], None],
                            start: np.ndarray | None = None) -> np.ndarray | None:
-    """A plan for a large model: set one kind of decision free at a time (hires, then
-    details), every other integer column held where the plan so far has it.
+    """A plan for a large model, one kind of decision at a time, every other integer column
+    held where the plan so far has it.
 
-    Before the first pass every integer column is held where ``start`` has it, or without a
-    start at its lower bound (no moves, no hires: always a plan unless seats already
-    conflict).  After the hires pass (outside stage two) the detail counts of the details
-    pass's LP are rounded and repaired (:func:`~rebalance.rounding.details_by_rounding`),
-    which the details pass then starts from.  Each pass is a MIP over a few
-    thousand integer columns that presolve shrinks hard; on the medium benchmark instance the
-    hires pass takes seconds and the details pass brings the shortfall within about 15% of
-    the LP bound, where branch and bound on the whole model found no useful plan in the
-    same time.  Returns the best plan seen (``start`` if no pass beat it), or None.
+    First hires alone, from ``start`` or, without one, from every integer column at its
+    lower bound (no moves, no hires: always a plan unless seats already conflict).  Then,
+    outside stage two, the LP with hire and detail counts continuous is rounded and repaired
+    (:func:`~rebalance.rounding.plan_by_rounding`), and a branch and bound near that LP
+    point (each count between its floor and ceiling) looks for better whole numbers; where
+    the LP is not solved, or under a held shortfall, details alone instead.  Each pass is a
+    MIP that presolve shrinks hard, and any plan of a pass is a plan of the whole model,
+    since only bounds were narrowed.  Returns the best plan seen (``start`` if no pass beat
+    it), or None.
     """
     integer = model.is_integer
     held_at = model.col_lower.copy() if start is None else np.rint(start)
     best = start
     best_objective = math.inf if start is None else float(objective @ start)
-    passes = [(label, names, share) for label, names, share in BY_DECISION_PASSES
-              if any(name in model.blocks for name in names)]
-    for label, names, share in passes:
+
+    def held_but(names: tuple[str, ...]) -> tuple[np.ndarray, np.ndarray] | None:
+        """Column bounds with every integer column outside blocks ``names`` held."""
         free = np.zeros(model.num_cols, bool)
         for name in names:
             if name in model.blocks:
                 free[model.blocks[name].start:model.blocks[name].stop] = True
-        free &= integer
-        left = deadline - time.perf_counter()
-        if not free.any() or left < 1.0:
-            continue
         held = integer & ~free
+        if not (integer & free).any():
+            return None
         lower, upper = model.col_lower.copy(), model.col_upper.copy()
         lower[held] = upper[held] = held_at[held]
+        return lower, upper
+
+    def run_pass(label: str, bounds: tuple[np.ndarray, np.ndarray] | None,
+                 share: float) -> None:
+        nonlocal best, best_objective, held_at
+        left = deadline - time.perf_counter()
+        if bounds is None or left < 1.0:
+            return
         # The pass's bound is for its restricted model only; say so in its progress lines.
         restricted_say = None if options.progress is None else (
-            lambda text, label=label: say(text.replace("searching:", f"{label} alone:")))
-        out = backend.run(replace(model, col_lower=lower, col_upper=upper), objective,
-                          extra_rows, replace(options, progress=restricted_say),
+            lambda text: say(text.replace("searching:", f"{label}:")))
+        out = backend.run(replace(model, col_lower=bounds[0], col_upper=bounds[1]),
+                          objective, extra_rows, replace(options, progress=restricted_say),
                           share * left, best)
         if out.x is None or out.objective is None:
-            say(f"  {label} alone: no plan ({out.words})")
-            continue
-        say(f"  {label} alone: plan with {out.objective:.6g} "
-            f"in {out.seconds:.1f}s")
+            say(f"  {label}: no plan ({out.words})")
+            return
+        say(f"  {label}: plan with {out.objective:.6g} in {out.seconds:.1f}s")
         if out.objective < best_objective - 1e-9:
-            best, best_objective = out.x, out.objective
-            held_at = np.rint(out.x)
-        left = deadline - time.perf_counter()
-        if label == ROUNDING_AFTER and best is not None and not extra_rows and left >= 1.0:
-            # Rounding down raises the shortfall, so it has no place under a held shortfall
-            # (stage two): only for stage one and the weighted objective.
-            rounded = details_by_rounding(backend, model, objective, options,
-                                          time.perf_counter() + ROUNDING_SHARE * left, best,
-                                          say)
-            if rounded is not None:
-                best, best_objective = rounded, float(objective @ rounded)
-                held_at = np.rint(rounded)
+            best, best_objective, held_at = out.x, out.objective, np.rint(out.x)
+
+    run_pass("hires alone", held_but(("hire",)), HIRES_SHARE)
+    near = None
+    left = deadline - time.perf_counter()
+    if best is not None and not extra_rows and left >= 1.0:
+        # Rounding down raises the shortfall, so it has no place under a held shortfall
+        # (stage two): only for stage one and the weighted objective.
+        rounding = plan_by_rounding(backend, model, objective, options,
+                                    time.perf_counter() + ROUNDING_SHARE * left, best, say)
+        if rounding.plan is not None:
+            best, best_objective = rounding.plan, float(objective @ rounding.plan)
+            held_at = np.rint(rounding.plan)
+        if rounding.lp_x is not None:
+            near = neighbourhood(rounding.lp_x, rounding.lower, rounding.upper, integer, best)
+    if near is not None:
+        run_pass("near the LP", near, 1.0)
+    else:
+        run_pass("details alone", held_but(("detail",)), 1.0)
     return best
 
 

@@ -211,13 +211,13 @@ def test_rounding_repairs_the_rows_a_floor_breaks_without_breaking_others():
                            np.ceil(lp))
 
 
-def test_details_by_rounding_gives_a_whole_plan_of_the_model_better_than_its_start():
+def test_rounding_gives_a_whole_plan_of_the_model_better_than_its_start():
     # On the demo (a surge that details can meet), from the hires-only plan.
     import numpy as np
 
     from rebalance.backends import HighsBackend, SolveOptions
     from rebalance.model import build_model
-    from rebalance.rounding import details_by_rounding
+    from rebalance.rounding import neighbourhood, plan_by_rounding
 
     model = build_model(read_instance(ROOT / "instances" / "demo"))
     backend = HighsBackend()
@@ -228,9 +228,10 @@ def test_details_by_rounding_gives_a_whole_plan_of_the_model_better_than_its_sta
     start = backend.run(replace(model, col_upper=hires_only), model.shortfall_weight, [],
                         options, 60, None)
     assert start.x is not None
-    x = details_by_rounding(backend, model, model.shortfall_weight, options,
-                            float("inf"), start.x, lambda _: None)
-    assert x is not None
+    rounding = plan_by_rounding(backend, model, model.shortfall_weight, options,
+                                float("inf"), start.x, lambda _: None)
+    x = rounding.plan
+    assert x is not None and rounding.lp_x is not None
     assert float(model.shortfall_weight @ x) < start.objective - 1.0
     activity = model.matrix @ x
     assert np.all(activity >= model.row_lower - 1e-6)
@@ -238,6 +239,11 @@ def test_details_by_rounding_gives_a_whole_plan_of_the_model_better_than_its_sta
     assert np.all(x >= model.col_lower - 1e-9) and np.all(x <= model.col_upper + 1e-9)
     assert np.array_equal(x[model.is_integer], np.rint(x[model.is_integer]))
     assert x[detail.start:detail.stop].sum() > 0
+    # The neighbourhood of the LP point holds the plan, and the LP point lies in it.
+    lower, upper = neighbourhood(rounding.lp_x, rounding.lower, rounding.upper,
+                                 model.is_integer, x)
+    assert np.all(lower <= x + 1e-9) and np.all(x <= upper + 1e-9)
+    assert np.all(lower <= rounding.lp_x + 1e-6) and np.all(rounding.lp_x <= upper + 1e-6)
 
 
 def test_pruned_rounding_keeps_the_most_short_destinations_and_still_gives_a_plan(monkeypatch):
@@ -263,8 +269,8 @@ def test_pruned_rounding_keeps_the_most_short_destinations_and_still_gives_a_pla
     assert kept.sum() == len(groups) > 0  # at most one destination per person and period
     monkeypatch.setattr(rounding, "PRUNE_ABOVE_DETAIL_COLUMNS", 0)
     monkeypatch.setattr(rounding, "DESTINATIONS", 1)
-    x = rounding.details_by_rounding(backend, model, model.shortfall_weight, options,
-                                     float("inf"), start.x, lambda _: None)
+    x = rounding.plan_by_rounding(backend, model, model.shortfall_weight, options,
+                                  float("inf"), start.x, lambda _: None).plan
     assert x is not None and float(model.shortfall_weight @ x) < start.objective
     used = np.flatnonzero(x[detail.start:detail.stop] > 0.5)
     assert kept[used].all()

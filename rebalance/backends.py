@@ -76,6 +76,8 @@ class BackendOutcome:
     bound: float | None
     words: str
     seconds: float
+    # An LP's row prices (duals), model rows then extra rows, where the solver gives them.
+    row_dual: np.ndarray | None = None
 
 
 class Backend(Protocol):
@@ -302,7 +304,7 @@ class HighsBackend:
         import highspy
 
         started = time.perf_counter()
-        matrix, row_lo, row_hi = _stack(model, extra_rows)
+        matrix, row_lo, row_hi, row_scale = _stack(model, extra_rows)
         csc = matrix.tocsc()
         lp = highspy.HighsLp()
         lp.num_col_ = model.num_cols
@@ -354,6 +356,10 @@ class HighsBackend:
         has_solution = info.primal_solution_status == 2  # kSolutionStatusFeasible
         x = np.asarray(h.getSolution().col_value) if has_solution else None
         obj = float(info.objective_function_value) if has_solution else None
+        # Any prices give a valid bound (rebalance.bounds), so the LP's are kept even where
+        # HiGHS does not vouch for their feasibility.
+        row_dual = (np.asarray(h.getSolution().row_dual) * row_scale
+                    if not model.num_integer and info.dual_solution_status != 0 else None)
         bound = float(info.mip_dual_bound) if model.num_integer else obj
         MS = highspy.HighsModelStatus
         if status == MS.kOptimal:
@@ -381,7 +387,8 @@ class HighsBackend:
                 again = self._run_here(model, objective, extra_rows, options, max(left, 1.0),
                                        None)
                 return replace(again, seconds=time.perf_counter() - started)
-        return BackendOutcome(mapped, x, obj, bound, words, time.perf_counter() - started)
+        return BackendOutcome(mapped, x, obj, bound, words, time.perf_counter() - started,
+                              row_dual)
 
 
 # --------------------------------------------------------------------------------------------
@@ -509,7 +516,7 @@ class CbcBackend:
         import pulp
 
         started = time.perf_counter()
-        matrix, row_lo, row_hi = _stack(model, extra_rows)
+        matrix, row_lo, row_hi, _ = _stack(model, extra_rows)
         prob = pulp.LpProblem("rebalance", pulp.LpMinimize)
         # Names from integer indices: PuLP merges names that differ only in punctuation.
         variables = [
@@ -623,8 +630,9 @@ BACKENDS: dict[str, Callable[[], Backend]] = {"highs": HighsBackend, "cbc": CbcB
 
 
 def _stack(model: Model, extra_rows: list[tuple[np.ndarray, float]]) -> tuple[
-        sp.csr_matrix, np.ndarray, np.ndarray]:
-    """The model's rows plus ``extra_rows``, each row scaled to a largest coefficient near 1.
+        sp.csr_matrix, np.ndarray, np.ndarray, np.ndarray]:
+    """The model's rows plus ``extra_rows``, each row scaled to a largest coefficient near 1,
+    and the factor of each row (a price of a scaled row times it prices the row itself).
 
     Money rows (budgets, cost adjustments) carry coefficients up to 1e5 beside head and FTE
     rows near 1; left so, HiGHS's interior point method stalls on the demo-sized models.
@@ -644,8 +652,8 @@ def _stack(model: Model, extra_rows: list[tuple[np.ndarray, float]]) -> tuple[
     big = largest > 2.0
     factor[big] = np.exp2(-np.round(np.log2(largest[big])))
     if not big.any():
-        return matrix, row_lo, row_hi
-    return (sp.diags(factor, format="csr") @ matrix, row_lo * factor, row_hi * factor)
+        return matrix, row_lo, row_hi, factor
+    return (sp.diags(factor, format="csr") @ matrix, row_lo * factor, row_hi * factor, factor)
 
 
 # --------------------------------------------------------------------------------------------

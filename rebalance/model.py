@@ -36,6 +36,7 @@ INF = math.inf
 STRUCTURE_FAMILIES = (
     "capacity", "coverage", "one_detail", "detail_from_home", "one_reassignment", "home_stays",
     "home_in_force", "one_place", "detail_not_home", "detail_cost_adjustment",
+    "detail_cost_floor",
 )
 # Rows a work split and shortfall always satisfy once people and hires are placed (no work,
 # everything short): a rounding heuristic need not check them.

@@ -107,7 +107,8 @@ class Relocation:
         return const, hcols, hvals
 
     def add_rows(self, b: _Builder, f: _Frame, cols: _Columns) -> None:
-        """Rows home_in_force, one_place, detail_not_home and detail_cost_adjustment."""
+        """Rows home_in_force, one_place, detail_not_home, detail_cost_adjustment and
+        detail_cost_floor."""
         offices = f.offices
         # home_in_force: at home only at the home in force, x[u,a,t] <= N(u,a,t)
         b.begin("home_in_force")
@@ -146,3 +147,16 @@ class Relocation:
             b.row([c for c, _ in terms] + [col] + g_cols,
                   [v for _, v in terms] + [-1.0] + [big] * len(g_cols), -math.inf, big, label)
             b.row([col, *g_cols], [-1.0] + [-big] * len(g_cols), -math.inf, 0.0, label)
+        # detail_cost_floor: e >= sum_b min(c(L,b) - c(home0,b), 0) d[b].  Valid in every
+        # plan (at L, e pays the change itself; elsewhere e >= 0), and it keeps the LP from
+        # paying itself M/2 with half a new home and no detail at all, which left the cost
+        # stage's LP bound far below 0 (medium: -5.9e7) and row prices useless (bounds.py).
+        b.begin("detail_cost_floor")
+        for j in range(len(self.adjust)):
+            u, loc, t = int(A_["unit"][j]), int(A_["location"][j]), int(A_["period"][j])
+            terms = [(self.det.start + i, float(v))
+                     for i, v in zip(self.by_destination[(u, t)], self.adj_changes[j],
+                                     strict=True) if v < 0]
+            b.row([self.adjust.start + j] + [c for c, _ in terms],
+                  [-1.0] + [v for _, v in terms], -math.inf, 0.0,
+                  f"{f.unit_label(u)} from {self.locations[loc]} in {f.period(t)}")

@@ -41,6 +41,7 @@ class Rounding:
 
     plan: np.ndarray | None  # a whole plan better than the start, or None
     lp_x: np.ndarray | None  # the LP point (None: the LP did not finish)
+    lp_row_dual: np.ndarray | None  # its row prices, for a bound (rebalance.bounds)
     lower: np.ndarray  # the LP's column bounds: held columns fixed where the start has them
     upper: np.ndarray
 
@@ -72,15 +73,15 @@ def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
     lower, upper = model.col_lower.copy(), model.col_upper.copy()
     lower[held] = upper[held] = held_at[held]
     if not free.any():
-        return Rounding(None, None, lower, upper)
+        return Rounding(None, None, None, lower, upper)
     budget = deadline - time.perf_counter()
     lp = backend.run(relaxed(replace(model, col_lower=lower, col_upper=upper)), objective,
                      [], replace(options, progress=None), LP_SHARE * budget, None)
     if lp.status is not Status.OPTIMAL or lp.x is None:
         say(f"  rounding: LP not solved ({lp.words})")
-        return Rounding(None, None, lower, upper)
+        return Rounding(None, None, None, lower, upper)
     say(f"  rounding: LP {lp.objective:.6g} in {lp.seconds:.1f}s")
-    found = Rounding(None, lp.x, lower, upper)
+    found = Rounding(None, lp.x, lp.row_dual, lower, upper)
     rounded = np.where(integer, held_at, lp.x)
     rounded[free] = np.floor(lp.x[free] + TOLERANCE)
     ceiling = np.where(free, np.minimum(np.ceil(lp.x - TOLERANCE), upper), rounded)

@@ -23,6 +23,7 @@ from rebalance.backends import (
     Status,
     relative_gap,
 )
+from rebalance.bounds import priced_bound
 from rebalance.model import LIMIT_FAMILIES, Model
 from rebalance.rounding import neighbourhood, plan_by_rounding
 from rebalance.split import relaxed, resplit
@@ -176,6 +177,9 @@ WHOLE_SEARCH_MAX_NONZEROS = 3_000_000
 # MIP found nothing better in 108 s).
 HIRES_SHARE = 0.25
 ROUNDING_SHARE = 0.8
+# And, after the rounding, the share of the time left for the bound from its row prices (an
+# LP that falls apart by person: medium 10 s).
+PRICED_BOUND_SHARE = 0.5
 
 
 def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
@@ -218,15 +222,17 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                     # cheaper while holding the shortfall.
                     share = (1.0 if passes_only else BOUND_FIRST_PLAN_SHARE if bound_after
                              else BY_DECISION_SHARE)
-                    start = first_plan_by_decision(backend, model, objective, extra_rows,
+                    first = first_plan_by_decision(backend, model, objective, extra_rows,
                                                    options, t0 + share * budget, say, start)
+                    start, lp_bound = first.x, first.bound
             else:
                 start, lp_bound = _first_plan_from_lp(backend, model, objective, extra_rows,
                                                       options, deadline, start, say)
         left = deadline - time.perf_counter()
         if bound_after and start is not None:
-            lp_bound = _lp_bound(backend, model, objective, extra_rows, options, left, say,
-                                 "after the passes, for the bound")
+            lp_bound = _higher(lp_bound, _lp_bound(backend, model, objective, extra_rows,
+                                                   options, left, say,
+                                                   "after the passes, for the bound"))
             left = deadline - time.perf_counter()
         if passes_only and start is not None:
             say(f"  no search of the whole model: {model.matrix.nnz:,} nonzeros, more than "
@@ -238,19 +244,24 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
             # Easy large models still get proven here; the LP bound above joins its bound.
             out = backend.run(model, objective, extra_rows, options, left, start)
         if bound_on_side is not None:
-            lp_bound = bound_on_side.result()
+            lp_bound = _higher(lp_bound, bound_on_side.result())
     if out.x is None and start is not None and out.status in (Status.NO_PLAN_IN_TIME,
                                                              Status.UNKNOWN):
         # Branch and bound ran out of time before taking up the start: keep the start.
         obj = float(objective @ start)
         out = BackendOutcome(Status.FEASIBLE_WITH_GAP, start, obj, lp_bound, out.words,
                              out.seconds)
-    elif out.bound is not None and lp_bound is not None and out.status.has_plan:
-        out = replace(out, bound=max(out.bound, lp_bound) if out.status is not Status.OPTIMAL
-                      else out.bound)
+    elif out.status.has_plan and out.status is not Status.OPTIMAL:
+        # A run killed at the wall clock hands back its plan without a bound.
+        out = replace(out, bound=_higher(out.bound, lp_bound))
     out = _with_floor(out, options.relative_gap)
     seconds = time.perf_counter() - t0
     return replace(out, seconds=seconds)
+
+
+def _higher(a: float | None, b: float | None) -> float | None:
+    """The higher of two bounds, either of which may be missing."""
+    return b if a is None else a if b is None else max(a, b)
 
 
 def _is_large(model: Model, backend: Backend) -> bool:
@@ -326,10 +337,18 @@ def _first_plan_from_lp(backend: Backend, model: Model, objective: np.ndarray,
     return start, lp.objective
 
 
+@dataclass(frozen=True)
+class FirstPlan:
+    """What :func:`first_plan_by_decision` found: a plan, and a bound where one came cheaply."""
+
+    x: np.ndarray | None
+    bound: float | None = None
+
+
 def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray,
                            extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
                            deadline: float, say: Callable[[str], None],
-                           start: np.ndarray | None = None) -> np.ndarray | None:
+                           start: np.ndarray | None = None) -> FirstPlan:
     """A plan for a large model, one kind of decision at a time, every other integer column
     held where the plan so far has it.
 
@@ -341,7 +360,8 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
     the LP is not solved, or under a held shortfall, details alone instead.  Each pass is a
     MIP that presolve shrinks hard, and any plan of a pass is a plan of the whole model,
     since only bounds were narrowed.  Returns the best plan seen (``start`` if no pass beat
-    it), or None.
+    it, None if there is none) and, from the rounding LP's row prices, a bound for the whole
+    model (:func:`~rebalance.bounds.priced_bound`).
     """
     integer = model.is_integer
     held_at = model.col_lower.copy() if start is None else np.rint(start)
@@ -381,7 +401,7 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
             best, best_objective, held_at = out.x, out.objective, np.rint(out.x)
 
     run_pass("hires alone", held_but(("hire",)), HIRES_SHARE)
-    near = None
+    near, bound = None, None
     left = deadline - time.perf_counter()
     if best is not None and not extra_rows and left >= 1.0:
         # Rounding down raises the shortfall, so it has no place under a held shortfall
@@ -393,11 +413,19 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
             held_at = np.rint(rounding.plan)
         if rounding.lp_x is not None:
             near = neighbourhood(rounding.lp_x, rounding.lower, rounding.upper, integer, best)
+        left = deadline - time.perf_counter()
+        if rounding.lp_row_dual is not None and left >= 1.0:
+            began = time.perf_counter()
+            bound = priced_bound(backend, model, objective, rounding.lp_row_dual, options,
+                                 PRICED_BOUND_SHARE * left)
+            if bound is not None:
+                say(f"  bound from the rounding LP's row prices: {bound:.6g} in "
+                    f"{time.perf_counter() - began:.1f}s")
     if near is not None:
         run_pass("near the LP", near, 1.0)
     else:
         run_pass("details alone", held_but(("detail",)), 1.0)
-    return best
+    return FirstPlan(best, bound)
 
 
 def _stage(name: str, out: BackendOutcome) -> StageResult:

@@ -136,8 +136,9 @@ def test_first_plan_by_decision_is_a_plan_of_the_whole_model():
     from rebalance.solve import first_plan_by_decision
 
     model = build_model(read_instance(DATA / "tiny"))
-    x = first_plan_by_decision(HighsBackend(), model, model.shortfall_weight, [],
-                               SolveOptions(), float("inf"), lambda _: None)
+    first = first_plan_by_decision(HighsBackend(), model, model.shortfall_weight, [],
+                                   SolveOptions(), float("inf"), lambda _: None)
+    x = first.x
     assert x is not None
     activity = model.matrix @ x
     assert np.all(activity >= model.row_lower - 1e-6)
@@ -146,7 +147,7 @@ def test_first_plan_by_decision_is_a_plan_of_the_whole_model():
     assert np.allclose(x[model.is_integer], np.rint(x[model.is_integer]), atol=1e-6)
     nothing_done = first_plan_by_decision(
         HighsBackend(), model, model.shortfall_weight, [], SolveOptions(), 0.0, lambda _: None)
-    assert nothing_done is None
+    assert nothing_done.x is None and nothing_done.bound is None
 
 
 @pytest.mark.parametrize(("threads", "said_of_the_lp"), [
@@ -181,6 +182,11 @@ def test_a_model_too_large_to_stop_on_time_keeps_the_first_plan(monkeypatch):
     assert any("no search of the whole model" in line for line in said)
     assert result.status is Status.FEASIBLE_WITH_GAP
     assert all(stage.bound is not None and stage.bound >= 0 for stage in result.solve.stages)
+    # Stage one's bound comes from the rounding LP's row prices, never above the optimum.
+    assert any("row prices" in line for line in said)
+    optimum = solve_verified(tiny).plan.weighted_shortfall
+    stage1 = result.solve.stages[0]
+    assert stage1.bound is not None and stage1.bound <= optimum + 1e-6
 
 
 def test_rounding_repairs_the_rows_a_floor_breaks_without_breaking_others():

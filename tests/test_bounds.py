@@ -1,0 +1,110 @@
+"""Bounds from row prices, checked against scipy's HiGHS (scipy.optimize.linprog).
+
+The reference LP optimum comes from scipy's own HiGHS build through ``linprog``, which reads
+the model's rows as plain inequalities: no row scaling, no presolve choices of ours.  Weak
+and strong LP duality are textbook facts (any prices bound the optimum from below; the
+optimum's own prices reach it).
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import numpy as np
+import pytest
+import scipy.sparse as sp
+from randomized import random_instance
+from scipy.optimize import linprog
+
+from rebalance.backends import HighsBackend, SolveOptions, Status
+from rebalance.bounds import dual_bound, priced_bound
+from rebalance.instance import Instance
+from rebalance.model import Model, build_model
+from rebalance.split import relaxed
+
+
+def _movers(seed: int) -> Instance:
+    """A random instance whose people may all be detailed and relocated."""
+    base = random_instance(seed, people=4, periods=4, offices=4, skills=2)
+    return base.with_changes(staff=tuple(replace(p, can_relocate=True, can_detail=True)
+                                         for p in base.staff))
+
+
+def _scipy_lp_optimum(model: Model, objective: np.ndarray) -> float:
+    """The LP relaxation's optimum by scipy's linprog (HiGHS), rows as A x <= b."""
+    upper, lower = np.isfinite(model.row_upper), np.isfinite(model.row_lower)
+    a_ub = sp.vstack([model.matrix[upper], -model.matrix[lower]], format="csr")
+    b_ub = np.concatenate([model.row_upper[upper], -model.row_lower[lower]])
+    res = linprog(objective, A_ub=a_ub, b_ub=b_ub,
+                  bounds=list(zip(model.col_lower, model.col_upper, strict=True)),
+                  method="highs")
+    assert res.status == 0, res.message
+    return float(res.fun)
+
+
+def _model_and_objectives(seed: int) -> tuple[Model, list[np.ndarray]]:
+    # Per-destination details: the formulation with cost-adjustment columns and big-M rows,
+    # and money rows with large coefficients (the backend scales rows; prices must not be).
+    model = build_model(_movers(seed), pair_details=False)
+    assert "detail_cost_adjustment" in model.blocks
+    return model, [model.shortfall_weight, model.cost + 1e4 * model.shortfall_weight]
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_the_lp_optimums_prices_give_its_value_and_any_prices_a_lower_bound(seed):
+    model, objectives = _model_and_objectives(seed)
+    rng = np.random.default_rng(seed)
+    for objective in objectives:
+        reference = _scipy_lp_optimum(model, objective)
+        lp = HighsBackend().run(relaxed(model), objective, [], SolveOptions(), 60, None)
+        assert lp.status is Status.OPTIMAL and lp.row_dual is not None
+        scale = 1e-6 * (1.0 + abs(reference))
+        assert dual_bound(model, objective, lp.row_dual) == pytest.approx(reference, abs=scale)
+        for _ in range(5):
+            prices = lp.row_dual + rng.normal(0.0, 1.0, model.num_rows)
+            assert dual_bound(model, objective, prices) <= reference + scale
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_priced_bound_is_a_bound_and_exact_from_the_optimums_prices(seed):
+    # Prices from an LP with every home and relocatable detail held at zero (as the
+    # rounding heuristic's LP holds them) must still bound the whole LP from below; prices
+    # of the whole LP's optimum must give back its value (strong duality).
+    model, objectives = _model_and_objectives(seed)
+    backend = HighsBackend()
+    held = model.col_upper.copy()
+    for name in ("home", "detail_cost_adjustment"):
+        held[model.blocks[name].start:model.blocks[name].stop] = 0.0
+    detail = model.blocks["detail"]
+    held[detail.start:detail.stop][detail.keys["home"] < 0] = 0.0
+    for objective in objectives:
+        reference = _scipy_lp_optimum(model, objective)
+        scale = 1e-6 * (1.0 + abs(reference))
+        restricted = backend.run(relaxed(replace(model, col_upper=held)), objective, [],
+                                 SolveOptions(), 60, None)
+        assert restricted.row_dual is not None
+        bound = priced_bound(backend, model, objective, restricted.row_dual, SolveOptions(), 60)
+        assert bound is not None and bound <= reference + scale
+        whole = backend.run(relaxed(model), objective, [], SolveOptions(), 60, None)
+        assert whole.row_dual is not None
+        exact = priced_bound(backend, model, objective, whole.row_dual, SolveOptions(), 60)
+        assert exact == pytest.approx(reference, abs=1e-5 * (1.0 + abs(reference)))
+
+
+def test_the_first_plan_of_a_large_model_brings_a_bound_near_the_lp():
+    # On the demo (a surge, budgets binding) the passes' bound from the rounding LP's prices
+    # must lie below the LP optimum (scipy) and within a tenth of it: a bound that means
+    # something, not just a number below the plan.
+    from conftest import ROOT
+
+    from rebalance import read_instance
+    from rebalance.solve import first_plan_by_decision
+
+    model = build_model(read_instance(ROOT / "instances" / "demo"))
+    reference = _scipy_lp_optimum(model, model.shortfall_weight)
+    first = first_plan_by_decision(HighsBackend(), model, model.shortfall_weight, [],
+                                   SolveOptions(relative_gap=0.01), float("inf"),
+                                   lambda _: None)
+    assert first.x is not None and first.bound is not None
+    assert 0.9 * reference <= first.bound <= reference + 1e-6 * reference
+    assert first.bound <= float(model.shortfall_weight @ first.x)

@@ -150,11 +150,10 @@ def polish(backend: Backend, model: Model, out: BackendOutcome, options: SolveOp
 
 
 STAGE1_SHARE = 0.7   # of the whole time limit, at most, for the shortfall stage
-# Large models: stage one's plan and its LP bound need the time (see bound_after in
-# solve_stage; the medium LP alone takes 61-67 s of a 120 s run).  The price is stage two's:
-# on medium 36 s of it cut the cost 3.5% (7.10e7 -> 6.85e7), 11 s leave it as it is.
+# Large models: stage one's plan and its bound need the time (on medium the search near the
+# LP keeps finding better plans for 50 s).  The price is stage two's: on medium 36 s of it
+# cut the cost 3.5% (7.10e7 -> 6.85e7), 11 s leave it as it is.
 LARGE_STAGE1_SHARE = 0.9
-BOUND_FIRST_PLAN_SHARE = 0.35  # of stage one, for the passes, when the LP bound follows
 MIN_SEARCH_SECONDS = 1.0
 POLISH_SECONDS = 60.0  # at most, for the final work split; never past the limit
 MIN_POLISH_SECONDS = 0.5
@@ -165,7 +164,10 @@ MIN_HEURISTIC_SECONDS = 5.0  # below this a stage goes straight to branch and bo
 # the LP relaxation alone outlasts a stage's share there (medium, 104k columns: 62 s with
 # interior point, over 120 s with simplex), while hires alone solve in seconds (issue 3).
 LARGE_MODEL_COLUMNS = 30_000
-BY_DECISION_SHARE = 0.6  # of a stage's time, at most, for the decision-by-decision passes
+# Of a stage's time, at most, for the decision-by-decision passes; branch and bound on the
+# whole model gets the rest (medium: no better plan, its root LP unfinished; an easy model
+# is proven there, as the passes end early when their restricted models are solved).
+BY_DECISION_SHARE = 0.8
 # Above this many nonzeros a large model with a plan already in hand gets no branch and bound
 # on the whole model: HiGHS's presolve of agency (6.8M nonzeros) ran 170 s past the limit
 # without one callback, while medium (0.8M) stopped on time (issue 3).
@@ -202,10 +204,9 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
     # Above this size branch and bound on the whole model gets nowhere in a stage's time
     # (HiGHS's presolve of agency alone outlasted it): the passes get all of it instead.
     passes_only = large and model.matrix.nnz > WHOLE_SEARCH_MAX_NONZEROS
-    # With one thread and no plan yet, the LP relaxation runs after the passes, before
-    # branch and bound on the whole model gets what is left: on medium that search improved
-    # nothing in 30 s of stage one, while the LP (63-67 s) turns a 100% gap into one that
-    # means something.
+    # With one thread the LP relaxation (medium: 81 s) runs after the passes only if they
+    # bring no bound from the rounding LP's prices (medium: 1,492 in 2 s, against the LP's
+    # 1,547): the search near the LP makes better use of the time.
     bound_after = (large and not passes_only and start is None and options.threads < 2
                    and model.num_integer > 0 and options.heuristics)
     with ThreadPoolExecutor(max_workers=1) as side:
@@ -220,8 +221,7 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                     # Stage two of a model that branch and bound can still search starts
                     # from stage one's plan there instead: on medium the passes found nothing
                     # cheaper while holding the shortfall.
-                    share = (1.0 if passes_only else BOUND_FIRST_PLAN_SHARE if bound_after
-                             else BY_DECISION_SHARE)
+                    share = 1.0 if passes_only else BY_DECISION_SHARE
                     first = first_plan_by_decision(backend, model, objective, extra_rows,
                                                    options, t0 + share * budget, say, start)
                     start, lp_bound = first.x, first.bound
@@ -229,7 +229,7 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                 start, lp_bound = _first_plan_from_lp(backend, model, objective, extra_rows,
                                                       options, deadline, start, say)
         left = deadline - time.perf_counter()
-        if bound_after and start is not None:
+        if bound_after and start is not None and lp_bound is None:
             lp_bound = _higher(lp_bound, _lp_bound(backend, model, objective, extra_rows,
                                                    options, left, say,
                                                    "after the passes, for the bound"))

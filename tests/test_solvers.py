@@ -151,11 +151,12 @@ def test_first_plan_by_decision_is_a_plan_of_the_whole_model():
 
 
 @pytest.mark.parametrize(("threads", "said_of_the_lp"), [
-    (2, "beside the search"), (1, "LP relaxation (after the passes, for the bound)")])
+    (2, "beside the search"), (1, "row prices")])
 def test_a_large_model_gets_its_lp_bound(monkeypatch, threads, said_of_the_lp):
     # On a large model the LP relaxation runs on a second thread while the first plan is
-    # sought, or with one thread after the passes and before the search of the whole model
-    # gets the rest; forced here on tiny, it must not change the optimum or its proof.
+    # sought; with one thread the passes bring a bound from the rounding LP's row prices
+    # before the search of the whole model gets the rest.  Forced here on tiny, neither may
+    # change the optimum or its proof.
     solve_module = importlib.import_module("rebalance.solve")
     tiny = read_instance(DATA / "tiny")
     usual = solve_verified(tiny)
@@ -165,6 +166,23 @@ def test_a_large_model_gets_its_lp_bound(monkeypatch, threads, said_of_the_lp):
     assert any(said_of_the_lp in line for line in said)
     assert forced.status is Status.OPTIMAL
     assert forced.plan.total_cost == pytest.approx(usual.plan.total_cost, rel=1e-9)
+    assert forced.plan.weighted_shortfall == pytest.approx(usual.plan.weighted_shortfall,
+                                                           abs=1e-9)
+
+
+def test_without_a_bound_from_prices_the_lp_relaxation_runs_after_the_passes(monkeypatch):
+    # One thread, and the rounding brings no bound (forced here): the LP relaxation runs
+    # after the passes for the bound instead, and the optimum and its proof stand.
+    solve_module = importlib.import_module("rebalance.solve")
+    tiny = read_instance(DATA / "tiny")
+    usual = solve_verified(tiny)
+    said: list[str] = []
+    monkeypatch.setattr(solve_module, "LARGE_MODEL_COLUMNS", 0)
+    monkeypatch.setattr(solve_module, "priced_bound", lambda *args: None)
+    forced = solve_verified(tiny, threads=1, progress=said.append)
+    assert any("LP relaxation (after the passes, for the bound)" in line for line in said)
+    assert not any("row prices" in line for line in said)
+    assert forced.status is Status.OPTIMAL
     assert forced.plan.weighted_shortfall == pytest.approx(usual.plan.weighted_shortfall,
                                                            abs=1e-9)
 

@@ -19,8 +19,8 @@ takes minutes (medium: 7 s against 60 s; bound 1,429 against 1,529).
 
 from __future__ import annotations
 
+import itertools
 import time
-from collections.abc import Iterator
 from dataclasses import replace
 
 import numpy as np
@@ -28,13 +28,14 @@ import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components
 
 from rebalance.backends import Backend, SolveOptions
-from rebalance.model import Model
+from rebalance.model import Model, RowFamily
 
-__all__ = ["LINKING_FAMILIES", "dual_bound", "priced_bound"]
+__all__ = ["LINKING_FAMILIES", "dual_bound", "priced_bound", "with_extra_rows"]
 
 # Rows that tie different people, groups and hires together; all others belong to one of
 # them (a unit's capacity, detail and home rows; the hires' vacancy and hiring-rate rows).
-LINKING_FAMILIES = ("coverage", "away_share", "seats", "hiring_budget", "moves_budget")
+LINKING_FAMILIES = ("coverage", "away_share", "seats", "hiring_budget", "moves_budget",
+                    "extra")
 # Floating-point slack taken off the bound, relative to the size of its terms.
 ROUNDING_SLACK = 1e-9
 
@@ -73,19 +74,36 @@ def linking_rows(model: Model) -> np.ndarray:
     return linking
 
 
+def with_extra_rows(model: Model, extra_rows: list[tuple[np.ndarray, float]]) -> Model:
+    """``model`` with ``extra_rows`` (row, upper bound) appended as the family ``extra``: a
+    stage's held objective, which ties everything together."""
+    if not extra_rows:
+        return model
+    extra = sp.csr_matrix(np.vstack([row for row, _ in extra_rows]))
+    n = len(extra_rows)
+    return replace(model, matrix=sp.vstack([model.matrix, extra], format="csr"),
+                   row_lower=np.concatenate([model.row_lower, np.full(n, -np.inf)]),
+                   row_upper=np.concatenate([model.row_upper, [ub for _, ub in extra_rows]]),
+                   rows=(*model.rows, RowFamily("extra", model.num_rows, model.num_rows + n,
+                                                ("held objective",) * n)))
+
+
 def priced_bound(backend: Backend, model: Model, objective: np.ndarray, prices: np.ndarray,
-                 options: SolveOptions, time_limit: float) -> float | None:
+                 options: SolveOptions, time_limit: float,
+                 extra_rows: list[tuple[np.ndarray, float]] | None = None) -> float | None:
     """A bound from ``prices`` on the linking rows and the best prices for all other rows
     given those: the LP without the linking rows, its costs adjusted by their prices.
 
     That LP falls apart into independent pieces (one per person or group, one for the
-    hires); they are solved in batches of about :data:`BATCH_COLUMNS` columns, which the
-    simplex method finishes in a fraction of the time one LP of them all takes (agency: over
-    120 s as one LP).  ``prices`` may come from any LP over the same rows (one with decisions
-    held will do).  A batch that gives no prices in the time prices its rows at 0, which
-    keeps the bound valid; returns None when no batch gives prices.
+    hires); they are solved in batches of about :data:`BATCH_COLUMNS` columns, in a fraction
+    of the time one LP of them all takes (agency: 19 s, against over 120 s as one LP).
+    ``prices`` may come from any LP over the same rows (one with decisions held will do).  A
+    batch that gives no prices in the time prices its rows at 0, which keeps the bound
+    valid; returns None when no batch gives prices.  With ``extra_rows`` (a held objective)
+    the bound is for the model with them, and ``prices`` cover them too.
     """
     deadline = time.perf_counter() + time_limit
+    model = with_extra_rows(model, extra_rows or [])
     linking = linking_rows(model)
     held = np.where(linking, prices[:model.num_rows], 0.0)
     held[(held > 0) & ~np.isfinite(model.row_lower)] = 0.0
@@ -93,61 +111,60 @@ def priced_bound(backend: Backend, model: Model, objective: np.ndarray, prices: 
     adjusted = objective - model.matrix.T @ held
     rows = np.flatnonzero(~linking)
     apart = model.matrix[rows].tocsc()
+    col_order, row_order, batches = _batches(apart)
+    # One permutation makes every batch a contiguous block: slicing the whole matrix per
+    # batch cost more than the LPs at large scale.
+    ordered = apart[:, col_order].tocsr()[row_order]
     combined, priced = held, False
-    for cols, piece_rows in _batches(apart):
+    for col_start, col_stop, row_start, row_stop in batches:
         left = deadline - time.perf_counter()
         if left <= 0:
             break
-        piece = apart[piece_rows][:, cols]
+        cols = col_order[col_start:col_stop]
+        piece_rows = rows[row_order[row_start:row_stop]]
         zeros = np.zeros(cols.size)
-        sub = Model(matrix=piece.tocsr(), row_lower=model.row_lower[rows[piece_rows]],
-                    row_upper=model.row_upper[rows[piece_rows]],
+        sub = Model(matrix=ordered[row_start:row_stop, col_start:col_stop],
+                    row_lower=model.row_lower[piece_rows],
+                    row_upper=model.row_upper[piece_rows],
                     col_lower=model.col_lower[cols], col_upper=model.col_upper[cols],
                     is_integer=np.zeros(cols.size, bool), shortfall_weight=zeros, cost=zeros,
                     blocks={}, rows=())
         out = backend.run(sub, adjusted[cols], [], replace(options, progress=None), left, None)
         if out.row_dual is not None:
-            combined[rows[piece_rows]] = out.row_dual[:piece_rows.size]
+            combined[piece_rows] = out.row_dual[:piece_rows.size]
             priced = True
     return dual_bound(model, objective, combined) if priced else None
 
 
-# Columns per LP when pricing the rows apart: small enough for HiGHS to pick the simplex
-# method, large enough that a batch is more solving than setting up.
-BATCH_COLUMNS = 20_000
+# Columns per LP when pricing the rows apart (agency: 19 s at 2,000, 22 s at 5,000, 27 s at
+# 20,000, 94 s at 80,000; 18 s at 1,000, where setting up starts to weigh).
+BATCH_COLUMNS = 2_000
 
 
-def _batches(matrix: sp.csc_matrix) -> Iterator[tuple[np.ndarray, np.ndarray]]:
-    """Columns and rows of ``matrix`` in batches of whole independent pieces (connected
-    components of its rows and columns); columns in no row need no LP and are left out."""
+def _batches(matrix: sp.csc_matrix) -> tuple[np.ndarray, np.ndarray,
+                                             list[tuple[int, int, int, int]]]:
+    """Batches of whole independent pieces (connected components of rows and columns) of
+    ``matrix``: an order of its columns (those in no row left out: they need no LP), an order
+    of its rows, and per batch the column range and row range in those orders."""
     num_cols = matrix.shape[1]
     graph = sp.bmat([[None, matrix.T], [matrix, None]], format="csr")
     _, label = connected_components(graph, directed=False)
     col_label, row_label = label[:num_cols], label[num_cols:]
-    in_rows = np.diff(matrix.indptr) > 0
-    order = np.argsort(col_label, kind="stable")
-    order = order[in_rows[order]]
+    in_rows = np.flatnonzero(np.diff(matrix.indptr) > 0)
+    col_order = in_rows[np.argsort(col_label[in_rows], kind="stable")]
     row_order = np.argsort(row_label, kind="stable")
-    batch_cols: list[np.ndarray] = []
-    count = 0
-    for piece in np.split(order, np.flatnonzero(np.diff(col_label[order])) + 1):
-        if piece.size == 0:
+    col_labels, row_labels = col_label[col_order], row_label[row_order]
+    _, piece_starts = np.unique(col_labels, return_index=True)
+    cuts = [0]
+    for start in piece_starts[1:]:
+        if start - cuts[-1] >= BATCH_COLUMNS:
+            cuts.append(int(start))
+    cuts.append(col_order.size)
+    batches = []
+    for col_start, col_stop in itertools.pairwise(cuts):
+        if col_stop <= col_start:
             continue
-        batch_cols.append(piece)
-        count += piece.size
-        if count >= BATCH_COLUMNS:
-            yield _with_rows(batch_cols, col_label, row_label, row_order)
-            batch_cols, count = [], 0
-    if batch_cols:
-        yield _with_rows(batch_cols, col_label, row_label, row_order)
-
-
-def _with_rows(batch_cols: list[np.ndarray], col_label: np.ndarray, row_label: np.ndarray,
-               row_order: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    cols = np.concatenate(batch_cols)
-    labels = np.unique(col_label[cols])
-    sorted_labels = row_label[row_order]
-    lo = np.searchsorted(sorted_labels, labels, side="left")
-    hi = np.searchsorted(sorted_labels, labels, side="right")
-    rows = np.concatenate([row_order[a:b] for a, b in zip(lo, hi, strict=True)])
-    return cols, np.sort(rows)
+        row_start = int(np.searchsorted(row_labels, col_labels[col_start], side="left"))
+        row_stop = int(np.searchsorted(row_labels, col_labels[col_stop - 1], side="right"))
+        batches.append((col_start, col_stop, row_start, row_stop))
+    return col_order, row_order, batches

@@ -19,12 +19,12 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from rebalance.backends import Backend, SolveOptions, Status
+from rebalance.backends import Backend, BackendOutcome, SolveOptions, Status
 from rebalance.model import ADAPTING_FAMILIES, Model
 from rebalance.split import relaxed, resplit
 
-__all__ = ["Rounding", "RowActivity", "neighbourhood", "plan_by_rounding", "repair_rows",
-           "round_up"]
+__all__ = ["Rounding", "RowActivity", "held_lp", "held_lp_bounds", "neighbourhood",
+           "plan_by_rounding", "repair_rows", "round_up"]
 
 TOLERANCE = 1e-6
 # Above this many detail columns the LP keeps only the DESTINATIONS most short destinations
@@ -60,23 +60,11 @@ def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
     """
     integer = model.is_integer
     held_at = np.rint(start)
-    free = np.zeros(model.num_cols, bool)
-    if "detail" in model.blocks:
-        block = model.blocks["detail"]
-        free[block.start:block.stop] = block.keys["home"] >= 0
-        if len(block) > PRUNE_ABOVE_DETAIL_COLUMNS:
-            free[block.start:block.stop] &= _most_needed(model, start, DESTINATIONS)
-    if "hire" in model.blocks:
-        free[model.blocks["hire"].start:model.blocks["hire"].stop] = True
-    free &= integer
-    held = integer & ~free
-    lower, upper = model.col_lower.copy(), model.col_upper.copy()
-    lower[held] = upper[held] = held_at[held]
+    free, lower, upper = held_lp_bounds(model, start)
     if not free.any():
         return Rounding(None, None, None, lower, upper)
-    budget = deadline - time.perf_counter()
-    lp = backend.run(relaxed(replace(model, col_lower=lower, col_upper=upper)), objective,
-                     [], replace(options, progress=None), LP_SHARE * budget, None)
+    lp = held_lp(backend, model, objective, [], options, lower, upper,
+                 LP_SHARE * (deadline - time.perf_counter()))
     if lp.status is not Status.OPTIMAL or lp.x is None:
         say(f"  rounding: LP not solved ({lp.words})")
         return Rounding(None, None, None, lower, upper)
@@ -98,6 +86,35 @@ def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
     score = float(objective @ split.x)
     say(f"  rounding: plan with {score:.6g}")
     return replace(found, plan=split.x) if score < float(objective @ start) - 1e-9 else found
+
+
+def held_lp_bounds(model: Model, start: np.ndarray) -> tuple[np.ndarray, np.ndarray,
+                                                             np.ndarray]:
+    """Which integer columns the rounding's LP sets free (hires, and the details that name
+    their home office, pruned above :data:`PRUNE_ABOVE_DETAIL_COLUMNS`), and its column
+    bounds: every other integer column held where ``start`` has it."""
+    integer = model.is_integer
+    free = np.zeros(model.num_cols, bool)
+    if "detail" in model.blocks:
+        block = model.blocks["detail"]
+        free[block.start:block.stop] = block.keys["home"] >= 0
+        if len(block) > PRUNE_ABOVE_DETAIL_COLUMNS:
+            free[block.start:block.stop] &= _most_needed(model, start, DESTINATIONS)
+    if "hire" in model.blocks:
+        free[model.blocks["hire"].start:model.blocks["hire"].stop] = True
+    free &= integer
+    held = integer & ~free
+    lower, upper = model.col_lower.copy(), model.col_upper.copy()
+    lower[held] = upper[held] = np.rint(start)[held]
+    return free, lower, upper
+
+
+def held_lp(backend: Backend, model: Model, objective: np.ndarray,
+            extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
+            lower: np.ndarray, upper: np.ndarray, time_limit: float) -> BackendOutcome:
+    """The LP relaxation of ``model`` within column bounds ``lower`` and ``upper``."""
+    return backend.run(relaxed(replace(model, col_lower=lower, col_upper=upper)), objective,
+                       extra_rows, replace(options, progress=None), time_limit, None)
 
 
 def neighbourhood(x: np.ndarray, lower: np.ndarray, upper: np.ndarray, integer: np.ndarray,

@@ -91,6 +91,25 @@ def test_priced_bound_is_a_bound_and_exact_from_the_optimums_prices(seed):
         assert exact == pytest.approx(reference, abs=1e-5 * (1.0 + abs(reference)))
 
 
+@pytest.mark.parametrize("seed", range(3))
+def test_priced_bound_under_a_held_objective_is_exact_from_the_optimums_prices(seed):
+    # Stage two: least cost with the weighted shortfall held at most at a level (here the
+    # LP's least shortfall plus a little).  The held row is priced with the rest.
+    model, _ = _model_and_objectives(seed)
+    backend = HighsBackend()
+    least = _scipy_lp_optimum(model, model.shortfall_weight)
+    extra = [(model.shortfall_weight, least + 0.1)]
+    held = replace(model, matrix=sp.vstack([model.matrix, model.shortfall_weight], format="csr"),
+                   row_lower=np.append(model.row_lower, -np.inf),
+                   row_upper=np.append(model.row_upper, least + 0.1))
+    reference = _scipy_lp_optimum(held, model.cost)
+    whole = backend.run(relaxed(model), model.cost, extra, SolveOptions(), 60, None)
+    assert whole.status is Status.OPTIMAL and whole.row_dual is not None
+    assert whole.row_dual.size == model.num_rows + 1
+    exact = priced_bound(backend, model, model.cost, whole.row_dual, SolveOptions(), 60, extra)
+    assert exact == pytest.approx(reference, abs=1e-5 * (1.0 + abs(reference)))
+
+
 def test_the_first_plan_of_a_large_model_brings_a_bound_near_the_lp():
     # On the demo (a surge, budgets binding) the passes' bound from the rounding LP's prices
     # must lie below the LP optimum (scipy) and within a tenth of it: a bound that means

@@ -41,7 +41,10 @@ class Rounding:
 
     plan: np.ndarray | None  # a whole plan better than the start, or None
     lp_x: np.ndarray | None  # the LP point (None: the LP did not finish)
-    lp_row_dual: np.ndarray | None  # its row prices, for a bound (rebalance.bounds)
+    # Its row prices, for a bound (rebalance.bounds); None where the LP's details were pruned:
+    # prices from a pruned LP ignore the destinations left out and gave a bound far below 0
+    # on large (-31,656 against plans near 17,500).
+    lp_row_dual: np.ndarray | None
     lower: np.ndarray  # the LP's column bounds: held columns fixed where the start has them
     upper: np.ndarray
 
@@ -69,7 +72,7 @@ def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
         say(f"  rounding: LP not solved ({lp.words})")
         return Rounding(None, None, None, lower, upper)
     say(f"  rounding: LP {lp.objective:.6g} in {lp.seconds:.1f}s")
-    found = Rounding(None, lp.x, lp.row_dual, lower, upper)
+    found = Rounding(None, lp.x, None if _pruned(model) else lp.row_dual, lower, upper)
     rounded = np.where(integer, held_at, lp.x)
     rounded[free] = np.floor(lp.x[free] + TOLERANCE)
     ceiling = np.where(free, np.minimum(np.ceil(lp.x - TOLERANCE), upper), rounded)
@@ -98,7 +101,7 @@ def held_lp_bounds(model: Model, start: np.ndarray) -> tuple[np.ndarray, np.ndar
     if "detail" in model.blocks:
         block = model.blocks["detail"]
         free[block.start:block.stop] = block.keys["home"] >= 0
-        if len(block) > PRUNE_ABOVE_DETAIL_COLUMNS:
+        if _pruned(model):
             free[block.start:block.stop] &= _most_needed(model, start, DESTINATIONS)
     if "hire" in model.blocks:
         free[model.blocks["hire"].start:model.blocks["hire"].stop] = True
@@ -134,6 +137,11 @@ def neighbourhood(x: np.ndarray, lower: np.ndarray, upper: np.ndarray, integer: 
         lower[integer] = np.minimum(lower[integer], known)
         upper[integer] = np.maximum(upper[integer], known)
     return lower, upper
+
+
+def _pruned(model: Model) -> bool:
+    """Whether the rounding's LP keeps only the most needed detail destinations."""
+    return "detail" in model.blocks and len(model.blocks["detail"]) > PRUNE_ABOVE_DETAIL_COLUMNS
 
 
 def _most_needed(model: Model, plan: np.ndarray, keep: int) -> np.ndarray:

@@ -296,9 +296,12 @@ def test_pruned_rounding_keeps_the_most_short_destinations_and_still_gives_a_pla
     assert kept.sum() == len(groups) > 0  # at most one destination per person and period
     monkeypatch.setattr(rounding, "PRUNE_ABOVE_DETAIL_COLUMNS", 0)
     monkeypatch.setattr(rounding, "DESTINATIONS", 1)
-    x = rounding.plan_by_rounding(backend, model, model.shortfall_weight, options,
-                                  float("inf"), start.x, lambda _: None).plan
+    pruned = rounding.plan_by_rounding(backend, model, model.shortfall_weight, options,
+                                       float("inf"), start.x, lambda _: None)
+    x = pruned.plan
     assert x is not None and float(model.shortfall_weight @ x) < start.objective
     used = np.flatnonzero(x[detail.start:detail.stop] > 0.5)
     assert kept[used].all()
+    # Prices of an LP that left destinations out are no ground for a bound: none is offered.
+    assert pruned.lp_x is not None and pruned.lp_row_dual is None
 

@@ -14,7 +14,8 @@ heuristic's, :mod:`rebalance.rounding`) prices the rows that tie people, hires a
 together (coverage, away share, seats, budgets).  Those prices are kept, and every other row
 is priced again by the LP without the tying rows: it falls apart into one small LP per
 person or group and one for the hires, and solves in seconds where the whole LP relaxation
-takes minutes (medium: 7 s against 60 s; bound 1,429 against 1,529).
+takes minutes (medium: 1,492 in 2 s, against the whole LP's 1,547 in 81 s; agency: 6,080 in
+19 s, where the whole LP had not finished after 520 s).
 """
 
 from __future__ import annotations

@@ -1,5 +1,6 @@
 """rebalance: from a forecast of work to a verified staffing plan."""
 
+from rebalance.backends import TimeShares
 from rebalance.instance import Instance
 from rebalance.model import Model, build_model
 from rebalance.plan import Plan, extract_plan, read_plan
@@ -18,6 +19,7 @@ __all__ = [
     "SolveOptions",
     "SolveResult",
     "Status",
+    "TimeShares",
     "Violation",
     "build_model",
     "extract_plan",

@@ -30,7 +30,8 @@ import scipy.sparse as sp
 from rebalance.instance import ObjectiveMode, SolverName
 from rebalance.model import Model
 
-__all__ = ["BACKENDS", "Backend", "BackendOutcome", "SolveOptions", "Status", "relative_gap"]
+__all__ = ["BACKENDS", "Backend", "BackendOutcome", "SolveOptions", "Status", "TimeShares",
+           "relative_gap"]
 
 
 class Status(enum.Enum):
@@ -53,6 +54,42 @@ class Status(enum.Enum):
 
 
 @dataclass(frozen=True)
+class TimeShares:
+    """How a run shares out its time limit.  Each share is of the time left when its step
+    starts, except the stages' (of the whole limit).  Tuned on the benchmark machine with one
+    seed per size (``docs/benchmarks.md``), so a sweep may vary them like any other input."""
+
+    stage1: float = 0.7
+    """The shortfall stage; the cost stage gets the rest."""
+    stage1_large: float = 0.9
+    """The same for large models, whose first plan and bound need the time (on medium the
+    search near the LP improves for 50 s); on medium 36 s of stage 2 had cut the cost 3.5%,
+    11 s leave it as it is."""
+    lp: float = 0.35
+    """A stage's LP relaxation (models up to 30,000 columns)."""
+    rens: float = 0.3
+    """The rounding neighbourhood search after that LP."""
+    passes: float = 0.8
+    """A large model's decision-by-decision passes; branch and bound on the whole model gets
+    the rest (on medium it finds nothing there; an easy model is proven there, the passes
+    ending early once their restricted models are solved)."""
+    hires: float = 0.25
+    """The hires pass (on large it spent 178 s going from 1.28% to 0.09% of its own bound)."""
+    rounding: float = 0.8
+    """The rounding after it (on agency 8,705 -> 7,376 where a details MIP found nothing)."""
+    rounding_lp: float = 0.9
+    """Of the rounding's time, its LP; the work split after it takes seconds."""
+    priced_bound: float = 0.5
+    """The bound from the rounding LP's prices (medium 2 s, agency 19 s)."""
+    held_bound: float = 0.7
+    """Stage 2 of a large model: the bound from an LP with homes held (medium 6.6 s)."""
+    held_lp: float = 0.8
+    """Of that, the LP."""
+    finish: float = 0.03
+    """Of the whole limit, kept for naming people, verifying and writing the plan."""
+
+
+@dataclass(frozen=True)
 class SolveOptions:
     """How to solve: one small frozen object instead of many keyword arguments."""
 
@@ -65,6 +102,7 @@ class SolveOptions:
     shortfall_cost: float = 100_000.0
     shortfall_tolerance: float = 1e-6
     heuristics: bool = True  # LP-guided rounding search before branch and bound
+    shares: TimeShares = TimeShares()
     progress: Callable[[str], None] | None = field(default=None, compare=False)
 
 

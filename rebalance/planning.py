@@ -82,7 +82,8 @@ def make_plan(instance: Instance, options: SolveOptions, pooled: bool = True,
         options.progress(f"model: {model.num_cols} columns ({model.num_integer} integer), "
                          f"{model.num_rows} rows, built in {build_seconds:.2f}s")
     # Naming people and verifying the plan come after the solve, inside the same limit.
-    remaining = max(0.5, options.time_limit_seconds * (1.0 - FINISH_SHARE) - build_seconds)
+    remaining = max(0.5, options.time_limit_seconds * (1.0 - options.shares.finish)
+                    - build_seconds)
     result = solve(model, replace(options, time_limit_seconds=remaining))
     plan = None
     violations: tuple[Violation, ...] = ()
@@ -136,8 +137,6 @@ def summary_dict(result: PlanResult) -> dict[str, Any]:
     }
     return out
 
-
-FINISH_SHARE = 0.03  # of the time limit, kept for plan extraction, verification and writing
 
 CAUTION = ("This plan supports a decision; it does not make one. Personnel rules, agreements "
            "with staff representatives and local law govern any detail, reassignment or hire.")

@@ -32,7 +32,6 @@ TOLERANCE = 1e-6
 # pruned (7,982); large's did not finish in 203 s whole.
 PRUNE_ABOVE_DETAIL_COLUMNS = 300_000
 DESTINATIONS = 10
-LP_SHARE = 0.9  # of the pass's time for the LP; the work-split LP after it takes seconds
 
 
 @dataclass(frozen=True)
@@ -67,7 +66,7 @@ def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
     if not free.any():
         return Rounding(None, None, None, lower, upper)
     lp = held_lp(backend, model, objective, [], options, lower, upper,
-                 LP_SHARE * (deadline - time.perf_counter()))
+                 options.shares.rounding_lp * (deadline - time.perf_counter()))
     if lp.status is not Status.OPTIMAL or lp.x is None:
         say(f"  rounding: LP not solved ({lp.words})")
         return Rounding(None, None, None, lower, upper)

@@ -102,7 +102,8 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
 
     say("stage 1: least priority-weighted shortfall")
     # Stage 1 may use most of the time, but leaves stage 2 a share to lower the cost.
-    share = LARGE_STAGE1_SHARE if _is_large(model, backend) else STAGE1_SHARE
+    share = (options.shares.stage1_large if _is_large(model, backend)
+             else options.shares.stage1)
     stage1_deadline = started + share * options.time_limit_seconds
     first = solve_stage(backend, model, model.shortfall_weight, [], options, stage1_deadline,
                         None, say)
@@ -149,43 +150,18 @@ def polish(backend: Backend, model: Model, out: BackendOutcome, options: SolveOp
     return out if split is None else replace(out, x=split.x)
 
 
-STAGE1_SHARE = 0.7   # of the whole time limit, at most, for the shortfall stage
-# Large models: stage one's plan and its bound need the time (on medium the search near the
-# LP keeps finding better plans for 50 s).  The price is stage two's: on medium 36 s of it
-# cut the cost 3.5% (7.10e7 -> 6.85e7), 11 s leave it as it is.
-LARGE_STAGE1_SHARE = 0.9
 MIN_SEARCH_SECONDS = 1.0
 POLISH_SECONDS = 60.0  # at most, for the final work split; never past the limit
 MIN_POLISH_SECONDS = 0.5
-LP_SHARE = 0.35      # of a stage's time, at most, for its LP relaxation
-RENS_SHARE = 0.3     # of a stage's time, at most, for the rounding neighbourhood search
 MIN_HEURISTIC_SECONDS = 5.0  # below this a stage goes straight to branch and bound
 # Above this many columns a first plan comes decision by decision instead of from the LP:
-# the LP relaxation alone outlasts a stage's share there (medium, 104k columns: 62 s with
+# the LP relaxation alone outlasts a stage's share there (medium, 104k columns: 81 s with
 # interior point, over 120 s with simplex), while hires alone solve in seconds (issue 3).
 LARGE_MODEL_COLUMNS = 30_000
-# Of a stage's time, at most, for the decision-by-decision passes; branch and bound on the
-# whole model gets the rest (medium: no better plan, its root LP unfinished; an easy model
-# is proven there, as the passes end early when their restricted models are solved).
-BY_DECISION_SHARE = 0.8
 # Above this many nonzeros a large model with a plan already in hand gets no branch and bound
 # on the whole model: HiGHS's presolve of agency (6.8M nonzeros) ran 170 s past the limit
 # without one callback, while medium (0.8M) stopped on time (issue 3).
 WHOLE_SEARCH_MAX_NONZEROS = 3_000_000
-# first_plan_by_decision: the hires pass's share of the time left when it starts (it stops
-# near 1% of its own bound within seconds up to agency, but on large spent 178 s going from
-# 1.28% to 0.09% and left the rounding LP too little), and the rounding's share of the time
-# left after it (on agency it took the hires-only plan from 8,705 to 7,702 where the details
-# MIP found nothing better in 108 s).
-HIRES_SHARE = 0.25
-ROUNDING_SHARE = 0.8
-# And, after the rounding, the share of the time left for the bound from its row prices (an
-# LP that falls apart by person: medium 2 s, agency 19 s).
-PRICED_BOUND_SHARE = 0.5
-# Stage two of a large model: the share of its time for a bound from prices, and of that the
-# LP's share (medium: 6.6 s in all, bound 5.51e7 against the whole LP's 5.96e7 in 84 s).
-HELD_BOUND_SHARE = 0.7
-HELD_LP_SHARE = 0.8
 
 
 def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
@@ -218,7 +194,7 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                 and options.heuristics and budget > MIN_HEURISTIC_SECONDS):
             # Stage two: no rounding LP to price the rows, so one of its own.
             lp_bound = _held_lp_bound(backend, model, objective, extra_rows, options, start,
-                                      t0 + HELD_BOUND_SHARE * budget, say)
+                                      t0 + options.shares.held_bound * budget, say)
         if model.num_integer and options.heuristics and budget > MIN_HEURISTIC_SECONDS:
             if large:
                 if options.threads >= 2:
@@ -230,7 +206,7 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                     # Stage two of a model that branch and bound can still search starts
                     # from stage one's plan there instead: on medium the passes found nothing
                     # cheaper while holding the shortfall.
-                    share = 1.0 if passes_only else BY_DECISION_SHARE
+                    share = 1.0 if passes_only else options.shares.passes
                     first = first_plan_by_decision(backend, model, objective, extra_rows,
                                                    options, t0 + share * budget, say, start)
                     start, lp_bound = first.x, _higher(lp_bound, first.bound)
@@ -276,7 +252,7 @@ def _held_lp_bound(backend: Backend, model: Model, objective: np.ndarray,
     began = time.perf_counter()
     _, lower, upper = held_lp_bounds(model, start)
     lp = held_lp(backend, model, objective, extra_rows, options, lower, upper,
-                 HELD_LP_SHARE * (deadline - began))
+                 options.shares.held_lp * (deadline - began))
     if lp.row_dual is None:
         say(f"  bound from row prices: LP with homes held not solved ({lp.words})")
         return None
@@ -346,7 +322,8 @@ def _first_plan_from_lp(backend: Backend, model: Model, objective: np.ndarray,
     plan found and ``start``, and the LP bound.
     """
     budget = deadline - time.perf_counter()
-    lp = backend.run(relaxed(model), objective, extra_rows, options, LP_SHARE * budget, None)
+    lp = backend.run(relaxed(model), objective, extra_rows, options, options.shares.lp * budget,
+                     None)
     if lp.status is not Status.OPTIMAL or lp.x is None:
         say(f"  LP relaxation not solved ({lp.words}); going straight to branch and bound")
         return start, None
@@ -358,7 +335,8 @@ def _first_plan_from_lp(backend: Backend, model: Model, objective: np.ndarray,
     left = deadline - time.perf_counter()
     narrowed = replace(model, col_lower=lower, col_upper=upper)
     rens = None if left < 2.0 else backend.run(
-        narrowed, objective, extra_rows, options, min(RENS_SHARE * budget, 0.5 * left), start)
+        narrowed, objective, extra_rows, options, min(options.shares.rens * budget, 0.5 * left),
+        start)
     if rens is not None and rens.x is not None and rens.objective is not None:
         say(f"  rounding search: plan with {rens.objective:.6g} in {rens.seconds:.1f}s")
         if start is None or rens.objective < float(objective @ start) - 1e-9:
@@ -429,14 +407,15 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
         if out.objective < best_objective - 1e-9:
             best, best_objective, held_at = out.x, out.objective, np.rint(out.x)
 
-    run_pass("hires alone", held_but(("hire",)), HIRES_SHARE)
+    run_pass("hires alone", held_but(("hire",)), options.shares.hires)
     near, bound = None, None
     left = deadline - time.perf_counter()
     if best is not None and not extra_rows and left >= 1.0:
         # Rounding down raises the shortfall, so it has no place under a held shortfall
         # (stage two): only for stage one and the weighted objective.
         rounding = plan_by_rounding(backend, model, objective, options,
-                                    time.perf_counter() + ROUNDING_SHARE * left, best, say)
+                                    time.perf_counter() + options.shares.rounding * left,
+                                    best, say)
         if rounding.plan is not None:
             best, best_objective = rounding.plan, float(objective @ rounding.plan)
             held_at = np.rint(rounding.plan)
@@ -446,7 +425,7 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
         if rounding.lp_row_dual is not None and left >= 1.0:
             began = time.perf_counter()
             bound = priced_bound(backend, model, objective, rounding.lp_row_dual, options,
-                                 PRICED_BOUND_SHARE * left)
+                                 options.shares.priced_bound * left)
             if bound is not None:
                 say(f"  bound from the rounding LP's row prices: {bound:.6g} in "
                     f"{time.perf_counter() - began:.1f}s")

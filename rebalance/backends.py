@@ -31,7 +31,7 @@ from rebalance.instance import ObjectiveMode, SolverName
 from rebalance.model import Model
 
 __all__ = ["BACKENDS", "Backend", "BackendOutcome", "SolveOptions", "Status", "TimeShares",
-           "relative_gap"]
+           "relative_gap", "stacked_rows"]
 
 
 class Status(enum.Enum):
@@ -667,6 +667,19 @@ class CbcBackend:
 BACKENDS: dict[str, Callable[[], Backend]] = {"highs": HighsBackend, "cbc": CbcBackend}
 
 
+def stacked_rows(model: Model, extra_rows: list[tuple[np.ndarray, float]]) -> tuple[
+        sp.csr_matrix, np.ndarray, np.ndarray]:
+    """The model's rows with ``extra_rows`` (row, upper bound) below them, unscaled: the
+    rows every backend solves over, in the order their prices come back."""
+    matrix, row_lo, row_hi = model.matrix, model.row_lower, model.row_upper
+    if extra_rows:
+        extra = sp.csr_matrix(np.vstack([r for r, _ in extra_rows]))
+        matrix = sp.vstack([matrix, extra], format="csr")
+        row_lo = np.concatenate([row_lo, np.full(len(extra_rows), -math.inf)])
+        row_hi = np.concatenate([row_hi, [ub for _, ub in extra_rows]])
+    return matrix, row_lo, row_hi
+
+
 def _stack(model: Model, extra_rows: list[tuple[np.ndarray, float]]) -> tuple[
         sp.csr_matrix, np.ndarray, np.ndarray, np.ndarray]:
     """The model's rows plus ``extra_rows``, each row scaled to a largest coefficient near 1,
@@ -676,12 +689,7 @@ def _stack(model: Model, extra_rows: list[tuple[np.ndarray, float]]) -> tuple[
     rows near 1; left so, HiGHS's interior point method stalls on the demo-sized models.
     Scaling by powers of two changes neither the solution nor the rounding of any value.
     """
-    matrix, row_lo, row_hi = model.matrix, model.row_lower, model.row_upper
-    if extra_rows:
-        extra = sp.csr_matrix(np.vstack([r for r, _ in extra_rows]))
-        matrix = sp.vstack([matrix, extra], format="csr")
-        row_lo = np.concatenate([row_lo, np.full(len(extra_rows), -math.inf)])
-        row_hi = np.concatenate([row_hi, [ub for _, ub in extra_rows]])
+    matrix, row_lo, row_hi = stacked_rows(model, extra_rows)
     largest = np.zeros(matrix.shape[0])
     counts = np.diff(matrix.indptr)
     nonempty = counts > 0

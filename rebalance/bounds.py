@@ -28,8 +28,9 @@ import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components
 
-from rebalance.backends import Backend, SolveOptions
+from rebalance.backends import Backend, SolveOptions, stacked_rows
 from rebalance.model import Model, RowFamily
+from rebalance.split import solve_relaxation
 
 __all__ = ["LINKING_FAMILIES", "dual_bound", "priced_bound", "with_extra_rows"]
 
@@ -47,9 +48,7 @@ def dual_bound(model: Model, objective: np.ndarray, prices: np.ndarray) -> float
     Returns ``-inf`` when a column with a price-adjusted cost of the wrong sign has no
     finite bound on that side.
     """
-    y = np.asarray(prices, float).copy()
-    y[(y > 0) & ~np.isfinite(model.row_lower)] = 0.0
-    y[(y < 0) & ~np.isfinite(model.row_upper)] = 0.0
+    y = _signed(model, prices)
     row_terms = np.zeros(y.size)
     up, down = y > 0, y < 0
     row_terms[up] = y[up] * model.row_lower[up]
@@ -66,6 +65,14 @@ def dual_bound(model: Model, objective: np.ndarray, prices: np.ndarray) -> float
     return total - ROUNDING_SLACK * size
 
 
+def _signed(model: Model, prices: np.ndarray) -> np.ndarray:
+    """``prices`` with each set to 0 where its sign would price a row side with no bound."""
+    y = np.asarray(prices, float).copy()
+    y[(y > 0) & ~np.isfinite(model.row_lower)] = 0.0
+    y[(y < 0) & ~np.isfinite(model.row_upper)] = 0.0
+    return y
+
+
 def linking_rows(model: Model) -> np.ndarray:
     """Per row: whether it belongs to a :data:`LINKING_FAMILIES` family."""
     linking = np.zeros(model.num_rows, bool)
@@ -80,13 +87,11 @@ def with_extra_rows(model: Model, extra_rows: list[tuple[np.ndarray, float]]) ->
     stage's held objective, which ties everything together."""
     if not extra_rows:
         return model
-    extra = sp.csr_matrix(np.vstack([row for row, _ in extra_rows]))
-    n = len(extra_rows)
-    return replace(model, matrix=sp.vstack([model.matrix, extra], format="csr"),
-                   row_lower=np.concatenate([model.row_lower, np.full(n, -np.inf)]),
-                   row_upper=np.concatenate([model.row_upper, [ub for _, ub in extra_rows]]),
-                   rows=(*model.rows, RowFamily("extra", model.num_rows, model.num_rows + n,
-                                                ("held objective",) * n)))
+    matrix, row_lower, row_upper = stacked_rows(model, extra_rows)
+    extra = RowFamily("extra", model.num_rows, matrix.shape[0],
+                      ("held objective",) * len(extra_rows))
+    return replace(model, matrix=matrix, row_lower=row_lower, row_upper=row_upper,
+                   rows=(*model.rows, extra))
 
 
 def priced_bound(backend: Backend, model: Model, objective: np.ndarray, prices: np.ndarray,
@@ -106,9 +111,7 @@ def priced_bound(backend: Backend, model: Model, objective: np.ndarray, prices: 
     deadline = time.perf_counter() + time_limit
     model = with_extra_rows(model, extra_rows or [])
     linking = linking_rows(model)
-    held = np.where(linking, prices[:model.num_rows], 0.0)
-    held[(held > 0) & ~np.isfinite(model.row_lower)] = 0.0
-    held[(held < 0) & ~np.isfinite(model.row_upper)] = 0.0
+    held = _signed(model, np.where(linking, prices[:model.num_rows], 0.0))
     adjusted = objective - model.matrix.T @ held
     rows = np.flatnonzero(~linking)
     apart = model.matrix[rows].tocsc()
@@ -130,7 +133,7 @@ def priced_bound(backend: Backend, model: Model, objective: np.ndarray, prices: 
                     col_lower=model.col_lower[cols], col_upper=model.col_upper[cols],
                     is_integer=np.zeros(cols.size, bool), shortfall_weight=zeros, cost=zeros,
                     blocks={}, rows=())
-        out = backend.run(sub, adjusted[cols], [], replace(options, progress=None), left, None)
+        out = solve_relaxation(backend, sub, adjusted[cols], [], options, left)
         if out.row_dual is not None:
             combined[piece_rows] = out.row_dual[:piece_rows.size]
             priced = True

@@ -5,10 +5,10 @@ On the agency benchmark the details-alone MIP finds no plan better than hires al
 time, while the LP with hire and detail counts continuous says where people should go.
 Rounding those counts down keeps every budget, vacancy, hiring-rate, away-share, one-detail
 and consecutive-detail row (their coefficients are all positive), but can break a seat row:
-a person who stays home takes a seat there.  The repair
-walks the broken rows and moves one person at a time, preferring the counts the LP wanted
-most, never breaking another row.  The work split and shortfall are then solved again as an
-LP (every whole number held), which gives a plan of the whole model.
+a person who stays home takes a seat there.  The repair walks the broken rows and moves one
+person at a time, preferring the counts the LP wanted most, never breaking another row.
+The work split and shortfall are then solved again as an LP (every whole number held),
+which gives a plan of the whole model.
 """
 
 from __future__ import annotations
@@ -19,12 +19,12 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from rebalance.backends import Backend, BackendOutcome, SolveOptions, Status
+from rebalance.backends import Backend, SolveOptions, Status
 from rebalance.model import ADAPTING_FAMILIES, Model
-from rebalance.split import relaxed, resplit
+from rebalance.split import resplit, solve_relaxation
 
-__all__ = ["Rounding", "RowActivity", "held_lp", "held_lp_bounds", "neighbourhood",
-           "plan_by_rounding", "repair_rows", "round_up"]
+__all__ = ["Rounding", "RowActivity", "held_lp_bounds", "neighbourhood", "plan_by_rounding",
+           "repair_rows", "round_up"]
 
 TOLERANCE = 1e-6
 # Above this many detail columns the LP keeps only the DESTINATIONS most short destinations
@@ -65,8 +65,9 @@ def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
     free, lower, upper = held_lp_bounds(model, start)
     if not free.any():
         return Rounding(None, None, None, lower, upper)
-    lp = held_lp(backend, model, objective, [], options, lower, upper,
-                 options.shares.rounding_lp * (deadline - time.perf_counter()))
+    lp = solve_relaxation(backend, model, objective, [], options,
+                          options.shares.rounding_lp * (deadline - time.perf_counter()),
+                          lower, upper)
     if lp.status is not Status.OPTIMAL or lp.x is None:
         say(f"  rounding: LP not solved ({lp.words})")
         return Rounding(None, None, None, lower, upper)
@@ -109,14 +110,6 @@ def held_lp_bounds(model: Model, start: np.ndarray) -> tuple[np.ndarray, np.ndar
     lower, upper = model.col_lower.copy(), model.col_upper.copy()
     lower[held] = upper[held] = np.rint(start)[held]
     return free, lower, upper
-
-
-def held_lp(backend: Backend, model: Model, objective: np.ndarray,
-            extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
-            lower: np.ndarray, upper: np.ndarray, time_limit: float) -> BackendOutcome:
-    """The LP relaxation of ``model`` within column bounds ``lower`` and ``upper``."""
-    return backend.run(relaxed(replace(model, col_lower=lower, col_upper=upper)), objective,
-                       extra_rows, replace(options, progress=None), time_limit, None)
 
 
 def neighbourhood(x: np.ndarray, lower: np.ndarray, upper: np.ndarray, integer: np.ndarray,

@@ -25,8 +25,8 @@ from rebalance.backends import (
 )
 from rebalance.bounds import priced_bound
 from rebalance.model import LIMIT_FAMILIES, Model
-from rebalance.rounding import held_lp, held_lp_bounds, neighbourhood, plan_by_rounding
-from rebalance.split import relaxed, resplit
+from rebalance.rounding import held_lp_bounds, neighbourhood, plan_by_rounding
+from rebalance.split import relaxed, resplit, solve_relaxation
 
 __all__ = ["SolveOptions", "SolveResult", "StageResult", "Status", "solve", "solve_stage"]
 
@@ -251,8 +251,8 @@ def _held_lp_bound(backend: Backend, model: Model, objective: np.ndarray,
     :func:`~rebalance.bounds.priced_bound`), or None if the LP does not finish in time."""
     began = time.perf_counter()
     _, lower, upper = held_lp_bounds(model, start)
-    lp = held_lp(backend, model, objective, extra_rows, options, lower, upper,
-                 options.shares.held_lp * (deadline - began))
+    lp = solve_relaxation(backend, model, objective, extra_rows, options,
+                          options.shares.held_lp * (deadline - began), lower, upper)
     if lp.row_dual is None:
         say(f"  bound from row prices: LP with homes held not solved ({lp.words})")
         return None
@@ -283,8 +283,7 @@ def _lp_bound(backend: Backend, model: Model, objective: np.ndarray,
               extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
               time_limit: float, say: Callable[[str], None], when: str) -> float | None:
     """The LP relaxation's value, a bound for the stage, or None if it did not finish."""
-    lp = backend.run(relaxed(model), objective, extra_rows, replace(options, progress=None),
-                     time_limit, None)
+    lp = solve_relaxation(backend, model, objective, extra_rows, options, time_limit)
     if lp.status is Status.OPTIMAL and lp.objective is not None:
         say(f"  LP relaxation ({when}) {lp.objective:.6g} in {lp.seconds:.1f}s")
         return lp.objective
@@ -465,7 +464,7 @@ def find_conflicts(model: Model, backend: Backend, options: SolveOptions,
     k = len(limit_rows)
     elastic = sp.csr_matrix((np.full(k, -1.0), (np.asarray(limit_rows), np.arange(k))),
                             shape=(model.num_rows, k))
-    relaxed = replace(
+    with_elastic = replace(
         model,
         matrix=sp.hstack([model.matrix, elastic], format="csr"),
         col_lower=np.concatenate([model.col_lower, np.zeros(k)]),
@@ -475,7 +474,7 @@ def find_conflicts(model: Model, backend: Backend, options: SolveOptions,
         cost=np.concatenate([model.cost, np.zeros(k)]),
     )
     objective = np.concatenate([np.zeros(model.num_cols), np.ones(k)])
-    out = backend.run(relaxed, objective, [], options, time_limit, None)
+    out = backend.run(with_elastic, objective, [], options, time_limit, None)
     if out.x is None:
         return [f"the limits conflict, but the analysis found no relaxation ({out.words})"]
     excess = out.x[model.num_cols:]

@@ -15,12 +15,25 @@ import numpy as np
 from rebalance.backends import Backend, BackendOutcome, SolveOptions, Status
 from rebalance.model import Model
 
-__all__ = ["relaxed", "resplit"]
+__all__ = ["relaxed", "resplit", "solve_relaxation"]
 
 
 def relaxed(model: Model) -> Model:
     """The same model with every column continuous."""
     return replace(model, is_integer=np.zeros(model.num_cols, bool))
+
+
+def solve_relaxation(backend: Backend, model: Model, objective: np.ndarray,
+                     extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
+                     time_limit: float, lower: np.ndarray | None = None,
+                     upper: np.ndarray | None = None) -> BackendOutcome:
+    """The LP relaxation of ``model`` plus ``extra_rows``, within column bounds ``lower`` and
+    ``upper`` where given, without progress lines (an LP is one step of something else)."""
+    if lower is not None or upper is not None:
+        model = replace(model, col_lower=model.col_lower if lower is None else lower,
+                        col_upper=model.col_upper if upper is None else upper)
+    return backend.run(relaxed(model), objective, extra_rows, replace(options, progress=None),
+                       time_limit, None)
 
 
 def resplit(backend: Backend, model: Model, plan: np.ndarray, objective: np.ndarray,
@@ -35,8 +48,7 @@ def resplit(backend: Backend, model: Model, plan: np.ndarray, objective: np.ndar
     whole = np.rint(plan[integer])
     lower, upper = model.col_lower.copy(), model.col_upper.copy()
     lower[integer] = upper[integer] = whole
-    lp = backend.run(relaxed(replace(model, col_lower=lower, col_upper=upper)), objective, [],
-                     replace(options, progress=None), time_limit, None)
+    lp = solve_relaxation(backend, model, objective, [], options, time_limit, lower, upper)
     if lp.status is not Status.OPTIMAL or lp.x is None:
         return None
     x = lp.x.copy()

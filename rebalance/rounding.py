@@ -46,6 +46,9 @@ class Rounding:
     lp_row_dual: np.ndarray | None
     lower: np.ndarray  # the LP's column bounds: held columns fixed where the start has them
     upper: np.ndarray
+    # Seconds its LP ran (finished or not; None: no LP): a measure of what an LP with the
+    # same columns held costs, for the cost stage's (rebalance.solve).
+    lp_seconds: float | None = None
 
 
 def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
@@ -70,9 +73,10 @@ def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
                           lower, upper)
     if lp.status is not Status.OPTIMAL or lp.x is None:
         say(f"  rounding: LP not solved ({lp.words})")
-        return Rounding(None, None, None, lower, upper)
+        return Rounding(None, None, None, lower, upper, lp.seconds)
     say(f"  rounding: LP {lp.objective:.6g} in {lp.seconds:.1f}s")
-    found = Rounding(None, lp.x, None if _pruned(model) else lp.row_dual, lower, upper)
+    found = Rounding(None, lp.x, None if _pruned(model) else lp.row_dual, lower, upper,
+                     lp.seconds)
     rounded = np.where(integer, held_at, lp.x)
     rounded[free] = np.floor(lp.x[free] + TOLERANCE)
     ceiling = np.where(free, np.minimum(np.ceil(lp.x - TOLERANCE), upper), rounded)

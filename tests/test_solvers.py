@@ -305,3 +305,56 @@ def test_pruned_rounding_keeps_the_most_short_destinations_and_still_gives_a_pla
     # Prices of an LP that left destinations out are no ground for a bound: none is offered.
     assert pruned.lp_x is not None and pruned.lp_row_dual is None
 
+
+
+@pytest.mark.parametrize("seed", [1, 3])
+def test_trimming_finds_the_cheapest_plan_at_or_below_the_start(seed):
+    # The cost stage of a large model first trims stage one's plan: the cheapest plan whose
+    # whole-number decisions are each at most the plan's, with the shortfall held.
+    # Reference: brute force over every such choice of whole numbers, the rest of each
+    # plan (work split, shortfall) solved by scipy's linprog (its own HiGHS build).
+    import itertools
+
+    import numpy as np
+    import scipy.sparse as sp
+    from scipy.optimize import linprog
+
+    from rebalance.backends import HighsBackend, SolveOptions
+    from rebalance.model import build_model
+    from rebalance.solve import _trimmed
+
+    model = build_model(random_instance(seed, people=4, periods=4, offices=3, skills=2))
+    backend, options = HighsBackend(), SolveOptions(relative_gap=0.0)
+    least = backend.run(model, model.shortfall_weight, [], options, 60, None).objective
+    assert least is not None
+    held = least + 1e-6
+    # A plan with surplus to drop: the dearest one with the least shortfall.
+    start = backend.run(model, -model.cost, [(model.shortfall_weight, held)], options, 60,
+                        None).x
+    assert start is not None
+    trimmed = _trimmed(backend, model, model.cost, [(model.shortfall_weight, held)], options,
+                       start, 60, lambda _: None)
+
+    integer = model.is_integer
+    assert np.all(np.rint(trimmed[integer]) <= np.rint(start[integer]))
+    assert model.shortfall_weight @ trimmed <= held + 1e-6
+    activity = model.matrix @ trimmed
+    assert np.all(activity >= model.row_lower - 1e-6)
+    assert np.all(activity <= model.row_upper + 1e-6)
+
+    upper_rows, lower_rows = np.isfinite(model.row_upper), np.isfinite(model.row_lower)
+    a_ub = sp.vstack([model.matrix[upper_rows], -model.matrix[lower_rows],
+                      sp.csr_matrix(model.shortfall_weight)], format="csr")
+    b_ub = np.concatenate([model.row_upper[upper_rows], -model.row_lower[lower_rows], [held]])
+    used = np.flatnonzero(integer & (np.rint(start) > 0))
+    cheapest = np.inf
+    for counts in itertools.product(*(range(int(round(start[j])) + 1) for j in used)):
+        lower, upper = model.col_lower.copy(), model.col_upper.copy()
+        lower[integer] = upper[integer] = 0.0
+        lower[used] = upper[used] = counts
+        res = linprog(model.cost, A_ub=a_ub, b_ub=b_ub,
+                      bounds=list(zip(lower, upper, strict=True)), method="highs")
+        if res.status == 0:
+            cheapest = min(cheapest, float(res.fun))
+    assert float(model.cost @ trimmed) == pytest.approx(cheapest, rel=1e-6, abs=1e-3)
+    assert cheapest < float(model.cost @ start) - 1.0  # the start had something to drop

@@ -348,7 +348,7 @@ def test_trimming_finds_the_cheapest_plan_at_or_below_the_start(seed):
     b_ub = np.concatenate([model.row_upper[upper_rows], -model.row_lower[lower_rows], [held]])
     used = np.flatnonzero(integer & (np.rint(start) > 0))
     cheapest = np.inf
-    for counts in itertools.product(*(range(int(round(start[j])) + 1) for j in used)):
+    for counts in itertools.product(*(range(int(np.rint(start[j])) + 1) for j in used)):
         lower, upper = model.col_lower.copy(), model.col_upper.copy()
         lower[integer] = upper[integer] = 0.0
         lower[used] = upper[used] = counts

@@ -24,7 +24,7 @@ from rebalance.model import ADAPTING_FAMILIES, Model
 from rebalance.split import resplit, solve_relaxation
 
 __all__ = ["Rounding", "RowActivity", "held_lp_bounds", "neighbourhood", "plan_by_rounding",
-           "repair_rows", "round_up"]
+           "prunes_details", "repair_rows", "round_up"]
 
 TOLERANCE = 1e-6
 # Above this many detail columns the LP keeps only the DESTINATIONS most short destinations
@@ -75,7 +75,7 @@ def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
         say(f"  rounding: LP not solved ({lp.words})")
         return Rounding(None, None, None, lower, upper, lp.seconds)
     say(f"  rounding: LP {lp.objective:.6g} in {lp.seconds:.1f}s")
-    found = Rounding(None, lp.x, None if _pruned(model) else lp.row_dual, lower, upper,
+    found = Rounding(None, lp.x, None if prunes_details(model) else lp.row_dual, lower, upper,
                      lp.seconds)
     rounded = np.where(integer, held_at, lp.x)
     rounded[free] = np.floor(lp.x[free] + TOLERANCE)
@@ -105,7 +105,7 @@ def held_lp_bounds(model: Model, start: np.ndarray) -> tuple[np.ndarray, np.ndar
     if "detail" in model.blocks:
         block = model.blocks["detail"]
         free[block.start:block.stop] = block.keys["home"] >= 0
-        if _pruned(model):
+        if prunes_details(model):
             free[block.start:block.stop] &= _most_needed(model, start, DESTINATIONS)
     if "hire" in model.blocks:
         free[model.blocks["hire"].start:model.blocks["hire"].stop] = True
@@ -135,7 +135,7 @@ def neighbourhood(x: np.ndarray, lower: np.ndarray, upper: np.ndarray, integer: 
     return lower, upper
 
 
-def _pruned(model: Model) -> bool:
+def prunes_details(model: Model) -> bool:
     """Whether the rounding's LP keeps only the most needed detail destinations."""
     return "detail" in model.blocks and len(model.blocks["detail"]) > PRUNE_ABOVE_DETAIL_COLUMNS
 

@@ -84,11 +84,11 @@ class TimeShares:
     held_bound: float = 0.7
     """Stage 2 of a large model: the bound from an LP with homes held (medium 6.6 s), where
     stage 1's rounding LP says it can finish."""
+    held_lp: float = 0.8
+    """Of that, the LP."""
     trim: float = 0.7
     """Stage 2 of a large model, after that bound: dropping what stage 1's plan does not
     need (medium: 1.8% off the cost in about 11 s; agency 5.4% in 23 s)."""
-    held_lp: float = 0.8
-    """Of that, the LP."""
     finish: float = 0.03
     """Of the whole limit, kept for naming people, verifying and writing the plan."""
 

@@ -182,7 +182,7 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
     t0 = time.perf_counter()
     budget = deadline - t0
     lp_bound = None
-    measured = None
+    rounding_lp_seconds = None
     bound_on_side: Future[float | None] | None = None
     large = _is_large(model, backend)
     # Above this size branch and bound on the whole model gets nowhere in a stage's time
@@ -196,19 +196,10 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
     with ThreadPoolExecutor(max_workers=1) as side:
         if (large and extra_rows and start is not None and model.num_integer
                 and options.heuristics and budget > MIN_HEURISTIC_SECONDS):
-            held_limit = options.shares.held_bound * budget
-            if prunes_details(model):
-                # Prices from an LP without most destinations bound nothing (large: -3.3e10).
-                say("  no LP with homes held: it would keep only the most needed "
-                    "destinations, and its prices would bound nothing")
-            elif lp_seconds is None or lp_seconds <= options.shares.held_lp * held_limit:
-                # Stage two: no rounding LP to price the rows, so one of its own.
-                lp_bound = _held_lp_bound(backend, model, objective, extra_rows, options,
-                                          start, t0 + held_limit, say)
-            else:
-                # It would not finish (agency: 57 s in stage one, against 19 s here).
-                say(f"  no LP with homes held: stage 1's took {lp_seconds:.0f}s, more "
-                    f"than the {options.shares.held_lp * held_limit:.0f}s it would get")
+            # Stage two: no rounding LP to price the rows, so one of its own, then trimming.
+            lp_bound = _held_lp_bound(backend, model, objective, extra_rows, options, start,
+                                      t0 + options.shares.held_bound * budget, say,
+                                      lp_seconds)
             start = _trimmed(backend, model, objective, extra_rows, options, start,
                              options.shares.trim * (deadline - time.perf_counter()), say)
         if model.num_integer and options.heuristics and budget > MIN_HEURISTIC_SECONDS:
@@ -226,7 +217,7 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                     first = first_plan_by_decision(backend, model, objective, extra_rows,
                                                    options, t0 + share * budget, say, start)
                     start, lp_bound = first.x, _higher(lp_bound, first.bound)
-                    measured = first.lp_seconds
+                    rounding_lp_seconds = first.lp_seconds
             else:
                 start, lp_bound = _first_plan_from_lp(backend, model, objective, extra_rows,
                                                       options, deadline, start, say)
@@ -257,7 +248,7 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
         out = replace(out, bound=_higher(out.bound, lp_bound))
     out = _with_floor(out, options.relative_gap)
     seconds = time.perf_counter() - t0
-    return replace(out, seconds=seconds), measured
+    return replace(out, seconds=seconds), rounding_lp_seconds
 
 
 def _restricted_run(backend: Backend, model: Model, objective: np.ndarray,
@@ -303,14 +294,28 @@ def _trimmed(backend: Backend, model: Model, objective: np.ndarray,
 
 def _held_lp_bound(backend: Backend, model: Model, objective: np.ndarray,
                    extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
-                   start: np.ndarray, deadline: float,
-                   say: Callable[[str], None]) -> float | None:
+                   start: np.ndarray, deadline: float, say: Callable[[str], None],
+                   expected_seconds: float | None = None) -> float | None:
     """A bound from the prices of the rounding's LP (homes held where ``start`` has them;
-    :func:`~rebalance.bounds.priced_bound`), or None if the LP does not finish in time."""
+    :func:`~rebalance.bounds.priced_bound`), or None if the LP does not finish in time.
+
+    Not tried where that LP would keep only the most needed destinations (its prices bound
+    nothing: -3.3e10 on large), nor where ``expected_seconds`` (what the same LP took in
+    stage one) is more than it would get (agency: 57 s, against 19 s in stage two).
+    """
     began = time.perf_counter()
+    lp_limit = options.shares.held_lp * (deadline - began)
+    if prunes_details(model):
+        say("  no LP with homes held: it would keep only the most needed destinations, "
+            "and its prices would bound nothing")
+        return None
+    if expected_seconds is not None and expected_seconds > lp_limit:
+        say(f"  no LP with homes held: stage 1's took {expected_seconds:.0f}s, more than "
+            f"the {lp_limit:.0f}s it would get")
+        return None
     _, lower, upper = held_lp_bounds(model, start)
-    lp = solve_relaxation(backend, model, objective, extra_rows, options,
-                          options.shares.held_lp * (deadline - began), lower, upper)
+    lp = solve_relaxation(backend, model, objective, extra_rows, options, lp_limit, lower,
+                          upper)
     if lp.row_dual is None:
         say(f"  bound from row prices: LP with homes held not solved ({lp.words})")
         return None

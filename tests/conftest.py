@@ -1,13 +1,18 @@
-"""Shared fixtures: instance folders under tests/data and a solve helper that always verifies."""
+"""Shared fixtures: instance folders under tests/data, a solve helper that always verifies,
+and the reference LP solver (scipy's linprog)."""
 
 from __future__ import annotations
 
 from pathlib import Path
 
+import numpy as np
 import pytest
+import scipy.sparse as sp
+from scipy.optimize import OptimizeResult, linprog
 
 from rebalance import make_plan, options_from_instance, read_instance
 from rebalance.instance import Instance
+from rebalance.model import Model
 from rebalance.planning import PlanResult
 
 DATA = Path(__file__).parent / "data"
@@ -30,3 +35,17 @@ def solve_verified(instance: Instance, **overrides: object) -> PlanResult:
     assert result.plan is not None, result.status
     assert result.verified, [str(v) for v in result.violations]
     return result
+
+
+def scipy_lp(model: Model, objective: np.ndarray, lower: np.ndarray | None = None,
+             upper: np.ndarray | None = None) -> OptimizeResult:
+    """The LP relaxation of ``model`` by scipy's linprog (its own HiGHS build), within column
+    bounds ``lower`` and ``upper`` where given (else the model's), rows read as plain
+    inequalities A x <= b: no row scaling, no presolve choices of ours."""
+    finite_upper, finite_lower = np.isfinite(model.row_upper), np.isfinite(model.row_lower)
+    a_ub = sp.vstack([model.matrix[finite_upper], -model.matrix[finite_lower]], format="csr")
+    b_ub = np.concatenate([model.row_upper[finite_upper], -model.row_lower[finite_lower]])
+    lower = model.col_lower if lower is None else lower
+    upper = model.col_upper if upper is None else upper
+    return linprog(objective, A_ub=a_ub, b_ub=b_ub,
+                   bounds=list(zip(lower, upper, strict=True)), method="highs")

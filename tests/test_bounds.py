@@ -13,8 +13,8 @@ from dataclasses import replace
 import numpy as np
 import pytest
 import scipy.sparse as sp
+from conftest import scipy_lp
 from randomized import random_instance
-from scipy.optimize import linprog
 
 from rebalance.backends import HighsBackend, SolveOptions, Status
 from rebalance.bounds import dual_bound, priced_bound
@@ -32,12 +32,7 @@ def _movers(seed: int) -> Instance:
 
 def _scipy_lp_optimum(model: Model, objective: np.ndarray) -> float:
     """The LP relaxation's optimum by scipy's linprog (HiGHS), rows as A x <= b."""
-    upper, lower = np.isfinite(model.row_upper), np.isfinite(model.row_lower)
-    a_ub = sp.vstack([model.matrix[upper], -model.matrix[lower]], format="csr")
-    b_ub = np.concatenate([model.row_upper[upper], -model.row_lower[lower]])
-    res = linprog(objective, A_ub=a_ub, b_ub=b_ub,
-                  bounds=list(zip(model.col_lower, model.col_upper, strict=True)),
-                  method="highs")
+    res = scipy_lp(model, objective)
     assert res.status == 0, res.message
     return float(res.fun)
 

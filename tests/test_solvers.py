@@ -306,7 +306,6 @@ def test_pruned_rounding_keeps_the_most_short_destinations_and_still_gives_a_pla
     assert pruned.lp_x is not None and pruned.lp_row_dual is None
 
 
-
 @pytest.mark.parametrize("seed", [1, 3])
 def test_trimming_finds_the_cheapest_plan_at_or_below_the_start(seed):
     # The cost stage of a large model first trims stage one's plan: the cheapest plan whose
@@ -317,7 +316,7 @@ def test_trimming_finds_the_cheapest_plan_at_or_below_the_start(seed):
 
     import numpy as np
     import scipy.sparse as sp
-    from scipy.optimize import linprog
+    from conftest import scipy_lp
 
     from rebalance.backends import HighsBackend, SolveOptions
     from rebalance.model import build_model
@@ -342,18 +341,17 @@ def test_trimming_finds_the_cheapest_plan_at_or_below_the_start(seed):
     assert np.all(activity >= model.row_lower - 1e-6)
     assert np.all(activity <= model.row_upper + 1e-6)
 
-    upper_rows, lower_rows = np.isfinite(model.row_upper), np.isfinite(model.row_lower)
-    a_ub = sp.vstack([model.matrix[upper_rows], -model.matrix[lower_rows],
-                      sp.csr_matrix(model.shortfall_weight)], format="csr")
-    b_ub = np.concatenate([model.row_upper[upper_rows], -model.row_lower[lower_rows], [held]])
+    with_held = replace(model,
+                        matrix=sp.vstack([model.matrix, model.shortfall_weight], format="csr"),
+                        row_lower=np.append(model.row_lower, -np.inf),
+                        row_upper=np.append(model.row_upper, held))
     used = np.flatnonzero(integer & (np.rint(start) > 0))
     cheapest = np.inf
     for counts in itertools.product(*(range(int(np.rint(start[j])) + 1) for j in used)):
         lower, upper = model.col_lower.copy(), model.col_upper.copy()
         lower[integer] = upper[integer] = 0.0
         lower[used] = upper[used] = counts
-        res = linprog(model.cost, A_ub=a_ub, b_ub=b_ub,
-                      bounds=list(zip(lower, upper, strict=True)), method="highs")
+        res = scipy_lp(with_held, model.cost, lower, upper)
         if res.status == 0:
             cheapest = min(cheapest, float(res.fun))
     assert float(model.cost @ trimmed) == pytest.approx(cheapest, rel=1e-6, abs=1e-3)

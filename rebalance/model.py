@@ -95,6 +95,8 @@ class Model:
     units: tuple[tuple[int, ...], ...] = ()
     # Units whose one skill takes all their output (no work columns; see the coverage rows).
     direct_units: frozenset[int] = frozenset()
+    # Original home office (index) of each unit.
+    unit_home: np.ndarray = field(default_factory=lambda: np.zeros(0, int))
     build_seconds: float = 0.0
 
     @property
@@ -108,6 +110,28 @@ class Model:
     @property
     def num_integer(self) -> int:
         return int(self.is_integer.sum())
+
+    def offices_of_columns(self) -> tuple[np.ndarray, np.ndarray]:
+        """Per column, the two offices its decision is about (-1 where none): a hire's office
+        (twice); a detail's home in force (the original home where the column names only the
+        destination) and its destination; a reassignment's original and new home.  A search
+        that frees a few offices at a time frees the columns about them."""
+        first = np.full(self.num_cols, -1)
+        second = np.full(self.num_cols, -1)
+        if "hire" in self.blocks:
+            block = self.blocks["hire"]
+            first[block.start:block.stop] = second[block.start:block.stop] = block.keys["office"]
+        if "detail" in self.blocks:
+            block = self.blocks["detail"]
+            home = block.keys["home"]
+            first[block.start:block.stop] = np.where(home >= 0, home,
+                                                     self.unit_home[block.keys["unit"]])
+            second[block.start:block.stop] = block.keys["office"]
+        if "home" in self.blocks:
+            block = self.blocks["home"]
+            first[block.start:block.stop] = self.unit_home[block.keys["unit"]]
+            second[block.start:block.stop] = block.keys["office"]
+        return first, second
 
     def row_label(self, row: int) -> tuple[str, str]:
         for family in self.rows:
@@ -258,6 +282,7 @@ def build_model(instance: Instance, pooled: bool = True,
         model = b.finish()
     model.units = f.units
     model.direct_units = direct
+    model.unit_home = np.asarray([f.o_ix[person.home_office] for person in f.rep], int)
     model.build_seconds = time.perf_counter() - started
     return model
 

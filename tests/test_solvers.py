@@ -356,3 +356,96 @@ def test_trimming_finds_the_cheapest_plan_at_or_below_the_start(seed):
             cheapest = min(cheapest, float(res.fun))
     assert float(model.cost @ trimmed) == pytest.approx(cheapest, rel=1e-6, abs=1e-3)
     assert cheapest < float(model.cost @ start) - 1.0  # the start had something to drop
+
+
+def _scipy_milp(model, objective):
+    """The model's optimum by scipy's milp (its own HiGHS build), rows as given."""
+    from scipy.optimize import Bounds, LinearConstraint, milp
+
+    return milp(objective, integrality=model.is_integer.astype(int),
+                bounds=Bounds(model.col_lower, model.col_upper),
+                constraints=LinearConstraint(model.matrix, model.row_lower, model.row_upper))
+
+
+@pytest.mark.parametrize("seed", [2, 5, 8])
+def test_office_groups_reach_the_optimum_when_one_group_holds_every_office(seed):
+    # With every office in one group, the search a few offices at a time is branch and bound
+    # on the whole box, so from a poor start it must reach the model's least shortfall.
+    # Reference: scipy's milp (its own HiGHS build) on the same rows.
+    import time
+
+    from rebalance.backends import HighsBackend, SolveOptions
+    from rebalance.model import build_model
+    from rebalance.solve import OFFICES_PER_GROUP, search_by_office_groups
+
+    instance = random_instance(seed, people=5, periods=3, offices=3, skills=2)
+    assert len(instance.offices) <= OFFICES_PER_GROUP
+    model = build_model(instance, pair_details=False)
+    backend, options = HighsBackend(), SolveOptions(relative_gap=0.0)
+    start = backend.run(model, model.cost, [], options, 60, None).x  # the cheapest plan
+    assert start is not None
+    found = search_by_office_groups(backend, model, model.shortfall_weight, [], options,
+                                    time.perf_counter() + 60, start,
+                                    (model.col_lower, model.col_upper), lambda _: None)
+    reference = _scipy_milp(model, model.shortfall_weight)
+    assert reference.status == 0
+    assert model.shortfall_weight @ start > reference.fun + 1e-3  # the start had room
+    assert float(model.shortfall_weight @ found) == pytest.approx(reference.fun, rel=1e-6,
+                                                                  abs=1e-6)
+
+
+@pytest.mark.parametrize("seed", [1, 4])
+def test_office_groups_keep_a_plan_of_the_whole_model_inside_the_box(seed):
+    # Groups smaller than the offices: whatever the search returns is a plan of the whole
+    # model (every row holds), no worse than the start, each whole number inside the box
+    # or where the start had it.  Common practice for neighbourhood searches.
+    import time
+
+    import numpy as np
+
+    from rebalance.backends import HighsBackend, SolveOptions
+    from rebalance.model import build_model
+    from rebalance.solve import OFFICES_PER_GROUP, search_by_office_groups
+
+    instance = random_instance(seed, people=8, periods=3, offices=6, skills=2)
+    assert len(instance.offices) > OFFICES_PER_GROUP
+    model = build_model(instance)
+    backend, options = HighsBackend(), SolveOptions(relative_gap=0.0)
+    start = backend.run(model, model.cost, [], options, 60, None).x
+    assert start is not None
+    integer = model.is_integer
+    lower, upper = model.col_lower.copy(), model.col_upper.copy()
+    upper[integer] = np.minimum(upper[integer], 1.0)  # a narrower box than the model's
+    found = search_by_office_groups(backend, model, model.shortfall_weight, [], options,
+                                    time.perf_counter() + 60, start, (lower, upper),
+                                    lambda _: None)
+    activity = model.matrix @ found
+    assert np.all(activity >= model.row_lower - 1e-6)
+    assert np.all(activity <= model.row_upper + 1e-6)
+    assert model.shortfall_weight @ found <= model.shortfall_weight @ start + 1e-9
+    whole, known = np.rint(found[integer]), np.rint(start[integer])
+    assert np.allclose(found[integer], whole, atol=1e-6)
+    assert np.all((whole == known) | ((whole >= lower[integer]) & (whole <= upper[integer])))
+
+
+def test_columns_name_the_offices_their_decision_is_about():
+    # A detail column written per destination (relocatable people) names only where it goes;
+    # the office it leaves from is the person's home in the instance.
+    import numpy as np
+
+    from rebalance.model import build_model
+
+    instance = random_instance(3, people=6, periods=3, offices=3, skills=2)
+    model = build_model(instance, pair_details=False)
+    first, second = model.offices_of_columns()
+    offices = [o.name for o in instance.offices]
+    detail = model.blocks["detail"]
+    keys = detail.keys
+    assert (keys["home"] < 0).any()  # the instance has relocatable people
+    for j in range(len(detail)):
+        col = detail.start + j
+        person = instance.staff[model.units[keys["unit"][j]][0]]
+        home = keys["home"][j] if keys["home"][j] >= 0 else offices.index(person.home_office)
+        assert (first[col], second[col]) == (home, keys["office"][j])
+    hire = model.blocks["hire"]
+    assert np.array_equal(first[hire.start:hire.stop], hire.keys["office"])

@@ -80,8 +80,8 @@ class TimeShares:
     rounding_lp: float = 0.9
     """Of the rounding's time, its LP; the work split after it takes seconds."""
     near_whole: float = 0.5
-    """Of the time after the rounding, the search of the whole neighbourhood of its LP; the
-    search a few offices at a time gets the rest."""
+    """Of the time after the rounding, the search of the whole neighbourhood of its LP (up to
+    3 million nonzeros; above, none); the search a few offices at a time gets the rest."""
     priced_bound: float = 0.5
     """The bound from the rounding LP's prices (medium 2 s, agency 19 s)."""
     held_bound: float = 0.7

@@ -275,6 +275,9 @@ OFFICES_PER_GROUP = 4
 # (on medium, 1e-4 took stage 1's plan from 1,640.8 to 1,624.5 in 16 s; 1% to 1,630.5).
 GROUP_GAP = 1e-4
 MIN_GROUP_SECONDS = 5.0
+# A group's run must also pass the whole model to a solver process and presolve it: runs of
+# 6 s (HiGHS stopped at 3 s) found nothing on agency (7.7M nonzeros), runs of 8 s did.
+GROUP_SECONDS_PER_MILLION_NONZEROS = 1.5
 
 
 def search_by_office_groups(backend: Backend, model: Model, objective: np.ndarray,
@@ -302,9 +305,10 @@ def search_by_office_groups(backend: Backend, model: Model, objective: np.ndarra
     size = OFFICES_PER_GROUP
     groups: list[np.ndarray] = []
     tried, groups_without_better = 0, 0
-    # Each group gets a fifth of the search's time: at agency a run needs about 8 s to pass
-    # the model to a solver process and presolve it.
-    run_seconds = max(MIN_GROUP_SECONDS, 0.2 * (deadline - time.perf_counter()))
+    # Each group gets a fifth of the search's time, and at least what its run needs.
+    run_seconds = max(MIN_GROUP_SECONDS,
+                      GROUP_SECONDS_PER_MILLION_NONZEROS * model.matrix.nnz / 1e6,
+                      0.2 * (deadline - time.perf_counter()))
     while True:
         left = deadline - time.perf_counter()
         if left < MIN_SEARCH_SECONDS:

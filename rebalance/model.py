@@ -111,6 +111,14 @@ class Model:
     def num_integer(self) -> int:
         return int(self.is_integer.sum())
 
+    def key_of_columns(self, key: str) -> np.ndarray:
+        """Per column, its ``key`` (unit, office, ...) in its block; -1 where none."""
+        values = np.full(self.num_cols, -1)
+        for block in self.blocks.values():
+            if key in block.keys:
+                values[block.start:block.stop] = block.keys[key]
+        return values
+
     def offices_of_columns(self) -> tuple[np.ndarray, np.ndarray]:
         """Per column, the two offices its decision is about (-1 where none): a hire's office
         (twice); a detail's home in force (the original home where the column names only the

@@ -27,6 +27,7 @@ from rebalance.bounds import priced_bound
 from rebalance.model import LIMIT_FAMILIES, Model
 from rebalance.rounding import held_lp_bounds, neighbourhood, plan_by_rounding, prunes_details
 from rebalance.split import relaxed, resplit, solve_relaxation
+from rebalance.submodel import hold_apart
 
 __all__ = ["SolveOptions", "SolveResult", "StageResult", "Status", "solve", "solve_stage"]
 
@@ -263,11 +264,15 @@ def _restricted_run(backend: Backend, model: Model, objective: np.ndarray,
         lambda text: say(text.replace("searching:", f"{label}:")))
     out = backend.run(replace(model, col_lower=bounds[0], col_upper=bounds[1]), objective,
                       extra_rows, replace(options, progress=restricted_say), time_limit, start)
+    _report(label, out, say)
+    return out
+
+
+def _report(label: str, out: BackendOutcome, say: Callable[[str], None]) -> None:
     if out.x is None or out.objective is None:
         say(f"  {label}: no plan ({out.words})")
     else:
         say(f"  {label}: plan with {out.objective:.6g} in {out.seconds:.1f}s")
-    return out
 
 
 OFFICES_PER_GROUP = 4
@@ -275,9 +280,6 @@ OFFICES_PER_GROUP = 4
 # (on medium, 1e-4 took stage 1's plan from 1,640.8 to 1,624.5 in 16 s; 1% to 1,630.5).
 GROUP_GAP = 1e-4
 MIN_GROUP_SECONDS = 5.0
-# A group's run must also pass the whole model to a solver process and presolve it: runs of
-# 6 s (HiGHS stopped at 3 s) found nothing on agency (7.7M nonzeros), runs of 8 s did.
-GROUP_SECONDS_PER_MILLION_NONZEROS = 1.5
 
 
 def search_by_office_groups(backend: Backend, model: Model, objective: np.ndarray,
@@ -292,12 +294,16 @@ def search_by_office_groups(backend: Backend, model: Model, objective: np.ndarra
     One search of the whole box near the LP finds nothing on agency in its time (presolve
     and the root LP of a neighbourhood that large take it), while a group's search is small
     enough to finish in seconds: on agency, four runs of about 8 s took stage 1's plan from
-    7,376 to 7,062 weighted FTE-periods (issue 3).  Groups are drawn at random, seeded by ``options.seed``;
-    once every office has been in a group since the last better plan, the groups double,
-    up to half the offices.  Returns the best plan found (``plan`` if none is better).
+    7,376 to 7,062 weighted FTE-periods (issue 3).  The continuous columns that cannot follow
+    the group's decisions are held too, and every held column is taken out before the
+    solver sees it (:func:`_group_bounds`, :func:`_held_apart_run`).  Groups are drawn at
+    random, seeded by ``options.seed``; once every office has been in a group since the
+    last better plan, the groups double, up to half the offices.  Returns the best plan
+    found (``plan`` if none is better).
     """
     integer = model.is_integer
     first, second = model.offices_of_columns()
+    unit_of, office_of = model.key_of_columns("unit"), model.key_of_columns("office")
     num_offices = int(max(first.max(initial=-1), second.max(initial=-1))) + 1
     rng = np.random.default_rng(options.seed)
     group_options = replace(options, relative_gap=min(options.relative_gap, GROUP_GAP))
@@ -305,10 +311,10 @@ def search_by_office_groups(backend: Backend, model: Model, objective: np.ndarra
     size = OFFICES_PER_GROUP
     groups: list[np.ndarray] = []
     tried, groups_without_better = 0, 0
-    # Each group gets a fifth of the search's time, and at least what its run needs.
-    run_seconds = max(MIN_GROUP_SECONDS,
-                      GROUP_SECONDS_PER_MILLION_NONZEROS * model.matrix.nnz / 1e6,
-                      0.2 * (deadline - time.perf_counter()))
+    # Each group gets a fifth of the search's time.  Whole-model runs on agency needed 8 s
+    # (passing 7.7M nonzeros to a solver process and presolving them took most of it);
+    # with the held columns taken out first, 2-9 s.
+    run_seconds = max(MIN_GROUP_SECONDS, 0.2 * (deadline - time.perf_counter()))
     while True:
         left = deadline - time.perf_counter()
         if left < MIN_SEARCH_SECONDS:
@@ -323,23 +329,60 @@ def search_by_office_groups(backend: Backend, model: Model, objective: np.ndarra
             groups = [order[i:i + size] for i in range(0, num_offices, size)]
         group = groups.pop()
         about = integer & (np.isin(first, group) | np.isin(second, group))
-        known = np.rint(best)
-        lower = np.where(integer, known, model.col_lower)
-        upper = np.where(integer, known, model.col_upper)
-        lower[about] = np.minimum(box[0][about], known[about])
-        upper[about] = np.maximum(box[1][about], known[about])
         groups_without_better += 1
-        if np.array_equal(lower[about], upper[about]):
+        bounds = _group_bounds(model, best, box, about, group, unit_of, office_of)
+        if np.array_equal(bounds[0][about], bounds[1][about]):
             continue  # nothing about these offices may change
         tried += 1
-        out = _restricted_run(backend, model, objective, extra_rows, group_options,
-                              (lower, upper), min(left, run_seconds),
-                              best, f"office group {tried} ({len(group)} offices)", say)
+        out = _held_apart_run(backend, model, objective, extra_rows, group_options, bounds,
+                              min(left, run_seconds), best,
+                              f"office group {tried} ({len(group)} offices)", say)
         if (out.x is not None and out.objective is not None
                 and out.objective < best_objective - 1e-9):
             best, best_objective = out.x, out.objective
             groups_without_better = 0
     return best
+
+
+def _group_bounds(model: Model, plan: np.ndarray, box: tuple[np.ndarray, np.ndarray],
+                  about: np.ndarray, group: np.ndarray, unit_of: np.ndarray,
+                  office_of: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Column bounds for one group: the whole numbers ``about`` it free within ``box``
+    (widened to hold ``plan``), and the continuous columns that can follow them (the
+    shortfall, the work of the group's offices and of the people whose decisions are free);
+    everything else held where ``plan`` has it.  Holding the rest of the work split keeps
+    the plan a plan: those people's places do not change."""
+    integer = model.is_integer
+    known = np.where(integer, np.rint(plan), np.clip(plan, model.col_lower, model.col_upper))
+    lower, upper = known.copy(), known.copy()
+    lower[about] = np.minimum(box[0][about], known[about])
+    upper[about] = np.maximum(box[1][about], known[about])
+    moved = np.unique(unit_of[about & (unit_of >= 0)])
+    follows = ~integer & ((unit_of < 0) | np.isin(unit_of, moved) | np.isin(office_of, group))
+    lower[follows], upper[follows] = model.col_lower[follows], model.col_upper[follows]
+    return lower, upper
+
+
+def _held_apart_run(backend: Backend, model: Model, objective: np.ndarray,
+                    extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
+                    bounds: tuple[np.ndarray, np.ndarray], time_limit: float,
+                    start: np.ndarray, label: str,
+                    say: Callable[[str], None]) -> BackendOutcome:
+    """:func:`_restricted_run` on only the columns ``bounds`` leave free
+    (:func:`~rebalance.submodel.hold_apart`); the outcome is in the whole model's terms."""
+    part = hold_apart(model, bounds[0], bounds[1], extra_rows)
+    if part is None:
+        return _restricted_run(backend, model, objective, extra_rows, options, bounds,
+                               time_limit, start, label, say)
+    # No progress lines: the part's objective leaves out what the held columns add.
+    out = backend.run(part.model, objective[part.columns], part.extra_rows,
+                      replace(options, progress=None), time_limit, start[part.columns])
+    if out.x is not None:
+        x = part.whole(out.x)
+        out = replace(out, x=x, objective=float(objective @ x),
+                      bound=None if out.bound is None else out.bound + part.constant(objective))
+    _report(label, out, say)
+    return out
 
 
 def _trimmed(backend: Backend, model: Model, objective: np.ndarray,

@@ -293,8 +293,8 @@ def search_by_office_groups(backend: Backend, model: Model, objective: np.ndarra
 
     One search of the whole box near the LP finds nothing on agency in its time (presolve
     and the root LP of a neighbourhood that large take it), while a group's search is small
-    enough to finish in seconds: on agency, four runs of about 8 s took stage 1's plan from
-    7,376 to 7,062 weighted FTE-periods (issue 3).  The continuous columns that cannot follow
+    enough to finish in seconds: on agency, eight runs of 2-5 s took stage 1's plan from
+    7,376 to 6,955 weighted FTE-periods (issue 3).  The continuous columns that cannot follow
     the group's decisions are held too, and every held column is taken out before the
     solver sees it (:func:`_group_bounds`, :func:`_held_apart_run`).  Groups are drawn at
     random, seeded by ``options.seed``; once every office has been in a group since the

@@ -1,5 +1,5 @@
 """Shared fixtures: instance folders under tests/data, a solve helper that always verifies,
-and the reference LP solver (scipy's linprog)."""
+and the reference solvers (scipy's linprog and milp)."""
 
 from __future__ import annotations
 
@@ -8,7 +8,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 import scipy.sparse as sp
-from scipy.optimize import OptimizeResult, linprog
+from scipy.optimize import Bounds, LinearConstraint, OptimizeResult, linprog, milp
 
 from rebalance import make_plan, options_from_instance, read_instance
 from rebalance.instance import Instance
@@ -49,3 +49,16 @@ def scipy_lp(model: Model, objective: np.ndarray, lower: np.ndarray | None = Non
     upper = model.col_upper if upper is None else upper
     return linprog(objective, A_ub=a_ub, b_ub=b_ub,
                    bounds=list(zip(lower, upper, strict=True)), method="highs")
+
+
+def scipy_milp(model: Model, objective: np.ndarray, lower: np.ndarray | None = None,
+               upper: np.ndarray | None = None,
+               extra_rows: tuple[tuple[np.ndarray, float], ...] = ()) -> OptimizeResult:
+    """The optimum of ``model`` (plus ``extra_rows``, each row <= its bound) by scipy's milp
+    (its own HiGHS build), within column bounds ``lower`` and ``upper`` where given."""
+    constraints = [LinearConstraint(model.matrix, model.row_lower, model.row_upper)]
+    constraints += [LinearConstraint(row[None, :], -np.inf, bound) for row, bound in extra_rows]
+    return milp(objective, integrality=model.is_integer.astype(int),
+                bounds=Bounds(model.col_lower if lower is None else lower,
+                              model.col_upper if upper is None else upper),
+                constraints=constraints)

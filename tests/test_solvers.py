@@ -358,21 +358,14 @@ def test_trimming_finds_the_cheapest_plan_at_or_below_the_start(seed):
     assert cheapest < float(model.cost @ start) - 1.0  # the start had something to drop
 
 
-def _scipy_milp(model, objective):
-    """The model's optimum by scipy's milp (its own HiGHS build), rows as given."""
-    from scipy.optimize import Bounds, LinearConstraint, milp
-
-    return milp(objective, integrality=model.is_integer.astype(int),
-                bounds=Bounds(model.col_lower, model.col_upper),
-                constraints=LinearConstraint(model.matrix, model.row_lower, model.row_upper))
-
-
 @pytest.mark.parametrize("seed", [2, 5, 8])
 def test_office_groups_reach_the_optimum_when_one_group_holds_every_office(seed):
     # With every office in one group, the search a few offices at a time is branch and bound
     # on the whole box, so from a poor start it must reach the model's least shortfall.
     # Reference: scipy's milp (its own HiGHS build) on the same rows.
     import time
+
+    from conftest import scipy_milp
 
     from rebalance.backends import HighsBackend, SolveOptions
     from rebalance.model import build_model
@@ -387,7 +380,7 @@ def test_office_groups_reach_the_optimum_when_one_group_holds_every_office(seed)
     found = search_by_office_groups(backend, model, model.shortfall_weight, [], options,
                                     time.perf_counter() + 60, start,
                                     (model.col_lower, model.col_upper), lambda _: None)
-    reference = _scipy_milp(model, model.shortfall_weight)
+    reference = scipy_milp(model, model.shortfall_weight)
     assert reference.status == 0
     assert model.shortfall_weight @ start > reference.fun + 1e-3  # the start had room
     assert float(model.shortfall_weight @ found) == pytest.approx(reference.fun, rel=1e-6,

@@ -5,22 +5,12 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from conftest import scipy_milp
 from randomized import random_instance
-from scipy.optimize import Bounds, LinearConstraint, milp
 
 from rebalance.backends import HighsBackend, SolveOptions
-from rebalance.model import Model, build_model
+from rebalance.model import build_model
 from rebalance.submodel import hold_apart
-
-
-def _milp(model: Model, objective: np.ndarray, lower: np.ndarray, upper: np.ndarray,
-          extra_rows: list[tuple[np.ndarray, float]]) -> float | None:
-    """The optimum by scipy's milp (its own HiGHS build) within the bounds; None if none."""
-    constraints = [LinearConstraint(model.matrix, model.row_lower, model.row_upper)]
-    constraints += [LinearConstraint(row[None, :], -np.inf, bound) for row, bound in extra_rows]
-    res = milp(objective, integrality=model.is_integer.astype(int),
-               bounds=Bounds(lower, upper), constraints=constraints)
-    return float(res.fun) if res.status == 0 else None
 
 
 @pytest.mark.parametrize("seed", [0, 3, 6, 9])
@@ -44,11 +34,11 @@ def test_held_apart_reaches_the_same_optimum_as_the_whole_model_in_the_same_boun
         assert part.model.num_cols == int((lower < upper).sum())
         out = backend.run(part.model, objective[part.columns], part.extra_rows, options, 60,
                           None)
-        reference = _milp(model, objective, lower, upper, extra)
-        assert reference is not None  # the plan itself is inside the bounds
+        reference = scipy_milp(model, objective, lower, upper, tuple(extra))
+        assert reference.status == 0  # the plan itself is inside the bounds
         assert out.objective is not None and out.x is not None
-        assert out.objective + part.constant(objective) == pytest.approx(reference, rel=1e-6,
-                                                                         abs=1e-6)
+        assert out.objective + part.constant(objective) == pytest.approx(reference.fun,
+                                                                         rel=1e-6, abs=1e-6)
         whole = part.whole(out.x)  # a plan of the whole model
         activity = model.matrix @ whole
         assert np.all(activity >= model.row_lower - 1e-6)

@@ -259,11 +259,27 @@ def _restricted_run(backend: Backend, model: Model, objective: np.ndarray,
                     say: Callable[[str], None]) -> BackendOutcome:
     """Branch and bound on ``model`` within column ``bounds`` (lower, upper): any plan it
     finds is a plan of the whole model.  Its progress lines and result carry ``label``,
-    since its bound holds for the restricted model only."""
-    restricted_say = None if options.progress is None else (
-        lambda text: say(text.replace("searching:", f"{label}:")))
-    out = backend.run(replace(model, col_lower=bounds[0], col_upper=bounds[1]), objective,
-                      extra_rows, replace(options, progress=restricted_say), time_limit, start)
+    since its bound holds for the restricted model only.
+
+    The columns whose bounds meet are taken out before the solver sees them
+    (:func:`~rebalance.submodel.hold_apart`): HiGHS's presolve would remove them too, but
+    that was most of a short run on agency (4.8 s of 6.9), and the hires-alone pass on
+    large, held apart, proved its plan in 129 s where the whole model had a worse one at
+    149 s.
+    """
+    run_options = replace(options, progress=None if options.progress is None else (
+        lambda text: say(text.replace("searching:", f"{label}:"))))
+    part = hold_apart(model, bounds[0], bounds[1], extra_rows)
+    if part is None:
+        # The held values break a row: let the solver say so on the whole model.
+        out = backend.run(replace(model, col_lower=bounds[0], col_upper=bounds[1]),
+                          objective, extra_rows, run_options, time_limit, start)
+    else:
+        out = backend.run(part.model, part.objective(objective), part.extra_rows,
+                          run_options, time_limit, None if start is None else part.part(start))
+        if out.x is not None:
+            x = part.whole(out.x)
+            out = replace(out, x=x, objective=float(objective @ x), row_dual=None)
     _report(label, out, say)
     return out
 
@@ -296,7 +312,7 @@ def search_by_office_groups(backend: Backend, model: Model, objective: np.ndarra
     enough to finish in seconds: on agency, eight runs of 2-5 s took stage 1's plan from
     7,376 to 6,955 weighted FTE-periods (issue 3).  The continuous columns that cannot follow
     the group's decisions are held too, and every held column is taken out before the
-    solver sees it (:func:`_group_bounds`, :func:`_held_apart_run`).  Groups are drawn at
+    solver sees it (:func:`_group_bounds`, :func:`_restricted_run`).  Groups are drawn at
     random, seeded by ``options.seed``; once every office has been in a group since the
     last better plan, the groups double, up to half the offices.  Returns the best plan
     found (``plan`` if none is better).
@@ -334,7 +350,7 @@ def search_by_office_groups(backend: Backend, model: Model, objective: np.ndarra
         if np.array_equal(bounds[0][about], bounds[1][about]):
             continue  # nothing about these offices may change
         tried += 1
-        out = _held_apart_run(backend, model, objective, extra_rows, group_options, bounds,
+        out = _restricted_run(backend, model, objective, extra_rows, group_options, bounds,
                               min(left, run_seconds), best,
                               f"office group {tried} ({len(group)} offices)", say)
         if (out.x is not None and out.objective is not None
@@ -361,28 +377,6 @@ def _group_bounds(model: Model, plan: np.ndarray, box: tuple[np.ndarray, np.ndar
     follows = ~integer & ((unit_of < 0) | np.isin(unit_of, moved) | np.isin(office_of, group))
     lower[follows], upper[follows] = model.col_lower[follows], model.col_upper[follows]
     return lower, upper
-
-
-def _held_apart_run(backend: Backend, model: Model, objective: np.ndarray,
-                    extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
-                    bounds: tuple[np.ndarray, np.ndarray], time_limit: float,
-                    start: np.ndarray, label: str,
-                    say: Callable[[str], None]) -> BackendOutcome:
-    """:func:`_restricted_run` on only the columns ``bounds`` leave free
-    (:func:`~rebalance.submodel.hold_apart`); the outcome is in the whole model's terms."""
-    part = hold_apart(model, bounds[0], bounds[1], extra_rows)
-    if part is None:
-        return _restricted_run(backend, model, objective, extra_rows, options, bounds,
-                               time_limit, start, label, say)
-    # No progress lines: the part's objective leaves out what the held columns add.
-    out = backend.run(part.model, objective[part.columns], part.extra_rows,
-                      replace(options, progress=None), time_limit, start[part.columns])
-    if out.x is not None:
-        x = part.whole(out.x)
-        out = replace(out, x=x, objective=float(objective @ x),
-                      bound=None if out.bound is None else out.bound + part.constant(objective))
-    _report(label, out, say)
-    return out
 
 
 def _trimmed(backend: Backend, model: Model, objective: np.ndarray,

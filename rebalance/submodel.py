@@ -12,6 +12,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import scipy.sparse as sp
 
 from rebalance.model import Model
 
@@ -22,23 +23,32 @@ TOLERANCE = 1e-6
 
 @dataclass(frozen=True)
 class HeldApart:
-    """The free part of a model whose other columns are held (``model``, with the held rows'
-    extra rows cut down alike), and how to put a plan of it back together."""
+    """The free part of a model whose other columns are held (``model``, with the extra rows
+    cut down alike), and how to go between its columns and the whole model's.
+
+    Its last column stands for every held column: fixed at 1, it carries what they add to
+    an objective, so the part's objective values (and a solver's progress lines and bounds)
+    are the whole model's.
+    """
 
     model: Model
     extra_rows: list[tuple[np.ndarray, float]]
-    columns: np.ndarray  # positions of its columns in the whole model
+    columns: np.ndarray  # positions of its free columns in the whole model
     held: np.ndarray  # the whole model's columns at their held values (free ones at 0)
 
-    def whole(self, x: np.ndarray) -> np.ndarray:
-        """A plan of the whole model from a plan ``x`` of the free part."""
-        full = self.held.copy()
-        full[self.columns] = x
-        return full
+    def objective(self, whole: np.ndarray) -> np.ndarray:
+        """An objective of the whole model, for the part."""
+        return np.append(whole[self.columns], whole @ self.held)
 
-    def constant(self, objective: np.ndarray) -> float:
-        """What the held columns add to ``objective``."""
-        return float(objective @ self.held)
+    def part(self, x: np.ndarray) -> np.ndarray:
+        """A plan of the whole model (inside the bounds) for the part."""
+        return np.append(x[self.columns], 1.0)
+
+    def whole(self, x: np.ndarray) -> np.ndarray:
+        """A plan of the whole model from a plan ``x`` of the part."""
+        full = self.held.copy()
+        full[self.columns] = x[:-1]
+        return full
 
 
 def hold_apart(model: Model, lower: np.ndarray, upper: np.ndarray,
@@ -60,14 +70,15 @@ def hold_apart(model: Model, lower: np.ndarray, upper: np.ndarray,
         return None
     rows = np.flatnonzero(touched)
     reduced = Model(
-        matrix=part[rows],
+        matrix=sp.hstack([part[rows], sp.csr_matrix((rows.size, 1))], format="csr"),
         row_lower=model.row_lower[rows] - activity[rows],
         row_upper=model.row_upper[rows] - activity[rows],
-        col_lower=lower[columns],
-        col_upper=upper[columns],
-        is_integer=model.is_integer[columns],
-        shortfall_weight=model.shortfall_weight[columns],
-        cost=model.cost[columns],
+        col_lower=np.append(lower[columns], 1.0),
+        col_upper=np.append(upper[columns], 1.0),
+        is_integer=np.append(model.is_integer[columns], False),
+        shortfall_weight=np.append(model.shortfall_weight[columns],
+                                   model.shortfall_weight @ held),
+        cost=np.append(model.cost[columns], model.cost @ held),
         blocks={},
         rows=(),
     )
@@ -76,5 +87,5 @@ def hold_apart(model: Model, lower: np.ndarray, upper: np.ndarray,
         used = float(row @ held)
         if not (row[columns] != 0).any() and used > upper_bound + TOLERANCE * (1.0 + abs(used)):
             return None
-        extra.append((row[columns], upper_bound - used))
+        extra.append((np.append(row[columns], 0.0), upper_bound - used))
     return HeldApart(reduced, extra, columns, held)

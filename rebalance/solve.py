@@ -600,7 +600,7 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
         if model.matrix.nnz <= WHOLE_SEARCH_MAX_NONZEROS:
             # Above it the groups get all the time: on agency one search of the whole
             # neighbourhood found nothing in 20-60 s, three runs out of three, and on large
-            # the groups alone did better (17,047 where it had reached 17,524).
+            # the groups alone did better (17,047-17,158 where it had reached 17,524).
             run_pass("near the LP", near, options.shares.near_whole)
         if best is not None and deadline - time.perf_counter() >= MIN_GROUP_SECONDS:
             best = search_by_office_groups(backend, model, objective, extra_rows, options,

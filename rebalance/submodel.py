@@ -1,10 +1,10 @@
 """A model with most of its columns held, cut down to the rest before any solver sees it.
 
-A search that frees a few offices at a time holds almost every column of a large model.
-HiGHS's presolve removes the held ones itself, but that is most of each run: on agency
-(7.2M nonzeros) one group's run spent 4.8 s in presolve and 2.0 s searching.  Taking the
-held columns out here (their values moved into the row bounds, and rows left with nothing
-free dropped once checked) hands the solver only what it may change.
+The searches of a large model hold most of its columns (one kind of decision at a time, a
+few offices at a time).  HiGHS's presolve removes the held ones itself, but that can be
+most of a run: on agency (7.2M nonzeros) one group's run spent 4.8 s in presolve and 2.0 s
+searching.  Taking the held columns out here (their values moved into the row bounds, and
+rows left with nothing free dropped once checked) hands the solver only what it may change.
 """
 
 from __future__ import annotations

@@ -280,15 +280,11 @@ def _restricted_run(backend: Backend, model: Model, objective: np.ndarray,
         if out.x is not None:
             x = part.whole(out.x)
             out = replace(out, x=x, objective=float(objective @ x), row_dual=None)
-    _report(label, out, say)
-    return out
-
-
-def _report(label: str, out: BackendOutcome, say: Callable[[str], None]) -> None:
     if out.x is None or out.objective is None:
         say(f"  {label}: no plan ({out.words})")
     else:
         say(f"  {label}: plan with {out.objective:.6g} in {out.seconds:.1f}s")
+    return out
 
 
 OFFICES_PER_GROUP = 4

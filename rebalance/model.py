@@ -120,25 +120,15 @@ class Model:
         return values
 
     def offices_of_columns(self) -> tuple[np.ndarray, np.ndarray]:
-        """Per column, the two offices its decision is about (-1 where none): a hire's office
-        (twice); a detail's home in force (the original home where the column names only the
-        destination) and its destination; a reassignment's original and new home.  A search
-        that frees a few offices at a time frees the columns about them."""
-        first = np.full(self.num_cols, -1)
-        second = np.full(self.num_cols, -1)
-        if "hire" in self.blocks:
-            block = self.blocks["hire"]
-            first[block.start:block.stop] = second[block.start:block.stop] = block.keys["office"]
-        if "detail" in self.blocks:
-            block = self.blocks["detail"]
-            home = block.keys["home"]
-            first[block.start:block.stop] = np.where(home >= 0, home,
-                                                     self.unit_home[block.keys["unit"]])
-            second[block.start:block.stop] = block.keys["office"]
-        if "home" in self.blocks:
-            block = self.blocks["home"]
-            first[block.start:block.stop] = self.unit_home[block.keys["unit"]]
-            second[block.start:block.stop] = block.keys["office"]
+        """Per column, the two offices it is about (-1 where none): a hire's office (twice);
+        a detail's home in force (the original home where the column names only the
+        destination) and its destination; a reassignment's original and new home; for work,
+        the unit's original home and where the work is done.  A search that frees a few
+        offices at a time frees the columns about them."""
+        second = self.key_of_columns("office")
+        home, unit = self.key_of_columns("home"), self.key_of_columns("unit")
+        original = np.append(self.unit_home, -1)[unit]  # unit -1 (none) reads the -1
+        first = np.where(home >= 0, home, np.where(unit >= 0, original, second))
         return first, second
 
     def row_label(self, row: int) -> tuple[str, str]:

@@ -315,7 +315,7 @@ def search_by_office_groups(backend: Backend, model: Model, objective: np.ndarra
     """
     integer = model.is_integer
     first, second = model.offices_of_columns()
-    unit_of, office_of = model.key_of_columns("unit"), model.key_of_columns("office")
+    unit_of = model.key_of_columns("unit")
     num_offices = int(max(first.max(initial=-1), second.max(initial=-1))) + 1
     rng = np.random.default_rng(options.seed)
     group_options = replace(options, relative_gap=min(options.relative_gap, GROUP_GAP))
@@ -342,7 +342,7 @@ def search_by_office_groups(backend: Backend, model: Model, objective: np.ndarra
         group = groups.pop()
         about = integer & (np.isin(first, group) | np.isin(second, group))
         groups_without_better += 1
-        bounds = _group_bounds(model, best, box, about, group, unit_of, office_of)
+        bounds = _group_bounds(model, best, box, about, group, unit_of, second)
         if np.array_equal(bounds[0][about], bounds[1][about]):
             continue  # nothing about these offices may change
         tried += 1

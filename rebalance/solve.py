@@ -206,9 +206,12 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
         if model.num_integer and options.heuristics and budget > MIN_HEURISTIC_SECONDS:
             if large:
                 if options.threads >= 2:
-                    # The LP bound takes about as long as the passes: run it beside them.
+                    # The LP bound takes about as long as the passes: run it beside them,
+                    # within what is left of the stage (stage two has spent some on its
+                    # bound and trimming by now).
                     bound_on_side = side.submit(_lp_bound, backend, model, objective,
-                                                extra_rows, options, budget, say,
+                                                extra_rows, options,
+                                                deadline - time.perf_counter(), say,
                                                 "beside the search")
                 if start is None or passes_only:
                     # Stage two of a model that branch and bound can still search starts

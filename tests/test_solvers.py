@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import importlib
+import time
 from dataclasses import replace
 
 import pytest
@@ -168,6 +169,39 @@ def test_a_large_model_gets_its_lp_bound(monkeypatch, threads, said_of_the_lp):
     assert forced.plan.total_cost == pytest.approx(usual.plan.total_cost, rel=1e-9)
     assert forced.plan.weighted_shortfall == pytest.approx(usual.plan.weighted_shortfall,
                                                            abs=1e-9)
+
+
+def test_the_lp_beside_the_search_stops_within_its_stage(monkeypatch):
+    # With two threads the LP bound runs beside the search; in stage two it starts after the
+    # held bound and trimming, so its limit must be what is left of the stage, not the
+    # stage's whole share (a medium run once ended 4.7 s past its limit that way).
+    solve_module = importlib.import_module("rebalance.solve")
+    monkeypatch.setattr(solve_module, "LARGE_MODEL_COLUMNS", 0)
+    deadlines: list[float] = []
+    overruns: list[float] = []
+    real_stage, real_lp_bound = solve_module.solve_stage, solve_module._lp_bound
+
+    def stage(*args, **kwargs):
+        deadlines.append(args[5])  # (backend, model, objective, extra_rows, options, deadline)
+        return real_stage(*args, **kwargs)
+
+    def lp_bound(backend, model, objective, extra_rows, options, time_limit, say, when):
+        overruns.append(time.perf_counter() + time_limit - deadlines[-1])
+        return real_lp_bound(backend, model, objective, extra_rows, options, time_limit, say,
+                             when)
+
+    real_trimmed = solve_module._trimmed
+
+    def slow_trimmed(*args, **kwargs):
+        time.sleep(0.5)  # as trimming takes seconds at scale
+        return real_trimmed(*args, **kwargs)
+
+    monkeypatch.setattr(solve_module, "solve_stage", stage)
+    monkeypatch.setattr(solve_module, "_lp_bound", lp_bound)
+    monkeypatch.setattr(solve_module, "_trimmed", slow_trimmed)
+    solve_verified(read_instance(DATA / "tiny"), threads=2)
+    assert len(overruns) == 2  # one per stage
+    assert max(overruns) < 0.1  # the thread's start, not the half second of trimming
 
 
 def test_without_a_bound_from_prices_the_lp_relaxation_runs_after_the_passes(monkeypatch):

@@ -205,10 +205,12 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                              options.shares.trim * (deadline - time.perf_counter()), say)
         if model.num_integer and options.heuristics and budget > MIN_HEURISTIC_SECONDS:
             if large:
-                if options.threads >= 2:
-                    # The LP bound takes about as long as the passes: run it beside them,
-                    # within what is left of the stage (stage two has spent some on its
-                    # bound and trimming by now).
+                if options.threads >= 2 and not passes_only:
+                    # The LP bound takes about as long as the passes (medium: 92 s beside
+                    # them): run it beside them, within what is left of the stage (stage
+                    # two has spent some on its bound and trimming by now).  Not above
+                    # WHOLE_SEARCH_MAX_NONZEROS: agency's LP was not solved in 237 s, and
+                    # its process held 2.3 GiB beside the search's 3.7.
                     bound_on_side = side.submit(_lp_bound, backend, model, objective,
                                                 extra_rows, options,
                                                 deadline - time.perf_counter(), say,

@@ -504,7 +504,7 @@ mode = "shortfall-first"
 name = "highs"
 time_limit_seconds = 60
 relative_gap = 0.01
-threads = 1
+threads = 2  # a large model's bound is worked out beside the search
 seed = 0
 """
     files = {

@@ -6,6 +6,7 @@ The solvers themselves sit behind :mod:`rebalance.backends`.
 
 from __future__ import annotations
 
+import functools
 import math
 import time
 from collections.abc import Callable
@@ -579,7 +580,8 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
             best, best_objective, held_at = out.x, out.objective, np.rint(out.x)
 
     run_pass("hires alone", held_but(("hire",)), options.shares.hires)
-    near, bound, lp_seconds = None, None, None
+    near, lp_seconds = None, None
+    bound: Future[float | None] | None = None
     left = deadline - time.perf_counter()
     if best is not None and not extra_rows and left >= 1.0:
         # Rounding down raises the shortfall, so it has no place under a held shortfall
@@ -595,12 +597,18 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
             near = neighbourhood(rounding.lp_x, rounding.lower, rounding.upper, integer, best)
         left = deadline - time.perf_counter()
         if rounding.lp_row_dual is not None and left >= 1.0:
-            began = time.perf_counter()
-            bound = priced_bound(backend, model, objective, rounding.lp_row_dual, options,
-                                 options.shares.priced_bound * left)
-            if bound is not None:
-                say(f"  bound from the rounding LP's row prices: {bound:.6g} in "
-                    f"{time.perf_counter() - began:.1f}s")
+            pricing = functools.partial(
+                _bound_from_prices, backend, model, objective, rounding.lp_row_dual, options,
+                options.shares.priced_bound * left, say)
+            if options.threads >= 2:
+                # Priced beside the search (agency: 19 s the groups would otherwise wait);
+                # HiGHS lets go of Python while it solves.
+                side = ThreadPoolExecutor(max_workers=1)
+                bound = side.submit(pricing, " beside the search")
+                side.shutdown(wait=False)  # the pricing runs on; its result waits for it
+            else:
+                bound = Future()
+                bound.set_result(pricing(""))
     if near is not None:
         if model.matrix.nnz <= WHOLE_SEARCH_MAX_NONZEROS:
             # Above it the groups get all the time: on agency one search of the whole
@@ -612,7 +620,19 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
                                            deadline, best, near, say)
     else:
         run_pass("details alone", held_but(("detail",)), 1.0)
-    return FirstPlan(best, bound, lp_seconds)
+    return FirstPlan(best, None if bound is None else bound.result(), lp_seconds)
+
+
+def _bound_from_prices(backend: Backend, model: Model, objective: np.ndarray,
+                       prices: np.ndarray, options: SolveOptions, time_limit: float,
+                       say: Callable[[str], None], where: str) -> float | None:
+    """:func:`~rebalance.bounds.priced_bound`, said when found."""
+    began = time.perf_counter()
+    bound = priced_bound(backend, model, objective, prices, options, time_limit)
+    if bound is not None:
+        say(f"  bound from the rounding LP's row prices{where}: {bound:.6g} in "
+            f"{time.perf_counter() - began:.1f}s")
+    return bound
 
 
 def _stage(name: str, out: BackendOutcome) -> StageResult:

@@ -287,10 +287,15 @@ def merge_results(path: Path, new_rows: list[dict[str, object]]) -> list[dict[st
 
 
 def _commit() -> str:
-    """The commit measured; "-dirty" when the working tree had uncommitted changes."""
-    done = subprocess.run(["git", "describe", "--always", "--dirty"], capture_output=True,
-                          text=True, cwd=ROOT)
-    return done.stdout.strip() or "unknown"
+    """The commit measured; "-dirty" when the working tree had uncommitted changes other than
+    this script's own output (which a run that merges its sizes as it goes leaves behind)."""
+    head = subprocess.run(["git", "rev-parse", "--short", "HEAD"], capture_output=True,
+                          text=True, cwd=ROOT).stdout.strip()
+    changed = subprocess.run(
+        ["git", "status", "--porcelain", "--untracked-files=no", "--", ".",
+         f":!{RESULTS.relative_to(ROOT)}", f":!{DOC.relative_to(ROOT)}"],
+        capture_output=True, text=True, cwd=ROOT).stdout.strip()
+    return (head + ("-dirty" if changed else "")) if head else "unknown"
 
 
 def machine(rows: list[dict[str, str]]) -> list[tuple[str, str]]:

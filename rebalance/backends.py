@@ -61,11 +61,12 @@ class TimeShares:
 
     stage1: float = 0.7
     """The shortfall stage; the cost stage gets the rest."""
-    stage1_large: float = 0.85
+    stage1_large: float = 0.88
     """The same for large models, whose first plan and bound need the time (on medium the
-    search near the LP improves for 50 s, and with two threads the LP beside it takes 92 s
-    of 120); stage 2 there needs about 7 s for its bound and a few to trim the plan (agency:
-    trimming found nothing in 31 s once the groups had run)."""
+    search near the LP improves for 50 s, and with two threads the LP beside it takes 92-95
+    s of 120: at 0.85 it finished with a second to spare); stage 2 there needs about 7 s for
+    its bound and 3 s to trim the plan (agency: trimming found nothing in 20-31 s once the
+    groups had run)."""
     lp: float = 0.35
     """A stage's LP relaxation (models up to 30,000 columns)."""
     rens: float = 0.3

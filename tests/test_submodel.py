@@ -5,11 +5,12 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from conftest import scipy_milp
+from conftest import scipy_lp, scipy_milp
 from randomized import random_instance
 
 from rebalance.backends import HighsBackend, SolveOptions
 from rebalance.model import build_model
+from rebalance.split import resplit
 from rebalance.submodel import hold_apart
 
 
@@ -59,3 +60,24 @@ def test_held_values_that_break_a_row_with_nothing_free_are_refused():
     lower = value.copy()
     lower[0] = model.col_lower[0]
     assert hold_apart(model, lower, upper, []) is None
+
+
+@pytest.mark.parametrize("seed", [0, 4, 8])
+def test_resplit_finds_the_least_shortfall_for_a_plans_whole_numbers(seed):
+    # Reference: scipy's linprog on the whole model with every integer column fixed where
+    # the plan has it.  The work split is solved with the held columns taken out.
+    model = build_model(random_instance(seed, people=5, periods=3, offices=3, skills=2))
+    backend, options = HighsBackend(), SolveOptions(relative_gap=0.0)
+    plan = backend.run(model, model.cost, [], options, 60, None).x  # cheap, so short
+    assert plan is not None
+    split = resplit(backend, model, plan, model.shortfall_weight, options, 60)
+    fixed = np.where(model.is_integer, np.rint(plan), model.col_lower)
+    lower = np.where(model.is_integer, fixed, model.col_lower)
+    upper = np.where(model.is_integer, fixed, model.col_upper)
+    reference = scipy_lp(model, model.shortfall_weight, lower, upper)
+    assert reference.status == 0 and split is not None and split.x is not None
+    assert split.objective == pytest.approx(reference.fun, rel=1e-6, abs=1e-6)
+    assert np.array_equal(split.x[model.is_integer], fixed[model.is_integer])
+    activity = model.matrix @ split.x
+    assert np.all(activity >= model.row_lower - 1e-6)
+    assert np.all(activity <= model.row_upper + 1e-6)

@@ -47,8 +47,7 @@ TIME_LIMITS = {"small": 60.0, "medium": 120.0, "agency": 180.0, "large": 600.0}
 COLUMNS = (
     "date", "size", "staff", "offices", "skills", "periods", "seed", "groups", "backend",
     "formulation", "time_limit_s", "relative_gap", "threads", "status", "verified", "columns",
-    "rows",
-    "integer_columns", "read_s", "build_s", "stage1_s", "stage2_s", "solve_s", "extract_s",
+    "rows", "integer_columns", "read_s", "build_s", "stage1_s", "stage2_s", "solve_s", "extract_s",
     "verify_s", "wall_s", "stage1_status", "stage1_gap", "stage2_status", "stage2_gap", "gap",
     "weighted_shortfall", "total_cost", "peak_mib", "solver_peak_mib", "cpu_s", "load_1min",
     "commit",

@@ -100,3 +100,23 @@ def test_out_of_range_solver_options_are_usage_errors_that_say_what_was_expected
         assert f"argument {flag}: got {value!r}; expected {expected}" in err
         assert "Traceback" not in err
     assert not out.exists()
+
+
+def test_plan_keeps_time_for_writing_its_files_inside_the_limit(tmp_path, monkeypatch):
+    # The limit covers the whole run: the solve gets what is left after reading the instance
+    # and the time writing the plan's files is expected to take.
+    import rebalance.planning as planning
+
+    seen: list[tuple[float, float]] = []
+    real = planning.make_plan
+
+    def spy(instance, options, *args, **kwargs):
+        seen.append((options.time_limit_seconds, planning.write_seconds(instance)))
+        return real(instance, options, *args, **kwargs)
+
+    monkeypatch.setattr(planning, "make_plan", spy)
+    assert main(["plan", str(DATA / "tiny"), "-o", str(tmp_path / "plan"), "--time-limit", "30",
+                 "--quiet"]) == EXIT_OK
+    [(limit, writing)] = seen
+    assert writing >= planning.WRITE_SECONDS_BASE
+    assert limit <= 30 - writing

@@ -144,8 +144,8 @@ CAUTION = ("This plan supports a decision; it does not make one. Personnel rules
 
 # Measured (writing the tables, summary, workbook and report of a generated instance's plan,
 # plan.xlsx most of it): medium, 2,000 staff, 3.1 s for 33,000 rows; agency, 6,000 staff,
-# 8.1 s for 91,000 rows (the work rows grow with the people).  The constant covers starting
-# the program.
+# 8.1 s for 91,000 rows; large, 15,000 staff, 19 s for 226,000 rows (the work rows grow with
+# the people).  The constant covers starting the program.
 WRITE_SECONDS_PER_PERSON = 1.6e-3
 WRITE_SECONDS_BASE = 1.0
 

@@ -27,8 +27,7 @@ from rebalance.backends import (
 from rebalance.bounds import priced_bound
 from rebalance.model import LIMIT_FAMILIES, Model
 from rebalance.rounding import held_lp_bounds, neighbourhood, plan_by_rounding, prunes_details
-from rebalance.split import relaxed, resplit, solve_relaxation
-from rebalance.submodel import hold_apart
+from rebalance.split import relaxed, resplit, run_within, solve_relaxation
 
 __all__ = ["SolveOptions", "SolveResult", "StageResult", "Status", "solve", "solve_stage"]
 
@@ -275,17 +274,8 @@ def _restricted_run(backend: Backend, model: Model, objective: np.ndarray,
     """
     run_options = replace(options, progress=None if options.progress is None else (
         lambda text: say(text.replace("searching:", f"{label}:"))))
-    part = hold_apart(model, bounds[0], bounds[1], extra_rows)
-    if part is None:
-        # The held values break a row: let the solver say so on the whole model.
-        out = backend.run(replace(model, col_lower=bounds[0], col_upper=bounds[1]),
-                          objective, extra_rows, run_options, time_limit, start)
-    else:
-        out = backend.run(part.model, part.objective(objective), part.extra_rows,
-                          run_options, time_limit, None if start is None else part.part(start))
-        if out.x is not None:
-            x = part.whole(out.x)
-            out = replace(out, x=x, objective=float(objective @ x), row_dual=None)
+    out = run_within(backend, model, objective, extra_rows, run_options, bounds[0], bounds[1],
+                     time_limit, start)
     if out.x is None or out.objective is None:
         say(f"  {label}: no plan ({out.words})")
     else:

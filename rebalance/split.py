@@ -16,7 +16,7 @@ from rebalance.backends import Backend, BackendOutcome, SolveOptions, Status
 from rebalance.model import Model
 from rebalance.submodel import hold_apart
 
-__all__ = ["relaxed", "resplit", "solve_relaxation"]
+__all__ = ["relaxed", "resplit", "run_within", "solve_relaxation"]
 
 
 def relaxed(model: Model) -> Model:
@@ -37,6 +37,25 @@ def solve_relaxation(backend: Backend, model: Model, objective: np.ndarray,
                        time_limit, None)
 
 
+def run_within(backend: Backend, model: Model, objective: np.ndarray,
+               extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
+               lower: np.ndarray, upper: np.ndarray, time_limit: float,
+               start: np.ndarray | None = None) -> BackendOutcome:
+    """``model`` solved within column bounds ``lower`` and ``upper``, the columns whose
+    bounds meet taken out before the solver sees them (:func:`~rebalance.submodel.hold_apart`).
+    The outcome is in the whole model's terms (its plan, objective and bound)."""
+    part = hold_apart(model, lower, upper, extra_rows)
+    if part is None:  # the held values break a row: let the solver say so on the whole model
+        return backend.run(replace(model, col_lower=lower, col_upper=upper), objective,
+                           extra_rows, options, time_limit, start)
+    out = backend.run(part.model, part.objective(objective), part.extra_rows, options,
+                      time_limit, None if start is None else part.part(start))
+    if out.x is None:
+        return out
+    x = part.whole(out.x)
+    return replace(out, x=x, objective=float(objective @ x), row_dual=None)
+
+
 def resplit(backend: Backend, model: Model, plan: np.ndarray, objective: np.ndarray,
             options: SolveOptions, time_limit: float) -> BackendOutcome | None:
     """Hold every integer column at ``plan``'s value (rounded) and minimise ``objective``
@@ -49,18 +68,12 @@ def resplit(backend: Backend, model: Model, plan: np.ndarray, objective: np.ndar
     whole = np.rint(plan[integer])
     lower, upper = model.col_lower.copy(), model.col_upper.copy()
     lower[integer] = upper[integer] = whole
-    # The held columns are taken out first: on large, the LP with them (2.9M columns) ran
-    # out of the benchmark's 12 GiB of address space in its solver process.
-    part = hold_apart(model, lower, upper, [])
-    if part is None:  # the held values break a row: let the solver say so
-        lp = solve_relaxation(backend, model, objective, [], options, time_limit, lower, upper)
-        x = lp.x
-    else:
-        lp = solve_relaxation(backend, part.model, part.objective(objective), [], options,
-                              time_limit)
-        x = None if lp.x is None else part.whole(lp.x)
-    if lp.status is not Status.OPTIMAL or x is None:
+    # Held apart: on large, the LP with every column (2.9M) ran out of the benchmark's
+    # 12 GiB of address space in its solver process.
+    lp = run_within(backend, relaxed(model), objective, [], replace(options, progress=None),
+                    lower, upper, time_limit)
+    if lp.status is not Status.OPTIMAL or lp.x is None:
         return None
-    x = x.copy()
+    x = lp.x.copy()
     x[integer] = whole  # the LP's values sit within its tolerance of these
-    return replace(lp, x=x, objective=float(objective @ x), row_dual=None)
+    return replace(lp, x=x, objective=float(objective @ x))

@@ -142,11 +142,12 @@ CAUTION = ("This plan supports a decision; it does not make one. Personnel rules
            "with staff representatives and local law govern any detail, reassignment or hire.")
 
 
-# Measured (writing the tables, summary, workbook and report of a generated instance's plan,
-# plan.xlsx most of it): medium, 2,000 staff, 3.1 s for 33,000 rows; agency, 6,000 staff,
-# 8.1 s for 91,000 rows; large, 15,000 staff, 19 s for 226,000 rows (the work rows grow with
-# the people).  The constant covers starting the program.
-WRITE_SECONDS_PER_PERSON = 1.6e-3
+# Measured (writing the tables, summary, workbook and report of a generated instance's plan):
+# medium, 2,000 staff, 1.5 s for 32,000 rows; the same plan with its work table eight times
+# over (234,000 rows, about large's 226,000), 9.1 s.  The work rows grow with the people.
+# With openpyxl writing plan.xlsx it had been 3.1 s for medium and 19 s for large.  The
+# constant covers starting the program.
+WRITE_SECONDS_PER_PERSON = 0.6e-3
 WRITE_SECONDS_BASE = 1.0
 
 

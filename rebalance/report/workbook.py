@@ -8,12 +8,14 @@ arithmetic here is summing plan tables for the summary sheet.
 from __future__ import annotations
 
 import datetime as dt
+import itertools
 import math
 import os
 from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
+import numpy as np
 import pandas as pd
 
 from rebalance.plan import PLAN_TABLES
@@ -25,9 +27,12 @@ MONEY = "#,##0"
 FTE = "#,##0.00"
 WHOLE = "#,##0"
 SHARE = "0.0%"
-HEADER_FILL = "FF23404A"  # deep slate, the report's ink colour
-HEADER_FONT = "FFFFFFFF"
-BAND_FILL = "FFF3EFE6"  # warm paper, for the summary's section labels
+HEADER_FILL = "#23404A"  # deep slate, the report's ink colour
+HEADER_FONT = "#FFFFFF"
+BAND_FILL = "#F3EFE6"  # warm paper, for the summary's section labels
+WARNING_FONT = "#B03A2E"
+# Rows one worksheet holds, header included: a longer table cannot be written whole.
+SHEET_ROWS = 1_048_576
 
 # What each plan sheet is, shown in the summary's table of contents.
 SHEET_NOTES = {
@@ -62,33 +67,70 @@ def _format_for(column: str) -> str | None:
 
 def write_workbook(data: ReportData, path: str | Path) -> Path:
     """Write ``plan.xlsx`` (atomically: a temporary file renamed into place)."""
-    from openpyxl import Workbook
+    from xlsxwriter import Workbook
 
     target = Path(path)
-    wb = Workbook()
-    summary = wb.active
-    if summary is None:  # a new workbook always has a sheet; keep mypy and readers honest
-        summary = wb.create_sheet()
-    summary.title = "summary"
     sheets: list[tuple[str, pd.DataFrame]] = [(n, data.plan.table(n)) for n in PLAN_TABLES]
     for name in ("frontier", "scenarios", "marginal_values"):
         frame = getattr(data, name)
         if frame is not None:
             sheets.append((name, frame))
     sheets.extend(data.tables)
-    _summary_sheet(summary, data, [n for n, _ in sheets])
-    for name, frame in sheets:
-        _table_sheet(wb.create_sheet(name), frame)
+    # A table longer than a worksheet is cut, and the summary says so first: failing here
+    # would lose the whole plan folder for one sheet that the CSV files hold in full.
+    cut = [_cut_note(name, len(frame)) for name, frame in sheets if len(frame) >= SHEET_ROWS]
+    sheets = [(name, frame.iloc[:SHEET_ROWS - 1]) for name, frame in sheets]
     target.parent.mkdir(parents=True, exist_ok=True)
     # A plain file beside the target (not mkstemp, whose 0600 mode would stick to plan.xlsx).
     tmp = target.with_name(f".{target.name}.tmp")
     try:
-        wb.save(tmp)
+        # constant_memory sends each row to disk when the next one starts, so a large plan is
+        # never held whole in memory; it needs every sheet written top to bottom.  Text is
+        # written as text: no turning "00123" into a number or "=..." into a formula.
+        book = Workbook(str(tmp), {"constant_memory": True, "strings_to_numbers": False,
+                                   "strings_to_formulas": False, "strings_to_urls": False})
+        styles = _Styles(book)
+        _summary_sheet(book.add_worksheet("summary"), styles, data,
+                       [n for n, _ in sheets], cut)
+        for name, frame in sheets:
+            _table_sheet(book.add_worksheet(name), styles, frame)
+        book.close()
         os.replace(tmp, target)
     except BaseException:
         tmp.unlink(missing_ok=True)
         raise
     return target
+
+
+def _cut_note(name: str, rows: int) -> str:
+    where = f"{name}.csv has" if name in PLAN_TABLES else "the other outputs have"
+    return (f"The {name} sheet shows the first {SHEET_ROWS - 1:,} of its {rows:,} rows, all "
+            f"a worksheet holds; {where} every row.")
+
+
+class _Styles:
+    """The workbook's cell formats, each added once (a workbook keeps every one it is given)."""
+
+    def __init__(self, book: Any) -> None:
+        self._book = book
+        self.header = book.add_format({"bold": True, "font_color": HEADER_FONT,
+                                       "bg_color": HEADER_FILL, "pattern": 1,
+                                       "valign": "vcenter"})
+        self.title = book.add_format({"bold": True, "font_size": 15})
+        self.band_label = book.add_format({"bold": True, "font_size": 12,
+                                           "bg_color": BAND_FILL, "pattern": 1})
+        self.band = book.add_format({"bg_color": BAND_FILL, "pattern": 1})
+        self.warning = book.add_format({"bold": True, "font_color": WARNING_FONT})
+        self.bold = book.add_format({"bold": True})
+        self.caution = book.add_format({"text_wrap": True, "valign": "top"})
+        self._numbers: dict[str, Any] = {}
+
+    def number(self, fmt: str | None) -> Any:
+        if fmt is None:
+            return None
+        if fmt not in self._numbers:
+            self._numbers[fmt] = self._book.add_format({"num_format": fmt})
+        return self._numbers[fmt]
 
 
 def _cell_value(value: Any) -> Any:
@@ -97,24 +139,24 @@ def _cell_value(value: Any) -> Any:
     if isinstance(value, float) and math.isnan(value):
         return None
     if hasattr(value, "item"):  # numpy scalars
-        return value.item()
+        return _cell_value(value.item())
+    if isinstance(value, float) and math.isinf(value):
+        return str(value)  # a cell has no infinite number; "inf" as the CSV file has it
     return value
 
 
-def _style_header(ws: Any, row: int, count: int) -> None:
-    from openpyxl.styles import Alignment, Font, PatternFill
-
-    for col in range(1, count + 1):
-        cell = ws.cell(row=row, column=col)
-        cell.font = Font(bold=True, color=HEADER_FONT)
-        cell.fill = PatternFill("solid", fgColor=HEADER_FILL)
-        cell.alignment = Alignment(vertical="center")
+def _column_values(column: pd.Series) -> list[Any]:
+    """A column's cells as Python values, None where missing (see :func:`_cell_value`)."""
+    if isinstance(column.dtype, np.dtype) and column.dtype.kind in "biuf" and \
+            np.isfinite(column.to_numpy(dtype=float)).all():
+        return column.tolist()  # plain numbers, none missing: the common case, kept fast
+    missing = column.isna().tolist()
+    return [None if gone else _cell_value(v) for v, gone in zip(column.tolist(), missing,
+                                                                strict=True)]
 
 
 def _fit_widths(ws: Any, columns: Sequence[str], frame: pd.DataFrame | None = None) -> None:
-    from openpyxl.utils import get_column_letter
-
-    for i, column in enumerate(columns, 1):
+    for i, column in enumerate(columns):
         width = len(str(column))
         if frame is not None and len(frame):
             sample = frame[column].head(500)
@@ -126,59 +168,56 @@ def _fit_widths(ws: Any, columns: Sequence[str], frame: pd.DataFrame | None = No
             else:
                 lengths = [len(str(v)) for v in sample.tolist() if not pd.isna(v)]
                 width = max([width, *lengths])
-        ws.column_dimensions[get_column_letter(i)].width = min(max(width + 2, 9), 48)
+        ws.set_column(i, i, min(max(width + 2, 9), 48))
 
 
-def _table_sheet(ws: Any, frame: pd.DataFrame) -> None:
+def _table_sheet(ws: Any, styles: _Styles, frame: pd.DataFrame) -> None:
     columns = [str(c) for c in frame.columns]
-    ws.append(columns)
-    _style_header(ws, 1, len(columns))
-    formats = [_format_for(c) for c in columns]
-    for values in frame.itertuples(index=False, name=None):
-        ws.append([_cell_value(v) for v in values])
-    for j, fmt in enumerate(formats, 1):
-        if fmt is None:
-            continue
-        for (cell,) in ws.iter_rows(min_row=2, min_col=j, max_col=j):
-            cell.number_format = fmt
-    ws.freeze_panes = "A2"
+    for j, column in enumerate(columns):
+        ws.write_string(0, j, column, styles.header)
+    formats = [styles.number(_format_for(c)) for c in columns]
+    values = [_column_values(frame.iloc[:, j]) for j in range(len(columns))]
+    write = ws.write
+    for i, row in enumerate(zip(*values, strict=True), 1):
+        for j, value in enumerate(row):
+            write(i, j, value, formats[j])
+    ws.freeze_panes(1, 0)
     if columns:
-        ws.auto_filter.ref = ws.dimensions
+        ws.autofilter(0, 0, len(frame), len(columns) - 1)
     _fit_widths(ws, columns, frame)
 
 
-def _summary_sheet(ws: Any, data: ReportData, sheet_names: Sequence[str]) -> None:
-    from openpyxl.styles import Alignment, Font, PatternFill
-
+def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequence[str],
+                   cut: Sequence[str] = ()) -> None:
     plan, instance, run = data.plan, data.instance, data.summary
     demand = float(plan.coverage["demand_fte"].sum()) if len(plan.coverage) else 0.0
-    bold = Font(bold=True)
+    rows = itertools.count()  # rows go strictly downwards (constant_memory)
 
     def band(text: str) -> None:
-        ws.append([])
-        ws.append([text])
-        cell = ws.cell(row=ws.max_row, column=1)
-        cell.font = Font(bold=True, size=12)
-        for col in range(1, 6):
-            ws.cell(row=ws.max_row, column=col).fill = PatternFill("solid", fgColor=BAND_FILL)
+        next(rows)  # a blank row above each band
+        row = next(rows)
+        ws.write_string(row, 0, text, styles.band_label)
+        for col in range(1, 5):
+            ws.write_blank(row, col, None, styles.band)
 
     def line(label: str, value: Any, fmt: str | None = None, note: str = "") -> None:
-        ws.append([label, _cell_value(value), note or None])
-        if fmt:
-            ws.cell(row=ws.max_row, column=2).number_format = fmt
+        row = next(rows)
+        ws.write_string(row, 0, label)
+        ws.write(row, 1, _cell_value(value), styles.number(fmt))
+        if note:
+            ws.write_string(row, 2, note)
 
-    ws.append([f"Staffing plan for {instance.name}"])
-    ws.cell(row=1, column=1).font = Font(bold=True, size=15)
-    ws.append([f"{len(instance.periods)} periods, {instance.periods[0].name} to "
-               f"{instance.periods[-1].name}; {len(instance.offices)} offices, "
-               f"{len(instance.staff)} staff; written "
-               f"{dt.datetime.now(dt.UTC).strftime('%Y-%m-%d %H:%M')} UTC"])
-    warnings = quality_notes(data)
+    ws.write_string(next(rows), 0, f"Staffing plan for {instance.name}", styles.title)
+    ws.write_string(next(rows), 0,
+                    f"{len(instance.periods)} periods, {instance.periods[0].name} to "
+                    f"{instance.periods[-1].name}; {len(instance.offices)} offices, "
+                    f"{len(instance.staff)} staff; written "
+                    f"{dt.datetime.now(dt.UTC).strftime('%Y-%m-%d %H:%M')} UTC")
+    warnings = [*cut, *quality_notes(data)]
     if warnings:
         band("Read this first")
         for text in warnings:
-            ws.append([text])
-            ws.cell(row=ws.max_row, column=1).font = Font(bold=True, color="FFB03A2E")
+            ws.write_string(next(rows), 0, text, styles.warning)
     band("Headline")
     line("status", run.status)
     line("weighted shortfall (FTE-periods)", plan.weighted_shortfall, FTE)
@@ -192,24 +231,26 @@ def _summary_sheet(ws: Any, data: ReportData, sheet_names: Sequence[str]) -> Non
     line("reassignments", len(plan.reassignments), WHOLE)
 
     band("Spending against budget")
-    header = ["year", "hiring spend", "hiring cap", "moves spend", "moves cap"]
-    ws.append(header)
-    _style_header(ws, ws.max_row, len(header))
+    header_row = next(rows)
+    for col, text in enumerate(["year", "hiring spend", "hiring cap", "moves spend",
+                                "moves cap"]):
+        ws.write_string(header_row, col, text, styles.header)
     costs = plan.costs.groupby(["year", "kind"])["cost"].sum() if len(plan.costs) else None
+    money = styles.number(MONEY)
     for year in instance.years:
         def spent(*kinds: str, year: str = year) -> float:
             return sum(float(costs.get((year, k), 0.0)) for k in kinds) if costs is not None \
                 else 0.0
 
         budget = instance.budget(year)
-        ws.append([year, spent("onboarding", "new_position_salary"),
-                   None if budget is None else budget.hiring,
-                   spent("detail", "relocation"), None if budget is None else budget.moves])
-        for col in range(2, 6):
-            ws.cell(row=ws.max_row, column=col).number_format = MONEY
-        for col in (3, 5):
-            if ws.cell(row=ws.max_row, column=col).value is None:
-                ws.cell(row=ws.max_row, column=col).value = "no cap"
+        row = next(rows)
+        ws.write(row, 0, _cell_value(year))
+        for col, value in enumerate([spent("onboarding", "new_position_salary"),
+                                     None if budget is None else budget.hiring,
+                                     spent("detail", "relocation"),
+                                     None if budget is None else budget.moves], 1):
+            value = _cell_value(value)
+            ws.write(row, col, "no cap" if value is None else value, money)
 
     band("How the plan was found")
     line("solver", run.solver_version or run.solver)
@@ -225,15 +266,14 @@ def _summary_sheet(ws: Any, data: ReportData, sheet_names: Sequence[str]) -> Non
 
     band("Sheets")
     for name in sheet_names:
-        ws.append([name, SHEET_NOTES.get(name, "")])
-        ws.cell(row=ws.max_row, column=1).font = bold
+        row = next(rows)
+        ws.write_string(row, 0, name, styles.bold)
+        ws.write_string(row, 1, SHEET_NOTES.get(name, ""))
 
     band("Caution")
-    ws.append([run.caution])
-    ws.merge_cells(start_row=ws.max_row, start_column=1, end_row=ws.max_row, end_column=5)
-    ws.cell(row=ws.max_row, column=1).alignment = Alignment(wrap_text=True, vertical="top")
-    ws.row_dimensions[ws.max_row].height = 48
-    ws.column_dimensions["A"].width = 36
-    for letter in "BCDE":
-        ws.column_dimensions[letter].width = 16
-    ws.freeze_panes = "A2"
+    row = next(rows)
+    ws.set_row(row, 48)  # before the row's cells: constant_memory writes a row out whole
+    ws.merge_range(row, 0, row, 4, run.caution, styles.caution)
+    ws.set_column(0, 0, 36)
+    ws.set_column(1, 4, 16)
+    ws.freeze_panes(1, 0)

@@ -37,9 +37,9 @@ def test_headers_frozen_filtered_and_formatted():
         sheet = book[name]
         assert sheet.freeze_panes == "A2", name
         assert sheet["A1"].font.bold, name
+        widths = _fitted_widths(sheet)
         for cell in sheet[1]:
-            width = sheet.column_dimensions[cell.column_letter].width
-            assert width >= len(str(cell.value)), (name, cell.value)
+            assert widths[cell.column_letter] >= len(str(cell.value)), (name, cell.value)
         if sheet.max_row > 1:
             assert sheet.auto_filter.ref, name
     hires = book["hires"]
@@ -62,3 +62,101 @@ def test_summary_sheet_figures_and_caution():
     assert values["people hired"] == summary["hires"]
     assert values["status"] == summary["status"]
     assert CAUTION in values
+
+
+def _fitted_widths(sheet) -> dict[str, float]:
+    """Column widths by letter; a writer may store neighbours of equal width as one range."""
+    from openpyxl.utils import get_column_letter
+
+    widths = {}
+    for dimension in sheet.column_dimensions.values():
+        if dimension.customWidth:
+            for index in range(dimension.min, dimension.max + 1):
+                widths[get_column_letter(index)] = dimension.width
+    return widths
+
+
+def test_every_column_has_a_fitted_width():
+    book = load_workbook(tiny_analysis_folder() / "plan.xlsx")
+    for name in book.sheetnames[1:]:
+        sheet = book[name]
+        widths = _fitted_widths(sheet)
+        for cell in sheet[1]:
+            assert widths[cell.column_letter] >= len(str(cell.value)) + 2, (name, cell.value)
+    summary = _fitted_widths(book["summary"])
+    assert summary["A"] >= 36 and all(summary[letter] >= 16 for letter in "BCDE")
+
+
+def _tiny_data(tables):
+    from dataclasses import replace
+
+    from report_cases import TINY
+
+    from rebalance import read_instance
+    from rebalance.report.inputs import report_data_from_folder
+
+    return replace(report_data_from_folder(tiny_plan_folder(), read_instance(TINY)),
+                   tables=tables)
+
+
+def test_text_stays_text_and_missing_or_infinite_numbers_stay_readable(tmp_path):
+    from rebalance.report.workbook import write_workbook
+
+    odd = pd.DataFrame({
+        "person": ["00123", "=1+1", "https://example.invalid/p", "1e3"],
+        "year": ["2027", "2028", None, "2029"],
+        "gain_fte": [1.5, float("nan"), float("inf"), -float("inf")],
+    })
+    path = write_workbook(_tiny_data((("reasons", odd),)), tmp_path / "plan.xlsx")
+    sheet = load_workbook(path)["reasons"]
+    rows = list(sheet.iter_rows(min_row=2, values_only=True))
+    assert [r[0] for r in rows] == ["00123", "=1+1", "https://example.invalid/p", "1e3"]
+    assert all(sheet.cell(row=i, column=1).data_type == "s" for i in range(2, 6))
+    assert [r[1] for r in rows] == ["2027", "2028", None, "2029"]
+    assert [r[2] for r in rows] == [1.5, None, "inf", "-inf"]
+    assert sheet.cell(row=2, column=3).number_format == "#,##0.00"
+    assert not sheet.cell(row=2, column=1).hyperlink
+    costs = load_workbook(tiny_plan_folder() / "plan.xlsx")["costs"]
+    assert {costs.cell(row=i, column=1).data_type for i in range(2, costs.max_row + 1)} == {"s"}
+
+
+def test_empty_table_keeps_a_filter_over_its_header(tmp_path):
+    from rebalance.report.workbook import write_workbook
+
+    empty = pd.DataFrame(columns=["change", "person", "cost"])
+    path = write_workbook(_tiny_data((("changes", empty),)), tmp_path / "plan.xlsx")
+    sheet = load_workbook(path)["changes"]
+    assert sheet.auto_filter.ref == "A1:C1"
+    assert [c.value for c in sheet[1]] == ["change", "person", "cost"]
+
+
+def test_a_failed_write_leaves_the_old_workbook_and_no_temporary_file(tmp_path, monkeypatch):
+    from rebalance.report import workbook
+
+    path = tmp_path / "plan.xlsx"
+    path.write_bytes(b"the previous workbook")
+
+    def broken(*args):
+        raise RuntimeError("disk went away")
+
+    monkeypatch.setattr(workbook, "_table_sheet", broken)
+    with pytest.raises(RuntimeError):
+        workbook.write_workbook(_tiny_data(()), path)
+    assert path.read_bytes() == b"the previous workbook"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["plan.xlsx"]
+
+
+def test_a_table_longer_than_a_sheet_is_cut_and_the_summary_says_so_first(tmp_path,
+                                                                          monkeypatch):
+    from rebalance.report import workbook
+
+    data = _tiny_data((("reasons", pd.DataFrame({"person": [f"p{i}" for i in range(1000)]})),))
+    assert max(len(data.plan.table(name)) for name in PLAN_TABLES) < 999
+    monkeypatch.setattr(workbook, "SHEET_ROWS", 1000)  # instead of a million-row table
+    book = load_workbook(workbook.write_workbook(data, tmp_path / "plan.xlsx"))
+    reasons = [row[0] for row in book["reasons"].iter_rows(min_row=2, values_only=True)]
+    assert reasons == [f"p{i}" for i in range(999)]
+    summary = [row[0] for row in book["summary"].iter_rows(values_only=True) if row[0]]
+    note = next(i for i, text in enumerate(summary) if "reasons sheet" in text)
+    assert "999 of its 1,000 rows" in summary[note]
+    assert summary[note - 1] == "Read this first"

@@ -10,8 +10,8 @@ from __future__ import annotations
 
 import contextlib
 import os
+import secrets
 import shutil
-import tempfile
 from collections import defaultdict
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
@@ -319,7 +319,10 @@ def staged_folder(out_dir: str | Path) -> Iterator[Path]:
     """Write into a temporary sibling folder, then swap it in: all of it or nothing."""
     out = Path(out_dir)
     out.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.", dir=out.parent))
+    # A plain mkdir with a random name, not mkdtemp: its 0700 mode would stick to the plan
+    # folder once swapped in, where a colleague reading the plan expects the usual mode.
+    tmp = out.parent / f".{out.name}.{secrets.token_hex(8)}"
+    tmp.mkdir()
     try:
         yield tmp
     except BaseException:

@@ -126,3 +126,13 @@ def test_folder_summary_totals_are_checked(tiny_plan, tmp_path):
     assert [v.rule for v in verify_folder(instance, tmp_path / "plan")] == ["summary"]
     (tmp_path / "plan" / "work.csv").unlink()
     assert [v.rule for v in verify_folder(instance, tmp_path / "plan")] == ["missing_table"]
+
+
+def test_the_plan_folder_has_the_mode_of_any_new_folder(tiny_plan, tmp_path):
+    # Swapped in whole from a staging folder, it must not keep a private staging mode: a
+    # colleague reading the plan expects what a plain mkdir gives under the same umask.
+    _, result = tiny_plan
+    write_outputs(result, tmp_path / "plan")
+    (tmp_path / "plain").mkdir()
+    assert (tmp_path / "plan").stat().st_mode == (tmp_path / "plain").stat().st_mode
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["plain", "plan"]

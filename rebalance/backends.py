@@ -226,12 +226,18 @@ IPM_LP_COLUMNS = 30_000
 
 
 # HiGHS answers its interrupt callback during simplex, interior point and branch and bound,
-# but not during presolve: on the agency benchmark (6.8M nonzeros) presolve ran 170 s past the
-# limit (issue 3).  Above this size each run goes to a child process that is killed at the
-# wall-clock limit, HiGHS being told to stop a grace before; below it, runs are short and
-# stay in process.
+# but not everywhere in presolve: on the agency benchmark (6.8M nonzeros) presolve ran 170 s
+# past the limit, and on the small one (10k columns) the presolve of a restart deep in the
+# search (HPresolve::strengthenInequalities, HiGHS 1.16) ran on for over 13 minutes past a
+# 1,500 s limit.  So every MIP run above a toy's size, and every LP above HARD_STOP_NONZEROS,
+# goes to a child process that is killed at the wall-clock limit, HiGHS being told to stop a
+# grace before (more for large models, which take longer to hand back after an interrupt).
+# Toy MIPs (the test suite's: 227 nonzeros, solved in milliseconds) stay in process, where
+# forking would cost more than the solve (tiny: 34 ms in process, 120 ms in children).
 HARD_STOP_NONZEROS = 500_000
+CHILD_MIP_NONZEROS = 5_000
 HIGHS_GRACE_SECONDS = 3.0
+SMALL_GRACE_SECONDS = 0.5
 
 
 def _forget_solver_threads() -> None:
@@ -332,10 +338,12 @@ class HighsBackend:
 
     def run(self, model: Model, objective: np.ndarray, extra_rows: list[tuple[np.ndarray, float]],
             options: SolveOptions, time_limit: float, start: np.ndarray | None) -> BackendOutcome:
-        if model.matrix.nnz < HARD_STOP_NONZEROS:
+        large = model.matrix.nnz >= HARD_STOP_NONZEROS
+        if not large and (not model.num_integer or model.matrix.nnz < CHILD_MIP_NONZEROS):
             return self._run_here(model, objective, extra_rows, options, time_limit, start)
         # HiGHS stops itself a grace before the kill, so the kill keeps the caller's limit.
-        own_limit = max(time_limit - HIGHS_GRACE_SECONDS, 0.5 * time_limit)
+        grace = HIGHS_GRACE_SECONDS if large else SMALL_GRACE_SECONDS
+        own_limit = max(time_limit - grace, 0.5 * time_limit)
         out = _run_in_child(
             lambda opts, on_plan: self._run_here(model, objective, extra_rows, opts, own_limit,
                                                  start, on_plan),

@@ -71,9 +71,9 @@ def test_a_bound_below_zero_is_raised_to_the_objective_floor():
 
 
 def test_a_run_in_a_child_process_gives_the_same_optimum_and_its_progress(monkeypatch):
-    # Above HARD_STOP_NONZEROS HiGHS runs in a child process that can be killed at the
-    # wall-clock limit; forced here on tiny, it must give the in-process optimum, in both
-    # stages.
+    # MIPs above a toy's size, and anything above HARD_STOP_NONZEROS, run in a child process
+    # that can be killed at the wall-clock limit; forced here on tiny, it must give the
+    # in-process optimum, in both stages.
     from conftest import DATA, solve_verified
 
     from rebalance import backends as backends_module
@@ -171,3 +171,30 @@ def test_a_plan_found_by_a_child_before_the_kill_is_scored_and_kept(monkeypatch)
     activity = model.matrix @ out.x
     assert (activity <= model.row_upper + 1e-6).all()
     assert (activity >= model.row_lower - 1e-6).all()
+
+
+def test_a_small_mip_run_that_does_not_stop_is_killed_at_the_wall_clock(monkeypatch):
+    # Size is no guard: HiGHS 1.16 ran on for over 13 minutes past a 1,500 s limit in the
+    # presolve of a restart on a 10k-column model (benchmarks/notes.md, ninth session).  A
+    # Python sleep stands in for the solver that does not give control back.
+    import time
+
+    from conftest import DATA
+
+    from rebalance import backends as backends_module
+    from rebalance import read_instance
+    from rebalance.backends import HighsBackend, SolveOptions, Status
+    from rebalance.model import build_model
+
+    model = build_model(read_instance(DATA.parent.parent / "instances" / "demo"))
+    assert model.num_integer and model.matrix.nnz < backends_module.HARD_STOP_NONZEROS
+
+    def does_not_stop(self, *args, **kwargs):
+        time.sleep(60)
+        raise AssertionError("not reached")
+
+    monkeypatch.setattr(HighsBackend, "_run_here", does_not_stop)
+    started = time.perf_counter()
+    out = HighsBackend().run(model, model.shortfall_weight, [], SolveOptions(), 1.0, None)
+    assert time.perf_counter() - started < 10
+    assert out.status is Status.NO_PLAN_IN_TIME and out.x is None

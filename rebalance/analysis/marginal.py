@@ -20,13 +20,19 @@ import pandas as pd
 
 from rebalance.analysis.limits import limit_use
 from rebalance.analysis.scenarios import solve_many
+from rebalance.backends import HighsBackend
 from rebalance.instance import Budget, Instance
 from rebalance.model import Model, build_model
 from rebalance.planning import PlanResult
-from rebalance.solve import SolveOptions
+from rebalance.solve import SolveOptions, Status
+from rebalance.split import solve_relaxation
 
 __all__ = ["MARGINAL_COLUMNS", "Candidate", "MarginalValues", "Steps", "binding_candidates",
            "lp_row_duals", "marginal_values"]
+
+# The estimate is one LP before the re-solves: bounded, as every solve is, and never more than
+# a re-solve gets (``marginal_values`` passes the run's own limit when it is shorter).
+ESTIMATE_SECONDS = 60.0
 
 MARGINAL_COLUMNS = (
     "rank", "limit", "where", "current", "step", "unit", "binding_rows", "shortfall_reduction",
@@ -148,39 +154,21 @@ def binding_candidates(base: PlanResult, steps: Steps = Steps()) -> list[Candida
     return out
 
 
-def lp_row_duals(model: Model, x: np.ndarray, objective: np.ndarray) -> np.ndarray | None:
+def lp_row_duals(model: Model, x: np.ndarray, objective: np.ndarray,
+                 time_limit: float = ESTIMATE_SECONDS) -> np.ndarray | None:
     """Row duals of the LP with integer columns boxed to within one unit of ``x``.
 
-    Built from the model arrays with highspy, as :class:`rebalance.backends.HighsBackend` does.
+    Solved by :class:`~rebalance.backends.HighsBackend` within ``time_limit`` seconds.
     HiGHS's row dual is the change of the objective per unit increase of the row's active
-    bound.  None when the LP is not solved to optimality.
+    bound.  None when the LP is not solved to optimality in time.
     """
-    import highspy
-
     integer = model.is_integer
     lower, upper = model.col_lower.copy(), model.col_upper.copy()
     lower[integer] = np.maximum(lower[integer], np.rint(x[integer]) - 1.0)
     upper[integer] = np.minimum(upper[integer], np.rint(x[integer]) + 1.0)
-    csc = model.matrix.tocsc()
-    lp = highspy.HighsLp()
-    lp.num_col_ = model.num_cols
-    lp.num_row_ = model.num_rows
-    lp.col_cost_ = objective.astype(float)
-    lp.col_lower_ = lower
-    lp.col_upper_ = upper
-    lp.row_lower_ = model.row_lower
-    lp.row_upper_ = model.row_upper
-    lp.a_matrix_.format_ = highspy.MatrixFormat.kColwise
-    lp.a_matrix_.start_ = csc.indptr.astype(np.int32)
-    lp.a_matrix_.index_ = csc.indices.astype(np.int32)
-    lp.a_matrix_.value_ = csc.data
-    h = highspy.Highs()
-    h.setOptionValue("output_flag", False)
-    h.passModel(lp)
-    h.run()
-    if h.getModelStatus() != highspy.HighsModelStatus.kOptimal:
-        return None
-    return np.asarray(h.getSolution().row_dual, dtype=float)
+    out = solve_relaxation(HighsBackend(), model, objective, [], SolveOptions(), time_limit,
+                           lower, upper)
+    return out.row_dual if out.status is Status.OPTIMAL else None
 
 
 def _rows_of(model: Model, candidate: Candidate, instance: Instance) -> list[tuple[int, float]]:
@@ -221,7 +209,8 @@ def marginal_values(base: PlanResult, options: SolveOptions, steps: Steps = Step
         if model.num_cols == base.solve.x.size:
             objective = (model.shortfall_weight if options.mode == "shortfall-first"
                          else model.cost + options.shortfall_cost * model.shortfall_weight)
-            duals = lp_row_duals(model, base.solve.x, objective)
+            duals = lp_row_duals(model, base.solve.x, objective,
+                                 min(ESTIMATE_SECONDS, options.time_limit_seconds))
             scale = 1.0 if options.mode == "shortfall-first" else options.shortfall_cost
             if duals is not None:
                 for c, cand in enumerate(chosen):

@@ -31,6 +31,7 @@ __all__ = [
     "extract_plan",
     "read_plan",
     "schedule_details",
+    "sibling_name",
     "staged_folder",
     "write_plan",
 ]
@@ -314,14 +315,21 @@ def cost_table(instance: Instance, details: pd.DataFrame, reassignments: pd.Data
 # files
 
 
+def sibling_name(path: Path) -> Path:
+    """A fresh hidden name beside ``path``, to write under before renaming into place.
+
+    Not mkstemp or mkdtemp: their private modes (0600, 0700) would stick to the file or folder
+    once renamed, where a colleague reading the plan expects the usual mode.
+    """
+    return path.with_name(f".{path.name}.{secrets.token_hex(8)}.tmp")
+
+
 @contextlib.contextmanager
 def staged_folder(out_dir: str | Path) -> Iterator[Path]:
     """Write into a temporary sibling folder, then swap it in: all of it or nothing."""
     out = Path(out_dir)
     out.parent.mkdir(parents=True, exist_ok=True)
-    # A plain mkdir with a random name, not mkdtemp: its 0700 mode would stick to the plan
-    # folder once swapped in, where a colleague reading the plan expects the usual mode.
-    tmp = out.parent / f".{out.name}.{secrets.token_hex(8)}"
+    tmp = sibling_name(out)
     tmp.mkdir()
     try:
         yield tmp

@@ -4,10 +4,11 @@ temporary name in its folder and renamed into place, so a reader never sees half
 from __future__ import annotations
 
 import os
-import tempfile
 from pathlib import Path
 
 import pandas as pd
+
+from rebalance.plan import sibling_name
 
 __all__ = ["write_table", "write_tables"]
 
@@ -16,13 +17,13 @@ def write_table(frame: pd.DataFrame, path: str | Path) -> Path:
     """Write ``frame`` to ``path`` (CSV, no index) by temp file and ``os.replace``."""
     target = Path(path)
     target.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
+    tmp = sibling_name(target)
     try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="") as handle:
+        with open(tmp, "x", encoding="utf-8", newline="") as handle:
             frame.to_csv(handle, index=False)
         os.replace(tmp, target)
     except BaseException:
-        Path(tmp).unlink(missing_ok=True)
+        tmp.unlink(missing_ok=True)
         raise
     return target
 

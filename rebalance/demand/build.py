@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import os
 import re
-import tempfile
 from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
@@ -29,7 +28,7 @@ from rebalance.demand.history import (
 from rebalance.demand.quality import QualityResult, check_quality
 from rebalance.demand.standards import EffortStandards, estimate_standards, forecast_noncase
 from rebalance.instance import Period
-from rebalance.plan import staged_folder
+from rebalance.plan import sibling_name, staged_folder
 from rebalance.readers import Problem, _settings_periods, read_tables
 
 __all__ = ["DemandResult", "build_demand", "run_demand", "write_demand"]
@@ -278,11 +277,10 @@ def _check_horizon(history: History, periods: tuple[Period, ...],
 
 def _write_csv_atomic(frame: pd.DataFrame, path: Path) -> Path:
     """Write to a temporary file beside ``path``; the caller renames it into place."""
-    handle, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
-    os.close(handle)
+    tmp = sibling_name(path)
     # Ten significant digits keep volume x hours_per_case = hours exact to well under 0.01 h.
     frame.to_csv(tmp, index=False, float_format="%.10g")
-    return Path(tmp)
+    return tmp
 
 
 def write_demand(result: DemandResult, instance_dir: str | Path,

@@ -165,3 +165,15 @@ def test_instance_problems_are_reported_without_a_flood(tmp_path: Path, capsys) 
     assert "unknown office" not in err  # names are not checked against a missing table
     assert len(err.splitlines()) < 10
     assert not (instance / "demand.csv").exists()
+
+
+
+def test_written_files_have_the_mode_of_any_new_file(demand_run: Path, tmp_path: Path) -> None:
+    # Written under temporary names and renamed into place; none may keep a private mode
+    # (mkstemp's 0600, mkdtemp's 0700), and no temporary is left behind.
+    (tmp_path / "plain.csv").write_text("")
+    (tmp_path / "plain").mkdir()
+    for name in ("demand.csv", "demand_trace.csv"):
+        assert (demand_run / name).stat().st_mode == (tmp_path / "plain.csv").stat().st_mode
+    assert (demand_run / "demand_report").stat().st_mode == (tmp_path / "plain").stat().st_mode
+    assert not [p.name for p in demand_run.iterdir() if p.name.startswith(".")]

@@ -1,0 +1,19 @@
+"""Analysis tables are written whole, by rename, with the mode of any new file."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pandas as pd
+
+from rebalance.analysis.output import write_table
+
+
+def test_a_table_gets_the_mode_of_any_new_file_and_leaves_no_temporary(tmp_path: Path) -> None:
+    frame = pd.DataFrame({"limit": ["seats", "moves_budget"], "shortfall_reduction": [1.5, 0.0]})
+    path = write_table(frame, tmp_path / "marginal_values.csv")
+    (tmp_path / "plain.csv").write_text("")
+    # A colleague reading the plan folder must be able to open it, as any file written there.
+    assert path.stat().st_mode == (tmp_path / "plain.csv").stat().st_mode
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["marginal_values.csv", "plain.csv"]
+    pd.testing.assert_frame_equal(pd.read_csv(path), frame)

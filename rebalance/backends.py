@@ -167,6 +167,8 @@ def relative_gap(objective: float | None, bound: float | None) -> float | None:
 _HIGHS_BANNER_SHOWN = False
 # Receives each better plan a run finds (columns of the model, objective) as it is found.
 PlanSink = Callable[[np.ndarray, float], None]
+# Receives a run's bound on the objective whenever it rises, while the run searches.
+BoundSink = Callable[[float], None]
 
 
 def _new_highs() -> Any:
@@ -192,11 +194,12 @@ def _new_highs() -> Any:
 
 
 def _watch_highs(h: Any, deadline: float, progress: Callable[[str], None] | None,
-                 on_plan: PlanSink | None = None) -> None:
+                 on_plan: PlanSink | None = None, on_bound: BoundSink | None = None) -> None:
     """Stop HiGHS at our own wall-clock deadline (it can overrun its time limit during root
-    work), report best plan, bound and gap every few seconds while it searches, and hand each
-    better plan to ``on_plan``."""
+    work), report best plan, bound and gap every few seconds while it searches, hand each
+    better plan to ``on_plan`` and a risen bound to ``on_bound`` (at most every second)."""
     last = [0.0]
+    bound_sent = [-math.inf, 0.0]  # the bound last handed on, and when
 
     def interrupt(event: Any) -> None:
         now = time.perf_counter()
@@ -210,9 +213,19 @@ def _watch_highs(h: Any, deadline: float, progress: Callable[[str], None] | None
                          f"{out.mip_dual_bound:.6g}, gap {out.mip_gap:.2%}, "
                          f"{out.mip_node_count} nodes")
 
+    def mip_interrupt(event: Any) -> None:
+        interrupt(event)
+        # Read in the search's own events only: there the bound is the search's.
+        bound = event.data_out.mip_dual_bound
+        now = time.perf_counter()
+        if (on_bound is not None and math.isfinite(bound) and bound > bound_sent[0]
+                and now - bound_sent[1] >= BOUND_SECONDS):
+            bound_sent[:] = [bound, now]
+            on_bound(float(bound))
+
     h.cbSimplexInterrupt += interrupt
     h.cbIpmInterrupt += interrupt
-    h.cbMipInterrupt += interrupt
+    h.cbMipInterrupt += mip_interrupt
     if on_plan is not None:
         # HiGHS hands the plan over in the model's own columns (after postsolve).
         h.cbMipImprovingSolution += lambda event: on_plan(
@@ -220,6 +233,7 @@ def _watch_highs(h: Any, deadline: float, progress: Callable[[str], None] | None
 
 
 PROGRESS_SECONDS = 5.0
+BOUND_SECONDS = 1.0
 # Pure LPs above this many columns go to the interior point method: the medium benchmark's
 # stage-one relaxation (104k columns) takes 62 s that way and over 120 s with dual simplex.
 IPM_LP_COLUMNS = 30_000
@@ -238,6 +252,7 @@ HARD_STOP_NONZEROS = 500_000
 CHILD_MIP_NONZEROS = 5_000
 HIGHS_GRACE_SECONDS = 3.0
 SMALL_GRACE_SECONDS = 0.5
+KILLED = "stopped at the wall-clock limit"
 
 
 def _forget_solver_threads() -> None:
@@ -248,11 +263,13 @@ def _forget_solver_threads() -> None:
     highspy.Highs.resetGlobalScheduler(False)
 
 
-def _run_in_child(run: Callable[[SolveOptions, PlanSink], BackendOutcome],
+def _run_in_child(run: Callable[[SolveOptions, PlanSink, BoundSink], BackendOutcome],
                   options: SolveOptions, wall_seconds: float) -> BackendOutcome:
-    """``run(options, on_plan)`` in a forked child; its outcome, or, once ``wall_seconds``
-    have passed (the child is killed then), the last plan it handed to ``on_plan`` as
-    ``FEASIBLE_WITH_GAP`` (no bound) or ``NO_PLAN_IN_TIME``.
+    """``run(options, on_plan, on_bound)`` in a forked child; its outcome, or, once
+    ``wall_seconds`` have passed (the child is killed then), the last plan it handed to
+    ``on_plan`` as ``FEASIBLE_WITH_GAP``, or ``NO_PLAN_IN_TIME``, either with the highest
+    bound it handed to ``on_bound`` (a bound found on the way holds: it is only weaker than
+    the one the run would have ended with).
 
     Progress lines and plans come back through one pipe, so the caller's ``progress`` sees
     them in this process.  A child that dies (out of memory, a crash in the solver) gives
@@ -269,10 +286,13 @@ def _run_in_child(run: Callable[[SolveOptions, PlanSink], BackendOutcome],
         def hand_over(x: np.ndarray, objective: float) -> None:
             sender.send(("plan", (x, objective)))
 
+        def bound_rose(bound: float) -> None:
+            sender.send(("bound", bound))
+
         try:
             _forget_solver_threads()
             out = run(replace(options, progress=None if options.progress is None else forward),
-                      hand_over)
+                      hand_over, bound_rose)
             sender.send(("outcome", out))
         except BaseException as exc:  # the parent must hear of any failure, then exit
             sender.send(("failed", f"{type(exc).__name__}: {exc}"))
@@ -284,6 +304,7 @@ def _run_in_child(run: Callable[[SolveOptions, PlanSink], BackendOutcome],
     sender.close()
     outcome: BackendOutcome | None = None
     last_plan: tuple[np.ndarray, float] | None = None
+    best_bound: float | None = None
     failure = ""
     try:
         while outcome is None and not failure:
@@ -303,6 +324,8 @@ def _run_in_child(run: Callable[[SolveOptions, PlanSink], BackendOutcome],
                     options.progress(payload)
             elif kind == "plan":
                 last_plan = payload
+            elif kind == "bound":
+                best_bound = payload if best_bound is None else max(best_bound, payload)
             elif kind == "outcome":
                 outcome = payload
             else:
@@ -319,14 +342,13 @@ def _run_in_child(run: Callable[[SolveOptions, PlanSink], BackendOutcome],
         return BackendOutcome(Status.ERROR, None, None, None, failure, seconds)
     if last_plan is not None:
         x, objective = last_plan
-        return BackendOutcome(Status.FEASIBLE_WITH_GAP, x, objective, None,
-                              "stopped at the wall-clock limit", seconds)
+        return BackendOutcome(Status.FEASIBLE_WITH_GAP, x, objective, best_bound, KILLED,
+                              seconds)
     if process.exitcode not in (0, -signal.SIGKILL) or seconds < wall_seconds:
         return BackendOutcome(Status.ERROR, None, None, None,
                               f"the solver process ended with code {process.exitcode}",
                               seconds)
-    return BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, None,
-                          "stopped at the wall-clock limit", seconds)
+    return BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, best_bound, KILLED, seconds)
 
 
 class HighsBackend:
@@ -345,10 +367,10 @@ class HighsBackend:
         grace = HIGHS_GRACE_SECONDS if large else SMALL_GRACE_SECONDS
         own_limit = max(time_limit - grace, 0.5 * time_limit)
         out = _run_in_child(
-            lambda opts, on_plan: self._run_here(model, objective, extra_rows, opts, own_limit,
-                                                 start, on_plan),
+            lambda opts, on_plan, on_bound: self._run_here(model, objective, extra_rows, opts,
+                                                           own_limit, start, on_plan, on_bound),
             options, time_limit)
-        if out.x is not None and out.bound is None:
+        if out.x is not None and out.words == KILLED:
             # A plan handed over before the kill: score it here rather than trust the claim.
             out = replace(out, objective=float(objective @ out.x))
         return out
@@ -356,7 +378,8 @@ class HighsBackend:
     def _run_here(self, model: Model, objective: np.ndarray,
                   extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
                   time_limit: float, start: np.ndarray | None,
-                  on_plan: PlanSink | None = None) -> BackendOutcome:
+                  on_plan: PlanSink | None = None,
+                  on_bound: BoundSink | None = None) -> BackendOutcome:
         import highspy
 
         started = time.perf_counter()
@@ -396,7 +419,7 @@ class HighsBackend:
                 on_plan(x, objective_value)
 
         _watch_highs(h, started + max(time_limit, 0.05), options.progress,
-                     keep if model.num_integer else on_plan)
+                     keep if model.num_integer else on_plan, on_bound)
         if start is not None:
             solution = highspy.HighsSolution()
             solution.col_value = list(start)
@@ -656,8 +679,7 @@ class CbcBackend:
                 prob.solve(solver)
             except pulp.PulpSolverError as exc:
                 if guard.fired:
-                    return BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, None,
-                                          "stopped at the wall-clock limit",
+                    return BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, None, KILLED,
                                           time.perf_counter() - started)
                 return BackendOutcome(Status.ERROR, None, None, None, str(exc),
                                       time.perf_counter() - started)

@@ -6,6 +6,9 @@ import importlib
 import sys
 from pathlib import Path
 
+import numpy as np
+import scipy.sparse as sp
+
 from rebalance.backends import HighsBackend
 
 sys.path.insert(0, str(Path(__file__).parent / "analysis"))
@@ -91,7 +94,7 @@ def test_a_run_in_a_child_process_gives_the_same_optimum_and_its_progress(monkey
 def test_a_child_s_progress_lines_reach_this_process():
     from rebalance.backends import BackendOutcome, SolveOptions, Status, _run_in_child
 
-    def talks(options: SolveOptions, on_plan) -> BackendOutcome:
+    def talks(options: SolveOptions, on_plan, on_bound) -> BackendOutcome:
         assert options.progress is not None
         for i in range(3):
             options.progress(f"line {i}")
@@ -111,7 +114,7 @@ def test_a_child_past_the_wall_clock_limit_is_stopped(monkeypatch):
     from rebalance import backends as backends_module
     from rebalance.backends import BackendOutcome, SolveOptions, Status, _run_in_child
 
-    def stuck(options: SolveOptions, on_plan) -> BackendOutcome:
+    def stuck(options: SolveOptions, on_plan, on_bound) -> BackendOutcome:
         time.sleep(60)
         raise AssertionError("not reached")
 
@@ -125,7 +128,7 @@ def test_a_child_past_the_wall_clock_limit_is_stopped(monkeypatch):
 def test_a_child_that_fails_reports_an_error_instead_of_a_plan():
     from rebalance.backends import BackendOutcome, SolveOptions, Status, _run_in_child
 
-    def broken(options: SolveOptions, on_plan) -> BackendOutcome:
+    def broken(options: SolveOptions, on_plan, on_bound) -> BackendOutcome:
         raise MemoryError("out of memory in the solver")
 
     out = _run_in_child(broken, SolveOptions(), 30.0)
@@ -141,15 +144,23 @@ def test_a_child_killed_after_finding_a_plan_keeps_its_last_plan():
 
     from rebalance.backends import BackendOutcome, SolveOptions, Status, _run_in_child
 
-    def slow_to_return(options: SolveOptions, on_plan) -> BackendOutcome:
+    def slow_to_return(options: SolveOptions, on_plan, on_bound) -> BackendOutcome:
         on_plan(np.array([3.0, 1.0]), 7.0)
+        on_bound(3.5)
         on_plan(np.array([2.0, 1.0]), 5.0)
+        on_bound(4.0)
         time.sleep(60)
         raise AssertionError("not reached")
 
     out = _run_in_child(slow_to_return, SolveOptions(), 1.0)
-    assert out.status is Status.FEASIBLE_WITH_GAP and out.bound is None
+    assert out.status is Status.FEASIBLE_WITH_GAP and out.bound == 4.0
     assert out.x is not None and list(out.x) == [2.0, 1.0] and out.objective == 5.0
+
+    def silent(options: SolveOptions, on_plan, on_bound) -> BackendOutcome:
+        time.sleep(60)
+        raise AssertionError("not reached")
+
+    assert _run_in_child(silent, SolveOptions(), 1.0).bound is None
 
 
 def test_a_plan_found_by_a_child_before_the_kill_is_scored_and_kept(monkeypatch):
@@ -171,6 +182,19 @@ def test_a_plan_found_by_a_child_before_the_kill_is_scored_and_kept(monkeypatch)
     activity = model.matrix @ out.x
     assert (activity <= model.row_upper + 1e-6).all()
     assert (activity >= model.row_lower - 1e-6).all()
+    # The search's bound as it stood before the kill is kept: at least the LP relaxation's
+    # value (reference: scipy's linprog, method "highs"), at most the plan's.
+    from scipy.optimize import linprog
+
+    rows_up = np.isfinite(model.row_upper)
+    rows_lo = np.isfinite(model.row_lower)
+    lp = linprog(model.shortfall_weight,
+                 A_ub=sp.vstack([model.matrix[rows_up], -model.matrix[rows_lo]]),
+                 b_ub=np.concatenate([model.row_upper[rows_up], -model.row_lower[rows_lo]]),
+                 bounds=list(zip(model.col_lower, model.col_upper, strict=True)),
+                 method="highs")
+    assert lp.status == 0
+    assert out.bound is not None and lp.fun - 1e-6 <= out.bound <= out.objective + 1e-9
 
 
 def test_a_small_mip_run_that_does_not_stop_is_killed_at_the_wall_clock(monkeypatch):

@@ -43,7 +43,9 @@ NOTES = ROOT / "benchmarks" / "notes.md"
 DOC = ROOT / "docs" / "benchmarks.md"
 SIZES = ("small", "medium", "agency", "large")
 BACKENDS = ("highs", "cbc")
-TIME_LIMITS = {"small": 60.0, "medium": 120.0, "agency": 180.0, "large": 600.0}
+# Medium, agency and large run for their targets' times (issue 3), so each target is judged on
+# a run of exactly that length; what more time buys is measured by hand (notes.md).
+TIME_LIMITS = {"small": 60.0, "medium": 60.0, "agency": 120.0, "large": 600.0}
 COLUMNS = (
     "date", "size", "staff", "offices", "skills", "periods", "seed", "groups", "backend",
     "formulation", "time_limit_s", "relative_gap", "threads", "status", "verified", "columns",

@@ -222,3 +222,20 @@ def test_a_small_mip_run_that_does_not_stop_is_killed_at_the_wall_clock(monkeypa
     out = HighsBackend().run(model, model.shortfall_weight, [], SolveOptions(), 1.0, None)
     assert time.perf_counter() - started < 10
     assert out.status is Status.NO_PLAN_IN_TIME and out.x is None
+
+
+def test_cbc_is_not_started_once_building_its_model_has_used_the_time():
+    # PuLP builds and writes CBC's model in Python, where no signal to CBC can stop it: with
+    # no time left after building, the run ends there, honestly without a plan.
+    from conftest import DATA
+
+    from rebalance import read_instance
+    from rebalance.backends import CbcBackend, SolveOptions, Status
+    from rebalance.model import build_model
+
+    model = build_model(read_instance(DATA.parent.parent / "instances" / "demo"))
+    out = CbcBackend().run(model, model.shortfall_weight, [], SolveOptions(solver="cbc"), 0.05,
+                           None)
+    assert out.status is Status.NO_PLAN_IN_TIME and out.x is None
+    assert "CBC" in out.words
+    assert out.seconds < 1.0  # CBC itself is given at least a second whenever it starts

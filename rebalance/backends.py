@@ -675,8 +675,8 @@ class CbcBackend:
                 var.setInitialValue(float(value))
         # PuLP then writes the model out for CBC term by term, which takes longer than building
         # it; the guard below cannot stop Python, so start only with that time left.
-        built = time.perf_counter() - started
-        if deadline - time.perf_counter() < max(MIN_CBC_SECONDS, CBC_WRITE_PER_BUILD * built):
+        writing = CBC_WRITE_PER_BUILD * (time.perf_counter() - started)
+        if deadline - time.perf_counter() < max(MIN_CBC_SECONDS, writing):
             return _cbc_out_of_time(started, "no time left to run CBC after building its model")
         with tempfile.TemporaryDirectory(prefix="rebalance-cbc-") as tmp:
             log_path = Path(tmp) / "cbc.log"
@@ -686,7 +686,7 @@ class CbcBackend:
                 path=_bundled_cbc(),
                 msg=False,
                 # PuLP's building, and its writing the model out, use part of the allowance.
-                timeLimit=max(1.0, deadline - time.perf_counter() - CBC_WRITE_PER_BUILD * built),
+                timeLimit=max(1.0, deadline - time.perf_counter() - writing),
                 gapRel=options.relative_gap,
                 threads=options.threads,
                 warmStart=start is not None,

@@ -24,7 +24,7 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field, fields, replace
 from pathlib import Path
 
-from rebalance.plan import staged_folder
+from rebalance.files import staged_folder
 
 __all__ = ["PRESETS", "GeneratedInstance", "GeneratorSpec", "generate", "spec_for_size",
            "write_generated"]

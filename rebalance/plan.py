@@ -8,10 +8,6 @@ and shortfall are then recomputed exactly from those tables, not taken from the 
 
 from __future__ import annotations
 
-import contextlib
-import os
-import secrets
-import shutil
 from collections import defaultdict
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
@@ -31,8 +27,6 @@ __all__ = [
     "extract_plan",
     "read_plan",
     "schedule_details",
-    "sibling_name",
-    "staged_folder",
     "write_plan",
 ]
 
@@ -309,40 +303,6 @@ def cost_table(instance: Instance, details: pd.DataFrame, reassignments: pd.Data
     rows = [(year, kind, totals.get((year, kind), 0.0)) for year in instance.years
             for kind in COST_KINDS]
     return _frame("costs", rows)
-
-
-# --------------------------------------------------------------------------------------------
-# files
-
-
-def sibling_name(path: Path) -> Path:
-    """A fresh hidden name beside ``path``, to write under before renaming into place.
-
-    Not mkstemp or mkdtemp: their private modes (0600, 0700) would stick to the file or folder
-    once renamed, where a colleague reading the plan expects the usual mode.
-    """
-    return path.with_name(f".{path.name}.{secrets.token_hex(8)}.tmp")
-
-
-@contextlib.contextmanager
-def staged_folder(out_dir: str | Path) -> Iterator[Path]:
-    """Write into a temporary sibling folder, then swap it in: all of it or nothing."""
-    out = Path(out_dir)
-    out.parent.mkdir(parents=True, exist_ok=True)
-    tmp = sibling_name(out)
-    tmp.mkdir()
-    try:
-        yield tmp
-    except BaseException:
-        shutil.rmtree(tmp, ignore_errors=True)
-        raise
-    old = None
-    if out.exists():
-        old = out.parent / f".{out.name}.old.{os.getpid()}"
-        os.replace(out, old)
-    os.replace(tmp, out)
-    if old is not None:
-        shutil.rmtree(old, ignore_errors=True)
 
 
 def write_plan(plan: Plan, folder: Path) -> None:

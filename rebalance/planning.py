@@ -13,9 +13,10 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
+from rebalance.files import staged_folder
 from rebalance.instance import Instance, Person
 from rebalance.model import Model, build_model
-from rebalance.plan import Plan, extract_plan, staged_folder, write_plan
+from rebalance.plan import Plan, extract_plan, write_plan
 from rebalance.solve import SolveOptions, SolveResult, Status, solve
 from rebalance.verify import Violation, verify_plan
 

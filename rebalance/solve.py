@@ -595,11 +595,11 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
         left = deadline - time.perf_counter()
         if rounding.lp_row_dual is not None and left >= 1.0:
             # Beside the search it holds nothing up, so it may take what is left of the stage.
-            share = 1.0 if options.threads >= 2 else options.shares.priced_bound
+            beside = options.threads >= 2
             pricing = functools.partial(
                 _bound_from_prices, backend, model, objective, rounding.lp_row_dual, options,
-                share * left, say)
-            if options.threads >= 2:
+                (1.0 if beside else options.shares.priced_bound) * left, say)
+            if beside:
                 # Priced beside the search (agency: 19 s the groups would otherwise wait);
                 # HiGHS lets go of Python while it solves.
                 side = ThreadPoolExecutor(max_workers=1)

@@ -8,7 +8,7 @@ from pathlib import Path
 
 import pandas as pd
 
-from rebalance.plan import sibling_name
+from rebalance.files import sibling_name
 
 __all__ = ["write_table", "write_tables"]
 

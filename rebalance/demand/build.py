@@ -27,8 +27,8 @@ from rebalance.demand.history import (
 )
 from rebalance.demand.quality import QualityResult, check_quality
 from rebalance.demand.standards import EffortStandards, estimate_standards, forecast_noncase
+from rebalance.files import sibling_name, staged_folder
 from rebalance.instance import Period
-from rebalance.plan import sibling_name, staged_folder
 from rebalance.readers import Problem, _settings_periods, read_tables
 
 __all__ = ["DemandResult", "build_demand", "run_demand", "write_demand"]

@@ -18,6 +18,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from rebalance.files import sibling_name
 from rebalance.plan import PLAN_TABLES
 from rebalance.report.inputs import ReportData, quality_notes
 
@@ -81,8 +82,7 @@ def write_workbook(data: ReportData, path: str | Path) -> Path:
     cut = [_cut_note(name, len(frame)) for name, frame in sheets if len(frame) >= SHEET_ROWS]
     sheets = [(name, frame.iloc[:SHEET_ROWS - 1]) for name, frame in sheets]
     target.parent.mkdir(parents=True, exist_ok=True)
-    # A plain file beside the target (not mkstemp, whose 0600 mode would stick to plan.xlsx).
-    tmp = target.with_name(f".{target.name}.tmp")
+    tmp = sibling_name(target)
     try:
         # constant_memory sends each row to disk when the next one starts, so a large plan is
         # never held whole in memory; it needs every sheet written top to bottom.  Text is

@@ -31,7 +31,7 @@ from rebalance.instance import ObjectiveMode, SolverName
 from rebalance.model import Model
 
 __all__ = ["BACKENDS", "Backend", "BackendOutcome", "SolveOptions", "Status", "TimeShares",
-           "relative_gap", "stacked_rows"]
+           "relative_gap", "row_scale", "stacked_rows"]
 
 
 class Status(enum.Enum):
@@ -771,6 +771,16 @@ def _stack(model: Model, extra_rows: list[tuple[np.ndarray, float]]) -> tuple[
     Scaling by powers of two changes neither the solution nor the rounding of any value.
     """
     matrix, row_lo, row_hi = stacked_rows(model, extra_rows)
+    factor = row_scale(matrix)
+    big = factor != 1.0
+    if not big.any():
+        return matrix, row_lo, row_hi, factor
+    return (sp.diags(factor, format="csr") @ matrix, row_lo * factor, row_hi * factor, factor)
+
+
+def row_scale(matrix: sp.csr_matrix) -> np.ndarray:
+    """Per row, a power of two that brings its largest coefficient near 1 (1 where it is
+    at most 2 already): see :func:`_stack`."""
     largest = np.zeros(matrix.shape[0])
     counts = np.diff(matrix.indptr)
     nonempty = counts > 0
@@ -778,9 +788,7 @@ def _stack(model: Model, extra_rows: list[tuple[np.ndarray, float]]) -> tuple[
     factor = np.ones_like(largest)
     big = largest > 2.0
     factor[big] = np.exp2(-np.round(np.log2(largest[big])))
-    if not big.any():
-        return matrix, row_lo, row_hi, factor
-    return (sp.diags(factor, format="csr") @ matrix, row_lo * factor, row_hi * factor, factor)
+    return factor
 
 
 # --------------------------------------------------------------------------------------------

@@ -32,7 +32,7 @@ from rebalance.backends import Backend, SolveOptions, stacked_rows
 from rebalance.model import Model, RowFamily
 from rebalance.split import solve_relaxation
 
-__all__ = ["LINKING_FAMILIES", "dual_bound", "priced_bound", "with_extra_rows"]
+__all__ = ["LINKING_FAMILIES", "dual_bound", "priced_bound", "priced_terms", "with_extra_rows"]
 
 # Rows that tie different people, groups and hires together; all others belong to one of
 # them (a unit's capacity, detail and home rows; the hires' vacancy and hiring-rate rows).
@@ -49,20 +49,31 @@ def dual_bound(model: Model, objective: np.ndarray, prices: np.ndarray) -> float
     finite bound on that side.
     """
     y = _signed(model, prices)
+    reduced = objective - model.matrix.T @ y
+    row_total, col_terms, size = priced_terms(model.row_lower, model.row_upper, y, reduced,
+                                              model.col_lower, model.col_upper)
+    return row_total + float(col_terms.sum()) - ROUNDING_SLACK * size
+
+
+def priced_terms(row_lower: np.ndarray, row_upper: np.ndarray, prices: np.ndarray,
+                 reduced: np.ndarray, col_lower: np.ndarray,
+                 col_upper: np.ndarray) -> tuple[float, np.ndarray, float]:
+    """The parts of a weak-duality bound: the rows' total at ``prices`` (signed as their
+    bounds allow), each column's least ``reduced`` cost over its box, and the size of all
+    terms (for the rounding slack).  ``-inf`` where a box is open on the paying side."""
+    y = prices
     row_terms = np.zeros(y.size)
     up, down = y > 0, y < 0
-    row_terms[up] = y[up] * model.row_lower[up]
-    row_terms[down] = y[down] * model.row_upper[down]
-    reduced = objective - model.matrix.T @ y
+    row_terms[up] = y[up] * row_lower[up]
+    row_terms[down] = y[down] * row_upper[down]
     col_terms = np.zeros(reduced.size)
     rising, falling = reduced > 0, reduced < 0
-    col_terms[rising] = reduced[rising] * model.col_lower[rising]
-    col_terms[falling] = reduced[falling] * model.col_upper[falling]
+    col_terms[rising] = reduced[rising] * col_lower[rising]
+    col_terms[falling] = reduced[falling] * col_upper[falling]
     if not (np.all(np.isfinite(col_terms)) and np.all(np.isfinite(row_terms))):
-        return -np.inf
-    total = float(row_terms.sum() + col_terms.sum())
+        return -np.inf, col_terms, 0.0
     size = float(np.abs(row_terms).sum() + np.abs(col_terms).sum())
-    return total - ROUNDING_SLACK * size
+    return float(row_terms.sum()), col_terms, size
 
 
 def _signed(model: Model, prices: np.ndarray) -> np.ndarray:

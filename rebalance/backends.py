@@ -31,7 +31,7 @@ from rebalance.instance import ObjectiveMode, SolverName
 from rebalance.model import Model
 
 __all__ = ["BACKENDS", "Backend", "BackendOutcome", "SolveOptions", "Status", "TimeShares",
-           "relative_gap", "row_scale", "stacked_rows"]
+           "relative_gap", "row_scale", "run_in_child", "stacked_rows"]
 
 
 class Status(enum.Enum):
@@ -266,7 +266,7 @@ def _forget_solver_threads() -> None:
     highspy.Highs.resetGlobalScheduler(False)
 
 
-def _run_in_child(run: Callable[[SolveOptions, PlanSink, BoundSink], BackendOutcome],
+def run_in_child(run: Callable[[SolveOptions, PlanSink, BoundSink], BackendOutcome],
                   options: SolveOptions, wall_seconds: float) -> BackendOutcome:
     """``run(options, on_plan, on_bound)`` in a forked child; its outcome, or, once
     ``wall_seconds`` have passed (the child is killed then), the last plan it handed to
@@ -369,7 +369,7 @@ class HighsBackend:
         # HiGHS stops itself a grace before the kill, so the kill keeps the caller's limit.
         grace = HIGHS_GRACE_SECONDS if large else SMALL_GRACE_SECONDS
         own_limit = max(time_limit - grace, 0.5 * time_limit)
-        out = _run_in_child(
+        out = run_in_child(
             lambda opts, on_plan, on_bound: self._run_here(model, objective, extra_rows, opts,
                                                            own_limit, start, on_plan, on_bound),
             options, time_limit)

@@ -23,8 +23,10 @@ from rebalance.backends import (
     SolveOptions,
     Status,
     relative_gap,
+    run_in_child,
 )
 from rebalance.bounds import priced_bound
+from rebalance.decomposition import decomposable, plan_bound
 from rebalance.model import LIMIT_FAMILIES, Model
 from rebalance.rounding import held_lp_bounds, neighbourhood, plan_by_rounding, prunes_details
 from rebalance.split import relaxed, resplit, run_within, solve_relaxation
@@ -194,27 +196,30 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
     # 1,547): the search near the LP makes better use of the time.
     bound_after = (large and not passes_only and start is None and options.threads < 2
                    and model.num_integer > 0 and options.heuristics)
+    searched = bool(model.num_integer) and options.heuristics and budget > MIN_HEURISTIC_SECONDS
     with ThreadPoolExecutor(max_workers=1) as side:
-        if (large and extra_rows and start is not None and model.num_integer
-                and options.heuristics and budget > MIN_HEURISTIC_SECONDS):
-            # Stage two: no rounding LP to price the rows, so one of its own, then trimming.
-            lp_bound = _held_lp_bound(backend, model, objective, extra_rows, options, start,
-                                      t0 + options.shares.held_bound * budget, say,
-                                      lp_seconds)
+        if large and searched and options.threads >= 2 and not passes_only:
+            # The bound takes about as long as the passes (medium: the LP relaxation 92 s,
+            # whole plans 21 s): run it beside them, within the stage (in stage two beside
+            # trimming too, which leaves it 8 s on medium at 60 s).  Not above
+            # WHOLE_SEARCH_MAX_NONZEROS: agency's LP was not solved in 237 s (its process
+            # held 2.3 GiB beside the search's 3.7), and whole plans gave 5,835 after 93 s
+            # where the rounding LP's prices give 6,080 in 19 s.
+            bound_on_side = side.submit(_relaxation_bound, backend, model, objective,
+                                        extra_rows, options, deadline - time.perf_counter(),
+                                        say, "beside the search")
+        if large and searched and extra_rows and start is not None:
+            # Stage two: no rounding LP to price the rows, so one of its own unless whole
+            # plans bound the stage beside it (medium: 5.89e7 after 6.4 s against 5.51e7
+            # from the held LP's prices), then trimming.
+            if bound_on_side is None or not decomposable(model):
+                lp_bound = _held_lp_bound(backend, model, objective, extra_rows, options,
+                                          start, t0 + options.shares.held_bound * budget,
+                                          say, lp_seconds)
             start = _trimmed(backend, model, objective, extra_rows, options, start,
                              options.shares.trim * (deadline - time.perf_counter()), say)
-        if model.num_integer and options.heuristics and budget > MIN_HEURISTIC_SECONDS:
+        if searched:
             if large:
-                if options.threads >= 2 and not passes_only:
-                    # The LP bound takes about as long as the passes (medium: 92 s beside
-                    # them): run it beside them, within what is left of the stage (stage
-                    # two has spent some on its bound and trimming by now).  Not above
-                    # WHOLE_SEARCH_MAX_NONZEROS: agency's LP was not solved in 237 s, and
-                    # its process held 2.3 GiB beside the search's 3.7.
-                    bound_on_side = side.submit(_lp_bound, backend, model, objective,
-                                                extra_rows, options,
-                                                deadline - time.perf_counter(), say,
-                                                "beside the search")
                 if start is None or passes_only:
                     # Stage two of a model that branch and bound can still search starts
                     # from stage one's plan there instead: on medium the passes found nothing
@@ -229,8 +234,8 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                                                       options, deadline, start, say)
         left = deadline - time.perf_counter()
         if bound_after and start is not None and lp_bound is None:
-            lp_bound = _lp_bound(backend, model, objective, extra_rows, options, left, say,
-                                 "after the passes, for the bound")
+            lp_bound = _relaxation_bound(backend, model, objective, extra_rows, options, left,
+                                         say, "after the passes, for the bound")
             left = deadline - time.perf_counter()
         if passes_only and start is not None:
             say(f"  no search of the whole model: {model.matrix.nnz:,} nonzeros, more than "
@@ -449,6 +454,46 @@ def _is_large(model: Model, backend: Backend) -> bool:
 def _not_searched(words: str) -> BackendOutcome:
     """The outcome of a branch and bound that was not run: the stage keeps its plan."""
     return BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, None, words, 0.0)
+
+
+def _relaxation_bound(backend: Backend, model: Model, objective: np.ndarray,
+                      extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
+                      time_limit: float, say: Callable[[str], None],
+                      when: str) -> float | None:
+    """A bound for the stage from a relaxation: relocatable people's whole plans where the
+    model has them and the backend is HiGHS (:mod:`rebalance.decomposition`; medium: 1,557.8
+    in 20 s, where the LP relaxation gives 1,546.5 in 81-95 s), else the LP relaxation."""
+    if backend.name == "highs" and decomposable(model):
+        return _whole_plans_bound(model, objective, extra_rows, options, time_limit, say,
+                                  when)
+    return _lp_bound(backend, model, objective, extra_rows, options, time_limit, say, when)
+
+
+# The column generation is told to stop this long before its process is killed.
+WHOLE_PLANS_GRACE_SECONDS = 1.0
+
+
+def _whole_plans_bound(model: Model, objective: np.ndarray,
+                       extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
+                       time_limit: float, say: Callable[[str], None],
+                       when: str) -> float | None:
+    """:func:`~rebalance.decomposition.plan_bound` in a process killed at ``time_limit``
+    (its master LP runs in HiGHS, which may overrun); the best bound it reached."""
+    began = time.perf_counter()
+    stop = began + max(time_limit - WHOLE_PLANS_GRACE_SECONDS, 0.5 * time_limit)
+
+    def run(_: SolveOptions, __: object, on_bound: Callable[[float], None]) -> BackendOutcome:
+        bound, rounds = plan_bound(model, objective, extra_rows, stop, on_bound)
+        return BackendOutcome(Status.OPTIMAL if bound is not None else Status.NO_PLAN_IN_TIME,
+                              None, None, bound, f"{rounds} rounds", 0.0)
+
+    out = run_in_child(run, replace(options, progress=None), time_limit)
+    if out.bound is None:
+        say(f"  bound from relocatable people's whole plans ({when}): none ({out.words})")
+        return None
+    say(f"  bound from relocatable people's whole plans ({when}): {out.bound:.6g} in "
+        f"{out.seconds:.1f}s ({out.words})")
+    return out.bound
 
 
 def _lp_bound(backend: Backend, model: Model, objective: np.ndarray,

@@ -92,7 +92,7 @@ def test_a_run_in_a_child_process_gives_the_same_optimum_and_its_progress(monkey
 
 
 def test_a_child_s_progress_lines_reach_this_process():
-    from rebalance.backends import BackendOutcome, SolveOptions, Status, _run_in_child
+    from rebalance.backends import BackendOutcome, SolveOptions, Status, run_in_child
 
     def talks(options: SolveOptions, on_plan, on_bound) -> BackendOutcome:
         assert options.progress is not None
@@ -101,7 +101,7 @@ def test_a_child_s_progress_lines_reach_this_process():
         return BackendOutcome(Status.OPTIMAL, None, 1.0, 1.0, "Optimal", 0.0)
 
     said: list[str] = []
-    out = _run_in_child(talks, SolveOptions(progress=said.append), 30.0)
+    out = run_in_child(talks, SolveOptions(progress=said.append), 30.0)
     assert said == ["line 0", "line 1", "line 2"]
     assert out.status is Status.OPTIMAL and out.objective == 1.0
 
@@ -112,26 +112,26 @@ def test_a_child_past_the_wall_clock_limit_is_stopped(monkeypatch):
     import time
 
     from rebalance import backends as backends_module
-    from rebalance.backends import BackendOutcome, SolveOptions, Status, _run_in_child
+    from rebalance.backends import BackendOutcome, SolveOptions, Status, run_in_child
 
     def stuck(options: SolveOptions, on_plan, on_bound) -> BackendOutcome:
         time.sleep(60)
         raise AssertionError("not reached")
 
     started = time.perf_counter()
-    out = _run_in_child(stuck, SolveOptions(), 1.0)
+    out = run_in_child(stuck, SolveOptions(), 1.0)
     assert time.perf_counter() - started < 10
     assert out.status is Status.NO_PLAN_IN_TIME and out.x is None
     assert backends_module.HIGHS_GRACE_SECONDS > 0
 
 
 def test_a_child_that_fails_reports_an_error_instead_of_a_plan():
-    from rebalance.backends import BackendOutcome, SolveOptions, Status, _run_in_child
+    from rebalance.backends import BackendOutcome, SolveOptions, Status, run_in_child
 
     def broken(options: SolveOptions, on_plan, on_bound) -> BackendOutcome:
         raise MemoryError("out of memory in the solver")
 
-    out = _run_in_child(broken, SolveOptions(), 30.0)
+    out = run_in_child(broken, SolveOptions(), 30.0)
     assert out.status is Status.ERROR and "MemoryError" in out.words
 
 
@@ -142,7 +142,7 @@ def test_a_child_killed_after_finding_a_plan_keeps_its_last_plan():
 
     import numpy as np
 
-    from rebalance.backends import BackendOutcome, SolveOptions, Status, _run_in_child
+    from rebalance.backends import BackendOutcome, SolveOptions, Status, run_in_child
 
     def slow_to_return(options: SolveOptions, on_plan, on_bound) -> BackendOutcome:
         on_plan(np.array([3.0, 1.0]), 7.0)
@@ -152,7 +152,7 @@ def test_a_child_killed_after_finding_a_plan_keeps_its_last_plan():
         time.sleep(60)
         raise AssertionError("not reached")
 
-    out = _run_in_child(slow_to_return, SolveOptions(), 1.0)
+    out = run_in_child(slow_to_return, SolveOptions(), 1.0)
     assert out.status is Status.FEASIBLE_WITH_GAP and out.bound == 4.0
     assert out.x is not None and list(out.x) == [2.0, 1.0] and out.objective == 5.0
 
@@ -160,7 +160,7 @@ def test_a_child_killed_after_finding_a_plan_keeps_its_last_plan():
         time.sleep(60)
         raise AssertionError("not reached")
 
-    assert _run_in_child(silent, SolveOptions(), 1.0).bound is None
+    assert run_in_child(silent, SolveOptions(), 1.0).bound is None
 
 
 def test_a_plan_found_by_a_child_before_the_kill_is_scored_and_kept(monkeypatch):

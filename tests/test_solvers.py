@@ -172,9 +172,9 @@ def test_a_large_model_gets_its_lp_bound(monkeypatch, threads, said_of_the_lp):
 
 
 def test_the_lp_beside_the_search_stops_within_its_stage(monkeypatch):
-    # With two threads the LP bound runs beside the search; in stage two it starts after the
-    # held bound and trimming, so its limit must be what is left of the stage, not the
-    # stage's whole share (a medium run once ended 4.7 s past its limit that way).
+    # With two threads the LP bound runs beside the search, in stage two beside trimming;
+    # its limit must be what is left of the stage when it starts, not the stage's whole
+    # share (a medium run once ended 4.7 s past its limit that way).
     solve_module = importlib.import_module("rebalance.solve")
     monkeypatch.setattr(solve_module, "LARGE_MODEL_COLUMNS", 0)
     deadlines: list[float] = []
@@ -202,6 +202,34 @@ def test_the_lp_beside_the_search_stops_within_its_stage(monkeypatch):
     solve_verified(read_instance(DATA / "tiny"), threads=2)
     assert len(overruns) == 2  # one per stage
     assert max(overruns) < 0.1  # the thread's start, not the half second of trimming
+
+
+@pytest.mark.parametrize("seed", range(3))
+def test_whole_plans_bound_both_stages_of_a_large_model_beside_the_search(monkeypatch, seed):
+    # Relocatable people written per destination (as past ten offices): with two threads the
+    # bound beside the search comes from their whole plans (rebalance.decomposition) in
+    # both stages, and replaces stage two's LP with homes held.  Forced here on small
+    # instances; the optimum and its proof must stand, and no bound may pass it.
+    solve_module = importlib.import_module("rebalance.solve")
+    base = random_instance(seed, people=4, periods=4, offices=3, skills=2)
+    instance = base.with_changes(staff=tuple(replace(p, can_relocate=True, can_detail=True)
+                                             for p in base.staff))
+    usual = solve_verified(instance, pair_details=False)
+    said: list[str] = []
+    monkeypatch.setattr(solve_module, "LARGE_MODEL_COLUMNS", 0)
+    forced = solve_verified(instance, pair_details=False, threads=2, progress=said.append)
+    whole = [line for line in said if "relocatable people's whole plans" in line]
+    assert len(whole) == 2, said  # one per stage
+    assert not any("LP with homes held" in line for line in said)
+    optima = (usual.plan.weighted_shortfall, usual.plan.total_cost)
+    for line, optimum in zip(whole, optima, strict=True):
+        if "none" not in line:  # printed to six digits
+            bound = float(line.split("): ")[1].split(" in ")[0])
+            assert bound <= optimum + 1e-5 * (1 + abs(optimum))
+    assert forced.status is usual.status is Status.OPTIMAL
+    assert forced.plan.weighted_shortfall == pytest.approx(usual.plan.weighted_shortfall,
+                                                           rel=1e-6, abs=1e-6)
+    assert forced.plan.total_cost == pytest.approx(usual.plan.total_cost, rel=1e-6, abs=1e-3)
 
 
 def test_without_a_bound_from_prices_the_lp_relaxation_runs_after_the_passes(monkeypatch):

@@ -23,6 +23,7 @@ from __future__ import annotations
 import itertools
 import time
 from dataclasses import replace
+from typing import Protocol
 
 import numpy as np
 import scipy.sparse as sp
@@ -32,7 +33,8 @@ from rebalance.backends import Backend, SolveOptions, stacked_rows
 from rebalance.model import Model, RowFamily
 from rebalance.split import solve_relaxation
 
-__all__ = ["LINKING_FAMILIES", "dual_bound", "priced_bound", "priced_terms", "with_extra_rows"]
+__all__ = ["LINKING_FAMILIES", "ExactPieces", "dual_bound", "priced_bound", "priced_terms",
+           "with_extra_rows"]
 
 # Rows that tie different people, groups and hires together; all others belong to one of
 # them (a unit's capacity, detail and home rows; the hires' vacancy and hiring-rate rows).
@@ -105,9 +107,23 @@ def with_extra_rows(model: Model, extra_rows: list[tuple[np.ndarray, float]]) ->
                    rows=(*model.rows, extra))
 
 
+class ExactPieces(Protocol):
+    """Pieces of a model whose least cost at any prices is known exactly (the whole plans
+    of relocatable people, :class:`~rebalance.decomposition.WholePlans`)."""
+
+    columns: np.ndarray   # per column of the model: whether a piece owns it
+    own_rows: np.ndarray  # per row: whether the pieces keep it themselves
+
+    def least(self, reduced: np.ndarray) -> tuple[float, float] | None:
+        """The pieces' least total of ``reduced`` costs, and the size of its terms; None
+        where they cannot say."""
+        ...
+
+
 def priced_bound(backend: Backend, model: Model, objective: np.ndarray, prices: np.ndarray,
                  options: SolveOptions, time_limit: float,
-                 extra_rows: list[tuple[np.ndarray, float]] | None = None) -> float | None:
+                 extra_rows: list[tuple[np.ndarray, float]] | None = None,
+                 pieces: ExactPieces | None = None) -> float | None:
     """A bound from ``prices`` on the linking rows and the best prices for all other rows
     given those: the LP without the linking rows, its costs adjusted by their prices.
 
@@ -118,14 +134,26 @@ def priced_bound(backend: Backend, model: Model, objective: np.ndarray, prices: 
     batch that gives no prices in the time prices its rows at 0, which keeps the bound
     valid; returns None when no batch gives prices.  With ``extra_rows`` (a held objective)
     the bound is for the model with them, and ``prices`` cover them too.
+
+    ``pieces`` solved exactly take their columns and own rows out of the LP: relocatable
+    people's whole plans, where the LP gives each a fraction of a new home (agency: their
+    columns are most of the model's, and at 120 s the LP pieces did not all finish).
     """
     deadline = time.perf_counter() + time_limit
     model = with_extra_rows(model, extra_rows or [])
     linking = linking_rows(model)
     held = _signed(model, np.where(linking, prices[:model.num_rows], 0.0))
     adjusted = objective - model.matrix.T @ held
-    rows = np.flatnonzero(~linking)
-    apart = model.matrix[rows].tocsc()
+    exact_rows = np.zeros(model.num_rows, bool)
+    exact_columns = np.zeros(model.num_cols, bool)
+    if pieces is not None:
+        exact_rows[:pieces.own_rows.size] = pieces.own_rows
+        exact_columns = pieces.columns
+    rows = np.flatnonzero(~linking & ~exact_rows)
+    # The pieces' columns stay out of every LP (a row they share with others is priced
+    # there without them: any price keeps the bound valid).
+    apart = (model.matrix[rows] @ sp.diags((~exact_columns).astype(float))).tocsc()
+    apart.eliminate_zeros()
     col_order, row_order, batches = _batches(apart)
     # One permutation makes every batch a contiguous block: slicing the whole matrix per
     # batch cost more than the LPs at large scale.
@@ -148,7 +176,17 @@ def priced_bound(backend: Backend, model: Model, objective: np.ndarray, prices: 
         if out.row_dual is not None:
             combined[piece_rows] = out.row_dual[:piece_rows.size]
             priced = True
-    return dual_bound(model, objective, combined) if priced else None
+    if pieces is None:
+        return dual_bound(model, objective, combined) if priced else None
+    y = _signed(model, combined)
+    reduced = objective - model.matrix.T @ y
+    exact = pieces.least(reduced)
+    if exact is None:
+        return None
+    row_total, col_terms, size = priced_terms(model.row_lower, model.row_upper, y, reduced,
+                                              model.col_lower, model.col_upper)
+    total = row_total + float(col_terms[~exact_columns].sum()) + exact[0]
+    return total - ROUNDING_SLACK * (size + exact[1])
 
 
 # Columns per LP when pricing the rows apart (agency: 19 s at 2,000, 22 s at 5,000, 27 s at

@@ -34,7 +34,7 @@ from rebalance.backends import row_scale
 from rebalance.bounds import ROUNDING_SLACK, priced_terms, with_extra_rows
 from rebalance.model import Model
 
-__all__ = ["DecompositionError", "decomposable", "plan_bound"]
+__all__ = ["DecompositionError", "WholePlans", "decomposable", "plan_bound"]
 
 # Row families a decomposed person's own rows may come from: each is kept by the shortest
 # path by construction, and every plan it returns is checked against them.  Any other row
@@ -111,9 +111,42 @@ class _Person:
     own_upper: np.ndarray
 
 
+class WholePlans:
+    """The decomposed people of a model: their columns and own rows, and their least
+    reduced cost over whole plans at given prices (exact pieces of a Lagrangian bound,
+    :func:`rebalance.bounds.priced_bound`).  Raises :class:`DecompositionError` where their
+    columns or rows are not of the shape the shortest path assumes."""
+
+    def __init__(self, model: Model) -> None:
+        self.people, self.own_rows = _people(model)
+        self.columns = np.zeros(model.num_cols, bool)
+        for p in self.people:
+            self.columns[p.columns] = True
+
+    def least(self, reduced: np.ndarray) -> tuple[float, float] | None:
+        """The least total reduced cost of every person's plan, and the size of its terms;
+        None where a shortest-path plan fails its check."""
+        total = size = 0.0
+        try:
+            for p in self.people:
+                value, _ = _best_plan(p, reduced)
+                total += value
+                size += abs(value)
+        except DecompositionError:
+            return None
+        return total, size
+
+
 def decomposable(model: Model) -> bool:
-    """Whether ``model`` has relocatable people written per destination (at-home columns)."""
-    return "at_home" in model.blocks and len(model.blocks["at_home"]) > 0
+    """Whether ``model`` has relocatable people (home-in-force columns) whose details, if
+    any, name only their destination (the per-destination formulation)."""
+    if "home" not in model.blocks or not len(model.blocks["home"]):
+        return False
+    detail = model.blocks.get("detail")
+    if detail is None:
+        return True
+    movers = np.isin(detail.keys["unit"], np.unique(model.blocks["home"].keys["unit"]))
+    return not np.any(detail.keys["home"][movers] >= 0)
 
 
 def plan_bound(model: Model, objective: np.ndarray,
@@ -129,11 +162,9 @@ def plan_bound(model: Model, objective: np.ndarray,
     import highspy
 
     whole = with_extra_rows(model, extra_rows)
-    people, own = _people(whole)
-    in_person = np.zeros(whole.num_cols, bool)
-    for p in people:
-        in_person[p.columns] = True
-    explicit = np.flatnonzero(~in_person)
+    plans = WholePlans(whole)
+    people, own = plans.people, plans.own_rows
+    explicit = np.flatnonzero(~plans.columns)
     master_rows = np.flatnonzero(~own)
     master = whole.matrix[master_rows].tocsc()
     lower, upper = whole.row_lower[master_rows], whole.row_upper[master_rows]
@@ -248,8 +279,7 @@ def _signed(lower: np.ndarray, upper: np.ndarray, prices: np.ndarray) -> np.ndar
 def _people(model: Model) -> tuple[list[_Person], np.ndarray]:
     """The decomposed people of ``model`` and, per row, whether it is one person's own."""
     unit = model.key_of_columns("unit")
-    at_home = model.blocks["at_home"]
-    units = np.unique(at_home.keys["unit"])
+    units = np.unique(model.blocks["home"].keys["unit"])
     decomposed = np.zeros(model.num_cols, bool)
     for name in BLOCKS:
         if name in model.blocks:

@@ -26,7 +26,7 @@ from rebalance.backends import (
     run_in_child,
 )
 from rebalance.bounds import priced_bound
-from rebalance.decomposition import decomposable, plan_bound
+from rebalance.decomposition import DecompositionError, WholePlans, decomposable, plan_bound
 from rebalance.model import LIMIT_FAMILIES, Model
 from rebalance.rounding import held_lp_bounds, neighbourhood, plan_by_rounding, prunes_details
 from rebalance.split import relaxed, resplit, run_within, solve_relaxation
@@ -434,7 +434,7 @@ def _held_lp_bound(backend: Backend, model: Model, objective: np.ndarray,
         say(f"  bound from row prices: LP with homes held not solved ({lp.words})")
         return None
     bound = priced_bound(backend, model, objective, lp.row_dual, options,
-                         deadline - time.perf_counter(), extra_rows)
+                         deadline - time.perf_counter(), extra_rows, _exact_pieces(model))
     if bound is not None:
         say(f"  bound from the row prices of an LP with homes held: {bound:.6g} in "
             f"{time.perf_counter() - began:.1f}s")
@@ -672,11 +672,23 @@ def _bound_from_prices(backend: Backend, model: Model, objective: np.ndarray,
                        say: Callable[[str], None], where: str) -> float | None:
     """:func:`~rebalance.bounds.priced_bound`, said when found."""
     began = time.perf_counter()
-    bound = priced_bound(backend, model, objective, prices, options, time_limit)
+    bound = priced_bound(backend, model, objective, prices, options, time_limit, None,
+                         _exact_pieces(model))
     if bound is not None:
         say(f"  bound from the rounding LP's row prices{where}: {bound:.6g} in "
             f"{time.perf_counter() - began:.1f}s")
     return bound
+
+
+def _exact_pieces(model: Model) -> WholePlans | None:
+    """Relocatable people's whole plans, for a bound from prices to solve exactly, where the
+    model has them in the shape their shortest path reads."""
+    if not decomposable(model):
+        return None
+    try:
+        return WholePlans(model)
+    except DecompositionError:
+        return None
 
 
 def _stage(name: str, out: BackendOutcome) -> StageResult:

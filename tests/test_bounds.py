@@ -105,6 +105,35 @@ def test_priced_bound_under_a_held_objective_is_exact_from_the_optimums_prices(s
     assert exact == pytest.approx(reference, abs=1e-5 * (1.0 + abs(reference)))
 
 
+@pytest.mark.parametrize("seed", range(4))
+def test_priced_bound_with_whole_plans_is_a_bound_and_no_weaker(seed):
+    # Relocatable people's pieces solved exactly over whole plans (a shortest path) instead
+    # of as LPs: the bound must stay below the MIP optimum (scipy's milp) and, at the same
+    # prices, at least the bound with LP pieces (each exact piece is at least its LP).
+    from conftest import scipy_milp
+
+    from rebalance.decomposition import WholePlans
+
+    model, objectives = _model_and_objectives(seed)
+    backend = HighsBackend()
+    pieces = WholePlans(model)
+    assert pieces.columns.any() and pieces.own_rows.any()
+    rng = np.random.default_rng(seed)
+    for objective in objectives:
+        best = scipy_milp(model, objective)
+        assert best.status == 0
+        lp = backend.run(relaxed(model), objective, [], SolveOptions(), 60, None)
+        assert lp.row_dual is not None
+        for prices in (lp.row_dual, lp.row_dual + rng.normal(0.0, 0.5, model.num_rows)):
+            apart = priced_bound(backend, model, objective, prices, SolveOptions(), 60)
+            exact = priced_bound(backend, model, objective, prices, SolveOptions(), 60, None,
+                                 pieces)
+            assert apart is not None and exact is not None
+            # Each bound keeps a slack of 1e-9 of its terms' size for rounding.
+            scale = 1e-6 * (1.0 + abs(best.fun) + abs(apart))
+            assert apart - scale <= exact <= best.fun + scale
+
+
 def test_the_first_plan_of_a_large_model_brings_a_bound_near_the_lp():
     # On the demo (a surge, budgets binding) the passes' bound from the rounding LP's prices
     # must lie below the LP optimum (scipy) and within a tenth of it: a bound that means

@@ -506,7 +506,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--gap", type=GAP, help="relative gap at which to stop, e.g. 0.01")
     p.add_argument("--seed", type=SEED)
     p.add_argument("--threads", type=COUNT,
-                   help="solver threads; with 2, a large model's LP bound runs beside the search")
+                   help="solver threads; with 2, a large model's bound is worked out beside "
+                        "the search")
     p.add_argument("-q", "--quiet", action="store_true", help="no progress on stderr")
     p.set_defaults(run=cmd_plan)
 

@@ -94,6 +94,22 @@ def test_the_converged_bound_lies_between_the_lp_and_the_optimum(seed):
         assert heard == sorted(heard) and heard[-1] == bound
 
 
+@pytest.mark.parametrize("seed", range(5))
+def test_cuts_in_the_master_lift_the_bound_no_higher_than_the_optimum(seed):
+    # Coverage cuts (rebalance.cuts) join the master once no plan pays; they keep every
+    # whole-number plan, so the bound must stay below the optimum (scipy's milp), and at
+    # least where it stood without them.
+    model = _per_destination(_movers(seed + 10, 2))
+    for objective in (model.shortfall_weight, model.cost + 1e4 * model.shortfall_weight):
+        best = scipy_milp(model, objective)
+        assert best.status == 0
+        plain, _ = plan_bound(model, objective, [], time.perf_counter() + 60)
+        cut, _ = plan_bound(model, objective, [], time.perf_counter() + 60, None, 20)
+        assert plain is not None and cut is not None
+        scale = 1e-6 * (1.0 + abs(best.fun))
+        assert plain - scale <= cut <= best.fun + scale
+
+
 def test_a_held_objective_row_joins_the_master():
     # Stage two: least cost with the shortfall held; the bound must respect that row.
     model = _per_destination(_movers(3, 2))

@@ -410,7 +410,9 @@ def _targets(rows: list[dict[str, str]], default_backend: str) -> list[str]:
               and (_num(agency["wall_s"]) or 1e9) < 120 and peak < 4096)
         out.append(f"- agency (verified plan within 1% in under 120 s, peak under 4 GiB): "
                    f"{'met' if ok else 'MISSED'} — {agency['status']}, gap "
-                   f"{_cell(agency['gap'], 'gap')}, {agency['wall_s']} s, "
+                   f"{_cell(agency['gap'], 'gap')} (stage gaps "
+                   f"{_cell(agency['stage1_gap'], 'gap')} / "
+                   f"{_cell(agency['stage2_gap'], 'gap')}), {agency['wall_s']} s, "
                    f"at most {peak:.0f} MiB (process + solver process)")
     large = case("large")
     if large is None:

@@ -26,10 +26,11 @@ from rebalance.backends import (
     run_in_child,
 )
 from rebalance.bounds import priced_bound
-from rebalance.decomposition import DecompositionError, WholePlans, decomposable, plan_bound
+from rebalance.decomposition import plan_bound
 from rebalance.model import LIMIT_FAMILIES, Model
 from rebalance.rounding import held_lp_bounds, neighbourhood, plan_by_rounding, prunes_details
 from rebalance.split import relaxed, resplit, run_within, solve_relaxation
+from rebalance.whole_plans import DecompositionError, WholePlans, decomposable
 
 __all__ = ["SolveOptions", "SolveResult", "StageResult", "Status", "solve", "solve_stage"]
 

@@ -6,6 +6,8 @@ pure function of its seed.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 
 from rebalance.instance import (
@@ -87,3 +89,12 @@ def random_instance(seed: int, *, people: int = 2, periods: int = 3, offices: in
         policy=policy,
         move_cost_defaults=MoveCostDefaults(3000.0, 8000.0, 500.0, 1000.0),
     )
+
+
+def movers(seed: int, max_run: int | None = 1) -> Instance:
+    """A random instance whose people may all be detailed and relocated (each a unit of
+    one), with a consecutive-detail limit."""
+    base = random_instance(seed, people=4, periods=4, offices=3, skills=2)
+    policy = replace(base.policy, max_consecutive_detail_periods=max_run)
+    return base.with_changes(staff=tuple(replace(p, can_relocate=True, can_detail=True)
+                                         for p in base.staff), policy=policy)

@@ -112,7 +112,7 @@ def test_priced_bound_with_whole_plans_is_a_bound_and_no_weaker(seed):
     # prices, at least the bound with LP pieces (each exact piece is at least its LP).
     from conftest import scipy_milp
 
-    from rebalance.decomposition import WholePlans
+    from rebalance.whole_plans import WholePlans
 
     model, objectives = _model_and_objectives(seed)
     backend = HighsBackend()

@@ -32,7 +32,7 @@ def _own_optimum(model: Model, columns: np.ndarray, rows: np.ndarray,
 
 
 @pytest.mark.parametrize("seed", range(6))
-@pytest.mark.parametrize("max_run", [1, 2, None])
+@pytest.mark.parametrize("max_run", [0, 1, 2, None])
 def test_each_persons_best_plan_is_the_milp_optimum_of_their_own_rows(seed, max_run):
     model = build_model(movers(seed, max_run), pair_details=False)
     assert decomposable(model)

@@ -72,6 +72,27 @@ class _Adjustment:
 
 
 @dataclass(frozen=True)
+class _Placement:
+    """One period's placement columns of a person, per office (-1: none), and each
+    column's kind (0 home in force, 1 at home, 2 on detail) and office."""
+
+    reassign: np.ndarray
+    at_home: np.ndarray
+    detail: np.ndarray
+    home: int
+    index: dict[int, tuple[int, int]]
+
+    @staticmethod
+    def of(reassign: np.ndarray, at_home: np.ndarray, detail: np.ndarray,
+           home: int) -> _Placement:
+        index: dict[int, tuple[int, int]] = {}
+        for kind, grid in enumerate((reassign, at_home, detail)):
+            for place in np.flatnonzero(grid >= 0).tolist():
+                index[int(grid[place])] = (kind, place)
+        return _Placement(reassign, at_home, detail, home, index)
+
+
+@dataclass(frozen=True)
 class RelocatablePerson:
     """The columns of one decomposed person, per present period and office (P present
     periods, O offices)."""
@@ -220,6 +241,8 @@ def _person(model: Model, csr: sp.csr_matrix, csc: sp.csc_matrix, own: np.ndarra
         i = where[int(t)]
         work[i, o, fill[i, o]] = col
         fill[i, o] += 1
+    placements = [_Placement.of(reassign[i], at[i], detail[i], home)
+                  for i in range(n_periods)]
     capacity_home = np.zeros((n_periods, n_offices, n_offices))
     capacity_detail = np.zeros((n_periods, n_offices, n_offices))
     for i in range(n_periods):
@@ -227,13 +250,12 @@ def _person(model: Model, csr: sp.csr_matrix, csc: sp.csc_matrix, own: np.ndarra
             cols = work[i, o][work[i, o] >= 0]
             if cols.size:
                 capacity_home[i, o], capacity_detail[i, o] = _capacity(
-                    model, csr, csc, own, cols, reassign[i], at[i], detail[i], home)
+                    model, csr, csc, own, cols, placements[i])
     adjust: list[list[_Adjustment]] = [[] for _ in range(n_periods)]
     e = keys["detail_cost_adjustment"]
     for col, t in zip(e["col"], e.get("period", np.zeros(0, int)), strict=True):
         i = where[int(t)]
-        adjust[i].append(_adjustment(model, csr, csc, own, int(col), reassign[i], at[i],
-                                     detail[i], home))
+        adjust[i].append(_adjustment(model, csr, csc, own, int(col), placements[i]))
     max_run = n_periods
     consecutive = next((f for f in model.rows if f.name == "consecutive_details"), None)
     if consecutive is not None:
@@ -242,14 +264,12 @@ def _person(model: Model, csr: sp.csr_matrix, csc: sp.csc_matrix, own: np.ndarra
             max_run = int(np.floor(model.row_upper[mine].min() + 1e-9))
     own = csr[rows][:, columns].tocsr()
     return RelocatablePerson(u, home, periods, reassign, at, detail, work, capacity_home,
-                   capacity_detail,
-                   tuple(tuple(a) for a in adjust), max_run, columns, own,
-                   model.row_lower[rows], model.row_upper[rows])
+                             capacity_detail, tuple(tuple(a) for a in adjust), max_run,
+                             columns, own, model.row_lower[rows], model.row_upper[rows])
 
 
 def _capacity(model: Model, csr: sp.csr_matrix, csc: sp.csc_matrix, own: np.ndarray,
-              cols: np.ndarray, reassign: np.ndarray, at: np.ndarray, detail: np.ndarray,
-              home: int) -> tuple[np.ndarray, np.ndarray]:
+              cols: np.ndarray, placement: _Placement) -> tuple[np.ndarray, np.ndarray]:
     """FTE the capacity row of work columns ``cols`` (one office and period) allows, at home
     at each office and on detail to each office, from a row of the shape ``sum work +
     reassign[h] + at_home[h] + detail[b] <= capacity``."""
@@ -257,11 +277,11 @@ def _capacity(model: Model, csr: sp.csr_matrix, csc: sp.csc_matrix, own: np.ndar
     if rows.size != 1 or any(_own_rows_of(csc, own, int(c)).size != 1 for c in cols):
         raise DecompositionError(f"work columns {cols.tolist()}: not in one capacity row")
     r = int(rows[0])
-    reassigned, at_home, away, unit_coef = _placement_terms(csr, r, reassign, at, detail,
-                                                               home, set(cols.tolist()))
+    reassigned, at_home, away, unit_coef = _placement_terms(csr, r, placement,
+                                                           set(cols.tolist()))
     if np.any(unit_coef != 1.0) or np.isfinite(model.row_lower[r]):
         raise DecompositionError(f"work columns {cols.tolist()}: capacity row of another shape")
-    if (detail >= 0).any() and np.any(reassigned != 0):
+    if (placement.detail >= 0).any() and np.any(reassigned != 0):
         raise DecompositionError(f"work columns {cols.tolist()}: capacity from home columns "
                                  "in a period with details")
     upper = model.row_upper[r]
@@ -271,18 +291,14 @@ def _capacity(model: Model, csr: sp.csr_matrix, csc: sp.csc_matrix, own: np.ndar
     return capacity_home, capacity_detail
 
 
-def _placement_terms(csr: sp.csr_matrix, r: int, reassign: np.ndarray, at: np.ndarray,
-                     detail: np.ndarray, home: int, own_cols: set[int]) -> tuple[
-                         np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+def _placement_terms(csr: sp.csr_matrix, r: int, placement: _Placement,
+                     own_cols: set[int]) -> tuple[np.ndarray, np.ndarray, np.ndarray,
+                                                  np.ndarray]:
     """Row ``r`` read as coefficients per office on one period's home-in-force (0 at the
     original home, where no column is set), at-home and detail columns, and on
     ``own_cols``; raises where it has any other column."""
-    n_offices = reassign.size
-    index: dict[int, tuple[int, int]] = {}
-    for kind, grid in enumerate((reassign, at, detail)):
-        for place in np.flatnonzero(grid >= 0).tolist():
-            index[int(grid[place])] = (kind, place)
-    parts = np.zeros((3, n_offices))
+    index = placement.index
+    parts = np.zeros((3, placement.reassign.size))
     coef: list[float] = []
     for c, v in zip(csr.indices[csr.indptr[r]:csr.indptr[r + 1]],
                     csr.data[csr.indptr[r]:csr.indptr[r + 1]], strict=True):
@@ -293,7 +309,7 @@ def _placement_terms(csr: sp.csr_matrix, r: int, reassign: np.ndarray, at: np.nd
             parts[kind, place] = v
         else:
             raise DecompositionError(f"row {r} reaches beyond one period's placement")
-    parts[0, home] = 0.0
+    parts[0, placement.home] = 0.0
     return parts[0], parts[1], parts[2], np.asarray(coef, float)
 
 
@@ -303,17 +319,16 @@ def _own_rows_of(csc: sp.csc_matrix, own: np.ndarray, col: int) -> np.ndarray:
 
 
 def _adjustment(model: Model, csr: sp.csr_matrix, csc: sp.csc_matrix, own: np.ndarray,
-                col: int, reassign: np.ndarray, at: np.ndarray, detail: np.ndarray,
-                home: int) -> _Adjustment:
+                col: int, placement: _Placement) -> _Adjustment:
     """Continuous column ``col`` with its own rows read in terms of one period's placement
     columns (home in force, at home, on detail)."""
     rows = _own_rows_of(csc, own, col)
-    n_offices = reassign.size
+    n_offices = placement.reassign.size
     reassigned, at_home, away = (np.zeros((rows.size, n_offices)) for _ in range(3))
     coef = np.zeros(rows.size)
     for i, r in enumerate(rows):
         reassigned[i], at_home[i], away[i], own_coef = _placement_terms(
-            csr, int(r), reassign, at, detail, home, {col})
+            csr, int(r), placement, {col})
         coef[i] = own_coef[0]
     low_row, high_row = model.row_lower[rows], model.row_upper[rows]
     bounds = float(model.col_lower[col]), float(model.col_upper[col])

@@ -22,7 +22,7 @@ from rebalance.model import Model
 
 __all__ = ["Cut", "coverage_cuts"]
 
-# A cut must cut the point off by this much (in the scaled row's units) to be kept.
+# A cut must cut the point off by this much (in its own units) to be kept.
 MIN_VIOLATION = 1e-4
 # Fractional parts this near 0 or 1 make cuts with huge coefficients: skipped.
 MIN_FRACTION = 1e-3
@@ -73,7 +73,6 @@ class _VariableBounds:
     """Work columns bounded by their capacity row: ``work <= capacity x heads there``."""
 
     def __init__(self, model: Model) -> None:
-        self.model = model
         family = next((f for f in model.rows if f.name == "capacity"), None)
         work = model.blocks.get("work")
         self.row_of = np.full(model.num_cols, -1)

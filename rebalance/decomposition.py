@@ -52,8 +52,9 @@ def plan_bound(model: Model, objective: np.ndarray,
     coverage rows (:mod:`rebalance.cuts`) that the master's point breaks join the master
     and column generation goes on.  ``on_bound`` hears each higher bound as it is found (a
     run stopped from outside keeps the last one).  Returns ``(None, 0)`` where the master
-    LP has no optimum in the time.  Raises :class:`DecompositionError` where a person's
-    columns or rows are not of the shape the shortest path assumes.
+    LP has no optimum in the time.  Raises
+    :class:`~rebalance.whole_plans.DecompositionError` where a person's columns or rows are
+    not of the shape the shortest path assumes.
     """
     whole = with_extra_rows(model, extra_rows)
     master = _Master(whole, objective, WholePlans(whole), interior_first=not extra_rows)

@@ -464,9 +464,16 @@ def _relaxation_bound(backend: Backend, model: Model, objective: np.ndarray,
     """A bound for the stage from a relaxation: relocatable people's whole plans where the
     model has them and the backend is HiGHS (:mod:`rebalance.decomposition`; medium: 1,557.8
     in 20 s, where the LP relaxation gives 1,546.5 in 81-95 s), else the LP relaxation."""
+    began = time.perf_counter()
     if backend.name == "highs" and decomposable(model):
-        return _whole_plans_bound(model, objective, extra_rows, options, time_limit, say,
-                                  when)
+        try:
+            return _whole_plans_bound(model, objective, extra_rows, options, time_limit,
+                                      say, when)
+        except DecompositionError as failure:
+            # People whose rows the shortest path does not read, or a solver error: the
+            # LP relaxation, in the time left.
+            say(f"  bound from relocatable people's whole plans ({when}) failed: {failure}")
+            time_limit -= time.perf_counter() - began
     return _lp_bound(backend, model, objective, extra_rows, options, time_limit, say, when)
 
 
@@ -482,7 +489,9 @@ def _whole_plans_bound(model: Model, objective: np.ndarray,
                        time_limit: float, say: Callable[[str], None],
                        when: str) -> float | None:
     """:func:`~rebalance.decomposition.plan_bound` in a process killed at ``time_limit``
-    (its master LP runs in HiGHS, which may overrun); the best bound it reached."""
+    (its master LP runs in HiGHS, which may overrun); the best bound it reached.  Raises
+    :class:`~rebalance.whole_plans.DecompositionError` where it failed rather than ran out
+    of time."""
     began = time.perf_counter()
     stop = began + max(time_limit - WHOLE_PLANS_GRACE_SECONDS, 0.5 * time_limit)
 
@@ -493,6 +502,8 @@ def _whole_plans_bound(model: Model, objective: np.ndarray,
                               None, None, bound, f"{rounds} rounds", 0.0)
 
     out = run_in_child(run, replace(options, progress=None), time_limit)
+    if out.status is Status.ERROR:
+        raise DecompositionError(out.words)
     if out.bound is None:
         say(f"  bound from relocatable people's whole plans ({when}): none ({out.words})")
         return None

@@ -232,6 +232,32 @@ def test_whole_plans_bound_both_stages_of_a_large_model_beside_the_search(monkey
     assert forced.plan.total_cost == pytest.approx(usual.plan.total_cost, rel=1e-6, abs=1e-3)
 
 
+def test_a_failed_whole_plans_bound_gives_way_to_the_lp(monkeypatch):
+    # Where the column generation fails (here forced: a person's rows of a shape its
+    # shortest path does not read), the bound beside the search comes from the LP
+    # relaxation instead, and the optimum stands.
+    from rebalance.whole_plans import DecompositionError
+
+    solve_module = importlib.import_module("rebalance.solve")
+    base = random_instance(1, people=4, periods=4, offices=3, skills=2)
+    instance = base.with_changes(staff=tuple(replace(p, can_relocate=True, can_detail=True)
+                                             for p in base.staff))
+    usual = solve_verified(instance, pair_details=False)
+
+    def failing(*args, **kwargs):
+        raise DecompositionError("a row of another shape")
+
+    said: list[str] = []
+    monkeypatch.setattr(solve_module, "LARGE_MODEL_COLUMNS", 0)
+    monkeypatch.setattr(solve_module, "plan_bound", failing)
+    forced = solve_verified(instance, pair_details=False, threads=2, progress=said.append)
+    assert any("whole plans (beside the search) failed" in line for line in said)
+    assert any("LP relaxation (beside the search)" in line for line in said)
+    assert forced.status is usual.status
+    assert forced.plan.weighted_shortfall == pytest.approx(usual.plan.weighted_shortfall,
+                                                           rel=1e-6, abs=1e-6)
+
+
 def test_without_a_bound_from_prices_the_lp_relaxation_runs_after_the_passes(monkeypatch):
     # One thread, and the rounding brings no bound (forced here): the LP relaxation runs
     # after the passes for the bound instead, and the optimum and its proof stand.

@@ -53,12 +53,12 @@ class _Adjustment:
     few homes its rows name (``homes``); every other home reads the row ``other``."""
 
     col: int
-    at_home_low: np.ndarray       # (n_offices,) at home at h
+    at_home_low: np.ndarray       # (O,) at home at h (O offices)
     at_home_high: np.ndarray
     homes: np.ndarray             # (H,) homes its rows name
-    detail_low: np.ndarray        # (H, n_offices) from one of those homes on detail to b
+    detail_low: np.ndarray        # (H, O) from one of those homes on detail to b
     detail_high: np.ndarray
-    other_low: np.ndarray         # (n_offices,) from any other home on detail to b
+    other_low: np.ndarray         # (O,) from any other home on detail to b
     other_high: np.ndarray
 
     def values(self, reduced_cost: float) -> tuple[np.ndarray, np.ndarray]:
@@ -197,6 +197,7 @@ def _people(model: Model) -> tuple[list[RelocatablePerson], np.ndarray]:
 
 def _person(model: Model, csr: sp.csr_matrix, csc: sp.csc_matrix, own: np.ndarray, u: int,
             columns: np.ndarray, rows: np.ndarray, num_offices: int) -> RelocatablePerson:
+    """Unit ``u`` (its ``columns`` and own ``rows``) read into per-period grids."""
     blocks = model.blocks
     keys: dict[str, dict[str, np.ndarray]] = {}
     for name in BLOCKS:

@@ -16,6 +16,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 import scipy.sparse as sp
 
+from rebalance import stage_bounds
 from rebalance.backends import (
     BACKENDS,
     Backend,
@@ -23,14 +24,11 @@ from rebalance.backends import (
     SolveOptions,
     Status,
     relative_gap,
-    run_in_child,
 )
-from rebalance.bounds import priced_bound
-from rebalance.decomposition import plan_bound
 from rebalance.model import LIMIT_FAMILIES, Model
-from rebalance.rounding import held_lp_bounds, neighbourhood, plan_by_rounding, prunes_details
-from rebalance.split import relaxed, resplit, run_within, solve_relaxation
-from rebalance.whole_plans import DecompositionError, WholePlans, decomposable
+from rebalance.rounding import neighbourhood, plan_by_rounding
+from rebalance.split import relaxed, resplit, run_within
+from rebalance.whole_plans import decomposable
 
 __all__ = ["SolveOptions", "SolveResult", "StageResult", "Status", "solve", "solve_stage"]
 
@@ -206,17 +204,18 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
             # WHOLE_SEARCH_MAX_NONZEROS: agency's LP was not solved in 237 s (its process
             # held 2.3 GiB beside the search's 3.7), and whole plans gave 5,835 after 93 s
             # where the rounding LP's prices give 6,080 in 19 s.
-            bound_on_side = side.submit(_relaxation_bound, backend, model, objective,
-                                        extra_rows, options, deadline - time.perf_counter(),
-                                        say, "beside the search")
+            bound_on_side = side.submit(stage_bounds.relaxation_bound, backend, model,
+                                        objective, extra_rows, options,
+                                        deadline - time.perf_counter(), say,
+                                        "beside the search")
         if large and searched and extra_rows and start is not None:
             # Stage two: no rounding LP to price the rows, so one of its own unless whole
             # plans bound the stage beside it (medium: 5.89e7 after 6.4 s against 5.51e7
             # from the held LP's prices), then trimming.
             if bound_on_side is None or not decomposable(model):
-                lp_bound = _held_lp_bound(backend, model, objective, extra_rows, options,
-                                          start, t0 + options.shares.held_bound * budget,
-                                          say, lp_seconds)
+                lp_bound = stage_bounds.held_lp_bound(
+                    backend, model, objective, extra_rows, options, start,
+                    t0 + options.shares.held_bound * budget, say, lp_seconds)
             start = _trimmed(backend, model, objective, extra_rows, options, start,
                              options.shares.trim * (deadline - time.perf_counter()), say)
         if searched:
@@ -235,8 +234,9 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                                                       options, deadline, start, say)
         left = deadline - time.perf_counter()
         if bound_after and start is not None and lp_bound is None:
-            lp_bound = _relaxation_bound(backend, model, objective, extra_rows, options, left,
-                                         say, "after the passes, for the bound")
+            lp_bound = stage_bounds.relaxation_bound(backend, model, objective, extra_rows,
+                                                     options, left, say,
+                                                     "after the passes, for the bound")
             left = deadline - time.perf_counter()
         if passes_only and start is not None:
             say(f"  no search of the whole model: {model.matrix.nnz:,} nonzeros, more than "
@@ -407,41 +407,6 @@ def _trimmed(backend: Backend, model: Model, objective: np.ndarray,
     return out.x
 
 
-def _held_lp_bound(backend: Backend, model: Model, objective: np.ndarray,
-                   extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
-                   start: np.ndarray, deadline: float, say: Callable[[str], None],
-                   expected_seconds: float | None = None) -> float | None:
-    """A bound from the prices of the rounding's LP (homes held where ``start`` has them;
-    :func:`~rebalance.bounds.priced_bound`), or None if the LP does not finish in time.
-
-    Not tried where that LP would keep only the most needed destinations (its prices bound
-    nothing: -3.3e10 on large), nor where ``expected_seconds`` (what the same LP took in
-    stage one) is more than it would get (agency: 57 s, against 19 s in stage two).
-    """
-    began = time.perf_counter()
-    lp_limit = options.shares.held_lp * (deadline - began)
-    if prunes_details(model):
-        say("  no LP with homes held: it would keep only the most needed destinations, "
-            "and its prices would bound nothing")
-        return None
-    if expected_seconds is not None and expected_seconds > lp_limit:
-        say(f"  no LP with homes held: stage 1's took {expected_seconds:.0f}s, more than "
-            f"the {lp_limit:.0f}s it would get")
-        return None
-    _, lower, upper = held_lp_bounds(model, start)
-    lp = solve_relaxation(backend, model, objective, extra_rows, options, lp_limit, lower,
-                          upper)
-    if lp.row_dual is None:
-        say(f"  bound from row prices: LP with homes held not solved ({lp.words})")
-        return None
-    bound = priced_bound(backend, model, objective, lp.row_dual, options,
-                         deadline - time.perf_counter(), extra_rows, _exact_pieces(model))
-    if bound is not None:
-        say(f"  bound from the row prices of an LP with homes held: {bound:.6g} in "
-            f"{time.perf_counter() - began:.1f}s")
-    return bound
-
-
 def _higher(a: float | None, b: float | None) -> float | None:
     """The higher of two bounds, either of which may be missing."""
     return b if a is None else a if b is None else max(a, b)
@@ -455,73 +420,6 @@ def _is_large(model: Model, backend: Backend) -> bool:
 def _not_searched(words: str) -> BackendOutcome:
     """The outcome of a branch and bound that was not run: the stage keeps its plan."""
     return BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, None, words, 0.0)
-
-
-def _relaxation_bound(backend: Backend, model: Model, objective: np.ndarray,
-                      extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
-                      time_limit: float, say: Callable[[str], None],
-                      when: str) -> float | None:
-    """A bound for the stage from a relaxation: relocatable people's whole plans where the
-    model has them and the backend is HiGHS (:mod:`rebalance.decomposition`; medium: 1,557.8
-    in 20 s, where the LP relaxation gives 1,546.5 in 81-95 s), else the LP relaxation."""
-    began = time.perf_counter()
-    if backend.name == "highs" and decomposable(model):
-        try:
-            return _whole_plans_bound(model, objective, extra_rows, options, time_limit,
-                                      say, when)
-        except DecompositionError as failure:
-            # People whose rows the shortest path does not read, or a solver error: the
-            # LP relaxation, in the time left.
-            say(f"  bound from relocatable people's whole plans ({when}) failed: {failure}")
-            time_limit -= time.perf_counter() - began
-    return _lp_bound(backend, model, objective, extra_rows, options, time_limit, say, when)
-
-
-# The column generation is told to stop this long before its process is killed.
-WHOLE_PLANS_GRACE_SECONDS = 1.5
-# Rounds of coverage cuts it may add (medium: 1,557.8 after 21 s without; 1,572-1,575.7
-# after 45-85 s with them, converged after 62 rounds of plans and cuts).
-WHOLE_PLANS_CUT_ROUNDS = 50
-
-
-def _whole_plans_bound(model: Model, objective: np.ndarray,
-                       extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
-                       time_limit: float, say: Callable[[str], None],
-                       when: str) -> float | None:
-    """:func:`~rebalance.decomposition.plan_bound` in a process killed at ``time_limit``
-    (its master LP runs in HiGHS, which may overrun); the best bound it reached.  Raises
-    :class:`~rebalance.whole_plans.DecompositionError` where it failed rather than ran out
-    of time."""
-    began = time.perf_counter()
-    stop = began + max(time_limit - WHOLE_PLANS_GRACE_SECONDS, 0.5 * time_limit)
-
-    def run(_: SolveOptions, __: object, on_bound: Callable[[float], None]) -> BackendOutcome:
-        bound, rounds = plan_bound(model, objective, extra_rows, stop, on_bound,
-                                   WHOLE_PLANS_CUT_ROUNDS)
-        return BackendOutcome(Status.OPTIMAL if bound is not None else Status.NO_PLAN_IN_TIME,
-                              None, None, bound, f"{rounds} rounds", 0.0)
-
-    out = run_in_child(run, replace(options, progress=None), time_limit)
-    if out.status is Status.ERROR:
-        raise DecompositionError(out.words)
-    if out.bound is None:
-        say(f"  bound from relocatable people's whole plans ({when}): none ({out.words})")
-        return None
-    say(f"  bound from relocatable people's whole plans ({when}): {out.bound:.6g} in "
-        f"{out.seconds:.1f}s ({out.words})")
-    return out.bound
-
-
-def _lp_bound(backend: Backend, model: Model, objective: np.ndarray,
-              extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
-              time_limit: float, say: Callable[[str], None], when: str) -> float | None:
-    """The LP relaxation's value, a bound for the stage, or None if it did not finish."""
-    lp = solve_relaxation(backend, model, objective, extra_rows, options, time_limit)
-    if lp.status is Status.OPTIMAL and lp.objective is not None:
-        say(f"  LP relaxation ({when}) {lp.objective:.6g} in {lp.seconds:.1f}s")
-        return lp.objective
-    say(f"  LP relaxation ({when}) not solved ({lp.words}); no bound from it")
-    return None
 
 
 # Every objective solved here is shortfall or money paid (priorities, costs and disruption
@@ -658,7 +556,8 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
             # Beside the search it holds nothing up, so it may take what is left of the stage.
             beside = options.threads >= 2
             pricing = functools.partial(
-                _bound_from_prices, backend, model, objective, rounding.lp_row_dual, options,
+                stage_bounds.bound_from_prices, backend, model, objective,
+                rounding.lp_row_dual, options,
                 (1.0 if beside else options.shares.priced_bound) * left, say)
             if beside:
                 # Priced beside the search (agency: 19 s the groups would otherwise wait);
@@ -681,30 +580,6 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
     else:
         run_pass("details alone", held_but(("detail",)), 1.0)
     return FirstPlan(best, None if bound is None else bound.result(), lp_seconds)
-
-
-def _bound_from_prices(backend: Backend, model: Model, objective: np.ndarray,
-                       prices: np.ndarray, options: SolveOptions, time_limit: float,
-                       say: Callable[[str], None], where: str) -> float | None:
-    """:func:`~rebalance.bounds.priced_bound`, said when found."""
-    began = time.perf_counter()
-    bound = priced_bound(backend, model, objective, prices, options, time_limit, None,
-                         _exact_pieces(model))
-    if bound is not None:
-        say(f"  bound from the rounding LP's row prices{where}: {bound:.6g} in "
-            f"{time.perf_counter() - began:.1f}s")
-    return bound
-
-
-def _exact_pieces(model: Model) -> WholePlans | None:
-    """Relocatable people's whole plans, for a bound from prices to solve exactly, where the
-    model has them in the shape their shortest path reads."""
-    if not decomposable(model):
-        return None
-    try:
-        return WholePlans(model)
-    except DecompositionError:
-        return None
 
 
 def _stage(name: str, out: BackendOutcome) -> StageResult:

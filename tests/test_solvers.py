@@ -179,7 +179,8 @@ def test_the_lp_beside_the_search_stops_within_its_stage(monkeypatch):
     monkeypatch.setattr(solve_module, "LARGE_MODEL_COLUMNS", 0)
     deadlines: list[float] = []
     overruns: list[float] = []
-    real_stage, real_lp_bound = solve_module.solve_stage, solve_module._lp_bound
+    bounds_module = importlib.import_module("rebalance.stage_bounds")
+    real_stage, real_lp_bound = solve_module.solve_stage, bounds_module.lp_bound
 
     def stage(*args, **kwargs):
         deadlines.append(args[5])  # (backend, model, objective, extra_rows, options, deadline)
@@ -197,7 +198,7 @@ def test_the_lp_beside_the_search_stops_within_its_stage(monkeypatch):
         return real_trimmed(*args, **kwargs)
 
     monkeypatch.setattr(solve_module, "solve_stage", stage)
-    monkeypatch.setattr(solve_module, "_lp_bound", lp_bound)
+    monkeypatch.setattr(bounds_module, "lp_bound", lp_bound)
     monkeypatch.setattr(solve_module, "_trimmed", slow_trimmed)
     solve_verified(read_instance(DATA / "tiny"), threads=2)
     assert len(overruns) == 2  # one per stage
@@ -249,7 +250,8 @@ def test_a_failed_whole_plans_bound_gives_way_to_the_lp(monkeypatch):
 
     said: list[str] = []
     monkeypatch.setattr(solve_module, "LARGE_MODEL_COLUMNS", 0)
-    monkeypatch.setattr(solve_module, "plan_bound", failing)
+    monkeypatch.setattr(importlib.import_module("rebalance.stage_bounds"), "plan_bound",
+                        failing)
     forced = solve_verified(instance, pair_details=False, threads=2, progress=said.append)
     assert any("whole plans (beside the search) failed" in line for line in said)
     assert any("LP relaxation (beside the search)" in line for line in said)
@@ -266,7 +268,8 @@ def test_without_a_bound_from_prices_the_lp_relaxation_runs_after_the_passes(mon
     usual = solve_verified(tiny)
     said: list[str] = []
     monkeypatch.setattr(solve_module, "LARGE_MODEL_COLUMNS", 0)
-    monkeypatch.setattr(solve_module, "priced_bound", lambda *args: None)
+    monkeypatch.setattr(importlib.import_module("rebalance.stage_bounds"), "priced_bound",
+                        lambda *args: None)
     forced = solve_verified(tiny, threads=1, progress=said.append)
     assert any("LP relaxation (after the passes, for the bound)" in line for line in said)
     assert not any("row prices" in line for line in said)

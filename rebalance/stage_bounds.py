@@ -1,0 +1,149 @@
+"""Bounds for one stage of the solve, each said when found: from row prices (the rounding's
+LP, or an LP with homes held), from relocatable people's whole plans, or from the LP
+relaxation.  Every one is a valid lower bound whatever the solver's tolerances
+(``rebalance.bounds``); the stage keeps the highest (``rebalance.solve``).
+"""
+
+from __future__ import annotations
+
+import time
+from collections.abc import Callable
+from dataclasses import replace
+
+import numpy as np
+
+from rebalance.backends import Backend, BackendOutcome, SolveOptions, Status, run_in_child
+from rebalance.bounds import priced_bound
+from rebalance.decomposition import plan_bound
+from rebalance.model import Model
+from rebalance.rounding import held_lp_bounds, prunes_details
+from rebalance.split import solve_relaxation
+from rebalance.whole_plans import DecompositionError, WholePlans, decomposable
+
+__all__ = ["bound_from_prices", "held_lp_bound", "lp_bound", "relaxation_bound"]
+
+
+def held_lp_bound(backend: Backend, model: Model, objective: np.ndarray,
+                  extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
+                  start: np.ndarray, deadline: float, say: Callable[[str], None],
+                  expected_seconds: float | None = None) -> float | None:
+    """A bound from the prices of the rounding's LP (homes held where ``start`` has them;
+    :func:`~rebalance.bounds.priced_bound`), or None if the LP does not finish in time.
+
+    Not tried where that LP would keep only the most needed destinations (its prices bound
+    nothing: -3.3e10 on large), nor where ``expected_seconds`` (what the same LP took in
+    stage one) is more than it would get (agency: 57 s, against 19 s in stage two).
+    """
+    began = time.perf_counter()
+    lp_limit = options.shares.held_lp * (deadline - began)
+    if prunes_details(model):
+        say("  no LP with homes held: it would keep only the most needed destinations, "
+            "and its prices would bound nothing")
+        return None
+    if expected_seconds is not None and expected_seconds > lp_limit:
+        say(f"  no LP with homes held: stage 1's took {expected_seconds:.0f}s, more than "
+            f"the {lp_limit:.0f}s it would get")
+        return None
+    _, lower, upper = held_lp_bounds(model, start)
+    lp = solve_relaxation(backend, model, objective, extra_rows, options, lp_limit, lower,
+                          upper)
+    if lp.row_dual is None:
+        say(f"  bound from row prices: LP with homes held not solved ({lp.words})")
+        return None
+    bound = priced_bound(backend, model, objective, lp.row_dual, options,
+                         deadline - time.perf_counter(), extra_rows, _exact_pieces(model))
+    if bound is not None:
+        say(f"  bound from the row prices of an LP with homes held: {bound:.6g} in "
+            f"{time.perf_counter() - began:.1f}s")
+    return bound
+
+
+def relaxation_bound(backend: Backend, model: Model, objective: np.ndarray,
+                     extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
+                     time_limit: float, say: Callable[[str], None],
+                     when: str) -> float | None:
+    """A bound for the stage from a relaxation: relocatable people's whole plans where the
+    model has them and the backend is HiGHS (:mod:`rebalance.decomposition`; medium: 1,557.8
+    in 20 s, where the LP relaxation gives 1,546.5 in 81-95 s), else the LP relaxation."""
+    began = time.perf_counter()
+    if backend.name == "highs" and decomposable(model):
+        try:
+            return _whole_plans_bound(model, objective, extra_rows, options, time_limit,
+                                      say, when)
+        except DecompositionError as failure:
+            # People whose rows the shortest path does not read, or a solver error: the
+            # LP relaxation, in the time left.
+            say(f"  bound from relocatable people's whole plans ({when}) failed: {failure}")
+            time_limit -= time.perf_counter() - began
+    return lp_bound(backend, model, objective, extra_rows, options, time_limit, say, when)
+
+
+# The column generation is told to stop this long before its process is killed.
+WHOLE_PLANS_GRACE_SECONDS = 1.5
+# Rounds of coverage cuts it may add (medium: 1,557.8 after 21 s without; 1,572-1,575.7
+# after 45-85 s with them, converged after 62 rounds of plans and cuts).
+WHOLE_PLANS_CUT_ROUNDS = 50
+
+
+def _whole_plans_bound(model: Model, objective: np.ndarray,
+                       extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
+                       time_limit: float, say: Callable[[str], None],
+                       when: str) -> float | None:
+    """:func:`~rebalance.decomposition.plan_bound` in a process killed at ``time_limit``
+    (its master LP runs in HiGHS, which may overrun); the best bound it reached.  Raises
+    :class:`~rebalance.whole_plans.DecompositionError` where it failed rather than ran out
+    of time."""
+    began = time.perf_counter()
+    stop = began + max(time_limit - WHOLE_PLANS_GRACE_SECONDS, 0.5 * time_limit)
+
+    def run(_: SolveOptions, __: object, on_bound: Callable[[float], None]) -> BackendOutcome:
+        bound, rounds = plan_bound(model, objective, extra_rows, stop, on_bound,
+                                   WHOLE_PLANS_CUT_ROUNDS)
+        return BackendOutcome(Status.OPTIMAL if bound is not None else Status.NO_PLAN_IN_TIME,
+                              None, None, bound, f"{rounds} rounds", 0.0)
+
+    out = run_in_child(run, replace(options, progress=None), time_limit)
+    if out.status is Status.ERROR:
+        raise DecompositionError(out.words)
+    if out.bound is None:
+        say(f"  bound from relocatable people's whole plans ({when}): none ({out.words})")
+        return None
+    say(f"  bound from relocatable people's whole plans ({when}): {out.bound:.6g} in "
+        f"{out.seconds:.1f}s ({out.words})")
+    return out.bound
+
+
+def lp_bound(backend: Backend, model: Model, objective: np.ndarray,
+             extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
+             time_limit: float, say: Callable[[str], None], when: str) -> float | None:
+    """The LP relaxation's value, a bound for the stage, or None if it did not finish."""
+    lp = solve_relaxation(backend, model, objective, extra_rows, options, time_limit)
+    if lp.status is Status.OPTIMAL and lp.objective is not None:
+        say(f"  LP relaxation ({when}) {lp.objective:.6g} in {lp.seconds:.1f}s")
+        return lp.objective
+    say(f"  LP relaxation ({when}) not solved ({lp.words}); no bound from it")
+    return None
+
+
+def bound_from_prices(backend: Backend, model: Model, objective: np.ndarray,
+                      prices: np.ndarray, options: SolveOptions, time_limit: float,
+                      say: Callable[[str], None], where: str) -> float | None:
+    """:func:`~rebalance.bounds.priced_bound`, said when found."""
+    began = time.perf_counter()
+    bound = priced_bound(backend, model, objective, prices, options, time_limit, None,
+                         _exact_pieces(model))
+    if bound is not None:
+        say(f"  bound from the rounding LP's row prices{where}: {bound:.6g} in "
+            f"{time.perf_counter() - began:.1f}s")
+    return bound
+
+
+def _exact_pieces(model: Model) -> WholePlans | None:
+    """Relocatable people's whole plans, for a bound from prices to solve exactly, where the
+    model has them in the shape their shortest path reads."""
+    if not decomposable(model):
+        return None
+    try:
+        return WholePlans(model)
+    except DecompositionError:
+        return None

@@ -1,7 +1,8 @@
 """Bounds for one stage of the solve, each said when found: from row prices (the rounding's
 LP, or an LP with homes held), from relocatable people's whole plans, or from the LP
-relaxation.  Every one is a valid lower bound whatever the solver's tolerances
-(``rebalance.bounds``); the stage keeps the highest (``rebalance.solve``).
+relaxation.  The first two are worked out by weak duality from prices
+(``rebalance.bounds``), so no solver tolerance can make them claim too much; the third is
+the solver's own value.  The stage keeps the highest (``rebalance.solve``).
 """
 
 from __future__ import annotations

@@ -130,6 +130,8 @@ class BackendOutcome:
     seconds: float
     # An LP's row prices (duals), model rows then extra rows, where the solver gives them.
     row_dual: np.ndarray | None = None
+    # Stopped by our own kill at the wall clock (HiGHS's child, or CBC), not by the solver.
+    killed: bool = False
 
 
 class Backend(Protocol):
@@ -347,12 +349,13 @@ def run_in_child(run: Callable[[SolveOptions, PlanSink, BoundSink], BackendOutco
     if last_plan is not None:
         x, objective = last_plan
         return BackendOutcome(Status.FEASIBLE_WITH_GAP, x, objective, best_bound, KILLED,
-                              seconds)
+                              seconds, killed=True)
     if process.exitcode not in (0, -signal.SIGKILL) or seconds < wall_seconds:
         return BackendOutcome(Status.ERROR, None, None, None,
                               f"the solver process ended with code {process.exitcode}",
                               seconds)
-    return BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, best_bound, KILLED, seconds)
+    return BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, best_bound, KILLED, seconds,
+                          killed=True)
 
 
 class HighsBackend:
@@ -374,7 +377,7 @@ class HighsBackend:
             lambda opts, on_plan, on_bound: self._run_here(model, objective, extra_rows, opts,
                                                            own_limit, start, on_plan, on_bound),
             options, time_limit)
-        if out.x is not None and out.words == KILLED:
+        if out.x is not None and out.killed:
             # A plan handed over before the kill: score it here rather than trust the claim.
             out = replace(out, objective=float(objective @ out.x))
         return out
@@ -706,7 +709,7 @@ class CbcBackend:
             except pulp.PulpSolverError as exc:
                 if guard.fired:
                     return BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, None, KILLED,
-                                          time.perf_counter() - started)
+                                          time.perf_counter() - started, killed=True)
                 return BackendOutcome(Status.ERROR, None, None, None, str(exc),
                                       time.perf_counter() - started)
             finally:

@@ -34,7 +34,7 @@ from rebalance.model import Model, RowFamily
 from rebalance.split import solve_relaxation
 
 __all__ = ["LINKING_FAMILIES", "ExactPieces", "dual_bound", "priced_bound", "priced_terms",
-           "with_extra_rows"]
+           "signed_prices", "with_extra_rows"]
 
 # Rows that tie different people, groups and hires together; all others belong to one of
 # them (a unit's capacity, detail and home rows; the hires' vacancy and hiring-rate rows).
@@ -79,10 +79,15 @@ def priced_terms(row_lower: np.ndarray, row_upper: np.ndarray, prices: np.ndarra
 
 
 def _signed(model: Model, prices: np.ndarray) -> np.ndarray:
+    return signed_prices(model.row_lower, model.row_upper, prices)
+
+
+def signed_prices(row_lower: np.ndarray, row_upper: np.ndarray,
+                  prices: np.ndarray) -> np.ndarray:
     """``prices`` with each set to 0 where its sign would price a row side with no bound."""
     y = np.asarray(prices, float).copy()
-    y[(y > 0) & ~np.isfinite(model.row_lower)] = 0.0
-    y[(y < 0) & ~np.isfinite(model.row_upper)] = 0.0
+    y[(y > 0) & ~np.isfinite(row_lower)] = 0.0
+    y[(y < 0) & ~np.isfinite(row_upper)] = 0.0
     return y
 
 
@@ -150,10 +155,12 @@ def priced_bound(backend: Backend, model: Model, objective: np.ndarray, prices: 
         exact_rows[:pieces.own_rows.size] = pieces.own_rows
         exact_columns = pieces.columns
     rows = np.flatnonzero(~linking & ~exact_rows)
-    # The pieces' columns stay out of every LP (a row they share with others is priced
-    # there without them: any price keeps the bound valid).
-    apart = (model.matrix[rows] @ sp.diags((~exact_columns).astype(float))).tocsc()
-    apart.eliminate_zeros()
+    apart = model.matrix[rows].tocsc()
+    if pieces is not None:
+        # The pieces' columns stay out of every LP (a row they share with others is priced
+        # there without them: any price keeps the bound valid).
+        apart = (apart @ sp.diags((~exact_columns).astype(float))).tocsc()
+        apart.eliminate_zeros()
     col_order, row_order, batches = _batches(apart)
     # One permutation makes every batch a contiguous block: slicing the whole matrix per
     # batch cost more than the LPs at large scale.

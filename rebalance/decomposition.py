@@ -21,7 +21,7 @@ import numpy as np
 import scipy.sparse as sp
 
 from rebalance.backends import row_scale
-from rebalance.bounds import ROUNDING_SLACK, priced_terms, with_extra_rows
+from rebalance.bounds import ROUNDING_SLACK, priced_terms, signed_prices, with_extra_rows
 from rebalance.cuts import Cut, coverage_cuts
 from rebalance.model import Model
 from rebalance.whole_plans import WholePlans, best_plan, staying_home
@@ -161,9 +161,9 @@ class _Master:
         """The bound of the master's prices, and each person's best plan where it pays."""
         dual = np.asarray(self.h.getSolution().row_dual)
         n_rows, n = self.rows.size, len(self.people)
-        prices = _signed(self.lower, self.upper, dual[:n_rows] * self.factor)
+        prices = signed_prices(self.lower, self.upper, dual[:n_rows] * self.factor)
         convexity = dual[n_rows:n_rows + n]
-        cut_prices = _signed(np.full(self.cut_upper.size, -np.inf), self.cut_upper,
+        cut_prices = signed_prices(np.full(self.cut_upper.size, -np.inf), self.cut_upper,
                              dual[n_rows + n:] * self.cut_factor)
         reduced = self.objective - self.matrix.T @ prices - self.cuts.T @ cut_prices
         row_total, col_terms, size = priced_terms(
@@ -258,11 +258,3 @@ def _add_elastic(h: Any, lower: np.ndarray, upper: np.ndarray, price: float) -> 
     h.addCols(n, np.full(n, price), np.zeros(n), np.full(n, np.inf), n,
               np.arange(n, dtype=np.int32), np.asarray([i for i, _ in sides], np.int32),
               np.asarray([v for _, v in sides], float))
-
-
-def _signed(lower: np.ndarray, upper: np.ndarray, prices: np.ndarray) -> np.ndarray:
-    """Prices set to 0 where their sign would price a row side with no bound."""
-    y = prices.copy()
-    y[(y > 0) & ~np.isfinite(lower)] = 0.0
-    y[(y < 0) & ~np.isfinite(upper)] = 0.0
-    return y

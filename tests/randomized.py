@@ -96,5 +96,10 @@ def movers(seed: int, max_run: int | None = 1) -> Instance:
     one), with a consecutive-detail limit."""
     base = random_instance(seed, people=4, periods=4, offices=3, skills=2)
     policy = replace(base.policy, max_consecutive_detail_periods=max_run)
-    return base.with_changes(staff=tuple(replace(p, can_relocate=True, can_detail=True)
-                                         for p in base.staff), policy=policy)
+    return everyone_moves(base.with_changes(policy=policy))
+
+
+def everyone_moves(instance: Instance) -> Instance:
+    """``instance`` with every person allowed to go on detail and to be relocated."""
+    return instance.with_changes(staff=tuple(replace(p, can_relocate=True, can_detail=True)
+                                             for p in instance.staff))

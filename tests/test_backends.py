@@ -122,6 +122,7 @@ def test_a_child_past_the_wall_clock_limit_is_stopped(monkeypatch):
     out = run_in_child(stuck, SolveOptions(), 1.0)
     assert time.perf_counter() - started < 10
     assert out.status is Status.NO_PLAN_IN_TIME and out.x is None
+    assert out.killed
     assert backends_module.HIGHS_GRACE_SECONDS > 0
 
 
@@ -178,6 +179,7 @@ def test_a_plan_found_by_a_child_before_the_kill_is_scored_and_kept(monkeypatch)
     monkeypatch.setattr(backends_module, "HIGHS_GRACE_SECONDS", -0.5)
     out = HighsBackend().run(model, model.shortfall_weight, [], SolveOptions(), 3.0, None)
     assert out.status is Status.FEASIBLE_WITH_GAP and out.words == "stopped at the wall-clock limit"
+    assert out.killed
     assert out.x is not None and out.objective == float(model.shortfall_weight @ out.x)
     activity = model.matrix @ out.x
     assert (activity <= model.row_upper + 1e-6).all()

@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 import scipy.sparse as sp
 from conftest import scipy_lp
-from randomized import random_instance
+from randomized import everyone_moves, random_instance
 
 from rebalance.backends import HighsBackend, SolveOptions, Status
 from rebalance.bounds import dual_bound, priced_bound
@@ -26,8 +26,7 @@ from rebalance.split import relaxed
 def _movers(seed: int) -> Instance:
     """A random instance whose people may all be detailed and relocated."""
     base = random_instance(seed, people=4, periods=4, offices=4, skills=2)
-    return base.with_changes(staff=tuple(replace(p, can_relocate=True, can_detail=True)
-                                         for p in base.staff))
+    return everyone_moves(base)
 
 
 def _scipy_lp_optimum(model: Model, objective: np.ndarray) -> float:

@@ -8,7 +8,7 @@ from dataclasses import replace
 
 import pytest
 from conftest import DATA, ROOT, solve_verified
-from randomized import random_instance
+from randomized import everyone_moves, random_instance
 
 from rebalance import Status, make_plan, options_from_instance, read_instance
 from rebalance.instance import Instance
@@ -89,8 +89,7 @@ def test_same_seed_same_plan():
 def test_both_relocatable_detail_formulations_agree(seed):
     # Per (home, destination) pair vs per destination with away and cost-adjustment columns.
     base = random_instance(seed, people=4, periods=4, offices=4, skills=2)
-    instance = base.with_changes(staff=tuple(replace(p, can_relocate=True, can_detail=True)
-                                             for p in base.staff))
+    instance = everyone_moves(base)
     options = options_from_instance(instance, relative_gap=0.0)
     if make_plan(instance, options).status is Status.INFEASIBLE:
         assert make_plan(instance, options, pair_details=False).status is Status.INFEASIBLE
@@ -213,8 +212,7 @@ def test_whole_plans_bound_both_stages_of_a_large_model_beside_the_search(monkey
     # instances; the optimum and its proof must stand, and no bound may pass it.
     solve_module = importlib.import_module("rebalance.solve")
     base = random_instance(seed, people=4, periods=4, offices=3, skills=2)
-    instance = base.with_changes(staff=tuple(replace(p, can_relocate=True, can_detail=True)
-                                             for p in base.staff))
+    instance = everyone_moves(base)
     usual = solve_verified(instance, pair_details=False)
     said: list[str] = []
     monkeypatch.setattr(solve_module, "LARGE_MODEL_COLUMNS", 0)
@@ -241,8 +239,7 @@ def test_a_failed_whole_plans_bound_gives_way_to_the_lp(monkeypatch):
 
     solve_module = importlib.import_module("rebalance.solve")
     base = random_instance(1, people=4, periods=4, offices=3, skills=2)
-    instance = base.with_changes(staff=tuple(replace(p, can_relocate=True, can_detail=True)
-                                             for p in base.staff))
+    instance = everyone_moves(base)
     usual = solve_verified(instance, pair_details=False)
 
     def failing(*args, **kwargs):

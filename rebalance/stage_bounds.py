@@ -21,7 +21,8 @@ from rebalance.rounding import held_lp_bounds, prunes_details
 from rebalance.split import solve_relaxation
 from rebalance.whole_plans import DecompositionError, WholePlans, decomposable
 
-__all__ = ["bound_from_prices", "held_lp_bound", "lp_bound", "relaxation_bound"]
+__all__ = ["bound_from_prices", "held_lp_bound", "lp_bound", "relaxation_bound",
+           "uses_whole_plans"]
 
 
 def held_lp_bound(backend: Backend, model: Model, objective: np.ndarray,
@@ -60,6 +61,12 @@ def held_lp_bound(backend: Backend, model: Model, objective: np.ndarray,
     return bound
 
 
+def uses_whole_plans(backend: Backend, model: Model) -> bool:
+    """Whether :func:`relaxation_bound` comes from relocatable people's whole plans (their
+    master LP runs in HiGHS) rather than the LP relaxation."""
+    return backend.name == "highs" and decomposable(model)
+
+
 def relaxation_bound(backend: Backend, model: Model, objective: np.ndarray,
                      extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
                      time_limit: float, say: Callable[[str], None],
@@ -68,7 +75,7 @@ def relaxation_bound(backend: Backend, model: Model, objective: np.ndarray,
     model has them and the backend is HiGHS (:mod:`rebalance.decomposition`; medium: 1,557.8
     in 20 s, where the LP relaxation gives 1,546.5 in 81-95 s), else the LP relaxation."""
     began = time.perf_counter()
-    if backend.name == "highs" and decomposable(model):
+    if uses_whole_plans(backend, model):
         try:
             return _whole_plans_bound(model, objective, extra_rows, options, time_limit,
                                       say, when)

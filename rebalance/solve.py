@@ -103,8 +103,12 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
 
     say("stage 1: least priority-weighted shortfall")
     # Stage 1 may use most of the time, but leaves stage 2 a share to lower the cost.
-    share = (options.shares.stage1_large if _is_large(model, backend)
-             else options.shares.stage1)
+    if _passes_only(model, backend):
+        share = options.shares.stage1_passes_only
+    elif _is_large(model, backend):
+        share = options.shares.stage1_large
+    else:
+        share = options.shares.stage1
     stage1_deadline = started + share * options.time_limit_seconds
     first, lp_seconds = solve_stage(backend, model, model.shortfall_weight, [], options,
                                     stage1_deadline, None, say)
@@ -188,7 +192,7 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
     large = _is_large(model, backend)
     # Above this size branch and bound on the whole model gets nowhere in a stage's time
     # (HiGHS's presolve of agency alone outlasted it): the passes get all of it instead.
-    passes_only = large and model.matrix.nnz > WHOLE_SEARCH_MAX_NONZEROS
+    passes_only = _passes_only(model, backend)
     # With one thread the LP relaxation (medium: 81 s) runs after the passes only if they
     # bring no bound from the rounding LP's prices (medium: 1,492 in 2 s, against the LP's
     # 1,547): the search near the LP makes better use of the time.
@@ -414,6 +418,11 @@ def _higher(a: float | None, b: float | None) -> float | None:
 def _is_large(model: Model, backend: Backend) -> bool:
     """Whether ``model`` takes the large-model path (passes instead of the LP first)."""
     return model.num_cols > LARGE_MODEL_COLUMNS and backend.reruns_cheaply
+
+
+def _passes_only(model: Model, backend: Backend) -> bool:
+    """Whether ``model`` is past branch and bound on the whole of it: passes only."""
+    return _is_large(model, backend) and model.matrix.nnz > WHOLE_SEARCH_MAX_NONZEROS
 
 
 def _not_searched(words: str) -> BackendOutcome:

@@ -26,7 +26,7 @@ from rebalance.backends import (
     relative_gap,
 )
 from rebalance.model import LIMIT_FAMILIES, Model
-from rebalance.rounding import neighbourhood, plan_by_rounding
+from rebalance.rounding import early_lp, neighbourhood, plan_by_rounding, prunes_details
 from rebalance.split import relaxed, resplit, run_within
 
 __all__ = ["SolveOptions", "SolveResult", "StageResult", "Status", "solve", "solve_stage"]
@@ -543,6 +543,14 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
     # Only a stepping stone where the rounding follows (not under a held objective).
     hires_options = options if extra_rows else replace(
         options, relative_gap=max(options.relative_gap, HIRES_FIRST_GAP))
+    early = None
+    if (not extra_rows and start is None and options.threads >= 2
+            and _passes_only(model, backend) and not prunes_details(model)):
+        # The rounding's LP frees every hire, so it need not wait for the hires pass: with
+        # two threads, and nothing else running yet (passes only), the two run side by side.
+        left = deadline - time.perf_counter()
+        early = early_lp(backend, model, objective, options,
+                         options.shares.rounding_lp * options.shares.rounding * left, held_at)
     run_pass("hires alone", held_but(("hire",)), options.shares.hires, hires_options)
     near, lp_seconds = None, None
     bound: Future[float | None] | None = None
@@ -552,7 +560,7 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
         # (stage two): only for stage one and the weighted objective.
         rounding = plan_by_rounding(backend, model, objective, options,
                                     time.perf_counter() + options.shares.rounding * left,
-                                    best, say)
+                                    best, say, early)
         if rounding.plan is not None:
             best, best_objective = rounding.plan, float(objective @ rounding.plan)
             held_at = np.rint(rounding.plan)

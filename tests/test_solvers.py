@@ -366,6 +366,36 @@ def test_rounding_gives_a_whole_plan_of_the_model_better_than_its_start():
     assert np.all(lower <= rounding.lp_x + 1e-6) and np.all(rounding.lp_x <= upper + 1e-6)
 
 
+def test_rounding_lp_started_before_the_hires_are_known_rounds_to_the_same_plan():
+    # The rounding's LP frees every hire, so an LP started from a plan without hires (as
+    # agency's stage one does, beside its hires pass) is the LP of the plan with them.
+    import numpy as np
+
+    from rebalance.backends import HighsBackend, SolveOptions
+    from rebalance.model import build_model
+    from rebalance.rounding import early_lp, held_lp_bounds, plan_by_rounding
+
+    model = build_model(read_instance(ROOT / "instances" / "demo"))
+    backend = HighsBackend()
+    options = SolveOptions(relative_gap=0.01)
+    held = model.col_upper.copy()
+    held[model.is_integer] = model.col_lower[model.is_integer]
+    hire = model.blocks["hire"]
+    held[hire.start:hire.stop] = model.col_upper[hire.start:hire.stop]
+    start = backend.run(replace(model, col_upper=held), model.shortfall_weight, [], options,
+                        60, None)
+    assert start.x is not None and start.x[hire.start:hire.stop].sum() > 0
+    early = early_lp(backend, model, model.shortfall_weight, options, 60, model.col_lower)
+    _, lower, upper = held_lp_bounds(model, start.x)
+    assert np.array_equal(early.lower, lower) and np.array_equal(early.upper, upper)
+    with_early = plan_by_rounding(backend, model, model.shortfall_weight, options,
+                                  float("inf"), start.x, lambda _: None, early)
+    without = plan_by_rounding(backend, model, model.shortfall_weight, options,
+                               float("inf"), start.x, lambda _: None)
+    assert with_early.plan is not None and without.plan is not None
+    assert np.allclose(with_early.plan, without.plan)
+
+
 def test_pruned_rounding_keeps_the_most_short_destinations_and_still_gives_a_plan(monkeypatch):
     # Large models keep, per person and period, only the detail destinations the start plan
     # leaves most short; forced here on the demo with one destination each.

@@ -97,6 +97,8 @@ def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
             and np.array_equal(early.upper, upper)):
         lp = early.outcome.result()
     else:
+        if early is not None:  # not expected: the plan differs from the LP's in more than hires
+            say("  rounding: the LP started early does not fit this plan; solving it again")
         lp = solve_relaxation(backend, model, objective, [], options,
                               options.shares.rounding_lp * (deadline - time.perf_counter()),
                               lower, upper)

@@ -20,9 +20,10 @@ import tempfile
 import threading
 import time
 from collections.abc import Callable
+from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass, field, replace
 from pathlib import Path
-from typing import Any, Protocol
+from typing import Any, Protocol, TypeVar
 
 import numpy as np
 import scipy.sparse as sp
@@ -31,8 +32,11 @@ from rebalance.instance import ObjectiveMode, SolverName
 from rebalance.model import Model
 
 __all__ = ["BACKENDS", "Backend", "BackendOutcome", "SolveOptions", "Status", "TimeShares",
-           "relative_gap", "row_scale", "run_in_child", "stacked_rows"]
+           "in_background", "relative_gap", "row_scale", "run_in_child",
+           "stacked_rows"]
 
+
+T = TypeVar("T")
 
 class Status(enum.Enum):
     OPTIMAL = "optimal"
@@ -363,6 +367,16 @@ def run_in_child(run: Callable[[SolveOptions, PlanSink, BoundSink], BackendOutco
                               seconds)
     return BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, best_bound, KILLED, seconds,
                           killed=True)
+
+
+def in_background(run: Callable[..., T], *args: Any) -> Future[T]:
+    """``run(*args)`` started in a thread of its own; the caller goes on and reads the
+    result from the future.  For steps whose solver runs in a child process or lets go of
+    Python while it solves, so the thread only waits."""
+    pool = ThreadPoolExecutor(max_workers=1)
+    future = pool.submit(run, *args)
+    pool.shutdown(wait=False)  # the step runs on; its result waits for it
+    return future
 
 
 class HighsBackend:

@@ -15,12 +15,12 @@ from __future__ import annotations
 
 import time
 from collections.abc import Callable
-from concurrent.futures import Future, ThreadPoolExecutor
+from concurrent.futures import Future
 from dataclasses import dataclass, replace
 
 import numpy as np
 
-from rebalance.backends import Backend, BackendOutcome, SolveOptions, Status
+from rebalance.backends import Backend, BackendOutcome, SolveOptions, Status, in_background
 from rebalance.model import ADAPTING_FAMILIES, Model
 from rebalance.split import resplit, solve_relaxation
 
@@ -68,11 +68,8 @@ def early_lp(backend: Backend, model: Model, objective: np.ndarray, options: Sol
     ``start`` in hires only is rounded from the same LP: on agency the hires pass (10 s) and
     this LP (60-74 s) then run side by side instead of one after the other."""
     _, lower, upper = held_lp_bounds(model, start)
-    pool = ThreadPoolExecutor(max_workers=1)
-    outcome = pool.submit(solve_relaxation, backend, model, objective, [], options, time_limit,
-                          lower, upper)
-    pool.shutdown(wait=False)  # the LP runs on; its result waits for it
-    return EarlyLP(lower, upper, outcome)
+    return EarlyLP(lower, upper, in_background(solve_relaxation, backend, model, objective, [],
+                                               options, time_limit, lower, upper))
 
 
 def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,

@@ -23,6 +23,7 @@ from rebalance.backends import (
     BackendOutcome,
     SolveOptions,
     Status,
+    in_background,
     relative_gap,
 )
 from rebalance.model import LIMIT_FAMILIES, Model
@@ -578,9 +579,7 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
             if beside:
                 # Priced beside the search (agency: 19 s the groups would otherwise wait);
                 # HiGHS lets go of Python while it solves.
-                side = ThreadPoolExecutor(max_workers=1)
-                bound = side.submit(pricing, " beside the search")
-                side.shutdown(wait=False)  # the pricing runs on; its result waits for it
+                bound = in_background(pricing, " beside the search")
             else:
                 bound = Future()
                 bound.set_result(pricing(""))

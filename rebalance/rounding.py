@@ -69,7 +69,7 @@ def early_lp(backend: Backend, model: Model, objective: np.ndarray, options: Sol
     this LP (60-74 s) then run side by side instead of one after the other."""
     _, lower, upper = held_lp_bounds(model, start)
     return EarlyLP(lower, upper, in_background(solve_relaxation, backend, model, objective, [],
-                                               options, time_limit, lower, upper))
+                                               options, time_limit, lower, upper, True))
 
 
 def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
@@ -98,8 +98,8 @@ def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
             say("  rounding: the LP started early does not fit this plan; solving it again")
         lp = solve_relaxation(backend, model, objective, [], options,
                               options.shares.rounding_lp * (deadline - time.perf_counter()),
-                              lower, upper)
-    if lp.status is not Status.OPTIMAL or lp.x is None:
+                              lower, upper, point_only=True)
+    if lp.status not in (Status.OPTIMAL, Status.APPROXIMATE) or lp.x is None:
         say(f"  rounding: LP not solved ({lp.words})")
         return Rounding(None, None, None, lower, upper, lp.seconds)
     say(f"  rounding: LP {lp.objective:.6g} in {lp.seconds:.1f}s")

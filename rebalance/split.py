@@ -27,14 +27,17 @@ def relaxed(model: Model) -> Model:
 def solve_relaxation(backend: Backend, model: Model, objective: np.ndarray,
                      extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
                      time_limit: float, lower: np.ndarray | None = None,
-                     upper: np.ndarray | None = None) -> BackendOutcome:
+                     upper: np.ndarray | None = None, point_only: bool = False
+                     ) -> BackendOutcome:
     """The LP relaxation of ``model`` plus ``extra_rows``, within column bounds ``lower`` and
-    ``upper`` where given, without progress lines (an LP is one step of something else)."""
+    ``upper`` where given, without progress lines (an LP is one step of something else).
+    ``point_only``: its point and prices are all that is wanted (status ``APPROXIMATE``
+    where that made it quicker; :attr:`~rebalance.backends.SolveOptions.point_only`)."""
     if lower is not None or upper is not None:
         model = replace(model, col_lower=model.col_lower if lower is None else lower,
                         col_upper=model.col_upper if upper is None else upper)
-    return backend.run(relaxed(model), objective, extra_rows, replace(options, progress=None),
-                       time_limit, None)
+    return backend.run(relaxed(model), objective, extra_rows,
+                       replace(options, progress=None, point_only=point_only), time_limit, None)
 
 
 def run_within(backend: Backend, model: Model, objective: np.ndarray,

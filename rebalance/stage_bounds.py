@@ -48,7 +48,7 @@ def held_lp_bound(backend: Backend, model: Model, objective: np.ndarray,
         return None
     _, lower, upper = held_lp_bounds(model, start)
     lp = solve_relaxation(backend, model, objective, extra_rows, options, lp_limit, lower,
-                          upper)
+                          upper, point_only=True)
     if lp.row_dual is None:
         say(f"  bound from row prices: LP with homes held not solved ({lp.words})")
         return None

@@ -20,7 +20,7 @@ from rebalance.backends import HighsBackend, SolveOptions, Status
 from rebalance.bounds import dual_bound, priced_bound
 from rebalance.instance import Instance
 from rebalance.model import Model, build_model
-from rebalance.split import relaxed
+from rebalance.split import relaxed, solve_relaxation
 
 
 def _movers(seed: int) -> Instance:
@@ -150,3 +150,25 @@ def test_the_first_plan_of_a_large_model_brings_a_bound_near_the_lp():
     assert first.x is not None and first.bound is not None
     assert 0.9 * reference <= first.bound <= reference + 1e-6 * reference
     assert first.bound <= float(model.shortfall_weight @ first.x)
+
+
+@pytest.mark.parametrize("seed", range(3))
+def test_an_lp_asked_for_its_point_only_lands_near_the_optimum_and_its_prices_still_bound(
+        seed, monkeypatch):
+    # Large LPs wanted for a point to round go to HiGHS's first-order method (PDLP) with a
+    # loose tolerance; here every LP counts as large.  Its objective is near scipy's optimum
+    # but claims no bound; any prices, its own included, bound the optimum from below.
+    import rebalance.backends as backends
+
+    monkeypatch.setattr(backends, "IPM_LP_COLUMNS", 0)
+    model, objectives = _model_and_objectives(seed)
+    for objective in objectives:
+        reference = _scipy_lp_optimum(model, objective)
+        lp = solve_relaxation(HighsBackend(), model, objective, [], SolveOptions(), 60,
+                              point_only=True)
+        assert lp.status is Status.APPROXIMATE and lp.bound is None
+        assert lp.x is not None and lp.row_dual is not None and lp.objective is not None
+        loose = 5 * backends.POINT_ONLY_TOLERANCE * (1.0 + abs(reference))
+        assert float(objective @ lp.x) == pytest.approx(reference, abs=loose)
+        scale = 1e-6 * (1.0 + abs(reference))
+        assert dual_bound(model, objective, lp.row_dual) <= reference + scale

@@ -25,14 +25,9 @@ from rebalance.model import ADAPTING_FAMILIES, Model
 from rebalance.split import resplit, solve_relaxation
 
 __all__ = ["EarlyLP", "Rounding", "RowActivity", "early_lp", "held_lp_bounds", "neighbourhood",
-           "plan_by_rounding", "prunes_details", "repair_rows", "round_up"]
+           "plan_by_rounding", "repair_rows", "round_up"]
 
 TOLERANCE = 1e-6
-# Above this many detail columns the LP keeps only the DESTINATIONS most short destinations
-# per person and period: agency (211k) solves its LP in 52 s whole (plan 7,702) or 15 s
-# pruned (7,982); large's did not finish in 203 s whole.
-PRUNE_ABOVE_DETAIL_COLUMNS = 300_000
-DESTINATIONS = 10
 
 
 @dataclass(frozen=True)
@@ -41,10 +36,7 @@ class Rounding:
 
     plan: np.ndarray | None  # a whole plan better than the start, or None
     lp_x: np.ndarray | None  # the LP point (None: the LP did not finish)
-    # Its row prices, for a bound (rebalance.bounds); None where the LP's details were pruned:
-    # prices from a pruned LP ignore the destinations left out and gave a bound far below 0
-    # on large (-31,656 against plans near 17,500).
-    lp_row_dual: np.ndarray | None
+    lp_row_dual: np.ndarray | None  # its row prices, for a bound (rebalance.bounds)
     lower: np.ndarray  # the LP's column bounds: held columns fixed where the start has them
     upper: np.ndarray
     # Seconds its LP ran (finished or not; None: no LP): a measure of what an LP with the
@@ -103,8 +95,7 @@ def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
         say(f"  rounding: LP not solved ({lp.words})")
         return Rounding(None, None, None, lower, upper, lp.seconds)
     say(f"  rounding: LP {lp.objective:.6g} in {lp.seconds:.1f}s")
-    found = Rounding(None, lp.x, None if prunes_details(model) else lp.row_dual, lower, upper,
-                     lp.seconds)
+    found = Rounding(None, lp.x, lp.row_dual, lower, upper, lp.seconds)
     rounded = np.where(integer, held_at, lp.x)
     rounded[free] = np.floor(lp.x[free] + TOLERANCE)
     ceiling = np.where(free, np.minimum(np.ceil(lp.x - TOLERANCE), upper), rounded)
@@ -126,15 +117,13 @@ def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
 def held_lp_bounds(model: Model, start: np.ndarray) -> tuple[np.ndarray, np.ndarray,
                                                              np.ndarray]:
     """Which integer columns the rounding's LP sets free (hires, and the details that name
-    their home office, pruned above :data:`PRUNE_ABOVE_DETAIL_COLUMNS`), and its column
-    bounds: every other integer column held where ``start`` has it."""
+    their home office), and its column bounds: every other integer column held where
+    ``start`` has it."""
     integer = model.is_integer
     free = np.zeros(model.num_cols, bool)
     if "detail" in model.blocks:
         block = model.blocks["detail"]
         free[block.start:block.stop] = block.keys["home"] >= 0
-        if prunes_details(model):
-            free[block.start:block.stop] &= _most_needed(model, start, DESTINATIONS)
     if "hire" in model.blocks:
         free[model.blocks["hire"].start:model.blocks["hire"].stop] = True
     free &= integer
@@ -161,39 +150,6 @@ def neighbourhood(x: np.ndarray, lower: np.ndarray, upper: np.ndarray, integer: 
         lower[integer] = np.minimum(lower[integer], known)
         upper[integer] = np.maximum(upper[integer], known)
     return lower, upper
-
-
-def prunes_details(model: Model) -> bool:
-    """Whether the rounding's LP keeps only the most needed detail destinations."""
-    return "detail" in model.blocks and len(model.blocks["detail"]) > PRUNE_ABOVE_DETAIL_COLUMNS
-
-
-def _most_needed(model: Model, plan: np.ndarray, keep: int) -> np.ndarray:
-    """Per detail column: whether its destination is among the ``keep`` most short (weighted
-    shortfall in ``plan``, all skills) of the unit's destinations that period.
-
-    A detail to an office that ``plan`` leaves fully covered can only help by freeing
-    someone else; keeping the few most short destinations per person and period makes the LP
-    several times smaller where 60 offices give most people dozens of destinations, at a
-    price (agency, forced: 7,982 against 7,702 whole).
-    """
-    detail, short = model.blocks["detail"], model.blocks["shortfall"]
-    size = [1 + int(max(detail.keys[key].max(initial=0), short.keys[key].max(initial=0)))
-            for key in ("office", "period")]
-    periods = size[1]
-    need = np.zeros(size)
-    weighted = (model.shortfall_weight * plan)[short.start:short.stop]
-    np.add.at(need, (short.keys["office"], short.keys["period"]), weighted)
-    score = need[detail.keys["office"], detail.keys["period"]]
-    unit, period = detail.keys["unit"], detail.keys["period"]
-    # Rank within each (unit, period), most needed first.
-    order = np.lexsort((-score, period, unit))
-    group = unit[order] * periods + period[order]
-    starts = np.r_[0, np.flatnonzero(np.diff(group)) + 1]
-    rank = np.arange(len(order)) - np.repeat(starts, np.diff(np.r_[starts, len(order)]))
-    kept = np.zeros(len(detail), bool)
-    kept[order] = (rank < keep) & (score[order] > TOLERANCE)
-    return kept
 
 
 def _rows_checked(model: Model) -> np.ndarray:

@@ -27,7 +27,7 @@ from rebalance.backends import (
     relative_gap,
 )
 from rebalance.model import LIMIT_FAMILIES, Model
-from rebalance.rounding import early_lp, neighbourhood, plan_by_rounding, prunes_details
+from rebalance.rounding import early_lp, neighbourhood, plan_by_rounding
 from rebalance.split import relaxed, resplit, run_within
 
 __all__ = ["SolveOptions", "SolveResult", "StageResult", "Status", "solve", "solve_stage"]
@@ -546,7 +546,7 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
         options, relative_gap=max(options.relative_gap, HIRES_FIRST_GAP))
     early = None
     if (not extra_rows and start is None and options.threads >= 2
-            and _passes_only(model, backend) and not prunes_details(model)):
+            and _passes_only(model, backend)):
         # The rounding's LP frees every hire, so it need not wait for the hires pass: with
         # two threads, and nothing else running yet (passes only), the two run side by side.
         left = deadline - time.perf_counter()

@@ -396,39 +396,6 @@ def test_rounding_lp_started_before_the_hires_are_known_rounds_to_the_same_plan(
     assert np.allclose(with_early.plan, without.plan)
 
 
-def test_pruned_rounding_keeps_the_most_short_destinations_and_still_gives_a_plan(monkeypatch):
-    # Large models keep, per person and period, only the detail destinations the start plan
-    # leaves most short; forced here on the demo with one destination each.
-    import numpy as np
-
-    from rebalance import rounding
-    from rebalance.backends import HighsBackend, SolveOptions
-    from rebalance.model import build_model
-
-    model = build_model(read_instance(ROOT / "instances" / "demo"))
-    backend = HighsBackend()
-    options = SolveOptions(relative_gap=0.01)
-    detail = model.blocks["detail"]
-    hires_only = model.col_upper.copy()
-    hires_only[detail.start:detail.stop] = 0
-    start = backend.run(replace(model, col_upper=hires_only), model.shortfall_weight, [],
-                        options, 60, None)
-    kept = rounding._most_needed(model, start.x, 1)
-    groups = set(zip(detail.keys["unit"][kept].tolist(), detail.keys["period"][kept].tolist(),
-                     strict=True))
-    assert kept.sum() == len(groups) > 0  # at most one destination per person and period
-    monkeypatch.setattr(rounding, "PRUNE_ABOVE_DETAIL_COLUMNS", 0)
-    monkeypatch.setattr(rounding, "DESTINATIONS", 1)
-    pruned = rounding.plan_by_rounding(backend, model, model.shortfall_weight, options,
-                                       float("inf"), start.x, lambda _: None)
-    x = pruned.plan
-    assert x is not None and float(model.shortfall_weight @ x) < start.objective
-    used = np.flatnonzero(x[detail.start:detail.stop] > 0.5)
-    assert kept[used].all()
-    # Prices of an LP that left destinations out are no ground for a bound: none is offered.
-    assert pruned.lp_x is not None and pruned.lp_row_dual is None
-
-
 @pytest.mark.parametrize("seed", [1, 3])
 def test_trimming_finds_the_cheapest_plan_at_or_below_the_start(seed):
     # The cost stage of a large model first trims stage one's plan: the cheapest plan whose

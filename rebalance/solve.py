@@ -12,6 +12,7 @@ import time
 from collections.abc import Callable
 from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass, replace
+from typing import Any, TypeVar
 
 import numpy as np
 import scipy.sparse as sp
@@ -31,6 +32,8 @@ from rebalance.rounding import early_lp, neighbourhood, plan_by_rounding
 from rebalance.split import relaxed, resplit, run_within
 
 __all__ = ["SolveOptions", "SolveResult", "StageResult", "Status", "solve", "solve_stage"]
+
+T = TypeVar("T")
 
 
 @dataclass(frozen=True)
@@ -111,8 +114,8 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
     else:
         share = options.shares.stage1
     stage1_deadline = started + share * options.time_limit_seconds
-    first, lp_seconds = solve_stage(backend, model, model.shortfall_weight, [], options,
-                                    stage1_deadline, None, say)
+    first, carried = solve_stage(backend, model, model.shortfall_weight, [], options,
+                                 stage1_deadline, None, say, cost_stage_deadline=deadline)
     stages.append(_stage("shortfall", first))
     if not first.status.has_plan or first.x is None or first.objective is None:
         return _finish(model, backend, options, stages, first, started, deadline)
@@ -122,14 +125,10 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
         return _finish(model, backend, options, stages, first, started, deadline,
                        final_status=Status.FEASIBLE_WITH_GAP)
     # Hold the stage-1 shortfall with a small slack, then minimise cost from its plan.
-    held = first.objective
-    # Never below the solvers' feasibility tolerance (1e-6): stage one may itself be that far
-    # under the true least shortfall, and holding it tighter would make stage two pay for it.
-    slack = max(options.shortfall_tolerance * abs(held), 1e-6)
-    say(f"stage 2: least cost with weighted shortfall <= {held + slack:.6g}")
-    second, _ = solve_stage(backend, model, model.cost,
-                            [(model.shortfall_weight, held + slack)], options, deadline,
-                            first.x, say, lp_seconds)
+    held = held_shortfall(first.objective, options)
+    say(f"stage 2: least cost with weighted shortfall <= {held:.6g}")
+    second, _ = solve_stage(backend, model, model.cost, [(model.shortfall_weight, held)],
+                            options, deadline, first.x, say, carried)
     stages.append(_stage("cost", second))
     if not second.status.has_plan:
         # Stage 1's plan still stands; stage 2 only failed to improve its cost.
@@ -141,6 +140,26 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
     return _finish(model, backend, options, stages,
                    polish(backend, model, second, options, deadline), started, deadline,
                    final_status=status)
+
+
+def held_shortfall(shortfall: float, options: SolveOptions) -> float:
+    """What the cost stage holds the weighted shortfall to after a stage 1 plan with
+    ``shortfall``: a small slack above it, never below the solvers' feasibility tolerance
+    (1e-6), since stage 1 may itself be that far under the true least shortfall, and
+    holding it tighter would make stage 2 pay for it."""
+    return shortfall + max(options.shortfall_tolerance * abs(shortfall), 1e-6)
+
+
+@dataclass(frozen=True)
+class CarriedOver:
+    """What stage 1 hands the cost stage besides its plan."""
+
+    # Seconds the rounding's LP (homes held) ran, if it ran: whether an LP of the cost
+    # stage's own with homes held can finish in its time.
+    lp_seconds: float | None = None
+    # A bound on the cost stage worked out beside stage 1's search, for any shortfall held
+    # at or below what stage 1's plan had then (stage_bounds.cost_bound_ahead).
+    cost_bound: Future[stage_bounds.HeldCostBound | None] | None = None
 
 
 def polish(backend: Backend, model: Model, out: BackendOutcome, options: SolveOptions,
@@ -174,11 +193,12 @@ WHOLE_SEARCH_MAX_NONZEROS = 3_000_000
 def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                 extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
                 deadline: float, start: np.ndarray | None, say: Callable[[str], None],
-                lp_seconds: float | None = None) -> tuple[BackendOutcome, float | None]:
+                carried: CarriedOver = CarriedOver(),
+                cost_stage_deadline: float | None = None) -> tuple[BackendOutcome, CarriedOver]:
     """One objective: a first plan, then branch and bound from the better of that plan and
-    ``start``.  Returns the outcome and the seconds the rounding's LP (homes held) ran,
-    if it ran: the cost stage passes it back as ``lp_seconds`` to judge whether an LP of
-    its own with homes held can finish in its time.
+    ``start``.  Returns the outcome and what a cost stage after it should know
+    (:class:`CarriedOver`), which the cost stage gets back as ``carried``.
+    ``cost_stage_deadline``: a cost stage follows, and ends then.
 
     The first plan comes from the LP relaxation and a rounding neighbourhood search, or, on
     models above ``LARGE_MODEL_COLUMNS`` columns with a backend that reruns cheaply, from
@@ -189,6 +209,7 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
     budget = deadline - t0
     lp_bound = None
     rounding_lp_seconds = None
+    cost_bound: Future[stage_bounds.HeldCostBound | None] | None = None
     bound_on_side: Future[float | None] | None = None
     large = _is_large(model, backend)
     # Above this size branch and bound on the whole model gets nowhere in a stage's time
@@ -215,11 +236,13 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
         if large and searched and extra_rows and start is not None:
             # Stage two: no rounding LP to price the rows, so one of its own unless whole
             # plans bound the stage beside it (medium: 5.89e7 after 6.4 s against 5.51e7
-            # from the held LP's prices), then trimming.
-            if bound_on_side is None or not stage_bounds.uses_whole_plans(backend, model):
+            # from the held LP's prices), then trimming.  Where stage one worked one out
+            # beside its search, that one instead (read at the end).
+            if (carried.cost_bound is None and (
+                    bound_on_side is None or not stage_bounds.uses_whole_plans(backend, model))):
                 lp_bound = stage_bounds.held_lp_bound(
                     backend, model, objective, extra_rows, options, start,
-                    t0 + options.shares.held_bound * budget, say, lp_seconds)
+                    t0 + options.shares.held_bound * budget, say, carried.lp_seconds)
             start = _trimmed(backend, model, objective, extra_rows, options, start,
                              options.shares.trim * (deadline - time.perf_counter()), say)
         if searched:
@@ -230,9 +253,10 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                     # cheaper while holding the shortfall.
                     share = 1.0 if passes_only else options.shares.passes
                     first = first_plan_by_decision(backend, model, objective, extra_rows,
-                                                   options, t0 + share * budget, say, start)
+                                                   options, t0 + share * budget, say, start,
+                                                   cost_stage_deadline)
                     start, lp_bound = first.x, _higher(lp_bound, first.bound)
-                    rounding_lp_seconds = first.lp_seconds
+                    rounding_lp_seconds, cost_bound = first.lp_seconds, first.cost_bound
             else:
                 start, lp_bound = _first_plan_from_lp(backend, model, objective, extra_rows,
                                                       options, deadline, start, say)
@@ -253,6 +277,9 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
             out = backend.run(model, objective, extra_rows, options, left, start)
         if bound_on_side is not None:
             lp_bound = _higher(lp_bound, bound_on_side.result())
+    if carried.cost_bound is not None and extra_rows:
+        lp_bound = _higher(lp_bound, _bound_worked_out_ahead(carried.cost_bound,
+                                                             extra_rows[0][1], deadline, say))
     if out.x is None and start is not None and out.status in (Status.NO_PLAN_IN_TIME,
                                                              Status.UNKNOWN):
         # Branch and bound ran out of time before taking up the start: keep the start.
@@ -264,7 +291,23 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
         out = replace(out, bound=_higher(out.bound, lp_bound))
     out = _with_floor(out, options.relative_gap)
     seconds = time.perf_counter() - t0
-    return replace(out, seconds=seconds), rounding_lp_seconds
+    return replace(out, seconds=seconds), CarriedOver(rounding_lp_seconds, cost_bound)
+
+
+def _bound_worked_out_ahead(ahead: Future[stage_bounds.HeldCostBound | None], held: float,
+                            deadline: float, say: Callable[[str], None]) -> float | None:
+    """The cost stage's bound from :func:`~rebalance.stage_bounds.cost_bound_ahead` for a
+    shortfall held at ``held``, if it is there by ``deadline``."""
+    try:
+        worked_out = ahead.result(timeout=max(deadline - time.perf_counter(), 0.0))
+    except TimeoutError:
+        say("  the cost stage's bound from beside stage 1's search did not finish in time")
+        return None
+    bound = None if worked_out is None else worked_out.at(held)
+    if bound is not None:
+        say(f"  bound from beside stage 1's search, for the shortfall held at {held:.6g}: "
+            f"{bound:.6g}")
+    return bound
 
 
 def _restricted_run(backend: Backend, model: Model, objective: np.ndarray,
@@ -490,12 +533,14 @@ class FirstPlan:
     x: np.ndarray | None
     bound: float | None = None
     lp_seconds: float | None = None  # the rounding LP's (Rounding.lp_seconds)
+    cost_bound: Future[stage_bounds.HeldCostBound | None] | None = None  # CarriedOver's
 
 
 def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray,
                            extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
                            deadline: float, say: Callable[[str], None],
-                           start: np.ndarray | None = None) -> FirstPlan:
+                           start: np.ndarray | None = None,
+                           cost_stage_deadline: float | None = None) -> FirstPlan:
     """A plan for a large model, one kind of decision at a time, every other integer column
     held where the plan so far has it.
 
@@ -555,6 +600,7 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
     run_pass("hires alone", held_but(("hire",)), options.shares.hires, hires_options)
     near, lp_seconds = None, None
     bound: Future[float | None] | None = None
+    cost_bound: Future[stage_bounds.HeldCostBound | None] | None = None
     left = deadline - time.perf_counter()
     if best is not None and not extra_rows and left >= 1.0:
         # Rounding down raises the shortfall, so it has no place under a held shortfall
@@ -580,6 +626,15 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
                 # Priced beside the search (agency: 19 s the groups would otherwise wait);
                 # HiGHS lets go of Python while it solves.
                 bound = in_background(pricing, " beside the search")
+                if cost_stage_deadline is not None and _passes_only(model, backend):
+                    # Then the cost stage's bound, which its few seconds cannot work out
+                    # (agency: the LP 28 s, against 3-6 s), after the pricing: one model's
+                    # worth of memory beside the search at a time.
+                    cost_bound = in_background(
+                        _after, bound, functools.partial(
+                            stage_bounds.cost_bound_ahead, backend, model, options, best,
+                            held_shortfall(best_objective, options), cost_stage_deadline,
+                            say))
             else:
                 bound = Future()
                 bound.set_result(pricing(""))
@@ -594,7 +649,13 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
                                            deadline, best, near, say)
     else:
         run_pass("details alone", held_but(("detail",)), 1.0)
-    return FirstPlan(best, None if bound is None else bound.result(), lp_seconds)
+    return FirstPlan(best, None if bound is None else bound.result(), lp_seconds, cost_bound)
+
+
+def _after(first: Future[Any], then: Callable[[], T]) -> T:
+    """``then()`` once ``first`` is done."""
+    first.result()
+    return then()
 
 
 def _stage(name: str, out: BackendOutcome) -> StageResult:

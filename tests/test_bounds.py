@@ -8,19 +8,22 @@ optimum's own prices reach it).
 
 from __future__ import annotations
 
+import time
 from dataclasses import replace
 
 import numpy as np
 import pytest
 import scipy.sparse as sp
-from conftest import scipy_lp
+from conftest import scipy_lp, scipy_milp
 from randomized import everyone_moves, random_instance
 
 from rebalance.backends import HighsBackend, SolveOptions, Status
 from rebalance.bounds import dual_bound, priced_bound
 from rebalance.instance import Instance
 from rebalance.model import Model, build_model
+from rebalance.rounding import held_lp_bounds
 from rebalance.split import relaxed, solve_relaxation
+from rebalance.stage_bounds import cost_bound_ahead
 
 
 def _movers(seed: int) -> Instance:
@@ -172,3 +175,32 @@ def test_an_lp_asked_for_its_point_only_lands_near_the_optimum_and_its_prices_st
         assert float(objective @ lp.x) == pytest.approx(reference, abs=loose)
         scale = 1e-6 * (1.0 + abs(reference))
         assert dual_bound(model, objective, lp.row_dual) <= reference + scale
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_a_cost_bound_for_one_held_shortfall_moves_to_any_lower_one_and_stays_a_bound(seed):
+    # Weak duality: prices from an LP with the shortfall held at S' bound the least cost
+    # under any held shortfall, and only the held row's term moves with it (linearly).
+    # Reference: scipy's milp on the whole model with the shortfall row added (relocatable
+    # people's pieces are solved as whole plans, so the bound may pass the LP's optimum).
+    model, _ = _model_and_objectives(seed)
+    start = model.col_lower.copy()  # nobody moved, nobody hired
+    _, lower, upper = held_lp_bounds(model, start)
+    least_held = float(scipy_lp(model, model.shortfall_weight, lower, upper).fun)
+    least = _scipy_lp_optimum(model, model.shortfall_weight)
+    ahead_at = least_held + 2.0
+    ahead = cost_bound_ahead(HighsBackend(), model, SolveOptions(), start, ahead_at,
+                             time.perf_counter() + 60, lambda _: None)
+    assert ahead is not None and ahead.held_price <= 0.0
+    assert ahead.at(ahead_at + 1.0) is None  # not what it was worked out for
+    checked = 0
+    for held in np.linspace(ahead_at, least, 5):
+        found = scipy_milp(model, model.cost, extra_rows=((model.shortfall_weight, held),))
+        if found.status != 0:
+            continue  # no whole plan reaches that shortfall
+        reference = float(found.fun)
+        bound = ahead.at(float(held))
+        assert bound is not None and bound >= ahead.bound - 1e-9
+        assert bound <= reference + 1e-6 * (1.0 + abs(reference))
+        checked += 1
+    assert checked >= 2

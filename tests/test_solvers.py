@@ -292,11 +292,14 @@ def test_a_model_too_large_to_stop_on_time_keeps_the_first_plan(monkeypatch, thr
     assert result.status is Status.FEASIBLE_WITH_GAP
     assert all(stage.bound is not None and stage.bound >= 0 for stage in result.solve.stages)
     # Stage one's bound comes from the rounding LP's row prices (priced beside the search
-    # with two threads), stage two's from those of an LP of its own with homes held; neither
-    # above the optimum.
+    # with two threads), stage two's from those of an LP with homes held: with one thread
+    # its own, with two one worked out beside stage one's search, for the shortfall its
+    # plan had then, and moved to the shortfall stage two holds.  Neither above the optimum.
     priced = [line for line in said if "rounding LP's row prices" in line]
     assert priced and all(("beside the search" in line) == (threads == 2) for line in priced)
-    assert any("LP with homes held" in line for line in said)
+    ahead = [line for line in said if "bound from beside stage 1's search" in line]
+    assert any("LP with homes held" in line for line in said) == (threads == 1)
+    assert len(ahead) == (threads == 2)
     optimum = solve_verified(tiny).plan
     shortfall, cost = result.solve.stages
     assert shortfall.bound is not None and shortfall.bound <= optimum.weighted_shortfall + 1e-6

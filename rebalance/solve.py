@@ -303,10 +303,11 @@ def _bound_worked_out_ahead(ahead: Future[stage_bounds.HeldCostBound | None], he
     except TimeoutError:
         say("  the cost stage's bound from beside stage 1's search did not finish in time")
         return None
-    bound = None if worked_out is None else worked_out.at(held)
-    if bound is not None:
-        say(f"  bound from beside stage 1's search, for the shortfall held at {held:.6g}: "
-            f"{bound:.6g}")
+    if worked_out is None:
+        return None
+    bound = worked_out.at(held)
+    say(f"  bound from beside stage 1's search, for the shortfall held at {held:.6g}: "
+        f"{bound:.6g}")
     return bound
 
 

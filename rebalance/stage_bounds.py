@@ -56,35 +56,31 @@ class HeldCostBound:
     worked out before the cost stage knows what it holds (:func:`cost_bound_ahead`).
 
     Prices bound by weak duality whatever the held value; only the held row's own term
-    depends on it, so the same prices bound any lower held value, higher by the row's price
-    times the difference (``rebalance.bounds``).
+    depends on it, so the same prices bound the stage for any held value: higher by the
+    row's price times the difference below ``held`` (``rebalance.bounds``).
     """
 
     held: float
     bound: float
     held_price: float  # the held row's price, signed as its upper bound allows (<= 0)
 
-    def at(self, held: float) -> float | None:
-        """The bound for a shortfall held at ``held``; None above :attr:`held`, which these
-        prices were not worked out for (they would still bound, but the stage's plan has
-        at most that shortfall, so it does not arise)."""
-        if held > self.held:
-            return None
+    def at(self, held: float) -> float:
+        """The bound for a shortfall held at ``held``."""
         return self.bound + self.held_price * (held - self.held)
 
 
 def cost_bound_ahead(backend: Backend, model: Model, options: SolveOptions,
                      start: np.ndarray, held: float, deadline: float,
                      say: Callable[[str], None]) -> HeldCostBound | None:
-    """While stage 1 still searches: a bound on the cost stage for any held shortfall up to
-    ``held`` (stage 1's plan can only get better), from the prices of an LP with homes held
+    """While stage 1 still searches: a bound on the cost stage, from the prices of an LP with
+    homes held
     where ``start`` has them and the shortfall held at ``held``.  On models whose cost stage
     is too short for that LP (agency: 28 s, against 3-6 s), it would otherwise have no
     bound."""
     began = time.perf_counter()
     extra_rows = [(model.shortfall_weight, held)]
     priced = _priced_held_lp(backend, model, model.cost, extra_rows, options, start,
-                             deadline - began, deadline, say)
+                             options.shares.held_lp * (deadline - began), deadline, say)
     if priced is None:
         return None
     bound, held_price = priced

@@ -177,8 +177,8 @@ def test_an_lp_asked_for_its_point_only_lands_near_the_optimum_and_its_prices_st
         assert dual_bound(model, objective, lp.row_dual) <= reference + scale
 
 
-@pytest.mark.parametrize("seed", range(4))
-def test_a_cost_bound_for_one_held_shortfall_moves_to_any_lower_one_and_stays_a_bound(seed):
+@pytest.mark.parametrize("seed", [0, 1, 5, 6])  # seeds where the held row binds
+def test_a_cost_bound_for_one_held_shortfall_moves_to_any_other_and_stays_a_bound(seed):
     # Weak duality: prices from an LP with the shortfall held at S' bound the least cost
     # under any held shortfall, and only the held row's term moves with it (linearly).
     # Reference: scipy's milp on the whole model with the shortfall row added (relocatable
@@ -188,19 +188,18 @@ def test_a_cost_bound_for_one_held_shortfall_moves_to_any_lower_one_and_stays_a_
     _, lower, upper = held_lp_bounds(model, start)
     least_held = float(scipy_lp(model, model.shortfall_weight, lower, upper).fun)
     least = _scipy_lp_optimum(model, model.shortfall_weight)
-    ahead_at = least_held + 2.0
+    ahead_at = least_held + 0.1  # close to the least: the held row binds
     ahead = cost_bound_ahead(HighsBackend(), model, SolveOptions(), start, ahead_at,
                              time.perf_counter() + 60, lambda _: None)
-    assert ahead is not None and ahead.held_price <= 0.0
-    assert ahead.at(ahead_at + 1.0) is None  # not what it was worked out for
+    assert ahead is not None and ahead.held_price < 0.0
     checked = 0
-    for held in np.linspace(ahead_at, least, 5):
+    for held in np.linspace(ahead_at + 1.0, least, 6):
         found = scipy_milp(model, model.cost, extra_rows=((model.shortfall_weight, held),))
         if found.status != 0:
             continue  # no whole plan reaches that shortfall
         reference = float(found.fun)
         bound = ahead.at(float(held))
-        assert bound is not None and bound >= ahead.bound - 1e-9
+        assert (bound > ahead.bound) == (held < ahead_at)
         assert bound <= reference + 1e-6 * (1.0 + abs(reference))
         checked += 1
     assert checked >= 2

@@ -102,6 +102,9 @@ def _priced_held_lp(backend: Backend, model: Model, objective: np.ndarray,
     if lp.row_dual is None:
         say(f"  bound from row prices: LP with homes held not solved ({lp.words})")
         return None
+    if time.perf_counter() >= deadline:
+        # Reading the people's rows alone takes seconds (agency: 9 s), past the deadline.
+        return None
     pieces = _exact_pieces(model)  # before the time left is read: it takes seconds
     bound = priced_bound(backend, model, objective, lp.row_dual, options,
                          deadline - time.perf_counter(), extra_rows, pieces)

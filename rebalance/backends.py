@@ -38,6 +38,7 @@ __all__ = ["BACKENDS", "Backend", "BackendOutcome", "SolveOptions", "Status", "T
 
 T = TypeVar("T")
 
+
 class Status(enum.Enum):
     OPTIMAL = "optimal"
     """Proven optimal within the requested relative gap."""
@@ -76,11 +77,11 @@ class TimeShares:
     groups had run)."""
     stage1_passes_only: float = 0.95
     """The same for models too large for branch and bound on the whole model (agency,
-    large), whose stage 1 hangs on one LP: agency's rounding LP takes 60-74 s on the
-    benchmark machine, and at 0.88 the command line at 120 s (which keeps time for writing
-    files) stopped it three times, at 66-71 s, leaving the hires pass's plan (8,719.9,
-    against 7,126-7,330 where it finished); at 0.95 it finished, and stage 1 ended at
-    6,987-7,066.  Stage 2 there only trims the plan."""
+    large), whose stage 1 hangs on one LP and then improves a few offices at a time while
+    stage 2 only trims the plan (its bound is worked out beside stage 1).  Set when agency's
+    rounding LP took 60-74 s by interior point and 0.88 stopped it through the command line
+    at 120 s; by PDLP it takes 25-28 s, and the groups use the time instead (6,902.6 at
+    120 s)."""
     lp: float = 0.35
     """A stage's LP relaxation (models up to 30,000 columns)."""
     rens: float = 0.3

@@ -388,12 +388,19 @@ def run_in_child(run: Callable[[SolveOptions, PlanSink, BoundSink], BackendOutco
                           killed=True)
 
 
-def in_background(run: Callable[..., T], *args: Any) -> Future[T]:
-    """``run(*args)`` started in a thread of its own; the caller goes on and reads the
-    result from the future.  For steps whose solver runs in a child process or lets go of
-    Python while it solves, so the thread only waits."""
+def in_background(run: Callable[..., T], *args: Any,
+                  after: Future[Any] | None = None) -> Future[T]:
+    """``run(*args)`` started in a thread of its own, once ``after`` (where given) is done;
+    the caller goes on and reads the result from the future.  For steps whose solver runs
+    in a child process or lets go of Python while it solves, so the thread only waits."""
+
+    def when_ready() -> T:
+        if after is not None:
+            after.result()
+        return run(*args)
+
     pool = ThreadPoolExecutor(max_workers=1)
-    future = pool.submit(run, *args)
+    future = pool.submit(when_ready)
     pool.shutdown(wait=False)  # the step runs on; its result waits for it
     return future
 

@@ -12,7 +12,6 @@ import time
 from collections.abc import Callable
 from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass, replace
-from typing import Any, TypeVar
 
 import numpy as np
 import scipy.sparse as sp
@@ -32,8 +31,6 @@ from rebalance.rounding import early_lp, neighbourhood, plan_by_rounding
 from rebalance.split import relaxed, resplit, run_within
 
 __all__ = ["SolveOptions", "SolveResult", "StageResult", "Status", "solve", "solve_stage"]
-
-T = TypeVar("T")
 
 
 @dataclass(frozen=True)
@@ -632,10 +629,9 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
                     # (agency: the LP 28 s, against 3-6 s), after the pricing: one model's
                     # worth of memory beside the search at a time.
                     cost_bound = in_background(
-                        _after, bound, functools.partial(
-                            stage_bounds.cost_bound_ahead, backend, model, options, best,
-                            held_shortfall(best_objective, options), cost_stage_deadline,
-                            say))
+                        stage_bounds.cost_bound_ahead, backend, model, options, best,
+                        held_shortfall(best_objective, options), cost_stage_deadline, say,
+                        after=bound)
             else:
                 bound = Future()
                 bound.set_result(pricing(""))
@@ -651,12 +647,6 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
     else:
         run_pass("details alone", held_but(("detail",)), 1.0)
     return FirstPlan(best, None if bound is None else bound.result(), lp_seconds, cost_bound)
-
-
-def _after(first: Future[Any], then: Callable[[], T]) -> T:
-    """``then()`` once ``first`` is done."""
-    first.result()
-    return then()
 
 
 def _stage(name: str, out: BackendOutcome) -> StageResult:

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import time
 from dataclasses import replace
+from types import SimpleNamespace
 
 import numpy as np
 import pytest
@@ -17,6 +18,7 @@ import scipy.sparse as sp
 from conftest import scipy_lp, scipy_milp
 from randomized import everyone_moves, random_instance
 
+from rebalance import stage_bounds
 from rebalance.backends import HighsBackend, SolveOptions, Status
 from rebalance.bounds import dual_bound, priced_bound
 from rebalance.instance import Instance
@@ -203,3 +205,23 @@ def test_a_cost_bound_for_one_held_shortfall_moves_to_any_other_and_stays_a_boun
         assert bound <= reference + 1e-6 * (1.0 + abs(reference))
         checked += 1
     assert checked >= 2
+
+
+def test_no_cost_bound_beside_the_search_without_the_memory_for_it(monkeypatch):
+    # The bound is optional; a run that swaps or is killed for it is not. Memory is read
+    # through psutil, here told that almost none is free.
+    model, _ = _model_and_objectives(0)
+    start = model.col_lower.copy()
+    said: list[str] = []
+
+    def run() -> object:
+        return cost_bound_ahead(HighsBackend(), model, SolveOptions(), start, 1e9,
+                                time.perf_counter() + 60, said.append)
+
+    assert run() is not None and not said[-1].startswith("  no bound")
+    free = stage_bounds.MEMORY_RESERVE_BYTES + 10 * model.matrix.nnz
+    monkeypatch.setattr(stage_bounds.psutil, "virtual_memory",
+                        lambda: SimpleNamespace(available=free))
+    assert run() is None
+    assert said[-1].startswith("  no bound for the cost stage beside the search")
+    assert "GiB are free" in said[-1]

@@ -251,7 +251,8 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                     share = 1.0 if passes_only else options.shares.passes
                     first = first_plan_by_decision(backend, model, objective, extra_rows,
                                                    options, t0 + share * budget, say, start,
-                                                   cost_stage_deadline)
+                                                   cost_stage_deadline,
+                                                   rounded_rows=bound_on_side is not None)
                     start, lp_bound = first.x, _higher(lp_bound, first.bound)
                     rounding_lp_seconds, cost_bound = first.lp_seconds, first.cost_bound
             else:
@@ -538,7 +539,8 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
                            extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
                            deadline: float, say: Callable[[str], None],
                            start: np.ndarray | None = None,
-                           cost_stage_deadline: float | None = None) -> FirstPlan:
+                           cost_stage_deadline: float | None = None,
+                           rounded_rows: bool = False) -> FirstPlan:
     """A plan for a large model, one kind of decision at a time, every other integer column
     held where the plan so far has it.
 
@@ -551,7 +553,9 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
     MIP that presolve shrinks hard, and any plan of a pass is a plan of the whole model,
     since only bounds were narrowed.  Returns the best plan seen (``start`` if no pass beat
     it, None if there is none) and, from the rounding LP's row prices, a bound for the whole
-    model (:func:`~rebalance.bounds.priced_bound`).
+    model (:func:`~rebalance.bounds.priced_bound`).  ``rounded_rows``: the stage's bound
+    comes from elsewhere, so the rounding's LP may keep the rows rounded to whole people
+    (:func:`~rebalance.rounding.plan_by_rounding`).
     """
     integer = model.is_integer
     held_at = model.col_lower.copy() if start is None else np.rint(start)
@@ -605,7 +609,7 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
         # (stage two): only for stage one and the weighted objective.
         rounding = plan_by_rounding(backend, model, objective, options,
                                     time.perf_counter() + options.shares.rounding * left,
-                                    best, say, early)
+                                    best, say, early, rounded_rows)
         if rounding.plan is not None:
             best, best_objective = rounding.plan, float(objective @ rounding.plan)
             held_at = np.rint(rounding.plan)

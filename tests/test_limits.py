@@ -1,0 +1,112 @@
+"""The away-share rows counted in whole people (``rebalance.limits.rounded_down``).
+
+A valid inequality keeps every whole-number point of its row. Checked two ways: on random
+rows, by enumerating every whole-number point of a small box (brute force); on random
+instances, where the optimum of scipy's ``milp`` (its own HiGHS) must be the same with and
+without the rounded rows, while the LP relaxation (scipy's ``linprog``) may only rise.
+The rounding itself is textbook mixed-integer rounding (Nemhauser and Wolsey, *Integer and
+Combinatorial Optimization*, II.1.7).
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+from dataclasses import replace
+
+import numpy as np
+import pytest
+from conftest import scipy_lp, scipy_milp
+from randomized import everyone_moves, random_instance
+
+from rebalance.instance import Instance
+from rebalance.limits import rounded_down
+from rebalance.model import Model, build_model, without_rounded_rows
+
+
+@pytest.mark.parametrize("seed", range(40))
+def test_the_rounded_row_keeps_every_whole_point_of_the_row(seed):
+    # Shapes of the away-share rows: +1 for people away, -share for heads a reassignment
+    # may bring in, +share for heads one may take away.
+    rng = np.random.default_rng(seed)
+    n = int(rng.integers(1, 5))
+    share = float(rng.choice([0.15, 0.3, 0.5, 0.7]))
+    a = rng.choice([1.0, -share, share, 2.0], n)
+    a[0] = 1.0  # a row has people who may go away
+    upper = float(rng.uniform(0.2, 4.8))
+    whole = rounded_down(list(range(n)), list(a), upper, np.ones(n, bool), np.zeros(n))
+    assert whole is not None  # a random right-hand side has a fraction
+    cols, coefs, rounded_upper = whole
+    assert rounded_upper == math.floor(upper)
+    lifted = np.zeros(n)
+    lifted[cols] = coefs
+    kept = 0
+    for x in itertools.product(range(6), repeat=n):
+        point = np.asarray(x, float)
+        if a @ point <= upper + 1e-12:
+            assert lifted @ point <= rounded_upper + 1e-9, x
+            kept += 1
+    # And it cuts off a point of the LP: a fraction of a person away.
+    edge = np.zeros(n)
+    edge[0] = upper
+    assert kept >= 1 and lifted @ edge > rounded_upper + 1e-9
+
+
+def test_no_rounded_row_for_a_whole_right_hand_side_or_a_continuous_column():
+    assert rounded_down([0, 1], [1.0, -0.5], 3.0, np.ones(2, bool), np.zeros(2)) is None
+    assert rounded_down([0, 1], [1.0, -1.0], 3.5, np.array([True, False]), np.zeros(2)) is None
+
+
+def _without_whole_rows(model: Model) -> Model:
+    family = next(f for f in model.rows if f.name == "away_share_whole")
+    keep = np.ones(model.num_rows, bool)
+    keep[family.start:family.stop] = False
+    return replace(model, matrix=model.matrix[keep], row_lower=model.row_lower[keep],
+                   row_upper=model.row_upper[keep])
+
+
+def _sharing(seed: int, instance: Instance) -> Instance:
+    share = [0.2, 0.34, 0.5][seed % 3]
+    return replace(instance, policy=replace(instance.policy, max_away_share=share))
+
+
+def test_the_rounded_rows_keep_the_optimum_and_may_only_raise_the_lp():
+    checked = raised = 0
+    for seed in range(16):
+        base = random_instance(seed, people=5, periods=3, offices=3, skills=2)
+        instance = _sharing(seed, everyone_moves(base) if seed % 2 else base)
+        model = build_model(instance, pair_details=bool(seed % 4 < 2))
+        family = next(f for f in model.rows if f.name == "away_share_whole")
+        if family.stop == family.start:
+            continue  # every share of heads already whole, or nobody may go on detail
+        plain = _without_whole_rows(model)
+        for objective in (model.shortfall_weight, model.cost + 1e4 * model.shortfall_weight):
+            with_rows, without = scipy_milp(model, objective), scipy_milp(plain, objective)
+            assert with_rows.status == 0 and without.status == 0
+            assert with_rows.fun == pytest.approx(without.fun, rel=1e-6, abs=1e-6), seed
+            lp_with, lp_without = scipy_lp(model, objective), scipy_lp(plain, objective)
+            scale = 1e-6 * (1 + abs(lp_without.fun))
+            assert lp_with.fun >= lp_without.fun - scale, seed
+            raised += lp_with.fun > lp_without.fun + scale
+        checked += 1
+    assert checked >= 6 and raised >= 1, (checked, raised)
+
+
+def test_without_rounded_rows_the_lp_is_the_lp_without_them():
+    # The LPs whose prices bound a stage leave the rounded rows free (priced 0): the same LP
+    # as the model with those rows taken out (scipy's linprog on both).
+    for seed in range(16):
+        base = random_instance(seed, people=5, periods=3, offices=3, skills=2)
+        model = build_model(_sharing(seed, base))
+        family = next(f for f in model.rows if f.name == "away_share_whole")
+        if family.stop == family.start:
+            continue
+        free = without_rounded_rows(model)
+        assert free.num_rows == model.num_rows and np.all(np.isinf(
+            free.row_upper[family.start:family.stop]))
+        reference = scipy_lp(_without_whole_rows(model), model.shortfall_weight)
+        assert scipy_lp(free, model.shortfall_weight).fun == pytest.approx(
+            reference.fun, rel=1e-7, abs=1e-7)
+        assert scipy_lp(model, model.shortfall_weight).fun >= reference.fun - 1e-7
+        return
+    raise AssertionError("no instance with rounded rows")

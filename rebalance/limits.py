@@ -70,7 +70,7 @@ def _detail_limit_rows(b: _Builder, f: _Frame, cols: _Columns) -> None:
     # rounding: 15% of 22 people is 3.3 away, which whole people make 3; the heads a
     # reassignment brings in or takes away are lifted the same way.  Measured on the
     # shortfall LP: small 203.8 -> 206.8 (its optimum is near 213), medium with homes held
-    # 1,561.8 -> 1,564.9; with the coverage rows' cuts (rebalance.cuts) on top, small's
+    # 1,561.8 -> 1,565.1; with the coverage rows' cuts (rebalance.cuts) on top, small's
     # reaches 211.4 where those cuts alone reach 208.2.
     integer, lower = b.column_integrality(), b.column_lower()
     b.begin("away_share_whole")

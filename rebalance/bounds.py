@@ -38,8 +38,8 @@ __all__ = ["LINKING_FAMILIES", "ExactPieces", "dual_bound", "priced_bound", "pri
 
 # Rows that tie different people, groups and hires together; all others belong to one of
 # them (a unit's capacity, detail and home rows; the hires' vacancy and hiring-rate rows).
-LINKING_FAMILIES = ("coverage", "away_share", "away_share_whole", "seats", "hiring_budget",
-                    "moves_budget", "extra")
+LINKING_FAMILIES = ("coverage", "away_share", "away_share_in_whole_people", "seats",
+                    "hiring_budget", "moves_budget", "extra")
 # Floating-point slack taken off the bound, relative to the size of its terms.
 ROUNDING_SLACK = 1e-9
 

@@ -31,7 +31,7 @@ def add_limit_rows(b: _Builder, f: _Frame, cols: _Columns) -> None:
 
 
 def _detail_limit_rows(b: _Builder, f: _Frame, cols: _Columns) -> None:
-    """Rows consecutive_details, away_share and away_share_whole."""
+    """Rows consecutive_details, away_share and away_share_in_whole_people."""
     # consecutive_details: in every window of m+1 periods at most m are detail periods; for a
     # group, at most m x size detail-periods (plan extraction then names who goes when)
     m = f.m
@@ -66,14 +66,14 @@ def _detail_limit_rows(b: _Builder, f: _Frame, cols: _Columns) -> None:
             # their at-home columns, N - x; each x <= N (home_in_force), so leaving them
             # out leaves a weaker row, over whole numbers only, for the rounding below.
             rows.append((dcols + hcols, [1.0] * len(dcols) + shares, share * const, label))
-    # away_share_whole: those rows with the share counted in whole people, by mixed-integer
-    # rounding: 15% of 22 people is 3.3 away, which whole people make 3; the heads a
-    # reassignment brings in or takes away are lifted the same way.  Measured on the
-    # shortfall LP: small 203.8 -> 206.8 (its optimum is near 213), medium with homes held
-    # 1,561.8 -> 1,565.1; with the coverage rows' cuts (rebalance.cuts) on top, small's
-    # reaches 211.4 where those cuts alone reach 208.2.
+    # away_share_in_whole_people: those rows rounded by mixed-integer rounding: 15% of 22
+    # people is 3.3 away, which whole people make 3; the heads a reassignment brings in or
+    # takes away are lifted the same way.  Measured on the shortfall LP: small 203.8 ->
+    # 206.8 (its optimum is near 213), medium with homes held 1,561.8 -> 1,565.1; with the
+    # coverage rows' cuts (rebalance.cuts) on top, small's reaches 211.4 where those cuts
+    # alone reach 208.2.
     integer, lower = b.column_integrality(), b.column_lower()
-    b.begin("away_share_whole")
+    b.begin("away_share_in_whole_people")
     for row_cols, row_vals, upper, label in rows:
         whole = rounded_down(row_cols, row_vals, upper, integer, lower)
         if whole is not None:

@@ -45,7 +45,7 @@ ADAPTING_FAMILIES = ("capacity", "coverage")
 LIMIT_FAMILIES = (
     "consecutive_details",
     "away_share",
-    "away_share_whole",
+    "away_share_in_whole_people",
     "seats",
     "vacancies",
     "max_hires",
@@ -57,7 +57,7 @@ LIMIT_FAMILIES = (
 # them, so they tighten every search, but an LP with homes held prices them as if no
 # reassignment could loosen them, and a bound from those prices, where relocatable people
 # may move, then overstates what a reassignment is worth (medium: 1,502 against 1,540).
-ROUNDED_FAMILIES = ("away_share_whole",)
+ROUNDED_FAMILIES = ("away_share_in_whole_people",)
 
 
 @dataclass(frozen=True)

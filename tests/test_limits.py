@@ -58,7 +58,7 @@ def test_no_rounded_row_for_a_whole_right_hand_side_or_a_continuous_column():
 
 
 def _without_whole_rows(model: Model) -> Model:
-    family = next(f for f in model.rows if f.name == "away_share_whole")
+    family = next(f for f in model.rows if f.name == "away_share_in_whole_people")
     keep = np.ones(model.num_rows, bool)
     keep[family.start:family.stop] = False
     return replace(model, matrix=model.matrix[keep], row_lower=model.row_lower[keep],
@@ -76,7 +76,7 @@ def test_the_rounded_rows_keep_the_optimum_and_may_only_raise_the_lp():
         base = random_instance(seed, people=5, periods=3, offices=3, skills=2)
         instance = _sharing(seed, everyone_moves(base) if seed % 2 else base)
         model = build_model(instance, pair_details=bool(seed % 4 < 2))
-        family = next(f for f in model.rows if f.name == "away_share_whole")
+        family = next(f for f in model.rows if f.name == "away_share_in_whole_people")
         if family.stop == family.start:
             continue  # every share of heads already whole, or nobody may go on detail
         plain = _without_whole_rows(model)
@@ -98,7 +98,7 @@ def test_without_rounded_rows_the_lp_is_the_lp_without_them():
     for seed in range(16):
         base = random_instance(seed, people=5, periods=3, offices=3, skills=2)
         model = build_model(_sharing(seed, base))
-        family = next(f for f in model.rows if f.name == "away_share_whole")
+        family = next(f for f in model.rows if f.name == "away_share_in_whole_people")
         if family.stop == family.start:
             continue
         free = without_rounded_rows(model)

@@ -635,7 +635,7 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
                     cost_bound = in_background(
                         stage_bounds.cost_bound_ahead, backend, model, options, best,
                         held_shortfall(best_objective, options), cost_stage_deadline, say,
-                        after=bound)
+                        lp_seconds, after=bound)
             else:
                 bound = Future()
                 bound.set_result(pricing(""))

@@ -84,14 +84,17 @@ MEMORY_RESERVE_BYTES = 2**30
 
 def cost_bound_ahead(backend: Backend, model: Model, options: SolveOptions,
                      start: np.ndarray, held: float, deadline: float,
-                     say: Callable[[str], None]) -> HeldCostBound | None:
+                     say: Callable[[str], None],
+                     expected_seconds: float | None = None) -> HeldCostBound | None:
     """While stage 1 still searches: a bound on the cost stage, from the prices of an LP with
     homes held where ``start`` has them and the shortfall held at ``held``.  On models whose
     cost stage is too short for that LP (agency: 28 s, against 3-6 s), it would otherwise
     have no bound.
 
     Not tried where the machine lacks the memory for it (a bound is worth less than a run
-    that swaps or is killed): the cost stage then reports the bound it finds itself."""
+    that swaps or is killed), nor where the LP would get less time than ``expected_seconds``
+    (what stage 1's rounding LP took; agency at 60 s has 5 s left here, against 25 s): the
+    cost stage then reports the bound it finds itself."""
     need = COST_BOUND_BYTES_PER_NONZERO * model.matrix.nnz
     free = psutil.virtual_memory().available
     if need + MEMORY_RESERVE_BYTES > free:
@@ -99,9 +102,14 @@ def cost_bound_ahead(backend: Backend, model: Model, options: SolveOptions,
             f"{need / 2**30:.1f} GiB of memory, and {free / 2**30:.1f} GiB are free")
         return None
     began = time.perf_counter()
+    lp_limit = options.shares.held_lp * (deadline - began)
+    if expected_seconds is not None and expected_seconds > lp_limit:
+        say(f"  no bound for the cost stage beside the search: its LP would get "
+            f"{max(lp_limit, 0.0):.0f}s, and stage 1's took {expected_seconds:.0f}s")
+        return None
     extra_rows = [(model.shortfall_weight, held)]
     priced = _priced_held_lp(backend, model, model.cost, extra_rows, options, start,
-                             options.shares.held_lp * (deadline - began), deadline, say)
+                             lp_limit, deadline, say)
     if priced is None:
         return None
     bound, held_price = priced

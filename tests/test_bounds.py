@@ -225,3 +225,17 @@ def test_no_cost_bound_beside_the_search_without_the_memory_for_it(monkeypatch):
     assert run() is None
     assert said[-1].startswith("  no bound for the cost stage beside the search")
     assert "GiB are free" in said[-1]
+
+
+def test_no_cost_bound_beside_the_search_without_the_time_its_lp_took_in_stage_one():
+    # Started too late (agency at 60 s: 5 s left against the 25 s the same LP took in
+    # stage 1), the job would only hold a core and memory until the stage ends.
+    model, _ = _model_and_objectives(0)
+    start = model.col_lower.copy()
+    said: list[str] = []
+    deadline = time.perf_counter() + 60
+    assert cost_bound_ahead(HighsBackend(), model, SolveOptions(), start, 1e9, deadline,
+                            said.append, expected_seconds=1.0) is not None
+    assert cost_bound_ahead(HighsBackend(), model, SolveOptions(), start, 1e9, deadline,
+                            said.append, expected_seconds=600.0) is None
+    assert said[-1].startswith("  no bound for the cost stage beside the search: its LP")

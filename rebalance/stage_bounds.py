@@ -93,7 +93,7 @@ def cost_bound_ahead(backend: Backend, model: Model, options: SolveOptions,
 
     Not tried where the machine lacks the memory for it (a bound is worth less than a run
     that swaps or is killed), nor where the LP would get less time than ``expected_seconds``
-    (what stage 1's rounding LP took; agency at 60 s has 5 s left here, against 25 s): the
+    (what stage 1's rounding LP took; agency at 60 s: 8 s left here, against 21 s): the
     cost stage then reports the bound it finds itself."""
     need = COST_BOUND_BYTES_PER_NONZERO * model.matrix.nnz
     free = psutil.virtual_memory().available

@@ -628,10 +628,11 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
                 # Priced beside the search (agency: 19 s the groups would otherwise wait);
                 # HiGHS lets go of Python while it solves.
                 bound = in_background(pricing, " beside the search")
-                if cost_stage_deadline is not None and _passes_only(model, backend):
+                if cost_stage_deadline is not None:
                     # Then the cost stage's bound, which its few seconds cannot work out
-                    # (agency: the LP 28 s, against 3-6 s), after the pricing: one model's
-                    # worth of memory beside the search at a time.
+                    # (agency: the LP 28 s, against 3-6 s; on medium the whole plans there
+                    # sometimes get no master LP done in their 4 s), after the pricing: one
+                    # model's worth of memory beside the search at a time.
                     cost_bound = in_background(
                         stage_bounds.cost_bound_ahead, backend, model, options, best,
                         held_shortfall(best_objective, options), cost_stage_deadline, say,

@@ -41,8 +41,8 @@ def held_lp_bound(backend: Backend, model: Model, objective: np.ndarray,
     it would get (agency: 28 s, against 3 s in stage two).
     """
     began = time.perf_counter()
-    lp_limit = options.shares.held_lp * (deadline - began)
-    if expected_seconds is not None and expected_seconds > lp_limit:
+    lp_limit, fits = _held_lp_time(options, deadline, expected_seconds)
+    if not fits:
         say(f"  no LP with homes held: stage 1's took {expected_seconds:.0f}s, more than "
             f"the {lp_limit:.0f}s it would get")
         return None
@@ -102,8 +102,8 @@ def cost_bound_ahead(backend: Backend, model: Model, options: SolveOptions,
             f"{need / 2**30:.1f} GiB of memory, and {free / 2**30:.1f} GiB are free")
         return None
     began = time.perf_counter()
-    lp_limit = options.shares.held_lp * (deadline - began)
-    if expected_seconds is not None and expected_seconds > lp_limit:
+    lp_limit, fits = _held_lp_time(options, deadline, expected_seconds)
+    if not fits:
         say(f"  no bound for the cost stage beside the search: its LP would get "
             f"{max(lp_limit, 0.0):.0f}s, and stage 1's took {expected_seconds:.0f}s")
         return None
@@ -116,6 +116,14 @@ def cost_bound_ahead(backend: Backend, model: Model, options: SolveOptions,
     say(f"  bound for the cost stage, from an LP with the shortfall held at {held:.6g} "
         f"(beside the search): {bound:.6g} in {time.perf_counter() - began:.1f}s")
     return HeldCostBound(held, bound, held_price)
+
+
+def _held_lp_time(options: SolveOptions, deadline: float,
+                  expected_seconds: float | None) -> tuple[float, bool]:
+    """The seconds an LP with homes held gets before ``deadline``, and whether they cover
+    ``expected_seconds`` (what the same LP took in stage 1; None: not known, so they do)."""
+    lp_limit = options.shares.held_lp * (deadline - time.perf_counter())
+    return lp_limit, expected_seconds is None or expected_seconds <= lp_limit
 
 
 def _priced_held_lp(backend: Backend, model: Model, objective: np.ndarray,

@@ -41,13 +41,8 @@ def held_lp_bound(backend: Backend, model: Model, objective: np.ndarray,
     it would get (agency: 28 s, against 3 s in stage two).
     """
     began = time.perf_counter()
-    lp_limit, fits = _held_lp_time(options, deadline, expected_seconds)
-    if not fits:
-        say(f"  no LP with homes held: stage 1's took {expected_seconds:.0f}s, more than "
-            f"the {lp_limit:.0f}s it would get")
-        return None
-    priced = _priced_held_lp(backend, model, objective, extra_rows, options, start, lp_limit,
-                             deadline, say)
+    priced = _priced_held_lp(backend, model, objective, extra_rows, options, start, deadline,
+                             say, expected_seconds, "bound from an LP with homes held")
     if priced is None:
         return None
     say(f"  bound from the row prices of an LP with homes held: {priced[0]:.6g} in "
@@ -102,14 +97,10 @@ def cost_bound_ahead(backend: Backend, model: Model, options: SolveOptions,
             f"{need / 2**30:.1f} GiB of memory, and {free / 2**30:.1f} GiB are free")
         return None
     began = time.perf_counter()
-    lp_limit, fits = _held_lp_time(options, deadline, expected_seconds)
-    if not fits:
-        say(f"  no bound for the cost stage beside the search: its LP would get "
-            f"{max(lp_limit, 0.0):.0f}s, and stage 1's took {expected_seconds:.0f}s")
-        return None
     extra_rows = [(model.shortfall_weight, held)]
-    priced = _priced_held_lp(backend, model, model.cost, extra_rows, options, start,
-                             lp_limit, deadline, say)
+    priced = _priced_held_lp(backend, model, model.cost, extra_rows, options, start, deadline,
+                             say, expected_seconds,
+                             "bound for the cost stage beside the search")
     if priced is None:
         return None
     bound, held_price = priced
@@ -118,21 +109,19 @@ def cost_bound_ahead(backend: Backend, model: Model, options: SolveOptions,
     return HeldCostBound(held, bound, held_price)
 
 
-def _held_lp_time(options: SolveOptions, deadline: float,
-                  expected_seconds: float | None) -> tuple[float, bool]:
-    """The seconds an LP with homes held gets before ``deadline``, and whether they cover
-    ``expected_seconds`` (what the same LP took in stage 1; None: not known, so they do)."""
-    lp_limit = options.shares.held_lp * (deadline - time.perf_counter())
-    return lp_limit, expected_seconds is None or expected_seconds <= lp_limit
-
-
 def _priced_held_lp(backend: Backend, model: Model, objective: np.ndarray,
                     extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
-                    start: np.ndarray, lp_limit: float, deadline: float,
-                    say: Callable[[str], None]) -> tuple[float, float] | None:
+                    start: np.ndarray, deadline: float, say: Callable[[str], None],
+                    expected_seconds: float | None, what: str) -> tuple[float, float] | None:
     """The bound from the prices of the rounding's LP plus ``extra_rows`` (homes held where
     ``start`` has them), and the first extra row's price, signed; None if the LP or the
-    pricing does not finish by ``deadline``."""
+    pricing does not finish by ``deadline``, or (said, naming the bound ``what``) if the LP
+    would get less time than ``expected_seconds``, what the same LP took in stage 1."""
+    lp_limit = options.shares.held_lp * (deadline - time.perf_counter())
+    if expected_seconds is not None and expected_seconds > lp_limit:
+        say(f"  no {what}: its LP would get {max(lp_limit, 0.0):.0f}s, and stage 1's took "
+            f"{expected_seconds:.0f}s")
+        return None
     _, lower, upper = held_lp_bounds(model, start)
     lp = solve_relaxation(backend, without_rounded_rows(model), objective, extra_rows, options,
                           lp_limit, lower, upper, point_only=True)

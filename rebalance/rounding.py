@@ -22,7 +22,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from rebalance.backends import Backend, BackendOutcome, SolveOptions, Status, in_background
-from rebalance.model import ADAPTING_FAMILIES, Model, without_rounded_rows
+from rebalance.model import ADAPTING_FAMILIES, Model
 from rebalance.split import resplit, solve_relaxation
 
 __all__ = ["EarlyLP", "Rounding", "RowActivity", "early_lp", "held_lp_bounds", "neighbourhood",
@@ -61,8 +61,8 @@ def early_lp(backend: Backend, model: Model, objective: np.ndarray, options: Sol
     ``start`` in hires only is rounded from the same LP: on agency the hires pass (10 s) and
     this LP (25-28 s) then run side by side instead of one after the other."""
     _, lower, upper = held_lp_bounds(model, start)
-    solve = functools.partial(solve_relaxation, backend, without_rounded_rows(model), objective,
-                              [], options, time_limit, lower, upper, point_only=True)
+    solve = functools.partial(solve_relaxation, backend, model, objective, [], options,
+                              time_limit, lower, upper, point_only=True, prices_wanted=True)
     return EarlyLP(lower, upper, in_background(solve))
 
 
@@ -97,10 +97,9 @@ def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
     else:
         if early is not None:  # not expected: the plan differs from the LP's in more than hires
             say("  rounding: the LP started early does not fit this plan; solving it again")
-        lp = solve_relaxation(backend, model if rounded_rows else without_rounded_rows(model),
-                              objective, [], options,
+        lp = solve_relaxation(backend, model, objective, [], options,
                               options.shares.rounding_lp * (deadline - time.perf_counter()),
-                              lower, upper, point_only=True)
+                              lower, upper, point_only=True, prices_wanted=not rounded_rows)
     if lp.status not in (Status.OPTIMAL, Status.APPROXIMATE) or lp.x is None:
         say(f"  rounding: LP not solved ({lp.words})")
         return Rounding(None, None, None, lower, upper, lp.seconds)

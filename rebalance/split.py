@@ -13,7 +13,7 @@ from dataclasses import replace
 import numpy as np
 
 from rebalance.backends import Backend, BackendOutcome, SolveOptions, Status
-from rebalance.model import Model
+from rebalance.model import Model, without_rounded_rows
 from rebalance.submodel import hold_apart
 
 __all__ = ["relaxed", "resplit", "run_within", "solve_relaxation"]
@@ -27,12 +27,19 @@ def relaxed(model: Model) -> Model:
 def solve_relaxation(backend: Backend, model: Model, objective: np.ndarray,
                      extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
                      time_limit: float, lower: np.ndarray | None = None,
-                     upper: np.ndarray | None = None, point_only: bool = False
-                     ) -> BackendOutcome:
+                     upper: np.ndarray | None = None, point_only: bool = False,
+                     prices_wanted: bool = False) -> BackendOutcome:
     """The LP relaxation of ``model`` plus ``extra_rows``, within column bounds ``lower`` and
     ``upper`` where given, without progress lines (an LP is one step of something else).
     ``point_only``: its point and prices are all that is wanted (status ``APPROXIMATE``
-    where that made it quicker; :attr:`~rebalance.backends.SolveOptions.point_only`)."""
+    where that made it quicker; :attr:`~rebalance.backends.SolveOptions.point_only`).
+
+    ``prices_wanted``: its row prices will price whole plans (a bound, a marginal value), so
+    the rows rounded to whole people are left free (:func:`~rebalance.model.without_rounded_rows`):
+    priced, they credit each relocatable person a lifted coefficient at every office it may
+    move to (medium's bound from prices 1,540 -> 1,502)."""
+    if prices_wanted:
+        model = without_rounded_rows(model)
     if lower is not None or upper is not None:
         model = replace(model, col_lower=model.col_lower if lower is None else lower,
                         col_upper=model.col_upper if upper is None else upper)

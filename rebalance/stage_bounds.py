@@ -20,7 +20,7 @@ import psutil
 from rebalance.backends import Backend, BackendOutcome, SolveOptions, Status, run_in_child
 from rebalance.bounds import priced_bound, signed_prices
 from rebalance.decomposition import plan_bound
-from rebalance.model import Model, without_rounded_rows
+from rebalance.model import Model
 from rebalance.rounding import held_lp_bounds
 from rebalance.split import solve_relaxation
 from rebalance.whole_plans import DecompositionError, WholePlans, decomposable
@@ -123,8 +123,8 @@ def _priced_held_lp(backend: Backend, model: Model, objective: np.ndarray,
             f"{expected_seconds:.0f}s")
         return None
     _, lower, upper = held_lp_bounds(model, start)
-    lp = solve_relaxation(backend, without_rounded_rows(model), objective, extra_rows, options,
-                          lp_limit, lower, upper, point_only=True)
+    lp = solve_relaxation(backend, model, objective, extra_rows, options,
+                          lp_limit, lower, upper, point_only=True, prices_wanted=True)
     if lp.row_dual is None:
         say(f"  bound from row prices: LP with homes held not solved ({lp.words})")
         return None

@@ -22,7 +22,7 @@ from rebalance.analysis.limits import limit_use
 from rebalance.analysis.scenarios import solve_many
 from rebalance.backends import HighsBackend
 from rebalance.instance import Budget, Instance
-from rebalance.model import Model, build_model, without_rounded_rows
+from rebalance.model import Model, build_model
 from rebalance.planning import PlanResult
 from rebalance.solve import SolveOptions, Status
 from rebalance.split import solve_relaxation
@@ -167,8 +167,8 @@ def lp_row_duals(model: Model, x: np.ndarray, objective: np.ndarray,
     lower[integer] = np.maximum(lower[integer], np.rint(x[integer]) - 1.0)
     upper[integer] = np.minimum(upper[integer], np.rint(x[integer]) + 1.0)
     # The rows in whole people left free: their prices belong to the limits they round.
-    out = solve_relaxation(HighsBackend(), without_rounded_rows(model), objective, [],
-                           SolveOptions(), time_limit, lower, upper)
+    out = solve_relaxation(HighsBackend(), model, objective, [], SolveOptions(), time_limit,
+                           lower, upper, prices_wanted=True)
     return out.row_dual if out.status is Status.OPTIMAL else None
 
 

@@ -19,7 +19,7 @@ import sys
 import tempfile
 import threading
 import time
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
 from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -31,9 +31,21 @@ import scipy.sparse as sp
 from rebalance.instance import ObjectiveMode, SolverName
 from rebalance.model import Model
 
-__all__ = ["BACKENDS", "Backend", "BackendOutcome", "SolveOptions", "Status", "TimeShares",
-           "in_background", "relative_gap", "row_scale", "run_in_child",
-           "stacked_rows"]
+__all__ = [
+    "BACKENDS",
+    "Backend",
+    "BackendOutcome",
+    "SolveOptions",
+    "Status",
+    "TimeShares",
+    "in_background",
+    "raise_if_stopped",
+    "relative_gap",
+    "row_scale",
+    "run_in_child",
+    "stacked_rows",
+    "stoppable",
+]
 
 
 T = TypeVar("T")
@@ -231,7 +243,7 @@ def _watch_highs(h: Any, deadline: float, progress: Callable[[str], None] | None
 
     def interrupt(event: Any) -> None:
         now = time.perf_counter()
-        if now > deadline:
+        if now > deadline or _STOPPING.is_set():
             event.interrupt()
         if progress is not None and now - last[0] >= PROGRESS_SECONDS:
             out = event.data_out
@@ -291,6 +303,54 @@ SMALL_GRACE_SECONDS = 0.5
 KILLED = "stopped at the wall-clock limit"
 
 
+STOPPED = "stopped from outside"
+# Set once the run is stopped from outside (Ctrl-C, SIGTERM) within :func:`stoppable`: no
+# solver process starts after it, and those running are killed.  Without it a stopped run
+# waited for its side jobs to reach their own limits (medium: 15 s; agency: up to a minute).
+_STOPPING = threading.Event()
+_LIVE_CHILDREN: set[Any] = set()
+_LIVE_LOCK = threading.RLock()  # re-entered by the signal handler in the main thread
+
+
+def stop_everything() -> None:
+    """Kill every solver process this process started, and start no more."""
+    _STOPPING.set()
+    with _LIVE_LOCK:
+        children = list(_LIVE_CHILDREN)
+    for process in children:
+        with contextlib.suppress(Exception):
+            process.kill()
+    for pid in _cbc_children():
+        with contextlib.suppress(OSError):
+            os.kill(pid, signal.SIGKILL)
+
+
+def raise_if_stopped() -> None:
+    """Raise :class:`KeyboardInterrupt` in the main thread once the run has been stopped:
+    raised from inside a solver's callback, the signal's own may be swallowed there."""
+    if _STOPPING.is_set() and threading.current_thread() is threading.main_thread():
+        raise KeyboardInterrupt
+
+
+@contextlib.contextmanager
+def stoppable() -> Iterator[None]:
+    """Within: SIGINT and SIGTERM kill every solver process of the run at once
+    (:func:`stop_everything`) and raise :class:`KeyboardInterrupt` in the main thread, so
+    the run ends in a second or two with nothing written.  Main thread only."""
+
+    def stop(signum: int, frame: Any) -> None:
+        stop_everything()
+        raise KeyboardInterrupt
+
+    _STOPPING.clear()
+    before = {sig: signal.signal(sig, stop) for sig in (signal.SIGINT, signal.SIGTERM)}
+    try:
+        yield
+    finally:
+        for sig, handler in before.items():
+            signal.signal(sig, handler)
+
+
 def _forget_solver_threads() -> None:
     """In a forked child: drop HiGHS's scheduler, whose worker threads stayed in the parent
     (left alone, the child's first run waits on them forever)."""
@@ -312,10 +372,15 @@ def run_in_child(run: Callable[[SolveOptions, PlanSink, BoundSink], BackendOutco
     ``ERROR`` instead of taking the whole run down with it.
     """
     started = time.perf_counter()
+    if _STOPPING.is_set():
+        return BackendOutcome(Status.ERROR, None, None, None, STOPPED, 0.0)
     context = multiprocessing.get_context("fork")
     receiver, sender = context.Pipe(duplex=False)
 
     def child() -> None:
+        # The parent's handlers would kill its other children from here.
+        signal.signal(signal.SIGINT, signal.default_int_handler)
+        signal.signal(signal.SIGTERM, signal.SIG_DFL)
         def forward(text: str) -> None:
             sender.send(("progress", text))
 
@@ -337,6 +402,8 @@ def run_in_child(run: Callable[[SolveOptions, PlanSink, BoundSink], BackendOutco
 
     process = context.Process(target=child, daemon=True)
     process.start()
+    with _LIVE_LOCK:
+        _LIVE_CHILDREN.add(process)
     sender.close()
     outcome: BackendOutcome | None = None
     last_plan: tuple[np.ndarray, float] | None = None
@@ -345,7 +412,7 @@ def run_in_child(run: Callable[[SolveOptions, PlanSink, BoundSink], BackendOutco
     try:
         while outcome is None and not failure:
             left = started + wall_seconds - time.perf_counter()
-            if left <= 0:
+            if left <= 0 or _STOPPING.is_set():
                 break
             if not receiver.poll(min(left, 1.0)):
                 if not process.is_alive() and not receiver.poll():
@@ -367,11 +434,16 @@ def run_in_child(run: Callable[[SolveOptions, PlanSink, BoundSink], BackendOutco
             else:
                 failure = payload
     finally:
+        with _LIVE_LOCK:
+            _LIVE_CHILDREN.discard(process)
         if process.is_alive():
             process.kill()
         process.join()
         receiver.close()
     seconds = time.perf_counter() - started
+    raise_if_stopped()
+    if _STOPPING.is_set() and outcome is None:
+        return BackendOutcome(Status.ERROR, None, None, None, STOPPED, seconds)
     if outcome is not None:
         return replace(outcome, seconds=seconds)
     if failure:
@@ -487,6 +559,7 @@ class HighsBackend:
             solution.value_valid = True
             h.setSolution(solution)
         h.run()
+        raise_if_stopped()
         status = h.getModelStatus()
         if (status == highspy.HighsModelStatus.kUnknown and not model.num_integer
                 and not point_only and h.getInfo().primal_solution_status == 2

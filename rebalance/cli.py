@@ -22,6 +22,7 @@ from collections.abc import Callable, Sequence
 from dataclasses import replace
 from pathlib import Path
 
+from rebalance.backends import raise_if_stopped, stoppable
 from rebalance.instance import Instance
 from rebalance.readers import InstanceError, read_instance
 from rebalance.solve import Status
@@ -34,6 +35,7 @@ EXIT_INFEASIBLE = 4
 EXIT_NO_PLAN_IN_TIME = 5
 EXIT_VERIFICATION_FAILED = 6
 EXIT_SOLVER_ERROR = 7
+EXIT_STOPPED = 130  # Ctrl-C or SIGTERM: the shells' 128 + SIGINT
 
 STATUS_EXIT = {
     Status.INFEASIBLE: EXIT_INFEASIBLE,
@@ -88,6 +90,7 @@ def cmd_plan(args: argparse.Namespace) -> int:
     options = replace(options, time_limit_seconds=max(
         0.5, options.time_limit_seconds - read_seconds - write_seconds(instance)))
     result = make_plan(instance, options)
+    raise_if_stopped()  # a stop the solver swallowed still writes nothing
     print(format_summary(result))
     if result.plan is None:
         return STATUS_EXIT.get(result.status, EXIT_SOLVER_ERROR)
@@ -562,10 +565,11 @@ def build_parser() -> argparse.ArgumentParser:
 def main(argv: Sequence[str] | None = None) -> int:
     args = build_parser().parse_args(argv)
     try:
-        code: int = args.run(args)
+        with stoppable():
+            code: int = args.run(args)
     except KeyboardInterrupt:
-        _err("interrupted")
-        return EXIT_INTERNAL
+        _err("stopped from outside; nothing written")
+        return EXIT_STOPPED
     except Exception as exc:  # the last line of defence: a message, not a traceback
         _err(f"internal error: {type(exc).__name__}: {exc}")
         _err("please report this with the instance that caused it")

@@ -4,16 +4,20 @@ from __future__ import annotations
 
 import json
 import shutil
+import signal
 import subprocess
 import sys
 
 import pandas as pd
+import psutil
+import pytest
 from conftest import DATA, ROOT
 
 from rebalance.cli import (
     EXIT_INFEASIBLE,
     EXIT_NO_PLAN_IN_TIME,
     EXIT_OK,
+    EXIT_STOPPED,
     EXIT_VERIFICATION_FAILED,
     main,
 )
@@ -120,3 +124,32 @@ def test_plan_keeps_time_for_writing_its_files_inside_the_limit(tmp_path, monkey
     [(limit, writing)] = seen
     assert writing >= planning.WRITE_SECONDS_BASE
     assert limit <= 30 - writing
+
+
+@pytest.mark.parametrize("sig", [signal.SIGINT, signal.SIGTERM])
+def test_a_stopped_plan_ends_at_once_kills_its_solvers_and_writes_nothing(tmp_path, sig):
+    # Ctrl-C (or a scheduler's SIGTERM) in the middle of a long solve: the run must not wait
+    # for its solver processes to reach their limits, leave none behind, or write a plan.
+    instance, out = tmp_path / "small", tmp_path / "plan"
+    assert main(["generate", str(instance), "--size", "small", "--seed", "0"]) == EXIT_OK
+    run = subprocess.Popen(
+        [sys.executable, "-m", "rebalance.cli", "plan", str(instance), "-o", str(out),
+         "--time-limit", "300", "--threads", "2"],
+        stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, cwd=ROOT)
+    try:
+        assert run.stderr is not None
+        for line in run.stderr:  # progress: wait until the search runs in a solver process
+            if "searching" in line:
+                break
+        solvers = psutil.Process(run.pid).children(recursive=True)
+        assert solvers, "no solver process is running"
+        run.send_signal(sig)
+        # Far inside the 300 s the solvers were given: they were stopped, not waited for.
+        assert run.wait(timeout=60) == EXIT_STOPPED
+        assert "stopped from outside; nothing written" in run.stderr.read()
+    finally:
+        if run.poll() is None:
+            run.kill()
+    _, alive = psutil.wait_procs(solvers, timeout=5)
+    assert not alive, f"solver processes left running: {alive}"
+    assert not out.exists()

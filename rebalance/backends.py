@@ -381,6 +381,7 @@ def run_in_child(run: Callable[[SolveOptions, PlanSink, BoundSink], BackendOutco
         # The parent's handlers would kill its other children from here.
         signal.signal(signal.SIGINT, signal.default_int_handler)
         signal.signal(signal.SIGTERM, signal.SIG_DFL)
+
         def forward(text: str) -> None:
             sender.send(("progress", text))
 
@@ -847,6 +848,7 @@ class CbcBackend:
                 guard.stop()
                 watcher.stop()
             log = log_path.read_text(errors="replace") if log_path.exists() else ""
+        raise_if_stopped()  # CBC killed by a stop: no plan from its remains
         result = _CBC_RESULT.findall(log)
         words = result[-1].strip() if result else pulp.LpStatus.get(prob.status, "?")
         sol_status = prob.sol_status

@@ -336,12 +336,16 @@ def raise_if_stopped() -> None:
 def stoppable() -> Iterator[None]:
     """Within: SIGINT and SIGTERM kill every solver process of the run at once
     (:func:`stop_everything`) and raise :class:`KeyboardInterrupt` in the main thread, so
-    the run ends in a second or two with nothing written.  Main thread only."""
+    the run ends in a second or two with nothing written.  Signals reach the main thread
+    only, so elsewhere (a solve in a thread of its own) it does nothing."""
 
     def stop(signum: int, frame: Any) -> None:
         stop_everything()
         raise KeyboardInterrupt
 
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
     _STOPPING.clear()
     before = {sig: signal.signal(sig, stop) for sig in (signal.SIGINT, signal.SIGTERM)}
     try:

@@ -13,6 +13,7 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
+from rebalance.backends import raise_if_stopped, stoppable
 from rebalance.files import staged_folder
 from rebalance.instance import Instance, Person
 from rebalance.model import Model, build_model
@@ -85,7 +86,10 @@ def make_plan(instance: Instance, options: SolveOptions, pooled: bool = True,
     # Naming people and verifying the plan come after the solve, inside the same limit.
     remaining = max(0.5, options.time_limit_seconds * (1.0 - options.shares.finish)
                     - build_seconds)
-    result = solve(model, replace(options, time_limit_seconds=remaining))
+    # Ctrl-C (a notebook's interrupt too) stops every solver process at once.
+    with stoppable():
+        result = solve(model, replace(options, time_limit_seconds=remaining))
+    raise_if_stopped()
     plan = None
     violations: tuple[Violation, ...] = ()
     extract_seconds = verify_seconds = 0.0

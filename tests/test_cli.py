@@ -126,30 +126,64 @@ def test_plan_keeps_time_for_writing_its_files_inside_the_limit(tmp_path, monkey
     assert limit <= 30 - writing
 
 
-@pytest.mark.parametrize("sig", [signal.SIGINT, signal.SIGTERM])
-def test_a_stopped_plan_ends_at_once_kills_its_solvers_and_writes_nothing(tmp_path, sig):
-    # Ctrl-C (or a scheduler's SIGTERM) in the middle of a long solve: the run must not wait
-    # for its solver processes to reach their limits, leave none behind, or write a plan.
-    instance, out = tmp_path / "small", tmp_path / "plan"
-    assert main(["generate", str(instance), "--size", "small", "--seed", "0"]) == EXIT_OK
-    run = subprocess.Popen(
-        [sys.executable, "-m", "rebalance.cli", "plan", str(instance), "-o", str(out),
-         "--time-limit", "300", "--threads", "2"],
-        stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, cwd=ROOT)
+
+def stopped_midway(tmp_path, command: list[str], sig: signal.Signals
+                   ) -> tuple[int, str, str, list[psutil.Process]]:
+    """Run ``command`` (``{instance}`` and ``{out}`` filled in) on a generated medium
+    instance, 300 s given, two threads: its bound runs beside the search in a solver process
+    of its own.  Send ``sig`` once the search has started; return the exit code, stdout,
+    stderr and the solver processes that were running then.  Medium, not small: small has no
+    side job, so a run that waited for side jobs would pass there too."""
+    instance = tmp_path / "medium"
+    assert main(["generate", str(instance), "--size", "medium", "--seed", "0"]) == EXIT_OK
+    run = subprocess.Popen([part.format(instance=instance, out=tmp_path / "plan")
+                            for part in command],
+                           stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, cwd=ROOT)
     try:
         assert run.stderr is not None
-        for line in run.stderr:  # progress: wait until the search runs in a solver process
-            if "searching" in line:
+        seen, solvers = [], []
+        for line in run.stderr:  # until the search and the side job both run
+            seen.append(line)
+            solvers = psutil.Process(run.pid).children(recursive=True)
+            if ("searching" in line or "near the LP" in line) and len(solvers) >= 2:
                 break
-        solvers = psutil.Process(run.pid).children(recursive=True)
-        assert solvers, "no solver process is running"
+        assert len(solvers) >= 2, f"expected the search and a side job: {seen}"
         run.send_signal(sig)
-        # Far inside the 300 s the solvers were given: they were stopped, not waited for.
-        assert run.wait(timeout=60) == EXIT_STOPPED
-        assert "stopped from outside; nothing written" in run.stderr.read()
+        # Far inside the 300 s the solvers were given: stopped, not waited for.
+        out, err = run.communicate(timeout=60)
     finally:
         if run.poll() is None:
             run.kill()
     _, alive = psutil.wait_procs(solvers, timeout=5)
     assert not alive, f"solver processes left running: {alive}"
-    assert not out.exists()
+    return run.returncode, out, err, solvers
+
+
+@pytest.mark.parametrize("sig", [signal.SIGINT, signal.SIGTERM])
+def test_a_stopped_plan_ends_at_once_kills_its_solvers_and_writes_nothing(tmp_path, sig):
+    # Ctrl-C (or a scheduler's SIGTERM) in the middle of a long solve.
+    code, _, err, _ = stopped_midway(
+        tmp_path, [sys.executable, "-m", "rebalance.cli", "plan", "{instance}", "-o", "{out}",
+                   "--time-limit", "300", "--threads", "2"], sig)
+    assert code == EXIT_STOPPED
+    assert "stopped from outside; nothing written" in err
+    assert not (tmp_path / "plan").exists()
+
+
+def test_a_stopped_solve_from_python_ends_at_once(tmp_path):
+    # A notebook's interrupt is SIGINT to the kernel: make_plan raises at once.
+    script = (
+        "import sys\n"
+        "from dataclasses import replace\n"
+        "from rebalance import make_plan, options_from_instance, read_instance\n"
+        "instance = read_instance(sys.argv[1])\n"
+        "options = replace(options_from_instance(instance), time_limit_seconds=300.0,\n"
+        "                  threads=2,\n"
+        "                  progress=lambda text: print(text, file=sys.stderr, flush=True))\n"
+        "try:\n"
+        "    make_plan(instance, options)\n"
+        "except KeyboardInterrupt:\n"
+        "    print('raised', flush=True)\n")
+    code, out, _, _ = stopped_midway(tmp_path, [sys.executable, "-c", script, "{instance}"],
+                                     signal.SIGINT)
+    assert code == 0 and out.split()[-1] == "raised"

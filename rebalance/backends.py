@@ -43,8 +43,10 @@ __all__ = [
     "relative_gap",
     "row_scale",
     "run_in_child",
+    "silent_highs",
     "stacked_rows",
     "stoppable",
+    "stopped",
 ]
 
 
@@ -208,7 +210,7 @@ PlanSink = Callable[[np.ndarray, float], None]
 BoundSink = Callable[[float], None]
 
 
-def _new_highs() -> Any:
+def silent_highs() -> Any:
     """A silent Highs object; the first one made in a process prints a banner to fd 1."""
     import highspy
 
@@ -323,6 +325,11 @@ def stop_everything() -> None:
     for pid in _cbc_children():
         with contextlib.suppress(OSError):
             os.kill(pid, signal.SIGKILL)
+
+
+def stopped() -> bool:
+    """Whether the run has been stopped from outside."""
+    return _STOPPING.is_set()
 
 
 def raise_if_stopped() -> None:
@@ -487,7 +494,7 @@ class HighsBackend:
     reruns_cheaply = True
 
     def version(self) -> str:
-        return f"HiGHS {_new_highs().version()}"
+        return f"HiGHS {silent_highs().version()}"
 
     def run(self, model: Model, objective: np.ndarray, extra_rows: list[tuple[np.ndarray, float]],
             options: SolveOptions, time_limit: float, start: np.ndarray | None) -> BackendOutcome:
@@ -532,7 +539,7 @@ class HighsBackend:
             highspy.HighsVarType.kInteger if i else highspy.HighsVarType.kContinuous
             for i in model.is_integer
         ]
-        h = _new_highs()
+        h = silent_highs()
         h.setOptionValue("time_limit", float(max(time_limit, 0.05)))
         h.setOptionValue("mip_rel_gap", float(options.relative_gap))
         h.setOptionValue("random_seed", int(options.seed))

@@ -20,7 +20,7 @@ from typing import Any
 import numpy as np
 import scipy.sparse as sp
 
-from rebalance.backends import row_scale
+from rebalance.backends import row_scale, silent_highs
 from rebalance.bounds import ROUNDING_SLACK, priced_terms, signed_prices, with_extra_rows
 from rebalance.cuts import Cut, coverage_cuts
 from rebalance.model import Model
@@ -116,8 +116,7 @@ class _Master:
         self.scale = 1.0 + float(np.abs(objective).max(initial=0.0))
         self.elastic = False
         n = len(self.people)
-        h = highspy.Highs()
-        h.setOptionValue("output_flag", False)
+        h = silent_highs()
         lp = highspy.HighsLp()
         first = sp.vstack([scaled[:, self.explicit],
                            sp.csc_matrix((n, self.explicit.size))]).tocsc()

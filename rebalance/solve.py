@@ -25,6 +25,7 @@ from rebalance.backends import (
     Status,
     in_background,
     relative_gap,
+    stopped,
 )
 from rebalance.model import LIMIT_FAMILIES, Model
 from rebalance.rounding import early_lp, neighbourhood, plan_by_rounding
@@ -83,7 +84,9 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
     report = options.progress
 
     def say(text: str) -> None:
-        if report is not None:
+        # Once stopped from outside, the steps cut short would each say they failed; the
+        # command line says it once.
+        if report is not None and not stopped():
             report(f"[{time.perf_counter() - started:7.1f}s] {text}")
 
     # Backends report through the same line format, with the elapsed time of the whole run.

@@ -9,7 +9,10 @@ the two).
 
 from __future__ import annotations
 
+import subprocess
+import sys
 import time
+from pathlib import Path
 
 import pytest
 from conftest import scipy_lp, scipy_milp
@@ -70,3 +73,24 @@ def test_a_held_objective_row_joins_the_master():
     assert bound is not None and bound <= best.fun + 1e-6 * (1 + abs(best.fun))
     free, _ = plan_bound(model, model.cost, [], time.perf_counter() + 60)
     assert free is not None and free <= bound + 1e-6
+
+
+def test_the_bound_prints_nothing_to_standard_output(tmp_path):
+    # A plan's summary goes to standard output, so a solver process must not write there:
+    # HiGHS prints a banner on the first Highs object a process makes (seen at the top of
+    # medium's summary when this bound ran beside the search).  A fresh process, since the
+    # banner comes once per process.
+    code = (
+        "import time\n"
+        "from randomized import movers\n"
+        "from rebalance.decomposition import plan_bound\n"
+        "from rebalance.model import build_model\n"
+        "model = build_model(movers(0, 2), pair_details=False)\n"
+        "bound, _ = plan_bound(model, model.shortfall_weight, [], time.perf_counter() + 60)\n"
+        "assert bound is not None\n"
+    )
+    tests = Path(__file__).parent
+    done = subprocess.run([sys.executable, "-c", code], cwd=tests, capture_output=True,
+                          text=True, timeout=120)
+    assert done.returncode == 0, done.stderr
+    assert done.stdout == ""

@@ -585,7 +585,10 @@ class HighsBackend:
             h.run()
             status = h.getModelStatus()
         info = h.getInfo()
-        words = h.modelStatusToString(status)
+        # Only our own callback interrupts HiGHS, at our wall-clock limit; its words for that
+        # ("Interrupted by user") read to a planner as if someone had stopped the run.
+        words = ("Stopped at the time limit" if status == highspy.HighsModelStatus.kInterrupt
+                 else h.modelStatusToString(status))
         has_solution = info.primal_solution_status == 2  # kSolutionStatusFeasible
         x = np.asarray(h.getSolution().col_value) if has_solution else None
         obj = float(info.objective_function_value) if has_solution else None

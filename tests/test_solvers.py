@@ -74,6 +74,9 @@ def test_time_limit_is_never_reported_optimal(solver):
     if result.plan is not None:
         assert result.verified
         assert result.solve.gap is not None and result.solve.gap > 0
+    # The limit stopped it, not a person: HiGHS's own words for our interrupt say otherwise.
+    assert not [stage.solver_words for stage in result.solve.stages
+                if "user" in stage.solver_words.lower()]
 
 
 def test_same_seed_same_plan():

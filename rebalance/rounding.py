@@ -25,8 +25,20 @@ from rebalance.backends import Backend, BackendOutcome, SolveOptions, Status, in
 from rebalance.model import ADAPTING_FAMILIES, Model
 from rebalance.split import resplit, solve_relaxation
 
-__all__ = ["EarlyLP", "Rounding", "RowActivity", "early_lp", "held_lp_bounds", "neighbourhood",
-           "plan_by_rounding", "repair_rows", "round_up"]
+__all__ = [
+    "AtHomeLinks",
+    "EarlyLP",
+    "Rounding",
+    "RowActivity",
+    "at_home_links",
+    "early_lp",
+    "held_lp_bounds",
+    "movers_free",
+    "neighbourhood",
+    "plan_by_rounding",
+    "repair_rows",
+    "round_up",
+]
 
 TOLERANCE = 1e-6
 
@@ -69,13 +81,15 @@ def early_lp(backend: Backend, model: Model, objective: np.ndarray, options: Sol
 def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
                      options: SolveOptions, deadline: float, start: np.ndarray,
                      say: Callable[[str], None], early: EarlyLP | None = None,
-                     rounded_rows: bool = False) -> Rounding:
+                     rounded_rows: bool = False, movers_free: bool = False) -> Rounding:
     """A plan with the hire and detail counts of an LP relaxation rounded and repaired.
 
     Hires and the detail columns that name their home office are continuous in the LP;
-    every other integer column is held where ``start`` has it: homes and the per-destination
-    details of relocatable people (with those free the agency LP did not finish in 200 s,
-    against 52 s held).  The plan is None when the LP does not finish, the repair fails, or
+    every other integer column is held where ``start`` has it: homes, and unless
+    ``movers_free`` the per-destination details of relocatable people (with those free
+    agency's LP took 65 s instead of 25-28 s, and stage 1 ended at 7,237 instead of 6,889;
+    see ``MOVERS_FREE_MIN_SHARE``).  Free, each moves with its person's at-home column
+    (:func:`at_home_links`).  The plan is None when the LP does not finish, the repair fails, or
     the plan is no better than ``start``.  Not for a held shortfall (stage two): rounding
     down raises it.  ``early``, where given, is the LP started before: used if its bounds are
     those of ``start``.
@@ -88,7 +102,7 @@ def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
     """
     integer = model.is_integer
     held_at = np.rint(start)
-    free, lower, upper = held_lp_bounds(model, start)
+    free, lower, upper = held_lp_bounds(model, start, movers_free)
     if not free.any():
         return Rounding(None, None, None, lower, upper)
     if (early is not None and not rounded_rows and np.array_equal(early.lower, lower)
@@ -108,7 +122,9 @@ def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
     rounded = np.where(integer, held_at, lp.x)
     rounded[free] = np.floor(lp.x[free] + TOLERANCE)
     ceiling = np.where(free, np.minimum(np.ceil(lp.x - TOLERANCE), upper), rounded)
-    rows = RowActivity(model, rounded, _rows_checked(model))
+    links = at_home_links(model, held_at)
+    _follow_details(rounded, links)
+    rows = RowActivity(model, rounded, _rows_checked(model), links.partner)
     if not repair_rows(rows, free, lp.x, lower, ceiling):
         say("  rounding: a row could not be repaired")
         return found
@@ -123,16 +139,43 @@ def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
     return replace(found, plan=split.x) if score < float(objective @ start) - 1e-9 else found
 
 
-def held_lp_bounds(model: Model, start: np.ndarray) -> tuple[np.ndarray, np.ndarray,
-                                                             np.ndarray]:
-    """Which integer columns the rounding's LP sets free (hires, and the details that name
-    their home office), and its column bounds: every other integer column held where
-    ``start`` has it."""
+# Relocatable people's details written per destination join the rounding's LP where at
+# least this share of the people may relocate and the model is small enough for its LP to
+# stay cheap.  Held, those people are never detailed in stage one.  Measured at 60 s, two
+# threads (issue 3): 400 staff, 12 offices, 41% relocatable: 132.3 free against 160.0 held;
+# 400 staff, 32%: 139.0 against 153.2.  Medium-sized (2,000 staff, 2.9M nonzeros, 18%):
+# 3,148 against 3,173 on one seed, 2,462 against 2,197 on another (the LP 18.5 s instead of
+# 4.1 s, its rounding far worse); medium at 5% and 2.5%: 1,629.5 against 1,627-1,629 and
+# 2,288-2,300 against 2,283.
+MOVERS_FREE_MIN_SHARE = 0.1
+MOVERS_FREE_MAX_NONZEROS = 500_000
+
+
+def movers_free(model: Model) -> bool:
+    """Whether the rounding's LP frees relocatable people's per-destination details."""
+    return (model.matrix.nnz <= MOVERS_FREE_MAX_NONZEROS
+            and relocatable_share(model) >= MOVERS_FREE_MIN_SHARE)
+
+
+def relocatable_share(model: Model) -> float:
+    """The share of the model's people whose details are written per destination."""
+    if "detail" not in model.blocks or not model.units:
+        return 0.0
+    block = model.blocks["detail"]
+    movers = np.unique(block.keys["unit"][block.keys["home"] < 0])
+    return sum(len(model.units[u]) for u in movers) / sum(len(m) for m in model.units)
+
+
+def held_lp_bounds(model: Model, start: np.ndarray, movers_free: bool = False
+                   ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Which integer columns the rounding's LP sets free (hires, the details that name their
+    home office, and with ``movers_free`` the others too), and its column bounds: every
+    other integer column (homes, reassignments) held where ``start`` has it."""
     integer = model.is_integer
     free = np.zeros(model.num_cols, bool)
     if "detail" in model.blocks:
         block = model.blocks["detail"]
-        free[block.start:block.stop] = block.keys["home"] >= 0
+        free[block.start:block.stop] = movers_free | (block.keys["home"] >= 0)
     if "hire" in model.blocks:
         free[model.blocks["hire"].start:model.blocks["hire"].stop] = True
     free &= integer
@@ -140,6 +183,58 @@ def held_lp_bounds(model: Model, start: np.ndarray) -> tuple[np.ndarray, np.ndar
     lower, upper = model.col_lower.copy(), model.col_upper.copy()
     lower[held] = upper[held] = np.rint(start)[held]
     return free, lower, upper
+
+
+@dataclass(frozen=True)
+class AtHomeLinks:
+    """How relocatable people's details and at-home columns move together while their
+    homes are held (:func:`at_home_links`)."""
+
+    partner: np.ndarray  # per column, the at-home column a step on it moves back (-1: none)
+    at_home: np.ndarray  # the at-home columns
+    held_home: np.ndarray  # per at-home column, the people whose held home it is
+
+
+def at_home_links(model: Model, plan: np.ndarray) -> AtHomeLinks:
+    """The at-home column that each detail moves the other way, with homes held at ``plan``.
+
+    A relocatable person's detail written per destination (``rebalance.relocation``) sits
+    in an equality row with their at-home columns: one place a period.  With their home
+    held, a detail step of +1 is a step of -1 at home, so rounding and repair move the two
+    together."""
+    partner = np.full(model.num_cols, -1)
+    family = next((f for f in model.rows if f.name == "home_in_force"), None)
+    if "at_home" not in model.blocks or family is None:
+        return AtHomeLinks(partner, np.zeros(0, int), np.zeros(0))
+    det, at = model.blocks["detail"], model.blocks["at_home"]
+    # The home_in_force rows read x[u, a, t] <= (people of u whose home in force is a): the
+    # right-hand side less the home columns' terms, at the held homes, is that count.
+    rows = model.matrix[family.start:family.stop].tocsr()
+    is_at = (rows.indices >= at.start) & (rows.indices < at.stop)
+    at_in_row = rows.indices[is_at]
+    assert at_in_row.size == rows.shape[0], "one at-home column per home_in_force row"
+    held = np.where(model.is_integer, np.rint(plan), 0.0)
+    held_home = np.zeros(at.stop - at.start)
+    held_home[at_in_row - at.start] = model.row_upper[family.start:family.stop] - rows @ held
+    keys = zip(at.keys["unit"].tolist(), at.keys["office"].tolist(), at.keys["period"].tolist(),
+               strict=True)
+    home_of = {(u, t): at.start + j for j, (u, _, t) in enumerate(keys)
+               if held_home[j] >= 1 - TOLERANCE}
+    for j in np.flatnonzero(det.keys["home"] < 0):
+        key = (int(det.keys["unit"][j]), int(det.keys["period"][j]))
+        partner[det.start + j] = home_of.get(key, -1)
+    return AtHomeLinks(partner, np.arange(at.start, at.stop), held_home)
+
+
+def _follow_details(x: np.ndarray, links: AtHomeLinks) -> None:
+    """Set each at-home column to the people at that home who are not on detail at ``x``
+    (in place): exact, where the LP's point (PDLP's, say) held the one-place rows only
+    nearly, and a repair of those rows by whole steps could not."""
+    if not links.at_home.size:
+        return
+    x[links.at_home] = links.held_home
+    linked = np.flatnonzero(links.partner >= 0)
+    np.subtract.at(x, links.partner[linked], x[linked])
 
 
 def neighbourhood(x: np.ndarray, lower: np.ndarray, upper: np.ndarray, integer: np.ndarray,
@@ -173,13 +268,30 @@ def _rows_checked(model: Model) -> np.ndarray:
 
 class RowActivity:
     """The activity of every row at ``x``, kept live while columns of ``x`` move by whole
-    steps; only ``checked`` rows count."""
+    steps; only ``checked`` rows count.  A step on a column with a ``partner`` (see
+    :func:`at_home_links`) moves the partner the other way."""
 
-    def __init__(self, model: Model, x: np.ndarray, checked: np.ndarray) -> None:
+    def __init__(self, model: Model, x: np.ndarray, checked: np.ndarray,
+                 partner: np.ndarray | None = None) -> None:
         self.rows, self.cols = model.matrix.tocsr(), model.matrix.tocsc()
         self.lo, self.hi = model.row_lower, model.row_upper
+        self.col_lower, self.col_upper = model.col_lower, model.col_upper
         self.x, self.checked = x, checked
+        self.partner = np.full(model.num_cols, -1) if partner is None else partner
         self.activity = self.rows @ x
+
+    def effect(self, j: int, step: float) -> tuple[np.ndarray, np.ndarray]:
+        """The rows a step on column j changes, and by how much (its partner's share too)."""
+        span = slice(self.cols.indptr[j], self.cols.indptr[j + 1])
+        rows, change = self.cols.indices[span], step * self.cols.data[span]
+        p = int(self.partner[j])
+        if p >= 0:
+            other = slice(self.cols.indptr[p], self.cols.indptr[p + 1])
+            rows = np.concatenate([rows, self.cols.indices[other]])
+            change = np.concatenate([change, -step * self.cols.data[other]])
+            rows, where = np.unique(rows, return_inverse=True)
+            change = np.bincount(where, weights=change, minlength=rows.size)
+        return rows, change
 
     def outside(self, i: int) -> float:
         """How far row i is outside its bounds (+ above, - below, 0 inside)."""
@@ -194,19 +306,25 @@ class RowActivity:
                                               | (self.activity < self.lo - TOLERANCE)))
 
     def fits(self, j: int, step: float) -> bool:
-        """Whether moving column j by ``step`` keeps every checked row that holds now."""
-        span = slice(self.cols.indptr[j], self.cols.indptr[j + 1])
-        for i, a in zip(self.cols.indices[span], self.cols.data[span], strict=True):
+        """Whether moving column j by ``step`` keeps every checked row that holds now (and
+        its partner within its bounds)."""
+        p = int(self.partner[j])
+        if p >= 0 and not (self.col_lower[p] - TOLERANCE <= self.x[p] - step
+                           <= self.col_upper[p] + TOLERANCE):
+            return False
+        for i, change in zip(*self.effect(j, step), strict=True):
             if self.checked[i] and self.outside(i) == 0.0:
-                after = self.activity[i] + step * a
+                after = self.activity[i] + change
                 if after > self.hi[i] + TOLERANCE or after < self.lo[i] - TOLERANCE:
                     return False
         return True
 
     def move(self, j: int, step: float) -> None:
+        rows, change = self.effect(j, step)
         self.x[j] += step
-        span = slice(self.cols.indptr[j], self.cols.indptr[j + 1])
-        self.activity[self.cols.indices[span]] += step * self.cols.data[span]
+        if self.partner[j] >= 0:
+            self.x[self.partner[j]] -= step
+        self.activity[rows] += change
 
 
 def repair_rows(rows: RowActivity, movable: np.ndarray, wanted: np.ndarray,
@@ -226,7 +344,12 @@ def repair_rows(rows: RowActivity, movable: np.ndarray, wanted: np.ndarray,
         while (excess := rows.outside(int(i))) != 0.0:
             span = slice(csr.indptr[i], csr.indptr[i + 1])
             options = []
+            here = dict(zip(csr.indices[span].tolist(), csr.data[span].tolist(), strict=True))
             for j, a in zip(csr.indices[span], csr.data[span], strict=True):
+                # What a step does to this row, the partner's share included.
+                a -= here.get(int(rows.partner[j]), 0.0)
+                if a == 0.0:
+                    continue
                 step = -1.0 if (a > 0) == (excess > 0) else 1.0
                 if movable[j] and lowest[j] <= x[j] + step <= highest[j]:
                     # Prefer the column whose LP value leans furthest toward the step.

@@ -28,7 +28,7 @@ from rebalance.backends import (
     stopped,
 )
 from rebalance.model import LIMIT_FAMILIES, Model
-from rebalance.rounding import early_lp, neighbourhood, plan_by_rounding
+from rebalance.rounding import early_lp, movers_free, neighbourhood, plan_by_rounding
 from rebalance.split import relaxed, resplit, run_within
 
 __all__ = ["SolveOptions", "SolveResult", "StageResult", "Status", "solve", "solve_stage"]
@@ -612,7 +612,7 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
         # (stage two): only for stage one and the weighted objective.
         rounding = plan_by_rounding(backend, model, objective, options,
                                     time.perf_counter() + options.shares.rounding * left,
-                                    best, say, early, rounded_rows)
+                                    best, say, early, rounded_rows, movers_free(model))
         if rounding.plan is not None:
             best, best_objective = rounding.plan, float(objective @ rounding.plan)
             held_at = np.rint(rounding.plan)

@@ -613,3 +613,26 @@ def test_rounding_details_relocatable_people_with_their_at_home_columns(seed):
     assert optimum.fun - 1e-6 <= model.shortfall_weight @ x < start.objective - 1e-6
     held = rounded(False)
     assert held is None or held[detail.start:detail.stop].sum() == 0
+
+
+def test_a_restricted_search_worse_than_its_start_does_not_say_it_found_a_plan(monkeypatch):
+    # HiGHS has handed back a plan worse than the start it was given (the caller keeps the
+    # start); the progress line must not read as if the plan had become that one.
+    import numpy as np
+
+    from rebalance.backends import BackendOutcome, HighsBackend, SolveOptions, Status
+    from rebalance.model import build_model
+
+    solve_module = importlib.import_module("rebalance.solve")
+    model = build_model(random_instance(1, people=3, periods=2, offices=2, skills=1))
+    start = np.zeros(model.num_cols)
+    worse = np.zeros(model.num_cols)
+    objective = np.ones(model.num_cols)
+    worse[0] = 5.0
+    monkeypatch.setattr(solve_module, "run_within", lambda *_: BackendOutcome(
+        Status.FEASIBLE_WITH_GAP, worse, 5.0, 0.0, "Stopped at the time limit", 1.0))
+    said: list[str] = []
+    solve_module._restricted_run(HighsBackend(), model, objective, [], SolveOptions(),
+                                 (model.col_lower, model.col_upper), 1.0, start, "group",
+                                 said.append)
+    assert said == ["  group: nothing better than its start (5 found, 1.0s)"]

@@ -578,7 +578,6 @@ def test_rounding_details_relocatable_people_with_their_at_home_columns(seed):
     # better than the optimum (reference: scipy's milp, its own HiGHS build).  Held, as
     # before, the same rounding details nobody.
     import numpy as np
-
     from conftest import scipy_milp
 
     from rebalance.backends import HighsBackend, SolveOptions

@@ -184,6 +184,12 @@ MIN_HEURISTIC_SECONDS = 5.0  # below this a stage goes straight to branch and bo
 # the LP relaxation alone outlasts a stage's share there (medium, 104k columns: 81 s with
 # interior point, over 120 s with simplex), while hires alone solve in seconds (issue 3).
 LARGE_MODEL_COLUMNS = 30_000
+# The same from this many columns where relocatable people's details are written per
+# destination (past ten offices): there the LP relaxation by dual simplex is slow for its
+# size (20,672 columns, 300 staff, 12 offices, 22% relocatable: not done in 14 s, and no
+# plan in 60 s; 15,670 columns: none in 20 s), while the passes gave 214.4 and 115.7 in
+# 30 s.  At 6,237 columns the LP path did better (58.8 against 63.3 in 30 s).
+LARGE_MODEL_COLUMNS_WITH_MOVERS = 10_000
 # Above this many nonzeros a large model with a plan already in hand gets no branch and bound
 # on the whole model: HiGHS's presolve of agency (6.8M nonzeros) ran 170 s past the limit
 # without one callback, while medium (0.8M) stopped on time (issue 3).
@@ -469,7 +475,11 @@ def _higher(a: float | None, b: float | None) -> float | None:
 
 def _is_large(model: Model, backend: Backend) -> bool:
     """Whether ``model`` takes the large-model path (passes instead of the LP first)."""
-    return model.num_cols > LARGE_MODEL_COLUMNS and backend.reruns_cheaply
+    detail = model.blocks.get("detail")
+    movers = detail is not None and bool((detail.keys["home"] < 0).any())
+    columns = (min(LARGE_MODEL_COLUMNS, LARGE_MODEL_COLUMNS_WITH_MOVERS) if movers
+               else LARGE_MODEL_COLUMNS)
+    return model.num_cols > columns and backend.reruns_cheaply
 
 
 def _passes_only(model: Model, backend: Backend) -> bool:

@@ -635,3 +635,29 @@ def test_a_restricted_search_worse_than_its_start_does_not_say_it_found_a_plan(m
                                  (model.col_lower, model.col_upper), 1.0, start, "group",
                                  said.append)
     assert said == ["  group: nothing better than its start (5 found, 1.0s)"]
+
+
+def test_models_with_relocatable_people_per_destination_take_the_passes_sooner(tmp_path):
+    # Past ten offices relocatable people's details are written per destination, and the
+    # LP relaxation of such a model is slow for its size (a 20,672-column one was not done in
+    # 14 s and gave no plan in 60 s), so from 10,000 columns it takes the passes.  Measured
+    # in benchmarks/notes.md (fifteenth session); this checks the wiring.
+    from rebalance.backends import CbcBackend, HighsBackend
+    from rebalance.generate import GeneratorSpec, generate, write_generated
+    from rebalance.model import build_model
+
+    solve_module = importlib.import_module("rebalance.solve")
+    spec = GeneratorSpec(staff=200, offices=12, skills=4, periods=6, relocatable_share=0.4,
+                         seed=24)
+    write_generated(generate(spec), tmp_path / "movers")
+    model = build_model(read_instance(tmp_path / "movers"))
+    detail = model.blocks["detail"]
+    assert (detail.keys["home"] < 0).any()
+    assert (solve_module.LARGE_MODEL_COLUMNS_WITH_MOVERS < model.num_cols
+            < solve_module.LARGE_MODEL_COLUMNS)
+    assert solve_module._is_large(model, HighsBackend())
+    assert not solve_module._is_large(model, CbcBackend())  # CBC reruns dearly
+    # Per pair (no per-destination columns), the same people keep the LP path.
+    paired = build_model(read_instance(tmp_path / "movers"), pair_details=True)
+    assert paired.num_cols < solve_module.LARGE_MODEL_COLUMNS
+    assert not solve_module._is_large(paired, HighsBackend())

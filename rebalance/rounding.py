@@ -88,7 +88,7 @@ def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
     every other integer column is held where ``start`` has it: homes, and unless
     ``movers_free`` the per-destination details of relocatable people (with those free
     agency's LP took 65 s instead of 25-28 s, and stage 1 ended at 7,237 instead of 6,889;
-    see ``MOVERS_FREE_MIN_SHARE``).  Free, each moves with its person's at-home column
+    see :func:`movers_free`).  Free, each moves with its person's at-home column
     (:func:`at_home_links`).  The plan is None when the LP does not finish, the repair fails, or
     the plan is no better than ``start``.  Not for a held shortfall (stage two): rounding
     down raises it.  ``early``, where given, is the LP started before: used if its bounds are

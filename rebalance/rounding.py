@@ -139,22 +139,33 @@ def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
     return replace(found, plan=split.x) if score < float(objective @ start) - 1e-9 else found
 
 
-# Relocatable people's details written per destination join the rounding's LP where at
-# least this share of the people may relocate and the model is small enough for its LP to
-# stay cheap.  Held, those people are never detailed in stage one.  Measured at 60 s, two
-# threads (issue 3): 400 staff, 12 offices, 41% relocatable: 132.3 free against 160.0 held;
-# 400 staff, 32%: 139.0 against 153.2.  Medium-sized (2,000 staff, 2.9M nonzeros, 18%):
-# 3,148 against 3,173 on one seed, 2,462 against 2,197 on another (the LP 18.5 s instead of
-# 4.1 s, its rounding far worse); medium at 5% and 2.5%: 1,629.5 against 1,627-1,629 and
-# 2,288-2,300 against 2,283.
+# Relocatable people's details written per destination join the rounding's LP where enough
+# of the people may relocate for the model's size.  Held, those people are never detailed in
+# stage one; free, the LP is slower and its rounding can be worse.  Measured at 60 s, two
+# threads (issue 3), stage 1's plan held -> free:
+#   400 staff, 12 offices, 0.4M nonzeros, 41% relocatable: 160.0 -> 132.3; 32%: 153.2 -> 139.0
+#   1,000 staff, 16 offices, 1.7M nonzeros, 41%: 483.6 -> 388.3
+#   250 staff, 14 offices, 1.2M nonzeros, 100% (30 s): 458.0 -> 437.1
+#   2,000 staff, 2.9M nonzeros, 18%: 3,173 -> 3,148 on one seed, 2,197 -> 2,462 on another
+#     (the LP 4.1 s -> 18.5 s); medium, 5% and 2.5%: no better, or worse (2,283 -> 2,288)
+#   agency (8M nonzeros, 5%): its LP 25-28 s -> 65 s, 6,889 -> 7,237.
 MOVERS_FREE_MIN_SHARE = 0.1
 MOVERS_FREE_MAX_NONZEROS = 500_000
+# Above that size, a larger share; past it (agency) never, as the LP alone would take most
+# of the stage.
+MOVERS_FREE_MIN_SHARE_LARGER = 0.3
+MOVERS_FREE_MAX_NONZEROS_LARGER = 3_000_000
 
 
 def movers_free(model: Model) -> bool:
     """Whether the rounding's LP frees relocatable people's per-destination details."""
-    return (model.matrix.nnz <= MOVERS_FREE_MAX_NONZEROS
-            and relocatable_share(model) >= MOVERS_FREE_MIN_SHARE)
+    nonzeros = model.matrix.nnz
+    if nonzeros > MOVERS_FREE_MAX_NONZEROS_LARGER:
+        return False
+    share = relocatable_share(model)
+    if nonzeros <= MOVERS_FREE_MAX_NONZEROS:
+        return share >= MOVERS_FREE_MIN_SHARE
+    return share >= MOVERS_FREE_MIN_SHARE_LARGER
 
 
 def relocatable_share(model: Model) -> float:

@@ -645,6 +645,7 @@ def test_models_with_relocatable_people_per_destination_take_the_passes_sooner(t
     from rebalance.backends import CbcBackend, HighsBackend
     from rebalance.generate import GeneratorSpec, generate, write_generated
     from rebalance.model import build_model
+    from rebalance.rounding import MOVERS_FREE_MIN_SHARE, movers_free, relocatable_share
 
     solve_module = importlib.import_module("rebalance.solve")
     spec = GeneratorSpec(staff=200, offices=12, skills=4, periods=6, relocatable_share=0.4,
@@ -657,6 +658,8 @@ def test_models_with_relocatable_people_per_destination_take_the_passes_sooner(t
             < solve_module.LARGE_MODEL_COLUMNS)
     assert solve_module._is_large(model, HighsBackend())
     assert not solve_module._is_large(model, CbcBackend())  # CBC reruns dearly
+    # A share that large, on a model that small: their details join the rounding's LP.
+    assert relocatable_share(model) >= MOVERS_FREE_MIN_SHARE and movers_free(model)
     # Per pair (no per-destination columns), the same people keep the LP path.
     paired = build_model(read_instance(tmp_path / "movers"), pair_details=True)
     assert paired.num_cols < solve_module.LARGE_MODEL_COLUMNS

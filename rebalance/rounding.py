@@ -352,13 +352,15 @@ def repair_rows(rows: RowActivity, movable: np.ndarray, wanted: np.ndarray,
     moves = 0
     # Only rows broken to begin with: a step never breaks a row that holds.
     for i in rows.broken_rows():
+        span = slice(csr.indptr[i], csr.indptr[i + 1])
+        columns = csr.indices[span]
+        # What a step on each column does to this row, its partner's share included.
+        coefficient = dict(zip(columns.tolist(), csr.data[span].tolist(), strict=True))
+        effect = [(int(j), a - coefficient.get(int(rows.partner[j]), 0.0))
+                  for j, a in coefficient.items()]
         while (excess := rows.outside(int(i))) != 0.0:
-            span = slice(csr.indptr[i], csr.indptr[i + 1])
             options = []
-            here = dict(zip(csr.indices[span].tolist(), csr.data[span].tolist(), strict=True))
-            for j, a in zip(csr.indices[span], csr.data[span], strict=True):
-                # What a step does to this row, the partner's share included.
-                a -= here.get(int(rows.partner[j]), 0.0)
+            for j, a in effect:
                 if a == 0.0:
                     continue
                 step = -1.0 if (a > 0) == (excess > 0) else 1.0

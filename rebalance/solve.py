@@ -30,6 +30,7 @@ from rebalance.backends import (
 from rebalance.model import LIMIT_FAMILIES, Model
 from rebalance.rounding import early_lp, movers_free, neighbourhood, plan_by_rounding
 from rebalance.split import relaxed, resplit, run_within
+from rebalance.whole_plans import decomposable
 
 __all__ = ["SolveOptions", "SolveResult", "StageResult", "Status", "solve", "solve_stage"]
 
@@ -475,10 +476,8 @@ def _higher(a: float | None, b: float | None) -> float | None:
 
 def _is_large(model: Model, backend: Backend) -> bool:
     """Whether ``model`` takes the large-model path (passes instead of the LP first)."""
-    detail = model.blocks.get("detail")
-    movers = detail is not None and bool((detail.keys["home"] < 0).any())
-    columns = (min(LARGE_MODEL_COLUMNS, LARGE_MODEL_COLUMNS_WITH_MOVERS) if movers
-               else LARGE_MODEL_COLUMNS)
+    columns = (min(LARGE_MODEL_COLUMNS, LARGE_MODEL_COLUMNS_WITH_MOVERS)
+               if decomposable(model) else LARGE_MODEL_COLUMNS)
     return model.num_cols > columns and backend.reruns_cheaply
 
 

@@ -142,7 +142,9 @@ def test_intervals_cover_the_mean() -> None:
 
 
 @settings(max_examples=40, deadline=None)
-@given(st.lists(st.floats(0, 1000), min_size=48, max_size=72),
+# No subnormal numbers: scaled, they lose digits (2.2e-313 x 0.01 keeps about 10), which is
+# floating point, not MASE; hypothesis found one such series.
+@given(st.lists(st.floats(0, 1000, allow_subnormal=False), min_size=48, max_size=72),
        st.floats(0.01, 100), st.floats(-500, 500))
 def test_mase_is_scale_free_and_baseline_is_equivariant(values: list[float], scale: float,
                                                         shift: float) -> None:

@@ -153,6 +153,9 @@ class SolveOptions:
     point_only: bool = False
     shares: TimeShares = TimeShares()
     progress: Callable[[str], None] | None = field(default=None, compare=False)
+    # A bound on the run's objective proven before it (the stage's LP relaxation, or 0):
+    # progress lines show the higher of it and the search's own, which starts lower.
+    known_bound: float | None = field(default=None, compare=False)
 
 
 @dataclass(frozen=True)
@@ -184,6 +187,15 @@ class Backend(Protocol):
             options: SolveOptions, time_limit: float, start: np.ndarray | None) -> BackendOutcome:
         """Minimise ``objective @ x`` over the model plus ``extra_rows`` (row, upper bound)."""
         ...
+
+
+def search_line(best: float, bound: float, nodes: int | str, known_bound: float | None) -> str:
+    """The progress line of a search: best plan, bound (never below ``known_bound``), gap."""
+    if known_bound is not None:
+        bound = max(bound, known_bound)
+    gap = relative_gap(best, bound)
+    return (f"  searching: best plan {best:.6g}, bound {bound:.6g}, gap "
+            f"{'undefined' if gap is None else f'{gap:.2%}'}, {nodes} nodes")
 
 
 def relative_gap(objective: float | None, bound: float | None) -> float | None:
@@ -235,7 +247,8 @@ def silent_highs() -> Any:
 
 
 def _watch_highs(h: Any, deadline: float, progress: Callable[[str], None] | None,
-                 on_plan: PlanSink | None = None, on_bound: BoundSink | None = None) -> None:
+                 on_plan: PlanSink | None = None, on_bound: BoundSink | None = None,
+                 known_bound: float | None = None) -> None:
     """Stop HiGHS at our own wall-clock deadline (it can overrun its time limit during root
     work), report best plan, bound and gap every few seconds while it searches, hand each
     better plan to ``on_plan`` and a risen bound to ``on_bound`` (at most every second)."""
@@ -251,14 +264,12 @@ def _watch_highs(h: Any, deadline: float, progress: Callable[[str], None] | None
             event.interrupt()
         if progress is not None and now - last[0] >= PROGRESS_SECONDS:
             out = event.data_out
-            if math.isfinite(out.mip_primal_bound) and math.isfinite(out.mip_dual_bound):
+            if math.isfinite(out.mip_primal_bound) and (math.isfinite(out.mip_dual_bound)
+                                                          or known_bound is not None):
                 last[0] = now
                 best = best_said[0] = min(best_said[0], out.mip_primal_bound)
-                gap = relative_gap(best, out.mip_dual_bound)
-                progress(f"  searching: best plan {best:.6g}, bound "
-                         f"{out.mip_dual_bound:.6g}, gap "
-                         f"{'undefined' if gap is None else f'{gap:.2%}'}, "
-                         f"{out.mip_node_count} nodes")
+                progress(search_line(best, out.mip_dual_bound, out.mip_node_count,
+                                     known_bound))
 
     def mip_interrupt(event: Any) -> None:
         interrupt(event)
@@ -566,7 +577,7 @@ class HighsBackend:
                 on_plan(x, objective_value)
 
         _watch_highs(h, started + max(time_limit, 0.05), options.progress,
-                     keep if model.num_integer else on_plan, on_bound)
+                     keep if model.num_integer else on_plan, on_bound, options.known_bound)
         if start is not None:
             solution = highspy.HighsSolution()
             solution.col_value = list(start)
@@ -660,9 +671,11 @@ _CBC_PLAN = re.compile(r"Cbc0012I Integer solution of (\S+)")
 class _CbcLogWatcher:
     """Reads CBC's log while it runs and reports best plan, bound and gap."""
 
-    def __init__(self, path: Path, progress: Callable[[str], None] | None) -> None:
+    def __init__(self, path: Path, progress: Callable[[str], None] | None,
+                 known_bound: float | None = None) -> None:
         self.path = path
         self.progress = progress
+        self.known_bound = known_bound
         self._stop = threading.Event()
         self._thread = threading.Thread(target=self._run, daemon=True)
 
@@ -692,10 +705,7 @@ class _CbcLogWatcher:
             elif found and found[-1] != seen_progress:
                 seen_progress = found[-1]
                 nodes, best, bound = seen_progress
-                gap = relative_gap(float(best), float(bound))
-                self.progress(f"  searching: best plan {float(best):.6g}, bound "
-                              f"{float(bound):.6g}, gap "
-                              f"{'-' if gap is None else f'{gap:.2%}'}, {nodes} nodes")
+                self.progress(search_line(float(best), float(bound), nodes, self.known_bound))
 
 
 CBC_GRACE_SECONDS = 1.0
@@ -846,7 +856,7 @@ class CbcBackend:
                 options=[f"randomCbcSeed {options.seed + 1}"],
             )
             solver.tmpDir = tmp  # each solve its own folder
-            watcher = _CbcLogWatcher(log_path, options.progress)
+            watcher = _CbcLogWatcher(log_path, options.progress, options.known_bound)
             # CBC can overrun its -sec limit in preprocessing; past our deadline it is asked to
             # stop (SIGINT: it keeps its best plan), and killed if it does not.
             guard = _Deadline(started + time_limit + CBC_GRACE_SECONDS)

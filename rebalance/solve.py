@@ -282,7 +282,9 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
             out = _not_searched("no time left to search the whole model")
         else:
             # Easy large models still get proven here; the LP bound above joins its bound.
-            out = backend.run(model, objective, extra_rows, options, left, start)
+            known = _higher(lp_bound, OBJECTIVE_FLOOR)
+            out = backend.run(model, objective, extra_rows, replace(options, known_bound=known),
+                              left, start)
         if bound_on_side is not None:
             lp_bound = _higher(lp_bound, bound_on_side.result())
     if carried.cost_bound is not None and extra_rows:
@@ -334,10 +336,8 @@ def _restricted_run(backend: Backend, model: Model, objective: np.ndarray,
     large, held apart, proved its plan in 129 s where the whole model had a worse one at
     149 s.
     """
-    run_options = replace(options, progress=None if options.progress is None else (
-        lambda text: say(text.replace("searching:", f"{label}:"))))
-    out = run_within(backend, model, objective, extra_rows, run_options, bounds[0], bounds[1],
-                     time_limit, start)
+    out = run_within(backend, model, objective, extra_rows, _labelled(options, label, say),
+                     bounds[0], bounds[1], time_limit, start)
     if out.x is None or out.objective is None:
         say(f"  {label}: no plan ({out.words})")
     elif start is not None and out.objective > float(objective @ start) + 1e-9 * (
@@ -349,6 +349,13 @@ def _restricted_run(backend: Backend, model: Model, objective: np.ndarray,
     else:
         say(f"  {label}: plan with {out.objective:.6g} in {out.seconds:.1f}s")
     return out
+
+
+def _labelled(options: SolveOptions, label: str, say: Callable[[str], None]) -> SolveOptions:
+    """``options`` for a run on part of the model: its progress lines carry ``label``, since
+    their bound holds for that part only."""
+    return replace(options, known_bound=None, progress=None if options.progress is None else (
+        lambda text: say(text.replace("searching:", f"{label}:"))))
 
 
 OFFICES_PER_GROUP = 4
@@ -533,9 +540,11 @@ def _first_plan_from_lp(backend: Backend, model: Model, objective: np.ndarray,
                                  start)
     left = deadline - time.perf_counter()
     narrowed = replace(model, col_lower=lower, col_upper=upper)
+    # Its progress lines say whose they are: the bound of the narrowed model is no bound
+    # of the stage (on the demo's cost stage 2.07e6, where the stage's is 1.63e6).
     rens = None if left < 2.0 else backend.run(
-        narrowed, objective, extra_rows, options, min(options.shares.rens * budget, 0.5 * left),
-        start)
+        narrowed, objective, extra_rows, _labelled(options, "rounding search", say),
+        min(options.shares.rens * budget, 0.5 * left), start)
     if rens is not None and rens.x is not None and rens.objective is not None:
         say(f"  rounding search: plan with {rens.objective:.6g} in {rens.seconds:.1f}s")
         if start is None or rens.objective < float(objective @ start) - 1e-9:

@@ -241,3 +241,55 @@ def test_cbc_is_not_started_once_building_its_model_has_used_the_time():
     assert out.status is Status.NO_PLAN_IN_TIME and out.x is None
     assert "CBC" in out.words
     assert out.seconds < 1.0  # CBC itself is given at least a second whenever it starts
+
+
+def test_a_progress_line_never_shows_a_bound_below_one_known_before_the_search():
+    # A search's own bound starts below the stage's LP relaxation (the demo's cost stage:
+    # 1.668e6 after the LP's 1.634e6 had been reported); a planner should not see it fall.
+    from rebalance.backends import search_line
+
+    assert search_line(200.0, 150.0, 7, 160.0) == (
+        "  searching: best plan 200, bound 160, gap 20.00%, 7 nodes")
+    assert search_line(200.0, 190.0, 7, 160.0).startswith("  searching: best plan 200, "
+                                                           "bound 190, gap 5.00%")
+    assert "gap undefined" in search_line(0.0, float("-inf"), 0, -1.0)
+
+
+def test_only_a_search_of_the_whole_model_is_told_the_stages_bound(monkeypatch):
+    # The rounding search runs on a narrowed model: its bound is no bound of the stage, so its
+    # lines carry their own label, and the stage's LP bound is not passed to it as known.
+    from rebalance import backends
+    from rebalance.model import build_model
+    from rebalance.planning import options_from_instance
+    from rebalance.readers import read_instance
+
+    solve = importlib.import_module("rebalance.solve")
+
+    instance = read_instance(Path(__file__).parent / "data" / "tiny")
+    model = build_model(instance)
+    runs: list[tuple[bool, bool, float | None, float | None]] = []
+
+    class Spy(HighsBackend):
+        def run(self, run_model, objective, extra_rows, options, time_limit, start, **kw):
+            out = super().run(run_model, objective, extra_rows, options, time_limit, start,
+                              **kw)
+            whole = (np.array_equal(run_model.col_lower, model.col_lower)
+                     and np.array_equal(run_model.col_upper, model.col_upper))
+            runs.append((bool(run_model.num_integer), whole, options.known_bound,
+                         out.objective))
+            return out
+
+    monkeypatch.setitem(backends.BACKENDS, "highs", Spy)  # the dict solve() looks in
+    lines: list[str] = []
+    options = options_from_instance(instance, relative_gap=0.0, time_limit_seconds=30.0,
+                                    progress=lines.append)
+    result = solve.solve(model, options)
+    assert result.status is backends.Status.OPTIMAL
+    # Each stage's LP relaxation, then the final work split's LP.
+    relaxations = [objective for integer, _, _, objective in runs if not integer][:2]
+    whole = [known for integer, is_whole, known, _ in runs if integer and is_whole]
+    narrowed = [known for integer, is_whole, known, _ in runs if integer and not is_whole]
+    assert len(relaxations) == len(whole) == 2 and narrowed
+    for lp, known in zip(relaxations, whole, strict=True):
+        assert known is not None and lp is not None and known >= lp - 1e-9
+    assert all(known is None for known in narrowed)

@@ -264,8 +264,7 @@ def _watch_highs(h: Any, deadline: float, progress: Callable[[str], None] | None
             event.interrupt()
         if progress is not None and now - last[0] >= PROGRESS_SECONDS:
             out = event.data_out
-            if math.isfinite(out.mip_primal_bound) and (math.isfinite(out.mip_dual_bound)
-                                                          or known_bound is not None):
+            if math.isfinite(out.mip_primal_bound) and math.isfinite(out.mip_dual_bound):
                 last[0] = now
                 best = best_said[0] = min(best_said[0], out.mip_primal_bound)
                 progress(search_line(best, out.mip_dual_bound, out.mip_node_count,

@@ -710,7 +710,8 @@ def _read_budgets(table: RawTable, problems: list[Problem],
     if rows.columns_ok:
         for year in sorted(years - listed):
             problems.append(Problem(table.label, None, "year",
-                                    f"budget year '{year}' has no row; hiring is uncapped",
+                                    f"budget year '{year}' has no row; hiring and moves are "
+                                    "uncapped that year",
                                     is_warning=True))
     return out
 

@@ -283,8 +283,13 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
         else:
             # Easy large models still get proven here; the LP bound above joins its bound.
             known = _higher(lp_bound, OBJECTIVE_FLOOR)
-            out = backend.run(model, objective, extra_rows, replace(options, known_bound=known),
-                              left, start)
+            # With no plan yet there is nothing for a cost stage to start from: until its
+            # first plan this search may use the cost stage's time too.
+            overtime = (max(cost_stage_deadline - deadline, 0.0)
+                        if start is None and cost_stage_deadline is not None else 0.0)
+            out = backend.run(model, objective, extra_rows,
+                              replace(options, known_bound=known,
+                                      overtime_without_plan=overtime), left, start)
         if bound_on_side is not None:
             lp_bound = _higher(lp_bound, bound_on_side.result())
     if carried.cost_bound is not None and extra_rows:

@@ -21,6 +21,8 @@ __all__ = ["Violation", "verify_folder", "verify_plan"]
 
 ABS_TOL = 1e-6
 REL_TOL = 1e-6
+# Unknown names listed per table and column before the rest are counted.
+UNKNOWN_NAMES_LISTED = 10
 
 
 @dataclass(frozen=True)
@@ -102,18 +104,24 @@ class _Checker:
         }
         for table, columns in spec.items():
             frame = self.plan.table(table)
-            for column in PLAN_TABLES[table]:
-                if column not in frame.columns:
-                    self.flag("missing_column", table, f"column {column} is missing")
-                    ok = False
-            if not ok:
-                continue
+            missing = [column for column in PLAN_TABLES[table] if column not in frame.columns]
+            for column in missing:
+                self.flag("missing_column", table, f"column {column} is missing")
+            ok = ok and not missing
+            if missing:
+                continue  # this table's names cannot be read; the other tables' still can
             for column, known in columns.items():
-                for row, value in enumerate(frame[column].astype(str), 2):
-                    if value not in known:
-                        self.flag("unknown_reference", f"{table}.csv:{row}",
-                                  f"{column} '{value}' is not in the instance")
-                        ok = False
+                unknown = [(row, value) for row, value in
+                           enumerate(frame[column].astype(str), 2) if value not in known]
+                for row, value in unknown[:UNKNOWN_NAMES_LISTED]:
+                    self.flag("unknown_reference", f"{table}.csv:{row}",
+                              f"{column} '{value}' is not in the instance")
+                if len(unknown) > UNKNOWN_NAMES_LISTED:
+                    # A plan of another instance names thousands; the first few say enough.
+                    self.flag("unknown_reference", f"{table}.csv",
+                              f"{len(unknown) - UNKNOWN_NAMES_LISTED:,} more rows with a "
+                              f"{column} that is not in the instance")
+                ok = ok and not unknown
         return ok
 
     # -- reassignments -------------------------------------------------------------------

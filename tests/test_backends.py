@@ -178,7 +178,7 @@ def test_a_plan_found_by_a_child_before_the_kill_is_scored_and_kept(monkeypatch)
     # HiGHS is told 3.5 s, the kill comes at 3 s; it finds its first demo plans within 1 s.
     monkeypatch.setattr(backends_module, "HIGHS_GRACE_SECONDS", -0.5)
     out = HighsBackend().run(model, model.shortfall_weight, [], SolveOptions(), 3.0, None)
-    assert out.status is Status.FEASIBLE_WITH_GAP and out.words == "stopped at the wall-clock limit"
+    assert out.status is Status.FEASIBLE_WITH_GAP and out.words == "stopped at the time limit"
     assert out.killed
     assert out.x is not None and out.objective == float(model.shortfall_weight @ out.x)
     activity = model.matrix @ out.x
@@ -293,3 +293,62 @@ def test_only_a_search_of_the_whole_model_is_told_the_stages_bound(monkeypatch):
     for lp, known in zip(relaxations, whole, strict=True):
         assert known is not None and lp is not None and known >= lp - 1e-9
     assert all(known is None for known in narrowed)
+
+
+class _Hook:
+    """Stands in for a highspy callback slot: ``slot += function`` keeps the function."""
+
+    def __init__(self) -> None:
+        self.functions: list = []
+
+    def __iadd__(self, function):
+        self.functions.append(function)
+        return self
+
+
+def _highs_event(best: float):
+    from types import SimpleNamespace
+
+    event = SimpleNamespace(interrupted=False,
+                            data_out=SimpleNamespace(mip_primal_bound=best, mip_dual_bound=0.0,
+                                                     mip_node_count=0))
+    event.interrupt = lambda: setattr(event, "interrupted", True)
+    return event
+
+
+def test_a_search_with_overtime_runs_past_its_limit_only_until_its_first_plan():
+    import time
+    from types import SimpleNamespace
+
+    from rebalance.backends import _watch_highs
+
+    h = SimpleNamespace(cbSimplexInterrupt=_Hook(), cbIpmInterrupt=_Hook(),
+                        cbMipInterrupt=_Hook(), cbMipImprovingSolution=_Hook())
+    now = time.perf_counter()
+    _watch_highs(h, now - 1.0, None, overtime=60.0)  # its limit passed a second ago
+    [check] = h.cbMipInterrupt.functions
+    no_plan, with_plan = _highs_event(float("inf")), _highs_event(10.0)
+    check(no_plan)
+    check(with_plan)
+    assert not no_plan.interrupted and with_plan.interrupted
+    _watch_highs(h, now - 1.0, None, overtime=0.5)  # and its overtime too
+    late = _highs_event(float("inf"))
+    h.cbMipInterrupt.functions[-1](late)
+    assert late.interrupted
+
+
+def test_cbc_is_stopped_in_its_overtime_once_its_log_shows_a_plan(tmp_path):
+    import time
+
+    from rebalance.backends import _Deadline
+
+    log = tmp_path / "cbc.log"
+    log.write_text("Cbc0010I After 0 nodes, 1 on tree, 1e+50 best solution, best possible 3\n")
+    guard = _Deadline(time.perf_counter() + 0.1, 30.0, log)
+    guard.start()
+    time.sleep(1.0)
+    assert not guard.fired  # past its limit, but no plan yet
+    log.write_text(log.read_text() + "Cbc0012I Integer solution of 7 found by feasibility pump\n")
+    time.sleep(1.0)
+    assert guard.fired
+    guard.stop()

@@ -116,6 +116,28 @@ def test_unknown_names_are_flagged(tiny_plan):
     assert {v.rule for v in verify_plan(instance, broken)} == {"unknown_reference"}
 
 
+def test_unknown_names_are_flagged_in_every_table_and_counted_past_the_first_few(tiny_plan):
+    # A plan written for another instance: every table names what this one lacks, and each
+    # is listed, not only the first table's (found by a sweep of generated instances).
+    from rebalance.verify import UNKNOWN_NAMES_LISTED
+
+    instance, result = tiny_plan
+    plan = result.plan
+    many = UNKNOWN_NAMES_LISTED + 5
+    broken = replace(
+        plan,
+        details=add_rows(plan.details, detail("nobody", "2027-Q1", "A", "B")),
+        hires=add_rows(plan.hires, hire("nowhere", plan.hires.skill.iloc[0],
+                                        plan.hires.start_period.iloc[0], 1, "new", 0, 0)),
+        work=add_rows(plan.work, *[{**plan.work.iloc[0].to_dict(), "period": f"2099-Q{i}"}
+                                   for i in range(many)]))
+    found = [v for v in verify_plan(instance, broken) if v.rule == "unknown_reference"]
+    assert {v.where.split(":")[0].split(".")[0] for v in found} == {"details", "hires", "work"}
+    periods = [v for v in found if v.where.startswith("work") and "period" in v.message]
+    assert len(periods) == UNKNOWN_NAMES_LISTED + 1
+    assert periods[-1].where == "work.csv" and periods[-1].message.startswith("5 more rows")
+
+
 def test_folder_summary_totals_are_checked(tiny_plan, tmp_path):
     instance, result = tiny_plan
     write_outputs(result, tmp_path / "plan")

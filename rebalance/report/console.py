@@ -37,13 +37,21 @@ def _table(headers: Sequence[str], rows: Sequence[Sequence[object]]) -> list[str
     return [line(cells[0]), "  ".join("-" * w for w in widths)] + [line(r) for r in cells[1:]]
 
 
+def counted(number: int, noun: str) -> str:
+    """``number`` with ``noun``, plural unless one (``1 period``, ``3 periods``)."""
+    return f"{number:,} {noun}" + ("" if number == 1 else "s")
+
+
 def format_check(instance: Instance) -> str:
+    periods = instance.periods
+    span = periods[0].name if len(periods) == 1 else f"{periods[0].name} to {periods[-1].name}"
     lines = [
         f"Instance {instance.name}: valid",
-        f"  {len(instance.offices)} offices in {len({o.location for o in instance.offices})} "
-        f"locations, {len(instance.skills)} skills, {len(instance.staff)} staff, "
-        f"{len(instance.periods)} periods ({instance.periods[0].name} to "
-        f"{instance.periods[-1].name}), {len(instance.demand)} demand rows "
+        f"  {counted(len(instance.offices), 'office')} in "
+        f"{counted(len({o.location for o in instance.offices}), 'location')}, "
+        f"{counted(len(instance.skills), 'skill')}, {len(instance.staff):,} staff, "
+        f"{counted(len(periods), 'period')} ({span}), "
+        f"{counted(len(instance.demand), 'demand row')} "
         f"({sum(d.fte for d in instance.demand):,.1f} FTE-periods)",
     ]
     lines += [f"  warning: {w}" for w in instance.warnings]

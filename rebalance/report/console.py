@@ -134,6 +134,11 @@ def _room_left(stage: StageResult) -> str | None:
             or stage.objective is None or stage.bound is None
             or stage.name not in ROOM_WORDS):
         return None
+    if stage.bound <= 0.0 < stage.objective:
+        # Only the floor (nothing costs less than 0): "may cost up to all of it less" reads
+        # as a finding about the plan, when the stage simply had no time to bound it.
+        return (f"no bound worked out in the {stage.seconds:.1f}s this stage had, beyond 0 "
+                f"(gap {stage.gap:.2%})")
     room = stage.objective - stage.bound
     amount = _money(room) if stage.name == "cost" else f"{room:,.3g}"
     return ROOM_WORDS[stage.name].format(room=amount) + f" (gap {stage.gap:.2%})"
@@ -142,6 +147,6 @@ def _room_left(stage: StageResult) -> str | None:
 def format_violations(violations: Sequence[Violation]) -> str:
     if not violations:
         return "verification passed: every rule and total checks out"
-    lines = [f"verification failed: {len(violations)} problems"]
+    lines = [f"verification failed: {counted(len(violations), 'problem')}"]
     lines += [f"  - {v}" for v in violations]
     return "\n".join(lines)

@@ -729,5 +729,16 @@ def find_conflicts(model: Model, backend: Backend, options: SolveOptions,
     if out.x is None:
         return [f"the limits conflict, but the analysis found no relaxation ({out.words})"]
     excess = out.x[model.num_cols:]
-    return [_describe_row(model, limit_rows[i], float(excess[i]))
-            for i in np.flatnonzero(excess > 1e-6)]
+    over = np.flatnonzero(excess > 1e-6)
+    listed = [_describe_row(model, limit_rows[i], float(excess[i])) for i in over]
+    # The least total relaxation is the answer's firm part; how it splits between offices
+    # and periods can differ between equally small relaxations (and so between solvers).
+    totals: dict[str, tuple[int, float]] = {}
+    for i in over:
+        family, _ = model.row_label(limit_rows[i])
+        count, amount = totals.get(family, (0, 0.0))
+        totals[family] = (count + 1, amount + float(excess[i]))
+    summary = [f"{family.replace('_', ' ')}: over by {amount:.4g} in all, across {count} limits "
+               "(the least total; how it is split between them can differ)"
+               for family, (count, amount) in totals.items() if count > 1]
+    return summary + listed

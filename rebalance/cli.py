@@ -368,6 +368,7 @@ def cmd_replan(args: argparse.Namespace) -> int:
 def cmd_frontier(args: argparse.Namespace) -> int:
     from rebalance.analysis.frontier import BudgetGrid, budget_frontier, parse_grid
     from rebalance.analysis.output import write_table
+    from rebalance.files import mark_folder
 
     instance = _load(args.instance)
     if instance is None:
@@ -383,7 +384,12 @@ def cmd_frontier(args: argparse.Namespace) -> int:
         return EXIT_USAGE
     frontier = budget_frontier(instance, BudgetGrid(hiring, moves, factor),
                                _analysis_options(instance, args), workers=args.workers)
-    path = write_table(frontier.table, Path(args.out) / "frontier.csv")
+    out = Path(args.out)
+    fresh = not out.exists() or not any(out.iterdir())
+    path = write_table(frontier.table, out / "frontier.csv")
+    if fresh:
+        # A folder it made is an analysis folder: a plan or analysis may join it later.
+        mark_folder(out, "plan")
     print(frontier.table[["point", "hiring_budget", "moves_budget", "status", "gap",
                           "weighted_shortfall", "total_cost", "knee"]].to_string(index=False))
     print(f"\nwrote {path}")
@@ -450,7 +456,7 @@ def _add_analysis_commands(sub) -> None:
                    help="scenario TOML file (repeat for several)")
     p.add_argument("-o", "--out", required=True, help="folder for the base plan and tables")
     solver_options(p)
-    p.set_defaults(run=cmd_compare)
+    p.set_defaults(run=cmd_compare, output_kind="plan")
 
     p = sub.add_parser("replan", help="re-plan from a period, keeping close to an old plan")
     p.add_argument("instance")
@@ -468,7 +474,7 @@ def _add_analysis_commands(sub) -> None:
     p.add_argument("--scenario", metavar="FILE",
                    help="re-plan under a surge scenario's data (what landed at PERIOD)")
     solver_options(p)
-    p.set_defaults(run=cmd_replan)
+    p.set_defaults(run=cmd_replan, output_kind="plan")
 
     p = sub.add_parser("frontier", help="least shortfall and its cost over a budget grid")
     p.add_argument("instance")
@@ -477,7 +483,7 @@ def _add_analysis_commands(sub) -> None:
     p.add_argument("--moves", metavar="GRID", help="moves caps to sweep as well")
     p.add_argument("-o", "--out", required=True, help="folder for frontier.csv")
     solver_options(p)
-    p.set_defaults(run=cmd_frontier)
+    p.set_defaults(run=cmd_frontier, output_kind=None)  # adds frontier.csv, removes nothing
 
     p = sub.add_parser("marginal", help="plan, marginal values of binding limits, reasons")
     p.add_argument("instance")
@@ -488,7 +494,7 @@ def _add_analysis_commands(sub) -> None:
     p.add_argument("--max-resolves", type=COUNT,
                    help="re-solve only this many limits, best LP-dual estimates first")
     solver_options(p)
-    p.set_defaults(run=cmd_marginal)
+    p.set_defaults(run=cmd_marginal, output_kind="plan")
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -512,7 +518,7 @@ def build_parser() -> argparse.ArgumentParser:
                    help="solver threads; with 2, a large model's bound is worked out beside "
                         "the search")
     p.add_argument("-q", "--quiet", action="store_true", help="no progress on stderr")
-    p.set_defaults(run=cmd_plan)
+    p.set_defaults(run=cmd_plan, output_kind="plan")
 
     p = sub.add_parser("verify", help="check a plan folder against its instance")
     p.add_argument("instance")
@@ -564,12 +570,22 @@ def build_parser() -> argparse.ArgumentParser:
 
 def main(argv: Sequence[str] | None = None) -> int:
     args = build_parser().parse_args(argv)
+    from rebalance.files import OutputInUse, output_problem
+
+    # Before any solve: a run refused only at the end would have wasted its time limit.
+    problem = output_problem(args.out, args.output_kind) if hasattr(args, "output_kind") else None
+    if problem is not None:
+        _err(problem)
+        return EXIT_USAGE
     try:
         with stoppable():
             code: int = args.run(args)
     except KeyboardInterrupt:
         _err("stopped from outside; nothing written")
         return EXIT_STOPPED
+    except OutputInUse as exc:  # the output path changed while the run solved
+        _err(str(exc))
+        return EXIT_USAGE
     except Exception as exc:  # the last line of defence: a message, not a traceback
         _err(f"internal error: {type(exc).__name__}: {exc}")
         _err("please report this with the instance that caused it")

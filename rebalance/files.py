@@ -10,7 +10,15 @@ import shutil
 from collections.abc import Iterator
 from pathlib import Path
 
-__all__ = ["sibling_name", "staged_folder"]
+__all__ = ["OutputInUse", "mark_folder", "output_problem", "sibling_name", "staged_folder"]
+
+# Written into every folder staged with a kind: its content names the kind, so a later run
+# replaces only a folder of the same kind that this tool wrote.
+MARKER = ".rebalance-folder"
+
+
+class OutputInUse(Exception):
+    """The output path holds something a write would destroy; nothing was written."""
 
 
 def sibling_name(path: Path) -> Path:
@@ -22,13 +30,53 @@ def sibling_name(path: Path) -> Path:
     return path.with_name(f".{path.name}.{secrets.token_hex(8)}.tmp")
 
 
-@contextlib.contextmanager
-def staged_folder(out_dir: str | Path) -> Iterator[Path]:
-    """Write into a temporary sibling folder, then swap it in: all of it or nothing."""
+def output_problem(out_dir: str | Path, kind: str | None) -> str | None:
+    """Why ``out_dir`` may not be replaced by a folder of ``kind``, or None if it may.
+
+    It may be replaced where it does not exist, is an empty folder, or is a ``kind`` folder
+    this tool wrote (its marker says so; a plan folder from before the marker has its
+    summary.json).  Anything else (an instance folder, a folder of the user's own files, a
+    file) would be destroyed by the swap: one ``-o`` typed as the instance's folder had
+    wiped the instance.  ``kind`` None: only a file in the way is a problem.
+    """
     out = Path(out_dir)
+    if not out.exists():
+        return None
+    if not out.is_dir():
+        return f"{out}: is a file, not a folder; nothing was written"
+    if kind is None or not any(out.iterdir()):
+        return None
+    marker = out / MARKER
+    if marker.is_file():
+        if marker.read_text(encoding="utf-8").strip() == kind:
+            return None
+    elif kind == "plan" and (out / "summary.json").is_file():
+        return None
+    return (f"{out}: already holds files that are not a {kind} folder written by rebalance; "
+            "nothing was written (give a new or empty folder, or remove this one)")
+
+
+def mark_folder(folder: Path, kind: str) -> None:
+    """Mark ``folder`` as a ``kind`` folder this tool wrote (see :func:`output_problem`)."""
+    (folder / MARKER).write_text(kind + "\n", encoding="utf-8")
+
+
+@contextlib.contextmanager
+def staged_folder(out_dir: str | Path, kind: str | None = None) -> Iterator[Path]:
+    """Write into a temporary sibling folder, then swap it in: all of it or nothing.
+
+    With ``kind``, the folder is marked as one, and an existing ``out_dir`` is replaced only
+    where :func:`output_problem` allows it (else :class:`OutputInUse`, before anything is
+    written)."""
+    out = Path(out_dir)
+    problem = output_problem(out, kind) if kind is not None else None
+    if problem is not None:
+        raise OutputInUse(problem)
     out.parent.mkdir(parents=True, exist_ok=True)
     tmp = sibling_name(out)
     tmp.mkdir()
+    if kind is not None:
+        mark_folder(tmp, kind)
     try:
         yield tmp
     except BaseException:

@@ -167,7 +167,7 @@ def write_outputs(result: PlanResult, out_dir: str | Path,
     """Write plan tables and summary.json atomically (and ``extra`` files in the same swap)."""
     if result.plan is None:
         raise ValueError("no plan to write")
-    with staged_folder(out_dir) as folder:
+    with staged_folder(out_dir, kind="plan") as folder:
         write_plan(result.plan, folder)
         (folder / "summary.json").write_text(json.dumps(summary_dict(result), indent=2) + "\n")
         if extra is not None:

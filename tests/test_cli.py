@@ -75,6 +75,7 @@ def test_no_plan_in_time_keeps_the_old_plan(tmp_path, capsys):
     out = tmp_path / "out"
     out.mkdir()
     (out / "keep.txt").write_text("an earlier plan")
+    (out / "summary.json").write_text("{}")  # a plan folder, which a new plan may replace
     code = main(["plan", str(ROOT / "instances" / "demo"), "-o", str(out), "-q",
                  "--time-limit", "0.1"])
     assert code in (EXIT_NO_PLAN_IN_TIME, EXIT_OK)
@@ -190,3 +191,35 @@ def test_a_stopped_solve_from_python_ends_at_once(tmp_path):
     code, out, _, _ = stopped_midway(tmp_path, [sys.executable, "-c", script, "{instance}"],
                                      signal.SIGINT)
     assert code == 0 and out.split()[-1] == "raised"
+
+
+def test_an_output_path_that_holds_other_files_is_refused_before_any_solve(tmp_path, capsys):
+    # -o typed as the instance's own folder had replaced the instance with the plan.
+    from rebalance.cli import EXIT_USAGE
+
+    instance = tmp_path / "tiny"
+    shutil.copytree(DATA / "tiny", instance)
+    (instance / "notes.txt").write_text("my notes\n")
+    before = sorted(p.name for p in instance.iterdir())
+    assert main(["plan", str(instance), "-o", str(instance), "--quiet"]) == EXIT_USAGE
+    assert sorted(p.name for p in instance.iterdir()) == before
+    assert "not a plan folder written by rebalance" in capsys.readouterr().err
+    a_file = tmp_path / "afile"
+    a_file.write_text("keep me\n")
+    for command in (["plan", str(instance)], ["marginal", str(instance)],
+                    ["frontier", str(instance), "--hiring", "1x"]):
+        assert main([*command, "-o", str(a_file), "--quiet"]) == EXIT_USAGE
+        assert a_file.read_text() == "keep me\n"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["afile", "tiny"]  # nothing beside
+
+
+def test_a_plan_folder_is_replaced_by_the_next_run(tmp_path):
+    instance, out = DATA / "tiny", tmp_path / "plan"
+    assert main(["plan", str(instance), "-o", str(out), "--quiet"]) == EXIT_OK
+    assert main(["plan", str(instance), "-o", str(out), "--quiet"]) == EXIT_OK
+    # A plan folder written before folders were marked: known by its summary.json.
+    (out / ".rebalance-folder").unlink()
+    assert main(["plan", str(instance), "-o", str(out), "--quiet"]) == EXIT_OK
+    empty = tmp_path / "empty"
+    empty.mkdir()
+    assert main(["plan", str(instance), "-o", str(empty), "--quiet"]) == EXIT_OK

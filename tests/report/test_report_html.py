@@ -126,7 +126,8 @@ def test_rebuild_command(tmp_path, capsys):
     (folder / "plan.xlsx").unlink()
     assert main(["report", str(folder)]) == 0
     assert (folder / "report.html").is_file() and (folder / "plan.xlsx").is_file()
-    assert not [p.name for p in folder.iterdir() if p.name.startswith(".")]
+    # No temporary file left behind (the folder's own mark stays).
+    assert [p.name for p in folder.iterdir() if p.name.startswith(".")] == [".rebalance-folder"]
     # Without a stored instance path the command asks for one; --instance supplies it.
     summary = json.loads((folder / "summary.json").read_text())
     summary.pop("instance_path")

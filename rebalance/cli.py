@@ -140,8 +140,10 @@ def cmd_demand(args: argparse.Namespace) -> int:
 
 
 def cmd_report(args: argparse.Namespace) -> int:
+    from rebalance.report import format_violations
     from rebalance.report.files import rebuild_reports
     from rebalance.report.inputs import stored_instance_path
+    from rebalance.verify import verify_folder
 
     if not Path(args.plan_dir).is_dir():
         _err(f"{args.plan_dir}: plan folder not found")
@@ -153,8 +155,14 @@ def cmd_report(args: argparse.Namespace) -> int:
     instance = _load(source)
     if instance is None:
         return EXIT_INVALID_INPUT
-    for path in rebuild_reports(args.plan_dir, instance):
+    violations = verify_folder(instance, args.plan_dir)
+    for path in rebuild_reports(args.plan_dir, instance, violations):
         print(f"wrote {path}")
+    if violations:
+        # Written all the same, saying so on its first card: a planner may need to see what
+        # an edited plan looks like.
+        _err(format_violations(violations))
+        return EXIT_VERIFICATION_FAILED
     return EXIT_OK
 
 

@@ -8,7 +8,7 @@ the folder alone (plus the instance), e.g. after analysis tables have been added
 from __future__ import annotations
 
 import json
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from pathlib import Path
 
 from rebalance.instance import Instance
@@ -16,6 +16,7 @@ from rebalance.planning import PlanResult
 from rebalance.report.html import write_html
 from rebalance.report.inputs import ReportData, report_data, report_data_from_folder
 from rebalance.report.workbook import write_workbook
+from rebalance.verify import Violation
 
 __all__ = ["REPORT_FILES", "plan_extras", "rebuild_reports", "write_reports"]
 
@@ -47,6 +48,8 @@ def plan_extras(instance_path: str | Path | None = None) -> Callable[[PlanResult
     return extra
 
 
-def rebuild_reports(plan_dir: str | Path, instance: Instance) -> list[Path]:
-    """Redraw report.html and plan.xlsx of a plan folder, with any analysis tables in it."""
-    return write_reports(report_data_from_folder(plan_dir, instance), plan_dir)
+def rebuild_reports(plan_dir: str | Path, instance: Instance,
+                    violations: Sequence[Violation] | None = None) -> list[Path]:
+    """Redraw report.html and plan.xlsx of a plan folder, with any analysis tables in it,
+    as verified now (``violations``, if just found, else verified here)."""
+    return write_reports(report_data_from_folder(plan_dir, instance, violations), plan_dir)

@@ -9,7 +9,7 @@ as their writers left them, with columns looked up defensively.
 from __future__ import annotations
 
 import json
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -19,6 +19,7 @@ import pandas as pd
 from rebalance.instance import Instance
 from rebalance.plan import Plan, read_plan
 from rebalance.planning import CAUTION, PlanResult, summary_dict
+from rebalance.verify import Violation, verify_folder
 
 __all__ = ["ANALYSIS_FILES", "TABLE_FILES", "ReportData", "RunSummary", "StageSummary",
            "quality_notes", "report_data", "report_data_from_folder", "stored_instance_path"]
@@ -161,8 +162,12 @@ def report_data(result: PlanResult, plan_dir: str | Path | None = None) -> Repor
                       tables=tables, notes=tuple(notes), **analysis)
 
 
-def report_data_from_folder(plan_dir: str | Path, instance: Instance) -> ReportData:
-    """Report inputs from a plan folder written by ``rebalance plan`` (and analysis commands)."""
+def report_data_from_folder(plan_dir: str | Path, instance: Instance,
+                            violations: Sequence[Violation] | None = None) -> ReportData:
+    """Report inputs from a plan folder written by ``rebalance plan`` (and analysis commands).
+
+    ``violations``: the folder's verification against ``instance``, if the caller has just
+    run it (else it is run here)."""
     folder = Path(plan_dir)
     summary_path = folder / "summary.json"
     notes: list[str] = []
@@ -176,6 +181,16 @@ def report_data_from_folder(plan_dir: str | Path, instance: Instance) -> ReportD
     else:
         notes.append("summary.json is missing; run details are unknown")
     raw.setdefault("instance", instance.name)
+    # The report says what the folder's files are now, not what summary.json said when the
+    # plan was written: they may have been edited, lost a table, or belong to another instance.
+    if violations is None:
+        violations = verify_folder(instance, folder)
+    raw["verification"] = {"passed": not violations,
+                           "violations": [str(v) for v in violations]}
+    if violations:
+        notes.append(f"verified again for this report against instance {instance.name}: "
+                     f"{len(violations)} problem(s), listed under the run's details; the "
+                     "figures below are the files' as they stand")
     analysis, tables, more = _analysis_tables(folder)
     return ReportData(instance, read_plan(folder), RunSummary.from_dict(raw), tables=tables,
                       notes=tuple(notes + more), **analysis)

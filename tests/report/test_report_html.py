@@ -140,6 +140,25 @@ def test_rebuild_command(tmp_path, capsys):
     assert "Traceback" not in capsys.readouterr().err
 
 
+def test_a_rebuilt_report_says_what_verification_finds_now_not_what_was_stored(tmp_path,
+                                                                               capsys):
+    # A sweep edited a plan's hires.csv (2 -> 5 hires) and deleted coverage.csv: the rebuilt
+    # reports had said "verified independently", from the summary.json written with the plan.
+    from rebalance.cli import EXIT_VERIFICATION_FAILED, main
+
+    folder = _copy(tmp_path)
+    hires = pd.read_csv(folder / "hires.csv")
+    hires.loc[0, "count"] += 3
+    hires.to_csv(folder / "hires.csv", index=False)
+    assert main(["report", str(folder)]) == EXIT_VERIFICATION_FAILED
+    assert "verification failed" in capsys.readouterr().err
+    page = (folder / "report.html").read_text()
+    assert "FAILED verification" in page and "verified independently" not in page
+    (folder / "coverage.csv").unlink()
+    assert main(["report", str(folder)]) == EXIT_VERIFICATION_FAILED
+    assert "coverage.csv is missing" in (folder / "report.html").read_text()
+
+
 def test_long_tables_are_cut_with_a_pointer_to_the_full_files():
     from rebalance.report.htmlparts import table_html
 

@@ -17,12 +17,12 @@ from pathlib import Path
 from rebalance.instance import Instance
 from rebalance.plan import PLAN_TABLES, Plan, read_plan, records
 
-__all__ = ["Violation", "verify_folder", "verify_plan"]
+__all__ = ["Violation", "unknown_names", "verify_folder", "verify_plan"]
 
 ABS_TOL = 1e-6
 REL_TOL = 1e-6
 # Unknown names listed per table and column before the rest are counted.
-UNKNOWN_NAMES_LISTED = 10
+UNKNOWN_NAMES_LISTED = 5
 
 
 @dataclass(frozen=True)
@@ -54,6 +54,14 @@ def verify_folder(instance: Instance, folder: str | Path) -> list[Violation]:
     summary_path = path / "summary.json"
     if summary_path.exists() and not checker.violations:
         return _check_summary(checker, json.loads(summary_path.read_text()))
+    return checker.violations
+
+
+def unknown_names(instance: Instance, plan: Plan) -> list[Violation]:
+    """Names in ``plan`` (people, offices, skills, periods) that ``instance`` lacks, and
+    missing columns: what must hold before a plan can be read against an instance."""
+    checker = _Checker(instance, plan)
+    checker._references_ok()
     return checker.violations
 
 
@@ -119,8 +127,8 @@ class _Checker:
                 if len(unknown) > UNKNOWN_NAMES_LISTED:
                     # A plan of another instance names thousands; the first few say enough.
                     self.flag("unknown_reference", f"{table}.csv",
-                              f"{len(unknown) - UNKNOWN_NAMES_LISTED:,} more rows with a "
-                              f"{column} that is not in the instance")
+                              f"{len(unknown) - UNKNOWN_NAMES_LISTED:,} more rows whose "
+                              f"{column} is not in the instance")
                 ok = ok and not unknown
         return ok
 

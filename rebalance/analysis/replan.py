@@ -30,7 +30,7 @@ from rebalance.model import ColumnBlock, Model, RowFamily
 from rebalance.plan import Plan, cost_table, coverage_table
 from rebalance.planning import PlanResult, make_plan
 from rebalance.solve import SolveOptions
-from rebalance.verify import verify_plan
+from rebalance.verify import unknown_names, verify_plan
 
 __all__ = ["CHANGE_COLUMNS", "DisruptionCosts", "Replan", "ReplanError", "replan"]
 
@@ -78,6 +78,9 @@ def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
     T = len(instance.periods)
     if not 0 <= at < T:
         raise ReplanError([f"period index {at} is outside the horizon (0..{T - 1})"])
+    unknown = unknown_names(instance, old)
+    if unknown:  # an old plan of another instance, or one edited by hand
+        raise ReplanError([str(v) for v in unknown])
     names = instance.period_names
     ix = {name: t for t, name in enumerate(names)}
     people = {p.person: p for p in instance.staff}

@@ -102,6 +102,19 @@ def test_old_plan_naming_unknown_people_is_rejected(tiny) -> None:
         replan(tiny, broken, 2, exact_options(tiny))
 
 
+def test_old_plan_naming_unknown_offices_is_rejected_not_a_crash(tiny) -> None:
+    # A sweep's replan from another instance's plan had ended in "internal error: ValueError:
+    # 'x' is not in list": offices and skills were not checked, only people and periods.
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    details = base.plan.details.copy()
+    details.loc[details.index[0], "to_office"] = "atlantis"
+    broken = Plan(details, base.plan.reassignments, base.plan.hires, base.plan.work,
+                  base.plan.coverage, base.plan.costs)
+    with pytest.raises(ReplanError, match="to_office 'atlantis' is not in the instance"):
+        replan(tiny, broken, 2, exact_options(tiny))
+
+
 def test_a_hire_under_way_is_not_undone(tiny) -> None:
     # Hand check on tests/data/tiny: the plan hires one reviewer at B from 2027-Q4 (time to
     # hire 1). If B's Q4 review demand vanishes, a re-plan at Q4 must keep the hire (its

@@ -99,6 +99,15 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
                            time.perf_counter() - started, tuple(conflicts))
 
     stages: list[StageResult] = []
+    if model.num_cols == 0:
+        # Nothing to decide (no demand, so no move or hire can help and none was written as
+        # a column): the empty plan is the one plan, and optimal.  HiGHS calls such a model
+        # "Empty", which had read as a solver error.
+        nothing = BackendOutcome(Status.OPTIMAL, np.zeros(0), 0.0, 0.0, "nothing to decide",
+                                 0.0)
+        names = ("weighted",) if options.mode == "weighted" else ("shortfall", "cost")
+        return _finish(model, backend, options, [_stage(n, nothing) for n in names], nothing,
+                       started, deadline)
     if options.mode == "weighted":
         objective = model.cost + options.shortfall_cost * model.shortfall_weight
         say("weighted: least cost + shortfall_cost x weighted shortfall")

@@ -679,3 +679,15 @@ def test_too_few_seats_are_totalled_the_same_by_both_solvers(solver):
                                                        relative_gap=0.0))
     assert result.status is Status.INFEASIBLE and result.plan is None
     assert result.solve.conflicts[0].startswith("seats: over by 7 in all")
+
+
+@pytest.mark.parametrize("solver", ["highs", "cbc"])
+def test_no_demand_at_all_is_an_optimal_empty_plan_not_a_solver_error(solver):
+    # A scenario scaling demand by 0 (found by a sweep): nothing to decide, so the plan that
+    # moves and hires nobody is optimal, and verified, whatever the solver.
+    instance = read_instance(DATA / "tiny")
+    instance = instance.with_changes(demand=tuple(replace(d, fte=0.0)
+                                                  for d in instance.demand))
+    result = make_plan(instance, options_from_instance(instance, solver=solver))
+    assert result.status is Status.OPTIMAL and result.verified and result.plan is not None
+    assert result.plan.weighted_shortfall == 0.0 and result.plan.total_cost == 0.0

@@ -119,7 +119,9 @@ def read_tables(folder: Path) -> tuple[dict[str, Any], dict[str, RawTable], list
     settings: dict[str, Any] = {}
     settings_path = folder / "settings.toml"
     if not folder.is_dir():
-        return {}, {}, [Problem(str(folder), None, None, "instance folder not found")]
+        what = ("is a file; expected an instance folder or an .xlsx workbook"
+                if folder.exists() else "instance folder not found")
+        return {}, {}, [Problem(str(folder), None, None, what)]
     if settings_path.is_file():
         try:
             settings = tomllib.loads(settings_path.read_text(encoding="utf-8"))
@@ -146,6 +148,8 @@ def read_instance(path: str | Path) -> Instance:
         return read_workbook(path)
     folder = Path(path)
     settings, tables, problems = read_tables(folder)
+    if not folder.is_dir():  # nothing was read: checking empty settings would only add noise
+        raise InstanceError(problems)
     return build_instance(folder.name, settings, tables, problems)
 
 
@@ -412,8 +416,12 @@ def _settings_sections(settings: Mapping[str, Any], problems: list[Problem]) -> 
 def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, RawTable],
                    problems: list[Problem]) -> Instance:
     """Validate settings and raw tables into an :class:`Instance` (or raise with all problems)."""
-    periods, periods_per_year = _settings_periods(settings, problems)
-    policy, defaults, objective, solver = _settings_sections(settings, problems)
+    # Settings that could not be read (missing, not TOML) are reported once, not again as
+    # every setting they lack.
+    unread = any(p.file == "settings.toml" and p.column is None for p in problems)
+    settings_problems: list[Problem] = [] if unread else problems
+    periods, periods_per_year = _settings_periods(settings, settings_problems)
+    policy, defaults, objective, solver = _settings_sections(settings, settings_problems)
     period_index = {p.name: i for i, p in enumerate(periods)}
 
     def table(name: str) -> RawTable:

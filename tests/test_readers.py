@@ -42,6 +42,20 @@ def test_bad_input_is_reported_in_full_and_nothing_is_written(case, tmp_path, ca
     assert not list(tmp_path.glob(".out*"))  # no half-written staging folder either
 
 
+def test_a_missing_folder_or_unreadable_settings_is_said_once(tmp_path):
+    # Each had also drawn "settings.toml: horizon: give either periods = ..." (a sweep).
+    for path, expected in ((tmp_path / "nope", "instance folder not found"),
+                           (DATA / "tiny" / "staff.csv", "is a file; expected an instance")):
+        with pytest.raises(InstanceError) as caught:
+            read_instance(path)
+        assert [p.message for p in caught.value.problems] == [
+            next(p.message for p in caught.value.problems if expected in p.message)]
+    (tmp_path / "empty").mkdir()
+    with pytest.raises(InstanceError) as caught:
+        read_instance(tmp_path / "empty")
+    assert all(p.message == "file is missing" for p in caught.value.problems)
+
+
 def test_all_problems_come_at_once():
     with pytest.raises(InstanceError) as caught:
         read_instance_with_many_problems()

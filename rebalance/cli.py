@@ -419,8 +419,13 @@ def cmd_marginal(args: argparse.Namespace) -> int:
     values = marginal_values(base, _analysis_options(instance, args),
                              Steps(budget=args.budget_step), workers=args.workers,
                              max_resolves=args.max_resolves)
-    print(values.table[["rank", "limit", "where", "step", "shortfall_reduction", "cost_change",
-                        "estimate_shortfall_reduction", "status"]].to_string(index=False))
+    if len(values.table):
+        print(values.table[["rank", "limit", "where", "step", "shortfall_reduction",
+                            "cost_change", "estimate_shortfall_reduction",
+                            "status"]].to_string(index=False))
+    else:
+        print("no limit binds the plan, so there is nothing to rank; "
+              "marginal_values.csv is written with its header only")
     return _write_analysis_plan(args, base, instance, {"marginal_values.csv": values.table},
                                 args.instance, "plan, marginal_values.csv and reasons.csv")
 

@@ -130,3 +130,16 @@ def test_max_resolves_takes_the_best_estimates_first(tiny) -> None:
     finite = table["estimate_shortfall_reduction"].dropna()
     if len(finite):
         assert solved["estimate_shortfall_reduction"].iloc[0] == finite.max()
+
+
+def test_limits_not_re_solved_follow_by_their_estimate_and_claim_no_verdict(tiny) -> None:
+    # A sweep found the tail of the ranking in the order the limits were found (an estimate
+    # of 1.9 ranked above one of 31.1) and "verified False" on rows never solved.
+    base = solve_verified(tiny)
+    table = marginal_values(base, exact_options(tiny), workers=1, max_resolves=1).table
+    tail = table[table["status"] == "not re-solved"]
+    assert len(tail) >= 2, "tiny should leave more than one limit unsolved here"
+    estimates = tail["estimate_shortfall_reduction"].dropna().tolist()
+    assert estimates == sorted(estimates, reverse=True)
+    assert tail["verified"].isna().all()
+    assert list(table["rank"]) == list(range(1, len(table) + 1))

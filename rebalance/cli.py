@@ -374,7 +374,12 @@ def cmd_replan(args: argparse.Namespace) -> int:
 
 
 def cmd_frontier(args: argparse.Namespace) -> int:
-    from rebalance.analysis.frontier import BudgetGrid, budget_frontier, parse_grid
+    from rebalance.analysis.frontier import (
+        BudgetGrid,
+        budget_frontier,
+        parse_grid,
+        uncapped_years,
+    )
     from rebalance.analysis.output import write_table
     from rebalance.files import mark_folder
 
@@ -390,16 +395,22 @@ def cmd_frontier(args: argparse.Namespace) -> int:
     if args.moves and moves_factor != factor:
         _err("grid: give --hiring and --moves both as factors (x) or both as amounts")
         return EXIT_USAGE
-    frontier = budget_frontier(instance, BudgetGrid(hiring, moves, factor),
-                               _analysis_options(instance, args), workers=args.workers)
+    grid = BudgetGrid(hiring, moves, factor)
+    for year in uncapped_years(instance, grid):
+        _err(f"warning: {year} has no cap to scale; every point leaves it uncapped")
+    frontier = budget_frontier(instance, grid, _analysis_options(instance, args),
+                               workers=args.workers)
     out = Path(args.out)
     fresh = not out.exists() or not any(out.iterdir())
     path = write_table(frontier.table, out / "frontier.csv")
     if fresh:
         # A folder it made is an analysis folder: a plan or analysis may join it later.
         mark_folder(out, "plan")
-    print(frontier.table[["point", "hiring_budget", "moves_budget", "status", "gap",
-                          "weighted_shortfall", "total_cost", "knee"]].to_string(index=False))
+    shown = frontier.table[["point", "hiring_budget", "moves_budget", "status", "gap",
+                            "weighted_shortfall", "total_cost", "knee"]]
+    print(shown.astype(object).where(shown.notna(), "").to_string(index=False))
+    print(f"\nhiring_budget and moves_budget: {frontier.table['budget_unit'].iloc[0]}; an "
+          "empty moves_budget keeps the instance's caps")
     print(f"\nwrote {path}")
     failed = [r for r in frontier.results if r.plan is not None and not r.verified]
     return EXIT_VERIFICATION_FAILED if failed else EXIT_OK

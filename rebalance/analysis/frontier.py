@@ -22,13 +22,30 @@ from rebalance.planning import PlanResult
 from rebalance.solve import SolveOptions
 
 __all__ = ["FRONTIER_COLUMNS", "BudgetGrid", "Frontier", "budget_frontier", "find_knee",
-           "mark_knees", "parse_grid", "with_budgets"]
+           "mark_knees", "parse_grid", "uncapped_years", "with_budgets"]
 
 FRONTIER_COLUMNS = (
-    "point", "hiring_budget", "moves_budget", "status", "verified", "gap",
+    "point", "hiring_budget", "moves_budget", "budget_unit", "status", "verified", "gap",
     "weighted_shortfall", "shortfall_fte_periods", "total_cost", "hiring_spend", "moves_spend",
     "hires", "detail_periods", "reassignments", "knee",
 )
+
+
+AMOUNT_UNIT = "money, each year"
+FACTOR_UNIT = "times each year's cap"
+
+
+def uncapped_years(instance: Instance, grid: BudgetGrid) -> list[str]:
+    """Years a factor grid cannot change: no hiring cap (or no moves cap, where swept), so
+    every point leaves them uncapped."""
+    if not grid.as_factor:
+        return []
+    out = []
+    for year in instance.years:
+        budget = instance.budget(year)
+        if budget is None or budget.hiring is None or (grid.moves and budget.moves is None):
+            out.append(year)
+    return out
 
 
 @dataclass(frozen=True)
@@ -130,6 +147,8 @@ def budget_frontier(instance: Instance, grid: BudgetGrid, options: SolveOptions,
         plan = result.plan
         row: dict[str, object] = {
             "point": i + 1, "hiring_budget": h, "moves_budget": m,
+            # The grid's values are money only without the x: say which, beside them.
+            "budget_unit": FACTOR_UNIT if grid.as_factor else AMOUNT_UNIT,
             "status": result.status.value, "verified": result.verified, "gap": result.solve.gap,
         }
         if plan is not None:

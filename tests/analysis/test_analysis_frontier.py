@@ -86,3 +86,19 @@ def test_pool_gives_the_same_points_as_one_process(tiny) -> None:
     budget = tiny.budgets[0]
     assert budget.hiring is not None
     assert with_budgets(tiny, 0.5, None, True).budgets[0].hiring == budget.hiring / 2
+
+
+def test_a_factor_grid_says_its_unit_and_names_years_it_cannot_cap(tiny) -> None:
+    # A sweep read 0.5 and 1.0 under hiring_budget as money, and on a year with no cap every
+    # factor gave the same plan without a word.
+    from dataclasses import replace
+
+    from rebalance.analysis.frontier import FACTOR_UNIT, uncapped_years
+
+    grid = BudgetGrid((0.5, 1.0), as_factor=True)
+    table = budget_frontier(tiny, grid, exact_options(tiny), workers=1).table
+    assert (table["budget_unit"] == FACTOR_UNIT).all()
+    assert uncapped_years(tiny, grid) == []
+    uncapped = tiny.with_changes(budgets=tuple(replace(b, hiring=None) for b in tiny.budgets))
+    assert uncapped_years(uncapped, grid) == ["2027"]
+    assert uncapped_years(uncapped, BudgetGrid((1000.0,))) == []  # an amount caps every year

@@ -162,6 +162,9 @@ def read_scenario(path: str | Path, instance: Instance) -> Scenario:
             priority=(None if entry.get("priority") is None else _number(
                 entry.get("priority"), 1.0, f"{at}.priority", problems, file, minimum=0.0)),
         )
+        problem = _inert(change, instance)
+        if problem is not None:
+            problems.append(Problem(file, None, at, problem))
         demand.append(change)
     budget: list[BudgetChange] = []
     years = list(instance.years)
@@ -187,6 +190,20 @@ def read_scenario(path: str | Path, instance: Instance) -> Scenario:
     if problems:
         raise ScenarioError(problems)
     return Scenario(name.strip(), description.strip(), tuple(demand), tuple(budget))
+
+
+def _inert(change: DemandChange, instance: Instance) -> str | None:
+    """Why a [[demand]] table would leave the demand as it is, or None.  A scenario that
+    silently changed nothing had been solved and compared as if it were a surge."""
+    if change.multiplier == 1.0 and change.add_fte == 0.0:
+        # priority only labels the rows add_fte creates
+        return "changes nothing; expected a multiplier other than 1, or add_fte"
+    adds_rows = change.add_fte > 0 and change.offices is not None and change.skills is not None
+    if not adds_rows and not any(_selected(change, d.office, d.skill, d.period)
+                                 for d in instance.demand):
+        return ("selects no demand row of the instance; name offices, skills and periods "
+                "that have demand, or give offices, skills and add_fte to add rows")
+    return None
 
 
 def _selected(change: DemandChange, office: str, skill: str, period: int) -> bool:

@@ -50,6 +50,22 @@ def test_broken_scenario_lists_every_problem(tmp_path: Path, tiny) -> None:
         assert any(needle in t for t in text), (needle, text)
 
 
+def test_a_demand_table_that_changes_nothing_is_an_error(tmp_path: Path, tiny) -> None:
+    # A sweep's scenarios that selected no demand row, or only restated multiplier = 1, had
+    # been solved and compared as if they were surges.
+    path = tmp_path / "inert.toml"
+    path.write_text('name = "inert"\n'
+                    '[[demand]]\noffices = ["B"]\nskills = ["intake"]\nmultiplier = 2\n'
+                    '[[demand]]\nmultiplier = 1.0\npriority = 3\n'
+                    '[[demand]]\noffices = ["B"]\nskills = ["intake"]\nadd_fte = 1.0\n')
+    with pytest.raises(ScenarioError) as caught:
+        read_scenario(path, tiny)
+    text = [str(p) for p in caught.value.problems]
+    assert len(text) == 2, text  # the third adds B's intake rows: a change
+    assert "demand[1]: selects no demand row" in text[0]
+    assert "demand[2]: changes nothing" in text[1]
+
+
 def test_apply_scenario_by_hand(tiny) -> None:
     # Hand arithmetic on tests/data/tiny/demand.csv: B review is 2.0 FTE in 2027-Q2.
     scenario = Scenario("s", "", (

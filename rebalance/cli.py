@@ -357,13 +357,15 @@ def cmd_replan(args: argparse.Namespace) -> int:
              "data (from the re-plan period on, the new plan repairs them)")
     for note in out.notes:
         _err(f"note: {note}")
-    print(out.summary.to_string(index=False))
-    print(f"\n{len(out.changes)} change(s) against the old plan from {args.at} on")
-    if len(out.changes):
-        print(out.changes.head(30).to_string(index=False))
+    # No new plan: no table of it (it had printed as NaN and "0 change(s)" before the reason).
     code = _plan_failed(out.result)
     if code is not None:
         return code
+    # Two decimals: FTE-periods and money, where 2e-07 is a solver's noise.
+    print(out.summary.to_string(index=False, float_format=lambda v: f"{v:,.2f}"))
+    print(f"\n{len(out.changes)} change(s) against the old plan from {args.at} on")
+    if len(out.changes):
+        print(out.changes.head(30).to_string(index=False))
 
     # Under a scenario the plan belongs to the changed data, not to the instance folder:
     # record no instance path, so 'rebalance report' asks for one rather than mislead.

@@ -130,12 +130,12 @@ def cmd_demand(args: argparse.Namespace) -> int:
         for problem in exc.problems:
             _err(("  warning: " if problem.is_warning else "  ") + str(problem))
         return EXIT_INVALID_INPUT
-    from rebalance.planning import CAUTION
+    from rebalance.planning import FORECAST_CAUTION
 
     report = write_demand(result, args.out, args.report)
     print(format_demand_summary(result, report))
     print(f"demand written to {Path(args.out) / 'demand.csv'} (trail: demand_trace.csv)")
-    print("\nCaution: " + CAUTION)
+    print("\nCaution: " + FORECAST_CAUTION)
     return EXIT_OK
 
 
@@ -192,8 +192,9 @@ def cmd_generate(args: argparse.Namespace) -> int:
           f"{spec.periods} periods, {generated.groups} groups of interchangeable people")
     print(f"  short: {', '.join(generated.short_offices)}")
     print(f"  surplus: {', '.join(generated.surplus_offices)}")
-    print(f"  surge: {', '.join(generated.surge_offices)} in "
-          f"{' and '.join(generated.surge_periods)}")
+    if spec.surge_factor != 1.0:  # a factor of 1 leaves the demand as it was: no surge
+        print(f"  surge: {', '.join(generated.surge_offices)} in "
+              f"{' and '.join(generated.surge_periods)}")
     return EXIT_OK
 
 

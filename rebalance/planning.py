@@ -145,6 +145,9 @@ def summary_dict(result: PlanResult) -> dict[str, Any]:
 
 CAUTION = ("This plan supports a decision; it does not make one. Personnel rules, agreements "
            "with staff representatives and local law govern any detail, reassignment or hire.")
+# After a demand forecast, which no plan has used yet.
+FORECAST_CAUTION = ("This forecast supports a decision; it does not make one. It is an "
+                    "estimate from past work, and a plan built on it is only as good as it is.")
 
 
 # Measured (writing the tables, summary, workbook and report of a generated instance's plan):

@@ -95,6 +95,8 @@ class RawTable:
     columns: tuple[str, ...]
     rows: tuple[dict[str, str], ...]
     first_row_number: int = 2
+    # Row numbers with filled cells beyond the header's columns, which no column reads.
+    overlong_rows: tuple[int, ...] = ()
 
 
 def read_csv_table(path: Path) -> RawTable:
@@ -105,12 +107,15 @@ def read_csv_table(path: Path) -> RawTable:
         except StopIteration:
             return RawTable(path.name, (), ())
         rows = []
-        for cells in reader:
+        overlong = []
+        for number, cells in enumerate(reader, 2):
             if not any(c.strip() for c in cells):
                 cells = []  # blank line: keep numbering, drop content
+            if any(c.strip() for c in cells[len(header):]):
+                overlong.append(number)
             padded = list(cells) + [""] * (len(header) - len(cells))
             rows.append({h: padded[i].strip() for i, h in enumerate(header)})
-    return RawTable(path.name, tuple(header), tuple(rows))
+    return RawTable(path.name, tuple(header), tuple(rows), overlong_rows=tuple(overlong))
 
 
 def read_tables(folder: Path) -> tuple[dict[str, Any], dict[str, RawTable], list[Problem]]:
@@ -418,6 +423,11 @@ def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, 
     """Validate settings and raw tables into an :class:`Instance` (or raise with all problems)."""
     # Settings that could not be read (missing, not TOML) are reported once, not again as
     # every setting they lack.
+    for raw in tables.values():
+        for number in raw.overlong_rows:
+            problems.append(Problem(raw.label, number, None,
+                                    f"more cells than the header's {len(raw.columns)} columns; "
+                                    "expected one value per column (a comma inside a value?)"))
     unread = any(p.file == "settings.toml" and p.column is None for p in problems)
     settings_problems: list[Problem] = [] if unread else problems
     periods, periods_per_year = _settings_periods(settings, settings_problems)
@@ -613,8 +623,9 @@ def _read_demand(table: RawTable, problems: list[Problem], offices: Mapping[str,
             continue
         key = (office, skill, period)
         if key in seen:
-            rows.error(None, f"demand for office '{office}', skill '{skill}', period "
-                       f"'{period}' is listed twice (first at row {seen[key]})")
+            rows.error("office, skill, period",
+                       f"demand for office '{office}', skill '{skill}', period '{period}' is "
+                       f"listed twice (first at row {seen[key]})")
             continue
         seen[key] = rows.row_number
         t = period_index[period]
@@ -644,7 +655,8 @@ def _read_move_costs(table: RawTable | None, problems: list[Problem],
         if a is None or b is None:
             continue
         if (a, b) in out:
-            rows.error(None, f"move costs from '{a}' to '{b}' are listed twice")
+            rows.error("from_location, to_location",
+                       f"move costs from '{a}' to '{b}' are listed twice")
             continue
         out[(a, b)] = MoveCost(detail, relocation)
     return out
@@ -663,7 +675,7 @@ def _read_vacancies(table: RawTable | None, problems: list[Problem],
         if office is None or skill is None or count is None:
             continue
         if (office, skill) in out:
-            rows.error(None, f"vacancies for '{office}', '{skill}' are listed twice")
+            rows.error("office, skill", f"vacancies for '{office}', '{skill}' are listed twice")
             continue
         out[(office, skill)] = int(count)
     return out
@@ -690,7 +702,7 @@ def _read_attrition(table: RawTable | None, problems: list[Problem],
         if skill is None or rate is None:
             continue
         if (skill, office) in out:
-            rows.error(None, f"attrition for '{skill}' at '{office or 'any office'}' is "
+            rows.error("skill, office", f"attrition for '{skill}' at '{office or 'any office'}' is "
                        "listed twice")
             continue
         out[(skill, office)] = rate

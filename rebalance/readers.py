@@ -421,13 +421,13 @@ def _settings_sections(settings: Mapping[str, Any], problems: list[Problem]) -> 
 def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, RawTable],
                    problems: list[Problem]) -> Instance:
     """Validate settings and raw tables into an :class:`Instance` (or raise with all problems)."""
-    # Settings that could not be read (missing, not TOML) are reported once, not again as
-    # every setting they lack.
     for raw in tables.values():
         for number in raw.overlong_rows:
             problems.append(Problem(raw.label, number, None,
                                     f"more cells than the header's {len(raw.columns)} columns; "
                                     "expected one value per column (a comma inside a value?)"))
+    # Settings that could not be read (missing, not TOML) are reported once, not again as
+    # every setting they lack.
     unread = any(p.file == "settings.toml" and p.column is None for p in problems)
     settings_problems: list[Problem] = [] if unread else problems
     periods, periods_per_year = _settings_periods(settings, settings_problems)

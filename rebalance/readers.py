@@ -99,6 +99,16 @@ class RawTable:
     overlong_rows: tuple[int, ...] = ()
 
 
+def overlong_problems(table: RawTable) -> list[Problem]:
+    """A problem for each row of ``table`` with filled cells past its header: a comma inside
+    a number (``1,234``) splits it, and the cell read would be only its first part."""
+    hint = " (a comma inside a value?)" if table.label.endswith(".csv") else ""
+    return [Problem(table.label, number, None,
+                    f"more cells than the header's {len(table.columns)} columns; expected one "
+                    f"value per column{hint}")
+            for number in table.overlong_rows]
+
+
 def read_csv_table(path: Path) -> RawTable:
     with path.open(newline="", encoding="utf-8-sig") as handle:
         reader = csv.reader(handle)
@@ -422,10 +432,7 @@ def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, 
                    problems: list[Problem]) -> Instance:
     """Validate settings and raw tables into an :class:`Instance` (or raise with all problems)."""
     for raw in tables.values():
-        for number in raw.overlong_rows:
-            problems.append(Problem(raw.label, number, None,
-                                    f"more cells than the header's {len(raw.columns)} columns; "
-                                    "expected one value per column (a comma inside a value?)"))
+        problems += overlong_problems(raw)
     # Settings that could not be read (missing, not TOML) are reported once, not again as
     # every setting they lack.
     unread = any(p.file == "settings.toml" and p.column is None for p in problems)

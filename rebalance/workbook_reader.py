@@ -58,6 +58,9 @@ class _Sheet:
     columns: tuple[str, ...]
     rows: tuple[dict[str, str], ...]
     raw_rows: tuple[tuple[Any, ...], ...]  # typed cell values, for the settings sheet
+    overlong_rows: tuple[int, ...] = ()  # rows with filled cells past the header
+    # (row, column) of formulas the file holds no value for: they would read as blank.
+    unsaved_formulas: tuple[tuple[int, str], ...] = ()
 
 
 def read_workbook(path: str | Path) -> Instance:
@@ -70,7 +73,7 @@ def read_workbook(path: str | Path) -> Instance:
     if not book_path.is_file():
         raise InstanceError([Problem(book, None, None, "workbook not found")])
     try:
-        sheets = _load_sheets(book_path)
+        sheets, problems = _load_sheets(book_path)
     except Exception as exc:  # openpyxl raises many kinds for a file that is not a workbook
         raise InstanceError([Problem(book, None, None,
                                      f"cannot be read as an .xlsx workbook ({exc})")]) from None
@@ -78,12 +81,20 @@ def read_workbook(path: str | Path) -> Instance:
     def label(sheet: str) -> str:
         return f"{book}[{sheet}]"
 
-    problems: list[Problem] = []
+    problems = [replace(p, file=label(p.file)) for p in problems]
+    for name, read in sheets.items():
+        for row, column in read.unsaved_formulas:
+            # Blank would mean "no limit" in several columns: never read it as that.
+            problems.append(Problem(label(name), row, column, "a formula whose value the file "
+                                    "does not hold (the workbook was written by a program "
+                                    "that does not calculate); open and save it in a "
+                                    "spreadsheet program, or type the value"))
     tables: dict[str, RawTable] = {}
     for name in REQUIRED_TABLES + OPTIONAL_TABLES:
         sheet = sheets.get(name)
         if sheet is not None:
-            tables[name] = RawTable(label(name), sheet.columns, sheet.rows)
+            tables[name] = RawTable(label(name), sheet.columns, sheet.rows,
+                                    overlong_rows=sheet.overlong_rows)
         elif name in REQUIRED_TABLES:
             problems.append(Problem(label(name), None, None, "sheet is missing"))
     known = set(REQUIRED_TABLES + OPTIONAL_TABLES + (SETTINGS_SHEET, PERIODS_SHEET))
@@ -118,27 +129,47 @@ def read_workbook(path: str | Path) -> Instance:
 # cells and sheets
 
 
-def _load_sheets(path: Path) -> dict[str, _Sheet]:
+def _load_sheets(path: Path) -> tuple[dict[str, _Sheet], list[Problem]]:
+    """The sheets by their names as the reader knows them (trimmed, lower case), and the
+    problems of the book as a whole (``Problem.file`` holds the sheet's own title)."""
     from openpyxl import load_workbook  # imported here: only workbook users pay for it
 
-    # read_only streams rows; data_only gives a formula's cached value, not its text.
+    # read_only streams rows; data_only gives a formula's cached value, not its text, so the
+    # text comes from a second pass, for cells that have no cached value.
     wb = load_workbook(path, read_only=True, data_only=True)
+    formulas = load_workbook(path, read_only=True, data_only=False)
+    problems: list[Problem] = []
     try:
         out: dict[str, _Sheet] = {}
-        for ws in wb.worksheets:
+        for ws, ws_text in zip(wb.worksheets, formulas.worksheets, strict=True):
             values = [tuple(r) for r in ws.iter_rows(values_only=True)]
             header = [_text(c) for c in values[0]] if values else []
             while header and header[-1] == "":
                 header.pop()
-            rows = []
-            for cells in values[1:]:
+            rows, overlong = [], []
+            for number, cells in enumerate(values[1:], 2):
                 padded = list(cells) + [None] * (len(header) - len(cells))
                 rows.append({h: _text(padded[i]) for i, h in enumerate(header) if h})
-            out[ws.title.strip().lower()] = _Sheet(tuple(header), tuple(rows),
-                                                   tuple(values[1:]))
-        return out
+                if any(_text(c) for c in cells[len(header):]):
+                    overlong.append(number)
+            unsaved = [
+                (number, header[i] if i < len(header) and header[i] else f"column {i + 1}")
+                for number, (cells, texts) in enumerate(
+                    zip(values, ws_text.iter_rows(values_only=True), strict=False), 1)
+                for i, (value, text) in enumerate(zip(cells, texts, strict=False))
+                if value is None and isinstance(text, str) and text.startswith("=")]
+            key = ws.title.strip().lower()
+            if key in out:
+                problems.append(Problem(ws.title, None, None, "a second sheet of this name "
+                                        "(names are read trimmed and in lower case); expected "
+                                        "one sheet per table"))
+                continue
+            out[key] = _Sheet(tuple(header), tuple(rows), tuple(values[1:]), tuple(overlong),
+                              tuple(unsaved))
+        return out, problems
     finally:
         wb.close()
+        formulas.close()
 
 
 def _text(value: Any) -> str:

@@ -19,7 +19,14 @@ from typing import Any
 
 import pandas as pd
 
-from rebalance.readers import InstanceError, Problem, RawTable, TableRows, read_csv_table
+from rebalance.readers import (
+    InstanceError,
+    Problem,
+    RawTable,
+    TableRows,
+    overlong_problems,
+    read_csv_table,
+)
 
 __all__ = [
     "DemandSettings",
@@ -228,6 +235,7 @@ def read_history(folder: str | Path, offices: set[str] | None, skills: set[str] 
         file = path / f"{stem}.csv"
         if file.is_file():
             tables[stem] = read_csv_table(file)
+            problems += overlong_problems(tables[stem])
         elif needed:
             problems.append(Problem(f"{stem}.csv", None, None, "file is missing"))
             tables[stem] = RawTable(f"{stem}.csv", required, ())

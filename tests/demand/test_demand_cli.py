@@ -126,6 +126,21 @@ def test_bad_history_lists_every_problem_and_writes_nothing(tmp_path: Path, caps
     assert (instance / "demand.csv").read_text() == "office,skill,period,fte\n"
 
 
+def test_a_number_split_by_a_comma_is_an_error_not_its_first_part(tmp_path: Path, capsys) -> None:  # type: ignore[no-untyped-def]
+    # A sweep wrote hours "11,5" unquoted: the row gained a cell and 11 was read silently.
+    history = tmp_path / "history"
+    shutil.copytree(DEMO_HISTORY, history)
+    lines = (history / "time_records.csv").read_text().splitlines()
+    cells = lines[1].split(",")
+    lines[1] = ",".join([*cells[:-1], "11", "5"])  # row 2's hours, decimal comma
+    (history / "time_records.csv").write_text("\n".join(lines) + "\n")
+    instance = _instance_without_demand(tmp_path / "instance")
+    assert main(["demand", str(history), "-o", str(instance)]) == EXIT_INVALID_INPUT
+    assert ("time_records.csv:2: more cells than the header's 6 columns"
+            in capsys.readouterr().err)
+    assert not (instance / "demand.csv").exists()
+
+
 def test_missing_months_and_files_are_reported(tmp_path: Path, capsys) -> None:  # type: ignore[no-untyped-def]
     history = tmp_path / "history"
     shutil.copytree(DEMO_HISTORY, history)

@@ -147,6 +147,26 @@ def test_all_problems_at_once_and_missing_sheets(tmp_path):
     assert typo and typo[0].is_warning and "solver.nmae" in typo[0].message
 
 
+def test_what_a_blank_would_hide_is_an_error(tmp_path):
+    # A sweep's workbooks: a formula saved without its value (openpyxl writes none) read as
+    # blank, which means "no cap"; a second sheet named "Budget " replaced "budget"; a cell
+    # past the header was dropped.
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    wb["budget"]["B2"] = "=40000+1"
+    wb["staff"]["H3"] = "oops"
+    wb.copy_worksheet(wb["budget"]).title = "Budget "
+    wb.save(book)
+    with pytest.raises(InstanceError) as caught:
+        read_workbook(book)
+    text = [str(p) for p in caught.value.problems if not p.is_warning]
+    assert any(t.startswith("tiny.xlsx[budget]:2: hiring: a formula whose value the file "
+                            "does not hold") for t in text), text
+    assert "tiny.xlsx[staff]:3: more cells than the header's 7 columns; expected one value " \
+           "per column" in text
+    assert any(t.startswith("tiny.xlsx[Budget ]: a second sheet of this name") for t in text)
+
+
 def test_not_a_workbook(tmp_path):
     fake = tmp_path / "fake.xlsx"
     fake.write_text("office,location\n")

@@ -132,6 +132,8 @@ def cmd_demand(args: argparse.Namespace) -> int:
         return EXIT_INVALID_INPUT
     from rebalance.planning import FORECAST_CAUTION
 
+    for warning in result.warnings:
+        _err(f"warning: {warning}")
     report = write_demand(result, args.out, args.report)
     print(format_demand_summary(result, report))
     print(f"demand written to {Path(args.out) / 'demand.csv'} (trail: demand_trace.csv)")

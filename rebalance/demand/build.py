@@ -10,7 +10,7 @@ from __future__ import annotations
 import os
 import re
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
@@ -57,6 +57,8 @@ class DemandResult:
     quality: QualityResult
     periods: tuple[Period, ...]
     period_kind: str = "month"  # of the time records' reporting periods
+    # Input that reads, but leaves work out of the demand or stretches the forecast.
+    warnings: tuple[Problem, ...] = ()
 
 
 def _instance_context(folder: Path, problems: list[Problem]) -> tuple[
@@ -228,7 +230,52 @@ def run_demand(history_dir: str | Path, instance_dir: str | Path) -> DemandResul
     errors = [p for p in problems if not p.is_warning]
     if errors or history is None:
         raise HistoryError(_collapse(errors) + [p for p in problems if p.is_warning])
-    return build_demand(history, periods)
+    warnings = [p for p in problems if p.is_warning] + _unused_work(history, periods)
+    return replace(build_demand(history, periods), warnings=tuple(warnings))
+
+
+# Months past the newest arrivals a forecast reaches before a warning: a seasonal method's
+# fit says little three years out (common practice; no source).
+FAR_MONTHS = 36
+
+
+def _unused_work(history: History, periods: tuple[Period, ...]) -> list[Problem]:
+    """Warnings for work the history shows but the demand leaves out, and for a forecast
+    that reaches far past the history: each had passed without a word (a sweep)."""
+    out: list[Problem] = []
+    records = history.records[history.records["activity"].isin(history.case_types)]
+    arrivals = history.arrivals
+    cases: dict[tuple[str, str], float] = {
+        (str(key[0]), str(key[1])): float(n)  # type: ignore[index]
+        for key, n in arrivals.groupby(["office", "case_type"])["count"].sum().items()}
+    booked = records.groupby(["office", "activity"])["hours"].sum()
+    for key, hours in booked.items():
+        office, case_type = str(key[0]), str(key[1])  # type: ignore[index]
+        if (office, case_type) not in cases:
+            out.append(Problem("time_records.csv", None, "office",
+                               f"office '{office}' books {hours:,.0f} hours to case type "
+                               f"'{case_type}' but case_arrivals.csv has no such series; "
+                               "those hours are left out of the demand", is_warning=True))
+        elif cases[(office, case_type)] == 0:
+            out.append(Problem("case_arrivals.csv", None, "count",
+                               f"office '{office}', case type '{case_type}' has no cases in "
+                               f"its history but {hours:,.0f} hours booked to it; it is "
+                               "forecast at zero cases and its hours are left out",
+                               is_warning=True))
+    with_hours = set(records["activity"].unique())
+    for case_type in sorted(set(arrivals["case_type"].unique()) - with_hours):
+        out.append(Problem("time_records.csv", None, "activity",
+                           f"case type '{case_type}' has arrivals but no hours booked to it; "
+                           "it adds no demand", is_warning=True))
+    if periods and all(QUARTER.match(p.name) for p in periods):
+        last_plan = max(_quarter_months(p.name)[-1] for p in periods)
+        if last_plan - history.last_month > FAR_MONTHS:
+            out.append(Problem("case_arrivals.csv", None, "month",
+                               f"the plan's last month, {month_name(last_plan)}, is "
+                               f"{last_plan - history.last_month} months past the newest "
+                               f"arrivals ({month_name(history.last_month)}); a forecast "
+                               "that far out is a guess", is_warning=True))
+    return out
 
 
 def _collapse(problems: list[Problem], keep: int = 10) -> list[Problem]:

@@ -192,3 +192,28 @@ def test_written_files_have_the_mode_of_any_new_file(demand_run: Path, tmp_path:
         assert (demand_run / name).stat().st_mode == (tmp_path / "plain.csv").stat().st_mode
     assert (demand_run / "demand_report").stat().st_mode == (tmp_path / "plain").stat().st_mode
     assert not [p.name for p in demand_run.iterdir() if p.name.startswith(".")]
+
+
+def test_work_the_demand_leaves_out_is_said_and_a_series_of_no_cases_takes_the_pool(
+        tmp_path: Path) -> None:
+    # A sweep: an all-zero series got a standard 23 times the pooled one ((h + k pooled) / k
+    # with no cases) and its booked hours left the demand without a word; a case type with no
+    # hours booked vanished silently too.
+    from rebalance.demand import run_demand
+
+    history = tmp_path / "history"
+    shutil.copytree(DEMO_HISTORY, history)
+    arrivals = pd.read_csv(history / "case_arrivals.csv")
+    zero = (arrivals["office"] == "aldercombe") & (arrivals["case_type"] == "minor_permit")
+    arrivals.loc[zero, "count"] = 0
+    arrivals.to_csv(history / "case_arrivals.csv", index=False)
+    records = pd.read_csv(history / "time_records.csv")
+    records[records["activity"] != "appeal"].to_csv(history / "time_records.csv", index=False)
+    result = run_demand(history, _instance_without_demand(tmp_path / "instance"))
+    said = [str(w) for w in result.warnings]
+    assert any("'aldercombe', case type 'minor_permit' has no cases" in w for w in said), said
+    assert any("case type 'appeal' has arrivals but no hours booked" in w for w in said), said
+    table = result.standards.table
+    row = table[(table["office"] == "aldercombe") & (table["case_type"] == "minor_permit")]
+    assert len(row) and (row["weight"] == 0).all()
+    assert (row["hours_per_case"] - row["pooled_hours_per_case"]).abs().max() < 1e-9

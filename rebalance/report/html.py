@@ -106,7 +106,7 @@ def _heat(data: ReportData) -> dict[str, Any]:
             row.append({"shortfall": round(float(here["shortfall_fte"].sum()), 4),
                         "weighted": round(float(here["weighted_shortfall"].sum()), 4),
                         "demand": round(float(here["demand_fte"].sum()), 4),
-                        "skills": worst})
+                        "skills": worst, "skills_short": len(short)})
         cells.append(row)
     return {"offices": offices, "periods": periods, "cells": cells}
 
@@ -193,7 +193,8 @@ def _headline(data: ReportData) -> str:
                 None: "verification unknown"}[run.verified]
     cards = [
         card("Weighted shortfall", num(plan.weighted_shortfall),
-              f"FTE-periods; {share:.1%} of {num(demand, 0)} demanded not covered",
+              f"FTE-periods; unweighted {num(plan.shortfall_fte)}, {share:.1%} of "
+              f"{num(demand, 0)} demanded",
               "warn" if share > 0.02 else "ok"),
         card("New money", compact_money(plan.total_cost), money_note),
         card("Hires", f"{plan.hires_count():,}",

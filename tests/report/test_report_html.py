@@ -232,3 +232,19 @@ def test_a_wide_gap_is_flagged_at_the_top(tmp_path):
     page = render_html(report_data_from_folder(folder, instance))
     assert "a gap of 40%" in page and "a better plan may exist" in page
     assert page.index("a better plan may exist") < page.index('id="glance"')
+
+
+def test_the_heat_map_says_how_many_skills_are_short_beside_the_worst_three():
+    # A sweep: the tip said "skills short: a, b, c" where eight were short.
+    from dataclasses import replace
+
+    from rebalance.report.html import _heat
+
+    data = report_data_from_folder(tiny_plan_folder(), read_instance(TINY))
+    coverage = pd.DataFrame([
+        {"office": "A", "skill": f"s{i}", "period": "2027-Q1", "demand_fte": 2.0,
+         "shortfall_fte": 0.1 * (i + 1), "weighted_shortfall": 0.1 * (i + 1)}
+        for i in range(5)])
+    heat = _heat(replace(data, plan=replace(data.plan, coverage=coverage)))
+    cell = heat["cells"][heat["offices"].index("A")][0]
+    assert cell["skills"] == ["s4", "s3", "s2"] and cell["skills_short"] == 5

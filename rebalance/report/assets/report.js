@@ -165,7 +165,9 @@
         var t = max > 0 ? c.shortfall / max : 0;
         var tip = d.offices[i] + ", " + d.periods[j] + "\nshort " + fmt(c.shortfall, 2) +
           " of " + fmt(c.demand, 1) + " FTE demanded" + "\nweighted " + fmt(c.weighted, 2) +
-          (c.skills.length ? "\nskills short: " + c.skills.join(", ") : "");
+          (c.skills.length ? "\n" + (c.skills_short > c.skills.length ?
+            "most short (" + c.skills.length + " of " + c.skills_short + " skills short): " :
+            "skills short: ") + c.skills.join(", ") : "");
         el("rect", { x: lw + j * cw + 1, y: yy + 1, width: cw - 2, height: ch - 2, rx: 3,
           fill: c.shortfall > 1e-6 ? heatColour(0.12 + 0.88 * t) : "#f3f0e7", "data-tip": tip }, g);
         marks++;

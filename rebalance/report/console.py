@@ -70,7 +70,11 @@ def format_summary(result: PlanResult) -> str:
         bound = "-" if stage.bound is None or not math.isfinite(stage.bound) else (
             f"{stage.bound:,.6g}")
         objective = "-" if stage.objective is None else f"{stage.objective:,.6g}"
-        lines.append(f"  stage {stage.name}: {stage.status.value}, objective {objective}, "
+        status = stage.status.value
+        if stage.status is Status.OPTIMAL and stage.gap:
+            # Optimal as asked: within the relative gap the run was given, not exactly.
+            status += f" within the gap asked ({stage.gap:.2%} left)"
+        lines.append(f"  stage {stage.name}: {status}, objective {objective}, "
                      f"bound {bound}, {stage.seconds:.2f}s ({stage.solver_words})")
         room = _room_left(stage)
         if room:

@@ -30,3 +30,21 @@ def test_a_stage_bounded_only_by_zero_says_it_had_no_time_to_bound_rather_than_a
     # A sweep of generated instances: 50 small offices at 15 s left the cost stage 2 s.
     text = _room_left(stage("cost", Status.FEASIBLE_WITH_GAP, 6_945_700.0, 0.0, 1.0))
     assert text == "no bound worked out in the 10.0s this stage had, beyond 0 (gap 100.00%)"
+
+
+def test_a_stage_optimal_within_the_gap_asked_says_what_is_left():
+    # A sweep read "optimal" beside a bound 0.53% below: optimal as asked, not exactly.
+    from dataclasses import replace
+
+    from conftest import DATA, solve_verified
+
+    from rebalance import read_instance
+    from rebalance.report.console import format_summary
+
+    result = solve_verified(read_instance(DATA / "tiny"))
+    first = replace(result.solve.stages[0], objective=165.945, bound=165.061,
+                    gap=0.884 / 165.945)
+    text = format_summary(replace(result, solve=replace(result.solve,
+                                                        stages=(first, *result.solve.stages[1:]))))
+    assert "stage shortfall: optimal within the gap asked (0.53% left), objective 165.945" in text
+    assert "stage cost: optimal, objective 43,000" in text  # exact: no words added

@@ -106,6 +106,7 @@
       var x = function (i) { return ml + (T === 1 ? iw / 2 : i * iw / (T - 1)); };
       var y = function (v) { return mt + ih - v / ymax * ih; };
       label(g, ml - 34, 14, s.office, { "class": "title" });
+      label(g, W - mr, 14, "FTE", { "text-anchor": "end" });  // the axis's unit
       yAxis(g, y, tk, ml, ml + iw);
       var xs = [], base = [], staffTop = [], covTop = [], dem = [];
       for (i = 0; i < T; i++) {

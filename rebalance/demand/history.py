@@ -321,6 +321,9 @@ def _read_arrivals(table: RawTable, problems: list[Problem], offices: set[str] |
     cells = _Cells(table, "case_arrivals", problems)
     rows: list[tuple[str, str, int, int]] = []
     seen: dict[tuple[str, str, int], int] = {}
+    # Months whose row is there but was rejected (its count, say): reported once, at the row,
+    # not again as a month with no row.
+    rejected: set[tuple[str, str, int]] = set()
     for row in cells:
         month = cells.month(row, "month")
         office = cells.choice(row, "office", offices, "one listed in the instance's offices.csv")
@@ -331,6 +334,8 @@ def _read_arrivals(table: RawTable, problems: list[Problem], offices: set[str] |
                                      "an activity of kind 'case' in activities.csv")
         count = cells.number(row, "count", integer=True)
         if month is None or office is None or case_type is None or count is None:
+            if month is not None and office is not None and case_type is not None:
+                rejected.add((office, case_type, month))
             continue
         key = (office, case_type, month)
         if key in seen:
@@ -350,7 +355,8 @@ def _read_arrivals(table: RawTable, problems: list[Problem], offices: set[str] |
             office, case_type = str(series[0]), str(series[1])
             months = {int(m) for m in group["month"]}
             first = min(months)
-            missing = [m for m in range(first, last + 1) if m not in months]
+            missing = [m for m in range(first, last + 1)
+                       if m not in months and (office, case_type, m) not in rejected]
             if missing:
                 shown = ", ".join(month_name(m) for m in missing[:6])
                 more = f" and {len(missing) - 6} more" if len(missing) > 6 else ""

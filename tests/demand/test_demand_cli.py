@@ -141,6 +141,17 @@ def test_a_number_split_by_a_comma_is_an_error_not_its_first_part(tmp_path: Path
     assert not (instance / "demand.csv").exists()
 
 
+def test_a_rejected_count_is_not_reported_again_as_a_missing_month(tmp_path: Path, capsys) -> None:  # type: ignore[no-untyped-def]
+    history = tmp_path / "history"
+    shutil.copytree(DEMO_HISTORY, history)
+    _edit(history / "case_arrivals.csv", 10, "count", "-3")
+    instance = _instance_without_demand(tmp_path / "instance")
+    assert main(["demand", str(history), "-o", str(instance)]) == EXIT_INVALID_INPUT
+    err = capsys.readouterr().err
+    assert "case_arrivals.csv:10: count: '-3' is out of range" in err
+    assert "has no row for" not in err, err
+
+
 def test_missing_months_and_files_are_reported(tmp_path: Path, capsys) -> None:  # type: ignore[no-untyped-def]
     history = tmp_path / "history"
     shutil.copytree(DEMO_HISTORY, history)

@@ -159,6 +159,11 @@ def _load_sheets(path: Path) -> tuple[dict[str, _Sheet], list[Problem]]:
                 for i, (value, text) in enumerate(zip(cells, texts, strict=False))
                 if value is None and isinstance(text, str) and text.startswith("=")]
             key = ws.title.strip().lower()
+            if not header and any(_text(c) for cells in values[1:] for c in cells):
+                # Its rows would each fail for want of columns (674 problems on one sheet).
+                problems.append(Problem(ws.title, 1, None, "row 1 is blank; expected the "
+                                        "column names in row 1, the data below them"))
+                rows, overlong, unsaved = [], [], []
             if key in out:
                 problems.append(Problem(ws.title, None, None, "a second sheet of this name "
                                         "(names are read trimmed and in lower case); expected "

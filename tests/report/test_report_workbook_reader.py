@@ -167,6 +167,17 @@ def test_what_a_blank_would_hide_is_an_error(tmp_path):
     assert any(t.startswith("tiny.xlsx[Budget ]: a second sheet of this name") for t in text)
 
 
+def test_a_header_moved_down_is_said_first(tmp_path):
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    wb["offices"].insert_rows(1, amount=2)
+    wb.save(book)
+    with pytest.raises(InstanceError) as caught:
+        read_workbook(book)
+    assert str(caught.value.problems[0]) == ("tiny.xlsx[offices]:1: row 1 is blank; expected "
+                                             "the column names in row 1, the data below them")
+
+
 def test_not_a_workbook(tmp_path):
     fake = tmp_path / "fake.xlsx"
     fake.write_text("office,location\n")

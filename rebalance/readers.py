@@ -99,6 +99,23 @@ class RawTable:
     overlong_rows: tuple[int, ...] = ()
 
 
+def collapse_repeats(problems: list[Problem], keep: int = 10) -> list[Problem]:
+    """Every problem, but one fault repeated on thousands of rows (an office name that a
+    broken offices table left unknown to every staff row) listed ``keep`` times."""
+    seen: dict[tuple[str, str | None, str], int] = {}
+    out: list[Problem] = []
+    for p in problems:
+        key = (p.file, p.column, p.message)
+        seen[key] = seen.get(key, 0) + 1
+        if seen[key] <= keep:
+            out.append(p)
+    for (file, column, message), count in seen.items():
+        if count > keep:
+            out.append(Problem(file, None, column, f"{message} (and {count - keep} more rows "
+                                                   "like this)"))
+    return out
+
+
 def overlong_problems(table: RawTable) -> list[Problem]:
     """A problem for each row of ``table`` with filled cells past its header: a comma inside
     a number (``1,234``) splits it, and the cell read would be only its first part."""
@@ -458,7 +475,7 @@ def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, 
 
     # Warnings that do not stop a solve (only worth saying once the tables themselves are sound).
     if any(not p.is_warning for p in problems):
-        raise InstanceError([p for p in problems if not p.is_warning]
+        raise InstanceError(collapse_repeats([p for p in problems if not p.is_warning])
                             + [p for p in problems if p.is_warning])
     staffed_skills = {s for p in staff for s, _ in p.skills}
     warned: set[str] = set()

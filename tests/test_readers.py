@@ -116,3 +116,22 @@ def test_instance_is_read_only(tiny):
         tiny.vacancies[("A", "review")] = 3  # type: ignore[index]
     with pytest.raises(AttributeError):
         tiny.name = "other"  # type: ignore[misc]
+
+
+def test_one_fault_on_many_rows_is_listed_ten_times_and_counted(tmp_path):
+    # A renamed office leaves every row naming it unknown (a sweep's workbook: 675 problems,
+    # nearly all the same few names); each row is still counted.
+    from conftest import ROOT
+
+    demo = tmp_path / "demo"
+    shutil.copytree(ROOT / "instances" / "demo", demo)
+    offices = (demo / "offices.csv").read_text()
+    (demo / "offices.csv").write_text(offices.replace("hollin-cross,", "hollin-crossing,"))
+    staff_rows = sum(1 for line in (demo / "staff.csv").read_text().splitlines()[1:]
+                     if ",hollin-cross," in line)
+    with pytest.raises(InstanceError) as caught:
+        read_instance(demo)
+    text = [str(p) for p in caught.value.problems]
+    named = [t for t in text if t.startswith("staff.csv") and "'hollin-cross'" in t]
+    assert staff_rows > 11 and len(named) == 11
+    assert named[-1].endswith(f"(and {staff_rows - 10} more rows like this)")

@@ -29,7 +29,7 @@ from rebalance.demand.quality import QualityResult, check_quality
 from rebalance.demand.standards import EffortStandards, estimate_standards, forecast_noncase
 from rebalance.files import sibling_name, staged_folder
 from rebalance.instance import Period
-from rebalance.readers import Problem, _settings_periods, read_tables
+from rebalance.readers import Problem, _settings_periods, collapse_repeats, read_tables
 
 __all__ = ["DemandResult", "build_demand", "run_demand", "write_demand"]
 
@@ -229,7 +229,7 @@ def run_demand(history_dir: str | Path, instance_dir: str | Path) -> DemandResul
         _check_horizon(history, periods, problems)
     errors = [p for p in problems if not p.is_warning]
     if errors or history is None:
-        raise HistoryError(_collapse(errors) + [p for p in problems if p.is_warning])
+        raise HistoryError(collapse_repeats(errors) + [p for p in problems if p.is_warning])
     warnings = [p for p in problems if p.is_warning] + _unused_work(history, periods)
     return replace(build_demand(history, periods), warnings=tuple(warnings))
 
@@ -275,22 +275,6 @@ def _unused_work(history: History, periods: tuple[Period, ...]) -> list[Problem]
                                f"{last_plan - history.last_month} months past the newest "
                                f"arrivals ({month_name(history.last_month)}); a forecast "
                                "that far out is a guess", is_warning=True))
-    return out
-
-
-def _collapse(problems: list[Problem], keep: int = 10) -> list[Problem]:
-    """Every problem, but one fault repeated on thousands of rows listed ``keep`` times."""
-    seen: dict[tuple[str, str | None, str], int] = {}
-    out: list[Problem] = []
-    for p in problems:
-        key = (p.file, p.column, p.message)
-        seen[key] = seen.get(key, 0) + 1
-        if seen[key] <= keep:
-            out.append(p)
-    for (file, column, message), count in seen.items():
-        if count > keep:
-            out.append(Problem(file, None, column, f"{message} (and {count - keep} more rows "
-                                                   "like this)"))
     return out
 
 

@@ -751,7 +751,10 @@ def _read_budgets(table: RawTable, problems: list[Problem],
                 rows.warn("hiring", f"no hiring cap for {year}")
             out.append(Budget(year, hiring, moves))
     listed = {b.year for b in out}
-    if rows.columns_ok:
+    # A year that could not be read may be the one "missing": say nothing of missing years then.
+    unreadable = any(p.file == table.label and p.column == "year" and not p.is_warning
+                     for p in problems)
+    if rows.columns_ok and not unreadable:
         for year in sorted(years - listed):
             problems.append(Problem(table.label, None, "year",
                                     f"budget year '{year}' has no row; hiring and moves are "

@@ -178,6 +178,19 @@ def test_a_header_moved_down_is_said_first(tmp_path):
                                              "the column names in row 1, the data below them")
 
 
+def test_a_year_typed_as_a_date_is_one_problem_not_also_a_missing_year(tmp_path):
+    import datetime
+
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    wb["budget"]["A2"] = datetime.datetime(2027, 1, 1)
+    wb.save(book)
+    with pytest.raises(InstanceError) as caught:
+        read_workbook(book)
+    text = [str(p) for p in caught.value.problems]
+    assert len(text) == 1 and "budget year '2027-01-01T00:00:00' belongs to no period" in text[0]
+
+
 def test_not_a_workbook(tmp_path):
     fake = tmp_path / "fake.xlsx"
     fake.write_text("office,location\n")

@@ -15,7 +15,7 @@ import datetime as dt
 import math
 import re
 import tomllib
-from collections.abc import Mapping
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
@@ -142,39 +142,46 @@ def _load_sheets(path: Path) -> tuple[dict[str, _Sheet], list[Problem]]:
     try:
         out: dict[str, _Sheet] = {}
         for ws, ws_text in zip(wb.worksheets, formulas.worksheets, strict=True):
-            values = [tuple(r) for r in ws.iter_rows(values_only=True)]
-            header = [_text(c) for c in values[0]] if values else []
-            while header and header[-1] == "":
-                header.pop()
-            rows, overlong = [], []
-            for number, cells in enumerate(values[1:], 2):
-                padded = list(cells) + [None] * (len(header) - len(cells))
-                rows.append({h: _text(padded[i]) for i, h in enumerate(header) if h})
-                if any(_text(c) for c in cells[len(header):]):
-                    overlong.append(number)
-            unsaved = [
-                (number, header[i] if i < len(header) and header[i] else f"column {i + 1}")
-                for number, (cells, texts) in enumerate(
-                    zip(values, ws_text.iter_rows(values_only=True), strict=False), 1)
-                for i, (value, text) in enumerate(zip(cells, texts, strict=False))
-                if value is None and isinstance(text, str) and text.startswith("=")]
             key = ws.title.strip().lower()
-            if not header and any(_text(c) for cells in values[1:] for c in cells):
-                # Its rows would each fail for want of columns (674 problems on one sheet).
-                problems.append(Problem(ws.title, 1, None, "row 1 is blank; expected the "
-                                        "column names in row 1, the data below them"))
-                rows, overlong, unsaved = [], [], []
             if key in out:
                 problems.append(Problem(ws.title, None, None, "a second sheet of this name "
                                         "(names are read trimmed and in lower case); expected "
                                         "one sheet per table"))
                 continue
-            out[key] = _Sheet(tuple(header), tuple(rows), tuple(values[1:]), tuple(overlong),
-                              tuple(unsaved))
+            values = [tuple(r) for r in ws.iter_rows(values_only=True)]
+            header = [_text(c) for c in values[0]] if values else []
+            while header and header[-1] == "":
+                header.pop()
+            if not header and any(_text(c) for cells in values[1:] for c in cells):
+                # Its rows would each fail for want of columns (674 problems on one sheet).
+                problems.append(Problem(ws.title, 1, None, "row 1 is blank; expected the "
+                                        "column names in row 1, the data below them"))
+                out[key] = _Sheet((), (), tuple(values[1:]))
+                continue
+            out[key] = _sheet(header, values, ws_text.iter_rows(values_only=True))
         return out, problems
     finally:
         wb.close()
         formulas.close()
+
+
+def _sheet(header: list[str], values: list[tuple[Any, ...]],
+           texts: Iterable[tuple[Any, ...]]) -> _Sheet:
+    """A sheet from its header, its cells' values and their texts (formulas as written)."""
+    rows, overlong = [], []
+    for number, cells in enumerate(values[1:], 2):
+        padded = list(cells) + [None] * (len(header) - len(cells))
+        rows.append({h: _text(padded[i]) for i, h in enumerate(header) if h})
+        if any(_text(c) for c in cells[len(header):]):
+            overlong.append(number)
+    unsaved = []
+    for number, (cells, row_texts) in enumerate(zip(values, texts, strict=False), 1):
+        for i, (value, text) in enumerate(zip(cells, row_texts, strict=False)):
+            if value is None and isinstance(text, str) and text.startswith("="):
+                column = header[i] if i < len(header) and header[i] else f"column {i + 1}"
+                unsaved.append((number, column))
+    return _Sheet(tuple(header), tuple(rows), tuple(values[1:]), tuple(overlong),
+                  tuple(unsaved))
 
 
 def _text(value: Any) -> str:

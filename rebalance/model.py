@@ -17,7 +17,7 @@ import gc
 import math
 import time
 from collections import defaultdict
-from collections.abc import Callable, Hashable, Iterator
+from collections.abc import Callable, Collection, Hashable, Iterator
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -27,10 +27,12 @@ from rebalance.instance import Instance, Person
 from rebalance.limits import add_limit_rows
 from rebalance.relocation import Relocation
 
-__all__ = ["ADAPTING_FAMILIES", "ColumnBlock", "Model", "RowFamily", "build_model", "group_units",
-           "without_rounded_rows"]
+__all__ = ["ADAPTING_FAMILIES", "ColumnBlock", "DetailRoute", "Model", "RowFamily", "build_model",
+           "group_units", "without_rounded_rows"]
 
 INF = math.inf
+# A person's detail to an office in a period index: (person, destination office, period).
+DetailRoute = tuple[str, str, int]
 
 # Row families: structure rows hold the model together; limit rows are the organisation's
 # limits, which the infeasibility analysis may relax to say which ones conflict.
@@ -275,7 +277,8 @@ def without_rounded_rows(model: Model) -> Model:
 
 def build_model(instance: Instance, pooled: bool = True,
                 pool_key: Callable[[Person], Hashable] | None = None,
-                pair_details: bool | None = None) -> Model:
+                pair_details: bool | None = None,
+                keep_details: Collection[DetailRoute] = ()) -> Model:
     """Build the model of ``instance`` (see ``docs/model.md``).
 
     With ``pooled`` (the default) interchangeable people share columns with integer counts;
@@ -286,6 +289,10 @@ def build_model(instance: Instance, pooled: bool = True,
     (home, destination) pair, whose LP is tight but grows with offices squared, or one per
     destination with linear away and cost-adjustment columns.  Both are exact; the default
     takes pairs up to ``PAIR_DETAILS_MAX_OFFICES`` offices.
+
+    ``keep_details`` lists routes (person, destination office, period index) that get a
+    detail column even where the destination wants none of the person's skills then: a
+    re-plan keeps a detail under way to its end, idle or not.
     """
     if pair_details is None:
         pair_details = len(instance.offices) <= PAIR_DETAILS_MAX_OFFICES
@@ -293,7 +300,8 @@ def build_model(instance: Instance, pooled: bool = True,
     with _no_cycle_collection():
         b = _Builder()
         f = _Frame(instance, group_units(instance, pooled, pool_key))
-        work, det, rea, det_cost = _add_staff_columns(b, f, pair_details)
+        work, det, rea, det_cost = _add_staff_columns(b, f, pair_details,
+                                                      frozenset(keep_details))
         relocation = Relocation(b, f, det, det_cost)
         hire = _add_hire_columns(b, f)
         short = _add_shortfall_columns(b, f)
@@ -377,7 +385,8 @@ class _Frame:
         return self.instance.periods[t].name
 
 
-def _add_staff_columns(b: _Builder, f: _Frame, pair_details: bool) -> tuple[
+def _add_staff_columns(b: _Builder, f: _Frame, pair_details: bool,
+                       keep_details: frozenset[DetailRoute]) -> tuple[
         ColumnBlock, ColumnBlock, ColumnBlock, list[float]]:
     """Add the work, detail and home blocks; return them and the detail costs."""
     offices = f.offices
@@ -413,7 +422,8 @@ def _add_staff_columns(b: _Builder, f: _Frame, pair_details: bool) -> tuple[
             reachable = set(homes)
             if person.can_detail and details_allowed:
                 for dest in range(len(offices)):
-                    if not person_skills & f.skills_wanted.get((dest, t), set()):
+                    if (not person_skills & f.skills_wanted.get((dest, t), set())
+                            and (person.person, offices[dest], t) not in keep_details):
                         continue
                     # A relocatable person's detail leaves from the home in force (home -1);
                     # its cost from a new home is added by the adjustment columns (relocation).

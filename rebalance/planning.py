@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import json
 import time
-from collections.abc import Callable, Hashable
+from collections.abc import Callable, Collection, Hashable
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
@@ -16,7 +16,7 @@ from typing import Any
 from rebalance.backends import raise_if_stopped, stoppable
 from rebalance.files import staged_folder
 from rebalance.instance import Instance, Person
-from rebalance.model import Model, build_model
+from rebalance.model import DetailRoute, Model, build_model
 from rebalance.plan import Plan, extract_plan, write_plan
 from rebalance.solve import SolveOptions, SolveResult, Status, solve
 from rebalance.verify import Violation, verify_plan
@@ -67,16 +67,19 @@ def options_from_instance(instance: Instance, **overrides: Any) -> SolveOptions:
 def make_plan(instance: Instance, options: SolveOptions, pooled: bool = True,
               pool_key: Callable[[Person], Hashable] | None = None,
               adjust: Callable[[Model], Model] | None = None,
-              pair_details: bool | None = None) -> PlanResult:
+              pair_details: bool | None = None,
+              keep_details: Collection[DetailRoute] = ()) -> PlanResult:
     """Build, solve, extract and verify.  Never returns an unverified plan as good.
 
     ``pooled=False`` builds the person-level formulation (same optimum, larger model).
     ``pair_details`` picks the relocatable-detail formulation (see ``build_model``).
     ``pool_key`` and ``adjust`` let analyses (re-planning) keep people with different
-    histories apart and fix or bound columns of the built model before it is solved.
+    histories apart and fix or bound columns of the built model before it is solved;
+    ``keep_details`` gives them detail columns the builder would prune (see ``build_model``).
     """
     started = time.perf_counter()
-    model = build_model(instance, pooled=pooled, pool_key=pool_key, pair_details=pair_details)
+    model = build_model(instance, pooled=pooled, pool_key=pool_key, pair_details=pair_details,
+                        keep_details=keep_details)
     if adjust is not None:
         model = adjust(model)
     build_seconds = time.perf_counter() - started

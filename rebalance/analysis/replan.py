@@ -26,7 +26,7 @@ import scipy.sparse as sp
 
 from rebalance.analysis.limits import hire_rows
 from rebalance.instance import Instance, Person
-from rebalance.model import ColumnBlock, Model, RowFamily
+from rebalance.model import ColumnBlock, DetailRoute, Model, RowFamily
 from rebalance.plan import Plan, cost_table, coverage_table
 from rebalance.planning import PlanResult, make_plan
 from rebalance.solve import SolveOptions
@@ -115,17 +115,51 @@ def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
         return _fix_and_price(instance, model, old, details, moves, at, costs, allow_recall,
                               notes)
 
-    result = make_plan(instance, options, pool_key=pool_key, adjust=adjust)
+    keep = _runs_kept(details, at) if not allow_recall else []
+    idle = _idle_runs(instance, keep)
+    result = make_plan(instance, options, pool_key=pool_key, adjust=adjust, keep_details=keep)
     # The old plan's coverage table states the old demand; only its rules are checked here.
     old_violations = tuple(str(v) for v in verify_plan(instance, old)
                            if not v.rule.startswith("coverage"))
     changes = _changes(instance, old, result.plan, at, costs) if result.plan is not None else \
         pd.DataFrame(columns=list(CHANGE_COLUMNS))
     # Priced from the person-level change table; equal to the model's change columns except
-    # where a decision lost its column (an old detail to an office with no demand left).
+    # where a decision lost its column (an old detail, not under way, to an office with no
+    # demand left).
     disruption = float(changes["disruption_cost"].sum()) if len(changes) else 0.0
     summary = _summary(instance, old, result.plan, changes, disruption)
-    return Replan(at, result, changes, summary, disruption, old_violations, tuple(notes))
+    return Replan(at, result, changes, summary, disruption, old_violations,
+                  tuple(idle + notes))
+
+
+def _under_way(run: dict[int, tuple[str, str]], at: int, t: int) -> bool:
+    """``run`` (period -> route) is on detail on one route in every period from ``at - 1``
+    through ``t``: a detail under way at ``at`` that goes on until ``t``."""
+    return (at > 0 and t >= at and run.get(t) is not None
+            and all(run.get(s) == run.get(t) for s in range(at - 1, t + 1)))
+
+
+def _runs_kept(details: dict[str, dict[int, tuple[str, str]]],
+               at: int) -> list[DetailRoute]:
+    """The detail periods from ``at`` on of every run under way at ``at``: they go on."""
+    return [(person, dst, t) for person, run in sorted(details.items())
+            for t, (_, dst) in sorted(run.items()) if _under_way(run, at, t)]
+
+
+def _idle_runs(instance: Instance, kept: list[DetailRoute]) -> list[str]:
+    """A note for each kept detail period whose destination wants none of the person's
+    skills then (the data changed since the old plan): the person is there with nothing to do,
+    which only early recall ends."""
+    wanted = {(d.office, d.skill, d.period) for d in instance.demand if d.fte > 0}
+    people = {p.person: p for p in instance.staff}
+    names = instance.period_names
+    notes = []
+    for person, dst, t in kept:
+        if not any((dst, skill, t) in wanted for skill, _ in people[person].skills):
+            notes.append(f"detail of {person} in {names[t]} (to {dst}) is under way and runs "
+                         f"on, but {dst} has no demand left for their skills then; "
+                         "early recall (--allow-recall) would end it")
+    return notes
 
 
 def _fix_and_price(instance: Instance, model: Model, old: Plan,
@@ -160,11 +194,9 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
             old_detail[j] = len(model.units[u])
             seen.add((u, a, b, t))
     unit_of = {staff[p].person: u for u, members in enumerate(model.units) for p in members}
+
     def under_way(person: str, t: int) -> bool:
-        """On detail on one route in every period from ``at - 1`` through ``t``."""
-        run = details.get(person, {})
-        return (at > 0 and t >= at and run.get(t) is not None
-                and all(run.get(s) == run.get(t) for s in range(at - 1, t + 1)))
+        return _under_way(details.get(person, {}), at, t)
 
     for person, by_period in details.items():
         for t, (src, dst) in by_period.items():
@@ -175,10 +207,10 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
                 problems.append(f"detail of {person} in {names[t]} ({src} -> {dst}) is no longer "
                                 "possible with this data")
             elif under_way(person, t) and not allow_recall:
-                # The builder writes no detail column where the person's skills are not
-                # wanted; the run cannot go on in the model, so it ends here, said aloud.
+                # Kept routes get their column (``keep_details``) unless the data now rule the
+                # detail out (the person left, or may no longer go on detail): it ends, aloud.
                 notes.append(f"detail of {person} in {names[t]} ({src} -> {dst}) was under way "
-                             f"but {dst} has no demand left for their skills then; it ends")
+                             "but the data no longer allow it then; it ends")
     for j in range(len(det)):
         u, a, b, t = (int(det.keys[k][j]) for k in ("unit", "home", "office", "period"))
         col = det.start + j

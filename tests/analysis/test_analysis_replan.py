@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import pandas as pd
 import pytest
 from analysis_helpers import exact_options
@@ -11,6 +13,7 @@ from randomized import random_instance
 from rebalance import make_plan
 from rebalance.analysis.replan import DisruptionCosts, ReplanError, replan
 from rebalance.analysis.scenarios import DemandChange, Scenario, apply_scenario
+from rebalance.instance import Budget
 from rebalance.plan import Plan
 
 
@@ -160,13 +163,48 @@ def test_a_detail_under_way_runs_on_unless_recall_is_allowed(tiny) -> None:
         ["change", "kind", "who", "period"]].values.tolist()
 
 
-def test_a_run_whose_demand_vanished_ends_with_a_note(tiny) -> None:
+def test_a_run_whose_demand_vanished_runs_on_idle_with_a_note(tiny) -> None:
     # a1's detail to B is under way at Q3; with no B review demand left in Q3 there is nothing
-    # for it to do and no column to keep it: the run ends, and the re-plan says so.
+    # for it to do, but a run under way finishes unless recall is allowed (docs/analysis.md):
+    # a1 stays on detail in Q3, idle, and the re-plan says so; with recall the run ends.
     base = solve_verified(tiny)
     assert base.plan is not None
     gone = apply_scenario(tiny, Scenario("gone", "", (
         DemandChange(("B",), ("review",), (2,), multiplier=0.0),)))
     out = replan(gone, base.plan, 2, exact_options(gone))
-    assert out.result.verified
-    assert any("a1" in note and "2027-Q3" in note for note in out.notes)
+    assert out.result.verified and out.result.plan is not None
+    details = out.result.plan.details
+    assert ((details.person == "a1") & (details.period == "2027-Q3")
+            & (details.to_office == "B")).any()
+    assert any("a1" in note and "2027-Q3" in note and "runs on" in note for note in out.notes)
+    recalled = replan(gone, base.plan, 2, exact_options(gone), allow_recall=True)
+    assert recalled.result.verified and recalled.result.plan is not None
+    assert not ((recalled.result.plan.details.person == "a1")
+                & (recalled.result.plan.details.period == "2027-Q3")).any()
+    assert not recalled.notes
+
+
+def test_a_run_kept_idle_keeps_its_seat_away_from_a_full_home(tiny) -> None:
+    # The case that had made a re-plan infeasible. The old plan: a1 on detail A -> B in Q2
+    # and Q3, and one review hire at A from Q3 (recruitment under way at a re-plan from Q3,
+    # so kept; the hiring budget raised to pay for it). A has 3 seats: a2, a3 and the hire in
+    # Q3. B's Q3 demand is gone. Ending a1's run would seat four at A in Q3 (infeasible,
+    # nothing else can move: the past and the hire are fixed, a2 has no detail to B with no
+    # demand there and, made not relocatable here, cannot move for good); keeping it, as the
+    # rule says, fits. The code before this test ended the run and reported seats at A over.
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    hires = pd.DataFrame([{"office": "A", "skill": "review", "start_period": "2027-Q3",
+                           "count": 1, "funding": "new", "onboarding_cost": 8000.0,
+                           "salary_cost": 40000.0}])
+    old = replace(base.plan, hires=hires)
+    gone = apply_scenario(tiny, Scenario("gone", "", (
+        DemandChange(("B",), ("review",), (2,), multiplier=0.0),)))
+    gone = replace(gone, offices=tuple(replace(o, seats=3) if o.name == "A" else o
+                                       for o in gone.offices),
+                   budgets=(Budget("2027", hiring=100_000.0, moves=30_000.0),),
+                   staff=tuple(replace(p, can_relocate=False) for p in gone.staff))
+    out = replan(gone, old, 2, exact_options(gone))
+    assert out.result.verified and out.result.plan is not None
+    details = out.result.plan.details
+    assert ((details.person == "a1") & (details.period == "2027-Q3")).any()

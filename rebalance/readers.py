@@ -7,14 +7,16 @@ Nothing here solves or writes anything; a caller gets an :class:`Instance` or an
 
 from __future__ import annotations
 
+import codecs
 import csv
+import io
 import math
 import re
 import tomllib
 from collections.abc import Iterator, Mapping
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import Any, TypeGuard
 
 from rebalance.instance import (
     Budget,
@@ -32,12 +34,17 @@ from rebalance.instance import (
 )
 
 __all__ = [
+    "SETTINGS_KEYS",
     "InstanceError",
+    "NotUtf8",
     "Problem",
     "RawTable",
     "TableRows",
+    "count_problems",
     "read_instance",
     "read_tables",
+    "read_utf8",
+    "table_problems",
 ]
 
 REQUIRED_TABLES = ("offices", "skills", "staff", "demand", "budget")
@@ -59,6 +66,19 @@ COLUMNS: dict[str, tuple[tuple[str, ...], tuple[str, ...]]] = {
     "attrition": (("skill", "annual_rate"), ("office",)),
     "budget": (("year",), ("hiring", "moves")),
 }
+# Every key settings.toml understands, dotted (plus horizon.periods, a list of tables with
+# name, year and hours_per_fte); the workbook's settings sheet takes the same keys.
+SETTINGS_KEYS = (
+    "horizon.start", "horizon.count", "horizon.hours_per_fte", "horizon.periods_per_year",
+    "policy.max_away_share", "policy.max_consecutive_detail_periods",
+    "move_costs.detail_cost_per_period", "move_costs.relocation_cost",
+    "move_costs.same_location_detail_cost_per_period",
+    "move_costs.same_location_relocation_cost",
+    "objective.mode", "objective.shortfall_cost", "objective.shortfall_tolerance",
+    "solver.name", "solver.time_limit_seconds", "solver.relative_gap", "solver.threads",
+    "solver.seed",
+)
+PERIOD_KEYS = ("name", "year", "hours_per_fte")
 TRUE_WORDS = {"true", "yes", "y", "1"}
 FALSE_WORDS = {"false", "no", "n", "0"}
 
@@ -72,11 +92,19 @@ class Problem:
     column: str | None
     message: str
     is_warning: bool = False
+    # Rows this one line stands for: one fault on many rows is listed a few times, then once
+    # more for the rest (``collapse_repeats``), and a count of problems counts them all.
+    repeats: int = 1
 
     def __str__(self) -> str:
         where = self.file if self.row is None else f"{self.file}:{self.row}"
         col = f" {self.column}:" if self.column else ""
         return f"{where}:{col} {self.message}"
+
+
+def count_problems(problems: list[Problem]) -> int:
+    """How many problems ``problems`` stand for, the rows of collapsed repeats included."""
+    return sum(p.repeats for p in problems)
 
 
 class InstanceError(Exception):
@@ -97,6 +125,14 @@ class RawTable:
     first_row_number: int = 2
     # Row numbers with filled cells beyond the header's columns, which no column reads.
     overlong_rows: tuple[int, ...] = ()
+    # (row, 1-based column) of filled cells under a column with no name, which no column reads.
+    unnamed_cells: tuple[tuple[int, int], ...] = ()
+    # (row, column) of cells holding a line break: a quote that never closed swallows the
+    # rows after it into one cell.
+    multiline_cells: tuple[tuple[int, str], ...] = ()
+    # Why the file could not be read at all (not UTF-8), and the row that showed it; then it
+    # has no columns.
+    fault: tuple[int | None, str] | None = None
 
 
 def collapse_repeats(problems: list[Problem], keep: int = 10) -> list[Problem]:
@@ -112,37 +148,88 @@ def collapse_repeats(problems: list[Problem], keep: int = 10) -> list[Problem]:
     for (file, column, message), count in seen.items():
         if count > keep:
             out.append(Problem(file, None, column, f"{message} (and {count - keep} more rows "
-                                                   "like this)"))
+                                                   "like this)", repeats=count - keep))
     return out
 
 
-def overlong_problems(table: RawTable) -> list[Problem]:
-    """A problem for each row of ``table`` with filled cells past its header: a comma inside
-    a number (``1,234``) splits it, and the cell read would be only its first part."""
+def table_problems(table: RawTable) -> list[Problem]:
+    """What is wrong with ``table`` as a table, before any cell is read: a file that could not
+    be read, a column named twice (which copy would be read?), and cells no column reads,
+    such as the second half of a number a comma split (``1,234``)."""
+    if table.fault is not None:
+        return [Problem(table.label, table.fault[0], None, table.fault[1])]
+    problems = []
+    counts: dict[str, int] = {}
+    for column in table.columns:
+        if column:
+            counts[column] = counts.get(column, 0) + 1
+    for column, count in counts.items():
+        if count > 1:
+            problems.append(Problem(table.label, 1, column, f"is a column name {count} times; "
+                                    "expected each column once"))
     hint = " (a comma inside a value?)" if table.label.endswith(".csv") else ""
-    return [Problem(table.label, number, None,
-                    f"more cells than the header's {len(table.columns)} columns; expected one "
-                    f"value per column{hint}")
-            for number in table.overlong_rows]
+    problems += [Problem(table.label, number, None,
+                         f"more cells than the header's {len(table.columns)} columns; expected "
+                         f"one value per column{hint}")
+                 for number in table.overlong_rows]
+    problems += [Problem(table.label, number, f"column {position}",
+                         f"a value under a column with no name; expected a name in row 1 for "
+                         f"every filled column{hint}")
+                 for number, position in table.unnamed_cells]
+    problems += [Problem(table.label, number, column,
+                         "runs over several lines (a quote that is not closed?); expected one "
+                         "line per row")
+                 for number, column in table.multiline_cells]
+    return problems
 
 
 def read_csv_table(path: Path) -> RawTable:
-    with path.open(newline="", encoding="utf-8-sig") as handle:
-        reader = csv.reader(handle)
-        try:
-            header = [h.strip() for h in next(reader)]
-        except StopIteration:
-            return RawTable(path.name, (), ())
-        rows = []
-        overlong = []
-        for number, cells in enumerate(reader, 2):
-            if not any(c.strip() for c in cells):
-                cells = []  # blank line: keep numbering, drop content
-            if any(c.strip() for c in cells[len(header):]):
-                overlong.append(number)
-            padded = list(cells) + [""] * (len(header) - len(cells))
-            rows.append({h: padded[i].strip() for i, h in enumerate(header)})
-    return RawTable(path.name, tuple(header), tuple(rows), overlong_rows=tuple(overlong))
+    try:
+        text = read_utf8(path)
+    except NotUtf8 as exc:
+        return RawTable(path.name, (), (), fault=(exc.row, f"{exc} (in a spreadsheet program: "
+                                                            "save as CSV UTF-8)"))
+    return _csv_table(path.name, csv.reader(io.StringIO(text, newline="")))
+
+
+class NotUtf8(ValueError):
+    """A text file that is not UTF-8; ``row`` is the line of the first byte that is not."""
+
+    def __init__(self, row: int, byte: int) -> None:
+        super().__init__(f"is not UTF-8 text (byte 0x{byte:02x} on this line); expected the "
+                         "file saved as UTF-8")
+        self.row = row
+
+
+def read_utf8(path: Path) -> str:
+    """The file's text (a byte-order mark, which some programs write, dropped), or
+    :class:`NotUtf8` naming the line where it stops being UTF-8."""
+    data = path.read_bytes().removeprefix(codecs.BOM_UTF8)
+    try:
+        return data.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise NotUtf8(data.count(b"\n", 0, exc.start) + 1, data[exc.start]) from None
+
+
+def _csv_table(label: str, reader: Iterator[list[str]]) -> RawTable:
+    try:
+        header = [h.strip() for h in next(reader)]
+    except StopIteration:
+        return RawTable(label, (), ())
+    rows, overlong, unnamed, multiline = [], [], [], []
+    for number, cells in enumerate(reader, 2):
+        if not any(c.strip() for c in cells):
+            cells = []  # blank line: keep numbering, drop content
+        if any(c.strip() for c in cells[len(header):]):
+            overlong.append(number)
+        unnamed += [(number, i + 1) for i, (h, c) in enumerate(zip(header, cells, strict=False))
+                    if not h and c.strip()]
+        padded = list(cells) + [""] * (len(header) - len(cells))
+        multiline += [(number, h or f"column {i + 1}") for i, (h, c)
+                      in enumerate(zip(header, padded, strict=False)) if "\n" in c or "\r" in c]
+        rows.append({h: padded[i].strip() for i, h in enumerate(header) if h})
+    return RawTable(label, tuple(header), tuple(rows), overlong_rows=tuple(overlong),
+                    unnamed_cells=tuple(unnamed), multiline_cells=tuple(multiline))
 
 
 def read_tables(folder: Path) -> tuple[dict[str, Any], dict[str, RawTable], list[Problem]]:
@@ -156,9 +243,11 @@ def read_tables(folder: Path) -> tuple[dict[str, Any], dict[str, RawTable], list
         return {}, {}, [Problem(str(folder), None, None, what)]
     if settings_path.is_file():
         try:
-            settings = tomllib.loads(settings_path.read_text(encoding="utf-8"))
+            settings = tomllib.loads(read_utf8(settings_path))
         except tomllib.TOMLDecodeError as exc:
             problems.append(Problem("settings.toml", None, None, f"not valid TOML: {exc}"))
+        except NotUtf8 as exc:
+            problems.append(Problem("settings.toml", exc.row, None, str(exc)))
     else:
         problems.append(Problem("settings.toml", None, None, "file is missing"))
     tables: dict[str, RawTable] = {}
@@ -203,7 +292,13 @@ class TableRows:
         self.row_number = 0
         self.columns_ok = True
         required, optional = columns or COLUMNS[_table_name(table.label)]
+        if table.fault is not None:  # said once by table_problems; no column is missing too
+            self.columns_ok = False
+            return
         missing = [c for c in required if c not in table.columns]
+        # A column named twice is said by table_problems; which copy to read is unknowable,
+        # so no row is read (each would report the copy that happened to be kept).
+        twice = {c for c in table.columns if c and table.columns.count(c) > 1}
         for column in missing:
             self.problems.append(Problem(table.label, 1, column, "required column is missing"))
         unknown = [c for c in table.columns if c and c not in required + optional]
@@ -217,7 +312,7 @@ class TableRows:
                     is_warning=True,
                 )
             )
-        self.columns_ok = not missing
+        self.columns_ok = not missing and not twice
 
     def __iter__(self) -> Iterator[dict[str, str]]:
         if not self.columns_ok:
@@ -286,10 +381,13 @@ class TableRows:
         self.error(column, f"'{row.get(column)}' is not a yes/no value; expected true or false")
         return default
 
-    def reference(self, row: Mapping[str, str], column: str, known: Mapping[str, Any] | set[str],
-                  kind: str, defined_in: str) -> str | None:
+    def reference(self, row: Mapping[str, str], column: str,
+                  known: Mapping[str, Any] | set[str] | None, kind: str,
+                  defined_in: str) -> str | None:
+        """The cell's name if ``known`` lists it; ``known`` None: the table that defines the
+        names could not be read, so every name would read as unknown and none is checked."""
         value = self.text(row, column)
-        if value is not None and value not in known:
+        if value is not None and known is not None and value not in known:
             self.error(column, f"unknown {kind} '{value}'; expected one listed in {defined_in}")
             return None
         return value
@@ -313,11 +411,45 @@ def _table_name(label: str) -> str:
     return label.removesuffix(".csv")
 
 
-SKILL_TOKEN = re.compile(r"^([A-Za-z0-9_.\-]+)(?::([^:\s]+))?$")
+SKILL_NAME = re.compile(r"^[A-Za-z0-9_.\-]+$")
+# A blank proficiency (``intake`` or ``intake:``) is 1.0.
+SKILL_TOKEN = re.compile(r"^([A-Za-z0-9_.\-]+)(?::([^:\s]*))?$")
 
 
 # --------------------------------------------------------------------------------------------
 # settings
+
+
+def _unknown_settings(settings: Mapping[str, Any], problems: list[Problem]) -> None:
+    """A warning for each setting nothing reads: a typo (``max_away_shares``) would otherwise
+    leave the default in force without a word."""
+    def warn(key: str, what: str, expected: list[str]) -> None:
+        problems.append(Problem("settings.toml", None, key, f"unknown {what}, ignored (expected "
+                                "one of: " + ", ".join(expected) + ")", is_warning=True))
+
+    sections = list(dict.fromkeys(key.partition(".")[0] for key in SETTINGS_KEYS))
+    for section, table in settings.items():
+        if section not in sections:
+            warn(section, "section", sections)
+            continue
+        if not isinstance(table, dict):
+            continue  # said by the reader of the section
+        keys = [k.partition(".")[2] for k in SETTINGS_KEYS if k.startswith(section + ".")]
+        keys += ["periods"] if section == "horizon" else []
+        for key in table:
+            if key not in keys:
+                warn(f"{section}.{key}", "key", keys)
+    listed = settings.get("horizon", {})
+    listed = listed.get("periods") if isinstance(listed, dict) else None
+    for i, entry in enumerate(listed if isinstance(listed, list) else [], 1):
+        for key in entry if isinstance(entry, dict) else {}:
+            if key not in PERIOD_KEYS:
+                warn(f"horizon.periods[{i}].{key}", "key", list(PERIOD_KEYS))
+
+
+def _number(value: Any) -> TypeGuard[int | float]:
+    """A TOML number: ``true`` is an int to Python, not a number to a planner."""
+    return isinstance(value, int | float) and not isinstance(value, bool)
 
 
 def _settings_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
@@ -330,12 +462,12 @@ def _settings_periods(settings: Mapping[str, Any], problems: list[Problem]) -> t
         bad("horizon", "must be a table")
         return (), 4
     periods_per_year = horizon.get("periods_per_year", 4)
-    if not isinstance(periods_per_year, int) or periods_per_year < 1:
+    if (not isinstance(periods_per_year, int) or isinstance(periods_per_year, bool)
+            or periods_per_year < 1):
         bad("horizon.periods_per_year", f"'{periods_per_year}' is not a whole number >= 1")
         periods_per_year = 4
     default_hours = horizon.get("hours_per_fte")
-    if default_hours is not None and (not isinstance(default_hours, int | float)
-                                      or default_hours <= 0):
+    if default_hours is not None and (not _number(default_hours) or default_hours <= 0):
         bad("horizon.hours_per_fte", f"'{default_hours}' is not a number > 0")
         default_hours = None
     periods: list[Period] = []
@@ -350,18 +482,19 @@ def _settings_periods(settings: Mapping[str, Any], problems: list[Problem]) -> t
                 bad(key, "needs name and year")
                 continue
             hours = entry.get("hours_per_fte", default_hours)
-            if not isinstance(hours, int | float) or hours <= 0:
+            if not _number(hours) or hours <= 0:
                 bad(key + ".hours_per_fte", "is missing or not a number > 0 (no default given)")
                 continue
             periods.append(Period(str(entry["name"]), str(entry["year"]), float(hours)))
     else:
         start, count = horizon.get("start"), horizon.get("count")
         match = re.fullmatch(r"(\d{4})-Q([1-4])", str(start)) if start is not None else None
-        if match is None or not isinstance(count, int) or count < 1:
+        if match is None or not isinstance(count, int) or isinstance(count, bool) or count < 1:
             bad("horizon", "give either periods = [...] or start = \"YYYY-Qn\" with count = N")
             return (), periods_per_year
         if default_hours is None:
-            bad("horizon.hours_per_fte", "is required when periods are generated from start")
+            if "hours_per_fte" not in horizon:  # a bad value is said above, once
+                bad("horizon.hours_per_fte", "is required when periods are generated from start")
             return (), periods_per_year
         year, quarter = int(match.group(1)), int(match.group(2))
         for _ in range(count):
@@ -449,11 +582,13 @@ def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, 
                    problems: list[Problem]) -> Instance:
     """Validate settings and raw tables into an :class:`Instance` (or raise with all problems)."""
     for raw in tables.values():
-        problems += overlong_problems(raw)
+        problems += table_problems(raw)
     # Settings that could not be read (missing, not TOML) are reported once, not again as
     # every setting they lack.
     unread = any(p.file == "settings.toml" and p.column is None for p in problems)
     settings_problems: list[Problem] = [] if unread else problems
+    if not unread:
+        _unknown_settings(settings, settings_problems)
     periods, periods_per_year = _settings_periods(settings, settings_problems)
     policy, defaults, objective, solver = _settings_sections(settings, settings_problems)
     period_index = {p.name: i for i, p in enumerate(periods)}
@@ -462,15 +597,26 @@ def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, 
         # A missing file is already reported; read it as empty so other checks still run.
         return tables.get(name) or RawTable(f"{name}.csv", COLUMNS[name][0], (), 2)
 
+    def names(defined: dict[str, Any], name: str) -> dict[str, Any] | None:
+        # Where the table defining the names could not be read as a whole (missing, not
+        # UTF-8, a required column missing or named twice), every reference to it would read
+        # as unknown: one fault, already said, would come back as a problem per row.
+        raw = tables.get(name)
+        broken = raw is None or any(p.file == raw.label and p.row in (None, 1)
+                                    and not p.is_warning for p in problems)
+        return None if broken else defined
+
     offices = _read_offices(table("offices"), problems)
     skills = _read_skills(table("skills"), problems)
-    staff = _read_staff(table("staff"), problems, offices, skills, period_index)
-    demand = _read_demand(table("demand"), problems, offices, skills, periods,
-                          check_empty="demand" in tables)
-    locations = {o.location for o in offices.values()}
+    known_offices, known_skills = names(offices, "offices"), names(skills, "skills")
+    known_periods = None if unread or not periods else period_index
+    staff = _read_staff(table("staff"), problems, known_offices, known_skills, known_periods)
+    demand = _read_demand(table("demand"), problems, known_offices, known_skills, periods,
+                          known_periods, check_empty="demand" in tables)
+    locations = None if known_offices is None else {o.location for o in offices.values()}
     move_costs = _read_move_costs(tables.get("move_costs"), problems, locations)
-    vacancies = _read_vacancies(tables.get("vacancies"), problems, offices, skills)
-    attrition = _read_attrition(tables.get("attrition"), problems, offices, skills)
+    vacancies = _read_vacancies(tables.get("vacancies"), problems, known_offices, known_skills)
+    attrition = _read_attrition(tables.get("attrition"), problems, known_offices, known_skills)
     budgets = _read_budgets(table("budget"), problems, periods)
 
     # Warnings that do not stop a solve (only worth saying once the tables themselves are sound).
@@ -532,8 +678,10 @@ def _read_offices(table: RawTable, problems: list[Problem]) -> dict[str, Office]
         location = rows.text(row, "location")
         seats = rows.number(row, "seats", required=False, integer=True)
         max_hires = rows.number(row, "max_hires_per_period", required=False, integer=True)
-        if _unique(rows, "office", name, seen) and location is not None and name is not None:
-            out[name] = Office(name, location, None if seats is None else int(seats),
+        # Registered even when another cell of its row is wrong (the row's problem is said),
+        # so the rows that name it are not all reported as naming an unknown office.
+        if _unique(rows, "office", name, seen) and name is not None:
+            out[name] = Office(name, location or "", None if seats is None else int(seats),
                                None if max_hires is None else int(max_hires))
     return out
 
@@ -543,6 +691,10 @@ def _read_skills(table: RawTable, problems: list[Problem]) -> dict[str, Skill]:
     seen: dict[str, int] = {}
     for row in rows:
         name = rows.text(row, "skill")
+        if name is not None and not SKILL_NAME.match(name):
+            rows.error("skill", f"'{name}' is not a usable skill name; expected letters, digits, "
+                       "'_', '.' or '-' only (staff.csv lists skills as name:proficiency, "
+                       "separated by spaces)")
         salary = rows.number(row, "salary_per_period")
         onboarding = rows.number(row, "onboarding_cost")
         time_to_hire = rows.number(row, "time_to_hire", integer=True)
@@ -557,15 +709,17 @@ def _read_skills(table: RawTable, problems: list[Problem]) -> dict[str, Skill]:
                            "separated by spaces, e.g. '0.5 0.8'")
                 break
             ramp.append(value)
-        ok = None not in (salary, onboarding, time_to_hire)
-        if _unique(rows, "skill", name, seen) and ok and name is not None:
-            out[name] = Skill(name, float(salary), float(onboarding),  # type: ignore[arg-type]
-                              int(time_to_hire), tuple(ramp))  # type: ignore[arg-type]
+        # Registered even when another cell is wrong, as offices are (0 stands in for a
+        # number that could not be read: the instance is not built while a problem stands).
+        if _unique(rows, "skill", name, seen) and name is not None:
+            out[name] = Skill(name, salary or 0.0, onboarding or 0.0, int(time_to_hire or 0),
+                              tuple(ramp))
     return out
 
 
-def _read_staff(table: RawTable, problems: list[Problem], offices: Mapping[str, Office],
-                skills: Mapping[str, Skill], period_index: Mapping[str, int]) -> list[Person]:
+def _read_staff(table: RawTable, problems: list[Problem], offices: Mapping[str, Office] | None,
+                skills: Mapping[str, Skill] | None,
+                period_index: Mapping[str, int] | None) -> list[Person]:
     rows, out = TableRows(table, problems), []
     seen: dict[str, int] = {}
     for row in rows:
@@ -577,7 +731,7 @@ def _read_staff(table: RawTable, problems: list[Problem], offices: Mapping[str, 
         can_relocate = rows.boolean(row, "can_relocate", False)
         last = row.get("last_period", "")
         last_period = None
-        if last:
+        if last and period_index is not None:
             if last not in period_index:
                 rows.error("last_period", f"unknown period '{last}'; expected one of the "
                            "periods in settings.toml")
@@ -590,48 +744,55 @@ def _read_staff(table: RawTable, problems: list[Problem], offices: Mapping[str, 
     return out
 
 
-def _parse_skills(rows: TableRows, raw: str, skills: Mapping[str, Skill]) -> tuple[
+def _parse_skills(rows: TableRows, raw: str, skills: Mapping[str, Skill] | None) -> tuple[
         tuple[str, float], ...] | None:
+    """The cell's (skill, proficiency) pairs; every bad one is said, not only the first."""
     if not raw:
         rows.error("skills", "is empty; expected skill:proficiency pairs, e.g. "
                    "'intake:1.0 statistics:0.6'")
         return None
     parsed: list[tuple[str, float]] = []
+    ok = True
     for token in raw.split():
         match = SKILL_TOKEN.match(token)
         if match is None:
             rows.error("skills", f"'{token}' is malformed; expected skill:proficiency, e.g. "
                        "'intake:0.8'")
-            return None
+            ok = False
+            continue
         name, value = match.group(1), match.group(2)
         try:
-            proficiency = 1.0 if value is None else float(value)
+            proficiency = float(value) if value else 1.0
         except ValueError:
             proficiency = math.nan
-        if name not in skills:
+        if skills is not None and name not in skills:
             rows.error("skills", f"unknown skill '{name}'; expected one listed in skills.csv")
-            return None
-        if not 0.0 < proficiency <= 1.0:
+            ok = False
+        elif not 0.0 < proficiency <= 1.0:
             rows.error("skills", f"proficiency '{value}' for '{name}' is out of range; "
                        "expected a number in (0, 1]")
-            return None
-        if any(name == s for s, _ in parsed):
+            ok = False
+        elif any(name == s for s, _ in parsed):
             rows.error("skills", f"skill '{name}' is listed twice")
-            return None
-        parsed.append((name, proficiency))
-    return tuple(parsed)
+            ok = False
+        else:
+            parsed.append((name, proficiency))
+    return tuple(parsed) if ok else None
 
 
-def _read_demand(table: RawTable, problems: list[Problem], offices: Mapping[str, Office],
-                 skills: Mapping[str, Skill], periods: tuple[Period, ...],
+def _read_demand(table: RawTable, problems: list[Problem], offices: Mapping[str, Office] | None,
+                 skills: Mapping[str, Skill] | None, periods: tuple[Period, ...],
+                 known_periods: Mapping[str, int] | None,
                  check_empty: bool = True) -> list[Demand]:
     rows, out = TableRows(table, problems), []
     seen: dict[tuple[str, str, str], int] = {}
     period_index = {p.name: i for i, p in enumerate(periods)}
+    read = 0
     for row in rows:
+        read += 1
         office = rows.reference(row, "office", offices, "office", "offices.csv")
         skill = rows.reference(row, "skill", skills, "skill", "skills.csv")
-        period = rows.reference(row, "period", period_index, "period", "settings.toml")
+        period = rows.reference(row, "period", known_periods, "period", "settings.toml")
         has_fte, has_hours = bool(row.get("fte")), bool(row.get("hours"))
         fte = hours = None
         if has_fte and has_hours:
@@ -652,13 +813,15 @@ def _read_demand(table: RawTable, problems: list[Problem], offices: Mapping[str,
                        f"listed twice (first at row {seen[key]})")
             continue
         seen[key] = rows.row_number
+        if period not in period_index:  # the settings could not be read: nothing to convert
+            continue
         t = period_index[period]
         if hours is not None:
             fte = hours / periods[t].hours_per_fte
         if fte is not None:
             out.append(Demand(office, skill, t, fte, 1.0 if priority is None else priority,
                               hours))
-    if check_empty and rows.columns_ok and not out and not any(
+    if check_empty and rows.columns_ok and not read and not any(
             p.file == table.label for p in problems if not p.is_warning):
         problems.append(Problem(table.label, None, None,
                                 "has no demand rows; expected at least one"))
@@ -666,12 +829,12 @@ def _read_demand(table: RawTable, problems: list[Problem], offices: Mapping[str,
 
 
 def _read_move_costs(table: RawTable | None, problems: list[Problem],
-                     locations: set[str]) -> dict[tuple[str, str], MoveCost]:
+                     locations: set[str] | None) -> dict[tuple[str, str], MoveCost]:
     if table is None:
         return {}
     rows, out = TableRows(table, problems), {}
+    known = None if locations is None else {loc: None for loc in locations}
     for row in rows:
-        known = {loc: None for loc in locations}
         a = rows.reference(row, "from_location", known, "location", "offices.csv")
         b = rows.reference(row, "to_location", known, "location", "offices.csv")
         detail = rows.number(row, "detail_cost_per_period", required=False)
@@ -687,7 +850,8 @@ def _read_move_costs(table: RawTable | None, problems: list[Problem],
 
 
 def _read_vacancies(table: RawTable | None, problems: list[Problem],
-                    offices: Mapping[str, Office], skills: Mapping[str, Skill]) -> dict[
+                    offices: Mapping[str, Office] | None,
+                    skills: Mapping[str, Skill] | None) -> dict[
                         tuple[str, str], int]:
     if table is None:
         return {}
@@ -706,7 +870,8 @@ def _read_vacancies(table: RawTable | None, problems: list[Problem],
 
 
 def _read_attrition(table: RawTable | None, problems: list[Problem],
-                    offices: Mapping[str, Office], skills: Mapping[str, Skill]) -> dict[
+                    offices: Mapping[str, Office] | None,
+                    skills: Mapping[str, Skill] | None) -> dict[
                         tuple[str, str | None], float]:
     if table is None:
         return {}
@@ -740,14 +905,14 @@ def _read_budgets(table: RawTable, problems: list[Problem],
     years = {p.year for p in periods}
     for row in rows:
         year = rows.text(row, "year")
+        hiring = rows.number(row, "hiring", required=False)
+        moves = rows.number(row, "moves", required=False)
         if year is not None and year not in years and periods:
             rows.error("year", f"budget year '{year}' belongs to no period; expected one of "
                        + ", ".join(sorted(years)))
             continue
-        hiring = rows.number(row, "hiring", required=False)
-        moves = rows.number(row, "moves", required=False)
         if _unique(rows, "year", year, seen) and year is not None:
-            if hiring is None:
+            if not row.get("hiring"):  # blank; a value that could not be read is an error
                 rows.warn("hiring", f"no hiring cap for {year}")
             out.append(Budget(year, hiring, moves))
     listed = {b.year for b in out}

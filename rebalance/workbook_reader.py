@@ -25,6 +25,7 @@ from rebalance.readers import (
     COLUMNS,
     OPTIONAL_TABLES,
     REQUIRED_TABLES,
+    SETTINGS_KEYS,
     InstanceError,
     Problem,
     RawTable,
@@ -36,17 +37,6 @@ __all__ = ["SETTINGS_KEYS", "folder_to_workbook", "read_workbook"]
 SETTINGS_SHEET = "settings"
 PERIODS_SHEET = "periods"
 PERIOD_COLUMNS = ("name", "year", "hours_per_fte")
-# Every key settings.toml understands, dotted (horizon.periods is the periods sheet instead).
-SETTINGS_KEYS = (
-    "horizon.start", "horizon.count", "horizon.hours_per_fte", "horizon.periods_per_year",
-    "policy.max_away_share", "policy.max_consecutive_detail_periods",
-    "move_costs.detail_cost_per_period", "move_costs.relocation_cost",
-    "move_costs.same_location_detail_cost_per_period",
-    "move_costs.same_location_relocation_cost",
-    "objective.mode", "objective.shortfall_cost", "objective.shortfall_tolerance",
-    "solver.name", "solver.time_limit_seconds", "solver.relative_gap", "solver.threads",
-    "solver.seed",
-)
 _NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
 _PERIOD_KEY = re.compile(r"^horizon\.periods\[(\d+)\](?:\.(\w+))?$")
 
@@ -59,6 +49,7 @@ class _Sheet:
     rows: tuple[dict[str, str], ...]
     raw_rows: tuple[tuple[Any, ...], ...]  # typed cell values, for the settings sheet
     overlong_rows: tuple[int, ...] = ()  # rows with filled cells past the header
+    unnamed_cells: tuple[tuple[int, int], ...] = ()  # (row, column) filled under no name
     # (row, column) of formulas the file holds no value for: they would read as blank.
     unsaved_formulas: tuple[tuple[int, str], ...] = ()
 
@@ -94,7 +85,8 @@ def read_workbook(path: str | Path) -> Instance:
         sheet = sheets.get(name)
         if sheet is not None:
             tables[name] = RawTable(label(name), sheet.columns, sheet.rows,
-                                    overlong_rows=sheet.overlong_rows)
+                                    overlong_rows=sheet.overlong_rows,
+                                    unnamed_cells=sheet.unnamed_cells)
         elif name in REQUIRED_TABLES:
             problems.append(Problem(label(name), None, None, "sheet is missing"))
     known = set(REQUIRED_TABLES + OPTIONAL_TABLES + (SETTINGS_SHEET, PERIODS_SHEET))
@@ -168,12 +160,13 @@ def _load_sheets(path: Path) -> tuple[dict[str, _Sheet], list[Problem]]:
 def _sheet(header: list[str], values: list[tuple[Any, ...]],
            texts: Iterable[tuple[Any, ...]]) -> _Sheet:
     """A sheet from its header, its cells' values and their texts (formulas as written)."""
-    rows, overlong = [], []
+    rows, overlong, unnamed = [], [], []
     for number, cells in enumerate(values[1:], 2):
         padded = list(cells) + [None] * (len(header) - len(cells))
         rows.append({h: _text(padded[i]) for i, h in enumerate(header) if h})
         if any(_text(c) for c in cells[len(header):]):
             overlong.append(number)
+        unnamed += [(number, i + 1) for i, h in enumerate(header) if not h and _text(padded[i])]
     unsaved = []
     for number, (cells, row_texts) in enumerate(zip(values, texts, strict=False), 1):
         for i, (value, text) in enumerate(zip(cells, row_texts, strict=False)):
@@ -181,7 +174,7 @@ def _sheet(header: list[str], values: list[tuple[Any, ...]],
                 column = header[i] if i < len(header) and header[i] else f"column {i + 1}"
                 unsaved.append((number, column))
     return _Sheet(tuple(header), tuple(rows), tuple(values[1:]), tuple(overlong),
-                  tuple(unsaved))
+                  tuple(unnamed), tuple(unsaved))
 
 
 def _text(value: Any) -> str:

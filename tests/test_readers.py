@@ -135,3 +135,74 @@ def test_one_fault_on_many_rows_is_listed_ten_times_and_counted(tmp_path):
     named = [t for t in text if t.startswith("staff.csv") and "'hollin-cross'" in t]
     assert staff_rows > 11 and len(named) == 11
     assert named[-1].endswith(f"(and {staff_rows - 10} more rows like this)")
+
+
+def _problems(target: Path) -> list[str]:
+    with pytest.raises(InstanceError) as caught:
+        read_instance(target)
+    return [str(p) for p in caught.value.problems if not p.is_warning]
+
+
+def test_one_fault_in_a_table_that_names_things_is_said_once(tmp_path):
+    # Each had drawn a problem per row that names an office, skill or period (a docs audit:
+    # 162 "unknown office" lines for one renamed header on the demo).
+    cases = {
+        "offices.csv": ("office,location,", "office,place,"),       # a required column renamed
+        "skills.csv": ("review,20000,", "review,20k,"),             # one bad cell in a row
+        "settings.toml": ("[policy]", "[policy"),                   # not TOML
+    }
+    for i, (file, (old, new)) in enumerate(cases.items()):
+        target = overlay(BAD / "empty_demand", tmp_path / f"i{i}")
+        shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+        (target / file).write_text((target / file).read_text().replace(old, new))
+        problems = _problems(target)
+        assert len(problems) == 1, problems
+        assert problems[0].startswith(file)
+
+
+def test_a_byte_order_mark_in_settings_is_read(tmp_path):
+    target = overlay(BAD / "empty_demand", tmp_path / "i")
+    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    settings = target / "settings.toml"
+    settings.write_bytes(b"\xef\xbb\xbf" + settings.read_bytes())
+    assert len(read_instance(target).periods) == 4
+
+
+def test_a_setting_nothing_reads_is_a_warning_and_true_is_no_number(tmp_path):
+    target = overlay(BAD / "empty_demand", tmp_path / "i")
+    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    settings = target / "settings.toml"
+    text = settings.read_text().replace("max_away_share", "max_away_shares")
+    settings.write_text(text + "\n[extras]\nflag = 1\n")
+    warnings = read_instance(target).warnings
+    assert ("settings.toml: policy.max_away_shares: unknown key, ignored (expected one of: "
+            "max_away_share, max_consecutive_detail_periods)") in warnings
+    assert any(w.startswith("settings.toml: extras: unknown section") for w in warnings)
+    settings.write_text(text.replace("hours_per_fte = 480", "hours_per_fte = true"))
+    assert _problems(target) == [
+        "settings.toml: horizon.hours_per_fte: 'True' is not a number > 0"]
+
+
+def test_a_blank_proficiency_is_one_and_every_bad_budget_cell_is_said(tmp_path):
+    target = overlay(BAD / "empty_demand", tmp_path / "i")
+    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    staff = target / "staff.csv"
+    staff.write_text(staff.read_text().replace("a1,A,1.0,review:1.0", "a1,A,1.0,review:"))
+    a1 = next(p for p in read_instance(target).staff if p.person == "a1")
+    assert a1.skills == (("review", 1.0),)
+    (target / "budget.csv").write_text("year,hiring,moves\n2031,lots,-5\n2027,-5,\n")
+    problems = _problems(target)
+    assert problems == [
+        "budget.csv:2: hiring: 'lots' is not a number; expected a number >= 0",
+        "budget.csv:2: moves: '-5' is out of range; expected a number >= 0",
+        "budget.csv:2: year: budget year '2031' belongs to no period; expected one of 2027",
+        "budget.csv:3: hiring: '-5' is out of range; expected a number >= 0"]
+
+
+def test_a_count_of_problems_counts_the_rows_a_repeat_stands_for():
+    from rebalance.readers import Problem, collapse_repeats, count_problems
+
+    problems = [Problem("staff.csv", row, "home_office", "unknown office 'X'")
+                for row in range(2, 17)]
+    listed = collapse_repeats(problems)
+    assert len(listed) == 11 and count_problems(listed) == 15

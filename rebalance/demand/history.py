@@ -21,11 +21,13 @@ import pandas as pd
 
 from rebalance.readers import (
     InstanceError,
+    NotUtf8,
     Problem,
     RawTable,
     TableRows,
-    overlong_problems,
     read_csv_table,
+    read_utf8,
+    table_problems,
 )
 
 __all__ = [
@@ -235,7 +237,7 @@ def read_history(folder: str | Path, offices: set[str] | None, skills: set[str] 
         file = path / f"{stem}.csv"
         if file.is_file():
             tables[stem] = read_csv_table(file)
-            problems += overlong_problems(tables[stem])
+            problems += table_problems(tables[stem])
         elif needed:
             problems.append(Problem(f"{stem}.csv", None, None, "file is missing"))
             tables[stem] = RawTable(f"{stem}.csv", required, ())
@@ -261,9 +263,12 @@ def _read_settings(file: Path, skills: set[str] | None, problems: list[Problem]
     if not file.is_file():
         return DemandSettings()
     try:
-        raw = tomllib.loads(file.read_text(encoding="utf-8"))
+        raw = tomllib.loads(read_utf8(file))
     except tomllib.TOMLDecodeError as exc:
         problems.append(Problem("demand.toml", None, None, f"not valid TOML: {exc}"))
+        return DemandSettings()
+    except NotUtf8 as exc:
+        problems.append(Problem("demand.toml", exc.row, None, str(exc)))
         return DemandSettings()
     priority: dict[str, float] = {}
     for skill, value in raw.get("priority", {}).items():

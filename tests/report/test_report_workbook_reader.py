@@ -167,6 +167,32 @@ def test_what_a_blank_would_hide_is_an_error(tmp_path):
     assert any(t.startswith("tiny.xlsx[Budget ]: a second sheet of this name") for t in text)
 
 
+def test_a_column_named_twice_or_not_at_all_is_an_error(tmp_path):
+    # A docs audit: with two fte columns the last one was read (81 FTE-periods for 9.5), and
+    # a value under a column with no name was dropped; TRUE typed as hours per FTE read as 1.
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    demand = wb["demand"]
+    demand.cell(1, demand.max_column + 1, "fte")
+    demand.cell(2, demand.max_column, 9)
+    offices = wb["offices"]
+    offices.cell(2, 5, 5)  # under an empty header cell, left of a named one
+    offices.cell(1, 6, "note")
+    ws = wb["settings"]
+    ws.cell(_settings_row(ws, "horizon.hours_per_fte"), 2, True)
+    wb.save(book)
+    with pytest.raises(InstanceError) as caught:
+        read_workbook(book)
+    text = [str(p) for p in caught.value.problems if not p.is_warning]
+    assert "tiny.xlsx[demand]:1: fte: is a column name 2 times; expected each column once" \
+        in text, text
+    assert not any(t.startswith("tiny.xlsx[demand]:2") for t in text), text  # rows unread
+    assert any(t.startswith("tiny.xlsx[offices]:2: column 5: a value under a column with no "
+                            "name") for t in text), text
+    assert any(t.startswith("tiny.xlsx[settings]:") and "horizon.hours_per_fte: 'True' is not "
+               "a number > 0" in t for t in text), text
+
+
 def test_a_header_moved_down_is_said_first(tmp_path):
     book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
     wb = load_workbook(book)

@@ -7,6 +7,7 @@ import sys
 from pathlib import Path
 
 import numpy as np
+import pytest
 import scipy.sparse as sp
 
 from rebalance.backends import HighsBackend
@@ -352,3 +353,46 @@ def test_cbc_is_stopped_in_its_overtime_once_its_log_shows_a_plan(tmp_path):
     time.sleep(1.0)
     assert guard.fired
     guard.stop()
+
+
+def test_cbc_log_lines_reach_the_file_while_cbc_runs(tmp_path):
+    # A sweep found the demo's CBC log empty from 3 s to 19 s (C's stdio holds a file's output
+    # back in 4 KiB blocks), so no progress line showed and the check for a first plan could
+    # not fire. Through the launcher, what the log holds mid-run ends with a whole line.
+    # The model: a market split instance (Cornuejols and Dawande, "A class of hard small 0-1
+    # programs", IPCO 1998), hard for branch and bound at 40 binaries, so CBC is still busy.
+    import random
+    import shutil
+    import subprocess
+    import time
+
+    import pulp
+
+    from rebalance.backends import _bundled_cbc, _cbc_launcher
+
+    if shutil.which("stdbuf") is None:
+        pytest.skip("no stdbuf here: CBC's log comes in blocks (documented)")
+    assert _cbc_launcher() != _bundled_cbc()
+    rng = random.Random(1)
+    prob = pulp.LpProblem("market_split", pulp.LpMinimize)
+    x = [prob.add_variable(f"x{j}", cat=pulp.LpBinary) for j in range(40)]
+    over = [prob.add_variable(f"s{i}", lowBound=0) for i in range(5)]
+    under = [prob.add_variable(f"t{i}", lowBound=0) for i in range(5)]
+    prob += pulp.lpSum(over) + pulp.lpSum(under)
+    for i in range(5):
+        a = [rng.randint(0, 99) for _ in x]
+        prob += pulp.lpSum(c * v for c, v in zip(a, x, strict=True)) + over[i] - under[i] \
+            == sum(a) // 2
+    mps = tmp_path / "split.mps"
+    prob.writeMPS(str(mps))
+    log = tmp_path / "cbc.log"
+    with log.open("w") as out:
+        run = subprocess.Popen([_cbc_launcher(), str(mps), "-sec", "6", "-solve"],
+                               stdin=subprocess.DEVNULL, stdout=out, stderr=out)
+        time.sleep(3.0)
+        mid_run = log.read_text()
+        still_running = run.poll() is None
+        run.wait()
+    assert still_running
+    assert mid_run and mid_run.endswith("\n")
+    assert log.read_text().startswith(mid_run)

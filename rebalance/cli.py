@@ -16,16 +16,21 @@ from __future__ import annotations
 import argparse
 import json
 import math
+import os
 import sys
 import time
 from collections.abc import Callable, Sequence
 from dataclasses import replace
 from pathlib import Path
+from typing import TYPE_CHECKING, Any, TextIO
 
 from rebalance.backends import raise_if_stopped, stoppable
 from rebalance.instance import Instance
 from rebalance.readers import InstanceError, read_instance
 from rebalance.solve import Status
+
+if TYPE_CHECKING:
+    from rebalance.planning import PlanResult
 
 EXIT_OK = 0
 EXIT_INTERNAL = 1
@@ -99,7 +104,11 @@ def cmd_plan(args: argparse.Namespace) -> int:
         return EXIT_VERIFICATION_FAILED
     from rebalance.report.files import plan_extras
 
-    write_outputs(result, args.out, extra=plan_extras(args.instance))
+    def extra(result: PlanResult, folder: Path) -> None:
+        _keep_frontier(args.out, folder)  # first: the report shows it
+        plan_extras(args.instance)(result, folder)
+
+    write_outputs(result, args.out, extra=extra)
     print(f"\nplan written to {args.out}/")
     return EXIT_OK
 
@@ -121,6 +130,16 @@ def cmd_verify(args: argparse.Namespace) -> int:
 
 def cmd_demand(args: argparse.Namespace) -> int:
     from rebalance.demand import HistoryError, format_demand_summary, run_demand, write_demand
+    from rebalance.files import output_problem
+
+    # OUT is an instance folder by design (demand.csv is written into it); the report folder
+    # is replaced whole, so it must be a new or empty folder or an earlier report: a
+    # --report typed as a folder of other files had been wiped.
+    report = args.report or str(Path(args.out) / "demand_report")
+    refused = output_problem(report, "demand_report")
+    if refused is not None:
+        _err(refused)
+        return EXIT_USAGE
 
     try:
         result = run_demand(args.history, args.out)
@@ -249,7 +268,8 @@ def _write_analysis_plan(args: argparse.Namespace, result, instance: Instance,
     from rebalance.planning import CAUTION, write_outputs
     from rebalance.report.files import plan_extras
 
-    def extra(result, folder: Path) -> None:
+    def extra(result: PlanResult, folder: Path) -> None:
+        assert result.plan is not None  # write_outputs writes only a plan
         write_tables({**tables, "reasons.csv": reasons(instance, result.plan).table}, folder)
         if more is not None:
             more(folder)
@@ -405,20 +425,31 @@ def cmd_frontier(args: argparse.Namespace) -> int:
         _err(f"warning: {year} has no cap to scale; every point leaves it uncapped")
     frontier = budget_frontier(instance, grid, _analysis_options(instance, args),
                                workers=args.workers)
+    shown = frontier.table[["point", "hiring_budget", "moves_budget", "status", "gap",
+                            "weighted_shortfall", "total_cost", "knee"]]
+    print(shown.astype(object).where(shown.notna(), "").to_string(index=False))
+    print(f"\nhiring_budget and moves_budget: {frontier.table['budget_unit'].iloc[0]}; an "
+          "empty moves_budget keeps the instance's caps")
+    # A point without a plan (infeasible, out of time) is a result the table reports; a plan
+    # that fails verification is a fault, and its figures would mislead: nothing is written.
+    failed = [(point, result) for point, result in zip(
+        frontier.table["point"], frontier.results, strict=True)
+        if result.plan is not None and not result.verified]
+    for point, result in failed:
+        _err(f"point {point}: the plan failed verification")
+        for violation in result.violations[:20]:
+            _err(f"  {violation}")
+    if failed:
+        _err("nothing was written")
+        return EXIT_VERIFICATION_FAILED
     out = Path(args.out)
     fresh = not out.exists() or not any(out.iterdir())
     path = write_table(frontier.table, out / "frontier.csv")
     if fresh:
         # A folder it made is an analysis folder: a plan or analysis may join it later.
         mark_folder(out, "plan")
-    shown = frontier.table[["point", "hiring_budget", "moves_budget", "status", "gap",
-                            "weighted_shortfall", "total_cost", "knee"]]
-    print(shown.astype(object).where(shown.notna(), "").to_string(index=False))
-    print(f"\nhiring_budget and moves_budget: {frontier.table['budget_unit'].iloc[0]}; an "
-          "empty moves_budget keeps the instance's caps")
     print(f"\nwrote {path}")
-    failed = [r for r in frontier.results if r.plan is not None and not r.verified]
-    return EXIT_VERIFICATION_FAILED if failed else EXIT_OK
+    return EXIT_OK
 
 
 def cmd_marginal(args: argparse.Namespace) -> int:
@@ -597,7 +628,51 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+class _ReaderMayLeave:
+    """A standard stream whose reader may go away (``rebalance check X | head -1``): from
+    then on the rest goes to the null device, as the Python docs advise for SIGPIPE, instead
+    of a BrokenPipeError.  The run still finishes and writes what it was asked to write."""
+
+    def __init__(self, stream: TextIO) -> None:
+        self.stream = stream
+
+    def write(self, text: str) -> int:
+        try:
+            return self.stream.write(text)
+        except BrokenPipeError:
+            self._to_null()
+            return len(text)
+
+    def flush(self) -> None:
+        try:
+            self.stream.flush()
+        except BrokenPipeError:
+            self._to_null()
+
+    def _to_null(self) -> None:
+        # The descriptor, not just this object: the interpreter's last flush at exit and
+        # anything else writing to it would meet the closed pipe again.
+        null = os.open(os.devnull, os.O_WRONLY)
+        try:
+            os.dup2(null, self.stream.fileno())
+        finally:
+            os.close(null)
+
+    def __getattr__(self, name: str) -> Any:
+        return getattr(self.stream, name)
+
+
 def main(argv: Sequence[str] | None = None) -> int:
+    streams = sys.stdout, sys.stderr
+    sys.stdout, sys.stderr = _ReaderMayLeave(sys.stdout), _ReaderMayLeave(sys.stderr)
+    try:
+        return _main(argv)
+    finally:
+        sys.stdout.flush()  # through the guard (--help too): what is still buffered may meet
+        sys.stdout, sys.stderr = streams  # a reader that has gone
+
+
+def _main(argv: Sequence[str] | None) -> int:
     args = build_parser().parse_args(argv)
     from rebalance.files import OutputInUse, output_problem
 

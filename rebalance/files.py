@@ -10,7 +10,8 @@ import shutil
 from collections.abc import Iterator
 from pathlib import Path
 
-__all__ = ["OutputInUse", "mark_folder", "output_problem", "sibling_name", "staged_folder"]
+__all__ = ["OutputInUse", "instance_file", "mark_folder", "output_problem", "sibling_name",
+           "staged_folder"]
 
 # Written into every folder staged with a kind: its content names the kind, so a later run
 # replaces only a folder of the same kind that this tool wrote.
@@ -35,25 +36,55 @@ def output_problem(out_dir: str | Path, kind: str | None) -> str | None:
 
     It may be replaced where it does not exist, is an empty folder, or is a ``kind`` folder
     this tool wrote (its marker says so; a plan folder from before the marker has its
-    summary.json).  Anything else (an instance folder, a folder of the user's own files, a
-    file) would be destroyed by the swap: one ``-o`` typed as the instance's folder had
-    wiped the instance.  ``kind`` None: only a file in the way is a problem.
+    summary.json, a demand report its qc_verdict.txt).  Anything else (an instance folder, a
+    folder of the user's own files, a file) would be destroyed by the swap: one ``-o`` typed
+    as the instance's folder had wiped the instance.  ``kind`` None (files are added, none
+    removed): only a file in the way, or a folder holding an instance
+    (:func:`instance_file`), is a problem.
     """
     out = Path(out_dir)
     if not out.exists():
         return None
     if not out.is_dir():
         return f"{out}: is a file, not a folder; nothing was written"
-    if kind is None or not any(out.iterdir()):
+    if not any(out.iterdir()):
         return None
+    if kind is None:
+        # Files are added beside what is there, but not into an instance: a frontier.csv
+        # typed into the instance's own folder had been written there.
+        found = instance_file(out)
+        return None if found is None else (
+            f"{out}: holds an instance ({found.name}); give another folder for the output, "
+            "such as a plan folder; nothing was written")
     marker = out / MARKER
     if marker.is_file():
         if marker.read_text(encoding="utf-8").strip() == kind:
             return None
     elif kind == "plan" and (out / "summary.json").is_file():
         return None
+    elif kind == "demand_report" and (out / "qc_verdict.txt").is_file():
+        return None  # demand reports are not marked; each has its verdict
     return (f"{out}: already holds files that are not a {kind} folder written by rebalance; "
             "nothing was written (give a new or empty folder, or remove this one)")
+
+
+def instance_file(folder: Path) -> Path | None:
+    """The file that makes ``folder`` an instance: its settings.toml, or a workbook with a
+    settings or staff sheet (an instance workbook's; plan.xlsx has neither), else None."""
+    if (folder / "settings.toml").is_file():
+        return folder / "settings.toml"
+    for path in sorted(folder.glob("*.xlsx")):
+        try:
+            from openpyxl import load_workbook
+
+            book = load_workbook(path, read_only=True)
+            names = {name.strip().lower() for name in book.sheetnames}
+            book.close()
+        except Exception:  # not a workbook the readers could read as an instance either
+            continue
+        if names & {"settings", "staff"}:
+            return path
+    return None
 
 
 def mark_folder(folder: Path, kind: str) -> None:

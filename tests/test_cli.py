@@ -223,3 +223,104 @@ def test_a_plan_folder_is_replaced_by_the_next_run(tmp_path):
     empty = tmp_path / "empty"
     empty.mkdir()
     assert main(["plan", str(instance), "-o", str(empty), "--quiet"]) == EXIT_OK
+
+
+def test_a_plan_keeps_the_frontier_already_in_its_folder(tmp_path):
+    # frontier.csv belongs to the instance, not to one plan: a plan written over the folder
+    # had dropped it, where the analysis commands carry it over.
+    out = tmp_path / "analysis"
+    assert main(["frontier", str(DATA / "tiny"), "--hiring", "0.5x,1x,2x", "-o", str(out),
+                 "--workers", "1", "-q"]) == EXIT_OK
+    frontier = (out / "frontier.csv").read_bytes()
+    assert main(["plan", str(DATA / "tiny"), "-o", str(out), "--threads", "1", "-q"]) == EXIT_OK
+    assert (out / "frontier.csv").read_bytes() == frontier
+    assert (out / "summary.json").is_file()
+    assert 'id="frontier"' in (out / "report.html").read_text(encoding="utf-8")
+
+
+def test_a_frontier_with_an_unverified_plan_writes_nothing(tmp_path, monkeypatch, capsys):
+    # docs/analysis.md: a command whose plan fails verification writes nothing, exit 6.
+    import rebalance.planning as planning
+    from rebalance.verify import Violation
+
+    monkeypatch.setattr(planning, "verify_plan",
+                        lambda instance, plan: [Violation("test", "here", "made to fail")])
+    fresh, kept = tmp_path / "fresh", tmp_path / "kept"
+    kept.mkdir()
+    (kept / "frontier.csv").write_text("an earlier frontier\n")
+    for out in (fresh, kept):
+        assert main(["frontier", str(DATA / "tiny"), "--hiring", "1x,2x", "-o", str(out),
+                     "--workers", "1", "-q"]) == EXIT_VERIFICATION_FAILED
+        err = capsys.readouterr().err
+        assert "point 1: the plan failed verification" in err
+        assert "test: here: made to fail" in err and "nothing was written" in err
+    assert not fresh.exists()
+    assert sorted(p.name for p in kept.iterdir()) == ["frontier.csv"]
+    assert (kept / "frontier.csv").read_text() == "an earlier frontier\n"
+
+
+def test_outputs_that_would_land_in_an_instance_are_refused(tmp_path, capsys):
+    # README: -o holding the instance itself is refused before any solve.  frontier adds
+    # frontier.csv to any other folder, so an instance is what it must not write into.
+    from rebalance.cli import EXIT_USAGE
+    from rebalance.workbook_reader import folder_to_workbook
+
+    copy = tmp_path / "copy"
+    shutil.copytree(DATA / "tiny", copy)
+    before = sorted(p.name for p in copy.iterdir())
+    assert main(["frontier", str(copy), "--hiring", "1x", "-o", str(copy), "-q"]) == EXIT_USAGE
+    assert "holds an instance (settings.toml)" in capsys.readouterr().err
+    assert sorted(p.name for p in copy.iterdir()) == before
+    # An instance workbook in the folder counts too; plan.xlsx of a plan folder does not.
+    books = tmp_path / "books"
+    books.mkdir()
+    folder_to_workbook(DATA / "tiny", books / "tiny.xlsx")
+    assert main(["frontier", str(books / "tiny.xlsx"), "--hiring", "1x", "-o", str(books),
+                 "-q"]) == EXIT_USAGE
+    assert "holds an instance (tiny.xlsx)" in capsys.readouterr().err
+    assert sorted(p.name for p in books.iterdir()) == ["tiny.xlsx"]
+    plan = tmp_path / "plan"
+    assert main(["plan", str(DATA / "tiny"), "-o", str(plan), "--threads", "1", "-q"]) == EXIT_OK
+    (plan / "notes.txt").write_text("mine\n")
+    assert main(["frontier", str(DATA / "tiny"), "--hiring", "1x", "-o", str(plan),
+                 "--workers", "1", "-q"]) == EXIT_OK
+    assert (plan / "frontier.csv").is_file() and (plan / "notes.txt").is_file()
+
+
+def test_demand_report_folder_of_other_files_is_refused(tmp_path, capsys):
+    # OUT is an instance folder by design (demand.csv goes into it), but the report folder
+    # is replaced whole: a --report holding anything else had been wiped.
+    from rebalance.cli import EXIT_USAGE
+
+    mine = tmp_path / "mine"
+    mine.mkdir()
+    (mine / "notes.txt").write_text("keep me\n")
+    instance = tmp_path / "demo"
+    shutil.copytree(ROOT / "instances" / "demo", instance)
+    demand = (instance / "demand.csv").read_bytes()
+    assert main(["demand", str(ROOT / "instances" / "demo_history"), "-o", str(instance),
+                 "--report", str(mine)]) == EXIT_USAGE
+    assert "not a demand_report folder" in capsys.readouterr().err
+    assert [p.name for p in mine.iterdir()] == ["notes.txt"]
+    assert (instance / "demand.csv").read_bytes() == demand
+
+
+@pytest.mark.parametrize("command", [
+    ["plan", str(DATA / "tiny"), "-o", "{out}", "--threads", "1"],
+    ["check", str(ROOT / "instances" / "demo")],
+])
+def test_a_reader_that_leaves_early_is_no_error(tmp_path, command):
+    # `rebalance ... | head -1`: the reader closes the pipe before the output ends.  No
+    # traceback, no "internal error"; the command finishes (the plan is written).
+    out = tmp_path / "plan"
+    args = [part.format(out=out) for part in command]
+    run = subprocess.Popen([sys.executable, "-m", "rebalance.cli", *args],
+                           stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, cwd=ROOT)
+    assert run.stdout is not None and run.stderr is not None
+    run.stdout.close()  # gone before anything is printed
+    err = run.stderr.read()
+    run.wait(timeout=300)
+    assert run.returncode == EXIT_OK, err
+    assert "internal error" not in err and "Traceback" not in err and "Broken" not in err
+    if command[0] == "plan":
+        assert (out / "summary.json").is_file()

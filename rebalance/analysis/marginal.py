@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import math
 from collections import defaultdict
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, replace
 
 import numpy as np
@@ -198,6 +198,46 @@ def _rows_of(model: Model, candidate: Candidate, instance: Instance) -> list[tup
     return out
 
 
+# Limits the model writes into hire columns' upper bounds as well as into rows: an office
+# and period with one possible start, or one vacancy-funded column, gets a bound, not a row.
+BOUND_LIMITS = ("max_hires", "vacancies")
+
+
+def _bound_change(model: Model, duals: np.ndarray, objective_of: Callable[[Model], np.ndarray],
+                  candidate: Candidate, instance: Instance, x: np.ndarray) -> float:
+    """First-order objective change at the LP's prices from the hire columns' upper bounds
+    that relaxing ``candidate`` raises (within the one-unit box of :func:`lp_row_duals`) or
+    opens (a column the relaxed model has and this one lacks, boxed to [0, 1] at 0)."""
+    if candidate.limit not in BOUND_LIMITS:
+        return 0.0
+    other = build_model(candidate.relax(instance))
+    # Prices of the relaxed model's rows: this model's, by label; a row only it has (a new
+    # max_hires row, say) is slack at the plan, where the new columns are 0, so priced 0.
+    row_of = {(f.name, label): f.start + i for f in model.rows
+              for i, label in enumerate(f.labels)}
+    prices = np.zeros(other.num_rows)
+    for f in other.rows:
+        for i, label in enumerate(f.labels):
+            r = row_of.get((f.name, label))
+            if r is not None:
+                prices[f.start + i] = duals[r]
+    reduced = objective_of(other) - other.matrix.T @ prices  # HiGHS: c - A^T y
+    keys = ("office", "skill", "period", "new")
+    here, there = model.blocks["hire"], other.blocks["hire"]
+    col_of = {tuple(int(here.keys[k][j]) for k in keys): here.start + j
+              for j in range(len(here))}
+    change = 0.0
+    for j in range(len(there)):
+        col = col_of.get(tuple(int(there.keys[k][j]) for k in keys))
+        top = 1.0 if col is None else float(np.rint(x[col])) + 1.0
+        before = 0.0 if col is None else min(float(model.col_upper[col]), top)
+        raised = min(float(other.col_upper[there.start + j]), top) - before
+        if raised > 0:
+            # A negative reduced cost holds the column at its upper bound.
+            change += min(float(reduced[there.start + j]), 0.0) * raised
+    return change
+
+
 def marginal_values(base: PlanResult, options: SolveOptions, steps: Steps = Steps(),
                     workers: int = 2, max_resolves: int | None = None,
                     candidates: Sequence[Candidate] | None = None) -> MarginalValues:
@@ -205,23 +245,33 @@ def marginal_values(base: PlanResult, options: SolveOptions, steps: Steps = Step
     instance = base.instance
     chosen = list(candidates) if candidates is not None else binding_candidates(base, steps)
     estimates = [math.nan] * len(chosen)
+    no_lp = "the plan's LP could not be built"  # said where an estimate is missing
     if base.solve.x is not None and chosen:
         model = build_model(instance)
         if model.num_cols == base.solve.x.size:
-            objective = (model.shortfall_weight if options.mode == "shortfall-first"
-                         else model.cost + options.shortfall_cost * model.shortfall_weight)
-            duals = lp_row_duals(model, base.solve.x, objective,
+            def objective_of(m: Model) -> np.ndarray:
+                return (m.shortfall_weight if options.mode == "shortfall-first"
+                        else m.cost + options.shortfall_cost * m.shortfall_weight)
+
+            x = base.solve.x
+            duals = lp_row_duals(model, x, objective_of(model),
                                  min(ESTIMATE_SECONDS, options.time_limit_seconds))
             scale = 1.0 if options.mode == "shortfall-first" else options.shortfall_cost
+            no_lp = "the LP was not solved to optimality in time"
             if duals is not None:
                 for c, cand in enumerate(chosen):
+                    if cand.limit == "time_to_hire":
+                        continue  # not a row nor a bound: it moves which columns exist
                     moved = _rows_of(model, cand, instance)
-                    if moved:
-                        linear = -sum(duals[r] * d for r, d in moved) / scale
-                        # A linear extrapolation: it cannot remove more shortfall than there
-                        # is, nor add any (relaxing a limit never hurts).
-                        ceiling = base.plan.weighted_shortfall if base.plan else math.inf
-                        estimates[c] = min(max(linear, 0.0), ceiling)
+                    # Bounds only where the limit has no row: pricing them builds the relaxed
+                    # model, seconds apiece at agency scale.
+                    change = (sum(duals[r] * d for r, d in moved) if moved else _bound_change(
+                        model, duals, objective_of, cand, instance, x))
+                    # A linear extrapolation: it cannot remove more shortfall than there
+                    # is, nor add any (relaxing a limit never hurts).  A limit with neither
+                    # row nor bound in the model constrains nothing in it: 0.
+                    ceiling = base.plan.weighted_shortfall if base.plan else math.inf
+                    estimates[c] = min(max(-change / scale, 0.0), ceiling) + 0.0  # no -0.0
     # Best estimates first; limits with no estimate (time to hire: not a row) after them.
     order = sorted(range(len(chosen)), key=lambda c: (
         (0, -estimates[c], c) if math.isfinite(estimates[c]) else (1, 0.0, c)))
@@ -235,16 +285,21 @@ def marginal_values(base: PlanResult, options: SolveOptions, steps: Steps = Step
     plan = base.plan
     for c, cand in enumerate(chosen):
         result = results[c]
+        # An empty estimate says why in words: the CSV shows NaN as an empty cell.
+        estimate = ("estimate from LP duals" if math.isfinite(estimates[c])
+                    else "no estimate (time to hire is not a row or bound of the LP)"
+                    if cand.limit == "time_to_hire"
+                    else f"no estimate ({no_lp})")
         row: dict[str, object] = {
             "limit": cand.limit, "where": cand.where, "current": cand.current,
             "step": cand.step, "unit": cand.unit, "binding_rows": cand.binding_rows,
             "estimate_shortfall_reduction": estimates[c],
-            "method": "re-solve with the limit relaxed; estimate from LP row duals",
+            "method": f"re-solve with the limit relaxed; {estimate}",
         }
         if result is None:
             # Nothing was solved, so nothing verified or failed: the row has its estimate only.
             row.update({"status": "not re-solved", "verified": None,
-                        "method": "estimate from LP row duals only (not re-solved)"})
+                        "method": f"{estimate}; not re-solved"})
         else:
             row.update({"status": result.status.value, "verified": result.verified,
                         "gap": _gap(base, result)})

@@ -16,7 +16,7 @@ from typing import Any
 import pandas as pd
 
 from rebalance.report.htmlparts import chart, e, frame_table_html, section
-from rebalance.report.inputs import ReportData
+from rebalance.report.inputs import SHEET_ONLY, ReportData
 
 __all__ = ["AnalysisView", "analysis_payload", "find_column"]
 
@@ -203,6 +203,8 @@ def analysis_payload(data: ReportData) -> AnalysisView:
         sections.append(section(key, title, e(lead), body))
         nav.append((key, title))
     for name, frame in data.tables:
+        if name in SHEET_ONLY:
+            continue
         title, lead = TABLE_SECTIONS[name]
         sections.append(section(name, title, e(lead), frame_table_html(frame, name, limit=500)))
         nav.append((name, title))

@@ -21,8 +21,9 @@ from rebalance.plan import Plan, read_plan
 from rebalance.planning import CAUTION, PlanResult, summary_dict
 from rebalance.verify import Violation, verify_folder
 
-__all__ = ["ANALYSIS_FILES", "TABLE_FILES", "ReportData", "RunSummary", "StageSummary",
-           "quality_notes", "report_data", "report_data_from_folder", "stored_instance_path"]
+__all__ = ["ANALYSIS_FILES", "SHEET_ONLY", "TABLE_FILES", "ReportData", "RunSummary",
+           "StageSummary", "quality_notes", "report_data", "report_data_from_folder",
+           "stored_instance_path"]
 
 # Analysis tables a plan folder may hold (issue 5 writes them); each section shows only if
 # its file is there.  Several names are accepted for the scenario comparison.
@@ -31,13 +32,18 @@ ANALYSIS_FILES: dict[str, tuple[str, ...]] = {
     "scenarios": ("scenarios.csv", "comparison.csv", "compare.csv"),
     "marginal_values": ("marginal_values.csv",),
 }
-# Further analysis tables shown as they are (no chart): name -> file.
+# Further analysis tables shown as they are (no chart): name -> file.  Each gets a sheet of
+# plan.xlsx, and a section of report.html unless it is in SHEET_ONLY.
 TABLE_FILES: dict[str, str] = {
     "reasons": "reasons.csv",
     "replan": "replan.csv",
     "changes": "changes.csv",
     "scenario_actions": "scenario_actions.csv",
+    "scenario_costs": "scenario_costs.csv",
 }
+# scenario_costs is the cost columns of scenarios.csv stacked long: a sheet to pivot, where
+# the page already charts and lists those figures.
+SHEET_ONLY = frozenset({"scenario_costs"})
 
 
 @dataclass(frozen=True)

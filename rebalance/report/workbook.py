@@ -50,6 +50,7 @@ SHEET_NOTES = {
     "replan": "old plan against the re-plan",
     "changes": "every change the re-plan makes to the old plan",
     "scenario_actions": "actions that differ between scenarios",
+    "scenario_costs": "cost of each scenario's plan by budget year and kind",
 }
 
 

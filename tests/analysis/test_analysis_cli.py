@@ -8,6 +8,7 @@ from pathlib import Path
 
 import pandas as pd
 from conftest import DATA, ROOT
+from openpyxl import load_workbook
 
 from rebalance import read_instance, verify_folder
 from rebalance.analysis.frontier import FRONTIER_COLUMNS
@@ -36,6 +37,9 @@ def test_compare_and_replan(tmp_path: Path) -> None:
     assert table["verified"].all()
     for name in ("scenario_costs.csv", "scenario_actions.csv", "reasons.csv", "report.html"):
         assert (out / name).exists(), name
+    # plan.xlsx has a sheet per analysis table in the folder (docs/instance-format.md).
+    sheets = load_workbook(out / "plan.xlsx", read_only=True).sheetnames
+    assert {"scenarios", "scenario_costs", "scenario_actions", "reasons"} <= set(sheets)
     instance = read_instance(TINY)
     assert verify_folder(instance, out) == []
     assert (out / "scenarios" / "b-surge" / "hires.csv").exists()

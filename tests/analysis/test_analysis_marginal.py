@@ -3,12 +3,13 @@ against scipy's HiGHS interface."""
 
 from __future__ import annotations
 
+import math
 from dataclasses import replace
 
 import numpy as np
 import pytest
 from analysis_helpers import exact_options, feasible_random
-from conftest import solve_verified
+from conftest import scipy_lp, solve_verified
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from scipy.optimize import linprog
@@ -21,7 +22,7 @@ from rebalance.analysis.marginal import (
     marginal_values,
 )
 from rebalance.instance import Budget, Instance
-from rebalance.model import build_model
+from rebalance.model import Model, build_model, without_rounded_rows
 
 
 def _relaxed_by_hand(instance: Instance, limit: str, where: str, steps: Steps) -> Instance:
@@ -143,3 +144,71 @@ def test_limits_not_re_solved_follow_by_their_estimate_and_claim_no_verdict(tiny
     assert estimates == sorted(estimates, reverse=True)
     assert tail["verified"].isna().all()
     assert list(table["rank"]) == list(range(1, len(table) + 1))
+
+
+def _short_at_b(tiny: Instance, b_hires: int) -> Instance:
+    """tiny with six FTE of review demand at B from 2027-Q2, money to hire and none to move,
+    and ``b_hires`` starts allowed per period at B: hiring slots at B are what hold it back."""
+    demand = tuple(replace(d, fte=6.0) if d.office == "B" and d.period >= 1 else d
+                   for d in tiny.demand)
+    offices = tuple(replace(o, max_hires_per_period=b_hires) if o.name == "B" else o
+                    for o in tiny.offices)
+    return tiny.with_changes(demand=demand, offices=offices,
+                             budgets=(Budget("2027", 900_000.0, 0.0),))
+
+
+def _boxed(model: Model, x_of_key: dict[tuple[int, ...], float]) -> tuple[np.ndarray, ...]:
+    """Column bounds of the estimate's LP: integer columns within one unit of the plan's value
+    (hire columns found by key, so a column only this model has is boxed at 0)."""
+    x = np.zeros(model.num_cols)
+    hire = model.blocks["hire"]
+    for j in range(len(hire)):
+        key = tuple(int(hire.keys[k][j]) for k in ("office", "skill", "period", "new"))
+        x[hire.start + j] = x_of_key.get(key, 0.0)
+    lower, upper = model.col_lower.copy(), model.col_upper.copy()
+    integer = model.is_integer
+    lower[integer] = np.maximum(lower[integer], np.rint(x[integer]) - 1)
+    upper[integer] = np.minimum(upper[integer], np.rint(x[integer]) + 1)
+    return lower, upper
+
+
+@pytest.mark.parametrize("b_hires", [1, 0])
+def test_a_limit_held_by_column_bounds_has_an_estimate(tiny: Instance, b_hires: int) -> None:
+    # With one possible start per office and period the model bounds that hire column by the
+    # cap instead of writing a max_hires row (and with a cap of 0 it has no column at all):
+    # the estimate had been NaN.  Reference: the estimate's own LP (integer columns boxed to
+    # one unit around the plan, rounded rows free) solved by scipy's linprog before and after
+    # the relaxation; with a step inside the basis' range the two differ by the estimate.
+    instance = _short_at_b(tiny, b_hires)
+    base = solve_verified(instance)
+    assert base.plan is not None and base.solve.x is not None
+    table = marginal_values(base, exact_options(instance), workers=1).table
+    row = table[(table["limit"] == "max_hires") & (table["where"] == "B")].iloc[0]
+    model = without_rounded_rows(build_model(instance))
+    assert not [f for f in model.rows if f.name == "max_hires" and f.stop > f.start]
+    relaxed_instance = _relaxed_by_hand(instance, "max_hires", "B", Steps())
+    relaxed = without_rounded_rows(build_model(relaxed_instance))
+    hire = model.blocks["hire"]
+    x_of_key = {tuple(int(hire.keys[k][j]) for k in ("office", "skill", "period", "new")):
+                float(base.solve.x[hire.start + j]) for j in range(len(hire))}
+    before = scipy_lp(model, model.shortfall_weight, *_boxed(model, x_of_key))
+    after = scipy_lp(relaxed, relaxed.shortfall_weight, *_boxed(relaxed, x_of_key))
+    assert before.status == 0 and after.status == 0
+    assert before.fun - after.fun > 1.0  # the cap holds the LP back, not only the plan
+    assert row["estimate_shortfall_reduction"] == pytest.approx(before.fun - after.fun,
+                                                                abs=1e-6)
+    # Here one more slot per period buys what the LP says (exact re-solve, gap 0).
+    assert row["shortfall_reduction"] == pytest.approx(before.fun - after.fun, abs=1e-6)
+    # The one limit without an estimate says why in words, not only with an empty cell.
+    [no_estimate] = table[table["limit"] == "time_to_hire"].itertuples()
+    assert math.isnan(no_estimate.estimate_shortfall_reduction)
+    assert "no estimate (time to hire" in no_estimate.method
+
+
+def test_every_limit_but_time_to_hire_has_an_estimate(tiny: Instance) -> None:
+    # tiny's max_hires at B has no row either; no shortfall is left, so every estimate is 0.
+    base = solve_verified(tiny)
+    table = marginal_values(base, exact_options(tiny), workers=1).table
+    assert "max_hires" in set(table["limit"])
+    others = table[table["limit"] != "time_to_hire"]
+    assert (others["estimate_shortfall_reduction"] == 0.0).all()

@@ -119,6 +119,7 @@ def tiny_analysis_folder() -> Path:
     comparison = _comparison(instance)
     comparison.table.to_csv(folder / "scenarios.csv", index=False)
     comparison.actions.to_csv(folder / "scenario_actions.csv", index=False)
+    comparison.costs.to_csv(folder / "scenario_costs.csv", index=False)
     marginal_table(instance).to_csv(folder / "marginal_values.csv", index=False)
     reasons_table(instance).to_csv(folder / "reasons.csv", index=False)
     done = cli("report", str(folder))

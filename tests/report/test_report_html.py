@@ -68,6 +68,9 @@ def test_analysis_sections_appear_only_with_their_tables():
         assert f'id="{anchor}"' not in plain
         assert f'id="{anchor}"' in full
         assert f'data-chart="{anchor}"' in full
+    # scenario_costs.csv is the scenarios' cost columns stacked: a sheet of plan.xlsx only.
+    assert (tiny_analysis_folder() / "scenario_costs.csv").is_file()
+    assert 'id="scenario_costs"' not in full
     payload = _payload(full)
     frontier = pd.read_csv(tiny_analysis_folder() / "frontier.csv")
     lines = payload["frontier"]["series"]

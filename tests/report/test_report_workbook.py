@@ -18,8 +18,10 @@ def test_sheets_summary_first_then_every_plan_table():
     book = load_workbook(tiny_plan_folder() / "plan.xlsx")
     assert book.sheetnames == ["summary", *PLAN_TABLES]
     with_analysis = load_workbook(tiny_analysis_folder() / "plan.xlsx")
+    # Every analysis table present gets a sheet, scenario_costs.csv of compare too.
     assert with_analysis.sheetnames == ["summary", *PLAN_TABLES, "frontier", "scenarios",
-                                        "marginal_values", "reasons", "scenario_actions"]
+                                        "marginal_values", "reasons", "scenario_actions",
+                                        "scenario_costs"]
 
 
 @pytest.mark.parametrize("table", list(PLAN_TABLES))

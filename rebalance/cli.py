@@ -423,6 +423,9 @@ def cmd_frontier(args: argparse.Namespace) -> int:
     grid = BudgetGrid(hiring, moves, factor)
     for year in uncapped_years(instance, grid):
         _err(f"warning: {year} has no cap to scale; every point leaves it uncapped")
+    if instance.objective.mode == "weighted":
+        _err("note: the frontier is the least shortfall each budget buys, so every point is "
+             "solved shortfall first, not in the instance's weighted mode")
     frontier = budget_frontier(instance, grid, _analysis_options(instance, args),
                                workers=args.workers)
     shown = frontier.table[["point", "hiring_budget", "moves_budget", "status", "gap",

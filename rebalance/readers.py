@@ -79,6 +79,7 @@ SETTINGS_KEYS = (
     "solver.seed",
 )
 PERIOD_KEYS = ("name", "year", "hours_per_fte")
+MAX_SHORTFALL_COST = 1e12
 TRUE_WORDS = {"true", "yes", "y", "1"}
 FALSE_WORDS = {"false", "no", "n", "0"}
 
@@ -448,8 +449,10 @@ def _unknown_settings(settings: Mapping[str, Any], problems: list[Problem]) -> N
 
 
 def _number(value: Any) -> TypeGuard[int | float]:
-    """A TOML number: ``true`` is an int to Python, not a number to a planner."""
-    return isinstance(value, int | float) and not isinstance(value, bool)
+    """A finite TOML number: ``true`` is an int to Python, not a number to a planner, and
+    ``inf`` is no number of hours."""
+    return (isinstance(value, int | float) and not isinstance(value, bool)
+            and math.isfinite(value))
 
 
 def _settings_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
@@ -523,12 +526,13 @@ def _settings_sections(settings: Mapping[str, Any], problems: list[Problem]) -> 
             return default
         value = table[key]
         ok = isinstance(value, int) if integer else isinstance(value, int | float)
-        ok = ok and not isinstance(value, bool) and value >= low
+        ok = ok and not isinstance(value, bool) and math.isfinite(value) and value >= low
         ok = ok and (high is None or value <= high)
         if not ok:
             what = _describe(low, high, False, integer)
+            shown = f"{value:g}" if isinstance(value, float) else value  # 1e+13, not 1e13's digits
             problems.append(Problem("settings.toml", None, f"{sec}.{key}",
-                                    f"'{value}' is not valid; expected {what}"))
+                                    f"'{shown}' is not valid; expected {what}"))
             return default
         return value
 
@@ -555,7 +559,10 @@ def _settings_sections(settings: Mapping[str, Any], problems: list[Problem]) -> 
         mode = "shortfall-first"
     objective = Objective(
         mode=mode,
-        shortfall_cost=float(num("objective", obj_t, "shortfall_cost", 100_000.0, 0)),
+        # Past 1e12 the shortfall term swamps cost beyond what solvers' tolerances resolve
+        # (CBC called a feasible model infeasible at 1e100); mode shortfall-first is that.
+        shortfall_cost=float(num("objective", obj_t, "shortfall_cost", 100_000.0, 0,
+                                 MAX_SHORTFALL_COST)),
         shortfall_tolerance=float(num("objective", obj_t, "shortfall_tolerance", 1e-6, 0, 0.1)),
     )
     solver_t = section("solver")

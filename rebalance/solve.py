@@ -709,6 +709,13 @@ def _finish(model: Model, backend: Backend, options: SolveOptions, stages: list[
     if status is Status.INFEASIBLE:
         conflicts = tuple(find_conflicts(model, backend, options,
                                          max(5.0, deadline - time.perf_counter())))
+        if not conflicts:
+            # Every limit held with nothing relaxed: the model is feasible and the verdict
+            # was the solver's numerics (CBC with shortfall_cost 1e100, from a sweep).
+            status = Status.ERROR
+            conflicts = (f"{backend.name} called the model infeasible, but every limit holds "
+                         "in a plan found with nothing relaxed: a numerical failure of the "
+                         "solver (are some numbers extremely large?); try the other solver",)
     return SolveResult(status, last.x if status.has_plan else None, tuple(stages),
                        backend.name, backend.version(), time.perf_counter() - started, conflicts)
 
@@ -716,7 +723,8 @@ def _finish(model: Model, backend: Backend, options: SolveOptions, stages: list[
 def find_conflicts(model: Model, backend: Backend, options: SolveOptions,
                    time_limit: float) -> list[str]:
     """Name the limits that cannot hold together: relax each limit row by an elastic column
-    and minimise the total relaxation; rows that still need relaxing are the conflict."""
+    and minimise the total relaxation; rows that still need relaxing are the conflict.
+    Empty where none needs to: the model was feasible all along."""
     limit_rows = [i for f in model.rows if f.name in LIMIT_FAMILIES
                   for i in range(f.start, f.stop) if math.isfinite(model.row_upper[i])]
     if not limit_rows:
@@ -739,6 +747,8 @@ def find_conflicts(model: Model, backend: Backend, options: SolveOptions,
         return [f"the limits conflict, but the analysis found no relaxation ({out.words})"]
     excess = out.x[model.num_cols:]
     over = np.flatnonzero(excess > 1e-6)
+    if not len(over):
+        return []  # nothing had to give: the caller says the verdict was the solver's
     listed = [_describe_row(model, limit_rows[i], float(excess[i])) for i in over]
     # The least total relaxation is the answer's firm part; how it splits between offices
     # and periods can differ between equally small relaxations (and so between solvers).

@@ -206,3 +206,24 @@ def test_a_count_of_problems_counts_the_rows_a_repeat_stands_for():
                 for row in range(2, 17)]
     listed = collapse_repeats(problems)
     assert len(listed) == 11 and count_problems(listed) == 15
+
+
+def test_settings_numbers_are_finite_and_shortfall_cost_is_bounded(tmp_path):
+    # A sweep of weighted mode: shortfall_cost = inf passed check and then every solve ended
+    # in a solver error; 1e100 made CBC call a feasible model infeasible.
+    target = overlay(BAD / "empty_demand", tmp_path / "i")
+    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    settings = target / "settings.toml"
+    text = settings.read_text()
+    for line, expected in (
+            ("shortfall_cost = inf", "objective.shortfall_cost: 'inf' is not valid; expected a "
+                                     "number in [0, 1e+12]"),
+            ("shortfall_cost = 1e13", "objective.shortfall_cost: '1e+13' is not valid"),
+            ("time_limit_seconds = nan", "solver.time_limit_seconds: 'nan' is not valid")):
+        section = "[solver]" if "time_limit" in line else "[objective]"
+        settings.write_text(text.replace(section, "") + f"\n{section}\n{line}\n")
+        problems = _problems(target)
+        assert len(problems) == 1 and expected in problems[0], problems
+    settings.write_text(text.replace("hours_per_fte = 480", "hours_per_fte = inf"))
+    assert _problems(target) == ["settings.toml: horizon.hours_per_fte: 'inf' is not a "
+                                 "number > 0"]

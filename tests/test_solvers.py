@@ -691,3 +691,15 @@ def test_no_demand_at_all_is_an_optimal_empty_plan_not_a_solver_error(solver):
     result = make_plan(instance, options_from_instance(instance, solver=solver))
     assert result.status is Status.OPTIMAL and result.verified and result.plan is not None
     assert result.plan.weighted_shortfall == 0.0 and result.plan.total_cost == 0.0
+
+
+def test_a_solver_calling_a_feasible_model_infeasible_is_a_solver_error(tiny):
+    # A sweep: CBC with shortfall_cost 1e100 (weighted mode) reported the model infeasible,
+    # and the conflict search then found that nothing had to give; it read as "infeasible"
+    # with no limit named. The readers now refuse such a cost (above 1e12), so the options are
+    # set here directly. HiGHS solves the same model (optimal, 0 shortfall).
+    options = options_from_instance(tiny, solver="cbc", mode="weighted", shortfall_cost=1e100,
+                                    relative_gap=0.0, time_limit_seconds=30.0)
+    result = make_plan(tiny, options)  # CBC 2.10.3, bundled with PuLP 3.3
+    assert result.status is Status.ERROR
+    assert "numerical failure" in result.solve.conflicts[0]

@@ -12,7 +12,7 @@ from __future__ import annotations
 import itertools
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import pandas as pd
 
@@ -137,11 +137,17 @@ def find_knee(x: Sequence[float], y: Sequence[float]) -> int | None:
 
 def budget_frontier(instance: Instance, grid: BudgetGrid, options: SolveOptions,
                     workers: int = 2) -> Frontier:
-    """Solve every grid point (hiring x moves) and mark the knee of each moves level."""
+    """Solve every grid point (hiring x moves) and mark the knee of each moves level.
+
+    Every point is solved shortfall first, whatever the instance's objective mode: the
+    frontier is the least shortfall each budget buys.  Weighted mode would trade shortfall
+    for cost at each point, so more money could show more shortfall (a sweep: 0 -> 0.5
+    FTE-periods as the hiring budget grew), and the knee would mark nothing real.
+    """
     moves_values: Sequence[float | None] = grid.moves or (None,)
     points = list(itertools.product(grid.hiring, moves_values))
     variants = [with_budgets(instance, h, m, grid.as_factor) for h, m in points]
-    results = solve_many(variants, options, workers)
+    results = solve_many(variants, replace(options, mode="shortfall-first"), workers)
     rows = []
     for i, ((h, m), _variant, result) in enumerate(zip(points, variants, results, strict=True)):
         plan = result.plan

@@ -258,6 +258,8 @@ def marginal_values(base: PlanResult, options: SolveOptions, steps: Steps = Step
                                  min(ESTIMATE_SECONDS, options.time_limit_seconds))
             scale = 1.0 if options.mode == "shortfall-first" else options.shortfall_cost
             no_lp = "the LP was not solved to optimality in time"
+            if scale <= 0:  # weighted with a free shortfall: no shortfall-equivalent exists
+                duals, no_lp = None, "shortfall_cost is 0, so shortfall has no price"
             if duals is not None:
                 for c, cand in enumerate(chosen):
                     if cand.limit == "time_to_hire":
@@ -267,10 +269,10 @@ def marginal_values(base: PlanResult, options: SolveOptions, steps: Steps = Step
                     # model, seconds apiece at agency scale.
                     change = (sum(duals[r] * d for r, d in moved) if moved else _bound_change(
                         model, duals, objective_of, cand, instance, x))
-                    # A linear extrapolation: it cannot remove more shortfall than there
-                    # is, nor add any (relaxing a limit never hurts).  A limit with neither
-                    # row nor bound in the model constrains nothing in it: 0.
-                    ceiling = base.plan.weighted_shortfall if base.plan else math.inf
+                    # A linear extrapolation: it cannot lower the objective below 0, nor
+                    # raise it (relaxing a limit never hurts).  A limit with neither row nor
+                    # bound in the model constrains nothing in it: 0.
+                    ceiling = _objective(base, options) / scale if base.plan else math.inf
                     estimates[c] = min(max(-change / scale, 0.0), ceiling) + 0.0  # no -0.0
     # Best estimates first; limits with no estimate (time to hire: not a row) after them.
     order = sorted(range(len(chosen)), key=lambda c: (
@@ -304,27 +306,48 @@ def marginal_values(base: PlanResult, options: SolveOptions, steps: Steps = Step
             row.update({"status": result.status.value, "verified": result.verified,
                         "gap": _gap(base, result)})
             if result.plan is not None and plan is not None and result.verified:
-                row["shortfall_reduction"] = plan.weighted_shortfall - \
-                    result.plan.weighted_shortfall
+                reduction = plan.weighted_shortfall - result.plan.weighted_shortfall
+                row["shortfall_reduction"] = reduction
                 row["cost_change"] = result.plan.total_cost - plan.total_cost
-                if row["shortfall_reduction"] < 0:  # type: ignore[operator]
+                if _objective(result, options) > _objective(base, options) + 1e-9 * max(
+                        1.0, abs(_objective(base, options))):
                     # Relaxing a limit cannot raise the optimum: this is the solves' gap.
-                    row["method"] = (f"{row['method']}; below 0 only within the two "
+                    row["method"] = (f"{row['method']}; worse only within the two "
                                      "solves' gap")
+                elif reduction < 0:
+                    # Weighted mode prices shortfall: the relaxed plan may take more of it
+                    # where that saves more money than shortfall_cost says it is worth.
+                    row["method"] = (f"{row['method']}; more shortfall for less cost, a "
+                                     "trade the weighted objective prefers")
         rows.append(row)
     table = pd.DataFrame(rows, columns=list(MARGINAL_COLUMNS))
     # Re-solved limits by what the re-solve removed, then the rest by their estimate (the
     # tail had kept the order the limits were found in: a 1.9 estimate above a 31.1).
     resolved = table["shortfall_reduction"].notna()
+    if options.mode == "weighted":  # by what the objective gains, shortfall priced
+        gain = (table["shortfall_reduction"] * options.shortfall_cost - table["cost_change"])
+        by_gain = table[resolved].assign(_gain=gain[resolved]).sort_values(
+            "_gain", ascending=False, kind="stable").drop(columns="_gain")
+    else:
+        by_gain = table[resolved].sort_values(["shortfall_reduction", "cost_change"],
+                                              ascending=[False, True], kind="stable")
     table = pd.concat([
-        table[resolved].sort_values(["shortfall_reduction", "cost_change"],
-                                    ascending=[False, True], kind="stable"),
+        by_gain,
         table[~resolved].sort_values("estimate_shortfall_reduction", ascending=False,
                                      na_position="last", kind="stable")])
     table["rank"] = range(1, len(table) + 1)
     index = list(table.index)
     return MarginalValues(table.reset_index(drop=True), tuple(chosen[i] for i in index),
                           tuple(results[i] for i in index))
+
+
+def _objective(result: PlanResult, options: SolveOptions) -> float:
+    """What the solve minimised, from the plan's tables: the weighted shortfall first, or
+    cost + shortfall_cost x weighted shortfall in weighted mode."""
+    assert result.plan is not None
+    if options.mode == "weighted":
+        return result.plan.total_cost + options.shortfall_cost * result.plan.weighted_shortfall
+    return result.plan.weighted_shortfall
 
 
 def _gap(base: PlanResult, result: PlanResult) -> float | None:

@@ -7,10 +7,11 @@ import itertools
 import pandas as pd
 import pytest
 from analysis_helpers import exact_options, feasible_random
-from conftest import solve_verified
+from conftest import DATA, solve_verified
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+from rebalance import read_instance
 from rebalance.analysis.frontier import (
     BudgetGrid,
     budget_frontier,
@@ -102,3 +103,13 @@ def test_a_factor_grid_says_its_unit_and_names_years_it_cannot_cap(tiny) -> None
     uncapped = tiny.with_changes(budgets=tuple(replace(b, hiring=None) for b in tiny.budgets))
     assert uncapped_years(uncapped, grid) == ["2027"]
     assert uncapped_years(uncapped, BudgetGrid((1000.0,))) == []  # an amount caps every year
+
+
+def test_a_weighted_instance_frontier_is_the_least_shortfall_each_budget_buys() -> None:
+    # tests/data/weighted_frontier/NOTE.md, by hand: in weighted mode more hiring money buys a
+    # cheaper plan with 0.5 more shortfall, so the "frontier" rose (0 -> 0.5) and its knee
+    # marked that; shortfall first, every point has 0 (a sweep of weighted mode).
+    instance = read_instance(DATA / "weighted_frontier")
+    grid = BudgetGrid(hiring=(0.0, 10_000.0, 20_000.0, 100_000.0))
+    table = budget_frontier(instance, grid, exact_options(instance), workers=1).table
+    assert list(table["weighted_shortfall"]) == pytest.approx([0.0, 0.0, 0.0, 0.0])

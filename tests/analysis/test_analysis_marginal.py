@@ -9,11 +9,12 @@ from dataclasses import replace
 import numpy as np
 import pytest
 from analysis_helpers import exact_options, feasible_random
-from conftest import scipy_lp, solve_verified
+from conftest import DATA, scipy_lp, solve_verified
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from scipy.optimize import linprog
 
+from rebalance import make_plan, read_instance
 from rebalance.analysis.limits import limit_use
 from rebalance.analysis.marginal import (
     Steps,
@@ -212,3 +213,29 @@ def test_every_limit_but_time_to_hire_has_an_estimate(tiny: Instance) -> None:
     assert "max_hires" in set(table["limit"])
     others = table[table["limit"] != "time_to_hire"]
     assert (others["estimate_shortfall_reduction"] == 0.0).all()
+
+
+def test_weighted_mode_calls_a_priced_trade_a_trade_and_ranks_by_the_objective() -> None:
+    # tests/data/weighted_trade/NOTE.md, by hand: relaxing the moves budget swaps the hire
+    # (50,000) for a detail (20,000 + 0.4 x 30,000 short): shortfall 0.4 up, cost 30,000 down,
+    # the objective 18,000 better. It had read as "below 0 only within the two solves' gap"
+    # and come last (a sweep of weighted mode).
+    instance = read_instance(DATA / "weighted_trade")
+    base = make_plan(instance, exact_options(instance))
+    assert base.verified
+    table = marginal_values(base, exact_options(instance), workers=1).table
+    moves = table[table["limit"] == "moves_budget"].iloc[0]
+    assert moves["shortfall_reduction"] == pytest.approx(-0.4)
+    assert moves["cost_change"] == pytest.approx(-30_000.0)
+    assert "more shortfall for less cost" in moves["method"] and "gap" not in moves["method"]
+    assert moves["rank"] == 1
+
+
+def test_weighted_mode_with_free_shortfall_gives_no_estimate_not_nan_by_accident(tiny) -> None:
+    from dataclasses import replace
+
+    free = replace(tiny, objective=replace(tiny.objective, mode="weighted",
+                                           shortfall_cost=0.0))
+    base = make_plan(free, exact_options(free))
+    table = marginal_values(base, exact_options(free), workers=1).table
+    assert all("shortfall_cost is 0" in m or "time to hire" in m for m in table["method"])

@@ -26,7 +26,7 @@ from typing import TYPE_CHECKING, Any, TextIO
 
 from rebalance.backends import raise_if_stopped, stoppable
 from rebalance.instance import Instance
-from rebalance.readers import InstanceError, read_instance
+from rebalance.readers import InstanceError, count_problems, read_instance
 from rebalance.solve import Status
 
 if TYPE_CHECKING:
@@ -59,7 +59,7 @@ def _load(path: str) -> Instance | None:
         return read_instance(path)
     except InstanceError as exc:
         errors = [p for p in exc.problems if not p.is_warning]
-        _err(f"{path}: {len(errors)} problem(s) in the input; nothing was written")
+        _err(f"{path}: {count_problems(errors)} problem(s) in the input; nothing was written")
         for problem in exc.problems:
             _err(("  warning: " if problem.is_warning else "  ") + str(problem))
         return None
@@ -145,7 +145,8 @@ def cmd_demand(args: argparse.Namespace) -> int:
         result = run_demand(args.history, args.out)
     except HistoryError as exc:
         errors = [p for p in exc.problems if not p.is_warning]
-        _err(f"{args.history}: {len(errors)} problem(s) in the input; nothing was written")
+        _err(f"{args.history}: {count_problems(errors)} problem(s) in the input; nothing was "
+             "written")
         for problem in exc.problems:
             _err(("  warning: " if problem.is_warning else "  ") + str(problem))
         return EXIT_INVALID_INPUT

@@ -227,3 +227,16 @@ def test_settings_numbers_are_finite_and_shortfall_cost_is_bounded(tmp_path):
     settings.write_text(text.replace("hours_per_fte = 480", "hours_per_fte = inf"))
     assert _problems(target) == ["settings.toml: horizon.hours_per_fte: 'inf' is not a "
                                  "number > 0"]
+
+
+def test_the_count_of_problems_includes_the_rows_a_repeat_stands_for(tmp_path, capsys):
+    # A docs audit: 15 rows with one fault were headed "11 problem(s)" (ten listed, one line
+    # for the rest).
+    target = overlay(BAD / "empty_demand", tmp_path / "i")
+    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    staff = target / "staff.csv"
+    staff.write_text(staff.read_text() + "".join(f"x{i},Nowhere,1.0,review:1.0,,,\n"
+                                                 for i in range(15)))
+    assert main(["check", str(target)]) == EXIT_INVALID_INPUT
+    err = capsys.readouterr().err
+    assert ": 15 problem(s) in the input" in err and "(and 5 more rows like this)" in err

@@ -15,7 +15,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from rebalance.instance import Instance
-from rebalance.plan import PLAN_TABLES, Plan, read_plan, records
+from rebalance.plan import COST_KINDS, PLAN_TABLES, Plan, read_plan, records
 
 __all__ = ["Violation", "unknown_names", "verify_folder", "verify_plan"]
 
@@ -82,6 +82,9 @@ class _Checker:
         self.skills = {s.name: s for s in instance.skills}
         self.period_ix = {name: t for t, name in enumerate(instance.period_names)}
         self.T = len(instance.periods)
+        # Spending by (year, kind) as the rules price it, not as the plan's rows say: a row
+        # a little under its price passes its own check, and many would ease a budget.
+        self.spend: dict[tuple[str, str], float] = defaultdict(float)
 
     def flag(self, rule: str, where: str, message: str) -> None:
         self.violations.append(Violation(rule, where, message))
@@ -109,6 +112,10 @@ class _Checker:
                       "start_period": self.period_ix},
             "work": {"person": self.people, "period": self.period_ix, "office": self.offices,
                      "skill": self.skills},
+            # Their names are checked against the demand and the budget years below; here
+            # only that every column is there (a headline figure is summed from each).
+            "coverage": {},
+            "costs": {},
         }
         for table, columns in spec.items():
             frame = self.plan.table(table)
@@ -154,6 +161,7 @@ class _Checker:
             if row.to_office == person.home_office:
                 self.flag("reassignment_to", where, "reassigned to the office they are in")
             expected = self.i.relocation_cost(person.home_office, row.to_office)
+            self.spend[(self.i.periods[t].year, "relocation")] += expected
             if not _close(float(row.cost), expected):
                 self.flag("reassignment_cost", where, f"cost {row.cost} but {expected} applies")
             for s in range(t, self.T):
@@ -183,6 +191,7 @@ class _Checker:
             if row.to_office == home[row.person][t]:
                 self.flag("detail_to", where, "detailed to their own home office")
             expected = self.i.detail_cost_per_period(home[row.person][t], row.to_office)
+            self.spend[(self.i.periods[t].year, "detail")] += expected
             if not _close(float(row.cost), expected):
                 self.flag("detail_cost", where, f"cost {row.cost} but {expected} applies")
         if m is not None and m > 0:
@@ -202,12 +211,23 @@ class _Checker:
     # -- work ----------------------------------------------------------------------------
     def _check_work(self, home: dict[str, list[str]], away: dict[tuple[str, int], str]) -> None:
         totals: dict[tuple[str, int], float] = defaultdict(float)
+        # Output per office, skill and period, recomputed as proficiency x fte: summing the
+        # reported output would let each row's rounding allowance add up over many rows.
+        self.staff_output: dict[tuple[str, str, int], float] = defaultdict(float)
+        seen: set[tuple[str, str, str, str]] = set()
         for row in records(self.plan.work):
             person = self.people[row.person]
             t = self.period_ix[row.period]
             where = f"person {row.person} in {row.period}"
+            key = (row.person, row.period, row.office, row.skill)
+            if key in seen:
+                # One row per person, period, office and skill: repeats could carry small
+                # amounts each, within every per-row allowance, that add up.
+                self.flag("work_repeated", where, f"{row.skill} at {row.office} is listed "
+                          "twice")
+            seen.add(key)
             fte = float(row.fte)
-            if fte < -ABS_TOL:
+            if fte < 0:
                 self.flag("work_negative", where, f"negative fte {fte}")
             at = away.get((row.person, t), home[row.person][t])
             if row.office != at:
@@ -219,6 +239,7 @@ class _Checker:
                 self.flag("work_output", where, f"output {row.output_fte} but proficiency "
                           f"{proficiency} x fte {fte} = {fte * proficiency}")
             totals[(row.person, t)] += fte
+            self.staff_output[(row.office, row.skill, t)] += fte * proficiency
         for (name, t), total in totals.items():
             available = self.i.available_fte(self.people[name], t)
             if _over(total, available):
@@ -278,34 +299,44 @@ class _Checker:
         return out
 
     def _check_coverage(self) -> None:
-        staff_out: dict[tuple[str, str, int], float] = defaultdict(float)
-        for row in records(self.plan.work):
-            staff_out[(row.office, row.skill, self.period_ix[row.period])] += float(
-                row.output_fte)
         hire_out = self._hire_output()
-        reported = {(r.office, r.skill, str(r.period)): r
-                    for r in records(self.plan.coverage)}
-        weighted = 0.0
+        reported: dict[tuple[str, str, str], object] = {}
+        for number, r in enumerate(records(self.plan.coverage), 2):
+            key = (r.office, r.skill, str(r.period))
+            if key in reported:
+                self.flag("coverage_rows", f"coverage.csv:{number}", f"{r.skill} at {r.office} "
+                          f"in {r.period} is listed twice")
+            reported[key] = r
+        weighted = unweighted = 0.0
+        demanded = set()
         for d in self.i.demand:
             name = self.i.periods[d.period].name
+            demanded.add((d.office, d.skill, name))
             where = f"{d.skill} at {d.office} in {name}"
-            output = staff_out[(d.office, d.skill, d.period)] + hire_out[
-                (d.office, d.skill, d.period)]
-            shortfall = max(0.0, d.fte - output)
+            staff = self.staff_output[(d.office, d.skill, d.period)]
+            hired = hire_out[(d.office, d.skill, d.period)]
+            covered = min(d.fte, staff + hired)
+            shortfall = max(0.0, d.fte - staff - hired)
             weighted += d.priority * shortfall
+            unweighted += shortfall
             row = reported.get((d.office, d.skill, name))
             if row is None:
                 self.flag("coverage_missing", where, "demand row missing from coverage.csv")
                 continue
-            if not _close(float(row.demand_fte), d.fte):
-                self.flag("coverage_demand", where, f"demand {row.demand_fte} but {d.fte}")
-            if not _close(float(row.shortfall_fte), shortfall):
-                self.flag("coverage_shortfall", where, f"shortfall {row.shortfall_fte} but "
-                          f"recomputed {shortfall:.6g}")
-        if len(reported) != len(self.i.demand):
-            self.flag("coverage_rows", "coverage.csv",
-                      f"{len(reported)} rows for {len(self.i.demand)} demand rows")
+            # Every figure of the row: the report's headlines are sums of these columns.
+            for column, expected in (("demand_fte", d.fte), ("staff_output_fte", staff),
+                                     ("hire_output_fte", hired), ("covered_fte", covered),
+                                     ("shortfall_fte", shortfall), ("priority", d.priority),
+                                     ("weighted_shortfall", d.priority * shortfall)):
+                value = float(getattr(row, column))
+                if not _close(value, expected):
+                    self.flag(f"coverage_{column.removesuffix('_fte')}", where,
+                              f"{column} {value:.6g} but recomputed {expected:.6g}")
+        for office, skill, period in sorted(set(reported) - demanded):
+            self.flag("coverage_rows", f"{skill} at {office} in {period}",
+                      "a coverage row for no demand row")
         self.weighted_shortfall = weighted
+        self.shortfall_fte = unweighted
 
     # -- heads: away share and seats -------------------------------------------------------
     def _check_heads(self, home: dict[str, list[str]], away: dict[tuple[str, int], str]) -> None:
@@ -340,11 +371,7 @@ class _Checker:
     # -- costs and budgets -----------------------------------------------------------------
     def _check_costs(self) -> None:
         year_of = [p.year for p in self.i.periods]
-        spend: dict[tuple[str, str], float] = defaultdict(float)
-        for row in records(self.plan.details):
-            spend[(year_of[self.period_ix[row.period]], "detail")] += float(row.cost)
-        for row in records(self.plan.reassignments):
-            spend[(year_of[self.period_ix[row.period]], "relocation")] += float(row.cost)
+        spend = self.spend
         for row in records(self.plan.hires):
             skill = self.skills[row.skill]
             s = self.period_ix[row.start_period]
@@ -353,8 +380,19 @@ class _Checker:
                 for t in range(s, self.T):
                     spend[(year_of[t], "new_position_salary")] += (
                         skill.salary_per_period * float(row.count))
-        reported = {(str(r.year), r.kind): float(r.cost)
-                    for r in records(self.plan.costs)}
+        reported: dict[tuple[str, str], float] = {}
+        expected_keys = {(year, kind) for year in self.i.years for kind in COST_KINDS}
+        for number, r in enumerate(records(self.plan.costs), 2):
+            key = (str(r.year), str(r.kind))
+            if key in reported:
+                self.flag("costs", f"costs.csv:{number}", f"{key[1]} in {key[0]} is listed "
+                          "twice")
+            elif key not in expected_keys:
+                self.flag("costs", f"costs.csv:{number}", f"'{key[1]}' in '{key[0]}' is not a "
+                          "kind of cost (" + ", ".join(COST_KINDS) + ") in a budget year")
+            reported[key] = float(r.cost)
+        for key in sorted(expected_keys - set(reported)):
+            self.flag("costs", f"{key[1]} in {key[0]}", "row missing from costs.csv")
         for key in set(spend) | set(reported):
             if not _close(spend.get(key, 0.0), reported.get(key, 0.0), tol=1e-4):
                 self.flag("costs", f"{key[1]} in {key[0]}", f"costs.csv says "
@@ -372,14 +410,32 @@ class _Checker:
                 self.flag("moves_budget", year, f"moves spend {moves:.2f} exceeds "
                           f"{budget.moves:.2f}")
         self.total_cost = sum(spend.values())
+        self.cost_by_kind = {kind: sum(v for (_, k), v in spend.items() if k == kind)
+                             for kind in COST_KINDS}
 
 
 def _check_summary(checker: _Checker, summary: dict[str, object]) -> list[Violation]:
+    """Every figure summary.json states of the plan, against the tables (the report and the
+    console lead with them)."""
+    plan = checker.plan
+    figures: list[tuple[str, object, float, float]] = [
+        ("weighted_shortfall", summary.get("weighted_shortfall"), checker.weighted_shortfall,
+         1e-4),
+        ("shortfall_fte_periods", summary.get("shortfall_fte_periods"), checker.shortfall_fte,
+         1e-4),
+        ("total_cost", summary.get("total_cost"), checker.total_cost, 1e-4),
+        ("hires", summary.get("hires"), float(plan.hires["count"].sum()), 0.0),
+        ("detail_periods", summary.get("detail_periods"), float(len(plan.details)), 0.0),
+        ("reassignments", summary.get("reassignments"), float(len(plan.reassignments)), 0.0),
+    ]
+    by_kind = summary.get("cost_by_kind")
+    for kind, value in checker.cost_by_kind.items():
+        stated = by_kind.get(kind) if isinstance(by_kind, dict) else None
+        figures.append((f"cost_by_kind.{kind}", stated, value, 1e-4))
     out = []
-    for key, value in (("weighted_shortfall", checker.weighted_shortfall),
-                       ("total_cost", checker.total_cost)):
-        reported = summary.get(key)
-        if not isinstance(reported, int | float) or not _close(float(reported), value, tol=1e-4):
+    for key, reported, value, tol in figures:
+        number = isinstance(reported, int | float) and not isinstance(reported, bool)
+        if not number or not _close(float(reported), value, tol=tol):  # type: ignore[arg-type]
             out.append(Violation("summary", f"summary.json {key}",
                                  f"says {reported}; recomputed {value:.6g}"))
     return out

@@ -93,6 +93,22 @@ BREAKS = {
         p.details, detail("a2", "2027-Q1", "A", "B"), detail("a1", "2027-Q1", "A", "B"),
         detail("b1", "2027-Q1", "B", "A"), detail("b1", "2027-Q2", "B", "A"))),
     "costs": lambda i, p: replace(p, costs=p.costs.assign(cost=p.costs["cost"] + 1.0)),
+    # From an adversarial audit: each of these had passed.
+    # b1 works after leaving, offset by many rows of -9.9e-7 FTE, each within an allowance.
+    "work_negative": lambda i, p: consistent(i, p, work=add_rows(
+        p.work, *[{"person": "a1", "period": "2027-Q1", "office": "A", "skill": "review",
+                   "fte": -9.9e-7, "output_fte": -9.9e-7}] * 3)),
+    "work_repeated": lambda i, p: consistent(i, p, work=add_rows(
+        p.work, *[{**p.work.iloc[0].to_dict(), "fte": 0.0, "output_fte": 0.0}] * 2)),
+    # Output from nothing: rows of 0 FTE with 9.9e-7 output each; coverage summed them.
+    "coverage_staff_output": lambda i, p: replace(
+        p, work=p.work.assign(output_fte=p.work["output_fte"] + 9.9e-7),
+        coverage=p.coverage.assign(staff_output_fte=p.coverage["staff_output_fte"] + 0.5)),
+    "coverage_weighted_shortfall": lambda i, p: replace(
+        p, coverage=p.coverage.assign(weighted_shortfall=p.coverage["weighted_shortfall"] + 1)),
+    "coverage_priority": lambda i, p: replace(p, coverage=p.coverage.assign(priority=0.0)),
+    "coverage_covered": lambda i, p: replace(p, coverage=p.coverage.assign(covered_fte=99.0)),
+    "coverage_rows": lambda i, p: replace(p, coverage=pd.concat([p.coverage, p.coverage])),
 }
 
 
@@ -136,6 +152,34 @@ def test_unknown_names_are_flagged_in_every_table_and_counted_past_the_first_few
     periods = [v for v in found if v.where.startswith("work") and "period" in v.message]
     assert len(periods) == UNKNOWN_NAMES_LISTED + 1
     assert periods[-1].where == "work.csv" and periods[-1].message.startswith("5 more rows")
+
+
+def test_a_costs_table_must_have_one_row_per_year_and_kind(tiny_plan):
+    # An audit: a row "2027,onboarding,-1000000" ahead of the real one, or a row of a kind
+    # that does not exist, had passed (the last of two rows won), and the report showed
+    # 1.47M new money for 2.47M.
+    instance, result = tiny_plan
+    costs = result.plan.costs
+    for broken in (pd.concat([costs.assign(cost=-1e6), costs]),
+                   add_rows(costs, {"year": "2027", "kind": "bribes", "cost": 0.0}),
+                   costs[costs["cost"] != 0]):
+        rules = [v.rule for v in verify_plan(instance, replace(result.plan, costs=broken))]
+        assert "costs" in rules, broken
+
+
+def test_every_summary_figure_is_checked(tiny_plan, tmp_path):
+    instance, result = tiny_plan
+    write_outputs(result, tmp_path / "plan")
+    path = tmp_path / "plan" / "summary.json"
+    good = json.loads(path.read_text())
+    for key in ("shortfall_fte_periods", "hires", "detail_periods", "reassignments"):
+        path.write_text(json.dumps({**good, key: good[key] + 1}))
+        assert [v.where for v in verify_folder(instance, tmp_path / "plan")] == [
+            f"summary.json {key}"]
+    path.write_text(json.dumps({**good, "cost_by_kind": {**good["cost_by_kind"],
+                                                         "detail": 0.0}}))
+    assert [v.where for v in verify_folder(instance, tmp_path / "plan")] == [
+        "summary.json cost_by_kind.detail"]
 
 
 def test_folder_summary_totals_are_checked(tiny_plan, tmp_path):

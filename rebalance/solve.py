@@ -130,8 +130,12 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
     if not first.status.has_plan or first.x is None or first.objective is None:
         return _finish(model, backend, options, stages, first, started, deadline)
     say(f"stage 1 done: weighted shortfall {first.objective:.6g} ({first.words})")
-    if deadline - time.perf_counter() <= 1.0:
+    if deadline - time.perf_counter() <= min(1.0, 0.1 * options.time_limit_seconds):
         say("no time left for stage 2; keeping the stage-1 plan")
+        # Its cost is then proven by nothing: the stage is reported, bounded by 0 only (it
+        # had read as "gap 0%" from stage 1's gap alone).
+        stages.append(_stage("cost", _unimproved(model, first, None,
+                                                 "not run: no time left")))
         return _finish(model, backend, options, stages, first, started, deadline,
                        final_status=Status.FEASIBLE_WITH_GAP)
     # Hold the stage-1 shortfall with a small slack, then minimise cost from its plan.
@@ -139,12 +143,14 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
     say(f"stage 2: least cost with weighted shortfall <= {held:.6g}")
     second, _ = solve_stage(backend, model, model.cost, [(model.shortfall_weight, held)],
                             options, deadline, first.x, say, carried)
-    stages.append(_stage("cost", second))
     if not second.status.has_plan:
-        # Stage 1's plan still stands; stage 2 only failed to improve its cost.
+        # Stage 1's plan still stands; stage 2 only failed to improve its cost, which its
+        # bound (if any) still bounds.
         say(f"stage 2 found no plan ({second.words}); keeping the stage-1 plan")
+        stages.append(_stage("cost", _unimproved(model, first, second.bound, second.words)))
         return _finish(model, backend, options, stages, first, started, deadline,
                        final_status=Status.FEASIBLE_WITH_GAP)
+    stages.append(_stage("cost", second))
     status = Status.OPTIMAL if (first.status is Status.OPTIMAL
                                 and second.status is Status.OPTIMAL) else Status.FEASIBLE_WITH_GAP
     return _finish(model, backend, options, stages,
@@ -237,6 +243,12 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
     bound_after = (large and not passes_only and start is None and options.threads < 2
                    and model.num_integer > 0 and options.heuristics)
     searched = bool(model.num_integer) and options.heuristics and budget > MIN_HEURISTIC_SECONDS
+    # The plan that moves and hires no one is always at hand where it is feasible: no plan
+    # handed back may be worse than it (the demo at 2 s had ended at 412.5 where staying
+    # put leaves 314.6), and branch and bound with nothing better starts from it.
+    floor = (_stay_put_plan(backend, model, objective, options, deadline, say)
+             if start is None and not extra_rows and model.num_integer
+             and model.num_cols <= STAY_PUT_MAX_COLUMNS else None)
     with ThreadPoolExecutor(max_workers=1) as side:
         if large and searched and options.threads >= 2 and not passes_only:
             # The bound takes about as long as the passes (medium: the LP relaxation 92 s,
@@ -298,18 +310,28 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                         if start is None and cost_stage_deadline is not None else 0.0)
             out = backend.run(model, objective, extra_rows,
                               replace(options, known_bound=known,
-                                      overtime_without_plan=overtime), left, start)
+                                      overtime_without_plan=overtime), left,
+                              start if start is not None else floor)
         if bound_on_side is not None:
             lp_bound = _higher(lp_bound, bound_on_side.result())
     if carried.cost_bound is not None and extra_rows:
         lp_bound = _higher(lp_bound, _bound_worked_out_ahead(carried.cost_bound,
                                                              extra_rows[0][1], deadline, say))
+    if floor is not None and (start is None or float(objective @ floor)
+                              < float(objective @ start) - 1e-9):
+        start = floor  # the search may have bettered neither
     if out.x is None and start is not None and out.status in (Status.NO_PLAN_IN_TIME,
                                                              Status.UNKNOWN):
         # Branch and bound ran out of time before taking up the start: keep the start.
         obj = float(objective @ start)
         out = BackendOutcome(Status.FEASIBLE_WITH_GAP, start, obj, lp_bound, out.words,
                              out.seconds)
+    elif (out.x is not None and out.objective is not None and start is not None
+          and float(objective @ start) < out.objective - 1e-9 * max(1.0, abs(out.objective))):
+        say(f"  keeping the plan of {float(objective @ start):.6g}: the search's best, "
+            f"{out.objective:.6g}, is worse")
+        out = replace(out, x=start, objective=float(objective @ start),
+                      status=Status.FEASIBLE_WITH_GAP)
     elif out.status.has_plan and out.status is not Status.OPTIMAL:
         # A run killed at the wall clock hands back its plan without a bound.
         out = replace(out, bound=_higher(out.bound, lp_bound))
@@ -530,6 +552,30 @@ def _with_floor(out: BackendOutcome, relative_gap_wanted: float) -> BackendOutco
     return out
 
 
+# Above this many columns the first stage starts from its passes, whose plans are far better
+# than staying put, and the extra solve would only take time.
+STAY_PUT_MAX_COLUMNS = 200_000
+
+
+def _stay_put_plan(backend: Backend, model: Model, objective: np.ndarray,
+                   options: SolveOptions, deadline: float,
+                   say: Callable[[str], None]) -> np.ndarray | None:
+    """The plan that keeps every whole-number decision at its least (nobody moved, nobody
+    hired; a re-plan's fixed past kept), with the best work split: None where that breaks a
+    limit (seats over) or there is no time."""
+    left = deadline - time.perf_counter()
+    if left <= 0.05:
+        return None
+    fixed = replace(model, col_upper=np.where(model.is_integer, model.col_lower,
+                                              model.col_upper))
+    out = backend.run(fixed, objective, [], replace(options, progress=None, heuristics=False),
+                      min(left, max(0.1 * left, 1.0)), None)
+    if out.x is None or out.objective is None:
+        return None
+    say(f"  staying put (no moves, no hires): {out.objective:.6g}")
+    return out.x
+
+
 def _first_plan_from_lp(backend: Backend, model: Model, objective: np.ndarray,
                         extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
                         deadline: float, start: np.ndarray | None,
@@ -695,6 +741,15 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
     return FirstPlan(best, None if bound is None else bound.result(), lp_seconds, cost_bound)
 
 
+def _unimproved(model: Model, first: BackendOutcome, bound: float | None,
+                words: str) -> BackendOutcome:
+    """The cost stage's outcome where it kept stage 1's plan: that plan's cost, bounded by
+    ``bound`` or else only by 0 (no cost is negative)."""
+    assert first.x is not None
+    return BackendOutcome(Status.FEASIBLE_WITH_GAP, first.x, float(model.cost @ first.x),
+                          bound if bound is not None else 0.0, words, 0.0)
+
+
 def _stage(name: str, out: BackendOutcome) -> StageResult:
     return StageResult(name, out.status, out.objective, out.bound,
                        relative_gap(out.objective, out.bound) if out.status.has_plan else None,
@@ -707,8 +762,10 @@ def _finish(model: Model, backend: Backend, options: SolveOptions, stages: list[
     status = final_status or last.status
     conflicts: tuple[str, ...] = ()
     if status is Status.INFEASIBLE:
+        # At least a second, so that a run out of time can still name the limits: past the
+        # deadline by that at most (it had been 5 s).
         conflicts = tuple(find_conflicts(model, backend, options,
-                                         max(5.0, deadline - time.perf_counter())))
+                                         max(1.0, deadline - time.perf_counter())))
         if not conflicts:
             # Every limit held with nothing relaxed: the model is feasible and the verdict
             # was the solver's numerics (CBC with shortfall_cost 1e100, from a sweep).

@@ -7,6 +7,7 @@ import shutil
 import signal
 import subprocess
 import sys
+import time
 
 import pandas as pd
 import psutil
@@ -324,3 +325,36 @@ def test_a_reader_that_leaves_early_is_no_error(tmp_path, command):
     assert "internal error" not in err and "Traceback" not in err and "Broken" not in err
     if command[0] == "plan":
         assert (out / "summary.json").is_file()
+
+
+def test_a_stopped_analysis_ends_its_workers_at_once(tmp_path):
+    # A sweep: Ctrl-C 3 s into a comparison of three solves (two workers) ended it after
+    # 22 s: a worker took its stop as the end of one task and ran the next one queued.
+    scenarios = sorted(str(p) for p in (ROOT / "instances" / "demo_scenarios").glob("*.toml"))
+    command = [sys.executable, "-m", "rebalance.cli", "compare", str(ROOT / "instances" / "demo"),
+               *[part for s in scenarios for part in ("--scenario", s)],
+               "-o", str(tmp_path / "cmp"), "--time-limit", "120", "--workers", "2"]
+    run = subprocess.Popen(command, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
+                           cwd=ROOT)
+    try:
+        deadline = time.monotonic() + 60
+        workers: list[psutil.Process] = []
+        while len(workers) < 2 and time.monotonic() < deadline:  # both pool workers up
+            workers = [p for p in psutil.Process(run.pid).children()
+                       if "spawn_main" in " ".join(p.cmdline())]
+            time.sleep(0.2)
+        assert len(workers) >= 2
+        time.sleep(3.0)  # into their solves (the demo's take the whole minute and more)
+        tree = psutil.Process(run.pid).children(recursive=True)
+        run.send_signal(signal.SIGINT)
+        signalled = time.monotonic()
+        _, err = run.communicate(timeout=60)
+        took = time.monotonic() - signalled
+    finally:
+        if run.poll() is None:
+            run.kill()
+    assert run.returncode == EXIT_STOPPED and "nothing written" in err
+    assert took < 10, f"{took:.1f} s from the signal to the end"  # solves had 120 s each
+    _, alive = psutil.wait_procs(tree, timeout=5)
+    assert not alive, f"processes left running: {alive}"
+    assert not (tmp_path / "cmp").exists()

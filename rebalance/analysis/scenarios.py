@@ -9,7 +9,9 @@ the resulting plan tables.
 
 from __future__ import annotations
 
+import contextlib
 import multiprocessing
+import os
 import tomllib
 from collections.abc import Sequence
 from concurrent.futures import ProcessPoolExecutor
@@ -278,9 +280,46 @@ def solve_many(instances: Sequence[Instance], options: SolveOptions,
         return [_solve(inst, plain) for inst in instances]
     # Spawned, not forked: a child forked from a process that has run HiGHS inherits its
     # thread pool in a broken state and spins.
-    with ProcessPoolExecutor(max_workers=min(workers, len(instances)),
-                             mp_context=multiprocessing.get_context("spawn")) as pool:
-        return list(pool.map(_solve, instances, [plain] * len(instances)))
+    pool = ProcessPoolExecutor(max_workers=min(workers, len(instances)),
+                               mp_context=multiprocessing.get_context("spawn"))
+    try:
+        results = list(pool.map(_solve_in_worker, instances, [plain] * len(instances)))
+    except BaseException:
+        # Stopped from outside (Ctrl-C, SIGTERM) or failed: end the workers now rather than
+        # wait for their solves (a sweep: 22 s to stop a comparison of three).
+        pool.shutdown(wait=False, cancel_futures=True)
+        _end_workers(multiprocessing.active_children())
+        raise
+    pool.shutdown(wait=True)
+    return results
+
+
+def _solve_in_worker(instance: Instance, options: SolveOptions) -> PlanResult:
+    """:func:`_solve` in a pool worker: stopped (SIGTERM from :func:`_end_workers`, or
+    Ctrl-C at the terminal), its solver processes are already killed, and the worker ends
+    rather than take the next task queued (which it had, forking solvers that outlived the
+    run)."""
+    try:
+        return _solve(instance, options)
+    except KeyboardInterrupt:
+        os._exit(130)
+
+
+def _end_workers(workers: list[multiprocessing.process.BaseProcess]) -> None:
+    """SIGTERM to each worker, then, a second later, SIGKILL to whatever of their process
+    trees is left."""
+    import psutil
+
+    tree: list[psutil.Process] = []
+    for worker in workers:
+        with contextlib.suppress(psutil.Error, ValueError):
+            process = psutil.Process(worker.pid)
+            tree += [process, *process.children(recursive=True)]
+            process.terminate()
+    _, alive = psutil.wait_procs(tree, timeout=1.0)
+    for process in alive:
+        with contextlib.suppress(psutil.Error):
+            process.kill()
 
 
 def plan_actions(plan: Plan) -> dict[tuple[str, str, str, str, str], float]:

@@ -108,6 +108,9 @@ class Model:
     # Original home office (index) of each unit.
     unit_home: np.ndarray = field(default_factory=lambda: np.zeros(0, int))
     build_seconds: float = 0.0
+    # Values of the whole-number columns to try as a first plan, beside staying put (a
+    # re-plan's old plan); other entries are ignored.  None: no such plan.
+    hint: np.ndarray | None = None
 
     @property
     def num_cols(self) -> int:

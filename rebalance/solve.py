@@ -561,19 +561,29 @@ def _stay_put_plan(backend: Backend, model: Model, objective: np.ndarray,
                    options: SolveOptions, deadline: float,
                    say: Callable[[str], None]) -> np.ndarray | None:
     """The plan that keeps every whole-number decision at its least (nobody moved, nobody
-    hired; a re-plan's fixed past kept), with the best work split: None where that breaks a
-    limit (seats over) or there is no time."""
-    left = deadline - time.perf_counter()
-    if left <= 0.05:
-        return None
-    fixed = replace(model, col_upper=np.where(model.is_integer, model.col_lower,
-                                              model.col_upper))
-    out = backend.run(fixed, objective, [], replace(options, progress=None, heuristics=False),
-                      min(left, max(0.1 * left, 1.0)), None)
-    if out.x is None or out.objective is None:
-        return None
-    say(f"  staying put (no moves, no hires): {out.objective:.6g}")
-    return out.x
+    hired; a re-plan's fixed past kept), with the best work split, or the model's ``hint``
+    (a re-plan's old plan) so completed where that is better: None where neither keeps
+    every limit (seats over) or there is no time."""
+    candidates = [("staying put (no moves, no hires)", model.col_lower)]
+    if model.hint is not None and model.hint.size == model.num_cols:
+        held = np.clip(np.rint(model.hint), model.col_lower, model.col_upper)
+        candidates.insert(0, ("the old plan kept", held))
+    best: tuple[float, np.ndarray] | None = None
+    for words, values in candidates:
+        left = deadline - time.perf_counter()
+        if left <= 0.05:
+            break
+        fixed = replace(model, col_lower=np.where(model.is_integer, values, model.col_lower),
+                        col_upper=np.where(model.is_integer, values, model.col_upper))
+        out = backend.run(fixed, objective, [], replace(options, progress=None,
+                                                        heuristics=False),
+                          min(left, max(0.1 * left, 1.0)), None)
+        if out.x is None or out.objective is None:
+            continue
+        say(f"  {words}: {out.objective:.6g}")
+        if best is None or out.objective < best[0] - 1e-9:
+            best = (out.objective, out.x)
+    return None if best is None else best[1]
 
 
 def _first_plan_from_lp(backend: Backend, model: Model, objective: np.ndarray,

@@ -8,10 +8,10 @@ arrays, stop at our own wall-clock deadline and report progress while they searc
 
 from __future__ import annotations
 
-import atexit
 import contextlib
 import enum
 import functools
+import hashlib
 import math
 import multiprocessing
 import os
@@ -808,18 +808,30 @@ def _cbc_launcher() -> str:
     its log at once: written to a file, C's standard output is held back in 4 KiB blocks, and
     the progress lines and the check for a first plan (``_Deadline``) saw nothing until CBC
     ended (a sweep: the demo's log stayed empty from 3 s to 19 s). Where ``stdbuf`` is missing
-    (not Linux) or the launcher cannot run (a temporary folder mounted noexec), CBC itself."""
+    (not Linux) or the launcher cannot run (a temporary folder mounted noexec), CBC itself.
+
+    The launcher lives in a folder of this user's, under a name from the two paths, and is
+    kept: every process finds it there, and none leaves one behind (pool workers ended by a
+    stop had left a folder each)."""
     cbc = _bundled_cbc()
     stdbuf = shutil.which("stdbuf")
-    if stdbuf is None:
+    getuid = getattr(os, "getuid", None)
+    if stdbuf is None or getuid is None:
         return cbc
-    folder = tempfile.mkdtemp(prefix="rebalance-cbc-launcher-")
-    atexit.register(shutil.rmtree, folder, True)
-    launcher = Path(folder) / "cbc-lines"
-    launcher.write_text(f"#!/bin/sh\nexec {shlex.quote(stdbuf)} -oL -eL {shlex.quote(cbc)} "
-                        '"$@"\n')
-    launcher.chmod(0o755)
+    folder = Path(tempfile.gettempdir()) / f"rebalance-cbc-launcher-{getuid()}"
     try:
+        folder.mkdir(mode=0o700, exist_ok=True)
+        owned = folder.stat()
+        if owned.st_uid != getuid() or owned.st_mode & 0o077:
+            return cbc  # not this user's alone: run nothing from it
+        digest = hashlib.sha256(f"{stdbuf}\0{cbc}".encode()).hexdigest()[:16]
+        launcher = folder / f"cbc-lines-{digest}"
+        if not launcher.is_file():
+            staged = folder / f".{launcher.name}.{os.getpid()}"
+            staged.write_text(f"#!/bin/sh\nexec {shlex.quote(stdbuf)} -oL -eL "
+                              f'{shlex.quote(cbc)} "$@"\n')
+            staged.chmod(0o700)
+            os.replace(staged, launcher)  # whole or not at all, whoever writes it
         ok = subprocess.run([str(launcher), "-quit"], capture_output=True, timeout=10,
                             check=False).returncode == 0
     except (OSError, subprocess.SubprocessError):

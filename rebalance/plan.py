@@ -42,6 +42,9 @@ PLAN_TABLES: dict[str, tuple[str, ...]] = {
     "costs": ("year", "kind", "cost"),
 }
 COST_KINDS = ("detail", "relocation", "onboarding", "new_position_salary")
+# Columns of the plan tables that hold names (read back as text, never as numbers).
+NAME_COLUMNS = frozenset({"person", "period", "start_period", "year", "office", "from_office",
+                          "to_office", "skill", "funding", "kind"})
 
 
 def records(frame: pd.DataFrame) -> Iterator[Any]:
@@ -317,8 +320,13 @@ def read_plan(folder: str | Path) -> Plan:
     for name, columns in PLAN_TABLES.items():
         file = path / f"{name}.csv"
         if file.exists():
-            frame = pd.read_csv(file, dtype={"period": str, "start_period": str, "year": str,
-                                             "person": str})
+            # Names as text, as written: offices named 101 and 102 had read as numbers and
+            # failed every lookup (an internal error in verify on a plan the tool wrote),
+            # and one named NA would read as missing.  Numbers keep pandas' usual blanks.
+            frame = pd.read_csv(
+                file, dtype={c: str for c in columns if c in NAME_COLUMNS},
+                keep_default_na=False,
+                na_values={c: ["", "nan", "NaN", "NA"] for c in columns if c not in NAME_COLUMNS})
         else:
             frame = pd.DataFrame(columns=list(columns))
         frames[name] = frame

@@ -451,8 +451,15 @@ def _unknown_settings(settings: Mapping[str, Any], problems: list[Problem]) -> N
 def _number(value: Any) -> TypeGuard[int | float]:
     """A finite TOML number: ``true`` is an int to Python, not a number to a planner, and
     ``inf`` is no number of hours."""
-    return (isinstance(value, int | float) and not isinstance(value, bool)
-            and math.isfinite(value))
+    return isinstance(value, int | float) and not isinstance(value, bool) and _finite(value)
+
+
+def _finite(value: int | float) -> bool:
+    """Finite as a float: a TOML integer of 400 digits is not (it had raised OverflowError)."""
+    try:
+        return math.isfinite(value)
+    except OverflowError:
+        return False
 
 
 def _settings_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
@@ -526,7 +533,7 @@ def _settings_sections(settings: Mapping[str, Any], problems: list[Problem]) -> 
             return default
         value = table[key]
         ok = isinstance(value, int) if integer else isinstance(value, int | float)
-        ok = ok and not isinstance(value, bool) and math.isfinite(value) and value >= low
+        ok = ok and not isinstance(value, bool) and _finite(value) and value >= low
         ok = ok and (high is None or value <= high)
         if not ok:
             what = _describe(low, high, False, integer)
@@ -609,8 +616,8 @@ def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, 
         # UTF-8, a required column missing or named twice), every reference to it would read
         # as unknown: one fault, already said, would come back as a problem per row.
         raw = tables.get(name)
-        broken = raw is None or any(p.file == raw.label and p.row in (None, 1)
-                                    and not p.is_warning for p in problems)
+        broken = raw is None or raw.fault is not None or any(
+            p.file == raw.label and p.row in (None, 1) and not p.is_warning for p in problems)
         return None if broken else defined
 
     offices = _read_offices(table("offices"), problems)

@@ -307,7 +307,8 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
             # With no plan yet there is nothing for a cost stage to start from: until its
             # first plan this search may use the cost stage's time too.
             overtime = (max(cost_stage_deadline - deadline, 0.0)
-                        if start is None and cost_stage_deadline is not None else 0.0)
+                        if start is None and floor is None and cost_stage_deadline is not None
+                        else 0.0)
             out = backend.run(model, objective, extra_rows,
                               replace(options, known_bound=known,
                                       overtime_without_plan=overtime), left,
@@ -320,8 +321,11 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
     if floor is not None and (start is None or float(objective @ floor)
                               < float(objective @ start) - 1e-9):
         start = floor  # the search may have bettered neither
-    if out.x is None and start is not None and out.status in (Status.NO_PLAN_IN_TIME,
-                                                             Status.UNKNOWN):
+    # A verdict of no plan (infeasible, a solver error) is the solver's own where a plan
+    # that keeps every limit is already at hand: that plan stands.
+    no_plan = ((Status.NO_PLAN_IN_TIME, Status.UNKNOWN, Status.INFEASIBLE, Status.ERROR)
+               if floor is not None else (Status.NO_PLAN_IN_TIME, Status.UNKNOWN))
+    if out.x is None and start is not None and out.status in no_plan:
         # Branch and bound ran out of time before taking up the start: keep the start.
         obj = float(objective @ start)
         out = BackendOutcome(Status.FEASIBLE_WITH_GAP, start, obj, lp_bound, out.words,

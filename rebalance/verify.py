@@ -53,7 +53,13 @@ def verify_folder(instance: Instance, folder: str | Path) -> list[Violation]:
     checker.run()
     summary_path = path / "summary.json"
     if summary_path.exists() and not checker.violations:
-        return _check_summary(checker, json.loads(summary_path.read_text()))
+        try:
+            summary = json.loads(summary_path.read_text(encoding="utf-8"))
+        except (ValueError, UnicodeDecodeError) as exc:
+            return [Violation("summary", "summary.json", f"cannot be read as JSON ({exc})")]
+        if not isinstance(summary, dict):
+            return [Violation("summary", "summary.json", "holds no object of figures")]
+        return _check_summary(checker, summary)
     return checker.violations
 
 

@@ -240,3 +240,22 @@ def test_the_count_of_problems_includes_the_rows_a_repeat_stands_for(tmp_path, c
     assert main(["check", str(target)]) == EXIT_INVALID_INPUT
     err = capsys.readouterr().err
     assert ": 15 problem(s) in the input" in err and "(and 5 more rows like this)" in err
+
+
+def test_a_names_table_not_utf8_and_a_huge_integer_are_said_once(tmp_path):
+    # A review of this session's changes: an offices.csv not UTF-8 still drew 13 "unknown
+    # office" lines (its problem names the bad line, not row 1), and a 400-digit integer in
+    # settings raised OverflowError (an internal error).
+    target = overlay(BAD / "empty_demand", tmp_path / "i")
+    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    offices = target / "offices.csv"
+    offices.write_bytes(offices.read_bytes().replace(b"Birch", b"Birch\xf6"))
+    problems = _problems(target)
+    assert len(problems) == 1 and problems[0].startswith("offices.csv:3: is not UTF-8"), problems
+    shutil.copy(DATA / "tiny" / "offices.csv", offices)
+    settings = target / "settings.toml"
+    settings.write_text(settings.read_text().replace("hours_per_fte = 480",
+                                                     "hours_per_fte = 1" + "0" * 400)
+                        + "\n[objective]\nshortfall_cost = 1" + "0" * 400 + "\n")
+    problems = _problems(target)
+    assert len(problems) == 2 and all("settings.toml" in p for p in problems), problems

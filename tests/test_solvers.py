@@ -694,14 +694,21 @@ def test_no_demand_at_all_is_an_optimal_empty_plan_not_a_solver_error(solver):
     assert result.plan.weighted_shortfall == 0.0 and result.plan.total_cost == 0.0
 
 
-def test_a_solver_calling_a_feasible_model_infeasible_is_a_solver_error(tiny):
+def test_a_solver_calling_a_feasible_model_infeasible_is_a_solver_error(tiny, monkeypatch):
     # A sweep: CBC with shortfall_cost 1e100 (weighted mode) reported the model infeasible,
     # and the conflict search then found that nothing had to give; it read as "infeasible"
     # with no limit named. The readers now refuse such a cost (above 1e12), so the options are
     # set here directly. HiGHS solves the same model (optimal, 0 shortfall).
     options = options_from_instance(tiny, solver="cbc", mode="weighted", shortfall_cost=1e100,
                                     relative_gap=0.0, time_limit_seconds=30.0)
+    # With the plan that stays put at hand, that plan stands (not proven, and verified) ...
     result = make_plan(tiny, options)  # CBC 2.10.3, bundled with PuLP 3.3
+    assert result.status is Status.FEASIBLE_WITH_GAP and result.verified
+    # ... and without it the verdict is a solver error, not "infeasible".
+    import sys
+
+    monkeypatch.setattr(sys.modules["rebalance.solve"], "STAY_PUT_MAX_COLUMNS", 0)
+    result = make_plan(tiny, options)
     assert result.status is Status.ERROR
     assert "numerical failure" in result.solve.conflicts[0]
 
@@ -726,3 +733,41 @@ def test_a_short_run_never_hands_back_a_plan_worse_than_staying_put(limit):
     assert result.plan.weighted_shortfall <= stay.fun + 1e-6
     # The cost stage is reported even where it had no time: never a gap from stage 1 alone.
     assert [s.name for s in result.solve.stages] == ["shortfall", "cost"]
+
+
+def test_a_stage_with_the_stay_put_plan_in_hand_takes_no_overtime(tiny):
+    # A review: the search after the stay-put plan was still given the cost stage's time
+    # "until its first plan" (it has one), and CBC, run past its share, was killed and lost
+    # its bound. A stub backend records what the final search is given.
+    from rebalance.backends import BackendOutcome
+    from rebalance.model import build_model
+    from rebalance.solve import SolveOptions, solve_stage
+
+    model = build_model(tiny)
+    given: list[tuple[float, bool]] = []
+
+    class Stub:
+        name = "stub"
+        reruns_cheaply = True
+
+        def version(self) -> str:
+            return "stub"
+
+        def run(self, model_, objective, extra_rows, options, time_limit, start):
+            fixed = bool(np.all(model_.col_upper[model_.is_integer]
+                                == model_.col_lower[model_.is_integer]))
+            given.append((options.overtime_without_plan, start is not None))
+            x = np.clip(np.zeros(model_.num_cols), model_.col_lower, model_.col_upper)
+            x[model_.shortfall_weight > 0] = model_.col_upper[model_.shortfall_weight > 0]
+            status = Status.OPTIMAL if fixed else Status.NO_PLAN_IN_TIME
+            obj = float(objective @ x)
+            return BackendOutcome(status, x if fixed else None, obj if fixed else None,
+                                  None, "stub", 0.0)
+
+    now = time.perf_counter()
+    out, _ = solve_stage(Stub(), model, model.shortfall_weight, [],
+                         SolveOptions(heuristics=False), now + 10.0, None, lambda _: None,
+                         cost_stage_deadline=now + 20.0)
+    assert given[0] == (0.0, False)  # the stay-put LP
+    assert given[-1] == (0.0, True)  # the search: started from it, no overtime
+    assert out.x is not None and out.status is Status.FEASIBLE_WITH_GAP

@@ -202,3 +202,29 @@ def test_the_plan_folder_has_the_mode_of_any_new_folder(tiny_plan, tmp_path):
     (tmp_path / "plain").mkdir()
     assert (tmp_path / "plan").stat().st_mode == (tmp_path / "plain").stat().st_mode
     assert sorted(p.name for p in tmp_path.iterdir()) == ["plain", "plan"]
+
+
+def test_numeric_office_names_and_a_broken_summary_do_not_break_the_verifier(tmp_path):
+    # A review: offices named 101 and 102 read back as numbers (verify: internal error,
+    # KeyError) and a summary.json that is not JSON raised instead of being reported.
+    import shutil
+
+    from conftest import DATA
+
+    from rebalance import read_instance
+
+    folder = tmp_path / "numbered"
+    shutil.copytree(DATA / "tiny", folder)
+    for name in ("offices.csv", "staff.csv", "demand.csv"):
+        path = folder / name
+        text = path.read_text().replace(",A,", ",101,").replace(",B,", ",102,")
+        path.write_text("\n".join(line.replace("A,", "101,", 1) if line.startswith("A,")
+                                  else line.replace("B,", "102,", 1) if line.startswith("B,")
+                                  else line for line in text.splitlines()) + "\n")
+    instance = read_instance(folder)
+    assert {o.name for o in instance.offices} == {"101", "102"}
+    result = solve_verified(instance)
+    write_outputs(result, tmp_path / "plan")
+    assert verify_folder(instance, tmp_path / "plan") == []
+    (tmp_path / "plan" / "summary.json").write_text("{not json")
+    assert [v.rule for v in verify_folder(instance, tmp_path / "plan")] == ["summary"]

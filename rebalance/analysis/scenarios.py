@@ -280,6 +280,7 @@ def solve_many(instances: Sequence[Instance], options: SolveOptions,
         return [_solve(inst, plain) for inst in instances]
     # Spawned, not forked: a child forked from a process that has run HiGHS inherits its
     # thread pool in a broken state and spins.
+    others = set(multiprocessing.active_children())  # the caller's own: never ended here
     pool = ProcessPoolExecutor(max_workers=min(workers, len(instances)),
                                mp_context=multiprocessing.get_context("spawn"))
     try:
@@ -288,7 +289,7 @@ def solve_many(instances: Sequence[Instance], options: SolveOptions,
         # Stopped from outside (Ctrl-C, SIGTERM) or failed: end the workers now rather than
         # wait for their solves (a sweep: 22 s to stop a comparison of three).
         pool.shutdown(wait=False, cancel_futures=True)
-        _end_workers(multiprocessing.active_children())
+        _end_workers([p for p in multiprocessing.active_children() if p not in others])
         raise
     pool.shutdown(wait=True)
     return results

@@ -226,3 +226,18 @@ def test_a_replan_at_a_short_limit_starts_from_the_old_plan() -> None:
     # Within stage 2's hold on the shortfall (1e-6 of it) and the work split's rounding.
     assert out.result.plan.weighted_shortfall <= base.plan.weighted_shortfall * (1 + 1e-5)
     assert len(out.changes) == 0, out.changes
+
+
+def test_an_old_plan_of_a_shorter_horizon_breaks_no_rule_for_its_cost_table(tiny) -> None:
+    # A review: with the horizon extended by a year, the old plan's costs.csv (no rows for
+    # the new year) was reported as breaking 4 rules; its cost table and its hires' salary
+    # to the old horizon's end are bookkeeping. (The 2028 cap is wide enough for the hire.)
+    from rebalance.instance import Period
+
+    longer = replace(tiny, periods=(*tiny.periods, *(Period(f"2028-Q{q}", "2028", 480.0)
+                                                     for q in range(1, 5))),
+                     budgets=(*tiny.budgets, Budget("2028", hiring=200_000.0, moves=30_000.0)))
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    out = replan(longer, base.plan, 2, exact_options(longer))
+    assert out.old_plan_violations == ()

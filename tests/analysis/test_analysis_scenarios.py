@@ -118,3 +118,30 @@ def test_compare_matches_separate_solves(tiny) -> None:
     assert table.loc["b-surge", "actions_differing"] == len(actions)
     costs = comparison.costs
     assert costs[costs.scenario == "b-surge"]["cost"].sum() == pytest.approx(surged.total_cost)
+
+
+def _sleep(seconds: float) -> None:
+    import time
+
+    time.sleep(seconds)
+
+
+def test_a_failed_pool_ends_its_workers_only(tiny) -> None:
+    # A review: a stopped or failed solve_many ended every multiprocessing child of the
+    # caller (a notebook's own processes too), not only the pool's workers.
+    import multiprocessing
+
+    from rebalance.analysis.scenarios import solve_many
+
+    mine = multiprocessing.get_context("spawn").Process(target=_sleep, args=(60.0,))
+    mine.start()
+    try:
+        with pytest.raises(Exception):  # noqa: B017 - any failure in a worker will do
+            solve_many([tiny, "not an instance"], options_from_instance(tiny), workers=2)
+        # By pid: a process psutil reaped still reads as alive to multiprocessing.
+        import psutil
+
+        assert psutil.pid_exists(mine.pid) and mine.exitcode is None
+    finally:
+        mine.kill()
+        mine.join()

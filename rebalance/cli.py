@@ -193,7 +193,8 @@ def cmd_generate(args: argparse.Namespace) -> int:
 
     out = Path(args.out)
     if out.exists() and (not out.is_dir() or any(out.iterdir())) and not args.force:
-        _err(f"{out}: already exists and is not empty; give --force to replace it")
+        what = "already exists and is not empty" if out.is_dir() else "is a file"
+        _err(f"{out}: {what}; give --force to replace it")
         return EXIT_USAGE
     spec = spec_for_size(
         args.size, staff=args.staff, offices=args.offices, skills=args.skills,

@@ -99,11 +99,16 @@ def staged_folder(out_dir: str | Path, kind: str | None = None) -> Iterator[Path
     With ``kind``, the folder is marked as one, and an existing ``out_dir`` is replaced only
     where :func:`output_problem` allows it (else :class:`OutputInUse`, before anything is
     written)."""
-    out = Path(out_dir)
+    # Absolute: "." has no name to put a sibling beside (an internal error in a sweep).
+    out = Path(os.path.abspath(out_dir))
     problem = output_problem(out, kind) if kind is not None else None
     if problem is not None:
         raise OutputInUse(problem)
-    out.parent.mkdir(parents=True, exist_ok=True)
+    try:
+        out.parent.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:  # a file where a folder on the way should be
+        raise OutputInUse(f"{out_dir}: its folder cannot be made ({exc.strerror}: "
+                          f"{exc.filename}); nothing was written") from None
     tmp = sibling_name(out)
     tmp.mkdir()
     if kind is not None:
@@ -119,4 +124,7 @@ def staged_folder(out_dir: str | Path, kind: str | None = None) -> Iterator[Path
         os.replace(out, old)
     os.replace(tmp, out)
     if old is not None:
-        shutil.rmtree(old, ignore_errors=True)
+        if old.is_dir():
+            shutil.rmtree(old, ignore_errors=True)
+        else:  # a file replaced by --force (rmtree had left it behind, hidden)
+            old.unlink(missing_ok=True)

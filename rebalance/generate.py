@@ -83,7 +83,8 @@ class GeneratorSpec:
         need(self.offices >= 2, "offices", "a whole number >= 2 (a short and a surplus office)")
         need(self.staff >= 2 * max(self.offices, 1), "staff",
              f"at least 2 per office (>= {2 * max(self.offices, 1)})")
-        need(self.skills >= 1, "skills", "a whole number >= 1")
+        need(1 <= self.skills <= MAX_SKILLS, "skills", f"a whole number in [1, {MAX_SKILLS}] (as "
+             "many as there are invented skill names)")
         need(self.periods >= SURGE_LENGTH + 1, "periods",
              f"a whole number >= {SURGE_LENGTH + 1} (a surge of {SURGE_LENGTH} and a lead-in)")
         need(self.seed >= 0, "seed", "a whole number >= 0")
@@ -200,6 +201,7 @@ _SUBJECTS = ("claims", "appeals", "permits", "licensing", "benefits", "grants", 
              "pensions", "records", "inspection", "audit", "complaints", "registrations",
              "disputes", "customs", "housing", "planning", "safety")
 _ACTIVITIES = ("intake", "review", "adjudication", "quality_check", "casework")
+MAX_SKILLS = len(_SUBJECTS) * len(_ACTIVITIES)  # every skill name is subject_activity
 
 
 def _city_names(draw: _Draw, count: int) -> list[str]:
@@ -475,8 +477,9 @@ def generate(spec: GeneratorSpec) -> GeneratedInstance:
         f"{spec.skills} skills, {T} quarters; {len(groups)} groups of interchangeable people.",
         "# Short of staff: " + ", ".join(names[o] for o in short),
         "# Surplus: " + ", ".join(names[o] for o in surplus),
-        "# Surge x" + f"{spec.surge_factor:g} in " + ", ".join(names[o] for o in surge)
-        + f" in {periods[surge_periods[0]]} and {periods[surge_periods[-1]]}",
+        *(["# Surge x" + f"{spec.surge_factor:g} in " + ", ".join(names[o] for o in surge)
+           + f" in {periods[surge_periods[0]]} and {periods[surge_periods[-1]]}"]
+          if spec.surge_factor != 1 else ["# No surge (factor 1)"]),
         "# Generator settings: " + ", ".join(f"{f.name}={getattr(spec, f.name)}"
                                              for f in fields(GeneratorSpec)),
         "# Every name and number here is invented.",

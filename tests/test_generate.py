@@ -217,3 +217,28 @@ def test_tiny_generated_instance_solves_to_a_verified_plan(tmp_path: Path) -> No
     assert unbudgeted.status is Status.OPTIMAL and unbudgeted.verified
     assert result.plan is not None and unbudgeted.plan is not None
     assert unbudgeted.plan.weighted_shortfall < result.plan.weighted_shortfall - 1.0
+
+
+def test_generate_output_paths_at_the_edges(tmp_path, capsys, monkeypatch):
+    # A sweep of the generator's edges: each of these had been an internal error (exit 1)
+    # or had left the replaced file behind, hidden.
+    from rebalance.cli import EXIT_USAGE
+
+    small = ["--staff", "16", "--periods", "3"]
+    assert main(["generate", str(tmp_path / "s"), "--skills", "91"]) == EXIT_USAGE
+    assert "expected a whole number in [1, 90]" in capsys.readouterr().err
+    (tmp_path / "realfile").write_text("x\n")
+    assert main(["generate", str(tmp_path / "realfile" / "sub"), *small]) == EXIT_USAGE
+    assert "its folder cannot be made" in capsys.readouterr().err
+    here = tmp_path / "here"
+    here.mkdir()
+    monkeypatch.chdir(here)
+    assert main(["generate", ".", *small]) == 0
+    assert (tmp_path / "here" / "settings.toml").is_file()
+    afile = tmp_path / "afile.csv"
+    afile.write_text("data\n")
+    assert main(["generate", str(afile), *small]) == EXIT_USAGE
+    assert "is a file; give --force" in capsys.readouterr().err
+    assert main(["generate", str(afile), "--force", *small]) == 0
+    assert afile.is_dir()
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["afile.csv", "here", "realfile"]

@@ -80,7 +80,9 @@ class GeneratorSpec:
             if not ok:
                 out.append(f"--{name.replace('_', '-')} is {getattr(self, name)}; expected {what}")
 
-        need(self.offices >= 2, "offices", "a whole number >= 2 (a short and a surplus office)")
+        need(2 <= self.offices <= MAX_OFFICES, "offices",
+             f"a whole number in [2, {MAX_OFFICES}] (a short and a surplus office; past "
+             f"{MAX_OFFICES} the model of relocatable people outgrows memory)")
         need(self.staff >= 2 * max(self.offices, 1), "staff",
              f"at least 2 per office (>= {2 * max(self.offices, 1)})")
         need(1 <= self.skills <= MAX_SKILLS, "skills", f"a whole number in [1, {MAX_SKILLS}] (as "
@@ -202,6 +204,11 @@ _SUBJECTS = ("claims", "appeals", "permits", "licensing", "benefits", "grants", 
              "disputes", "customs", "housing", "planning", "safety")
 _ACTIVITIES = ("intake", "review", "adjudication", "quality_check", "casework")
 MAX_SKILLS = len(_SUBJECTS) * len(_ACTIVITIES)  # every skill name is subject_activity
+# Relocatable people's cost adjustments take a row per location and a term per destination
+# for each person and period: offices squared per person.  Measured (3 skills, 3 periods,
+# two staff per office): 200 offices 1.8M nonzeros, built in 1.2 s; 1,000 offices had held
+# 14 GB before a 15 s plan was stopped at 90 s.
+MAX_OFFICES = 200
 
 
 def _city_names(draw: _Draw, count: int) -> list[str]:

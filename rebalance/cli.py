@@ -609,24 +609,41 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("out", help="folder to write")
     p.add_argument("--size", choices=("small", "medium", "agency", "large"), default="small",
                    help="preset counts (staff/offices/skills/periods); the options below win")
-    p.add_argument("--staff", type=int)
-    p.add_argument("--offices", type=int)
-    p.add_argument("--skills", type=int)
-    p.add_argument("--periods", type=int, help="quarters from 2027-Q1")
-    p.add_argument("--seed", type=int, default=0)
-    p.add_argument("--multi-skill-share", type=float, help="share of groups with 2+ skills")
-    p.add_argument("--pool-size", type=float,
-                   help="mean people per group of interchangeable people (job-family compression)")
-    p.add_argument("--surge-factor", type=float,
-                   help="demand multiplier at surge offices in the two surge periods")
-    p.add_argument("--budget-tightness", type=float,
-                   help="budgets as a share of the cost of closing every gap by hiring")
-    p.add_argument("--vacancy-share", type=float, help="funded vacancies per head")
-    p.add_argument("--attrition-scale", type=float, help="multiplier on attrition rates")
-    p.add_argument("--leaver-share", type=float, help="share of people with a last period")
-    p.add_argument("--relocatable-share", type=float,
-                   help="share of groups who may be reassigned to another office")
-    p.add_argument("--detail-share", type=float, help="share of groups who may go on detail")
+    # Defaults and ranges in the help, from the spec itself (a sweep: they showed only in
+    # the error for a value outside them).
+    from rebalance.generate import (
+        KNOB_RANGES,
+        MAX_OFFICES,
+        MAX_PERIODS,
+        MAX_SKILLS,
+        PRESETS,
+        GeneratorSpec,
+    )
+
+    small = PRESETS["small"]
+    p.add_argument("--staff", type=int, help=f"at least 2 per office (small: {small[0]})")
+    p.add_argument("--offices", type=int, help=f"2 to {MAX_OFFICES} (small: {small[1]})")
+    p.add_argument("--skills", type=int, help=f"1 to {MAX_SKILLS} (small: {small[2]})")
+    p.add_argument("--periods", type=int,
+                   help=f"quarters from 2027-Q1, 3 to {MAX_PERIODS} (small: {small[3]})")
+    p.add_argument("--seed", type=int, default=0, help="0 or more (default 0)")
+    knobs = GeneratorSpec()
+    for name, text in (
+            ("multi_skill_share", "share of groups with 2+ skills"),
+            ("pool_size", "mean people per group of interchangeable people (job-family "
+                          "compression)"),
+            ("surge_factor", "demand multiplier at surge offices in the two surge periods"),
+            ("budget_tightness", "budgets as a share of the cost of closing every gap by "
+                                 "hiring"),
+            ("vacancy_share", "funded vacancies per head"),
+            ("attrition_scale", "multiplier on attrition rates"),
+            ("leaver_share", "share of people with a last period"),
+            ("relocatable_share", "share of groups who may be reassigned to another office"),
+            ("detail_share", "share of groups who may go on detail")):
+        low, high = KNOB_RANGES[name]
+        span = f"{low:g} or more" if high is None else f"{low:g} to {high:g}"
+        p.add_argument(f"--{name.replace('_', '-')}", type=float,
+                       help=f"{text}; {span} (default {getattr(knobs, name):g})")
     p.add_argument("--force", action="store_true", help="replace OUT if it exists")
     p.set_defaults(run=cmd_generate)
     _add_analysis_commands(sub)

@@ -87,20 +87,26 @@ class GeneratorSpec:
              f"at least 2 per office (>= {2 * max(self.offices, 1)})")
         need(1 <= self.skills <= MAX_SKILLS, "skills", f"a whole number in [1, {MAX_SKILLS}] (as "
              "many as there are invented skill names)")
-        need(self.periods >= SURGE_LENGTH + 1, "periods",
-             f"a whole number >= {SURGE_LENGTH + 1} (a surge of {SURGE_LENGTH} and a lead-in)")
+        need(SURGE_LENGTH + 1 <= self.periods <= MAX_PERIODS, "periods",
+             f"a whole number in [{SURGE_LENGTH + 1}, {MAX_PERIODS}] (a surge of "
+             f"{SURGE_LENGTH} and a lead-in; at most {MAX_PERIODS // 4} years of quarters, "
+             "as demand grows year on year)")
         need(self.seed >= 0, "seed", "a whole number >= 0")
-        need(0.0 <= self.multi_skill_share <= 1.0, "multi_skill_share", "a number in [0, 1]")
-        need(self.pool_size >= 1.0, "pool_size", "a number >= 1")
-        need(1.0 <= self.surge_factor <= 5.0, "surge_factor", "a number in [1, 5]")
-        need(0.0 <= self.budget_tightness <= 10.0, "budget_tightness", "a number in [0, 10]")
-        need(0.0 <= self.vacancy_share <= 0.5, "vacancy_share", "a number in [0, 0.5]")
-        need(0.0 <= self.attrition_scale <= 4.0, "attrition_scale", "a number in [0, 4]")
-        need(0.0 <= self.leaver_share <= 0.5, "leaver_share", "a number in [0, 0.5]")
-        need(0.0 <= self.relocatable_share <= 1.0, "relocatable_share", "a number in [0, 1]")
-        need(0.0 <= self.detail_share <= 1.0, "detail_share", "a number in [0, 1]")
+        for name, (low, high) in KNOB_RANGES.items():
+            value = getattr(self, name)
+            need(low <= value and (high is None or value <= high), name,
+                 f"a number >= {low:g}" if high is None else f"a number in [{low:g}, {high:g}]")
         need(1900 <= self.start_year <= 9000, "start_year", "a year in [1900, 9000]")
         return out
+
+
+# The realism knobs' allowed ranges (low, high; None: no upper end), for the checks above
+# and the command's help.
+KNOB_RANGES: dict[str, tuple[float, float | None]] = {
+    "multi_skill_share": (0.0, 1.0), "pool_size": (1.0, None), "surge_factor": (1.0, 5.0),
+    "budget_tightness": (0.0, 10.0), "vacancy_share": (0.0, 0.5), "attrition_scale": (0.0, 4.0),
+    "leaver_share": (0.0, 0.5), "relocatable_share": (0.0, 1.0), "detail_share": (0.0, 1.0),
+}
 
 
 def spec_for_size(size: str, **overrides: object) -> GeneratorSpec:
@@ -209,6 +215,8 @@ MAX_SKILLS = len(_SUBJECTS) * len(_ACTIVITIES)  # every skill name is subject_ac
 # two staff per office): 200 offices 1.8M nonzeros, built in 1.2 s; 1,000 offices had held
 # 14 GB before a 15 s plan was stopped at 90 s.
 MAX_OFFICES = 200
+# 40,000 quarters had written 56 MB with demand grown 401-fold; plans look a few years ahead.
+MAX_PERIODS = 100
 
 
 def _city_names(draw: _Draw, count: int) -> list[str]:

@@ -229,6 +229,8 @@ def test_generate_output_paths_at_the_edges(tmp_path, capsys, monkeypatch):
     assert "expected a whole number in [1, 90]" in capsys.readouterr().err
     assert main(["generate", str(tmp_path / "s"), "--offices", "201"]) == EXIT_USAGE
     assert "expected a whole number in [2, 200]" in capsys.readouterr().err
+    assert main(["generate", str(tmp_path / "s"), "--periods", "101"]) == EXIT_USAGE
+    assert "expected a whole number in [3, 100]" in capsys.readouterr().err
     (tmp_path / "realfile").write_text("x\n")
     assert main(["generate", str(tmp_path / "realfile" / "sub"), *small]) == EXIT_USAGE
     assert "its folder cannot be made" in capsys.readouterr().err

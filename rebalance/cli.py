@@ -32,6 +32,7 @@ from rebalance.solve import Status
 if TYPE_CHECKING:
     from rebalance.planning import PlanResult
 
+VIOLATIONS_SHOWN = 20  # on stderr, for a plan that failed verification: enough to see why
 EXIT_OK = 0
 EXIT_INTERNAL = 1
 EXIT_USAGE = 2
@@ -242,11 +243,17 @@ def _plan_failed(result) -> int | None:
             _err(f"  {conflict}")
         return STATUS_EXIT.get(result.status, EXIT_SOLVER_ERROR)
     if not result.verified:
-        _err(f"{result.instance.name}: the plan failed verification; nothing was written")
-        for violation in result.violations[:20]:
-            _err(f"  {violation}")
+        _say_unverified(f"{result.instance.name}: the plan failed verification; nothing was "
+                        "written", result)
         return EXIT_VERIFICATION_FAILED
     return None
+
+
+def _say_unverified(head: str, result: PlanResult) -> None:
+    """``head``, then the first violations of ``result``'s plan."""
+    _err(head)
+    for violation in result.violations[:VIOLATIONS_SHOWN]:
+        _err(f"  {violation}")
 
 
 def _keep_frontier(out: str, folder: Path) -> None:
@@ -441,9 +448,7 @@ def cmd_frontier(args: argparse.Namespace) -> int:
         frontier.table["point"], frontier.results, strict=True)
         if result.plan is not None and not result.verified]
     for point, result in failed:
-        _err(f"point {point}: the plan failed verification")
-        for violation in result.violations[:20]:
-            _err(f"  {violation}")
+        _say_unverified(f"point {point}: the plan failed verification", result)
     if failed:
         _err("nothing was written")
         return EXIT_VERIFICATION_FAILED

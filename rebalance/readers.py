@@ -13,6 +13,7 @@ import io
 import math
 import re
 import tomllib
+from collections import Counter
 from collections.abc import Iterator, Mapping
 from dataclasses import dataclass
 from pathlib import Path
@@ -159,15 +160,8 @@ def table_problems(table: RawTable) -> list[Problem]:
     such as the second half of a number a comma split (``1,234``)."""
     if table.fault is not None:
         return [Problem(table.label, table.fault[0], None, table.fault[1])]
-    problems = []
-    counts: dict[str, int] = {}
-    for column in table.columns:
-        if column:
-            counts[column] = counts.get(column, 0) + 1
-    for column, count in counts.items():
-        if count > 1:
-            problems.append(Problem(table.label, 1, column, f"is a column name {count} times; "
-                                    "expected each column once"))
+    problems = [Problem(table.label, 1, column, f"is a column name {count} times; expected "
+                        "each column once") for column, count in _repeated_columns(table).items()]
     hint = " (a comma inside a value?)" if table.label.endswith(".csv") else ""
     problems += [Problem(table.label, number, None,
                          f"more cells than the header's {len(table.columns)} columns; expected "
@@ -182,6 +176,12 @@ def table_problems(table: RawTable) -> list[Problem]:
                          "line per row")
                  for number, column in table.multiline_cells]
     return problems
+
+
+def _repeated_columns(table: RawTable) -> dict[str, int]:
+    """Column names the header holds more than once, with how often."""
+    counts = Counter(c for c in table.columns if c)
+    return {column: count for column, count in counts.items() if count > 1}
 
 
 def read_csv_table(path: Path) -> RawTable:
@@ -299,7 +299,7 @@ class TableRows:
         missing = [c for c in required if c not in table.columns]
         # A column named twice is said by table_problems; which copy to read is unknowable,
         # so no row is read (each would report the copy that happened to be kept).
-        twice = {c for c in table.columns if c and table.columns.count(c) > 1}
+        twice = _repeated_columns(table)
         for column in missing:
             self.problems.append(Problem(table.label, 1, column, "required column is missing"))
         unknown = [c for c in table.columns if c and c not in required + optional]
@@ -454,6 +454,11 @@ def _number(value: Any) -> TypeGuard[int | float]:
     return isinstance(value, int | float) and not isinstance(value, bool) and _finite(value)
 
 
+def _whole(value: Any) -> TypeGuard[int]:
+    """A TOML integer (``true`` is an int to Python, not a count)."""
+    return isinstance(value, int) and not isinstance(value, bool)
+
+
 def _finite(value: int | float) -> bool:
     """Finite as a float: a TOML integer of 400 digits is not (it had raised OverflowError)."""
     try:
@@ -472,8 +477,7 @@ def _settings_periods(settings: Mapping[str, Any], problems: list[Problem]) -> t
         bad("horizon", "must be a table")
         return (), 4
     periods_per_year = horizon.get("periods_per_year", 4)
-    if (not isinstance(periods_per_year, int) or isinstance(periods_per_year, bool)
-            or periods_per_year < 1):
+    if not _whole(periods_per_year) or periods_per_year < 1:
         bad("horizon.periods_per_year", f"'{periods_per_year}' is not a whole number >= 1")
         periods_per_year = 4
     default_hours = horizon.get("hours_per_fte")
@@ -499,7 +503,7 @@ def _settings_periods(settings: Mapping[str, Any], problems: list[Problem]) -> t
     else:
         start, count = horizon.get("start"), horizon.get("count")
         match = re.fullmatch(r"(\d{4})-Q([1-4])", str(start)) if start is not None else None
-        if match is None or not isinstance(count, int) or isinstance(count, bool) or count < 1:
+        if match is None or not _whole(count) or count < 1:
             bad("horizon", "give either periods = [...] or start = \"YYYY-Qn\" with count = N")
             return (), periods_per_year
         if default_hours is None:
@@ -532,8 +536,7 @@ def _settings_sections(settings: Mapping[str, Any], problems: list[Problem]) -> 
         if key not in table:
             return default
         value = table[key]
-        ok = isinstance(value, int) if integer else isinstance(value, int | float)
-        ok = ok and not isinstance(value, bool) and _finite(value) and value >= low
+        ok = (_whole(value) if integer else _number(value)) and value >= low
         ok = ok and (high is None or value <= high)
         if not ok:
             what = _describe(low, high, False, integer)

@@ -295,6 +295,7 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                                                      options, left, say,
                                                      "after the passes, for the bound")
             left = deadline - time.perf_counter()
+        start = _better_plan(objective, start, floor)  # the search starts from the better
         if passes_only and start is not None:
             say(f"  no search of the whole model: {model.matrix.nnz:,} nonzeros, more than "
                 "branch and bound can use in the time")
@@ -307,35 +308,29 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
             # With no plan yet there is nothing for a cost stage to start from: until its
             # first plan this search may use the cost stage's time too.
             overtime = (max(cost_stage_deadline - deadline, 0.0)
-                        if start is None and floor is None and cost_stage_deadline is not None
-                        else 0.0)
+                        if start is None and cost_stage_deadline is not None else 0.0)
             out = backend.run(model, objective, extra_rows,
                               replace(options, known_bound=known,
-                                      overtime_without_plan=overtime), left,
-                              start if start is not None else floor)
+                                      overtime_without_plan=overtime), left, start)
         if bound_on_side is not None:
             lp_bound = _higher(lp_bound, bound_on_side.result())
     if carried.cost_bound is not None and extra_rows:
         lp_bound = _higher(lp_bound, _bound_worked_out_ahead(carried.cost_bound,
                                                              extra_rows[0][1], deadline, say))
-    if floor is not None and (start is None or float(objective @ floor)
-                              < float(objective @ start) - 1e-9):
-        start = floor  # the search may have bettered neither
     # A verdict of no plan (infeasible, a solver error) is the solver's own where a plan
     # that keeps every limit is already at hand: that plan stands.
     no_plan = ((Status.NO_PLAN_IN_TIME, Status.UNKNOWN, Status.INFEASIBLE, Status.ERROR)
                if floor is not None else (Status.NO_PLAN_IN_TIME, Status.UNKNOWN))
-    if out.x is None and start is not None and out.status in no_plan:
+    start_value = None if start is None else float(objective @ start)
+    if out.x is None and start_value is not None and out.status in no_plan:
         # Branch and bound ran out of time before taking up the start: keep the start.
-        obj = float(objective @ start)
-        out = BackendOutcome(Status.FEASIBLE_WITH_GAP, start, obj, lp_bound, out.words,
-                             out.seconds)
-    elif (out.x is not None and out.objective is not None and start is not None
-          and float(objective @ start) < out.objective - 1e-9 * max(1.0, abs(out.objective))):
-        say(f"  keeping the plan of {float(objective @ start):.6g}: the search's best, "
+        out = BackendOutcome(Status.FEASIBLE_WITH_GAP, start, start_value, lp_bound,
+                             out.words, out.seconds)
+    elif (out.x is not None and out.objective is not None and start_value is not None
+          and start_value < out.objective - 1e-9 * max(1.0, abs(out.objective))):
+        say(f"  keeping the plan of {start_value:.6g}: the search's best, "
             f"{out.objective:.6g}, is worse")
-        out = replace(out, x=start, objective=float(objective @ start),
-                      status=Status.FEASIBLE_WITH_GAP)
+        out = replace(out, x=start, objective=start_value, status=Status.FEASIBLE_WITH_GAP)
     elif out.status.has_plan and out.status is not Status.OPTIMAL:
         # A run killed at the wall clock hands back its plan without a bound.
         out = replace(out, bound=_higher(out.bound, lp_bound))
@@ -753,6 +748,14 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
     else:
         run_pass("details alone", held_but(("detail",)), 1.0)
     return FirstPlan(best, None if bound is None else bound.result(), lp_seconds, cost_bound)
+
+
+def _better_plan(objective: np.ndarray, a: np.ndarray | None,
+                 b: np.ndarray | None) -> np.ndarray | None:
+    """The one of two plans (either may be None) with the lower ``objective``."""
+    if a is None or b is None:
+        return b if a is None else a
+    return b if float(objective @ b) < float(objective @ a) - 1e-9 else a
 
 
 def _unimproved(model: Model, first: BackendOutcome, bound: float | None,

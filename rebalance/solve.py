@@ -616,8 +616,7 @@ def _first_plan_from_lp(backend: Backend, model: Model, objective: np.ndarray,
         min(options.shares.rens * budget, 0.5 * left), start)
     if rens is not None and rens.x is not None and rens.objective is not None:
         say(f"  rounding search: plan with {rens.objective:.6g} in {rens.seconds:.1f}s")
-        if start is None or rens.objective < float(objective @ start) - 1e-9:
-            start = rens.x
+        start = _better_plan(objective, start, rens.x)
     return start, lp.objective
 
 

@@ -21,14 +21,15 @@ from collections.abc import Callable, Collection, Hashable, Iterator
 from dataclasses import dataclass, field, replace
 
 import numpy as np
+import psutil
 import scipy.sparse as sp
 
 from rebalance.instance import Instance, Person
 from rebalance.limits import add_limit_rows
 from rebalance.relocation import Relocation
 
-__all__ = ["ADAPTING_FAMILIES", "ColumnBlock", "DetailRoute", "Model", "RowFamily", "build_model",
-           "group_units", "without_rounded_rows"]
+__all__ = ["ADAPTING_FAMILIES", "BuildCutShort", "ColumnBlock", "DetailRoute", "Model",
+           "RowFamily", "build_model", "group_units", "without_rounded_rows"]
 
 INF = math.inf
 # A person's detail to an office in a period index: (person, destination office, period).
@@ -151,10 +152,41 @@ class Model:
         raise IndexError(row)
 
 
-class _Builder:
-    """Accumulates columns and rows as triplets; one ``finish`` turns them into arrays."""
+class BuildCutShort(Exception):
+    """Building the model stopped: past its deadline (the run's time limit covers building
+    too, issue 3), or with the machine's memory nearly gone.  An instance of hundreds of
+    offices with many relocatable people can take minutes and tens of GB to write out, as
+    their cost adjustments grow with offices squared (``relocation.py``)."""
 
-    def __init__(self) -> None:
+    def __init__(self, out_of: str, seconds: float, num_rows: int, nonzeros: int) -> None:
+        what = ("ran past the time limit" if out_of == "time"
+                else "stopped with the machine's memory nearly used up")
+        super().__init__(f"building the model {what} after {seconds:.1f}s ({num_rows:,} rows "
+                         f"and {nonzeros:,} nonzeros written so far)")
+        self.out_of = out_of
+        """``"time"`` or ``"memory"``."""
+        self.seconds = seconds
+
+
+# Nonzeros written between two looks at the clock and the memory while building: a look
+# costs about as much as a few hundred nonzeros, and this many take a few tenths of a second.
+NONZEROS_PER_CHECK = 200_000
+# Building stops once the machine has less than this share of its memory available (a
+# nonzero held as triplets takes about 100 bytes until the model is finished).
+MIN_FREE_MEMORY_SHARE = 0.05
+
+
+class _Builder:
+    """Accumulates columns and rows as triplets; one ``finish`` turns them into arrays.
+
+    Past ``deadline`` (``time.perf_counter`` seconds), or with memory nearly gone, it raises
+    :class:`BuildCutShort`."""
+
+    def __init__(self, deadline: float = math.inf) -> None:
+        self.started = time.perf_counter()
+        self.deadline = deadline
+        self._next_check = NONZEROS_PER_CHECK
+        self._min_free_bytes = MIN_FREE_MEMORY_SHARE * psutil.virtual_memory().total
         self.lower: list[np.ndarray] = []
         self.upper: list[np.ndarray] = []
         self.integer: list[np.ndarray] = []
@@ -212,6 +244,20 @@ class _Builder:
         self.row_lo.append(lo)
         self.row_hi.append(hi)
         self._family[2].append(label)
+        if len(self.v) >= self._next_check:
+            self._next_check = len(self.v) + NONZEROS_PER_CHECK
+            self.check_clock()
+            if psutil.virtual_memory().available < self._min_free_bytes:
+                self._cut_short("memory")
+
+    def check_clock(self) -> None:
+        """Raise :class:`BuildCutShort` once past the deadline."""
+        if time.perf_counter() > self.deadline:
+            self._cut_short("time")
+
+    def _cut_short(self, out_of: str) -> None:
+        raise BuildCutShort(out_of, time.perf_counter() - self.started, len(self.row_lo),
+                            len(self.v))
 
     def finish(self) -> Model:
         self.end()
@@ -281,7 +327,8 @@ def without_rounded_rows(model: Model) -> Model:
 def build_model(instance: Instance, pooled: bool = True,
                 pool_key: Callable[[Person], Hashable] | None = None,
                 pair_details: bool | None = None,
-                keep_details: Collection[DetailRoute] = ()) -> Model:
+                keep_details: Collection[DetailRoute] = (),
+                deadline: float = math.inf) -> Model:
     """Build the model of ``instance`` (see ``docs/model.md``).
 
     With ``pooled`` (the default) interchangeable people share columns with integer counts;
@@ -296,12 +343,15 @@ def build_model(instance: Instance, pooled: bool = True,
     ``keep_details`` lists routes (person, destination office, period index) that get a
     detail column even where the destination wants none of the person's skills then: a
     re-plan keeps a detail under way to its end, idle or not.
+
+    Past ``deadline`` (``time.perf_counter`` seconds), or with memory nearly gone, it raises
+    :class:`BuildCutShort`.
     """
     if pair_details is None:
         pair_details = len(instance.offices) <= PAIR_DETAILS_MAX_OFFICES
     started = time.perf_counter()
     with _no_cycle_collection():
-        b = _Builder()
+        b = _Builder(deadline)
         f = _Frame(instance, group_units(instance, pooled, pool_key))
         work, det, rea, det_cost = _add_staff_columns(b, f, pair_details,
                                                       frozenset(keep_details))
@@ -408,6 +458,7 @@ def _add_staff_columns(b: _Builder, f: _Frame, pair_details: bool,
     work_cap: list[float] = []
 
     for u, person in enumerate(f.rep):
+        b.check_clock()
         home0 = f.o_ix[person.home_office]
         person_skills = {f.k_ix[s] for s, _ in person.skills}
         homes = range(len(offices)) if person.can_relocate else (home0,)

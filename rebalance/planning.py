@@ -13,12 +13,12 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
-from rebalance.backends import raise_if_stopped, stoppable
+from rebalance.backends import BACKENDS, raise_if_stopped, stoppable
 from rebalance.files import staged_folder
 from rebalance.instance import Instance, Person
-from rebalance.model import DetailRoute, Model, build_model
+from rebalance.model import BuildCutShort, DetailRoute, Model, build_model
 from rebalance.plan import Plan, extract_plan, write_plan
-from rebalance.solve import SolveOptions, SolveResult, Status, solve
+from rebalance.solve import SolveOptions, SolveResult, StageResult, Status, solve
 from rebalance.verify import Violation, verify_plan
 
 __all__ = ["PlanResult", "make_plan", "options_from_instance", "summary_dict", "write_outputs"]
@@ -78,8 +78,12 @@ def make_plan(instance: Instance, options: SolveOptions, pooled: bool = True,
     ``keep_details`` gives them detail columns the builder would prune (see ``build_model``).
     """
     started = time.perf_counter()
-    model = build_model(instance, pooled=pooled, pool_key=pool_key, pair_details=pair_details,
-                        keep_details=keep_details)
+    try:
+        model = build_model(instance, pooled=pooled, pool_key=pool_key,
+                            pair_details=pair_details, keep_details=keep_details,
+                            deadline=started + options.time_limit_seconds)
+    except BuildCutShort as cut_short:
+        return _built_too_late(instance, options, cut_short)
     if adjust is not None:
         model = adjust(model)
     build_seconds = time.perf_counter() - started
@@ -106,6 +110,20 @@ def make_plan(instance: Instance, options: SolveOptions, pooled: bool = True,
     return PlanResult(instance, options, result.status, plan, result, violations,
                       model.num_cols, model.num_rows, model.num_integer, build_seconds,
                       extract_seconds, verify_seconds)
+
+
+def _built_too_late(instance: Instance, options: SolveOptions,
+                    cut_short: BuildCutShort) -> PlanResult:
+    """No plan: the time limit or the machine's memory ran out while the model was built."""
+    backend = BACKENDS[options.solver]()
+    words = str(cut_short)
+    if options.progress is not None:
+        options.progress(f"model: {words}")
+    status = Status.NO_PLAN_IN_TIME if cut_short.out_of == "time" else Status.ERROR
+    stage = StageResult("build", status, None, None, None, cut_short.seconds, words)
+    solved = SolveResult(status, None, (stage,), backend.name, backend.version(), 0.0)
+    return PlanResult(instance, options, status, None, solved, (), 0, 0, 0, cut_short.seconds,
+                      0.0, 0.0)
 
 
 def summary_dict(result: PlanResult) -> dict[str, Any]:

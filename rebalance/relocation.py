@@ -58,6 +58,7 @@ class Relocation:
         # Per adjustment column: the cost change of each of the unit's details that period.
         self.adj_changes: list[np.ndarray] = []
         for (u, t), js in sorted(self.by_destination.items()):
+            b.check_clock()
             home0 = f.o_ix[f.rep[u].home_office]
             for a in range(len(offices)):
                 at_keys["unit"].append(u)

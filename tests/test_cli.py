@@ -14,10 +14,13 @@ import psutil
 import pytest
 from conftest import DATA, ROOT
 
+import rebalance.model as model_module
+import rebalance.planning as planning_module
 from rebalance.cli import (
     EXIT_INFEASIBLE,
     EXIT_NO_PLAN_IN_TIME,
     EXIT_OK,
+    EXIT_SOLVER_ERROR,
     EXIT_STOPPED,
     EXIT_VERIFICATION_FAILED,
     main,
@@ -358,3 +361,33 @@ def test_a_stopped_analysis_ends_its_workers_at_once(tmp_path):
     _, alive = psutil.wait_procs(tree, timeout=5)
     assert not alive, f"processes left running: {alive}"
     assert not (tmp_path / "cmp").exists()
+
+
+def test_building_past_the_time_limit_is_no_plan_in_time_and_writes_nothing(
+        tmp_path, monkeypatch, capsys):
+    # The limit covers building too (issue 3): an instance of hundreds of offices with many
+    # relocatable people had built for 90 s and 14 GB under a 15 s limit.  Here the deadline
+    # has passed when building starts.
+    build = planning_module.build_model
+    monkeypatch.setattr(planning_module, "build_model",
+                        lambda *args, **kwargs: build(*args, **{**kwargs, "deadline": 0.0}))
+    out = tmp_path / "plan"
+    code = main(["plan", str(DATA / "tiny"), "-o", str(out), "--time-limit", "5"])
+    assert code == EXIT_NO_PLAN_IN_TIME
+    shown = capsys.readouterr().out
+    assert "building the model ran past the time limit" in shown
+    assert not out.exists()
+
+
+def test_building_with_memory_nearly_gone_is_a_clear_error_and_writes_nothing(
+        tmp_path, monkeypatch, capsys):
+    # With a 200-office instance, half its people relocatable, building had held all 24 GB
+    # of this machine and been killed by the kernel: building now stops with memory low.
+    monkeypatch.setattr(model_module, "NONZEROS_PER_CHECK", 1)
+    monkeypatch.setattr(model_module, "MIN_FREE_MEMORY_SHARE", 1.0)  # never enough free
+    out = tmp_path / "plan"
+    code = main(["plan", str(DATA / "tiny"), "-o", str(out)])
+    assert code == EXIT_SOLVER_ERROR
+    assert "machine's memory nearly used up" in capsys.readouterr().out
+    assert not out.exists()
+

@@ -61,6 +61,10 @@ def format_check(instance: Instance) -> str:
 def format_summary(result: PlanResult) -> str:
     s = result.solve
     lines = [f"Plan for {result.instance.name}: {STATUS_WORDS[result.status]}"]
+    if [stage.name for stage in s.stages] == ["build"]:
+        # Cut short while building: no model, so no model size and no stage to show.
+        lines += [f"  {s.stages[0].solver_words}", "", "  Caution: " + CAUTION]
+        return "\n".join(lines)
     gap = s.gap
     lines.append(f"  solver {s.solver_version}; model {result.num_cols:,} columns "
                  f"({result.num_integer:,} integer) x {result.num_rows:,} rows; "

@@ -349,6 +349,8 @@ def generate(spec: GeneratorSpec) -> GeneratedInstance:
     short = sorted(roles[:n_short])
     surplus = sorted(roles[n_short:n_short + n_surplus])
     normal = roles[n_short + n_surplus:]
+    # With two offices there is none besides the short and the surplus one: the surge lands
+    # on the short one, the harder case (on the surplus one its people would absorb it).
     surge = sorted(normal[: max(1, round(spec.offices / 6))]) if normal else short[:1]
     factor = []
     for o in range(spec.offices):

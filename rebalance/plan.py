@@ -137,6 +137,11 @@ def schedule_details(size: int, counts: list[int], m: int | None) -> list[list[i
     return out
 
 
+# Below this FTE a member, a unit's work on one skill at one office is not split among its
+# members (see extract_plan): about half an hour a quarter at 450 hours an FTE.
+SHARE_FLOOR = 1e-3
+
+
 def extract_plan(instance: Instance, model: Model, x: np.ndarray) -> Plan:
     """Decode ``x`` into named tables, cleaning solver tolerance as described above."""
     offices = [o.name for o in instance.offices]
@@ -219,16 +224,40 @@ def extract_plan(instance: Instance, model: Model, x: np.ndarray) -> Plan:
         hire_rows.append((offices[o], skills[k], periods[s], int(n),
                           "new" if new else "vacancy", skill.onboarding_cost * n, salary))
 
-    # Work: a unit's FTE at an office is shared evenly by the members who are there.
+    # Work: a unit's FTE at an office is shared evenly by the members who are there, but an
+    # amount too small to share (under SHARE_FLOOR a member) goes whole to the first of them,
+    # who does that much less of the rest.  Such amounts are real: the least shortfall needs
+    # them (a demand that whole hires' ramp and attrition leave a sliver short of), and an
+    # even split had made one of them a row for each member (16 rows of 2.2e-4 FTE).
     wb = model.blocks["work"]
     w = np.clip(x[wb.start:wb.stop], 0.0, None)
     work_by_pt: dict[tuple[int, int], list[tuple[int, float]]] = defaultdict(list)
-    for j in np.flatnonzero(w > 1e-9):
+    by_place: dict[tuple[int, int, int], list[int]] = defaultdict(list)
+    for j in np.flatnonzero(w > 1e-9).tolist():
         u, o, t = int(wb.keys["unit"][j]), int(wb.keys["office"][j]), int(wb.keys["period"][j])
+        by_place[(u, o, t)].append(j)
+    for (u, o, t), cols in by_place.items():
         there = [p for p in units[u]
                  if (located.get((p, t)) or home_in_force(p, t)) == offices[o]]
-        for p in there:
-            work_by_pt[(p, t)].append((int(j), float(w[j]) / len(there)))
+        n = len(there)
+        small = [j for j in cols if n > 1 and w[j] / n < SHARE_FLOOR]
+        whole = float(sum(w[j] for j in small))
+        first_avail = instance.available_fte(staff[there[0]], t) if there else 0.0
+        if not small or whole > first_avail:
+            for p in there:
+                for j in cols:
+                    work_by_pt[(p, t)].append((j, float(w[j]) / n))
+            continue
+        shared = [j for j in cols if j not in small]
+        total = float(sum(w[j] for j in shared))
+        own = min(total / n, first_avail - whole)  # the first member's part of the rest
+        for j in small:
+            work_by_pt[(there[0], t)].append((j, float(w[j])))
+        for j in shared:
+            if own > 0:
+                work_by_pt[(there[0], t)].append((j, float(w[j]) * own / total))
+            for p in there[1:]:
+                work_by_pt[(p, t)].append((j, float(w[j]) * (total - own) / (total * (n - 1))))
     # People with one skill work it in full wherever there is demand for it.
     wanted = {(d.office, d.skill, d.period) for d in instance.demand if d.fte > 0}
     direct_rows: dict[tuple[int, int], tuple[str, str, float, float]] = {}

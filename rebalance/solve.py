@@ -566,7 +566,7 @@ def _stay_put_plan(backend: Backend, model: Model, objective: np.ndarray,
     candidates = [("staying put (no moves, no hires)", model.col_lower)]
     if model.hint is not None and model.hint.size == model.num_cols:
         held = np.clip(np.rint(model.hint), model.col_lower, model.col_upper)
-        candidates.insert(0, ("the old plan kept", held))
+        candidates.insert(0, ("the old plan's moves and hires, work split afresh", held))
     best: tuple[float, np.ndarray] | None = None
     for words, values in candidates:
         left = deadline - time.perf_counter()

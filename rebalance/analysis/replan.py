@@ -119,7 +119,11 @@ def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
 
     keep = _runs_kept(details, at) if not allow_recall else []
     idle = _idle_runs(instance, keep)
-    result = make_plan(instance, options, pool_key=pool_key, adjust=adjust, keep_details=keep)
+    # The past keeps its details even where the data now have no demand there then.
+    past = [(person, dst, t) for person, run in sorted(details.items())
+            for t, (_, dst) in sorted(run.items()) if t < at]
+    result = make_plan(instance, options, pool_key=pool_key, adjust=adjust,
+                       keep_details=keep + past)
     # The old plan's coverage table states the old demand; only its rules are checked here.
     # Its coverage table and its prices are bookkeeping at the old data's demand, prices and
     # horizon (a longer one adds years and salary periods): only its rules are checked.
@@ -175,6 +179,7 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
     names = instance.period_names
     ix = {name: t for t, name in enumerate(names)}
     staff = instance.staff
+    people = {p.person: p for p in staff}
     lower, upper = model.col_lower.copy(), model.col_upper.copy()
     problems: list[str] = []
 
@@ -208,8 +213,9 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
             if key in seen or (key[0], -1, key[2], t) in seen:
                 continue
             if t < at:
-                problems.append(f"detail of {person} in {names[t]} ({src} -> {dst}) is no longer "
-                                "possible with this data")
+                problems.append(f"detail of {person} in {names[t]} ({src} -> {dst}), before "
+                                f"{names[at]}, is ruled out by the data now: "
+                                f"{_why_not(instance, people[person], t, 'detail')}")
             elif under_way(person, t) and not allow_recall:
                 # Kept routes get their column (``keep_details``) unless the data now rule the
                 # detail out (the person left, or may no longer go on detail): it ends, aloud.
@@ -236,6 +242,14 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
             old_home[j] = 1.0
         if t < at:
             fix(home.start + j, old_home[j], f"home column {j}")
+    homes = {(int(home.keys["unit"][j]), int(home.keys["office"][j]), int(home.keys["period"][j]))
+             for j in range(len(home))}
+    for person, (t, dst) in sorted(moves.items()):
+        if t < at and (unit_of[person], offices.index(dst), t) not in homes:
+            # Not a column: the move would silently vanish from the past.
+            problems.append(f"reassignment of {person} to {dst} in {names[t]}, before "
+                            f"{names[at]}, is ruled out by the data now: "
+                            f"{_why_not(instance, people[person], t, 'reassignment')}")
 
     # -- hires: fixed while recruitment is under way or done -------------------------------
     hire = model.blocks["hire"]
@@ -254,7 +268,8 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
     for (o, k, s, new), n in old_hires.items():
         if (o, k, s, new) not in hire_cols and s < at + instance.skills[k].time_to_hire:
             problems.append(f"{n:g} hire(s) of {skills[k]} at {offices[o]} from {names[s]} "
-                            "have started but the data no longer allow them")
+                            "have started (their recruitment has begun), but the data now rule "
+                            f"them out: {_why_no_hire(instance, o, k, s, new)}")
 
     # -- work before `at`: the split as it happened ------------------------------------------
     work = model.blocks["work"]
@@ -313,6 +328,33 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
                                 exprs)
 
 
+def _why_not(instance: Instance, person: Person, t: int, what: str) -> str:
+    """Which data rule out ``person``'s detail or reassignment in period ``t`` (for a refusal:
+    the past cannot change, and each person's flags hold for the whole horizon)."""
+    if not person.is_present(t):
+        return f"{person.person} has left by then (staff.csv last_period)"
+    if what == "detail" and not person.can_detail:
+        return f"staff.csv says {person.person} may not go on detail (can_detail)"
+    if what == "detail" and instance.policy.max_consecutive_detail_periods == 0:
+        return "settings.toml allows no details (max_consecutive_detail_periods = 0)"
+    if what == "reassignment" and not person.can_relocate:
+        return f"staff.csv says {person.person} may not be reassigned (can_relocate)"
+    return "the model has no place for it"
+
+
+def _why_no_hire(instance: Instance, o: int, k: int, s: int, new: int) -> str:
+    """Which data rule out a hire already started (office ``o``, skill ``k``, start ``s``)."""
+    skill, office = instance.skills[k], instance.offices[o]
+    if s < skill.time_to_hire:
+        return (f"it starts before {skill.name}'s time to hire ({skill.time_to_hire} periods "
+                "from the horizon's start, skills.csv time_to_hire)")
+    if office.max_hires_per_period == 0:
+        return f"{office.name} may not hire (offices.csv max_hires_per_period = 0)"
+    if not new and not instance.vacancies.get((office.name, skill.name), 0):
+        return f"{office.name} has no funded {skill.name} vacancy (vacancies.csv)"
+    return "the model has no place for it"
+
+
 def _with_committed_hires(instance: Instance, model: Model, old: Plan, at: int) -> Model:
     """Add hire columns the builder pruned (no demand left for them to cover) for hires whose
     recruitment has begun: they still take seats, hiring slots, vacancies and budget.
@@ -331,7 +373,10 @@ def _with_committed_hires(instance: Instance, model: Model, old: Plan, at: int) 
     for h in hire_rows(old):
         key = (offices.index(h.office), skills.index(h.skill), names.index(h.start_period),
                int(h.funding == "new"))
-        if key not in have and key[2] < at + instance.skills[key[1]].time_to_hire:
+        # Before the skill's time to hire the rules allow no hire at all: such a hire is
+        # refused in _fix_and_price, not carried in.
+        if (key not in have and instance.skills[key[1]].time_to_hire <= key[2]
+                < at + instance.skills[key[1]].time_to_hire):
             missing[key] += h.count
     for (o, k, s, new), count in sorted(missing.items()):
         model = _insert_hire(instance, model, o, k, s, new, count)
@@ -539,9 +584,43 @@ def _measures(instance: Instance, plan: Plan) -> dict[str, float]:
     return out
 
 
+def _under_current_data(instance: Instance, old: Plan) -> Plan:
+    """The old plan's decisions as the current data would have them: work only by people
+    present then, at their current proficiency and within their current FTE, and every move
+    and hire at current prices.  (Its own tables hold the old data's output and prices: a
+    person who has since left still covered demand there, which overstated the old plan.)"""
+    people = {p.person: p for p in instance.staff}
+    ix = {name: t for t, name in enumerate(instance.period_names)}
+    work = old.work.copy()
+    person = work["person"].astype(str)
+    t = work["period"].astype(str).map(ix)
+    present = [name in people and not pd.isna(i) and people[name].is_present(int(i))
+               for name, i in zip(person, t, strict=True)]
+    work = work[present].copy()
+    person, t = person[present], t[present]
+    # Within what each person has now, shares kept.
+    had = work.groupby([person, t])["fte"].transform("sum")
+    has = [instance.available_fte(people[name], int(i)) for name, i in zip(person, t,
+                                                                            strict=True)]
+    work["fte"] = work["fte"] * np.minimum(1.0, np.asarray(has) / had.clip(lower=1e-12))
+    work["output_fte"] = work["fte"] * [people[name].proficiency(str(k))
+                                        for name, k in zip(person, work["skill"], strict=True)]
+    details = old.details.copy()
+    details["cost"] = [instance.detail_cost_per_period(str(a), str(b))
+                       for a, b in zip(details["from_office"], details["to_office"],
+                                       strict=True)]
+    moves = old.reassignments.copy()
+    moves["cost"] = [instance.relocation_cost(str(a), str(b))
+                     for a, b in zip(moves["from_office"], moves["to_office"], strict=True)]
+    hires = old.hires.copy()
+    hires["onboarding_cost"] = [instance.skill(str(k)).onboarding_cost * int(n)
+                                for k, n in zip(hires["skill"], hires["count"], strict=True)]
+    return replace(old, work=work, details=details, reassignments=moves, hires=hires)
+
+
 def _summary(instance: Instance, old: Plan, new: Plan | None, changes: pd.DataFrame,
              disruption: float) -> pd.DataFrame:
-    before = _measures(instance, old)
+    before = _measures(instance, _under_current_data(instance, old))
     after = _measures(instance, new) if new is not None else {}
     rows = [(k, before[k], after.get(k, math.nan), after.get(k, math.nan) - before[k])
             for k in before]

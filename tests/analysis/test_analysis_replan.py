@@ -14,7 +14,7 @@ from rebalance import make_plan
 from rebalance.analysis.replan import DisruptionCosts, ReplanError, replan
 from rebalance.analysis.scenarios import DemandChange, Scenario, apply_scenario
 from rebalance.instance import Budget
-from rebalance.plan import Plan
+from rebalance.plan import Plan, coverage_table
 
 
 def _actions(plan: Plan) -> tuple[list[tuple[object, ...]], ...]:
@@ -241,3 +241,62 @@ def test_an_old_plan_of_a_shorter_horizon_breaks_no_rule_for_its_cost_table(tiny
     assert base.plan is not None
     out = replan(longer, base.plan, 2, exact_options(longer))
     assert out.old_plan_violations == ()
+
+
+def test_the_past_keeps_a_detail_whose_demand_is_gone_from_the_data(tiny) -> None:
+    # docs/analysis.md: before PERIOD everything is fixed as it happened.  a1 was on detail
+    # A -> B in Q2; with B's Q2 review demand gone from the data, a re-plan from Q3 had been
+    # refused ("no longer possible"), as the builder writes no detail column without demand.
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    gone = apply_scenario(tiny, Scenario("gone", "", (
+        DemandChange(("B",), ("review",), (1,), multiplier=0.0),)))
+    out = replan(gone, base.plan, 2, exact_options(gone))
+    assert out.result.verified and out.result.plan is not None
+    details = out.result.plan.details
+    assert ((details.person == "a1") & (details.period == "2027-Q2")
+            & (details.to_office == "B")).any()
+    assert not (out.changes["period"] == "2027-Q2").any()
+
+
+def test_a_past_reassignment_the_data_now_rule_out_is_refused_not_dropped(tiny) -> None:
+    # A sweep: with can_relocate turned off, a re-plan silently dropped a reassignment made
+    # before PERIOD (the model had no column for it) and rewrote the past's work around it.
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    moves = pd.DataFrame([["a2", "2027-Q2", "A", "B", 20000.0]],
+                         columns=list(base.plan.reassignments.columns))
+    moved = replace(base.plan, reassignments=moves)
+    fixed = tiny.with_changes(staff=tuple(
+        replace(p, can_relocate=False) if p.person == "a2" else p for p in tiny.staff))
+    with pytest.raises(ReplanError, match=r"reassignment of a2 to B in 2027-Q2.*can_relocate"):
+        replan(fixed, moved, 2, exact_options(fixed))
+
+
+def test_a_hire_started_before_a_longer_time_to_hire_is_refused_by_name(tiny) -> None:
+    # The plan hires a reviewer at B from Q4 (time to hire 1).  With time to hire raised to 4
+    # the rules allow no hire before Q4 + ... at all; the re-plan had kept the hire and then
+    # failed its own verification (exit 6).  It is refused, naming the hire and the rule.
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    slower = tiny.with_changes(skills=tuple(
+        replace(s, time_to_hire=4) if s.name == "review" else s for s in tiny.skills))
+    with pytest.raises(ReplanError, match=r"review at B from 2027-Q4.*time to hire \(4"):
+        replan(slower, base.plan, 3, exact_options(slower))
+
+
+def test_the_old_plans_figures_count_no_work_by_someone_who_has_left(tiny) -> None:
+    # replan.csv measures the old plan against the current data.  With a1 leaving after Q2,
+    # its own work.csv still counted a1's Q3 and Q4 work at B, so the old plan looked as
+    # good as it had been and the re-plan as if it made things worse.
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    left = tiny.with_changes(staff=tuple(
+        replace(p, last_period=1) if p.person == "a1" else p for p in tiny.staff))
+    out = replan(left, base.plan, 2, exact_options(left))
+    work = base.plan.work
+    kept = work[~((work.person == "a1") & work.period.isin(["2027-Q3", "2027-Q4"]))]
+    expected = coverage_table(left, kept, base.plan.hires)["weighted_shortfall"].sum()
+    old = out.summary.set_index("measure").loc["weighted_shortfall", "old_plan"]
+    assert old == pytest.approx(expected, abs=1e-9)
+    assert old > base.plan.weighted_shortfall + 0.5  # a1 covered a whole FTE of it

@@ -27,6 +27,7 @@ from typing import TYPE_CHECKING, Any, TextIO
 from rebalance.backends import raise_if_stopped, stoppable
 from rebalance.instance import Instance
 from rebalance.readers import InstanceError, count_problems, read_instance
+from rebalance.report.console import format_frame
 from rebalance.solve import Status
 
 if TYPE_CHECKING:
@@ -64,6 +65,22 @@ def _load(path: str) -> Instance | None:
         for problem in exc.problems:
             _err(("  warning: " if problem.is_warning else "  ") + str(problem))
         return None
+
+
+def _say_first(head: str, problems: Sequence[object]) -> None:
+    """``head``, then the first problems and how many more (an old plan of another instance
+    had listed 66 lines of names the instance lacks)."""
+    _err(head)
+    for problem in problems[:VIOLATIONS_SHOWN]:
+        _err(f"  {problem}")
+    if len(problems) > VIOLATIONS_SHOWN:
+        _err(f"  ... and {len(problems) - VIOLATIONS_SHOWN} more")
+
+
+def _unreadable_plan(folder: str | Path, exc: InstanceError) -> int:
+    _say_first(f"{folder}: not a plan folder rebalance can read, "
+               f"{count_problems(exc.problems)} problem(s); nothing was written", exc.problems)
+    return EXIT_INVALID_INPUT
 
 
 def cmd_check(args: argparse.Namespace) -> int:
@@ -115,6 +132,7 @@ def cmd_plan(args: argparse.Namespace) -> int:
 
 
 def cmd_verify(args: argparse.Namespace) -> int:
+    from rebalance.plan import PlanError
     from rebalance.report import format_violations
     from rebalance.verify import verify_folder
 
@@ -124,7 +142,11 @@ def cmd_verify(args: argparse.Namespace) -> int:
     if not Path(args.plan_dir).is_dir():
         _err(f"{args.plan_dir}: plan folder not found")
         return EXIT_INVALID_INPUT
-    violations = verify_folder(instance, args.plan_dir)
+    try:
+        # A table missing or unreadable is bad input here, not a broken rule.
+        violations = verify_folder(instance, args.plan_dir, complete=True)
+    except PlanError as exc:
+        return _unreadable_plan(args.plan_dir, exc)
     print(format_violations(violations))
     return EXIT_OK if not violations else EXIT_VERIFICATION_FAILED
 
@@ -163,6 +185,7 @@ def cmd_demand(args: argparse.Namespace) -> int:
 
 
 def cmd_report(args: argparse.Namespace) -> int:
+    from rebalance.plan import PlanError
     from rebalance.report import format_violations
     from rebalance.report.files import rebuild_reports
     from rebalance.report.inputs import stored_instance_path
@@ -178,8 +201,12 @@ def cmd_report(args: argparse.Namespace) -> int:
     instance = _load(source)
     if instance is None:
         return EXIT_INVALID_INPUT
-    violations = verify_folder(instance, args.plan_dir)
-    for path in rebuild_reports(args.plan_dir, instance, violations):
+    try:
+        violations = verify_folder(instance, args.plan_dir)
+        written = rebuild_reports(args.plan_dir, instance, violations)
+    except PlanError as exc:  # a missing table is drawn around; one that cannot be read is not
+        return _unreadable_plan(args.plan_dir, exc)
+    for path in written:
         print(f"wrote {path}")
     if violations:
         # Written all the same, saying so on its first card: a planner may need to see what
@@ -268,7 +295,8 @@ def _keep_frontier(out: str, folder: Path) -> None:
 
 def _write_analysis_plan(args: argparse.Namespace, result, instance: Instance,
                          tables: dict, instance_path: str | None, written: str,
-                         more: Callable[[Path], None] | None = None) -> int:
+                         more: Callable[[Path], None] | None = None,
+                         replanned_at: int | None = None) -> int:
     """Write a verified analysis plan to ``args.out`` with ``tables``, its reasons and the
     report; ``more`` adds to the folder first.  ``instance_path`` is recorded for
     'rebalance report'."""
@@ -279,7 +307,8 @@ def _write_analysis_plan(args: argparse.Namespace, result, instance: Instance,
 
     def extra(result: PlanResult, folder: Path) -> None:
         assert result.plan is not None  # write_outputs writes only a plan
-        write_tables({**tables, "reasons.csv": reasons(instance, result.plan).table}, folder)
+        write_tables({**tables, "reasons.csv": reasons(instance, result.plan,
+                                                        replanned_at).table}, folder)
         if more is not None:
             more(folder)
         _keep_frontier(args.out, folder)
@@ -291,41 +320,36 @@ def _write_analysis_plan(args: argparse.Namespace, result, instance: Instance,
     return EXIT_OK
 
 
-def _folder_name(name: str) -> str:
-    return "".join(c if c.isalnum() or c in "-_." else "_" for c in name) or "scenario"
-
-
 def cmd_compare(args: argparse.Namespace) -> int:
     from rebalance.analysis.output import write_tables
     from rebalance.analysis.reasons import reasons
-    from rebalance.analysis.scenarios import ScenarioError, compare_scenarios, read_scenario
+    from rebalance.analysis.scenarios import (
+        ScenarioError,
+        compare_scenarios,
+        folder_name,
+        read_scenarios,
+    )
     from rebalance.plan import write_plan
     from rebalance.planning import summary_dict
 
     instance = _load(args.instance)
     if instance is None:
         return EXIT_INVALID_INPUT
-    scenarios, problems = [], []
-    for path in args.scenario:
-        try:
-            scenarios.append(read_scenario(path, instance))
-        except ScenarioError as exc:
-            problems += exc.problems
-    if problems:
-        _err(f"{len(problems)} problem(s) in the scenario file(s); nothing was written")
-        for problem in problems:
+    try:
+        # Names and their folders are checked here, before any solve (a clash of folders had
+        # been an internal error when the plans were written).
+        scenarios = read_scenarios(args.scenario, instance)
+    except ScenarioError as exc:
+        _err(f"{len(exc.problems)} problem(s) in the scenario file(s); nothing was written")
+        for problem in exc.problems:
             _err(f"  {problem}")
-        return EXIT_INVALID_INPUT
-    names = ["base"] + [s.name for s in scenarios]
-    if len(set(names)) != len(names):
-        _err("scenario names must differ from each other and from 'base'")
         return EXIT_INVALID_INPUT
     comparison = compare_scenarios(instance, scenarios, _analysis_options(instance, args),
                                    workers=args.workers)
     columns = [c for c in ("scenario", "status", "verified", "gap", "weighted_shortfall",
                            "total_cost", "hires", "detail_periods", "reassignments",
                            "actions_differing") if c in comparison.table.columns]
-    print(comparison.table[columns].to_string(index=False))
+    print(format_frame(comparison.table[columns]))
     for result in comparison.results:
         code = _plan_failed(result)
         if code is not None:
@@ -335,7 +359,7 @@ def cmd_compare(args: argparse.Namespace) -> int:
         for name, other in zip(comparison.names[1:], comparison.results[1:], strict=True):
             if other.plan is None:
                 continue
-            sub = folder / "scenarios" / _folder_name(name)
+            sub = folder / "scenarios" / folder_name(name)
             sub.mkdir(parents=True)
             write_plan(other.plan, sub)
             (sub / "summary.json").write_text(json.dumps(summary_dict(other), indent=2) + "\n")
@@ -350,16 +374,16 @@ def cmd_compare(args: argparse.Namespace) -> int:
 
 def cmd_replan(args: argparse.Namespace) -> int:
     from rebalance.analysis.replan import DisruptionCosts, ReplanError, replan
-    from rebalance.plan import PLAN_TABLES, read_plan
+    from rebalance.plan import PlanError, read_plan
 
     instance = _load(args.instance)
     if instance is None:
         return EXIT_INVALID_INPUT
     folder = Path(args.from_dir)
-    missing = [n for n in PLAN_TABLES if not (folder / f"{n}.csv").exists()]
-    if not folder.is_dir() or missing:
-        _err(f"{folder}: not a plan folder (missing {', '.join(missing) or 'the folder'})")
-        return EXIT_INVALID_INPUT
+    try:
+        old = read_plan(folder, complete=True)
+    except PlanError as exc:
+        return _unreadable_plan(folder, exc)
     if args.scenario:
         from rebalance.analysis.scenarios import ScenarioError, apply_scenario, read_scenario
 
@@ -376,13 +400,12 @@ def cmd_replan(args: argparse.Namespace) -> int:
     costs = DisruptionCosts(args.disruption_detail, args.disruption_reassignment,
                             args.disruption_hire)
     try:
-        out = replan(instance, read_plan(folder), instance.period_names.index(args.at),
+        out = replan(instance, old, instance.period_names.index(args.at),
                      _analysis_options(instance, args, progress=True), costs,
                      allow_recall=args.allow_recall)
     except ReplanError as exc:
-        _err(f"{folder}: the old plan cannot be carried forward; nothing was written")
-        for text in exc.problems:
-            _err(f"  {text}")
+        _say_first(f"{folder}: the old plan cannot be carried forward; nothing was written",
+                   exc.problems)
         return EXIT_INVALID_INPUT
     if out.old_plan_violations:
         _err(f"note: the old plan breaks {len(out.old_plan_violations)} rule(s) of the current "
@@ -393,18 +416,21 @@ def cmd_replan(args: argparse.Namespace) -> int:
     code = _plan_failed(out.result)
     if code is not None:
         return code
+    from rebalance.report.console import format_outcome
+
+    print(format_outcome(out.result) + "\n")
     # Two decimals: FTE-periods and money, where 2e-07 is a solver's noise.
     print(out.summary.to_string(index=False, float_format=lambda v: f"{v:,.2f}"))
     print(f"\n{len(out.changes)} change(s) against the old plan from {args.at} on")
     if len(out.changes):
-        print(out.changes.head(30).to_string(index=False))
+        print(format_frame(out.changes.head(30)))
 
     # Under a scenario the plan belongs to the changed data, not to the instance folder:
     # record no instance path, so 'rebalance report' asks for one rather than mislead.
     return _write_analysis_plan(args, out.result, instance,
                                 {"changes.csv": out.changes, "replan.csv": out.summary},
                                 None if args.scenario else args.instance,
-                                "new plan, changes.csv and replan.csv")
+                                "new plan, changes.csv and replan.csv", replanned_at=out.at)
 
 
 def cmd_frontier(args: argparse.Namespace) -> int:
@@ -439,7 +465,7 @@ def cmd_frontier(args: argparse.Namespace) -> int:
                                workers=args.workers)
     shown = frontier.table[["point", "hiring_budget", "moves_budget", "status", "gap",
                             "weighted_shortfall", "total_cost", "knee"]]
-    print(shown.astype(object).where(shown.notna(), "").to_string(index=False))
+    print(format_frame(shown))
     print(f"\nhiring_budget and moves_budget: {frontier.table['budget_unit'].iloc[0]}; an "
           "empty moves_budget keeps the instance's caps")
     # A point without a plan (infeasible, out of time) is a result the table reports; a plan
@@ -477,9 +503,9 @@ def cmd_marginal(args: argparse.Namespace) -> int:
                              Steps(budget=args.budget_step), workers=args.workers,
                              max_resolves=args.max_resolves)
     if len(values.table):
-        print(values.table[["rank", "limit", "where", "step", "shortfall_reduction",
-                            "cost_change", "estimate_shortfall_reduction",
-                            "status"]].to_string(index=False))
+        print(format_frame(values.table[["rank", "limit", "where", "step",
+                                         "shortfall_reduction", "cost_change",
+                                         "estimate_shortfall_reduction", "status"]]))
     else:
         print("no limit binds the plan, so there is nothing to rank; "
               "marginal_values.csv is written with its header only")

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from collections import defaultdict
 from collections.abc import Iterator, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
@@ -19,11 +19,20 @@ import pandas as pd
 
 from rebalance.instance import Instance
 from rebalance.model import Model
+from rebalance.readers import (
+    InstanceError,
+    Problem,
+    TableRows,
+    collapse_repeats,
+    read_csv_table,
+    table_problems,
+)
 
 __all__ = [
     "PLAN_TABLES",
     "NamingError",
     "Plan",
+    "PlanError",
     "extract_plan",
     "read_plan",
     "schedule_details",
@@ -342,21 +351,62 @@ def write_plan(plan: Plan, folder: Path) -> None:
         plan.table(name).to_csv(folder / f"{name}.csv", columns=list(columns), index=False)
 
 
-def read_plan(folder: str | Path) -> Plan:
-    """Read plan tables back (for the verifier and reports).  Missing tables read as empty."""
+class PlanError(InstanceError):
+    """A plan folder cannot be read; ``problems`` lists everything found, each naming its file."""
+
+
+def read_plan(folder: str | Path, *, complete: bool = False) -> Plan:
+    """Read plan tables back (for the verifier, re-planning and reports), or raise
+    :class:`PlanError` listing every problem.  A missing table reads as empty (a report still
+    draws the others) unless ``complete`` asks for every table."""
     path = Path(folder)
+    if not path.is_dir():
+        what = "is a file; expected a plan folder" if path.exists() else "plan folder not found"
+        raise PlanError([Problem(str(path), None, None, what)])
+    problems: list[Problem] = []
     frames = {}
     for name, columns in PLAN_TABLES.items():
         file = path / f"{name}.csv"
+        if file.is_file():
+            frames[name] = _read_table(file, columns, problems)
+            continue
         if file.exists():
-            # Names as text, as written: offices named 101 and 102 had read as numbers and
-            # failed every lookup (an internal error in verify on a plan the tool wrote),
-            # and one named NA would read as missing.  Numbers keep pandas' usual blanks.
-            frame = pd.read_csv(
-                file, dtype={c: str for c in columns if c in NAME_COLUMNS},
-                keep_default_na=False,
-                na_values={c: ["", "nan", "NaN", "NA"] for c in columns if c not in NAME_COLUMNS})
-        else:
-            frame = pd.DataFrame(columns=list(columns))
-        frames[name] = frame
+            problems.append(Problem(str(file), None, None, "is not a file; expected a CSV table"))
+        elif complete:
+            problems.append(Problem(str(file), None, None, "file is missing; expected in "
+                                    "every plan folder (rebalance plan writes it)"))
+        frames[name] = pd.DataFrame(columns=list(columns))
+    # Unknown columns (warnings) are no reason to stop: no check reads them.
+    errors = [p for p in problems if not p.is_warning]
+    if errors:
+        raise PlanError(collapse_repeats(errors))
     return Plan(**frames)
+
+
+def _read_table(file: Path, columns: tuple[str, ...], problems: list[Problem]) -> pd.DataFrame:
+    """One plan table, checked as instance tables are: names as text, as written (offices
+    named 101 and 102 had read as numbers and failed every lookup; one named NA as missing),
+    numbers finite, hire counts whole; every problem labelled with the file's path."""
+    raw = replace(read_csv_table(file), label=str(file))
+    problems += table_problems(raw)
+    rows = TableRows(raw, problems, columns=(columns, ()))
+    # A quote left open swallows the rest of its row: its empty cells are said once, by
+    # table_problems, not again for each column.
+    swallowed = {number for number, _ in raw.multiline_cells}
+    out: list[list[Any]] = []
+    for row in rows:
+        if rows.row_number in swallowed:
+            continue
+        values: list[Any] = []
+        for column in columns:
+            if column in NAME_COLUMNS:
+                values.append(rows.text(row, column))
+            elif column == "count":  # whole people: 1.5 and -1 had been read as 1 and -1
+                count = rows.number(row, column, minimum=1, integer=True)
+                values.append(None if count is None else int(count))
+            else:
+                values.append(rows.number(row, column, minimum=None))
+        out.append(values)
+    frame = pd.DataFrame(out, columns=list(columns))
+    # Text even when empty, as pandas reads a header-only file.
+    return frame.astype({c: str for c in columns if c in NAME_COLUMNS})

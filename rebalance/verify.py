@@ -43,13 +43,18 @@ def _over(value: float, cap: float) -> bool:
     return value > cap + ABS_TOL + REL_TOL * abs(cap)
 
 
-def verify_folder(instance: Instance, folder: str | Path) -> list[Violation]:
-    """Verify the plan tables (and summary.json, if present) in ``folder``."""
+def verify_folder(instance: Instance, folder: str | Path, *,
+                  complete: bool = False) -> list[Violation]:
+    """Verify the plan tables (and summary.json, if present) in ``folder``.
+
+    Tables that cannot be read raise :class:`~rebalance.plan.PlanError`.  A missing table is a
+    violation (a report still draws the rest), or with ``complete`` a problem of that error.
+    """
     path = Path(folder)
     missing = [name for name in PLAN_TABLES if not (path / f"{name}.csv").exists()]
-    if missing:
+    if missing and not complete:
         return [Violation("missing_table", str(path), f"{name}.csv is missing") for name in missing]
-    checker = _Checker(instance, read_plan(path))
+    checker = _Checker(instance, read_plan(path, complete=complete))
     checker.run()
     summary_path = path / "summary.json"
     if summary_path.exists() and not checker.violations:

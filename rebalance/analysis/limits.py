@@ -62,22 +62,29 @@ def hire_rows(plan: Plan) -> list[HireRow]:
         h["count"].tolist(), h["funding"].tolist(), h["onboarding_cost"].tolist(), strict=True)]
 
 
-def _cheapest_hire(instance: Instance, year: str) -> float | None:
-    """Least hiring-budget money one hire starting in ``year`` needs (onboarding, and the
-    new-position salary of that year when no vacancy funds it)."""
+def _cheapest_hire(instance: Instance, year: str,
+                   vacancy_used: Counter[tuple[str, str]]) -> float | None:
+    """Least hiring-budget money one *more* hire starting in ``year`` needs: onboarding, and
+    the new-position salary paid in ``year`` (every period from the start to the horizon's
+    end, docs/model.md) unless a funded vacancy of that skill at that office is still left
+    after the ``vacancy_used`` of the plan.  Offices that may not hire have no hire to price."""
     T = len(instance.periods)
     best: float | None = None
     for t, period in enumerate(instance.periods):
         if period.year != year:
             continue
-        for skill in instance.skills:
-            if t < skill.time_to_hire:
+        for office in instance.offices:
+            if office.max_hires_per_period == 0:
                 continue
-            funded = any(n > 0 for (_, k), n in instance.vacancies.items() if k == skill.name)
-            salary = 0.0 if funded else skill.salary_per_period * sum(
-                1 for s in range(t, T) if instance.periods[s].year == year)
-            amount = skill.onboarding_cost + salary
-            best = amount if best is None else min(best, amount)
+            for skill in instance.skills:
+                if t < skill.time_to_hire:
+                    continue
+                left = instance.vacancies.get((office.name, skill.name), 0) - vacancy_used[
+                    (office.name, skill.name)]
+                salary = 0.0 if left > 0 else skill.salary_per_period * sum(
+                    1 for s in range(t, T) if instance.periods[s].year == year)
+                amount = skill.onboarding_cost + salary
+                best = amount if best is None else min(best, amount)
     return best
 
 
@@ -135,7 +142,7 @@ def limit_use(instance: Instance, plan: Plan) -> tuple[LimitUse, ...]:
         if budget is None:
             continue
         if budget.hiring is not None:
-            step = _cheapest_hire(instance, year)
+            step = _cheapest_hire(instance, year, vacancy_used)
             # No hire can start or be paid in that year: the cap cannot bind there.
             binding = step is not None and budget.hiring - hiring[year] < step - _TOL
             out.append(LimitUse("hiring_budget", year, "", hiring[year], budget.hiring,

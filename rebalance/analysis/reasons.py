@@ -39,13 +39,15 @@ def limit_key(use: LimitUse) -> str:
     return f"{use.limit}|{use.where}|{use.period}"
 
 
-def _describe(use: LimitUse) -> str:
+def _describe(use: LimitUse, names: tuple[str, ...]) -> str:
     what = {"hiring_budget": "hiring budget", "moves_budget": "moves budget",
             "max_hires": "hiring slots", "seats": "seats", "away_share": "away share",
             "vacancies": "funded vacancies", "time_to_hire": "time to hire"}[use.limit]
     if use.limit == "time_to_hire":
-        return (f"time to hire of {use.where} (no hire starts before period "
-                f"{int(use.cap) + 1})")
+        first = int(use.cap)
+        return (f"time to hire of {use.where} (no hire starts before {names[first]})"
+                if first < len(names) else
+                f"time to hire of {use.where} (no hire can start within the horizon)")
     if use.limit in ("hiring_budget", "moves_budget"):
         return f"{what} {use.where} ({use.used:,.0f} of {use.cap:,.0f} spent)"
     when = f" in {use.period}" if use.period else ""
@@ -109,11 +111,22 @@ def _periods(n: int) -> str:
     return "period" if n == 1 else "periods"
 
 
-def reasons(instance: Instance, plan: Plan) -> Reasons:
-    """Reasons for ``plan``'s actions and shortfalls (see the module docstring)."""
+def _span(names: tuple[str, ...], t1: int, t2: int) -> str:
+    return f"in {names[t1]}" if t1 == t2 else f"from {names[t1]} to {names[t2]}"
+
+
+def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> Reasons:
+    """Reasons for ``plan``'s actions and shortfalls (see the module docstring).
+
+    ``replanned_at``: the plan re-plans an earlier one from this period index, so what lies
+    before it happened, hires already started are kept and runs under way go on.
+    """
     ctx = _Context(instance, plan)
     names, ix, T = ctx.names, ctx.ix, len(instance.periods)
     rows: list[tuple[object, ...]] = []
+    uses = limit_use(instance, plan)
+    binding = [u for u in uses if u.binding]
+    seats_full = {(u.where, u.period) for u in binding if u.limit == "seats"}
 
     # -- hires: how long the gap they fill lasts ---------------------------------------------
     for h in hire_rows(plan):
@@ -128,7 +141,12 @@ def reasons(instance: Instance, plan: Plan) -> Reasons:
                     break
                 run += 1
         funding = "fills a funded vacancy" if h.funding == "vacancy" else "a new position"
-        if first is None:
+        if first is None and replanned_at is not None and (
+                s < replanned_at + instance.skill(h.skill).time_to_hire):
+            text = (f"recruitment had begun before the re-plan from {names[replanned_at]}, "
+                    "and a hire already started is not undone; demand there is now met "
+                    f"without it ({sum(out[s:]):.2f} FTE-periods of {h.skill} to spare)")
+        elif first is None:
             text = (f"adds {sum(out[s:]):.2f} FTE-periods of {h.skill} at {h.office} where "
                     "demand is met without it; kept by the solver at no gain (review)")
         else:
@@ -168,23 +186,46 @@ def reasons(instance: Instance, plan: Plan) -> Reasons:
                 out_by_skill[k] += v
         skill = max(out_by_skill, key=lambda k: out_by_skill[k]) if out_by_skill else ""
         n = t2 - t1 + 1
-        if not skill:
+        idle = [t for t in range(t1, t2 + 1) if not ctx.person_out.get((p, t))]
+        if replanned_at is not None and t2 < replanned_at:
+            text = f"before the re-plan from {names[replanned_at]}: kept as it happened"
+        elif not skill:
             text = f"detail to {b}; no work recorded there (review)"
         else:
             gap_periods = [t for t in range(T) if ctx.gap_without_visitors(b, skill, t) > _EPS]
             before = t1 - 1 in gap_periods
             after = t2 + 1 in gap_periods
             spare = all(ctx.short.get((a, skill, t), 0.0) <= _EPS for t in range(t1, t2 + 1))
-            shape = (f"a {n}-{_periods(1)} spike" if not before and not after
-                     else "part of a longer gap" + (f" (details are limited to {m} periods in "
-                                                     "a row)" if m else ""))
+            if not before and not after:
+                shape = f"a {n}-{_periods(n)} spike" if n > 1 else "a one-period spike"
+            elif m and n == m:
+                # Only a run at the limit was cut short by it.
+                shape = (f"part of a longer gap, and details are limited to {m} "
+                         f"{_periods(m)} in a row")
+            else:
+                shape = "part of a longer gap"
             at_b = max(priority.get((b, skill, t), 1.0) for t in range(t1, t2 + 1))
             at_a = max(priority.get((a, skill, t), 1.0) for t in range(t1, t2 + 1))
-            source = (f"from {a}, which covers its own {skill} demand without them" if spare
-                      else f"from {a}, although {a} is short of {skill} itself then "
-                      f"(priority there {at_a:g}, at {b} {at_b:g})")
-            text = (f"{skill} demand at {b} exceeds what {b}'s own staff and hires cover in "
-                    f"{names[t1]}..{names[t2]}: {shape}, so a detail {source}")
+            if spare:
+                source = f"from {a}, which covers its own {skill} demand without them"
+            else:
+                short_too = f"from {a}, although {a} is short of {skill} itself then"
+                full = [names[t] for t in range(t1, t2 + 1) if (a, names[t]) in seats_full]
+                if at_b > at_a:
+                    source = (f"{short_too}: the need at {b} ranks higher (priority {at_b:g} "
+                              f"there, {at_a:g} at {a})")
+                elif full:
+                    source = (f"{short_too}: {a}'s seats are full ({', '.join(full)}), and a "
+                              "person away frees a seat there")
+                else:
+                    source = (f"{short_too}, at priority {at_a:g} against {at_b:g} at {b}: no "
+                              "gain in shortfall visible from this detail alone (review)")
+            text = (f"{skill} demand at {b} exceeds what {b}'s own staff and hires cover "
+                    f"{_span(names, t1, t2)}: {shape}, so a detail {source}")
+        if idle and not (replanned_at is not None and t2 < replanned_at):
+            under_way = replanned_at is not None and t1 < replanned_at <= t2
+            text += (f"; idle in {', '.join(names[t] for t in idle)} (no work for them there "
+                     "then" + (": a run under way goes on to its end)" if under_way else ")"))
         rows.append(("detail", p, b, skill, names[t1], names[t2], float(n), text, ""))
 
     # -- reassignments: a lasting gap at the new home -----------------------------------------
@@ -206,15 +247,13 @@ def reasons(instance: Instance, plan: Plan) -> Reasons:
         rows.append(("reassignment", p, b, skill, per, names[T - 1], 1.0, text, ""))
 
     # -- shortfalls: the binding limits that could matter -------------------------------------
-    uses = limit_use(instance, plan)
-    binding = [u for u in uses if u.binding]
     for (o, k, t), short in sorted(ctx.short.items(), key=lambda kv: (kv[0][2], kv[0])):
         if short <= _EPS:
             continue
         cited = _relevant(instance, binding, o, k, t)
         if cited:
             text = (f"{short:.2f} FTE short; held back by " +
-                    "; ".join(_describe(u) for u in cited))
+                    "; ".join(_describe(u, names) for u in cited))
         else:
             text = (f"{short:.2f} FTE short; no binding limit found for it (the gap may be "
                     "below what one more whole head adds after ramp-up and attrition, or the "

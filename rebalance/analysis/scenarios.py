@@ -25,7 +25,8 @@ from rebalance.analysis.limits import hire_rows
 from rebalance.instance import Budget, Demand, Instance
 from rebalance.plan import Plan
 from rebalance.planning import PlanResult, make_plan
-from rebalance.readers import Problem
+from rebalance.readers import Problem, _describe
+from rebalance.readers import _number as _finite_number
 from rebalance.solve import SolveOptions
 
 __all__ = [
@@ -37,12 +38,24 @@ __all__ = [
     "ScenarioError",
     "apply_scenario",
     "compare_scenarios",
+    "folder_name",
     "plan_actions",
     "read_scenario",
+    "read_scenarios",
 ]
 
 ACTION_COLUMNS = ("scenario", "action", "person_or_office", "skill", "period", "detail",
                   "base", "scenario_value")
+
+# Bounds on a scenario's numbers, far past any surge or budget change a plan is made for:
+# beyond them a value is a typo, and at the extreme no number a solve can use (multiplier =
+# 1e308 overflowed the demand to inf).  A priority is bounded as in demand.csv (finite, >= 0):
+# it labels rows demand.csv could hold.
+MAX_MULTIPLIER = 1000.0
+MAX_ADD_FTE = 100_000.0  # FTE added to one office, skill and period
+MAX_BUDGET_ADD = 1e12  # money; the bound of objective.shortfall_cost too
+# Longest folder name: NAME_MAX, 255 bytes, on Linux and macOS file systems (common practice).
+MAX_FOLDER_BYTES = 255
 
 
 @dataclass(frozen=True)
@@ -103,15 +116,39 @@ def _names(raw: Any, known: Sequence[str], what: str, where: str,
 
 
 def _number(raw: Any, default: float, where: str, problems: list[Problem], file: str,
-            minimum: float | None = None) -> float:
+            scenario: str, minimum: float, maximum: float | None) -> float:
+    """``raw`` as a float, or ``default`` with a problem: nan, inf and a 400-digit integer
+    are no numbers to plan with (nan had set the demand to 0 and inf overflowed)."""
     if raw is None:
         return default
+    what = f"expected {_describe(minimum, maximum, False, False)} (scenario '{scenario}')"
     if isinstance(raw, bool) or not isinstance(raw, int | float):
-        problems.append(Problem(file, None, where, f"'{raw}' is not a number"))
+        problems.append(Problem(file, None, where, f"'{raw}' is not a number; {what}"))
         return default
-    if minimum is not None and raw < minimum:
-        problems.append(Problem(file, None, where, f"{raw} is below {minimum:g}"))
+    shown = f"{raw:g}" if isinstance(raw, float) else raw  # 1e+13, not 1e13's digits
+    if not _finite_number(raw):
+        problems.append(Problem(file, None, where, f"'{shown}' is not a finite number; {what}"))
+        return default
+    if raw < minimum or (maximum is not None and raw > maximum):
+        problems.append(Problem(file, None, where, f"'{shown}' is out of range; {what}"))
+        return default
     return float(raw)
+
+
+def folder_name(name: str) -> str:
+    """The folder of scenario ``name`` under ``OUT/scenarios/`` of ``rebalance compare``."""
+    return "".join(c if c.isalnum() or c in "-_." else "_" for c in name) or "scenario"
+
+
+def _unusable_folder(name: str) -> str | None:
+    """Why ``name`` cannot name a scenario folder, or None."""
+    folder = folder_name(name)
+    if folder in (".", ".."):
+        return f"'{name}' is not usable as a folder name; expected a name other than . or .."
+    if len(folder.encode("utf-8")) > MAX_FOLDER_BYTES:
+        return (f"'{name[:40]}...' is too long for a folder name; expected at most "
+                f"{MAX_FOLDER_BYTES} bytes")
+    return None
 
 
 def read_scenario(path: str | Path, instance: Instance) -> Scenario:
@@ -133,6 +170,12 @@ def read_scenario(path: str | Path, instance: Instance) -> Scenario:
     if not isinstance(name, str) or not name.strip():
         problems.append(Problem(file, None, "name", "missing; expected a scenario name"))
         name = Path(path).stem
+    else:
+        # Found here, before any solve: the plans are written to a folder named after it.
+        unusable = _unusable_folder(name.strip())
+        if unusable is not None:
+            problems.append(Problem(file, None, "name", unusable))
+    name = name.strip()
     description = raw.get("description", "")
     if not isinstance(description, str):
         problems.append(Problem(file, None, "description", "expected text"))
@@ -141,11 +184,12 @@ def read_scenario(path: str | Path, instance: Instance) -> Scenario:
     skills = [s.name for s in instance.skills]
     periods = list(instance.period_names)
     demand: list[DemandChange] = []
-    for i, entry in enumerate(raw.get("demand", []), 1):
+    for i, entry in enumerate(_tables(raw, "demand", problems, file), 1):
         at = f"demand[{i}]"
         if not isinstance(entry, dict):
             problems.append(Problem(file, None, at, "expected a [[demand]] table"))
             continue
+        before = len(problems)
         for key in entry:
             if key not in {"offices", "skills", "periods", "multiplier", "add_fte", "priority"}:
                 problems.append(Problem(file, None, f"{at}.{key}", "unknown key; expected "
@@ -159,39 +203,100 @@ def read_scenario(path: str | Path, instance: Instance) -> Scenario:
             periods=None if chosen is None else tuple(
                 periods.index(p) for p in chosen if p in periods),
             multiplier=_number(entry.get("multiplier"), 1.0, f"{at}.multiplier", problems,
-                               file, minimum=0.0),
-            add_fte=_number(entry.get("add_fte"), 0.0, f"{at}.add_fte", problems, file),
+                               file, name, 0.0, MAX_MULTIPLIER),
+            add_fte=_number(entry.get("add_fte"), 0.0, f"{at}.add_fte", problems, file, name,
+                            -MAX_ADD_FTE, MAX_ADD_FTE),
             priority=(None if entry.get("priority") is None else _number(
-                entry.get("priority"), 1.0, f"{at}.priority", problems, file, minimum=0.0)),
+                entry.get("priority"), 1.0, f"{at}.priority", problems, file, name, 0.0,
+                None)),
         )
-        problem = _inert(change, instance)
+        # A table with a bad value is not said to change nothing too (nan read as the default)
+        problem = _inert(change, instance) if len(problems) == before else None
         if problem is not None:
             problems.append(Problem(file, None, at, problem))
         demand.append(change)
     budget: list[BudgetChange] = []
     years = list(instance.years)
-    for i, entry in enumerate(raw.get("budget", []), 1):
+    for i, entry in enumerate(_tables(raw, "budget", problems, file), 1):
         at = f"budget[{i}]"
         if not isinstance(entry, dict):
             problems.append(Problem(file, None, at, "expected a [[budget]] table"))
             continue
+        before = len(problems)
         for key in entry:
             if key not in {"years", "hiring_add", "moves_add"}:
                 problems.append(Problem(file, None, f"{at}.{key}", "unknown key; expected years, "
                                         "hiring_add, moves_add"))
-        budget.append(BudgetChange(
+        bchange = BudgetChange(
             years=_names(entry.get("years"), years, "budget year", f"{at}.years", problems,
                          file),
             hiring_add=_number(entry.get("hiring_add"), 0.0, f"{at}.hiring_add", problems,
-                               file),
-            moves_add=_number(entry.get("moves_add"), 0.0, f"{at}.moves_add", problems, file),
-        ))
-    if not demand and not budget:
+                               file, name, -MAX_BUDGET_ADD, MAX_BUDGET_ADD),
+            moves_add=_number(entry.get("moves_add"), 0.0, f"{at}.moves_add", problems, file,
+                              name, -MAX_BUDGET_ADD, MAX_BUDGET_ADD),
+        )
+        problem = _inert_budget(bchange, instance) if len(problems) == before else None
+        if problem is not None:
+            problems.append(Problem(file, None, at, problem))
+        budget.append(bchange)
+    if not raw.get("demand") and not raw.get("budget"):  # none given; wrong ones said above
         problems.append(Problem(file, None, "demand", "the scenario changes nothing; expected "
                                 "at least one [[demand]] or [[budget]] table"))
     if problems:
         raise ScenarioError(problems)
-    return Scenario(name.strip(), description.strip(), tuple(demand), tuple(budget))
+    return Scenario(name, description.strip(), tuple(demand), tuple(budget))
+
+
+def _tables(raw: dict[str, Any], key: str, problems: list[Problem], file: str) -> list[Any]:
+    """The ``[[key]]`` entries; ``demand = 3`` had been an internal error."""
+    entries = raw.get(key, [])
+    if not isinstance(entries, list):
+        problems.append(Problem(file, None, key, f"expected [[{key}]] tables"))
+        return []
+    return entries
+
+
+def read_scenarios(paths: Sequence[str | Path], instance: Instance) -> list[Scenario]:
+    """Read several scenario files (:func:`read_scenario`) for one comparison, and check
+    that their names, and the folders named after them, differ from each other and from
+    ``base``; every problem of every file at once."""
+    scenarios: list[Scenario] = []
+    problems: list[Problem] = []
+    names: dict[str, str] = {}  # name -> its file
+    folders: dict[str, tuple[str, str]] = {}  # case-folded folder -> name, file
+    for path in paths:
+        try:
+            scenario = read_scenario(path, instance)
+        except ScenarioError as exc:
+            problems += exc.problems
+            continue
+        scenarios.append(scenario)
+        file, name = str(path), scenario.name
+        if name == "base":
+            problems.append(Problem(file, None, "name", "scenario 'base' has the base plan's "
+                                    "name; expected another name"))
+            continue
+        if name in names:
+            problems.append(Problem(file, None, "name", f"scenario '{name}' is also the name "
+                                    f"of the scenario in {names[name]}; expected names that "
+                                    "differ from each other"))
+            continue
+        names[name] = file
+        # Case folded: on the usual macOS and Windows file systems Storm and storm are one
+        # folder (common practice).
+        folder = folder_name(name).casefold()
+        if folder in folders:
+            other, other_file = folders[folder]
+            problems.append(Problem(file, None, "name", f"scenarios '{other}' (in {other_file}) "
+                                    f"and '{name}' would both be written to folder scenarios/"
+                                    f"{folder_name(name)}: their folder names clash; expected "
+                                    "names whose folder names differ (case aside; characters "
+                                    "other than letters, digits, '-', '_' and '.' become '_')"))
+            continue
+        folders[folder] = (name, file)
+    if problems:
+        raise ScenarioError(problems)
+    return scenarios
 
 
 def _inert(change: DemandChange, instance: Instance) -> str | None:
@@ -205,6 +310,20 @@ def _inert(change: DemandChange, instance: Instance) -> str | None:
                                  for d in instance.demand):
         return ("selects no demand row of the instance; name offices, skills and periods "
                 "that have demand, or give offices, skills and add_fte to add rows")
+    return None
+
+
+def _inert_budget(change: BudgetChange, instance: Instance) -> str | None:
+    """Why a [[budget]] table would leave every cap as it is, or None (as :func:`_inert`)."""
+    if change.hiring_add == 0.0 and change.moves_add == 0.0:
+        return "changes nothing; expected hiring_add or moves_add other than 0"
+    caps = {b.year: b for b in instance.budgets}
+    chosen = change.years if change.years is not None else instance.years
+    if not any((change.hiring_add and caps[y].hiring is not None)
+               or (change.moves_add and caps[y].moves is not None)
+               for y in chosen if y in caps):
+        return ("moves no cap: the selected years have no cap for the amounts given (a year "
+                "without a cap stays without one); expected years with a hiring or moves cap")
     return None
 
 
@@ -229,8 +348,9 @@ def apply_scenario(instance: Instance, scenario: Scenario) -> Instance:
                 for k in change.skills:
                     for t in chosen:
                         if (o, k, t) not in rows:
-                            rows[(o, k, t)] = Demand(o, k, t, change.add_fte,
-                                                     change.priority or 1.0, None)
+                            # 0 is a priority demand.csv allows (docs/instance-format.md)
+                            priority = 1.0 if change.priority is None else change.priority
+                            rows[(o, k, t)] = Demand(o, k, t, change.add_fte, priority, None)
     budgets = {b.year: b for b in instance.budgets}
     for bchange in scenario.budget:
         for year in bchange.years if bchange.years is not None else instance.years:

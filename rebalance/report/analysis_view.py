@@ -170,6 +170,21 @@ def _marginal(frame: pd.DataFrame) -> dict[str, Any] | None:
     return {"value_label": value, "estimate_label": estimate, "rows": rows[:25]}
 
 
+def _gap_note(frame: pd.DataFrame) -> str:
+    """A warning where the solves behind a comparison stopped short of proof: a difference
+    smaller than their gaps may come from where each search stopped, not from what was
+    compared (a practitioner's reading had a surge scenario cost less than the base)."""
+    gap = find_column(frame, ("gap",))
+    gaps = [g for g in _finite(frame[gap].tolist()) if g is not None] if gap else []
+    if not gaps or max(gaps) <= 1e-4:
+        return ""
+    return ('<p class="note">These solves stopped before proving their plans best, with gaps '
+            f"of up to {max(gaps):.1%} (the <code>gap</code> column). A difference between "
+            "rows smaller than that share of a figure may come from where each search "
+            "stopped rather than from what was changed: give the solves more time "
+            "(<code>--time-limit</code>) before reading it as real.</p>")
+
+
 def analysis_payload(data: ReportData) -> AnalysisView:
     """Chart data, sections and navigation entries for whichever analysis tables exist."""
     payload: dict[str, Any] = {}
@@ -199,7 +214,7 @@ def analysis_payload(data: ReportData) -> AnalysisView:
         else:
             body += ('<p class="note">The columns of this table were not recognised for a '
                      "chart; it is shown as written.</p>")
-        body += frame_table_html(frame, key)
+        body = _gap_note(frame) + body + frame_table_html(frame, key)
         sections.append(section(key, title, e(lead), body))
         nav.append((key, title))
     for name, frame in data.tables:

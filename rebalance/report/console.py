@@ -5,12 +5,16 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 
+import numpy as np
+import pandas as pd
+
 from rebalance.instance import Instance
 from rebalance.planning import CAUTION, PlanResult
 from rebalance.solve import StageResult, Status
 from rebalance.verify import Violation
 
-__all__ = ["format_check", "format_summary", "format_violations"]
+__all__ = ["format_check", "format_frame", "format_outcome", "format_summary",
+           "format_violations"]
 
 STATUS_WORDS = {
     Status.OPTIMAL: "optimal (proven within the relative gap)",
@@ -59,33 +63,7 @@ def format_check(instance: Instance) -> str:
 
 
 def format_summary(result: PlanResult) -> str:
-    s = result.solve
-    lines = [f"Plan for {result.instance.name}: {STATUS_WORDS[result.status]}"]
-    if [stage.name for stage in s.stages] == ["build"]:
-        # Cut short while building: no model, so no model size and no stage to show.
-        lines += [f"  {s.stages[0].solver_words}", "", "  Caution: " + CAUTION]
-        return "\n".join(lines)
-    gap = s.gap
-    lines.append(f"  solver {s.solver_version}; model {result.num_cols:,} columns "
-                 f"({result.num_integer:,} integer) x {result.num_rows:,} rows; "
-                 f"build {result.build_seconds:.2f}s, solve {s.solve_seconds:.2f}s"
-                 + (f", gap {gap:.4%}" if gap is not None else ""))
-    for stage in s.stages:
-        bound = "-" if stage.bound is None or not math.isfinite(stage.bound) else (
-            f"{stage.bound:,.6g}")
-        objective = "-" if stage.objective is None else f"{stage.objective:,.6g}"
-        status = stage.status.value
-        if stage.status is Status.OPTIMAL and stage.gap:
-            # Optimal as asked: within the relative gap the run was given, not exactly.
-            status += f" within the gap asked ({stage.gap:.2%} left)"
-        lines.append(f"  stage {stage.name}: {status}, objective {objective}, "
-                     f"bound {bound}, {stage.seconds:.2f}s ({stage.solver_words})")
-        room = _room_left(stage)
-        if room:
-            lines.append(f"    not proven: {room}")
-    if s.conflicts:
-        lines.append("  limits in conflict:")
-        lines += [f"    - {c}" for c in s.conflicts]
+    lines = _outcome_lines(result)
     plan = result.plan
     if plan is not None:
         demand = float(plan.coverage["demand_fte"].sum())
@@ -122,11 +100,54 @@ def format_summary(result: PlanResult) -> str:
         if len(short):
             lines += ["", "  shortfall by office (FTE-periods): " + ", ".join(
                 f"{office} {value:.2f}" for office, value in short.items())]
-        verdict = "passed" if result.verified else f"FAILED ({len(result.violations)} problems)"
-        lines += ["", f"  independent verification: {verdict}"]
+        lines += ["", f"  independent verification: {_verdict(result)}"]
         lines += [f"    - {v}" for v in result.violations[:20]]
     lines += ["", "  Caution: " + CAUTION]
     return "\n".join(lines)
+
+
+def format_outcome(result: PlanResult) -> str:
+    """How the solve ended (status, model, each stage and what it leaves open) and whether
+    the plan passed verification: the head of :func:`format_summary`, for commands that
+    print their own tables of the plan."""
+    lines = _outcome_lines(result)
+    if result.plan is not None:
+        lines.append(f"  independent verification: {_verdict(result)}")
+    return "\n".join(lines)
+
+
+def _verdict(result: PlanResult) -> str:
+    return "passed" if result.verified else f"FAILED ({len(result.violations)} problems)"
+
+
+def _outcome_lines(result: PlanResult) -> list[str]:
+    s = result.solve
+    lines = [f"Plan for {result.instance.name}: {STATUS_WORDS[result.status]}"]
+    if [stage.name for stage in s.stages] == ["build"]:
+        # Cut short while building: no model, so no model size and no stage to show.
+        return [*lines, f"  {s.stages[0].solver_words}"]
+    gap = s.gap
+    lines.append(f"  solver {s.solver_version}; model {result.num_cols:,} columns "
+                 f"({result.num_integer:,} integer) x {result.num_rows:,} rows; "
+                 f"build {result.build_seconds:.2f}s, solve {s.solve_seconds:.2f}s"
+                 + (f", gap {gap:.4%}" if gap is not None else ""))
+    for stage in s.stages:
+        bound = "-" if stage.bound is None or not math.isfinite(stage.bound) else (
+            f"{stage.bound:,.6g}")
+        objective = "-" if stage.objective is None else f"{stage.objective:,.6g}"
+        status = stage.status.value
+        if stage.status is Status.OPTIMAL and stage.gap:
+            # Optimal as asked: within the relative gap the run was given, not exactly.
+            status += f" within the gap asked ({stage.gap:.2%} left)"
+        lines.append(f"  stage {stage.name}: {status}, objective {objective}, "
+                     f"bound {bound}, {stage.seconds:.2f}s ({stage.solver_words})")
+        room = _room_left(stage)
+        if room:
+            lines.append(f"    not proven: {room}")
+    if s.conflicts:
+        lines.append("  limits in conflict:")
+        lines += [f"    - {c}" for c in s.conflicts]
+    return lines
 
 
 ROOM_WORDS = {
@@ -150,6 +171,37 @@ def _room_left(stage: StageResult) -> str | None:
     room = stage.objective - stage.bound
     amount = _money(room) if stage.name == "cost" else f"{room:,.3g}"
     return ROOM_WORDS[stage.name].format(room=amount) + f" (gap {stage.gap:.2%})"
+
+
+def format_frame(frame: pd.DataFrame) -> str:
+    """A result table for the console, as a reader wants it: gaps as percentages, money in
+    whole units with separators, other amounts to two decimals, whole counts without any,
+    yes/no for flags and "-" where there is no value (pandas printed ``NaN``, ``True`` and
+    ``2465500.0``).  Column names stay those of the CSV files."""
+
+    def cell(column: str, value: object) -> str:
+        if value is None or (isinstance(value, float) and math.isnan(value)):
+            return "-"
+        if isinstance(value, bool | np.bool_):
+            return "yes" if value else "no"
+        if isinstance(value, int | np.integer):
+            return f"{int(value):,}"
+        if isinstance(value, float | np.floating):
+            number = float(value)
+            if column == "gap":
+                return f"{number:.2%}"
+            if any(word in column for word in MONEY_WORDS):
+                return f"{number:,.0f}"
+            return f"{number:,.0f}" if number.is_integer() else f"{number:,.2f}"
+        return str(value)
+
+    rows = [[cell(str(c), v) for c, v in zip(frame.columns, values, strict=True)]
+            for values in frame.itertuples(index=False)]
+    return "\n".join(_table([str(c) for c in frame.columns], rows))
+
+
+# Columns holding money (shown in whole units): names as in the CSV files.
+MONEY_WORDS = ("cost", "spend", "salary")
 
 
 def format_violations(violations: Sequence[Violation]) -> str:

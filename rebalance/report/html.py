@@ -21,18 +21,22 @@ import pandas as pd
 
 from rebalance.report import analysis_view
 from rebalance.report.htmlparts import (
+    NEAR_ZERO,
     card,
     chart,
     compact_money,
     e,
     money,
     num,
+    number_text,
+    plain_status,
     section,
+    stage_words,
     table_html,
 )
-from rebalance.report.inputs import ReportData, quality_notes
+from rebalance.report.inputs import ReportData, StageSummary, quality_notes
 
-__all__ = ["render_html", "write_html"]
+__all__ = ["new_position_salaries", "render_html", "spare_capacity", "write_html"]
 
 # Longer tables are cut in the page (the CSV files and plan.xlsx hold every row), so an
 # agency-sized plan still opens quickly.
@@ -64,12 +68,46 @@ def _asset(name: str) -> str:
 # chart data (aggregates of plan tables)
 
 
+def _with_spare(coverage: pd.DataFrame) -> pd.DataFrame:
+    """Coverage rows with ``output_fte`` (what staff and hires there produce) and
+    ``spare_fte``: output beyond the row's demand, which covers nothing in the plan."""
+    cov = coverage.copy()
+    if len(cov):
+        cov["output_fte"] = cov["staff_output_fte"] + cov["hire_output_fte"]
+        spare = (cov["output_fte"] - cov["covered_fte"]).clip(lower=0.0)
+        cov["spare_fte"] = spare.where(spare > NEAR_ZERO, 0.0)
+    else:
+        cov["output_fte"] = cov["spare_fte"] = pd.Series(dtype=float)
+    return cov
+
+
+def spare_capacity(data: ReportData) -> pd.DataFrame:
+    """Per office, FTE-periods of output beyond demand (summed over its skills and periods),
+    beside demand, output and shortfall; the skills holding most of it."""
+    cov = _with_spare(data.plan.coverage)
+    rows = []
+    for office in [o.name for o in data.instance.offices]:
+        part = cov[cov["office"] == office]
+        if part.empty:
+            continue
+        by_skill = part.groupby("skill")["spare_fte"].sum().sort_values(ascending=False)
+        top = [f"{skill} {value:.1f}" for skill, value in by_skill.head(3).items()
+               if value >= 0.05]
+        rows.append({"office": office, "demand_fte": float(part["demand_fte"].sum()),
+                     "output_fte": float(part["output_fte"].sum()),
+                     "shortfall_fte": float(part["shortfall_fte"].sum()),
+                     "spare_fte": float(part["spare_fte"].sum()), "most_in": ", ".join(top)})
+    return pd.DataFrame(rows, columns=["office", "demand_fte", "output_fte", "shortfall_fte",
+                                       "spare_fte", "most_in"])
+
+
 def _coverage_series(data: ReportData) -> dict[str, Any]:
     periods = list(data.instance.period_names)
-    cov = data.plan.coverage.copy()
+    cov = _with_spare(data.plan.coverage)
     offices = [o.name for o in data.instance.offices]
     if len(cov):
-        # Stack what staff cover first, then what hires add, up to the demand line.
+        # Stack what staff cover first, then what hires add, up to the demand line; output
+        # beyond demand (spare) is drawn above the line, where it covers nothing.
         cov["staff_cov"] = cov[["staff_output_fte", "demand_fte"]].min(axis=1)
         cov["hire_cov"] = (cov["covered_fte"] - cov["staff_cov"]).clip(lower=0.0)
     series = []
@@ -78,16 +116,34 @@ def _coverage_series(data: ReportData) -> dict[str, Any]:
         if office is not None and part.empty:
             continue
         sums = part.groupby("period")[["demand_fte", "staff_cov", "hire_cov", "covered_fte",
-                                       "shortfall_fte"]].sum() if len(part) else pd.DataFrame()
+                                       "shortfall_fte", "spare_fte"]].sum() if len(
+            part) else pd.DataFrame()
 
         def col(name: str, sums: pd.DataFrame = sums) -> list[float]:
-            return [round(float(sums[name].get(p, 0.0)), 4) if len(sums) else 0.0
+            return [round(float(sums[name].get(p, 0.0)), 4) + 0.0 if len(sums) else 0.0
                     for p in periods]
 
         series.append({"office": office or "all offices", "demand": col("demand_fte"),
                        "staff": col("staff_cov"), "hires": col("hire_cov"),
-                       "shortfall": col("shortfall_fte")})
+                       "shortfall": col("shortfall_fte"), "spare": col("spare_fte")})
     return {"periods": periods, "series": series}
+
+
+def new_position_salaries(data: ReportData) -> pd.DataFrame:
+    """Yearly salary that the plan's new positions commit beyond the horizon, by skill:
+    hires funded as new positions x the skill's salary per period x periods per year."""
+    hires = data.plan.hires
+    columns = ["skill", "positions", "salary_per_period", "per_year"]
+    if hires.empty:
+        return pd.DataFrame(columns=columns)
+    new = hires[hires["funding"] == "new"].groupby("skill")["count"].sum()
+    salary = {s.name: s.salary_per_period for s in data.instance.skills}
+    per_year = data.instance.periods_per_year
+    rows = [{"skill": skill, "positions": int(count),
+             "salary_per_period": float(salary.get(str(skill), 0.0)),
+             "per_year": int(count) * float(salary.get(str(skill), 0.0)) * per_year}
+            for skill, count in new.items() if count > 0]
+    return pd.DataFrame(rows, columns=columns)
 
 
 def _heat(data: ReportData) -> dict[str, Any]:
@@ -173,6 +229,16 @@ def _budget_rows(data: ReportData) -> list[dict[str, Any]]:
 # HTML pieces
 
 
+def _quality_list(data: ReportData) -> str:
+    """Each solve stage's outcome, and what its gap leaves open in the stage's own units."""
+    stages = [st for st in data.summary.stages if st.name != "build"]
+    if not stages:
+        return ""
+    return '<ul class="stages">' + "".join(
+        f"<li><strong>{e(st.name)} stage:</strong> {e(stage_words(st))}</li>"
+        for st in stages) + "</ul>"
+
+
 def _headline(data: ReportData) -> str:
     plan, run = data.plan, data.summary
     demand = float(plan.coverage["demand_fte"].sum()) if len(plan.coverage) else 0.0
@@ -184,26 +250,71 @@ def _headline(data: ReportData) -> str:
     money_note = ("no caps set" if cap_total == 0 else
                   f"of {compact_money(cap_total)} allowed" + (" (some lines uncapped)"
                                                                if uncapped else ""))
+    money_note += f", {data.instance.periods[0].name} to {data.instance.periods[-1].name}"
     people = plan.details["person"].nunique() if len(plan.details) else 0
     hires_new = int(plan.hires.loc[plan.hires["funding"] == "new", "count"].sum()) if len(
         plan.hires) else 0
-    words, tone = STATUS_WORDS.get(run.status, (run.status.replace("_", " "), "fair"))
-    gap = "" if run.gap is None else f"gap {run.gap:.1%} at stop; "
+    words, tone = STATUS_WORDS.get(run.status, (plain_status(run.status), "fair"))
     verified = {True: "verified independently", False: "FAILED verification",
                 None: "verification unknown"}[run.verified]
+    spare = spare_capacity(data)
+    spare_total = float(spare["spare_fte"].sum()) if len(spare) else 0.0
+    if spare_total >= 0.05:
+        most = spare.sort_values("spare_fte", ascending=False).iloc[0]
+        spare_note = (f"FTE-periods of output beyond demand, left idle; most at "
+                      f"{most['office']} ({num(float(most['spare_fte']))})")
+    else:
+        spare_note = "FTE-periods of output beyond demand: none to speak of"
+    commitment = new_position_salaries(data)
+    yearly = float(commitment["per_year"].sum()) if len(commitment) else 0.0
     cards = [
         card("Weighted shortfall", num(plan.weighted_shortfall),
               f"FTE-periods; unweighted {num(plan.shortfall_fte)}, {share:.1%} of "
               f"{num(demand, 0)} demanded",
               "warn" if share > 0.02 else "ok"),
+        card("Capacity beyond demand", num(spare_total), spare_note),
         card("New money", compact_money(plan.total_cost), money_note),
+        card("Salaries after the horizon", compact_money(yearly),
+             f"a year, every year after {data.instance.periods[-1].name}, for the "
+             f"{hires_new:,} new position{'' if hires_new == 1 else 's'}; not in new money",
+             "warn" if yearly > 0 else ""),
         card("Hires", f"{plan.hires_count():,}",
               f"{hires_new:,} new positions, {plan.hires_count() - hires_new:,} into vacancies"),
         card("Details", f"{len(plan.details):,}", f"person-periods away, {people:,} people"),
         card("Reassignments", f"{len(plan.reassignments):,}", "permanent moves"),
-        card("Plan quality", words, gap + verified, tone),
+        card("Plan quality", words, verified, tone, more=_quality_list(data), wide=True),
     ]
     return '<div class="cards">' + "".join(cards) + "</div>"
+
+
+def _spare_table(data: ReportData) -> str:
+    spare = spare_capacity(data)
+    if spare.empty:
+        return ""
+    rows = [[r["office"], _f(r["demand_fte"]), _f(r["output_fte"]), _f(r["shortfall_fte"]),
+             _f(r["spare_fte"]), _share(r["spare_fte"], r["output_fte"]), r["most_in"]]
+            for r in _records(spare)]
+    total = ["all offices", *(_f(float(spare[c].sum())) for c in (
+        "demand_fte", "output_fte", "shortfall_fte", "spare_fte")),
+        _share(float(spare["spare_fte"].sum()), float(spare["output_fte"].sum())), ""]
+    return ("<h3>Capacity beyond demand</h3>"
+            '<p class="lead">Output that staff and hires produce beyond the demand of their '
+            "office and skill, summed over the horizon, in FTE-periods: it covers nothing in "
+            "this plan. Rules on details (share away, consecutive periods), skills and move "
+            "costs may be what keeps it where it is.</p>"
+            + table_html(["office", "demand", "output", "shortfall", "beyond demand (spare)",
+                          "share of output", "skills with most spare"], rows, name="spare",
+                         numeric=[False, True, True, True, True, True, False], foot=[total]))
+
+
+def _f(value: float, digits: int = 1) -> tuple[float, str]:
+    """An FTE cell: raw value to sort by, rounded to show (solver dust as 0)."""
+    v = 0.0 if abs(float(value)) < NEAR_ZERO else float(value)
+    return v, num(v + 0.0, digits)
+
+
+def _share(part: float, whole: float) -> tuple[float, str]:
+    return (part / whole, f"{part / whole:.0%}") if whole else (0.0, "-")
 
 
 def _shortfall_table(data: ReportData) -> str:
@@ -286,8 +397,9 @@ def render_html(data: ReportData) -> str:
     sections.append(section(
         "capacity", "Work and capacity",
         "Demand (dark line) against what current staff cover (blue) and what new hires add "
-        "(green), summed over skills. Red is demand left uncovered.",
-        chart("coverage", "Demand against covered work per office")))
+        "(green), summed over skills. Red is demand left uncovered; the pale band above the line, "
+        "dashed on top, is output beyond demand, which covers nothing (spare or idle capacity).",
+        chart("coverage", "Demand against covered work per office") + _spare_table(data)))
     sections.append(section(
         "gaps", "Where the gaps are",
         "Uncovered FTE by office and period; darker is a larger gap. Hover a cell for the "
@@ -311,8 +423,11 @@ def render_html(data: ReportData) -> str:
         "moves", "Who moves where",
         "Temporary details (blue) and permanent reassignments (purple), from home office on the "
         "left to the office helped on the right.", moves_body))
+    salary = {s.name: s.salary_per_period for s in inst.skills}
     hires = [[r["office"], r["skill"], r["start_period"], int(r["count"]), r["funding"],
-              _m(r["onboarding_cost"]), _m(r["salary_cost"])]
+              _m(r["onboarding_cost"]), _m(r["salary_cost"]),
+              _m(int(r["count"]) * salary.get(str(r["skill"]), 0.0) * inst.periods_per_year)
+              if r["funding"] == "new" else (0.0, "-")]
              for r in _records(plan.hires)]
     sections.append(section(
         "hiring", "Hiring",
@@ -320,9 +435,9 @@ def render_html(data: ReportData) -> str:
         "productive, so a start shows in capacity gradually.",
         chart("hires", "Hires by start period and skill") + (table_html(
             ["office", "skill", "start", "count", "funding", "onboarding cost",
-             "new salary to horizon end"], hires, name="hires",
-            numeric=[False, False, False, True, False, True, True], limit=TABLE_ROWS) if hires
-            else "")))  # the chart already says there are none
+             "new salary to horizon end", "salary a year after it"], hires, name="hires",
+            numeric=[False, False, False, True, False, True, True, True], limit=TABLE_ROWS)
+            if hires else "")))  # the chart already says there are none
     cost_rows = [[r["year"], r["kind"], _m(r["spend"]),
                   (r["cap"], money(r["cap"])) if r["cap"] is not None else (1e300, "no cap"),
                   (r["spend"] / r["cap"], f"{r['spend'] / r['cap']:.0%}") if r["cap"] else
@@ -330,14 +445,14 @@ def render_html(data: ReportData) -> str:
     sections.append(section(
         "money", "Money",
         "New money only: onboarding, salaries of new positions, details and relocations, by "
-        "budget year, against each year's caps (the black tick).",
+        "budget year, against each year's caps (the black tick). All bars share one scale.",
         chart("budget", "Spending against budget by year") + table_html(
             ["year", "budget line", "spent", "cap", "used"], cost_rows, name="costs",
-            numeric=[False, False, True, True, True])))
+            numeric=[False, False, True, True, True]) + _commitments(data)))
     sections.extend(extra.sections)
     sections.append(section("run", "How it was found", "", _run_details(data)))
     toc = "".join(f'<a href="#{a}">{e(t)}</a>' for a, t in nav)
-    words, tone = STATUS_WORDS.get(run.status, (run.status.replace("_", " "), "fair"))
+    words, tone = STATUS_WORDS.get(run.status, (plain_status(run.status), "fair"))
     notes = "".join(f'<p class="note">{e(n)}</p>' for n in (*quality_notes(data), *data.notes))
     return f"""<!DOCTYPE html>
 <html lang="en">
@@ -374,6 +489,34 @@ the CSV files and plan.xlsx hold every row.</p></footer>
 """
 
 
+def _commitments(data: ReportData) -> str:
+    """What new positions cost every year once the horizon (and its budget years) ends."""
+    table = new_position_salaries(data)
+    if table.empty:
+        return ('<p class="quiet">No new positions: nothing is committed beyond the '
+                "horizon.</p>")
+    inst = data.instance
+    total = float(table["per_year"].sum())
+    positions = int(table["positions"].sum())
+    rows = [[r["skill"], int(r["positions"]), _m(r["salary_per_period"]), _m(r["per_year"])]
+            for r in _records(table)]
+    return (f"<h3>Committed beyond the horizon</h3><p class=\"lead\">The {positions:,} new "
+            f"position{'' if positions == 1 else 's'} this plan creates keep being paid after "
+            f"{e(inst.periods[-1].name)}: <strong>{money(total)} a year</strong> in salaries "
+            f"(positions &times; salary per period &times; {inst.periods_per_year} periods a "
+            "year), on top of the new money above, which stops at the horizon's end.</p>"
+            + table_html(["skill", "new positions", "salary per period", "salary a year"],
+                         rows, name="commitments", numeric=[False, True, True, True],
+                         foot=[["all skills", positions, "", _m(total)]]))
+
+
+def _stage_value(stage: StageSummary, value: float | None) -> tuple[float, str]:
+    """A stage's objective or bound in its own units: money for the cost stage."""
+    if value is None:
+        return -1.0, "-"
+    return value, money(value) if stage.name == "cost" else number_text(value)
+
+
 def _run_details(data: ReportData) -> str:
     run = data.summary
     def fmt(value: float | None, spec: str) -> str:
@@ -382,8 +525,8 @@ def _run_details(data: ReportData) -> str:
     facts = [
         ("solver", run.solver_version or run.solver or "-"),
         ("objective", run.objective_mode or "-"),
-        ("status", run.status),
-        ("relative gap at stop", fmt(run.gap, ".2%")),
+        ("outcome", STATUS_WORDS.get(run.status, (plain_status(run.status), ""))[0]),
+        ("largest stage gap at stop", fmt(run.gap, ".2%")),
         ("model", f"{run.model_columns or 0:,} columns ({run.model_integer_columns or 0:,} "
                   f"whole-number) and {run.model_rows or 0:,} rows"),
         ("build / solve seconds", f"{fmt(run.build_seconds, '.2f')} / "
@@ -395,12 +538,14 @@ def _run_details(data: ReportData) -> str:
     out = '<dl class="facts">' + "".join(f"<dt>{e(k)}</dt><dd>{e(v)}</dd>"
                                           for k, v in facts) + "</dl>"
     if run.stages:
-        out += table_html(["stage", "status", "objective", "bound", "gap", "seconds",
-                           "solver says"],
-                          [[s.name, s.status, s.objective, s.bound,
+        out += table_html(["stage", "outcome, and what the gap leaves open", "objective",
+                           "bound", "gap", "seconds", "solver says"],
+                          [[s.name, stage_words(s), _stage_value(s, s.objective),
+                            _stage_value(s, s.bound),
                             (s.gap if s.gap is not None else -1,
                              "-" if s.gap is None else f"{s.gap:.2%}"),
-                            s.seconds, s.solver_says] for s in run.stages],
+                            (s.seconds if s.seconds is not None else -1,
+                             fmt(s.seconds, ".2f")), s.solver_says] for s in run.stages],
                           name="stages", numeric=[False, False, True, True, True, True, False])
     for title, items in (("Violations", run.violations), ("Limits in conflict", run.conflicts),
                          ("Input warnings", run.warnings)):

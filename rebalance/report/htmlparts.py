@@ -5,13 +5,31 @@ from __future__ import annotations
 
 import html
 import math
+import re
 from collections.abc import Sequence
-from typing import Any
+from typing import Any, Protocol
 
 import pandas as pd
 
-__all__ = ["card", "chart", "compact_money", "e", "frame_table_html", "money", "num",
-           "section", "table_html"]
+from rebalance.report.console import _room_left
+from rebalance.solve import StageResult, Status
+
+__all__ = ["PLAIN_STATUS", "card", "chart", "compact_money", "e", "frame_table_html",
+           "money", "num", "number_text", "plain_status", "readable", "section", "stage_words",
+           "table_html"]
+
+# Solver outcomes in plain words, for the page and the workbook (never the raw status word).
+PLAIN_STATUS = {
+    "optimal": "optimal",
+    "feasible_with_gap": "plan found, not proven best",
+    "infeasible": "no plan: limits conflict",
+    "no_plan_in_time": "no plan in time",
+    "error": "solver error",
+    "unknown": "unknown solver outcome",
+    "approximate": "approximate (no plan)",
+}
+# Values this close to zero are rounding left over from the solver: shown as 0.
+NEAR_ZERO = 1e-9
 
 
 def e(value: object) -> str:
@@ -26,6 +44,67 @@ def money(value: float) -> str:
     return f"{value:,.0f}"
 
 
+def number_text(value: float, digits: int = 3) -> str:
+    """A number as a reader wants it: whole numbers without decimals, ``digits`` decimals
+    otherwise (none from 1,000 up), and solver dust such as 4.4e-16 as 0."""
+    v = float(value)
+    if abs(v) < NEAR_ZERO:
+        v = 0.0
+    if v.is_integer() or abs(v) >= 1000:
+        return num(v + 0.0, 0)  # + 0.0: no "-0" on show
+    return num(v + 0.0, digits)
+
+
+def plain_status(status: str) -> str:
+    """A solver status (``feasible_with_gap``) in plain words."""
+    return PLAIN_STATUS.get(str(status), str(status).replace("_", " "))
+
+
+def readable(column: str) -> str:
+    """A table column's name as a header: ``shortfall_fte_periods`` -> ``shortfall
+    FTE-periods``."""
+    text = str(column).replace("_", " ").strip()
+    text = re.sub(r"\bfte periods\b", "FTE-periods", text, flags=re.I)
+    return re.sub(r"\bfte\b", "FTE", text, flags=re.I)
+
+
+class _Stage(Protocol):
+    @property
+    def name(self) -> str: ...
+    @property
+    def status(self) -> str: ...
+    @property
+    def objective(self) -> float | None: ...
+    @property
+    def bound(self) -> float | None: ...
+    @property
+    def gap(self) -> float | None: ...
+    @property
+    def seconds(self) -> float | None: ...
+    @property
+    def solver_says(self) -> str: ...
+
+
+def stage_words(stage: _Stage) -> str:
+    """What one solve stage's outcome and gap mean, in the stage's own units, worded as the
+    console words them (:func:`rebalance.report.console._room_left`)."""
+    try:
+        status = Status(stage.status)
+    except ValueError:
+        return plain_status(stage.status)
+    if status is Status.OPTIMAL:
+        # Optimal as asked: within the relative gap the run was given, not exactly.
+        return "optimal" + (f" within the gap asked ({stage.gap:.2%} left)" if stage.gap
+                            else "")
+    if status is Status.FEASIBLE_WITH_GAP:
+        room = _room_left(StageResult(stage.name, status, stage.objective, stage.bound,
+                                      stage.gap, stage.seconds or 0.0, stage.solver_says))
+        if room is None:
+            room = "gap unknown" if stage.gap is None else f"gap {stage.gap:.2%}"
+        return f"not proven best: {room}"
+    return plain_status(stage.status)
+
+
 def compact_money(value: float) -> str:
     if abs(value) >= 1e6:
         return f"{value / 1e6:,.2f}M"
@@ -36,62 +115,82 @@ def compact_money(value: float) -> str:
 
 def table_html(headers: Sequence[str], rows: Sequence[Sequence[Any]], *, name: str,
                numeric: Sequence[bool] | None = None, caption: str = "",
-               limit: int | None = None) -> str:
-    """A sortable table; numbers carry their raw value in ``data-v`` for sorting."""
+               limit: int | None = None, foot: Sequence[Sequence[Any]] = ()) -> str:
+    """A sortable table; numbers carry their raw value in ``data-v`` for sorting.  ``foot``
+    rows (totals) sit below the body and stay there when it is sorted."""
     numeric = numeric or [False] * len(headers)
     head = "".join(f'<th scope="col" class="{"num" if n else ""}" tabindex="0">{e(h)}</th>'
                    for h, n in zip(headers, numeric, strict=True))
-    body = []
-    shown = rows if limit is None else rows[:limit]
-    for r in shown:
-        cells = []
-        for value, is_num in zip(r, numeric, strict=True):
-            if isinstance(value, tuple):  # (sort value, shown text)
-                sort, text = value
-                cells.append(f'<td class="num" data-v="{e(sort)}">{e(text)}</td>')
-            elif is_num and isinstance(value, int | float) and not isinstance(value, bool):
-                text = num(value, 2) if isinstance(value, float) else f"{value:,}"
-                cells.append(f'<td class="num" data-v="{value}">{e(text)}</td>')
-            else:
-                text = "" if value is None else str(value)
-                # Long prose (a reason, a method) wraps; short cells stay on one line.
-                wrap = ' class="long"' if len(text) > 48 else ""
-                cells.append(f"<td{wrap}>{e(text)}</td>")
-        body.append("<tr>" + "".join(cells) + "</tr>")
+    body = [_row(r, numeric) for r in (rows if limit is None else rows[:limit])]
     more = ""
     if limit is not None and len(rows) > limit:
         more = (f'<p class="more">Showing the first {limit:,} of {len(rows):,} rows; the full '
                 "table is in the plan folder and in plan.xlsx.</p>")
     cap = f"<caption>{e(caption)}</caption>" if caption else ""
+    tfoot = f"<tfoot>{''.join(_row(r, numeric) for r in foot)}</tfoot>" if foot else ""
     return (f'<div class="table-wrap"><table class="sortable" data-table="{e(name)}">{cap}'
-            f"<thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody></table></div>{more}")
+            f"<thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody>{tfoot}</table>"
+            f"</div>{more}")
+
+
+def _row(r: Sequence[Any], numeric: Sequence[bool]) -> str:
+    cells = []
+    for value, is_num in zip(r, numeric, strict=True):
+        if isinstance(value, tuple):  # (sort value, shown text)
+            sort, text = value
+            cells.append(f'<td class="num" data-v="{e(sort)}">{e(text)}</td>')
+        elif is_num and isinstance(value, int | float) and not isinstance(value, bool):
+            text = num(value, 2) if isinstance(value, float) else f"{value:,}"
+            cells.append(f'<td class="num" data-v="{value}">{e(text)}</td>')
+        else:
+            text = "" if value is None else str(value)
+            # Long prose (a reason, a method) wraps; short cells stay on one line.
+            wrap = ' class="long"' if len(text) > 48 else ""
+            cells.append(f"<td{wrap}>{e(text)}</td>")
+    return "<tr>" + "".join(cells) + "</tr>"
+
+
+def _is_gap(column: str) -> bool:
+    name = column.lower()
+    return name == "gap" or name.endswith("_gap") or name.startswith("gap_")
+
+
+def _cell(value: Any, column: str, is_num: bool) -> Any:
+    """One cell of an analysis table as the page shows it (see :func:`frame_table_html`)."""
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return ""
+    if isinstance(value, bool) or (hasattr(value, "dtype") and str(value.dtype) == "bool"):
+        return "yes" if bool(value) else "no"
+    if is_num and isinstance(value, int | float) and math.isfinite(float(value)):
+        v = 0.0 if abs(float(value)) < NEAR_ZERO else float(value)
+        if _is_gap(column):
+            return (v, f"{v:.2%}")
+        return (v, number_text(v))
+    if column.lower() == "status" and isinstance(value, str):
+        return plain_status(value)
+    return value
 
 
 def frame_table_html(frame: pd.DataFrame, name: str, limit: int = 200) -> str:
-    """Any analysis table as-is, numbers right-aligned and sortable."""
-    headers = [str(c) for c in frame.columns]
+    """Any analysis table as written, for people: headers in words, numbers right-aligned
+    and sortable (whole numbers without decimals, others three), gaps as percentages,
+    true/false as yes/no and solver statuses in plain words."""
+    columns = [str(c) for c in frame.columns]
     numeric = [pd.api.types.is_numeric_dtype(frame[c]) and not pd.api.types.is_bool_dtype(
         frame[c]) for c in frame.columns]
-    # Whole-number columns show no decimals; others three, or none for large values.
-    whole = [bool(n) and bool(((frame[c].dropna() % 1) == 0).all()) for c, n in zip(
-        frame.columns, numeric, strict=True)]
-    rows = []
-    for values in frame.itertuples(index=False, name=None):
-        row: list[Any] = []
-        for v, is_num, is_whole in zip(values, numeric, whole, strict=True):
-            if is_num and isinstance(v, int | float) and math.isfinite(float(v)):
-                digits = 0 if is_whole or abs(float(v)) >= 1000 else 3
-                row.append((v, num(float(v) + 0.0, digits)))  # + 0.0: no "-0" on show
-            else:
-                row.append("" if v is None or (isinstance(v, float) and math.isnan(v)) else v)
-        rows.append(row)
-    return table_html(headers, rows, name=name, numeric=numeric, limit=limit)
+    rows = [[_cell(v, c, n) for v, c, n in zip(values, columns, numeric, strict=True)]
+            for values in frame.itertuples(index=False, name=None)]
+    return table_html([readable(c) for c in columns], rows, name=name, numeric=numeric,
+                      limit=limit)
 
 
-def card(label: str, value: str, note: str, tone: str = "") -> str:
-    return (f'<div class="card {tone}"><div class="card-label">{e(label)}</div>'
+def card(label: str, value: str, note: str, tone: str = "", *, more: str = "",
+         wide: bool = False) -> str:
+    """A headline figure; ``more`` is HTML under the note, ``wide`` spans two columns."""
+    classes = " ".join(c for c in ("card", tone, "wide" if wide else "") if c)
+    return (f'<div class="{classes}"><div class="card-label">{e(label)}</div>'
             f'<div class="card-value">{e(value)}</div><div class="card-note">{e(note)}</div>'
-            "</div>")
+            f"{more}</div>")
 
 
 def chart(kind: str, title: str, note: str = "") -> str:

@@ -20,6 +20,8 @@ import pandas as pd
 
 from rebalance.files import sibling_name
 from rebalance.plan import PLAN_TABLES
+from rebalance.report.html import STATUS_WORDS, new_position_salaries, spare_capacity
+from rebalance.report.htmlparts import NEAR_ZERO, plain_status, stage_words
 from rebalance.report.inputs import ReportData, quality_notes
 
 __all__ = ["write_workbook"]
@@ -28,6 +30,8 @@ MONEY = "#,##0"
 FTE = "#,##0.00"
 WHOLE = "#,##0"
 SHARE = "0.0%"
+GAP = "0.00%"
+DECIMALS = "#,##0.000"
 HEADER_FILL = "#23404A"  # deep slate, the report's ink colour
 HEADER_FONT = "#FFFFFF"
 BAND_FILL = "#F3EFE6"  # warm paper, for the summary's section labels
@@ -56,6 +60,8 @@ SHEET_NOTES = {
 
 def _format_for(column: str) -> str | None:
     name = column.lower()
+    if name == "gap" or name.endswith("_gap") or name.startswith("gap_"):
+        return GAP
     if "share" in name or name.endswith("_pct") or name.endswith("rate"):
         return SHARE
     if any(w in name for w in ("cost", "spend", "budget", "salary", "hiring", "moves", "money")):
@@ -147,7 +153,13 @@ def _cell_value(value: Any) -> Any:
 
 
 def _column_values(column: pd.Series) -> list[Any]:
-    """A column's cells as Python values, None where missing (see :func:`_cell_value`)."""
+    """A column's cells as Python values, None where missing (see :func:`_cell_value`);
+    solver dust (4.4e-16 where the plan means 0) as 0."""
+    if isinstance(column.dtype, np.dtype) and column.dtype.kind == "f":
+        values = column.to_numpy(dtype=float)
+        dust = np.abs(values) < NEAR_ZERO
+        if dust.any():
+            column = column.where(~dust, 0.0)
     if isinstance(column.dtype, np.dtype) and column.dtype.kind in "biuf" and \
             np.isfinite(column.to_numpy(dtype=float)).all():
         return column.tolist()  # plain numbers, none missing: the common case, kept fast
@@ -172,16 +184,39 @@ def _fit_widths(ws: Any, columns: Sequence[str], frame: pd.DataFrame | None = No
         ws.set_column(i, i, min(max(width + 2, 9), 48))
 
 
+def _plain_number_formats(column: pd.Series, values: list[Any], styles: _Styles) -> Any:
+    """Formats for a numeric column its name says nothing about: whole numbers without
+    decimals (24, not 24.0), others to three places; one format, or one per cell where a
+    column mixes them (a re-plan's rows of counts and FTE)."""
+    if not (isinstance(column.dtype, np.dtype) and column.dtype.kind == "f"):
+        return None
+    numbers = np.array([v if isinstance(v, float) else np.nan for v in values], dtype=float)
+    with np.errstate(invalid="ignore"):
+        whole = ~np.isfinite(numbers) | (numbers % 1 == 0)
+    if whole.all():
+        return styles.number(WHOLE)
+    whole_format, decimals = styles.number(WHOLE), styles.number(DECIMALS)
+    return [whole_format if w else decimals for w in whole.tolist()]
+
+
 def _table_sheet(ws: Any, styles: _Styles, frame: pd.DataFrame) -> None:
     columns = [str(c) for c in frame.columns]
     for j, column in enumerate(columns):
         ws.write_string(0, j, column, styles.header)
-    formats = [styles.number(_format_for(c)) for c in columns]
     values = [_column_values(frame.iloc[:, j]) for j in range(len(columns))]
+    formats = [styles.number(_format_for(c)) if _format_for(c) is not None else
+               _plain_number_formats(frame.iloc[:, j], values[j], styles)
+               for j, c in enumerate(columns)]
     write = ws.write
-    for i, row in enumerate(zip(*values, strict=True), 1):
-        for j, value in enumerate(row):
-            write(i, j, value, formats[j])
+    if any(isinstance(f, list) for f in formats):
+        for i, row in enumerate(zip(*values, strict=True), 1):
+            for j, value in enumerate(row):
+                f = formats[j]
+                write(i, j, value, f[i - 1] if isinstance(f, list) else f)
+    else:
+        for i, row in enumerate(zip(*values, strict=True), 1):
+            for j, value in enumerate(row):
+                write(i, j, value, formats[j])
     ws.freeze_panes(1, 0)
     if columns:
         ws.autofilter(0, 0, len(frame), len(columns) - 1)
@@ -220,12 +255,24 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
         for text in warnings:
             ws.write_string(next(rows), 0, text, styles.warning)
     band("Headline")
-    line("status", run.status)
+    line("outcome", STATUS_WORDS.get(run.status, (plain_status(run.status), ""))[0])
     line("weighted shortfall (FTE-periods)", plan.weighted_shortfall, FTE)
     line("shortfall (FTE-periods, unweighted)", plan.shortfall_fte, FTE)
     line("share of demand not covered", plan.shortfall_fte / demand if demand else 0.0, SHARE,
          f"of {demand:,.1f} FTE-periods demanded")
-    line("new money, all years", plan.total_cost, MONEY)
+    line("new money, all years", plan.total_cost, MONEY,
+         f"{instance.periods[0].name} to {instance.periods[-1].name}")
+    commitment = new_position_salaries(data)
+    positions = int(commitment["positions"].sum()) if len(commitment) else 0
+    line("new positions' salaries a year",
+         float(commitment["per_year"].sum()) if len(commitment) else 0.0, MONEY,
+         f"every year after the horizon ({instance.periods[-1].name}), not in new money: "
+         f"{positions} new positions x salary per period x {instance.periods_per_year} "
+         "periods a year")
+    spare = spare_capacity(data)
+    line("capacity beyond demand (FTE-periods)",
+         float(spare["spare_fte"].sum()) if len(spare) else 0.0, FTE,
+         "output beyond its office's and skill's demand: covers nothing in this plan")
     line("people hired", plan.hires_count(), WHOLE)
     line("detail periods", len(plan.details), WHOLE,
          f"{plan.details['person'].nunique()} people" if len(plan.details) else "")
@@ -253,10 +300,29 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
             value = _cell_value(value)
             ws.write(row, col, "no cap" if value is None else value, money)
 
+    if len(spare):
+        band("Capacity beyond demand (FTE-periods)")
+        header_row = next(rows)
+        for col, text in enumerate(["office", "demand", "output", "shortfall",
+                                    "beyond demand"]):
+            ws.write_string(header_row, col, text, styles.header)
+        fte = styles.number(FTE)
+        figures = spare[["demand_fte", "output_fte", "shortfall_fte", "spare_fte"]].to_numpy(
+            dtype=float)
+        offices = [*(str(o) for o in spare["office"]), "all offices"]
+        for office, values in zip(offices, [*figures, figures.sum(axis=0)], strict=True):
+            row = next(rows)
+            ws.write_string(row, 0, office, styles.bold if office == "all offices" else None)
+            for col, value in enumerate(values.tolist(), 1):
+                ws.write_number(row, col, 0.0 if abs(value) < NEAR_ZERO else value, fte)
+
     band("How the plan was found")
     line("solver", run.solver_version or run.solver)
     line("objective", run.objective_mode)
-    line("relative gap at stop", run.gap, "0.00%")
+    line("largest stage gap at stop", run.gap, GAP)
+    for stage in run.stages:
+        if stage.name != "build":
+            line(f"{stage.name} stage", stage_words(stage))
     line("model size", f"{run.model_columns or 0:,} columns ({run.model_integer_columns or 0:,} "
          f"integer) x {run.model_rows or 0:,} rows")
     line("solve seconds", run.solve_seconds, "0.0")

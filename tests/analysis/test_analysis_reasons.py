@@ -4,12 +4,15 @@ from __future__ import annotations
 
 from collections import Counter, defaultdict
 
-from analysis_helpers import feasible_random
+from analysis_helpers import exact_options, feasible_random
 from conftest import solve_verified
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from rebalance.analysis.reasons import reasons
+from rebalance.analysis.limits import LimitUse
+from rebalance.analysis.reasons import _describe, reasons
+from rebalance.analysis.replan import replan
+from rebalance.analysis.scenarios import DemandChange, Scenario, apply_scenario
 from rebalance.instance import Instance
 from rebalance.plan import Plan
 
@@ -114,3 +117,35 @@ def test_reasons_never_cite_a_limit_that_does_not_bind(seed: int) -> None:
     instance, result = feasible_random(seed, people=5, periods=4)
     assert result.plan is not None
     _check(instance, result.plan)
+
+
+def test_reasons_name_periods_not_indexes_and_single_periods_plainly(tiny) -> None:
+    # A practitioner's reading of the demo's reasons: "no hire starts before period 3" (an
+    # index, off by one for a reader), "2027-Q3..2027-Q3", and a run of one period said to be
+    # cut by the limit on periods in a row.
+    use = LimitUse("time_to_hire", "review", "2027-Q1", 0.0, 1.0, True)
+    assert "no hire starts before 2027-Q2" in _describe(use, tiny.period_names)
+    table = reasons(tiny, solve_verified(tiny).plan).table
+    a2 = table[(table.action == "detail") & (table.subject == "a2")].iloc[0]["reason"]
+    assert "in 2027-Q4:" in a2 and ".." not in a2 and "in a row" not in a2
+
+
+def test_a_replans_reasons_say_what_the_replan_kept(tiny) -> None:
+    # docs/analysis.md, re-planning: a hire already started is kept and a run under way goes
+    # on, idle if need be; their reasons had read "kept by the solver at no gain (review)"
+    # and cited demand that was gone.
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    calm = apply_scenario(tiny, Scenario("calm", "", (
+        DemandChange(("B",), ("review",), (3,), multiplier=0.0),)))
+    kept = replan(calm, base.plan, 3, exact_options(calm)).result.plan
+    assert kept is not None
+    hire = reasons(calm, kept, replanned_at=3).table.query("action == 'hire'").iloc[0]
+    assert "recruitment had begun before the re-plan from 2027-Q4" in hire["reason"]
+    gone = apply_scenario(tiny, Scenario("gone", "", (
+        DemandChange(("B",), ("review",), (2,), multiplier=0.0),)))
+    idle = replan(gone, base.plan, 2, exact_options(gone)).result.plan
+    assert idle is not None
+    table = reasons(gone, idle, replanned_at=2).table
+    a1 = table[(table.action == "detail") & (table.subject == "a1")].iloc[0]["reason"]
+    assert "idle in 2027-Q3" in a1 and "a run under way goes on" in a1

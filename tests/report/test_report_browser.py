@@ -112,7 +112,7 @@ def test_tables_sort_when_a_header_is_clicked(browser):
     table = browser.find_element("css selector", 'table[data-table="frontier"]')
     headers = table.find_elements("css selector", "thead th")
     names = [h.text for h in headers]
-    column = names.index("weighted_shortfall")
+    column = names.index("weighted shortfall")  # the page's header for weighted_shortfall
 
     def values() -> list[float]:
         return [float(r.find_elements("tag name", "td")[column].get_attribute("data-v"))
@@ -166,3 +166,40 @@ def test_marginal_values_with_estimates_draw_a_tick_per_row(browser, tmp_path):
         return Array.from(document.querySelectorAll('.chart[data-chart="marginal"] line'))
             .map(l => l.getAttribute('data-tip'));""")
     assert len(ticks) == 2 and all("estimate" in t for t in ticks)
+
+
+def test_money_bars_share_one_scale_with_an_axis(browser):
+    # Each budget line had been drawn on its own scale, with no axis: a 299k bar as long as
+    # a 1.39M one.  Tiny's hiring and moves caps differ, so separate scales would show.
+    assert _open(browser, tiny_plan_folder() / "report.html") == []
+    bars = browser.execute_script("""
+        return Array.from(document.querySelectorAll('.chart[data-chart="budget"] rect[data-v]'))
+            .map(r => [Number(r.getAttribute('width')), Number(r.getAttribute('data-v'))]);""")
+    assert len(bars) >= 3  # onboarding and salary (hiring), details (moves)
+    scales = [width / value for width, value in bars]
+    assert max(scales) == pytest.approx(min(scales), rel=1e-6)
+    ticks = browser.execute_script("""
+        return Array.from(document.querySelectorAll('.chart[data-chart="budget"] .axis text'))
+            .map(t => t.textContent);""")
+    assert "0" in ticks and len(ticks) >= 3
+
+
+def test_coverage_draws_output_beyond_demand(browser):
+    assert _open(browser, tiny_plan_folder() / "report.html") == []
+    spare = browser.execute_script("""
+        return document.querySelectorAll('.chart[data-chart="coverage"] polygon.spare').length;""")
+    assert spare == 3  # all offices, A and B each have some
+
+
+def test_plan_tables_fit_a_narrow_window_without_sideways_scrolling(browser):
+    # Wide tables scrolled sideways, their right-hand text hidden past the box's edge.
+    assert _open(browser, demo_slice_folder() / "report.html") == []
+    try:
+        browser.set_window_size(800, 900)
+        wide = browser.execute_script("""
+            return Array.from(document.querySelectorAll('.table-wrap'))
+                .filter(w => w.scrollWidth > w.clientWidth + 1)
+                .map(w => w.querySelector('table').dataset.table);""")
+    finally:
+        browser.set_window_size(1280, 900)
+    assert wide == []

@@ -7,7 +7,7 @@
   var C = {
     staff: "#3f7f94", hire: "#88ad6b", short: "#c0533a", ink: "#1f2a30", soft: "#4a565d",
     detail: "#3f7f94", move: "#7b5a97", amber: "#d9a036", grid: "#efeade", axis: "#cfc8b8",
-    muted: "#7a8388", track: "#efeadd"
+    muted: "#7a8388", track: "#efeadd", spare: "#cfe2e8"
   };
   var SKILL = ["#3f7f94", "#d9a036", "#7b5a97", "#88ad6b", "#c0533a", "#4e6a9c", "#a7825a",
     "#5ea5a0", "#b56b8c", "#6c7a3a"];
@@ -69,6 +69,7 @@
       var span = document.createElement("span");
       span.style.setProperty("--c", it.color);
       if (it.line) { span.className = "line"; }
+      if (it.spare) { span.className = "spare"; }
       span.textContent = it.text;
       div.appendChild(span);
     });
@@ -87,33 +88,50 @@
 
   /* ---------------------------------------------------------------- demand vs covered */
   function coverage(box, d) {
+    var spareOf = function (s) { return s.spare || s.demand.map(function () { return 0; }); };
     legend(box, [{ color: C.staff, text: "covered by current staff" },
       { color: C.hire, text: "covered by new hires" },
       { color: C.short, text: "not covered (shortfall)" },
+      { color: C.spare, text: "output beyond demand (spare, covers nothing)", spare: true },
       { color: C.ink, text: "demand", line: true }]);
     var grid = document.createElement("div");
     grid.className = "multiples";
     box.appendChild(grid);
     var T = d.periods.length, marks = 0;
     d.series.forEach(function (s) {
-      var W = 340, H = 206, ml = 40, mr = 12, mt = 30, mb = 26, iw = W - ml - mr, ih = H - mt - mb;
+      var W = 340, H = 214, ml = 40, mr = 12, mt = 38, mb = 26, iw = W - ml - mr, ih = H - mt - mb;
       var cell = document.createElement("div");
       grid.appendChild(cell);
-      var g = svg(cell, W, H);
+      var g = svg(cell, W, H), spare = spareOf(s), spareTotal = 0;
       var top = 0;
-      for (var i = 0; i < T; i++) { top = Math.max(top, s.demand[i], s.staff[i] + s.hires[i]); }
+      for (var i = 0; i < T; i++) {
+        top = Math.max(top, s.demand[i] + spare[i], s.staff[i] + s.hires[i]);
+        spareTotal += spare[i];
+      }
       var tk = ticks(top * 1.05 || 1, 4), ymax = tk[tk.length - 1] || 1;
       var x = function (i) { return ml + (T === 1 ? iw / 2 : i * iw / (T - 1)); };
       var y = function (v) { return mt + ih - v / ymax * ih; };
       label(g, ml - 34, 14, s.office, { "class": "title" });
       label(g, W - mr, 14, "FTE", { "text-anchor": "end" });  // the axis's unit
+      label(g, ml - 34, 28, spareTotal >= 0.05 ? fmt(spareTotal, 1) +
+        " FTE-periods beyond demand (spare)" : "no output beyond demand",
+        { "class": "spare-note" });
       yAxis(g, y, tk, ml, ml + iw);
-      var xs = [], base = [], staffTop = [], covTop = [], dem = [];
+      var xs = [], base = [], staffTop = [], covTop = [], dem = [], spareTop = [];
       for (i = 0; i < T; i++) {
         xs.push(x(i)); base.push(y(0)); staffTop.push(y(s.staff[i]));
         covTop.push(y(s.staff[i] + s.hires[i])); dem.push(y(s.demand[i]));
+        spareTop.push(y(s.demand[i] + spare[i]));
       }
       var rev = function (a) { return a.slice().reverse(); };
+      if (spareTotal > 0) {
+        // A pale band above the demand line, its top edge dashed: output that covers nothing.
+        el("polygon", { points: points(xs.concat(rev(xs)), spareTop.concat(rev(dem))),
+          fill: C.spare, "class": "spare" }, g);
+        el("polyline", { points: points(xs, spareTop), fill: "none", stroke: C.staff,
+          "stroke-width": 1.2, "stroke-dasharray": "4 3" }, g);
+        marks++;
+      }
       el("polygon", { points: points(xs.concat(rev(xs)), dem.concat(rev(covTop))),
         fill: C.short, "fill-opacity": 0.55 }, g);
       el("polygon", { points: points(xs.concat(rev(xs)), covTop.concat(rev(staffTop))),
@@ -133,7 +151,7 @@
         el("rect", { x: x(i) - half, y: mt, width: 2 * half, height: ih, fill: "transparent",
           "data-tip": s.office + ", " + d.periods[i] + "\ndemand " + fmt(s.demand[i], 2) +
             " FTE\nstaff cover " + fmt(s.staff[i], 2) + "\nhires add " + fmt(s.hires[i], 2) +
-            "\nshort " + fmt(s.shortfall[i], 2) }, g);
+            "\nshort " + fmt(s.shortfall[i], 2) + "\nbeyond demand (spare) " + fmt(spare[i], 2) }, g);
       }
     });
     return marks;
@@ -301,26 +319,37 @@
     if (!d.length) { return empty(box, "No budget years in this plan."); }
     legend(box, Object.keys(PART).map(function (k) { return { color: PART[k][0], text: PART[k][1] }; })
       .concat([{ color: C.ink, text: "cap for the year", line: true }]));
-    var W = 900, rh = 36, lw = 130, bw = 560, H = d.length * rh + 16, domain = {};
-    d.forEach(function (r) { domain[r.kind] = Math.max(domain[r.kind] || 0, r.cap || 0, r.spend); });
+    // One scale for every line, so bar lengths compare across years and budget lines.
+    var top = 0;
+    d.forEach(function (r) { top = Math.max(top, r.cap || 0, r.spend); });
+    var tk = ticks(top || 1, 5), dom = tk[tk.length - 1] || 1;
+    var W = 900, rh = 36, lw = 130, bw = 560, axisY = 8 + d.length * rh + 4, H = axisY + 30;
     var g = svg(box, W, H), marks = 0;
+    var xv = function (v) { return lw + v / dom * bw; };
+    var axis = el("g", { "class": "axis" }, g), gridG = el("g", { "class": "grid" }, g);
+    tk.forEach(function (v) {
+      el("line", { x1: xv(v), x2: xv(v), y1: 6, y2: axisY }, gridG);
+      el("line", { x1: xv(v), x2: xv(v), y1: axisY, y2: axisY + 4 }, axis);
+      label(axis, xv(v), axisY + 16, tick(v), { "text-anchor": "middle" });
+    });
+    el("line", { x1: lw, x2: lw + bw, y1: axisY, y2: axisY }, axis);
+    label(axis, lw - 12, axisY + 16, "one scale", { "text-anchor": "end" });
     d.forEach(function (r, i) {
-      var yy = 8 + i * rh, keys = Object.keys(r.parts), dom = (domain[r.kind] || 1) * 1.06;
+      var yy = 8 + i * rh, keys = Object.keys(r.parts);
       label(g, lw - 12, yy + 17, r.year + " " + r.kind, { "text-anchor": "end", "class": "title" });
-      el("rect", { x: lw, y: yy + 4, width: bw, height: 20, fill: C.track, rx: 3 }, g);
       var acc = 0;
       keys.forEach(function (key) {
         var v = r.parts[key];
         if (v <= 0) { return; }
-        el("rect", { x: lw + acc / dom * bw, y: yy + 7, width: v / dom * bw, height: 14,
-          fill: (PART[key] || [C.staff])[0],
+        el("rect", { x: xv(acc), y: yy + 7, width: v / dom * bw, height: 14,
+          fill: (PART[key] || [C.staff])[0], "data-v": v,
           "data-tip": r.year + " " + ((PART[key] || [0, key])[1]) + ": " + Math.round(v).toLocaleString("en") }, g);
         acc += v;
         marks++;
       });
       var over = r.cap !== null && r.spend > r.cap + 0.5;
       if (r.cap !== null) {
-        var cx = lw + r.cap / dom * bw;
+        var cx = xv(r.cap);
         el("line", { x1: cx, x2: cx, y1: yy + 1, y2: yy + 27, stroke: C.ink, "stroke-width": 2.5,
           "data-tip": r.year + " " + r.kind + " cap: " + Math.round(r.cap).toLocaleString("en") }, g);
       }

@@ -1,0 +1,163 @@
+"""Scenario files a sweep found mishandled: values, names and no-op tables (tests/data/tiny)."""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+from conftest import DATA, ROOT
+
+from rebalance.analysis.scenarios import (
+    ScenarioError,
+    apply_scenario,
+    read_scenario,
+    read_scenarios,
+)
+from rebalance.instance import Budget
+
+TINY = DATA / "tiny"
+
+
+def run(*args: str) -> subprocess.CompletedProcess[str]:
+    return subprocess.run([sys.executable, "-m", "rebalance.cli", *args], cwd=ROOT,
+                          capture_output=True, text=True, timeout=300)
+
+
+def write(folder: Path, stem: str, text: str) -> Path:
+    path = folder / f"{stem}.toml"
+    path.write_text(text)
+    return path
+
+
+def problems(path: Path, instance) -> list[str]:
+    with pytest.raises(ScenarioError) as caught:
+        read_scenario(path, instance)
+    return [str(p) for p in caught.value.problems]
+
+
+def test_priority_zero_is_kept(tmp_path: Path, tiny) -> None:
+    # demand.csv allows priority 0 (docs/instance-format.md: number >= 0); `or 1.0` made it 1.
+    path = write(tmp_path, "p0", 'name = "p0"\n[[demand]]\noffices = ["B"]\n'
+                 'skills = ["intake"]\nadd_fte = 1.0\npriority = 0\n')
+    surged = apply_scenario(tiny, read_scenario(path, tiny))
+    created = [d for d in surged.demand if (d.office, d.skill) == ("B", "intake")]
+    assert len(created) == 4 and all(d.priority == 0.0 for d in created)
+
+
+@pytest.mark.parametrize(("table", "key", "value", "expected"), [
+    ("demand", "multiplier", "nan", "a number in [0, 1000]"),
+    ("demand", "multiplier", "inf", "a number in [0, 1000]"),
+    ("demand", "multiplier", "1e308", "a number in [0, 1000]"),
+    ("demand", "multiplier", "1" + "0" * 400, "a number in [0, 1000]"),
+    ("demand", "add_fte", "nan", "a number in [-100000, 100000]"),
+    ("demand", "add_fte", "-inf", "a number in [-100000, 100000]"),
+    ("demand", "priority", "nan", "a number >= 0"),
+    ("demand", "priority", "inf", "a number >= 0"),
+    ("budget", "hiring_add", "nan", "a number in [-1e+12, 1e+12]"),
+    ("budget", "moves_add", "nan", "a number in [-1e+12, 1e+12]"),
+    ("budget", "hiring_add", "1e300", "a number in [-1e+12, 1e+12]"),
+])
+def test_non_finite_or_absurd_numbers_are_rejected(tmp_path: Path, tiny, table: str, key: str,
+                                                   value: str, expected: str) -> None:
+    # A sweep: nan set demand or caps to 0 (exit 0), inf and 1e308 overflowed (exit 1).
+    rest = 'offices = ["B"]\nskills = ["intake"]\nadd_fte = 1.0\n' if key == "priority" else ""
+    path = write(tmp_path, "bad", f'name = "surge"\n[[{table}]]\n{rest}{key} = {value}\n')
+    text = problems(path, tiny)
+    assert len(text) == 1, text  # not also "changes nothing": the value is the problem
+    assert text[0].startswith(f"{path}: {table}[1].{key}: ")
+    assert f"expected {expected} (scenario 'surge')" in text[0]
+
+
+def test_bad_numbers_are_listed_with_the_other_problems(tmp_path: Path) -> None:
+    path = write(tmp_path, "bad", 'name = "surge"\ncolour = 1\n[[demand]]\nmultiplier = nan\n'
+                 'add_fte = inf\n[[budget]]\nhiring_add = nan\nmoves_add = 1e308\n')
+    out = tmp_path / "out"
+    done = run("compare", str(TINY), "--scenario", str(path), "-o", str(out), "--workers", "1")
+    assert done.returncode == 3, done.stderr
+    for needle in ("colour: unknown key", "demand[1].multiplier: 'nan' is not a finite number",
+                   "demand[1].add_fte: 'inf' is not a finite number",
+                   "budget[1].hiring_add: 'nan' is not a finite number",
+                   "budget[1].moves_add: '1e+308' is out of range"):
+        assert f"{path}: {needle}" in done.stderr, (needle, done.stderr)
+    assert "Traceback" not in done.stderr and "internal error" not in done.stderr
+    assert not out.exists()
+
+
+def test_budget_table_that_changes_nothing_is_an_error(tmp_path: Path, tiny) -> None:
+    # docs/instance-format.md: a scenario that changes nothing is an error; hiring_add = 0
+    # alone had been accepted and solved as a scenario.
+    path = write(tmp_path, "zero", 'name = "zero"\n[[budget]]\nhiring_add = 0\n')
+    assert problems(path, tiny) == [f"{path}: budget[1]: changes nothing; expected hiring_add "
+                                    "or moves_add other than 0"]
+    # A year without the cap it moves stays without one: no change either.
+    uncapped = tiny.with_changes(budgets=(Budget("2027", None, 30000.0),))
+    path = write(tmp_path, "uncapped", 'name = "u"\n[[budget]]\nhiring_add = 5000\n')
+    text = problems(path, uncapped)
+    assert len(text) == 1 and "budget[1]: moves no cap" in text[0], text
+    path = write(tmp_path, "moves", 'name = "m"\n[[budget]]\nhiring_add = 5000\n'
+                 'moves_add = -1000\n')
+    assert read_scenario(path, uncapped).budget[0].moves_add == -1000.0
+
+
+def test_demand_that_is_not_a_list_of_tables(tmp_path: Path, tiny) -> None:
+    # `demand = 3` had been an internal error (TypeError).
+    path = write(tmp_path, "d3", 'name = "d"\ndemand = 3\n')
+    assert problems(path, tiny) == [f"{path}: demand: expected [[demand]] tables"]
+
+
+@pytest.mark.parametrize("name", ["..", ".", "x" * 256])
+def test_a_name_that_is_no_folder_is_an_error(tmp_path: Path, tiny, name: str) -> None:
+    path = write(tmp_path, "s", f'name = "{name}"\n[[demand]]\noffices = ["B"]\n'
+                 'multiplier = 2\n')
+    text = problems(path, tiny)
+    assert len(text) == 1 and text[0].startswith(f"{path}: name: '{name[:40]}")
+    assert "folder name" in text[0]
+
+
+def test_names_whose_folders_clash(tmp_path: Path, tiny) -> None:
+    # 'a/b' and 'a_b' both write OUT/scenarios/a_b (FileExistsError, exit 1, after the
+    # solves); Storm and storm are one folder on case-insensitive file systems.
+    body = '\n[[demand]]\noffices = ["B"]\nmultiplier = 2\n'
+    paths = [write(tmp_path, stem, f'name = "{name}"{body}')
+             for stem, name in (("one", "a/b"), ("two", "a_b"), ("three", "Storm"),
+                                ("four", "storm"))]
+    with pytest.raises(ScenarioError) as caught:
+        read_scenarios(paths, tiny)
+    text = [str(p) for p in caught.value.problems]
+    assert len(text) == 2, text
+    assert text[0].startswith(f"{paths[1]}: name: scenarios 'a/b' (in {paths[0]}) and 'a_b' "
+                              "would both be written to folder scenarios/a_b: their folder "
+                              "names clash")
+    assert text[1].startswith(f"{paths[3]}: name: scenarios 'Storm' (in {paths[2]}) and "
+                              "'storm'")
+
+
+def test_folder_problems_exit_3_before_any_solve(tmp_path: Path) -> None:
+    body = '\n[[demand]]\noffices = ["B"]\nmultiplier = 2\n'
+    dots = write(tmp_path, "dots", f'name = ".."{body}')
+    one = write(tmp_path, "one", f'name = "a/b"{body}')
+    two = write(tmp_path, "two", f'name = "a_b"{body}')
+    out = tmp_path / "out"
+    done = run("compare", str(TINY), "--scenario", str(dots), "--scenario", str(one),
+               "--scenario", str(two), "-o", str(out), "--workers", "1")
+    assert done.returncode == 3, done.stderr
+    assert f"{dots}: name: '..' is not usable as a folder name" in done.stderr
+    assert f"{two}: name: scenarios 'a/b' (in {one}) and 'a_b'" in done.stderr
+    assert "internal error" not in done.stderr and done.stdout == "" and not out.exists()
+
+
+def test_duplicate_names_say_which_scenario_and_files(tmp_path: Path) -> None:
+    body = '\n[[demand]]\noffices = ["B"]\nmultiplier = 2\n'
+    first = write(tmp_path, "first", f'name = "surge"{body}')
+    second = write(tmp_path, "second", f'name = "surge"{body}')
+    base = write(tmp_path, "base", f'name = "base"{body}')
+    out = tmp_path / "out"
+    done = run("compare", str(TINY), "--scenario", str(first), "--scenario", str(second),
+               "--scenario", str(base), "-o", str(out), "--workers", "1")
+    assert done.returncode == 3, done.stderr
+    assert (f"{second}: name: scenario 'surge' is also the name of the scenario in {first}"
+            in done.stderr)
+    assert f"{base}: name: scenario 'base' has the base plan's name" in done.stderr
+    assert not out.exists()

@@ -1,0 +1,163 @@
+"""Plan folders read back by verify, replan and report: a broken table is invalid input (exit 3,
+every problem as ``path:row: column: what; expected``), never an internal error."""
+
+from __future__ import annotations
+
+import shutil
+from pathlib import Path
+
+import pandas as pd
+import pytest
+from conftest import DATA, solve_verified
+
+from rebalance import read_instance
+from rebalance.cli import EXIT_INVALID_INPUT, VIOLATIONS_SHOWN, main
+from rebalance.plan import PLAN_TABLES, PlanError, read_plan
+from rebalance.planning import write_outputs
+
+TINY = str(DATA / "tiny")
+
+
+@pytest.fixture(scope="module")
+def written(tmp_path_factory) -> tuple[Path, object]:
+    """A verified plan of tiny, written once; tests break copies of it."""
+    result = solve_verified(read_instance(DATA / "tiny"))
+    folder = tmp_path_factory.mktemp("plans") / "plan"
+    write_outputs(result, folder)
+    return folder, result.plan
+
+
+@pytest.fixture
+def plan_dir(written, tmp_path) -> Path:
+    folder = tmp_path / "broken"
+    shutil.copytree(written[0], folder)
+    return folder
+
+
+def edit(folder: Path, name: str, old: str, new: str) -> None:
+    path = folder / f"{name}.csv"
+    text = path.read_text()
+    assert old in text
+    path.write_text(text.replace(old, new, 1))
+
+
+def problems(folder: Path) -> list[str]:
+    with pytest.raises(PlanError) as caught:
+        read_plan(folder, complete=True)
+    return [str(p) for p in caught.value.problems]
+
+
+def bad_input_everywhere(folder: Path, tmp_path: Path, capsys) -> str:
+    """stderr of verify and replan, which must both say bad input and write nothing."""
+    out = tmp_path / "replanned"
+    assert main(["verify", TINY, str(folder)]) == EXIT_INVALID_INPUT
+    verify_err = capsys.readouterr().err
+    assert main(["replan", TINY, "--from", str(folder), "--at", "2027-Q3", "-o", str(out),
+                 "--quiet"]) == EXIT_INVALID_INPUT
+    replan_err = capsys.readouterr().err
+    assert not out.exists()
+    for err in (verify_err, replan_err):
+        assert "internal error" not in err and "Traceback" not in err
+        assert f"{folder}: not a plan folder rebalance can read" in err
+    assert verify_err == replan_err
+    return replan_err
+
+
+def test_a_written_plan_reads_back_as_it_was(written):
+    folder, plan = written
+    again = read_plan(folder, complete=True)
+    for name in PLAN_TABLES:
+        pd.testing.assert_frame_equal(again.table(name), plan.table(name), check_dtype=False)
+    assert again.hires["count"].dtype.kind == "i"
+
+
+def test_a_hire_count_that_is_no_number_is_bad_input(plan_dir, tmp_path, capsys):
+    # Had been an internal error (ValueError in limits.hire_rows) in replan and verify.
+    edit(plan_dir, "hires", ",1,new,", ",abc,new,")
+    err = bad_input_everywhere(plan_dir, tmp_path, capsys)
+    assert (f"{plan_dir / 'hires.csv'}:2: count: 'abc' is not a number; expected a whole "
+            "number >= 1") in err
+
+
+def test_hire_counts_must_be_whole_and_at_least_one(plan_dir, tmp_path, capsys):
+    # -1 and 1.5 had been read as they stood: replan wrote a plan from them.
+    hires = plan_dir / "hires.csv"
+    first = hires.read_text().splitlines()[1]
+    hires.write_text(hires.read_text() + first.replace(",1,new,", ",-1,new,") + "\n"
+                     + first.replace(",1,new,", ",0,new,") + "\n")
+    edit(plan_dir, "hires", ",1,new,", ",1.5,new,")
+    assert problems(plan_dir) == [
+        f"{hires}:{row}: count: '{value}' is out of range; expected a whole number >= 1"
+        for row, value in ((2, "1.5"), (3, "-1"), (4, "0"))]
+    bad_input_everywhere(plan_dir, tmp_path, capsys)
+
+
+def test_an_unclosed_quote_is_said_once_not_a_parser_traceback(plan_dir, tmp_path, capsys):
+    # pandas' ParserError had ended verify and replan as internal errors.
+    edit(plan_dir, "details", "a1,2027-Q2,", 'a1,"2027-Q2,')
+    err = bad_input_everywhere(plan_dir, tmp_path, capsys)
+    assert problems(plan_dir) == [
+        f"{plan_dir / 'details.csv'}:2: period: runs over several lines (a quote that is not "
+        "closed?); expected one line per row"]
+    assert "1 problem(s)" in err
+
+
+def test_a_missing_table_names_its_file_and_folder(plan_dir, tmp_path, capsys):
+    # replan had said "missing work"; verify had called it a failed verification (exit 6).
+    (plan_dir / "work.csv").unlink()
+    err = bad_input_everywhere(plan_dir, tmp_path, capsys)
+    assert f"{plan_dir / 'work.csv'}: file is missing; expected in every plan folder" in err
+    # A report still draws what is left, saying what is missing.
+    assert [t for t in PLAN_TABLES if read_plan(plan_dir).table(t).empty] == [
+        "reassignments", "work"]
+
+
+def test_a_missing_column_names_its_file_and_folder(plan_dir, tmp_path, capsys):
+    # "details: column to_office is missing" had named neither.
+    edit(plan_dir, "details", ",to_office,", ",to_offic,")
+    err = bad_input_everywhere(plan_dir, tmp_path, capsys)
+    assert f"{plan_dir / 'details.csv'}:1: to_office: required column is missing" in err
+
+
+def test_every_problem_of_every_table_is_said_at_once(plan_dir, tmp_path, capsys):
+    edit(plan_dir, "details", "5000.0", "five")
+    edit(plan_dir, "coverage", "covered_fte", "demand_fte")
+    (plan_dir / "work.csv").write_bytes((plan_dir / "work.csv").read_bytes() + b"a1,\xe9\n")
+    (plan_dir / "costs.csv").unlink()
+    assert problems(plan_dir) == [
+        f"{plan_dir / 'details.csv'}:2: cost: 'five' is not a number; expected a number",
+        f"{plan_dir / 'work.csv'}:13: is not UTF-8 text (byte 0xe9 on this line); expected the "
+        "file saved as UTF-8 (in a spreadsheet program: save as CSV UTF-8)",
+        f"{plan_dir / 'coverage.csv'}:1: demand_fte: is a column name 2 times; expected each "
+        "column once",
+        f"{plan_dir / 'coverage.csv'}:1: covered_fte: required column is missing",
+        f"{plan_dir / 'costs.csv'}: file is missing; expected in every plan folder (rebalance "
+        "plan writes it)"]
+    err = bad_input_everywhere(plan_dir, tmp_path, capsys)
+    assert "5 problem(s)" in err
+    # report draws around a missing table, but not around one it cannot read
+    assert main(["report", str(plan_dir), "--instance", TINY]) == EXIT_INVALID_INPUT
+    assert "internal error" not in capsys.readouterr().err
+    assert not (plan_dir / "report.html").exists()
+
+
+def test_an_old_plan_of_another_instance_lists_a_bounded_number_of_problems(
+        plan_dir, tmp_path, capsys):
+    # Every name unknown to tiny: 66 lines had been listed for the demo's plan.
+    offices = {"A": "X", "B": "Y"}.get
+    renames = {"person": lambda v: f"x{v}", "period": lambda v: v.replace("2027", "2031"),
+               "start_period": lambda v: v.replace("2027", "2031"), "office": offices,
+               "from_office": offices, "to_office": offices}
+    for name in ("details", "hires", "work"):
+        frame = pd.read_csv(plan_dir / f"{name}.csv", dtype=str)
+        for column, rename in renames.items():
+            if column in frame:
+                frame[column] = frame[column].map(rename)
+        frame.to_csv(plan_dir / f"{name}.csv", index=False)
+    out = tmp_path / "replanned"
+    assert main(["replan", TINY, "--from", str(plan_dir), "--at", "2027-Q3", "-o", str(out),
+                 "--quiet"]) == EXIT_INVALID_INPUT
+    lines = capsys.readouterr().err.splitlines()
+    assert lines[0] == f"{plan_dir}: the old plan cannot be carried forward; nothing was written"
+    assert len(lines) == 1 + VIOLATIONS_SHOWN + 1 and lines[-1].startswith("  ... and ")
+    assert not out.exists()

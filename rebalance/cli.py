@@ -296,7 +296,7 @@ def _keep_frontier(out: str, folder: Path) -> None:
 def _write_analysis_plan(args: argparse.Namespace, result, instance: Instance,
                          tables: dict, instance_path: str | None, written: str,
                          more: Callable[[Path], None] | None = None,
-                         replanned_at: int | None = None) -> int:
+                         replanned_at: int | None = None, scenario: str | None = None) -> int:
     """Write a verified analysis plan to ``args.out`` with ``tables``, its reasons and the
     report; ``more`` adds to the folder first.  ``instance_path`` is recorded for
     'rebalance report'."""
@@ -309,6 +309,12 @@ def _write_analysis_plan(args: argparse.Namespace, result, instance: Instance,
         assert result.plan is not None  # write_outputs writes only a plan
         write_tables({**tables, "reasons.csv": reasons(instance, result.plan,
                                                         replanned_at).table}, folder)
+        if replanned_at is not None:
+            # Which re-plan this is, for the report and for whoever reads the folder later.
+            summary = json.loads((folder / "summary.json").read_text())
+            summary["replan"] = {"from_period": instance.period_names[replanned_at],
+                                 "scenario": scenario}
+            (folder / "summary.json").write_text(json.dumps(summary, indent=2) + "\n")
         if more is not None:
             more(folder)
         _keep_frontier(args.out, folder)
@@ -384,14 +390,17 @@ def cmd_replan(args: argparse.Namespace) -> int:
         old = read_plan(folder, complete=True)
     except PlanError as exc:
         return _unreadable_plan(folder, exc)
+    scenario_name: str | None = None
     if args.scenario:
         from rebalance.analysis.scenarios import ScenarioError, apply_scenario, read_scenario
 
         try:
-            instance = apply_scenario(instance, read_scenario(args.scenario, instance))
+            applied = read_scenario(args.scenario, instance)
+            instance = apply_scenario(instance, applied)
+            scenario_name = applied.name
         except ScenarioError as exc:
-            for problem in exc.problems:
-                _err(f"  {problem}")
+            _say_first(f"{len(exc.problems)} problem(s) in the scenario file; "
+                       "nothing was written", exc.problems)
             return EXIT_INVALID_INPUT
     if args.at not in instance.period_names:
         _err(f"--at {args.at}: not a period of the instance; expected one of "
@@ -408,8 +417,9 @@ def cmd_replan(args: argparse.Namespace) -> int:
                    exc.problems)
         return EXIT_INVALID_INPUT
     if out.old_plan_violations:
-        _err(f"note: the old plan breaks {len(out.old_plan_violations)} rule(s) of the current "
-             "data (from the re-plan period on, the new plan repairs them)")
+        _say_first(f"note: the old plan breaks {len(out.old_plan_violations)} rule(s) of the "
+                   "current data; the new plan keeps every rule from the re-plan period on:",
+                   out.old_plan_violations)
     for note in out.notes:
         _err(f"note: {note}")
     # No new plan: no table of it (it had printed as NaN and "0 change(s)" before the reason).
@@ -430,7 +440,8 @@ def cmd_replan(args: argparse.Namespace) -> int:
     return _write_analysis_plan(args, out.result, instance,
                                 {"changes.csv": out.changes, "replan.csv": out.summary},
                                 None if args.scenario else args.instance,
-                                "new plan, changes.csv and replan.csv", replanned_at=out.at)
+                                "new plan, changes.csv and replan.csv", replanned_at=out.at,
+                                scenario=scenario_name)
 
 
 def cmd_frontier(args: argparse.Namespace) -> int:

@@ -228,3 +228,15 @@ def test_numeric_office_names_and_a_broken_summary_do_not_break_the_verifier(tmp
     assert verify_folder(instance, tmp_path / "plan") == []
     (tmp_path / "plan" / "summary.json").write_text("{not json")
     assert [v.rule for v in verify_folder(instance, tmp_path / "plan")] == ["summary"]
+
+
+def test_coverage_reports_no_shortfall_from_rounding_in_its_sums(tiny_plan):
+    # coverage.csv had shown a shortfall of 4.440892098500626e-16 on a covered row.
+    instance, result = tiny_plan
+    first = instance.demand[0]
+    work = pd.DataFrame([["a1", instance.period_names[first.period], first.office, first.skill,
+                          1.0, first.fte - 1e-15]], columns=list(result.plan.work.columns))
+    coverage = coverage_table(instance, work, result.plan.hires.iloc[0:0])
+    row = coverage[(coverage.office == first.office) & (coverage.skill == first.skill)
+                   & (coverage.period == instance.period_names[first.period])].iloc[0]
+    assert 0 < first.fte - row["covered_fte"] < 1e-12 and row["shortfall_fte"] == 0.0

@@ -76,7 +76,7 @@ def parse_grid(text: str) -> tuple[tuple[float, ...], bool]:
         parts = [p.strip().rstrip("x") for p in text.split(":")]
         if len(parts) != 3:
             raise ValueError(f"'{text}': expected start:stop:step")
-        start, stop, step = (float(p) for p in parts)
+        start, stop, step = (_grid_number(text, p) for p in parts)
         if step <= 0 or stop < start:
             raise ValueError(f"'{text}': expected step > 0 and stop >= start")
         n = math.floor((stop - start) / step + 1e-9) + 1
@@ -84,16 +84,26 @@ def parse_grid(text: str) -> tuple[tuple[float, ...], bool]:
             raise ValueError(f"'{text}': {n} points; at most 200")
         values = tuple(round(start + i * step, 10) for i in range(n))
     else:
-        items = [p.strip() for p in text.split(",") if p.strip()]
-        if not items:
+        items = [p.strip() for p in text.split(",")]
+        if not any(items):
             raise ValueError("an empty grid")
+        if not all(items):  # '1,,2' had dropped the empty value silently
+            raise ValueError(f"'{text}': an empty value between commas")
         if any(p.endswith("x") for p in items) and not all(p.endswith("x") for p in items):
             raise ValueError(f"'{text}': give factors (with x) or amounts, not both")
         factor = all(p.endswith("x") for p in items)
-        values = tuple(float(p.rstrip("x")) for p in items)
+        values = tuple(_grid_number(text, p.rstrip("x")) for p in items)
     if any(v < 0 or not math.isfinite(v) for v in values):
         raise ValueError(f"'{text}': values must be finite and >= 0")
     return values, factor
+
+
+def _grid_number(text: str, item: str) -> float:
+    try:
+        return float(item)
+    except ValueError:
+        # float('') had said "could not convert string to float: ''" for a grid of 'x'.
+        raise ValueError(f"'{text}': '{item}' is not a number") from None
 
 
 def with_budgets(instance: Instance, hiring: float | None, moves: float | None,

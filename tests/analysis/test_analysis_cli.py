@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import json
+import shutil
 import subprocess
 import sys
 from pathlib import Path
@@ -53,6 +55,18 @@ def test_compare_and_replan(tmp_path: Path) -> None:
     assert list(changes.columns) == list(CHANGE_COLUMNS) and len(changes) == 0
     assert verify_folder(instance, again) == []
     assert (again / "replan.csv").exists()
+    # How the solve ended and which re-plan it is are said (a practitioner's reading: the
+    # console had no status or verification, the folder no re-plan period).
+    assert "independent verification: passed" in done.stdout
+    assert json.loads((again / "summary.json").read_text())["replan"] == {
+        "from_period": "2027-Q3", "scenario": None}
+
+    # A re-plan under a scenario names it.
+    surge = tmp_path / "replan-surge"
+    done = run("replan", str(TINY), "--from", str(out), "--at", "2027-Q3", "-o", str(surge),
+               "--gap", "0", "-q", "--scenario", str(scenario))
+    assert done.returncode == 0, done.stderr
+    assert json.loads((surge / "summary.json").read_text())["replan"]["scenario"] == "b-surge"
 
 
 def test_bad_inputs_exit_cleanly(tmp_path: Path) -> None:
@@ -86,3 +100,20 @@ def test_frontier_and_marginal(tmp_path: Path) -> None:
     assert (out / "hires.csv").exists() and (out / "summary.json").exists()
     # The plan folder was replaced whole, but the frontier already in it was kept.
     assert pd.read_csv(out / "frontier.csv").equals(frontier)
+
+
+def test_replan_lists_the_rules_the_old_plan_breaks(tmp_path: Path) -> None:
+    # A sweep: "the old plan breaks 3 rule(s)" named none of them.  With a1 leaving after
+    # 2027-Q2, the old plan's later work and detail by a1 break the leaving rule.
+    shutil.copytree(TINY, tmp_path / "tiny")
+    staff = tmp_path / "tiny" / "staff.csv"
+    staff.write_text(staff.read_text().replace("a1,A,1.0,review:1.0,true,false,",
+                                               "a1,A,1.0,review:1.0,true,false,2027-Q2"))
+    old = tmp_path / "old"
+    assert run("plan", str(TINY), "-o", str(old), "-q").returncode == 0
+    done = run("replan", str(tmp_path / "tiny"), "--from", str(old), "--at", "2027-Q3", "-o",
+               str(tmp_path / "new"), "-q")
+    assert done.returncode == 0, done.stderr
+    head = next(line for line in done.stderr.splitlines() if "the old plan breaks" in line)
+    listed = done.stderr.split(head, 1)[1].splitlines()[1:]
+    assert listed and listed[0].startswith("  ") and "a1" in listed[0]

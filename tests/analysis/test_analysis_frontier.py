@@ -30,6 +30,12 @@ def test_parse_grid() -> None:
     for bad in ("", "1,2x", "5:1:1", "0:1", "-1,2", "a,b"):
         with pytest.raises(ValueError):
             parse_grid(bad)
+    # A sweep: '1,,2' had dropped the empty value, and 'x' said "could not convert string
+    # to float: ''".
+    with pytest.raises(ValueError, match="empty value"):
+        parse_grid("1,,2")
+    with pytest.raises(ValueError, match="'' is not a number"):
+        parse_grid("x")
 
 
 def test_knee_of_a_hand_drawn_curve() -> None:

@@ -102,7 +102,9 @@ class Candidate:
 
 @dataclass(frozen=True)
 class MarginalValues:
-    table: pd.DataFrame   # MARGINAL_COLUMNS, best first (``marginal_values.csv``)
+    # MARGINAL_COLUMNS, best first (``marginal_values.csv``): re-solved limits ranked 1, 2, ...;
+    # after them the limits not re-solved (or not verified), by their estimate, rank empty.
+    table: pd.DataFrame
     candidates: tuple[Candidate, ...]
     results: tuple[PlanResult | None, ...]  # re-solve per candidate (None: not re-solved)
 
@@ -345,7 +347,13 @@ def marginal_values(base: PlanResult, options: SolveOptions, steps: Steps = Step
         by_gain,
         table[~resolved].sort_values("estimate_shortfall_reduction", ascending=False,
                                      na_position="last", kind="stable")])
-    table["rank"] = range(1, len(table) + 1)
+    # Only what a re-solve measured is ranked; the rest follow by their estimate with no rank
+    # (the demo's 4 re-solves had been followed by ranks 5 to 21, down to time-to-hire rows
+    # with no value at all).  Whole numbers and None (object dtype): the CSV shows 1, 2 and
+    # an empty cell, the console "-".
+    unmeasured = len(table) - len(by_gain)
+    table["rank"] = pd.Series([*range(1, len(by_gain) + 1), *[None] * unmeasured],
+                              index=table.index, dtype=object)
     index = list(table.index)
     return MarginalValues(table.reset_index(drop=True), tuple(chosen[i] for i in index),
                           tuple(results[i] for i in index))

@@ -8,7 +8,9 @@ than by one fixed name; a table whose columns cannot be read for a chart is stil
 
 from __future__ import annotations
 
+import html
 import math
+import re
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import Any
@@ -126,48 +128,168 @@ def _scenarios(frame: pd.DataFrame) -> dict[str, Any] | None:
             "metrics": [{"name": c, "values": _finite(frame[c].tolist())} for c in chosen]}
 
 
-def _marginal(frame: pd.DataFrame) -> dict[str, Any] | None:
+def _step_words(step: float | None, unit: str) -> str:
+    """One step of a limit with its unit: ``+10 seats``, ``+100,000 money``, ``-1 period``."""
+    if step is None:
+        return unit
+    words = unit.strip()
+    if abs(step) == 1 and words:
+        first, _, rest = words.partition(" ")
+        if first.endswith("ies"):
+            first = first[:-3] + "y"
+        elif first.endswith("s") and not first.endswith("ss"):
+            first = first[:-1]
+        words = f"{first} {rest}".strip()
+    amount = f"{int(step):+,}" if float(step).is_integer() else f"{step:+,g}"
+    return f"{amount} {words}".strip()
+
+
+@dataclass(frozen=True)
+class _MarginalColumns:
+    value: str
+    estimate: str | None
+    step: str | None
+    unit: str | None
+    status: str | None
+
+
+def _marginal_columns(frame: pd.DataFrame) -> _MarginalColumns | None:
     value = find_column(
         frame, ("shortfall_reduction", "weighted_shortfall_reduction", "delta_shortfall",
                 "shortfall_change", "value", "marginal_value"),
         ("shortfall_reduction", "reduction", "delta", "change", "per_unit", "shortfall",
          "value"), avoid=("cost", "estimate"))
+    if value is None:
+        return None
     # A fast estimate (e.g. from LP duals) beside the exact re-solve is drawn as a tick.
     estimate = find_column(frame, ("estimate_shortfall_reduction",), ("estimate",),
                            avoid=("cost",))
-    if value is None:
+    step = find_column(frame, ("step", "increment", "unit_step", "delta_limit"), ("step",),
+                       avoid=("shortfall", "cost"))
+    unit = find_column(frame, ("unit", "step_unit", "units"), numeric=False)
+    status = find_column(frame, ("status",), numeric=False)
+    return _MarginalColumns(value, estimate, step, unit, status)
+
+
+def _text(value: Any) -> str:
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return ""
+    return str(value).strip()
+
+
+# The marginal chart draws at most this many bars, the largest.
+CHART_ROWS = 25
+
+
+def _marginal(frame: pd.DataFrame) -> dict[str, Any] | None:
+    """Chart rows of the limits whose value was measured (re-solved), each labelled with its
+    limit, scope and step in its unit; the rest (estimate only, or no value) are counted for
+    the caption, not drawn as if measured."""
+    cols = _marginal_columns(frame)
+    if cols is None:
         return None
     texts = [c for c in frame.columns if not _numeric(frame, c)]
     first = find_column(frame, ("limit", "constraint", "name"), ("limit", "constraint"),
                         numeric=False)
     scope = ("where", "scope", "year", "office", "skill", "period", "location", "kind")
     keys = ([first] if first else []) + [c for c in texts if c != first and c.lower() in scope]
-    # The method (exact re-solve or dual estimate) only tells rows apart when it varies.
-    method = find_column(frame, ("method",), numeric=False)
-    if method and frame[method].nunique() > 1:
-        keys.append(method)
     if not keys and texts:
-        keys = texts[:2]
-    step = find_column(frame, ("step", "increment", "unit_step", "delta_limit"), ("step",),
-                       avoid=("shortfall", "cost"))
+        keys = [c for c in texts if c not in (cols.unit, cols.status)][:2]
+    method = find_column(frame, ("method",), numeric=False)
     rows: list[dict[str, Any]] = []
     for _, r in frame.iterrows():
-        parts = [str(r[k]).replace("_", " ") for k in keys
-                 if not (isinstance(r[k], float) and math.isnan(r[k])) and str(r[k]).strip()]
-        step_value = _finite([r[step]])[0] if step else None
-        text = " · ".join(parts) or f"row {len(rows) + 1}"
-        if step_value is not None:
-            text += f" ({step_value:+,g})"
-        v = _finite([r[value]])[0]
-        if v is not None:
-            row: dict[str, Any] = {"label": text, "value": v}
-            if estimate is not None:
-                row["estimate"] = _finite([r[estimate]])[0]
-            rows.append(row)
+        v = _finite([r[cols.value]])[0]
+        if v is None:
+            continue  # not measured: no bar (the caption counts it)
+        parts = [_text(r[k]).replace("_", " ") for k in keys if _text(r[k])]
+        name = " · ".join(parts) or f"row {len(rows) + 1}"
+        step = _finite([r[cols.step]])[0] if cols.step else None
+        unit = _text(r[cols.unit]) if cols.unit else ""
+        step_text = _step_words(step, unit) if step is not None or unit else ""
+        label = f"{name}, {step_text}" if step_text else name
+        row: dict[str, Any] = {"label": label, "value": v,
+                               "tip": label + (f"\n{_text(r[method])}" if method else "")}
+        if cols.estimate is not None:
+            row["estimate"] = _finite([r[cols.estimate]])[0]
+        rows.append(row)
+    # Two rows the same but for how they were found (a table with both) tell apart by it.
+    seen = [r["label"] for r in rows]
+    if method and len(set(seen)) < len(seen):
+        measured = frame[frame[cols.value].map(lambda x: _finite([x])[0] is not None)]
+        for row, how in zip(rows, measured[method].tolist(), strict=True):
+            row["label"] += f" · {_text(how)}"
     rows.sort(key=lambda row: -abs(row["value"]))
     if not rows:
         return None
-    return {"value_label": value, "estimate_label": estimate, "rows": rows[:25]}
+    shown = rows[:CHART_ROWS]
+    title = cols.value.replace("_", " ") + (
+        f": all {len(frame)} limits" if len(shown) == len(frame) else
+        f": the {len(shown)} of {len(frame)} limits measured by a re-solve"
+        if len(shown) == len(rows) else
+        f": the {len(shown)} largest of {len(rows)} measured by a re-solve "
+        f"({len(frame)} limits in all)")
+    return {"value_label": cols.value, "estimate_label": cols.estimate, "title": title,
+            "rows": shown}
+
+
+def _marginal_words(frame: pd.DataFrame) -> tuple[str, str]:
+    """The marginal section's lead (what a step is, from the table's own steps and units) and
+    the chart's caption (which rows it shows and why), both HTML."""
+    cols = _marginal_columns(frame)
+    limit = find_column(frame, ("limit", "constraint", "name"), ("limit", "constraint"),
+                        numeric=False)
+    steps: dict[str, list[str]] = {}
+    if cols is not None and cols.step and cols.unit:
+        for _, r in frame.iterrows():
+            step = _finite([r[cols.step]])[0]
+            if step is None:
+                continue
+            what = _step_words(step, _text(r[cols.unit]))
+            name = _text(r[limit]).replace("_", " ") if limit else ""
+            names = steps.setdefault(what, [])
+            if name and name not in names:
+                names.append(name)
+    if steps:
+        listed = "; ".join(f"{e(what)}{' (' + e(', '.join(names)) + ')' if names else ''}"
+                           for what, names in steps.items())
+        step_text = ("One step, as the <code>step</code> and <code>unit</code> columns give "
+                     f"it, is {listed}.")
+    else:
+        step_text = "One step is the amount in the table's <code>step</code> column."
+    lead = ("Each binding limit relaxed by one step and the plan solved again: what that step "
+            "removes from the weighted shortfall (and adds to cost). " + step_text
+            + " Only limits actually re-solved are ranked.")
+    if cols is None:
+        return lead, ""
+    measured = frame[cols.value].map(lambda x: _finite([x])[0] is not None)
+    n, total = int(measured.sum()), len(frame)
+    rest = frame[~measured]
+    ticks = "; ticks: the LP estimate, in brackets after the value" if cols.estimate else ""
+    largest = (f" The chart draws the {CHART_ROWS} largest; the table has every row."
+               if n > CHART_ROWS else "")
+    if not len(rest):
+        return lead, (f"All {total} limits were re-solved (bars: what the step removed{ticks})."
+                      + largest)
+    unsolved = (int((rest[cols.status].astype(str) == "not re-solved").sum())
+                if cols.status else len(rest))
+    with_estimate = (int(rest[cols.estimate].map(lambda x: _finite([x])[0] is not None).sum())
+                     if cols.estimate else 0)
+    caption = (f"The chart shows only the {n} of {total} limits measured by a re-solve "
+               f"(bars: what the step removed{ticks}).{largest} The other {len(rest)} have no "
+               "measured value")
+    if unsolved == len(rest):
+        caption += " (not re-solved: <code>--max-resolves</code> chose the best estimates)"
+    elif unsolved:
+        caption += (f" ({unsolved} not re-solved; {len(rest) - unsolved} re-solved without a "
+                    "verified plan, see status)")
+    else:
+        caption += " (re-solved without a verified plan, see status)"
+    caption += (": the table lists them after the ranked rows, without a rank, ordered by "
+                "their estimate")
+    if cols.estimate and with_estimate < len(rest):
+        caption += f" ({len(rest) - with_estimate} have no estimate either)"
+    caption += ". An estimate is a linear approximation, not a measured value."
+    return lead, caption
 
 
 def _gap_note(frame: pd.DataFrame) -> str:
@@ -192,38 +314,147 @@ def analysis_payload(data: ReportData) -> AnalysisView:
     nav: list[tuple[str, str]] = []
     specs = (
         ("frontier", data.frontier, _frontier, "Budget frontier",
-         "What more (or less) budget would buy: the least weighted shortfall found at each "
-         "budget level. The ringed point is the knee, where extra money starts to buy less.",
+         e("What more (or less) budget would buy: the least weighted shortfall found at each "
+           "budget level. The ringed point is the knee, where extra money starts to buy less."),
          "Least weighted shortfall at each budget"),
         ("scenarios", data.scenarios, _scenarios, "Scenarios side by side",
-         "Each scenario was solved as its own plan; the bars compare their headline figures.",
+         e("Each scenario was solved as its own plan; the bars compare their headline "
+           "figures."),
          "Scenario comparison"),
-        ("marginal", data.marginal_values, _marginal, "What one more unit buys",
-         "Binding limits ranked by how much weighted shortfall one more unit of the limit "
-         "would remove (another hiring slot, more budget, more seats).",
-         "Marginal value of each binding limit"),
+        ("marginal", data.marginal_values, _marginal, "What one more step of each limit buys",
+         "", "Measured value of one more step of each binding limit"),
     )
     for key, frame, reader, title, lead, chart_title in specs:
         if frame is None:
             continue
         view = reader(frame)
+        caption = ""
+        if key == "marginal":
+            lead, caption = _marginal_words(frame)
         body = ""
         if view is not None:
             payload[key] = view
             body += chart(key, chart_title)
+            if caption:
+                body += f'<p class="more analysis-note">{caption}</p>'
+
+        elif key == "marginal" and _marginal_columns(frame) is not None:
+            body += ('<p class="note">No limit was measured by a re-solve, so there is nothing '
+                     "to chart: the table lists each with its estimate only, unranked.</p>")
         else:
             body += ('<p class="note">The columns of this table were not recognised for a '
                      "chart; it is shown as written.</p>")
-        body = _gap_note(frame) + body + frame_table_html(frame, key)
-        sections.append(section(key, title, e(lead), body))
+        body = _gap_note(frame) + body + _tables(frame, key)
+        sections.append(section(key, title, lead, body))
         nav.append((key, title))
-    for name, frame in data.tables:
-        if name in SHEET_ONLY:
-            continue
+    tables = [(name, frame) for name, frame in data.tables if name not in SHEET_ONLY]
+    # The re-plan's own words go to its first section: the headline table, else the changes.
+    replan_home = next((name for name, _ in tables if name in ("replan", "changes")), None)
+    for name, frame in tables:
         title, lead = TABLE_SECTIONS[name]
-        sections.append(section(name, title, e(lead), frame_table_html(frame, name, limit=500)))
+        lead = e(lead)
+        body = ""
+        if name == replan_home:
+            lead = _replan_lead(data) + lead
+            body = _disruption_note(data)
+        elif name == "changes" and data.summary.replan is not None:
+            lead = e(f"From {data.summary.replan.from_period} on: ") + lead
+        sections.append(section(name, title, lead,
+                                body + _tables(frame, name, limit=500)))
         nav.append((name, title))
     return AnalysisView(payload, tuple(sections), tuple(nav))
+
+
+def _tables(frame: pd.DataFrame, name: str, limit: int = 200) -> str:
+    """An analysis table as the page shows it: long text wraps so the table fits the page
+    (``analysis-table`` in report.css).  A scenario comparison's cost breakdown, which made
+    that table twice the page's width, is a second table below the headline figures."""
+    split = _cost_columns(frame) if name == "scenarios" else []
+    if not split:
+        return _wrapped(frame_table_html(frame, name, limit=limit))
+    label = find_column(frame, ("scenario", "name", "label"), ("scenario", "name"),
+                        numeric=False) or str(frame.columns[0])
+    head = [c for c in frame.columns if c not in split]
+    return (_wrapped(frame_table_html(frame[head], name, limit=limit))
+            + "<h3>Cost by kind and budget year</h3>"
+            + _wrapped(frame_table_html(frame[[label, *split]], f"{name}_costs", limit=limit)))
+
+
+# Text cells longer than this may wrap between words (the table helper wraps only prose, over
+# 48 characters); shorter ones, names and periods, stay whole.
+WRAP_TEXT = 20
+_PLAIN_CELL = re.compile(r"<td>([^<]*)</td>")
+
+
+def _wrapped(table: str) -> str:
+    """A table of :func:`frame_table_html` in the analysis tables' box, its middling text cells
+    (a status in words, ``skill at office``) marked to wrap, so wide tables fit the page."""
+    def mark(cell: re.Match[str]) -> str:
+        text = cell.group(1)
+        return (f'<td class="wrap">{text}</td>' if len(html.unescape(text)) > WRAP_TEXT
+                else cell.group(0))
+
+    return f'<div class="analysis-table">{_PLAIN_CELL.sub(mark, table)}</div>'
+
+
+# Beyond this many columns a scenario comparison shows its cost breakdown separately.
+WIDE_TABLE = 12
+
+
+def _cost_columns(frame: pd.DataFrame) -> list[str]:
+    """The breakdown columns (``cost_<kind>``, ``cost_<year>``) of a wide scenario table."""
+    costs = [c for c in frame.columns if str(c).lower().startswith("cost_")]
+    return costs if len(frame.columns) > WIDE_TABLE and len(costs) >= 2 else []
+
+
+def _replan_lead(data: ReportData) -> str:
+    """Which re-plan this is (summary.json's ``replan`` key), as the lead's first words."""
+    replan = data.summary.replan
+    if replan is None:
+        return ""
+    scenario = (f"with scenario <strong>{e(replan.scenario)}</strong> applied to the data first"
+                if replan.scenario else "with no scenario applied (the instance's own data)")
+    return (f"Re-planned from <strong>{e(replan.from_period)}</strong> on, {scenario}; before "
+            f"{e(replan.from_period)} the old plan stands as it happened. ")
+
+
+def _measure(frame: pd.DataFrame, measure: str, column: str = "new_plan") -> float | None:
+    if "measure" not in frame.columns or column not in frame.columns:
+        return None
+    rows = frame.loc[frame["measure"].astype(str) == measure, column].tolist()
+    return _finite(rows[:1])[0] if rows else None
+
+
+def _disruption_note(data: ReportData) -> str:
+    """A re-plan's cost stage minimised cost plus the disruption cost of its changes, while
+    the headline total cost (and replan.csv's) is new money only: say so beside the figures,
+    with the three numbers where the tables give them."""
+    if data.summary.replan is None:
+        return ""
+    stage = next((st for st in data.summary.stages if st.name in ("cost", "weighted")), None)
+    tables = dict(data.tables)
+    replan = tables.get("replan")
+    changes = tables.get("changes")
+    total = _measure(replan, "total_cost") if replan is not None else None
+    disruption = _measure(replan, "disruption_cost") if replan is not None else None
+    if disruption is None and changes is not None and "disruption_cost" in changes.columns:
+        disruption = float(pd.to_numeric(changes["disruption_cost"], errors="coerce").sum())
+    name = stage.name if stage is not None else "cost"
+    where = ('the <a href="#run">How it was found</a> section\'s stage table (and the Plan '
+             "quality card)")
+    figures = ""
+    if disruption is not None:
+        figures = f" Disruption cost of this re-plan: {disruption:,.0f}."
+        objective = stage.objective if stage is not None else None
+        if (name == "cost" and objective is not None and total is not None
+                and abs(objective - total - disruption) <= 0.5 + 1e-9 * abs(objective)):
+            figures = (f" Here: cost stage objective {objective:,.0f} = total cost "
+                       f"{total:,.0f} + disruption cost {disruption:,.0f}.")
+    return (f'<p class="note">The {e(name)} stage\'s objective in {where} includes the '
+            "disruption cost of the changes (the sum of changes.csv's "
+            "<code>disruption_cost</code>), which the re-plan weighed to stay near the old "
+            "plan; the total cost in the headline figures and in this table is new money "
+            f"only, without it.{figures}</p>")
 
 
 # Titles and one-line explanations of the tables shown as they are (see inputs.TABLE_FILES).

@@ -21,8 +21,8 @@ from rebalance.plan import Plan, read_plan
 from rebalance.planning import CAUTION, PlanResult, summary_dict
 from rebalance.verify import Violation, verify_folder
 
-__all__ = ["ANALYSIS_FILES", "SHEET_ONLY", "TABLE_FILES", "ReportData", "RunSummary",
-           "StageSummary", "quality_notes", "report_data", "report_data_from_folder",
+__all__ = ["ANALYSIS_FILES", "SHEET_ONLY", "TABLE_FILES", "ReplanSummary", "ReportData",
+           "RunSummary", "StageSummary", "quality_notes", "report_data", "report_data_from_folder",
            "stored_instance_path"]
 
 # Analysis tables a plan folder may hold (issue 5 writes them); each section shows only if
@@ -58,6 +58,22 @@ class StageSummary:
 
 
 @dataclass(frozen=True)
+class ReplanSummary:
+    """Which re-plan a plan is (``summary.json``'s ``replan`` key, written by ``rebalance
+    replan``): the first period re-planned and the scenario applied first, if any."""
+
+    from_period: str
+    scenario: str | None = None
+
+    @classmethod
+    def from_raw(cls, value: Any) -> ReplanSummary | None:
+        if not isinstance(value, dict) or not value.get("from_period"):
+            return None
+        scenario = value.get("scenario")
+        return cls(str(value["from_period"]), str(scenario) if scenario else None)
+
+
+@dataclass(frozen=True)
 class RunSummary:
     """The parts of ``summary.json`` a report shows, typed; missing keys read as unknown."""
 
@@ -78,6 +94,7 @@ class RunSummary:
     warnings: tuple[str, ...]
     stages: tuple[StageSummary, ...]
     caution: str = CAUTION
+    replan: ReplanSummary | None = None  # None: not a re-plan
 
     @classmethod
     def from_dict(cls, raw: Mapping[str, Any]) -> RunSummary:
@@ -123,6 +140,7 @@ class RunSummary:
             warnings=texts(raw.get("warnings")),
             stages=tuple(stages),
             caution=str(raw.get("caution") or CAUTION),
+            replan=ReplanSummary.from_raw(raw.get("replan")),
         )
 
 
@@ -164,8 +182,21 @@ def report_data(result: PlanResult, plan_dir: str | Path | None = None) -> Repor
     if result.plan is None:
         raise ValueError("no plan to report")
     analysis, tables, notes = _analysis_tables(Path(plan_dir)) if plan_dir else ({}, (), [])
-    return ReportData(result.instance, result.plan, RunSummary.from_dict(summary_dict(result)),
+    summary = summary_dict(result)
+    if plan_dir:
+        # Which re-plan this is: 'rebalance replan' adds it to the folder's summary.json.
+        summary.setdefault("replan", _summary_key(Path(plan_dir), "replan"))
+    return ReportData(result.instance, result.plan, RunSummary.from_dict(summary),
                       tables=tables, notes=tuple(notes), **analysis)
+
+
+def _summary_key(folder: Path, key: str) -> Any:
+    """One key of ``folder/summary.json``, or None (no file, unreadable, no such key)."""
+    try:
+        raw = json.loads((folder / "summary.json").read_text(encoding="utf-8"))
+    except (OSError, json.JSONDecodeError):
+        return None
+    return raw.get(key) if isinstance(raw, dict) else None
 
 
 def report_data_from_folder(plan_dir: str | Path, instance: Instance,

@@ -144,7 +144,25 @@ def test_limits_not_re_solved_follow_by_their_estimate_and_claim_no_verdict(tiny
     estimates = tail["estimate_shortfall_reduction"].dropna().tolist()
     assert estimates == sorted(estimates, reverse=True)
     assert tail["verified"].isna().all()
-    assert list(table["rank"]) == list(range(1, len(table) + 1))
+
+
+def test_only_what_a_re_solve_measured_is_ranked(tiny, tmp_path) -> None:
+    # The demo's marginal_values.csv ranked all 21 limits after 4 re-solves: ranks 5 to 21
+    # went to estimates, and to time-to-hire rows with no value at all.
+    from rebalance.analysis.output import write_table
+
+    base = solve_verified(tiny)
+    table = marginal_values(base, exact_options(tiny), workers=1, max_resolves=1).table
+    measured = table["shortfall_reduction"].notna()
+    assert 1 <= measured.sum() < len(table)
+    assert measured.iloc[:measured.sum()].all()  # the measured rows come first
+    assert list(table.loc[measured, "rank"]) == list(range(1, measured.sum() + 1))
+    assert table.loc[~measured, "rank"].isna().all()
+    assert (table.loc[~measured, "status"] == "not re-solved").all()
+    # In the CSV: whole ranks, and an empty cell where there is none.
+    written = write_table(table, tmp_path / "marginal_values.csv").read_text().splitlines()
+    ranks = [line.split(",", 1)[0] for line in written[1:]]
+    assert ranks == [str(r) for r in range(1, measured.sum() + 1)] + [""] * (~measured).sum()
 
 
 def _short_at_b(tiny: Instance, b_hires: int) -> Instance:

@@ -7,6 +7,8 @@ analyses on tiny, so every figure the browser draws came from a solver run.
 
 from __future__ import annotations
 
+import json
+import re
 import subprocess
 import sys
 import tempfile
@@ -169,3 +171,131 @@ def demo_slice_folder() -> Path:
     out = Path(tempfile.mkdtemp(prefix="rebalance-report-")) / "demo-slice"
     write_outputs(result, out, extra=plan_extras())
     return out
+
+
+# Analysis tables shaped and valued as the demo's (rebalance marginal --max-resolves 4 and
+# rebalance compare with two surge scenarios, 20 s solves), for the page's layout tests: the
+# practitioner's audit read these pages at 1400 px.
+
+def demo_marginal_table() -> pd.DataFrame:
+    """marginal_values.csv of the demo: four limits re-solved, the rest estimates only."""
+    resolved = "re-solve with the limit relaxed; estimate from LP duals"
+    estimate = "estimate from LP duals; not re-solved"
+    none = ("no estimate (time to hire is not a row or bound of the LP); not re-solved")
+    rows = [
+        (1, "seats", "port-ilse-central", 52.0, 10.0, "seats", 8, 20.1175, -500.0, 49.3701,
+         "feasible_with_gap", True, 0.0331, resolved),
+        (2, "seats", "fenmarch-south", 42.0, 10.0, "seats", 7, 15.0978, 1500.0, 42.0338,
+         "feasible_with_gap", True, 0.0262, resolved),
+        (3, "seats", "fenmarch-north", 44.0, 10.0, "seats", 7, 7.8444, -29500.0, 31.1031,
+         "feasible_with_gap", True, 0.0262, resolved),
+        (4, "seats", "port-ilse-harbour", 40.0, 10.0, "seats", 5, 1.9531, -28000.0, 16.7987,
+         "feasible_with_gap", True, 0.0310, resolved),
+        (None, "seats", "aldercombe", 46.0, 10.0, "seats", 4, None, None, 14.2446,
+         "not re-solved", None, None, estimate),
+        (None, "moves_budget", "2028", 260000.0, 100000.0, "money", 1, None, None, 2.5369,
+         "not re-solved", None, None, estimate),
+        (None, "hiring_budget", "2027", 520000.0, 100000.0, "money", 1, None, None, 1.8816,
+         "not re-solved", None, None, estimate),
+        (None, "away_share", "policy", 0.15, 0.05, "share of people", 1, None, None, 0.9156,
+         "not re-solved", None, None, estimate),
+        (None, "vacancies", "technical_review at port-ilse-central", 3.0, 1.0, "vacancies", 1,
+         None, None, 0.0, "not re-solved", None, None, estimate),
+        (None, "max_hires", "port-ilse-harbour", 2.0, 1.0, "hires per period", 1, None, None,
+         0.0705, "not re-solved", None, None, estimate),
+        (None, "time_to_hire", "environmental_review", 2.0, -1.0, "periods", 2, None, None,
+         None, "not re-solved", None, None, none),
+        (None, "time_to_hire", "intake", 1.0, -1.0, "periods", 1, None, None, None,
+         "not re-solved", None, None, none),
+    ]
+    from rebalance.analysis.marginal import MARGINAL_COLUMNS
+
+    table = pd.DataFrame(rows, columns=list(MARGINAL_COLUMNS))
+    table["rank"] = table["rank"].astype("Int64")
+    return table
+
+
+def demo_scenarios_table() -> pd.DataFrame:
+    """scenarios.csv of the demo's comparison: 18 columns."""
+    columns = ["scenario", "status", "verified", "gap", "demand_fte_periods",
+               "weighted_shortfall", "shortfall_fte_periods", "total_cost", "hires",
+               "detail_periods", "reassignments", "actions_differing", "cost_detail",
+               "cost_relocation", "cost_onboarding", "cost_new_position_salary", "cost_2027",
+               "cost_2028"]
+    rows = [
+        ("base", "feasible_with_gap", True, 0.0262, 2017.33, 165.945, 159.229, 2465500.0, 24,
+         88, 0, 0, 558500.0, 0.0, 218000.0, 1689000.0, 813500.0, 1652000.0),
+        ("harbour-permit-rush", "feasible_with_gap", True, 0.0407, 2041.3, 188.298, 180.174,
+         2442000.0, 25, 90, 0, 95, 551000.0, 0.0, 219000.0, 1672000.0, 807500.0, 1634500.0),
+        ("hollin-cross-storm", "feasible_with_gap", True, 0.0243, 2030.81, 169.929, 162.304,
+         2531500.0, 24, 84, 0, 80, 551500.0, 0.0, 210000.0, 1770000.0, 961000.0, 1570500.0),
+    ]
+    return pd.DataFrame(rows, columns=columns)
+
+
+def demo_reasons_table() -> pd.DataFrame:
+    """reasons.csv rows of the demo: a hire's reason in prose, a shortfall's binding limits
+    as one long run without spaces."""
+    limits = ";".join(["hiring_budget|2027|2028-Q4", "hiring_budget|2028|2028-Q4",
+                       "moves_budget|2028|2028-Q4"]
+                      + [f"seats|port-ilse-harbour|{p}" for p in (
+                          "2027-Q4", "2028-Q1", "2028-Q2", "2028-Q3", "2028-Q4")]
+                      + ["max_hires|port-ilse-harbour|2027-Q4"])
+    columns = ["action", "subject", "office", "skill", "first_period", "last_period", "amount",
+               "reason", "binding_limits"]
+    rows = [
+        ("hire", "2 x technical_review", "port-ilse-central", "technical_review", "2027-Q3",
+         "2028-Q4", 2.0, "technical_review demand at port-ilse-central is above its staff's "
+         "output for 6 straight periods from 2027-Q3, to the end of the horizon (by 5.01 FTE "
+         "on average), so a hire (fills a funded vacancy)", None),
+        ("shortfall", "environmental_review at port-ilse-harbour", "port-ilse-harbour",
+         "environmental_review", "2028-Q4", "2028-Q4", 0.932,
+         "0.93 FTE short; held back by hiring budget 2027 (515,000 of 520,000 spent); seats at "
+         "port-ilse-harbour in 2028-Q4 (40 of 40 used)", limits),
+        ("shortfall", "safety_review at port-ilse-harbour", "port-ilse-harbour",
+         "safety_review", "2028-Q4", "2028-Q4", 0.046, "0.05 FTE short; held back by seats",
+         "seats|port-ilse-harbour|2028-Q4;max_hires|port-ilse-harbour|2027-Q4"),
+    ]
+    return pd.DataFrame(rows, columns=columns)
+
+
+def demo_scenario_actions_table() -> pd.DataFrame:
+    columns = ["scenario", "action", "person_or_office", "skill", "period", "detail", "base",
+               "scenario_value"]
+    rows = [("hollin-cross-storm", "detail", "E0003", None, "2027-Q3",
+             "port-ilse-central -> port-ilse-harbour", 1.0, 0.0),
+            ("harbour-permit-rush", "hire", "port-ilse-harbour", "environmental_review",
+             "2027-Q4", None, 0.0, 1.0)]
+    return pd.DataFrame(rows, columns=columns)
+
+
+@lru_cache(maxsize=1)
+def demo_tables_folder() -> Path:
+    """The tiny plan folder with the demo-shaped analysis tables beside it, reports rebuilt."""
+    plan = tiny_plan_folder()
+    folder = plan.parent / "with-demo-tables"
+    folder.mkdir()
+    for file in plan.iterdir():
+        (folder / file.name).write_bytes(file.read_bytes())
+    demo_marginal_table().to_csv(folder / "marginal_values.csv", index=False)
+    demo_scenarios_table().to_csv(folder / "scenarios.csv", index=False)
+    demo_reasons_table().to_csv(folder / "reasons.csv", index=False)
+    demo_scenario_actions_table().to_csv(folder / "scenario_actions.csv", index=False)
+    done = cli("report", str(folder))
+    if done.returncode != 0:
+        raise RuntimeError(done.stderr)
+    return folder
+
+
+def page_payload(page: str) -> dict:
+    """The chart data a report page carries as JSON."""
+    found = re.search(r'<script type="application/json" id="report-data">(.*?)</script>', page,
+                      re.S)
+    assert found is not None
+    return json.loads(found.group(1))
+
+
+def page_text(page: str) -> str:
+    """The page as read: tags, the style sheet and the scripts left out."""
+    page = re.sub(r"<(script|style)\b.*?</\1>", " ", page, flags=re.S)
+    return re.sub(r"\s+", " ", re.sub(r"<[^>]+>", " ", page))

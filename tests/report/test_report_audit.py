@@ -13,7 +13,7 @@ from pathlib import Path
 import pandas as pd
 import pytest
 from openpyxl import load_workbook
-from report_cases import TINY, tiny_plan_folder
+from report_cases import TINY, page_text, tiny_plan_folder
 
 from rebalance import read_instance
 from rebalance.report.html import (
@@ -31,17 +31,8 @@ def _tiny():
     return report_data_from_folder(tiny_plan_folder(), read_instance(TINY))
 
 
-def _payload(page: str) -> dict:
-    found = re.search(r'<script type="application/json" id="report-data">(.*?)</script>', page,
-                      re.S)
-    assert found is not None
-    return json.loads(found.group(1))
 
 
-def _text(page: str) -> str:
-    """The page as read: tags, the style sheet and the scripts left out."""
-    page = re.sub(r"<(script|style)\b.*?</\1>", " ", page, flags=re.S)
-    return re.sub(r"\s+", " ", re.sub(r"<[^>]+>", " ", page))
 
 
 def _summary_cells(path: Path) -> list[str]:
@@ -67,7 +58,7 @@ def test_output_beyond_demand_is_shown_per_office_with_a_total():
     table = page[page.index('data-table="spare"'):]
     table = table[:table.index("</table>")]
     assert "<tfoot>" in table and "all offices" in table.split("<tfoot>")[1]
-    assert "Capacity beyond demand" in _text(page)
+    assert "Capacity beyond demand" in page_text(page)
 
 
 def test_solver_dust_is_no_spare_capacity():
@@ -101,7 +92,7 @@ def _stopped_folder(tmp_path: Path) -> Path:
 def test_each_stage_says_what_its_gap_means_in_its_own_units(tmp_path):
     data = report_data_from_folder(_stopped_folder(tmp_path), read_instance(TINY))
     page = render_html(data)
-    glance = _text(page[page.index('id="glance"'):page.index('id="capacity"')])
+    glance = page_text(page[page.index('id="glance"'):page.index('id="capacity"')])
     # The console's words (report/console.py), per stage.
     assert "shortfall stage: optimal within the gap asked (0.53% left)" in glance
     assert ("cost stage: not proven best: a plan with the same shortfall may cost up to 64,500 "
@@ -128,7 +119,7 @@ def test_salaries_new_positions_commit_beyond_the_horizon(tmp_path):
                      * instance.periods_per_year)
     assert expected == 80_000  # one new review position, 20,000 a quarter
     assert new_position_salaries(data)["per_year"].sum() == pytest.approx(expected)
-    text = _text(render_html(data))
+    text = page_text(render_html(data))
     assert "Salaries after the horizon 80k a year, every year after 2027-Q4" in text
     assert "80,000 a year in salaries" in text
     sheet = load_workbook(write_workbook(data, tmp_path / "plan.xlsx"))["summary"]

@@ -203,3 +203,94 @@ def test_plan_tables_fit_a_narrow_window_without_sideways_scrolling(browser):
     finally:
         browser.set_window_size(1280, 900)
     assert wide == []
+
+
+def _marginal_folder(tmp_path: Path) -> Path:
+    """tiny's plan with a demo-shaped marginal_values.csv whose re-solved rows include two
+    with long scopes (a long office name, a skill at an office)."""
+    from report_cases import cli, demo_marginal_table
+
+    folder = tmp_path / "plan"
+    shutil.copytree(tiny_plan_folder(), folder)
+    table = demo_marginal_table()
+    table.loc[8, ["rank", "shortfall_reduction", "cost_change", "status", "verified", "gap"]] = [
+        5, 0.4, 8000.0, "optimal", True, 0.0]
+    table.loc[8, "where"] = ("environmental_review at port-ilse-central annex of the northern "
+                             "district")
+    table.loc[4, "where"] = "aldercombe-under-the-long-hill-regional-office-of-the-west"
+    table.loc[4, ["rank", "shortfall_reduction", "status"]] = [6, 0.3, "optimal"]
+    table.to_csv(folder / "marginal_values.csv", index=False)
+    assert cli("report", str(folder)).returncode == 0
+    return folder
+
+
+def test_marginal_labels_fit_the_card_and_ticks_carry_their_values(browser, tmp_path):
+    # The audit: labels ran past the card's left edge, and the estimate ticks had no values.
+    folder = _marginal_folder(tmp_path)
+    assert _open(browser, folder / "report.html") == []
+    browser.set_window_size(1400, 900)
+    try:
+        state = browser.execute_script("""
+            const box = document.querySelector('.chart[data-chart="marginal"]');
+            const svg = box.querySelector('svg'), edge = svg.getBoundingClientRect();
+            const card = box.closest('section').getBoundingClientRect();
+            const labels = Array.from(svg.querySelectorAll('text.bar-label'));
+            return {
+              outside: Array.from(svg.querySelectorAll('text')).filter(t => {
+                const r = t.getBoundingClientRect();
+                return r.left < Math.max(edge.left, card.left) - 1 || r.right > card.right + 1;
+              }).map(t => t.textContent),
+              labels: labels.map(t => [t.textContent, t.querySelector('title').textContent,
+                                       t.querySelectorAll('tspan').length]),
+              values: Array.from(svg.querySelectorAll('text.bar-value')).map(t => t.textContent),
+              ticks: svg.querySelectorAll('line.estimate').length,
+              bars: svg.querySelectorAll('rect[data-tip]').length };""")
+    finally:
+        browser.set_window_size(1280, 900)
+    assert state["outside"] == []
+    assert state["bars"] == 6 and state["ticks"] == 6  # the re-solved rows only
+    full = {title for _, title, _ in state["labels"]}
+    assert ("vacancies · environmental review at port-ilse-central annex of the northern "
+            "district, +1 vacancy") in full
+    # Long labels wrap onto two lines or are cut, the full text kept for hovering.
+    shown = {title: (text, lines) for text, title, lines in state["labels"]}
+    long_one = shown["seats · aldercombe-under-the-long-hill-regional-office-of-the-west, "
+                     "+10 seats"]
+    assert long_one[1] == 2 or long_one[0].endswith("\u2026")
+    assert any(lines == 2 or text != title for text, title, lines in state["labels"])
+    # Each tick's value is written beside its bar.
+    for value in ("20.12 (estimate 49.37)", "15.10 (estimate 42.03)", "7.84 (estimate 31.10)",
+                  "1.95 (estimate 16.80)", "0.40 (estimate 0)"):
+        assert value in state["values"], (value, state["values"])
+
+
+def test_wide_analysis_tables_fit_1400_pixels_and_still_sort(browser):
+    # The audit: reasons, scenarios and scenario_actions hid text behind a sideways scroll
+    # bar at 1400 px (the demo's 18 scenario columns; a shortfall's binding_limits, one run
+    # of text without spaces).
+    from report_cases import demo_reasons_table, demo_tables_folder
+
+    assert _open(browser, demo_tables_folder() / "report.html") == []
+    browser.set_window_size(1400, 900)
+    try:
+        wide = browser.execute_script("""
+            return Array.from(document.querySelectorAll('.table-wrap')).map(
+                w => [w.querySelector('table').dataset.table, w.scrollWidth, w.clientWidth]);""")
+        table = browser.find_element("css selector", 'table[data-table="reasons"]')
+        headers = table.find_elements("css selector", "thead th")
+        column = [h.text for h in headers].index("amount")
+        browser.execute_script("arguments[0].click()", headers[column])
+        amounts = [float(r.find_elements("tag name", "td")[column].get_attribute("data-v"))
+                   for r in table.find_elements("css selector", "tbody tr")]
+        cells = browser.execute_script("""
+            return Array.from(document.querySelectorAll('table[data-table="reasons"] tbody tr'))
+                .map(r => r.cells[8].textContent);""")
+    finally:
+        browser.set_window_size(1280, 900)
+    names = {name for name, _, _ in wide}
+    assert {"marginal", "scenarios", "scenarios_costs", "reasons", "scenario_actions"} <= names
+    assert [name for name, scroll, client in wide if scroll > client + 1] == []
+    assert amounts == sorted(amounts)
+    # Wrapped, not cut: every binding limit is on the page as written.
+    expected = {str(v) for v in demo_reasons_table()["binding_limits"].dropna()}
+    assert expected <= set(cells)

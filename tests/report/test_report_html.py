@@ -11,19 +11,12 @@ from pathlib import Path
 
 import pandas as pd
 import pytest
-from report_cases import TINY, tiny_analysis_folder, tiny_plan_folder
+from report_cases import TINY, page_payload, tiny_analysis_folder, tiny_plan_folder
 
 from rebalance import read_instance, read_plan
 from rebalance.planning import CAUTION
 from rebalance.report.html import render_html
 from rebalance.report.inputs import report_data_from_folder
-
-
-def _payload(page: str) -> dict:
-    found = re.search(r'<script type="application/json" id="report-data">(.*?)</script>', page,
-                      re.S)
-    assert found is not None
-    return json.loads(found.group(1))
 
 
 def _page(folder: Path) -> str:
@@ -46,7 +39,7 @@ def test_chart_data_add_up_to_the_plan_tables():
     folder = tiny_plan_folder()
     instance = read_instance(TINY)
     plan = read_plan(folder)
-    data = _payload(_page(folder))
+    data = page_payload(_page(folder))
     everywhere = data["coverage"]["series"][0]
     assert everywhere["office"] == "all offices"
     # Demand against the instance itself (the input), not the plan's copy of it.
@@ -71,7 +64,7 @@ def test_analysis_sections_appear_only_with_their_tables():
     # scenario_costs.csv is the scenarios' cost columns stacked: a sheet of plan.xlsx only.
     assert (tiny_analysis_folder() / "scenario_costs.csv").is_file()
     assert 'id="scenario_costs"' not in full
-    payload = _payload(full)
+    payload = page_payload(full)
     frontier = pd.read_csv(tiny_analysis_folder() / "frontier.csv")
     lines = payload["frontier"]["series"]
     assert len(lines) == frontier["moves_budget"].nunique() == 2
@@ -102,7 +95,7 @@ def test_analysis_tables_with_other_column_names(tmp_path):
                   "delta_shortfall": [0.2, -1.5]}).to_csv(folder / "marginal_values.csv",
                                                           index=False)
     page = render_html(report_data_from_folder(folder, read_instance(TINY)))
-    data = _payload(page)
+    data = page_payload(page)
     assert [p["knee"] for p in data["frontier"]["series"][0]["points"]] == [False, True, False]
     assert data["scenarios"]["labels"] == ["base", "surge"]
     assert [r["label"] for r in data["marginal"]["rows"]] == ["hiring · B", "seats · A"]
@@ -185,7 +178,7 @@ def test_frontier_over_both_budgets_draws_one_line_per_moves_budget(tmp_path):
                      "total_cost": hiring + moves, "hiring_spend": hiring, "moves_spend": moves,
                      "hires": 0, "detail_periods": 0, "reassignments": 0, "knee": point == 3})
     pd.DataFrame(rows).to_csv(folder / "frontier.csv", index=False)
-    data = _payload(render_html(report_data_from_folder(folder, read_instance(TINY))))
+    data = page_payload(render_html(report_data_from_folder(folder, read_instance(TINY))))
     frontier = data["frontier"]
     assert (frontier["x_label"], frontier["y_label"]) == ("hiring_budget", "weighted_shortfall")
     assert [s["label"] for s in frontier["series"]] == ["moves budget 10", "moves budget 20"]

@@ -402,27 +402,76 @@
     });
     return marks;
   }
-  function hbars(parent, labels, values, title, colour, W, ticksAt) {
-    var lw = Math.min(300, 40 + 6.5 * Math.max.apply(null, labels.map(function (l) { return l.length; })));
-    var rh = 24, H = labels.length * rh + 28, bw = W - lw - 80;
-    var g = svg(parent, W, H);
+  // A bar label that fits its room: whole if it can, else on two lines broken between
+  // words, else cut with an ellipsis; the full text is its tooltip (and <title>).
+  function fitText(g, str, room) {
+    var probe = label(g, 0, -100, str);
+    var width = function (t) {
+      probe.textContent = t;
+      var w = probe.getComputedTextLength ? probe.getComputedTextLength() : 0;
+      return w > 0 ? w : t.length * 6.2;  // not laid out: about 6.2 units a character
+    };
+    var cut = function (t) {
+      if (width(t) <= room) { return t; }
+      while (t.length > 1 && width(t + "\u2026") > room) { t = t.slice(0, -1); }
+      return t.replace(/\s+$/, "") + "\u2026";
+    };
+    var lines = [str];
+    if (width(str) > room) {
+      var words = str.split(" "), best = null;
+      for (var i = 1; i < words.length; i++) {
+        var a = words.slice(0, i).join(" "), b = words.slice(i).join(" ");
+        if (width(a) <= room) { best = [a, b]; }
+      }
+      lines = best ? [best[0], cut(best[1])] : [cut(str)];
+    }
+    g.removeChild(probe);
+    return lines;
+  }
+  function hbars(parent, labels, values, title, colour, W, ticksAt, tips) {
+    var g0 = svg(parent, W, 10);
+    var widest = 0;
+    labels.forEach(function (l) {
+      var t = label(g0, 0, -100, l);
+      widest = Math.max(widest, t.getComputedTextLength ? t.getComputedTextLength() || l.length * 6.2 : l.length * 6.2);
+      g0.removeChild(t);
+    });
+    // Labels get at most 38% of the width; longer ones wrap or are cut (full text on hover).
+    var lw = Math.min(Math.ceil(widest) + 16, Math.round(W * 0.38));
+    var room = lw - 10, rm = ticksAt ? 150 : 60, bw = W - lw - rm;
+    var lines = labels.map(function (l) { return fitText(g0, l, room); });
+    var two = lines.some(function (ls) { return ls.length > 1; });
+    var rh = two ? 32 : 24, H = labels.length * rh + 28;
+    g0.setAttribute("viewBox", "0 0 " + W + " " + H);
+    var g = g0;
     label(g, 0, 13, title, { "class": "title" });
     var max = Math.max.apply(null, values.concat(ticksAt || []).map(function (v) { return Math.abs(v || 0); })) || 1;
     var marks = 0;
     labels.forEach(function (l, i) {
-      var v = values[i], yy = 22 + i * rh;
-      label(g, lw - 8, yy + 15, l, { "text-anchor": "end" });
-      if (v === null) { label(g, lw, yy + 15, "-"); return; }
-      el("rect", { x: lw, y: yy + 4, width: Math.max(1, Math.abs(v) / max * bw), height: rh - 8, rx: 2,
-        fill: v < 0 ? C.short : colour, "data-tip": l + "\n" + title + ": " + fmt(v, 3) }, g);
-      label(g, lw + Math.abs(v) / max * bw + 6, yy + 15, Number.isInteger(v) ? tick(v) : fmt(v, 2));
+      var v = values[i], yy = 22 + i * rh, mid = yy + rh / 2, tip = (tips && tips[i]) || l;
+      var t = label(g, lw - 10, mid + 4 - (lines[i].length - 1) * 6.5, "", { "text-anchor": "end",
+        "data-tip": tip, "class": "bar-label" });
+      lines[i].forEach(function (line, k) {
+        var span = el("tspan", { x: lw - 10, dy: k ? 13 : 0 }, t);
+        span.textContent = line;
+      });
+      el("title", {}, t).textContent = l;
+      if (v === null) { label(g, lw, mid + 4, "-"); return; }
+      var end = lw + Math.abs(v) / max * bw;
+      el("rect", { x: lw, y: mid - 8, width: Math.max(1, Math.abs(v) / max * bw), height: 16, rx: 2,
+        fill: v < 0 ? C.short : colour, "data-tip": tip + "\n" + title + ": " + fmt(v, 3) +
+          (ticksAt && ticksAt[i] !== null && ticksAt[i] !== undefined ? "\nestimate: " + fmt(ticksAt[i], 3) : "") }, g);
       marks++;
-      var t = ticksAt ? ticksAt[i] : null;
-      if (t !== null && t !== undefined) {
-        var tx = lw + Math.abs(t) / max * bw;
-        el("line", { x1: tx, x2: tx, y1: yy + 1, y2: yy + rh - 1, stroke: C.ink, "stroke-width": 2.5,
-          "data-tip": l + "\nestimate: " + fmt(t, 3) }, g);
+      var words = Number.isInteger(v) ? tick(v) : fmt(v, 2);
+      var est = ticksAt ? ticksAt[i] : null;
+      if (est !== null && est !== undefined) {
+        var tx = lw + Math.abs(est) / max * bw;
+        el("line", { x1: tx, x2: tx, y1: mid - 11, y2: mid + 11, stroke: C.ink, "stroke-width": 2.5,
+          "class": "estimate", "data-v": est, "data-tip": l + "\nestimate: " + fmt(est, 3) }, g);
+        end = Math.max(end, tx);
+        words += " (estimate " + (Number.isInteger(est) ? tick(est) : fmt(est, 2)) + ")";
       }
+      label(g, end + 6, mid + 4, words, { "class": "bar-value" });
     });
     return marks;
   }
@@ -441,13 +490,13 @@
   function marginal(box, d) {
     var estimates = d.rows.map(function (r) { return r.estimate === undefined ? null : r.estimate; });
     var any = estimates.some(function (v) { return v !== null; });
-    if (any) {
-      legend(box, [{ color: C.move, text: (d.value_label || "").replace(/_/g, " ") + " (re-solve)" },
-        { color: C.ink, text: (d.estimate_label || "estimate").replace(/_/g, " "), line: true }]);
-    }
+    var measured = (d.value_label || "value").replace(/_/g, " ");
+    legend(box, [{ color: C.move, text: measured + ", measured by a re-solve (value after the bar)" }]
+      .concat(any ? [{ color: C.ink, text: (d.estimate_label || "estimate").replace(/_/g, " ") +
+        ", a linear estimate (value in brackets)", line: true }] : []));
     return hbars(box, d.rows.map(function (r) { return r.label; }),
-      d.rows.map(function (r) { return r.value; }), d.value_label.replace(/_/g, " "), C.move, 900,
-      any ? estimates : null);
+      d.rows.map(function (r) { return r.value; }), d.title || measured, C.move, 900,
+      any ? estimates : null, d.rows.map(function (r) { return r.tip || r.label; }));
   }
 
   var CHARTS = { coverage: coverage, heat: heat, flows: flows, hires: hires, budget: budget,

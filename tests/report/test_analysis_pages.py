@@ -1,0 +1,165 @@
+"""Findings of a practitioner's audit of the analysis pages (marginal values, re-plan), each
+pinned down: what a step is, which limits the chart shows and why, and which re-plan a page is,
+with the disruption cost its cost stage weighed."""
+
+from __future__ import annotations
+
+import json
+import re
+import shutil
+from pathlib import Path
+
+import pandas as pd
+from report_cases import (
+    TINY,
+    cli,
+    demo_marginal_table,
+    demo_tables_folder,
+    page_payload,
+    page_text,
+    tiny_plan_folder,
+)
+
+from rebalance import make_plan, options_from_instance, read_instance
+from rebalance.planning import CAUTION
+from rebalance.report.html import render_html
+from rebalance.report.inputs import report_data, report_data_from_folder
+
+
+def _section(page: str, anchor: str) -> str:
+    start = page.index(f'<section id="{anchor}">')
+    return page[start:page.index("</section>", start)]
+
+
+def _demo_page() -> str:
+    return (demo_tables_folder() / "report.html").read_text(encoding="utf-8")
+
+
+# 1. "What one more unit buys" over steps of +10 seats and +100,000 of money.
+
+def test_the_marginal_section_says_what_a_step_is_and_each_label_its_step():
+    page = _demo_page()
+    marginal = _section(page, "marginal")
+    assert "What one more unit buys" not in page
+    title = re.search(r"<h2>(.*?)</h2>", marginal)
+    assert title is not None and title.group(1) == "What one more step of each limit buys"
+    lead = page_text(re.search(r'<p class="lead">(.*?)</p>', marginal, re.S).group(1))
+    assert "one step" in lead.lower()
+    for step in ("+10 seats (seats)", "+100,000 money (moves budget, hiring budget)",
+                 "+0.05 share of people (away share)", "+1 vacancy (vacancies)",
+                 "+1 hire per period (max hires)", "-1 period (time to hire)"):
+        assert step in lead, step
+    labels = [r["label"] for r in page_payload(page)["marginal"]["rows"]]
+    assert labels[0] == "seats · port-ilse-central, +10 seats"
+    assert all(label.endswith(", +10 seats") for label in labels)
+
+
+# 2. The chart showed 4 of 21 rows without saying so; the rest were ranked 5 to 21.
+
+def test_the_marginal_chart_shows_measured_limits_only_and_says_so():
+    page = _demo_page()
+    table = demo_marginal_table()
+    view = page_payload(page)["marginal"]
+    measured = table[table["shortfall_reduction"].notna()]
+    assert [r["value"] for r in view["rows"]] == measured["shortfall_reduction"].tolist()
+    assert view["title"] == ("shortfall reduction: the 4 of 12 limits measured by a "
+                             "re-solve")
+    words = page_text(_section(page, "marginal"))
+    assert "The chart shows only the 4 of 12 limits measured by a re-solve" in words
+    assert "The other 8 have no measured value (not re-solved: --max-resolves" in words
+    assert "without a rank, ordered by their estimate (2 have no estimate either)" in words
+    assert "Only limits actually re-solved are ranked" in words
+    assert CAUTION in page_text(page)
+
+
+def test_with_nothing_measured_the_page_says_so_instead_of_misreading_the_table(tmp_path):
+    folder = tmp_path / "plan"
+    shutil.copytree(tiny_plan_folder(), folder)
+    table = demo_marginal_table()
+    table = table[table["shortfall_reduction"].isna()]
+    table.to_csv(folder / "marginal_values.csv", index=False)
+    page = render_html(report_data_from_folder(folder, read_instance(TINY)))
+    words = page_text(_section(page, "marginal"))
+    assert "No limit was measured by a re-solve" in words
+    assert "not recognised" not in words
+
+
+# 4. The re-plan page never named its period or scenario; the cost stage's objective held the
+#    disruption cost, the headline total cost did not, and nothing said so.
+
+def _replan_folder(tmp_path: Path, scenario: str | None) -> Path:
+    folder = tmp_path / "replan"
+    shutil.copytree(tiny_plan_folder(), folder)
+    summary = json.loads((folder / "summary.json").read_text())
+    summary["replan"] = {"from_period": "2027-Q3", "scenario": scenario}
+    summary["stages"] = [
+        {"stage": "shortfall", "status": "optimal", "objective": 171.329, "bound": 170.649,
+         "gap": 0.004, "seconds": 4.0, "solver_says": "Optimal"},
+        {"stage": "cost", "status": "optimal", "objective": 2571000.0, "bound": 2546525.59,
+         "gap": 0.0095, "seconds": 4.7, "solver_says": "Optimal"}]
+    (folder / "summary.json").write_text(json.dumps(summary))
+    pd.DataFrame({"measure": ["weighted_shortfall", "total_cost", "changes", "disruption_cost"],
+                  "old_plan": [175.037, 2465500.0, 0.0, 0.0],
+                  "new_plan": [171.296, 2513000.0, 22.0, 58000.0],
+                  "difference": [-3.741, 47500.0, 22.0, 58000.0]}).to_csv(
+        folder / "replan.csv", index=False)
+    pd.DataFrame({"change": ["added"], "kind": ["detail"], "who": ["E0003"], "skill": [None],
+                  "period": ["2027-Q4"], "old": [None], "new": ["A -> B"],
+                  "disruption_cost": [2000.0]}).to_csv(folder / "changes.csv", index=False)
+    return folder
+
+
+def test_the_re_plan_section_names_its_period_scenario_and_disruption_cost(tmp_path):
+    folder = _replan_folder(tmp_path, "hollin-cross-storm")
+    page = render_html(report_data_from_folder(folder, read_instance(TINY)))
+    words = page_text(_section(page, "replan"))
+    assert ("Re-planned from 2027-Q3 on, with scenario hollin-cross-storm applied to the data "
+            "first") in words
+    assert "includes the disruption cost of the changes" in words
+    assert "total cost in the headline figures and in this table is new money only" in words
+    assert ("cost stage objective 2,571,000 = total cost 2,513,000 + disruption cost "
+            "58,000") in words
+    assert 'href="#run"' in _section(page, "replan")  # to the stage table it explains
+    assert "From 2027-Q3 on:" in page_text(_section(page, "changes"))
+
+
+def test_a_re_plan_without_scenario_says_so_and_a_plan_is_no_re_plan(tmp_path):
+    folder = _replan_folder(tmp_path, None)
+    page = render_html(report_data_from_folder(folder, read_instance(TINY)))
+    assert ("Re-planned from 2027-Q3 on, with no scenario applied (the instance's own data)"
+            in page_text(_section(page, "replan")))
+    plain = render_html(report_data_from_folder(tiny_plan_folder(), read_instance(TINY)))
+    assert "Re-planned from" not in plain and "disruption cost" not in plain
+
+
+def test_a_fresh_report_reads_which_re_plan_from_the_folder(tmp_path):
+    # rebalance replan writes its report from the fresh result (summary_dict), which has no
+    # replan key: the folder's summary.json has it.
+    from rebalance.report.inputs import ReplanSummary
+
+    instance = read_instance(TINY)
+    result = make_plan(instance, options_from_instance(instance, time_limit_seconds=60.0))
+    (tmp_path / "summary.json").write_text(json.dumps(
+        {"replan": {"from_period": "2027-Q2", "scenario": "surge"}}))
+    assert report_data(result, tmp_path).summary.replan == ReplanSummary("2027-Q2", "surge")
+    assert report_data(result).summary.replan is None
+
+
+def test_rebalance_replan_writes_a_page_that_names_its_period(tmp_path):
+    out = tmp_path / "replan"
+    done = cli("replan", str(TINY), "--from", str(tiny_plan_folder()), "--at", "2027-Q2",
+               "-o", str(out), "-q")
+    assert done.returncode == 0, done.stderr
+    words = page_text((out / "report.html").read_text(encoding="utf-8"))
+    assert "Re-planned from 2027-Q2 on, with no scenario applied" in words
+    assert "includes the disruption cost of the changes" in words
+    assert CAUTION in words
+
+
+def test_a_step_is_written_with_its_unit_as_people_write_it():
+    from rebalance.report.analysis_view import _step_words
+
+    assert _step_words(1_000_000.0, "money") == "+1,000,000 money"  # not +1e+06
+    assert _step_words(0.05, "share of people") == "+0.05 share of people"
+    assert _step_words(-1.0, "periods") == "-1 period"
+    assert _step_words(1.0, "hires per period") == "+1 hire per period"

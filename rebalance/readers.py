@@ -41,7 +41,11 @@ __all__ = [
     "Problem",
     "RawTable",
     "TableRows",
+    "collapse_repeats",
     "count_problems",
+    "describe_range",
+    "is_finite_number",
+    "read_csv_table",
     "read_instance",
     "read_tables",
     "read_utf8",
@@ -351,7 +355,7 @@ class TableRows:
         expected: str | None = None,
     ) -> float | None:
         raw = row.get(column, "")
-        what = expected or _describe(minimum, maximum, open_minimum, integer)
+        what = expected or describe_range(minimum, maximum, open_minimum, integer)
         if raw == "":
             if required:
                 self.error(column, f"is empty; expected {what}")
@@ -394,7 +398,7 @@ class TableRows:
         return value
 
 
-def _describe(minimum: float | None, maximum: float | None, open_minimum: bool,
+def describe_range(minimum: float | None, maximum: float | None, open_minimum: bool,
               integer: bool) -> str:
     kind = "a whole number" if integer else "a number"
     if minimum is not None and maximum is not None:
@@ -448,7 +452,7 @@ def _unknown_settings(settings: Mapping[str, Any], problems: list[Problem]) -> N
                 warn(f"horizon.periods[{i}].{key}", "key", list(PERIOD_KEYS))
 
 
-def _number(value: Any) -> TypeGuard[int | float]:
+def is_finite_number(value: Any) -> TypeGuard[int | float]:
     """A finite TOML number: ``true`` is an int to Python, not a number to a planner, and
     ``inf`` is no number of hours."""
     return isinstance(value, int | float) and not isinstance(value, bool) and _finite(value)
@@ -481,7 +485,7 @@ def _settings_periods(settings: Mapping[str, Any], problems: list[Problem]) -> t
         bad("horizon.periods_per_year", f"'{periods_per_year}' is not a whole number >= 1")
         periods_per_year = 4
     default_hours = horizon.get("hours_per_fte")
-    if default_hours is not None and (not _number(default_hours) or default_hours <= 0):
+    if default_hours is not None and (not is_finite_number(default_hours) or default_hours <= 0):
         bad("horizon.hours_per_fte", f"'{default_hours}' is not a number > 0")
         default_hours = None
     periods: list[Period] = []
@@ -496,7 +500,7 @@ def _settings_periods(settings: Mapping[str, Any], problems: list[Problem]) -> t
                 bad(key, "needs name and year")
                 continue
             hours = entry.get("hours_per_fte", default_hours)
-            if not _number(hours) or hours <= 0:
+            if not is_finite_number(hours) or hours <= 0:
                 bad(key + ".hours_per_fte", "is missing or not a number > 0 (no default given)")
                 continue
             periods.append(Period(str(entry["name"]), str(entry["year"]), float(hours)))
@@ -536,10 +540,10 @@ def _settings_sections(settings: Mapping[str, Any], problems: list[Problem]) -> 
         if key not in table:
             return default
         value = table[key]
-        ok = (_whole(value) if integer else _number(value)) and value >= low
+        ok = (_whole(value) if integer else is_finite_number(value)) and value >= low
         ok = ok and (high is None or value <= high)
         if not ok:
-            what = _describe(low, high, False, integer)
+            what = describe_range(low, high, False, integer)
             shown = f"{value:g}" if isinstance(value, float) else value  # 1e+13, not 1e13's digits
             problems.append(Problem("settings.toml", None, f"{sec}.{key}",
                                     f"'{shown}' is not valid; expected {what}"))

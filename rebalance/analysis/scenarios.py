@@ -25,8 +25,7 @@ from rebalance.analysis.limits import hire_rows
 from rebalance.instance import Budget, Demand, Instance
 from rebalance.plan import Plan
 from rebalance.planning import PlanResult, make_plan
-from rebalance.readers import Problem, _describe
-from rebalance.readers import _number as _finite_number
+from rebalance.readers import Problem, describe_range, is_finite_number
 from rebalance.solve import SolveOptions
 
 __all__ = [
@@ -121,12 +120,12 @@ def _number(raw: Any, default: float, where: str, problems: list[Problem], file:
     are no numbers to plan with (nan had set the demand to 0 and inf overflowed)."""
     if raw is None:
         return default
-    what = f"expected {_describe(minimum, maximum, False, False)} (scenario '{scenario}')"
+    what = f"expected {describe_range(minimum, maximum, False, False)} (scenario '{scenario}')"
     if isinstance(raw, bool) or not isinstance(raw, int | float):
         problems.append(Problem(file, None, where, f"'{raw}' is not a number; {what}"))
         return default
     shown = f"{raw:g}" if isinstance(raw, float) else raw  # 1e+13, not 1e13's digits
-    if not _finite_number(raw):
+    if not is_finite_number(raw):
         problems.append(Problem(file, None, where, f"'{shown}' is not a finite number; {what}"))
         return default
     if raw < minimum or (maximum is not None and raw > maximum):

@@ -13,8 +13,14 @@ from rebalance.planning import CAUTION, PlanResult
 from rebalance.solve import StageResult, Status
 from rebalance.verify import Violation
 
-__all__ = ["format_check", "format_frame", "format_outcome", "format_summary",
-           "format_violations"]
+__all__ = [
+    "format_check",
+    "format_frame",
+    "format_outcome",
+    "format_summary",
+    "format_violations",
+    "room_left",
+]
 
 STATUS_WORDS = {
     Status.OPTIMAL: "optimal (proven within the relative gap)",
@@ -141,7 +147,7 @@ def _outcome_lines(result: PlanResult) -> list[str]:
             status += f" within the gap asked ({stage.gap:.2%} left)"
         lines.append(f"  stage {stage.name}: {status}, objective {objective}, "
                      f"bound {bound}, {stage.seconds:.2f}s ({stage.solver_words})")
-        room = _room_left(stage)
+        room = room_left(stage)
         if room:
             lines.append(f"    not proven: {room}")
     if s.conflicts:
@@ -157,7 +163,7 @@ ROOM_WORDS = {
 }
 
 
-def _room_left(stage: StageResult) -> str | None:
+def room_left(stage: StageResult) -> str | None:
     """What a stage stopped early leaves open, in the stage's own units."""
     if (stage.status is not Status.FEASIBLE_WITH_GAP or stage.gap is None
             or stage.objective is None or stage.bound is None

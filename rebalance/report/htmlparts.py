@@ -11,7 +11,7 @@ from typing import Any, Protocol
 
 import pandas as pd
 
-from rebalance.report.console import _room_left
+from rebalance.report.console import room_left
 from rebalance.solve import StageResult, Status
 
 __all__ = ["PLAIN_STATUS", "card", "chart", "compact_money", "e", "frame_table_html",
@@ -87,7 +87,7 @@ class _Stage(Protocol):
 
 def stage_words(stage: _Stage) -> str:
     """What one solve stage's outcome and gap mean, in the stage's own units, worded as the
-    console words them (:func:`rebalance.report.console._room_left`)."""
+    console words them (:func:`rebalance.report.console.room_left`)."""
     try:
         status = Status(stage.status)
     except ValueError:
@@ -97,7 +97,7 @@ def stage_words(stage: _Stage) -> str:
         return "optimal" + (f" within the gap asked ({stage.gap:.2%} left)" if stage.gap
                             else "")
     if status is Status.FEASIBLE_WITH_GAP:
-        room = _room_left(StageResult(stage.name, status, stage.objective, stage.bound,
+        room = room_left(StageResult(stage.name, status, stage.objective, stage.bound,
                                       stage.gap, stage.seconds or 0.0, stage.solver_says))
         if room is None:
             room = "gap unknown" if stage.gap is None else f"gap {stage.gap:.2%}"

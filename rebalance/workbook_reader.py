@@ -20,6 +20,8 @@ from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
+from openpyxl.worksheet.formula import ArrayFormula, DataTableFormula
+
 from rebalance.instance import Instance
 from rebalance.readers import (
     COLUMNS,
@@ -140,6 +142,14 @@ def _load_sheets(path: Path) -> tuple[dict[str, _Sheet], list[Problem]]:
                                         "(names are read trimmed and in lower case); expected "
                                         "one sheet per table"))
                 continue
+            # Read-only mode trusts the used range a file states; a file whose stated range is
+            # too small had lost rows and columns silently (openpyxl's documentation warns of
+            # it, and spreadsheet programs read every cell).
+            ws.reset_dimensions()
+            ws_text.reset_dimensions()
+            if ws.sheet_state != "visible":
+                problems.append(Problem(ws.title, None, None, "the sheet is hidden; read all "
+                                        "the same, as every sheet is", is_warning=True))
             values = [tuple(r) for r in ws.iter_rows(values_only=True)]
             header = [_text(c) for c in values[0]] if values else []
             while header and header[-1] == "":
@@ -170,7 +180,10 @@ def _sheet(header: list[str], values: list[tuple[Any, ...]],
     unsaved = []
     for number, (cells, row_texts) in enumerate(zip(values, texts, strict=False), 1):
         for i, (value, text) in enumerate(zip(cells, row_texts, strict=False)):
-            if value is None and isinstance(text, str) and text.startswith("="):
+            # An array formula's text comes as an object of its own, not as "=..." (one with
+            # no saved value had read as a blank cell).
+            if value is None and ((isinstance(text, str) and text.startswith("="))
+                                  or isinstance(text, ArrayFormula | DataTableFormula)):
                 column = header[i] if i < len(header) and header[i] else f"column {i + 1}"
                 unsaved.append((number, column))
     return _Sheet(tuple(header), tuple(rows), tuple(values[1:]), tuple(overlong),

@@ -249,3 +249,57 @@ def test_cli_check_and_plan_accept_a_workbook(tmp_path):
     assert "tiny.xlsx[staff]:3: fte:" in failed.stderr
     assert "Traceback" not in failed.stderr
     assert not bad_out.exists()
+
+
+def _with_sheet_xml(book: Path, sheet: str, edit) -> Path:
+    """``book`` rewritten with one sheet's XML changed by ``edit`` (as another program may
+    write it)."""
+    import re
+    import zipfile
+
+    wb = load_workbook(book)
+    part = f"xl/worksheets/sheet{wb.sheetnames.index(sheet) + 1}.xml"
+    out = book.with_name(f"edited-{book.name}")
+    with zipfile.ZipFile(book) as zin, zipfile.ZipFile(out, "w", zipfile.ZIP_DEFLATED) as zout:
+        for item in zin.infolist():
+            data = zin.read(item.filename)
+            if item.filename == part:
+                data = edit(data.decode(), re).encode()
+            zout.writestr(item, data)
+    return out
+
+
+def test_a_used_range_stated_too_small_loses_no_rows_or_columns(tmp_path):
+    # A sweep: a file whose <dimension> tag says A1:E5 read as 4 demand rows of 9, and one
+    # saying A1:D10 lost the priority column (2 read as 1); spreadsheet programs read every
+    # cell, and openpyxl's documentation warns that read-only mode trusts the tag.
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    for ref in ("A1:E5", "A1:D10"):
+        edited = _with_sheet_xml(book, "demand", lambda xml, re, ref=ref: re.sub(
+            r'<dimension ref="[^"]*"', f'<dimension ref="{ref}"', xml))
+        assert _same(read_instance(TINY), read_workbook(edited)), ref
+
+
+def test_an_array_formula_without_its_value_is_an_error_not_a_blank(tmp_path):
+    # A blank seats cell means "no seat limit": an array formula the file holds no value for
+    # had read as that.
+    from openpyxl.worksheet.formula import ArrayFormula
+
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    ws = wb["offices"]
+    seats = [c.value for c in ws[1]].index("seats") + 1
+    ws.cell(2, seats).value = ArrayFormula(ws.cell(2, seats).coordinate, "=SUM({5,5})")
+    wb.save(book)  # openpyxl writes formulas without values
+    with pytest.raises(InstanceError, match=r"\[offices\]:2: seats: a formula whose value"):
+        read_workbook(book)
+
+
+def test_a_hidden_sheet_is_read_with_a_warning(tmp_path):
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    wb["skills"].sheet_state = "hidden"
+    wb.save(book)
+    instance = read_workbook(book)
+    assert _same(read_instance(TINY), instance)
+    assert any("[skills]" in w and "hidden" in w for w in instance.warnings)

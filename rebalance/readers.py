@@ -638,7 +638,7 @@ def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, 
     move_costs = _read_move_costs(tables.get("move_costs"), problems, locations)
     vacancies = _read_vacancies(tables.get("vacancies"), problems, known_offices, known_skills)
     attrition = _read_attrition(tables.get("attrition"), problems, known_offices, known_skills)
-    budgets = _read_budgets(table("budget"), problems, periods)
+    budgets = _read_budgets(table("budget"), problems, periods, given="budget" in tables)
 
     # Warnings that do not stop a solve (only worth saying once the tables themselves are sound).
     if any(not p.is_warning for p in problems):
@@ -920,7 +920,9 @@ def _read_attrition(table: RawTable | None, problems: list[Problem],
 
 
 def _read_budgets(table: RawTable, problems: list[Problem],
-                  periods: tuple[Period, ...]) -> list[Budget]:
+                  periods: tuple[Period, ...], given: bool = True) -> list[Budget]:
+    """The budget rows; ``given`` is False where the table itself is missing (reported
+    already), so its years are not reported again, one by one, as having no row."""
     rows, out = TableRows(table, problems), []
     seen: dict[str, int] = {}
     years = {p.year for p in periods}
@@ -940,7 +942,7 @@ def _read_budgets(table: RawTable, problems: list[Problem],
     # A year that could not be read may be the one "missing": say nothing of missing years then.
     unreadable = any(p.file == table.label and p.column == "year" and not p.is_warning
                      for p in problems)
-    if rows.columns_ok and not unreadable:
+    if rows.columns_ok and not unreadable and given:
         for year in sorted(years - listed):
             problems.append(Problem(table.label, None, "year",
                                     f"budget year '{year}' has no row; hiring and moves are "

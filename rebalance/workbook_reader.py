@@ -160,11 +160,37 @@ def _load_sheets(path: Path) -> tuple[dict[str, _Sheet], list[Problem]]:
                                         "column names in row 1, the data below them"))
                 out[key] = _Sheet((), (), tuple(values[1:]))
                 continue
+            below = _header_below(key, header, values)
+            if below is not None:
+                # A title above the table: its one cell had read as the only column, and every
+                # row as too long (9 problems on a sheet of 5 people).
+                problems.append(Problem(ws.title, below, None, f"the column names are in row "
+                                        f"{below}; expected them in row 1, with nothing above "
+                                        "them (delete the rows above)"))
+                out[key] = _Sheet((), (), ())
+                continue
             out[key] = _sheet(header, values, ws_text.iter_rows(values_only=True))
         return out, problems
     finally:
         wb.close()
         formulas.close()
+
+
+# Column names of the sheets that are not instance tables.
+SHEET_COLUMNS = {SETTINGS_SHEET: ("key", "value"), PERIODS_SHEET: ("name", "year")}
+
+
+def _header_below(key: str, header: list[str], values: list[tuple[Any, ...]]) -> int | None:
+    """The row (1-based, within the first ten) that holds sheet ``key``'s column names when
+    row 1 holds none of them, or None."""
+    known = set(SHEET_COLUMNS.get(key, ())) | (set(COLUMNS[key][0]) | set(COLUMNS[key][1])
+                                               if key in COLUMNS else set())
+    if not known or known & set(header):
+        return None
+    for number, cells in enumerate(values[1:10], 2):
+        if known & {_text(c) for c in cells}:
+            return number
+    return None
 
 
 def _sheet(header: list[str], values: list[tuple[Any, ...]],

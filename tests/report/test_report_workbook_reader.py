@@ -303,3 +303,30 @@ def test_a_hidden_sheet_is_read_with_a_warning(tmp_path):
     instance = read_workbook(book)
     assert _same(read_instance(TINY), instance)
     assert any("[skills]" in w and "hidden" in w for w in instance.warnings)
+
+
+def test_a_title_above_the_column_names_is_said_first(tmp_path):
+    # A sweep: a title in A1 over the staff table read as the only column, every row as too
+    # long (9 problems), with no word of where the column names were.
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    wb["staff"].insert_rows(1)
+    wb["staff"]["A1"] = "Staff list (as of 2026-12)"
+    wb.save(book)
+    with pytest.raises(InstanceError) as caught:
+        read_workbook(book)
+    text = [str(p) for p in caught.value.problems]
+    assert text[0] == ("tiny.xlsx[staff]:2: the column names are in row 2; expected them in "
+                       "row 1, with nothing above them (delete the rows above)")
+    assert not any("more cells than the header" in t for t in text)
+
+
+def test_a_missing_budget_sheet_is_one_problem(tmp_path):
+    # It had also warned, year by year, that each budget year had no row.
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    del wb["budget"]
+    wb.save(book)
+    with pytest.raises(InstanceError) as caught:
+        read_workbook(book)
+    assert [str(p) for p in caught.value.problems] == ["tiny.xlsx[budget]: sheet is missing"]

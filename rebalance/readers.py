@@ -507,8 +507,19 @@ def _settings_periods(settings: Mapping[str, Any], problems: list[Problem]) -> t
     else:
         start, count = horizon.get("start"), horizon.get("count")
         match = re.fullmatch(r"(\d{4})-Q([1-4])", str(start)) if start is not None else None
-        if match is None or not _whole(count) or count < 1:
+        if start is None and count is None:
             bad("horizon", "give either periods = [...] or start = \"YYYY-Qn\" with count = N")
+            return (), periods_per_year
+        # Each key said on its own, so a workbook can point at its row (a date typed in the
+        # start cell had read as "give either periods or start", with no row).
+        if match is None:
+            bad("horizon.start", "is missing" if start is None else
+                f"'{start}' is not a quarter; expected text such as \"2027-Q1\" (a spreadsheet "
+                "reads 2027-01-01 typed in a cell as a date)")
+        if not _whole(count) or count < 1:
+            bad("horizon.count", "is missing" if count is None else
+                f"'{count}' is not valid; expected a whole number >= 1")
+        if match is None or not _whole(count) or count < 1:
             return (), periods_per_year
         if default_hours is None:
             if "hours_per_fte" not in horizon:  # a bad value is said above, once

@@ -330,3 +330,21 @@ def test_a_missing_budget_sheet_is_one_problem(tmp_path):
     with pytest.raises(InstanceError) as caught:
         read_workbook(book)
     assert [str(p) for p in caught.value.problems] == ["tiny.xlsx[budget]: sheet is missing"]
+
+
+def test_a_date_in_the_horizon_start_cell_points_at_its_row(tmp_path):
+    # A sweep: a date typed as the start quarter read as "give either periods or start",
+    # with no row to look at.
+    import datetime
+
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    row = _settings_row(wb["settings"], "horizon.start")
+    wb["settings"].cell(row, 2).value = datetime.datetime(2027, 1, 1)
+    wb.save(book)
+    with pytest.raises(InstanceError) as caught:
+        read_workbook(book)
+    text = [str(p) for p in caught.value.problems]
+    assert len(text) == 1 and text[0].startswith(f"tiny.xlsx[settings]:{row}: value: "
+                                                 "horizon.start: '2027-01-01T00:00:00' is not "
+                                                 "a quarter")

@@ -79,9 +79,10 @@ def read_workbook(path: str | Path) -> Instance:
         for row, column in read.unsaved_formulas:
             # Blank would mean "no limit" in several columns: never read it as that.
             problems.append(Problem(label(name), row, column, "a formula whose value the file "
-                                    "does not hold (the workbook was written by a program "
-                                    "that does not calculate); open and save it in a "
-                                    "spreadsheet program, or type the value"))
+                                    "does not hold, or whose value is empty text; expected a "
+                                    "value: type it, or, if a program that does not calculate "
+                                    "wrote the workbook, open and save it in a spreadsheet "
+                                    "program"))
     tables: dict[str, RawTable] = {}
     for name in REQUIRED_TABLES + OPTIONAL_TABLES:
         sheet = sheets.get(name)

@@ -23,7 +23,7 @@ from rebalance.demand.history import (
     HistoryError,
     month_name,
     period_name,
-    read_history,
+    read_history_partly,
 )
 from rebalance.demand.quality import QualityResult, check_quality
 from rebalance.demand.standards import EffortStandards, estimate_standards, forecast_noncase
@@ -64,6 +64,27 @@ class DemandResult:
 def _instance_context(folder: Path, problems: list[Problem]) -> tuple[
         tuple[Period, ...], set[str] | None, set[str] | None]:
     """Periods, office names and skill names of the instance (None: that file is unusable)."""
+    if not folder.is_dir():
+        # demand.csv is written into a folder; the instance readers' "expected an instance
+        # folder or an .xlsx workbook" had contradicted itself for x.xlsx.
+        if folder.exists():
+            what = ("is a workbook, not a folder" if folder.suffix.lower() == ".xlsx"
+                    else "is a file, not a folder")
+        else:
+            what = "instance folder not found"
+        problems.append(Problem(str(folder), None, None,
+                                f"{what}; expected the instance folder that demand.csv is "
+                                "written into (a workbook instance cannot take it)"))
+        return (), None, None
+    if not any((folder / name).exists() for name in ("settings.toml", "offices.csv",
+                                                       "skills.csv")):
+        # Said once, naming the folder: three "file is missing" lines had not said where, and
+        # a folder named dir.xlsx is no workbook either.
+        problems.append(Problem(str(folder), None, None,
+                                "is a folder with no instance in it (no settings.toml, "
+                                "offices.csv or skills.csv); expected the instance folder "
+                                "that demand.csv is written into"))
+        return (), None, None
     settings, tables, found = read_tables(folder)
     # demand.csv is what we are about to write; only these files matter here.
     problems.extend(p for p in found if p.file in ("settings.toml", "offices.csv", "skills.csv")
@@ -219,19 +240,31 @@ def run_demand(history_dir: str | Path, instance_dir: str | Path) -> DemandResul
     """Read and check everything, then build; raise :class:`HistoryError` with all problems."""
     problems: list[Problem] = []
     periods, offices, skills = _instance_context(Path(instance_dir), problems)
-    history = None
-    try:
-        history = read_history(history_dir, offices, skills)
-    except HistoryError as exc:
-        problems.extend(exc.problems)
+    # The horizon checks run on the rows that read even when others did not: one bad cell
+    # had hidden "runs into the horizon" and "59 months" until the next run.
+    history, found = read_history_partly(history_dir, offices, skills)
+    problems.extend(found)
     quarters = bool(periods) and all(QUARTER.match(p.name) for p in periods)
-    if history is not None and quarters:
+    if history is not None and quarters and not history.arrivals.empty:
         _check_horizon(history, periods, problems)
     errors = [p for p in problems if not p.is_warning]
     if errors or history is None:
         raise HistoryError(collapse_repeats(errors) + [p for p in problems if p.is_warning])
     warnings = [p for p in problems if p.is_warning] + _unused_work(history, periods)
-    return replace(build_demand(history, periods), warnings=tuple(warnings))
+    result = build_demand(history, periods)
+    # An office that borrows the pooled hours a case (no usable records of its own): said
+    # with the other warnings, not as a Python warning.
+    warnings += [Problem("time_records.csv", None, None, note, is_warning=True)
+                 for note in result.standards.notes]
+    if result.demand.empty:
+        # An empty demand.csv is no instance (its reader wants a row) and had replaced the
+        # previous one without a word (standards.shrinkage_cases = inf).
+        raise HistoryError([Problem("demand.csv", None, None,
+                                    "the forecast gives no office and skill any hours, so "
+                                    "there is no demand to write; expected history with "
+                                    "cases and hours booked to them (demand.csv is left as "
+                                    "it was)"), *warnings])
+    return replace(result, warnings=tuple(warnings))
 
 
 # Months past the newest arrivals a forecast reaches before a warning: a seasonal method's
@@ -281,6 +314,10 @@ def _unused_work(history: History, periods: tuple[Period, ...]) -> list[Problem]
 def _check_horizon(history: History, periods: tuple[Period, ...],
                    problems: list[Problem]) -> None:
     cfg = history.settings.forecast
+    # A setting out of range is said by the settings reader (a length from its default would
+    # only confuse), and a row of arrivals that did not read leaves its series a month short.
+    lengths_known = not any(p.file in ("demand.toml", "case_arrivals.csv") and not p.is_warning
+                            for p in problems)
     first_plan = min(_quarter_months(p.name)[0] for p in periods)
     last = history.last_month
     if last >= first_plan:
@@ -288,7 +325,13 @@ def _check_horizon(history: History, periods: tuple[Period, ...],
                                 f"history runs to {month_name(last)}, into the plan horizon "
                                 f"(starts {month_name(first_plan)}); expected history to end "
                                 "before the first period"))
-    need = cfg.min_training_months + 2 * cfg.holdout_months
+    if not history.records.empty and int(history.records["month"].max()) >= first_plan:
+        newest = int(history.records["month"].max())
+        problems.append(Problem("time_records.csv", None, "period",
+                                f"records run to {month_name(newest)}, into the plan horizon "
+                                f"(starts {month_name(first_plan)}); expected records to end "
+                                "before the first period"))
+    need = cfg.min_training_months + 2 * cfg.holdout_months if lengths_known else 0
     for key, group in history.arrivals.groupby(["office", "case_type"]):
         office, case_type = str(key[0]), str(key[1])
         if len(group) < need:

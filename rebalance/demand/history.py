@@ -25,6 +25,8 @@ from rebalance.readers import (
     Problem,
     RawTable,
     TableRows,
+    describe_range,
+    is_finite_number,
     read_csv_table,
     read_utf8,
     table_problems,
@@ -38,6 +40,7 @@ __all__ = [
     "month_name",
     "period_name",
     "read_history",
+    "read_history_partly",
     "reporting_period",
 ]
 
@@ -228,10 +231,26 @@ def read_history(folder: str | Path, offices: set[str] | None, skills: set[str] 
 
     Raises :class:`HistoryError` listing every problem found.
     """
+    history, problems = read_history_partly(folder, offices, skills)
+    errors = [p for p in problems if not p.is_warning]
+    if errors or history is None:
+        raise HistoryError(errors + [p for p in problems if p.is_warning])
+    return history
+
+
+def read_history_partly(folder: str | Path, offices: set[str] | None, skills: set[str] | None
+                        ) -> tuple[History | None, list[Problem]]:
+    """The history from the rows that read, and every problem found (None: no folder).
+
+    Checks that span the history and the instance (``build._check_horizon``) run on it even
+    when some rows failed, so one bad cell does not hide their findings until the next run.
+    """
     path = Path(folder)
     problems: list[Problem] = []
     if not path.is_dir():
-        raise HistoryError([Problem(str(path), None, None, "history folder not found")])
+        what = "is a file; expected a history folder" if path.exists() else (
+            "history folder not found")
+        return None, [Problem(str(path), None, None, what)]
     tables: dict[str, RawTable] = {}
     for stem, (required, _, needed) in TABLES.items():
         file = path / f"{stem}.csv"
@@ -251,15 +270,85 @@ def read_history(folder: str | Path, offices: set[str] | None, skills: set[str] 
     records = _read_records(tables["time_records"], problems, offices, skills, kinds)
     expected = _read_expected(tables["expected_hours"], problems, kinds)
     adjustments = _read_adjustments(tables.get("adjustments"), problems, offices, case_types)
-    errors = [p for p in problems if not p.is_warning]
-    if errors:
-        raise HistoryError(errors + [p for p in problems if p.is_warning])
     return History(arrivals, records, expected, activities, adjustments, settings,
-                   kinds.get("kind", "month"))
+                   kinds.get("kind", "month")), problems
+
+
+# The range of each demand.toml number: (low, high, low excluded, high excluded, whole
+# number).  Counts start at 1; shares and interval levels are fractions; hours and case counts
+# stop at magnitudes no office reaches, as the instance readers bound theirs (a 1e300 had
+# passed and written 300-digit hours).
+Range = tuple[float, float | None, bool, bool, bool]
+INTERVAL: Range = (0.0, 1.0, True, True, False)
+SHARE: Range = (0.0, 1.0, False, False, False)
+SEED: Range = (0, 2**32 - 1, False, False, True)
+SETTING_RANGES: dict[str, dict[str, Range]] = {
+    "quality": {
+        "completeness_tolerance": SHARE,
+        "max_record_hours": (0.0, 8784.0, True, False, False),   # hours in a (leap) year
+        "anomaly_threshold": (0.0, 1e6, True, False, False),
+        "anomaly_min_hours": (0.0, 8784.0, False, False, False),
+        "anomaly_window": (1, 1000, False, False, True),
+        "anomaly_min_reference": (1, 1000, False, False, True),
+        "anomaly_floor_share": SHARE,
+        "compliance_target": SHARE,
+    },
+    "standards": {
+        "shrinkage_cases": (0.0, 1e6, False, False, False),
+        "bootstrap_samples": (1, 100_000, False, False, True),
+        "interval_level": INTERVAL,
+        "seed": SEED,
+    },
+    "forecast": {
+        "holdout_months": (1, 120, False, False, True),
+        "selection_origins": (1, 100, False, False, True),
+        "origin_step_months": (1, 120, False, False, True),
+        # The baseline, a three-year average, forecasts from 36 months and no fewer.
+        "min_training_months": (36, 600, False, False, True),
+        "interval_level": INTERVAL,
+        "seed": SEED,
+    },
+}
+MAX_PRIORITY = 1e6
+# Case counts a month and hours of one record or timesheet beyond any office's: 1e300 had
+# passed, written 300-digit hours or rows of 0.00 hours and numpy overflow warnings.
+MAX_COUNT = 1e9
+MAX_HOURS = 1e6
+MAX_FACTOR = 1e3
+
+
+def _describe(spec: Range) -> str:
+    low, high, open_low, open_high, whole = spec
+    if open_high:
+        kind = "a whole number" if whole else "a number"
+        return (f"{kind} in {'(' if open_low else '['}{low:g}, {high:g}"
+                f"{')' if open_high else ']'}")
+    return describe_range(low, high, open_low, whole)
+
+
+def _in_range(value: Any, spec: Range) -> bool:
+    low, high, open_low, open_high, whole = spec
+    if not is_finite_number(value) or (whole and not isinstance(value, int)):
+        return False
+    if value < low or (open_low and value == low):
+        return False
+    return high is None or value < high or (value == high and not open_high)
+
+
+def _shown(value: Any) -> str:
+    """A TOML value as the user wrote it (1e300, not its digits; nan; true)."""
+    if isinstance(value, bool):
+        return str(value).lower()
+    if isinstance(value, float):
+        return f"{value:g}"
+    if isinstance(value, int | str):
+        return str(value)
+    return f"a {type(value).__name__}"
 
 
 def _read_settings(file: Path, skills: set[str] | None, problems: list[Problem]
                    ) -> DemandSettings:
+    """Every key range-checked, every problem said: ``demand.toml: key: what; expected``."""
     if not file.is_file():
         return DemandSettings()
     try:
@@ -270,36 +359,51 @@ def _read_settings(file: Path, skills: set[str] | None, problems: list[Problem]
     except NotUtf8 as exc:
         problems.append(Problem("demand.toml", exc.row, None, str(exc)))
         return DemandSettings()
+
+    def bad(key: str, message: str) -> None:
+        problems.append(Problem("demand.toml", None, key, message))
+
+    known = ["priority", *SETTING_RANGES]
+    tables: dict[str, dict[str, Any]] = {}
+    for name, value in raw.items():
+        if name not in known:
+            # A misspelt [forcast] had been ignored, its settings silently left at defaults.
+            bad(name, "unknown section; expected one of: " + ", ".join(known))
+        elif not isinstance(value, dict):
+            bad(name, f"'{_shown(value)}' is not a section; expected [{name}] with its keys")
+        else:
+            tables[name] = value
     priority: dict[str, float] = {}
-    for skill, value in raw.get("priority", {}).items():
+    for skill, value in tables.get("priority", {}).items():
         if skills is not None and skill not in skills:
-            problems.append(Problem("demand.toml", None, f"priority.{skill}",
-                                    f"unknown skill '{skill}'; expected one in skills.csv"))
-        elif not isinstance(value, int | float) or isinstance(value, bool) or value < 0:
-            problems.append(Problem("demand.toml", None, f"priority.{skill}",
-                                    f"'{value}' is not a number >= 0"))
+            bad(f"priority.{skill}", f"unknown skill '{skill}'; expected one in skills.csv")
+        elif not _in_range(value, (0.0, MAX_PRIORITY, False, False, False)):
+            bad(f"priority.{skill}", f"'{_shown(value)}' is out of range; expected "
+                f"{describe_range(0.0, MAX_PRIORITY, False, False)}")
         else:
             priority[skill] = float(value)
 
     def section(name: str, default: Any) -> Any:
-        values = raw.get(name, {})
+        ranges = SETTING_RANGES[name]
         kwargs: dict[str, Any] = {}
-        for key, value in values.items():
-            if not hasattr(default, key):
-                problems.append(Problem("demand.toml", None, f"{name}.{key}", "unknown key"))
+        for key, value in tables.get(name, {}).items():
+            if key not in ranges:
+                bad(f"{name}.{key}", "unknown key; expected one of: " + ", ".join(ranges))
                 continue
-            wanted = type(getattr(default, key))
-            ok = isinstance(value, int) if wanted is int else isinstance(value, int | float)
-            if not ok or isinstance(value, bool) or value < 0:
-                problems.append(Problem("demand.toml", None, f"{name}.{key}",
-                                        f"'{value}' is not {'a whole' if wanted is int else 'a'}"
-                                        " number >= 0"))
+            if not _in_range(value, ranges[key]):
+                bad(f"{name}.{key}",
+                    f"'{_shown(value)}' is out of range; expected {_describe(ranges[key])}")
                 continue
-            kwargs[key] = wanted(value)
+            kwargs[key] = type(getattr(default, key))(value)
         return type(default)(**kwargs)
 
-    return DemandSettings(priority, section("quality", QualitySettings()),
-                          section("standards", StandardSettings()),
+    quality = section("quality", QualitySettings())
+    if quality.anomaly_min_reference > quality.anomaly_window:
+        bad("quality.anomaly_min_reference",
+            f"{quality.anomaly_min_reference} is more than anomaly_window "
+            f"({quality.anomaly_window}), so no record would be scored; expected at most "
+            f"{quality.anomaly_window}")
+    return DemandSettings(priority, quality, section("standards", StandardSettings()),
                           section("forecast", ForecastSettings()))
 
 
@@ -337,7 +441,7 @@ def _read_arrivals(table: RawTable, problems: list[Problem], offices: set[str] |
         else:
             case_type = cells.choice(row, "case_type", case_types,
                                      "an activity of kind 'case' in activities.csv")
-        count = cells.number(row, "count", integer=True)
+        count = cells.number(row, "count", integer=True, maximum=MAX_COUNT)
         if month is None or office is None or case_type is None or count is None:
             if month is not None and office is not None and case_type is not None:
                 rejected.add((office, case_type, month))
@@ -382,8 +486,9 @@ def _read_records(table: RawTable, problems: list[Problem], offices: set[str] | 
         office = cells.choice(row, "office", offices, "one listed in the instance's offices.csv")
         skill = cells.choice(row, "skill", skills, "one listed in the instance's skills.csv")
         activity = cells.text(row, "activity")
-        # Any number is accepted here: hours out of plausible bounds are a quality finding.
-        hours = cells.number(row, "hours", minimum=None)
+        # Hours out of plausible bounds are a quality finding, not an error here; only a
+        # magnitude no timesheet holds is (1e300 had been written out as 300 digits).
+        hours = cells.number(row, "hours", minimum=-MAX_HOURS, maximum=MAX_HOURS)
         if person is None or period is None or office is None or skill is None:
             continue
         if activity is None or hours is None:
@@ -404,7 +509,7 @@ def _read_expected(table: RawTable, problems: list[Problem], kinds: dict[str, st
     for row in cells:
         person = cells.text(row, "person")
         period = cells.period(row, "period", kinds)
-        hours = cells.number(row, "expected_hours")
+        hours = cells.number(row, "expected_hours", maximum=MAX_HOURS)
         if person is None or period is None or hours is None:
             continue
         key = (person, period[0])
@@ -433,7 +538,7 @@ def _read_adjustments(table: RawTable | None, problems: list[Problem], offices: 
             if case_type is None:
                 continue
         first, last = cells.month(row, "first_month"), cells.month(row, "last_month")
-        factor = cells.number(row, "factor")
+        factor = cells.number(row, "factor", maximum=MAX_FACTOR)
         if office is None or first is None or last is None or factor is None:
             continue
         if last < first:

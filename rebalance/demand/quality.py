@@ -20,6 +20,12 @@ A record failing any check takes its whole timesheet (person and period) out of 
 a timesheet with one bad line cannot be trusted to be right elsewhere, and excluding whole
 timesheets lets :mod:`rebalance.demand.standards` gross the kept hours up by the share of
 expected hours kept.  Excluded records are counted, never silently dropped.
+
+An expected-hours value is *implausible* when it is above the hours in its period (24 x 31 for
+a month, 24 x 7 for a week) or more than ``IMPLAUSIBLE_RATIO`` times the person's median
+expected hours (a typo such as 1500 for 150).  Its timesheet is incomplete, hence excluded,
+and the coverage factor counts it at the person's median expected hours instead, so one typo
+cannot scale an office's hours up; the verdict is then at best "usable with care".
 """
 
 from __future__ import annotations
@@ -35,6 +41,10 @@ __all__ = ["CHECKS", "QualityResult", "check_quality", "robust_scores"]
 
 CHECKS = ("hours_out_of_bounds", "unknown_activity", "duplicate", "anomaly", "incomplete")
 MAD_TO_SD = 1.4826  # MAD of a normal sample x 1.4826 estimates its standard deviation
+# Expected hours more than this many times the person's median are taken for a typo: a change
+# of contract (part time to full time) is at most about 2x; 3x leaves room (no source).
+IMPLAUSIBLE_RATIO = 3.0
+PERIOD_HOURS = {"month": 24.0 * 31, "week": 24.0 * 7}  # no period holds more hours
 
 
 @dataclass(frozen=True)
@@ -44,7 +54,9 @@ class QualityResult:
     ``records``: the time records with ``check`` (first failed check, "" if none), ``checks``
     (all failed, space-separated), ``score`` (robust anomaly score, NaN if not scored) and
     ``excluded`` (its timesheet failed).
-    ``timesheets``: person, period, office, reported_hours, expected_hours, complete, excluded.
+    ``timesheets``: person, period, office, reported_hours, expected_hours, complete,
+    plausible (expected hours not implausible, see the module notes), coverage_hours (expected
+    hours the coverage factor counts: the person's median where implausible), excluded.
     ``compliance``: period, people, complete, share_complete.
     ``summary``: check, records, hours (records failing each check, first check only), plus
     rows ``excluded_with_timesheet`` and ``kept``.
@@ -89,7 +101,8 @@ def check_quality(history: History) -> QualityResult:
     scores = _anomaly_scores(rec, ~fails["hours_out_of_bounds"], q, history.periods_per_year)
     rec["score"] = scores
     fails["anomaly"] = np.nan_to_num(np.abs(scores)) > q.anomaly_threshold
-    sheets = _timesheets(rec, history.expected, q)
+    sheets = _timesheets(rec, history.expected, q, PERIOD_HOURS.get(history.period_kind,
+                                                                     PERIOD_HOURS["month"]))
     incomplete = sheets.loc[~sheets["complete"], ["person", "period"]]
     marks = rec.merge(incomplete.assign(_inc=True), on=["person", "period"], how="left")["_inc"]
     fails["incomplete"] = marks.fillna(False).to_numpy(dtype=bool)
@@ -171,7 +184,8 @@ def _anomaly_scores(rec: pd.DataFrame, usable: np.ndarray, q: QualitySettings,
     return out
 
 
-def _timesheets(rec: pd.DataFrame, expected: pd.DataFrame, q: QualitySettings) -> pd.DataFrame:
+def _timesheets(rec: pd.DataFrame, expected: pd.DataFrame, q: QualitySettings,
+                period_hours: float) -> pd.DataFrame:
     by_office = rec.groupby(["person", "period", "office"])["hours"].sum().reset_index()
     # The timesheet's office is where most of its hours were booked.
     main = (by_office.sort_values("hours", ascending=False)
@@ -186,14 +200,21 @@ def _timesheets(rec: pd.DataFrame, expected: pd.DataFrame, q: QualitySettings) -
     sheets["complete"] = (exp.notna()
                           & (sheets["reported_hours"] >= exp * (1 - q.completeness_tolerance))
                           & (sheets["reported_hours"] <= exp * (1 + q.completeness_tolerance)))
+    # An implausible expected value (a typo) must not drive the coverage factor: it is counted
+    # at the person's median expected hours (a sweep: 1500 for 150 scaled an office by +36%).
+    median = sheets.groupby("person")["expected_hours"].transform("median")
+    sheets["plausible"] = ~(exp.notna() & ((exp > period_hours)
+                                            | (exp > IMPLAUSIBLE_RATIO * median)))
+    sheets["complete"] &= sheets["plausible"]
+    sheets["coverage_hours"] = exp.where(sheets["plausible"], median.clip(upper=period_hours))
     return sheets.sort_values(["person", "period"]).reset_index(drop=True)
 
 
 def _coverage(sheets: pd.DataFrame) -> pd.DataFrame:
     """Per office, the share of expected hours whose timesheets were kept."""
-    known = sheets[sheets["expected_hours"].notna() & sheets["office"].notna()]
-    all_hours = known.groupby("office")["expected_hours"].sum()
-    kept_hours = known[~known["excluded"]].groupby("office")["expected_hours"].sum()
+    known = sheets[sheets["coverage_hours"].notna() & sheets["office"].notna()]
+    all_hours = known.groupby("office")["coverage_hours"].sum()
+    kept_hours = known[~known["excluded"]].groupby("office")["coverage_hours"].sum()
     out = pd.DataFrame({"expected_hours_all": all_hours,
                         "expected_hours_kept": kept_hours.reindex(all_hours.index).fillna(0.0)})
     out["coverage_factor"] = out["expected_hours_all"] / out["expected_hours_kept"].where(
@@ -207,7 +228,8 @@ def _verdict(rec: pd.DataFrame, sheets: pd.DataFrame, q: QualitySettings) -> str
     total_hours = float(rec["hours"].clip(lower=0).sum())
     excluded_hours = float(rec.loc[rec["excluded"], "hours"].clip(lower=0).sum())
     hours_share = excluded_hours / total_hours if total_hours else 1.0
-    if share >= q.compliance_target and hours_share <= 0.05:
+    implausible = int((~sheets["plausible"]).sum())
+    if share >= q.compliance_target and hours_share <= 0.05 and not implausible:
         word = "good"
     elif share >= q.compliance_target - 0.10 and hours_share <= 0.15:
         word = "usable with care"
@@ -216,4 +238,6 @@ def _verdict(rec: pd.DataFrame, sheets: pd.DataFrame, q: QualitySettings) -> str
     return (f"{word}: {share:.1%} of timesheets complete (target {q.compliance_target:.0%}); "
             f"{int(rec['excluded'].sum())} of {len(rec)} records excluded "
             f"({hours_share:.1%} of hours), {int((rec['check'] != '').sum())} of them failing "
-            "a check")
+            "a check"
+            + (f"; {implausible} implausible expected-hours value(s) (e.g. a typo), counted at "
+               "the person's median expected hours" if implausible else ""))

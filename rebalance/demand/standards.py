@@ -1,15 +1,18 @@
 """Effort standards (hours per case) and non-case hours, from quality-checked time records.
 
 Hours per case are measured against arriving cases: hours booked to case type ``c`` by skill
-``s`` in an office over the window, divided by the cases of type ``c`` that arrived there in
-the same months (work in progress is assumed steady across the window).  Kept hours are first
+``s`` in an office, divided by the cases of type ``c`` that arrived there in the same months
+(work in progress is assumed steady across the window).  The months are the office and skill's
+own: those its timesheets cover, kept or excluded, that have an arrivals row for ``c``.  An
+office with cases but no usable records of a skill takes the pooled value (``basis`` says so,
+and ``notes`` says so, for the command's warnings).  Kept hours are first
 grossed up by the office's coverage factor (expected hours of all timesheets / of the kept
 ones), so excluding a bad timesheet does not make work look cheaper.
 
 Office values are shrunk toward the value pooled over offices by case counts::
 
-    pooled[c, s]    = sum_o H[o, c, s] / sum_o N[o, c]
-    standard[o,c,s] = (H[o, c, s] + k * pooled[c, s]) / (N[o, c] + k)
+    pooled[c, s]    = sum_o H[o, c, s] / sum_o N[o, c, s]
+    standard[o,c,s] = (H[o, c, s] + k * pooled[c, s]) / (N[o, c, s] + k)
 
 i.e. a weighted mean with weight ``w = N / (N + k)`` on the office's own ratio, ``k`` being
 ``standards.shrinkage_cases`` (a credibility weight: an office with ``k`` cases gets half its
@@ -24,6 +27,7 @@ floored at zero.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from datetime import date
 
 import numpy as np
 import pandas as pd
@@ -38,14 +42,17 @@ __all__ = ["EffortStandards", "estimate_standards", "forecast_noncase"]
 @dataclass(frozen=True)
 class EffortStandards:
     """``table``: case_type, skill, office, cases, hours, office_hours_per_case,
-    pooled_hours_per_case, weight, hours_per_case, lower, upper (one row per office where the
-    pooled standard is positive).  ``noncase``: office, skill, activity, month, hours
-    (grossed-up monthly history).  ``window``: first and last month used.
+    pooled_hours_per_case, weight, hours_per_case, lower, upper, basis ("office" or "pooled: no
+    usable time records") (one row per office where the pooled standard is positive).
+    ``noncase``: office, skill, activity, month, hours (grossed-up monthly history).
+    ``window``: first and last month of kept records.  ``notes``: warnings (an office that
+    takes the pooled value for want of usable records), also issued as ``UserWarning``.
     """
 
     table: pd.DataFrame
     noncase: pd.DataFrame
     window: tuple[int, int]
+    notes: tuple[str, ...] = ()
 
     def hours_per_case(self) -> dict[tuple[str, str, str], float]:
         """(office, case_type, skill) -> shrunk hours per case."""
@@ -60,43 +67,75 @@ def estimate_standards(history: History, quality: QualityResult) -> EffortStanda
     kept = quality.kept.copy()
     factor = quality.coverage.set_index("office")["coverage_factor"]
     kept["hours"] = kept["hours"] * kept["office"].map(factor).fillna(1.0)
-    months = np.sort(kept["month"].unique())
-    if len(months) == 0:
+    kept_months = np.sort(kept["month"].unique())
+    if len(kept_months) == 0:
         raise ValueError("no time records passed quality control")
-    window = (int(months[0]), int(months[-1]))
+    window = (int(kept_months[0]), int(kept_months[-1]))
     case_types = list(history.case_types)
     offices = sorted(history.arrivals["office"].unique())
     skills = sorted(kept["skill"].unique())
     case_hours = kept[kept["activity"].isin(case_types)]
 
-    # Arrays: H[o, c, s, t] hours and N[o, c, t] cases, t over the window's months.
+    # The months an office and skill are measured over are those its timesheets cover, kept
+    # or excluded: the coverage factor grosses the kept hours up to all of them, so their
+    # cases all count (dropping a fully excluded month's cases as well corrected it twice).
+    # A month with no time records of the office and skill, or no arrivals row for the case
+    # type, is left out of both hours and cases (a sweep: an office with records for 2026
+    # only had its cases counted over 2025 too; records past the last arrivals month counted
+    # with zero cases).
+    present = _office_skill_months(history, quality)
+    arrival_months = set(int(m) for m in history.arrivals["month"].unique())
+    months = np.array(sorted({m for _, _, m in present} & arrival_months), dtype=int)
+    if len(months) == 0:
+        raise ValueError("no month has both time records and case arrivals")
     o_ix = {o: i for i, o in enumerate(offices)}
     c_ix = {c: i for i, c in enumerate(case_types)}
     s_ix = {s: i for i, s in enumerate(skills)}
     t_ix = {int(m): i for i, m in enumerate(months)}
-    hours = np.zeros((len(offices), len(case_types), len(skills), len(months)))
-    grouped = case_hours.groupby(["office", "activity", "skill", "month"])["hours"].sum()
-    for key, v in grouped.items():
-        o, c, s, m = (str(key[0]), str(key[1]), str(key[2]), int(key[3]))  # type: ignore[index]
+    has_records = np.zeros((len(offices), len(skills), len(months)), dtype=bool)
+    for o, s, m in present:
+        if o in o_ix and s in s_ix and m in t_ix:
+            has_records[o_ix[o], s_ix[s], t_ix[m]] = True
+    # An office and skill with no kept hours at all (or an office whose coverage factor is
+    # undefined) has no usable records: it takes the pooled value, with a note.
+    usable = np.zeros((len(offices), len(skills)), dtype=bool)
+    for o, s in kept.loc[kept["office"].map(factor).notna(), ["office", "skill"]].drop_duplicates(
+            ).itertuples(index=False):
         if o in o_ix:
-            hours[o_ix[o], c_ix[c], s_ix[s], t_ix[m]] += float(v)
+            usable[o_ix[o], s_ix[s]] = True
+    has_records &= usable[:, :, None]
+    has_arrivals = np.zeros((len(offices), len(case_types), len(months)), dtype=bool)
     cases = np.zeros((len(offices), len(case_types), len(months)))
     arr = history.arrivals[history.arrivals["month"].isin(months)
                            & history.arrivals["case_type"].isin(case_types)]
     for o, c, m, n in zip(arr["office"], arr["case_type"], arr["month"], arr["count"],
                           strict=True):
         cases[o_ix[o], c_ix[c], t_ix[int(m)]] = n
+        has_arrivals[o_ix[o], c_ix[c], t_ix[int(m)]] = True
+    # mask[o, c, s, t]: month t counts for office o, case type c and skill s.
+    mask = has_records[:, None, :, :] & has_arrivals[:, :, None, :]
+
+    # Arrays: H[o, c, s, t] hours and N[o, c, s, t] cases, zero outside the mask.
+    hours = np.zeros((len(offices), len(case_types), len(skills), len(months)))
+    grouped = case_hours.groupby(["office", "activity", "skill", "month"])["hours"].sum()
+    for key, v in grouped.items():
+        o, c, s, m = (str(key[0]), str(key[1]), str(key[2]), int(key[3]))  # type: ignore[index]
+        if o in o_ix and m in t_ix:
+            hours[o_ix[o], c_ix[c], s_ix[s], t_ix[m]] += float(v)
+    hours = np.where(mask, hours, 0.0)
+    cases = np.where(mask, cases[:, :, None, :], 0.0)
 
     k = cfg.shrinkage_cases
 
     def standards(h: np.ndarray, n: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        # h: (O, C, S, ...) summed hours, n: (O, C, ...) summed cases.  Hours booked where
-        # there were no cases say nothing per case: such an office takes the pooled value (its
+        # h: (O, C, S) summed hours, n: (O, C, S) summed cases.  Hours booked where there
+        # were no cases say nothing per case: such an office takes the pooled value (its
         # weight is 0), where (h + k x pooled) / k had made it h / k above the pool (a sweep:
         # 41.98 hours a case against a pooled 1.81).
-        h = np.where(n[:, :, None] > 0, h, 0.0)
-        pooled = h.sum(axis=0) / np.maximum(n.sum(axis=0), 1e-12)[:, None]
-        shrunk = (h + k * pooled[None]) / (n[:, :, None] + k)
+        h = np.where(n > 0, h, 0.0)
+        pooled = h.sum(axis=0) / np.maximum(n.sum(axis=0), 1e-12)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            shrunk = np.where(n + k > 0, (h + k * pooled[None]) / (n + k), pooled[None])
         return pooled, shrunk
 
     h_sum, n_sum = hours.sum(axis=-1), cases.sum(axis=-1)
@@ -110,23 +149,72 @@ def estimate_standards(history: History, quality: QualityResult) -> EffortStanda
     lower, upper = np.quantile(boot, [tail, 1 - tail], axis=0)
 
     rows = []
+    notes = []
+    offered = cases_offered(history, case_types, offices)
     for c, ci in c_ix.items():
         for s, si in s_ix.items():
             if pooled[ci, si] <= 0:
                 continue
             for o, oi in o_ix.items():
-                n = n_sum[oi, ci]
+                n = n_sum[oi, ci, si]
+                basis = "office"
+                if n == 0 and offered[oi, ci] > 0:
+                    basis = "pooled: no usable time records"
+                    notes.append(f"office '{o}' has {offered[oi, ci]:,.0f} cases of type '{c}' "
+                                 f"but no usable time records of skill '{s}' in months with "
+                                 f"arrivals; it takes the pooled value of the other offices, "
+                                 f"{pooled[ci, si]:.3f} hours a case")
                 rows.append((c, s, o, n, h_sum[oi, ci, si],
                              h_sum[oi, ci, si] / n if n > 0 else np.nan, pooled[ci, si],
                              n / (n + k), shrunk[oi, ci, si], lower[oi, ci, si],
-                             upper[oi, ci, si]))
+                             upper[oi, ci, si], basis))
     table = pd.DataFrame(rows, columns=["case_type", "skill", "office", "cases", "hours",
                                         "office_hours_per_case", "pooled_hours_per_case",
-                                        "weight", "hours_per_case", "lower", "upper"])
+                                        "weight", "hours_per_case", "lower", "upper", "basis"])
     nc = kept[~kept["activity"].isin(case_types)]
     noncase = (nc.groupby(["office", "skill", "activity", "month"])["hours"].sum()
                .reset_index())
-    return EffortStandards(table, noncase, window)
+    return EffortStandards(table, noncase, window, tuple(notes))
+
+
+def cases_offered(history: History, case_types: list[str], offices: list[str]) -> np.ndarray:
+    """Cases of each office and case type over the whole arrivals history: (O, C)."""
+    out = np.zeros((len(offices), len(case_types)))
+    o_ix = {o: i for i, o in enumerate(offices)}
+    c_ix = {c: i for i, c in enumerate(case_types)}
+    sums = history.arrivals.groupby(["office", "case_type"])["count"].sum()
+    for key, n in sums.items():
+        o, c = str(key[0]), str(key[1])  # type: ignore[index]
+        if o in o_ix and c in c_ix:
+            out[o_ix[o], c_ix[c]] = float(n)
+    return out
+
+
+def _period_month(kind: str, period: int) -> int:
+    """The month a reporting period belongs to (see ``history.reporting_period``)."""
+    if kind != "week":
+        return int(period)
+    thursday = date.fromordinal(int(period) * 7 + 1 + 3)
+    return thursday.year * 12 + thursday.month - 1
+
+
+def _office_skill_months(history: History, quality: QualityResult) -> set[tuple[str, str, int]]:
+    """(office, skill, month) covered by a timesheet, kept or excluded: every time record,
+    and every timesheet with expected hours (its office's months for each skill the person
+    books), so a timesheet with expected hours but no records counts as the coverage factor
+    counts it."""
+    rec = quality.records
+    out = {(str(o), str(s), int(m)) for o, s, m in
+           rec[["office", "skill", "month"]].drop_duplicates().itertuples(index=False)}
+    sheets = quality.timesheets
+    sheets = sheets[sheets["expected_hours"].notna() & sheets["office"].notna()]
+    skills = rec.groupby("person")["skill"].unique()
+    for person, period, office in zip(sheets["person"], sheets["period"], sheets["office"],
+                                      strict=True):
+        month = _period_month(history.period_kind, int(period))
+        for skill in skills.get(person, ()):
+            out.add((str(office), str(skill), month))
+    return out
 
 
 def forecast_noncase(standards: EffortStandards, months: list[int]) -> pd.DataFrame:

@@ -82,13 +82,16 @@ def _with_spare(coverage: pd.DataFrame) -> pd.DataFrame:
 
 
 def spare_capacity(data: ReportData) -> pd.DataFrame:
-    """Per office, FTE-periods of output beyond demand (summed over its skills and periods),
-    beside demand, output and shortfall; the skills holding most of it."""
+    """Per office, FTE-periods of output beyond demand (summed over its skills and periods)
+    and of people's time there with no work at all (``unassigned_fte``: people whose skills
+    the office does not want then have no work rows, so output alone had missed them),
+    beside demand, output and shortfall; the skills holding most of the spare output."""
     cov = _with_spare(data.plan.coverage)
+    unassigned = _unassigned_time(data)
     rows = []
     for office in [o.name for o in data.instance.offices]:
         part = cov[cov["office"] == office]
-        if part.empty:
+        if part.empty and not unassigned.get(office):
             continue
         by_skill = part.groupby("skill")["spare_fte"].sum().sort_values(ascending=False)
         top = [f"{skill} {value:.1f}" for skill, value in by_skill.head(3).items()
@@ -96,9 +99,38 @@ def spare_capacity(data: ReportData) -> pd.DataFrame:
         rows.append({"office": office, "demand_fte": float(part["demand_fte"].sum()),
                      "output_fte": float(part["output_fte"].sum()),
                      "shortfall_fte": float(part["shortfall_fte"].sum()),
-                     "spare_fte": float(part["spare_fte"].sum()), "most_in": ", ".join(top)})
+                     "spare_fte": float(part["spare_fte"].sum()),
+                     "unassigned_fte": unassigned.get(office, 0.0), "most_in": ", ".join(top)})
     return pd.DataFrame(rows, columns=["office", "demand_fte", "output_fte", "shortfall_fte",
-                                       "spare_fte", "most_in"])
+                                       "spare_fte", "unassigned_fte", "most_in"])
+
+
+def _unassigned_time(data: ReportData) -> dict[str, float]:
+    """Per office, FTE-periods of the available time of people there (at their home in force
+    and not away, or on detail there) that the plan gives no work."""
+    instance, plan = data.instance, data.plan
+    names = instance.period_names
+    away = {(str(p), str(t)): str(o) for p, t, o in zip(
+        plan.details["person"], plan.details["period"], plan.details["to_office"],
+        strict=True)}
+    moved = {str(p): (names.index(str(t)), str(o)) for p, t, o in zip(
+        plan.reassignments["person"], plan.reassignments["period"],
+        plan.reassignments["to_office"], strict=True)}
+    worked = plan.work.groupby([plan.work["person"].astype(str),
+                                plan.work["period"].astype(str)])["fte"].sum().to_dict()
+    out: dict[str, float] = {}
+    for person in instance.staff:
+        move = moved.get(person.person)
+        for t, period in enumerate(names):
+            available = instance.available_fte(person, t)
+            if available <= 0:
+                continue
+            home = move[1] if move is not None and t >= move[0] else person.home_office
+            where = away.get((person.person, period), home)
+            idle = available - float(worked.get((person.person, period), 0.0))
+            if idle > NEAR_ZERO:
+                out[where] = out.get(where, 0.0) + idle
+    return out
 
 
 def _coverage_series(data: ReportData) -> dict[str, Any]:
@@ -258,13 +290,17 @@ def _headline(data: ReportData) -> str:
     verified = {True: "verified independently", False: "FAILED verification",
                 None: "verification unknown"}[run.verified]
     spare = spare_capacity(data)
-    spare_total = float(spare["spare_fte"].sum()) if len(spare) else 0.0
+    beyond = float(spare["spare_fte"].sum()) if len(spare) else 0.0
+    no_work = float(spare["unassigned_fte"].sum()) if len(spare) else 0.0
+    spare_total = beyond + no_work
     if spare_total >= 0.05:
-        most = spare.sort_values("spare_fte", ascending=False).iloc[0]
-        spare_note = (f"FTE-periods of output beyond demand, left idle; most at "
-                      f"{most['office']} ({num(float(most['spare_fte']))})")
+        most = spare.assign(both=spare["spare_fte"] + spare["unassigned_fte"]).sort_values(
+            "both", ascending=False).iloc[0]
+        spare_note = (f"FTE-periods left idle: {num(beyond)} of output beyond demand, "
+                      f"{num(no_work)} of people's time with no work; most at "
+                      f"{most['office']} ({num(float(most['both']))})")
     else:
-        spare_note = "FTE-periods of output beyond demand: none to speak of"
+        spare_note = "FTE-periods left idle: none to speak of"
     commitment = new_position_salaries(data)
     yearly = float(commitment["per_year"].sum()) if len(commitment) else 0.0
     cards = [
@@ -292,19 +328,25 @@ def _spare_table(data: ReportData) -> str:
     if spare.empty:
         return ""
     rows = [[r["office"], _f(r["demand_fte"]), _f(r["output_fte"]), _f(r["shortfall_fte"]),
-             _f(r["spare_fte"]), _share(r["spare_fte"], r["output_fte"]), r["most_in"]]
+             _f(r["spare_fte"]), _share(r["spare_fte"], r["output_fte"]),
+             _f(r["unassigned_fte"]), r["most_in"]]
             for r in _records(spare)]
     total = ["all offices", *(_f(float(spare[c].sum())) for c in (
         "demand_fte", "output_fte", "shortfall_fte", "spare_fte")),
-        _share(float(spare["spare_fte"].sum()), float(spare["output_fte"].sum())), ""]
+        _share(float(spare["spare_fte"].sum()), float(spare["output_fte"].sum())),
+        _f(float(spare["unassigned_fte"].sum())), ""]
     return ("<h3>Capacity beyond demand</h3>"
             '<p class="lead">Output that staff and hires produce beyond the demand of their '
-            "office and skill, summed over the horizon, in FTE-periods: it covers nothing in "
-            "this plan. Rules on details (share away, consecutive periods), skills and move "
-            "costs may be what keeps it where it is.</p>"
+            "office and skill, and time of people there that the plan gives no work (their "
+            "skills are not wanted there then, or the demand is met), summed over the horizon, "
+            "in FTE-periods: neither covers anything in this plan. Rules on details (share "
+            "away, consecutive periods), skills and move costs may be what keeps it where it "
+            "is.</p>"
             + table_html(["office", "demand", "output", "shortfall", "beyond demand (spare)",
-                          "share of output", "skills with most spare"], rows, name="spare",
-                         numeric=[False, True, True, True, True, True, False], foot=[total]))
+                          "share of output", "time with no work", "skills with most spare"],
+                         rows, name="spare",
+                         numeric=[False, True, True, True, True, True, True, False],
+                         foot=[total]))
 
 
 def _f(value: float, digits: int = 1) -> tuple[float, str]:

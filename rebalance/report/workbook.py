@@ -273,6 +273,9 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
     line("capacity beyond demand (FTE-periods)",
          float(spare["spare_fte"].sum()) if len(spare) else 0.0, FTE,
          "output beyond its office's and skill's demand: covers nothing in this plan")
+    line("time with no work (FTE-periods)",
+         float(spare["unassigned_fte"].sum()) if len(spare) else 0.0, FTE,
+         "available time of people the plan gives no work where they are")
     line("people hired", plan.hires_count(), WHOLE)
     line("detail periods", len(plan.details), WHOLE,
          f"{plan.details['person'].nunique()} people" if len(plan.details) else "")
@@ -304,11 +307,11 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
         band("Capacity beyond demand (FTE-periods)")
         header_row = next(rows)
         for col, text in enumerate(["office", "demand", "output", "shortfall",
-                                    "beyond demand"]):
+                                    "beyond demand", "time with no work"]):
             ws.write_string(header_row, col, text, styles.header)
         fte = styles.number(FTE)
-        figures = spare[["demand_fte", "output_fte", "shortfall_fte", "spare_fte"]].to_numpy(
-            dtype=float)
+        figures = spare[["demand_fte", "output_fte", "shortfall_fte", "spare_fte",
+                         "unassigned_fte"]].to_numpy(dtype=float)
         offices = [*(str(o) for o in spare["office"]), "all offices"]
         for office, values in zip(offices, [*figures, figures.sum(axis=0)], strict=True):
             row = next(rows)

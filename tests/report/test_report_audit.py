@@ -31,10 +31,6 @@ def _tiny():
     return report_data_from_folder(tiny_plan_folder(), read_instance(TINY))
 
 
-
-
-
-
 def _summary_cells(path: Path) -> list[str]:
     sheet = load_workbook(path)["summary"]
     return [str(v) for row in sheet.iter_rows(values_only=True) for v in row if v is not None]
@@ -59,6 +55,17 @@ def test_output_beyond_demand_is_shown_per_office_with_a_total():
     table = table[:table.index("</table>")]
     assert "<tfoot>" in table and "all offices" in table.split("<tfoot>")[1]
     assert "Capacity beyond demand" in page_text(page)
+
+
+def test_time_with_no_work_counts_people_the_plan_leaves_idle():
+    # Output beyond demand misses people with no work rows at all (their skills are not
+    # wanted where they are then).  Hand count on tests/data/tiny's plan: at A, a2 has no
+    # work in 2027-Q1 (A's review is a1's, its intake a3's) and a3 (intake only, 0.5 FTE, no
+    # details) has none in Q2-Q4, A having intake demand in Q1 only: 1.0 + 3 x 0.5 = 2.5.
+    # At B, b1 works until leaving after Q3 and the visitors work: 0.
+    unassigned = spare_capacity(_tiny()).set_index("office")["unassigned_fte"]
+    assert unassigned.to_dict() == pytest.approx({"A": 2.5, "B": 0.0})
+    assert "time with no work" in page_text(render_html(_tiny()))
 
 
 def test_solver_dust_is_no_spare_capacity():

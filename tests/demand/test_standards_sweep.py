@@ -4,6 +4,7 @@ did not).  Every expected value is hand arithmetic written out in the test."""
 from __future__ import annotations
 
 import warnings
+from dataclasses import replace
 
 import pandas as pd
 import pytest
@@ -136,3 +137,27 @@ def test_an_expected_hours_typo_cannot_scale_an_office() -> None:
     assert quality.verdict.startswith("usable with care"), quality.verdict
     assert "1 implausible expected-hours value" in quality.verdict
     assert int((~quality.timesheets["plausible"]).sum()) == 1
+
+
+def test_a_fully_excluded_month_does_not_raise_the_non_case_trend() -> None:
+    # 30 h of training every month of 2025-2026 beside 150 h on permits; 2025-06's permit
+    # record (225 h) is above max_record_hours (200), so that month's timesheet is excluded.
+    # Hand arithmetic: the office-wide coverage factor is 4320 / 4140 = 24/23; spread over
+    # the 23 kept months it made them 31.30 h while 2025-06 read as 0, and the median-based
+    # trend kept 31.30.  Each month grossed up by its own coverage (1 where nothing was
+    # excluded) and the excluded month left out: 30.0.
+    from rebalance.demand.standards import forecast_noncase
+
+    arrivals = {"A": dict.fromkeys(MONTHS, 100)}
+    records = [("pa", m, "A", 225.0 if i == 5 else 150.0) for i, m in enumerate(MONTHS)]
+    history = _history(arrivals, records, [(p, m, 180.0) for p, m, _, _ in records])
+    training = pd.DataFrame([(1000 + i, "pa", m, m, "A", "review", "training", 30.0)
+                             for i, m in enumerate(MONTHS)], columns=history.records.columns)
+    history = replace(history, records=pd.concat([history.records, training],
+                                                 ignore_index=True),
+                      activities={"permit": "case", "training": "noncase"})
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        standards = estimate_standards(history, check_quality(history))
+    trend = forecast_noncase(standards, [MONTHS[-1] + 1, MONTHS[-1] + 2])
+    assert trend["hours"].tolist() == pytest.approx([30.0, 30.0])

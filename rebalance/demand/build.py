@@ -29,7 +29,13 @@ from rebalance.demand.quality import QualityResult, check_quality
 from rebalance.demand.standards import EffortStandards, estimate_standards, forecast_noncase
 from rebalance.files import sibling_name, staged_folder
 from rebalance.instance import Period
-from rebalance.readers import Problem, _settings_periods, collapse_repeats, read_tables
+from rebalance.readers import (
+    Problem,
+    _settings_periods,
+    collapse_repeats,
+    read_tables,
+    table_problems,
+)
 
 __all__ = ["DemandResult", "build_demand", "run_demand", "write_demand"]
 
@@ -98,6 +104,10 @@ def _instance_context(folder: Path, problems: list[Problem]) -> tuple[
 
     def names(table: str, column: str) -> set[str] | None:
         raw = tables.get(table)
+        if raw is not None and raw.fault is not None:
+            # Not UTF-8: said as such (it had read as "required column is missing").
+            problems.extend(table_problems(raw))
+            return None
         if raw is None or column not in raw.columns:
             if raw is not None:
                 problems.append(Problem(raw.label, 1, column, "required column is missing"))

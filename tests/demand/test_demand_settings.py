@@ -215,3 +215,13 @@ def test_an_output_folder_with_no_instance_is_said_once(
     assert f"{folder}: is a folder with no instance in it (no settings.toml" in err
     assert "workbook not found" not in err and "file is missing" not in err
     assert not any(folder.iterdir())
+
+
+def test_an_instance_file_not_in_utf8_is_said_as_such(tmp_path: Path,
+                                                      capsys: pytest.CaptureFixture[str]) -> None:
+    # A sweep: a Latin-1 offices.csv read as "office: required column is missing".
+    inst, hist = _make(tmp_path)
+    (inst / "offices.csv").write_bytes("office,location,seats,max_hires_per_period\n"
+                                       "A,Lyng\u00e9,,\n".encode("latin-1"))
+    err = _refused(inst, hist, capsys)
+    assert "offices.csv:2: is not UTF-8 text" in err and "required column" not in err

@@ -40,6 +40,8 @@ from rebalance.readers import (
 __all__ = ["DemandResult", "build_demand", "run_demand", "write_demand"]
 
 QUARTER = re.compile(r"^(\d{4})-Q([1-4])$")
+# A month of arrivals above this many times its series' median is worth a second look.
+SPIKE_FACTOR = 5.0
 TRACE_COLUMNS = ["office", "skill", "period", "kind", "activity", "method", "forecast_volume",
                  "adjustment_factor", "volume", "volume_lower", "volume_upper",
                  "hours_per_case", "hours", "hours_per_fte", "fte"]
@@ -310,6 +312,18 @@ def _unused_work(history: History, periods: tuple[Period, ...]) -> list[Problem]
         out.append(Problem("time_records.csv", None, "activity",
                            f"case type '{case_type}' has arrivals but no hours booked to it; "
                            "it adds no demand", is_warning=True))
+    # A month far above its series' usual level is forecast from as given (a real surge is
+    # possible), but said: one typed 10,000 for 100 had made a quarter twelve times the last.
+    for key, series in arrivals.groupby(["office", "case_type"]):
+        office, case_type = str(key[0]), str(key[1])
+        typical = float(series["count"].median())
+        spikes = series[series["count"] > SPIKE_FACTOR * max(typical, 1.0)]
+        for month, count in zip(spikes["month"], spikes["count"], strict=True):
+            out.append(Problem("case_arrivals.csv", None, "count",
+                               f"office '{office}', case type '{case_type}', "
+                               f"{month_name(int(month))}: {count:,.0f} cases, over "
+                               f"{SPIKE_FACTOR:g} times its usual month ({typical:,.0f}); a "
+                               "typo? it is forecast from as given", is_warning=True))
     if periods and all(QUARTER.match(p.name) for p in periods):
         last_plan = max(_quarter_months(p.name)[-1] for p in periods)
         if last_plan - history.last_month > FAR_MONTHS:

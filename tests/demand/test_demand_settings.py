@@ -225,3 +225,15 @@ def test_an_instance_file_not_in_utf8_is_said_as_such(tmp_path: Path,
                                        "A,Lyng\u00e9,,\n".encode("latin-1"))
     err = _refused(inst, hist, capsys)
     assert "offices.csv:2: is not UTF-8 text" in err and "required column" not in err
+
+
+def test_a_month_far_above_its_series_is_said_and_kept(tmp_path: Path,
+                                                       capsys: pytest.CaptureFixture[str]) -> None:
+    # A sweep: one month typed 10,000 for 100 made a quarter about twelve times the last,
+    # without a word.  Common practice: flag it for review, and forecast from the data as
+    # given (a real surge looks the same).
+    inst, hist = _make(tmp_path)
+    _edit(hist / "case_arrivals.csv", 50, 3, "10000")
+    assert main(["demand", str(hist), "-o", str(inst)]) == EXIT_OK
+    err = capsys.readouterr().err
+    assert "10,000 cases, over 5 times its usual month (100)" in err

@@ -37,7 +37,7 @@ import pandas as pd
 
 from rebalance.demand.history import History, QualitySettings
 
-__all__ = ["CHECKS", "QualityResult", "check_quality", "robust_scores"]
+__all__ = ["CHECKS", "QualityResult", "check_quality", "coverage", "robust_scores"]
 
 CHECKS = ("hours_out_of_bounds", "unknown_activity", "duplicate", "anomaly", "incomplete")
 MAD_TO_SD = 1.4826  # MAD of a normal sample x 1.4826 estimates its standard deviation
@@ -132,9 +132,8 @@ def check_quality(history: History) -> QualityResult:
                   .agg(people=("person", "nunique"), complete=("complete", "sum"))
                   .reset_index())
     compliance["share_complete"] = compliance["complete"] / compliance["people"]
-    coverage = _coverage(sheets)
     verdict = _verdict(rec, sheets, q)
-    return QualityResult(rec, sheets, compliance, summary, coverage, verdict)
+    return QualityResult(rec, sheets, compliance, summary, coverage(sheets), verdict)
 
 
 def _anomaly_scores(rec: pd.DataFrame, usable: np.ndarray, q: QualitySettings,
@@ -210,11 +209,12 @@ def _timesheets(rec: pd.DataFrame, expected: pd.DataFrame, q: QualitySettings,
     return sheets.sort_values(["person", "period"]).reset_index(drop=True)
 
 
-def _coverage(sheets: pd.DataFrame) -> pd.DataFrame:
-    """Per office, the share of expected hours whose timesheets were kept."""
+def coverage(sheets: pd.DataFrame, by: str | list[str] = "office") -> pd.DataFrame:
+    """Per office (or per ``by``, columns of ``sheets``), the expected hours of all timesheets
+    and of the kept ones, and their ratio ``coverage_factor`` (NaN where none was kept)."""
     known = sheets[sheets["coverage_hours"].notna() & sheets["office"].notna()]
-    all_hours = known.groupby("office")["coverage_hours"].sum()
-    kept_hours = known[~known["excluded"]].groupby("office")["coverage_hours"].sum()
+    all_hours = known.groupby(by)["coverage_hours"].sum()
+    kept_hours = known[~known["excluded"]].groupby(by)["coverage_hours"].sum()
     out = pd.DataFrame({"expected_hours_all": all_hours,
                         "expected_hours_kept": kept_hours.reindex(all_hours.index).fillna(0.0)})
     out["coverage_factor"] = out["expected_hours_all"] / out["expected_hours_kept"].where(

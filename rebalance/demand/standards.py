@@ -35,7 +35,7 @@ import pandas as pd
 from scipy.stats import theilslopes
 
 from rebalance.demand.history import History
-from rebalance.demand.quality import QualityResult
+from rebalance.demand.quality import QualityResult, coverage
 
 __all__ = ["EffortStandards", "estimate_standards", "forecast_noncase"]
 
@@ -196,13 +196,10 @@ def _month_coverage(quality: QualityResult) -> tuple[dict[tuple[str, int], float
     month_of = (records.drop_duplicates(["person", "period"])
                 .set_index(["person", "period"])["month"])
     ts = quality.timesheets.join(month_of, on=["person", "period"])
-    ts = ts[ts["month"].notna()]  # a timesheet with no records has no month to count in
-    hours = ts["coverage_hours"].fillna(0.0).astype(float)
-    frame = pd.DataFrame({"office": ts["office"].astype(str), "month": ts["month"].astype(int),
-                          "every": hours, "kept": hours.where(~ts["excluded"].astype(bool), 0.0)})
-    sums = frame.groupby(["office", "month"], as_index=False)[["every", "kept"]].sum()
-    factor = {(o, int(m)): float(a / k) for o, m, a, k in zip(
-        sums["office"], sums["month"], sums["every"], sums["kept"], strict=True) if k > 0}
+    ts = ts[ts["month"].notna()].astype({"month": int})  # no records: no month to count in
+    by_month = coverage(ts, ["office", "month"]).dropna(subset=["coverage_factor"])
+    factor = {(str(o), int(m)): float(f) for o, m, f in zip(
+        by_month["office"], by_month["month"], by_month["coverage_factor"], strict=True)}
     months: dict[str, set[int]] = {}
     for o, m in records.loc[~records["excluded"], ["office", "month"]].itertuples(index=False):
         months.setdefault(str(o), set()).add(int(m))

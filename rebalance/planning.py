@@ -21,7 +21,12 @@ from rebalance.plan import Plan, extract_plan, write_plan
 from rebalance.solve import SolveOptions, SolveResult, StageResult, Status, solve
 from rebalance.verify import Violation, verify_plan
 
-__all__ = ["PlanResult", "make_plan", "options_from_instance", "summary_dict", "write_outputs"]
+__all__ = ["BUILD_STAGE", "PlanResult", "make_plan", "options_from_instance", "summary_dict",
+           "write_outputs"]
+
+
+# The one stage of a run cut short while its model was built (no solver stage ran).
+BUILD_STAGE = "build"
 
 
 @dataclass(frozen=True)
@@ -120,7 +125,7 @@ def _built_too_late(instance: Instance, options: SolveOptions,
     if options.progress is not None:
         options.progress(f"model: {words}")
     status = Status.NO_PLAN_IN_TIME if cut_short.out_of == "time" else Status.ERROR
-    stage = StageResult("build", status, None, None, None, cut_short.seconds, words)
+    stage = StageResult(BUILD_STAGE, status, None, None, None, cut_short.seconds, words)
     solved = SolveResult(status, None, (stage,), backend.name, backend.version(), 0.0)
     return PlanResult(instance, options, status, None, solved, (), 0, 0, 0, cut_short.seconds,
                       0.0, 0.0)

@@ -9,7 +9,7 @@ import numpy as np
 import pandas as pd
 
 from rebalance.instance import Instance
-from rebalance.planning import CAUTION, PlanResult
+from rebalance.planning import BUILD_STAGE, CAUTION, PlanResult
 from rebalance.solve import StageResult, Status
 from rebalance.verify import Violation
 
@@ -129,7 +129,7 @@ def _verdict(result: PlanResult) -> str:
 def _outcome_lines(result: PlanResult) -> list[str]:
     s = result.solve
     lines = [f"Plan for {result.instance.name}: {STATUS_WORDS[result.status]}"]
-    if [stage.name for stage in s.stages] == ["build"]:
+    if [stage.name for stage in s.stages] == [BUILD_STAGE]:
         # Cut short while building: no model, so no model size and no stage to show.
         return [*lines, f"  {s.stages[0].solver_words}"]
     gap = s.gap

@@ -19,6 +19,7 @@ from typing import Any
 
 import pandas as pd
 
+from rebalance.planning import BUILD_STAGE
 from rebalance.report import analysis_view
 from rebalance.report.htmlparts import (
     NEAR_ZERO,
@@ -263,7 +264,7 @@ def _budget_rows(data: ReportData) -> list[dict[str, Any]]:
 
 def _quality_list(data: ReportData) -> str:
     """Each solve stage's outcome, and what its gap leaves open in the stage's own units."""
-    stages = [st for st in data.summary.stages if st.name != "build"]
+    stages = [st for st in data.summary.stages if st.name != BUILD_STAGE]
     if not stages:
         return ""
     return '<ul class="stages">' + "".join(

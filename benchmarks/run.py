@@ -65,7 +65,7 @@ COLUMNS = (
 
 def _peak_mib() -> tuple[float, float]:
     """Peak resident memory of this process and of its largest finished child, MiB: the
-    child is CBC, or HiGHS on models above ``rebalance.backends.HARD_STOP_NONZEROS``."""
+    child is CBC, or HiGHS on models above ``rebalance.backends.highs.HARD_STOP_NONZEROS``."""
     own = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024  # KiB on Linux
     child = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024
     return round(own, 1), round(child, 1)

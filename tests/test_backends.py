@@ -80,12 +80,12 @@ def test_a_run_in_a_child_process_gives_the_same_optimum_and_its_progress(monkey
     # in-process optimum, in both stages.
     from conftest import DATA, solve_verified
 
-    from rebalance import backends as backends_module
     from rebalance import read_instance
+    from rebalance.backends import highs as highs_module
 
     tiny = read_instance(DATA / "tiny")
     usual = solve_verified(tiny)
-    monkeypatch.setattr(backends_module, "HARD_STOP_NONZEROS", 0)
+    monkeypatch.setattr(highs_module, "HARD_STOP_NONZEROS", 0)
     forced = solve_verified(tiny)
     assert forced.status is usual.status
     assert forced.plan.weighted_shortfall == usual.plan.weighted_shortfall
@@ -112,8 +112,8 @@ def test_a_child_past_the_wall_clock_limit_is_stopped(monkeypatch):
     # once the limit and a grace have passed: no plan in time, never a hang.
     import time
 
-    from rebalance import backends as backends_module
     from rebalance.backends import BackendOutcome, SolveOptions, Status, run_in_child
+    from rebalance.backends import highs as highs_module
 
     def stuck(options: SolveOptions, on_plan, on_bound) -> BackendOutcome:
         time.sleep(60)
@@ -124,7 +124,7 @@ def test_a_child_past_the_wall_clock_limit_is_stopped(monkeypatch):
     assert time.perf_counter() - started < 10
     assert out.status is Status.NO_PLAN_IN_TIME and out.x is None
     assert out.killed
-    assert backends_module.HIGHS_GRACE_SECONDS > 0
+    assert highs_module.HIGHS_GRACE_SECONDS > 0
 
 
 def test_a_child_that_fails_reports_an_error_instead_of_a_plan():
@@ -169,15 +169,15 @@ def test_a_plan_found_by_a_child_before_the_kill_is_scored_and_kept(monkeypatch)
     # Through the backend: HiGHS in a child that is killed right after its first plans.
     from conftest import DATA
 
-    from rebalance import backends as backends_module
     from rebalance import read_instance
     from rebalance.backends import HighsBackend, SolveOptions, Status
+    from rebalance.backends import highs as highs_module
     from rebalance.model import build_model
 
     model = build_model(read_instance(DATA.parent.parent / "instances" / "demo"))
-    monkeypatch.setattr(backends_module, "HARD_STOP_NONZEROS", 0)
+    monkeypatch.setattr(highs_module, "HARD_STOP_NONZEROS", 0)
     # HiGHS is told 3.5 s, the kill comes at 3 s; it finds its first demo plans within 1 s.
-    monkeypatch.setattr(backends_module, "HIGHS_GRACE_SECONDS", -0.5)
+    monkeypatch.setattr(highs_module, "HIGHS_GRACE_SECONDS", -0.5)
     out = HighsBackend().run(model, model.shortfall_weight, [], SolveOptions(), 3.0, None)
     assert out.status is Status.FEASIBLE_WITH_GAP and out.words == "stopped at the time limit"
     assert out.killed
@@ -208,13 +208,13 @@ def test_a_small_mip_run_that_does_not_stop_is_killed_at_the_wall_clock(monkeypa
 
     from conftest import DATA
 
-    from rebalance import backends as backends_module
     from rebalance import read_instance
     from rebalance.backends import HighsBackend, SolveOptions, Status
+    from rebalance.backends import highs as highs_module
     from rebalance.model import build_model
 
     model = build_model(read_instance(DATA.parent.parent / "instances" / "demo"))
-    assert model.num_integer and model.matrix.nnz < backends_module.HARD_STOP_NONZEROS
+    assert model.num_integer and model.matrix.nnz < highs_module.HARD_STOP_NONZEROS
 
     def does_not_stop(self, *args, **kwargs):
         time.sleep(60)
@@ -321,7 +321,7 @@ def test_a_search_with_overtime_runs_past_its_limit_only_until_its_first_plan():
     import time
     from types import SimpleNamespace
 
-    from rebalance.backends import _watch_highs
+    from rebalance.backends.highs import _watch_highs
 
     h = SimpleNamespace(cbSimplexInterrupt=_Hook(), cbIpmInterrupt=_Hook(),
                         cbMipInterrupt=_Hook(), cbMipImprovingSolution=_Hook())
@@ -341,7 +341,7 @@ def test_a_search_with_overtime_runs_past_its_limit_only_until_its_first_plan():
 def test_cbc_is_stopped_in_its_overtime_once_its_log_shows_a_plan(tmp_path):
     import time
 
-    from rebalance.backends import _Deadline
+    from rebalance.backends.cbc import _Deadline
 
     log = tmp_path / "cbc.log"
     log.write_text("Cbc0010I After 0 nodes, 1 on tree, 1e+50 best solution, best possible 3\n")
@@ -368,7 +368,7 @@ def test_cbc_log_lines_reach_the_file_while_cbc_runs(tmp_path):
 
     import pulp
 
-    from rebalance.backends import _bundled_cbc, _cbc_launcher
+    from rebalance.backends.cbc import _bundled_cbc, _cbc_launcher
 
     if shutil.which("stdbuf") is None:
         pytest.skip("no stdbuf here: CBC's log comes in blocks (documented)")
@@ -396,3 +396,24 @@ def test_cbc_log_lines_reach_the_file_while_cbc_runs(tmp_path):
     assert still_running
     assert mid_run and mid_run.endswith("\n")
     assert log.read_text().startswith(mid_run)
+
+
+def test_cbc_gives_no_point_from_an_lp_it_stopped_part_way(tmp_path):
+    # PuLP reads CBC's "Stopped on iterations - objective value ..." as a feasible solution,
+    # but a simplex stopped part way holds no feasible point of an LP: with dual simplex this
+    # relaxation came back at 184.8 against its optimum of 333.1 (HiGHS).  Primal simplex
+    # solves it in about 5 s; one second must end in no point at all.
+    from rebalance.backends import CbcBackend, SolveOptions
+    from rebalance.generate import GeneratorSpec, generate, write_generated
+    from rebalance.model import build_model
+    from rebalance.readers import read_instance
+    from rebalance.solve import Status
+    from rebalance.split import relaxed
+
+    spec = GeneratorSpec(staff=300, offices=40, skills=6, periods=8, seed=3)
+    instance = read_instance(write_generated(generate(spec), tmp_path / "forty"))
+    model = build_model(instance)
+    out = CbcBackend().run(relaxed(model), model.shortfall_weight, [],
+                           SolveOptions(solver="cbc"), 1.0, None)
+    assert out.x is None and out.objective is None
+    assert out.status is Status.NO_PLAN_IN_TIME

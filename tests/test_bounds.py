@@ -163,9 +163,9 @@ def test_an_lp_asked_for_its_point_only_lands_near_the_optimum_and_its_prices_st
     # Large LPs wanted for a point to round go to HiGHS's first-order method (PDLP) with a
     # loose tolerance; here every LP counts as large.  Its objective is near scipy's optimum
     # but claims no bound; any prices, its own included, bound the optimum from below.
-    import rebalance.backends as backends
+    import rebalance.backends.highs as highs_module
 
-    monkeypatch.setattr(backends, "IPM_LP_COLUMNS", 0)
+    monkeypatch.setattr(highs_module, "IPM_LP_COLUMNS", 0)
     model, objectives = _model_and_objectives(seed)
     for objective in objectives:
         reference = _scipy_lp_optimum(model, objective)
@@ -173,7 +173,7 @@ def test_an_lp_asked_for_its_point_only_lands_near_the_optimum_and_its_prices_st
                               point_only=True)
         assert lp.status is Status.APPROXIMATE and lp.bound is None
         assert lp.x is not None and lp.row_dual is not None and lp.objective is not None
-        loose = 5 * backends.POINT_ONLY_TOLERANCE * (1.0 + abs(reference))
+        loose = 5 * highs_module.POINT_ONLY_TOLERANCE * (1.0 + abs(reference))
         assert float(objective @ lp.x) == pytest.approx(reference, abs=loose)
         scale = 1e-6 * (1.0 + abs(reference))
         assert dual_bound(model, objective, lp.row_dual) <= reference + scale

@@ -5,7 +5,8 @@ from rebalance.instance import Instance
 from rebalance.model import Model, build_model
 from rebalance.plan import Plan, extract_plan, read_plan
 from rebalance.planning import PlanResult, make_plan, options_from_instance, write_outputs
-from rebalance.readers import InstanceError, Problem, read_instance
+from rebalance.problems import Problem
+from rebalance.readers import InstanceError, read_instance
 from rebalance.solve import SolveOptions, SolveResult, Status, solve
 from rebalance.verify import Violation, verify_folder, verify_plan
 

@@ -2,7 +2,8 @@
 
 Rows are numbered as a spreadsheet shows them: the header is row 1, the first data row is row 2.
 Nothing here solves or writes anything; a caller gets an :class:`Instance` or an
-:class:`InstanceError` carrying the full list of :class:`Problem` records.
+:class:`InstanceError` carrying the full list of :class:`~rebalance.problems.Problem` records.
+The settings are checked by :mod:`rebalance.settings_reader`.
 """
 
 from __future__ import annotations
@@ -17,34 +18,34 @@ from collections import Counter
 from collections.abc import Iterator, Mapping
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, TypeGuard
+from typing import Any
 
 from rebalance.instance import (
     Budget,
     Demand,
     Instance,
     MoveCost,
-    MoveCostDefaults,
-    Objective,
     Office,
     Period,
     Person,
-    Policy,
     Skill,
-    SolverSettings,
+)
+from rebalance.problems import Problem, describe_range
+from rebalance.settings_reader import (
+    known_period_names,
+    read_money,
+    read_periods,
+    read_sections,
+    warn_unknown_settings,
 )
 
 __all__ = [
-    "SETTINGS_KEYS",
     "InstanceError",
     "NotUtf8",
-    "Problem",
     "RawTable",
     "TableRows",
     "collapse_repeats",
     "count_problems",
-    "describe_range",
-    "is_finite_number",
     "read_csv_table",
     "read_instance",
     "read_tables",
@@ -71,41 +72,8 @@ COLUMNS: dict[str, tuple[tuple[str, ...], tuple[str, ...]]] = {
     "attrition": (("skill", "annual_rate"), ("office",)),
     "budget": (("year",), ("hiring", "moves")),
 }
-# Every key settings.toml understands, dotted (plus horizon.periods, a list of tables with
-# name, year and hours_per_fte); the workbook's settings sheet takes the same keys.
-SETTINGS_KEYS = (
-    "horizon.start", "horizon.count", "horizon.hours_per_fte", "horizon.periods_per_year",
-    "policy.max_away_share", "policy.max_consecutive_detail_periods",
-    "move_costs.detail_cost_per_period", "move_costs.relocation_cost",
-    "move_costs.same_location_detail_cost_per_period",
-    "move_costs.same_location_relocation_cost",
-    "objective.mode", "objective.shortfall_cost", "objective.shortfall_tolerance",
-    "solver.name", "solver.time_limit_seconds", "solver.relative_gap", "solver.threads",
-    "solver.seed",
-)
-PERIOD_KEYS = ("name", "year", "hours_per_fte")
-MAX_SHORTFALL_COST = 1e12
 TRUE_WORDS = {"true", "yes", "y", "1"}
 FALSE_WORDS = {"false", "no", "n", "0"}
-
-
-@dataclass(frozen=True)
-class Problem:
-    """One thing wrong with the input, located as precisely as the input allows."""
-
-    file: str
-    row: int | None
-    column: str | None
-    message: str
-    is_warning: bool = False
-    # Rows this one line stands for: one fault on many rows is listed a few times, then once
-    # more for the rest (``collapse_repeats``), and a count of problems counts them all.
-    repeats: int = 1
-
-    def __str__(self) -> str:
-        where = self.file if self.row is None else f"{self.file}:{self.row}"
-        col = f" {self.column}:" if self.column else ""
-        return f"{where}:{col} {self.message}"
 
 
 def count_problems(problems: list[Problem]) -> int:
@@ -322,9 +290,12 @@ class TableRows:
     def __iter__(self) -> Iterator[dict[str, str]]:
         if not self.columns_ok:
             return
+        # A row a quote left open is said once, by table_problems: its cells hold the rows it
+        # swallowed, newlines and all, and reading them would say the fault again, unquotably.
+        swallowed = {number for number, _ in self.table.multiline_cells}
         for i, row in enumerate(self.table.rows):
             self.row_number = self.table.first_row_number + i
-            if any(row.values()):
+            if any(row.values()) and self.row_number not in swallowed:
                 yield row
 
     def error(self, column: str | None, message: str) -> None:
@@ -398,17 +369,6 @@ class TableRows:
         return value
 
 
-def describe_range(minimum: float | None, maximum: float | None, open_minimum: bool,
-              integer: bool) -> str:
-    kind = "a whole number" if integer else "a number"
-    if minimum is not None and maximum is not None:
-        left = "(" if open_minimum else "["
-        return f"{kind} in {left}{minimum:g}, {maximum:g}]"
-    if minimum is not None:
-        return f"{kind} {'>' if open_minimum else '>='} {minimum:g}"
-    return kind
-
-
 def _table_name(label: str) -> str:
     # "staff.csv" from a folder, "demo.xlsx[staff]" from a workbook.
     if label.endswith("]") and "[" in label:
@@ -419,191 +379,6 @@ def _table_name(label: str) -> str:
 SKILL_NAME = re.compile(r"^[A-Za-z0-9_.\-]+$")
 # A blank proficiency (``intake`` or ``intake:``) is 1.0.
 SKILL_TOKEN = re.compile(r"^([A-Za-z0-9_.\-]+)(?::([^:\s]*))?$")
-
-
-# --------------------------------------------------------------------------------------------
-# settings
-
-
-def _unknown_settings(settings: Mapping[str, Any], problems: list[Problem]) -> None:
-    """A warning for each setting nothing reads: a typo (``max_away_shares``) would otherwise
-    leave the default in force without a word."""
-    def warn(key: str, what: str, expected: list[str]) -> None:
-        problems.append(Problem("settings.toml", None, key, f"unknown {what}, ignored (expected "
-                                "one of: " + ", ".join(expected) + ")", is_warning=True))
-
-    sections = list(dict.fromkeys(key.partition(".")[0] for key in SETTINGS_KEYS))
-    for section, table in settings.items():
-        if section not in sections:
-            warn(section, "section", sections)
-            continue
-        if not isinstance(table, dict):
-            continue  # said by the reader of the section
-        keys = [k.partition(".")[2] for k in SETTINGS_KEYS if k.startswith(section + ".")]
-        keys += ["periods"] if section == "horizon" else []
-        for key in table:
-            if key not in keys:
-                warn(f"{section}.{key}", "key", keys)
-    listed = settings.get("horizon", {})
-    listed = listed.get("periods") if isinstance(listed, dict) else None
-    for i, entry in enumerate(listed if isinstance(listed, list) else [], 1):
-        for key in entry if isinstance(entry, dict) else {}:
-            if key not in PERIOD_KEYS:
-                warn(f"horizon.periods[{i}].{key}", "key", list(PERIOD_KEYS))
-
-
-def is_finite_number(value: Any) -> TypeGuard[int | float]:
-    """A finite TOML number: ``true`` is an int to Python, not a number to a planner, and
-    ``inf`` is no number of hours."""
-    return isinstance(value, int | float) and not isinstance(value, bool) and _finite(value)
-
-
-def _whole(value: Any) -> TypeGuard[int]:
-    """A TOML integer (``true`` is an int to Python, not a count)."""
-    return isinstance(value, int) and not isinstance(value, bool)
-
-
-def _finite(value: int | float) -> bool:
-    """Finite as a float: a TOML integer of 400 digits is not (it had raised OverflowError)."""
-    try:
-        return math.isfinite(value)
-    except OverflowError:
-        return False
-
-
-def _settings_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
-        tuple[Period, ...], int]:
-    def bad(key: str, message: str) -> None:
-        problems.append(Problem("settings.toml", None, key, message))
-
-    horizon = settings.get("horizon", {})
-    if not isinstance(horizon, dict):
-        bad("horizon", "must be a table")
-        return (), 4
-    periods_per_year = horizon.get("periods_per_year", 4)
-    if not _whole(periods_per_year) or periods_per_year < 1:
-        bad("horizon.periods_per_year", f"'{periods_per_year}' is not a whole number >= 1")
-        periods_per_year = 4
-    default_hours = horizon.get("hours_per_fte")
-    if default_hours is not None and (not is_finite_number(default_hours) or default_hours <= 0):
-        bad("horizon.hours_per_fte", f"'{default_hours}' is not a number > 0")
-        default_hours = None
-    periods: list[Period] = []
-    listed = horizon.get("periods")
-    if listed is not None:
-        if not isinstance(listed, list) or not listed:
-            bad("horizon.periods", "must be a non-empty list of {name, year[, hours_per_fte]}")
-            return (), periods_per_year
-        for i, entry in enumerate(listed, 1):
-            key = f"horizon.periods[{i}]"
-            if not isinstance(entry, dict) or "name" not in entry or "year" not in entry:
-                bad(key, "needs name and year")
-                continue
-            hours = entry.get("hours_per_fte", default_hours)
-            if not is_finite_number(hours) or hours <= 0:
-                bad(key + ".hours_per_fte", "is missing or not a number > 0 (no default given)")
-                continue
-            periods.append(Period(str(entry["name"]), str(entry["year"]), float(hours)))
-    else:
-        start, count = horizon.get("start"), horizon.get("count")
-        match = re.fullmatch(r"(\d{4})-Q([1-4])", str(start)) if start is not None else None
-        if start is None and count is None:
-            bad("horizon", "give either periods = [...] or start = \"YYYY-Qn\" with count = N")
-            return (), periods_per_year
-        # Each key said on its own, so a workbook can point at its row (a date typed in the
-        # start cell had read as "give either periods or start", with no row).
-        if match is None:
-            bad("horizon.start", "is missing" if start is None else
-                f"'{start}' is not a quarter; expected text such as \"2027-Q1\" (a spreadsheet "
-                "reads 2027-01-01 typed in a cell as a date)")
-        if not _whole(count) or count < 1:
-            bad("horizon.count", "is missing" if count is None else
-                f"'{count}' is not valid; expected a whole number >= 1")
-        if match is None or not _whole(count) or count < 1:
-            return (), periods_per_year
-        if default_hours is None:
-            if "hours_per_fte" not in horizon:  # a bad value is said above, once
-                bad("horizon.hours_per_fte", "is required when periods are generated from start")
-            return (), periods_per_year
-        year, quarter = int(match.group(1)), int(match.group(2))
-        for _ in range(count):
-            periods.append(Period(f"{year}-Q{quarter}", str(year), float(default_hours)))
-            quarter += 1
-            if quarter > 4:
-                year, quarter = year + 1, 1
-    names = [p.name for p in periods]
-    for name in {n for n in names if names.count(n) > 1}:
-        bad("horizon.periods", f"period '{name}' is listed twice")
-    return tuple(periods), periods_per_year
-
-
-def _settings_sections(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
-        Policy, MoveCostDefaults, Objective, SolverSettings]:
-    def section(name: str) -> dict[str, Any]:
-        value = settings.get(name, {})
-        if not isinstance(value, dict):
-            problems.append(Problem("settings.toml", None, name, "must be a table"))
-            return {}
-        return value
-
-    def num(sec: str, table: dict[str, Any], key: str, default: Any, low: float,
-            high: float | None = None, integer: bool = False, allow_none: bool = False) -> Any:
-        if key not in table:
-            return default
-        value = table[key]
-        ok = (_whole(value) if integer else is_finite_number(value)) and value >= low
-        ok = ok and (high is None or value <= high)
-        if not ok:
-            what = describe_range(low, high, False, integer)
-            shown = f"{value:g}" if isinstance(value, float) else value  # 1e+13, not 1e13's digits
-            problems.append(Problem("settings.toml", None, f"{sec}.{key}",
-                                    f"'{shown}' is not valid; expected {what}"))
-            return default
-        return value
-
-    policy_t = section("policy")
-    policy = Policy(
-        max_away_share=float(num("policy", policy_t, "max_away_share", 1.0, 0.0, 1.0)),
-        max_consecutive_detail_periods=num(
-            "policy", policy_t, "max_consecutive_detail_periods", None, 0, integer=True),
-    )
-    costs_t = section("move_costs")
-    defaults = MoveCostDefaults(
-        detail_cost_per_period=float(num("move_costs", costs_t, "detail_cost_per_period", 0.0, 0)),
-        relocation_cost=float(num("move_costs", costs_t, "relocation_cost", 0.0, 0)),
-        same_location_detail_cost_per_period=float(
-            num("move_costs", costs_t, "same_location_detail_cost_per_period", 0.0, 0)),
-        same_location_relocation_cost=float(
-            num("move_costs", costs_t, "same_location_relocation_cost", 0.0, 0)),
-    )
-    obj_t = section("objective")
-    mode = obj_t.get("mode", "shortfall-first")
-    if mode not in ("shortfall-first", "weighted"):
-        problems.append(Problem("settings.toml", None, "objective.mode",
-                                f"'{mode}' is not valid; expected shortfall-first or weighted"))
-        mode = "shortfall-first"
-    objective = Objective(
-        mode=mode,
-        # Past 1e12 the shortfall term swamps cost beyond what solvers' tolerances resolve
-        # (CBC called a feasible model infeasible at 1e100); mode shortfall-first is that.
-        shortfall_cost=float(num("objective", obj_t, "shortfall_cost", 100_000.0, 0,
-                                 MAX_SHORTFALL_COST)),
-        shortfall_tolerance=float(num("objective", obj_t, "shortfall_tolerance", 1e-6, 0, 0.1)),
-    )
-    solver_t = section("solver")
-    name = solver_t.get("name", "highs")
-    if name not in ("highs", "cbc"):
-        problems.append(Problem("settings.toml", None, "solver.name",
-                                f"'{name}' is not valid; expected highs or cbc"))
-        name = "highs"
-    solver = SolverSettings(
-        name=name,
-        time_limit_seconds=float(num("solver", solver_t, "time_limit_seconds", 300.0, 0.1)),
-        relative_gap=float(num("solver", solver_t, "relative_gap", 1e-4, 0.0, 1.0)),
-        threads=int(num("solver", solver_t, "threads", 1, 1, integer=True)),
-        seed=int(num("solver", solver_t, "seed", 0, 0, integer=True)),
-    )
-    return policy, defaults, objective, solver
 
 
 # --------------------------------------------------------------------------------------------
@@ -620,10 +395,10 @@ def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, 
     unread = any(p.file == "settings.toml" and p.column is None for p in problems)
     settings_problems: list[Problem] = [] if unread else problems
     if not unread:
-        _unknown_settings(settings, settings_problems)
-    periods, periods_per_year = _settings_periods(settings, settings_problems)
-    policy, defaults, objective, solver = _settings_sections(settings, settings_problems)
-    period_index = {p.name: i for i, p in enumerate(periods)}
+        warn_unknown_settings(settings, settings_problems)
+    periods, periods_per_year = read_periods(settings, settings_problems)
+    policy, defaults, objective, solver = read_sections(settings, settings_problems)
+    money = read_money(settings, settings_problems)
 
     def table(name: str) -> RawTable:
         # A missing file is already reported; read it as empty so other checks still run.
@@ -634,14 +409,15 @@ def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, 
         # UTF-8, a required column missing or named twice), every reference to it would read
         # as unknown: one fault, already said, would come back as a problem per row.
         raw = tables.get(name)
-        broken = raw is None or raw.fault is not None or any(
+        # A quote left open swallows the rows after it, names and all.
+        broken = raw is None or raw.fault is not None or bool(raw.multiline_cells) or any(
             p.file == raw.label and p.row in (None, 1) and not p.is_warning for p in problems)
         return None if broken else defined
 
     offices = _read_offices(table("offices"), problems)
     skills = _read_skills(table("skills"), problems)
     known_offices, known_skills = names(offices, "offices"), names(skills, "skills")
-    known_periods = None if unread or not periods else period_index
+    known_periods = None if unread else known_period_names(settings, periods)
     staff = _read_staff(table("staff"), problems, known_offices, known_skills, known_periods)
     demand = _read_demand(table("demand"), problems, known_offices, known_skills, periods,
                           known_periods, check_empty="demand" in tables)
@@ -688,6 +464,7 @@ def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, 
         move_cost_defaults=defaults,
         objective=objective,
         solver=solver,
+        money=money,
         warnings=tuple(str(p) for p in problems if p.is_warning),
     )
 
@@ -751,7 +528,7 @@ def _read_skills(table: RawTable, problems: list[Problem]) -> dict[str, Skill]:
 
 def _read_staff(table: RawTable, problems: list[Problem], offices: Mapping[str, Office] | None,
                 skills: Mapping[str, Skill] | None,
-                period_index: Mapping[str, int] | None) -> list[Person]:
+                period_index: Mapping[str, int | None] | None) -> list[Person]:
     rows, out = TableRows(table, problems), []
     seen: dict[str, int] = {}
     for row in rows:
@@ -814,7 +591,7 @@ def _parse_skills(rows: TableRows, raw: str, skills: Mapping[str, Skill] | None)
 
 def _read_demand(table: RawTable, problems: list[Problem], offices: Mapping[str, Office] | None,
                  skills: Mapping[str, Skill] | None, periods: tuple[Period, ...],
-                 known_periods: Mapping[str, int] | None,
+                 known_periods: Mapping[str, int | None] | None,
                  check_empty: bool = True) -> list[Demand]:
     rows, out = TableRows(table, problems), []
     seen: dict[tuple[str, str, str], int] = {}
@@ -951,8 +728,9 @@ def _read_budgets(table: RawTable, problems: list[Problem],
             out.append(Budget(year, hiring, moves))
     listed = {b.year for b in out}
     # A year that could not be read may be the one "missing": say nothing of missing years then.
-    unreadable = any(p.file == table.label and p.column == "year" and not p.is_warning
-                     for p in problems)
+    # So may the rows a quote left open swallowed.
+    unreadable = bool(table.multiline_cells) or any(
+        p.file == table.label and p.column == "year" and not p.is_warning for p in problems)
     if rows.columns_ok and not unreadable and given:
         for year in sorted(years - listed):
             problems.append(Problem(table.label, None, "year",

@@ -20,19 +20,20 @@ from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
+from openpyxl.worksheet.cell_range import CellRange
 from openpyxl.worksheet.formula import ArrayFormula, DataTableFormula
 
 from rebalance.instance import Instance
+from rebalance.problems import Problem
 from rebalance.readers import (
     COLUMNS,
     OPTIONAL_TABLES,
     REQUIRED_TABLES,
-    SETTINGS_KEYS,
     InstanceError,
-    Problem,
     RawTable,
     build_instance,
 )
+from rebalance.settings_reader import SETTINGS_KEYS
 
 __all__ = ["SETTINGS_KEYS", "folder_to_workbook", "read_workbook"]
 
@@ -54,6 +55,8 @@ class _Sheet:
     unnamed_cells: tuple[tuple[int, int], ...] = ()  # (row, column) filled under no name
     # (row, column) of formulas the file holds no value for: they would read as blank.
     unsaved_formulas: tuple[tuple[int, str], ...] = ()
+    # (row, column, range) of cells a merge left empty, a value showing over them.
+    merged_away: tuple[tuple[int, str, str], ...] = ()
 
 
 def read_workbook(path: str | Path) -> Instance:
@@ -83,6 +86,15 @@ def read_workbook(path: str | Path) -> Instance:
                                     "value: type it, or, if a program that does not calculate "
                                     "wrote the workbook, open and save it in a spreadsheet "
                                     "program"))
+    # Read as blank, a merged-away cell would mean "no limit" or a default: an error, said
+    # once in place of what the blank would otherwise raise.
+    merged: dict[tuple[str, int | None, str | None], str] = {}
+    for name, read in sheets.items():
+        for row, column, cells in read.merged_away:
+            problem = Problem(label(name), row, column, f"empty because cells {cells} are "
+                              "merged; unmerge them and fill each cell")
+            problems.append(problem)
+            merged[(problem.file, row, column)] = problem.message
     tables: dict[str, RawTable] = {}
     for name in REQUIRED_TABLES + OPTIONAL_TABLES:
         sheet = sheets.get(name)
@@ -113,8 +125,9 @@ def read_workbook(path: str | Path) -> Instance:
     try:
         instance = build_instance(name, settings, tables, problems)
     except InstanceError as exc:
-        raise InstanceError([_relabel(p, book, key_rows, periods_sheet)
-                             for p in exc.problems]) from None
+        said = [_relabel(p, book, key_rows, periods_sheet) for p in exc.problems]
+        raise InstanceError([p for p in said if merged.get((p.file, p.row, p.column),
+                                                           p.message) == p.message]) from None
     warnings = tuple(str(_relabel(p, book, key_rows, periods_sheet)) for p in problems
                      if p.is_warning)
     return instance.with_changes(warnings=warnings)
@@ -152,6 +165,14 @@ def _load_sheets(path: Path) -> tuple[dict[str, _Sheet], list[Problem]]:
                 problems.append(Problem(ws.title, None, None, "the sheet is hidden; read all "
                                         "the same, as every sheet is", is_warning=True))
             values = [tuple(r) for r in ws.iter_rows(values_only=True)]
+            used = _used_columns(key)
+            hidden, merges = _layout(ws) if used else ((), ())
+            shown = [r for r in hidden if r <= len(values) and any(_text(c) for c in
+                                                                    values[r - 1])]
+            if shown:
+                problems.append(Problem(ws.title, None, None, f"{_rows_words(shown)} hidden "
+                                        "(by a filter or by hand); read all the same, as "
+                                        "every row is", is_warning=True))
             header = [_text(c) for c in values[0]] if values else []
             while header and header[-1] == "":
                 header.pop()
@@ -170,7 +191,8 @@ def _load_sheets(path: Path) -> tuple[dict[str, _Sheet], list[Problem]]:
                                         "them (delete the rows above)"))
                 out[key] = _Sheet((), (), ())
                 continue
-            out[key] = _sheet(header, values, ws_text.iter_rows(values_only=True))
+            out[key] = _sheet(header, values, ws_text.iter_rows(values_only=True), merges,
+                              used)
         return out, problems
     finally:
         wb.close()
@@ -194,9 +216,87 @@ def _header_below(key: str, header: list[str], values: list[tuple[Any, ...]]) ->
     return None
 
 
+def _used_columns(key: str) -> frozenset[str]:
+    """The columns the reader takes from sheet ``key`` (none from a sheet it ignores)."""
+    if key in COLUMNS:
+        return frozenset(COLUMNS[key][0] + COLUMNS[key][1])
+    if key == SETTINGS_SHEET:
+        return frozenset(SHEET_COLUMNS[key])
+    if key == PERIODS_SHEET:
+        return frozenset(PERIOD_COLUMNS)
+    return frozenset()
+
+
+def _layout(ws: Any) -> tuple[tuple[int, ...], tuple[CellRange, ...]]:
+    """The hidden rows and the merged ranges of a read-only sheet.
+
+    Read-only mode shows neither, and a full load of the book would cost far more than the
+    two passes that read it; one more pass over the sheet's XML, keeping no cells, is cheap.
+    """
+    from openpyxl.xml.functions import iterparse
+
+    hidden: list[int] = []
+    merges: list[CellRange] = []
+    row = 0
+    with ws._get_source() as source:  # the sheet's XML, as openpyxl's own reader opens it
+        for _, element in iterparse(source):
+            tag = element.tag.rpartition("}")[2]
+            if tag == "row":
+                # r may be left out: the row after the one before (ECMA-376, CT_Row).
+                row = int(element.get("r") or row + 1)
+                if element.get("hidden") in ("1", "true"):
+                    hidden.append(row)
+                element.clear()
+            elif tag == "mergeCell" and element.get("ref"):
+                merges.append(CellRange(element.get("ref")))
+    return tuple(hidden), tuple(merges)
+
+
+def _rows_words(rows: list[int]) -> str:
+    """``rows 3, 5-7`` (the first spans of many, then how many rows in all)."""
+    spans: list[list[int]] = []
+    for row in rows:
+        if spans and row == spans[-1][1] + 1:
+            spans[-1][1] = row
+        else:
+            spans.append([row, row])
+    words = [str(a) if a == b else f"{a}-{b}" for a, b in spans[:8]]
+    if len(spans) > 8:
+        words.append(f"... ({len(rows)} rows in all)")
+    if len(rows) == 1:
+        return f"row {rows[0]} is"
+    return "rows " + ", ".join(words) + " are"
+
+
+def _merged_away(header: list[str], values: list[tuple[Any, ...]], merges: Iterable[CellRange],
+                 used: frozenset[str]) -> list[tuple[int, str, str]]:
+    """(row, column, range) of each cell a merge leaves empty while the range shows a value:
+    in a column the reader takes, or a header cell over values."""
+    def value(row: int, col: int) -> Any:
+        cells = values[row - 1] if row <= len(values) else ()
+        return cells[col - 1] if col <= len(cells) else None
+
+    out = []
+    for merge in merges:
+        if _text(value(merge.min_row, merge.min_col)) == "":
+            continue  # a blank shown as blank: nothing is lost
+        for row, col in merge.cells:
+            if (row, col) == (merge.min_row, merge.min_col):
+                continue
+            name = header[col - 1] if col <= len(header) else ""
+            if row == 1 and not name and any(_text(value(r, col))
+                                             for r in range(2, len(values) + 1)):
+                out.append((1, col, f"column {col}", merge.coord))
+            elif row > 1 and name.lower() in used:
+                out.append((row, col, name, merge.coord))
+    return [(row, name, coord) for row, _, name, coord in sorted(out)]  # as the sheet reads
+
+
 def _sheet(header: list[str], values: list[tuple[Any, ...]],
-           texts: Iterable[tuple[Any, ...]]) -> _Sheet:
-    """A sheet from its header, its cells' values and their texts (formulas as written)."""
+           texts: Iterable[tuple[Any, ...]], merges: Iterable[CellRange] = (),
+           used: frozenset[str] = frozenset()) -> _Sheet:
+    """A sheet from its header, its cells' values and their texts (formulas as written), its
+    merged ranges and the columns the reader takes from it."""
     rows, overlong, unnamed = [], [], []
     for number, cells in enumerate(values[1:], 2):
         padded = list(cells) + [None] * (len(header) - len(cells))
@@ -214,7 +314,8 @@ def _sheet(header: list[str], values: list[tuple[Any, ...]],
                 column = header[i] if i < len(header) and header[i] else f"column {i + 1}"
                 unsaved.append((number, column))
     return _Sheet(tuple(header), tuple(rows), tuple(values[1:]), tuple(overlong),
-                  tuple(unnamed), tuple(unsaved))
+                  tuple(unnamed), tuple(unsaved),
+                  tuple(_merged_away(header, values, merges, used)))
 
 
 def _text(value: Any) -> str:

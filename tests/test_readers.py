@@ -179,8 +179,9 @@ def test_a_setting_nothing_reads_is_a_warning_and_true_is_no_number(tmp_path):
             "max_away_share, max_consecutive_detail_periods)") in warnings
     assert any(w.startswith("settings.toml: extras: unknown section") for w in warnings)
     settings.write_text(text.replace("hours_per_fte = 480", "hours_per_fte = true"))
+    # TOML's own spelling: 'True' is a word the file does not hold (a docs sweep).
     assert _problems(target) == [
-        "settings.toml: horizon.hours_per_fte: 'True' is not a number > 0"]
+        "settings.toml: horizon.hours_per_fte: 'true' is not valid; expected a number > 0"]
 
 
 def test_a_blank_proficiency_is_one_and_every_bad_budget_cell_is_said(tmp_path):
@@ -200,7 +201,8 @@ def test_a_blank_proficiency_is_one_and_every_bad_budget_cell_is_said(tmp_path):
 
 
 def test_a_count_of_problems_counts_the_rows_a_repeat_stands_for():
-    from rebalance.readers import Problem, collapse_repeats, count_problems
+    from rebalance.problems import Problem
+    from rebalance.readers import collapse_repeats, count_problems
 
     problems = [Problem("staff.csv", row, "home_office", "unknown office 'X'")
                 for row in range(2, 17)]
@@ -225,8 +227,8 @@ def test_settings_numbers_are_finite_and_shortfall_cost_is_bounded(tmp_path):
         problems = _problems(target)
         assert len(problems) == 1 and expected in problems[0], problems
     settings.write_text(text.replace("hours_per_fte = 480", "hours_per_fte = inf"))
-    assert _problems(target) == ["settings.toml: horizon.hours_per_fte: 'inf' is not a "
-                                 "number > 0"]
+    assert _problems(target) == ["settings.toml: horizon.hours_per_fte: 'inf' is not valid; "
+                                 "expected a number > 0"]
 
 
 def test_the_count_of_problems_includes_the_rows_a_repeat_stands_for(tmp_path, capsys):
@@ -259,3 +261,145 @@ def test_a_names_table_not_utf8_and_a_huge_integer_are_said_once(tmp_path):
                         + "\n[objective]\nshortfall_cost = 1" + "0" * 400 + "\n")
     problems = _problems(target)
     assert len(problems) == 2 and all("settings.toml" in p for p in problems), problems
+
+
+def test_a_currency_is_read_stripped_and_carried_on_the_instance(tmp_path):
+    target = overlay(BAD / "empty_demand", tmp_path / "i")
+    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    assert read_instance(target).money.currency is None  # none given: amounts stay bare
+    settings = target / "settings.toml"
+    text = settings.read_text()
+    for given, read in (('"EUR"', "EUR"), ('" € "', "€"), ('"kr."', "kr."), ('"US$"', "US$")):
+        settings.write_text(text + f"\n[money]\ncurrency = {given}\n")
+        instance = read_instance(target)
+        assert instance.money.currency == read
+        assert not any("money" in w for w in instance.warnings)
+    with pytest.raises(AttributeError):
+        instance.money.currency = "USD"  # type: ignore[misc]  # frozen like every setting
+
+
+def test_every_bad_currency_is_said_with_its_key_and_what_is_expected(tmp_path):
+    target = overlay(BAD / "empty_demand", tmp_path / "i")
+    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    settings = target / "settings.toml"
+    text = settings.read_text()
+    expected = ("is not valid; expected text of 1 to 5 characters without spaces, such as "
+                '"EUR", "USD" or "€"')
+    for given, shown in (('"EUROS!"', "EUROS!"), ('""', ""), ('"  "', "  "), ("978", "978"),
+                         ('"US D"', "US D"), ('"E\\tR"', "E\tR"), ("true", "true")):
+        settings.write_text(text + f"\n[money]\ncurrency = {given}\n")
+        assert _problems(target) == [f"settings.toml: money.currency: '{shown}' {expected}"]
+    # With other bad settings, all at once; a misspelt key is a warning naming the right one.
+    settings.write_text(text + '\n[money]\ncurrency = "EURO"\ncurency = "EUR"\n')
+    warnings = read_instance(target).warnings
+    assert ("settings.toml: money.curency: unknown key, ignored (expected one of: currency)"
+            in warnings)
+    settings.write_text(text.replace("max_away_share = 0.5", "max_away_share = 2")
+                        + '\n[money]\ncurrency = "EURO DOLLAR"\n')
+    problems = _problems(target)
+    assert len(problems) == 2 and problems[0].startswith("settings.toml: policy.max_away_share")
+    assert problems[1].startswith("settings.toml: money.currency: 'EURO DOLLAR' is not valid")
+    settings.write_text("money = 5\n" + text)  # a top-level key: before any [section]
+    assert _problems(target) == ["settings.toml: money: must be a table"]
+
+
+EXPLICIT_PERIODS = "".join(f'[[horizon.periods]]\nname = "2027-Q{q}"\nyear = "2027"\n'
+                           for q in range(1, 5))
+
+
+def _with_explicit_periods(tmp_path: Path, entry_2: str, default: str = "480") -> Path:
+    """The tiny instance with its quarters listed one by one, the second as ``entry_2``."""
+    target = overlay(BAD / "empty_demand", tmp_path / "i")
+    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    text = (target / "settings.toml").read_text()
+    text = text.replace('start = "2027-Q1"\ncount = 4\n', "")
+    text = text.replace("hours_per_fte = 480", f"hours_per_fte = {default}" if default else "")
+    listed = EXPLICIT_PERIODS.replace('name = "2027-Q2"\nyear = "2027"\n', entry_2)
+    (target / "settings.toml").write_text(text.replace("[policy]", listed + "\n[policy]"))
+    return target
+
+
+def test_one_unreadable_period_entry_is_said_once_naming_what_it_holds(tmp_path):
+    # A docs sweep: hours_per_fte = -3 on one entry, or its year left out, also drew "unknown
+    # period" from every staff and demand row naming that period (10 problems for one), and
+    # the message said "is missing ... (no default given)" of a value present with a default.
+    year = "the budget year its spending falls in, as text such as \"FY27\""
+    for i, (entry, expected) in enumerate((
+            ('name = "2027-Q2"\nyear = "2027"\nhours_per_fte = -3\n',
+             "horizon.periods[2].hours_per_fte: '-3' is not valid; expected a number > 0"),
+            ('name = "2027-Q2"\n', f"horizon.periods[2].year: is missing; expected {year}"),
+            ('name = "2027-Q2"\nyear = true\n',
+             f"horizon.periods[2].year: 'true' is not valid; expected {year}"),
+            ('year = "2027"\n', "horizon.periods[2].name: is missing; expected the period's "
+                                "name, as text such as \"FY27-P1\""))):
+        target = _with_explicit_periods(tmp_path / str(i), entry)
+        assert _problems(target) == [f"settings.toml: {expected}"]
+    # With no default, each entry without its own hours says so, and how to give them.
+    target = _with_explicit_periods(tmp_path / "none", 'name = "2027-Q2"\nyear = "2027"\n'
+                                    'hours_per_fte = 400\n', default="")
+    problems = _problems(target)
+    assert len(problems) == 3 and problems[0] == (
+        "settings.toml: horizon.periods[1].hours_per_fte: is missing and horizon.hours_per_fte "
+        "gives no default; expected a number > 0 here or in horizon.hours_per_fte")
+    # The period that could not be read still has its name: a row naming another is unknown.
+    target = _with_explicit_periods(tmp_path / "other", 'name = "2027-Q2"\n')
+    (target / "demand.csv").write_text("office,skill,period,fte\nA,review,2027-Q2,1\n"
+                                       "A,review,2031-Q1,1\n")
+    assert _problems(target)[1:] == ["demand.csv:3: period: unknown period '2031-Q1'; "
+                                     "expected one listed in settings.toml"]
+
+
+def test_periods_listed_with_start_and_count_warn_that_those_are_ignored(tmp_path):
+    target = _with_explicit_periods(tmp_path, 'name = "2027-Q2"\nyear = "2027"\n')
+    settings = target / "settings.toml"
+    settings.write_text(settings.read_text().replace("[horizon]\n",
+                                                     '[horizon]\nstart = "2030-Q1"\ncount = 2\n'))
+    instance = read_instance(target)
+    assert [p.name for p in instance.periods] == [f"2027-Q{q}" for q in range(1, 5)]
+    for key in ("start", "count"):
+        assert (f"settings.toml: horizon.{key}: ignored, as horizon.periods lists the periods; "
+                "expected either [[horizon.periods]] or start and count, not both"
+                in instance.warnings)
+
+
+def test_a_whole_float_is_a_whole_number_in_settings_as_in_cells(tmp_path):
+    # A docs sweep: count = 4.0 was refused though a cell of 2.0 reads as whole.
+    target = overlay(BAD / "empty_demand", tmp_path / "i")
+    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    settings = target / "settings.toml"
+    text = settings.read_text().replace("count = 4", "count = 4.0").replace(
+        "max_consecutive_detail_periods = 2", "max_consecutive_detail_periods = 2.0")
+    settings.write_text(text.replace("[horizon]", "[horizon]\nperiods_per_year = 4.0")
+                        + "threads = 2.0\nseed = 7.0\n")
+    instance = read_instance(target)
+    assert len(instance.periods) == 4 and instance.periods_per_year == 4
+    assert (instance.solver.threads, instance.solver.seed) == (2, 7)
+    assert instance.policy.max_consecutive_detail_periods == 2
+    assert all(type(v) is int for v in (instance.periods_per_year, instance.solver.threads,
+                                        instance.solver.seed,
+                                        instance.policy.max_consecutive_detail_periods))
+    settings.write_text(text.replace("count = 4.0", "count = 4.5") + "threads = true\n")
+    assert _problems(target) == [
+        "settings.toml: horizon.count: '4.5' is not valid; expected a whole number >= 1",
+        "settings.toml: solver.threads: 'true' is not valid; expected a whole number >= 1"]
+
+
+def test_an_unclosed_quote_is_one_problem_on_one_line(tmp_path):
+    # A docs sweep: in budget.csv the swallowed text came back as a second error, newline and
+    # all, with a warning that the swallowed year had no row; in offices.csv every staff row
+    # naming a swallowed office was unknown.
+    target = overlay(BAD / "empty_demand", tmp_path / "i")
+    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    settings = target / "settings.toml"
+    settings.write_text(settings.read_text().replace("count = 4", "count = 8"))
+    (target / "budget.csv").write_text('year,hiring,moves\n2027,"40000,30000\n2028,1,1\n')
+    with pytest.raises(InstanceError) as caught:
+        read_instance(target)
+    assert [str(p) for p in caught.value.problems] == [
+        "budget.csv:2: hiring: runs over several lines (a quote that is not closed?); "
+        "expected one line per row"]
+    shutil.copy(DATA / "tiny" / "budget.csv", target / "budget.csv")
+    shutil.copy(BAD / "unclosed_quote" / "offices.csv", target / "offices.csv")
+    assert _problems(target) == [
+        "offices.csv:2: location: runs over several lines (a quote that is not closed?); "
+        "expected one line per row"]

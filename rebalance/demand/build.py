@@ -29,13 +29,9 @@ from rebalance.demand.quality import QualityResult, check_quality
 from rebalance.demand.standards import EffortStandards, estimate_standards, forecast_noncase
 from rebalance.files import sibling_name, staged_folder
 from rebalance.instance import Period
-from rebalance.readers import (
-    Problem,
-    _settings_periods,
-    collapse_repeats,
-    read_tables,
-    table_problems,
-)
+from rebalance.problems import Problem
+from rebalance.readers import collapse_repeats, read_tables, table_problems
+from rebalance.settings_reader import read_periods
 
 __all__ = ["DemandResult", "build_demand", "run_demand", "write_demand"]
 
@@ -97,7 +93,7 @@ def _instance_context(folder: Path, problems: list[Problem]) -> tuple[
     # demand.csv is what we are about to write; only these files matter here.
     problems.extend(p for p in found if p.file in ("settings.toml", "offices.csv", "skills.csv")
                     or p.file == str(folder))
-    periods, _ = _settings_periods(settings, problems) if settings else ((), 4)
+    periods, _ = read_periods(settings, problems) if settings else ((), 4)
     for p in periods:
         if QUARTER.match(p.name) is None:
             problems.append(Problem("settings.toml", None, "horizon.periods",

@@ -19,14 +19,12 @@ from typing import Any
 
 import pandas as pd
 
+from rebalance.problems import Problem, describe_range, is_finite_number
 from rebalance.readers import (
     InstanceError,
     NotUtf8,
-    Problem,
     RawTable,
     TableRows,
-    describe_range,
-    is_finite_number,
     read_csv_table,
     read_utf8,
     table_problems,
@@ -328,7 +326,8 @@ def _describe(spec: Range) -> str:
 
 def _in_range(value: Any, spec: Range) -> bool:
     low, high, open_low, open_high, whole = spec
-    if not is_finite_number(value) or (whole and not isinstance(value, int)):
+    # A float such as 4.0 is whole, as in settings.toml and in CSV and workbook cells.
+    if not is_finite_number(value) or (whole and value != int(value)):
         return False
     if value < low or (open_low and value == low):
         return False

@@ -237,3 +237,16 @@ def test_a_month_far_above_its_series_is_said_and_kept(tmp_path: Path,
     assert main(["demand", str(hist), "-o", str(inst)]) == EXIT_OK
     err = capsys.readouterr().err
     assert "10,000 cases, over 5 times its usual month (100)" in err
+
+
+def test_a_whole_float_is_a_whole_number_in_demand_toml(tmp_path: Path) -> None:
+    # A docs sweep: anomaly_window = 6.0 was refused though a cell of 6.0 reads as whole.
+    from rebalance.demand.history import _read_settings
+
+    file = tmp_path / "demand.toml"
+    file.write_text("[quality]\nanomaly_window = 8.0\n[forecast]\nholdout_months = 6.0\n")
+    problems: list = []
+    settings = _read_settings(file, None, problems)
+    assert problems == []
+    assert settings.quality.anomaly_window == 8 and type(settings.quality.anomaly_window) is int
+    assert type(settings.forecast.holdout_months) is int

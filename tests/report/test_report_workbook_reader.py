@@ -36,6 +36,26 @@ def test_folder_and_workbook_give_the_same_instance(folder, tmp_path):
     assert _same(read_instance(folder), from_book)
 
 
+def test_a_currency_goes_through_a_workbook_and_a_bad_one_names_its_row(tmp_path):
+    import shutil
+
+    folder = tmp_path / "tiny"
+    shutil.copytree(TINY, folder)
+    settings = folder / "settings.toml"
+    settings.write_text(settings.read_text() + '\n[money]\ncurrency = "EUR"\n')
+    book = folder_to_workbook(folder, tmp_path / "tiny.xlsx")
+    from_book = read_instance(book)
+    assert from_book.money.currency == "EUR" and _same(read_instance(folder), from_book)
+    wb = load_workbook(book)
+    row = next(r for r in wb["settings"].iter_rows(min_row=2) if r[0].value == "money.currency")
+    row[1].value = 978  # a number typed where a label belongs
+    wb.save(book)
+    with pytest.raises(InstanceError) as caught:
+        read_instance(book)
+    (problem,) = [str(p) for p in caught.value.problems if not p.is_warning]
+    assert f":{row[0].row}: " in problem and "'978' is not valid" in problem, problem
+
+
 def test_workbook_written_by_another_writer_reads_the_same(tmp_path):
     # Reference writer: pandas.DataFrame.to_excel, so the reader is not only checked against
     # workbooks our own writer makes.  Cells are typed the way pandas infers them.
@@ -189,8 +209,8 @@ def test_a_column_named_twice_or_not_at_all_is_an_error(tmp_path):
     assert not any(t.startswith("tiny.xlsx[demand]:2") for t in text), text  # rows unread
     assert any(t.startswith("tiny.xlsx[offices]:2: column 5: a value under a column with no "
                             "name") for t in text), text
-    assert any(t.startswith("tiny.xlsx[settings]:") and "horizon.hours_per_fte: 'True' is not "
-               "a number > 0" in t for t in text), text
+    assert any(t.startswith("tiny.xlsx[settings]:") and "horizon.hours_per_fte: 'true' is not "
+               "valid; expected a number > 0" in t for t in text), text
 
 
 def test_a_header_moved_down_is_said_first(tmp_path):
@@ -348,3 +368,103 @@ def test_a_date_in_the_horizon_start_cell_points_at_its_row(tmp_path):
     assert len(text) == 1 and text[0].startswith(f"tiny.xlsx[settings]:{row}: value: "
                                                  "horizon.start: '2027-01-01T00:00:00' is not "
                                                  "a quarter")
+
+
+def test_merged_cells_are_named_as_merged_not_just_empty(tmp_path):
+    # A merge keeps its value in the top-left cell only (ECMA-376 Part 1, 18.3.1.55
+    # mergeCell); the others had read as "is empty", and in seats, a blank meaning "no seat
+    # limit", as nothing at all.
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    wb["offices"].merge_cells("B2:B3")  # location, required
+    wb["offices"].merge_cells("C2:C3")  # seats, optional
+    wb["staff"]["C3"] = 7  # an unrelated problem, said as well
+    ws = wb["settings"]
+    ws.cell(_settings_row(ws, "horizon.count"), 2).value = None
+    at = _settings_row(ws, "horizon.start")
+    ws.merge_cells(start_row=at, start_column=2, end_row=_settings_row(ws, "horizon.count"),
+                   end_column=2)
+    wb.save(book)
+    with pytest.raises(InstanceError) as caught:
+        read_workbook(book)
+    text = [str(p) for p in caught.value.problems]
+    count_row = _settings_row(load_workbook(book)["settings"], "horizon.count")
+    where = f"B{at}:B{count_row}"
+    for expected in ("tiny.xlsx[offices]:3: location: empty because cells B2:B3 are merged; "
+                     "unmerge them and fill each cell",
+                     "tiny.xlsx[offices]:3: seats: empty because cells C2:C3 are merged; "
+                     "unmerge them and fill each cell",
+                     f"tiny.xlsx[settings]:{count_row}: value: empty because cells {where} are "
+                     "merged; unmerge them and fill each cell"):
+        assert expected in text, text
+    assert any(t.startswith("tiny.xlsx[staff]:3: fte:") for t in text), text
+    # Said once per cell: not also as a plain blank.
+    assert not any(t.startswith("tiny.xlsx[offices]:3: location: is empty") for t in text), text
+
+
+def test_a_merged_blank_or_a_merge_in_an_unread_column_is_no_problem(tmp_path):
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    wb["offices"]["F2"] = "a note spread over two rows"
+    wb["offices"]["F1"] = "note"  # a column the reader does not take: warned, not read
+    wb["offices"].merge_cells("F2:F3")
+    wb["demand"].merge_cells("G2:H3")  # blank cells right of the table, merged for looks
+    wb.save(book)
+    assert _same(read_instance(TINY), read_workbook(book))
+
+
+def _hidden_warnings(instance) -> list[str]:
+    return [w for w in instance.warnings if "hidden" in w]
+
+
+def test_rows_hidden_by_hand_are_read_with_a_warning(tmp_path):
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    for row in (3, 4, 9):
+        wb["demand"].row_dimensions[row].hidden = True
+    wb["staff"].row_dimensions[40].hidden = True  # a blank row: nothing is read from it
+    wb.save(book)
+    instance = read_workbook(book)
+    assert _same(read_instance(TINY), instance)
+    assert _hidden_warnings(instance) == [
+        "tiny.xlsx[demand]: rows 3-4, 9 are hidden (by a filter or by hand); read all the "
+        "same, as every row is"]
+
+
+def test_rows_hidden_by_a_filter_are_read_with_a_warning(tmp_path):
+    # Reference writer: XlsxWriter, whose documentation says a filter's rows must be hidden
+    # by the writer itself (worksheet.autofilter, filter_column, set_row hidden), as a
+    # spreadsheet program saves them.
+    from xlsxwriter import Workbook
+
+    source = load_workbook(folder_to_workbook(TINY, tmp_path / "source.xlsx"))
+    book = tmp_path / "tiny.xlsx"
+    out = Workbook(str(book))
+    for ws in source.worksheets:
+        sheet = out.add_worksheet(ws.title)
+        rows = list(ws.iter_rows(values_only=True))
+        for i, cells in enumerate(rows):
+            for j, value in enumerate(cells):
+                if value is not None:
+                    sheet.write(i, j, value)
+        if ws.title == "staff":
+            office = rows[0].index("home_office")
+            sheet.autofilter(0, 0, len(rows) - 1, len(rows[0]) - 1)
+            sheet.filter_column(office, "x == A")
+            for i, cells in enumerate(rows[1:], 1):
+                if cells[office] != "A":
+                    sheet.set_row(i, None, None, {"hidden": True})
+            hidden = [i + 1 for i, cells in enumerate(rows[1:], 1) if cells[office] != "A"]
+    out.close()
+    instance = read_workbook(book)
+    assert _same(read_instance(TINY), instance)
+    rows = ", ".join(str(r) for r in hidden)
+    assert hidden and _hidden_warnings(instance) == [
+        f"tiny.xlsx[staff]: row{'s' if len(hidden) > 1 else ''} {rows} "
+        f"{'are' if len(hidden) > 1 else 'is'} hidden (by a filter or by hand); read all the "
+        "same, as every row is"]
+    # The console shows it as every other input warning.
+    run = subprocess.run([sys.executable, "-m", "rebalance.cli", "check", str(book)],
+                         capture_output=True, text=True)
+    assert run.returncode == 0, run.stderr
+    assert "warning: tiny.xlsx[staff]: row" in run.stdout + run.stderr

@@ -1,0 +1,304 @@
+"""Read the settings of an instance: horizon and periods, policy, move-cost defaults, objective,
+solver and money, from settings.toml (or a workbook's settings sheet, given as the same keys).
+
+Every problem is collected, not just the first, each naming the dotted key it is about.
+"""
+
+from __future__ import annotations
+
+import re
+from collections.abc import Mapping
+from typing import Any, TypeGuard
+
+from rebalance.instance import Money, MoveCostDefaults, Objective, Period, Policy, SolverSettings
+from rebalance.problems import Problem, describe_range, is_finite_number
+
+__all__ = [
+    "SETTINGS_KEYS",
+    "known_period_names",
+    "read_money",
+    "read_periods",
+    "read_sections",
+    "warn_unknown_settings",
+]
+
+# Every key settings.toml understands, dotted (plus horizon.periods, a list of tables with
+# name, year and hours_per_fte); the workbook's settings sheet takes the same keys.
+SETTINGS_KEYS = (
+    "horizon.start", "horizon.count", "horizon.hours_per_fte", "horizon.periods_per_year",
+    "policy.max_away_share", "policy.max_consecutive_detail_periods",
+    "move_costs.detail_cost_per_period", "move_costs.relocation_cost",
+    "move_costs.same_location_detail_cost_per_period",
+    "move_costs.same_location_relocation_cost",
+    "objective.mode", "objective.shortfall_cost", "objective.shortfall_tolerance",
+    "solver.name", "solver.time_limit_seconds", "solver.relative_gap", "solver.threads",
+    "solver.seed", "money.currency",
+)
+PERIOD_KEYS = ("name", "year", "hours_per_fte")
+MAX_SHORTFALL_COST = 1e12
+
+
+def warn_unknown_settings(settings: Mapping[str, Any], problems: list[Problem]) -> None:
+    """A warning for each setting nothing reads: a typo (``max_away_shares``) would otherwise
+    leave the default in force without a word."""
+    def warn(key: str, what: str, expected: list[str]) -> None:
+        problems.append(Problem("settings.toml", None, key, f"unknown {what}, ignored (expected "
+                                "one of: " + ", ".join(expected) + ")", is_warning=True))
+
+    sections = list(dict.fromkeys(key.partition(".")[0] for key in SETTINGS_KEYS))
+    for section, table in settings.items():
+        if section not in sections:
+            warn(section, "section", sections)
+            continue
+        if not isinstance(table, dict):
+            continue  # said by the reader of the section
+        keys = [k.partition(".")[2] for k in SETTINGS_KEYS if k.startswith(section + ".")]
+        keys += ["periods"] if section == "horizon" else []
+        for key in table:
+            if key not in keys:
+                warn(f"{section}.{key}", "key", keys)
+    listed = settings.get("horizon", {})
+    listed = listed.get("periods") if isinstance(listed, dict) else None
+    for i, entry in enumerate(listed if isinstance(listed, list) else [], 1):
+        for key in entry if isinstance(entry, dict) else {}:
+            if key not in PERIOD_KEYS:
+                warn(f"horizon.periods[{i}].{key}", "key", list(PERIOD_KEYS))
+
+
+def _whole(value: Any) -> TypeGuard[int | float]:
+    """A whole number: a TOML integer or a float such as ``4.0``, as a CSV or workbook cell of
+    4.0 is whole (``true`` is an int to Python, not a count)."""
+    return is_finite_number(value) and value == int(value)
+
+
+def _shown(value: Any) -> str:
+    """A settings value quoted as TOML spells it (``true``, not Python's ``True``; ``1e+13``,
+    not its digits), for messages."""
+    if isinstance(value, bool):
+        return "'true'" if value else "'false'"
+    if isinstance(value, float):
+        return f"'{value:g}'"
+    if isinstance(value, dict):
+        return "a table"
+    if isinstance(value, list):
+        return "a list"
+    return f"'{value}'"
+
+
+def _period_text(entry: Mapping[str, Any], key: str) -> str | None:
+    """An explicit period's name or year as text (a year may be the integer 2027); None if
+    missing or blank (a workbook's periods sheet gives a blank cell as "")."""
+    value = entry.get(key)
+    if isinstance(value, bool) or not isinstance(value, str | int):
+        return None
+    return str(value).strip() or None
+
+
+def known_period_names(settings: Mapping[str, Any], periods: tuple[Period, ...]) -> dict[
+        str, int | None] | None:
+    """Period names rows may refer to, with their index in ``periods``.
+
+    An explicit period whose name reads but whose year or hours do not is known all the same
+    (its problem is said once, in settings), so rows naming it are not each reported as naming
+    an unknown period.  None where the periods cannot be read as a whole (an entry without a
+    name, bad start or count): then no row's period is checked.
+    """
+    index: dict[str, int | None] = {p.name: i for i, p in enumerate(periods)}
+    horizon = settings.get("horizon")
+    listed = horizon.get("periods") if isinstance(horizon, dict) else None
+    if isinstance(listed, list) and listed:
+        names = [_period_text(e, "name") if isinstance(e, dict) else None for e in listed]
+        if any(n is None for n in names):
+            return None
+        return {n: index.get(n) for n in names if n is not None}
+    return index or None
+
+
+def read_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
+        tuple[Period, ...], int]:
+    """The planning periods (listed in ``horizon.periods`` or generated from ``horizon.start``
+    and ``count``) and the periods per year; none where the horizon cannot be read."""
+    def bad(key: str, message: str) -> None:
+        problems.append(Problem("settings.toml", None, key, message))
+
+    horizon = settings.get("horizon", {})
+    if not isinstance(horizon, dict):
+        bad("horizon", "must be a table")
+        return (), 4
+    periods_per_year = horizon.get("periods_per_year", 4)
+    if not _whole(periods_per_year) or periods_per_year < 1:
+        bad("horizon.periods_per_year",
+            f"{_shown(periods_per_year)} is not valid; expected a whole number >= 1")
+        periods_per_year = 4
+    periods_per_year = int(periods_per_year)
+    default_hours = horizon.get("hours_per_fte")
+    if default_hours is not None and (not is_finite_number(default_hours) or default_hours <= 0):
+        bad("horizon.hours_per_fte", f"{_shown(default_hours)} is not valid; expected a number > 0")
+        default_hours = None
+    periods: list[Period] = []
+    listed = horizon.get("periods")
+    if listed is not None:
+        if not isinstance(listed, list) or not listed:
+            bad("horizon.periods", "must be a non-empty list of {name, year[, hours_per_fte]}")
+            return (), periods_per_year
+        for generator_key in ("start", "count"):
+            if generator_key in horizon:
+                problems.append(Problem(
+                    "settings.toml", None, f"horizon.{generator_key}",
+                    "ignored, as horizon.periods lists the periods; expected either "
+                    "[[horizon.periods]] or start and count, not both", is_warning=True))
+        for i, entry in enumerate(listed, 1):
+            key = f"horizon.periods[{i}]"
+            if not isinstance(entry, dict):
+                bad(key, f"{_shown(entry)} is not valid; expected a table with name, year and "
+                    "optional hours_per_fte")
+                continue
+            name, budget_year = _period_text(entry, "name"), _period_text(entry, "year")
+            for part, value, expected in (
+                    ("name", name, 'the period\'s name, as text such as "FY27-P1"'),
+                    ("year", budget_year, "the budget year its spending falls in, as text such as "
+                                   '"FY27"')):
+                if value is None:
+                    given = entry.get(part)
+                    found = ("is missing" if part not in entry else "is empty"
+                             if isinstance(given, str) else f"{_shown(given)} is not valid")
+                    bad(f"{key}.{part}", f"{found}; expected {expected}")
+            hours = entry.get("hours_per_fte", default_hours)
+            if "hours_per_fte" in entry and (not is_finite_number(hours) or hours <= 0):
+                bad(key + ".hours_per_fte", f"{_shown(hours)} is not valid; expected a number > 0")
+                hours = None
+            elif hours is None and "hours_per_fte" not in horizon:  # a bad default: said once
+                bad(key + ".hours_per_fte", "is missing and horizon.hours_per_fte gives no "
+                    "default; expected a number > 0 here or in horizon.hours_per_fte")
+            if name is None or budget_year is None or hours is None:
+                continue
+            periods.append(Period(name, budget_year, float(hours)))
+    else:
+        start, count = horizon.get("start"), horizon.get("count")
+        match = re.fullmatch(r"(\d{4})-Q([1-4])", str(start)) if start is not None else None
+        if start is None and count is None:
+            bad("horizon", "give either periods = [...] or start = \"YYYY-Qn\" with count = N")
+            return (), periods_per_year
+        # Each key said on its own, so a workbook can point at its row (a date typed in the
+        # start cell had read as "give either periods or start", with no row).
+        if match is None:
+            bad("horizon.start", "is missing; expected text such as \"2027-Q1\"" if start is None
+                else f"{_shown(start)} is not a quarter; expected text such as \"2027-Q1\" (a "
+                "spreadsheet reads 2027-01-01 typed in a cell as a date)")
+        if not _whole(count) or count < 1:
+            bad("horizon.count", "is missing; expected a whole number >= 1" if count is None
+                else f"{_shown(count)} is not valid; expected a whole number >= 1")
+        if match is None or not _whole(count) or count < 1:
+            return (), periods_per_year
+        if default_hours is None:
+            if "hours_per_fte" not in horizon:  # a bad value is said above, once
+                bad("horizon.hours_per_fte", "is missing; expected a number > 0 (required when "
+                    "periods are generated from start)")
+            return (), periods_per_year
+        year, quarter = int(match.group(1)), int(match.group(2))
+        for _ in range(int(count)):
+            periods.append(Period(f"{year}-Q{quarter}", str(year), float(default_hours)))
+            quarter += 1
+            if quarter > 4:
+                year, quarter = year + 1, 1
+    names = [p.name for p in periods]
+    for name in {n for n in names if names.count(n) > 1}:
+        bad("horizon.periods", f"period '{name}' is listed twice")
+    return tuple(periods), periods_per_year
+
+
+def read_sections(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
+        Policy, MoveCostDefaults, Objective, SolverSettings]:
+    """The policy, move_costs, objective and solver sections; a default for each key that is
+    missing or not valid (the latter said in ``problems``)."""
+    def section(name: str) -> dict[str, Any]:
+        value = settings.get(name, {})
+        if not isinstance(value, dict):
+            problems.append(Problem("settings.toml", None, name, "must be a table"))
+            return {}
+        return value
+
+    def num(sec: str, table: dict[str, Any], key: str, default: Any, low: float,
+            high: float | None = None, integer: bool = False, allow_none: bool = False) -> Any:
+        if key not in table:
+            return default
+        value = table[key]
+        ok = (_whole(value) if integer else is_finite_number(value)) and value >= low
+        ok = ok and (high is None or value <= high)
+        if not ok:
+            what = describe_range(low, high, False, integer)
+            problems.append(Problem("settings.toml", None, f"{sec}.{key}",
+                                    f"{_shown(value)} is not valid; expected {what}"))
+            return default
+        return int(value) if integer else value
+
+    policy_t = section("policy")
+    policy = Policy(
+        max_away_share=float(num("policy", policy_t, "max_away_share", 1.0, 0.0, 1.0)),
+        max_consecutive_detail_periods=num(
+            "policy", policy_t, "max_consecutive_detail_periods", None, 0, integer=True),
+    )
+    costs_t = section("move_costs")
+    defaults = MoveCostDefaults(
+        detail_cost_per_period=float(num("move_costs", costs_t, "detail_cost_per_period", 0.0, 0)),
+        relocation_cost=float(num("move_costs", costs_t, "relocation_cost", 0.0, 0)),
+        same_location_detail_cost_per_period=float(
+            num("move_costs", costs_t, "same_location_detail_cost_per_period", 0.0, 0)),
+        same_location_relocation_cost=float(
+            num("move_costs", costs_t, "same_location_relocation_cost", 0.0, 0)),
+    )
+    obj_t = section("objective")
+    mode = obj_t.get("mode", "shortfall-first")
+    if mode not in ("shortfall-first", "weighted"):
+        problems.append(Problem("settings.toml", None, "objective.mode",
+                                f"{_shown(mode)} is not valid; expected shortfall-first or "
+                                "weighted"))
+        mode = "shortfall-first"
+    objective = Objective(
+        mode=mode,
+        # Past 1e12 the shortfall term swamps cost beyond what solvers' tolerances resolve
+        # (CBC called a feasible model infeasible at 1e100); mode shortfall-first is that.
+        shortfall_cost=float(num("objective", obj_t, "shortfall_cost", 100_000.0, 0,
+                                 MAX_SHORTFALL_COST)),
+        shortfall_tolerance=float(num("objective", obj_t, "shortfall_tolerance", 1e-6, 0, 0.1)),
+    )
+    solver_t = section("solver")
+    name = solver_t.get("name", "highs")
+    if name not in ("highs", "cbc"):
+        problems.append(Problem("settings.toml", None, "solver.name",
+                                f"{_shown(name)} is not valid; expected highs or cbc"))
+        name = "highs"
+    solver = SolverSettings(
+        name=name,
+        time_limit_seconds=float(num("solver", solver_t, "time_limit_seconds", 300.0, 0.1)),
+        relative_gap=float(num("solver", solver_t, "relative_gap", 1e-4, 0.0, 1.0)),
+        threads=int(num("solver", solver_t, "threads", 1, 1, integer=True)),
+        seed=int(num("solver", solver_t, "seed", 0, 0, integer=True)),
+    )
+    return policy, defaults, objective, solver
+
+
+# A currency label sits beside every amount and in column headers, so it is kept short.
+CURRENCY_MAX_CHARACTERS = 5
+
+
+def read_money(settings: Mapping[str, Any], problems: list[Problem]) -> Money:
+    """The money section: the currency label amounts are shown with."""
+    money = settings.get("money", {})
+    if not isinstance(money, dict):
+        problems.append(Problem("settings.toml", None, "money", "must be a table"))
+        return Money()
+    if "currency" not in money:
+        return Money()
+    value = money["currency"]
+    text = value.strip() if isinstance(value, str) else ""
+    # Printable and without spaces: the label is written into console columns and page
+    # headers, where a tab or line break would break the layout.
+    if not (1 <= len(text) <= CURRENCY_MAX_CHARACTERS and text.isprintable()
+            and not any(c.isspace() for c in text)):
+        problems.append(Problem(
+            "settings.toml", None, "money.currency",
+            f"{_shown(value)} is not valid; expected text of 1 to {CURRENCY_MAX_CHARACTERS} "
+            "characters without spaces, such as \"EUR\", \"USD\" or \"\u20ac\""))
+        return Money()
+    return Money(text)

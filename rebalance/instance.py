@@ -125,6 +125,23 @@ class SolverSettings:
     seed: int = 0
 
 
+@dataclass(frozen=True)
+class Money:
+    """What the instance's money is counted in.  ``currency`` is a short label (``EUR``,
+    ``USD``, a symbol) that reports show beside amounts; ``None`` leaves them bare, as the
+    figures carry no unit the input did not give."""
+
+    currency: str | None = None
+
+    def amount(self, text: str) -> str:
+        """An amount already written as text, with its currency after it (``43,000 EUR``)."""
+        return f"{text} {self.currency}" if self.currency else text
+
+    def header(self, words: str) -> str:
+        """A column or axis name for money, with its currency (``cost (EUR)``)."""
+        return f"{words} ({self.currency})" if self.currency else words
+
+
 class FrozenMap(dict[Any, Any]):
     """A read-only dict that still pickles (process pools and Dask ship instances around)."""
 
@@ -164,6 +181,7 @@ class Instance:
     move_cost_defaults: MoveCostDefaults = MoveCostDefaults()
     objective: Objective = Objective()
     solver: SolverSettings = SolverSettings()
+    money: Money = Money()
     warnings: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:

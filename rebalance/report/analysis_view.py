@@ -17,6 +17,8 @@ from typing import Any
 
 import pandas as pd
 
+from rebalance.analysis.marginal import STEP_UNITS
+from rebalance.report.console import is_money, money_text
 from rebalance.report.htmlparts import chart, e, frame_table_html, section
 from rebalance.report.inputs import SHEET_ONLY, ReportData
 
@@ -71,7 +73,9 @@ def _truthy(value: Any) -> bool:
         return False
 
 
-def _frontier(frame: pd.DataFrame) -> dict[str, Any] | None:
+def _frontier(frame: pd.DataFrame, currency: str | None = None) -> dict[str, Any] | None:
+    """A frontier's points per moves budget; with a ``currency``, the axis and tip names of
+    money (the budget, unless the grid was factors of each year's cap, and the cost) say it."""
     x = find_column(frame, ("hiring_budget", "budget", "hiring_cap", "hiring", "budget_total"),
                     ("budget", "hiring", "cap"), avoid=("shortfall", "spend", "moves"))
     y = find_column(frame, ("weighted_shortfall", "shortfall"), ("weighted_shortfall",
@@ -102,14 +106,21 @@ def _frontier(frame: pd.DataFrame) -> dict[str, Any] | None:
             series.append({"label": label, "points": points})
     if not series:
         return None
-    return {"x_label": x, "y_label": y, "cost_label": cost, "series": series}
+    x_label, cost_label = x, cost
+    if currency:
+        # budget_unit says "money, each year" or "times each year's cap" (a factor grid).
+        units = frame["budget_unit"].astype(str) if "budget_unit" in frame.columns else None
+        if units is None or units.str.startswith("money").all():
+            x_label = f"{x} ({currency})"
+        cost_label = f"{cost} ({currency})" if cost else None
+    return {"x_label": x_label, "y_label": y, "cost_label": cost_label, "series": series}
 
 
 SCENARIO_METRICS = ("weighted_shortfall", "total_cost", "cost", "hires", "detail_periods",
                     "details", "reassignments", "shortfall_fte_periods", "shortfall_fte")
 
 
-def _scenarios(frame: pd.DataFrame) -> dict[str, Any] | None:
+def _scenarios(frame: pd.DataFrame, currency: str | None = None) -> dict[str, Any] | None:
     label = find_column(frame, ("scenario", "name", "label"), ("scenario", "name"),
                         numeric=False)
     if label is None:
@@ -125,21 +136,24 @@ def _scenarios(frame: pd.DataFrame) -> dict[str, Any] | None:
     if not chosen:
         return None
     return {"labels": [str(v) for v in frame[label].tolist()],
-            "metrics": [{"name": c, "values": _finite(frame[c].tolist())} for c in chosen]}
+            "metrics": [{"name": f"{c} ({currency})" if currency and is_money(c) else c,
+                         "values": _finite(frame[c].tolist())} for c in chosen]}
 
 
-def _step_words(step: float | None, unit: str) -> str:
-    """One step of a limit with its unit: ``+10 seats``, ``+100,000 money``, ``-1 period``."""
-    if step is None:
-        return unit
+# A step of exactly one in the singular, by the unit marginal.py wrote (its STEP_UNITS).
+_SINGULAR = {unit.plural: unit.singular for unit in STEP_UNITS.values()}
+
+
+def _step_words(step: float | None, unit: str, currency: str | None = None) -> str:
+    """One step of a limit with its unit: ``+10 seats``, ``+100,000 money`` (``+100,000 EUR``
+    with a currency), ``-1 period``.  A unit not in :data:`STEP_UNITS` is kept as written."""
     words = unit.strip()
-    if abs(step) == 1 and words:
-        first, _, rest = words.partition(" ")
-        if first.endswith("ies"):
-            first = first[:-3] + "y"
-        elif first.endswith("s") and not first.endswith("ss"):
-            first = first[:-1]
-        words = f"{first} {rest}".strip()
+    if step is not None and abs(step) == 1:
+        words = _SINGULAR.get(words, words)
+    if words == "money" and currency:
+        words = currency
+    if step is None:
+        return words
     amount = f"{int(step):+,}" if float(step).is_integer() else f"{step:+,g}"
     return f"{amount} {words}".strip()
 
@@ -171,6 +185,23 @@ def _marginal_columns(frame: pd.DataFrame) -> _MarginalColumns | None:
     return _MarginalColumns(value, estimate, step, unit, status)
 
 
+@dataclass(frozen=True)
+class _MarginalTable:
+    """A marginal values table with its columns found and which rows were measured."""
+
+    frame: pd.DataFrame
+    cols: _MarginalColumns
+    measured: pd.Series  # True where the value was measured by a re-solve
+
+
+def _marginal_table(frame: pd.DataFrame) -> _MarginalTable | None:
+    cols = _marginal_columns(frame)
+    if cols is None:
+        return None
+    measured = frame[cols.value].map(lambda x: _finite([x])[0] is not None).astype(bool)
+    return _MarginalTable(frame, cols, measured)
+
+
 def _text(value: Any) -> str:
     if value is None or (isinstance(value, float) and math.isnan(value)):
         return ""
@@ -181,13 +212,11 @@ def _text(value: Any) -> str:
 CHART_ROWS = 25
 
 
-def _marginal(frame: pd.DataFrame) -> dict[str, Any] | None:
+def _marginal(table: _MarginalTable, currency: str | None = None) -> dict[str, Any] | None:
     """Chart rows of the limits whose value was measured (re-solved), each labelled with its
     limit, scope and step in its unit; the rest (estimate only, or no value) are counted for
     the caption, not drawn as if measured."""
-    cols = _marginal_columns(frame)
-    if cols is None:
-        return None
+    frame, cols = table.frame, table.cols
     texts = [c for c in frame.columns if not _numeric(frame, c)]
     first = find_column(frame, ("limit", "constraint", "name"), ("limit", "constraint"),
                         numeric=False)
@@ -196,18 +225,16 @@ def _marginal(frame: pd.DataFrame) -> dict[str, Any] | None:
     if not keys and texts:
         keys = [c for c in texts if c not in (cols.unit, cols.status)][:2]
     method = find_column(frame, ("method",), numeric=False)
+    measured = frame[table.measured]
     rows: list[dict[str, Any]] = []
-    for _, r in frame.iterrows():
-        v = _finite([r[cols.value]])[0]
-        if v is None:
-            continue  # not measured: no bar (the caption counts it)
+    for _, r in measured.iterrows():
         parts = [_text(r[k]).replace("_", " ") for k in keys if _text(r[k])]
         name = " · ".join(parts) or f"row {len(rows) + 1}"
         step = _finite([r[cols.step]])[0] if cols.step else None
         unit = _text(r[cols.unit]) if cols.unit else ""
-        step_text = _step_words(step, unit) if step is not None or unit else ""
+        step_text = _step_words(step, unit, currency) if step is not None or unit else ""
         label = f"{name}, {step_text}" if step_text else name
-        row: dict[str, Any] = {"label": label, "value": v,
+        row: dict[str, Any] = {"label": label, "value": _finite([r[cols.value]])[0],
                                "tip": label + (f"\n{_text(r[method])}" if method else "")}
         if cols.estimate is not None:
             row["estimate"] = _finite([r[cols.estimate]])[0]
@@ -215,7 +242,6 @@ def _marginal(frame: pd.DataFrame) -> dict[str, Any] | None:
     # Two rows the same but for how they were found (a table with both) tell apart by it.
     seen = [r["label"] for r in rows]
     if method and len(set(seen)) < len(seen):
-        measured = frame[frame[cols.value].map(lambda x: _finite([x])[0] is not None)]
         for row, how in zip(rows, measured[method].tolist(), strict=True):
             row["label"] += f" · {_text(how)}"
     rows.sort(key=lambda row: -abs(row["value"]))
@@ -232,10 +258,11 @@ def _marginal(frame: pd.DataFrame) -> dict[str, Any] | None:
             "rows": shown}
 
 
-def _marginal_words(frame: pd.DataFrame) -> tuple[str, str]:
+def _marginal_words(frame: pd.DataFrame, table: _MarginalTable | None,
+                    currency: str | None = None) -> tuple[str, str]:
     """The marginal section's lead (what a step is, from the table's own steps and units) and
     the chart's caption (which rows it shows and why), both HTML."""
-    cols = _marginal_columns(frame)
+    cols = table.cols if table is not None else None
     limit = find_column(frame, ("limit", "constraint", "name"), ("limit", "constraint"),
                         numeric=False)
     steps: dict[str, list[str]] = {}
@@ -244,7 +271,7 @@ def _marginal_words(frame: pd.DataFrame) -> tuple[str, str]:
             step = _finite([r[cols.step]])[0]
             if step is None:
                 continue
-            what = _step_words(step, _text(r[cols.unit]))
+            what = _step_words(step, _text(r[cols.unit]), currency)
             name = _text(r[limit]).replace("_", " ") if limit else ""
             names = steps.setdefault(what, [])
             if name and name not in names:
@@ -259,11 +286,10 @@ def _marginal_words(frame: pd.DataFrame) -> tuple[str, str]:
     lead = ("Each binding limit relaxed by one step and the plan solved again: what that step "
             "removes from the weighted shortfall (and adds to cost). " + step_text
             + " Only limits actually re-solved are ranked.")
-    if cols is None:
+    if table is None or cols is None:
         return lead, ""
-    measured = frame[cols.value].map(lambda x: _finite([x])[0] is not None)
-    n, total = int(measured.sum()), len(frame)
-    rest = frame[~measured]
+    n, total = int(table.measured.sum()), len(frame)
+    rest = frame[~table.measured]
     ticks = "; ticks: the LP estimate, in brackets after the value" if cols.estimate else ""
     largest = (f" The chart draws the {CHART_ROWS} largest; the table has every row."
                if n > CHART_ROWS else "")
@@ -312,16 +338,30 @@ def analysis_payload(data: ReportData) -> AnalysisView:
     payload: dict[str, Any] = {}
     sections: list[str] = []
     nav: list[tuple[str, str]] = []
+    currency = data.instance.money.currency
+    marginal = (_marginal_table(data.marginal_values) if data.marginal_values is not None
+                else None)
+
+    def frontier(frame: pd.DataFrame) -> dict[str, Any] | None:
+        return _frontier(frame, currency)
+
+    def scenarios(frame: pd.DataFrame) -> dict[str, Any] | None:
+        return _scenarios(frame, currency)
+
+    def marginal_chart(frame: pd.DataFrame) -> dict[str, Any] | None:
+        return None if marginal is None else _marginal(marginal, currency)
+
     specs = (
-        ("frontier", data.frontier, _frontier, "Budget frontier",
+        ("frontier", data.frontier, frontier, "Budget frontier",
          e("What more (or less) budget would buy: the least weighted shortfall found at each "
            "budget level. The ringed point is the knee, where extra money starts to buy less."),
          "Least weighted shortfall at each budget"),
-        ("scenarios", data.scenarios, _scenarios, "Scenarios side by side",
+        ("scenarios", data.scenarios, scenarios, "Scenarios side by side",
          e("Each scenario was solved as its own plan; the bars compare their headline "
            "figures."),
          "Scenario comparison"),
-        ("marginal", data.marginal_values, _marginal, "What one more step of each limit buys",
+        ("marginal", data.marginal_values, marginal_chart,
+         "What one more step of each limit buys",
          "", "Measured value of one more step of each binding limit"),
     )
     for key, frame, reader, title, lead, chart_title in specs:
@@ -330,7 +370,7 @@ def analysis_payload(data: ReportData) -> AnalysisView:
         view = reader(frame)
         caption = ""
         if key == "marginal":
-            lead, caption = _marginal_words(frame)
+            lead, caption = _marginal_words(frame, marginal, currency)
         body = ""
         if view is not None:
             payload[key] = view
@@ -338,13 +378,13 @@ def analysis_payload(data: ReportData) -> AnalysisView:
             if caption:
                 body += f'<p class="more analysis-note">{caption}</p>'
 
-        elif key == "marginal" and _marginal_columns(frame) is not None:
+        elif key == "marginal" and marginal is not None:
             body += ('<p class="note">No limit was measured by a re-solve, so there is nothing '
                      "to chart: the table lists each with its estimate only, unranked.</p>")
         else:
             body += ('<p class="note">The columns of this table were not recognised for a '
                      "chart; it is shown as written.</p>")
-        body = _gap_note(frame) + body + _tables(frame, key)
+        body = _gap_note(frame) + body + _tables(frame, key, currency=currency)
         sections.append(section(key, title, lead, body))
         nav.append((key, title))
     tables = [(name, frame) for name, frame in data.tables if name not in SHEET_ONLY]
@@ -360,24 +400,26 @@ def analysis_payload(data: ReportData) -> AnalysisView:
         elif name == "changes" and data.summary.replan is not None:
             lead = e(f"From {data.summary.replan.from_period} on: ") + lead
         sections.append(section(name, title, lead,
-                                body + _tables(frame, name, limit=500)))
+                                body + _tables(frame, name, limit=500, currency=currency)))
         nav.append((name, title))
     return AnalysisView(payload, tuple(sections), tuple(nav))
 
 
-def _tables(frame: pd.DataFrame, name: str, limit: int = 200) -> str:
+def _tables(frame: pd.DataFrame, name: str, limit: int = 200,
+            currency: str | None = None) -> str:
     """An analysis table as the page shows it: long text wraps so the table fits the page
     (``analysis-table`` in report.css).  A scenario comparison's cost breakdown, which made
     that table twice the page's width, is a second table below the headline figures."""
     split = _cost_columns(frame) if name == "scenarios" else []
     if not split:
-        return _wrapped(frame_table_html(frame, name, limit=limit))
+        return _wrapped(frame_table_html(frame, name, limit=limit, currency=currency))
     label = find_column(frame, ("scenario", "name", "label"), ("scenario", "name"),
                         numeric=False) or str(frame.columns[0])
     head = [c for c in frame.columns if c not in split]
-    return (_wrapped(frame_table_html(frame[head], name, limit=limit))
+    return (_wrapped(frame_table_html(frame[head], name, limit=limit, currency=currency))
             + "<h3>Cost by kind and budget year</h3>"
-            + _wrapped(frame_table_html(frame[[label, *split]], f"{name}_costs", limit=limit)))
+            + _wrapped(frame_table_html(frame[[label, *split]], f"{name}_costs", limit=limit,
+                                        currency=currency)))
 
 
 # Text cells longer than this may wrap between words (the table helper wraps only prose, over
@@ -440,21 +482,23 @@ def _disruption_note(data: ReportData) -> str:
     if disruption is None and changes is not None and "disruption_cost" in changes.columns:
         disruption = float(pd.to_numeric(changes["disruption_cost"], errors="coerce").sum())
     name = stage.name if stage is not None else "cost"
+    amount = data.instance.money.amount
     where = ('the <a href="#run">How it was found</a> section\'s stage table (and the Plan '
              "quality card)")
     figures = ""
     if disruption is not None:
-        figures = f" Disruption cost of this re-plan: {disruption:,.0f}."
+        figures = f" Disruption cost of this re-plan: {amount(money_text(disruption))}."
         objective = stage.objective if stage is not None else None
         if (name == "cost" and objective is not None and total is not None
                 and abs(objective - total - disruption) <= 0.5 + 1e-9 * abs(objective)):
-            figures = (f" Here: cost stage objective {objective:,.0f} = total cost "
-                       f"{total:,.0f} + disruption cost {disruption:,.0f}.")
+            figures = (f" Here: cost stage objective {amount(money_text(objective))} = total "
+                       f"cost {amount(money_text(total))} + disruption cost "
+                       f"{amount(money_text(disruption))}.")
     return (f'<p class="note">The {e(name)} stage\'s objective in {where} includes the '
             "disruption cost of the changes (the sum of changes.csv's "
             "<code>disruption_cost</code>), which the re-plan weighed to stay near the old "
             "plan; the total cost in the headline figures and in this table is new money "
-            f"only, without it.{figures}</p>")
+            f"only, without it.{e(figures)}</p>")
 
 
 # Titles and one-line explanations of the tables shown as they are (see inputs.TABLE_FILES).

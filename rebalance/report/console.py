@@ -14,11 +14,17 @@ from rebalance.solve import StageResult, Status
 from rebalance.verify import Violation
 
 __all__ = [
+    "MONEY_WORDS",
+    "NEAR_ZERO",
     "format_check",
     "format_frame",
     "format_outcome",
     "format_summary",
     "format_violations",
+    "is_gap",
+    "is_money",
+    "money_text",
+    "number_text",
     "room_left",
 ]
 
@@ -32,8 +38,59 @@ STATUS_WORDS = {
 }
 
 
-def _money(value: float) -> str:
-    return f"{value:,.0f}"
+# --------------------------------------------------------------------------------------------
+# numbers as people write them: one rule for the console and the page (htmlparts imports it)
+
+# Values this close to zero are rounding left over from the solver: shown as 0.
+NEAR_ZERO = 1e-9
+# Columns holding money (shown in whole units): names as in the CSV files.  Not "budget": a
+# frontier's budget columns may hold factors of each year's cap (its budget_unit says which).
+MONEY_WORDS = ("cost", "spend", "salary")
+
+
+def is_gap(column: str) -> bool:
+    """A column holding a relative gap (``gap``, ``stage_gap``, ``gap_at_stop``)."""
+    name = column.lower()
+    return name == "gap" or name.endswith("_gap") or name.startswith("gap_")
+
+
+def is_money(column: str) -> bool:
+    return any(word in column.lower() for word in MONEY_WORDS)
+
+
+def money_text(value: float) -> str:
+    """An amount of money in whole units with separators (cents are noise in a plan)."""
+    return f"{float(value) + 0.0:,.0f}"
+
+
+def number_text(value: float, column: str = "", *, digits: int = 3) -> str:
+    """A number as a reader wants it: solver dust such as 4.4e-16 as 0, gaps as percentages,
+    money and whole numbers without decimals (so also anything from 1,000 up, where decimals
+    are noise), ``digits`` decimals otherwise.  ``column`` is the table column's name, which
+    says whether it holds a gap or money."""
+    v = float(value)
+    if abs(v) < NEAR_ZERO:
+        v = 0.0
+    if is_gap(column):
+        return f"{v:.2%}"
+    v += 0.0  # no "-0" on show
+    if is_money(column) or v.is_integer() or abs(v) >= 1000:
+        return f"{v:,.0f}"
+    return f"{v:,.{digits}f}"
+
+
+def is_flag(value: object) -> bool:
+    return isinstance(value, bool | np.bool_)
+
+
+def is_missing(value: object) -> bool:
+    """None, NaN or pandas' NA: a cell with no value."""
+    return (value is None or value is pd.NA or value is pd.NaT
+            or (isinstance(value, float | np.floating) and math.isnan(value)))
+
+
+def _money(value: float, currency: str | None = None) -> str:
+    return money_text(value) + (f" {currency}" if currency else "")
 
 
 def _table(headers: Sequence[str], rows: Sequence[Sequence[object]]) -> list[str]:
@@ -71,6 +128,7 @@ def format_check(instance: Instance) -> str:
 def format_summary(result: PlanResult) -> str:
     lines = _outcome_lines(result)
     plan = result.plan
+    money = result.instance.money
     if plan is not None:
         demand = float(plan.coverage["demand_fte"].sum())
         lines += [
@@ -78,7 +136,7 @@ def format_summary(result: PlanResult) -> str:
             f"  weighted shortfall   {plan.weighted_shortfall:,.3f} FTE-periods "
             f"({plan.shortfall_fte:,.3f} unweighted, {plan.shortfall_fte / demand:.1%} of "
             f"{demand:,.1f} demanded)" if demand else "  no demand",
-            f"  total cost           {_money(plan.total_cost)}",
+            f"  total cost           {money.amount(money_text(plan.total_cost))}",
             f"  hires                {plan.hires_count()}",
             f"  detail periods       {len(plan.details)} "
             f"({plan.details['person'].nunique()} people)",
@@ -95,12 +153,14 @@ def format_summary(result: PlanResult) -> str:
 
             hiring = spent("onboarding", "new_position_salary")
             moves = spent("detail", "relocation")
-            cap_h = "no cap" if budget is None or budget.hiring is None else _money(
+            cap_h = "no cap" if budget is None or budget.hiring is None else money_text(
                 budget.hiring)
-            cap_m = "no cap" if budget is None or budget.moves is None else _money(budget.moves)
-            rows.append((year, _money(hiring), cap_h, _money(moves), cap_m))
+            cap_m = "no cap" if budget is None or budget.moves is None else money_text(
+                budget.moves)
+            rows.append((year, money_text(hiring), cap_h, money_text(moves), cap_m))
         lines += ["  " + x for x in _table(
-            ("year", "hiring spend", "hiring cap", "moves spend", "moves cap"), rows)]
+            ("year", *(money.header(h) for h in ("hiring spend", "hiring cap", "moves spend",
+                                                  "moves cap"))), rows)]
         short = (plan.coverage[plan.coverage["shortfall_fte"] > 1e-6]
                  .groupby("office")["shortfall_fte"].sum().sort_values(ascending=False))
         if len(short):
@@ -128,6 +188,7 @@ def _verdict(result: PlanResult) -> str:
 
 def _outcome_lines(result: PlanResult) -> list[str]:
     s = result.solve
+    currency = result.instance.money.currency
     lines = [f"Plan for {result.instance.name}: {STATUS_WORDS[result.status]}"]
     if [stage.name for stage in s.stages] == [BUILD_STAGE]:
         # Cut short while building: no model, so no model size and no stage to show.
@@ -138,16 +199,18 @@ def _outcome_lines(result: PlanResult) -> list[str]:
                  f"build {result.build_seconds:.2f}s, solve {s.solve_seconds:.2f}s"
                  + (f", gap {gap:.4%}" if gap is not None else ""))
     for stage in s.stages:
+        # The cost and weighted stages count money; the shortfall stage FTE-periods.
+        unit = f" {currency}" if currency and stage.name in MONEY_STAGES else ""
         bound = "-" if stage.bound is None or not math.isfinite(stage.bound) else (
-            f"{stage.bound:,.6g}")
-        objective = "-" if stage.objective is None else f"{stage.objective:,.6g}"
+            f"{stage.bound:,.6g}{unit}")
+        objective = "-" if stage.objective is None else f"{stage.objective:,.6g}{unit}"
         status = stage.status.value
         if stage.status is Status.OPTIMAL and stage.gap:
             # Optimal as asked: within the relative gap the run was given, not exactly.
             status += f" within the gap asked ({stage.gap:.2%} left)"
         lines.append(f"  stage {stage.name}: {status}, objective {objective}, "
                      f"bound {bound}, {stage.seconds:.2f}s ({stage.solver_words})")
-        room = room_left(stage)
+        room = room_left(stage, currency)
         if room:
             lines.append(f"    not proven: {room}")
     if s.conflicts:
@@ -156,6 +219,8 @@ def _outcome_lines(result: PlanResult) -> list[str]:
     return lines
 
 
+# Stages whose objective is an amount of money.
+MONEY_STAGES = ("cost", "weighted")
 ROOM_WORDS = {
     "shortfall": "a plan may exist with up to {room} weighted FTE-periods less shortfall",
     "cost": "a plan with the same shortfall may cost up to {room} less",
@@ -163,8 +228,9 @@ ROOM_WORDS = {
 }
 
 
-def room_left(stage: StageResult) -> str | None:
-    """What a stage stopped early leaves open, in the stage's own units."""
+def room_left(stage: StageResult, currency: str | None = None) -> str | None:
+    """What a stage stopped early leaves open, in the stage's own units (money in
+    ``currency`` where one is given)."""
     if (stage.status is not Status.FEASIBLE_WITH_GAP or stage.gap is None
             or stage.objective is None or stage.bound is None
             or stage.name not in ROOM_WORDS):
@@ -175,39 +241,30 @@ def room_left(stage: StageResult) -> str | None:
         return (f"no bound worked out in the {stage.seconds:.1f}s this stage had, beyond 0 "
                 f"(gap {stage.gap:.2%})")
     room = stage.objective - stage.bound
-    amount = _money(room) if stage.name == "cost" else f"{room:,.3g}"
+    amount = _money(room, currency) if stage.name == "cost" else f"{room:,.3g}"
     return ROOM_WORDS[stage.name].format(room=amount) + f" (gap {stage.gap:.2%})"
 
 
-def format_frame(frame: pd.DataFrame) -> str:
-    """A result table for the console, as a reader wants it: gaps as percentages, money in
-    whole units with separators, other amounts to two decimals, whole counts without any,
-    yes/no for flags and "-" where there is no value (pandas printed ``NaN``, ``True`` and
-    ``2465500.0``).  Column names stay those of the CSV files."""
+def format_frame(frame: pd.DataFrame, currency: str | None = None) -> str:
+    """A result table for the console, as a reader wants it (:func:`number_text`, two
+    decimals to keep columns narrow), yes/no for flags and "-" where there is no value (pandas
+    printed ``NaN``, ``True`` and ``2465500.0``).  Column names stay those of the CSV files;
+    with a ``currency``, money columns' names say it (``total_cost (EUR)``)."""
 
     def cell(column: str, value: object) -> str:
-        if value is None or (isinstance(value, float) and math.isnan(value)):
+        if is_missing(value):
             return "-"
-        if isinstance(value, bool | np.bool_):
+        if is_flag(value):
             return "yes" if value else "no"
-        if isinstance(value, int | np.integer):
-            return f"{int(value):,}"
-        if isinstance(value, float | np.floating):
-            number = float(value)
-            if column == "gap":
-                return f"{number:.2%}"
-            if any(word in column for word in MONEY_WORDS):
-                return f"{number:,.0f}"
-            return f"{number:,.0f}" if number.is_integer() else f"{number:,.2f}"
+        if isinstance(value, int | float | np.integer | np.floating):
+            return number_text(float(value), column, digits=2)
         return str(value)
 
-    rows = [[cell(str(c), v) for c, v in zip(frame.columns, values, strict=True)]
+    columns = [str(c) for c in frame.columns]
+    rows = [[cell(c, v) for c, v in zip(columns, values, strict=True)]
             for values in frame.itertuples(index=False)]
-    return "\n".join(_table([str(c) for c in frame.columns], rows))
-
-
-# Columns holding money (shown in whole units): names as in the CSV files.
-MONEY_WORDS = ("cost", "spend", "salary")
+    headers = [f"{c} ({currency})" if currency and is_money(c) else c for c in columns]
+    return "\n".join(_table(headers, rows))
 
 
 def format_violations(violations: Sequence[Violation]) -> str:

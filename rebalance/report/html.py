@@ -21,6 +21,7 @@ import pandas as pd
 
 from rebalance.planning import BUILD_STAGE
 from rebalance.report import analysis_view
+from rebalance.report.console import MONEY_STAGES
 from rebalance.report.htmlparts import (
     NEAR_ZERO,
     card,
@@ -267,13 +268,14 @@ def _quality_list(data: ReportData) -> str:
     stages = [st for st in data.summary.stages if st.name != BUILD_STAGE]
     if not stages:
         return ""
+    currency = data.instance.money.currency
     return '<ul class="stages">' + "".join(
-        f"<li><strong>{e(st.name)} stage:</strong> {e(stage_words(st))}</li>"
+        f"<li><strong>{e(st.name)} stage:</strong> {e(stage_words(st, currency))}</li>"
         for st in stages) + "</ul>"
 
 
 def _headline(data: ReportData) -> str:
-    plan, run = data.plan, data.summary
+    plan, run, money_unit = data.plan, data.summary, data.instance.money
     demand = float(plan.coverage["demand_fte"].sum()) if len(plan.coverage) else 0.0
     share = plan.shortfall_fte / demand if demand else 0.0
     caps = [b.hiring for b in data.instance.budgets] + [b.moves for b in data.instance.budgets]
@@ -310,8 +312,8 @@ def _headline(data: ReportData) -> str:
               f"{num(demand, 0)} demanded",
               "warn" if share > 0.02 else "ok"),
         card("Capacity beyond demand", num(spare_total), spare_note),
-        card("New money", compact_money(plan.total_cost), money_note),
-        card("Salaries after the horizon", compact_money(yearly),
+        card("New money", money_unit.amount(compact_money(plan.total_cost)), money_note),
+        card("Salaries after the horizon", money_unit.amount(compact_money(yearly)),
              f"a year, every year after {data.instance.periods[-1].name}, for the "
              f"{hires_new:,} new position{'' if hires_new == 1 else 's'}; not in new money",
              "warn" if yearly > 0 else ""),
@@ -412,6 +414,7 @@ def _detail_runs(data: ReportData) -> list[list[Any]]:
 def render_html(data: ReportData) -> str:
     """The whole report as one HTML string."""
     inst, plan, run = data.instance, data.plan, data.summary
+    cash = inst.money.header  # a money column's name, with the currency where one is set
     extra = analysis_view.analysis_payload(data)
     payload = {
         "coverage": _coverage_series(data),
@@ -419,6 +422,7 @@ def render_html(data: ReportData) -> str:
         "flows": _flows(data),
         "hires": _hires(data),
         "budget": _budget_rows(data),
+        "currency": inst.money.currency,  # the budget chart's axis says it
         **extra.payload,
     }
     # "</" inside a script element would end it early; JSON allows the escaped form.
@@ -453,13 +457,13 @@ def render_html(data: ReportData) -> str:
                         "Band width: person-periods of work moved. A reassignment counts every "
                         "period from its start to the end of the horizon.")
     moves_body += "<h3>Details</h3>" + (table_html(
-        ["person", "home office", "to office", "from", "to", "periods", "cost"], runs,
+        ["person", "home office", "to office", "from", "to", "periods", cash("cost")], runs,
         name="details", numeric=[False] * 5 + [True, True], limit=TABLE_ROWS) if runs else
         '<p class="quiet">No details in this plan.</p>')
     reas = [[r["person"], r["from_office"], r["to_office"], r["period"], _m(r["cost"])]
             for r in _records(plan.reassignments)]
     moves_body += "<h3>Reassignments</h3>" + (table_html(
-        ["person", "from office", "to office", "effective", "cost"], reas,
+        ["person", "from office", "to office", "effective", cash("cost")], reas,
         name="reassignments", numeric=[False] * 4 + [True], limit=TABLE_ROWS) if reas else
         '<p class="quiet">No reassignments in this plan.</p>')
     sections.append(section(
@@ -477,8 +481,9 @@ def render_html(data: ReportData) -> str:
         "Hires by the period they start and by skill. New hires ramp up before they are fully "
         "productive, so a start shows in capacity gradually.",
         chart("hires", "Hires by start period and skill") + (table_html(
-            ["office", "skill", "start", "count", "funding", "onboarding cost",
-             "new salary to horizon end", "salary a year after it"], hires, name="hires",
+            ["office", "skill", "start", "count", "funding", cash("onboarding cost"),
+             cash("new salary to horizon end"), cash("salary a year after it")], hires,
+            name="hires",
             numeric=[False, False, False, True, False, True, True, True], limit=TABLE_ROWS)
             if hires else "")))  # the chart already says there are none
     cost_rows = [[r["year"], r["kind"], _m(r["spend"]),
@@ -488,9 +493,12 @@ def render_html(data: ReportData) -> str:
     sections.append(section(
         "money", "Money",
         "New money only: onboarding, salaries of new positions, details and relocations, by "
-        "budget year, against each year's caps (the black tick). All bars share one scale.",
-        chart("budget", "Spending against budget by year") + table_html(
-            ["year", "budget line", "spent", "cap", "used"], cost_rows, name="costs",
+        "budget year, against each year's caps (the black tick). All bars share one scale"
+        + (f", in {e(inst.money.currency)}." if inst.money.currency else "."),
+        chart("budget", cash("Spending against budget by year"),
+              f"Amounts in {inst.money.currency}." if inst.money.currency else "")
+        + table_html(
+            ["year", "budget line", cash("spent"), cash("cap"), "used"], cost_rows, name="costs",
             numeric=[False, False, True, True, True]) + _commitments(data)))
     sections.extend(extra.sections)
     sections.append(section("run", "How it was found", "", _run_details(data)))
@@ -545,23 +553,31 @@ def _commitments(data: ReportData) -> str:
             for r in _records(table)]
     return (f"<h3>Committed beyond the horizon</h3><p class=\"lead\">The {positions:,} new "
             f"position{'' if positions == 1 else 's'} this plan creates keep being paid after "
-            f"{e(inst.periods[-1].name)}: <strong>{money(total)} a year</strong> in salaries "
+            f"{e(inst.periods[-1].name)}: <strong>{e(inst.money.amount(money(total)))} a year"
+            "</strong> in salaries "
             f"(positions &times; salary per period &times; {inst.periods_per_year} periods a "
             "year), on top of the new money above, which stops at the horizon's end.</p>"
-            + table_html(["skill", "new positions", "salary per period", "salary a year"],
+            + table_html(["skill", "new positions", inst.money.header("salary per period"),
+                          inst.money.header("salary a year")],
                          rows, name="commitments", numeric=[False, True, True, True],
                          foot=[["all skills", positions, "", _m(total)]]))
 
 
-def _stage_value(stage: StageSummary, value: float | None) -> tuple[float, str]:
-    """A stage's objective or bound in its own units: money for the cost stage."""
+def _stage_value(stage: StageSummary, value: float | None,
+                 currency: str | None = None) -> tuple[float, str]:
+    """A stage's objective or bound in its own units: money for the cost stage (with its
+    currency, if any), and for the weighted stage's cost plus shortfall cost."""
     if value is None:
         return -1.0, "-"
-    return value, money(value) if stage.name == "cost" else number_text(value)
+    text = money(value) if stage.name == "cost" else number_text(value)
+    unit = f" {currency}" if currency and stage.name in MONEY_STAGES else ""
+    return value, text + unit
 
 
 def _run_details(data: ReportData) -> str:
     run = data.summary
+    currency = data.instance.money.currency
+
     def fmt(value: float | None, spec: str) -> str:
         return "-" if value is None else format(value, spec)
 
@@ -583,8 +599,9 @@ def _run_details(data: ReportData) -> str:
     if run.stages:
         out += table_html(["stage", "outcome, and what the gap leaves open", "objective",
                            "bound", "gap", "seconds", "solver says"],
-                          [[s.name, stage_words(s), _stage_value(s, s.objective),
-                            _stage_value(s, s.bound),
+                          [[s.name, stage_words(s, currency),
+                            _stage_value(s, s.objective, currency),
+                            _stage_value(s, s.bound, currency),
                             (s.gap if s.gap is not None else -1,
                              "-" if s.gap is None else f"{s.gap:.2%}"),
                             (s.seconds if s.seconds is not None else -1,

@@ -11,10 +11,18 @@ from typing import Any, Protocol
 
 import pandas as pd
 
-from rebalance.report.console import room_left
+from rebalance.report.console import (
+    NEAR_ZERO,
+    is_flag,
+    is_missing,
+    is_money,
+    money_text,
+    number_text,
+    room_left,
+)
 from rebalance.solve import StageResult, Status
 
-__all__ = ["PLAIN_STATUS", "card", "chart", "compact_money", "e", "frame_table_html",
+__all__ = ["NEAR_ZERO", "PLAIN_STATUS", "card", "chart", "compact_money", "e", "frame_table_html",
            "money", "num", "number_text", "plain_status", "readable", "section", "stage_words",
            "table_html"]
 
@@ -28,8 +36,6 @@ PLAIN_STATUS = {
     "unknown": "unknown solver outcome",
     "approximate": "approximate (no plan)",
 }
-# Values this close to zero are rounding left over from the solver: shown as 0.
-NEAR_ZERO = 1e-9
 
 
 def e(value: object) -> str:
@@ -40,19 +46,9 @@ def num(value: float, digits: int = 1) -> str:
     return f"{value:,.{digits}f}"
 
 
-def money(value: float) -> str:
-    return f"{value:,.0f}"
-
-
-def number_text(value: float, digits: int = 3) -> str:
-    """A number as a reader wants it: whole numbers without decimals, ``digits`` decimals
-    otherwise (none from 1,000 up), and solver dust such as 4.4e-16 as 0."""
-    v = float(value)
-    if abs(v) < NEAR_ZERO:
-        v = 0.0
-    if v.is_integer() or abs(v) >= 1000:
-        return num(v + 0.0, 0)  # + 0.0: no "-0" on show
-    return num(v + 0.0, digits)
+# Numbers are written by the console's rule (report/console.py), so a figure reads the same
+# on the page as in the terminal.
+money = money_text
 
 
 def plain_status(status: str) -> str:
@@ -85,9 +81,10 @@ class _Stage(Protocol):
     def solver_says(self) -> str: ...
 
 
-def stage_words(stage: _Stage) -> str:
-    """What one solve stage's outcome and gap mean, in the stage's own units, worded as the
-    console words them (:func:`rebalance.report.console.room_left`)."""
+def stage_words(stage: _Stage, currency: str | None = None) -> str:
+    """What one solve stage's outcome and gap mean, in the stage's own units (money in
+    ``currency`` where one is given), worded as the console words them
+    (:func:`rebalance.report.console.room_left`)."""
     try:
         status = Status(stage.status)
     except ValueError:
@@ -98,7 +95,8 @@ def stage_words(stage: _Stage) -> str:
                             else "")
     if status is Status.FEASIBLE_WITH_GAP:
         room = room_left(StageResult(stage.name, status, stage.objective, stage.bound,
-                                      stage.gap, stage.seconds or 0.0, stage.solver_says))
+                                      stage.gap, stage.seconds or 0.0, stage.solver_says),
+                         currency)
         if room is None:
             room = "gap unknown" if stage.gap is None else f"gap {stage.gap:.2%}"
         return f"not proven best: {room}"
@@ -150,38 +148,34 @@ def _row(r: Sequence[Any], numeric: Sequence[bool]) -> str:
     return "<tr>" + "".join(cells) + "</tr>"
 
 
-def _is_gap(column: str) -> bool:
-    name = column.lower()
-    return name == "gap" or name.endswith("_gap") or name.startswith("gap_")
-
-
 def _cell(value: Any, column: str, is_num: bool) -> Any:
     """One cell of an analysis table as the page shows it (see :func:`frame_table_html`)."""
-    if value is None or (isinstance(value, float) and math.isnan(value)):
-        return ""
-    if isinstance(value, bool) or (hasattr(value, "dtype") and str(value.dtype) == "bool"):
-        return "yes" if bool(value) else "no"
+    if is_missing(value):
+        return ""  # blank, not the console's "-": the sorting script reads blank as no number
+    if is_flag(value):
+        return "yes" if value else "no"
     if is_num and isinstance(value, int | float) and math.isfinite(float(value)):
         v = 0.0 if abs(float(value)) < NEAR_ZERO else float(value)
-        if _is_gap(column):
-            return (v, f"{v:.2%}")
-        return (v, number_text(v))
+        return (v, number_text(v, column))
     if column.lower() == "status" and isinstance(value, str):
         return plain_status(value)
     return value
 
 
-def frame_table_html(frame: pd.DataFrame, name: str, limit: int = 200) -> str:
-    """Any analysis table as written, for people: headers in words, numbers right-aligned
-    and sortable (whole numbers without decimals, others three), gaps as percentages,
-    true/false as yes/no and solver statuses in plain words."""
+def frame_table_html(frame: pd.DataFrame, name: str, limit: int = 200,
+                     currency: str | None = None) -> str:
+    """Any analysis table as written, for people: headers in words (money columns' with the
+    ``currency``, if any), numbers right-aligned and sortable and written by
+    :func:`number_text` (three decimals), true/false as yes/no and solver statuses in plain
+    words."""
     columns = [str(c) for c in frame.columns]
     numeric = [pd.api.types.is_numeric_dtype(frame[c]) and not pd.api.types.is_bool_dtype(
         frame[c]) for c in frame.columns]
     rows = [[_cell(v, c, n) for v, c, n in zip(values, columns, numeric, strict=True)]
             for values in frame.itertuples(index=False, name=None)]
-    return table_html([readable(c) for c in columns], rows, name=name, numeric=numeric,
-                      limit=limit)
+    headers = [readable(c) + (f" ({currency})" if currency and is_money(c) else "")
+               for c in columns]
+    return table_html(headers, rows, name=name, numeric=numeric, limit=limit)
 
 
 def card(label: str, value: str, note: str, tone: str = "", *, more: str = "",

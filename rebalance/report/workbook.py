@@ -20,6 +20,7 @@ import pandas as pd
 
 from rebalance.files import sibling_name
 from rebalance.plan import PLAN_TABLES
+from rebalance.report.console import is_gap, is_money
 from rebalance.report.html import STATUS_WORDS, new_position_salaries, spare_capacity
 from rebalance.report.htmlparts import NEAR_ZERO, plain_status, stage_words
 from rebalance.report.inputs import ReportData, quality_notes
@@ -59,18 +60,34 @@ SHEET_NOTES = {
 
 
 def _format_for(column: str) -> str | None:
+    # Gaps and money by the console's rule (report/console.py), so a column is money in the
+    # workbook exactly where it is on the page and in the terminal.  A frontier's budget
+    # columns are not: they may hold factors of each year's cap, which whole units showed
+    # as 1 for 0.5; they take the plain formats, whole or three places.
     name = column.lower()
-    if name == "gap" or name.endswith("_gap") or name.startswith("gap_"):
+    if is_gap(name):
         return GAP
     if "share" in name or name.endswith("_pct") or name.endswith("rate"):
         return SHARE
-    if any(w in name for w in ("cost", "spend", "budget", "salary", "hiring", "moves", "money")):
+    if is_money(name):
         return MONEY
     if any(w in name for w in ("fte", "shortfall", "output", "demand", "covered")):
         return FTE
     if name in ("count", "hires", "details", "reassignments", "detail_periods", "people"):
         return WHOLE
     return None
+
+
+def _money_format(currency: str | None) -> str:
+    """The money number format, with the currency after the amount as
+    :meth:`rebalance.instance.Money.amount` writes it (``43,000 EUR``): the cell stays a
+    number.  The currency is quoted, or each character escaped where it holds a quote, so
+    no letter of it is read as a format code (E is the exponent's)."""
+    if not currency:
+        return MONEY
+    if '"' in currency:
+        return MONEY + " " + "".join("\\" + ch for ch in currency)
+    return f'{MONEY} "{currency}"'
 
 
 def write_workbook(data: ReportData, path: str | Path) -> Path:
@@ -99,8 +116,10 @@ def write_workbook(data: ReportData, path: str | Path) -> Path:
         styles = _Styles(book)
         _summary_sheet(book.add_worksheet("summary"), styles, data,
                        [n for n, _ in sheets], cut)
+        numeric_years = _numeric_years(data.instance.years)
         for name, frame in sheets:
-            _table_sheet(book.add_worksheet(name), styles, frame)
+            _table_sheet(book.add_worksheet(name), styles, frame, numeric_years,
+                         data.instance.money.currency)
         book.close()
         os.replace(tmp, target)
     except BaseException:
@@ -152,6 +171,27 @@ def _cell_value(value: Any) -> Any:
     return value
 
 
+def _numeric_years(years: Sequence[str]) -> bool:
+    """Whether every budget year is a plain whole number such as 2027 (not FY27, not 0027)."""
+    return bool(years) and all(y.isascii() and y.isdigit() and not y.startswith("0")
+                               for y in years)
+
+
+def _year_cell(value: Any, numeric: bool) -> Any:
+    """A year cell of one type in every sheet: the plan's costs hold years as text, tables
+    read back from CSV files as numbers, and a sheet of each had mixed them."""
+    if value is None:
+        return None
+    if numeric:
+        text = str(value).strip()
+        if isinstance(value, float) and value.is_integer():
+            return int(value)
+        return int(text) if text.isascii() and text.isdigit() else value
+    if isinstance(value, float) and value.is_integer():
+        return str(int(value))
+    return str(value)
+
+
 def _column_values(column: pd.Series) -> list[Any]:
     """A column's cells as Python values, None where missing (see :func:`_cell_value`);
     solver dust (4.4e-16 where the plan means 0) as 0."""
@@ -168,9 +208,11 @@ def _column_values(column: pd.Series) -> list[Any]:
                                                                 strict=True)]
 
 
-def _fit_widths(ws: Any, columns: Sequence[str], frame: pd.DataFrame | None = None) -> None:
+def _fit_widths(ws: Any, columns: Sequence[str], frame: pd.DataFrame | None = None,
+                headers: Sequence[str] | None = None) -> None:
+    """Each column as wide as its header (``headers``, else its name) and its content."""
     for i, column in enumerate(columns):
-        width = len(str(column))
+        width = len(str(column if headers is None else headers[i]))
         if frame is not None and len(frame):
             sample = frame[column].head(500)
             fmt = _format_for(str(column))
@@ -199,14 +241,21 @@ def _plain_number_formats(column: pd.Series, values: list[Any], styles: _Styles)
     return [whole_format if w else decimals for w in whole.tolist()]
 
 
-def _table_sheet(ws: Any, styles: _Styles, frame: pd.DataFrame) -> None:
+def _table_sheet(ws: Any, styles: _Styles, frame: pd.DataFrame,
+                 numeric_years: bool = False, currency: str | None = None) -> None:
     columns = [str(c) for c in frame.columns]
-    for j, column in enumerate(columns):
-        ws.write_string(0, j, column, styles.header)
+    # Money columns' names carry the currency, as on the page (``cost (EUR)``).
+    headers = [f"{c} ({currency})" if currency and is_money(c) else c for c in columns]
+    for j, header in enumerate(headers):
+        ws.write_string(0, j, header, styles.header)
     values = [_column_values(frame.iloc[:, j]) for j in range(len(columns))]
     formats = [styles.number(_format_for(c)) if _format_for(c) is not None else
                _plain_number_formats(frame.iloc[:, j], values[j], styles)
                for j, c in enumerate(columns)]
+    for j, column in enumerate(columns):
+        if column == "year":
+            values[j] = [_year_cell(v, numeric_years) for v in values[j]]
+            formats[j] = None  # a year as 2027, not 2,027
     write = ws.write
     if any(isinstance(f, list) for f in formats):
         for i, row in enumerate(zip(*values, strict=True), 1):
@@ -220,7 +269,7 @@ def _table_sheet(ws: Any, styles: _Styles, frame: pd.DataFrame) -> None:
     ws.freeze_panes(1, 0)
     if columns:
         ws.autofilter(0, 0, len(frame), len(columns) - 1)
-    _fit_widths(ws, columns, frame)
+    _fit_widths(ws, columns, frame, headers)
 
 
 def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequence[str],
@@ -260,12 +309,13 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
     line("shortfall (FTE-periods, unweighted)", plan.shortfall_fte, FTE)
     line("share of demand not covered", plan.shortfall_fte / demand if demand else 0.0, SHARE,
          f"of {demand:,.1f} FTE-periods demanded")
-    line("new money, all years", plan.total_cost, MONEY,
+    cash = _money_format(instance.money.currency)
+    line("new money, all years", plan.total_cost, cash,
          f"{instance.periods[0].name} to {instance.periods[-1].name}")
     commitment = new_position_salaries(data)
     positions = int(commitment["positions"].sum()) if len(commitment) else 0
     line("new positions' salaries a year",
-         float(commitment["per_year"].sum()) if len(commitment) else 0.0, MONEY,
+         float(commitment["per_year"].sum()) if len(commitment) else 0.0, cash,
          f"every year after the horizon ({instance.periods[-1].name}), not in new money: "
          f"{positions} new positions x salary per period x {instance.periods_per_year} "
          "periods a year")
@@ -283,11 +333,12 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
 
     band("Spending against budget")
     header_row = next(rows)
-    for col, text in enumerate(["year", "hiring spend", "hiring cap", "moves spend",
-                                "moves cap"]):
+    for col, text in enumerate(["year", *(instance.money.header(h) for h in (
+            "hiring spend", "hiring cap", "moves spend", "moves cap"))]):
         ws.write_string(header_row, col, text, styles.header)
     costs = plan.costs.groupby(["year", "kind"])["cost"].sum() if len(plan.costs) else None
     money = styles.number(MONEY)
+    numeric_years = _numeric_years(instance.years)
     for year in instance.years:
         def spent(*kinds: str, year: str = year) -> float:
             return sum(float(costs.get((year, k), 0.0)) for k in kinds) if costs is not None \
@@ -295,7 +346,7 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
 
         budget = instance.budget(year)
         row = next(rows)
-        ws.write(row, 0, _cell_value(year))
+        ws.write(row, 0, _year_cell(year, numeric_years))
         for col, value in enumerate([spent("onboarding", "new_position_salary"),
                                      None if budget is None else budget.hiring,
                                      spent("detail", "relocation"),
@@ -325,7 +376,7 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
     line("largest stage gap at stop", run.gap, GAP)
     for stage in run.stages:
         if stage.name != "build":
-            line(f"{stage.name} stage", stage_words(stage))
+            line(f"{stage.name} stage", stage_words(stage, instance.money.currency))
     line("model size", f"{run.model_columns or 0:,} columns ({run.model_integer_columns or 0:,} "
          f"integer) x {run.model_rows or 0:,} rows")
     line("solve seconds", run.solve_seconds, "0.0")

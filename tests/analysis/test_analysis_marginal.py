@@ -257,3 +257,50 @@ def test_weighted_mode_with_free_shortfall_gives_no_estimate_not_nan_by_accident
     base = make_plan(free, exact_options(free))
     table = marginal_values(base, exact_options(free), workers=1).table
     assert all("shortfall_cost is 0" in m or "time to hire" in m for m in table["method"])
+
+
+def _with_shortfall(result, weighted_shortfall: float):
+    """``result`` with its plan's weighted shortfall set to ``weighted_shortfall`` (all on the
+    first coverage row): the shortfalls two solves report, without solving for them."""
+    assert result.plan is not None
+    coverage = result.plan.coverage.copy()
+    coverage["weighted_shortfall"] = 0.0
+    coverage.loc[coverage.index[0], "weighted_shortfall"] = weighted_shortfall
+    return replace(result, plan=replace(result.plan, coverage=coverage))
+
+
+@pytest.mark.parametrize(("relaxed", "reduction", "gap_words"), [
+    # /tmp sweep, vacancies row: 6.983486704228082 against the cost stage's cap 1e-6 above it
+    # had read -6.98e-06, "worse only within the two solves' gap".
+    (6.983486704228082 * (1 + 1e-6), 0.0, False),
+    (6.983486704228082 * (1 - 1e-6), 0.0, False),  # better within it: no change either
+    (6.983486704228082 + 0.01, -0.01, True),  # beyond the tolerance: the gap's doing
+])
+def test_a_shortfall_within_the_shortfall_tolerance_is_no_change(
+        tiny, monkeypatch, relaxed: float, reduction: float, gap_words: bool) -> None:
+    from rebalance.analysis import marginal
+
+    options = exact_options(tiny)
+    assert options.mode == "shortfall-first" and options.shortfall_tolerance == 1e-6
+    solved = solve_verified(tiny)
+    base = _with_shortfall(solved, 6.983486704228082)
+    monkeypatch.setattr(marginal, "solve_many", lambda instances, *_: [
+        _with_shortfall(solved, relaxed) for _ in instances])
+    candidate = marginal.Candidate("seats", "A", 3.0, 10.0, "seats", 1)
+    row = marginal_values(base, options, workers=1, candidates=[candidate]).table.iloc[0]
+    assert row["shortfall_reduction"] == pytest.approx(reduction, abs=1e-12)
+    assert ("solves' gap" in row["method"]) is gap_words
+
+
+def test_a_budget_step_is_counted_in_the_instance_currency(tiny) -> None:
+    from rebalance.analysis.marginal import STEP_UNITS, step_unit
+    from rebalance.instance import Money
+
+    euros = tiny.with_changes(money=Money("EUR"))
+    units = {c.limit: c.unit for c in binding_candidates(solve_verified(euros))}
+    assert units["hiring_budget"] == "EUR"
+    assert units["max_hires"] == "hires per period"  # not money: unchanged
+    assert {c.limit: c.unit for c in binding_candidates(solve_verified(tiny))}[
+        "hiring_budget"] == "money"  # no currency set
+    for limit, unit in STEP_UNITS.items():
+        assert step_unit(limit, euros) == ("EUR" if unit.plural == "money" else unit.plural)

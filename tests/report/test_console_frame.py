@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import re
 
 import pandas as pd
 
@@ -24,3 +25,21 @@ def test_gaps_money_counts_flags_and_missing_values_read_plainly() -> None:
     assert lines[0].split() == list(frame.columns) and len(lines) == 4
     assert lines[3].split()[2] == "-"  # the missing gap
     assert lines[2].split()[-1] == "10" and lines[3].split()[-1] == "0.05"
+
+
+def test_the_console_and_the_page_write_numbers_by_one_rule():
+    # Two rules had drifted: the page wrote solver dust as 0 and 1,234.6 as 1,235 while the
+    # console wrote 0.00 and 1,234.60; the page wrote a cost of 123.456 with decimals.
+    from rebalance.report import htmlparts
+    from rebalance.report.console import number_text
+
+    assert htmlparts.number_text is number_text
+    frame = pd.DataFrame({"shortfall_reduction": [4.4e-16, 1234.6, -1e-12],
+                          "total_cost": [123.456, 2.0, 0.4], "stage_gap": [0.5, 0.0, 0.01]})
+    rows = [line.split() for line in format_frame(frame).splitlines()[2:]]
+    assert rows == [["0", "123", "50.00%"], ["1,235", "2", "0.00%"], ["0", "0", "1.00%"]]
+    page = htmlparts.frame_table_html(frame, "t")
+    cells = re.findall(r"<td\b[^>]*>(.*?)</td>", page)
+    assert cells == ["0", "123", "50.00%", "1,235", "2", "0.00%", "0", "0", "1.00%"]
+    # Decimals are each surface's own: two in a console column, three on the page.
+    assert number_text(165.945102, digits=2) == "165.95" and number_text(165.945102) == "165.945"

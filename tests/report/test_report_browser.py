@@ -294,3 +294,27 @@ def test_wide_analysis_tables_fit_1400_pixels_and_still_sort(browser):
     # Wrapped, not cut: every binding limit is on the page as written.
     expected = {str(v) for v in demo_reasons_table()["binding_limits"].dropna()}
     assert expected <= set(cells)
+
+
+def test_the_budget_axis_names_the_page_currency(browser, tmp_path):
+    from dataclasses import replace
+
+    from conftest import solve_verified
+    from report_cases import TINY
+
+    from rebalance import read_instance
+    from rebalance.instance import Money
+    from rebalance.report.html import render_html
+    from rebalance.report.inputs import report_data
+
+    result = solve_verified(read_instance(TINY))
+    axis = """return Array.from(document.querySelectorAll(
+        '.chart[data-chart="budget"] .axis text')).map(t => t.textContent);"""
+    for currency, words in (("EUR", "one scale, in EUR"), (None, "one scale")):
+        instance = result.instance.with_changes(money=Money(currency))
+        page = render_html(report_data(replace(result, instance=instance)))
+        path = tmp_path / f"{currency}.html"
+        path.write_text(page, encoding="utf-8")
+        assert _open(browser, path) == []
+        labels = browser.execute_script(axis)
+        assert words in labels and not any("None" in t for t in labels)

@@ -115,12 +115,10 @@ def test_text_stays_text_and_missing_or_infinite_numbers_stay_readable(tmp_path)
     rows = list(sheet.iter_rows(min_row=2, values_only=True))
     assert [r[0] for r in rows] == ["00123", "=1+1", "https://example.invalid/p", "1e3"]
     assert all(sheet.cell(row=i, column=1).data_type == "s" for i in range(2, 6))
-    assert [r[1] for r in rows] == ["2027", "2028", None, "2029"]
+    assert [r[1] for r in rows] == [2027, 2028, None, 2029]  # a year is a number in every sheet
     assert [r[2] for r in rows] == [1.5, None, "inf", "-inf"]
     assert sheet.cell(row=2, column=3).number_format == "#,##0.00"
     assert not sheet.cell(row=2, column=1).hyperlink
-    costs = load_workbook(tiny_plan_folder() / "plan.xlsx")["costs"]
-    assert {costs.cell(row=i, column=1).data_type for i in range(2, costs.max_row + 1)} == {"s"}
 
 
 def test_empty_table_keeps_a_filter_over_its_header(tmp_path):
@@ -163,3 +161,35 @@ def test_a_table_longer_than_a_sheet_is_cut_and_the_summary_says_so_first(tmp_pa
     note = next(i for i, text in enumerate(summary) if "reasons sheet" in text)
     assert "999 of its 1,000 rows" in summary[note]
     assert summary[note - 1] == "Read this first"
+
+
+def _year_cells(sheet, header_row: int = 1, first: int = 2, last: int | None = None):
+    column = [c.value for c in sheet[header_row]].index("year") + 1
+    return [sheet.cell(row=r, column=column) for r in range(first, (last or sheet.max_row) + 1)]
+
+
+def test_a_year_is_one_type_in_every_sheet():
+    # The costs sheet had years as text and scenario_costs as numbers, so a pivot over both
+    # kept 2027 and "2027" apart.  Reference: the CSV files, read by pandas, hold numbers.
+    folder = tiny_analysis_folder()
+    book = load_workbook(folder / "plan.xlsx")
+    for name in ("costs", "scenario_costs"):
+        cells = _year_cells(book[name])
+        assert cells and {c.data_type for c in cells} == {"n"}, name
+        assert all(c.number_format == "General" for c in cells), name  # 2027, not 2,027
+        csv_years = pd.read_csv(folder / f"{name}.csv")["year"]
+        assert csv_years.dtype.kind == "i"
+        assert [c.value for c in cells] == csv_years.tolist(), name
+    summary = book["summary"]
+    at = next(c.row for c in summary["A"] if c.value == "Spending against budget") + 1
+    years = _year_cells(summary, at, at + 1, at + 1)  # tiny has one budget year
+    assert [c.value for c in years] == [2027] and years[0].data_type == "n"
+
+
+def test_years_that_are_not_numbers_stay_text_everywhere():
+    from rebalance.report.workbook import _numeric_years, _year_cell
+
+    assert _numeric_years(("2027", "2028")) and not _numeric_years(("2027", "FY28"))
+    assert not _numeric_years(("0027",))  # leading zeros would be lost
+    assert [_year_cell(v, False) for v in ("FY28", 2027, 2027.0, None)] == [
+        "FY28", "2027", "2027", None]

@@ -315,7 +315,7 @@
   var PART = { onboarding: ["#6f9a55", "onboarding"],
     new_position_salary: ["#b5d09d", "new-position salaries"],
     detail: ["#3f7f94", "details"], relocation: ["#9cc3cf", "relocations"] };
-  function budget(box, d) {
+  function budget(box, d, page) {
     if (!d.length) { return empty(box, "No budget years in this plan."); }
     legend(box, Object.keys(PART).map(function (k) { return { color: PART[k][0], text: PART[k][1] }; })
       .concat([{ color: C.ink, text: "cap for the year", line: true }]));
@@ -333,7 +333,9 @@
       label(axis, xv(v), axisY + 16, tick(v), { "text-anchor": "middle" });
     });
     el("line", { x1: lw, x2: lw + bw, y1: axisY, y2: axisY }, axis);
-    label(axis, lw - 12, axisY + 16, "one scale", { "text-anchor": "end" });
+    // The page's currency, where the instance names one: the axis says it, as the caption does.
+    var unit = page && page.currency ? ", in " + page.currency : "";
+    label(axis, lw - 12, axisY + 16, "one scale" + unit, { "text-anchor": "end" });
     d.forEach(function (r, i) {
       var yy = 8 + i * rh, keys = Object.keys(r.parts);
       label(g, lw - 12, yy + 17, r.year + " " + r.kind, { "text-anchor": "end", "class": "title" });
@@ -548,7 +550,7 @@
       var kind = box.getAttribute("data-chart");
       try {
         if (!CHARTS[kind] || !data[kind]) { throw new Error("no data"); }
-        var marks = CHARTS[kind](box, data[kind]);
+        var marks = CHARTS[kind](box, data[kind], data);  // the whole data: page-wide settings
         box.setAttribute("data-marks", String(marks));
         box.setAttribute("data-drawn", "yes");
         drawn++;

@@ -17,6 +17,7 @@ import argparse
 import json
 import math
 import os
+import shlex
 import sys
 import time
 from collections.abc import Callable, Sequence
@@ -33,7 +34,7 @@ from rebalance.solve import Status
 if TYPE_CHECKING:
     from rebalance.planning import PlanResult
 
-VIOLATIONS_SHOWN = 20  # on stderr, for a plan that failed verification: enough to see why
+VIOLATIONS_SHOWN = 20  # lines of a long list of problems or violations: enough to see why
 EXIT_OK = 0
 EXIT_INTERNAL = 1
 EXIT_USAGE = 2
@@ -67,14 +68,20 @@ def _load(path: str) -> Instance | None:
         return None
 
 
+def _first(lines: Sequence[str], hint: str = "") -> list[str]:
+    """The first ``VIOLATIONS_SHOWN`` of ``lines`` and a count of the rest (an old plan of
+    another instance had listed 66 lines of names the instance lacks); ``hint`` says how to
+    see them all."""
+    if len(lines) <= VIOLATIONS_SHOWN:
+        return list(lines)
+    return [*lines[:VIOLATIONS_SHOWN], f"  ... and {len(lines) - VIOLATIONS_SHOWN} more{hint}"]
+
+
 def _say_first(head: str, problems: Sequence[object]) -> None:
-    """``head``, then the first problems and how many more (an old plan of another instance
-    had listed 66 lines of names the instance lacks)."""
+    """``head``, then the first problems and how many more, on stderr."""
     _err(head)
-    for problem in problems[:VIOLATIONS_SHOWN]:
-        _err(f"  {problem}")
-    if len(problems) > VIOLATIONS_SHOWN:
-        _err(f"  ... and {len(problems) - VIOLATIONS_SHOWN} more")
+    for line in _first([f"  {problem}" for problem in problems]):
+        _err(line)
 
 
 def _unreadable_plan(folder: str | Path, exc: InstanceError) -> int:
@@ -147,7 +154,9 @@ def cmd_verify(args: argparse.Namespace) -> int:
         violations = verify_folder(instance, args.plan_dir, complete=True)
     except PlanError as exc:
         return _unreadable_plan(args.plan_dir, exc)
-    print(format_violations(violations))
+    head, *lines = format_violations(violations).splitlines()
+    print("\n".join([head, *(lines if args.all else
+                              _first(lines, "; --all lists every one"))]))
     return EXIT_OK if not violations else EXIT_VERIFICATION_FAILED
 
 
@@ -210,8 +219,11 @@ def cmd_report(args: argparse.Namespace) -> int:
         print(f"wrote {path}")
     if violations:
         # Written all the same, saying so on its first card: a planner may need to see what
-        # an edited plan looks like.
-        _err(format_violations(violations))
+        # an edited plan looks like.  Capped as verify's list is; report has no --all.
+        head, *lines = format_violations(violations).splitlines()
+        verify = f"rebalance verify {shlex.quote(str(source))} {shlex.quote(args.plan_dir)} --all"
+        for line in [head, *_first(lines, f"; {verify} lists every one")]:
+            _err(line)
         return EXIT_VERIFICATION_FAILED
     return EXIT_OK
 
@@ -355,7 +367,7 @@ def cmd_compare(args: argparse.Namespace) -> int:
     columns = [c for c in ("scenario", "status", "verified", "gap", "weighted_shortfall",
                            "total_cost", "hires", "detail_periods", "reassignments",
                            "actions_differing") if c in comparison.table.columns]
-    print(format_frame(comparison.table[columns]))
+    print(format_frame(comparison.table[columns], instance.money.currency))
     for result in comparison.results:
         code = _plan_failed(result)
         if code is not None:
@@ -411,7 +423,7 @@ def cmd_replan(args: argparse.Namespace) -> int:
     try:
         out = replan(instance, old, instance.period_names.index(args.at),
                      _analysis_options(instance, args, progress=True), costs,
-                     allow_recall=args.allow_recall)
+                     allow_recall=args.allow_recall, folder=folder)
     except ReplanError as exc:
         _say_first(f"{folder}: the old plan cannot be carried forward; nothing was written",
                    exc.problems)
@@ -433,7 +445,7 @@ def cmd_replan(args: argparse.Namespace) -> int:
     print(out.summary.to_string(index=False, float_format=lambda v: f"{v:,.2f}"))
     print(f"\n{len(out.changes)} change(s) against the old plan from {args.at} on")
     if len(out.changes):
-        print(format_frame(out.changes.head(30)))
+        print(format_frame(out.changes.head(30), instance.money.currency))
 
     # Under a scenario the plan belongs to the changed data, not to the instance folder:
     # record no instance path, so 'rebalance report' asks for one rather than mislead.
@@ -476,7 +488,7 @@ def cmd_frontier(args: argparse.Namespace) -> int:
                                workers=args.workers)
     shown = frontier.table[["point", "hiring_budget", "moves_budget", "status", "gap",
                             "weighted_shortfall", "total_cost", "knee"]]
-    print(format_frame(shown))
+    print(format_frame(shown, instance.money.currency))
     print(f"\nhiring_budget and moves_budget: {frontier.table['budget_unit'].iloc[0]}; an "
           "empty moves_budget keeps the instance's caps")
     # A point without a plan (infeasible, out of time) is a result the table reports; a plan
@@ -516,7 +528,8 @@ def cmd_marginal(args: argparse.Namespace) -> int:
     if len(values.table):
         print(format_frame(values.table[["rank", "limit", "where", "step",
                                          "shortfall_reduction", "cost_change",
-                                         "estimate_shortfall_reduction", "status"]]))
+                                         "estimate_shortfall_reduction", "status"]],
+                           instance.money.currency))
     else:
         print("no limit binds the plan, so there is nothing to rank; "
               "marginal_values.csv is written with its header only")
@@ -630,6 +643,8 @@ def build_parser() -> argparse.ArgumentParser:
     p = sub.add_parser("verify", help="check a plan folder against its instance")
     p.add_argument("instance")
     p.add_argument("plan_dir")
+    p.add_argument("--all", action="store_true",
+                   help=f"list every violation, not only the first {VIOLATIONS_SHOWN}")
     p.set_defaults(run=cmd_verify)
 
     p = sub.add_parser("demand", help="forecast FTE demand from workload history into an "

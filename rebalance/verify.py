@@ -54,7 +54,7 @@ def verify_folder(instance: Instance, folder: str | Path, *,
     missing = [name for name in PLAN_TABLES if not (path / f"{name}.csv").exists()]
     if missing and not complete:
         return [Violation("missing_table", str(path), f"{name}.csv is missing") for name in missing]
-    checker = _Checker(instance, read_plan(path, complete=complete))
+    checker = _Checker(instance, read_plan(path, complete=complete), path)
     checker.run()
     summary_path = path / "summary.json"
     if summary_path.exists() and not checker.violations:
@@ -68,10 +68,12 @@ def verify_folder(instance: Instance, folder: str | Path, *,
     return checker.violations
 
 
-def unknown_names(instance: Instance, plan: Plan) -> list[Violation]:
+def unknown_names(instance: Instance, plan: Plan,
+                  folder: str | Path | None = None) -> list[Violation]:
     """Names in ``plan`` (people, offices, skills, periods) that ``instance`` lacks, and
-    missing columns: what must hold before a plan can be read against an instance."""
-    checker = _Checker(instance, plan)
+    missing columns: what must hold before a plan can be read against an instance.  With
+    ``folder`` (where the plan was read from) each names its file there."""
+    checker = _Checker(instance, plan, folder)
     checker._references_ok()
     return checker.violations
 
@@ -84,9 +86,10 @@ def verify_plan(instance: Instance, plan: Plan) -> list[Violation]:
 
 
 class _Checker:
-    def __init__(self, instance: Instance, plan: Plan) -> None:
+    def __init__(self, instance: Instance, plan: Plan, folder: str | Path | None = None) -> None:
         self.i = instance
         self.plan = plan
+        self.folder = None if folder is None else Path(folder)
         self.violations: list[Violation] = []
         self.people = {p.person: p for p in instance.staff}
         self.offices = {o.name: o for o in instance.offices}
@@ -99,6 +102,12 @@ class _Checker:
 
     def flag(self, rule: str, where: str, message: str) -> None:
         self.violations.append(Violation(rule, where, message))
+
+    def file(self, table: str) -> str:
+        """The table's file, with its folder when known: a line that names it can be pasted
+        (as read_plan's problems can)."""
+        name = f"{table}.csv"
+        return name if self.folder is None else str(self.folder / name)
 
     def run(self) -> None:
         if not self._references_ok():
@@ -132,7 +141,7 @@ class _Checker:
             frame = self.plan.table(table)
             missing = [column for column in PLAN_TABLES[table] if column not in frame.columns]
             for column in missing:
-                self.flag("missing_column", table, f"column {column} is missing")
+                self.flag("missing_column", self.file(table), f"column {column} is missing")
             ok = ok and not missing
             if missing:
                 continue  # this table's names cannot be read; the other tables' still can
@@ -140,11 +149,11 @@ class _Checker:
                 unknown = [(row, value) for row, value in
                            enumerate(frame[column].astype(str), 2) if value not in known]
                 for row, value in unknown[:UNKNOWN_NAMES_LISTED]:
-                    self.flag("unknown_reference", f"{table}.csv:{row}",
+                    self.flag("unknown_reference", f"{self.file(table)}:{row}",
                               f"{column} '{value}' is not in the instance")
                 if len(unknown) > UNKNOWN_NAMES_LISTED:
                     # A plan of another instance names thousands; the first few say enough.
-                    self.flag("unknown_reference", f"{table}.csv",
+                    self.flag("unknown_reference", self.file(table),
                               f"{len(unknown) - UNKNOWN_NAMES_LISTED:,} more rows whose "
                               f"{column} is not in the instance")
                 ok = ok and not unknown
@@ -315,8 +324,8 @@ class _Checker:
         for number, r in enumerate(records(self.plan.coverage), 2):
             key = (r.office, r.skill, str(r.period))
             if key in reported:
-                self.flag("coverage_rows", f"coverage.csv:{number}", f"{r.skill} at {r.office} "
-                          f"in {r.period} is listed twice")
+                self.flag("coverage_rows", f"{self.file('coverage')}:{number}",
+                          f"{r.skill} at {r.office} in {r.period} is listed twice")
             reported[key] = r
         weighted = unweighted = 0.0
         demanded = set()
@@ -396,11 +405,12 @@ class _Checker:
         for number, r in enumerate(records(self.plan.costs), 2):
             key = (str(r.year), str(r.kind))
             if key in reported:
-                self.flag("costs", f"costs.csv:{number}", f"{key[1]} in {key[0]} is listed "
-                          "twice")
+                self.flag("costs", f"{self.file('costs')}:{number}",
+                          f"{key[1]} in {key[0]} is listed twice")
             elif key not in expected_keys:
-                self.flag("costs", f"costs.csv:{number}", f"'{key[1]}' in '{key[0]}' is not a "
-                          "kind of cost (" + ", ".join(COST_KINDS) + ") in a budget year")
+                self.flag("costs", f"{self.file('costs')}:{number}",
+                          f"'{key[1]}' in '{key[0]}' is not a kind of cost ("
+                          + ", ".join(COST_KINDS) + ") in a budget year")
             reported[key] = float(r.cost)
         for key in sorted(expected_keys - set(reported)):
             self.flag("costs", f"{key[1]} in {key[0]}", "row missing from costs.csv")

@@ -11,7 +11,7 @@ import pytest
 from conftest import DATA, solve_verified
 
 from rebalance import read_instance
-from rebalance.cli import EXIT_INVALID_INPUT, VIOLATIONS_SHOWN, main
+from rebalance.cli import EXIT_INVALID_INPUT, EXIT_VERIFICATION_FAILED, VIOLATIONS_SHOWN, main
 from rebalance.plan import PLAN_TABLES, PlanError, read_plan
 from rebalance.planning import write_outputs
 
@@ -141,9 +141,8 @@ def test_every_problem_of_every_table_is_said_at_once(plan_dir, tmp_path, capsys
     assert not (plan_dir / "report.html").exists()
 
 
-def test_an_old_plan_of_another_instance_lists_a_bounded_number_of_problems(
-        plan_dir, tmp_path, capsys):
-    # Every name unknown to tiny: 66 lines had been listed for the demo's plan.
+def as_another_instance(plan_dir: Path) -> None:
+    """Rename every person, period and office: a plan tiny knows nothing of."""
     offices = {"A": "X", "B": "Y"}.get
     renames = {"person": lambda v: f"x{v}", "period": lambda v: v.replace("2027", "2031"),
                "start_period": lambda v: v.replace("2027", "2031"), "office": offices,
@@ -154,6 +153,12 @@ def test_an_old_plan_of_another_instance_lists_a_bounded_number_of_problems(
             if column in frame:
                 frame[column] = frame[column].map(rename)
         frame.to_csv(plan_dir / f"{name}.csv", index=False)
+
+
+def test_an_old_plan_of_another_instance_lists_a_bounded_number_of_problems(
+        plan_dir, tmp_path, capsys):
+    # Every name unknown to tiny: 66 lines had been listed for the demo's plan.
+    as_another_instance(plan_dir)
     out = tmp_path / "replanned"
     assert main(["replan", TINY, "--from", str(plan_dir), "--at", "2027-Q3", "-o", str(out),
                  "--quiet"]) == EXIT_INVALID_INPUT
@@ -161,3 +166,46 @@ def test_an_old_plan_of_another_instance_lists_a_bounded_number_of_problems(
     assert lines[0] == f"{plan_dir}: the old plan cannot be carried forward; nothing was written"
     assert len(lines) == 1 + VIOLATIONS_SHOWN + 1 and lines[-1].startswith("  ... and ")
     assert not out.exists()
+    # Each line names its file in its folder, as a plan folder's other problems do (they had
+    # read "details.csv:2: ..." with the folder only in the first line).
+    assert lines[1] == f"  {plan_dir / 'details.csv'}:2: person 'xa1' is not in the instance"
+    assert all(line.startswith(f"  {plan_dir}{'/'}") for line in lines[1:-1])
+
+
+def test_verify_lists_the_first_violations_and_all_on_request(plan_dir, capsys):
+    # The same plan of another instance: verify had printed all 66 lines; now as replan does,
+    # the first VIOLATIONS_SHOWN and a count of the rest, with --all for every one.
+    as_another_instance(plan_dir)
+    assert main(["verify", TINY, str(plan_dir)]) == EXIT_VERIFICATION_FAILED
+    capped = capsys.readouterr().out.splitlines()
+    assert main(["verify", TINY, str(plan_dir), "--all"]) == EXIT_VERIFICATION_FAILED
+    every = capsys.readouterr().out.splitlines()
+    assert len(every) > 1 + VIOLATIONS_SHOWN + 1
+    assert capped[:1 + VIOLATIONS_SHOWN] == every[:1 + VIOLATIONS_SHOWN]
+    assert capped[-1] == (f"  ... and {len(every) - 1 - VIOLATIONS_SHOWN} more; --all lists "
+                          "every one")
+    assert len(capped) == 1 + VIOLATIONS_SHOWN + 1
+    assert every[1].startswith(f"  - unknown_reference: {plan_dir / 'details.csv'}:2: ")
+
+
+def test_report_lists_the_first_violations_as_verify_does(plan_dir, capsys):
+    # report had printed every violation on stderr (66 lines here); it caps them as verify
+    # does and, having no --all itself, names the verify command that lists every one.
+    as_another_instance(plan_dir)
+    assert main(["verify", TINY, str(plan_dir), "--all"]) == EXIT_VERIFICATION_FAILED
+    every = capsys.readouterr().out.splitlines()
+    assert main(["report", str(plan_dir), "--instance", TINY]) == EXIT_VERIFICATION_FAILED
+    capped = capsys.readouterr().err.splitlines()
+    assert capped[:1 + VIOLATIONS_SHOWN] == every[:1 + VIOLATIONS_SHOWN]
+    assert capped[-1] == (f"  ... and {len(every) - 1 - VIOLATIONS_SHOWN} more; rebalance "
+                          f"verify {TINY} {plan_dir} --all lists every one")
+    assert len(capped) == 1 + VIOLATIONS_SHOWN + 1
+
+
+def test_report_lists_a_few_violations_whole(plan_dir, capsys):
+    edit(plan_dir, "details", "a1,2027-Q2,A,B", "a1,2027-Q2,A,A")
+    assert main(["verify", TINY, str(plan_dir)]) == EXIT_VERIFICATION_FAILED
+    every = capsys.readouterr().out.splitlines()
+    assert main(["report", str(plan_dir), "--instance", TINY]) == EXIT_VERIFICATION_FAILED
+    assert capsys.readouterr().err.splitlines() == every
+    assert len(every) <= 1 + VIOLATIONS_SHOWN

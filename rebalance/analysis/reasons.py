@@ -156,6 +156,9 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
             text = (f"{h.skill} demand at {h.office} is above its staff's output for {run} "
                     f"straight {_periods(run)} from {names[first]}, {lasting} (by "
                     f"{mean_gap:.2f} FTE on average), so a hire ({funding})")
+            if first > s:
+                text += _early_start(instance, h.office, h.skill, s, first, binding,
+                                     replanned_at)
         rows.append(("hire", f"{h.count} x {h.skill}", h.office, h.skill, h.start_period,
                      names[T - 1], float(h.count), text, ""))
 
@@ -261,6 +264,36 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
         rows.append(("shortfall", f"{k} at {o}", o, k, names[t], names[t], short, text,
                      ";".join(limit_key(u) for u in cited)))
     return Reasons(pd.DataFrame(rows, columns=list(REASON_COLUMNS)), uses)
+
+
+def _early_start(instance: Instance, office: str, skill: str, s: int, first: int,
+                 binding: list[LimitUse], replanned_at: int | None) -> str:
+    """Why a hire starts in period ``s``, before the gap it fills opens in ``first``: the
+    reason had counted the gap from ``first`` without saying the start came earlier."""
+    names = instance.period_names
+    opens = f"the gap opens in {names[first]}"
+    if replanned_at is not None and s < replanned_at + instance.skill(skill).time_to_hire:
+        return (f"; it starts in {names[s]}, before {opens}, as recruitment had begun before "
+                f"the re-plan from {names[replanned_at]}")
+    # A ramp-up (skills.csv) makes a hire's first periods less productive: starting early
+    # puts them before the gap, where they are not needed.
+    ramp = instance.skill(skill).ramp
+    early = first - s
+    on_time = ramp[0] if ramp else 1.0
+    then = ramp[early] if early < len(ramp) else 1.0
+    if then > on_time:
+        if early >= len(ramp):
+            return f"; it starts in {names[s]} to be past its ramp-up when {opens}"
+        return (f"; it starts in {names[s]} to be further into its ramp-up when {opens} "
+                f"({then:.0%} of full output there, against {on_time:.0%} had it started "
+                "then)")
+    full = [u.period for u in binding if u.limit == "max_hires" and u.where == office
+            and u.period in names[s + 1:first + 1]]
+    if full:
+        return (f"; it starts in {names[s]}, before {opens}, as the hiring slots at {office} "
+                f"are full in {', '.join(full)}")
+    return (f"; it starts in {names[s]}, before {opens}, for no gain visible here "
+            "(review)")
 
 
 def _relevant(instance: Instance, binding: list[LimitUse], office: str, skill: str,

@@ -19,6 +19,7 @@ import math
 from collections import defaultdict
 from collections.abc import Hashable
 from dataclasses import dataclass, replace
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -75,14 +76,21 @@ class ReplanError(ValueError):
 
 
 def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
-           costs: DisruptionCosts = DisruptionCosts(), allow_recall: bool = False) -> Replan:
-    """Re-plan ``instance`` from period index ``at`` keeping close to ``old``."""
+           costs: DisruptionCosts = DisruptionCosts(), allow_recall: bool = False,
+           folder: str | Path | None = None) -> Replan:
+    """Re-plan ``instance`` from period index ``at`` keeping close to ``old`` (read from
+    ``folder``, if given: problems with its tables then name their files there)."""
     T = len(instance.periods)
     if not 0 <= at < T:
         raise ReplanError([f"period index {at} is outside the horizon (0..{T - 1})"])
-    unknown = unknown_names(instance, old)
+    unknown = unknown_names(instance, old, folder)
     if unknown:  # an old plan of another instance, or one edited by hand
-        raise ReplanError([str(v) for v in unknown])
+        # As read_plan's problems read: file:row: what is wrong (input, not a broken rule).
+        raise ReplanError([f"{v.where}: {v.message}" for v in unknown])
+
+    def file(table: str) -> str:
+        return f"{table}.csv" if folder is None else str(Path(folder) / f"{table}.csv")
+
     names = instance.period_names
     ix = {name: t for t, name in enumerate(names)}
     people = {p.person: p for p in instance.staff}
@@ -90,18 +98,19 @@ def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
     details: dict[str, dict[int, tuple[str, str]]] = defaultdict(dict)
     for row in old.details.itertuples(index=False):
         if str(row.person) not in people or str(row.period) not in ix:
-            problems.append(f"details.csv: person {row.person} in {row.period} is not in the "
-                            "instance")
+            problems.append(f"{file('details')}: person {row.person} in {row.period} is not "
+                            "in the instance")
             continue
         details[str(row.person)][ix[str(row.period)]] = (str(row.from_office),
                                                           str(row.to_office))
     moves: dict[str, tuple[int, str]] = {}
     for row in old.reassignments.itertuples(index=False):
         if str(row.person) not in people or str(row.period) not in ix:
-            problems.append(f"reassignments.csv: person {row.person} in {row.period} is not in "
-                            "the instance")
+            problems.append(f"{file('reassignments')}: person {row.person} in {row.period} is "
+                            "not in the instance")
             continue
         moves[str(row.person)] = (ix[str(row.period)], str(row.to_office))
+    problems += _started_hires_ruled_out(instance, old, at)
     if problems:
         raise ReplanError(problems)
 
@@ -131,9 +140,8 @@ def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
                            if not v.rule.startswith("coverage") and v.rule not in BOOKKEEPING)
     changes = _changes(instance, old, result.plan, at, costs) if result.plan is not None else \
         pd.DataFrame(columns=list(CHANGE_COLUMNS))
-    # Priced from the person-level change table; equal to the model's change columns except
-    # where a decision lost its column (an old detail, not under way, to an office with no
-    # demand left).
+    # Priced from the person-level change table; equal to the model's change columns plus
+    # the constant for decisions that lost their column (_fix_and_price's `forced`).
     disruption = float(changes["disruption_cost"].sum()) if len(changes) else 0.0
     summary = _summary(instance, old, result.plan, changes, disruption)
     return Replan(at, result, changes, summary, disruption, old_violations,
@@ -182,11 +190,21 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
     people = {p.person: p for p in staff}
     lower, upper = model.col_lower.copy(), model.col_upper.copy()
     problems: list[str] = []
+    # Disruption of old decisions from `at` on that have no column any more (the data took
+    # it away: demand gone, the person left or may no longer move): unavoidable, so a
+    # constant, but counted so the cost stage's objective is total_cost + disruption_cost.
+    forced = 0.0
 
     def fix(col: int, value: float, what: str) -> None:
         if value > model.col_upper[col] + 1e-9:
             problems.append(f"{what}: the old plan has {value:g} but the data now allow "
                             f"{model.col_upper[col]:g}")
+        lower[col] = upper[col] = value
+
+    def pin_hire(col: int, value: float) -> None:
+        # Above the builder's cap, a hire column's bound is only what the demand left can
+        # use (the rules' own caps were checked in _started_hires_ruled_out): a hire under
+        # way stays even where demand fell, as one whose demand is gone does.
         lower[col] = upper[col] = value
 
     # -- details: old count per column; fixed before `at` and for runs under way ---------
@@ -216,7 +234,9 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
                 problems.append(f"detail of {person} in {names[t]} ({src} -> {dst}), before "
                                 f"{names[at]}, is ruled out by the data now: "
                                 f"{_why_not(instance, people[person], t, 'detail')}")
-            elif under_way(person, t) and not allow_recall:
+                continue
+            forced += costs.detail_per_period  # dropped, as changes.csv lists it
+            if under_way(person, t) and not allow_recall:
                 # Kept routes get their column (``keep_details``) unless the data now rule the
                 # detail out (the person left, or may no longer go on detail): it ends, aloud.
                 notes.append(f"detail of {person} in {names[t]} ({src} -> {dst}) was under way "
@@ -250,6 +270,10 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
             problems.append(f"reassignment of {person} to {dst} in {names[t]}, before "
                             f"{names[at]}, is ruled out by the data now: "
                             f"{_why_not(instance, people[person], t, 'reassignment')}")
+        elif t >= at and not any((unit_of[person], offices.index(dst), s) in homes
+                                 for s in range(t, len(names))):
+            # A later column would carry the step and its price; none: dropped for certain.
+            forced += costs.reassignment
 
     # -- hires: fixed while recruitment is under way or done -------------------------------
     hire = model.blocks["hire"]
@@ -264,12 +288,15 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
         hire_cols.add((o, k, s, new))
         old_hire[j] = old_hires.get((o, k, s, new), 0.0)
         if s < at + instance.skills[k].time_to_hire:
-            fix(hire.start + j, old_hire[j], f"hire of {skills[k]} at {offices[o]}")
+            pin_hire(hire.start + j, old_hire[j])
     for (o, k, s, new), n in old_hires.items():
         if (o, k, s, new) not in hire_cols and s < at + instance.skills[k].time_to_hire:
+            # Not expected: the data's reasons were refused before the model was built, and
+            # _with_committed_hires gives the others a column.
             problems.append(f"{n:g} hire(s) of {skills[k]} at {offices[o]} from {names[s]} "
-                            "have started (their recruitment has begun), but the data now rule "
-                            f"them out: {_why_no_hire(instance, o, k, s, new)}")
+                            "have started, but the model has no place for them")
+        elif (o, k, s, new) not in hire_cols:
+            forced += costs.hire * n  # not started, and no demand left it could cover
 
     # -- work before `at`: the split as it happened ------------------------------------------
     work = model.blocks["work"]
@@ -324,8 +351,9 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
     hint[det.start:det.stop] = old_detail
     hint[home.start:home.stop] = old_home
     hint[hire.start:hire.stop] = old_hire
-    return _with_change_columns(replace(model, col_lower=lower, col_upper=upper, hint=hint),
-                                exprs)
+    return _with_forced_disruption(
+        _with_change_columns(replace(model, col_lower=lower, col_upper=upper, hint=hint), exprs),
+        forced)
 
 
 def _why_not(instance: Instance, person: Person, t: int, what: str) -> str:
@@ -342,17 +370,57 @@ def _why_not(instance: Instance, person: Person, t: int, what: str) -> str:
     return "the model has no place for it"
 
 
-def _why_no_hire(instance: Instance, o: int, k: int, s: int, new: int) -> str:
-    """Which data rule out a hire already started (office ``o``, skill ``k``, start ``s``)."""
-    skill, office = instance.skills[k], instance.offices[o]
-    if s < skill.time_to_hire:
-        return (f"it starts before {skill.name}'s time to hire ({skill.time_to_hire} periods "
-                "from the horizon's start, skills.csv time_to_hire)")
-    if office.max_hires_per_period == 0:
-        return f"{office.name} may not hire (offices.csv max_hires_per_period = 0)"
-    if not new and not instance.vacancies.get((office.name, skill.name), 0):
-        return f"{office.name} has no funded {skill.name} vacancy (vacancies.csv)"
-    return "the model has no place for it"
+def _started_hires_ruled_out(instance: Instance, old: Plan, at: int) -> list[str]:
+    """Refusals for the old plan's hires whose recruitment has begun (start before ``at`` +
+    time to hire) that the data now rule out, each naming the data, as for a past detail or
+    reassignment.  Checked here, before any model: cutting vacancies below such hires had
+    been refused from one hire column ("the data now allow 1", naming no file) and reported
+    infeasible (exit 4) from another, where the pruned column was added back."""
+    skills = {s.name: s for s in instance.skills}
+    offices = {o.name: o for o in instance.offices}
+    names = instance.period_names
+    ix = {name: t for t, name in enumerate(names)}
+    started: dict[tuple[str, str, int, str], int] = defaultdict(int)
+    for h in hire_rows(old):
+        s = ix[h.start_period]
+        if s < at + skills[h.skill].time_to_hire:
+            started[(h.office, h.skill, s, h.funding)] += h.count
+    problems = []
+
+    def refuse(count: int, office: str, skill: str, s: int, why: str) -> None:
+        problems.append(f"{count:g} hire(s) of {skill} at {office} from {names[s]} have "
+                        f"started (their recruitment has begun), but the data now rule them "
+                        f"out: {why}")
+
+    by_start: dict[tuple[str, int], int] = defaultdict(int)
+    by_vacancy: dict[tuple[str, str], list[tuple[int, int]]] = defaultdict(list)
+    for (office, skill, s, funding), count in sorted(started.items(), key=lambda i: i[0][2]):
+        tth = skills[skill].time_to_hire
+        if s < tth:
+            refuse(count, office, skill, s, f"it starts before {skill}'s time to hire ({tth} "
+                   "periods from the horizon's start, skills.csv time_to_hire)")
+        elif offices[office].max_hires_per_period == 0:
+            refuse(count, office, skill, s,
+                   f"{office} may not hire (offices.csv max_hires_per_period = 0)")
+        else:
+            by_start[(office, s)] += count
+            if funding == "vacancy":
+                by_vacancy[(office, skill)].append((s, count))
+    for (office, s), count in by_start.items():
+        cap = offices[office].max_hires_per_period
+        if cap is not None and count > cap:
+            problems.append(f"{count} hires at {office} from {names[s]} have started (their "
+                            "recruitment has begun), but the data now allow "
+                            f"{cap} (offices.csv max_hires_per_period)")
+    for (office, skill), starts in by_vacancy.items():
+        funded = instance.vacancies.get((office, skill), 0)
+        filled = sum(count for _, count in starts)
+        if filled > funded:
+            when = ", ".join(f"{count} from {names[s]}" for s, count in starts)
+            problems.append(f"{filled} hire(s) of {skill} at {office} into funded vacancies "
+                            f"have started ({when}; their recruitment has begun), but the data "
+                            f"now fund {funded} (vacancies.csv)")
+    return problems
 
 
 def _with_committed_hires(instance: Instance, model: Model, old: Plan, at: int) -> Model:
@@ -374,7 +442,7 @@ def _with_committed_hires(instance: Instance, model: Model, old: Plan, at: int) 
         key = (offices.index(h.office), skills.index(h.skill), names.index(h.start_period),
                int(h.funding == "new"))
         # Before the skill's time to hire the rules allow no hire at all: such a hire is
-        # refused in _fix_and_price, not carried in.
+        # refused in _started_hires_ruled_out, not carried in.
         if (key not in have and instance.skills[key[1]].time_to_hire <= key[2]
                 < at + instance.skills[key[1]].time_to_hire):
             missing[key] += h.count
@@ -504,6 +572,27 @@ def _with_change_columns(model: Model, exprs: list[tuple[list[int], list[float],
         blocks=blocks,
         rows=(*model.rows, family),
         hint=None if model.hint is None else np.concatenate([model.hint, np.zeros(2 * k)]),
+    )
+
+
+def _with_forced_disruption(model: Model, amount: float) -> Model:
+    """Append one continuous column fixed at 1 costing ``amount``: the model has no constant
+    term, and the solvers and gap figures all read ``cost @ x``."""
+    if amount <= 0:
+        return model
+    n = model.num_cols
+    blocks = dict(model.blocks)
+    blocks["forced_change"] = ColumnBlock("forced_change", n, n + 1, {})
+    return replace(
+        model,
+        matrix=sp.hstack([model.matrix, sp.csr_matrix((model.num_rows, 1))], format="csr"),
+        col_lower=np.append(model.col_lower, 1.0),
+        col_upper=np.append(model.col_upper, 1.0),
+        is_integer=np.append(model.is_integer, False),
+        shortfall_weight=np.append(model.shortfall_weight, 0.0),
+        cost=np.append(model.cost, amount),
+        blocks=blocks,
+        hint=None if model.hint is None else np.append(model.hint, 1.0),
     )
 
 

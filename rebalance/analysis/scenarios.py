@@ -25,7 +25,7 @@ from rebalance.analysis.limits import hire_rows
 from rebalance.instance import Budget, Demand, Instance
 from rebalance.plan import Plan
 from rebalance.planning import PlanResult, make_plan
-from rebalance.readers import Problem, describe_range, is_finite_number
+from rebalance.problems import Problem, describe_range, is_finite_number
 from rebalance.solve import SolveOptions
 
 __all__ = [
@@ -152,20 +152,33 @@ def _unusable_folder(name: str) -> str | None:
 
 def read_scenario(path: str | Path, instance: Instance) -> Scenario:
     """Read and check a scenario TOML file against ``instance``; all problems at once."""
+    scenario, _, problems = _read(path, instance)
+    if scenario is None:
+        raise ScenarioError(problems)
+    return scenario
+
+
+def _read(path: str | Path, instance: Instance) -> tuple[Scenario | None, str | None,
+                                                         list[Problem]]:
+    """The scenario (None where the file has problems), its name where the file gives a
+    usable one (None otherwise), and the file's problems.  The name comes back with the
+    problems so that :func:`read_scenarios` checks it against the other files' names in the
+    same run (a reserved or clashing name had been reported only once all else was fixed)."""
     file = str(path)
     problems: list[Problem] = []
     try:
         raw = tomllib.loads(Path(path).read_text(encoding="utf-8-sig"))
     except FileNotFoundError:
-        raise ScenarioError([Problem(file, None, "", "file not found")]) from None
+        return None, None, [Problem(file, None, "", "file not found")]
     except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
-        raise ScenarioError([Problem(file, None, "", f"not valid TOML: {exc}")]) from None
+        return None, None, [Problem(file, None, "", f"not valid TOML: {exc}")]
     known_keys = {"name", "description", "demand", "budget"}
     for key in raw:
         if key not in known_keys:
             problems.append(Problem(file, None, key, f"unknown key; expected one of "
                                     f"{', '.join(sorted(known_keys))}"))
     name = raw.get("name")
+    usable = False
     if not isinstance(name, str) or not name.strip():
         problems.append(Problem(file, None, "name", "missing; expected a scenario name"))
         name = Path(path).stem
@@ -174,6 +187,7 @@ def read_scenario(path: str | Path, instance: Instance) -> Scenario:
         unusable = _unusable_folder(name.strip())
         if unusable is not None:
             problems.append(Problem(file, None, "name", unusable))
+        usable = unusable is None
     name = name.strip()
     description = raw.get("description", "")
     if not isinstance(description, str):
@@ -234,16 +248,15 @@ def read_scenario(path: str | Path, instance: Instance) -> Scenario:
             moves_add=_number(entry.get("moves_add"), 0.0, f"{at}.moves_add", problems, file,
                               name, -MAX_BUDGET_ADD, MAX_BUDGET_ADD),
         )
-        problem = _inert_budget(bchange, instance) if len(problems) == before else None
-        if problem is not None:
-            problems.append(Problem(file, None, at, problem))
+        if len(problems) == before:
+            problems += [Problem(file, None, f"{at}{key}", message)
+                         for key, message in _inert_budget(bchange, instance)]
         budget.append(bchange)
     if not raw.get("demand") and not raw.get("budget"):  # none given; wrong ones said above
         problems.append(Problem(file, None, "demand", "the scenario changes nothing; expected "
                                 "at least one [[demand]] or [[budget]] table"))
-    if problems:
-        raise ScenarioError(problems)
-    return Scenario(name, description.strip(), tuple(demand), tuple(budget))
+    scenario = Scenario(name, description.strip(), tuple(demand), tuple(budget))
+    return (None if problems else scenario), (name if usable else None), problems
 
 
 def _tables(raw: dict[str, Any], key: str, problems: list[Problem], file: str) -> list[Any]:
@@ -264,13 +277,13 @@ def read_scenarios(paths: Sequence[str | Path], instance: Instance) -> list[Scen
     names: dict[str, str] = {}  # name -> its file
     folders: dict[str, tuple[str, str]] = {}  # case-folded folder -> name, file
     for path in paths:
-        try:
-            scenario = read_scenario(path, instance)
-        except ScenarioError as exc:
-            problems += exc.problems
+        scenario, name, found = _read(path, instance)
+        problems += found
+        if scenario is not None:
+            scenarios.append(scenario)
+        file = str(path)
+        if name is None:  # no usable name: said in ``found``
             continue
-        scenarios.append(scenario)
-        file, name = str(path), scenario.name
         if name == "base":
             problems.append(Problem(file, None, "name", "scenario 'base' has the base plan's "
                                     "name; expected another name"))
@@ -312,18 +325,38 @@ def _inert(change: DemandChange, instance: Instance) -> str | None:
     return None
 
 
-def _inert_budget(change: BudgetChange, instance: Instance) -> str | None:
-    """Why a [[budget]] table would leave every cap as it is, or None (as :func:`_inert`)."""
+def _inert_budget(change: BudgetChange, instance: Instance) -> list[tuple[str, str]]:
+    """Why a [[budget]] table would leave every cap as it is, as (key, message) pairs; empty
+    where it changes a cap (as :func:`_inert`)."""
     if change.hiring_add == 0.0 and change.moves_add == 0.0:
-        return "changes nothing; expected hiring_add or moves_add other than 0"
+        return [("", "changes nothing; expected hiring_add or moves_add other than 0")]
     caps = {b.year: b for b in instance.budgets}
     chosen = change.years if change.years is not None else instance.years
-    if not any((change.hiring_add and caps[y].hiring is not None)
-               or (change.moves_add and caps[y].moves is not None)
-               for y in chosen if y in caps):
-        return ("moves no cap: the selected years have no cap for the amounts given (a year "
-                "without a cap stays without one); expected years with a hiring or moves cap")
-    return None
+    amounts = {"hiring": change.hiring_add, "moves": change.moves_add}
+    capped = {kind: [y for y in instance.years if y in caps and getattr(caps[y], kind) is not None]
+              for kind in amounts}
+    if any(amount and y in capped[kind] for kind, amount in amounts.items() for y in chosen):
+        return []
+    # Each amount given is named with its own cap: the message had said "moves no cap" of a
+    # table that only added to a hiring cap.
+    out = []
+    for kind, amount in amounts.items():
+        if not amount:
+            continue
+        verb = "adding to" if amount > 0 else "taking from"
+        if change.years is None:
+            lacking = f"no year has a {kind} cap, so {verb} one"
+        else:
+            shown = list(change.years)
+            listed = shown[0] if len(shown) == 1 else f"{', '.join(shown[:-1])} and {shown[-1]}"
+            lacking = (f"{listed} has no {kind} cap, so {verb} it" if len(shown) == 1
+                       else f"{listed} have no {kind} cap, so {verb} them")
+        others = capped[kind]
+        expected = (f"expected years with a {kind} cap ({', '.join(others)})" if others
+                    else f"expected years with a {kind} cap, and the instance has none")
+        out.append((f".{kind}_add", f"{lacking} changes nothing (a year without a cap stays "
+                    f"without one); {expected}"))
+    return out
 
 
 def _selected(change: DemandChange, office: str, skill: str, period: int) -> bool:

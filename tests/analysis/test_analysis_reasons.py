@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections import Counter, defaultdict
+from dataclasses import replace
 
 from analysis_helpers import exact_options, feasible_random
 from conftest import solve_verified
@@ -13,7 +14,7 @@ from rebalance.analysis.limits import LimitUse
 from rebalance.analysis.reasons import _describe, reasons
 from rebalance.analysis.replan import replan
 from rebalance.analysis.scenarios import DemandChange, Scenario, apply_scenario
-from rebalance.instance import Instance
+from rebalance.instance import Budget, Demand, Instance
 from rebalance.plan import Plan
 
 
@@ -149,3 +150,30 @@ def test_a_replans_reasons_say_what_the_replan_kept(tiny) -> None:
     table = reasons(gone, idle, replanned_at=2).table
     a1 = table[(table.action == "detail") & (table.subject == "a1")].iloc[0]["reason"]
     assert "idle in 2027-Q3" in a1 and "a run under way goes on" in a1
+
+
+def test_a_hire_that_starts_before_its_gap_says_why(tiny) -> None:
+    # A sweep: an intake hire starting FY27-P4 gave the gap "from FY28-P1" and no word on why
+    # it starts a period earlier.  Here B's review gap opens in 2027-Q3 (1 FTE then and in
+    # Q4, b1 covering Q1 and Q2 and leaving after Q3) and no moves are paid for: a hire
+    # starting in Q3 gives half its output there (ramp 0.5), one starting in Q2 all of it.
+    demand = [d for d in tiny.demand if d.office != "B"] + [
+        Demand("B", "review", t, fte, 2.0, None) for t, fte in enumerate((1.0, 1.0, 2.0, 1.0))]
+    early = tiny.with_changes(demand=tuple(demand),
+                              budgets=(Budget("2027", 200_000.0, 0.0),))
+    plan = solve_verified(early).plan
+    assert plan is not None
+    hire = reasons(early, plan).table.query("action == 'hire'")
+    assert list(hire["first_period"]) == ["2027-Q2"]
+    assert hire.iloc[0]["reason"].endswith(
+        "2 straight periods from 2027-Q3, to the end of the horizon (by 1.00 FTE on average), "
+        "so a hire (a new position); it starts in 2027-Q2 to be past its ramp-up when the gap "
+        "opens in 2027-Q3")
+    # Not yet past it: one period along a ramp of three (60% against 50%).  Only the text
+    # is read here, so the same plan's tables do.
+    ramped = early.with_changes(skills=tuple(
+        replace(s, ramp=(0.5, 0.6, 0.8)) if s.name == "review" else s for s in early.skills))
+    text = reasons(ramped, plan).table.query("action == 'hire'").iloc[0]["reason"]
+    assert text.endswith("it starts in 2027-Q2 to be further into its ramp-up when the gap "
+                         "opens in 2027-Q3 (60% of full output there, against 50% had it "
+                         "started then)")

@@ -11,9 +11,9 @@ from conftest import solve_verified
 from randomized import random_instance
 
 from rebalance import make_plan
-from rebalance.analysis.replan import DisruptionCosts, ReplanError, replan
+from rebalance.analysis.replan import DisruptionCosts, Replan, ReplanError, replan
 from rebalance.analysis.scenarios import DemandChange, Scenario, apply_scenario
-from rebalance.instance import Budget
+from rebalance.instance import Budget, Instance
 from rebalance.plan import Plan, coverage_table
 
 
@@ -300,3 +300,106 @@ def test_the_old_plans_figures_count_no_work_by_someone_who_has_left(tiny) -> No
     old = out.summary.set_index("measure").loc["weighted_shortfall", "old_plan"]
     assert old == pytest.approx(expected, abs=1e-9)
     assert old > base.plan.weighted_shortfall + 0.5  # a1 covered a whole FTE of it
+
+
+def _two_vacancy_hires_at_b(tiny: Instance) -> tuple[Instance, Plan]:
+    """tiny with room for two hires a period and two funded review vacancies at B, and an old
+    plan whose only hires are two reviewers into them at B from Q4 (by hand: the optimum
+    hires one from Q2)."""
+    roomy = tiny.with_changes(
+        offices=tuple(replace(o, max_hires_per_period=3) for o in tiny.offices),
+        vacancies={("B", "review"): 2})
+    base = solve_verified(roomy)
+    assert base.plan is not None
+    hires = pd.DataFrame([{"office": "B", "skill": "review", "start_period": "2027-Q4",
+                           "count": 2, "funding": "vacancy", "onboarding_cost": 16000.0,
+                           "salary_cost": 0.0}])
+    return roomy, replace(base.plan, hires=hires)
+
+
+@pytest.mark.parametrize("funded", [1, 0])
+def test_vacancies_cut_below_hires_under_way_are_refused_naming_vacancies(tiny, funded) -> None:
+    # A sweep: cutting the vacancies to 1 had refused "hire of review at B: the old plan has 2
+    # but the data now allow 1" (exit 3, naming no file); cutting them to 0 had solved and
+    # come back infeasible (exit 4: the pruned column was added back against a cap of 0).
+    # Both are the same case, a hire under way the data now rule out: a refusal naming them.
+    roomy, old = _two_vacancy_hires_at_b(tiny)
+    cut = roomy.with_changes(vacancies={("B", "review"): funded} if funded else {})
+    with pytest.raises(ReplanError, match=rf"2 hire\(s\) of review at B into funded vacancies "
+                                          rf"have started.*now fund {funded} \(vacancies.csv\)"):
+        replan(cut, old, 3, exact_options(cut))
+    # Not yet under way at a re-plan from Q2 (time to hire 1): they may still be dropped.
+    out = replan(cut, old, 1, exact_options(cut))
+    assert out.result.verified and out.result.plan is not None
+
+
+def test_fewer_hires_a_period_than_have_started_are_refused_naming_offices(tiny) -> None:
+    roomy, old = _two_vacancy_hires_at_b(tiny)
+    capped = roomy.with_changes(offices=tuple(replace(o, max_hires_per_period=1)
+                                              for o in roomy.offices))
+    with pytest.raises(ReplanError, match=r"2 hires at B from 2027-Q4 have started.*allow 1 "
+                                          r"\(offices.csv max_hires_per_period\)"):
+        replan(capped, old, 3, exact_options(capped))
+
+
+def test_hires_under_way_stay_when_their_demand_only_falls(tiny) -> None:
+    # B's Q4 review demand halved leaves work for one hire at ramp 0.5, so the builder caps
+    # that hire column at 1; the two under way had been refused ("the data now allow 1"),
+    # though no rule rules them out.  Like hires whose demand is gone, they stay.
+    roomy, old = _two_vacancy_hires_at_b(tiny)
+    half = apply_scenario(roomy, Scenario("half", "", (
+        DemandChange(("B",), ("review",), (3,), multiplier=0.5),)))
+    out = replan(half, old, 3, exact_options(half))
+    assert out.result.verified and out.result.plan is not None
+    assert out.result.plan.hires[["office", "start_period", "count", "funding"]].values.tolist() \
+        == [["B", "2027-Q4", 2, "vacancy"]]
+
+
+def _cost_stage_objective(out: Replan) -> float:
+    (stage,) = [s for s in out.result.solve.stages if s.name == "cost"]
+    assert stage.objective is not None
+    return stage.objective
+
+
+def test_changes_the_data_force_count_in_the_cost_objective(tiny) -> None:
+    # A reviewer's sweep: with demand gone, changes the data force (their columns pruned)
+    # were in changes.csv and disruption_cost but not in the cost stage's objective, which
+    # docs/analysis.md says is total_cost + disruption_cost.  Hand arithmetic on
+    # tests/data/tiny: the old plan details a1 A -> B in Q2-Q3 and a2 in Q4, and hires one
+    # reviewer at B from Q4.  With B's Q4 review demand gone and a re-plan from Q3, a2's Q4
+    # detail and the hire (not started: time to hire 1) have nowhere to go: 1 detail-period
+    # at 1,000 + 1 hire at 3,000 = 4,000 of disruption, both forced.  What is left costs a1's
+    # two detail periods at 5,000 (settings.toml) = 10,000.
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    calm = apply_scenario(tiny, Scenario("calm", "", (
+        DemandChange(("B",), ("review",), (3,), multiplier=0.0),)))
+    out = replan(calm, base.plan, 2, exact_options(calm), DisruptionCosts(1000, 7000, 3000))
+    assert out.result.verified
+    assert out.changes[["change", "kind", "who", "disruption_cost"]].values.tolist() == [
+        ["dropped", "detail", "a2", 1000], ["fewer", "hire (new)", "B", 3000]]
+    total = out.summary.set_index("measure").loc["total_cost", "new_plan"]
+    assert (total, out.disruption_cost) == (pytest.approx(10_000), pytest.approx(4_000))
+    assert _cost_stage_objective(out) == pytest.approx(14_000)
+
+
+def test_a_reassignment_the_data_rule_out_from_period_on_counts_in_the_objective(tiny) -> None:
+    # The old plan moves a2 to B from Q4 (and leaves a2 at home before); with can_relocate
+    # now off for a2 the move has no column.  By hand: it is dropped (7,000), and a2's Q4
+    # detail A -> B comes back (1,000, a priced choice); the new plan is tiny's optimum,
+    # a1 and a2 on three detail periods at 5,000 and the Q4 hire at 8,000 + 20,000 = 43,000.
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    moves = pd.DataFrame([["a2", "2027-Q4", "A", "B", 20000.0]],
+                         columns=list(base.plan.reassignments.columns))
+    details = base.plan.details
+    old = replace(base.plan, reassignments=moves, details=details[details.person != "a2"])
+    fixed = tiny.with_changes(staff=tuple(
+        replace(p, can_relocate=False) if p.person == "a2" else p for p in tiny.staff))
+    out = replan(fixed, old, 2, exact_options(fixed), DisruptionCosts(1000, 7000, 3000))
+    assert out.result.verified
+    assert out.changes[["change", "kind", "who", "disruption_cost"]].values.tolist() == [
+        ["added", "detail", "a2", 1000], ["dropped", "reassignment", "a2", 7000]]
+    total = out.summary.set_index("measure").loc["total_cost", "new_plan"]
+    assert total == pytest.approx(43_000)
+    assert _cost_stage_objective(out) == pytest.approx(43_000 + 8_000)

@@ -417,3 +417,35 @@ def test_cbc_gives_no_point_from_an_lp_it_stopped_part_way(tmp_path):
                            SolveOptions(solver="cbc"), 1.0, None)
     assert out.x is None and out.objective is None
     assert out.status is Status.NO_PLAN_IN_TIME
+
+
+# Lines as CBC 2.10.3 (bundled with PuLP 3.3.2) wrote them: a 40-office stage stopped in
+# preprocessing, a run with its summary, and two models it showed infeasible.
+STOPPED_IN_PREPROCESSING = """Option for timeMode changed from cpu to elapsed
+Continuous objective value is 333.079 - 9.43 seconds
+Cgl0003I 0 fixed, 0 tightened bounds, 7 strengthened rows, 0 substitutions"""
+SUMMARY = """Result - Stopped on time limit
+
+No feasible solution found
+Lower bound:                    336.016
+Enumerated nodes:               0"""
+PREPROCESSING_INFEASIBLE = """Cgl0000I Cut generators found to be infeasible! (or unbounded)
+Pre-processing says infeasible or unbounded"""
+LP_INFEASIBLE = """Presolve determined that the problem was infeasible with tolerance of 1e-08
+Analysis indicates model infeasible or unbounded
+Primal infeasible - objective value 5.5
+Result - Linear relaxation infeasible"""
+
+
+def test_cbc_bound_and_infeasibility_are_read_from_what_its_log_shows():
+    from rebalance.backends.cbc import _CBC_PROVEN_INFEASIBLE, _cbc_bound
+
+    assert _cbc_bound(STOPPED_IN_PREPROCESSING) == pytest.approx(333.079)
+    assert _cbc_bound(STOPPED_IN_PREPROCESSING + "\n" + SUMMARY) == pytest.approx(336.016)
+    assert _cbc_bound("Lower bound:                    1e+50") is None
+    assert _cbc_bound("") is None
+    assert _CBC_PROVEN_INFEASIBLE.search(PREPROCESSING_INFEASIBLE)
+    assert _CBC_PROVEN_INFEASIBLE.search(LP_INFEASIBLE)
+    # A stopped run's lines carry no proof, whatever PuLP then reads from its solution file.
+    assert not _CBC_PROVEN_INFEASIBLE.search(STOPPED_IN_PREPROCESSING + "\n" + SUMMARY)
+    assert not _CBC_PROVEN_INFEASIBLE.search("5130  Obj 0.00024938509 Primal inf 36857.683 (2768)")

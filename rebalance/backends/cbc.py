@@ -38,6 +38,12 @@ from rebalance.model import Model
 
 _CBC_RESULT = re.compile(r"^Result - (.*)$", re.M)
 _CBC_BOUND = re.compile(r"^Lower bound:\s*(\S+)", re.M)
+# What CBC writes where it has shown a model infeasible (presolve, preprocessing, the search).
+_CBC_PROVEN_INFEASIBLE = re.compile(
+    r"says infeasible|proven infeasible|relaxation infeasible|problem (?:is )?infeasible"
+    r"|PrimalInfeasible|determined that the problem was infeasible", re.I)
+# The root LP's value, said before preprocessing: a bound of a run stopped before its summary.
+_CBC_ROOT_LP = re.compile(r"^Continuous objective value is\s*(\S+)", re.M)
 
 
 _CBC_PROGRESS = re.compile(
@@ -299,14 +305,17 @@ class CbcBackend:
                 prob.solve(solver)
             except pulp.PulpSolverError as exc:
                 if guard.fired:
-                    return BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, None, KILLED,
-                                          time.perf_counter() - started, killed=True)
+                    # Its root LP, where it got that far, still bounds the stage (a 40-office
+                    # model's 333.1 had been lost, leaving a bound of 0).
+                    return BackendOutcome(Status.NO_PLAN_IN_TIME, None, None,
+                                          None if is_lp else _cbc_bound(_read(log_path)),
+                                          KILLED, time.perf_counter() - started, killed=True)
                 return BackendOutcome(Status.ERROR, None, None, None, str(exc),
                                       time.perf_counter() - started)
             finally:
                 guard.stop()
                 watcher.stop()
-            log = log_path.read_text(errors="replace") if log_path.exists() else ""
+            log = _read(log_path)
         raise_if_stopped()  # CBC killed by a stop: no plan from its remains
         result = _CBC_RESULT.findall(log)
         words = result[-1].strip() if result else pulp.LpStatus.get(prob.status, "?")
@@ -322,13 +331,7 @@ class CbcBackend:
         if has_solution:
             x = np.asarray([v.varValue if v.varValue is not None else 0.0 for v in variables])
             obj = float(objective @ x)
-        bound = None
-        match = _CBC_BOUND.findall(log)
-        if match:
-            try:
-                bound = float(match[-1])
-            except ValueError:
-                bound = None
+        bound = None if is_lp else _cbc_bound(log)
         if sol_status == pulp.LpSolutionOptimal:
             mapped = Status.OPTIMAL
             if bound is None:
@@ -343,4 +346,34 @@ class CbcBackend:
             mapped = Status.ERROR
         else:
             mapped = Status.UNKNOWN
+        out_of_time = guard.fired or time.perf_counter() - started >= 0.9 * time_limit
+        if mapped is Status.INFEASIBLE and (out_of_time
+                                            or not _CBC_PROVEN_INFEASIBLE.search(log)):
+            # Stopped by its time limit in preprocessing, CBC writes "Pre-processing says
+            # infeasible or unbounded" of a model it never finished (a 40-office stage whose
+            # stay-put plan is feasible, at its 14.3 s limit): out of time, or without the log
+            # showing why, it is no plan in time, not infeasible.
+            mapped = Status.NO_PLAN_IN_TIME if out_of_time else Status.UNKNOWN
+            words = KILLED if out_of_time else f"CBC said {words} without showing why"
+        elif guard.fired and mapped is Status.UNKNOWN:
+            mapped, words = Status.NO_PLAN_IN_TIME, f"{KILLED} (CBC said: {words})"
         return BackendOutcome(mapped, x, obj, bound, words, time.perf_counter() - started)
+
+
+def _read(log_path: Path) -> str:
+    return log_path.read_text(errors="replace") if log_path.exists() else ""
+
+
+def _cbc_bound(log: str) -> float | None:
+    """The run's bound from CBC's log: its summary's lower bound, else its root LP's value
+    (a run stopped before its summary); None where neither is a finite number."""
+    for pattern in (_CBC_BOUND, _CBC_ROOT_LP):
+        found = pattern.findall(log)
+        if found:
+            try:
+                value = float(found[-1])
+            except ValueError:
+                continue
+            if math.isfinite(value) and abs(value) < 1e49:  # CBC writes 1e+50 for none
+                return value
+    return None

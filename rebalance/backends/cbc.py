@@ -334,8 +334,11 @@ class CbcBackend:
         bound = None if is_lp else _cbc_bound(log)
         if sol_status == pulp.LpSolutionOptimal:
             mapped = Status.OPTIMAL
-            if bound is None:
-                bound = obj
+            # A finished search's summary has no "Lower bound" line: its bound is its plan's
+            # (within the gap asked), not the root LP's (tiny had read "optimal within the gap
+            # asked (15.54% left)" with a gap of 0 asked).
+            summary_bound = _cbc_bound(log, root=False)
+            bound = obj if summary_bound is None else summary_bound
         elif sol_status == pulp.LpSolutionIntegerFeasible:
             mapped = Status.FEASIBLE_WITH_GAP
         elif sol_status == pulp.LpSolutionInfeasible or "infeasible" in words.lower():
@@ -364,10 +367,10 @@ def _read(log_path: Path) -> str:
     return log_path.read_text(errors="replace") if log_path.exists() else ""
 
 
-def _cbc_bound(log: str) -> float | None:
-    """The run's bound from CBC's log: its summary's lower bound, else its root LP's value
-    (a run stopped before its summary); None where neither is a finite number."""
-    for pattern in (_CBC_BOUND, _CBC_ROOT_LP):
+def _cbc_bound(log: str, root: bool = True) -> float | None:
+    """The run's bound from CBC's log: its summary's lower bound, else (``root``) its root
+    LP's value (a run stopped before its summary); None where neither is a finite number."""
+    for pattern in (_CBC_BOUND, _CBC_ROOT_LP) if root else (_CBC_BOUND,):
         found = pattern.findall(log)
         if found:
             try:

@@ -336,7 +336,8 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
     elif out.status.has_plan and out.status is not Status.OPTIMAL:
         # A run killed at the wall clock hands back its plan without a bound.
         out = replace(out, bound=_higher(out.bound, lp_bound))
-    out = _with_floor(out, options.relative_gap)
+    out = _with_floor(_bound_checked(out, lp_bound, options.relative_gap, say),
+                      options.relative_gap)
     seconds = time.perf_counter() - t0
     return replace(out, seconds=seconds), CarriedOver(rounding_lp_seconds, cost_bound)
 
@@ -535,6 +536,40 @@ def _not_searched(words: str) -> BackendOutcome:
     return BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, None, words, 0.0)
 
 
+# A bound may sit above the plan it bounds by the solvers' relative tolerance, no more.
+BOUND_TOLERANCE = 1e-6
+
+
+def _bound_checked(out: BackendOutcome, fallback: float | None, relative_gap_wanted: float,
+                   say: Callable[[str], None] | None = None) -> BackendOutcome:
+    """``out`` with a bound above its own plan's objective discarded: such a bound bounds
+    nothing, and had read "may cost up to -8,000 less".  It falls to ``fallback`` (the LP
+    bound) where that one is not above the plan, else to :data:`OBJECTIVE_FLOOR`.
+
+    Seen with HiGHS 1.16 on a re-plan's cost stage: presolve claimed 117,000 "Optimal" with
+    the shortfall held at 1e-6 while a plan of 109,000 keeps every row (scipy's HiGHS and
+    HiGHS with presolve off find 109,000); the plan of 109,000 was kept, the bound was not
+    dropped.
+    """
+    if (out.objective is None or out.bound is None
+            or out.bound <= out.objective + BOUND_TOLERANCE * max(1.0, abs(out.objective))):
+        return out
+    kept = (max(fallback, OBJECTIVE_FLOOR) if fallback is not None
+            and fallback <= out.objective + BOUND_TOLERANCE * max(1.0, abs(out.objective))
+            else OBJECTIVE_FLOOR)
+    if say is not None:
+        source = "the LP's" if fallback == kept else "no plan scores below 0"
+        say(f"  the solver's bound {out.bound:.6g} is above the plan kept "
+            f"({out.objective:.6g}), so it bounds nothing: discarded; the bound is "
+            f"{kept:.6g} ({source})")
+    gap = relative_gap(out.objective, kept)
+    status = (Status.OPTIMAL if gap is not None and gap <= relative_gap_wanted
+              else Status.FEASIBLE_WITH_GAP)
+    return replace(out, bound=kept, status=status,
+                   words=f"{out.words}; its bound {out.bound:.6g} was above the plan kept and "
+                         "is discarded")
+
+
 # Every objective solved here is shortfall or money paid (priorities, costs and disruption
 # rates are never negative), so no plan scores below 0.  The solver's bound can: the
 # relocatable cost-adjustment columns dip below 0 on their own in the relaxation.
@@ -542,14 +577,21 @@ OBJECTIVE_FLOOR = 0.0
 
 
 def _with_floor(out: BackendOutcome, relative_gap_wanted: float) -> BackendOutcome:
-    """Raise a bound below :data:`OBJECTIVE_FLOOR` (or none) to it; a plan it proves is
-    optimal."""
-    if not out.status.has_plan or (out.bound is not None and out.bound >= OBJECTIVE_FLOOR):
+    """Raise a bound below :data:`OBJECTIVE_FLOOR` (or none) to it; a plan its bound proves
+    (within the gap asked) is optimal, whichever step stopped.  A cost of 0 against a
+    solver's bound of 0 had stayed "feasible" in one run and read "optimal ... (stopped at
+    the time limit)" in another."""
+    if not out.status.has_plan:
         return out
-    out = replace(out, bound=OBJECTIVE_FLOOR)
+    if out.bound is None or out.bound < OBJECTIVE_FLOOR:
+        out = replace(out, bound=OBJECTIVE_FLOOR)
     gap = relative_gap(out.objective, out.bound)
-    if gap is not None and gap <= relative_gap_wanted:
-        out = replace(out, status=Status.OPTIMAL)
+    # A bound above the plan is no proof (a solver's wrong claim), whatever the gap reads.
+    above = (out.objective is not None and out.bound is not None
+             and out.bound > out.objective + 1e-9 * max(1.0, abs(out.objective)))
+    if (out.status is not Status.OPTIMAL and not above and gap is not None
+            and gap <= relative_gap_wanted):
+        out = replace(out, status=Status.OPTIMAL, words="its plan meets its bound")
     return out
 
 
@@ -574,11 +616,14 @@ def _stay_put_plan(backend: Backend, model: Model, objective: np.ndarray,
         left = deadline - time.perf_counter()
         if left <= 0.05:
             break
-        fixed = replace(model, col_lower=np.where(model.is_integer, values, model.col_lower),
-                        col_upper=np.where(model.is_integer, values, model.col_upper))
-        out = backend.run(fixed, objective, [], replace(options, progress=None,
-                                                        heuristics=False),
-                          min(left, max(0.1 * left, 1.0)), None)
+        # Held apart, only the work split is left (an LP): CBC had been handed the whole
+        # model (40 offices: PuLP's building and writing took the 1.9 s this step had, and
+        # the run ended with no plan at all, exit 5).
+        lower = np.where(model.is_integer, values, model.col_lower)
+        upper = np.where(model.is_integer, values, model.col_upper)
+        out = run_within(backend, relaxed(model), objective, [],
+                         replace(options, progress=None, heuristics=False), lower, upper,
+                         min(left, max(0.1 * left, 1.0)))
         if out.x is None or out.objective is None:
             continue
         say(f"  {words}: {out.objective:.6g}")
@@ -769,6 +814,8 @@ def _unimproved(model: Model, first: BackendOutcome, bound: float | None,
 
 
 def _stage(name: str, out: BackendOutcome) -> StageResult:
+    # No bound above the stage's plan reaches a report, from whichever path it came.
+    out = _bound_checked(out, None, 0.0)
     return StageResult(name, out.status, out.objective, out.bound,
                        relative_gap(out.objective, out.bound) if out.status.has_plan else None,
                        out.seconds, out.words)

@@ -276,8 +276,9 @@ def test_only_a_search_of_the_whole_model_is_told_the_stages_bound(monkeypatch):
                               **kw)
             whole = (np.array_equal(run_model.col_lower, model.col_lower)
                      and np.array_equal(run_model.col_upper, model.col_upper))
-            runs.append((bool(run_model.num_integer), whole, options.known_bound,
-                         out.objective))
+            if run_model.num_cols == model.num_cols:  # not the staying-put split alone
+                runs.append((bool(run_model.num_integer), whole, options.known_bound,
+                             out.objective))
             return out
 
     monkeypatch.setitem(backends.BACKENDS, "highs", Spy)  # the dict solve() looks in
@@ -449,3 +450,61 @@ def test_cbc_bound_and_infeasibility_are_read_from_what_its_log_shows():
     # A stopped run's lines carry no proof, whatever PuLP then reads from its solution file.
     assert not _CBC_PROVEN_INFEASIBLE.search(STOPPED_IN_PREPROCESSING + "\n" + SUMMARY)
     assert not _CBC_PROVEN_INFEASIBLE.search("5130  Obj 0.00024938509 Primal inf 36857.683 (2768)")
+
+
+def test_a_plan_meeting_its_bound_is_optimal_but_a_bound_above_it_proves_nothing():
+    # A cost of 0 against a solver's bound of 0 had stayed "feasible" in one run and read
+    # "optimal" in another (a sweep); a bound above the plan is a solver's wrong claim.
+    from rebalance.backends import BackendOutcome, Status
+    from rebalance.solve import _with_floor
+
+    x = np.zeros(1)
+    met = _with_floor(BackendOutcome(Status.FEASIBLE_WITH_GAP, x, 0.0, 0.0,
+                                     "Time limit reached", 1.0), 0.0)
+    assert met.status is Status.OPTIMAL and "bound" in met.words
+    above = _with_floor(BackendOutcome(Status.FEASIBLE_WITH_GAP, x, 109_000.0, 117_000.0,
+                                       "Optimal", 1.0), 0.01)
+    assert above.status is Status.FEASIBLE_WITH_GAP
+
+
+def test_cbc_may_build_its_model_in_the_overtime_a_stage_without_a_plan_has():
+    # The build checks had used the plain limit: with overtime allowed, CBC gave up ("no
+    # time left to run CBC after building its model") with a third of a 5 s run unused.
+    from conftest import DATA
+
+    from rebalance import read_instance
+    from rebalance.backends import CbcBackend, SolveOptions, Status
+    from rebalance.model import build_model
+
+    model = build_model(read_instance(DATA / "tiny"))
+    out = CbcBackend().run(model, model.shortfall_weight, [],
+                           SolveOptions(solver="cbc", overtime_without_plan=30.0), 0.0001, None)
+    assert out.status is Status.OPTIMAL and out.x is not None
+
+
+def test_staying_put_is_an_lp_of_the_work_split_alone(monkeypatch):
+    # Handed the whole model with its whole numbers fixed, CBC spent a 40-office stage's 1.9 s
+    # on PuLP's building and the run ended with no plan (exit 5): the step's model is the work
+    # split, every whole-number column held apart.
+    from conftest import DATA
+
+    from rebalance import read_instance
+    from rebalance.backends import SolveOptions
+    from rebalance.model import build_model
+    from rebalance.solve import _stay_put_plan
+
+    model = build_model(read_instance(DATA / "tiny"))
+    seen = []
+
+    class Spy(HighsBackend):
+        def run(self, m, *args, **kwargs):
+            seen.append(m)
+            return super().run(m, *args, **kwargs)
+
+    import time
+
+    x = _stay_put_plan(Spy(), model, model.shortfall_weight, SolveOptions(),
+                       time.perf_counter() + 30.0, lambda _: None)
+    assert x is not None and x.size == model.num_cols
+    assert seen and all(not m.is_integer.any() and m.num_cols < model.num_cols for m in seen)
+    assert np.array_equal(x[model.is_integer], model.col_lower[model.is_integer])

@@ -783,3 +783,25 @@ def test_a_stage_solved_to_a_gap_of_0_has_its_bound_at_its_objective(solver):
     assert result.status is Status.OPTIMAL
     for stage in result.solve.stages:
         assert stage.bound == pytest.approx(stage.objective, rel=1e-9, abs=1e-9), stage
+
+
+def test_a_bound_above_the_plan_kept_is_discarded_not_reported():
+    # Sweep (a re-plan's cost stage): HiGHS claimed "Optimal" with bound 117,000 while the
+    # plan kept scored 109,000, and the report read "may cost up to -8,000 less".  A bound
+    # above its plan bounds nothing: it falls to the LP's bound, or to 0 if that is no better.
+    from rebalance.backends.common import BackendOutcome, relative_gap
+    from rebalance.solve import _bound_checked
+
+    said: list[str] = []
+    claimed = BackendOutcome(Status.OPTIMAL, np.zeros(1), 109_000.0, 117_000.0, "Optimal", 0.0)
+    out = _bound_checked(claimed, 92_575.0, 0.0, said.append)
+    assert out.bound == 92_575.0 and out.status is Status.FEASIBLE_WITH_GAP
+    # By hand: (109,000 - 92,575) / 109,000 = 0.150688...
+    assert relative_gap(out.objective, out.bound) == pytest.approx(16_425 / 109_000)
+    assert "117000" in said[0] and "discarded" in said[0] and "discarded" in out.words
+    # An LP bound above the plan is no better: 0, the floor of every objective here.
+    assert _bound_checked(claimed, 110_000.0, 0.0).bound == 0.0
+    assert _bound_checked(claimed, None, 0.0).bound == 0.0
+    # Within the solvers' relative 1e-6 a bound stands, and so does the claim.
+    close = replace(claimed, bound=109_000.0 * (1 + 5e-7))
+    assert _bound_checked(close, None, 0.0) is close

@@ -223,6 +223,10 @@ class CbcBackend:
 
         started = time.perf_counter()
         deadline = started + time_limit
+        # A stage with no plan yet may run on (SolveOptions.overtime_without_plan): building
+        # and writing the model may use that time too (it had given up with a third of a 5 s
+        # run unused, "no time left to run CBC after building its model").
+        latest = deadline + options.overtime_without_plan
         matrix, row_lo, row_hi, _ = scaled_rows(model, extra_rows)
         prob = pulp.LpProblem("rebalance", pulp.LpMinimize)
         # Names from integer indices: PuLP merges names that differ only in punctuation.
@@ -241,7 +245,7 @@ class CbcBackend:
             [(variables[j], float(objective[j])) for j in nz]))
         csr = matrix.tocsr()
         for i in range(csr.shape[0]):
-            if i % CBC_CHECK_ROWS == 0 and time.perf_counter() > deadline:
+            if i % CBC_CHECK_ROWS == 0 and time.perf_counter() > latest:
                 return _cbc_out_of_time(started, "building the model for CBC took the time")
             lo_i, hi_i = row_lo[i], row_hi[i]
             a, z = csr.indptr[i], csr.indptr[i + 1]
@@ -270,7 +274,7 @@ class CbcBackend:
         # PuLP then writes the model out for CBC term by term, which takes longer than building
         # it; the guard below cannot stop Python, so start only with that time left.
         writing = CBC_WRITE_PER_BUILD * (time.perf_counter() - started)
-        if deadline - time.perf_counter() < max(MIN_CBC_SECONDS, writing):
+        if latest - time.perf_counter() < max(MIN_CBC_SECONDS, writing):
             return _cbc_out_of_time(started, "no time left to run CBC after building its model")
         # An LP (an analysis's relaxation, a bound) by primal simplex: CBC's default dual
         # simplex had not solved a 40-office model's relaxation (35k columns) in 120 s, its
@@ -284,8 +288,7 @@ class CbcBackend:
                 path=_cbc_launcher(),
                 msg=False,
                 # PuLP's building, and its writing the model out, use part of the allowance.
-                timeLimit=max(1.0, deadline + options.overtime_without_plan
-                              - time.perf_counter() - writing),
+                timeLimit=max(1.0, latest - time.perf_counter() - writing),
                 gapRel=options.relative_gap,
                 threads=options.threads,
                 warmStart=start is not None,

@@ -28,7 +28,7 @@ from typing import TYPE_CHECKING, Any, TextIO
 from rebalance.backends import raise_if_stopped, stoppable
 from rebalance.instance import Instance
 from rebalance.readers import InstanceError, count_problems, read_instance
-from rebalance.report.console import format_frame
+from rebalance.report.console import format_frame, is_missing
 from rebalance.solve import Status
 
 if TYPE_CHECKING:
@@ -440,9 +440,9 @@ def cmd_replan(args: argparse.Namespace) -> int:
         return code
     from rebalance.report.console import format_outcome
 
-    print(format_outcome(out.result) + "\n")
-    # Two decimals: FTE-periods and money, where 2e-07 is a solver's noise.
-    print(out.summary.to_string(index=False, float_format=lambda v: f"{v:,.2f}"))
+    print(format_outcome(out.result, replan=True) + "\n")
+    # By the one number rule, row by row: money rows whole with the currency, counts whole.
+    print(format_frame(out.summary, instance.money.currency))
     print(f"\n{len(out.changes)} change(s) against the old plan from {args.at} on")
     if len(out.changes):
         print(format_frame(out.changes.head(30), instance.money.currency))
@@ -526,10 +526,17 @@ def cmd_marginal(args: argparse.Namespace) -> int:
                              Steps(budget=args.budget_step), workers=args.workers,
                              max_resolves=args.max_resolves)
     if len(values.table):
-        print(format_frame(values.table[["rank", "limit", "where", "step",
-                                         "shortfall_reduction", "cost_change",
-                                         "estimate_shortfall_reduction", "status"]],
-                           instance.money.currency))
+        from rebalance.report.analysis_view import step_words
+
+        shown = values.table[["rank", "limit", "where", "step", "shortfall_reduction",
+                              "cost_change", "estimate_shortfall_reduction", "status"]].copy()
+        # A step with its unit, as the page writes it: "10" alone was seats or money.
+        shown["step"] = [step_words(None if is_missing(step) else float(step),
+                                    "" if is_missing(unit) else str(unit),
+                                    instance.money.currency)
+                         for step, unit in zip(values.table["step"], values.table["unit"],
+                                               strict=True)]
+        print(format_frame(shown, instance.money.currency))
     else:
         print("no limit binds the plan, so there is nothing to rank; "
               "marginal_values.csv is written with its header only")
@@ -612,7 +619,8 @@ def _add_analysis_commands(sub) -> None:
                    type=_number(float, 1.0, what="an amount of money, at least 1"),
                    help="money a budget is relaxed by (default 100000)")
     p.add_argument("--max-resolves", type=COUNT,
-                   help="re-solve only this many limits, best LP-dual estimates first")
+                   help="re-solve only this many limits, those with the best estimates "
+                        "first (from LP re-solves with the limit moved, else LP duals)")
     solver_options(p)
     p.set_defaults(run=cmd_marginal, output_kind="plan")
 

@@ -93,8 +93,10 @@ def make_plan(instance: Instance, options: SolveOptions, pooled: bool = True,
         model = adjust(model)
     build_seconds = time.perf_counter() - started
     if options.progress is not None:
-        options.progress(f"model: {model.num_cols} columns ({model.num_integer} integer), "
-                         f"{model.num_rows} rows, built in {build_seconds:.2f}s")
+        # Rounded as summary.json stores it (three decimals), then shown with two, as the
+        # console's summary and the page show it.
+        options.progress(f"model: {model.num_cols:,} columns ({model.num_integer:,} integer), "
+                         f"{model.num_rows:,} rows, built in {round(build_seconds, 3):.2f}s")
     # Naming people and verifying the plan come after the solve, inside the same limit.
     remaining = max(0.5, options.time_limit_seconds * (1.0 - options.shares.finish)
                     - build_seconds)

@@ -39,6 +39,16 @@ def _close(a: float, b: float, tol: float = ABS_TOL) -> bool:
     return abs(a - b) <= tol + REL_TOL * max(abs(a), abs(b))
 
 
+def _amounts(instance: Instance, *values: float) -> list[str]:
+    """Amounts of money as the reports write them (whole units with separators, the
+    instance's currency after them), to the cent where whole units would make two of them
+    read the same: a mismatch must not read as none ("cost 1,500 but 1,500 applies")."""
+    whole = [f"{round(float(v)):,d}" for v in values]
+    if len(set(whole)) < len(whole):
+        whole = [f"{float(v) + 0.0:,.2f}" for v in values]
+    return [instance.money.amount(text) for text in whole]
+
+
 def _over(value: float, cap: float) -> bool:
     return value > cap + ABS_TOL + REL_TOL * abs(cap)
 
@@ -183,7 +193,8 @@ class _Checker:
             expected = self.i.relocation_cost(person.home_office, row.to_office)
             self.spend[(self.i.periods[t].year, "relocation")] += expected
             if not _close(float(row.cost), expected):
-                self.flag("reassignment_cost", where, f"cost {row.cost} but {expected} applies")
+                stated, priced = _amounts(self.i, float(row.cost), expected)
+                self.flag("reassignment_cost", where, f"cost {stated} but {priced} applies")
             for s in range(t, self.T):
                 home[row.person][s] = row.to_office
         return home
@@ -213,7 +224,8 @@ class _Checker:
             expected = self.i.detail_cost_per_period(home[row.person][t], row.to_office)
             self.spend[(self.i.periods[t].year, "detail")] += expected
             if not _close(float(row.cost), expected):
-                self.flag("detail_cost", where, f"cost {row.cost} but {expected} applies")
+                stated, priced = _amounts(self.i, float(row.cost), expected)
+                self.flag("detail_cost", where, f"cost {stated} but {priced} applies")
         if m is not None and m > 0:
             by_person: dict[str, set[int]] = defaultdict(set)
             for name, t in away:
@@ -290,8 +302,8 @@ class _Checker:
             salary = skill.salary_per_period * (self.T - s) * count if row.funding == "new" \
                 else 0.0
             if not _close(float(row.salary_cost), salary):
-                self.flag("hire_cost", where, f"salary cost {row.salary_cost} but {salary} "
-                          "applies")
+                stated, priced = _amounts(self.i, float(row.salary_cost), salary)
+                self.flag("hire_cost", where, f"salary cost {stated} but {priced} applies")
         for (office, s), count in per_office_period.items():
             cap = self.offices[office].max_hires_per_period
             if cap is not None and count > cap:
@@ -416,8 +428,9 @@ class _Checker:
             self.flag("costs", f"{key[1]} in {key[0]}", "row missing from costs.csv")
         for key in set(spend) | set(reported):
             if not _close(spend.get(key, 0.0), reported.get(key, 0.0), tol=1e-4):
-                self.flag("costs", f"{key[1]} in {key[0]}", f"costs.csv says "
-                          f"{reported.get(key, 0.0):.2f}; recomputed {spend.get(key, 0.0):.2f}")
+                stated, priced = _amounts(self.i, reported.get(key, 0.0), spend.get(key, 0.0))
+                self.flag("costs", f"{key[1]} in {key[0]}",
+                          f"costs.csv says {stated}; recomputed {priced}")
         for year in self.i.years:
             budget = self.i.budget(year)
             if budget is None:
@@ -425,11 +438,11 @@ class _Checker:
             hiring = spend[(year, "onboarding")] + spend[(year, "new_position_salary")]
             moves = spend[(year, "detail")] + spend[(year, "relocation")]
             if budget.hiring is not None and _over(hiring, budget.hiring):
-                self.flag("hiring_budget", year, f"hiring spend {hiring:.2f} exceeds "
-                          f"{budget.hiring:.2f}")
+                spent, cap = _amounts(self.i, hiring, budget.hiring)
+                self.flag("hiring_budget", year, f"hiring spend {spent} exceeds {cap}")
             if budget.moves is not None and _over(moves, budget.moves):
-                self.flag("moves_budget", year, f"moves spend {moves:.2f} exceeds "
-                          f"{budget.moves:.2f}")
+                spent, cap = _amounts(self.i, moves, budget.moves)
+                self.flag("moves_budget", year, f"moves spend {spent} exceeds {cap}")
         self.total_cost = sum(spend.values())
         self.cost_by_kind = {kind: sum(v for (_, k), v in spend.items() if k == kind)
                              for kind in COST_KINDS}
@@ -457,6 +470,11 @@ def _check_summary(checker: _Checker, summary: dict[str, object]) -> list[Violat
     for key, reported, value, tol in figures:
         number = isinstance(reported, int | float) and not isinstance(reported, bool)
         if not number or not _close(float(reported), value, tol=tol):  # type: ignore[arg-type]
+            if number and (key == "total_cost" or key.startswith("cost_by_kind.")):
+                said, priced = _amounts(checker.i, float(reported), value)  # type: ignore[arg-type]
+                out.append(Violation("summary", f"summary.json {key}",
+                                     f"says {said}; recomputed {priced}"))
+                continue
             out.append(Violation("summary", f"summary.json {key}",
                                  f"says {reported}; recomputed {value:.6g}"))
     return out

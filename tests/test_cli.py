@@ -391,3 +391,52 @@ def test_building_with_memory_nearly_gone_is_a_clear_error_and_writes_nothing(
     assert "machine's memory nearly used up" in capsys.readouterr().out
     assert not out.exists()
 
+
+
+def _tiny_in_euros(tmp_path):
+    instance = tmp_path / "tiny"
+    shutil.copytree(DATA / "tiny", instance)
+    with open(instance / "settings.toml", "a", encoding="utf-8") as settings:
+        settings.write('\n[money]\ncurrency = "EUR"\n')
+    return instance
+
+
+def test_a_replans_comparison_prints_by_the_one_number_rule(tmp_path, capsys):
+    # A practitioner's reading: replan.csv printed as "total_cost 2,463,500.00", "hires
+    # 24.00" and "difference -0.00", no currency.
+    instance = _tiny_in_euros(tmp_path)
+    assert main(["plan", str(instance), "-o", str(tmp_path / "old"), "-q"]) == EXIT_OK
+    capsys.readouterr()
+    assert main(["replan", str(instance), "--from", str(tmp_path / "old"), "--at", "2027-Q3",
+                 "-o", str(tmp_path / "new"), "-q", "--gap", "0"]) == EXIT_OK
+    out = capsys.readouterr().out
+    rows = {line.split()[0]: line.split()[1:] for line in out.splitlines()
+            if line.split() and line.split()[0] in ("total_cost", "hires", "disruption_cost",
+                                                     "weighted_shortfall")}
+    assert rows["total_cost"] == ["43,000", "EUR", "43,000", "EUR", "0", "EUR"]
+    assert rows["disruption_cost"] == ["0", "EUR", "0", "EUR", "0", "EUR"]
+    assert rows["hires"] == ["1", "1", "0"]
+    assert rows["weighted_shortfall"][-1] == "0"
+    assert ".00" not in out.split("measure", 1)[1].split("change(s)", 1)[0]
+
+
+def test_marginal_prints_each_step_with_its_unit(tmp_path, capsys):
+    # The console's step column had read "10" for seats and "100,000" for budgets, no unit.
+    instance = _tiny_in_euros(tmp_path)
+    assert main(["marginal", str(instance), "-o", str(tmp_path / "m"), "-q"]) == EXIT_OK
+    out = capsys.readouterr().out
+    table = pd.read_csv(tmp_path / "m" / "marginal_values.csv")
+    assert len(table)
+    from rebalance.report.analysis_view import step_words
+
+    for step, unit in zip(table["step"], table["unit"], strict=True):
+        words = step_words(float(step), str(unit), "EUR")
+        assert " " in words and words in out  # "+10 seats", "+100,000 EUR"
+
+
+def test_marginal_help_says_where_estimates_come_from(capsys):
+    with pytest.raises(SystemExit):
+        main(["marginal", "--help"])
+    text = " ".join(capsys.readouterr().out.split())
+    assert "LP-dual estimates" not in text
+    assert "LP re-solves with the limit moved, else LP duals" in text

@@ -240,3 +240,36 @@ def test_coverage_reports_no_shortfall_from_rounding_in_its_sums(tiny_plan):
     row = coverage[(coverage.office == first.office) & (coverage.skill == first.skill)
                    & (coverage.period == instance.period_names[first.period])].iloc[0]
     assert 0 < first.fte - row["covered_fte"] < 1e-12 and row["shortfall_fte"] == 0.0
+
+
+def test_money_in_messages_reads_as_the_reports_write_it(tiny_plan):
+    # A practitioner's reading: "cost 999.0 but 1500.0 applies" and "costs.csv says
+    # 310845.50; recomputed 298500.00": money raw, no currency.
+    from rebalance.instance import Money
+
+    instance, result = tiny_plan
+    plan = result.plan
+    euros = instance.with_changes(money=Money("EUR"))
+    for case, rule, expected in (
+            (instance, "reassignment_cost", "cost 1 but 20,000 applies"),
+            (euros, "reassignment_cost", "cost 1 EUR but 20,000 EUR applies"),
+            (euros, "detail_cost", "cost 999 EUR but 5,000 EUR applies"),
+            (euros, "hiring_budget", "hiring spend 96,000 EUR exceeds 40,000 EUR")):
+        broken = {"reassignment_cost": BREAKS["reassignment_cost"],
+                  "hiring_budget": BREAKS["hiring_budget"],
+                  "detail_cost": lambda i, p: consistent(
+                      i, p, details=p.details.assign(cost=999.0))}[rule](case, plan)
+        messages = [v.message for v in verify_plan(case, broken) if v.rule == rule]
+        assert any(expected in m for m in messages), messages
+    costs = replace(plan, costs=plan.costs.assign(cost=plan.costs["cost"] + 12_345.5))
+    messages = [v.message for v in verify_plan(euros, costs) if v.rule == "costs"]
+    assert messages and all(" EUR; recomputed " in m and m.endswith(" EUR") for m in messages)
+    assert not any(".50" in m for m in messages)
+
+
+def test_a_money_mismatch_under_one_unit_still_reads_as_a_mismatch(tiny_plan):
+    instance, result = tiny_plan
+    broken = consistent(instance, result.plan,
+                        details=result.plan.details.assign(cost=4999.6))
+    messages = [v.message for v in verify_plan(instance, broken) if v.rule == "detail_cost"]
+    assert messages and "cost 4,999.60 but 5,000.00 applies" in messages[0]

@@ -39,17 +39,24 @@ def limit_key(use: LimitUse) -> str:
     return f"{use.limit}|{use.where}|{use.period}"
 
 
-def _describe(use: LimitUse, names: tuple[str, ...]) -> str:
+def _money(instance: Instance, value: float) -> str:
+    """An amount as the reports write it: whole units, separators, the currency if set."""
+    return instance.money.amount(f"{round(value):,d}")
+
+
+def _describe(use: LimitUse, instance: Instance) -> str:
     what = {"hiring_budget": "hiring budget", "moves_budget": "moves budget",
             "max_hires": "hiring slots", "seats": "seats", "away_share": "away share",
             "vacancies": "funded vacancies", "time_to_hire": "time to hire"}[use.limit]
+    names = instance.period_names
     if use.limit == "time_to_hire":
         first = int(use.cap)
         return (f"time to hire of {use.where} (no hire starts before {names[first]})"
                 if first < len(names) else
                 f"time to hire of {use.where} (no hire can start within the horizon)")
     if use.limit in ("hiring_budget", "moves_budget"):
-        return f"{what} {use.where} ({use.used:,.0f} of {use.cap:,.0f} spent)"
+        return (f"{what} {use.where} ({_money(instance, use.used)} of "
+                f"{_money(instance, use.cap)} spent)")
     when = f" in {use.period}" if use.period else ""
     if use.limit == "away_share":
         return f"{what} at {use.where}{when} ({use.used:g} away of {use.cap:g} allowed)"
@@ -153,9 +160,13 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
             mean_gap = sum(gaps[first:first + run]) / run
             lasting = ("to the end of the horizon" if first + run == T
                        else f"until {names[first + run - 1]}")
-            text = (f"{h.skill} demand at {h.office} is above its staff's output for {run} "
-                    f"straight {_periods(run)} from {names[first]}, {lasting} (by "
-                    f"{mean_gap:.2f} FTE on average), so a hire ({funding})")
+            # gap_before_hires counts the output of everyone working there, people detailed
+            # in included, before hires: the words say so (the detail reason counts B's own
+            # staff and hires, and had read as the same measure).
+            text = (f"{h.skill} demand at {h.office} is above the output of the staff working "
+                    f"there (people detailed in included, hires not) for {run} straight "
+                    f"{_periods(run)} from {names[first]}, {lasting} (by {mean_gap:.2f} FTE on "
+                    f"average), so a hire ({funding})")
             if first > s:
                 text += _early_start(instance, h.office, h.skill, s, first, binding,
                                      replanned_at)
@@ -224,7 +235,8 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
                     source = (f"{short_too}, at priority {at_a:g} against {at_b:g} at {b}: no "
                               "gain in shortfall visible from this detail alone (review)")
             text = (f"{skill} demand at {b} exceeds what {b}'s own staff and hires cover "
-                    f"{_span(names, t1, t2)}: {shape}, so a detail {source}")
+                    f"(people detailed in left out) {_span(names, t1, t2)}: {shape}, so a "
+                    f"detail {source}")
         if idle and not (replanned_at is not None and t2 < replanned_at):
             under_way = replanned_at is not None and t1 < replanned_at <= t2
             text += (f"; idle in {', '.join(names[t] for t in idle)} (no work for them there "
@@ -244,9 +256,10 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
         skill = max(skill_gaps, key=lambda k: skill_gaps[k])
         detail_cost = instance.detail_cost_per_period(a, b) * len(left)
         text = (f"{skill} work at {b} needs them in {skill_gaps[skill]} of the {len(left)} "
-                f"{_periods(len(left))} from {per}: a lasting need, and one move ({cost:,.0f}) "
-                f"costs {'less than' if cost < detail_cost else 'no less than'} detailing them "
-                f"for all of it ({detail_cost:,.0f})")
+                f"{_periods(len(left))} from {per}: a lasting need, and one move "
+                f"({_money(instance, cost)}) costs "
+                f"{'less than' if cost < detail_cost else 'no less than'} detailing them for "
+                f"all of it ({_money(instance, detail_cost)})")
         rows.append(("reassignment", p, b, skill, per, names[T - 1], 1.0, text, ""))
 
     # -- shortfalls: the binding limits that could matter -------------------------------------
@@ -256,7 +269,7 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
         cited = _relevant(instance, binding, o, k, t)
         if cited:
             text = (f"{short:.2f} FTE short; held back by " +
-                    "; ".join(_describe(u, names) for u in cited))
+                    "; ".join(_describe(u, instance) for u in cited))
         else:
             text = (f"{short:.2f} FTE short; no binding limit found for it (the gap may be "
                     "below what one more whole head adds after ramp-up and attrition, or the "

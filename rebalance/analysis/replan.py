@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import math
 from collections import defaultdict
-from collections.abc import Hashable
+from collections.abc import Callable, Hashable
 from dataclasses import dataclass, replace
 from pathlib import Path
 
@@ -28,7 +28,7 @@ import scipy.sparse as sp
 from rebalance.analysis.limits import hire_rows
 from rebalance.instance import Instance, Person
 from rebalance.model import ColumnBlock, DetailRoute, Model, RowFamily
-from rebalance.plan import Plan, cost_table, coverage_table
+from rebalance.plan import PLAN_TABLES, Plan, cost_table, coverage_table
 from rebalance.planning import PlanResult, make_plan
 from rebalance.solve import SolveOptions
 from rebalance.verify import unknown_names, verify_plan
@@ -96,13 +96,15 @@ def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
     people = {p.person: p for p in instance.staff}
     problems: list[str] = []
     details: dict[str, dict[int, tuple[str, str]]] = defaultdict(dict)
-    for row in old.details.itertuples(index=False):
+    detail_lines: dict[tuple[str, int], int] = {}
+    for line, row in enumerate(old.details.itertuples(index=False), 2):
         if str(row.person) not in people or str(row.period) not in ix:
             problems.append(f"{file('details')}: person {row.person} in {row.period} is not "
                             "in the instance")
             continue
         details[str(row.person)][ix[str(row.period)]] = (str(row.from_office),
                                                           str(row.to_office))
+        detail_lines[(str(row.person), ix[str(row.period)])] = line
     moves: dict[str, tuple[int, str]] = {}
     for row in old.reassignments.itertuples(index=False):
         if str(row.person) not in people or str(row.period) not in ix:
@@ -110,13 +112,29 @@ def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
                             "not in the instance")
             continue
         moves[str(row.person)] = (ix[str(row.period)], str(row.to_office))
+    # A past reassignment the data rule out is the first thing to say: where the person's
+    # home was then is in doubt, so their details and work are not checked against it.
+    doubtful = {name: (t, dst) for name, (t, dst) in moves.items()
+                if t < at and (not people[name].can_relocate or not people[name].is_present(t))}
+    problems += [f"reassignment of {name} to {dst} in {names[t]}, before {names[at]}, is ruled "
+                 f"out by the data now: {_why_not(instance, people[name], t, 'reassignment')}"
+                 for name, (t, dst) in sorted(doubtful.items())]
+    sure = {name: run for name, run in details.items() if name not in doubtful}
+    problems += _details_not_from_home(instance, sure, detail_lines, moves, file)
+    past_work = _past_work(old, ix, at)
+    problems += _past_work_ruled_out(
+        instance, {k: v for k, v in past_work.items() if k not in doubtful}, details, moves,
+        at, file)
     problems += _started_hires_ruled_out(instance, old, at)
     if problems:
         raise ReplanError(problems)
 
     def pool_key(person: Person) -> Hashable:
+        # The past work split too: a unit's members then had the same one, so the unit's
+        # fixed work columns give each person's own back (issue: past work rewritten).
         return (tuple(sorted(details.get(person.person, {}).items())),
-                moves.get(person.person))
+                moves.get(person.person),
+                tuple((t, o, k, fte) for _, t, o, k, fte in past_work.get(person.person, ())))
 
     notes: list[str] = []
 
@@ -131,8 +149,9 @@ def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
     # The past keeps its details even where the data now have no demand there then.
     past = [(person, dst, t) for person, run in sorted(details.items())
             for t, (_, dst) in sorted(run.items()) if t < at]
-    result = make_plan(instance, options, pool_key=pool_key, adjust=adjust,
-                       keep_details=keep + past)
+    result = _with_past_work(instance, make_plan(instance, options, pool_key=pool_key,
+                                                 adjust=adjust, keep_details=keep + past),
+                             past_work, at)
     # The old plan's coverage table states the old demand; only its rules are checked here.
     # Its coverage table and its prices are bookkeeping at the old data's demand, prices and
     # horizon (a longer one adds years and salary periods): only its rules are checked.
@@ -145,7 +164,7 @@ def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
     disruption = float(changes["disruption_cost"].sum()) if len(changes) else 0.0
     summary = _summary(instance, old, result.plan, changes, disruption)
     return Replan(at, result, changes, summary, disruption, old_violations,
-                  tuple(idle + notes))
+                  tuple(idle + notes + _past_work_idle(instance, past_work)))
 
 
 def _under_way(run: dict[int, tuple[str, str]], at: int, t: int) -> bool:
@@ -196,7 +215,7 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
     forced = 0.0
 
     def fix(col: int, value: float, what: str) -> None:
-        if value > model.col_upper[col] + 1e-9:
+        if value > model.col_upper[col] + 1e-9 * max(1.0, value):
             problems.append(f"{what}: the old plan has {value:g} but the data now allow "
                             f"{model.col_upper[col]:g}")
         lower[col] = upper[col] = value
@@ -313,9 +332,13 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
         wkey = (int(work.keys["unit"][j]), int(work.keys["office"][j]),
                 int(work.keys["skill"][j]), int(work.keys["period"][j]))
         if wkey[3] < at:
-            value = min(old_work.get(wkey, 0.0), float(model.col_upper[work.start + j]))
-            lower[work.start + j] = max(0.0, value - 1e-7)
-            upper[work.start + j] = value
+            # Exactly, not clipped to the column's cap nor given slack: _past_work_ruled_out
+            # refused past work the data no longer allow (clipping had rewritten a1's 1.0 as
+            # 0.5 after an FTE cut, and a 1e-7 slack made 1.0 into 0.9999999, more with each
+            # re-plan of a re-plan).  Past work with no column (the data now have no demand
+            # there) counts for nothing here and is put back in the table by
+            # _with_past_work.
+            fix(work.start + j, old_work.get(wkey, 0.0), f"work column {j}")
     if problems:
         raise ReplanError(problems)
 
@@ -354,6 +377,143 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
     return _with_forced_disruption(
         _with_change_columns(replace(model, col_lower=lower, col_upper=upper, hint=hint), exprs),
         forced)
+
+
+# (line in work.csv, period index, office, skill, fte) of one person's work before `at`.
+PastWork = tuple[int, int, str, str, float]
+
+
+def _past_work(old: Plan, ix: dict[str, int], at: int) -> dict[str, list[PastWork]]:
+    """The old plan's work rows before ``at`` by person, with their line in ``work.csv``."""
+    out: dict[str, list[PastWork]] = defaultdict(list)
+    w = old.work
+    for line, (person, period, office, skill, fte) in enumerate(zip(
+            w["person"].astype(str), w["period"].astype(str), w["office"].astype(str),
+            w["skill"].astype(str), w["fte"].astype(float), strict=True), 2):
+        t = ix.get(period)
+        if t is not None and t < at:
+            out[person].append((line, t, office, skill, float(fte)))
+    for rows in out.values():
+        rows.sort(key=lambda r: r[1:4])
+    return out
+
+
+def _home_in_force(person: Person, moves: dict[str, tuple[int, str]], t: int) -> str:
+    move = moves.get(person.person)
+    return move[1] if move is not None and move[0] <= t else person.home_office
+
+
+def _details_not_from_home(instance: Instance, details: dict[str, dict[int, tuple[str, str]]],
+                           lines: dict[tuple[str, int], int],
+                           moves: dict[str, tuple[int, str]],
+                           file: Callable[[str], str]) -> list[str]:
+    """Refusals for old details that leave from somewhere other than the person's home then:
+    the old plan contradicts itself or the data's home office, and the model has no such
+    route (it had been refused as "ruled out by the data ... no place for it")."""
+    people = {p.person: p for p in instance.staff}
+    names = instance.period_names
+    problems = []
+    for person, run in sorted(details.items()):
+        for t, (src, _dst) in sorted(run.items()):
+            home = _home_in_force(people[person], moves, t)
+            if src != home:
+                after = (f", after the reassignment in {file('reassignments')}"
+                         if home != people[person].home_office else "")
+                problems.append(
+                    f"{file('details')}:{lines[(person, t)]}: detail of {person} in {names[t]} "
+                    f"leaves from {src}, but {person}'s home then is {home} (staff.csv "
+                    f"home_office{after}): from_office should be {home}")
+    return problems
+
+
+def _past_work_ruled_out(instance: Instance, past_work: dict[str, list[PastWork]],
+                         details: dict[str, dict[int, tuple[str, str]]],
+                         moves: dict[str, tuple[int, str]], at: int,
+                         file: Callable[[str], str]) -> list[str]:
+    """Refusals for work before ``at`` that cannot have happened under the current data (the
+    person had left, lacks the skill, has less FTE than it, or was elsewhere in the old plan
+    itself).  Such work is refused, never rewritten: it had been dropped or clipped in
+    silence.  Work where the data now have no demand is not refused: it happened, and is kept
+    (it covers nothing)."""
+    people = {p.person: p for p in instance.staff}
+    names = instance.period_names
+    problems = []
+    for name, rows in sorted(past_work.items()):
+        person = people[name]
+        total: dict[int, float] = defaultdict(float)
+        first_line: dict[int, int] = {}
+        for line, t, office, skill, fte in rows:
+            where = f"{file('work')}:{line}: {name} works {fte:g} FTE on {skill} at {office} in "
+            where += f"{names[t]}, before {names[at]}, but"
+            total[t] += fte
+            first_line.setdefault(t, line)
+            if not person.is_present(t):
+                problems.append(f"{where} has left by then (staff.csv last_period)")
+                continue
+            if skill not in {k for k, _ in person.skills}:
+                problems.append(f"{where} does not have {skill} (staff.csv skills)")
+            run = details.get(name, {})
+            at_office = run[t][1] if t in run else _home_in_force(person, moves, t)
+            if office != at_office:
+                problems.append(f"{where} the old plan has them at {at_office} then "
+                                "(its details.csv and reassignments.csv)")
+        for t, fte in sorted(total.items()):
+            available = instance.available_fte(person, t)
+            if person.is_present(t) and fte > available + 1e-9 * max(1.0, fte):
+                problems.append(
+                    f"{file('work')}:{first_line[t]}: {name} works {fte:g} FTE in {names[t]}, "
+                    f"before {names[at]}, but the data now give them {available:g} then "
+                    "(staff.csv fte, less expected attrition.csv if any)")
+    return problems
+
+
+def _past_work_idle(instance: Instance, past_work: dict[str, list[PastWork]]) -> list[str]:
+    """A note on past work kept where the data now have no demand: it happened, so it stays
+    in work.csv, but it covers nothing (demand removed, or a scenario's multiplier 0)."""
+    wanted = {(d.office, d.skill, d.period) for d in instance.demand if d.fte > 0}
+    names = instance.period_names
+    idle = [f"{name} on {skill} at {office} in {names[t]}"
+            for name, rows in sorted(past_work.items()) for _, t, office, skill, _ in rows
+            if (office, skill, t) not in wanted]
+    if not idle:
+        return []
+    more = f" and {len(idle) - 3} more" if len(idle) > 3 else ""
+    return [f"work before the re-plan period is kept as it happened where the data now have "
+            f"no demand, and covers nothing there: {', '.join(idle[:3])}{more}"]
+
+
+def _with_past_work(instance: Instance, result: PlanResult,
+                    past_work: dict[str, list[PastWork]], at: int) -> PlanResult:
+    """``result`` with each person's work before ``at`` as the old plan had it, row for row.
+
+    The model fixed it (its columns pinned to the old values), but the plan's table is
+    decoded from the solution: a row with no column (no demand there now) was missing, and
+    a pooled split came back as an even share with rounding (0.79999992 for 0.8).  Where
+    the old plan has no row for a person and period (someone new, say), the decoded ones
+    stand.  Coverage and verification are done again on the table as it is written.
+    """
+    plan = result.plan
+    if plan is None or not past_work:
+        return result
+    people = {p.person: p for p in instance.staff}
+    names = instance.period_names
+    ix = {name: t for t, name in enumerate(names)}
+    kept = {(name, t) for name, rows in past_work.items() for _, t, _, _, _ in rows}
+    w = plan.work
+    mask = [(str(p), ix[str(q)]) not in kept for p, q in zip(w["person"], w["period"],
+                                                              strict=True)]
+    # At today's proficiency, as the model counted it.
+    old_rows = pd.DataFrame(
+        [(name, names[t], office, skill, fte, fte * people[name].proficiency(skill))
+         for name, rows in past_work.items() for _, t, office, skill, fte in rows],
+        columns=list(PLAN_TABLES["work"]))
+    work = pd.concat([w.loc[mask, list(PLAN_TABLES["work"])], old_rows], ignore_index=True)
+    order = work["period"].map(ix)
+    work = (work.assign(_t=order).sort_values(["person", "_t", "skill"], kind="stable")
+            .drop(columns="_t").reset_index(drop=True))
+    new_plan = replace(plan, work=work,
+                       coverage=coverage_table(instance, work, plan.hires))
+    return replace(result, plan=new_plan, violations=tuple(verify_plan(instance, new_plan)))
 
 
 def _why_not(instance: Instance, person: Person, t: int, what: str) -> str:

@@ -22,7 +22,7 @@ from rebalance.report.console import is_money, money_text
 from rebalance.report.htmlparts import chart, e, frame_table_html, section
 from rebalance.report.inputs import SHEET_ONLY, ReportData
 
-__all__ = ["AnalysisView", "analysis_payload", "find_column"]
+__all__ = ["AnalysisView", "analysis_payload", "find_column", "step_words"]
 
 
 @dataclass(frozen=True)
@@ -144,7 +144,7 @@ def _scenarios(frame: pd.DataFrame, currency: str | None = None) -> dict[str, An
 _SINGULAR = {unit.plural: unit.singular for unit in STEP_UNITS.values()}
 
 
-def _step_words(step: float | None, unit: str, currency: str | None = None) -> str:
+def step_words(step: float | None, unit: str, currency: str | None = None) -> str:
     """One step of a limit with its unit: ``+10 seats``, ``+100,000 money`` (``+100,000 EUR``
     with a currency), ``-1 period``.  A unit not in :data:`STEP_UNITS` is kept as written."""
     words = unit.strip()
@@ -175,7 +175,8 @@ def _marginal_columns(frame: pd.DataFrame) -> _MarginalColumns | None:
          "value"), avoid=("cost", "estimate"))
     if value is None:
         return None
-    # A fast estimate (e.g. from LP duals) beside the exact re-solve is drawn as a tick.
+    # A fast estimate (an LP re-solve, else LP duals) beside the exact re-solve is drawn
+    # as a tick.
     estimate = find_column(frame, ("estimate_shortfall_reduction",), ("estimate",),
                            avoid=("cost",))
     step = find_column(frame, ("step", "increment", "unit_step", "delta_limit"), ("step",),
@@ -232,7 +233,7 @@ def _marginal(table: _MarginalTable, currency: str | None = None) -> dict[str, A
         name = " · ".join(parts) or f"row {len(rows) + 1}"
         step = _finite([r[cols.step]])[0] if cols.step else None
         unit = _text(r[cols.unit]) if cols.unit else ""
-        step_text = _step_words(step, unit, currency) if step is not None or unit else ""
+        step_text = step_words(step, unit, currency) if step is not None or unit else ""
         label = f"{name}, {step_text}" if step_text else name
         row: dict[str, Any] = {"label": label, "value": _finite([r[cols.value]])[0],
                                "tip": label + (f"\n{_text(r[method])}" if method else "")}
@@ -271,7 +272,7 @@ def _marginal_words(frame: pd.DataFrame, table: _MarginalTable | None,
             step = _finite([r[cols.step]])[0]
             if step is None:
                 continue
-            what = _step_words(step, _text(r[cols.unit]), currency)
+            what = step_words(step, _text(r[cols.unit]), currency)
             name = _text(r[limit]).replace("_", " ") if limit else ""
             names = steps.setdefault(what, [])
             if name and name not in names:
@@ -314,7 +315,9 @@ def _marginal_words(frame: pd.DataFrame, table: _MarginalTable | None,
                 "their estimate")
     if cols.estimate and with_estimate < len(rest):
         caption += f" ({len(rest) - with_estimate} have no estimate either)"
-    caption += ". An estimate is a linear approximation, not a measured value."
+    caption += (". An estimate comes from the plan's LP (whole-number decisions relaxed) "
+                "solved again with the limit moved, or from its duals where that was not "
+                "solved: a guide to what to re-solve, not a measured value.")
     return lead, caption
 
 

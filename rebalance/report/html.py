@@ -21,16 +21,20 @@ import pandas as pd
 
 from rebalance.planning import BUILD_STAGE
 from rebalance.report import analysis_view
-from rebalance.report.console import MONEY_STAGES
+from rebalance.report.console import (
+    fte_total_text,
+    money_amount,
+    seconds_text,
+    share_text,
+    stage_value,
+)
 from rebalance.report.htmlparts import (
     NEAR_ZERO,
     card,
     chart,
-    compact_money,
     e,
     money,
     num,
-    number_text,
     plain_status,
     section,
     stage_words,
@@ -269,9 +273,10 @@ def _quality_list(data: ReportData) -> str:
     if not stages:
         return ""
     currency = data.instance.money.currency
+    replan = data.summary.replan is not None
     return '<ul class="stages">' + "".join(
-        f"<li><strong>{e(st.name)} stage:</strong> {e(stage_words(st, currency))}</li>"
-        for st in stages) + "</ul>"
+        f"<li><strong>{e(st.name)} stage:</strong> "
+        f"{e(stage_words(st, currency, replan=replan))}</li>" for st in stages) + "</ul>"
 
 
 def _headline(data: ReportData) -> str:
@@ -283,8 +288,8 @@ def _headline(data: ReportData) -> str:
     uncapped = any(c is None for c in caps) or len(data.instance.budgets) < len(
         data.instance.years)
     money_note = ("no caps set" if cap_total == 0 else
-                  f"of {compact_money(cap_total)} allowed" + (" (some lines uncapped)"
-                                                               if uncapped else ""))
+                  f"of {money(cap_total)} allowed" + (" (some lines uncapped)"
+                                                      if uncapped else ""))
     money_note += f", {data.instance.periods[0].name} to {data.instance.periods[-1].name}"
     people = plan.details["person"].nunique() if len(plan.details) else 0
     hires_new = int(plan.hires.loc[plan.hires["funding"] == "new", "count"].sum()) if len(
@@ -296,24 +301,29 @@ def _headline(data: ReportData) -> str:
     beyond = float(spare["spare_fte"].sum()) if len(spare) else 0.0
     no_work = float(spare["unassigned_fte"].sum()) if len(spare) else 0.0
     spare_total = beyond + no_work
+    # "Idle capacity" is both parts, each named; "output beyond demand" is the first alone,
+    # as in the table below and the workbook (the card had said "capacity beyond demand"
+    # for 70.9 where the table's column of that name summed to 47.6).
     if spare_total >= 0.05:
         most = spare.assign(both=spare["spare_fte"] + spare["unassigned_fte"]).sort_values(
             "both", ascending=False).iloc[0]
-        spare_note = (f"FTE-periods left idle: {num(beyond)} of output beyond demand, "
-                      f"{num(no_work)} of people's time with no work; most at "
-                      f"{most['office']} ({num(float(most['both']))})")
+        spare_note = (f"FTE-periods: {fte_total_text(beyond)} of output beyond demand + "
+                      f"{fte_total_text(no_work)} of people's time with no work; most at "
+                      f"{most['office']} ({fte_total_text(float(most['both']))})")
     else:
-        spare_note = "FTE-periods left idle: none to speak of"
+        spare_note = "FTE-periods: none to speak of"
     commitment = new_position_salaries(data)
     yearly = float(commitment["per_year"].sum()) if len(commitment) else 0.0
     cards = [
-        card("Weighted shortfall", num(plan.weighted_shortfall),
-              f"FTE-periods; unweighted {num(plan.shortfall_fte)}, {share:.1%} of "
-              f"{num(demand, 0)} demanded",
+        # Headline totals as the console's summary and the workbook's write them.
+        card("Weighted shortfall", fte_total_text(plan.weighted_shortfall),
+              f"FTE-periods; unweighted {fte_total_text(plan.shortfall_fte)}, {share:.1%} of "
+              f"{fte_total_text(demand)} demanded",
               "warn" if share > 0.02 else "ok"),
-        card("Capacity beyond demand", num(spare_total), spare_note),
-        card("New money", money_unit.amount(compact_money(plan.total_cost)), money_note),
-        card("Salaries after the horizon", money_unit.amount(compact_money(yearly)),
+        card("Idle capacity", fte_total_text(spare_total), spare_note),
+        # Money in full, as everywhere else: "2.46M" beside "2,463,500" read as two figures.
+        card("New money", money_amount(plan.total_cost, money_unit.currency), money_note),
+        card("Salaries after the horizon", money_amount(yearly, money_unit.currency),
              f"a year, every year after {data.instance.periods[-1].name}, for the "
              f"{hires_new:,} new position{'' if hires_new == 1 else 's'}; not in new money",
              "warn" if yearly > 0 else ""),
@@ -338,14 +348,15 @@ def _spare_table(data: ReportData) -> str:
         "demand_fte", "output_fte", "shortfall_fte", "spare_fte")),
         _share(float(spare["spare_fte"].sum()), float(spare["output_fte"].sum())),
         _f(float(spare["unassigned_fte"].sum())), ""]
-    return ("<h3>Capacity beyond demand</h3>"
+    return ("<h3>Idle capacity</h3>"
             '<p class="lead">Output that staff and hires produce beyond the demand of their '
-            "office and skill, and time of people there that the plan gives no work (their "
+            "office and skill (output beyond demand), and time of people there that the plan "
+            "gives no work (their "
             "skills are not wanted there then, or the demand is met), summed over the horizon, "
             "in FTE-periods: neither covers anything in this plan. Rules on details (share "
             "away, consecutive periods), skills and move costs may be what keeps it where it "
             "is.</p>"
-            + table_html(["office", "demand", "output", "shortfall", "beyond demand (spare)",
+            + table_html(["office", "demand", "output", "shortfall", "output beyond demand",
                           "share of output", "time with no work", "skills with most spare"],
                          rows, name="spare",
                          numeric=[False, True, True, True, True, True, True, False],
@@ -359,7 +370,7 @@ def _f(value: float, digits: int = 1) -> tuple[float, str]:
 
 
 def _share(part: float, whole: float) -> tuple[float, str]:
-    return (part / whole, f"{part / whole:.0%}") if whole else (0.0, "-")
+    return (part / whole, share_text(part, whole)) if whole else (0.0, "-")
 
 
 def _shortfall_table(data: ReportData) -> str:
@@ -376,8 +387,7 @@ def _shortfall_table(data: ReportData) -> str:
         office, skill = str(key[0]), str(key[1])  # type: ignore[index]  # a two-level index
         d = float(demand.get((office, skill), 0.0))
         rows.append([office, skill, float(g["shortfall"]), float(g["weighted"]),
-                     (d and float(g["shortfall"]) / d, f"{float(g['shortfall']) / d:.0%}"
-                      if d else "-"), int(g["periods"]), float(g["worst"])])
+                     _share(float(g["shortfall"]), d), int(g["periods"]), float(g["worst"])])
     return table_html(["office", "skill", "shortfall FTE-periods", "weighted",
                        "share of demand", "periods short", "worst period FTE"], rows,
                       name="shortfall", numeric=[False, False, True, True, True, True, True],
@@ -445,7 +455,8 @@ def render_html(data: ReportData) -> str:
         "capacity", "Work and capacity",
         "Demand (dark line) against what current staff cover (blue) and what new hires add "
         "(green), summed over skills. Red is demand left uncovered; the pale band above the line, "
-        "dashed on top, is output beyond demand, which covers nothing (spare or idle capacity).",
+        "dashed on top, is output beyond demand, which covers nothing (part of the idle "
+        "capacity below).",
         chart("coverage", "Demand against covered work per office") + _spare_table(data)))
     sections.append(section(
         "gaps", "Where the gaps are",
@@ -488,8 +499,8 @@ def render_html(data: ReportData) -> str:
             if hires else "")))  # the chart already says there are none
     cost_rows = [[r["year"], r["kind"], _m(r["spend"]),
                   (r["cap"], money(r["cap"])) if r["cap"] is not None else (1e300, "no cap"),
-                  (r["spend"] / r["cap"], f"{r['spend'] / r['cap']:.0%}") if r["cap"] else
-                  (0, "-")] for r in payload["budget"]]
+                  _share(r["spend"], r["cap"]) if r["cap"] else (0, "-")]
+                 for r in payload["budget"]]
     sections.append(section(
         "money", "Money",
         "New money only: onboarding, salaries of new positions, details and relocations, by "
@@ -569,17 +580,19 @@ def _stage_value(stage: StageSummary, value: float | None,
     currency, if any), and for the weighted stage's cost plus shortfall cost."""
     if value is None:
         return -1.0, "-"
-    text = money(value) if stage.name == "cost" else number_text(value)
-    unit = f" {currency}" if currency and stage.name in MONEY_STAGES else ""
-    return value, text + unit
+    return value, stage_value(stage.name, value, currency)
 
 
 def _run_details(data: ReportData) -> str:
     run = data.summary
     currency = data.instance.money.currency
+    replan = run.replan is not None
 
     def fmt(value: float | None, spec: str) -> str:
         return "-" if value is None else format(value, spec)
+
+    def secs(value: float | None) -> str:
+        return "-" if value is None else seconds_text(value)
 
     facts = [
         ("solver", run.solver_version or run.solver or "-"),
@@ -588,8 +601,7 @@ def _run_details(data: ReportData) -> str:
         ("largest stage gap at stop", fmt(run.gap, ".2%")),
         ("model", f"{run.model_columns or 0:,} columns ({run.model_integer_columns or 0:,} "
                   f"whole-number) and {run.model_rows or 0:,} rows"),
-        ("build / solve seconds", f"{fmt(run.build_seconds, '.2f')} / "
-                                  f"{fmt(run.solve_seconds, '.2f')}"),
+        ("build / solve seconds", f"{secs(run.build_seconds)} / {secs(run.solve_seconds)}"),
         ("independent verification", {True: "passed: every rule and total recomputed from "
                                       "the instance and the plan tables", False: "FAILED",
                                       None: "unknown"}[run.verified]),
@@ -599,13 +611,13 @@ def _run_details(data: ReportData) -> str:
     if run.stages:
         out += table_html(["stage", "outcome, and what the gap leaves open", "objective",
                            "bound", "gap", "seconds", "solver says"],
-                          [[s.name, stage_words(s, currency),
+                          [[s.name, stage_words(s, currency, replan=replan),
                             _stage_value(s, s.objective, currency),
                             _stage_value(s, s.bound, currency),
                             (s.gap if s.gap is not None else -1,
                              "-" if s.gap is None else f"{s.gap:.2%}"),
                             (s.seconds if s.seconds is not None else -1,
-                             fmt(s.seconds, ".2f")), s.solver_says] for s in run.stages],
+                             secs(s.seconds)), s.solver_says] for s in run.stages],
                           name="stages", numeric=[False, False, True, True, True, True, False])
     for title, items in (("Violations", run.violations), ("Limits in conflict", run.conflicts),
                          ("Input warnings", run.warnings)):

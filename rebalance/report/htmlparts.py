@@ -13,18 +13,19 @@ import pandas as pd
 
 from rebalance.report.console import (
     NEAR_ZERO,
+    cell_text,
     is_flag,
     is_missing,
     is_money,
+    measure_names,
     money_text,
     number_text,
     room_left,
 )
 from rebalance.solve import StageResult, Status
 
-__all__ = ["NEAR_ZERO", "PLAIN_STATUS", "card", "chart", "compact_money", "e", "frame_table_html",
-           "money", "num", "number_text", "plain_status", "readable", "section", "stage_words",
-           "table_html"]
+__all__ = ["NEAR_ZERO", "PLAIN_STATUS", "card", "chart", "e", "frame_table_html", "money", "num",
+           "number_text", "plain_status", "readable", "section", "stage_words", "table_html"]
 
 # Solver outcomes in plain words, for the page and the workbook (never the raw status word).
 PLAIN_STATUS = {
@@ -81,10 +82,10 @@ class _Stage(Protocol):
     def solver_says(self) -> str: ...
 
 
-def stage_words(stage: _Stage, currency: str | None = None) -> str:
+def stage_words(stage: _Stage, currency: str | None = None, *, replan: bool = False) -> str:
     """What one solve stage's outcome and gap mean, in the stage's own units (money in
     ``currency`` where one is given), worded as the console words them
-    (:func:`rebalance.report.console.room_left`)."""
+    (:func:`rebalance.report.console.room_left`; ``replan``: a re-plan's stage)."""
     try:
         status = Status(stage.status)
     except ValueError:
@@ -96,19 +97,11 @@ def stage_words(stage: _Stage, currency: str | None = None) -> str:
     if status is Status.FEASIBLE_WITH_GAP:
         room = room_left(StageResult(stage.name, status, stage.objective, stage.bound,
                                       stage.gap, stage.seconds or 0.0, stage.solver_says),
-                         currency)
+                         currency, replan=replan)
         if room is None:
             room = "gap unknown" if stage.gap is None else f"gap {stage.gap:.2%}"
         return f"not proven best: {room}"
     return plain_status(stage.status)
-
-
-def compact_money(value: float) -> str:
-    if abs(value) >= 1e6:
-        return f"{value / 1e6:,.2f}M"
-    if abs(value) >= 1e4:
-        return f"{value / 1e3:,.0f}k"
-    return f"{value:,.0f}"
 
 
 def table_html(headers: Sequence[str], rows: Sequence[Sequence[Any]], *, name: str,
@@ -148,7 +141,8 @@ def _row(r: Sequence[Any], numeric: Sequence[bool]) -> str:
     return "<tr>" + "".join(cells) + "</tr>"
 
 
-def _cell(value: Any, column: str, is_num: bool) -> Any:
+def _cell(value: Any, column: str, is_num: bool, measure: str | None = None,
+          currency: str | None = None) -> Any:
     """One cell of an analysis table as the page shows it (see :func:`frame_table_html`)."""
     if is_missing(value):
         return ""  # blank, not the console's "-": the sorting script reads blank as no number
@@ -156,7 +150,7 @@ def _cell(value: Any, column: str, is_num: bool) -> Any:
         return "yes" if value else "no"
     if is_num and isinstance(value, int | float) and math.isfinite(float(value)):
         v = 0.0 if abs(float(value)) < NEAR_ZERO else float(value)
-        return (v, number_text(v, column))
+        return (v, cell_text(v, column, measure, currency))
     if column.lower() == "status" and isinstance(value, str):
         return plain_status(value)
     return value
@@ -166,13 +160,17 @@ def frame_table_html(frame: pd.DataFrame, name: str, limit: int = 200,
                      currency: str | None = None) -> str:
     """Any analysis table as written, for people: headers in words (money columns' with the
     ``currency``, if any), numbers right-aligned and sortable and written by
-    :func:`number_text` (three decimals), true/false as yes/no and solver statuses in plain
-    words."""
+    :func:`number_text` (three decimals; in a table of measures by each row's measure, money
+    rows with the ``currency``), true/false as yes/no and solver statuses in plain words."""
     columns = [str(c) for c in frame.columns]
     numeric = [pd.api.types.is_numeric_dtype(frame[c]) and not pd.api.types.is_bool_dtype(
         frame[c]) for c in frame.columns]
-    rows = [[_cell(v, c, n) for v, c, n in zip(values, columns, numeric, strict=True)]
-            for values in frame.itertuples(index=False, name=None)]
+    named = measure_names(frame)
+    measures: list[str | None] = [None] * len(frame) if named is None else [*named]
+    rows = [[_cell(v, c, n, m, currency) for v, c, n in zip(values, columns, numeric,
+                                                            strict=True)]
+            for values, m in zip(frame.itertuples(index=False, name=None), measures,
+                                 strict=True)]
     headers = [readable(c) + (f" ({currency})" if currency and is_money(c) else "")
                for c in columns]
     return table_html(headers, rows, name=name, numeric=numeric, limit=limit)

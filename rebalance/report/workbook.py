@@ -20,7 +20,15 @@ import pandas as pd
 
 from rebalance.files import sibling_name
 from rebalance.plan import PLAN_TABLES
-from rebalance.report.console import is_gap, is_money
+from rebalance.report.console import (
+    FTE_TOTAL_DIGITS,
+    cell_text,
+    fte_total_text,
+    is_gap,
+    is_money,
+    measure_names,
+    seconds_text,
+)
 from rebalance.report.html import STATUS_WORDS, new_position_salaries, spare_capacity
 from rebalance.report.htmlparts import NEAR_ZERO, plain_status, stage_words
 from rebalance.report.inputs import ReportData, quality_notes
@@ -29,6 +37,8 @@ __all__ = ["write_workbook"]
 
 MONEY = "#,##0"
 FTE = "#,##0.00"
+# Headline totals of FTE-periods, to the console's and the page's one decimal.
+FTE_TOTAL = "#,##0." + "0" * FTE_TOTAL_DIGITS
 WHOLE = "#,##0"
 SHARE = "0.0%"
 GAP = "0.00%"
@@ -241,6 +251,25 @@ def _plain_number_formats(column: pd.Series, values: list[Any], styles: _Styles)
     return [whole_format if w else decimals for w in whole.tolist()]
 
 
+def _measure_formats(frame: pd.DataFrame, values: list[list[Any]], formats: list[Any],
+                     measures: list[str], styles: _Styles, currency: str | None) -> None:
+    """A table of measures (replan.csv): a row's measure says what its numbers are
+    (total_cost's row is money in old_plan, new_plan and difference alike), not the column's
+    name; and a figure that shows as zero is written as 0, as Excel writes -0.00017 as
+    "-0.000" (the CSV file keeps the exact value)."""
+    money_cell = styles.number(_money_format(currency))
+    for j in range(len(frame.columns)):
+        if not pd.api.types.is_float_dtype(frame.iloc[:, j]):
+            continue
+        plain = formats[j]
+        formats[j] = [money_cell if is_money(m) else
+                      plain[i] if isinstance(plain, list) else plain
+                      for i, m in enumerate(measures)]
+        places = [0 if is_money(m) else 3 for m in measures]
+        values[j] = [0.0 if isinstance(v, float) and round(v, d) == 0 else v
+                     for v, d in zip(values[j], places, strict=True)]
+
+
 def _table_sheet(ws: Any, styles: _Styles, frame: pd.DataFrame,
                  numeric_years: bool = False, currency: str | None = None) -> None:
     columns = [str(c) for c in frame.columns]
@@ -252,6 +281,9 @@ def _table_sheet(ws: Any, styles: _Styles, frame: pd.DataFrame,
     formats = [styles.number(_format_for(c)) if _format_for(c) is not None else
                _plain_number_formats(frame.iloc[:, j], values[j], styles)
                for j, c in enumerate(columns)]
+    measures = measure_names(frame)
+    if measures is not None:
+        _measure_formats(frame, values, formats, measures, styles, currency)
     for j, column in enumerate(columns):
         if column == "year":
             values[j] = [_year_cell(v, numeric_years) for v in values[j]]
@@ -270,6 +302,14 @@ def _table_sheet(ws: Any, styles: _Styles, frame: pd.DataFrame,
     if columns:
         ws.autofilter(0, 0, len(frame), len(columns) - 1)
     _fit_widths(ws, columns, frame, headers)
+    if measures is not None:
+        # Wide enough for a money row's "2,463,500 EUR", which the column's name cannot tell.
+        for j, column in enumerate(columns):
+            if pd.api.types.is_float_dtype(frame.iloc[:, j]):
+                texts = [cell_text(v, column, m, currency) for v, m in zip(
+                    values[j], measures, strict=True) if isinstance(v, int | float)]
+                width = max([len(headers[j]), *(len(t) for t in texts)])
+                ws.set_column(j, j, min(max(width + 2, 9), 48))
 
 
 def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequence[str],
@@ -305,10 +345,11 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
             ws.write_string(next(rows), 0, text, styles.warning)
     band("Headline")
     line("outcome", STATUS_WORDS.get(run.status, (plain_status(run.status), ""))[0])
-    line("weighted shortfall (FTE-periods)", plan.weighted_shortfall, FTE)
-    line("shortfall (FTE-periods, unweighted)", plan.shortfall_fte, FTE)
+    # Headline totals to one decimal, as the console's summary and the page's cards.
+    line("weighted shortfall (FTE-periods)", plan.weighted_shortfall, FTE_TOTAL)
+    line("shortfall (FTE-periods, unweighted)", plan.shortfall_fte, FTE_TOTAL)
     line("share of demand not covered", plan.shortfall_fte / demand if demand else 0.0, SHARE,
-         f"of {demand:,.1f} FTE-periods demanded")
+         f"of {fte_total_text(demand)} FTE-periods demanded")
     cash = _money_format(instance.money.currency)
     line("new money, all years", plan.total_cost, cash,
          f"{instance.periods[0].name} to {instance.periods[-1].name}")
@@ -320,11 +361,14 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
          f"{positions} new positions x salary per period x {instance.periods_per_year} "
          "periods a year")
     spare = spare_capacity(data)
-    line("capacity beyond demand (FTE-periods)",
-         float(spare["spare_fte"].sum()) if len(spare) else 0.0, FTE,
-         "output beyond its office's and skill's demand: covers nothing in this plan")
-    line("time with no work (FTE-periods)",
-         float(spare["unassigned_fte"].sum()) if len(spare) else 0.0, FTE,
+    beyond = float(spare["spare_fte"].sum()) if len(spare) else 0.0
+    no_work = float(spare["unassigned_fte"].sum()) if len(spare) else 0.0
+    # One meaning per label, as on the page: idle capacity is both parts below it.
+    line("idle capacity (FTE-periods)", beyond + no_work, FTE_TOTAL,
+         "output beyond demand plus time with no work: covers nothing in this plan")
+    line("output beyond demand (FTE-periods)", beyond, FTE_TOTAL,
+         "output beyond its office's and skill's demand")
+    line("time with no work (FTE-periods)", no_work, FTE_TOTAL,
          "available time of people the plan gives no work where they are")
     line("people hired", plan.hires_count(), WHOLE)
     line("detail periods", len(plan.details), WHOLE,
@@ -355,12 +399,12 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
             ws.write(row, col, "no cap" if value is None else value, money)
 
     if len(spare):
-        band("Capacity beyond demand (FTE-periods)")
+        band("Idle capacity (FTE-periods)")
         header_row = next(rows)
         for col, text in enumerate(["office", "demand", "output", "shortfall",
-                                    "beyond demand", "time with no work"]):
+                                    "output beyond demand", "time with no work"]):
             ws.write_string(header_row, col, text, styles.header)
-        fte = styles.number(FTE)
+        fte = styles.number(FTE_TOTAL)  # as the page's table of it
         figures = spare[["demand_fte", "output_fte", "shortfall_fte", "spare_fte",
                          "unassigned_fte"]].to_numpy(dtype=float)
         offices = [*(str(o) for o in spare["office"]), "all offices"]
@@ -376,10 +420,13 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
     line("largest stage gap at stop", run.gap, GAP)
     for stage in run.stages:
         if stage.name != "build":
-            line(f"{stage.name} stage", stage_words(stage, instance.money.currency))
+            line(f"{stage.name} stage", stage_words(stage, instance.money.currency,
+                                                    replan=run.replan is not None))
     line("model size", f"{run.model_columns or 0:,} columns ({run.model_integer_columns or 0:,} "
          f"integer) x {run.model_rows or 0:,} rows")
-    line("solve seconds", run.solve_seconds, "0.0")
+    # As text, as the page writes it: one rounding of the stored seconds (56.65, not 56.6).
+    line("build / solve seconds", " / ".join(
+        "-" if v is None else seconds_text(v) for v in (run.build_seconds, run.solve_seconds)))
     line("independent verification", {True: "passed", False: "FAILED", None: "unknown"}[
         run.verified])
     for warning in run.warnings:

@@ -125,7 +125,7 @@ def test_reasons_name_periods_not_indexes_and_single_periods_plainly(tiny) -> No
     # index, off by one for a reader), "2027-Q3..2027-Q3", and a run of one period said to be
     # cut by the limit on periods in a row.
     use = LimitUse("time_to_hire", "review", "2027-Q1", 0.0, 1.0, True)
-    assert "no hire starts before 2027-Q2" in _describe(use, tiny.period_names)
+    assert "no hire starts before 2027-Q2" in _describe(use, tiny)
     table = reasons(tiny, solve_verified(tiny).plan).table
     a2 = table[(table.action == "detail") & (table.subject == "a2")].iloc[0]["reason"]
     assert "in 2027-Q4:" in a2 and ".." not in a2 and "in a row" not in a2
@@ -177,3 +177,27 @@ def test_a_hire_that_starts_before_its_gap_says_why(tiny) -> None:
     assert text.endswith("it starts in 2027-Q2 to be further into its ramp-up when the gap "
                          "opens in 2027-Q3 (60% of full output there, against 50% had it "
                          "started then)")
+
+
+def test_money_in_reasons_carries_the_currency_where_one_is_set(tiny) -> None:
+    # A practitioner's reading: "held back by hiring budget 2027 (515,000 of 520,000 spent)"
+    # with the currency set in settings.toml.
+    from rebalance.instance import Money
+
+    use = LimitUse("hiring_budget", "2027", "", 515_000.0, 520_000.0, True)
+    assert _describe(use, tiny) == "hiring budget 2027 (515,000 of 520,000 spent)"
+    euros = tiny.with_changes(money=Money("EUR"))
+    assert _describe(use, euros) == "hiring budget 2027 (515,000 EUR of 520,000 EUR spent)"
+
+
+def test_a_hire_reason_says_its_gap_counts_people_detailed_in(tiny) -> None:
+    # The hire reason measures demand against the output of everyone working at the office,
+    # people detailed in included (coverage's staff_output_fte); the detail reason against
+    # the office's own staff and hires.  "its staff's output" had read as the second.
+    table = reasons(tiny, solve_verified(tiny).plan).table
+    hire = table[table.action == "hire"].iloc[0]["reason"]
+    assert "its staff's output" not in hire
+    assert "output of the staff working there (people detailed in included, hires not)" in hire
+    details = table[table.action == "detail"]["reason"].tolist()
+    assert details and all("own staff and hires cover (people detailed in left out)" in d
+                           for d in details)

@@ -157,27 +157,27 @@ def test_rebalance_replan_writes_a_page_that_names_its_period(tmp_path):
 
 
 def test_a_step_is_written_with_its_unit_as_people_write_it():
-    from rebalance.report.analysis_view import _step_words
+    from rebalance.report.analysis_view import step_words
 
-    assert _step_words(1_000_000.0, "money") == "+1,000,000 money"  # not +1e+06
-    assert _step_words(0.05, "share of people") == "+0.05 share of people"
-    assert _step_words(-1.0, "periods") == "-1 period"
-    assert _step_words(1.0, "hires per period") == "+1 hire per period"
-    assert _step_words(1.0, "vacancies") == "+1 vacancy"
-    assert _step_words(100_000.0, "money", "EUR") == "+100,000 EUR"
+    assert step_words(1_000_000.0, "money") == "+1,000,000 money"  # not +1e+06
+    assert step_words(0.05, "share of people") == "+0.05 share of people"
+    assert step_words(-1.0, "periods") == "-1 period"
+    assert step_words(1.0, "hires per period") == "+1 hire per period"
+    assert step_words(1.0, "vacancies") == "+1 vacancy"
+    assert step_words(100_000.0, "money", "EUR") == "+100,000 EUR"
     # marginal_values.csv written for an instance with a currency says it in its unit column
-    assert _step_words(100_000.0, "EUR", "EUR") == "+100,000 EUR"
-    assert _step_words(1.0, "EUR") == "+1 EUR"
+    assert step_words(100_000.0, "EUR", "EUR") == "+100,000 EUR"
+    assert step_words(1.0, "EUR") == "+1 EUR"
 
 
 def test_a_unit_s_singular_is_given_not_guessed_and_every_limit_kind_has_one():
     from rebalance.analysis.marginal import STEP_UNITS  # marginal.py writes the units
-    from rebalance.report.analysis_view import _step_words
+    from rebalance.report.analysis_view import step_words
 
     # The singular had been derived by cutting letters; a unit the table's writer adds later
     # is now kept as written rather than guessed at.
-    assert _step_words(1.0, "share of people") == "+1 share of people"
-    assert _step_words(1.0, "boxes") == "+1 boxes"  # unknown: kept as written
+    assert step_words(1.0, "share of people") == "+1 share of people"
+    assert step_words(1.0, "boxes") == "+1 boxes"  # unknown: kept as written
     table = demo_marginal_table()
     for limit, unit in zip(table["limit"], table["unit"], strict=True):
         assert STEP_UNITS[limit].plural == unit, limit

@@ -54,7 +54,7 @@ def test_output_beyond_demand_is_shown_per_office_with_a_total():
     table = page[page.index('data-table="spare"'):]
     table = table[:table.index("</table>")]
     assert "<tfoot>" in table and "all offices" in table.split("<tfoot>")[1]
-    assert "Capacity beyond demand" in page_text(page)
+    assert "Idle capacity" in page_text(page)
 
 
 def test_time_with_no_work_counts_people_the_plan_leaves_idle():
@@ -127,7 +127,7 @@ def test_salaries_new_positions_commit_beyond_the_horizon(tmp_path):
     assert expected == 80_000  # one new review position, 20,000 a quarter
     assert new_position_salaries(data)["per_year"].sum() == pytest.approx(expected)
     text = page_text(render_html(data))
-    assert "Salaries after the horizon 80k a year, every year after 2027-Q4" in text
+    assert "Salaries after the horizon 80,000 a year, every year after 2027-Q4" in text
     assert "80,000 a year in salaries" in text
     sheet = load_workbook(write_workbook(data, tmp_path / "plan.xlsx"))["summary"]
     values = {row[0]: row[1] for row in sheet.iter_rows(values_only=True) if row[0]}

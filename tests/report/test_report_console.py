@@ -19,7 +19,7 @@ def test_a_cost_stage_stopped_early_says_how_much_cheaper_a_plan_might_be():
 def test_a_shortfall_stage_stopped_early_says_how_much_less_short_a_plan_might_be():
     text = room_left(stage("shortfall", Status.FEASIBLE_WITH_GAP, 1808.47, 1528.95,
                             279.52 / 1808.47))
-    assert text is not None and "up to 280 weighted FTE-periods less shortfall" in text
+    assert text is not None and "up to 279.520 weighted FTE-periods less shortfall" in text
 
 
 def test_a_proven_stage_leaves_nothing_open():

@@ -72,8 +72,8 @@ def test_the_page_shows_the_currency_in_money_columns_cards_chart_and_costs():
     assert _headers(page, "commitments")[2:] == ["salary per period (EUR)",
                                                  "salary a year (EUR)"]
     words = page_text(page)
-    assert "New money 43k EUR" in words
-    assert "Salaries after the horizon 80k EUR a year" in words
+    assert "New money 43,000 EUR" in words
+    assert "Salaries after the horizon 80,000 EUR a year" in words
     assert "80,000 EUR a year in salaries" in words
     assert "All bars share one scale, in EUR." in words
     # The budget chart's axis is drawn by the script; its caption names the currency.
@@ -92,7 +92,7 @@ def test_a_currency_is_escaped_on_the_page():
     result = _tiny(None)
     instance = result.instance.with_changes(money=Money("<b>"))
     page = render_html(report_data(replace(result, instance=instance)))
-    assert "43k &lt;b&gt;" in page and "(&lt;b&gt;)" in page
+    assert "43,000 &lt;b&gt;" in page and "(&lt;b&gt;)" in page
     assert "(<b>)" not in page and "k <b>" not in page
 
 

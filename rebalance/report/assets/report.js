@@ -48,6 +48,17 @@
     if (Math.abs(v) >= 1e4) { return fmt(v); }
     return (Math.round(v * 100) / 100).toLocaleString("en");
   }
+  // A share as console.share_text writes it: never 100% unless it is (298,500 of 300,000
+  // had read 100%), never 0% when something was spent.
+  function share(part, whole) {
+    if (!whole) { return "-"; }
+    var p = 100 * part / whole, text = Math.round(p) + "%";
+    if (text === "100%" && p !== 100) {
+      return (p < 100 ? Math.min(p, 99.9) : Math.max(p, 100.1)).toFixed(1) + "%";
+    }
+    if (text === "0%" && p > 0) { return p >= 0.05 ? p.toFixed(1) + "%" : "under 0.1%"; }
+    return text;
+  }
   function ticks(max, count, whole) {
     if (!(max > 0)) { return [0, 1]; }
     var raw = max / count, mag = Math.pow(10, Math.floor(Math.log10(raw)));
@@ -356,7 +367,7 @@
           "data-tip": r.year + " " + r.kind + " cap: " + Math.round(r.cap).toLocaleString("en") }, g);
       }
       var words = tick(r.spend) + (r.cap === null ? " spent, no cap" :
-        " of " + tick(r.cap) + " (" + Math.round(100 * r.spend / (r.cap || 1)) + "% used)");
+        " of " + tick(r.cap) + " (" + share(r.spend, r.cap) + " used)");
       label(g, lw + bw + 14, yy + 18, words, over ? { style: "fill:" + C.short } : {});
       marks++;
     });
@@ -495,7 +506,7 @@
     var measured = (d.value_label || "value").replace(/_/g, " ");
     legend(box, [{ color: C.move, text: measured + ", measured by a re-solve (value after the bar)" }]
       .concat(any ? [{ color: C.ink, text: (d.estimate_label || "estimate").replace(/_/g, " ") +
-        ", a linear estimate (value in brackets)", line: true }] : []));
+        ", an estimate from the relaxed LP (value in brackets)", line: true }] : []));
     return hbars(box, d.rows.map(function (r) { return r.label; }),
       d.rows.map(function (r) { return r.value; }), d.title || measured, C.move, 900,
       any ? estimates : null, d.rows.map(function (r) { return r.tip || r.label; }));

@@ -13,6 +13,8 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any, Literal, NoReturn
 
+from rebalance.numbers import money_header, with_currency
+
 ObjectiveMode = Literal["shortfall-first", "weighted"]
 SolverName = Literal["highs", "cbc"]
 
@@ -135,11 +137,11 @@ class Money:
 
     def amount(self, text: str) -> str:
         """An amount already written as text, with its currency after it (``43,000 EUR``)."""
-        return f"{text} {self.currency}" if self.currency else text
+        return with_currency(text, self.currency)
 
     def header(self, words: str) -> str:
         """A column or axis name for money, with its currency (``cost (EUR)``)."""
-        return f"{words} ({self.currency})" if self.currency else words
+        return money_header(words, self.currency)
 
 
 class FrozenMap(dict[Any, Any]):

@@ -15,6 +15,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from rebalance.instance import Instance
+from rebalance.numbers import money_text
 from rebalance.plan import COST_KINDS, PLAN_TABLES, Plan, read_plan, records
 
 __all__ = ["Violation", "unknown_names", "verify_folder", "verify_plan"]
@@ -43,7 +44,7 @@ def _amounts(instance: Instance, *values: float) -> list[str]:
     """Amounts of money as the reports write them (whole units with separators, the
     instance's currency after them), to the cent where whole units would make two of them
     read the same: a mismatch must not read as none ("cost 1,500 but 1,500 applies")."""
-    whole = [f"{round(float(v)):,d}" for v in values]
+    whole = [money_text(v) for v in values]
     if len(set(whole)) < len(whole):
         whole = [f"{float(v) + 0.0:,.2f}" for v in values]
     return [instance.money.amount(text) for text in whole]

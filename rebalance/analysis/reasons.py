@@ -18,6 +18,7 @@ import pandas as pd
 
 from rebalance.analysis.limits import LimitUse, hire_rows, limit_use
 from rebalance.instance import Instance
+from rebalance.numbers import money_amount
 from rebalance.plan import Plan
 
 __all__ = ["REASON_COLUMNS", "Reasons", "limit_key", "reasons"]
@@ -41,7 +42,7 @@ def limit_key(use: LimitUse) -> str:
 
 def _money(instance: Instance, value: float) -> str:
     """An amount as the reports write it: whole units, separators, the currency if set."""
-    return instance.money.amount(f"{round(value):,d}")
+    return money_amount(value, instance.money.currency)
 
 
 def _describe(use: LimitUse, instance: Instance) -> str:

@@ -18,7 +18,7 @@ from typing import Any
 import pandas as pd
 
 from rebalance.analysis.marginal import STEP_UNITS
-from rebalance.report.console import is_money, money_text
+from rebalance.numbers import column_header, money_amount, money_header
 from rebalance.report.htmlparts import chart, e, frame_table_html, section
 from rebalance.report.inputs import SHEET_ONLY, ReportData
 
@@ -111,8 +111,8 @@ def _frontier(frame: pd.DataFrame, currency: str | None = None) -> dict[str, Any
         # budget_unit says "money, each year" or "times each year's cap" (a factor grid).
         units = frame["budget_unit"].astype(str) if "budget_unit" in frame.columns else None
         if units is None or units.str.startswith("money").all():
-            x_label = f"{x} ({currency})"
-        cost_label = f"{cost} ({currency})" if cost else None
+            x_label = money_header(x, currency)
+        cost_label = money_header(cost, currency) if cost else None
     return {"x_label": x_label, "y_label": y, "cost_label": cost_label, "series": series}
 
 
@@ -136,7 +136,7 @@ def _scenarios(frame: pd.DataFrame, currency: str | None = None) -> dict[str, An
     if not chosen:
         return None
     return {"labels": [str(v) for v in frame[label].tolist()],
-            "metrics": [{"name": f"{c} ({currency})" if currency and is_money(c) else c,
+            "metrics": [{"name": column_header(c, currency),
                          "values": _finite(frame[c].tolist())} for c in chosen]}
 
 
@@ -485,18 +485,18 @@ def _disruption_note(data: ReportData) -> str:
     if disruption is None and changes is not None and "disruption_cost" in changes.columns:
         disruption = float(pd.to_numeric(changes["disruption_cost"], errors="coerce").sum())
     name = stage.name if stage is not None else "cost"
-    amount = data.instance.money.amount
+    currency = data.instance.money.currency
     where = ('the <a href="#run">How it was found</a> section\'s stage table (and the Plan '
              "quality card)")
     figures = ""
     if disruption is not None:
-        figures = f" Disruption cost of this re-plan: {amount(money_text(disruption))}."
+        figures = f" Disruption cost of this re-plan: {money_amount(disruption, currency)}."
         objective = stage.objective if stage is not None else None
         if (name == "cost" and objective is not None and total is not None
                 and abs(objective - total - disruption) <= 0.5 + 1e-9 * abs(objective)):
-            figures = (f" Here: cost stage objective {amount(money_text(objective))} = total "
-                       f"cost {amount(money_text(total))} + disruption cost "
-                       f"{amount(money_text(disruption))}.")
+            figures = (f" Here: cost stage objective {money_amount(objective, currency)} = "
+                       f"total cost {money_amount(total, currency)} + disruption cost "
+                       f"{money_amount(disruption, currency)}.")
     return (f'<p class="note">The {e(name)} stage\'s objective in {where} includes the '
             "disruption cost of the changes (the sum of changes.csv's "
             "<code>disruption_cost</code>), which the re-plan weighed to stay near the old "

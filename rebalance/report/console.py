@@ -9,30 +9,30 @@ import numpy as np
 import pandas as pd
 
 from rebalance.instance import Instance
+from rebalance.numbers import (
+    column_header,
+    fte_total_text,
+    is_money,
+    money_amount,
+    money_text,
+    number_text,
+    seconds_text,
+    with_currency,
+)
 from rebalance.planning import BUILD_STAGE, CAUTION, PlanResult
 from rebalance.solve import StageResult, Status
 from rebalance.verify import Violation
 
 __all__ = [
     "MEASURE_COLUMN",
-    "MONEY_WORDS",
-    "NEAR_ZERO",
     "cell_text",
     "format_check",
     "format_frame",
     "format_outcome",
     "format_summary",
     "format_violations",
-    "fte_total_text",
-    "is_gap",
-    "is_money",
     "measure_names",
-    "money_amount",
-    "money_text",
-    "number_text",
     "room_left",
-    "seconds_text",
-    "share_text",
     "stage_value",
 ]
 
@@ -46,88 +46,8 @@ STATUS_WORDS = {
 }
 
 
-# --------------------------------------------------------------------------------------------
-# numbers as people write them: one rule for the console and the page (htmlparts imports it)
-
-# Values this close to zero are rounding left over from the solver: shown as 0.
-NEAR_ZERO = 1e-9
-# Columns holding money (shown in whole units): names as in the CSV files.  Not "budget": a
-# frontier's budget columns may hold factors of each year's cap (its budget_unit says which).
-MONEY_WORDS = ("cost", "spend", "salary")
-
-
-def is_gap(column: str) -> bool:
-    """A column holding a relative gap (``gap``, ``stage_gap``, ``gap_at_stop``)."""
-    name = column.lower()
-    return name == "gap" or name.endswith("_gap") or name.startswith("gap_")
-
-
-def is_money(column: str) -> bool:
-    return any(word in column.lower() for word in MONEY_WORDS)
-
-
-def money_text(value: float) -> str:
-    """An amount of money in whole units with separators (cents are noise in a plan)."""
-    v = float(value)
-    if not math.isfinite(v):
-        return f"{v:,.0f}"
-    # round() gives an int, which has no "-0" (-0.00017 of solver dust had shown as "-0").
-    return f"{round(v):,d}"
-
-
-def money_amount(value: float, currency: str | None = None) -> str:
-    """:func:`money_text` with the ``currency`` after it, where there is one."""
-    return money_text(value) + (f" {currency}" if currency else "")
-
-
-# Totals of FTE-periods in headlines (console summary, page cards, workbook summary): one
-# decimal everywhere, so 168.592 / 168.6 / 168.59 of one figure read as one figure.
-FTE_TOTAL_DIGITS = 1
-
-
-def fte_total_text(value: float) -> str:
-    """A headline total of FTE-periods: :data:`FTE_TOTAL_DIGITS` decimals, no "-0"."""
-    v = float(value)
-    return f"{(0.0 if abs(v) < NEAR_ZERO else v) + 0.0:,.{FTE_TOTAL_DIGITS}f}"
-
-
-def seconds_text(value: float) -> str:
-    """Seconds with two decimals, rounded first to the three that summary.json stores: the
-    console (which has the exact value) and the page (which reads the stored one) had shown
-    0.03 and 0.04 for one build."""
-    return f"{round(float(value), 3):,.2f}"
-
-
-def share_text(part: float, whole: float) -> str:
-    """``part`` as a percentage of ``whole``, one decimal where a whole percent would read
-    as 100% or 0% without being it: 298,500 of 300,000 is 99.5%, not 100%."""
-    if not whole:
-        return "-"
-    share = 100.0 * part / whole
-    text = f"{share:.0f}%"
-    if text == "100%" and share != 100.0:
-        # Kept off 100, so 99.96% reads 99.9% and 100.04% reads 100.1%.
-        return f"{min(share, 99.9) if share < 100.0 else max(share, 100.1):.1f}%"
-    if text == "0%" and share > 0.0:
-        return f"{share:.1f}%" if share >= 0.05 else "under 0.1%"
-    return text
-
-
-def number_text(value: float, column: str = "", *, digits: int = 3) -> str:
-    """A number as a reader wants it: solver dust such as 4.4e-16 as 0, gaps as percentages,
-    money and whole numbers without decimals (so also anything from 1,000 up, where decimals
-    are noise), ``digits`` decimals otherwise.  ``column`` is the table column's name, which
-    says whether it holds a gap or money."""
-    v = float(value)
-    if abs(v) < NEAR_ZERO:
-        v = 0.0
-    if is_gap(column):
-        return f"{v:.2%}"
-    if is_money(column) or v.is_integer() or abs(v) >= 1000:
-        return money_text(v)
-    text = f"{v + 0.0:,.{digits}f}"
-    # No "-0.000": -0.00017 rounds to nothing, and a sign on nothing reads as a loss.
-    return text[1:] if text.startswith("-") and not text.strip("-0.,") else text
+# Numbers are written by rebalance.numbers (one rule for every surface); what a table cell is
+# (a flag, a missing value, a measure's row) is the console's and the page's concern, here.
 
 
 def is_flag(value: object) -> bool:
@@ -184,7 +104,7 @@ def format_summary(result: PlanResult) -> str:
             f"({fte_total_text(plan.shortfall_fte)} unweighted, "
             f"{plan.shortfall_fte / demand:.1%} of {fte_total_text(demand)} demanded)"
             if demand else "  no demand",
-            f"  total cost           {money.amount(money_text(plan.total_cost))}",
+            f"  total cost           {money_amount(plan.total_cost, money.currency)}",
             f"  hires                {plan.hires_count()}",
             f"  detail periods       {len(plan.details)} "
             f"({plan.details['person'].nunique()} people)",
@@ -335,7 +255,7 @@ def cell_text(value: float, column: str, measure: str | None = None,
     if measure is None:
         return number_text(value, column, digits=digits)
     text = number_text(value, measure, digits=digits)
-    return f"{text} {currency}" if currency and is_money(measure) else text
+    return with_currency(text, currency) if is_money(measure) else text
 
 
 def format_frame(frame: pd.DataFrame, currency: str | None = None) -> str:
@@ -359,7 +279,7 @@ def format_frame(frame: pd.DataFrame, currency: str | None = None) -> str:
     measures: list[str | None] = [None] * len(frame) if named is None else [*named]
     rows = [[cell(c, v, m) for c, v in zip(columns, values, strict=True)]
             for values, m in zip(frame.itertuples(index=False), measures, strict=True)]
-    headers = [f"{c} ({currency})" if currency and is_money(c) else c for c in columns]
+    headers = [column_header(c, currency) for c in columns]
     return "\n".join(_table(headers, rows))
 
 

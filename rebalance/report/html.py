@@ -19,21 +19,22 @@ from typing import Any
 
 import pandas as pd
 
-from rebalance.planning import BUILD_STAGE
-from rebalance.report import analysis_view
-from rebalance.report.console import (
+from rebalance.numbers import (
+    NEAR_ZERO,
+    dust_free,
     fte_total_text,
     money_amount,
+    money_text,
     seconds_text,
     share_text,
-    stage_value,
 )
+from rebalance.planning import BUILD_STAGE
+from rebalance.report import analysis_view
+from rebalance.report.console import stage_value
 from rebalance.report.htmlparts import (
-    NEAR_ZERO,
     card,
     chart,
     e,
-    money,
     num,
     plain_status,
     section,
@@ -63,7 +64,7 @@ def _records(frame: pd.DataFrame) -> list[dict[str, Any]]:
 
 def _m(value: float) -> tuple[float, str]:
     """A money cell: raw value to sort by, whole units to show."""
-    return float(value), money(float(value))
+    return float(value), money_text(float(value))
 
 
 def _asset(name: str) -> str:
@@ -288,7 +289,7 @@ def _headline(data: ReportData) -> str:
     uncapped = any(c is None for c in caps) or len(data.instance.budgets) < len(
         data.instance.years)
     money_note = ("no caps set" if cap_total == 0 else
-                  f"of {money(cap_total)} allowed" + (" (some lines uncapped)"
+                  f"of {money_text(cap_total)} allowed" + (" (some lines uncapped)"
                                                       if uncapped else ""))
     money_note += f", {data.instance.periods[0].name} to {data.instance.periods[-1].name}"
     people = plan.details["person"].nunique() if len(plan.details) else 0
@@ -365,7 +366,7 @@ def _spare_table(data: ReportData) -> str:
 
 def _f(value: float, digits: int = 1) -> tuple[float, str]:
     """An FTE cell: raw value to sort by, rounded to show (solver dust as 0)."""
-    v = 0.0 if abs(float(value)) < NEAR_ZERO else float(value)
+    v = dust_free(value)
     return v, num(v + 0.0, digits)
 
 
@@ -498,7 +499,7 @@ def render_html(data: ReportData) -> str:
             numeric=[False, False, False, True, False, True, True, True], limit=TABLE_ROWS)
             if hires else "")))  # the chart already says there are none
     cost_rows = [[r["year"], r["kind"], _m(r["spend"]),
-                  (r["cap"], money(r["cap"])) if r["cap"] is not None else (1e300, "no cap"),
+                  (r["cap"], money_text(r["cap"])) if r["cap"] is not None else (1e300, "no cap"),
                   _share(r["spend"], r["cap"]) if r["cap"] else (0, "-")]
                  for r in payload["budget"]]
     sections.append(section(
@@ -559,12 +560,13 @@ def _commitments(data: ReportData) -> str:
                 "horizon.</p>")
     inst = data.instance
     total = float(table["per_year"].sum())
+    per_year = money_amount(total, inst.money.currency)
     positions = int(table["positions"].sum())
     rows = [[r["skill"], int(r["positions"]), _m(r["salary_per_period"]), _m(r["per_year"])]
             for r in _records(table)]
     return (f"<h3>Committed beyond the horizon</h3><p class=\"lead\">The {positions:,} new "
             f"position{'' if positions == 1 else 's'} this plan creates keep being paid after "
-            f"{e(inst.periods[-1].name)}: <strong>{e(inst.money.amount(money(total)))} a year"
+            f"{e(inst.periods[-1].name)}: <strong>{e(per_year)} a year"
             "</strong> in salaries "
             f"(positions &times; salary per period &times; {inst.periods_per_year} periods a "
             "year), on top of the new money above, which stops at the horizon's end.</p>"

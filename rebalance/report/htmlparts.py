@@ -11,21 +11,12 @@ from typing import Any, Protocol
 
 import pandas as pd
 
-from rebalance.report.console import (
-    NEAR_ZERO,
-    cell_text,
-    is_flag,
-    is_missing,
-    is_money,
-    measure_names,
-    money_text,
-    number_text,
-    room_left,
-)
+from rebalance.numbers import dust_free, is_money, money_header
+from rebalance.report.console import cell_text, is_flag, is_missing, measure_names, room_left
 from rebalance.solve import StageResult, Status
 
-__all__ = ["NEAR_ZERO", "PLAIN_STATUS", "card", "chart", "e", "frame_table_html", "money", "num",
-           "number_text", "plain_status", "readable", "section", "stage_words", "table_html"]
+__all__ = ["PLAIN_STATUS", "card", "chart", "e", "frame_table_html", "num", "plain_status",
+           "readable", "section", "stage_words", "table_html"]
 
 # Solver outcomes in plain words, for the page and the workbook (never the raw status word).
 PLAIN_STATUS = {
@@ -45,11 +36,6 @@ def e(value: object) -> str:
 
 def num(value: float, digits: int = 1) -> str:
     return f"{value:,.{digits}f}"
-
-
-# Numbers are written by the console's rule (report/console.py), so a figure reads the same
-# on the page as in the terminal.
-money = money_text
 
 
 def plain_status(status: str) -> str:
@@ -149,7 +135,7 @@ def _cell(value: Any, column: str, is_num: bool, measure: str | None = None,
     if is_flag(value):
         return "yes" if value else "no"
     if is_num and isinstance(value, int | float) and math.isfinite(float(value)):
-        v = 0.0 if abs(float(value)) < NEAR_ZERO else float(value)
+        v = dust_free(value)
         return (v, cell_text(v, column, measure, currency))
     if column.lower() == "status" and isinstance(value, str):
         return plain_status(value)
@@ -160,8 +146,9 @@ def frame_table_html(frame: pd.DataFrame, name: str, limit: int = 200,
                      currency: str | None = None) -> str:
     """Any analysis table as written, for people: headers in words (money columns' with the
     ``currency``, if any), numbers right-aligned and sortable and written by
-    :func:`number_text` (three decimals; in a table of measures by each row's measure, money
-    rows with the ``currency``), true/false as yes/no and solver statuses in plain words."""
+    :func:`rebalance.numbers.number_text` (three decimals; in a table of measures by each
+    row's measure, money rows with the ``currency``), true/false as yes/no and solver statuses
+    in plain words."""
     columns = [str(c) for c in frame.columns]
     numeric = [pd.api.types.is_numeric_dtype(frame[c]) and not pd.api.types.is_bool_dtype(
         frame[c]) for c in frame.columns]
@@ -171,7 +158,7 @@ def frame_table_html(frame: pd.DataFrame, name: str, limit: int = 200,
                                                             strict=True)]
             for values, m in zip(frame.itertuples(index=False, name=None), measures,
                                  strict=True)]
-    headers = [readable(c) + (f" ({currency})" if currency and is_money(c) else "")
+    headers = [money_header(readable(c), currency) if is_money(c) else readable(c)
                for c in columns]
     return table_html(headers, rows, name=name, numeric=numeric, limit=limit)
 

@@ -19,18 +19,21 @@ import numpy as np
 import pandas as pd
 
 from rebalance.files import sibling_name
-from rebalance.plan import PLAN_TABLES
-from rebalance.report.console import (
+from rebalance.numbers import (
     FTE_TOTAL_DIGITS,
-    cell_text,
+    NEAR_ZERO,
+    column_header,
+    dust_free,
     fte_total_text,
     is_gap,
     is_money,
-    measure_names,
+    money_text,
     seconds_text,
 )
+from rebalance.plan import PLAN_TABLES
+from rebalance.report.console import cell_text, measure_names
 from rebalance.report.html import STATUS_WORDS, new_position_salaries, spare_capacity
-from rebalance.report.htmlparts import NEAR_ZERO, plain_status, stage_words
+from rebalance.report.htmlparts import plain_status, stage_words
 from rebalance.report.inputs import ReportData, quality_notes
 
 __all__ = ["write_workbook"]
@@ -70,7 +73,7 @@ SHEET_NOTES = {
 
 
 def _format_for(column: str) -> str | None:
-    # Gaps and money by the console's rule (report/console.py), so a column is money in the
+    # Gaps and money by the one rule (rebalance/numbers.py), so a column is money in the
     # workbook exactly where it is on the page and in the terminal.  A frontier's budget
     # columns are not: they may hold factors of each year's cap, which whole units showed
     # as 1 for 0.5; they take the plain formats, whole or three places.
@@ -227,7 +230,7 @@ def _fit_widths(ws: Any, columns: Sequence[str], frame: pd.DataFrame | None = No
             sample = frame[column].head(500)
             fmt = _format_for(str(column))
             if fmt in (MONEY, WHOLE) and pd.api.types.is_numeric_dtype(sample):
-                width = max(width, len(f"{sample.abs().max():,.0f}") + 1)
+                width = max(width, len(money_text(sample.abs().max())) + 1)
             elif fmt == FTE and pd.api.types.is_numeric_dtype(sample):
                 width = max(width, len(f"{sample.abs().max():,.2f}") + 1)
             else:
@@ -274,7 +277,7 @@ def _table_sheet(ws: Any, styles: _Styles, frame: pd.DataFrame,
                  numeric_years: bool = False, currency: str | None = None) -> None:
     columns = [str(c) for c in frame.columns]
     # Money columns' names carry the currency, as on the page (``cost (EUR)``).
-    headers = [f"{c} ({currency})" if currency and is_money(c) else c for c in columns]
+    headers = [column_header(c, currency) for c in columns]
     for j, header in enumerate(headers):
         ws.write_string(0, j, header, styles.header)
     values = [_column_values(frame.iloc[:, j]) for j in range(len(columns))]
@@ -412,7 +415,7 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
             row = next(rows)
             ws.write_string(row, 0, office, styles.bold if office == "all offices" else None)
             for col, value in enumerate(values.tolist(), 1):
-                ws.write_number(row, col, 0.0 if abs(value) < NEAR_ZERO else value, fte)
+                ws.write_number(row, col, dust_free(value), fte)
 
     band("How the plan was found")
     line("solver", run.solver_version or run.solver)

@@ -30,10 +30,10 @@ def test_gaps_money_counts_flags_and_missing_values_read_plainly() -> None:
 def test_the_console_and_the_page_write_numbers_by_one_rule():
     # Two rules had drifted: the page wrote solver dust as 0 and 1,234.6 as 1,235 while the
     # console wrote 0.00 and 1,234.60; the page wrote a cost of 123.456 with decimals.
-    from rebalance.report import htmlparts
-    from rebalance.report.console import number_text
+    from rebalance.numbers import number_text
+    from rebalance.report import console, htmlparts
 
-    assert htmlparts.number_text is number_text
+    assert console.number_text is number_text  # the console's rule is rebalance.numbers'
     frame = pd.DataFrame({"shortfall_reduction": [4.4e-16, 1234.6, -1e-12],
                           "total_cost": [123.456, 2.0, 0.4], "stage_gap": [0.5, 0.0, 0.01]})
     rows = [line.split() for line in format_frame(frame).splitlines()[2:]]

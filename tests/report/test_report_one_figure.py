@@ -18,16 +18,9 @@ from report_cases import TINY, page_text
 
 from rebalance import read_instance
 from rebalance.instance import Money
+from rebalance.numbers import fte_total_text, seconds_text, share_text
 from rebalance.planning import PlanResult
-from rebalance.report.console import (
-    format_frame,
-    format_outcome,
-    format_summary,
-    fte_total_text,
-    room_left,
-    seconds_text,
-    share_text,
-)
+from rebalance.report.console import format_frame, format_outcome, format_summary, room_left
 from rebalance.report.html import render_html, spare_capacity
 from rebalance.report.htmlparts import frame_table_html, stage_words
 from rebalance.report.inputs import ReplanSummary, report_data

@@ -1,0 +1,240 @@
+"""The old plan against the current data, before any model is built.
+
+A re-plan carries the old plan's past into the model as it happened: details, reassignments
+and work before the re-plan period, and hires whose recruitment has begun.  Whatever of it the
+data now rule out, names someone or some period the data do not know, or contradicts the
+old plan itself (a detail leaving from somewhere other than the home then) is refused here,
+each refusal naming the file and the data, rather than dropped, clipped or left to come back
+as an infeasible model.
+"""
+
+from __future__ import annotations
+
+from collections import defaultdict
+from collections.abc import Callable
+from pathlib import Path
+
+from rebalance.analysis.limits import hire_rows
+from rebalance.instance import Instance, Person
+from rebalance.plan import Plan
+from rebalance.verify import unknown_names
+
+
+class ReplanError(ValueError):
+    """The old plan cannot be carried into the model (its past no longer fits the data)."""
+
+    def __init__(self, problems: list[str]) -> None:
+        super().__init__("; ".join(problems))
+        self.problems = problems
+
+
+# (line in work.csv, period index, office, skill, fte) of one person's work before `at`.
+PastWork = tuple[int, int, str, str, float]
+
+
+def _checked_past(instance: Instance, old: Plan, at: int, folder: str | Path | None
+                  ) -> tuple[dict[str, dict[int, tuple[str, str]]], dict[str, tuple[int, str]],
+                             dict[str, list[PastWork]]]:
+    """The old plan's details (person -> period index -> route), reassignments (person ->
+    (period index, office)) and work before ``at`` by person, once the current data are found
+    to allow all of its past; otherwise a ReplanError listing every refusal."""
+    T = len(instance.periods)
+    if not 0 <= at < T:
+        raise ReplanError([f"period index {at} is outside the horizon (0..{T - 1})"])
+    unknown = unknown_names(instance, old, folder)
+    if unknown:  # an old plan of another instance, or one edited by hand
+        # As read_plan's problems read: file:row: what is wrong (input, not a broken rule).
+        raise ReplanError([f"{v.where}: {v.message}" for v in unknown])
+
+    def file(table: str) -> str:
+        return f"{table}.csv" if folder is None else str(Path(folder) / f"{table}.csv")
+
+    names = instance.period_names
+    ix = {name: t for t, name in enumerate(names)}
+    people = {p.person: p for p in instance.staff}
+    problems: list[str] = []
+    details: dict[str, dict[int, tuple[str, str]]] = defaultdict(dict)
+    detail_lines: dict[tuple[str, int], int] = {}
+    for line, row in enumerate(old.details.itertuples(index=False), 2):
+        if str(row.person) not in people or str(row.period) not in ix:
+            problems.append(f"{file('details')}: person {row.person} in {row.period} is not "
+                            "in the instance")
+            continue
+        details[str(row.person)][ix[str(row.period)]] = (str(row.from_office),
+                                                          str(row.to_office))
+        detail_lines[(str(row.person), ix[str(row.period)])] = line
+    moves: dict[str, tuple[int, str]] = {}
+    for row in old.reassignments.itertuples(index=False):
+        if str(row.person) not in people or str(row.period) not in ix:
+            problems.append(f"{file('reassignments')}: person {row.person} in {row.period} is "
+                            "not in the instance")
+            continue
+        moves[str(row.person)] = (ix[str(row.period)], str(row.to_office))
+    # A past reassignment the data rule out is the first thing to say: where the person's
+    # home was then is in doubt, so their details and work are not checked against it.
+    doubtful = {name: (t, dst) for name, (t, dst) in moves.items()
+                if t < at and (not people[name].can_relocate or not people[name].is_present(t))}
+    problems += [f"reassignment of {name} to {dst} in {names[t]}, before {names[at]}, is ruled "
+                 f"out by the data now: {_why_not(instance, people[name], t, 'reassignment')}"
+                 for name, (t, dst) in sorted(doubtful.items())]
+    sure = {name: run for name, run in details.items() if name not in doubtful}
+    problems += _details_not_from_home(instance, sure, detail_lines, moves, file)
+    past_work = _past_work(old, ix, at)
+    problems += _past_work_ruled_out(
+        instance, {k: v for k, v in past_work.items() if k not in doubtful}, details, moves,
+        at, file)
+    problems += _started_hires_ruled_out(instance, old, at)
+    if problems:
+        raise ReplanError(problems)
+    return details, moves, past_work
+
+
+def _past_work(old: Plan, ix: dict[str, int], at: int) -> dict[str, list[PastWork]]:
+    """The old plan's work rows before ``at`` by person, with their line in ``work.csv``."""
+    out: dict[str, list[PastWork]] = defaultdict(list)
+    w = old.work
+    for line, (person, period, office, skill, fte) in enumerate(zip(
+            w["person"].astype(str), w["period"].astype(str), w["office"].astype(str),
+            w["skill"].astype(str), w["fte"].astype(float), strict=True), 2):
+        t = ix.get(period)
+        if t is not None and t < at:
+            out[person].append((line, t, office, skill, float(fte)))
+    for rows in out.values():
+        rows.sort(key=lambda r: r[1:4])
+    return out
+
+
+def _home_in_force(person: Person, moves: dict[str, tuple[int, str]], t: int) -> str:
+    move = moves.get(person.person)
+    return move[1] if move is not None and move[0] <= t else person.home_office
+
+
+def _details_not_from_home(instance: Instance, details: dict[str, dict[int, tuple[str, str]]],
+                           lines: dict[tuple[str, int], int],
+                           moves: dict[str, tuple[int, str]],
+                           file: Callable[[str], str]) -> list[str]:
+    """Refusals for old details that leave from somewhere other than the person's home then:
+    the old plan contradicts itself or the data's home office, and the model has no such
+    route (it had been refused as "ruled out by the data ... no place for it")."""
+    people = {p.person: p for p in instance.staff}
+    names = instance.period_names
+    problems = []
+    for person, run in sorted(details.items()):
+        for t, (src, _dst) in sorted(run.items()):
+            home = _home_in_force(people[person], moves, t)
+            if src != home:
+                after = (f", after the reassignment in {file('reassignments')}"
+                         if home != people[person].home_office else "")
+                problems.append(
+                    f"{file('details')}:{lines[(person, t)]}: detail of {person} in {names[t]} "
+                    f"leaves from {src}, but {person}'s home then is {home} (staff.csv "
+                    f"home_office{after}): from_office should be {home}")
+    return problems
+
+
+def _past_work_ruled_out(instance: Instance, past_work: dict[str, list[PastWork]],
+                         details: dict[str, dict[int, tuple[str, str]]],
+                         moves: dict[str, tuple[int, str]], at: int,
+                         file: Callable[[str], str]) -> list[str]:
+    """Refusals for work before ``at`` that cannot have happened under the current data (the
+    person had left, lacks the skill, has less FTE than it, or was elsewhere in the old plan
+    itself).  Such work is refused, never rewritten: it had been dropped or clipped in
+    silence.  Work where the data now have no demand is not refused: it happened, and is kept
+    (it covers nothing)."""
+    people = {p.person: p for p in instance.staff}
+    names = instance.period_names
+    problems = []
+    for name, rows in sorted(past_work.items()):
+        person = people[name]
+        total: dict[int, float] = defaultdict(float)
+        first_line: dict[int, int] = {}
+        for line, t, office, skill, fte in rows:
+            where = f"{file('work')}:{line}: {name} works {fte:g} FTE on {skill} at {office} in "
+            where += f"{names[t]}, before {names[at]}, but"
+            total[t] += fte
+            first_line.setdefault(t, line)
+            if not person.is_present(t):
+                problems.append(f"{where} has left by then (staff.csv last_period)")
+                continue
+            if skill not in {k for k, _ in person.skills}:
+                problems.append(f"{where} does not have {skill} (staff.csv skills)")
+            run = details.get(name, {})
+            at_office = run[t][1] if t in run else _home_in_force(person, moves, t)
+            if office != at_office:
+                problems.append(f"{where} the old plan has them at {at_office} then "
+                                "(its details.csv and reassignments.csv)")
+        for t, fte in sorted(total.items()):
+            available = instance.available_fte(person, t)
+            if person.is_present(t) and fte > available + 1e-9 * max(1.0, fte):
+                problems.append(
+                    f"{file('work')}:{first_line[t]}: {name} works {fte:g} FTE in {names[t]}, "
+                    f"before {names[at]}, but the data now give them {available:g} then "
+                    "(staff.csv fte, less expected attrition.csv if any)")
+    return problems
+
+
+def _started_hires_ruled_out(instance: Instance, old: Plan, at: int) -> list[str]:
+    """Refusals for the old plan's hires whose recruitment has begun (start before ``at`` +
+    time to hire) that the data now rule out, each naming the data, as for a past detail or
+    reassignment.  Checked here, before any model: cutting vacancies below such hires had
+    been refused from one hire column ("the data now allow 1", naming no file) and reported
+    infeasible (exit 4) from another, where the pruned column was added back."""
+    skills = {s.name: s for s in instance.skills}
+    offices = {o.name: o for o in instance.offices}
+    names = instance.period_names
+    ix = {name: t for t, name in enumerate(names)}
+    started: dict[tuple[str, str, int, str], int] = defaultdict(int)
+    for h in hire_rows(old):
+        s = ix[h.start_period]
+        if s < at + skills[h.skill].time_to_hire:
+            started[(h.office, h.skill, s, h.funding)] += h.count
+    problems = []
+
+    def refuse(count: int, office: str, skill: str, s: int, why: str) -> None:
+        problems.append(f"{count:g} hire(s) of {skill} at {office} from {names[s]} have "
+                        f"started (their recruitment has begun), but the data now rule them "
+                        f"out: {why}")
+
+    by_start: dict[tuple[str, int], int] = defaultdict(int)
+    by_vacancy: dict[tuple[str, str], list[tuple[int, int]]] = defaultdict(list)
+    for (office, skill, s, funding), count in sorted(started.items(), key=lambda i: i[0][2]):
+        tth = skills[skill].time_to_hire
+        if s < tth:
+            refuse(count, office, skill, s, f"it starts before {skill}'s time to hire ({tth} "
+                   "periods from the horizon's start, skills.csv time_to_hire)")
+        elif offices[office].max_hires_per_period == 0:
+            refuse(count, office, skill, s,
+                   f"{office} may not hire (offices.csv max_hires_per_period = 0)")
+        else:
+            by_start[(office, s)] += count
+            if funding == "vacancy":
+                by_vacancy[(office, skill)].append((s, count))
+    for (office, s), count in by_start.items():
+        cap = offices[office].max_hires_per_period
+        if cap is not None and count > cap:
+            problems.append(f"{count} hires at {office} from {names[s]} have started (their "
+                            "recruitment has begun), but the data now allow "
+                            f"{cap} (offices.csv max_hires_per_period)")
+    for (office, skill), starts in by_vacancy.items():
+        funded = instance.vacancies.get((office, skill), 0)
+        filled = sum(count for _, count in starts)
+        if filled > funded:
+            when = ", ".join(f"{count} from {names[s]}" for s, count in starts)
+            problems.append(f"{filled} hire(s) of {skill} at {office} into funded vacancies "
+                            f"have started ({when}; their recruitment has begun), but the data "
+                            f"now fund {funded} (vacancies.csv)")
+    return problems
+
+
+def _why_not(instance: Instance, person: Person, t: int, what: str) -> str:
+    """Which data rule out ``person``'s detail or reassignment in period ``t`` (for a refusal:
+    the past cannot change, and each person's flags hold for the whole horizon)."""
+    if not person.is_present(t):
+        return f"{person.person} has left by then (staff.csv last_period)"
+    if what == "detail" and not person.can_detail:
+        return f"staff.csv says {person.person} may not go on detail (can_detail)"
+    if what == "detail" and instance.policy.max_consecutive_detail_periods == 0:
+        return "settings.toml allows no details (max_consecutive_detail_periods = 0)"
+    if what == "reassignment" and not person.can_relocate:
+        return f"staff.csv says {person.person} may not be reassigned (can_relocate)"
+    return "the model has no place for it"

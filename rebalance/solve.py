@@ -588,7 +588,7 @@ def _with_floor(out: BackendOutcome, relative_gap_wanted: float) -> BackendOutco
     gap = relative_gap(out.objective, out.bound)
     # A bound above the plan is no proof (a solver's wrong claim), whatever the gap reads.
     above = (out.objective is not None and out.bound is not None
-             and out.bound > out.objective + 1e-9 * max(1.0, abs(out.objective)))
+             and out.bound > out.objective + BOUND_TOLERANCE * max(1.0, abs(out.objective)))
     if (out.status is not Status.OPTIMAL and not above and gap is not None
             and gap <= relative_gap_wanted):
         out = replace(out, status=Status.OPTIMAL, words="its plan meets its bound")

@@ -314,7 +314,8 @@ class _Checker:
             funded = self.i.vacancies.get((office_name, skill_name), 0)
             if used > funded:
                 self.flag("vacancies", f"{skill_name} at {office_name}",
-                          f"{used} hires fill vacancies but {funded} are funded")
+                          f"{used} hires fill vacancies but only {funded} "
+                          f"{'is' if funded == 1 else 'are'} funded")
 
     # -- coverage ------------------------------------------------------------------------
     def _hire_output(self) -> dict[tuple[str, str, int], float]:

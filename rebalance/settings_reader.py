@@ -22,6 +22,10 @@ __all__ = [
     "warn_unknown_settings",
 ]
 
+# Quarters a generated horizon may have: a plan runs a few years (the issue: 12 quarters); a
+# typo such as 1e18 had the reader try to list that many periods.
+MAX_PERIODS = 400
+
 # Every key settings.toml understands, dotted (plus horizon.periods, a list of tables with
 # name, year and hours_per_fte); the workbook's settings sheet takes the same keys.
 SETTINGS_KEYS = (
@@ -185,10 +189,11 @@ def read_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
             bad("horizon.start", "is missing; expected text such as \"2027-Q1\"" if start is None
                 else f"{_shown(start)} is not a quarter; expected text such as \"2027-Q1\" (a "
                 "spreadsheet reads 2027-01-01 typed in a cell as a date)")
-        if not _whole(count) or count < 1:
-            bad("horizon.count", "is missing; expected a whole number >= 1" if count is None
-                else f"{_shown(count)} is not valid; expected a whole number >= 1")
-        if match is None or not _whole(count) or count < 1:
+        if not _whole(count) or not 1 <= count <= MAX_PERIODS:
+            bad("horizon.count", f"is missing; expected a whole number from 1 to {MAX_PERIODS}"
+                if count is None else f"{_shown(count)} is not valid; expected a whole number "
+                f"from 1 to {MAX_PERIODS}")
+        if match is None or not _whole(count) or not 1 <= count <= MAX_PERIODS:
             return (), periods_per_year
         if default_hours is None:
             if "hours_per_fte" not in horizon:  # a bad value is said above, once

@@ -380,8 +380,13 @@ def test_a_whole_float_is_a_whole_number_in_settings_as_in_cells(tmp_path):
                                         instance.policy.max_consecutive_detail_periods))
     settings.write_text(text.replace("count = 4.0", "count = 4.5") + "threads = true\n")
     assert _problems(target) == [
-        "settings.toml: horizon.count: '4.5' is not valid; expected a whole number >= 1",
+        "settings.toml: horizon.count: '4.5' is not valid; expected a whole number from 1 to 400",
         "settings.toml: solver.threads: 'true' is not valid; expected a whole number >= 1"]
+    # A typo of 1e18 quarters had the reader try to list that many periods.
+    settings.write_text(text.replace("count = 4.0", "count = 1e18"))
+    assert _problems(target) == [
+        "settings.toml: horizon.count: '1e+18' is not valid; expected a whole number from 1 to "
+        "400"]
 
 
 def test_an_unclosed_quote_is_one_problem_on_one_line(tmp_path):

@@ -93,12 +93,11 @@ def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
     result = _with_past_work(instance, make_plan(instance, options, pool_key=pool_key,
                                                  adjust=adjust, keep_details=keep + past),
                              past_work, at)
-    # The old plan's coverage table states the old demand; only its rules are checked here.
-    # Its coverage table and its prices are bookkeeping at the old data's demand, prices and
-    # horizon (a longer one adds years and salary periods): only its rules are checked.
+    # The old plan's coverage table and prices are bookkeeping at the old data's demand,
+    # prices and horizon (a longer one adds years and salary periods): only its rules count.
     old_violations = tuple(str(v) for v in verify_plan(instance, old)
                            if not v.rule.startswith("coverage") and v.rule not in BOOKKEEPING)
-    changes = _changes(instance, old, result.plan, at, costs) if result.plan is not None else \
+    changes = _changes(instance, old, result.plan, costs) if result.plan is not None else \
         pd.DataFrame(columns=list(CHANGE_COLUMNS))
     # Priced from the person-level change table; equal to the model's change columns plus
     # the constant for decisions that lost their column (_fix_and_price's `forced`).
@@ -177,8 +176,9 @@ def _with_past_work(instance: Instance, result: PlanResult,
 # what changed, and what it bought
 
 
-def _changes(instance: Instance, old: Plan, new: Plan, at: int,
-             costs: DisruptionCosts) -> pd.DataFrame:
+def _changes(instance: Instance, old: Plan, new: Plan, costs: DisruptionCosts) -> pd.DataFrame:
+    """Every difference between ``old`` and ``new``, priced: all from the re-plan period on,
+    since the past is fixed (the tests check it)."""
     names = instance.period_names
     ix = {name: t for t, name in enumerate(names)}
     rows: list[tuple[object, ...]] = []
@@ -226,9 +226,7 @@ def _changes(instance: Instance, old: Plan, new: Plan, at: int,
             office, skill, period, funding = key
             rows.append(("more" if after_n > before_n else "fewer", f"hire ({funding})", office,
                          skill, period, before_n, after_n, costs.hire * abs(after_n - before_n)))
-    frame = pd.DataFrame(rows, columns=list(CHANGE_COLUMNS))
-    del at  # every change is from `at` on by construction; the tests check it
-    return frame
+    return pd.DataFrame(rows, columns=list(CHANGE_COLUMNS))
 
 
 def _measures(instance: Instance, plan: Plan) -> dict[str, float]:

@@ -8,8 +8,6 @@ and shortfall are then recomputed exactly from those tables, not taken from the 
 
 from __future__ import annotations
 
-import csv
-import io
 from collections import defaultdict
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass, replace
@@ -24,12 +22,11 @@ from rebalance.model import Model
 from rebalance.problems import Problem, describe_range
 from rebalance.readers import (
     InstanceError,
-    NotUtf8,
     RawTable,
     TableRows,
     collapse_repeats,
+    plain_csv_columns,
     read_csv_table,
-    read_utf8,
     table_problems,
 )
 
@@ -397,7 +394,7 @@ def _read_table(file: Path, columns: tuple[str, ...], problems: list[Problem]) -
 
     The cells are checked a column at a time with numpy (row by row had taken 1 s for 150k
     work rows), then the problems put in the order a row-by-row reading says them."""
-    plain = _plain_cells(file)
+    plain = plain_csv_columns(file)
     if plain is not None:
         raw = RawTable(str(file), tuple(plain), ())
         cells = plain
@@ -452,31 +449,6 @@ def _read_table(file: Path, columns: tuple[str, ...], problems: list[Problem]) -
         out[column] = value.astype(np.int64) if whole and ok else value
     problems += [p for _, _, p in sorted(found, key=lambda f: (f[0], f[1]))]
     return _named(pd.DataFrame(out, columns=list(columns)))
-
-
-def _plain_cells(file: Path) -> dict[str, np.ndarray] | None:
-    """The cells of a plain table, read by pandas' C reader (Python's csv reader had taken
-    two thirds of the time), as ``read_csv_table`` reads them: stripped, a blank line a row
-    of empty cells.  None for a file with anything that reader reports or reads another way
-    (not UTF-8, a quote, a line break other than \\n or \\r\\n, a NUL, more cells than the
-    header, a column with no name or named twice): it is read as before."""
-    try:
-        text = read_utf8(file)
-    except NotUtf8:
-        return None
-    if not text or '"' in text or "\x00" in text or "\r" in text.replace("\r\n", ""):
-        return None
-    try:
-        frame = pd.read_csv(io.StringIO(text), header=None, dtype=str, quoting=csv.QUOTE_NONE,
-                            na_filter=False, skip_blank_lines=False, index_col=False,
-                            engine="c")
-    except (pd.errors.ParserError, ValueError):
-        return None
-    header = [str(name).strip() for name in frame.iloc[0]]
-    if "" in header or len(set(header)) < len(header):
-        return None
-    return {name: frame[i].iloc[1:].str.strip().to_numpy(dtype=object)
-            for i, name in zip(frame.columns, header, strict=True)}
 
 
 def _to_float(text: np.ndarray, empty: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

@@ -20,8 +20,8 @@ import pandas as pd
 from rebalance.instance import Instance
 from rebalance.model import Model
 from rebalance.problems import Problem, describe_range
-from rebalance.readers import (
-    InstanceError,
+from rebalance.readers import InstanceError
+from rebalance.tables import (
     RawTable,
     TableRows,
     collapse_repeats,

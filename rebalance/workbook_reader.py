@@ -30,10 +30,10 @@ from rebalance.readers import (
     OPTIONAL_TABLES,
     REQUIRED_TABLES,
     InstanceError,
-    RawTable,
     build_instance,
 )
 from rebalance.settings_reader import SETTINGS_KEYS
+from rebalance.tables import RawTable
 
 __all__ = ["SETTINGS_KEYS", "folder_to_workbook", "read_workbook"]
 

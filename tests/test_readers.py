@@ -202,7 +202,8 @@ def test_a_blank_proficiency_is_one_and_every_bad_budget_cell_is_said(tmp_path):
 
 def test_a_count_of_problems_counts_the_rows_a_repeat_stands_for():
     from rebalance.problems import Problem
-    from rebalance.readers import collapse_repeats, count_problems
+    from rebalance.readers import count_problems
+    from rebalance.tables import collapse_repeats
 
     problems = [Problem("staff.csv", row, "home_office", "unknown office 'X'")
                 for row in range(2, 17)]

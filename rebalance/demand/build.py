@@ -30,8 +30,9 @@ from rebalance.demand.standards import EffortStandards, estimate_standards, fore
 from rebalance.files import sibling_name, staged_folder
 from rebalance.instance import Period
 from rebalance.problems import Problem
-from rebalance.readers import collapse_repeats, read_tables, table_problems
+from rebalance.readers import read_tables
 from rebalance.settings_reader import read_periods
+from rebalance.tables import collapse_repeats, table_problems
 
 __all__ = ["DemandResult", "build_demand", "run_demand", "write_demand"]
 

@@ -20,8 +20,8 @@ from typing import Any
 import pandas as pd
 
 from rebalance.problems import Problem, describe_range, is_finite_number
-from rebalance.readers import (
-    InstanceError,
+from rebalance.readers import InstanceError
+from rebalance.tables import (
     NotUtf8,
     RawTable,
     TableRows,

@@ -1,0 +1,304 @@
+"""Read raw tables from files, and read their cells with every problem located.
+
+A :class:`RawTable` holds a table as text cells, as a CSV file or a workbook sheet gave them,
+plus what is wrong with it as a table (:func:`table_problems`); :class:`TableRows` reads its
+cells as text, numbers, yes/no values and names, collecting a
+:class:`~rebalance.problems.Problem` per bad cell.  Rows are numbered as a spreadsheet shows
+them: the header is row 1, the first data row is row 2.  The instance (:mod:`rebalance.readers`),
+plan folders and the workload history are read with these.
+"""
+
+from __future__ import annotations
+
+import codecs
+import csv
+import io
+import math
+from collections import Counter
+from collections.abc import Iterator, Mapping
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from rebalance.problems import Problem, describe_range
+
+__all__ = [
+    "NotUtf8",
+    "RawTable",
+    "TableRows",
+    "collapse_repeats",
+    "plain_csv_columns",
+    "read_csv_table",
+    "read_utf8",
+    "table_problems",
+]
+
+TRUE_WORDS = {"true", "yes", "y", "1"}
+FALSE_WORDS = {"false", "no", "n", "0"}
+
+
+@dataclass(frozen=True)
+class RawTable:
+    """A table as text cells, with the label used in messages (a file or a sheet)."""
+
+    label: str
+    columns: tuple[str, ...]
+    rows: tuple[dict[str, str], ...]
+    first_row_number: int = 2
+    # Row numbers with filled cells beyond the header's columns, which no column reads.
+    overlong_rows: tuple[int, ...] = ()
+    # (row, 1-based column) of filled cells under a column with no name, which no column reads.
+    unnamed_cells: tuple[tuple[int, int], ...] = ()
+    # (row, column) of cells holding a line break: a quote that never closed swallows the
+    # rows after it into one cell.
+    multiline_cells: tuple[tuple[int, str], ...] = ()
+    # Why the file could not be read at all (not UTF-8), and the row that showed it; then it
+    # has no columns.
+    fault: tuple[int | None, str] | None = None
+
+
+def collapse_repeats(problems: list[Problem], keep: int = 10) -> list[Problem]:
+    """Every problem, but one fault repeated on thousands of rows (an office name that a
+    broken offices table left unknown to every staff row) listed ``keep`` times."""
+    seen: dict[tuple[str, str | None, str], int] = {}
+    out: list[Problem] = []
+    for p in problems:
+        key = (p.file, p.column, p.message)
+        seen[key] = seen.get(key, 0) + 1
+        if seen[key] <= keep:
+            out.append(p)
+    for (file, column, message), count in seen.items():
+        if count > keep:
+            out.append(Problem(file, None, column, f"{message} (and {count - keep} more rows "
+                                                   "like this)", repeats=count - keep))
+    return out
+
+
+def table_problems(table: RawTable) -> list[Problem]:
+    """What is wrong with ``table`` as a table, before any cell is read: a file that could not
+    be read, a column named twice (which copy would be read?), and cells no column reads,
+    such as the second half of a number a comma split (``1,234``)."""
+    if table.fault is not None:
+        return [Problem(table.label, table.fault[0], None, table.fault[1])]
+    problems = [Problem(table.label, 1, column, f"is a column name {count} times; expected "
+                        "each column once") for column, count in _repeated_columns(table).items()]
+    hint = " (a comma inside a value?)" if table.label.endswith(".csv") else ""
+    problems += [Problem(table.label, number, None,
+                         f"more cells than the header's {len(table.columns)} columns; expected "
+                         f"one value per column{hint}")
+                 for number in table.overlong_rows]
+    problems += [Problem(table.label, number, f"column {position}",
+                         f"a value under a column with no name; expected a name in row 1 for "
+                         f"every filled column{hint}")
+                 for number, position in table.unnamed_cells]
+    problems += [Problem(table.label, number, column,
+                         "runs over several lines (a quote that is not closed?); expected one "
+                         "line per row")
+                 for number, column in table.multiline_cells]
+    return problems
+
+
+def _repeated_columns(table: RawTable) -> dict[str, int]:
+    """Column names the header holds more than once, with how often."""
+    counts = Counter(c for c in table.columns if c)
+    return {column: count for column, count in counts.items() if count > 1}
+
+
+def read_csv_table(path: Path) -> RawTable:
+    try:
+        text = read_utf8(path)
+    except NotUtf8 as exc:
+        return RawTable(path.name, (), (), fault=(exc.row, f"{exc} (in a spreadsheet program: "
+                                                            "save as CSV UTF-8)"))
+    return _csv_table(path.name, csv.reader(io.StringIO(text, newline="")))
+
+
+def plain_csv_columns(file: Path) -> dict[str, np.ndarray] | None:
+    """The cells of a plain table, read by pandas' C reader (Python's csv reader had taken
+    two thirds of the time), as ``read_csv_table`` reads them: stripped, a blank line a row
+    of empty cells.  None for a file with anything that reader reports or reads another way
+    (not UTF-8, a quote, a line break other than \\n or \\r\\n, a NUL, more cells than the
+    header, a column with no name or named twice): read it with ``read_csv_table``.  Plan
+    folders use it (verify, replan, report): 150k work rows had taken a second."""
+    try:
+        text = read_utf8(file)
+    except NotUtf8:
+        return None
+    if not text or '"' in text or "\x00" in text or "\r" in text.replace("\r\n", ""):
+        return None
+    try:
+        frame = pd.read_csv(io.StringIO(text), header=None, dtype=str, quoting=csv.QUOTE_NONE,
+                            na_filter=False, skip_blank_lines=False, index_col=False,
+                            engine="c")
+    except (pd.errors.ParserError, ValueError):
+        return None
+    header = [str(name).strip() for name in frame.iloc[0]]
+    if "" in header or len(set(header)) < len(header):
+        return None
+    return {name: frame[i].iloc[1:].str.strip().to_numpy(dtype=object)
+            for i, name in zip(frame.columns, header, strict=True)}
+
+
+class NotUtf8(ValueError):
+    """A text file that is not UTF-8; ``row`` is the line of the first byte that is not."""
+
+    def __init__(self, row: int, byte: int) -> None:
+        super().__init__(f"is not UTF-8 text (byte 0x{byte:02x} on this line); expected the "
+                         "file saved as UTF-8")
+        self.row = row
+
+
+def read_utf8(path: Path) -> str:
+    """The file's text (a byte-order mark, which some programs write, dropped), or
+    :class:`NotUtf8` naming the line where it stops being UTF-8."""
+    data = path.read_bytes().removeprefix(codecs.BOM_UTF8)
+    try:
+        return data.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise NotUtf8(data.count(b"\n", 0, exc.start) + 1, data[exc.start]) from None
+
+
+def _csv_table(label: str, reader: Iterator[list[str]]) -> RawTable:
+    try:
+        header = [h.strip() for h in next(reader)]
+    except StopIteration:
+        return RawTable(label, (), ())
+    rows, overlong, unnamed, multiline = [], [], [], []
+    for number, cells in enumerate(reader, 2):
+        if not any(c.strip() for c in cells):
+            cells = []  # blank line: keep numbering, drop content
+        if any(c.strip() for c in cells[len(header):]):
+            overlong.append(number)
+        unnamed += [(number, i + 1) for i, (h, c) in enumerate(zip(header, cells, strict=False))
+                    if not h and c.strip()]
+        padded = list(cells) + [""] * (len(header) - len(cells))
+        multiline += [(number, h or f"column {i + 1}") for i, (h, c)
+                      in enumerate(zip(header, padded, strict=False)) if "\n" in c or "\r" in c]
+        rows.append({h: padded[i].strip() for i, h in enumerate(header) if h})
+    return RawTable(label, tuple(header), tuple(rows), overlong_rows=tuple(overlong),
+                    unnamed_cells=tuple(unnamed), multiline_cells=tuple(multiline))
+
+
+# --------------------------------------------------------------------------------------------
+# cell parsing
+
+
+class TableRows:
+    """Iterates a table's rows and collects problems with their locations.
+
+    ``columns`` is (required, optional).  Other readers (the workload history) subclass it
+    with their own cell types.
+    """
+
+    def __init__(self, table: RawTable, problems: list[Problem],
+                 columns: tuple[tuple[str, ...], tuple[str, ...]]) -> None:
+        self.table = table
+        self.problems = problems
+        self.row_number = 0
+        self.columns_ok = True
+        required, optional = columns
+        if table.fault is not None:  # said once by table_problems; no column is missing too
+            self.columns_ok = False
+            return
+        missing = [c for c in required if c not in table.columns]
+        # A column named twice is said by table_problems; which copy to read is unknowable,
+        # so no row is read (each would report the copy that happened to be kept).
+        twice = _repeated_columns(table)
+        for column in missing:
+            self.problems.append(Problem(table.label, 1, column, "required column is missing"))
+        unknown = [c for c in table.columns if c and c not in required + optional]
+        for column in unknown:
+            self.problems.append(
+                Problem(
+                    table.label,
+                    1,
+                    column,
+                    "unknown column (expected one of: " + ", ".join(required + optional) + ")",
+                    is_warning=True,
+                )
+            )
+        self.columns_ok = not missing and not twice
+
+    def __iter__(self) -> Iterator[dict[str, str]]:
+        if not self.columns_ok:
+            return
+        # A row a quote left open is said once, by table_problems: its cells hold the rows it
+        # swallowed, newlines and all, and reading them would say the fault again, unquotably.
+        swallowed = {number for number, _ in self.table.multiline_cells}
+        for i, row in enumerate(self.table.rows):
+            self.row_number = self.table.first_row_number + i
+            if any(row.values()) and self.row_number not in swallowed:
+                yield row
+
+    def error(self, column: str | None, message: str) -> None:
+        self.problems.append(Problem(self.table.label, self.row_number, column, message))
+
+    def warn(self, column: str | None, message: str) -> None:
+        self.problems.append(
+            Problem(self.table.label, self.row_number, column, message, is_warning=True)
+        )
+
+    def text(self, row: Mapping[str, str], column: str) -> str | None:
+        value = row.get(column, "")
+        if value == "":
+            self.error(column, "is empty; a value is required")
+            return None
+        return value
+
+    def number(
+        self,
+        row: Mapping[str, str],
+        column: str,
+        *,
+        required: bool = True,
+        minimum: float | None = 0.0,
+        maximum: float | None = None,
+        open_minimum: bool = False,
+        integer: bool = False,
+        expected: str | None = None,
+    ) -> float | None:
+        raw = row.get(column, "")
+        what = expected or describe_range(minimum, maximum, open_minimum, integer)
+        if raw == "":
+            if required:
+                self.error(column, f"is empty; expected {what}")
+            return None
+        try:
+            value = float(raw)
+        except ValueError:
+            self.error(column, f"'{raw}' is not a number; expected {what}")
+            return None
+        bad = not math.isfinite(value)
+        bad = bad or (integer and value != int(value))
+        below = minimum is not None and (value <= minimum if open_minimum else value < minimum)
+        bad = bad or below
+        bad = bad or (maximum is not None and value > maximum)
+        if bad:
+            self.error(column, f"'{raw}' is out of range; expected {what}")
+            return None
+        return value
+
+    def boolean(self, row: Mapping[str, str], column: str, default: bool) -> bool:
+        raw = row.get(column, "").lower()
+        if raw == "":
+            return default
+        if raw in TRUE_WORDS:
+            return True
+        if raw in FALSE_WORDS:
+            return False
+        self.error(column, f"'{row.get(column)}' is not a yes/no value; expected true or false")
+        return default
+
+    def reference(self, row: Mapping[str, str], column: str,
+                  known: Mapping[str, Any] | set[str] | None, kind: str,
+                  defined_in: str) -> str | None:
+        """The cell's name if ``known`` lists it; ``known`` None: the table that defines the
+        names could not be read, so every name would read as unknown and none is checked."""
+        value = self.text(row, column)
+        if value is not None and known is not None and value not in known:
+            self.error(column, f"unknown {kind} '{value}'; expected one listed in {defined_in}")
+            return None
+        return value

@@ -1,0 +1,366 @@
+"""Command line of the analyses (issue 5): compare, replan, frontier, marginal.
+
+Their subcommands are added to ``rebalance``'s parser by ``add_analysis_commands``; exit codes
+as in ``rebalance/cli.py``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+from collections.abc import Callable
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+from rebalance.cli_common import (
+    COUNT,
+    EXIT_INVALID_INPUT,
+    EXIT_OK,
+    EXIT_SOLVER_ERROR,
+    EXIT_USAGE,
+    EXIT_VERIFICATION_FAILED,
+    GAP,
+    MONEY,
+    SECONDS,
+    SEED,
+    STATUS_EXIT,
+    VIOLATIONS_SHOWN,
+    _err,
+    _keep_frontier,
+    _load,
+    _number,
+    _say_first,
+    _unreadable_plan,
+)
+from rebalance.instance import Instance
+from rebalance.report.console import format_frame, is_missing
+
+if TYPE_CHECKING:
+    from rebalance.planning import PlanResult
+
+
+def _analysis_options(instance, args: argparse.Namespace, progress: bool = False):
+    from rebalance.planning import options_from_instance
+
+    return options_from_instance(
+        instance, solver=args.solver, time_limit_seconds=args.time_limit,
+        relative_gap=args.gap, seed=args.seed,
+        progress=_err if progress and not args.quiet else None)
+
+
+def _plan_failed(result) -> int | None:
+    """Exit code when a solve gave no verified plan, else None."""
+    if result.plan is None:
+        _err(f"{result.instance.name}: no plan ({result.status.value}); nothing was written")
+        for conflict in result.solve.conflicts:
+            _err(f"  {conflict}")
+        return STATUS_EXIT.get(result.status, EXIT_SOLVER_ERROR)
+    if not result.verified:
+        _say_unverified(f"{result.instance.name}: the plan failed verification; nothing was "
+                        "written", result)
+        return EXIT_VERIFICATION_FAILED
+    return None
+
+
+def _say_unverified(head: str, result: PlanResult) -> None:
+    """``head``, then the first violations of ``result``'s plan."""
+    _err(head)
+    for violation in result.violations[:VIOLATIONS_SHOWN]:
+        _err(f"  {violation}")
+
+
+def _write_analysis_plan(args: argparse.Namespace, result, instance: Instance,
+                         tables: dict, instance_path: str | None, written: str,
+                         more: Callable[[Path], None] | None = None,
+                         replanned_at: int | None = None, scenario: str | None = None) -> int:
+    """Write a verified analysis plan to ``args.out`` with ``tables``, its reasons and the
+    report; ``more`` adds to the folder first.  ``instance_path`` is recorded for
+    'rebalance report'."""
+    from rebalance.analysis.output import write_tables
+    from rebalance.analysis.reasons import reasons
+    from rebalance.planning import CAUTION, write_outputs
+    from rebalance.report.files import plan_extras
+
+    def extra(result: PlanResult, folder: Path) -> None:
+        assert result.plan is not None  # write_outputs writes only a plan
+        write_tables({**tables, "reasons.csv": reasons(instance, result.plan,
+                                                        replanned_at).table}, folder)
+        if replanned_at is not None:
+            # Which re-plan this is, for the report and for whoever reads the folder later.
+            summary = json.loads((folder / "summary.json").read_text())
+            summary["replan"] = {"from_period": instance.period_names[replanned_at],
+                                 "scenario": scenario}
+            (folder / "summary.json").write_text(json.dumps(summary, indent=2) + "\n")
+        if more is not None:
+            more(folder)
+        _keep_frontier(args.out, folder)
+        plan_extras(instance_path)(result, folder)
+
+    write_outputs(result, args.out, extra=extra)
+    print(f"\n{written} written to {args.out}/")
+    print("\nCaution: " + CAUTION)
+    return EXIT_OK
+
+
+def cmd_compare(args: argparse.Namespace) -> int:
+    from rebalance.analysis.output import write_tables
+    from rebalance.analysis.reasons import reasons
+    from rebalance.analysis.scenarios import (
+        ScenarioError,
+        compare_scenarios,
+        folder_name,
+        read_scenarios,
+    )
+    from rebalance.plan import write_plan
+    from rebalance.planning import summary_dict
+
+    instance = _load(args.instance)
+    if instance is None:
+        return EXIT_INVALID_INPUT
+    try:
+        # Names and their folders are checked here, before any solve (a clash of folders had
+        # been an internal error when the plans were written).
+        scenarios = read_scenarios(args.scenario, instance)
+    except ScenarioError as exc:
+        _err(f"{len(exc.problems)} problem(s) in the scenario file(s); nothing was written")
+        for problem in exc.problems:
+            _err(f"  {problem}")
+        return EXIT_INVALID_INPUT
+    comparison = compare_scenarios(instance, scenarios, _analysis_options(instance, args),
+                                   workers=args.workers)
+    columns = [c for c in ("scenario", "status", "verified", "gap", "weighted_shortfall",
+                           "total_cost", "hires", "detail_periods", "reassignments",
+                           "actions_differing") if c in comparison.table.columns]
+    print(format_frame(comparison.table[columns], instance.money.currency))
+    for result in comparison.results:
+        code = _plan_failed(result)
+        if code is not None:
+            return code
+
+    def scenario_plans(folder: Path) -> None:
+        for name, other in zip(comparison.names[1:], comparison.results[1:], strict=True):
+            if other.plan is None:
+                continue
+            sub = folder / "scenarios" / folder_name(name)
+            sub.mkdir(parents=True)
+            write_plan(other.plan, sub)
+            (sub / "summary.json").write_text(json.dumps(summary_dict(other), indent=2) + "\n")
+            write_tables({"reasons.csv": reasons(other.instance, other.plan).table}, sub)
+
+    tables = {"scenarios.csv": comparison.table, "scenario_costs.csv": comparison.costs,
+              "scenario_actions.csv": comparison.actions}
+    return _write_analysis_plan(args, comparison.results[0], instance, tables, args.instance,
+                                "base plan, scenarios.csv and each scenario's plan",
+                                more=scenario_plans)
+
+
+def cmd_replan(args: argparse.Namespace) -> int:
+    from rebalance.analysis.replan import DisruptionCosts, ReplanError, replan
+    from rebalance.plan import PlanError, read_plan
+
+    instance = _load(args.instance)
+    if instance is None:
+        return EXIT_INVALID_INPUT
+    folder = Path(args.from_dir)
+    try:
+        old = read_plan(folder, complete=True)
+    except PlanError as exc:
+        return _unreadable_plan(folder, exc)
+    scenario_name: str | None = None
+    if args.scenario:
+        from rebalance.analysis.scenarios import ScenarioError, apply_scenario, read_scenario
+
+        try:
+            applied = read_scenario(args.scenario, instance)
+            instance = apply_scenario(instance, applied)
+            scenario_name = applied.name
+        except ScenarioError as exc:
+            _say_first(f"{len(exc.problems)} problem(s) in the scenario file; "
+                       "nothing was written", exc.problems)
+            return EXIT_INVALID_INPUT
+    if args.at not in instance.period_names:
+        _err(f"--at {args.at}: not a period of the instance; expected one of "
+             f"{', '.join(instance.period_names)}")
+        return EXIT_USAGE
+    costs = DisruptionCosts(args.disruption_detail, args.disruption_reassignment,
+                            args.disruption_hire)
+    try:
+        out = replan(instance, old, instance.period_names.index(args.at),
+                     _analysis_options(instance, args, progress=True), costs,
+                     allow_recall=args.allow_recall, folder=folder)
+    except ReplanError as exc:
+        _say_first(f"{folder}: the old plan cannot be carried forward; nothing was written",
+                   exc.problems)
+        return EXIT_INVALID_INPUT
+    if out.old_plan_violations:
+        _say_first(f"note: the old plan breaks {len(out.old_plan_violations)} rule(s) of the "
+                   "current data; the new plan keeps every rule from the re-plan period on:",
+                   out.old_plan_violations)
+    for note in out.notes:
+        _err(f"note: {note}")
+    # No new plan: no table of it (it had printed as NaN and "0 change(s)" before the reason).
+    code = _plan_failed(out.result)
+    if code is not None:
+        return code
+    from rebalance.report.console import format_outcome
+
+    print(format_outcome(out.result, replan=True) + "\n")
+    # By the one number rule, row by row: money rows whole with the currency, counts whole.
+    print(format_frame(out.summary, instance.money.currency))
+    print(f"\n{len(out.changes)} change(s) against the old plan from {args.at} on")
+    if len(out.changes):
+        print(format_frame(out.changes.head(30), instance.money.currency))
+
+    # Under a scenario the plan belongs to the changed data, not to the instance folder:
+    # record no instance path, so 'rebalance report' asks for one rather than mislead.
+    return _write_analysis_plan(args, out.result, instance,
+                                {"changes.csv": out.changes, "replan.csv": out.summary},
+                                None if args.scenario else args.instance,
+                                "new plan, changes.csv and replan.csv", replanned_at=out.at,
+                                scenario=scenario_name)
+
+
+def cmd_frontier(args: argparse.Namespace) -> int:
+    from rebalance.analysis.frontier import (
+        BudgetGrid,
+        budget_frontier,
+        parse_grid,
+        uncapped_years,
+    )
+    from rebalance.analysis.output import write_table
+    from rebalance.files import mark_folder
+
+    instance = _load(args.instance)
+    if instance is None:
+        return EXIT_INVALID_INPUT
+    try:
+        hiring, factor = parse_grid(args.hiring)
+        moves, moves_factor = parse_grid(args.moves) if args.moves else ((), factor)
+    except ValueError as exc:
+        _err(f"grid: {exc}")
+        return EXIT_USAGE
+    if args.moves and moves_factor != factor:
+        _err("grid: give --hiring and --moves both as factors (x) or both as amounts")
+        return EXIT_USAGE
+    grid = BudgetGrid(hiring, moves, factor)
+    for year in uncapped_years(instance, grid):
+        _err(f"warning: {year} has no cap to scale; every point leaves it uncapped")
+    if instance.objective.mode == "weighted":
+        _err("note: the frontier is the least shortfall each budget buys, so every point is "
+             "solved shortfall first, not in the instance's weighted mode")
+    frontier = budget_frontier(instance, grid, _analysis_options(instance, args),
+                               workers=args.workers)
+    shown = frontier.table[["point", "hiring_budget", "moves_budget", "status", "gap",
+                            "weighted_shortfall", "total_cost", "knee"]]
+    print(format_frame(shown, instance.money.currency))
+    print(f"\nhiring_budget and moves_budget: {frontier.table['budget_unit'].iloc[0]}; an "
+          "empty moves_budget keeps the instance's caps")
+    # A point without a plan (infeasible, out of time) is a result the table reports; a plan
+    # that fails verification is a fault, and its figures would mislead: nothing is written.
+    failed = [(point, result) for point, result in zip(
+        frontier.table["point"], frontier.results, strict=True)
+        if result.plan is not None and not result.verified]
+    for point, result in failed:
+        _say_unverified(f"point {point}: the plan failed verification", result)
+    if failed:
+        _err("nothing was written")
+        return EXIT_VERIFICATION_FAILED
+    out = Path(args.out)
+    fresh = not out.exists() or not any(out.iterdir())
+    path = write_table(frontier.table, out / "frontier.csv")
+    if fresh:
+        # A folder it made is an analysis folder: a plan or analysis may join it later.
+        mark_folder(out, "plan")
+    print(f"\nwrote {path}")
+    return EXIT_OK
+
+
+def cmd_marginal(args: argparse.Namespace) -> int:
+    from rebalance.analysis.marginal import Steps, marginal_values
+    from rebalance.planning import make_plan
+
+    instance = _load(args.instance)
+    if instance is None:
+        return EXIT_INVALID_INPUT
+    base = make_plan(instance, _analysis_options(instance, args, progress=True))
+    code = _plan_failed(base)
+    if code is not None:
+        return code
+    values = marginal_values(base, _analysis_options(instance, args),
+                             Steps(budget=args.budget_step), workers=args.workers,
+                             max_resolves=args.max_resolves)
+    if len(values.table):
+        from rebalance.report.analysis_view import step_words
+
+        shown = values.table[["rank", "limit", "where", "step", "shortfall_reduction",
+                              "cost_change", "estimate_shortfall_reduction", "status"]].copy()
+        # A step with its unit, as the page writes it: "10" alone was seats or money.
+        shown["step"] = [step_words(None if is_missing(step) else float(step),
+                                    "" if is_missing(unit) else str(unit),
+                                    instance.money.currency)
+                         for step, unit in zip(values.table["step"], values.table["unit"],
+                                               strict=True)]
+        print(format_frame(shown, instance.money.currency))
+    else:
+        print("no limit binds the plan, so there is nothing to rank; "
+              "marginal_values.csv is written with its header only")
+    return _write_analysis_plan(args, base, instance, {"marginal_values.csv": values.table},
+                                args.instance, "plan, marginal_values.csv and reasons.csv")
+
+
+def add_analysis_commands(sub) -> None:
+    """Add compare, replan, frontier and marginal to ``sub``, the parser's subcommands."""
+    def solver_options(p: argparse.ArgumentParser) -> None:
+        p.add_argument("--solver", choices=("highs", "cbc"))
+        p.add_argument("--time-limit", type=SECONDS, help="seconds for each solve")
+        p.add_argument("--gap", type=GAP, help="relative gap at which to stop, e.g. 0.01")
+        p.add_argument("--seed", type=SEED)
+        p.add_argument("--workers", type=COUNT, default=2, help="solves in parallel (default 2)")
+        p.add_argument("-q", "--quiet", action="store_true", help="no progress on stderr")
+
+    p = sub.add_parser("compare", help="solve the base and surge scenarios side by side")
+    p.add_argument("instance")
+    p.add_argument("--scenario", action="append", required=True, metavar="FILE",
+                   help="scenario TOML file (repeat for several)")
+    p.add_argument("-o", "--out", required=True, help="folder for the base plan and tables")
+    solver_options(p)
+    p.set_defaults(run=cmd_compare, output_kind="plan")
+
+    p = sub.add_parser("replan", help="re-plan from a period, keeping close to an old plan")
+    p.add_argument("instance")
+    p.add_argument("--from", dest="from_dir", required=True, metavar="PLAN_DIR")
+    p.add_argument("--at", required=True, metavar="PERIOD", help="first period to re-plan")
+    p.add_argument("-o", "--out", required=True)
+    p.add_argument("--disruption-detail", type=MONEY, default=2000.0,
+                   help="cost of each changed person-period of detail (default 2000)")
+    p.add_argument("--disruption-reassignment", type=MONEY, default=10000.0,
+                   help="cost of each reassignment added or dropped (default 10000)")
+    p.add_argument("--disruption-hire", type=MONEY, default=5000.0,
+                   help="cost of each hire more or fewer (default 5000)")
+    p.add_argument("--allow-recall", action="store_true",
+                   help="details under way may end early")
+    p.add_argument("--scenario", metavar="FILE",
+                   help="re-plan under a surge scenario's data (what landed at PERIOD)")
+    solver_options(p)
+    p.set_defaults(run=cmd_replan, output_kind="plan")
+
+    p = sub.add_parser("frontier", help="least shortfall and its cost over a budget grid")
+    p.add_argument("instance")
+    p.add_argument("--hiring", required=True, metavar="GRID",
+                   help="a,b,c or start:stop:step per year; a trailing x makes factors")
+    p.add_argument("--moves", metavar="GRID", help="moves caps to sweep as well")
+    p.add_argument("-o", "--out", required=True, help="folder for frontier.csv")
+    solver_options(p)
+    p.set_defaults(run=cmd_frontier, output_kind=None)  # adds frontier.csv, removes nothing
+
+    p = sub.add_parser("marginal", help="plan, marginal values of binding limits, reasons")
+    p.add_argument("instance")
+    p.add_argument("-o", "--out", required=True)
+    p.add_argument("--budget-step", default=100_000.0,
+                   type=_number(float, 1.0, what="an amount of money, at least 1"),
+                   help="money a budget is relaxed by (default 100000)")
+    p.add_argument("--max-resolves", type=COUNT,
+                   help="re-solve only this many limits, those with the best estimates "
+                        "first (from LP re-solves with the limit moved, else LP duals)")
+    solver_options(p)
+    p.set_defaults(run=cmd_marginal, output_kind="plan")

@@ -1,0 +1,107 @@
+"""What the command-line modules share: exit codes, messages on stderr, reading an instance,
+and the argparse number types.
+
+The exit codes are listed in ``rebalance/cli.py``'s docstring.  The underscored helpers are
+for ``rebalance.cli`` and ``rebalance.cli_analysis`` only, no API.
+"""
+
+from __future__ import annotations
+
+import argparse
+import math
+import sys
+from collections.abc import Callable, Sequence
+from pathlib import Path
+
+from rebalance.instance import Instance
+from rebalance.readers import InstanceError, count_problems, read_instance
+from rebalance.solve import Status
+
+VIOLATIONS_SHOWN = 20  # lines of a long list of problems or violations: enough to see why
+EXIT_OK = 0
+EXIT_INTERNAL = 1
+EXIT_USAGE = 2
+EXIT_INVALID_INPUT = 3
+EXIT_INFEASIBLE = 4
+EXIT_NO_PLAN_IN_TIME = 5
+EXIT_VERIFICATION_FAILED = 6
+EXIT_SOLVER_ERROR = 7
+EXIT_STOPPED = 130  # Ctrl-C or SIGTERM: the shells' 128 + SIGINT
+
+STATUS_EXIT = {
+    Status.INFEASIBLE: EXIT_INFEASIBLE,
+    Status.NO_PLAN_IN_TIME: EXIT_NO_PLAN_IN_TIME,
+    Status.ERROR: EXIT_SOLVER_ERROR,
+    Status.UNKNOWN: EXIT_SOLVER_ERROR,
+}
+
+
+def _err(text: str) -> None:
+    print(text, file=sys.stderr, flush=True)
+
+
+def _load(path: str) -> Instance | None:
+    try:
+        return read_instance(path)
+    except InstanceError as exc:
+        errors = [p for p in exc.problems if not p.is_warning]
+        _err(f"{path}: {count_problems(errors)} problem(s) in the input; nothing was written")
+        for problem in exc.problems:
+            _err(("  warning: " if problem.is_warning else "  ") + str(problem))
+        return None
+
+
+def _first(lines: Sequence[str], hint: str = "") -> list[str]:
+    """The first ``VIOLATIONS_SHOWN`` of ``lines`` and a count of the rest (an old plan of
+    another instance had listed 66 lines of names the instance lacks); ``hint`` says how to
+    see them all."""
+    if len(lines) <= VIOLATIONS_SHOWN:
+        return list(lines)
+    return [*lines[:VIOLATIONS_SHOWN], f"  ... and {len(lines) - VIOLATIONS_SHOWN} more{hint}"]
+
+
+def _say_first(head: str, problems: Sequence[object]) -> None:
+    """``head``, then the first problems and how many more, on stderr."""
+    _err(head)
+    for line in _first([f"  {problem}" for problem in problems]):
+        _err(line)
+
+
+def _unreadable_plan(folder: str | Path, exc: InstanceError) -> int:
+    _say_first(f"{folder}: not a plan folder rebalance can read, "
+               f"{count_problems(exc.problems)} problem(s); nothing was written", exc.problems)
+    return EXIT_INVALID_INPUT
+
+
+def _keep_frontier(out: str, folder: Path) -> None:
+    """A frontier.csv already in the output folder belongs to the instance, not to one plan:
+    carry it into the folder that replaces it."""
+    import shutil
+
+    old = Path(out) / "frontier.csv"
+    if old.is_file():
+        shutil.copy2(old, folder / "frontier.csv")
+
+
+def _number(kind: type, minimum: float, maximum: float | None = None,
+            what: str = "") -> Callable[[str], float]:
+    """An argparse type: a ``kind`` (int or float) in [minimum, maximum], as settings.toml
+    takes it; anything else is a usage error that says what was expected."""
+    def parse(text: str) -> float:
+        try:
+            value = kind(text)
+        except ValueError:
+            value = None
+        if value is None or not math.isfinite(value) or value < minimum or (
+                maximum is not None and value > maximum):
+            raise argparse.ArgumentTypeError(f"got {text!r}; expected {what}")
+        return value
+
+    return parse
+
+
+SECONDS = _number(float, 0.1, what="seconds, at least 0.1")
+GAP = _number(float, 0.0, 1.0, what="a relative gap from 0 to 1, e.g. 0.01")
+COUNT = _number(int, 1, what="a whole number, at least 1")
+SEED = _number(int, 0, what="a whole number, at least 0")
+MONEY = _number(float, 0.0, what="an amount of money, at least 0")

@@ -145,7 +145,7 @@ def test_the_first_plan_of_a_large_model_brings_a_bound_near_the_lp():
     from conftest import ROOT
 
     from rebalance import read_instance
-    from rebalance.solve import first_plan_by_decision
+    from rebalance.heuristics import first_plan_by_decision
 
     model = build_model(read_instance(ROOT / "instances" / "demo"))
     reference = _scipy_lp_optimum(model, model.shortfall_weight)

@@ -110,13 +110,13 @@ def test_first_plan_by_decision_leads_to_the_same_optimum(seed, monkeypatch):
     # Large models take their first plan one kind of decision at a time (hires, then
     # details); forced here on small instances, branch and bound from that plan must still
     # reach the optimum of the usual LP-and-rounding path, in both stages.
-    solve_module = importlib.import_module("rebalance.solve")  # the package's name is a function
+    heuristics = importlib.import_module("rebalance.heuristics")
 
     instance = with_twins(random_instance(seed, people=3, periods=4, offices=3, skills=2))
     options = options_from_instance(instance, relative_gap=0.0)
     usual = make_plan(instance, options)
     said: list[str] = []
-    monkeypatch.setattr(solve_module, "LARGE_MODEL_COLUMNS", 0)
+    monkeypatch.setattr(heuristics, "LARGE_MODEL_COLUMNS", 0)
     forced = make_plan(instance, replace(options, progress=said.append))
     if usual.status is Status.INFEASIBLE:  # too few seats for any plan (seed 2): say so too
         assert forced.status is Status.INFEASIBLE and forced.solve.conflicts
@@ -136,8 +136,8 @@ def test_first_plan_by_decision_is_a_plan_of_the_whole_model():
     import numpy as np
 
     from rebalance.backends import HighsBackend, SolveOptions
+    from rebalance.heuristics import first_plan_by_decision
     from rebalance.model import build_model
-    from rebalance.solve import first_plan_by_decision
 
     model = build_model(read_instance(DATA / "tiny"))
     first = first_plan_by_decision(HighsBackend(), model, model.shortfall_weight, [],
@@ -161,11 +161,11 @@ def test_a_large_model_gets_its_lp_bound(monkeypatch, threads, said_of_the_lp):
     # sought; with one thread the passes bring a bound from the rounding LP's row prices
     # before the search of the whole model gets the rest.  Forced here on tiny, neither may
     # change the optimum or its proof.
-    solve_module = importlib.import_module("rebalance.solve")
+    heuristics = importlib.import_module("rebalance.heuristics")
     tiny = read_instance(DATA / "tiny")
     usual = solve_verified(tiny)
     said: list[str] = []
-    monkeypatch.setattr(solve_module, "LARGE_MODEL_COLUMNS", 0)
+    monkeypatch.setattr(heuristics, "LARGE_MODEL_COLUMNS", 0)
     forced = solve_verified(tiny, threads=threads, progress=said.append)
     assert any(said_of_the_lp in line for line in said)
     assert forced.status is Status.OPTIMAL
@@ -179,7 +179,8 @@ def test_the_lp_beside_the_search_stops_within_its_stage(monkeypatch):
     # its limit must be what is left of the stage when it starts, not the stage's whole
     # share (a medium run once ended 4.7 s past its limit that way).
     solve_module = importlib.import_module("rebalance.solve")
-    monkeypatch.setattr(solve_module, "LARGE_MODEL_COLUMNS", 0)
+    heuristics = importlib.import_module("rebalance.heuristics")
+    monkeypatch.setattr(heuristics, "LARGE_MODEL_COLUMNS", 0)
     deadlines: list[float] = []
     overruns: list[float] = []
     bounds_module = importlib.import_module("rebalance.stage_bounds")
@@ -194,7 +195,7 @@ def test_the_lp_beside_the_search_stops_within_its_stage(monkeypatch):
         return real_lp_bound(backend, model, objective, extra_rows, options, time_limit, say,
                              when)
 
-    real_trimmed = solve_module._trimmed
+    real_trimmed = solve_module.trimmed
 
     def slow_trimmed(*args, **kwargs):
         time.sleep(0.5)  # as trimming takes seconds at scale
@@ -202,7 +203,7 @@ def test_the_lp_beside_the_search_stops_within_its_stage(monkeypatch):
 
     monkeypatch.setattr(solve_module, "solve_stage", stage)
     monkeypatch.setattr(bounds_module, "lp_bound", lp_bound)
-    monkeypatch.setattr(solve_module, "_trimmed", slow_trimmed)
+    monkeypatch.setattr(solve_module, "trimmed", slow_trimmed)
     solve_verified(read_instance(DATA / "tiny"), threads=2)
     assert len(overruns) == 2  # one per stage
     assert max(overruns) < 0.1  # the thread's start, not the half second of trimming
@@ -214,12 +215,12 @@ def test_whole_plans_bound_both_stages_of_a_large_model_beside_the_search(monkey
     # bound beside the search comes from their whole plans (rebalance.decomposition) in
     # both stages, and replaces stage two's LP with homes held.  Forced here on small
     # instances; the optimum and its proof must stand, and no bound may pass it.
-    solve_module = importlib.import_module("rebalance.solve")
+    heuristics = importlib.import_module("rebalance.heuristics")
     base = random_instance(seed, people=4, periods=4, offices=3, skills=2)
     instance = everyone_moves(base)
     usual = solve_verified(instance, pair_details=False)
     said: list[str] = []
-    monkeypatch.setattr(solve_module, "LARGE_MODEL_COLUMNS", 0)
+    monkeypatch.setattr(heuristics, "LARGE_MODEL_COLUMNS", 0)
     forced = solve_verified(instance, pair_details=False, threads=2, progress=said.append)
     whole = [line for line in said if "relocatable people's whole plans" in line]
     assert len(whole) == 2, said  # one per stage
@@ -241,7 +242,7 @@ def test_a_failed_whole_plans_bound_gives_way_to_the_lp(monkeypatch):
     # relaxation instead, and the optimum stands.
     from rebalance.whole_plans import DecompositionError
 
-    solve_module = importlib.import_module("rebalance.solve")
+    heuristics = importlib.import_module("rebalance.heuristics")
     base = random_instance(1, people=4, periods=4, offices=3, skills=2)
     instance = everyone_moves(base)
     usual = solve_verified(instance, pair_details=False)
@@ -250,7 +251,7 @@ def test_a_failed_whole_plans_bound_gives_way_to_the_lp(monkeypatch):
         raise DecompositionError("a row of another shape")
 
     said: list[str] = []
-    monkeypatch.setattr(solve_module, "LARGE_MODEL_COLUMNS", 0)
+    monkeypatch.setattr(heuristics, "LARGE_MODEL_COLUMNS", 0)
     monkeypatch.setattr(importlib.import_module("rebalance.stage_bounds"), "plan_bound",
                         failing)
     forced = solve_verified(instance, pair_details=False, threads=2, progress=said.append)
@@ -264,11 +265,11 @@ def test_a_failed_whole_plans_bound_gives_way_to_the_lp(monkeypatch):
 def test_without_a_bound_from_prices_the_lp_relaxation_runs_after_the_passes(monkeypatch):
     # One thread, and the rounding brings no bound (forced here): the LP relaxation runs
     # after the passes for the bound instead, and the optimum and its proof stand.
-    solve_module = importlib.import_module("rebalance.solve")
+    heuristics = importlib.import_module("rebalance.heuristics")
     tiny = read_instance(DATA / "tiny")
     usual = solve_verified(tiny)
     said: list[str] = []
-    monkeypatch.setattr(solve_module, "LARGE_MODEL_COLUMNS", 0)
+    monkeypatch.setattr(heuristics, "LARGE_MODEL_COLUMNS", 0)
     monkeypatch.setattr(importlib.import_module("rebalance.stage_bounds"), "priced_bound",
                         lambda *args: None)
     forced = solve_verified(tiny, threads=1, progress=said.append)
@@ -285,11 +286,11 @@ def test_a_model_too_large_to_stop_on_time_keeps_the_first_plan(monkeypatch, thr
     # branch and bound (HiGHS could not be stopped in its presolve at agency size), nor an
     # LP beside the search with two threads (agency's was not solved in 237 s); forced here
     # on tiny, the first plan must come back verified and never called optimal.
-    solve_module = importlib.import_module("rebalance.solve")
+    heuristics = importlib.import_module("rebalance.heuristics")
     tiny = read_instance(DATA / "tiny")
     said: list[str] = []
-    monkeypatch.setattr(solve_module, "LARGE_MODEL_COLUMNS", 0)
-    monkeypatch.setattr(solve_module, "WHOLE_SEARCH_MAX_NONZEROS", 0)
+    monkeypatch.setattr(heuristics, "LARGE_MODEL_COLUMNS", 0)
+    monkeypatch.setattr(heuristics, "WHOLE_SEARCH_MAX_NONZEROS", 0)
     result = solve_verified(tiny, threads=threads, progress=said.append)
     assert any("no search of the whole model" in line for line in said)
     assert not any("LP relaxation" in line for line in said)
@@ -444,9 +445,9 @@ def test_trimming_finds_the_cheapest_plan_at_or_below_the_start(seed):
     import scipy.sparse as sp
     from conftest import scipy_lp
 
+    from rebalance import heuristics
     from rebalance.backends import HighsBackend, SolveOptions
     from rebalance.model import build_model
-    from rebalance.solve import _trimmed
 
     model = build_model(random_instance(seed, people=4, periods=4, offices=3, skills=2))
     backend, options = HighsBackend(), SolveOptions(relative_gap=0.0)
@@ -457,8 +458,8 @@ def test_trimming_finds_the_cheapest_plan_at_or_below_the_start(seed):
     start = backend.run(model, -model.cost, [(model.shortfall_weight, held)], options, 60,
                         None).x
     assert start is not None
-    trimmed = _trimmed(backend, model, model.cost, [(model.shortfall_weight, held)], options,
-                       start, 60, lambda _: None)
+    trimmed = heuristics.trimmed(backend, model, model.cost, [(model.shortfall_weight, held)],
+                                 options, start, 60, lambda _: None)
 
     integer = model.is_integer
     assert np.all(np.rint(trimmed[integer]) <= np.rint(start[integer]))
@@ -494,8 +495,8 @@ def test_office_groups_reach_the_optimum_when_one_group_holds_every_office(seed)
     from conftest import scipy_milp
 
     from rebalance.backends import HighsBackend, SolveOptions
+    from rebalance.heuristics import OFFICES_PER_GROUP, search_by_office_groups
     from rebalance.model import build_model
-    from rebalance.solve import OFFICES_PER_GROUP, search_by_office_groups
 
     instance = random_instance(seed, people=5, periods=3, offices=3, skills=2)
     assert len(instance.offices) <= OFFICES_PER_GROUP
@@ -523,8 +524,8 @@ def test_office_groups_keep_a_plan_of_the_whole_model_inside_the_box(seed):
     import numpy as np
 
     from rebalance.backends import HighsBackend, SolveOptions
+    from rebalance.heuristics import OFFICES_PER_GROUP, search_by_office_groups
     from rebalance.model import build_model
-    from rebalance.solve import OFFICES_PER_GROUP, search_by_office_groups
 
     instance = random_instance(seed, people=8, periods=3, offices=6, skills=2)
     assert len(instance.offices) > OFFICES_PER_GROUP
@@ -623,18 +624,18 @@ def test_a_restricted_search_worse_than_its_start_does_not_say_it_found_a_plan(m
     from rebalance.backends import BackendOutcome, HighsBackend, SolveOptions, Status
     from rebalance.model import build_model
 
-    solve_module = importlib.import_module("rebalance.solve")
+    heuristics = importlib.import_module("rebalance.heuristics")
     model = build_model(random_instance(1, people=3, periods=2, offices=2, skills=1))
     start = np.zeros(model.num_cols)
     worse = np.zeros(model.num_cols)
     objective = np.ones(model.num_cols)
     worse[0] = 5.0
-    monkeypatch.setattr(solve_module, "run_within", lambda *_: BackendOutcome(
+    monkeypatch.setattr(heuristics, "run_within", lambda *_: BackendOutcome(
         Status.FEASIBLE_WITH_GAP, worse, 5.0, 0.0, "Stopped at the time limit", 1.0))
     said: list[str] = []
-    solve_module._restricted_run(HighsBackend(), model, objective, [], SolveOptions(),
-                                 (model.col_lower, model.col_upper), 1.0, start, "group",
-                                 said.append)
+    heuristics._restricted_run(HighsBackend(), model, objective, [], SolveOptions(),
+                               (model.col_lower, model.col_upper), 1.0, start, "group",
+                               said.append)
     assert said == ["  group: nothing better than its start (5 found, 1.0s)"]
 
 
@@ -648,23 +649,23 @@ def test_models_with_relocatable_people_per_destination_take_the_passes_sooner(t
     from rebalance.model import build_model
     from rebalance.rounding import MOVERS_FREE_MIN_SHARE, movers_free, relocatable_share
 
-    solve_module = importlib.import_module("rebalance.solve")
+    heuristics = importlib.import_module("rebalance.heuristics")
     spec = GeneratorSpec(staff=200, offices=12, skills=4, periods=6, relocatable_share=0.4,
                          seed=24)
     write_generated(generate(spec), tmp_path / "movers")
     model = build_model(read_instance(tmp_path / "movers"))
     detail = model.blocks["detail"]
     assert (detail.keys["home"] < 0).any()
-    assert (solve_module.LARGE_MODEL_COLUMNS_WITH_MOVERS < model.num_cols
-            < solve_module.LARGE_MODEL_COLUMNS)
-    assert solve_module._is_large(model, HighsBackend())
-    assert not solve_module._is_large(model, CbcBackend())  # CBC reruns dearly
+    assert (heuristics.LARGE_MODEL_COLUMNS_WITH_MOVERS < model.num_cols
+            < heuristics.LARGE_MODEL_COLUMNS)
+    assert heuristics.is_large(model, HighsBackend())
+    assert not heuristics.is_large(model, CbcBackend())  # CBC reruns dearly
     # A share that large, on a model that small: their details join the rounding's LP.
     assert relocatable_share(model) >= MOVERS_FREE_MIN_SHARE and movers_free(model)
     # Per pair (no per-destination columns), the same people keep the LP path.
     paired = build_model(read_instance(tmp_path / "movers"), pair_details=True)
-    assert paired.num_cols < solve_module.LARGE_MODEL_COLUMNS
-    assert not solve_module._is_large(paired, HighsBackend())
+    assert paired.num_cols < heuristics.LARGE_MODEL_COLUMNS
+    assert not heuristics.is_large(paired, HighsBackend())
 
 
 @pytest.mark.parametrize("solver", ["highs", "cbc"])

@@ -25,7 +25,7 @@ from rebalance.backends import BackendOutcome, HighsBackend
 from rebalance.instance import Budget, Instance
 from rebalance.model import Model, build_model
 from rebalance.planning import PlanResult
-from rebalance.solve import SolveOptions, Status, held_shortfall
+from rebalance.solve import SolveOptions, Status
 from rebalance.split import solve_relaxation
 
 __all__ = ["MARGINAL_COLUMNS", "STEP_UNITS", "Candidate", "MarginalValues", "StepUnit", "Steps",
@@ -562,13 +562,13 @@ def _objective(result: PlanResult, options: SolveOptions) -> float:
 def _shortfall_noise(before: float, after: float, options: SolveOptions) -> float:
     """How far apart two plans' weighted shortfalls may be with the same least shortfall, in
     shortfall-first mode (0 otherwise): the cost stage may take up to
-    :func:`~rebalance.solve.held_shortfall`'s slack above it (1e-6 relative by default), and
+    :meth:`SolveOptions.held_shortfall`'s slack above it (1e-6 relative by default), and
     stage 1 may sit a feasibility tolerance (1e-6) below it.  A demo re-solve had read
     -6.98e-06 at a shortfall of 6.98 as "worse only within the two solves' gap"."""
     if options.mode != "shortfall-first":
         return 0.0
     most = max(before, after)
-    return held_shortfall(most, options) - most + FEASIBILITY_TOLERANCE
+    return options.held_shortfall(most) - most + FEASIBILITY_TOLERANCE
 
 
 def _gap(base: PlanResult, result: PlanResult) -> float | None:

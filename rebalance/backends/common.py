@@ -136,6 +136,13 @@ class SolveOptions:
     # offices: no plan after 28 s of a 40 s run), and a cost stage needs a plan to start.
     overtime_without_plan: float = field(default=0.0, compare=False)
 
+    def held_shortfall(self, shortfall: float) -> float:
+        """What the cost stage holds the weighted shortfall to after a stage 1 plan with
+        ``shortfall``: a small slack above it, never below the solvers' feasibility tolerance
+        (1e-6), since stage 1 may itself be that far under the true least shortfall, and
+        holding it tighter would make stage 2 pay for it."""
+        return shortfall + max(self.shortfall_tolerance * abs(shortfall), 1e-6)
+
 
 @dataclass(frozen=True)
 class BackendOutcome:

@@ -203,6 +203,39 @@ CBC_WRITE_PER_BUILD = 1.5  # medium, pooled: 2.4 s building, 3.3 s writing (meas
 MIN_CBC_SECONDS = 0.2
 
 
+@functools.cache
+def _primal_simplex_command() -> type:
+    """PuLP's COIN_CMD for an LP, solved once, by primal simplex (made on first use: the
+    verifier runs without PuLP).
+
+    CBC's default dual simplex had not solved a 40-office model's relaxation (35k columns) in
+    120 s, its primal infeasibility growing, where primal simplex takes 10 s (HiGHS 6 s). And
+    COIN_CMD ends an LP's command line with ``-initialSolve``, which after ``-primalS`` solved
+    the LP a second time, by dual simplex after presolve (19.3 s in all on that relaxation).
+    So the command line is ours; the files and their reading are PuLP's."""
+    import pulp
+
+    class PrimalSimplexLp(pulp.COIN_CMD):
+        def actualSolve(self, lp, **kwargs):
+            folder = Path(self.tmpDir)
+            mps, solution = folder / "lp.mps", folder / "lp.sol"
+            columns, column_names, row_names, _ = lp.writeMPS(str(mps), rename=1)
+            command = [self.path, str(mps), "-timeMode", "elapsed", "-sec", str(self.timeLimit),
+                       "-primalS", "-printingOptions", "all", "-solution", str(solution)]
+            with open(self.optionsDict["logPath"], "w") as log:
+                code = subprocess.Popen(command, stdout=log, stderr=log,
+                                        stdin=subprocess.DEVNULL).wait()
+            if code != 0 or not solution.exists():
+                raise pulp.PulpSolverError(f"CBC ended with code {code} and no solution file")
+            status, values, _, _, _, solution_status = self.readsol_MPS(
+                str(solution), lp, columns, column_names, row_names)
+            lp.assignVarsVals(values)
+            lp.assignStatus(status, solution_status)
+            return status
+
+    return PrimalSimplexLp
+
+
 def _cbc_out_of_time(started: float, words: str) -> BackendOutcome:
     return BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, None, words,
                           time.perf_counter() - started)
@@ -276,15 +309,14 @@ class CbcBackend:
         writing = CBC_WRITE_PER_BUILD * (time.perf_counter() - started)
         if latest - time.perf_counter() < max(MIN_CBC_SECONDS, writing):
             return _cbc_out_of_time(started, "no time left to run CBC after building its model")
-        # An LP (an analysis's relaxation, a bound) by primal simplex: CBC's default dual
-        # simplex had not solved a 40-office model's relaxation (35k columns) in 120 s, its
-        # primal infeasibility growing, where primal simplex takes 5 s (HiGHS 6 s).
+        # An LP (an analysis's relaxation, a bound) by primal simplex.
         is_lp = not bool(model.is_integer.any())
         with tempfile.TemporaryDirectory(prefix="rebalance-cbc-") as tmp:
             log_path = Path(tmp) / "cbc.log"
             # The CBC binary bundled with PuLP, driven through COIN_CMD (PULP_CBC_CMD is
             # deprecated in PuLP 3.3).
-            solver = pulp.COIN_CMD(
+            command = _primal_simplex_command() if is_lp else pulp.COIN_CMD
+            solver = command(
                 path=_cbc_launcher(),
                 msg=False,
                 # PuLP's building, and its writing the model out, use part of the allowance.
@@ -294,7 +326,7 @@ class CbcBackend:
                 warmStart=start is not None,
                 logPath=str(log_path),
                 mip=not is_lp,
-                options=[f"randomCbcSeed {options.seed + 1}"] + (["primalS"] if is_lp else []),
+                options=[f"randomCbcSeed {options.seed + 1}"],
             )
             solver.tmpDir = tmp  # each solve its own folder
             watcher = _CbcLogWatcher(log_path, options.progress, options.known_bound)

@@ -23,7 +23,8 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 if TYPE_CHECKING:
-    from rebalance.model import ColumnBlock, Terms, _Builder, _Columns, _Frame
+    from rebalance.model import _Builder, _Columns, _Frame
+    from rebalance.model_data import ColumnBlock, Terms
 
 __all__ = ["Relocation"]
 

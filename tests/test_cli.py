@@ -440,3 +440,12 @@ def test_marginal_help_says_where_estimates_come_from(capsys):
     text = " ".join(capsys.readouterr().out.split())
     assert "LP-dual estimates" not in text
     assert "LP re-solves with the limit moved, else LP duals" in text
+
+
+def test_the_time_limit_counts_from_the_start_of_the_process():
+    # Python's start and imports (about 0.5 s) had come before the clock of `plan`, which
+    # counts the whole run against its --time-limit: a run of 1 s had ended at 1.4 s.
+    code = ("import time; time.sleep(1.0); "
+            "from rebalance.cli import _seconds_since_process_start as since; print(since())")
+    run = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert 1.0 <= float(run.stdout) < 30.0

@@ -357,6 +357,11 @@ def _not_searched(words: str) -> BackendOutcome:
 BOUND_TOLERANCE = 1e-6
 
 
+def _above(bound: float | None, objective: float) -> bool:
+    """Whether ``bound`` lies above a plan's ``objective`` by more than the tolerance."""
+    return bound is not None and bound > objective + BOUND_TOLERANCE * max(1.0, abs(objective))
+
+
 def _bound_checked(out: BackendOutcome, fallback: float | None, relative_gap_wanted: float,
                    say: Callable[[str], None] | None = None) -> BackendOutcome:
     """``out`` with a bound above its own plan's objective discarded: such a bound bounds
@@ -368,12 +373,10 @@ def _bound_checked(out: BackendOutcome, fallback: float | None, relative_gap_wan
     HiGHS with presolve off find 109,000); the plan of 109,000 was kept, the bound was not
     dropped.
     """
-    if (out.objective is None or out.bound is None
-            or out.bound <= out.objective + BOUND_TOLERANCE * max(1.0, abs(out.objective))):
+    if out.objective is None or not _above(out.bound, out.objective):
         return out
     kept = (max(fallback, OBJECTIVE_FLOOR) if fallback is not None
-            and fallback <= out.objective + BOUND_TOLERANCE * max(1.0, abs(out.objective))
-            else OBJECTIVE_FLOOR)
+            and not _above(fallback, out.objective) else OBJECTIVE_FLOOR)
     if say is not None:
         source = "the LP's" if fallback == kept else "no plan scores below 0"
         say(f"  the solver's bound {out.bound:.6g} is above the plan kept "
@@ -404,8 +407,7 @@ def _with_floor(out: BackendOutcome, relative_gap_wanted: float) -> BackendOutco
         out = replace(out, bound=OBJECTIVE_FLOOR)
     gap = relative_gap(out.objective, out.bound)
     # A bound above the plan is no proof (a solver's wrong claim), whatever the gap reads.
-    above = (out.objective is not None and out.bound is not None
-             and out.bound > out.objective + BOUND_TOLERANCE * max(1.0, abs(out.objective)))
+    above = out.objective is not None and _above(out.bound, out.objective)
     if (out.status is not Status.OPTIMAL and not above and gap is not None
             and gap <= relative_gap_wanted):
         out = replace(out, status=Status.OPTIMAL, words="its plan meets its bound")

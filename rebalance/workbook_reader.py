@@ -13,8 +13,10 @@ from __future__ import annotations
 import csv
 import datetime as dt
 import math
+import posixpath
 import re
 import tomllib
+import zipfile
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, replace
 from pathlib import Path
@@ -57,6 +59,15 @@ class _Sheet:
     unsaved_formulas: tuple[tuple[int, str], ...] = ()
     # (row, column, range) of cells a merge left empty, a value showing over them.
     merged_away: tuple[tuple[int, str, str], ...] = ()
+
+
+@dataclass(frozen=True)
+class _Layout:
+    """What read-only mode does not show of a sheet: hidden rows and columns, merges."""
+
+    hidden_rows: tuple[int, ...] = ()
+    hidden_columns: tuple[tuple[int, int], ...] = ()  # (first, last) spans, 1-based
+    merges: tuple[CellRange, ...] = ()
 
 
 def read_workbook(path: str | Path) -> Instance:
@@ -146,10 +157,15 @@ def _load_sheets(path: Path) -> tuple[dict[str, _Sheet], list[Problem]]:
     # text comes from a second pass, for cells that have no cached value.
     wb = load_workbook(path, read_only=True, data_only=True)
     formulas = load_workbook(path, read_only=True, data_only=False)
+    archive = zipfile.ZipFile(path)
     problems: list[Problem] = []
     try:
+        parts = _sheet_parts(archive)
         out: dict[str, _Sheet] = {}
         for ws, ws_text in zip(wb.worksheets, formulas.worksheets, strict=True):
+            # The part of the first sheet of this title not yet taken (a file may repeat one).
+            part = next((p for t, p in parts if t == ws.title), None)
+            parts = [(t, p) for t, p in parts if p != part]
             key = ws.title.strip().lower()
             if key in out:
                 problems.append(Problem(ws.title, None, None, "a second sheet of this name "
@@ -166,13 +182,20 @@ def _load_sheets(path: Path) -> tuple[dict[str, _Sheet], list[Problem]]:
                                         "the same, as every sheet is", is_warning=True))
             values = [tuple(r) for r in ws.iter_rows(values_only=True)]
             used = _used_columns(key)
-            hidden, merges = _layout(ws) if used else ((), ())
-            shown = [r for r in hidden if r <= len(values) and any(_text(c) for c in
-                                                                    values[r - 1])]
+            layout = _layout(archive, part) if used and part else _Layout()
+            shown = [r for r in layout.hidden_rows if r <= len(values)
+                     and any(_text(c) for c in values[r - 1])]
             if shown:
                 problems.append(Problem(ws.title, None, None, f"{_rows_words(shown)} hidden "
                                         "(by a filter or by hand); read all the same, as "
                                         "every row is", is_warning=True))
+            columns = _filled_columns(layout.hidden_columns, values)
+            if columns:
+                # A hidden column is read as any other: a required one is not missing, and
+                # its values, unseen, are the ones the plan takes.
+                problems.append(Problem(ws.title, None, None, f"{_columns_words(columns)} "
+                                        "hidden; read all the same, as every column is",
+                                        is_warning=True))
             header = [_text(c) for c in values[0]] if values else []
             while header and header[-1] == "":
                 header.pop()
@@ -191,12 +214,13 @@ def _load_sheets(path: Path) -> tuple[dict[str, _Sheet], list[Problem]]:
                                         "them (delete the rows above)"))
                 out[key] = _Sheet((), (), ())
                 continue
-            out[key] = _sheet(header, values, ws_text.iter_rows(values_only=True), merges,
-                              used)
+            out[key] = _sheet(header, values, ws_text.iter_rows(values_only=True),
+                              layout.merges, used)
         return out, problems
     finally:
         wb.close()
         formulas.close()
+        archive.close()
 
 
 # Column names of the sheets that are not instance tables.
@@ -227,18 +251,47 @@ def _used_columns(key: str) -> frozenset[str]:
     return frozenset()
 
 
-def _layout(ws: Any) -> tuple[tuple[int, ...], tuple[CellRange, ...]]:
-    """The hidden rows and the merged ranges of a read-only sheet.
+def _sheet_parts(archive: zipfile.ZipFile) -> list[tuple[str, str]]:
+    """(title, zip member) of each sheet, in the workbook's order: the workbook part is the
+    one ``[Content_Types].xml`` declares, as openpyxl finds it; its relationships name each
+    sheet's part, relative to its folder or, with a leading ``/``, to the package (ECMA-376
+    Part 2, 9.3)."""
+    from openpyxl.xml.constants import XLSM, XLSX, XLTM, XLTX
+    from openpyxl.xml.functions import fromstring
 
-    Read-only mode shows neither, and a full load of the book would cost far more than the
-    two passes that read it; one more pass over the sheet's XML, keeping no cells, is cheap.
+    book = "xl/workbook.xml"
+    for item in fromstring(archive.read("[Content_Types].xml")):
+        if item.get("ContentType") in (XLSX, XLSM, XLTX, XLTM) and item.get("PartName"):
+            book = item.get("PartName", "").lstrip("/")
+            break
+    folder, name = posixpath.split(book)
+    targets = {}
+    rels = posixpath.join(folder, "_rels", f"{name}.rels")
+    if rels in archive.namelist():
+        for rel in fromstring(archive.read(rels)):
+            target = rel.get("Target", "")
+            if rel.get("TargetMode") != "External" and rel.get("Id"):
+                targets[rel.get("Id")] = target[1:] if target.startswith("/") else (
+                    posixpath.normpath(posixpath.join(folder, target)))
+    relation = "{http://schemas.openxmlformats.org/officeDocument/2006/relationships}id"
+    return [(sheet.get("name", ""), targets[sheet.get(relation, "")])
+            for sheet in fromstring(archive.read(book)).iter()
+            if sheet.tag.rpartition("}")[2] == "sheet" and sheet.get(relation) in targets]
+
+
+def _layout(archive: zipfile.ZipFile, part: str) -> _Layout:
+    """The hidden rows and columns and the merged ranges of the sheet stored at ``part``.
+
+    Read-only mode shows none of them, and a full load of the book would cost far more than
+    the two passes that read it; one more pass over the sheet's XML, keeping no cells, is cheap.
     """
     from openpyxl.xml.functions import iterparse
 
     hidden: list[int] = []
+    columns: list[tuple[int, int]] = []
     merges: list[CellRange] = []
     row = 0
-    with ws._get_source() as source:  # the sheet's XML, as openpyxl's own reader opens it
+    with archive.open(part) as source:
         for _, element in iterparse(source):
             tag = element.tag.rpartition("}")[2]
             if tag == "row":
@@ -247,9 +300,35 @@ def _layout(ws: Any) -> tuple[tuple[int, ...], tuple[CellRange, ...]]:
                 if element.get("hidden") in ("1", "true"):
                     hidden.append(row)
                 element.clear()
+            elif tag == "col" and element.get("hidden") in ("1", "true"):
+                # One element spans columns min to max (ECMA-376 Part 1, 18.3.1.13 col).
+                first, last = element.get("min", ""), element.get("max", "")
+                if first.isdigit() and last.isdigit():
+                    columns.append((int(first), int(last)))
             elif tag == "mergeCell" and element.get("ref"):
                 merges.append(CellRange(element.get("ref")))
-    return tuple(hidden), tuple(merges)
+    return _Layout(tuple(hidden), tuple(columns), tuple(merges))
+
+
+def _filled_columns(spans: Iterable[tuple[int, int]],
+                    values: list[tuple[Any, ...]]) -> list[tuple[int, str]]:
+    """(column, header) of each column in ``spans`` with a header or a value, left to right;
+    a span may run to column XFD (unused columns hidden for looks), so only those the rows
+    reach are looked at."""
+    width = max((len(cells) for cells in values), default=0)
+    wanted = sorted({c for first, last in spans for c in range(first, min(last, width) + 1)})
+    return [(c, _text(values[0][c - 1]) if c <= len(values[0]) else "") for c in wanted
+            if any(c <= len(cells) and _text(cells[c - 1]) for cells in values)]
+
+
+def _columns_words(columns: list[tuple[int, str]]) -> str:
+    """``columns C (fte), F (no name) are`` (the first eight, then how many in all)."""
+    from openpyxl.utils import get_column_letter
+
+    words = [f"{get_column_letter(c)} ({name or 'no name'})" for c, name in columns[:8]]
+    more = [f"... ({len(columns)} columns in all)"] if len(columns) > 8 else []
+    return (f"column {words[0]} is" if len(columns) == 1
+            else "columns " + ", ".join(words + more) + " are")
 
 
 def _rows_words(rows: list[int]) -> str:

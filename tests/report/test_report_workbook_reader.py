@@ -468,3 +468,94 @@ def test_rows_hidden_by_a_filter_are_read_with_a_warning(tmp_path):
                          capture_output=True, text=True)
     assert run.returncode == 0, run.stderr
     assert "warning: tiny.xlsx[staff]: row" in run.stdout + run.stderr
+
+
+# A column is hidden by the hidden attribute of the <col> element spanning it, min to max
+# (ECMA-376 Part 1, 18.3.1.13 col); openpyxl writes one per column_dimensions entry, and one
+# span for column_dimensions.group(..., hidden=True) (openpyxl docs, "Simple usage": Fold
+# (outline)).
+def test_a_hidden_column_is_read_with_a_warning(tmp_path):
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    ws = wb["offices"]
+    ws["F1"] = "note"  # a column of notes the reader does not take
+    ws["F2"] = "seats counted in 2026"
+    ws.column_dimensions["F"].hidden = True
+    ws.column_dimensions.group("H", "XFD", hidden=True)  # the unused columns, hidden for looks
+    wb.save(book)
+    instance = read_workbook(book)
+    assert _same(read_instance(TINY), instance)
+    assert _hidden_warnings(instance) == [
+        "tiny.xlsx[offices]: column F (note) is hidden; read all the same, as every column is"]
+
+
+def test_several_hidden_columns_are_named_in_one_warning(tmp_path):
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    ws = wb["demand"]
+    ws["G1"] = "old_fte"  # an old column kept beside the one read, hidden
+    ws["G2"] = 2.5
+    ws.column_dimensions.group("D", "E", hidden=True)  # fte and priority: one span
+    ws.column_dimensions["G"].hidden = True
+    ws.column_dimensions["F"].hidden = True  # blank: nothing is read from it
+    wb.save(book)
+    instance = read_workbook(book)
+    assert _same(read_instance(TINY), instance)
+    assert _hidden_warnings(instance) == [
+        "tiny.xlsx[demand]: columns D (fte), E (priority), G (old_fte) are hidden; read all "
+        "the same, as every column is"]
+
+
+def test_a_hidden_required_column_is_read_not_missing(tmp_path):
+    # Hidden, fte is still the staff's contracted FTE: read (the same instance as the
+    # folder's, no "required column is missing") and warned, as its values are not in view.
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    wb["staff"].column_dimensions["C"].hidden = True
+    wb.save(book)
+    instance = read_workbook(book)
+    assert _same(read_instance(TINY), instance)
+    assert _hidden_warnings(instance) == [
+        "tiny.xlsx[staff]: column C (fte) is hidden; read all the same, as every column is"]
+    wb["staff"]["C3"] = 1.5  # a bad value in the hidden column names its cell as any other
+    wb.save(book)
+    with pytest.raises(InstanceError, match=r"\[staff\]:3: fte: '1.5' is out of range"):
+        read_workbook(book)
+
+
+def test_sheet_parts_are_found_through_the_workbook_relationships(tmp_path):
+    # A package's parts may have any names: the workbook part's relationships name each
+    # sheet's part, by a target relative to the workbook's folder or, with a leading "/", to
+    # the package (ECMA-376 Part 2, 9.3); here the parts are renamed and listed backwards.
+    import re
+    import zipfile
+
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    wb["demand"].row_dimensions[3].hidden = True
+    wb["staff"].column_dimensions["C"].hidden = True
+    wb["offices"].merge_cells("B2:B3")
+    wb.save(book)
+    count = len(wb.sheetnames)
+    renamed = {f"xl/worksheets/sheet{i}.xml": f"xl/tables/part{count + 1 - i}.xml"
+               for i in range(1, count + 1)}
+    out = tmp_path / "renamed.xlsx"
+    with zipfile.ZipFile(book) as zin, zipfile.ZipFile(out, "w", zipfile.ZIP_DEFLATED) as zout:
+        for item in zin.infolist():
+            data = zin.read(item.filename).decode("utf-8", "replace")
+            if item.filename in ("[Content_Types].xml", "xl/_rels/workbook.xml.rels"):
+                # openpyxl names the parts from the package root: "/xl/worksheets/..."
+                data = re.sub(r"/xl/(worksheets/sheet\d+\.xml)",
+                              lambda m: "/" + renamed["xl/" + m.group(1)], data)
+            zout.writestr(renamed.get(item.filename, item.filename),
+                          data if item.filename.endswith((".xml", ".rels")) else
+                          zin.read(item.filename))
+    with zipfile.ZipFile(out) as check:
+        assert "xl/worksheets/sheet1.xml" not in check.namelist()
+    with pytest.raises(InstanceError) as caught:
+        read_workbook(out)
+    text = [str(p) for p in caught.value.problems]
+    assert ("tiny.xlsx[offices]:3: location: empty because cells B2:B3 are merged; unmerge "
+            "them and fill each cell".replace("tiny.xlsx", "renamed.xlsx")) in text, text
+    assert any(t.startswith("renamed.xlsx[demand]: row 3 is hidden") for t in text), text
+    assert any(t.startswith("renamed.xlsx[staff]: column C (fte) is hidden") for t in text)

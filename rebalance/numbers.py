@@ -10,21 +10,31 @@ of the chain may use it.
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable, Sequence
 
 __all__ = [
     "FTE_TOTAL_DIGITS",
+    "GAP_DIGITS",
     "MONEY_WORDS",
     "NEAR_ZERO",
+    "SECONDS_DIGITS",
+    "SHARE_DIGITS",
+    "TABLE_DIGITS",
     "column_header",
+    "column_texts",
     "dust_free",
     "fte_total_text",
+    "gap_text",
+    "has_decimals",
     "is_gap",
     "is_money",
     "money_amount",
     "money_header",
     "money_text",
+    "number_rule",
     "number_text",
     "seconds_text",
+    "share_of",
     "share_text",
     "with_currency",
 ]
@@ -37,6 +47,19 @@ MONEY_WORDS = ("cost", "spend", "salary")
 # Totals of FTE-periods in headlines (console summary, page cards, workbook summary): one
 # decimal everywhere, so 168.592 / 168.6 / 168.59 of one figure read as one figure.
 FTE_TOTAL_DIGITS = 1
+# Decimals of a table's figures that are neither money, gaps nor whole numbers (FTE in a
+# table row, a budget factor): the console, the page's tables and the workbook's sheets alike
+# (the console had written 2 where the page wrote 3).
+TABLE_DIGITS = 3
+# Relative gaps as percentages with two decimals everywhere (the console had written
+# "0.0000%" where the page wrote "0.00%", the notebook "1.9%").
+GAP_DIGITS = 2
+# Shares (of a budget used, of demand not covered) as percentages with one decimal: the page's
+# card had "12.3%" where its tables had "12%"; a workbook cell format cannot drop decimals
+# by value, so one fixed count is the rule every surface can keep.
+SHARE_DIGITS = 1
+# Seconds, to two decimals.
+SECONDS_DIGITS = 2
 
 
 def is_gap(column: str) -> bool:
@@ -91,37 +114,79 @@ def fte_total_text(value: float) -> str:
 
 
 def seconds_text(value: float) -> str:
-    """Seconds with two decimals, rounded first to the three that summary.json stores: the
-    console (which has the exact value) and the page (which reads the stored one) had shown
-    0.03 and 0.04 for one build."""
-    return f"{round(float(value), 3):,.2f}"
+    """Seconds with :data:`SECONDS_DIGITS` decimals, rounded first to the three that
+    summary.json stores: the console (which has the exact value) and the page (which reads
+    the stored one) had shown 0.03 and 0.04 for one build."""
+    return f"{round(float(value), 3):,.{SECONDS_DIGITS}f}"
+
+
+def gap_text(value: float) -> str:
+    """A relative gap (0.0123) as a percentage with :data:`GAP_DIGITS` decimals (1.23%)."""
+    return f"{dust_free(value) + 0.0:.{GAP_DIGITS}%}"
 
 
 def share_text(part: float, whole: float) -> str:
-    """``part`` as a percentage of ``whole``, one decimal where a whole percent would read
-    as 100% or 0% without being it: 298,500 of 300,000 is 99.5%, not 100%."""
+    """``part`` as a percentage of ``whole`` with :data:`SHARE_DIGITS` decimals, kept off
+    100% and 0% where it is not that: 298,500 of 300,000 is 99.5%, and 299,990 of it 99.9%,
+    not 100.0%; one of it "under 0.1%", not 0.0%."""
     if not whole:
         return "-"
     share = 100.0 * part / whole
-    text = f"{share:.0f}%"
-    if text == "100%" and share != 100.0:
+    d = SHARE_DIGITS
+    text = f"{share:.{d}f}%"
+    step = 10.0 ** -d
+    if text == f"{100:.{d}f}%" and share != 100.0:
         # Kept off 100, so 99.96% reads 99.9% and 100.04% reads 100.1%.
-        return f"{min(share, 99.9) if share < 100.0 else max(share, 100.1):.1f}%"
-    if text == "0%" and share > 0.0:
-        return f"{share:.1f}%" if share >= 0.05 else "under 0.1%"
+        return f"{min(share, 100 - step) if share < 100.0 else max(share, 100 + step):.{d}f}%"
+    if text == f"{0:.{d}f}%" and share > 0.0:
+        return f"under {step:.{d}f}%"
     return text
 
 
-def number_text(value: float, column: str = "", *, digits: int = 3) -> str:
+def share_of(fraction: float) -> str:
+    """A share given as a fraction (0.123) by :func:`share_text` (12.3%)."""
+    return share_text(fraction, 1.0)
+
+
+def has_decimals(values: Iterable[object]) -> bool:
+    """Whether any finite number among ``values`` (solver dust aside) is not whole: a column
+    where one is takes decimals in every row (a frontier had read "0.50" in one row and "1"
+    in the next)."""
+    for value in values:
+        if isinstance(value, bool) or not isinstance(value, int | float):
+            continue
+        v = dust_free(float(value))
+        if math.isfinite(v) and not v.is_integer() and abs(v) < 1000:
+            return True
+    return False
+
+
+def number_text(value: float, column: str = "", *, digits: int = TABLE_DIGITS,
+                decimals: bool | None = None) -> str:
     """A number as a reader wants it: solver dust such as 4.4e-16 as 0, gaps as percentages,
     money and whole numbers without decimals (so also anything from 1,000 up, where decimals
     are noise), ``digits`` decimals otherwise.  ``column`` is the table column's name, which
-    says whether it holds a gap or money."""
+    says whether it holds a gap or money; ``decimals`` (from :func:`has_decimals` of the
+    column) gives a whole number under 1,000 decimals too, so a column reads alike."""
     v = dust_free(value)
     if is_gap(column):
-        return f"{v:.2%}"
-    if is_money(column) or v.is_integer() or abs(v) >= 1000:
+        return gap_text(v)
+    if is_money(column) or abs(v) >= 1000 or (v.is_integer() and not decimals):
         return money_text(v)
     text = f"{v + 0.0:,.{digits}f}"
     # No "-0.000": -0.00017 rounds to nothing, and a sign on nothing reads as a loss.
     return text[1:] if text.startswith("-") and not text.strip("-0.,") else text
+
+
+def column_texts(values: Sequence[float], column: str = "", *,
+                 digits: int = TABLE_DIGITS) -> list[str]:
+    """A column's numbers by :func:`number_text`, with decimals in every row or in none."""
+    decimals = has_decimals(values)
+    return [number_text(v, column, digits=digits, decimals=decimals) for v in values]
+
+
+def number_rule() -> dict[str, int]:
+    """The rule's decimals, for the page's drawing script (which writes its charts' labels
+    and tips by them, so a chart reads as the tables beside it)."""
+    return {"table_digits": TABLE_DIGITS, "total_digits": FTE_TOTAL_DIGITS,
+            "gap_digits": GAP_DIGITS, "share_digits": SHARE_DIGITS}

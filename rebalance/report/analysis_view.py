@@ -18,7 +18,14 @@ from typing import Any
 import pandas as pd
 
 from rebalance.analysis.marginal import STEP_UNITS
-from rebalance.numbers import column_header, money_amount, money_header
+from rebalance.numbers import (
+    column_header,
+    column_texts,
+    gap_text,
+    is_money,
+    money_amount,
+    money_header,
+)
 from rebalance.report.htmlparts import chart, e, frame_table_html, section
 from rebalance.report.inputs import SHEET_ONLY, ReportData
 
@@ -90,8 +97,11 @@ def _frontier(frame: pd.DataFrame, currency: str | None = None) -> dict[str, Any
                         avoid=("spend",))
     groups: list[tuple[str | None, pd.DataFrame]] = [(None, frame)]
     if moves is not None and frame[moves].nunique() > 1:
-        groups = [(f"{moves.replace('_', ' ')} {value:,g}", part)
-                  for value, part in frame.groupby(moves, sort=True)]
+        parts = list(frame.groupby(moves, sort=True))
+        # By the number rule, as the table below writes them (":,g" had written 1.5e+06).
+        texts = column_texts([float(value) for value, _ in parts])  # type: ignore[arg-type]  # numeric keys
+        groups = [(f"{moves.replace('_', ' ')} {text}", part)
+                  for text, (_, part) in zip(texts, parts, strict=True)]
     series = []
     for label, part in groups:
         ordered = part.sort_values(x)
@@ -136,7 +146,8 @@ def _scenarios(frame: pd.DataFrame, currency: str | None = None) -> dict[str, An
     if not chosen:
         return None
     return {"labels": [str(v) for v in frame[label].tolist()],
-            "metrics": [{"name": column_header(c, currency),
+            # "money": the script writes those bars' values in full, as the table below.
+            "metrics": [{"name": column_header(c, currency), "money": is_money(c),
                          "values": _finite(frame[c].tolist())} for c in chosen]}
 
 
@@ -330,7 +341,7 @@ def _gap_note(frame: pd.DataFrame) -> str:
     if not gaps or max(gaps) <= 1e-4:
         return ""
     return ('<p class="note">These solves stopped before proving their plans best, with gaps '
-            f"of up to {max(gaps):.1%} (the <code>gap</code> column). A difference between "
+            f"of up to {gap_text(max(gaps))} (the <code>gap</code> column). A difference between "
             "rows smaller than that share of a figure may come from where each search "
             "stopped rather than from what was changed: give the solves more time "
             "(<code>--time-limit</code>) before reading it as real.</p>")

@@ -12,11 +12,14 @@ from rebalance.instance import Instance
 from rebalance.numbers import (
     column_header,
     fte_total_text,
+    gap_text,
+    has_decimals,
     is_money,
     money_amount,
     money_text,
     number_text,
     seconds_text,
+    share_text,
     with_currency,
 )
 from rebalance.planning import BUILD_STAGE, CAUTION, PlanResult
@@ -26,6 +29,7 @@ from rebalance.verify import Violation
 __all__ = [
     "MEASURE_COLUMN",
     "cell_text",
+    "column_decimals",
     "format_check",
     "format_frame",
     "format_outcome",
@@ -86,7 +90,7 @@ def format_check(instance: Instance) -> str:
         f"{counted(len(instance.skills), 'skill')}, {len(instance.staff):,} staff, "
         f"{counted(len(periods), 'period')} ({span}), "
         f"{counted(len(instance.demand), 'demand row')} "
-        f"({sum(d.fte for d in instance.demand):,.1f} FTE-periods)",
+        f"({fte_total_text(sum(d.fte for d in instance.demand))} FTE-periods)",
     ]
     lines += [f"  warning: {w}" for w in instance.warnings]
     return "\n".join(lines)
@@ -102,7 +106,7 @@ def format_summary(result: PlanResult) -> str:
             "",
             f"  weighted shortfall   {fte_total_text(plan.weighted_shortfall)} FTE-periods "
             f"({fte_total_text(plan.shortfall_fte)} unweighted, "
-            f"{plan.shortfall_fte / demand:.1%} of {fte_total_text(demand)} demanded)"
+            f"{share_text(plan.shortfall_fte, demand)} of {fte_total_text(demand)} demanded)"
             if demand else "  no demand",
             f"  total cost           {money_amount(plan.total_cost, money.currency)}",
             f"  hires                {plan.hires_count()}",
@@ -167,7 +171,7 @@ def _outcome_lines(result: PlanResult, *, replan: bool = False) -> list[str]:
                  f"({result.num_integer:,} integer) x {result.num_rows:,} rows; "
                  f"build {seconds_text(result.build_seconds)}s, "
                  f"solve {seconds_text(s.solve_seconds)}s"
-                 + (f", gap {gap:.4%}" if gap is not None else ""))
+                 + (f", gap {gap_text(gap)}" if gap is not None else ""))
     for stage in s.stages:
         bound = "-" if stage.bound is None or not math.isfinite(stage.bound) else (
             stage_value(stage.name, stage.bound, currency))
@@ -176,7 +180,7 @@ def _outcome_lines(result: PlanResult, *, replan: bool = False) -> list[str]:
         status = stage.status.value
         if stage.status is Status.OPTIMAL and stage.gap:
             # Optimal as asked: within the relative gap the run was given, not exactly.
-            status += f" within the gap asked ({stage.gap:.2%} left)"
+            status += f" within the gap asked ({gap_text(stage.gap)} left)"
         lines.append(f"  stage {stage.name}: {status}, objective {objective}, "
                      f"bound {bound}, {seconds_text(stage.seconds)}s ({stage.solver_words})")
         room = room_left(stage, currency, replan=replan)
@@ -227,11 +231,11 @@ def room_left(stage: StageResult, currency: str | None = None, *,
     if stage.bound <= 0.0 < stage.objective:
         # Only the floor (nothing costs less than 0): "may cost up to all of it less" reads
         # as a finding about the plan, when the stage simply had no time to bound it.
-        return (f"no bound worked out in the {stage.seconds:.1f}s this stage had, beyond 0 "
-                f"(gap {stage.gap:.2%})")
+        return (f"no bound worked out in the {seconds_text(stage.seconds)}s this stage had, "
+                f"beyond 0 (gap {gap_text(stage.gap)})")
     words = REPLAN_ROOM_WORDS if replan else ROOM_WORDS
     amount = stage_value(stage.name, stage.objective - stage.bound, currency)
-    return words[stage.name].format(room=amount) + f" (gap {stage.gap:.2%})"
+    return words[stage.name].format(room=amount) + f" (gap {gap_text(stage.gap)})"
 
 
 # Tables of measures (replan.csv: one row per measure, columns old_plan, new_plan,
@@ -248,22 +252,33 @@ def measure_names(frame: pd.DataFrame) -> list[str] | None:
 
 
 def cell_text(value: float, column: str, measure: str | None = None,
-              currency: str | None = None, *, digits: int = 3) -> str:
+              currency: str | None = None, *, decimals: bool | None = None) -> str:
     """A table's number by :func:`number_text`, named by its row's ``measure`` where the
     table is one of measures; a money row's cells carry the ``currency``, as its column's
-    name cannot."""
+    name cannot.  ``decimals``: the column has decimals somewhere (:func:`has_decimals`), so
+    its whole numbers take them too; not in a table of measures, whose rows differ in kind."""
     if measure is None:
-        return number_text(value, column, digits=digits)
-    text = number_text(value, measure, digits=digits)
+        return number_text(value, column, decimals=decimals)
+    text = number_text(value, measure)
     return with_currency(text, currency) if is_money(measure) else text
 
 
+def column_decimals(column: pd.Series) -> bool:
+    """Whether a column's numbers take decimals in every row (:func:`has_decimals`)."""
+    if not pd.api.types.is_numeric_dtype(column) or pd.api.types.is_bool_dtype(column):
+        return False
+    return has_decimals(float(v) for v in column.tolist() if not is_missing(v))
+
+
 def format_frame(frame: pd.DataFrame, currency: str | None = None) -> str:
-    """A result table for the console, as a reader wants it (:func:`number_text`, two
-    decimals to keep columns narrow), yes/no for flags and "-" where there is no value (pandas
+    """A result table for the console, as a reader wants it (:func:`number_text`, the
+    decimals of the page and the workbook), yes/no for flags and "-" where there is no value (pandas
     printed ``NaN``, ``True`` and ``2465500.0``).  Column names stay those of the CSV files;
     with a ``currency``, money columns' names say it (``total_cost (EUR)``), and in a table of
     measures (:func:`measure_names`) money rows' cells do."""
+
+    columns = [str(c) for c in frame.columns]
+    decimals = {c: column_decimals(frame[c]) for c in columns}
 
     def cell(column: str, value: object, measure: str | None) -> str:
         if is_missing(value):
@@ -271,10 +286,10 @@ def format_frame(frame: pd.DataFrame, currency: str | None = None) -> str:
         if is_flag(value):
             return "yes" if value else "no"
         if isinstance(value, int | float | np.integer | np.floating):
-            return cell_text(float(value), column, measure, currency, digits=2)
+            return cell_text(float(value), column, measure, currency,
+                             decimals=decimals[column])
         return str(value)
 
-    columns = [str(c) for c in frame.columns]
     named = measure_names(frame)
     measures: list[str | None] = [None] * len(frame) if named is None else [*named]
     rows = [[cell(c, v, m) for c, v in zip(columns, values, strict=True)]

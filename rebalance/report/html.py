@@ -5,8 +5,10 @@ no third-party code) are inlined, and the chart data rides along as JSON.  Chart
 as SVG by the script when the page opens; each chart marks itself drawn (``data-drawn``) so a
 browser test can tell a blank page from a finished one.
 
-Python's part is aggregation only: sums of plan tables by office, period and skill.  The plan
-itself is never recomputed here.
+Python's part is aggregation only: sums of plan tables by office, period and skill, worked
+out in :mod:`rebalance.report.chart_data` (``new_position_salaries`` and ``spare_capacity``
+are re-exported here for callers that imported them from this module).  The plan itself is
+never recomputed here.
 """
 
 from __future__ import annotations
@@ -17,12 +19,10 @@ from importlib import resources
 from pathlib import Path
 from typing import Any
 
-import pandas as pd
-
 from rebalance.numbers import (
-    NEAR_ZERO,
     dust_free,
     fte_total_text,
+    gap_text,
     money_amount,
     money_text,
     seconds_text,
@@ -30,12 +30,17 @@ from rebalance.numbers import (
 )
 from rebalance.planning import BUILD_STAGE
 from rebalance.report import analysis_view
+from rebalance.report.chart_data import (
+    chart_payload,
+    new_position_salaries,
+    records,
+    spare_capacity,
+)
 from rebalance.report.console import stage_value
 from rebalance.report.htmlparts import (
     card,
     chart,
     e,
-    num,
     plain_status,
     section,
     stage_words,
@@ -57,11 +62,6 @@ STATUS_WORDS = {
 }
 
 
-def _records(frame: pd.DataFrame) -> list[dict[str, Any]]:
-    """Rows as dicts (``itertuples`` would shadow a ``count`` column with tuple.count)."""
-    return [{str(k): v for k, v in row.items()} for row in frame.to_dict("records")]
-
-
 def _m(value: float) -> tuple[float, str]:
     """A money cell: raw value to sort by, whole units to show."""
     return float(value), money_text(float(value))
@@ -69,199 +69,6 @@ def _m(value: float) -> tuple[float, str]:
 
 def _asset(name: str) -> str:
     return resources.files("rebalance.report").joinpath("assets", name).read_text("utf-8")
-
-
-# --------------------------------------------------------------------------------------------
-# chart data (aggregates of plan tables)
-
-
-def _with_spare(coverage: pd.DataFrame) -> pd.DataFrame:
-    """Coverage rows with ``output_fte`` (what staff and hires there produce) and
-    ``spare_fte``: output beyond the row's demand, which covers nothing in the plan."""
-    cov = coverage.copy()
-    if len(cov):
-        cov["output_fte"] = cov["staff_output_fte"] + cov["hire_output_fte"]
-        spare = (cov["output_fte"] - cov["covered_fte"]).clip(lower=0.0)
-        cov["spare_fte"] = spare.where(spare > NEAR_ZERO, 0.0)
-    else:
-        cov["output_fte"] = cov["spare_fte"] = pd.Series(dtype=float)
-    return cov
-
-
-def spare_capacity(data: ReportData) -> pd.DataFrame:
-    """Per office, FTE-periods of output beyond demand (summed over its skills and periods)
-    and of people's time there with no work at all (``unassigned_fte``: people whose skills
-    the office does not want then have no work rows, so output alone had missed them),
-    beside demand, output and shortfall; the skills holding most of the spare output."""
-    cov = _with_spare(data.plan.coverage)
-    unassigned = _unassigned_time(data)
-    rows = []
-    for office in [o.name for o in data.instance.offices]:
-        part = cov[cov["office"] == office]
-        if part.empty and not unassigned.get(office):
-            continue
-        by_skill = part.groupby("skill")["spare_fte"].sum().sort_values(ascending=False)
-        top = [f"{skill} {value:.1f}" for skill, value in by_skill.head(3).items()
-               if value >= 0.05]
-        rows.append({"office": office, "demand_fte": float(part["demand_fte"].sum()),
-                     "output_fte": float(part["output_fte"].sum()),
-                     "shortfall_fte": float(part["shortfall_fte"].sum()),
-                     "spare_fte": float(part["spare_fte"].sum()),
-                     "unassigned_fte": unassigned.get(office, 0.0), "most_in": ", ".join(top)})
-    return pd.DataFrame(rows, columns=["office", "demand_fte", "output_fte", "shortfall_fte",
-                                       "spare_fte", "unassigned_fte", "most_in"])
-
-
-def _unassigned_time(data: ReportData) -> dict[str, float]:
-    """Per office, FTE-periods of the available time of people there (at their home in force
-    and not away, or on detail there) that the plan gives no work."""
-    instance, plan = data.instance, data.plan
-    names = instance.period_names
-    away = {(str(p), str(t)): str(o) for p, t, o in zip(
-        plan.details["person"], plan.details["period"], plan.details["to_office"],
-        strict=True)}
-    moved = {str(p): (names.index(str(t)), str(o)) for p, t, o in zip(
-        plan.reassignments["person"], plan.reassignments["period"],
-        plan.reassignments["to_office"], strict=True)}
-    worked = plan.work.groupby([plan.work["person"].astype(str),
-                                plan.work["period"].astype(str)])["fte"].sum().to_dict()
-    out: dict[str, float] = {}
-    for person in instance.staff:
-        move = moved.get(person.person)
-        for t, period in enumerate(names):
-            available = instance.available_fte(person, t)
-            if available <= 0:
-                continue
-            home = move[1] if move is not None and t >= move[0] else person.home_office
-            where = away.get((person.person, period), home)
-            idle = available - float(worked.get((person.person, period), 0.0))
-            if idle > NEAR_ZERO:
-                out[where] = out.get(where, 0.0) + idle
-    return out
-
-
-def _coverage_series(data: ReportData) -> dict[str, Any]:
-    periods = list(data.instance.period_names)
-    cov = _with_spare(data.plan.coverage)
-    offices = [o.name for o in data.instance.offices]
-    if len(cov):
-        # Stack what staff cover first, then what hires add, up to the demand line; output
-        # beyond demand (spare) is drawn above the line, where it covers nothing.
-        cov["staff_cov"] = cov[["staff_output_fte", "demand_fte"]].min(axis=1)
-        cov["hire_cov"] = (cov["covered_fte"] - cov["staff_cov"]).clip(lower=0.0)
-    series = []
-    for office in [None, *offices]:
-        part = cov if office is None else cov[cov["office"] == office]
-        if office is not None and part.empty:
-            continue
-        sums = part.groupby("period")[["demand_fte", "staff_cov", "hire_cov", "covered_fte",
-                                       "shortfall_fte", "spare_fte"]].sum() if len(
-            part) else pd.DataFrame()
-
-        def col(name: str, sums: pd.DataFrame = sums) -> list[float]:
-            return [round(float(sums[name].get(p, 0.0)), 4) + 0.0 if len(sums) else 0.0
-                    for p in periods]
-
-        series.append({"office": office or "all offices", "demand": col("demand_fte"),
-                       "staff": col("staff_cov"), "hires": col("hire_cov"),
-                       "shortfall": col("shortfall_fte"), "spare": col("spare_fte")})
-    return {"periods": periods, "series": series}
-
-
-def new_position_salaries(data: ReportData) -> pd.DataFrame:
-    """Yearly salary that the plan's new positions commit beyond the horizon, by skill:
-    hires funded as new positions x the skill's salary per period x periods per year."""
-    hires = data.plan.hires
-    columns = ["skill", "positions", "salary_per_period", "per_year"]
-    if hires.empty:
-        return pd.DataFrame(columns=columns)
-    new = hires[hires["funding"] == "new"].groupby("skill")["count"].sum()
-    salary = {s.name: s.salary_per_period for s in data.instance.skills}
-    per_year = data.instance.periods_per_year
-    rows = [{"skill": skill, "positions": int(count),
-             "salary_per_period": float(salary.get(str(skill), 0.0)),
-             "per_year": int(count) * float(salary.get(str(skill), 0.0)) * per_year}
-            for skill, count in new.items() if count > 0]
-    return pd.DataFrame(rows, columns=columns)
-
-
-def _heat(data: ReportData) -> dict[str, Any]:
-    periods = list(data.instance.period_names)
-    cov = data.plan.coverage
-    offices = [o.name for o in data.instance.offices]
-    cells = []
-    for office in offices:
-        part = cov[cov["office"] == office]
-        row = []
-        for period in periods:
-            here = part[part["period"] == period]
-            short = here[here["shortfall_fte"] > 1e-9]
-            worst = (short.sort_values("shortfall_fte", ascending=False)["skill"].head(3)
-                     .tolist())
-            row.append({"shortfall": round(float(here["shortfall_fte"].sum()), 4),
-                        "weighted": round(float(here["weighted_shortfall"].sum()), 4),
-                        "demand": round(float(here["demand_fte"].sum()), 4),
-                        "skills": worst, "skills_short": len(short)})
-        cells.append(row)
-    return {"offices": offices, "periods": periods, "cells": cells}
-
-
-def _flows(data: ReportData) -> dict[str, Any]:
-    periods = list(data.instance.period_names)
-    T = len(periods)
-    index = {p: i for i, p in enumerate(periods)}
-    flows: dict[tuple[str, str], dict[str, Any]] = {}
-
-    def entry(a: str, b: str) -> dict[str, Any]:
-        return flows.setdefault((a, b), {"from": a, "to": b, "detail_periods": 0,
-                                         "detail_people": set(), "reassignments": 0,
-                                         "reassigned_periods": 0})
-
-    for row in _records(data.plan.details):
-        e = entry(str(row["from_office"]), str(row["to_office"]))
-        e["detail_periods"] += 1
-        e["detail_people"].add(str(row["person"]))
-    for row in _records(data.plan.reassignments):
-        e = entry(str(row["from_office"]), str(row["to_office"]))
-        e["reassignments"] += 1
-        # One common width unit: a reassignment moves a person's work for every period
-        # from its start to the end of the horizon.
-        e["reassigned_periods"] += T - index.get(str(row["period"]), 0)
-    out = []
-    for e in flows.values():
-        e["detail_people"] = len(e["detail_people"])
-        out.append(e)
-    out.sort(key=lambda f: -(f["detail_periods"] + f["reassigned_periods"]))
-    return {"offices": [o.name for o in data.instance.offices], "flows": out}
-
-
-def _hires(data: ReportData) -> dict[str, Any]:
-    periods = list(data.instance.period_names)
-    skills = [s.name for s in data.instance.skills]
-    hires = data.plan.hires
-    counts = {s: [0] * len(periods) for s in skills}
-    index = {p: i for i, p in enumerate(periods)}
-    for row in _records(hires):
-        if row["skill"] in counts and str(row["start_period"]) in index:
-            counts[row["skill"]][index[str(row["start_period"])]] += int(row["count"])
-    used = [s for s in skills if any(counts[s])]
-    return {"periods": periods, "skills": used, "counts": [counts[s] for s in used]}
-
-
-def _budget_rows(data: ReportData) -> list[dict[str, Any]]:
-    costs = data.plan.costs.groupby(["year", "kind"])["cost"].sum() if len(
-        data.plan.costs) else pd.Series(dtype=float)
-    rows = []
-    for year in data.instance.years:
-        budget = data.instance.budget(year)
-        for kind, kinds, cap in (
-                ("hiring", ("onboarding", "new_position_salary"),
-                 None if budget is None else budget.hiring),
-                ("moves", ("detail", "relocation"), None if budget is None else budget.moves)):
-            parts = {k: float(costs.get((year, k), 0.0)) for k in kinds}
-            rows.append({"year": year, "kind": kind, "spend": sum(parts.values()),
-                         "cap": cap, "parts": parts})
-    return rows
 
 
 # --------------------------------------------------------------------------------------------
@@ -318,7 +125,8 @@ def _headline(data: ReportData) -> str:
     cards = [
         # Headline totals as the console's summary and the workbook's write them.
         card("Weighted shortfall", fte_total_text(plan.weighted_shortfall),
-              f"FTE-periods; unweighted {fte_total_text(plan.shortfall_fte)}, {share:.1%} of "
+              f"FTE-periods; unweighted {fte_total_text(plan.shortfall_fte)}, "
+              f"{share_text(plan.shortfall_fte, demand)} of "
               f"{fte_total_text(demand)} demanded",
               "warn" if share > 0.02 else "ok"),
         card("Idle capacity", fte_total_text(spare_total), spare_note),
@@ -344,7 +152,7 @@ def _spare_table(data: ReportData) -> str:
     rows = [[r["office"], _f(r["demand_fte"]), _f(r["output_fte"]), _f(r["shortfall_fte"]),
              _f(r["spare_fte"]), _share(r["spare_fte"], r["output_fte"]),
              _f(r["unassigned_fte"]), r["most_in"]]
-            for r in _records(spare)]
+            for r in records(spare)]
     total = ["all offices", *(_f(float(spare[c].sum())) for c in (
         "demand_fte", "output_fte", "shortfall_fte", "spare_fte")),
         _share(float(spare["spare_fte"].sum()), float(spare["output_fte"].sum())),
@@ -364,10 +172,11 @@ def _spare_table(data: ReportData) -> str:
                          foot=[total]))
 
 
-def _f(value: float, digits: int = 1) -> tuple[float, str]:
-    """An FTE cell: raw value to sort by, rounded to show (solver dust as 0)."""
+def _f(value: float) -> tuple[float, str]:
+    """A total of FTE-periods: raw value to sort by, shown as the workbook's summary shows
+    the same table (:func:`fte_total_text`; solver dust as 0)."""
     v = dust_free(value)
-    return v, num(v + 0.0, digits)
+    return v, fte_total_text(v)
 
 
 def _share(part: float, whole: float) -> tuple[float, str]:
@@ -405,7 +214,7 @@ def _detail_runs(data: ReportData) -> list[list[Any]]:
     details["t"] = details["period"].map(lambda p: index.get(str(p), -1))
     details = details.sort_values(["person", "t"])
     current: list[Any] | None = None
-    for row in _records(details):
+    for row in records(details):
         if (current is not None and current[0] == row["person"] and current[2] == row["to_office"]
                 and current[-1] == row["t"] - 1):
             current[4] = row["period"]
@@ -427,15 +236,7 @@ def render_html(data: ReportData) -> str:
     inst, plan, run = data.instance, data.plan, data.summary
     cash = inst.money.header  # a money column's name, with the currency where one is set
     extra = analysis_view.analysis_payload(data)
-    payload = {
-        "coverage": _coverage_series(data),
-        "heat": _heat(data),
-        "flows": _flows(data),
-        "hires": _hires(data),
-        "budget": _budget_rows(data),
-        "currency": inst.money.currency,  # the budget chart's axis says it
-        **extra.payload,
-    }
+    payload = {**chart_payload(data), **extra.payload}
     # "</" inside a script element would end it early; JSON allows the escaped form.
     data_json = json.dumps(payload, separators=(",", ":"), allow_nan=False).replace("</", "<\\/")
     written = dt.datetime.now(dt.UTC).strftime("%Y-%m-%d %H:%M UTC")
@@ -473,7 +274,7 @@ def render_html(data: ReportData) -> str:
         name="details", numeric=[False] * 5 + [True, True], limit=TABLE_ROWS) if runs else
         '<p class="quiet">No details in this plan.</p>')
     reas = [[r["person"], r["from_office"], r["to_office"], r["period"], _m(r["cost"])]
-            for r in _records(plan.reassignments)]
+            for r in records(plan.reassignments)]
     moves_body += "<h3>Reassignments</h3>" + (table_html(
         ["person", "from office", "to office", "effective", cash("cost")], reas,
         name="reassignments", numeric=[False] * 4 + [True], limit=TABLE_ROWS) if reas else
@@ -487,7 +288,7 @@ def render_html(data: ReportData) -> str:
               _m(r["onboarding_cost"]), _m(r["salary_cost"]),
               _m(int(r["count"]) * salary.get(str(r["skill"]), 0.0) * inst.periods_per_year)
               if r["funding"] == "new" else (0.0, "-")]
-             for r in _records(plan.hires)]
+             for r in records(plan.hires)]
     sections.append(section(
         "hiring", "Hiring",
         "Hires by the period they start and by skill. New hires ramp up before they are fully "
@@ -563,7 +364,7 @@ def _commitments(data: ReportData) -> str:
     per_year = money_amount(total, inst.money.currency)
     positions = int(table["positions"].sum())
     rows = [[r["skill"], int(r["positions"]), _m(r["salary_per_period"]), _m(r["per_year"])]
-            for r in _records(table)]
+            for r in records(table)]
     return (f"<h3>Committed beyond the horizon</h3><p class=\"lead\">The {positions:,} new "
             f"position{'' if positions == 1 else 's'} this plan creates keep being paid after "
             f"{e(inst.periods[-1].name)}: <strong>{e(per_year)} a year"
@@ -590,9 +391,6 @@ def _run_details(data: ReportData) -> str:
     currency = data.instance.money.currency
     replan = run.replan is not None
 
-    def fmt(value: float | None, spec: str) -> str:
-        return "-" if value is None else format(value, spec)
-
     def secs(value: float | None) -> str:
         return "-" if value is None else seconds_text(value)
 
@@ -600,7 +398,7 @@ def _run_details(data: ReportData) -> str:
         ("solver", run.solver_version or run.solver or "-"),
         ("objective", run.objective_mode or "-"),
         ("outcome", STATUS_WORDS.get(run.status, (plain_status(run.status), ""))[0]),
-        ("largest stage gap at stop", fmt(run.gap, ".2%")),
+        ("largest stage gap at stop", "-" if run.gap is None else gap_text(run.gap)),
         ("model", f"{run.model_columns or 0:,} columns ({run.model_integer_columns or 0:,} "
                   f"whole-number) and {run.model_rows or 0:,} rows"),
         ("build / solve seconds", f"{secs(run.build_seconds)} / {secs(run.solve_seconds)}"),
@@ -617,7 +415,7 @@ def _run_details(data: ReportData) -> str:
                             _stage_value(s, s.objective, currency),
                             _stage_value(s, s.bound, currency),
                             (s.gap if s.gap is not None else -1,
-                             "-" if s.gap is None else f"{s.gap:.2%}"),
+                             "-" if s.gap is None else gap_text(s.gap)),
                             (s.seconds if s.seconds is not None else -1,
                              secs(s.seconds)), s.solver_says] for s in run.stages],
                           name="stages", numeric=[False, False, True, True, True, True, False])

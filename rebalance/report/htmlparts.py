@@ -1,5 +1,5 @@
-"""Small HTML building blocks shared by the report's pages: escaping, number text, sortable
-tables, chart placeholders and sections."""
+"""Small HTML building blocks shared by the report's pages: escaping, sortable tables (numbers
+written by :mod:`rebalance.numbers`), chart placeholders and sections."""
 
 from __future__ import annotations
 
@@ -11,11 +11,18 @@ from typing import Any, Protocol
 
 import pandas as pd
 
-from rebalance.numbers import dust_free, is_money, money_header
-from rebalance.report.console import cell_text, is_flag, is_missing, measure_names, room_left
+from rebalance.numbers import dust_free, gap_text, has_decimals, is_money, money_header, number_text
+from rebalance.report.console import (
+    cell_text,
+    column_decimals,
+    is_flag,
+    is_missing,
+    measure_names,
+    room_left,
+)
 from rebalance.solve import StageResult, Status
 
-__all__ = ["PLAIN_STATUS", "card", "chart", "e", "frame_table_html", "num", "plain_status",
+__all__ = ["PLAIN_STATUS", "card", "chart", "e", "frame_table_html", "plain_status",
            "readable", "section", "stage_words", "table_html"]
 
 # Solver outcomes in plain words, for the page and the workbook (never the raw status word).
@@ -32,10 +39,6 @@ PLAIN_STATUS = {
 
 def e(value: object) -> str:
     return html.escape(str(value), quote=True)
-
-
-def num(value: float, digits: int = 1) -> str:
-    return f"{value:,.{digits}f}"
 
 
 def plain_status(status: str) -> str:
@@ -78,14 +81,14 @@ def stage_words(stage: _Stage, currency: str | None = None, *, replan: bool = Fa
         return plain_status(stage.status)
     if status is Status.OPTIMAL:
         # Optimal as asked: within the relative gap the run was given, not exactly.
-        return "optimal" + (f" within the gap asked ({stage.gap:.2%} left)" if stage.gap
-                            else "")
+        return "optimal" + (f" within the gap asked ({gap_text(stage.gap)} left)"
+                            if stage.gap else "")
     if status is Status.FEASIBLE_WITH_GAP:
         room = room_left(StageResult(stage.name, status, stage.objective, stage.bound,
                                       stage.gap, stage.seconds or 0.0, stage.solver_says),
                          currency, replan=replan)
         if room is None:
-            room = "gap unknown" if stage.gap is None else f"gap {stage.gap:.2%}"
+            room = "gap unknown" if stage.gap is None else f"gap {gap_text(stage.gap)}"
         return f"not proven best: {room}"
     return plain_status(stage.status)
 
@@ -98,26 +101,30 @@ def table_html(headers: Sequence[str], rows: Sequence[Sequence[Any]], *, name: s
     numeric = numeric or [False] * len(headers)
     head = "".join(f'<th scope="col" class="{"num" if n else ""}" tabindex="0">{e(h)}</th>'
                    for h, n in zip(headers, numeric, strict=True))
-    body = [_row(r, numeric) for r in (rows if limit is None else rows[:limit])]
+    shown = rows if limit is None else rows[:limit]
+    # Plain floats by the number rule, a column with decimals anywhere with them in every row.
+    decimals = [n and has_decimals(r[i] for r in [*shown, *foot] if isinstance(r[i], float))
+                for i, n in enumerate(numeric)]
+    body = [_row(r, numeric, decimals) for r in shown]
     more = ""
     if limit is not None and len(rows) > limit:
         more = (f'<p class="more">Showing the first {limit:,} of {len(rows):,} rows; the full '
                 "table is in the plan folder and in plan.xlsx.</p>")
     cap = f"<caption>{e(caption)}</caption>" if caption else ""
-    tfoot = f"<tfoot>{''.join(_row(r, numeric) for r in foot)}</tfoot>" if foot else ""
+    tfoot = f"<tfoot>{''.join(_row(r, numeric, decimals) for r in foot)}</tfoot>" if foot else ""
     return (f'<div class="table-wrap"><table class="sortable" data-table="{e(name)}">{cap}'
             f"<thead><tr>{head}</tr></thead><tbody>{''.join(body)}</tbody>{tfoot}</table>"
             f"</div>{more}")
 
 
-def _row(r: Sequence[Any], numeric: Sequence[bool]) -> str:
+def _row(r: Sequence[Any], numeric: Sequence[bool], decimals: Sequence[bool]) -> str:
     cells = []
-    for value, is_num in zip(r, numeric, strict=True):
+    for value, is_num, dec in zip(r, numeric, decimals, strict=True):
         if isinstance(value, tuple):  # (sort value, shown text)
             sort, text = value
             cells.append(f'<td class="num" data-v="{e(sort)}">{e(text)}</td>')
         elif is_num and isinstance(value, int | float) and not isinstance(value, bool):
-            text = num(value, 2) if isinstance(value, float) else f"{value:,}"
+            text = number_text(value, decimals=dec) if isinstance(value, float) else f"{value:,}"
             cells.append(f'<td class="num" data-v="{value}">{e(text)}</td>')
         else:
             text = "" if value is None else str(value)
@@ -128,7 +135,7 @@ def _row(r: Sequence[Any], numeric: Sequence[bool]) -> str:
 
 
 def _cell(value: Any, column: str, is_num: bool, measure: str | None = None,
-          currency: str | None = None) -> Any:
+          currency: str | None = None, decimals: bool = False) -> Any:
     """One cell of an analysis table as the page shows it (see :func:`frame_table_html`)."""
     if is_missing(value):
         return ""  # blank, not the console's "-": the sorting script reads blank as no number
@@ -136,7 +143,7 @@ def _cell(value: Any, column: str, is_num: bool, measure: str | None = None,
         return "yes" if value else "no"
     if is_num and isinstance(value, int | float) and math.isfinite(float(value)):
         v = dust_free(value)
-        return (v, cell_text(v, column, measure, currency))
+        return (v, cell_text(v, column, measure, currency, decimals=decimals))
     if column.lower() == "status" and isinstance(value, str):
         return plain_status(value)
     return value
@@ -154,8 +161,9 @@ def frame_table_html(frame: pd.DataFrame, name: str, limit: int = 200,
         frame[c]) for c in frame.columns]
     named = measure_names(frame)
     measures: list[str | None] = [None] * len(frame) if named is None else [*named]
-    rows = [[_cell(v, c, n, m, currency) for v, c, n in zip(values, columns, numeric,
-                                                            strict=True)]
+    decimals = [column_decimals(frame[c]) for c in frame.columns]
+    rows = [[_cell(v, c, n, m, currency, d) for v, c, n, d in zip(values, columns, numeric,
+                                                                  decimals, strict=True)]
             for values, m in zip(frame.itertuples(index=False, name=None), measures,
                                  strict=True)]
     headers = [money_header(readable(c), currency) if is_money(c) else readable(c)

@@ -17,6 +17,7 @@ from typing import Any
 import pandas as pd
 
 from rebalance.instance import Instance
+from rebalance.numbers import gap_text
 from rebalance.plan import Plan, read_plan
 from rebalance.planning import CAUTION, PlanResult, summary_dict
 from rebalance.verify import Violation, verify_folder
@@ -168,7 +169,7 @@ def quality_notes(data: ReportData) -> list[str]:
     """Warnings a reader must see before the figures: a wide gap, a failed verification."""
     run, notes = data.summary, []
     if run.status == "feasible_with_gap" and (run.gap is None or run.gap > WIDE_GAP):
-        gap = "an unknown gap" if run.gap is None else f"a gap of {run.gap:.0%}"
+        gap = "an unknown gap" if run.gap is None else f"a gap of {gap_text(run.gap)}"
         notes.append(f"The solver stopped at its time limit with {gap} between this plan and "
                      "the best bound it proved: a better plan may exist. Give it more time "
                      "(--time-limit) before relying on these figures.")

@@ -21,31 +21,38 @@ import pandas as pd
 from rebalance.files import sibling_name
 from rebalance.numbers import (
     FTE_TOTAL_DIGITS,
+    GAP_DIGITS,
     NEAR_ZERO,
+    SHARE_DIGITS,
+    TABLE_DIGITS,
     column_header,
     dust_free,
     fte_total_text,
+    has_decimals,
     is_gap,
     is_money,
     money_text,
     seconds_text,
 )
 from rebalance.plan import PLAN_TABLES
+from rebalance.report.chart_data import new_position_salaries, spare_capacity
 from rebalance.report.console import cell_text, measure_names
-from rebalance.report.html import STATUS_WORDS, new_position_salaries, spare_capacity
+from rebalance.report.html import STATUS_WORDS
 from rebalance.report.htmlparts import plain_status, stage_words
 from rebalance.report.inputs import ReportData, quality_notes
 
 __all__ = ["write_workbook"]
 
 MONEY = "#,##0"
-FTE = "#,##0.00"
+# Decimals as the one rule (rebalance/numbers.py) gives them to the console and the page: a
+# sheet's FTE had two where the page's tables had three.
+FTE = "#,##0." + "0" * TABLE_DIGITS
 # Headline totals of FTE-periods, to the console's and the page's one decimal.
 FTE_TOTAL = "#,##0." + "0" * FTE_TOTAL_DIGITS
 WHOLE = "#,##0"
-SHARE = "0.0%"
-GAP = "0.00%"
-DECIMALS = "#,##0.000"
+SHARE = "0." + "0" * SHARE_DIGITS + "%"
+GAP = "0." + "0" * GAP_DIGITS + "%"
+DECIMALS = "#,##0." + "0" * TABLE_DIGITS
 HEADER_FILL = "#23404A"  # deep slate, the report's ink colour
 HEADER_FONT = "#FFFFFF"
 BAND_FILL = "#F3EFE6"  # warm paper, for the summary's section labels
@@ -232,17 +239,20 @@ def _fit_widths(ws: Any, columns: Sequence[str], frame: pd.DataFrame | None = No
             if fmt in (MONEY, WHOLE) and pd.api.types.is_numeric_dtype(sample):
                 width = max(width, len(money_text(sample.abs().max())) + 1)
             elif fmt == FTE and pd.api.types.is_numeric_dtype(sample):
-                width = max(width, len(f"{sample.abs().max():,.2f}") + 1)
+                width = max(width, len(f"{sample.abs().max():,.{TABLE_DIGITS}f}") + 1)
             else:
                 lengths = [len(str(v)) for v in sample.tolist() if not pd.isna(v)]
                 width = max([width, *lengths])
         ws.set_column(i, i, min(max(width + 2, 9), 48))
 
 
-def _plain_number_formats(column: pd.Series, values: list[Any], styles: _Styles) -> Any:
+def _plain_number_formats(column: pd.Series, values: list[Any], styles: _Styles,
+                          per_row: bool = False) -> Any:
     """Formats for a numeric column its name says nothing about: whole numbers without
-    decimals (24, not 24.0), others to three places; one format, or one per cell where a
-    column mixes them (a re-plan's rows of counts and FTE)."""
+    decimals (24, not 24.0), others to the rule's places.  A column with decimals anywhere
+    has them in every row, as the page and the console write it (a frontier's factors had
+    read 0.500 and 1); ``per_row`` (a re-plan's rows of counts and FTE, one measure a row)
+    gives a format per cell instead."""
     if not (isinstance(column.dtype, np.dtype) and column.dtype.kind == "f"):
         return None
     numbers = np.array([v if isinstance(v, float) else np.nan for v in values], dtype=float)
@@ -251,7 +261,18 @@ def _plain_number_formats(column: pd.Series, values: list[Any], styles: _Styles)
     if whole.all():
         return styles.number(WHOLE)
     whole_format, decimals = styles.number(WHOLE), styles.number(DECIMALS)
+    if not per_row:
+        return decimals
     return [whole_format if w else decimals for w in whole.tolist()]
+
+
+def _named_format(column: str, values: list[Any], styles: _Styles) -> Any:
+    """The format a column's name gives it; FTE without decimals where every value is whole,
+    as the page and the console write such a column (3, not 3.000)."""
+    fmt = _format_for(column)
+    if fmt == FTE and not has_decimals(values):
+        fmt = WHOLE
+    return styles.number(fmt)
 
 
 def _measure_formats(frame: pd.DataFrame, values: list[list[Any]], formats: list[Any],
@@ -281,10 +302,11 @@ def _table_sheet(ws: Any, styles: _Styles, frame: pd.DataFrame,
     for j, header in enumerate(headers):
         ws.write_string(0, j, header, styles.header)
     values = [_column_values(frame.iloc[:, j]) for j in range(len(columns))]
-    formats = [styles.number(_format_for(c)) if _format_for(c) is not None else
-               _plain_number_formats(frame.iloc[:, j], values[j], styles)
-               for j, c in enumerate(columns)]
     measures = measure_names(frame)
+    formats = [_named_format(c, values[j], styles) if _format_for(c) is not None else
+               _plain_number_formats(frame.iloc[:, j], values[j], styles,
+                                     per_row=measures is not None)
+               for j, c in enumerate(columns)]
     if measures is not None:
         _measure_formats(frame, values, formats, measures, styles, currency)
     for j, column in enumerate(columns):

@@ -19,12 +19,13 @@ def test_gaps_money_counts_flags_and_missing_values_read_plainly() -> None:
                           "step": [10.0, 0.05]})
     text = format_frame(frame)
     assert "2.62%" in text and "2,465,500" in text and "2,442,000" in text
-    assert "165.95" in text and "yes" in text and "no" in text
+    assert "165.945" in text and "yes" in text and "no" in text  # the rule's three decimals
     assert "NaN" not in text and "True" not in text and "2465500.0" not in text
     lines = text.splitlines()
     assert lines[0].split() == list(frame.columns) and len(lines) == 4
     assert lines[3].split()[2] == "-"  # the missing gap
-    assert lines[2].split()[-1] == "10" and lines[3].split()[-1] == "0.05"
+    # One column, one count of decimals: "10" beside "0.05" had read as two kinds of figure.
+    assert lines[2].split()[-1] == "10.000" and lines[3].split()[-1] == "0.050"
 
 
 def test_the_console_and_the_page_write_numbers_by_one_rule():
@@ -41,5 +42,5 @@ def test_the_console_and_the_page_write_numbers_by_one_rule():
     page = htmlparts.frame_table_html(frame, "t")
     cells = re.findall(r"<td\b[^>]*>(.*?)</td>", page)
     assert cells == ["0", "123", "50.00%", "1,235", "2", "0.00%", "0", "0", "1.00%"]
-    # Decimals are each surface's own: two in a console column, three on the page.
+    # The rule's decimals serve every surface (the console's tables had kept two of their own).
     assert number_text(165.945102, digits=2) == "165.95" and number_text(165.945102) == "165.945"

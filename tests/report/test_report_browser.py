@@ -258,9 +258,11 @@ def test_marginal_labels_fit_the_card_and_ticks_carry_their_values(browser, tmp_
                      "+10 seats"]
     assert long_one[1] == 2 or long_one[0].endswith("\u2026")
     assert any(lines == 2 or text != title for text, title, lines in state["labels"])
-    # Each tick's value is written beside its bar.
-    for value in ("20.12 (estimate 49.37)", "15.10 (estimate 42.03)", "7.84 (estimate 31.10)",
-                  "1.95 (estimate 16.80)", "0.40 (estimate 0)"):
+    # Each tick's value is written beside its bar, as the table below writes it (the number
+    # rule's three decimals, in every bar alike: "0.40 (estimate 0)" had mixed two kinds).
+    for value in ("20.117 (estimate 49.370)", "15.098 (estimate 42.034)",
+                  "7.844 (estimate 31.103)", "1.953 (estimate 16.799)",
+                  "0.400 (estimate 0.000)"):
         assert value in state["values"], (value, state["values"])
 
 

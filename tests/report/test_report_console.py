@@ -29,7 +29,7 @@ def test_a_proven_stage_leaves_nothing_open():
 def test_a_stage_bounded_only_by_zero_says_it_had_no_time_to_bound_rather_than_all_may_go():
     # A sweep of generated instances: 50 small offices at 15 s left the cost stage 2 s.
     text = room_left(stage("cost", Status.FEASIBLE_WITH_GAP, 6_945_700.0, 0.0, 1.0))
-    assert text == "no bound worked out in the 10.0s this stage had, beyond 0 (gap 100.00%)"
+    assert text == "no bound worked out in the 10.00s this stage had, beyond 0 (gap 100.00%)"
 
 
 def test_a_stage_optimal_within_the_gap_asked_says_what_is_left():

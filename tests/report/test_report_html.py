@@ -226,7 +226,7 @@ def test_a_wide_gap_is_flagged_at_the_top(tmp_path):
     summary.update(status="feasible_with_gap", gap=0.4)
     (folder / "summary.json").write_text(json.dumps(summary))
     page = render_html(report_data_from_folder(folder, instance))
-    assert "a gap of 40%" in page and "a better plan may exist" in page
+    assert "a gap of 40.00%" in page and "a better plan may exist" in page
     assert page.index("a better plan may exist") < page.index('id="glance"')
 
 
@@ -234,7 +234,7 @@ def test_the_heat_map_says_how_many_skills_are_short_beside_the_worst_three():
     # A sweep: the tip said "skills short: a, b, c" where eight were short.
     from dataclasses import replace
 
-    from rebalance.report.html import _heat
+    from rebalance.report.chart_data import _heat
 
     data = report_data_from_folder(tiny_plan_folder(), read_instance(TINY))
     coverage = pd.DataFrame([

@@ -4,6 +4,7 @@ currency or in solver notation, and shares rounded up to 100%.  Each test pins o
 
 from __future__ import annotations
 
+import json
 import shutil
 import subprocess
 from dataclasses import replace
@@ -18,7 +19,7 @@ from report_cases import TINY, page_text
 
 from rebalance import read_instance
 from rebalance.instance import Money
-from rebalance.numbers import fte_total_text, seconds_text, share_text
+from rebalance.numbers import fte_total_text, number_rule, seconds_text, share_text
 from rebalance.planning import PlanResult
 from rebalance.report.console import format_frame, format_outcome, format_summary, room_left
 from rebalance.report.html import render_html, spare_capacity
@@ -94,7 +95,7 @@ def test_a_table_of_measures_reads_each_row_by_its_measure_on_the_console():
     assert lines["total_cost"] == ["2,463,500", "EUR", "2,463,500", "EUR", "0", "EUR"]
     assert lines["disruption_cost"][-2:] == ["1,500", "EUR"]
     assert lines["hires"] == ["24", "24", "0"]
-    assert lines["weighted_shortfall"] == ["185.34", "185.34", "0.00"]  # no -0.00
+    assert lines["weighted_shortfall"] == ["185.342", "185.342", "0.000"]  # no -0.000
 
 
 def test_a_table_of_measures_reads_each_row_by_its_measure_on_the_page():
@@ -177,12 +178,13 @@ def test_idle_capacity_is_both_parts_named_and_output_beyond_demand_is_one(tmp_p
     assert "capacity beyond demand (FTE-periods)" not in values
 
 
-# 9. "299k of 300k (100% used)" for 298,500 of 300,000.
+# 9. "299k of 300k (100% used)" for 298,500 of 300,000.  Shares now take the rule's one
+#    decimal everywhere (the card had "12.3%" where the tables had "12%").
 
 @pytest.mark.parametrize(("part", "whole", "text"), [
-    (298_500, 300_000, "99.5%"), (299_990, 300_000, "99.9%"), (300_000, 300_000, "100%"),
-    (301_000, 300_000, "100.3%"), (150_000, 300_000, "50%"), (1, 300_000, "under 0.1%"),
-    (0, 300_000, "0%")])
+    (298_500, 300_000, "99.5%"), (299_990, 300_000, "99.9%"), (300_000, 300_000, "100.0%"),
+    (301_000, 300_000, "100.3%"), (150_000, 300_000, "50.0%"), (1, 300_000, "under 0.1%"),
+    (0, 300_000, "0.0%"), (36_900, 300_000, "12.3%")])
 def test_a_share_reads_100_percent_only_when_it_is(part, whole, text):
     assert share_text(part, whole) == text
 
@@ -195,9 +197,11 @@ def test_the_page_script_writes_shares_by_the_same_rule():
     start = script.index("  function share(part, whole)")
     body = script[start:script.index("\n  }\n", start) + 4]
     cases = [(298_500, 300_000), (299_990, 300_000), (300_000, 300_000), (301_000, 300_000),
-             (1, 300_000)]
+             (1, 300_000), (36_900, 300_000), (0, 300_000)]
     calls = "; ".join(f"console.log(share({a}, {b}))" for a, b in cases)
-    done = subprocess.run([node, "-e", body + calls], capture_output=True, text=True,
+    # The script's decimals are the page's data.numbers, rebalance.numbers' own.
+    rule = f"var RULE = {json.dumps(number_rule())};"
+    done = subprocess.run([node, "-e", rule + body + calls], capture_output=True, text=True,
                           timeout=60, check=True)
     assert done.stdout.split("\n")[:-1] == [share_text(a, b) for a, b in cases]
 

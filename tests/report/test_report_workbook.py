@@ -50,7 +50,7 @@ def test_headers_frozen_filtered_and_formatted():
     coverage = book["coverage"]
     header = [c.value for c in coverage[1]]
     assert coverage.cell(row=2, column=header.index("demand_fte") + 1).number_format == \
-        "#,##0.00"
+        "#,##0.000"  # the number rule's decimals, as on the page
 
 
 def test_summary_sheet_figures_and_caution():
@@ -117,7 +117,7 @@ def test_text_stays_text_and_missing_or_infinite_numbers_stay_readable(tmp_path)
     assert all(sheet.cell(row=i, column=1).data_type == "s" for i in range(2, 6))
     assert [r[1] for r in rows] == [2027, 2028, None, 2029]  # a year is a number in every sheet
     assert [r[2] for r in rows] == [1.5, None, "inf", "-inf"]
-    assert sheet.cell(row=2, column=3).number_format == "#,##0.00"
+    assert sheet.cell(row=2, column=3).number_format == "#,##0.000"
     assert not sheet.cell(row=2, column=1).hyperlink
 
 

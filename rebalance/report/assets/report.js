@@ -36,27 +36,59 @@
     label(s, 12, 40, message, { "class": "empty" });
     return 0;
   }
-  function fmt(v, digits) {
+  // The number rule of rebalance/numbers.py: its decimals come with the data (main() sets
+  // them from data.numbers), so a chart's labels and tips read as the tables and cards beside
+  // it.  Money is written in full, never "299k" or "2.46M": beside "298,500" in the table
+  // such a label read as another figure.
+  var RULE = { table_digits: 3, total_digits: 1, gap_digits: 2, share_digits: 1 };
+  var DUST = 1e-9;  // numbers.NEAR_ZERO
+  // ``digits`` decimals with thousands separators.  toFixed rounds the binary value, as
+  // Python's format does (toLocaleString rounds the decimal text: 2,021.6 for Python's 2,021.5).
+  function fixed(v, digits) {
+    var parts = (v + 0).toFixed(digits).split(".");
+    parts[0] = parts[0].replace(/\B(?=(\d{3})+(?!\d))/g, ",");
+    return parts.join(".");
+  }
+  // numbers.money_text: whole units with separators.
+  function money(v) {
     if (v === null || v === undefined || isNaN(v)) { return "-"; }
-    var a = Math.abs(v);
-    if (a >= 1e6) { return (v / 1e6).toFixed(a >= 1e7 ? 1 : 2) + "M"; }
-    if (a >= 1e4) { return Math.round(v / 1e3) + "k"; }
-    if (a >= 100) { return Math.round(v).toLocaleString("en"); }
-    return v.toFixed(digits === undefined ? 1 : digits);
+    return (Math.round(v) + 0).toLocaleString("en");
   }
+  // numbers.number_text: whole numbers and anything from 1,000 up as money_text, others to
+  // the rule's decimals; ``decimals``: the series has decimals somewhere, so all take them.
+  function num(v, decimals) {
+    if (v === null || v === undefined || isNaN(v)) { return "-"; }
+    if (Math.abs(v) < DUST) { v = 0; }
+    if (Math.abs(v) >= 1000 || (Number.isInteger(v) && !decimals)) { return money(v); }
+    var text = fixed(v, RULE.table_digits);
+    return /^-[0.,]*$/.test(text) ? text.slice(1) : text;
+  }
+  // numbers.has_decimals.
+  function hasDecimals(values) {
+    return values.some(function (v) {
+      return typeof v === "number" && isFinite(v) && Math.abs(v) >= DUST && Math.abs(v) < 1000 &&
+        !Number.isInteger(v);
+    });
+  }
+  // numbers.fte_total_text: a total of FTE-periods (a heat map cell, an office's spare).
+  function total(v) {
+    if (v === null || v === undefined || isNaN(v)) { return "-"; }
+    return fixed(Math.abs(v) < DUST ? 0 : v, RULE.total_digits);
+  }
+  // An axis tick: a round number, in full.
   function tick(v) {
-    if (Math.abs(v) >= 1e4) { return fmt(v); }
-    return (Math.round(v * 100) / 100).toLocaleString("en");
+    return (Math.round(v * 100) / 100 + 0).toLocaleString("en");
   }
-  // A share as console.share_text writes it: never 100% unless it is (298,500 of 300,000
+  // A share as numbers.share_text writes it: never 100% unless it is (298,500 of 300,000
   // had read 100%), never 0% when something was spent.
   function share(part, whole) {
     if (!whole) { return "-"; }
-    var p = 100 * part / whole, text = Math.round(p) + "%";
-    if (text === "100%" && p !== 100) {
-      return (p < 100 ? Math.min(p, 99.9) : Math.max(p, 100.1)).toFixed(1) + "%";
+    var d = RULE.share_digits, step = Math.pow(10, -d), p = 100 * part / whole;
+    var text = p.toFixed(d) + "%";
+    if (text === (100).toFixed(d) + "%" && p !== 100) {
+      return (p < 100 ? Math.min(p, 100 - step) : Math.max(p, 100 + step)).toFixed(d) + "%";
     }
-    if (text === "0%" && p > 0) { return p >= 0.05 ? p.toFixed(1) + "%" : "under 0.1%"; }
+    if (text === (0).toFixed(d) + "%" && p > 0) { return "under " + step.toFixed(d) + "%"; }
     return text;
   }
   function ticks(max, count, whole) {
@@ -124,7 +156,7 @@
       var y = function (v) { return mt + ih - v / ymax * ih; };
       label(g, ml - 34, 14, s.office, { "class": "title" });
       label(g, W - mr, 14, "FTE", { "text-anchor": "end" });  // the axis's unit
-      label(g, ml - 34, 28, spareTotal >= 0.05 ? fmt(spareTotal, 1) +
+      label(g, ml - 34, 28, spareTotal >= 0.05 ? total(spareTotal) +
         " FTE-periods beyond demand (spare)" : "no output beyond demand",
         { "class": "spare-note" });
       yAxis(g, y, tk, ml, ml + iw);
@@ -160,9 +192,10 @@
         }
         var half = T === 1 ? iw / 2 : iw / (T - 1) / 2;
         el("rect", { x: x(i) - half, y: mt, width: 2 * half, height: ih, fill: "transparent",
-          "data-tip": s.office + ", " + d.periods[i] + "\ndemand " + fmt(s.demand[i], 2) +
-            " FTE\nstaff cover " + fmt(s.staff[i], 2) + "\nhires add " + fmt(s.hires[i], 2) +
-            "\nshort " + fmt(s.shortfall[i], 2) + "\nbeyond demand (spare) " + fmt(spare[i], 2) }, g);
+          "data-tip": s.office + ", " + d.periods[i] + "\ndemand " + num(s.demand[i], true) +
+            " FTE\nstaff cover " + num(s.staff[i], true) + "\nhires add " +
+            num(s.hires[i], true) + "\nshort " + num(s.shortfall[i], true) +
+            "\nbeyond demand (spare) " + num(spare[i], true) }, g);
       }
     });
     return marks;
@@ -188,13 +221,14 @@
     label(g, lw + T * cw + 40, top - 8, "total", { "text-anchor": "middle", "class": "title" });
     var colTotals = new Array(T).fill(0);
     d.cells.forEach(function (row, i) {
-      var yy = top + i * ch, total = 0;
+      var yy = top + i * ch, sum = 0;
       label(g, lw - 10, yy + ch / 2 + 4, d.offices[i], { "text-anchor": "end" });
       row.forEach(function (c, j) {
-        total += c.shortfall; colTotals[j] += c.shortfall;
+        sum += c.shortfall; colTotals[j] += c.shortfall;
         var t = max > 0 ? c.shortfall / max : 0;
-        var tip = d.offices[i] + ", " + d.periods[j] + "\nshort " + fmt(c.shortfall, 2) +
-          " of " + fmt(c.demand, 1) + " FTE demanded" + "\nweighted " + fmt(c.weighted, 2) +
+        var tip = d.offices[i] + ", " + d.periods[j] + "\nshort " + num(c.shortfall, true) +
+          " of " + num(c.demand, true) + " FTE demanded" + "\nweighted " +
+          num(c.weighted, true) +
           (c.skills.length ? "\n" + (c.skills_short > c.skills.length ?
             "most short (" + c.skills.length + " of " + c.skills_short + " skills short): " :
             "skills short: ") + c.skills.join(", ") : "");
@@ -202,17 +236,17 @@
           fill: c.shortfall > 1e-6 ? heatColour(0.12 + 0.88 * t) : "#f3f0e7", "data-tip": tip }, g);
         marks++;
         if (c.shortfall >= 0.05) {
-          label(g, lw + j * cw + cw / 2, yy + ch / 2 + 4, c.shortfall.toFixed(1), {
+          label(g, lw + j * cw + cw / 2, yy + ch / 2 + 4, total(c.shortfall), {
             "text-anchor": "middle", style: "pointer-events:none;fill:" + (t > 0.45 ? "#fff" : C.ink) });
         }
       });
-      label(g, lw + T * cw + 40, yy + ch / 2 + 4, total.toFixed(1), { "text-anchor": "middle",
+      label(g, lw + T * cw + 40, yy + ch / 2 + 4, total(sum), { "text-anchor": "middle",
         "class": "title" });
     });
     var yb = top + R * ch + 4;
     label(g, lw - 10, yb + ch / 2 + 4, "all offices", { "text-anchor": "end", "class": "title" });
     colTotals.forEach(function (v, j) {
-      label(g, lw + j * cw + cw / 2, yb + ch / 2 + 4, v.toFixed(1), { "text-anchor": "middle",
+      label(g, lw + j * cw + cw / 2, yb + ch / 2 + 4, total(v), { "text-anchor": "middle",
         "class": "title" });
     });
     var ly = yb + ch + 8, lx = lw;
@@ -221,7 +255,7 @@
       el("rect", { x: lx + k * 8, y: ly, width: 8, height: 10, fill: heatColour(0.12 + 0.88 * k / 20) }, g);
     }
     label(g, lx, ly + 24, "0");
-    label(g, lx + 168, ly + 24, fmt(max, 1), { "text-anchor": "end" });
+    label(g, lx + 168, ly + 24, total(max), { "text-anchor": "end" });
     return marks;
   }
 
@@ -341,7 +375,7 @@
     tk.forEach(function (v) {
       el("line", { x1: xv(v), x2: xv(v), y1: 6, y2: axisY }, gridG);
       el("line", { x1: xv(v), x2: xv(v), y1: axisY, y2: axisY + 4 }, axis);
-      label(axis, xv(v), axisY + 16, tick(v), { "text-anchor": "middle" });
+      label(axis, xv(v), axisY + 16, money(v), { "text-anchor": "middle" });
     });
     el("line", { x1: lw, x2: lw + bw, y1: axisY, y2: axisY }, axis);
     // The page's currency, where the instance names one: the axis says it, as the caption does.
@@ -356,7 +390,7 @@
         if (v <= 0) { return; }
         el("rect", { x: xv(acc), y: yy + 7, width: v / dom * bw, height: 14,
           fill: (PART[key] || [C.staff])[0], "data-v": v,
-          "data-tip": r.year + " " + ((PART[key] || [0, key])[1]) + ": " + Math.round(v).toLocaleString("en") }, g);
+          "data-tip": r.year + " " + ((PART[key] || [0, key])[1]) + ": " + money(v) }, g);
         acc += v;
         marks++;
       });
@@ -364,10 +398,10 @@
       if (r.cap !== null) {
         var cx = xv(r.cap);
         el("line", { x1: cx, x2: cx, y1: yy + 1, y2: yy + 27, stroke: C.ink, "stroke-width": 2.5,
-          "data-tip": r.year + " " + r.kind + " cap: " + Math.round(r.cap).toLocaleString("en") }, g);
+          "data-tip": r.year + " " + r.kind + " cap: " + money(r.cap) }, g);
       }
-      var words = tick(r.spend) + (r.cap === null ? " spent, no cap" :
-        " of " + tick(r.cap) + " (" + share(r.spend, r.cap) + " used)");
+      var words = money(r.spend) + (r.cap === null ? " spent, no cap" :
+        " of " + money(r.cap) + " (" + share(r.spend, r.cap) + " used)");
       label(g, lw + bw + 14, yy + 18, words, over ? { style: "fill:" + C.short } : {});
       marks++;
     });
@@ -389,11 +423,13 @@
     var x = function (v) { return ml + (v - xmin) / (xmax - xmin) * iw; };
     var y = function (v) { return mt + ih - v / ymax * ih; };
     var g = svg(box, W, H), marks = 0, seen = {};
+    // Budgets, shortfalls and costs as the frontier table below writes them.
+    var xDec = hasDecimals(xsRaw), yDec = hasDecimals(ysRaw);
     yAxis(g, y, tk, ml, ml + iw);
     all.forEach(function (p) {
       if (seen[p.x]) { return; }
       seen[p.x] = true;
-      label(g, x(p.x), H - 20, tick(p.x), { "text-anchor": "middle" });
+      label(g, x(p.x), H - 20, num(p.x, xDec), { "text-anchor": "middle" });
     });
     label(g, ml + iw / 2, H - 4, d.x_label.replace(/_/g, " "), { "text-anchor": "middle", "class": "title" });
     label(g, 4, 10, d.y_label.replace(/_/g, " "), { "class": "title" });
@@ -408,8 +444,9 @@
           label(g, x(p.x) + 13, y(p.y) - 10, "knee", { "class": "title" });
         }
         el("circle", { cx: x(p.x), cy: y(p.y), r: 4.5, fill: colour,
-          "data-tip": (s.label ? s.label + "\n" : "") + d.x_label + " " + fmt(p.x) + "\n" + d.y_label + " " +
-            fmt(p.y, 2) + (p.cost !== null ? "\n" + (d.cost_label || "cost") + " " + fmt(p.cost) : "") }, g);
+          "data-tip": (s.label ? s.label + "\n" : "") + d.x_label + " " + num(p.x, xDec) + "\n" +
+            d.y_label + " " + num(p.y, yDec) +
+            (p.cost !== null ? "\n" + (d.cost_label || "cost") + " " + money(p.cost) : "") }, g);
         marks++;
       });
     });
@@ -441,7 +478,10 @@
     g.removeChild(probe);
     return lines;
   }
-  function hbars(parent, labels, values, title, colour, W, ticksAt, tips) {
+  // ``isMoney``: the values are money (a scenario's total cost), written in full.
+  function hbars(parent, labels, values, title, colour, W, ticksAt, tips, isMoney) {
+    var dec = hasDecimals(values.concat(ticksAt || []));
+    var write = function (v) { return isMoney ? money(v) : num(v, dec); };
     var g0 = svg(parent, W, 10);
     var widest = 0;
     labels.forEach(function (l) {
@@ -451,7 +491,7 @@
     });
     // Labels get at most 38% of the width; longer ones wrap or are cut (full text on hover).
     var lw = Math.min(Math.ceil(widest) + 16, Math.round(W * 0.38));
-    var room = lw - 10, rm = ticksAt ? 150 : 60, bw = W - lw - rm;
+    var room = lw - 10, rm = ticksAt ? 150 : 72, bw = W - lw - rm;
     var lines = labels.map(function (l) { return fitText(g0, l, room); });
     var two = lines.some(function (ls) { return ls.length > 1; });
     var rh = two ? 32 : 24, H = labels.length * rh + 28;
@@ -472,17 +512,17 @@
       if (v === null) { label(g, lw, mid + 4, "-"); return; }
       var end = lw + Math.abs(v) / max * bw;
       el("rect", { x: lw, y: mid - 8, width: Math.max(1, Math.abs(v) / max * bw), height: 16, rx: 2,
-        fill: v < 0 ? C.short : colour, "data-tip": tip + "\n" + title + ": " + fmt(v, 3) +
-          (ticksAt && ticksAt[i] !== null && ticksAt[i] !== undefined ? "\nestimate: " + fmt(ticksAt[i], 3) : "") }, g);
+        fill: v < 0 ? C.short : colour, "data-tip": tip + "\n" + title + ": " + write(v) +
+          (ticksAt && ticksAt[i] !== null && ticksAt[i] !== undefined ? "\nestimate: " + write(ticksAt[i]) : "") }, g);
       marks++;
-      var words = Number.isInteger(v) ? tick(v) : fmt(v, 2);
+      var words = write(v);
       var est = ticksAt ? ticksAt[i] : null;
       if (est !== null && est !== undefined) {
         var tx = lw + Math.abs(est) / max * bw;
         el("line", { x1: tx, x2: tx, y1: mid - 11, y2: mid + 11, stroke: C.ink, "stroke-width": 2.5,
-          "class": "estimate", "data-v": est, "data-tip": l + "\nestimate: " + fmt(est, 3) }, g);
+          "class": "estimate", "data-v": est, "data-tip": l + "\nestimate: " + write(est) }, g);
         end = Math.max(end, tx);
-        words += " (estimate " + (Number.isInteger(est) ? tick(est) : fmt(est, 2)) + ")";
+        words += " (estimate " + write(est) + ")";
       }
       label(g, end + 6, mid + 4, words, { "class": "bar-value" });
     });
@@ -496,7 +536,8 @@
     d.metrics.forEach(function (m, i) {
       var cell = document.createElement("div");
       grid.appendChild(cell);
-      marks += hbars(cell, d.labels, m.values, m.name.replace(/_/g, " "), i === 0 ? C.short : C.staff, 340);
+      marks += hbars(cell, d.labels, m.values, m.name.replace(/_/g, " "), i === 0 ? C.short : C.staff, 340,
+        null, null, m.money);
     });
     return marks;
   }
@@ -556,6 +597,7 @@
 
   function main() {
     var data = JSON.parse(document.getElementById("report-data").textContent);
+    if (data.numbers) { RULE = data.numbers; }
     var boxes = document.querySelectorAll(".chart[data-chart]"), drawn = 0;
     boxes.forEach(function (box) {
       var kind = box.getAttribute("data-chart");

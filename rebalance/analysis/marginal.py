@@ -263,17 +263,24 @@ def _rows_of(model: Model, candidate: Candidate, instance: Instance) -> list[tup
 # Limits the model writes into hire columns' upper bounds as well as into rows: an office
 # and period with one possible start, or one vacancy-funded column, gets a bound, not a row.
 BOUND_LIMITS = ("max_hires", "vacancies")
+# Limits that change the hire columns themselves: those above, and a shorter time to hire,
+# which opens columns for earlier starts.
+COLUMN_LIMITS = (*BOUND_LIMITS, "time_to_hire")
 HIRE_KEYS = ("office", "skill", "period", "new")
 
 
 def _in_scope(model: Model, candidate: Candidate, instance: Instance) -> np.ndarray:
-    """Mask over ``model``'s hire block: the columns whose upper bounds ``candidate`` sets."""
+    """Mask over ``model``'s hire block: the columns whose upper bounds ``candidate`` sets
+    (or, for a time to hire, whose existence)."""
     keys = {k: np.asarray(v, int) for k, v in model.blocks["hire"].keys.items()}
     offices = [o.name for o in instance.offices]
+    skills = [s.name for s in instance.skills]
     if candidate.limit == "max_hires":
         return np.asarray(keys["office"] == offices.index(candidate.where), bool)
+    if candidate.limit == "time_to_hire":
+        return np.asarray(keys["skill"] == skills.index(candidate.where), bool)
     skill, office = candidate.where.split(" at ", 1)
-    k = [s.name for s in instance.skills].index(skill)
+    k = skills.index(skill)
     return np.asarray((keys["office"] == offices.index(office)) & (keys["skill"] == k)
                       & (keys["new"] == 0), bool)
 
@@ -310,17 +317,18 @@ def _relaxed_lp(model: Model, x: np.ndarray, candidate: Candidate, instance: Ins
     its column bounds, boxed around the plan.  None where it cannot be written.
 
     ``built(limit)`` is the model of the instance with every candidate of that limit relaxed
-    at once, built once per limit: hire columns are per office, so each candidate takes its
-    own columns' bounds from it and holds every other at this model's (the columns only
-    another relaxation opens, at 0).  Budgets and seats move row bounds only."""
+    at once, built once per limit: hire columns are per office (per skill for a time to
+    hire), so each candidate takes its own columns' bounds from it and holds every other at
+    this model's (the columns only another relaxation opens, at 0).  Budgets and seats move
+    row bounds only."""
     if candidate.limit in ("hiring_budget", "moves_budget", "seats"):
         # A seat row left without columns is only the constant check; moved, it is moot too.
         row_upper = model.row_upper.copy()
         for r, d in _rows_of(model, candidate, instance):
             row_upper[r] += d
         return (replace(model, row_upper=row_upper), *_box(model, x))
-    if candidate.limit not in (*BOUND_LIMITS, "away_share"):
-        return None  # time to hire: which hire columns exist, not a bound
+    if candidate.limit not in (*COLUMN_LIMITS, "away_share"):
+        return None
     other = built(candidate.limit)
     cols = _columns_in(model, other)
     if cols is None:
@@ -441,11 +449,9 @@ def _estimates(base: PlanResult, options: SolveOptions,
     ceiling = _objective(base, options) / scale if base.plan else math.inf
     first_order: dict[int, float] = {}
     for c, cand in enumerate(chosen):
-        if cand.limit == "time_to_hire":
-            continue  # not a row nor a bound: it moves which columns exist
         moved = _rows_of(model, cand, instance)
         first_order[c] = (sum(duals[r] * d for r, d in moved) if moved
-                          or cand.limit not in BOUND_LIMITS else _bound_change(
+                          or cand.limit not in COLUMN_LIMITS else _bound_change(
                               model, duals, objective_of, cand, instance, x, built(cand.limit)))
     # The re-solves together get as long as the first LP could: best first by the duals, so
     # a deadline leaves the least promising limits with their first-order estimate.
@@ -471,7 +477,7 @@ def marginal_values(base: PlanResult, options: SolveOptions, steps: Steps = Step
     instance = base.instance
     chosen = list(candidates) if candidates is not None else binding_candidates(base, steps)
     estimates, how, no_lp = _estimates(base, options, chosen)
-    # Best estimates first; limits with no estimate (time to hire: not a row) after them.
+    # Best estimates first; limits with no estimate (no LP in time) after them.
     order = sorted(range(len(chosen)), key=lambda c: (
         (0, -estimates[c], c) if math.isfinite(estimates[c]) else (1, 0.0, c)))
     resolve = order if max_resolves is None else order[:max_resolves]
@@ -485,10 +491,7 @@ def marginal_values(base: PlanResult, options: SolveOptions, steps: Steps = Step
     for c, cand in enumerate(chosen):
         result = results[c]
         # An empty estimate says why in words: the CSV shows NaN as an empty cell.
-        estimate = (how[c] if math.isfinite(estimates[c])
-                    else "no estimate (time to hire is not a row or bound of the LP)"
-                    if cand.limit == "time_to_hire"
-                    else f"no estimate ({no_lp})")
+        estimate = how[c] if math.isfinite(estimates[c]) else f"no estimate ({no_lp})"
         row: dict[str, object] = {
             "limit": cand.limit, "where": cand.where, "current": cand.current,
             "step": cand.step, "unit": cand.unit, "binding_rows": cand.binding_rows,

@@ -3,7 +3,6 @@ against scipy's HiGHS interface."""
 
 from __future__ import annotations
 
-import math
 from dataclasses import replace
 
 import numpy as np
@@ -218,10 +217,17 @@ def test_a_limit_held_by_column_bounds_has_an_estimate(tiny: Instance, b_hires: 
                                                                 abs=1e-6)
     # Here one more slot per period buys what the LP says (exact re-solve, gap 0).
     assert row["shortfall_reduction"] == pytest.approx(before.fun - after.fun, abs=1e-6)
-    # The one limit without an estimate says why in words, not only with an empty cell.
-    [no_estimate] = table[table["limit"] == "time_to_hire"].itertuples()
-    assert math.isnan(no_estimate.estimate_shortfall_reduction)
-    assert "no estimate (time to hire" in no_estimate.method
+    # A shorter time to hire opens hire columns for an earlier start (it had no estimate):
+    # the same reference, on the model built for that relaxation by hand.
+    [sooner] = table[table["limit"] == "time_to_hire"].itertuples()
+    earlier = without_rounded_rows(build_model(
+        _relaxed_by_hand(instance, "time_to_hire", sooner.where, Steps())))
+    assert earlier.blocks["hire"].stop - earlier.blocks["hire"].start > len(hire)
+    opened = scipy_lp(earlier, earlier.shortfall_weight, *_boxed(earlier, x_of_key))
+    assert opened.status == 0
+    assert sooner.estimate_shortfall_reduction == pytest.approx(before.fun - opened.fun,
+                                                                abs=1e-6)
+    assert "estimate from an LP re-solve" in sooner.method
 
 
 def test_every_limit_but_time_to_hire_has_an_estimate(tiny: Instance) -> None:

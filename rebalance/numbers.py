@@ -22,7 +22,9 @@ __all__ = [
     "TABLE_DIGITS",
     "column_header",
     "column_texts",
+    "distinct_texts",
     "dust_free",
+    "figures",
     "fte_total_text",
     "gap_text",
     "has_decimals",
@@ -183,6 +185,32 @@ def column_texts(values: Sequence[float], column: str = "", *,
     """A column's numbers by :func:`number_text`, with decimals in every row or in none."""
     decimals = has_decimals(values)
     return [number_text(v, column, digits=digits, decimals=decimals) for v in values]
+
+
+def distinct_texts(values: Sequence[float], texts: list[str], decimals: int) -> list[str]:
+    """``texts`` (the number rule's), or where two read the same, ``values`` with as many
+    decimals from ``decimals`` on as tell them apart.  A message that sets two figures side
+    by side (worked against available, stated against recomputed) must show *why* they
+    differ, which the rule's rounding can hide: 1.0000004 FTE worked of 1 available must not
+    read "1.000 of 1.000"."""
+    for more in range(decimals, 16):
+        if len(set(texts)) == len(texts):
+            return texts
+        texts = [_plain(v, more) for v in values]
+    return texts if len(set(texts)) == len(texts) else [repr(float(v)) for v in values]
+
+
+def figures(*values: float) -> list[str]:
+    """Figures set side by side in a message, as a table column writes them
+    (:func:`column_texts`), with more decimals where those would make two read the same
+    (:func:`distinct_texts`)."""
+    return distinct_texts(values, column_texts(values), TABLE_DIGITS + 1)
+
+
+def _plain(value: float, decimals: int) -> str:
+    """``value`` with ``decimals`` decimals and separators, no sign on a zero."""
+    text = f"{float(value) + 0.0:,.{decimals}f}"
+    return text[1:] if text.startswith("-") and not text.strip("-0.,") else text
 
 
 def number_rule() -> dict[str, int]:

@@ -17,6 +17,7 @@ from rebalance.backends import BACKENDS, raise_if_stopped, stoppable
 from rebalance.files import staged_folder
 from rebalance.instance import Instance, Person
 from rebalance.model import BuildCutShort, DetailRoute, Model, build_model
+from rebalance.numbers import seconds_text
 from rebalance.plan import Plan, extract_plan, write_plan
 from rebalance.solve import SolveOptions, SolveResult, StageResult, Status, solve
 from rebalance.verify import Violation, verify_plan
@@ -93,10 +94,9 @@ def make_plan(instance: Instance, options: SolveOptions, pooled: bool = True,
         model = adjust(model)
     build_seconds = time.perf_counter() - started
     if options.progress is not None:
-        # Rounded as summary.json stores it (three decimals), then shown with two, as the
-        # console's summary and the page show it.
+        # By the number rule's seconds_text, as the console's summary and the page show it.
         options.progress(f"model: {model.num_cols:,} columns ({model.num_integer:,} integer), "
-                         f"{model.num_rows:,} rows, built in {round(build_seconds, 3):.2f}s")
+                         f"{model.num_rows:,} rows, built in {seconds_text(build_seconds)}s")
     # Naming people and verifying the plan come after the solve, inside the same limit.
     remaining = max(0.5, options.time_limit_seconds * (1.0 - options.shares.finish)
                     - build_seconds)

@@ -15,7 +15,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from rebalance.instance import Instance
-from rebalance.numbers import money_text
+from rebalance.numbers import distinct_texts, figures, money_text, number_text, share_of
 from rebalance.plan import COST_KINDS, PLAN_TABLES, Plan, read_plan, records
 
 __all__ = ["Violation", "unknown_names", "verify_folder", "verify_plan"]
@@ -40,13 +40,18 @@ def _close(a: float, b: float, tol: float = ABS_TOL) -> bool:
     return abs(a - b) <= tol + REL_TOL * max(abs(a), abs(b))
 
 
+def _beyond(value: float, limit: float) -> str:
+    """``value`` as :func:`_figures` writes it beside ``limit``: a negative -1e-10 must not
+    read as "0" (solver dust to the number rule, but below zero to a rule)."""
+    return figures(value, limit)[0] if value != limit else number_text(value)
+
+
 def _amounts(instance: Instance, *values: float) -> list[str]:
     """Amounts of money as the reports write them (whole units with separators, the
-    instance's currency after them), to the cent where whole units would make two of them
-    read the same: a mismatch must not read as none ("cost 1,500 but 1,500 applies")."""
-    whole = [money_text(v) for v in values]
-    if len(set(whole)) < len(whole):
-        whole = [f"{float(v) + 0.0:,.2f}" for v in values]
+    instance's currency after them), to the cent or beyond where whole units would make two
+    of them read the same: a mismatch must not read as none ("cost 1,500 but 1,500
+    applies"); see :func:`_apart`."""
+    whole = distinct_texts(values, [money_text(v) for v in values], 2)
     return [instance.money.amount(text) for text in whole]
 
 
@@ -261,7 +266,7 @@ class _Checker:
             seen.add(key)
             fte = float(row.fte)
             if fte < 0:
-                self.flag("work_negative", where, f"negative fte {fte}")
+                self.flag("work_negative", where, f"negative fte {_beyond(fte, 0.0)}")
             at = away.get((row.person, t), home[row.person][t])
             if row.office != at:
                 self.flag("work_location", where, f"works at {row.office} but is at {at}")
@@ -269,15 +274,17 @@ class _Checker:
             if proficiency == 0:
                 self.flag("work_skill", where, f"does not have skill {row.skill}")
             if not _close(float(row.output_fte), fte * proficiency):
-                self.flag("work_output", where, f"output {row.output_fte} but proficiency "
-                          f"{proficiency} x fte {fte} = {fte * proficiency}")
+                output, product = figures(float(row.output_fte), fte * proficiency)
+                self.flag("work_output", where, f"output {output} but proficiency "
+                          f"{number_text(proficiency)} x fte {number_text(fte)} = {product}")
             totals[(row.person, t)] += fte
             self.staff_output[(row.office, row.skill, t)] += fte * proficiency
         for (name, t), total in totals.items():
             available = self.i.available_fte(self.people[name], t)
             if _over(total, available):
+                works, has = figures(total, available)
                 self.flag("work_capacity", f"person {name} in {self.i.periods[t].name}",
-                          f"works {total:.6g} FTE but has {available:.6g} available")
+                          f"works {works} FTE but has {has} available")
 
     # -- hires ---------------------------------------------------------------------------
     def _check_hires(self) -> None:
@@ -364,8 +371,9 @@ class _Checker:
                                      ("weighted_shortfall", d.priority * shortfall)):
                 value = float(getattr(row, column))
                 if not _close(value, expected):
+                    stated, recomputed = figures(value, expected)
                     self.flag(f"coverage_{column.removesuffix('_fte')}", where,
-                              f"{column} {value:.6g} but recomputed {expected:.6g}")
+                              f"{column} {stated} but recomputed {recomputed}")
         for office, skill, period in sorted(set(reported) - demanded):
             self.flag("coverage_rows", f"{skill} at {office} in {period}",
                       "a coverage row for no demand row")
@@ -394,7 +402,7 @@ class _Checker:
                 where = f"{office.name} in {self.i.periods[t].name}"
                 if _over(gone[(office.name, t)], share * present[(office.name, t)]):
                     self.flag("away_share", where, f"{gone[(office.name, t)]} of "
-                              f"{present[(office.name, t)]} people away; at most {share:g} "
+                              f"{present[(office.name, t)]} people away; at most {share_of(share)} "
                               "of them may be")
                 if office.seats is not None:
                     used = (present[(office.name, t)] - gone[(office.name, t)]
@@ -454,7 +462,7 @@ def _check_summary(checker: _Checker, summary: dict[str, object]) -> list[Violat
     """Every figure summary.json states of the plan, against the tables (the report and the
     console lead with them)."""
     plan = checker.plan
-    figures: list[tuple[str, object, float, float]] = [
+    stated_figures: list[tuple[str, object, float, float]] = [
         ("weighted_shortfall", summary.get("weighted_shortfall"), checker.weighted_shortfall,
          1e-4),
         ("shortfall_fte_periods", summary.get("shortfall_fte_periods"), checker.shortfall_fte,
@@ -467,9 +475,9 @@ def _check_summary(checker: _Checker, summary: dict[str, object]) -> list[Violat
     by_kind = summary.get("cost_by_kind")
     for kind, value in checker.cost_by_kind.items():
         stated = by_kind.get(kind) if isinstance(by_kind, dict) else None
-        figures.append((f"cost_by_kind.{kind}", stated, value, 1e-4))
+        stated_figures.append((f"cost_by_kind.{kind}", stated, value, 1e-4))
     out = []
-    for key, reported, value, tol in figures:
+    for key, reported, value, tol in stated_figures:
         number = isinstance(reported, int | float) and not isinstance(reported, bool)
         if not number or not _close(float(reported), value, tol=tol):  # type: ignore[arg-type]
             if number and (key == "total_cost" or key.startswith("cost_by_kind.")):
@@ -477,6 +485,8 @@ def _check_summary(checker: _Checker, summary: dict[str, object]) -> list[Violat
                 out.append(Violation("summary", f"summary.json {key}",
                                      f"says {said}; recomputed {priced}"))
                 continue
+            said, recomputed = (figures(float(reported), value) if number  # type: ignore[arg-type]
+                                else (str(reported), number_text(value)))
             out.append(Violation("summary", f"summary.json {key}",
-                                 f"says {reported}; recomputed {value:.6g}"))
+                                 f"says {said}; recomputed {recomputed}"))
     return out

@@ -273,3 +273,39 @@ def test_a_money_mismatch_under_one_unit_still_reads_as_a_mismatch(tiny_plan):
                         details=result.plan.details.assign(cost=4999.6))
     messages = [v.message for v in verify_plan(instance, broken) if v.rule == "detail_cost"]
     assert messages and "cost 4,999.60 but 5,000.00 applies" in messages[0]
+
+
+def test_figures_in_messages_follow_the_number_rule_with_the_digits_a_break_needs(tiny_plan):
+    # rebalance/numbers.py: FTE in a row with TABLE_DIGITS decimals (whole ones without),
+    # shares by share_of; they had read "shortfall_fte 0.3 but recomputed 0" (":.6g") and
+    # "at most 0.5 of them" (":g").  Where the rule's rounding would hide the break, more
+    # digits: "works 1.0001 FTE but has 1.0000 available", not "1.000 ... 1.000".
+    instance, result = tiny_plan
+    plan = result.plan
+    for rule, broken, expected in (
+            ("coverage_shortfall", BREAKS["coverage_shortfall"](instance, plan),
+             "shortfall_fte 0.300 but recomputed 0.000"),
+            ("away_share", BREAKS["away_share"](instance, plan),
+             "2 of 3 people away; at most 50.0% of them may be"),
+            ("work_output", BREAKS["work_output"](instance, plan),
+             "output 1.500 but proficiency 1 x fte 1 = 1.000"),
+            ("work_negative", BREAKS["work_negative"](instance, plan), "negative fte -0.000001"),
+            ("work_capacity", consistent(instance, plan, work=plan.work.assign(
+                fte=plan.work["fte"] * 1.0001, output_fte=plan.work["output_fte"] * 1.0001)),
+             "works 1.0001 FTE but has 1.0000 available")):
+        messages = [v.message for v in verify_plan(instance, broken) if v.rule == rule]
+        assert expected in messages, messages
+
+
+def test_summary_figures_in_messages_follow_the_number_rule(tiny_plan, tmp_path):
+    # A count reads whole ("says 3; recomputed 2", as before), an FTE total by TABLE_DIGITS
+    # (":.6g" had written "recomputed 0.5"-like figures beside a raw stated one).
+    instance, result = tiny_plan
+    write_outputs(result, tmp_path / "plan")
+    path = tmp_path / "plan" / "summary.json"
+    good = json.loads(path.read_text())
+    path.write_text(json.dumps({**good, "shortfall_fte_periods":
+                                good["shortfall_fte_periods"] + 0.25}))
+    [violation] = verify_folder(instance, tmp_path / "plan")
+    stated = good["shortfall_fte_periods"]
+    assert violation.message == f"says {stated + 0.25:,.3f}; recomputed {stated:,.3f}"

@@ -18,7 +18,7 @@ import pandas as pd
 
 from rebalance.analysis.limits import LimitUse, hire_rows, limit_use
 from rebalance.instance import Instance
-from rebalance.numbers import money_amount
+from rebalance.numbers import money_amount, number_text, share_of
 from rebalance.plan import Plan
 
 __all__ = ["REASON_COLUMNS", "Reasons", "limit_key", "reasons"]
@@ -45,6 +45,13 @@ def _money(instance: Instance, value: float) -> str:
     return money_amount(value, instance.money.currency)
 
 
+def _fte(value: float) -> str:
+    """FTE (or FTE-periods) as a table's FTE column writes it: the number rule's
+    :data:`~rebalance.numbers.TABLE_DIGITS` decimals, a whole 1 as 1.000 too (FTE columns
+    hold decimals), so a reason reads as the coverage row beside it (it had written 1.00)."""
+    return number_text(value, decimals=True)
+
+
 def _describe(use: LimitUse, instance: Instance) -> str:
     what = {"hiring_budget": "hiring budget", "moves_budget": "moves budget",
             "max_hires": "hiring slots", "seats": "seats", "away_share": "away share",
@@ -60,8 +67,10 @@ def _describe(use: LimitUse, instance: Instance) -> str:
                 f"{_money(instance, use.cap)} spent)")
     when = f" in {use.period}" if use.period else ""
     if use.limit == "away_share":
-        return f"{what} at {use.where}{when} ({use.used:g} away of {use.cap:g} allowed)"
-    return f"{what} at {use.where}{when} ({use.used:g} of {use.cap:g} used)"
+        # The cap is a share of the people present (2.4 of 8 at 30%): TABLE_DIGITS, as a row.
+        return (f"{what} at {use.where}{when} ({number_text(use.used)} away of "
+                f"{number_text(use.cap)} allowed)")
+    return f"{what} at {use.where}{when} ({number_text(use.used)} of {number_text(use.cap)} used)"
 
 
 class _Context:
@@ -153,9 +162,9 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
                 s < replanned_at + instance.skill(h.skill).time_to_hire):
             text = (f"recruitment had begun before the re-plan from {names[replanned_at]}, "
                     "and a hire already started is not undone; demand there is now met "
-                    f"without it ({sum(out[s:]):.2f} FTE-periods of {h.skill} to spare)")
+                    f"without it ({_fte(sum(out[s:]))} FTE-periods of {h.skill} to spare)")
         elif first is None:
-            text = (f"adds {sum(out[s:]):.2f} FTE-periods of {h.skill} at {h.office} where "
+            text = (f"adds {_fte(sum(out[s:]))} FTE-periods of {h.skill} at {h.office} where "
                     "demand is met without it; kept by the solver at no gain (review)")
         else:
             mean_gap = sum(gaps[first:first + run]) / run
@@ -166,7 +175,7 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
             # staff and hires, and had read as the same measure).
             text = (f"{h.skill} demand at {h.office} is above the output of the staff working "
                     f"there (people detailed in included, hires not) for {run} straight "
-                    f"{_periods(run)} from {names[first]}, {lasting} (by {mean_gap:.2f} FTE on "
+                    f"{_periods(run)} from {names[first]}, {lasting} (by {_fte(mean_gap)} FTE on "
                     f"average), so a hire ({funding})")
             if first > s:
                 text += _early_start(instance, h.office, h.skill, s, first, binding,
@@ -227,14 +236,15 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
                 short_too = f"from {a}, although {a} is short of {skill} itself then"
                 full = [names[t] for t in range(t1, t2 + 1) if (a, names[t]) in seats_full]
                 if at_b > at_a:
-                    source = (f"{short_too}: the need at {b} ranks higher (priority {at_b:g} "
-                              f"there, {at_a:g} at {a})")
+                    source = (f"{short_too}: the need at {b} ranks higher (priority "
+                              f"{number_text(at_b)} there, {number_text(at_a)} at {a})")
                 elif full:
                     source = (f"{short_too}: {a}'s seats are full ({', '.join(full)}), and a "
                               "person away frees a seat there")
                 else:
-                    source = (f"{short_too}, at priority {at_a:g} against {at_b:g} at {b}: no "
-                              "gain in shortfall visible from this detail alone (review)")
+                    source = (f"{short_too}, at priority {number_text(at_a)} against "
+                              f"{number_text(at_b)} at {b}: no gain in shortfall visible from this "
+                              "detail alone (review)")
             text = (f"{skill} demand at {b} exceeds what {b}'s own staff and hires cover "
                     f"(people detailed in left out) {_span(names, t1, t2)}: {shape}, so a "
                     f"detail {source}")
@@ -269,10 +279,10 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
             continue
         cited = _relevant(instance, binding, o, k, t)
         if cited:
-            text = (f"{short:.2f} FTE short; held back by " +
+            text = (f"{_fte(short)} FTE short; held back by " +
                     "; ".join(_describe(u, instance) for u in cited))
         else:
-            text = (f"{short:.2f} FTE short; no binding limit found for it (the gap may be "
+            text = (f"{_fte(short)} FTE short; no binding limit found for it (the gap may be "
                     "below what one more whole head adds after ramp-up and attrition, or the "
                     f"people with {k} who could cover it cover larger needs elsewhere)")
         rows.append(("shortfall", f"{k} at {o}", o, k, names[t], names[t], short, text,
@@ -299,8 +309,8 @@ def _early_start(instance: Instance, office: str, skill: str, s: int, first: int
         if early >= len(ramp):
             return f"; it starts in {names[s]} to be past its ramp-up when {opens}"
         return (f"; it starts in {names[s]} to be further into its ramp-up when {opens} "
-                f"({then:.0%} of full output there, against {on_time:.0%} had it started "
-                "then)")
+                f"({share_of(then)} of full output there, against {share_of(on_time)} had it "
+                "started then)")
     full = [u.period for u in binding if u.limit == "max_hires" and u.where == office
             and u.period in names[s + 1:first + 1]]
     if full:

@@ -16,6 +16,7 @@ from pathlib import Path
 
 from rebalance.analysis.limits import hire_rows
 from rebalance.instance import Instance, Person
+from rebalance.numbers import figures
 from rebalance.plan import Plan
 from rebalance.verify import unknown_names
 
@@ -166,9 +167,10 @@ def _past_work_ruled_out(instance: Instance, past_work: dict[str, list[PastWork]
         for t, fte in sorted(total.items()):
             available = instance.available_fte(person, t)
             if person.is_present(t) and fte > available + 1e-9 * max(1.0, fte):
+                works, has = figures(fte, available)
                 problems.append(
-                    f"{file('work')}:{first_line[t]}: {name} works {fte:g} FTE in {names[t]}, "
-                    f"before {names[at]}, but the data now give them {available:g} then "
+                    f"{file('work')}:{first_line[t]}: {name} works {works} FTE in {names[t]}, "
+                    f"before {names[at]}, but the data now give them {has} then "
                     "(staff.csv fte, less expected attrition.csv if any)")
     return problems
 

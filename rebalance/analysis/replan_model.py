@@ -21,6 +21,7 @@ from rebalance.analysis.limits import hire_rows
 from rebalance.analysis.replan_checks import ReplanError, _why_not
 from rebalance.instance import Instance
 from rebalance.model import ColumnBlock, DetailRoute, Model, RowFamily
+from rebalance.numbers import figures
 from rebalance.plan import Plan
 
 
@@ -71,8 +72,8 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
 
     def fix(col: int, value: float, what: str) -> None:
         if value > model.col_upper[col] + 1e-9 * max(1.0, value):
-            problems.append(f"{what}: the old plan has {value:g} but the data now allow "
-                            f"{model.col_upper[col]:g}")
+            has, allowed = figures(value, model.col_upper[col])
+            problems.append(f"{what}: the old plan has {has} but the data now allow {allowed}")
         lower[col] = upper[col] = value
 
     def pin_hire(col: int, value: float) -> None:

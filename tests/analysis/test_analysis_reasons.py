@@ -165,8 +165,9 @@ def test_a_hire_that_starts_before_its_gap_says_why(tiny) -> None:
     assert plan is not None
     hire = reasons(early, plan).table.query("action == 'hire'")
     assert list(hire["first_period"]) == ["2027-Q2"]
+    # FTE by the number rule (TABLE_DIGITS), as the coverage rows show it: was "1.00 FTE".
     assert hire.iloc[0]["reason"].endswith(
-        "2 straight periods from 2027-Q3, to the end of the horizon (by 1.00 FTE on average), "
+        "2 straight periods from 2027-Q3, to the end of the horizon (by 1.000 FTE on average), "
         "so a hire (a new position); it starts in 2027-Q2 to be past its ramp-up when the gap "
         "opens in 2027-Q3")
     # Not yet past it: one period along a ramp of three (60% against 50%).  Only the text
@@ -175,7 +176,8 @@ def test_a_hire_that_starts_before_its_gap_says_why(tiny) -> None:
         replace(s, ramp=(0.5, 0.6, 0.8)) if s.name == "review" else s for s in early.skills))
     text = reasons(ramped, plan).table.query("action == 'hire'").iloc[0]["reason"]
     assert text.endswith("it starts in 2027-Q2 to be further into its ramp-up when the gap "
-                         "opens in 2027-Q3 (60% of full output there, against 50% had it "
+                         # Shares by the number rule's share_of: was "60%", "50%".
+                         "opens in 2027-Q3 (60.0% of full output there, against 50.0% had it "
                          "started then)")
 
 
@@ -201,3 +203,13 @@ def test_a_hire_reason_says_its_gap_counts_people_detailed_in(tiny) -> None:
     details = table[table.action == "detail"]["reason"].tolist()
     assert details and all("own staff and hires cover (people detailed in left out)" in d
                            for d in details)
+
+
+def test_figures_in_reasons_follow_the_number_rule(tiny) -> None:
+    # rebalance/numbers.py: a row's figures with TABLE_DIGITS decimals, whole ones without,
+    # so a cap of 2.4 people away reads as the page's tables write it (it read "2.4" by
+    # ":g").
+    share = LimitUse("away_share", "A", "2027-Q1", 2.0, 2.4, True)
+    assert _describe(share, tiny) == "away share at A in 2027-Q1 (2 away of 2.400 allowed)"
+    seats = LimitUse("seats", "B", "2027-Q2", 12.0, 12.0, True)
+    assert _describe(seats, tiny) == "seats at B in 2027-Q2 (12 of 12 used)"

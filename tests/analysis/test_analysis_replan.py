@@ -459,8 +459,9 @@ def test_past_work_above_the_fte_the_data_now_give_is_refused_not_rewritten(tiny
     assert base.plan is not None
     now = tiny.with_changes(staff=tuple(replace(p, fte=0.5) if p.person == "a1" else p
                                         for p in tiny.staff))
-    with pytest.raises(ReplanError, match=r"work\.csv:2: a1 works 1 FTE in 2027-Q1, before "
-                                          r"2027-Q3, but the data now give them 0\.5.*fte"):
+    # Both figures as an FTE column writes them (rebalance.numbers.figures).
+    with pytest.raises(ReplanError, match=r"work\.csv:2: a1 works 1\.000 FTE in 2027-Q1, before "
+                                          r"2027-Q3, but the data now give them 0\.500 .*fte"):
         replan(now, base.plan, 2, exact_options(now))
 
 

@@ -249,10 +249,10 @@ def demo_reasons_table() -> pd.DataFrame:
          "on average), so a hire (fills a funded vacancy)", None),
         ("shortfall", "environmental_review at port-ilse-harbour", "port-ilse-harbour",
          "environmental_review", "2028-Q4", "2028-Q4", 0.932,
-         "0.93 FTE short; held back by hiring budget 2027 (515,000 of 520,000 spent); seats at "
+         "0.932 FTE short; held back by hiring budget 2027 (515,000 of 520,000 spent); seats at "
          "port-ilse-harbour in 2028-Q4 (40 of 40 used)", limits),
         ("shortfall", "safety_review at port-ilse-harbour", "port-ilse-harbour",
-         "safety_review", "2028-Q4", "2028-Q4", 0.046, "0.05 FTE short; held back by seats",
+         "safety_review", "2028-Q4", "2028-Q4", 0.046, "0.046 FTE short; held back by seats",
          "seats|port-ilse-harbour|2028-Q4;max_hires|port-ilse-harbour|2027-Q4"),
     ]
     return pd.DataFrame(rows, columns=columns)

@@ -469,8 +469,10 @@ Result - Linear relaxation infeasible"""
 def test_cbc_bound_and_infeasibility_are_read_from_what_its_log_shows():
     from rebalance.backends.cbc import _CBC_PROVEN_INFEASIBLE, _cbc_bound
 
-    assert _cbc_bound(STOPPED_IN_PREPROCESSING) == pytest.approx(333.079)
-    assert _cbc_bound(STOPPED_IN_PREPROCESSING + "\n" + SUMMARY) == pytest.approx(336.016)
+    # Each at the least value its printed digits may stand for (one unit in the last place).
+    assert _cbc_bound(STOPPED_IN_PREPROCESSING) == pytest.approx(333.078, abs=1e-9)
+    assert _cbc_bound(STOPPED_IN_PREPROCESSING + "\n" + SUMMARY) == pytest.approx(336.015,
+                                                                                 abs=1e-9)
     assert _cbc_bound("Lower bound:                    1e+50") is None
     assert _cbc_bound("") is None
     assert _CBC_PROVEN_INFEASIBLE.search(PREPROCESSING_INFEASIBLE)
@@ -478,6 +480,29 @@ def test_cbc_bound_and_infeasibility_are_read_from_what_its_log_shows():
     # A stopped run's lines carry no proof, whatever PuLP then reads from its solution file.
     assert not _CBC_PROVEN_INFEASIBLE.search(STOPPED_IN_PREPROCESSING + "\n" + SUMMARY)
     assert not _CBC_PROVEN_INFEASIBLE.search("5130  Obj 0.00024938509 Primal inf 36857.683 (2768)")
+
+
+def test_cbc_bounds_are_read_below_their_rounding_and_a_finished_search_proves_its_gap():
+    # A sweep: CBC printed "Lower bound: 201.618" of a stage whose optimum is 201.61754
+    # (HiGHS and CBC with no gap), and a 1% search that ran to its end ("Optimal solution
+    # found", no "Lower bound" line) was given its plan as its bound, a gap of 0, for a plan
+    # 0.013% above the optimum.  CBC 2.10.3's lines, as it wrote them.
+    from rebalance.backends.cbc import _cbc_bound, _optimal_bound
+
+    assert _cbc_bound("Lower bound:                    201.618") < 201.61754
+    assert _cbc_bound("Lower bound:                    2.4235e+06") == pytest.approx(
+        2.4234e6, abs=1e-6)
+    progress = ("Continuous objective value is 41.2176 - 0.00 seconds\n"
+                "Cbc0010I After 0 nodes, 1 on tree, 46.406518 best solution, best possible "
+                "44.529414 (0.20 seconds)\n")
+    assert _cbc_bound(progress) == pytest.approx(44.529413, abs=1e-9)  # the search's, not the LP's
+    finished = progress + "Result - Optimal solution found\n\nObjective value: 44.79604626\n"
+    # Ran to its end: what the gap asked leaves proven, or the search's own bound if higher.
+    alone = "Result - Optimal solution found\n"
+    assert _optimal_bound(alone, 44.79604626, 0.01) == pytest.approx(44.79604626 * 0.99)
+    assert _optimal_bound(finished, 44.79604626, 0.01) == pytest.approx(44.529413, abs=1e-9)
+    assert _optimal_bound(finished, 44.79604626, 0.0) == 44.79604626
+    assert _optimal_bound(finished + SUMMARY, 337.0, 0.01) == pytest.approx(336.015, abs=1e-9)
 
 
 def test_a_plan_meeting_its_bound_is_optimal_but_a_bound_above_it_proves_nothing():

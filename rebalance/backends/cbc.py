@@ -369,11 +369,8 @@ class CbcBackend:
         bound = None if is_lp else _cbc_bound(log)
         if sol_status == pulp.LpSolutionOptimal:
             mapped = Status.OPTIMAL
-            # A finished search's summary has no "Lower bound" line: its bound is its plan's
-            # (within the gap asked), not the root LP's (tiny had read "optimal within the gap
-            # asked (15.54% left)" with a gap of 0 asked).
-            summary_bound = _cbc_bound(log, root=False)
-            bound = obj if summary_bound is None else summary_bound
+            bound = obj if is_lp or obj is None else _optimal_bound(log, obj,
+                                                                     options.relative_gap)
         elif sol_status == pulp.LpSolutionIntegerFeasible:
             mapped = Status.FEASIBLE_WITH_GAP
         elif sol_status == pulp.LpSolutionInfeasible or "infeasible" in words.lower():
@@ -403,15 +400,46 @@ def _read(log_path: Path) -> str:
 
 
 def _cbc_bound(log: str, root: bool = True) -> float | None:
-    """The run's bound from CBC's log: its summary's lower bound, else (``root``) its root
-    LP's value (a run stopped before its summary); None where neither is a finite number."""
-    for pattern in (_CBC_BOUND, _CBC_ROOT_LP) if root else (_CBC_BOUND,):
-        found = pattern.findall(log)
-        if found:
-            try:
-                value = float(found[-1])
-            except ValueError:
-                continue
-            if math.isfinite(value) and abs(value) < 1e49:  # CBC writes 1e+50 for none
-                return value
-    return None
+    """The run's bound from CBC's log: its summary's lower bound, else (``root``) the best of
+    its search's "best possible" and its root LP's value (a run stopped before its summary);
+    None where none is a finite number."""
+    summary = _printed_bounds(_CBC_BOUND.findall(log)[-1:])
+    if summary or not root:
+        return summary[0] if summary else None
+    found = _printed_bounds([best for _, _, best in _CBC_PROGRESS.findall(log)]
+                            + _CBC_ROOT_LP.findall(log)[-1:])
+    return max(found) if found else None
+
+
+def _optimal_bound(log: str, objective: float, relative_gap: float) -> float:
+    """The bound of a search CBC calls optimal.  Stopped within the gap asked, its summary
+    gives it.  A search that ran to its end has no "Lower bound" line, and it pruned every
+    node within the gap asked of its plan, so that much is all it proves: "optimal" with a
+    gap of 0 from a 1% search had been claimed of a plan 0.013% above the optimum (and with
+    no gap asked, tiny had read "optimal within the gap asked (15.54% left)" from the root
+    LP's bound)."""
+    summary = _cbc_bound(log, root=False)
+    if summary is not None:
+        return summary
+    if not relative_gap:
+        return objective
+    pruned = objective - relative_gap * abs(objective)
+    searched = _cbc_bound(log)
+    return pruned if searched is None else max(pruned, searched)
+
+
+def _printed_bounds(texts: list[str]) -> list[float]:
+    """Bounds as CBC prints them, each taken at the least value its digits may stand for:
+    rounded to the digits shown, 201.61754 reads "201.618", above the optimum it bounds."""
+    out = []
+    for text in texts:
+        try:
+            value = float(text)
+        except ValueError:
+            continue
+        if not math.isfinite(value) or abs(value) >= 1e49:  # CBC writes 1e+50 for none
+            continue
+        mantissa, _, exponent = text.lower().partition("e")
+        decimals = len(mantissa.partition(".")[2])
+        out.append(value - 10.0 ** (int(exponent or 0) - decimals))  # one unit in the last place
+    return out

@@ -119,6 +119,7 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
         objective = model.cost + options.shortfall_cost * model.shortfall_weight
         say("weighted: least cost + shortfall_cost x weighted shortfall")
         out, _ = solve_stage(backend, model, objective, [], options, deadline, None, say)
+        out = settled(model, out, objective, options.relative_gap)
         stages.append(_stage("weighted", out))
         return _finish(model, backend, options, stages, out, started, deadline)
 
@@ -133,6 +134,7 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
     stage1_deadline = started + share * options.time_limit_seconds
     first, carried = solve_stage(backend, model, model.shortfall_weight, [], options,
                                  stage1_deadline, None, say, cost_stage_deadline=deadline)
+    first = settled(model, first, model.shortfall_weight, options.relative_gap)
     stages.append(_stage("shortfall", first))
     if not first.status.has_plan or first.x is None or first.objective is None:
         return _finish(model, backend, options, stages, first, started, deadline)
@@ -157,6 +159,7 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
         stages.append(_stage("cost", _unimproved(model, first, second.bound, second.words)))
         return _finish(model, backend, options, stages, first, started, deadline,
                        final_status=Status.FEASIBLE_WITH_GAP)
+    second = settled(model, second, model.cost, options.relative_gap)
     stages.append(_stage("cost", second))
     status = Status.OPTIMAL if (first.status is Status.OPTIMAL
                                 and second.status is Status.OPTIMAL) else Status.FEASIBLE_WITH_GAP
@@ -189,6 +192,43 @@ def polish(backend: Backend, model: Model, out: BackendOutcome, options: SolveOp
         return out
     split = resplit(backend, model, out.x, model.shortfall_weight, options, left)
     return out if split is None else replace(out, x=split.x)
+
+
+def settled(model: Model, out: BackendOutcome, objective: np.ndarray,
+            relative_gap_wanted: float) -> BackendOutcome:
+    """``out`` with each continuous column ``objective`` prices at the least its rows allow,
+    every other column held: a plan the solver stopped with can carry slack there (what a
+    detail costs from a new home), and its objective then overstates the plan's.  A cost
+    stage had read 2,987,500 of a plan costing 2,936,500.
+
+    Worked out row by row, with no solver (so with no time left too): with the rest held,
+    a column's least value is the largest lower limit its rows set, where no row that sets
+    one holds two such columns (what a detail costs from a new home, the shortfall of a
+    demand; a budget row holds many, but lowering them only eases it).  Where that does not
+    hold, ``out`` is returned as it is."""
+    free = ~model.is_integer & (objective > 0)
+    if out.x is None or out.objective is None or not free.any():
+        return out
+    x = out.x
+    matrix = model.matrix.tocsr()
+    touched = matrix[:, np.flatnonzero(free)].tocoo()
+    rows, cols, coef = touched.row, np.flatnonzero(free)[touched.col], touched.data
+    # a e + rest within [lo, hi] limits e from below where a < 0 and hi is finite, or a > 0
+    # and lo is finite.
+    hi, lo = model.row_upper[rows], model.row_lower[rows]
+    limiting = np.where(coef < 0, np.isfinite(hi), np.isfinite(lo))
+    if np.bincount(rows[limiting], minlength=model.num_rows).max(initial=0) > 1:
+        return out
+    rows, cols, coef, hi, lo = (a[limiting] for a in (rows, cols, coef, hi, lo))
+    rest = matrix[rows] @ x - coef * x[cols]  # each row's held part
+    least = model.col_lower.copy()
+    np.maximum.at(least, cols, np.where(coef < 0, (rest - hi) / -coef, (lo - rest) / coef))
+    settled_x = x.copy()
+    settled_x[free] = np.minimum(least[free], x[free])
+    value = float(objective @ settled_x)
+    if not value < out.objective:
+        return out
+    return _with_floor(replace(out, x=settled_x, objective=value), relative_gap_wanted)
 
 
 POLISH_SECONDS = 60.0  # at most, for the final work split; never past the limit

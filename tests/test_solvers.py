@@ -806,3 +806,45 @@ def test_a_bound_above_the_plan_kept_is_discarded_not_reported():
     # Within the solvers' relative 1e-6 a bound stands, and so does the claim.
     close = replace(claimed, bound=109_000.0 * (1 + 5e-7))
     assert _bound_checked(close, None, 0.0) is close
+
+
+def test_a_plan_stopped_with_slack_is_scored_at_what_it_costs(tmp_path):
+    # A sweep: a cost stage stopped by its limit read 2,987,500 of a plan whose tables cost
+    # 2,936,500: the columns for what a detail costs from a new home (12 offices, everyone
+    # relocatable) held 51,000 of slack.  Reference: scipy's linprog minimising the cost
+    # over those columns with every other column held at the plan's values.
+    from conftest import scipy_lp
+
+    from rebalance.backends import BackendOutcome
+    from rebalance.generate import GeneratorSpec, generate, write_generated
+    from rebalance.model import build_model
+    from rebalance.solve import settled
+
+    spec = GeneratorSpec(staff=24, offices=12, skills=6, pool_size=1, periods=12, seed=4,
+                         relocatable_share=1.0, detail_share=1.0)
+    model = build_model(read_instance(write_generated(generate(spec), tmp_path / "twelve")))
+    adjust = model.blocks["detail_cost_adjustment"]
+    assert len(adjust) > 0
+    # Staying put, worked out by scipy, and then 100 of slack on every adjustment column.
+    stay = scipy_lp(model, model.shortfall_weight,
+                    upper=np.where(model.is_integer, model.col_lower, model.col_upper))
+    assert stay.status == 0
+    x = stay.x.copy()
+    x[adjust.start:adjust.stop] += 100.0
+    slack = BackendOutcome(Status.FEASIBLE_WITH_GAP, x, float(model.cost @ x), 0.0,
+                           "Time limit reached", 1.0)
+    out = settled(model, slack, model.cost, 0.01)
+    held = np.ones(model.num_cols, bool)
+    held[adjust.start:adjust.stop] = False
+    reference = scipy_lp(model, model.cost, np.where(held, x, model.col_lower),
+                         np.where(held, x, model.col_upper))
+    assert reference.status == 0
+    assert out.objective < slack.objective
+    assert out.objective == pytest.approx(reference.fun, rel=1e-9, abs=1e-6)
+    assert out.x is not None and np.all(model.matrix @ out.x <= model.row_upper + 1e-6)
+    assert np.all(model.matrix @ out.x >= model.row_lower - 1e-6)
+    # The shortfall columns are settled the same way: staying put has no slack in them.
+    again = settled(model, BackendOutcome(Status.FEASIBLE_WITH_GAP, stay.x, stay.fun, 0.0,
+                                          "Time limit reached", 1.0),
+                    model.shortfall_weight, 0.01)
+    assert again.objective == pytest.approx(stay.fun, rel=1e-9)

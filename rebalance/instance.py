@@ -9,6 +9,7 @@ them so the two cannot drift apart on what a column means.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any, Literal, NoReturn
@@ -258,6 +259,23 @@ class Instance:
         ramp = self.skill(skill).ramp
         productivity = ramp[j] if j < len(ramp) else 1.0
         return productivity * self.retention(self.attrition_rate(skill, office), j)
+
+    def most_away(self, office: str, period: int) -> int:
+        """The most of the people present in ``period`` whose home at the start is ``office``
+        (heads, not FTE: a seat holds a person) any plan can have away then: every
+        relocatable one reassigned out, and detailable others up to the away share, in whole
+        people, of those left (a reassignment out counts in no share; one in only adds a head).
+        Where a detail needs demand elsewhere is not looked at: this never says too few."""
+        if len(self.offices) < 2:
+            return 0  # nowhere else to go
+        based = [p for p in self.staff if p.home_office == office and p.is_present(period)]
+        relocatable = sum(1 for p in based if p.can_relocate)
+        if self.policy.max_consecutive_detail_periods == 0:  # no details at all
+            return relocatable
+        detailable = sum(1 for p in based if p.can_detail and not p.can_relocate)
+        # The tolerance keeps 0.29 x 100 (28.999999999999996 in floats) at 29.
+        share_cap = math.floor(self.policy.max_away_share * (len(based) - relocatable) + 1e-9)
+        return relocatable + min(detailable, share_cap)
 
     def with_changes(self, **changes: object) -> Instance:
         """A copy with some fields replaced (a scenario is a variant of an instance)."""

@@ -10,7 +10,7 @@ import pytest
 from conftest import DATA
 
 from rebalance import InstanceError, read_instance
-from rebalance.cli import EXIT_INVALID_INPUT, main
+from rebalance.cli import EXIT_INFEASIBLE, EXIT_INVALID_INPUT, main
 
 BAD = DATA / "bad"
 
@@ -108,7 +108,75 @@ def test_warnings_do_not_stop_a_solve(tmp_path):
     instance = read_instance(target)
     text = "\n".join(instance.warnings)
     assert "nobody on staff has skill 'intake'" in text
-    assert "office 'B' has no staff" in text
+    assert "offices.csv:3: office: nobody on staff is based at 'B'" in text
+    # Demand in Q1 and Q2 only: Q3 and Q4 have no rows (hand count of the rows above).
+    assert ("demand.csv: period: no rows for 2027-Q3 and 2027-Q4, while other periods have "
+            "some: were rows left out?") in text
+
+
+SEATS = DATA / "seats_short"
+
+
+def seats_variant(tmp_path: Path, settings: tuple[str, str] | None = None,
+                  staff: tuple[str, str] | None = None, offices: tuple[str, str] | None = None
+                  ) -> Path:
+    """The seats_short instance with one text replaced in each file named."""
+    target = tmp_path / "i"
+    shutil.copytree(SEATS, target)
+    for name, change in (("settings.toml", settings), ("staff.csv", staff),
+                         ("offices.csv", offices)):
+        if change is not None:
+            text = (target / name).read_text()
+            assert change[0] in text
+            (target / name).write_text(text.replace(change[0], change[1]))
+    return target
+
+
+def seat_warnings(folder: Path) -> list[str]:
+    return [w for w in read_instance(folder).warnings if ": seats: " in w]
+
+
+def test_people_based_beyond_the_seats_are_said_with_how_many_must_be_away(tmp_path):
+    # Hand count (tests/data/seats_short/NOTE.md): A has 2 seats; a1-a5 are based there in
+    # 2027-Q1 and Q2 (5 > 2: 3 must be away), a5 leaves after Q2 (4 > 2 in Q3, Q4). May go
+    # in Q1: a5 reassigned (1) + detailable a1, a2 up to floor(0.5 x (5 - 1)) = 2: 3 >= 3,
+    # so no "no plan". B: 1 person, 10 seats: nothing said.
+    assert seat_warnings(SEATS) == [
+        "offices.csv:2: seats: 'A' has 5 people based there in 2027-Q1 for 2 seats, and more "
+        "than 2 in 3 more periods: at least 3 must be away then (detailed out or reassigned)"]
+    # The model agrees that 3 may go: a plan exists (3 away in Q1, Q2; 2 in Q3, Q4).
+    assert main(["plan", str(SEATS), "-o", str(tmp_path / "out"), "-q"]) == 0
+
+
+def test_too_few_may_go_for_the_seats_is_said_and_the_plan_is_infeasible(tmp_path):
+    # Share 0.25: may go in Q1 = 1 (a5) + min(2, floor(0.25 x 4) = 1) = 2 < 3 must.
+    target = seats_variant(tmp_path, settings=("max_away_share = 0.5", "max_away_share = 0.25"))
+    assert seat_warnings(target) == [
+        "offices.csv:2: seats: 'A' has 5 people based there in 2027-Q1 for 2 seats, and more "
+        "than 2 in 3 more periods: at least 3 must be away then (detailed out or reassigned), "
+        "and only 2 may go (can_detail, can_relocate, max_away_share): no plan can keep its "
+        "seats"]
+    code = main(["plan", str(target), "-o", str(tmp_path / "out"), "-q"])
+    assert code == EXIT_INFEASIBLE
+
+
+def test_seats_over_every_period_alike_and_no_details_allowed(tmp_path):
+    # a5 stays: 5 based in all 4 periods, 3 must be away each; with no details at all
+    # (max_consecutive_detail_periods = 0) only a5, reassigned, may go: 1 < 3.
+    target = seats_variant(tmp_path, staff=("true,true,2027-Q2", "true,true,"),
+                           settings=("[policy]", "[policy]\nmax_consecutive_detail_periods = 0"))
+    assert seat_warnings(target) == [
+        "offices.csv:2: seats: 'A' has 5 people based there in 2027-Q1 (and 3 more periods) "
+        "for 2 seats: at least 3 must be away each period (detailed out or reassigned), and "
+        "only 1 may go (can_detail, can_relocate, max_consecutive_detail_periods = 0, "
+        "max_away_share): no plan can keep its seats"]
+
+
+def test_no_seat_warning_where_the_seats_suffice(tmp_path, tiny):
+    # 5 seats for at most 5 people based at A (boundary: 5 <= 5); fte does not count, heads do.
+    assert seat_warnings(seats_variant(tmp_path, offices=("A,Alder,2,0", "A,Alder,5,0"))) == []
+    # tiny: A has 10 seats for 3, B 6 for 1; every period has demand.
+    assert not [w for w in tiny.warnings if ": seats: " in w or ": period: " in w]
 
 
 def test_instance_is_read_only(tiny):

@@ -117,7 +117,8 @@ def first_plan_from_lp(backend: Backend, model: Model, objective: np.ndarray,
     lp = backend.run(relaxed(model), objective, extra_rows, options, options.shares.lp * budget,
                      None)
     if lp.status is not Status.OPTIMAL or lp.x is None:
-        say(f"  LP relaxation not solved ({lp.words}); going straight to branch and bound")
+        why = "out of its time" if lp.status is Status.NO_PLAN_IN_TIME else lp.words
+        say(f"  LP relaxation not solved ({why}); going straight to branch and bound")
         return start, None
     say(f"  LP relaxation {lp.objective:.6g} in {lp.seconds:.1f}s")
     # Widen the box to hold the previous plan too: never empty, and the search mixes what

@@ -45,7 +45,7 @@ def held_lp_bound(backend: Backend, model: Model, objective: np.ndarray,
                              say, expected_seconds, "bound from an LP with homes held")
     if priced is None:
         return None
-    say(f"  bound from the row prices of an LP with homes held: {priced[0]:.6g} in "
+    say(f"  bound from the row prices of an LP with homes held: {_bound_text(priced[0])} in "
         f"{time.perf_counter() - began:.1f}s")
     return priced[0]
 
@@ -105,7 +105,7 @@ def cost_bound_ahead(backend: Backend, model: Model, options: SolveOptions,
         return None
     bound, held_price = priced
     say(f"  bound for the cost stage, from an LP with the shortfall held at {held:.6g} "
-        f"(beside the search): {bound:.6g} in {time.perf_counter() - began:.1f}s")
+        f"(beside the search): {_bound_text(bound)} in {time.perf_counter() - began:.1f}s")
     return HeldCostBound(held, bound, held_price)
 
 
@@ -198,7 +198,7 @@ def _whole_plans_bound(model: Model, objective: np.ndarray,
     if out.bound is None:
         say(f"  bound from relocatable people's whole plans ({when}): none ({out.words})")
         return None
-    say(f"  bound from relocatable people's whole plans ({when}): {out.bound:.6g} in "
+    say(f"  bound from relocatable people's whole plans ({when}): {_bound_text(out.bound)} in "
         f"{out.seconds:.1f}s ({out.words})")
     return out.bound
 
@@ -225,7 +225,7 @@ def bound_from_prices(backend: Backend, model: Model, objective: np.ndarray,
     bound = priced_bound(backend, model, objective, prices, options,
                          time_limit - (time.perf_counter() - began), None, pieces)
     if bound is not None:
-        say(f"  bound from the rounding LP's row prices{where}: {bound:.6g} in "
+        say(f"  bound from the rounding LP's row prices{where}: {_bound_text(bound)} in "
             f"{time.perf_counter() - began:.1f}s")
     return bound
 
@@ -253,3 +253,9 @@ def _exact_pieces(model: Model) -> WholePlans | None:
 # The last model's pieces (WholePlans are read-only once built), and who may read or build.
 _PIECES: list[Any] = [None, None]
 _PIECES_LOCK = threading.Lock()
+
+
+def _bound_text(bound: float) -> str:
+    """A bound for a progress line.  Every objective here is shortfall or money paid, so none
+    is below 0, and a bound below it says nothing ("-1.96776e+11" had been shown)."""
+    return f"{bound:.6g}" if bound > 0 else "none above 0"

@@ -264,9 +264,8 @@ class HighsBackend:
                 x = found[0]
             else:
                 if options.progress is not None:
-                    options.progress(f"  searching: HiGHS claimed {obj:.6g} but handed back a "
-                                     "plan that does not score it; searching again without "
-                                     "the start")
+                    options.progress("  searching: HiGHS's plan did not match the value it "
+                                     "gave; searching again from scratch")
                 left = time_limit - (time.perf_counter() - started)
                 again = self._run_here(model, objective, extra_rows, options, max(left, 1.0),
                                        None)

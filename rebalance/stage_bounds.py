@@ -190,7 +190,7 @@ def _whole_plans_bound(model: Model, objective: np.ndarray,
         bound, rounds = plan_bound(model, objective, extra_rows, stop, on_bound,
                                    WHOLE_PLANS_CUT_ROUNDS)
         return BackendOutcome(Status.OPTIMAL if bound is not None else Status.NO_PLAN_IN_TIME,
-                              None, None, bound, f"{rounds} rounds", 0.0)
+                              None, None, bound, f"{rounds} round{'s' * (rounds != 1)}", 0.0)
 
     out = run_in_child(run, replace(options, progress=None), time_limit)
     if out.status is Status.ERROR:

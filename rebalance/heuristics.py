@@ -20,7 +20,14 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from rebalance import stage_bounds
-from rebalance.backends import Backend, BackendOutcome, SolveOptions, Status, in_background
+from rebalance.backends import (
+    Backend,
+    BackendOutcome,
+    HighsBackend,
+    SolveOptions,
+    Status,
+    in_background,
+)
 from rebalance.model import Model
 from rebalance.rounding import early_lp, movers_free, neighbourhood, plan_by_rounding
 from rebalance.split import relaxed, run_within
@@ -82,19 +89,27 @@ def stay_put_plan(backend: Backend, model: Model, objective: np.ndarray,
         held = np.clip(np.rint(model.hint), model.col_lower, model.col_upper)
         candidates.insert(0, ("the old plan's moves and hires, work split afresh", held))
     best: tuple[float, np.ndarray] | None = None
+    # Held apart, only the work split is left (an LP): CBC had been handed the whole model
+    # (40 offices: PuLP's building and writing took the 1.9 s this step had, and the run
+    # ended with no plan at all, exit 5).  Where a backend writes its model out for every run
+    # (CBC through PuLP), HiGHS takes the LP's arrays instead: on a loaded machine CBC had
+    # still not written it in its share, and a run that stays put keeps every limit.  The
+    # backend asked for stays the fallback (HiGHS takes no cost of 1e20 or more).
+    lp_backends = [backend] if backend.reruns_cheaply else [HighsBackend(), backend]
     for words, values in candidates:
-        left = deadline - time.perf_counter()
-        if left <= 0.05:
-            break
-        # Held apart, only the work split is left (an LP): CBC had been handed the whole
-        # model (40 offices: PuLP's building and writing took the 1.9 s this step had, and
-        # the run ended with no plan at all, exit 5).
         lower = np.where(model.is_integer, values, model.col_lower)
         upper = np.where(model.is_integer, values, model.col_upper)
-        out = run_within(backend, relaxed(model), objective, [],
-                         replace(options, progress=None, heuristics=False), lower, upper,
-                         min(left, max(0.1 * left, 1.0)))
-        if out.x is None or out.objective is None:
+        out: BackendOutcome | None = None
+        for lp_backend in lp_backends:
+            left = deadline - time.perf_counter()
+            if left <= 0.05:
+                break
+            out = run_within(lp_backend, relaxed(model), objective, [],
+                             replace(options, progress=None, heuristics=False), lower, upper,
+                             min(left, max(0.1 * left, 1.0)))
+            if out.x is not None and out.objective is not None:
+                break
+        if out is None or out.x is None or out.objective is None:
             continue
         say(f"  {words}: {out.objective:.6g}")
         if best is None or out.objective < best[0] - 1e-9:

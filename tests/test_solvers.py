@@ -848,3 +848,19 @@ def test_a_plan_stopped_with_slack_is_scored_at_what_it_costs(tmp_path):
                                           "Time limit reached", 1.0),
                     model.shortfall_weight, 0.01)
     assert again.objective == pytest.approx(stay.fun, rel=1e-9)
+
+
+def test_with_cbc_staying_put_is_worked_out_even_where_cbc_gets_nothing_done(tiny, monkeypatch):
+    # A sweep on a loaded machine: CBC (through PuLP) had not written the stay-put LP out in
+    # its share, and a run ended with no plan at all (exit 5) where staying put keeps every
+    # limit.  That LP goes to HiGHS; here CBC is made to get nothing done at all.
+    from rebalance.backends import BackendOutcome
+    from rebalance.backends.cbc import CbcBackend
+
+    def nothing(self, model, objective, extra_rows, options, time_limit, start):
+        return BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, None, "out of time", 0.0)
+
+    monkeypatch.setattr(CbcBackend, "run", nothing)
+    result = make_plan(tiny, options_from_instance(tiny, solver="cbc", time_limit_seconds=10.0))
+    assert result.status is Status.FEASIBLE_WITH_GAP and result.verified
+    assert result.plan is not None and result.plan.total_cost == 0.0  # nobody moved or hired

@@ -194,6 +194,9 @@ def polish(backend: Backend, model: Model, out: BackendOutcome, options: SolveOp
     return out if split is None else replace(out, x=split.x)
 
 
+SETTLE_TOLERANCE = 1e-9  # relative: less than this off a plan's objective is no slack
+
+
 def settled(model: Model, out: BackendOutcome, objective: np.ndarray,
             relative_gap_wanted: float) -> BackendOutcome:
     """``out`` with each continuous column ``objective`` prices at the least its rows allow,
@@ -226,8 +229,8 @@ def settled(model: Model, out: BackendOutcome, objective: np.ndarray,
     settled_x = x.copy()
     settled_x[free] = np.minimum(least[free], x[free])
     value = float(objective @ settled_x)
-    if not value < out.objective:
-        return out
+    if not value < out.objective - SETTLE_TOLERANCE * max(1.0, abs(out.objective)):
+        return out  # rounding noise: a start moved by 1e-13 had sent a search elsewhere
     return _with_floor(replace(out, x=settled_x, objective=value), relative_gap_wanted)
 
 

@@ -14,6 +14,7 @@ Exit codes (also in the README):
 from __future__ import annotations
 
 import argparse
+import json
 import os
 import shlex
 import sys
@@ -156,9 +157,30 @@ def cmd_verify(args: argparse.Namespace) -> int:
     except PlanError as exc:
         return _unreadable_plan(args.plan_dir, exc)
     head, *lines = format_violations(violations).splitlines()
+    scenario = _scenario_of(Path(args.plan_dir)) if violations else None
+    if scenario is not None:
+        # A plan made under a scenario keeps the scenario's data, not the instance's: its
+        # demand and budgets read as broken here (a sweep's planner took that for a fault).
+        print(f"This plan was made under scenario '{scenario}' (summary.json) and was "
+              "verified against it when made; checked here against the instance's own data, "
+              "the scenario's changes show up as problems below.")
     print("\n".join([head, *(lines if args.all else
                               _first(lines, "; --all lists every one"))]))
     return EXIT_OK if not violations else EXIT_VERIFICATION_FAILED
+
+
+def _scenario_of(folder: Path) -> str | None:
+    """The scenario a plan folder's summary.json says its plan was made under, if any."""
+    try:
+        summary = json.loads((folder / "summary.json").read_text())
+    except (OSError, ValueError):
+        return None
+    if not isinstance(summary, dict):
+        return None
+    replanned = summary.get("replan")
+    name = summary.get("scenario") or (replanned.get("scenario")
+                                       if isinstance(replanned, dict) else None)
+    return name if isinstance(name, str) and name else None
 
 
 def cmd_demand(args: argparse.Namespace) -> int:

@@ -144,7 +144,9 @@ def cmd_compare(args: argparse.Namespace) -> int:
             sub = folder / "scenarios" / folder_name(name)
             sub.mkdir(parents=True)
             write_plan(other.plan, sub)
-            (sub / "summary.json").write_text(json.dumps(summary_dict(other), indent=2) + "\n")
+            # Which scenario's data it keeps: verify against the instance names it.
+            summary = {**summary_dict(other), "scenario": name}
+            (sub / "summary.json").write_text(json.dumps(summary, indent=2) + "\n")
             write_tables({"reasons.csv": reasons(other.instance, other.plan).table}, sub)
 
     tables = {"scenarios.csv": comparison.table, "scenario_costs.csv": comparison.costs,
@@ -162,6 +164,12 @@ def cmd_replan(args: argparse.Namespace) -> int:
     if instance is None:
         return EXIT_INVALID_INPUT
     folder = Path(args.from_dir)
+    if Path(args.out).resolve() == folder.resolve():
+        # The old plan is the record of what was decided: a re-plan into its own folder had
+        # replaced it without a word.
+        _err(f"-o {args.out}: that is the --from folder; the new plan would replace the old "
+             "one it starts from. Give another folder to keep both; nothing was written")
+        return EXIT_USAGE
     try:
         old = read_plan(folder, complete=True)
     except PlanError as exc:

@@ -67,6 +67,17 @@ def test_compare_and_replan(tmp_path: Path) -> None:
                "--gap", "0", "-q", "--scenario", str(scenario))
     assert done.returncode == 0, done.stderr
     assert json.loads((surge / "summary.json").read_text())["replan"]["scenario"] == "b-surge"
+    # Checked against the instance's own data, a plan made under a scenario fails, and says
+    # first why (a practitioner's reading: "verification failed" with no word of it).
+    done = run("verify", str(TINY), str(surge))
+    assert done.returncode == 6 and "made under scenario 'b-surge'" in done.stdout
+    named = json.loads((out / "scenarios" / "b-surge" / "summary.json").read_text())
+    assert named["scenario"] == "b-surge"
+    # A re-plan into its own --from folder is refused, and the old plan is kept.
+    before = (out / "hires.csv").read_text()
+    done = run("replan", str(TINY), "--from", str(out), "--at", "2027-Q3", "-o", str(out), "-q")
+    assert done.returncode == 2 and "--from folder" in done.stderr
+    assert (out / "hires.csv").read_text() == before
 
 
 def test_bad_inputs_exit_cleanly(tmp_path: Path) -> None:

@@ -73,6 +73,10 @@ def test_infeasible_limits_are_named(tmp_path, capsys):
     assert "limits in conflict" in out
     assert "seats: A in 2027-" in out or "away share: A in 2027-" in out
     assert not (tmp_path / "out").exists()
+    # With no plan the caution about a plan gives way to what happened (a practitioner's
+    # reading: it had said "This plan supports a decision" of no plan, and not that nothing
+    # was written).
+    assert "No plan: nothing was written." in out and "Caution" not in out
 
 
 def test_no_plan_in_time_keeps_the_old_plan(tmp_path, capsys):

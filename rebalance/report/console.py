@@ -140,7 +140,10 @@ def format_summary(result: PlanResult) -> str:
                 f"{office} {fte_total_text(value)}" for office, value in short.items())]
         lines += ["", f"  independent verification: {_verdict(result)}"]
         lines += [f"    - {v}" for v in result.violations[:20]]
-    lines += ["", "  Caution: " + CAUTION]
+        lines += ["", "  Caution: " + CAUTION]
+    else:
+        # The caution is about a plan; with none, what a reader needs is that nothing moved.
+        lines += ["", "  No plan: nothing was written."]
     return "\n".join(lines)
 
 

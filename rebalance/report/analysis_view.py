@@ -29,7 +29,7 @@ from rebalance.numbers import (
 from rebalance.report.htmlparts import chart, e, frame_table_html, section
 from rebalance.report.inputs import SHEET_ONLY, ReportData
 
-__all__ = ["AnalysisView", "analysis_payload", "find_column", "step_words"]
+__all__ = ["AnalysisView", "analysis_payload", "find_column", "gap_caution", "step_words"]
 
 
 @dataclass(frozen=True)
@@ -332,19 +332,29 @@ def _marginal_words(frame: pd.DataFrame, table: _MarginalTable | None,
     return lead, caption
 
 
-def _gap_note(frame: pd.DataFrame) -> str:
-    """A warning where the solves behind a comparison stopped short of proof: a difference
-    smaller than their gaps may come from where each search stopped, not from what was
-    compared (a practitioner's reading had a surge scenario cost less than the base)."""
+def gap_caution(frame: pd.DataFrame) -> str:
+    """A warning where the solves behind a comparison stopped short of proof ("" where they
+    did not): a difference smaller than their gaps may come from where each search stopped,
+    not from what was compared (a practitioner's reading had a surge scenario cost less than
+    the base).  Plain text, for the console and, marked up, the page."""
     gap = find_column(frame, ("gap",))
     gaps = [g for g in _finite(frame[gap].tolist()) if g is not None] if gap else []
     if not gaps or max(gaps) <= 1e-4:
         return ""
-    return ('<p class="note">These solves stopped before proving their plans best, with gaps '
-            f"of up to {gap_text(max(gaps))} (the <code>gap</code> column). A difference between "
-            "rows smaller than that share of a figure may come from where each search "
-            "stopped rather than from what was changed: give the solves more time "
-            "(<code>--time-limit</code>) before reading it as real.</p>")
+    return (f"These solves stopped before proving their plans best, with gaps of up to "
+            f"{gap_text(max(gaps))} (the gap column). A difference between rows smaller than "
+            "that share of a figure may come from where each search stopped rather than from "
+            "what was changed: give the solves more time (--time-limit) before reading it as "
+            "real.")
+
+
+def _gap_note(frame: pd.DataFrame) -> str:
+    """:func:`gap_caution` as a note of the page."""
+    caution = gap_caution(frame)
+    if not caution:
+        return ""
+    marked = e(caution).replace("the gap column", "the <code>gap</code> column")
+    return f'<p class="note">{marked.replace("(--time-limit)", "(<code>--time-limit</code>)")}</p>'
 
 
 def analysis_payload(data: ReportData) -> AnalysisView:

@@ -19,3 +19,20 @@ def test_a_comparison_of_unproven_solves_says_differences_may_be_the_searchs() -
 def test_proven_solves_need_no_warning() -> None:
     assert _gap_note(pd.DataFrame({"scenario": ["base"], "gap": [0.0]})) == ""
     assert _gap_note(pd.DataFrame({"scenario": ["base"], "cost": [1.0]})) == ""
+
+
+def test_the_console_carries_the_same_warning_in_plain_words(capsys) -> None:
+    # A practitioner's reading: compare's console showed a surge scenario with less shortfall
+    # than the base (the base's search had stopped 31% from its bound) with no warning; the
+    # page had one.
+    from rebalance.cli_analysis import _say_gaps
+    from rebalance.report.analysis_view import gap_caution
+
+    frame = pd.DataFrame({"scenario": ["base", "surge"], "gap": [0.3116, 0.0679]})
+    caution = gap_caution(frame)
+    assert "31.16%" in caution and "<" not in caution
+    _say_gaps(frame)
+    printed = " ".join(capsys.readouterr().out.split())
+    assert printed == caution
+    _say_gaps(pd.DataFrame({"scenario": ["base"], "gap": [0.0]}))
+    assert capsys.readouterr().out == ""

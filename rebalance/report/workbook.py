@@ -261,9 +261,15 @@ def _plain_number_formats(column: pd.Series, values: list[Any], styles: _Styles,
     if whole.all():
         return styles.number(WHOLE)
     whole_format, decimals = styles.number(WHOLE), styles.number(DECIMALS)
+    # From 1,000 up decimals are noise, as number_text writes them: a marginal table's
+    # column of limits had shown a moves budget as 300,000.000 beside seats of 52.000.
+    with np.errstate(invalid="ignore"):
+        big = np.isfinite(numbers) & (np.abs(numbers) >= 1000)
     if not per_row:
-        return decimals
-    return [whole_format if w else decimals for w in whole.tolist()]
+        return decimals if not big.any() else [whole_format if b else decimals
+                                                for b in big.tolist()]
+    return [whole_format if w or b else decimals
+            for w, b in zip(whole.tolist(), big.tolist(), strict=True)]
 
 
 def _named_format(column: str, values: list[Any], styles: _Styles) -> Any:

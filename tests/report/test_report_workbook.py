@@ -193,3 +193,23 @@ def test_years_that_are_not_numbers_stay_text_everywhere():
     assert not _numeric_years(("0027",))  # leading zeros would be lost
     assert [_year_cell(v, False) for v in ("FY28", 2027, 2027.0, None)] == [
         "FY28", "2027", "2027", None]
+
+
+def test_a_column_of_mixed_limits_shows_large_figures_without_decimals(tmp_path) -> None:
+    # A practitioner's reading: the marginal sheet's `current` column (seats 52, a moves
+    # budget of 300,000, an away share of 0.15) read "300,000.000" in Excel, where the page
+    # and console write 300,000 (from 1,000 up decimals are noise: rebalance.numbers).  The
+    # workbook is written with xlsxwriter and read back with openpyxl.
+    import xlsxwriter
+
+    from rebalance.report.workbook import _Styles, _table_sheet
+
+    path = tmp_path / "limits.xlsx"
+    book = xlsxwriter.Workbook(str(path))
+    frame = pd.DataFrame({"limit": ["seats", "moves_budget", "away_share"],
+                          "current": [52.0, 300_000.0, 0.15]})
+    _table_sheet(book.add_worksheet("limits"), _Styles(book), frame)
+    book.close()
+    sheet = load_workbook(path)["limits"]
+    formats = [sheet.cell(row, 2).number_format for row in (2, 3, 4)]
+    assert formats == ["#,##0.000", "#,##0", "#,##0.000"]

@@ -420,12 +420,16 @@ def _read_demand(table: RawTable, problems: list[Problem], offices: Mapping[str,
     rows, out = TableRows(table, problems, COLUMNS["demand"]), []
     seen: dict[tuple[str, str, str], int] = {}
     period_index = {p.name: i for i, p in enumerate(periods)}
+    # The horizon is often start and count, not a list: name its ends, so "listed in
+    # settings.toml" is not sought there in vain.
+    periods_defined = (f"settings.toml ({periods[0].name} to {periods[-1].name})" if periods
+                       else "settings.toml")
     read = 0
     for row in rows:
         read += 1
         office = rows.reference(row, "office", offices, "office", "offices.csv")
         skill = rows.reference(row, "skill", skills, "skill", "skills.csv")
-        period = rows.reference(row, "period", known_periods, "period", "settings.toml")
+        period = rows.reference(row, "period", known_periods, "period", periods_defined)
         has_fte, has_hours = bool(row.get("fte")), bool(row.get("hours"))
         fte = hours = None
         if has_fte and has_hours:

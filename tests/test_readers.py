@@ -415,7 +415,7 @@ def test_one_unreadable_period_entry_is_said_once_naming_what_it_holds(tmp_path)
     (target / "demand.csv").write_text("office,skill,period,fte\nA,review,2027-Q2,1\n"
                                        "A,review,2031-Q1,1\n")
     assert _problems(target)[1:] == ["demand.csv:3: period: unknown period '2031-Q1'; "
-                                     "expected one listed in settings.toml"]
+                                     "expected one listed in settings.toml (2027-Q1 to 2027-Q4)"]
 
 
 def test_periods_listed_with_start_and_count_warn_that_those_are_ignored(tmp_path):

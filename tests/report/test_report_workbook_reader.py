@@ -98,7 +98,7 @@ def test_periods_sheet_lists_periods(tmp_path):
         read_workbook(book)
     (problem,) = [p for p in caught.value.problems if not p.is_warning]
     assert (problem.file, problem.row, problem.column) == ("tiny.xlsx[demand]", 2, "period")
-    assert problem.message.endswith("sheet periods")
+    assert problem.message.endswith("listed in sheet periods (P1 to P4)")
     assert [p.hours_per_fte for p in instance.periods] == [480, 480, 400, 480]
     assert instance.years == ("2027",)
 

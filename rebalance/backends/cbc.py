@@ -400,15 +400,17 @@ def _read(log_path: Path) -> str:
 
 
 def _cbc_bound(log: str, root: bool = True) -> float | None:
-    """The run's bound from CBC's log: its summary's lower bound, else (``root``) the best of
-    its search's "best possible" and its root LP's value (a run stopped before its summary);
-    None where none is a finite number."""
+    """The run's bound from CBC's log: its summary's lower bound, else (``root``) its root
+    LP's value (a run stopped before its summary); None where neither is a finite number.
+
+    Not the "best possible" of its progress lines: after a restart on a reduced model
+    (reduced cost fixing) they bound that model, and CBC's own summary then gives the outer
+    search's lower figure (a sweep: 268,499.69 in the lines, 237,892 in the summary)."""
     summary = _printed_bounds(_CBC_BOUND.findall(log)[-1:])
     if summary or not root:
         return summary[0] if summary else None
-    found = _printed_bounds([best for _, _, best in _CBC_PROGRESS.findall(log)]
-                            + _CBC_ROOT_LP.findall(log)[-1:])
-    return max(found) if found else None
+    found = _printed_bounds(_CBC_ROOT_LP.findall(log)[-1:])
+    return found[0] if found else None
 
 
 def _optimal_bound(log: str, objective: float, relative_gap: float) -> float:
@@ -417,15 +419,15 @@ def _optimal_bound(log: str, objective: float, relative_gap: float) -> float:
     node within the gap asked of its plan, so that much is all it proves: "optimal" with a
     gap of 0 from a 1% search had been claimed of a plan 0.013% above the optimum (and with
     no gap asked, tiny had read "optimal within the gap asked (15.54% left)" from the root
-    LP's bound)."""
+    LP's bound).  The root LP's value, where higher, bounds it too."""
     summary = _cbc_bound(log, root=False)
     if summary is not None:
         return summary
     if not relative_gap:
         return objective
     pruned = objective - relative_gap * abs(objective)
-    searched = _cbc_bound(log)
-    return pruned if searched is None else max(pruned, searched)
+    root = _cbc_bound(log)
+    return pruned if root is None else max(pruned, root)
 
 
 def _printed_bounds(texts: list[str]) -> list[float]:

@@ -37,6 +37,7 @@ from rebalance.heuristics import (
     trimmed,
 )
 from rebalance.model import LIMIT_FAMILIES, Model
+from rebalance.numbers import money_text, number_text
 from rebalance.split import resplit
 
 __all__ = ["SolveOptions", "SolveResult", "StageResult", "Status", "solve", "solve_stage"]
@@ -78,10 +79,18 @@ def constant_conflicts(model: Model) -> list[str]:
 
 def _describe_row(model: Model, row: int, excess: float | None) -> str:
     family, label = model.row_label(row)
-    text = f"{family.replace('_', ' ')}: {label}"
+    words = family.replace("_", " ")
+    # A budget's label names it already ("moves budget 2027"): said once, not twice.
+    text = label if label.startswith(words) else f"{words}: {label}"
     if excess is not None:
-        text += f" (over by {excess:.4g})"
+        text += f" (over by {_amount(family, excess)})"
     return text
+
+
+def _amount(family: str, value: float) -> str:
+    """How far a limit had to give, by the number rule: money in full for a budget (it had
+    read "over by 8.16e+04"), else as a table writes a figure."""
+    return money_text(value) if "budget" in family else number_text(value)
 
 
 def solve(model: Model, options: SolveOptions) -> SolveResult:
@@ -537,7 +546,8 @@ def find_conflicts(model: Model, backend: Backend, options: SolveOptions,
         family, _ = model.row_label(limit_rows[i])
         count, amount = totals.get(family, (0, 0.0))
         totals[family] = (count + 1, amount + float(excess[i]))
-    summary = [f"{family.replace('_', ' ')}: over by {amount:.4g} in all, across {count} limits "
+    summary = [f"{family.replace('_', ' ')}: over by {_amount(family, amount)} in all, across "
+               f"{count} limits "
                "(the least total; how it is split between them can differ)"
                for family, (count, amount) in totals.items() if count > 1]
     return summary + listed

@@ -864,3 +864,15 @@ def test_with_cbc_staying_put_is_worked_out_even_where_cbc_gets_nothing_done(tin
     result = make_plan(tiny, options_from_instance(tiny, solver="cbc", time_limit_seconds=10.0))
     assert result.status is Status.FEASIBLE_WITH_GAP and result.verified
     assert result.plan is not None and result.plan.total_cost == 0.0  # nobody moved or hired
+
+
+def test_a_budget_that_must_give_is_named_once_and_its_amount_in_full(tiny):
+    # A sweep: a re-plan's conflict read "moves budget: moves budget 2027 (over by 8.16e+04)".
+    from rebalance.model import build_model
+    from rebalance.solve import _describe_row
+
+    model = build_model(tiny)
+    [family] = [f for f in model.rows if f.name == "hiring_budget"]
+    text = _describe_row(model, family.start, 81_600.0)
+    assert text == f"{family.labels[0]} (over by 81,600)"
+    assert text.startswith("hiring budget ")

@@ -150,7 +150,8 @@ def _past_work_ruled_out(instance: Instance, past_work: dict[str, list[PastWork]
         total: dict[int, float] = defaultdict(float)
         first_line: dict[int, int] = {}
         for line, t, office, skill, fte in rows:
-            where = f"{file('work')}:{line}: {name} works {fte:g} FTE on {skill} at {office} in "
+            where = (f"{file('work')}:{line}: {name} works {figures(fte)[0]} FTE on {skill} at "
+                     f"{office} in ")
             where += f"{names[t]}, before {names[at]}, but"
             total[t] += fte
             first_line.setdefault(t, line)
@@ -191,11 +192,12 @@ def _started_hires_ruled_out(instance: Instance, old: Plan, at: int) -> list[str
         if s < at + skills[h.skill].time_to_hire:
             started[(h.office, h.skill, s, h.funding)] += h.count
     problems = []
+    # Refused hires by what rules them out, vacancy-funded and new positions together (a
+    # sweep: the same line twice, one for each funding).
+    refused: dict[tuple[str, str, int, str], int] = defaultdict(int)
 
     def refuse(count: int, office: str, skill: str, s: int, why: str) -> None:
-        problems.append(f"{count:g} hire(s) of {skill} at {office} from {names[s]} have "
-                        f"started (their recruitment has begun), but the data now rule them "
-                        f"out: {why}")
+        refused[(office, skill, s, why)] += count
 
     by_start: dict[tuple[str, int], int] = defaultdict(int)
     by_vacancy: dict[tuple[str, str], list[tuple[int, int]]] = defaultdict(list)
@@ -211,6 +213,9 @@ def _started_hires_ruled_out(instance: Instance, old: Plan, at: int) -> list[str
             by_start[(office, s)] += count
             if funding == "vacancy":
                 by_vacancy[(office, skill)].append((s, count))
+    problems += [f"{count:g} hire(s) of {skill} at {office} from {names[s]} have started (their "
+                 f"recruitment has begun), but the data now rule them out: {why}"
+                 for (office, skill, s, why), count in refused.items()]
     for (office, s), count in by_start.items():
         cap = offices[office].max_hires_per_period
         if cap is not None and count > cap:

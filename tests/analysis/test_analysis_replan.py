@@ -345,6 +345,19 @@ def test_fewer_hires_a_period_than_have_started_are_refused_naming_offices(tiny)
         replan(capped, old, 3, exact_options(capped))
 
 
+def test_hires_under_way_of_both_fundings_are_refused_in_one_line(tiny) -> None:
+    # A sweep: one vacancy-funded hire and one new position, started together and ruled out
+    # by a longer time to hire, were refused in two identical lines.
+    roomy, old = _two_vacancy_hires_at_b(tiny)
+    hires = pd.concat([old.hires.assign(count=1), old.hires.assign(count=1, funding="new")])
+    old = replace(old, hires=hires)
+    slower = roomy.with_changes(skills=tuple(replace(k, time_to_hire=4) for k in roomy.skills))
+    with pytest.raises(ReplanError) as refused:
+        replan(slower, old, 3, exact_options(slower))
+    lines = [p for p in refused.value.problems if "time to hire" in p]
+    assert len(lines) == 1 and lines[0].startswith("2 hire(s) of review at B from 2027-Q4")
+
+
 def test_hires_under_way_stay_when_their_demand_only_falls(tiny) -> None:
     # B's Q4 review demand halved leaves work for one hire at ramp 0.5, so the builder caps
     # that hire column at 1; the two under way had been refused ("the data now allow 1"),

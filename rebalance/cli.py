@@ -228,7 +228,10 @@ def cmd_report(args: argparse.Namespace) -> int:
         return EXIT_INVALID_INPUT
     source = args.instance or stored_instance_path(args.plan_dir)
     if source is None:
-        _err(f"{args.plan_dir}: summary.json names no instance; give --instance")
+        # A folder of analysis tables alone (frontier.csv) has no summary.json to name one.
+        said = ("summary.json names no instance" if (Path(args.plan_dir) / "summary.json").exists()
+                else "no summary.json here to name the instance")
+        _err(f"{args.plan_dir}: {said}; give --instance")
         return EXIT_USAGE
     instance = _load(source)
     if instance is None:

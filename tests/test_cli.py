@@ -453,3 +453,16 @@ def test_the_time_limit_counts_from_the_start_of_the_process():
             "from rebalance.cli import _seconds_since_process_start as since; print(since())")
     run = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert 1.0 <= float(run.stdout) < 30.0
+
+
+def test_report_on_a_folder_with_no_summary_says_so(tmp_path, capsys):
+    # A sweep: `report` on a folder holding only frontier.csv said "summary.json names no
+    # instance", of a summary.json that was not there.
+    from rebalance.cli import EXIT_USAGE
+
+    folder = tmp_path / "frontier-only"
+    folder.mkdir()
+    (folder / "frontier.csv").write_text("point,hiring_budget\n1,1.0\n")
+    code = main(["report", str(folder)])
+    assert code == EXIT_USAGE
+    assert "no summary.json here to name the instance; give --instance" in capsys.readouterr().err

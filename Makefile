@@ -27,7 +27,7 @@ test: $(STAMP) browser
 	$(BIN)/pytest
 
 lint: $(STAMP)
-	$(BIN)/ruff check rebalance tests benchmarks
+	$(BIN)/ruff check rebalance tests benchmarks notebooks
 	$(BIN)/mypy rebalance
 
 # Generates each size, solves it with both backends (one case at a time, one thread) and

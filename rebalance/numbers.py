@@ -20,6 +20,7 @@ __all__ = [
     "SECONDS_DIGITS",
     "SHARE_DIGITS",
     "TABLE_DIGITS",
+    "WHOLE_FROM",
     "column_header",
     "column_texts",
     "distinct_texts",
@@ -62,6 +63,8 @@ GAP_DIGITS = 2
 SHARE_DIGITS = 1
 # Seconds, to two decimals.
 SECONDS_DIGITS = 2
+# From this size up a figure takes no decimals anywhere: they are noise beside its digits.
+WHOLE_FROM = 1000
 
 
 def is_gap(column: str) -> bool:
@@ -158,7 +161,7 @@ def has_decimals(values: Iterable[object]) -> bool:
         if isinstance(value, bool) or not isinstance(value, int | float):
             continue
         v = dust_free(float(value))
-        if math.isfinite(v) and not v.is_integer() and abs(v) < 1000:
+        if math.isfinite(v) and not v.is_integer() and abs(v) < WHOLE_FROM:
             return True
     return False
 
@@ -173,7 +176,7 @@ def number_text(value: float, column: str = "", *, digits: int = TABLE_DIGITS,
     v = dust_free(value)
     if is_gap(column):
         return gap_text(v)
-    if is_money(column) or abs(v) >= 1000 or (v.is_integer() and not decimals):
+    if is_money(column) or abs(v) >= WHOLE_FROM or (v.is_integer() and not decimals):
         return money_text(v)
     text = f"{v + 0.0:,.{digits}f}"
     # No "-0.000": -0.00017 rounds to nothing, and a sign on nothing reads as a loss.
@@ -217,4 +220,4 @@ def number_rule() -> dict[str, int]:
     """The rule's decimals, for the page's drawing script (which writes its charts' labels
     and tips by them, so a chart reads as the tables beside it)."""
     return {"table_digits": TABLE_DIGITS, "total_digits": FTE_TOTAL_DIGITS,
-            "gap_digits": GAP_DIGITS, "share_digits": SHARE_DIGITS}
+            "gap_digits": GAP_DIGITS, "share_digits": SHARE_DIGITS, "whole_from": WHOLE_FROM}

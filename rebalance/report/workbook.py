@@ -25,6 +25,7 @@ from rebalance.numbers import (
     NEAR_ZERO,
     SHARE_DIGITS,
     TABLE_DIGITS,
+    WHOLE_FROM,
     column_header,
     dust_free,
     fte_total_text,
@@ -264,7 +265,7 @@ def _plain_number_formats(column: pd.Series, values: list[Any], styles: _Styles,
     # From 1,000 up decimals are noise, as number_text writes them: a marginal table's
     # column of limits had shown a moves budget as 300,000.000 beside seats of 52.000.
     with np.errstate(invalid="ignore"):
-        big = np.isfinite(numbers) & (np.abs(numbers) >= 1000)
+        big = np.isfinite(numbers) & (np.abs(numbers) >= WHOLE_FROM)
     if not per_row:
         return decimals if not big.any() else [whole_format if b else decimals
                                                 for b in big.tolist()]

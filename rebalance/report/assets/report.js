@@ -40,7 +40,7 @@
   // them from data.numbers), so a chart's labels and tips read as the tables and cards beside
   // it.  Money is written in full, never "299k" or "2.46M": beside "298,500" in the table
   // such a label read as another figure.
-  var RULE = { table_digits: 3, total_digits: 1, gap_digits: 2, share_digits: 1 };
+  var RULE = { table_digits: 3, total_digits: 1, gap_digits: 2, share_digits: 1, whole_from: 1000 };
   var DUST = 1e-9;  // numbers.NEAR_ZERO
   // ``digits`` decimals with thousands separators.  toFixed rounds the binary value, as
   // Python's format does (toLocaleString rounds the decimal text: 2,021.6 for Python's 2,021.5).
@@ -59,14 +59,14 @@
   function num(v, decimals) {
     if (v === null || v === undefined || isNaN(v)) { return "-"; }
     if (Math.abs(v) < DUST) { v = 0; }
-    if (Math.abs(v) >= 1000 || (Number.isInteger(v) && !decimals)) { return money(v); }
+    if (Math.abs(v) >= RULE.whole_from || (Number.isInteger(v) && !decimals)) { return money(v); }
     var text = fixed(v, RULE.table_digits);
     return /^-[0.,]*$/.test(text) ? text.slice(1) : text;
   }
   // numbers.has_decimals.
   function hasDecimals(values) {
     return values.some(function (v) {
-      return typeof v === "number" && isFinite(v) && Math.abs(v) >= DUST && Math.abs(v) < 1000 &&
+      return typeof v === "number" && isFinite(v) && Math.abs(v) >= DUST && Math.abs(v) < RULE.whole_from &&
         !Number.isInteger(v);
     });
   }

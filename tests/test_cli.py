@@ -88,7 +88,7 @@ def test_no_plan_in_time_keeps_the_old_plan(tmp_path, capsys):
                  "--time-limit", "0.1"])
     assert code in (EXIT_NO_PLAN_IN_TIME, EXIT_OK)
     if code == EXIT_NO_PLAN_IN_TIME:
-        assert "no plan found within the time limit" in capsys.readouterr().out
+        assert "no plan within the time limit" in capsys.readouterr().out
         assert (out / "keep.txt").read_text() == "an earlier plan"
 
 

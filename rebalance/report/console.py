@@ -23,6 +23,7 @@ from rebalance.numbers import (
     with_currency,
 )
 from rebalance.planning import BUILD_STAGE, CAUTION, PlanResult
+from rebalance.report.words import outcome_words
 from rebalance.solve import StageResult, Status
 from rebalance.verify import Violation
 
@@ -39,15 +40,6 @@ __all__ = [
     "room_left",
     "stage_value",
 ]
-
-STATUS_WORDS = {
-    Status.OPTIMAL: "optimal (proven within the relative gap)",
-    Status.FEASIBLE_WITH_GAP: "feasible, not proven optimal (stopped early)",
-    Status.INFEASIBLE: "infeasible: the hard limits cannot all hold",
-    Status.NO_PLAN_IN_TIME: "no plan found within the time limit",
-    Status.ERROR: "solver error",
-    Status.UNKNOWN: "unknown solver outcome",
-}
 
 
 # Numbers are written by rebalance.numbers (one rule for every surface); what a table cell is
@@ -165,7 +157,7 @@ def _verdict(result: PlanResult) -> str:
 def _outcome_lines(result: PlanResult, *, replan: bool = False) -> list[str]:
     s = result.solve
     currency = result.instance.money.currency
-    lines = [f"Plan for {result.instance.name}: {STATUS_WORDS[result.status]}"]
+    lines = [f"Plan for {result.instance.name}: {outcome_words(result.status, s.gap)}"]
     if [stage.name for stage in s.stages] == [BUILD_STAGE]:
         # Cut short while building: no model, so no model size and no stage to show.
         return [*lines, f"  {s.stages[0].solver_words}"]
@@ -180,12 +172,10 @@ def _outcome_lines(result: PlanResult, *, replan: bool = False) -> list[str]:
             stage_value(stage.name, stage.bound, currency))
         objective = "-" if stage.objective is None else stage_value(
             stage.name, stage.objective, currency)
-        status = stage.status.value
-        if stage.status is Status.OPTIMAL and stage.gap:
-            # Optimal as asked: within the relative gap the run was given, not exactly.
-            status += f" within the gap asked ({gap_text(stage.gap)} left)"
-        lines.append(f"  stage {stage.name}: {status}, objective {objective}, "
-                     f"bound {bound}, {seconds_text(stage.seconds)}s ({stage.solver_words})")
+        lines.append(f"  stage {stage.name}: {outcome_words(stage.status, stage.gap)}, "
+                     f"objective {objective}, "
+                     f"bound {bound}, {seconds_text(stage.seconds)}s"
+                     + ("" if stage.status is Status.OPTIMAL else f" ({stage.solver_words})"))
         room = room_left(stage, currency, replan=replan)
         if room:
             lines.append(f"    not proven: {room}")

@@ -41,25 +41,21 @@ from rebalance.report.htmlparts import (
     card,
     chart,
     e,
-    plain_status,
     section,
     stage_words,
     table_html,
 )
 from rebalance.report.inputs import ReportData, StageSummary, quality_notes
+from rebalance.report.words import outcome_words
 
 __all__ = ["new_position_salaries", "render_html", "spare_capacity", "write_html"]
 
 # Longer tables are cut in the page (the CSV files and plan.xlsx hold every row), so an
 # agency-sized plan still opens quickly.
 TABLE_ROWS = 500
-STATUS_WORDS = {
-    "optimal": ("best within the set gap", "good"),
-    "feasible_with_gap": ("plan found, not proven best", "fair"),
-    "infeasible": ("no plan: limits conflict", "bad"),
-    "no_plan_in_time": ("no plan in time", "bad"),
-    "error": ("solver error", "bad"),
-}
+# How the page colours an outcome (its words are rebalance.report.words').
+STATUS_TONE = {"optimal": "good", "feasible_with_gap": "fair", "infeasible": "bad",
+               "no_plan_in_time": "bad", "error": "bad"}
 
 
 def _m(value: float) -> tuple[float, str]:
@@ -102,7 +98,7 @@ def _headline(data: ReportData) -> str:
     people = plan.details["person"].nunique() if len(plan.details) else 0
     hires_new = int(plan.hires.loc[plan.hires["funding"] == "new", "count"].sum()) if len(
         plan.hires) else 0
-    words, tone = STATUS_WORDS.get(run.status, (plain_status(run.status), "fair"))
+    words, tone = outcome_words(run.status, run.gap), STATUS_TONE.get(str(run.status), "fair")
     verified = {True: "verified independently", False: "FAILED verification",
                 None: "verification unknown"}[run.verified]
     spare = spare_capacity(data)
@@ -316,7 +312,7 @@ def render_html(data: ReportData) -> str:
     sections.extend(extra.sections)
     sections.append(section("run", "How it was found", "", _run_details(data)))
     toc = "".join(f'<a href="#{a}">{e(t)}</a>' for a, t in nav)
-    words, tone = STATUS_WORDS.get(run.status, (plain_status(run.status), "fair"))
+    words, tone = outcome_words(run.status, run.gap), STATUS_TONE.get(str(run.status), "fair")
     notes = "".join(f'<p class="note">{e(n)}</p>' for n in (*quality_notes(data), *data.notes))
     return f"""<!DOCTYPE html>
 <html lang="en">
@@ -397,7 +393,7 @@ def _run_details(data: ReportData) -> str:
     facts = [
         ("solver", run.solver_version or run.solver or "-"),
         ("objective", run.objective_mode or "-"),
-        ("outcome", STATUS_WORDS.get(run.status, (plain_status(run.status), ""))[0]),
+        ("outcome", outcome_words(run.status, run.gap)),
         ("largest stage gap at stop", "-" if run.gap is None else gap_text(run.gap)),
         ("model", f"{run.model_columns or 0:,} columns ({run.model_integer_columns or 0:,} "
                   f"whole-number) and {run.model_rows or 0:,} rows"),

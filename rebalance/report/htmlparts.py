@@ -20,30 +20,14 @@ from rebalance.report.console import (
     measure_names,
     room_left,
 )
+from rebalance.report.words import optimal_words, plain_status
 from rebalance.solve import StageResult, Status
 
-__all__ = ["PLAIN_STATUS", "card", "chart", "e", "frame_table_html", "plain_status",
+__all__ = ["card", "chart", "e", "frame_table_html",
            "readable", "section", "stage_words", "table_html"]
-
-# Solver outcomes in plain words, for the page and the workbook (never the raw status word).
-PLAIN_STATUS = {
-    "optimal": "optimal",
-    "feasible_with_gap": "plan found, not proven best",
-    "infeasible": "no plan: limits conflict",
-    "no_plan_in_time": "no plan in time",
-    "error": "solver error",
-    "unknown": "unknown solver outcome",
-    "approximate": "approximate (no plan)",
-}
-
 
 def e(value: object) -> str:
     return html.escape(str(value), quote=True)
-
-
-def plain_status(status: str) -> str:
-    """A solver status (``feasible_with_gap``) in plain words."""
-    return PLAIN_STATUS.get(str(status), str(status).replace("_", " "))
 
 
 def readable(column: str) -> str:
@@ -80,16 +64,14 @@ def stage_words(stage: _Stage, currency: str | None = None, *, replan: bool = Fa
     except ValueError:
         return plain_status(stage.status)
     if status is Status.OPTIMAL:
-        # Optimal as asked: within the relative gap the run was given, not exactly.
-        return "optimal" + (f" within the gap asked ({gap_text(stage.gap)} left)"
-                            if stage.gap else "")
+        return optimal_words(stage.gap)
     if status is Status.FEASIBLE_WITH_GAP:
         room = room_left(StageResult(stage.name, status, stage.objective, stage.bound,
                                       stage.gap, stage.seconds or 0.0, stage.solver_says),
                          currency, replan=replan)
         if room is None:
             room = "gap unknown" if stage.gap is None else f"gap {gap_text(stage.gap)}"
-        return f"not proven best: {room}"
+        return f"not proven optimal: {room}"
     return plain_status(stage.status)
 
 

@@ -38,9 +38,9 @@ from rebalance.numbers import (
 from rebalance.plan import PLAN_TABLES
 from rebalance.report.chart_data import new_position_salaries, spare_capacity
 from rebalance.report.console import cell_text, measure_names
-from rebalance.report.html import STATUS_WORDS
-from rebalance.report.htmlparts import plain_status, stage_words
+from rebalance.report.htmlparts import stage_words
 from rebalance.report.inputs import ReportData, quality_notes
+from rebalance.report.words import outcome_words
 
 __all__ = ["write_workbook"]
 
@@ -376,7 +376,7 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
         for text in warnings:
             ws.write_string(next(rows), 0, text, styles.warning)
     band("Headline")
-    line("outcome", STATUS_WORDS.get(run.status, (plain_status(run.status), ""))[0])
+    line("outcome", outcome_words(run.status, run.gap))
     # Headline totals to one decimal, as the console's summary and the page's cards.
     line("weighted shortfall (FTE-periods)", plan.weighted_shortfall, FTE_TOTAL)
     line("shortfall (FTE-periods, unweighted)", plan.shortfall_fte, FTE_TOTAL)

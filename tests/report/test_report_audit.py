@@ -74,7 +74,7 @@ def test_solver_dust_is_no_spare_capacity():
     assert all(v == 0.0 for s in _coverage_series(dusty)["series"] for v in s["spare"])
 
 
-# 2. "plan found, not proven best / gap 2.6% at stop" beside weighted shortfall, where that gap
+# 2. "plan found, not proven optimal / gap 2.6% at stop" beside weighted shortfall, where that gap
 #    was the cost stage's; raw status words on the page.
 
 def _stopped_folder(tmp_path: Path) -> Path:
@@ -98,7 +98,7 @@ def test_each_stage_says_what_its_gap_means_in_its_own_units(tmp_path):
     glance = page_text(page[page.index('id="glance"'):page.index('id="capacity"')])
     # The console's words (report/console.py), per stage.
     assert "shortfall stage: optimal within the gap asked (0.53% left)" in glance
-    assert ("cost stage: not proven best: a plan with the same shortfall may cost up to 64,500 "
+    assert ("cost stage: not proven optimal: a plan with the same shortfall may cost up to 64,500 "
             "less (gap 2.62%)") in glance
     assert "gap 2.6% at stop" not in glance
     assert "feasible_with_gap" not in page
@@ -106,7 +106,7 @@ def test_each_stage_says_what_its_gap_means_in_its_own_units(tmp_path):
     assert "2,465,500<" in stages and "2,465,500.00" not in stages
     cells = _summary_cells(write_workbook(data, tmp_path / "plan.xlsx"))
     assert not any("feasible_with_gap" in c for c in cells)
-    assert "plan found, not proven best" in cells
+    assert "plan found, not proven optimal" in cells
     assert "optimal within the gap asked (0.53% left)" in cells
 
 
@@ -142,7 +142,7 @@ def test_analysis_tables_read_as_people_write_numbers():
     assert headers == ["limit", "current", "hires", "shortfall reduction", "status",
                        "verified", "gap"]
     cells = re.findall(r"<td\b[^>]*>(.*?)</td>", page)
-    assert cells[:7] == ["seats", "52", "24", "20.118", "plan found, not proven best", "yes",
+    assert cells[:7] == ["seats", "52", "24", "20.118", "plan found, not proven optimal", "yes",
                          "2.62%"]
     # A column with decimals in one row has them in every row (solver dust is 0 all the same).
     assert cells[7:] == ["hiring_budget", "260,000", "0", "0.000", "optimal", "no", "0.00%"]

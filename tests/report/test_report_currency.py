@@ -183,5 +183,5 @@ def test_a_cost_stage_stopped_early_says_its_room_in_the_currency_in_the_workboo
     data = replace(data, summary=replace(data.summary, stages=(stage,)))
     sheet = load_workbook(write_workbook(data, tmp_path / "plan.xlsx"))["summary"]
     rows = {r[0]: r[1] for r in sheet.iter_rows(values_only=True) if r[0]}
-    assert rows["cost stage"] == ("not proven best: a plan with the same shortfall may cost up "
+    assert rows["cost stage"] == ("not proven optimal: a plan with the same shortfall may cost up "
                                   "to 51,000 EUR less (gap 2.07%)")

@@ -62,7 +62,7 @@ def test_summary_sheet_figures_and_caution():
         summary["weighted_shortfall"])
     assert values["new money, all years"] == pytest.approx(summary["total_cost"])
     assert values["people hired"] == summary["hires"]
-    assert values["outcome"] == "best within the set gap"  # tiny solves to optimality
+    assert values["outcome"] == "optimal"  # tiny solves to optimality
     assert summary["status"] == "optimal"
     assert CAUTION in values
 

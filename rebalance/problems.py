@@ -4,11 +4,19 @@ the readers share (instance tables and settings, plans, workload history, scenar
 
 from __future__ import annotations
 
+import difflib
 import math
+from collections.abc import Iterable
 from dataclasses import dataclass
 from typing import Any, TypeGuard
 
-__all__ = ["Problem", "describe_range", "is_finite_number"]
+__all__ = ["Problem", "describe_range", "did_you_mean", "is_finite_number", "range_words"]
+
+# How alike a name must be to a known one to be suggested (difflib's ratio, 0 to 1): 0.6,
+# difflib's own default, catches a dropped or swapped letter or two without offering an
+# unrelated name; two suggestions at most, as a longer list is the "expected" list again.
+CLOSE_MATCH_CUTOFF = 0.6
+CLOSE_MATCHES_SHOWN = 2
 
 
 @dataclass(frozen=True)
@@ -30,16 +38,49 @@ class Problem:
         return f"{where}:{col} {self.message}"
 
 
-def describe_range(minimum: float | None, maximum: float | None, open_minimum: bool,
-                   integer: bool) -> str:
-    """The values a bound allows, as a message says them: ``a whole number >= 1``."""
+def did_you_mean(value: str, names: Iterable[Any]) -> str:
+    """`` (did you mean 'x'?)`` naming the one or two ``names`` closest to ``value``, to end a
+    message saying ``value`` is unknown; "" when none is close.
+
+    Compared ignoring case, so ``alder`` finds ``Alder``."""
+    folded: dict[str, str] = {}
+    for name in names:
+        folded.setdefault(str(name).lower(), str(name))
+    close = difflib.get_close_matches(str(value).lower(), list(folded), n=CLOSE_MATCHES_SHOWN,
+                                      cutoff=CLOSE_MATCH_CUTOFF)
+    if not close:
+        return ""
+    return " (did you mean " + " or ".join(f"'{folded[c]}'" for c in close) + "?)"
+
+
+def range_words(minimum: float | None, maximum: float | None, *, open_minimum: bool = False,
+                open_maximum: bool = False, integer: bool = False) -> str:
+    """The values a bound allows, in plain words: ``a number above 0 and at most 1``, ``a
+    whole number from 1 to 90``, ``a number >= 0``; ``open_`` excludes that bound."""
     kind = "a whole number" if integer else "a number"
     if minimum is not None and maximum is not None:
-        left = "(" if open_minimum else "["
-        return f"{kind} in {left}{minimum:g}, {maximum:g}]"
+        if not open_minimum and not open_maximum:
+            return f"{kind} from {minimum:g} to {maximum:g}"
+        low = f"above {minimum:g}" if open_minimum else f"at least {minimum:g}"
+        high = f"below {maximum:g}" if open_maximum else f"at most {maximum:g}"
+        return f"{kind} {low} and {high}"
     if minimum is not None:
         return f"{kind} {'>' if open_minimum else '>='} {minimum:g}"
+    if maximum is not None:
+        return f"{kind} {'<' if open_maximum else '<='} {maximum:g}"
     return kind
+
+
+def describe_range(minimum: float | None, maximum: float | None, open_minimum: bool,
+                   integer: bool) -> str:
+    """The values a bound allows, a range of two bounds in interval notation (``a number in
+    [0, 1000]``).  Only scenario files' messages still say it so; the readers use
+    :func:`range_words`."""
+    if minimum is not None and maximum is not None:
+        kind = "a whole number" if integer else "a number"
+        left = "(" if open_minimum else "["
+        return f"{kind} in {left}{minimum:g}, {maximum:g}]"
+    return range_words(minimum, None, open_minimum=open_minimum, integer=integer)
 
 
 def is_finite_number(value: Any) -> TypeGuard[int | float]:

@@ -26,7 +26,7 @@ from rebalance.instance import (
     Person,
     Skill,
 )
-from rebalance.problems import Problem
+from rebalance.problems import Problem, range_words
 from rebalance.settings_reader import (
     known_period_names,
     read_money,
@@ -130,6 +130,9 @@ def read_instance(path: str | Path) -> Instance:
 SKILL_NAME = re.compile(r"^[A-Za-z0-9_.\-]+$")
 # A blank proficiency (``intake`` or ``intake:``) is 1.0.
 SKILL_TOKEN = re.compile(r"^([A-Za-z0-9_.\-]+)(?::([^:\s]*))?$")
+# Ranges said in plain words where a reader checks the bounds itself.
+PROFICIENCY_RANGE = range_words(0.0, 1.0, open_minimum=True)
+ANNUAL_RATE_RANGE = range_words(0.0, 1.0, open_maximum=True)
 
 
 # --------------------------------------------------------------------------------------------
@@ -338,7 +341,7 @@ def _read_skills(table: RawTable, problems: list[Problem]) -> dict[str, Skill]:
             except ValueError:
                 value = math.nan
             if not 0.0 <= value <= 1.0:
-                rows.error("ramp", f"'{token}' is not valid; expected numbers in [0, 1] "
+                rows.error("ramp", f"'{token}' is not valid; expected numbers from 0 to 1 "
                            "separated by spaces, e.g. '0.5 0.8'")
                 break
             ramp.append(value)
@@ -367,7 +370,8 @@ def _read_staff(table: RawTable, problems: list[Problem], offices: Mapping[str, 
         if last and period_index is not None:
             if last not in period_index:
                 rows.error("last_period", f"unknown period '{last}'; expected one of the "
-                           "periods in settings.toml")
+                           "periods in settings.toml"
+                           + rows.suggest("last_period", last, period_index))
             else:
                 last_period = period_index[last]
         unique = _unique(rows, "person", person, seen)
@@ -399,11 +403,12 @@ def _parse_skills(rows: TableRows, raw: str, skills: Mapping[str, Skill] | None)
         except ValueError:
             proficiency = math.nan
         if skills is not None and name not in skills:
-            rows.error("skills", f"unknown skill '{name}'; expected one listed in skills.csv")
+            rows.error("skills", f"unknown skill '{name}'; expected one listed in skills.csv"
+                       + rows.suggest("skills", name, skills))
             ok = False
         elif not 0.0 < proficiency <= 1.0:
             rows.error("skills", f"proficiency '{value}' for '{name}' is out of range; "
-                       "expected a number in (0, 1]")
+                       f"expected {PROFICIENCY_RANGE}")
             ok = False
         elif any(name == s for s, _ in parsed):
             rows.error("skills", f"skill '{name}' is listed twice")
@@ -520,10 +525,10 @@ def _read_attrition(table: RawTable | None, problems: list[Problem],
             office = rows.reference(row, "office", offices, "office", "offices.csv")
             if office is None:
                 continue
-        rate = rows.number(row, "annual_rate", maximum=1.0, expected="a number in [0, 1)")
+        rate = rows.number(row, "annual_rate", maximum=1.0, expected=ANNUAL_RATE_RANGE)
         if rate is not None and rate >= 1.0:
-            rows.error("annual_rate", f"'{row['annual_rate']}' is out of range; expected a "
-                       "number in [0, 1)")
+            rows.error("annual_rate", f"'{row['annual_rate']}' is out of range; expected "
+                       f"{ANNUAL_RATE_RANGE}")
             continue
         if skill is None or rate is None:
             continue
@@ -548,7 +553,7 @@ def _read_budgets(table: RawTable, problems: list[Problem],
         moves = rows.number(row, "moves", required=False)
         if year is not None and year not in years and periods:
             rows.error("year", f"budget year '{year}' belongs to no period; expected one of "
-                       + ", ".join(sorted(years)))
+                       + ", ".join(sorted(years)) + rows.suggest("year", year, sorted(years)))
             continue
         if _unique(rows, "year", year, seen) and year is not None:
             if not row.get("hiring"):  # blank; a value that could not be read is an error

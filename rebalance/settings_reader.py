@@ -11,7 +11,7 @@ from collections.abc import Mapping
 from typing import Any, TypeGuard
 
 from rebalance.instance import Money, MoveCostDefaults, Objective, Period, Policy, SolverSettings
-from rebalance.problems import Problem, describe_range, is_finite_number
+from rebalance.problems import Problem, did_you_mean, is_finite_number, range_words
 
 __all__ = [
     "SETTINGS_KEYS",
@@ -46,8 +46,10 @@ def warn_unknown_settings(settings: Mapping[str, Any], problems: list[Problem]) 
     """A warning for each setting nothing reads: a typo (``max_away_shares``) would otherwise
     leave the default in force without a word."""
     def warn(key: str, what: str, expected: list[str]) -> None:
+        given = key.rpartition(".")[2]  # the key within its section, as ``expected`` lists it
         problems.append(Problem("settings.toml", None, key, f"unknown {what}, ignored (expected "
-                                "one of: " + ", ".join(expected) + ")", is_warning=True))
+                                "one of: " + ", ".join(expected) + ")"
+                                + did_you_mean(given, expected), is_warning=True))
 
     sections = list(dict.fromkeys(key.partition(".")[0] for key in SETTINGS_KEYS))
     for section, table in settings.items():
@@ -231,7 +233,7 @@ def read_sections(settings: Mapping[str, Any], problems: list[Problem]) -> tuple
         ok = (_whole(value) if integer else is_finite_number(value)) and value >= low
         ok = ok and (high is None or value <= high)
         if not ok:
-            what = describe_range(low, high, False, integer)
+            what = range_words(low, high, integer=integer)
             problems.append(Problem("settings.toml", None, f"{sec}.{key}",
                                     f"{_shown(value)} is not valid; expected {what}"))
             return default

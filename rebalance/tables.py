@@ -15,7 +15,7 @@ import csv
 import io
 import math
 from collections import Counter
-from collections.abc import Iterator, Mapping
+from collections.abc import Iterable, Iterator, Mapping
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -23,7 +23,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from rebalance.problems import Problem, describe_range
+from rebalance.problems import Problem, did_you_mean, range_words
 
 __all__ = [
     "NotUtf8",
@@ -199,6 +199,9 @@ class TableRows:
         self.problems = problems
         self.row_number = 0
         self.columns_ok = True
+        # Suggestions by (column, unknown name): a renamed office leaves thousands of rows
+        # naming the old name, each else compared anew with every known one.
+        self._suggestions: dict[tuple[str | None, str], str] = {}
         required, optional = columns
         if table.fault is not None:  # said once by table_problems; no column is missing too
             self.columns_ok = False
@@ -216,7 +219,8 @@ class TableRows:
                     table.label,
                     1,
                     column,
-                    "unknown column (expected one of: " + ", ".join(required + optional) + ")",
+                    "unknown column (expected one of: " + ", ".join(required + optional) + ")"
+                    + did_you_mean(column, required + optional),
                     is_warning=True,
                 )
             )
@@ -261,7 +265,8 @@ class TableRows:
         expected: str | None = None,
     ) -> float | None:
         raw = row.get(column, "")
-        what = expected or describe_range(minimum, maximum, open_minimum, integer)
+        what = expected or range_words(minimum, maximum, open_minimum=open_minimum,
+                                       integer=integer)
         if raw == "":
             if required:
                 self.error(column, f"is empty; expected {what}")
@@ -299,6 +304,15 @@ class TableRows:
         names could not be read, so every name would read as unknown and none is checked."""
         value = self.text(row, column)
         if value is not None and known is not None and value not in known:
-            self.error(column, f"unknown {kind} '{value}'; expected one listed in {defined_in}")
+            self.error(column, f"unknown {kind} '{value}'; expected one listed in {defined_in}"
+                       + self.suggest(column, value, known))
             return None
         return value
+
+    def suggest(self, column: str | None, value: str, known: Iterable[Any]) -> str:
+        """:func:`~rebalance.problems.did_you_mean` for an unknown ``value`` in ``column``,
+        worked out once per name; ``known`` must be the same for every row of a column."""
+        key = (column, value)
+        if key not in self._suggestions:
+            self._suggestions[key] = did_you_mean(value, known)
+        return self._suggestions[key]

@@ -26,7 +26,7 @@ from openpyxl.worksheet.cell_range import CellRange
 from openpyxl.worksheet.formula import ArrayFormula, DataTableFormula
 
 from rebalance.instance import Instance
-from rebalance.problems import Problem
+from rebalance.problems import Problem, did_you_mean
 from rebalance.readers import (
     COLUMNS,
     OPTIONAL_TABLES,
@@ -119,8 +119,8 @@ def read_workbook(path: str | Path) -> Instance:
     for name in sheets:
         if name not in known:
             problems.append(Problem(label(name), None, None, "unknown sheet, ignored (expected "
-                                    "one of: " + ", ".join(sorted(known)) + ")",
-                                    is_warning=True))
+                                    "one of: " + ", ".join(sorted(known)) + ")"
+                                    + did_you_mean(name, sorted(known)), is_warning=True))
 
     settings: dict[str, Any] = {}
     key_rows: dict[str, int] = {}
@@ -458,8 +458,8 @@ def _settings(sheet: _Sheet, label: str, problems: list[Problem]) -> tuple[
             continue
         if key not in SETTINGS_KEYS:
             problems.append(Problem(label, row_number, "key", f"unknown key '{key}', ignored "
-                                    "(expected one of: " + ", ".join(SETTINGS_KEYS) + ")",
-                                    is_warning=True))
+                                    "(expected one of: " + ", ".join(SETTINGS_KEYS) + ")"
+                                    + did_you_mean(key, SETTINGS_KEYS), is_warning=True))
             continue
         key_rows[key] = row_number
         if value is None or _text(value) == "":

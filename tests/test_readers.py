@@ -244,7 +244,8 @@ def test_a_setting_nothing_reads_is_a_warning_and_true_is_no_number(tmp_path):
     settings.write_text(text + "\n[extras]\nflag = 1\n")
     warnings = read_instance(target).warnings
     assert ("settings.toml: policy.max_away_shares: unknown key, ignored (expected one of: "
-            "max_away_share, max_consecutive_detail_periods)") in warnings
+            "max_away_share, max_consecutive_detail_periods) (did you mean 'max_away_share'?)"
+            ) in warnings
     assert any(w.startswith("settings.toml: extras: unknown section") for w in warnings)
     settings.write_text(text.replace("hours_per_fte = 480", "hours_per_fte = true"))
     # TOML's own spelling: 'True' is a word the file does not hold (a docs sweep).
@@ -288,7 +289,7 @@ def test_settings_numbers_are_finite_and_shortfall_cost_is_bounded(tmp_path):
     text = settings.read_text()
     for line, expected in (
             ("shortfall_cost = inf", "objective.shortfall_cost: 'inf' is not valid; expected a "
-                                     "number in [0, 1e+12]"),
+                                     "number from 0 to 1e+12"),
             ("shortfall_cost = 1e13", "objective.shortfall_cost: '1e+13' is not valid"),
             ("time_limit_seconds = nan", "solver.time_limit_seconds: 'nan' is not valid")):
         section = "[solver]" if "time_limit" in line else "[objective]"
@@ -361,8 +362,8 @@ def test_every_bad_currency_is_said_with_its_key_and_what_is_expected(tmp_path):
     # With other bad settings, all at once; a misspelt key is a warning naming the right one.
     settings.write_text(text + '\n[money]\ncurrency = "EURO"\ncurency = "EUR"\n')
     warnings = read_instance(target).warnings
-    assert ("settings.toml: money.curency: unknown key, ignored (expected one of: currency)"
-            in warnings)
+    assert ("settings.toml: money.curency: unknown key, ignored (expected one of: currency) "
+            "(did you mean 'currency'?)" in warnings)
     settings.write_text(text.replace("max_away_share = 0.5", "max_away_share = 2")
                         + '\n[money]\ncurrency = "EURO DOLLAR"\n')
     problems = _problems(target)
@@ -415,7 +416,8 @@ def test_one_unreadable_period_entry_is_said_once_naming_what_it_holds(tmp_path)
     (target / "demand.csv").write_text("office,skill,period,fte\nA,review,2027-Q2,1\n"
                                        "A,review,2031-Q1,1\n")
     assert _problems(target)[1:] == ["demand.csv:3: period: unknown period '2031-Q1'; "
-                                     "expected one listed in settings.toml (2027-Q1 to 2027-Q4)"]
+                                     "expected one listed in settings.toml (2027-Q1 to 2027-Q4) "
+                                     "(did you mean '2027-Q1'?)"]
 
 
 def test_periods_listed_with_start_and_count_warn_that_those_are_ignored(tmp_path):
@@ -477,3 +479,56 @@ def test_an_unclosed_quote_is_one_problem_on_one_line(tmp_path):
     assert _problems(target) == [
         "offices.csv:2: location: runs over several lines (a quote that is not closed?); "
         "expected one line per row"]
+
+
+def _staff_variant(tmp_path: Path, old: str, new: str) -> Path:
+    """The tiny instance with an office 'birch-north' added and ``old`` in staff.csv made
+    ``new``."""
+    target = overlay(BAD / "empty_demand", tmp_path / "i")
+    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    offices = target / "offices.csv"
+    offices.write_text(offices.read_text().rstrip("\n") + "\nbirch-north,Birch,6,1\n")
+    staff = target / "staff.csv"
+    assert old in staff.read_text()
+    staff.write_text(staff.read_text().replace(old, new))
+    return target
+
+
+def test_a_misspelt_office_is_said_with_the_name_it_is_close_to(tmp_path):
+    target = _staff_variant(tmp_path, "b1,B,", "b1,birch-nrth,")
+    assert _problems(target) == [
+        "staff.csv:5: home_office: unknown office 'birch-nrth'; expected one listed in "
+        "offices.csv (did you mean 'birch-north'?)"]
+
+
+def test_a_name_close_to_none_is_said_without_a_suggestion(tmp_path):
+    target = _staff_variant(tmp_path, "b1,B,", "b1,harbourside,")
+    assert _problems(target) == [
+        "staff.csv:5: home_office: unknown office 'harbourside'; expected one listed in "
+        "offices.csv"]
+
+
+def test_a_misspelt_column_is_said_with_the_column_it_is_close_to(tmp_path):
+    target = _staff_variant(tmp_path, "can_detail,", "can_detial,")
+    assert ("staff.csv:1: can_detial: unknown column (expected one of: person, home_office, "
+            "fte, skills, can_detail, can_relocate, last_period) (did you mean 'can_detail'?)"
+            ) in read_instance(target).warnings
+
+
+def test_an_fte_out_of_range_says_the_range_in_plain_words(tmp_path):
+    target = _staff_variant(tmp_path, "a1,A,1.0,", "a1,A,1.5,")
+    assert _problems(target) == [
+        "staff.csv:2: fte: '1.5' is out of range; expected a number above 0 and at most 1"]
+
+
+def test_suggestions_ignore_case_and_ranges_read_as_words():
+    from rebalance.problems import did_you_mean, range_words
+
+    # Python's documentation of difflib.get_close_matches: "appel" -> ['apple', 'ape'].
+    assert did_you_mean("appel", ["ape", "apple", "peach", "puppy"]) == (
+        " (did you mean 'apple' or 'ape'?)")
+    assert did_you_mean("alder", ["Alder", "Birch"]) == " (did you mean 'Alder'?)"
+    assert did_you_mean("Z", ["A", "B"]) == ""
+    assert range_words(0, 1, open_maximum=True) == "a number at least 0 and below 1"
+    assert range_words(1, 90, integer=True) == "a whole number from 1 to 90"
+    assert range_words(0, None, open_minimum=True) == "a number > 0"

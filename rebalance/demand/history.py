@@ -19,7 +19,7 @@ from typing import Any
 
 import pandas as pd
 
-from rebalance.problems import Problem, describe_range, is_finite_number
+from rebalance.problems import Problem, did_you_mean, is_finite_number, range_words
 from rebalance.readers import InstanceError
 from rebalance.tables import (
     NotUtf8,
@@ -187,7 +187,8 @@ class _Cells(TableRows):
         """A value from ``known``; ``known`` None accepts any (names could not be read)."""
         value = self.text(row, column)
         if value is not None and known is not None and value not in known:
-            self.error(column, f"unknown {column.replace('_', ' ')} '{value}'; expected {what}")
+            self.error(column, f"unknown {column.replace('_', ' ')} '{value}'; expected {what}"
+                       + self.suggest(column, value, known))
             return None
         return value
 
@@ -317,11 +318,7 @@ MAX_FACTOR = 1e3
 
 def _describe(spec: Range) -> str:
     low, high, open_low, open_high, whole = spec
-    if open_high:
-        kind = "a whole number" if whole else "a number"
-        return (f"{kind} in {'(' if open_low else '['}{low:g}, {high:g}"
-                f"{')' if open_high else ']'}")
-    return describe_range(low, high, open_low, whole)
+    return range_words(low, high, open_minimum=open_low, open_maximum=open_high, integer=whole)
 
 
 def _in_range(value: Any, spec: Range) -> bool:
@@ -367,7 +364,8 @@ def _read_settings(file: Path, skills: set[str] | None, problems: list[Problem]
     for name, value in raw.items():
         if name not in known:
             # A misspelt [forcast] had been ignored, its settings silently left at defaults.
-            bad(name, "unknown section; expected one of: " + ", ".join(known))
+            bad(name, "unknown section; expected one of: " + ", ".join(known)
+                + did_you_mean(name, known))
         elif not isinstance(value, dict):
             bad(name, f"'{_shown(value)}' is not a section; expected [{name}] with its keys")
         else:
@@ -375,10 +373,11 @@ def _read_settings(file: Path, skills: set[str] | None, problems: list[Problem]
     priority: dict[str, float] = {}
     for skill, value in tables.get("priority", {}).items():
         if skills is not None and skill not in skills:
-            bad(f"priority.{skill}", f"unknown skill '{skill}'; expected one in skills.csv")
+            bad(f"priority.{skill}", f"unknown skill '{skill}'; expected one in skills.csv"
+                + did_you_mean(skill, skills))
         elif not _in_range(value, (0.0, MAX_PRIORITY, False, False, False)):
             bad(f"priority.{skill}", f"'{_shown(value)}' is out of range; expected "
-                f"{describe_range(0.0, MAX_PRIORITY, False, False)}")
+                f"{range_words(0.0, MAX_PRIORITY)}")
         else:
             priority[skill] = float(value)
 
@@ -387,7 +386,8 @@ def _read_settings(file: Path, skills: set[str] | None, problems: list[Problem]
         kwargs: dict[str, Any] = {}
         for key, value in tables.get(name, {}).items():
             if key not in ranges:
-                bad(f"{name}.{key}", "unknown key; expected one of: " + ", ".join(ranges))
+                bad(f"{name}.{key}", "unknown key; expected one of: " + ", ".join(ranges)
+                    + did_you_mean(key, ranges))
                 continue
             if not _in_range(value, ranges[key]):
                 bad(f"{name}.{key}",

@@ -82,25 +82,25 @@ def test_the_small_history_builds(tmp_path: Path) -> None:
 BAD_SETTINGS = [
     # Each had ended in an internal error (exit 1) or passed unchecked.
     ("[forecast]\ninterval_level = 1.5\n",
-     "forecast.interval_level: '1.5' is out of range; expected a number in (0, 1)"),
+     "forecast.interval_level: '1.5' is out of range; expected a number above 0 and below 1"),
     ("[forecast]\ninterval_level = nan\n",
-     "forecast.interval_level: 'nan' is out of range; expected a number in (0, 1)"),
+     "forecast.interval_level: 'nan' is out of range; expected a number above 0 and below 1"),
     ("[standards]\ninterval_level = 1.5\n",
-     "standards.interval_level: '1.5' is out of range; expected a number in (0, 1)"),
+     "standards.interval_level: '1.5' is out of range; expected a number above 0 and below 1"),
     ("[standards]\nbootstrap_samples = 0\n",
-     "standards.bootstrap_samples: '0' is out of range; expected a whole number in [1, "),
+     "standards.bootstrap_samples: '0' is out of range; expected a whole number from 1 to "),
     ("[forecast]\nselection_origins = 0\n",
-     "forecast.selection_origins: '0' is out of range; expected a whole number in [1, "),
+     "forecast.selection_origins: '0' is out of range; expected a whole number from 1 to "),
     ("[forecast]\nholdout_months = 0\n",
-     "forecast.holdout_months: '0' is out of range; expected a whole number in [1, "),
+     "forecast.holdout_months: '0' is out of range; expected a whole number from 1 to "),
     ("[standards]\nshrinkage_cases = inf\n",
-     "standards.shrinkage_cases: 'inf' is out of range; expected a number in [0, "),
+     "standards.shrinkage_cases: 'inf' is out of range; expected a number from 0 to "),
     ("[quality]\ncompliance_target = 2\n",
-     "quality.compliance_target: '2' is out of range; expected a number in [0, 1]"),
+     "quality.compliance_target: '2' is out of range; expected a number from 0 to 1"),
     ("[quality]\nanomaly_window = 3\n",
      "quality.anomaly_min_reference: 6 is more than anomaly_window (3)"),
     ("[priority]\nreview = nan\n",
-     "priority.review: 'nan' is out of range; expected a number in [0, "),
+     "priority.review: 'nan' is out of range; expected a number from 0 to "),
     ("[forecast]\nholdout_months = 1.5\n",
      "forecast.holdout_months: '1.5' is out of range; expected a whole number"),
 ]
@@ -121,7 +121,7 @@ def test_a_training_length_the_baseline_cannot_use_is_refused(
                        demand_toml="[forecast]\nmin_training_months = 6\nholdout_months = 6\n")
     err = _refused(inst, hist, capsys)
     assert ("demand.toml: forecast.min_training_months: '6' is out of range; expected a whole "
-            "number in [36, ") in err
+            "number from 36 to ") in err
     assert "has 24 months" not in err  # the length from a default would only confuse
 
 
@@ -143,7 +143,7 @@ def test_a_misspelt_section_is_an_error_naming_the_known_ones(
                                              "holdout_months = 6\n")
     err = _refused(inst, hist, capsys)
     assert ("demand.toml: forcast: unknown section; expected one of: priority, quality, "
-            "standards, forecast") in err
+            "standards, forecast (did you mean 'forecast'?)") in err
     assert "demand.toml: quality: '3' is not a section" in err
 
 

@@ -559,3 +559,18 @@ def test_sheet_parts_are_found_through_the_workbook_relationships(tmp_path):
             "them and fill each cell".replace("tiny.xlsx", "renamed.xlsx")) in text, text
     assert any(t.startswith("renamed.xlsx[demand]: row 3 is hidden") for t in text), text
     assert any(t.startswith("renamed.xlsx[staff]: column C (fte) is hidden") for t in text)
+
+
+def test_a_misspelt_sheet_or_settings_key_is_said_with_the_name_it_is_close_to(tmp_path):
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    wb.create_sheet("staf")
+    row = _settings_row(wb["settings"], "policy.max_away_share")
+    wb["settings"].cell(row, 1).value = "policy.max_away_shares"
+    wb.save(book)
+    warnings = read_workbook(book).warnings
+    assert any(w.startswith("tiny.xlsx[staf]: unknown sheet, ignored") and
+               w.endswith("(did you mean 'staff'?)") for w in warnings), warnings
+    assert any(w.startswith(f"tiny.xlsx[settings]:{row}: key: unknown key "
+                            "'policy.max_away_shares', ignored") and
+               w.endswith("(did you mean 'policy.max_away_share'?)") for w in warnings), warnings

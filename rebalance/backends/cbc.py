@@ -373,6 +373,8 @@ class CbcBackend:
                                                                      options.relative_gap)
         elif sol_status == pulp.LpSolutionIntegerFeasible:
             mapped = Status.FEASIBLE_WITH_GAP
+            if "time" in words.lower():
+                words = KILLED  # "Stopped on time limit": the words a stopped HiGHS gets too
         elif sol_status == pulp.LpSolutionInfeasible or "infeasible" in words.lower():
             mapped = Status.INFEASIBLE
         elif sol_status == pulp.LpSolutionNoSolutionFound:

@@ -25,6 +25,7 @@ from dataclasses import dataclass, field, fields, replace
 from pathlib import Path
 
 from rebalance.files import staged_folder
+from rebalance.problems import range_words
 
 __all__ = ["PRESETS", "GeneratedInstance", "GeneratorSpec", "generate", "spec_for_size",
            "write_generated"]
@@ -81,22 +82,23 @@ class GeneratorSpec:
                 out.append(f"--{name.replace('_', '-')} is {getattr(self, name)}; expected {what}")
 
         need(2 <= self.offices <= MAX_OFFICES, "offices",
-             f"a whole number in [2, {MAX_OFFICES}] (a short and a surplus office; past "
+             f"{range_words(2, MAX_OFFICES, integer=True)} (a short and a surplus office; past "
              f"{MAX_OFFICES} the model of relocatable people outgrows memory)")
         need(self.staff >= 2 * max(self.offices, 1), "staff",
              f"at least 2 per office (>= {2 * max(self.offices, 1)})")
-        need(1 <= self.skills <= MAX_SKILLS, "skills", f"a whole number in [1, {MAX_SKILLS}] (as "
-             "many as there are invented skill names)")
+        need(1 <= self.skills <= MAX_SKILLS, "skills",
+             f"{range_words(1, MAX_SKILLS, integer=True)} (as many as there are invented "
+             "skill names)")
         need(SURGE_LENGTH + 1 <= self.periods <= MAX_PERIODS, "periods",
-             f"a whole number in [{SURGE_LENGTH + 1}, {MAX_PERIODS}] (a surge of "
+             f"{range_words(SURGE_LENGTH + 1, MAX_PERIODS, integer=True)} (a surge of "
              f"{SURGE_LENGTH} and a lead-in; at most {MAX_PERIODS // 4} years of quarters, "
              "as demand grows year on year)")
         need(self.seed >= 0, "seed", "a whole number >= 0")
         for name, (low, high) in KNOB_RANGES.items():
             value = getattr(self, name)
             need(low <= value and (high is None or value <= high), name,
-                 f"a number >= {low:g}" if high is None else f"a number in [{low:g}, {high:g}]")
-        need(1900 <= self.start_year <= 9000, "start_year", "a year in [1900, 9000]")
+                 range_words(low, high))
+        need(1900 <= self.start_year <= 9000, "start_year", "a year from 1900 to 9000")
         return out
 
 

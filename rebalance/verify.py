@@ -17,6 +17,7 @@ from pathlib import Path
 from rebalance.instance import Instance
 from rebalance.numbers import distinct_texts, figures, money_text, number_text, share_of
 from rebalance.plan import COST_KINDS, PLAN_TABLES, Plan, read_plan, records
+from rebalance.problems import did_you_mean
 
 __all__ = ["Violation", "unknown_names", "verify_folder", "verify_plan"]
 
@@ -24,6 +25,7 @@ ABS_TOL = 1e-6
 REL_TOL = 1e-6
 # Unknown names listed per table and column before the rest are counted.
 UNKNOWN_NAMES_LISTED = 5
+HAND_EDIT_SLIPS = 3  # unknown names in one column up to which each gets a suggestion
 
 
 @dataclass(frozen=True)
@@ -164,9 +166,13 @@ class _Checker:
             for column, known in columns.items():
                 unknown = [(row, value) for row, value in
                            enumerate(frame[column].astype(str), 2) if value not in known]
+                # A name or two unknown is a slip of a hand edit, worth a suggestion; more
+                # is a plan of another instance, where none would help.
+                slips = len(unknown) <= HAND_EDIT_SLIPS
                 for row, value in unknown[:UNKNOWN_NAMES_LISTED]:
                     self.flag("unknown_reference", f"{self.file(table)}:{row}",
-                              f"{column} '{value}' is not in the instance")
+                              f"{column} '{value}' is not in the instance"
+                              + (did_you_mean(value, known) if slips else ""))
                 if len(unknown) > UNKNOWN_NAMES_LISTED:
                     # A plan of another instance names thousands; the first few say enough.
                     self.flag("unknown_reference", self.file(table),

@@ -226,11 +226,11 @@ def test_generate_output_paths_at_the_edges(tmp_path, capsys, monkeypatch):
 
     small = ["--staff", "16", "--periods", "3"]
     assert main(["generate", str(tmp_path / "s"), "--skills", "91"]) == EXIT_USAGE
-    assert "expected a whole number in [1, 90]" in capsys.readouterr().err
+    assert "expected a whole number from 1 to 90" in capsys.readouterr().err
     assert main(["generate", str(tmp_path / "s"), "--offices", "201"]) == EXIT_USAGE
-    assert "expected a whole number in [2, 200]" in capsys.readouterr().err
+    assert "expected a whole number from 2 to 200" in capsys.readouterr().err
     assert main(["generate", str(tmp_path / "s"), "--periods", "101"]) == EXIT_USAGE
-    assert "expected a whole number in [3, 100]" in capsys.readouterr().err
+    assert "expected a whole number from 3 to 100" in capsys.readouterr().err
     (tmp_path / "realfile").write_text("x\n")
     assert main(["generate", str(tmp_path / "realfile" / "sub"), *small]) == EXIT_USAGE
     assert "its folder cannot be made" in capsys.readouterr().err

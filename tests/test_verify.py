@@ -132,6 +132,21 @@ def test_unknown_names_are_flagged(tiny_plan):
     assert {v.rule for v in verify_plan(instance, broken)} == {"unknown_reference"}
 
 
+def test_a_misspelt_name_in_a_hand_edited_plan_gets_a_suggestion(tiny_plan):
+    # tiny's staff are a1, a2, ...: "a 1" is a slip for one of them; "nobody" is close to none
+    # (closeness by the standard library's difflib, as the input messages use it).
+    instance, result = tiny_plan
+    person = instance.staff[0].person
+    slip = person[0] + " " + person[1:]
+    broken = replace(result.plan, details=add_rows(result.plan.details,
+                                                   detail(slip, "2027-Q1", "A", "B"),
+                                                   detail("nobody", "2027-Q2", "A", "B")))
+    messages = [v.message for v in verify_plan(instance, broken) if v.rule == "unknown_reference"]
+    assert any(m.startswith(f"person '{slip}' is not in the instance (did you mean '{person}'")
+               for m in messages), messages
+    assert "person 'nobody' is not in the instance" in messages
+
+
 def test_unknown_names_are_flagged_in_every_table_and_counted_past_the_first_few(tiny_plan):
     # A plan written for another instance: every table names what this one lacks, and each
     # is listed, not only the first table's (found by a sweep of generated instances).

@@ -9,6 +9,10 @@ Exit codes (also in the README):
     5  time limit reached with no plan
     6  the plan failed independent verification
     7  solver error or unknown solver outcome
+
+The analyses compare, replan and marginal give 4, 5 or 7 when a plan they need has none;
+frontier only when no budget point has a plan, and it still writes frontier.csv (mixed
+outcomes give 4 if any point is infeasible, else 7): docs/analysis.md, *Exit codes*.
 """
 
 from __future__ import annotations
@@ -38,8 +42,12 @@ from rebalance.cli_common import (
     EXIT_USAGE,
     EXIT_VERIFICATION_FAILED,
     GAP,
+    GAP_HELP,
+    INSTANCE_HELP,
     SECONDS,
     SEED,
+    SEED_HELP,
+    SOLVER_HELP,
     STATUS_EXIT,
     VIOLATIONS_SHOWN,
     _err,
@@ -294,25 +302,27 @@ def build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(dest="command", required=True)
 
     p = sub.add_parser("check", help="validate an instance folder or .xlsx workbook")
-    p.add_argument("instance")
+    p.add_argument("instance", help=INSTANCE_HELP)
     p.set_defaults(run=cmd_check)
 
     p = sub.add_parser("plan", help="solve an instance and write a verified plan")
-    p.add_argument("instance")
+    p.add_argument("instance", help=INSTANCE_HELP)
     p.add_argument("-o", "--out", required=True, help="folder for the plan tables")
-    p.add_argument("--solver", choices=("highs", "cbc"))
-    p.add_argument("--time-limit", type=SECONDS, help="seconds for the whole run")
-    p.add_argument("--gap", type=GAP, help="relative gap at which to stop, e.g. 0.01")
-    p.add_argument("--seed", type=SEED)
+    p.add_argument("--solver", choices=("highs", "cbc"), help=SOLVER_HELP)
+    p.add_argument("--time-limit", type=SECONDS,
+                   help="seconds for the whole run (default: the instance's "
+                        "[solver] time_limit_seconds, else 300)")
+    p.add_argument("--gap", type=GAP, help=GAP_HELP)
+    p.add_argument("--seed", type=SEED, help=SEED_HELP)
     p.add_argument("--threads", type=COUNT,
                    help="solver threads; with 2, a large model's bound is worked out beside "
-                        "the search")
+                        "the search (default: the instance's [solver] threads, else 1)")
     p.add_argument("-q", "--quiet", action="store_true", help="no progress on stderr")
     p.set_defaults(run=cmd_plan, output_kind="plan")
 
     p = sub.add_parser("verify", help="check a plan folder against its instance")
-    p.add_argument("instance")
-    p.add_argument("plan_dir")
+    p.add_argument("instance", help=INSTANCE_HELP)
+    p.add_argument("plan_dir", help="folder a plan was written to (rebalance plan -o)")
     p.add_argument("--all", action="store_true",
                    help=f"list every violation, not only the first {VIOLATIONS_SHOWN}")
     p.set_defaults(run=cmd_verify)
@@ -327,7 +337,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.set_defaults(run=cmd_demand)
 
     p = sub.add_parser("report", help="rebuild report.html and plan.xlsx of a plan folder")
-    p.add_argument("plan_dir")
+    p.add_argument("plan_dir", help="folder a plan was written to (rebalance plan -o)")
     p.add_argument("--instance", help="instance folder or .xlsx (default: the one named in "
                    "the folder's summary.json)")
     p.set_defaults(run=cmd_report)

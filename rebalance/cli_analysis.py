@@ -9,12 +9,14 @@ from __future__ import annotations
 import argparse
 import json
 import textwrap
-from collections.abc import Callable
+from collections import Counter
+from collections.abc import Callable, Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING
 
 from rebalance.cli_common import (
     COUNT,
+    EXIT_INFEASIBLE,
     EXIT_INVALID_INPUT,
     EXIT_OK,
     EXIT_SOLVER_ERROR,
@@ -35,6 +37,7 @@ from rebalance.cli_common import (
 )
 from rebalance.instance import Instance
 from rebalance.report.console import format_frame, is_missing
+from rebalance.solve import Status
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -289,14 +292,42 @@ def cmd_frontier(args: argparse.Namespace) -> int:
     if failed:
         _err("nothing was written")
         return EXIT_VERIFICATION_FAILED
+    planless = [result.status for result in frontier.results if result.plan is None]
+    if planless and len(planless) < len(frontier.results):
+        print(f"\n{len(planless)} of {len(frontier.results)} points had no plan "
+              f"({_counted(planless)}): their rows have no figures and no knee")
     out = Path(args.out)
     fresh = not out.exists() or not any(out.iterdir())
+    # Written even when no point has a plan: the table is the answer that every budget of
+    # the grid was infeasible or out of time (it had then exited 0 as if all were well).
     path = write_table(frontier.table, out / "frontier.csv")
     if fresh:
         # A folder it made is an analysis folder: a plan or analysis may join it later.
         mark_folder(out, "plan")
     print(f"\nwrote {path}")
+    if planless and len(planless) == len(frontier.results):
+        _err(f"no budget point gave a plan ({_counted(planless)}); {path} lists each "
+             "point's status")
+        return _no_plan_exit(planless)
     return EXIT_OK
+
+
+def _counted(statuses: Sequence[Status]) -> str:
+    """How many of each status, in order of first appearance: '2 infeasible, 1 error'."""
+    counts = Counter(status.value for status in statuses)
+    return ", ".join(f"{n} {status.replace('_', ' ')}" for status, n in counts.items())
+
+
+def _no_plan_exit(statuses: Sequence[Status]) -> int:
+    """The exit code of solves none of which gave a plan: their shared outcome's code, as
+    'rebalance plan' gives for one.  Mixed, infeasible wins: a conflict of limits is a firm
+    answer about the data that more time would not change, while a point out of time or a
+    solver error says only that that search gave nothing; then a solver error before time."""
+    codes = {STATUS_EXIT.get(status, EXIT_SOLVER_ERROR) for status in statuses}
+    if len(codes) == 1:
+        return codes.pop()
+    # Mixed without a conflict: out of time and solver errors (STATUS_EXIT has no other).
+    return EXIT_INFEASIBLE if EXIT_INFEASIBLE in codes else EXIT_SOLVER_ERROR
 
 
 def cmd_marginal(args: argparse.Namespace) -> int:

@@ -105,3 +105,12 @@ GAP = _number(float, 0.0, 1.0, what="a relative gap from 0 to 1, e.g. 0.01")
 COUNT = _number(int, 1, what="a whole number, at least 1")
 SEED = _number(int, 0, what="a whole number, at least 0")
 MONEY = _number(float, 0.0, what="an amount of money, at least 0")
+
+# Help shared by the commands that read an instance and solve it; a setting on the command
+# line overrides the instance's settings.toml.
+INSTANCE_HELP = "instance folder, or one .xlsx workbook with a sheet per table"
+SOLVER_HELP = "solver (default: the instance's [solver] name, else highs)"
+GAP_HELP = ("relative gap at which to stop, e.g. 0.01 (default: the instance's [solver] "
+            "relative_gap, else 0.0001)")
+SEED_HELP = ("the solver's random seed: the same seed gives the same plan (default: "
+             "the instance's [solver] seed, else 0)")

@@ -102,7 +102,7 @@ def make_plan(instance: Instance, options: SolveOptions, pooled: bool = True,
                     - build_seconds)
     # Ctrl-C (a notebook's interrupt too) stops every solver process at once.
     with stoppable():
-        result = solve(model, replace(options, time_limit_seconds=remaining))
+        result = solve(model, replace(options, time_limit_seconds=remaining), instance)
     raise_if_stopped()
     plan = None
     violations: tuple[Violation, ...] = ()

@@ -24,6 +24,7 @@ from rebalance.instance import (
     Office,
     Period,
     Person,
+    SeatCount,
     Skill,
 )
 from rebalance.problems import Problem, range_words
@@ -228,61 +229,50 @@ def _data_warnings(instance: Instance, office_rows: Mapping[str, int]) -> list[P
                            f"no rows for {_some(empty)}, while other periods have some: "
                            "were rows left out?", is_warning=True))
     homes = {p.home_office for p in instance.staff}
-    # Heads based at each office in each period, in one pass (large: 15,000 people, 60
-    # offices, 12 periods; a count per office and period had been 10.8 million steps).
-    based: dict[str, list[int]] = {o.name: [0] * len(instance.periods) for o in instance.offices}
-    for person in instance.staff:
-        counts = based.get(person.home_office)
-        if counts is not None:
-            for t in range(len(counts)):
-                counts[t] += person.is_present(t)
+    seat_counts: dict[str, list[SeatCount]] = {}
+    for count in instance.seat_counts():
+        seat_counts.setdefault(count.office, []).append(count)
     for office in instance.offices:
         if office.name not in homes:
             out.append(Problem("offices.csv", office_rows.get(office.name), "office",
                                f"nobody on staff is based at '{office.name}'",
                                is_warning=True))
-        elif office.seats is not None:
-            said = _seats_too_few(instance, office.name, office.seats, based[office.name])
+        elif office.name in seat_counts:
+            said = _seats_too_few(instance, seat_counts[office.name])
             if said:
                 out.append(Problem("offices.csv", office_rows.get(office.name), "seats", said,
                                    is_warning=True))
     return out
 
 
-def _seats_too_few(instance: Instance, office: str, seats: int,
-                   based: list[int]) -> str | None:
-    """Where the people ``based`` at ``office`` in each period outnumber its seats, how many
-    must be away, and whether enough may go (docs/model.md, seats: hires and details in only
-    take seats)."""
+def _seats_too_few(instance: Instance, counts: list[SeatCount]) -> str | None:
+    """Where the people based at an office in each period (``counts``, one per period, from
+    :meth:`Instance.seat_counts`) outnumber its seats, how many must be away, and whether
+    enough may go (docs/model.md, seats: hires and details in only take seats)."""
     names = instance.period_names
-    over = [t for t, heads in enumerate(based) if heads > seats]
+    over = [c for c in counts if c.must_go]
     if not over:
         return None
+    office, seats = over[0].office, over[0].seats
     first, more = over[0], len(over) - 1
-    must = based[first] - seats
-    if more and all(based[t] == based[first] for t in over):
-        said = (f"'{office}' has {based[first]} people based there in {names[first]} (and "
-                f"{more} more period{'s' * (more > 1)}) for {seats} seats: at least {must} "
-                "must be away each period (detailed out or reassigned)")
+    if more and all(c.based == first.based for c in over):
+        said = (f"'{office}' has {first.based} people based there in {names[first.period]} "
+                f"(and {more} more period{'s' * (more > 1)}) for {seats} seats: at least "
+                f"{first.must_go} must be away each period (detailed out or reassigned)")
     else:
         later = (f", and more than {seats} in {more} more period{'s' * (more > 1)}"
                  if more else "")
-        said = (f"'{office}' has {based[first]} people based there in {names[first]} for "
-                f"{seats} seats{later}: at least {must} must be away then (detailed out or "
-                "reassigned)")
-    short = next((t for t in over if instance.most_away(office, t) < based[t] - seats), None)
+        said = (f"'{office}' has {first.based} people based there in {names[first.period]} "
+                f"for {seats} seats{later}: at least {first.must_go} must be away then "
+                "(detailed out or reassigned)")
+    short = next((c for c in over if c.too_few_may_go), None)
     if short is None:
         return said
-    may = instance.most_away(office, short)
-    why = ("no other office" if len(instance.offices) < 2 else
-           ", ".join(["can_detail", "can_relocate"]
-                     + (["max_consecutive_detail_periods = 0"]
-                        if instance.policy.max_consecutive_detail_periods == 0 else [])
-                     + (["max_away_share"] if instance.policy.max_away_share < 1.0 else [])))
-    go = f"only {may} may go" if may else "none may go"
-    if short == first:
+    why = ", ".join(instance.away_limits())
+    go = f"only {short.may_go} may go" if short.may_go else "none may go"
+    if short is first:
         return f"{said}, and {go} ({why}): no plan can keep its seats"
-    return (f"{said}; in {names[short]} {based[short] - seats} must be away and {go} "
+    return (f"{said}; in {names[short.period]} {short.must_go} must be away and {go} "
             f"({why}): no plan can keep its seats")
 
 

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import math
 import time
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass, replace
 
@@ -36,6 +36,7 @@ from rebalance.heuristics import (
     too_large_to_search,
     trimmed,
 )
+from rebalance.instance import Instance
 from rebalance.model import LIMIT_FAMILIES, Model
 from rebalance.numbers import money_text, number_text
 from rebalance.split import resplit
@@ -70,21 +71,58 @@ class SolveResult:
         return max(gaps) if gaps else None
 
 
-def constant_conflicts(model: Model) -> list[str]:
-    """Rows with no columns whose bounds already fail (e.g. more people at home than seats)."""
+def constant_conflicts(model: Model, instance: Instance | None = None) -> list[str]:
+    """Rows with no columns whose bounds already fail (e.g. more people at home than seats).
+    ``instance``, the one ``model`` was built from, lets seats say whom they are short of."""
     counts = np.diff(model.matrix.indptr)
     bad = np.flatnonzero((counts == 0) & ((model.row_upper < -1e-9) | (model.row_lower > 1e-9)))
-    return [_describe_row(model, int(i), None) for i in bad]
+    seats = seat_words(instance) if len(bad) and instance is not None else {}
+    return [_describe_row(model, int(i), None, seats) for i in bad]
 
 
-def _describe_row(model: Model, row: int, excess: float | None) -> str:
+def _describe_row(model: Model, row: int, excess: float | None,
+                  seats: Mapping[str, str]) -> str:
+    """The limit of ``row`` in words, with how far it had to give; a seats row also with
+    its ``seats`` words (by label), where the instance was given."""
     family, label = model.row_label(row)
     words = family.replace("_", " ")
     # A budget's label names it already ("moves budget 2027"): said once, not twice.
     text = label if label.startswith(words) else f"{words}: {label}"
     if excess is not None:
         text += f" (over by {_amount(family, excess)})"
+    if family == "seats" and label in seats:
+        text += f": {seats[label]}"
     return text
+
+
+def seat_words(instance: Instance) -> dict[str, str]:
+    """For each seats row's label (``"A in 2027-Q1"``, ``rebalance.limits``), its seats and
+    the people based there, in plain words: a conflict of seats had named the row only, not
+    how far the people outnumber the seats.  Where they do, how many must be away or moved
+    and how many at most may be (``Instance.seat_counts``: the numbers of the warning of
+    ``rebalance check``)."""
+    names = instance.period_names
+    limits = ", ".join(instance.away_limits())
+    out = {}
+    for c in instance.seat_counts():
+        said = f"{_people(c.seats, 'seat')} for {_people(c.based, 'person')} based there"
+        if c.must_go:
+            may = f"at most {c.may_go} may be" if c.may_go else "none may be"
+            said += (f"; {c.must_go} must be away or moved, and {may} away or moved"
+                     + (f" ({limits})" if c.too_few_may_go else ""))
+        else:
+            # The relaxation may let a full office take the excess in people detailed in,
+            # as well as the office they come from: the same total (docs/model.md).
+            said += "; what is over is people detailed in or hires"
+        out[f"{c.office} in {names[c.period]}"] = said
+    return out
+
+
+def _people(n: int, one: str) -> str:
+    """'1 person', '5 people', '1 seat', '40 seats'."""
+    if n == 1:
+        return f"1 {one}"
+    return f"{n} {'people' if one == 'person' else one + 's'}"
 
 
 def _amount(family: str, value: float) -> str:
@@ -93,8 +131,12 @@ def _amount(family: str, value: float) -> str:
     return money_text(value) if "budget" in family else number_text(value)
 
 
-def solve(model: Model, options: SolveOptions) -> SolveResult:
-    """Solve ``model`` lexicographically (or weighted) within one overall time limit."""
+def solve(model: Model, options: SolveOptions, instance: Instance | None = None) -> SolveResult:
+    """Solve ``model`` lexicographically (or weighted) within one overall time limit.
+
+    ``instance``, the one ``model`` was built from, lets conflicting seats say how many
+    people are based at the office (:func:`seat_words`); without it they name the row only.
+    """
     backend = BACKENDS[options.solver]()
     started = time.perf_counter()
     deadline = started + options.time_limit_seconds
@@ -109,7 +151,7 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
     # Backends report through the same line format, with the elapsed time of the whole run.
     options = replace(options, progress=say if report is not None else None)
 
-    conflicts = constant_conflicts(model)
+    conflicts = constant_conflicts(model, instance)
     if conflicts:
         return SolveResult(Status.INFEASIBLE, None, (), backend.name, backend.version(),
                            time.perf_counter() - started, tuple(conflicts))
@@ -130,7 +172,8 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
         out, _ = solve_stage(backend, model, objective, [], options, deadline, None, say)
         out = settled(model, out, objective, options.relative_gap)
         stages.append(_stage("weighted", out))
-        return _finish(model, backend, options, stages, out, started, deadline)
+        return _finish(model, backend, options, stages, out, started, deadline,
+                       instance=instance)
 
     say("stage 1: least priority-weighted shortfall")
     # Stage 1 may use most of the time, but leaves stage 2 a share to lower the cost.
@@ -146,7 +189,8 @@ def solve(model: Model, options: SolveOptions) -> SolveResult:
     first = settled(model, first, model.shortfall_weight, options.relative_gap)
     stages.append(_stage("shortfall", first))
     if not first.status.has_plan or first.x is None or first.objective is None:
-        return _finish(model, backend, options, stages, first, started, deadline)
+        return _finish(model, backend, options, stages, first, started, deadline,
+                       instance=instance)
     # The gap, not the solver's word: HiGHS says "Optimal" of a search within the gap asked.
     gap = stages[-1].gap
     say(f"stage 1 done: weighted shortfall {first.objective:.6g}, "
@@ -493,14 +537,15 @@ def _stage(name: str, out: BackendOutcome) -> StageResult:
 
 def _finish(model: Model, backend: Backend, options: SolveOptions, stages: list[StageResult],
             last: BackendOutcome, started: float, deadline: float,
-            final_status: Status | None = None) -> SolveResult:
+            final_status: Status | None = None,
+            instance: Instance | None = None) -> SolveResult:
     status = final_status or last.status
     conflicts: tuple[str, ...] = ()
     if status is Status.INFEASIBLE:
         # At least a second, so that a run out of time can still name the limits: past the
         # deadline by that at most (it had been 5 s).
         conflicts = tuple(find_conflicts(model, backend, options,
-                                         max(1.0, deadline - time.perf_counter())))
+                                         max(1.0, deadline - time.perf_counter()), instance))
         if not conflicts:
             # Every limit held with nothing relaxed: the model is feasible and the verdict
             # was the solver's numerics (CBC with shortfall_cost 1e100, from a sweep).
@@ -513,10 +558,11 @@ def _finish(model: Model, backend: Backend, options: SolveOptions, stages: list[
 
 
 def find_conflicts(model: Model, backend: Backend, options: SolveOptions,
-                   time_limit: float) -> list[str]:
+                   time_limit: float, instance: Instance | None = None) -> list[str]:
     """Name the limits that cannot hold together: relax each limit row by an elastic column
     and minimise the total relaxation; rows that still need relaxing are the conflict.
-    Empty where none needs to: the model was feasible all along."""
+    Empty where none needs to: the model was feasible all along.  With ``instance`` (the
+    model's), seats say whom they are short of (:func:`seat_words`)."""
     limit_rows = [i for f in model.rows if f.name in LIMIT_FAMILIES
                   for i in range(f.start, f.stop) if math.isfinite(model.row_upper[i])]
     if not limit_rows:
@@ -541,7 +587,8 @@ def find_conflicts(model: Model, backend: Backend, options: SolveOptions,
     over = np.flatnonzero(excess > 1e-6)
     if not len(over):
         return []  # nothing had to give: the caller says the verdict was the solver's
-    listed = [_describe_row(model, limit_rows[i], float(excess[i])) for i in over]
+    seats = seat_words(instance) if instance is not None else {}
+    listed = [_describe_row(model, limit_rows[i], float(excess[i]), seats) for i in over]
     # The least total relaxation is the answer's firm part; how it splits between offices
     # and periods can differ between equally small relaxations (and so between solvers).
     totals: dict[str, tuple[int, float]] = {}

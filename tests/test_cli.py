@@ -466,3 +466,19 @@ def test_report_on_a_folder_with_no_summary_says_so(tmp_path, capsys):
     code = main(["report", str(folder)])
     assert code == EXIT_USAGE
     assert "no summary.json here to name the instance; give --instance" in capsys.readouterr().err
+
+
+def test_a_seats_conflict_says_how_many_people_are_based_there(tmp_path, capsys):
+    # Hand count (tests/data/seats_short/NOTE.md): at a share of 0.25, A's 2 seats hold 5
+    # people in 2027-Q1, of whom at most 2 may go (a5 reassigned, 1 of the 4 others away).
+    instance = tmp_path / "seats_short"
+    shutil.copytree(DATA / "seats_short", instance)
+    settings = instance / "settings.toml"
+    settings.write_text(settings.read_text().replace("max_away_share = 0.5",
+                                                     "max_away_share = 0.25"))
+    code = main(["plan", str(instance), "-o", str(tmp_path / "out"), "-q"])
+    out = capsys.readouterr().out
+    assert code == EXIT_INFEASIBLE
+    assert ("seats: A in 2027-Q1 (over by 1): 2 seats for 5 people based there; 3 must be "
+            "away or moved, and at most 2 may be away or moved (can_detail, can_relocate, "
+            "max_away_share)") in out

@@ -110,3 +110,48 @@ def test_without_rounded_rows_the_lp_is_the_lp_without_them():
         assert scipy_lp(model, model.shortfall_weight).fun >= reference.fun - 1e-7
         return
     raise AssertionError("no instance with rounded rows")
+
+
+def _seats_short_at(share: float) -> Instance:
+    from conftest import DATA
+
+    from rebalance.instance import Policy
+    from rebalance.readers import read_instance
+
+    instance = read_instance(DATA / "seats_short")
+    return instance.with_changes(policy=Policy(max_away_share=share))
+
+
+def test_seat_counts_are_the_hand_count_of_seats_short():
+    # Hand count (tests/data/seats_short/NOTE.md): A has 2 seats; a1-a5 are based there in
+    # Q1, Q2 and a5 leaves after Q2. At a share of 0.25 may go: a5 reassigned + floor(0.25 x
+    # 4) = 1 detail = 2 in Q1, Q2; floor(0.25 x 4) = 1 in Q3, Q4 (a5 gone, nobody relocatable).
+    instance = _seats_short_at(0.25)
+    counts = [(c.office, c.period, c.seats, c.based, c.must_go, c.may_go)
+              for c in instance.seat_shortages()]
+    assert counts == [("A", 0, 2, 5, 3, 2), ("A", 1, 2, 5, 3, 2), ("A", 2, 2, 4, 2, 1),
+                      ("A", 3, 2, 4, 2, 1)]
+    # One pass over the staff gives what most_away gives for each office and period.
+    for c in instance.seat_counts():
+        assert c.may_go == instance.most_away(c.office, c.period)
+    assert instance.away_limits() == ("can_detail", "can_relocate", "max_away_share")
+
+
+def test_a_seats_conflict_says_the_seats_the_people_based_there_and_who_may_go():
+    # The same hand count: every period of A is short (over by 1 each: 3 must go, 2 may).
+    from rebalance.planning import options_from_instance
+    from rebalance.solve import Status, solve
+
+    instance = _seats_short_at(0.25)
+    model = build_model(instance)
+    result = solve(model, options_from_instance(instance, relative_gap=0.0), instance)
+    assert result.status is Status.INFEASIBLE
+    assert ("seats: A in 2027-Q1 (over by 1): 2 seats for 5 people based there; 3 must be "
+            "away or moved, and at most 2 may be away or moved (can_detail, can_relocate, "
+            "max_away_share)") in result.conflicts
+    assert ("seats: A in 2027-Q3 (over by 1): 2 seats for 4 people based there; 2 must be "
+            "away or moved, and at most 1 may be away or moved (can_detail, can_relocate, "
+            "max_away_share)") in result.conflicts
+    # Without the instance the rows are named as before.
+    bare = solve(model, options_from_instance(instance, relative_gap=0.0))
+    assert "seats: A in 2027-Q1 (over by 1)" in bare.conflicts

@@ -17,6 +17,7 @@ from rebalance.analysis.frontier import FRONTIER_COLUMNS
 from rebalance.analysis.marginal import MARGINAL_COLUMNS
 from rebalance.analysis.reasons import REASON_COLUMNS
 from rebalance.analysis.replan import CHANGE_COLUMNS
+from rebalance.cli import EXIT_INFEASIBLE
 
 TINY = DATA / "tiny"
 
@@ -128,3 +129,44 @@ def test_replan_lists_the_rules_the_old_plan_breaks(tmp_path: Path) -> None:
     head = next(line for line in done.stderr.splitlines() if "the old plan breaks" in line)
     listed = done.stderr.split(head, 1)[1].splitlines()[1:]
     assert listed and listed[0].startswith("  ") and "a1" in listed[0]
+
+
+def seats_short(tmp_path: Path, share: str) -> Path:
+    """tests/data/seats_short with ``max_away_share`` set to ``share``."""
+    target = tmp_path / "seats_short"
+    shutil.copytree(DATA / "seats_short", target)
+    settings = target / "settings.toml"
+    settings.write_text(settings.read_text().replace("max_away_share = 0.5",
+                                                     f"max_away_share = {share}"))
+    return target
+
+
+def test_a_frontier_with_no_plan_at_any_point_says_so_and_exits_infeasible(tmp_path: Path
+                                                                           ) -> None:
+    # Hand count (tests/data/seats_short/NOTE.md): at a share of 0.25 A's 2 seats hold 5
+    # people with at most 2 of them able to go, whatever the budgets: every point infeasible.
+    # It had exited 0, as if the frontier were fine.
+    out = tmp_path / "o"
+    done = run("frontier", str(seats_short(tmp_path, "0.25")), "--hiring", "0,20000",
+               "-o", str(out), "-q")
+    assert done.returncode == EXIT_INFEASIBLE, done.stderr
+    assert (f"no budget point gave a plan (2 infeasible); {out / 'frontier.csv'} lists each "
+            "point's status") in done.stderr
+    # The table is still written: that every point was infeasible is the answer.
+    frontier = pd.read_csv(out / "frontier.csv")
+    assert frontier["status"].tolist() == ["infeasible", "infeasible"]
+    assert not frontier["knee"].any()
+
+
+def test_a_frontier_with_some_points_planless_exits_0_and_counts_them(tmp_path: Path) -> None:
+    # seats_short as it is (share 0.5): with no moves money nobody can leave A, so its seats
+    # cannot hold (hand count, NOTE.md: 3 must be away); with 100,000 they can (a5 reassigned
+    # for 20,000 and a1, a2 detailed all four periods at 5,000: 60,000).
+    out = tmp_path / "o"
+    done = run("frontier", str(DATA / "seats_short"), "--hiring", "0", "--moves", "0,100000",
+               "-o", str(out), "--gap", "0", "-q")
+    assert done.returncode == 0, done.stderr
+    assert "1 of 2 points had no plan (1 infeasible)" in done.stdout
+    assert "no budget point gave a plan" not in done.stderr
+    frontier = pd.read_csv(out / "frontier.csv")
+    assert frontier["status"].tolist() == ["infeasible", "optimal"]

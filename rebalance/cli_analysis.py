@@ -23,9 +23,13 @@ from rebalance.cli_common import (
     EXIT_USAGE,
     EXIT_VERIFICATION_FAILED,
     GAP,
+    GAP_HELP,
+    INSTANCE_HELP,
     MONEY,
     SECONDS,
     SEED,
+    SEED_HELP,
+    SOLVER_HELP,
     STATUS_EXIT,
     VIOLATIONS_SHOWN,
     _err,
@@ -366,15 +370,17 @@ def cmd_marginal(args: argparse.Namespace) -> int:
 def add_analysis_commands(sub) -> None:
     """Add compare, replan, frontier and marginal to ``sub``, the parser's subcommands."""
     def solver_options(p: argparse.ArgumentParser) -> None:
-        p.add_argument("--solver", choices=("highs", "cbc"))
-        p.add_argument("--time-limit", type=SECONDS, help="seconds for each solve")
-        p.add_argument("--gap", type=GAP, help="relative gap at which to stop, e.g. 0.01")
-        p.add_argument("--seed", type=SEED)
+        p.add_argument("--solver", choices=("highs", "cbc"), help=SOLVER_HELP)
+        p.add_argument("--time-limit", type=SECONDS,
+                       help="seconds for each solve (default: the instance's [solver] "
+                            "time_limit_seconds, else 300)")
+        p.add_argument("--gap", type=GAP, help=GAP_HELP)
+        p.add_argument("--seed", type=SEED, help=SEED_HELP)
         p.add_argument("--workers", type=COUNT, default=2, help="solves in parallel (default 2)")
         p.add_argument("-q", "--quiet", action="store_true", help="no progress on stderr")
 
     p = sub.add_parser("compare", help="solve the base and surge scenarios side by side")
-    p.add_argument("instance")
+    p.add_argument("instance", help=INSTANCE_HELP)
     p.add_argument("--scenario", action="append", required=True, metavar="FILE",
                    help="scenario TOML file (repeat for several)")
     p.add_argument("-o", "--out", required=True, help="folder for the base plan and tables")
@@ -382,10 +388,12 @@ def add_analysis_commands(sub) -> None:
     p.set_defaults(run=cmd_compare, output_kind="plan")
 
     p = sub.add_parser("replan", help="re-plan from a period, keeping close to an old plan")
-    p.add_argument("instance")
-    p.add_argument("--from", dest="from_dir", required=True, metavar="PLAN_DIR")
+    p.add_argument("instance", help=INSTANCE_HELP)
+    p.add_argument("--from", dest="from_dir", required=True, metavar="PLAN_DIR",
+                   help="folder of the plan in force (rebalance plan -o)")
     p.add_argument("--at", required=True, metavar="PERIOD", help="first period to re-plan")
-    p.add_argument("-o", "--out", required=True)
+    p.add_argument("-o", "--out", required=True,
+                   help="folder for the new plan (not the --from folder)")
     p.add_argument("--disruption-detail", type=MONEY, default=2000.0,
                    help="cost of each changed person-period of detail (default 2000)")
     p.add_argument("--disruption-reassignment", type=MONEY, default=10000.0,
@@ -400,7 +408,7 @@ def add_analysis_commands(sub) -> None:
     p.set_defaults(run=cmd_replan, output_kind="plan")
 
     p = sub.add_parser("frontier", help="least shortfall and its cost over a budget grid")
-    p.add_argument("instance")
+    p.add_argument("instance", help=INSTANCE_HELP)
     p.add_argument("--hiring", required=True, metavar="GRID",
                    help="a,b,c or start:stop:step per year; a trailing x makes factors")
     p.add_argument("--moves", metavar="GRID", help="moves caps to sweep as well")
@@ -409,8 +417,9 @@ def add_analysis_commands(sub) -> None:
     p.set_defaults(run=cmd_frontier, output_kind=None)  # adds frontier.csv, removes nothing
 
     p = sub.add_parser("marginal", help="plan, marginal values of binding limits, reasons")
-    p.add_argument("instance")
-    p.add_argument("-o", "--out", required=True)
+    p.add_argument("instance", help=INSTANCE_HELP)
+    p.add_argument("-o", "--out", required=True,
+                   help="folder for the plan, marginal_values.csv and reasons.csv")
     p.add_argument("--budget-step", default=100_000.0,
                    type=_number(float, 1.0, what="an amount of money, at least 1"),
                    help="money a budget is relaxed by (default 100000)")

@@ -482,3 +482,18 @@ def test_a_seats_conflict_says_how_many_people_are_based_there(tmp_path, capsys)
     assert ("seats: A in 2027-Q1 (over by 1): 2 seats for 5 people based there; 3 must be "
             "away or moved, and at most 2 may be away or moved (can_detail, can_relocate, "
             "max_away_share)") in out
+
+
+def test_every_option_of_every_command_says_what_it_is():
+    # `rebalance COMMAND --help` is where a planner learns the options: none may be bare
+    # (plan's --solver and --seed, and the analyses' instance and -o, had been).
+    import argparse
+
+    from rebalance.cli import build_parser
+
+    commands = next(a for a in build_parser()._actions
+                    if isinstance(a, argparse._SubParsersAction))
+    bare = [f"{name} {action.dest}" for name, parser in commands.choices.items()
+            for action in parser._actions
+            if not isinstance(action, argparse._HelpAction) and not action.help]
+    assert bare == []

@@ -19,7 +19,7 @@ import pandas as pd
 
 from rebalance.instance import Instance
 from rebalance.model import Model
-from rebalance.problems import Problem, describe_range
+from rebalance.problems import Problem, range_words
 from rebalance.readers import InstanceError
 from rebalance.tables import (
     RawTable,
@@ -435,7 +435,7 @@ def _read_table(file: Path, columns: tuple[str, ...], problems: list[Problem]) -
             out[column] = text
             continue
         whole = column == "count"  # whole people: 1.5 and -1 had been read as 1 and -1
-        what = describe_range(1 if whole else None, None, False, whole)
+        what = range_words(1 if whole else None, None, integer=whole)
         value, parsed = _to_float(text, empty)
         finite = np.isfinite(value)
         bad = parsed & ~finite

@@ -10,7 +10,7 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 from typing import Any, TypeGuard
 
-__all__ = ["Problem", "describe_range", "did_you_mean", "is_finite_number", "range_words"]
+__all__ = ["Problem", "did_you_mean", "is_finite_number", "range_words"]
 
 # How alike a name must be to a known one to be suggested (difflib's ratio, 0 to 1): 0.6,
 # difflib's own default, catches a dropped or swapped letter or two without offering an
@@ -69,18 +69,6 @@ def range_words(minimum: float | None, maximum: float | None, *, open_minimum: b
     if maximum is not None:
         return f"{kind} {'<' if open_maximum else '<='} {maximum:g}"
     return kind
-
-
-def describe_range(minimum: float | None, maximum: float | None, open_minimum: bool,
-                   integer: bool) -> str:
-    """The values a bound allows, a range of two bounds in interval notation (``a number in
-    [0, 1000]``).  Only scenario files' messages still say it so; the readers use
-    :func:`range_words`."""
-    if minimum is not None and maximum is not None:
-        kind = "a whole number" if integer else "a number"
-        left = "(" if open_minimum else "["
-        return f"{kind} in {left}{minimum:g}, {maximum:g}]"
-    return range_words(minimum, None, open_minimum=open_minimum, integer=integer)
 
 
 def is_finite_number(value: Any) -> TypeGuard[int | float]:

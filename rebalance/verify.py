@@ -166,9 +166,10 @@ class _Checker:
             for column, known in columns.items():
                 unknown = [(row, value) for row, value in
                            enumerate(frame[column].astype(str), 2) if value not in known]
-                # A name or two unknown is a slip of a hand edit, worth a suggestion; more
-                # is a plan of another instance, where none would help.
-                slips = len(unknown) <= HAND_EDIT_SLIPS
+                # A name or two unknown among known ones is a slip of a hand edit, worth a
+                # suggestion; more, or most of a column, is a plan of another instance,
+                # where none would help ('xa1' is no slip for 'a1').
+                slips = len(unknown) <= HAND_EDIT_SLIPS and 2 * len(unknown) < len(frame)
                 for row, value in unknown[:UNKNOWN_NAMES_LISTED]:
                     self.flag("unknown_reference", f"{self.file(table)}:{row}",
                               f"{column} '{value}' is not in the instance"

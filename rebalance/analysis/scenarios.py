@@ -25,7 +25,7 @@ from rebalance.analysis.limits import hire_rows
 from rebalance.instance import Budget, Demand, Instance
 from rebalance.plan import Plan
 from rebalance.planning import PlanResult, make_plan
-from rebalance.problems import Problem, describe_range, is_finite_number
+from rebalance.problems import Problem, did_you_mean, is_finite_number, range_words
 from rebalance.solve import SolveOptions
 
 __all__ = [
@@ -98,6 +98,11 @@ class ScenarioError(ValueError):
         self.problems = problems
 
 
+# The keys of a [[demand]] and a [[budget]] table, in the order messages list them.
+DEMAND_KEYS = ("offices", "skills", "periods", "multiplier", "add_fte", "priority")
+BUDGET_KEYS = ("years", "hiring_add", "moves_add")
+
+
 def _names(raw: Any, known: Sequence[str], what: str, where: str,
            problems: list[Problem], file: str) -> tuple[str, ...] | None:
     if raw is None:
@@ -110,7 +115,8 @@ def _names(raw: Any, known: Sequence[str], what: str, where: str,
     unknown = [v for v in raw if v not in known]
     if unknown:
         problems.append(Problem(file, None, where, f"unknown {what} {', '.join(unknown)}; "
-                                f"expected one of {', '.join(known)}"))
+                                f"expected one of {', '.join(known)}"
+                                + (did_you_mean(unknown[0], known) if len(unknown) == 1 else "")))
     return tuple(raw)
 
 
@@ -120,7 +126,7 @@ def _number(raw: Any, default: float, where: str, problems: list[Problem], file:
     are no numbers to plan with (nan had set the demand to 0 and inf overflowed)."""
     if raw is None:
         return default
-    what = f"expected {describe_range(minimum, maximum, False, False)} (scenario '{scenario}')"
+    what = f"expected {range_words(minimum, maximum)} (scenario '{scenario}')"
     if isinstance(raw, bool) or not isinstance(raw, int | float):
         problems.append(Problem(file, None, where, f"'{raw}' is not a number; {what}"))
         return default
@@ -176,7 +182,8 @@ def _read(path: str | Path, instance: Instance) -> tuple[Scenario | None, str | 
     for key in raw:
         if key not in known_keys:
             problems.append(Problem(file, None, key, f"unknown key; expected one of "
-                                    f"{', '.join(sorted(known_keys))}"))
+                                    f"{', '.join(sorted(known_keys))}"
+                                    + did_you_mean(key, known_keys)))
     name = raw.get("name")
     usable = False
     if not isinstance(name, str) or not name.strip():
@@ -204,9 +211,9 @@ def _read(path: str | Path, instance: Instance) -> tuple[Scenario | None, str | 
             continue
         before = len(problems)
         for key in entry:
-            if key not in {"offices", "skills", "periods", "multiplier", "add_fte", "priority"}:
+            if key not in DEMAND_KEYS:
                 problems.append(Problem(file, None, f"{at}.{key}", "unknown key; expected "
-                                        "offices, skills, periods, multiplier, add_fte, priority"))
+                                        + ", ".join(DEMAND_KEYS) + did_you_mean(key, DEMAND_KEYS)))
         chosen = _names(entry.get("periods"), periods, "period", f"{at}.periods", problems,
                         file)
         change = DemandChange(
@@ -237,9 +244,9 @@ def _read(path: str | Path, instance: Instance) -> tuple[Scenario | None, str | 
             continue
         before = len(problems)
         for key in entry:
-            if key not in {"years", "hiring_add", "moves_add"}:
-                problems.append(Problem(file, None, f"{at}.{key}", "unknown key; expected years, "
-                                        "hiring_add, moves_add"))
+            if key not in BUDGET_KEYS:
+                problems.append(Problem(file, None, f"{at}.{key}", "unknown key; expected "
+                                        + ", ".join(BUDGET_KEYS) + did_you_mean(key, BUDGET_KEYS)))
         bchange = BudgetChange(
             years=_names(entry.get("years"), years, "budget year", f"{at}.years", problems,
                          file),

@@ -48,17 +48,17 @@ def test_priority_zero_is_kept(tmp_path: Path, tiny) -> None:
 
 
 @pytest.mark.parametrize(("table", "key", "value", "expected"), [
-    ("demand", "multiplier", "nan", "a number in [0, 1000]"),
-    ("demand", "multiplier", "inf", "a number in [0, 1000]"),
-    ("demand", "multiplier", "1e308", "a number in [0, 1000]"),
-    ("demand", "multiplier", "1" + "0" * 400, "a number in [0, 1000]"),
-    ("demand", "add_fte", "nan", "a number in [-100000, 100000]"),
-    ("demand", "add_fte", "-inf", "a number in [-100000, 100000]"),
+    ("demand", "multiplier", "nan", "a number from 0 to 1000"),
+    ("demand", "multiplier", "inf", "a number from 0 to 1000"),
+    ("demand", "multiplier", "1e308", "a number from 0 to 1000"),
+    ("demand", "multiplier", "1" + "0" * 400, "a number from 0 to 1000"),
+    ("demand", "add_fte", "nan", "a number from -100000 to 100000"),
+    ("demand", "add_fte", "-inf", "a number from -100000 to 100000"),
     ("demand", "priority", "nan", "a number >= 0"),
     ("demand", "priority", "inf", "a number >= 0"),
-    ("budget", "hiring_add", "nan", "a number in [-1e+12, 1e+12]"),
-    ("budget", "moves_add", "nan", "a number in [-1e+12, 1e+12]"),
-    ("budget", "hiring_add", "1e300", "a number in [-1e+12, 1e+12]"),
+    ("budget", "hiring_add", "nan", "a number from -1e+12 to 1e+12"),
+    ("budget", "moves_add", "nan", "a number from -1e+12 to 1e+12"),
+    ("budget", "hiring_add", "1e300", "a number from -1e+12 to 1e+12"),
 ])
 def test_non_finite_or_absurd_numbers_are_rejected(tmp_path: Path, tiny, table: str, key: str,
                                                    value: str, expected: str) -> None:
@@ -211,3 +211,15 @@ def test_name_problems_come_with_the_files_other_problems(tmp_path: Path, tiny) 
     for line in text:
         assert line in done.stderr, (line, done.stderr)
     assert "Traceback" not in done.stderr and not out.exists()
+
+
+def test_a_misspelt_key_or_name_gets_the_close_one(tmp_path: Path, tiny) -> None:
+    # Closeness by the standard library's difflib, as the instance's messages use it.
+    path = write(tmp_path, "slips", 'name = "surge"\ndescripton = "x"\n[[demand]]\n'
+                 'skills = ["intak"]\nmultipler = 2\n')
+    text = problems(path, tiny)
+    assert any(t.endswith("(did you mean 'description'?)") for t in text), text
+    assert any("unknown skill intak" in t and t.endswith("(did you mean 'intake'?)")
+               for t in text), text
+    assert any("demand[1].multipler: unknown key" in t
+               and t.endswith("(did you mean 'multiplier'?)") for t in text), text

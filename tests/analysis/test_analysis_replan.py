@@ -576,9 +576,9 @@ def test_no_reported_bound_is_above_its_plan_on_a_replan_highs_misjudged(
     models: list[Model] = []
     solve = planning.solve
 
-    def spy(model: Model, options: object) -> object:
+    def spy(model: Model, options: object, instance: object = None) -> object:
         models.append(model)
-        return solve(model, options)  # type: ignore[arg-type]
+        return solve(model, options, instance)  # type: ignore[arg-type]
 
     monkeypatch.setattr(planning, "solve", spy)
     out = replan(one, old.plan, 1, exact_options(one))

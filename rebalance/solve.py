@@ -81,7 +81,7 @@ def constant_conflicts(model: Model, instance: Instance | None = None) -> list[s
 
 
 def _describe_row(model: Model, row: int, excess: float | None,
-                  seats: Mapping[str, str]) -> str:
+                  seats: Mapping[str, str] | None = None) -> str:
     """The limit of ``row`` in words, with how far it had to give; a seats row also with
     its ``seats`` words (by label), where the instance was given."""
     family, label = model.row_label(row)
@@ -90,7 +90,7 @@ def _describe_row(model: Model, row: int, excess: float | None,
     text = label if label.startswith(words) else f"{words}: {label}"
     if excess is not None:
         text += f" (over by {_amount(family, excess)})"
-    if family == "seats" and label in seats:
+    if family == "seats" and seats and label in seats:
         text += f": {seats[label]}"
     return text
 

@@ -41,6 +41,7 @@ from rebalance.cli_common import (
 )
 from rebalance.instance import Instance
 from rebalance.report.console import format_frame, is_missing
+from rebalance.report.words import plain_status
 from rebalance.solve import Status
 
 if TYPE_CHECKING:
@@ -154,10 +155,22 @@ def cmd_compare(args: argparse.Namespace) -> int:
                            "actions_differing") if c in comparison.table.columns]
     print(format_frame(comparison.table[columns], instance.money.currency))
     _say_gaps(comparison.table)
-    for result in comparison.results:
-        code = _plan_failed(result)
-        if code is not None:
-            return code
+    # The base must have a plan; a scenario without one is an answer (under that surge the
+    # limits conflict, or no plan came in time), listed with its reason, and the others'
+    # plans are still written: one bad surge had thrown away every plan of the comparison.
+    code = _plan_failed(comparison.results[0])
+    if code is not None:
+        return code
+    for name, result in zip(comparison.names[1:], comparison.results[1:], strict=True):
+        if result.plan is None:
+            print(f"\nscenario '{name}': no plan ({plain_status(result.status)})"
+                  + ("; limits in conflict:" if result.solve.conflicts else ""))
+            for conflict in result.solve.conflicts:
+                print(f"  - {conflict}")
+        elif not result.verified:
+            _say_unverified(f"scenario '{name}': the plan failed verification; nothing was "
+                            "written", result)
+            return EXIT_VERIFICATION_FAILED
 
     def scenario_plans(folder: Path) -> None:
         for name, other in zip(comparison.names[1:], comparison.results[1:], strict=True):

@@ -170,3 +170,39 @@ def test_a_frontier_with_some_points_planless_exits_0_and_counts_them(tmp_path: 
     assert "no budget point gave a plan" not in done.stderr
     frontier = pd.read_csv(out / "frontier.csv")
     assert frontier["status"].tolist() == ["infeasible", "optimal"]
+
+
+def test_compare_keeps_the_other_plans_when_a_scenario_has_none(tmp_path: Path, monkeypatch,
+                                                                 capsys) -> None:
+    # A scenario with no plan (here: its solve made to come back out of time) is an answer
+    # to list, not a reason to throw away the base plan and the other scenarios' plans.
+    from dataclasses import replace
+
+    import rebalance.analysis.scenarios as scenarios_module
+    from rebalance.cli import main
+    from rebalance.solve import Status
+
+    real = scenarios_module.solve_many
+
+    def second_out_of_time(variants, options, workers):
+        results = list(real(variants, options, workers))
+        results[1] = replace(results[1], plan=None, status=Status.NO_PLAN_IN_TIME,
+                             violations=())
+        return results
+
+    monkeypatch.setattr(scenarios_module, "solve_many", second_out_of_time)
+    files = []
+    for name in ("slow", "fine"):
+        files += ["--scenario", str(tmp_path / f"{name}.toml")]
+        (tmp_path / f"{name}.toml").write_text(
+            f'name = "{name}"\n[[demand]]\noffices = ["B"]\nmultiplier = 1.2\n')
+    out = tmp_path / "compare"
+    code = main(["compare", str(TINY), *files, "-o", str(out), "--workers", "1", "-q"])
+    printed = capsys.readouterr().out
+    assert code == 0
+    assert "scenario 'slow': no plan (no plan within the time limit)" in printed
+    table = pd.read_csv(out / "scenarios.csv")
+    assert table["status"].tolist() == ["optimal", "no_plan_in_time", "optimal"]
+    assert (out / "hires.csv").exists() and (out / "scenarios" / "fine" / "hires.csv").exists()
+    assert not (out / "scenarios" / "slow").exists()
+    assert verify_folder(read_instance(TINY), out) == []

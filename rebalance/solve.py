@@ -172,7 +172,11 @@ def solve(model: Model, options: SolveOptions, instance: Instance | None = None)
         out, _ = solve_stage(backend, model, objective, [], options, deadline, None, say)
         out = settled(model, out, objective, options.relative_gap)
         stages.append(_stage("weighted", out))
-        return _finish(model, backend, options, stages, out, started, deadline,
+        # The work split to the least shortfall, people, moves and hires held: it costs
+        # nothing, so it never worsens the objective, and where shortfall is priced at 0 the
+        # solver is free to leave everyone idle (a sweep's plan had no work at all).
+        return _finish(model, backend, options, stages,
+                       polish(backend, model, out, options, deadline), started, deadline,
                        instance=instance)
 
     say("stage 1: least priority-weighted shortfall")

@@ -242,3 +242,19 @@ def test_weighted_mode_matches_enumeration(seed):
     plan = result.plan
     assert plan.total_cost + shortfall_cost * plan.weighted_shortfall == pytest.approx(
         best, rel=1e-6, abs=1e-3)
+
+
+@pytest.mark.parametrize("seed", range(100, 108))
+def test_weighted_mode_with_shortfall_free_still_puts_people_to_work(seed):
+    # shortfall_cost 0 prices only money: the least cost, and with the plan's people, moves
+    # and hires, its work split still the least shortfall (an enumerated plan's own), not
+    # everyone idle (a sweep's plan had no work at all).
+    instance = _small(seed)
+    _, _, results = brute_force(instance)
+    if not results:
+        pytest.skip("no feasible plan for this seed (covered by the infeasible case above)")
+    least_cost = min(c for _, c in results)
+    plan = solve_verified(instance, mode="weighted", shortfall_cost=0.0).plan
+    assert plan.total_cost == pytest.approx(least_cost, abs=1e-3)
+    assert any(abs(s - plan.weighted_shortfall) <= 1e-6 and abs(c - plan.total_cost) <= 1e-3
+               for s, c in results), (plan.weighted_shortfall, sorted(results)[:5])

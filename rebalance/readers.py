@@ -228,6 +228,11 @@ def _data_warnings(instance: Instance, office_rows: Mapping[str, int]) -> list[P
         out.append(Problem("demand.csv", None, "period",
                            f"no rows for {_some(empty)}, while other periods have some: "
                            "were rows left out?", is_warning=True))
+    if instance.objective.mode == "weighted" and instance.objective.shortfall_cost == 0:
+        out.append(Problem("settings.toml", None, "objective.shortfall_cost",
+                           "is 0, so the weighted objective prices money only: the plan will "
+                           "move and hire nobody that costs anything, whatever the shortfall",
+                           is_warning=True))
     homes = {p.home_office for p in instance.staff}
     seat_counts: dict[str, list[SeatCount]] = {}
     for count in instance.seat_counts():

@@ -532,3 +532,15 @@ def test_suggestions_ignore_case_and_ranges_read_as_words():
     assert range_words(0, 1, open_maximum=True) == "a number at least 0 and below 1"
     assert range_words(1, 90, integer=True) == "a whole number from 1 to 90"
     assert range_words(0, None, open_minimum=True) == "a number > 0"
+
+
+def test_weighted_mode_with_free_shortfall_is_a_warning(tmp_path):
+    target = tmp_path / "tiny"
+    shutil.copytree(DATA / "tiny", target)
+    settings = target / "settings.toml"
+    settings.write_text(settings.read_text() + '\n[objective]\nmode = "weighted"\n'
+                        "shortfall_cost = 0\n")
+    assert any(w.startswith("settings.toml: objective.shortfall_cost: is 0, so the weighted "
+                            "objective prices money only") for w in read_instance(target).warnings)
+    settings.write_text(settings.read_text().replace("shortfall_cost = 0", "shortfall_cost = 1"))
+    assert not any("shortfall_cost" in w for w in read_instance(target).warnings)

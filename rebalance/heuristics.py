@@ -385,6 +385,39 @@ def trimmed(backend: Backend, model: Model, objective: np.ndarray,
     return out.x
 
 
+def toward_hint(backend: Backend, model: Model, objective: np.ndarray,
+                extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
+                plan: np.ndarray, time_limit: float, say: Callable[[str], None]) -> np.ndarray:
+    """``plan`` with any of its changes against the model's ``hint`` (a re-plan's old plan)
+    undone that does not pay: the best plan whose every whole-number decision lies between
+    ``plan``'s and the hint's, the rest held.
+
+    A re-plan's cost stage stops within the gap asked of the total cost, and a change costs
+    little against that: a re-plan had dropped one person's detail and given the same
+    detail to an identical colleague (4,000 of disruption within a 1% gap of 513,200).  The
+    search has only the changed decisions to move, so it is small.  Returns the plan found,
+    or ``plan``."""
+    if model.hint is None or model.hint.size != model.num_cols:
+        return plan
+    integer = model.is_integer
+    new = np.rint(plan[integer])
+    old = np.clip(np.rint(model.hint[integer]), model.col_lower[integer],
+                  model.col_upper[integer])
+    if np.array_equal(new, old):
+        return plan
+    lower, upper = model.col_lower.copy(), model.col_upper.copy()
+    lower[integer], upper[integer] = np.minimum(new, old), np.maximum(new, old)
+    # No gap: a change is worth less than the gap asked of the whole plan's cost, so a
+    # search allowed that gap stops at once on the plan it was given.
+    out = _restricted_run(backend, model, objective, extra_rows,
+                          replace(options, relative_gap=0.0), (lower, upper), time_limit, plan,
+                          "undoing changes that do not pay", say)
+    if out.x is None or out.objective is None or out.objective >= (
+            float(objective @ plan) - 1e-9 * (1.0 + abs(out.objective))):
+        return plan
+    return out.x
+
+
 def _restricted_run(backend: Backend, model: Model, objective: np.ndarray,
                     extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
                     bounds: tuple[np.ndarray, np.ndarray], time_limit: float,

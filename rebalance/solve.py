@@ -9,12 +9,11 @@ from __future__ import annotations
 
 import math
 import time
-from collections.abc import Callable, Mapping
+from collections.abc import Callable
 from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass, replace
 
 import numpy as np
-import scipy.sparse as sp
 
 from rebalance import stage_bounds
 from rebalance.backends import (
@@ -26,6 +25,7 @@ from rebalance.backends import (
     relative_gap,
     stopped,
 )
+from rebalance.conflicts import constant_conflicts, find_conflicts
 from rebalance.heuristics import (
     MIN_SEARCH_SECONDS,
     better_plan,
@@ -34,11 +34,11 @@ from rebalance.heuristics import (
     is_large,
     stay_put_plan,
     too_large_to_search,
+    toward_hint,
     trimmed,
 )
 from rebalance.instance import Instance
-from rebalance.model import LIMIT_FAMILIES, Model
-from rebalance.numbers import money_text, number_text
+from rebalance.model import Model
 from rebalance.split import resplit
 
 __all__ = ["SolveOptions", "SolveResult", "StageResult", "Status", "solve", "solve_stage"]
@@ -69,66 +69,6 @@ class SolveResult:
     def gap(self) -> float | None:
         gaps = [s.gap for s in self.stages if s.gap is not None]
         return max(gaps) if gaps else None
-
-
-def constant_conflicts(model: Model, instance: Instance | None = None) -> list[str]:
-    """Rows with no columns whose bounds already fail (e.g. more people at home than seats).
-    ``instance``, the one ``model`` was built from, lets seats say whom they are short of."""
-    counts = np.diff(model.matrix.indptr)
-    bad = np.flatnonzero((counts == 0) & ((model.row_upper < -1e-9) | (model.row_lower > 1e-9)))
-    seats = seat_words(instance) if len(bad) and instance is not None else {}
-    return [_describe_row(model, int(i), None, seats) for i in bad]
-
-
-def _describe_row(model: Model, row: int, excess: float | None,
-                  seats: Mapping[str, str] | None = None) -> str:
-    """The limit of ``row`` in words, with how far it had to give; a seats row also with
-    its ``seats`` words (by label), where the instance was given."""
-    family, label = model.row_label(row)
-    words = family.replace("_", " ")
-    # A budget's label names it already ("moves budget 2027"): said once, not twice.
-    text = label if label.startswith(words) else f"{words}: {label}"
-    if excess is not None:
-        text += f" (over by {_amount(family, excess)})"
-    if family == "seats" and seats and label in seats:
-        text += f": {seats[label]}"
-    return text
-
-
-def seat_words(instance: Instance) -> dict[str, str]:
-    """For each seats row's label (``"A in 2027-Q1"``, ``rebalance.limits``), its seats and
-    the people based there, in plain words: a conflict of seats had named the row only, not
-    how far the people outnumber the seats.  Where they do, how many must be away or moved
-    and how many at most may be (``Instance.seat_counts``: the numbers of the warning of
-    ``rebalance check``)."""
-    names = instance.period_names
-    limits = ", ".join(instance.away_limits())
-    out = {}
-    for c in instance.seat_counts():
-        said = f"{_people(c.seats, 'seat')} for {_people(c.based, 'person')} based there"
-        if c.must_go:
-            may = f"at most {c.may_go} may be" if c.may_go else "none may be"
-            said += (f"; {c.must_go} must be away or moved, and {may} away or moved"
-                     + (f" ({limits})" if c.too_few_may_go else ""))
-        else:
-            # The relaxation may let a full office take the excess in people detailed in,
-            # as well as the office they come from: the same total (docs/model.md).
-            said += "; what is over is people detailed in or hires"
-        out[f"{c.office} in {names[c.period]}"] = said
-    return out
-
-
-def _people(n: int, one: str) -> str:
-    """'1 person', '5 people', '1 seat', '40 seats'."""
-    if n == 1:
-        return f"1 {one}"
-    return f"{n} {'people' if one == 'person' else one + 's'}"
-
-
-def _amount(family: str, value: float) -> str:
-    """How far a limit had to give, by the number rule: money in full for a budget (it had
-    read "over by 8.16e+04"), else as a table writes a figure."""
-    return money_text(value) if "budget" in family else number_text(value)
 
 
 def solve(model: Model, options: SolveOptions, instance: Instance | None = None) -> SolveResult:
@@ -169,7 +109,9 @@ def solve(model: Model, options: SolveOptions, instance: Instance | None = None)
     if options.mode == "weighted":
         objective = model.cost + options.shortfall_cost * model.shortfall_weight
         say("weighted: least cost + shortfall_cost x weighted shortfall")
-        out, _ = solve_stage(backend, model, objective, [], options, deadline, None, say)
+        out, _ = solve_stage(backend, model, objective, [], options,
+                             deadline - _undo_reserve(model, options), None, say)
+        out = _undo_unpaid(backend, model, out, objective, [], options, deadline, say)
         out = settled(model, out, objective, options.relative_gap)
         stages.append(_stage("weighted", out))
         # The work split to the least shortfall, people, moves and hires held: it costs
@@ -211,7 +153,8 @@ def solve(model: Model, options: SolveOptions, instance: Instance | None = None)
     held = options.held_shortfall(first.objective)
     say(f"stage 2: least cost with weighted shortfall <= {held:.6g}")
     second, _ = solve_stage(backend, model, model.cost, [(model.shortfall_weight, held)],
-                            options, deadline, first.x, say, carried)
+                            options, deadline - _undo_reserve(model, options), first.x, say,
+                            carried)
     if not second.status.has_plan:
         # Stage 1's plan still stands; stage 2 only failed to improve its cost, which its
         # bound (if any) still bounds.
@@ -219,6 +162,8 @@ def solve(model: Model, options: SolveOptions, instance: Instance | None = None)
         stages.append(_stage("cost", _unimproved(model, first, second.bound, second.words)))
         return _finish(model, backend, options, stages, first, started, deadline,
                        final_status=Status.FEASIBLE_WITH_GAP)
+    second = _undo_unpaid(backend, model, second, model.cost,
+                          [(model.shortfall_weight, held)], options, deadline, say)
     second = settled(model, second, model.cost, options.relative_gap)
     stages.append(_stage("cost", second))
     status = Status.OPTIMAL if (first.status is Status.OPTIMAL
@@ -254,6 +199,29 @@ def polish(backend: Backend, model: Model, out: BackendOutcome, options: SolveOp
     return out if split is None else replace(out, x=split.x)
 
 
+def _undo_unpaid(backend: Backend, model: Model, out: BackendOutcome, objective: np.ndarray,
+                 extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
+                 deadline: float, say: Callable[[str], None]) -> BackendOutcome:
+    """A re-plan's last stage with the changes against its old plan that do not pay undone
+    (:func:`~rebalance.heuristics.toward_hint`); ``out`` itself where the model has no old
+    plan or the time is short."""
+    left = min(UNDO_SECONDS, deadline - time.perf_counter())
+    if model.hint is None or out.x is None or left < MIN_POLISH_SECONDS:
+        return out
+    x = toward_hint(backend, model, objective, extra_rows, options, out.x, left, say)
+    if x is out.x:
+        return out
+    return _with_floor(replace(out, x=x, objective=float(objective @ x)), options.relative_gap)
+
+
+def _undo_reserve(model: Model, options: SolveOptions) -> float:
+    """Seconds a re-plan's last stage leaves for :func:`_undo_unpaid`, which a stage run to
+    its limit would otherwise never get: a tenth of the limit, at most :data:`UNDO_SECONDS`."""
+    return 0.0 if model.hint is None else min(UNDO_SECONDS, 0.1 * options.time_limit_seconds)
+
+
+# At most, for undoing a re-plan's changes that do not pay: a search over those alone.
+UNDO_SECONDS = 10.0
 SETTLE_TOLERANCE = 1e-9  # relative: less than this off a plan's objective is no slack
 
 
@@ -559,49 +527,3 @@ def _finish(model: Model, backend: Backend, options: SolveOptions, stages: list[
                          "solver (are some numbers extremely large?); try the other solver",)
     return SolveResult(status, last.x if status.has_plan else None, tuple(stages),
                        backend.name, backend.version(), time.perf_counter() - started, conflicts)
-
-
-def find_conflicts(model: Model, backend: Backend, options: SolveOptions,
-                   time_limit: float, instance: Instance | None = None) -> list[str]:
-    """Name the limits that cannot hold together: relax each limit row by an elastic column
-    and minimise the total relaxation; rows that still need relaxing are the conflict.
-    Empty where none needs to: the model was feasible all along.  With ``instance`` (the
-    model's), seats say whom they are short of (:func:`seat_words`)."""
-    limit_rows = [i for f in model.rows if f.name in LIMIT_FAMILIES
-                  for i in range(f.start, f.stop) if math.isfinite(model.row_upper[i])]
-    if not limit_rows:
-        return ["the solver reports the model infeasible, but no limit row can be relaxed"]
-    k = len(limit_rows)
-    elastic = sp.csr_matrix((np.full(k, -1.0), (np.asarray(limit_rows), np.arange(k))),
-                            shape=(model.num_rows, k))
-    with_elastic = replace(
-        model,
-        matrix=sp.hstack([model.matrix, elastic], format="csr"),
-        col_lower=np.concatenate([model.col_lower, np.zeros(k)]),
-        col_upper=np.concatenate([model.col_upper, np.full(k, math.inf)]),
-        is_integer=np.concatenate([model.is_integer, np.zeros(k, bool)]),
-        shortfall_weight=np.concatenate([model.shortfall_weight, np.zeros(k)]),
-        cost=np.concatenate([model.cost, np.zeros(k)]),
-    )
-    objective = np.concatenate([np.zeros(model.num_cols), np.ones(k)])
-    out = backend.run(with_elastic, objective, [], options, time_limit, None)
-    if out.x is None:
-        return [f"the limits conflict, but the analysis found no relaxation ({out.words})"]
-    excess = out.x[model.num_cols:]
-    over = np.flatnonzero(excess > 1e-6)
-    if not len(over):
-        return []  # nothing had to give: the caller says the verdict was the solver's
-    seats = seat_words(instance) if instance is not None else {}
-    listed = [_describe_row(model, limit_rows[i], float(excess[i]), seats) for i in over]
-    # The least total relaxation is the answer's firm part; how it splits between offices
-    # and periods can differ between equally small relaxations (and so between solvers).
-    totals: dict[str, tuple[int, float]] = {}
-    for i in over:
-        family, _ = model.row_label(limit_rows[i])
-        count, amount = totals.get(family, (0, 0.0))
-        totals[family] = (count + 1, amount + float(excess[i]))
-    summary = [f"{family.replace('_', ' ')}: over by {_amount(family, amount)} in all, across "
-               f"{count} limits "
-               "(the least total; how it is split between them can differ)"
-               for family, (count, amount) in totals.items() if count > 1]
-    return summary + listed

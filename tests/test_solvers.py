@@ -868,8 +868,8 @@ def test_with_cbc_staying_put_is_worked_out_even_where_cbc_gets_nothing_done(tin
 
 def test_a_budget_that_must_give_is_named_once_and_its_amount_in_full(tiny):
     # A sweep: a re-plan's conflict read "moves budget: moves budget 2027 (over by 8.16e+04)".
+    from rebalance.conflicts import _describe_row
     from rebalance.model import build_model
-    from rebalance.solve import _describe_row
 
     model = build_model(tiny)
     [family] = [f for f in model.rows if f.name == "hiring_budget"]

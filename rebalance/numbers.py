@@ -133,10 +133,21 @@ def gap_text(value: float) -> str:
 def share_text(part: float, whole: float) -> str:
     """``part`` as a percentage of ``whole`` with :data:`SHARE_DIGITS` decimals, kept off
     100% and 0% where it is not that: 298,500 of 300,000 is 99.5%, and 299,990 of it 99.9%,
-    not 100.0%; one of it "under 0.1%", not 0.0%."""
+    not 100.0%; one of it "under 0.1%", not 0.0%.  A ``part`` within float dust of
+    ``whole`` (or of 0) is 100% (or 0%): 394.3088888888889 of itself, as 100 x part / whole
+    100.00000000000001, had been kept off 100 as "100.1%"."""
     if not whole:
         return "-"
-    share = 100.0 * part / whole
+    part, whole = float(part), float(whole)
+    # Dust: NEAR_ZERO, or that share of a large whole (its sums carry more); the one decimal
+    # shown tells a thousandth of the whole, far above either.
+    dust = NEAR_ZERO * max(1.0, abs(whole))
+    if abs(part - whole) < dust:
+        share = 100.0
+    elif abs(part) < dust:
+        share = 0.0
+    else:
+        share = 100.0 * part / whole
     d = SHARE_DIGITS
     text = f"{share:.{d}f}%"
     step = 10.0 ** -d
@@ -216,8 +227,9 @@ def _plain(value: float, decimals: int) -> str:
     return text[1:] if text.startswith("-") and not text.strip("-0.,") else text
 
 
-def number_rule() -> dict[str, int]:
-    """The rule's decimals, for the page's drawing script (which writes its charts' labels
-    and tips by them, so a chart reads as the tables beside it)."""
+def number_rule() -> dict[str, float]:
+    """The rule's decimals and dust, for the page's drawing script (which writes its charts'
+    labels and tips by them, so a chart reads as the tables beside it)."""
     return {"table_digits": TABLE_DIGITS, "total_digits": FTE_TOTAL_DIGITS,
-            "gap_digits": GAP_DIGITS, "share_digits": SHARE_DIGITS, "whole_from": WHOLE_FROM}
+            "gap_digits": GAP_DIGITS, "share_digits": SHARE_DIGITS, "whole_from": WHOLE_FROM,
+            "near_zero": NEAR_ZERO}

@@ -28,7 +28,9 @@ from rebalance.solve import StageResult, Status
 from rebalance.verify import Violation
 
 __all__ = [
+    "CAP_LINES",
     "MEASURE_COLUMN",
+    "budget_note",
     "cell_text",
     "column_decimals",
     "format_check",
@@ -67,6 +69,39 @@ def _table(headers: Sequence[str], rows: Sequence[Sequence[object]]) -> list[str
     return [line(cells[0]), "  ".join("-" * w for w in widths)] + [line(r) for r in cells[1:]]
 
 
+# Each cap of a budget year (budget.csv's columns) and the kinds of new money it limits.
+CAP_LINES = (("hiring", ("onboarding", "new_position_salary")),
+             ("moves", ("detail", "relocation")))
+
+
+def budget_note(instance: Instance, costs: pd.DataFrame) -> str:
+    """New money against the caps, for a headline (console, page, workbook alike): "of
+    314,000 allowed" where every cap is set, "no caps set" where none is, and otherwise the
+    spending under caps against them, apart from the spending with none ("300,100 of 314,000
+    allowed where capped, 201,600 where uncapped"): all spending "of" the set caps' sum
+    ("501,700 of 314,000 allowed") had read as overspending.  A cap of 0 is a cap (nothing
+    may be spent; it had read "no caps set"); a blank cap, or a year with no row in
+    budget.csv, is none.  ``costs`` is the plan's table of spending by year and kind."""
+    spent = costs.groupby(["year", "kind"])["cost"].sum().to_dict() if len(costs) else {}
+    allowed = capped_spent = uncapped_spent = 0.0
+    capped = uncapped = False
+    for year in instance.years:
+        budget = instance.budget(year)
+        for cap_name, kinds in CAP_LINES:
+            amount = sum(float(spent.get((year, kind), 0.0)) for kind in kinds)
+            cap = None if budget is None else getattr(budget, cap_name)
+            if cap is None:
+                uncapped, uncapped_spent = True, uncapped_spent + amount
+            else:
+                capped, capped_spent, allowed = True, capped_spent + amount, allowed + cap
+    if not capped:
+        return "no caps set"
+    if not uncapped:
+        return f"of {money_text(allowed)} allowed"
+    return (f"{money_text(capped_spent)} of {money_text(allowed)} allowed where capped, "
+            f"{money_text(uncapped_spent)} where uncapped")
+
+
 def counted(number: int, noun: str) -> str:
     """``number`` with ``noun``, plural unless one (``1 period``, ``3 periods``)."""
     return f"{number:,} {noun}" + ("" if number == 1 else "s")
@@ -101,6 +136,7 @@ def format_summary(result: PlanResult) -> str:
             f"{share_text(plan.shortfall_fte, demand)} of {fte_total_text(demand)} demanded)"
             if demand else "  no demand",
             f"  total cost           {money_amount(plan.total_cost, money.currency)}",
+            f"                       {budget_note(result.instance, plan.costs)}",
             f"  hires                {plan.hires_count()}",
             f"  detail periods       {len(plan.details)} "
             f"({plan.details['person'].nunique()} people)",

@@ -36,7 +36,7 @@ from rebalance.report.chart_data import (
     records,
     spare_capacity,
 )
-from rebalance.report.console import stage_value
+from rebalance.report.console import budget_note, stage_value
 from rebalance.report.htmlparts import (
     card,
     chart,
@@ -87,14 +87,8 @@ def _headline(data: ReportData) -> str:
     plan, run, money_unit = data.plan, data.summary, data.instance.money
     demand = float(plan.coverage["demand_fte"].sum()) if len(plan.coverage) else 0.0
     share = plan.shortfall_fte / demand if demand else 0.0
-    caps = [b.hiring for b in data.instance.budgets] + [b.moves for b in data.instance.budgets]
-    cap_total = sum(c for c in caps if c is not None)
-    uncapped = any(c is None for c in caps) or len(data.instance.budgets) < len(
-        data.instance.years)
-    money_note = ("no caps set" if cap_total == 0 else
-                  f"of {money_text(cap_total)} allowed" + (" (some lines uncapped)"
-                                                      if uncapped else ""))
-    money_note += f", {data.instance.periods[0].name} to {data.instance.periods[-1].name}"
+    money_note = (f"{budget_note(data.instance, plan.costs)}, "
+                  f"{data.instance.periods[0].name} to {data.instance.periods[-1].name}")
     people = plan.details["person"].nunique() if len(plan.details) else 0
     hires_new = int(plan.hires.loc[plan.hires["funding"] == "new", "count"].sum()) if len(
         plan.hires) else 0

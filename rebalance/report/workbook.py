@@ -37,7 +37,7 @@ from rebalance.numbers import (
 )
 from rebalance.plan import PLAN_TABLES
 from rebalance.report.chart_data import new_position_salaries, spare_capacity
-from rebalance.report.console import cell_text, measure_names
+from rebalance.report.console import budget_note, cell_text, measure_names
 from rebalance.report.htmlparts import stage_words
 from rebalance.report.inputs import ReportData, quality_notes
 from rebalance.report.words import outcome_words
@@ -384,7 +384,8 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
          f"of {fte_total_text(demand)} FTE-periods demanded")
     cash = _money_format(instance.money.currency)
     line("new money, all years", plan.total_cost, cash,
-         f"{instance.periods[0].name} to {instance.periods[-1].name}")
+         f"{budget_note(instance, plan.costs)}, {instance.periods[0].name} to "
+         f"{instance.periods[-1].name}")
     commitment = new_position_salaries(data)
     positions = int(commitment["positions"].sum()) if len(commitment) else 0
     line("new positions' salaries a year",

@@ -197,7 +197,9 @@ def test_the_page_script_writes_shares_by_the_same_rule():
     start = script.index("  function share(part, whole)")
     body = script[start:script.index("\n  }\n", start) + 4]
     cases = [(298_500, 300_000), (299_990, 300_000), (300_000, 300_000), (301_000, 300_000),
-             (1, 300_000), (36_900, 300_000), (0, 300_000)]
+             (1, 300_000), (36_900, 300_000), (0, 300_000),
+             # Float dust: a shortfall of all demand (a sweep's 100.1%), and next to nothing.
+             (394.3088888888889, 394.3088888888889 * (1 - 2e-16)), (1e-13, 394.3)]
     calls = "; ".join(f"console.log(share({a}, {b}))" for a, b in cases)
     # The script's decimals are the page's data.numbers, rebalance.numbers' own.
     rule = f"var RULE = {json.dumps(number_rule())};"

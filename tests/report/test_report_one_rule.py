@@ -20,19 +20,20 @@ from openpyxl import load_workbook
 from report_cases import TINY, page_text
 
 from rebalance import read_instance
-from rebalance.instance import Money
+from rebalance.instance import Budget, Money
 from rebalance.numbers import (
     fte_total_text,
     gap_text,
     money_text,
     number_rule,
     number_text,
+    share_of,
     share_text,
 )
 from rebalance.planning import PlanResult
 from rebalance.report.analysis_view import _frontier, _gap_note, _scenarios
 from rebalance.report.chart_data import chart_payload
-from rebalance.report.console import format_frame, format_outcome, format_summary
+from rebalance.report.console import budget_note, format_frame, format_outcome, format_summary
 from rebalance.report.html import render_html
 from rebalance.report.htmlparts import frame_table_html, stage_words, table_html
 from rebalance.report.inputs import quality_notes, report_data
@@ -226,3 +227,87 @@ def test_the_page_module_stays_under_the_style_guides_length():
     for name in ("html.py", "chart_data.py"):
         lines = (ROOT / "rebalance" / "report" / name).read_text().count("\n")
         assert lines < 600, name
+
+
+# 8. The page's "New money" card said "0 no caps set" with every cap at 0 (sweep: `rebalance
+#    generate ... --seed 3 --budget-tightness 0`), and "501,700 of 314,000 allowed (some lines
+#    uncapped)" with one hiring cap blank, all spending "of" the set caps as if overspent.
+
+def _costs(**by_kind: float) -> pd.DataFrame:
+    return pd.DataFrame({"year": "2027", "kind": list(by_kind), "cost": list(by_kind.values())})
+
+
+def test_the_money_note_counts_a_zero_cap_and_keeps_uncapped_spending_apart():
+    tiny = read_instance(TINY)  # one budget year, 2027: hiring 40,000, moves 30,000
+    costs = _costs(onboarding=20_000.0, new_position_salary=5_000.0, detail=12_000.0,
+                   relocation=0.0)
+    assert budget_note(tiny, costs) == "of 70,000 allowed"
+    zero = tiny.with_changes(budgets=(Budget("2027", 0.0, 0.0),))
+    assert budget_note(zero, _costs(detail=0.0)) == "of 0 allowed"
+    blank = tiny.with_changes(budgets=(Budget("2027", None, 30_000.0),))
+    # Hand sums of `costs`: moves (detail, relocation) 12,000 under the 30,000 cap; hiring
+    # (onboarding, new positions' salaries) 25,000 with no cap.
+    assert budget_note(blank, costs) == (
+        "12,000 of 30,000 allowed where capped, 25,000 where uncapped")
+    # docs/instance-format.md, budget.csv: "A budget year with no row has no caps".
+    assert budget_note(tiny.with_changes(budgets=()), costs) == "no caps set"
+
+
+@pytest.mark.parametrize(("hiring", "moves"), [(0.0, 0.0), (None, 30_000.0)])
+def test_the_money_note_reads_alike_on_console_page_and_workbook(tmp_path, hiring, moves):
+    instance = read_instance(TINY)
+    result = solve_verified(instance.with_changes(budgets=(Budget("2027", hiring, moves),)))
+    plan = result.plan
+    assert plan is not None
+    spent = plan.costs.groupby("kind")["cost"].sum()
+    hired = float(spent.get("onboarding", 0.0) + spent.get("new_position_salary", 0.0))
+    moved = float(spent.get("detail", 0.0) + spent.get("relocation", 0.0))
+    # Written out by hand from budget.csv's meaning (docs/instance-format.md), not by the
+    # helper under test: a blank hiring cap leaves hiring's spending outside the "of".
+    note = ("of 0 allowed" if hiring == 0.0 else
+            f"{money_text(moved)} of 30,000 allowed where capped, "
+            f"{money_text(hired)} where uncapped")
+    span = "2027-Q1 to 2027-Q4"
+    lines = format_summary(result).splitlines()
+    at = next(i for i, line in enumerate(lines) if line.startswith("  total cost "))
+    assert lines[at + 1].strip() == note
+    data = report_data(result)
+    page = page_text(render_html(data))
+    assert f"New money {money_text(plan.total_cost)} {note}, {span}" in page
+    assert "no caps set" not in page and "some lines uncapped" not in page
+    sheet = load_workbook(write_workbook(data, tmp_path / "plan.xlsx"))["summary"]
+    (row,) = [r for r in sheet.iter_rows(values_only=True) if r[0] == "new money, all years"]
+    assert row[2] == f"{note}, {span}"
+
+
+# 9. Weighted mode with shortfall_cost 0 (sweep: set_g4_w_zero) printed "394.3 unweighted,
+#    100.1% of 394.3 demanded": 100 x 394.3088888888889 / 394.3088888888889 is
+#    100.00000000000001, which the rule that keeps a share off 100 pushed up to 100.1%.
+
+def test_a_share_off_100_or_0_by_float_dust_only_reads_100_or_0():
+    whole = 394.3088888888889  # the sweep's shortfall and demand, each summed from coverage
+    assert 100.0 * whole / whole != 100.0  # the dust itself
+    assert share_text(whole, whole) == "100.0%"
+    assert share_text(whole + 5.7e-14, whole) == "100.0%"
+    assert share_of(1.0000000000000002) == "100.0%"  # one ulp over 1
+    assert share_text(1e-13, whole) == "0.0%"
+    # Genuine shares near 100 and 0 are still kept off them (tests/report/
+    # test_report_one_figure.py, finding 9: 299,990 of 300,000 is not 100.0%).
+    assert share_text(0.99996, 1.0) == "99.9%"
+    assert share_text(1.0004, 1.0) == "100.1%"
+    assert share_text(299_990, 300_000) == "99.9%"
+    assert share_text(1, 300_000) == "under 0.1%"
+
+
+def test_a_shortfall_of_all_demand_reads_100_percent_on_console_and_page():
+    result = _tiny()
+    plan = result.plan
+    assert plan is not None
+    whole = 394.3088888888889  # as in the sweep's plan: everything demanded went short
+    cov = plan.coverage.copy()
+    cov[["demand_fte", "shortfall_fte"]] = 0.0
+    cov.loc[cov.index[0], ["demand_fte", "shortfall_fte"]] = whole
+    short = replace(result, plan=replace(plan, coverage=cov))
+    assert "394.3 unweighted, 100.0% of 394.3 demanded" in format_summary(short)
+    assert "unweighted 394.3, 100.0% of 394.3 demanded" in page_text(
+        render_html(report_data(short)))

@@ -83,7 +83,11 @@
   // had read 100%), never 0% when something was spent.
   function share(part, whole) {
     if (!whole) { return "-"; }
-    var d = RULE.share_digits, step = Math.pow(10, -d), p = 100 * part / whole;
+    // Float dust off the whole or off 0 is neither kept off 100% nor "under" anything
+    // (rebalance.numbers.share_text).
+    var dust = RULE.near_zero * Math.max(1, Math.abs(whole));
+    var d = RULE.share_digits, step = Math.pow(10, -d);
+    var p = Math.abs(part - whole) < dust ? 100 : Math.abs(part) < dust ? 0 : 100 * part / whole;
     var text = p.toFixed(d) + "%";
     if (text === (100).toFixed(d) + "%" && p !== 100) {
       return (p < 100 ? Math.min(p, 100 - step) : Math.max(p, 100 + step)).toFixed(d) + "%";

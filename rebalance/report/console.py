@@ -135,8 +135,8 @@ def format_summary(result: PlanResult) -> str:
             f"({fte_total_text(plan.shortfall_fte)} unweighted, "
             f"{share_text(plan.shortfall_fte, demand)} of {fte_total_text(demand)} demanded)"
             if demand else "  no demand",
-            f"  total cost           {money_amount(plan.total_cost, money.currency)}",
-            f"                       {budget_note(result.instance, plan.costs)}",
+            f"  total cost           {money_amount(plan.total_cost, money.currency)} "
+            f"({budget_note(result.instance, plan.costs)})",
             f"  hires                {plan.hires_count()}",
             f"  detail periods       {len(plan.details)} "
             f"({plan.details['person'].nunique()} people)",

@@ -42,7 +42,8 @@ def test_the_console_summary_names_the_currency_of_every_amount():
         "year", "hiring spend (EUR)", "hiring cap (EUR)", "moves spend (EUR)",
         "moves cap (EUR)"]
     bare = format_summary(_tiny(None))
-    assert "total cost           43,000\n" in bare and "(EUR)" not in bare and "None" not in bare
+    assert "total cost           43,000 (of 70,000 allowed)\n" in bare
+    assert "(EUR)" not in bare and "None" not in bare
 
 
 def test_what_a_cost_stage_leaves_open_is_in_the_currency():

@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import math
 import os
 import shlex
 import sys
@@ -130,9 +131,7 @@ def cmd_plan(args: argparse.Namespace) -> int:
     if result.plan is None:
         if result.status is Status.NO_PLAN_IN_TIME:
             # The build's or solve's own words name only their share of the limit.
-            _err(f"of the {limit:g} s limit, {seconds_text(read_seconds)} s went to "
-                 f"starting and reading the instance and {seconds_text(kept_seconds)} s were kept "
-                 "for writing the plan's files")
+            _err(_limit_shares(limit, read_seconds, kept_seconds, options.time_limit_seconds))
         return STATUS_EXIT.get(result.status, EXIT_SOLVER_ERROR)
     if not result.verified:
         _err("the plan failed verification; nothing was written")
@@ -146,6 +145,26 @@ def cmd_plan(args: argparse.Namespace) -> int:
     write_outputs(result, args.out, extra=extra)
     print(f"\nplan written to {args.out}/")
     return EXIT_OK
+
+
+def _limit_shares(limit: float, read_seconds: float, kept_seconds: float,
+                  solve_seconds: float) -> str:
+    """How a run's time limit was shared out, for a run that found no plan in it.  Where the
+    parts cannot fit, that is said, with a limit that would (a sweep's 1 s run read "of the 1
+    s limit, 0.76 s went to ... reading and 2.80 s were kept for writing")."""
+    read, kept = seconds_text(read_seconds), seconds_text(kept_seconds)
+    solve = seconds_text(solve_seconds)
+    if read_seconds + kept_seconds + solve_seconds <= limit * (1 + 1e-9):
+        return (f"of the {limit:g} s limit, {read} s went to starting and reading the "
+                f"instance, {kept} s were kept for writing the plan's files and {solve} s were "
+                "left to build and solve the model")
+    # Reading takes about as long again; the model keeps the time the limit was meant for.
+    fit = math.ceil(read_seconds + kept_seconds + max(limit, solve_seconds))
+    return (f"the {limit:g} s limit is shorter than starting and reading the instance took "
+            f"({read} s) plus the time kept for writing the plan's files ({kept} s) and the "
+            f"least time the model is given to build and solve ({solve} s), "
+            f"{seconds_text(read_seconds + kept_seconds + solve_seconds)} s in all; "
+            f"--time-limit {fit} would leave the model {max(limit, solve_seconds):g} s")
 
 
 def cmd_verify(args: argparse.Namespace) -> int:

@@ -91,6 +91,15 @@ def _shown(value: Any) -> str:
     return f"'{value}'"
 
 
+def _not_valid(value: Any) -> str:
+    """``'x' is not valid``; for a number in quotes (hours_per_fte = "450"), that it is text:
+    TOML reads it as a string, and "'450' is not valid" left the quotes unsaid (a sweep)."""
+    if isinstance(value, str) and re.fullmatch(r"[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?",
+                                               value.strip()):
+        return f'"{value}" is text in quotes, not a number (remove the quotes)'
+    return f"{_shown(value)} is not valid"
+
+
 def _period_text(entry: Mapping[str, Any], key: str) -> str | None:
     """An explicit period's name or year as text (a year may be the integer 2027); None if
     missing or blank (a workbook's periods sheet gives a blank cell as "")."""
@@ -134,12 +143,12 @@ def read_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
     periods_per_year = horizon.get("periods_per_year", 4)
     if not _whole(periods_per_year) or periods_per_year < 1:
         bad("horizon.periods_per_year",
-            f"{_shown(periods_per_year)} is not valid; expected a whole number >= 1")
+            f"{_not_valid(periods_per_year)}; expected a whole number >= 1")
         periods_per_year = 4
     periods_per_year = int(periods_per_year)
     default_hours = horizon.get("hours_per_fte")
     if default_hours is not None and (not is_finite_number(default_hours) or default_hours <= 0):
-        bad("horizon.hours_per_fte", f"{_shown(default_hours)} is not valid; expected a number > 0")
+        bad("horizon.hours_per_fte", f"{_not_valid(default_hours)}; expected a number > 0")
         default_hours = None
     periods: list[Period] = []
     listed = horizon.get("periods")
@@ -171,7 +180,7 @@ def read_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
                     bad(f"{key}.{part}", f"{found}; expected {expected}")
             hours = entry.get("hours_per_fte", default_hours)
             if "hours_per_fte" in entry and (not is_finite_number(hours) or hours <= 0):
-                bad(key + ".hours_per_fte", f"{_shown(hours)} is not valid; expected a number > 0")
+                bad(key + ".hours_per_fte", f"{_not_valid(hours)}; expected a number > 0")
                 hours = None
             elif hours is None and "hours_per_fte" not in horizon:  # a bad default: said once
                 bad(key + ".hours_per_fte", "is missing and horizon.hours_per_fte gives no "
@@ -193,7 +202,7 @@ def read_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
                 "spreadsheet reads 2027-01-01 typed in a cell as a date)")
         if not _whole(count) or not 1 <= count <= MAX_PERIODS:
             bad("horizon.count", f"is missing; expected a whole number from 1 to {MAX_PERIODS}"
-                if count is None else f"{_shown(count)} is not valid; expected a whole number "
+                if count is None else f"{_not_valid(count)}; expected a whole number "
                 f"from 1 to {MAX_PERIODS}")
         if match is None or not _whole(count) or not 1 <= count <= MAX_PERIODS:
             return (), periods_per_year
@@ -235,7 +244,7 @@ def read_sections(settings: Mapping[str, Any], problems: list[Problem]) -> tuple
         if not ok:
             what = range_words(low, high, integer=integer)
             problems.append(Problem("settings.toml", None, f"{sec}.{key}",
-                                    f"{_shown(value)} is not valid; expected {what}"))
+                                    f"{_not_valid(value)}; expected {what}"))
             return default
         return int(value) if integer else value
 

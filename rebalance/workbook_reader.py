@@ -17,7 +17,7 @@ import posixpath
 import re
 import tomllib
 import zipfile
-from collections.abc import Iterable, Mapping
+from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
@@ -43,6 +43,8 @@ SETTINGS_SHEET = "settings"
 PERIODS_SHEET = "periods"
 PERIOD_COLUMNS = ("name", "year", "hours_per_fte")
 _NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
+# Columns that hold period names, by sheet: text, never a date.
+_PERIOD_CELLS = {"demand": ("period",), "staff": ("last_period",), PERIODS_SHEET: ("name",)}
 _PERIOD_KEY = re.compile(r"^horizon\.periods\[(\d+)\](?:\.(\w+))?$")
 
 
@@ -98,7 +100,8 @@ def read_workbook(path: str | Path) -> Instance:
                                     "wrote the workbook, open and save it in a spreadsheet "
                                     "program"))
     # Read as blank, a merged-away cell would mean "no limit" or a default: an error, said
-    # once in place of what the blank would otherwise raise.
+    # once in place of what the blank would otherwise raise.  So is a date where a period
+    # name is expected (below).
     merged: dict[tuple[str, int | None, str | None], str] = {}
     for name, read in sheets.items():
         for row, column, cells in read.merged_away:
@@ -106,6 +109,9 @@ def read_workbook(path: str | Path) -> Instance:
                               "merged; unmerge them and fill each cell")
             problems.append(problem)
             merged[(problem.file, row, column)] = problem.message
+    for problem in _dates_for_periods(sheets, label):
+        problems.append(problem)
+        merged[(problem.file, problem.row, problem.column)] = problem.message
     tables: dict[str, RawTable] = {}
     for name in REQUIRED_TABLES + OPTIONAL_TABLES:
         sheet = sheets.get(name)
@@ -395,6 +401,27 @@ def _sheet(header: list[str], values: list[tuple[Any, ...]],
     return _Sheet(tuple(header), tuple(rows), tuple(values[1:]), tuple(overlong),
                   tuple(unnamed), tuple(unsaved),
                   tuple(_merged_away(header, values, merges, used)))
+
+
+def _dates_for_periods(sheets: Mapping[str, _Sheet],
+                       label: Callable[[str], str]) -> list[Problem]:
+    """Errors for date cells where a period name is expected (a sweep: they had read as
+    "unknown period '2027-01-01T00:00:00'", or in the periods sheet named every period so)."""
+    out = []
+    for name, columns in _PERIOD_CELLS.items():
+        sheet = sheets.get(name, _Sheet((), (), ()))
+        at = [(i, c) for i, c in enumerate(sheet.columns) if c.strip().lower() in columns]
+        for number, cells in enumerate(sheet.raw_rows, 2):
+            for i, column in at:
+                value = cells[i] if i < len(cells) else None
+                if isinstance(value, dt.datetime | dt.date):
+                    day = value.date() if isinstance(value, dt.datetime) else value
+                    shown = _text(value if value != dt.datetime.combine(day, dt.time()) else day)
+                    out.append(Problem(label(name), number, column, (
+                        f"the cell holds a date ({shown}), not a period name; type the "
+                        f"period name as text, e.g. {day.year}-Q{(day.month - 1) // 3 + 1} (a "
+                        "spreadsheet reads 2027-01-01 typed in a cell as a date)")))
+    return out
 
 
 def _text(value: Any) -> str:

@@ -497,3 +497,19 @@ def test_every_option_of_every_command_says_what_it_is():
             for action in parser._actions
             if not isinstance(action, argparse._HelpAction) and not action.help]
     assert bare == []
+
+
+def test_a_time_limit_too_short_for_its_parts_is_said_so_with_one_that_fits() -> None:
+    # Sweep (3,000 people, --time-limit 1): "of the 1 s limit, 0.76 s went to starting and
+    # reading the instance and 2.80 s were kept for writing", parts over the whole.  Common
+    # practice: the shares of a whole add up to it, or the message says they cannot.
+    from rebalance.cli import _limit_shares
+
+    assert _limit_shares(1.0, 0.76, 2.80, 0.5) == (
+        "the 1 s limit is shorter than starting and reading the instance took (0.76 s) plus "
+        "the time kept for writing the plan's files (2.80 s) and the least time the model is "
+        "given to build and solve (0.50 s), 4.06 s in all; --time-limit 5 would leave the "
+        "model 1 s")
+    assert _limit_shares(60.0, 0.76, 2.80, 56.44) == (
+        "of the 60 s limit, 0.76 s went to starting and reading the instance, 2.80 s were "
+        "kept for writing the plan's files and 56.44 s were left to build and solve the model")

@@ -168,7 +168,8 @@ def test_an_old_plan_of_another_instance_lists_a_bounded_number_of_problems(
     assert not out.exists()
     # Each line names its file in its folder, as a plan folder's other problems do (they had
     # read "details.csv:2: ..." with the folder only in the first line).
-    assert lines[1] == f"  {plan_dir / 'details.csv'}:2: person 'xa1' is not in the instance"
+    assert lines[1] == (f"  {plan_dir / 'details.csv'}:2: person 'xa1' is not in the instance; "
+                        "expected a person of staff.csv")
     assert all(line.startswith(f"  {plan_dir}{'/'}") for line in lines[1:-1])
 
 
@@ -209,3 +210,23 @@ def test_report_lists_a_few_violations_whole(plan_dir, capsys):
     assert main(["report", str(plan_dir), "--instance", TINY]) == EXIT_VERIFICATION_FAILED
     assert capsys.readouterr().err.splitlines() == every
     assert len(every) <= 1 + VIOLATIONS_SHOWN
+
+
+def test_replan_refuses_an_old_plan_that_verify_finds_contradicting_itself(plan_dir, tmp_path,
+                                                                          capsys):
+    # Sweep: a details.csv row pasted twice failed `verify` (exit 6, "two details in one
+    # period") while `replan` exited 0, counting the old plan double in replan.csv.  Common
+    # practice: one input, one verdict on it; the re-plan refuses it as invalid input.
+    path = plan_dir / "details.csv"
+    lines = path.read_text().splitlines()
+    path.write_text("\n".join([*lines, lines[1]]) + "\n")
+    assert main(["verify", TINY, str(plan_dir)]) == EXIT_VERIFICATION_FAILED
+    capsys.readouterr()
+    out = tmp_path / "replanned"
+    assert main(["replan", TINY, "--from", str(plan_dir), "--at", "2027-Q3", "-o", str(out),
+                 "--quiet"]) == EXIT_INVALID_INPUT
+    assert capsys.readouterr().err.splitlines() == [
+        f"{plan_dir}: the old plan cannot be carried forward; nothing was written",
+        f"  {path}: person a1 in 2027-Q2: two details in one period; expected one detail per "
+        "person and period (a person is in one place in a period): keep one of the rows"]
+    assert not out.exists()

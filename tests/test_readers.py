@@ -544,3 +544,18 @@ def test_weighted_mode_with_free_shortfall_is_a_warning(tmp_path):
                             "objective prices money only") for w in read_instance(target).warnings)
     settings.write_text(settings.read_text().replace("shortfall_cost = 0", "shortfall_cost = 1"))
     assert not any("shortfall_cost" in w for w in read_instance(target).warnings)
+
+
+def test_a_number_in_quotes_is_said_to_be_text(tmp_path):
+    # Sweep: hours_per_fte = "450" read "'450' is not valid; expected a number > 0", the
+    # quotes unsaid.  TOML 1.0 (toml.io, "String"): anything in quotes is a string.
+    target = overlay(BAD / "empty_demand", tmp_path / "i")
+    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    settings = target / "settings.toml"
+    text = settings.read_text().replace("hours_per_fte = 480", 'hours_per_fte = "450"')
+    settings.write_text(text.replace("max_away_share = 0.5", 'max_away_share = "0.5"'))
+    assert _problems(target) == [
+        'settings.toml: horizon.hours_per_fte: "450" is text in quotes, not a number (remove '
+        'the quotes); expected a number > 0',
+        'settings.toml: policy.max_away_share: "0.5" is text in quotes, not a number (remove '
+        'the quotes); expected a number from 0 to 1']

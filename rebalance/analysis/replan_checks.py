@@ -3,13 +3,14 @@
 A re-plan carries the old plan's past into the model as it happened: details, reassignments
 and work before the re-plan period, and hires whose recruitment has begun.  Whatever of it the
 data now rule out, names someone or some period the data do not know, or contradicts the
-old plan itself (a detail leaving from somewhere other than the home then) is refused here,
-each refusal naming the file and the data, rather than dropped, clipped or left to come back
-as an infeasible model.
+old plan itself (a detail leaving from somewhere other than the home then, two details of one
+person in one period, a hire row twice) is refused here, each refusal naming the file and the
+data, rather than dropped, clipped, counted double or left to come back as an infeasible model.
 """
 
 from __future__ import annotations
 
+import re
 from collections import defaultdict
 from collections.abc import Callable
 from pathlib import Path
@@ -18,7 +19,17 @@ from rebalance.analysis.limits import hire_rows
 from rebalance.instance import Instance, Person
 from rebalance.numbers import figures
 from rebalance.plan import Plan
-from rebalance.verify import unknown_names
+from rebalance.verify import unknown_names, verify_plan
+
+# The verifier's rules on a plan's own consistency, with the table each is about and what is
+# expected instead: they hold whatever data the plan is read against, unlike its coverage and
+# budget figures, which an old plan made under a scenario fails legitimately (docs/analysis.md).
+SELF_CONTRADICTIONS = {
+    "one_detail": ("details", "expected one detail per person and period (a person is in one "
+                              "place in a period): keep one of the rows"),
+    "one_reassignment": ("reassignments", "expected at most one reassignment per person"),
+    "work_repeated": ("work", "expected one row per person, period, office and skill"),
+}
 
 
 class ReplanError(ValueError):
@@ -28,6 +39,9 @@ class ReplanError(ValueError):
         super().__init__("; ".join(problems))
         self.problems = problems
 
+
+# Names listed in an "expected ..." before the rest are left to the file.
+NAMES_SHOWN = 8
 
 # (line in work.csv, period index, office, skill, fte) of one person's work before `at`.
 PastWork = tuple[int, int, str, str, float]
@@ -45,10 +59,18 @@ def _checked_past(instance: Instance, old: Plan, at: int, folder: str | Path | N
     unknown = unknown_names(instance, old, folder)
     if unknown:  # an old plan of another instance, or one edited by hand
         # As read_plan's problems read: file:row: what is wrong (input, not a broken rule).
-        raise ReplanError([f"{v.where}: {v.message}" for v in unknown])
+        raise ReplanError([f"{v.where}: {v.message}{_expected(instance, v.message)}"
+                           for v in unknown])
 
     def file(table: str) -> str:
         return f"{table}.csv" if folder is None else str(Path(folder) / f"{table}.csv")
+
+    # An old plan that contradicts itself (a row pasted twice, say) is said first and alone:
+    # the checks below read one detail per person and period, and the re-plan had carried
+    # such a plan forward, counting it double in replan.csv (sweep).
+    contradictions = _self_contradictions(instance, old, file)
+    if contradictions:
+        raise ReplanError(contradictions)
 
     names = instance.period_names
     ix = {name: t for t, name in enumerate(names)}
@@ -88,6 +110,47 @@ def _checked_past(instance: Instance, old: Plan, at: int, folder: str | Path | N
     if problems:
         raise ReplanError(problems)
     return details, moves, past_work
+
+
+def _expected(instance: Instance, message: str) -> str:
+    """``; expected ...`` for a verifier message saying a name of the old plan is not in the
+    instance ("period '2028-Q2' is not in the instance"); "" for any other message."""
+    found = (re.match(r"(\w+) '", message)
+             or re.search(r"whose (\w+) is not in the instance", message))
+    column = found.group(1) if found else ""
+    names = instance.period_names
+    if column in ("period", "start_period"):
+        return f"; expected a period of the instance's horizon ({names[0]} to {names[-1]})"
+    if column == "person":
+        return "; expected a person of staff.csv"
+    if column in ("office", "from_office", "to_office"):
+        what, table, listed = "an office", "offices.csv", [o.name for o in instance.offices]
+    elif column == "skill":
+        what, table, listed = "a skill", "skills.csv", [k.name for k in instance.skills]
+    else:
+        return ""
+    more = ", ..." if len(listed) > NAMES_SHOWN else ""
+    return f"; expected {what} of {table} ({', '.join(listed[:NAMES_SHOWN])}{more})"
+
+
+def _self_contradictions(instance: Instance, old: Plan,
+                         file: Callable[[str], str]) -> list[str]:
+    """Where the old plan contradicts itself, whatever the data: the verifier's rules of
+    :data:`SELF_CONTRADICTIONS`, and a hire row repeated (the plan writes one per office,
+    skill, start period and funding; a second counts the hires twice)."""
+    problems = [f"{file(SELF_CONTRADICTIONS[v.rule][0])}: {v.where}: {v.message}; "
+                f"{SELF_CONTRADICTIONS[v.rule][1]}"
+                for v in verify_plan(instance, old) if v.rule in SELF_CONTRADICTIONS]
+    first: dict[tuple[str, str, str, str], int] = {}
+    for line, h in enumerate(hire_rows(old), 2):
+        key = (h.office, h.skill, h.start_period, h.funding)
+        if key in first:
+            problems.append(
+                f"{file('hires')}:{line}: {h.skill} at {h.office} from {h.start_period} "
+                f"({h.funding}) is listed again (first at line {first[key]}); expected one row "
+                "per office, skill, start period and funding, with the count of hires")
+        first.setdefault(key, line)
+    return problems
 
 
 def _past_work(old: Plan, ix: dict[str, int], at: int) -> dict[str, list[PastWork]]:

@@ -107,10 +107,18 @@ def _names(raw: Any, known: Sequence[str], what: str, where: str,
            problems: list[Problem], file: str) -> tuple[str, ...] | None:
     if raw is None:
         return None
-    if isinstance(raw, str):
+    if isinstance(raw, str | int | float) and not isinstance(raw, bool):
         raw = [raw]
     if not isinstance(raw, list) or not all(isinstance(v, str) for v in raw) or not raw:
-        problems.append(Problem(file, None, where, f"expected a list of {what} names"))
+        # A name that looks like a number, unquoted (years = [2027]), is a TOML number: say
+        # so, as "expected a list of names" alone left the number looking right (a sweep).
+        numbers = [f"{v:g}" if isinstance(v, float) else str(v) for v in
+                   (raw if isinstance(raw, list) else []) if isinstance(v, int | float)
+                   and not isinstance(v, bool)]
+        hint = "" if not numbers else (
+            f": {', '.join(numbers)} {'is a number' if len(numbers) == 1 else 'are numbers'}; "
+            f'names are text in quotes ("{numbers[0]}")')
+        problems.append(Problem(file, None, where, f"expected a list of {what} names{hint}"))
         return None
     unknown = [v for v in raw if v not in known]
     if unknown:

@@ -172,6 +172,7 @@ def estimate_standards(history: History, quality: QualityResult) -> EffortStanda
                              h_sum[oi, ci, si] / n if n > 0 else np.nan, pooled[ci, si],
                              n / (n + k), shrunk[oi, ci, si], lower[oi, ci, si],
                              upper[oi, ci, si], basis))
+    notes += _case_types_without_hours(history, case_types, pooled, offered)
     table = pd.DataFrame(rows, columns=["case_type", "skill", "office", "cases", "hours",
                                         "office_hours_per_case", "pooled_hours_per_case",
                                         "weight", "hours_per_case", "lower", "upper", "basis"])
@@ -186,6 +187,28 @@ def estimate_standards(history: History, quality: QualityResult) -> EffortStanda
     noncase = (nc.groupby(["office", "skill", "activity", "month"])["hours"].sum()
                .reset_index())
     return EffortStandards(table, noncase, window, tuple(notes), office_months)
+
+
+def _case_types_without_hours(history: History, case_types: list[str], pooled: np.ndarray,
+                              offered: np.ndarray) -> list[str]:
+    """Notes for case types with arrivals and time records but no hours counted: they have
+    no standard, so no row, and add no demand.  (With no records at all, the demand's own
+    warning says so; with records of 0 hours each the case type had vanished silently, a
+    sweep.)"""
+    records = history.records
+    notes = []
+    for ci, c in enumerate(case_types):
+        booked = records.loc[records["activity"] == c, "hours"]
+        if offered[:, ci].sum() <= 0 or not len(booked) or (pooled[ci] > 0).any():
+            continue
+        if float(booked.sum()) == 0:
+            said = (f"no hours booked to it (its {len(booked):,} time record(s) all book 0 "
+                    "hours)")
+        else:
+            said = (f"none of the {float(booked.sum()):,.0f} hours booked to it counts (none "
+                    "is in a kept time record of a month with arrivals)")
+        notes.append(f"case type '{c}' has arrivals but {said}; it adds no demand")
+    return notes
 
 
 def _month_coverage(quality: QualityResult) -> tuple[dict[tuple[str, int], float],

@@ -600,3 +600,56 @@ def test_no_reported_bound_is_above_its_plan_on_a_replan_highs_misjudged(
     assert cost.objective == pytest.approx(reference.fun, rel=1e-6)
     assert cost.objective == pytest.approx(
         out.result.plan.total_cost + out.disruption_cost, rel=1e-9)
+
+
+def test_an_old_plan_that_contradicts_itself_is_refused(tiny) -> None:
+    # Sweep: a details.csv row pasted twice made `verify` fail ("two details in one period")
+    # while `replan` went on and counted the old plan double in replan.csv.  A plan is one
+    # row per detail period, per reassignment and per hire column (rebalance.plan): common
+    # practice for a record of decisions, checked whatever the data now say.
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    old = base.plan
+    details = pd.concat([old.details, old.details.iloc[[0]]], ignore_index=True)
+    hires = pd.concat([old.hires, old.hires.iloc[[0]]], ignore_index=True)
+    moves = pd.DataFrame([["a2", "2027-Q2", "A", "B", 0.0], ["a2", "2027-Q4", "A", "B", 0.0]],
+                         columns=old.reassignments.columns)
+    with pytest.raises(ReplanError) as refused:
+        replan(tiny, replace(old, details=details, hires=hires, reassignments=moves), 2,
+               exact_options(tiny))
+    assert refused.value.problems == [
+        "reassignments.csv: person a2 in 2027-Q4: more than one reassignment; expected at "
+        "most one reassignment per person",
+        "details.csv: person a1 in 2027-Q2: two details in one period; expected one detail "
+        "per person and period (a person is in one place in a period): keep one of the rows",
+        "hires.csv:3: review at B from 2027-Q4 (new) is listed again (first at line 2); "
+        "expected one row per office, skill, start period and funding, with the count of "
+        "hires"]
+
+
+def test_an_old_plan_of_a_scenario_is_not_refused_for_its_figures(tiny) -> None:
+    # docs/analysis.md: an old plan made under a scenario fails the current data's coverage
+    # and cost figures legitimately; only its own contradictions are refused.
+    surge = Scenario("late", "", (DemandChange(("B",), ("review",), (2, 3), 1.5),))
+    then = apply_scenario(tiny, surge)
+    base = solve_verified(then)
+    assert base.plan is not None
+    out = replan(tiny, base.plan, 2, exact_options(tiny))
+    assert out.result.verified
+
+
+def test_an_unknown_name_in_the_old_plan_says_what_is_expected(tiny) -> None:
+    # Sweep: "details.csv:5: period '2028-Q2' is not in the instance" said nothing of what
+    # is expected instead; common practice for an input error: name the allowed values.
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    details = base.plan.details.copy()
+    details.loc[0, "period"] = "2031-Q2"
+    details.loc[1, "to_office"] = "Z"
+    with pytest.raises(ReplanError) as refused:
+        replan(tiny, replace(base.plan, details=details), 2, exact_options(tiny))
+    assert refused.value.problems == [
+        "details.csv:2: period '2031-Q2' is not in the instance (did you mean '2027-Q2'?); "
+        "expected a period of the instance's horizon (2027-Q1 to 2027-Q4)",
+        "details.csv:3: to_office 'Z' is not in the instance; expected an office of "
+        "offices.csv (A, B)"]

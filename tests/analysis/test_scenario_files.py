@@ -223,3 +223,19 @@ def test_a_misspelt_key_or_name_gets_the_close_one(tmp_path: Path, tiny) -> None
                for t in text), text
     assert any("demand[1].multipler: unknown key" in t
                and t.endswith("(did you mean 'multiplier'?)") for t in text), text
+
+
+def test_a_name_written_as_a_number_says_to_quote_it(tmp_path: Path, tiny) -> None:
+    # Sweep: offices = [2027] read "expected a list of office names", with the number looking
+    # right.  TOML 1.0 (toml.io, "Integer" and "String"): 2027 unquoted is an integer, a
+    # name is a string in quotes.
+    path = write(tmp_path, "n", 'name = "n"\n[[demand]]\noffices = [2027]\nmultiplier = 2\n'
+                 '[[budget]]\nyears = [2027, 2028.5]\nhiring_add = 1000\n')
+    assert problems(path, tiny) == [
+        f'{path}: demand[1].offices: expected a list of office names: 2027 is a number; '
+        'names are text in quotes ("2027")',
+        f'{path}: budget[1].years: expected a list of budget year names: 2027, 2028.5 are '
+        'numbers; names are text in quotes ("2027")']
+    path = write(tmp_path, "t", 'name = "t"\n[[demand]]\noffices = [true]\nmultiplier = 2\n')
+    assert problems(path, tiny) == [f"{path}: demand[1].offices: expected a list of office "
+                                    "names"]

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -87,3 +89,20 @@ def test_noncase_hours_follow_their_trend() -> None:
     big = out[out["office"] == "big"].set_index("month")["hours"]
     assert big[START + 4] == pytest.approx(18.0)
     assert big[START + 5] == pytest.approx(20.0)
+
+
+def test_a_case_type_whose_records_book_no_hours_is_said() -> None:
+    # Sweep: with every time record of a case type at 0 hours, the case type left the
+    # standards (and the demand) without a word, while deleting those records warned "has
+    # arrivals but no hours booked to it".  Common practice: dropping input is said.
+    history = _history()
+    records = history.records.copy()
+    records.loc[records["activity"] == "permit", "hours"] = 0.0
+    # The timesheets then book only their training hours, as expected.
+    booked = records.groupby(["person", "period"], as_index=False)["hours"].sum()
+    history = replace(history, records=records,
+                      expected=booked.rename(columns={"hours": "expected_hours"}))
+    standards = estimate_standards(history, check_quality(history))
+    assert not len(standards.table)
+    assert standards.notes == ("case type 'permit' has arrivals but no hours booked to it "
+                               "(its 8 time record(s) all book 0 hours); it adds no demand",)

@@ -574,3 +574,46 @@ def test_a_misspelt_sheet_or_settings_key_is_said_with_the_name_it_is_close_to(t
     assert any(w.startswith(f"tiny.xlsx[settings]:{row}: key: unknown key "
                             "'policy.max_away_shares', ignored") and
                w.endswith("(did you mean 'policy.max_away_share'?)") for w in warnings), warnings
+
+
+def test_a_date_where_a_period_name_is_expected_is_one_problem_with_the_hint(tmp_path):
+    # Sweep: a date in the demand sheet's period column read "unknown period
+    # '2027-01-01T00:00:00'", without the hint horizon.start gives; dates in the periods
+    # sheet were taken as names, every output period then '2027-01-01T00:00:00'.  (A
+    # spreadsheet program reads 2027-01-01 typed in a cell as a date: the openpyxl and
+    # LibreOffice Calc documentation of cell types.)
+    import datetime
+
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    wb["demand"]["C2"] = datetime.datetime(2027, 1, 1)
+    wb.save(book)
+    with pytest.raises(InstanceError) as caught:
+        read_workbook(book)
+    assert [str(p) for p in caught.value.problems if not p.is_warning] == [
+        "tiny.xlsx[demand]:2: period: the cell holds a date (2027-01-01), not a "
+        "period name; type the period name as text, e.g. 2027-Q1 (a spreadsheet reads "
+        "2027-01-01 typed in a cell as a date)"]
+
+    book = folder_to_workbook(TINY, tmp_path / "named.xlsx")
+    wb = load_workbook(book)
+    for row in list(wb["settings"].iter_rows(min_row=2)):
+        if row[0].value in ("horizon.start", "horizon.count"):
+            row[0].value = row[1].value = None
+    periods = wb.create_sheet("periods")
+    periods.append(["name", "year", "hours_per_fte"])
+    for month in (1, 4, 7, 10):
+        periods.append([datetime.datetime(2027, month, 1), 2027, 480])
+    for sheet in ("demand", "staff"):
+        for row in wb[sheet].iter_rows(min_row=2):
+            for cell in row:
+                if isinstance(cell.value, str) and cell.value.startswith("2027-Q"):
+                    month = 3 * int(cell.value[-1]) - 2
+                    cell.value = f"2027-{month:02d}-01T00:00:00"
+    wb.save(book)
+    with pytest.raises(InstanceError) as caught:
+        read_workbook(book)
+    said = [(p.file, p.row, p.column, p.message.split(";")[0]) for p in caught.value.problems
+            if not p.is_warning]
+    assert said == [("named.xlsx[periods]", row, "name", f"the cell holds a date (2027-"
+                     f"{3 * row - 5:02d}-01), not a period name") for row in (2, 3, 4, 5)]

@@ -13,7 +13,6 @@ from __future__ import annotations
 import csv
 import datetime as dt
 import math
-import posixpath
 import re
 import tomllib
 import zipfile
@@ -36,6 +35,7 @@ from rebalance.readers import (
 )
 from rebalance.settings_reader import SETTINGS_KEYS
 from rebalance.tables import RawTable
+from rebalance.workbook_layout import Layout, sheet_layout, sheet_parts
 
 __all__ = ["SETTINGS_KEYS", "folder_to_workbook", "read_workbook"]
 
@@ -61,15 +61,6 @@ class _Sheet:
     unsaved_formulas: tuple[tuple[int, str], ...] = ()
     # (row, column, range) of cells a merge left empty, a value showing over them.
     merged_away: tuple[tuple[int, str, str], ...] = ()
-
-
-@dataclass(frozen=True)
-class _Layout:
-    """What read-only mode does not show of a sheet: hidden rows and columns, merges."""
-
-    hidden_rows: tuple[int, ...] = ()
-    hidden_columns: tuple[tuple[int, int], ...] = ()  # (first, last) spans, 1-based
-    merges: tuple[CellRange, ...] = ()
 
 
 def read_workbook(path: str | Path) -> Instance:
@@ -166,7 +157,7 @@ def _load_sheets(path: Path) -> tuple[dict[str, _Sheet], list[Problem]]:
     archive = zipfile.ZipFile(path)
     problems: list[Problem] = []
     try:
-        parts = _sheet_parts(archive)
+        parts = sheet_parts(archive)
         out: dict[str, _Sheet] = {}
         for ws, ws_text in zip(wb.worksheets, formulas.worksheets, strict=True):
             # The part of the first sheet of this title not yet taken (a file may repeat one).
@@ -188,7 +179,7 @@ def _load_sheets(path: Path) -> tuple[dict[str, _Sheet], list[Problem]]:
                                         "the same, as every sheet is", is_warning=True))
             values = [tuple(r) for r in ws.iter_rows(values_only=True)]
             used = _used_columns(key)
-            layout = _layout(archive, part) if used and part else _Layout()
+            layout = sheet_layout(archive, part) if used and part else Layout()
             shown = [r for r in layout.hidden_rows if r <= len(values)
                      and any(_text(c) for c in values[r - 1])]
             if shown:
@@ -255,65 +246,6 @@ def _used_columns(key: str) -> frozenset[str]:
     if key == PERIODS_SHEET:
         return frozenset(PERIOD_COLUMNS)
     return frozenset()
-
-
-def _sheet_parts(archive: zipfile.ZipFile) -> list[tuple[str, str]]:
-    """(title, zip member) of each sheet, in the workbook's order: the workbook part is the
-    one ``[Content_Types].xml`` declares, as openpyxl finds it; its relationships name each
-    sheet's part, relative to its folder or, with a leading ``/``, to the package (ECMA-376
-    Part 2, 9.3)."""
-    from openpyxl.xml.constants import XLSM, XLSX, XLTM, XLTX
-    from openpyxl.xml.functions import fromstring
-
-    book = "xl/workbook.xml"
-    for item in fromstring(archive.read("[Content_Types].xml")):
-        if item.get("ContentType") in (XLSX, XLSM, XLTX, XLTM) and item.get("PartName"):
-            book = item.get("PartName", "").lstrip("/")
-            break
-    folder, name = posixpath.split(book)
-    targets = {}
-    rels = posixpath.join(folder, "_rels", f"{name}.rels")
-    if rels in archive.namelist():
-        for rel in fromstring(archive.read(rels)):
-            target = rel.get("Target", "")
-            if rel.get("TargetMode") != "External" and rel.get("Id"):
-                targets[rel.get("Id")] = target[1:] if target.startswith("/") else (
-                    posixpath.normpath(posixpath.join(folder, target)))
-    relation = "{http://schemas.openxmlformats.org/officeDocument/2006/relationships}id"
-    return [(sheet.get("name", ""), targets[sheet.get(relation, "")])
-            for sheet in fromstring(archive.read(book)).iter()
-            if sheet.tag.rpartition("}")[2] == "sheet" and sheet.get(relation) in targets]
-
-
-def _layout(archive: zipfile.ZipFile, part: str) -> _Layout:
-    """The hidden rows and columns and the merged ranges of the sheet stored at ``part``.
-
-    Read-only mode shows none of them, and a full load of the book would cost far more than
-    the two passes that read it; one more pass over the sheet's XML, keeping no cells, is cheap.
-    """
-    from openpyxl.xml.functions import iterparse
-
-    hidden: list[int] = []
-    columns: list[tuple[int, int]] = []
-    merges: list[CellRange] = []
-    row = 0
-    with archive.open(part) as source:
-        for _, element in iterparse(source):
-            tag = element.tag.rpartition("}")[2]
-            if tag == "row":
-                # r may be left out: the row after the one before (ECMA-376, CT_Row).
-                row = int(element.get("r") or row + 1)
-                if element.get("hidden") in ("1", "true"):
-                    hidden.append(row)
-                element.clear()
-            elif tag == "col" and element.get("hidden") in ("1", "true"):
-                # One element spans columns min to max (ECMA-376 Part 1, 18.3.1.13 col).
-                first, last = element.get("min", ""), element.get("max", "")
-                if first.isdigit() and last.isdigit():
-                    columns.append((int(first), int(last)))
-            elif tag == "mergeCell" and element.get("ref"):
-                merges.append(CellRange(element.get("ref")))
-    return _Layout(tuple(hidden), tuple(columns), tuple(merges))
 
 
 def _filled_columns(spans: Iterable[tuple[int, int]],

@@ -150,9 +150,10 @@ def cmd_compare(args: argparse.Namespace) -> int:
         return EXIT_INVALID_INPUT
     comparison = compare_scenarios(instance, scenarios, _analysis_options(instance, args),
                                    workers=args.workers)
-    columns = [c for c in ("scenario", "status", "verified", "gap", "weighted_shortfall",
-                           "total_cost", "hires", "detail_periods", "reassignments",
-                           "actions_differing") if c in comparison.table.columns]
+    columns = [c for c in ("scenario", "status", "verified", "gap", "shortfall_gap",
+                           "weighted_shortfall", "total_cost", "hires", "detail_periods",
+                           "reassignments", "actions_differing")
+               if c in comparison.table.columns]
     print(format_frame(comparison.table[columns], instance.money.currency))
     _say_gaps(comparison.table)
     # The base must have a plan; a scenario without one is an answer (under that surge the
@@ -294,7 +295,7 @@ def cmd_frontier(args: argparse.Namespace) -> int:
     frontier = budget_frontier(instance, grid, _analysis_options(instance, args),
                                workers=args.workers)
     shown = frontier.table[["point", "hiring_budget", "moves_budget", "status", "gap",
-                            "weighted_shortfall", "total_cost", "knee"]]
+                            "shortfall_gap", "weighted_shortfall", "total_cost", "knee"]]
     print(format_frame(shown, instance.money.currency))
     print(f"\nhiring_budget and moves_budget: {frontier.table['budget_unit'].iloc[0]}; an "
           "empty moves_budget keeps the instance's caps")

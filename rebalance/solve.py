@@ -70,6 +70,12 @@ class SolveResult:
         gaps = [s.gap for s in self.stages if s.gap is not None]
         return max(gaps) if gaps else None
 
+    @property
+    def shortfall_gap(self) -> float | None:
+        """The shortfall stage's gap (None in weighted mode): how far a plan's shortfall may
+        be from the least, where :attr:`gap`, the largest, is mostly the cost stage's."""
+        return next((s.gap for s in self.stages if s.name == "shortfall"), None)
+
 
 def solve(model: Model, options: SolveOptions, instance: Instance | None = None) -> SolveResult:
     """Solve ``model`` lexicographically (or weighted) within one overall time limit.

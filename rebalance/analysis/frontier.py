@@ -26,8 +26,8 @@ __all__ = ["FRONTIER_COLUMNS", "BudgetGrid", "Frontier", "budget_frontier", "fin
 
 FRONTIER_COLUMNS = (
     "point", "hiring_budget", "moves_budget", "budget_unit", "status", "verified", "gap",
-    "weighted_shortfall", "shortfall_fte_periods", "total_cost", "hiring_spend", "moves_spend",
-    "hires", "detail_periods", "reassignments", "knee",
+    "shortfall_gap", "weighted_shortfall", "shortfall_fte_periods", "total_cost", "hiring_spend",
+    "moves_spend", "hires", "detail_periods", "reassignments", "knee",
 )
 
 
@@ -166,6 +166,7 @@ def budget_frontier(instance: Instance, grid: BudgetGrid, options: SolveOptions,
             # The grid's values are money only without the x: say which, beside them.
             "budget_unit": FACTOR_UNIT if grid.as_factor else AMOUNT_UNIT,
             "status": result.status.value, "verified": result.verified, "gap": result.solve.gap,
+            "shortfall_gap": result.solve.shortfall_gap,
         }
         if plan is not None:
             kinds = plan.cost_by_kind()

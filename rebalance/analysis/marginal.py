@@ -41,7 +41,8 @@ FEASIBILITY_TOLERANCE = 1e-6
 
 MARGINAL_COLUMNS = (
     "rank", "limit", "where", "current", "step", "unit", "binding_rows", "shortfall_reduction",
-    "cost_change", "estimate_shortfall_reduction", "status", "verified", "gap", "method",
+    "cost_change", "estimate_shortfall_reduction", "status", "verified", "gap", "shortfall_gap",
+    "method",
 )
 
 
@@ -504,7 +505,9 @@ def marginal_values(base: PlanResult, options: SolveOptions, steps: Steps = Step
                         "method": f"{estimate}; not re-solved"})
         else:
             row.update({"status": result.status.value, "verified": result.verified,
-                        "gap": _gap(base, result)})
+                        "gap": _gap(base, result),
+                        "shortfall_gap": _larger(base.solve.shortfall_gap,
+                                                 result.solve.shortfall_gap)})
             if result.plan is not None and plan is not None and result.verified:
                 reduction = plan.weighted_shortfall - result.plan.weighted_shortfall
                 # Within the shortfall tolerance both hold the same least shortfall: no change.
@@ -576,5 +579,9 @@ def _shortfall_noise(before: float, after: float, options: SolveOptions) -> floa
 
 def _gap(base: PlanResult, result: PlanResult) -> float | None:
     """The larger of the two solves' gaps: the difference is exact only when both are 0."""
-    gaps = [g for g in (base.solve.gap, result.solve.gap) if g is not None]
+    return _larger(base.solve.gap, result.solve.gap)
+
+
+def _larger(a: float | None, b: float | None) -> float | None:
+    gaps = [g for g in (a, b) if g is not None]
     return max(gaps) if gaps else None

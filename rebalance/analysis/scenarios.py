@@ -514,6 +514,7 @@ def _row(name: str, result: PlanResult, instance: Instance, differing: int) -> d
         "status": result.status.value,
         "verified": result.verified,
         "gap": result.solve.gap,
+        "shortfall_gap": result.solve.shortfall_gap,
         "demand_fte_periods": sum(d.fte for d in instance.demand),
     }
     if plan is None:

@@ -36,3 +36,19 @@ def test_the_console_carries_the_same_warning_in_plain_words(capsys) -> None:
     assert printed == caution
     _say_gaps(pd.DataFrame({"scenario": ["base"], "gap": [0.0]}))
     assert capsys.readouterr().out == ""
+
+
+def test_shortfall_is_held_to_its_own_stages_gap_not_the_cost_stages() -> None:
+    # A practitioner's reading of a budget frontier: the note gave 5.59% (the cost stage's
+    # gap) as the noise on shortfall, so a real gain of 2.8 of 165.8 FTE-periods read as
+    # noise; the shortfall stage had stopped within about 0.5%.
+    from rebalance.report.analysis_view import gap_caution
+
+    frame = pd.DataFrame({"point": [1, 2], "gap": [0.0559, 0.0412],
+                          "shortfall_gap": [0.0048, 0.0051],
+                          "weighted_shortfall": [168.6, 165.8]})
+    caution = gap_caution(frame)
+    assert "up to 0.51% on shortfall" in caution and "5.59% on cost" in caution
+    # Weighted mode has no shortfall stage: the one gap is said as before.
+    weighted = frame.assign(shortfall_gap=None)
+    assert "up to 5.59% (the gap column)" in gap_caution(weighted)

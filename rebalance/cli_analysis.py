@@ -323,6 +323,10 @@ def cmd_frontier(args: argparse.Namespace) -> int:
         # A folder it made is an analysis folder: a plan or analysis may join it later.
         mark_folder(out, "plan")
     print(f"\nwrote {path}")
+    from rebalance.planning import CAUTION
+
+    # Each point is a plan a leader may read a budget decision off: the same caution.
+    print("\nCaution: " + CAUTION)
     if planless and len(planless) == len(frontier.results):
         _err(f"no budget point gave a plan ({_counted(planless)}); {path} lists each "
              "point's status")

@@ -103,6 +103,7 @@ def test_frontier_and_marginal(tmp_path: Path) -> None:
     frontier = pd.read_csv(out / "frontier.csv")
     assert list(frontier.columns) == list(FRONTIER_COLUMNS) and len(frontier) == 6
     assert frontier["verified"].all()
+    assert "Caution:" in done.stdout  # as every command that shows plans (a reading found none)
     done = run("marginal", str(TINY), "-o", str(out), "--gap", "0", "-q")
     assert done.returncode == 0, done.stderr
     marginal = pd.read_csv(out / "marginal_values.csv")

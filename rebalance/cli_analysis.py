@@ -135,6 +135,7 @@ def cmd_compare(args: argparse.Namespace) -> int:
     )
     from rebalance.plan import write_plan
     from rebalance.planning import summary_dict
+    from rebalance.report.analysis_view import scenario_lines
 
     instance = _load(args.instance)
     if instance is None:
@@ -155,6 +156,8 @@ def cmd_compare(args: argparse.Namespace) -> int:
                            "reassignments", "actions_differing")
                if c in comparison.table.columns]
     print(format_frame(comparison.table[columns], instance.money.currency))
+    for line in scenario_lines(comparison.table, instance.money.currency):
+        print(f"\n{line}")
     _say_gaps(comparison.table)
     # The base must have a plan; a scenario without one is an answer (under that surge the
     # limits conflict, or no plan came in time), listed with its reason, and the others'

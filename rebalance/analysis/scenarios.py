@@ -507,10 +507,16 @@ def plan_actions(plan: Plan) -> dict[tuple[str, str, str, str, str], float]:
     return out
 
 
-def _row(name: str, result: PlanResult, instance: Instance, differing: int) -> dict[str, Any]:
+# The base's description in scenarios.csv, beside each scenario's own.
+BASE_DESCRIPTION = "the instance as it is"
+
+
+def _row(name: str, description: str, result: PlanResult, instance: Instance,
+         differing: int) -> dict[str, Any]:
     plan = result.plan
     row: dict[str, Any] = {
         "scenario": name,
+        "description": description,
         "status": result.status.value,
         "verified": result.verified,
         "gap": result.solve.gap,
@@ -544,6 +550,7 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
     if len(set(names)) != len(names):
         raise ValueError("scenario names must differ from each other and from 'base'")
     results = solve_many(variants, options, workers)
+    descriptions = {"base": BASE_DESCRIPTION, **{s.name: s.description for s in scenarios}}
     base_plan = results[0].plan
     base_actions = plan_actions(base_plan) if base_plan is not None else {}
     rows = []
@@ -563,7 +570,7 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
             for year, kind, cost in zip(c["year"].astype(str), c["kind"].astype(str),
                                         c["cost"].astype(float), strict=True):
                 cost_rows.append((name, year, kind, cost))
-        rows.append(_row(name, result, variant, differing))
+        rows.append(_row(name, descriptions[name], result, variant, differing))
     table = pd.DataFrame(rows)
     costs = pd.DataFrame(cost_rows, columns=["scenario", "year", "kind", "cost"])
     actions_frame = pd.DataFrame(action_rows, columns=list(ACTION_COLUMNS))

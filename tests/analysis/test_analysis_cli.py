@@ -35,6 +35,9 @@ def test_compare_and_replan(tmp_path: Path) -> None:
     done = run("compare", str(TINY), "--scenario", str(scenario), "-o", str(out), "--gap", "0")
     assert done.returncode == 0, done.stderr
     assert "b-surge" in done.stdout and "Caution" in done.stdout
+    # What the scenario is and did, said (a practitioner's reading worked it out by hand):
+    # by hand from demand.csv, B's review demand of 2.0 and 1.0 in 2027-Q3/Q4 times 1.5.
+    assert "b-surge: no description; against the base: demand +1.5 FTE-periods" in done.stdout
     table = pd.read_csv(out / "scenarios.csv")
     assert table["scenario"].tolist() == ["base", "b-surge"]
     assert table["verified"].all()

@@ -23,7 +23,15 @@ from rebalance.numbers import (
     with_currency,
 )
 from rebalance.planning import BUILD_STAGE, CAUTION, PlanResult
-from rebalance.report.words import outcome_words
+from rebalance.report.limits_view import (
+    LIMITS_LEAD,
+    LIMITS_TITLE,
+    limits_at_cap,
+    plan_run_rate,
+    run_rate_note,
+    run_rate_warning,
+)
+from rebalance.report.words import outcome_words, plain_status
 from rebalance.solve import StageResult, Status
 from rebalance.verify import Violation
 
@@ -141,6 +149,7 @@ def format_summary(result: PlanResult) -> str:
             f"  detail periods       {len(plan.details)} "
             f"({plan.details['person'].nunique()} people)",
             f"  reassignments        {len(plan.reassignments)}",
+            *_run_rate_lines(result),
             "",
         ]
         costs = plan.costs.groupby(["year", "kind"])["cost"].sum().to_dict()
@@ -166,6 +175,7 @@ def format_summary(result: PlanResult) -> str:
         if len(short):
             lines += ["", "  shortfall by office (FTE-periods): " + ", ".join(
                 f"{office} {fte_total_text(value)}" for office, value in short.items())]
+        lines += ["", *_limit_lines(result)]
         lines += ["", f"  independent verification: {_verdict(result)}"]
         lines += [f"    - {v}" for v in result.violations[:20]]
         lines += ["", "  Caution: " + CAUTION]
@@ -173,6 +183,35 @@ def format_summary(result: PlanResult) -> str:
         # The caution is about a plan; with none, what a reader needs is that nothing moved.
         lines += ["", "  No plan: nothing was written."]
     return "\n".join(lines)
+
+
+def _run_rate_lines(result: PlanResult) -> list[str]:
+    """The new positions' salaries a year after the horizon, as the page's card has them,
+    against the last hiring cap, with a warning where they alone take more than it."""
+    if result.plan is None:
+        return []
+    currency = result.instance.money.currency
+    rate = plan_run_rate(result.instance, result.plan)
+    if rate.positions == 0:
+        return ["  yearly salaries      none committed after the horizon (no new positions)"]
+    note = run_rate_note(rate, currency)
+    lines = [f"  yearly salaries      {money_amount(rate.per_year, currency)} every year after "
+             f"{rate.horizon_end} ({counted(rate.positions, 'new position')}; not in total "
+             "cost)" + (f", {note}" if note else "")]
+    warning = run_rate_warning(rate, currency)
+    return [*lines, f"  warning: {warning}"] if warning else lines
+
+
+def _limit_lines(result: PlanResult) -> list[str]:
+    """:data:`LIMITS_TITLE` and one line per kind of limit at its cap."""
+    if result.plan is None:
+        return []
+    found = limits_at_cap(result.instance, result.plan)
+    if not found:
+        return [f"  {LIMITS_TITLE}: none is at its cap"]
+    width = max(len(line.words) for line in found)
+    return [f"  {LIMITS_TITLE}: {LIMITS_LEAD[0]}", f"  {LIMITS_LEAD[1]}:"] + [
+        f"    {line.words.ljust(width)}  {line.text}" for line in found]
 
 
 def format_outcome(result: PlanResult, *, replan: bool = False) -> str:
@@ -317,6 +356,8 @@ def format_frame(frame: pd.DataFrame, currency: str | None = None) -> str:
         if isinstance(value, int | float | np.integer | np.floating):
             return cell_text(float(value), column, measure, currency,
                              decimals=decimals[column])
+        if column == "status":
+            return plain_status(value)  # the words of the page, not the CSV's code
         return str(value)
 
     named = measure_names(frame)

@@ -7,8 +7,9 @@ browser test can tell a blank page from a finished one.
 
 Python's part is aggregation only: sums of plan tables by office, period and skill, worked
 out in :mod:`rebalance.report.chart_data` (``new_position_salaries`` and ``spare_capacity``
-are re-exported here for callers that imported them from this module).  The plan itself is
-never recomputed here.
+are re-exported here for callers that imported them from this module); which limits the plan
+has at their cap, and the salaries after the horizon against the last hiring cap, come from
+:mod:`rebalance.report.limits_view`.  The plan itself is never recomputed here.
 """
 
 from __future__ import annotations
@@ -46,6 +47,16 @@ from rebalance.report.htmlparts import (
     table_html,
 )
 from rebalance.report.inputs import ReportData, StageSummary, quality_notes
+from rebalance.report.limits_view import (
+    LIMITS_LEAD,
+    LIMITS_TITLE,
+    LimitLine,
+    limits_at_cap,
+    run_rate,
+    run_rate_consequence,
+    run_rate_note,
+    run_rate_warning,
+)
 from rebalance.report.words import outcome_words
 
 __all__ = ["new_position_salaries", "render_html", "spare_capacity", "write_html"]
@@ -110,8 +121,10 @@ def _headline(data: ReportData) -> str:
                       f"{most['office']} ({fte_total_text(float(most['both']))})")
     else:
         spare_note = "FTE-periods: none to speak of"
-    commitment = new_position_salaries(data)
-    yearly = float(commitment["per_year"].sum()) if len(commitment) else 0.0
+    rate = run_rate(data)
+    share_note = run_rate_note(rate, money_unit.currency)
+    # Above the cap the share moves into the warning under the note (said once, not twice).
+    warning = (f"{share_note}: {run_rate_consequence(rate)}." if rate.above_cap else "")
     cards = [
         # Headline totals as the console's summary and the workbook's write them.
         card("Weighted shortfall", fte_total_text(plan.weighted_shortfall),
@@ -122,10 +135,13 @@ def _headline(data: ReportData) -> str:
         card("Idle capacity", fte_total_text(spare_total), spare_note),
         # Money in full, as everywhere else: "2.46M" beside "2,463,500" read as two figures.
         card("New money", money_amount(plan.total_cost, money_unit.currency), money_note),
-        card("Salaries after the horizon", money_amount(yearly, money_unit.currency),
+        card("Salaries after the horizon", money_amount(rate.per_year, money_unit.currency),
              f"a year, every year after {data.instance.periods[-1].name}, for the "
-             f"{hires_new:,} new position{'' if hires_new == 1 else 's'}; not in new money",
-             "warn" if yearly > 0 else ""),
+             f"{hires_new:,} new position{'' if hires_new == 1 else 's'}; not in new money"
+             + (f"; {share_note}" if share_note and not warning else ""),
+             "warn" if rate.per_year > 0 else "",
+             more=f'<p class="card-note"><strong>Warning:</strong> {e(warning)}</p>'
+             if warning else ""),
         card("Hires", f"{plan.hires_count():,}",
               f"{hires_new:,} new positions, {plan.hires_count() - hires_new:,} into vacancies"),
         card("Details", f"{len(plan.details):,}", f"person-periods away, {people:,} people"),
@@ -135,7 +151,50 @@ def _headline(data: ReportData) -> str:
     return '<div class="cards">' + "".join(cards) + "</div>"
 
 
-def _spare_table(data: ReportData) -> str:
+def _limits_html(found: tuple[LimitLine, ...]) -> str:
+    """The limits the plan has at their cap, one item per kind (the console's lines)."""
+    if not found:
+        return (f"<h3>{e(LIMITS_TITLE)}</h3>"
+                '<p class="quiet">None of the plan\'s limits is at its cap.</p>')
+    lead = (e(LIMITS_LEAD[0][:1].upper() + LIMITS_LEAD[0][1:]) + " "
+            + e(LIMITS_LEAD[1][:1].upper() + LIMITS_LEAD[1][1:]).replace(
+                "`rebalance marginal`", "<code>rebalance marginal</code>") + ".")
+    items = "".join(f"<li><strong>{e(line.words)}:</strong> {e(line.text)}</li>"
+                    for line in found)
+    return (f'<h3 id="limits">{e(LIMITS_TITLE)}</h3><p class="lead">{lead}</p>'
+            f'<ul class="limits">{items}</ul>')
+
+
+# Limits that hold people where they are (what can keep idle capacity from moving).
+_MOVING_LIMITS = {"seats": "seats full at {}", "away_share": "share away at its cap at {}",
+                  "moves_budget": "the moves budget in {}",
+                  "details_in_a_row": "details in a row for {}"}
+
+
+def _idle_limits(found: tuple[LimitLine, ...]) -> str:
+    """What may keep idle capacity where it is, named from the limits at their cap."""
+    named = []
+    for line in found:
+        words = _MOVING_LIMITS.get(line.kind)
+        if words is None:
+            continue
+        places = list(dict.fromkeys(where for where, _ in line.at_cap))
+        if line.kind == "details_in_a_row":
+            count = len(places)
+            named.append(words.format(f"{count:,} {'person' if count == 1 else 'people'}"))
+        else:
+            named.append(words.format(", ".join(places)))
+    if not named:
+        return ("No limit on moving people (seats, share away, details in a row, moves "
+                "budget) is at its cap in this plan: who may move, and skills the offices "
+                "short of work do not need, keep it where it is.")
+    return ("Of the limits on moving people, these are at their cap in this plan (listed "
+            "under At a glance) and may be what keeps it where it is: " + "; ".join(named)
+            + ". Beyond them, who may move and skills the offices short of work do not need "
+            "keep it there.")
+
+
+def _spare_table(data: ReportData, found: tuple[LimitLine, ...]) -> str:
     spare = spare_capacity(data)
     if spare.empty:
         return ""
@@ -152,9 +211,8 @@ def _spare_table(data: ReportData) -> str:
             "office and skill (output beyond demand), and time of people there that the plan "
             "gives no work (their "
             "skills are not wanted there then, or the demand is met), summed over the horizon, "
-            "in FTE-periods: neither covers anything in this plan. Rules on details (share "
-            "away, consecutive periods), skills and move costs may be what keeps it where it "
-            "is.</p>"
+            "in FTE-periods: neither covers anything in this plan. "
+            + e(_idle_limits(found)) + "</p>"
             + table_html(["office", "demand", "output", "shortfall", "output beyond demand",
                           "share of output", "time with no work", "skills with most spare"],
                          rows, name="spare",
@@ -235,6 +293,7 @@ def render_html(data: ReportData) -> str:
                 f" &middot; {len(inst.offices)} offices in {locations} locations &middot; "
                 f"{len(inst.staff):,} staff &middot; {len(inst.skills)} skills")
     sections = []
+    found = limits_at_cap(inst, plan)
     nav = [("glance", "At a glance"), ("capacity", "Work and capacity"),
            ("gaps", "Where the gaps are"), ("moves", "Who moves where"),
            ("hiring", "Hiring"), ("money", "Money"), *extra.nav, ("run", "How it was found")]
@@ -242,14 +301,15 @@ def render_html(data: ReportData) -> str:
         "glance", "At a glance",
         "The plan's headline figures. A <em>FTE-period</em> is one full-time person for one "
         "period; weighted shortfall multiplies each uncovered FTE-period by its priority.",
-        _headline(data)))
+        _headline(data) + _limits_html(found)))
     sections.append(section(
         "capacity", "Work and capacity",
         "Demand (dark line) against what current staff cover (blue) and what new hires add "
         "(green), summed over skills. Red is demand left uncovered; the pale band above the line, "
         "dashed on top, is output beyond demand, which covers nothing (part of the idle "
         "capacity below).",
-        chart("coverage", "Demand against covered work per office") + _spare_table(data)))
+        chart("coverage", "Demand against covered work per office")
+        + _spare_table(data, found)))
     sections.append(section(
         "gaps", "Where the gaps are",
         "Uncovered FTE by office and period; darker is a larger gap. Hover a cell for the "
@@ -355,12 +415,19 @@ def _commitments(data: ReportData) -> str:
     positions = int(table["positions"].sum())
     rows = [[r["skill"], int(r["positions"]), _m(r["salary_per_period"]), _m(r["per_year"])]
             for r in records(table)]
+    rate = run_rate(data)
+    share_note, warning = (run_rate_note(rate, inst.money.currency),
+                           run_rate_warning(rate, inst.money.currency))
+    beside = (f" That is {e(share_note)}, the last hiring cap set." if share_note else "")
+    beside += (f'</p><p class="note"><strong>Warning:</strong> {e(warning)}.'
+               if warning else "")
     return (f"<h3>Committed beyond the horizon</h3><p class=\"lead\">The {positions:,} new "
             f"position{'' if positions == 1 else 's'} this plan creates keep being paid after "
             f"{e(inst.periods[-1].name)}: <strong>{e(per_year)} a year"
             "</strong> in salaries "
             f"(positions &times; salary per period &times; {inst.periods_per_year} periods a "
-            "year), on top of the new money above, which stops at the horizon's end.</p>"
+            "year), on top of the new money above, which stops at the horizon's end."
+            f"{beside}</p>"
             + table_html(["skill", "new positions", inst.money.header("salary per period"),
                           inst.money.header("salary a year")],
                          rows, name="commitments", numeric=[False, True, True, True],

@@ -32,6 +32,7 @@ from rebalance.numbers import (
     has_decimals,
     is_gap,
     is_money,
+    money_amount,
     money_text,
     seconds_text,
 )
@@ -40,7 +41,14 @@ from rebalance.report.chart_data import new_position_salaries, spare_capacity
 from rebalance.report.console import budget_note, cell_text, measure_names
 from rebalance.report.htmlparts import stage_words
 from rebalance.report.inputs import ReportData, quality_notes
-from rebalance.report.words import outcome_words
+from rebalance.report.limits_view import (
+    LIMITS_LEAD,
+    LIMITS_TITLE,
+    limits_at_cap,
+    run_rate,
+    run_rate_warning,
+)
+from rebalance.report.words import outcome_words, plain_status
 
 __all__ = ["write_workbook"]
 
@@ -320,6 +328,9 @@ def _table_sheet(ws: Any, styles: _Styles, frame: pd.DataFrame,
         if column == "year":
             values[j] = [_year_cell(v, numeric_years) for v in values[j]]
             formats[j] = None  # a year as 2027, not 2,027
+        elif column == "status":
+            # The words of the page and the console; the CSV file keeps the code.
+            values[j] = [plain_status(v) if isinstance(v, str) else v for v in values[j]]
     write = ws.write
     if any(isinstance(f, list) for f in formats):
         for i, row in enumerate(zip(*values, strict=True), 1):
@@ -393,6 +404,14 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
          f"every year after the horizon ({instance.periods[-1].name}), not in new money: "
          f"{positions} new positions x salary per period x {instance.periods_per_year} "
          "periods a year")
+    rate = run_rate(data)
+    if rate.cap and rate.per_year > 0:
+        # The share as the console and the page write it sits beside the cell's.
+        line(f"as a share of {rate.cap_year}'s hiring cap", rate.per_year / rate.cap, SHARE,
+             f"of {money_amount(rate.cap, instance.money.currency)}, the last hiring cap set")
+    warning = run_rate_warning(rate, instance.money.currency)
+    if warning:
+        ws.write_string(next(rows), 0, f"Warning: {warning}.", styles.warning)
     spare = spare_capacity(data)
     beyond = float(spare["spare_fte"].sum()) if len(spare) else 0.0
     no_work = float(spare["unassigned_fte"].sum()) if len(spare) else 0.0
@@ -407,6 +426,15 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
     line("detail periods", len(plan.details), WHOLE,
          f"{plan.details['person'].nunique()} people" if len(plan.details) else "")
     line("reassignments", len(plan.reassignments), WHOLE)
+
+    band(LIMITS_TITLE)
+    found = limits_at_cap(instance, plan)
+    # The console's backticks mark a command to type; a cell has no such marks.
+    ws.write_string(next(rows), 0, " ".join(
+        text[:1].upper() + text[1:] for text in LIMITS_LEAD).replace("`", "") + "." if found else
+        "None of the plan's limits is at its cap.")
+    for limit in found:
+        line(limit.words, limit.text)
 
     band("Spending against budget")
     header_row = next(rows)

@@ -44,3 +44,27 @@ def test_the_console_and_the_page_write_numbers_by_one_rule():
     assert cells == ["0", "123", "50.00%", "1,235", "2", "0.00%", "0", "0", "1.00%"]
     # The rule's decimals serve every surface (the console's tables had kept two of their own).
     assert number_text(165.945102, digits=2) == "165.95" and number_text(165.945102) == "165.945"
+
+
+def test_a_status_reads_in_the_words_of_the_page_on_the_console_and_in_the_workbook(
+        tmp_path) -> None:
+    # A practitioner's reading: compare's, marginal's and frontier's consoles and the
+    # workbook's analysis sheets said "feasible_with_gap" where the page says "plan found,
+    # not proven optimal" (the CSV files keep the code).
+    from openpyxl import load_workbook
+
+    from rebalance.report.workbook import _Styles, _table_sheet
+
+    frame = pd.DataFrame({"scenario": ["base", "surge", "slow"],
+                          "status": ["optimal", "feasible_with_gap", "not re-solved"]})
+    text = format_frame(frame)
+    assert "plan found, not proven optimal" in text and "feasible_with_gap" not in text
+    assert "not re-solved" in text
+    import xlsxwriter
+
+    path = tmp_path / "t.xlsx"
+    book = xlsxwriter.Workbook(str(path))
+    _table_sheet(book.add_worksheet("scenarios"), _Styles(book), frame)
+    book.close()
+    cells = [r[1] for r in load_workbook(path)["scenarios"].iter_rows(values_only=True)]
+    assert cells == ["status", "optimal", "plan found, not proven optimal", "not re-solved"]

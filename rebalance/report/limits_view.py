@@ -1,0 +1,220 @@
+"""What a planner defending a plan needs said beside its figures: which limits it runs up
+against, and what its new positions cost every year once the horizon ends.
+
+Both come from the plan's tables and the instance alone.  Which limits are at their cap is
+:func:`rebalance.analysis.limits.limit_use`'s answer (the one ``rebalance marginal`` and the
+reasons stand on), so the summary can never name a limit those call slack; only the rule on
+details in a row is counted here, as neither that module nor the verifier (whose check only
+flags an overrun, inside its private checker) exposes how close a plan comes to it.  The
+salaries are :func:`rebalance.report.chart_data.new_position_salaries`, the page's figure.
+"""
+
+from __future__ import annotations
+
+from collections import defaultdict
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+from rebalance.analysis.limits import LimitUse, limit_use
+from rebalance.instance import Instance
+from rebalance.numbers import money_amount, money_text, number_text, share_text
+from rebalance.plan import Plan
+from rebalance.report.chart_data import new_position_salaries
+from rebalance.report.inputs import ReportData, RunSummary
+
+__all__ = ["LIMITS_LEAD", "LIMITS_TITLE", "LimitLine", "RunRate", "limits_at_cap",
+           "period_spans", "plan_run_rate", "run_rate", "run_rate_consequence", "run_rate_note",
+           "run_rate_warning"]
+
+LIMITS_TITLE = "Limits the plan runs up against"
+# What a limit at its cap means for the plan, and where to learn what one more would buy:
+# two sentences, which the console writes on two lines.
+LIMITS_LEAD = ("each is at its cap, so more of it could help.",
+               "`rebalance marginal` says what one more of each would buy")
+# Names of people listed on a line before the rest are counted.
+NAMES_LISTED = 3
+
+# Kinds of limit in the order they are listed, with the words a planner uses for each;
+# limit_use's other kind (time to hire) binds in every early period by definition, so it
+# says nothing about this plan.
+KIND_WORDS = (("seats", "seats full"),
+              ("hiring_budget", "hiring budget"),
+              ("moves_budget", "moves budget"),
+              ("max_hires", "most hires a period"),
+              ("vacancies", "funded vacancies"),
+              ("away_share", "share away"),
+              ("details_in_a_row", "details in a row"))
+
+
+@dataclass(frozen=True)
+class LimitLine:
+    """One kind of limit at its cap: ``words`` name it, ``text`` says where and when, and
+    ``at_cap`` lists each (where, period) at its cap (period "" for a whole-horizon limit,
+    a budget year's name for a budget)."""
+
+    kind: str
+    words: str
+    text: str
+    at_cap: tuple[tuple[str, str], ...]
+
+
+def period_spans(indices: Sequence[int], names: Sequence[str]) -> str:
+    """Periods (``indices`` into ``names``) compactly: "all 8 periods", "2027-Q3 to 2028-Q2
+    (4 periods)", "2027-Q2", runs joined by commas."""
+    ix = sorted(set(indices))
+    if len(ix) == len(names) and len(names) > 1:
+        return f"all {len(names)} periods"
+    runs: list[list[int]] = []
+    for t in ix:
+        if runs and runs[-1][-1] == t - 1:
+            runs[-1].append(t)
+        else:
+            runs.append([t])
+    text = ", ".join(names[r[0]] if len(r) == 1 else f"{names[r[0]]} to {names[r[-1]]}"
+                     for r in runs)
+    return text if len(ix) == 1 else f"{text} ({len(ix)} periods)"
+
+
+def _by_office(uses: Sequence[LimitUse], instance: Instance) -> str:
+    """Offices with the periods each is at its cap; offices with the same periods share one
+    entry, the most periods first."""
+    names = instance.period_names
+    ix = {name: t for t, name in enumerate(names)}
+    periods: dict[str, list[int]] = defaultdict(list)
+    for use in uses:
+        periods[use.where].append(ix[use.period])
+    order = {o.name: i for i, o in enumerate(instance.offices)}
+    groups: dict[tuple[int, ...], list[str]] = defaultdict(list)
+    for office in sorted(periods, key=lambda o: order.get(o, len(order))):
+        groups[tuple(sorted(periods[office]))].append(office)
+    ranked = sorted(groups.items(), key=lambda g: -len(g[0]))
+    return "; ".join(f"{_and(offices)} {period_spans(list(key), names)}"
+                     for key, offices in ranked)
+
+
+def _and(words: Sequence[str]) -> str:
+    return words[0] if len(words) == 1 else ", ".join(words[:-1]) + " and " + words[-1]
+
+
+def _budget_text(uses: Sequence[LimitUse], currency: str | None, action: str) -> str:
+    return "; ".join(f"{u.where} {money_text(u.used)} of {money_amount(u.cap, currency)} used"
+                     for u in uses) + f" (too little left for one more {action})"
+
+
+def _details_in_a_row(instance: Instance, plan: Plan) -> tuple[str, ...]:
+    """People whose details fill as many of some run of consecutive periods as the rule
+    allows (policy ``max_consecutive_detail_periods`` m: at most m of any m + 1 periods,
+    the windows the verifier checks), so no further detail fits there."""
+    m = instance.policy.max_consecutive_detail_periods
+    T = len(instance.periods)
+    if not m or m >= T:
+        return ()
+    ix = {name: t for t, name in enumerate(instance.period_names)}
+    away: dict[str, set[int]] = defaultdict(set)
+    for person, period in zip(plan.details["person"].astype(str),
+                              plan.details["period"].astype(str), strict=True):
+        away[person].add(ix[period])
+    return tuple(person for person, periods in away.items()
+                 if any(len(periods & set(range(start, start + m + 1))) >= m
+                        for start in range(0, T - m)))
+
+
+def limits_at_cap(instance: Instance, plan: Plan) -> tuple[LimitLine, ...]:
+    """Each kind of limit that ``plan`` has at its cap somewhere, in :data:`KIND_WORDS`'s
+    order.  A limit counts where it binds (less is left than one more seat, hire, head away,
+    vacancy or priced action) and the plan uses some of it: a cap of nothing (an office that
+    may not hire, a share letting no one of a small office go) is a rule the plan was given,
+    not one it ran up against."""
+    kinds: dict[str, list[LimitUse]] = defaultdict(list)
+    for use in limit_use(instance, plan):
+        if use.binding and use.used > 0:
+            kinds[use.limit].append(use)
+    currency = instance.money.currency
+    out = []
+    for kind, words in KIND_WORDS:
+        uses = kinds.get(kind, [])
+        if kind == "details_in_a_row":
+            people = _details_in_a_row(instance, plan)
+            if people:
+                m = instance.policy.max_consecutive_detail_periods or 0  # set: some found
+                listed = ", ".join(people[:NAMES_LISTED]) + (
+                    f" and {len(people) - NAMES_LISTED} more" if len(people) > NAMES_LISTED
+                    else "")
+                text = (f"{len(people)} {'person' if len(people) == 1 else 'people'} away "
+                        f"the most allowed ({m} of any {m + 1} periods): {listed}")
+                out.append(LimitLine(kind, words, text, tuple((p, "") for p in people)))
+            continue
+        if not uses:
+            continue
+        if kind in ("seats", "max_hires", "away_share"):
+            text = _by_office(uses, instance)
+        elif kind == "hiring_budget":
+            text = _budget_text(uses, currency, "hire")
+        elif kind == "moves_budget":
+            text = _budget_text(uses, currency, "detail")
+        else:  # vacancies: "skill at office", funded over the whole horizon
+            text = "all of them used (" + ", ".join(
+                f"{u.where} {number_text(u.cap)}" for u in uses) + ")"
+        out.append(LimitLine(kind, words, text, tuple((u.where, u.period) for u in uses)))
+    return tuple(out)
+
+
+@dataclass(frozen=True)
+class RunRate:
+    """What the plan's new positions cost in salaries every year after the horizon
+    (``per_year``), beside the hiring cap of the last budget year that sets one
+    (``cap_year``, ``cap``; None where none does): that cap is the nearest guide to the
+    hiring money of the year after, which these salaries come out of first."""
+
+    per_year: float
+    positions: int
+    horizon_end: str
+    cap_year: str | None
+    cap: float | None
+
+    @property
+    def above_cap(self) -> bool:
+        """The salaries alone take more than the whole cap (money to the cent)."""
+        return self.cap is not None and round(self.per_year, 2) > round(self.cap, 2)
+
+
+def run_rate(data: ReportData) -> RunRate:
+    """The page's figure (:func:`new_position_salaries`) beside the last hiring cap."""
+    table = new_position_salaries(data)
+    per_year = float(table["per_year"].sum()) if len(table) else 0.0
+    positions = int(table["positions"].sum()) if len(table) else 0
+    instance = data.instance
+    cap_year, cap = None, None
+    for year in instance.years:
+        budget = instance.budget(year)
+        if budget is not None and budget.hiring is not None:
+            cap_year, cap = year, budget.hiring
+    return RunRate(per_year, positions, instance.periods[-1].name, cap_year, cap)
+
+
+def plan_run_rate(instance: Instance, plan: Plan) -> RunRate:
+    """:func:`run_rate` of a plan fresh from a solve (no run summary is read)."""
+    return run_rate(ReportData(instance, plan, RunSummary.from_dict({})))
+
+
+def run_rate_note(rate: RunRate, currency: str | None) -> str:
+    """"100.6% of 2028's hiring cap (1,400,000)", or "" with no cap or no salaries."""
+    if rate.cap is None or rate.per_year <= 0:
+        return ""
+    cap = money_amount(rate.cap, currency)
+    if rate.cap <= 0:
+        return f"more than {rate.cap_year}'s hiring cap ({cap})"
+    return f"{share_text(rate.per_year, rate.cap)} of {rate.cap_year}'s hiring cap ({cap})"
+
+
+def run_rate_warning(rate: RunRate, currency: str | None) -> str:
+    """A warning where the salaries take more than the last hiring cap, else ""."""
+    if not rate.above_cap:
+        return ""
+    return (f"the new positions' salaries ({money_amount(rate.per_year, currency)} a year) "
+            f"are {run_rate_note(rate, currency)}: {run_rate_consequence(rate)}")
+
+
+def run_rate_consequence(rate: RunRate) -> str:
+    """What salaries above the last hiring cap mean for the year after the horizon."""
+    return f"hiring money like {rate.cap_year}'s is used up on them before a single new hire"

@@ -1,0 +1,176 @@
+"""Which limits a plan runs up against, and its new positions' salaries after the horizon
+against the last hiring cap, on the console, the page and the workbook.
+
+A practitioner's reading of the demo found that a plain plan never said its seats were full
+(though ``rebalance marginal`` ranked seats as the best lever) and never set the salaries of
+its new positions beside the hiring cap they would come out of.  Every expected figure below
+is a hand count from the instance files, named beside its check.
+"""
+
+from __future__ import annotations
+
+import html
+from dataclasses import replace
+from functools import cache
+from pathlib import Path
+
+from conftest import solve_verified
+from openpyxl import load_workbook
+from report_cases import TINY, page_text
+
+from rebalance import read_instance
+from rebalance.instance import Budget
+from rebalance.planning import PlanResult
+from rebalance.report.console import format_summary
+from rebalance.report.html import render_html
+from rebalance.report.inputs import report_data
+from rebalance.report.limits_view import (
+    LIMITS_TITLE,
+    limits_at_cap,
+    period_spans,
+    plan_run_rate,
+    run_rate_note,
+    run_rate_warning,
+)
+from rebalance.report.workbook import write_workbook
+
+SEATS_SHORT = TINY.parent / "seats_short"
+QUARTERS = ("2027-Q1", "2027-Q2", "2027-Q3", "2027-Q4")
+
+
+@cache
+def _solved(folder: str) -> PlanResult:
+    return solve_verified(read_instance(folder))
+
+
+def _at_cap(result: PlanResult) -> dict[str, set[tuple[str, str]]]:
+    assert result.plan is not None
+    return {line.kind: set(line.at_cap) for line in limits_at_cap(result.instance,
+                                                                   result.plan)}
+
+
+def _page(result: PlanResult) -> str:
+    return html.unescape(page_text(render_html(report_data(result))))
+
+
+def _summary_rows(result: PlanResult, tmp_path: Path) -> dict[str, object]:
+    path = write_workbook(report_data(result), tmp_path / "plan.xlsx")
+    sheet = load_workbook(path)["summary"]
+    return {str(row[0]): row[1] for row in sheet.iter_rows(values_only=True) if row[0]}
+
+
+# -- seats_short: seats bind ---------------------------------------------------------------
+
+
+def test_seats_short_has_seats_full_and_share_away_at_its_cap_at_a_in_every_period():
+    # Hand count from tests/data/seats_short (NOTE.md): A has 2 seats and 5 people in Q1-Q2
+    # (a5 leaves after Q2).  a3 and a4 may not go on detail, and with a share of 0.5 at most
+    # 2 of A's people may be away, so a5 (the only one who may relocate) must be reassigned
+    # in Q1 and a1, a2 detailed in all four quarters: 4 - 2 = 2 seats used of 2, and 2 of 4
+    # away at 0.5 x 4 = 2, in each of 2027-Q1..Q4.  Nothing else is at a cap: max hires and
+    # the hiring cap are 0 (offices.csv, budget.csv: nothing may be used), moves have no cap
+    # (budget.csv), settings.toml sets no limit on details in a row, B has 10 seats.
+    at_cap = _at_cap(_solved(str(SEATS_SHORT)))
+    assert at_cap == {"seats": {("A", q) for q in QUARTERS},
+                      "away_share": {("A", q) for q in QUARTERS}}
+
+
+def test_seats_short_console_page_and_workbook_say_seats_are_full(tmp_path):
+    # Same hand count: seats at A full in all 4 periods of the horizon (settings.toml: count 4).
+    result = _solved(str(SEATS_SHORT))
+    console = format_summary(result)
+    assert LIMITS_TITLE in console
+    assert "    seats full  A all 4 periods" in console
+    assert "    share away  A all 4 periods" in console
+    assert "rebalance marginal" in console
+    page = _page(result)
+    assert "seats full: A all 4 periods" in page
+    assert "seats full at A" in page  # the idle-capacity text names it instead of guessing
+    rows = _summary_rows(result, tmp_path)
+    assert rows["seats full"] == "A all 4 periods"
+    assert rows["share away"] == "A all 4 periods"
+    # No new positions (offices.csv: no office may hire): no salaries, no share, no warning.
+    assert "yearly salaries      none committed after the horizon" in console
+    assert "warning:" not in console
+
+
+# -- tiny -----------------------------------------------------------------------------------
+
+
+def test_tiny_limits_at_their_cap_match_a_hand_count():
+    # Hand count from tests/data/tiny (NOTE.md): B needs 2 reviewers in Q2-Q3 and has b1, so
+    # a1 (review 1.0; a2's 0.8 would leave 0.2 short) is detailed there in Q2 and Q3; b1
+    # leaves after Q3, a1 may not go a third period in a row (max 2), so Q4 takes a2 on
+    # detail (0.8) and one review hire at B starting Q4 (ramp 0.5): a hire from Q3 would
+    # cost 8,000 + 2 x 20,000 = 48,000 > the 40,000 hiring cap.  Then:
+    # - hiring budget 2027: 8,000 + 20,000 = 28,000 of 40,000; the 12,000 left pays for no
+    #   hire (the cheapest, intake from Q4, is 5,000 + 15,000 = 20,000; skills.csv);
+    # - max hires a period at B (1, offices.csv): 1 hire in 2027-Q4;
+    # - share away at A: 1 of a1, a2, a3 away in Q2, Q3, Q4, at most 0.5 x 3 = 1.5;
+    # - details in a row: a1 away Q2 and Q3, 2 of 3 consecutive periods (settings.toml);
+    # - not at a cap: moves 15,000 of 30,000 (a 5,000 detail fits), seats (A 10, B 6).
+    result = _solved(str(TINY))
+    assert _at_cap(result) == {
+        "hiring_budget": {("2027", "")},
+        "max_hires": {("B", "2027-Q4")},
+        "away_share": {("A", q) for q in QUARTERS[1:]},
+        "details_in_a_row": {("a1", "")},
+    }
+    console = format_summary(result)
+    assert "hiring budget        2027 28,000 of 40,000 used (too little left for one more " \
+           "hire)" in console
+    assert "most hires a period  B 2027-Q4" in console
+    assert "share away           A 2027-Q2 to 2027-Q4 (3 periods)" in console
+    assert "details in a row     1 person away the most allowed (2 of any 3 periods): a1" \
+        in console
+    assert "seats full" not in console and "moves budget" not in console
+
+
+def test_tiny_run_rate_against_the_hiring_cap_on_every_surface(tmp_path):
+    # Hand computation from tests/data/tiny: the one new review position (as above) is paid
+    # 20,000 a period (skills.csv) x 4 periods a year (quarters) = 80,000 a year after
+    # 2027-Q4; 2027's hiring cap is 40,000 (budget.csv): 80,000 / 40,000 = 200.0%, above it.
+    result = _solved(str(TINY))
+    assert result.plan is not None
+    rate = plan_run_rate(result.instance, result.plan)
+    assert (rate.per_year, rate.positions, rate.cap_year, rate.cap) == (80_000, 1, "2027",
+                                                                         40_000)
+    assert rate.above_cap
+    note = "200.0% of 2027's hiring cap (40,000)"
+    assert run_rate_note(rate, None) == note
+    console = format_summary(result)
+    assert ("  yearly salaries      80,000 every year after 2027-Q4 (1 new position; not in "
+            f"total cost), {note}") in console
+    warning = ("the new positions' salaries (80,000 a year) are 200.0% of 2027's hiring cap "
+               "(40,000): hiring money like 2027's is used up on them before a single new "
+               "hire")
+    assert f"  warning: {warning}" in console
+    page = _page(result)
+    assert f"Warning: {warning}." in page  # under "Committed beyond the horizon"
+    assert (f"Warning: {note}: hiring money like 2027's is used up on them before a single "
+            "new hire.") in page  # the card, where the note's figures are said once
+    rows = _summary_rows(result, tmp_path)
+    assert rows["as a share of 2027's hiring cap"] == 2.0
+    assert f"Warning: {warning}." in rows
+
+
+def test_a_run_rate_under_the_cap_has_a_share_and_no_warning():
+    # Hand computation: tiny's 80,000 a year (above) against a 2027 hiring cap raised to
+    # 100,000 is 80.0%; the plan is the same tables, only the cap it is set beside moves.
+    result = _solved(str(TINY))
+    assert result.plan is not None
+    richer = result.instance.with_changes(budgets=(Budget("2027", 100_000.0, 30_000.0),))
+    rate = plan_run_rate(richer, result.plan)
+    assert run_rate_note(rate, None) == "80.0% of 2027's hiring cap (100,000)"
+    assert not rate.above_cap and run_rate_warning(rate, None) == ""
+    console = format_summary(replace(result, instance=richer))
+    assert "80.0% of 2027's hiring cap (100,000)" in console and "warning:" not in console
+
+
+def test_periods_are_listed_compactly():
+    # Hand-written cases: every period; one run; runs apart; a single period.
+    names = [f"2027-Q{q}" for q in range(1, 5)] + [f"2028-Q{q}" for q in range(1, 5)]
+    assert period_spans(range(8), names) == "all 8 periods"
+    assert period_spans([2, 3, 4, 5], names) == "2027-Q3 to 2028-Q2 (4 periods)"
+    assert period_spans([0, 2, 3], names) == "2027-Q1, 2027-Q3 to 2027-Q4 (3 periods)"
+    assert period_spans([1], names) == "2027-Q2"

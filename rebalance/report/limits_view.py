@@ -21,6 +21,7 @@ from rebalance.numbers import money_amount, money_text, number_text, share_text
 from rebalance.plan import Plan
 from rebalance.report.chart_data import new_position_salaries
 from rebalance.report.inputs import ReportData, RunSummary
+from rebalance.verify import unknown_names
 
 __all__ = ["LIMITS_LEAD", "LIMITS_TITLE", "LimitLine", "RunRate", "limits_at_cap",
            "period_spans", "plan_run_rate", "run_rate", "run_rate_consequence", "run_rate_note",
@@ -124,7 +125,10 @@ def limits_at_cap(instance: Instance, plan: Plan) -> tuple[LimitLine, ...]:
     order.  A limit counts where it binds (less is left than one more seat, hire, head away,
     vacancy or priced action) and the plan uses some of it: a cap of nothing (an office that
     may not hire, a share letting no one of a small office go) is a rule the plan was given,
-    not one it ran up against."""
+    not one it ran up against.  None for a plan naming what the instance lacks (a plan of
+    another instance, which ``rebalance report`` still draws): its uses cannot be read."""
+    if unknown_names(instance, plan):
+        return ()
     kinds: dict[str, list[LimitUse]] = defaultdict(list)
     for use in limit_use(instance, plan):
         if use.binding and use.used > 0:

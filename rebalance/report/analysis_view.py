@@ -30,7 +30,8 @@ from rebalance.numbers import (
 from rebalance.report.htmlparts import chart, e, frame_table_html, section
 from rebalance.report.inputs import SHEET_ONLY, ReportData
 
-__all__ = ["AnalysisView", "analysis_payload", "find_column", "gap_caution", "step_words"]
+__all__ = ["KNEE_MIN_POINTS", "AnalysisView", "analysis_payload", "find_column", "gap_caution",
+           "scenario_names", "step_words"]
 
 
 @dataclass(frozen=True)
@@ -81,6 +82,10 @@ def _truthy(value: Any) -> bool:
         return False
 
 
+# Fewer budget levels than this mark no knee (see _frontier).
+KNEE_MIN_POINTS = 4
+
+
 def _frontier(frame: pd.DataFrame, currency: str | None = None) -> dict[str, Any] | None:
     """A frontier's points per moves budget; with a ``currency``, the axis and tip names of
     money (the budget, unless the grid was factors of each year's cap, and the cost) say it."""
@@ -113,30 +118,69 @@ def _frontier(frame: pd.DataFrame, currency: str | None = None) -> dict[str, Any
                 ordered[knee_col].tolist() if knee_col else [False] * len(ordered), strict=True):
             if xs is not None and ys is not None:
                 points.append({"x": xs, "y": ys, "cost": cs, "knee": _truthy(ks)})
+        if len(points) < KNEE_MIN_POINTS:
+            # Any three points bend somewhere, so a "knee" among fewer than four says nothing
+            # about where money starts to buy less: none is ringed.
+            for point in points:
+                point["knee"] = False
         if points:
             series.append({"label": label, "points": points})
     if not series:
         return None
     x_label, cost_label = x, cost
+    # budget_unit says "money, each year" or "times each year's cap" (a factor grid); the
+    # axis says which, in money with the currency where one is set.
+    units = (list(dict.fromkeys(frame["budget_unit"].dropna().astype(str)))
+             if "budget_unit" in frame.columns else [])
+    money = not units or all(u.startswith("money") for u in units)
+    if money and currency:
+        x_label = money_header(x, currency)
+    elif len(units) == 1:
+        x_label = f"{x} ({units[0]})"
     if currency:
-        # budget_unit says "money, each year" or "times each year's cap" (a factor grid).
-        units = frame["budget_unit"].astype(str) if "budget_unit" in frame.columns else None
-        if units is None or units.str.startswith("money").all():
-            x_label = money_header(x, currency)
         cost_label = money_header(cost, currency) if cost else None
     return {"x_label": x_label, "y_label": y, "cost_label": cost_label, "series": series}
+
+
+def _frontier_lead(view: dict[str, Any] | None) -> str:
+    """The frontier section's lead: the knee is named only where the chart rings one."""
+    lead = ("What more (or less) budget would buy: the least weighted shortfall found at each "
+            "budget level.")
+    if view is None:
+        return lead
+    if any(p["knee"] for s in view["series"] for p in s["points"]):
+        return lead + " The ringed point is the knee, where extra money starts to buy less."
+    if all(len(s["points"]) < KNEE_MIN_POINTS for s in view["series"]):
+        return lead + (f" No knee is marked: with fewer than {KNEE_MIN_POINTS} budget levels "
+                       "any line bends somewhere, so a bend says little; add levels to find "
+                       "where extra money starts to buy less.")
+    return lead
 
 
 SCENARIO_METRICS = ("weighted_shortfall", "total_cost", "cost", "hires", "detail_periods",
                     "details", "reassignments", "shortfall_fte_periods", "shortfall_fte")
 
 
-def _scenarios(frame: pd.DataFrame, currency: str | None = None) -> dict[str, Any] | None:
+def _scenario_label(frame: pd.DataFrame) -> str | None:
+    """The column naming each scenario (or the first text column)."""
     label = find_column(frame, ("scenario", "name", "label"), ("scenario", "name"),
                         numeric=False)
     if label is None:
         texts = [c for c in frame.columns if not _numeric(frame, c)]
         label = texts[0] if texts else None
+    return label
+
+
+def scenario_names(frame: pd.DataFrame) -> list[str]:
+    """The scenarios a comparison holds, in its order ("base" among them, as written)."""
+    label = _scenario_label(frame)
+    if label is None:
+        return []
+    return list(dict.fromkeys(str(v) for v in frame[label].tolist() if not pd.isna(v)))
+
+
+def _scenarios(frame: pd.DataFrame, currency: str | None = None) -> dict[str, Any] | None:
+    label = _scenario_label(frame)
     if label is None:
         return None
     numeric = [c for c in frame.columns if _numeric(frame, c) and c != label]
@@ -424,8 +468,7 @@ def analysis_payload(data: ReportData) -> AnalysisView:
 
     specs = (
         ("frontier", data.frontier, frontier, "Budget frontier",
-         e("What more (or less) budget would buy: the least weighted shortfall found at each "
-           "budget level. The ringed point is the knee, where extra money starts to buy less."),
+         "",  # _frontier_lead
          "Least weighted shortfall at each budget"),
         ("scenarios", data.scenarios, scenarios, "Scenarios side by side",
          e("Each scenario was solved as its own plan; the bars compare their headline "
@@ -440,7 +483,9 @@ def analysis_payload(data: ReportData) -> AnalysisView:
             continue
         view = reader(frame)
         caption = ""
-        if key == "marginal":
+        if key == "frontier":
+            lead = e(_frontier_lead(view))
+        elif key == "marginal":
             lead, caption = _marginal_words(frame, marginal, currency)
         elif key == "scenarios":
             lines = scenario_lines(frame, currency)
@@ -463,6 +508,10 @@ def analysis_payload(data: ReportData) -> AnalysisView:
         sections.append(section(key, title, lead, body))
         nav.append((key, title))
     tables = [(name, frame) for name, frame in data.tables if name not in SHEET_ONLY]
+    if data.summary.replan is not None:
+        # A re-plan page is about what the re-plan changed: its own tables come before the
+        # long table of reasons (a stable sort keeps each group's order).
+        tables.sort(key=lambda item: item[0] not in ("replan", "changes"))
     # The re-plan's own words go to its first section: the headline table, else the changes.
     replan_home = next((name for name, _ in tables if name in ("replan", "changes")), None)
     for name, frame in tables:

@@ -252,31 +252,77 @@ def _shortfall_table(data: ReportData) -> str:
                       limit=TABLE_ROWS)
 
 
+def _detail_skills(data: ReportData) -> dict[tuple[str, str], list[str]]:
+    """The skills each person worked in each period at the office helped, from the plan's
+    work table (``details.csv`` does not say which skill a detail was for)."""
+    work = data.plan.work
+    if work.empty or "skill" not in work.columns:
+        return {}
+    away = {(str(p), str(t), str(o)) for p, t, o in zip(
+        data.plan.details["person"], data.plan.details["period"],
+        data.plan.details["to_office"], strict=True)}
+    out: dict[tuple[str, str], list[str]] = {}
+    for person, period, office, skill, fte in zip(
+            work["person"], work["period"], work["office"], work["skill"], work["fte"],
+            strict=True):
+        if (str(person), str(period), str(office)) in away and float(fte) > 1e-9:
+            out.setdefault((str(person), str(period)), []).append(str(skill))
+    return out
+
+
 def _detail_runs(data: ReportData) -> list[list[Any]]:
-    """Consecutive detail periods of one person to one office, as one row."""
+    """Consecutive detail periods of one person to one office, as one row: person, home
+    office, office helped, skills worked there, first and last period, periods, cost."""
     index = {p: i for i, p in enumerate(data.instance.period_names)}
     runs: list[list[Any]] = []
     details = data.plan.details.copy()
     if details.empty:
         return runs
+    skills = _detail_skills(data)
     details["t"] = details["period"].map(lambda p: index.get(str(p), -1))
     details = details.sort_values(["person", "t"])
     current: list[Any] | None = None
+    worked: list[str] = []
+
+    def finish(run: list[Any]) -> list[Any]:
+        return [*run[:3], ", ".join(dict.fromkeys(worked)) or "-", *run[3:-1]]
+
     for row in records(details):
+        here = skills.get((str(row["person"]), str(row["period"])), [])
         if (current is not None and current[0] == row["person"] and current[2] == row["to_office"]
                 and current[-1] == row["t"] - 1):
             current[4] = row["period"]
             current[5] += 1
             current[6] += float(row["cost"])
             current[-1] = row["t"]
+            worked.extend(here)
             continue
         if current is not None:
-            runs.append(current[:-1])
+            runs.append(finish(current))
         current = [row["person"], row["from_office"], row["to_office"], row["period"],
                    row["period"], 1, float(row["cost"]), row["t"]]
+        worked = list(here)
     if current is not None:
-        runs.append(current[:-1])
+        runs.append(finish(current))
     return runs
+
+
+def _page_heading(data: ReportData) -> tuple[str, str]:
+    """What the page is, as (kicker, heading): a plain plan, a re-plan (from summary.json's
+    ``replan``) or a scenario comparison (a scenarios table beside the plan)."""
+    name = data.instance.name
+    replan = data.summary.replan
+    if replan is not None:
+        also = f", scenario {replan.scenario}" if replan.scenario else ""
+        return f"Staffing plan · {name}", f"Re-plan from {replan.from_period}{also}"
+    names = analysis_view.scenario_names(data.scenarios) if data.scenarios is not None else []
+    if names:
+        others = [n for n in names if n != "base"]
+        shown = others[:4] + ([f"{len(others) - 4} more"] if len(others) > 4 else [])
+        heading = ("Comparison: base and " if "base" in names else "Comparison: ") + ", ".join(
+            shown)
+        return f"Staffing plan · {name}", heading
+    return "Staffing plan", name
 
 
 def render_html(data: ReportData) -> str:
@@ -315,13 +361,14 @@ def render_html(data: ReportData) -> str:
         "Uncovered FTE by office and period; darker is a larger gap. Hover a cell for the "
         "skills short there.",
         chart("heat", "Shortfall by office and period") + _shortfall_table(data)))
-    runs = [[*r[:6], _m(r[6])] for r in _detail_runs(data)]
+    runs = [[*r[:7], _m(r[7])] for r in _detail_runs(data)]
     moves_body = chart("flows", "Staff movements between offices",
                         "Band width: person-periods of work moved. A reassignment counts every "
                         "period from its start to the end of the horizon.")
     moves_body += "<h3>Details</h3>" + (table_html(
-        ["person", "home office", "to office", "from", "to", "periods", cash("cost")], runs,
-        name="details", numeric=[False] * 5 + [True, True], limit=TABLE_ROWS) if runs else
+        ["person", "home office", "to office", "skill worked", "first period", "last period",
+         "periods", cash("cost")], runs,
+        name="details", numeric=[False] * 6 + [True, True], limit=TABLE_ROWS) if runs else
         '<p class="quiet">No details in this plan.</p>')
     reas = [[r["person"], r["from_office"], r["to_office"], r["period"], _m(r["cost"])]
             for r in records(plan.reassignments)]
@@ -368,20 +415,22 @@ def render_html(data: ReportData) -> str:
     toc = "".join(f'<a href="#{a}">{e(t)}</a>' for a, t in nav)
     words, tone = outcome_words(run.status, run.gap), STATUS_TONE.get(str(run.status), "fair")
     notes = "".join(f'<p class="note">{e(n)}</p>' for n in (*quality_notes(data), *data.notes))
+    kicker, heading = _page_heading(data)
+    title = f"{heading} · {inst.name}" if heading != inst.name else f"Staffing plan: {heading}"
     return f"""<!DOCTYPE html>
 <html lang="en">
 <head>
 <meta charset="utf-8">
 <meta name="viewport" content="width=device-width, initial-scale=1">
-<title>Staffing plan: {e(inst.name)}</title>
+<title>{e(title)}</title>
 <style>{_asset("report.css")}</style>
 </head>
 <body data-charts-drawn="0">
 <header class="top">
   <div class="top-inner">
     <div>
-      <p class="kicker">Staffing plan</p>
-      <h1>{e(inst.name)}</h1>
+      <p class="kicker">{e(kicker)}</p>
+      <h1>{e(heading)}</h1>
       <p class="sub">{subtitle}</p>
     </div>
     <div class="stamp"><span class="pill {tone}">{e(words)}</span>

@@ -320,3 +320,59 @@ def test_the_budget_axis_names_the_page_currency(browser, tmp_path):
         assert _open(browser, path) == []
         labels = browser.execute_script(axis)
         assert words in labels and not any("None" in t for t in labels)
+
+
+def _page_of(tmp_path: Path, name: str, tables: dict) -> Path:
+    """tiny's plan folder with ``tables`` (file name -> frame) beside it, its page written."""
+    from report_cases import TINY
+
+    from rebalance import read_instance
+    from rebalance.report.html import write_html
+    from rebalance.report.inputs import report_data_from_folder
+
+    folder = tmp_path / name
+    shutil.copytree(tiny_plan_folder(), folder)
+    for file, frame in tables.items():
+        frame.to_csv(folder / file, index=False)
+    return write_html(report_data_from_folder(folder, read_instance(TINY)),
+                      folder / "report.html")
+
+
+def test_a_table_taller_than_its_box_says_how_many_rows_it_has(browser, tmp_path):
+    # Source: the practitioner's reading of the demo page (/tmp/read60/demo), whose Details
+    # box showed 13 of 67 rows and never said there were more.
+    import pandas as pd
+
+    reasons = pd.DataFrame({"action": ["hire"] * 60, "subject": [f"{i} x review" for i in
+                                                                 range(60)],
+                            "reason": ["demand above output"] * 60})
+    assert _open(browser, _page_of(tmp_path, "tall", {"reasons.csv": reasons})) == []
+    notes = browser.execute_script("""return Array.from(document.querySelectorAll(
+        '.scroll-note')).map(n => [n.textContent,
+        n.nextElementSibling.querySelector('table').dataset.table]);""")
+    assert notes == [["60 rows; scroll for more", "reasons"]]  # tiny's own tables fit
+
+
+def test_the_frontier_axis_starts_near_its_data_and_writes_each_value(browser, tmp_path):
+    # Source: frontier.csv of the demo (/tmp/read60/fr_plan): 175.5, 168.6 and 165.8 on an
+    # axis from 0 to 200 read as a flat line; its x axis had no unit, and a "knee" was ringed
+    # among three points.
+    from test_report_page_reading import _frontier_frame
+
+    assert _open(browser, _page_of(tmp_path, "frontier",
+                                   {"frontier.csv": _frontier_frame(3)})) == []
+    found = browser.execute_script("""const c = document.querySelector(
+        '.chart[data-chart="frontier"]');
+      return {drawn: c.dataset.drawn,
+        ticks: Array.from(c.querySelectorAll('.grid text')).map(t => t.textContent),
+        note: Array.from(c.querySelectorAll('.axis-note')).map(t => t.textContent),
+        values: Array.from(c.querySelectorAll('.point-value')).map(t => t.textContent),
+        titles: Array.from(c.querySelectorAll('.title')).map(t => t.textContent),
+        rings: c.querySelectorAll('circle[r="10"]').length};""")
+    assert found["drawn"] == "yes"
+    lowest = float(found["ticks"][0].replace(",", ""))
+    assert 150 <= lowest < 165.805, found["ticks"]
+    assert found["note"] == [f"axis starts at {found['ticks'][0]}, not 0"]
+    assert found["values"] == ["175.457", "168.592", "165.805"]
+    assert "hiring budget (times each year's cap)" in found["titles"]
+    assert found["rings"] == 0 and "knee" not in found["titles"]

@@ -87,8 +87,10 @@ def _copy(tmp_path: Path) -> Path:
 
 def test_analysis_tables_with_other_column_names(tmp_path):
     folder = _copy(tmp_path)
-    pd.DataFrame({"budget": [0, 5000, 9000], "shortfall": [3.0, 1.0, 0.5],
-                  "is_knee": ["no", "yes", "no"]}).to_csv(folder / "frontier.csv", index=False)
+    # Four levels: fewer ring no knee (test_report_page_reading).
+    pd.DataFrame({"budget": [0, 5000, 9000, 12000], "shortfall": [3.0, 1.0, 0.5, 0.4],
+                  "is_knee": ["no", "yes", "no", "no"]}).to_csv(folder / "frontier.csv",
+                                                                index=False)
     pd.DataFrame({"name": ["base", "surge"], "weighted_shortfall": [1.0, 2.5],
                   "total_cost": [10.0, 20.0]}).to_csv(folder / "comparison.csv", index=False)
     pd.DataFrame({"constraint": ["seats", "hiring"], "office": ["A", "B"],
@@ -96,7 +98,8 @@ def test_analysis_tables_with_other_column_names(tmp_path):
                                                           index=False)
     page = render_html(report_data_from_folder(folder, read_instance(TINY)))
     data = page_payload(page)
-    assert [p["knee"] for p in data["frontier"]["series"][0]["points"]] == [False, True, False]
+    assert [p["knee"] for p in data["frontier"]["series"][0]["points"]] == [False, True, False,
+                                                                           False]
     assert data["scenarios"]["labels"] == ["base", "surge"]
     assert [r["label"] for r in data["marginal"]["rows"]] == ["hiring · B", "seats · A"]
 

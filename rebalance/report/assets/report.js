@@ -9,8 +9,11 @@
     detail: "#3f7f94", move: "#7b5a97", amber: "#d9a036", grid: "#efeade", axis: "#cfc8b8",
     muted: "#7a8388", track: "#efeadd", spare: "#cfe2e8"
   };
-  var SKILL = ["#3f7f94", "#d9a036", "#7b5a97", "#88ad6b", "#c0533a", "#4e6a9c", "#a7825a",
-    "#5ea5a0", "#b56b8c", "#6c7a3a"];
+  // Skills get colours of their own: none near a colour that means something elsewhere on the
+  // page (staff and details blue, hires sage, shortfall brick, reassignments plum, the amber
+  // knee, the outcome greens and reds); each at least 20 CIE76 units from all of those.
+  var SKILL = ["#2c5aa0", "#b8658f", "#8a6d4b", "#5aa89a", "#8fa3d6", "#2f5f5a", "#9c8f3a",
+    "#5b4636", "#e0b4a4", "#d7c95a"];
   // Frontier lines avoid amber, which marks the knee.
   var LINES = ["#3f7f94", "#7b5a97", "#6c7a3a", "#c0533a", "#4e6a9c", "#a7825a"];
   var HEAT = [[247, 244, 236], [240, 217, 166], [224, 146, 90], [178, 59, 44]];
@@ -423,34 +426,60 @@
     var xsRaw = all.map(function (p) { return p.x; }), ysRaw = all.map(function (p) { return p.y; });
     var xmin = Math.min.apply(null, xsRaw), xmax = Math.max.apply(null, xsRaw);
     if (xmax === xmin) { xmax = xmin + 1; }
-    var tk = ticks(Math.max.apply(null, ysRaw) * 1.05 || 1, 4), ymax = tk[tk.length - 1] || 1;
+    // The y axis spans the data, not 0 to the top: the shortfalls of a frontier differ by a
+    // few percent (175.5, 168.6, 165.8), which a 0-based axis drew as a flat line.  A note
+    // under the axis title says it does not start at 0.
+    var ylo = Math.min.apply(null, ysRaw), yhi = Math.max.apply(null, ysRaw);
+    var span = yhi - ylo || Math.abs(yhi) * 0.1 || 1;
+    var tk = ticks(span * 1.2, 4), step = tk[1] - tk[0];
+    var y0 = Math.floor((ylo - span * 0.1) / step) * step;
+    if (ylo >= 0 && y0 < span * 0.5) { y0 = 0; }  // near 0 anyway: start there
+    tk = [];
+    for (var v = y0; v < yhi + step - 1e-9; v += step) { tk.push(v); }
+    var ymin = tk[0], ymax = tk[tk.length - 1] > ymin ? tk[tk.length - 1] : ymin + 1;
     var x = function (v) { return ml + (v - xmin) / (xmax - xmin) * iw; };
-    var y = function (v) { return mt + ih - v / ymax * ih; };
+    var y = function (v) { return mt + ih - (v - ymin) / (ymax - ymin) * ih; };
     var g = svg(box, W, H), marks = 0, seen = {};
     // Budgets, shortfalls and costs as the frontier table below writes them.
     var xDec = hasDecimals(xsRaw), yDec = hasDecimals(ysRaw);
+    var xName = d.x_label.replace(/_/g, " "), yName = d.y_label.replace(/_/g, " ");
+    var costName = (d.cost_label || "cost").replace(/_/g, " ");
     yAxis(g, y, tk, ml, ml + iw);
     all.forEach(function (p) {
       if (seen[p.x]) { return; }
       seen[p.x] = true;
       label(g, x(p.x), H - 20, num(p.x, xDec), { "text-anchor": "middle" });
     });
-    label(g, ml + iw / 2, H - 4, d.x_label.replace(/_/g, " "), { "text-anchor": "middle", "class": "title" });
-    label(g, 4, 10, d.y_label.replace(/_/g, " "), { "class": "title" });
+    label(g, ml + iw / 2, H - 4, xName, { "text-anchor": "middle", "class": "title" });
+    label(g, 4, 10, yName, { "class": "title" });
+    if (ymin > 0) {
+      label(g, 4, 23, "axis starts at " + tick(ymin) + ", not 0", { "class": "axis-note" });
+    }
+    // Each point's value beside it, where the points are few enough to read.
+    var writeValues = all.length <= 12;
     d.series.forEach(function (s, i) {
       var colour = LINES[i % LINES.length];
       el("polyline", { points: points(s.points.map(function (p) { return x(p.x); }),
         s.points.map(function (p) { return y(p.y); })), fill: "none", stroke: colour, "stroke-width": 2.5 }, g);
       marks++;
       s.points.forEach(function (p) {
-        if (p.knee) {
+        // Among fewer than four points any line bends somewhere: a "knee" there says nothing
+        // about where money starts to buy less (analysis_view clears it too).
+        if (p.knee && s.points.length >= 4) {
           el("circle", { cx: x(p.x), cy: y(p.y), r: 10, fill: "none", stroke: C.amber, "stroke-width": 3 }, g);
           label(g, x(p.x) + 13, y(p.y) - 10, "knee", { "class": "title" });
         }
         el("circle", { cx: x(p.x), cy: y(p.y), r: 4.5, fill: colour,
-          "data-tip": (s.label ? s.label + "\n" : "") + d.x_label + " " + num(p.x, xDec) + "\n" +
-            d.y_label + " " + num(p.y, yDec) +
-            (p.cost !== null ? "\n" + (d.cost_label || "cost") + " " + money(p.cost) : "") }, g);
+          "data-tip": (s.label ? s.label + "\n" : "") + xName + " " + num(p.x, xDec) + "\n" +
+            yName + " " + num(p.y, yDec) +
+            (p.cost !== null ? "\n" + costName + " " + money(p.cost) : "") }, g);
+        if (writeValues) {
+          // Above and to the left, where a knee's word (above, to the right) is not; at the
+          // left edge to the right, clear of the axis's numbers.
+          var first = x(p.x) - ml < 40;
+          label(g, x(p.x) + (first ? 7 : -7), y(p.y) - 9, num(p.y, yDec), {
+            "text-anchor": first ? "start" : "end", "class": "point-value" });
+        }
         marks++;
       });
     });
@@ -599,6 +628,20 @@
     });
   }
 
+  // A table taller than its scroll box says how many rows it has, above the box: the box
+  // alone showed 13 of 67 rows with nothing to say there were more.
+  function scrollNotes() {
+    document.querySelectorAll(".table-wrap").forEach(function (wrap) {
+      var table = wrap.querySelector("table");
+      if (!table || !table.tBodies.length || wrap.scrollHeight <= wrap.clientHeight + 1) { return; }
+      var n = table.tBodies[0].rows.length;
+      var note = document.createElement("p");
+      note.className = "scroll-note";
+      note.textContent = n.toLocaleString("en") + (n === 1 ? " row" : " rows") + "; scroll for more";
+      wrap.parentNode.insertBefore(note, wrap);
+    });
+  }
+
   function main() {
     var data = JSON.parse(document.getElementById("report-data").textContent);
     if (data.numbers) { RULE = data.numbers; }
@@ -619,6 +662,7 @@
     document.body.setAttribute("data-charts-total", String(boxes.length));
     document.body.setAttribute("data-charts-drawn", String(drawn));
     document.querySelectorAll("table.sortable").forEach(sortable);
+    scrollNotes();
     tooltips();
   }
   if (document.readyState === "loading") { document.addEventListener("DOMContentLoaded", main); } else { main(); }

@@ -117,7 +117,7 @@ def _say_gaps(table: pd.DataFrame) -> None:
     """The page's warning, on the console too, where the solves compared stopped short of
     proof (a practitioner's reading: a surge scenario had left less shortfall than the base,
     with no word that the base's search had stopped 31% from its bound)."""
-    from rebalance.report.analysis_view import gap_caution
+    from rebalance.report.analysis_words import gap_caution
 
     caution = gap_caution(table)
     if caution:
@@ -135,7 +135,7 @@ def cmd_compare(args: argparse.Namespace) -> int:
     )
     from rebalance.plan import write_plan
     from rebalance.planning import summary_dict
-    from rebalance.report.analysis_view import scenario_lines
+    from rebalance.report.analysis_words import scenario_lines
 
     instance = _load(args.instance)
     if instance is None:

@@ -11,7 +11,6 @@ from __future__ import annotations
 import html
 import math
 import re
-from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -21,17 +20,22 @@ from rebalance.analysis.marginal import STEP_UNITS
 from rebalance.numbers import (
     column_header,
     column_texts,
-    fte_total_text,
-    gap_text,
     is_money,
     money_amount,
     money_header,
 )
+from rebalance.report.analysis_words import (
+    find_column,
+    finite,
+    gap_caution,
+    is_numeric,
+    scenario_lines,
+    truthy,
+)
 from rebalance.report.htmlparts import chart, e, frame_table_html, section
 from rebalance.report.inputs import SHEET_ONLY, ReportData
 
-__all__ = ["KNEE_MIN_POINTS", "AnalysisView", "analysis_payload", "find_column", "gap_caution",
-           "scenario_names", "step_words"]
+__all__ = ["KNEE_MIN_POINTS", "AnalysisView", "analysis_payload", "scenario_names", "step_words"]
 
 
 @dataclass(frozen=True)
@@ -39,47 +43,6 @@ class AnalysisView:
     payload: dict[str, Any] = field(default_factory=dict)
     sections: tuple[str, ...] = ()
     nav: tuple[tuple[str, str], ...] = ()
-
-
-def _numeric(frame: pd.DataFrame, column: str) -> bool:
-    return bool(pd.api.types.is_numeric_dtype(frame[column])
-                and not pd.api.types.is_bool_dtype(frame[column]))
-
-
-def find_column(frame: pd.DataFrame, exact: Sequence[str], contains: Sequence[str] = (),
-                *, numeric: bool = True, avoid: Sequence[str] = ()) -> str | None:
-    """The first column named in ``exact``, else the first whose name holds a ``contains``
-    word (and none of ``avoid``); numeric columns only unless ``numeric`` is False."""
-    columns = [c for c in frame.columns if not numeric or _numeric(frame, c)]
-    lower = {c.lower(): c for c in columns}
-    for name in exact:
-        if name in lower:
-            return lower[name]
-    for word in contains:
-        for c in columns:
-            if word in c.lower() and not any(a in c.lower() for a in avoid):
-                return c
-    return None
-
-
-def _finite(values: Sequence[Any]) -> list[float | None]:
-    out: list[float | None] = []
-    for v in values:
-        try:
-            f = float(v)
-        except (TypeError, ValueError):
-            f = math.nan
-        out.append(round(f, 6) if math.isfinite(f) else None)
-    return out
-
-
-def _truthy(value: Any) -> bool:
-    if isinstance(value, str):
-        return value.strip().lower() in ("true", "yes", "1", "knee", "y")
-    try:
-        return bool(value) and not (isinstance(value, float) and math.isnan(value))
-    except (TypeError, ValueError):
-        return False
 
 
 # Fewer budget levels than this mark no knee (see _frontier).
@@ -113,11 +76,11 @@ def _frontier(frame: pd.DataFrame, currency: str | None = None) -> dict[str, Any
         ordered = part.sort_values(x)
         points = []
         for xs, ys, cs, ks in zip(
-                _finite(ordered[x].tolist()), _finite(ordered[y].tolist()),
-                _finite(ordered[cost].tolist()) if cost else [None] * len(ordered),
+                finite(ordered[x].tolist()), finite(ordered[y].tolist()),
+                finite(ordered[cost].tolist()) if cost else [None] * len(ordered),
                 ordered[knee_col].tolist() if knee_col else [False] * len(ordered), strict=True):
             if xs is not None and ys is not None:
-                points.append({"x": xs, "y": ys, "cost": cs, "knee": _truthy(ks)})
+                points.append({"x": xs, "y": ys, "cost": cs, "knee": truthy(ks)})
         if len(points) < KNEE_MIN_POINTS:
             # Any three points bend somewhere, so a "knee" among fewer than four says nothing
             # about where money starts to buy less: none is ringed.
@@ -166,7 +129,7 @@ def _scenario_label(frame: pd.DataFrame) -> str | None:
     label = find_column(frame, ("scenario", "name", "label"), ("scenario", "name"),
                         numeric=False)
     if label is None:
-        texts = [c for c in frame.columns if not _numeric(frame, c)]
+        texts = [c for c in frame.columns if not is_numeric(frame, c)]
         label = texts[0] if texts else None
     return label
 
@@ -183,7 +146,7 @@ def _scenarios(frame: pd.DataFrame, currency: str | None = None) -> dict[str, An
     label = _scenario_label(frame)
     if label is None:
         return None
-    numeric = [c for c in frame.columns if _numeric(frame, c) and c != label]
+    numeric = [c for c in frame.columns if is_numeric(frame, c) and c != label]
     chosen = [c for m in SCENARIO_METRICS for c in numeric if c.lower() == m]
     chosen += [c for c in numeric if c not in chosen and ("shortfall" in c.lower()
                                                          or "cost" in c.lower())]
@@ -193,7 +156,7 @@ def _scenarios(frame: pd.DataFrame, currency: str | None = None) -> dict[str, An
     return {"labels": [str(v) for v in frame[label].tolist()],
             # "money": the script writes those bars' values in full, as the table below.
             "metrics": [{"name": column_header(c, currency), "money": is_money(c),
-                         "values": _finite(frame[c].tolist())} for c in chosen]}
+                         "values": finite(frame[c].tolist())} for c in chosen]}
 
 
 # A step of exactly one in the singular, by the unit marginal.py wrote (its STEP_UNITS).
@@ -255,7 +218,7 @@ def _marginal_table(frame: pd.DataFrame) -> _MarginalTable | None:
     cols = _marginal_columns(frame)
     if cols is None:
         return None
-    measured = frame[cols.value].map(lambda x: _finite([x])[0] is not None).astype(bool)
+    measured = frame[cols.value].map(lambda x: finite([x])[0] is not None).astype(bool)
     return _MarginalTable(frame, cols, measured)
 
 
@@ -274,7 +237,7 @@ def _marginal(table: _MarginalTable, currency: str | None = None) -> dict[str, A
     limit, scope and step in its unit; the rest (estimate only, or no value) are counted for
     the caption, not drawn as if measured."""
     frame, cols = table.frame, table.cols
-    texts = [c for c in frame.columns if not _numeric(frame, c)]
+    texts = [c for c in frame.columns if not is_numeric(frame, c)]
     first = find_column(frame, ("limit", "constraint", "name"), ("limit", "constraint"),
                         numeric=False)
     scope = ("where", "scope", "year", "office", "skill", "period", "location", "kind")
@@ -287,14 +250,14 @@ def _marginal(table: _MarginalTable, currency: str | None = None) -> dict[str, A
     for _, r in measured.iterrows():
         parts = [_text(r[k]).replace("_", " ") for k in keys if _text(r[k])]
         name = " · ".join(parts) or f"row {len(rows) + 1}"
-        step = _finite([r[cols.step]])[0] if cols.step else None
+        step = finite([r[cols.step]])[0] if cols.step else None
         unit = _text(r[cols.unit]) if cols.unit else ""
         step_text = step_words(step, unit, currency) if step is not None or unit else ""
         label = f"{name}, {step_text}" if step_text else name
-        row: dict[str, Any] = {"label": label, "value": _finite([r[cols.value]])[0],
+        row: dict[str, Any] = {"label": label, "value": finite([r[cols.value]])[0],
                                "tip": label + (f"\n{_text(r[method])}" if method else "")}
         if cols.estimate is not None:
-            row["estimate"] = _finite([r[cols.estimate]])[0]
+            row["estimate"] = finite([r[cols.estimate]])[0]
         rows.append(row)
     # Two rows the same but for how they were found (a table with both) tell apart by it.
     seen = [r["label"] for r in rows]
@@ -325,7 +288,7 @@ def _marginal_words(frame: pd.DataFrame, table: _MarginalTable | None,
     steps: dict[str, list[str]] = {}
     if cols is not None and cols.step and cols.unit:
         for _, r in frame.iterrows():
-            step = _finite([r[cols.step]])[0]
+            step = finite([r[cols.step]])[0]
             if step is None:
                 continue
             what = step_words(step, _text(r[cols.unit]), currency)
@@ -355,7 +318,7 @@ def _marginal_words(frame: pd.DataFrame, table: _MarginalTable | None,
                       + largest)
     unsolved = (int((rest[cols.status].astype(str) == "not re-solved").sum())
                 if cols.status else len(rest))
-    with_estimate = (int(rest[cols.estimate].map(lambda x: _finite([x])[0] is not None).sum())
+    with_estimate = (int(rest[cols.estimate].map(lambda x: finite([x])[0] is not None).sum())
                      if cols.estimate else 0)
     caption = (f"The chart shows only the {n} of {total} limits measured by a re-solve "
                f"(bars: what the step removed{ticks}).{largest} The other {len(rest)} have no "
@@ -375,67 +338,6 @@ def _marginal_words(frame: pd.DataFrame, table: _MarginalTable | None,
                 "solved again with the limit moved, or from its duals where that was not "
                 "solved: a guide to what to re-solve, not a measured value.")
     return lead, caption
-
-
-def gap_caution(frame: pd.DataFrame) -> str:
-    """A warning where the solves behind a comparison stopped short of proof ("" where they
-    did not): a difference smaller than their gaps may come from where each search stopped,
-    not from what was compared (a practitioner's reading had a surge scenario cost less than
-    the base).  Shortfall is held to its own stage's gap, which is far smaller than the
-    largest (mostly the cost stage's): 5.59% of 165.8 had told a planner to dismiss a real
-    gain of 2.8.  Plain text, for the console and, marked up, the page."""
-    largest = _largest(frame, "gap")
-    if largest is None or largest <= 1e-4:
-        return ""
-    shortfall = _largest(frame, "shortfall_gap")
-    if shortfall is None:
-        within = (f"with gaps of up to {gap_text(largest)} (the gap column). A difference "
-                  "between rows smaller than that share of a figure")
-    else:
-        within = (f"with gaps of up to {gap_text(shortfall)} on shortfall (the shortfall_gap "
-                  f"column) and {gap_text(largest)} on cost (the gap column). A difference "
-                  "between rows smaller than that share of its figure")
-    return (f"These solves stopped before proving their plans best, {within} may come from "
-            "where each search stopped rather than from what was changed: give the solves "
-            "more time (--time-limit) before reading it as real.")
-
-
-def scenario_lines(frame: pd.DataFrame, currency: str | None = None) -> list[str]:
-    """What each scenario of a comparison (``scenarios.csv``) is, and what it changed against
-    the base: demand, weighted shortfall and total cost, as differences (a practitioner's
-    reading had to work out by hand that a surge added 24 FTE-periods of demand and 19.9 of
-    shortfall for 7,000 more).  Empty where the table lacks those columns."""
-    needed = {"scenario", "description", "demand_fte_periods", "weighted_shortfall",
-              "total_cost"}
-    if not needed <= set(frame.columns) or frame.empty or frame["scenario"].iloc[0] != "base":
-        return []
-    base = frame.iloc[0]
-
-    def signed(value: float, text: str) -> str:
-        return ("+" if value > 0 and not text.startswith("-") else "") + text
-
-    lines = []
-    for row in frame.iloc[1:].itertuples(index=False):
-        said = f"{row.scenario!s}: {str(row.description or '') or 'no description'}"
-        more = row.demand_fte_periods - base.demand_fte_periods
-        parts = [f"demand {signed(more, fte_total_text(more))} FTE-periods"]
-        if _finite([row.weighted_shortfall])[0] is None or _finite(
-                [base.weighted_shortfall])[0] is None:
-            parts.append("no plan to compare")
-        else:
-            shortfall = row.weighted_shortfall - base.weighted_shortfall
-            cost = row.total_cost - base.total_cost
-            parts += [f"weighted shortfall {signed(shortfall, fte_total_text(shortfall))}",
-                      f"total cost {signed(cost, money_amount(cost, currency))}"]
-        lines.append(f"{said}; against the base: {', '.join(parts)}")
-    return lines
-
-
-def _largest(frame: pd.DataFrame, name: str) -> float | None:
-    """The largest finite value of ``frame``'s column ``name``, None where there is none."""
-    column = find_column(frame, (name,))
-    values = [g for g in _finite(frame[column].tolist()) if g is not None] if column else []
-    return max(values) if values else None
 
 
 def _gap_note(frame: pd.DataFrame) -> str:
@@ -594,7 +496,7 @@ def _measure(frame: pd.DataFrame, measure: str, column: str = "new_plan") -> flo
     if "measure" not in frame.columns or column not in frame.columns:
         return None
     rows = frame.loc[frame["measure"].astype(str) == measure, column].tolist()
-    return _finite(rows[:1])[0] if rows else None
+    return finite(rows[:1])[0] if rows else None
 
 
 def _disruption_note(data: ReportData) -> str:

@@ -26,7 +26,7 @@ def test_the_console_carries_the_same_warning_in_plain_words(capsys) -> None:
     # than the base (the base's search had stopped 31% from its bound) with no warning; the
     # page had one.
     from rebalance.cli_analysis import _say_gaps
-    from rebalance.report.analysis_view import gap_caution
+    from rebalance.report.analysis_words import gap_caution
 
     frame = pd.DataFrame({"scenario": ["base", "surge"], "gap": [0.3116, 0.0679]})
     caution = gap_caution(frame)
@@ -42,7 +42,7 @@ def test_shortfall_is_held_to_its_own_stages_gap_not_the_cost_stages() -> None:
     # A practitioner's reading of a budget frontier: the note gave 5.59% (the cost stage's
     # gap) as the noise on shortfall, so a real gain of 2.8 of 165.8 FTE-periods read as
     # noise; the shortfall stage had stopped within about 0.5%.
-    from rebalance.report.analysis_view import gap_caution
+    from rebalance.report.analysis_words import gap_caution
 
     frame = pd.DataFrame({"point": [1, 2], "gap": [0.0559, 0.0412],
                           "shortfall_gap": [0.0048, 0.0051],

@@ -173,7 +173,7 @@ def format_summary(result: PlanResult) -> str:
         short = (plan.coverage[plan.coverage["shortfall_fte"] > 1e-6]
                  .groupby("office")["shortfall_fte"].sum().sort_values(ascending=False))
         if len(short):
-            lines += ["", "  shortfall by office (FTE-periods): " + ", ".join(
+            lines += ["", "  shortfall by office (FTE-periods, unweighted): " + ", ".join(
                 f"{office} {fte_total_text(value)}" for office, value in short.items())]
         lines += ["", *_limit_lines(result)]
         lines += ["", f"  independent verification: {_verdict(result)}"]

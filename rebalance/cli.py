@@ -42,13 +42,7 @@ from rebalance.cli_common import (
     EXIT_STOPPED,
     EXIT_USAGE,
     EXIT_VERIFICATION_FAILED,
-    GAP,
-    GAP_HELP,
     INSTANCE_HELP,
-    SECONDS,
-    SEED,
-    SEED_HELP,
-    SOLVER_HELP,
     STATUS_EXIT,
     VIOLATIONS_SHOWN,
     _err,
@@ -56,6 +50,7 @@ from rebalance.cli_common import (
     _keep_frontier,
     _load,
     _unreadable_plan,
+    add_solver_options,
 )
 from rebalance.numbers import seconds_text
 from rebalance.readers import count_problems
@@ -327,12 +322,7 @@ def build_parser() -> argparse.ArgumentParser:
     p = sub.add_parser("plan", help="solve an instance and write a verified plan")
     p.add_argument("instance", help=INSTANCE_HELP)
     p.add_argument("-o", "--out", required=True, help="folder for the plan tables")
-    p.add_argument("--solver", choices=("highs", "cbc"), help=SOLVER_HELP)
-    p.add_argument("--time-limit", type=SECONDS,
-                   help="seconds for the whole run (default: the instance's "
-                        "[solver] time_limit_seconds, else 300)")
-    p.add_argument("--gap", type=GAP, help=GAP_HELP)
-    p.add_argument("--seed", type=SEED, help=SEED_HELP)
+    add_solver_options(p, "the whole run")
     p.add_argument("--threads", type=COUNT,
                    help="solver threads; with 2, a large model's bound is worked out beside "
                         "the search (default: the instance's [solver] threads, else 1)")

@@ -22,14 +22,8 @@ from rebalance.cli_common import (
     EXIT_SOLVER_ERROR,
     EXIT_USAGE,
     EXIT_VERIFICATION_FAILED,
-    GAP,
-    GAP_HELP,
     INSTANCE_HELP,
     MONEY,
-    SECONDS,
-    SEED,
-    SEED_HELP,
-    SOLVER_HELP,
     STATUS_EXIT,
     VIOLATIONS_SHOWN,
     _err,
@@ -38,6 +32,7 @@ from rebalance.cli_common import (
     _number,
     _say_first,
     _unreadable_plan,
+    add_solver_options,
 )
 from rebalance.instance import Instance
 from rebalance.report.console import format_frame, is_missing
@@ -391,12 +386,7 @@ def cmd_marginal(args: argparse.Namespace) -> int:
 def add_analysis_commands(sub) -> None:
     """Add compare, replan, frontier and marginal to ``sub``, the parser's subcommands."""
     def solver_options(p: argparse.ArgumentParser) -> None:
-        p.add_argument("--solver", choices=("highs", "cbc"), help=SOLVER_HELP)
-        p.add_argument("--time-limit", type=SECONDS,
-                       help="seconds for each solve (default: the instance's [solver] "
-                            "time_limit_seconds, else 300)")
-        p.add_argument("--gap", type=GAP, help=GAP_HELP)
-        p.add_argument("--seed", type=SEED, help=SEED_HELP)
+        add_solver_options(p, "each solve")
         p.add_argument("--workers", type=COUNT, default=2, help="solves in parallel (default 2)")
         p.add_argument("-q", "--quiet", action="store_true", help="no progress on stderr")
 

@@ -114,3 +114,14 @@ GAP_HELP = ("relative gap at which to stop, e.g. 0.01 (default: the instance's [
             "relative_gap, else 0.0001)")
 SEED_HELP = ("the solver's random seed: the same seed gives the same plan (default: "
              "the instance's [solver] seed, else 0)")
+
+
+def add_solver_options(p: argparse.ArgumentParser, limit_covers: str) -> None:
+    """--solver, --time-limit, --gap and --seed, as every solving command takes them;
+    ``limit_covers`` says what the limit is for ("the whole run", "each solve")."""
+    p.add_argument("--solver", choices=("highs", "cbc"), help=SOLVER_HELP)
+    p.add_argument("--time-limit", type=SECONDS,
+                   help=f"seconds for {limit_covers} (default: the instance's [solver] "
+                        "time_limit_seconds, else 300)")
+    p.add_argument("--gap", type=GAP, help=GAP_HELP)
+    p.add_argument("--seed", type=SEED, help=SEED_HELP)

@@ -252,6 +252,18 @@ def cmd_replan(args: argparse.Namespace) -> int:
     print(f"\n{len(out.changes)} change(s) against the old plan from {args.at} on")
     if len(out.changes):
         print(format_frame(out.changes.head(30), instance.money.currency))
+    # Not a change (no disruption cost), but the figures move with it: "0 change(s)" beside
+    # a different idle capacity had read as an unchanged plan.
+    summary = out.summary
+    split = summary.loc[summary["measure"] == "work_split_changes", "new_plan"].tolist()
+    moved = int(split[0]) if split and not is_missing(split[0]) else 0
+    if moved:
+        works = "person-period works" if moved == 1 else "person-periods work"
+        print(f"work split: {moved:,} {works} differently from {args.at} on (no disruption "
+              "cost: moving work between a person's skills is not a change of detail, "
+              "reassignment or hire)")
+    else:
+        print(f"work split: everyone works as in the old plan from {args.at} on")
 
     # Under a scenario the plan belongs to the changed data, not to the instance folder:
     # record no instance path, so 'rebalance report' asks for one rather than mislead.

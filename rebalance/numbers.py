@@ -11,8 +11,10 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterable, Sequence
+from numbers import Real
 
 __all__ = [
+    "DIFFERENCE_COLUMN",
     "FTE_TOTAL_DIGITS",
     "GAP_DIGITS",
     "MONEY_WORDS",
@@ -23,6 +25,8 @@ __all__ = [
     "WHOLE_FROM",
     "column_header",
     "column_texts",
+    "compared_row_texts",
+    "compared_texts",
     "distinct_texts",
     "dust_free",
     "figures",
@@ -219,6 +223,66 @@ def figures(*values: float) -> list[str]:
     (:func:`column_texts`), with more decimals where those would make two read the same
     (:func:`distinct_texts`)."""
     return distinct_texts(values, column_texts(values), TABLE_DIGITS + 1)
+
+
+def compared_texts(before: float, after: float, difference: float,
+                   column: str = "") -> list[str]:
+    """Two figures and their difference set side by side (an old plan's, a new plan's and
+    new less old), as :func:`figures` sets two (:func:`distinct_texts`), with the difference
+    as a third: as the number rule writes them where that tells what differs, else all three
+    with the fewest decimals, from :data:`TABLE_DIGITS` on, at which figures that differ
+    read apart, a difference that is not nothing does not read 0, and the difference shown
+    is that of the figures shown.  168.59153 and 168.59136 had read "168.592", "168.591"
+    and a difference of "0.000" (-0.00017); they read "168.59153", "168.59136",
+    "-0.00017".  Money and gaps keep their rule (whole units, percentages): cents are noise
+    in a plan."""
+    values = [float(before), float(after), float(difference)]
+    if is_money(column) or is_gap(column) or not all(math.isfinite(v) for v in values):
+        return [number_text(v, column) for v in values]
+
+    def tells(texts: list[str]) -> bool:
+        if (texts[0] == texts[1]) != (dust_free(values[1] - values[0]) == 0.0):
+            return False
+        if dust_free(values[2]) != 0.0 and not texts[2].strip("-0.,"):
+            return False
+        # The difference read off the texts shown (1,235 and 1,234 beside -0.160 is not).
+        shown = [float(t.replace(",", "")) for t in texts]
+        places = max(len(t.partition(".")[2]) for t in texts)
+        return round(shown[1] - shown[0], places) == round(shown[2], places)
+
+    texts = column_texts(values, column)
+    # The rule's texts stand where they tell it all (24, 24, 0).
+    if tells(texts):
+        return texts
+    for more in range(TABLE_DIGITS, 16):
+        texts = [_plain(v, more) for v in values]
+        if tells(texts):
+            return texts
+    return [repr(v) for v in values]
+
+
+# A table of measures' column holding the difference of the two before it (replan.csv's
+# ``old_plan, new_plan, difference``).
+DIFFERENCE_COLUMN = "difference"
+
+
+def compared_row_texts(columns: Sequence[str], values: Sequence[object],
+                       measure: str = "") -> dict[int, str]:
+    """A table of measures' row's figures set side by side: where a ``difference`` column
+    follows two numbers, those three cells (by position) as :func:`compared_texts` writes
+    them for the row's ``measure``; else none, and each cell keeps its own rule."""
+    if DIFFERENCE_COLUMN not in columns:
+        return {}
+    j = list(columns).index(DIFFERENCE_COLUMN)
+    if j < 2:
+        return {}
+    cells = [values[j - 2], values[j - 1], values[j]]
+    # Real: numpy's numbers too, as a table's cells come.
+    numbers = [float(v) for v in cells if isinstance(v, Real) and not isinstance(v, bool)]
+    if len(numbers) != 3 or not all(math.isfinite(v) for v in numbers):
+        return {}
+    texts = compared_texts(numbers[0], numbers[1], numbers[2], measure)
+    return {j - 2: texts[0], j - 1: texts[1], j: texts[2]}
 
 
 def _plain(value: float, decimals: int) -> str:

@@ -39,7 +39,8 @@ from rebalance.planning import PlanResult, make_plan
 from rebalance.solve import SolveOptions
 from rebalance.verify import verify_plan
 
-__all__ = ["CHANGE_COLUMNS", "DisruptionCosts", "Replan", "ReplanError", "replan"]
+__all__ = ["CHANGE_COLUMNS", "SPLIT_TOLERANCE_FTE", "DisruptionCosts", "Replan", "ReplanError",
+           "replan", "work_split_changes"]
 
 # Verifier rules about the old plan's own figures, not about what it does.
 BOOKKEEPING = frozenset({"costs", "hire_cost", "detail_cost", "reassignment_cost"})
@@ -48,6 +49,10 @@ CHANGE_COLUMNS = ("change", "kind", "who", "skill", "period", "old", "new", "dis
 # The default rates, made once as a call in the signature was (ruff B008 cannot see
 # that the dataclass, imported from replan_model, is frozen).
 _DEFAULT_COSTS = DisruptionCosts()
+
+# FTE two plans' work rows may differ by and still count as the same split: the solver's
+# float dust (0.79999992 for 0.8), far below any share a planner would give.
+SPLIT_TOLERANCE_FTE = 1e-6
 
 
 @dataclass(frozen=True)
@@ -102,7 +107,7 @@ def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
     # Priced from the person-level change table; equal to the model's change columns plus
     # the constant for decisions that lost their column (_fix_and_price's `forced`).
     disruption = float(changes["disruption_cost"].sum()) if len(changes) else 0.0
-    summary = _summary(instance, old, result.plan, changes, disruption)
+    summary = _summary(instance, old, result.plan, changes, disruption, at)
     return Replan(at, result, changes, summary, disruption, old_violations,
                   tuple(idle + notes + _past_work_idle(instance, past_work)))
 
@@ -282,12 +287,37 @@ def _under_current_data(instance: Instance, old: Plan) -> Plan:
     return replace(old, work=work, details=details, reassignments=moves, hires=hires)
 
 
+def work_split_changes(instance: Instance, old: Plan, new: Plan, at: int) -> int:
+    """How many person-periods from period index ``at`` on work differently in ``new`` than
+    in ``old``: some office and skill's FTE differs by more than :data:`SPLIT_TOLERANCE_FTE`
+    (a row in one plan only counts against 0).  Such moves carry no disruption cost, so
+    ``changes`` does not list them, though they change the plan's figures (a practitioner's
+    reading: "0 change(s)" beside a different idle capacity)."""
+    ix = {name: t for t, name in enumerate(instance.period_names)}
+
+    def split(plan: Plan) -> pd.Series:
+        w = plan.work
+        t = w["period"].astype(str).map(ix)
+        w = w[t.notna() & (t >= at)]
+        keys = [w["person"].astype(str), w["period"].astype(str), w["office"].astype(str),
+                w["skill"].astype(str)]
+        return w["fte"].astype(float).groupby(keys).sum()
+
+    a, b = split(old), split(new)
+    both = pd.concat([a, b], axis=1, keys=["old", "new"]).fillna(0.0)
+    moved = both[(both["old"] - both["new"]).abs() > SPLIT_TOLERANCE_FTE]
+    return len({(person, period) for person, period, _, _ in moved.index})
+
+
 def _summary(instance: Instance, old: Plan, new: Plan | None, changes: pd.DataFrame,
-             disruption: float) -> pd.DataFrame:
+             disruption: float, at: int) -> pd.DataFrame:
     before = _measures(instance, _under_current_data(instance, old))
     after = _measures(instance, new) if new is not None else {}
     rows = [(k, before[k], after.get(k, math.nan), after.get(k, math.nan) - before[k])
             for k in before]
     rows.append(("changes", 0.0, float(len(changes)), float(len(changes))))
+    # Not a change (no disruption cost), but the plan's figures move with it: said beside.
+    split = float(work_split_changes(instance, old, new, at)) if new is not None else math.nan
+    rows.append(("work_split_changes", 0.0, split, split))
     rows.append(("disruption_cost", 0.0, disruption, disruption))
     return pd.DataFrame(rows, columns=["measure", "old_plan", "new_plan", "difference"])

@@ -11,6 +11,7 @@ import pandas as pd
 from rebalance.instance import Instance
 from rebalance.numbers import (
     column_header,
+    compared_row_texts,
     fte_total_text,
     gap_text,
     has_decimals,
@@ -360,9 +361,18 @@ def format_frame(frame: pd.DataFrame, currency: str | None = None) -> str:
             return plain_status(value)  # the words of the page, not the CSV's code
         return str(value)
 
+    def row(values: Sequence[object], measure: str | None) -> list[str]:
+        texts = [cell(c, v, measure) for c, v in zip(columns, values, strict=True)]
+        if measure is not None:
+            # Old, new and difference side by side (compared_row_texts): 168.592 beside
+            # 168.591 had read a difference of 0.000.
+            for j, text in compared_row_texts(columns, values, measure).items():
+                texts[j] = with_currency(text, currency) if is_money(measure) else text
+        return texts
+
     named = measure_names(frame)
     measures: list[str | None] = [None] * len(frame) if named is None else [*named]
-    rows = [[cell(c, v, m) for c, v in zip(columns, values, strict=True)]
+    rows = [row(values, m)
             for values, m in zip(frame.itertuples(index=False), measures, strict=True)]
     headers = [column_header(c, currency) for c in columns]
     return "\n".join(_table(headers, rows))

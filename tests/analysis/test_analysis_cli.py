@@ -64,6 +64,30 @@ def test_compare_and_replan(tmp_path: Path) -> None:
     assert "independent verification: passed" in done.stdout
     assert json.loads((again / "summary.json").read_text())["replan"] == {
         "from_period": "2027-Q3", "scenario": None}
+    # The work split is said beside the changes (a practitioner's reading: "0 change(s)"
+    # while 88 work rows differed); on the same data nobody's differs.
+    assert "work split: everyone works as in the old plan from 2027-Q3 on" in done.stdout
+    split = pd.read_csv(again / "replan.csv").set_index("measure").loc["work_split_changes"]
+    assert split.tolist() == [0.0, 0.0, 0.0]
+    # Hand edit of the old plan's work.csv (tests/data/tiny: a2 has review and intake): a2's
+    # Q3 review at A split half to intake.  The re-plan works as the base plan, so by hand
+    # one person-period works differently, at no disruption cost and with no change listed.
+    edited = tmp_path / "edited"
+    shutil.copytree(out, edited)
+    work = pd.read_csv(edited / "work.csv")
+    a2_q3 = (work.person == "a2") & (work.period == "2027-Q3")
+    assert work[a2_q3][["office", "skill", "fte"]].values.tolist() == [["A", "review", 1.0]]
+    work.loc[a2_q3, ["fte", "output_fte"]] = [0.5, 0.4]
+    work = pd.concat([work, pd.DataFrame([["a2", "2027-Q3", "A", "intake", 0.5, 0.5]],
+                                         columns=work.columns)], ignore_index=True)
+    work.to_csv(edited / "work.csv", index=False)
+    done = run("replan", str(TINY), "--from", str(edited), "--at", "2027-Q3", "-o",
+               str(tmp_path / "replan-edited"), "--gap", "0", "-q")
+    assert done.returncode == 0, done.stderr
+    assert "0 change(s) against the old plan from 2027-Q3 on" in done.stdout
+    assert ("work split: 1 person-period works differently from 2027-Q3 on (no disruption "
+            "cost: moving work between a person's skills is not a change of detail, "
+            "reassignment or hire)") in done.stdout
 
     # A re-plan under a scenario names it.
     surge = tmp_path / "replan-surge"

@@ -14,7 +14,13 @@ from conftest import DATA, solve_verified
 from randomized import random_instance
 
 from rebalance import make_plan
-from rebalance.analysis.replan import DisruptionCosts, Replan, ReplanError, replan
+from rebalance.analysis.replan import (
+    DisruptionCosts,
+    Replan,
+    ReplanError,
+    replan,
+    work_split_changes,
+)
 from rebalance.analysis.scenarios import DemandChange, Scenario, apply_scenario
 from rebalance.instance import Budget, Instance
 from rebalance.plan import Plan, coverage_table
@@ -653,3 +659,35 @@ def test_an_unknown_name_in_the_old_plan_says_what_is_expected(tiny) -> None:
         "expected a period of the instance's horizon (2027-Q1 to 2027-Q4)",
         "details.csv:3: to_office 'Z' is not in the instance; expected an office of "
         "offices.csv (A, B)"]
+
+
+def test_work_split_changes_are_counted_though_they_cost_no_disruption(tiny) -> None:
+    # A practitioner's reading of a demo re-plan: "0 change(s)" while 88 work rows from the
+    # re-plan period on differed and idle capacity moved.  Hand edit of the old plan on
+    # tests/data/tiny (staff.csv: a2 has review and intake, a1 review only): a2's Q3 review
+    # at A split half to intake, a1's Q4 review at A cut to 0.6 FTE, and b1's Q3 row off by
+    # 1e-9 FTE (float dust).  The new plan works as the base plan (the same data), so by
+    # hand 2 person-periods work differently from Q3 on: a2 in Q3 and a1 in Q4, not b1.
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    w = base.plan.work.copy()
+    a2_q3 = (w.person == "a2") & (w.period == "2027-Q3")
+    a1_q4 = (w.person == "a1") & (w.period == "2027-Q4")
+    b1_q3 = (w.person == "b1") & (w.period == "2027-Q3")
+    assert w[a2_q3][["office", "skill", "fte"]].values.tolist() == [["A", "review", 1.0]]
+    assert w[a1_q4][["office", "skill", "fte"]].values.tolist() == [["A", "review", 1.0]]
+    w.loc[a2_q3, ["fte", "output_fte"]] = [0.5, 0.4]
+    w.loc[a1_q4, ["fte", "output_fte"]] = [0.6, 0.6]
+    w.loc[b1_q3, "fte"] += 1e-9
+    split = pd.DataFrame([["a2", "2027-Q3", "A", "intake", 0.5, 0.5]], columns=list(w.columns))
+    old = replace(base.plan, work=pd.concat([w, split], ignore_index=True))
+    out = replan(tiny, old, 2, exact_options(tiny))
+    assert out.result.verified and out.result.plan is not None
+    assert len(out.changes) == 0  # no detail, reassignment or hire changed
+    assert work_split_changes(tiny, old, out.result.plan, 2) == 2
+    row = out.summary.set_index("measure").loc["work_split_changes"]
+    assert row.tolist() == [0.0, 2.0, 2.0]
+    # The unedited base plan against its own re-plan: nothing works differently.
+    again = replan(tiny, base.plan, 2, exact_options(tiny))
+    assert again.result.plan is not None
+    assert again.summary.set_index("measure").loc["work_split_changes", "new_plan"] == 0.0

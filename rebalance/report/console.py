@@ -32,7 +32,7 @@ from rebalance.report.limits_view import (
     run_rate_note,
     run_rate_warning,
 )
-from rebalance.report.words import outcome_words, plain_status
+from rebalance.report.words import outcome_words, plain_status, readable
 from rebalance.solve import StageResult, Status
 from rebalance.verify import Violation
 
@@ -359,6 +359,8 @@ def format_frame(frame: pd.DataFrame, currency: str | None = None) -> str:
                              decimals=decimals[column])
         if column == "status":
             return plain_status(value)  # the words of the page, not the CSV's code
+        if column == MEASURE_COLUMN:
+            return readable(str(value))  # as the page says it; the CSV keeps the code
         return str(value)
 
     def row(values: Sequence[object], measure: str | None) -> list[str]:

@@ -5,7 +5,6 @@ from __future__ import annotations
 
 import html
 import math
-import re
 from collections.abc import Sequence
 from typing import Any, Protocol
 
@@ -22,6 +21,7 @@ from rebalance.numbers import (
     with_currency,
 )
 from rebalance.report.console import (
+    MEASURE_COLUMN,
     cell_text,
     column_decimals,
     is_flag,
@@ -29,22 +29,13 @@ from rebalance.report.console import (
     measure_names,
     room_left,
 )
-from rebalance.report.words import optimal_words, plain_status
+from rebalance.report.words import optimal_words, plain_status, readable
 from rebalance.solve import StageResult, Status
 
-__all__ = ["card", "chart", "e", "frame_table_html",
-           "readable", "section", "stage_words", "table_html"]
+__all__ = ["card", "chart", "e", "frame_table_html", "section", "stage_words", "table_html"]
 
 def e(value: object) -> str:
     return html.escape(str(value), quote=True)
-
-
-def readable(column: str) -> str:
-    """A table column's name as a header: ``shortfall_fte_periods`` -> ``shortfall
-    FTE-periods``."""
-    text = str(column).replace("_", " ").strip()
-    text = re.sub(r"\bfte periods\b", "FTE-periods", text, flags=re.I)
-    return re.sub(r"\bfte\b", "FTE", text, flags=re.I)
 
 
 class _Stage(Protocol):
@@ -158,6 +149,8 @@ def frame_table_html(frame: pd.DataFrame, name: str, limit: int = 200,
         cells = [_cell(v, c, n, measure, currency, d)
                  for v, c, n, d in zip(values, columns, numeric, decimals, strict=True)]
         if measure is not None:
+            # The measure's name in words, as the column headers are (its code in the CSV).
+            cells[columns.index(MEASURE_COLUMN)] = readable(measure)
             # Old, new and difference side by side, as the console sets them
             # (compared_row_texts): 168.592 beside 168.591 had read a difference of 0.000.
             for j, text in compared_row_texts(columns, values, measure).items():

@@ -6,9 +6,11 @@ the page and in the workbook; the raw status (``feasible_with_gap``) stays in su
 
 from __future__ import annotations
 
+import re
+
 from rebalance.numbers import gap_text
 
-__all__ = ["STATUS_WORDS", "optimal_words", "outcome_words", "plain_status"]
+__all__ = ["STATUS_WORDS", "optimal_words", "outcome_words", "plain_status", "readable"]
 
 STATUS_WORDS = {
     "optimal": "optimal",
@@ -39,3 +41,11 @@ def outcome_words(status: object, gap: float | None) -> str:
     if str(getattr(status, "value", status)) == "optimal":
         return optimal_words(gap)
     return plain_status(status)
+
+
+def readable(column: str) -> str:
+    """A table column's or measure's code as words: ``shortfall_fte_periods`` ->
+    ``shortfall FTE-periods``."""
+    text = str(column).replace("_", " ").strip()
+    text = re.sub(r"\bfte periods\b", "FTE-periods", text, flags=re.I)
+    return re.sub(r"\bfte\b", "FTE", text, flags=re.I)

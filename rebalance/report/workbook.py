@@ -38,7 +38,7 @@ from rebalance.numbers import (
 )
 from rebalance.plan import PLAN_TABLES
 from rebalance.report.chart_data import new_position_salaries, spare_capacity
-from rebalance.report.console import budget_note, cell_text, measure_names
+from rebalance.report.console import MEASURE_COLUMN, budget_note, cell_text, measure_names
 from rebalance.report.htmlparts import stage_words
 from rebalance.report.inputs import ReportData, quality_notes
 from rebalance.report.limits_view import (
@@ -48,7 +48,7 @@ from rebalance.report.limits_view import (
     run_rate,
     run_rate_warning,
 )
-from rebalance.report.words import outcome_words, plain_status
+from rebalance.report.words import outcome_words, plain_status, readable
 
 __all__ = ["write_workbook"]
 
@@ -331,6 +331,8 @@ def _table_sheet(ws: Any, styles: _Styles, frame: pd.DataFrame,
         elif column == "status":
             # The words of the page and the console; the CSV file keeps the code.
             values[j] = [plain_status(v) if isinstance(v, str) else v for v in values[j]]
+        elif column == MEASURE_COLUMN:
+            values[j] = [readable(v) if isinstance(v, str) else v for v in values[j]]
     write = ws.write
     if any(isinstance(f, list) for f in formats):
         for i, row in enumerate(zip(*values, strict=True), 1):

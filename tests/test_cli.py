@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import re
 import shutil
 import signal
 import subprocess
@@ -414,13 +415,14 @@ def test_a_replans_comparison_prints_by_the_one_number_rule(tmp_path, capsys):
     assert main(["replan", str(instance), "--from", str(tmp_path / "old"), "--at", "2027-Q3",
                  "-o", str(tmp_path / "new"), "-q", "--gap", "0"]) == EXIT_OK
     out = capsys.readouterr().out
-    rows = {line.split()[0]: line.split()[1:] for line in out.splitlines()
-            if line.split() and line.split()[0] in ("total_cost", "hires", "disruption_cost",
-                                                     "weighted_shortfall")}
-    assert rows["total_cost"] == ["43,000", "EUR", "43,000", "EUR", "0", "EUR"]
-    assert rows["disruption_cost"] == ["0", "EUR", "0", "EUR", "0", "EUR"]
+    # Columns are two spaces or more apart; each measure reads in words.
+    cells = [re.split(r"\s{2,}", line.strip()) for line in out.splitlines()]
+    rows = {c[0]: c[1:] for c in cells
+            if c[0] in ("total cost", "hires", "disruption cost", "weighted shortfall")}
+    assert rows["total cost"] == ["43,000 EUR", "43,000 EUR", "0 EUR"]
+    assert rows["disruption cost"] == ["0 EUR", "0 EUR", "0 EUR"]
     assert rows["hires"] == ["1", "1", "0"]
-    assert rows["weighted_shortfall"][-1] == "0"
+    assert rows["weighted shortfall"][-1] == "0"
     assert ".00" not in out.split("measure", 1)[1].split("change(s)", 1)[0]
 
 

@@ -488,8 +488,17 @@ def _replan_lead(data: ReportData) -> str:
         return ""
     scenario = (f"with scenario <strong>{e(replan.scenario)}</strong> applied to the data first"
                 if replan.scenario else "with no scenario applied (the instance's own data)")
+    table = dict(data.tables).get("replan")
+    moved = _measure(table, "work_split_changes") if table is not None else None
+    # A re-plan with no change of detail, reassignment or hire may still split work afresh,
+    # which moves the idle figures: said here, as the console says it.
+    split = "" if not moved else (
+        f"The work split changed for {int(moved):,} person-period"
+        f"{'' if int(moved) == 1 else 's'} from {e(replan.from_period)} on (no disruption "
+        "cost: moving work between a person's skills is not a change of detail, "
+        "reassignment or hire). ")
     return (f"Re-planned from <strong>{e(replan.from_period)}</strong> on, {scenario}; before "
-            f"{e(replan.from_period)} the old plan stands as it happened. ")
+            f"{e(replan.from_period)} the old plan stands as it happened. {split}")
 
 
 def _measure(frame: pd.DataFrame, measure: str, column: str = "new_plan") -> float | None:

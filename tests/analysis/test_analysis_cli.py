@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import re
 import shutil
 import subprocess
 import sys
@@ -88,6 +89,10 @@ def test_compare_and_replan(tmp_path: Path) -> None:
     assert ("work split: 1 person-period works differently from 2027-Q3 on (no disruption "
             "cost: moving work between a person's skills is not a change of detail, "
             "reassignment or hire)") in done.stdout
+    # The page says it in the re-plan's lead too (its table row alone had).
+    page = " ".join(re.sub(r"<[^>]+>", " ",
+                           (tmp_path / "replan-edited" / "report.html").read_text()).split())
+    assert "The work split changed for 1 person-period from 2027-Q3 on" in page
 
     # A re-plan under a scenario names it.
     surge = tmp_path / "replan-surge"

@@ -27,6 +27,7 @@ from rebalance.numbers import (
     TABLE_DIGITS,
     WHOLE_FROM,
     column_header,
+    compared_row_texts,
     dust_free,
     fte_total_text,
     has_decimals,
@@ -307,6 +308,19 @@ def _measure_formats(frame: pd.DataFrame, values: list[list[Any]], formats: list
         places = [0 if is_money(m) else 3 for m in measures]
         values[j] = [0.0 if isinstance(v, float) and round(v, d) == 0 else v
                      for v, d in zip(values[j], places, strict=True)]
+    # Old, new and difference with the decimals the console and the page give them
+    # (compared_row_texts): 168.59153 and 168.59136 had shown "168.592", "168.591" and a
+    # difference of 0.000 here.
+    columns = [str(c) for c in frame.columns]
+    originals = [frame.iloc[:, j].tolist() for j in range(len(columns))]
+    for i, measure in enumerate(measures):
+        row = [originals[j][i] for j in range(len(columns))]
+        for j, text in compared_row_texts(columns, row, measure).items():
+            decimals = len(text.partition(".")[2]) if "." in text else 0
+            if is_money(measure) or not isinstance(formats[j], list) or decimals <= 3:
+                continue
+            formats[j][i] = styles.number("#,##0." + "0" * decimals)
+            values[j][i] = float(row[j])
 
 
 def _table_sheet(ws: Any, styles: _Styles, frame: pd.DataFrame,

@@ -121,8 +121,12 @@ def test_a_table_of_measures_reads_each_row_by_its_measure_in_the_workbook(tmp_p
     assert all('"EUR"' in cell.number_format for cell in rows["disruption cost"])
     assert not any("EUR" in cell.number_format for cell in rows["hires"])
     shortfall = rows["weighted shortfall"]
-    assert shortfall[2].value == 0  # -0.00017 would show as "-0.000"
-    assert shortfall[0].value == pytest.approx(185.3421)  # the rest stay exact
+    # As on the console and the page (hand: 185.3419 - 185.3421 = -0.0002): four decimals,
+    # where three had shown 185.342, 185.342 and -0.000; the cells hold the exact values.
+    assert [cell.number_format for cell in shortfall] == ["#,##0.0000"] * 3
+    assert shortfall[2].value == pytest.approx(shortfall[1].value - shortfall[0].value)
+    assert shortfall[0].value == pytest.approx(185.3421)
+    assert rows["hires"][2].value == 0
 
 
 # 7. One figure, one text: weighted shortfall 168.592 / 168.6 / 168.59, demand 2,022 on the

@@ -11,7 +11,9 @@ from typing import Any
 
 import pandas as pd
 
+from rebalance.instance import Instance
 from rebalance.numbers import NEAR_ZERO, fte_total_text, number_rule
+from rebalance.plan import Plan
 from rebalance.report.inputs import ReportData
 
 __all__ = ["chart_payload", "new_position_salaries", "records", "spare_capacity"]
@@ -115,16 +117,16 @@ def _coverage_series(data: ReportData) -> dict[str, Any]:
     return {"periods": periods, "series": series}
 
 
-def new_position_salaries(data: ReportData) -> pd.DataFrame:
+def new_position_salaries(instance: Instance, plan: Plan) -> pd.DataFrame:
     """Yearly salary that the plan's new positions commit beyond the horizon, by skill:
     hires funded as new positions x the skill's salary per period x periods per year."""
-    hires = data.plan.hires
+    hires = plan.hires
     columns = ["skill", "positions", "salary_per_period", "per_year"]
     if hires.empty:
         return pd.DataFrame(columns=columns)
     new = hires[hires["funding"] == "new"].groupby("skill")["count"].sum()
-    salary = {s.name: s.salary_per_period for s in data.instance.skills}
-    per_year = data.instance.periods_per_year
+    salary = {s.name: s.salary_per_period for s in instance.skills}
+    per_year = instance.periods_per_year
     rows = [{"skill": skill, "positions": int(count),
              "salary_per_period": float(salary.get(str(skill), 0.0)),
              "per_year": int(count) * float(salary.get(str(skill), 0.0)) * per_year}

@@ -52,7 +52,7 @@ from rebalance.report.limits_view import (
     LIMITS_TITLE,
     LimitLine,
     limits_at_cap,
-    run_rate,
+    plan_run_rate,
     run_rate_consequence,
     run_rate_note,
     run_rate_warning,
@@ -121,7 +121,7 @@ def _headline(data: ReportData) -> str:
                       f"{most['office']} ({fte_total_text(float(most['both']))})")
     else:
         spare_note = "FTE-periods: none to speak of"
-    rate = run_rate(data)
+    rate = plan_run_rate(data.instance, plan)
     share_note = run_rate_note(rate, money_unit.currency)
     # Above the cap the share moves into the warning under the note (said once, not twice).
     warning = (f"{share_note}: {run_rate_consequence(rate)}." if rate.above_cap else "")
@@ -454,7 +454,7 @@ the CSV files and plan.xlsx hold every row.</p></footer>
 
 def _commitments(data: ReportData) -> str:
     """What new positions cost every year once the horizon (and its budget years) ends."""
-    table = new_position_salaries(data)
+    table = new_position_salaries(data.instance, data.plan)
     if table.empty:
         return ('<p class="quiet">No new positions: nothing is committed beyond the '
                 "horizon.</p>")
@@ -464,7 +464,7 @@ def _commitments(data: ReportData) -> str:
     positions = int(table["positions"].sum())
     rows = [[r["skill"], int(r["positions"]), _m(r["salary_per_period"]), _m(r["per_year"])]
             for r in records(table)]
-    rate = run_rate(data)
+    rate = plan_run_rate(inst, data.plan, table)
     share_note, warning = (run_rate_note(rate, inst.money.currency),
                            run_rate_warning(rate, inst.money.currency))
     beside = (f" That is {e(share_note)}, the last hiring cap set." if share_note else "")

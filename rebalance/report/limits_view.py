@@ -15,16 +15,17 @@ from collections import defaultdict
 from collections.abc import Sequence
 from dataclasses import dataclass
 
+import pandas as pd
+
 from rebalance.analysis.limits import LimitUse, limit_use
 from rebalance.instance import Instance
 from rebalance.numbers import money_amount, money_text, number_text, share_text
 from rebalance.plan import Plan
 from rebalance.report.chart_data import new_position_salaries
-from rebalance.report.inputs import ReportData, RunSummary
 from rebalance.verify import unknown_names
 
 __all__ = ["LIMITS_LEAD", "LIMITS_TITLE", "LimitLine", "RunRate", "limits_at_cap",
-           "period_spans", "plan_run_rate", "run_rate", "run_rate_consequence", "run_rate_note",
+           "period_spans", "plan_run_rate", "run_rate_consequence", "run_rate_note",
            "run_rate_warning"]
 
 LIMITS_TITLE = "Limits the plan runs up against"
@@ -182,23 +183,19 @@ class RunRate:
         return self.cap is not None and round(self.per_year, 2) > round(self.cap, 2)
 
 
-def run_rate(data: ReportData) -> RunRate:
-    """The page's figure (:func:`new_position_salaries`) beside the last hiring cap."""
-    table = new_position_salaries(data)
+def plan_run_rate(instance: Instance, plan: Plan,
+                  salaries: pd.DataFrame | None = None) -> RunRate:
+    """The page's figure (:func:`new_position_salaries`, or its table ``salaries`` where the
+    caller has it already) beside the last hiring cap."""
+    table = new_position_salaries(instance, plan) if salaries is None else salaries
     per_year = float(table["per_year"].sum()) if len(table) else 0.0
     positions = int(table["positions"].sum()) if len(table) else 0
-    instance = data.instance
     cap_year, cap = None, None
     for year in instance.years:
         budget = instance.budget(year)
         if budget is not None and budget.hiring is not None:
             cap_year, cap = year, budget.hiring
     return RunRate(per_year, positions, instance.periods[-1].name, cap_year, cap)
-
-
-def plan_run_rate(instance: Instance, plan: Plan) -> RunRate:
-    """:func:`run_rate` of a plan fresh from a solve (no run summary is read)."""
-    return run_rate(ReportData(instance, plan, RunSummary.from_dict({})))
 
 
 def run_rate_note(rate: RunRate, currency: str | None) -> str:

@@ -38,7 +38,7 @@ from rebalance.numbers import (
     seconds_text,
 )
 from rebalance.plan import PLAN_TABLES
-from rebalance.report.chart_data import new_position_salaries, spare_capacity
+from rebalance.report.chart_data import spare_capacity
 from rebalance.report.console import MEASURE_COLUMN, budget_note, cell_text, measure_names
 from rebalance.report.htmlparts import stage_words
 from rebalance.report.inputs import ReportData, quality_notes
@@ -46,7 +46,7 @@ from rebalance.report.limits_view import (
     LIMITS_LEAD,
     LIMITS_TITLE,
     limits_at_cap,
-    run_rate,
+    plan_run_rate,
     run_rate_warning,
 )
 from rebalance.report.words import outcome_words, plain_status, readable
@@ -413,14 +413,11 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
     line("new money, all years", plan.total_cost, cash,
          f"{budget_note(instance, plan.costs)}, {instance.periods[0].name} to "
          f"{instance.periods[-1].name}")
-    commitment = new_position_salaries(data)
-    positions = int(commitment["positions"].sum()) if len(commitment) else 0
-    line("new positions' salaries a year",
-         float(commitment["per_year"].sum()) if len(commitment) else 0.0, cash,
+    rate = plan_run_rate(instance, plan)
+    line("new positions' salaries a year", rate.per_year, cash,
          f"every year after the horizon ({instance.periods[-1].name}), not in new money: "
-         f"{positions} new positions x salary per period x {instance.periods_per_year} "
+         f"{rate.positions} new positions x salary per period x {instance.periods_per_year} "
          "periods a year")
-    rate = run_rate(data)
     if rate.cap and rate.per_year > 0:
         # The share as the console and the page write it sits beside the cell's.
         line(f"as a share of {rate.cap_year}'s hiring cap", rate.per_year / rate.cap, SHARE,

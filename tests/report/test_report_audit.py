@@ -121,7 +121,8 @@ def test_salaries_new_positions_commit_beyond_the_horizon(tmp_path):
     expected = float((new["count"] * new["skill"].map(salary)).sum()
                      * instance.periods_per_year)
     assert expected == 80_000  # one new review position, 20,000 a quarter
-    assert new_position_salaries(data)["per_year"].sum() == pytest.approx(expected)
+    salaries = new_position_salaries(data.instance, data.plan)
+    assert salaries["per_year"].sum() == pytest.approx(expected)
     text = page_text(render_html(data))
     assert "Salaries after the horizon 80,000 a year, every year after 2027-Q4" in text
     assert "80,000 a year in salaries" in text

@@ -31,6 +31,7 @@ from rebalance.tables import (
 )
 
 __all__ = [
+    "BUDGET_LINES",
     "PLAN_TABLES",
     "NamingError",
     "Plan",
@@ -53,6 +54,9 @@ PLAN_TABLES: dict[str, tuple[str, ...]] = {
     "costs": ("year", "kind", "cost"),
 }
 COST_KINDS = ("detail", "relocation", "onboarding", "new_position_salary")
+# Each cap of a budget year (budget.csv's columns) and the kinds of cost it limits.
+BUDGET_LINES = (("hiring", ("onboarding", "new_position_salary")),
+                ("moves", ("detail", "relocation")))
 # Columns of the plan tables that hold names (read back as text, never as numbers).
 NAME_COLUMNS = frozenset({"person", "period", "start_period", "year", "office", "from_office",
                           "to_office", "skill", "funding", "kind"})

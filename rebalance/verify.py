@@ -16,7 +16,7 @@ from pathlib import Path
 
 from rebalance.instance import Instance
 from rebalance.numbers import distinct_texts, figures, money_text, number_text, share_of
-from rebalance.plan import COST_KINDS, PLAN_TABLES, Plan, read_plan, records
+from rebalance.plan import BUDGET_LINES, COST_KINDS, PLAN_TABLES, Plan, read_plan, records
 from rebalance.problems import did_you_mean
 
 __all__ = ["Violation", "unknown_names", "verify_folder", "verify_plan"]
@@ -452,8 +452,9 @@ class _Checker:
             budget = self.i.budget(year)
             if budget is None:
                 continue
-            hiring = spend[(year, "onboarding")] + spend[(year, "new_position_salary")]
-            moves = spend[(year, "detail")] + spend[(year, "relocation")]
+            line = {cap: sum(spend[(year, kind)] for kind in kinds)
+                    for cap, kinds in BUDGET_LINES}
+            hiring, moves = line["hiring"], line["moves"]
             if budget.hiring is not None and _over(hiring, budget.hiring):
                 spent, cap = _amounts(self.i, hiring, budget.hiring)
                 self.flag("hiring_budget", year, f"hiring spend {spent} exceeds {cap}")

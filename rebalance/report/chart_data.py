@@ -13,7 +13,7 @@ import pandas as pd
 
 from rebalance.instance import Instance
 from rebalance.numbers import NEAR_ZERO, fte_total_text, number_rule
-from rebalance.plan import Plan
+from rebalance.plan import BUDGET_LINES, Plan
 from rebalance.report.inputs import ReportData
 
 __all__ = ["chart_payload", "new_position_salaries", "records", "spare_capacity"]
@@ -203,10 +203,8 @@ def _budget_rows(data: ReportData) -> list[dict[str, Any]]:
     rows = []
     for year in data.instance.years:
         budget = data.instance.budget(year)
-        for kind, kinds, cap in (
-                ("hiring", ("onboarding", "new_position_salary"),
-                 None if budget is None else budget.hiring),
-                ("moves", ("detail", "relocation"), None if budget is None else budget.moves)):
+        for kind, kinds in BUDGET_LINES:
+            cap = None if budget is None else getattr(budget, kind)
             parts = {k: float(costs.get((year, k), 0.0)) for k in kinds}
             rows.append({"year": year, "kind": kind, "spend": sum(parts.values()),
                          "cap": cap, "parts": parts})

@@ -23,6 +23,7 @@ from rebalance.numbers import (
     share_text,
     with_currency,
 )
+from rebalance.plan import BUDGET_LINES
 from rebalance.planning import BUILD_STAGE, CAUTION, PlanResult
 from rebalance.report.limits_view import (
     LIMITS_LEAD,
@@ -37,7 +38,6 @@ from rebalance.solve import StageResult, Status
 from rebalance.verify import Violation
 
 __all__ = [
-    "CAP_LINES",
     "MEASURE_COLUMN",
     "budget_note",
     "cell_text",
@@ -78,11 +78,6 @@ def _table(headers: Sequence[str], rows: Sequence[Sequence[object]]) -> list[str
     return [line(cells[0]), "  ".join("-" * w for w in widths)] + [line(r) for r in cells[1:]]
 
 
-# Each cap of a budget year (budget.csv's columns) and the kinds of new money it limits.
-CAP_LINES = (("hiring", ("onboarding", "new_position_salary")),
-             ("moves", ("detail", "relocation")))
-
-
 def budget_note(instance: Instance, costs: pd.DataFrame) -> str:
     """New money against the caps, for a headline (console, page, workbook alike): "of
     314,000 allowed" where every cap is set, "no caps set" where none is, and otherwise the
@@ -96,7 +91,7 @@ def budget_note(instance: Instance, costs: pd.DataFrame) -> str:
     capped = uncapped = False
     for year in instance.years:
         budget = instance.budget(year)
-        for cap_name, kinds in CAP_LINES:
+        for cap_name, kinds in BUDGET_LINES:
             amount = sum(float(spent.get((year, kind), 0.0)) for kind in kinds)
             cap = None if budget is None else getattr(budget, cap_name)
             if cap is None:
@@ -161,13 +156,12 @@ def format_summary(result: PlanResult) -> str:
             def spent(*kinds: str, year: str = year) -> float:
                 return sum(float(costs.get((year, k), 0.0)) for k in kinds)
 
-            hiring = spent("onboarding", "new_position_salary")
-            moves = spent("detail", "relocation")
-            cap_h = "no cap" if budget is None or budget.hiring is None else money_text(
-                budget.hiring)
-            cap_m = "no cap" if budget is None or budget.moves is None else money_text(
-                budget.moves)
-            rows.append((year, money_text(hiring), cap_h, money_text(moves), cap_m))
+            cells: list[str] = [year]
+            for cap_name, kinds in BUDGET_LINES:
+                cap = None if budget is None else getattr(budget, cap_name)
+                cells += [money_text(spent(*kinds)),
+                          "no cap" if cap is None else money_text(cap)]
+            rows.append(tuple(cells))
         lines += ["  " + x for x in _table(
             ("year", *(money.header(h) for h in ("hiring spend", "hiring cap", "moves spend",
                                                   "moves cap"))), rows)]

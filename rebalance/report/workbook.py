@@ -37,7 +37,7 @@ from rebalance.numbers import (
     money_text,
     seconds_text,
 )
-from rebalance.plan import PLAN_TABLES
+from rebalance.plan import BUDGET_LINES, PLAN_TABLES
 from rebalance.report.chart_data import spare_capacity
 from rebalance.report.console import MEASURE_COLUMN, budget_note, cell_text, measure_names
 from rebalance.report.htmlparts import stage_words
@@ -465,10 +465,10 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
         budget = instance.budget(year)
         row = next(rows)
         ws.write(row, 0, _year_cell(year, numeric_years))
-        for col, value in enumerate([spent("onboarding", "new_position_salary"),
-                                     None if budget is None else budget.hiring,
-                                     spent("detail", "relocation"),
-                                     None if budget is None else budget.moves], 1):
+        cells: list[float | None] = []
+        for cap_name, kinds in BUDGET_LINES:
+            cells += [spent(*kinds), None if budget is None else getattr(budget, cap_name)]
+        for col, value in enumerate(cells, 1):
             value = _cell_value(value)
             ws.write(row, col, "no cap" if value is None else value, money)
 

@@ -99,6 +99,8 @@ class Model:
     # Values of the whole-number columns to try as a first plan, beside staying put (a
     # re-plan's old plan); other entries are ignored.  None: no such plan.
     hint: np.ndarray | None = None
+    # What the hint is, for progress lines ("the old plan", "the base plan").
+    hint_words: str = "the old plan"
 
     @property
     def num_cols(self) -> int:

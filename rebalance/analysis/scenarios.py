@@ -22,6 +22,7 @@ from typing import Any
 import pandas as pd
 
 from rebalance.analysis.limits import hire_rows
+from rebalance.analysis.start_plan import from_plan
 from rebalance.instance import Budget, Demand, Instance
 from rebalance.plan import Plan
 from rebalance.planning import PlanResult, make_plan
@@ -433,25 +434,29 @@ class Comparison:
     actions: pd.DataFrame
 
 
-def _solve(instance: Instance, options: SolveOptions) -> PlanResult:
-    return make_plan(instance, options)
+def _solve(instance: Instance, options: SolveOptions, start: Plan | None = None) -> PlanResult:
+    if start is None:
+        return make_plan(instance, options)
+    return make_plan(instance, options, adjust=from_plan(instance, start))
 
 
 def solve_many(instances: Sequence[Instance], options: SolveOptions,
-               workers: int) -> list[PlanResult]:
-    """Solve each instance; in a process pool when ``workers`` > 1 (same results either way:
-    every solve is a pure function of its instance and options)."""
+               workers: int, start: Plan | None = None) -> list[PlanResult]:
+    """Solve each instance, from the plan ``start`` where given (see
+    :mod:`rebalance.analysis.start_plan`); in a process pool when ``workers`` > 1 (same
+    results either way: every solve is a pure function of its instance, options and start)."""
     plain = options if options.progress is None else SolveOptions(
         **{f: getattr(options, f) for f in options.__dataclass_fields__ if f != "progress"})
     if workers <= 1 or len(instances) <= 1:
-        return [_solve(inst, plain) for inst in instances]
+        return [_solve(inst, plain, start) for inst in instances]
     # Spawned, not forked: a child forked from a process that has run HiGHS inherits its
     # thread pool in a broken state and spins.
     others = set(multiprocessing.active_children())  # the caller's own: never ended here
     pool = ProcessPoolExecutor(max_workers=min(workers, len(instances)),
                                mp_context=multiprocessing.get_context("spawn"))
     try:
-        results = list(pool.map(_solve_in_worker, instances, [plain] * len(instances)))
+        results = list(pool.map(_solve_in_worker, instances, [plain] * len(instances),
+                                [start] * len(instances)))
     except BaseException:
         # Stopped from outside (Ctrl-C, SIGTERM) or failed: end the workers now rather than
         # wait for their solves (a sweep: 22 s to stop a comparison of three).
@@ -462,13 +467,14 @@ def solve_many(instances: Sequence[Instance], options: SolveOptions,
     return results
 
 
-def _solve_in_worker(instance: Instance, options: SolveOptions) -> PlanResult:
+def _solve_in_worker(instance: Instance, options: SolveOptions,
+                     start: Plan | None = None) -> PlanResult:
     """:func:`_solve` in a pool worker: stopped (SIGTERM from :func:`_end_workers`, or
     Ctrl-C at the terminal), its solver processes are already killed, and the worker ends
     rather than take the next task queued (which it had, forking solvers that outlived the
     run)."""
     try:
-        return _solve(instance, options)
+        return _solve(instance, options, start)
     except KeyboardInterrupt:
         os._exit(130)
 
@@ -544,12 +550,19 @@ def _row(name: str, description: str, result: PlanResult, instance: Instance,
 
 def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options: SolveOptions,
                       workers: int = 2) -> Comparison:
-    """Solve the base and each scenario and tabulate them side by side."""
+    """Solve the base, then each scenario from the base plan, and tabulate them side by side.
+
+    Each scenario starts from the base plan and keeps it wherever a difference would not
+    pay (:mod:`rebalance.analysis.start_plan`), so what differs is what the scenario calls
+    for, not the solver's path.  The base is solved first, alone; the scenarios then run
+    ``workers`` at a time.  With no base plan, the scenarios are solved from scratch.
+    """
     variants = [instance] + [apply_scenario(instance, s) for s in scenarios]
     names = ("base", *tuple(s.name for s in scenarios))
     if len(set(names)) != len(names):
         raise ValueError("scenario names must differ from each other and from 'base'")
-    results = solve_many(variants, options, workers)
+    base = solve_many(variants[:1], options, 1)[0]
+    results = [base, *solve_many(variants[1:], options, workers, start=base.plan)]
     descriptions = {"base": BASE_DESCRIPTION, **{s.name: s.description for s in scenarios}}
     base_plan = results[0].plan
     base_actions = plan_actions(base_plan) if base_plan is not None else {}

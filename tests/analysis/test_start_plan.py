@@ -1,0 +1,115 @@
+"""A scenario solved from the base plan keeps the base plan wherever a difference would not pay.
+
+The instance has two optimal plans that differ only in who goes on detail (a1 or a2, who are
+alike but for a leaving date at the horizon's end, so they are not one pool).  The optimum
+itself is checked by enumerating every plan (``brute_force``, as in tests/test_brute_force.py).
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+from pathlib import Path
+
+import pandas as pd
+import pytest
+from analysis_helpers import exact_options
+from test_brute_force import brute_force
+
+from rebalance import read_instance
+from rebalance.analysis.scenarios import (
+    DemandChange,
+    Scenario,
+    apply_scenario,
+    compare_scenarios,
+    solve_many,
+)
+from rebalance.instance import Instance
+from rebalance.plan import Plan
+
+FILES = {
+    "settings.toml": """
+[horizon]
+start = "2027-Q1"
+count = 4
+hours_per_fte = 480
+
+[policy]
+max_away_share = 0.5
+
+[move_costs]
+detail_cost_per_period = 5000
+relocation_cost = 20000
+
+[solver]
+name = "highs"
+relative_gap = 0
+""",
+    "offices.csv": "office,location,seats,max_hires_per_period\nA,Alder,10,0\nB,Birch,10,0\n",
+    "skills.csv": "skill,salary_per_period,onboarding_cost,time_to_hire,ramp\n"
+                  "review,20000,8000,1,\n",
+    "staff.csv": "person,home_office,fte,skills,can_detail,can_relocate,last_period\n"
+                 "a1,A,1.0,review:1.0,true,false,\n"
+                 "a2,A,1.0,review:1.0,true,false,2027-Q4\n"
+                 "b1,B,1.0,review:1.0,false,false,\n",
+    "demand.csv": "office,skill,period,fte\n"
+                  + "".join(f"A,review,2027-Q{q},1.0\n" for q in range(1, 5))
+                  + "".join(f"B,review,2027-Q{q},{2.0 if q == 2 else 1.0}\n"
+                            for q in range(1, 5)),
+    "budget.csv": "year,hiring,moves\n2027,0,100000\n",
+}
+
+
+@pytest.fixture
+def instance(tmp_path: Path) -> Instance:
+    for name, text in FILES.items():
+        (tmp_path / name).write_text(text.lstrip())
+    return read_instance(tmp_path)
+
+
+def _detailed(plan: Plan) -> list[tuple[str, str]]:
+    return sorted(zip(plan.details["person"], plan.details["period"], strict=True))
+
+
+def _swapped(plan: Plan, a: str, b: str) -> Plan:
+    """``plan`` with persons ``a`` and ``b`` trading every row (alike people: still a plan)."""
+    def swap(frame: pd.DataFrame) -> pd.DataFrame:
+        if "person" not in frame:
+            return frame
+        out = frame.copy()
+        out["person"] = frame["person"].map(lambda p: {a: b, b: a}.get(p, p))
+        return out
+    return replace(plan, details=swap(plan.details), reassignments=swap(plan.reassignments),
+                   work=swap(plan.work))
+
+
+def test_a_solve_from_a_start_keeps_its_equally_good_choice(instance: Instance) -> None:
+    least_shortfall, least_cost, _ = brute_force(instance)  # enumeration: the reference
+    options = exact_options(instance)
+    (scratch,) = solve_many([instance], options, 1)
+    assert scratch.plan is not None and scratch.verified
+    chosen = _detailed(scratch.plan)
+    assert len(chosen) == 1
+    other = "a2" if chosen[0][0] == "a1" else "a1"
+    start = _swapped(scratch.plan, chosen[0][0], other)
+
+    (kept,) = solve_many([instance], options, 1, start=start)
+    assert kept.plan is not None and kept.verified
+    # The start's choice, not the one the solver makes from scratch, and still optimal.
+    assert _detailed(kept.plan) == [(other, chosen[0][1])]
+    assert kept.plan.weighted_shortfall == pytest.approx(least_shortfall, abs=1e-6)
+    assert kept.plan.total_cost == pytest.approx(least_cost, rel=1e-6)
+
+
+def test_a_scenario_differs_from_the_base_by_what_it_calls_for(instance: Instance) -> None:
+    # One more reviewer wanted at B in 2027-Q3: one more detail, and nothing else changes.
+    surge = Scenario("b-q3", "B needs one more reviewer in 2027-Q3",
+                     (DemandChange(("B",), ("review",), (2,), add_fte=1.0),))
+    comparison = compare_scenarios(instance, [surge], exact_options(instance), workers=1)
+    base, scenario = comparison.results
+    assert base.verified and scenario.verified
+    assert scenario.plan is not None
+    _, least_cost, _ = brute_force(apply_scenario(instance, surge))
+    assert scenario.plan.total_cost == pytest.approx(least_cost, rel=1e-6)
+    differing = comparison.actions
+    assert list(zip(differing["action"], differing["period"], strict=True)) == [
+        ("detail", "2027-Q3")]

@@ -13,13 +13,14 @@ from collections import Counter, defaultdict
 from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Literal
 
 from rebalance.instance import Instance
 from rebalance.numbers import distinct_texts, figures, money_text, number_text, share_of
 from rebalance.plan import BUDGET_LINES, COST_KINDS, PLAN_TABLES, Plan, read_plan, records
 from rebalance.problems import did_you_mean
 
-__all__ = ["Violation", "unknown_names", "verify_folder", "verify_plan"]
+__all__ = ["NameKind", "Violation", "unknown_names", "verify_folder", "verify_plan"]
 
 ABS_TOL = 1e-6
 REL_TOL = 1e-6
@@ -28,11 +29,22 @@ UNKNOWN_NAMES_LISTED = 5
 HAND_EDIT_SLIPS = 3  # unknown names in one column up to which each gets a suggestion
 
 
+# The kinds of name a plan's columns hold, each checked against one of the instance's lists.
+NameKind = Literal["person", "office", "skill", "period"]
+
+
 @dataclass(frozen=True)
 class Violation:
+    """One broken rule: ``rule``, ``where`` (a file and row, or what it concerns) and a
+    message.  An ``unknown_reference`` also says which ``column`` of the plan names what the
+    instance lacks and which ``name_kind`` of name it should hold, so a caller can say what
+    is expected without reading the message back."""
+
     rule: str
     where: str
     message: str
+    column: str | None = None
+    name_kind: NameKind | None = None
 
     def __str__(self) -> str:
         return f"{self.rule}: {self.where}: {self.message}"
@@ -96,9 +108,12 @@ def unknown_names(instance: Instance, plan: Plan,
     return checker.violations
 
 
-def verify_plan(instance: Instance, plan: Plan) -> list[Violation]:
-    """All rule violations of ``plan`` against ``instance``."""
-    checker = _Checker(instance, plan)
+def verify_plan(instance: Instance, plan: Plan, *,
+                folder: str | Path | None = None) -> list[Violation]:
+    """All rule violations of ``plan`` against ``instance``; with ``folder`` (where the plan
+    was read from) a violation naming a table names its file there.  Where names are
+    unknown (:func:`unknown_names`), those are all it returns."""
+    checker = _Checker(instance, plan, folder)
     checker.run()
     return checker.violations
 
@@ -141,15 +156,17 @@ class _Checker:
     # -- references ----------------------------------------------------------------------
     def _references_ok(self) -> bool:
         ok = True
-        spec: dict[str, dict[str, Mapping[str, object]]] = {
-            "details": {"person": self.people, "period": self.period_ix,
-                        "from_office": self.offices, "to_office": self.offices},
-            "reassignments": {"person": self.people, "period": self.period_ix,
-                              "from_office": self.offices, "to_office": self.offices},
-            "hires": {"office": self.offices, "skill": self.skills,
-                      "start_period": self.period_ix},
-            "work": {"person": self.people, "period": self.period_ix, "office": self.offices,
-                     "skill": self.skills},
+        names: dict[NameKind, Mapping[str, object]] = {
+            "person": self.people, "office": self.offices, "skill": self.skills,
+            "period": self.period_ix}
+        spec: dict[str, dict[str, NameKind]] = {
+            "details": {"person": "person", "period": "period", "from_office": "office",
+                        "to_office": "office"},
+            "reassignments": {"person": "person", "period": "period", "from_office": "office",
+                              "to_office": "office"},
+            "hires": {"office": "office", "skill": "skill", "start_period": "period"},
+            "work": {"person": "person", "period": "period", "office": "office",
+                     "skill": "skill"},
             # Their names are checked against the demand and the budget years below; here
             # only that every column is there (a headline figure is summed from each).
             "coverage": {},
@@ -163,7 +180,8 @@ class _Checker:
             ok = ok and not missing
             if missing:
                 continue  # this table's names cannot be read; the other tables' still can
-            for column, known in columns.items():
+            for column, kind in columns.items():
+                known = names[kind]
                 unknown = [(row, value) for row, value in
                            enumerate(frame[column].astype(str), 2) if value not in known]
                 # A name or two unknown among known ones is a slip of a hand edit, worth a
@@ -171,14 +189,16 @@ class _Checker:
                 # where none would help ('xa1' is no slip for 'a1').
                 slips = len(unknown) <= HAND_EDIT_SLIPS and 2 * len(unknown) < len(frame)
                 for row, value in unknown[:UNKNOWN_NAMES_LISTED]:
-                    self.flag("unknown_reference", f"{self.file(table)}:{row}",
-                              f"{column} '{value}' is not in the instance"
-                              + (did_you_mean(value, known) if slips else ""))
+                    self.violations.append(Violation(
+                        "unknown_reference", f"{self.file(table)}:{row}",
+                        f"{column} '{value}' is not in the instance"
+                        + (did_you_mean(value, known) if slips else ""), column, kind))
                 if len(unknown) > UNKNOWN_NAMES_LISTED:
                     # A plan of another instance names thousands; the first few say enough.
-                    self.flag("unknown_reference", self.file(table),
-                              f"{len(unknown) - UNKNOWN_NAMES_LISTED:,} more rows whose "
-                              f"{column} is not in the instance")
+                    self.violations.append(Violation(
+                        "unknown_reference", self.file(table),
+                        f"{len(unknown) - UNKNOWN_NAMES_LISTED:,} more rows whose "
+                        f"{column} is not in the instance", column, kind))
                 ok = ok and not unknown
         return ok
 

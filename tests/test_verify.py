@@ -169,6 +169,42 @@ def test_unknown_names_are_flagged_in_every_table_and_counted_past_the_first_few
     assert periods[-1].where == "work.csv" and periods[-1].message.startswith("5 more rows")
 
 
+def test_unknown_names_say_their_column_and_the_kind_of_name_expected(tiny_plan):
+    # The re-plan's "; expected a period of the instance's horizon ..." hint reads these
+    # fields: it had read the column back out of the message with a regex, which a reworded
+    # message would have defeated in silence.  tests/data/tiny has offices A and B.
+    from rebalance.verify import UNKNOWN_NAMES_LISTED
+
+    instance, result = tiny_plan
+    plan = result.plan
+    broken = replace(
+        plan,
+        details=add_rows(plan.details, detail("a1", "2027-Q1", "A", "Z")),
+        hires=add_rows(plan.hires, hire("A", "nothing", plan.hires.start_period.iloc[0], 1,
+                                        "new", 0, 0)),
+        work=add_rows(plan.work, *[{**plan.work.iloc[0].to_dict(), "period": f"2099-Q{i}"}
+                                   for i in range(UNKNOWN_NAMES_LISTED + 1)]))
+    found = [v for v in verify_plan(instance, broken) if v.rule == "unknown_reference"]
+    # The last of work.csv's is the "1 more rows whose period ..." line: it says them too.
+    assert found[-1].message.startswith("1 more rows")
+    assert {(v.where.split(":")[0], v.column, v.name_kind) for v in found} == {
+        ("details.csv", "to_office", "office"), ("hires.csv", "skill", "skill"),
+        ("work.csv", "period", "period")}
+    # A violation of any other rule names no column.
+    other = verify_plan(instance, replace(plan, coverage=plan.coverage.assign(priority=0.0)))
+    assert other and all(v.column is None and v.name_kind is None for v in other)
+
+
+def test_verify_plan_with_its_folder_names_the_files_there(tiny_plan, tmp_path):
+    # As unknown_names does: a re-plan verifies its old plan once, with the folder it was
+    # read from, and its refusals name the file to open.
+    instance, result = tiny_plan
+    broken = replace(result.plan, details=add_rows(result.plan.details,
+                                                   detail("nobody", "2027-Q1", "A", "B")))
+    found = verify_plan(instance, broken, folder=tmp_path)
+    assert [v.where for v in found] == [f"{tmp_path / 'details.csv'}:{len(broken.details) + 1}"]
+
+
 def test_a_costs_table_must_have_one_row_per_year_and_kind(tiny_plan):
     # An audit: a row "2027,onboarding,-1000000" ahead of the real one, or a row of a kind
     # that does not exist, had passed (the last of two rows won), and the report showed

@@ -73,7 +73,10 @@ def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
            folder: str | Path | None = None) -> Replan:
     """Re-plan ``instance`` from period index ``at`` keeping close to ``old`` (read from
     ``folder``, if given: problems with its tables then name their files there)."""
-    details, moves, past_work = _checked_past(instance, old, at, folder)
+    # Verified once: the refusals of its past and the violations reported beside the new
+    # plan both read it (it had been verified twice, a full pass each time).
+    verified = verify_plan(instance, old, folder=folder)
+    details, moves, past_work = _checked_past(instance, old, at, folder, verified)
 
     def pool_key(person: Person) -> Hashable:
         # The past work split too: a unit's members then had the same one, so the unit's
@@ -100,7 +103,7 @@ def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
                              past_work, at)
     # The old plan's coverage table and prices are bookkeeping at the old data's demand,
     # prices and horizon (a longer one adds years and salary periods): only its rules count.
-    old_violations = tuple(str(v) for v in verify_plan(instance, old)
+    old_violations = tuple(str(v) for v in verified
                            if not v.rule.startswith("coverage") and v.rule not in BOOKKEEPING)
     changes = _changes(instance, old, result.plan, costs) if result.plan is not None else \
         pd.DataFrame(columns=list(CHANGE_COLUMNS))

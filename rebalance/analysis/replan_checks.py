@@ -10,7 +10,6 @@ data, rather than dropped, clipped, counted double or left to come back as an in
 
 from __future__ import annotations
 
-import re
 from collections import defaultdict
 from collections.abc import Callable
 from pathlib import Path
@@ -19,7 +18,7 @@ from rebalance.analysis.limits import hire_rows
 from rebalance.instance import Instance, Person
 from rebalance.numbers import figures
 from rebalance.plan import Plan
-from rebalance.verify import unknown_names, verify_plan
+from rebalance.verify import Violation
 
 # The verifier's rules on a plan's own consistency, with the table each is about and what is
 # expected instead: they hold whatever data the plan is read against, unlike its coverage and
@@ -30,6 +29,11 @@ SELF_CONTRADICTIONS = {
     "one_reassignment": ("reassignments", "expected at most one reassignment per person"),
     "work_repeated": ("work", "expected one row per person, period, office and skill"),
 }
+
+
+# The verifier's rules on names and columns the instance lacks (verify.unknown_names): what
+# must hold before the old plan can be read against the data at all.
+REFERENCE_RULES = frozenset({"missing_column", "unknown_reference"})
 
 
 class ReplanError(ValueError):
@@ -47,20 +51,23 @@ NAMES_SHOWN = 8
 PastWork = tuple[int, int, str, str, float]
 
 
-def _checked_past(instance: Instance, old: Plan, at: int, folder: str | Path | None
+def _checked_past(instance: Instance, old: Plan, at: int, folder: str | Path | None,
+                  verified: list[Violation]
                   ) -> tuple[dict[str, dict[int, tuple[str, str]]], dict[str, tuple[int, str]],
                              dict[str, list[PastWork]]]:
     """The old plan's details (person -> period index -> route), reassignments (person ->
     (period index, office)) and work before ``at`` by person, once the current data are found
-    to allow all of its past; otherwise a ReplanError listing every refusal."""
+    to allow all of its past; otherwise a ReplanError listing every refusal.  ``verified`` is
+    ``verify_plan(instance, old, folder=folder)``, made once by the caller, which reports
+    the old plan's other violations from it too."""
     T = len(instance.periods)
     if not 0 <= at < T:
         raise ReplanError([f"period index {at} is outside the horizon (0..{T - 1})"])
-    unknown = unknown_names(instance, old, folder)
+    # Where names are unknown, the verifier stops at them: these are then all it found.
+    unknown = [v for v in verified if v.rule in REFERENCE_RULES]
     if unknown:  # an old plan of another instance, or one edited by hand
         # As read_plan's problems read: file:row: what is wrong (input, not a broken rule).
-        raise ReplanError([f"{v.where}: {v.message}{_expected(instance, v.message)}"
-                           for v in unknown])
+        raise ReplanError([f"{v.where}: {v.message}{_expected(instance, v)}" for v in unknown])
 
     def file(table: str) -> str:
         return f"{table}.csv" if folder is None else str(Path(folder) / f"{table}.csv")
@@ -68,7 +75,7 @@ def _checked_past(instance: Instance, old: Plan, at: int, folder: str | Path | N
     # An old plan that contradicts itself (a row pasted twice, say) is said first and alone:
     # the checks below read one detail per person and period, and the re-plan had carried
     # such a plan forward, counting it double in replan.csv (sweep).
-    contradictions = _self_contradictions(instance, old, file)
+    contradictions = _self_contradictions(old, file, verified)
     if contradictions:
         raise ReplanError(contradictions)
 
@@ -112,20 +119,19 @@ def _checked_past(instance: Instance, old: Plan, at: int, folder: str | Path | N
     return details, moves, past_work
 
 
-def _expected(instance: Instance, message: str) -> str:
-    """``; expected ...`` for a verifier message saying a name of the old plan is not in the
-    instance ("period '2028-Q2' is not in the instance"); "" for any other message."""
-    found = (re.match(r"(\w+) '", message)
-             or re.search(r"whose (\w+) is not in the instance", message))
-    column = found.group(1) if found else ""
+def _expected(instance: Instance, violation: Violation) -> str:
+    """``; expected ...`` for a verifier violation saying a name of the old plan is not in
+    the instance ("period '2028-Q2' is not in the instance"), from the kind of name it says
+    its column holds (not from its wording); "" for any other violation."""
+    kind = violation.name_kind
     names = instance.period_names
-    if column in ("period", "start_period"):
+    if kind == "period":
         return f"; expected a period of the instance's horizon ({names[0]} to {names[-1]})"
-    if column == "person":
+    if kind == "person":
         return "; expected a person of staff.csv"
-    if column in ("office", "from_office", "to_office"):
+    if kind == "office":
         what, table, listed = "an office", "offices.csv", [o.name for o in instance.offices]
-    elif column == "skill":
+    elif kind == "skill":
         what, table, listed = "a skill", "skills.csv", [k.name for k in instance.skills]
     else:
         return ""
@@ -133,14 +139,15 @@ def _expected(instance: Instance, message: str) -> str:
     return f"; expected {what} of {table} ({', '.join(listed[:NAMES_SHOWN])}{more})"
 
 
-def _self_contradictions(instance: Instance, old: Plan,
-                         file: Callable[[str], str]) -> list[str]:
+def _self_contradictions(old: Plan, file: Callable[[str], str],
+                         verified: list[Violation]) -> list[str]:
     """Where the old plan contradicts itself, whatever the data: the verifier's rules of
-    :data:`SELF_CONTRADICTIONS`, and a hire row repeated (the plan writes one per office,
-    skill, start period and funding; a second counts the hires twice)."""
+    :data:`SELF_CONTRADICTIONS` among ``verified`` (its violations), and a hire row repeated
+    (the plan writes one per office, skill, start period and funding; a second counts the
+    hires twice)."""
     problems = [f"{file(SELF_CONTRADICTIONS[v.rule][0])}: {v.where}: {v.message}; "
                 f"{SELF_CONTRADICTIONS[v.rule][1]}"
-                for v in verify_plan(instance, old) if v.rule in SELF_CONTRADICTIONS]
+                for v in verified if v.rule in SELF_CONTRADICTIONS]
     first: dict[tuple[str, str, str, str], int] = {}
     for line, h in enumerate(hire_rows(old), 2):
         key = (h.office, h.skill, h.start_period, h.funding)

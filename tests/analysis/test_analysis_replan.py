@@ -21,9 +21,11 @@ from rebalance.analysis.replan import (
     replan,
     work_split_changes,
 )
+from rebalance.analysis.replan_checks import _expected
 from rebalance.analysis.scenarios import DemandChange, Scenario, apply_scenario
 from rebalance.instance import Budget, Instance
 from rebalance.plan import Plan, coverage_table
+from rebalance.verify import Violation
 
 
 def _actions(plan: Plan) -> tuple[list[tuple[object, ...]], ...]:
@@ -659,6 +661,65 @@ def test_an_unknown_name_in_the_old_plan_says_what_is_expected(tiny) -> None:
         "expected a period of the instance's horizon (2027-Q1 to 2027-Q4)",
         "details.csv:3: to_office 'Z' is not in the instance; expected an office of "
         "offices.csv (A, B)"]
+
+
+def test_the_expected_hint_follows_the_violations_fields_not_its_wording(tiny) -> None:
+    # The hint had been read back out of the verifier's message with a regex ("(\w+) '"):
+    # a reworded message lost it in silence.  It now follows the violation's column and kind
+    # of name (rebalance.verify.Violation); tests/data/tiny runs 2027-Q1 to 2027-Q4, offices
+    # A and B.
+    def reworded(column: str | None, kind: str | None) -> Violation:
+        return Violation("unknown_reference", "details.csv:2", "no such name here: 'x'",
+                         column, kind)  # type: ignore[arg-type]
+
+    assert _expected(tiny, reworded("start_period", "period")) == (
+        "; expected a period of the instance's horizon (2027-Q1 to 2027-Q4)")
+    assert _expected(tiny, reworded("from_office", "office")) == (
+        "; expected an office of offices.csv (A, B)")
+    assert _expected(tiny, reworded("person", "person")) == "; expected a person of staff.csv"
+    # A missing column, or any other violation, names no kind: no hint.
+    assert _expected(tiny, reworded(None, None)) == ""
+
+
+def test_many_unknown_names_in_the_old_plan_say_what_is_expected_too(tiny) -> None:
+    # The verifier lists the first few unknown names of a column and counts the rest in one
+    # line ("N more rows whose ..."); that line gets the hint as the listed ones do.
+    from rebalance.verify import UNKNOWN_NAMES_LISTED
+
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    work = base.plan.work.copy()
+    work.loc[:UNKNOWN_NAMES_LISTED + 1, "skill"] = "juggling"
+    with pytest.raises(ReplanError) as refused:
+        replan(tiny, replace(base.plan, work=work), 2, exact_options(tiny))
+    hint = "; expected a skill of skills.csv (review, intake)"
+    assert len(refused.value.problems) == UNKNOWN_NAMES_LISTED + 1
+    assert all(p.endswith(hint) for p in refused.value.problems), refused.value.problems
+    assert refused.value.problems[-1] == (
+        f"work.csv: 2 more rows whose skill is not in the instance{hint}")
+
+
+def test_the_old_plan_is_verified_once(tiny, monkeypatch) -> None:
+    # The refusals of its past (names, then contradictions) and the old_plan_violations
+    # beside the new plan had each run the verifier on the old plan, three checkers in all;
+    # one pass now serves them.  Counted at the verifier's checker, whoever calls it.
+    from rebalance import verify
+
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    old = base.plan
+    checked: list[Plan] = []
+    real = verify._Checker.__init__
+
+    def counted(self: verify._Checker, instance: Instance, plan: Plan,
+                folder: object = None) -> None:
+        checked.append(plan)
+        real(self, instance, plan, folder)  # type: ignore[arg-type]
+
+    monkeypatch.setattr(verify._Checker, "__init__", counted)
+    out = replan(tiny, old, 2, exact_options(tiny))
+    assert out.result.verified and out.old_plan_violations == ()
+    assert sum(plan is old for plan in checked) == 1
 
 
 def test_work_split_changes_are_counted_though_they_cost_no_disruption(tiny) -> None:

@@ -117,8 +117,7 @@ def solve(model: Model, options: SolveOptions, instance: Instance | None = None)
         say("weighted: least cost + shortfall_cost x weighted shortfall")
         out, _ = solve_stage(backend, model, objective, [], options,
                              deadline - _undo_reserve(model, options), None, say)
-        out = _undo_unpaid(backend, model, out, objective, [], options, deadline, say)
-        out = settled(model, out, objective, options.relative_gap)
+        out = _last_stage_finished(backend, model, out, objective, [], options, deadline, say)
         stages.append(_stage("weighted", out))
         # The work split to the least shortfall, people, moves and hires held: it costs
         # nothing, so it never worsens the objective, and where shortfall is priced at 0 the
@@ -168,9 +167,8 @@ def solve(model: Model, options: SolveOptions, instance: Instance | None = None)
         stages.append(_stage("cost", _unimproved(model, first, second.bound, second.words)))
         return _finish(model, backend, options, stages, first, started, deadline,
                        final_status=Status.FEASIBLE_WITH_GAP)
-    second = _undo_unpaid(backend, model, second, model.cost,
+    second = _last_stage_finished(backend, model, second, model.cost,
                           [(model.shortfall_weight, held)], options, deadline, say)
-    second = settled(model, second, model.cost, options.relative_gap)
     stages.append(_stage("cost", second))
     status = Status.OPTIMAL if (first.status is Status.OPTIMAL
                                 and second.status is Status.OPTIMAL) else Status.FEASIBLE_WITH_GAP
@@ -205,23 +203,23 @@ def polish(backend: Backend, model: Model, out: BackendOutcome, options: SolveOp
     return out if split is None else replace(out, x=split.x)
 
 
-def _undo_unpaid(backend: Backend, model: Model, out: BackendOutcome, objective: np.ndarray,
+def _last_stage_finished(backend: Backend, model: Model, out: BackendOutcome, objective: np.ndarray,
                  extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
                  deadline: float, say: Callable[[str], None]) -> BackendOutcome:
-    """A re-plan's last stage with the changes against its old plan that do not pay undone
-    (:func:`~rebalance.heuristics.toward_hint`); ``out`` itself where the model has no old
-    plan or the time is short."""
+    """The last stage's outcome, settled (:func:`settled`), with the changes against the
+    model's hint (a re-plan's old plan, a scenario's base plan) that do not pay undone
+    first (:func:`~rebalance.heuristics.toward_hint`) where there is a hint and time."""
     left = min(UNDO_SECONDS, deadline - time.perf_counter())
-    if model.hint is None or out.x is None or left < MIN_POLISH_SECONDS:
-        return out
-    x = toward_hint(backend, model, objective, extra_rows, options, out.x, left, say)
-    if x is out.x:
-        return out
-    return _with_floor(replace(out, x=x, objective=float(objective @ x)), options.relative_gap)
+    if model.hint is not None and out.x is not None and left >= MIN_POLISH_SECONDS:
+        x = toward_hint(backend, model, objective, extra_rows, options, out.x, left, say)
+        if x is not out.x:
+            out = _with_floor(replace(out, x=x, objective=float(objective @ x)),
+                              options.relative_gap)
+    return settled(model, out, objective, options.relative_gap)
 
 
 def _undo_reserve(model: Model, options: SolveOptions) -> float:
-    """Seconds a re-plan's last stage leaves for :func:`_undo_unpaid`, which a stage run to
+    """Seconds a re-plan's last stage leaves for :func:`_last_stage_finished`, which a stage run to
     its limit would otherwise never get: a tenth of the limit, at most :data:`UNDO_SECONDS`."""
     return 0.0 if model.hint is None else min(UNDO_SECONDS, 0.1 * options.time_limit_seconds)
 

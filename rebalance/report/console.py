@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import math
+import textwrap
 from collections.abc import Sequence
 
 import numpy as np
@@ -197,16 +198,50 @@ def _run_rate_lines(result: PlanResult) -> list[str]:
     return [*lines, f"  warning: {warning}"] if warning else lines
 
 
+# A normal terminal's width, which no line of the limits block passes: the demo's seats,
+# said in full, had made one line of about 200 characters.
+LINE_CHARS = 100
+# Most lines one kind of limit takes; beyond them it is counted, and the page and the
+# workbook (which have room) list it all.
+LIMIT_LINES = 3
+LEFT_OUT = "... (the page and the workbook list them all)"
+
+
 def _limit_lines(result: PlanResult) -> list[str]:
-    """:data:`LIMITS_TITLE` and one line per kind of limit at its cap."""
+    """:data:`LIMITS_TITLE` and a line or a few per kind of limit at its cap, each within
+    :data:`LINE_CHARS`."""
     if result.plan is None:
         return []
     found = limits_at_cap(result.instance, result.plan)
     if not found:
         return [f"  {LIMITS_TITLE}: none is at its cap"]
     width = max(len(line.words) for line in found)
-    return [f"  {LIMITS_TITLE}: {LIMITS_LEAD[0]}", f"  {LIMITS_LEAD[1]}:"] + [
-        f"    {line.words.ljust(width)}  {line.text}" for line in found]
+    lines = [f"  {LIMITS_TITLE}: {LIMITS_LEAD[0]}", f"  {LIMITS_LEAD[1]}:"]
+    indent = " " * (4 + width + 2)
+    for line in found:
+        texts = fitted_lines(line.text, line.total, LINE_CHARS - len(indent))
+        lines.append(f"    {line.words.ljust(width)}  {texts[0]}")
+        lines += [indent + text for text in texts[1:]]
+    return lines
+
+
+def fitted_lines(text: str, total: str, chars: int, most: int = LIMIT_LINES) -> list[str]:
+    """``text`` wrapped at spaces into lines of at most ``chars`` characters; where that takes
+    more than ``most`` lines, ``total`` (what the text counts) and as many of its
+    "; "-separated entries as still fit, then :data:`LEFT_OUT`.  A word longer than
+    ``chars`` (a very long office name) keeps its own line whole."""
+    def wrapped(words: str) -> list[str]:
+        return textwrap.wrap(words, chars, break_long_words=False, break_on_hyphens=False)
+
+    lines = wrapped(text)
+    if len(lines) <= most:
+        return lines
+    entries = text.split("; ")
+    for kept in range(len(entries) - 1, 0, -1):
+        lines = wrapped(f"{total}: " + "; ".join(entries[:kept]) + f"; {LEFT_OUT}")
+        if len(lines) <= most:
+            return lines
+    return wrapped(f"{total} {LEFT_OUT.removeprefix('... ')}")
 
 
 def format_outcome(result: PlanResult, *, replan: bool = False) -> str:

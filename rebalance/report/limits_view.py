@@ -52,12 +52,14 @@ KIND_WORDS = (("seats", "seats full"),
 class LimitLine:
     """One kind of limit at its cap: ``words`` name it, ``text`` says where and when, and
     ``at_cap`` lists each (where, period) at its cap (period "" for a whole-horizon limit,
-    a budget year's name for a budget)."""
+    a budget year's name for a budget).  ``total`` counts what ``text`` lists ("6 offices
+    in 36 office-periods"), for a surface too narrow to list it all."""
 
     kind: str
     words: str
     text: str
     at_cap: tuple[tuple[str, str], ...]
+    total: str = ""
 
 
 def period_spans(indices: Sequence[int], names: Sequence[str]) -> str:
@@ -92,6 +94,16 @@ def _by_office(uses: Sequence[LimitUse], instance: Instance) -> str:
     ranked = sorted(groups.items(), key=lambda g: -len(g[0]))
     return "; ".join(f"{_and(offices)} {period_spans(list(key), names)}"
                      for key, offices in ranked)
+
+
+def _office_total(uses: Sequence[LimitUse]) -> str:
+    offices = len({use.where for use in uses})
+    return (f"{_counted(offices, 'office')} in "
+            f"{_counted(len({(u.where, u.period) for u in uses}), 'office-period')}")
+
+
+def _counted(count: int, noun: str) -> str:
+    return f"{count:,} {noun}{'' if count == 1 else 's'}"
 
 
 def _and(words: Sequence[str]) -> str:
@@ -152,15 +164,18 @@ def limits_at_cap(instance: Instance, plan: Plan) -> tuple[LimitLine, ...]:
         if not uses:
             continue
         if kind in ("seats", "max_hires", "away_share"):
-            text = _by_office(uses, instance)
-        elif kind == "hiring_budget":
-            text = _budget_text(uses, currency, "hire")
-        elif kind == "moves_budget":
-            text = _budget_text(uses, currency, "detail")
+            text, total = _by_office(uses, instance), _office_total(uses)
+        elif kind in ("hiring_budget", "moves_budget"):
+            action = "hire" if kind == "hiring_budget" else "detail"
+            text = _budget_text(uses, currency, action)
+            total = (f"{_counted(len(uses), 'budget year')} with too little left for one "
+                     f"more {action}")
         else:  # vacancies: "skill at office", funded over the whole horizon
             text = "all of them used (" + ", ".join(
                 f"{u.where} {number_text(u.cap)}" for u in uses) + ")"
-        out.append(LimitLine(kind, words, text, tuple((u.where, u.period) for u in uses)))
+            total = f"all of them used at {_counted(len(uses), 'skill-office pair')}"
+        out.append(LimitLine(kind, words, text, tuple((u.where, u.period) for u in uses),
+                             total))
     return tuple(out)
 
 

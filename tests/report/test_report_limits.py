@@ -21,7 +21,7 @@ from report_cases import TINY, page_text
 from rebalance import read_instance
 from rebalance.instance import Budget
 from rebalance.planning import PlanResult
-from rebalance.report.console import format_summary
+from rebalance.report.console import LINE_CHARS, fitted_lines, format_summary
 from rebalance.report.html import render_html
 from rebalance.report.inputs import report_data
 from rebalance.report.limits_view import (
@@ -174,3 +174,66 @@ def test_periods_are_listed_compactly():
     assert period_spans([2, 3, 4, 5], names) == "2027-Q3 to 2028-Q2 (4 periods)"
     assert period_spans([0, 2, 3], names) == "2027-Q1, 2027-Q3 to 2027-Q4 (3 periods)"
     assert period_spans([1], names) == "2027-Q2"
+
+
+# -- many offices: the console block fits a terminal ----------------------------------------
+
+LONG_OFFICES = 8
+
+
+def _many_seats_short(folder: Path) -> Path:
+    """tests/data/seats_short with office A copied :data:`LONG_OFFICES` times under long
+    names, each with its own five people and demand (B, with room for them all, as before)."""
+    folder.mkdir()
+    for name in ("budget.csv", "skills.csv", "settings.toml"):
+        (folder / name).write_text((SEATS_SHORT / name).read_text())
+    offices = ["office,location,seats,max_hires_per_period", "B,Birch,100,0"]
+    staff = (SEATS_SHORT / "staff.csv").read_text().splitlines()
+    demand = (SEATS_SHORT / "demand.csv").read_text().splitlines()
+    people, rows = staff[:1] + [s for s in staff if s.startswith("b1,")], demand[:1] + [
+        d for d in demand if d.startswith("B,")]
+    for k in range(1, LONG_OFFICES + 1):
+        office = f"regional-casework-office-{k:02d}"
+        offices.append(f"{office},Alder,2,0")
+        people += [f"{office}-{s.replace(',A,', f',{office},', 1)}" for s in staff
+                   if s.startswith("a")]
+        rows += [office + d[1:] for d in demand if d.startswith("A,")]
+    for name, lines in (("offices.csv", offices), ("staff.csv", people), ("demand.csv", rows)):
+        (folder / name).write_text("\n".join(lines) + "\n")
+    return folder
+
+
+def test_the_console_limits_block_fits_a_terminal_and_the_page_and_workbook_list_all(
+        tmp_path):
+    # Hand count as for seats_short (NOTE.md), once per copy of A: each copy's 2 seats are
+    # full and its share away at its cap in all 4 quarters, so 8 offices in 8 x 4 = 32
+    # office-periods for each.  Said in full that is one line of over 200 characters (the
+    # demo's seats line had been about 200); a terminal is taken as 100 wide (console.py).
+    result = _solved(str(_many_seats_short(tmp_path / "many")))
+    offices = [f"regional-casework-office-{k:02d}" for k in range(1, LONG_OFFICES + 1)]
+    at_cap = _at_cap(result)
+    assert at_cap["seats"] == {(o, q) for o in offices for q in QUARTERS}
+    console = format_summary(result)
+    block = console[console.index(LIMITS_TITLE):].split("\n\n")[0].splitlines()
+    assert all(len(line) <= LINE_CHARS for line in block), block
+    assert any("seats full" in line and "8 offices in 32 office-periods" in line
+               for line in block), block
+    assert any("share away" in line for line in block)
+    full = ", ".join(offices[:-1]) + f" and {offices[-1]} all 4 periods"
+    assert f"seats full: {full}" in _page(result)  # the page keeps every office
+    assert _summary_rows(result, tmp_path)["seats full"] == full  # and so does the workbook
+
+
+def test_long_limit_text_is_wrapped_then_counted():
+    # Hand-written: the demo's seats text (instances/demo, `rebalance plan`), 190 characters.
+    text = ("port-ilse-central all 8 periods; fenmarch-north and fenmarch-south 2027-Q2 to "
+            "2028-Q4 (7 periods); port-ilse-harbour 2027-Q4 to 2028-Q4 (5 periods); "
+            "aldercombe 2027-Q3 to 2028-Q2 (4 periods)")
+    total = "5 offices in 31 office-periods"  # 8 + 7 + 7 + 5 + 4
+    wrapped = fitted_lines(text, total, 75)
+    assert len(wrapped) == 3 and " ".join(wrapped) == text  # all of it, on three lines
+    assert all(len(line) <= 75 for line in wrapped)
+    counted = fitted_lines(text, total, 50)
+    assert " ".join(counted).startswith(f"{total}: port-ilse-central all 8 periods;")
+    assert " ".join(counted).endswith("(the page and the workbook list them all)")
+    assert len(counted) <= 3 and all(len(line) <= 50 for line in counted)

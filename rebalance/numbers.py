@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterable, Sequence
+from decimal import Context, Decimal
 from numbers import Real
 
 __all__ = [
@@ -19,6 +20,7 @@ __all__ = [
     "GAP_DIGITS",
     "MONEY_WORDS",
     "NEAR_ZERO",
+    "PLAIN_BELOW",
     "SECONDS_DIGITS",
     "SHARE_DIGITS",
     "TABLE_DIGITS",
@@ -40,6 +42,7 @@ __all__ = [
     "money_text",
     "number_rule",
     "number_text",
+    "plain_number",
     "seconds_text",
     "share_of",
     "share_text",
@@ -70,6 +73,14 @@ SECONDS_DIGITS = 2
 # From this size up a figure takes no decimals anywhere: they are noise beside its digits.
 WHOLE_FROM = 1000
 
+# A number someone typed (a setting, a bound of what one may type) is written with all its
+# digits and separators below this size, as money is; from it up, and for a non-zero number
+# under PLAIN_SMALLEST, as "1e18" (TOML's own spelling): 1e308 has 309 digits.
+PLAIN_BELOW = 1e15
+PLAIN_SMALLEST = 1e-4
+# Significant digits kept of a number written with an exponent: a float's full precision.
+PLAIN_EXPONENT_DIGITS = 17
+
 
 def is_gap(column: str) -> bool:
     """A column holding a relative gap (``gap``, ``stage_gap``, ``gap_at_stop``)."""
@@ -95,6 +106,30 @@ def money_text(value: float) -> str:
         return f"{v:,.0f}"
     # round() gives an int, which has no "-0" (-0.00017 of solver dust had shown as "-0").
     return f"{round(v):,d}"
+
+
+def plain_number(value: float) -> str:
+    """A number given in an input, for a message echoing it: ``1e13`` as
+    ``10,000,000,000,000`` (Python's ``1e+13`` had read as code to a planner, a sweep), every
+    digit it has (not ``:g``'s six: 0.1234567 had shown as 0.123457), separators as in money;
+    :data:`PLAIN_BELOW` and up (and tiny ones) as ``1e18``, ``2.5e-7``; inf and nan as TOML
+    writes them."""
+    if isinstance(value, int) and not isinstance(value, bool):
+        if abs(value) < PLAIN_BELOW:
+            return f"{value:,d}"
+        # An integer past a float's range (a TOML integer of 400 digits) still has a size.
+        exact = Decimal(value)
+    else:
+        v = float(value)
+        if not math.isfinite(v):
+            return str(v)
+        if v.is_integer() and abs(v) < PLAIN_BELOW:
+            return f"{int(v):,d}"
+        if PLAIN_SMALLEST <= abs(v) < PLAIN_BELOW:
+            return f"{v:,}"  # the shortest digits that read back as v, without an exponent
+        exact = Decimal(repr(v))
+    short = exact.normalize(Context(prec=PLAIN_EXPONENT_DIGITS))
+    return f"{short:e}".replace("e+", "e")
 
 
 def with_currency(text: str, currency: str | None) -> str:

@@ -10,6 +10,8 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 from typing import Any, TypeGuard
 
+from rebalance.numbers import plain_number
+
 __all__ = ["Problem", "did_you_mean", "is_finite_number", "range_words"]
 
 # How alike a name must be to a known one to be suggested (difflib's ratio, 0 to 1): 0.6,
@@ -56,18 +58,20 @@ def did_you_mean(value: str, names: Iterable[Any]) -> str:
 def range_words(minimum: float | None, maximum: float | None, *, open_minimum: bool = False,
                 open_maximum: bool = False, integer: bool = False) -> str:
     """The values a bound allows, in plain words: ``a number above 0 and at most 1``, ``a
-    whole number from 1 to 90``, ``a number >= 0``; ``open_`` excludes that bound."""
+    whole number from 1 to 90``, ``a number >= 0``; ``open_`` excludes that bound.  Bounds
+    are written by :func:`plain_number` (``to 1,000,000,000,000``, not ``to 1e+12``)."""
     kind = "a whole number" if integer else "a number"
+    low, high = (None if b is None else plain_number(b) for b in (minimum, maximum))
     if minimum is not None and maximum is not None:
         if not open_minimum and not open_maximum:
-            return f"{kind} from {minimum:g} to {maximum:g}"
-        low = f"above {minimum:g}" if open_minimum else f"at least {minimum:g}"
-        high = f"below {maximum:g}" if open_maximum else f"at most {maximum:g}"
+            return f"{kind} from {low} to {high}"
+        low = f"above {low}" if open_minimum else f"at least {low}"
+        high = f"below {high}" if open_maximum else f"at most {high}"
         return f"{kind} {low} and {high}"
     if minimum is not None:
-        return f"{kind} {'>' if open_minimum else '>='} {minimum:g}"
+        return f"{kind} {'>' if open_minimum else '>='} {low}"
     if maximum is not None:
-        return f"{kind} {'<' if open_maximum else '<='} {maximum:g}"
+        return f"{kind} {'<' if open_maximum else '<='} {high}"
     return kind
 
 

@@ -11,6 +11,7 @@ from collections.abc import Mapping
 from typing import Any, TypeGuard
 
 from rebalance.instance import Money, MoveCostDefaults, Objective, Period, Policy, SolverSettings
+from rebalance.numbers import plain_number
 from rebalance.problems import Problem, did_you_mean, is_finite_number, range_words
 
 __all__ = [
@@ -78,12 +79,13 @@ def _whole(value: Any) -> TypeGuard[int | float]:
 
 
 def _shown(value: Any) -> str:
-    """A settings value quoted as TOML spells it (``true``, not Python's ``True``; ``1e+13``,
-    not its digits), for messages."""
+    """A settings value quoted for messages: ``true`` as TOML spells it, not Python's
+    ``True``; a number as :func:`plain_number` writes it (``1e13`` as 10,000,000,000,000,
+    not Python's ``1e+13``, a sweep)."""
     if isinstance(value, bool):
         return "'true'" if value else "'false'"
-    if isinstance(value, float):
-        return f"'{value:g}'"
+    if isinstance(value, int | float):
+        return f"'{plain_number(value)}'"
     if isinstance(value, dict):
         return "a table"
     if isinstance(value, list):

@@ -11,6 +11,7 @@ from conftest import DATA
 
 from rebalance import InstanceError, read_instance
 from rebalance.cli import EXIT_INFEASIBLE, EXIT_INVALID_INPUT, main
+from rebalance.numbers import plain_number
 
 BAD = DATA / "bad"
 
@@ -289,8 +290,9 @@ def test_settings_numbers_are_finite_and_shortfall_cost_is_bounded(tmp_path):
     text = settings.read_text()
     for line, expected in (
             ("shortfall_cost = inf", "objective.shortfall_cost: 'inf' is not valid; expected a "
-                                     "number from 0 to 1e+12"),
-            ("shortfall_cost = 1e13", "objective.shortfall_cost: '1e+13' is not valid"),
+                                     "number from 0 to 1,000,000,000,000"),
+            ("shortfall_cost = 1e13", "objective.shortfall_cost: '10,000,000,000,000' is not "
+                                      "valid"),
             ("time_limit_seconds = nan", "solver.time_limit_seconds: 'nan' is not valid")):
         section = "[solver]" if "time_limit" in line else "[objective]"
         settings.write_text(text.replace(section, "") + f"\n{section}\n{line}\n")
@@ -299,6 +301,41 @@ def test_settings_numbers_are_finite_and_shortfall_cost_is_bounded(tmp_path):
     settings.write_text(text.replace("hours_per_fte = 480", "hours_per_fte = inf"))
     assert _problems(target) == ["settings.toml: horizon.hours_per_fte: 'inf' is not valid; "
                                  "expected a number > 0"]
+
+
+def test_big_and_small_settings_numbers_are_echoed_as_a_planner_writes_them(tmp_path):
+    # A sweep: shortfall_cost = 1e13 came back as '1e+13' (Python's spelling) against a bound
+    # of "1e+12".  Hand arithmetic: 1e13 is 10^13, 1 and 13 zeros; 1e12 is 1 and 12 zeros;
+    # 1e300 has 301 digits, so it keeps TOML's short spelling (TOML 1.0.0 spec, "Float":
+    # "an exponent part ... an E (upper or lower case), followed by an integer part").
+    target = overlay(BAD / "empty_demand", tmp_path / "i")
+    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    settings = target / "settings.toml"
+    text = settings.read_text()
+    for line, shown, bound in (
+            ("shortfall_cost = 1e13", "'10,000,000,000,000'", "from 0 to 1,000,000,000,000"),
+            ("shortfall_cost = 1e300", "'1e300'", "from 0 to 1,000,000,000,000"),
+            ("shortfall_tolerance = 0.1234567", "'0.1234567'", "from 0 to 0.1"),
+            ("shortfall_tolerance = -2.5e-7", "'-2.5e-7'", "from 0 to 0.1")):
+        settings.write_text(text.replace("[objective]", "") + f"\n[objective]\n{line}\n")
+        problems = _problems(target)
+        assert len(problems) == 1, problems
+        assert f"{shown} is not valid; expected a number {bound}" in problems[0]
+        assert "e+" not in problems[0]
+
+
+@pytest.mark.parametrize(("value", "expected"), [
+    # Hand-written: 10^13 with separators every three digits, as money_text writes amounts.
+    (1e13, "10,000,000,000,000"), (10**13, "10,000,000,000,000"),
+    (-1e12, "-1,000,000,000,000"), (400, "400"), (0.0, "0"), (-0.0, "0"),
+    # Every digit given, not :g's six (0.1234567 had read 0.123457).
+    (0.1234567, "0.1234567"), (1234567.5, "1,234,567.5"),
+    # From PLAIN_BELOW (10^15) up and below 10^-4: TOML's exponent spelling, no "+" or 0s.
+    (1e15, "1e15"), (1e18, "1e18"), (1e300, "1e300"), (10**400, "1e400"), (2.5e-7, "2.5e-7"),
+    (float("inf"), "inf"), (float("nan"), "nan"),
+])
+def test_plain_number_writes_an_input_number_readably(value, expected):
+    assert plain_number(value) == expected
 
 
 def test_the_count_of_problems_includes_the_rows_a_repeat_stands_for(tmp_path, capsys):
@@ -456,7 +493,7 @@ def test_a_whole_float_is_a_whole_number_in_settings_as_in_cells(tmp_path):
     # A typo of 1e18 quarters had the reader try to list that many periods.
     settings.write_text(text.replace("count = 4.0", "count = 1e18"))
     assert _problems(target) == [
-        "settings.toml: horizon.count: '1e+18' is not valid; expected a whole number from 1 to "
+        "settings.toml: horizon.count: '1e18' is not valid; expected a whole number from 1 to "
         "400"]
 
 

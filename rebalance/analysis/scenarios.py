@@ -24,6 +24,7 @@ import pandas as pd
 from rebalance.analysis.limits import hire_rows
 from rebalance.analysis.start_plan import from_plan
 from rebalance.instance import Budget, Demand, Instance
+from rebalance.numbers import plain_number
 from rebalance.plan import Plan
 from rebalance.planning import PlanResult, make_plan
 from rebalance.problems import Problem, did_you_mean, is_finite_number, range_words
@@ -139,7 +140,7 @@ def _number(raw: Any, default: float, where: str, problems: list[Problem], file:
     if isinstance(raw, bool) or not isinstance(raw, int | float):
         problems.append(Problem(file, None, where, f"'{raw}' is not a number; {what}"))
         return default
-    shown = f"{raw:g}" if isinstance(raw, float) else raw  # 1e+13, not 1e13's digits
+    shown = plain_number(raw)
     if not is_finite_number(raw):
         problems.append(Problem(file, None, where, f"'{shown}' is not a finite number; {what}"))
         return default

@@ -48,17 +48,17 @@ def test_priority_zero_is_kept(tmp_path: Path, tiny) -> None:
 
 
 @pytest.mark.parametrize(("table", "key", "value", "expected"), [
-    ("demand", "multiplier", "nan", "a number from 0 to 1000"),
-    ("demand", "multiplier", "inf", "a number from 0 to 1000"),
-    ("demand", "multiplier", "1e308", "a number from 0 to 1000"),
-    ("demand", "multiplier", "1" + "0" * 400, "a number from 0 to 1000"),
-    ("demand", "add_fte", "nan", "a number from -100000 to 100000"),
-    ("demand", "add_fte", "-inf", "a number from -100000 to 100000"),
+    ("demand", "multiplier", "nan", "a number from 0 to 1,000"),
+    ("demand", "multiplier", "inf", "a number from 0 to 1,000"),
+    ("demand", "multiplier", "1e308", "a number from 0 to 1,000"),
+    ("demand", "multiplier", "1" + "0" * 400, "a number from 0 to 1,000"),
+    ("demand", "add_fte", "nan", "a number from -100,000 to 100,000"),
+    ("demand", "add_fte", "-inf", "a number from -100,000 to 100,000"),
     ("demand", "priority", "nan", "a number >= 0"),
     ("demand", "priority", "inf", "a number >= 0"),
-    ("budget", "hiring_add", "nan", "a number from -1e+12 to 1e+12"),
-    ("budget", "moves_add", "nan", "a number from -1e+12 to 1e+12"),
-    ("budget", "hiring_add", "1e300", "a number from -1e+12 to 1e+12"),
+    ("budget", "hiring_add", "nan", "a number from -1,000,000,000,000 to 1,000,000,000,000"),
+    ("budget", "moves_add", "nan", "a number from -1,000,000,000,000 to 1,000,000,000,000"),
+    ("budget", "hiring_add", "1e300", "a number from -1,000,000,000,000 to 1,000,000,000,000"),
 ])
 def test_non_finite_or_absurd_numbers_are_rejected(tmp_path: Path, tiny, table: str, key: str,
                                                    value: str, expected: str) -> None:
@@ -80,7 +80,7 @@ def test_bad_numbers_are_listed_with_the_other_problems(tmp_path: Path) -> None:
     for needle in ("colour: unknown key", "demand[1].multiplier: 'nan' is not a finite number",
                    "demand[1].add_fte: 'inf' is not a finite number",
                    "budget[1].hiring_add: 'nan' is not a finite number",
-                   "budget[1].moves_add: '1e+308' is out of range"):
+                   "budget[1].moves_add: '1e308' is out of range"):
         assert f"{path}: {needle}" in done.stderr, (needle, done.stderr)
     assert "Traceback" not in done.stderr and "internal error" not in done.stderr
     assert not out.exists()

@@ -12,6 +12,7 @@ from pathlib import Path
 import pandas as pd
 import pytest
 from report_cases import TINY, page_payload, tiny_analysis_folder, tiny_plan_folder
+from test_report_page_reading import ASSETS, _lab
 
 from rebalance import read_instance, read_plan
 from rebalance.planning import CAUTION
@@ -247,3 +248,50 @@ def test_the_heat_map_says_how_many_skills_are_short_beside_the_worst_three():
     heat = _heat(replace(data, plan=replace(data.plan, coverage=coverage)))
     cell = heat["cells"][heat["offices"].index("A")][0]
     assert cell["skills"] == ["s4", "s3", "s2"] and cell["skills_short"] == 5
+
+
+def _relative_luminance(colour: str) -> float:
+    """WCAG 2.1 relative luminance of a #rrggbb colour."""
+    def linear(c: float) -> float:
+        return c / 12.92 if c <= 0.04045 else ((c + 0.055) / 1.055) ** 2.4
+
+    r, g, b = (linear(int(colour[i:i + 2], 16) / 255) for i in (1, 3, 5))
+    return 0.2126 * r + 0.7152 * g + 0.0722 * b
+
+
+def test_frontier_lines_use_colours_that_mean_nothing_else_on_the_pages():
+    # A review: the frontier drew its lines in the staff blue and the shortfall brick.
+    # Source of the colours that mean something: the page's own keys, report.js (C, the budget
+    # parts PART, the heat scale HEAT, the skills SKILL) and report.css (:root); distance as
+    # CIE76 (as for the skills in test_report_page_reading.py); contrast as WCAG 2.1 (1.4.11:
+    # 3:1 for the parts of a graphic) against the sheet's white.
+    script = (ASSETS / "report.js").read_text(encoding="utf-8")
+    css = (ASSETS / "report.css").read_text(encoding="utf-8")
+
+    def hexes(text: str) -> list[str]:
+        return [c.lower() for c in re.findall(r"#[0-9a-fA-F]{6}\b", text)]
+
+    lines = hexes(re.search(r"var LINES = \[(.*?)\];", script, re.S).group(1))
+    keys = re.search(r"var C = \{(.*?)\};", script, re.S).group(1)
+    meaning = {c: "C" for c in hexes(keys)}
+    meaning |= {c: "PART" for c in hexes(re.search(r"var PART = \{(.*?)\};", script,
+                                                    re.S).group(1))}
+    meaning |= {c: "SKILL" for c in hexes(re.search(r"var SKILL = \[(.*?)\];", script,
+                                                    re.S).group(1))}
+    heat = re.search(r"var HEAT = \[(.*)\];", script).group(1)
+    meaning |= {"#" + "".join(f"{int(v):02x}" for v in rgb): "HEAT"
+                for rgb in re.findall(r"\[(\d+), (\d+), (\d+)\]", heat)}
+    for name in ("staff", "hire", "short", "detail", "move", "amber", "good", "fair", "bad"):
+        meaning[re.search(rf"--{name}: (#[0-9a-fA-F]{{6}})", css).group(1).lower()] = name
+    assert len(lines) >= 4 and len(meaning) >= 25
+
+    def distance(a: str, b: str) -> float:
+        return sum((x - y) ** 2 for x, y in zip(_lab(a), _lab(b), strict=True)) ** 0.5
+
+    white = _relative_luminance("#ffffff")
+    for colour in lines:
+        for other, where in meaning.items():
+            assert distance(colour, other) >= 20, f"line {colour} is near {other} ({where})"
+        assert (white + 0.05) / (_relative_luminance(colour) + 0.05) >= 3, colour
+    for a, b in itertools.combinations(lines, 2):
+        assert distance(a, b) >= 20, (a, b)

@@ -14,8 +14,11 @@
   // knee, the outcome greens and reds); each at least 20 CIE76 units from all of those.
   var SKILL = ["#2c5aa0", "#b8658f", "#8a6d4b", "#5aa89a", "#8fa3d6", "#2f5f5a", "#9c8f3a",
     "#5b4636", "#e0b4a4", "#d7c95a"];
-  // Frontier lines avoid amber, which marks the knee.
-  var LINES = ["#3f7f94", "#7b5a97", "#6c7a3a", "#c0533a", "#4e6a9c", "#a7825a"];
+  // Frontier lines mean only "this series": none near a colour that means something elsewhere
+  // on the pages (the keys above, the outcome greens and reds, the budget parts, the heat
+  // scale, the skills; staff blue and shortfall brick had drawn two of them), each at least
+  // 20 CIE76 units from all of those and from one another, 3:1 or more against the white.
+  var LINES = ["#9a1a66", "#0094d6", "#5a5a0a", "#a46fd8", "#2a2466", "#d65db1"];
   var HEAT = [[247, 244, 236], [240, 217, 166], [224, 146, 90], [178, 59, 44]];
 
   function el(tag, attrs, parent) {
@@ -633,6 +636,8 @@
   function scrollNotes() {
     document.querySelectorAll(".table-wrap").forEach(function (wrap) {
       var table = wrap.querySelector("table");
+      var before = wrap.previousElementSibling;
+      if (before && before.className === "scroll-note") { return; }  // said already
       if (!table || !table.tBodies.length || wrap.scrollHeight <= wrap.clientHeight + 1) { return; }
       var n = table.tBodies[0].rows.length;
       var note = document.createElement("p");
@@ -663,6 +668,10 @@
     document.body.setAttribute("data-charts-drawn", String(drawn));
     document.querySelectorAll("table.sortable").forEach(sortable);
     scrollNotes();
+    // A table folded away (the full reasons, below their summary) has no height until opened.
+    document.querySelectorAll("details").forEach(function (d) {
+      d.addEventListener("toggle", scrollNotes);
+    });
     tooltips();
   }
   if (document.readyState === "loading") { document.addEventListener("DOMContentLoaded", main); } else { main(); }

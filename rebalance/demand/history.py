@@ -19,6 +19,7 @@ from typing import Any
 
 import pandas as pd
 
+from rebalance.numbers import plain_number
 from rebalance.problems import Problem, did_you_mean, is_finite_number, range_words
 from rebalance.readers import InstanceError
 from rebalance.tables import (
@@ -332,12 +333,13 @@ def _in_range(value: Any, spec: Range) -> bool:
 
 
 def _shown(value: Any) -> str:
-    """A TOML value as the user wrote it (1e300, not its digits; nan; true)."""
+    """A TOML value as the user wrote it (true, not Python's True), a number as
+    :func:`~rebalance.numbers.plain_number` writes it (1e300, not Python's 1e+300)."""
     if isinstance(value, bool):
         return str(value).lower()
-    if isinstance(value, float):
-        return f"{value:g}"
-    if isinstance(value, int | str):
+    if isinstance(value, int | float):
+        return plain_number(value)
+    if isinstance(value, str):
         return str(value)
     return f"a {type(value).__name__}"
 

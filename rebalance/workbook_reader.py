@@ -45,6 +45,8 @@ PERIOD_COLUMNS = ("name", "year", "hours_per_fte")
 _NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
 # Columns that hold period names, by sheet: text, never a date.
 _PERIOD_CELLS = {"demand": ("period",), "staff": ("last_period",), PERIODS_SHEET: ("name",)}
+# Columns that hold budget years (names such as 2027 or FY27): never a date either.
+_YEAR_CELLS = {"budget": ("year",), PERIODS_SHEET: ("year",)}
 _PERIOD_KEY = re.compile(r"^horizon\.periods\[(\d+)\](?:\.(\w+))?$")
 
 
@@ -337,22 +339,31 @@ def _sheet(header: list[str], values: list[tuple[Any, ...]],
 
 def _dates_for_periods(sheets: Mapping[str, _Sheet],
                        label: Callable[[str], str]) -> list[Problem]:
-    """Errors for date cells where a period name is expected (a sweep: they had read as
-    "unknown period '2027-01-01T00:00:00'", or in the periods sheet named every period so)."""
+    """Errors for date cells where a period name or a budget year is expected (a sweep:
+    they had read as "unknown period '2027-01-01T00:00:00'", in the periods sheet named every
+    period so, and in the budget sheet as "budget year '2027-01-01' belongs to no period")."""
+    def period(day: dt.date) -> str:
+        return (f"not a period name; type the period name as text, e.g. "
+                f"{day.year}-Q{(day.month - 1) // 3 + 1}")
+
+    def year(day: dt.date) -> str:
+        return f"not a budget year; type the year's name as text, e.g. {day.year}"
+
     out = []
-    for name, columns in _PERIOD_CELLS.items():
-        sheet = sheets.get(name, _Sheet((), (), ()))
-        at = [(i, c) for i, c in enumerate(sheet.columns) if c.strip().lower() in columns]
-        for number, cells in enumerate(sheet.raw_rows, 2):
-            for i, column in at:
-                value = cells[i] if i < len(cells) else None
-                if isinstance(value, dt.datetime | dt.date):
-                    day = value.date() if isinstance(value, dt.datetime) else value
-                    shown = _text(value if value != dt.datetime.combine(day, dt.time()) else day)
-                    out.append(Problem(label(name), number, column, (
-                        f"the cell holds a date ({shown}), not a period name; type the "
-                        f"period name as text, e.g. {day.year}-Q{(day.month - 1) // 3 + 1} (a "
-                        "spreadsheet reads 2027-01-01 typed in a cell as a date)")))
+    for cells_of, what in ((_PERIOD_CELLS, period), (_YEAR_CELLS, year)):
+        for name, columns in cells_of.items():
+            sheet = sheets.get(name, _Sheet((), (), ()))
+            at = [(i, c) for i, c in enumerate(sheet.columns) if c.strip().lower() in columns]
+            for number, cells in enumerate(sheet.raw_rows, 2):
+                for i, column in at:
+                    value = cells[i] if i < len(cells) else None
+                    if isinstance(value, dt.datetime | dt.date):
+                        day = value.date() if isinstance(value, dt.datetime) else value
+                        shown = _text(value if value != dt.datetime.combine(day, dt.time())
+                                      else day)
+                        out.append(Problem(label(name), number, column, (
+                            f"the cell holds a date ({shown}), {what(day)} (a spreadsheet "
+                            "reads 2027-01-01 typed in a cell as a date)")))
     return out
 
 

@@ -225,6 +225,9 @@ def test_a_header_moved_down_is_said_first(tmp_path):
 
 
 def test_a_year_typed_as_a_date_is_one_problem_not_also_a_missing_year(tmp_path):
+    # And it says it is a date: "budget year '2027-01-01T00:00:00' belongs to no period" had
+    # read as a misspelt year (a sweep).  (A spreadsheet program reads 2027-01-01 typed in a
+    # cell as a date: the openpyxl and LibreOffice Calc documentation of cell types.)
     import datetime
 
     book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
@@ -234,7 +237,10 @@ def test_a_year_typed_as_a_date_is_one_problem_not_also_a_missing_year(tmp_path)
     with pytest.raises(InstanceError) as caught:
         read_workbook(book)
     text = [str(p) for p in caught.value.problems]
-    assert len(text) == 1 and "budget year '2027-01-01T00:00:00' belongs to no period" in text[0]
+    assert text == [
+        "tiny.xlsx[budget]:2: year: the cell holds a date (2027-01-01), not a budget year; "
+        "type the year's name as text, e.g. 2027 (a spreadsheet reads 2027-01-01 typed in a "
+        "cell as a date)"]
 
 
 def test_not_a_workbook(tmp_path):
@@ -617,3 +623,4 @@ def test_a_date_where_a_period_name_is_expected_is_one_problem_with_the_hint(tmp
             if not p.is_warning]
     assert said == [("named.xlsx[periods]", row, "name", f"the cell holds a date (2027-"
                      f"{3 * row - 5:02d}-01), not a period name") for row in (2, 3, 4, 5)]
+

@@ -379,8 +379,10 @@ def cmd_marginal(args: argparse.Namespace) -> int:
     if len(values.table):
         from rebalance.report.analysis_view import step_words
 
-        shown = values.table[["rank", "limit", "where", "step", "shortfall_reduction",
-                              "cost_change", "estimate_shortfall_reduction", "status"]].copy()
+        # The limit in words ("hiring budget 2027"); the CSV keeps its codes beside them.
+        shown = values.table[["rank", "limit_in_words", "step", "shortfall_reduction",
+                              "cost_change", "estimate_shortfall_reduction", "status"]].rename(
+            columns={"limit_in_words": "limit"})
         # A step with its unit, as the page writes it: "10" alone was seats or money.
         shown["step"] = [step_words(None if is_missing(step) else float(step),
                                     "" if is_missing(unit) else str(unit),
@@ -448,6 +450,7 @@ def add_analysis_commands(sub) -> None:
                    help="money a budget is relaxed by (default 100000)")
     p.add_argument("--max-resolves", type=COUNT,
                    help="re-solve only this many limits, those with the best estimates "
-                        "first (from LP re-solves with the limit moved, else LP duals)")
+                        "first (from LP re-solves with the limit moved, else LP duals); from "
+                        "2 on, a hiring (else moves) budget is kept among them")
     solver_options(p)
     p.set_defaults(run=cmd_marginal, output_kind="plan")

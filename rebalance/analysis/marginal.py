@@ -6,7 +6,7 @@ comes from a linear programme built from the model arrays, the integer decisions
 within one unit of the plan's values (fixing them outright would make every limit row, which
 holds integer columns only, a constant), solved as it is and again with each limit moved by
 its step.  The estimate ranks the limits and chooses which to re-solve when ``max_resolves``
-is set."""
+is set (keeping a budget among them: :func:`resolve_choice`)."""
 
 from __future__ import annotations
 
@@ -28,8 +28,9 @@ from rebalance.planning import PlanResult
 from rebalance.solve import SolveOptions, Status
 from rebalance.split import solve_relaxation
 
-__all__ = ["MARGINAL_COLUMNS", "STEP_UNITS", "Candidate", "MarginalValues", "StepUnit", "Steps",
-           "binding_candidates", "lp_row_duals", "marginal_values"]
+__all__ = ["BUDGET_LIMITS", "LIMIT_NAMES", "MARGINAL_COLUMNS", "STEP_UNITS", "Candidate",
+           "MarginalValues", "StepUnit", "Steps", "binding_candidates", "limit_words",
+           "lp_row_duals", "marginal_values", "resolve_choice"]
 
 # The estimate's first LP, and then its LPs with a limit moved, together: bounded, as every
 # solve is, and never more than a re-solve gets (``marginal_values`` passes the run's own
@@ -39,10 +40,11 @@ ESTIMATE_SECONDS = 60.0
 # may be this far under its true least value.
 FEASIBILITY_TOLERANCE = 1e-6
 
+# ``limit`` and ``where`` are codes for machines; ``limit_in_words`` says the same to people.
 MARGINAL_COLUMNS = (
-    "rank", "limit", "where", "current", "step", "unit", "binding_rows", "shortfall_reduction",
-    "cost_change", "estimate_shortfall_reduction", "status", "verified", "gap", "shortfall_gap",
-    "method",
+    "rank", "limit", "where", "limit_in_words", "current", "step", "unit", "binding_rows",
+    "shortfall_reduction", "cost_change", "estimate_shortfall_reduction", "status", "verified",
+    "gap", "shortfall_gap", "method",
 )
 
 
@@ -82,6 +84,37 @@ STEP_UNITS = {
 }
 
 
+# Each limit kind as a planner names it (``reasons.csv`` says the same words).
+LIMIT_NAMES = {
+    "hiring_budget": "hiring budget", "moves_budget": "moves budget", "seats": "seats",
+    "max_hires": "hiring slots", "away_share": "away share", "vacancies": "funded vacancies",
+    "time_to_hire": "time to hire",
+}
+BUDGET_LIMITS = ("hiring_budget", "moves_budget")
+
+
+def limit_words(limit: str, where: str, period: str | None = None) -> str:
+    """A limit in plain words: ``hiring budget 2027``, ``seats at aldercombe in 2027-Q3``,
+    ``funded vacancies of intake at aldercombe``, ``time to hire of intake``.
+
+    ``period`` None is the limit as a marginal value relaxes it: seats and hiring slots in
+    every period; "" leaves the period out.  A kind not in :data:`LIMIT_NAMES` is written
+    ``kind · where``."""
+    if limit not in LIMIT_NAMES:
+        return " · ".join(t for t in (limit.replace("_", " "), where, period) if t)
+    name = LIMIT_NAMES[limit]
+    if period is None:
+        period = "every period" if limit in ("seats", "max_hires") else ""
+    when = f" in {period}" if period else ""
+    if limit in BUDGET_LIMITS:
+        return f"{name} {where}"
+    if limit in ("vacancies", "time_to_hire"):  # where: "skill at office", or a skill
+        return f"{name} of {where}{when}"
+    if limit == "away_share" and where == "policy":
+        return f"{name}, every office{when}"
+    return f"{name} at {where}{when}" if where else f"{name}{when}"
+
+
 def step_unit(limit: str, instance: Instance) -> str:
     """The ``unit`` column's words for a step of ``limit``: the currency for a budget where
     the instance names one, else :data:`STEP_UNITS`' plural."""
@@ -102,7 +135,7 @@ class Candidate:
 
     def relax(self, instance: Instance) -> Instance:
         """``instance`` with this limit relaxed by ``step``."""
-        if self.limit in ("hiring_budget", "moves_budget"):
+        if self.limit in BUDGET_LIMITS:
             budgets = []
             for b in instance.budgets:
                 if b.year == self.where and self.limit == "hiring_budget" and b.hiring is not None:
@@ -471,17 +504,38 @@ def _estimates(base: PlanResult, options: SolveOptions,
     return estimates, how, ""
 
 
+def resolve_choice(chosen: Sequence[Candidate], estimates: Sequence[float],
+                   max_resolves: int | None) -> list[int]:
+    """Which candidates to re-solve, best estimate first (no estimate last).
+
+    With ``max_resolves`` N of 2 or more and no budget among the N best while some budget is
+    a candidate, the N-th gives way to the best-ranked hiring budget year (a moves budget
+    where no hiring budget is a candidate): what more money buys is asked first, and the
+    demo's three best estimates had all been seats."""
+    order = sorted(range(len(chosen)), key=lambda c: (
+        (0, -estimates[c], c) if math.isfinite(estimates[c]) else (1, 0.0, c)))
+    if max_resolves is None or max_resolves >= len(order):
+        return order
+    picked = order[:max_resolves]
+    budgets = [c for c in order[max_resolves:] if chosen[c].limit in BUDGET_LIMITS]
+    if max_resolves >= 2 and budgets and not any(
+            chosen[c].limit in BUDGET_LIMITS for c in picked):
+        hiring = [c for c in budgets if chosen[c].limit == "hiring_budget"]
+        picked[-1] = (hiring or budgets)[0]
+    return picked
+
+
 def marginal_values(base: PlanResult, options: SolveOptions, steps: Steps = Steps(),
                     workers: int = 2, max_resolves: int | None = None,
                     candidates: Sequence[Candidate] | None = None) -> MarginalValues:
-    """Rank the binding limits of ``base`` by what one more unit of each buys."""
+    """Rank the binding limits of ``base`` by what one more unit of each buys.
+
+    ``max_resolves`` re-solves only that many, chosen by :func:`resolve_choice`: the best
+    estimates, with a budget kept among them."""
     instance = base.instance
     chosen = list(candidates) if candidates is not None else binding_candidates(base, steps)
     estimates, how, no_lp = _estimates(base, options, chosen)
-    # Best estimates first; limits with no estimate (no LP in time) after them.
-    order = sorted(range(len(chosen)), key=lambda c: (
-        (0, -estimates[c], c) if math.isfinite(estimates[c]) else (1, 0.0, c)))
-    resolve = order if max_resolves is None else order[:max_resolves]
+    resolve = resolve_choice(chosen, estimates, max_resolves)
     relaxed = [chosen[c].relax(instance) for c in resolve]
     solved = solve_many(relaxed, options, workers)
     results: list[PlanResult | None] = [None] * len(chosen)
@@ -494,7 +548,8 @@ def marginal_values(base: PlanResult, options: SolveOptions, steps: Steps = Step
         # An empty estimate says why in words: the CSV shows NaN as an empty cell.
         estimate = how[c] if math.isfinite(estimates[c]) else f"no estimate ({no_lp})"
         row: dict[str, object] = {
-            "limit": cand.limit, "where": cand.where, "current": cand.current,
+            "limit": cand.limit, "where": cand.where,
+            "limit_in_words": limit_words(cand.limit, cand.where), "current": cand.current,
             "step": cand.step, "unit": cand.unit, "binding_rows": cand.binding_rows,
             "estimate_shortfall_reduction": estimates[c],
             "method": f"re-solve with the limit relaxed; {estimate}",

@@ -1,5 +1,6 @@
 """Report sections for analysis tables found beside a plan: budget frontier, scenario
-comparison and marginal values (written by the analysis commands of issue 5).
+comparison and marginal values (written by the analysis commands of issue 5), and the tables
+shown as written (the reasons first rolled up by office and by limit).
 
 Each section appears only when its table is there.  Their writers may name columns a little
 differently over time, so columns are found by role (a budget, a shortfall, a label) rather
@@ -16,7 +17,7 @@ from typing import Any
 
 import pandas as pd
 
-from rebalance.analysis.marginal import STEP_UNITS
+from rebalance.analysis.marginal import LIMIT_NAMES, STEP_UNITS
 from rebalance.numbers import (
     column_header,
     column_texts,
@@ -29,6 +30,9 @@ from rebalance.report.analysis_words import (
     finite,
     gap_caution,
     is_numeric,
+    limit_texts,
+    reasons_by_limit,
+    reasons_by_office,
     scenario_lines,
     truthy,
 )
@@ -246,10 +250,12 @@ def _marginal(table: _MarginalTable, currency: str | None = None) -> dict[str, A
         keys = [c for c in texts if c not in (cols.unit, cols.status)][:2]
     method = find_column(frame, ("method",), numeric=False)
     measured = frame[table.measured]
+    # The limit in words ("seats at aldercombe in every period"), not its codes.
+    words = (limit_texts(measured) if "limit" in frame.columns else [""] * len(measured))
     rows: list[dict[str, Any]] = []
-    for _, r in measured.iterrows():
+    for said, (_, r) in zip(words, measured.iterrows(), strict=True):
         parts = [_text(r[k]).replace("_", " ") for k in keys if _text(r[k])]
-        name = " · ".join(parts) or f"row {len(rows) + 1}"
+        name = said or " · ".join(parts) or f"row {len(rows) + 1}"
         step = finite([r[cols.step]])[0] if cols.step else None
         unit = _text(r[cols.unit]) if cols.unit else ""
         step_text = step_words(step, unit, currency) if step is not None or unit else ""
@@ -292,7 +298,8 @@ def _marginal_words(frame: pd.DataFrame, table: _MarginalTable | None,
             if step is None:
                 continue
             what = step_words(step, _text(r[cols.unit]), currency)
-            name = _text(r[limit]).replace("_", " ") if limit else ""
+            code = _text(r[limit]) if limit else ""
+            name = LIMIT_NAMES.get(code, code.replace("_", " "))
             names = steps.setdefault(what, [])
             if name and name not in names:
                 names.append(name)
@@ -324,7 +331,8 @@ def _marginal_words(frame: pd.DataFrame, table: _MarginalTable | None,
                f"(bars: what the step removed{ticks}).{largest} The other {len(rest)} have no "
                "measured value")
     if unsolved == len(rest):
-        caption += " (not re-solved: <code>--max-resolves</code> chose the best estimates)"
+        caption += (" (not re-solved: <code>--max-resolves</code> chose the best estimates, "
+                    "with a budget kept among them where one was listed)")
     elif unsolved:
         caption += (f" ({unsolved} not re-solved; {len(rest) - unsolved} re-solved without a "
                     "verified plan, see status)")
@@ -425,10 +433,36 @@ def analysis_payload(data: ReportData) -> AnalysisView:
             body = _disruption_note(data)
         elif name == "changes" and data.summary.replan is not None:
             lead = e(f"From {data.summary.replan.from_period} on: ") + lead
-        sections.append(section(name, title, lead,
-                                body + _tables(frame, name, limit=500, currency=currency)))
+        full = _tables(frame, name, limit=500, currency=currency)
+        if name == "reasons":
+            full = _reasons_rolled_up(frame, full, currency)
+        sections.append(section(name, title, lead, body + full))
         nav.append((name, title))
     return AnalysisView(payload, tuple(sections), tuple(nav))
+
+
+def _reasons_rolled_up(frame: pd.DataFrame, full: str, currency: str | None) -> str:
+    """The reasons section's body: short tables by office and by limit first, then the full
+    table (one row per action and shortfall: some 300 on the demo, 2.5 of them in view in
+    its box) folded away below them, as reasons.csv holds it."""
+    offices, limits = reasons_by_office(frame), reasons_by_limit(frame)
+    if offices is None:
+        return full
+    body = ("<h3>By office</h3>" + _wrapped(frame_table_html(
+        offices, "reasons_by_office", currency=currency))
+            + '<p class="more analysis-note">People hired at each office, detail runs into it '
+              "(and the periods they last), reassignments to it, its shortfalls (one per skill "
+              "and period short) with their FTE-periods, and how many of its reasons ask for a "
+              "review.</p>")
+    if limits is not None:
+        body += ("<h3>What holds the shortfalls back</h3>" + _wrapped(frame_table_html(
+            limits, "reasons_by_limit", currency=currency))
+                 + '<p class="more analysis-note">Each binding limit the shortfalls cite, all '
+                   "its periods together: a shortfall held back by two limits counts under "
+                   "both, so the rows add up to more than the total.</p>")
+    return (body + f'<details class="all-reasons"><summary>All {len(frame):,} reasons, one '
+            "row per action and shortfall (as in <code>reasons.csv</code>)</summary>"
+            f"{full}</details>")
 
 
 def _tables(frame: pd.DataFrame, name: str, limit: int = 200,
@@ -443,6 +477,8 @@ def _tables(frame: pd.DataFrame, name: str, limit: int = 200,
         # Its fifteenth column had pushed the table past a 1400 px page; the gap note above
         # gives the shortfall stage's gap, and marginal_values.csv has the column.
         frame = frame.drop(columns="shortfall_gap")
+    if name == "marginal" and "limit" in frame.columns:
+        frame = _limits_in_words(frame)
     if not split:
         return _wrapped(frame_table_html(frame, name, limit=limit, currency=currency))
     label = find_column(frame, ("scenario", "name", "label"), ("scenario", "name"),
@@ -452,6 +488,16 @@ def _tables(frame: pd.DataFrame, name: str, limit: int = 200,
             + "<h3>Cost by kind and budget year</h3>"
             + _wrapped(frame_table_html(frame[[label, *split]], f"{name}_costs", limit=limit,
                                         currency=currency)))
+
+
+def _limits_in_words(frame: pd.DataFrame) -> pd.DataFrame:
+    """A marginal values table with one ``limit`` column in words where the CSV has the codes
+    (``limit``, ``where``) and ``limit_in_words`` (or, written before it, the codes alone)."""
+    words = limit_texts(frame)
+    shown = frame.drop(columns=[c for c in ("limit", "where", "limit_in_words")
+                                if c in frame.columns])
+    shown.insert(min(list(frame.columns).index("limit"), len(shown.columns)), "limit", words)
+    return shown
 
 
 # Text cells longer than this may wrap between words (the table helper wraps only prose, over

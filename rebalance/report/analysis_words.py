@@ -1,5 +1,6 @@
 """Reading analysis tables by role, and what they say in plain text on every surface: the
-caution about unproven solves and what each scenario of a comparison changed.
+caution about unproven solves, what each scenario of a comparison changed, each limit in words
+and the reasons table rolled up by office and by limit.
 
 The console (``rebalance.cli_analysis``) prints these; the page (:mod:`analysis_view`) marks
 them up.  Columns are found by role, as the page's sections find them.
@@ -13,9 +14,11 @@ from typing import Any
 
 import pandas as pd
 
+from rebalance.analysis.marginal import limit_words
 from rebalance.numbers import fte_total_text, gap_text, money_amount
 
-__all__ = ["find_column", "finite", "gap_caution", "is_numeric", "scenario_lines", "truthy"]
+__all__ = ["NO_LIMIT", "find_column", "finite", "gap_caution", "is_numeric", "limit_texts",
+           "reasons_by_limit", "reasons_by_office", "scenario_lines", "truthy"]
 
 
 def is_numeric(frame: pd.DataFrame, column: str) -> bool:
@@ -118,3 +121,96 @@ def _largest(frame: pd.DataFrame, name: str) -> float | None:
     column = find_column(frame, (name,))
     values = [g for g in finite(frame[column].tolist()) if g is not None] if column else []
     return max(values) if values else None
+
+
+def _text(value: Any) -> str:
+    return "" if value is None or (isinstance(value, float) and math.isnan(value)) else str(
+        value).strip()
+
+
+def limit_texts(frame: pd.DataFrame) -> list[str]:
+    """Each row's limit in words (``marginal_values.csv``): its ``limit_in_words``, or for a
+    table written before that column, the words of its ``limit`` and ``where`` codes."""
+    words = (frame["limit_in_words"].tolist() if "limit_in_words" in frame.columns
+             else [None] * len(frame))
+    limits = frame["limit"].tolist() if "limit" in frame.columns else [None] * len(frame)
+    wheres = frame["where"].tolist() if "where" in frame.columns else [None] * len(frame)
+    return [_text(w) or (limit_words(_text(lim), _text(at)) if _text(lim) else "")
+            for w, lim, at in zip(words, limits, wheres, strict=True)]
+
+
+REASON_KINDS = ("hire", "detail", "reassignment", "shortfall")
+# A reason that asks a person to look again ends with these words (reasons.py writes them).
+REVIEW = "(review)"
+
+
+def reasons_by_office(frame: pd.DataFrame) -> pd.DataFrame | None:
+    """``reasons.csv`` rolled up by office, for reading before its hundreds of rows: people
+    hired, detail runs and their periods, reassignments, shortfalls (office, skill and period
+    short) with their FTE-periods, and the reasons that ask for a review.  None where the
+    table lacks the columns."""
+    if not {"action", "office", "amount", "reason"} <= set(frame.columns) or frame.empty:
+        return None
+    action = frame["action"].astype(str)
+    amount = pd.to_numeric(frame["amount"], errors="coerce").fillna(0.0)
+    review = frame["reason"].astype(str).str.contains(REVIEW, regex=False)
+    rows = []
+    for office in dict.fromkeys(frame["office"].astype(str)):
+        at = frame["office"].astype(str) == office
+
+        def of(kind: str, mask: pd.Series = at) -> pd.Series:
+            return mask & (action == kind)
+
+        rows.append({"office": office, "hires": round(float(amount[of("hire")].sum())),
+                     "detail_runs": int(of("detail").sum()),
+                     "detail_periods": round(float(amount[of("detail")].sum())),
+                     "reassignments": int(of("reassignment").sum()),
+                     "shortfalls": int(of("shortfall").sum()),
+                     "shortfall_fte_periods": float(amount[of("shortfall")].sum()),
+                     "to_review": int((at & review).sum())})
+    table = pd.DataFrame(rows)
+    return table.sort_values(["shortfall_fte_periods", "office"], ascending=[False, True],
+                             kind="stable").reset_index(drop=True)
+
+
+NO_LIMIT = "no binding limit found"
+
+
+def _limit_name(key: str) -> str:
+    """A ``binding_limits`` key (``kind|where|period``) in words, its period left out."""
+    limit, _, rest = key.partition("|")
+    return limit_words(limit, rest.rpartition("|")[0] if "|" in rest else rest, "")
+
+
+def reasons_by_limit(frame: pd.DataFrame) -> pd.DataFrame | None:
+    """The shortfalls of ``reasons.csv`` by each limit that holds them back (its
+    ``binding_limits``, ``kind|where|period``; the limit in words, every period together):
+    how many shortfalls cite it, their FTE-periods and the periods they fall in, most FTE
+    first, then the shortfalls that cite none.  A shortfall held back by two limits counts
+    under both.  None where there is no shortfall."""
+    if not {"action", "amount", "binding_limits", "first_period"} <= set(frame.columns):
+        return None
+    short = frame[frame["action"].astype(str) == "shortfall"]
+    if short.empty:
+        return None
+    found: dict[str, dict[str, Any]] = {}
+    for cited, amount, period in zip(short["binding_limits"].tolist(),
+                                     pd.to_numeric(short["amount"], errors="coerce").fillna(0.0),
+                                     short["first_period"].astype(str), strict=True):
+        # One name per limit: a shortfall cites seats at its office in several periods.
+        names = list(dict.fromkeys(_limit_name(k) for k in _text(cited).split(";") if k))
+        for name in names or [NO_LIMIT]:
+            row = found.setdefault(name, {"limit": name, "shortfalls": 0,
+                                          "shortfall_fte_periods": 0.0, "periods_short": []})
+            row["shortfalls"] += 1
+            row["shortfall_fte_periods"] += float(amount)
+            if period not in row["periods_short"]:
+                row["periods_short"].append(period)
+    for row in found.values():
+        periods = row["periods_short"]
+        row["periods_short"] = (periods[0] if len(periods) == 1 else
+                                f"{len(periods)} periods, {periods[0]} to {periods[-1]}")
+    table = pd.DataFrame(list(found.values()))
+    table["_last"] = table["limit"] == NO_LIMIT
+    return table.sort_values(["_last", "shortfall_fte_periods"], ascending=[True, False],
+                             kind="stable").drop(columns="_last").reset_index(drop=True)

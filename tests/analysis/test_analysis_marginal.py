@@ -3,6 +3,7 @@ against scipy's HiGHS interface."""
 
 from __future__ import annotations
 
+import math
 from dataclasses import replace
 
 import numpy as np
@@ -16,10 +17,12 @@ from scipy.optimize import linprog
 from rebalance import make_plan, read_instance
 from rebalance.analysis.limits import limit_use
 from rebalance.analysis.marginal import (
+    Candidate,
     Steps,
     binding_candidates,
     lp_row_duals,
     marginal_values,
+    resolve_choice,
 )
 from rebalance.instance import Budget, Instance
 from rebalance.model import Model, build_model, without_rounded_rows
@@ -310,3 +313,46 @@ def test_a_budget_step_is_counted_in_the_instance_currency(tiny) -> None:
         "hiring_budget"] == "money"  # no currency set
     for limit, unit in STEP_UNITS.items():
         assert step_unit(limit, euros) == ("EUR" if unit.plural == "money" else unit.plural)
+
+
+def _candidate(limit: str, where: str) -> Candidate:
+    return Candidate(limit, where, 1.0, 1.0, "unit", 1)
+
+
+def test_max_resolves_keeps_the_best_hiring_budget_among_the_limits_it_re_solves() -> None:
+    # The demo's --max-resolves 3 re-solved three seats and no budget: what more money buys is
+    # what leaders ask first.  Expected choices worked out by hand from the estimates below.
+    chosen = [_candidate("seats", "A"), _candidate("seats", "B"), _candidate("seats", "C"),
+              _candidate("moves_budget", "2027"), _candidate("hiring_budget", "2028"),
+              _candidate("hiring_budget", "2027")]
+    estimates = [20.0, 15.0, 8.0, 2.5, 0.8, 1.7]
+    assert resolve_choice(chosen, estimates, None) == [0, 1, 2, 3, 5, 4]
+    assert resolve_choice(chosen, estimates, 3) == [0, 1, 5]  # hiring 2027 before 2028
+    assert resolve_choice(chosen, estimates, 2) == [0, 5]
+    assert resolve_choice(chosen, estimates, 1) == [0]  # one re-solve: the best alone
+    # A budget among the best already: the ranking stands.
+    assert resolve_choice(chosen, [20.0, 15.0, 8.0, 9.0, 0.8, 1.7], 3) == [0, 1, 3]
+    # No hiring budget a candidate: a moves budget is kept instead.
+    assert resolve_choice(chosen[:4], estimates[:4], 2) == [0, 3]
+    # A hiring budget with no estimate is still kept (it ranks last otherwise).
+    assert resolve_choice(chosen[:3] + chosen[5:], [20.0, 15.0, 8.0, math.nan], 2) == [0, 3]
+    # No budget a candidate: the N best.
+    assert resolve_choice(chosen[:3], estimates[:3], 2) == [0, 1]
+
+
+def test_marginal_values_re_solves_a_budget_the_estimates_rank_last(tiny) -> None:
+    # tiny's three binding limits all estimate 0, so they rank in the order given: the
+    # hiring budget, given last, is re-solved with --max-resolves 2 all the same.
+    base = solve_verified(tiny)
+    found = {c.limit: c for c in binding_candidates(base)}
+    assert set(found) == {"hiring_budget", "away_share", "max_hires"}
+    given = [found["away_share"], found["max_hires"], found["hiring_budget"]]
+    table = marginal_values(base, exact_options(tiny), workers=1, max_resolves=2,
+                            candidates=given).table
+    solved = table.loc[table["status"] != "not re-solved", "limit"].tolist()
+    assert len(solved) == 2 and "hiring_budget" in solved
+    # Each limit in words beside its codes (written out by hand from tiny's budget.csv and
+    # offices.csv).
+    assert dict(zip(table["limit"], table["limit_in_words"], strict=True)) == {
+        "hiring_budget": "hiring budget 2027", "away_share": "away share, every office",
+        "max_hires": "hiring slots at B in every period"}

@@ -213,3 +213,67 @@ def test_figures_in_reasons_follow_the_number_rule(tiny) -> None:
     assert _describe(share, tiny) == "away share at A in 2027-Q1 (2 away of 2.400 allowed)"
     seats = LimitUse("seats", "B", "2027-Q2", 12.0, 12.0, True)
     assert _describe(seats, tiny) == "seats at B in 2027-Q2 (12 of 12 used)"
+
+
+def test_reasons_roll_up_by_office_and_by_limit_to_the_full_table(tiny) -> None:
+    # The page's short tables before the full one (some 300 rows on the demo): each total
+    # recounted here from reasons.csv's own rows, apart from rebalance.report.analysis_words.
+    from rebalance.report.analysis_words import NO_LIMIT, reasons_by_limit, reasons_by_office
+
+    table = reasons(tiny, solve_verified(tiny).plan).table
+    offices = reasons_by_office(table)
+    assert offices is not None
+    assert sorted(offices["office"]) == sorted(set(table["office"]))
+    for kind, column in (("detail", "detail_runs"), ("reassignment", "reassignments"),
+                         ("shortfall", "shortfalls")):
+        assert offices[column].sum() == (table["action"] == kind).sum(), kind
+    assert offices["hires"].sum() == table.loc[table["action"] == "hire", "amount"].sum()
+    short = table[table["action"] == "shortfall"]
+    assert abs(offices["shortfall_fte_periods"].sum() - short["amount"].sum()) < 1e-9
+    limits = reasons_by_limit(table)
+    if short.empty:
+        assert limits is None
+        return
+    assert limits is not None
+    # Every shortfall is under at least one row, and under each limit kind at most once.
+    assert limits["shortfalls"].sum() >= len(short)
+    assert (limits["shortfalls"] <= len(short)).all()
+    uncited = int((short["binding_limits"].fillna("") == "").sum())
+    assert (limits.loc[limits["limit"] == NO_LIMIT, "shortfalls"].sum()) == uncited
+    assert "|" not in "".join(limits["limit"]) and "_budget" not in "".join(limits["limit"])
+
+
+def test_a_shortfall_citing_one_limit_in_many_periods_counts_once_under_it() -> None:
+    # Rows shaped as reasons.csv writes them (the demo cites seats at an office for every
+    # period from the first possible start); the counts below are worked out by hand.
+    import pandas as pd
+
+    from rebalance.analysis.reasons import REASON_COLUMNS
+    from rebalance.report.analysis_words import NO_LIMIT, reasons_by_limit, reasons_by_office
+
+    seats = ";".join(f"seats|B|2027-Q{q}" for q in (2, 3, 4))
+    table = pd.DataFrame([
+        ("hire", "2 x review", "B", "review", "2027-Q2", "2027-Q4", 2.0, "a hire", ""),
+        ("detail", "a1", "B", "review", "2027-Q2", "2027-Q3", 2.0, "a detail (review)", ""),
+        ("shortfall", "review at B", "B", "review", "2027-Q3", "2027-Q3", 0.5, "short",
+         f"{seats};hiring_budget|2027|"),
+        ("shortfall", "review at B", "B", "review", "2027-Q4", "2027-Q4", 0.25, "short",
+         seats),
+        ("shortfall", "intake at A", "A", "intake", "2027-Q4", "2027-Q4", 1.0, "short", None),
+    ], columns=list(REASON_COLUMNS))
+    limits = reasons_by_limit(table)
+    assert limits is not None
+    assert limits.to_dict("records") == [
+        {"limit": "seats at B", "shortfalls": 2, "shortfall_fte_periods": 0.75,
+         "periods_short": "2 periods, 2027-Q3 to 2027-Q4"},
+        {"limit": "hiring budget 2027", "shortfalls": 1, "shortfall_fte_periods": 0.5,
+         "periods_short": "2027-Q3"},
+        {"limit": NO_LIMIT, "shortfalls": 1, "shortfall_fte_periods": 1.0,
+         "periods_short": "2027-Q4"}]
+    offices = reasons_by_office(table)
+    assert offices is not None
+    assert offices.to_dict("records") == [
+        {"office": "A", "hires": 0, "detail_runs": 0, "detail_periods": 0, "reassignments": 0,
+         "shortfalls": 1, "shortfall_fte_periods": 1.0, "to_review": 0},
+        {"office": "B", "hires": 2, "detail_runs": 1, "detail_periods": 2, "reassignments": 0,
+         "shortfalls": 2, "shortfall_fte_periods": 0.75, "to_review": 1}]

@@ -210,7 +210,8 @@ def demo_marginal_table() -> pd.DataFrame:
     from rebalance.analysis.marginal import MARGINAL_COLUMNS
 
     # The rows above predate the shortfall stage's own gap column: it is left empty here.
-    table = pd.DataFrame(rows, columns=[c for c in MARGINAL_COLUMNS if c != "shortfall_gap"])
+    table = pd.DataFrame(rows, columns=[
+        c for c in MARGINAL_COLUMNS if c not in ("shortfall_gap", "limit_in_words")])
     table.insert(list(MARGINAL_COLUMNS).index("shortfall_gap"), "shortfall_gap", None)
     table["rank"] = table["rank"].astype("Int64")
     return table

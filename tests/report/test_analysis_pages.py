@@ -46,11 +46,13 @@ def test_the_marginal_section_says_what_a_step_is_and_each_label_its_step():
     lead = page_text(re.search(r'<p class="lead">(.*?)</p>', marginal, re.S).group(1))
     assert "one step" in lead.lower()
     for step in ("+10 seats (seats)", "+100,000 money (moves budget, hiring budget)",
-                 "+0.05 share of people (away share)", "+1 vacancy (vacancies)",
-                 "+1 hire per period (max hires)", "-1 period (time to hire)"):
+                 "+0.05 share of people (away share)", "+1 vacancy (funded vacancies)",
+                 "+1 hire per period (hiring slots)", "-1 period (time to hire)"):
         assert step in lead, step
     labels = [r["label"] for r in page_payload(page)["marginal"]["rows"]]
-    assert labels[0] == "seats · port-ilse-central, +10 seats"
+    # The limit in words, as reasons.csv names it: demo_marginal_table predates the
+    # limit_in_words column, so the page words its codes itself.
+    assert labels[0] == "seats at port-ilse-central in every period, +10 seats"
     assert all(label.endswith(", +10 seats") for label in labels)
 
 
@@ -193,3 +195,67 @@ def test_the_measured_rows_are_worked_out_once_for_chart_and_caption():
     _, caption = _marginal_words(table.frame, table)
     assert view is not None and len(view["rows"]) == int(table.measured.sum()) == 4
     assert f"only the 4 of {len(table.frame)} limits measured" in caption
+
+
+# 5. The limits read as code names (hiring_budget, moves_budget, max_hires) on the console, the
+#    page and the workbook; marginal values re-solved no budget with --max-resolves 3.
+
+def _marginal_rows(page: str) -> list[list[str]]:
+    table = re.search(r'<table class="sortable" data-table="marginal">(.*?)</table>',
+                      _section(page, "marginal"), re.S)
+    assert table is not None
+    return [[page_text(c) for c in re.findall(r"<td\b[^>]*>(.*?)</td>", row, re.S)]
+            for row in re.findall(r"<tr>(.*?)</tr>", table.group(1), re.S)[1:]]
+
+
+def test_the_marginal_table_names_each_limit_in_words_not_codes():
+    page = _demo_page()
+    headers = re.findall(r"<th\b[^>]*>(.*?)</th>", re.search(
+        r'data-table="marginal">(.*?)</thead>', page, re.S).group(1))
+    assert headers[:3] == ["rank", "limit", "current"]  # one column in words, no "where"
+    limits = [row[1] for row in _marginal_rows(page)]
+    # Expected words written out by hand from demo_marginal_table's limit and where columns.
+    assert limits == [
+        "seats at port-ilse-central in every period", "seats at fenmarch-south in every period",
+        "seats at fenmarch-north in every period", "seats at port-ilse-harbour in every period",
+        "seats at aldercombe in every period", "moves budget 2028", "hiring budget 2027",
+        "away share, every office", "funded vacancies of technical_review at port-ilse-central",
+        "hiring slots at port-ilse-harbour in every period",
+        "time to hire of environmental_review", "time to hire of intake"]
+    for code in ("hiring_budget", "moves_budget", "max_hires", "away_share", "time_to_hire"):
+        assert code not in page_text(_section(page, "marginal")), code
+
+
+def test_a_new_marginal_csv_s_words_are_what_the_page_shows(tmp_path):
+    # A marginal_values.csv with limit_in_words (as rebalance marginal now writes it): the
+    # page shows that column's words as written and keeps the codes out of the table.
+    folder = tmp_path / "plan"
+    shutil.copytree(tiny_plan_folder(), folder)
+    table = demo_marginal_table()
+    table.insert(3, "limit_in_words", [f"limit number {i}" for i in range(len(table))])
+    table.to_csv(folder / "marginal_values.csv", index=False)
+    page = render_html(report_data_from_folder(folder, read_instance(TINY)))
+    assert [row[1] for row in _marginal_rows(page)] == [
+        f"limit number {i}" for i in range(len(table))]
+    labels = [r["label"] for r in page_payload(page)["marginal"]["rows"]]
+    assert labels[0] == "limit number 0, +10 seats"
+
+
+# 6. "Why each action" had some 300 rows on the demo, 2.5 of them in view in its box.
+
+def test_the_reasons_section_leads_with_tables_by_office_and_by_limit():
+    page = _demo_page()
+    reasons = _section(page, "reasons")
+    first = reasons.index('data-table="reasons_by_office"')
+    assert first < reasons.index('data-table="reasons_by_limit"') < reasons.index(
+        '<details class="all-reasons">') < reasons.index('data-table="reasons"')
+    assert "All 3 reasons, one row per action and shortfall" in page_text(reasons)
+    by_limit = re.search(r'data-table="reasons_by_limit">(.*?)</table>', reasons, re.S)
+    assert by_limit is not None
+    words = page_text(by_limit.group(1))
+    # demo_reasons_table's two shortfalls, counted by hand: seats at port-ilse-harbour and
+    # hiring slots there hold back both (0.932 + 0.046), the budgets the first only.
+    for limit in ("seats at port-ilse-harbour 2 0.978", "hiring slots at port-ilse-harbour 2",
+                  "hiring budget 2027 1 0.932", "moves budget 2028 1 0.932"):
+        assert limit in words, limit
+    assert "seats|" not in words and "hiring_budget" not in words

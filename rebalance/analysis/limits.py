@@ -19,7 +19,8 @@ import pandas as pd
 from rebalance.instance import Instance
 from rebalance.plan import Plan
 
-__all__ = ["LIMIT_COLUMNS", "HireRow", "LimitUse", "hire_rows", "limit_use", "limit_use_frame"]
+__all__ = ["BUDGET_LIMITS", "LIMIT_COLUMNS", "LIMIT_NAMES", "HireRow", "LimitUse", "hire_rows",
+           "limit_use", "limit_use_frame", "limit_words"]
 
 LIMIT_COLUMNS = ("limit", "where", "period", "used", "cap", "slack", "binding")
 
@@ -193,3 +194,34 @@ def limit_use(instance: Instance, plan: Plan) -> tuple[LimitUse, ...]:
 def limit_use_frame(uses: tuple[LimitUse, ...]) -> pd.DataFrame:
     rows = [(u.limit, u.where, u.period, u.used, u.cap, u.slack, u.binding) for u in uses]
     return pd.DataFrame(rows, columns=list(LIMIT_COLUMNS))
+
+
+# Each limit kind as a planner names it (``reasons.csv`` says the same words).
+LIMIT_NAMES = {
+    "hiring_budget": "hiring budget", "moves_budget": "moves budget", "seats": "seats",
+    "max_hires": "hiring slots", "away_share": "away share", "vacancies": "funded vacancies",
+    "time_to_hire": "time to hire",
+}
+BUDGET_LIMITS = ("hiring_budget", "moves_budget")
+
+
+def limit_words(limit: str, where: str, period: str | None = None) -> str:
+    """A limit in plain words: ``hiring budget 2027``, ``seats at aldercombe in 2027-Q3``,
+    ``funded vacancies of intake at aldercombe``, ``time to hire of intake``.
+
+    ``period`` None is the limit as a marginal value relaxes it: seats and hiring slots in
+    every period; "" leaves the period out.  A kind not in :data:`LIMIT_NAMES` is written
+    ``kind · where``."""
+    if limit not in LIMIT_NAMES:
+        return " · ".join(t for t in (limit.replace("_", " "), where, period) if t)
+    name = LIMIT_NAMES[limit]
+    if period is None:
+        period = "every period" if limit in ("seats", "max_hires") else ""
+    when = f" in {period}" if period else ""
+    if limit in BUDGET_LIMITS:
+        return f"{name} {where}"
+    if limit in ("vacancies", "time_to_hire"):  # where: "skill at office", or a skill
+        return f"{name} of {where}{when}"
+    if limit == "away_share" and where == "policy":
+        return f"{name}, every office{when}"
+    return f"{name} at {where}{when}" if where else f"{name}{when}"

@@ -19,7 +19,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 import pandas as pd
 
-from rebalance.analysis.limits import limit_use
+from rebalance.analysis.limits import BUDGET_LIMITS, limit_use, limit_words
 from rebalance.analysis.scenarios import solve_many
 from rebalance.backends import BackendOutcome, HighsBackend
 from rebalance.instance import Budget, Instance
@@ -28,9 +28,8 @@ from rebalance.planning import PlanResult
 from rebalance.solve import SolveOptions, Status
 from rebalance.split import solve_relaxation
 
-__all__ = ["BUDGET_LIMITS", "LIMIT_NAMES", "MARGINAL_COLUMNS", "STEP_UNITS", "Candidate",
-           "MarginalValues", "StepUnit", "Steps", "binding_candidates", "limit_words",
-           "lp_row_duals", "marginal_values", "resolve_choice"]
+__all__ = ["MARGINAL_COLUMNS", "STEP_UNITS", "Candidate", "MarginalValues", "StepUnit", "Steps",
+           "binding_candidates", "lp_row_duals", "marginal_values", "resolve_choice"]
 
 # The estimate's first LP, and then its LPs with a limit moved, together: bounded, as every
 # solve is, and never more than a re-solve gets (``marginal_values`` passes the run's own
@@ -82,37 +81,6 @@ STEP_UNITS = {
     "vacancies": StepUnit("vacancies", "vacancy"),
     "time_to_hire": StepUnit("periods", "period"),
 }
-
-
-# Each limit kind as a planner names it (``reasons.csv`` says the same words).
-LIMIT_NAMES = {
-    "hiring_budget": "hiring budget", "moves_budget": "moves budget", "seats": "seats",
-    "max_hires": "hiring slots", "away_share": "away share", "vacancies": "funded vacancies",
-    "time_to_hire": "time to hire",
-}
-BUDGET_LIMITS = ("hiring_budget", "moves_budget")
-
-
-def limit_words(limit: str, where: str, period: str | None = None) -> str:
-    """A limit in plain words: ``hiring budget 2027``, ``seats at aldercombe in 2027-Q3``,
-    ``funded vacancies of intake at aldercombe``, ``time to hire of intake``.
-
-    ``period`` None is the limit as a marginal value relaxes it: seats and hiring slots in
-    every period; "" leaves the period out.  A kind not in :data:`LIMIT_NAMES` is written
-    ``kind · where``."""
-    if limit not in LIMIT_NAMES:
-        return " · ".join(t for t in (limit.replace("_", " "), where, period) if t)
-    name = LIMIT_NAMES[limit]
-    if period is None:
-        period = "every period" if limit in ("seats", "max_hires") else ""
-    when = f" in {period}" if period else ""
-    if limit in BUDGET_LIMITS:
-        return f"{name} {where}"
-    if limit in ("vacancies", "time_to_hire"):  # where: "skill at office", or a skill
-        return f"{name} of {where}{when}"
-    if limit == "away_share" and where == "policy":
-        return f"{name}, every office{when}"
-    return f"{name} at {where}{when}" if where else f"{name}{when}"
 
 
 def step_unit(limit: str, instance: Instance) -> str:

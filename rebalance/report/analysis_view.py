@@ -17,7 +17,8 @@ from typing import Any
 
 import pandas as pd
 
-from rebalance.analysis.marginal import LIMIT_NAMES, STEP_UNITS
+from rebalance.analysis.limits import LIMIT_NAMES
+from rebalance.analysis.marginal import STEP_UNITS
 from rebalance.numbers import (
     column_header,
     column_texts,

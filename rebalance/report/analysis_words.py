@@ -14,7 +14,7 @@ from typing import Any
 
 import pandas as pd
 
-from rebalance.analysis.marginal import limit_words
+from rebalance.analysis.limits import limit_words
 from rebalance.numbers import fte_total_text, gap_text, money_amount
 
 __all__ = ["NO_LIMIT", "find_column", "finite", "gap_caution", "is_numeric", "limit_texts",

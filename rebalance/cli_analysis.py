@@ -119,6 +119,12 @@ def _say_gaps(table: pd.DataFrame) -> None:
         print("\n" + textwrap.fill(caution, width=90, break_on_hyphens=False))
 
 
+# How a comparison's scenarios were solved, so actions_differing reads right.
+FROM_BASE_WORDS = ("Each scenario was solved from the base plan, and a change that did not pay "
+                   "under the scenario was\nundone: actions_differing counts the changes "
+                   "that did pay.")
+
+
 def cmd_compare(args: argparse.Namespace) -> int:
     from rebalance.analysis.output import write_tables
     from rebalance.analysis.reasons import reasons
@@ -151,6 +157,8 @@ def cmd_compare(args: argparse.Namespace) -> int:
                            "reassignments", "actions_differing")
                if c in comparison.table.columns]
     print(format_frame(comparison.table[columns], instance.money.currency))
+    if len(comparison.names) > 1 and comparison.results[0].plan is not None:
+        print(f"\n{FROM_BASE_WORDS}")
     for line in scenario_lines(comparison.table, instance.money.currency):
         print(f"\n{line}")
     _say_gaps(comparison.table)

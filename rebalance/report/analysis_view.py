@@ -598,6 +598,8 @@ TABLE_SECTIONS = {
                "one made from the re-plan period on."),
     "changes": ("What the re-plan changes", "Every action that differs from the old plan, "
                 "with the disruption cost charged for changing it."),
-    "scenario_actions": ("Actions that differ between scenarios", "Hires, details and "
-                         "reassignments that are not the same in every scenario's plan."),
+    "scenario_actions": ("Actions that differ from the base", "Hires, details and "
+                         "reassignments where a scenario's plan differs from the base plan. "
+                         "Each scenario was solved from the base plan, and a change that did "
+                         "not pay under the scenario was undone."),
 }

@@ -84,7 +84,7 @@ SHEET_NOTES = {
     "reasons": "why each action is in the plan, and what stops each remaining gap",
     "replan": "old plan against the re-plan",
     "changes": "every change the re-plan makes to the old plan",
-    "scenario_actions": "actions that differ between scenarios",
+    "scenario_actions": "actions where a scenario's plan differs from the base plan",
     "scenario_costs": "cost of each scenario's plan by budget year and kind",
 }
 

@@ -335,6 +335,15 @@ def test_a_reader_that_leaves_early_is_no_error(tmp_path, command):
         assert (out / "summary.json").is_file()
 
 
+def _spawned(process: psutil.Process) -> bool:
+    """Whether ``process`` is a spawned pool worker; not one that has just ended (the base's
+    solver processes come and go before the workers start)."""
+    try:
+        return "spawn_main" in " ".join(process.cmdline())
+    except psutil.Error:
+        return False
+
+
 def test_a_stopped_analysis_ends_its_workers_at_once(tmp_path):
     # A sweep: Ctrl-C 3 s into a comparison of three solves (two workers) ended it after
     # 22 s: a worker took its stop as the end of one task and ran the next one queued.
@@ -350,8 +359,7 @@ def test_a_stopped_analysis_ends_its_workers_at_once(tmp_path):
         deadline = time.monotonic() + 90
         workers: list[psutil.Process] = []
         while len(workers) < 2 and time.monotonic() < deadline:  # both pool workers up
-            workers = [p for p in psutil.Process(run.pid).children()
-                       if "spawn_main" in " ".join(p.cmdline())]
+            workers = [p for p in psutil.Process(run.pid).children() if _spawned(p)]
             time.sleep(0.2)
         assert len(workers) >= 2
         time.sleep(3.0)  # into their solves (the demo's take their whole 30 s)

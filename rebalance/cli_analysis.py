@@ -150,7 +150,8 @@ def cmd_compare(args: argparse.Namespace) -> int:
         for problem in exc.problems:
             _err(f"  {problem}")
         return EXIT_INVALID_INPUT
-    comparison = compare_scenarios(instance, scenarios, _analysis_options(instance, args),
+    comparison = compare_scenarios(instance, scenarios,
+                                   _analysis_options(instance, args, progress=True),
                                    workers=args.workers)
     columns = [c for c in ("scenario", "status", "verified", "gap", "shortfall_gap",
                            "weighted_shortfall", "total_cost", "hires", "detail_periods",
@@ -170,7 +171,9 @@ def cmd_compare(args: argparse.Namespace) -> int:
         return code
     for name, result in zip(comparison.names[1:], comparison.results[1:], strict=True):
         if result.plan is None:
-            print(f"\nscenario '{name}': no plan ({plain_status(result.status)})"
+            words = plain_status(result.status)
+            print(f"\nscenario '{name}': "
+                  + (words if words.startswith("no plan") else f"no plan ({words})")
                   + ("; limits in conflict:" if result.solve.conflicts else ""))
             for conflict in result.solve.conflicts:
                 print(f"  - {conflict}")

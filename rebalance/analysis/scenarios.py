@@ -15,7 +15,7 @@ import os
 import tomllib
 from collections.abc import Sequence
 from concurrent.futures import ProcessPoolExecutor
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
@@ -442,14 +442,19 @@ def _solve(instance: Instance, options: SolveOptions, start: Plan | None = None)
 
 
 def solve_many(instances: Sequence[Instance], options: SolveOptions,
-               workers: int, start: Plan | None = None) -> list[PlanResult]:
+               workers: int, start: Plan | None = None,
+               names: Sequence[str] = ()) -> list[PlanResult]:
     """Solve each instance, from the plan ``start`` where given (see
     :mod:`rebalance.analysis.start_plan`); in a process pool when ``workers`` > 1 (same
-    results either way: every solve is a pure function of its instance, options and start)."""
+    results either way: every solve is a pure function of its instance, options and start).
+    Solves in this process keep ``options.progress``, each line led by the instance's name
+    in ``names``; a pool's solves have none (their lines would interleave)."""
     plain = options if options.progress is None else SolveOptions(
         **{f: getattr(options, f) for f in options.__dataclass_fields__ if f != "progress"})
     if workers <= 1 or len(instances) <= 1:
-        return [_solve(inst, plain, start) for inst in instances]
+        return [_solve(inst, _led(options, name), start)
+                for inst, name in zip(instances, [*names, *[""] * len(instances)],
+                                      strict=False)]
     # Spawned, not forked: a child forked from a process that has run HiGHS inherits its
     # thread pool in a broken state and spins.
     others = set(multiprocessing.active_children())  # the caller's own: never ended here
@@ -466,6 +471,14 @@ def solve_many(instances: Sequence[Instance], options: SolveOptions,
         raise
     pool.shutdown(wait=True)
     return results
+
+
+def _led(options: SolveOptions, name: str) -> SolveOptions:
+    """``options`` whose progress lines start with ``[name]``, where there are both."""
+    say = options.progress
+    if say is None or not name:
+        return options
+    return replace(options, progress=lambda text: say(f"[{name}] {text}"))
 
 
 def _solve_in_worker(instance: Instance, options: SolveOptions,
@@ -519,7 +532,7 @@ BASE_DESCRIPTION = "the instance as it is"
 
 
 def _row(name: str, description: str, result: PlanResult, instance: Instance,
-         differing: int) -> dict[str, Any]:
+         differing: int | None) -> dict[str, Any]:
     plan = result.plan
     row: dict[str, Any] = {
         "scenario": name,
@@ -562,8 +575,13 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
     names = ("base", *tuple(s.name for s in scenarios))
     if len(set(names)) != len(names):
         raise ValueError("scenario names must differ from each other and from 'base'")
-    base = solve_many(variants[:1], options, 1)[0]
-    results = [base, *solve_many(variants[1:], options, workers, start=base.plan)]
+    base = solve_many(variants[:1], options, 1, names=names[:1])[0]
+    if options.progress is not None and len(variants) > 2 and workers > 1:
+        options.progress(f"solving {len(variants) - 1} scenarios from the base plan, "
+                         f"{min(workers, len(variants) - 1)} at a time (no progress lines "
+                         "from them until all are done)")
+    results = [base, *solve_many(variants[1:], options, workers, start=base.plan,
+                                 names=names[1:])]
     descriptions = {"base": BASE_DESCRIPTION, **{s.name: s.description for s in scenarios}}
     base_plan = results[0].plan
     base_actions = plan_actions(base_plan) if base_plan is not None else {}
@@ -571,14 +589,15 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
     cost_rows = []
     action_rows = []
     for name, variant, result in zip(names, variants, results, strict=True):
-        differing = 0
+        # Against a base with no plan there is nothing to differ from.
+        differing: int | None = 0 if base_plan is not None else None
         if result.plan is not None:
             actions = plan_actions(result.plan)
-            if name != "base":
+            if name != "base" and base_plan is not None:
                 for key in sorted(set(actions) | set(base_actions)):
                     a, b = base_actions.get(key, 0.0), actions.get(key, 0.0)
                     if abs(a - b) > 1e-9:
-                        differing += 1
+                        differing = (differing or 0) + 1
                         action_rows.append((name, *key, a, b))
             c = result.plan.costs
             for year, kind, cost in zip(c["year"].astype(str), c["kind"].astype(str),

@@ -74,13 +74,16 @@ def gap_caution(frame: pd.DataFrame) -> str:
         return ""
     shortfall = _largest(frame, "shortfall_gap")
     if shortfall is None:
-        within = (f"with gaps of up to {gap_text(largest)} (the gap column). A difference "
+        within = (f"within gaps of up to {gap_text(largest)} (the gap column). A difference "
                   "between rows smaller than that share of a figure")
     else:
-        within = (f"with gaps of up to {gap_text(shortfall)} on shortfall (the shortfall_gap "
+        within = (f"within gaps of up to {gap_text(shortfall)} on shortfall (the shortfall_gap "
                   f"column) and {gap_text(largest)} on cost (the gap column). A difference "
                   "between rows smaller than that share of its figure")
-    return (f"These solves stopped before proving their plans best, {within} may come from "
+    # "Proven only within": true of a row the status calls optimal (within the gap asked)
+    # as of one stopped by the time limit; "stopped before proving" had contradicted the
+    # first (a sweep).
+    return (f"These plans are proven best only {within} may come from "
             "where each search stopped rather than from what was changed: give the solves "
             "more time (--time-limit) before reading it as real.")
 
@@ -97,6 +100,9 @@ def scenario_lines(frame: pd.DataFrame, currency: str | None = None) -> list[str
     base = frame.iloc[0]
 
     def signed(value: float, text: str) -> str:
+        # By the figure shown: float dust (3.6e-15 more demand) is 0.0, not +0.0 or -0.0.
+        if not any(digit in text for digit in "123456789"):
+            return text.removeprefix("-")
         return ("+" if value > 0 and not text.startswith("-") else "") + text
 
     lines = []

@@ -236,7 +236,9 @@ def report_data_from_folder(plan_dir: str | Path, instance: Instance,
 
 def _read_table(path: Path, notes: list[str]) -> pd.DataFrame | None:
     try:
-        frame = pd.read_csv(path)
+        # Only an empty cell is missing: a scenario, office or person named null, NA or None
+        # is a name (a scenario named null had lost its name on the page and in the workbook).
+        frame = pd.read_csv(path, keep_default_na=False, na_values=[""])
     except (ValueError, OSError) as exc:  # pandas' parser errors are ValueErrors
         notes.append(f"{path.name} could not be read ({exc}); its section is left out")
         return None

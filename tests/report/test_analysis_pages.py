@@ -259,3 +259,19 @@ def test_the_reasons_section_leads_with_tables_by_office_and_by_limit():
                   "hiring budget 2027 1 0.932", "moves budget 2028 1 0.932"):
         assert limit in words, limit
     assert "seats|" not in words and "hiring_budget" not in words
+
+
+def test_a_scenario_named_null_keeps_its_name_on_the_page(tmp_path: Path) -> None:
+    # A sweep: scenarios.csv read back with pandas' defaults turned the name "null" (and NA,
+    # None, nan) into a missing value; the page said "nan: ..." and its title left it out.
+    from report_cases import demo_scenarios_table, tiny_plan_folder
+
+    folder = tmp_path / "null"
+    shutil.copytree(tiny_plan_folder(), folder)
+    table = demo_scenarios_table()
+    table.loc[1, "scenario"] = "null"
+    table.to_csv(folder / "scenarios.csv", index=False)
+    data = report_data_from_folder(folder, read_instance(TINY))
+    assert data.scenarios is not None and "null" in data.scenarios["scenario"].tolist()
+    text = page_text(render_html(data))
+    assert "null" in text and "nan:" not in text

@@ -19,7 +19,7 @@ import pandas as pd
 
 from rebalance.instance import Instance
 from rebalance.model import Model
-from rebalance.problems import Problem, range_words
+from rebalance.problems import CLOSE_MATCHES_SHOWN, Problem, did_you_mean, range_words
 from rebalance.readers import InstanceError
 from rebalance.tables import (
     RawTable,
@@ -366,7 +366,8 @@ class PlanError(InstanceError):
 def read_plan(folder: str | Path, *, complete: bool = False) -> Plan:
     """Read plan tables back (for the verifier, re-planning and reports), or raise
     :class:`PlanError` listing every problem.  A missing table reads as empty (a report still
-    draws the others) unless ``complete`` asks for every table."""
+    draws the others) unless ``complete`` asks for every table.  Each table's rows are
+    indexed by their line in the file less 2 (0, 1, ... but for blank lines skipped)."""
     path = Path(folder)
     if not path.is_dir():
         what = "is a file; expected a plan folder" if path.exists() else "plan folder not found"
@@ -407,7 +408,9 @@ def _read_table(file: Path, columns: tuple[str, ...], problems: list[Problem]) -
         cells = {c: np.asarray([row[c] for row in raw.rows], dtype=object)
                  for c in dict.fromkeys(raw.columns) if c}
     problems += table_problems(raw)
-    rows = TableRows(raw, problems, columns=(columns, ()))  # the header's problems
+    header: list[Problem] = []
+    rows = TableRows(raw, header, columns=(columns, ()))  # the header's problems
+    problems += _misspelt_columns(header, raw.columns, columns)
     if not rows.columns_ok:
         return _named(pd.DataFrame([], columns=list(columns)))
     # Rows with any cell filled (an unknown column's too), except those a quote left open
@@ -452,7 +455,27 @@ def _read_table(file: Path, columns: tuple[str, ...], problems: list[Problem]) -
         ok = not (empty.any() or bad.any() or (~parsed).any())
         out[column] = value.astype(np.int64) if whole and ok else value
     problems += [p for _, _, p in sorted(found, key=lambda f: (f[0], f[1]))]
-    return _named(pd.DataFrame(out, columns=list(columns)))
+    # Indexed by the row's place among the file's rows (its line less 2), as a plan made in
+    # memory is: a blank line skipped must not shift the lines a re-plan's refusals name.
+    index = pd.RangeIndex(len(numbers)) if keep.all() else pd.Index(numbers - 2)
+    return _named(pd.DataFrame(out, columns=list(columns), index=index))
+
+
+def _misspelt_columns(header: list[Problem], names: Sequence[str],
+                      columns: tuple[str, ...]) -> list[Problem]:
+    """The header's problems, a missing column's naming the unknown ones close to it: the
+    unknown column's own warning is not shown beside the error (read_plan stops at errors),
+    and "to_office: required column is missing" alone had hidden a header's 'to_ofice'."""
+    unknown = [name for name in dict.fromkeys(names) if name and name not in columns]
+    out = []
+    for p in header:
+        close = [name for name in unknown if did_you_mean(name, [p.column])]
+        if p.is_warning or p.column not in columns or not close:
+            out.append(p)
+            continue
+        has = " or ".join(f"'{name}'" for name in close[:CLOSE_MATCHES_SHOWN])
+        out.append(replace(p, message=f"{p.message}; the header has {has} (a misspelling?)"))
+    return out
 
 
 def _to_float(text: np.ndarray, empty: np.ndarray) -> tuple[np.ndarray, np.ndarray]:

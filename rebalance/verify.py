@@ -27,6 +27,11 @@ REL_TOL = 1e-6
 # Unknown names listed per table and column before the rest are counted.
 UNKNOWN_NAMES_LISTED = 5
 HAND_EDIT_SLIPS = 3  # unknown names in one column up to which each gets a suggestion
+# Said of a person unknown among known ones instead of a suggestion: ids differing in a digit
+# are other people ('S00039' for 'S00040'), and the usual cause is a row deleted from
+# staff.csv for someone who left (docs/instance-format.md, staff.csv last_period).
+PERSON_LEFT_HINT = (" (not in staff.csv: a person who has left stays in staff.csv, with "
+                    "last_period set to the last period they work)")
 
 
 # The kinds of name a plan's columns hold, each checked against one of the instance's lists.
@@ -71,6 +76,15 @@ def _amounts(instance: Instance, *values: float) -> list[str]:
 
 def _over(value: float, cap: float) -> bool:
     return value > cap + ABS_TOL + REL_TOL * abs(cap)
+
+
+def _slip_hint(value: str, kind: NameKind, known: Mapping[str, object], slips: bool) -> str:
+    """What follows an unknown name a hand edit may have left: the closest known names, but
+    for a person why they may be missing (a near id is another person); "" for a plan of
+    another instance (``slips`` false), where neither would help."""
+    if not slips:
+        return ""
+    return PERSON_LEFT_HINT if kind == "person" else did_you_mean(value, known)
 
 
 def verify_folder(instance: Instance, folder: str | Path, *,
@@ -192,7 +206,7 @@ class _Checker:
                     self.violations.append(Violation(
                         "unknown_reference", f"{self.file(table)}:{row}",
                         f"{column} '{value}' is not in the instance"
-                        + (did_you_mean(value, known) if slips else ""), column, kind))
+                        + _slip_hint(value, kind, known, slips), column, kind))
                 if len(unknown) > UNKNOWN_NAMES_LISTED:
                     # A plan of another instance names thousands; the first few say enough.
                     self.violations.append(Violation(

@@ -133,8 +133,23 @@ def test_unknown_names_are_flagged(tiny_plan):
 
 
 def test_a_misspelt_name_in_a_hand_edited_plan_gets_a_suggestion(tiny_plan):
-    # tiny's staff are a1, a2, ...: "a 1" is a slip for one of them; "nobody" is close to none
-    # (closeness by the standard library's difflib, as the input messages use it).
+    # tiny's offices are A and B: "a" is a slip for A, "nowhere" is close to none (closeness
+    # by the standard library's difflib, as the input messages use it).
+    instance, result = tiny_plan
+    broken = replace(result.plan, details=add_rows(result.plan.details,
+                                                   detail("a1", "2027-Q1", "A", "a"),
+                                                   detail("a1", "2027-Q2", "A", "nowhere")))
+    messages = [v.message for v in verify_plan(instance, broken) if v.rule == "unknown_reference"]
+    assert messages == ["to_office 'a' is not in the instance (did you mean 'A'?)",
+                        "to_office 'nowhere' is not in the instance"]
+
+
+def test_a_person_missing_from_staff_gets_no_suggestion_but_why(tiny_plan):
+    # Sweep: a person who left, their staff.csv row deleted, was met with "did you mean
+    # 'S00039' or 'S00038'?" -- other people, whose ids differ by a digit.  A person unknown
+    # among known ones is said to be missing from staff.csv, where someone who left stays
+    # with last_period set (docs/instance-format.md, staff.csv: "the person leaves after
+    # this period").  tiny's staff are a1, a2, ...: "a 1" and "nobody" alike.
     instance, result = tiny_plan
     person = instance.staff[0].person
     slip = person[0] + " " + person[1:]
@@ -142,9 +157,10 @@ def test_a_misspelt_name_in_a_hand_edited_plan_gets_a_suggestion(tiny_plan):
                                                    detail(slip, "2027-Q1", "A", "B"),
                                                    detail("nobody", "2027-Q2", "A", "B")))
     messages = [v.message for v in verify_plan(instance, broken) if v.rule == "unknown_reference"]
-    assert any(m.startswith(f"person '{slip}' is not in the instance (did you mean '{person}'")
-               for m in messages), messages
-    assert "person 'nobody' is not in the instance" in messages
+    why = ("(not in staff.csv: a person who has left stays in staff.csv, with last_period set "
+           "to the last period they work)")
+    assert messages == [f"person '{slip}' is not in the instance {why}",
+                        f"person 'nobody' is not in the instance {why}"]
 
 
 def test_unknown_names_are_flagged_in_every_table_and_counted_past_the_first_few(tiny_plan):

@@ -13,6 +13,9 @@ from __future__ import annotations
 from collections import defaultdict
 from collections.abc import Callable
 from pathlib import Path
+from typing import Any
+
+import pandas as pd
 
 from rebalance.analysis.limits import hire_rows
 from rebalance.instance import Instance, Person
@@ -20,14 +23,21 @@ from rebalance.numbers import figures
 from rebalance.plan import Plan
 from rebalance.verify import Violation
 
-# The verifier's rules on a plan's own consistency, with the table each is about and what is
-# expected instead: they hold whatever data the plan is read against, unlike its coverage and
-# budget figures, which an old plan made under a scenario fails legitimately (docs/analysis.md).
-SELF_CONTRADICTIONS = {
-    "one_detail": ("details", "expected one detail per person and period (a person is in one "
-                              "place in a period): keep one of the rows"),
-    "one_reassignment": ("reassignments", "expected at most one reassignment per person"),
-    "work_repeated": ("work", "expected one row per person, period, office and skill"),
+# Rows of a plan that contradict one another, whatever data the plan is read against (unlike
+# its coverage and budget figures, which an old plan made under a scenario fails
+# legitimately, docs/analysis.md): by table, the columns one row per value of which the plan
+# writes, what the verifier says of a second row (its rules one_reassignment, one_detail and
+# work_repeated, in its order) and what is expected instead.  Each refusal names the line of
+# the repeat and of the first, as a hire row listed again does.
+SELF_CONTRADICTIONS: dict[str, tuple[tuple[str, ...], Callable[[Any], str], str]] = {
+    "reassignments": (("person",), lambda _: "more than one reassignment",
+                      "expected at most one reassignment per person"),
+    "details": (("person", "period"), lambda _: "two details in one period",
+                "expected one detail per person and period (a person is in one place in a "
+                "period): keep one of the rows"),
+    "work": (("person", "period", "office", "skill"),
+             lambda row: f"{row.skill} at {row.office} is listed twice",
+             "expected one row per person, period, office and skill"),
 }
 
 
@@ -75,7 +85,7 @@ def _checked_past(instance: Instance, old: Plan, at: int, folder: str | Path | N
     # An old plan that contradicts itself (a row pasted twice, say) is said first and alone:
     # the checks below read one detail per person and period, and the re-plan had carried
     # such a plan forward, counting it double in replan.csv (sweep).
-    contradictions = _self_contradictions(old, file, verified)
+    contradictions = _self_contradictions(old, file)
     if contradictions:
         raise ReplanError(contradictions)
 
@@ -85,7 +95,8 @@ def _checked_past(instance: Instance, old: Plan, at: int, folder: str | Path | N
     problems: list[str] = []
     details: dict[str, dict[int, tuple[str, str]]] = defaultdict(dict)
     detail_lines: dict[tuple[str, int], int] = {}
-    for line, row in enumerate(old.details.itertuples(index=False), 2):
+    for line, row in zip(_lines(old.details), old.details.itertuples(index=False),
+                         strict=True):
         if str(row.person) not in people or str(row.period) not in ix:
             problems.append(f"{file('details')}: person {row.person} in {row.period} is not "
                             "in the instance")
@@ -139,17 +150,24 @@ def _expected(instance: Instance, violation: Violation) -> str:
     return f"; expected {what} of {table} ({', '.join(listed[:NAMES_SHOWN])}{more})"
 
 
-def _self_contradictions(old: Plan, file: Callable[[str], str],
-                         verified: list[Violation]) -> list[str]:
-    """Where the old plan contradicts itself, whatever the data: the verifier's rules of
-    :data:`SELF_CONTRADICTIONS` among ``verified`` (its violations), and a hire row repeated
-    (the plan writes one per office, skill, start period and funding; a second counts the
-    hires twice)."""
-    problems = [f"{file(SELF_CONTRADICTIONS[v.rule][0])}: {v.where}: {v.message}; "
-                f"{SELF_CONTRADICTIONS[v.rule][1]}"
-                for v in verified if v.rule in SELF_CONTRADICTIONS]
+def _self_contradictions(old: Plan, file: Callable[[str], str]) -> list[str]:
+    """Where the old plan contradicts itself, whatever the data: a row repeating another's
+    person and period (:data:`SELF_CONTRADICTIONS`), or a hire row repeated (the plan writes
+    one per office, skill, start period and funding; a second counts the hires twice)."""
+    problems = []
+    for table, (key_columns, says, expected) in SELF_CONTRADICTIONS.items():
+        frame = old.table(table)
+        keys = zip(*(frame[c].astype(str) for c in key_columns), strict=True)
+        first_line: dict[tuple[str, ...], int] = {}
+        for line, key, row in zip(_lines(frame), keys, frame.itertuples(index=False),
+                                  strict=True):
+            if key in first_line:
+                problems.append(
+                    f"{file(table)}:{line}: person {row.person} in {row.period}: {says(row)} "
+                    f"(first at line {first_line[key]}); {expected}")
+            first_line.setdefault(key, line)
     first: dict[tuple[str, str, str, str], int] = {}
-    for line, h in enumerate(hire_rows(old), 2):
+    for line, h in zip(_lines(old.hires), hire_rows(old), strict=True):
         key = (h.office, h.skill, h.start_period, h.funding)
         if key in first:
             problems.append(
@@ -160,13 +178,22 @@ def _self_contradictions(old: Plan, file: Callable[[str], str],
     return problems
 
 
+def _lines(frame: pd.DataFrame) -> list[int]:
+    """Each row's line in its CSV file: read_plan indexes rows by their line less 2 (a blank
+    line it skips leaves a gap), as a plan made in memory is by position."""
+    if pd.api.types.is_integer_dtype(frame.index):
+        return [int(i) + 2 for i in frame.index]
+    return list(range(2, len(frame) + 2))
+
+
 def _past_work(old: Plan, ix: dict[str, int], at: int) -> dict[str, list[PastWork]]:
     """The old plan's work rows before ``at`` by person, with their line in ``work.csv``."""
     out: dict[str, list[PastWork]] = defaultdict(list)
     w = old.work
-    for line, (person, period, office, skill, fte) in enumerate(zip(
-            w["person"].astype(str), w["period"].astype(str), w["office"].astype(str),
-            w["skill"].astype(str), w["fte"].astype(float), strict=True), 2):
+    for line, person, period, office, skill, fte in zip(
+            _lines(w), w["person"].astype(str), w["period"].astype(str),
+            w["office"].astype(str), w["skill"].astype(str), w["fte"].astype(float),
+            strict=True):
         t = ix.get(period)
         if t is not None and t < at:
             out[person].append((line, t, office, skill, float(fte)))

@@ -620,16 +620,26 @@ def test_an_old_plan_that_contradicts_itself_is_refused(tiny) -> None:
     old = base.plan
     details = pd.concat([old.details, old.details.iloc[[0]]], ignore_index=True)
     hires = pd.concat([old.hires, old.hires.iloc[[0]]], ignore_index=True)
+    work = pd.concat([old.work, old.work.iloc[[1]]], ignore_index=True)
     moves = pd.DataFrame([["a2", "2027-Q2", "A", "B", 0.0], ["a2", "2027-Q4", "A", "B", 0.0]],
                          columns=old.reassignments.columns)
     with pytest.raises(ReplanError) as refused:
-        replan(tiny, replace(old, details=details, hires=hires, reassignments=moves), 2,
-               exact_options(tiny))
+        replan(tiny, replace(old, details=details, hires=hires, reassignments=moves,
+                             work=work), 2, exact_options(tiny))
+    # Sweep: these three had named no line ("details.csv: person S00001 in 2027-Q1: two
+    # details in one period"); each now names the repeat's line and the first's, as a hire
+    # row listed again does (line 1 the header, each row its place + 2).
+    repeat, work_repeat = len(old.details) + 2, len(old.work) + 2
+    w = old.work.iloc[1]
     assert refused.value.problems == [
-        "reassignments.csv: person a2 in 2027-Q4: more than one reassignment; expected at "
-        "most one reassignment per person",
-        "details.csv: person a1 in 2027-Q2: two details in one period; expected one detail "
-        "per person and period (a person is in one place in a period): keep one of the rows",
+        "reassignments.csv:3: person a2 in 2027-Q4: more than one reassignment (first at "
+        "line 2); expected at most one reassignment per person",
+        f"details.csv:{repeat}: person a1 in 2027-Q2: two details in one period (first at "
+        "line 2); expected one detail per person and period (a person is in one place in a "
+        "period): keep one of the rows",
+        f"work.csv:{work_repeat}: person {w.person} in {w.period}: {w.skill} at {w.office} is "
+        "listed twice (first at line 3); expected one row per person, period, office and "
+        "skill",
         "hires.csv:3: review at B from 2027-Q4 (new) is listed again (first at line 2); "
         "expected one row per office, skill, start period and funding, with the count of "
         "hires"]
@@ -661,6 +671,22 @@ def test_an_unknown_name_in_the_old_plan_says_what_is_expected(tiny) -> None:
         "expected a period of the instance's horizon (2027-Q1 to 2027-Q4)",
         "details.csv:3: to_office 'Z' is not in the instance; expected an office of "
         "offices.csv (A, B)"]
+
+
+def test_a_person_who_left_staff_csv_is_not_met_with_near_ids(tiny) -> None:
+    # Sweep: a person deleted from staff.csv when they left got "did you mean 'S00039' or
+    # 'S00038'?" -- other people.  docs/instance-format.md: someone who leaves stays in
+    # staff.csv with last_period ("the person leaves after this period").
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    details = base.plan.details.copy()
+    details.loc[0, "person"] = "a9"
+    with pytest.raises(ReplanError) as refused:
+        replan(tiny, replace(base.plan, details=details), 2, exact_options(tiny))
+    assert refused.value.problems == [
+        "details.csv:2: person 'a9' is not in the instance (not in staff.csv: a person who "
+        "has left stays in staff.csv, with last_period set to the last period they work); "
+        "expected a person of staff.csv"]
 
 
 def test_the_expected_hint_follows_the_violations_fields_not_its_wording(tiny) -> None:

@@ -16,7 +16,7 @@ from dataclasses import dataclass, replace
 
 import pandas as pd
 
-from rebalance.analysis.scenarios import solve_many
+from rebalance.analysis.solving import solve_many
 from rebalance.instance import Budget, Instance
 from rebalance.planning import PlanResult
 from rebalance.solve import SolveOptions

@@ -20,7 +20,7 @@ import numpy as np
 import pandas as pd
 
 from rebalance.analysis.limits import BUDGET_LIMITS, limit_use, limit_words
-from rebalance.analysis.scenarios import solve_many
+from rebalance.analysis.solving import solve_many
 from rebalance.backends import BackendOutcome, HighsBackend
 from rebalance.instance import Budget, Instance
 from rebalance.model import Model, build_model

@@ -9,12 +9,8 @@ the resulting plan tables.
 
 from __future__ import annotations
 
-import contextlib
-import multiprocessing
-import os
 import tomllib
 from collections.abc import Sequence
-from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
@@ -22,13 +18,15 @@ from typing import Any
 import pandas as pd
 
 from rebalance.analysis.limits import hire_rows
-from rebalance.analysis.start_plan import from_plan
+from rebalance.analysis.solving import solve_many
+from rebalance.analysis.start_plan import named_like
 from rebalance.instance import Budget, Demand, Instance
 from rebalance.numbers import plain_number
 from rebalance.plan import Plan
-from rebalance.planning import PlanResult, make_plan
+from rebalance.planning import PlanResult
 from rebalance.problems import Problem, did_you_mean, is_finite_number, range_words
 from rebalance.solve import SolveOptions
+from rebalance.verify import verify_plan
 
 __all__ = [
     "ACTION_COLUMNS",
@@ -435,79 +433,15 @@ class Comparison:
     actions: pd.DataFrame
 
 
-def _solve(instance: Instance, options: SolveOptions, start: Plan | None = None) -> PlanResult:
-    if start is None:
-        return make_plan(instance, options)
-    return make_plan(instance, options, adjust=from_plan(instance, start))
-
-
-def solve_many(instances: Sequence[Instance], options: SolveOptions,
-               workers: int, start: Plan | None = None,
-               names: Sequence[str] = ()) -> list[PlanResult]:
-    """Solve each instance, from the plan ``start`` where given (see
-    :mod:`rebalance.analysis.start_plan`); in a process pool when ``workers`` > 1 (same
-    results either way: every solve is a pure function of its instance, options and start).
-    Solves in this process keep ``options.progress``, each line led by the instance's name
-    in ``names``; a pool's solves have none (their lines would interleave)."""
-    plain = options if options.progress is None else SolveOptions(
-        **{f: getattr(options, f) for f in options.__dataclass_fields__ if f != "progress"})
-    if workers <= 1 or len(instances) <= 1:
-        return [_solve(inst, _led(options, name), start)
-                for inst, name in zip(instances, [*names, *[""] * len(instances)],
-                                      strict=False)]
-    # Spawned, not forked: a child forked from a process that has run HiGHS inherits its
-    # thread pool in a broken state and spins.
-    others = set(multiprocessing.active_children())  # the caller's own: never ended here
-    pool = ProcessPoolExecutor(max_workers=min(workers, len(instances)),
-                               mp_context=multiprocessing.get_context("spawn"))
-    try:
-        results = list(pool.map(_solve_in_worker, instances, [plain] * len(instances),
-                                [start] * len(instances)))
-    except BaseException:
-        # Stopped from outside (Ctrl-C, SIGTERM) or failed: end the workers now rather than
-        # wait for their solves (a sweep: 22 s to stop a comparison of three).
-        pool.shutdown(wait=False, cancel_futures=True)
-        _end_workers([p for p in multiprocessing.active_children() if p not in others])
-        raise
-    pool.shutdown(wait=True)
-    return results
-
-
-def _led(options: SolveOptions, name: str) -> SolveOptions:
-    """``options`` whose progress lines start with ``[name]``, where there are both."""
-    say = options.progress
-    if say is None or not name:
-        return options
-    return replace(options, progress=lambda text: say(f"[{name}] {text}"))
-
-
-def _solve_in_worker(instance: Instance, options: SolveOptions,
-                     start: Plan | None = None) -> PlanResult:
-    """:func:`_solve` in a pool worker: stopped (SIGTERM from :func:`_end_workers`, or
-    Ctrl-C at the terminal), its solver processes are already killed, and the worker ends
-    rather than take the next task queued (which it had, forking solvers that outlived the
-    run)."""
-    try:
-        return _solve(instance, options, start)
-    except KeyboardInterrupt:
-        os._exit(130)
-
-
-def _end_workers(workers: list[multiprocessing.process.BaseProcess]) -> None:
-    """SIGTERM to each worker, then, a second later, SIGKILL to whatever of their process
-    trees is left."""
-    import psutil
-
-    tree: list[psutil.Process] = []
-    for worker in workers:
-        with contextlib.suppress(psutil.Error, ValueError):
-            process = psutil.Process(worker.pid)
-            tree += [process, *process.children(recursive=True)]
-            process.terminate()
-    _, alive = psutil.wait_procs(tree, timeout=1.0)
-    for process in alive:
-        with contextlib.suppress(psutil.Error):
-            process.kill()
+def _named_like_base(result: PlanResult, base: Plan | None) -> PlanResult:
+    """``result`` with its plan's interchangeable people named as in the ``base`` plan where
+    they do the same (:func:`~rebalance.analysis.start_plan.named_like`), verified again."""
+    if result.plan is None or base is None:
+        return result
+    plan = named_like(result.instance, result.plan, base)
+    if plan is result.plan:
+        return result
+    return replace(result, plan=plan, violations=tuple(verify_plan(result.instance, plan)))
 
 
 def plan_actions(plan: Plan) -> dict[tuple[str, str, str, str, str], float]:
@@ -580,8 +514,8 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
         options.progress(f"solving {len(variants) - 1} scenarios from the base plan, "
                          f"{min(workers, len(variants) - 1)} at a time (no progress lines "
                          "from them until all are done)")
-    results = [base, *solve_many(variants[1:], options, workers, start=base.plan,
-                                 names=names[1:])]
+    results = [base, *[_named_like_base(r, base.plan) for r in solve_many(
+        variants[1:], options, workers, start=base.plan, names=names[1:])]]
     descriptions = {"base": BASE_DESCRIPTION, **{s.name: s.description for s in scenarios}}
     base_plan = results[0].plan
     base_actions = plan_actions(base_plan) if base_plan is not None else {}

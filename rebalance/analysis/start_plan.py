@@ -16,13 +16,14 @@ from collections.abc import Callable
 from dataclasses import replace
 
 import numpy as np
+import pandas as pd
 
 from rebalance.analysis.limits import hire_rows
 from rebalance.instance import Instance
-from rebalance.model import Model
+from rebalance.model import Model, group_units
 from rebalance.plan import Plan
 
-__all__ = ["from_plan", "plan_hint"]
+__all__ = ["from_plan", "named_like", "plan_hint"]
 
 
 def plan_hint(instance: Instance, model: Model, plan: Plan) -> np.ndarray:
@@ -87,3 +88,54 @@ def from_plan(instance: Instance, plan: Plan,
         return replace(model, hint=plan_hint(instance, model, plan), hint_words=words)
 
     return adjust
+
+
+def named_like(instance: Instance, plan: Plan, base: Plan) -> Plan:
+    """``plan`` with the members of each pool of interchangeable people (same home office,
+    skills, FTE, eligibility and leaving period: :func:`~rebalance.model.group_units`)
+    renamed so that their details match ``base``'s as closely as they can.
+
+    The model decides how many of a pool go where; which of them is named afterwards.  Two
+    solves can name the same detail for different members, and a comparison then lists a
+    change that is only a swap of names (a sweep: 6 of the 18 detail rows of the demo's
+    harbour surge).  Whole timelines are swapped between members, who are alike in every
+    rule, so the plan keeps every limit; the renaming that leaves the fewest detail periods
+    differing is an assignment problem (scipy's ``linear_sum_assignment``)."""
+    from scipy.optimize import linear_sum_assignment
+
+    staff = instance.staff
+    timelines = {name: _details_of(p) for name, p in (("plan", plan), ("base", base))}
+    rename: dict[str, str] = {}
+    for unit in group_units(instance):
+        if len(unit) < 2:
+            continue
+        people = [staff[p].person for p in unit]
+        mine = [timelines["plan"].get(person, frozenset()) for person in people]
+        theirs = [timelines["base"].get(person, frozenset()) for person in people]
+        if mine == theirs or not any(mine):
+            continue
+        differing = np.asarray([[len(a ^ b) for b in theirs] for a in mine])
+        rows, cols = linear_sum_assignment(differing)
+        if differing[rows, cols].sum() < np.trace(differing):
+            rename.update({people[r]: people[c] for r, c in zip(rows, cols, strict=True)
+                           if r != c})
+    if not rename:
+        return plan
+
+    def renamed(frame: pd.DataFrame) -> pd.DataFrame:
+        out = frame.copy()
+        out["person"] = frame["person"].astype(str).map(lambda p: rename.get(p, p))
+        return out
+
+    return replace(plan, details=renamed(plan.details), work=renamed(plan.work))
+
+
+def _details_of(plan: Plan) -> dict[str, frozenset[tuple[str, str, str]]]:
+    """Each person's detail periods with their routes."""
+    d = plan.details
+    out: dict[str, set[tuple[str, str, str]]] = {}
+    for person, period, src, dst in zip(d["person"].astype(str), d["period"].astype(str),
+                                        d["from_office"].astype(str), d["to_office"].astype(str),
+                                        strict=True):
+        out.setdefault(person, set()).add((period, src, dst))
+    return {person: frozenset(periods) for person, periods in out.items()}

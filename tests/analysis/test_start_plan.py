@@ -7,6 +7,7 @@ itself is checked by enumerating every plan (``brute_force``, as in tests/test_b
 
 from __future__ import annotations
 
+import itertools
 from dataclasses import replace
 from pathlib import Path
 
@@ -23,8 +24,10 @@ from rebalance.analysis.scenarios import (
     compare_scenarios,
     solve_many,
 )
+from rebalance.analysis.start_plan import named_like
 from rebalance.instance import Instance
 from rebalance.plan import Plan
+from rebalance.verify import verify_plan
 
 FILES = {
     "settings.toml": """
@@ -113,3 +116,60 @@ def test_a_scenario_differs_from_the_base_by_what_it_calls_for(instance: Instanc
     differing = comparison.actions
     assert list(zip(differing["action"], differing["period"], strict=True)) == [
         ("detail", "2027-Q3")]
+
+
+def _alike(tmp_path: Path) -> Instance:
+    """The instance above with a1, a2 and a3 alike in every rule: one pool of three."""
+    folder = tmp_path / "alike"
+    folder.mkdir()
+    for name, text in FILES.items():
+        (folder / name).write_text(text.lstrip())
+    (folder / "staff.csv").write_text(
+        "person,home_office,fte,skills,can_detail,can_relocate,last_period\n"
+        + "".join(f"a{i},A,1.0,review:1.0,true,false,\n" for i in (1, 2, 3))
+        + "b1,B,1.0,review:1.0,false,false,\n")
+    return read_instance(folder)
+
+
+def _with_details(plan: Plan, rows: list[tuple[str, str]]) -> Plan:
+    """``plan`` with A -> B details for (person, period) ``rows`` (work left as it is: only
+    the names of details are compared here)."""
+    details = pd.DataFrame([(p, t, "A", "B", 5000.0) for p, t in rows],
+                           columns=["person", "period", "from_office", "to_office", "cost"])
+    return replace(plan, details=details)
+
+
+def test_alike_people_are_named_as_in_the_base_plan(tmp_path: Path) -> None:
+    instance = _alike(tmp_path)
+    (solved,) = solve_many([instance], exact_options(instance), 1)
+    assert solved.plan is not None and solved.verified
+    (person, period), = _detailed(solved.plan)
+    other = "a3" if person != "a3" else "a1"
+    base = _swapped(solved.plan, person, other)
+    renamed = named_like(instance, solved.plan, base)
+    assert _detailed(renamed) == [(other, period)]
+    assert verify_plan(instance, renamed) == []  # a swap of alike people keeps every rule
+
+
+def test_the_renaming_leaves_the_fewest_details_differing(tmp_path: Path) -> None:
+    # Reference: every renaming of the pool of three, enumerated.
+    instance = _alike(tmp_path)
+    (solved,) = solve_many([instance], exact_options(instance), 1)
+    assert solved.plan is not None
+    q = [f"2027-Q{i}" for i in range(1, 5)]
+    plan = _with_details(solved.plan, [("a1", q[0]), ("a1", q[1]), ("a2", q[2]), ("a3", q[3])])
+    base = _with_details(solved.plan, [("a3", q[0]), ("a3", q[1]), ("a1", q[3]), ("a2", q[0])])
+
+    def differing(p: Plan) -> int:
+        return len(set(_detailed(p)) ^ set(_detailed(base)))
+
+    people = ("a1", "a2", "a3")
+    least = min(differing(_renamed_by(plan, dict(zip(people, order, strict=True))))
+                for order in itertools.permutations(people))
+    assert differing(named_like(instance, plan, base)) == least < differing(plan)
+
+
+def _renamed_by(plan: Plan, mapping: dict[str, str]) -> Plan:
+    details = plan.details.copy()
+    details["person"] = details["person"].map(mapping)
+    return replace(plan, details=details)

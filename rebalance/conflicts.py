@@ -2,24 +2,27 @@
 
 Limits that fail before any decision (more people at home than seats, with nothing that can
 move) are read off the model's rows; otherwise each limit row gets an elastic column and the
-least total relaxation names the limits that had to give, and by how much.
+least total relaxation names the limits that had to give, and by how much.  That total adds
+seats to money, so each other kind of limit is then relaxed alone, to say which of them would
+also do, and by how much ("or, instead: ...").
 """
 
 from __future__ import annotations
 
 import math
+import time
 from collections.abc import Mapping
 from dataclasses import replace
 
 import numpy as np
 import scipy.sparse as sp
 
-from rebalance.backends import Backend, SolveOptions
+from rebalance.backends import Backend, BackendOutcome, SolveOptions, Status
 from rebalance.instance import Instance
 from rebalance.model import LIMIT_FAMILIES, Model
 from rebalance.numbers import money_text, number_text
 
-__all__ = ["constant_conflicts", "find_conflicts", "seat_words"]
+__all__ = ["constant_conflicts", "find_conflicts", "other_ways_out", "seat_words"]
 
 
 def constant_conflicts(model: Model, instance: Instance | None = None) -> list[str]:
@@ -82,18 +85,27 @@ def _amount(family: str, value: float) -> str:
     return money_text(value) if "budget" in family else number_text(value)
 
 
-def find_conflicts(model: Model, backend: Backend, options: SolveOptions,
-                   time_limit: float, instance: Instance | None = None) -> list[str]:
-    """Name the limits that cannot hold together: relax each limit row by an elastic column
-    and minimise the total relaxation; rows that still need relaxing are the conflict.
-    Empty where none needs to: the model was feasible all along.  With ``instance`` (the
-    model's), seats say whom they are short of (:func:`seat_words`)."""
-    limit_rows = [i for f in model.rows if f.name in LIMIT_FAMILIES
-                  for i in range(f.start, f.stop) if math.isfinite(model.row_upper[i])]
-    if not limit_rows:
-        return ["the solver reports the model infeasible, but no limit row can be relaxed"]
-    k = len(limit_rows)
-    elastic = sp.csr_matrix((np.full(k, -1.0), (np.asarray(limit_rows), np.arange(k))),
+# Share of find_conflicts' time the least total relaxation may take; the other ways out
+# (one family of limits at a time) share what it leaves.
+LEAST_SHARE = 0.6
+# Below this many seconds for each kind, or twice what the least total took where that is
+# more, the other ways out are not tried, and that is said (each is a run like the least
+# total's, on a model of the same size: at 0.5 s a 3 s run of a 6-person case had skipped
+# runs of 0.02 s).
+MIN_ALTERNATIVE_SECONDS = 0.1
+# Rows named by each other way out; the rest are counted and totalled.
+ROWS_NAMED = 3
+# Families that are one limit written twice: the away share, and the same rows rounded to
+# whole people. Relaxing either alone leaves the other holding, so they give way together.
+_GROUPS = {"away_share_in_whole_people": "away_share"}
+
+
+def _relaxed(model: Model, rows: list[int], backend: Backend, options: SolveOptions,
+             time_limit: float) -> BackendOutcome:
+    """Minimise the total relaxation of ``rows``, each by an elastic column; every other row
+    held.  The relaxations are the last ``len(rows)`` entries of the outcome's ``x``."""
+    k = len(rows)
+    elastic = sp.csr_matrix((np.full(k, -1.0), (np.asarray(rows), np.arange(k))),
                             shape=(model.num_rows, k))
     with_elastic = replace(
         model,
@@ -105,7 +117,33 @@ def find_conflicts(model: Model, backend: Backend, options: SolveOptions,
         cost=np.concatenate([model.cost, np.zeros(k)]),
     )
     objective = np.concatenate([np.zeros(model.num_cols), np.ones(k)])
-    out = backend.run(with_elastic, objective, [], options, time_limit, None)
+    return backend.run(with_elastic, objective, [], options, time_limit, None)
+
+
+def find_conflicts(model: Model, backend: Backend, options: SolveOptions,
+                   time_limit: float, instance: Instance | None = None) -> list[str]:
+    """Name the limits that cannot hold together: relax each limit row by an elastic column
+    and minimise the total relaxation; rows that still need relaxing are the conflict.
+    Empty where none needs to: the model was feasible all along.  With ``instance`` (the
+    model's), seats say whom they are short of (:func:`seat_words`).
+
+    The total adds seats to money as one unit, so it names whichever limit is the smaller
+    number, not always the cause.  After it come the other ways out: each family of limits
+    that would, relaxed alone, let a plan keep every other limit (:func:`other_ways_out`),
+    within the same ``time_limit``."""
+    started = time.perf_counter()
+    limit_rows = [i for f in model.rows if f.name in LIMIT_FAMILIES
+                  for i in range(f.start, f.stop) if math.isfinite(model.row_upper[i])]
+    if not limit_rows:
+        return ["the solver reports the model infeasible, but no limit row can be relaxed"]
+    # Where the other ways out could not have their least time each (one kind fewer than
+    # there are: the answer's own, where it is one), the least total keeps it all.
+    kinds = len({_GROUPS.get(f.name, f.name) for f in model.rows
+                 if f.name in LIMIT_FAMILIES and f.stop > f.start})
+    others = (1 - LEAST_SHARE) * time_limit / max(kinds - 1, 1) >= MIN_ALTERNATIVE_SECONDS
+    out = _relaxed(model, limit_rows, backend, options,
+                   LEAST_SHARE * time_limit if others else time_limit)
+    least_seconds = time.perf_counter() - started
     if out.x is None:
         return [f"the limits conflict, but the analysis found no relaxation ({out.words})"]
     excess = out.x[model.num_cols:]
@@ -125,4 +163,90 @@ def find_conflicts(model: Model, backend: Backend, options: SolveOptions,
                f"{count} limits "
                "(the least total; how it is split between them can differ)"
                for family, (count, amount) in totals.items() if count > 1]
-    return summary + listed
+    left = time_limit - (time.perf_counter() - started)
+    return summary + listed + other_ways_out(model, backend, options, left,
+                                             {_GROUPS.get(f, f) for f in totals}, least_seconds)
+
+
+def other_ways_out(model: Model, backend: Backend, options: SolveOptions, time_limit: float,
+                   answered: set[str], least_seconds: float = 0.0) -> list[str]:
+    """For each family of limits with rows, other than the one the least total relaxation
+    gave way in alone (``answered``, where it is one family), whether relaxing that family
+    alone lets a plan keep every other limit; if so, by how much, as "or, instead: ..." lines.
+    ``time_limit`` is shared between the families; with too little for each (twice
+    ``least_seconds``, what the least total took, at least), they are not tried, and a line
+    says so."""
+    started = time.perf_counter()
+    groups: dict[str, list[int]] = {}
+    for f in model.rows:
+        if f.name in LIMIT_FAMILIES:
+            rows = [i for i in range(f.start, f.stop) if math.isfinite(model.row_upper[i])]
+            if rows:
+                groups.setdefault(_GROUPS.get(f.name, f.name), []).extend(rows)
+    if len(answered) == 1:
+        groups.pop(next(iter(answered)), None)
+    if not groups:
+        return []
+    needed = max(MIN_ALTERNATIVE_SECONDS, 2 * least_seconds)
+    if time_limit / len(groups) < needed:
+        return [f"too little time left to check other ways out (each kind of limit relaxed "
+                f"alone): {max(time_limit, 0.0):.1f}s for {len(groups)} kinds"]
+    # A run with no relaxation found yet must stop at its share, not run on; and the amount
+    # is to be the least, not one within the plan's gap (1% of a budget is a real sum).
+    options = replace(options, overtime_without_plan=0.0, progress=None, relative_gap=0.0)
+    lines, unsettled = [], []
+    for n, (group, rows) in enumerate(groups.items()):
+        share = (time_limit - (time.perf_counter() - started)) / (len(groups) - n)
+        if share < needed:
+            unsettled += [g.replace("_", " ") for g in list(groups)[n:]]
+            break
+        out = _relaxed(model, rows, backend, options, share)
+        if out.status is Status.INFEASIBLE:
+            continue  # relaxing this family alone does not resolve it
+        if out.x is None or not out.status.has_plan:
+            unsettled.append(group.replace("_", " "))
+            continue
+        excess = out.x[model.num_cols:]
+        given = [(rows[i], float(excess[i])) for i in np.flatnonzero(excess > 1e-6)]
+        if given:  # none: the solver's verdict of infeasible was numerics (as solve says)
+            lines.append(_way_out(model, given, out.status is Status.OPTIMAL))
+    if unsettled:
+        lines.append("not settled in the time whether these alone would do: "
+                     + ", ".join(unsettled))
+    return lines
+
+
+def _way_out(model: Model, given: list[tuple[int, float]], least: bool) -> str:
+    """One "or, instead" line: the rows ``given`` way (row, by how much), by family: a lone
+    row by name, several with their total and at most ``ROWS_NAMED`` of them named."""
+    by_family: dict[str, list[tuple[int, float]]] = {}
+    for row, amount in given:
+        by_family.setdefault(model.row_label(row)[0], []).append((row, amount))
+    said = []
+    for family, rows in by_family.items():
+        if len(rows) == 1:
+            # A budget's label names it already ("moves budget 2027"), as _describe_row says.
+            said.append(f"{_describe_row(model, rows[0][0], None)} "
+                        f"raised by {_amount(family, _enough(family, rows[0][1]))}")
+            continue
+        # The largest first; equal ones in the model's order (offices, then periods).
+        ranked = sorted(rows, key=lambda ra: -ra[1])
+        named = [f"{model.row_label(row)[1]} by {_amount(family, _enough(family, amount))}"
+                 for row, amount in ranked[:ROWS_NAMED]]
+        if len(rows) > ROWS_NAMED:
+            named.append(f"{len(rows) - ROWS_NAMED} more")
+        total = _enough(family, sum(amount for _, amount in rows))
+        said.append(f"{family.replace('_', ' ')} raised by {_amount(family, total)} in all, "
+                    f"across {len(rows)} limits ({', '.join(named)})")
+    text = "or, instead: " + " and ".join(said) + " would do, with every other limit kept"
+    if not least:
+        text += " (perhaps less would: not proven the least in the time)"
+    return text
+
+
+def _enough(family: str, amount: float) -> float:
+    """Money rounded up to whole units, so that the amount said is never short of what the
+    relaxation needed (dust of a millionth is the solver's, not a need)."""
+    if "budget" in family:
+        return float(math.ceil(amount - 1e-6 * max(1.0, abs(amount))))
+    return amount

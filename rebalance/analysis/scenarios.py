@@ -26,6 +26,7 @@ from rebalance.plan import Plan
 from rebalance.planning import PlanResult
 from rebalance.problems import Problem, did_you_mean, is_finite_number, range_words
 from rebalance.solve import SolveOptions
+from rebalance.tables import NotUtf8, read_utf8
 from rebalance.verify import verify_plan
 
 __all__ = [
@@ -181,10 +182,14 @@ def _read(path: str | Path, instance: Instance) -> tuple[Scenario | None, str | 
     file = str(path)
     problems: list[Problem] = []
     try:
-        raw = tomllib.loads(Path(path).read_text(encoding="utf-8-sig"))
+        # As settings.toml is read: a file saved as UTF-16 says which line and byte, not
+        # Python's codec words (a sweep).
+        raw = tomllib.loads(read_utf8(Path(path)))
     except FileNotFoundError:
         return None, None, [Problem(file, None, "", "file not found")]
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+    except NotUtf8 as exc:
+        return None, None, [Problem(file, exc.row, "", str(exc))]
+    except tomllib.TOMLDecodeError as exc:
         return None, None, [Problem(file, None, "", f"not valid TOML: {exc}")]
     known_keys = {"name", "description", "demand", "budget"}
     for key in raw:

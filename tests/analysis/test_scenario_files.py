@@ -239,3 +239,13 @@ def test_a_name_written_as_a_number_says_to_quote_it(tmp_path: Path, tiny) -> No
     path = write(tmp_path, "t", 'name = "t"\n[[demand]]\noffices = [true]\nmultiplier = 2\n')
     assert problems(path, tiny) == [f"{path}: demand[1].offices: expected a list of office "
                                     "names"]
+
+
+def test_a_file_saved_as_utf16_says_so_with_its_line(tmp_path: Path, tiny) -> None:
+    # A sweep: "not valid TOML: 'utf-8' codec can't decode byte 0xff in position 0", Python's
+    # words.  UTF-16 files open with the byte-order mark ff fe (the Unicode Standard, 3.10).
+    path = tmp_path / "wide.toml"
+    path.write_text('name = "wide"\n[[demand]]\nmultiplier = 1.2\n', encoding="utf-16")
+    assert problems(path, tiny) == [
+        f"{path}:1: is not UTF-8 text (byte 0xff on this line); expected the file saved as "
+        "UTF-8"]

@@ -18,7 +18,6 @@ outcomes give 4 if any point is infeasible, else 7): docs/analysis.md, *Exit cod
 from __future__ import annotations
 
 import argparse
-import json
 import math
 import os
 import shlex
@@ -51,6 +50,7 @@ from rebalance.cli_common import (
     _load,
     _unreadable_plan,
     add_solver_options,
+    scenario_of,
 )
 from rebalance.numbers import seconds_text
 from rebalance.readers import count_problems
@@ -179,7 +179,7 @@ def cmd_verify(args: argparse.Namespace) -> int:
     except PlanError as exc:
         return _unreadable_plan(args.plan_dir, exc)
     head, *lines = format_violations(violations).splitlines()
-    scenario = _scenario_of(Path(args.plan_dir)) if violations else None
+    scenario = scenario_of(Path(args.plan_dir)) if violations else None
     if scenario is not None:
         # A plan made under a scenario keeps the scenario's data, not the instance's: its
         # demand and budgets read as broken here (a sweep's planner took that for a fault).
@@ -189,20 +189,6 @@ def cmd_verify(args: argparse.Namespace) -> int:
     print("\n".join([head, *(lines if args.all else
                               _first(lines, "; --all lists every one"))]))
     return EXIT_OK if not violations else EXIT_VERIFICATION_FAILED
-
-
-def _scenario_of(folder: Path) -> str | None:
-    """The scenario a plan folder's summary.json says its plan was made under, if any."""
-    try:
-        summary = json.loads((folder / "summary.json").read_text())
-    except (OSError, ValueError):
-        return None
-    if not isinstance(summary, dict):
-        return None
-    replanned = summary.get("replan")
-    name = summary.get("scenario") or (replanned.get("scenario")
-                                       if isinstance(replanned, dict) else None)
-    return name if isinstance(name, str) and name else None
 
 
 def cmd_demand(args: argparse.Namespace) -> int:

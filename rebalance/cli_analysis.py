@@ -33,6 +33,7 @@ from rebalance.cli_common import (
     _say_first,
     _unreadable_plan,
     add_solver_options,
+    scenario_of,
 )
 from rebalance.instance import Instance
 from rebalance.report.console import format_frame, is_missing
@@ -231,6 +232,13 @@ def cmd_replan(args: argparse.Namespace) -> int:
             _say_first(f"{len(exc.problems)} problem(s) in the scenario file; "
                        "nothing was written", exc.problems)
             return EXIT_INVALID_INPUT
+    made_under = scenario_of(folder)
+    if made_under is not None and made_under != scenario_name:
+        # Its demand and budgets were the scenario's; the re-plan's are the data given here.
+        _err(f"note: the old plan was made under scenario '{made_under}' (its summary.json); "
+             "this re-plan reads " + ("the instance's own data" if scenario_name is None
+                                      else f"scenario '{scenario_name}'")
+             + "; to re-plan under it, give --scenario with its file")
     if args.at not in instance.period_names:
         _err(f"--at {args.at}: not a period of the instance; expected one of "
              f"{', '.join(instance.period_names)}")

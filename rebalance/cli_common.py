@@ -8,6 +8,7 @@ for ``rebalance.cli`` and ``rebalance.cli_analysis`` only, no API.
 from __future__ import annotations
 
 import argparse
+import json
 import math
 import sys
 from collections.abc import Callable, Sequence
@@ -125,3 +126,17 @@ def add_solver_options(p: argparse.ArgumentParser, limit_covers: str) -> None:
                         "time_limit_seconds, else 300)")
     p.add_argument("--gap", type=GAP, help=GAP_HELP)
     p.add_argument("--seed", type=SEED, help=SEED_HELP)
+
+
+def scenario_of(folder: Path) -> str | None:
+    """The scenario a plan folder's summary.json says its plan was made under, if any."""
+    try:
+        summary = json.loads((folder / "summary.json").read_text())
+    except (OSError, ValueError):
+        return None
+    if not isinstance(summary, dict):
+        return None
+    replanned = summary.get("replan")
+    name = summary.get("scenario") or (replanned.get("scenario")
+                                       if isinstance(replanned, dict) else None)
+    return name if isinstance(name, str) and name else None

@@ -164,6 +164,21 @@ def test_replan_lists_the_rules_the_old_plan_breaks(tmp_path: Path) -> None:
     assert listed and listed[0].startswith("  ") and "a1" in listed[0]
 
 
+def test_replan_from_a_scenario_plan_says_whose_data_it_reads(tmp_path: Path) -> None:
+    # A sweep: a re-plan --from a scenario's plan folder ran on the instance's own data
+    # without a word, where verify says so of the same folder.
+    old = tmp_path / "old"
+    assert run("plan", str(TINY), "-o", str(old), "-q").returncode == 0
+    summary = json.loads((old / "summary.json").read_text())
+    (old / "summary.json").write_text(json.dumps({**summary, "scenario": "storm"}))
+    done = run("replan", str(TINY), "--from", str(old), "--at", "2027-Q3", "-o",
+               str(tmp_path / "new"), "-q")
+    assert done.returncode == 0, done.stderr
+    assert ("note: the old plan was made under scenario 'storm' (its summary.json); this "
+            "re-plan reads the instance's own data; to re-plan under it, give --scenario "
+            "with its file") in done.stderr
+
+
 def seats_short(tmp_path: Path, share: str) -> Path:
     """tests/data/seats_short with ``max_away_share`` set to ``share``."""
     target = tmp_path / "seats_short"

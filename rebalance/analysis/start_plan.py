@@ -98,44 +98,106 @@ def named_like(instance: Instance, plan: Plan, base: Plan) -> Plan:
     The model decides how many of a pool go where; which of them is named afterwards.  Two
     solves can name the same detail for different members, and a comparison then lists a
     change that is only a swap of names (a sweep: 6 of the 18 detail rows of the demo's
-    harbour surge).  Whole timelines are swapped between members, who are alike in every
-    rule, so the plan keeps every limit; the renaming that leaves the fewest detail periods
-    differing is an assignment problem (scipy's ``linear_sum_assignment``)."""
+    harbour surge).  First whole timelines are given to the members whose base timelines
+    they differ from least (an assignment problem, scipy's ``linear_sum_assignment``); then
+    single periods are traded between two members where that brings both nearer the base
+    and neither breaks the limit on consecutive detail periods.  The members are alike in
+    every other rule, so the plan keeps every limit (the caller verifies it again)."""
     from scipy.optimize import linear_sum_assignment
 
     staff = instance.staff
-    timelines = {name: _details_of(p) for name, p in (("plan", plan), ("base", base))}
-    rename: dict[str, str] = {}
+    names = instance.period_names
+    periods = {name: t for t, name in enumerate(names)}
+    most = instance.policy.max_consecutive_detail_periods
+    routes = {name: _routes_of(p, periods) for name, p in (("plan", plan), ("base", base))}
+    # (person, period index) -> who does that person's period of ``plan`` once renamed.
+    given: dict[tuple[str, int], str] = {}
     for unit in group_units(instance):
         if len(unit) < 2:
             continue
         people = [staff[p].person for p in unit]
-        mine = [timelines["plan"].get(person, frozenset()) for person in people]
-        theirs = [timelines["base"].get(person, frozenset()) for person in people]
+        mine = [routes["plan"].get(person, {}) for person in people]
+        theirs = [routes["base"].get(person, {}) for person in people]
         if mine == theirs or not any(mine):
             continue
-        differing = np.asarray([[len(a ^ b) for b in theirs] for a in mine])
+        differing = np.asarray([[_differing(a, b, len(names)) for b in theirs] for a in mine])
         rows, cols = linear_sum_assignment(differing)
-        if differing[rows, cols].sum() < np.trace(differing):
-            rename.update({people[r]: people[c] for r, c in zip(rows, cols, strict=True)
-                           if r != c})
-    if not rename:
+        # now[c]: the timeline member c does (from member owner[c][t] of ``plan`` at t).
+        now: list[dict[int, tuple[str, str]]] = [{} for _ in people]
+        owner = [[c] * len(names) for c in range(len(people))]
+        for r, c in zip(rows, cols, strict=True):
+            now[c] = dict(mine[r])
+            owner[c] = [r] * len(names)
+        for t in range(len(names)):
+            for a in range(len(people)):
+                if now[a].get(t) == theirs[a].get(t):
+                    continue
+                for b in range(len(people)):
+                    if b == a or now[b].get(t) != theirs[a].get(t):
+                        continue
+                    kept = int(now[b].get(t) != theirs[b].get(t))
+                    if int(now[a].get(t) != theirs[b].get(t)) >= 1 + kept:
+                        continue  # b would lose its match for a's gain
+                    swapped_a, swapped_b = _traded(now[a], now[b], t)
+                    if _runs_ok(swapped_a, most) and _runs_ok(swapped_b, most):
+                        now[a], now[b] = swapped_a, swapped_b
+                        owner[a][t], owner[b][t] = owner[b][t], owner[a][t]
+                        break
+        for c, person in enumerate(people):
+            for t in range(len(names)):
+                if owner[c][t] != c:
+                    given[(people[owner[c][t]], t)] = person
+    if not given:
         return plan
 
     def renamed(frame: pd.DataFrame) -> pd.DataFrame:
         out = frame.copy()
-        out["person"] = frame["person"].astype(str).map(lambda p: rename.get(p, p))
+        out["person"] = [given.get((person, periods.get(period, -1)), person) for person, period
+                         in zip(frame["person"].astype(str), frame["period"].astype(str),
+                                strict=True)]
         return out
 
     return replace(plan, details=renamed(plan.details), work=renamed(plan.work))
 
 
-def _details_of(plan: Plan) -> dict[str, frozenset[tuple[str, str, str]]]:
-    """Each person's detail periods with their routes."""
+def _routes_of(plan: Plan, periods: dict[str, int]) -> dict[str, dict[int, tuple[str, str]]]:
+    """Each person's detail periods (by index) with their routes."""
     d = plan.details
-    out: dict[str, set[tuple[str, str, str]]] = {}
+    out: dict[str, dict[int, tuple[str, str]]] = {}
     for person, period, src, dst in zip(d["person"].astype(str), d["period"].astype(str),
                                         d["from_office"].astype(str), d["to_office"].astype(str),
                                         strict=True):
-        out.setdefault(person, set()).add((period, src, dst))
-    return {person: frozenset(periods) for person, periods in out.items()}
+        if period in periods:
+            out.setdefault(person, {})[periods[period]] = (src, dst)
+    return out
+
+
+def _differing(a: dict[int, tuple[str, str]], b: dict[int, tuple[str, str]], T: int) -> int:
+    """Periods in which two timelines are not on the same detail (or both at home)."""
+    return sum(a.get(t) != b.get(t) for t in range(T))
+
+
+def _traded(a: dict[int, tuple[str, str]], b: dict[int, tuple[str, str]],
+            t: int) -> tuple[dict[int, tuple[str, str]], dict[int, tuple[str, str]]]:
+    """Timelines ``a`` and ``b`` with period ``t`` traded."""
+    new_a, new_b = dict(a), dict(b)
+    new_a.pop(t, None)
+    new_b.pop(t, None)
+    if t in b:
+        new_a[t] = b[t]
+    if t in a:
+        new_b[t] = a[t]
+    return new_a, new_b
+
+
+def _runs_ok(timeline: dict[int, tuple[str, str]], most: int | None) -> bool:
+    """No more than ``most`` detail periods in a row (None: no limit)."""
+    if most is None:
+        return True
+    run, last = 0, -2
+    for t in sorted(timeline):
+        run = run + 1 if t == last + 1 else 1
+        last = t
+        if run > most:
+            return False
+    return True

@@ -173,3 +173,28 @@ def _renamed_by(plan: Plan, mapping: dict[str, str]) -> Plan:
     details = plan.details.copy()
     details["person"] = details["person"].map(mapping)
     return replace(plan, details=details)
+
+
+def test_single_periods_are_traded_where_whole_timelines_cannot_match(tmp_path: Path) -> None:
+    # a1 on detail in Q1 and Q3, the base has a1 in Q1 and a2 in Q3: no renaming of whole
+    # timelines matches (each leaves one period differing), trading Q3 does.
+    instance = _alike(tmp_path)
+    (solved,) = solve_many([instance], exact_options(instance), 1)
+    assert solved.plan is not None
+    plan = _with_details(solved.plan, [("a1", "2027-Q1"), ("a1", "2027-Q3")])
+    base = _with_details(solved.plan, [("a1", "2027-Q1"), ("a2", "2027-Q3")])
+    assert _detailed(named_like(instance, plan, base)) == _detailed(base)
+
+
+def test_no_trade_makes_a_run_longer_than_the_limit(tmp_path: Path) -> None:
+    # The base wants a1 on detail in Q2 and Q3; with at most one detail period in a row
+    # (max_consecutive_detail_periods = 1) giving a1 a2's Q3 would break that rule.
+    instance = _alike(tmp_path)
+    (solved,) = solve_many([instance], exact_options(instance), 1)
+    assert solved.plan is not None
+    plan = _with_details(solved.plan, [("a1", "2027-Q2"), ("a2", "2027-Q3")])
+    base = _with_details(solved.plan, [("a1", "2027-Q2"), ("a1", "2027-Q3")])
+    assert _detailed(named_like(instance, plan, base)) == _detailed(base)  # no limit: traded
+    limited = replace(instance, policy=replace(instance.policy,
+                                               max_consecutive_detail_periods=1))
+    assert _detailed(named_like(limited, plan, base)) == _detailed(plan)

@@ -86,10 +86,39 @@ def stay_put_plan(backend: Backend, model: Model, objective: np.ndarray,
     every limit (seats over) or there is no time."""
     candidates = [("staying put (no moves, no hires)", model.col_lower)]
     if model.hint is not None and model.hint.size == model.num_cols:
-        held = np.clip(np.rint(model.hint), model.col_lower, model.col_upper)
         candidates.insert(0, (f"{model.hint_words}'s moves and hires, work split afresh",
-                              held))
+                              _hint_held(model)))
     best: tuple[float, np.ndarray] | None = None
+    for words, values in candidates:
+        out = work_split_for(backend, model, objective, options, deadline, values)
+        if out is None or out.x is None or out.objective is None:
+            continue
+        say(f"  {words}: {out.objective:.6g}")
+        if best is None or out.objective < best[0] - 1e-9:
+            best = (out.objective, out.x)
+    return None if best is None else best[1]
+
+
+def hint_plan(backend: Backend, model: Model, objective: np.ndarray, options: SolveOptions,
+              deadline: float) -> BackendOutcome | None:
+    """The model's ``hint`` (a re-plan's old plan, a scenario's base plan) with the best
+    work split for ``objective``; None where there is no hint, it breaks a limit, or there
+    is no time."""
+    if model.hint is None or model.hint.size != model.num_cols:
+        return None
+    out = work_split_for(backend, model, objective, options, deadline, _hint_held(model))
+    return None if out is None or out.x is None or out.objective is None else out
+
+
+def _hint_held(model: Model) -> np.ndarray:
+    assert model.hint is not None
+    return np.clip(np.rint(model.hint), model.col_lower, model.col_upper)
+
+
+def work_split_for(backend: Backend, model: Model, objective: np.ndarray,
+                   options: SolveOptions, deadline: float,
+                   values: np.ndarray) -> BackendOutcome | None:
+    """The best work split (an LP) with every whole-number column held at ``values``."""
     # Held apart, only the work split is left (an LP): CBC had been handed the whole model
     # (40 offices: PuLP's building and writing took the 1.9 s this step had, and the run
     # ended with no plan at all, exit 5).  Where a backend writes its model out for every run
@@ -97,25 +126,19 @@ def stay_put_plan(backend: Backend, model: Model, objective: np.ndarray,
     # still not written it in its share, and a run that stays put keeps every limit.  The
     # backend asked for stays the fallback (HiGHS takes no cost of 1e20 or more).
     lp_backends = [backend] if backend.reruns_cheaply else [HighsBackend(), backend]
-    for words, values in candidates:
-        lower = np.where(model.is_integer, values, model.col_lower)
-        upper = np.where(model.is_integer, values, model.col_upper)
-        out: BackendOutcome | None = None
-        for lp_backend in lp_backends:
-            left = deadline - time.perf_counter()
-            if left <= 0.05:
-                break
-            out = run_within(lp_backend, relaxed(model), objective, [],
-                             replace(options, progress=None, heuristics=False), lower, upper,
-                             min(left, max(0.1 * left, 1.0)))
-            if out.x is not None and out.objective is not None:
-                break
-        if out is None or out.x is None or out.objective is None:
-            continue
-        say(f"  {words}: {out.objective:.6g}")
-        if best is None or out.objective < best[0] - 1e-9:
-            best = (out.objective, out.x)
-    return None if best is None else best[1]
+    lower = np.where(model.is_integer, values, model.col_lower)
+    upper = np.where(model.is_integer, values, model.col_upper)
+    out: BackendOutcome | None = None
+    for lp_backend in lp_backends:
+        left = deadline - time.perf_counter()
+        if left <= 0.05:
+            break
+        out = run_within(lp_backend, relaxed(model), objective, [],
+                         replace(options, progress=None, heuristics=False), lower, upper,
+                         min(left, max(0.1 * left, 1.0)))
+        if out.x is not None and out.objective is not None:
+            break
+    return out
 
 
 def first_plan_from_lp(backend: Backend, model: Model, objective: np.ndarray,

@@ -37,12 +37,10 @@ def solve_many(instances: Sequence[Instance], options: SolveOptions,
     results either way: every solve is a pure function of its instance, options and start).
     Solves in this process that ``names`` names keep ``options.progress``, each line led by
     that name; others, and a pool's solves, have none (their lines would interleave)."""
-    plain = options if options.progress is None else SolveOptions(
-        **{f: getattr(options, f) for f in options.__dataclass_fields__ if f != "progress"})
+    plain = replace(options, progress=None)
     if workers <= 1 or len(instances) <= 1:
-        return [_solve(inst, _led(options, name) if name else plain, start)
-                for inst, name in zip(instances, [*names, *[""] * len(instances)],
-                                      strict=False)]
+        return [_solve(inst, _led(options, names[i]) if i < len(names) else plain, start)
+                for i, inst in enumerate(instances)]
     # Spawned, not forked: a child forked from a process that has run HiGHS inherits its
     # thread pool in a broken state and spins.
     others = set(multiprocessing.active_children())  # the caller's own: never ended here
@@ -62,9 +60,9 @@ def solve_many(instances: Sequence[Instance], options: SolveOptions,
 
 
 def _led(options: SolveOptions, name: str) -> SolveOptions:
-    """``options`` whose progress lines start with ``[name]``, where there are both."""
+    """``options`` whose progress lines start with ``[name]``, where it has any."""
     say = options.progress
-    if say is None or not name:
+    if say is None:
         return options
     return replace(options, progress=lambda text: say(f"[{name}] {text}"))
 

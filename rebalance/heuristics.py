@@ -29,6 +29,7 @@ from rebalance.backends import (
     in_background,
 )
 from rebalance.model import Model
+from rebalance.numbers import progress_value
 from rebalance.rounding import early_lp, movers_free, neighbourhood, plan_by_rounding
 from rebalance.split import relaxed, run_within
 from rebalance.whole_plans import decomposable
@@ -93,7 +94,7 @@ def stay_put_plan(backend: Backend, model: Model, objective: np.ndarray,
         out = work_split_for(backend, model, objective, options, deadline, values)
         if out is None or out.x is None or out.objective is None:
             continue
-        say(f"  {words}: {out.objective:.6g}")
+        say(f"  {words}: {progress_value(out.objective)}")
         if best is None or out.objective < best[0] - 1e-9:
             best = (out.objective, out.x)
     return None if best is None else best[1]
@@ -159,7 +160,7 @@ def first_plan_from_lp(backend: Backend, model: Model, objective: np.ndarray,
         why = "out of its time" if lp.status is Status.NO_PLAN_IN_TIME else lp.words
         say(f"  LP relaxation not solved ({why}); going straight to branch and bound")
         return start, None
-    say(f"  LP relaxation {lp.objective:.6g} in {lp.seconds:.1f}s")
+    say(f"  LP relaxation {progress_value(lp.objective)} in {lp.seconds:.1f}s")
     # Widen the box to hold the previous plan too: never empty, and the search mixes what
     # the LP wants with what is known to work (stage two needs it).
     lower, upper = neighbourhood(lp.x, model.col_lower, model.col_upper, model.is_integer,
@@ -172,7 +173,7 @@ def first_plan_from_lp(backend: Backend, model: Model, objective: np.ndarray,
         narrowed, objective, extra_rows, _labelled(options, "rounding search", say),
         min(options.shares.rens * budget, 0.5 * left), start)
     if rens is not None and rens.x is not None and rens.objective is not None:
-        say(f"  rounding search: plan with {rens.objective:.6g} in {rens.seconds:.1f}s")
+        say(f"  rounding search: plan with {progress_value(rens.objective)} in {rens.seconds:.1f}s")
         start = better_plan(objective, start, rens.x)
     return start, lp.objective
 
@@ -486,10 +487,10 @@ def _restricted_run(backend: Backend, model: Model, objective: np.ndarray,
             1.0 + abs(out.objective)):
         # Seen where HiGHS does not take the start up (on a model with many relocatable
         # people, 6,265.9 from a start of 2,620.2): the caller keeps the start.
-        say(f"  {label}: nothing better than its start ({out.objective:.6g} found, "
+        say(f"  {label}: nothing better than its start ({progress_value(out.objective)} found, "
             f"{out.seconds:.1f}s)")
     else:
-        say(f"  {label}: plan with {out.objective:.6g} in {out.seconds:.1f}s")
+        say(f"  {label}: plan with {progress_value(out.objective)} in {out.seconds:.1f}s")
     return out
 
 

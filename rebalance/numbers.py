@@ -43,6 +43,7 @@ __all__ = [
     "number_rule",
     "number_text",
     "plain_number",
+    "progress_value",
     "seconds_text",
     "share_of",
     "share_text",
@@ -155,6 +156,18 @@ def column_header(column: str, currency: str | None) -> str:
 def fte_total_text(value: float) -> str:
     """A headline total of FTE-periods: :data:`FTE_TOTAL_DIGITS` decimals, no "-0"."""
     return f"{dust_free(value) + 0.0:,.{FTE_TOTAL_DIGITS}f}"
+
+
+def progress_value(value: float | None) -> str:
+    """A stage's objective or bound in a progress line: from 100,000 up (money) whole, with
+    thousands separators (2,470,500, where ``:.6g`` had written 2.4705e+06, read as code by a
+    planner); below it six significant figures (a shortfall of 168.591)."""
+    if value is None:
+        return "none"
+    return f"{value:,.0f}" if abs(value) >= PROGRESS_WHOLE_FROM else f"{value:.6g}"
+
+
+PROGRESS_WHOLE_FROM = 1e5
 
 
 def seconds_text(value: float) -> str:

@@ -23,6 +23,7 @@ import numpy as np
 
 from rebalance.backends import Backend, BackendOutcome, SolveOptions, Status, in_background
 from rebalance.model import ADAPTING_FAMILIES, Model
+from rebalance.numbers import progress_value
 from rebalance.split import resplit, solve_relaxation
 
 __all__ = [
@@ -117,7 +118,7 @@ def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
     if lp.status not in (Status.OPTIMAL, Status.APPROXIMATE) or lp.x is None:
         say(f"  rounding: LP not solved ({lp.words})")
         return Rounding(None, None, None, lower, upper, lp.seconds)
-    say(f"  rounding: LP {lp.objective:.6g} in {lp.seconds:.1f}s")
+    say(f"  rounding: LP {progress_value(lp.objective)} in {lp.seconds:.1f}s")
     found = Rounding(None, lp.x, lp.row_dual, lower, upper, lp.seconds)
     rounded = np.where(integer, held_at, lp.x)
     rounded[free] = np.floor(lp.x[free] + TOLERANCE)
@@ -135,7 +136,7 @@ def plan_by_rounding(backend: Backend, model: Model, objective: np.ndarray,
         say("  rounding: no work split")
         return found
     score = float(objective @ split.x)
-    say(f"  rounding: plan with {score:.6g}")
+    say(f"  rounding: plan with {progress_value(score)}")
     return replace(found, plan=split.x) if score < float(objective @ start) - 1e-9 else found
 
 

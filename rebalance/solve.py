@@ -40,6 +40,7 @@ from rebalance.heuristics import (
 )
 from rebalance.instance import Instance
 from rebalance.model import Model
+from rebalance.numbers import progress_value
 from rebalance.split import resplit
 
 __all__ = ["SolveOptions", "SolveResult", "StageResult", "Status", "solve", "solve_stage"]
@@ -145,7 +146,7 @@ def solve(model: Model, options: SolveOptions, instance: Instance | None = None)
                        instance=instance)
     # The gap, not the solver's word: HiGHS says "Optimal" of a search within the gap asked.
     gap = stages[-1].gap
-    say(f"stage 1 done: weighted shortfall {first.objective:.6g}, "
+    say(f"stage 1 done: weighted shortfall {progress_value(first.objective)}, "
         + ("gap unknown" if gap is None else f"gap {gap:.2%}"))
     if deadline - time.perf_counter() <= min(1.0, 0.1 * options.time_limit_seconds):
         say("no time left for stage 2; keeping the stage-1 plan")
@@ -163,7 +164,7 @@ def solve(model: Model, options: SolveOptions, instance: Instance | None = None)
     if kept is not None and kept.objective is not None:
         held = options.held_shortfall(kept.objective)
         start_plan = better_plan(model.cost, first.x, kept.x)
-    say(f"stage 2: least cost with weighted shortfall <= {held:.6g}")
+    say(f"stage 2: least cost with weighted shortfall <= {progress_value(held)}")
     second, _ = solve_stage(backend, model, model.cost, [(model.shortfall_weight, held)],
                             options, deadline - _undo_reserve(model, options), start_plan,
                             say, carried)
@@ -210,8 +211,8 @@ def _hint_within_gap(backend: Backend, model: Model, shortfall: float, bound: fl
     gap = relative_gap(old.objective, bound)
     if gap is None or gap > options.relative_gap:
         return None
-    say(f"  {model.hint_words}'s weighted shortfall {old.objective:.6g} is within the gap "
-        f"asked of stage 1's bound {bound:.6g}: no change is needed for less")
+    say(f"  {model.hint_words}'s weighted shortfall {progress_value(old.objective)} is within "
+        f"the gap asked of stage 1's bound {progress_value(bound)}: no change is needed for less")
     return old
 
 
@@ -438,8 +439,8 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                              _higher(lp_bound, proved), out.words, out.seconds)
     elif (out.x is not None and out.objective is not None and start_value is not None
           and start_value < out.objective - 1e-9 * max(1.0, abs(out.objective))):
-        say(f"  keeping the plan of {start_value:.6g}: the search's best, "
-            f"{out.objective:.6g}, is worse")
+        say(f"  keeping the plan of {progress_value(start_value)}: the search's best, "
+            f"{progress_value(out.objective)}, is worse")
         out = replace(out, x=start, objective=start_value, status=Status.FEASIBLE_WITH_GAP)
     elif out.status.has_plan and out.status is not Status.OPTIMAL:
         # A run killed at the wall clock hands back its plan without a bound.
@@ -462,8 +463,8 @@ def _bound_worked_out_ahead(ahead: Future[stage_bounds.HeldCostBound | None], he
     if worked_out is None:
         return None
     bound = worked_out.at(held)
-    say(f"  bound from beside stage 1's search, for the shortfall held at {held:.6g}: "
-        f"{bound:.6g}")
+    say(f"  bound from beside stage 1's search, for the shortfall held at {progress_value(held)}: "
+        f"{progress_value(bound)}")
     return bound
 
 
@@ -503,15 +504,15 @@ def _bound_checked(out: BackendOutcome, fallback: float | None, relative_gap_wan
             and not _above(fallback, out.objective) else OBJECTIVE_FLOOR)
     if say is not None:
         source = "the LP's" if fallback == kept else "no plan scores below 0"
-        say(f"  the solver's bound {out.bound:.6g} is above the plan kept "
-            f"({out.objective:.6g}), so it bounds nothing: discarded; the bound is "
-            f"{kept:.6g} ({source})")
+        say(f"  the solver's bound {progress_value(out.bound)} is above the plan kept "
+            f"({progress_value(out.objective)}), so it bounds nothing: discarded; the bound is "
+            f"{progress_value(kept)} ({source})")
     gap = relative_gap(out.objective, kept)
     status = (Status.OPTIMAL if gap is not None and gap <= relative_gap_wanted
               else Status.FEASIBLE_WITH_GAP)
     return replace(out, bound=kept, status=status,
-                   words=f"{out.words}; its bound {out.bound:.6g} was above the plan kept and "
-                         "is discarded")
+                   words=f"{out.words}; its bound {progress_value(out.bound)} was above the "
+                         "plan kept and is discarded")
 
 
 # Every objective solved here is shortfall or money paid (priorities, costs and disruption

@@ -21,6 +21,7 @@ from rebalance.backends import Backend, BackendOutcome, SolveOptions, Status, ru
 from rebalance.bounds import priced_bound, signed_prices
 from rebalance.decomposition import plan_bound
 from rebalance.model import Model
+from rebalance.numbers import progress_value
 from rebalance.rounding import held_lp_bounds
 from rebalance.split import solve_relaxation
 from rebalance.whole_plans import DecompositionError, WholePlans, decomposable
@@ -104,7 +105,7 @@ def cost_bound_ahead(backend: Backend, model: Model, options: SolveOptions,
     if priced is None:
         return None
     bound, held_price = priced
-    say(f"  bound for the cost stage, from an LP with the shortfall held at {held:.6g} "
+    say(f"  bound for the cost stage, from an LP with the shortfall held at {progress_value(held)} "
         f"(beside the search): {_bound_text(bound)} in {time.perf_counter() - began:.1f}s")
     return HeldCostBound(held, bound, held_price)
 
@@ -209,7 +210,7 @@ def lp_bound(backend: Backend, model: Model, objective: np.ndarray,
     """The LP relaxation's value, a bound for the stage, or None if it did not finish."""
     lp = solve_relaxation(backend, model, objective, extra_rows, options, time_limit)
     if lp.status is Status.OPTIMAL and lp.objective is not None:
-        say(f"  LP relaxation ({when}) {lp.objective:.6g} in {lp.seconds:.1f}s")
+        say(f"  LP relaxation ({when}) {progress_value(lp.objective)} in {lp.seconds:.1f}s")
         return lp.objective
     say(f"  LP relaxation ({when}) not solved ({lp.words}); no bound from it")
     return None
@@ -258,4 +259,4 @@ _PIECES_LOCK = threading.Lock()
 def _bound_text(bound: float) -> str:
     """A bound for a progress line.  Every objective here is shortfall or money paid, so none
     is below 0, and a bound below it says nothing ("-1.96776e+11" had been shown)."""
-    return f"{bound:.6g}" if bound > 0 else "none above 0"
+    return f"{progress_value(bound)}" if bound > 0 else "none above 0"

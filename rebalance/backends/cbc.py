@@ -35,6 +35,7 @@ from rebalance.backends.common import (
 from rebalance.backends.processes import cbc_children, raise_if_stopped
 from rebalance.backends.rows import scaled_rows
 from rebalance.model import Model
+from rebalance.numbers import progress_value
 
 _CBC_RESULT = re.compile(r"^Result - (.*)$", re.M)
 _CBC_BOUND = re.compile(r"^Lower bound:\s*(\S+)", re.M)
@@ -90,7 +91,7 @@ class _CbcLogWatcher:
             plans = _CBC_PLAN.findall(text)
             if not found and plans and plans[-1] != seen_plan:
                 seen_plan = plans[-1]
-                self.progress(f"  searching: plan found with {float(seen_plan):.6g}")
+                self.progress(f"  searching: plan found with {progress_value(float(seen_plan))}")
             elif found and found[-1] != seen_progress:
                 seen_progress = found[-1]
                 nodes, best, bound = seen_progress

@@ -16,6 +16,7 @@ import numpy as np
 
 from rebalance.instance import ObjectiveMode, SolverName
 from rebalance.model import Model
+from rebalance.numbers import progress_value
 
 # Receives each better plan a run finds (columns of the model, objective) as it is found.
 PlanSink = Callable[[np.ndarray, float], None]
@@ -180,7 +181,7 @@ def search_line(best: float, bound: float, nodes: int | str, known_bound: float 
     if known_bound is not None:
         bound = max(bound, known_bound)
     gap = relative_gap(best, bound)
-    return (f"  searching: best plan {best:.6g}, bound {bound:.6g}, gap "
+    return (f"  searching: best plan {progress_value(best)}, bound {progress_value(bound)}, gap "
             f"{'undefined' if gap is None else f'{gap:.2%}'}, {nodes} nodes")
 
 

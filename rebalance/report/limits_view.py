@@ -233,4 +233,6 @@ def run_rate_warning(rate: RunRate, currency: str | None) -> str:
 
 def run_rate_consequence(rate: RunRate) -> str:
     """What salaries above the last hiring cap mean for the year after the horizon."""
-    return f"hiring money like {rate.cap_year}'s is used up on them before a single new hire"
+    # "Used up on them before a single new hire" had read as muddled to a practitioner.
+    return (f"after the horizon, a hiring budget like {rate.cap_year}'s would not cover even "
+            "these salaries, let alone any new hire")

@@ -142,13 +142,13 @@ def test_tiny_run_rate_against_the_hiring_cap_on_every_surface(tmp_path):
     assert ("  yearly salaries      80,000 every year after 2027-Q4 (1 new position; not in "
             f"total cost), {note}") in console
     warning = ("the new positions' salaries (80,000 a year) are 200.0% of 2027's hiring cap "
-               "(40,000): hiring money like 2027's is used up on them before a single new "
-               "hire")
+               "(40,000): after the horizon, a hiring budget like 2027's would not cover even "
+               "these salaries, let alone any new hire")
     assert f"  warning: {warning}" in console
     page = _page(result)
     assert f"Warning: {warning}." in page  # under "Committed beyond the horizon"
-    assert (f"Warning: {note}: hiring money like 2027's is used up on them before a single "
-            "new hire.") in page  # the card, where the note's figures are said once
+    assert (f"Warning: {note}: after the horizon, a hiring budget like 2027's would not cover "
+            "even these salaries, let alone any new hire.") in page  # the card, where the note's figures are said once
     rows = _summary_rows(result, tmp_path)
     assert rows["as a share of 2027's hiring cap"] == 2.0
     assert f"Warning: {warning}." in rows

@@ -147,8 +147,9 @@ def test_tiny_run_rate_against_the_hiring_cap_on_every_surface(tmp_path):
     assert f"  warning: {warning}" in console
     page = _page(result)
     assert f"Warning: {warning}." in page  # under "Committed beyond the horizon"
+    # The card, where the note's figures are said once.
     assert (f"Warning: {note}: after the horizon, a hiring budget like 2027's would not cover "
-            "even these salaries, let alone any new hire.") in page  # the card, where the note's figures are said once
+            "even these salaries, let alone any new hire.") in page
     rows = _summary_rows(result, tmp_path)
     assert rows["as a share of 2027's hiring cap"] == 2.0
     assert f"Warning: {warning}." in rows

@@ -137,7 +137,7 @@ def cmd_compare(args: argparse.Namespace) -> int:
     )
     from rebalance.plan import write_plan
     from rebalance.planning import summary_dict
-    from rebalance.report.analysis_words import scenario_lines
+    from rebalance.report.analysis_words import scenario_lines, status_in_words
 
     instance = _load(args.instance)
     if instance is None:
@@ -158,11 +158,12 @@ def cmd_compare(args: argparse.Namespace) -> int:
                            "weighted_shortfall", "total_cost", "hires", "detail_periods",
                            "reassignments", "actions_differing")
                if c in comparison.table.columns]
-    print(format_frame(comparison.table[columns], instance.money.currency))
+    print(format_frame(status_in_words(comparison.table[columns]), instance.money.currency))
     if len(comparison.names) > 1 and comparison.results[0].plan is not None:
         print(f"\n{FROM_BASE_WORDS}")
-    for line in scenario_lines(comparison.table, instance.money.currency):
-        print(f"\n{line}")
+    for line in scenario_lines(comparison.table, instance.money.currency, comparison.offices):
+        print("\n" + textwrap.fill(line, width=90, break_on_hyphens=False,
+                                   subsequent_indent="  "))
     _say_gaps(comparison.table)
     # The base must have a plan; a scenario without one is an answer (under that surge the
     # limits conflict, or no plan came in time), listed with its reason, and the others'
@@ -196,7 +197,8 @@ def cmd_compare(args: argparse.Namespace) -> int:
             write_tables({"reasons.csv": reasons(other.instance, other.plan).table}, sub)
 
     tables = {"scenarios.csv": comparison.table, "scenario_costs.csv": comparison.costs,
-              "scenario_actions.csv": comparison.actions}
+              "scenario_actions.csv": comparison.actions,
+              "scenario_offices.csv": comparison.offices}
     return _write_analysis_plan(args, comparison.results[0], instance, tables, args.instance,
                                 "base plan, scenarios.csv and each scenario's plan",
                                 more=scenario_plans)

@@ -9,9 +9,10 @@ the resulting plan tables.
 
 from __future__ import annotations
 
+import math
 import tomllib
 from collections.abc import Sequence
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
@@ -22,7 +23,7 @@ from rebalance.analysis.solving import solve_many
 from rebalance.analysis.start_plan import named_like
 from rebalance.instance import Budget, Demand, Instance
 from rebalance.numbers import plain_number
-from rebalance.plan import Plan
+from rebalance.plan import BUDGET_LINES, Plan
 from rebalance.planning import PlanResult
 from rebalance.problems import Problem, did_you_mean, is_finite_number, range_words
 from rebalance.solve import SolveOptions
@@ -31,6 +32,7 @@ from rebalance.verify import verify_plan
 
 __all__ = [
     "ACTION_COLUMNS",
+    "OFFICE_COLUMNS",
     "BudgetChange",
     "Comparison",
     "DemandChange",
@@ -44,6 +46,8 @@ __all__ = [
     "read_scenarios",
 ]
 
+OFFICE_COLUMNS = ("scenario", "office", "demand_fte_periods", "shortfall_fte_periods",
+                  "weighted_shortfall")
 ACTION_COLUMNS = ("scenario", "action", "person_or_office", "skill", "period", "detail",
                   "base", "scenario_value")
 
@@ -428,7 +432,9 @@ class Comparison:
 
     ``table`` (``scenarios.csv``): one row per plan.  ``costs`` (``scenario_costs.csv``): cost
     by scenario, year and kind.  ``actions`` (``scenario_actions.csv``): every hire, detail and
-    reassignment that differs from the base plan.
+    reassignment that differs from the base plan.  ``offices`` (``scenario_offices.csv``):
+    demand and shortfall by scenario and office, to say where a surge lands and where it is
+    left short.
     """
 
     names: tuple[str, ...]
@@ -436,6 +442,8 @@ class Comparison:
     table: pd.DataFrame
     costs: pd.DataFrame
     actions: pd.DataFrame
+    offices: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(
+        columns=list(OFFICE_COLUMNS)))
 
 
 def _named_like_base(result: PlanResult, base: Plan | None) -> PlanResult:
@@ -468,6 +476,62 @@ def plan_actions(plan: Plan) -> dict[tuple[str, str, str, str, str], float]:
 
 # The base's description in scenarios.csv, beside each scenario's own.
 BASE_DESCRIPTION = "the instance as it is"
+
+
+def _budget_changes(base: Instance, variant: Instance) -> dict[str, dict[str, float]]:
+    """How much each cap of ``variant`` differs from ``base``'s, as applied (never below 0,
+    only where a cap is set): cap name -> year -> money, years that did not change left out."""
+    out: dict[str, dict[str, float]] = {}
+    for cap_name, _ in BUDGET_LINES:
+        for year in base.years:
+            old, new = base.budget(year), variant.budget(year)
+            before = None if old is None else getattr(old, cap_name)
+            after = None if new is None else getattr(new, cap_name)
+            if before is not None and after is not None and abs(after - before) > 1e-9:
+                out.setdefault(cap_name, {})[year] = after - before
+    return out
+
+
+def _spent(plan: Plan | None, kinds: Sequence[str], years: Sequence[str]) -> float:
+    """What ``plan`` spends on ``kinds`` of cost in ``years`` (nan with no plan)."""
+    if plan is None:
+        return math.nan
+    c = plan.costs
+    chosen = c["kind"].astype(str).isin(kinds) & c["year"].astype(str).isin(years)
+    return float(c.loc[chosen, "cost"].sum())
+
+
+def _budget_columns(base: Instance, variant: Instance, base_plan: Plan | None,
+                    plan: Plan | None) -> dict[str, Any]:
+    """The scenario's budget changes for ``scenarios.csv``: for each cap, the money added
+    (taken, below 0) over the years it changed, those years, and how much more the plan
+    spends under that cap in those years than the base plan (a leader had read a surge's
+    cost difference without the 150,000 of budget it was given)."""
+    changes = _budget_changes(base, variant)
+    row: dict[str, Any] = {}
+    for cap_name, kinds in BUDGET_LINES:
+        years = list(changes.get(cap_name, {}))
+        row[f"{cap_name}_budget_change"] = sum(changes.get(cap_name, {}).values(), 0.0)
+        row[f"{cap_name}_budget_years"] = "; ".join(years)
+        row[f"{cap_name}_spent_change"] = (
+            _spent(plan, kinds, years) - _spent(base_plan, kinds, years) if years else 0.0)
+    return row
+
+
+def _office_rows(name: str, result: PlanResult, instance: Instance) -> list[tuple[Any, ...]]:
+    """Demand and shortfall by office of one plan (``scenario_offices.csv``): from the plan's
+    coverage table, or demand alone (shortfall blank) where there is no plan."""
+    if result.plan is None:
+        demand: dict[str, float] = {}
+        for d in instance.demand:
+            demand[d.office] = demand.get(d.office, 0.0) + d.fte
+        return [(name, o, demand.get(o, 0.0), math.nan, math.nan)
+                for o in (x.name for x in instance.offices)]
+    columns = ["demand_fte", "shortfall_fte", "weighted_shortfall"]
+    coverage = result.plan.coverage
+    by = coverage.groupby(coverage["office"].astype(str))[columns].sum().to_dict("index")
+    return [(name, o, *(float(by.get(o, {}).get(c, 0.0)) for c in columns))
+            for o in (x.name for x in instance.offices)]
 
 
 def _row(name: str, description: str, result: PlanResult, instance: Instance,
@@ -527,6 +591,7 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
     rows = []
     cost_rows = []
     action_rows = []
+    office_rows: list[tuple[Any, ...]] = []
     for name, variant, result in zip(names, variants, results, strict=True):
         # Against a base with no plan there is nothing to differ from.
         differing: int | None = 0 if base_plan is not None else None
@@ -542,8 +607,11 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
             for year, kind, cost in zip(c["year"].astype(str), c["kind"].astype(str),
                                         c["cost"].astype(float), strict=True):
                 cost_rows.append((name, year, kind, cost))
-        rows.append(_row(name, descriptions[name], result, variant, differing))
+        rows.append({**_row(name, descriptions[name], result, variant, differing),
+                     **_budget_columns(instance, variant, base_plan, result.plan)})
+        office_rows += _office_rows(name, result, variant)
     table = pd.DataFrame(rows)
     costs = pd.DataFrame(cost_rows, columns=["scenario", "year", "kind", "cost"])
     actions_frame = pd.DataFrame(action_rows, columns=list(ACTION_COLUMNS))
-    return Comparison(names, tuple(results), table, costs, actions_frame)
+    offices = pd.DataFrame(office_rows, columns=list(OFFICE_COLUMNS))
+    return Comparison(names, tuple(results), table, costs, actions_frame, offices)

@@ -35,6 +35,7 @@ from rebalance.report.analysis_words import (
     reasons_by_limit,
     reasons_by_office,
     scenario_lines,
+    status_in_words,
     truthy,
 )
 from rebalance.report.htmlparts import chart, e, frame_table_html, section
@@ -359,6 +360,13 @@ def _gap_note(frame: pd.DataFrame) -> str:
     return f'<p class="note">{marked.replace("(--time-limit)", "(<code>--time-limit</code>)")}</p>'
 
 
+# The scenarios section's lead, as the console says it (cli_analysis.FROM_BASE_WORDS): a
+# lead that said each was "solved as its own plan" had hidden that unpaid changes are undone.
+SCENARIOS_LEAD = ("Each scenario was solved from the base plan, and a change that did not pay "
+                  "under the scenario was undone; the bars compare the plans' headline "
+                  "figures.")
+
+
 def analysis_payload(data: ReportData) -> AnalysisView:
     """Chart data, sections and navigation entries for whichever analysis tables exist."""
     payload: dict[str, Any] = {}
@@ -382,8 +390,7 @@ def analysis_payload(data: ReportData) -> AnalysisView:
          "",  # _frontier_lead
          "Least weighted shortfall at each budget"),
         ("scenarios", data.scenarios, scenarios, "Scenarios side by side",
-         e("Each scenario was solved as its own plan; the bars compare their headline "
-           "figures."),
+         e(SCENARIOS_LEAD),
          "Scenario comparison"),
         ("marginal", data.marginal_values, marginal_chart,
          "What one more step of each limit buys",
@@ -399,7 +406,7 @@ def analysis_payload(data: ReportData) -> AnalysisView:
         elif key == "marginal":
             lead, caption = _marginal_words(frame, marginal, currency)
         elif key == "scenarios":
-            lines = scenario_lines(frame, currency)
+            lines = scenario_lines(frame, currency, dict(data.tables).get("scenario_offices"))
             if lines:
                 lead += "<ul>" + "".join(f"<li>{e(line)}</li>" for line in lines) + "</ul>"
         body = ""
@@ -472,6 +479,8 @@ def _tables(frame: pd.DataFrame, name: str, limit: int = 200,
     (``analysis-table`` in report.css).  A scenario comparison's cost breakdown, which made
     that table twice the page's width, is a second table below the headline figures."""
     split = _cost_columns(frame) if name == "scenarios" else []
+    if name == "scenarios":
+        frame = status_in_words(frame)  # as the console's table says it
     if name == "scenarios" and "description" in frame.columns:
         frame = frame.drop(columns="description")  # said in the section's lead, in full
     if name == "marginal" and "shortfall_gap" in frame.columns:

@@ -15,10 +15,11 @@ from typing import Any
 import pandas as pd
 
 from rebalance.analysis.limits import limit_words
-from rebalance.numbers import fte_total_text, gap_text, money_amount
+from rebalance.numbers import fte_total_text, gap_text, money_amount, money_text
+from rebalance.report.words import outcome_words
 
 __all__ = ["NO_LIMIT", "find_column", "finite", "gap_caution", "is_numeric", "limit_texts",
-           "reasons_by_limit", "reasons_by_office", "scenario_lines", "truthy"]
+           "reasons_by_limit", "reasons_by_office", "scenario_lines", "status_in_words", "truthy"]
 
 
 def is_numeric(frame: pd.DataFrame, column: str) -> bool:
@@ -88,38 +89,190 @@ def gap_caution(frame: pd.DataFrame) -> str:
             "more time (--time-limit) before reading it as real.")
 
 
-def scenario_lines(frame: pd.DataFrame, currency: str | None = None) -> list[str]:
+# How many offices a scenario's line names where demand or shortfall moved, largest first.
+OFFICES_SAID = 3
+# A difference no larger than this share of its figure is not marked as within the gaps:
+# below it the solves were proven (gap_caution says nothing either).
+GAP_SAID = 1e-4
+WITHIN_GAPS = "(within the solves' gaps)"
+
+
+def _signed(value: float, text: str) -> str:
+    """``text`` (``value`` written) with its sign; by the figure shown, float dust (3.6e-15
+    more demand) is 0.0, not +0.0 or -0.0."""
+    if not _shows(text):
+        return text.removeprefix("-")
+    return ("+" if value > 0 and not text.startswith("-") else "") + text
+
+
+def _shows(text: str) -> bool:
+    """Whether a written figure is other than zero."""
+    return any(digit in text for digit in "123456789")
+
+
+def _number(row: Any, name: str) -> float | None:
+    """``row``'s finite number in column ``name``; None where it is missing or not one."""
+    return finite([getattr(row, name, None)])[0]
+
+
+def _within(difference: float, gap_column: str, row: Any, base: Any,
+            *figures: float) -> bool:
+    """Whether ``difference`` is within the larger gap of the two solves (``gap_column``)
+    times the larger of the figures compared: where each search stopped may account for it."""
+    gaps = [g for g in (_number(row, gap_column), _number(base, gap_column)) if g is not None]
+    if not gaps or max(gaps) <= GAP_SAID:
+        return False
+    return abs(difference) <= max(gaps) * max(abs(f) for f in figures)
+
+
+def _office_changes(offices: pd.DataFrame | None, name: str, column: str) -> list[
+        tuple[str, float]]:
+    """Each office's ``column`` in scenario ``name`` less the base's (``scenario_offices.csv``),
+    largest change first, offices whose change shows as 0.0 left out."""
+    if offices is None or not {"scenario", "office", column} <= set(offices.columns):
+        return []
+    scenario = offices["scenario"].astype(str)
+    values = pd.to_numeric(offices[column], errors="coerce")
+    mine = values[scenario == name].groupby(offices["office"].astype(str)).sum(min_count=1)
+    base = values[scenario == "base"].groupby(offices["office"].astype(str)).sum(min_count=1)
+    if mine.isna().all() or base.empty:
+        return []
+    changes = [(str(o), float(mine.get(o, 0.0)) - float(base.get(o, 0.0)))
+               for o in dict.fromkeys([*mine.index, *base.index])]
+    changes = [(o, c) for o, c in changes if math.isfinite(c) and _shows(fte_total_text(c))]
+    return sorted(changes, key=lambda item: -abs(item[1]))
+
+
+def _office_list(changes: list[tuple[str, float]]) -> str:
+    said = ", ".join(f"{o} {_signed(c, fte_total_text(c))}" for o, c in changes[:OFFICES_SAID])
+    more = len(changes) - OFFICES_SAID
+    return said + (f" and {more} more office{'s' if more > 1 else ''}" if more > 0 else "")
+
+
+def _covered_words(more: float, short: float) -> str:
+    """How much of ``more`` demand the plan covers, given ``short`` more shortfall."""
+    if not _shows(fte_total_text(more)) or more < 0:
+        return ""
+    if short > more:
+        return (f", none of it covered (shortfall rises by {fte_total_text(short)}, more "
+                "than the demand added)")
+    if short < 0 or not _shows(fte_total_text(short)):
+        return ", all of it covered"
+    return (f", of it {fte_total_text(more - short)} covered and {fte_total_text(short)} "
+            "left short")
+
+
+def _years_text(value: Any) -> str:
+    """The years a budget change named (`` 2027, 2028``, with a space before), as written:
+    read back from the CSV file a single year 2027 is the number 2027.0."""
+    if isinstance(value, float) and value.is_integer():
+        return f" {int(value)}"
+    text = _text(value)
+    return f" {text.replace('; ', ', ')}" if text else ""
+
+
+def _budget_words(row: Any, currency: str | None) -> str | None:
+    """The budget changes the scenario made and the money spent under them, or "budgets
+    unchanged"; None where the table has no such columns (written before them)."""
+    said = []
+    known = False
+    for cap in ("hiring", "moves"):
+        change = _number(row, f"{cap}_budget_change")
+        if change is None:
+            continue
+        known = True
+        if not _shows(money_text(change)):
+            continue
+        where = _years_text(getattr(row, f"{cap}_budget_years", None))
+        text = f"{cap} budget{where} {_signed(change, money_amount(change, currency))}"
+        spent = _number(row, f"{cap}_spent_change")
+        if spent is not None:
+            # Not "of it": the plan may spend more than was added (the base left cap unused).
+            text += (f", {money_amount(spent, currency)} more spent under it than in the base"
+                     if spent > 0 and _shows(money_text(spent)) else
+                     ", none of it spent beyond the base's spending")
+        said.append(text)
+    if not known:
+        return None
+    return "; ".join(said) if said else "budgets unchanged"
+
+
+def scenario_lines(frame: pd.DataFrame, currency: str | None = None,
+                   offices: pd.DataFrame | None = None) -> list[str]:
     """What each scenario of a comparison (``scenarios.csv``) is, and what it changed against
-    the base: demand, weighted shortfall and total cost, as differences (a practitioner's
-    reading had to work out by hand that a surge added 24 FTE-periods of demand and 19.9 of
-    shortfall for 7,000 more).  Empty where the table lacks those columns."""
+    the base: the demand added and where, how much of it the plan covers and how much is left
+    short (FTE-periods, and weighted), the new money, the budget the scenario gave and what
+    of it was spent, and where shortfall rose or fell by office (``offices``,
+    ``scenario_offices.csv``).  A leader had read "total cost +7,000" as what the surge
+    costs, with 20 of its 24 FTE-periods left short.  A difference within the solves' gaps is
+    marked so.  Tables written before a column say less; empty where the table lacks the
+    headline columns."""
     needed = {"scenario", "description", "demand_fte_periods", "weighted_shortfall",
               "total_cost"}
     if not needed <= set(frame.columns) or frame.empty or frame["scenario"].iloc[0] != "base":
         return []
-    base = frame.iloc[0]
-
-    def signed(value: float, text: str) -> str:
-        # By the figure shown: float dust (3.6e-15 more demand) is 0.0, not +0.0 or -0.0.
-        if not any(digit in text for digit in "123456789"):
-            return text.removeprefix("-")
-        return ("+" if value > 0 and not text.startswith("-") else "") + text
+    # Any: the rows' columns are read by name, and checked by _number where they may be gone.
+    base: Any = next(frame.iloc[:1].itertuples(index=False))
+    rows: list[Any] = list(frame.iloc[1:].itertuples(index=False))
+    gap_of_shortfall = "shortfall_gap" if "shortfall_gap" in frame.columns else "gap"
 
     lines = []
-    for row in frame.iloc[1:].itertuples(index=False):
-        said = f"{row.scenario!s}: {str(row.description or '') or 'no description'}"
+    for row in rows:
+        name = str(row.scenario)
+        said = f"{name}: {str(row.description or '') or 'no description'}"
         more = row.demand_fte_periods - base.demand_fte_periods
-        parts = [f"demand {signed(more, fte_total_text(more))} FTE-periods"]
-        if finite([row.weighted_shortfall])[0] is None or finite(
-                [base.weighted_shortfall])[0] is None:
+        demand = f"demand {_signed(more, fte_total_text(more))} FTE-periods"
+        where = _office_changes(offices, name, "demand_fte_periods")
+        if where:
+            demand += f" ({_office_list(where)})"
+        parts = [demand]
+        weighted, base_weighted = _number(row, "weighted_shortfall"), _number(
+            base, "weighted_shortfall")
+        if weighted is None or base_weighted is None:
             parts.append("no plan to compare")
-        else:
-            shortfall = row.weighted_shortfall - base.weighted_shortfall
-            cost = row.total_cost - base.total_cost
-            parts += [f"weighted shortfall {signed(shortfall, fte_total_text(shortfall))}",
-                      f"total cost {signed(cost, money_amount(cost, currency))}"]
-        lines.append(f"{said}; against the base: {', '.join(parts)}")
+            lines.append(f"{said}; against the base: {', '.join(parts)}")
+            continue
+        w_diff = weighted - base_weighted
+        plain, base_plain = _number(row, "shortfall_fte_periods"), _number(
+            base, "shortfall_fte_periods")
+        shortfall = f"weighted shortfall {_signed(w_diff, fte_total_text(w_diff))}"
+        if plain is not None and base_plain is not None:
+            short = plain - base_plain
+            parts[0] += _covered_words(more, short)
+            shortfall = (f"shortfall {_signed(short, fte_total_text(short))} FTE-periods, "
+                         f"weighted {_signed(w_diff, fte_total_text(w_diff))}")
+        if _shows(fte_total_text(w_diff)) and _within(w_diff, gap_of_shortfall, row, base,
+                                                      weighted, base_weighted):
+            shortfall += f" {WITHIN_GAPS}"
+        parts.append(shortfall)
+        total, base_total = float(row.total_cost), float(base.total_cost)
+        cost = total - base_total
+        money = f"new money {_signed(cost, money_amount(cost, currency))}"
+        if _shows(money_text(cost)) and _within(cost, "gap", row, base, total, base_total):
+            money += f" {WITHIN_GAPS}"
+        parts.append(money)
+        budget = _budget_words(row, currency)
+        if budget is not None:
+            parts.append(budget)
+        line = f"{said}; against the base: {'; '.join(parts)}"
+        by_office = _office_changes(offices, name, "shortfall_fte_periods")
+        if by_office:
+            line += f"; shortfall by office against the base: {_office_list(by_office)}"
+        lines.append(line)
     return lines
+
+
+def status_in_words(frame: pd.DataFrame) -> pd.DataFrame:
+    """``frame`` with its ``status`` codes in the words of the run's headline
+    (:func:`~rebalance.report.words.outcome_words`): "optimal" beside a gap of 0.99% had
+    read as exact.  The CSV file keeps the code; a table without the columns is returned as
+    it is."""
+    if "status" not in frame.columns or "gap" not in frame.columns:
+        return frame
+    gaps = finite(frame["gap"].tolist())
+    words = [outcome_words(s, g) if isinstance(s, str) else s
+             for s, g in zip(frame["status"].tolist(), gaps, strict=True)]
+    return frame.assign(status=words)
 
 
 def _largest(frame: pd.DataFrame, name: str) -> float | None:

@@ -41,10 +41,12 @@ TABLE_FILES: dict[str, str] = {
     "changes": "changes.csv",
     "scenario_actions": "scenario_actions.csv",
     "scenario_costs": "scenario_costs.csv",
+    "scenario_offices": "scenario_offices.csv",
 }
 # scenario_costs is the cost columns of scenarios.csv stacked long: a sheet to pivot, where
-# the page already charts and lists those figures.
-SHEET_ONLY = frozenset({"scenario_costs"})
+# the page already charts and lists those figures.  scenario_offices (demand and shortfall by
+# scenario and office) is said in the scenarios section's lines, where shortfall moved.
+SHEET_ONLY = frozenset({"scenario_costs", "scenario_offices"})
 
 
 @dataclass(frozen=True)

@@ -86,6 +86,7 @@ SHEET_NOTES = {
     "changes": "every change the re-plan makes to the old plan",
     "scenario_actions": "actions where a scenario's plan differs from the base plan",
     "scenario_costs": "cost of each scenario's plan by budget year and kind",
+    "scenario_offices": "demand and shortfall of each scenario's plan by office",
 }
 
 

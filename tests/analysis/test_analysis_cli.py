@@ -42,11 +42,18 @@ def test_compare_and_replan(tmp_path: Path) -> None:
     table = pd.read_csv(out / "scenarios.csv")
     assert table["scenario"].tolist() == ["base", "b-surge"]
     assert table["verified"].all()
-    for name in ("scenario_costs.csv", "scenario_actions.csv", "reasons.csv", "report.html"):
+    for name in ("scenario_costs.csv", "scenario_actions.csv", "scenario_offices.csv",
+                 "reasons.csv", "report.html"):
         assert (out / name).exists(), name
+    # By hand, as above: the 1.5 FTE-periods land at B; budgets were not changed.
+    assert "demand +1.5 FTE-periods (B +1.5)" in done.stdout
+    assert "budgets unchanged" in done.stdout
+    offices = pd.read_csv(out / "scenario_offices.csv")
+    assert set(offices["scenario"]) == {"base", "b-surge"}
     # plan.xlsx has a sheet per analysis table in the folder (docs/instance-format.md).
     sheets = load_workbook(out / "plan.xlsx", read_only=True).sheetnames
-    assert {"scenarios", "scenario_costs", "scenario_actions", "reasons"} <= set(sheets)
+    assert {"scenarios", "scenario_costs", "scenario_actions", "scenario_offices",
+            "reasons"} <= set(sheets)
     instance = read_instance(TINY)
     assert verify_folder(instance, out) == []
     assert (out / "scenarios" / "b-surge" / "hires.csv").exists()

@@ -275,3 +275,30 @@ def test_a_scenario_named_null_keeps_its_name_on_the_page(tmp_path: Path) -> Non
     assert data.scenarios is not None and "null" in data.scenarios["scenario"].tolist()
     text = page_text(render_html(data))
     assert "null" in text and "nan:" not in text
+
+
+# The scenarios section had said each scenario "was solved as its own plan" (each is solved
+# from the base plan), and "optimal" beside a gap of 0.99%.
+
+def test_the_scenarios_section_says_from_the_base_plan_and_optimal_within_the_gap(tmp_path):
+    from report_cases import demo_scenarios_table
+
+    folder = tmp_path / "plan"
+    shutil.copytree(tiny_plan_folder(), folder)
+    table = demo_scenarios_table()
+    table.insert(1, "description", ["the instance as it is", "a rush", "a storm"])
+    table.loc[1, "status"] = "optimal"
+    table.loc[1, "gap"] = 0.0099
+    table.to_csv(folder / "scenarios.csv", index=False)
+    # Made-up offices: the rush's demand and shortfall land at one office.
+    pd.DataFrame({"scenario": ["base", "harbour-permit-rush"], "office": ["A", "A"],
+                  "demand_fte_periods": [10.0, 34.0], "shortfall_fte_periods": [1.0, 21.2],
+                  "weighted_shortfall": [1.0, 21.2]}).to_csv(
+        folder / "scenario_offices.csv", index=False)
+    data = report_data_from_folder(folder, read_instance(TINY))
+    section = _section(render_html(data), "scenarios")
+    assert "solved from the base plan, and a change that did not pay" in section
+    assert "solved as its own plan" not in section
+    assert "optimal within the gap asked (0.99% left)" in section
+    assert "demand +24.0 FTE-periods (A +24.0)" in section
+    assert "shortfall by office against the base: A +20.2" in section

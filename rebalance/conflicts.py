@@ -2,17 +2,18 @@
 
 Limits that fail before any decision (more people at home than seats, with nothing that can
 move) are read off the model's rows; otherwise each limit row gets an elastic column and the
-least total relaxation names the limits that had to give, and by how much.  That total adds
-seats to money, so each other kind of limit is then relaxed alone, to say which of them would
-also do, and by how much ("or, instead: ...").
+least total relaxation names the limits that had to give, and by how much: way out (a).
+That total adds seats to money, so each other kind of limit is then relaxed alone, to say
+which of them would also do, and by how much: ways out (b), (c), ..., each enough on its own.
 """
 
 from __future__ import annotations
 
 import math
+import string
 import time
 from collections.abc import Mapping
-from dataclasses import replace
+from dataclasses import dataclass, replace
 
 import numpy as np
 import scipy.sparse as sp
@@ -22,7 +23,13 @@ from rebalance.instance import Instance
 from rebalance.model import LIMIT_FAMILIES, Model
 from rebalance.numbers import money_text, number_text
 
-__all__ = ["constant_conflicts", "find_conflicts", "other_ways_out", "seat_words"]
+__all__ = ["WayOut", "WaysOut", "constant_conflicts", "find_conflicts", "other_ways_out",
+           "seat_words"]
+
+# The first line of a conflict's list, where another kind of limit would do alone, and where
+# none would (then the least total is the one way out found).
+WAYS_HEADING = "Ways out, each enough on its own:"
+ONE_WAY_HEADING = "Way out (the least that must give):"
 
 
 def constant_conflicts(model: Model, instance: Instance | None = None) -> list[str]:
@@ -49,12 +56,15 @@ def _describe_row(model: Model, row: int, excess: float | None,
     return text
 
 
-def seat_words(instance: Instance) -> dict[str, str]:
+def seat_words(instance: Instance, money_short: Mapping[str, str] | None = None
+               ) -> dict[str, str]:
     """For each seats row's label (``"A in 2027-Q1"``, ``rebalance.limits``), its seats and
     the people based there, in plain words: a conflict of seats had named the row only, not
     how far the people outnumber the seats.  Where they do, how many must be away or moved
     and how many at most may be (``Instance.seat_counts``: the numbers of the warning of
-    ``rebalance check``)."""
+    ``rebalance check``).  ``money_short`` (year -> "moves budget 2027 (0)") names the moves
+    budgets that, raised alone, are a way out: where the rules let enough people go, it is
+    that money that stops them ("at most 3 may be" had read as no conflict at all)."""
     names = instance.period_names
     limits = ", ".join(instance.away_limits())
     out = {}
@@ -62,8 +72,13 @@ def seat_words(instance: Instance) -> dict[str, str]:
         said = f"{_people(c.seats, 'seat')} for {_people(c.based, 'person')} based there"
         if c.must_go:
             may = f"at most {c.may_go} may be" if c.may_go else "none may be"
-            said += (f"; {c.must_go} must be away or moved, and {may} away or moved"
-                     + (f" ({limits})" if c.too_few_may_go else ""))
+            said += f"; {c.must_go} must be away or moved, and {may} away or moved"
+            budget = (money_short or {}).get(instance.periods[c.period].year)
+            if c.too_few_may_go:
+                said += f" ({limits})"
+            elif budget is not None:
+                said += (f" under the rules, but moving them costs money the {budget} "
+                         "does not have")
         else:
             # The relaxation may let a full office take the excess in people detailed in,
             # as well as the office they come from: the same total (docs/model.md).
@@ -83,6 +98,81 @@ def _amount(family: str, value: float) -> str:
     """How far a limit had to give, by the number rule: money in full for a budget (it had
     read "over by 8.16e+04"), else as a table writes a figure."""
     return money_text(value) if "budget" in family else number_text(value)
+
+
+@dataclass(frozen=True)
+class _Measure:
+    """What the rows of a kind of limit count, for saying how far they give."""
+
+    one: str  # a row's unit, for one: "seat"
+    many: str  # "seats"
+    total_one: str  # summed over its rows: "seat-period"
+    total_many: str  # "seat-periods"
+    beyond: str  # how a relaxation is past the limit: "short"
+    rows: str  # what its rows are, several: "office-periods"
+    which: str  # what the rows differ by: "offices and periods"
+
+
+# By family (rows of rebalance/limits.py): seats and hires per office and period; the away
+# share per office and period in people away (share x people based there); consecutive
+# details per person (or group) and window of periods; vacancies per skill and office.
+_AWAY = _Measure("person away", "people away", "person-period away", "person-periods away",
+                 "over the share", "office-periods", "offices and periods")
+_MEASURES = {
+    "seats": _Measure("seat", "seats", "seat-period", "seat-periods", "short",
+                      "office-periods", "offices and periods"),
+    "away_share": _AWAY,
+    "away_share_in_whole_people": _AWAY,
+    "consecutive_details": _Measure("detail-period", "detail-periods", "detail-period",
+                                    "detail-periods", "over the limit", "windows of periods",
+                                    "people and periods"),
+    "vacancies": _Measure("hire", "hires", "hire", "hires", "beyond the funded vacancies",
+                          "skills at offices", "skills and offices"),
+    "max_hires": _Measure("hire", "hires", "hire", "hires", "over the cap", "office-periods",
+                          "offices and periods"),
+}
+# Budgets are money, one row a year; a family not listed is said in bare numbers.
+_MONEY = _Measure("", "", "", "", "short", "years", "years")
+_BARE = _Measure("", "", "", "", "over", "limits", "limits")
+
+
+def _measure(family: str) -> _Measure:
+    return _MONEY if "budget" in family else _MEASURES.get(family, _BARE)
+
+
+def _counted(family: str, value: float, one: str, many: str) -> str:
+    """'10 seat-periods', '1 seat', '60,000' (money has no unit word)."""
+    text = _amount(family, value)
+    unit = one if text == "1" else many
+    return f"{text} {unit}" if unit else text
+
+
+def _total_line(family: str, count: int, amount: float) -> str:
+    """The least total's line for a family with several rows giving: its total is firm, its
+    split between rows is not (equally small relaxations, and so solvers, differ)."""
+    m = _measure(family)
+    return (f"{family.replace('_', ' ')}: "
+            f"{_counted(family, amount, m.total_one, m.total_many)} {m.beyond} in all, "
+            f"across {count} {m.rows} (the total is firm; which {m.which} take it can differ)")
+
+
+@dataclass(frozen=True)
+class WayOut:
+    """A kind of limit that, relaxed alone, lets a plan keep every other limit."""
+
+    kind: str  # the group's name: "moves_budget", "away_share" (with its whole-people rows)
+    given: tuple[tuple[int, float], ...]  # (row, how far it gives)
+    least: bool  # proven the least relaxation of that kind
+
+
+@dataclass(frozen=True)
+class WaysOut:
+    """What :func:`other_ways_out` found: the ways, the kinds tried (in words), and lines
+    saying what was not tried or not settled in the time."""
+
+    found: tuple[WayOut, ...] = ()
+    tried: tuple[str, ...] = ()
+    notes: tuple[str, ...] = ()
 
 
 # Share of find_conflicts' time the least total relaxation may take; the other ways out
@@ -130,7 +220,8 @@ def find_conflicts(model: Model, backend: Backend, options: SolveOptions,
     The total adds seats to money as one unit, so it names whichever limit is the smaller
     number, not always the cause.  After it come the other ways out: each family of limits
     that would, relaxed alone, let a plan keep every other limit (:func:`other_ways_out`),
-    within the same ``time_limit``."""
+    within the same ``time_limit``.  The lines read as ways out, each enough on its own: a
+    heading, the least total as (a), the others as (b), (c), ... (:func:`_ways_lines`)."""
     started = time.perf_counter()
     limit_rows = [i for f in model.rows if f.name in LIMIT_FAMILIES
                   for i in range(f.start, f.stop) if math.isfinite(model.row_upper[i])]
@@ -150,8 +241,6 @@ def find_conflicts(model: Model, backend: Backend, options: SolveOptions,
     over = np.flatnonzero(excess > 1e-6)
     if not len(over):
         return []  # nothing had to give: the caller says the verdict was the solver's
-    seats = seat_words(instance) if instance is not None else {}
-    listed = [_describe_row(model, limit_rows[i], float(excess[i]), seats) for i in over]
     # The least total relaxation is the answer's firm part; how it splits between offices
     # and periods can differ between equally small relaxations (and so between solvers).
     totals: dict[str, tuple[int, float]] = {}
@@ -159,23 +248,55 @@ def find_conflicts(model: Model, backend: Backend, options: SolveOptions,
         family, _ = model.row_label(limit_rows[i])
         count, amount = totals.get(family, (0, 0.0))
         totals[family] = (count + 1, amount + float(excess[i]))
-    summary = [f"{family.replace('_', ' ')}: over by {_amount(family, amount)} in all, across "
-               f"{count} limits "
-               "(the least total; how it is split between them can differ)"
-               for family, (count, amount) in totals.items() if count > 1]
+    answered = {_GROUPS.get(f, f) for f in totals}
     left = time_limit - (time.perf_counter() - started)
-    return summary + listed + other_ways_out(model, backend, options, left,
-                                             {_GROUPS.get(f, f) for f in totals}, least_seconds)
+    ways = other_ways_out(model, backend, options, left, answered, least_seconds)
+    # A moves budget that would do alone is what stops the moves seats need, where the
+    # rules let enough people go: the seats say so.
+    seats = seat_words(instance, _money_short(model, ways)) if instance is not None else {}
+    least = ([_total_line(family, count, amount)
+              for family, (count, amount) in totals.items() if count > 1]
+             + [_describe_row(model, limit_rows[i], float(excess[i]), seats) for i in over])
+    return _ways_lines(model, least, ways, len(answered) > 1)
+
+
+def _money_short(model: Model, ways: WaysOut) -> dict[str, str]:
+    """Year -> "moves budget 2027 (0)", for each moves budget that is a way out alone."""
+    out = {}
+    for way in ways.found:
+        if way.kind == "moves_budget":
+            for row, _ in way.given:
+                label = model.row_label(row)[1]  # "moves budget 2027" (rebalance.limits)
+                out[label.removeprefix("moves budget ")] = (
+                    f"{label} ({money_text(model.row_upper[row])})")
+    return out
+
+
+def _ways_lines(model: Model, least: list[str], ways: WaysOut, several: bool) -> list[str]:
+    """The conflict's lines: a heading, the least total as way out (a), each other kind
+    that would do alone as (b), (c), ...; then what was not tried or settled, or, where
+    every kind was tried and none would do alone, that (``several``: the least total gave
+    in more than one kind, which then must give together)."""
+    lines = [WAYS_HEADING if ways.found else ONE_WAY_HEADING, f"(a) {least[0]}", *least[1:]]
+    lines += [f"({letter}) {_way_out(model, way)}"
+              for letter, way in zip(string.ascii_lowercase[1:], ways.found, strict=False)]
+    lines += ways.notes
+    if ways.tried and not ways.found and not ways.notes:
+        lines.append("no one kind of limit raised alone would do; the ones above must give "
+                     "together" if several else
+                     "no other kind of limit raised alone would do (each was tried: "
+                     f"{', '.join(ways.tried)}); any way out but (a) needs more than one kind "
+                     "to give together")
+    return lines
 
 
 def other_ways_out(model: Model, backend: Backend, options: SolveOptions, time_limit: float,
-                   answered: set[str], least_seconds: float = 0.0) -> list[str]:
+                   answered: set[str], least_seconds: float = 0.0) -> WaysOut:
     """For each family of limits with rows, other than the one the least total relaxation
     gave way in alone (``answered``, where it is one family), whether relaxing that family
-    alone lets a plan keep every other limit; if so, by how much, as "or, instead: ..." lines.
-    ``time_limit`` is shared between the families; with too little for each (twice
-    ``least_seconds``, what the least total took, at least), they are not tried, and a line
-    says so."""
+    alone lets a plan keep every other limit; if so, by how much.  ``time_limit`` is shared
+    between the families; with too little for each (twice ``least_seconds``, what the least
+    total took, at least), they are not tried, and a note says so."""
     started = time.perf_counter()
     groups: dict[str, list[int]] = {}
     for f in model.rows:
@@ -186,15 +307,16 @@ def other_ways_out(model: Model, backend: Backend, options: SolveOptions, time_l
     if len(answered) == 1:
         groups.pop(next(iter(answered)), None)
     if not groups:
-        return []
+        return WaysOut()
     needed = max(MIN_ALTERNATIVE_SECONDS, 2 * least_seconds)
     if time_limit / len(groups) < needed:
-        return [f"too little time left to check other ways out (each kind of limit relaxed "
-                f"alone): {max(time_limit, 0.0):.1f}s for {len(groups)} kinds"]
+        return WaysOut(notes=(f"too little time left to check other ways out (each kind of "
+                              f"limit relaxed alone): {max(time_limit, 0.0):.1f}s for "
+                              f"{len(groups)} kinds",))
     # A run with no relaxation found yet must stop at its share, not run on; and the amount
     # is to be the least, not one within the plan's gap (1% of a budget is a real sum).
     options = replace(options, overtime_without_plan=0.0, progress=None, relative_gap=0.0)
-    lines, unsettled = [], []
+    found, unsettled = [], []
     for n, (group, rows) in enumerate(groups.items()):
         share = (time_limit - (time.perf_counter() - started)) / (len(groups) - n)
         if share < needed:
@@ -207,39 +329,46 @@ def other_ways_out(model: Model, backend: Backend, options: SolveOptions, time_l
             unsettled.append(group.replace("_", " "))
             continue
         excess = out.x[model.num_cols:]
-        given = [(rows[i], float(excess[i])) for i in np.flatnonzero(excess > 1e-6)]
+        given = tuple((rows[i], float(excess[i])) for i in np.flatnonzero(excess > 1e-6))
         if given:  # none: the solver's verdict of infeasible was numerics (as solve says)
-            lines.append(_way_out(model, given, out.status is Status.OPTIMAL))
-    if unsettled:
-        lines.append("not settled in the time whether these alone would do: "
-                     + ", ".join(unsettled))
-    return lines
+            found.append(WayOut(group, given, out.status is Status.OPTIMAL))
+    notes = (("not settled in the time whether these alone would do: "
+              + ", ".join(unsettled),) if unsettled else ())
+    return WaysOut(tuple(found), tuple(g.replace("_", " ") for g in groups), notes)
 
 
-def _way_out(model: Model, given: list[tuple[int, float]], least: bool) -> str:
-    """One "or, instead" line: the rows ``given`` way (row, by how much), by family: a lone
-    row by name, several with their total and at most ``ROWS_NAMED`` of them named."""
+def _way_out(model: Model, way: WayOut) -> str:
+    """One other way out in words: the rows it gives way (row, by how much), by family: a
+    lone row by name, several with their total and at most ``ROWS_NAMED`` of them named; a
+    budget from its cap to the cap it would need."""
     by_family: dict[str, list[tuple[int, float]]] = {}
-    for row, amount in given:
+    for row, amount in way.given:
         by_family.setdefault(model.row_label(row)[0], []).append((row, amount))
     said = []
     for family, rows in by_family.items():
+        words, m = family.replace("_", " "), _measure(family)
+
+        def by(row: int, amount: float, family: str = family, m: _Measure = m) -> str:
+            label, enough = model.row_label(row)[1], _enough(family, amount)
+            if m is _MONEY:  # the label names the budget: "moves budget 2027"
+                cap = float(model.row_upper[row])
+                return f"{label} from {money_text(cap)} to {money_text(cap + enough)}"
+            return f"{label} by {_counted(family, enough, m.one, m.many)}"
+
         if len(rows) == 1:
-            # A budget's label names it already ("moves budget 2027"), as _describe_row says.
-            said.append(f"{_describe_row(model, rows[0][0], None)} "
-                        f"raised by {_amount(family, _enough(family, rows[0][1]))}")
+            said.append(f"the {by(*rows[0])}" if m is _MONEY
+                        else f"the {words} of {by(*rows[0])}")
             continue
         # The largest first; equal ones in the model's order (offices, then periods).
         ranked = sorted(rows, key=lambda ra: -ra[1])
-        named = [f"{model.row_label(row)[1]} by {_amount(family, _enough(family, amount))}"
-                 for row, amount in ranked[:ROWS_NAMED]]
+        named = [by(row, amount) for row, amount in ranked[:ROWS_NAMED]]
         if len(rows) > ROWS_NAMED:
             named.append(f"{len(rows) - ROWS_NAMED} more")
         total = _enough(family, sum(amount for _, amount in rows))
-        said.append(f"{family.replace('_', ' ')} raised by {_amount(family, total)} in all, "
-                    f"across {len(rows)} limits ({', '.join(named)})")
-    text = "or, instead: " + " and ".join(said) + " would do, with every other limit kept"
-    if not least:
+        said.append(f"the {words} by {_counted(family, total, m.total_one, m.total_many)} "
+                    f"in all, across {len(rows)} {m.rows} ({', '.join(named)})")
+    text = "raise " + " and ".join(said) + ", keeping every other limit"
+    if not way.least:
         text += " (perhaps less would: not proven the least in the time)"
     return text
 

@@ -425,7 +425,8 @@ def add_analysis_commands(sub) -> None:
         p.add_argument("--workers", type=COUNT, default=2, help="solves in parallel (default 2)")
         p.add_argument("-q", "--quiet", action="store_true", help="no progress on stderr")
 
-    p = sub.add_parser("compare", help="solve the base and surge scenarios side by side")
+    p = sub.add_parser("compare", help="solve the base, then each surge scenario from the "
+                                       "base plan, and compare them")
     p.add_argument("instance", help=INSTANCE_HELP)
     p.add_argument("--scenario", action="append", required=True, metavar="FILE",
                    help="scenario TOML file (repeat for several)")

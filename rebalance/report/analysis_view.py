@@ -463,11 +463,14 @@ def _reasons_rolled_up(frame: pd.DataFrame, full: str, currency: str | None) -> 
               "and period short) with their FTE-periods, and how many of its reasons ask for a "
               "review.</p>")
     if limits is not None:
-        body += ("<h3>What holds the shortfalls back</h3>" + _wrapped(frame_table_html(
+        body += ("<h3>Limits the shortfalls cite</h3>" + _wrapped(frame_table_html(
             limits, "reasons_by_limit", currency=currency))
                  + '<p class="more analysis-note">Each binding limit the shortfalls cite, all '
                    "its periods together: a shortfall held back by two limits counts under "
-                   "both, so the rows add up to more than the total.</p>")
+                   "both, so the rows add up to more than the total. A hire is paid in every "
+                   "year from its start, so a later year's hiring budget can hold back an "
+                   "earlier shortfall. How often a limit is cited is not what relaxing it "
+                   "would buy: <code>rebalance marginal</code> measures that.</p>")
     return (body + f'<details class="all-reasons"><summary>All {len(frame):,} reasons, one '
             "row per action and shortfall (as in <code>reasons.csv</code>)</summary>"
             f"{full}</details>")
@@ -603,8 +606,9 @@ TABLE_SECTIONS = {
     "reasons": ("Why each action", "For each hire, detail and reassignment, the pattern in the "
                 "plan that explains it, and for each remaining gap the limits that stop it being "
                 "covered."),
-    "replan": ("Re-plan against the old plan", "Headline figures of the old plan and the new "
-               "one made from the re-plan period on."),
+    "replan": ("Re-plan against the old plan", "Headline figures over the whole horizon: the "
+               "old plan, scored on the current data, and the new one, whose decisions change "
+               "from the re-plan period on."),
     "changes": ("What the re-plan changes", "Every action that differs from the old plan, "
                 "with the disruption cost charged for changing it."),
     "scenario_actions": ("Actions that differ from the base", "Hires, details and "

@@ -314,7 +314,10 @@ def _marginal_words(frame: pd.DataFrame, table: _MarginalTable | None,
         step_text = "One step is the amount in the table's <code>step</code> column."
     lead = ("Each binding limit relaxed by one step and the plan solved again: what that step "
             "removes from the weighted shortfall (and adds to cost). " + step_text
-            + " Only limits actually re-solved are ranked.")
+            + " Only limits actually re-solved are ranked. The cost change is the new money the "
+              "re-solved plan spends on hires, details and moves; a seat or a vacancy itself "
+              "is not priced. Steps differ in kind and size, so the rank is not value for "
+              "money.")
     if table is None or cols is None:
         return lead, ""
     n, total = int(table.measured.sum()), len(frame)

@@ -16,7 +16,7 @@ from dataclasses import dataclass
 
 import pandas as pd
 
-from rebalance.analysis.limits import LimitUse, hire_rows, limit_use
+from rebalance.analysis.limits import LIMIT_NAMES, LimitUse, hire_rows, limit_use
 from rebalance.instance import Instance
 from rebalance.numbers import money_amount, number_text, share_of
 from rebalance.plan import Plan
@@ -53,9 +53,7 @@ def _fte(value: float) -> str:
 
 
 def _describe(use: LimitUse, instance: Instance) -> str:
-    what = {"hiring_budget": "hiring budget", "moves_budget": "moves budget",
-            "max_hires": "hiring slots", "seats": "seats", "away_share": "away share",
-            "vacancies": "funded vacancies", "time_to_hire": "time to hire"}[use.limit]
+    what = LIMIT_NAMES[use.limit]
     names = instance.period_names
     if use.limit == "time_to_hire":
         first = int(use.cap)
@@ -67,9 +65,12 @@ def _describe(use: LimitUse, instance: Instance) -> str:
                 f"{_money(instance, use.cap)} spent)")
     when = f" in {use.period}" if use.period else ""
     if use.limit == "away_share":
-        # The cap is a share of the people present (2.4 of 8 at 30%): TABLE_DIGITS, as a row.
-        return (f"{what} at {use.where}{when} ({number_text(use.used)} away of "
-                f"{number_text(use.cap)} allowed)")
+        # In whole people and the share they come from: "7 away of 7.950 allowed" had
+        # read as fractional people to a practitioner.
+        share = instance.policy.max_away_share
+        present = round(use.cap / share) if share > 0 else 0
+        return (f"{what} at {use.where}{when} ({number_text(use.used)} away, the most "
+                f"allowed: {share_of(share)} of {present} present)")
     return f"{what} at {use.where}{when} ({number_text(use.used)} of {number_text(use.cap)} used)"
 
 

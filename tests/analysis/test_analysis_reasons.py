@@ -209,8 +209,10 @@ def test_figures_in_reasons_follow_the_number_rule(tiny) -> None:
     # rebalance/numbers.py: a row's figures with TABLE_DIGITS decimals, whole ones without,
     # so a cap of 2.4 people away reads as the page's tables write it (it read "2.4" by
     # ":g").
-    share = LimitUse("away_share", "A", "2027-Q1", 2.0, 2.4, True)
-    assert _describe(share, tiny) == "away share at A in 2027-Q1 (2 away of 2.400 allowed)"
+    # tiny's max_away_share is 0.5: a cap of 2.5 is half of 5 people present.
+    share = LimitUse("away_share", "A", "2027-Q1", 2.0, 2.5, True)
+    assert _describe(share, tiny) == ("away share at A in 2027-Q1 (2 away, the most allowed: "
+                                      "50.0% of 5 present)")
     seats = LimitUse("seats", "B", "2027-Q2", 12.0, 12.0, True)
     assert _describe(seats, tiny) == "seats at B in 2027-Q2 (12 of 12 used)"
 

@@ -138,6 +138,8 @@ def cmd_compare(args: argparse.Namespace) -> int:
     from rebalance.plan import write_plan
     from rebalance.planning import summary_dict
     from rebalance.report.analysis_words import scenario_lines, status_in_words
+    from rebalance.report.files import write_reports
+    from rebalance.report.inputs import report_data
 
     instance = _load(args.instance)
     if instance is None:
@@ -185,6 +187,7 @@ def cmd_compare(args: argparse.Namespace) -> int:
             return EXIT_VERIFICATION_FAILED
 
     def scenario_plans(folder: Path) -> None:
+        # Inside the compare's staged folder, so each scenario's files land in its one swap.
         for name, other in zip(comparison.names[1:], comparison.results[1:], strict=True):
             if other.plan is None:
                 continue
@@ -195,6 +198,10 @@ def cmd_compare(args: argparse.Namespace) -> int:
             summary = {**summary_dict(other), "scenario": name}
             (sub / "summary.json").write_text(json.dumps(summary, indent=2) + "\n")
             write_tables({"reasons.csv": reasons(other.instance, other.plan).table}, sub)
+            # Its own report.html and plan.xlsx (a leader had only CSV files to open), drawn
+            # against the scenario's instance, so their figures and verification are its own.
+            # No instance_path: the base instance's would verify it against the wrong data.
+            write_reports(report_data(other, sub), sub)
 
     tables = {"scenarios.csv": comparison.table, "scenario_costs.csv": comparison.costs,
               "scenario_actions.csv": comparison.actions,

@@ -15,7 +15,10 @@ has at their cap, and the salaries after the horizon against the last hiring cap
 from __future__ import annotations
 
 import datetime as dt
+import html
 import json
+import re
+from collections.abc import Callable, Sequence
 from importlib import resources
 from pathlib import Path
 from typing import Any
@@ -307,6 +310,39 @@ def _detail_runs(data: ReportData) -> list[list[Any]]:
     return runs
 
 
+def _comparison_names(data: ReportData) -> list[str]:
+    """The scenarios of a comparison page (a scenarios table beside the plan), else []."""
+    return analysis_view.scenario_names(data.scenarios) if data.scenarios is not None else []
+
+
+# On a comparison page the plan's own sections show the base plan only; their headings say
+# so (a practitioner's reading took "At a glance" beside the scenarios for the comparison's).
+BASE_PLAN_TITLE = "Base plan: {}"
+# The sections of the plan itself, by anchor: the analysis sections around them are the
+# comparison's.  "reasons" is drawn by analysis_view, from the base plan's reasons.csv.
+PLAN_SECTIONS = frozenset({"glance", "capacity", "gaps", "moves", "hiring", "money", "reasons",
+                           "run"})
+
+
+def _plan_titled(data: ReportData) -> Callable[[str, str], str]:
+    """A section's heading by its anchor: the base plan's, named so, on a comparison page;
+    as given on any other page."""
+    if not _comparison_names(data):
+        return lambda anchor, title: title
+    return lambda anchor, title: (BASE_PLAN_TITLE.format(title[:1].lower() + title[1:])
+                                  if anchor in PLAN_SECTIONS else title)
+
+
+def _retitled(sections: Sequence[str], titled: Callable[[str, str], str]) -> list[str]:
+    """``sections`` (drawn by ``htmlparts.section``) with their headings as ``titled`` gives."""
+    def heading(found: re.Match[str]) -> str:
+        anchor, title = found.group(1), html.unescape(found.group(2))
+        return f'<section id="{anchor}"><h2>{e(titled(anchor, title))}</h2>'
+
+    return [re.sub(r'^<section id="([^"]+)"><h2>(.*?)</h2>', heading, s, count=1)
+            for s in sections]
+
+
 def _page_heading(data: ReportData) -> tuple[str, str]:
     """What the page is, as (kicker, heading): a plain plan, a re-plan (from summary.json's
     ``replan``) or a scenario comparison (a scenarios table beside the plan)."""
@@ -315,7 +351,11 @@ def _page_heading(data: ReportData) -> tuple[str, str]:
     if replan is not None:
         also = f", scenario {replan.scenario}" if replan.scenario else ""
         return f"Staffing plan · {name}", f"Re-plan from {replan.from_period}{also}"
-    names = analysis_view.scenario_names(data.scenarios) if data.scenarios is not None else []
+    if data.summary.scenario:
+        # A compare's scenarios/<name>/ folder: the instance's name alone ("tiny+surge") had
+        # not said that this is the plan under that scenario.
+        return f"Staffing plan · {name}", f"Scenario {data.summary.scenario}"
+    names = _comparison_names(data)
     if names:
         others = [n for n in names if n != "base"]
         shown = others[:4] + ([f"{len(others) - 4} more"] if len(others) > 4 else [])
@@ -339,16 +379,21 @@ def render_html(data: ReportData) -> str:
                 f" &middot; {len(inst.offices)} offices in {locations} locations &middot; "
                 f"{len(inst.staff):,} staff &middot; {len(inst.skills)} skills")
     sections = []
+    titled = _plan_titled(data)
+
+    def plan_section(anchor: str, title: str, lead: str, body: str) -> str:
+        return section(anchor, titled(anchor, title), lead, body)
+
     found = limits_at_cap(inst, plan)
     nav = [("glance", "At a glance"), ("capacity", "Work and capacity"),
            ("gaps", "Where the gaps are"), ("moves", "Who moves where"),
            ("hiring", "Hiring"), ("money", "Money"), *extra.nav, ("run", "How it was found")]
-    sections.append(section(
+    sections.append(plan_section(
         "glance", "At a glance",
         "The plan's headline figures. A <em>FTE-period</em> is one full-time person for one "
         "period; weighted shortfall multiplies each uncovered FTE-period by its priority.",
         _headline(data) + _limits_html(found)))
-    sections.append(section(
+    sections.append(plan_section(
         "capacity", "Work and capacity",
         "Demand (dark line) against what current staff cover (blue) and what new hires add "
         "(green), summed over skills. Red is demand left uncovered; the pale band above the line, "
@@ -356,7 +401,7 @@ def render_html(data: ReportData) -> str:
         "capacity below).",
         chart("coverage", "Demand against covered work per office")
         + _spare_table(data, found)))
-    sections.append(section(
+    sections.append(plan_section(
         "gaps", "Where the gaps are",
         "Uncovered FTE by office and period; darker is a larger gap. Hover a cell for the "
         "skills short there.",
@@ -376,7 +421,7 @@ def render_html(data: ReportData) -> str:
         ["person", "from office", "to office", "effective", cash("cost")], reas,
         name="reassignments", numeric=[False] * 4 + [True], limit=TABLE_ROWS) if reas else
         '<p class="quiet">No reassignments in this plan.</p>')
-    sections.append(section(
+    sections.append(plan_section(
         "moves", "Who moves where",
         "Temporary details (blue) and permanent reassignments (purple), from home office on the "
         "left to the office helped on the right.", moves_body))
@@ -386,7 +431,7 @@ def render_html(data: ReportData) -> str:
               _m(int(r["count"]) * salary.get(str(r["skill"]), 0.0) * inst.periods_per_year)
               if r["funding"] == "new" else (0.0, "-")]
              for r in records(plan.hires)]
-    sections.append(section(
+    sections.append(plan_section(
         "hiring", "Hiring",
         "Hires by the period they start and by skill. New hires ramp up before they are fully "
         "productive, so a start shows in capacity gradually.",
@@ -400,7 +445,7 @@ def render_html(data: ReportData) -> str:
                   (r["cap"], money_text(r["cap"])) if r["cap"] is not None else (1e300, "no cap"),
                   _share(r["spend"], r["cap"]) if r["cap"] else (0, "-")]
                  for r in payload["budget"]]
-    sections.append(section(
+    sections.append(plan_section(
         "money", "Money",
         "New money only: onboarding, salaries of new positions, details and relocations, by "
         "budget year, against each year's caps (the black tick). All bars share one scale"
@@ -410,8 +455,8 @@ def render_html(data: ReportData) -> str:
         + table_html(
             ["year", "budget line", cash("spent"), cash("cap"), "used"], cost_rows, name="costs",
             numeric=[False, False, True, True, True]) + _commitments(data)))
-    sections.extend(extra.sections)
-    sections.append(section("run", "How it was found", "", _run_details(data)))
+    sections.extend(_retitled(extra.sections, titled))
+    sections.append(plan_section("run", "How it was found", "", _run_details(data)))
     toc = "".join(f'<a href="#{a}">{e(t)}</a>' for a, t in nav)
     words, tone = outcome_words(run.status, run.gap), STATUS_TONE.get(str(run.status), "fair")
     notes = "".join(f'<p class="note">{e(n)}</p>' for n in (*quality_notes(data), *data.notes))

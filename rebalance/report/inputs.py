@@ -98,6 +98,8 @@ class RunSummary:
     stages: tuple[StageSummary, ...]
     caution: str = CAUTION
     replan: ReplanSummary | None = None  # None: not a re-plan
+    # The scenario whose plan this is (a compare's scenarios/<name>/ folder); None: not one.
+    scenario: str | None = None
 
     @classmethod
     def from_dict(cls, raw: Mapping[str, Any]) -> RunSummary:
@@ -144,6 +146,7 @@ class RunSummary:
             stages=tuple(stages),
             caution=str(raw.get("caution") or CAUTION),
             replan=ReplanSummary.from_raw(raw.get("replan")),
+            scenario=str(raw["scenario"]) if raw.get("scenario") else None,
         )
 
 
@@ -189,6 +192,8 @@ def report_data(result: PlanResult, plan_dir: str | Path | None = None) -> Repor
     if plan_dir:
         # Which re-plan this is: 'rebalance replan' adds it to the folder's summary.json.
         summary.setdefault("replan", _summary_key(Path(plan_dir), "replan"))
+        # Which scenario's plan this is: 'rebalance compare' adds it to each scenario's.
+        summary.setdefault("scenario", _summary_key(Path(plan_dir), "scenario"))
     return ReportData(result.instance, result.plan, RunSummary.from_dict(summary),
                       tables=tables, notes=tuple(notes), **analysis)
 

@@ -38,6 +38,7 @@ from rebalance.numbers import (
     seconds_text,
 )
 from rebalance.plan import BUDGET_LINES, PLAN_TABLES
+from rebalance.report.analysis_words import gap_caution
 from rebalance.report.chart_data import spare_capacity
 from rebalance.report.console import MEASURE_COLUMN, budget_note, cell_text, measure_names
 from rebalance.report.htmlparts import stage_words
@@ -88,6 +89,11 @@ SHEET_NOTES = {
     "scenario_costs": "cost of each scenario's plan by budget year and kind",
     "scenario_offices": "demand and shortfall of each scenario's plan by office",
 }
+# How a comparison's scenarios were solved, above its sheet as on the console and the page
+# (the sheet alone had read as plans each solved afresh).
+FROM_BASE_NOTE = ("Each scenario was solved from the base plan, and a change that did not pay "
+                  "under the scenario was undone: actions_differing counts the changes that "
+                  "did pay.")
 
 
 def _format_for(column: str) -> str | None:
@@ -150,13 +156,22 @@ def write_workbook(data: ReportData, path: str | Path) -> Path:
         numeric_years = _numeric_years(data.instance.years)
         for name, frame in sheets:
             _table_sheet(book.add_worksheet(name), styles, frame, numeric_years,
-                         data.instance.money.currency)
+                         data.instance.money.currency, notes=_sheet_notes(name, frame))
         book.close()
         os.replace(tmp, target)
     except BaseException:
         tmp.unlink(missing_ok=True)
         raise
     return target
+
+
+def _sheet_notes(name: str, frame: pd.DataFrame) -> tuple[str, ...]:
+    """Lines a table sheet opens with: the scenarios sheet's (how its plans were solved,
+    and the gap caution where the solves stopped short of proof); none for the others."""
+    if name != "scenarios":
+        return ()
+    from_base = [FROM_BASE_NOTE] if "actions_differing" in frame.columns else []
+    return tuple(note for note in (*from_base, gap_caution(frame)) if note)
 
 
 def _cut_note(name: str, rows: int) -> str:
@@ -325,12 +340,18 @@ def _measure_formats(frame: pd.DataFrame, values: list[list[Any]], formats: list
 
 
 def _table_sheet(ws: Any, styles: _Styles, frame: pd.DataFrame,
-                 numeric_years: bool = False, currency: str | None = None) -> None:
+                 numeric_years: bool = False, currency: str | None = None,
+                 notes: Sequence[str] = ()) -> None:
+    """One table as a sheet; ``notes``, one a row, open it, a blank row below them, and
+    the header, its freeze and its filter move down below them."""
     columns = [str(c) for c in frame.columns]
+    for i, note in enumerate(notes):
+        ws.write_string(i, 0, note)
+    top = len(notes) + 1 if notes else 0  # the header's row
     # Money columns' names carry the currency, as on the page (``cost (EUR)``).
     headers = [column_header(c, currency) for c in columns]
     for j, header in enumerate(headers):
-        ws.write_string(0, j, header, styles.header)
+        ws.write_string(top, j, header, styles.header)
     values = [_column_values(frame.iloc[:, j]) for j in range(len(columns))]
     measures = measure_names(frame)
     formats = [_named_format(c, values[j], styles) if _format_for(c) is not None else
@@ -350,17 +371,17 @@ def _table_sheet(ws: Any, styles: _Styles, frame: pd.DataFrame,
             values[j] = [readable(v) if isinstance(v, str) else v for v in values[j]]
     write = ws.write
     if any(isinstance(f, list) for f in formats):
-        for i, row in enumerate(zip(*values, strict=True), 1):
+        for i, row in enumerate(zip(*values, strict=True)):
             for j, value in enumerate(row):
                 f = formats[j]
-                write(i, j, value, f[i - 1] if isinstance(f, list) else f)
+                write(top + 1 + i, j, value, f[i] if isinstance(f, list) else f)
     else:
-        for i, row in enumerate(zip(*values, strict=True), 1):
+        for i, row in enumerate(zip(*values, strict=True), top + 1):
             for j, value in enumerate(row):
                 write(i, j, value, formats[j])
-    ws.freeze_panes(1, 0)
+    ws.freeze_panes(top + 1, 0)
     if columns:
-        ws.autofilter(0, 0, len(frame), len(columns) - 1)
+        ws.autofilter(top, 0, top + len(frame), len(columns) - 1)
     _fit_widths(ws, columns, frame, headers)
     if measures is not None:
         # Wide enough for a money row's "2,463,500 EUR", which the column's name cannot tell.

@@ -120,6 +120,58 @@ def test_compare_and_replan(tmp_path: Path) -> None:
     assert (out / "hires.csv").read_text() == before
 
 
+def _page_text(page: Path) -> str:
+    return " ".join(re.sub(r"<[^>]+>", " ", page.read_text(encoding="utf-8")).split())
+
+
+def test_compare_writes_each_scenario_a_report_of_its_own(tmp_path: Path) -> None:
+    # A practitioner's reading of a demo comparison (/tmp/reading/cmpshot.txt): each
+    # scenarios/<name>/ folder had CSV files only, and 'rebalance report' on one against the
+    # base instance said "FAILED independent verification".  By hand from tests/data/tiny's
+    # budget.csv (2027: hiring 40,000, moves 30,000): the base allows 70,000; this scenario's
+    # hiring_add of 60,000 makes it 130,000.
+    from rebalance.analysis.scenarios import apply_scenario, read_scenario
+    from rebalance.report.workbook import FROM_BASE_NOTE
+
+    scenario = tmp_path / "surge.toml"
+    scenario.write_text('name = "b-surge"\n[[demand]]\noffices = ["B"]\nskills = ["review"]\n'
+                        'periods = ["2027-Q3", "2027-Q4"]\nmultiplier = 1.5\n'
+                        "[[budget]]\nhiring_add = 60000\n")
+    out = tmp_path / "compare"
+    done = run("compare", str(TINY), "--scenario", str(scenario), "-o", str(out), "--gap", "0",
+               "-q")
+    assert done.returncode == 0, done.stderr
+    sub = out / "scenarios" / "b-surge"
+    assert (sub / "report.html").is_file() and (sub / "plan.xlsx").is_file()
+    # No file of the staged write is left behind.
+    assert not [p.name for p in sub.iterdir() if p.name.startswith(".") or "tmp" in p.name]
+    page = _page_text(sub / "report.html")
+    assert "Scenario b-surge" in page and "of 130,000 allowed" in page
+    assert "verified independently" in page and "FAILED" not in page
+    # The figures are those of the scenario's own data, by the same check as 'verify'.
+    instance = read_instance(TINY)
+    assert verify_folder(apply_scenario(instance, read_scenario(scenario, instance)), sub) == []
+    summary = load_workbook(sub / "plan.xlsx", read_only=True)["summary"]
+    assert next(summary.iter_rows(values_only=True))[0] == "Staffing plan for tiny+b-surge"
+    # No instance path: the base instance's would verify the scenario's plan against the
+    # wrong demand and budgets.
+    assert "instance_path" not in json.loads((sub / "summary.json").read_text())
+
+    # The base's page titles its plan sections as the base plan's; its money is the base's.
+    base = _page_text(out / "report.html")
+    for title in ("at a glance", "who moves where", "money", "why each action"):
+        assert f"Base plan: {title}" in base, title
+    assert "of 70,000 allowed" in base
+    # The scenarios sheet opens with how its plans were solved (as the console says), the
+    # header below a blank row; exact solves: no gap caution.
+    sheet = load_workbook(out / "plan.xlsx")["scenarios"]
+    rows = list(sheet.iter_rows(max_row=3, max_col=2, values_only=True))
+    assert rows == [(FROM_BASE_NOTE, None), (None, None), ("scenario", "description")]
+    assert sheet.freeze_panes == "A4" and sheet.auto_filter.ref.startswith("A3:")
+    assert pd.read_excel(out / "plan.xlsx", sheet_name="scenarios", header=2)[
+        "scenario"].tolist() == ["base", "b-surge"]
+
+
 def test_bad_inputs_exit_cleanly(tmp_path: Path) -> None:
     bad = tmp_path / "bad.toml"
     bad.write_text('name = "x"\n[[demand]]\noffices = ["nowhere"]\n')

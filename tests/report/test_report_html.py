@@ -295,3 +295,35 @@ def test_frontier_lines_use_colours_that_mean_nothing_else_on_the_pages():
         assert (white + 0.05) / (_relative_luminance(colour) + 0.05) >= 3, colour
     for a, b in itertools.combinations(lines, 2):
         assert distance(a, b) >= 20, (a, b)
+
+
+def test_a_comparison_page_titles_the_plan_sections_as_the_base_plans():
+    # A practitioner's reading of the demo comparison (/tmp/reading/cmpshot.txt): "At a
+    # glance", "Who moves where", "Money" and "Why each action" showed the base plan only,
+    # unlabelled, beside the scenarios.  A single plan's page keeps its headings.
+    def headings(page: str) -> list[str]:
+        return re.findall(r"<h2>(.*?)</h2>", page)
+
+    plain = headings(_page(tiny_plan_folder()))
+    assert plain[:6] == ["At a glance", "Work and capacity", "Where the gaps are",
+                         "Who moves where", "Hiring", "Money"]
+    assert not any(h.startswith("Base plan") for h in plain)
+    full = headings(_page(tiny_analysis_folder()))
+    for title in ("At a glance", "Who moves where", "Money", "Why each action",
+                  "How it was found"):
+        assert f"Base plan: {title[0].lower()}{title[1:]}" in full, title
+    # The comparison's own sections keep theirs.
+    assert "Scenarios side by side" in full and "Actions that differ from the base" in full
+    assert "Budget frontier" in full
+
+
+def test_a_scenarios_plan_says_it_is_that_scenarios(tmp_path):
+    # rebalance compare writes each scenario's plan to scenarios/<name>/ with "scenario" in
+    # its summary.json (tests/analysis/test_analysis_cli.py); its page had been headed with
+    # the instance's name alone.
+    folder = _copy(tmp_path)
+    summary = json.loads((folder / "summary.json").read_text())
+    (folder / "summary.json").write_text(json.dumps({**summary, "scenario": "b-surge"}))
+    page = render_html(report_data_from_folder(folder, read_instance(TINY)))
+    assert re.findall(r"<h1>(.*?)</h1>", page) == ["Scenario b-surge"]
+    assert "<title>Scenario b-surge · tiny</title>" in page

@@ -84,7 +84,8 @@ def test_every_column_has_a_fitted_width():
     for name in book.sheetnames[1:]:
         sheet = book[name]
         widths = _fitted_widths(sheet)
-        for cell in sheet[1]:
+        # The header is the row above the freeze (the scenarios sheet's notes come first).
+        for cell in sheet[int(sheet.freeze_panes[1:]) - 1]:
             assert widths[cell.column_letter] >= len(str(cell.value)) + 2, (name, cell.value)
     summary = _fitted_widths(book["summary"])
     assert summary["A"] >= 36 and all(summary[letter] >= 16 for letter in "BCDE")
@@ -137,7 +138,7 @@ def test_a_failed_write_leaves_the_old_workbook_and_no_temporary_file(tmp_path, 
     path = tmp_path / "plan.xlsx"
     path.write_bytes(b"the previous workbook")
 
-    def broken(*args):
+    def broken(*args, **kwargs):
         raise RuntimeError("disk went away")
 
     monkeypatch.setattr(workbook, "_table_sheet", broken)
@@ -213,3 +214,43 @@ def test_a_column_of_mixed_limits_shows_large_figures_without_decimals(tmp_path)
     sheet = load_workbook(path)["limits"]
     formats = [sheet.cell(row, 2).number_format for row in (2, 3, 4)]
     assert formats == ["#,##0.000", "#,##0", "#,##0.000"]
+
+
+def test_only_the_scenarios_sheet_opens_with_notes(tmp_path):
+    # A practitioner's reading of a demo comparison's plan.xlsx: the scenarios sheet did not
+    # say what the console and the page say, that each scenario was solved from the base plan
+    # (actions_differing counts the changes that paid), nor warn where the solves stopped
+    # short of proof (rebalance/report/analysis_words.py gap_caution).
+    from rebalance.report.analysis_words import gap_caution
+    from rebalance.report.workbook import FROM_BASE_NOTE
+
+    book = load_workbook(tiny_analysis_folder() / "plan.xlsx")
+    for name in book.sheetnames[1:]:
+        sheet = book[name]
+        if name == "scenarios":
+            assert sheet["A1"].value == FROM_BASE_NOTE and sheet["A2"].value is None
+            assert sheet["A3"].value == "scenario" and sheet["A3"].font.bold
+            assert sheet.freeze_panes == "A4" and sheet.auto_filter.ref.startswith("A3:")
+        else:  # every other sheet as before: its header on the first row
+            assert sheet.freeze_panes == "A2" and sheet["A1"].font.bold, name
+    # Solves stopped short of proof: the gap caution follows, and the table reads back whole.
+    from dataclasses import replace
+
+    from rebalance.report.workbook import write_workbook
+
+    scenarios = pd.read_csv(tiny_analysis_folder() / "scenarios.csv", keep_default_na=False,
+                            na_values=[""])
+    scenarios["gap"] = [0.0, 0.031, 0.0]  # base and its two surges (report_cases)
+    path = write_workbook(replace(_tiny_data(()), scenarios=scenarios), tmp_path / "plan.xlsx")
+    sheet = load_workbook(path)["scenarios"]
+    caution = gap_caution(scenarios)
+    assert caution and [sheet["A1"].value, sheet["A2"].value, sheet["A3"].value] == [
+        FROM_BASE_NOTE, caution, None]
+    assert sheet["A4"].value == "scenario" and sheet.freeze_panes == "A5"
+    back = pd.read_excel(path, sheet_name="scenarios", header=3)
+    assert back["scenario"].tolist() == scenarios["scenario"].tolist()
+    # A scenarios table from elsewhere, without actions_differing or gaps: no note, as before.
+    plain = pd.DataFrame({"scenario": ["a", "b"], "hires": [1, 2]})
+    sheet = load_workbook(write_workbook(replace(_tiny_data(()), scenarios=plain),
+                                         tmp_path / "plain.xlsx"))["scenarios"]
+    assert sheet["A1"].value == "scenario" and sheet.freeze_panes == "A2"

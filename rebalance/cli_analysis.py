@@ -120,10 +120,6 @@ def _say_gaps(table: pd.DataFrame) -> None:
         print("\n" + textwrap.fill(caution, width=90, break_on_hyphens=False))
 
 
-# How a comparison's scenarios were solved, so actions_differing reads right.
-FROM_BASE_WORDS = ("Each scenario was solved from the base plan, and a change that did not pay "
-                   "under the scenario was\nundone: actions_differing counts the changes "
-                   "that did pay.")
 
 
 def cmd_compare(args: argparse.Namespace) -> int:
@@ -137,7 +133,7 @@ def cmd_compare(args: argparse.Namespace) -> int:
     )
     from rebalance.plan import write_plan
     from rebalance.planning import summary_dict
-    from rebalance.report.analysis_words import scenario_lines, status_in_words
+    from rebalance.report.analysis_words import FROM_BASE_WORDS, scenario_lines, status_in_words
     from rebalance.report.files import write_reports
     from rebalance.report.inputs import report_data
 
@@ -162,7 +158,7 @@ def cmd_compare(args: argparse.Namespace) -> int:
                if c in comparison.table.columns]
     print(format_frame(status_in_words(comparison.table[columns]), instance.money.currency))
     if len(comparison.names) > 1 and comparison.results[0].plan is not None:
-        print(f"\n{FROM_BASE_WORDS}")
+        print("\n" + textwrap.fill(FROM_BASE_WORDS, width=98, break_on_hyphens=False))
     for line in scenario_lines(comparison.table, instance.money.currency, comparison.offices):
         print("\n" + textwrap.fill(line, width=90, break_on_hyphens=False,
                                    subsequent_indent="  "))

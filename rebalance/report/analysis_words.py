@@ -63,6 +63,13 @@ def truthy(value: Any) -> bool:
         return False
 
 
+# How a comparison's scenarios were solved, so actions_differing reads right (console and
+# workbook).
+FROM_BASE_WORDS = ("Each scenario was solved from the base plan, and a change that did not pay "
+                   "under the scenario was undone: actions_differing counts the changes that "
+                   "did pay.")
+
+
 def gap_caution(frame: pd.DataFrame) -> str:
     """A warning where the solves behind a comparison stopped short of proof ("" where they
     did not): a difference smaller than their gaps may come from where each search stopped,

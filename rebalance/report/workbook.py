@@ -38,7 +38,7 @@ from rebalance.numbers import (
     seconds_text,
 )
 from rebalance.plan import BUDGET_LINES, PLAN_TABLES
-from rebalance.report.analysis_words import gap_caution
+from rebalance.report.analysis_words import FROM_BASE_WORDS, gap_caution
 from rebalance.report.chart_data import spare_capacity
 from rebalance.report.console import MEASURE_COLUMN, budget_note, cell_text, measure_names
 from rebalance.report.htmlparts import stage_words
@@ -89,11 +89,6 @@ SHEET_NOTES = {
     "scenario_costs": "cost of each scenario's plan by budget year and kind",
     "scenario_offices": "demand and shortfall of each scenario's plan by office",
 }
-# How a comparison's scenarios were solved, above its sheet as on the console and the page
-# (the sheet alone had read as plans each solved afresh).
-FROM_BASE_NOTE = ("Each scenario was solved from the base plan, and a change that did not pay "
-                  "under the scenario was undone: actions_differing counts the changes that "
-                  "did pay.")
 
 
 def _format_for(column: str) -> str | None:
@@ -170,7 +165,7 @@ def _sheet_notes(name: str, frame: pd.DataFrame) -> tuple[str, ...]:
     and the gap caution where the solves stopped short of proof); none for the others."""
     if name != "scenarios":
         return ()
-    from_base = [FROM_BASE_NOTE] if "actions_differing" in frame.columns else []
+    from_base = [FROM_BASE_WORDS] if "actions_differing" in frame.columns else []
     return tuple(note for note in (*from_base, gap_caution(frame)) if note)
 
 

@@ -221,8 +221,8 @@ def test_only_the_scenarios_sheet_opens_with_notes(tmp_path):
     # say what the console and the page say, that each scenario was solved from the base plan
     # (actions_differing counts the changes that paid), nor warn where the solves stopped
     # short of proof (rebalance/report/analysis_words.py gap_caution).
+    from rebalance.report.analysis_words import FROM_BASE_WORDS as FROM_BASE_NOTE
     from rebalance.report.analysis_words import gap_caution
-    from rebalance.report.workbook import FROM_BASE_NOTE
 
     book = load_workbook(tiny_analysis_folder() / "plan.xlsx")
     for name in book.sheetnames[1:]:

@@ -18,7 +18,12 @@ from typing import Any
 
 import pandas as pd
 
-from rebalance.analysis.limits import hire_rows
+from rebalance.analysis.scenario_actions import (
+    ACTION_COLUMNS,
+    action_rows,
+    actions_table,
+    plan_actions,
+)
 from rebalance.analysis.solving import solve_many
 from rebalance.analysis.start_plan import named_like
 from rebalance.instance import Budget, Demand, Instance
@@ -39,6 +44,7 @@ __all__ = [
     "Scenario",
     "ScenarioError",
     "apply_scenario",
+    "changed_periods",
     "compare_scenarios",
     "folder_name",
     "plan_actions",
@@ -48,8 +54,6 @@ __all__ = [
 
 OFFICE_COLUMNS = ("scenario", "office", "demand_fte_periods", "shortfall_fte_periods",
                   "weighted_shortfall")
-ACTION_COLUMNS = ("scenario", "action", "person_or_office", "skill", "period", "detail",
-                  "base", "scenario_value")
 
 # Bounds on a scenario's numbers, far past any surge or budget change a plan is made for:
 # beyond them a value is a typo, and at the extreme no number a solve can use (multiplier =
@@ -431,10 +435,10 @@ class Comparison:
     """Plans of the base and of each scenario, and the tables that compare them.
 
     ``table`` (``scenarios.csv``): one row per plan.  ``costs`` (``scenario_costs.csv``): cost
-    by scenario, year and kind.  ``actions`` (``scenario_actions.csv``): every hire, detail and
-    reassignment that differs from the base plan.  ``offices`` (``scenario_offices.csv``):
-    demand and shortfall by scenario and office, to say where a surge lands and where it is
-    left short.
+    by scenario, year and kind.  ``actions`` (``scenario_actions.csv``): one row per hire,
+    detail or reassignment decision a scenario's plan changes against the base plan.
+    ``offices`` (``scenario_offices.csv``): demand and shortfall by scenario and office, to
+    say where a surge lands and where it is left short.
     """
 
     names: tuple[str, ...]
@@ -457,21 +461,16 @@ def _named_like_base(result: PlanResult, base: Plan | None) -> PlanResult:
     return replace(result, plan=plan, violations=tuple(verify_plan(result.instance, plan)))
 
 
-def plan_actions(plan: Plan) -> dict[tuple[str, str, str, str, str], float]:
-    """Actions of a plan keyed (action, person or office, skill, period, detail) -> amount."""
-    out: dict[tuple[str, str, str, str, str], float] = {}
-    for h in hire_rows(plan):
-        key = ("hire", h.office, h.skill, h.start_period, h.funding)
-        out[key] = out.get(key, 0.0) + float(h.count)
-    for row in plan.details.itertuples(index=False):
-        key = ("detail", str(row.person), "", str(row.period),
-               f"{row.from_office} -> {row.to_office}")
-        out[key] = 1.0
-    for row in plan.reassignments.itertuples(index=False):
-        key = ("reassignment", str(row.person), "", str(row.period),
-               f"{row.from_office} -> {row.to_office}")
-        out[key] = 1.0
-    return out
+def changed_periods(instance: Instance, scenario: Scenario) -> tuple[int, ...]:
+    """Indices of the periods the scenario's demand changes touch (``None``: all); for a
+    scenario with budget changes only, the periods of the years it changes."""
+    every = range(len(instance.periods))
+    if scenario.demand:
+        return tuple(sorted({t for c in scenario.demand
+                             for t in (every if c.periods is None else c.periods)}))
+    years = {y for b in scenario.budget for y in (instance.years if b.years is None
+                                                  else b.years)}
+    return tuple(t for t in every if instance.periods[t].year in years)
 
 
 # The base's description in scenarios.csv, beside each scenario's own.
@@ -587,22 +586,22 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
         variants[1:], options, workers, start=base.plan, names=names[1:])]]
     descriptions = {"base": BASE_DESCRIPTION, **{s.name: s.description for s in scenarios}}
     base_plan = results[0].plan
-    base_actions = plan_actions(base_plan) if base_plan is not None else {}
+    changed = {s.name: changed_periods(instance, s) for s in scenarios}
     rows = []
     cost_rows = []
-    action_rows = []
+    actions: list[tuple[Any, ...]] = []
     office_rows: list[tuple[Any, ...]] = []
     for name, variant, result in zip(names, variants, results, strict=True):
         # Against a base with no plan there is nothing to differ from.
         differing: int | None = 0 if base_plan is not None else None
         if result.plan is not None:
-            actions = plan_actions(result.plan)
             if name != "base" and base_plan is not None:
-                for key in sorted(set(actions) | set(base_actions)):
-                    a, b = base_actions.get(key, 0.0), actions.get(key, 0.0)
-                    if abs(a - b) > 1e-9:
-                        differing = (differing or 0) + 1
-                        action_rows.append((name, *key, a, b))
+                # One row per changed decision (a rerouted detail is one): the count is the
+                # table's rows for this scenario.
+                found = action_rows(name, base_plan, result.plan, instance.period_names,
+                                    changed[name])
+                differing = len(found)
+                actions += found
             c = result.plan.costs
             for year, kind, cost in zip(c["year"].astype(str), c["kind"].astype(str),
                                         c["cost"].astype(float), strict=True):
@@ -612,6 +611,6 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
         office_rows += _office_rows(name, result, variant)
     table = pd.DataFrame(rows)
     costs = pd.DataFrame(cost_rows, columns=["scenario", "year", "kind", "cost"])
-    actions_frame = pd.DataFrame(action_rows, columns=list(ACTION_COLUMNS))
+    actions_frame = actions_table(actions, names[1:])
     offices = pd.DataFrame(office_rows, columns=list(OFFICE_COLUMNS))
     return Comparison(names, tuple(results), table, costs, actions_frame, offices)

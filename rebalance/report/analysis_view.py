@@ -27,6 +27,7 @@ from rebalance.numbers import (
     money_header,
 )
 from rebalance.report.analysis_words import (
+    actions_lead,
     find_column,
     finite,
     gap_caution,
@@ -444,6 +445,8 @@ def analysis_payload(data: ReportData) -> AnalysisView:
             body = _disruption_note(data)
         elif name == "changes" and data.summary.replan is not None:
             lead = e(f"From {data.summary.replan.from_period} on: ") + lead
+        elif name == "scenario_actions":
+            lead += e(actions_lead(frame))
         full = _tables(frame, name, limit=500, currency=currency)
         if name == "reasons":
             full = _reasons_rolled_up(frame, full, currency)
@@ -614,8 +617,10 @@ TABLE_SECTIONS = {
                "from the re-plan period on."),
     "changes": ("What the re-plan changes", "Every action that differs from the old plan, "
                 "with the disruption cost charged for changing it."),
-    "scenario_actions": ("Actions that differ from the base", "Hires, details and "
-                         "reassignments where a scenario's plan differs from the base plan. "
-                         "Each scenario was solved from the base plan, and a change that did "
-                         "not pay under the scenario was undone."),
+    "scenario_actions": ("Actions that differ from the base", "Each hire, detail and "
+                         "reassignment decision a scenario's plan changes against the base "
+                         "plan, one row each (a detail sent elsewhere in the same period is "
+                         "one rerouted row). Each scenario was solved from the base plan, and "
+                         "a change that did not pay under the scenario was undone."),
 }
+

@@ -18,8 +18,9 @@ from rebalance.analysis.limits import limit_words
 from rebalance.numbers import fte_total_text, gap_text, money_amount, money_text
 from rebalance.report.words import outcome_words
 
-__all__ = ["NO_LIMIT", "find_column", "finite", "gap_caution", "is_numeric", "limit_texts",
-           "reasons_by_limit", "reasons_by_office", "scenario_lines", "status_in_words", "truthy"]
+__all__ = ["FROM_BASE_WORDS", "NO_LIMIT", "actions_lead", "find_column", "finite",
+           "gap_caution", "is_numeric", "limit_texts", "reasons_by_limit", "reasons_by_office",
+           "scenario_lines", "status_in_words", "truthy"]
 
 
 def is_numeric(frame: pd.DataFrame, column: str) -> bool:
@@ -380,3 +381,30 @@ def reasons_by_limit(frame: pd.DataFrame) -> pd.DataFrame | None:
     table["_last"] = table["limit"] == NO_LIMIT
     return table.sort_values(["_last", "shortfall_fte_periods"], ascending=[True, False],
                              kind="stable").drop(columns="_last").reset_index(drop=True)
+
+
+def actions_lead(frame: pd.DataFrame) -> str:
+    """How many of a comparison's changes fall before their scenario's changes begin, and
+    how many every scenario makes ("" for a table without those columns)."""
+    if "when" not in frame.columns or "in_every_scenario" not in frame.columns or not len(frame):
+        return ""
+    early = frame["when"].astype(str) == "before"
+    every = frame["in_every_scenario"].map(truthy).astype(bool)
+    words = (f" {int(early.sum()):,} of the {len(frame):,} change"
+             f"{'' if len(frame) == 1 else 's'} {'falls' if early.sum() == 1 else 'fall'} "
+             "before their scenario's changes begin")
+    if every.any():
+        # Counted once each (a row per scenario in the table); one made before every
+        # scenario's changes begin answers no surge, so likely suits the base plan too.
+        # A hire's skill is part of it; a detail's is only what the person works there.
+        hire = frame.get("action", pd.Series("", index=frame.index)).astype(str) == "hire"
+        skill = frame.get("skill", pd.Series("", index=frame.index)).where(hire, "")
+        keys = [c for c in ("change", "action", "person_or_office", "period",
+                            "route_or_funding") if c in frame.columns]
+        common = (frame.assign(_skill=skill, _early=early)[every]
+                  .groupby([*keys, "_skill"], dropna=False)["_early"])
+        n = common.ngroups
+        words += (f"; {n:,} {'is' if n == 1 else 'are'} made under every scenario, "
+                  f"{int(common.all().sum()):,} of them before any scenario's changes begin: "
+                  "those likely suit the base plan too")
+    return words + "."

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
+import pandas as pd
 import pytest
 from analysis_helpers import feasible_random
 from conftest import ROOT, solve_verified
@@ -12,6 +13,7 @@ from hypothesis import strategies as st
 
 from rebalance import options_from_instance, read_instance
 from rebalance.analysis.scenarios import (
+    ACTION_COLUMNS,
     DemandChange,
     Scenario,
     ScenarioError,
@@ -19,6 +21,7 @@ from rebalance.analysis.scenarios import (
     compare_scenarios,
     read_scenario,
 )
+from rebalance.plan import PLAN_TABLES, Plan
 
 DEMO_SCENARIOS = ROOT / "instances" / "demo_scenarios"
 
@@ -114,8 +117,12 @@ def test_compare_matches_separate_solves(tiny) -> None:
     surged = comparison.results[1].plan
     assert surged is not None
     actions = comparison.actions
+    assert tuple(actions.columns) == ACTION_COLUMNS
     assert set(actions["scenario"]) <= {"b-surge"}
     assert table.loc["b-surge", "actions_differing"] == len(actions)
+    # One scenario: nothing is "in every scenario"; its demand changes 2027-Q4 only, the last.
+    assert not actions["in_every_scenario"].any()
+    assert set(actions["when"]) <= {"before", "during"}
     costs = comparison.costs
     assert costs[costs.scenario == "b-surge"]["cost"].sum() == pytest.approx(surged.total_cost)
 
@@ -215,3 +222,128 @@ def test_a_difference_within_the_solves_gaps_is_marked_and_old_tables_say_less()
     assert "new money +7,000 (within the solves' gaps)" in line
     assert "weighted +21.3;" in line and "budget" not in line and "by office" not in line
     assert "of it 4.0 covered and 20.0 left short" in line
+
+
+# scenario_actions.csv, one row per changed decision (a practitioner's reading of the demo's
+# comparison: a rerouted detail in two rows, hires' funding under "detail", detail rows with
+# no skill, and no word of which changes came before the surge or under every scenario).
+
+def _plan(details=(), moves=(), hires=(), work=()) -> Plan:
+    """A hand-made plan: the tables the actions table reads, the others empty."""
+    def frame(name: str, rows) -> pd.DataFrame:
+        return pd.DataFrame(list(rows), columns=list(PLAN_TABLES[name]))
+
+    return Plan(frame("details", [(p, t, a, b, 0.0) for p, t, a, b in details]),
+                frame("reassignments", [(p, t, a, b, 0.0) for p, t, a, b in moves]),
+                frame("hires", [(o, k, t, n, f, 0.0, 0.0) for o, k, t, n, f in hires]),
+                frame("work", [(p, t, o, k, fte, fte) for p, t, o, k, fte in work]),
+                frame("coverage", []), frame("costs", []))
+
+
+PERIODS = ("2027-Q1", "2027-Q2", "2027-Q3", "2027-Q4")
+
+
+def test_action_rows_of_hand_made_plans() -> None:
+    from rebalance.analysis.scenario_actions import action_rows
+
+    base = _plan(details=[("p1", "2027-Q1", "A", "B"), ("p2", "2027-Q2", "A", "B"),
+                          ("p3", "2027-Q4", "A", "C")],
+                 moves=[("p4", "2027-Q2", "A", "B"), ("p5", "2027-Q3", "B", "A")],
+                 hires=[("B", "review", "2027-Q2", 1, "new"), ("A", "intake", "2027-Q3", 2,
+                                                               "vacancy")],
+                 work=[("p1", "2027-Q1", "B", "review", 1.0), ("p3", "2027-Q4", "C", "intake",
+                                                                0.5)])
+    plan = _plan(details=[("p1", "2027-Q1", "A", "C"), ("p3", "2027-Q4", "A", "C"),
+                          ("p6", "2027-Q3", "A", "B")],
+                 moves=[("p4", "2027-Q3", "A", "B"), ("p5", "2027-Q3", "B", "A")],
+                 hires=[("B", "review", "2027-Q3", 1, "new"), ("A", "intake", "2027-Q3", 3,
+                                                               "vacancy")],
+                 # p1 splits time at C: intake is the main skill; p6 has no work at B.
+                 work=[("p1", "2027-Q1", "C", "review", 0.3), ("p1", "2027-Q1", "C", "intake",
+                                                                0.7),
+                       ("p4", "2027-Q3", "B", "review", 1.0)])
+    # Reference: the rows written out by hand; the scenario changes 2027-Q2 and 2027-Q3.
+    assert action_rows("s", base, plan, PERIODS, (1, 2)) == [
+        ("s", "rerouted", "detail", "p1", "intake", "2027-Q1", "A -> B, now A -> C", 1, 1,
+         "before", False),
+        ("s", "dropped", "detail", "p2", "", "2027-Q2", "A -> B", 1, 0, "during", False),
+        ("s", "fewer", "hire", "B", "review", "2027-Q2", "new", 1, 0, "during", False),
+        ("s", "added", "detail", "p6", "", "2027-Q3", "A -> B", 0, 1, "during", False),
+        ("s", "more", "hire", "A", "intake", "2027-Q3", "vacancy", 2, 3, "during", False),
+        ("s", "more", "hire", "B", "review", "2027-Q3", "new", 0, 1, "during", False),
+        ("s", "changed", "reassignment", "p4", "review", "2027-Q3",
+         "A -> B from 2027-Q2, now A -> B from 2027-Q3", 1, 1, "during", False)]
+    # p3's detail in 2027-Q4 is the same in both: no row.  After the span, and no span:
+    late = _plan(details=[("p3", "2027-Q4", "A", "B")])
+    assert action_rows("s", _plan(), late, PERIODS, (0, 1))[0][-2] == "after"
+    assert action_rows("s", _plan(), late, PERIODS, ())[0][-2] == "—"
+    # A dropped one names the skill the base plan had the person work there.
+    assert action_rows("s", base, _plan(), PERIODS, (3,))[0][:6] == (
+        "s", "dropped", "detail", "p1", "review", "2027-Q1")
+
+
+def test_in_every_scenario_needs_two_scenarios_and_the_same_change() -> None:
+    from rebalance.analysis.scenario_actions import action_rows, actions_table
+
+    base = _plan(details=[("p1", "2027-Q1", "A", "B")])
+    one = _plan(details=[("p1", "2027-Q1", "A", "C")])
+    two = _plan(details=[("p1", "2027-Q1", "A", "C"), ("p2", "2027-Q2", "A", "B")])
+    rows = (action_rows("one", base, one, PERIODS, (2,))
+            + action_rows("two", base, two, PERIODS, (1, 2)))
+    table = actions_table(rows, ["one", "two"])
+    # By hand: the reroute of p1 is made under both (before either surge); p2's detail only
+    # under "two".
+    assert table[["scenario", "change", "person_or_office", "when", "in_every_scenario"]
+                 ].values.tolist() == [["one", "rerouted", "p1", "before", True],
+                                       ["two", "rerouted", "p1", "before", True],
+                                       ["two", "added", "p2", "during", False]]
+    assert not actions_table(rows, ["one", "two", "three"])["in_every_scenario"].any()
+    alone = actions_table(action_rows("one", base, one, PERIODS, (2,)), ["one"])
+    assert not alone["in_every_scenario"].any()
+
+
+def test_changed_periods_of_demand_and_of_budget_scenarios(tiny) -> None:
+    from rebalance.analysis.scenarios import BudgetChange, changed_periods
+
+    # tests/data/tiny: four periods, 2027-Q1 to 2027-Q4, all in budget year 2027.
+    assert changed_periods(tiny, Scenario("s", "", (DemandChange(None, None, (3,), 2.0),
+                                                    DemandChange(None, None, (1,), 2.0)))) == (1, 3)
+    assert changed_periods(tiny, Scenario("s", "", (DemandChange(None, None, None, 2.0),))) == (
+        0, 1, 2, 3)
+    # Demand changes win over budget ones; budget changes alone give their years' periods.
+    assert changed_periods(tiny, Scenario("s", "", (DemandChange(None, None, (2,), 2.0),),
+                                          (BudgetChange(None, 1.0),))) == (2,)
+    assert changed_periods(tiny, Scenario("s", "", (), (BudgetChange(("2027",), 1.0),))) == (
+        0, 1, 2, 3)
+
+
+def test_tiny_comparison_marks_common_changes_and_budget_years(tiny) -> None:
+    # Two copies of one surge (exact solves, each from the base plan) make the same changes:
+    # every row is in every scenario.  A budget cut alone: its year 2027 is all of tiny's
+    # periods, so every row is "during".
+    from analysis_helpers import exact_options
+
+    from rebalance.analysis.scenarios import BudgetChange
+
+    surge = (DemandChange(("B",), ("review",), (2,), add_fte=1.0),)
+    cut = Scenario("no-hiring", "", (), (BudgetChange(("2027",), hiring_add=-40_000.0),))
+    comparison = compare_scenarios(tiny, [Scenario("q3", "", surge),
+                                          Scenario("q3-again", "", surge)],
+                                   exact_options(tiny), workers=1)
+    actions = comparison.actions
+    first, again = (actions[actions["scenario"] == n].drop(columns="scenario")
+                    .reset_index(drop=True) for n in ("q3", "q3-again"))
+    assert len(first) > 0 and first.equals(again)
+    assert actions["in_every_scenario"].all()
+    counts = comparison.table.set_index("scenario")["actions_differing"]
+    assert counts["q3"] == counts["q3-again"] == len(first)
+
+    cutting = compare_scenarios(tiny, [cut], exact_options(tiny), workers=1)
+    base = cutting.results[0].plan
+    assert base is not None and base.hires_count() > 0  # tiny's base plan hires
+    rows = cutting.actions
+    # By hand: with hiring capped at 0 every hire of the base goes (one "fewer" row each).
+    hires = rows[rows["action"] == "hire"]
+    assert set(hires["change"]) == {"fewer"} and hires["scenario_value"].eq(0).all()
+    assert len(hires) == len(base.hires)
+    assert set(rows["when"]) == {"during"} and not rows["in_every_scenario"].any()

@@ -114,8 +114,50 @@ def test_a_scenario_differs_from_the_base_by_what_it_calls_for(instance: Instanc
     _, least_cost, _ = brute_force(apply_scenario(instance, surge))
     assert scenario.plan.total_cost == pytest.approx(least_cost, rel=1e-6)
     differing = comparison.actions
-    assert list(zip(differing["action"], differing["period"], strict=True)) == [
-        ("detail", "2027-Q3")]
+    # By hand: the one added detail, whoever the solver sent (a1 and a2 do equally well).
+    (who,) = scenario.plan.details.loc[scenario.plan.details["period"] == "2027-Q3", "person"]
+    assert [tuple(r) for r in differing.itertuples(index=False)] == [
+        ("b-q3", "added", "detail", who, "review", "2027-Q3", "A -> B", 0, 1, "during", False)]
+    assert comparison.table.set_index("scenario").loc["b-q3", "actions_differing"] == 1
+
+
+def _three_offices(tmp_path: Path) -> Instance:
+    """The instance above with an office C (no staff) and only a1 free to go on detail: the
+    base sends a1 to B in 2027-Q2, its one choice."""
+    folder = tmp_path / "three"
+    folder.mkdir()
+    for name, text in FILES.items():
+        (folder / name).write_text(text.lstrip())
+    (folder / "offices.csv").write_text(FILES["offices.csv"] + "C,Cedar,10,0\n")
+    (folder / "staff.csv").write_text(
+        FILES["staff.csv"].replace("a2,A,1.0,review:1.0,true", "a2,A,1.0,review:1.0,false"))
+    return read_instance(folder)
+
+
+def test_a_detail_sent_elsewhere_is_one_rerouted_row(tmp_path: Path) -> None:
+    # A practitioner's reading: a rerouted detail had taken two rows (old route 1 -> 0, new
+    # route 0 -> 1).  Both scenarios move B's extra 2027-Q2 need to C, so a1 goes to C
+    # instead: one row each, made under both; the second also wants one more at B in Q4.
+    instance = _three_offices(tmp_path)
+    moved = (DemandChange(("B",), ("review",), (1,), multiplier=0.5),
+             DemandChange(("C",), ("review",), (1,), add_fte=1.0))
+    both = [Scenario("c-q2", "", moved),
+            Scenario("c-q2-b-q4", "", (*moved, DemandChange(("B",), ("review",), (3,),
+                                                            add_fte=1.0)))]
+    comparison = compare_scenarios(instance, both, exact_options(instance), workers=1)
+    base = comparison.results[0].plan
+    assert base is not None and _detailed(base) == [("a1", "2027-Q2")]
+    assert all(r.verified for r in comparison.results)
+    # Reference: the rows written out by hand from the instance above.
+    rerouted = ("rerouted", "detail", "a1", "review", "2027-Q2", "A -> B, now A -> C", 1, 1,
+                "during", True)
+    assert [tuple(r) for r in comparison.actions.itertuples(index=False)] == [
+        ("c-q2", *rerouted),
+        ("c-q2-b-q4", *rerouted),
+        ("c-q2-b-q4", "added", "detail", "a1", "review", "2027-Q4", "A -> B", 0, 1, "during",
+         False)]
+    counts = comparison.table.set_index("scenario")["actions_differing"]
+    assert counts.to_dict() == {"base": 0, "c-q2": 1, "c-q2-b-q4": 2}
 
 
 def _alike(tmp_path: Path) -> Instance:

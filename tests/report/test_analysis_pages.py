@@ -4,6 +4,7 @@ with the disruption cost its cost stage weighed."""
 
 from __future__ import annotations
 
+import html
 import json
 import re
 import shutil
@@ -302,3 +303,32 @@ def test_the_scenarios_section_says_from_the_base_plan_and_optimal_within_the_ga
     assert "optimal within the gap asked (0.99% left)" in section
     assert "demand +24.0 FTE-periods (A +24.0)" in section
     assert "shortfall by office against the base: A +20.2" in section
+
+
+# A practitioner's reading of the demo comparison: the actions table took two rows for a
+# rerouted detail, hid detail rows' skills, and did not say which changes came before the
+# surge or were made under every scenario.
+
+def test_the_scenario_actions_section_shows_change_when_and_every_scenario(tmp_path):
+    from rebalance.analysis.scenario_actions import ACTION_COLUMNS
+
+    folder = tmp_path / "plan"
+    shutil.copytree(tiny_plan_folder(), folder)
+    # Made-up rows in the table's columns (office names from tests/data/tiny).
+    rows = [("rush", "rerouted", "detail", "a1", "review", "2027-Q1", "A -> B, now A -> C", 1,
+             1, "before", True),
+            ("storm", "rerouted", "detail", "a1", "review", "2027-Q1", "A -> B, now A -> C", 1,
+             1, "before", True),
+            ("rush", "more", "hire", "B", "review", "2027-Q3", "new", 0, 1, "during", False)]
+    pd.DataFrame(rows, columns=list(ACTION_COLUMNS)).to_csv(
+        folder / "scenario_actions.csv", index=False)
+    section = _section(render_html(report_data_from_folder(folder, read_instance(TINY))),
+                       "scenario_actions")
+    words = html.unescape(page_text(section))
+    # Counted by hand from the three rows above.
+    assert ("2 of the 3 changes fall before their scenario's changes begin; 1 is made under "
+            "every scenario, 1 of them before any scenario's changes begin: those likely suit "
+            "the base plan too.") in words
+    for header in ("change", "route or funding", "when", "in every scenario"):
+        assert f">{header}<" in html.unescape(section), header
+    assert "rush rerouted detail a1 review 2027-Q1 A -> B, now A -> C 1 1 before yes" in words

@@ -1,0 +1,148 @@
+"""What a scenario's plan changes against the base plan (``scenario_actions.csv``).
+
+One row per changed decision, in the re-plan's words (``rebalance.analysis.replan``): a
+detail ``added``, ``dropped`` or ``rerouted`` (a new destination in the same period, one row),
+a reassignment ``added``, ``dropped`` or ``changed``, ``more`` or ``fewer`` hires of an office,
+skill, start period and funding.  Each row says ``when`` it falls against the periods the
+scenario changes and whether every scenario of the comparison makes it.
+"""
+
+from __future__ import annotations
+
+from collections import defaultdict
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import Any
+
+import pandas as pd
+
+from rebalance.analysis.limits import hire_rows
+from rebalance.plan import Plan
+
+__all__ = ["ACTION_COLUMNS", "NO_WHEN", "PlanActions", "action_rows", "actions_table",
+           "plan_actions", "when_words"]
+
+ACTION_COLUMNS = ("scenario", "change", "action", "person_or_office", "skill", "period",
+                  "route_or_funding", "base", "scenario_value", "when", "in_every_scenario")
+# ``when`` where the scenario changes no period (nothing to be before or after).
+NO_WHEN = "—"
+
+
+@dataclass(frozen=True)
+class PlanActions:
+    """A plan's decisions: hires by (office, skill, start period, funding) -> count; details
+    by (person, period) -> route ``from -> to``; reassignments by person -> (period, route)."""
+
+    hires: dict[tuple[str, str, str, str], int]
+    details: dict[tuple[str, str], str]
+    moves: dict[str, tuple[str, str]]
+
+
+def plan_actions(plan: Plan) -> PlanActions:
+    """The hires, details and reassignments of ``plan``, keyed as :class:`PlanActions` says."""
+    hires: dict[tuple[str, str, str, str], int] = defaultdict(int)
+    for h in hire_rows(plan):
+        hires[(h.office, h.skill, h.start_period, h.funding)] += h.count
+    details = {(str(r.person), str(r.period)): f"{r.from_office} -> {r.to_office}"
+               for r in plan.details.itertuples(index=False)}
+    moves = {str(r.person): (str(r.period), f"{r.from_office} -> {r.to_office}")
+             for r in plan.reassignments.itertuples(index=False)}
+    return PlanActions(dict(hires), details, moves)
+
+
+def when_words(period: int, changed: Sequence[int]) -> str:
+    """``before``, ``during`` or ``after`` the span of the ``changed`` period indices."""
+    if not changed:
+        return NO_WHEN
+    return ("before" if period < min(changed) else "after" if period > max(changed)
+            else "during")
+
+
+def _main_skills(plan: Plan) -> dict[tuple[str, str, str], str]:
+    """(person, period, office) -> the skill the person works most FTE at there then (ties:
+    the first by name)."""
+    w = plan.work
+    fte: dict[tuple[str, str, str], dict[str, float]] = defaultdict(lambda: defaultdict(float))
+    for person, period, office, skill, amount in zip(
+            w["person"].astype(str), w["period"].astype(str), w["office"].astype(str),
+            w["skill"].astype(str), w["fte"].astype(float), strict=True):
+        fte[(person, period, office)][skill] += amount
+    # Most FTE first, then the first by name; time with no work (0 FTE) names no skill.
+    return {key: min(by, key=lambda k: (-by[k], k)) for key, by in fte.items()
+            if max(by.values()) > 1e-9}
+
+
+def _destination(route: str) -> str:
+    return route.split(" -> ")[-1]
+
+
+def action_rows(name: str, base: Plan, plan: Plan, periods: Sequence[str],
+                changed: Sequence[int]) -> list[tuple[Any, ...]]:
+    """The rows of ``scenario_actions.csv`` for scenario ``name`` (``in_every_scenario``
+    left False: :func:`actions_table` sets it), in period order.  ``periods`` names the
+    horizon's periods; ``changed`` holds the indices of those the scenario changes."""
+    ix = {p: t for t, p in enumerate(periods)}
+    a, b = plan_actions(base), plan_actions(plan)
+    skills = {"base": _main_skills(base), "scenario": _main_skills(plan)}
+    rows: list[tuple[int, tuple[Any, ...]]] = []
+
+    def add(change: str, action: str, who: str, skill: str, period: str, route: str,
+            before: int, after: int) -> None:
+        t = ix.get(period)
+        when = NO_WHEN if t is None else when_words(t, changed)
+        rows.append((-1 if t is None else t, (name, change, action, who, skill, period, route,
+                                              before, after, when, False)))
+
+    for key in sorted(set(a.hires) | set(b.hires)):
+        n_base, n_new = a.hires.get(key, 0), b.hires.get(key, 0)
+        if n_base != n_new:
+            office, skill, start, funding = key
+            add("more" if n_new > n_base else "fewer", "hire", office, skill, start, funding,
+                n_base, n_new)
+    for person, period in sorted(set(a.details) | set(b.details)):
+        before, after = a.details.get((person, period), ""), b.details.get((person, period), "")
+        if before == after:
+            continue
+        # The skill at the destination the row is about: the scenario's unless dropped.
+        side, route = ("base", before) if not after else ("scenario", after)
+        skill = skills[side].get((person, period, _destination(route)), "")
+        if not before:
+            add("added", "detail", person, skill, period, after, 0, 1)
+        elif not after:
+            add("dropped", "detail", person, skill, period, before, 1, 0)
+        else:
+            add("rerouted", "detail", person, skill, period, f"{before}, now {after}", 1, 1)
+    for person in sorted(set(a.moves) | set(b.moves)):
+        old, new = a.moves.get(person), b.moves.get(person)
+        if old == new:
+            continue
+        kept = new if new is not None else old
+        if kept is None:  # both None: equal, skipped above
+            continue
+        side, (period, route) = ("scenario" if new is not None else "base"), kept
+        skill = skills[side].get((person, period, _destination(route)), "")
+        if old is None:
+            add("added", "reassignment", person, skill, period, route, 0, 1)
+        elif new is None:
+            add("dropped", "reassignment", person, skill, period, route, 1, 0)
+        else:
+            add("changed", "reassignment", person, skill, period,
+                f"{old[1]} from {old[0]}, now {new[1]} from {new[0]}", 1, 1)
+    return [row for _, row in sorted(rows, key=lambda r: (r[0], r[1][2], r[1][3], r[1][6]))]
+
+
+def actions_table(rows: Sequence[tuple[Any, ...]], scenarios: Sequence[str]) -> pd.DataFrame:
+    """``rows`` of :func:`action_rows` as the table, ``in_every_scenario`` true where the same
+    change (all but the scenario, the skill a detail is worked in, and ``when``) is made under
+    every one of ``scenarios``, when there are 2 or more."""
+    def decision(row: tuple[Any, ...]) -> tuple[Any, ...]:
+        _, change, action, who, skill, period, route, before, after, _, _ = row
+        return (change, action, who, skill if action == "hire" else "", period, route,
+                before, after)
+
+    made: dict[tuple[Any, ...], set[str]] = defaultdict(set)
+    for row in rows:
+        made[decision(row)].add(row[0])
+    every = len(scenarios) >= 2
+    out = [(*row[:-1], every and made[decision(row)] >= set(scenarios)) for row in rows]
+    return pd.DataFrame(out, columns=list(ACTION_COLUMNS))

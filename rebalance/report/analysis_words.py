@@ -199,6 +199,11 @@ def _budget_words(row: Any, currency: str | None) -> str | None:
             text += (f", {money_amount(spent, currency)} more spent under it than in the base"
                      if spent > 0 and _shows(money_text(spent)) else
                      ", none of it spent beyond the base's spending")
+        if change > 0:
+            # A practitioner's reading: the storm's added hiring money bought a hire at an
+            # office the storm never touched.
+            text += (f" (a budget pays for {'hires' if cap == 'hiring' else 'moves'} anywhere "
+                     "in its year, not only the surge's)")
         said.append(text)
     if not known:
         return None

@@ -199,6 +199,7 @@ def test_each_scenario_line_says_where_demand_landed_how_much_is_covered_and_the
     assert f"new money +{rush.total_cost - base.total_cost:,.0f};" in line
     assert (f"hiring budget 2027 +20,000, {hiring(rush) - hiring(base):,.0f} more spent under"
             in line)
+    assert "(a budget pays for hires anywhere in its year, not only the surge's)" in line
     shortfall_b = (by_office["b-rush"].loc["B", "shortfall_fte"]
                    - by_office["base"].loc["B", "shortfall_fte"])
     assert f"shortfall by office against the base: B +{shortfall_b:.1f}" in line

@@ -3,8 +3,9 @@
 One row per changed decision, in the re-plan's words (``rebalance.analysis.replan``): a
 detail ``added``, ``dropped`` or ``rerouted`` (a new destination in the same period, one row),
 a reassignment ``added``, ``dropped`` or ``changed``, ``more`` or ``fewer`` hires of an office,
-skill, start period and funding.  Each row says ``when`` it falls against the periods the
-scenario changes and whether every scenario of the comparison makes it.
+skill, start period and funding (``moved`` where the same number start in another period
+instead).  Each row says ``when`` it falls against the periods the scenario changes and
+whether every scenario of the comparison makes it.
 """
 
 from __future__ import annotations
@@ -93,10 +94,24 @@ def action_rows(name: str, base: Plan, plan: Plan, periods: Sequence[str],
         rows.append((-1 if t is None else t, (name, change, action, who, skill, period, route,
                                               before, after, when, False)))
 
-    for key in sorted(set(a.hires) | set(b.hires)):
+    # Hires by office, skill and funding: one start moved to another period with the same
+    # count is one ``moved`` row (two rows, fewer and more, had read as two decisions).
+    by_group: dict[tuple[str, str, str], list[tuple[str, int, int]]] = defaultdict(list)
+    for key in sorted(set(a.hires) | set(b.hires), key=lambda k: (k[0], k[1], k[3], ix.get(
+            k[2], -1))):
         n_base, n_new = a.hires.get(key, 0), b.hires.get(key, 0)
         if n_base != n_new:
             office, skill, start, funding = key
+            by_group[(office, skill, funding)].append((start, n_base, n_new))
+    for (office, skill, funding), steps in by_group.items():
+        if len(steps) == 2 and steps[0][2] - steps[0][1] == steps[1][1] - steps[1][2]:
+            (s0, b0, n0), (s1, _, _) = steps
+            old_start, new_start = (s0, s1) if n0 < b0 else (s1, s0)
+            moved = abs(n0 - b0)
+            add("moved", "hire", office, skill, new_start,
+                f"{funding}, from {old_start}", moved, moved)
+            continue
+        for start, n_base, n_new in steps:
             add("more" if n_new > n_base else "fewer", "hire", office, skill, start, funding,
                 n_base, n_new)
     for person, period in sorted(set(a.details) | set(b.details)):

@@ -268,16 +268,21 @@ def test_action_rows_of_hand_made_plans() -> None:
         ("s", "rerouted", "detail", "p1", "intake", "2027-Q1", "A -> B, now A -> C", 1, 1,
          "before", False),
         ("s", "dropped", "detail", "p2", "", "2027-Q2", "A -> B", 1, 0, "during", False),
-        ("s", "fewer", "hire", "B", "review", "2027-Q2", "new", 1, 0, "during", False),
         ("s", "added", "detail", "p6", "", "2027-Q3", "A -> B", 0, 1, "during", False),
         ("s", "more", "hire", "A", "intake", "2027-Q3", "vacancy", 2, 3, "during", False),
-        ("s", "more", "hire", "B", "review", "2027-Q3", "new", 0, 1, "during", False),
+        # B's one new review hire starts in 2027-Q3 instead of 2027-Q2: one row, not two.
+        ("s", "moved", "hire", "B", "review", "2027-Q3", "new, from 2027-Q2", 1, 1, "during",
+         False),
         ("s", "changed", "reassignment", "p4", "review", "2027-Q3",
          "A -> B from 2027-Q2, now A -> B from 2027-Q3", 1, 1, "during", False)]
     # p3's detail in 2027-Q4 is the same in both: no row.  After the span, and no span:
     late = _plan(details=[("p3", "2027-Q4", "A", "B")])
     assert action_rows("s", _plan(), late, PERIODS, (0, 1))[0][-2] == "after"
     assert action_rows("s", _plan(), late, PERIODS, ())[0][-2] == "—"
+    # Two started a period later but one fewer in all: not one move, so fewer and more.
+    two = _plan(hires=[("B", "review", "2027-Q2", 2, "new")])
+    one = _plan(hires=[("B", "review", "2027-Q3", 1, "new")])
+    assert [r[1] for r in action_rows("s", two, one, PERIODS, (1,))] == ["fewer", "more"]
     # A dropped one names the skill the base plan had the person work there.
     assert action_rows("s", base, _plan(), PERIODS, (3,))[0][:6] == (
         "s", "dropped", "detail", "p1", "review", "2027-Q1")

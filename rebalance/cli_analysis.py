@@ -414,6 +414,12 @@ def cmd_marginal(args: argparse.Namespace) -> int:
                          for step, unit in zip(values.table["step"], values.table["unit"],
                                                strict=True)]
         print(format_frame(shown, instance.money.currency))
+        from rebalance.report.analysis_words import marginal_gap_words
+
+        assert base.plan is not None  # _plan_failed returned for a run with none
+        within = marginal_gap_words(values.table, base.plan.weighted_shortfall)
+        if within:
+            print("\n" + textwrap.fill(within, width=98, break_on_hyphens=False))
     else:
         print("no limit binds the plan, so there is nothing to rank; "
               "marginal_values.csv is written with its header only")

@@ -33,6 +33,7 @@ from rebalance.report.analysis_words import (
     gap_caution,
     is_numeric,
     limit_texts,
+    marginal_gap_words,
     reasons_by_limit,
     reasons_by_office,
     scenario_lines,
@@ -426,6 +427,10 @@ def analysis_payload(data: ReportData) -> AnalysisView:
         else:
             body += ('<p class="note">The columns of this table were not recognised for a '
                      "chart; it is shown as written.</p>")
+        if key == "marginal":
+            within = marginal_gap_words(frame, data.plan.weighted_shortfall
+                                        if data.plan is not None else None)
+            body += f'<p class="note">{e(within)}</p>' if within else ""
         body = _gap_note(frame) + body + _tables(frame, key, currency=currency)
         sections.append(section(key, title, lead, body))
         nav.append((key, title))

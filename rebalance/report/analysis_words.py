@@ -18,9 +18,22 @@ from rebalance.analysis.limits import limit_words
 from rebalance.numbers import fte_total_text, gap_text, money_amount, money_text
 from rebalance.report.words import outcome_words
 
-__all__ = ["FROM_BASE_WORDS", "NO_LIMIT", "actions_lead", "find_column", "finite",
-           "gap_caution", "is_numeric", "limit_texts", "reasons_by_limit", "reasons_by_office",
-           "scenario_lines", "status_in_words", "truthy"]
+__all__ = [
+    "FROM_BASE_WORDS",
+    "NO_LIMIT",
+    "actions_lead",
+    "find_column",
+    "finite",
+    "gap_caution",
+    "is_numeric",
+    "limit_texts",
+    "marginal_gap_words",
+    "reasons_by_limit",
+    "reasons_by_office",
+    "scenario_lines",
+    "status_in_words",
+    "truthy",
+]
 
 
 def is_numeric(frame: pd.DataFrame, column: str) -> bool:
@@ -413,3 +426,27 @@ def actions_lead(frame: pd.DataFrame) -> str:
                   f"{int(common.all().sum()):,} of them before any scenario's changes begin: "
                   "those likely suit the base plan too")
     return words + "."
+
+
+def marginal_gap_words(frame: pd.DataFrame, shortfall: float | None) -> str:
+    """Which measured marginal values are within the solves' shortfall gap of the base
+    plan's weighted ``shortfall`` ("" where none is, or the table lacks the columns): a
+    practitioner's reading took a +100,000 budget's 0.842 for a measured gain where 1% of
+    168.6 is 1.7."""
+    needed = {"shortfall_reduction", "shortfall_gap"}
+    if shortfall is None or not needed <= set(frame.columns) or frame.empty:
+        return ""
+    gaps = [g for g in finite(frame["shortfall_gap"].tolist()) if g is not None]
+    if not gaps or max(gaps) <= 1e-4:
+        return ""
+    noise = max(gaps) * abs(shortfall)
+    name = "limit_in_words" if "limit_in_words" in frame.columns else "limit"
+    within = [str(limit) for limit, value in zip(frame[name], finite(
+        frame["shortfall_reduction"].tolist()), strict=True)
+        if value is not None and abs(value) <= noise]
+    if not within:
+        return ""
+    listed = ", ".join(within[:5]) + (f" and {len(within) - 5} more" if len(within) > 5 else "")
+    return (f"Measured values within the solves' shortfall gap ({gap_text(max(gaps))} of "
+            f"{fte_total_text(shortfall)} FTE-periods: {fte_total_text(noise)}) are not firm: "
+            f"{listed}.")

@@ -332,3 +332,18 @@ def test_the_scenario_actions_section_shows_change_when_and_every_scenario(tmp_p
     for header in ("change", "route or funding", "when", "in every scenario"):
         assert f">{header}<" in html.unescape(section), header
     assert "rush rerouted detail a1 review 2027-Q1 A -> B, now A -> C 1 1 before yes" in words
+
+
+def test_marginal_values_within_the_gap_are_said_not_firm() -> None:
+    # A practitioner's reading: a +100,000 budget's 0.842 read as a measured gain, where the
+    # solves' shortfall gap of 1% of 168.6 is 1.7 FTE-periods.  Made-up rows.
+    from rebalance.report.analysis_words import marginal_gap_words
+
+    frame = pd.DataFrame({"limit_in_words": ["seats at A", "hiring budget 2027", "seats at B"],
+                          "shortfall_reduction": [20.2, 0.842, None],
+                          "shortfall_gap": [0.01, 0.0069, None]})
+    assert marginal_gap_words(frame, 168.6) == (
+        "Measured values within the solves' shortfall gap (1.00% of 168.6 FTE-periods: 1.7) "
+        "are not firm: hiring budget 2027.")
+    assert marginal_gap_words(frame.assign(shortfall_gap=0.0), 168.6) == ""  # exact solves
+    assert marginal_gap_words(frame, None) == ""

@@ -12,6 +12,7 @@ from __future__ import annotations
 import html
 import math
 import re
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -372,7 +373,9 @@ SCENARIOS_LEAD = ("Each scenario was solved from the base plan, and a change tha
                   "figures.")
 
 
-def analysis_payload(data: ReportData) -> AnalysisView:
+def analysis_payload(data: ReportData,
+                     titled: Callable[[str, str], str] = lambda anchor, title: title
+                     ) -> AnalysisView:
     """Chart data, sections and navigation entries for whichever analysis tables exist."""
     payload: dict[str, Any] = {}
     sections: list[str] = []
@@ -455,7 +458,7 @@ def analysis_payload(data: ReportData) -> AnalysisView:
         full = _tables(frame, name, limit=500, currency=currency)
         if name == "reasons":
             full = _reasons_rolled_up(frame, full, currency)
-        sections.append(section(name, title, lead, body + full))
+        sections.append(section(name, titled(name, title), lead, body + full))
         nav.append((name, title))
     return AnalysisView(payload, tuple(sections), tuple(nav))
 

@@ -15,10 +15,8 @@ has at their cap, and the salaries after the horizon against the last hiring cap
 from __future__ import annotations
 
 import datetime as dt
-import html
 import json
-import re
-from collections.abc import Callable, Sequence
+from collections.abc import Callable
 from importlib import resources
 from pathlib import Path
 from typing import Any
@@ -333,16 +331,6 @@ def _plan_titled(data: ReportData) -> Callable[[str, str], str]:
                                   if anchor in PLAN_SECTIONS else title)
 
 
-def _retitled(sections: Sequence[str], titled: Callable[[str, str], str]) -> list[str]:
-    """``sections`` (drawn by ``htmlparts.section``) with their headings as ``titled`` gives."""
-    def heading(found: re.Match[str]) -> str:
-        anchor, title = found.group(1), html.unescape(found.group(2))
-        return f'<section id="{anchor}"><h2>{e(titled(anchor, title))}</h2>'
-
-    return [re.sub(r'^<section id="([^"]+)"><h2>(.*?)</h2>', heading, s, count=1)
-            for s in sections]
-
-
 def _page_heading(data: ReportData) -> tuple[str, str]:
     """What the page is, as (kicker, heading): a plain plan, a re-plan (from summary.json's
     ``replan``) or a scenario comparison (a scenarios table beside the plan)."""
@@ -369,7 +357,8 @@ def render_html(data: ReportData) -> str:
     """The whole report as one HTML string."""
     inst, plan, run = data.instance, data.plan, data.summary
     cash = inst.money.header  # a money column's name, with the currency where one is set
-    extra = analysis_view.analysis_payload(data)
+    titled = _plan_titled(data)
+    extra = analysis_view.analysis_payload(data, titled)
     payload = {**chart_payload(data), **extra.payload}
     # "</" inside a script element would end it early; JSON allows the escaped form.
     data_json = json.dumps(payload, separators=(",", ":"), allow_nan=False).replace("</", "<\\/")
@@ -379,7 +368,6 @@ def render_html(data: ReportData) -> str:
                 f" &middot; {len(inst.offices)} offices in {locations} locations &middot; "
                 f"{len(inst.staff):,} staff &middot; {len(inst.skills)} skills")
     sections = []
-    titled = _plan_titled(data)
 
     def plan_section(anchor: str, title: str, lead: str, body: str) -> str:
         return section(anchor, titled(anchor, title), lead, body)
@@ -455,7 +443,7 @@ def render_html(data: ReportData) -> str:
         + table_html(
             ["year", "budget line", cash("spent"), cash("cap"), "used"], cost_rows, name="costs",
             numeric=[False, False, True, True, True]) + _commitments(data)))
-    sections.extend(_retitled(extra.sections, titled))
+    sections.extend(extra.sections)
     sections.append(plan_section("run", "How it was found", "", _run_details(data)))
     toc = "".join(f'<a href="#{a}">{e(t)}</a>' for a, t in nav)
     words, tone = outcome_words(run.status, run.gap), STATUS_TONE.get(str(run.status), "fair")

@@ -31,7 +31,7 @@ from rebalance.backends import (
 from rebalance.model import Model
 from rebalance.numbers import progress_value
 from rebalance.rounding import early_lp, movers_free, neighbourhood, plan_by_rounding
-from rebalance.split import relaxed, run_within
+from rebalance.split import relaxed, resplit, run_within
 from rebalance.whole_plans import decomposable
 
 MIN_SEARCH_SECONDS = 1.0
@@ -119,7 +119,8 @@ def _hint_held(model: Model) -> np.ndarray:
 def work_split_for(backend: Backend, model: Model, objective: np.ndarray,
                    options: SolveOptions, deadline: float,
                    values: np.ndarray) -> BackendOutcome | None:
-    """The best work split (an LP) with every whole-number column held at ``values``."""
+    """The best work split (an LP, :func:`~rebalance.split.resplit`) with every whole-number
+    column held at ``values``; None where it keeps no limit or there is no time."""
     # Held apart, only the work split is left (an LP): CBC had been handed the whole model
     # (40 offices: PuLP's building and writing took the 1.9 s this step had, and the run
     # ended with no plan at all, exit 5).  Where a backend writes its model out for every run
@@ -127,19 +128,15 @@ def work_split_for(backend: Backend, model: Model, objective: np.ndarray,
     # still not written it in its share, and a run that stays put keeps every limit.  The
     # backend asked for stays the fallback (HiGHS takes no cost of 1e20 or more).
     lp_backends = [backend] if backend.reruns_cheaply else [HighsBackend(), backend]
-    lower = np.where(model.is_integer, values, model.col_lower)
-    upper = np.where(model.is_integer, values, model.col_upper)
-    out: BackendOutcome | None = None
     for lp_backend in lp_backends:
         left = deadline - time.perf_counter()
         if left <= 0.05:
             break
-        out = run_within(lp_backend, relaxed(model), objective, [],
-                         replace(options, progress=None, heuristics=False), lower, upper,
-                         min(left, max(0.1 * left, 1.0)))
-        if out.x is not None and out.objective is not None:
-            break
-    return out
+        out = resplit(lp_backend, model, values, objective,
+                      replace(options, heuristics=False), min(left, max(0.1 * left, 1.0)))
+        if out is not None:
+            return out
+    return None
 
 
 def first_plan_from_lp(backend: Backend, model: Model, objective: np.ndarray,

@@ -19,6 +19,7 @@ import numpy as np
 import pandas as pd
 
 from rebalance.analysis.limits import hire_rows
+from rebalance.analysis.scenario_actions import plan_actions
 from rebalance.instance import Instance
 from rebalance.model import Model, group_units
 from rebalance.plan import Plan
@@ -123,7 +124,7 @@ def named_like(instance: Instance, plan: Plan, base: Plan) -> Plan:
         differing = np.asarray([[_differing(a, b, len(names)) for b in theirs] for a in mine])
         rows, cols = linear_sum_assignment(differing)
         # now[c]: the timeline member c does (from member owner[c][t] of ``plan`` at t).
-        now: list[dict[int, tuple[str, str]]] = [{} for _ in people]
+        now: list[dict[int, str]] = [{} for _ in people]
         owner = [[c] * len(names) for c in range(len(people))]
         for r, c in zip(rows, cols, strict=True):
             now[c] = dict(mine[r])
@@ -160,25 +161,23 @@ def named_like(instance: Instance, plan: Plan, base: Plan) -> Plan:
     return replace(plan, details=renamed(plan.details), work=renamed(plan.work))
 
 
-def _routes_of(plan: Plan, periods: dict[str, int]) -> dict[str, dict[int, tuple[str, str]]]:
-    """Each person's detail periods (by index) with their routes."""
-    d = plan.details
-    out: dict[str, dict[int, tuple[str, str]]] = {}
-    for person, period, src, dst in zip(d["person"].astype(str), d["period"].astype(str),
-                                        d["from_office"].astype(str), d["to_office"].astype(str),
-                                        strict=True):
+def _routes_of(plan: Plan, periods: dict[str, int]) -> dict[str, dict[int, str]]:
+    """Each person's detail periods (by index) with their routes
+    (:func:`~rebalance.analysis.scenario_actions.plan_actions`)."""
+    out: dict[str, dict[int, str]] = {}
+    for (person, period), route in plan_actions(plan).details.items():
         if period in periods:
-            out.setdefault(person, {})[periods[period]] = (src, dst)
+            out.setdefault(person, {})[periods[period]] = route
     return out
 
 
-def _differing(a: dict[int, tuple[str, str]], b: dict[int, tuple[str, str]], T: int) -> int:
+def _differing(a: dict[int, str], b: dict[int, str], T: int) -> int:
     """Periods in which two timelines are not on the same detail (or both at home)."""
     return sum(a.get(t) != b.get(t) for t in range(T))
 
 
-def _traded(a: dict[int, tuple[str, str]], b: dict[int, tuple[str, str]],
-            t: int) -> tuple[dict[int, tuple[str, str]], dict[int, tuple[str, str]]]:
+def _traded(a: dict[int, str], b: dict[int, str],
+            t: int) -> tuple[dict[int, str], dict[int, str]]:
     """Timelines ``a`` and ``b`` with period ``t`` traded."""
     new_a, new_b = dict(a), dict(b)
     new_a.pop(t, None)
@@ -190,7 +189,7 @@ def _traded(a: dict[int, tuple[str, str]], b: dict[int, tuple[str, str]],
     return new_a, new_b
 
 
-def _runs_ok(timeline: dict[int, tuple[str, str]], most: int | None) -> bool:
+def _runs_ok(timeline: dict[int, str], most: int | None) -> bool:
     """No more than ``most`` detail periods in a row (None: no limit)."""
     if most is None:
         return True

@@ -224,19 +224,25 @@ def test_a_header_moved_down_is_said_first(tmp_path):
                                              "the column names in row 1, the data below them")
 
 
-def test_a_year_typed_as_a_date_is_one_problem_not_also_a_missing_year(tmp_path):
-    # And it says it is a date: "budget year '2027-01-01T00:00:00' belongs to no period" had
-    # read as a misspelt year (a sweep).  (A spreadsheet program reads 2027-01-01 typed in a
-    # cell as a date: the openpyxl and LibreOffice Calc documentation of cell types.)
+def _problems_with_a_date(tmp_path, sheet: str, cell: str) -> list:
+    """The problems of tiny's workbook with 2027-01-01 typed as a date in ``sheet``'s
+    ``cell``."""
     import datetime
 
     book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
     wb = load_workbook(book)
-    wb["budget"]["A2"] = datetime.datetime(2027, 1, 1)
+    wb[sheet][cell] = datetime.datetime(2027, 1, 1)
     wb.save(book)
     with pytest.raises(InstanceError) as caught:
         read_workbook(book)
-    text = [str(p) for p in caught.value.problems]
+    return list(caught.value.problems)
+
+
+def test_a_year_typed_as_a_date_is_one_problem_not_also_a_missing_year(tmp_path):
+    # And it says it is a date: "budget year '2027-01-01T00:00:00' belongs to no period" had
+    # read as a misspelt year (a sweep).  (A spreadsheet program reads 2027-01-01 typed in a
+    # cell as a date: the openpyxl and LibreOffice Calc documentation of cell types.)
+    text = [str(p) for p in _problems_with_a_date(tmp_path, "budget", "A2")]
     assert text == [
         "tiny.xlsx[budget]:2: year: the cell holds a date (2027-01-01), not a budget year; "
         "type the year's name as text, e.g. 2027 (a spreadsheet reads 2027-01-01 typed in a "
@@ -590,13 +596,8 @@ def test_a_date_where_a_period_name_is_expected_is_one_problem_with_the_hint(tmp
     # LibreOffice Calc documentation of cell types.)
     import datetime
 
-    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
-    wb = load_workbook(book)
-    wb["demand"]["C2"] = datetime.datetime(2027, 1, 1)
-    wb.save(book)
-    with pytest.raises(InstanceError) as caught:
-        read_workbook(book)
-    assert [str(p) for p in caught.value.problems if not p.is_warning] == [
+    assert [str(p) for p in _problems_with_a_date(tmp_path, "demand", "C2")
+            if not p.is_warning] == [
         "tiny.xlsx[demand]:2: period: the cell holds a date (2027-01-01), not a "
         "period name; type the period name as text, e.g. 2027-Q1 (a spreadsheet reads "
         "2027-01-01 typed in a cell as a date)"]

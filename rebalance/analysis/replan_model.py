@@ -19,6 +19,7 @@ import scipy.sparse as sp
 
 from rebalance.analysis.limits import hire_rows
 from rebalance.analysis.replan_checks import ReplanError, _why_not
+from rebalance.analysis.start_plan import plan_hint
 from rebalance.instance import Instance
 from rebalance.model import ColumnBlock, DetailRoute, Model, RowFamily
 from rebalance.numbers import figures
@@ -83,18 +84,13 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
         lower[col] = upper[col] = value
 
     # -- details: old count per column; fixed before `at` and for runs under way ---------
+    # The old plan's decisions on the model's columns; every unit's members share their
+    # old schedule (replan's pool_key), so a detail column holds the whole unit or none.
+    hint = plan_hint(instance, model, old)
     det = model.blocks["detail"]
-    old_detail = np.zeros(len(det))
-    seen: set[tuple[int, int, int, int]] = set()
-    for j in range(len(det)):
-        u, a, b, t = (int(det.keys[k][j]) for k in ("unit", "home", "office", "period"))
-        rep = staff[model.units[u][0]].person
-        route = details.get(rep, {}).get(t)
-        # home -1: a relocatable person's detail leaves from the home in force, which the
-        # fixed home columns decide; only the destination has to match.
-        if route is not None and route[1] == offices[b] and (a < 0 or route[0] == offices[a]):
-            old_detail[j] = len(model.units[u])
-            seen.add((u, a, b, t))
+    old_detail = hint[det.start:det.stop]
+    seen = {tuple(int(det.keys[k][j]) for k in ("unit", "home", "office", "period"))
+            for j in np.flatnonzero(old_detail)}
     unit_of = {staff[p].person: u for u, members in enumerate(model.units) for p in members}
 
     def under_way(person: str, t: int) -> bool:
@@ -117,7 +113,7 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
                 notes.append(f"detail of {person} in {names[t]} ({src} -> {dst}) was under way "
                              "but the data no longer allow it then; it ends")
     for j in range(len(det)):
-        u, a, b, t = (int(det.keys[k][j]) for k in ("unit", "home", "office", "period"))
+        u, t = int(det.keys["unit"][j]), int(det.keys["period"][j])
         col = det.start + j
         if t < at:
             fix(col, old_detail[j], f"detail {j}")
@@ -129,14 +125,9 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
 
     # -- home columns: 1 from an old reassignment's period on --------------------------------
     home = model.blocks["home"]
-    old_home = np.zeros(len(home))
-    for j in range(len(home)):
-        u, o, t = (int(home.keys[k][j]) for k in ("unit", "office", "period"))
-        move = moves.get(staff[model.units[u][0]].person)
-        if move is not None and move[1] == offices[o] and move[0] <= t:
-            old_home[j] = 1.0
-        if t < at:
-            fix(home.start + j, old_home[j], f"home column {j}")
+    old_home = hint[home.start:home.stop]
+    for past in np.flatnonzero(home.keys["period"] < at):
+        fix(home.start + int(past), old_home[past], f"home column {past}")
     homes = {(int(home.keys["unit"][j]), int(home.keys["office"][j]), int(home.keys["period"][j]))
              for j in range(len(home))}
     for person, (t, dst) in sorted(moves.items()):
@@ -156,12 +147,11 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
     for h in hire_rows(old):
         old_hires[(offices.index(h.office), skills.index(h.skill), ix[h.start_period],
                    int(h.funding == "new"))] += float(h.count)
-    old_hire = np.zeros(len(hire))
+    old_hire = hint[hire.start:hire.stop]
     hire_cols: set[tuple[int, int, int, int]] = set()
     for j in range(len(hire)):
         o, k, s, new = (int(hire.keys[name][j]) for name in ("office", "skill", "period", "new"))
         hire_cols.add((o, k, s, new))
-        old_hire[j] = old_hires.get((o, k, s, new), 0.0)
         if s < at + instance.skills[k].time_to_hire:
             pin_hire(hire.start + j, old_hire[j])
     for (o, k, s, new), n in old_hires.items():
@@ -226,10 +216,6 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
             exprs.append(([col], [1.0], old_hire[j], costs.hire, f"hire column {j}", 2))
     # The old plan's decisions as a first plan to try: at a short limit the search had
     # handed back a plan that changed 105 things and left twice the shortfall of keeping it.
-    hint = np.zeros(model.num_cols)
-    hint[det.start:det.stop] = old_detail
-    hint[home.start:home.stop] = old_home
-    hint[hire.start:hire.stop] = old_hire
     return _with_forced_disruption(
         _with_change_columns(replace(model, col_lower=lower, col_upper=upper, hint=hint), exprs),
         forced)

@@ -79,19 +79,22 @@ def too_large_to_search(model: Model, backend: Backend) -> bool:
 
 
 def stay_put_plan(backend: Backend, model: Model, objective: np.ndarray,
-                  options: SolveOptions, deadline: float,
-                  say: Callable[[str], None]) -> np.ndarray | None:
+                  options: SolveOptions, deadline: float, say: Callable[[str], None],
+                  hint_split: BackendOutcome | None = None) -> np.ndarray | None:
     """The plan that keeps every whole-number decision at its least (nobody moved, nobody
     hired; a re-plan's fixed past kept), with the best work split, or the model's ``hint``
     (a re-plan's old plan) so completed where that is better: None where neither keeps
-    every limit (seats over) or there is no time."""
-    candidates = [("staying put (no moves, no hires)", model.col_lower)]
+    every limit (seats over) or there is no time.  ``hint_split``: the hint so completed
+    for ``objective`` already (:func:`hint_plan`), not worked out again."""
+    candidates: list[tuple[str, np.ndarray | BackendOutcome]] = [
+        ("staying put (no moves, no hires)", model.col_lower)]
     if model.hint is not None and model.hint.size == model.num_cols:
         candidates.insert(0, (f"{model.hint_words}'s moves and hires, work split afresh",
-                              _hint_held(model)))
+                              _hint_held(model) if hint_split is None else hint_split))
     best: tuple[float, np.ndarray] | None = None
     for words, values in candidates:
-        out = work_split_for(backend, model, objective, options, deadline, values)
+        out = (values if isinstance(values, BackendOutcome)
+               else work_split_for(backend, model, objective, options, deadline, values))
         if out is None or out.x is None or out.objective is None:
             continue
         say(f"  {words}: {progress_value(out.objective)}")

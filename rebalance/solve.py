@@ -137,8 +137,13 @@ def solve(model: Model, options: SolveOptions, instance: Instance | None = None)
     else:
         share = options.shares.stage1
     stage1_deadline = started + share * options.time_limit_seconds
+    # The hint's least shortfall is wanted twice (a first plan, then whether the cost stage
+    # may keep it): one LP, shared.
+    hint_split = hint_plan(backend, model, model.shortfall_weight, options,
+                           min(stage1_deadline, time.perf_counter() + HINT_SECONDS))
     first, carried = solve_stage(backend, model, model.shortfall_weight, [], options,
-                                 stage1_deadline, None, say, cost_stage_deadline=deadline)
+                                 stage1_deadline, None, say, cost_stage_deadline=deadline,
+                                 hint_split=hint_split)
     first = settled(model, first, model.shortfall_weight, options.relative_gap)
     stages.append(_stage("shortfall", first))
     if not first.status.has_plan or first.x is None or first.objective is None:
@@ -159,8 +164,8 @@ def solve(model: Model, options: SolveOptions, instance: Instance | None = None)
     # Hold the stage-1 shortfall with a small slack, then minimise cost from its plan.
     held = options.held_shortfall(first.objective)
     start_plan: np.ndarray | None = first.x
-    kept = _hint_within_gap(backend, model, first.objective, stages[-1].bound, options,
-                            deadline, say)
+    kept = _hint_within_gap(model, hint_split, first.objective, stages[-1].bound, options,
+                            say)
     if kept is not None and kept.objective is not None:
         held = options.held_shortfall(kept.objective)
         start_plan = better_plan(model.cost, first.x, kept.x)
@@ -192,20 +197,17 @@ def solve(model: Model, options: SolveOptions, instance: Instance | None = None)
 HINT_SECONDS = 10.0
 
 
-def _hint_within_gap(backend: Backend, model: Model, shortfall: float, bound: float | None,
-                     options: SolveOptions, deadline: float,
+def _hint_within_gap(model: Model, old: BackendOutcome | None, shortfall: float,
+                     bound: float | None, options: SolveOptions,
                      say: Callable[[str], None]) -> BackendOutcome | None:
-    """The model's hint (a re-plan's old plan, a scenario's base plan) with its best work
-    split, where it leaves more weighted shortfall than stage 1's plan (``shortfall``) but
-    is within the gap asked of stage 1's ``bound``: the search cannot tell that difference
-    from where it stopped, so the cost stage may keep the hint (a re-plan of unchanged data
-    had made 15 changes, 52,000 of disruption, for 0.057 of 32.8 weighted shortfall, inside
-    its 0.99% gap).  None otherwise."""
-    if model.hint is None or bound is None:
-        return None
-    old = hint_plan(backend, model, model.shortfall_weight, options,
-                    min(deadline, time.perf_counter() + HINT_SECONDS))
-    if old is None or old.objective is None or (
+    """``old``, the model's hint (a re-plan's old plan, a scenario's base plan) with its
+    least-shortfall work split (:func:`~rebalance.heuristics.hint_plan`), where it leaves
+    more weighted shortfall than stage 1's plan (``shortfall``) but is within the gap asked
+    of stage 1's ``bound``: the search cannot tell that difference from where it stopped, so
+    the cost stage may keep the hint (a re-plan of unchanged data had made 15 changes,
+    52,000 of disruption, for 0.057 of 32.8 weighted shortfall, inside its 0.99% gap).
+    None otherwise."""
+    if bound is None or old is None or old.objective is None or (
             old.objective <= options.held_shortfall(shortfall)):
         return None
     gap = relative_gap(old.objective, bound)
@@ -325,11 +327,13 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                 extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
                 deadline: float, start: np.ndarray | None, say: Callable[[str], None],
                 carried: CarriedOver = CarriedOver(),
-                cost_stage_deadline: float | None = None) -> tuple[BackendOutcome, CarriedOver]:
+                cost_stage_deadline: float | None = None,
+                hint_split: BackendOutcome | None = None) -> tuple[BackendOutcome, CarriedOver]:
     """One objective: a first plan, then branch and bound from the better of that plan and
     ``start``.  Returns the outcome and what a cost stage after it should know
     (:class:`CarriedOver`), which the cost stage gets back as ``carried``.
-    ``cost_stage_deadline``: a cost stage follows, and ends then.
+    ``cost_stage_deadline``: a cost stage follows, and ends then.  ``hint_split``: the
+    model's hint with its best work split for ``objective``, where already worked out.
 
     The first plan comes from the LP relaxation and a rounding neighbourhood search, or, on
     models above ``LARGE_MODEL_COLUMNS`` columns with a backend that reruns cheaply, from
@@ -355,7 +359,7 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
     # The plan that moves and hires no one is always at hand where it is feasible: no plan
     # handed back may be worse than it (the demo at 2 s had ended at 412.5 where staying
     # put leaves 314.6), and branch and bound with nothing better starts from it.
-    floor = (stay_put_plan(backend, model, objective, options, deadline, say)
+    floor = (stay_put_plan(backend, model, objective, options, deadline, say, hint_split)
              if start is None and not extra_rows and model.num_integer
              and model.num_cols <= STAY_PUT_MAX_COLUMNS else None)
     with ThreadPoolExecutor(max_workers=1) as side:

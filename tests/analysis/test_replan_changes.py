@@ -5,6 +5,7 @@ from __future__ import annotations
 import shutil
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 from rebalance import options_from_instance, read_instance
@@ -79,4 +80,36 @@ def test_no_change_is_made_for_less_shortfall_than_the_gap_asked(tmp_path: Path)
     stage = loose.result.solve.stages[0]
     assert stage.objective == pytest.approx(kept, rel=1e-9) and stage.gap <= gap
     assert "keeps the old plan's shortfall" in stage.solver_words
+    shutil.rmtree(folder)
+
+
+def test_the_old_plans_least_shortfall_is_worked_out_once(tmp_path: Path,
+                                                         monkeypatch: pytest.MonkeyPatch) -> None:
+    # The old plan's moves and hires with their least-shortfall work split are a first plan
+    # for stage 1 and, after it, the test of whether the cost stage may keep the old plan's
+    # shortfall: one LP for both (it had been solved twice in every re-plan).
+    import sys
+
+    heuristics = sys.modules["rebalance.heuristics"]
+    real = heuristics.work_split_for
+    hint_splits: list[float] = []
+
+    def counted(backend, model, objective, options, deadline, values):  # type: ignore[no-untyped-def]
+        out = real(backend, model, objective, options, deadline, values)
+        if (model.hint is not None and objective is model.shortfall_weight
+                and np.array_equal(values, heuristics._hint_held(model))):
+            hint_splits.append(float("nan") if out is None else float(out.objective))
+        return out
+
+    monkeypatch.setattr(heuristics, "work_split_for", counted)
+    folder = write_generated(generate(GeneratorSpec(staff=40, offices=3, skills=2, periods=6,
+                                                    seed=1)), tmp_path / "g1")
+    instance = read_instance(folder)
+    options = options_from_instance(instance, relative_gap=0.05, time_limit_seconds=20)
+    old = make_plan(instance, options)
+    assert old.plan is not None and old.verified
+    assert hint_splits == []  # no old plan, no hint
+    again = replan(instance, old.plan, 2, options)
+    assert again.result.verified
+    assert len(hint_splits) == 1
     shutil.rmtree(folder)

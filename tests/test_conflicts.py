@@ -46,6 +46,11 @@ def _seats_short_with_moves(moves: float, share: float = 0.5) -> Instance:
                                  policy=Policy(max_away_share=share))
 
 
+def _tiny_with_one_seat() -> Instance:
+    instance = read_instance(DATA / "tiny")
+    return instance.with_changes(offices=tuple(replace(o, seats=1) for o in instance.offices))
+
+
 def _conflicts(instance: Instance) -> tuple[str, ...]:
     result = make_plan(instance, options_from_instance(instance, relative_gap=0.0))
     assert result.status is Status.INFEASIBLE and result.plan is None
@@ -120,10 +125,7 @@ def test_the_other_ways_out_that_resolve_it_are_each_named():
 def test_where_only_seats_would_do_there_is_no_other_way_out_and_that_is_said():
     # tiny with one seat at each office (tests/test_solvers.py: 7 seat-periods over, counted
     # by hand): both offices are full, so no move, budget or share frees a seat.
-    instance = read_instance(DATA / "tiny")
-    instance = instance.with_changes(offices=tuple(replace(o, seats=1)
-                                                   for o in instance.offices))
-    conflicts = _conflicts(instance)
+    conflicts = _conflicts(_tiny_with_one_seat())
     assert conflicts[0] == ONE_WAY_HEADING
     assert conflicts[1].startswith("(a) seats: 7 seat-periods short in all, across ")
     assert not _ways(conflicts)
@@ -201,3 +203,42 @@ def test_the_command_line_lists_the_ways_out(tmp_path, capsys):
     assert "but moving them costs money the moves budget 2027 (0) does not have" in out
     assert (f"    - (b) raise the moves budget 2027 from 0 to {MOVES_NEEDED:,}, keeping every "
             "other limit") in out
+
+
+class _CountingHighs:
+    """HiGHS, counting its whole-number runs; ``reruns_cheaply`` False makes every kind
+    alone a search (CBC's way), the reference for what an LP first may leave out."""
+
+    name = "highs"
+
+    def __init__(self, reruns_cheaply: bool) -> None:
+        self.inner, self.reruns_cheaply, self.searches = HighsBackend(), reruns_cheaply, 0
+
+    def version(self) -> str:
+        return self.inner.version()
+
+    def run(self, model, objective, extra_rows, options, time_limit, start):
+        self.searches += bool(model.num_integer)
+        return self.inner.run(model, objective, extra_rows, options, time_limit, start)
+
+
+@pytest.mark.parametrize(("case", "searches"), [
+    # The least total, then (NOTE.md's counts above) the moves budget alone, a way out.
+    (lambda: _seats_short_with_moves(0.0), 2),
+    # The least total, then the away share and the moves budget, each a way out.
+    (lambda: _seats_short_with_moves(MOVES_NEEDED - 5_000), 3),
+    # Only the least total: the share alone and the money alone are infeasible as LPs.
+    (lambda: _seats_short_with_moves(10_000, share=0.25), 1),
+    # Only the least total: both offices full, no other kind frees a seat, even in the LP.
+    (_tiny_with_one_seat, 1),
+], ids=["moves 0", "moves 55,000", "share 0.25", "tiny one seat"])
+def test_a_kind_the_lp_rules_out_is_not_searched_and_the_lines_are_the_searches(case,
+                                                                                 searches):
+    # Reference: every kind alone searched as a whole-number model (before LPs first).
+    instance = case()
+    model = build_model(instance)
+    lp_first, searched_only = _CountingHighs(True), _CountingHighs(False)
+    options = SolveOptions(relative_gap=0.0)
+    assert (find_conflicts(model, lp_first, options, 20.0, instance)
+            == find_conflicts(model, searched_only, options, 20.0, instance))
+    assert lp_first.searches == searches

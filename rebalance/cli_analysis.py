@@ -125,12 +125,8 @@ def _say_gaps(table: pd.DataFrame) -> None:
 def cmd_compare(args: argparse.Namespace) -> int:
     from rebalance.analysis.output import write_tables
     from rebalance.analysis.reasons import reasons
-    from rebalance.analysis.scenarios import (
-        ScenarioError,
-        compare_scenarios,
-        folder_name,
-        read_scenarios,
-    )
+    from rebalance.analysis.scenario_files import ScenarioError, folder_name, read_scenarios
+    from rebalance.analysis.scenarios import compare_scenarios
     from rebalance.plan import write_plan
     from rebalance.planning import summary_dict
     from rebalance.report.analysis_words import FROM_BASE_WORDS, scenario_lines, status_in_words
@@ -227,7 +223,7 @@ def cmd_replan(args: argparse.Namespace) -> int:
         return _unreadable_plan(folder, exc)
     scenario_name: str | None = None
     if args.scenario:
-        from rebalance.analysis.scenarios import ScenarioError, apply_scenario, read_scenario
+        from rebalance.analysis.scenario_files import ScenarioError, apply_scenario, read_scenario
 
         try:
             applied = read_scenario(args.scenario, instance)
@@ -401,7 +397,7 @@ def cmd_marginal(args: argparse.Namespace) -> int:
                              Steps(budget=args.budget_step), workers=args.workers,
                              max_resolves=args.max_resolves)
     if len(values.table):
-        from rebalance.report.analysis_view import step_words
+        from rebalance.report.analysis_charts import step_words
 
         # The limit in words ("hiring budget 2027"); the CSV keeps its codes beside them.
         shown = values.table[["rank", "limit_in_words", "step", "shortfall_reduction",

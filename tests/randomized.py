@@ -103,3 +103,15 @@ def everyone_moves(instance: Instance) -> Instance:
     """``instance`` with every person allowed to go on detail and to be relocated."""
     return instance.with_changes(staff=tuple(replace(p, can_relocate=True, can_detail=True)
                                              for p in instance.staff))
+
+
+def with_twins(instance: Instance, copies: int = 2) -> Instance:
+    """Add interchangeable copies of each person, so the pooled model has real groups."""
+    staff = []
+    for person in instance.staff:
+        staff.append(person)
+        for i in range(copies):
+            staff.append(replace(person, person=f"{person.person}-twin{i}"))
+    offices = tuple(replace(o, seats=None if o.seats is None else o.seats * (copies + 1))
+                    for o in instance.offices)
+    return instance.with_changes(staff=tuple(staff), offices=offices)

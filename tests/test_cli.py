@@ -443,7 +443,7 @@ def test_marginal_prints_each_step_with_its_unit(tmp_path, capsys):
     out = capsys.readouterr().out
     table = pd.read_csv(tmp_path / "m" / "marginal_values.csv")
     assert len(table)
-    from rebalance.report.analysis_view import step_words
+    from rebalance.report.analysis_charts import step_words
 
     for step, unit in zip(table["step"], table["unit"], strict=True):
         words = step_words(float(step), str(unit), "EUR")

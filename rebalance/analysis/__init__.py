@@ -8,14 +8,13 @@ returning frozen dataclasses holding DataFrames; nothing here prints or writes f
 from rebalance.analysis.frontier import BudgetGrid, Frontier, budget_frontier, parse_grid
 from rebalance.analysis.limits import LimitUse, limit_use
 from rebalance.analysis.replan import DisruptionCosts, Replan, ReplanError, replan
-from rebalance.analysis.scenarios import (
-    Comparison,
+from rebalance.analysis.scenario_files import (
     Scenario,
     ScenarioError,
     apply_scenario,
-    compare_scenarios,
     read_scenario,
 )
+from rebalance.analysis.scenarios import Comparison, compare_scenarios
 
 __all__ = [
     "BudgetGrid",

@@ -31,7 +31,7 @@ from rebalance.numbers import (
     share_text,
 )
 from rebalance.planning import BUILD_STAGE
-from rebalance.report import analysis_view
+from rebalance.report import analysis_charts, analysis_view
 from rebalance.report.chart_data import (
     chart_payload,
     new_position_salaries,
@@ -310,7 +310,7 @@ def _detail_runs(data: ReportData) -> list[list[Any]]:
 
 def _comparison_names(data: ReportData) -> list[str]:
     """The scenarios of a comparison page (a scenarios table beside the plan), else []."""
-    return analysis_view.scenario_names(data.scenarios) if data.scenarios is not None else []
+    return analysis_charts.scenario_names(data.scenarios) if data.scenarios is not None else []
 
 
 # On a comparison page the plan's own sections show the base plan only; their headings say

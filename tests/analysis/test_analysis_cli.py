@@ -130,7 +130,7 @@ def test_compare_writes_each_scenario_a_report_of_its_own(tmp_path: Path) -> Non
     # base instance said "FAILED independent verification".  By hand from tests/data/tiny's
     # budget.csv (2027: hiring 40,000, moves 30,000): the base allows 70,000; this scenario's
     # hiring_add of 60,000 makes it 130,000.
-    from rebalance.analysis.scenarios import apply_scenario, read_scenario
+    from rebalance.analysis.scenario_files import apply_scenario, read_scenario
     from rebalance.report.analysis_words import FROM_BASE_WORDS as FROM_BASE_NOTE
 
     scenario = tmp_path / "surge.toml"

@@ -20,10 +20,10 @@ from rebalance.analysis.marginal import (
     Candidate,
     Steps,
     binding_candidates,
-    lp_row_duals,
     marginal_values,
     resolve_choice,
 )
+from rebalance.analysis.marginal_estimate import lp_row_duals
 from rebalance.instance import Budget, Instance
 from rebalance.model import Model, build_model, without_rounded_rows
 

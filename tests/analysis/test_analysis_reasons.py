@@ -13,7 +13,7 @@ from hypothesis import strategies as st
 from rebalance.analysis.limits import LimitUse
 from rebalance.analysis.reasons import _describe, reasons
 from rebalance.analysis.replan import replan
-from rebalance.analysis.scenarios import DemandChange, Scenario, apply_scenario
+from rebalance.analysis.scenario_files import DemandChange, Scenario, apply_scenario
 from rebalance.instance import Budget, Demand, Instance
 from rebalance.plan import Plan
 

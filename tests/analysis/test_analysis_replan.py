@@ -22,7 +22,7 @@ from rebalance.analysis.replan import (
     work_split_changes,
 )
 from rebalance.analysis.replan_checks import _expected
-from rebalance.analysis.scenarios import DemandChange, Scenario, apply_scenario
+from rebalance.analysis.scenario_files import DemandChange, Scenario, apply_scenario
 from rebalance.instance import Budget, Instance
 from rebalance.plan import Plan, coverage_table
 from rebalance.verify import Violation

@@ -12,15 +12,14 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from rebalance import options_from_instance, read_instance
-from rebalance.analysis.scenarios import (
-    ACTION_COLUMNS,
+from rebalance.analysis.scenario_files import (
     DemandChange,
     Scenario,
     ScenarioError,
     apply_scenario,
-    compare_scenarios,
     read_scenario,
 )
+from rebalance.analysis.scenarios import ACTION_COLUMNS, compare_scenarios
 from rebalance.plan import PLAN_TABLES, Plan
 
 DEMO_SCENARIOS = ROOT / "instances" / "demo_scenarios"
@@ -161,7 +160,7 @@ def test_each_scenario_line_says_where_demand_landed_how_much_is_covered_and_the
         tiny) -> None:
     from analysis_helpers import exact_options
 
-    from rebalance.analysis.scenarios import BudgetChange
+    from rebalance.analysis.scenario_files import BudgetChange
     from rebalance.report.analysis_words import scenario_lines
 
     surge = Scenario("b-rush", "review rush at B",
@@ -309,7 +308,8 @@ def test_in_every_scenario_needs_two_scenarios_and_the_same_change() -> None:
 
 
 def test_changed_periods_of_demand_and_of_budget_scenarios(tiny) -> None:
-    from rebalance.analysis.scenarios import BudgetChange, changed_periods
+    from rebalance.analysis.scenario_files import BudgetChange
+    from rebalance.analysis.scenarios import changed_periods
 
     # tests/data/tiny: four periods, 2027-Q1 to 2027-Q4, all in budget year 2027.
     assert changed_periods(tiny, Scenario("s", "", (DemandChange(None, None, (3,), 2.0),
@@ -329,7 +329,7 @@ def test_tiny_comparison_marks_common_changes_and_budget_years(tiny) -> None:
     # periods, so every row is "during".
     from analysis_helpers import exact_options
 
-    from rebalance.analysis.scenarios import BudgetChange
+    from rebalance.analysis.scenario_files import BudgetChange
 
     surge = (DemandChange(("B",), ("review",), (2,), add_fte=1.0),)
     cut = Scenario("no-hiring", "", (), (BudgetChange(("2027",), hiring_add=-40_000.0),))

@@ -16,9 +16,10 @@ from conftest import DATA, scipy_lp, scipy_milp, solve_verified
 from randomized import random_instance
 from test_analysis_marginal import _relaxed_by_hand, _short_at_b
 
-import rebalance.analysis.marginal as marginal
+import rebalance.analysis.marginal_estimate as marginal_estimate
 from rebalance import make_plan, read_instance
-from rebalance.analysis.marginal import Steps, _rows_of, lp_row_duals, marginal_values
+from rebalance.analysis.marginal import Steps, marginal_values
+from rebalance.analysis.marginal_estimate import _rows_of, lp_row_duals
 from rebalance.instance import Budget, Instance
 from rebalance.model import Model, build_model, without_rounded_rows
 
@@ -138,7 +139,7 @@ def test_without_time_for_the_re_solves_the_duals_price_a_bound_held_limit(
     # columns read from the one model built with every max_hires candidate relaxed.
     # Reference: scipy's linprog on the boxed LP before and after the relaxation, built for
     # it alone; the step stays within the basis' range here, so the two agree.
-    monkeypatch.setattr(marginal, "_relaxed_lp", lambda *args: None)
+    monkeypatch.setattr(marginal_estimate, "_relaxed_lp", lambda *args: None)
     instance = _short_at_b(read_instance(DATA / "tiny"), b_hires)
     base = solve_verified(instance)
     assert base.plan is not None and base.solve.x is not None

@@ -10,7 +10,7 @@ from pathlib import Path
 import pytest
 from conftest import DATA, ROOT
 
-from rebalance.analysis.scenarios import (
+from rebalance.analysis.scenario_files import (
     ScenarioError,
     apply_scenario,
     read_scenario,

@@ -17,13 +17,8 @@ from analysis_helpers import exact_options
 from test_brute_force import brute_force
 
 from rebalance import read_instance
-from rebalance.analysis.scenarios import (
-    DemandChange,
-    Scenario,
-    apply_scenario,
-    compare_scenarios,
-    solve_many,
-)
+from rebalance.analysis.scenario_files import DemandChange, Scenario, apply_scenario
+from rebalance.analysis.scenarios import compare_scenarios, solve_many
 from rebalance.analysis.start_plan import named_like
 from rebalance.instance import Instance
 from rebalance.plan import Plan

@@ -63,7 +63,8 @@ def frontier_table(instance: Instance) -> pd.DataFrame:
 
 
 def _comparison(instance: Instance):  # type: ignore[no-untyped-def]
-    from rebalance.analysis.scenarios import DemandChange, Scenario, compare_scenarios
+    from rebalance.analysis.scenario_files import DemandChange, Scenario
+    from rebalance.analysis.scenarios import compare_scenarios
 
     surges = [Scenario("surge at B +50%", "half as much work again at B",
                        (DemandChange(("B",), None, None, multiplier=1.5),)),

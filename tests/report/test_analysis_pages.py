@@ -160,7 +160,7 @@ def test_rebalance_replan_writes_a_page_that_names_its_period(tmp_path):
 
 
 def test_a_step_is_written_with_its_unit_as_people_write_it():
-    from rebalance.report.analysis_view import step_words
+    from rebalance.report.analysis_charts import step_words
 
     assert step_words(1_000_000.0, "money") == "+1,000,000 money"  # not +1e+06
     assert step_words(0.05, "share of people") == "+0.05 share of people"
@@ -175,7 +175,7 @@ def test_a_step_is_written_with_its_unit_as_people_write_it():
 
 def test_a_unit_s_singular_is_given_not_guessed_and_every_limit_kind_has_one():
     from rebalance.analysis.marginal import STEP_UNITS  # marginal.py writes the units
-    from rebalance.report.analysis_view import step_words
+    from rebalance.report.analysis_charts import step_words
 
     # The singular had been derived by cutting letters; a unit the table's writer adds later
     # is now kept as written rather than guessed at.
@@ -187,7 +187,7 @@ def test_a_unit_s_singular_is_given_not_guessed_and_every_limit_kind_has_one():
 
 
 def test_the_measured_rows_are_worked_out_once_for_chart_and_caption():
-    from rebalance.report.analysis_view import _marginal, _marginal_table, _marginal_words
+    from rebalance.report.analysis_charts import _marginal, _marginal_table, _marginal_words
 
     table = _marginal_table(demo_marginal_table())
     assert table is not None

@@ -110,7 +110,7 @@ def test_analysis_sections_name_the_currency_of_money_steps_and_metrics():
 
 
 def test_a_frontier_names_the_currency_of_its_budget_axis_unless_the_grid_is_factors(tmp_path):
-    from rebalance.report.analysis_view import _frontier
+    from rebalance.report.analysis_charts import _frontier
 
     frame = pd.DataFrame({"point": [1, 2], "hiring_budget": [0.0, 10_000.0],
                           "moves_budget": [5_000.0, 5_000.0],

@@ -241,5 +241,6 @@ def test_a_replans_cost_stage_says_its_gap_includes_disruption_cost():
 # 12. The page still called an estimate "a linear approximation", made by LP re-solves now.
 
 def test_the_marginal_estimate_is_not_called_linear():
-    for path in ("rebalance/report/analysis_view.py", "rebalance/report/assets/report.js"):
+    for path in ("rebalance/report/analysis_view.py", "rebalance/report/analysis_charts.py",
+                 "rebalance/report/assets/report.js"):
         assert "linear" not in (ROOT / path).read_text(), path

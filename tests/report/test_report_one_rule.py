@@ -31,7 +31,8 @@ from rebalance.numbers import (
     share_text,
 )
 from rebalance.planning import PlanResult
-from rebalance.report.analysis_view import _frontier, _gap_note, _scenarios
+from rebalance.report.analysis_charts import _frontier, _scenarios
+from rebalance.report.analysis_view import _gap_note
 from rebalance.report.chart_data import chart_payload
 from rebalance.report.console import budget_note, format_frame, format_outcome, format_summary
 from rebalance.report.html import render_html

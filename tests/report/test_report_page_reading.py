@@ -17,7 +17,8 @@ import pandas as pd
 from report_cases import TINY, demo_tables_folder, page_payload, page_text, tiny_plan_folder
 
 from rebalance import read_instance
-from rebalance.report.analysis_view import KNEE_MIN_POINTS, _frontier, analysis_payload
+from rebalance.report.analysis_charts import KNEE_MIN_POINTS, _frontier
+from rebalance.report.analysis_view import analysis_payload
 from rebalance.report.html import render_html
 from rebalance.report.inputs import report_data_from_folder
 

@@ -467,7 +467,7 @@
       marks++;
       s.points.forEach(function (p) {
         // Among fewer than four points any line bends somewhere: a "knee" there says nothing
-        // about where money starts to buy less (analysis_view clears it too).
+        // about where money starts to buy less (analysis_charts clears it too).
         if (p.knee && s.points.length >= 4) {
           el("circle", { cx: x(p.x), cy: y(p.y), r: 10, fill: "none", stroke: C.amber, "stroke-width": 3 }, g);
           label(g, x(p.x) + 13, y(p.y) - 10, "knee", { "class": "title" });

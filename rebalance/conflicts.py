@@ -63,11 +63,14 @@ def seat_words(instance: Instance, money_short: Mapping[str, str] | None = None
     the people based there, in plain words: a conflict of seats had named the row only, not
     how far the people outnumber the seats.  Where they do, how many must be away or moved
     and how many at most may be (``Instance.seat_counts``: the numbers of the warning of
-    ``rebalance check``).  ``money_short`` (year -> "moves budget 2027 (0)") names the moves
-    budgets that, raised alone, are a way out: where the rules let enough people go, it is
-    that money that stops them ("at most 3 may be" had read as no conflict at all)."""
+    ``rebalance check``), and where the consecutive-detail limit keeps too few away over a
+    run of periods, that (``Instance.seat_windows``).  ``money_short`` (year -> "moves
+    budget 2027 (0)") names the moves budgets that, raised alone, are a way out: where the
+    rules let enough people go, it is that money that stops them ("at most 3 may be" had
+    read as no conflict at all)."""
     names = instance.period_names
     limits = ", ".join(instance.away_limits())
+    windows = {w.office: w for w in instance.seat_windows()}
     out = {}
     for c in instance.seat_counts():
         said = f"{_people(c.seats, 'seat')} for {_people(c.based, 'person')} based there"
@@ -75,8 +78,13 @@ def seat_words(instance: Instance, money_short: Mapping[str, str] | None = None
             may = f"at most {c.may_go} may be" if c.may_go else "none may be"
             said += f"; {c.must_go} must be away or moved, and {may} away or moved"
             budget = (money_short or {}).get(instance.periods[c.period].year)
+            window = windows.get(c.office)
             if c.too_few_may_go:
                 said += f" ({limits})"
+            elif window is not None and window.first <= c.period <= window.last:
+                # Each period alone lets enough go ("2 must, at most 2 may" beside "over by
+                # 1" had read as a contradiction): not all of them together.
+                said += f" then, but not in every period: {window.words(names)}"
             elif budget is not None:
                 said += (f" under the rules, but moving them costs money the {budget} "
                          "does not have")

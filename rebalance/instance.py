@@ -10,7 +10,7 @@ them so the two cannot drift apart on what a column means.
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any, Literal, NoReturn
 
@@ -165,6 +165,30 @@ class SeatCount:
     def too_few_may_go(self) -> bool:
         """No plan can keep the seats: fewer may go than must."""
         return self.may_go < self.must_go
+
+
+@dataclass(frozen=True)
+class SeatWindow:
+    """Periods ``first`` to ``last`` (indices), as many as a person may be away on detail in
+    a row plus one, in which an office's seats need more person-periods away than any plan
+    can have: one that is on detail in each of them is back in one (the consecutive-detail
+    limit), though any period alone may look possible (:class:`SeatCount`)."""
+
+    office: str
+    first: int
+    last: int
+    must_go: int  # person-periods beyond the seats over the window
+    may_go: int  # the most person-periods away any plan can have then
+
+    def words(self, period_names: Sequence[str]) -> str:
+        """Why too few may be away, in the words of the input: 'in 2027-Q1 to 2027-Q3, 6
+        person-periods must be away and at most 5 may be (max_consecutive_detail_periods =
+        2: a person on detail is back 1 period in any 3)'."""
+        m = self.last - self.first
+        return (f"in {period_names[self.first]} to {period_names[self.last]}, {self.must_go} "
+                f"person-periods must be away and at most {self.may_go} may be "
+                f"(max_consecutive_detail_periods = {m}: a person on detail is back 1 period "
+                f"in any {m + 1})")
 
 
 class FrozenMap(dict[Any, Any]):
@@ -334,6 +358,40 @@ class Instance:
                                                                         detailable))
                      for name, seats in seated.items()
                      for t, (based, relocatable, detailable) in enumerate(counts[name]))
+
+    def seat_windows(self) -> tuple[SeatWindow, ...]:
+        """Where the consecutive-detail limit alone keeps too few away over a run of periods
+        (:class:`SeatWindow`), first per office.  Each period's count (:meth:`seat_counts`)
+        may let enough go, yet a person detailed out must be back one period in every
+        ``m + 1``: over such a window the most away is every relocatable person's periods
+        present, and of the others the fewer of the periods' share caps and each person's
+        ``m`` periods (at most, so this never says too few wrongly)."""
+        m = self.policy.max_consecutive_detail_periods
+        T = len(self.periods)
+        if not m or m + 1 > T or len(self.offices) < 2:
+            return ()
+        counts: dict[str, list[SeatCount]] = {}
+        for c in self.seat_counts():
+            counts.setdefault(c.office, []).append(c)
+        out = []
+        for office, by_period in counts.items():
+            based = [p for p in self.staff if p.home_office == office]
+            for first in range(T - m):
+                window = by_period[first:first + m + 1]
+                must = sum(c.must_go for c in window)
+                if not must:
+                    continue
+                relocatable = [sum(p.is_present(c.period) for p in based if p.can_relocate)
+                               for c in window]
+                # Detailed, not relocatable: each period's share cap, each person's m.
+                by_share = sum(c.may_go - r for c, r in zip(window, relocatable, strict=True))
+                by_person = sum(min(sum(p.is_present(c.period) for c in window), m)
+                                for p in based if p.can_detail and not p.can_relocate)
+                may = sum(relocatable) + min(by_share, by_person)
+                if may < must:
+                    out.append(SeatWindow(office, first, first + m, must, may))
+                    break
+        return tuple(out)
 
     def seat_shortages(self) -> tuple[SeatCount, ...]:
         """The :meth:`seat_counts` where the people based at an office outnumber its seats:

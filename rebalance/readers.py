@@ -25,6 +25,7 @@ from rebalance.instance import (
     Period,
     Person,
     SeatCount,
+    SeatWindow,
     Skill,
 )
 from rebalance.problems import Problem, range_words
@@ -237,40 +238,48 @@ def _data_warnings(instance: Instance, office_rows: Mapping[str, int]) -> list[P
     seat_counts: dict[str, list[SeatCount]] = {}
     for count in instance.seat_counts():
         seat_counts.setdefault(count.office, []).append(count)
+    windows = {w.office: w for w in instance.seat_windows()}
     for office in instance.offices:
         if office.name not in homes:
             out.append(Problem("offices.csv", office_rows.get(office.name), "office",
                                f"nobody on staff is based at '{office.name}'",
                                is_warning=True))
         elif office.name in seat_counts:
-            said = _seats_too_few(instance, seat_counts[office.name])
+            said = _seats_too_few(instance, seat_counts[office.name],
+                                  windows.get(office.name))
             if said:
                 out.append(Problem("offices.csv", office_rows.get(office.name), "seats", said,
                                    is_warning=True))
     return out
 
 
-def _seats_too_few(instance: Instance, counts: list[SeatCount]) -> str | None:
+def _seats_too_few(instance: Instance, counts: list[SeatCount],
+                   window: SeatWindow | None = None) -> str | None:
     """Where the people based at an office in each period (``counts``, one per period, from
     :meth:`Instance.seat_counts`) outnumber its seats, how many must be away, and whether
-    enough may go (docs/model.md, seats: hires and details in only take seats)."""
+    enough may go (docs/model.md, seats: hires and details in only take seats), in each
+    period or, held back by the consecutive-detail limit, over a ``window`` of them
+    (:meth:`Instance.seat_windows`)."""
     names = instance.period_names
     over = [c for c in counts if c.must_go]
     if not over:
         return None
     office, seats = over[0].office, over[0].seats
     first, more = over[0], len(over) - 1
+    seat_count = f"{seats} seat{'s' * (seats != 1)}"
     if more and all(c.based == first.based for c in over):
         said = (f"'{office}' has {first.based} people based there in {names[first.period]} "
-                f"(and {more} more period{'s' * (more > 1)}) for {seats} seats: at least "
+                f"(and {more} more period{'s' * (more > 1)}) for {seat_count}: at least "
                 f"{first.must_go} must be away each period (detailed out or reassigned)")
     else:
         later = (f", and more than {seats} in {more} more period{'s' * (more > 1)}"
                  if more else "")
         said = (f"'{office}' has {first.based} people based there in {names[first.period]} "
-                f"for {seats} seats{later}: at least {first.must_go} must be away then "
+                f"for {seat_count}{later}: at least {first.must_go} must be away then "
                 "(detailed out or reassigned)")
     short = next((c for c in over if c.too_few_may_go), None)
+    if short is None and window is not None:
+        return f"{said}; {window.words(names)}: no plan can keep its seats"
     if short is None:
         return said
     why = ", ".join(instance.away_limits())

@@ -30,7 +30,7 @@ lint: $(STAMP)
 	$(BIN)/ruff check rebalance tests benchmarks notebooks
 	$(BIN)/mypy rebalance
 
-# Generates each size, solves it with both backends (one case at a time, one thread) and
+# Generates each size, solves it with both backends (one case at a time, two solver threads) and
 # rewrites benchmarks/results/<date>.csv and docs/benchmarks.md.  Takes minutes, not seconds.
 BENCH_ARGS ?= --sizes small,medium
 bench: $(STAMP)

@@ -202,8 +202,9 @@ def test_a_plan_found_by_a_child_before_the_kill_is_scored_and_kept(monkeypatch)
 
 def test_a_small_mip_run_that_does_not_stop_is_killed_at_the_wall_clock(monkeypatch):
     # Size is no guard: HiGHS 1.16 ran on for over 13 minutes past a 1,500 s limit in the
-    # presolve of a restart on a 10k-column model (benchmarks/notes.md, ninth session).  A
-    # Python sleep stands in for the solver that does not give control back.
+    # presolve of a restart on a 10k-column model (benchmarks/notes.md, "2026-12-03: how far
+    # the plans are from the optimum").  A Python sleep stands in for the solver that does not
+    # give control back.
     import time
 
     from conftest import DATA

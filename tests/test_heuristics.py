@@ -388,7 +388,8 @@ def test_models_with_relocatable_people_per_destination_take_the_passes_sooner(t
     # Past ten offices relocatable people's details are written per destination, and the
     # LP relaxation of such a model is slow for its size (a 20,672-column one was not done in
     # 14 s and gave no plan in 60 s), so from 10,000 columns it takes the passes.  Measured
-    # in benchmarks/notes.md (fifteenth session); this checks the wiring.
+    # in benchmarks/notes.md ("2026-12-04: office groups to the end of a mid-size stage");
+    # this checks the wiring.
     from rebalance.backends import CbcBackend, HighsBackend
     from rebalance.generate import GeneratorSpec, generate, write_generated
     from rebalance.model import build_model

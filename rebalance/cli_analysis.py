@@ -355,8 +355,10 @@ def cmd_frontier(args: argparse.Namespace) -> int:
     print(f"\nwrote {path}")
     from rebalance.planning import CAUTION
 
-    # Each point is a plan a leader may read a budget decision off: the same caution.
-    print("\nCaution: " + CAUTION)
+    # Each point is a plan a leader may read a budget decision off: the same caution, where
+    # there is a plan at all.
+    if len(planless) < len(frontier.results):
+        print("\nCaution: " + CAUTION)
     if planless and len(planless) == len(frontier.results):
         _err(f"no budget point gave a plan ({_counted(planless)}); {path} lists each "
              "point's status")

@@ -350,8 +350,11 @@ def _read_skills(table: RawTable, problems: list[Problem]) -> dict[str, Skill]:
                 break
             ramp.append(value)
         # Registered even when another cell is wrong, as offices are (0 stands in for a
-        # number that could not be read: the instance is not built while a problem stands).
-        if _unique(rows, "skill", name, seen) and name is not None:
+        # number that could not be read: the instance is not built while a problem stands);
+        # not when the name itself is, which other files' unknown names had been told they
+        # might mean ("unknown skill 'review' (did you mean 're view'?)").
+        if (_unique(rows, "skill", name, seen) and name is not None
+                and SKILL_NAME.match(name)):
             out[name] = Skill(name, salary or 0.0, onboarding or 0.0, int(time_to_hire or 0),
                               tuple(ramp))
     return out
@@ -431,8 +434,12 @@ def _read_demand(table: RawTable, problems: list[Problem], offices: Mapping[str,
     period_index = {p.name: i for i, p in enumerate(periods)}
     # The horizon is often start and count, not a list: name its ends, so "listed in
     # settings.toml" is not sought there in vain.
-    periods_defined = (f"settings.toml ({periods[0].name} to {periods[-1].name})" if periods
-                       else "settings.toml")
+    if not periods:
+        periods_defined = "settings.toml"
+    elif len(periods) == 1:
+        periods_defined = f"settings.toml ({periods[0].name})"
+    else:
+        periods_defined = f"settings.toml ({periods[0].name} to {periods[-1].name})"
     read = 0
     for row in rows:
         read += 1

@@ -352,7 +352,7 @@ def test_the_count_of_problems_includes_the_rows_a_repeat_stands_for(tmp_path, c
 
 
 def test_a_names_table_not_utf8_and_a_huge_integer_are_said_once(tmp_path):
-    # A review of this session's changes: an offices.csv not UTF-8 still drew 13 "unknown
+    # A review: an offices.csv not UTF-8 still drew 13 "unknown
     # office" lines (its problem names the bad line, not row 1), and a 400-digit integer in
     # settings raised OverflowError (an internal error).
     target = overlay(BAD / "empty_demand", tmp_path / "i")
@@ -596,3 +596,30 @@ def test_a_number_in_quotes_is_said_to_be_text(tmp_path):
         'the quotes); expected a number > 0',
         'settings.toml: policy.max_away_share: "0.5" is text in quotes, not a number (remove '
         'the quotes); expected a number from 0 to 1']
+
+
+def test_a_one_period_horizon_is_named_once(tmp_path):
+    # "(2027-Q1 to 2027-Q1)" had named the one period as a span.
+    target = tmp_path / "one"
+    shutil.copytree(DATA / "tiny", target)
+    settings = target / "settings.toml"
+    settings.write_text(settings.read_text().replace("count = 4", "count = 1"))
+    (target / "staff.csv").write_text((target / "staff.csv").read_text().replace(",2027-Q3", ","))
+    demand = target / "demand.csv"
+    demand.write_text("office,skill,period,fte\nA,review,2027-Q1,1\nA,review,2027-Q2,1\n")
+    assert _problems(target) == ["demand.csv:3: period: unknown period '2027-Q2'; expected one "
+                                 "listed in settings.toml (2027-Q1) (did you mean '2027-Q1'?)"]
+
+
+def test_an_unusable_skill_name_is_not_offered_as_what_was_meant(tmp_path):
+    # 're view' cannot be named in staff.csv (skills are separated by spaces): "unknown skill
+    # 'review' (did you mean 're view'?)" pointed at a name no row could use.
+    target = tmp_path / "sk"
+    shutil.copytree(DATA / "tiny", target)
+    skills = target / "skills.csv"
+    skills.write_text(skills.read_text().replace("\nreview,", "\nre view,"))
+    problems = _problems(target)
+    assert problems[0].startswith("skills.csv:2: skill: 're view' is not a usable skill name")
+    assert "staff.csv:2: skills: unknown skill 'review'; expected one listed in skills.csv" in \
+        problems
+    assert not [p for p in problems if "did you mean 're view'" in p]

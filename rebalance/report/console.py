@@ -101,10 +101,16 @@ def budget_note(instance: Instance, costs: pd.DataFrame) -> str:
                 capped, capped_spent, allowed = True, capped_spent + amount, allowed + cap
     if not capped:
         return "no caps set"
+
+    def money(value: float) -> str:
+        # Beside a total that names its currency, so must the amounts here ("43,000 EUR (of
+        # 70,000 allowed)" had left it to be guessed).
+        return instance.money.amount(money_text(value))
+
     if not uncapped:
-        return f"of {money_text(allowed)} allowed"
-    return (f"{money_text(capped_spent)} of {money_text(allowed)} allowed where capped, "
-            f"{money_text(uncapped_spent)} where uncapped")
+        return f"of {money(allowed)} allowed"
+    return (f"{money(capped_spent)} of {money(allowed)} allowed where capped, "
+            f"{money(uncapped_spent)} where uncapped")
 
 
 def counted(number: int, noun: str) -> str:

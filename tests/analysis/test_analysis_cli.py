@@ -259,6 +259,7 @@ def test_a_frontier_with_no_plan_at_any_point_says_so_and_exits_infeasible(tmp_p
     assert done.returncode == EXIT_INFEASIBLE, done.stderr
     assert (f"no budget point gave a plan (2 infeasible); {out / 'frontier.csv'} lists each "
             "point's status") in done.stderr
+    assert "Caution: This plan supports" not in done.stdout  # no plan to caution about
     # The table is still written: that every point was infeasible is the answer.
     frontier = pd.read_csv(out / "frontier.csv")
     assert frontier["status"].tolist() == ["infeasible", "infeasible"]

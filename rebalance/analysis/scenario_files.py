@@ -8,7 +8,7 @@ file format is described in ``docs/instance-format.md`` (section *Scenario files
 from __future__ import annotations
 
 import tomllib
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -199,16 +199,7 @@ def _read(path: str | Path, instance: Instance) -> tuple[Scenario | None, str | 
     skills = [s.name for s in instance.skills]
     periods = list(instance.period_names)
     demand: list[DemandChange] = []
-    for i, entry in enumerate(_tables(raw, "demand", problems, file), 1):
-        at = f"demand[{i}]"
-        if not isinstance(entry, dict):
-            problems.append(Problem(file, None, at, "expected a [[demand]] table"))
-            continue
-        before = len(problems)
-        for key in entry:
-            if key not in DEMAND_KEYS:
-                problems.append(Problem(file, None, f"{at}.{key}", "unknown key; expected "
-                                        + ", ".join(DEMAND_KEYS) + did_you_mean(key, DEMAND_KEYS)))
+    for at, entry, before in _entries(raw, "demand", DEMAND_KEYS, problems, file):
         chosen = _names(entry.get("periods"), periods, "period", f"{at}.periods", problems,
                         file)
         change = DemandChange(
@@ -232,16 +223,7 @@ def _read(path: str | Path, instance: Instance) -> tuple[Scenario | None, str | 
         demand.append(change)
     budget: list[BudgetChange] = []
     years = list(instance.years)
-    for i, entry in enumerate(_tables(raw, "budget", problems, file), 1):
-        at = f"budget[{i}]"
-        if not isinstance(entry, dict):
-            problems.append(Problem(file, None, at, "expected a [[budget]] table"))
-            continue
-        before = len(problems)
-        for key in entry:
-            if key not in BUDGET_KEYS:
-                problems.append(Problem(file, None, f"{at}.{key}", "unknown key; expected "
-                                        + ", ".join(BUDGET_KEYS) + did_you_mean(key, BUDGET_KEYS)))
+    for at, entry, before in _entries(raw, "budget", BUDGET_KEYS, problems, file):
         bchange = BudgetChange(
             years=_names(entry.get("years"), years, "budget year", f"{at}.years", problems,
                          file),
@@ -259,6 +241,24 @@ def _read(path: str | Path, instance: Instance) -> tuple[Scenario | None, str | 
                                 "at least one [[demand]] or [[budget]] table"))
     scenario = Scenario(name, description.strip(), tuple(demand), tuple(budget))
     return (None if problems else scenario), (name if usable else None), problems
+
+
+def _entries(raw: dict[str, Any], key: str, keys: Sequence[str], problems: list[Problem],
+             file: str) -> Iterator[tuple[str, dict[str, Any], int]]:
+    """Each ``[[key]]`` table of a scenario file that is a table, with where it is
+    (``demand[2]``) and the count of ``problems`` before its values are read; its unknown
+    keys are said first."""
+    for i, entry in enumerate(_tables(raw, key, problems, file), 1):
+        at = f"{key}[{i}]"
+        if not isinstance(entry, dict):
+            problems.append(Problem(file, None, at, f"expected a [[{key}]] table"))
+            continue
+        before = len(problems)
+        for name in entry:
+            if name not in keys:
+                problems.append(Problem(file, None, f"{at}.{name}", "unknown key; expected "
+                                        + ", ".join(keys) + did_you_mean(name, keys)))
+        yield at, entry, before
 
 
 def _tables(raw: dict[str, Any], key: str, problems: list[Problem], file: str) -> list[Any]:

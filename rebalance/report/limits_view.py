@@ -133,6 +133,12 @@ def _details_in_a_row(instance: Instance, plan: Plan) -> tuple[str, ...]:
                         for start in range(0, T - m)))
 
 
+def _vacancies_used(plan: Plan) -> float:
+    """Hires the plan fills funded vacancies with, in all."""
+    hires = plan.hires
+    return float(hires.loc[hires["funding"].astype(str) == "vacancy", "count"].sum())
+
+
 def limits_at_cap(instance: Instance, plan: Plan) -> tuple[LimitLine, ...]:
     """Each kind of limit that ``plan`` has at its cap somewhere, in :data:`KIND_WORDS`'s
     order.  A limit counts where it binds (less is left than one more seat, hire, head away,
@@ -171,9 +177,14 @@ def limits_at_cap(instance: Instance, plan: Plan) -> tuple[LimitLine, ...]:
             total = (f"{_counted(len(uses), 'budget year')} with too little left for one "
                      f"more {action}")
         else:  # vacancies: "skill at office", funded over the whole horizon
-            text = "all of them used (" + ", ".join(
-                f"{u.where} {number_text(u.cap)}" for u in uses) + ")"
-            total = f"all of them used at {_counted(len(uses), 'skill-office pair')}"
+            funded = sum(instance.vacancies.values())
+            used = _vacancies_used(plan)
+            # "all of them used" had read as every funded vacancy where some were left.
+            whole = ("all of them" if used >= funded
+                     else f"{number_text(used)} of {number_text(funded)} funded vacancies")
+            listed = ", ".join(f"{u.where} ({number_text(u.cap)})" for u in uses)
+            text = f"used in full: {listed}; {whole} used"
+            total = f"used in full at {_counted(len(uses), 'skill-office pair')}; {whole} used"
         out.append(LimitLine(kind, words, text, tuple((u.where, u.period) for u in uses),
                              total))
     return tuple(out)

@@ -238,3 +238,22 @@ def test_long_limit_text_is_wrapped_then_counted():
     assert " ".join(counted).startswith(f"{total}: port-ilse-central all 8 periods;")
     assert " ".join(counted).endswith("(the page and the workbook list them all)")
     assert len(counted) <= 3 and all(len(line) <= 50 for line in counted)
+
+
+def test_vacancies_used_in_full_are_not_said_to_be_all_of_them(tmp_path):
+    # A reading of the demo: "funded vacancies: all of them used (...)" where 7 of 9 were
+    # (the list named only the pairs used in full).  tiny with 1 funded review vacancy at B,
+    # where its one hire goes (a vacancy's salary is already funded, so it costs less than a
+    # new position), and 2 intake vacancies at A, which wants no hire.
+    import shutil
+
+    target = tmp_path / "tiny"
+    shutil.copytree(TINY, target)
+    (target / "vacancies.csv").write_text("office,skill,count\nB,review,1\nA,intake,2\n")
+    result = _solved(str(target))
+    assert result.plan is not None
+    hires = result.plan.hires
+    assert hires.loc[hires["funding"] == "vacancy", "count"].sum() == 1
+    line = next(line for line in limits_at_cap(result.instance, result.plan)
+                if line.kind == "vacancies")
+    assert line.text == "used in full: review at B (1); 1 of 3 funded vacancies used"

@@ -133,6 +133,25 @@ def _span(names: tuple[str, ...], t1: int, t2: int) -> str:
     return f"in {names[t1]}" if t1 == t2 else f"from {names[t1]} to {names[t2]}"
 
 
+def _gap_words(skill: str, office: str, names: tuple[str, ...], t1: int, t2: int,
+               gap_periods: list[int]) -> str:
+    """Whether ``office``'s own staff and hires leave a ``skill`` gap in each period of a
+    detail run ``t1``..``t2`` (``gap_periods``: those that do), said for the periods it is
+    true of: a run of two had been said to meet a gap in both where its second period was
+    covered already (a reading of the demo's reasons)."""
+    within = [t for t in range(t1, t2 + 1) if t in gap_periods]
+    claim = (f"{skill} demand at {office} exceeds what {office}'s own staff and hires cover "
+             "(people detailed in left out)")
+    if len(within) == t2 - t1 + 1:
+        return f"{claim} {_span(names, t1, t2)}"
+    if within:
+        covered = [names[t] for t in range(t1, t2 + 1) if t not in within]
+        return (f"{claim} in {', '.join(names[t] for t in within)} (not in "
+                f"{', '.join(covered)}, when they cover it)")
+    return (f"{skill} demand at {office} is within what {office}'s own staff and hires cover "
+            f"{_span(names, t1, t2)}")
+
+
 def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> Reasons:
     """Reasons for ``plan``'s actions and shortfalls (see the module docstring).
 
@@ -222,7 +241,7 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
             after = t2 + 1 in gap_periods
             spare = all(ctx.short.get((a, skill, t), 0.0) <= _EPS for t in range(t1, t2 + 1))
             if not before and not after:
-                shape = f"a {n}-{_periods(n)} spike" if n > 1 else "a one-period spike"
+                shape = f"a {n}-period spike" if n > 1 else "a one-period spike"
             elif m and n == m:
                 # Only a run at the limit was cut short by it.
                 shape = (f"part of a longer gap, and details are limited to {m} "
@@ -246,9 +265,15 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
                     source = (f"{short_too}, at priority {number_text(at_a)} against "
                               f"{number_text(at_b)} at {b}: no gain in shortfall visible from this "
                               "detail alone (review)")
-            text = (f"{skill} demand at {b} exceeds what {b}'s own staff and hires cover "
-                    f"(people detailed in left out) {_span(names, t1, t2)}: {shape}, so a "
-                    f"detail {source}")
+            gap_words = _gap_words(skill, b, names, t1, t2, gap_periods)
+            if any(t1 <= t <= t2 for t in gap_periods):
+                text = f"{gap_words}: {shape}, so a detail {source}"
+            else:
+                full = [names[t] for t in range(t1, t2 + 1) if (a, names[t]) in seats_full]
+                text = f"{gap_words}, so the detail meets no gap there" + (
+                    f"; {a}'s seats are full ({', '.join(full)}), and a person away frees a "
+                    "seat there" if full else "; no gain visible from this detail alone "
+                    "(review)")
         if idle and not (replanned_at is not None and t2 < replanned_at):
             under_way = replanned_at is not None and t1 < replanned_at <= t2
             text += (f"; idle in {', '.join(names[t] for t in idle)} (no work for them there "

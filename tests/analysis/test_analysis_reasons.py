@@ -279,3 +279,32 @@ def test_a_shortfall_citing_one_limit_in_many_periods_counts_once_under_it() -> 
          "shortfalls": 1, "shortfall_fte_periods": 1.0, "to_review": 0},
         {"office": "B", "hires": 2, "detail_runs": 1, "detail_periods": 2, "reassignments": 0,
          "shortfalls": 2, "shortfall_fte_periods": 0.75, "to_review": 1}]
+
+
+def test_a_detail_run_says_which_of_its_periods_meet_a_gap(tiny) -> None:
+    # A reading of the demo's reasons: a two-period detail was said to meet a gap "from
+    # 2028-Q2 to 2028-Q3" where the destination's own staff covered its demand in 2028-Q3.
+    # Hand count on tests/data/tiny's plan: a1 is at B in 2027-Q2 and Q3, where B wants 2.0
+    # review and b1 gives 1.0.  With B's 2027-Q3 demand set to b1's 1.0, only Q2 has a gap;
+    # with both set to 1.0, neither has, and the detail meets none.
+    plan = solve_verified(tiny).plan
+    assert plan is not None
+
+    def a1_reason(demand_q2: float, demand_q3: float) -> str:
+        coverage = plan.coverage.copy()
+        at_b = (coverage["office"] == "B") & (coverage["skill"] == "review")
+        coverage.loc[at_b & (coverage["period"] == "2027-Q2"), "demand_fte"] = demand_q2
+        coverage.loc[at_b & (coverage["period"] == "2027-Q3"), "demand_fte"] = demand_q3
+        table = reasons(tiny, replace(plan, coverage=coverage)).table
+        row = table[(table.action == "detail") & (table.subject == "a1")]
+        assert len(row) == 1
+        return str(row.iloc[0]["reason"])
+
+    both = a1_reason(2.0, 2.0)
+    assert "cover (people detailed in left out) from 2027-Q2 to 2027-Q3: part of" in both
+    one = a1_reason(2.0, 1.0)
+    assert ("cover (people detailed in left out) in 2027-Q2 (not in 2027-Q3, when they cover "
+            "it)") in one
+    none = a1_reason(1.0, 1.0)
+    assert "is within what B's own staff and hires cover from 2027-Q2 to 2027-Q3" in none
+    assert "so the detail meets no gap there" in none and "spike" not in none

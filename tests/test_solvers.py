@@ -302,3 +302,27 @@ def test_a_budget_that_must_give_is_named_once_and_its_amount_in_full(tiny):
     text = _describe_row(model, family.start, 81_600.0)
     assert text == f"{family.labels[0]} (over by 81,600)"
     assert text.startswith("hiring budget ")
+
+
+def test_stage_one_reports_the_shortfall_of_the_plan_handed_back():
+    # A reading of a scenario's page: stage 1 "optimal within the gap asked" at 172.778
+    # beside a plan of 172.741, the cost stage's plan with its work re-split.  Stage 1's line
+    # gives the plan's own figure, against the same bound (gap recomputed by hand:
+    # (172.741 - 171.0) / 172.741).
+    import sys
+
+    from rebalance.model import build_model
+    from rebalance.solve import StageResult
+
+    solve_module = sys.modules["rebalance.solve"]
+    model = build_model(read_instance(DATA / "tiny"))
+    stage = StageResult("shortfall", Status.OPTIMAL, 172.778, 171.0, 0.0103, 1.0, "Optimal")
+    lower = solve_module._plan_shortfall(stage, 172.741, model, hint_kept=False)
+    assert lower.objective == 172.741
+    assert lower.gap == pytest.approx((172.741 - 171.0) / 172.741)
+    assert lower.solver_words.endswith("the cost stage's plan, its work re-split, leaves less")
+    # Within the solvers' tolerance it is the same plan; higher is said only for a kept hint.
+    assert solve_module._plan_shortfall(stage, 172.778 * (1 - 1e-12), model, False) is stage
+    assert solve_module._plan_shortfall(stage, 172.9, model, False) is stage
+    kept = solve_module._plan_shortfall(stage, 172.9, model, True)
+    assert kept.objective == 172.9 and "keeps the old plan's shortfall" in kept.solver_words

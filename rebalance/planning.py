@@ -13,17 +13,20 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
+import pandas as pd
+
 from rebalance.backends import BACKENDS, raise_if_stopped, stoppable
 from rebalance.files import staged_folder
 from rebalance.instance import Instance, Person
 from rebalance.model import BuildCutShort, DetailRoute, Model, build_model
-from rebalance.numbers import seconds_text
+from rebalance.numbers import money_amount, seconds_text, share_text
 from rebalance.plan import Plan, extract_plan, write_plan
 from rebalance.solve import SolveOptions, SolveResult, StageResult, Status, solve
 from rebalance.verify import Violation, verify_plan
 
-__all__ = ["BUILD_STAGE", "PlanResult", "make_plan", "options_from_instance", "summary_dict",
-           "write_outputs"]
+__all__ = ["BUILD_STAGE", "PlanResult", "RunRate", "make_plan", "new_position_salaries",
+           "options_from_instance", "plan_run_rate", "plan_warnings", "run_rate_consequence",
+           "run_rate_note", "run_rate_warning", "summary_dict", "write_outputs"]
 
 
 # The one stage of a run cut short while its model was built (no solver stage ran).
@@ -166,9 +169,98 @@ def summary_dict(result: PlanResult) -> dict[str, Any]:
                          "violations": [str(v) for v in result.violations]},
         "conflicts": list(result.solve.conflicts),
         "warnings": list(result.instance.warnings),
+        # The plan's own warnings, which the console, the page and the workbook show too;
+        # "warnings" stays the instance's (input) warnings.
+        "plan_warnings": list(plan_warnings(result.instance, plan)) if plan else [],
         "caution": CAUTION,
     }
     return out
+
+
+def new_position_salaries(instance: Instance, plan: Plan) -> pd.DataFrame:
+    """Yearly salary that the plan's new positions commit beyond the horizon, by skill:
+    hires funded as new positions x the skill's salary per period x periods per year."""
+    hires = plan.hires
+    columns = ["skill", "positions", "salary_per_period", "per_year"]
+    if hires.empty:
+        return pd.DataFrame(columns=columns)
+    new = hires[hires["funding"] == "new"].groupby("skill")["count"].sum()
+    salary = {s.name: s.salary_per_period for s in instance.skills}
+    per_year = instance.periods_per_year
+    rows = [{"skill": skill, "positions": int(count),
+             "salary_per_period": float(salary.get(str(skill), 0.0)),
+             "per_year": int(count) * float(salary.get(str(skill), 0.0)) * per_year}
+            for skill, count in new.items() if count > 0]
+    return pd.DataFrame(rows, columns=columns)
+
+
+# What the new positions cost after the horizon lives here, below the reports, because
+# summary.json carries its warning as the console, the page and the workbook do (its
+# "warnings" had been [] beside their warning).
+@dataclass(frozen=True)
+class RunRate:
+    """What the plan's new positions cost in salaries every year after the horizon
+    (``per_year``), beside the hiring cap of the last budget year that sets one
+    (``cap_year``, ``cap``; None where none does): that cap is the nearest guide to the
+    hiring money of the year after, which these salaries come out of first."""
+
+    per_year: float
+    positions: int
+    horizon_end: str
+    cap_year: str | None
+    cap: float | None
+
+    @property
+    def above_cap(self) -> bool:
+        """The salaries alone take more than the whole cap (money to the cent)."""
+        return self.cap is not None and round(self.per_year, 2) > round(self.cap, 2)
+
+
+def plan_run_rate(instance: Instance, plan: Plan,
+                  salaries: pd.DataFrame | None = None) -> RunRate:
+    """:func:`new_position_salaries` (or its table ``salaries`` where the caller has it
+    already), summed, beside the last hiring cap."""
+    table = new_position_salaries(instance, plan) if salaries is None else salaries
+    per_year = float(table["per_year"].sum()) if len(table) else 0.0
+    positions = int(table["positions"].sum()) if len(table) else 0
+    cap_year, cap = None, None
+    for year in instance.years:
+        budget = instance.budget(year)
+        if budget is not None and budget.hiring is not None:
+            cap_year, cap = year, budget.hiring
+    return RunRate(per_year, positions, instance.periods[-1].name, cap_year, cap)
+
+
+def run_rate_note(rate: RunRate, currency: str | None) -> str:
+    """"100.6% of 2028's hiring cap (1,400,000)", or "" with no cap or no salaries."""
+    if rate.cap is None or rate.per_year <= 0:
+        return ""
+    cap = money_amount(rate.cap, currency)
+    if rate.cap <= 0:
+        return f"more than {rate.cap_year}'s hiring cap ({cap})"
+    return f"{share_text(rate.per_year, rate.cap)} of {rate.cap_year}'s hiring cap ({cap})"
+
+
+def run_rate_warning(rate: RunRate, currency: str | None) -> str:
+    """A warning where the salaries take more than the last hiring cap, else ""."""
+    if not rate.above_cap:
+        return ""
+    return (f"the new positions' salaries ({money_amount(rate.per_year, currency)} a year) "
+            f"are {run_rate_note(rate, currency)}: {run_rate_consequence(rate)}")
+
+
+def run_rate_consequence(rate: RunRate) -> str:
+    """What salaries above the last hiring cap mean for the year after the horizon."""
+    # "Used up on them before a single new hire" had read as muddled to a practitioner.
+    return (f"after the horizon, a hiring budget like {rate.cap_year}'s would not cover even "
+            "these salaries, let alone any new hire")
+
+
+def plan_warnings(instance: Instance, plan: Plan) -> tuple[str, ...]:
+    """Warnings about the plan itself (not its inputs), as the console writes them: the new
+    positions' salaries above the last hiring cap."""
+    warning = run_rate_warning(plan_run_rate(instance, plan), instance.money.currency)
+    return (warning,) if warning else ()
 
 
 CAUTION = ("This plan supports a decision; it does not make one. Personnel rules, agreements "

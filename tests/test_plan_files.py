@@ -3,7 +3,10 @@ every problem as ``path:row: column: what; expected``), never an internal error.
 
 from __future__ import annotations
 
+import json
 import shutil
+import subprocess
+import sys
 from pathlib import Path
 
 import pandas as pd
@@ -69,6 +72,30 @@ def test_a_written_plan_reads_back_as_it_was(written):
     for name in PLAN_TABLES:
         pd.testing.assert_frame_equal(again.table(name), plan.table(name), check_dtype=False)
     assert again.hires["count"].dtype.kind == "i"
+
+
+def test_summary_json_carries_the_plans_warnings_beside_the_instances(written):
+    # Hand computation from tests/data/tiny: one new review position at 20,000 a period
+    # (skills.csv) x 4 quarters = 80,000 a year after 2027-Q4, against 2027's hiring cap of
+    # 40,000 (budget.csv): 200.0%.  The console, the page and the workbook warn of it;
+    # summary.json's "warnings" (the instance's, none for tiny) had been [] and nothing else
+    # said it.
+    summary = json.loads((written[0] / "summary.json").read_text())
+    assert summary["warnings"] == []
+    assert summary["plan_warnings"] == [
+        "the new positions' salaries (80,000 a year) are 200.0% of 2027's hiring cap "
+        "(40,000): after the horizon, a hiring budget like 2027's would not cover even these "
+        "salaries, let alone any new hire"]
+
+
+def test_planning_reaches_no_report_or_analysis_module():
+    # STYLE.md: data flows one way, and nothing downstream reaches back up the chain; the
+    # warning above is worked out in planning, below the reports that show it.
+    code = ("import sys, rebalance.planning; print(sorted(m for m in sys.modules "
+            "if m.startswith(('rebalance.report', 'rebalance.analysis'))))")
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                          check=True)
+    assert done.stdout.strip() == "[]"
 
 
 def test_a_hire_count_that_is_no_number_is_bad_input(plan_dir, tmp_path, capsys):

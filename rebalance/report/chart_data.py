@@ -1,6 +1,7 @@
 """The page's chart data: sums of plan tables by office, period and skill, as JSON-ready
 dicts for the drawing script (``assets/report.js``), and the two tables of sums the page and
-the workbook both show (idle capacity per office, new positions' salaries by skill).
+the workbook both show (idle capacity per office; new positions' salaries by skill, which
+summary.json's warning also needs, are :mod:`rebalance.planning`'s and re-exported here).
 
 Aggregation only: the plan itself is never recomputed here.
 """
@@ -11,9 +12,9 @@ from typing import Any
 
 import pandas as pd
 
-from rebalance.instance import Instance
 from rebalance.numbers import NEAR_ZERO, fte_total_text, number_rule
-from rebalance.plan import BUDGET_LINES, Plan
+from rebalance.plan import BUDGET_LINES
+from rebalance.planning import new_position_salaries
 from rebalance.report.inputs import ReportData
 
 __all__ = ["chart_payload", "new_position_salaries", "records", "spare_capacity"]
@@ -115,23 +116,6 @@ def _coverage_series(data: ReportData) -> dict[str, Any]:
                        "staff": col("staff_cov"), "hires": col("hire_cov"),
                        "shortfall": col("shortfall_fte"), "spare": col("spare_fte")})
     return {"periods": periods, "series": series}
-
-
-def new_position_salaries(instance: Instance, plan: Plan) -> pd.DataFrame:
-    """Yearly salary that the plan's new positions commit beyond the horizon, by skill:
-    hires funded as new positions x the skill's salary per period x periods per year."""
-    hires = plan.hires
-    columns = ["skill", "positions", "salary_per_period", "per_year"]
-    if hires.empty:
-        return pd.DataFrame(columns=columns)
-    new = hires[hires["funding"] == "new"].groupby("skill")["count"].sum()
-    salary = {s.name: s.salary_per_period for s in instance.skills}
-    per_year = instance.periods_per_year
-    rows = [{"skill": skill, "positions": int(count),
-             "salary_per_period": float(salary.get(str(skill), 0.0)),
-             "per_year": int(count) * float(salary.get(str(skill), 0.0)) * per_year}
-            for skill, count in new.items() if count > 0]
-    return pd.DataFrame(rows, columns=columns)
 
 
 def _heat(data: ReportData) -> dict[str, Any]:

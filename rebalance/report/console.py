@@ -146,7 +146,9 @@ def format_summary(result: PlanResult) -> str:
             f"({fte_total_text(plan.shortfall_fte)} unweighted, "
             f"{share_text(plan.shortfall_fte, demand)} of {fte_total_text(demand)} demanded)"
             if demand else "  no demand",
-            f"  total cost           {money_amount(plan.total_cost, money.currency)} "
+            # "New money", as the page and the workbook name it: leaders had read "total
+            # cost" as the whole staffing cost, when staff already employed are not in it.
+            f"  new money            {money_amount(plan.total_cost, money.currency)} "
             f"({budget_note(result.instance, plan.costs)})",
             f"  hires                {plan.hires_count()}",
             f"  detail periods       {len(plan.details)} "
@@ -198,8 +200,8 @@ def _run_rate_lines(result: PlanResult) -> list[str]:
         return ["  yearly salaries      none committed after the horizon (no new positions)"]
     note = run_rate_note(rate, currency)
     lines = [f"  yearly salaries      {money_amount(rate.per_year, currency)} every year after "
-             f"{rate.horizon_end} ({counted(rate.positions, 'new position')}; not in total "
-             "cost)" + (f", {note}" if note else "")]
+             f"{rate.horizon_end} ({counted(rate.positions, 'new position')}; not in new "
+             "money)" + (f", {note}" if note else "")]
     warning = run_rate_warning(rate, currency)
     return [*lines, f"  warning: {warning}"] if warning else lines
 

@@ -49,6 +49,7 @@ from rebalance.report.htmlparts import (
 )
 from rebalance.report.inputs import ReportData, StageSummary, quality_notes
 from rebalance.report.limits_view import (
+    DETAILS_AT_LIMIT,
     LIMITS_LEAD,
     LIMITS_TITLE,
     LimitLine,
@@ -58,7 +59,7 @@ from rebalance.report.limits_view import (
     run_rate_note,
     run_rate_warning,
 )
-from rebalance.report.words import outcome_words
+from rebalance.report.words import ATTRITION_NOTE, expects_attrition, outcome_words
 
 __all__ = ["new_position_salaries", "render_html", "spare_capacity", "write_html"]
 
@@ -166,10 +167,11 @@ def _limits_html(found: tuple[LimitLine, ...]) -> str:
             f'<ul class="limits">{items}</ul>')
 
 
-# Limits that hold people where they are (what can keep idle capacity from moving).
-_MOVING_LIMITS = {"seats": "seats full at {}", "away_share": "share away at its cap at {}",
+# Limits that hold people where they are (what can keep idle capacity from moving), by the
+# names the limits block and `rebalance marginal` give them.
+_MOVING_LIMITS = {"seats": "seats full at {}", "away_share": "away share at its cap at {}",
                   "moves_budget": "the moves budget in {}",
-                  "details_in_a_row": "details in a row for {}"}
+                  "details_in_a_row": DETAILS_AT_LIMIT + " for {}"}
 
 
 def _idle_limits(found: tuple[LimitLine, ...]) -> str:
@@ -186,9 +188,9 @@ def _idle_limits(found: tuple[LimitLine, ...]) -> str:
         else:
             named.append(words.format(", ".join(places)))
     if not named:
-        return ("No limit on moving people (seats, share away, details in a row, moves "
-                "budget) is at its cap in this plan: who may move, and skills the offices "
-                "short of work do not need, keep it where it is.")
+        return ("No limit on moving people (seats, away share, how often one person may be "
+                "away, moves budget) is at its cap in this plan: who may move, and skills the "
+                "offices short of work do not need, keep it where it is.")
     return ("Of the limits on moving people, these are at their cap in this plan (listed "
             "under At a glance) and may be what keeps it where it is: " + "; ".join(named)
             + ". Beyond them, who may move and skills the offices short of work do not need "
@@ -378,7 +380,7 @@ def render_html(data: ReportData) -> str:
            ("hiring", "Hiring"), ("money", "Money"), *extra.nav, ("run", "How it was found")]
     sections.append(plan_section(
         "glance", "At a glance",
-        "The plan's headline figures. A <em>FTE-period</em> is one full-time person for one "
+        "The plan's headline figures. An <em>FTE-period</em> is one full-time person for one "
         "period; weighted shortfall multiplies each uncovered FTE-period by its priority.",
         _headline(data) + _limits_html(found)))
     sections.append(plan_section(
@@ -386,7 +388,7 @@ def render_html(data: ReportData) -> str:
         "Demand (dark line) against what current staff cover (blue) and what new hires add "
         "(green), summed over skills. Red is demand left uncovered; the pale band above the line, "
         "dashed on top, is output beyond demand, which covers nothing (part of the idle "
-        "capacity below).",
+        "capacity below)." + (f" {ATTRITION_NOTE}" if expects_attrition(inst) else ""),
         chart("coverage", "Demand against covered work per office")
         + _spare_table(data, found)))
     sections.append(plan_section(

@@ -3,10 +3,12 @@ against, and what its new positions cost every year once the horizon ends.
 
 Both come from the plan's tables and the instance alone.  Which limits are at their cap is
 :func:`rebalance.analysis.limits.limit_use`'s answer (the one ``rebalance marginal`` and the
-reasons stand on), so the summary can never name a limit those call slack; only the rule on
+reasons stand on), so the summary can never name a limit those call slack, and each limit
+goes by its name there (:data:`rebalance.analysis.limits.LIMIT_NAMES`); only the rule on
 details in a row is counted here, as neither that module nor the verifier (whose check only
 flags an overrun, inside its private checker) exposes how close a plan comes to it.  The
-salaries are :func:`rebalance.report.chart_data.new_position_salaries`, the page's figure.
+salaries and their warning are :mod:`rebalance.planning`'s (summary.json carries the
+warning too), re-exported here for the reports.
 """
 
 from __future__ import annotations
@@ -15,16 +17,21 @@ from collections import defaultdict
 from collections.abc import Sequence
 from dataclasses import dataclass
 
-import pandas as pd
-
-from rebalance.analysis.limits import LimitUse, limit_use
+from rebalance.analysis.limits import LIMIT_NAMES, LimitUse, limit_use
 from rebalance.instance import Instance
-from rebalance.numbers import money_amount, money_text, number_text, share_text
+from rebalance.numbers import money_amount, money_text, number_text
 from rebalance.plan import Plan
-from rebalance.report.chart_data import new_position_salaries
+from rebalance.planning import (
+    RunRate,
+    plan_run_rate,
+    run_rate_consequence,
+    run_rate_note,
+    run_rate_warning,
+)
 from rebalance.verify import unknown_names
 
-__all__ = ["LIMITS_LEAD", "LIMITS_TITLE", "LimitLine", "RunRate", "limits_at_cap",
+__all__ = ["DETAILS_AT_LIMIT", "LIMITS_LEAD", "LIMITS_TITLE", "LimitLine", "RunRate",
+           "limits_at_cap",
            "period_spans", "plan_run_rate", "run_rate_consequence", "run_rate_note",
            "run_rate_warning"]
 
@@ -32,20 +39,20 @@ LIMITS_TITLE = "Limits the plan runs up against"
 # What a limit at its cap means for the plan, and where to learn what one more would buy:
 # two sentences, which the console writes on two lines.
 LIMITS_LEAD = ("each is at its cap, so more of it could help.",
-               "`rebalance marginal` says what one more of each would buy")
+               "`rebalance marginal` says what one more step of each would buy")
 # Names of people listed on a line before the rest are counted.
 NAMES_LISTED = 3
 
-# Kinds of limit in the order they are listed, with the words a planner uses for each;
+# Kinds of limit in the order they are listed, each by the name `rebalance marginal` gives it
+# (LIMIT_NAMES: "share away" here beside "away share" there had read as two limits);
 # limit_use's other kind (time to hire) binds in every early period by definition, so it
-# says nothing about this plan.
-KIND_WORDS = (("seats", "seats full"),
-              ("hiring_budget", "hiring budget"),
-              ("moves_budget", "moves budget"),
-              ("max_hires", "most hires a period"),
-              ("vacancies", "funded vacancies"),
-              ("away_share", "share away"),
-              ("details_in_a_row", "details in a row"))
+# says nothing about this plan.  The rule on details in a row is no limit marginal relaxes:
+# its line lists people away as much as the rule allows, in any periods of a window, so
+# not always in a row.
+DETAILS_AT_LIMIT = "details at the limit"
+KIND_WORDS = (*((kind, LIMIT_NAMES[kind]) for kind in (
+    "seats", "hiring_budget", "moves_budget", "max_hires", "vacancies", "away_share")),
+    ("details_in_a_row", DETAILS_AT_LIMIT))
 
 
 @dataclass(frozen=True)
@@ -188,62 +195,3 @@ def limits_at_cap(instance: Instance, plan: Plan) -> tuple[LimitLine, ...]:
         out.append(LimitLine(kind, words, text, tuple((u.where, u.period) for u in uses),
                              total))
     return tuple(out)
-
-
-@dataclass(frozen=True)
-class RunRate:
-    """What the plan's new positions cost in salaries every year after the horizon
-    (``per_year``), beside the hiring cap of the last budget year that sets one
-    (``cap_year``, ``cap``; None where none does): that cap is the nearest guide to the
-    hiring money of the year after, which these salaries come out of first."""
-
-    per_year: float
-    positions: int
-    horizon_end: str
-    cap_year: str | None
-    cap: float | None
-
-    @property
-    def above_cap(self) -> bool:
-        """The salaries alone take more than the whole cap (money to the cent)."""
-        return self.cap is not None and round(self.per_year, 2) > round(self.cap, 2)
-
-
-def plan_run_rate(instance: Instance, plan: Plan,
-                  salaries: pd.DataFrame | None = None) -> RunRate:
-    """The page's figure (:func:`new_position_salaries`, or its table ``salaries`` where the
-    caller has it already) beside the last hiring cap."""
-    table = new_position_salaries(instance, plan) if salaries is None else salaries
-    per_year = float(table["per_year"].sum()) if len(table) else 0.0
-    positions = int(table["positions"].sum()) if len(table) else 0
-    cap_year, cap = None, None
-    for year in instance.years:
-        budget = instance.budget(year)
-        if budget is not None and budget.hiring is not None:
-            cap_year, cap = year, budget.hiring
-    return RunRate(per_year, positions, instance.periods[-1].name, cap_year, cap)
-
-
-def run_rate_note(rate: RunRate, currency: str | None) -> str:
-    """"100.6% of 2028's hiring cap (1,400,000)", or "" with no cap or no salaries."""
-    if rate.cap is None or rate.per_year <= 0:
-        return ""
-    cap = money_amount(rate.cap, currency)
-    if rate.cap <= 0:
-        return f"more than {rate.cap_year}'s hiring cap ({cap})"
-    return f"{share_text(rate.per_year, rate.cap)} of {rate.cap_year}'s hiring cap ({cap})"
-
-
-def run_rate_warning(rate: RunRate, currency: str | None) -> str:
-    """A warning where the salaries take more than the last hiring cap, else ""."""
-    if not rate.above_cap:
-        return ""
-    return (f"the new positions' salaries ({money_amount(rate.per_year, currency)} a year) "
-            f"are {run_rate_note(rate, currency)}: {run_rate_consequence(rate)}")
-
-
-def run_rate_consequence(rate: RunRate) -> str:
-    """What salaries above the last hiring cap mean for the year after the horizon."""
-    # "Used up on them before a single new hire" had read as muddled to a practitioner.
-    return (f"after the horizon, a hiring budget like {rate.cap_year}'s would not cover even "
-            "these salaries, let alone any new hire")

@@ -1,4 +1,5 @@
-"""How a solve ended, in one set of plain words for every surface (console, page, workbook).
+"""How a solve ended, in one set of plain words for every surface (console, page, workbook),
+and the few other notes every surface words alike.
 
 A planner who reads "plan found, not proven optimal" on the console should read the same on
 the page and in the workbook; the raw status (``feasible_with_gap``) stays in summary.json.
@@ -8,9 +9,23 @@ from __future__ import annotations
 
 import re
 
+from rebalance.instance import Instance
 from rebalance.numbers import gap_text
 
-__all__ = ["STATUS_WORDS", "optimal_words", "outcome_words", "plain_status", "readable"]
+__all__ = ["ATTRITION_NOTE", "STATUS_WORDS", "expects_attrition", "optimal_words",
+           "outcome_words", "plain_status", "readable"]
+
+# Beside the work table (the page's work and capacity section, the workbook's work sheet):
+# work.csv's fte for a 1.0-FTE person reads 0.969, 0.938, ... (docs/model.md), and neither
+# had said why.
+ATTRITION_NOTE = ("Available FTE falls period by period with expected attrition, so a "
+                  "person's fte in the work table (work.csv, the work sheet) shrinks over "
+                  "the horizon.")
+
+
+def expects_attrition(instance: Instance) -> bool:
+    """Whether ``instance`` expects anyone to leave (some attrition rate above 0)."""
+    return any(rate > 0 for rate in instance.attrition.values())
 
 STATUS_WORDS = {
     "optimal": "optimal",

@@ -50,7 +50,13 @@ from rebalance.report.limits_view import (
     plan_run_rate,
     run_rate_warning,
 )
-from rebalance.report.words import outcome_words, plain_status, readable
+from rebalance.report.words import (
+    ATTRITION_NOTE,
+    expects_attrition,
+    outcome_words,
+    plain_status,
+    readable,
+)
 
 __all__ = ["write_workbook"]
 
@@ -81,7 +87,7 @@ SHEET_NOTES = {
     "costs": "new money by budget year and kind",
     "frontier": "budget frontier: least shortfall at each budget",
     "scenarios": "scenario comparison",
-    "marginal_values": "what one more unit of each binding limit buys",
+    "marginal_values": "what one more step of each binding limit buys",
     "reasons": "why each action is in the plan, and what stops each remaining gap",
     "replan": "old plan against the re-plan",
     "changes": "every change the re-plan makes to the old plan",
@@ -514,7 +520,7 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
             line(f"{stage.name} stage", stage_words(stage, instance.money.currency,
                                                     replan=run.replan is not None))
     line("model size", f"{run.model_columns or 0:,} columns ({run.model_integer_columns or 0:,} "
-         f"integer) x {run.model_rows or 0:,} rows")
+         f"whole-number) x {run.model_rows or 0:,} rows")
     # As text, as the page writes it: one rounding of the stored seconds (56.65, not 56.6).
     line("build / solve seconds", " / ".join(
         "-" if v is None else seconds_text(v) for v in (run.build_seconds, run.solve_seconds)))
@@ -527,7 +533,13 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
     for name in sheet_names:
         row = next(rows)
         ws.write_string(row, 0, name, styles.bold)
-        ws.write_string(row, 1, SHEET_NOTES.get(name, ""))
+        # The work sheet's note says why a person's fte shrinks over the horizon; on the
+        # sheet itself it would move the header off the first row, where readers of the
+        # workbook (pandas' read_excel among them) look for it.
+        note = SHEET_NOTES.get(name, "")
+        if name == "work" and expects_attrition(instance):
+            note += f". {ATTRITION_NOTE}"
+        ws.write_string(row, 1, note)
 
     band("Caution")
     row = next(rows)

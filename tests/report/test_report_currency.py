@@ -34,7 +34,7 @@ def _headers(page: str, table: str) -> list[str]:
 
 def test_the_console_summary_names_the_currency_of_every_amount():
     text = format_summary(_tiny("EUR"))
-    assert "total cost           43,000 EUR (of 70,000 EUR allowed)" in text
+    assert "new money            43,000 EUR (of 70,000 EUR allowed)" in text
     assert "stage cost: optimal, objective 43,000 EUR, bound 43,000 EUR" in text
     assert "stage shortfall: optimal, objective 0, bound 0," in text  # FTE-periods, not money
     header = next(line for line in text.splitlines() if "hiring spend" in line).split("  ")
@@ -42,7 +42,7 @@ def test_the_console_summary_names_the_currency_of_every_amount():
         "year", "hiring spend (EUR)", "hiring cap (EUR)", "moves spend (EUR)",
         "moves cap (EUR)"]
     bare = format_summary(_tiny(None))
-    assert "total cost           43,000 (of 70,000 allowed)\n" in bare
+    assert "new money            43,000 (of 70,000 allowed)\n" in bare
     assert "(EUR)" not in bare and "None" not in bare
 
 

@@ -3,6 +3,7 @@ tables, with analysis sections only when their tables exist, read defensively.""
 
 from __future__ import annotations
 
+import html
 import itertools
 import json
 import re
@@ -327,3 +328,33 @@ def test_a_scenarios_plan_says_it_is_that_scenarios(tmp_path):
     page = render_html(report_data_from_folder(folder, read_instance(TINY)))
     assert re.findall(r"<h1>(.*?)</h1>", page) == ["Scenario b-surge"]
     assert "<title>Scenario b-surge · tiny</title>" in page
+
+
+def test_the_page_says_an_fte_period():
+    # English grammar: "FTE" is said "eff-tee-ee", so "an FTE-period" (the page had "A").
+    text = html.unescape(re.sub(r"<[^>]+>", "", _page(tiny_plan_folder())))
+    assert "An FTE-period is one full-time person for one period" in text
+    assert not re.search(r"\b[Aa] FTE", text)
+
+
+def test_the_work_and_capacity_section_says_why_a_persons_fte_shrinks():
+    # Hand computation from docs/model.md, A(p,t) = fte(p) (1 - r)^(t/q): tiny's a1 (fte 1.0,
+    # review) with review's attrition set to 12% a year, q = 4, is 1.0, 0.88^(1/4) = 0.969,
+    # 0.88^(2/4) = 0.938, 0.88^(3/4) = 0.909 in Q1..Q4, which work.csv shows unexplained.
+    from conftest import solve_verified
+
+    from rebalance.report.inputs import report_data
+
+    instance = read_instance(TINY)
+    leaving = instance.with_changes(attrition={("review", None): 0.12,
+                                               ("intake", None): 0.12})
+    result = solve_verified(leaving)
+    assert result.plan is not None
+    a1 = result.plan.work[result.plan.work["person"] == "a1"].groupby("period")["fte"].sum()
+    assert [round(float(v), 3) for v in a1] == [1.0, 0.969, 0.938, 0.909]
+    page = html.unescape(render_html(report_data(result)))
+    capacity = page[page.index('id="capacity"'):page.index('id="gaps"')]
+    assert ("Available FTE falls period by period with expected attrition, so a person's fte "
+            "in the work table (work.csv, the work sheet) shrinks over the horizon.") in capacity
+    # Without attrition (tiny as it is, no attrition.csv) there is nothing to explain.
+    assert "expected attrition" not in _page(tiny_plan_folder())

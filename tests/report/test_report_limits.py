@@ -80,15 +80,15 @@ def test_seats_short_console_page_and_workbook_say_seats_are_full(tmp_path):
     result = _solved(str(SEATS_SHORT))
     console = format_summary(result)
     assert LIMITS_TITLE in console
-    assert "    seats full  A all 4 periods" in console
-    assert "    share away  A all 4 periods" in console
+    assert "    seats       A all 4 periods" in console
+    assert "    away share  A all 4 periods" in console
     assert "rebalance marginal" in console
     page = _page(result)
-    assert "seats full: A all 4 periods" in page
+    assert "seats: A all 4 periods" in page
     assert "seats full at A" in page  # the idle-capacity text names it instead of guessing
     rows = _summary_rows(result, tmp_path)
-    assert rows["seats full"] == "A all 4 periods"
-    assert rows["share away"] == "A all 4 periods"
+    assert rows["seats"] == "A all 4 periods"
+    assert rows["away share"] == "A all 4 periods"
     # No new positions (offices.csv: no office may hire): no salaries, no share, no warning.
     assert "yearly salaries      none committed after the horizon" in console
     assert "warning:" not in console
@@ -117,13 +117,38 @@ def test_tiny_limits_at_their_cap_match_a_hand_count():
         "details_in_a_row": {("a1", "")},
     }
     console = format_summary(result)
-    assert "hiring budget        2027 28,000 of 40,000 used (too little left for one more " \
+    assert "hiring budget         2027 28,000 of 40,000 used (too little left for one more " \
            "hire)" in console
-    assert "most hires a period  B 2027-Q4" in console
-    assert "share away           A 2027-Q2 to 2027-Q4 (3 periods)" in console
-    assert "details in a row     1 person away the most allowed (2 of any 3 periods): a1" \
+    assert "hiring slots          B 2027-Q4" in console
+    assert "away share            A 2027-Q2 to 2027-Q4 (3 periods)" in console
+    assert "details at the limit  1 person away the most allowed (2 of any 3 periods): a1" \
         in console
-    assert "seats full" not in console and "moves budget" not in console
+    assert "\n    seats " not in console and "moves budget" not in console
+
+
+def test_tiny_limits_go_by_marginals_names_on_every_surface(tmp_path):
+    # The names `rebalance marginal` prints for these limits (rebalance/analysis/limits.py's
+    # LIMIT_NAMES, written out here by hand): the plan had said "most hires a period" and
+    # "share away" where marginal said "hiring slots" and "away share".  The rule on details
+    # goes by "details at the limit": its people are away 2 of some 3 periods, not always
+    # in a row (the demo's 2028-Q2 and 2028-Q4).  Marginal's steps are +10 seats, +100,000
+    # money (docs/analysis.md), so the lead says "one more step", not "one more".
+    result = _solved(str(TINY))
+    names = {"hiring budget", "hiring slots", "away share", "details at the limit"}
+    console = format_summary(result)
+    block = console[console.index(LIMITS_TITLE):].split("\n\n")[0].splitlines()[2:]
+    assert {line[4:26].strip() for line in block} == names
+    page = _page(result)
+    rows = _summary_rows(result, tmp_path)
+    for name in names:
+        assert f"{name}:" in page and name in rows
+    assert "away share at its cap at A" in page and "details at the limit for 1 person" in page
+    lead = "rebalance marginal says what one more step of each would buy"
+    assert lead in console.replace("`", "") and lead in page.replace("Rebalance", "rebalance")
+    assert any(isinstance(key, str) and lead[1:] in key for key in rows)
+    for text in (console, page, *rows):
+        for old in ("most hires a period", "share away", "details in a row", "one more of"):
+            assert old not in text, (old, text)
 
 
 def test_tiny_run_rate_against_the_hiring_cap_on_every_surface(tmp_path):
@@ -140,7 +165,7 @@ def test_tiny_run_rate_against_the_hiring_cap_on_every_surface(tmp_path):
     assert run_rate_note(rate, None) == note
     console = format_summary(result)
     assert ("  yearly salaries      80,000 every year after 2027-Q4 (1 new position; not in "
-            f"total cost), {note}") in console
+            f"new money), {note}") in console
     warning = ("the new positions' salaries (80,000 a year) are 200.0% of 2027's hiring cap "
                "(40,000): after the horizon, a hiring budget like 2027's would not cover even "
                "these salaries, let alone any new hire")
@@ -217,12 +242,12 @@ def test_the_console_limits_block_fits_a_terminal_and_the_page_and_workbook_list
     console = format_summary(result)
     block = console[console.index(LIMITS_TITLE):].split("\n\n")[0].splitlines()
     assert all(len(line) <= LINE_CHARS for line in block), block
-    assert any("seats full" in line and "8 offices in 32 office-periods" in line
+    assert any("seats" in line and "8 offices in 32 office-periods" in line
                for line in block), block
-    assert any("share away" in line for line in block)
+    assert any("away share" in line for line in block)
     full = ", ".join(offices[:-1]) + f" and {offices[-1]} all 4 periods"
-    assert f"seats full: {full}" in _page(result)  # the page keeps every office
-    assert _summary_rows(result, tmp_path)["seats full"] == full  # and so does the workbook
+    assert f"seats: {full}" in _page(result)  # the page keeps every office
+    assert _summary_rows(result, tmp_path)["seats"] == full  # and so does the workbook
 
 
 def test_long_limit_text_is_wrapped_then_counted():

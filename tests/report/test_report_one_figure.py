@@ -145,11 +145,31 @@ def test_headline_totals_read_the_same_on_console_page_and_workbook(tmp_path):
     assert f"Weighted shortfall {weighted} FTE-periods; unweighted {unweighted}" in page
     assert f"of {fte_total_text(demand)} demanded" in console
     assert f"of {fte_total_text(demand)} demanded" in page
-    assert "New money 43,000 EUR" in page and "total cost           43,000 EUR" in console
+    assert "New money 43,000 EUR" in page and "new money            43,000 EUR" in console
     path = write_workbook(report_data(result), tmp_path / "plan.xlsx")
     formats = _summary_formats(path)
     assert formats["weighted shortfall (FTE-periods)"] == "#,##0.0"
     assert formats["shortfall (FTE-periods, unweighted)"] == "#,##0.0"
+
+
+# 13. One figure, two names: the console said "total cost 2,463,500 (of 2,480,000 allowed)"
+#     and "... not in total cost" where the page and the workbook said "New money"; leaders
+#     read "total cost" as the whole staffing cost, when pay of staff already employed is
+#     not in it (docs/model.md: onboarding, new-position salaries, details, relocations).
+
+def test_the_plans_new_money_has_one_name_on_console_page_and_workbook(tmp_path):
+    # Hand count from tests/data/tiny (NOTE.md): onboarding 8,000 + new-position salary
+    # 20,000 (budget 2027's hiring 28,000) + details 3 x 5,000 = 43,000 of 40,000 + 30,000.
+    result = _tiny()
+    console = format_summary(result)
+    assert "  new money            43,000 EUR (of 70,000 EUR allowed)" in console
+    assert "(1 new position; not in new money)" in console
+    data = report_data(result)
+    page = page_text(render_html(data))
+    values = _summary_values(write_workbook(data, tmp_path / "plan.xlsx"))
+    assert "New money 43,000 EUR" in page and values["new money, all years"] == 43_000
+    for text in (console, page, *map(str, values), *map(str, values.values())):
+        assert "total cost" not in text.lower(), text
 
 
 def test_seconds_are_rounded_once_from_the_stored_value():

@@ -266,7 +266,7 @@ def test_the_money_note_reads_alike_on_console_page_and_workbook(tmp_path, hirin
             f"{money_text(hired)} where uncapped")
     span = "2027-Q1 to 2027-Q4"
     lines = format_summary(result).splitlines()
-    (line,) = [line for line in lines if line.startswith("  total cost ")]
+    (line,) = [line for line in lines if line.startswith("  new money ")]
     assert line.endswith(f" ({note})")
     data = report_data(result)
     page = page_text(render_html(data))

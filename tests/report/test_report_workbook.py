@@ -254,3 +254,51 @@ def test_only_the_scenarios_sheet_opens_with_notes(tmp_path):
     sheet = load_workbook(write_workbook(replace(_tiny_data(()), scenarios=plain),
                                          tmp_path / "plain.xlsx"))["scenarios"]
     assert sheet["A1"].value == "scenario" and sheet.freeze_panes == "A2"
+
+
+def test_summary_words_match_the_page_model_size_and_marginal_steps():
+    # The page's words (report.html, "How it was found"): "whole-number" columns, where the
+    # workbook had "integer".  Marginal's steps are ten seats, 100,000 money
+    # (docs/analysis.md), so its sheet buys "one more step", not "one more unit".
+    values = _summary_values(tiny_analysis_folder())
+    model = _summary(tiny_analysis_folder())["model"]
+    assert values["model size"] == (f"{model['columns']:,} columns "
+                                    f"({model['integer_columns']:,} whole-number) x "
+                                    f"{model['rows']:,} rows")
+    assert values["marginal_values"] == "what one more step of each binding limit buys"
+
+
+def test_the_sheet_list_says_why_a_persons_fte_shrinks(tmp_path):
+    # Hand computation from docs/model.md, A(p,t) = fte(p) (1 - r)^(t/q): with review's
+    # attrition at 12% a year, tiny's a1 (fte 1.0) works 0.88^(1/4) = 0.969 in 2027-Q2, as
+    # the work sheet shows; the summary's list of sheets says why, beside "work".
+    from conftest import solve_verified
+    from report_cases import TINY
+
+    from rebalance import read_instance
+    from rebalance.report.inputs import report_data
+    from rebalance.report.workbook import write_workbook
+
+    leaving = read_instance(TINY).with_changes(attrition={("review", None): 0.12})
+    path = write_workbook(report_data(solve_verified(leaving)), tmp_path / "plan.xlsx")
+    book = load_workbook(path)
+    (a1,) = [row for row in book["work"].iter_rows(min_row=2, values_only=True)
+             if row[:2] == ("a1", "2027-Q2")]
+    assert round(a1[4], 3) == 0.969
+    sheets = {row[0]: row[1] for row in book["summary"].iter_rows(values_only=True) if row[0]}
+    assert sheets["work"] == (
+        "who works where on which skill, per period. Available FTE falls period by period "
+        "with expected attrition, so a person's fte in the work table (work.csv, the work "
+        "sheet) shrinks over the horizon.")
+    # Tiny as it is has no attrition.csv: nothing to explain.
+    assert _summary_values(tiny_plan_folder())["work"] == "who works where on which skill, " \
+        "per period"
+
+
+def _summary(folder):
+    return json.loads((folder / "summary.json").read_text())
+
+
+def _summary_values(folder):
+    sheet = load_workbook(folder / "plan.xlsx")["summary"]
+    return {row[0]: row[1] for row in sheet.iter_rows(values_only=True) if row[0]}

@@ -269,7 +269,8 @@ def cmd_replan(args: argparse.Namespace) -> int:
     print(format_outcome(out.result, replan=True) + "\n")
     # By the one number rule, row by row: money rows whole with the currency, counts whole.
     print(format_frame(out.summary, instance.money.currency))
-    print(f"\n{len(out.changes)} change(s) against the old plan from {args.at} on")
+    n = len(out.changes)
+    print(f"\n{n:,} change{'' if n == 1 else 's'} against the old plan from {args.at} on")
     if len(out.changes):
         print(format_frame(out.changes.head(30), instance.money.currency))
     # Not a change (no disruption cost), but the figures move with it: "0 change(s)" beside
@@ -324,11 +325,21 @@ def cmd_frontier(args: argparse.Namespace) -> int:
              "solved shortfall first, not in the instance's weighted mode")
     frontier = budget_frontier(instance, grid, _analysis_options(instance, args),
                                workers=args.workers)
-    shown = frontier.table[["point", "hiring_budget", "moves_budget", "status", "gap",
-                            "shortfall_gap", "weighted_shortfall", "total_cost", "knee"]]
+    from rebalance.report.analysis_charts import grid_texts
+
+    # The caps each point allows and the new money it spends over point 1's, beside its
+    # grid values (factors alone had not said how much money a point is); the grid values
+    # as typed (1.5, not 1.500).
+    shown = grid_texts(frontier.table[["point", "hiring_budget", "moves_budget",
+                                       "hiring_cap_total", "status", "gap", "shortfall_gap",
+                                       "weighted_shortfall", "total_cost", "extra_cost",
+                                       "knee"]])
     print(format_frame(shown, instance.money.currency))
-    print(f"\nhiring_budget and moves_budget: {frontier.table['budget_unit'].iloc[0]}; an "
-          "empty moves_budget keeps the instance's caps")
+    print("\n" + textwrap.fill(
+        f"hiring_budget and moves_budget: {frontier.table['budget_unit'].iloc[0]}; a "
+        "moves_budget of - keeps the instance's caps; hiring_cap_total: the hiring caps of "
+        "all budget years together; extra_cost: new money over point 1's", width=98,
+        break_on_hyphens=False))
     _say_gaps(frontier.table)
     # A point without a plan (infeasible, out of time) is a result the table reports; a plan
     # that fails verification is a fault, and its figures would mislead: nothing is written.

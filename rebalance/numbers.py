@@ -48,6 +48,7 @@ __all__ = [
     "share_of",
     "share_text",
     "with_currency",
+    "years_text",
 ]
 
 # Values this close to zero are rounding left over from the solver: shown as 0.
@@ -337,6 +338,20 @@ def _plain(value: float, decimals: int) -> str:
     """``value`` with ``decimals`` decimals and separators, no sign on a zero."""
     text = f"{float(value) + 0.0:,.{decimals}f}"
     return text[1:] if text.startswith("-") and not text.strip("-0.,") else text
+
+
+def years_text(value: object) -> str:
+    """Budget years as text (``2027``, ``2027; 2028``), never a number: read back from a CSV
+    file a single year is the number 2027 (or 2027.0 in a column with blanks), which a table
+    had written "2,027".  A missing value is ""."""
+    if value is None or isinstance(value, bool):
+        return "" if value is None else str(value)
+    if isinstance(value, Real):
+        v = float(value)
+        if math.isnan(v):
+            return ""
+        return str(int(v)) if v.is_integer() else str(value)
+    return str(value).strip()
 
 
 def number_rule() -> dict[str, float]:

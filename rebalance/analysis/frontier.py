@@ -4,7 +4,9 @@ Each point is the instance with its hiring cap (and optionally its moves cap) re
 budget year, solved by :func:`rebalance.planning.make_plan` and verified; points are solved in
 a process pool.  The knee is the point of the shortfall-against-budget curve farthest from the
 chord between its ends, both axes scaled to [0, 1] (the "Kneedle" idea of Satopaa et al. 2011,
-"Finding a 'Kneedle' in a Haystack"): where more money starts to buy markedly less.
+"Finding a 'Kneedle' in a Haystack"): where more money starts to buy markedly less.  Below
+:data:`KNEE_MIN_POINTS` levels no knee is marked, in frontier.csv, on the console and on the
+page alike: any three points bend somewhere.
 """
 
 from __future__ import annotations
@@ -21,14 +23,24 @@ from rebalance.instance import Budget, Instance
 from rebalance.planning import PlanResult
 from rebalance.solve import SolveOptions
 
-__all__ = ["FRONTIER_COLUMNS", "BudgetGrid", "Frontier", "budget_frontier", "find_knee",
-           "mark_knees", "parse_grid", "uncapped_years", "with_budgets"]
+__all__ = ["FRONTIER_COLUMNS", "KNEE_MIN_POINTS", "BudgetGrid", "Frontier", "budget_frontier",
+           "cap_total", "find_knee", "mark_knees", "parse_grid", "uncapped_years",
+           "with_budgets"]
 
+# hiring_cap_total and moves_cap_total: the money each point's caps allow over the horizon
+# (a factor grid's "1.5" alone had not said how much that is); extra_cost: its new money over
+# point 1's.
 FRONTIER_COLUMNS = (
-    "point", "hiring_budget", "moves_budget", "budget_unit", "status", "verified", "gap",
-    "shortfall_gap", "weighted_shortfall", "shortfall_fte_periods", "total_cost", "hiring_spend",
-    "moves_spend", "hires", "detail_periods", "reassignments", "knee",
+    "point", "hiring_budget", "moves_budget", "budget_unit", "hiring_cap_total",
+    "moves_cap_total", "status", "verified", "gap", "shortfall_gap", "weighted_shortfall",
+    "shortfall_fte_periods", "total_cost", "extra_cost", "hiring_spend", "moves_spend", "hires",
+    "detail_periods", "reassignments", "knee",
 )
+
+# Fewer budget levels than this mark no knee: any three points bend somewhere, so a "knee"
+# among them says nothing about where money starts to buy less (frontier.csv had marked one
+# on a 3-level grid while the page said none was marked).
+KNEE_MIN_POINTS = 4
 
 
 AMOUNT_UNIT = "money, each year"
@@ -126,8 +138,9 @@ def with_budgets(instance: Instance, hiring: float | None, moves: float | None,
 
 
 def find_knee(x: Sequence[float], y: Sequence[float]) -> int | None:
-    """Index of the knee of a decreasing curve y(x), or None when it is flat or too short."""
-    if len(x) < 3:
+    """Index of the knee of a decreasing curve y(x), or None when it is flat or has fewer than
+    :data:`KNEE_MIN_POINTS` points."""
+    if len(x) < KNEE_MIN_POINTS:
         return None
     order = sorted(range(len(x)), key=lambda i: x[i])
     xs = [x[i] for i in order]
@@ -145,6 +158,19 @@ def find_knee(x: Sequence[float], y: Sequence[float]) -> int | None:
     return order[best] if gaps[best] > 1e-9 else None
 
 
+def cap_total(instance: Instance, cap_name: str) -> float:
+    """The ``hiring`` or ``moves`` caps of every budget year summed; nan where a year has none
+    (that year is uncapped, so the horizon's total is not bounded)."""
+    total = 0.0
+    for year in instance.years:
+        budget = instance.budget(year)
+        cap = None if budget is None else getattr(budget, cap_name)
+        if cap is None:
+            return math.nan
+        total += cap
+    return total
+
+
 def budget_frontier(instance: Instance, grid: BudgetGrid, options: SolveOptions,
                     workers: int = 2) -> Frontier:
     """Solve every grid point (hiring x moves) and mark the knee of each moves level.
@@ -159,12 +185,15 @@ def budget_frontier(instance: Instance, grid: BudgetGrid, options: SolveOptions,
     variants = [with_budgets(instance, h, m, grid.as_factor) for h, m in points]
     results = solve_many(variants, replace(options, mode="shortfall-first"), workers)
     rows = []
-    for i, ((h, m), _variant, result) in enumerate(zip(points, variants, results, strict=True)):
+    first = results[0].plan
+    for i, ((h, m), variant, result) in enumerate(zip(points, variants, results, strict=True)):
         plan = result.plan
         row: dict[str, object] = {
             "point": i + 1, "hiring_budget": h, "moves_budget": m,
             # The grid's values are money only without the x: say which, beside them.
             "budget_unit": FACTOR_UNIT if grid.as_factor else AMOUNT_UNIT,
+            "hiring_cap_total": cap_total(variant, "hiring"),
+            "moves_cap_total": cap_total(variant, "moves"),
             "status": result.status.value, "verified": result.verified, "gap": result.solve.gap,
             "shortfall_gap": result.solve.shortfall_gap,
         }
@@ -174,6 +203,8 @@ def budget_frontier(instance: Instance, grid: BudgetGrid, options: SolveOptions,
                 "weighted_shortfall": plan.weighted_shortfall,
                 "shortfall_fte_periods": plan.shortfall_fte,
                 "total_cost": plan.total_cost,
+                "extra_cost": (math.nan if first is None
+                               else plan.total_cost - first.total_cost),
                 "hiring_spend": kinds["onboarding"] + kinds["new_position_salary"],
                 "moves_spend": kinds["detail"] + kinds["relocation"],
                 "hires": plan.hires_count(),

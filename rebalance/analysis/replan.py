@@ -16,7 +16,6 @@ This module runs the re-plan and says what changed and what it bought.
 from __future__ import annotations
 
 import math
-from collections import defaultdict
 from collections.abc import Hashable
 from dataclasses import dataclass, replace
 from pathlib import Path
@@ -24,7 +23,6 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from rebalance.analysis.limits import hire_rows
 from rebalance.analysis.replan_checks import PastWork, ReplanError, _checked_past
 from rebalance.analysis.replan_model import (
     DisruptionCosts,
@@ -32,6 +30,7 @@ from rebalance.analysis.replan_model import (
     _runs_kept,
     _with_committed_hires,
 )
+from rebalance.analysis.scenario_actions import hire_changes, main_skills, plan_actions
 from rebalance.instance import Instance, Person
 from rebalance.model import DetailRoute, Model
 from rebalance.plan import PLAN_TABLES, Plan, cost_table, coverage_table
@@ -186,10 +185,16 @@ def _with_past_work(instance: Instance, result: PlanResult,
 
 def _changes(instance: Instance, old: Plan, new: Plan, costs: DisruptionCosts) -> pd.DataFrame:
     """Every difference between ``old`` and ``new``, priced: all from the re-plan period on,
-    since the past is fixed (the tests check it)."""
+    since the past is fixed (the tests check it).  A detail's or reassignment's ``skill`` is
+    the one the person works most at the destination then, as ``scenario_actions.csv`` has it
+    (the new plan's; the old one's for a dropped one; empty where there is no work)."""
     names = instance.period_names
     ix = {name: t for t, name in enumerate(names)}
+    skills = {"old": main_skills(old), "new": main_skills(new)}
     rows: list[tuple[object, ...]] = []
+
+    def skill_at(side: str, person: str, period: str, route: str) -> str:
+        return skills[side].get((person, period, route.split(" -> ")[-1]), "")
 
     def details_of(plan: Plan) -> dict[tuple[str, int], str]:
         return {(str(r.person), ix[str(r.period)]): f"{r.from_office} -> {r.to_office}"
@@ -200,7 +205,9 @@ def _changes(instance: Instance, old: Plan, new: Plan, costs: DisruptionCosts) -
         before, after = a.get((person, t), ""), b.get((person, t), "")
         if before != after:
             change = "added" if not before else "dropped" if not after else "rerouted"
-            rows.append((change, "detail", person, "", names[t], before, after,
+            skill = (skill_at("old", person, names[t], before) if not after
+                     else skill_at("new", person, names[t], after))
+            rows.append((change, "detail", person, skill, names[t], before, after,
                          costs.detail_per_period * (2 if change == "rerouted" else 1)))
 
     def moves_of(plan: Plan) -> dict[str, tuple[str, str]]:
@@ -214,27 +221,39 @@ def _changes(instance: Instance, old: Plan, new: Plan, costs: DisruptionCosts) -
             continue
         change = ("added" if move_before is None else "dropped" if move_after is None
                   else "changed")
-        period = (move_after[0] if move_after is not None
-                  else move_before[0] if move_before is not None else "")
-        rows.append((change, "reassignment", person, "", period,
+        side, kept = ("new", move_after) if move_after is not None else ("old", move_before)
+        if kept is None:  # both None: equal, skipped above
+            continue
+        period, route = kept
+        rows.append((change, "reassignment", person, skill_at(side, person, period, route),
+                     period,
                      "" if move_before is None else f"{move_before[1]} from {move_before[0]}",
                      "" if move_after is None else f"{move_after[1]} from {move_after[0]}",
                      costs.reassignment * (2 if change == "changed" else 1)))
-
-    def hires_of(plan: Plan) -> dict[tuple[str, str, str, str], int]:
-        out: dict[tuple[str, str, str, str], int] = defaultdict(int)
-        for h in hire_rows(plan):
-            out[(h.office, h.skill, h.start_period, h.funding)] += h.count
-        return out
-
-    ha, hb = hires_of(old), hires_of(new)
-    for key in sorted(set(ha) | set(hb), key=lambda k: (ix[k[2]], k)):
-        before_n, after_n = ha.get(key, 0), hb.get(key, 0)
-        if before_n != after_n:
-            office, skill, period, funding = key
-            rows.append(("more" if after_n > before_n else "fewer", f"hire ({funding})", office,
-                         skill, period, before_n, after_n, costs.hire * abs(after_n - before_n)))
+    rows.extend(_hire_changes(old, new, ix, costs))
     return pd.DataFrame(rows, columns=list(CHANGE_COLUMNS))
+
+
+def _hire_changes(old: Plan, new: Plan, ix: dict[str, int],
+                  costs: DisruptionCosts) -> list[tuple[object, ...]]:
+    """Hires ``more`` or ``fewer`` by office, skill, start period and funding, or one
+    ``moved`` row where the same number of an office, skill and funding start in one other
+    period and nothing else of theirs changes (``old`` and ``new`` then say the start, as
+    ``1 in 2028-Q1``; ``period`` is the new start), by compare's rule
+    (:func:`~rebalance.analysis.scenario_actions.hire_changes`).  Priced per start period and
+    funding as the model prices its hire columns, so a moved hire costs its two columns'
+    changes."""
+    rows: list[tuple[object, ...]] = []
+    for c in hire_changes(plan_actions(old).hires, plan_actions(new).hires, ix.__getitem__):
+        kind = f"hire ({c.funding})"
+        if c.moved_from is not None:
+            rows.append(("moved", kind, c.office, c.skill, c.start, f"{c.before} in {c.moved_from}",
+                         f"{c.after} in {c.start}", costs.hire * 2 * c.before))
+        else:
+            rows.append(("more" if c.after > c.before else "fewer", kind, c.office, c.skill,
+                         c.start, c.before, c.after, costs.hire * abs(c.after - c.before)))
+    # By start period (a moved hire's new one), then office, skill and funding.
+    return sorted(rows, key=lambda r: (ix[str(r[4])], str(r[2]), str(r[3]), str(r[1])))
 
 
 def _measures(instance: Instance, plan: Plan) -> dict[str, float]:

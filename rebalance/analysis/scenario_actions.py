@@ -11,7 +11,7 @@ whether every scenario of the comparison makes it.
 from __future__ import annotations
 
 from collections import defaultdict
-from collections.abc import Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -20,8 +20,8 @@ import pandas as pd
 from rebalance.analysis.limits import hire_rows
 from rebalance.plan import Plan
 
-__all__ = ["ACTION_COLUMNS", "NO_WHEN", "PlanActions", "action_rows", "actions_table",
-           "plan_actions", "when_words"]
+__all__ = ["ACTION_COLUMNS", "NO_WHEN", "HireChange", "PlanActions", "action_rows",
+           "actions_table", "hire_changes", "main_skills", "plan_actions", "when_words"]
 
 ACTION_COLUMNS = ("scenario", "change", "action", "person_or_office", "skill", "period",
                   "route_or_funding", "base", "scenario_value", "when", "in_every_scenario")
@@ -59,7 +59,7 @@ def when_words(period: int, changed: Sequence[int]) -> str:
             else "during")
 
 
-def _main_skills(plan: Plan) -> dict[tuple[str, str, str], str]:
+def main_skills(plan: Plan) -> dict[tuple[str, str, str], str]:
     """(person, period, office) -> the skill the person works most FTE at there then (ties:
     the first by name)."""
     w = plan.work
@@ -73,6 +73,47 @@ def _main_skills(plan: Plan) -> dict[tuple[str, str, str], str]:
             if max(by.values()) > 1e-9}
 
 
+@dataclass(frozen=True)
+class HireChange:
+    """Hires of one office, skill and funding that differ between two plans at one start
+    period: ``before`` and ``after`` there; or, where the same number start in one other
+    period instead and nothing else of theirs changes, one move (``moved_from`` the old
+    start, ``start`` the new, ``before`` = ``after`` = the number moved)."""
+
+    office: str
+    skill: str
+    funding: str
+    start: str
+    before: int
+    after: int
+    moved_from: str | None = None
+
+
+def hire_changes(before: Mapping[tuple[str, str, str, str], int],
+                 after: Mapping[tuple[str, str, str, str], int],
+                 order: Callable[[str], int]) -> list[HireChange]:
+    """The hires that differ between two plans' counts by (office, skill, start period,
+    funding), grouped by office, skill and funding, each group's starts in ``order``: two
+    starts of a group changed, one up by what the other lost, are one move (two rows, fewer
+    and more, had read as two decisions); compare and re-plan words both come from here."""
+    steps: dict[tuple[str, str, str], list[tuple[str, int, int]]] = defaultdict(list)
+    for key in sorted(set(before) | set(after), key=lambda k: (k[0], k[1], k[3], order(k[2]))):
+        if before.get(key, 0) != after.get(key, 0):
+            office, skill, start, funding = key
+            steps[(office, skill, funding)].append((start, before.get(key, 0),
+                                                    after.get(key, 0)))
+    out = []
+    for (office, skill, funding), group in steps.items():
+        if len(group) == 2 and group[0][2] - group[0][1] == group[1][1] - group[1][2]:
+            (s0, b0, n0), (s1, _, _) = group
+            was, now = (s0, s1) if n0 < b0 else (s1, s0)
+            n = abs(n0 - b0)
+            out.append(HireChange(office, skill, funding, now, n, n, moved_from=was))
+            continue
+        out.extend(HireChange(office, skill, funding, start, b, n) for start, b, n in group)
+    return out
+
+
 def _destination(route: str) -> str:
     return route.split(" -> ")[-1]
 
@@ -84,7 +125,7 @@ def action_rows(name: str, base: Plan, plan: Plan, periods: Sequence[str],
     horizon's periods; ``changed`` holds the indices of those the scenario changes."""
     ix = {p: t for t, p in enumerate(periods)}
     a, b = plan_actions(base), plan_actions(plan)
-    skills = {"base": _main_skills(base), "scenario": _main_skills(plan)}
+    skills = {"base": main_skills(base), "scenario": main_skills(plan)}
     rows: list[tuple[int, tuple[Any, ...]]] = []
 
     def add(change: str, action: str, who: str, skill: str, period: str, route: str,
@@ -94,26 +135,13 @@ def action_rows(name: str, base: Plan, plan: Plan, periods: Sequence[str],
         rows.append((-1 if t is None else t, (name, change, action, who, skill, period, route,
                                               before, after, when, False)))
 
-    # Hires by office, skill and funding: one start moved to another period with the same
-    # count is one ``moved`` row (two rows, fewer and more, had read as two decisions).
-    by_group: dict[tuple[str, str, str], list[tuple[str, int, int]]] = defaultdict(list)
-    for key in sorted(set(a.hires) | set(b.hires), key=lambda k: (k[0], k[1], k[3], ix.get(
-            k[2], -1))):
-        n_base, n_new = a.hires.get(key, 0), b.hires.get(key, 0)
-        if n_base != n_new:
-            office, skill, start, funding = key
-            by_group[(office, skill, funding)].append((start, n_base, n_new))
-    for (office, skill, funding), steps in by_group.items():
-        if len(steps) == 2 and steps[0][2] - steps[0][1] == steps[1][1] - steps[1][2]:
-            (s0, b0, n0), (s1, _, _) = steps
-            old_start, new_start = (s0, s1) if n0 < b0 else (s1, s0)
-            moved = abs(n0 - b0)
-            add("moved", "hire", office, skill, new_start,
-                f"{funding}, from {old_start}", moved, moved)
-            continue
-        for start, n_base, n_new in steps:
-            add("more" if n_new > n_base else "fewer", "hire", office, skill, start, funding,
-                n_base, n_new)
+    for c in hire_changes(a.hires, b.hires, lambda period: ix.get(period, -1)):
+        if c.moved_from is not None:
+            add("moved", "hire", c.office, c.skill, c.start, f"{c.funding}, was {c.moved_from}",
+                c.before, c.after)
+        else:
+            add("more" if c.after > c.before else "fewer", "hire", c.office, c.skill, c.start,
+                c.funding, c.before, c.after)
     for person, period in sorted(set(a.details) | set(b.details)):
         before, after = a.details.get((person, period), ""), b.details.get((person, period), "")
         if before == after:

@@ -25,7 +25,7 @@ from rebalance.analysis.solving import solve_many
 from rebalance.analysis.start_plan import named_like
 from rebalance.instance import Instance
 from rebalance.plan import BUDGET_LINES, Plan
-from rebalance.planning import PlanResult
+from rebalance.planning import PlanResult, plan_run_rate
 from rebalance.solve import SolveOptions
 from rebalance.verify import verify_plan
 
@@ -163,6 +163,9 @@ def _row(name: str, description: str, result: PlanResult, instance: Instance,
         "weighted_shortfall": plan.weighted_shortfall,
         "shortfall_fte_periods": plan.shortfall_fte,
         "total_cost": plan.total_cost,
+        # What the plan's new positions cost in salaries every year after the horizon, not in
+        # total_cost (new money within it): a surge's cost had been read without it.
+        "salary_after_horizon_per_year": plan_run_rate(instance, plan).per_year,
         "hires": plan.hires_count(),
         "detail_periods": len(plan.details),
         "reassignments": len(plan.reassignments),

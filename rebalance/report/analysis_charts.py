@@ -15,17 +15,61 @@ from typing import Any
 
 import pandas as pd
 
+from rebalance.analysis.frontier import KNEE_MIN_POINTS
 from rebalance.analysis.limits import LIMIT_NAMES
 from rebalance.analysis.marginal import STEP_UNITS
-from rebalance.numbers import column_header, column_texts, is_money, money_header
+from rebalance.numbers import (
+    column_header,
+    column_texts,
+    is_money,
+    money_header,
+    number_text,
+    plain_number,
+)
 from rebalance.report.analysis_words import find_column, finite, is_numeric, limit_texts, truthy
 from rebalance.report.htmlparts import e
 
-__all__ = ["CHART_ROWS", "KNEE_MIN_POINTS", "SCENARIO_METRICS", "scenario_names", "step_words"]
+__all__ = ["CHART_ROWS", "GRID_COLUMNS", "KNEE_MIN_POINTS", "SCENARIO_METRICS", "grid_texts",
+           "marginal_texts", "scenario_names", "step_words"]
+
+# A frontier's grid values, as typed: factors of each year's cap or amounts.
+GRID_COLUMNS = ("hiring_budget", "moves_budget")
 
 
-# Fewer budget levels than this mark no knee (see _frontier).
-KNEE_MIN_POINTS = 4
+def grid_texts(frame: pd.DataFrame) -> pd.DataFrame:
+    """A frontier table (console or page) with its grid values as typed: a factor 1.5 as
+    "1.5" and 1 as "1", where the number rule's three decimals had written "1.500" and
+    "1.000"; an amount with separators.  A missing value stays missing."""
+    out = frame.copy()
+    for column in GRID_COLUMNS:
+        if column in out.columns:
+            out[column] = [None if v is None else plain_number(v)
+                           for v in finite(out[column].tolist())]
+    return out
+
+
+# Columns of marginal_values.csv holding a limit's amount (seats, periods, hires, money or a
+# share), each row in its own unit.
+AMOUNT_COLUMNS = ("current",)
+
+
+def marginal_texts(frame: pd.DataFrame, currency: str | None = None) -> pd.DataFrame:
+    """A marginal values table as the page shows it: each limit's ``current`` amount by its
+    own row (52 seats, 2 periods as whole numbers, a share of 0.3 with decimals), and its
+    ``step`` with its unit as the console writes it (+10 seats, -1 period).  One column mixes
+    units, so the number rule's "decimals in every row" had written 52.000 seats and 2.000
+    periods beside a share's 0.300.  The CSV file keeps the numbers."""
+    out = frame.copy()
+    for column in AMOUNT_COLUMNS:
+        if column in out.columns:
+            out[column] = [None if v is None else number_text(v)
+                           for v in finite(out[column].tolist())]
+    if "step" in out.columns and "unit" in out.columns:
+        out["step"] = [None if step is None and not _text(unit) else
+                       step_words(step, _text(unit), currency)
+                       for step, unit in zip(finite(out["step"].tolist()),
+                                             out["unit"].tolist(), strict=True)]
+    return out
 
 
 def _frontier(frame: pd.DataFrame, currency: str | None = None) -> dict[str, Any] | None:
@@ -62,7 +106,8 @@ def _frontier(frame: pd.DataFrame, currency: str | None = None) -> dict[str, Any
                 points.append({"x": xs, "y": ys, "cost": cs, "knee": truthy(ks)})
         if len(points) < KNEE_MIN_POINTS:
             # Any three points bend somewhere, so a "knee" among fewer than four says nothing
-            # about where money starts to buy less: none is ringed.
+            # about where money starts to buy less: none is ringed.  frontier.py marks none
+            # there either (find_knee); a table written before that rule may still hold one.
             for point in points:
                 point["knee"] = False
         if points:

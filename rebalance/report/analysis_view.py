@@ -24,6 +24,8 @@ from rebalance.report.analysis_charts import (
     _marginal_table,
     _marginal_words,
     _scenarios,
+    grid_texts,
+    marginal_texts,
 )
 from rebalance.report.analysis_words import (
     actions_lead,
@@ -36,6 +38,7 @@ from rebalance.report.analysis_words import (
     reasons_by_office,
     scenario_lines,
     status_in_words,
+    years_as_text,
 )
 from rebalance.report.htmlparts import chart, e, frame_table_html, section
 from rebalance.report.inputs import SHEET_ONLY, ReportData
@@ -50,13 +53,17 @@ class AnalysisView:
     nav: tuple[tuple[str, str], ...] = ()
 
 
-def _gap_note(frame: pd.DataFrame) -> str:
-    """:func:`gap_caution` as a note of the page."""
+def _gap_note(frame: pd.DataFrame, key: str = "") -> str:
+    """:func:`gap_caution` as a note of the page: its columns as the table below heads them
+    ("shortfall gap"; a note had sent the reader to the CSV file for a column the table
+    shows), but for the marginal table, which leaves that column out (see :func:`_tables`)."""
     caution = gap_caution(frame)
     if not caution:
         return ""
+    shortfall_gap = ("(<code>shortfall_gap</code> in marginal_values.csv)" if key == "marginal"
+                     else "(the shortfall gap column)")
     marked = e(caution).replace("the gap column", "the <code>gap</code> column").replace(
-        "(the shortfall_gap column)", "(<code>shortfall_gap</code> in the table's CSV file)")
+        "(the shortfall_gap column)", shortfall_gap)
     return f'<p class="note">{marked.replace("(--time-limit)", "(<code>--time-limit</code>)")}</p>'
 
 
@@ -128,7 +135,7 @@ def analysis_payload(data: ReportData,
             within = marginal_gap_words(frame, data.plan.weighted_shortfall
                                         if data.plan is not None else None)
             body += f'<p class="note">{e(within)}</p>' if within else ""
-        body = _gap_note(frame) + body + _tables(frame, key, currency=currency)
+        body = _gap_note(frame, key) + body + _tables(frame, key, currency=currency)
         sections.append(section(key, title, lead, body))
         nav.append((key, title))
     tables = [(name, frame) for name, frame in data.tables if name not in SHEET_ONLY]
@@ -191,7 +198,9 @@ def _tables(frame: pd.DataFrame, name: str, limit: int = 200,
     that table twice the page's width, is a second table below the headline figures."""
     split = _cost_columns(frame) if name == "scenarios" else []
     if name == "scenarios":
-        frame = status_in_words(frame)  # as the console's table says it
+        frame = years_as_text(status_in_words(frame))  # as the console's table says it
+    if name == "frontier":
+        frame = grid_texts(frame)
     if name == "scenarios" and "description" in frame.columns:
         frame = frame.drop(columns="description")  # said in the section's lead, in full
     if name == "marginal" and "shortfall_gap" in frame.columns:
@@ -200,6 +209,8 @@ def _tables(frame: pd.DataFrame, name: str, limit: int = 200,
         frame = frame.drop(columns="shortfall_gap")
     if name == "marginal" and "limit" in frame.columns:
         frame = _limits_in_words(frame)
+    if name == "marginal":
+        frame = marginal_texts(frame, currency)
     if not split:
         return _wrapped(frame_table_html(frame, name, limit=limit, currency=currency))
     label = find_column(frame, ("scenario", "name", "label"), ("scenario", "name"),

@@ -15,7 +15,7 @@ from typing import Any
 import pandas as pd
 
 from rebalance.analysis.limits import limit_words
-from rebalance.numbers import fte_total_text, gap_text, money_amount, money_text
+from rebalance.numbers import fte_total_text, gap_text, money_amount, money_text, years_text
 from rebalance.report.words import outcome_words
 
 __all__ = [
@@ -33,6 +33,7 @@ __all__ = [
     "scenario_lines",
     "status_in_words",
     "truthy",
+    "years_as_text",
 ]
 
 
@@ -186,10 +187,21 @@ def _covered_words(more: float, short: float) -> str:
 def _years_text(value: Any) -> str:
     """The years a budget change named (`` 2027, 2028``, with a space before), as written:
     read back from the CSV file a single year 2027 is the number 2027.0."""
-    if isinstance(value, float) and value.is_integer():
-        return f" {int(value)}"
-    text = _text(value)
+    text = years_text(value)
     return f" {text.replace('; ', ', ')}" if text else ""
+
+
+def years_as_text(frame: pd.DataFrame) -> pd.DataFrame:
+    """``frame`` with its ``*_budget_years`` columns (``scenarios.csv``) as text: read back
+    from the CSV file a single year is a number, which the page's table had written
+    "2,027"."""
+    columns = [c for c in frame.columns if str(c).endswith("_budget_years")]
+    if not columns:
+        return frame
+    out = frame.copy()
+    for column in columns:
+        out[column] = [years_text(v) for v in out[column].tolist()]
+    return out
 
 
 def _budget_words(row: Any, currency: str | None) -> str | None:
@@ -221,6 +233,23 @@ def _budget_words(row: Any, currency: str | None) -> str | None:
     if not known:
         return None
     return "; ".join(said) if said else "budgets unchanged"
+
+
+SALARIES_AFTER = "salary_after_horizon_per_year"
+
+
+def _salaries_words(row: Any, base: Any, currency: str | None) -> str:
+    """The scenario's new positions' salaries after the horizon against the base's
+    ("+32,000 a year in salaries after the horizon"), or "" where the table has no such
+    column (written before it): new money counts only the horizon, and a surge's hires go
+    on being paid after it."""
+    mine, theirs = _number(row, SALARIES_AFTER), _number(base, SALARIES_AFTER)
+    if mine is None or theirs is None:
+        return ""
+    more = mine - theirs
+    if not _shows(money_text(more)):
+        return "salaries after the horizon as the base's"
+    return f"{_signed(more, money_amount(more, currency))} a year in salaries after the horizon"
 
 
 def scenario_lines(frame: pd.DataFrame, currency: str | None = None,
@@ -276,7 +305,8 @@ def scenario_lines(frame: pd.DataFrame, currency: str | None = None,
         money = f"new money {_signed(cost, money_amount(cost, currency))}"
         if _shows(money_text(cost)) and _within(cost, "gap", row, base, total, base_total):
             money += f" {WITHIN_GAPS}"
-        parts.append(money)
+        salaries = _salaries_words(row, base, currency)
+        parts.append(f"{money}, {salaries}" if salaries else money)
         budget = _budget_words(row, currency)
         if budget is not None:
             parts.append(budget)

@@ -92,7 +92,7 @@ def test_compare_and_replan(tmp_path: Path) -> None:
     done = run("replan", str(TINY), "--from", str(edited), "--at", "2027-Q3", "-o",
                str(tmp_path / "replan-edited"), "--gap", "0", "-q")
     assert done.returncode == 0, done.stderr
-    assert "0 change(s) against the old plan from 2027-Q3 on" in done.stdout
+    assert "0 changes against the old plan from 2027-Q3 on" in done.stdout
     assert ("work split: 1 person-period works differently from 2027-Q3 on (no disruption "
             "cost: moving work between a person's skills is not a change of detail, "
             "reassignment or hire)") in done.stdout
@@ -204,6 +204,30 @@ def test_frontier_and_marginal(tmp_path: Path) -> None:
     assert (out / "hires.csv").exists() and (out / "summary.json").exists()
     # The plan folder was replaced whole, but the frontier already in it was kept.
     assert pd.read_csv(out / "frontier.csv").equals(frontier)
+
+
+def test_a_factor_frontier_on_the_console_gives_factors_as_typed_and_each_point_s_money(
+        tmp_path: Path) -> None:
+    # A planner's reading of the demo's frontier: the console showed "1.000" and "1.500", no
+    # money, a knee on a 3-level grid the page said had none, and a footnote about "an empty
+    # moves_budget" above a table that shows "-".
+    out = tmp_path / "fr"
+    done = run("frontier", str(TINY), "--hiring", "0.5x,1x,1.5x", "-o", str(out), "--gap", "0",
+               "--workers", "1")
+    assert done.returncode == 0, done.stderr
+    lines = done.stdout.splitlines()
+    header = lines[0].split()
+    assert header[:4] == ["point", "hiring_budget", "moves_budget", "hiring_cap_total"]
+    assert "extra_cost" in header
+    rows = [line.split() for line in lines[2:5]]
+    # tests/data/tiny/budget.csv: hiring cap 40,000; 0.5x, 1x and 1.5x of it by hand.
+    assert [row[1:4] for row in rows] == [["0.5", "-", "20,000"], ["1", "-", "40,000"],
+                                          ["1.5", "-", "60,000"]]
+    assert [row[-1] for row in rows] == ["no", "no", "no"]  # 3 levels: no knee
+    assert not pd.read_csv(out / "frontier.csv")["knee"].any()
+    said = " ".join(done.stdout.split())
+    assert "empty moves_budget" not in said
+    assert "a moves_budget of - keeps the instance's caps" in said
 
 
 def test_replan_lists_the_rules_the_old_plan_breaks(tmp_path: Path) -> None:

@@ -119,3 +119,40 @@ def test_a_weighted_instance_frontier_is_the_least_shortfall_each_budget_buys() 
     grid = BudgetGrid(hiring=(0.0, 10_000.0, 20_000.0, 100_000.0))
     table = budget_frontier(instance, grid, exact_options(instance), workers=1).table
     assert list(table["weighted_shortfall"]) == pytest.approx([0.0, 0.0, 0.0, 0.0])
+
+
+def test_no_knee_is_marked_below_four_levels_in_the_csv_as_on_the_page() -> None:
+    # A planner's reading of the demo's 3-level frontier (1x, 1.5x, 2x): frontier.csv and the
+    # console marked knee = yes at 1.5x while the page said "No knee is marked: with fewer
+    # than 4 budget levels any line bends somewhere".  The demo's figures (/tmp frontier.csv
+    # of that reading): by hand, 1.5x lies below the chord, so the old rule marked it.
+    from rebalance.analysis.frontier import KNEE_MIN_POINTS
+    from rebalance.report.analysis_charts import KNEE_MIN_POINTS as PAGE_RULE
+
+    assert KNEE_MIN_POINTS == PAGE_RULE == 4  # one rule, the page's
+    x, y = [1.0, 1.5, 2.0], [168.592, 161.740, 159.071]
+    assert find_knee(x, y) is None
+    rows = [{"hiring_budget": h, "moves_budget": None, "weighted_shortfall": w,
+             "verified": True} for h, w in zip(x, y, strict=True)]
+    assert not mark_knees(pd.DataFrame(rows))["knee"].any()
+    # Four points of the hand-drawn curve above still have their knee at 25.
+    assert find_knee([0, 25, 50, 100], [100, 20, 10, 0]) == 1
+
+
+def test_each_point_says_its_caps_in_money_and_its_new_money_over_point_1(tiny) -> None:
+    # A planner's reading: a factor grid's table said only "1.000", "1.500", not how much
+    # money a point's caps allow, nor what more it spends than the first point.
+    grid = BudgetGrid((0.5, 1.0), as_factor=True)
+    table = budget_frontier(tiny, grid, exact_options(tiny), workers=1).table
+    # tests/data/tiny/budget.csv: one year, hiring cap 40,000; 0.5x and 1x of it by hand.
+    assert table["hiring_cap_total"].tolist() == pytest.approx([20_000.0, 40_000.0])
+    assert table["moves_cap_total"].tolist() == pytest.approx([30_000.0, 30_000.0])
+    assert table["extra_cost"].tolist() == pytest.approx(
+        [0.0, table.loc[1, "total_cost"] - table.loc[0, "total_cost"]])
+    # An uncapped year leaves the total unbounded: blank, not the capped years' sum.
+    from dataclasses import replace
+
+    from rebalance.analysis.frontier import cap_total
+
+    uncapped = tiny.with_changes(budgets=tuple(replace(b, hiring=None) for b in tiny.budgets))
+    assert pd.isna(cap_total(uncapped, "hiring"))

@@ -18,10 +18,12 @@ from rebalance.analysis.replan import (
     DisruptionCosts,
     Replan,
     ReplanError,
+    _changes,
     replan,
     work_split_changes,
 )
 from rebalance.analysis.replan_checks import _expected
+from rebalance.analysis.scenario_actions import action_rows
 from rebalance.analysis.scenario_files import DemandChange, Scenario, apply_scenario
 from rebalance.instance import Budget, Instance
 from rebalance.plan import Plan, coverage_table
@@ -778,3 +780,96 @@ def test_work_split_changes_are_counted_though_they_cost_no_disruption(tiny) -> 
     again = replan(tiny, base.plan, 2, exact_options(tiny))
     assert again.result.plan is not None
     assert again.summary.set_index("measure").loc["work_split_changes", "new_plan"] == 0.0
+
+
+# -- changes.csv in compare's words (a planner's reading of demo re-plans) -------------------
+
+def _calm_q4(tiny: Instance) -> Instance:
+    return apply_scenario(tiny, Scenario("calm", "", (
+        DemandChange(("B",), ("review",), (3,), multiplier=0.0),)))
+
+
+def test_a_changed_detail_names_the_skill_worked_there_as_compare_does(tiny) -> None:
+    # A planner's reading: every detail row of changes.csv had an empty skill, while
+    # scenario_actions.csv names the skill worked at the destination.  By hand on
+    # tests/data/tiny: a2 (review 0.8, intake 1.0) is detailed A -> B in Q4, where B wants
+    # review only; with that demand gone, the re-plan from Q3 drops the detail: review.
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    calm = _calm_q4(tiny)
+    out = replan(calm, base.plan, 2, exact_options(calm), DisruptionCosts(1000, 7000, 3000))
+    assert out.result.verified and out.result.plan is not None
+    assert out.changes[["change", "kind", "who", "skill"]].values.tolist() == [
+        ["dropped", "detail", "a2", "review"], ["fewer", "hire (new)", "B", "review"]]
+    # The same words as compare's, from the same function (scenario_actions._main_skills).
+    actions = action_rows("calm", base.plan, out.result.plan, list(calm.period_names), ())
+    assert [(r[3], r[5], r[4]) for r in actions if r[2] == "detail"] == [
+        (r.who, r.period, r.skill) for r in out.changes.itertuples() if r.kind == "detail"]
+
+
+def test_a_hire_start_moved_is_one_moved_row_priced_as_its_two_columns(tiny) -> None:
+    # A planner's reading: compare writes one `moved` row where a hire start moved, the
+    # re-plan a `more` and a `fewer` row.  On tests/data/tiny with a hiring budget of
+    # 200,000 and B's Q3 review demand at 150%, the exact re-plan from Q2 starts B's reviewer
+    # in Q3 instead of Q4: one row, priced as the model prices its hire columns (one fewer in
+    # Q4 and one more in Q3: 2 x 3,000), and the cost stage's objective is still total cost
+    # plus the disruption cost, the sum of changes.csv.
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    rich = tiny.with_changes(budgets=tuple(replace(b, hiring=200_000) for b in tiny.budgets))
+    early = apply_scenario(rich, Scenario("early", "", (
+        DemandChange(("B",), ("review",), (2,), multiplier=1.5),)))
+    out = replan(early, base.plan, 1, exact_options(early), DisruptionCosts(1000, 7000, 3000))
+    assert out.result.verified
+    b_hires = out.changes[(out.changes.kind == "hire (new)") & (out.changes.who == "B")]
+    assert b_hires.values.tolist() == [
+        ["moved", "hire (new)", "B", "review", "2027-Q3", "1 in 2027-Q4", "1 in 2027-Q3", 6000]]
+    assert out.disruption_cost == out.changes["disruption_cost"].sum()
+    total = out.summary.set_index("measure").loc["total_cost", "new_plan"]
+    assert _cost_stage_objective(out) == pytest.approx(total + out.disruption_cost)
+
+
+def test_only_a_start_moved_whole_is_a_moved_row(tiny) -> None:
+    # scenario_actions.csv's rule, by hand on hand-made hire tables: 1 hire at B from Q4
+    # becomes 2 from Q3 (one moved and one more, or one more and one fewer: not one move, so
+    # two rows, as compare writes them); the same change of a vacancy is its own group.
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    cols = list(base.plan.hires.columns)
+
+    def hires(*rows: tuple[str, int, str]) -> Plan:
+        return replace(base.plan, hires=pd.DataFrame(
+            [["B", "review", start, n, funding, 8000.0 * n, 20000.0 * n]
+             for start, n, funding in rows], columns=cols))
+
+    costs = DisruptionCosts(1000, 7000, 3000)
+    grew = _changes(tiny, hires(("2027-Q4", 1, "new")), hires(("2027-Q3", 2, "new")), costs)
+    assert grew[["change", "period", "old", "new", "disruption_cost"]].values.tolist() == [
+        ["more", "2027-Q3", 0, 2, 6000], ["fewer", "2027-Q4", 1, 0, 3000]]
+    both = _changes(tiny, hires(("2027-Q4", 1, "new"), ("2027-Q4", 1, "vacancy")),
+                    hires(("2027-Q3", 1, "new"), ("2027-Q2", 1, "vacancy")), costs)
+    assert both[["change", "kind", "period", "old", "new"]].values.tolist() == [
+        ["moved", "hire (vacancy)", "2027-Q2", "1 in 2027-Q4", "1 in 2027-Q2"],
+        ["moved", "hire (new)", "2027-Q3", "1 in 2027-Q4", "1 in 2027-Q3"]]
+    assert both["disruption_cost"].sum() == 4 * 3000  # four hire columns changed by one
+
+
+def test_the_console_counts_changes_in_words(tmp_path: Path, capsys) -> None:
+    # A planner's reading: "0 change(s) against the old plan".  By hand on tests/data/tiny:
+    # the same data give no change; with B's Q4 review demand gone, a re-plan from Q4 drops
+    # a2's Q4 detail and keeps the hire under way: one change.
+    from rebalance.cli import EXIT_OK, main
+
+    assert main(["plan", str(DATA / "tiny"), "-o", str(tmp_path / "old"), "-q",
+                 "--gap", "0"]) == EXIT_OK
+    capsys.readouterr()
+    assert main(["replan", str(DATA / "tiny"), "--from", str(tmp_path / "old"), "--at",
+                 "2027-Q3", "-o", str(tmp_path / "same"), "-q", "--gap", "0"]) == EXIT_OK
+    assert "\n0 changes against the old plan from 2027-Q3 on\n" in capsys.readouterr().out
+    calm = tmp_path / "calm.toml"
+    calm.write_text('name = "calm"\n\n[[demand]]\noffices = ["B"]\nskills = ["review"]\n'
+                    'periods = ["2027-Q4"]\nmultiplier = 0.0\n')
+    assert main(["replan", str(DATA / "tiny"), "--from", str(tmp_path / "old"), "--at",
+                 "2027-Q4", "-o", str(tmp_path / "calm"), "-q", "--gap", "0",
+                 "--scenario", str(calm)]) == EXIT_OK
+    assert "\n1 change against the old plan from 2027-Q4 on\n" in capsys.readouterr().out

@@ -195,7 +195,8 @@ def test_each_scenario_line_says_where_demand_landed_how_much_is_covered_and_the
     (line,) = scenario_lines(comparison.table, None, comparison.offices)
     assert f"demand +{more:.1f} FTE-periods (B +{more:.1f})" in line
     assert f"of it {more - short:.1f} covered and {short:.1f} left short" in line
-    assert f"new money +{rush.total_cost - base.total_cost:,.0f};" in line
+    # Its salaries after the horizon follow (test below).
+    assert f"new money +{rush.total_cost - base.total_cost:,.0f}, " in line
     assert (f"hiring budget 2027 +20,000, {hiring(rush) - hiring(base):,.0f} more spent under"
             in line)
     assert "(a budget pays for hires anywhere in its year, not only the surge's)" in line
@@ -203,6 +204,56 @@ def test_each_scenario_line_says_where_demand_landed_how_much_is_covered_and_the
                    - by_office["base"].loc["B", "shortfall_fte"])
     assert f"shortfall by office against the base: B +{shortfall_b:.1f}" in line
     assert "within the solves' gaps" not in line  # exact solves: no gap to be within
+
+
+def test_each_plan_says_its_salaries_after_the_horizon_as_the_plan_page_does(tiny) -> None:
+    # A planner's reading of the demo comparison: "what does the surge cost us" gave new
+    # money within the horizon only, while the base's new positions cost 1,408,000 a year
+    # after it, harbour's 1,440,000 and storm's 1,472,000 (the plan pages' figures).
+    from analysis_helpers import exact_options
+
+    from rebalance.report.analysis_words import scenario_lines
+    from rebalance.report.limits_view import plan_run_rate
+
+    surge = Scenario("b-rush", "review rush at B",
+                     (DemandChange(("B",), ("review",), None, add_fte=1.5),))
+    comparison = compare_scenarios(tiny, [surge], exact_options(tiny), workers=1)
+    table = comparison.table.set_index("scenario")
+    salary = {"review": 20_000.0, "intake": 15_000.0}  # tests/data/tiny/skills.csv
+    for name, result in zip(comparison.names, comparison.results, strict=True):
+        assert result.plan is not None
+        hires = result.plan.hires
+        new = hires[hires["funding"] == "new"]
+        # By hand: each new position's salary a period, times tiny's 4 periods a year.
+        by_hand = sum(n * salary[k] * 4 for k, n in zip(new["skill"], new["count"],
+                                                        strict=True))
+        figure = table.loc[name, "salary_after_horizon_per_year"]
+        assert figure == pytest.approx(by_hand)
+        # The plan page's figure (its card "Salaries after the horizon").
+        assert figure == pytest.approx(plan_run_rate(result.instance, result.plan).per_year)
+    more = (table.loc["b-rush", "salary_after_horizon_per_year"]
+            - table.loc["base", "salary_after_horizon_per_year"])
+    (line,) = scenario_lines(comparison.table, None, comparison.offices)
+    assert (f"+{more:,.0f} a year in salaries after the horizon" in line if more > 0
+            else "salaries after the horizon as the base's" in line)
+
+
+def test_the_scenario_line_gives_the_salaries_after_the_horizon_against_the_base() -> None:
+    import pandas as pd
+
+    from rebalance.report.analysis_words import scenario_lines
+
+    # The demo's figures of a planner's reading (plan pages' "Salaries after the horizon"):
+    # base 1,408,000, harbour 1,440,000 a year: +32,000 by hand.
+    frame = pd.DataFrame({
+        "scenario": ["base", "rush"], "description": ["the instance as it is", "a rush"],
+        "demand_fte_periods": [2021.6, 2045.6], "weighted_shortfall": [168.6, 189.9],
+        "total_cost": [2_463_500.0, 2_470_500.0],
+        "salary_after_horizon_per_year": [1_408_000.0, 1_440_000.0]})
+    (line,) = scenario_lines(frame, "EUR")
+    assert "new money +7,000 EUR, +32,000 EUR a year in salaries after the horizon" in line
+    (line,) = scenario_lines(frame.drop(columns="salary_after_horizon_per_year"))
+    assert "salaries" not in line  # a table written before the column
 
 
 def test_a_difference_within_the_solves_gaps_is_marked_and_old_tables_say_less() -> None:
@@ -270,7 +321,7 @@ def test_action_rows_of_hand_made_plans() -> None:
         ("s", "added", "detail", "p6", "", "2027-Q3", "A -> B", 0, 1, "during", False),
         ("s", "more", "hire", "A", "intake", "2027-Q3", "vacancy", 2, 3, "during", False),
         # B's one new review hire starts in 2027-Q3 instead of 2027-Q2: one row, not two.
-        ("s", "moved", "hire", "B", "review", "2027-Q3", "new, from 2027-Q2", 1, 1, "during",
+        ("s", "moved", "hire", "B", "review", "2027-Q3", "new, was 2027-Q2", 1, 1, "during",
          False),
         ("s", "changed", "reassignment", "p4", "review", "2027-Q3",
          "A -> B from 2027-Q2, now A -> B from 2027-Q3", 1, 1, "during", False)]

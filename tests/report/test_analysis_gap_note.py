@@ -52,3 +52,15 @@ def test_shortfall_is_held_to_its_own_stages_gap_not_the_cost_stages() -> None:
     # Weighted mode has no shortfall stage: the one gap is said as before.
     weighted = frame.assign(shortfall_gap=None)
     assert "up to 5.59% (the gap column)" in gap_caution(weighted)
+
+
+def test_the_note_names_the_shortfall_gap_column_as_the_table_heads_it() -> None:
+    # A planner's reading: the comparison page and the frontier section said "(shortfall_gap
+    # in the table's CSV file)" above a table that shows a "shortfall gap" column; only the
+    # marginal table leaves that column out, to marginal_values.csv.
+    frame = pd.DataFrame({"scenario": ["base", "surge"], "gap": [0.0233, 0.0362],
+                          "shortfall_gap": [0.0048, 0.0100]})
+    for key in ("scenarios", "frontier"):
+        note = _gap_note(frame, key)
+        assert "(the shortfall gap column)" in note and "CSV file" not in note, key
+    assert "(<code>shortfall_gap</code> in marginal_values.csv)" in _gap_note(frame, "marginal")

@@ -347,3 +347,99 @@ def test_marginal_values_within_the_gap_are_said_not_firm() -> None:
         "are not firm: hiring budget 2027.")
     assert marginal_gap_words(frame.assign(shortfall_gap=0.0), 168.6) == ""  # exact solves
     assert marginal_gap_words(frame, None) == ""
+
+
+# A planner's reading of the analysis pages of the demo (compare, frontier, marginal).
+
+def _table_rows(section: str, name: str) -> list[list[str]]:
+    table = re.search(rf'<table class="sortable" data-table="{name}">(.*?)</table>', section,
+                      re.S)
+    assert table is not None
+    return [[html.unescape(page_text(c)).strip()
+             for c in re.findall(r"<td\b[^>]*>(.*?)</td>", row, re.S)]
+            for row in re.findall(r"<tr>(.*?)</tr>", table.group(1), re.S)[1:]]
+
+
+def _headers(section: str, name: str) -> list[str]:
+    head = re.search(rf'data-table="{name}">(.*?)</thead>', section, re.S)
+    assert head is not None
+    return [html.unescape(h) for h in re.findall(r"<th\b[^>]*>(.*?)</th>", head.group(1))]
+
+
+def test_marginal_amounts_that_are_counts_read_as_whole_numbers():
+    # The page had "52.000" seats and a step of "10.000", time to hire "2.000" and "-1.000"
+    # periods, a hire count "2.000": one column held a share of 0.15 too, so every row took
+    # three decimals.  Expected texts written by hand from demo_marginal_table's rows.
+    section = _section(_demo_page(), "marginal")
+    headers = _headers(section, "marginal")
+    rows = {row[headers.index("limit")]: row for row in _table_rows(section, "marginal")}
+    current, step = headers.index("current"), headers.index("step")
+    seats = rows["seats at port-ilse-central in every period"]
+    assert (seats[current], seats[step]) == ("52", "+10 seats")
+    hire = rows["time to hire of environmental_review"]
+    assert (hire[current], hire[step]) == ("2", "-1 period")
+    slots = rows["hiring slots at port-ilse-harbour in every period"]
+    assert (slots[current], slots[step]) == ("2", "+1 hire per period")
+    budget = rows["hiring budget 2027"]
+    assert (budget[current], budget[step]) == ("520,000", "+100,000 money")
+    share = rows["away share, every office"]
+    assert (share[current], share[step]) == ("0.150", "+0.05 share of people")
+
+
+def test_a_budget_year_reads_as_a_year_in_the_scenarios_table(tmp_path):
+    # The page had written the storm's hiring budget year as "2,027": read back from
+    # scenarios.csv a single year is a number.  The demo comparison's budget columns.
+    folder = tmp_path / "plan"
+    shutil.copytree(tiny_plan_folder(), folder)
+    table = demo_scenarios_table_with_budgets()
+    table.to_csv(folder / "scenarios.csv", index=False)
+    section = _section(render_html(report_data_from_folder(folder, read_instance(TINY))),
+                       "scenarios")
+    headers = _headers(section, "scenarios")
+    rows = _table_rows(section, "scenarios")
+    years = headers.index("hiring budget years")
+    assert [row[years] for row in rows] == ["", "", "2027"]
+    assert "2,027" not in page_text(section)
+
+
+def demo_scenarios_table_with_budgets() -> pd.DataFrame:
+    """The demo comparison's table (report_cases) with the budget columns of a planner's
+    run: the storm's hiring budget +150,000 in 2027."""
+    from report_cases import demo_scenarios_table
+
+    table = demo_scenarios_table()
+    table.insert(1, "description", ["the instance as it is", "a rush", "a storm"])
+    table["hiring_budget_change"] = [0.0, 0.0, 150_000.0]
+    table["hiring_budget_years"] = ["", "", "2027"]
+    table["hiring_spent_change"] = [0.0, 0.0, 148_000.0]
+    return table
+
+
+def test_a_frontier_table_gives_factors_as_typed_and_each_point_s_money(tmp_path):
+    # The page had shown only factors, "1.000" and "1.500", and marked no knee in its chart
+    # while the table said knee = yes.  Figures of the demo's frontier (1x, 1.5x, 2x of
+    # hiring caps 520,000 and 1,400,000: totals 1,920,000, 2,880,000, 3,840,000 by hand).
+    folder = tmp_path / "plan"
+    shutil.copytree(tiny_plan_folder(), folder)
+    pd.DataFrame({
+        "point": [1, 2, 3], "hiring_budget": [1.0, 1.5, 2.0], "moves_budget": [None] * 3,
+        "budget_unit": ["times each year's cap"] * 3,
+        "hiring_cap_total": [1_920_000.0, 2_880_000.0, 3_840_000.0],
+        "moves_cap_total": [560_000.0] * 3, "status": ["feasible_with_gap"] * 3,
+        "verified": [True] * 3, "gap": [0.0241, 0.0791, 0.1524],
+        "shortfall_gap": [0.0048, 0.0090, 0.0126],
+        "weighted_shortfall": [168.592, 161.740, 159.071],
+        "total_cost": [2_463_500.0, 3_420_000.0, 4_229_000.0],
+        "extra_cost": [0.0, 956_500.0, 1_765_500.0], "knee": [False] * 3,
+    }).to_csv(folder / "frontier.csv", index=False)
+    section = _section(render_html(report_data_from_folder(folder, read_instance(TINY))),
+                       "frontier")
+    headers = _headers(section, "frontier")
+    rows = _table_rows(section, "frontier")
+    factor, cap, extra = (headers.index(h) for h in ("hiring budget", "hiring cap total",
+                                                      "extra cost"))
+    assert [row[factor] for row in rows] == ["1", "1.5", "2"]
+    assert [row[cap] for row in rows] == ["1,920,000", "2,880,000", "3,840,000"]
+    assert [row[extra] for row in rows] == ["0", "956,500", "1,765,500"]
+    note = html.unescape(page_text(section))
+    assert "(the shortfall gap column)" in note and "CSV file" not in note

@@ -131,10 +131,17 @@ def cmd_plan(args: argparse.Namespace) -> int:
     if not result.verified:
         _err("the plan failed verification; nothing was written")
         return EXIT_VERIFICATION_FAILED
+    from rebalance.analysis.output import write_tables
+    from rebalance.analysis.reasons import reasons
     from rebalance.report.files import plan_extras
 
     def extra(result: PlanResult, folder: Path) -> None:
-        _keep_frontier(args.out, folder)  # first: the report shows it
+        assert result.plan is not None  # write_outputs writes only a plan
+        # Why each hire, detail and shortfall, with every plan (as the analyses write it):
+        # a planner defending a plain plan had no reason for a detail away from an office
+        # that is short itself.  First, with the frontier: the report shows both.
+        write_tables({"reasons.csv": reasons(instance, result.plan).table}, folder)
+        _keep_frontier(args.out, folder)
         plan_extras(args.instance)(result, folder)
 
     write_outputs(result, args.out, extra=extra)

@@ -37,6 +37,7 @@ from rebalance.cli_common import (
 )
 from rebalance.instance import Instance
 from rebalance.report.console import format_frame, is_missing
+from rebalance.report.inputs import SCENARIO_KEY
 from rebalance.report.words import plain_status
 from rebalance.solve import Status
 
@@ -79,10 +80,12 @@ def _say_unverified(head: str, result: PlanResult) -> None:
 def _write_analysis_plan(args: argparse.Namespace, result, instance: Instance,
                          tables: dict, instance_path: str | None, written: str,
                          more: Callable[[Path], None] | None = None,
-                         replanned_at: int | None = None, scenario: str | None = None) -> int:
+                         replanned_at: int | None = None, scenario: str | None = None,
+                         assumed: dict | None = None) -> int:
     """Write a verified analysis plan to ``args.out`` with ``tables``, its reasons and the
     report; ``more`` adds to the folder first.  ``instance_path`` is recorded for
-    'rebalance report'."""
+    'rebalance report'; ``assumed``, what a re-plan's scenario changed
+    (:func:`rebalance.report.scenario_notes.scenario_entry`), for its page's box."""
     from rebalance.analysis.output import write_tables
     from rebalance.analysis.reasons import reasons
     from rebalance.planning import CAUTION, write_outputs
@@ -97,6 +100,8 @@ def _write_analysis_plan(args: argparse.Namespace, result, instance: Instance,
             summary = json.loads((folder / "summary.json").read_text())
             summary["replan"] = {"from_period": instance.period_names[replanned_at],
                                  "scenario": scenario}
+            if assumed is not None:
+                summary[SCENARIO_KEY] = assumed
             (folder / "summary.json").write_text(json.dumps(summary, indent=2) + "\n")
         if more is not None:
             more(folder)
@@ -132,6 +137,7 @@ def cmd_compare(args: argparse.Namespace) -> int:
     from rebalance.report.analysis_words import FROM_BASE_WORDS, scenario_lines, status_in_words
     from rebalance.report.files import write_reports
     from rebalance.report.inputs import report_data
+    from rebalance.report.scenario_notes import scenario_entry
 
     instance = _load(args.instance)
     if instance is None:
@@ -178,6 +184,8 @@ def cmd_compare(args: argparse.Namespace) -> int:
                             "written", result)
             return EXIT_VERIFICATION_FAILED
 
+    by_name = {s.name: s for s in scenarios}
+
     def scenario_plans(folder: Path) -> None:
         # Inside the compare's staged folder, so each scenario's files land in its one swap.
         for name, other in zip(comparison.names[1:], comparison.results[1:], strict=True):
@@ -186,8 +194,11 @@ def cmd_compare(args: argparse.Namespace) -> int:
             sub = folder / "scenarios" / folder_name(name)
             sub.mkdir(parents=True)
             write_plan(other.plan, sub)
-            # Which scenario's data it keeps: verify against the instance names it.
-            summary = {**summary_dict(other), "scenario": name}
+            # Which scenario's data it keeps: verify against the instance names it; and what
+            # the scenario changed, for its page's and workbook's box (the storm's page had
+            # shown a hiring cap with no word that part of it was the scenario's).
+            summary = {**summary_dict(other), "scenario": name,
+                       SCENARIO_KEY: scenario_entry(by_name[name], instance, other.instance)}
             (sub / "summary.json").write_text(json.dumps(summary, indent=2) + "\n")
             write_tables({"reasons.csv": reasons(other.instance, other.plan).table}, sub)
             # Its own report.html and plan.xlsx (a leader had only CSV files to open), drawn
@@ -222,13 +233,16 @@ def cmd_replan(args: argparse.Namespace) -> int:
     except PlanError as exc:
         return _unreadable_plan(folder, exc)
     scenario_name: str | None = None
+    assumed: dict | None = None
     if args.scenario:
         from rebalance.analysis.scenario_files import ScenarioError, apply_scenario, read_scenario
+        from rebalance.report.scenario_notes import scenario_entry
 
         try:
             applied = read_scenario(args.scenario, instance)
-            instance = apply_scenario(instance, applied)
+            base, instance = instance, apply_scenario(instance, applied)
             scenario_name = applied.name
+            assumed = scenario_entry(applied, base, instance)
         except ScenarioError as exc:
             _say_first(f"{len(exc.problems)} problem(s) in the scenario file; "
                        "nothing was written", exc.problems)
@@ -292,7 +306,7 @@ def cmd_replan(args: argparse.Namespace) -> int:
                                 {"changes.csv": out.changes, "replan.csv": out.summary},
                                 None if args.scenario else args.instance,
                                 "new plan, changes.csv and replan.csv", replanned_at=out.at,
-                                scenario=scenario_name)
+                                scenario=scenario_name, assumed=assumed)
 
 
 def cmd_frontier(args: argparse.Namespace) -> int:

@@ -110,6 +110,29 @@ def money_text(value: float) -> str:
     return f"{round(v):,d}"
 
 
+def typed_places(values: Iterable[object], most: int = 10) -> int:
+    """The decimals the values of a column were given with, the most of them (0.5 and 1.25:
+    2), at most ``most``; an exponent's digits (1e18) are none."""
+    places = 0
+    for v in values:
+        if isinstance(v, int | float) and not isinstance(v, bool) and math.isfinite(v):
+            text = plain_number(v)
+            if "e" not in text:
+                places = max(places, len(text.partition(".")[2]))
+    return min(places, most)
+
+
+def grid_column_texts(values: Sequence[object]) -> list[str | None]:
+    """A column of values a planner typed (a frontier's factors 0.5, 1, 1.5): each with the
+    decimals the most precise of them has, the same in every row (0.5, 1.0, 1.5): "1.000"
+    had been more digits than anyone typed, and "0.5" beside "1" a column read two ways.
+    None for a missing value."""
+    places = typed_places(values)
+    return [None if not (isinstance(v, int | float) and not isinstance(v, bool)
+                         and math.isfinite(v)) else f"{float(v):,.{places}f}"
+            for v in values]
+
+
 def plain_number(value: float) -> str:
     """A number given in an input, for a message echoing it: ``1e13`` as
     ``10,000,000,000,000`` (Python's ``1e+13`` had read as code to a planner, a sweep), every

@@ -98,7 +98,7 @@ def make_plan(instance: Instance, options: SolveOptions, pooled: bool = True,
     build_seconds = time.perf_counter() - started
     if options.progress is not None:
         # By the number rule's seconds_text, as the console's summary and the page show it.
-        options.progress(f"model: {model.num_cols:,} columns ({model.num_integer:,} integer), "
+        options.progress(f"model: {model.num_cols:,} columns ({model.num_integer:,} whole-number), "
                          f"{model.num_rows:,} rows, built in {seconds_text(build_seconds)}s")
     # Naming people and verifying the plan come after the solve, inside the same limit.
     remaining = max(0.5, options.time_limit_seconds * (1.0 - options.shares.finish)

@@ -428,8 +428,8 @@ def test_a_replans_comparison_prints_by_the_one_number_rule(tmp_path, capsys):
     # Columns are two spaces or more apart; each measure reads in words.
     cells = [re.split(r"\s{2,}", line.strip()) for line in out.splitlines()]
     rows = {c[0]: c[1:] for c in cells
-            if c[0] in ("total cost", "hires", "disruption cost", "weighted shortfall")}
-    assert rows["total cost"] == ["43,000 EUR", "43,000 EUR", "0 EUR"]
+            if c[0] in ("new money", "hires", "disruption cost", "weighted shortfall")}
+    assert rows["new money"] == ["43,000 EUR", "43,000 EUR", "0 EUR"]
     assert rows["disruption cost"] == ["0 EUR", "0 EUR", "0 EUR"]
     assert rows["hires"] == ["1", "1", "0"]
     assert rows["weighted shortfall"][-1] == "0"

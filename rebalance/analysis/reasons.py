@@ -86,10 +86,11 @@ class _Context:
         self.own: dict[tuple[str, str, int], float] = defaultdict(float)
         self.staff_out: dict[tuple[str, str, int], float] = defaultdict(float)
         self.short: dict[tuple[str, str, int], float] = {}
+        # Columns as lists: stepping through pandas arrays item by item was most of this.
         for o, k, p, dem, staff_out, hire_out, short in zip(
-                c["office"].astype(str), c["skill"].astype(str), c["period"].astype(str),
-                c["demand_fte"].astype(float), c["staff_output_fte"].astype(float),
-                c["hire_output_fte"].astype(float), c["shortfall_fte"].astype(float),
+                *(_texts(c[name]) for name in ("office", "skill", "period")),
+                *(_floats(c[name]) for name in ("demand_fte", "staff_output_fte",
+                                                "hire_output_fte", "shortfall_fte")),
                 strict=True):
             t = self.ix[p]
             self.demand[(o, k, t)] = dem
@@ -97,15 +98,15 @@ class _Context:
             self.staff_out[(o, k, t)] = staff_out
             self.short[(o, k, t)] = short
         # Output of people on detail, by destination: removed to see the office's own cover.
-        self.away = {(str(p), self.ix[str(t)]): str(to) for p, t, to in zip(
-            plan.details["person"], plan.details["period"], plan.details["to_office"],
-            strict=True)}
+        d = plan.details
+        self.away = {(p, self.ix[t]): to for p, t, to in zip(
+            _texts(d["person"]), _texts(d["period"]), _texts(d["to_office"]), strict=True)}
         self.visitor_out: dict[tuple[str, str, int], float] = defaultdict(float)
         self.person_out: dict[tuple[str, int], dict[str, float]] = defaultdict(dict)
         w = plan.work
-        for p, per, o, k, out in zip(w["person"].astype(str), w["period"].astype(str),
-                                     w["office"].astype(str), w["skill"].astype(str),
-                                     w["output_fte"].astype(float), strict=True):
+        for p, per, o, k, out in zip(
+                *(_texts(w[name]) for name in ("person", "period", "office", "skill")),
+                _floats(w["output_fte"]), strict=True):
             t = self.ix[per]
             if self.away.get((p, t)) == o:
                 self.visitor_out[(o, k, t)] += out
@@ -123,6 +124,14 @@ class _Context:
         key = (office, skill, t)
         return self.demand.get(key, 0.0) - (self.own[key] - self.person_out.get(
             (person, t), {}).get(skill, 0.0))
+
+
+def _texts(column: pd.Series) -> list[str]:
+    return column.astype(str).tolist()
+
+
+def _floats(column: pd.Series) -> list[float]:
+    return column.astype(float).tolist()
 
 
 def _periods(n: int) -> str:
@@ -207,9 +216,8 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
     runs: list[tuple[str, str, str, int, int]] = []
     d = plan.details
     by_person: dict[str, list[tuple[int, str, str]]] = defaultdict(list)
-    for p, per, a, b in zip(d["person"].astype(str), d["period"].astype(str),
-                            d["from_office"].astype(str), d["to_office"].astype(str),
-                            strict=True):
+    for p, per, a, b in zip(*(_texts(d[name]) for name in ("person", "period", "from_office",
+                                                              "to_office")), strict=True):
         by_person[p].append((ix[per], a, b))
     for p, items in sorted(by_person.items()):
         items.sort()
@@ -282,11 +290,12 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
 
     # -- reassignments: a lasting gap at the new home -----------------------------------------
     r = plan.reassignments
-    for p, per, a, b, cost in zip(r["person"].astype(str), r["period"].astype(str),
-                                  r["from_office"].astype(str), r["to_office"].astype(str),
-                                  r["cost"].astype(float), strict=True):
+    staff = {x.person: x for x in instance.staff}
+    for p, per, a, b, cost in zip(
+            *(_texts(r[name]) for name in ("person", "period", "from_office", "to_office")),
+            _floats(r["cost"]), strict=True):
         t0 = ix[per]
-        person = next(x for x in instance.staff if x.person == p)
+        person = staff[p]
         left = [t for t in range(t0, T) if person.is_present(t)]
         skill_gaps = {k: sum(1 for t in left if ctx.gap_without(p, b, k, t) > _EPS)
                       for k, _ in person.skills}
@@ -300,13 +309,14 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
         rows.append(("reassignment", p, b, skill, per, names[T - 1], 1.0, text, ""))
 
     # -- shortfalls: the binding limits that could matter -------------------------------------
+    limits = _Binding(instance, binding)
     for (o, k, t), short in sorted(ctx.short.items(), key=lambda kv: (kv[0][2], kv[0])):
         if short <= _EPS:
             continue
-        cited = _relevant(instance, binding, o, k, t)
+        cited = limits.relevant(o, k, t)
         if cited:
             text = (f"{_fte(short)} FTE short; held back by " +
-                    "; ".join(_describe(u, instance) for u in cited))
+                    "; ".join(limits.describe(u) for u in cited))
         else:
             text = (f"{_fte(short)} FTE short; no binding limit found for it (the gap may be "
                     "below what one more whole head adds after ramp-up and attrition, or the "
@@ -346,37 +356,76 @@ def _early_start(instance: Instance, office: str, skill: str, s: int, first: int
             "(review)")
 
 
-def _relevant(instance: Instance, binding: list[LimitUse], office: str, skill: str,
-              t: int) -> list[LimitUse]:
-    names = instance.period_names
-    T = len(names)
-    tth = instance.skill(skill).time_to_hire
-    hire_possible = tth <= t
-    hire_years = {instance.periods[s].year for s in range(tth, T)} if hire_possible else set()
-    hire_periods = {names[s] for s in range(tth, t + 1)}
-    seat_periods = {names[s] for s in range(tth, T)} if hire_possible else set()
-    seat_periods.add(names[t])
-    sources = {p.home_office for p in instance.staff
-               if p.home_office != office and p.can_detail and p.is_present(t)
-               and p.proficiency(skill) > 0}
-    out = []
-    for u in binding:
-        if u.limit == "time_to_hire":
-            keep = u.where == skill and u.period == names[t]
-        elif u.limit == "hiring_budget":
-            keep = u.where in hire_years
-        elif u.limit == "max_hires":
-            keep = u.where == office and u.period in hire_periods
-        elif u.limit == "seats":
-            keep = u.where == office and u.period in seat_periods
-        elif u.limit == "away_share":
-            keep = u.where in sources and u.period == names[t]
-        elif u.limit == "moves_budget":
-            keep = bool(sources) and u.where == instance.periods[t].year
-        elif u.limit == "vacancies":
-            keep = hire_possible and u.where == f"{skill} at {office}"
-        else:
-            keep = False
-        if keep:
-            out.append(u)
-    return out
+class _Binding:
+    """The binding limits, found by scope: each shortfall had read every binding limit and
+    every person (a generated large plan's reasons took 8 s of the 10 s ``plan`` keeps for
+    writing its files, most of it there; 0.6 s now)."""
+
+    def __init__(self, instance: Instance, binding: list[LimitUse]) -> None:
+        self.i = instance
+        self.names = instance.period_names
+        # By scope, and an away share by period too (a large plan's shortfalls each met the
+        # away shares of dozens of offices in every period).
+        self.by_scope: dict[tuple[str, str], list[tuple[int, LimitUse]]] = defaultdict(list)
+        for n, u in enumerate(binding):
+            self.by_scope[(u.where, u.period if u.limit == "away_share" else "")].append((n, u))
+        self.words: dict[LimitUse, str] = {}
+        # By skill and home office: the last period a person who could be detailed to cover
+        # the skill is present (people with no last period: the horizon's last).
+        T = len(self.names)
+        self.last_present: dict[str, dict[str, int]] = defaultdict(dict)
+        for p in instance.staff:
+            if not p.can_detail:
+                continue
+            last = T - 1 if p.last_period is None else p.last_period
+            for skill, _ in p.skills:
+                if p.proficiency(skill) > 0:
+                    homes = self.last_present[skill]
+                    homes[p.home_office] = max(homes.get(p.home_office, -1), last)
+
+    def describe(self, use: LimitUse) -> str:
+        """:func:`_describe`, once per limit (the demo's seats are cited by many shortfalls)."""
+        if use not in self.words:
+            self.words[use] = _describe(use, self.i)
+        return self.words[use]
+
+    def relevant(self, office: str, skill: str, t: int) -> list[LimitUse]:
+        """The binding limits that could matter to a shortfall of ``skill`` at ``office`` in
+        period ``t``, in the order :func:`limit_use` gives them."""
+        instance, names = self.i, self.names
+        T = len(names)
+        tth = instance.skill(skill).time_to_hire
+        hire_possible = tth <= t
+        hire_years = {instance.periods[s].year for s in range(tth, T)} if hire_possible else set()
+        hire_periods = {names[s] for s in range(tth, t + 1)}
+        seat_periods = {names[s] for s in range(tth, T)} if hire_possible else set()
+        seat_periods.add(names[t])
+        sources = {home for home, last in self.last_present.get(skill, {}).items()
+                   if home != office and t <= last}
+        year = instance.periods[t].year
+        # Only limits scoped to one of these can be kept below; each limit has one scope.
+        scopes = {(where, "") for where in (skill, office, year, f"{skill} at {office}",
+                                            *hire_years)}
+        scopes.update((home, names[t]) for home in sources)
+        out = []
+        for _, u in sorted((item for scope in scopes for item in self.by_scope.get(scope, ())),
+                           key=lambda item: item[0]):
+            if u.limit == "time_to_hire":
+                keep = u.where == skill and u.period == names[t]
+            elif u.limit == "hiring_budget":
+                keep = u.where in hire_years
+            elif u.limit == "max_hires":
+                keep = u.where == office and u.period in hire_periods
+            elif u.limit == "seats":
+                keep = u.where == office and u.period in seat_periods
+            elif u.limit == "away_share":
+                keep = u.where in sources and u.period == names[t]
+            elif u.limit == "moves_budget":
+                keep = bool(sources) and u.where == year
+            elif u.limit == "vacancies":
+                keep = hire_possible and u.where == f"{skill} at {office}"
+            else:
+                keep = False
+            if keep:
+                out.append(u)
+        return out

@@ -19,15 +19,15 @@ from rebalance.analysis.frontier import KNEE_MIN_POINTS
 from rebalance.analysis.limits import LIMIT_NAMES
 from rebalance.analysis.marginal import STEP_UNITS
 from rebalance.numbers import (
-    column_header,
     column_texts,
+    grid_column_texts,
     is_money,
     money_header,
     number_text,
-    plain_number,
 )
 from rebalance.report.analysis_words import find_column, finite, is_numeric, limit_texts, truthy
 from rebalance.report.htmlparts import e
+from rebalance.report.words import readable
 
 __all__ = ["CHART_ROWS", "GRID_COLUMNS", "KNEE_MIN_POINTS", "SCENARIO_METRICS", "grid_texts",
            "marginal_texts", "scenario_names", "step_words"]
@@ -37,14 +37,14 @@ GRID_COLUMNS = ("hiring_budget", "moves_budget")
 
 
 def grid_texts(frame: pd.DataFrame) -> pd.DataFrame:
-    """A frontier table (console or page) with its grid values as typed: a factor 1.5 as
-    "1.5" and 1 as "1", where the number rule's three decimals had written "1.500" and
-    "1.000"; an amount with separators.  A missing value stays missing."""
+    """A frontier table (console or page) with its grid values as typed, the same decimals
+    in every row (:func:`~rebalance.numbers.grid_column_texts`: 0.5, 1.0, 1.5), where the
+    number rule's three decimals had written "1.500" and "1.000"; an amount with
+    separators.  A missing value stays missing."""
     out = frame.copy()
     for column in GRID_COLUMNS:
         if column in out.columns:
-            out[column] = [None if v is None else plain_number(v)
-                           for v in finite(out[column].tolist())]
+            out[column] = grid_column_texts(finite(out[column].tolist()))
     return out
 
 
@@ -124,8 +124,9 @@ def _frontier(frame: pd.DataFrame, currency: str | None = None) -> dict[str, Any
         x_label = money_header(x, currency)
     elif len(units) == 1:
         x_label = f"{x} ({units[0]})"
-    if currency:
-        cost_label = money_header(cost, currency) if cost else None
+    if cost:
+        # In words, as the table below heads it (total_cost reads "new money").
+        cost_label = money_header(readable(cost), currency) if currency else readable(cost)
     return {"x_label": x_label, "y_label": y, "cost_label": cost_label, "series": series}
 
 
@@ -166,6 +167,12 @@ def scenario_names(frame: pd.DataFrame) -> list[str]:
     return list(dict.fromkeys(str(v) for v in frame[label].tolist() if not pd.isna(v)))
 
 
+def _metric_name(column: str, currency: str | None) -> str:
+    """A scenario chart's metric in words, money with the ``currency`` (``new money (EUR)``)."""
+    words = readable(column)
+    return money_header(words, currency) if is_money(column) and currency else words
+
+
 def _scenarios(frame: pd.DataFrame, currency: str | None = None) -> dict[str, Any] | None:
     label = _scenario_label(frame)
     if label is None:
@@ -179,7 +186,8 @@ def _scenarios(frame: pd.DataFrame, currency: str | None = None) -> dict[str, An
         return None
     return {"labels": [str(v) for v in frame[label].tolist()],
             # "money": the script writes those bars' values in full, as the table below.
-            "metrics": [{"name": column_header(c, currency), "money": is_money(c),
+            # Named in words, as the table below heads them (total_cost: "new money").
+            "metrics": [{"name": _metric_name(c, currency), "money": is_money(c),
                          "values": finite(frame[c].tolist())} for c in chosen]}
 
 

@@ -288,8 +288,8 @@ def _measure(frame: pd.DataFrame, measure: str, column: str = "new_plan") -> flo
 
 def _disruption_note(data: ReportData) -> str:
     """A re-plan's cost stage minimised cost plus the disruption cost of its changes, while
-    the headline total cost (and replan.csv's) is new money only: say so beside the figures,
-    with the three numbers where the tables give them."""
+    the headline new money (replan.csv's ``total_cost``) is without it: say so beside the
+    figures, with the three numbers where the tables give them."""
     if data.summary.replan is None:
         return ""
     stage = next((st for st in data.summary.stages if st.name in ("cost", "weighted")), None)
@@ -311,13 +311,13 @@ def _disruption_note(data: ReportData) -> str:
         if (name == "cost" and objective is not None and total is not None
                 and abs(objective - total - disruption) <= 0.5 + 1e-9 * abs(objective)):
             figures = (f" Here: cost stage objective {money_amount(objective, currency)} = "
-                       f"total cost {money_amount(total, currency)} + disruption cost "
+                       f"new money {money_amount(total, currency)} + disruption cost "
                        f"{money_amount(disruption, currency)}.")
     return (f'<p class="note">The {e(name)} stage\'s objective in {where} includes the '
             "disruption cost of the changes (the sum of changes.csv's "
             "<code>disruption_cost</code>), which the re-plan weighed to stay near the old "
-            "plan; the total cost in the headline figures and in this table is new money "
-            f"only, without it.{e(figures)}</p>")
+            "plan; the new money in the headline figures and in this table is without it."
+            f"{e(figures)}</p>")
 
 
 # Titles and one-line explanations of the tables shown as they are (see inputs.TABLE_FILES).

@@ -276,7 +276,7 @@ def _outcome_lines(result: PlanResult, *, replan: bool = False) -> list[str]:
         return [*lines, f"  {s.stages[0].solver_words}"]
     gap = s.gap
     lines.append(f"  solver {s.solver_version}; model {result.num_cols:,} columns "
-                 f"({result.num_integer:,} integer) x {result.num_rows:,} rows; "
+                 f"({result.num_integer:,} whole-number) x {result.num_rows:,} rows; "
                  f"build {seconds_text(result.build_seconds)}s, "
                  f"solve {seconds_text(s.solve_seconds)}s"
                  + (f", gap {gap_text(gap)}" if gap is not None else ""))
@@ -306,10 +306,10 @@ ROOM_WORDS = {
     "weighted": "a plan may score up to {room} lower on cost plus shortfall cost",
 }
 # A re-plan's cost and weighted stages also priced the disruption of its changes, so what
-# they leave open is on that sum, not on total cost alone.
+# they leave open is on that sum, not on new money alone.
 REPLAN_ROOM_WORDS = {
     **ROOM_WORDS,
-    "cost": "a plan with the same shortfall may come up to {room} lower on total cost plus "
+    "cost": "a plan with the same shortfall may come up to {room} lower on new money plus "
             "disruption cost",
     "weighted": "a plan may score up to {room} lower on cost plus shortfall cost plus "
                 "disruption cost",

@@ -43,6 +43,7 @@ from rebalance.report.htmlparts import (
     card,
     chart,
     e,
+    scenario_box,
     section,
     stage_words,
     table_html,
@@ -476,6 +477,7 @@ def render_html(data: ReportData) -> str:
 <main>
 <aside class="caution" role="note"><strong>Before you act on this.</strong> {e(run.caution)}</aside>
 {notes}
+{scenario_box(run.scenario_changes)}
 {"".join(sections)}
 </main>
 <footer><p>{e(run.caution)}</p><p>Made by rebalance from the plan tables in this folder;

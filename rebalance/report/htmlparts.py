@@ -6,7 +6,7 @@ from __future__ import annotations
 import html
 import math
 from collections.abc import Sequence
-from typing import Any, Protocol
+from typing import TYPE_CHECKING, Any, Protocol
 
 import pandas as pd
 
@@ -32,7 +32,16 @@ from rebalance.report.console import (
 from rebalance.report.words import optimal_words, plain_status, readable
 from rebalance.solve import StageResult, Status
 
-__all__ = ["card", "chart", "e", "frame_table_html", "section", "stage_words", "table_html"]
+if TYPE_CHECKING:
+    from rebalance.report.inputs import ScenarioSummary
+
+__all__ = ["card", "chart", "e", "frame_table_html", "scenario_box", "section", "stage_words",
+           "table_html"]
+
+# Under the scenario box: whose data the page's figures are.
+SCENARIO_FIGURES = ("Every figure on this page is of the plan made under these changes, not "
+                    "under the instance's own data.")
+
 
 def e(value: object) -> str:
     return html.escape(str(value), quote=True)
@@ -183,3 +192,22 @@ def chart(kind: str, title: str, note: str = "") -> str:
 def section(anchor: str, title: str, lead: str, body: str) -> str:
     return (f'<section id="{anchor}"><h2>{e(title)}</h2><p class="lead">{lead}</p>'
             f"{body}</section>")
+
+
+def scenario_box(scenario: ScenarioSummary | None) -> str:
+    """What the scenario a plan was made under assumed, near the top of its page: its name
+    and description, and its demand and budget changes in words; "" for no scenario."""
+    if scenario is None:
+        return ""
+
+    def items(title: str, lines: Sequence[str]) -> str:
+        said = "".join(f"<li>{e(line)}</li>" for line in lines) or \
+            "<li>as in the instance's data</li>"
+        return f"<div><h3>{e(title)}</h3><ul>{said}</ul></div>"
+
+    about = f" {e(scenario.description)}" if scenario.description else ""
+    return (f'<aside class="scenario-box" role="note" aria-label="Scenario">'
+            f"<p><strong>Scenario {e(scenario.name)}.</strong>{about}</p>"
+            f'<div class="scenario-changes">{items("Demand", scenario.demand)}'
+            f"{items('Budgets', scenario.budget)}</div>"
+            f'<p class="scenario-figures">{e(SCENARIO_FIGURES)}</p></aside>')

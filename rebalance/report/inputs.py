@@ -22,9 +22,9 @@ from rebalance.plan import Plan, read_plan
 from rebalance.planning import CAUTION, PlanResult, summary_dict
 from rebalance.verify import Violation, verify_folder
 
-__all__ = ["ANALYSIS_FILES", "SHEET_ONLY", "TABLE_FILES", "ReplanSummary", "ReportData",
-           "RunSummary", "StageSummary", "quality_notes", "report_data", "report_data_from_folder",
-           "stored_instance_path"]
+__all__ = ["ANALYSIS_FILES", "SCENARIO_KEY", "SHEET_ONLY", "TABLE_FILES", "ReplanSummary",
+           "ReportData", "RunSummary", "ScenarioSummary", "StageSummary", "quality_notes",
+           "report_data", "report_data_from_folder", "stored_instance_path"]
 
 # Analysis tables a plan folder may hold (issue 5 writes them); each section shows only if
 # its file is there.  Several names are accepted for the scenario comparison.
@@ -67,6 +67,9 @@ class ReplanSummary:
 
     from_period: str
     scenario: str | None = None
+    # What that scenario (or a re-plan's) assumed; None: no scenario, or a folder written
+    # before the key.
+    scenario_changes: ScenarioSummary | None = None
 
     @classmethod
     def from_raw(cls, value: Any) -> ReplanSummary | None:
@@ -74,6 +77,34 @@ class ReplanSummary:
             return None
         scenario = value.get("scenario")
         return cls(str(value["from_period"]), str(scenario) if scenario else None)
+
+
+# summary.json's key for what a scenario assumed (rebalance.report.scenario_notes writes it).
+SCENARIO_KEY = "scenario_changes"
+
+
+@dataclass(frozen=True)
+class ScenarioSummary:
+    """What the scenario a plan was made under assumed (``summary.json``'s
+    :data:`SCENARIO_KEY`, written by ``rebalance compare`` and ``rebalance replan
+    --scenario``): its name, description, and demand and budget changes in words."""
+
+    name: str
+    description: str = ""
+    demand: tuple[str, ...] = ()
+    budget: tuple[str, ...] = ()
+
+    @classmethod
+    def from_raw(cls, value: Any) -> ScenarioSummary | None:
+        if not isinstance(value, dict) or not value.get("name"):
+            return None
+
+        def texts(key: str) -> tuple[str, ...]:
+            items = value.get(key)
+            return tuple(str(v) for v in items) if isinstance(items, list) else ()
+
+        return cls(str(value["name"]), str(value.get("description") or ""), texts("demand"),
+                   texts("budget"))
 
 
 @dataclass(frozen=True)
@@ -100,6 +131,9 @@ class RunSummary:
     replan: ReplanSummary | None = None  # None: not a re-plan
     # The scenario whose plan this is (a compare's scenarios/<name>/ folder); None: not one.
     scenario: str | None = None
+    # What that scenario (or a re-plan's) assumed; None: no scenario, or a folder written
+    # before the key.
+    scenario_changes: ScenarioSummary | None = None
 
     @classmethod
     def from_dict(cls, raw: Mapping[str, Any]) -> RunSummary:
@@ -147,6 +181,7 @@ class RunSummary:
             caution=str(raw.get("caution") or CAUTION),
             replan=ReplanSummary.from_raw(raw.get("replan")),
             scenario=str(raw["scenario"]) if raw.get("scenario") else None,
+            scenario_changes=ScenarioSummary.from_raw(raw.get(SCENARIO_KEY)),
         )
 
 
@@ -194,6 +229,8 @@ def report_data(result: PlanResult, plan_dir: str | Path | None = None) -> Repor
         summary.setdefault("replan", _summary_key(Path(plan_dir), "replan"))
         # Which scenario's plan this is: 'rebalance compare' adds it to each scenario's.
         summary.setdefault("scenario", _summary_key(Path(plan_dir), "scenario"))
+        # What that scenario assumed: both commands add it beside the name.
+        summary.setdefault(SCENARIO_KEY, _summary_key(Path(plan_dir), SCENARIO_KEY))
     return ReportData(result.instance, result.plan, RunSummary.from_dict(summary),
                       tables=tables, notes=tuple(notes), **analysis)
 
@@ -245,7 +282,11 @@ def _read_table(path: Path, notes: list[str]) -> pd.DataFrame | None:
     try:
         # Only an empty cell is missing: a scenario, office or person named null, NA or None
         # is a name (a scenario named null had lost its name on the page and in the workbook).
-        frame = pd.read_csv(path, keep_default_na=False, na_values=[""])
+        # Budget years as text (scenarios.csv's *_budget_years): a single year read as the
+        # number 2027 had been written 2,027 in the workbook.
+        header = pd.read_csv(path, nrows=0).columns
+        frame = pd.read_csv(path, keep_default_na=False, na_values=[""], dtype={
+            c: str for c in header if str(c).strip().endswith("_budget_years")})
     except (ValueError, OSError) as exc:  # pandas' parser errors are ValueErrors
         notes.append(f"{path.name} could not be read ({exc}); its section is left out")
         return None

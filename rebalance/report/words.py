@@ -12,8 +12,8 @@ import re
 from rebalance.instance import Instance
 from rebalance.numbers import gap_text
 
-__all__ = ["ATTRITION_NOTE", "STATUS_WORDS", "expects_attrition", "optimal_words",
-           "outcome_words", "plain_status", "readable"]
+__all__ = ["ATTRITION_NOTE", "CODE_WORDS", "STATUS_WORDS", "expects_attrition",
+           "optimal_words", "outcome_words", "plain_status", "readable"]
 
 # Beside the work table (the page's work and capacity section, the workbook's work sheet):
 # work.csv's fte for a 1.0-FTE person reads 0.969, 0.938, ... (docs/model.md), and neither
@@ -58,9 +58,18 @@ def outcome_words(status: object, gap: float | None) -> str:
     return plain_status(status)
 
 
+# Codes whose words are not the code spelt out: total_cost is new money (onboarding,
+# new-position salaries, details, relocations), and leaders had read "total cost" in the
+# re-plan and compare tables as the whole staffing cost.  The CSV and JSON keep the code.
+CODE_WORDS = {"total_cost": "new money"}
+
+
 def readable(column: str) -> str:
     """A table column's or measure's code as words: ``shortfall_fte_periods`` ->
-    ``shortfall FTE-periods``."""
-    text = str(column).replace("_", " ").strip()
+    ``shortfall FTE-periods``, ``total_cost`` -> ``new money`` (:data:`CODE_WORDS`)."""
+    code = str(column).strip()
+    if code in CODE_WORDS:
+        return CODE_WORDS[code]
+    text = code.replace("_", " ")
     text = re.sub(r"\bfte periods\b", "FTE-periods", text, flags=re.I)
     return re.sub(r"\bfte\b", "FTE", text, flags=re.I)

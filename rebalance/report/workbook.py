@@ -36,12 +36,15 @@ from rebalance.numbers import (
     money_amount,
     money_text,
     seconds_text,
+    typed_places,
+    years_text,
 )
 from rebalance.plan import BUDGET_LINES, PLAN_TABLES
+from rebalance.report.analysis_charts import AMOUNT_COLUMNS, GRID_COLUMNS
 from rebalance.report.analysis_words import FROM_BASE_WORDS, gap_caution
 from rebalance.report.chart_data import spare_capacity
 from rebalance.report.console import MEASURE_COLUMN, budget_note, cell_text, measure_names
-from rebalance.report.htmlparts import stage_words
+from rebalance.report.htmlparts import SCENARIO_FIGURES, stage_words
 from rebalance.report.inputs import ReportData, quality_notes
 from rebalance.report.limits_view import (
     LIMITS_LEAD,
@@ -95,6 +98,16 @@ SHEET_NOTES = {
     "scenario_costs": "cost of each scenario's plan by budget year and kind",
     "scenario_offices": "demand and shortfall of each scenario's plan by office",
 }
+
+
+# Columns whose rows each hold their own quantity, as the page writes them: a limit's amount
+# by its row (52 seats, a share of 0.150), where one format for the column had written 52.000;
+# steps as typed (1.5, not 1.500); a grid's values as typed, one format down the column.
+PER_ROW_COLUMNS = {"marginal_values": AMOUNT_COLUMNS}
+TYPED_COLUMNS = {"marginal_values": ("step",)}
+GRID_FORMAT_COLUMNS = {"frontier": GRID_COLUMNS}
+# Most decimals a typed value is shown with (Excel's formats hold 30).
+TYPED_DIGITS = 10
 
 
 def _format_for(column: str) -> str | None:
@@ -157,7 +170,10 @@ def write_workbook(data: ReportData, path: str | Path) -> Path:
         numeric_years = _numeric_years(data.instance.years)
         for name, frame in sheets:
             _table_sheet(book.add_worksheet(name), styles, frame, numeric_years,
-                         data.instance.money.currency, notes=_sheet_notes(name, frame))
+                         data.instance.money.currency, notes=_sheet_notes(name, frame),
+                         per_row=PER_ROW_COLUMNS.get(name, ()),
+                         typed=TYPED_COLUMNS.get(name, ()),
+                         grid=GRID_FORMAT_COLUMNS.get(name, ()))
         book.close()
         os.replace(tmp, target)
     except BaseException:
@@ -277,9 +293,9 @@ def _plain_number_formats(column: pd.Series, values: list[Any], styles: _Styles,
                           per_row: bool = False) -> Any:
     """Formats for a numeric column its name says nothing about: whole numbers without
     decimals (24, not 24.0), others to the rule's places.  A column with decimals anywhere
-    has them in every row, as the page and the console write it (a frontier's factors had
-    read 0.500 and 1); ``per_row`` (a re-plan's rows of counts and FTE, one measure a row)
-    gives a format per cell instead."""
+    has them in every row, as the page and the console write it (0.500 and 1.000, where a
+    column had read 0.500 and 1; grid values are TYPED_COLUMNS'); ``per_row`` (a re-plan's
+    rows of counts and FTE, one measure a row) gives a format per cell instead."""
     if not (isinstance(column.dtype, np.dtype) and column.dtype.kind == "f"):
         return None
     numbers = np.array([v if isinstance(v, float) else np.nan for v in values], dtype=float)
@@ -297,6 +313,16 @@ def _plain_number_formats(column: pd.Series, values: list[Any], styles: _Styles,
                                                 for b in big.tolist()]
     return [whole_format if w or b else decimals
             for w, b in zip(whole.tolist(), big.tolist(), strict=True)]
+
+
+def _typed_formats(values: list[Any], styles: _Styles) -> list[Any]:
+    """A format per cell with the decimals the value was given with (1.5 as 1.5, 1 as 1,
+    100000 as 100,000), as the page and the console write a limit's step."""
+    return [_places_format(typed_places([v], TYPED_DIGITS), styles) for v in values]
+
+
+def _places_format(places: int, styles: _Styles) -> Any:
+    return styles.number(WHOLE + ("." + "0" * places if places else ""))
 
 
 def _named_format(column: str, values: list[Any], styles: _Styles) -> Any:
@@ -342,9 +368,12 @@ def _measure_formats(frame: pd.DataFrame, values: list[list[Any]], formats: list
 
 def _table_sheet(ws: Any, styles: _Styles, frame: pd.DataFrame,
                  numeric_years: bool = False, currency: str | None = None,
-                 notes: Sequence[str] = ()) -> None:
+                 notes: Sequence[str] = (), per_row: Sequence[str] = (),
+                 typed: Sequence[str] = (), grid: Sequence[str] = ()) -> None:
     """One table as a sheet; ``notes``, one a row, open it, a blank row below them, and
-    the header, its freeze and its filter move down below them."""
+    the header, its freeze and its filter move down below them.  ``per_row`` columns get
+    a format per row (whole or decimals), ``typed`` ones the decimals each value has,
+    ``grid`` ones the decimals the most precise value has, in every row."""
     columns = [str(c) for c in frame.columns]
     for i, note in enumerate(notes):
         ws.write_string(i, 0, note)
@@ -357,14 +386,25 @@ def _table_sheet(ws: Any, styles: _Styles, frame: pd.DataFrame,
     measures = measure_names(frame)
     formats = [_named_format(c, values[j], styles) if _format_for(c) is not None else
                _plain_number_formats(frame.iloc[:, j], values[j], styles,
-                                     per_row=measures is not None)
+                                     per_row=measures is not None or c in per_row)
                for j, c in enumerate(columns)]
+    for j, column in enumerate(columns):
+        if column in typed and pd.api.types.is_numeric_dtype(frame.iloc[:, j]):
+            formats[j] = _typed_formats(values[j], styles)
+        elif column in grid and pd.api.types.is_numeric_dtype(frame.iloc[:, j]):
+            # As the page writes a grid's values (grid_column_texts): 0.5, 1.0, 1.5.
+            formats[j] = _places_format(typed_places(values[j], TYPED_DIGITS), styles)
     if measures is not None:
         _measure_formats(frame, values, formats, measures, styles, currency)
     for j, column in enumerate(columns):
         if column == "year":
             values[j] = [_year_cell(v, numeric_years) for v in values[j]]
             formats[j] = None  # a year as 2027, not 2,027
+        elif column.endswith("_budget_years"):
+            # The years a scenario's budget change named, as text: one year read back from
+            # scenarios.csv is the number 2027, which the sheet had written 2,027.
+            values[j] = [years_text(v) or None for v in values[j]]
+            formats[j] = None
         elif column == "status":
             # The words of the page and the console; the CSV file keeps the code.
             values[j] = [plain_status(v) if isinstance(v, str) else v for v in values[j]]
@@ -425,6 +465,16 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
         band("Read this first")
         for text in warnings:
             ws.write_string(next(rows), 0, text, styles.warning)
+    scenario = run.scenario_changes
+    if scenario is not None:
+        # What the plan's data assumed, as the page's box says it.
+        band(f"Scenario {scenario.name}")
+        if scenario.description:
+            line("description", scenario.description)
+        for label, said in (("demand", scenario.demand), ("budgets", scenario.budget)):
+            for text in said or ("as in the instance's data",):
+                line(label, text)
+        ws.write_string(next(rows), 0, SCENARIO_FIGURES.replace("on this page", "here"))
     band("Headline")
     line("outcome", outcome_words(run.status, run.gap))
     # Headline totals to one decimal, as the console's summary and the page's cards.

@@ -221,7 +221,7 @@ def test_a_factor_frontier_on_the_console_gives_factors_as_typed_and_each_point_
     assert "extra_cost" in header
     rows = [line.split() for line in lines[2:5]]
     # tests/data/tiny/budget.csv: hiring cap 40,000; 0.5x, 1x and 1.5x of it by hand.
-    assert [row[1:4] for row in rows] == [["0.5", "-", "20,000"], ["1", "-", "40,000"],
+    assert [row[1:4] for row in rows] == [["0.5", "-", "20,000"], ["1.0", "-", "40,000"],
                                           ["1.5", "-", "60,000"]]
     assert [row[-1] for row in rows] == ["no", "no", "no"]  # 3 levels: no knee
     assert not pd.read_csv(out / "frontier.csv")["knee"].any()

@@ -308,3 +308,51 @@ def test_a_detail_run_says_which_of_its_periods_meet_a_gap(tiny) -> None:
     none = a1_reason(1.0, 1.0)
     assert "is within what B's own staff and hires cover from 2027-Q2 to 2027-Q3" in none
     assert "so the detail meets no gap there" in none and "spike" not in none
+
+
+def _relevant_by_scan(instance: Instance, binding: list[LimitUse], office: str, skill: str,
+                      t: int) -> list[LimitUse]:
+    """The limits a shortfall cites, found as reasons.py found them before it looked limits
+    up by scope (a scan of every binding limit and every person per shortfall, kept here as
+    the reference for the faster look-up)."""
+    names = instance.period_names
+    T = len(names)
+    tth = instance.skill(skill).time_to_hire
+    hire_possible = tth <= t
+    hire_years = {instance.periods[s].year for s in range(tth, T)} if hire_possible else set()
+    hire_periods = {names[s] for s in range(tth, t + 1)}
+    seat_periods = {names[s] for s in range(tth, T)} if hire_possible else set()
+    seat_periods.add(names[t])
+    sources = {p.home_office for p in instance.staff
+               if p.home_office != office and p.can_detail and p.is_present(t)
+               and p.proficiency(skill) > 0}
+    keep = {
+        "time_to_hire": lambda u: u.where == skill and u.period == names[t],
+        "hiring_budget": lambda u: u.where in hire_years,
+        "max_hires": lambda u: u.where == office and u.period in hire_periods,
+        "seats": lambda u: u.where == office and u.period in seat_periods,
+        "away_share": lambda u: u.where in sources and u.period == names[t],
+        "moves_budget": lambda u: bool(sources) and u.where == instance.periods[t].year,
+        "vacancies": lambda u: hire_possible and u.where == f"{skill} at {office}",
+    }
+    return [u for u in binding if u.limit in keep and keep[u.limit](u)]
+
+
+@settings(max_examples=10, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(seed=st.integers(0, 10_000))
+def test_shortfalls_cite_what_a_scan_of_every_limit_and_person_finds(seed: int) -> None:
+    # The look-up by scope (a generated large plan's reasons had taken 8 s, most of it in
+    # this scan) against the scan itself, on random instances: the same limits, same order.
+    from rebalance.analysis.limits import limit_use
+    from rebalance.analysis.reasons import limit_key
+
+    instance, result = feasible_random(seed, people=6, periods=4)
+    plan = result.plan
+    assert plan is not None
+    binding = [u for u in limit_use(instance, plan) if u.binding]
+    names = list(instance.period_names)
+    table = reasons(instance, plan).table
+    for _, row in table[table["action"] == "shortfall"].iterrows():
+        cited = _relevant_by_scan(instance, binding, str(row["office"]), str(row["skill"]),
+                                  names.index(str(row["first_period"])))
+        assert (row["binding_limits"] or "") == ";".join(limit_key(u) for u in cited)

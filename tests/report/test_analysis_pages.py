@@ -119,8 +119,8 @@ def test_the_re_plan_section_names_its_period_scenario_and_disruption_cost(tmp_p
     assert ("Re-planned from 2027-Q3 on, with scenario hollin-cross-storm applied to the data "
             "first") in words
     assert "includes the disruption cost of the changes" in words
-    assert "total cost in the headline figures and in this table is new money only" in words
-    assert ("cost stage objective 2,571,000 = total cost 2,513,000 + disruption cost "
+    assert "new money in the headline figures and in this table is without it" in words
+    assert ("cost stage objective 2,571,000 = new money 2,513,000 + disruption cost "
             "58,000") in words
     assert 'href="#run"' in _section(page, "replan")  # to the stage table it explains
     assert "From 2027-Q3 on:" in page_text(_section(page, "changes"))
@@ -438,7 +438,7 @@ def test_a_frontier_table_gives_factors_as_typed_and_each_point_s_money(tmp_path
     rows = _table_rows(section, "frontier")
     factor, cap, extra = (headers.index(h) for h in ("hiring budget", "hiring cap total",
                                                       "extra cost"))
-    assert [row[factor] for row in rows] == ["1", "1.5", "2"]
+    assert [row[factor] for row in rows] == ["1.0", "1.5", "2.0"]
     assert [row[cap] for row in rows] == ["1,920,000", "2,880,000", "3,840,000"]
     assert [row[extra] for row in rows] == ["0", "956,500", "1,765,500"]
     note = html.unescape(page_text(section))

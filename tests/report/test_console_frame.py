@@ -91,7 +91,7 @@ def test_old_new_and_difference_of_a_measure_read_alike_on_the_console_and_the_p
     assert lines["weighted shortfall"] == ["168.59153", "168.59136", "-0.00017"]
     assert lines["idle"] == ["1.000", "1.001", "0.001"]
     assert lines["hires"] == ["24", "24", "0"]
-    assert lines["total cost"] == ["2,463,500 EUR", "2,463,500 EUR", "0 EUR"]
+    assert lines["new money"] == ["2,463,500 EUR", "2,463,500 EUR", "0 EUR"]
     assert lines["work split changes"] == ["0", "61", "61"]
     page = re.sub(r"<[^>]+>", " ", frame_table_html(frame, "replan", currency="EUR"))
     words = " ".join(page.split())

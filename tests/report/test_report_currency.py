@@ -105,8 +105,8 @@ def test_analysis_sections_name_the_currency_of_money_steps_and_metrics():
     assert "+100,000 EUR (moves budget, hiring budget)" in marginal
     assert "+10 seats (seats)" in marginal  # other units unchanged
     names = [m["name"] for m in page_payload(page)["scenarios"]["metrics"]]
-    assert "total_cost (EUR)" in names
-    assert not any(n.startswith("weighted_shortfall (") for n in names)
+    assert "new money (EUR)" in names  # total_cost in words, as the table heads it
+    assert not any(n.startswith("weighted shortfall (") for n in names)
 
 
 def test_a_frontier_names_the_currency_of_its_budget_axis_unless_the_grid_is_factors(tmp_path):
@@ -118,14 +118,14 @@ def test_a_frontier_names_the_currency_of_its_budget_axis_unless_the_grid_is_fac
                           "weighted_shortfall": [3.0, 1.0], "total_cost": [5_000.0, 15_000.0]})
     view = _frontier(frame, "EUR")
     assert view is not None
-    assert (view["x_label"], view["cost_label"]) == ("hiring_budget (EUR)", "total_cost (EUR)")
+    assert (view["x_label"], view["cost_label"]) == ("hiring_budget (EUR)", "new money (EUR)")
     factors = frame.assign(budget_unit="times each year's cap", hiring_budget=[0.5, 1.0])
     view = _frontier(factors, "EUR")
     assert view is not None
     # A factor grid's axis names its unit instead (the practitioner's reading of the demo
     # frontier, /tmp/read60/fr_plan: "0.800 1.000 1.200 / hiring budget" had none).
     assert (view["x_label"], view["cost_label"]) == ("hiring_budget (times each year's cap)",
-                                                     "total_cost (EUR)")
+                                                     "new money (EUR)")
 
 
 def _sheet_headers(sheet) -> list[str]:
@@ -161,7 +161,7 @@ def test_the_workbook_names_the_currency_of_its_money_and_keeps_amounts_numbers(
     sheet = book["frontier"]
     assert _sheet_headers(sheet) == ["point", "hiring_budget", "budget_unit",
                                      "weighted_shortfall", "total_cost (EUR)"]
-    assert sheet["B2"].value == 0.5 and sheet["B2"].number_format == "#,##0.000"
+    assert sheet["B2"].value == 0.5 and sheet["B2"].number_format == "#,##0.0"  # 0.5, 1.0
     bare = load_workbook(write_workbook(report_data(_tiny(None)), tmp_path / "bare.xlsx"))
     assert _sheet_headers(bare["costs"])[-1] == "cost"
     rows = {row[0].value: row for row in bare["summary"].iter_rows() if row[0].value}

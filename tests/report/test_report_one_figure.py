@@ -91,11 +91,12 @@ def _replan_table() -> pd.DataFrame:
 
 
 def test_a_table_of_measures_reads_each_row_by_its_measure_on_the_console():
-    # Columns are two spaces or more apart; a measure reads in words ("total cost").
+    # Columns are two spaces or more apart; a measure reads in words ("new money" for
+    # total_cost, as the plan's headline calls it: 13.).
     lines = {cells[0]: cells[1:] for cells in (re.split(r"\s{2,}", line.strip())
                                                for line in format_frame(_replan_table(), "EUR")
                                                .splitlines()[2:])}
-    assert lines["total cost"] == ["2,463,500 EUR", "2,463,500 EUR", "0 EUR"]
+    assert lines["new money"] == ["2,463,500 EUR", "2,463,500 EUR", "0 EUR"]
     assert lines["disruption cost"][-1] == "1,500 EUR"
     assert lines["hires"] == ["24", "24", "0"]
     # 185.3421 and 185.34193 (hand: -0.00017 apart) had read "185.342 185.342 0.000": the
@@ -106,7 +107,7 @@ def test_a_table_of_measures_reads_each_row_by_its_measure_on_the_console():
 
 def test_a_table_of_measures_reads_each_row_by_its_measure_on_the_page():
     table = page_text(frame_table_html(_replan_table(), "replan", currency="EUR"))
-    assert "total cost 2,463,500 EUR 2,463,500 EUR 0 EUR" in table
+    assert "new money 2,463,500 EUR 2,463,500 EUR 0 EUR" in table
     assert "cost detail 556,500 EUR" in table
     assert "hires 24 24 0" in table
     # As on the console (hand: 185.3419 - 185.3421 = -0.0002).
@@ -117,7 +118,7 @@ def test_a_table_of_measures_reads_each_row_by_its_measure_in_the_workbook(tmp_p
     data = replace(report_data(_tiny()), tables=(("replan", _replan_table()),))
     sheet = load_workbook(write_workbook(data, tmp_path / "plan.xlsx"))["replan"]
     rows = {row[0].value: row[1:] for row in sheet.iter_rows(min_row=2)}
-    assert all('"EUR"' in cell.number_format for cell in rows["total cost"])
+    assert all('"EUR"' in cell.number_format for cell in rows["new money"])
     assert all('"EUR"' in cell.number_format for cell in rows["disruption cost"])
     assert not any("EUR" in cell.number_format for cell in rows["hires"])
     shortfall = rows["weighted shortfall"]
@@ -170,6 +171,42 @@ def test_the_plans_new_money_has_one_name_on_console_page_and_workbook(tmp_path)
     assert "New money 43,000 EUR" in page and values["new money, all years"] == 43_000
     for text in (console, page, *map(str, values), *map(str, values.values())):
         assert "total cost" not in text.lower(), text
+
+
+
+# 14. The re-plan's words kept the old name after 13.: its page said "total cost 43,000 EUR +
+#     disruption cost", its "not proven" line "lower on total cost plus disruption cost"
+#     (10.), and the console's model line "(25 integer)" where the page said "whole-number".
+
+def test_a_re_plans_page_and_console_call_the_plans_money_new_money(tmp_path, capsys):
+    from rebalance.cli import main
+
+    instance = tmp_path / "tiny"
+    shutil.copytree(TINY, instance)
+    with open(instance / "settings.toml", "a", encoding="utf-8") as settings:
+        settings.write('\n[money]\ncurrency = "EUR"\n')
+    assert main(["plan", str(instance), "-o", str(tmp_path / "old"), "-q"]) == 0
+    capsys.readouterr()
+    assert main(["replan", str(instance), "--from", str(tmp_path / "old"), "--at", "2027-Q3",
+                 "-o", str(tmp_path / "new"), "-q", "--gap", "0"]) == 0
+    console = capsys.readouterr().out
+    page = page_text((tmp_path / "new" / "report.html").read_text(encoding="utf-8"))
+    # Hand count from tests/data/tiny (NOTE.md), as in 13.: new money 43,000; unchanged data
+    # re-planned gives back the same plan, so no change and no disruption cost.
+    assert ("cost stage objective 43,000 EUR = new money 43,000 EUR + disruption cost "
+            "0 EUR") in page
+    assert "the new money in the headline figures and in this table is without it" in page
+    (model,) = re.findall(r"model (\d+) columns \((\d+) whole-number\) x (\d+) rows", console)
+    assert f"{model[0]} columns ({model[1]} whole-number) and {model[2]} rows" in page
+    assert "integer" not in console
+    # The table's row too, on the console and the page (replan.csv keeps total_cost).
+    rows = {c[0]: c[1:] for c in (re.split(r"\s{2,}", line.strip())
+                                  for line in console.splitlines())}
+    assert rows["new money"] == ["43,000 EUR", "43,000 EUR", "0 EUR"]
+    assert "new money 43,000 EUR 43,000 EUR 0 EUR" in page
+    assert "total_cost" in pd.read_csv(tmp_path / "new" / "replan.csv")["measure"].tolist()
+    for text in (console, page):
+        assert "total cost" not in text.lower()
 
 
 def test_seconds_are_rounded_once_from_the_stored_value():
@@ -248,11 +285,11 @@ def test_a_replans_cost_stage_says_its_gap_includes_disruption_cost():
     assert plain is not None and "may cost up to 71,429 EUR less" in plain
     replanned = room_left(stage, "EUR", replan=True)
     assert replanned is not None
-    assert "up to 71,429 EUR lower on total cost plus disruption cost" in replanned
+    assert "up to 71,429 EUR lower on new money plus disruption cost" in replanned
     assert "disruption cost" in format_outcome(_with_stages(stage), replan=True)
     data = report_data(_with_stages(stage))
     data = replace(data, summary=replace(data.summary, replan=ReplanSummary("2027-Q3")))
-    assert "total cost plus disruption cost" in page_text(render_html(data))
+    assert "new money plus disruption cost" in page_text(render_html(data))
     summary = data.summary.stages[0]
     assert "disruption" not in stage_words(summary, "EUR")
     assert "disruption" in stage_words(summary, "EUR", replan=True)

@@ -68,10 +68,11 @@ def test_a_column_with_decimals_has_them_in_every_row_on_console_page_and_sheet(
     cells = _cells(frame_table_html(FRONTIER, "frontier"))
     assert cells[1::5] == ["0.500", "1.000", "1.500"]
     assert cells[3::5] == ["189.155", "174.000", "169.614"]
-    # The sheet: one format down the column, not "0.500" then "1".
+    # The sheet: one format down each column, the grid's factors with the decimals typed
+    # (0.5, 1.0, 1.5, as the page writes them; they had read 0.500 and 1.000).
     data = replace(report_data(_tiny()), frontier=FRONTIER)
     sheet = load_workbook(write_workbook(data, tmp_path / "plan.xlsx"))["frontier"]
-    assert {sheet.cell(row=r, column=2).number_format for r in (2, 3, 4)} == {"#,##0.000"}
+    assert {sheet.cell(row=r, column=2).number_format for r in (2, 3, 4)} == {"#,##0.0"}
     assert {sheet.cell(row=r, column=4).number_format for r in (2, 3, 4)} == {"#,##0.000"}
 
 
@@ -199,7 +200,7 @@ def test_the_chart_data_carries_the_rule_and_which_bars_are_money():
     view = _scenarios(FRONTIER.assign(scenario=["a", "b", "c"]))
     assert view is not None
     money = {m["name"]: m["money"] for m in view["metrics"]}
-    assert money["total_cost"] is True and money["weighted_shortfall"] is False
+    assert money["new money"] is True and money["weighted shortfall"] is False
 
 
 def test_a_frontiers_moves_budget_labels_are_written_by_the_rule():

@@ -16,7 +16,10 @@ from rebalance.planning import CAUTION
 
 def test_sheets_summary_first_then_every_plan_table():
     book = load_workbook(tiny_plan_folder() / "plan.xlsx")
-    assert book.sheetnames == ["summary", *PLAN_TABLES]
+    # 'rebalance plan' writes reasons.csv beside the plan now (rebalance/cli.py cmd_plan),
+    # so its sheet follows the plan's; with or without it, the plan's sheets come first.
+    assert book.sheetnames[:1 + len(PLAN_TABLES)] == ["summary", *PLAN_TABLES]
+    assert book.sheetnames[1 + len(PLAN_TABLES):] in ([], ["reasons"])
     with_analysis = load_workbook(tiny_analysis_folder() / "plan.xlsx")
     # Every analysis table present gets a sheet, scenario_costs.csv of compare too.
     assert with_analysis.sheetnames == ["summary", *PLAN_TABLES, "frontier", "scenarios",
@@ -302,3 +305,91 @@ def _summary(folder):
 def _summary_values(folder):
     sheet = load_workbook(folder / "plan.xlsx")["summary"]
     return {row[0]: row[1] for row in sheet.iter_rows(values_only=True) if row[0]}
+
+
+def _sheet_cells(path, name: str, column: str, header_row: int = 1):
+    """(value, number format) of each cell under ``column``'s header in sheet ``name``."""
+    sheet = load_workbook(path)[name]
+    headers = [c.value for c in sheet[header_row]]
+    j = headers.index(column) + 1
+    return [(sheet.cell(i, j).value, sheet.cell(i, j).number_format)
+            for i in range(header_row + 1, sheet.max_row + 1)]
+
+
+def test_scenario_budget_years_are_text_not_thousands(tmp_path):
+    # A practitioner's reading of the demo storm comparison's plan.xlsx: hiring_budget_years
+    # of the storm (its file: years = ["2027"]) read 2,027, as pandas reads "2027" back from
+    # scenarios.csv as a number.  Both ways in: a frame holding numbers, and the folder's CSV.
+    from dataclasses import replace
+
+    from rebalance.report.workbook import write_workbook
+
+    scenarios = pd.DataFrame({"scenario": ["base", "storm", "both"],
+                              "hiring_budget_years": [float("nan"), 2027.0, "2027; 2028"]})
+    path = write_workbook(replace(_tiny_data(()), scenarios=scenarios), tmp_path / "plan.xlsx")
+    cells = _sheet_cells(path, "scenarios", "hiring_budget_years")
+    assert [v for v, _ in cells] == [None, "2027", "2027; 2028"]
+    assert cells[1][1] == "General"
+    # Read from a folder: the years come in as text, so every later reader sees "2027".
+    import shutil
+
+    from report_cases import TINY
+
+    from rebalance import read_instance
+    from rebalance.report.inputs import report_data_from_folder
+
+    folder = tmp_path / "folder"
+    shutil.copytree(tiny_plan_folder(), folder)
+    (folder / "scenarios.csv").write_text("scenario,hiring_budget_years,hires\n"
+                                          "base,,1\nstorm,2027,2\n")
+    data = report_data_from_folder(folder, read_instance(TINY))
+    assert data.scenarios is not None
+    assert data.scenarios["hiring_budget_years"].tolist()[1] == "2027"
+    assert data.scenarios["hires"].tolist() == [1, 2]  # other columns as numbers still
+    path = write_workbook(data, tmp_path / "read.xlsx")
+    assert [v for v, _ in _sheet_cells(path, "scenarios", "hiring_budget_years")] == [
+        None, "2027"]
+
+
+def test_marginal_amounts_have_a_format_per_row(tmp_path):
+    # A practitioner's reading of the demo's marginal run (marginal_values.csv): seats 52 at
+    # port-ilse-central read 52.000 beside the away share's 0.15.  Rows copied by hand from
+    # that file: seats 52 (step 10), moves budget 300,000 (step 100,000), away share 0.15
+    # (step 0.05), time to hire 2 periods (step -1).  Whole counts whole, as the page.
+    from dataclasses import replace
+
+    from rebalance.report.workbook import write_workbook
+
+    marginal = pd.DataFrame({"limit": ["seats", "moves_budget", "away_share", "time_to_hire"],
+                             "current": [52.0, 300_000.0, 0.15, 2.0],
+                             "step": [10.0, 100_000.0, 0.05, -1.0],
+                             "unit": ["seats", "money", "share of people", "periods"]})
+    path = write_workbook(replace(_tiny_data(()), marginal_values=marginal),
+                          tmp_path / "plan.xlsx")
+    current = _sheet_cells(path, "marginal_values", "current")
+    assert [f for _, f in current] == ["#,##0", "#,##0", "#,##0.000", "#,##0"]
+    assert [v for v, _ in current] == [52, 300_000, 0.15, 2]
+    step = _sheet_cells(path, "marginal_values", "step")
+    # The step as the page and the console write it ("+0.05 share of people").
+    assert [f for _, f in step] == ["#,##0", "#,##0", "#,##0.00", "#,##0"]
+
+
+def test_frontier_factors_show_as_typed(tmp_path):
+    # `rebalance frontier tests/data/tiny --hiring 1x,1.5x,2x` wrote hiring_budget 1.0, 1.5,
+    # 2.0 (its frontier.csv), which the sheet showed 1.000, 1.500, 2.000; as typed, the same
+    # decimals in every row: 1.0, 1.5, 2.0.
+    from dataclasses import replace
+
+    from rebalance.report.workbook import write_workbook
+
+    frontier = pd.DataFrame({"point": [1, 2, 3], "hiring_budget": [1.0, 1.5, 2.0],
+                             "moves_budget": [float("nan")] * 3,
+                             "hiring_cap_total": [40_000.0, 60_000.0, 80_000.0]})
+    path = write_workbook(replace(_tiny_data(()), frontier=frontier), tmp_path / "plan.xlsx")
+    cells = _sheet_cells(path, "frontier", "hiring_budget")
+    assert cells == [(1, "#,##0.0"), (1.5, "#,##0.0"), (2, "#,##0.0")]
+    assert [v for v, _ in _sheet_cells(path, "frontier", "moves_budget")] == [None] * 3
+    # Amounts, not factors (--hiring 40000,60000): separators, no decimals.
+    amounts = frontier.assign(hiring_budget=[40_000.0, 60_000.0, 80_000.0])
+    path = write_workbook(replace(_tiny_data(()), frontier=amounts), tmp_path / "amounts.xlsx")
+    assert {f for _, f in _sheet_cells(path, "frontier", "hiring_budget")} == {"#,##0"}

@@ -1,0 +1,107 @@
+"""What a scenario assumed, in words: its name, description, demand changes and budget
+changes, for the page and the workbook of a plan made under it.
+
+``rebalance compare`` (each ``scenarios/<name>/`` folder) and ``rebalance replan --scenario``
+store :func:`scenario_entry` in the folder's ``summary.json`` under
+:data:`rebalance.report.inputs.SCENARIO_KEY`, so
+``rebalance report FOLDER`` draws the same box from the folder alone.  A storm's page had
+shown a 2027 hiring cap of 670,000 with no word that 150,000 of it was the scenario's.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from typing import Any
+
+from rebalance.analysis.scenario_files import BudgetChange, DemandChange, Scenario
+from rebalance.instance import Instance
+from rebalance.numbers import fte_total_text, money_amount, plain_number
+from rebalance.report.inputs import SCENARIO_KEY
+
+__all__ = ["SCENARIO_KEY", "budget_words", "demand_words", "scenario_entry"]
+# Names listed in one selection before "and N more": a file may name every period.
+NAMES_SHOWN = 6
+
+
+def _listed(names: Sequence[str], every: str) -> str:
+    """``a``, ``a and b``, ``a, b and c``; ``every`` where nothing was named."""
+    shown = [*names[:NAMES_SHOWN]]
+    if len(names) > NAMES_SHOWN:
+        shown.append(f"{len(names) - NAMES_SHOWN} more")
+    if not shown:
+        return every
+    return shown[0] if len(shown) == 1 else f"{', '.join(shown[:-1])} and {shown[-1]}"
+
+
+def demand_words(change: DemandChange, instance: Instance) -> str:
+    """One ``[[demand]]`` table in words: "demand for inspection at hollin-cross in 2027-Q4
+    multiplied by 1.6"."""
+    skills = _listed(change.skills or (), "every skill")
+    offices = _listed(change.offices or (), "every office")
+    periods = _listed([instance.period_names[t] for t in change.periods or ()], "every period")
+    what = []
+    if change.multiplier != 1.0:
+        what.append(f"multiplied by {plain_number(change.multiplier)}")
+    if change.add_fte:
+        verb = "raised" if change.add_fte > 0 else "lowered"
+        what.append(f"{verb} by {plain_number(abs(change.add_fte))} FTE in each period")
+    text = (f"demand for {skills} at {offices} in {periods} "
+            + (" and then ".join(what) or "unchanged"))
+    if change.add_fte > 0 and change.offices is not None and change.skills is not None:
+        # apply_scenario adds such rows where the instance has none (priority 1 by default).
+        priority = 1.0 if change.priority is None else change.priority
+        text += (f", a row of {plain_number(change.add_fte)} FTE added where there was none "
+                 f"(priority {plain_number(priority)})")
+    return text
+
+
+def budget_words(change: BudgetChange, currency: str | None) -> list[str]:
+    """One ``[[budget]]`` table in words, a phrase per cap it changes: "hiring cap of 2027
+    raised by 150,000 EUR"."""
+    years = _listed(change.years or (), "every budget year")
+    each = " each" if change.years is None or len(change.years) > 1 else ""
+    out = []
+    for kind, amount in (("hiring", change.hiring_add), ("moves", change.moves_add)):
+        if amount:
+            verb = "raised" if amount > 0 else "lowered"
+            out.append(f"{kind} cap of {years}{each} {verb} by "
+                       f"{money_amount(abs(amount), currency)}")
+    return out
+
+
+def _cap_lines(base: Instance, applied: Instance) -> list[str]:
+    """Each cap the scenario moved, as the plan saw it against the instance's own."""
+    currency = base.money.currency
+    out = []
+    for year in base.years:
+        old, new = base.budget(year), applied.budget(year)
+        for kind in ("hiring", "moves"):
+            before = None if old is None else getattr(old, kind)
+            after = None if new is None else getattr(new, kind)
+            if before is None or after is None or after == before:
+                continue
+            out.append(f"{year} {kind} cap: {money_amount(after, currency)} under the "
+                       f"scenario, {money_amount(before, currency)} in the instance's data")
+    return out
+
+
+def scenario_entry(scenario: Scenario, base: Instance, applied: Instance) -> dict[str, Any]:
+    """``summary.json``'s :data:`SCENARIO_KEY`: the scenario's name, description, and its
+    demand and budget changes in words (``applied``: ``base`` with the scenario applied,
+    whose caps and demand the plan used).  The key "scenario" (the name alone) and
+    "replan" keep their meaning: 'rebalance replan' reads the name from them."""
+    demand = [demand_words(c, base) for c in scenario.demand]
+    if scenario.demand:
+        before = sum(d.fte for d in base.demand)
+        after = sum(d.fte for d in applied.demand)
+        # Per period summed over the horizon, as the scenarios table's demand_fte_periods.
+        change = after - before
+        sign = "+" if change >= 0 else "-"
+        demand.append(f"in all, {fte_total_text(after)} FTE-periods of demand, against "
+                      f"{fte_total_text(before)} in the instance's data ({sign}"
+                      f"{fte_total_text(abs(change))})")
+    budget = [words for c in scenario.budget for words in budget_words(
+        c, base.money.currency)]
+    budget += _cap_lines(base, applied)
+    return {"name": scenario.name, "description": scenario.description,
+            "demand": demand, "budget": budget}

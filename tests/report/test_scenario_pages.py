@@ -1,0 +1,163 @@
+"""A plan made under a scenario says what the scenario assumed: its page's box, its workbook's
+summary sheet and its summary.json, from `rebalance compare` and `rebalance replan --scenario`.
+
+A practitioner's reading of the demo storm comparison: the storm's page showed the 2027 hiring
+cap of 670,000 with no word that 150,000 of it was the scenario's.
+"""
+
+from __future__ import annotations
+
+import html
+import json
+from functools import lru_cache
+from pathlib import Path
+from tempfile import mkdtemp
+
+from openpyxl import load_workbook
+from report_cases import TINY, cli, page_text
+
+from rebalance import read_instance
+from rebalance.analysis.scenario_files import (
+    BudgetChange,
+    DemandChange,
+    apply_scenario,
+    read_scenario,
+)
+from rebalance.report.html import render_html
+from rebalance.report.htmlparts import SCENARIO_FIGURES, scenario_box
+from rebalance.report.inputs import SCENARIO_KEY, ScenarioSummary, report_data_from_folder
+from rebalance.report.scenario_notes import budget_words, demand_words
+
+SCENARIO = """name = "b-surge"
+description = "Review rush at B in the second half"
+
+[[demand]]
+offices = ["B"]
+skills = ["review"]
+periods = ["2027-Q3", "2027-Q4"]
+multiplier = 1.5
+
+[[budget]]
+years = ["2027"]
+hiring_add = 20000
+"""
+# By hand from tests/data/tiny: demand.csv sums to 9.5 FTE-periods (1 + 0.5 + 0.5 + 1 + 0.5
+# at A, 1 + 2 + 2 + 1 at B); B's review of 2.0 and 1.0 in 2027-Q3/Q4 times 1.5 adds 1.5, so
+# 11.0.  budget.csv's 2027 hiring cap is 40,000, plus 20,000 is 60,000 (no currency is set).
+EXPECTED = {
+    "name": "b-surge",
+    "description": "Review rush at B in the second half",
+    "demand": ["demand for review at B in 2027-Q3 and 2027-Q4 multiplied by 1.5",
+               "in all, 11.0 FTE-periods of demand, against 9.5 in the instance's data (+1.5)"],
+    "budget": ["hiring cap of 2027 raised by 20,000",
+               "2027 hiring cap: 60,000 under the scenario, 40,000 in the instance's data"],
+}
+
+
+@lru_cache(maxsize=1)
+def _runs() -> tuple[Path, Path, Path]:
+    """A compare of tiny under the scenario, and a re-plan of its base plan under it."""
+    root = Path(mkdtemp(prefix="rebalance-scenario-pages-"))
+    scenario = root / "surge.toml"
+    scenario.write_text(SCENARIO)
+    out, again = root / "compare", root / "replan"
+    done = cli("compare", str(TINY), "--scenario", str(scenario), "-o", str(out), "--gap", "0",
+               "-q")
+    assert done.returncode == 0, done.stderr
+    done = cli("replan", str(TINY), "--from", str(out), "--at", "2027-Q3", "-o", str(again),
+               "--gap", "0", "-q", "--scenario", str(scenario))
+    assert done.returncode == 0, done.stderr
+    return scenario, out, again
+
+
+def _box_text(page: str) -> str:
+    start = page.index('<aside class="scenario-box"')
+    return html.unescape(page_text(page[start:page.index("</aside>", start)]))
+
+
+def _assert_box(page: str) -> None:
+    box = _box_text(page)
+    for text in ("Scenario b-surge.", EXPECTED["description"], *EXPECTED["demand"],
+                 *EXPECTED["budget"], SCENARIO_FIGURES):
+        assert text in box, text
+    # Near the top: before the first section of figures.
+    assert page.index("scenario-box") < page.index('<section id="glance"')
+
+
+def test_compare_writes_what_the_scenario_assumed_into_its_folder() -> None:
+    _, out, _ = _runs()
+    sub = out / "scenarios" / "b-surge"
+    summary = json.loads((sub / "summary.json").read_text())
+    assert summary[SCENARIO_KEY] == EXPECTED
+    assert summary["scenario"] == "b-surge"  # the name alone, as 'rebalance replan' reads it
+    _assert_box((sub / "report.html").read_text(encoding="utf-8"))
+    # The base plan's page is the instance's own data: no box.
+    assert '<aside class="scenario-box"' not in (out / "report.html").read_text(encoding="utf-8")
+    assert SCENARIO_KEY not in json.loads((out / "summary.json").read_text())
+
+
+def test_the_scenario_workbook_says_it_at_the_top_of_its_summary() -> None:
+    _, out, _ = _runs()
+    rows = [r[:2] for r in load_workbook(out / "scenarios" / "b-surge" / "plan.xlsx")[
+        "summary"].iter_rows(values_only=True) if r[0]]
+    labels = [label for label, _ in rows]
+    top = labels.index("Scenario b-surge")
+    assert top < labels.index("Headline")
+    assert rows[top + 1:top + 6] == [
+        ("description", EXPECTED["description"]),
+        *(("demand", text) for text in EXPECTED["demand"]),
+        *(("budgets", text) for text in EXPECTED["budget"])]
+    assert "Headline" not in labels[:top] and "Scenario" not in " ".join(
+        str(label) for label in labels[:top])
+    base = [r[0] for r in load_workbook(out / "plan.xlsx")["summary"].iter_rows(
+        values_only=True) if r[0]]
+    assert not any(str(label).startswith("Scenario ") for label in base)
+
+
+def test_rebalance_report_redraws_the_same_box_from_the_folder() -> None:
+    scenario, out, _ = _runs()
+    sub = out / "scenarios" / "b-surge"
+    instance = read_instance(TINY)
+    # The scenario's own data, as compare drew the page (the folder stores no instance path).
+    applied = apply_scenario(instance, read_scenario(scenario, instance))
+    again = render_html(report_data_from_folder(sub, applied))
+    assert _box_text(again) == _box_text((sub / "report.html").read_text(encoding="utf-8"))
+
+
+def test_replan_under_a_scenario_says_what_it_assumed() -> None:
+    _, _, again = _runs()
+    summary = json.loads((again / "summary.json").read_text())
+    assert summary["replan"] == {"from_period": "2027-Q3", "scenario": "b-surge"}
+    assert summary[SCENARIO_KEY] == EXPECTED
+    _assert_box((again / "report.html").read_text(encoding="utf-8"))
+
+
+def test_a_folder_without_the_key_or_with_a_broken_one_has_no_box() -> None:
+    # Folders written before the key (or edited by hand) still draw, without a box.
+    for raw in (None, "storm", [], {}, {"name": ""}, {"description": "x"}):
+        assert ScenarioSummary.from_raw(raw) is None
+    assert scenario_box(None) == ""
+    odd = ScenarioSummary.from_raw({"name": "<b>", "demand": "not a list", "budget": [3]})
+    assert odd == ScenarioSummary("<b>", "", (), ("3",))
+    box = scenario_box(odd)
+    assert "&lt;b&gt;" in box and "<b>" not in box
+    # Nothing said of one kind: as the instance's data.
+    assert page_text(box).count("as in the instance's data") == 1
+
+
+def test_changes_in_words_for_every_selection() -> None:
+    # By hand from DemandChange and BudgetChange (rebalance/analysis/scenario_files.py):
+    # None selects everything; add_fte is per row and period; a budget change without years
+    # changes every budget year's cap.
+    instance = read_instance(TINY)
+    assert demand_words(DemandChange(None, None, None, add_fte=-0.5), instance) == (
+        "demand for every skill at every office in every period lowered by 0.5 FTE in each "
+        "period")
+    assert demand_words(DemandChange(("A",), ("intake",), (2,), multiplier=2.0, add_fte=1.0,
+                                     priority=3.0), instance) == (
+        "demand for intake at A in 2027-Q3 multiplied by 2 and then raised by 1 FTE in each "
+        "period, a row of 1 FTE added where there was none (priority 3)")
+    assert budget_words(BudgetChange(None, moves_add=-1000.0), "EUR") == [
+        "moves cap of every budget year each lowered by 1,000 EUR"]
+    assert budget_words(BudgetChange(("2027",), hiring_add=5.0, moves_add=7.0), None) == [
+        "hiring cap of 2027 raised by 5", "moves cap of 2027 raised by 7"]

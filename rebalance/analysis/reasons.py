@@ -161,6 +161,46 @@ def _gap_words(skill: str, office: str, names: tuple[str, ...], t1: int, t2: int
             f"{_span(names, t1, t2)}")
 
 
+def _move_words(instance: Instance, person: str, a: str, b: str, skill: str, need: int,
+                left: list[int], cost: float, seats_full: list[int],
+                share_full: list[int]) -> str:
+    """Why ``person`` is reassigned from ``a`` to ``b`` for the periods ``left`` (present
+    from the move on): the periods ``skill`` work at ``b`` needs them, ``a``'s full seats
+    a move frees for good, an away share at its cap a detail would count against, and the
+    move's cost against detailing them instead.  "needs them in 0 of the 2 periods ...: a
+    lasting need" had been said of a move that freed a seat (a reading of a seats case)."""
+    names = instance.period_names
+    n = len(left)
+    start = names[left[0]] if left else ""
+    if need:
+        parts = [f"{skill} work at {b} needs them in {need} of the {n} {_periods(n)} from "
+                 f"{start}" + (": a lasting need" if 2 * need >= n else "")]
+    else:
+        parts = [f"{skill} work at {b} is covered without them in the {n} {_periods(n)} from "
+                 f"{start}"]
+    def how_many(periods: list[int]) -> str:
+        if len(periods) < n:
+            return f"{len(periods)} of them"
+        return "that one" if n == 1 else "both" if n == 2 else "all of them"
+
+    if seats_full:
+        parts.append(f"{a}'s seats are full in {how_many(seats_full)}, and a move frees a seat "
+                     "there for good")
+    if share_full:
+        parts.append(f"a detail would count against {a}'s away share, at its cap in "
+                     f"{how_many(share_full)}; a move does not")
+    detail_cost = instance.detail_cost_per_period(a, b) * n
+    m = instance.policy.max_consecutive_detail_periods
+    parts.append(f"one move ({_money(instance, cost)}) costs "
+                 f"{'less than' if cost < detail_cost else 'no less than'} detailing them for "
+                 f"all of it ({_money(instance, detail_cost)})"
+                 + (f", which details, at most {m} {_periods(m)} in a row, could not do"
+                    if m is not None and m < n else ""))
+    if not need and not seats_full and not share_full:
+        parts.append("no gain visible from this move alone (review)")
+    return "; ".join(parts)
+
+
 def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> Reasons:
     """Reasons for ``plan``'s actions and shortfalls (see the module docstring).
 
@@ -173,6 +213,7 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
     uses = limit_use(instance, plan)
     binding = [u for u in uses if u.binding]
     seats_full = {(u.where, u.period) for u in binding if u.limit == "seats"}
+    share_full = {(u.where, u.period) for u in binding if u.limit == "away_share"}
 
     # -- hires: how long the gap they fill lasts ---------------------------------------------
     for h in hire_rows(plan):
@@ -300,12 +341,9 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
         skill_gaps = {k: sum(1 for t in left if ctx.gap_without(p, b, k, t) > _EPS)
                       for k, _ in person.skills}
         skill = max(skill_gaps, key=lambda k: skill_gaps[k])
-        detail_cost = instance.detail_cost_per_period(a, b) * len(left)
-        text = (f"{skill} work at {b} needs them in {skill_gaps[skill]} of the {len(left)} "
-                f"{_periods(len(left))} from {per}: a lasting need, and one move "
-                f"({_money(instance, cost)}) costs "
-                f"{'less than' if cost < detail_cost else 'no less than'} detailing them for "
-                f"all of it ({_money(instance, detail_cost)})")
+        text = _move_words(instance, p, a, b, skill, skill_gaps[skill], left, cost,
+                           [t for t in left if (a, names[t]) in seats_full],
+                           [t for t in left if (a, names[t]) in share_full])
         rows.append(("reassignment", p, b, skill, per, names[T - 1], 1.0, text, ""))
 
     # -- shortfalls: the binding limits that could matter -------------------------------------

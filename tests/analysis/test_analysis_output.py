@@ -17,3 +17,14 @@ def test_a_table_gets_the_mode_of_any_new_file_and_leaves_no_temporary(tmp_path:
     assert path.stat().st_mode == (tmp_path / "plain.csv").stat().st_mode
     assert sorted(p.name for p in tmp_path.iterdir()) == ["marginal_values.csv", "plain.csv"]
     pd.testing.assert_frame_equal(pd.read_csv(path), frame)
+
+
+def test_a_tables_numbers_carry_no_float_dust(tmp_path: Path) -> None:
+    # A reading of a comparison: scenarios.csv gave the demand as 2021.6299999999994 (a sum of
+    # rows that add to 2,021.63) and a gap as 0.02334077531966714.  Twelve significant digits
+    # keep every real one (a money total of 123,456,789.5 too) and drop the dust.
+    frame = pd.DataFrame({"demand_fte_periods": [2021.6299999999994],
+                          "gap": [0.02334077531966714], "total_cost": [123_456_789.5],
+                          "hires": [24]})
+    path = write_table(frame, tmp_path / "t.csv")
+    assert path.read_text().splitlines()[1] == "2021.63,0.0233407753197,123456789.5,24"

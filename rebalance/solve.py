@@ -42,6 +42,13 @@ from rebalance.instance import Instance
 from rebalance.model import Model
 from rebalance.numbers import progress_value
 from rebalance.split import resplit
+from rebalance.stage_claims import (
+    OBJECTIVE_FLOOR,
+    bound_checked,
+    higher_bound,
+    not_searched,
+    with_floor,
+)
 
 __all__ = ["SolveOptions", "SolveResult", "StageResult", "Status", "solve", "solve_stage"]
 
@@ -275,7 +282,7 @@ def _last_stage_finished(backend: Backend, model: Model, out: BackendOutcome,
     if model.hint is not None and out.x is not None and left >= MIN_POLISH_SECONDS:
         x = toward_hint(backend, model, objective, extra_rows, options, out.x, left, say)
         if x is not out.x:
-            out = _with_floor(replace(out, x=x, objective=float(objective @ x)),
+            out = with_floor(replace(out, x=x, objective=float(objective @ x)),
                               options.relative_gap)
     return settled(model, out, objective, options.relative_gap)
 
@@ -325,7 +332,7 @@ def settled(model: Model, out: BackendOutcome, objective: np.ndarray,
     value = float(objective @ settled_x)
     if not value < out.objective - SETTLE_TOLERANCE * max(1.0, abs(out.objective)):
         return out  # rounding noise: a start moved by 1e-13 had sent a search elsewhere
-    return _with_floor(replace(out, x=settled_x, objective=value), relative_gap_wanted)
+    return with_floor(replace(out, x=settled_x, objective=value), relative_gap_wanted)
 
 
 POLISH_SECONDS = 60.0  # at most, for the final work split; never past the limit
@@ -407,7 +414,7 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                                                    options, t0 + share * budget, say, start,
                                                    cost_stage_deadline,
                                                    rounded_rows=bound_on_side is not None)
-                    start, lp_bound = first.x, _higher(lp_bound, first.bound)
+                    start, lp_bound = first.x, higher_bound(lp_bound, first.bound)
                     rounding_lp_seconds, cost_bound = first.lp_seconds, first.cost_bound
             else:
                 start, lp_bound = first_plan_from_lp(backend, model, objective, extra_rows,
@@ -422,12 +429,12 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
         if passes_only and start is not None:
             say(f"  no search of the whole model: {model.matrix.nnz:,} nonzeros, more than "
                 "branch and bound can use in the time")
-            out = _not_searched("whole-model search not started")
+            out = not_searched("whole-model search not started")
         elif bound_after and left < MIN_SEARCH_SECONDS:
-            out = _not_searched("no time left to search the whole model")
+            out = not_searched("no time left to search the whole model")
         else:
             # Easy large models still get proven here; the LP bound above joins its bound.
-            known = _higher(lp_bound, OBJECTIVE_FLOOR)
+            known = higher_bound(lp_bound, OBJECTIVE_FLOOR)
             # With no plan yet there is nothing for a cost stage to start from: until its
             # first plan this search may use the cost stage's time too.
             overtime = (max(cost_stage_deadline - deadline, 0.0)
@@ -436,9 +443,9 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                               replace(options, known_bound=known,
                                       overtime_without_plan=overtime), left, start)
         if bound_on_side is not None:
-            lp_bound = _higher(lp_bound, bound_on_side.result())
+            lp_bound = higher_bound(lp_bound, bound_on_side.result())
     if carried.cost_bound is not None and extra_rows:
-        lp_bound = _higher(lp_bound, _bound_worked_out_ahead(carried.cost_bound,
+        lp_bound = higher_bound(lp_bound, _bound_worked_out_ahead(carried.cost_bound,
                                                              extra_rows[0][1], deadline, say))
     # A verdict of no plan (infeasible, a solver error) is the solver's own where a plan
     # that keeps every limit is already at hand: that plan stands.
@@ -450,7 +457,7 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
         # the bound its root proved (CBC's LP on a 40-office stage: 333.1, else 0).
         proved = out.bound if out.status is Status.NO_PLAN_IN_TIME else None
         out = BackendOutcome(Status.FEASIBLE_WITH_GAP, start, start_value,
-                             _higher(lp_bound, proved), out.words, out.seconds)
+                             higher_bound(lp_bound, proved), out.words, out.seconds)
     elif (out.x is not None and out.objective is not None and start_value is not None
           and start_value < out.objective - 1e-9 * max(1.0, abs(out.objective))):
         say(f"  keeping the plan of {progress_value(start_value)}: the search's best, "
@@ -458,8 +465,8 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
         out = replace(out, x=start, objective=start_value, status=Status.FEASIBLE_WITH_GAP)
     elif out.status.has_plan and out.status is not Status.OPTIMAL:
         # A run killed at the wall clock hands back its plan without a bound.
-        out = replace(out, bound=_higher(out.bound, lp_bound))
-    out = _with_floor(_bound_checked(out, lp_bound, options.relative_gap, say),
+        out = replace(out, bound=higher_bound(out.bound, lp_bound))
+    out = with_floor(bound_checked(out, lp_bound, options.relative_gap, say),
                       options.relative_gap)
     seconds = time.perf_counter() - t0
     return replace(out, seconds=seconds), CarriedOver(rounding_lp_seconds, cost_bound)
@@ -482,77 +489,6 @@ def _bound_worked_out_ahead(ahead: Future[stage_bounds.HeldCostBound | None], he
     return bound
 
 
-def _higher(a: float | None, b: float | None) -> float | None:
-    """The higher of two bounds, either of which may be missing."""
-    return b if a is None else a if b is None else max(a, b)
-
-
-def _not_searched(words: str) -> BackendOutcome:
-    """The outcome of a branch and bound that was not run: the stage keeps its plan."""
-    return BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, None, words, 0.0)
-
-
-# A bound may sit above the plan it bounds by the solvers' relative tolerance, no more.
-BOUND_TOLERANCE = 1e-6
-
-
-def _above(bound: float | None, objective: float) -> bool:
-    """Whether ``bound`` lies above a plan's ``objective`` by more than the tolerance."""
-    return bound is not None and bound > objective + BOUND_TOLERANCE * max(1.0, abs(objective))
-
-
-def _bound_checked(out: BackendOutcome, fallback: float | None, relative_gap_wanted: float,
-                   say: Callable[[str], None] | None = None) -> BackendOutcome:
-    """``out`` with a bound above its own plan's objective discarded: such a bound bounds
-    nothing, and had read "may cost up to -8,000 less".  It falls to ``fallback`` (the LP
-    bound) where that one is not above the plan, else to :data:`OBJECTIVE_FLOOR`.
-
-    Seen with HiGHS 1.16 on a re-plan's cost stage: presolve claimed 117,000 "Optimal" with
-    the shortfall held at 1e-6 while a plan of 109,000 keeps every row (scipy's HiGHS and
-    HiGHS with presolve off find 109,000); the plan of 109,000 was kept, the bound was not
-    dropped.
-    """
-    if out.objective is None or not _above(out.bound, out.objective):
-        return out
-    kept = (max(fallback, OBJECTIVE_FLOOR) if fallback is not None
-            and not _above(fallback, out.objective) else OBJECTIVE_FLOOR)
-    if say is not None:
-        source = "the LP's" if fallback == kept else "no plan scores below 0"
-        say(f"  the solver's bound {progress_value(out.bound)} is above the plan kept "
-            f"({progress_value(out.objective)}), so it bounds nothing: discarded; the bound is "
-            f"{progress_value(kept)} ({source})")
-    gap = relative_gap(out.objective, kept)
-    status = (Status.OPTIMAL if gap is not None and gap <= relative_gap_wanted
-              else Status.FEASIBLE_WITH_GAP)
-    return replace(out, bound=kept, status=status,
-                   words=f"{out.words}; its bound {progress_value(out.bound)} was above the "
-                         "plan kept and is discarded")
-
-
-# Every objective solved here is shortfall or money paid (priorities, costs and disruption
-# rates are never negative), so no plan scores below 0.  The solver's bound can: the
-# relocatable cost-adjustment columns dip below 0 on their own in the relaxation.
-OBJECTIVE_FLOOR = 0.0
-
-
-def _with_floor(out: BackendOutcome, relative_gap_wanted: float) -> BackendOutcome:
-    """Raise a bound below :data:`OBJECTIVE_FLOOR` (or none) to it; a plan its bound proves
-    (within the gap asked) is optimal, whichever step stopped.  A cost of 0 against a
-    solver's bound of 0 had stayed "feasible" in one run and read "optimal ... (stopped at
-    the time limit)" in another."""
-    if not out.status.has_plan:
-        return out
-    if out.bound is None or out.bound < OBJECTIVE_FLOOR:
-        out = replace(out, bound=OBJECTIVE_FLOOR)
-    gap = relative_gap(out.objective, out.bound)
-    # A bound above the plan is no proof (a solver's wrong claim), whatever the gap reads.
-    above = out.objective is not None and _above(out.bound, out.objective)
-    if (out.status is not Status.OPTIMAL and not above and gap is not None
-            and gap <= relative_gap_wanted):
-        out = replace(out, status=Status.OPTIMAL, words="its plan meets its bound")
-    return out
-
-
 # Above this many columns the first stage starts from its passes, whose plans are far better
 # than staying put, and the extra solve would only take time.
 STAY_PUT_MAX_COLUMNS = 200_000
@@ -569,7 +505,7 @@ def _unimproved(model: Model, first: BackendOutcome, bound: float | None,
 
 def _stage(name: str, out: BackendOutcome) -> StageResult:
     # No bound above the stage's plan reaches a report, from whichever path it came.
-    out = _bound_checked(out, None, 0.0)
+    out = bound_checked(out, None, 0.0)
     return StageResult(name, out.status, out.objective, out.bound,
                        relative_gap(out.objective, out.bound) if out.status.has_plan else None,
                        out.seconds, out.words)

@@ -61,7 +61,7 @@ def test_a_bound_below_zero_is_raised_to_the_objective_floor():
     import numpy as np
 
     from rebalance.backends import BackendOutcome, Status
-    from rebalance.solve import _with_floor
+    from rebalance.stage_claims import with_floor as _with_floor
 
     x = np.zeros(1)
     zero = BackendOutcome(Status.FEASIBLE_WITH_GAP, x, 0.0, -4e4, "Time limit reached", 1.0)
@@ -512,7 +512,7 @@ def test_a_plan_meeting_its_bound_is_optimal_but_a_bound_above_it_proves_nothing
     # A cost of 0 against a solver's bound of 0 had stayed "feasible" in one run and read
     # "optimal" in another (a sweep); a bound above the plan is a solver's wrong claim.
     from rebalance.backends import BackendOutcome, Status
-    from rebalance.solve import _with_floor
+    from rebalance.stage_claims import with_floor as _with_floor
 
     x = np.zeros(1)
     met = _with_floor(BackendOutcome(Status.FEASIBLE_WITH_GAP, x, 0.0, 0.0,

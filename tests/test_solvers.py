@@ -217,7 +217,7 @@ def test_a_bound_above_the_plan_kept_is_discarded_not_reported():
     # plan kept scored 109,000, and the report read "may cost up to -8,000 less".  A bound
     # above its plan bounds nothing: it falls to the LP's bound, or to 0 if that is no better.
     from rebalance.backends.common import BackendOutcome, relative_gap
-    from rebalance.solve import _bound_checked
+    from rebalance.stage_claims import bound_checked as _bound_checked
 
     said: list[str] = []
     claimed = BackendOutcome(Status.OPTIMAL, np.zeros(1), 109_000.0, 117_000.0, "Optimal", 0.0)

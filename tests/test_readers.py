@@ -598,15 +598,23 @@ def test_a_number_in_quotes_is_said_to_be_text(tmp_path):
         'the quotes); expected a number from 0 to 1']
 
 
+def _tiny_with(tmp_path: Path, **texts: tuple[str, str]) -> Path:
+    """A copy of tiny with, in each file named (``settings_toml=("a", "b")``), ``a`` replaced
+    by ``b``."""
+    target = tmp_path / "tiny"
+    shutil.copytree(DATA / "tiny", target)
+    for name, (old, new) in texts.items():
+        path = target / name.replace("_", ".")
+        path.write_text(path.read_text().replace(old, new))
+    return target
+
+
 def test_a_one_period_horizon_is_named_once(tmp_path):
     # "(2027-Q1 to 2027-Q1)" had named the one period as a span.
-    target = tmp_path / "one"
-    shutil.copytree(DATA / "tiny", target)
-    settings = target / "settings.toml"
-    settings.write_text(settings.read_text().replace("count = 4", "count = 1"))
-    (target / "staff.csv").write_text((target / "staff.csv").read_text().replace(",2027-Q3", ","))
-    demand = target / "demand.csv"
-    demand.write_text("office,skill,period,fte\nA,review,2027-Q1,1\nA,review,2027-Q2,1\n")
+    target = _tiny_with(tmp_path, settings_toml=("count = 4", "count = 1"),
+                        staff_csv=(",2027-Q3", ","))
+    (target / "demand.csv").write_text("office,skill,period,fte\nA,review,2027-Q1,1\n"
+                                       "A,review,2027-Q2,1\n")
     assert _problems(target) == ["demand.csv:3: period: unknown period '2027-Q2'; expected one "
                                  "listed in settings.toml (2027-Q1) (did you mean '2027-Q1'?)"]
 
@@ -614,11 +622,7 @@ def test_a_one_period_horizon_is_named_once(tmp_path):
 def test_an_unusable_skill_name_is_not_offered_as_what_was_meant(tmp_path):
     # 're view' cannot be named in staff.csv (skills are separated by spaces): "unknown skill
     # 'review' (did you mean 're view'?)" pointed at a name no row could use.
-    target = tmp_path / "sk"
-    shutil.copytree(DATA / "tiny", target)
-    skills = target / "skills.csv"
-    skills.write_text(skills.read_text().replace("\nreview,", "\nre view,"))
-    problems = _problems(target)
+    problems = _problems(_tiny_with(tmp_path, skills_csv=("\nreview,", "\nre view,")))
     assert problems[0].startswith("skills.csv:2: skill: 're view' is not a usable skill name")
     assert "staff.csv:2: skills: unknown skill 'review'; expected one listed in skills.csv" in \
         problems

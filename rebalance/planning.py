@@ -149,6 +149,8 @@ def summary_dict(result: PlanResult) -> dict[str, Any]:
         "status": result.status.value,
         "objective_mode": result.options.mode,
         "weighted_shortfall": plan.weighted_shortfall if plan else None,
+        # With nobody moved or hired, the work split at its best: what the plan buys.
+        "staying_put_weighted_shortfall": result.solve.staying_put_shortfall if plan else None,
         "shortfall_fte_periods": plan.shortfall_fte if plan else None,
         "total_cost": plan.total_cost if plan else None,
         "cost_by_kind": plan.cost_by_kind() if plan else None,

@@ -73,6 +73,10 @@ class SolveResult:
     solver_version: str
     solve_seconds: float
     conflicts: tuple[str, ...] = ()
+    # The weighted shortfall with nobody moved or hired and the best work split, beside the
+    # plan's: what the plan buys.  Shortfall-first plans without a hint only (a hint's plan
+    # may stand in for staying put); None where not worked out.
+    staying_put_shortfall: float | None = None
 
     @property
     def gap(self) -> float | None:
@@ -153,9 +157,11 @@ def solve(model: Model, options: SolveOptions, instance: Instance | None = None)
                                  hint_split=hint_split)
     first = settled(model, first, model.shortfall_weight, options.relative_gap)
     stages.append(_stage("shortfall", first))
+    # With a hint stage 1 starts from the better of it and staying put: not staying put.
+    staying_put = carried.staying_put if model.hint is None else None
     if not first.status.has_plan or first.x is None or first.objective is None:
         return _finish(model, backend, options, stages, first, started, deadline,
-                       instance=instance)
+                       instance=instance, staying_put=staying_put)
     # The gap, not the solver's word: HiGHS says "Optimal" of a search within the gap asked.
     gap = stages[-1].gap
     say(f"stage 1 done: weighted shortfall {progress_value(first.objective)}, "
@@ -167,7 +173,7 @@ def solve(model: Model, options: SolveOptions, instance: Instance | None = None)
         stages.append(_stage("cost", _unimproved(model, first, None,
                                                  "not run: no time left")))
         return _finish(model, backend, options, stages, first, started, deadline,
-                       final_status=Status.FEASIBLE_WITH_GAP)
+                       final_status=Status.FEASIBLE_WITH_GAP, staying_put=staying_put)
     # Hold the stage-1 shortfall with a small slack, then minimise cost from its plan.
     held = options.held_shortfall(first.objective)
     start_plan: np.ndarray | None = first.x
@@ -186,7 +192,7 @@ def solve(model: Model, options: SolveOptions, instance: Instance | None = None)
         say(f"stage 2 found no plan ({second.words}); keeping the stage-1 plan")
         stages.append(_stage("cost", _unimproved(model, first, second.bound, second.words)))
         return _finish(model, backend, options, stages, first, started, deadline,
-                       final_status=Status.FEASIBLE_WITH_GAP)
+                       final_status=Status.FEASIBLE_WITH_GAP, staying_put=staying_put)
     second = _last_stage_finished(backend, model, second, model.cost,
                                   [(model.shortfall_weight, held)], options, deadline, say)
     stages.append(_stage("cost", second))
@@ -197,7 +203,7 @@ def solve(model: Model, options: SolveOptions, instance: Instance | None = None)
         stages[0] = _plan_shortfall(stages[0], float(model.shortfall_weight @ last.x), model,
                                     kept is not None)
     return _finish(model, backend, options, stages, last, started, deadline,
-                   final_status=status)
+                   final_status=status, staying_put=staying_put)
 
 
 # At most, for the best work split of a re-plan's old plan (or a scenario's base) before
@@ -255,6 +261,9 @@ class CarriedOver:
     # A bound on the cost stage worked out beside stage 1's search, for any shortfall held
     # at or below what stage 1's plan had then (stage_bounds.cost_bound_ahead).
     cost_bound: Future[stage_bounds.HeldCostBound | None] | None = None
+    # The objective of the plan stage 1 started from where staying put was worked out
+    # (:func:`~rebalance.heuristics.stay_put_plan`; with a hint, possibly the hint's plan).
+    staying_put: float | None = None
 
 
 def polish(backend: Backend, model: Model, out: BackendOutcome, options: SolveOptions,
@@ -469,7 +478,8 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
     out = with_floor(bound_checked(out, lp_bound, options.relative_gap, say),
                       options.relative_gap)
     seconds = time.perf_counter() - t0
-    return replace(out, seconds=seconds), CarriedOver(rounding_lp_seconds, cost_bound)
+    return replace(out, seconds=seconds), CarriedOver(
+        rounding_lp_seconds, cost_bound, None if floor is None else float(objective @ floor))
 
 
 def _bound_worked_out_ahead(ahead: Future[stage_bounds.HeldCostBound | None], held: float,
@@ -513,8 +523,8 @@ def _stage(name: str, out: BackendOutcome) -> StageResult:
 
 def _finish(model: Model, backend: Backend, options: SolveOptions, stages: list[StageResult],
             last: BackendOutcome, started: float, deadline: float,
-            final_status: Status | None = None,
-            instance: Instance | None = None) -> SolveResult:
+            final_status: Status | None = None, instance: Instance | None = None,
+            staying_put: float | None = None) -> SolveResult:
     status = final_status or last.status
     conflicts: tuple[str, ...] = ()
     if status is Status.INFEASIBLE:
@@ -530,4 +540,5 @@ def _finish(model: Model, backend: Backend, options: SolveOptions, stages: list[
                          "in a plan found with nothing relaxed: a numerical failure of the "
                          "solver (are some numbers extremely large?); try the other solver",)
     return SolveResult(status, last.x if status.has_plan else None, tuple(stages),
-                       backend.name, backend.version(), time.perf_counter() - started, conflicts)
+                       backend.name, backend.version(), time.perf_counter() - started, conflicts,
+                       staying_put)

@@ -146,6 +146,7 @@ def format_summary(result: PlanResult) -> str:
             f"({fte_total_text(plan.shortfall_fte)} unweighted, "
             f"{share_text(plan.shortfall_fte, demand)} of {fte_total_text(demand)} demanded)"
             if demand else "  no demand",
+            *_staying_put_lines(result),
             # "New money", as the page and the workbook name it: leaders had read "total
             # cost" as the whole staffing cost, when staff already employed are not in it.
             f"  new money            {money_amount(plan.total_cost, money.currency)} "
@@ -187,6 +188,18 @@ def format_summary(result: PlanResult) -> str:
         # The caution is about a plan; with none, what a reader needs is that nothing moved.
         lines += ["", "  No plan: nothing was written."]
     return "\n".join(lines)
+
+
+def _staying_put_lines(result: PlanResult) -> list[str]:
+    """What the plan buys: the weighted shortfall with nobody moved or hired (the work split
+    at its best) beside the plan's; no line where it was not worked out."""
+    staying, plan = result.solve.staying_put_shortfall, result.plan
+    if staying is None or plan is None:
+        return []
+    removed = fte_total_text(max(staying - plan.weighted_shortfall, 0.0))
+    return [f"  staying put          {fte_total_text(staying)} FTE-periods weighted with "
+            "nobody moved or hired (the plan removes "
+            f"{'none of it' if removed == fte_total_text(0.0) else removed})"]
 
 
 def _run_rate_lines(result: PlanResult) -> list[str]:

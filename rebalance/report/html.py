@@ -128,12 +128,16 @@ def _headline(data: ReportData) -> str:
     share_note = run_rate_note(rate, money_unit.currency)
     # Above the cap the share moves into the warning under the note (said once, not twice).
     warning = (f"{share_note}: {run_rate_consequence(rate)}." if rate.above_cap else "")
+    # What the plan buys, as the console's "staying put" line; nothing where not worked out.
+    staying = run.staying_put_weighted_shortfall
+    staying_note = "" if staying is None else (
+        f"; {fte_total_text(staying)} with nobody moved or hired")
     cards = [
         # Headline totals as the console's summary and the workbook's write them.
         card("Weighted shortfall", fte_total_text(plan.weighted_shortfall),
               f"FTE-periods; unweighted {fte_total_text(plan.shortfall_fte)}, "
               f"{share_text(plan.shortfall_fte, demand)} of "
-              f"{fte_total_text(demand)} demanded",
+              f"{fte_total_text(demand)} demanded{staying_note}",
               "warn" if share > 0.02 else "ok"),
         card("Idle capacity", fte_total_text(spare_total), spare_note),
         # Money in full, as everywhere else: "2.46M" beside "2,463,500" read as two figures.

@@ -134,6 +134,10 @@ class RunSummary:
     # What that scenario (or a re-plan's) assumed; None: no scenario, or a folder written
     # before the key.
     scenario_changes: ScenarioSummary | None = None
+    # The weighted shortfall with nobody moved or hired (the work split at its best): what
+    # the plan buys.  None where not worked out (weighted mode, a re-plan, a scenario's plan
+    # from its base, a very large model) or a folder written before the key.
+    staying_put_weighted_shortfall: float | None = None
 
     @classmethod
     def from_dict(cls, raw: Mapping[str, Any]) -> RunSummary:
@@ -182,6 +186,7 @@ class RunSummary:
             replan=ReplanSummary.from_raw(raw.get("replan")),
             scenario=str(raw["scenario"]) if raw.get("scenario") else None,
             scenario_changes=ScenarioSummary.from_raw(raw.get(SCENARIO_KEY)),
+            staying_put_weighted_shortfall=num(raw.get("staying_put_weighted_shortfall")),
         )
 
 

@@ -16,9 +16,10 @@ from typing import Any
 from rebalance.analysis.scenario_files import BudgetChange, DemandChange, Scenario
 from rebalance.instance import Instance
 from rebalance.numbers import fte_total_text, money_amount, plain_number
-from rebalance.report.inputs import SCENARIO_KEY
+from rebalance.report.htmlparts import SCENARIO_FIGURES
+from rebalance.report.inputs import SCENARIO_KEY, ScenarioSummary
 
-__all__ = ["SCENARIO_KEY", "budget_words", "demand_words", "scenario_entry"]
+__all__ = ["SCENARIO_KEY", "budget_words", "demand_words", "scenario_entry", "scenario_rows"]
 # Names listed in one selection before "and N more": a file may name every period.
 NAMES_SHOWN = 6
 
@@ -105,3 +106,12 @@ def scenario_entry(scenario: Scenario, base: Instance, applied: Instance) -> dic
     budget += _cap_lines(base, applied)
     return {"name": scenario.name, "description": scenario.description,
             "demand": demand, "budget": budget}
+
+
+def scenario_rows(scenario: ScenarioSummary) -> list[tuple[str, str]]:
+    """The workbook summary's band for ``scenario``, what the plan's data assumed, as the
+    page's box says it: (label, text) a row, the last a note with no text."""
+    rows = [("description", scenario.description)] if scenario.description else []
+    for label, said in (("demand", scenario.demand), ("budgets", scenario.budget)):
+        rows += [(label, text) for text in said or ("as in the instance's data",)]
+    return [*rows, (SCENARIO_FIGURES.replace("on this page", "here"), "")]

@@ -44,7 +44,7 @@ from rebalance.report.analysis_charts import AMOUNT_COLUMNS, GRID_COLUMNS
 from rebalance.report.analysis_words import FROM_BASE_WORDS, gap_caution
 from rebalance.report.chart_data import spare_capacity
 from rebalance.report.console import MEASURE_COLUMN, budget_note, cell_text, measure_names
-from rebalance.report.htmlparts import SCENARIO_FIGURES, stage_words
+from rebalance.report.htmlparts import stage_words
 from rebalance.report.inputs import ReportData, quality_notes
 from rebalance.report.limits_view import (
     LIMITS_LEAD,
@@ -53,6 +53,7 @@ from rebalance.report.limits_view import (
     plan_run_rate,
     run_rate_warning,
 )
+from rebalance.report.scenario_notes import scenario_rows
 from rebalance.report.words import (
     ATTRITION_NOTE,
     expects_attrition,
@@ -467,18 +468,16 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
             ws.write_string(next(rows), 0, text, styles.warning)
     scenario = run.scenario_changes
     if scenario is not None:
-        # What the plan's data assumed, as the page's box says it.
         band(f"Scenario {scenario.name}")
-        if scenario.description:
-            line("description", scenario.description)
-        for label, said in (("demand", scenario.demand), ("budgets", scenario.budget)):
-            for text in said or ("as in the instance's data",):
-                line(label, text)
-        ws.write_string(next(rows), 0, SCENARIO_FIGURES.replace("on this page", "here"))
+        for label, text in scenario_rows(scenario):
+            line(label, text)
     band("Headline")
     line("outcome", outcome_words(run.status, run.gap))
     # Headline totals to one decimal, as the console's summary and the page's cards.
     line("weighted shortfall (FTE-periods)", plan.weighted_shortfall, FTE_TOTAL)
+    if (staying := run.staying_put_weighted_shortfall) is not None:  # what the plan buys
+        line("staying put (FTE-periods, weighted)", staying, FTE_TOTAL,
+             "weighted shortfall with nobody moved or hired, the work split at its best")
     line("shortfall (FTE-periods, unweighted)", plan.shortfall_fte, FTE_TOTAL)
     line("share of demand not covered", plan.shortfall_fte / demand if demand else 0.0, SHARE,
          f"of {fte_total_text(demand)} FTE-periods demanded")

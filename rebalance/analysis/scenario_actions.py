@@ -20,8 +20,9 @@ import pandas as pd
 from rebalance.analysis.limits import hire_rows
 from rebalance.plan import Plan
 
-__all__ = ["ACTION_COLUMNS", "NO_WHEN", "HireChange", "PlanActions", "action_rows",
-           "actions_table", "hire_changes", "main_skills", "plan_actions", "when_words"]
+__all__ = ["ACTION_COLUMNS", "NO_WHEN", "SUMMARY_COLUMNS", "HireChange", "PlanActions",
+           "action_rows", "action_summary", "actions_table", "hire_changes", "main_skills",
+           "plan_actions", "when_words"]
 
 ACTION_COLUMNS = ("scenario", "change", "action", "person_or_office", "skill", "period",
                   "route_or_funding", "base", "scenario_value", "when", "in_every_scenario")
@@ -189,3 +190,57 @@ def actions_table(rows: Sequence[tuple[Any, ...]], scenarios: Sequence[str]) -> 
     every = len(scenarios) >= 2
     out = [(*row[:-1], every and made[decision(row)] >= set(scenarios)) for row in rows]
     return pd.DataFrame(out, columns=list(ACTION_COLUMNS))
+
+
+def _hire_change(c: HireChange, ix: Mapping[str, int]) -> str:
+    if c.moved_from is None:
+        return "more" if c.after > c.before else "fewer"
+    return "earlier" if ix.get(c.start, -1) < ix.get(c.moved_from, -1) else "later"
+
+
+# What :func:`action_summary` adds to a scenario's row of ``scenarios.csv``.
+SUMMARY_COLUMNS = ("details_added", "hires_changed", "changes_before")
+
+
+def action_summary(base: Plan, plan: Plan, periods: Sequence[str], changed: Sequence[int],
+                   offices: Sequence[str]) -> dict[str, Any]:
+    """Who moves for a scenario, for its row of ``scenarios.csv`` (a planner's reading: the
+    rows of ``scenario_actions.csv`` were there, summed up nowhere).
+
+    ``details_added``: detail periods the scenario's plan adds into the ``offices`` whose
+    demand it changes, from the first period it changes on: by route and period, what the
+    scenario sends beyond the base (another person on the same run is no change), as
+    ``to|home|count`` keys joined by ``;``, most first.  ``hires_changed``: each hire change
+    of :func:`hire_changes` as ``change|office|skill|funding|start|base|scenario|moved_from``
+    (change: ``more``, ``fewer``, or a move ``earlier`` or ``later``).
+    ``changes_before``: the rows of :func:`action_rows` that fall before the scenario's
+    changes begin (the solver's noise or its anticipation)."""
+    ix = {p: t for t, p in enumerate(periods)}
+    a, b = plan_actions(base), plan_actions(plan)
+    first = min(changed) if changed else len(periods)
+    # By route and period, so a detail that only swaps who goes is no move for the scenario.
+    runs: dict[tuple[str, str], int] = defaultdict(int)
+    for sign, sent in ((1, b.details), (-1, a.details)):
+        for (_, period), route in sent.items():
+            if ix.get(period, -1) >= first:
+                runs[(route, period)] += sign
+    counts: dict[tuple[str, str], int] = defaultdict(int)
+    for (route, _), n in runs.items():
+        home, _, to = route.partition(" -> ")
+        if to in offices and n > 0:
+            counts[(to, home)] += n
+    into: dict[str, int] = defaultdict(int)
+    for (to, _), n in counts.items():
+        into[to] += n
+    details = sorted(counts.items(), key=lambda kv: (-into[kv[0][0]], kv[0][0], -kv[1],
+                                                     kv[0][1]))
+    hires = hire_changes(a.hires, b.hires, lambda period: ix.get(period, -1))
+    before = sum(1 for row in action_rows("", base, plan, periods, changed)
+                 if row[ACTION_COLUMNS.index("when")] == "before")
+    return {
+        "details_added": ";".join(f"{to}|{home}|{n}" for (to, home), n in details),
+        "hires_changed": ";".join(f"{_hire_change(c, ix)}|{c.office}|{c.skill}|{c.funding}|"
+                                  f"{c.start}|{c.before}|{c.after}|{c.moved_from or ''}"
+                                  for c in hires),
+        "changes_before": before,
+    }

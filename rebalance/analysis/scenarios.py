@@ -14,9 +14,13 @@ from typing import Any
 
 import pandas as pd
 
+from rebalance.analysis.limits import BUDGET_LIMITS
+from rebalance.analysis.reasons import reasons
 from rebalance.analysis.scenario_actions import (
     ACTION_COLUMNS,
+    SUMMARY_COLUMNS,
     action_rows,
+    action_summary,
     actions_table,
     plan_actions,
 )
@@ -31,10 +35,15 @@ from rebalance.verify import verify_plan
 
 __all__ = [
     "ACTION_COLUMNS",
+    "HELD_BACK_COLUMN",
+    "LIMITS_SAID",
     "OFFICE_COLUMNS",
+    "SUMMARY_COLUMNS",
     "Comparison",
+    "changed_offices",
     "changed_periods",
     "compare_scenarios",
+    "held_back_by",
     "plan_actions",
 ]
 
@@ -83,6 +92,67 @@ def changed_periods(instance: Instance, scenario: Scenario) -> tuple[int, ...]:
     years = {y for b in scenario.budget for y in (instance.years if b.years is None
                                                   else b.years)}
     return tuple(t for t in every if instance.periods[t].year in years)
+
+
+def changed_offices(instance: Instance, scenario: Scenario) -> tuple[str, ...]:
+    """The offices whose demand the scenario changes (``None`` in a change: every office), in
+    the instance's order."""
+    every = tuple(o.name for o in instance.offices)
+    named = {o for c in scenario.demand for o in (every if c.offices is None else c.offices)}
+    return tuple(o for o in every if o in named)
+
+
+# How many limits a scenario's ``held_back_by`` names, most shortfall first.
+LIMITS_SAID = 3
+HELD_BACK_COLUMN = "held_back_by"
+
+
+def held_back_by(variant: Instance, plan: Plan, base: Plan | None,
+                 offices: Sequence[str]) -> str:
+    """The limits the scenario's new shortfall at ``offices`` cites most (``reasons.csv``'s
+    ``binding_limits`` of its plan), for ``scenarios.csv``: a planner's reading found the
+    harbour surge's 19.9 FTE-periods left short explained only in the scenario's folder.
+
+    A shortfall row weighs what it is above the base plan's shortfall in the same office,
+    skill and period.  A limit is its kind and office (a budget: its kind, every year
+    together), ranked by the weight of the rows citing it; at most :data:`LIMITS_SAID`, as
+    ``kind|where,where|period,period|fte`` joined by ``;`` (periods in horizon order)."""
+    before: dict[tuple[str, str, str], float] = {}
+    if base is not None:
+        c = base.coverage
+        for key, short in zip(zip(c["office"].astype(str), c["skill"].astype(str),
+                                  c["period"].astype(str), strict=True),
+                              c["shortfall_fte"].astype(float), strict=True):
+            before[key] = before.get(key, 0.0) + short
+    table = reasons(variant, plan).table
+    rows = table[(table["action"] == "shortfall") & table["office"].astype(str).isin(offices)]
+    weight: dict[tuple[str, str], float] = {}
+    wheres: dict[tuple[str, str], set[str]] = {}
+    periods: dict[tuple[str, str], set[str]] = {}
+    for o, k, t, short, cited in zip(rows["office"].astype(str), rows["skill"].astype(str),
+                                     rows["first_period"].astype(str),
+                                     rows["amount"].astype(float),
+                                     rows["binding_limits"].astype(str), strict=True):
+        new = short - before.get((o, k, t), 0.0)
+        if new <= 1e-9:
+            continue
+        groups: set[tuple[str, str]] = set()
+        for limit in (x for x in cited.split(";") if x):
+            kind, where, period = [*limit.split("|"), "", ""][:3]
+            group = (kind, "" if kind in BUDGET_LIMITS else where)
+            groups.add(group)
+            wheres.setdefault(group, set()).add(where)
+            if period:
+                periods.setdefault(group, set()).add(period)
+        # A row citing seats in five periods counts once for seats.
+        for group in groups:
+            weight[group] = weight.get(group, 0.0) + new
+    order = {p: t for t, p in enumerate(variant.period_names)}
+    ranked = sorted(weight, key=lambda g: (-weight[g], g))[:LIMITS_SAID]
+    return ";".join(
+        f"{kind}|{','.join(sorted(wheres[(kind, w)]))}|"
+        f"{','.join(sorted(periods.get((kind, w), set()), key=lambda p: order.get(p, -1)))}|"
+        f"{weight[(kind, w)]:.6g}" for kind, w in ranked)
 
 
 # The base's description in scenarios.csv, beside each scenario's own.
@@ -202,6 +272,7 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
     descriptions = {"base": BASE_DESCRIPTION, **{s.name: s.description for s in scenarios}}
     base_plan = results[0].plan
     changed = {s.name: changed_periods(instance, s) for s in scenarios}
+    offices_of = {s.name: changed_offices(instance, s) for s in scenarios}
     rows = []
     cost_rows = []
     actions: list[tuple[Any, ...]] = []
@@ -209,6 +280,8 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
     for name, variant, result in zip(names, variants, results, strict=True):
         # Against a base with no plan there is nothing to differ from.
         differing: int | None = 0 if base_plan is not None else None
+        # Who moves for it and what holds its shortfall back (blank for the base).
+        summary: dict[str, Any] = {}
         if result.plan is not None:
             if name != "base" and base_plan is not None:
                 # One row per changed decision (a rerouted detail is one): the count is the
@@ -217,12 +290,16 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
                                     changed[name])
                 differing = len(found)
                 actions += found
+                summary = action_summary(base_plan, result.plan, instance.period_names,
+                                         changed[name], offices_of[name])
+                summary[HELD_BACK_COLUMN] = held_back_by(variant, result.plan, base_plan,
+                                                         offices_of[name])
             c = result.plan.costs
             for year, kind, cost in zip(c["year"].astype(str), c["kind"].astype(str),
                                         c["cost"].astype(float), strict=True):
                 cost_rows.append((name, year, kind, cost))
         rows.append({**_row(name, descriptions[name], result, variant, differing),
-                     **_budget_columns(instance, variant, base_plan, result.plan)})
+                     **_budget_columns(instance, variant, base_plan, result.plan), **summary})
         office_rows += _office_rows(name, result, variant)
     table = pd.DataFrame(rows)
     costs = pd.DataFrame(cost_rows, columns=["scenario", "year", "kind", "cost"])

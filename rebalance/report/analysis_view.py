@@ -28,6 +28,7 @@ from rebalance.report.analysis_charts import (
     marginal_texts,
 )
 from rebalance.report.analysis_words import (
+    SUMMARY_KEYS,
     actions_lead,
     find_column,
     finite,
@@ -201,8 +202,10 @@ def _tables(frame: pd.DataFrame, name: str, limit: int = 200,
         frame = years_as_text(status_in_words(frame))  # as the console's table says it
     if name == "frontier":
         frame = grid_texts(frame)
-    if name == "scenarios" and "description" in frame.columns:
-        frame = frame.drop(columns="description")  # said in the section's lead, in full
+    if name == "scenarios":
+        # Said in the section's lead, in full (the summaries' keys in words).
+        frame = frame.drop(columns=[c for c in ("description", *SUMMARY_KEYS)
+                                    if c in frame.columns])
     if name == "marginal" and "shortfall_gap" in frame.columns:
         # Its fifteenth column had pushed the table past a 1400 px page; the gap note above
         # gives the shortfall stage's gap, and marginal_values.csv has the column.

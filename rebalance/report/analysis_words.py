@@ -14,13 +14,14 @@ from typing import Any
 
 import pandas as pd
 
-from rebalance.analysis.limits import limit_words
+from rebalance.analysis.limits import BUDGET_LIMITS, LIMIT_NAMES, limit_words
 from rebalance.numbers import fte_total_text, gap_text, money_amount, money_text, years_text
 from rebalance.report.words import outcome_words
 
 __all__ = [
     "FROM_BASE_WORDS",
     "NO_LIMIT",
+    "SUMMARY_KEYS",
     "actions_lead",
     "find_column",
     "finite",
@@ -235,6 +236,115 @@ def _budget_words(row: Any, currency: str | None) -> str | None:
     return "; ".join(said) if said else "budgets unchanged"
 
 
+def _keys(row: Any, name: str) -> list[list[str]]:
+    """The ``;``-joined, ``|``-split keys of ``row``'s column ``name`` (none where it is
+    missing or blank: the base's row, or a table written before it)."""
+    return [key.split("|") for key in _text(getattr(row, name, None)).split(";") if key]
+
+
+def _and(items: Sequence[str]) -> str:
+    return items[0] if len(items) == 1 else f"{', '.join(items[:-1])} and {items[-1]}"
+
+
+def _span(periods: str, single: str = "in ") -> str:
+    """``in 2027-Q4`` or ``2027-Q4 to 2028-Q4`` (the first and last of ``,``-joined periods)."""
+    said = [p for p in periods.split(",") if p]
+    if not said:
+        return ""
+    return f"{single}{said[0]}" if len(said) == 1 else f"{said[0]} to {said[-1]}"
+
+
+def _limit_phrase(kind: str, wheres: str, periods: str, previous: str) -> str:
+    """One limit of ``held_back_by`` in words: ``seats at port-ilse-harbour (full 2027-Q4 to
+    2028-Q4)``, ``hiring slots there in 2027-Q4``, ``the hiring budgets of 2027 and 2028``."""
+    name = LIMIT_NAMES.get(kind, kind.replace("_", " "))
+    places = [w for w in wheres.split(",") if w]
+    if kind in BUDGET_LIMITS:
+        return f"the {name}{'s' if len(places) > 1 else ''} of {_and(places or ['its year'])}"
+    where = ", ".join(places)
+    of = "of" if kind in ("vacancies", "time_to_hire") else "at"
+    at = "there" if where == previous else f"{of} {where}"
+    span = _span(periods)
+    if kind == "seats":
+        return f"seats {at}" + (f" (full {span})" if span else "")
+    return f"{name} {at}" + (f" {span}" if span else "")
+
+
+def _held_back_words(row: Any) -> str:
+    """What holds the scenario's new shortfall back (``held_back_by``): ", held back mostly
+    by ..." or "" where the table has no such column or names no limit."""
+    said: list[str] = []
+    previous = ""
+    for key in _keys(row, "held_back_by"):
+        kind, wheres, periods = [*key, "", ""][:3]
+        said.append(_limit_phrase(kind, wheres, periods, previous))
+        previous = "" if kind in BUDGET_LIMITS else wheres.replace(",", ", ")
+    return f", held back mostly by {_and(said)}" if said else ""
+
+
+# The keyed columns of scenarios.csv that a scenario's line says in words
+# (rebalance.analysis.scenario_actions.SUMMARY_COLUMNS and scenarios.HELD_BACK_COLUMN).
+SUMMARY_KEYS = ("details_added", "hires_changed", "held_back_by")
+# How many home offices of a destination, and hire changes, a scenario's line names.
+ACTIONS_SAID = 3
+HIRES_SAID = 2
+
+
+def _more(n: int, what: str) -> str:
+    return f" and {n} more {what}{'s' if n > 1 else ''}" if n > 0 else ""
+
+
+def _hire_phrase(key: list[str]) -> str:
+    change, office, skill, _, start, before, after, was = [*key, *[""] * 8][:8]
+    n = abs(int(float(after or 0)) - int(float(before or 0)))
+    if change in ("earlier", "later"):  # before and after: the number moved
+        n = int(float(after or 0))
+        how = "brought forward" if change == "earlier" else "put back"
+        return f"{n} {skill} at {office} {how} from {was} to {start}"
+    return f"{n} {change} {skill} at {office} starting {start}"
+
+
+def _hires_words(keys: list[list[str]], offices: Sequence[str]) -> str:
+    """The hire changes at the ``offices`` whose demand the scenario changes (the first
+    :data:`HIRES_SAID`), and how many more there are elsewhere (every office where
+    ``offices`` is unknown): the storm's line had listed hires across the country first."""
+    if not keys:
+        return "hires as the base's"
+    here = [k for k in keys if not offices or (len(k) > 1 and k[1] in offices)]
+    said = [_hire_phrase(k) for k in here[:HIRES_SAID]]
+    text = (", ".join(said) if said else "none changed at its offices") + _more(
+        len(here) - len(said), "change")
+    elsewhere = len(keys) - len(here)
+    if elsewhere:
+        text += f" ({elsewhere} change{'s' if elsewhere > 1 else ''} elsewhere)"
+    return f"hires: {text}"
+
+
+def _moves_words(row: Any, offices: Sequence[str] = ()) -> str:
+    """Who moves for the scenario and what hires change (``details_added``,
+    ``hires_changed``, ``changes_before``), or "" where the table has no such columns.
+    ``offices``: those whose demand the scenario changes, where known."""
+    if not {"details_added", "hires_changed"} <= set(row._fields):
+        return ""
+    into: dict[str, list[tuple[str, int]]] = {}
+    for key in _keys(row, "details_added"):
+        to, home, n = [*key, "", "", "0"][:3]
+        into.setdefault(to, []).append((home, int(float(n))))
+    moves = []
+    for to, homes in into.items():
+        total = sum(n for _, n in homes)
+        sources = ", ".join(f"{n} from {home}" for home, n in homes[:ACTIONS_SAID])
+        moves.append(f"{total:,} detail-period{'s' if total != 1 else ''} into {to} "
+                     f"({sources}{_more(len(homes) - ACTIONS_SAID, 'office')})")
+    said = "moves for it: " + (_and(moves) if moves else "no detail added into its offices")
+    said += f"; {_hires_words(_keys(row, 'hires_changed'), offices)}"
+    early = int(_number(row, "changes_before") or 0)
+    if early:
+        said += (f"; {early:,} change{'s' if early != 1 else ''} before the scenario's "
+                 "changes begin")
+    return said
+
+
 SALARIES_AFTER = "salary_after_horizon_per_year"
 
 
@@ -293,9 +403,13 @@ def scenario_lines(frame: pd.DataFrame, currency: str | None = None,
         shortfall = f"weighted shortfall {_signed(w_diff, fte_total_text(w_diff))}"
         if plain is not None and base_plain is not None:
             short = plain - base_plain
-            parts[0] += _covered_words(more, short)
+            covered = _covered_words(more, short)
+            parts[0] += covered + (_held_back_words(row) if "short" in covered else "")
             shortfall = (f"shortfall {_signed(short, fte_total_text(short))} FTE-periods, "
                          f"weighted {_signed(w_diff, fte_total_text(w_diff))}")
+        moves = _moves_words(row, [o for o, _ in where])
+        if moves:
+            parts.append(moves)
         if _shows(fte_total_text(w_diff)) and _within(w_diff, gap_of_shortfall, row, base,
                                                       weighted, base_weighted):
             shortfall += f" {WITHIN_GAPS}"

@@ -204,6 +204,16 @@ def test_each_scenario_line_says_where_demand_landed_how_much_is_covered_and_the
                    - by_office["base"].loc["B", "shortfall_fte"])
     assert f"shortfall by office against the base: B +{shortfall_b:.1f}" in line
     assert "within the solves' gaps" not in line  # exact solves: no gap to be within
+    # Who moves and what holds the shortfall back: scenarios.csv's keys, worked out from the
+    # two plans (tests above count them by hand).
+    from rebalance.analysis.scenario_actions import action_summary
+    from rebalance.analysis.scenarios import held_back_by
+
+    keys = action_summary(base, rush, tiny.period_names, (0, 1, 2, 3), ("B",))
+    assert {k: row[k] for k in keys} == keys
+    assert row["held_back_by"] == held_back_by(comparison.results[1].instance, rush, base,
+                                               ("B",))
+    assert "; moves for it: " in line
 
 
 def test_each_plan_says_its_salaries_after_the_horizon_as_the_plan_page_does(tiny) -> None:
@@ -404,3 +414,107 @@ def test_tiny_comparison_marks_common_changes_and_budget_years(tiny) -> None:
     assert set(hires["change"]) == {"fewer"} and hires["scenario_value"].eq(0).all()
     assert len(hires) == len(base.hires)
     assert set(rows["when"]) == {"during"} and not rows["in_every_scenario"].any()
+
+
+# A planner's reading of the demo comparison: "who moves for this surge?" had the rows in
+# scenario_actions.csv and no sum anywhere, and "why is so much left short?" only in each
+# scenario folder's reasons.csv.
+
+def test_action_summary_of_hand_made_plans() -> None:
+    from rebalance.analysis.scenario_actions import action_summary
+
+    base = _plan(details=[("p1", "2027-Q2", "A", "B"), ("p2", "2027-Q3", "C", "B"),
+                          ("p9", "2027-Q4", "A", "B")],
+                 hires=[("B", "review", "2027-Q4", 1, "new")])
+    plan = _plan(details=[("p1", "2027-Q2", "A", "B"), ("p3", "2027-Q2", "A", "B"),
+                          ("p2", "2027-Q3", "C", "B"), ("p4", "2027-Q3", "A", "B"),
+                          ("p5", "2027-Q3", "C", "B"), ("p6", "2027-Q1", "A", "B"),
+                          ("p7", "2027-Q3", "A", "C"), ("p10", "2027-Q4", "A", "B")],
+                 hires=[("B", "review", "2027-Q2", 1, "new"), ("A", "intake", "2027-Q3", 2,
+                                                               "new")])
+    # Reference: counted by hand; the scenario changes B's demand in 2027-Q2 and 2027-Q3.
+    # Into B from then on: p3 and p4 from A, p5 from C (p1 and p2 as in the base; p6 is
+    # before; p7 goes to C; p10 takes p9's place on the same run in 2027-Q4).  B's hire
+    # starts two periods earlier; A gets two more.  Before: p6's detail, one row.
+    assert action_summary(base, plan, PERIODS, (1, 2), ("B",)) == {
+        "details_added": "B|A|2;B|C|1",
+        "hires_changed": ("more|A|intake|new|2027-Q3|0|2|;"
+                          "earlier|B|review|new|2027-Q2|1|1|2027-Q4"),
+        "changes_before": 1}
+    # Other offices' demand: nothing sent to C counts for B's, and the other way round.
+    assert action_summary(base, plan, PERIODS, (1, 2), ("C",))["details_added"] == "C|A|1"
+
+
+def test_the_scenario_line_says_who_moves_and_what_holds_the_shortfall_back() -> None:
+    import pandas as pd
+
+    from rebalance.report.analysis_words import scenario_lines
+
+    # The keys of the test above and made-up limits, as scenarios.csv holds them.
+    frame = pd.DataFrame({
+        "scenario": ["base", "rush"], "description": ["the instance as it is", "a rush"],
+        "demand_fte_periods": [100.0, 124.0], "weighted_shortfall": [10.0, 30.0],
+        "shortfall_fte_periods": [10.0, 29.9], "total_cost": [1000.0, 1000.0],
+        "details_added": [None, "B|A|2;B|C|1"],
+        "hires_changed": [None, "more|A|intake|new|2027-Q3|0|2|;"
+                                "earlier|B|review|new|2027-Q2|1|1|2027-Q4"],
+        "changes_before": [None, 6],
+        "held_back_by": [None, "seats|B|2027-Q4,2028-Q1,2028-Q4|12.5;"
+                               "max_hires|B|2027-Q4|3;hiring_budget|2027,2028||2"]})
+    (line,) = scenario_lines(frame)
+    assert ("of it 4.1 covered and 19.9 left short, held back mostly by seats at B (full "
+            "2027-Q4 to 2028-Q4), hiring slots there in 2027-Q4 and the hiring budgets of 2027 "
+            "and 2028; moves for it: 3 detail-periods into B (2 from A, 1 from C); hires: 2 "
+            "more intake at A starting 2027-Q3, 1 review at B brought forward from 2027-Q4 to "
+            "2027-Q2; 6 changes before the scenario's changes begin; shortfall") in line
+    # With scenario_offices.csv the hires at the offices whose demand changed (B) come
+    # first and the others are counted.
+    offices = pd.DataFrame({"scenario": ["base", "base", "rush", "rush"],
+                            "office": ["A", "B", "A", "B"],
+                            "demand_fte_periods": [50.0, 50.0, 50.0, 74.0],
+                            "shortfall_fte_periods": [5.0, 5.0, 5.0, 24.9]})
+    (line,) = scenario_lines(frame, None, offices)
+    assert ("hires: 1 review at B brought forward from 2027-Q4 to 2027-Q2 (1 change "
+            "elsewhere); 6 changes") in line
+    # Nothing moved or hired, nothing before; a table written before the columns says less.
+    frame.loc[1, ["details_added", "hires_changed", "changes_before"]] = [None, None, 0]
+    (line,) = scenario_lines(frame)
+    assert "moves for it: no detail added into its offices; hires as the base's; short" in line
+    (line,) = scenario_lines(frame.drop(columns=["details_added", "hires_changed",
+                                                 "changes_before", "held_back_by"]))
+    assert "moves for it" not in line and "held back" not in line
+
+
+def test_held_back_by_ranks_the_limits_the_new_shortfall_cites(tiny) -> None:
+    from rebalance.analysis.scenarios import held_back_by
+    from rebalance.plan import coverage_table
+
+    # tests/data/tiny with 1.0 more review at B in 2027-Q3 and 2027-Q4.  Hand-made plans:
+    # everyone works at home, a1 is detailed to B in 2027-Q4; the scenario's plan also
+    # hires one reviewer at B from 2027-Q4.
+    surge = Scenario("late", "", (DemandChange(("B",), ("review",), (2, 3), add_fte=1.0),))
+    variant = apply_scenario(tiny, surge)
+    work = [("b1", p, "B", "review", 1.0) for p in PERIODS[:3]]
+    work += [("a1", p, "A", "review", 1.0) for p in PERIODS[:3]]
+    work += [("a1", "2027-Q4", "B", "review", 1.0), ("a3", "2027-Q1", "A", "intake", 0.5)]
+    work += [("a2", p, "A", "review", 1.0) for p in PERIODS]
+
+    def plan(instance, hires):
+        made = _plan(details=[("a1", "2027-Q4", "A", "B")], hires=hires, work=work)
+        made.details["cost"] = 5000.0  # tests/data/tiny/settings.toml
+        made.hires["onboarding_cost"] = 8000.0  # tests/data/tiny/skills.csv
+        made.work["output_fte"] = [0.8 if p == "a2" else f for p, f in zip(
+            made.work["person"], made.work["fte"], strict=True)]  # a2's review: 0.8
+        return Plan(made.details, made.reassignments, made.hires, made.work,
+                    coverage_table(instance, made.work, made.hires), made.costs)
+
+    base = plan(tiny, [])
+    mine = plan(variant, [("B", "review", "2027-Q4", 1, "new")])
+    # By hand, new shortfall at B: 2027-Q3 3.0 - b1's 1.0 = 2.0 against the base's 1.0: 1.0
+    # new; 2027-Q4 2.0 - a1's 1.0 - the hire's 0.5 (ramp) = 0.5 against the base's 0: 0.5.
+    # Both cite the 2027 hiring budget (28,000 of 40,000 spent; the cheapest further hire,
+    # intake from 2027-Q4, costs 5,000 + 15,000); 2027-Q4 also A's away share (1 of 3 away,
+    # 50%) and B's one hiring slot then.  Ties: by kind.
+    assert held_back_by(variant, mine, base, ("B",)) == (
+        "hiring_budget|2027||1.5;away_share|A|2027-Q4|0.5;max_hires|B|2027-Q4|0.5")
+    assert held_back_by(variant, mine, base, ("A",)) == ""  # A's shortfall is the base's

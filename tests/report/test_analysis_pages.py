@@ -305,6 +305,31 @@ def test_the_scenarios_section_says_from_the_base_plan_and_optimal_within_the_ga
     assert "shortfall by office against the base: A +20.2" in section
 
 
+def test_the_scenario_line_on_the_page_says_who_moves_and_what_holds_it_back(tmp_path):
+    # A planner's reading of the demo comparison: who moves for the surge, and why so much
+    # of it is left short, were only in scenario_actions.csv and each folder's reasons.csv.
+    from report_cases import demo_scenarios_table
+
+    folder = tmp_path / "plan"
+    shutil.copytree(tiny_plan_folder(), folder)
+    table = demo_scenarios_table()
+    table.insert(1, "description", ["the instance as it is", "a rush", "a storm"])
+    # Made-up keys in scenarios.csv's form (office names from tests/data/tiny).
+    table["details_added"] = [None, "B|A|3", None]
+    table["hires_changed"] = [None, "earlier|B|review|new|2027-Q2|1|1|2027-Q4", None]
+    table["changes_before"] = [None, 2, 0]
+    table["held_back_by"] = [None, "seats|B|2027-Q2,2027-Q3|4;hiring_budget|2027||1", None]
+    table.to_csv(folder / "scenarios.csv", index=False)
+    data = report_data_from_folder(folder, read_instance(TINY))
+    section = html.unescape(_section(render_html(data), "scenarios"))
+    assert ("left short, held back mostly by seats at B (full 2027-Q2 to 2027-Q3) and the "
+            "hiring budget of 2027; moves for it: 3 detail-periods into B (3 from A); hires: "
+            "1 review at B brought forward from 2027-Q4 to 2027-Q2; 2 changes before the "
+            "scenario's changes begin;") in section
+    # Said in the lead, so the table leaves the keys out.
+    assert ">details added<" not in section and "B|A|3" not in section
+
+
 # A practitioner's reading of the demo comparison: the actions table took two rows for a
 # rerouted detail, hid detail rows' skills, and did not say which changes came before the
 # surge or were made under every scenario.

@@ -129,7 +129,6 @@ def _say_gaps(table: pd.DataFrame) -> None:
 
 def cmd_compare(args: argparse.Namespace) -> int:
     from rebalance.analysis.output import write_tables
-    from rebalance.analysis.reasons import reasons
     from rebalance.analysis.scenario_files import ScenarioError, folder_name, read_scenarios
     from rebalance.analysis.scenarios import compare_scenarios
     from rebalance.plan import write_plan
@@ -200,7 +199,8 @@ def cmd_compare(args: argparse.Namespace) -> int:
             summary = {**summary_dict(other), "scenario": name,
                        SCENARIO_KEY: scenario_entry(by_name[name], instance, other.instance)}
             (sub / "summary.json").write_text(json.dumps(summary, indent=2) + "\n")
-            write_tables({"reasons.csv": reasons(other.instance, other.plan).table}, sub)
+            # Worked out once, by the comparison (for its held_back_by column).
+            write_tables({"reasons.csv": comparison.reasons[name]}, sub)
             # Its own report.html and plan.xlsx (a leader had only CSV files to open), drawn
             # against the scenario's instance, so their figures and verification are its own.
             # No instance_path: the base instance's would verify it against the wrong data.

@@ -8,7 +8,7 @@ resulting plan tables.
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field, replace
 from typing import Any
 
@@ -59,7 +59,9 @@ class Comparison:
     by scenario, year and kind.  ``actions`` (``scenario_actions.csv``): one row per hire,
     detail or reassignment decision a scenario's plan changes against the base plan.
     ``offices`` (``scenario_offices.csv``): demand and shortfall by scenario and office, to
-    say where a surge lands and where it is left short.
+    say where a surge lands and where it is left short.  ``reasons``: each scenario plan's
+    ``reasons.csv`` table by scenario name (the base's and plan-less scenarios' left out),
+    worked out once here for ``held_back_by`` and written as they are.
     """
 
     names: tuple[str, ...]
@@ -69,6 +71,7 @@ class Comparison:
     actions: pd.DataFrame
     offices: pd.DataFrame = field(default_factory=lambda: pd.DataFrame(
         columns=list(OFFICE_COLUMNS)))
+    reasons: Mapping[str, pd.DataFrame] = field(default_factory=dict)
 
 
 def _named_like_base(result: PlanResult, base: Plan | None) -> PlanResult:
@@ -108,7 +111,7 @@ HELD_BACK_COLUMN = "held_back_by"
 
 
 def held_back_by(variant: Instance, plan: Plan, base: Plan | None,
-                 offices: Sequence[str]) -> str:
+                 offices: Sequence[str], table: pd.DataFrame | None = None) -> str:
     """The limits the scenario's new shortfall at ``offices`` cites most (``reasons.csv``'s
     ``binding_limits`` of its plan), for ``scenarios.csv``: a planner's reading found the
     harbour surge's 19.9 FTE-periods left short explained only in the scenario's folder.
@@ -116,7 +119,8 @@ def held_back_by(variant: Instance, plan: Plan, base: Plan | None,
     A shortfall row weighs what it is above the base plan's shortfall in the same office,
     skill and period.  A limit is its kind and office (a budget: its kind, every year
     together), ranked by the weight of the rows citing it; at most :data:`LIMITS_SAID`, as
-    ``kind|where,where|period,period|fte`` joined by ``;`` (periods in horizon order)."""
+    ``kind|where,where|period,period|fte`` joined by ``;`` (periods in horizon order).
+    ``table``: the plan's reasons table if already worked out (else worked out here)."""
     before: dict[tuple[str, str, str], float] = {}
     if base is not None:
         c = base.coverage
@@ -124,7 +128,8 @@ def held_back_by(variant: Instance, plan: Plan, base: Plan | None,
                                   c["period"].astype(str), strict=True),
                               c["shortfall_fte"].astype(float), strict=True):
             before[key] = before.get(key, 0.0) + short
-    table = reasons(variant, plan).table
+    if table is None:
+        table = reasons(variant, plan).table
     rows = table[(table["action"] == "shortfall") & table["office"].astype(str).isin(offices)]
     weight: dict[tuple[str, str], float] = {}
     wheres: dict[tuple[str, str], set[str]] = {}
@@ -277,12 +282,16 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
     cost_rows = []
     actions: list[tuple[Any, ...]] = []
     office_rows: list[tuple[Any, ...]] = []
+    explained: dict[str, pd.DataFrame] = {}
     for name, variant, result in zip(names, variants, results, strict=True):
         # Against a base with no plan there is nothing to differ from.
         differing: int | None = 0 if base_plan is not None else None
         # Who moves for it and what holds its shortfall back (blank for the base).
         summary: dict[str, Any] = {}
         if result.plan is not None:
+            if name != "base":
+                # Once per scenario plan: its folder's reasons.csv is this table.
+                explained[name] = reasons(variant, result.plan).table
             if name != "base" and base_plan is not None:
                 # One row per changed decision (a rerouted detail is one): the count is the
                 # table's rows for this scenario.
@@ -293,7 +302,7 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
                 summary = action_summary(base_plan, result.plan, instance.period_names,
                                          changed[name], offices_of[name])
                 summary[HELD_BACK_COLUMN] = held_back_by(variant, result.plan, base_plan,
-                                                         offices_of[name])
+                                                         offices_of[name], explained[name])
             c = result.plan.costs
             for year, kind, cost in zip(c["year"].astype(str), c["kind"].astype(str),
                                         c["cost"].astype(float), strict=True):
@@ -305,4 +314,4 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
     costs = pd.DataFrame(cost_rows, columns=["scenario", "year", "kind", "cost"])
     actions_frame = actions_table(actions, names[1:])
     offices = pd.DataFrame(office_rows, columns=list(OFFICE_COLUMNS))
-    return Comparison(names, tuple(results), table, costs, actions_frame, offices)
+    return Comparison(names, tuple(results), table, costs, actions_frame, offices, explained)

@@ -157,18 +157,18 @@ def analysis_payload(data: ReportData,
             lead = e(f"From {data.summary.replan.from_period} on: ") + lead
         elif name == "scenario_actions":
             lead += e(actions_lead(frame))
-        full = _tables(frame, name, limit=500, currency=currency)
-        if name == "reasons":
-            full = _reasons_rolled_up(frame, full, currency)
+        full = (_reasons_rolled_up(frame, currency) if name == "reasons"
+                else _tables(frame, name, limit=_ROWS_SHOWN, currency=currency))
         sections.append(section(name, titled(name, title), lead, body + full))
         nav.append((name, title))
     return AnalysisView(payload, tuple(sections), tuple(nav))
 
 
-def _reasons_rolled_up(frame: pd.DataFrame, full: str, currency: str | None) -> str:
+def _reasons_rolled_up(frame: pd.DataFrame, currency: str | None) -> str:
     """The reasons section's body: short tables by office and by limit first, then the full
     table (one row per action and shortfall: some 300 on the demo, 2.5 of them in view in
-    its box) folded away below them, as reasons.csv holds it."""
+    its box) folded away below them, as reasons.csv holds it (:func:`_reasons_table`)."""
+    full = _reasons_table(frame, currency)
     offices, limits = reasons_by_office(frame), reasons_by_limit(frame)
     if offices is None:
         return full
@@ -190,6 +190,57 @@ def _reasons_rolled_up(frame: pd.DataFrame, full: str, currency: str | None) -> 
     return (body + f'<details class="all-reasons"><summary>All {len(frame):,} reasons, one '
             "row per action and shortfall (as in <code>reasons.csv</code>)</summary>"
             f"{full}</details>")
+
+
+# Rows a long analysis table shows on the page (the plan folder and plan.xlsx have them all).
+_ROWS_SHOWN = 500
+# Each action kind of reasons.csv as the note under its table counts it.
+_KIND_WORDS = {"hire": "hires", "detail": "detail runs", "reassignment": "reassignments",
+               "shortfall": "shortfalls"}
+
+
+def _rows_by_kind(counts: dict[str, int], cap: int) -> dict[str, int]:
+    """How many rows of each kind (``counts``, in the table's order) a table of at most
+    ``cap`` rows shows: all when they fit; else each kind at least ``cap // (5 * kinds)``
+    (all of a smaller kind), the rest of the cap in proportion to the rows left, largest
+    remainders first (ties in the table's order)."""
+    if sum(counts.values()) <= cap or not counts:
+        return dict(counts)
+    least = max(cap // (5 * len(counts)), 1 if cap >= len(counts) else 0)
+    shown = {k: min(n, least) for k, n in counts.items()}
+    room = cap - sum(shown.values())
+    left = {k: counts[k] - shown[k] for k in counts}
+    total = sum(left.values())  # more than room: the kinds did not fit
+    for k in counts:
+        shown[k] += room * left[k] // total
+    # Whole rows: the one more each goes to the largest remainders (a kind's share is below
+    # its rows left, so one more never passes them).
+    spare = cap - sum(shown.values())
+    for k in sorted(counts, key=lambda k: -(room * left[k] % total))[:spare]:
+        shown[k] += 1
+    return shown
+
+
+def _reasons_table(frame: pd.DataFrame, currency: str | None) -> str:
+    """The full reasons table as the page shows it: past :data:`_ROWS_SHOWN` rows, each
+    action kind's first rows (:func:`_rows_by_kind`) in the table's order, so that a large
+    plan's detail runs, reassignments and shortfalls are there too (its first 500 rows had
+    all been hires on a plan of 17,824 reasons), and a note of how many of each."""
+    if len(frame) <= _ROWS_SHOWN or "action" not in frame.columns:
+        return _tables(frame, "reasons", limit=_ROWS_SHOWN, currency=currency)
+    action = frame["action"].astype(str)
+    counts = {str(k): int(n) for k, n in action.value_counts(sort=False).items()}
+    counts = {k: counts[k] for k in dict.fromkeys(action)}  # the table's order
+    shown = _rows_by_kind(counts, _ROWS_SHOWN)
+    chosen = action.groupby(action, sort=False).cumcount() < action.map(shown)
+    parts = [f"{shown[k]:,} of {n:,} {_KIND_WORDS.get(k, f'{k} rows')}"
+             for k, n in counts.items()]
+    listed = parts[0] if len(parts) == 1 else ", ".join(parts[:-1]) + " and " + parts[-1]
+    note = (f'<p class="more">Showing {listed} (each kind\'s first rows, in the table\'s '
+            f"order); <code>reasons.csv</code> and <code>plan.xlsx</code> have all "
+            f"{len(frame):,}.</p>")
+    return _tables(frame[chosen.to_numpy()], "reasons", limit=_ROWS_SHOWN,
+                   currency=currency) + note
 
 
 def _tables(frame: pd.DataFrame, name: str, limit: int = 200,

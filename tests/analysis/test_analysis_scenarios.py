@@ -518,3 +518,44 @@ def test_held_back_by_ranks_the_limits_the_new_shortfall_cites(tiny) -> None:
     assert held_back_by(variant, mine, base, ("B",)) == (
         "hiring_budget|2027||1.5;away_share|A|2027-Q4|0.5;max_hires|B|2027-Q4|0.5")
     assert held_back_by(variant, mine, base, ("A",)) == ""  # A's shortfall is the base's
+
+
+def test_compare_works_out_each_plans_reasons_once(tmp_path: Path, monkeypatch) -> None:
+    # reasons() had run twice on each scenario's plan: for scenarios.csv's held_back_by and
+    # again for the scenario folder's reasons.csv.  Counted where each caller looks it up:
+    # the comparison's module, and the reasons module itself (imported by the CLI at call).
+    import sys
+
+    import rebalance.analysis.scenarios as scenarios_module
+    from rebalance.analysis.reasons import REASON_COLUMNS
+    from rebalance.cli import main
+
+    reasons_module = sys.modules["rebalance.analysis.reasons"]
+    real = reasons_module.reasons
+    calls: list[tuple[object, pd.DataFrame]] = []
+
+    def counted(instance, plan, replanned_at=None):
+        found = real(instance, plan, replanned_at)
+        calls.append((plan, found.table))
+        return found
+
+    monkeypatch.setattr(scenarios_module, "reasons", counted)
+    monkeypatch.setattr(reasons_module, "reasons", counted)
+    scenario = tmp_path / "surge.toml"
+    scenario.write_text('name = "b-surge"\n[[demand]]\noffices = ["B"]\nskills = ["review"]\n'
+                        'periods = ["2027-Q3", "2027-Q4"]\nmultiplier = 1.5\n')
+    out = tmp_path / "compare"
+    tiny_folder = ROOT / "tests" / "data" / "tiny"
+    code = main(["compare", str(tiny_folder), "--scenario", str(scenario), "-o", str(out),
+                 "--gap", "0", "--workers", "1", "-q"])
+    assert code == 0
+    # Two plans (the base and b-surge), two calls, each on a plan of its own.
+    assert len(calls) == 2
+    assert calls[0][0] is not calls[1][0]
+    # The same files: each folder's reasons.csv is the table worked out for its plan (the
+    # scenario's first, by the comparison; the base's as its folder is written).
+    for folder, (_, table) in ((out / "scenarios" / "b-surge", calls[0]), (out, calls[1])):
+        written = pd.read_csv(folder / "reasons.csv", keep_default_na=False)
+        assert tuple(written.columns) == REASON_COLUMNS
+        assert written["action"].tolist() == table["action"].tolist()
+        assert written["subject"].astype(str).tolist() == table["subject"].astype(str).tolist()

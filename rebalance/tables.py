@@ -166,18 +166,39 @@ def _csv_table(label: str, reader: Iterator[list[str]]) -> RawTable:
         header = [h.strip() for h in next(reader)]
     except StopIteration:
         return RawTable(label, (), ())
+    if len(header) == 1 and label.endswith(".csv"):
+        for mark, name in ((";", "';'"), ("\t", "tabs")):
+            if mark in header[0]:
+                # A spreadsheet set up for decimal commas saves ';' between columns: every
+                # column had been reported missing beside one unknown column "year;hiring".
+                return RawTable(label, (), (), fault=(1, f"columns are separated by {name}; "
+                                                         "expected commas (in a spreadsheet "
+                                                         "program: save as CSV, comma "
+                                                         "delimited)"))
     rows, overlong, unnamed, multiline = [], [], [], []
+    # Rows with empty cells past the header: harmless where every row has them (a trailing
+    # comma on each line), a shifted row where only some do ("A,Alder,1,200," had been read
+    # as seats 1 and 200 hires a period, with no word).
+    empty_tails: list[tuple[int, int]] = []
+    widths: Counter[int] = Counter()
     for number, cells in enumerate(reader, 2):
         if not any(c.strip() for c in cells):
             cells = []  # blank line: keep numbering, drop content
+        else:
+            widths[len(cells)] += 1
         if any(c.strip() for c in cells[len(header):]):
             overlong.append(number)
+        elif len(cells) > len(header):
+            empty_tails.append((number, len(cells)))
         unnamed += [(number, i + 1) for i, (h, c) in enumerate(zip(header, cells, strict=False))
                     if not h and c.strip()]
         padded = list(cells) + [""] * (len(header) - len(cells))
         multiline += [(number, h or f"column {i + 1}") for i, (h, c)
                       in enumerate(zip(header, padded, strict=False)) if "\n" in c or "\r" in c]
         rows.append({h: padded[i].strip() for i, h in enumerate(header) if h})
+    if len(widths) > 1:
+        overlong = sorted(overlong + [number for number, width in empty_tails
+                                      if width > min(widths)])
     return RawTable(label, tuple(header), tuple(rows), overlong_rows=tuple(overlong),
                     unnamed_cells=tuple(unnamed), multiline_cells=tuple(multiline))
 

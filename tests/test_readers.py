@@ -627,3 +627,17 @@ def test_an_unusable_skill_name_is_not_offered_as_what_was_meant(tmp_path):
     assert "staff.csv:2: skills: unknown skill 'review'; expected one listed in skills.csv" in \
         problems
     assert not [p for p in problems if "did you mean 're view'" in p]
+
+
+def test_a_semicolon_file_is_one_problem_and_trailing_commas_on_every_row_are_not(tmp_path):
+    # A planner's first run: a budget.csv saved by a spreadsheet set up for decimal commas
+    # had drawn "year: required column is missing" beside an unknown column "year;hiring;moves".
+    semicolons = overlay(BAD / "semicolons", tmp_path / "semi")
+    assert _problems(semicolons) == [
+        "budget.csv:1: columns are separated by ';'; expected commas (in a spreadsheet program: "
+        "save as CSV, comma delimited)"]
+    # An empty cell past the header on every row (an export's trailing comma) reads as before.
+    target = _tiny_with(tmp_path, offices_csv=("A,Alder,10,1\nB,Birch,6,1\n",
+                                               "A,Alder,10,1,\nB,Birch,6,1,\n"))
+    offices = read_instance(target).offices
+    assert [(o.seats, o.max_hires_per_period) for o in offices] == [(10, 1), (6, 1)]

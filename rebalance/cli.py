@@ -53,6 +53,7 @@ from rebalance.cli_common import (
     scenario_of,
 )
 from rebalance.numbers import seconds_text
+from rebalance.problems import problems_counted
 from rebalance.readers import count_problems
 from rebalance.solve import Status
 
@@ -80,12 +81,14 @@ __all__ = [
 
 def cmd_check(args: argparse.Namespace) -> int:
     from rebalance.report import format_check
+    from rebalance.report.console import seats_cannot_hold
 
     instance = _load(args.instance)
     if instance is None:
         return EXIT_INVALID_INPUT
     print(format_check(instance))
-    return EXIT_OK
+    # As `plan` would end, without a solve: the seats' conflict is already certain.
+    return EXIT_INFEASIBLE if seats_cannot_hold(instance) else EXIT_OK
 
 
 def _seconds_since_process_start() -> float:
@@ -215,8 +218,8 @@ def cmd_demand(args: argparse.Namespace) -> int:
         result = run_demand(args.history, args.out)
     except HistoryError as exc:
         errors = [p for p in exc.problems if not p.is_warning]
-        _err(f"{args.history}: {count_problems(errors)} problem(s) in the input; nothing was "
-             "written")
+        _err(f"{args.history}: {problems_counted(count_problems(errors))} in the input; "
+             "nothing was written")
         for problem in exc.problems:
             _err(("  warning: " if problem.is_warning else "  ") + str(problem))
         return EXIT_INVALID_INPUT

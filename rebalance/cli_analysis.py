@@ -36,6 +36,7 @@ from rebalance.cli_common import (
     scenario_of,
 )
 from rebalance.instance import Instance
+from rebalance.problems import problems_counted
 from rebalance.report.console import format_frame, is_missing
 from rebalance.report.inputs import SCENARIO_KEY
 from rebalance.report.words import plain_status
@@ -146,7 +147,7 @@ def cmd_compare(args: argparse.Namespace) -> int:
         # been an internal error when the plans were written).
         scenarios = read_scenarios(args.scenario, instance)
     except ScenarioError as exc:
-        _err(f"{len(exc.problems)} problem(s) in the scenario file(s); nothing was written")
+        _err(f"{problems_counted(len(exc.problems))} in the scenario files; nothing was written")
         for problem in exc.problems:
             _err(f"  {problem}")
         return EXIT_INVALID_INPUT
@@ -244,7 +245,7 @@ def cmd_replan(args: argparse.Namespace) -> int:
             scenario_name = applied.name
             assumed = scenario_entry(applied, base, instance)
         except ScenarioError as exc:
-            _say_first(f"{len(exc.problems)} problem(s) in the scenario file; "
+            _say_first(f"{problems_counted(len(exc.problems))} in the scenario file; "
                        "nothing was written", exc.problems)
             return EXIT_INVALID_INPUT
     made_under = scenario_of(folder)

@@ -15,6 +15,7 @@ from collections.abc import Callable, Sequence
 from pathlib import Path
 
 from rebalance.instance import Instance
+from rebalance.problems import problems_counted
 from rebalance.readers import InstanceError, count_problems, read_instance
 from rebalance.solve import Status
 
@@ -46,7 +47,8 @@ def _load(path: str) -> Instance | None:
         return read_instance(path)
     except InstanceError as exc:
         errors = [p for p in exc.problems if not p.is_warning]
-        _err(f"{path}: {count_problems(errors)} problem(s) in the input; nothing was written")
+        _err(f"{path}: {problems_counted(count_problems(errors))} in the input; "
+             "nothing was written")
         for problem in exc.problems:
             _err(("  warning: " if problem.is_warning else "  ") + str(problem))
         return None
@@ -70,7 +72,8 @@ def _say_first(head: str, problems: Sequence[object]) -> None:
 
 def _unreadable_plan(folder: str | Path, exc: InstanceError) -> int:
     _say_first(f"{folder}: not a plan folder rebalance can read, "
-               f"{count_problems(exc.problems)} problem(s); nothing was written", exc.problems)
+               f"{problems_counted(count_problems(exc.problems))}; nothing was written",
+               exc.problems)
     return EXIT_INVALID_INPUT
 
 

@@ -12,7 +12,7 @@ from typing import Any, TypeGuard
 
 from rebalance.numbers import plain_number
 
-__all__ = ["Problem", "did_you_mean", "is_finite_number", "range_words"]
+__all__ = ["Problem", "did_you_mean", "is_finite_number", "problems_counted", "range_words"]
 
 # How alike a name must be to a known one to be suggested (difflib's ratio, 0 to 1): 0.6,
 # difflib's own default, catches a dropped or swapped letter or two without offering an
@@ -38,6 +38,11 @@ class Problem:
         where = self.file if self.row is None else f"{self.file}:{self.row}"
         col = f" {self.column}:" if self.column else ""
         return f"{where}:{col} {self.message}"
+
+
+def problems_counted(count: int) -> str:
+    """``1 problem``, ``3 problems`` (it had read "1 problem(s)")."""
+    return f"{count:,} problem{'' if count == 1 else 's'}"
 
 
 def did_you_mean(value: str, names: Iterable[Any]) -> str:

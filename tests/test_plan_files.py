@@ -126,7 +126,7 @@ def test_an_unclosed_quote_is_said_once_not_a_parser_traceback(plan_dir, tmp_pat
     assert problems(plan_dir) == [
         f"{plan_dir / 'details.csv'}:2: period: runs over several lines (a quote that is not "
         "closed?); expected one line per row"]
-    assert "1 problem(s)" in err
+    assert "1 problem;" in err
 
 
 def test_a_missing_table_names_its_file_and_folder(plan_dir, tmp_path, capsys):
@@ -174,7 +174,7 @@ def test_every_problem_of_every_table_is_said_at_once(plan_dir, tmp_path, capsys
         f"{plan_dir / 'costs.csv'}: file is missing; expected in every plan folder (rebalance "
         "plan writes it)"]
     err = bad_input_everywhere(plan_dir, tmp_path, capsys)
-    assert "5 problem(s)" in err
+    assert "5 problems" in err
     # report draws around a missing table, but not around one it cannot read
     assert main(["report", str(plan_dir), "--instance", TINY]) == EXIT_INVALID_INPUT
     assert "internal error" not in capsys.readouterr().err

@@ -348,7 +348,7 @@ def test_the_count_of_problems_includes_the_rows_a_repeat_stands_for(tmp_path, c
                                                  for i in range(15)))
     assert main(["check", str(target)]) == EXIT_INVALID_INPUT
     err = capsys.readouterr().err
-    assert ": 15 problem(s) in the input" in err and "(and 5 more rows like this)" in err
+    assert ": 15 problems in the input" in err and "(and 5 more rows like this)" in err
 
 
 def test_a_names_table_not_utf8_and_a_huge_integer_are_said_once(tmp_path):

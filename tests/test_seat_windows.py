@@ -51,6 +51,18 @@ def test_a_run_of_periods_too_few_may_leave_is_said_and_no_plan_exists(tmp_path)
     assert main(["plan", str(target), "-o", str(tmp_path / "out"), "-q"]) == EXIT_INFEASIBLE
 
 
+def test_check_says_no_plan_can_keep_the_seats_and_ends_as_plan_would(tmp_path, capsys):
+    # A planner's first run: check said "valid" (exit 0) above its own warning that no plan
+    # can keep the seats, and plan then ended infeasible (exit 4).
+    target = _one_seat_at_a(tmp_path, "max_consecutive_detail_periods = 2\n")
+    assert main(["check", str(target)]) == EXIT_INFEASIBLE
+    first = capsys.readouterr().out.splitlines()[0]
+    assert first == ("Instance one_seat: valid input, but no plan can keep its seats (see the "
+                     "warning below)")
+    assert main(["check", str(_one_seat_at_a(tmp_path / "free", None))]) == 0
+    assert capsys.readouterr().out.splitlines()[0] == "Instance one_seat: valid"
+
+
 def test_without_the_limit_the_same_seats_can_be_kept(tmp_path):
     # a1 on detail at B all four quarters (B wants review every quarter), a2 reassigned:
     # the seat holds a3 alone.

@@ -118,11 +118,21 @@ def counted(number: int, noun: str) -> str:
     return f"{number:,} {noun}" + ("" if number == 1 else "s")
 
 
+def seats_cannot_hold(instance: Instance) -> bool:
+    """Whether ``rebalance check`` can already tell that no plan keeps some office's seats:
+    too few may be away in a period (:meth:`Instance.seat_counts`) or over a run of periods
+    (:meth:`Instance.seat_windows`).  "valid" above that warning had read as ready to plan."""
+    return (any(c.too_few_may_go for c in instance.seat_counts())
+            or bool(instance.seat_windows()))
+
+
 def format_check(instance: Instance) -> str:
     periods = instance.periods
     span = periods[0].name if len(periods) == 1 else f"{periods[0].name} to {periods[-1].name}"
     lines = [
-        f"Instance {instance.name}: valid",
+        f"Instance {instance.name}: " + ("valid input, but no plan can keep its seats (see the "
+                                         "warning below)" if seats_cannot_hold(instance)
+                                         else "valid"),
         f"  {counted(len(instance.offices), 'office')} in "
         f"{counted(len({o.location for o in instance.offices}), 'location')}, "
         f"{counted(len(instance.skills), 'skill')}, {len(instance.staff):,} staff, "

@@ -20,6 +20,7 @@ from rebalance.instance import Instance
 from rebalance.numbers import gap_text
 from rebalance.plan import Plan, read_plan
 from rebalance.planning import CAUTION, PlanResult, summary_dict
+from rebalance.problems import problems_counted
 from rebalance.verify import Violation, verify_folder
 
 __all__ = ["ANALYSIS_FILES", "SCENARIO_KEY", "SHEET_ONLY", "TABLE_FILES", "ReplanSummary",
@@ -276,7 +277,7 @@ def report_data_from_folder(plan_dir: str | Path, instance: Instance,
                            "violations": [str(v) for v in violations]}
     if violations:
         notes.append(f"verified again for this report against instance {instance.name}: "
-                     f"{len(violations)} problem(s), listed under the run's details; the "
+                     f"{problems_counted(len(violations))}, listed under the run's details; the "
                      "figures below are the files' as they stand")
     analysis, tables, more = _analysis_tables(folder)
     return ReportData(instance, read_plan(folder), RunSummary.from_dict(raw), tables=tables,

@@ -131,7 +131,7 @@ def test_every_bad_setting_is_listed_at_once(tmp_path: Path,
             "[standards]\nbootstrap_samples = 0\nseed = -1\n")
     inst, hist = _make(tmp_path, demand_toml=toml)
     err = _refused(inst, hist, capsys)
-    assert "4 problem(s)" in err
+    assert "4 problems" in err
     for key in ("forecast.interval_level", "forecast.selection_origins",
                 "standards.bootstrap_samples", "standards.seed"):
         assert f"demand.toml: {key}: " in err, key

@@ -222,6 +222,14 @@ def _data_warnings(instance: Instance, office_rows: Mapping[str, int]) -> list[P
             out.append(Problem("demand.csv", None, "skill",
                                f"nobody on staff has skill '{d.skill}'; only hires can "
                                "cover it", is_warning=True))
+    T = len(instance.periods)
+    for row, skill in enumerate(instance.skills, 2):
+        if skill.time_to_hire >= T:
+            # Likely a typo (9 for 2 quarters): the skill can then never be hired.
+            out.append(Problem("skills.csv", row, "time_to_hire",
+                               f"{skill.time_to_hire} periods for '{skill.name}' is the whole "
+                               f"horizon ({T} periods) or more: no hire of it can start",
+                               is_warning=True))
     # A period with no rows among periods with some is more likely rows lost than no work.
     with_demand = {d.period for d in instance.demand}
     empty = [p.name for t, p in enumerate(instance.periods) if t not in with_demand]

@@ -641,3 +641,13 @@ def test_a_semicolon_file_is_one_problem_and_trailing_commas_on_every_row_are_no
                                                "A,Alder,10,1,\nB,Birch,6,1,\n"))
     offices = read_instance(target).offices
     assert [(o.seats, o.max_hires_per_period) for o in offices] == [(10, 1), (6, 1)]
+
+
+def test_a_time_to_hire_of_the_whole_horizon_is_warned(tmp_path):
+    # A planner's first run: a time_to_hire of 9 on an 8-quarter horizon passed in silence,
+    # though no hire of that skill can then start (docs/model.md: start index >= time_to_hire).
+    target = _tiny_with(tmp_path, skills_csv=("\nreview,20000,8000,1,", "\nreview,20000,8000,4,"))
+    assert [w for w in read_instance(target).warnings if "time_to_hire" in w] == [
+        "skills.csv:2: time_to_hire: 4 periods for 'review' is the whole horizon (4 periods) or "
+        "more: no hire of it can start"]
+    assert not [w for w in read_instance(DATA / "tiny").warnings if "time_to_hire" in w]

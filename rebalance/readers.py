@@ -16,6 +16,7 @@ from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
+from rebalance.files import MARKER
 from rebalance.instance import (
     Budget,
     Demand,
@@ -123,6 +124,12 @@ def read_instance(path: str | Path) -> Instance:
 
         return read_workbook(path)
     folder = Path(path)
+    if (folder / MARKER).is_file():
+        # A plan folder given for its instance had drawn six "file is missing" lines.
+        kind = (folder / MARKER).read_text(encoding="utf-8", errors="replace").strip()
+        raise InstanceError([Problem(str(folder), None, None, f"is a {kind or 'plan'} folder "
+                                     "this tool wrote, not an instance; expected the instance "
+                                     "folder it was made from (summary.json's instance_path)")])
     settings, tables, problems = read_tables(folder)
     if not folder.is_dir():  # nothing was read: checking empty settings would only add noise
         raise InstanceError(problems)

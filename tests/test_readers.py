@@ -651,3 +651,15 @@ def test_a_time_to_hire_of_the_whole_horizon_is_warned(tmp_path):
         "skills.csv:2: time_to_hire: 4 periods for 'review' is the whole horizon (4 periods) or "
         "more: no hire of it can start"]
     assert not [w for w in read_instance(DATA / "tiny").warnings if "time_to_hire" in w]
+
+
+def test_a_plan_folder_given_as_the_instance_is_said_to_be_one(tmp_path):
+    # A planner's first run: `rebalance check` on a plan folder listed six "file is missing"
+    # lines, never saying it was a plan folder.
+    out = tmp_path / "plan"
+    assert main(["plan", str(DATA / "tiny"), "-o", str(out), "-q"]) == 0
+    with pytest.raises(InstanceError) as caught:
+        read_instance(out)
+    assert [str(p) for p in caught.value.problems] == [
+        f"{out}: is a plan folder this tool wrote, not an instance; expected the instance "
+        "folder it was made from (summary.json's instance_path)"]

@@ -118,8 +118,10 @@ def _and(words: Sequence[str]) -> str:
 
 
 def _budget_text(uses: Sequence[LimitUse], currency: str | None, action: str) -> str:
+    # "each": after two years' figures, the bracket had read as the last year's alone.
+    each = "each with " if len(uses) > 1 else ""
     return "; ".join(f"{u.where} {money_text(u.used)} of {money_amount(u.cap, currency)} used"
-                     for u in uses) + f" (too little left for one more {action})"
+                     for u in uses) + f" ({each}too little left for one more {action})"
 
 
 def _details_in_a_row(instance: Instance, plan: Plan) -> tuple[str, ...]:
@@ -190,8 +192,10 @@ def limits_at_cap(instance: Instance, plan: Plan) -> tuple[LimitLine, ...]:
             whole = ("all of them" if used >= funded
                      else f"{number_text(used)} of {number_text(funded)} funded vacancies")
             listed = ", ".join(f"{u.where} ({number_text(u.cap)})" for u in uses)
-            text = f"used in full: {listed}; {whole} used"
-            total = f"used in full at {_counted(len(uses), 'skill-office pair')}; {whole} used"
+            # "in all": the pairs listed need not add up to it (one used in part elsewhere).
+            text = f"used in full: {listed}; {whole} used in all"
+            total = (f"used in full at {_counted(len(uses), 'skill-office pair')}; {whole} used "
+                     "in all")
         out.append(LimitLine(kind, words, text, tuple((u.where, u.period) for u in uses),
                              total))
     return tuple(out)

@@ -281,4 +281,19 @@ def test_vacancies_used_in_full_are_not_said_to_be_all_of_them(tmp_path):
     assert hires.loc[hires["funding"] == "vacancy", "count"].sum() == 1
     line = next(line for line in limits_at_cap(result.instance, result.plan)
                 if line.kind == "vacancies")
-    assert line.text == "used in full: review at B (1); 1 of 3 funded vacancies used"
+    assert line.text == "used in full: review at B (1); 1 of 3 funded vacancies used in all"
+
+
+def test_two_budget_years_at_their_cap_each_say_so():
+    # A first-time reader of the demo: "2027 515,000 of 520,000 used; 2028 1,392,000 of
+    # 1,400,000 used (too little left for one more hire)" read as 2028's bracket alone.
+    from rebalance.analysis.limits import LimitUse
+    from rebalance.report.limits_view import _budget_text
+
+    uses = [LimitUse("hiring_budget", "2027", "", 515_000.0, 520_000.0, True),
+            LimitUse("hiring_budget", "2028", "", 1_392_000.0, 1_400_000.0, True)]
+    assert _budget_text(uses, None, "hire") == (
+        "2027 515,000 of 520,000 used; 2028 1,392,000 of 1,400,000 used (each with too little "
+        "left for one more hire)")
+    assert _budget_text(uses[:1], None, "hire").endswith(
+        "used (too little left for one more hire)")

@@ -83,7 +83,7 @@ def cmd_check(args: argparse.Namespace) -> int:
     from rebalance.report import format_check
     from rebalance.report.console import seats_cannot_hold
 
-    instance = _load(args.instance)
+    instance = _load(args.instance, writes=False)
     if instance is None:
         return EXIT_INVALID_INPUT
     print(format_check(instance))
@@ -202,9 +202,21 @@ def cmd_verify(args: argparse.Namespace) -> int:
 
 
 def cmd_demand(args: argparse.Namespace) -> int:
-    from rebalance.demand import HistoryError, format_demand_summary, run_demand, write_demand
+    from rebalance.demand import (
+        HistoryError,
+        format_demand_summary,
+        output_folder_problem,
+        run_demand,
+        write_demand,
+    )
     from rebalance.files import output_problem
 
+    # OUT not an instance folder is a refused output, said as such before the history is read
+    # (it had read "HISTORY: 1 problem in the input", exit 3).
+    not_instance = output_folder_problem(args.out)
+    if not_instance is not None:
+        _err(f"{args.out}: {not_instance}; nothing was written")
+        return EXIT_USAGE
     # OUT is an instance folder by design (demand.csv is written into it); the report folder
     # is replaced whole, so it must be a new or empty folder or an earlier report: a
     # --report typed as a folder of other files had been wiped.
@@ -229,7 +241,7 @@ def cmd_demand(args: argparse.Namespace) -> int:
         _err(f"warning: {warning}")
     report = write_demand(result, args.out, args.report)
     print(format_demand_summary(result, report))
-    print(f"demand written to {Path(args.out) / 'demand.csv'} (trail: demand_trace.csv)")
+    print(f"demand written to {Path(args.out) / 'demand.csv'} (trace: demand_trace.csv)")
     print("\nCaution: " + FORECAST_CAUTION)
     return EXIT_OK
 

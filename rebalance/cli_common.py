@@ -42,13 +42,15 @@ def _err(text: str) -> None:
     print(text, file=sys.stderr, flush=True)
 
 
-def _load(path: str) -> Instance | None:
+def _load(path: str, writes: bool = True) -> Instance | None:
+    """The instance at ``path``, or None after listing its problems on stderr.  ``writes``
+    False (``check``, which never writes): no "nothing was written" after the count."""
     try:
         return read_instance(path)
     except InstanceError as exc:
         errors = [p for p in exc.problems if not p.is_warning]
-        _err(f"{path}: {problems_counted(count_problems(errors))} in the input; "
-             "nothing was written")
+        _err(f"{path}: {problems_counted(count_problems(errors))} in the input"
+             + ("; nothing was written" if writes else ""))
         for problem in exc.problems:
             _err(("  warning: " if problem.is_warning else "  ") + str(problem))
         return None

@@ -269,7 +269,8 @@ CAUTION = ("This plan supports a decision; it does not make one. Personnel rules
            "with staff representatives and local law govern any detail, reassignment or hire.")
 # After a demand forecast, which no plan has used yet.
 FORECAST_CAUTION = ("This forecast supports a decision; it does not make one. It is an "
-                    "estimate from past work, and a plan built on it is only as good as it is.")
+                    "estimate from past work, and a plan built on it is only as good as the "
+                    "forecast.")
 
 
 # Measured (writing the tables, summary, workbook and report of a generated instance's plan):

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import json
 from collections import Counter, defaultdict
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Literal
@@ -37,22 +37,67 @@ PERSON_LEFT_HINT = (" (not in staff.csv: a person who has left stays in staff.cs
 # The kinds of name a plan's columns hold, each checked against one of the instance's lists.
 NameKind = Literal["person", "office", "skill", "period"]
 
+# Each rule's plan table (of several, the one to open first) and what it asks in a planner's
+# words, said for its code ("one_detail" read as an internal name); none where the message is.
+RULES: dict[str, tuple[str, str]] = {
+    "missing_table": ("", ""), "missing_column": ("", ""), "unknown_reference": ("", ""),
+    "one_reassignment": ("reassignments", "at most one reassignment a person"),
+    "reassignment_allowed": ("reassignments", "only people who may relocate are reassigned"),
+    "reassignment_present": ("reassignments", "only people on the staff then are reassigned"),
+    "reassignment_from": ("reassignments", "a reassignment starts from the home office"),
+    "reassignment_to": ("reassignments", "a reassignment moves to another office"),
+    "reassignment_cost": ("reassignments", "cost at the relocation price"),
+    "one_detail": ("details", "one detail a period"),
+    "detail_to": ("details", "a detail goes to another office"),
+    "detail_allowed": ("details", "only people who may be detailed, where policy allows"),
+    "detail_present": ("details", "only people on the staff then are detailed"),
+    "detail_from": ("details", "a detail starts from the home office in force"),
+    "detail_cost": ("details", "cost at the detail price"),
+    "consecutive_details": ("details", "detail periods in a row within the policy's limit"),
+    "away_share": ("details", "people away within the policy's share of an office"),
+    "work_repeated": ("work", "one row per person, period, office and skill"),
+    "work_negative": ("work", "fte not below zero"),
+    "work_skill": ("work", "work only in skills the person has"),
+    "work_location": ("work", "work where the person is that period"),
+    "work_output": ("work", "output is proficiency x fte"),
+    "work_capacity": ("work", "work within the person's available FTE"),
+    "hire_count": ("hires", ""), "hire_funding": ("hires", ""), "time_to_hire": ("hires", ""),
+    "hire_cost": ("hires", "costs at the prices of skills.csv"),
+    "max_hires": ("hires", "hires a period within the office's limit"),
+    "vacancies": ("hires", "vacancy hires within the funded vacancies"),
+    "seats": ("hires", "people based there, detailed in and hired within the office's seats"),
+    **{rule: ("coverage", "one coverage row per demand row")
+       for rule in ("coverage_rows", "coverage_missing")},
+    **{f"coverage_{column}": ("coverage", "figures as recomputed from demand, work and hires")
+       for column in ("demand", "staff_output", "hire_output", "covered", "shortfall",
+                      "priority", "weighted_shortfall")},
+    "costs": ("costs", "costs a year and kind as recomputed from the plan"),
+    "hiring_budget": ("costs", "hiring spend within the year's budget"),
+    "moves_budget": ("costs", "moves spend within the year's budget"),
+    "summary": ("", "figures as recomputed from the plan tables"),
+}
+
 
 @dataclass(frozen=True)
 class Violation:
-    """One broken rule: ``rule``, ``where`` (a file and row, or what it concerns) and a
-    message.  An ``unknown_reference`` also says which ``column`` of the plan names what the
-    instance lacks and which ``name_kind`` of name it should hold, so a caller can say what
-    is expected without reading the message back."""
+    """One broken rule: ``rule`` (a code, see :data:`RULES`), ``where`` (what it concerns,
+    or a file and row), a message and the plan ``file`` it is about (and row, where one row
+    breaks it).  An ``unknown_reference`` also says which ``column`` of the plan names what
+    the instance lacks and which ``name_kind`` of name it should hold, so a caller can say
+    what is expected without reading the message back."""
 
     rule: str
     where: str
     message: str
     column: str | None = None
     name_kind: NameKind | None = None
+    file: str = ""
 
     def __str__(self) -> str:
-        return f"{self.rule}: {self.where}: {self.message}"
+        """As a planner reads it: the file first (once), the rule in words last, no code."""
+        words = RULES.get(self.rule, ("", ""))[1]
+        text = ": ".join(part for part in dict.fromkeys((self.file, self.where)) if part)
+        return f"{text}: {self.message}" + (f" ({words})" if words else "")
 
 
 def _close(a: float, b: float, tol: float = ABS_TOL) -> bool:
@@ -97,18 +142,20 @@ def verify_folder(instance: Instance, folder: str | Path, *,
     path = Path(folder)
     missing = [name for name in PLAN_TABLES if not (path / f"{name}.csv").exists()]
     if missing and not complete:
-        return [Violation("missing_table", str(path), f"{name}.csv is missing") for name in missing]
+        return [Violation("missing_table", str(path / f"{name}.csv"), "file is missing",
+                          file=str(path / f"{name}.csv")) for name in missing]
     checker = _Checker(instance, read_plan(path, complete=complete), path)
     checker.run()
     summary_path = path / "summary.json"
     if summary_path.exists() and not checker.violations:
+        file = str(summary_path)
         try:
             summary = json.loads(summary_path.read_text(encoding="utf-8"))
         except (ValueError, UnicodeDecodeError) as exc:
-            return [Violation("summary", "summary.json", f"cannot be read as JSON ({exc})")]
+            return [Violation("summary", file, f"cannot be read as JSON ({exc})", file=file)]
         if not isinstance(summary, dict):
-            return [Violation("summary", "summary.json", "holds no object of figures")]
-        return _check_summary(checker, summary)
+            return [Violation("summary", file, "holds no object of figures", file=file)]
+        return _check_summary(checker, summary, file)
     return checker.violations
 
 
@@ -147,8 +194,18 @@ class _Checker:
         # a little under its price passes its own check, and many would ease a budget.
         self.spend: dict[tuple[str, str], float] = defaultdict(float)
 
-    def flag(self, rule: str, where: str, message: str) -> None:
-        self.violations.append(Violation(rule, where, message))
+    def flag(self, rule: str, where: str, message: str, line: int | None = None) -> None:
+        file = self.file(RULES[rule][0]) + ("" if line is None else f":{line}")
+        self.violations.append(Violation(rule, where, message, file=file))
+
+    def row_flag(self, where: str, line: int) -> Callable[[str, str], None]:
+        return lambda rule, message: self.flag(rule, where, message, line)
+
+    def lines(self, table: str) -> list[int]:
+        """Each row's line in its file: read_plan indexes rows by line less 2 (blank lines
+        skipped); a plan made in memory is written in row order."""
+        frame = self.plan.table(table)
+        return [int(ix) + 2 for ix in (range(len(frame)) if self.folder is None else frame.index)]
 
     def file(self, table: str) -> str:
         """The table's file, with its folder when known: a line that names it can be pasted
@@ -190,14 +247,17 @@ class _Checker:
             frame = self.plan.table(table)
             missing = [column for column in PLAN_TABLES[table] if column not in frame.columns]
             for column in missing:
-                self.flag("missing_column", self.file(table), f"column {column} is missing")
+                self.violations.append(Violation("missing_column", self.file(table),
+                                                 f"column {column} is missing",
+                                                 file=self.file(table)))
             ok = ok and not missing
             if missing:
                 continue  # this table's names cannot be read; the other tables' still can
             for column, kind in columns.items():
                 known = names[kind]
                 unknown = [(row, value) for row, value in
-                           enumerate(frame[column].astype(str), 2) if value not in known]
+                           zip(self.lines(table), frame[column].astype(str), strict=True)
+                           if value not in known]
                 # A name or two unknown among known ones is a slip of a hand edit, worth a
                 # suggestion; more, or most of a column, is a plan of another instance,
                 # where none would help ('xa1' is no slip for 'a1').
@@ -206,13 +266,14 @@ class _Checker:
                     self.violations.append(Violation(
                         "unknown_reference", f"{self.file(table)}:{row}",
                         f"{column} '{value}' is not in the instance"
-                        + _slip_hint(value, kind, known, slips), column, kind))
+                        + _slip_hint(value, kind, known, slips), column, kind,
+                        f"{self.file(table)}:{row}"))
                 if len(unknown) > UNKNOWN_NAMES_LISTED:
                     # A plan of another instance names thousands; the first few say enough.
                     self.violations.append(Violation(
                         "unknown_reference", self.file(table),
                         f"{len(unknown) - UNKNOWN_NAMES_LISTED:,} more rows whose "
-                        f"{column} is not in the instance", column, kind))
+                        f"{column} is not in the instance", column, kind, self.file(table)))
                 ok = ok and not unknown
         return ok
 
@@ -221,27 +282,29 @@ class _Checker:
         """Home in force per person and period, after the plan's reassignments."""
         home = {name: [p.home_office] * self.T for name, p in self.people.items()}
         seen: Counter[str] = Counter()
-        for row in records(self.plan.reassignments):
+        for line, row in zip(self.lines("reassignments"), records(self.plan.reassignments),
+                             strict=True):
             where = f"person {row.person} in {row.period}"
+            flag = self.row_flag(where, line)
             person = self.people[row.person]
             t = self.period_ix[row.period]
             seen[row.person] += 1
             if seen[row.person] > 1:
-                self.flag("one_reassignment", where, "more than one reassignment")
+                flag("one_reassignment", "more than one reassignment")
             if not person.can_relocate:
-                self.flag("reassignment_allowed", where, "person may not be relocated")
+                flag("reassignment_allowed", "person may not be relocated")
             if not person.is_present(t):
-                self.flag("reassignment_present", where, "person has left by then")
+                flag("reassignment_present", "person has left by then")
             if row.from_office != person.home_office:
-                self.flag("reassignment_from", where,
-                          f"from {row.from_office} but the home is {person.home_office}")
+                flag("reassignment_from",
+                     f"from {row.from_office} but the home is {person.home_office}")
             if row.to_office == person.home_office:
-                self.flag("reassignment_to", where, "reassigned to the office they are in")
+                flag("reassignment_to", "reassigned to the office they are in")
             expected = self.i.relocation_cost(person.home_office, row.to_office)
             self.spend[(self.i.periods[t].year, "relocation")] += expected
             if not _close(float(row.cost), expected):
                 stated, priced = _amounts(self.i, float(row.cost), expected)
-                self.flag("reassignment_cost", where, f"cost {stated} but {priced} applies")
+                flag("reassignment_cost", f"cost {stated} but {priced} applies")
             for s in range(t, self.T):
                 home[row.person][s] = row.to_office
         return home
@@ -250,29 +313,30 @@ class _Checker:
     def _check_details(self, home: dict[str, list[str]]) -> dict[tuple[str, int], str]:
         away: dict[tuple[str, int], str] = {}
         m = self.i.policy.max_consecutive_detail_periods
-        for row in records(self.plan.details):
+        for line, row in zip(self.lines("details"), records(self.plan.details), strict=True):
             person = self.people[row.person]
             t = self.period_ix[row.period]
             where = f"person {row.person} in {row.period}"
+            flag = self.row_flag(where, line)
             if (row.person, t) in away:
-                self.flag("one_detail", where, "two details in one period")
+                flag("one_detail", "two details in one period")
             away[(row.person, t)] = row.to_office
             if not person.can_detail:
-                self.flag("detail_allowed", where, "person may not be detailed")
+                flag("detail_allowed", "person may not be detailed")
             if m == 0:
-                self.flag("detail_allowed", where, "details are not allowed by policy")
+                flag("detail_allowed", "details are not allowed by policy")
             if not person.is_present(t):
-                self.flag("detail_present", where, "person has left by then")
+                flag("detail_present", "person has left by then")
             if row.from_office != home[row.person][t]:
-                self.flag("detail_from", where, f"from {row.from_office} but the home in force "
-                          f"is {home[row.person][t]}")
+                flag("detail_from", f"from {row.from_office} but the home in force "
+                     f"is {home[row.person][t]}")
             if row.to_office == home[row.person][t]:
-                self.flag("detail_to", where, "detailed to their own home office")
+                flag("detail_to", "detailed to their own home office")
             expected = self.i.detail_cost_per_period(home[row.person][t], row.to_office)
             self.spend[(self.i.periods[t].year, "detail")] += expected
             if not _close(float(row.cost), expected):
                 stated, priced = _amounts(self.i, float(row.cost), expected)
-                self.flag("detail_cost", where, f"cost {stated} but {priced} applies")
+                flag("detail_cost", f"cost {stated} but {priced} applies")
         if m is not None and m > 0:
             by_person: dict[str, set[int]] = defaultdict(set)
             for name, t in away:
@@ -294,30 +358,30 @@ class _Checker:
         # reported output would let each row's rounding allowance add up over many rows.
         self.staff_output: dict[tuple[str, str, int], float] = defaultdict(float)
         seen: set[tuple[str, str, str, str]] = set()
-        for row in records(self.plan.work):
+        for line, row in zip(self.lines("work"), records(self.plan.work), strict=True):
             person = self.people[row.person]
             t = self.period_ix[row.period]
             where = f"person {row.person} in {row.period}"
+            flag = self.row_flag(where, line)
             key = (row.person, row.period, row.office, row.skill)
             if key in seen:
                 # One row per person, period, office and skill: repeats could carry small
                 # amounts each, within every per-row allowance, that add up.
-                self.flag("work_repeated", where, f"{row.skill} at {row.office} is listed "
-                          "twice")
+                flag("work_repeated", f"{row.skill} at {row.office} is listed twice")
             seen.add(key)
             fte = float(row.fte)
             if fte < 0:
-                self.flag("work_negative", where, f"negative fte {_beyond(fte, 0.0)}")
+                flag("work_negative", f"negative fte {_beyond(fte, 0.0)}")
             at = away.get((row.person, t), home[row.person][t])
             if row.office != at:
-                self.flag("work_location", where, f"works at {row.office} but is at {at}")
+                flag("work_location", f"works at {row.office} but is at {at}")
             proficiency = person.proficiency(row.skill)
             if proficiency == 0:
-                self.flag("work_skill", where, f"does not have skill {row.skill}")
+                flag("work_skill", f"does not have skill {row.skill}")
             if not _close(float(row.output_fte), fte * proficiency):
                 output, product = figures(float(row.output_fte), fte * proficiency)
-                self.flag("work_output", where, f"output {output} but proficiency "
-                          f"{number_text(proficiency)} x fte {number_text(fte)} = {product}")
+                flag("work_output", f"output {output} but proficiency "
+                     f"{number_text(proficiency)} x fte {number_text(fte)} = {product}")
             totals[(row.person, t)] += fte
             self.staff_output[(row.office, row.skill, t)] += fte * proficiency
         for (name, t), total in totals.items():
@@ -331,28 +395,30 @@ class _Checker:
     def _check_hires(self) -> None:
         per_office_period: Counter[tuple[str, int]] = Counter()
         vacancy_used: Counter[tuple[str, str]] = Counter()
-        for row in records(self.plan.hires):
+        for line, row in zip(self.lines("hires"), records(self.plan.hires), strict=True):
             where = f"{row.count} {row.skill} at {row.office} from {row.start_period}"
+            flag = self.row_flag(where, line)
             skill = self.skills[row.skill]
             s = self.period_ix[row.start_period]
             count = float(row.count)
             if count != int(count) or count < 1:
-                self.flag("hire_count", where, "count must be a whole number >= 1")
-            if s < skill.time_to_hire:
-                self.flag("time_to_hire", where, f"starts at period index {s}, before "
-                          f"time to hire {skill.time_to_hire}")
+                flag("hire_count", "count must be a whole number >= 1")
+            if s < (wait := skill.time_to_hire):
+                earliest = self.i.period_names[wait] if wait < self.T else "the horizon's end"
+                flag("time_to_hire", f"starts before {earliest}, the earliest its time to hire "
+                     f"({wait} period{'' if wait == 1 else 's'}) allows")
             if row.funding not in ("vacancy", "new"):
-                self.flag("hire_funding", where, f"funding '{row.funding}' is not vacancy/new")
+                flag("hire_funding", f"funding '{row.funding}' is not vacancy/new")
             if row.funding == "vacancy":
                 vacancy_used[(row.office, row.skill)] += int(count)
             per_office_period[(row.office, s)] += int(count)
             if not _close(float(row.onboarding_cost), skill.onboarding_cost * count):
-                self.flag("hire_cost", where, "onboarding cost does not match skills.csv")
+                flag("hire_cost", "onboarding cost does not match skills.csv")
             salary = skill.salary_per_period * (self.T - s) * count if row.funding == "new" \
                 else 0.0
             if not _close(float(row.salary_cost), salary):
                 stated, priced = _amounts(self.i, float(row.salary_cost), salary)
-                self.flag("hire_cost", where, f"salary cost {stated} but {priced} applies")
+                flag("hire_cost", f"salary cost {stated} but {priced} applies")
         for (office, s), count in per_office_period.items():
             cap = self.offices[office].max_hires_per_period
             if cap is not None and count > cap:
@@ -382,13 +448,13 @@ class _Checker:
 
     def _check_coverage(self) -> None:
         hire_out = self._hire_output()
-        reported: dict[tuple[str, str, str], object] = {}
-        for number, r in enumerate(records(self.plan.coverage), 2):
+        reported: dict[tuple[str, str, str], tuple[int, object]] = {}
+        for number, r in zip(self.lines("coverage"), records(self.plan.coverage), strict=True):
             key = (r.office, r.skill, str(r.period))
             if key in reported:
-                self.flag("coverage_rows", f"{self.file('coverage')}:{number}",
-                          f"{r.skill} at {r.office} in {r.period} is listed twice")
-            reported[key] = r
+                self.flag("coverage_rows", f"{r.skill} at {r.office} in {r.period}",
+                          "listed twice", line=number)
+            reported[key] = (number, r)
         weighted = unweighted = 0.0
         demanded = set()
         for d in self.i.demand:
@@ -401,10 +467,10 @@ class _Checker:
             shortfall = max(0.0, d.fte - staff - hired)
             weighted += d.priority * shortfall
             unweighted += shortfall
-            row = reported.get((d.office, d.skill, name))
-            if row is None:
-                self.flag("coverage_missing", where, "demand row missing from coverage.csv")
+            if (d.office, d.skill, name) not in reported:
+                self.flag("coverage_missing", where, "no row for this demand row")
                 continue
+            number, row = reported[(d.office, d.skill, name)]
             # Every figure of the row: the report's headlines are sums of these columns.
             for column, expected in (("demand_fte", d.fte), ("staff_output_fte", staff),
                                      ("hire_output_fte", hired), ("covered_fte", covered),
@@ -414,10 +480,10 @@ class _Checker:
                 if not _close(value, expected):
                     stated, recomputed = figures(value, expected)
                     self.flag(f"coverage_{column.removesuffix('_fte')}", where,
-                              f"{column} {stated} but recomputed {recomputed}")
+                              f"{column} {stated} but recomputed {recomputed}", line=number)
         for office, skill, period in sorted(set(reported) - demanded):
             self.flag("coverage_rows", f"{skill} at {office} in {period}",
-                      "a coverage row for no demand row")
+                      "a coverage row for no demand row", reported[(office, skill, period)][0])
         self.weighted_shortfall = weighted
         self.shortfall_fte = unweighted
 
@@ -464,24 +530,23 @@ class _Checker:
                     spend[(year_of[t], "new_position_salary")] += (
                         skill.salary_per_period * float(row.count))
         reported: dict[tuple[str, str], float] = {}
+        line_of: dict[tuple[str, str], int] = {}
         expected_keys = {(year, kind) for year in self.i.years for kind in COST_KINDS}
-        for number, r in enumerate(records(self.plan.costs), 2):
+        for number, r in zip(self.lines("costs"), records(self.plan.costs), strict=True):
             key = (str(r.year), str(r.kind))
             if key in reported:
-                self.flag("costs", f"{self.file('costs')}:{number}",
-                          f"{key[1]} in {key[0]} is listed twice")
+                self.flag("costs", f"{key[1]} in {key[0]}", "listed twice", line=number)
             elif key not in expected_keys:
-                self.flag("costs", f"{self.file('costs')}:{number}",
-                          f"'{key[1]}' in '{key[0]}' is not a kind of cost ("
-                          + ", ".join(COST_KINDS) + ") in a budget year")
-            reported[key] = float(r.cost)
+                self.flag("costs", f"'{key[1]}' in '{key[0]}'", "not a kind of cost ("
+                          + ", ".join(COST_KINDS) + ") in a budget year", line=number)
+            reported[key], line_of[key] = float(r.cost), number
         for key in sorted(expected_keys - set(reported)):
-            self.flag("costs", f"{key[1]} in {key[0]}", "row missing from costs.csv")
+            self.flag("costs", f"{key[1]} in {key[0]}", "row missing")
         for key in set(spend) | set(reported):
             if not _close(spend.get(key, 0.0), reported.get(key, 0.0), tol=1e-4):
                 stated, priced = _amounts(self.i, reported.get(key, 0.0), spend.get(key, 0.0))
                 self.flag("costs", f"{key[1]} in {key[0]}",
-                          f"costs.csv says {stated}; recomputed {priced}")
+                          f"says {stated}; recomputed {priced}", line_of.get(key))
         for year in self.i.years:
             budget = self.i.budget(year)
             if budget is None:
@@ -500,9 +565,10 @@ class _Checker:
                              for kind in COST_KINDS}
 
 
-def _check_summary(checker: _Checker, summary: dict[str, object]) -> list[Violation]:
-    """Every figure summary.json states of the plan, against the tables (the report and the
-    console lead with them)."""
+def _check_summary(checker: _Checker, summary: dict[str, object],
+                   file: str) -> list[Violation]:
+    """Every figure summary.json (at ``file``) states of the plan, against the tables (the
+    report and the console lead with them)."""
     plan = checker.plan
     stated_figures: list[tuple[str, object, float, float]] = [
         ("weighted_shortfall", summary.get("weighted_shortfall"), checker.weighted_shortfall,
@@ -523,12 +589,10 @@ def _check_summary(checker: _Checker, summary: dict[str, object]) -> list[Violat
         number = isinstance(reported, int | float) and not isinstance(reported, bool)
         if not number or not _close(float(reported), value, tol=tol):  # type: ignore[arg-type]
             if number and (key == "total_cost" or key.startswith("cost_by_kind.")):
-                said, priced = _amounts(checker.i, float(reported), value)  # type: ignore[arg-type]
-                out.append(Violation("summary", f"summary.json {key}",
-                                     f"says {said}; recomputed {priced}"))
-                continue
-            said, recomputed = (figures(float(reported), value) if number  # type: ignore[arg-type]
-                                else (str(reported), number_text(value)))
-            out.append(Violation("summary", f"summary.json {key}",
-                                 f"says {said}; recomputed {recomputed}"))
+                said, recomputed = _amounts(checker.i, float(reported), value)  # type: ignore[arg-type]
+            else:
+                said, recomputed = (figures(float(reported), value) if number  # type: ignore[arg-type]
+                                    else (str(reported), number_text(value)))
+            out.append(Violation("summary", key, f"says {said}; recomputed {recomputed}",
+                                 file=file))
     return out

@@ -226,7 +226,7 @@ def test_verify_lists_the_first_violations_and_all_on_request(plan_dir, capsys):
     assert capped[-1] == (f"  ... and {len(every) - 1 - VIOLATIONS_SHOWN} more; --all lists "
                           "every one")
     assert len(capped) == 1 + VIOLATIONS_SHOWN + 1
-    assert every[1].startswith(f"  - unknown_reference: {plan_dir / 'details.csv'}:2: ")
+    assert every[1].startswith(f"  - {plan_dir / 'details.csv'}:2: ")
 
 
 def test_report_lists_the_first_violations_as_verify_does(plan_dir, capsys):

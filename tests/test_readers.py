@@ -351,6 +351,18 @@ def test_the_count_of_problems_includes_the_rows_a_repeat_stands_for(tmp_path, c
     assert ": 15 problems in the input" in err and "(and 5 more rows like this)" in err
 
 
+def test_check_does_not_say_nothing_was_written_but_plan_does(tmp_path, capsys):
+    # A planner's reading: check writes nothing ever, so "; nothing was written" read oddly.
+    target = overlay(BAD / "empty_demand", tmp_path / "i")
+    assert main(["check", str(target)]) == EXIT_INVALID_INPUT
+    err = capsys.readouterr().err
+    assert f"{target}: 1 problem in the input\n" in err and "nothing was written" not in err
+    assert main(["plan", str(target), "-o", str(tmp_path / "out"), "-q"]) == EXIT_INVALID_INPUT
+    err = capsys.readouterr().err
+    assert f"{target}: 1 problem in the input; nothing was written" in err
+    assert not (tmp_path / "out").exists()
+
+
 def test_a_names_table_not_utf8_and_a_huge_integer_are_said_once(tmp_path):
     # A review: an offices.csv not UTF-8 still drew 13 "unknown
     # office" lines (its problem names the bad line, not row 1), and a 400-digit integer in

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 from dataclasses import replace
+from pathlib import Path
 
 import pandas as pd
 import pytest
@@ -125,6 +126,60 @@ def test_broken_plan_is_flagged(tiny_plan, rule):
     assert rule in rules, rules
 
 
+# The plan file a planner opens for each rule (a rule about several tables: the main one).
+FILE_OF_RULE = {
+    **dict.fromkeys(["one_detail", "detail_allowed", "detail_present", "detail_from",
+                     "detail_to", "detail_cost", "consecutive_details", "away_share"],
+                    "details.csv"),
+    **dict.fromkeys(["one_reassignment", "reassignment_allowed", "reassignment_cost"],
+                    "reassignments.csv"),
+    **dict.fromkeys(["work_location", "work_skill", "work_capacity", "work_output",
+                     "work_negative", "work_repeated"], "work.csv"),
+    **dict.fromkeys(["time_to_hire", "max_hires", "vacancies", "hire_cost", "seats"],
+                    "hires.csv"),
+    **dict.fromkeys(["coverage_shortfall", "coverage_staff_output", "coverage_weighted_shortfall",
+                     "coverage_priority", "coverage_covered", "coverage_rows"], "coverage.csv"),
+    **dict.fromkeys(["hiring_budget", "moves_budget", "costs"], "costs.csv"),
+}
+
+
+@pytest.mark.parametrize("rule", sorted(BREAKS))
+def test_each_printed_violation_leads_with_its_file_and_says_no_rule_code(tiny_plan, rule):
+    # A planner's reading of `rebalance verify`: "one_detail: person E0003 in 2027-Q3: ..."
+    # read as an internal name, "period index 0" as code, and named no file to open.
+    from rebalance.verify import RULES
+
+    instance, result = tiny_plan
+    broken = BREAKS[rule](instance, result.plan)
+    found = [v for v in verify_plan(instance, broken) if v.rule == rule]
+    assert found, rule
+    file = FILE_OF_RULE[rule]
+    for v in found:
+        text = str(v)
+        head = text.split(": ")[0]
+        assert head.split(":")[0] == file, text
+        if ":" in head:  # the row, where one row breaks the rule, is a row of that table
+            table = broken.table(file.removesuffix(".csv"))
+            assert 2 <= int(head.split(":")[1]) <= len(table) + 1, text
+        assert not any(code in text for code in RULES if "_" in code), text
+        assert not text.startswith(f"{rule}:") and "period index" not in text, text
+        # The rule in plain words, but where the message says it ("starts before ...").
+        assert text.endswith(")") or rule == "time_to_hire", text
+
+
+def test_a_violation_names_the_row_that_breaks_it(tiny_plan, tmp_path):
+    # The brief's example: a second detail of a person in a period names that row's line.
+    instance, result = tiny_plan
+    broken = BREAKS["one_detail"](instance, result.plan)
+    [v] = [v for v in verify_plan(instance, broken) if v.rule == "one_detail"]
+    assert str(v) == (f"details.csv:{len(broken.details) + 1}: person a1 in 2027-Q2: two "
+                      "details in one period (one detail a period)")
+    [v] = [v for v in verify_plan(instance, BREAKS["time_to_hire"](instance, result.plan))
+           if v.rule == "time_to_hire"]
+    assert str(v).endswith(": 1 intake at A from 2027-Q1: starts before 2027-Q2, the earliest "
+                           "its time to hire (1 period) allows"), str(v)
+
+
 def test_unknown_names_are_flagged(tiny_plan):
     instance, result = tiny_plan
     broken = replace(result.plan, details=add_rows(result.plan.details,
@@ -241,12 +296,12 @@ def test_every_summary_figure_is_checked(tiny_plan, tmp_path):
     good = json.loads(path.read_text())
     for key in ("shortfall_fte_periods", "hires", "detail_periods", "reassignments"):
         path.write_text(json.dumps({**good, key: good[key] + 1}))
-        assert [v.where for v in verify_folder(instance, tmp_path / "plan")] == [
-            f"summary.json {key}"]
+        assert [(v.where, Path(v.file).name) for v in verify_folder(
+            instance, tmp_path / "plan")] == [(key, "summary.json")]
     path.write_text(json.dumps({**good, "cost_by_kind": {**good["cost_by_kind"],
                                                          "detail": 0.0}}))
     assert [v.where for v in verify_folder(instance, tmp_path / "plan")] == [
-        "summary.json cost_by_kind.detail"]
+        "cost_by_kind.detail"]
 
 
 def test_folder_summary_totals_are_checked(tiny_plan, tmp_path):

@@ -1,6 +1,12 @@
 """Workload history -> FTE demand: quality control, effort standards, forecasts (issue 4)."""
 
-from rebalance.demand.build import DemandResult, build_demand, run_demand, write_demand
+from rebalance.demand.build import (
+    DemandResult,
+    build_demand,
+    output_folder_problem,
+    run_demand,
+    write_demand,
+)
 from rebalance.demand.forecast import backtest_series, forecast_series, mase, three_year_average
 from rebalance.demand.history import DemandSettings, History, HistoryError, read_history
 from rebalance.demand.quality import QualityResult, check_quality
@@ -22,6 +28,7 @@ __all__ = [
     "forecast_series",
     "format_demand_summary",
     "mase",
+    "output_folder_problem",
     "read_history",
     "run_demand",
     "three_year_average",

@@ -1,4 +1,4 @@
-"""From workload history to the instance's FTE demand, with the trail behind every figure.
+"""From workload history to the instance's FTE demand, with the trace behind every figure.
 
 ``hours[o, s, q] = sum_c volume[o, c, q] x hours_per_case[o, c, s] + sum_a noncase[o, s, a, q]``
 and ``fte = hours / hours_per_fte`` of the period, where ``q`` is a quarter of the instance's
@@ -34,7 +34,7 @@ from rebalance.readers import read_tables
 from rebalance.settings_reader import read_periods
 from rebalance.tables import collapse_repeats, table_problems
 
-__all__ = ["DemandResult", "build_demand", "run_demand", "write_demand"]
+__all__ = ["DemandResult", "build_demand", "output_folder_problem", "run_demand", "write_demand"]
 
 QUARTER = re.compile(r"^(\d{4})-Q([1-4])$")
 # A month of arrivals above this many times its series' median is worth a second look.
@@ -66,9 +66,13 @@ class DemandResult:
     warnings: tuple[Problem, ...] = ()
 
 
-def _instance_context(folder: Path, problems: list[Problem]) -> tuple[
-        tuple[Period, ...], set[str] | None, set[str] | None]:
-    """Periods, office names and skill names of the instance (None: that file is unusable)."""
+def output_folder_problem(folder: str | Path) -> str | None:
+    """Why ``folder`` cannot take demand.csv (it is not an instance folder), or None.
+
+    The command line says this as a refused output folder (exit 2) before reading anything:
+    a mistyped ``-o`` had been listed as "1 problem in the input" of the history (exit 3).
+    """
+    folder = Path(folder)
     if not folder.is_dir():
         # demand.csv is written into a folder; the instance readers' "expected an instance
         # folder or an .xlsx workbook" had contradicted itself for x.xlsx.
@@ -77,18 +81,23 @@ def _instance_context(folder: Path, problems: list[Problem]) -> tuple[
                     else "is a file, not a folder")
         else:
             what = "instance folder not found"
-        problems.append(Problem(str(folder), None, None,
-                                f"{what}; expected the instance folder that demand.csv is "
-                                "written into (a workbook instance cannot take it)"))
-        return (), None, None
+        return (f"{what}; expected the instance folder that demand.csv is written into "
+                "(a workbook instance cannot take it)")
     if not any((folder / name).exists() for name in ("settings.toml", "offices.csv",
                                                        "skills.csv")):
         # Said once, naming the folder: three "file is missing" lines had not said where, and
         # a folder named dir.xlsx is no workbook either.
-        problems.append(Problem(str(folder), None, None,
-                                "is a folder with no instance in it (no settings.toml, "
-                                "offices.csv or skills.csv); expected the instance folder "
-                                "that demand.csv is written into"))
+        return ("is a folder with no instance in it (no settings.toml, offices.csv or "
+                "skills.csv); expected the instance folder that demand.csv is written into")
+    return None
+
+
+def _instance_context(folder: Path, problems: list[Problem]) -> tuple[
+        tuple[Period, ...], set[str] | None, set[str] | None]:
+    """Periods, office names and skill names of the instance (None: that file is unusable)."""
+    refused = output_folder_problem(folder)
+    if refused is not None:
+        problems.append(Problem(str(folder), None, None, refused))
         return (), None, None
     settings, tables, found = read_tables(folder)
     # demand.csv is what we are about to write; only these files matter here.

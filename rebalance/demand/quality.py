@@ -1,6 +1,7 @@
 """Quality control of time records, before anything is estimated from them.
 
-Checks (each record can fail several; the first in this order is its ``check``):
+Checks (each record can fail several, all listed in its ``checks_failed``; the first in this
+order is its ``check``, the one ``qc_summary.csv`` counts it under):
 
 ``hours_out_of_bounds``
     a record's hours are negative or above ``max_record_hours``.
@@ -51,9 +52,9 @@ PERIOD_HOURS = {"month": 24.0 * 31, "week": 24.0 * 7}  # no period holds more ho
 class QualityResult:
     """Outcome of the checks.
 
-    ``records``: the time records with ``check`` (first failed check, "" if none), ``checks``
-    (all failed, space-separated), ``score`` (robust anomaly score, NaN if not scored) and
-    ``excluded`` (its timesheet failed).
+    ``records``: the time records with ``check`` (first failed check, "" if none),
+    ``checks_failed`` (all failed, space-separated), ``score`` (robust anomaly score, NaN if
+    not scored) and ``excluded`` (its timesheet failed).
     ``timesheets``: person, period, office, reported_hours, expected_hours, complete,
     plausible (expected hours not implausible, see the module notes), coverage_hours (expected
     hours the coverage factor counts: the person's median where implausible), excluded.
@@ -109,8 +110,8 @@ def check_quality(history: History) -> QualityResult:
 
     failed = np.column_stack([fails[c] for c in CHECKS])
     names = np.array(CHECKS)
-    rec["checks"] = [" ".join(names[row]) for row in failed]
     rec["check"] = [names[row][0] if row.any() else "" for row in failed]
+    rec["checks_failed"] = [" ".join(names[row]) for row in failed]
     bad_sheets = rec.loc[rec["check"] != "", ["person", "period"]].drop_duplicates()
     sheets = sheets.merge(bad_sheets.assign(excluded=True), on=["person", "period"], how="left")
     sheets["excluded"] = sheets["excluded"].fillna(False).astype(bool) | ~sheets["complete"]
@@ -236,8 +237,8 @@ def _verdict(rec: pd.DataFrame, sheets: pd.DataFrame, q: QualitySettings) -> str
     else:
         word = "poor: effort standards from these records are unreliable"
     return (f"{word}: {share:.1%} of timesheets complete (target {q.compliance_target:.0%}); "
-            f"{int(rec['excluded'].sum())} of {len(rec)} records excluded "
-            f"({hours_share:.1%} of hours), {int((rec['check'] != '').sum())} of them failing "
+            f"{int(rec['excluded'].sum()):,} of {len(rec):,} records excluded "
+            f"({hours_share:.1%} of hours), {int((rec['check'] != '').sum()):,} of them failing "
             "a check"
-            + (f"; {implausible} implausible expected-hours value(s) (e.g. a typo), counted at "
+            + (f"; {implausible:,} implausible expected-hours value(s) (e.g. a typo), counted at "
                "the person's median expected hours" if implausible else ""))

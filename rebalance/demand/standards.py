@@ -42,7 +42,7 @@ __all__ = ["EffortStandards", "estimate_standards", "forecast_noncase"]
 
 @dataclass(frozen=True)
 class EffortStandards:
-    """``table``: case_type, skill, office, cases, hours, office_hours_per_case,
+    """``table``: case_type, skill, office, cases (a whole number), hours, office_hours_per_case,
     pooled_hours_per_case, weight, hours_per_case, lower, upper, basis ("office" or "pooled: no
     usable time records") (one row per office where the pooled standard is positive).
     ``noncase``: office, skill, activity, month, hours (grossed-up monthly history).
@@ -168,7 +168,9 @@ def estimate_standards(history: History, quality: QualityResult) -> EffortStanda
                                  f"but no usable time records of skill '{s}' in months with "
                                  f"arrivals; it takes the pooled value of the other offices, "
                                  f"{pooled[ci, si]:.3f} hours a case")
-                rows.append((c, s, o, n, h_sum[oi, ci, si],
+                # A sum of whole arrivals counts (exact in a float): written as the count it
+                # is, not 6354.0000.
+                rows.append((c, s, o, int(n), h_sum[oi, ci, si],
                              h_sum[oi, ci, si] / n if n > 0 else np.nan, pooled[ci, si],
                              n / (n + k), shrunk[oi, ci, si], lower[oi, ci, si],
                              upper[oi, ci, si], basis))

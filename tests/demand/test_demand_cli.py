@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import contextlib
 import csv
+import io
 import shutil
 from pathlib import Path
 
@@ -10,7 +12,7 @@ import pandas as pd
 import pytest
 from demand_helpers import DEMO, DEMO_HISTORY
 
-from rebalance.cli import EXIT_INVALID_INPUT, EXIT_OK, main
+from rebalance.cli import EXIT_INVALID_INPUT, EXIT_OK, EXIT_USAGE, main
 from rebalance.readers import read_instance
 
 INSTANCE_FILES = ("settings.toml", "offices.csv", "skills.csv", "staff.csv", "budget.csv",
@@ -27,8 +29,52 @@ def _instance_without_demand(folder: Path) -> Path:
 @pytest.fixture(scope="module")
 def demand_run(tmp_path_factory: pytest.TempPathFactory) -> Path:
     out = _instance_without_demand(tmp_path_factory.mktemp("instance") / "demo")
-    assert main(["demand", str(DEMO_HISTORY), "-o", str(out)]) == EXIT_OK
+    console = io.StringIO()
+    with contextlib.redirect_stdout(console):
+        assert main(["demand", str(DEMO_HISTORY), "-o", str(out)]) == EXIT_OK
+    (out.parent / "console.txt").write_text(console.getvalue())  # beside the instance
     return out
+
+
+def test_counts_and_words_read_as_a_planner_reads_them(demand_run: Path) -> None:
+    # A first-time planner's reading: "57 of 31359 records" beside "835,942.8 hours",
+    # cases as 6354.0000, "(trail: ...)", "as good as it is" and two columns checks/check.
+    console = (demand_run.parent / "console.txt").read_text()
+    report = demand_run / "demand_report"
+    with (DEMO_HISTORY / "time_records.csv").open(newline="") as handle:
+        records = sum(1 for _ in csv.reader(handle)) - 1  # the demo's own rows, header aside
+    assert records >= 1000  # else a separator would not show
+    assert f" of {records:,} records excluded" in console
+    assert f" of {records:,} records excluded" in (report / "qc_verdict.txt").read_text()
+    kept = next(line for line in console.splitlines() if line.strip().startswith("kept"))
+    kept_records = int(pd.read_csv(report / "qc_summary.csv").set_index("check")
+                       .loc["kept", "records"])
+    assert f"{kept_records:,} records" in kept, kept
+    assert "(trace: demand_trace.csv)" in console and "trail" not in console
+    assert "only as good as the forecast." in console and "as good as it is" not in console
+    with (report / "effort_standards.csv").open(newline="") as handle:
+        cases = [row["cases"] for row in csv.DictReader(handle)]
+    assert cases and all(c.isdigit() for c in cases), cases[:5]
+    flagged = pd.read_csv(report / "qc_flagged_records.csv", keep_default_na=False)
+    assert "checks" not in flagged.columns
+    # check: the first failed, as qc_summary.csv counts it; checks_failed: all of them.
+    assert all(failed.split()[0] == first for first, failed
+               in zip(flagged["check"], flagged["checks_failed"], strict=True))
+    assert (flagged["checks_failed"].str.contains(" ")).any()  # the demo has such a record
+
+
+@pytest.mark.parametrize("where", ["missing/deeper", "a_file/deeper"])
+def test_an_output_folder_that_is_not_there_is_a_refused_output(
+        where: str, tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    # A planner's reading: -o /path/that/does/not/exist/deeper read "HISTORY: 1 problem in the
+    # input", exit 3; a refused output folder is exit 2 (README, exit codes).
+    (tmp_path / "a_file").write_text("")
+    out = tmp_path / where
+    assert main(["demand", str(DEMO_HISTORY), "-o", str(out)]) == EXIT_USAGE
+    err = capsys.readouterr().err
+    assert err.startswith(f"{out}: instance folder not found; expected the instance folder"), err
+    assert "in the input" not in err and str(DEMO_HISTORY) not in err
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["a_file"]
 
 
 def test_demand_csv_is_a_valid_instance_table(demand_run: Path, capsys) -> None:  # type: ignore[no-untyped-def]

@@ -7,7 +7,7 @@ from pathlib import Path
 
 import pytest
 
-from rebalance.cli import EXIT_INVALID_INPUT, EXIT_OK, main
+from rebalance.cli import EXIT_INVALID_INPUT, EXIT_OK, EXIT_USAGE, main
 
 OLD_DEMAND = "office,skill,period,hours\nA,review,2027-Q1,100\n"
 
@@ -197,7 +197,8 @@ def test_an_output_that_is_a_workbook_file_is_said_plainly(
     _, hist = _make(tmp_path)
     book = tmp_path / "x.xlsx"
     book.write_bytes(b"PK")
-    assert main(["demand", str(hist), "-o", str(book)]) == EXIT_INVALID_INPUT
+    # -o names no instance folder: a refused output, exit 2 (README, exit codes).
+    assert main(["demand", str(hist), "-o", str(book)]) == EXIT_USAGE
     err = capsys.readouterr().err
     assert (f"{book}: is a workbook, not a folder; expected the instance folder that "
             "demand.csv is written into") in err
@@ -210,7 +211,7 @@ def test_an_output_folder_with_no_instance_is_said_once(
     _, hist = _make(tmp_path)
     folder = tmp_path / "dir.xlsx"
     folder.mkdir()
-    assert main(["demand", str(hist), "-o", str(folder)]) == EXIT_INVALID_INPUT
+    assert main(["demand", str(hist), "-o", str(folder)]) == EXIT_USAGE
     err = capsys.readouterr().err
     assert f"{folder}: is a folder with no instance in it (no settings.toml" in err
     assert "workbook not found" not in err and "file is missing" not in err

@@ -157,7 +157,7 @@ def test_a_rebuilt_report_says_what_verification_finds_now_not_what_was_stored(t
     assert "FAILED verification" in page and "verified independently" not in page
     (folder / "coverage.csv").unlink()
     assert main(["report", str(folder)]) == EXIT_VERIFICATION_FAILED
-    assert "coverage.csv is missing" in (folder / "report.html").read_text()
+    assert "coverage.csv: file is missing" in (folder / "report.html").read_text()
 
 
 def test_long_tables_are_cut_with_a_pointer_to_the_full_files():

@@ -425,8 +425,7 @@ def _parse_skills(rows: TableRows, raw: str, skills: Mapping[str, Skill] | None)
         except ValueError:
             proficiency = math.nan
         if skills is not None and name not in skills:
-            rows.error("skills", f"unknown skill '{name}'; expected one listed in skills.csv"
-                       + rows.suggest("skills", name, skills))
+            rows.unknown("skills", name, skills, "skill", "skills.csv")
             ok = False
         elif not 0.0 < proficiency <= 1.0:
             rows.error("skills", f"proficiency '{value}' for '{name}' is out of range; "

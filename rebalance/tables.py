@@ -14,6 +14,7 @@ import codecs
 import csv
 import io
 import math
+import re
 from collections import Counter
 from collections.abc import Iterable, Iterator, Mapping
 from dataclasses import dataclass
@@ -34,6 +35,7 @@ __all__ = [
     "read_csv_table",
     "read_utf8",
     "table_problems",
+    "unknown_name",
 ]
 
 TRUE_WORDS = {"true", "yes", "y", "1"}
@@ -60,12 +62,29 @@ class RawTable:
     fault: tuple[int | None, str] | None = None
 
 
+# An unknown name, as :meth:`TableRows.reference` and the staff skills say it; parsed back by
+# :func:`collapse_repeats` to say a name missing from many rows once.
+UNKNOWN_NAME = re.compile(r"unknown (?P<kind>[a-z_ ]+) '(?P<name>.*)'; expected one listed in "
+                          r"(?P<where>.+?)(?P<hint> \(did you mean .*\?\))?")
+# A name unknown in this many rows or more is one line; fewer keep a line per row.
+UNKNOWN_NAME_ROWS = 3
+# Row numbers that line shows per file, before "and N more".
+ROWS_NAMED = 5
+
+
+def unknown_name(kind: str, name: str, defined_in: str, hint: str = "") -> str:
+    """The message for a cell naming what ``defined_in`` does not list (``hint``: a
+    :func:`~rebalance.problems.did_you_mean`)."""
+    return f"unknown {kind} '{name}'; expected one listed in {defined_in}{hint}"
+
+
 def collapse_repeats(problems: list[Problem], keep: int = 10) -> list[Problem]:
     """Every problem, but one fault repeated on thousands of rows (an office name that a
-    broken offices table left unknown to every staff row) listed ``keep`` times."""
+    broken offices table left unknown to every staff row) listed ``keep`` times, and a name
+    unknown in many rows said once, where it is first named (:func:`_unknown_names`)."""
     seen: dict[tuple[str, str | None, str], int] = {}
     out: list[Problem] = []
-    for p in problems:
+    for p in _unknown_names(problems):
         key = (p.file, p.column, p.message)
         seen[key] = seen.get(key, 0) + 1
         if seen[key] <= keep:
@@ -75,6 +94,52 @@ def collapse_repeats(problems: list[Problem], keep: int = 10) -> list[Problem]:
             out.append(Problem(file, None, column, f"{message} (and {count - keep} more rows "
                                                    "like this)", repeats=count - keep))
     return out
+
+
+def _unknown_names(problems: list[Problem]) -> list[Problem]:
+    """``problems`` with each name unknown in ``UNKNOWN_NAME_ROWS`` rows or more said once,
+    in place of the first: a skill deleted from skills.csv had drawn 88 lines, ten per file
+    and a count of the rest at the end, none saying the fix is one row in skills.csv.  Each
+    row is still counted as a problem (``repeats``; a row naming it twice, once), and the
+    line says so."""
+    matches = [None if p.is_warning else UNKNOWN_NAME.fullmatch(p.message) for p in problems]
+    rows: dict[tuple[str, str, str], dict[str, set[int | None]]] = {}
+    for p, match in zip(problems, matches, strict=True):
+        if match is not None:
+            key = (match["kind"], match["name"], match["where"])
+            rows.setdefault(key, {}).setdefault(p.file, set()).add(p.row)
+    out: list[Problem] = []
+    said: set[tuple[str, str, str]] = set()
+    for p, match in zip(problems, matches, strict=True):
+        if match is None:
+            out.append(p)
+            continue
+        key = (match["kind"], match["name"], match["where"])
+        if sum(map(len, rows[key].values())) < UNKNOWN_NAME_ROWS:
+            out.append(p)
+        elif key not in said:
+            said.add(key)
+            out.append(_unknown_name_line(p, key, rows[key], match["hint"] or ""))
+    return out
+
+
+def _unknown_name_line(first: Problem, key: tuple[str, str, str],
+                       files: Mapping[str, set[int | None]], hint: str) -> Problem:
+    """One line for a name unknown in many rows of ``files``, located at its ``first``."""
+    kind, name, where = key
+    total = sum(map(len, files.values()))
+    used = []
+    for file, numbers in files.items():
+        known = sorted(n for n in numbers if n is not None)
+        shown = ", ".join(map(str, known[:ROWS_NAMED]))
+        more = f" and {len(numbers) - ROWS_NAMED} more" if len(numbers) > ROWS_NAMED else ""
+        count = f"{len(numbers)} row{'s' * (len(numbers) != 1)}"
+        used.append(f"{file} ({count}: {shown}{more})" if shown else f"{file} ({count})")
+    target = where.split(" (")[0]
+    return Problem(first.file, first.row, first.column,
+                   f"{kind} '{name}' is not in {where} but is named in {total} rows, each "
+                   f"counted as a problem: {', '.join(used)}; add it to {target} or correct "
+                   f"those rows{hint}", repeats=total)
 
 
 def table_problems(table: RawTable) -> list[Problem]:
@@ -325,10 +390,16 @@ class TableRows:
         names could not be read, so every name would read as unknown and none is checked."""
         value = self.text(row, column)
         if value is not None and known is not None and value not in known:
-            self.error(column, f"unknown {kind} '{value}'; expected one listed in {defined_in}"
-                       + self.suggest(column, value, known))
+            self.unknown(column, value, known, kind, defined_in)
             return None
         return value
+
+    def unknown(self, column: str, value: str, known: Iterable[Any], kind: str,
+                defined_in: str) -> None:
+        """Say the cell names ``value``, which ``defined_in`` does not list (:func:`unknown_name`,
+        with what it may have meant)."""
+        self.error(column, unknown_name(kind, value, defined_in,
+                                        self.suggest(column, value, known)))
 
     def suggest(self, column: str | None, value: str, known: Iterable[Any]) -> str:
         """:func:`~rebalance.problems.did_you_mean` for an unknown ``value`` in ``column``,

@@ -188,22 +188,76 @@ def test_instance_is_read_only(tiny):
 
 
 def test_one_fault_on_many_rows_is_listed_ten_times_and_counted(tmp_path):
-    # A renamed office leaves every row naming it unknown (a sweep's workbook: 675 problems,
-    # nearly all the same few names); each row is still counted.
+    # A value no row may hold, on a hundred rows (a sweep's workbook: 675 problems, nearly
+    # all alike); each row is still counted.
+    from conftest import ROOT
+
+    from rebalance.readers import count_problems
+
+    demo = tmp_path / "demo"
+    shutil.copytree(ROOT / "instances" / "demo", demo)
+    staff = (demo / "staff.csv").read_text()
+    (demo / "staff.csv").write_text(staff.replace(",false,false,", ",maybe,false,"))
+    staff_rows = staff.count(",false,false,")
+    with pytest.raises(InstanceError) as caught:
+        read_instance(demo)
+    text = [str(p) for p in caught.value.problems]
+    named = [t for t in text if t.startswith("staff.csv") and "'maybe'" in t]
+    assert staff_rows > 11 and len(named) == 11
+    assert named[-1].endswith(f"(and {staff_rows - 10} more rows like this)")
+    assert count_problems(caught.value.problems) == staff_rows
+
+
+def test_a_name_unknown_in_many_rows_is_one_line_saying_where(tmp_path, capsys):
+    # Deleting one skill had drawn 88 lines: ten per file, then "(and 29 more rows like
+    # this)" at the end, none saying the fix is one row in skills.csv.
+    from conftest import ROOT
+
+    demo = tmp_path / "demo"
+    shutil.copytree(ROOT / "instances" / "demo", demo)
+    skills = (demo / "skills.csv").read_text().splitlines(keepends=True)
+    (demo / "skills.csv").write_text("".join(s for s in skills
+                                             if not s.startswith("inspection,")))
+    assert main(["check", str(demo)]) == EXIT_INVALID_INPUT
+    err = capsys.readouterr().err
+    # Rows counted by hand: `grep -n inspection staff.csv` (39 lines, from 29),
+    # `grep -n ,inspection, demand.csv` (48, from 10), `grep -n inspection attrition.csv` (9).
+    assert ": 88 problems in the input" in err
+    lines = [line.strip() for line in err.splitlines() if "'inspection'" in line]
+    assert lines == [
+        "staff.csv:29: skills: skill 'inspection' is not in skills.csv but is named in 88 "
+        "rows, each counted as a problem: staff.csv (39 rows: 29, 39, 40, 41, 42 and 34 more), "
+        "demand.csv (48 rows: 10, 11, 12, 13, 14 and 43 more), attrition.csv (1 row: 9); add "
+        "it to skills.csv or correct those rows"]
+    assert "more rows like this" not in err
+
+
+def test_a_renamed_office_is_one_line_with_the_name_it_may_have_become(tmp_path):
+    # A renamed office leaves every row naming the old name unknown: one line, with the new
+    # name offered.
     from conftest import ROOT
 
     demo = tmp_path / "demo"
     shutil.copytree(ROOT / "instances" / "demo", demo)
     offices = (demo / "offices.csv").read_text()
     (demo / "offices.csv").write_text(offices.replace("hollin-cross,", "hollin-crossing,"))
-    staff_rows = sum(1 for line in (demo / "staff.csv").read_text().splitlines()[1:]
-                     if ",hollin-cross," in line)
+    staff_rows = (demo / "staff.csv").read_text().count(",hollin-cross,")
     with pytest.raises(InstanceError) as caught:
         read_instance(demo)
-    text = [str(p) for p in caught.value.problems]
-    named = [t for t in text if t.startswith("staff.csv") and "'hollin-cross'" in t]
-    assert staff_rows > 11 and len(named) == 11
-    assert named[-1].endswith(f"(and {staff_rows - 10} more rows like this)")
+    named = [str(p) for p in caught.value.problems if "'hollin-cross'" in p.message]
+    assert len(named) == 1 and named[0].startswith("staff.csv:")
+    assert f"staff.csv ({staff_rows} rows: " in named[0]
+    assert named[0].endswith("add it to offices.csv or correct those rows (did you mean "
+                             "'hollin-crossing'?)")
+
+
+def test_a_name_unknown_in_two_rows_keeps_a_line_per_row(tmp_path):
+    target = overlay(BAD / "empty_demand", tmp_path / "i")
+    (target / "demand.csv").write_text("office,skill,period,fte\nA,reviw,2027-Q1,1\n"
+                                       "A,reviw,2027-Q2,1\n")
+    assert _problems(target) == [
+        f"demand.csv:{row}: skill: unknown skill 'reviw'; expected one listed in skills.csv "
+        "(did you mean 'review'?)" for row in (2, 3)]
 
 
 def _problems(target: Path) -> list[str]:
@@ -344,7 +398,7 @@ def test_the_count_of_problems_includes_the_rows_a_repeat_stands_for(tmp_path, c
     target = overlay(BAD / "empty_demand", tmp_path / "i")
     shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
     staff = target / "staff.csv"
-    staff.write_text(staff.read_text() + "".join(f"x{i},Nowhere,1.0,review:1.0,,,\n"
+    staff.write_text(staff.read_text() + "".join(f"x{i},A,2,review:1.0,,,\n"
                                                  for i in range(15)))
     assert main(["check", str(target)]) == EXIT_INVALID_INPUT
     err = capsys.readouterr().err
@@ -636,8 +690,8 @@ def test_an_unusable_skill_name_is_not_offered_as_what_was_meant(tmp_path):
     # 'review' (did you mean 're view'?)" pointed at a name no row could use.
     problems = _problems(_tiny_with(tmp_path, skills_csv=("\nreview,", "\nre view,")))
     assert problems[0].startswith("skills.csv:2: skill: 're view' is not a usable skill name")
-    assert "staff.csv:2: skills: unknown skill 'review'; expected one listed in skills.csv" in \
-        problems
+    assert [p for p in problems if p.startswith("staff.csv:2: skills: skill 'review' is not in "
+                                                 "skills.csv but is named in")]
     assert not [p for p in problems if "did you mean 're view'" in p]
 
 

@@ -29,6 +29,7 @@ from rebalance.planning import BUILD_STAGE, CAUTION, PlanResult
 from rebalance.report.limits_view import (
     LIMITS_LEAD,
     LIMITS_TITLE,
+    SHORT_YET_AWAY,
     limits_at_cap,
     plan_run_rate,
     run_rate_note,
@@ -250,7 +251,10 @@ def _limit_lines(result: PlanResult) -> list[str]:
     lines = [f"  {LIMITS_TITLE}: {LIMITS_LEAD[0]}", f"  {LIMITS_LEAD[1]}:"]
     indent = " " * (4 + width + 2)
     for line in found:
-        texts = fitted_lines(line.text, line.total, LINE_CHARS - len(indent))
+        # The offices short yet sending people out are one sentence, not "; "-separated
+        # entries to count: the demo's four offices take a fourth line rather than be cut.
+        texts = fitted_lines(line.text, line.total, LINE_CHARS - len(indent),
+                             LIMIT_LINES + (line.words == SHORT_YET_AWAY))
         lines.append(f"    {line.words.ljust(width)}  {texts[0]}")
         lines += [indent + text for text in texts[1:]]
     return lines

@@ -8,7 +8,9 @@ goes by its name there (:data:`rebalance.analysis.limits.LIMIT_NAMES`); only the
 details in a row is counted here, as neither that module nor the verifier (whose check only
 flags an overrun, inside its private checker) exposes how close a plan comes to it.  The
 salaries and their warning are :mod:`rebalance.planning`'s (summary.json carries the
-warning too), re-exported here for the reports.
+warning too), re-exported here for the reports.  Last comes a line for offices short of
+staff that still send their own people out on detail while their seats are full: the reasons
+explain it detail by detail, but the summary had left leaders to ask.
 """
 
 from __future__ import annotations
@@ -30,8 +32,8 @@ from rebalance.planning import (
 )
 from rebalance.verify import unknown_names
 
-__all__ = ["DETAILS_AT_LIMIT", "LIMITS_LEAD", "LIMITS_TITLE", "LimitLine", "RunRate",
-           "limits_at_cap",
+__all__ = ["DETAILS_AT_LIMIT", "LIMITS_LEAD", "LIMITS_TITLE", "SHORT_YET_AWAY", "LimitLine",
+           "RunRate", "limits_at_cap",
            "period_spans", "plan_run_rate", "run_rate_consequence", "run_rate_note",
            "run_rate_warning"]
 
@@ -53,6 +55,11 @@ DETAILS_AT_LIMIT = "details at the limit"
 KIND_WORDS = (*((kind, LIMIT_NAMES[kind]) for kind in (
     "seats", "hiring_budget", "moves_budget", "max_hires", "vacancies", "away_share")),
     ("details_in_a_row", DETAILS_AT_LIMIT))
+# Offices short of staff yet sending people out, listed after the limits: no cap of its own,
+# but what full seats do to a short office, which a reader would otherwise take for a fault.
+SHORT_YET_AWAY = "away while short"
+# Shortfall below this (FTE) is rounding, as the console's shortfall by office takes it.
+SHORT_FTE = 1e-6
 
 
 @dataclass(frozen=True)
@@ -142,6 +149,38 @@ def _details_in_a_row(instance: Instance, plan: Plan) -> tuple[str, ...]:
                         for start in range(0, T - m)))
 
 
+def _short_yet_away(plan: Plan, seats: Sequence[LimitUse]) -> LimitLine | None:
+    """Offices short of staff in some period (coverage) while people based there are
+    detailed out (details' ``from_office``) and their seats are full (``seats``, the binding
+    uses found above) in that same period, with those detail periods counted, most first."""
+    full = {(use.where, use.period) for use in seats}
+    cover = plan.coverage[plan.coverage["shortfall_fte"] > SHORT_FTE]
+    short = set(zip(cover["office"].astype(str), cover["period"].astype(str), strict=True))
+    counts: dict[str, int] = defaultdict(int)
+    pairs: dict[tuple[str, str], None] = {}
+    for office, period in zip(plan.details["from_office"].astype(str),
+                              plan.details["period"].astype(str), strict=True):
+        if (office, period) in full and (office, period) in short:
+            counts[office] += 1
+            pairs[(office, period)] = None
+    if not counts:
+        return None
+    ranked = sorted(counts, key=lambda office: -counts[office])
+    periods = _counted(counts[ranked[0]], "person-period")
+    most = f"{ranked[0]} ({periods})"
+    why = "seats are full, and a person away frees a seat for a hire or a colleague"
+    if len(ranked) == 1:
+        text = (f"{ranked[0]} is short of staff yet sends people out on detail "
+                f"({periods}): its {why}")
+    else:  # "A (8 person-periods) and B (3) are ...": the unit said once
+        offices = _and([most, *(f"{office} ({counts[office]:,})" for office in ranked[1:])])
+        text = f"{offices} are short of staff yet send people out on detail: their {why}"
+    # What a surface too narrow for every office says: still why, and the office most out.
+    total = (f"{most} and {_counted(len(ranked) - 1, 'other office')} are short of staff "
+             f"yet send people out on detail: their {why}")
+    return LimitLine("short_yet_away", SHORT_YET_AWAY, text, tuple(pairs), total)
+
+
 def _vacancies_used(plan: Plan) -> float:
     """Hires the plan fills funded vacancies with, in all."""
     hires = plan.hires
@@ -198,4 +237,5 @@ def limits_at_cap(instance: Instance, plan: Plan) -> tuple[LimitLine, ...]:
                      "in all")
         out.append(LimitLine(kind, words, text, tuple((u.where, u.period) for u in uses),
                              total))
-    return tuple(out)
+    away = _short_yet_away(plan, kinds.get("seats", []))
+    return (*out, away) if away else tuple(out)

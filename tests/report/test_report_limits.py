@@ -26,6 +26,7 @@ from rebalance.report.html import render_html
 from rebalance.report.inputs import report_data
 from rebalance.report.limits_view import (
     LIMITS_TITLE,
+    SHORT_YET_AWAY,
     limits_at_cap,
     period_spans,
     plan_run_rate,
@@ -297,3 +298,73 @@ def test_two_budget_years_at_their_cap_each_say_so():
         "left for one more hire)")
     assert _budget_text(uses[:1], None, "hire").endswith(
         "used (too little left for one more hire)")
+
+
+# -- short of staff yet sending people out: full seats explain it ---------------------------
+
+
+def _short_at(folder: Path, offices: tuple[str, ...], fte: str = "2.0") -> Path:
+    """``folder`` (a copy of a seats_short-like instance) with the review demand of each of
+    ``offices`` raised from 1.0 to ``fte`` in every period."""
+    demand = folder / "demand.csv"
+    demand.write_text("".join(
+        line.replace(",1.0", f",{fte}") if line.split(",")[0] in offices else line
+        for line in demand.read_text().splitlines(keepends=True)))
+    return folder
+
+
+def test_an_office_short_of_staff_yet_sending_people_out_says_its_seats_are_full(tmp_path):
+    # Hand count from tests/data/seats_short (NOTE.md) with A's review demand raised from
+    # 1.0 to 2.0 FTE a quarter: A's 2 seats hold a3 and a4 (who may not go on detail or
+    # relocate), 1.0 + 0.5 = 1.5 FTE, so A is 0.5 short in each of 2027-Q1..Q4 however the
+    # plan goes (no office may hire: offices.csv); a5 is reassigned in Q1 and a1, a2 are
+    # detailed out in all four quarters, as before: 2 x 4 = 8 person-periods, each in a
+    # quarter where A is short and its seats are full.
+    import shutil
+
+    folder = _short_at(Path(shutil.copytree(SEATS_SHORT, tmp_path / "short")), ("A",))
+    result = _solved(str(folder))
+    assert result.plan is not None
+    coverage = result.plan.coverage
+    short = coverage[coverage["shortfall_fte"] > 1e-6]
+    assert set(short["office"]) == {"A"} and abs(short["shortfall_fte"].sum() - 2.0) < 1e-6
+    assert _at_cap(result)["short_yet_away"] == {("A", q) for q in QUARTERS}
+    text = ("A is short of staff yet sends people out on detail (8 person-periods): its seats "
+            "are full, and a person away frees a seat for a hire or a colleague")
+    console = format_summary(result)
+    block = console[console.index(LIMITS_TITLE):].split("\n\n")[0]
+    assert all(len(line) <= LINE_CHARS for line in block.splitlines()), block
+    assert f"    {SHORT_YET_AWAY}  " in block
+    assert " ".join(block.split()).endswith(f"{SHORT_YET_AWAY} {text}")  # the last line
+    assert f"{SHORT_YET_AWAY}: {text}" in _page(result)  # the page's At a glance
+    assert _summary_rows(result, tmp_path)[SHORT_YET_AWAY] == text  # and the workbook
+
+
+def test_several_offices_short_yet_sending_people_out_share_one_line(tmp_path):
+    # Hand count as above, once for each of the first two copies of A in the many-offices
+    # instance (their demand raised to 2.0): each is 0.5 short in all 4 quarters with 2
+    # people out, 8 person-periods each; the other six copies keep a demand of 1.0 against
+    # 1.5 FTE seated and are not short, so they are not named.
+    offices = ("regional-casework-office-01", "regional-casework-office-02")
+    result = _solved(str(_short_at(_many_seats_short(tmp_path / "many"), offices)))
+    assert result.plan is not None
+    line = next(line for line in limits_at_cap(result.instance, result.plan)
+                if line.kind == "short_yet_away")
+    assert line.text == (
+        f"{offices[0]} (8 person-periods) and {offices[1]} (8) are short of staff yet send "
+        "people out on detail: their seats are full, and a person away frees a seat for a "
+        "hire or a colleague")
+    assert {where for where, _ in line.at_cap} == set(offices)
+    assert format_summary(result).count(SHORT_YET_AWAY) == 1
+
+
+def test_no_short_yet_away_line_where_the_office_is_not_short(tmp_path):
+    # Hand count from tests/data/seats_short as it is (NOTE.md): A's seats are full and a1, a2
+    # are detailed out in every quarter, but a3 + a4 seated give 1.5 FTE against A's demand
+    # of 1.0, so A is never short; B (10 seats) is not full.  tiny (NOTE.md): B is short in
+    # Q2-Q3 but sends no one out and its 6 seats are not full.
+    for result in (_solved(str(SEATS_SHORT)), _solved(str(TINY))):
+        assert result.plan is not None
+        assert "short_yet_away" not in _at_cap(result)
+        assert SHORT_YET_AWAY not in format_summary(result)
+        assert SHORT_YET_AWAY not in _page(result)

@@ -110,8 +110,8 @@ LIMITS_SAID = 3
 HELD_BACK_COLUMN = "held_back_by"
 
 
-def held_back_by(variant: Instance, plan: Plan, base: Plan | None,
-                 offices: Sequence[str], table: pd.DataFrame | None = None) -> str:
+def held_back_by(variant: Instance, table: pd.DataFrame, base: Plan | None,
+                 offices: Sequence[str]) -> str:
     """The limits the scenario's new shortfall at ``offices`` cites most (``reasons.csv``'s
     ``binding_limits`` of its plan), for ``scenarios.csv``: a planner's reading found the
     harbour surge's 19.9 FTE-periods left short explained only in the scenario's folder.
@@ -120,7 +120,8 @@ def held_back_by(variant: Instance, plan: Plan, base: Plan | None,
     skill and period.  A limit is its kind and office (a budget: its kind, every year
     together), ranked by the weight of the rows citing it; at most :data:`LIMITS_SAID`, as
     ``kind|where,where|period,period|fte`` joined by ``;`` (periods in horizon order).
-    ``table``: the plan's reasons table if already worked out (else worked out here)."""
+    ``table``: the scenario plan's reasons table (:func:`~rebalance.analysis.reasons.reasons`,
+    worked out once, as its folder's reasons.csv)."""
     before: dict[tuple[str, str, str], float] = {}
     if base is not None:
         c = base.coverage
@@ -128,8 +129,6 @@ def held_back_by(variant: Instance, plan: Plan, base: Plan | None,
                                   c["period"].astype(str), strict=True),
                               c["shortfall_fte"].astype(float), strict=True):
             before[key] = before.get(key, 0.0) + short
-    if table is None:
-        table = reasons(variant, plan).table
     rows = table[(table["action"] == "shortfall") & table["office"].astype(str).isin(offices)]
     weight: dict[tuple[str, str], float] = {}
     wheres: dict[tuple[str, str], set[str]] = {}
@@ -301,8 +300,8 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
                 actions += found
                 summary = action_summary(base_plan, result.plan, instance.period_names,
                                          changed[name], offices_of[name])
-                summary[HELD_BACK_COLUMN] = held_back_by(variant, result.plan, base_plan,
-                                                         offices_of[name], explained[name])
+                summary[HELD_BACK_COLUMN] = held_back_by(variant, explained[name], base_plan,
+                                                         offices_of[name])
             c = result.plan.costs
             for year, kind, cost in zip(c["year"].astype(str), c["kind"].astype(str),
                                         c["cost"].astype(float), strict=True):

@@ -12,6 +12,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from rebalance import options_from_instance, read_instance
+from rebalance.analysis.reasons import reasons
 from rebalance.analysis.scenario_files import (
     DemandChange,
     Scenario,
@@ -211,7 +212,8 @@ def test_each_scenario_line_says_where_demand_landed_how_much_is_covered_and_the
 
     keys = action_summary(base, rush, tiny.period_names, (0, 1, 2, 3), ("B",))
     assert {k: row[k] for k in keys} == keys
-    assert row["held_back_by"] == held_back_by(comparison.results[1].instance, rush, base,
+    rushed = comparison.results[1].instance
+    assert row["held_back_by"] == held_back_by(rushed, reasons(rushed, rush).table, base,
                                                ("B",))
     assert "; moves for it: " in line
 
@@ -222,8 +224,8 @@ def test_each_plan_says_its_salaries_after_the_horizon_as_the_plan_page_does(tin
     # after it, harbour's 1,440,000 and storm's 1,472,000 (the plan pages' figures).
     from analysis_helpers import exact_options
 
+    from rebalance.planning import plan_run_rate
     from rebalance.report.analysis_words import scenario_lines
-    from rebalance.report.limits_view import plan_run_rate
 
     surge = Scenario("b-rush", "review rush at B",
                      (DemandChange(("B",), ("review",), None, add_fte=1.5),))
@@ -515,9 +517,10 @@ def test_held_back_by_ranks_the_limits_the_new_shortfall_cites(tiny) -> None:
     # Both cite the 2027 hiring budget (28,000 of 40,000 spent; the cheapest further hire,
     # intake from 2027-Q4, costs 5,000 + 15,000); 2027-Q4 also A's away share (1 of 3 away,
     # 50%) and B's one hiring slot then.  Ties: by kind.
-    assert held_back_by(variant, mine, base, ("B",)) == (
+    explained = reasons(variant, mine).table
+    assert held_back_by(variant, explained, base, ("B",)) == (
         "hiring_budget|2027||1.5;away_share|A|2027-Q4|0.5;max_hires|B|2027-Q4|0.5")
-    assert held_back_by(variant, mine, base, ("A",)) == ""  # A's shortfall is the base's
+    assert held_back_by(variant, explained, base, ("A",)) == ""  # A's shortfall is the base's
 
 
 def test_compare_works_out_each_plans_reasons_once(tmp_path: Path, monkeypatch) -> None:

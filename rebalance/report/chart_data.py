@@ -14,10 +14,9 @@ import pandas as pd
 
 from rebalance.numbers import NEAR_ZERO, fte_total_text, number_rule
 from rebalance.plan import BUDGET_LINES
-from rebalance.planning import new_position_salaries
 from rebalance.report.inputs import ReportData
 
-__all__ = ["chart_payload", "new_position_salaries", "records", "spare_capacity"]
+__all__ = ["chart_payload", "records", "spare_capacity"]
 
 
 def records(frame: pd.DataFrame) -> list[dict[str, Any]]:

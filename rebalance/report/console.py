@@ -25,15 +25,19 @@ from rebalance.numbers import (
     with_currency,
 )
 from rebalance.plan import BUDGET_LINES
-from rebalance.planning import BUILD_STAGE, CAUTION, PlanResult
+from rebalance.planning import (
+    BUILD_STAGE,
+    CAUTION,
+    PlanResult,
+    plan_run_rate,
+    run_rate_note,
+    run_rate_warning,
+)
 from rebalance.report.limits_view import (
     LIMITS_LEAD,
     LIMITS_TITLE,
     SHORT_YET_AWAY,
     limits_at_cap,
-    plan_run_rate,
-    run_rate_note,
-    run_rate_warning,
 )
 from rebalance.report.words import outcome_words, plain_status, readable
 from rebalance.solve import StageResult, Status

@@ -6,10 +6,9 @@ as SVG by the script when the page opens; each chart marks itself drawn (``data-
 browser test can tell a blank page from a finished one.
 
 Python's part is aggregation only: sums of plan tables by office, period and skill, worked
-out in :mod:`rebalance.report.chart_data` (``new_position_salaries`` and ``spare_capacity``
-are re-exported here for callers that imported them from this module); which limits the plan
-has at their cap, and the salaries after the horizon against the last hiring cap, come from
-:mod:`rebalance.report.limits_view`.  The plan itself is never recomputed here.
+out in :mod:`rebalance.report.chart_data`; which limits the plan has at their cap come from
+:mod:`rebalance.report.limits_view`, and the salaries after the horizon against the last
+hiring cap from :mod:`rebalance.planning`.  The plan itself is never recomputed here.
 """
 
 from __future__ import annotations
@@ -30,11 +29,17 @@ from rebalance.numbers import (
     seconds_text,
     share_text,
 )
-from rebalance.planning import BUILD_STAGE
+from rebalance.planning import (
+    BUILD_STAGE,
+    new_position_salaries,
+    plan_run_rate,
+    run_rate_consequence,
+    run_rate_note,
+    run_rate_warning,
+)
 from rebalance.report import analysis_charts, analysis_view
 from rebalance.report.chart_data import (
     chart_payload,
-    new_position_salaries,
     records,
     spare_capacity,
 )
@@ -55,14 +60,10 @@ from rebalance.report.limits_view import (
     LIMITS_TITLE,
     LimitLine,
     limits_at_cap,
-    plan_run_rate,
-    run_rate_consequence,
-    run_rate_note,
-    run_rate_warning,
 )
 from rebalance.report.words import ATTRITION_NOTE, expects_attrition, outcome_words
 
-__all__ = ["new_position_salaries", "render_html", "spare_capacity", "write_html"]
+__all__ = ["render_html", "write_html"]
 
 # Longer tables are cut in the page (the CSV files and plan.xlsx hold every row), so an
 # agency-sized plan still opens quickly.

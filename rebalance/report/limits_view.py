@@ -23,19 +23,10 @@ from rebalance.analysis.limits import LIMIT_NAMES, LimitUse, limit_use
 from rebalance.instance import Instance
 from rebalance.numbers import money_amount, money_text, number_text
 from rebalance.plan import Plan
-from rebalance.planning import (
-    RunRate,
-    plan_run_rate,
-    run_rate_consequence,
-    run_rate_note,
-    run_rate_warning,
-)
 from rebalance.verify import unknown_names
 
 __all__ = ["DETAILS_AT_LIMIT", "LIMITS_LEAD", "LIMITS_TITLE", "SHORT_YET_AWAY", "LimitLine",
-           "RunRate", "limits_at_cap",
-           "period_spans", "plan_run_rate", "run_rate_consequence", "run_rate_note",
-           "run_rate_warning"]
+           "limits_at_cap", "period_spans"]
 
 LIMITS_TITLE = "Limits the plan runs up against"
 # What a limit at its cap means for the plan, and where to learn what one more would buy:

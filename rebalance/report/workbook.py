@@ -40,6 +40,7 @@ from rebalance.numbers import (
     years_text,
 )
 from rebalance.plan import BUDGET_LINES, PLAN_TABLES
+from rebalance.planning import plan_run_rate, run_rate_warning
 from rebalance.report.analysis_charts import AMOUNT_COLUMNS, GRID_COLUMNS
 from rebalance.report.analysis_words import FROM_BASE_WORDS, gap_caution
 from rebalance.report.chart_data import spare_capacity
@@ -50,8 +51,6 @@ from rebalance.report.limits_view import (
     LIMITS_LEAD,
     LIMITS_TITLE,
     limits_at_cap,
-    plan_run_rate,
-    run_rate_warning,
 )
 from rebalance.report.scenario_notes import scenario_rows
 from rebalance.report.words import (

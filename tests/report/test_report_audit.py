@@ -16,7 +16,8 @@ from openpyxl import load_workbook
 from report_cases import TINY, page_text, tiny_plan_folder
 
 from rebalance import read_instance
-from rebalance.report.chart_data import _coverage_series, new_position_salaries, spare_capacity
+from rebalance.planning import new_position_salaries
+from rebalance.report.chart_data import _coverage_series, spare_capacity
 from rebalance.report.html import render_html
 from rebalance.report.htmlparts import frame_table_html
 from rebalance.report.inputs import report_data_from_folder

@@ -20,7 +20,7 @@ from report_cases import TINY, page_text
 
 from rebalance import read_instance
 from rebalance.instance import Budget
-from rebalance.planning import PlanResult
+from rebalance.planning import PlanResult, plan_run_rate, run_rate_note, run_rate_warning
 from rebalance.report.console import LINE_CHARS, fitted_lines, format_summary
 from rebalance.report.html import render_html
 from rebalance.report.inputs import report_data
@@ -29,9 +29,6 @@ from rebalance.report.limits_view import (
     SHORT_YET_AWAY,
     limits_at_cap,
     period_spans,
-    plan_run_rate,
-    run_rate_note,
-    run_rate_warning,
 )
 from rebalance.report.workbook import write_workbook
 

@@ -19,11 +19,11 @@ from rebalance.instance import Instance
 from rebalance.numbers import distinct_texts, figures, money_text, number_text, share_of
 from rebalance.plan import BUDGET_LINES, COST_KINDS, PLAN_TABLES, Plan, read_plan, records
 from rebalance.problems import did_you_mean
+from rebalance.verify_causes import link_knock_ons
 
 __all__ = ["NameKind", "Violation", "unknown_names", "verify_folder", "verify_plan"]
 
-ABS_TOL = 1e-6
-REL_TOL = 1e-6
+ABS_TOL = REL_TOL = 1e-6
 # Unknown names listed per table and column before the rest are counted.
 UNKNOWN_NAMES_LISTED = 5
 HAND_EDIT_SLIPS = 3  # unknown names in one column up to which each gets a suggestion
@@ -80,11 +80,11 @@ RULES: dict[str, tuple[str, str]] = {
 
 @dataclass(frozen=True)
 class Violation:
-    """One broken rule: ``rule`` (a code, see :data:`RULES`), ``where`` (what it concerns,
-    or a file and row), a message and the plan ``file`` it is about (and row, where one row
-    breaks it).  An ``unknown_reference`` also says which ``column`` of the plan names what
-    the instance lacks and which ``name_kind`` of name it should hold, so a caller can say
-    what is expected without reading the message back."""
+    """One broken rule: ``rule`` (a code, see :data:`RULES`), ``where`` (what it concerns, or a
+    file and row), a message and the plan ``file`` it is about (and row, where one row breaks
+    it).  An ``unknown_reference`` also says which ``column`` names what the instance lacks and
+    which ``name_kind`` of name it should hold, so a caller need not read the message back.  A
+    coverage figure only out of date because of an earlier violation ``follows`` it."""
 
     rule: str
     where: str
@@ -92,6 +92,7 @@ class Violation:
     column: str | None = None
     name_kind: NameKind | None = None
     file: str = ""
+    follows: Violation | None = None
 
     def __str__(self) -> str:
         """As a planner reads it: the file first (once), the rule in words last, no code."""
@@ -223,6 +224,7 @@ class _Checker:
         self._check_coverage()
         self._check_heads(home, away)
         self._check_costs()
+        self.violations = link_knock_ons(self.i, self.plan, self.violations, self.lines)
 
     # -- references ----------------------------------------------------------------------
     def _references_ok(self) -> bool:

@@ -431,3 +431,123 @@ def test_summary_figures_in_messages_follow_the_number_rule(tiny_plan, tmp_path)
     [violation] = verify_folder(instance, tmp_path / "plan")
     stated = good["shortfall_fte_periods"]
     assert violation.message == f"says {stated + 0.25:,.3f}; recomputed {stated:,.3f}"
+
+
+# -- coverage lines that follow from an earlier violation (a plan edited in one place) -------
+# Each case breaks one row by hand and leaves coverage.csv as the solver wrote it, as a planner
+# editing work.csv, details.csv or hires.csv would.  The figures are worked out by hand from
+# tests/data/tiny (its NOTE.md and the plan the tests solve; see each comment).
+
+
+def knock_ons(violations):
+    """(rule of the cause, coverage line, rule of the figure) for each linked figure."""
+    return sorted((v.follows.rule, v.file, v.rule) for v in violations if v.follows)
+
+
+def test_a_work_row_moved_to_another_office_shows_its_coverage_lines_under_it(tiny_plan):
+    # a1 is based at A and works 1.0 review there in 2027-Q1 (work.csv:2); moved to B, A's
+    # review row (coverage.csv:2, demand 1.0) loses 1.0 staff output: staff, covered,
+    # shortfall and weighted shortfall differ; B's (coverage.csv:7, demand 1.0, staff 1.0)
+    # gains 1.0, covered stays at its demand, so only staff output differs.
+    instance, result = tiny_plan
+    plan = result.plan
+    broken = replace(plan, work=plan.work.assign(office=["B", *plan.work["office"][1:]]))
+    found = verify_plan(instance, broken)
+    assert [v.rule for v in found if not v.follows] == ["work_location"]
+    assert knock_ons(found) == [("work_location", "coverage.csv:2", rule) for rule in (
+        "coverage_covered", "coverage_shortfall", "coverage_staff_output",
+        "coverage_weighted_shortfall")] + [
+        ("work_location", "coverage.csv:7", "coverage_staff_output")]
+    from rebalance.report import format_violations
+
+    head, cause, *under = format_violations(found).splitlines()
+    assert head == ("verification failed: 1 problem; 5 figures in 2 coverage.csv rows differ "
+                    "because of it and are shown under it")
+    assert cause.startswith("  - work.csv:2: person a1 in 2027-Q1: works at B but is at A")
+    assert under == [
+        "      so coverage.csv:2: review at A in 2027-Q1: staff_output_fte 1 but recomputed 0, "
+        "and covered_fte, shortfall_fte and weighted_shortfall with it",
+        "      so coverage.csv:7: review at B in 2027-Q1: staff_output_fte 1 but recomputed 2"]
+
+
+def test_more_fte_than_a_person_has_shows_its_coverage_line_under_it(tiny_plan):
+    # a3 has 0.5 FTE (staff.csv) and works 0.5 intake at A in 2027-Q1; given 1.0, A's intake
+    # row (coverage.csv:6, demand 0.5) gets 1.0 staff output, covered staying at 0.5.
+    instance, result = tiny_plan
+    work = result.plan.work.copy()
+    work.loc[7, ["fte", "output_fte"]] = 1.0
+    found = verify_plan(instance, replace(result.plan, work=work))
+    assert [v.rule for v in found if not v.follows] == ["work_capacity"]
+    assert knock_ons(found) == [("work_capacity", "coverage.csv:6", "coverage_staff_output")]
+
+
+def test_a_detail_while_absent_shows_the_coverage_line_of_its_work_under_it(tiny_plan):
+    # b1 leaves after 2027-Q3 (staff.csv last_period); detailed to A in 2027-Q4 with 1.0
+    # review there, A's review row (coverage.csv:5, demand 1.0, staff 1.0) gets 2.0.  The
+    # detail row comes first, so the line is shown under it; the detail's cost, not in
+    # costs.csv, stays a problem of its own.
+    instance, result = tiny_plan
+    plan = result.plan
+    broken = replace(plan, details=add_rows(plan.details, detail("b1", "2027-Q4", "B", "A")),
+                     work=add_rows(plan.work, {"person": "b1", "period": "2027-Q4",
+                                               "office": "A", "skill": "review", "fte": 1.0,
+                                               "output_fte": 1.0}))
+    found = verify_plan(instance, broken)
+    assert knock_ons(found) == [("detail_present", "coverage.csv:5", "coverage_staff_output")]
+    assert {"detail_present", "work_capacity", "costs"} <= {v.rule for v in found
+                                                             if not v.follows}
+
+
+def test_a_hire_count_edited_shows_its_hire_output_line_under_it(tiny_plan):
+    # One review hire at B from 2027-Q4 (ramp 0.5, skills.csv) made two: B's review row in
+    # 2027-Q4 (coverage.csv:10) has hire output 1.0, not 0.5; its onboarding cost no longer
+    # matches, the first problem of that hires.csv row.
+    instance, result = tiny_plan
+    broken = replace(result.plan, hires=result.plan.hires.assign(count=2))
+    found = verify_plan(instance, broken)
+    assert knock_ons(found) == [("hire_cost", "coverage.csv:10", "coverage_hire_output")]
+
+
+def test_coverage_differences_with_no_cause_stay_problems_of_their_own(tiny_plan):
+    # Beside a moved work row (first case above), three coverage rows edited by hand:
+    # coverage.csv:3 covered 0.5 -> 0.4 (no longer min(demand, output): the row disagrees
+    # with itself); coverage.csv:5 staff 1.0 -> 1.2 in 2027-Q4, where no one is flagged;
+    # coverage.csv:6 staff 0.5 -> 3.0, more than a3 (0.6 of 0.5 FTE, flagged) could bring.
+    instance, result = tiny_plan
+    plan = result.plan
+    work = plan.work.assign(office=["B", *plan.work["office"][1:]])
+    work.loc[7, ["fte", "output_fte"]] = 0.6
+    coverage = plan.coverage.copy()
+    coverage.loc[1, "covered_fte"] = 0.4
+    coverage.loc[3, "staff_output_fte"] = 1.2
+    coverage.loc[4, "staff_output_fte"] = 3.0
+    found = verify_plan(instance, replace(plan, work=work, coverage=coverage))
+    alone = sorted((v.file, v.rule) for v in found if not v.follows and
+                   v.file.startswith("coverage"))
+    assert alone == [("coverage.csv:3", "coverage_covered"),
+                     ("coverage.csv:5", "coverage_staff_output"),
+                     ("coverage.csv:6", "coverage_staff_output")]
+    assert {v.file for v in found if v.follows} == {"coverage.csv:2", "coverage.csv:7"}
+
+
+def test_verify_on_a_plan_folder_counts_problems_and_knock_ons_and_exits_as_failed(
+        tiny_plan, tmp_path, capsys):
+    # `rebalance verify` end to end on a folder (exit 6, cli.py's docstring): one work row
+    # moved, as in the first case; every violation is still there to count and print.
+    from conftest import DATA
+
+    from rebalance.cli import main
+
+    instance, result = tiny_plan
+    write_outputs(result, tmp_path / "plan")
+    path = tmp_path / "plan" / "work.csv"
+    work = pd.read_csv(path)
+    work.loc[0, "office"] = "B"
+    work.to_csv(path, index=False)
+    assert len(verify_folder(instance, tmp_path / "plan")) == 6
+    assert main(["verify", str(DATA / "tiny"), str(tmp_path / "plan")]) == 6
+    out = capsys.readouterr().out.splitlines()
+    assert out[0].startswith("verification failed: 1 problem; 5 figures in 2 coverage.csv rows")
+    assert [line.split(": ")[0] for line in out[1:]] == [
+        f"  - {path}:2", f"      so {tmp_path / 'plan' / 'coverage.csv'}:2",
+        f"      so {tmp_path / 'plan' / 'coverage.csv'}:7"]

@@ -449,8 +449,38 @@ def format_frame(frame: pd.DataFrame, currency: str | None = None) -> str:
 
 
 def format_violations(violations: Sequence[Violation]) -> str:
+    """The head line, then a line a problem; a coverage.csv row only out of date because of
+    an earlier problem (:attr:`Violation.follows`) is shown under it, one line a row, not as
+    a problem of its own (a moved work row had read as nine problems)."""
     if not violations:
         return "verification passed: every rule and total checks out"
-    lines = [f"verification failed: {counted(len(violations), 'problem')}"]
-    lines += [f"  - {v}" for v in violations]
+    under: dict[int, dict[str, list[Violation]]] = {}  # cause's place -> file:row -> figures
+    place: dict[Violation, int] = {}
+    for ix, v in enumerate(violations):
+        place.setdefault(v, ix)
+    for v in violations:
+        if v.follows is not None and v.follows in place:
+            under.setdefault(place[v.follows], {}).setdefault(v.file, []).append(v)
+    knock_ons = sum(len(figures) for rows in under.values() for figures in rows.values())
+    problems = len(violations) - knock_ons
+    head = f"verification failed: {counted(problems, 'problem')}"
+    if knock_ons:
+        rows = sum(len(by_row) for by_row in under.values())
+        it = "it" if problems == 1 else "them"
+        head += (f"; {counted(knock_ons, 'figure')} in {counted(rows, 'coverage.csv row')} "
+                 f"differ because of {it} and are shown under "
+                 f"{'it' if problems == 1 else 'the one each follows from'}")
+    lines = [head]
+    for ix, v in enumerate(violations):
+        if v.follows is not None and v.follows in place:
+            continue
+        lines.append(f"  - {v}")
+        for file, (first, *rest) in under.get(ix, {}).items():
+            also = [other.message.split(" ", 1)[0] for other in rest]
+            tail = f", and {_listed(also)} with it" if also else ""
+            lines.append(f"      so {file}: {first.where}: {first.message}{tail}")
     return "\n".join(lines)
+
+
+def _listed(words: Sequence[str]) -> str:
+    return words[0] if len(words) == 1 else f"{', '.join(words[:-1])} and {words[-1]}"

@@ -1,0 +1,161 @@
+"""Which coverage lines of a verification follow from an earlier violation.
+
+A plan edited by hand in one place (a work row moved to another office, more FTE than a
+person has, a detail that may not be) leaves coverage.csv as it was: each coverage row the
+edit touches then differs from its recomputed figures in several columns, and each of those
+lines had read as one more problem.  Here such a line is linked to the violation it follows
+from (:attr:`~rebalance.verify.Violation.follows`), so a report can show it under that cause.
+
+A coverage line follows from a cause only where all of this holds, else it stays a problem
+of its own:
+
+- it is a figure downstream of work and hires (staff or hire output, covered, shortfall,
+  weighted shortfall), and its row agrees with itself: covered, shortfall and weighted
+  shortfall are what its own demand, priority and outputs give (a row edited by hand does
+  not, and is its own problem);
+- a changed staff output has a flagged person in that period whose output can reach the
+  office (they work there, are based there, or are detailed or reassigned from or to it)
+  in that skill, and the change is no more than those people can bring: proficiency x the
+  larger of their available FTE and the FTE work.csv gives them;
+- a changed hire output has a flagged hires.csv row of that office and skill started by
+  then (no bound: the row's count may be what was edited).
+"""
+
+from __future__ import annotations
+
+import re
+from collections import defaultdict
+from collections.abc import Callable, Sequence
+from dataclasses import replace
+from pathlib import PurePath
+from typing import TYPE_CHECKING, Any
+
+from rebalance.instance import Instance
+from rebalance.plan import Plan, records
+
+if TYPE_CHECKING:
+    from rebalance.verify import Violation
+
+__all__ = ["KNOCK_ON_RULES", "link_knock_ons"]
+
+# Coverage figures recomputed from work and hires: the ones an edit of those tables moves.
+KNOCK_ON_RULES = frozenset(f"coverage_{column}" for column in (
+    "staff_output", "hire_output", "covered", "shortfall", "weighted_shortfall"))
+PERSON_TABLES = ("work", "details", "reassignments")
+TOL = 1e-6  # absolute and relative, as the verifier's own comparisons
+LINE = re.compile(r":(\d+)$")
+
+
+def _close(a: float, b: float) -> bool:
+    return abs(a - b) <= TOL + TOL * max(abs(a), abs(b))
+
+
+def _line(v: Violation) -> int | None:
+    found = LINE.search(v.file)
+    return None if found is None else int(found.group(1))
+
+
+def _table(v: Violation) -> str:
+    """The plan table a violation's file is ("work" for ``plans/a/work.csv:7``)."""
+    return PurePath(LINE.sub("", v.file)).name.removesuffix(".csv")
+
+
+def link_knock_ons(instance: Instance, plan: Plan, violations: Sequence[Violation],
+                   lines: Callable[[str], list[int]]) -> list[Violation]:
+    """``violations`` with each coverage line that follows from an earlier one marked so
+    (its ``follows`` set to that violation, the first where several apply).
+
+    ``lines`` gives each row's line in its file, as the verifier numbered them.
+    """
+    if not any(v.rule in KNOCK_ON_RULES for v in violations):
+        return list(violations)  # the usual case, a plan that passes: no work for nothing
+    rows: dict[str, dict[int, Any]] = {
+        table: dict(zip(lines(table), records(plan.table(table)), strict=True))
+        for table in (*PERSON_TABLES, "hires", "coverage")}
+    period_ix = {name: t for t, name in enumerate(instance.period_names)}
+    people = {p.person: p for p in instance.staff}
+    fte_of: dict[tuple[str, int], float] = defaultdict(float)  # work.csv's FTE a person-period
+    staff: dict[tuple[str, str, int], float] = defaultdict(float)  # output an office-skill-period
+    for row in rows["work"].values():
+        t = period_ix[row.period]
+        fte_of[(row.person, t)] += float(row.fte)
+        staff[(row.office, row.skill, t)] += float(row.fte) * people[row.person].proficiency(
+            row.skill)
+    # Offices a person's output may have been at or gone to, each period.
+    reach: dict[tuple[str, int], set[str]] = defaultdict(set)
+    for row in rows["work"].values():
+        reach[(row.person, period_ix[row.period])].add(row.office)
+    for row in rows["details"].values():
+        reach[(row.person, period_ix[row.period])] |= {row.from_office, row.to_office}
+    for row in rows["reassignments"].values():
+        for t in range(period_ix[row.period], len(instance.periods)):
+            reach[(row.person, t)] |= {row.from_office, row.to_office}
+
+    # The person-periods and hire rows each non-coverage violation is about.
+    by_where = {f"person {name} in {instance.period_names[t]}": (name, t)
+                for (name, t) in fte_of}
+    person_causes: dict[tuple[str, int], int] = {}  # the first violation of each
+    hire_causes: list[tuple[int, str, str, int]] = []
+    for ix, v in enumerate(violations):
+        table, line = _table(v), _line(v)
+        found: list[tuple[str, int]] = []
+        if table in PERSON_TABLES and line is not None and line in rows[table]:
+            row = rows[table][line]
+            t = period_ix[row.period]
+            last = len(instance.periods) if table == "reassignments" else t + 1
+            found = [(row.person, s) for s in range(t, last)]
+        elif v.rule == "work_capacity" and v.where in by_where:
+            found = [by_where[v.where]]
+        elif table == "hires" and line is not None and line in rows["hires"]:
+            row = rows["hires"][line]
+            hire_causes.append((ix, row.office, row.skill, period_ix[row.start_period]))
+        for key in found:
+            person_causes.setdefault(key, ix)
+
+    flagged: dict[int, set[str]] = defaultdict(set)
+    for v in violations:
+        if v.rule.startswith("coverage_") and (line := _line(v)) is not None:
+            flagged[line].add(v.rule)
+    causes_in: dict[int, list[tuple[str, int]]] = defaultdict(list)  # period -> person, cause
+    for (name, t), ix in person_causes.items():
+        causes_in[t].append((name, ix))
+    cause_of: dict[int, int] = {}
+    for line, rules in flagged.items():
+        row = rows["coverage"].get(line)
+        if (row is None or not rules <= KNOCK_ON_RULES or not _agrees(row)
+                or str(row.period) not in period_ix):
+            continue
+        office, skill, t = row.office, row.skill, period_ix[str(row.period)]
+        causes: list[int] = []
+        if "coverage_staff_output" in rules:
+            near = [(name, ix) for name, ix in causes_in[t]
+                    if office in reach[(name, t)] | {people[name].home_office}
+                    and people[name].proficiency(skill) > 0]
+            most = sum(people[name].proficiency(skill) * max(
+                fte_of[(name, t)], instance.available_fte(people[name], t)) for name, _ in near)
+            change = abs(staff[(office, skill, t)] - float(row.staff_output_fte))
+            if not near or change > most + TOL:
+                continue
+            causes += [ix for _, ix in near]
+        if "coverage_hire_output" in rules:
+            hired = [ix for ix, o, s, start in hire_causes
+                     if (o, s) == (office, skill) and start <= t]
+            if not hired:
+                continue
+            causes += hired
+        if causes:  # a row whose outputs agree differs only in figures edited by hand
+            cause_of[line] = min(causes)
+    return [replace(v, follows=violations[cause_of[line]])
+            if v.rule in KNOCK_ON_RULES and (line := _line(v)) in cause_of else v
+            for v in violations]
+
+
+def _agrees(row: Any) -> bool:
+    """Whether a coverage row's covered and shortfall figures are those its own demand and
+    outputs give: then only its outputs are out of date."""
+    demand, output = float(row.demand_fte), float(row.staff_output_fte) + float(
+        row.hire_output_fte)
+    shortfall = max(0.0, demand - output)
+    return (_close(float(row.covered_fte), min(demand, output))
+            and _close(float(row.shortfall_fte), shortfall)
+            and _close(float(row.weighted_shortfall), float(row.priority) * shortfall))

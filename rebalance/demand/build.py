@@ -27,7 +27,7 @@ from rebalance.demand.history import (
 )
 from rebalance.demand.quality import QualityResult, check_quality
 from rebalance.demand.standards import EffortStandards, estimate_standards, forecast_noncase
-from rebalance.files import sibling_name, staged_folder
+from rebalance.files import OutputInUse, sibling_name, staged_folder
 from rebalance.instance import Period
 from rebalance.problems import Problem
 from rebalance.readers import read_tables
@@ -382,8 +382,12 @@ def _check_horizon(history: History, periods: tuple[Period, ...],
 def _write_csv_atomic(frame: pd.DataFrame, path: Path) -> Path:
     """Write to a temporary file beside ``path``; the caller renames it into place."""
     tmp = sibling_name(path)
-    # Ten significant digits keep volume x hours_per_case = hours exact to well under 0.01 h.
-    frame.to_csv(tmp, index=False, float_format="%.10g")
+    try:
+        # Ten significant digits keep volume x hours_per_case = hours exact to well under 0.01 h.
+        frame.to_csv(tmp, index=False, float_format="%.10g")
+    except BaseException:
+        tmp.unlink(missing_ok=True)  # begun, say, before a full disk stopped it
+        raise
     return tmp
 
 
@@ -392,16 +396,21 @@ def write_demand(result: DemandResult, instance_dir: str | Path,
     """Write demand.csv and demand_trace.csv into the instance and the report folder.
 
     Each file is written whole to a temporary name first; the report folder is swapped in at
-    once.  Returns the report folder.
+    once.  Returns the report folder.  A folder that cannot be written (no permission, a full
+    disk) raises :class:`~rebalance.files.OutputInUse`, the command line's refused output,
+    with nothing written: it had ended as an internal error.
     """
     folder = Path(instance_dir)
     report = Path(report_dir) if report_dir is not None else folder / "demand_report"
     demand = result.demand.copy()
     demand["hours"] = demand["hours"].map("{:.2f}".format)
-    staged = [(_write_csv_atomic(demand, folder / "demand.csv"), folder / "demand.csv")]
+    staged: list[tuple[Path, Path]] = []
+    writing = folder  # what a failed write is said of: the folder written into, not a temporary
     try:
+        staged.append((_write_csv_atomic(demand, folder / "demand.csv"), folder / "demand.csv"))
         staged.append((_write_csv_atomic(result.trace, folder / "demand_trace.csv"),
                        folder / "demand_trace.csv"))
+        writing = report
         with staged_folder(report) as tmp:
             q = result.quality
             result.backtest.to_csv(tmp / "backtest.csv", index=False, float_format="%.4f")
@@ -423,9 +432,13 @@ def write_demand(result: DemandResult, instance_dir: str | Path,
                 tmp / "qc_flagged_records.csv", index=False, float_format="%.3f")
             q.coverage.to_csv(tmp / "qc_coverage.csv", index=False, float_format="%.4f")
             (tmp / "qc_verdict.txt").write_text(q.verdict + "\n", encoding="utf-8")
-    except BaseException:
+    except BaseException as exc:
         for tmp_path, _ in staged:
             tmp_path.unlink(missing_ok=True)
+        if isinstance(exc, OSError):
+            reason = exc.strerror or type(exc).__name__
+            raise OutputInUse(f"{writing}: cannot be written ({reason}); nothing was "
+                              "written") from None
         raise
     for tmp_path, target in staged:
         os.replace(tmp_path, target)

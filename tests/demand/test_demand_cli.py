@@ -274,3 +274,31 @@ def test_work_the_demand_leaves_out_is_said_and_a_series_of_no_cases_takes_the_p
     row = table[(table["office"] == "aldercombe") & (table["case_type"] == "minor_permit")]
     assert len(row) and (row["weight"] == 0).all()
     assert (row["hours_per_case"] - row["pooled_hours_per_case"]).abs().max() < 1e-9
+
+
+@pytest.mark.parametrize("refused", ["demand_trace.csv", "demand_report"])
+def test_an_output_folder_that_cannot_be_written_is_a_refused_output_with_nothing_written(
+        refused: str, tmp_path: Path, monkeypatch: pytest.MonkeyPatch,
+        capsys: pytest.CaptureFixture[str]) -> None:
+    # OUT there but not writable had ended as "internal error: PermissionError", exit 1; a
+    # refused output is exit 2 (README, exit codes).  The session runs as root, which chmod
+    # does not stop, so the write itself raises what the system would (errno 13, EACCES, as
+    # open(2) documents for a folder without write permission).  demand_trace.csv: the
+    # second file, with demand.csv already staged beside it; demand_report: the report's
+    # folder, after both.
+    out = _instance_without_demand(tmp_path / "instance")
+    before = sorted(p.name for p in out.iterdir())
+    write = pd.DataFrame.to_csv
+
+    def to_csv(frame: pd.DataFrame, path: object = None, *args: object, **kwargs: object) -> object:
+        if isinstance(path, Path) and refused in str(path):
+            raise PermissionError(13, "Permission denied", str(path))
+        return write(frame, path, *args, **kwargs)  # type: ignore[call-overload]
+
+    monkeypatch.setattr(pd.DataFrame, "to_csv", to_csv)
+    assert main(["demand", str(DEMO_HISTORY), "-o", str(out)]) == EXIT_USAGE
+    err = capsys.readouterr().err
+    said = out / "demand_report" if refused == "demand_report" else out
+    assert f"{said}: cannot be written (Permission denied); nothing was written" in err, err
+    assert "internal error" not in err and ".tmp" not in err
+    assert sorted(p.name for p in out.iterdir()) == before  # no temporary left behind either

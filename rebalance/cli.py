@@ -317,6 +317,40 @@ def cmd_generate(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+def cmd_workbook(args: argparse.Namespace) -> int:
+    from rebalance.workbook_writer import folder_to_workbook, sheet_rows
+
+    out = Path(args.out)
+    # Refused before the folder is read, as other outputs are before a solve.
+    refused = ""
+    if Path(args.folder).suffix.lower() == ".xlsx":
+        refused = f"{args.folder}: is a workbook already; expected an instance folder"
+    elif out.suffix.lower() != ".xlsx":
+        refused = f"{out}: expected a file name ending in .xlsx (check and plan read only those)"
+    elif out.is_dir():
+        refused = f"{out}: is a folder; expected a workbook file"
+    elif out.exists() and not args.force:
+        refused = f"{out}: already exists; give --force to replace it"
+    if refused:
+        _err(f"{refused}; nothing was written")
+        return EXIT_USAGE
+    # Only a valid instance is copied: the book would fail check just as the folder does.
+    instance = _load(args.folder)
+    if instance is None:
+        return EXIT_INVALID_INPUT
+    for warning in instance.warnings:
+        _err(f"warning: {warning}")
+    try:
+        folder_to_workbook(args.folder, out)
+    except OSError as exc:  # a file where a folder on the way should be, no permission
+        _err(f"{out}: cannot be written ({exc.strerror or exc}); nothing was written")
+        return EXIT_USAGE
+    rows = sheet_rows(out)
+    print(f"wrote {out}: {len(rows)} sheets ({', '.join(rows)}), "
+          f"{sum(rows.values()):,} rows below their column names")
+    return EXIT_OK
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(
         prog="rebalance",
@@ -400,6 +434,12 @@ def build_parser() -> argparse.ArgumentParser:
                        help=f"{text}; {span} (default {getattr(knobs, name):g})")
     p.add_argument("--force", action="store_true", help="replace OUT if it exists")
     p.set_defaults(run=cmd_generate)
+
+    p = sub.add_parser("workbook", help="copy a valid instance folder into one .xlsx workbook")
+    p.add_argument("folder", help="instance folder (it is checked first, as check does)")
+    p.add_argument("-o", "--out", required=True, help="workbook to write, ending in .xlsx")
+    p.add_argument("--force", action="store_true", help="replace OUT if it exists")
+    p.set_defaults(run=cmd_workbook)
     add_analysis_commands(sub)
     return parser
 

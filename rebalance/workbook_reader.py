@@ -1,20 +1,19 @@
-"""Read a whole instance from one ``.xlsx`` workbook, and write an instance folder as one.
+"""Read a whole instance from one ``.xlsx`` workbook (:mod:`rebalance.workbook_writer` writes
+an instance folder as one).
 
 A workbook holds one sheet per table of the folder format, with the same columns as the CSV
 files, plus a ``settings`` sheet of ``key | value`` rows and an optional ``periods`` sheet (see
 ``docs/instance-format.md``, section *Instance as one workbook*).  Cells are turned into text and
 handed to :func:`rebalance.readers.build_instance`, so a workbook is validated by exactly the
-rules a folder is; only the labels differ: every problem names ``book.xlsx[sheet]``, the row as
-the spreadsheet shows it and the column.
+rules a folder is; only the labels differ: every problem names ``book.xlsx[Sheet]`` (the sheet as
+the book spells its name), the row as the spreadsheet shows it and the column.
 """
 
 from __future__ import annotations
 
-import csv
 import datetime as dt
 import math
 import re
-import tomllib
 import zipfile
 from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass, replace
@@ -36,13 +35,16 @@ from rebalance.readers import (
 from rebalance.settings_reader import SETTINGS_KEYS
 from rebalance.tables import RawTable
 from rebalance.workbook_layout import Layout, sheet_layout, sheet_parts
+from rebalance.workbook_writer import (
+    NUMBER,
+    PERIOD_COLUMNS,
+    PERIODS_SHEET,
+    SETTINGS_SHEET,
+    folder_to_workbook,
+)
 
+# folder_to_workbook lives in rebalance.workbook_writer; it stays importable from here.
 __all__ = ["SETTINGS_KEYS", "folder_to_workbook", "read_workbook"]
-
-SETTINGS_SHEET = "settings"
-PERIODS_SHEET = "periods"
-PERIOD_COLUMNS = ("name", "year", "hours_per_fte")
-_NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
 # Columns that hold period names, by sheet: text, never a date.
 _PERIOD_CELLS = {"demand": ("period",), "staff": ("last_period",), PERIODS_SHEET: ("name",)}
 # Columns that hold budget years (names such as 2027 or FY27): never a date either.
@@ -75,15 +77,20 @@ def read_workbook(path: str | Path) -> Instance:
     if not book_path.is_file():
         raise InstanceError([Problem(book, None, None, "workbook not found")])
     try:
-        sheets, problems = _load_sheets(book_path)
+        sheets, titles, problems = _load_sheets(book_path)
     except Exception as exc:  # openpyxl raises many kinds for a file that is not a workbook
         raise InstanceError([Problem(book, None, None,
                                      f"cannot be read as an .xlsx workbook ({exc})")]) from None
 
-    def label(sheet: str) -> str:
-        return f"{book}[{sheet}]"
+    def title(sheet: str) -> str:
+        # As the book spells it: "staff" in a message about a sheet named "Staff" had sent a
+        # planner looking for a sheet that is not there.
+        return titles.get(sheet, sheet)
 
-    problems = [replace(p, file=label(p.file)) for p in problems]
+    def label(sheet: str) -> str:
+        return f"{book}[{title(sheet)}]"
+
+    problems = [replace(p, file=f"{book}[{p.file}]") for p in problems]
     for name, read in sheets.items():
         for row, column in read.unsaved_formulas:
             # Blank would mean "no limit" in several columns: never read it as that.
@@ -123,10 +130,19 @@ def read_workbook(path: str | Path) -> Instance:
 
     settings: dict[str, Any] = {}
     key_rows: dict[str, int] = {}
+    dates: dict[str, dt.date] = {}
     if SETTINGS_SHEET in sheets:
-        settings, key_rows = _settings(sheets[SETTINGS_SHEET], label(SETTINGS_SHEET), problems)
+        settings, key_rows, dates = _settings(sheets[SETTINGS_SHEET], label(SETTINGS_SHEET),
+                                              problems)
     else:
-        problems.append(Problem(label(SETTINGS_SHEET), None, None, "sheet is missing"))
+        problems.append(Problem(label(SETTINGS_SHEET), None, None, "sheet is missing; expected "
+                                "a sheet named settings with columns key and value, one "
+                                "setting per row, such as horizon.start, horizon.count and "
+                                "horizon.hours_per_fte"))
+    # With no settings to read, every setting reads as missing: the sheet's own problem says
+    # it once (a missing sheet had drawn a second line, "horizon: give either periods ...").
+    settings_read = SETTINGS_SHEET in sheets and {"key", "value"} <= {
+        c.lower() for c in sheets[SETTINGS_SHEET].columns}
     if PERIODS_SHEET in sheets:
         _periods(sheets[PERIODS_SHEET], label(PERIODS_SHEET), settings, problems)
 
@@ -135,11 +151,18 @@ def read_workbook(path: str | Path) -> Instance:
     try:
         instance = build_instance(name, settings, tables, problems)
     except InstanceError as exc:
-        said = [_relabel(p, book, key_rows, periods_sheet) for p in exc.problems]
-        raise InstanceError([p for p in said if merged.get((p.file, p.row, p.column),
-                                                           p.message) == p.message]) from None
-    warnings = tuple(str(_relabel(p, book, key_rows, periods_sheet)) for p in problems
-                     if p.is_warning)
+        def kept(source: Problem, said: Problem) -> bool:
+            if merged.get((said.file, said.row, said.column), said.message) != said.message:
+                return False  # said once already, as a merged or a date cell
+            # A setting of a sheet that could not be read is said by the sheet's problem.
+            return settings_read or source.file != "settings.toml" or (
+                said.file != label(SETTINGS_SHEET))
+
+        said = [(p, _relabel(p, book, title, key_rows, dates, periods_sheet))
+                for p in exc.problems]
+        raise InstanceError([p for source, p in said if kept(source, p)]) from None
+    warnings = tuple(str(_relabel(p, book, title, key_rows, dates, periods_sheet))
+                     for p in problems if p.is_warning)
     return instance.with_changes(warnings=warnings)
 
 
@@ -147,9 +170,10 @@ def read_workbook(path: str | Path) -> Instance:
 # cells and sheets
 
 
-def _load_sheets(path: Path) -> tuple[dict[str, _Sheet], list[Problem]]:
-    """The sheets by their names as the reader knows them (trimmed, lower case), and the
-    problems of the book as a whole (``Problem.file`` holds the sheet's own title)."""
+def _load_sheets(path: Path) -> tuple[dict[str, _Sheet], dict[str, str], list[Problem]]:
+    """The sheets by their names as the reader knows them (trimmed, lower case), their titles
+    as the book spells them, and the problems of the book as a whole (``Problem.file`` holds
+    the sheet's own title)."""
     from openpyxl import load_workbook  # imported here: only workbook users pay for it
 
     # read_only streams rows; data_only gives a formula's cached value, not its text, so the
@@ -161,6 +185,7 @@ def _load_sheets(path: Path) -> tuple[dict[str, _Sheet], list[Problem]]:
     try:
         parts = sheet_parts(archive)
         out: dict[str, _Sheet] = {}
+        titles: dict[str, str] = {}
         for ws, ws_text in zip(wb.worksheets, formulas.worksheets, strict=True):
             # The part of the first sheet of this title not yet taken (a file may repeat one).
             part = next((p for t, p in parts if t == ws.title), None)
@@ -171,6 +196,7 @@ def _load_sheets(path: Path) -> tuple[dict[str, _Sheet], list[Problem]]:
                                         "(names are read trimmed and in lower case); expected "
                                         "one sheet per table"))
                 continue
+            titles[key] = ws.title
             # Read-only mode trusts the used range a file states; a file whose stated range is
             # too small had lost rows and columns silently (openpyxl's documentation warns of
             # it, and spreadsheet programs read every cell).
@@ -215,7 +241,7 @@ def _load_sheets(path: Path) -> tuple[dict[str, _Sheet], list[Problem]]:
                 continue
             out[key] = _sheet(header, values, ws_text.iter_rows(values_only=True),
                               layout.merges, used)
-        return out, problems
+        return out, titles, problems
     finally:
         wb.close()
         formulas.close()
@@ -387,7 +413,7 @@ def _typed(value: Any) -> Any:
     """A settings cell as TOML would type it: whole numbers as int, numeric text as a number."""
     if isinstance(value, str):
         text = value.strip()
-        if _NUMBER.match(text):
+        if NUMBER.match(text):
             value = float(text)
         elif text.lower() in ("true", "false"):
             return text.lower() == "true"
@@ -401,17 +427,19 @@ def _typed(value: Any) -> Any:
 
 
 def _settings(sheet: _Sheet, label: str, problems: list[Problem]) -> tuple[
-        dict[str, Any], dict[str, int]]:
-    """Nested settings from ``key | value`` rows, and the sheet row of each key."""
+        dict[str, Any], dict[str, int], dict[str, dt.date]]:
+    """Nested settings from ``key | value`` rows, the sheet row of each key, and the value of
+    each key whose cell holds a date (a date or a datetime)."""
     settings: dict[str, Any] = {}
     key_rows: dict[str, int] = {}
+    dates: dict[str, dt.date] = {}
     columns = [c.lower() for c in sheet.columns]
     for needed in ("key", "value"):
         if needed not in columns:
             problems.append(Problem(label, 1, needed, "required column is missing (the "
                                     "settings sheet has columns key, value and optional note)"))
     if "key" not in columns or "value" not in columns:
-        return settings, key_rows
+        return settings, key_rows, dates
     key_at, value_at = columns.index("key"), columns.index("value")
     for i, cells in enumerate(sheet.raw_rows):
         row_number = i + 2
@@ -436,7 +464,9 @@ def _settings(sheet: _Sheet, label: str, problems: list[Problem]) -> tuple[
             continue  # blank value: the default applies, as when a key is left out of TOML
         section, _, name = key.partition(".")
         settings.setdefault(section, {})[name] = _typed(value)
-    return settings, key_rows
+        if isinstance(value, dt.date):  # a datetime is a date too
+            dates[key] = value
+    return settings, key_rows, dates
 
 
 def _periods(sheet: _Sheet, label: str, settings: dict[str, Any],
@@ -460,108 +490,60 @@ def _periods(sheet: _Sheet, label: str, settings: dict[str, Any],
         horizon["periods"] = listed
 
 
-def _relabel(problem: Problem, book: str, key_rows: Mapping[str, int],
+def _relabel(problem: Problem, book: str, title: Callable[[str], str],
+             key_rows: Mapping[str, int], dates: Mapping[str, dt.date],
              periods_sheet: bool = False) -> Problem:
-    """Rename a problem that :func:`build_instance` located in a folder's files."""
-    message = _sheet_words(problem.message, periods_sheet)
+    """Rename a problem that :func:`build_instance` located in a folder's files; ``title``
+    gives a sheet's name as the book spells it."""
+    message = _sheet_words(problem.message, title, periods_sheet)
     file = problem.file
     if file == "settings.toml":
         key = problem.column or ""
         period = _PERIOD_KEY.match(key)
         if period is not None:
             # horizon.periods[i] is the i-th period row (1-based), so sheet row i + 1.
-            return Problem(f"{book}[{PERIODS_SHEET}]", int(period.group(1)) + 1,
+            return Problem(f"{book}[{title(PERIODS_SHEET)}]", int(period.group(1)) + 1,
                            period.group(2) or "name", message, problem.is_warning)
         if key == "horizon.periods":
-            return Problem(f"{book}[{PERIODS_SHEET}]", None, None, message, problem.is_warning)
+            return Problem(f"{book}[{title(PERIODS_SHEET)}]", None, None, message,
+                           problem.is_warning)
+        message = _date_words(message, dates.get(key))
         if key in key_rows:
-            return Problem(f"{book}[{SETTINGS_SHEET}]", key_rows[key], "value",
+            return Problem(f"{book}[{title(SETTINGS_SHEET)}]", key_rows[key], "value",
                            f"{key}: {message}", problem.is_warning)
-        return Problem(f"{book}[{SETTINGS_SHEET}]", None, "key",
+        return Problem(f"{book}[{title(SETTINGS_SHEET)}]", None, "key",
                        f"{key}: {message}" if key else message, problem.is_warning)
     if file.endswith(".csv") and file.removesuffix(".csv") in COLUMNS:
-        file = f"{book}[{file.removesuffix('.csv')}]"
+        file = f"{book}[{title(file.removesuffix('.csv'))}]"
     return replace(problem, file=file, message=message)
 
 
-def _sheet_words(message: str, periods_sheet: bool) -> str:
+# What the settings reader adds to a horizon.start that is not a quarter: true of a cell that
+# holds a date, not of one that holds text ('2027Q1' had drawn it too).
+_DATE_HINT = " (a spreadsheet reads 2027-01-01 typed in a cell as a date)"
+
+
+def _date_words(message: str, day: dt.date | None) -> str:
+    """A settings message as it fits the cell: the hint about dates only where the cell holds
+    one, and that value shown as the date the cell shows, not as ISO text with a time."""
+    if day is None:
+        return message.replace(_DATE_HINT, "")
+    plain = day.date() if isinstance(day, dt.datetime) else day
+    shown = _text(plain if day == dt.datetime.combine(plain, dt.time()) else day)
+    if message.endswith(_DATE_HINT):  # horizon.start: said as a period cell's date is
+        return (f"the cell holds a date ({shown}), not a quarter; type the quarter as text, "
+                f"e.g. {plain.year}-Q{(plain.month - 1) // 3 + 1}{_DATE_HINT}")
+    return message.replace(f"'{day.isoformat()}' is ", f"the cell holds a date ({shown}), "
+                           "which is ", 1)
+
+
+def _sheet_words(message: str, title: Callable[[str], str], periods_sheet: bool) -> str:
     """'listed in offices.csv' reads 'listed in sheet offices' for a workbook."""
-    message = re.sub(r"\b(" + "|".join(COLUMNS) + r")\.csv\b", r"sheet \1", message)
+    message = re.sub(r"\b(" + "|".join(COLUMNS) + r")\.csv\b",
+                     lambda m: f"sheet {title(m.group(1))}", message)
     if periods_sheet:  # periods are named in their own sheet, not among the settings
-        message = message.replace("periods in settings.toml", f"periods in sheet {PERIODS_SHEET}")
-        message = message.replace("listed in settings.toml", f"listed in sheet {PERIODS_SHEET}")
-    return message.replace("settings.toml", f"sheet {SETTINGS_SHEET}")
-
-
-# --------------------------------------------------------------------------------------------
-# writing: an instance folder as one workbook (for planners who start from a folder)
-
-
-def folder_to_workbook(folder: str | Path, path: str | Path) -> Path:
-    """Copy an instance folder's files, cell for cell, into one workbook at ``path``.
-
-    The files are copied as written, not as validated, so the workbook reads back to the same
-    instance (and to the same problems, if the folder has any).  Numbers stay text-exact:
-    a cell holding ``0.15`` is stored as the number 0.15.
-    """
-    from openpyxl import Workbook
-    from openpyxl.styles import Font
-
-    source, target = Path(folder), Path(path)
-    settings_file = source / "settings.toml"
-    settings = tomllib.loads(settings_file.read_text(encoding="utf-8")) if (
-        settings_file.is_file()) else {}
-    wb = Workbook()
-    ws = wb.create_sheet(SETTINGS_SHEET)
-    wb.remove(wb.worksheets[0])  # the blank sheet a new workbook starts with
-    ws.append(["key", "value", "note"])
-    horizon = settings.get("horizon", {})
-    for key in SETTINGS_KEYS:
-        section, _, name = key.partition(".")
-        value = settings.get(section, {}).get(name)
-        if value is not None:
-            ws.append([key, value])
-    periods = horizon.get("periods") if isinstance(horizon, dict) else None
-    if periods:
-        ps = wb.create_sheet(PERIODS_SHEET)
-        ps.append(list(PERIOD_COLUMNS))
-        for entry in periods:
-            ps.append([entry.get(c) for c in PERIOD_COLUMNS])
-    for name in REQUIRED_TABLES + OPTIONAL_TABLES:
-        csv_path = source / f"{name}.csv"
-        if not csv_path.is_file():
-            continue
-        sheet = wb.create_sheet(name)
-        with csv_path.open(newline="", encoding="utf-8-sig") as handle:
-            reader = csv.reader(handle)
-            header = [h.strip() for h in next(reader, [])]
-            sheet.append(header)
-            for cells in reader:
-                sheet.append([_cell(c) if i < len(header) and header[i] in _NUMERIC_COLUMNS
-                              else (c.strip() or None) for i, c in enumerate(cells)])
-    for sheet in wb.worksheets:
-        for cell in sheet[1]:
-            cell.font = Font(bold=True)
-        sheet.freeze_panes = "A2"
-    target.parent.mkdir(parents=True, exist_ok=True)
-    wb.save(target)
-    return target
-
-
-# Columns stored as numbers; names, ids, years and periods stay text so "0042" keeps its zeros.
-_NUMERIC_COLUMNS = frozenset({
-    "seats", "max_hires_per_period", "salary_per_period", "onboarding_cost", "time_to_hire",
-    "fte", "hours", "priority", "hiring", "moves", "detail_cost_per_period",
-    "relocation_cost", "count", "annual_rate",
-})
-
-
-def _cell(text: str) -> Any:
-    """A numeric column's CSV text as a number cell (text it if it is not a number)."""
-    text = text.strip()
-    if text == "":
-        return None
-    if _NUMBER.match(text):
-        number = float(text)
-        return int(number) if number == int(number) and abs(number) < 1e15 else number
-    return text  # left as text, so the reader reports it exactly as the CSV reader would
+        message = message.replace("periods in settings.toml",
+                                  f"periods in sheet {title(PERIODS_SHEET)}")
+        message = message.replace("listed in settings.toml",
+                                  f"listed in sheet {title(PERIODS_SHEET)}")
+    return message.replace("settings.toml", f"sheet {title(SETTINGS_SHEET)}")

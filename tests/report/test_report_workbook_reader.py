@@ -377,9 +377,10 @@ def test_a_date_in_the_horizon_start_cell_points_at_its_row(tmp_path):
     with pytest.raises(InstanceError) as caught:
         read_workbook(book)
     text = [str(p) for p in caught.value.problems]
-    assert len(text) == 1 and text[0].startswith(f"tiny.xlsx[settings]:{row}: value: "
-                                                 "horizon.start: '2027-01-01T00:00:00' is not "
-                                                 "a quarter")
+    # Said as a date in a period column is, with the quarter the date falls in.
+    assert text == [f"tiny.xlsx[settings]:{row}: value: horizon.start: the cell holds a date "
+                    "(2027-01-01), not a quarter; type the quarter as text, e.g. 2027-Q1 (a "
+                    "spreadsheet reads 2027-01-01 typed in a cell as a date)"]
 
 
 def test_merged_cells_are_named_as_merged_not_just_empty(tmp_path):
@@ -625,3 +626,82 @@ def test_a_date_where_a_period_name_is_expected_is_one_problem_with_the_hint(tmp
     assert said == [("named.xlsx[periods]", row, "name", f"the cell holds a date (2027-"
                      f"{3 * row - 5:02d}-01), not a period name") for row in (2, 3, 4, 5)]
 
+
+
+def _edited_book(tmp_path, edit) -> list:
+    """The problems of tiny's workbook after ``edit(workbook)`` (an openpyxl Workbook)."""
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    edit(wb)
+    wb.save(book)
+    with pytest.raises(InstanceError) as caught:
+        read_workbook(book)
+    return list(caught.value.problems)
+
+
+def test_a_missing_settings_sheet_is_one_problem(tmp_path):
+    # It had drawn a second line, "key: horizon: give either periods = [...] or start ...",
+    # for the horizon the missing sheet would have held.
+    problems = _edited_book(tmp_path, lambda wb: wb.remove(wb["settings"]))
+    assert [str(p) for p in problems] == [
+        "tiny.xlsx[settings]: sheet is missing; expected a sheet named settings with columns "
+        "key and value, one setting per row, such as horizon.start, horizon.count and "
+        "horizon.hours_per_fte"]
+
+
+def test_a_settings_sheet_without_its_columns_draws_no_missing_settings(tmp_path):
+    def rename_columns(wb):
+        wb["settings"]["A1"], wb["settings"]["B1"] = "setting", "amount"
+
+    said = [(p.file, p.row, p.column) for p in _edited_book(tmp_path, rename_columns)
+            if not p.is_warning]
+    assert said == [("tiny.xlsx[settings]", 1, "key"), ("tiny.xlsx[settings]", 1, "value")]
+
+
+def test_a_start_typed_as_text_gets_no_hint_about_dates(tmp_path):
+    # '2027Q1' is text: the hint that a spreadsheet reads 2027-01-01 as a date does not fit
+    # it (a cell holds a date only where the file says so, ECMA-376 Part 1, 18.3.1.4 c: a
+    # number with a date format, or a cell of type d; openpyxl reads only those as datetime).
+    def start(value):
+        def edit(wb):
+            ws = wb["settings"]
+            ws.cell(_settings_row(ws, "horizon.start"), 2).value = value
+        return edit
+
+    (problem,) = _edited_book(tmp_path, start("2027Q1"))
+    assert problem.message == ("horizon.start: '2027Q1' is not a quarter; expected text such "
+                               'as "2027-Q1"')
+    # A date typed in a number's cell is shown as the date the cell shows, not as ISO text
+    # with a time ('1900-01-04T00:00:00' had read as if typed so).
+    import datetime
+
+    def count(wb):
+        ws = wb["settings"]
+        ws.cell(_settings_row(ws, "horizon.count"), 2).value = datetime.datetime(1900, 1, 4)
+
+    (problem,) = _edited_book(tmp_path, count)
+    assert problem.message == ("horizon.count: the cell holds a date (1900-01-04), which is "
+                               "not valid; expected a whole number from 1 to 400")
+
+
+def test_a_sheet_is_named_as_the_book_spells_it(tmp_path):
+    # Names are matched without regard to case (docs/instance-format.md; sheet names are
+    # unique ignoring case in a workbook, common practice of spreadsheet programs), but a
+    # message named "staff" for a sheet called "Staff".
+    def spell(wb):
+        for name, spelt in (("staff", "Staff"), ("offices", "OFFICES"), ("settings", "Settings")):
+            wb[name].title = "renaming"  # openpyxl refuses a title equal ignoring case
+            wb["renaming"].title = spelt
+        wb["Staff"]["B4"] = "nowhere"
+        ws = wb["Settings"]
+        ws.cell(_settings_row(ws, "policy.max_away_share"), 2).value = 2
+        wb.create_sheet("Notes")
+
+    problems = _edited_book(tmp_path, spell)
+    text = [str(p) for p in problems]
+    assert any(t.startswith("tiny.xlsx[Staff]:4: home_office: unknown office 'nowhere'; "
+                            "expected one listed in sheet OFFICES") for t in text), text
+    assert any(t.startswith("tiny.xlsx[Settings]:") and "policy.max_away_share" in t
+               for t in text), text
+    assert any(t.startswith("tiny.xlsx[Notes]: unknown sheet") for t in text), text
+    assert not any("[staff]" in t or "[settings]" in t or "[notes]" in t for t in text), text

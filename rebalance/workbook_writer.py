@@ -1,0 +1,119 @@
+"""Write an instance folder as one ``.xlsx`` workbook (for planners who start from a folder).
+
+The layout is the one :mod:`rebalance.workbook_reader` reads (``docs/instance-format.md``,
+section *Instance as one workbook*): a ``settings`` sheet of ``key | value`` rows, an optional
+``periods`` sheet, and one sheet per table with the CSV file's columns.  The names of those
+sheets live here, and the reader takes them from here.
+"""
+
+from __future__ import annotations
+
+import csv
+import os
+import re
+import tomllib
+from pathlib import Path
+from typing import Any
+
+from rebalance.files import sibling_name
+from rebalance.readers import OPTIONAL_TABLES, REQUIRED_TABLES
+from rebalance.settings_reader import SETTINGS_KEYS
+
+__all__ = ["NUMBER", "PERIODS_SHEET", "PERIOD_COLUMNS", "SETTINGS_SHEET", "folder_to_workbook",
+           "sheet_rows"]
+
+SETTINGS_SHEET = "settings"
+PERIODS_SHEET = "periods"
+PERIOD_COLUMNS = ("name", "year", "hours_per_fte")
+# A number as a CSV cell or a settings cell may spell it.
+NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
+
+
+def folder_to_workbook(folder: str | Path, path: str | Path) -> Path:
+    """Copy an instance folder's files, cell for cell, into one workbook at ``path``.
+
+    The files are copied as written, not as validated, so the workbook reads back to the same
+    instance (and to the same problems, if the folder has any).  Numbers stay text-exact:
+    a cell holding ``0.15`` is stored as the number 0.15.
+    """
+    from openpyxl import Workbook
+    from openpyxl.styles import Font
+
+    source, target = Path(folder), Path(path)
+    settings_file = source / "settings.toml"
+    settings = tomllib.loads(settings_file.read_text(encoding="utf-8")) if (
+        settings_file.is_file()) else {}
+    wb = Workbook()
+    ws = wb.create_sheet(SETTINGS_SHEET)
+    wb.remove(wb.worksheets[0])  # the blank sheet a new workbook starts with
+    ws.append(["key", "value", "note"])
+    horizon = settings.get("horizon", {})
+    for key in SETTINGS_KEYS:
+        section, _, name = key.partition(".")
+        value = settings.get(section, {}).get(name)
+        if value is not None:
+            ws.append([key, value])
+    periods = horizon.get("periods") if isinstance(horizon, dict) else None
+    if periods:
+        ps = wb.create_sheet(PERIODS_SHEET)
+        ps.append(list(PERIOD_COLUMNS))
+        for entry in periods:
+            ps.append([entry.get(c) for c in PERIOD_COLUMNS])
+    for name in REQUIRED_TABLES + OPTIONAL_TABLES:
+        csv_path = source / f"{name}.csv"
+        if not csv_path.is_file():
+            continue
+        sheet = wb.create_sheet(name)
+        with csv_path.open(newline="", encoding="utf-8-sig") as handle:
+            reader = csv.reader(handle)
+            header = [h.strip() for h in next(reader, [])]
+            sheet.append(header)
+            for cells in reader:
+                sheet.append([_cell(c) if i < len(header) and header[i] in _NUMERIC_COLUMNS
+                              else (c.strip() or None) for i, c in enumerate(cells)])
+    for sheet in wb.worksheets:
+        for cell in sheet[1]:
+            cell.font = Font(bold=True)
+        sheet.freeze_panes = "A2"
+    # Whole or not at all: under a fresh name beside the target, then renamed into place.
+    target.parent.mkdir(parents=True, exist_ok=True)
+    tmp = sibling_name(target)
+    try:
+        wb.save(tmp)
+        os.replace(tmp, target)
+    except BaseException:
+        tmp.unlink(missing_ok=True)
+        raise
+    return target
+
+
+def sheet_rows(path: str | Path) -> dict[str, int]:
+    """The filled rows below the header of each sheet of the workbook at ``path``, by sheet
+    name in the book's order (read back from the file, not taken from what was meant)."""
+    from openpyxl import load_workbook
+
+    book = load_workbook(path, read_only=True)
+    try:
+        return {ws.title: sum(1 for cells in ws.iter_rows(min_row=2, values_only=True)
+                              if any(c is not None for c in cells)) for ws in book.worksheets}
+    finally:
+        book.close()
+
+
+# Columns stored as numbers; names, ids, years and periods stay text so "0042" keeps its zeros.
+_NUMERIC_COLUMNS = frozenset({
+    "seats", "max_hires_per_period", "salary_per_period", "onboarding_cost", "time_to_hire",
+    "fte", "hours", "priority", "hiring", "moves", "detail_cost_per_period",
+    "relocation_cost", "count", "annual_rate",
+})
+
+
+def _cell(text: str) -> Any:
+    """A numeric column's CSV text as a number cell (text it if it is not a number)."""
+    text = text.strip()
+    if text == "":
+        return None
+    if NUMBER.match(text):
+        number = float(text)
+        return int(number) if number == int(number) and abs(number) < 1e15 else number
+    return text  # left as text, so the reader reports it exactly as the CSV reader would

@@ -159,6 +159,9 @@ mode = "shortfall-first"
 name = "highs"
 time_limit_seconds = 55
 relative_gap = 0.01
+
+[report]
+title = "Fenmarch Regional Review Service, permit review 2027-2028"   # fictional
 """
 
 if __name__ == "__main__":

@@ -212,7 +212,9 @@ def _frozen(mapping: Mapping[Any, Any]) -> Mapping[Any, Any]:
 
 @dataclass(frozen=True)
 class Instance:
-    """A validated planning instance.  Periods are referred to by 0-based index."""
+    """A validated planning instance.  Periods are referred to by 0-based index.  ``name`` is
+    the folder's (or workbook's) name; ``title``, where settings give one (report.title),
+    heads the reports instead of it."""
 
     name: str
     periods: tuple[Period, ...]
@@ -232,6 +234,7 @@ class Instance:
     solver: SolverSettings = SolverSettings()
     money: Money = Money()
     warnings: tuple[str, ...] = ()
+    title: str | None = None
 
     def __post_init__(self) -> None:
         for name in ("move_costs", "vacancies", "attrition"):
@@ -244,6 +247,11 @@ class Instance:
     @property
     def period_names(self) -> tuple[str, ...]:
         return tuple(p.name for p in self.periods)
+
+    @property
+    def heading(self) -> str:
+        """What the reports are headed with: the title, else the folder's name."""
+        return self.title or self.name
 
     @property
     def years(self) -> tuple[str, ...]:

@@ -35,6 +35,7 @@ from rebalance.settings_reader import (
     read_money,
     read_periods,
     read_sections,
+    read_title,
     warn_unknown_settings,
 )
 from rebalance.tables import (
@@ -161,7 +162,7 @@ def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, 
         warn_unknown_settings(settings, settings_problems)
     periods, periods_per_year = read_periods(settings, settings_problems)
     policy, defaults, objective, solver = read_sections(settings, settings_problems)
-    money = read_money(settings, settings_problems)
+    money, title = read_money(settings, settings_problems), read_title(settings, settings_problems)
 
     def table(name: str) -> RawTable:
         # A missing file is already reported; read it as empty so other checks still run.
@@ -196,7 +197,7 @@ def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, 
         raise InstanceError(collapse_repeats([p for p in problems if not p.is_warning])
                             + [p for p in problems if p.is_warning])
     instance = Instance(
-        name=name,
+        name=name, title=title,
         periods=periods,
         periods_per_year=periods_per_year,
         offices=tuple(offices.values()),

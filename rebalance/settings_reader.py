@@ -1,5 +1,6 @@
 """Read the settings of an instance: horizon and periods, policy, move-cost defaults, objective,
-solver and money, from settings.toml (or a workbook's settings sheet, given as the same keys).
+solver, money and the reports' title, from settings.toml (or a workbook's settings sheet, given
+as the same keys).
 
 Every problem is collected, not just the first, each naming the dotted key it is about.
 """
@@ -20,6 +21,7 @@ __all__ = [
     "read_money",
     "read_periods",
     "read_sections",
+    "read_title",
     "warn_unknown_settings",
 ]
 
@@ -37,7 +39,7 @@ SETTINGS_KEYS = (
     "move_costs.same_location_relocation_cost",
     "objective.mode", "objective.shortfall_cost", "objective.shortfall_tolerance",
     "solver.name", "solver.time_limit_seconds", "solver.relative_gap", "solver.threads",
-    "solver.seed", "money.currency",
+    "solver.seed", "money.currency", "report.title",
 )
 PERIOD_KEYS = ("name", "year", "hours_per_fte")
 MAX_SHORTFALL_COST = 1e12
@@ -46,16 +48,19 @@ MAX_SHORTFALL_COST = 1e12
 def warn_unknown_settings(settings: Mapping[str, Any], problems: list[Problem]) -> None:
     """A warning for each setting nothing reads: a typo (``max_away_shares``) would otherwise
     leave the default in force without a word."""
-    def warn(key: str, what: str, expected: list[str]) -> None:
+    def warn(key: str, what: str, expected: list[str], hint: str = "") -> None:
         given = key.rpartition(".")[2]  # the key within its section, as ``expected`` lists it
         problems.append(Problem("settings.toml", None, key, f"unknown {what}, ignored (expected "
                                 "one of: " + ", ".join(expected) + ")"
-                                + did_you_mean(given, expected), is_warning=True))
+                                + (hint or did_you_mean(given, expected)), is_warning=True))
 
     sections = list(dict.fromkeys(key.partition(".")[0] for key in SETTINGS_KEYS))
     for section, table in settings.items():
         if section not in sections:
-            warn(section, "section", sections)
+            # A key of a section written above every section (title = "..." at the top).
+            owner = [k.partition(".")[0] for k in SETTINGS_KEYS if k.endswith("." + section)]
+            warn(section, "section", sections,
+                 f" (did you mean '{section}' under [{owner[0]}]?)" if owner else "")
             continue
         if not isinstance(table, dict):
             continue  # said by the reader of the section
@@ -320,3 +325,29 @@ def read_money(settings: Mapping[str, Any], problems: list[Problem]) -> Money:
             "characters without spaces, such as \"EUR\", \"USD\" or \"\u20ac\""))
         return Money()
     return Money(text)
+
+
+# A title heads the page and the workbook; past this it would wrap a heading over many lines.
+TITLE_MAX_CHARACTERS = 120
+
+
+def read_title(settings: Mapping[str, Any], problems: list[Problem]) -> str | None:
+    """The report section's title, the words the reports are headed with; None where none is
+    given (the folder's name heads them)."""
+    report = settings.get("report", {})
+    if not isinstance(report, dict):
+        problems.append(Problem("settings.toml", None, "report", "must be a table"))
+        return None
+    if "title" not in report:
+        return None
+    value = report["title"]
+    # A whole number is text to a reader (a workbook cell of 2027 reads as one), as a year is.
+    text = _period_text(report, "title") or ""
+    # One line of printable text (no tab or line break): it heads a page and a workbook cell.
+    if not (1 <= len(text) <= TITLE_MAX_CHARACTERS and text.isprintable()):
+        problems.append(Problem(
+            "settings.toml", None, "report.title",
+            f"{_shown(value)} is not valid; expected one line of text of 1 to "
+            f"{TITLE_MAX_CHARACTERS} characters, such as \"Permit review staffing\""))
+        return None
+    return text

@@ -729,3 +729,42 @@ def test_a_plan_folder_given_as_the_instance_is_said_to_be_one(tmp_path):
     assert [str(p) for p in caught.value.problems] == [
         f"{out}: is a plan folder this tool wrote, not an instance; expected the instance "
         "folder it was made from (summary.json's instance_path)"]
+
+
+def test_a_title_is_read_stripped_and_the_name_stays_the_folders(tmp_path):
+    # Common practice: a report is headed with the words its author gives, and the folder
+    # name stays the instance's name (summary.json and the CLI go by it).
+    target = overlay(BAD / "empty_demand", tmp_path / "i")
+    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    untitled = read_instance(target)
+    assert (untitled.name, untitled.title, untitled.heading) == ("i", None, "i")
+    settings = target / "settings.toml"
+    text = settings.read_text()
+    settings.write_text(text + '\n[report]\ntitle = "  Fenmarch permit review, 2027 "\n')
+    instance = read_instance(target)
+    assert instance.name == "i" and instance.title == "Fenmarch permit review, 2027"
+    assert instance.heading == instance.title and not instance.warnings
+    settings.write_text(text + "\n[report]\ntitle = 2027\n")  # a number is its text, as a year
+    assert read_instance(target).title == "2027"
+
+
+def test_every_bad_title_is_said_with_its_key_and_a_top_level_one_where_it_belongs(tmp_path):
+    target = overlay(BAD / "empty_demand", tmp_path / "i")
+    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    settings = target / "settings.toml"
+    text = settings.read_text()
+    expected = ("is not valid; expected one line of text of 1 to 120 characters, such as "
+                '"Permit review staffing"')
+    for given, shown in (('""', ""), ('"  "', "  "), ("20.5", "20.5"), ('"a\\nb"', "a\nb"),
+                         (f'"{"x" * 121}"', "x" * 121), ("true", "true")):
+        settings.write_text(text + f"\n[report]\ntitle = {given}\n")
+        assert _problems(target) == [f"settings.toml: report.title: '{shown}' {expected}"]
+    settings.write_text("report = 5\n" + text)
+    assert _problems(target) == ["settings.toml: report: must be a table"]
+    # Written above every section, as a top-level key: ignored, with where it belongs.
+    settings.write_text('title = "Permit review"\n' + text)
+    instance = read_instance(target)
+    assert instance.title is None
+    assert ("settings.toml: title: unknown section, ignored (expected one of: horizon, policy, "
+            "move_costs, objective, solver, money, report) (did you mean 'title' under "
+            "[report]?)") in instance.warnings

@@ -37,6 +37,8 @@ from rebalance.report.limits_view import (
     LIMITS_LEAD,
     LIMITS_TITLE,
     SHORT_YET_AWAY,
+    SHORT_YET_AWAY_LEAD,
+    caps_and_explained,
     limits_at_cap,
 )
 from rebalance.report.words import outcome_words, plain_status, readable
@@ -254,7 +256,10 @@ def _limit_lines(result: PlanResult) -> list[str]:
     width = max(len(line.words) for line in found)
     lines = [f"  {LIMITS_TITLE}: {LIMITS_LEAD[0]}", f"  {LIMITS_LEAD[1]}:"]
     indent = " " * (4 + width + 2)
-    for line in found:
+    caps, explained = caps_and_explained(found)
+    for line in (*caps, *explained):
+        if explained and line is explained[0]:  # names no cap: under words of its own
+            lines.append(f"  {SHORT_YET_AWAY_LEAD[:1].upper()}{SHORT_YET_AWAY_LEAD[1:]}:")
         # The offices short yet sending people out are one sentence, not "; "-separated
         # entries to count: the demo's four offices take a fourth line rather than be cut.
         texts = fitted_lines(line.text, line.total, LINE_CHARS - len(indent),

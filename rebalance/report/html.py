@@ -58,7 +58,9 @@ from rebalance.report.limits_view import (
     DETAILS_AT_LIMIT,
     LIMITS_LEAD,
     LIMITS_TITLE,
+    SHORT_YET_AWAY_LEAD,
     LimitLine,
+    caps_and_explained,
     limits_at_cap,
 )
 from rebalance.report.words import ATTRITION_NOTE, expects_attrition, outcome_words
@@ -160,17 +162,25 @@ def _headline(data: ReportData) -> str:
 
 
 def _limits_html(found: tuple[LimitLine, ...]) -> str:
-    """The limits the plan has at their cap, one item per kind (the console's lines)."""
+    """The limits the plan has at their cap, one item per kind (the console's lines), then
+    under words of their own any lines that explain a cap rather than name one."""
     if not found:
         return (f"<h3>{e(LIMITS_TITLE)}</h3>"
                 '<p class="quiet">None of the plan\'s limits is at its cap.</p>')
-    lead = (e(LIMITS_LEAD[0][:1].upper() + LIMITS_LEAD[0][1:]) + " "
-            + e(LIMITS_LEAD[1][:1].upper() + LIMITS_LEAD[1][1:]).replace(
-                "`rebalance marginal`", "<code>rebalance marginal</code>") + ".")
-    items = "".join(f"<li><strong>{e(line.words)}:</strong> {e(line.text)}</li>"
-                    for line in found)
-    return (f'<h3 id="limits">{e(LIMITS_TITLE)}</h3><p class="lead">{lead}</p>'
-            f'<ul class="limits">{items}</ul>')
+
+    def lead(*texts: str) -> str:
+        return ('<p class="lead">' + " ".join(e(t[:1].upper() + t[1:]) for t in texts).replace(
+            "`rebalance marginal`", "<code>rebalance marginal</code>") + "</p>")
+
+    def items(lines: tuple[LimitLine, ...]) -> str:
+        return '<ul class="limits">' + "".join(
+            f"<li><strong>{e(line.words)}:</strong> {e(line.text)}</li>" for line in lines
+        ) + "</ul>"
+
+    caps, explained = caps_and_explained(found)
+    return (f'<h3 id="limits">{e(LIMITS_TITLE)}</h3>' + lead(LIMITS_LEAD[0], LIMITS_LEAD[1] + ".")
+            + items(caps) + (lead(SHORT_YET_AWAY_LEAD + ":") + items(explained)
+                             if explained else ""))
 
 
 # Limits that hold people where they are (what can keep idle capacity from moving), by the
@@ -341,8 +351,9 @@ def _plan_titled(data: ReportData) -> Callable[[str, str], str]:
 
 def _page_heading(data: ReportData) -> tuple[str, str]:
     """What the page is, as (kicker, heading): a plain plan, a re-plan (from summary.json's
-    ``replan``) or a scenario comparison (a scenarios table beside the plan)."""
-    name = data.instance.name
+    ``replan``) or a scenario comparison (a scenarios table beside the plan).  The instance
+    goes by its title where settings give one (report.title), else by its folder's name."""
+    name = data.instance.heading
     replan = data.summary.replan
     if replan is not None:
         also = f", scenario {replan.scenario}" if replan.scenario else ""
@@ -457,7 +468,8 @@ def render_html(data: ReportData) -> str:
     words, tone = outcome_words(run.status, run.gap), STATUS_TONE.get(str(run.status), "fair")
     notes = "".join(f'<p class="note">{e(n)}</p>' for n in (*quality_notes(data), *data.notes))
     kicker, heading = _page_heading(data)
-    title = f"{heading} · {inst.name}" if heading != inst.name else f"Staffing plan: {heading}"
+    title = (f"{heading} · {inst.heading}" if heading != inst.heading
+             else f"Staffing plan: {heading}")
     return f"""<!DOCTYPE html>
 <html lang="en">
 <head>
@@ -543,6 +555,7 @@ def _run_details(data: ReportData) -> str:
         return "-" if value is None else seconds_text(value)
 
     facts = [
+        ("instance", data.instance.name),  # the folder's name, which a title stands in for
         ("solver", run.solver_version or run.solver or "-"),
         ("objective", run.objective_mode or "-"),
         ("outcome", outcome_words(run.status, run.gap)),

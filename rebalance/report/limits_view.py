@@ -10,7 +10,9 @@ flags an overrun, inside its private checker) exposes how close a plan comes to 
 salaries and their warning are :mod:`rebalance.planning`'s (summary.json carries the
 warning too), re-exported here for the reports.  Last comes a line for offices short of
 staff that still send their own people out on detail while their seats are full: the reasons
-explain it detail by detail, but the summary had left leaders to ask.
+explain it detail by detail, but the summary had left leaders to ask.  That line names no cap
+(it says what one does), so it stands apart, under words of its own
+(:data:`SHORT_YET_AWAY_LEAD`): :data:`LIMITS_LEAD` speaks of the caps alone.
 """
 
 from __future__ import annotations
@@ -25,8 +27,9 @@ from rebalance.numbers import money_amount, money_text, number_text
 from rebalance.plan import Plan
 from rebalance.verify import unknown_names
 
-__all__ = ["DETAILS_AT_LIMIT", "LIMITS_LEAD", "LIMITS_TITLE", "SHORT_YET_AWAY", "LimitLine",
-           "limits_at_cap", "period_spans"]
+__all__ = ["DETAILS_AT_LIMIT", "LIMITS_LEAD", "LIMITS_TITLE", "SHORT_YET_AWAY",
+           "SHORT_YET_AWAY_LEAD", "LimitLine", "caps_and_explained", "limits_at_cap",
+           "period_spans"]
 
 LIMITS_TITLE = "Limits the plan runs up against"
 # What a limit at its cap means for the plan, and where to learn what one more would buy:
@@ -49,6 +52,9 @@ KIND_WORDS = (*((kind, LIMIT_NAMES[kind]) for kind in (
 # Offices short of staff yet sending people out, listed after the limits: no cap of its own,
 # but what full seats do to a short office, which a reader would otherwise take for a fault.
 SHORT_YET_AWAY = "away while short"
+# Its own lead: under LIMITS_LEAD ("each is at its cap, so more of it could help") it had read
+# as one more cap.
+SHORT_YET_AWAY_LEAD = "not a cap, but what full seats do to an office short of staff"
 # Shortfall below this (FTE) is rounding, as the console's shortfall by office takes it.
 SHORT_FTE = 1e-6
 
@@ -172,6 +178,15 @@ def _short_yet_away(plan: Plan, seats: Sequence[LimitUse]) -> LimitLine | None:
     return LimitLine("short_yet_away", SHORT_YET_AWAY, text, tuple(pairs), total)
 
 
+def caps_and_explained(found: Sequence[LimitLine]) -> tuple[tuple[LimitLine, ...],
+                                                              tuple[LimitLine, ...]]:
+    """``found`` (:func:`limits_at_cap`'s lines) as the limits at their cap, which
+    :data:`LIMITS_LEAD` introduces, and the lines that explain one rather than name one,
+    which :data:`SHORT_YET_AWAY_LEAD` introduces."""
+    return (tuple(line for line in found if line.kind != "short_yet_away"),
+            tuple(line for line in found if line.kind == "short_yet_away"))
+
+
 def _vacancies_used(plan: Plan) -> float:
     """Hires the plan fills funded vacancies with, in all."""
     hires = plan.hires
@@ -180,7 +195,8 @@ def _vacancies_used(plan: Plan) -> float:
 
 def limits_at_cap(instance: Instance, plan: Plan) -> tuple[LimitLine, ...]:
     """Each kind of limit that ``plan`` has at its cap somewhere, in :data:`KIND_WORDS`'s
-    order.  A limit counts where it binds (less is left than one more seat, hire, head away,
+    order, then any offices short yet sending people out (:func:`caps_and_explained` parts
+    them).  A limit counts where it binds (less is left than one more seat, hire, head away,
     vacancy or priced action) and the plan uses some of it: a cap of nothing (an office that
     may not hire, a share letting no one of a small office go) is a rule the plan was given,
     not one it ran up against.  None for a plan naming what the instance lacks (a plan of

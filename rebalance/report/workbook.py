@@ -50,6 +50,8 @@ from rebalance.report.inputs import ReportData, quality_notes
 from rebalance.report.limits_view import (
     LIMITS_LEAD,
     LIMITS_TITLE,
+    SHORT_YET_AWAY_LEAD,
+    caps_and_explained,
     limits_at_cap,
 )
 from rebalance.report.scenario_notes import scenario_rows
@@ -147,10 +149,8 @@ def write_workbook(data: ReportData, path: str | Path) -> Path:
 
     target = Path(path)
     sheets: list[tuple[str, pd.DataFrame]] = [(n, data.plan.table(n)) for n in PLAN_TABLES]
-    for name in ("frontier", "scenarios", "marginal_values"):
-        frame = getattr(data, name)
-        if frame is not None:
-            sheets.append((name, frame))
+    sheets += [(name, frame) for name in ("frontier", "scenarios", "marginal_values")
+               if (frame := getattr(data, name)) is not None]
     sheets.extend(data.tables)
     # A table longer than a worksheet is cut, and the summary says so first: failing here
     # would lose the whole plan folder for one sheet that the CSV files hold in full.
@@ -223,9 +223,7 @@ class _Styles:
 
 
 def _cell_value(value: Any) -> Any:
-    if value is None:
-        return None
-    if isinstance(value, float) and math.isnan(value):
+    if value is None or (isinstance(value, float) and math.isnan(value)):
         return None
     if hasattr(value, "item"):  # numpy scalars
         return _cell_value(value.item())
@@ -266,9 +264,8 @@ def _column_values(column: pd.Series) -> list[Any]:
     if isinstance(column.dtype, np.dtype) and column.dtype.kind in "biuf" and \
             np.isfinite(column.to_numpy(dtype=float)).all():
         return column.tolist()  # plain numbers, none missing: the common case, kept fast
-    missing = column.isna().tolist()
-    return [None if gone else _cell_value(v) for v, gone in zip(column.tolist(), missing,
-                                                                strict=True)]
+    return [None if gone else _cell_value(v)
+            for v, gone in zip(column.tolist(), column.isna().tolist(), strict=True)]
 
 
 def _fit_widths(ws: Any, columns: Sequence[str], frame: pd.DataFrame | None = None,
@@ -454,8 +451,8 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
         if note:
             ws.write_string(row, 2, note)
 
-    ws.write_string(next(rows), 0, f"Staffing plan for {instance.name}", styles.title)
-    ws.write_string(next(rows), 0,
+    ws.write_string(next(rows), 0, f"Staffing plan for {instance.heading}", styles.title)
+    ws.write_string(next(rows), 0, (f"instance {instance.name}: " if instance.title else "") +
                     f"{len(instance.periods)} periods, {instance.periods[0].name} to "
                     f"{instance.periods[-1].name}; {len(instance.offices)} offices, "
                     f"{len(instance.staff)} staff; written "
@@ -512,13 +509,18 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
     line("reassignments", len(plan.reassignments), WHOLE)
 
     band(LIMITS_TITLE)
-    found = limits_at_cap(instance, plan)
+    caps, explained = caps_and_explained(limits_at_cap(instance, plan))
     # The console's backticks mark a command to type; a cell has no such marks.
     ws.write_string(next(rows), 0, " ".join(
-        text[:1].upper() + text[1:] for text in LIMITS_LEAD).replace("`", "") + "." if found else
+        text[:1].upper() + text[1:] for text in LIMITS_LEAD).replace("`", "") + "." if caps else
         "None of the plan's limits is at its cap.")
-    for limit in found:
+    for limit in caps:
         line(limit.words, limit.text)
+    if explained:  # lines explaining a cap rather than naming one: under their own lead
+        ws.write_string(next(rows), 0, SHORT_YET_AWAY_LEAD[:1].upper() + SHORT_YET_AWAY_LEAD[1:]
+                        + ":")
+        for limit in explained:
+            line(limit.words, limit.text)
 
     band("Spending against budget")
     header_row = next(rows)

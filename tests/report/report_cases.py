@@ -148,7 +148,7 @@ def demo_slice() -> Instance:
         return None if cap is None else round(cap * share, -3)
 
     return demo.with_changes(
-        name="demo-slice", periods=periods,
+        name="demo-slice", title=None, periods=periods,
         offices=tuple(o for o in demo.offices if o.name in keep),
         staff=tuple(p for p in demo.staff if p.home_office in keep),
         demand=tuple(d for d in demo.demand if d.office in keep and d.period < len(periods)),

@@ -7,6 +7,7 @@ skips these tests; in CI (CI=true) a missing browser is a failure, not a skip.
 
 from __future__ import annotations
 
+import itertools
 import os
 import shutil
 import tempfile
@@ -378,3 +379,81 @@ def test_the_frontier_axis_starts_near_its_data_and_writes_each_value(browser, t
     assert found["values"] == ["175.457", "168.592", "165.805"]
     assert "hiring budget (times each year's cap)" in found["titles"]
     assert found["rings"] == 0 and "knee" not in found["titles"]
+
+
+PERIOD_LABELS = """
+return Array.from(document.querySelectorAll('.chart')).filter(
+    c => ['coverage', 'heat', 'hires'].includes(c.dataset.chart)).map(c => {
+  const svgs = Array.from(c.querySelectorAll('svg'));
+  return {kind: c.dataset.chart, charts: svgs.map(s => {
+    const box = s.viewBox.baseVal;
+    const labels = Array.from(s.querySelectorAll('text.period')).map(t => {
+      const b = t.getBBox();
+      return {text: t.textContent, left: b.x, right: b.x + b.width};
+    });
+    return {step: Number(s.dataset.periodStep), labels: labels, width: box.width};
+  })};
+});
+"""
+
+
+def _period_labels(browser, page: Path) -> list[dict]:
+    assert _open(browser, page) == []
+    return browser.execute_script(PERIOD_LABELS)
+
+
+def _check_period_labels(charts: list[dict], periods: list[str]) -> None:
+    """Each chart names periods as the tables do, every step-th from the first, apart."""
+    assert sorted(c["kind"] for c in charts) == ["coverage", "heat", "hires"]
+    for chart in charts:
+        for drawn in chart["charts"]:
+            step, labels = drawn["step"], drawn["labels"]
+            assert [label["text"] for label in labels] == periods[::step], chart["kind"]
+            for before, after in itertools.pairwise(labels):
+                assert after["left"] - before["right"] >= 4, (chart["kind"], before, after)
+            assert all(label["left"] >= 0 and label["right"] <= drawn["width"] + 0.5
+                       for label in labels), (chart["kind"], labels)
+
+
+def test_charts_name_each_period_as_the_tables_do(browser):
+    # The tables, cards and CSV files name a period "2027-Q1" (settings.toml, horizon.start;
+    # rebalance/settings_reader.py); the charts had written "Q1 '27".  The demo slice's four
+    # quarters leave room for every name on each chart.
+    charts = _period_labels(browser, demo_slice_folder() / "report.html")
+    _check_period_labels(charts, ["2027-Q1", "2027-Q2", "2027-Q3", "2027-Q4"])
+    assert {d["step"] for c in charts for d in c["charts"]} == {1}
+
+
+def test_a_long_horizon_labels_fewer_periods_rather_than_shorten_their_names(browser,
+                                                                             tmp_path):
+    # tiny's page with its chart data stretched to 24 quarters (each period's figures
+    # repeated): a coverage panel is 340 px wide (report.js), too narrow for 24 names.
+    import json
+
+    from report_cases import page_payload
+
+    page = (tiny_plan_folder() / "report.html").read_text(encoding="utf-8")
+    payload = page_payload(page)
+    periods = [f"{year}-Q{q}" for year in range(2027, 2033) for q in range(1, 5)]
+
+    def stretched(values: list) -> list:
+        return [values[i % len(values)] for i in range(len(periods))]
+
+    coverage, heat, hires = payload["coverage"], payload["heat"], payload["hires"]
+    for series in coverage["series"]:
+        for key, values in series.items():
+            if isinstance(values, list):
+                series[key] = stretched(values)
+    heat["cells"] = [stretched(row) for row in heat["cells"]]
+    hires["counts"] = [stretched(row) for row in hires["counts"]]
+    for part in (coverage, heat, hires):
+        part["periods"] = periods
+    start = page.index('id="report-data">') + len('id="report-data">')
+    end = page.index("</script>", start)
+    path = tmp_path / "report.html"
+    path.write_text(page[:start] + json.dumps(payload).replace("</", "<\\/") + page[end:],
+                    encoding="utf-8")
+    charts = _period_labels(browser, path)
+    _check_period_labels(charts, periods)
+    steps = {c["kind"]: {d["step"] for d in c["charts"]} for c in charts}
+    assert all(step > 1 for step in steps["coverage"]), steps

@@ -358,3 +358,30 @@ def test_the_work_and_capacity_section_says_why_a_persons_fte_shrinks():
             "in the work table (work.csv, the work sheet) shrinks over the horizon.") in capacity
     # Without attrition (tiny as it is, no attrition.csv) there is nothing to explain.
     assert "expected attrition" not in _page(tiny_plan_folder())
+
+
+def test_a_titled_instance_heads_the_page_and_the_workbook_and_still_names_its_folder(
+        tmp_path):
+    # Common practice: a report is headed with the title its author gives (settings.toml,
+    # report.title), and says which input it was made from (the folder's name, tiny).
+    from openpyxl import load_workbook
+
+    from rebalance.report.workbook import write_workbook
+
+    title = "Fenmarch permit review, 2027"  # fictional
+    instance = read_instance(TINY).with_changes(title=title)
+    data = report_data_from_folder(tiny_plan_folder(), instance)
+    page = render_html(data)
+    assert f"<title>Staffing plan: {title}</title>" in page
+    assert re.findall(r"<h1>(.*?)</h1>", page) == [title]
+    assert "<dt>instance</dt><dd>tiny</dd>" in page  # the run's details
+    sheet = load_workbook(write_workbook(data, tmp_path / "plan.xlsx"))["summary"]
+    assert sheet["A1"].value == f"Staffing plan for {title}"
+    assert str(sheet["A2"].value).startswith("instance tiny: 4 periods, 2027-Q1 to 2027-Q4")
+    # A scenario's plan of it: the kicker and <title> name the instance by its title too.
+    folder = _copy(tmp_path)
+    summary = json.loads((folder / "summary.json").read_text())
+    (folder / "summary.json").write_text(json.dumps({**summary, "scenario": "b-surge"}))
+    page = render_html(report_data_from_folder(folder, instance))
+    assert f"<title>Scenario b-surge · {title}</title>" in page
+    assert f'<p class="kicker">Staffing plan · {title}</p>' in page

@@ -25,8 +25,10 @@ from rebalance.report.console import LINE_CHARS, fitted_lines, format_summary
 from rebalance.report.html import render_html
 from rebalance.report.inputs import report_data
 from rebalance.report.limits_view import (
+    LIMITS_LEAD,
     LIMITS_TITLE,
     SHORT_YET_AWAY,
+    SHORT_YET_AWAY_LEAD,
     limits_at_cap,
     period_spans,
 )
@@ -335,6 +337,37 @@ def test_an_office_short_of_staff_yet_sending_people_out_says_its_seats_are_full
     assert " ".join(block.split()).endswith(f"{SHORT_YET_AWAY} {text}")  # the last line
     assert f"{SHORT_YET_AWAY}: {text}" in _page(result)  # the page's At a glance
     assert _summary_rows(result, tmp_path)[SHORT_YET_AWAY] == text  # and the workbook
+
+
+def test_the_lead_speaks_of_the_caps_and_the_short_offices_line_has_its_own(tmp_path):
+    # Same hand count as above (A short in all 4 quarters, its seats full, a1 and a2 out):
+    # the lead "each is at its cap, so more of it could help" is true of seats and away share
+    # at A, not of "away while short", which names no cap but says what full seats do.
+    import re
+    import shutil
+
+    folder = _short_at(Path(shutil.copytree(SEATS_SHORT, tmp_path / "short")), ("A",))
+    result = _solved(str(folder))
+    page = render_html(report_data(result))
+    block = page[page.index('<h3 id="limits">'):].split("</section>")[0]
+    # Leads and lists in order: the caps' lead, the caps, the other line's lead, that line.
+    parts = [html.unescape(re.sub(r"<[^>]+>", " ", text)).split() for text in re.findall(
+        r'<p class="lead">.*?</p>|<ul class="limits">.*?</ul>', block)]
+    lead, caps, own_lead, explained = (" ".join(words) for words in parts)
+    assert lead.startswith("Each is at its cap, so more of it could help.")
+    assert caps.startswith("seats: A all 4 periods") and "away share: A all 4" in caps
+    assert SHORT_YET_AWAY not in caps
+    assert own_lead == "Not a cap, but what full seats do to an office short of staff:"
+    assert explained.startswith(f"{SHORT_YET_AWAY}: A is short of staff")
+    # The workbook alike: its rows in order from the band.
+    path = write_workbook(report_data(result), tmp_path / "plan.xlsx")
+    labels = [str(row[0]) for row in load_workbook(path)["summary"].iter_rows(values_only=True)
+              if row[0]]
+    at = labels.index(LIMITS_TITLE)
+    assert labels[at + 1].startswith("Each is at its cap, so more of it could help.")
+    assert labels[at + 2:at + 6] == ["seats", "away share", SHORT_YET_AWAY_LEAD[:1].upper()
+                                     + SHORT_YET_AWAY_LEAD[1:] + ":", SHORT_YET_AWAY]
+    assert LIMITS_LEAD[0].startswith("each is at its cap")  # the lead itself kept for caps
 
 
 def test_several_offices_short_yet_sending_people_out_share_one_line(tmp_path):

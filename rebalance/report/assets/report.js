@@ -111,9 +111,39 @@
     for (var i = 0; i <= n; i++) { out.push(i * step); }
     return out;
   }
-  function shortPeriod(name) {
-    var m = /^(\d{4})-Q(\d)$/.exec(name);
-    return m ? "Q" + m[2] + " \u2019" + m[1].slice(2) : name;
+  // A period goes by its own name on every chart, as in every table, card and CSV file (a
+  // chart's "Q1 \u201927" beside a table's "2027-Q1" had read as two names for one period).
+  // Where the names would touch, fewer are written: every k-th, from the first, the least k
+  // that leaves a gap between each two; the tooltips still name every period.
+  var PERIOD_GAP = 8, PERIOD_FONT_PX = 11;  // .chart text's size in report.css
+  var measurer = null;
+  function textWidth(str) {
+    if (measurer === null) {
+      var canvas = document.createElement("canvas");
+      measurer = (canvas.getContext && canvas.getContext("2d")) || false;
+      if (measurer) { measurer.font = PERIOD_FONT_PX + "px " + getComputedStyle(document.body).fontFamily; }
+    }
+    // Without a canvas, a generous guess: most characters of a sans-serif are narrower.
+    return measurer ? measurer.measureText(str).width : str.length * PERIOD_FONT_PX * 0.62;
+  }
+  // Period labels on one axis: ``at(i)`` is where period i's label centres, kept within
+  // ``lo``..``hi``; returns how many periods each label stands for (k).
+  function periodLabels(g, names, at, y, lo, hi) {
+    var T = names.length, spans = names.map(function (name, i) {
+      var w = textWidth(name), left = Math.max(lo, Math.min(hi - w, at(i) - w / 2));
+      return [left, left + w];
+    });
+    var k = 1;
+    for (; k < T; k++) {
+      var clear = true;
+      for (var i = k; i < T && clear; i += k) { clear = spans[i][0] - spans[i - k][1] >= PERIOD_GAP; }
+      if (clear) { break; }
+    }
+    for (var j = 0; j < T; j += k) {
+      label(g, spans[j][0], y, names[j], { "class": "period" });
+    }
+    g.setAttribute("data-period-step", String(k));
+    return k;
   }
   function legend(box, items) {
     var div = document.createElement("div");
@@ -194,12 +224,8 @@
       el("polyline", { points: points(xs, dem), fill: "none", stroke: C.ink, "stroke-width": 2,
         "stroke-linejoin": "round" }, g);
       marks += 4;
-      var every = T > 8 ? Math.ceil(T / 6) : (T > 5 ? 2 : 1);
+      periodLabels(g, d.periods, x, H - 8, 0, W);
       for (i = 0; i < T; i++) {
-        if (i % every === 0) {
-          label(g, x(i), H - 8, shortPeriod(d.periods[i]), { "text-anchor": i === 0 ? "start" :
-            (i === T - 1 ? "end" : "middle") });
-        }
         var half = T === 1 ? iw / 2 : iw / (T - 1) / 2;
         el("rect", { x: x(i) - half, y: mt, width: 2 * half, height: ih, fill: "transparent",
           "data-tip": s.office + ", " + d.periods[i] + "\ndemand " + num(s.demand[i], true) +
@@ -225,9 +251,7 @@
     var W = lw + T * cw + 80, H = top + (R + 1) * ch + 40;
     var g = svg(box, W, H), max = 0, marks = 0;
     d.cells.forEach(function (row) { row.forEach(function (c) { max = Math.max(max, c.shortfall); }); });
-    d.periods.forEach(function (p, j) {
-      label(g, lw + j * cw + cw / 2, top - 8, shortPeriod(p), { "text-anchor": "middle" });
-    });
+    periodLabels(g, d.periods, function (j) { return lw + j * cw + cw / 2; }, top - 8, lw, lw + T * cw);
     label(g, lw + T * cw + 40, top - 8, "total", { "text-anchor": "middle", "class": "title" });
     var colTotals = new Array(T).fill(0);
     d.cells.forEach(function (row, i) {
@@ -361,8 +385,8 @@
         marks++;
       });
       if (totals[t]) { label(g, ml + t * bw + bw / 2, y(acc) - 5, String(totals[t]), { "text-anchor": "middle", "class": "title" }); }
-      label(g, ml + t * bw + bw / 2, H - 9, shortPeriod(d.periods[t]), { "text-anchor": "middle" });
     }
+    periodLabels(g, d.periods, function (i) { return ml + i * bw + bw / 2; }, H - 9, 0, W);
     return marks;
   }
 

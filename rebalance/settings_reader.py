@@ -205,8 +205,9 @@ def read_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
         # start cell had read as "give either periods or start", with no row).
         if match is None:
             bad("horizon.start", "is missing; expected text such as \"2027-Q1\"" if start is None
-                else f"{_shown(start)} is not a quarter; expected text such as \"2027-Q1\" (a "
-                "spreadsheet reads 2027-01-01 typed in a cell as a date)")
+                else f"{_shown(start)} is not a quarter; expected text such as \"2027-Q1\""
+                + (" (a spreadsheet reads 2027-01-01 typed in a cell as a date)"
+                   if isinstance(start, str) and re.match(r"\d{4}-\d\d-\d\d", start) else ""))
         if not _whole(count) or not 1 <= count <= MAX_PERIODS:
             bad("horizon.count", f"is missing; expected a whole number from 1 to {MAX_PERIODS}"
                 if count is None else f"{_not_valid(count)}; expected a whole number "

@@ -768,3 +768,17 @@ def test_every_bad_title_is_said_with_its_key_and_a_top_level_one_where_it_belon
     assert ("settings.toml: title: unknown section, ignored (expected one of: horizon, policy, "
             "move_costs, objective, solver, money, report) (did you mean 'title' under "
             "[report]?)") in instance.warnings
+
+
+def test_a_mistyped_start_in_settings_toml_gets_no_spreadsheet_hint(tmp_path):
+    # The hint that a spreadsheet turns 2027-01-01 into a date fits a workbook's cell, not a
+    # settings.toml typo, nor a TOML date (TOML reads an unquoted 2027-01-01 as one).
+    for start in ('"2027Q1"', "2027-01-01"):
+        target = tmp_path / start.strip('"')
+        shutil.copytree(DATA / "tiny", target)
+        settings = target / "settings.toml"
+        lines = settings.read_text().splitlines()
+        settings.write_text("\n".join(f"start = {start}" if line.startswith("start =") else line
+                                      for line in lines) + "\n")
+        [problem] = _problems(target)
+        assert "is not a quarter" in problem and "spreadsheet" not in problem, problem

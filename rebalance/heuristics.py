@@ -32,6 +32,7 @@ from rebalance.model import Model
 from rebalance.numbers import progress_value
 from rebalance.rounding import early_lp, movers_free, neighbourhood, plan_by_rounding
 from rebalance.split import relaxed, resplit, run_within
+from rebalance.stage_claims import higher_bound
 from rebalance.whole_plans import decomposable
 
 MIN_SEARCH_SECONDS = 1.0
@@ -167,10 +168,14 @@ def first_plan_from_lp(backend: Backend, model: Model, objective: np.ndarray,
                                  start)
     left = deadline - time.perf_counter()
     narrowed = replace(model, col_lower=lower, col_upper=upper)
-    # Its progress lines say whose they are: the bound of the narrowed model is no bound
-    # of the stage (on the demo's cost stage 2.07e6, where the stage's is 1.63e6).
+    # Its progress lines say whose they are, and show the LP's bound: the bound of the
+    # narrowed model is no bound of the stage (on the demo's cost stage 2.07e6, where the
+    # stage's is 1.63e6), and had read as the gap going backwards once the whole model's
+    # search resumed.
+    stage_bound = higher_bound(options.known_bound, lp.objective)
     rens = None if left < 2.0 else backend.run(
-        narrowed, objective, extra_rows, _labelled(options, "rounding search", say),
+        narrowed, objective, extra_rows,
+        _labelled(replace(options, known_bound=stage_bound), "rounding search", say),
         min(options.shares.rens * budget, 0.5 * left), start)
     if rens is not None and rens.x is not None and rens.objective is not None:
         say(f"  rounding search: plan with {progress_value(rens.objective)} in {rens.seconds:.1f}s")
@@ -293,18 +298,32 @@ def first_plan_by_decision(backend: Backend, model: Model, objective: np.ndarray
             else:
                 bound = Future()
                 bound.set_result(pricing(""))
+    def with_stage_bound() -> SolveOptions:
+        # The bound from prices, once worked out (beside the search, it may not be yet), is
+        # the stage's bound on the next passes' lines.
+        return replace(options, known_bound=higher_bound(options.known_bound,
+                                                         _bound_if_done(bound)))
+
     if near is not None:
         if model.matrix.nnz <= WHOLE_SEARCH_MAX_NONZEROS:
             # Above it the groups get all the time: on agency one search of the whole
             # neighbourhood found nothing in 20-60 s, three runs out of three, and on large
             # the groups alone did better (17,047-17,158 where it had reached 17,524).
-            run_pass("near the LP", near, options.shares.near_whole)
+            run_pass("near the LP", near, options.shares.near_whole, with_stage_bound())
         if best is not None and deadline - time.perf_counter() >= MIN_GROUP_SECONDS:
-            best = search_by_office_groups(backend, model, objective, extra_rows, options,
-                                           deadline, best, near, say)
+            best = search_by_office_groups(backend, model, objective, extra_rows,
+                                           with_stage_bound(), deadline, best, near, say)
     else:
         run_pass("details alone", held_but(("detail",)), 1.0)
     return FirstPlan(best, None if bound is None else bound.result(), lp_seconds, cost_bound)
+
+
+def _bound_if_done(bound: Future[float | None] | None) -> float | None:
+    """The bound ``bound`` has worked out, where it has finished without an error; for
+    progress lines only, which must not wait for it."""
+    if bound is None or not bound.done() or bound.exception() is not None:
+        return None
+    return bound.result()
 
 
 def search_by_office_groups(backend: Backend, model: Model, objective: np.ndarray,
@@ -443,10 +462,12 @@ def toward_hint(backend: Backend, model: Model, objective: np.ndarray,
     unit = TIE_BREAK * max(1.0, abs(float(objective @ plan))) / changes
     priced = objective + unit * toward
     # No gap: a change is worth less than the gap asked of the whole plan's cost, so a
-    # search allowed that gap stops at once on the plan it was given.
+    # search allowed that gap stops at once on the plan it was given.  Its lines show the
+    # plan's ``objective``, not ``priced``: the tie-break is no part of what the plan costs
+    # (2,457,501 had been shown of a plan costing 2,457,500).
     out = _restricted_run(backend, model, priced, extra_rows,
                           replace(options, relative_gap=0.0), (lower, upper), time_limit, plan,
-                          "undoing changes that do not pay", say)
+                          "undoing changes that do not pay", say, shown=objective)
     if out.x is None:
         return plan
     # Recomputed here, not the solver's figure: one change undone gains only ``unit``.
@@ -468,10 +489,14 @@ def _restricted_run(backend: Backend, model: Model, objective: np.ndarray,
                     extra_rows: list[tuple[np.ndarray, float]], options: SolveOptions,
                     bounds: tuple[np.ndarray, np.ndarray], time_limit: float,
                     start: np.ndarray | None, label: str,
-                    say: Callable[[str], None]) -> BackendOutcome:
+                    say: Callable[[str], None],
+                    shown: np.ndarray | None = None) -> BackendOutcome:
     """Branch and bound on ``model`` within column ``bounds`` (lower, upper): any plan it
     finds is a plan of the whole model.  Its progress lines and result carry ``label``,
-    since its bound holds for the restricted model only.
+    since its bound holds for the restricted model only; they show ``options.known_bound``
+    as the stage's bound, if any (:func:`_labelled`).  ``shown``: the objective whose value
+    its lines give, where ``objective`` carries a term the plan's value does not (a
+    tie-break); the solver's own lines, which know only ``objective``, are then left out.
 
     The columns whose bounds meet are taken out before the solver sees them
     (:func:`~rebalance.submodel.hold_apart`): HiGHS's presolve would remove them too, but
@@ -479,26 +504,33 @@ def _restricted_run(backend: Backend, model: Model, objective: np.ndarray,
     large, held apart, proved its plan in 129 s where the whole model had a worse one at
     149 s.
     """
-    out = run_within(backend, model, objective, extra_rows, _labelled(options, label, say),
-                     bounds[0], bounds[1], time_limit, start)
+    run_options = (_labelled(options, label, say) if shown is None
+                   else replace(options, progress=None))
+    out = run_within(backend, model, objective, extra_rows, run_options, bounds[0], bounds[1],
+                     time_limit, start)
     if out.x is None or out.objective is None:
         say(f"  {label}: no plan ({out.words})")
-    elif start is not None and out.objective > float(objective @ start) + 1e-9 * (
+        return out
+    value = out.objective if shown is None else float(shown @ out.x)
+    if start is not None and out.objective > float(objective @ start) + 1e-9 * (
             1.0 + abs(out.objective)):
         # Seen where HiGHS does not take the start up (on a model with many relocatable
         # people, 6,265.9 from a start of 2,620.2): the caller keeps the start.
-        say(f"  {label}: nothing better than its start ({progress_value(out.objective)} found, "
+        say(f"  {label}: nothing better than its start ({progress_value(value)} found, "
             f"{out.seconds:.1f}s)")
     else:
-        say(f"  {label}: plan with {progress_value(out.objective)} in {out.seconds:.1f}s")
+        say(f"  {label}: plan with {progress_value(value)} in {out.seconds:.1f}s")
     return out
 
 
 def _labelled(options: SolveOptions, label: str, say: Callable[[str], None]) -> SolveOptions:
-    """``options`` for a run on part of the model: its progress lines carry ``label``, since
-    their bound holds for that part only."""
-    return replace(options, known_bound=None, progress=None if options.progress is None else (
-        lambda text: say(text.replace("searching:", f"{label}:"))))
+    """``options`` for a run on part of the model: its progress lines carry ``label``, and
+    show ``options.known_bound`` (the stage's best proven bound, if any) as the stage's
+    instead of the run's own, which holds for that part only (``SolveOptions.part_of_stage``)."""
+    return replace(options, known_bound=None, part_of_stage=True,
+                   stage_bound=options.known_bound,
+                   progress=None if options.progress is None else (
+                       lambda text: say(text.replace("searching:", f"{label}:"))))
 
 
 def better_plan(objective: np.ndarray, a: np.ndarray | None,

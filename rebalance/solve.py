@@ -410,7 +410,9 @@ def solve_stage(backend: Backend, model: Model, objective: np.ndarray,
                 lp_bound = stage_bounds.held_lp_bound(
                     backend, model, objective, extra_rows, options, start,
                     t0 + options.shares.held_bound * budget, say, carried.lp_seconds)
-            start = trimmed(backend, model, objective, extra_rows, options, start,
+            # Its lines show the stage's bound found so far, not the trimming's own.
+            start = trimmed(backend, model, objective, extra_rows,
+                            replace(options, known_bound=lp_bound), start,
                             options.shares.trim * (deadline - time.perf_counter()), say)
         if searched:
             if large:

@@ -62,10 +62,11 @@ class _CbcLogWatcher:
     """Reads CBC's log while it runs and reports best plan, bound and gap."""
 
     def __init__(self, path: Path, progress: Callable[[str], None] | None,
-                 known_bound: float | None = None) -> None:
+                 known_bound: float | None = None, part_of_stage: bool = False) -> None:
         self.path = path
         self.progress = progress
         self.known_bound = known_bound
+        self.part_of_stage = part_of_stage
         self._stop = threading.Event()
         self._thread = threading.Thread(target=self._run, daemon=True)
 
@@ -95,7 +96,8 @@ class _CbcLogWatcher:
             elif found and found[-1] != seen_progress:
                 seen_progress = found[-1]
                 nodes, best, bound = seen_progress
-                self.progress(search_line(float(best), float(bound), nodes, self.known_bound))
+                self.progress(search_line(float(best), float(bound), nodes, self.known_bound,
+                                          self.part_of_stage))
 
 
 # Past its own limit CBC is asked to stop after this grace, and killed as long after that:
@@ -330,7 +332,8 @@ class CbcBackend:
                 options=[f"randomCbcSeed {options.seed + 1}"],
             )
             solver.tmpDir = tmp  # each solve its own folder
-            watcher = _CbcLogWatcher(log_path, options.progress, options.known_bound)
+            watcher = _CbcLogWatcher(log_path, options.progress, options.shown_bound(),
+                                     options.part_of_stage)
             # CBC can overrun its -sec limit in preprocessing; past our deadline it is asked to
             # stop (SIGINT: it keeps its best plan), and killed if it does not.
             guard = _Deadline(started + time_limit + CBC_GRACE_SECONDS,

@@ -54,7 +54,8 @@ def silent_highs() -> Any:
 
 def _watch_highs(h: Any, deadline: float, progress: Callable[[str], None] | None,
                  on_plan: PlanSink | None = None, on_bound: BoundSink | None = None,
-                 known_bound: float | None = None, overtime: float = 0.0) -> None:
+                 known_bound: float | None = None, overtime: float = 0.0,
+                 part_of_stage: bool = False) -> None:
     """Stop HiGHS at our own wall-clock deadline (it can overrun its time limit during root
     work), or up to ``overtime`` seconds later while it has no plan; report best plan, bound
     and gap every few seconds while it searches, hand each better plan to ``on_plan`` and a
@@ -76,7 +77,7 @@ def _watch_highs(h: Any, deadline: float, progress: Callable[[str], None] | None
                 last[0] = now
                 best = best_said[0] = min(best_said[0], out.mip_primal_bound)
                 progress(search_line(best, out.mip_dual_bound, out.mip_node_count,
-                                     known_bound))
+                                     known_bound, part_of_stage))
 
     def mip_interrupt(event: Any) -> None:
         interrupt(event)
@@ -200,8 +201,8 @@ class HighsBackend:
                 on_plan(x, objective_value)
 
         _watch_highs(h, started + max(time_limit, 0.05), options.progress,
-                     keep if model.num_integer else on_plan, on_bound, options.known_bound,
-                     options.overtime_without_plan)
+                     keep if model.num_integer else on_plan, on_bound, options.shown_bound(),
+                     options.overtime_without_plan, options.part_of_stage)
         if start is not None:
             solution = highspy.HighsSolution()
             solution.col_value = list(start)

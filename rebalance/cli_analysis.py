@@ -411,19 +411,47 @@ def _no_plan_exit(statuses: Sequence[Status]) -> int:
 
 
 def cmd_marginal(args: argparse.Namespace) -> int:
-    from rebalance.analysis.marginal import Steps, marginal_values
+    from rebalance.analysis.marginal import (
+        Steps,
+        binding_candidates,
+        marginal_values,
+        most_seconds,
+        resolve_count,
+    )
     from rebalance.planning import make_plan
 
     instance = _load(args.instance)
     if instance is None:
         return EXIT_INVALID_INPUT
+    options = _analysis_options(instance, args)
+    # --time-limit is per solve, and the re-solves run quietly in a pool: the wall time is
+    # said up front, as far as it is known before the base plan says which limits bind.
+    limit = options.time_limit_seconds
+    each = f"each solve stops at --time-limit {_seconds(limit)}"
+    if args.max_resolves is None:
+        _err(f"marginal: the base plan, then a re-solve of each limit it leaves binding, "
+             f"{args.workers} at a time; {each} (how many, and the most time in all, are "
+             "said once the base plan is found)")
+    else:
+        _err(f"marginal: up to {1 + args.max_resolves} solves, the base plan, then at most "
+             f"{args.max_resolves} re-solves, {args.workers} at a time; {each}, so at most "
+             f"{_seconds(limit + most_seconds(args.max_resolves, options, args.workers))} "
+             "in all with the LP estimates, besides building models")
     base = make_plan(instance, _analysis_options(instance, args, progress=True))
     code = _plan_failed(base)
     if code is not None:
         return code
-    values = marginal_values(base, _analysis_options(instance, args),
-                             Steps(budget=args.budget_step), workers=args.workers,
-                             max_resolves=args.max_resolves)
+    steps = Steps(budget=args.budget_step)
+    candidates = binding_candidates(base, steps)
+    resolves = resolve_count(candidates, args.max_resolves)
+    if resolves:
+        binds = "1 limit binds" if len(candidates) == 1 else f"{len(candidates)} limits bind"
+        _err(f"marginal: {binds}; re-solving {resolves}, {min(args.workers, resolves)} at a "
+             f"time, each stopped at {_seconds(limit)}: at most "
+             f"{_seconds(most_seconds(resolves, options, args.workers))} more with the LP "
+             "estimates, besides building models")
+    values = marginal_values(base, options, steps, workers=args.workers,
+                             max_resolves=args.max_resolves, candidates=candidates)
     if len(values.table):
         from rebalance.report.analysis_charts import step_words
 
@@ -449,6 +477,15 @@ def cmd_marginal(args: argparse.Namespace) -> int:
               "marginal_values.csv is written with its header only")
     return _write_analysis_plan(args, base, instance, {"marginal_values.csv": values.table},
                                 args.instance, "plan, marginal_values.csv and reasons.csv")
+
+
+def _seconds(seconds: float) -> str:
+    """A duration as a planner reads it: "40 s", "2 min 40 s"."""
+    whole = round(seconds)
+    if whole < 120:
+        return f"{whole} s"
+    minutes, left = divmod(whole, 60)
+    return f"{minutes} min {left} s" if left else f"{minutes} min"
 
 
 def add_analysis_commands(sub) -> None:

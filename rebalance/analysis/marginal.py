@@ -15,14 +15,15 @@ from dataclasses import dataclass, replace
 import pandas as pd
 
 from rebalance.analysis.limits import BUDGET_LIMITS, limit_use, limit_words
-from rebalance.analysis.marginal_estimate import _estimates, _objective
+from rebalance.analysis.marginal_estimate import ESTIMATE_SECONDS, _estimates, _objective
 from rebalance.analysis.solving import solve_many
 from rebalance.instance import Budget, Instance
 from rebalance.planning import PlanResult
 from rebalance.solve import SolveOptions
 
 __all__ = ["MARGINAL_COLUMNS", "STEP_UNITS", "Candidate", "MarginalValues", "StepUnit", "Steps",
-           "binding_candidates", "marginal_values", "resolve_choice"]
+           "binding_candidates", "marginal_values", "most_seconds", "resolve_choice",
+           "resolve_count"]
 
 # The solvers' primal feasibility tolerance (HiGHS's and CBC's default): a stage's shortfall
 # may be this far under its true least value.
@@ -216,6 +217,24 @@ def resolve_choice(chosen: Sequence[Candidate], estimates: Sequence[float],
         hiring = [c for c in budgets if chosen[c].limit == "hiring_budget"]
         picked[-1] = (hiring or budgets)[0]
     return picked
+
+
+def resolve_count(candidates: Sequence[Candidate], max_resolves: int | None) -> int:
+    """How many of ``candidates`` :func:`marginal_values` re-solves (:func:`resolve_choice`)."""
+    return len(candidates) if max_resolves is None else min(max_resolves, len(candidates))
+
+
+def most_seconds(resolves: int, options: SolveOptions, workers: int) -> float:
+    """The longest :func:`marginal_values` may spend solving with ``resolves`` re-solves,
+    ``workers`` at a time: the estimates' LPs (the first, then the others together, each
+    share at most :data:`ESTIMATE_SECONDS` or the time limit), then the re-solves in rounds of
+    ``workers``, each solve stopped at ``options.time_limit_seconds``.  Building models and
+    starting the pool's processes come on top (on the demo a build is 0.1 s)."""
+    if resolves <= 0:
+        return 0.0
+    limit = options.time_limit_seconds
+    rounds = math.ceil(resolves / max(1, min(workers, resolves)))
+    return 2.0 * min(ESTIMATE_SECONDS, limit) + rounds * limit
 
 
 def marginal_values(base: PlanResult, options: SolveOptions, steps: Steps = Steps(),

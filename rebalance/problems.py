@@ -12,7 +12,8 @@ from typing import Any, TypeGuard
 
 from rebalance.numbers import plain_number
 
-__all__ = ["Problem", "did_you_mean", "is_finite_number", "problems_counted", "range_words"]
+__all__ = ["Problem", "close_names", "did_you_mean", "is_finite_number", "problems_counted",
+           "range_words"]
 
 # How alike a name must be to a known one to be suggested (difflib's ratio, 0 to 1): 0.6,
 # difflib's own default, catches a dropped or swapped letter or two without offering an
@@ -45,9 +46,8 @@ def problems_counted(count: int) -> str:
     return f"{count:,} problem{'' if count == 1 else 's'}"
 
 
-def did_you_mean(value: str, names: Iterable[Any]) -> str:
-    """`` (did you mean 'x'?)`` naming the one or two ``names`` closest to ``value``, to end a
-    message saying ``value`` is unknown; "" when none is close.
+def close_names(value: str, names: Iterable[Any]) -> list[str]:
+    """The one or two ``names`` closest to ``value``, closest first; none when none is close.
 
     Compared ignoring case, so ``alder`` finds ``Alder``."""
     folded: dict[str, str] = {}
@@ -55,9 +55,16 @@ def did_you_mean(value: str, names: Iterable[Any]) -> str:
         folded.setdefault(str(name).lower(), str(name))
     close = difflib.get_close_matches(str(value).lower(), list(folded), n=CLOSE_MATCHES_SHOWN,
                                       cutoff=CLOSE_MATCH_CUTOFF)
+    return [folded[c] for c in close]
+
+
+def did_you_mean(value: str, names: Iterable[Any]) -> str:
+    """`` (did you mean 'x'?)`` naming the :func:`close_names` of ``value``, to end a message
+    saying ``value`` is unknown; "" when none is close."""
+    close = close_names(value, names)
     if not close:
         return ""
-    return " (did you mean " + " or ".join(f"'{folded[c]}'" for c in close) + "?)"
+    return " (did you mean " + " or ".join(f"'{c}'" for c in close) + "?)"
 
 
 def range_words(minimum: float | None, maximum: float | None, *, open_minimum: bool = False,

@@ -8,16 +8,23 @@ Every problem is collected, not just the first, each naming the dotted key it is
 from __future__ import annotations
 
 import re
-from collections.abc import Mapping
+from collections.abc import Iterable, Mapping
 from typing import Any, TypeGuard
 
 from rebalance.instance import Money, MoveCostDefaults, Objective, Period, Policy, SolverSettings
 from rebalance.numbers import plain_number
-from rebalance.problems import Problem, did_you_mean, is_finite_number, range_words
+from rebalance.problems import (
+    Problem,
+    close_names,
+    did_you_mean,
+    is_finite_number,
+    range_words,
+)
 
 __all__ = [
     "SETTINGS_KEYS",
     "known_period_names",
+    "meant_for",
     "read_money",
     "read_periods",
     "read_sections",
@@ -43,6 +50,7 @@ SETTINGS_KEYS = (
 )
 PERIOD_KEYS = ("name", "year", "hours_per_fte")
 MAX_SHORTFALL_COST = 1e12
+_PERIOD_HOURS = re.compile(r"horizon\.periods\[\d+\]\.hours_per_fte")
 
 
 def warn_unknown_settings(settings: Mapping[str, Any], problems: list[Problem]) -> None:
@@ -75,6 +83,47 @@ def warn_unknown_settings(settings: Mapping[str, Any], problems: list[Problem]) 
         for key in entry if isinstance(entry, dict) else {}:
             if key not in PERIOD_KEYS:
                 warn(f"horizon.periods[{i}].{key}", "key", list(PERIOD_KEYS))
+
+
+def _section_names(section: str) -> tuple[str, ...]:
+    """The keys a section understands: a listed period's (section ``horizon.periods[2]``) or
+    a settings section's."""
+    if re.fullmatch(r"horizon\.periods\[\d+\]", section):
+        return PERIOD_KEYS
+    names = tuple(k.partition(".")[2] for k in SETTINGS_KEYS if k.startswith(section + "."))
+    return names + (("periods",) if section == "horizon" else ())
+
+
+def meant_for(missing: str, given: Iterable[str]) -> tuple[str, list[str]]:
+    """Words to end the message that the required key ``missing`` (dotted; ``horizon`` for
+    start and count, said together) is missing, naming the keys of ``given`` (dotted, as
+    written) that nothing reads and may be meant as it; and those keys.
+
+    A key is meant as ``missing`` when :func:`close_names` offers its name among its
+    section's keys, as the unknown key's warning would (a misspelt ``strat`` had drawn
+    "horizon.start: is missing" and, apart, a warning suggesting start), or, for a key of no
+    known section, when ``missing`` is its closest key.  A listed period's
+    hours_per_fte may also be meant by a misspelt default, horizon.hours_per_fte."""
+    given = list(given)
+    sections = {k.partition(".")[0] for k in SETTINGS_KEYS}
+    targets = [(missing, "it")]
+    if missing == "horizon":
+        targets = [("horizon.start", "start"), ("horizon.count", "count")]
+    elif _PERIOD_HOURS.fullmatch(missing):
+        targets.append(("horizon.hours_per_fte", "horizon.hours_per_fte"))
+    parts, meant = [], []
+    for key, word in targets:
+        section, _, name = key.rpartition(".")
+        known = _section_names(section)
+        close = [g for g in given if (
+            g.rpartition(".")[0] == section and g.rpartition(".")[2] not in known
+            and name in close_names(g.rpartition(".")[2], known)) or (
+            # a workbook's key row of no known section (horizn.start): its closest key
+            g.partition(".")[0] not in sections and close_names(g, SETTINGS_KEYS)[:1] == [key])]
+        if close:
+            parts.append(" or ".join(close) + f" may be meant as {word}")
+            meant += close
+    return (" (" + "; ".join(parts) + ")" if parts else ""), meant
 
 
 def _whole(value: Any) -> TypeGuard[int | float]:
@@ -139,14 +188,28 @@ def known_period_names(settings: Mapping[str, Any], periods: tuple[Period, ...])
 def read_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
         tuple[Period, ...], int]:
     """The planning periods (listed in ``horizon.periods`` or generated from ``horizon.start``
-    and ``count``) and the periods per year; none where the horizon cannot be read."""
+    and ``count``) and the periods per year; none where the horizon cannot be read.
+
+    A required key said missing names the unknown keys that may be meant as it, and their
+    warnings (from :func:`warn_unknown_settings`, called first) are taken back: one problem
+    says both."""
     def bad(key: str, message: str) -> None:
         problems.append(Problem("settings.toml", None, key, message))
+
+    def missing(key: str, message: str) -> None:
+        words, meant = meant_for(key, given)
+        problems[:] = [p for p in problems if not (
+            p.is_warning and p.file == "settings.toml" and p.column in meant)]
+        bad(key, message + words)
 
     horizon = settings.get("horizon", {})
     if not isinstance(horizon, dict):
         bad("horizon", "must be a table")
         return (), 4
+    listed = horizon.get("periods")
+    given = [f"horizon.{k}" for k in horizon] + [  # the keys as written, for missing()
+        f"horizon.periods[{i}].{k}" for i, e in enumerate(
+            listed if isinstance(listed, list) else [], 1) if isinstance(e, dict) for k in e]
     periods_per_year = horizon.get("periods_per_year", 4)
     if not _whole(periods_per_year) or periods_per_year < 1:
         bad("horizon.periods_per_year",
@@ -158,7 +221,6 @@ def read_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
         bad("horizon.hours_per_fte", f"{_not_valid(default_hours)}; expected a number > 0")
         default_hours = None
     periods: list[Period] = []
-    listed = horizon.get("periods")
     if listed is not None:
         if not isinstance(listed, list) or not listed:
             bad("horizon.periods", "must be a non-empty list of {name, year[, hours_per_fte]}")
@@ -180,18 +242,19 @@ def read_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
                     ("name", name, 'the period\'s name, as text such as "FY27-P1"'),
                     ("year", budget_year, "the budget year its spending falls in, as text such as "
                                    '"FY27"')):
-                if value is None:
-                    given = entry.get(part)
-                    found = ("is missing" if part not in entry else "is empty"
-                             if isinstance(given, str) else f"{_shown(given)} is not valid")
+                if part not in entry:
+                    missing(f"{key}.{part}", f"is missing; expected {expected}")
+                elif value is None:
+                    found = ("is empty" if isinstance(entry[part], str)
+                             else f"{_shown(entry[part])} is not valid")
                     bad(f"{key}.{part}", f"{found}; expected {expected}")
             hours = entry.get("hours_per_fte", default_hours)
             if "hours_per_fte" in entry and (not is_finite_number(hours) or hours <= 0):
                 bad(key + ".hours_per_fte", f"{_not_valid(hours)}; expected a number > 0")
                 hours = None
             elif hours is None and "hours_per_fte" not in horizon:  # a bad default: said once
-                bad(key + ".hours_per_fte", "is missing and horizon.hours_per_fte gives no "
-                    "default; expected a number > 0 here or in horizon.hours_per_fte")
+                missing(key + ".hours_per_fte", "is missing and horizon.hours_per_fte gives "
+                        "no default; expected a number > 0 here or in horizon.hours_per_fte")
             if name is None or budget_year is None or hours is None:
                 continue
             periods.append(Period(name, budget_year, float(hours)))
@@ -199,25 +262,29 @@ def read_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
         start, count = horizon.get("start"), horizon.get("count")
         match = re.fullmatch(r"(\d{4})-Q([1-4])", str(start)) if start is not None else None
         if start is None and count is None:
-            bad("horizon", "give either periods = [...] or start = \"YYYY-Qn\" with count = N")
+            missing("horizon", "give either periods = [...] or start = \"YYYY-Qn\" with count = N")
             return (), periods_per_year
         # Each key said on its own, so a workbook can point at its row (a date typed in the
         # start cell had read as "give either periods or start", with no row).
-        if match is None:
-            bad("horizon.start", "is missing; expected text such as \"2027-Q1\"" if start is None
-                else f"{_shown(start)} is not a quarter; expected text such as \"2027-Q1\""
-                + (" (a spreadsheet reads 2027-01-01 typed in a cell as a date)"
-                   if isinstance(start, str) and re.match(r"\d{4}-\d\d-\d\d", start) else ""))
-        if not _whole(count) or not 1 <= count <= MAX_PERIODS:
-            bad("horizon.count", f"is missing; expected a whole number from 1 to {MAX_PERIODS}"
-                if count is None else f"{_not_valid(count)}; expected a whole number "
-                f"from 1 to {MAX_PERIODS}")
+        if start is None:
+            missing("horizon.start", "is missing; expected text such as \"2027-Q1\"")
+        elif match is None:
+            bad("horizon.start", f"{_shown(start)} is not a quarter; expected text such as "
+                "\"2027-Q1\"" + (" (a spreadsheet reads 2027-01-01 typed in a cell as a date)"
+                                 if isinstance(start, str)
+                                 and re.match(r"\d{4}-\d\d-\d\d", start) else ""))
+        if count is None:
+            missing("horizon.count", f"is missing; expected a whole number from 1 to "
+                    f"{MAX_PERIODS}")
+        elif not _whole(count) or not 1 <= count <= MAX_PERIODS:
+            bad("horizon.count", f"{_not_valid(count)}; expected a whole number from 1 to "
+                f"{MAX_PERIODS}")
         if match is None or not _whole(count) or not 1 <= count <= MAX_PERIODS:
             return (), periods_per_year
         if default_hours is None:
             if "hours_per_fte" not in horizon:  # a bad value is said above, once
-                bad("horizon.hours_per_fte", "is missing; expected a number > 0 (required when "
-                    "periods are generated from start)")
+                missing("horizon.hours_per_fte", "is missing; expected a number > 0 "
+                        "(required when periods are generated from start)")
             return (), periods_per_year
         year, quarter = int(match.group(1)), int(match.group(2))
         for _ in range(int(count)):

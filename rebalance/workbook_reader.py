@@ -32,7 +32,7 @@ from rebalance.readers import (
     InstanceError,
     build_instance,
 )
-from rebalance.settings_reader import SETTINGS_KEYS
+from rebalance.settings_reader import SETTINGS_KEYS, meant_for
 from rebalance.tables import RawTable
 from rebalance.workbook_layout import Layout, sheet_layout, sheet_parts
 from rebalance.workbook_writer import (
@@ -130,10 +130,11 @@ def read_workbook(path: str | Path) -> Instance:
 
     settings: dict[str, Any] = {}
     key_rows: dict[str, int] = {}
+    unknown_rows: dict[str, int] = {}
     dates: dict[str, dt.date] = {}
     if SETTINGS_SHEET in sheets:
         settings, key_rows, dates = _settings(sheets[SETTINGS_SHEET], label(SETTINGS_SHEET),
-                                              problems)
+                                              problems, unknown_rows)
     else:
         problems.append(Problem(label(SETTINGS_SHEET), None, None, "sheet is missing; expected "
                                 "a sheet named settings with columns key and value, one "
@@ -151,18 +152,24 @@ def read_workbook(path: str | Path) -> Instance:
     try:
         instance = build_instance(name, settings, tables, problems)
     except InstanceError as exc:
+        # Unknown keys a missing setting's problem names as perhaps meant: not said again.
+        meant_rows = {unknown_rows[k] for p in exc.problems for k in _meant(p, unknown_rows)[1]}
+
         def kept(source: Problem, said: Problem) -> bool:
             if merged.get((said.file, said.row, said.column), said.message) != said.message:
                 return False  # said once already, as a merged or a date cell
+            if said.is_warning and said.file == label(SETTINGS_SHEET) and (
+                    said.row in meant_rows and said.column == "key"):
+                return False
             # A setting of a sheet that could not be read is said by the sheet's problem.
             return settings_read or source.file != "settings.toml" or (
                 said.file != label(SETTINGS_SHEET))
 
-        said = [(p, _relabel(p, book, title, key_rows, dates, periods_sheet))
+        said = [(p, _relabel(p, book, title, key_rows, dates, periods_sheet, unknown_rows))
                 for p in exc.problems]
         raise InstanceError([p for source, p in said if kept(source, p)]) from None
-    warnings = tuple(str(_relabel(p, book, title, key_rows, dates, periods_sheet))
-                     for p in problems if p.is_warning)
+    warnings = tuple(str(_relabel(p, book, title, key_rows, dates, periods_sheet,
+                                  unknown_rows)) for p in problems if p.is_warning)
     return instance.with_changes(warnings=warnings)
 
 
@@ -426,10 +433,12 @@ def _typed(value: Any) -> Any:
     return value
 
 
-def _settings(sheet: _Sheet, label: str, problems: list[Problem]) -> tuple[
+def _settings(sheet: _Sheet, label: str, problems: list[Problem],
+              unknown_rows: dict[str, int]) -> tuple[
         dict[str, Any], dict[str, int], dict[str, dt.date]]:
     """Nested settings from ``key | value`` rows, the sheet row of each key, and the value of
-    each key whose cell holds a date (a date or a datetime)."""
+    each key whose cell holds a date (a date or a datetime); the row of each unknown key goes
+    in ``unknown_rows``."""
     settings: dict[str, Any] = {}
     key_rows: dict[str, int] = {}
     dates: dict[str, dt.date] = {}
@@ -458,6 +467,7 @@ def _settings(sheet: _Sheet, label: str, problems: list[Problem]) -> tuple[
             problems.append(Problem(label, row_number, "key", f"unknown key '{key}', ignored "
                                     "(expected one of: " + ", ".join(SETTINGS_KEYS) + ")"
                                     + did_you_mean(key, SETTINGS_KEYS), is_warning=True))
+            unknown_rows.setdefault(key, row_number)
             continue
         key_rows[key] = row_number
         if value is None or _text(value) == "":
@@ -490,12 +500,24 @@ def _periods(sheet: _Sheet, label: str, settings: dict[str, Any],
         horizon["periods"] = listed
 
 
+def _meant(problem: Problem, unknown_rows: Mapping[str, int]) -> tuple[str, list[str]]:
+    """:func:`meant_for` of a setting the reader says is missing, from the sheet's unknown
+    keys (dropped before the reader, it cannot name them itself)."""
+    key = problem.column or ""
+    if problem.file != "settings.toml" or problem.is_warning or not (
+            key == "horizon" or problem.message.startswith("is missing")):
+        return "", []
+    return meant_for(key, unknown_rows)
+
+
 def _relabel(problem: Problem, book: str, title: Callable[[str], str],
              key_rows: Mapping[str, int], dates: Mapping[str, dt.date],
-             periods_sheet: bool = False) -> Problem:
+             periods_sheet: bool, unknown_rows: Mapping[str, int]) -> Problem:
     """Rename a problem that :func:`build_instance` located in a folder's files; ``title``
-    gives a sheet's name as the book spells it."""
-    message = _sheet_words(problem.message, title, periods_sheet)
+    gives a sheet's name as the book spells it.  A missing setting is put on the row of an
+    unknown key that may be meant as it."""
+    words, meant = _meant(problem, unknown_rows)
+    message = _sheet_words(problem.message, title, periods_sheet) + words
     file = problem.file
     if file == "settings.toml":
         key = problem.column or ""
@@ -511,6 +533,9 @@ def _relabel(problem: Problem, book: str, title: Callable[[str], str],
         if key in key_rows:
             return Problem(f"{book}[{title(SETTINGS_SHEET)}]", key_rows[key], "value",
                            f"{key}: {message}", problem.is_warning)
+        if meant:
+            return Problem(f"{book}[{title(SETTINGS_SHEET)}]", unknown_rows[meant[0]],
+                           "key", f"{key}: {message}", problem.is_warning)
         return Problem(f"{book}[{title(SETTINGS_SHEET)}]", None, "key",
                        f"{key}: {message}" if key else message, problem.is_warning)
     if file.endswith(".csv") and file.removesuffix(".csv") in COLUMNS:

@@ -782,3 +782,61 @@ def test_a_mistyped_start_in_settings_toml_gets_no_spreadsheet_hint(tmp_path):
                                       for line in lines) + "\n")
         [problem] = _problems(target)
         assert "is not a quarter" in problem and "spreadsheet" not in problem, problem
+
+
+def _warnings_too(target: Path) -> list[str]:
+    with pytest.raises(InstanceError) as caught:
+        read_instance(target)
+    return [str(p) for p in caught.value.problems]
+
+
+def test_a_misspelt_required_setting_is_one_problem_naming_the_key_written(tmp_path):
+    # "horizon.start: is missing" had come with no word of the strat beside it, the
+    # suggestion only in a warning apart.  Which names are close is difflib's ratio (Python's
+    # difflib documentation, get_close_matches); the rest is common practice.
+    def variant(name: str, *edits: tuple[str, str]) -> Path:
+        target = tmp_path / name
+        shutil.copytree(DATA / "tiny", target)
+        settings = target / "settings.toml"
+        text = settings.read_text()
+        for old, new in edits:
+            text = text.replace(old, new)
+        settings.write_text(text)
+        return target
+
+    assert _warnings_too(variant("start", ("start =", "strat ="))) == [
+        'settings.toml: horizon.start: is missing; expected text such as "2027-Q1" '
+        "(horizon.strat may be meant as it)"]
+    assert _warnings_too(variant("both", ("start =", "strat ="), ("count =", "cuont ="))) == [
+        'settings.toml: horizon: give either periods = [...] or start = "YYYY-Qn" with '
+        "count = N (horizon.strat may be meant as start; horizon.cuont may be meant as count)"]
+    # The hours are required when periods are generated; an optional key's typo stays a
+    # warning with its suggestion, as before.
+    got = _warnings_too(variant("hours", ("hours_per_fte =", "hours_per_fet ="),
+                                ("max_away_share =", "max_away_shares =")))
+    assert got == [
+        "settings.toml: horizon.hours_per_fte: is missing; expected a number > 0 (required "
+        "when periods are generated from start) (horizon.hours_per_fet may be meant as it)",
+        "settings.toml: policy.max_away_shares: unknown key, ignored (expected one of: "
+        "max_away_share, max_consecutive_detail_periods) (did you mean 'max_away_share'?)"]
+    # Listed periods: a misspelt name or year in an entry, and a misspelt default of hours.
+    listed = ('[[horizon.periods]]\nnmae = "2027-Q1"\nyear = "2027"\n\n'
+              '[[horizon.periods]]\nname = "2027-Q2"\nyaer = "2027"\n\n[policy]')
+    got = _warnings_too(variant("listed", ('start = "2027-Q1"\ncount = 4\n', ""),
+                                ("hours_per_fte =", "hours_per_fet ="), ("[policy]", listed)))
+    default = ("is missing and horizon.hours_per_fte gives no default; expected a number > 0 "
+               "here or in horizon.hours_per_fte (horizon.hours_per_fet may be meant as "
+               "horizon.hours_per_fte)")
+    assert got == [
+        "settings.toml: horizon.periods[1].name: is missing; expected the period's name, as "
+        'text such as "FY27-P1" (horizon.periods[1].nmae may be meant as it)',
+        f"settings.toml: horizon.periods[1].hours_per_fte: {default}",
+        "settings.toml: horizon.periods[2].year: is missing; expected the budget year its "
+        'spending falls in, as text such as "FY27" (horizon.periods[2].yaer may be meant as '
+        "it)",
+        f"settings.toml: horizon.periods[2].hours_per_fte: {default}"]
+    # Nothing close: the missing key is said as before, the unknown key warned apart.
+    assert _warnings_too(variant("far", ("start =", "opening ="))) == [
+        'settings.toml: horizon.start: is missing; expected text such as "2027-Q1"',
+        "settings.toml: horizon.opening: unknown key, ignored (expected one of: start, count, "
+        "hours_per_fte, periods_per_year, periods)"]

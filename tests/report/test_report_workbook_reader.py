@@ -705,3 +705,57 @@ def test_a_sheet_is_named_as_the_book_spells_it(tmp_path):
                for t in text), text
     assert any(t.startswith("tiny.xlsx[Notes]: unknown sheet") for t in text), text
     assert not any("[staff]" in t or "[settings]" in t or "[notes]" in t for t in text), text
+
+
+def test_a_misspelt_required_setting_is_one_problem_on_its_row(tmp_path):
+    # A misspelt horizon.start had drawn "horizon.start: is missing" with no row, and the
+    # suggestion only in the unknown key's warning apart; now one problem on the misspelt
+    # row says both.  Which names are close is difflib's ratio (Python's difflib
+    # documentation, get_close_matches); the rest is common practice.
+    def said(renames: dict[str, str], periods: bool = False) -> tuple[list[str], dict]:
+        book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+        wb = load_workbook(book)
+        rows = {}
+        for old, new in renames.items():
+            rows[new] = _settings_row(wb["settings"], old)
+            wb["settings"].cell(rows[new], 1).value = new
+        if periods:
+            sheet = wb.create_sheet("periods")
+            sheet.append(["name", "year"])
+            for quarter in range(1, 5):
+                sheet.append([f"2027-Q{quarter}", "2027"])
+        wb.save(book)
+        with pytest.raises(InstanceError) as caught:
+            read_workbook(book)
+        return [("warning: " if p.is_warning else "") + str(p)
+                for p in caught.value.problems], rows
+
+    got, rows = said({"horizon.start": "horizon.strat"})
+    assert got == [f'tiny.xlsx[settings]:{rows["horizon.strat"]}: key: horizon.start: is '
+                   'missing; expected text such as "2027-Q1" (horizon.strat may be meant as it)']
+    got, rows = said({"horizon.start": "horizon.strat", "horizon.count": "horizon.cuont"})
+    assert got == [f'tiny.xlsx[settings]:{rows["horizon.strat"]}: key: horizon: give either '
+                   'periods = [...] or start = "YYYY-Qn" with count = N (horizon.strat may be '
+                   "meant as start; horizon.cuont may be meant as count)"]
+    # A key row of no known section, as its warning suggests.
+    got, rows = said({"horizon.start": "horizn.start"})
+    assert got == [f'tiny.xlsx[settings]:{rows["horizn.start"]}: key: horizon.start: is '
+                   'missing; expected text such as "2027-Q1" (horizn.start may be meant as it)']
+    # An optional key's typo stays a warning with its suggestion.
+    got, rows = said({"horizon.hours_per_fte": "horizon.hours_per_fet",
+                      "policy.max_away_share": "policy.max_away_shares"})
+    assert got[0] == (f'tiny.xlsx[settings]:{rows["horizon.hours_per_fet"]}: key: '
+                      "horizon.hours_per_fte: is missing; expected a number > 0 (required when "
+                      "periods are generated from start) (horizon.hours_per_fet may be meant as "
+                      "it)")
+    assert len(got) == 2 and got[1].startswith(
+        f'warning: tiny.xlsx[settings]:{rows["policy.max_away_shares"]}: key: unknown key '
+        "'policy.max_away_shares'") and got[1].endswith("(did you mean 'policy.max_away_share'?)")
+    # Listed periods without hours, the default misspelt: each period row names it.
+    got, rows = said({"horizon.hours_per_fte": "horizon.hours_per_fet"}, periods=True)
+    errors = [g for g in got if not g.startswith("warning:")]
+    assert errors == [f"tiny.xlsx[periods]:{row}: hours_per_fte: is missing and "
+                      "horizon.hours_per_fte gives no default; expected a number > 0 here or in "
+                      "horizon.hours_per_fte (horizon.hours_per_fet may be meant as "
+                      "horizon.hours_per_fte)" for row in range(2, 6)]
+    assert not any("unknown key" in g for g in got), got

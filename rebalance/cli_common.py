@@ -19,7 +19,8 @@ from rebalance.problems import problems_counted
 from rebalance.readers import InstanceError, count_problems, read_instance
 from rebalance.solve import Status
 
-VIOLATIONS_SHOWN = 20  # lines of a long list of problems or violations: enough to see why
+VIOLATIONS_SHOWN = 20  # of a long list of problems or violations: enough to see why
+KNOCK_ONS_SHOWN = 3  # lines under each of those, where the list runs past the cap in lines
 EXIT_OK = 0
 EXIT_INTERNAL = 1
 EXIT_USAGE = 2
@@ -57,12 +58,37 @@ def _load(path: str, writes: bool = True) -> Instance | None:
 
 
 def _first(lines: Sequence[str], hint: str = "") -> list[str]:
-    """The first ``VIOLATIONS_SHOWN`` of ``lines`` and a count of the rest (an old plan of
-    another instance had listed 66 lines of names the instance lacks); ``hint`` says how to
-    see them all."""
+    """The first ``VIOLATIONS_SHOWN`` problems of ``lines`` and a count of the rest (an old
+    plan of another instance had listed 66 lines of names the instance lacks); ``hint`` says
+    how to see them all.  A line indented deeper than the problem's own (verify's "so" lines)
+    goes with it, so the cap and the count are of problems; past the cap in lines, a problem
+    shows its first ``KNOCK_ONS_SHOWN`` such lines and counts the rest."""
     if len(lines) <= VIOLATIONS_SHOWN:
         return list(lines)
-    return [*lines[:VIOLATIONS_SHOWN], f"  ... and {len(lines) - VIOLATIONS_SHOWN} more{hint}"]
+    problems: list[list[str]] = []
+    for line in lines:
+        if problems and _indent(line) > _indent(problems[-1][0]):
+            problems[-1].append(line)
+        else:
+            problems.append([line])
+    out: list[str] = []
+    cut = None  # the last line that says how many are left out: it carries the hint
+    for first, *under in problems[:VIOLATIONS_SHOWN]:
+        out += [first, *under[:KNOCK_ONS_SHOWN]]
+        if len(under) > KNOCK_ONS_SHOWN:
+            cut = len(out)
+            out.append(f"{' ' * _indent(under[0])}... and {len(under) - KNOCK_ONS_SHOWN} more "
+                       "under it")
+    if len(problems) > VIOLATIONS_SHOWN:
+        cut = len(out)
+        out.append(f"{' ' * _indent(lines[0])}... and {len(problems) - VIOLATIONS_SHOWN} more")
+    if cut is not None:
+        out[cut] += hint
+    return out
+
+
+def _indent(line: str) -> int:
+    return len(line) - len(line.lstrip(" "))
 
 
 def _say_first(head: str, problems: Sequence[object]) -> None:

@@ -84,7 +84,8 @@ class Violation:
     file and row), a message and the plan ``file`` it is about (and row, where one row breaks
     it).  An ``unknown_reference`` also says which ``column`` names what the instance lacks and
     which ``name_kind`` of name it should hold, so a caller need not read the message back.  A
-    coverage figure only out of date because of an earlier violation ``follows`` it."""
+    coverage figure only out of date because of an earlier violation ``follows`` it; a seats
+    excess says the office and period (index) it is ``at``, so a report can join a run."""
 
     rule: str
     where: str
@@ -93,6 +94,7 @@ class Violation:
     name_kind: NameKind | None = None
     file: str = ""
     follows: Violation | None = None
+    at: tuple[str, int] | None = None
 
     def __str__(self) -> str:
         """As a planner reads it: the file first (once), the rule in words last, no code."""
@@ -195,9 +197,10 @@ class _Checker:
         # a little under its price passes its own check, and many would ease a budget.
         self.spend: dict[tuple[str, str], float] = defaultdict(float)
 
-    def flag(self, rule: str, where: str, message: str, line: int | None = None) -> None:
+    def flag(self, rule: str, where: str, message: str, line: int | None = None,
+             at: tuple[str, int] | None = None) -> None:
         file = self.file(RULES[rule][0]) + ("" if line is None else f":{line}")
-        self.violations.append(Violation(rule, where, message, file=file))
+        self.violations.append(Violation(rule, where, message, file=file, at=at))
 
     def row_flag(self, where: str, line: int) -> Callable[[str, str], None]:
         return lambda rule, message: self.flag(rule, where, message, line)
@@ -508,16 +511,13 @@ class _Checker:
                 hires_held[(row.office, t)] += int(row.count)
         for office in self.i.offices:
             for t in range(self.T):
-                where = f"{office.name} in {self.i.periods[t].name}"
-                if _over(gone[(office.name, t)], share * present[(office.name, t)]):
-                    self.flag("away_share", where, f"{gone[(office.name, t)]} of "
-                              f"{present[(office.name, t)]} people away; at most {share_of(share)} "
-                              "of them may be")
-                if office.seats is not None:
-                    used = (present[(office.name, t)] - gone[(office.name, t)]
-                            + arrived[(office.name, t)] + hires_held[(office.name, t)])
-                    if used > office.seats:
-                        self.flag("seats", where, f"{used} seats used; {office.seats} exist")
+                where, key = f"{office.name} in {self.i.periods[t].name}", (office.name, t)
+                if _over(gone[key], share * present[key]):
+                    self.flag("away_share", where, f"{gone[key]} of {present[key]} people away; "
+                              f"at most {share_of(share)} of them may be")
+                used = present[key] - gone[key] + arrived[key] + hires_held[key]
+                if office.seats is not None and used > office.seats:
+                    self.flag("seats", where, f"{used} seats used; {office.seats} exist", at=key)
 
     # -- costs and budgets -----------------------------------------------------------------
     def _check_costs(self) -> None:
@@ -550,8 +550,7 @@ class _Checker:
                 self.flag("costs", f"{key[1]} in {key[0]}",
                           f"says {stated}; recomputed {priced}", line_of.get(key))
         for year in self.i.years:
-            budget = self.i.budget(year)
-            if budget is None:
+            if (budget := self.i.budget(year)) is None:
                 continue
             line = {cap: sum(spend[(year, kind)] for kind in kinds)
                     for cap, kinds in BUDGET_LINES}

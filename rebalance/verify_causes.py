@@ -19,6 +19,10 @@ of its own:
   larger of their available FTE and the FTE work.csv gives them;
 - a changed hire output has a flagged hires.csv row of that office and skill started by
   then (no bound: the row's count may be what was edited).
+
+:func:`group_problems` then gathers the violations into problems as a report lists them:
+each with the lines that follow from it, and the same seats excess at one office over
+consecutive periods (one extra hire had read as one problem a period) as one run.
 """
 
 from __future__ import annotations
@@ -26,7 +30,7 @@ from __future__ import annotations
 import re
 from collections import defaultdict
 from collections.abc import Callable, Sequence
-from dataclasses import replace
+from dataclasses import dataclass, replace
 from pathlib import PurePath
 from typing import TYPE_CHECKING, Any
 
@@ -36,7 +40,7 @@ from rebalance.plan import Plan, records
 if TYPE_CHECKING:
     from rebalance.verify import Violation
 
-__all__ = ["KNOCK_ON_RULES", "link_knock_ons"]
+__all__ = ["KNOCK_ON_RULES", "Problem", "group_problems", "link_knock_ons"]
 
 # Coverage figures recomputed from work and hires: the ones an edit of those tables moves.
 KNOCK_ON_RULES = frozenset(f"coverage_{column}" for column in (
@@ -159,3 +163,56 @@ def _agrees(row: Any) -> bool:
     return (_close(float(row.covered_fte), min(demand, output))
             and _close(float(row.shortfall_fte), shortfall)
             and _close(float(row.weighted_shortfall), float(row.priority) * shortfall))
+
+
+@dataclass(frozen=True)
+class Problem:
+    """One problem as a report lists it: ``run``, its violations (one, or the same excess of
+    seats at one office in consecutive periods, in period order), and ``under``, the lines
+    that follow from it, each the figures of one coverage.csv row or a run as ``run`` is."""
+
+    run: tuple[Violation, ...]
+    under: tuple[tuple[Violation, ...], ...] = ()
+
+
+def group_problems(violations: Sequence[Violation]) -> list[Problem]:
+    """``violations`` as problems, in the order of each one's first violation: a run of
+    violations ``at`` one office in consecutive periods, with the same rule, file, message and
+    cause, is one; a violation that ``follows`` another goes under that one's problem.  Every
+    violation is in exactly one problem."""
+    runs: list[list[Violation]] = []
+    open_runs: dict[tuple[object, ...], list[Violation]] = {}  # a run the next period may join
+    for v in violations:
+        if v.at is None:
+            runs.append([v])
+            continue
+        key = (v.rule, v.file, v.message, v.follows, v.at[0])
+        run = open_runs.get(key)
+        if run is not None and run[-1].at == (v.at[0], v.at[1] - 1):
+            run.append(v)
+        else:
+            runs.append([v])
+            open_runs[key] = runs[-1]
+    home: dict[Violation, int] = {}  # each violation's run (the first, where one repeats)
+    for ix, run in enumerate(runs):
+        for v in run:
+            home.setdefault(v, ix)
+
+    def top(ix: int) -> int:
+        """The run ``ix`` is listed under: its cause's, or that one's, or itself."""
+        seen = {ix}
+        while (cause := runs[ix][0].follows) is not None and home.get(cause, ix) not in seen:
+            ix = home[cause]
+            seen.add(ix)
+        return ix
+
+    under: dict[int, dict[object, list[Violation]]] = defaultdict(dict)
+    listed: list[int] = []
+    for ix, run in enumerate(runs):
+        if (head := top(ix)) == ix:
+            listed.append(ix)
+        else:  # a coverage row's figures read as one line; a run keeps its own
+            row = ix if run[0].at is not None else run[0].file
+            under[head].setdefault(row, []).extend(run)
+    return [Problem(tuple(runs[ix]), tuple(tuple(group) for group in under[ix].values()))
+            for ix in listed]

@@ -551,3 +551,76 @@ def test_verify_on_a_plan_folder_counts_problems_and_knock_ons_and_exits_as_fail
     assert [line.split(": ")[0] for line in out[1:]] == [
         f"  - {path}:2", f"      so {tmp_path / 'plan' / 'coverage.csv'}:2",
         f"      so {tmp_path / 'plan' / 'coverage.csv'}:7"]
+
+
+# -- one line per office and run of periods with the same seats excess ------------------------
+
+
+def test_the_same_seats_excess_over_consecutive_periods_reads_as_one_problem(tiny_plan):
+    # B has 6 seats (tests/data/tiny/offices.csv).  The plan has b1 based there to 2027-Q3,
+    # a1 detailed in for Q2 and Q3, a2 for Q4 and one hire from Q4: 2 seats used in each.  Six
+    # hires more from Q2 make 8 in Q2 to Q4; one more from Q4 makes Q4's 9, a line of its own.
+    instance, result = tiny_plan
+    plan = result.plan
+    broken = consistent(instance, plan, hires=add_rows(
+        plan.hires, hire("B", "review", "2027-Q2", 6, "new", 48000.0, 360000.0),
+        hire("B", "review", "2027-Q4", 1, "new", 8000.0, 20000.0)))
+    found = verify_plan(instance, broken)
+    # The list itself stays one violation a period.
+    assert [(v.where, v.message, v.at) for v in found if v.rule == "seats"] == [
+        ("B in 2027-Q2", "8 seats used; 6 exist", ("B", 1)),
+        ("B in 2027-Q3", "8 seats used; 6 exist", ("B", 2)),
+        ("B in 2027-Q4", "9 seats used; 6 exist", ("B", 3))]
+    from rebalance.report import format_violations
+
+    lines = format_violations(found).splitlines()
+    words = "(people based there, detailed in and hired within the office's seats)"
+    assert [line for line in lines if "seats used" in line] == [
+        f"  - hires.csv: B in 2027-Q2 to 2027-Q3 (2 periods): 8 seats used; 6 exist {words}",
+        f"  - hires.csv: B in 2027-Q4: 9 seats used; 6 exist {words}"]
+    assert lines[0] == f"verification failed: {len(found) - 1} problems"
+
+
+def test_a_seats_run_breaks_at_a_gap_another_office_excess_or_cause(tiny_plan):
+    # The rule itself (no outside source): one run is one office, consecutive periods, the
+    # same message and the same cause; other violations between its periods do not break it.
+    from rebalance.verify import Violation
+    from rebalance.verify_causes import group_problems
+
+    cause = Violation("detail_present", "person b1 in P5", "person has left by then",
+                      file="details.csv:4")
+
+    def seats(office, t, used, follows=None):
+        return Violation("seats", f"{office} in P{t}", f"{used} seats used; 6 exist",
+                         file="hires.csv", follows=follows, at=(office, t))
+
+    found = [seats("B", 0, 8), seats("A", 0, 8), cause, seats("B", 1, 8), seats("A", 1, 8),
+             seats("B", 3, 8), seats("B", 4, 9), seats("B", 5, 9, cause), seats("B", 6, 9)]
+    problems = group_problems(found)
+    assert [[v.at for v in p.run] for p in problems] == [
+        [("B", 0), ("B", 1)], [("A", 0), ("A", 1)], [None], [("B", 3)], [("B", 4)],
+        [("B", 6)]]
+    assert problems[2].under == ((found[7],),)  # a run that follows a cause goes under it
+    every = [v for p in problems for v in (*p.run, *(v for g in p.under for v in g))]
+    assert sorted(every, key=found.index) == found
+
+
+# -- verify's printed list is capped at problems, not lines -----------------------------------
+
+
+def test_the_printed_cap_counts_problems_and_keeps_their_lines_with_them():
+    # The rule itself (no outside source): 25 problems of 4 knock-on lines each, 125 lines.
+    from rebalance.cli_common import KNOCK_ONS_SHOWN, VIOLATIONS_SHOWN, _first
+
+    lines = [line for n in range(25)
+             for line in (f"  - problem {n}", *(f"      so row {n}.{k}" for k in range(4)))]
+    shown = _first(lines, "; --all lists every one")
+    assert [line for line in shown if line.startswith("  - ")] == [
+        f"  - problem {n}" for n in range(VIOLATIONS_SHOWN)]
+    assert shown[:KNOCK_ONS_SHOWN + 2] == [
+        "  - problem 0", *(f"      so row 0.{k}" for k in range(KNOCK_ONS_SHOWN)),
+        f"      ... and {4 - KNOCK_ONS_SHOWN} more under it"]
+    assert shown[-1] == f"  ... and {25 - VIOLATIONS_SHOWN} more; --all lists every one"
+    # Past the cap in lines, not in problems, with few lines under each: every line.
+    few = [line for n in range(10) for line in (f"  - problem {n}", "      so a", "      so b")]
+    assert _first(few, "; --all lists every one") == few

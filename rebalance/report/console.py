@@ -5,6 +5,7 @@ from __future__ import annotations
 import math
 import textwrap
 from collections.abc import Sequence
+from dataclasses import replace
 
 import numpy as np
 import pandas as pd
@@ -44,6 +45,7 @@ from rebalance.report.limits_view import (
 from rebalance.report.words import outcome_words, plain_status, readable
 from rebalance.solve import StageResult, Status
 from rebalance.verify import Violation
+from rebalance.verify_causes import Problem, group_problems
 
 __all__ = [
     "MEASURE_COLUMN",
@@ -56,6 +58,7 @@ __all__ = [
     "format_summary",
     "format_violations",
     "measure_names",
+    "problem_lines",
     "room_left",
     "stage_value",
 ]
@@ -454,37 +457,48 @@ def format_frame(frame: pd.DataFrame, currency: str | None = None) -> str:
 
 
 def format_violations(violations: Sequence[Violation]) -> str:
-    """The head line, then a line a problem; a coverage.csv row only out of date because of
-    an earlier problem (:attr:`Violation.follows`) is shown under it, one line a row, not as
-    a problem of its own (a moved work row had read as nine problems)."""
+    """The head line, then a line a problem (:func:`~rebalance.verify_causes.group_problems`):
+    a coverage.csv row only out of date because of an earlier problem is shown under it, one
+    line a row (a moved work row had read as nine problems), and the same seats excess at an
+    office over consecutive periods is one line (one extra hire had read as seven)."""
     if not violations:
         return "verification passed: every rule and total checks out"
-    under: dict[int, dict[str, list[Violation]]] = {}  # cause's place -> file:row -> figures
-    place: dict[Violation, int] = {}
-    for ix, v in enumerate(violations):
-        place.setdefault(v, ix)
-    for v in violations:
-        if v.follows is not None and v.follows in place:
-            under.setdefault(place[v.follows], {}).setdefault(v.file, []).append(v)
-    knock_ons = sum(len(figures) for rows in under.values() for figures in rows.values())
-    problems = len(violations) - knock_ons
-    head = f"verification failed: {counted(problems, 'problem')}"
+    problems = group_problems(violations)
+    knock_ons = sum(len(group) for p in problems for group in p.under)
+    head = f"verification failed: {counted(len(problems), 'problem')}"
     if knock_ons:
-        rows = sum(len(by_row) for by_row in under.values())
-        it = "it" if problems == 1 else "them"
+        rows = sum(len(p.under) for p in problems)
+        one = len(problems) == 1
         head += (f"; {counted(knock_ons, 'figure')} in {counted(rows, 'coverage.csv row')} "
-                 f"differ because of {it} and are shown under "
-                 f"{'it' if problems == 1 else 'the one each follows from'}")
+                 f"differ because of {'it' if one else 'them'} and are shown under "
+                 f"{'it' if one else 'the one each follows from'}")
     lines = [head]
-    for ix, v in enumerate(violations):
-        if v.follows is not None and v.follows in place:
-            continue
-        lines.append(f"  - {v}")
-        for file, (first, *rest) in under.get(ix, {}).items():
-            also = [other.message.split(" ", 1)[0] for other in rest]
-            tail = f", and {_listed(also)} with it" if also else ""
-            lines.append(f"      so {file}: {first.where}: {first.message}{tail}")
+    for problem in problems:
+        text, under = problem_lines(problem)
+        lines += [f"  - {text}", *(f"      so {line}" for line in under)]
     return "\n".join(lines)
+
+
+def problem_lines(problem: Problem) -> tuple[str, list[str]]:
+    """A problem's own line and one line for each coverage.csv row that follows from it (only
+    a coverage figure ``follows`` another), in the console's words; a page's list can use the
+    same."""
+    under = []
+    for first, *rest in problem.under:
+        also = [other.message.split(" ", 1)[0] for other in rest]
+        tail = f", and {_listed(also)} with it" if also else ""
+        under.append(f"{first.file}: {first.where}: {first.message}{tail}")
+    return _run_text(*problem.run), under
+
+
+def _run_text(first: Violation, *rest: Violation) -> str:
+    """A violation, or a run of it over consecutive periods ("B in 2027-Q2 to 2027-Q4 (3
+    periods): 7 seats used; 6 exist"): its ``where`` names the office, then the period."""
+    if rest:
+        office = "" if first.at is None else first.at[0]
+        last = rest[-1].where.removeprefix(f"{office} in ")
+        first = replace(first, where=f"{first.where} to {last} ({len(rest) + 1} periods)")
+    return str(first)
 
 
 def _listed(words: Sequence[str]) -> str:

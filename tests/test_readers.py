@@ -29,6 +29,13 @@ def overlay(case: Path, target: Path) -> Path:
     return target
 
 
+def valid_copy(tmp_path: Path) -> Path:
+    """A valid instance folder to spoil, ``tmp_path / "i"`` (tiny's, from the bad cases' base)."""
+    target = overlay(BAD / "empty_demand", tmp_path / "i")
+    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    return target
+
+
 @pytest.mark.parametrize("case", sorted(p.name for p in BAD.iterdir()))
 def test_bad_input_is_reported_in_full_and_nothing_is_written(case, tmp_path, capsys):
     instance = overlay(BAD / case, tmp_path / "instance")
@@ -284,16 +291,14 @@ def test_one_fault_in_a_table_that_names_things_is_said_once(tmp_path):
 
 
 def test_a_byte_order_mark_in_settings_is_read(tmp_path):
-    target = overlay(BAD / "empty_demand", tmp_path / "i")
-    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    target = valid_copy(tmp_path)
     settings = target / "settings.toml"
     settings.write_bytes(b"\xef\xbb\xbf" + settings.read_bytes())
     assert len(read_instance(target).periods) == 4
 
 
 def test_a_setting_nothing_reads_is_a_warning_and_true_is_no_number(tmp_path):
-    target = overlay(BAD / "empty_demand", tmp_path / "i")
-    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    target = valid_copy(tmp_path)
     settings = target / "settings.toml"
     text = settings.read_text().replace("max_away_share", "max_away_shares")
     settings.write_text(text + "\n[extras]\nflag = 1\n")
@@ -309,8 +314,7 @@ def test_a_setting_nothing_reads_is_a_warning_and_true_is_no_number(tmp_path):
 
 
 def test_a_blank_proficiency_is_one_and_every_bad_budget_cell_is_said(tmp_path):
-    target = overlay(BAD / "empty_demand", tmp_path / "i")
-    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    target = valid_copy(tmp_path)
     staff = target / "staff.csv"
     staff.write_text(staff.read_text().replace("a1,A,1.0,review:1.0", "a1,A,1.0,review:"))
     a1 = next(p for p in read_instance(target).staff if p.person == "a1")
@@ -338,8 +342,7 @@ def test_a_count_of_problems_counts_the_rows_a_repeat_stands_for():
 def test_settings_numbers_are_finite_and_shortfall_cost_is_bounded(tmp_path):
     # A sweep of weighted mode: shortfall_cost = inf passed check and then every solve ended
     # in a solver error; 1e100 made CBC call a feasible model infeasible.
-    target = overlay(BAD / "empty_demand", tmp_path / "i")
-    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    target = valid_copy(tmp_path)
     settings = target / "settings.toml"
     text = settings.read_text()
     for line, expected in (
@@ -362,8 +365,7 @@ def test_big_and_small_settings_numbers_are_echoed_as_a_planner_writes_them(tmp_
     # of "1e+12".  Hand arithmetic: 1e13 is 10^13, 1 and 13 zeros; 1e12 is 1 and 12 zeros;
     # 1e300 has 301 digits, so it keeps TOML's short spelling (TOML 1.0.0 spec, "Float":
     # "an exponent part ... an E (upper or lower case), followed by an integer part").
-    target = overlay(BAD / "empty_demand", tmp_path / "i")
-    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    target = valid_copy(tmp_path)
     settings = target / "settings.toml"
     text = settings.read_text()
     for line, shown, bound in (
@@ -395,8 +397,7 @@ def test_plain_number_writes_an_input_number_readably(value, expected):
 def test_the_count_of_problems_includes_the_rows_a_repeat_stands_for(tmp_path, capsys):
     # A docs audit: 15 rows with one fault were headed "11 problem(s)" (ten listed, one line
     # for the rest).
-    target = overlay(BAD / "empty_demand", tmp_path / "i")
-    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    target = valid_copy(tmp_path)
     staff = target / "staff.csv"
     staff.write_text(staff.read_text() + "".join(f"x{i},A,2,review:1.0,,,\n"
                                                  for i in range(15)))
@@ -421,8 +422,7 @@ def test_a_names_table_not_utf8_and_a_huge_integer_are_said_once(tmp_path):
     # A review: an offices.csv not UTF-8 still drew 13 "unknown
     # office" lines (its problem names the bad line, not row 1), and a 400-digit integer in
     # settings raised OverflowError (an internal error).
-    target = overlay(BAD / "empty_demand", tmp_path / "i")
-    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    target = valid_copy(tmp_path)
     offices = target / "offices.csv"
     offices.write_bytes(offices.read_bytes().replace(b"Birch", b"Birch\xf6"))
     problems = _problems(target)
@@ -437,8 +437,7 @@ def test_a_names_table_not_utf8_and_a_huge_integer_are_said_once(tmp_path):
 
 
 def test_a_currency_is_read_stripped_and_carried_on_the_instance(tmp_path):
-    target = overlay(BAD / "empty_demand", tmp_path / "i")
-    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    target = valid_copy(tmp_path)
     assert read_instance(target).money.currency is None  # none given: amounts stay bare
     settings = target / "settings.toml"
     text = settings.read_text()
@@ -452,8 +451,7 @@ def test_a_currency_is_read_stripped_and_carried_on_the_instance(tmp_path):
 
 
 def test_every_bad_currency_is_said_with_its_key_and_what_is_expected(tmp_path):
-    target = overlay(BAD / "empty_demand", tmp_path / "i")
-    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    target = valid_copy(tmp_path)
     settings = target / "settings.toml"
     text = settings.read_text()
     expected = ("is not valid; expected text of 1 to 5 characters without spaces, such as "
@@ -482,8 +480,7 @@ EXPLICIT_PERIODS = "".join(f'[[horizon.periods]]\nname = "2027-Q{q}"\nyear = "20
 
 def _with_explicit_periods(tmp_path: Path, entry_2: str, default: str = "480") -> Path:
     """The tiny instance with its quarters listed one by one, the second as ``entry_2``."""
-    target = overlay(BAD / "empty_demand", tmp_path / "i")
-    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    target = valid_copy(tmp_path)
     text = (target / "settings.toml").read_text()
     text = text.replace('start = "2027-Q1"\ncount = 4\n', "")
     text = text.replace("hours_per_fte = 480", f"hours_per_fte = {default}" if default else "")
@@ -538,8 +535,7 @@ def test_periods_listed_with_start_and_count_warn_that_those_are_ignored(tmp_pat
 
 def test_a_whole_float_is_a_whole_number_in_settings_as_in_cells(tmp_path):
     # A docs sweep: count = 4.0 was refused though a cell of 2.0 reads as whole.
-    target = overlay(BAD / "empty_demand", tmp_path / "i")
-    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    target = valid_copy(tmp_path)
     settings = target / "settings.toml"
     text = settings.read_text().replace("count = 4", "count = 4.0").replace(
         "max_consecutive_detail_periods = 2", "max_consecutive_detail_periods = 2.0")
@@ -567,8 +563,7 @@ def test_an_unclosed_quote_is_one_problem_on_one_line(tmp_path):
     # A docs sweep: in budget.csv the swallowed text came back as a second error, newline and
     # all, with a warning that the swallowed year had no row; in offices.csv every staff row
     # naming a swallowed office was unknown.
-    target = overlay(BAD / "empty_demand", tmp_path / "i")
-    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    target = valid_copy(tmp_path)
     settings = target / "settings.toml"
     settings.write_text(settings.read_text().replace("count = 4", "count = 8"))
     (target / "budget.csv").write_text('year,hiring,moves\n2027,"40000,30000\n2028,1,1\n')
@@ -587,8 +582,7 @@ def test_an_unclosed_quote_is_one_problem_on_one_line(tmp_path):
 def _staff_variant(tmp_path: Path, old: str, new: str) -> Path:
     """The tiny instance with an office 'birch-north' added and ``old`` in staff.csv made
     ``new``."""
-    target = overlay(BAD / "empty_demand", tmp_path / "i")
-    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    target = valid_copy(tmp_path)
     offices = target / "offices.csv"
     offices.write_text(offices.read_text().rstrip("\n") + "\nbirch-north,Birch,6,1\n")
     staff = target / "staff.csv"
@@ -652,8 +646,7 @@ def test_weighted_mode_with_free_shortfall_is_a_warning(tmp_path):
 def test_a_number_in_quotes_is_said_to_be_text(tmp_path):
     # Sweep: hours_per_fte = "450" read "'450' is not valid; expected a number > 0", the
     # quotes unsaid.  TOML 1.0 (toml.io, "String"): anything in quotes is a string.
-    target = overlay(BAD / "empty_demand", tmp_path / "i")
-    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    target = valid_copy(tmp_path)
     settings = target / "settings.toml"
     text = settings.read_text().replace("hours_per_fte = 480", 'hours_per_fte = "450"')
     settings.write_text(text.replace("max_away_share = 0.5", 'max_away_share = "0.5"'))
@@ -734,8 +727,7 @@ def test_a_plan_folder_given_as_the_instance_is_said_to_be_one(tmp_path):
 def test_a_title_is_read_stripped_and_the_name_stays_the_folders(tmp_path):
     # Common practice: a report is headed with the words its author gives, and the folder
     # name stays the instance's name (summary.json and the CLI go by it).
-    target = overlay(BAD / "empty_demand", tmp_path / "i")
-    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    target = valid_copy(tmp_path)
     untitled = read_instance(target)
     assert (untitled.name, untitled.title, untitled.heading) == ("i", None, "i")
     settings = target / "settings.toml"
@@ -749,8 +741,7 @@ def test_a_title_is_read_stripped_and_the_name_stays_the_folders(tmp_path):
 
 
 def test_every_bad_title_is_said_with_its_key_and_a_top_level_one_where_it_belongs(tmp_path):
-    target = overlay(BAD / "empty_demand", tmp_path / "i")
-    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    target = valid_copy(tmp_path)
     settings = target / "settings.toml"
     text = settings.read_text()
     expected = ("is not valid; expected one line of text of 1 to 120 characters, such as "

@@ -375,7 +375,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("instance", help=INSTANCE_HELP)
     p.add_argument("plan_dir", help="folder a plan was written to (rebalance plan -o)")
     p.add_argument("--all", action="store_true",
-                   help=f"list every violation, not only the first {VIOLATIONS_SHOWN}")
+                   help=f"list every problem, not only the first {VIOLATIONS_SHOWN}")
     p.set_defaults(run=cmd_verify)
 
     p = sub.add_parser("demand", help="forecast FTE demand from workload history into an "

@@ -18,9 +18,10 @@ from rebalance.instance import Instance
 from rebalance.problems import problems_counted
 from rebalance.readers import InstanceError, count_problems, read_instance
 from rebalance.solve import Status
+from rebalance.verify_causes import KNOCK_ONS_SHOWN, PROBLEMS_SHOWN
 
-VIOLATIONS_SHOWN = 20  # of a long list of problems or violations: enough to see why
-KNOCK_ONS_SHOWN = 3  # lines under each of those, where the list runs past the cap in lines
+# Of a long list of problems or violations: enough to see why (the page's cap too).
+VIOLATIONS_SHOWN = PROBLEMS_SHOWN
 EXIT_OK = 0
 EXIT_INTERNAL = 1
 EXIT_USAGE = 2

@@ -40,8 +40,13 @@ from rebalance.plan import Plan, records
 if TYPE_CHECKING:
     from rebalance.verify import Violation
 
-__all__ = ["KNOCK_ON_RULES", "Problem", "group_problems", "link_knock_ons"]
+__all__ = ["KNOCK_ONS_SHOWN", "KNOCK_ON_RULES", "PROBLEMS_SHOWN", "Problem", "group_problems",
+           "link_knock_ons"]
 
+# Problems listed of a failed verification before the rest are counted (on the console and the
+# page alike), and the knock-on lines kept under each where the list runs long.
+PROBLEMS_SHOWN = 20
+KNOCK_ONS_SHOWN = 3
 # Coverage figures recomputed from work and hires: the ones an edit of those tables moves.
 KNOCK_ON_RULES = frozenset(f"coverage_{column}" for column in (
     "staff_output", "hire_output", "covered", "shortfall", "weighted_shortfall"))

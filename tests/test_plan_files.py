@@ -288,3 +288,14 @@ def test_a_repeated_row_names_its_line_past_a_blank_line(plan_dir, tmp_path, cap
         "a period): keep one of the rows"]
     # In memory as a plan made there: rows by place, the skipped line a gap.
     assert read_plan(plan_dir).details.index.tolist() == [0, *range(2, len(lines) + 1)]
+
+
+def test_verify_all_says_it_lists_every_problem():
+    # verify's cap is of problems (a seats excess over a run of periods, a moved work row and
+    # its coverage rows, are one each): its --all had promised "every violation".
+    from rebalance.cli import build_parser
+
+    verify = next(action.choices["verify"] for action in build_parser()._actions
+                  if action.choices and "verify" in action.choices)
+    words = next(action.help for action in verify._actions if "--all" in action.option_strings)
+    assert words == f"list every problem, not only the first {VIOLATIONS_SHOWN}"

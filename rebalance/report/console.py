@@ -45,10 +45,12 @@ from rebalance.report.limits_view import (
 from rebalance.report.words import outcome_words, plain_status, readable
 from rebalance.solve import StageResult, Status
 from rebalance.verify import Violation
-from rebalance.verify_causes import Problem, group_problems
+from rebalance.verify_causes import KNOCK_ONS_SHOWN, PROBLEMS_SHOWN, Problem, group_problems
 
 __all__ = [
+    "KNOCK_ONS_SHOWN",
     "MEASURE_COLUMN",
+    "PROBLEMS_SHOWN",
     "budget_note",
     "cell_text",
     "column_decimals",
@@ -154,6 +156,8 @@ def format_check(instance: Instance) -> str:
     return "\n".join(lines)
 
 
+
+
 def format_summary(result: PlanResult) -> str:
     lines = _outcome_lines(result)
     plan = result.plan
@@ -201,8 +205,21 @@ def format_summary(result: PlanResult) -> str:
             lines += ["", "  shortfall by office (FTE-periods, unweighted): " + ", ".join(
                 f"{office} {fte_total_text(value)}" for office, value in short.items())]
         lines += ["", *_limit_lines(result)]
-        lines += ["", f"  independent verification: {_verdict(result)}"]
-        lines += [f"    - {v}" for v in result.violations[:20]]
+        # Problems as verify lists them (format_violations), capped as it caps them: the
+        # first 20 violations, one line each, had cut a long list at no problem's end.
+        problems = group_problems(result.violations)
+        lines += ["", "  independent verification: " + (
+            "passed" if result.verified else f"FAILED ({counted(len(problems), 'problem')})")]
+        long = sum(1 + len(p.under) for p in problems) > PROBLEMS_SHOWN  # lines, as verify
+        for problem in problems[:PROBLEMS_SHOWN]:
+            text, under = problem_lines(problem)
+            shown = under[:KNOCK_ONS_SHOWN] if long else under
+            lines += [f"    - {text}", *(f"        so {line}" for line in shown)]
+            if len(shown) < len(under):
+                lines.append(f"        ... and {len(under) - len(shown)} more under it")
+        if len(problems) > PROBLEMS_SHOWN:
+            lines.append(f"    ... and {len(problems) - PROBLEMS_SHOWN} more; rebalance verify "
+                         "with --all lists every one")
         lines += ["", "  Caution: " + CAUTION]
     else:
         # The caution is about a plan; with none, what a reader needs is that nothing moved.
@@ -303,7 +320,9 @@ def format_outcome(result: PlanResult, *, replan: bool = False) -> str:
 
 
 def _verdict(result: PlanResult) -> str:
-    return "passed" if result.verified else f"FAILED ({len(result.violations)} problems)"
+    if result.verified:
+        return "passed"
+    return f"FAILED ({counted(len(group_problems(result.violations)), 'problem')})"
 
 
 def _outcome_lines(result: PlanResult, *, replan: bool = False) -> list[str]:

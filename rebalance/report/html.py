@@ -48,6 +48,7 @@ from rebalance.report.htmlparts import (
     card,
     chart,
     e,
+    problem_list,
     scenario_box,
     section,
     stage_words,
@@ -580,8 +581,8 @@ def _run_details(data: ReportData) -> str:
                             (s.seconds if s.seconds is not None else -1,
                              secs(s.seconds)), s.solver_says] for s in run.stages],
                           name="stages", numeric=[False, False, True, True, True, True, False])
-    for title, items in (("Violations", run.violations), ("Limits in conflict", run.conflicts),
-                         ("Input warnings", run.warnings)):
+    out += problem_list(data.problems, run.violations)  # each problem's knock-ons under it
+    for title, items in (("Limits in conflict", run.conflicts), ("Input warnings", run.warnings)):
         if items:
             out += f"<h3>{title}</h3><ul>" + "".join(f"<li>{e(i)}</li>" for i in items) + \
                 "</ul>"

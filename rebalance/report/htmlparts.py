@@ -22,6 +22,7 @@ from rebalance.numbers import (
 )
 from rebalance.report.console import (
     MEASURE_COLUMN,
+    PROBLEMS_SHOWN,
     cell_text,
     column_decimals,
     is_flag,
@@ -33,10 +34,10 @@ from rebalance.report.words import optimal_words, plain_status, readable
 from rebalance.solve import StageResult, Status
 
 if TYPE_CHECKING:
-    from rebalance.report.inputs import ScenarioSummary
+    from rebalance.report.inputs import ProblemText, ScenarioSummary
 
-__all__ = ["card", "chart", "e", "frame_table_html", "scenario_box", "section", "stage_words",
-           "table_html"]
+__all__ = ["card", "chart", "e", "frame_table_html", "problem_list", "scenario_box", "section",
+           "stage_words", "table_html"]
 
 # Under the scenario box: whose data the page's figures are.
 SCENARIO_FIGURES = ("Every figure on this page is of the plan made under these changes, not "
@@ -211,3 +212,26 @@ def scenario_box(scenario: ScenarioSummary | None) -> str:
             f'<div class="scenario-changes">{items("Demand", scenario.demand)}'
             f"{items('Budgets', scenario.budget)}</div>"
             f'<p class="scenario-figures">{e(SCENARIO_FIGURES)}</p></aside>')
+
+
+def problem_list(problems: Sequence[ProblemText], flat: Sequence[str] = ()) -> str:
+    """A failed verification's problems as a list, each with the coverage.csv rows only out of
+    date because of it in a list under it, capped as the console caps them
+    (:data:`~rebalance.report.console.PROBLEMS_SHOWN` problems, the rest counted); ``flat``
+    lines, one a problem, where no grouped ``problems`` are given; "" for none."""
+    listed = [(p.text, p.under) for p in problems] or [(line, ()) for line in flat]
+    if not listed:
+        return ""
+
+    def item(text: str, under: Sequence[str]) -> str:
+        knock_ons = "".join(f"<li>so {e(line)}</li>" for line in under)
+        return f"<li>{e(text)}" + (f'<ul class="knock-ons">{knock_ons}</ul>' if under else
+                                   "") + "</li>"
+
+    items = "".join(item(text, under) for text, under in listed[:PROBLEMS_SHOWN])
+    more = (f'<p class="more">Showing the first {PROBLEMS_SHOWN} of {len(listed):,} problems; '
+            "rebalance verify with --all lists every one.</p>"
+            if len(listed) > PROBLEMS_SHOWN else "")
+    lead = ("<p>Each problem once, with the coverage.csv rows only out of date because of it "
+            "under it.</p>" if any(under for _, under in listed) else "")
+    return f'<h3>Violations</h3>{lead}<ul class="problems">{items}</ul>{more}'

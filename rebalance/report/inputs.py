@@ -21,11 +21,14 @@ from rebalance.numbers import gap_text
 from rebalance.plan import Plan, read_plan
 from rebalance.planning import CAUTION, PlanResult, summary_dict
 from rebalance.problems import problems_counted
+from rebalance.report.console import problem_lines
 from rebalance.verify import Violation, verify_folder
+from rebalance.verify_causes import group_problems
 
-__all__ = ["ANALYSIS_FILES", "SCENARIO_KEY", "SHEET_ONLY", "TABLE_FILES", "ReplanSummary",
-           "ReportData", "RunSummary", "ScenarioSummary", "StageSummary", "quality_notes",
-           "report_data", "report_data_from_folder", "stored_instance_path"]
+__all__ = ["ANALYSIS_FILES", "SCENARIO_KEY", "SHEET_ONLY", "TABLE_FILES", "ProblemText",
+           "ReplanSummary", "ReportData", "RunSummary", "ScenarioSummary", "StageSummary",
+           "problem_texts", "quality_notes", "report_data", "report_data_from_folder",
+           "stored_instance_path"]
 
 # Analysis tables a plan folder may hold (issue 5 writes them); each section shows only if
 # its file is there.  Several names are accepted for the scenario comparison.
@@ -192,6 +195,23 @@ class RunSummary:
 
 
 @dataclass(frozen=True)
+class ProblemText:
+    """One problem of a failed verification as the reports list it: its own line and a line
+    for each coverage.csv row only out of date because of it (in the console's words,
+    :func:`rebalance.report.console.problem_lines`)."""
+
+    text: str
+    under: tuple[str, ...] = ()
+
+
+def problem_texts(violations: Sequence[Violation]) -> tuple[ProblemText, ...]:
+    """``violations`` grouped into problems (:func:`rebalance.verify_causes.group_problems`),
+    as text: a moved work row had listed as nine lines on the page, one extra hire as seven."""
+    return tuple(ProblemText(text, tuple(under)) for text, under in (
+        problem_lines(problem) for problem in group_problems(violations)))
+
+
+@dataclass(frozen=True)
 class ReportData:
     """Everything the workbook and HTML writers read."""
 
@@ -204,6 +224,9 @@ class ReportData:
     # TABLE_FILES present in the folder, in that order: (name, table).
     tables: tuple[tuple[str, pd.DataFrame], ...] = ()
     notes: tuple[str, ...] = field(default=())
+    # The summary's violations grouped into problems (problem_texts), which summary.json's
+    # flat list of lines cannot say; empty where the plan passed.
+    problems: tuple[ProblemText, ...] = ()
 
 
 # Above this gap a stopped solve is flagged at the top of the page (common practice is to
@@ -238,7 +261,8 @@ def report_data(result: PlanResult, plan_dir: str | Path | None = None) -> Repor
         # What that scenario assumed: both commands add it beside the name.
         summary.setdefault(SCENARIO_KEY, _summary_key(Path(plan_dir), SCENARIO_KEY))
     return ReportData(result.instance, result.plan, RunSummary.from_dict(summary),
-                      tables=tables, notes=tuple(notes), **analysis)
+                      tables=tables, notes=tuple(notes),
+                      problems=problem_texts(result.violations), **analysis)
 
 
 def _summary_key(folder: Path, key: str) -> Any:
@@ -275,13 +299,15 @@ def report_data_from_folder(plan_dir: str | Path, instance: Instance,
         violations = verify_folder(instance, folder)
     raw["verification"] = {"passed": not violations,
                            "violations": [str(v) for v in violations]}
-    if violations:
+    problems = problem_texts(violations)
+    if problems:
+        # Counted as listed (a moved work row is one problem, not its nine lines).
         notes.append(f"verified again for this report against instance {instance.name}: "
-                     f"{problems_counted(len(violations))}, listed under the run's details; the "
+                     f"{problems_counted(len(problems))}, listed under the run's details; the "
                      "figures below are the files' as they stand")
     analysis, tables, more = _analysis_tables(folder)
     return ReportData(instance, read_plan(folder), RunSummary.from_dict(raw), tables=tables,
-                      notes=tuple(notes + more), **analysis)
+                      notes=tuple(notes + more), problems=problems, **analysis)
 
 
 def _read_table(path: Path, notes: list[str]) -> pd.DataFrame | None:

@@ -48,3 +48,84 @@ def test_a_stage_optimal_within_the_gap_asked_says_what_is_left():
                                                         stages=(first, *result.solve.stages[1:]))))
     assert "stage shortfall: optimal within the gap asked (0.53% left), objective 165.945" in text
     assert "stage cost: optimal, objective 43,000" in text  # exact: no words added
+
+
+def _tiny_result():
+    from conftest import DATA, solve_verified
+
+    from rebalance import read_instance
+
+    return solve_verified(read_instance(DATA / "tiny"))
+
+
+def test_the_summary_lists_problems_as_verify_does(tmp_path):
+    # The summary had listed the first 20 violations one a line: a moved work row read as
+    # several problems, and the cut fell anywhere.  Now its list is verify's, indented.
+    import shutil
+    from dataclasses import replace
+
+    from conftest import DATA
+    from report_cases import tiny_plan_folder
+
+    from rebalance import read_instance
+    from rebalance.report.console import format_summary, format_violations
+    from rebalance.verify import verify_folder
+
+    folder = tmp_path / "moved"
+    shutil.copytree(tiny_plan_folder(), folder)
+    work = (folder / "work.csv").read_text().splitlines()
+    person, period, office, *rest = work[1].split(",")
+    work[1] = ",".join([person, period, {"A": "B", "B": "A"}[office], *rest])
+    (folder / "work.csv").write_text("\n".join(work) + "\n")
+    violations = tuple(verify_folder(read_instance(DATA / "tiny"), folder))
+    _, *said = format_violations(violations).splitlines()
+    assert any(line.startswith("      so ") for line in said)
+    text = format_summary(replace(_tiny_result(), violations=violations)).splitlines()
+    problems = sum(line.startswith("  - ") for line in said)
+    at = text.index("  independent verification: FAILED "
+                    f"({problems} problem{'' if problems == 1 else 's'})")
+    assert text[at + 1:at + 1 + len(said)] == ["  " + line for line in said]
+    assert text[at + 1 + len(said)] == ""  # nothing cut, nothing counted
+
+
+def test_the_summary_shows_the_first_20_problems_and_counts_the_rest():
+    # Past the cap in lines, each problem keeps its first 3 knock-on lines, as verify's list
+    # does (rebalance.cli_common's VIOLATIONS_SHOWN and KNOCK_ONS_SHOWN).
+    from dataclasses import replace
+
+    from rebalance.report.console import KNOCK_ONS_SHOWN, PROBLEMS_SHOWN, format_summary
+    from rebalance.verify import Violation
+
+    cause = Violation("hire_costs", "1 review at B from 2027-Q4", "onboarding cost differs",
+                      file="hires.csv:2")
+    rows = [Violation("coverage_hire_output", f"review at B in 2027-Q{q}", "hire_output_fte off",
+                      file=f"coverage.csv:{q}", follows=cause) for q in range(1, 6)]
+    others = [Violation("summary", f"figure {i}", "says 1; recomputed 2", file="summary.json")
+              for i in range(PROBLEMS_SHOWN + 4)]
+    text = format_summary(replace(_tiny_result(), violations=(cause, *rows, *others)))
+    lines = text.splitlines()
+    at = lines.index(f"  independent verification: FAILED ({PROBLEMS_SHOWN + 5} problems)")
+    listed = lines[at + 1:lines.index("", at)]
+    assert listed[0] == "    - hires.csv:2: 1 review at B from 2027-Q4: onboarding cost differs"
+    assert listed[1:1 + KNOCK_ONS_SHOWN] == [
+        f"        so coverage.csv:{q}: review at B in 2027-Q{q}: hire_output_fte off"
+        for q in range(1, 1 + KNOCK_ONS_SHOWN)]
+    assert listed[1 + KNOCK_ONS_SHOWN] == f"        ... and {5 - KNOCK_ONS_SHOWN} more under it"
+    assert sum(line.startswith("    - ") for line in listed) == PROBLEMS_SHOWN
+    assert listed[-1] == "    ... and 5 more; rebalance verify with --all lists every one"
+
+
+def test_a_replans_verdict_counts_problems_as_the_summary_does():
+    # format_outcome (a re-plan's console) had counted violations: one edited hire row with
+    # its five knock-on coverage rows read "FAILED (6 problems)".
+    from dataclasses import replace
+
+    from rebalance.report.console import format_outcome
+    from rebalance.verify import Violation
+
+    cause = Violation("hire_costs", "1 review at B from 2027-Q4", "onboarding cost differs",
+                      file="hires.csv:2")
+    rows = [Violation("coverage_hire_output", f"review at B in 2027-Q{q}", "hire_output_fte off",
+                      file=f"coverage.csv:{q}", follows=cause) for q in range(1, 6)]
+    text = format_outcome(replace(_tiny_result(), violations=(cause, *rows)), replan=True)
+    assert "independent verification: FAILED (1 problem)" in text, text

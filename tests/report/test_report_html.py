@@ -385,3 +385,81 @@ def test_a_titled_instance_heads_the_page_and_the_workbook_and_still_names_its_f
     page = render_html(report_data_from_folder(folder, instance))
     assert f"<title>Scenario b-surge · {title}</title>" in page
     assert f'<p class="kicker">Staffing plan · {title}</p>' in page
+
+
+def _moved_and_one_more_hire(folder: Path) -> Path:
+    """``folder`` with its first hires.csv count raised by 1 and its first work.csv row moved
+    to the other office: the hand edits a planner tries first."""
+    hires = (folder / "hires.csv").read_text().splitlines()
+    office, skill, start, count, *rest = hires[1].split(",")
+    hires[1] = ",".join([office, skill, start, str(int(count) + 1), *rest])
+    (folder / "hires.csv").write_text("\n".join(hires) + "\n")
+    work = (folder / "work.csv").read_text().splitlines()
+    person, period, office, *rest = work[1].split(",")
+    work[1] = ",".join([person, period, {"A": "B", "B": "A"}[office], *rest])
+    (folder / "work.csv").write_text("\n".join(work) + "\n")
+    return folder
+
+
+def test_the_run_details_list_each_problem_once_with_its_knock_on_rows_under_it(tmp_path):
+    # A sweep raised one hire and moved one work row: the page had listed 15 lines, one a
+    # violation (the moved row's coverage figures one a line), where verify lists 7 problems
+    # with the coverage rows under the one each follows from.  The page's list is verify's.
+    from rebalance.report.console import format_violations
+    from rebalance.verify import verify_folder
+
+    folder = _moved_and_one_more_hire(_copy(tmp_path))
+    instance = read_instance(TINY)
+    violations = verify_folder(instance, folder)
+    said = format_violations(violations).splitlines()[1:]
+    problems = [line.removeprefix("  - ") for line in said if line.startswith("  - ")]
+    under = [line.removeprefix("      so ") for line in said if line.startswith("      so ")]
+    assert len(problems) + len(under) == len(said) and under  # the edit leaves knock-ons
+    page = render_html(report_data_from_folder(folder, instance, violations))
+    listed = page[page.index('<ul class="problems">'):]
+    listed = listed[:re.search(r"</ul>(?!</li>)", listed).start()]  # the outer list's end
+    assert listed.count("<li>so ") == len(under) and listed.count("<li>") == len(said)
+    for text in problems:
+        assert listed.count(f"<li>{html.escape(text)}") == 1
+    for text in under:
+        assert listed.count(f"<li>so {html.escape(text)}</li>") == 1
+    # The note at the top counts what the list shows: problems, not its lines.
+    assert html.escape(f"{len(problems)} problems, listed under the run's details") in page
+
+
+def test_a_fresh_plans_page_groups_its_problems_as_a_rebuilt_one_does(tmp_path):
+    # report_data (rebalance plan's page) and report_data_from_folder (rebalance report's)
+    # carry the same grouping; summary.json keeps only the flat lines.
+    from dataclasses import replace
+
+    from conftest import solve_verified
+
+    from rebalance.report.inputs import report_data
+    from rebalance.verify import verify_folder
+
+    folder = _moved_and_one_more_hire(_copy(tmp_path))
+    instance = read_instance(TINY)
+    violations = tuple(verify_folder(instance, folder))
+    fresh = report_data(replace(solve_verified(instance), violations=violations))
+    again = report_data_from_folder(folder, instance, violations)
+    assert fresh.problems == again.problems and any(p.under for p in fresh.problems)
+    assert len(fresh.summary.violations) == len(violations)  # summary.json's lines, flat
+
+
+def test_the_page_lists_the_first_problems_as_the_console_does_and_counts_the_rest():
+    # The console's cap (PROBLEMS_SHOWN, verify's 20) counted in problems, each whole with
+    # its knock-on rows; a page without grouped problems lists summary.json's lines.
+    from rebalance.report.console import PROBLEMS_SHOWN
+    from rebalance.report.htmlparts import problem_list
+    from rebalance.report.inputs import ProblemText
+
+    problems = [ProblemText(f"hires.csv:{i}: wrong", (f"coverage.csv:{i}: off",))
+                for i in range(PROBLEMS_SHOWN + 5)]
+    page = problem_list(problems)
+    assert page.count('<ul class="knock-ons">') == PROBLEMS_SHOWN
+    assert f"<li>hires.csv:{PROBLEMS_SHOWN - 1}: wrong" in page
+    assert f"hires.csv:{PROBLEMS_SHOWN}: wrong" not in page
+    assert f"Showing the first {PROBLEMS_SHOWN} of {PROBLEMS_SHOWN + 5} problems" in page
+    flat = problem_list([], ["costs.csv:4: says 1; recomputed 2"])
+    assert "<li>costs.csv:4: says 1; recomputed 2</li>" in flat and "Showing" not in flat
+    assert "knock-ons" not in flat and problem_list([], []) == ""

@@ -25,12 +25,12 @@ from rebalance.cli_common import (
     INSTANCE_HELP,
     MONEY,
     STATUS_EXIT,
-    VIOLATIONS_SHOWN,
     _err,
     _keep_frontier,
     _load,
     _number,
     _say_first,
+    _say_violations,
     _unreadable_plan,
     add_solver_options,
     scenario_of,
@@ -72,10 +72,8 @@ def _plan_failed(result) -> int | None:
 
 
 def _say_unverified(head: str, result: PlanResult) -> None:
-    """``head``, then the first violations of ``result``'s plan."""
-    _err(head)
-    for violation in result.violations[:VIOLATIONS_SHOWN]:
-        _err(f"  {violation}")
+    """``head``, then the first problems of ``result``'s plan."""
+    _say_violations(head, result.violations)
 
 
 def _write_analysis_plan(args: argparse.Namespace, result, instance: Instance,
@@ -229,6 +227,11 @@ def cmd_replan(args: argparse.Namespace) -> int:
         _err(f"-o {args.out}: that is the --from folder; the new plan would replace the old "
              "one it starts from. Give another folder to keep both; nothing was written")
         return EXIT_USAGE
+    if args.planned_ahead and not args.scenario:
+        # Unchanged data: planned from the start they are the old plan's own problem.
+        _err("--planned-ahead needs --scenario: it compares reacting at --at with planning "
+             "for the scenario's data from the start; nothing was written")
+        return EXIT_USAGE
     try:
         old = read_plan(folder, complete=True)
     except PlanError as exc:
@@ -261,9 +264,14 @@ def cmd_replan(args: argparse.Namespace) -> int:
         return EXIT_USAGE
     costs = DisruptionCosts(args.disruption_detail, args.disruption_reassignment,
                             args.disruption_hire)
+    from dataclasses import replace
+
+    from rebalance.analysis.foresight import plan_ahead, split_time, with_planned_ahead
+
+    options = _analysis_options(instance, args, progress=True)
+    own, ahead_options = split_time(options) if args.planned_ahead else (options, options)
     try:
-        out = replan(instance, old, instance.period_names.index(args.at),
-                     _analysis_options(instance, args, progress=True), costs,
+        out = replan(instance, old, instance.period_names.index(args.at), own, costs,
                      allow_recall=args.allow_recall, folder=folder)
     except ReplanError as exc:
         _say_first(f"{folder}: the old plan cannot be carried forward; nothing was written",
@@ -279,6 +287,13 @@ def cmd_replan(args: argparse.Namespace) -> int:
     code = _plan_failed(out.result)
     if code is not None:
         return code
+    ahead = None
+    if args.planned_ahead:
+        _err(f"planning the same data from {instance.period_names[0]}, nothing fixed: "
+             f"{_seconds(ahead_options.time_limit_seconds)} of the --time-limit, the re-plan "
+             f"had {_seconds(own.time_limit_seconds)}")
+        ahead = plan_ahead(instance, ahead_options)
+        out = replace(out, summary=with_planned_ahead(out.summary, out.result, ahead))
     from rebalance.report.console import format_outcome
 
     print(format_outcome(out.result, replan=True) + "\n")
@@ -300,14 +315,25 @@ def cmd_replan(args: argparse.Namespace) -> int:
               "reassignment or hire)")
     else:
         print(f"work split: everyone works as in the old plan from {args.at} on")
+    more = None
+    if ahead is not None:
+        from rebalance.cli_foresight import planned_ahead_folder, say_late_notice
+
+        code = say_late_notice(out.summary, args.at, instance, ahead)
+        if code is not None:
+            return code
+        more = planned_ahead_folder(ahead, scenario_name, assumed)
 
     # Under a scenario the plan belongs to the changed data, not to the instance folder:
     # record no instance path, so 'rebalance report' asks for one rather than mislead.
     return _write_analysis_plan(args, out.result, instance,
                                 {"changes.csv": out.changes, "replan.csv": out.summary},
                                 None if args.scenario else args.instance,
-                                "new plan, changes.csv and replan.csv", replanned_at=out.at,
-                                scenario=scenario_name, assumed=assumed)
+                                "new plan, changes.csv and replan.csv" if not more else
+                                "new plan, changes.csv, replan.csv and the plan made ahead "
+                                "(planned_ahead/)",
+                                more=more, replanned_at=out.at, scenario=scenario_name,
+                                assumed=assumed)
 
 
 def cmd_frontier(args: argparse.Namespace) -> int:
@@ -521,6 +547,10 @@ def add_analysis_commands(sub) -> None:
                    help="details under way may end early")
     p.add_argument("--scenario", metavar="FILE",
                    help="re-plan under a surge scenario's data (what landed at PERIOD)")
+    p.add_argument("--planned-ahead", action="store_true",
+                   help="also plan the scenario's data from the first period, nothing fixed, "
+                        "into OUT/planned_ahead/, and say what reacting at PERIOD cost (a "
+                        "third of --time-limit; the re-plan keeps two thirds)")
     solver_options(p)
     p.set_defaults(run=cmd_replan, output_kind="plan")
 

@@ -39,7 +39,7 @@ from rebalance.solve import SolveOptions
 from rebalance.verify import verify_plan
 
 __all__ = ["CHANGE_COLUMNS", "SPLIT_TOLERANCE_FTE", "DisruptionCosts", "Replan", "ReplanError",
-           "replan", "work_split_changes"]
+           "plan_measures", "replan", "work_split_changes"]
 
 # Verifier rules about the old plan's own figures, not about what it does.
 BOOKKEEPING = frozenset({"costs", "hire_cost", "detail_cost", "reassignment_cost"})
@@ -256,7 +256,7 @@ def _hire_changes(old: Plan, new: Plan, ix: dict[str, int],
     return sorted(rows, key=lambda r: (ix[str(r[4])], str(r[2]), str(r[3]), str(r[1])))
 
 
-def _measures(instance: Instance, plan: Plan) -> dict[str, float]:
+def plan_measures(instance: Instance, plan: Plan) -> dict[str, float]:
     """Headline figures of a plan against ``instance`` (coverage and costs recomputed, so an
     old plan is measured against the new data)."""
     coverage = coverage_table(instance, plan.work, plan.hires)
@@ -333,8 +333,8 @@ def work_split_changes(instance: Instance, old: Plan, new: Plan, at: int) -> int
 
 def _summary(instance: Instance, old: Plan, new: Plan | None, changes: pd.DataFrame,
              disruption: float, at: int) -> pd.DataFrame:
-    before = _measures(instance, _under_current_data(instance, old))
-    after = _measures(instance, new) if new is not None else {}
+    before = plan_measures(instance, _under_current_data(instance, old))
+    after = plan_measures(instance, new) if new is not None else {}
     rows = [(k, before[k], after.get(k, math.nan), after.get(k, math.nan) - before[k])
             for k in before]
     rows.append(("changes", 0.0, float(len(changes)), float(len(changes))))

@@ -41,6 +41,7 @@ from rebalance.report.analysis_words import (
     status_in_words,
     years_as_text,
 )
+from rebalance.report.foresight_words import late_notice_line
 from rebalance.report.htmlparts import chart, e, frame_table_html, section
 from rebalance.report.inputs import SHEET_ONLY, ReportData
 
@@ -329,8 +330,15 @@ def _replan_lead(data: ReportData) -> str:
         f"{'' if int(moved) == 1 else 's'} from {e(replan.from_period)} on (no disruption "
         "cost: moving work between a person's skills is not a change of detail, "
         "reassignment or hire). ")
+    # Where the same data were planned from the start too (--planned-ahead): what reacting
+    # late cost, as the console says it.
+    late = late_notice_line(table, replan.from_period, data.instance.period_names[0],
+                            data.instance.money.currency)
+    ahead = "" if not late else (
+        f"{e(late)} The plan made ahead is in the <code>planned_ahead/</code> folder beside "
+        "this page; the table's <code>planned_ahead</code> column gives its figures. ")
     return (f"Re-planned from <strong>{e(replan.from_period)}</strong> on, {scenario}; before "
-            f"{e(replan.from_period)} the old plan stands as it happened. {split}")
+            f"{e(replan.from_period)} the old plan stands as it happened. {split}{ahead}")
 
 
 def _measure(frame: pd.DataFrame, measure: str, column: str = "new_plan") -> float | None:

@@ -18,6 +18,7 @@ from rebalance.instance import Instance
 from rebalance.problems import problems_counted
 from rebalance.readers import InstanceError, count_problems, read_instance
 from rebalance.solve import Status
+from rebalance.verify import Violation
 from rebalance.verify_causes import KNOCK_ONS_SHOWN, PROBLEMS_SHOWN
 
 # Of a long list of problems or violations: enough to see why (the page's cap too).
@@ -56,6 +57,17 @@ def _load(path: str, writes: bool = True) -> Instance | None:
         for problem in exc.problems:
             _err(("  warning: " if problem.is_warning else "  ") + str(problem))
         return None
+
+
+def _say_violations(head: str, violations: Sequence[Violation]) -> None:
+    """``head``, then the first problems of a failed verification as ``rebalance verify``
+    lists them (knock-on lines under their cause, a run of periods one line), on stderr."""
+    from rebalance.report.console import format_violations
+
+    _err(head)
+    for line in _first(format_violations(violations).splitlines()[1:],
+                       "; rebalance verify with --all lists every one"):
+        _err(line)
 
 
 def _first(lines: Sequence[str], hint: str = "") -> list[str]:

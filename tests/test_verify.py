@@ -624,3 +624,21 @@ def test_the_printed_cap_counts_problems_and_keeps_their_lines_with_them():
     # Past the cap in lines, not in problems, with few lines under each: every line.
     few = [line for n in range(10) for line in (f"  - problem {n}", "      so a", "      so b")]
     assert _first(few, "; --all lists every one") == few
+
+
+def test_an_analysis_plan_that_fails_verification_lists_problems_as_verify_does(capsys):
+    # compare, frontier, marginal and replan --planned-ahead had listed the first 20
+    # violations one a line: an edited hire row with its knock-on coverage rows read as six.
+    from rebalance.cli_common import _say_violations
+    from rebalance.verify import Violation
+
+    cause = Violation("hire_costs", "1 review at B from 2027-Q4", "onboarding cost differs",
+                      file="hires.csv:2")
+    rows = [Violation("coverage_hire_output", f"review at B in 2027-Q{q}", "hire_output_fte off",
+                      file=f"coverage.csv:{q}", follows=cause) for q in range(1, 6)]
+    _say_violations("point 1: the plan failed verification", [cause, *rows])
+    said = capsys.readouterr().err.splitlines()
+    assert said[:3] == ["point 1: the plan failed verification",
+                        "  - hires.csv:2: 1 review at B from 2027-Q4: onboarding cost differs",
+                        "      so coverage.csv:1: review at B in 2027-Q1: hire_output_fte off"]
+    assert len(said) == 7 and sum(line.startswith("  - ") for line in said) == 1

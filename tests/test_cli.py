@@ -265,7 +265,7 @@ def test_a_frontier_with_an_unverified_plan_writes_nothing(tmp_path, monkeypatch
                      "--workers", "1", "-q"]) == EXIT_VERIFICATION_FAILED
         err = capsys.readouterr().err
         assert "point 1: the plan failed verification" in err
-        assert "  here: made to fail" in err and "nothing was written" in err
+        assert "  - here: made to fail" in err and "nothing was written" in err
     assert not fresh.exists()
     assert sorted(p.name for p in kept.iterdir()) == ["frontier.csv"]
     assert (kept / "frontier.csv").read_text() == "an earlier frontier\n"

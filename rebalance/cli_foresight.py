@@ -18,7 +18,7 @@ import pandas as pd
 from rebalance.cli_common import EXIT_VERIFICATION_FAILED, _say_violations
 from rebalance.instance import Instance
 from rebalance.planning import PlanResult
-from rebalance.report.inputs import SCENARIO_KEY
+from rebalance.report.inputs import AHEAD_KEY, SCENARIO_KEY
 from rebalance.report.words import plain_status
 
 __all__ = ["AHEAD_FOLDER", "planned_ahead_folder", "say_late_notice"]
@@ -46,12 +46,13 @@ def say_late_notice(summary: pd.DataFrame, at: str, instance: Instance,
     return None
 
 
-def planned_ahead_folder(ahead: PlanResult, scenario: str | None,
-                         assumed: dict | None) -> Callable[[Path], None] | None:
+def planned_ahead_folder(ahead: PlanResult, scenario: str | None, assumed: dict | None,
+                         at: str) -> Callable[[Path], None] | None:
     """What writes the plan made ahead into ``planned_ahead/`` of the re-plan's staged folder
     (one swap for both), as compare writes its scenarios' plans: the plan tables, its
-    summary.json naming the scenario, reasons.csv and its own page and workbook.  None where
-    there is no plan."""
+    summary.json naming the scenario and the re-plan's period ``at`` (so its page and workbook
+    say which re-plan it was made ahead for), reasons.csv and its own page and workbook.  None
+    where there is no plan."""
     if ahead.plan is None:
         return None
     from rebalance.analysis.output import write_tables
@@ -68,9 +69,11 @@ def planned_ahead_folder(ahead: PlanResult, scenario: str | None,
         write_plan(ahead.plan, sub)
         # The scenario's data, not the instance's: no instance path, so 'rebalance report'
         # asks for one rather than verify it against the wrong data.
-        summary = {**summary_dict(ahead), "scenario": scenario, SCENARIO_KEY: assumed}
+        summary = {**summary_dict(ahead), "scenario": scenario, SCENARIO_KEY: assumed,
+                   AHEAD_KEY: {"for_replan_at": at}}
         (sub / "summary.json").write_text(json.dumps(summary, indent=2) + "\n")
         write_tables({"reasons.csv": reasons(ahead.instance, ahead.plan).table}, sub)
         write_reports(report_data(ahead, sub), sub)
 
     return write
+

@@ -354,7 +354,16 @@ def compared_row_texts(columns: Sequence[str], values: Sequence[object],
     if len(numbers) != 3 or not all(math.isfinite(v) for v in numbers):
         return {}
     texts = compared_texts(numbers[0], numbers[1], numbers[2], measure)
-    return {j - 2: texts[0], j - 1: texts[1], j: texts[2]}
+    out = {j - 2: texts[0], j - 1: texts[1], j: texts[2]}
+    # A figure after the difference (a re-plan's plan made ahead) with the same decimals as
+    # the three, so a row reads alike across (165.522 beside 170.96049 had not).
+    places = len(texts[0].partition(".")[2])
+    for k in range(j + 1, len(values)):
+        value = values[k]
+        if isinstance(value, Real) and not isinstance(value, bool) and math.isfinite(value):
+            out[k] = (number_text(float(value), measure)
+                      if is_money(measure) or is_gap(measure) else _plain(float(value), places))
+    return out
 
 
 def _plain(value: float, decimals: int) -> str:

@@ -14,9 +14,15 @@ from rebalance.analysis.foresight import AHEAD_COLUMN
 from rebalance.numbers import fte_total_text, gap_text, money_amount
 from rebalance.report.analysis_words import GAP_SAID, WITHIN_GAPS, finite
 
-__all__ = ["late_notice_line"]
+__all__ = ["GAP_ROWS_NOTE", "late_notice_line", "planned_ahead_heading"]
 
 NOT_PROVEN = "(not proven: a solve's gap is unknown)"
+# Under a re-plan's table with the plan made ahead: its last two rows, which a reader had no
+# word for.
+GAP_ROWS_NOTE = ("The shortfall gap and new money gap rows are each solve's stage gaps at "
+                 "stop: how far its shortfall, and its new money (a re-plan's with the "
+                 "disruption cost), may lie from the best the solver could prove; 0.00% is "
+                 "proven best. The old plan was not solved again, so it has none.")
 
 
 def _figure(table: pd.DataFrame, measure: str, column: str) -> float | None:
@@ -94,3 +100,12 @@ def late_notice_line(table: pd.DataFrame | None, at_period: str, first_period: s
         "shortfall is weighed first.")
     return (f"Late notice: reacting in {at_period} {shortfall} and {money} than planning for "
             f"it from {first_period} ({stages}).{unlike}")
+
+
+def planned_ahead_heading(for_replan_at: str, scenario: str | None, first_period: str) -> str:
+    """What a re-plan's ``planned_ahead/`` folder holds, as its page and workbook head it: a
+    scenario's plan heading alone ("Scenario surge") had not said it was made ahead for a
+    re-plan."""
+    data = f"scenario {scenario}" if scenario else "the instance's own data"
+    return (f"Planned ahead: {data} planned from {first_period}, for the re-plan at "
+            f"{for_replan_at}")

@@ -43,7 +43,8 @@ from rebalance.report.chart_data import (
     records,
     spare_capacity,
 )
-from rebalance.report.console import budget_note, stage_value
+from rebalance.report.console import budget_note
+from rebalance.report.foresight_words import planned_ahead_heading
 from rebalance.report.htmlparts import (
     card,
     chart,
@@ -51,10 +52,11 @@ from rebalance.report.htmlparts import (
     problem_list,
     scenario_box,
     section,
+    stage_cell,
     stage_words,
     table_html,
 )
-from rebalance.report.inputs import ReportData, StageSummary, quality_notes
+from rebalance.report.inputs import ReportData, quality_notes
 from rebalance.report.limits_view import (
     DETAILS_AT_LIMIT,
     LIMITS_LEAD,
@@ -352,13 +354,17 @@ def _plan_titled(data: ReportData) -> Callable[[str, str], str]:
 
 def _page_heading(data: ReportData) -> tuple[str, str]:
     """What the page is, as (kicker, heading): a plain plan, a re-plan (from summary.json's
-    ``replan``) or a scenario comparison (a scenarios table beside the plan).  The instance
-    goes by its title where settings give one (report.title), else by its folder's name."""
+    ``replan``), the plan made ahead for one (its ``planned_ahead``) or a scenario comparison
+    (a scenarios table beside the plan).  The instance goes by its title where settings give
+    one (report.title), else by its folder's name."""
     name = data.instance.heading
     replan = data.summary.replan
     if replan is not None:
         also = f", scenario {replan.scenario}" if replan.scenario else ""
         return f"Staffing plan · {name}", f"Re-plan from {replan.from_period}{also}"
+    if (ahead := data.summary.planned_ahead) is not None:  # a re-plan's planned_ahead/ folder
+        return f"Staffing plan · {name}", planned_ahead_heading(
+            ahead.for_replan_at, data.summary.scenario, data.instance.period_names[0])
     if data.summary.scenario:
         # A compare's scenarios/<name>/ folder: the instance's name alone ("tiny+surge") had
         # not said that this is the plan under that scenario.
@@ -538,15 +544,6 @@ def _commitments(data: ReportData) -> str:
                          foot=[["all skills", positions, "", _m(total)]]))
 
 
-def _stage_value(stage: StageSummary, value: float | None,
-                 currency: str | None = None) -> tuple[float, str]:
-    """A stage's objective or bound in its own units: money for the cost stage (with its
-    currency, if any), and for the weighted stage's cost plus shortfall cost."""
-    if value is None:
-        return -1.0, "-"
-    return value, stage_value(stage.name, value, currency)
-
-
 def _run_details(data: ReportData) -> str:
     run = data.summary
     currency = data.instance.money.currency
@@ -574,8 +571,8 @@ def _run_details(data: ReportData) -> str:
         out += table_html(["stage", "outcome, and what the gap leaves open", "objective",
                            "bound", "gap", "seconds", "solver says"],
                           [[s.name, stage_words(s, currency, replan=replan),
-                            _stage_value(s, s.objective, currency),
-                            _stage_value(s, s.bound, currency),
+                            stage_cell(s, s.objective, currency),
+                            stage_cell(s, s.bound, currency),
                             (s.gap if s.gap is not None else -1,
                              "-" if s.gap is None else gap_text(s.gap)),
                             (s.seconds if s.seconds is not None else -1,

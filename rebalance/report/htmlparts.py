@@ -29,6 +29,7 @@ from rebalance.report.console import (
     is_missing,
     measure_names,
     room_left,
+    stage_value,
 )
 from rebalance.report.words import optimal_words, plain_status, readable
 from rebalance.solve import StageResult, Status
@@ -37,7 +38,7 @@ if TYPE_CHECKING:
     from rebalance.report.inputs import ProblemText, ScenarioSummary
 
 __all__ = ["card", "chart", "e", "frame_table_html", "problem_list", "scenario_box", "section",
-           "stage_words", "table_html"]
+           "stage_cell", "stage_words", "table_html"]
 
 # Under the scenario box: whose data the page's figures are.
 SCENARIO_FIGURES = ("Every figure on this page is of the plan made under these changes, not "
@@ -83,6 +84,16 @@ def stage_words(stage: _Stage, currency: str | None = None, *, replan: bool = Fa
             room = "gap unknown" if stage.gap is None else f"gap {gap_text(stage.gap)}"
         return f"not proven optimal: {room}"
     return plain_status(stage.status)
+
+
+def stage_cell(stage: _Stage, value: float | None,
+               currency: str | None = None) -> tuple[float, str]:
+    """A stage's objective or bound as a table cell (value to sort by, text) in its own units:
+    money for the cost stage (with its currency, if any), and for the weighted stage's cost
+    plus shortfall cost."""
+    if value is None:
+        return -1.0, "-"
+    return value, stage_value(stage.name, value, currency)
 
 
 def table_html(headers: Sequence[str], rows: Sequence[Sequence[Any]], *, name: str,

@@ -25,8 +25,9 @@ from rebalance.report.console import problem_lines
 from rebalance.verify import Violation, verify_folder
 from rebalance.verify_causes import group_problems
 
-__all__ = ["ANALYSIS_FILES", "SCENARIO_KEY", "SHEET_ONLY", "TABLE_FILES", "ProblemText",
-           "ReplanSummary", "ReportData", "RunSummary", "ScenarioSummary", "StageSummary",
+__all__ = ["AHEAD_KEY", "ANALYSIS_FILES", "SCENARIO_KEY", "SHEET_ONLY", "TABLE_FILES",
+           "PlannedAheadSummary", "ProblemText", "ReplanSummary", "ReportData", "RunSummary",
+           "ScenarioSummary", "StageSummary",
            "problem_texts", "quality_notes", "report_data", "report_data_from_folder",
            "stored_instance_path"]
 
@@ -111,6 +112,25 @@ class ScenarioSummary:
                    texts("budget"))
 
 
+# summary.json's key of a plan made ahead for a re-plan (``rebalance replan --planned-ahead``
+# writes it in its planned_ahead/ folder).
+AHEAD_KEY = "planned_ahead"
+
+
+@dataclass(frozen=True)
+class PlannedAheadSummary:
+    """Which re-plan a plan was made ahead for (``summary.json``'s :data:`AHEAD_KEY`): the
+    period the re-plan reacts at.  The plan itself runs from the instance's first period."""
+
+    for_replan_at: str
+
+    @classmethod
+    def from_raw(cls, value: Any) -> PlannedAheadSummary | None:
+        if not isinstance(value, dict) or not value.get("for_replan_at"):
+            return None
+        return cls(str(value["for_replan_at"]))
+
+
 @dataclass(frozen=True)
 class RunSummary:
     """The parts of ``summary.json`` a report shows, typed; missing keys read as unknown."""
@@ -142,6 +162,8 @@ class RunSummary:
     # the plan buys.  None where not worked out (weighted mode, a re-plan, a scenario's plan
     # from its base, a very large model) or a folder written before the key.
     staying_put_weighted_shortfall: float | None = None
+    # The re-plan this plan was made ahead for; None: not a plan made ahead.
+    planned_ahead: PlannedAheadSummary | None = None
 
     @classmethod
     def from_dict(cls, raw: Mapping[str, Any]) -> RunSummary:
@@ -191,6 +213,7 @@ class RunSummary:
             scenario=str(raw["scenario"]) if raw.get("scenario") else None,
             scenario_changes=ScenarioSummary.from_raw(raw.get(SCENARIO_KEY)),
             staying_put_weighted_shortfall=num(raw.get("staying_put_weighted_shortfall")),
+            planned_ahead=PlannedAheadSummary.from_raw(raw.get(AHEAD_KEY)),
         )
 
 
@@ -260,6 +283,8 @@ def report_data(result: PlanResult, plan_dir: str | Path | None = None) -> Repor
         summary.setdefault("scenario", _summary_key(Path(plan_dir), "scenario"))
         # What that scenario assumed: both commands add it beside the name.
         summary.setdefault(SCENARIO_KEY, _summary_key(Path(plan_dir), SCENARIO_KEY))
+        # Which re-plan a plan was made ahead for: 'rebalance replan --planned-ahead' adds it.
+        summary.setdefault(AHEAD_KEY, _summary_key(Path(plan_dir), AHEAD_KEY))
     return ReportData(result.instance, result.plan, RunSummary.from_dict(summary),
                       tables=tables, notes=tuple(notes),
                       problems=problem_texts(result.violations), **analysis)

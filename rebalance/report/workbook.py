@@ -21,13 +21,11 @@ import pandas as pd
 from rebalance.files import sibling_name
 from rebalance.numbers import (
     FTE_TOTAL_DIGITS,
-    GAP_DIGITS,
     NEAR_ZERO,
     SHARE_DIGITS,
     TABLE_DIGITS,
     WHOLE_FROM,
     column_header,
-    compared_row_texts,
     dust_free,
     fte_total_text,
     has_decimals,
@@ -42,9 +40,9 @@ from rebalance.numbers import (
 from rebalance.plan import BUDGET_LINES, PLAN_TABLES
 from rebalance.planning import plan_run_rate, run_rate_warning
 from rebalance.report.analysis_charts import AMOUNT_COLUMNS, GRID_COLUMNS
-from rebalance.report.analysis_words import FROM_BASE_WORDS, gap_caution
 from rebalance.report.chart_data import spare_capacity
 from rebalance.report.console import MEASURE_COLUMN, budget_note, cell_text, measure_names
+from rebalance.report.foresight_words import planned_ahead_heading
 from rebalance.report.htmlparts import stage_words
 from rebalance.report.inputs import ReportData, quality_notes
 from rebalance.report.limits_view import (
@@ -62,10 +60,17 @@ from rebalance.report.words import (
     plain_status,
     readable,
 )
+from rebalance.report.workbook_analysis import (
+    GAP,
+    MONEY,
+    SHEET_NOTES,
+    measure_formats,
+    sheet_notes,
+)
+from rebalance.report.workbook_analysis import money_format as _money_format
 
 __all__ = ["write_workbook"]
 
-MONEY = "#,##0"
 # Decimals as the one rule (rebalance/numbers.py) gives them to the console and the page: a
 # sheet's FTE had two where the page's tables had three.
 FTE = "#,##0." + "0" * TABLE_DIGITS
@@ -73,7 +78,6 @@ FTE = "#,##0." + "0" * TABLE_DIGITS
 FTE_TOTAL = "#,##0." + "0" * FTE_TOTAL_DIGITS
 WHOLE = "#,##0"
 SHARE = "0." + "0" * SHARE_DIGITS + "%"
-GAP = "0." + "0" * GAP_DIGITS + "%"
 DECIMALS = "#,##0." + "0" * TABLE_DIGITS
 HEADER_FILL = "#23404A"  # deep slate, the report's ink colour
 HEADER_FONT = "#FFFFFF"
@@ -81,26 +85,6 @@ BAND_FILL = "#F3EFE6"  # warm paper, for the summary's section labels
 WARNING_FONT = "#B03A2E"
 # Rows one worksheet holds, header included: a longer table cannot be written whole.
 SHEET_ROWS = 1_048_576
-
-# What each plan sheet is, shown in the summary's table of contents.
-SHEET_NOTES = {
-    "details": "one row per person and period on detail",
-    "reassignments": "one row per permanent move, effective from its period",
-    "hires": "one row per group of hires (office, skill, start period, funding)",
-    "work": "who works where on which skill, per period",
-    "coverage": "demand, output and shortfall per office, skill and period",
-    "costs": "new money by budget year and kind",
-    "frontier": "budget frontier: least shortfall at each budget",
-    "scenarios": "scenario comparison",
-    "marginal_values": "what one more step of each binding limit buys",
-    "reasons": "why each action is in the plan, and what stops each remaining gap",
-    "replan": "old plan against the re-plan",
-    "changes": "every change the re-plan makes to the old plan",
-    "scenario_actions": "actions where a scenario's plan differs from the base plan",
-    "scenario_costs": "cost of each scenario's plan by budget year and kind",
-    "scenario_offices": "demand and shortfall of each scenario's plan by office",
-}
-
 
 # Columns whose rows each hold their own quantity, as the page writes them: a limit's amount
 # by its row (52 seats, a share of 0.150), where one format for the column had written 52.000;
@@ -131,18 +115,6 @@ def _format_for(column: str) -> str | None:
     return None
 
 
-def _money_format(currency: str | None) -> str:
-    """The money number format, with the currency after the amount as
-    :meth:`rebalance.instance.Money.amount` writes it (``43,000 EUR``): the cell stays a
-    number.  The currency is quoted, or each character escaped where it holds a quote, so
-    no letter of it is read as a format code (E is the exponent's)."""
-    if not currency:
-        return MONEY
-    if '"' in currency:
-        return MONEY + " " + "".join("\\" + ch for ch in currency)
-    return f'{MONEY} "{currency}"'
-
-
 def write_workbook(data: ReportData, path: str | Path) -> Path:
     """Write ``plan.xlsx`` (atomically: a temporary file renamed into place)."""
     from xlsxwriter import Workbook
@@ -170,7 +142,7 @@ def write_workbook(data: ReportData, path: str | Path) -> Path:
         numeric_years = _numeric_years(data.instance.years)
         for name, frame in sheets:
             _table_sheet(book.add_worksheet(name), styles, frame, numeric_years,
-                         data.instance.money.currency, notes=_sheet_notes(name, frame),
+                         data.instance.money.currency, notes=sheet_notes(name, frame, data),
                          per_row=PER_ROW_COLUMNS.get(name, ()),
                          typed=TYPED_COLUMNS.get(name, ()),
                          grid=GRID_FORMAT_COLUMNS.get(name, ()))
@@ -180,15 +152,6 @@ def write_workbook(data: ReportData, path: str | Path) -> Path:
         tmp.unlink(missing_ok=True)
         raise
     return target
-
-
-def _sheet_notes(name: str, frame: pd.DataFrame) -> tuple[str, ...]:
-    """Lines a table sheet opens with: the scenarios sheet's (how its plans were solved,
-    and the gap caution where the solves stopped short of proof); none for the others."""
-    if name != "scenarios":
-        return ()
-    from_base = [FROM_BASE_WORDS] if "actions_differing" in frame.columns else []
-    return tuple(note for note in (*from_base, gap_caution(frame)) if note)
 
 
 def _cut_note(name: str, rows: int) -> str:
@@ -331,38 +294,6 @@ def _named_format(column: str, values: list[Any], styles: _Styles) -> Any:
     return styles.number(fmt)
 
 
-def _measure_formats(frame: pd.DataFrame, values: list[list[Any]], formats: list[Any],
-                     measures: list[str], styles: _Styles, currency: str | None) -> None:
-    """A table of measures (replan.csv): a row's measure says what its numbers are
-    (total_cost's row is money in old_plan, new_plan and difference alike), not the column's
-    name; and a figure that shows as zero is written as 0, as Excel writes -0.00017 as
-    "-0.000" (the CSV file keeps the exact value)."""
-    money_cell = styles.number(_money_format(currency))
-    for j in range(len(frame.columns)):
-        if not pd.api.types.is_float_dtype(frame.iloc[:, j]):
-            continue
-        plain = formats[j]
-        formats[j] = [money_cell if is_money(m) else
-                      plain[i] if isinstance(plain, list) else plain
-                      for i, m in enumerate(measures)]
-        places = [0 if is_money(m) else 3 for m in measures]
-        values[j] = [0.0 if isinstance(v, float) and round(v, d) == 0 else v
-                     for v, d in zip(values[j], places, strict=True)]
-    # Old, new and difference with the decimals the console and the page give them
-    # (compared_row_texts): 168.59153 and 168.59136 had shown "168.592", "168.591" and a
-    # difference of 0.000 here.
-    columns = [str(c) for c in frame.columns]
-    originals = [frame.iloc[:, j].tolist() for j in range(len(columns))]
-    for i, measure in enumerate(measures):
-        row = [originals[j][i] for j in range(len(columns))]
-        for j, text in compared_row_texts(columns, row, measure).items():
-            decimals = len(text.partition(".")[2]) if "." in text else 0
-            if is_money(measure) or not isinstance(formats[j], list) or decimals <= 3:
-                continue
-            formats[j][i] = styles.number("#,##0." + "0" * decimals)
-            values[j][i] = float(row[j])
-
-
 def _table_sheet(ws: Any, styles: _Styles, frame: pd.DataFrame,
                  numeric_years: bool = False, currency: str | None = None,
                  notes: Sequence[str] = (), per_row: Sequence[str] = (),
@@ -392,7 +323,7 @@ def _table_sheet(ws: Any, styles: _Styles, frame: pd.DataFrame,
             # As the page writes a grid's values (grid_column_texts): 0.5, 1.0, 1.5.
             formats[j] = _places_format(typed_places(values[j], TYPED_DIGITS), styles)
     if measures is not None:
-        _measure_formats(frame, values, formats, measures, styles, currency)
+        measure_formats(frame, values, formats, measures, styles, currency)
     for j, column in enumerate(columns):
         if column == "year":
             values[j] = [_year_cell(v, numeric_years) for v in values[j]]
@@ -451,7 +382,11 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
         if note:
             ws.write_string(row, 2, note)
 
-    ws.write_string(next(rows), 0, f"Staffing plan for {instance.heading}", styles.title)
+    title = f"Staffing plan for {instance.heading}"
+    if (ahead := run.planned_ahead) is not None:  # a re-plan's planned_ahead/, as its page
+        title = (planned_ahead_heading(ahead.for_replan_at, run.scenario,
+                                       instance.periods[0].name) + f" · {instance.heading}")
+    ws.write_string(next(rows), 0, title, styles.title)
     ws.write_string(next(rows), 0, (f"instance {instance.name}: " if instance.title else "") +
                     f"{len(instance.periods)} periods, {instance.periods[0].name} to "
                     f"{instance.periods[-1].name}; {len(instance.offices)} offices, "

@@ -216,3 +216,19 @@ def test_replan_planned_ahead_end_to_end(tmp_path: Path) -> None:
     # The page's re-plan section says the same line.
     page = " ".join((out / "report.html").read_text().split())
     assert "Late notice: reacting in 2027-Q3" in page
+    # The plan made ahead says whose it is: summary.json's key, and its page's and workbook's
+    # headings (read back with openpyxl), where both had said "Scenario b-up" alone.
+    from openpyxl import load_workbook
+
+    assert summary["planned_ahead"] == {"for_replan_at": "2027-Q3"}
+    heading = "Planned ahead: scenario b-up planned from 2027-Q1, for the re-plan at 2027-Q3"
+    assert f"<h1>{heading}</h1>" in (ahead / "report.html").read_text()
+    assert load_workbook(ahead / "plan.xlsx")["summary"]["A1"].value.startswith(heading)
+    # The re-plan's workbook leads its replan sheet with the page's line, and gives the stage
+    # gaps' rows as percentages (number format "0.00%", ECMA-376 Part 1, 18.8.31), as the
+    # page and the console do.
+    sheet = load_workbook(out / "plan.xlsx")["replan"]
+    assert sheet["A1"].value.startswith("Late notice: reacting in 2027-Q3")
+    assert sheet["A3"].value == "measure"
+    gaps = [row for row in sheet.iter_rows(min_row=4) if row[0].value == "shortfall gap"]
+    assert gaps and {c.number_format for c in gaps[0][1:] if c.value is not None} == {"0.00%"}

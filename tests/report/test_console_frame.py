@@ -99,3 +99,25 @@ def test_old_new_and_difference_of_a_measure_read_alike_on_the_console_and_the_p
     assert "idle 1.000 1.001 0.001" in words and "hires 24 24 0" in words
     # The sort value stays the exact figure.
     assert 'data-v="-0.00016859136215430226"' in frame_table_html(frame, "replan")
+
+
+def test_a_plan_made_ahead_reads_with_the_decimals_of_the_figures_beside_it():
+    # The demo re-plan with --planned-ahead read five decimals for old, new and difference
+    # and three for the plan made ahead.  By hand: 170.96049 and 170.96032 read apart at four
+    # decimals (170.9605, 170.9603, difference -0.0002), so 165.5 reads 165.5000, not the
+    # rule's 165.500; money and counts keep the rule.
+    from rebalance.report.htmlparts import frame_table_html
+
+    frame = pd.DataFrame({
+        "measure": ["shortfall_fte_periods", "total_cost", "hires"],
+        "old_plan": [170.96049, 2_463_500.0, 24.0],
+        "new_plan": [170.96032, 2_539_500.0, 23.0],
+        "difference": [-0.00017, 76_000.0, -1.0],
+        "planned_ahead": [165.5, 2_580_000.0, 25.0]})
+    lines = {cells[0]: cells[1:] for cells in (re.split(r"\s{2,}", line.strip())
+                                               for line in format_frame(frame, "EUR")
+                                               .splitlines()[2:])}
+    assert lines["shortfall FTE-periods"] == ["170.9605", "170.9603", "-0.0002", "165.5000"]
+    assert lines["new money"][3] == "2,580,000 EUR" and lines["hires"][3] == "25"
+    page = " ".join(re.sub(r"<[^>]+>", " ", frame_table_html(frame, "replan")).split())
+    assert "170.9605 170.9603 -0.0002 165.5000" in page

@@ -330,6 +330,68 @@ def test_a_scenarios_plan_says_it_is_that_scenarios(tmp_path):
     assert "<title>Scenario b-surge · tiny</title>" in page
 
 
+def test_a_plan_made_ahead_for_a_replan_says_so_in_its_heading(tmp_path):
+    # rebalance replan --planned-ahead writes the plan made ahead to planned_ahead/ with its
+    # scenario and a "planned_ahead" key in summary.json (rebalance/cli_foresight.py); its page
+    # had been headed "Scenario b-up", with no word that it was made ahead for a re-plan
+    # (common practice: a page's heading says what it holds).
+    folder = _copy(tmp_path)
+    summary = json.loads((folder / "summary.json").read_text())
+    (folder / "summary.json").write_text(json.dumps(
+        {**summary, "scenario": "b-up", "planned_ahead": {"for_replan_at": "2027-Q3"}}))
+    page = render_html(report_data_from_folder(folder, read_instance(TINY)))
+    heading = "Planned ahead: scenario b-up planned from 2027-Q1, for the re-plan at 2027-Q3"
+    assert re.findall(r"<h1>(.*?)</h1>", page) == [heading]
+    assert f"<title>{heading} · tiny</title>" in page
+    # A key it cannot read (no period): headed as the scenario's plan, as before.
+    (folder / "summary.json").write_text(json.dumps(
+        {**summary, "scenario": "b-up", "planned_ahead": {}}))
+    page = render_html(report_data_from_folder(folder, read_instance(TINY)))
+    assert re.findall(r"<h1>(.*?)</h1>", page) == ["Scenario b-up"]
+
+
+def test_a_replans_planned_ahead_column_is_named_a_plan_and_its_gaps_read_as_percentages(
+        tmp_path):
+    # Read in Chromium as a leader would (rebalance replan --planned-ahead on the demo): the
+    # last column, headed "planned ahead" right after "difference", read as one more
+    # difference, and the stage gaps' rows had no word of what they are.  Gaps as percentages
+    # with two decimals is the number rule's (rebalance/numbers.py gap_text), as the console.
+    from dataclasses import replace
+
+    from rebalance.report.foresight_words import GAP_ROWS_NOTE
+    from rebalance.report.inputs import ReplanSummary
+
+    nan = float("nan")
+    table = pd.DataFrame({
+        "measure": ["weighted_shortfall", "total_cost", "disruption_cost", "shortfall_gap",
+                    "new_money_gap"],
+        "old_plan": [20.0, 90_000.0, 0.0, nan, nan],
+        "new_plan": [10.0, 138_000.0, 500.0, 0.0032, 0.0204],
+        "difference": [-10.0, 48_000.0, 500.0, nan, nan],
+        "planned_ahead": [5.8, 100_000.0, nan, 0.01, 0.0362],
+    })
+    data = report_data_from_folder(tiny_plan_folder(), read_instance(TINY))
+    data = replace(data, tables=(("replan", table),),
+                   summary=replace(data.summary, replan=ReplanSummary("2027-Q3", "b-up")))
+    page = render_html(data)
+    replan = page[page.index('<section id="replan">'):]
+    replan = replan[:replan.index("</section>")]
+    headers = [html.unescape(h) for h in re.findall(r"<th[^>]*>(.*?)</th>", replan)]
+    assert headers[-1] == "planned ahead from 2027-Q1", headers
+    assert "the table's last column, planned ahead from 2027-Q1, gives its figures" in replan
+    cells = re.findall(r'<td class="num" data-v="[^"]*">([^<]*)</td>', replan)
+    assert [c for c in cells if c.endswith("%")] == ["0.32%", "1.00%", "2.04%", "3.62%"]
+    assert _escaped(GAP_ROWS_NOTE) in replan
+    # Without the plan made ahead: the table as before, no note.
+    plain = render_html(replace(data, tables=(("replan", table.drop(
+        columns="planned_ahead").iloc[:3]),)))
+    assert "planned ahead from" not in plain and _escaped(GAP_ROWS_NOTE) not in plain
+
+
+def _escaped(text: str) -> str:
+    return html.escape(text, quote=True)
+
+
 def test_the_page_says_an_fte_period():
     # English grammar: "FTE" is said "eff-tee-ee", so "an FTE-period" (the page had "A").
     text = html.unescape(re.sub(r"<[^>]+>", "", _page(tiny_plan_folder())))

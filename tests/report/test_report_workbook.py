@@ -393,3 +393,74 @@ def test_frontier_factors_show_as_typed(tmp_path):
     amounts = frontier.assign(hiring_budget=[40_000.0, 60_000.0, 80_000.0])
     path = write_workbook(replace(_tiny_data(()), frontier=amounts), tmp_path / "amounts.xlsx")
     assert {f for _, f in _sheet_cells(path, "frontier", "hiring_budget")} == {"#,##0"}
+
+
+def _replan_with_ahead() -> pd.DataFrame:
+    """replan.csv as 'rebalance replan --planned-ahead' writes it (rebalance.analysis.foresight:
+    a planned_ahead column, and a row per stage gap)."""
+    nan = float("nan")
+    return pd.DataFrame({
+        "measure": ["weighted_shortfall", "total_cost", "disruption_cost", "shortfall_gap",
+                    "new_money_gap"],
+        "old_plan": [20.0, 90_000.0, 0.0, nan, nan],
+        "new_plan": [10.0, 138_000.0, 500.0, 0.0001, 0.0312],
+        "difference": [-10.0, 48_000.0, 500.0, nan, nan],
+        "planned_ahead": [5.8, 100_000.0, nan, 0.0, 0.003],
+    })
+
+
+def test_a_replans_gap_rows_read_as_percentages_under_the_late_notice_line(tmp_path):
+    # The replan sheet had shown the stage gaps' rows as 0.003 (#,##0.000), where the console
+    # and the page give a gap as a percentage (rebalance/numbers.py gap_text: 0.30%); and the
+    # page's re-plan section leads with the "Late notice" line, the sheet had not.  Read back
+    # with openpyxl; number formats as ECMA-376 Part 1, 18.8.31 (numFmts) spells them.
+    from dataclasses import replace
+
+    from rebalance.report.foresight_words import late_notice_line
+    from rebalance.report.inputs import ReplanSummary
+    from rebalance.report.workbook import write_workbook
+
+    table = _replan_with_ahead()
+    data = _tiny_data((("replan", table),))
+    data = replace(data, summary=replace(data.summary, replan=ReplanSummary("2027-Q3", "b-up")))
+    path = write_workbook(data, tmp_path / "plan.xlsx")
+    sheet = load_workbook(path)["replan"]
+    line = late_notice_line(table, "2027-Q3", "2027-Q1")
+    assert line and line.startswith("Late notice: reacting in 2027-Q3")
+    assert [sheet["A1"].value, sheet["A2"].value, sheet["A3"].value] == [line, None, "measure"]
+    assert sheet.freeze_panes == "A4"
+    rows = {r[0].value: r for r in sheet.iter_rows(min_row=4)}
+    for measure in ("shortfall gap", "new money gap"):  # the measure in words (readable)
+        for cell in rows[measure][2:]:
+            if cell.value is not None:
+                assert cell.number_format == "0.00%", (measure, cell.column_letter)
+    # 0.0001 is 0.01%: kept, not written as the 0 a figure of three places rounds to.
+    assert rows["shortfall gap"][2].value == 0.0001
+    assert rows["new money gap"][4].value == 0.003
+    # The other rows as before: money whole, FTE-periods to the rule's places.
+    assert rows["new money"][2].number_format.startswith("#,##0")
+    assert "%" not in rows["weighted shortfall"][4].number_format
+    # A re-plan without planned_ahead: no line, its header on the first row as before.
+    plain = replace(data, tables=(("replan", table.drop(columns="planned_ahead")),))
+    sheet = load_workbook(write_workbook(plain, tmp_path / "plain.xlsx"))["replan"]
+    assert sheet["A1"].value == "measure" and sheet.freeze_panes == "A2"
+
+
+def test_a_plan_made_ahead_for_a_replan_says_so_in_its_heading(tmp_path):
+    # A re-plan's planned_ahead/ folder (rebalance/cli_foresight.py) had been headed as any
+    # scenario's plan; its summary.json's planned_ahead key says which re-plan it was made
+    # for (common practice: a document's heading says what it holds).  Read back with
+    # openpyxl.
+    from dataclasses import replace
+
+    from rebalance.report.inputs import PlannedAheadSummary
+    from rebalance.report.workbook import write_workbook
+
+    data = _tiny_data(())
+    ahead = replace(data, summary=replace(data.summary, scenario="b-up",
+                                          planned_ahead=PlannedAheadSummary("2027-Q3")))
+    sheet = load_workbook(write_workbook(ahead, tmp_path / "plan.xlsx"))["summary"]
+    assert sheet["A1"].value == ("Planned ahead: scenario b-up planned from 2027-Q1, for the "
+                                 "re-plan at 2027-Q3 · tiny")
+    sheet = load_workbook(write_workbook(data, tmp_path / "plain.xlsx"))["summary"]
+    assert sheet["A1"].value == "Staffing plan for tiny"

@@ -302,7 +302,11 @@ def cmd_replan(args: argparse.Namespace) -> int:
     n = len(out.changes)
     print(f"\n{n:,} change{'' if n == 1 else 's'} against the old plan from {args.at} on")
     if len(out.changes):
-        print(format_frame(out.changes.head(30), instance.money.currency))
+        # The reasons run to a sentence each: too wide beside the table, so they stay in
+        # changes.csv (and the page and workbook), and the console says where.
+        print(format_frame(out.changes.head(30).drop(columns="reason", errors="ignore"),
+                           instance.money.currency))
+        print("why each changed: the reason column of changes.csv (and the page's table)")
     # Not a change (no disruption cost), but the figures move with it: "0 change(s)" beside
     # a different idle capacity had read as an unchanged plan.
     summary = out.summary
@@ -322,7 +326,7 @@ def cmd_replan(args: argparse.Namespace) -> int:
         code = say_late_notice(out.summary, args.at, instance, ahead)
         if code is not None:
             return code
-        more = planned_ahead_folder(ahead, scenario_name, assumed)
+        more = planned_ahead_folder(ahead, scenario_name, assumed, args.at)
 
     # Under a scenario the plan belongs to the changed data, not to the instance folder:
     # record no instance path, so 'rebalance report' asks for one rather than mislead.

@@ -23,6 +23,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from rebalance.analysis.change_reasons import change_reasons
+from rebalance.analysis.reasons import reasons
 from rebalance.analysis.replan_checks import PastWork, ReplanError, _checked_past
 from rebalance.analysis.replan_model import (
     DisruptionCosts,
@@ -43,7 +45,9 @@ __all__ = ["CHANGE_COLUMNS", "SPLIT_TOLERANCE_FTE", "DisruptionCosts", "Replan",
 
 # Verifier rules about the old plan's own figures, not about what it does.
 BOOKKEEPING = frozenset({"costs", "hire_cost", "detail_cost", "reassignment_cost"})
-CHANGE_COLUMNS = ("change", "kind", "who", "skill", "period", "old", "new", "disruption_cost")
+# ``reason``: why, from the data and both plans (change_reasons), one short sentence.
+CHANGE_COLUMNS = ("change", "kind", "who", "skill", "period", "old", "new", "disruption_cost",
+                  "reason")
 
 # The default rates, made once as a call in the signature was (ruff B008 cannot see
 # that the dataclass, imported from replan_model, is frozen).
@@ -104,8 +108,12 @@ def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
     # prices and horizon (a longer one adds years and salary periods): only its rules count.
     old_violations = tuple(str(v) for v in verified
                            if not v.rule.startswith("coverage") and v.rule not in BOOKKEEPING)
-    changes = _changes(instance, old, result.plan, costs) if result.plan is not None else \
-        pd.DataFrame(columns=list(CHANGE_COLUMNS))
+    if result.plan is not None:
+        changes = _changes(instance, old, result.plan, costs)
+        changes["reason"] = change_reasons(instance, old, result.plan, at, changes,
+                                           reasons(instance, result.plan, replanned_at=at))
+    else:
+        changes = pd.DataFrame(columns=list(CHANGE_COLUMNS))
     # Priced from the person-level change table; equal to the model's change columns plus
     # the constant for decisions that lost their column (_fix_and_price's `forced`).
     disruption = float(changes["disruption_cost"].sum()) if len(changes) else 0.0
@@ -231,7 +239,7 @@ def _changes(instance: Instance, old: Plan, new: Plan, costs: DisruptionCosts) -
                      "" if move_after is None else f"{move_after[1]} from {move_after[0]}",
                      costs.reassignment * (2 if change == "changed" else 1)))
     rows.extend(_hire_changes(old, new, ix, costs))
-    return pd.DataFrame(rows, columns=list(CHANGE_COLUMNS))
+    return pd.DataFrame(rows, columns=list(CHANGE_COLUMNS[:-1]))  # reason: added after
 
 
 def _hire_changes(old: Plan, new: Plan, ix: dict[str, int],

@@ -16,6 +16,7 @@ from typing import Any
 
 import pandas as pd
 
+from rebalance.analysis.foresight import AHEAD_COLUMN, GAP_MEASURES
 from rebalance.numbers import money_amount
 from rebalance.report.analysis_charts import (
     _frontier,
@@ -41,7 +42,7 @@ from rebalance.report.analysis_words import (
     status_in_words,
     years_as_text,
 )
-from rebalance.report.foresight_words import late_notice_line
+from rebalance.report.foresight_words import GAP_ROWS_NOTE, late_notice_line
 from rebalance.report.htmlparts import chart, e, frame_table_html, section
 from rebalance.report.inputs import SHEET_ONLY, ReportData
 
@@ -158,8 +159,11 @@ def analysis_payload(data: ReportData,
             lead = e(f"From {data.summary.replan.from_period} on: ") + lead
         elif name == "scenario_actions":
             lead += e(actions_lead(frame))
+        after = ""  # a note under the table
+        if name == "replan":
+            frame, after = _ahead_column(frame, data.instance.period_names[0])
         full = (_reasons_rolled_up(frame, currency) if name == "reasons"
-                else _tables(frame, name, limit=_ROWS_SHOWN, currency=currency))
+                else _tables(frame, name, limit=_ROWS_SHOWN, currency=currency)) + after
         sections.append(section(name, titled(name, title), lead, body + full))
         nav.append((name, title))
     return AnalysisView(payload, tuple(sections), tuple(nav))
@@ -336,9 +340,22 @@ def _replan_lead(data: ReportData) -> str:
                             data.instance.money.currency)
     ahead = "" if not late else (
         f"{e(late)} The plan made ahead is in the <code>planned_ahead/</code> folder beside "
-        "this page; the table's <code>planned_ahead</code> column gives its figures. ")
+        f"this page; the table's last column, planned ahead from "
+        f"{e(data.instance.period_names[0])}, gives its figures. ")
     return (f"Re-planned from <strong>{e(replan.from_period)}</strong> on, {scenario}; before "
             f"{e(replan.from_period)} the old plan stands as it happened. {split}{ahead}")
+
+
+def _ahead_column(frame: pd.DataFrame, first_period: str) -> tuple[pd.DataFrame, str]:
+    """A re-plan's table as the page heads it, and the note under it: the plan made ahead's
+    column named as a plan from ``first_period`` (headed "planned ahead" beside "difference",
+    it had read as one more difference), and what the stage gaps' rows are.  As given, with
+    no note, where the same data were not planned ahead."""
+    if AHEAD_COLUMN not in frame.columns:
+        return frame, ""
+    shown = frame.rename(columns={AHEAD_COLUMN: f"planned ahead from {first_period}"})
+    gaps = frame["measure"].astype(str).isin(GAP_MEASURES).any()
+    return shown, (f'<p class="more analysis-note">{e(GAP_ROWS_NOTE)}</p>' if gaps else "")
 
 
 def _measure(frame: pd.DataFrame, measure: str, column: str = "new_plan") -> float | None:
@@ -391,7 +408,8 @@ TABLE_SECTIONS = {
                "old plan, scored on the current data, and the new one, whose decisions change "
                "from the re-plan period on."),
     "changes": ("What the re-plan changes", "Every action that differs from the old plan, "
-                "with the disruption cost charged for changing it."),
+                "with the disruption cost charged for changing it and why, worked out from "
+                "the data and both plans (an added action's reason is the new plan's own)."),
     "scenario_actions": ("Actions that differ from the base", "Each hire, detail and "
                          "reassignment decision a scenario's plan changes against the base "
                          "plan, one row each (a detail sent elsewhere in the same period is "

@@ -822,8 +822,9 @@ def test_a_hire_start_moved_is_one_moved_row_priced_as_its_two_columns(tiny) -> 
     out = replan(early, base.plan, 1, exact_options(early), DisruptionCosts(1000, 7000, 3000))
     assert out.result.verified
     b_hires = out.changes[(out.changes.kind == "hire (new)") & (out.changes.who == "B")]
-    assert b_hires.values.tolist() == [
+    assert b_hires.drop(columns="reason").values.tolist() == [
         ["moved", "hire (new)", "B", "review", "2027-Q3", "1 in 2027-Q4", "1 in 2027-Q3", 6000]]
+    assert b_hires["reason"].iloc[0].startswith("starts in 2027-Q3 instead of 2027-Q4; ")
     assert out.disruption_cost == out.changes["disruption_cost"].sum()
     total = out.summary.set_index("measure").loc["total_cost", "new_plan"]
     assert _cost_stage_objective(out) == pytest.approx(total + out.disruption_cost)
@@ -872,4 +873,8 @@ def test_the_console_counts_changes_in_words(tmp_path: Path, capsys) -> None:
     assert main(["replan", str(DATA / "tiny"), "--from", str(tmp_path / "old"), "--at",
                  "2027-Q4", "-o", str(tmp_path / "calm"), "-q", "--gap", "0",
                  "--scenario", str(calm)]) == EXIT_OK
-    assert "\n1 change against the old plan from 2027-Q4 on\n" in capsys.readouterr().out
+    said = capsys.readouterr().out
+    assert "\n1 change against the old plan from 2027-Q4 on\n" in said
+    # The reason is a sentence: changes.csv holds it, the console's table says where.
+    assert "why each changed: the reason column of changes.csv" in said
+    assert "reason" not in said.split("1 change against")[1].splitlines()[1]

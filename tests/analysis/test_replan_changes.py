@@ -3,14 +3,22 @@
 from __future__ import annotations
 
 import shutil
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
+import pandas as pd
 import pytest
+from analysis_helpers import exact_options
+from conftest import solve_verified
 
 from rebalance import options_from_instance, read_instance
-from rebalance.analysis.replan import replan
+from rebalance.analysis.reasons import reasons
+from rebalance.analysis.replan import Replan, replan
+from rebalance.analysis.scenario_files import DemandChange, Scenario, apply_scenario
 from rebalance.generate import GeneratorSpec, generate, write_generated
+from rebalance.instance import Budget, Demand, Instance, Office
+from rebalance.plan import Plan
 from rebalance.planning import make_plan
 
 
@@ -113,3 +121,116 @@ def test_the_old_plans_least_shortfall_is_worked_out_once(tmp_path: Path,
     assert again.result.verified
     assert len(hint_splits) == 1
     shutil.rmtree(folder)
+
+
+# -- why each change was made: changes.csv's reason (docs/analysis.md, "changes.csv") ----------
+# Hand-worked on tests/data/tiny (NOTE.md there): the old plan details a1 A -> B in Q2-Q3 and
+# a2 A -> B in Q4, and hires one reviewer at B from Q4 (new position: 8,000 onboarding and
+# 20,000 salary for its one period).  Each case below changes the data so one reason is
+# known by construction.
+
+def _reason(out: Replan, change: str, who: str, period: str) -> str:
+    rows = out.changes[(out.changes.change == change) & (out.changes.who == who)
+                       & (out.changes.period == period)]
+    assert len(rows) == 1, out.changes
+    return str(rows["reason"].iloc[0])
+
+
+def _tiny_base(tiny: Instance) -> Plan:
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    assert base.plan.details[["person", "period"]].values.tolist() == [
+        ["a1", "2027-Q2"], ["a1", "2027-Q3"], ["a2", "2027-Q4"]]
+    return base.plan
+
+
+def test_changes_the_data_force_say_which_data(tiny) -> None:
+    # By hand: with B's Q4 review demand multiplied by 0, B wants nothing a2 can do in Q4
+    # (a2 has review and intake; B's only demand is review), and a reviewer hired at B from
+    # Q4 has no demand left to cover: both are forced (replan_model's `forced`).
+    old = _tiny_base(tiny)
+    calm = apply_scenario(tiny, Scenario("calm", "", (
+        DemandChange(("B",), ("review",), (3,), multiplier=0.0),)))
+    out = replan(calm, old, 2, exact_options(calm))
+    assert out.result.verified
+    assert out.changes["reason"].tolist() == [
+        "forced by the data: B has no demand left for a2's skills in 2027-Q4",
+        "forced by the data: no review demand is left at B from 2027-Q4 on for a hire to "
+        "cover"]
+
+
+def test_a_reassignment_the_flags_now_forbid_is_forced_and_an_added_detail_reuses_reasons(
+        tiny) -> None:
+    # By hand (as test_analysis_replan's test of the same data): the old plan moves a2 to B
+    # from Q4; staff.csv now says a2 may not be reassigned, so the move is dropped, forced,
+    # and a2's Q4 detail comes back.  The added detail's reason is the new plan's own
+    # reasons.csv row for it, word for word (one rule per fact).
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    moves = pd.DataFrame([["a2", "2027-Q4", "A", "B", 20000.0]],
+                         columns=list(base.plan.reassignments.columns))
+    details = base.plan.details
+    old = replace(base.plan, reassignments=moves, details=details[details.person != "a2"])
+    fixed = tiny.with_changes(staff=tuple(
+        replace(p, can_relocate=False) if p.person == "a2" else p for p in tiny.staff))
+    out = replan(fixed, old, 2, exact_options(fixed))
+    assert out.result.verified and out.result.plan is not None
+    assert _reason(out, "dropped", "a2", "2027-Q4") == (
+        "forced by the data: staff.csv now says a2 may not be reassigned (can_relocate)")
+    table = reasons(fixed, out.result.plan, replanned_at=2).table
+    (own,) = table[(table.action == "detail") & (table.subject == "a2")]["reason"].tolist()
+    assert _reason(out, "added", "a2", "2027-Q4") == own
+
+
+def test_a_dropped_detail_says_the_destination_is_covered_without_them(tiny) -> None:
+    # By hand: B's Q3 review demand halves from 2.0 to 1.0, which b1 (1.0 FTE, proficiency 1)
+    # covers alone; with early recall a1's Q3 detail is dropped and a1 is at home at A.
+    old = _tiny_base(tiny)
+    half = apply_scenario(tiny, Scenario("half", "", (
+        DemandChange(("B",), ("review",), (2,), multiplier=0.5),)))
+    out = replan(half, old, 2, exact_options(half), allow_recall=True)
+    assert out.result.verified
+    why = _reason(out, "dropped", "a1", "2027-Q3")
+    assert why.startswith("now at home at A ")
+    assert why.endswith("; B covers review in 2027-Q3 without them: demand there fell from "
+                        "2.000 to 1.000 FTE")
+
+
+def test_a_rerouted_detail_says_where_the_gap_is_larger(tiny) -> None:
+    # By hand: as above, and a third office C (its own town) needs 1.0 FTE of review in Q3
+    # at priority 3 with no one of its own; a1 (1.0 FTE of review at proficiency 1, no
+    # attrition) is the one who covers it all, so a1's Q3 detail goes to C instead of B.
+    old = _tiny_base(tiny)
+    half = apply_scenario(tiny, Scenario("half", "", (
+        DemandChange(("B",), ("review",), (2,), multiplier=0.5),)))
+    more = half.with_changes(offices=(*half.offices, Office("C", "Cedar", 6, 1)),
+                             demand=(*half.demand, Demand("C", "review", 2, 1.0, 3.0)))
+    out = replan(more, old, 2, exact_options(more), allow_recall=True)
+    assert out.result.verified
+    assert _reason(out, "rerouted", "a1", "2027-Q3") == (
+        "detailed to C instead, which would be 1.000 FTE short of review without them "
+        "(priority 3); B covers review in 2027-Q3 without them: demand there fell from 2.000 "
+        "to 1.000 FTE")
+
+
+def test_fewer_hires_say_what_the_budget_bought_instead(tiny) -> None:
+    # By hand: A now needs 3.0 FTE of intake in Q4 at priority 3 (a3 gives 0.5, a2 1.0, one
+    # intake hire 1.0: no ramp) and the 2027 hiring budget is cut to 35,000.  An intake hire
+    # at A from Q4 costs 5,000 + 15,000 = 20,000, the old reviewer at B 8,000 + 20,000 =
+    # 28,000: both do not fit, and the intake hire meets 1.0 x 3 of weighted need against the
+    # reviewer's 0.5 x 2 (ramp 0.5), so the reviewer goes and 15,000 is left.  a2 stays home
+    # for intake (A 1.5 short without them, 1.0 x 3 weighted, against 0.8 x 2 at B); a1 has
+    # been on detail the two periods before, the most in a row; so B is 1.0 short of review.
+    old = _tiny_base(tiny)
+    rush = tiny.with_changes(demand=(*tiny.demand, Demand("A", "intake", 3, 3.0, 3.0)),
+                             budgets=(Budget("2027", 35000.0, 30000.0),))
+    out = replan(rush, old, 2, exact_options(rush))
+    assert out.result.verified
+    assert _reason(out, "fewer", "B", "2027-Q4") == (
+        "the new plan leaves 15,000 of the 2027 hiring budget, less than the 28,000 it would "
+        "cost then; it hires instead 1 x intake at A from 2027-Q4; review demand at B from "
+        "2027-Q4 on is left 1.000 FTE-periods short")
+    assert _reason(out, "dropped", "a2", "2027-Q4") == (
+        "now at home at A covering intake there (A would be 1.500 FTE short without them, "
+        "priority 3); B is left 1.000 FTE short of review in 2027-Q4 (priority 2); they meet no "
+        "less need at A than they could at B (priority-weighted FTE: 3.000 against 1.600)")

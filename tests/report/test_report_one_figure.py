@@ -262,8 +262,10 @@ def test_the_page_script_writes_shares_by_the_same_rule():
     if node is None:
         pytest.skip("node is not installed")
     script = (ROOT / "rebalance" / "report" / "assets" / "report.js").read_text()
-    start = script.index("  function share(part, whole)")
-    body = script[start:script.index("\n  }\n", start) + 4]
+    body = ""
+    for head in ("  function toFixedEven(", "  function share(part, whole)"):  # share uses it
+        start = script.index(head)
+        body += script[start:script.index("\n  }\n", start) + 4]
     cases = [(298_500, 300_000), (299_990, 300_000), (300_000, 300_000), (301_000, 300_000),
              (1, 300_000), (36_900, 300_000), (0, 300_000),
              # Float dust: a shortfall of all demand (a sweep's 100.1%), and next to nothing.

@@ -186,6 +186,24 @@ def test_the_page_script_writes_money_fte_and_totals_as_the_rule_does():
                    + [fte_total_text(v) for v in totals])
 
 
+def test_the_page_script_rounds_exact_halves_as_python_does():
+    # Python's format and round() take an exact half to the even neighbour (the Python
+    # Language Reference, round(); IEEE 754 round-half-even), where JavaScript's toFixed and
+    # Math.round go away from zero: the page had read 0.063 beside a table's 0.062.  Ties
+    # only happen where the binary value is exactly half way (0.0625, 2.5); 0.145 is not one.
+    money = [2.5, 3.5, -2.5, 0.5, -0.5, 1_234_566.5]
+    fte = [0.0625, 0.1875, -0.0625, 0.145, 0.0005]
+    totals = [0.25, 0.75, 2.35, -0.25]
+    shares = [(1, 16), (3, 16), (1, 3)]
+    got = _node_eval([f"money({v})" for v in money] + [f"num({v}, true)" for v in fte]
+                     + [f"total({v})" for v in totals]
+                     + [f"share({a}, {b})" for a, b in shares])
+    assert got == ([money_text(v) for v in money]
+                   + [number_text(v, decimals=True) for v in fte]
+                   + [fte_total_text(v) for v in totals]
+                   + [share_text(a, b) for a, b in shares])
+
+
 def test_the_page_script_never_abbreviates_money():
     script = SCRIPT.read_text()
     assert '+ "k"' not in script and '+ "M"' not in script

@@ -48,17 +48,31 @@
   // such a label read as another figure.
   var RULE = { table_digits: 3, total_digits: 1, gap_digits: 2, share_digits: 1, whole_from: 1000 };
   var DUST = 1e-9;  // numbers.NEAR_ZERO
-  // ``digits`` decimals with thousands separators.  toFixed rounds the binary value, as
-  // Python's format does (toLocaleString rounds the decimal text: 2,021.6 for Python's 2,021.5).
+  // ``v`` to ``digits`` decimals as Python's format and round() write it.  toFixed rounds
+  // the binary value as they do (toLocaleString rounds the decimal text: 2,021.6 for
+  // Python's 2,021.5), but an exact half away from zero where they take the even neighbour
+  // (0.0625 to three decimals: 0.063 against 0.062).  An exact half ends in 5 at digits + 1
+  // with nothing after it, which toFixed's exact expansion shows.
+  function toFixedEven(v, digits) {
+    var text = (v + 0).toFixed(digits);
+    var exact = Math.abs(v).toFixed(Math.min(100, digits + 40));
+    var dot = exact.indexOf(".");
+    if (!/^50*$/.test(exact.slice(dot + 1 + digits))) { return text; }
+    var toward = digits ? exact.slice(0, dot + 1 + digits) : exact.slice(0, dot);
+    if (Number(toward.slice(-1)) % 2 === 1) { return text; }
+    return (v < 0 ? "-" : "") + toward;
+  }
+  // ``digits`` decimals with thousands separators.
   function fixed(v, digits) {
-    var parts = (v + 0).toFixed(digits).split(".");
+    var parts = toFixedEven(v, digits).split(".");
     parts[0] = parts[0].replace(/\B(?=(\d{3})+(?!\d))/g, ",");
     return parts.join(".");
   }
-  // numbers.money_text: whole units with separators.
+  // numbers.money_text: whole units with separators, no "-0" (round() gives an int).
   function money(v) {
     if (v === null || v === undefined || isNaN(v)) { return "-"; }
-    return (Math.round(v) + 0).toLocaleString("en");
+    var text = fixed(v, 0);
+    return /^-[0,]*$/.test(text) ? text.slice(1) : text;
   }
   // numbers.number_text: whole numbers and anything from 1,000 up as money_text, others to
   // the rule's decimals; ``decimals``: the series has decimals somewhere, so all take them.
@@ -94,9 +108,9 @@
     var dust = RULE.near_zero * Math.max(1, Math.abs(whole));
     var d = RULE.share_digits, step = Math.pow(10, -d);
     var p = Math.abs(part - whole) < dust ? 100 : Math.abs(part) < dust ? 0 : 100 * part / whole;
-    var text = p.toFixed(d) + "%";
+    var text = toFixedEven(p, d) + "%";
     if (text === (100).toFixed(d) + "%" && p !== 100) {
-      return (p < 100 ? Math.min(p, 100 - step) : Math.max(p, 100 + step)).toFixed(d) + "%";
+      return toFixedEven(p < 100 ? Math.min(p, 100 - step) : Math.max(p, 100 + step), d) + "%";
     }
     if (text === (0).toFixed(d) + "%" && p > 0) { return "under " + step.toFixed(d) + "%"; }
     return text;

@@ -37,7 +37,7 @@ from rebalance.cli_common import (
 )
 from rebalance.instance import Instance
 from rebalance.problems import problems_counted
-from rebalance.report.console import format_frame, is_missing
+from rebalance.report.console import counted, format_frame, is_missing
 from rebalance.report.inputs import SCENARIO_KEY
 from rebalance.report.words import plain_status
 from rebalance.solve import Status
@@ -205,6 +205,11 @@ def cmd_compare(args: argparse.Namespace) -> int:
             # No instance_path: the base instance's would verify it against the wrong data.
             write_reports(report_data(other, sub), sub)
 
+    if len(comparison.actions):
+        # The console shows each scenario's actions_differing only: the rows and their
+        # reasons (a sentence each) are in the file, the page and the workbook.
+        print("\nwhy each action differs: the reason column of scenario_actions.csv (and the "
+              "page's table)")
     tables = {"scenarios.csv": comparison.table, "scenario_costs.csv": comparison.costs,
               "scenario_actions.csv": comparison.actions,
               "scenario_offices.csv": comparison.offices}
@@ -278,8 +283,9 @@ def cmd_replan(args: argparse.Namespace) -> int:
                    exc.problems)
         return EXIT_INVALID_INPUT
     if out.old_plan_violations:
-        _say_first(f"note: the old plan breaks {len(out.old_plan_violations)} rule(s) of the "
-                   "current data; the new plan keeps every rule from the re-plan period on:",
+        _say_first(f"note: the old plan breaks {counted(len(out.old_plan_violations), 'rule')} "
+                   "of the current data; the new plan keeps every rule from the re-plan period "
+                   "on:",
                    out.old_plan_violations)
     for note in out.notes:
         _err(f"note: {note}")

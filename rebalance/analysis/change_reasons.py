@@ -1,4 +1,6 @@
-"""Why each row of a re-plan's ``changes.csv`` was made (its ``reason`` column).
+"""Why each row of a re-plan's ``changes.csv`` was made (its ``reason`` column), and of
+``compare``'s ``scenario_actions.csv`` (the base plan as the old plan, the scenario's as the
+new, on the scenario's data).
 
 Read off the instance (the re-plan's data, a scenario's if given), the old plan and the new
 plan only, as ``reasons.csv`` is: never off solver objects.  What the new plan adds (a detail,
@@ -18,6 +20,7 @@ from __future__ import annotations
 
 from collections import defaultdict
 from collections.abc import Sequence
+from dataclasses import dataclass
 
 import pandas as pd
 
@@ -28,13 +31,26 @@ from rebalance.instance import Instance, Person
 from rebalance.numbers import money_amount, number_text
 from rebalance.plan import Plan
 
-__all__ = ["FORCED", "change_reasons"]
+__all__ = ["BASE_AND_SCENARIO", "FORCED", "OLD_AND_NEW", "PlanNames", "change_reasons"]
 
 # How a reason the data force begins (docs/analysis.md, "changes.csv").
 FORCED = "forced by the data"
 _EPS = 1e-6
 
 _Key = tuple[str, str, int]  # office, skill, period index
+
+
+@dataclass(frozen=True)
+class PlanNames:
+    """What a reason calls the two plans where it names them: a re-plan's ``old`` and
+    ``new`` plan, or a comparison's base plan and the scenario's."""
+
+    old: str = "the old plan"
+    new: str = "the new plan"
+
+
+OLD_AND_NEW = PlanNames()
+BASE_AND_SCENARIO = PlanNames("the base plan", "the scenario's plan")
 
 
 def _texts(column: pd.Series) -> list[str]:
@@ -86,9 +102,10 @@ class _Facts:
     """Both plans' figures, indexed once for every row."""
 
     def __init__(self, instance: Instance, old: Plan, new: Plan, at: int,
-                 new_reasons: Reasons) -> None:
+                 new_reasons: Reasons, plans: PlanNames) -> None:
         self.i = instance
         self.at = at
+        self.plans = plans
         self.names = instance.period_names
         self.ix = {n: t for t, n in enumerate(self.names)}
         self.people = {p.person: p for p in instance.staff}
@@ -258,8 +275,8 @@ def _without_them(f: _Facts, person: str, office: str, skill: str, t: int) -> st
     if causes:
         return f"{covered}: {'; '.join(causes)}"
     # None of these: the old plan gave it more than its demand, their share included.
-    return (f"{covered} (the old plan gave it {_fte(old_staff + old_hire)} FTE for "
-            f"{_fte(old_demand)} of demand, the new plan {_fte(f.ctx.own[key])} for "
+    return (f"{covered} ({f.plans.old} gave it {_fte(old_staff + old_hire)} FTE for "
+            f"{_fte(old_demand)} of demand, {f.plans.new} {_fte(f.ctx.own[key])} for "
             f"{_fte(demand)})")
 
 
@@ -404,7 +421,8 @@ def _fewer_hires(f: _Facts, office: str, skill: str, s: int, funding: str) -> st
     need = sum(f.demand.get((office, skill, t), 0.0) for t in range(s, T))
     if need < old_need - _EPS:
         parts.append(f"{skill} demand at {office} from {f.names[s]} on is "
-                     f"{_fte(old_need - need)} FTE-periods lower than the old plan was made for")
+                     f"{_fte(old_need - need)} FTE-periods lower than {f.plans.old} was made "
+                     "for")
     need_fell = len(parts)
     # What one such hire costs the hiring budget of each year it is paid in (onboarding in
     # its start year; a new position's salary every period from its start, limits.py's rule),
@@ -429,7 +447,7 @@ def _fewer_hires(f: _Facts, office: str, skill: str, s: int, funding: str) -> st
         left = " and ".join(f"{money_amount(u.cap - u.used, money)} of the {u.where} hiring "
                             f"budget, less than the {money_amount(c, money)} it would cost then"
                             for u, c in short_of)
-        parts.append(f"the new plan leaves {left}" + (
+        parts.append(f"{f.plans.new} leaves {left}" + (
             "; it hires instead " + _people([f"{n} x {k2} at {o} from {f.names[t]}"
                                              for t, o, k2, n in gained]) if gained else ""))
     slots = f.limit("max_hires", office, f.names[s])
@@ -463,11 +481,15 @@ def _fewer_hires(f: _Facts, office: str, skill: str, s: int, funding: str) -> st
 # -- the column ---------------------------------------------------------------------------------
 
 def change_reasons(instance: Instance, old: Plan, new: Plan, at: int, changes: pd.DataFrame,
-                   new_reasons: Reasons) -> list[str]:
+                   new_reasons: Reasons, plans: PlanNames = OLD_AND_NEW) -> list[str]:
     """One short reason per row of ``changes`` (``replan``'s ``CHANGE_COLUMNS`` but
     ``reason``), from the re-plan's ``instance``, the ``old`` and ``new`` plans, the re-plan
-    period index ``at`` and the new plan's ``new_reasons`` (:func:`reasons` of it)."""
-    f = _Facts(instance, old, new, at, new_reasons)
+    period index ``at`` and the new plan's ``new_reasons`` (:func:`reasons` of it).
+
+    ``plans``: what the reasons call the two plans (``compare`` passes
+    :data:`BASE_AND_SCENARIO`, with the base plan as ``old``, the scenario's as ``new``, its
+    data as ``instance`` and ``at`` 0)."""
+    f = _Facts(instance, old, new, at, new_reasons, plans)
     out = []
     for change, kind, who, skill, period, before, after in zip(
             *(_texts(changes[c]) for c in ("change", "kind", "who", "skill", "period", "old",

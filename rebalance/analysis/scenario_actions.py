@@ -5,7 +5,9 @@ detail ``added``, ``dropped`` or ``rerouted`` (a new destination in the same per
 a reassignment ``added``, ``dropped`` or ``changed``, ``more`` or ``fewer`` hires of an office,
 skill, start period and funding (``moved`` where the same number start in another period
 instead).  Each row says ``when`` it falls against the periods the scenario changes and
-whether every scenario of the comparison makes it.
+whether every scenario of the comparison makes it, and ``reason`` why, in ``changes.csv``'s
+words (:func:`change_rows` puts a row in them for
+:func:`~rebalance.analysis.change_reasons.change_reasons`).
 """
 
 from __future__ import annotations
@@ -20,12 +22,14 @@ import pandas as pd
 from rebalance.analysis.limits import hire_rows
 from rebalance.plan import Plan
 
-__all__ = ["ACTION_COLUMNS", "NO_WHEN", "SUMMARY_COLUMNS", "HireChange", "PlanActions",
-           "action_rows", "action_summary", "actions_table", "hire_changes", "main_skills",
-           "plan_actions", "when_words"]
+__all__ = ["ACTION_COLUMNS", "NO_WHEN", "REASON_COLUMN", "SUMMARY_COLUMNS", "HireChange",
+           "PlanActions", "action_rows", "action_summary", "actions_table", "change_rows",
+           "hire_changes", "main_skills", "plan_actions", "when_words"]
 
+# The columns of :func:`action_rows`; the table adds :data:`REASON_COLUMN` after them.
 ACTION_COLUMNS = ("scenario", "change", "action", "person_or_office", "skill", "period",
                   "route_or_funding", "base", "scenario_value", "when", "in_every_scenario")
+REASON_COLUMN = "reason"
 # ``when`` where the scenario changes no period (nothing to be before or after).
 NO_WHEN = "—"
 
@@ -175,10 +179,38 @@ def action_rows(name: str, base: Plan, plan: Plan, periods: Sequence[str],
     return [row for _, row in sorted(rows, key=lambda r: (r[0], r[1][2], r[1][3], r[1][6]))]
 
 
-def actions_table(rows: Sequence[tuple[Any, ...]], scenarios: Sequence[str]) -> pd.DataFrame:
+def change_rows(rows: Sequence[tuple[Any, ...]]) -> pd.DataFrame:
+    """``rows`` of :func:`action_rows` in ``changes.csv``'s words (``change, kind, who,
+    skill, period, old, new``, as ``replan`` writes them), for
+    :func:`~rebalance.analysis.change_reasons.change_reasons`: a route pair ``X, now Y``
+    split in two, a reassignment's route with ``from`` its period, a hire's funding in its
+    kind and a moved hire's counts as ``1 in 2027-Q4``."""
+    out = []
+    for _, change, action, who, skill, period, route, before, after, _, _ in rows:
+        old, _, new = str(route).partition(", now ")
+        if action == "hire":
+            funding, _, was = str(route).partition(", was ")
+            kind = f"hire ({funding})"
+            old, new = ((f"{before} in {was}", f"{after} in {period}") if change == "moved"
+                        else (str(before), str(after)))
+        else:
+            kind = action
+            if action == "reassignment" and change != "changed":
+                old = f"{route} from {period}"
+            if change == "added":
+                old, new = "", old
+            elif change == "dropped":
+                new = ""
+        out.append((change, kind, who, skill, period, old, new))
+    return pd.DataFrame(out, columns=["change", "kind", "who", "skill", "period", "old", "new"])
+
+
+def actions_table(rows: Sequence[tuple[Any, ...]], scenarios: Sequence[str],
+                  reasons: Sequence[str] | None = None) -> pd.DataFrame:
     """``rows`` of :func:`action_rows` as the table, ``in_every_scenario`` true where the same
     change (all but the scenario, the skill a detail is worked in, and ``when``) is made under
-    every one of ``scenarios``, when there are 2 or more."""
+    every one of ``scenarios``, when there are 2 or more; ``reason`` from ``reasons``, one a
+    row (blank without them)."""
     def decision(row: tuple[Any, ...]) -> tuple[Any, ...]:
         _, change, action, who, skill, period, route, before, after, _, _ = row
         return (change, action, who, skill if action == "hire" else "", period, route,
@@ -188,8 +220,10 @@ def actions_table(rows: Sequence[tuple[Any, ...]], scenarios: Sequence[str]) -> 
     for row in rows:
         made[decision(row)].add(row[0])
     every = len(scenarios) >= 2
-    out = [(*row[:-1], every and made[decision(row)] >= set(scenarios)) for row in rows]
-    return pd.DataFrame(out, columns=list(ACTION_COLUMNS))
+    said = [""] * len(rows) if reasons is None else reasons
+    out = [(*row[:-1], every and made[decision(row)] >= set(scenarios), why)
+           for row, why in zip(rows, said, strict=True)]
+    return pd.DataFrame(out, columns=[*ACTION_COLUMNS, REASON_COLUMN])
 
 
 def _hire_change(c: HireChange, ix: Mapping[str, int]) -> str:

@@ -14,6 +14,7 @@ from typing import Any
 
 import pandas as pd
 
+from rebalance.analysis.change_reasons import BASE_AND_SCENARIO, change_reasons
 from rebalance.analysis.limits import BUDGET_LIMITS
 from rebalance.analysis.reasons import reasons
 from rebalance.analysis.scenario_actions import (
@@ -22,6 +23,7 @@ from rebalance.analysis.scenario_actions import (
     action_rows,
     action_summary,
     actions_table,
+    change_rows,
     plan_actions,
 )
 from rebalance.analysis.scenario_files import Scenario, apply_scenario
@@ -57,7 +59,8 @@ class Comparison:
 
     ``table`` (``scenarios.csv``): one row per plan.  ``costs`` (``scenario_costs.csv``): cost
     by scenario, year and kind.  ``actions`` (``scenario_actions.csv``): one row per hire,
-    detail or reassignment decision a scenario's plan changes against the base plan.
+    detail or reassignment decision a scenario's plan changes against the base plan, with its
+    reason.
     ``offices`` (``scenario_offices.csv``): demand and shortfall by scenario and office, to
     say where a surge lands and where it is left short.  ``reasons``: each scenario plan's
     ``reasons.csv`` table by scenario name (the base's and plan-less scenarios' left out),
@@ -280,6 +283,7 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
     rows = []
     cost_rows = []
     actions: list[tuple[Any, ...]] = []
+    action_reasons: list[str] = []
     office_rows: list[tuple[Any, ...]] = []
     explained: dict[str, pd.DataFrame] = {}
     for name, variant, result in zip(names, variants, results, strict=True):
@@ -290,7 +294,8 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
         if result.plan is not None:
             if name != "base":
                 # Once per scenario plan: its folder's reasons.csv is this table.
-                explained[name] = reasons(variant, result.plan).table
+                why = reasons(variant, result.plan)
+                explained[name] = why.table
             if name != "base" and base_plan is not None:
                 # One row per changed decision (a rerouted detail is one): the count is the
                 # table's rows for this scenario.
@@ -298,6 +303,11 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
                                     changed[name])
                 differing = len(found)
                 actions += found
+                # Why, as a re-plan's changes.csv says it: the base plan as the old plan, on
+                # the scenario's data, from the first period (the scenario's solve only starts
+                # from the base plan; it may change any period, changes_before counts those).
+                action_reasons += change_reasons(variant, base_plan, result.plan, 0,
+                                                 change_rows(found), why, BASE_AND_SCENARIO)
                 summary = action_summary(base_plan, result.plan, instance.period_names,
                                          changed[name], offices_of[name])
                 summary[HELD_BACK_COLUMN] = held_back_by(variant, explained[name], base_plan,
@@ -311,6 +321,6 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
         office_rows += _office_rows(name, result, variant)
     table = pd.DataFrame(rows)
     costs = pd.DataFrame(cost_rows, columns=["scenario", "year", "kind", "cost"])
-    actions_frame = actions_table(actions, names[1:])
+    actions_frame = actions_table(actions, names[1:], action_reasons)
     offices = pd.DataFrame(office_rows, columns=list(OFFICE_COLUMNS))
     return Comparison(names, tuple(results), table, costs, actions_frame, offices, explained)

@@ -413,6 +413,8 @@ TABLE_SECTIONS = {
     "scenario_actions": ("Actions that differ from the base", "Each hire, detail and "
                          "reassignment decision a scenario's plan changes against the base "
                          "plan, one row each (a detail sent elsewhere in the same period is "
-                         "one rerouted row). Each scenario was solved from the base plan, and "
-                         "a change that did not pay under the scenario was undone."),
+                         "one rerouted row), and why, worked out from the scenario's data and "
+                         "both plans (an added action's reason is the scenario plan's own). "
+                         "Each scenario was solved from the base plan, and a change that did "
+                         "not pay under the scenario was undone."),
 }

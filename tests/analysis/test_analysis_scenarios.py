@@ -117,7 +117,8 @@ def test_compare_matches_separate_solves(tiny) -> None:
     surged = comparison.results[1].plan
     assert surged is not None
     actions = comparison.actions
-    assert tuple(actions.columns) == ACTION_COLUMNS
+    assert tuple(actions.columns) == (*ACTION_COLUMNS, "reason")
+    assert actions["reason"].astype(str).str.len().gt(0).all()  # every row says why
     assert set(actions["scenario"]) <= {"b-surge"}
     assert table.loc["b-surge", "actions_differing"] == len(actions)
     # One scenario: nothing is "in every scenario"; its demand changes 2027-Q4 only, the last.
@@ -416,6 +417,82 @@ def test_tiny_comparison_marks_common_changes_and_budget_years(tiny) -> None:
     assert set(hires["change"]) == {"fewer"} and hires["scenario_value"].eq(0).all()
     assert len(hires) == len(base.hires)
     assert set(rows["when"]) == {"during"} and not rows["in_every_scenario"].any()
+
+
+# A manager's reading of scenario_actions.csv: each row said what the scenario's plan changes
+# against the base plan, never why; changes.csv says why for a re-plan, in the same words.
+
+def test_change_rows_put_action_rows_in_the_re_plans_words() -> None:
+    from rebalance.analysis.scenario_actions import change_rows
+
+    rows = [("s", "rerouted", "detail", "p1", "intake", "2027-Q1", "A -> B, now A -> C", 1, 1,
+             "before", False),
+            ("s", "dropped", "detail", "p2", "", "2027-Q2", "A -> B", 1, 0, "during", False),
+            ("s", "added", "detail", "p6", "", "2027-Q3", "A -> B", 0, 1, "during", False),
+            ("s", "more", "hire", "A", "intake", "2027-Q3", "vacancy", 2, 3, "during", False),
+            ("s", "moved", "hire", "B", "review", "2027-Q3", "new, was 2027-Q2", 1, 1,
+             "during", False),
+            ("s", "changed", "reassignment", "p4", "review", "2027-Q3",
+             "A -> B from 2027-Q2, now A -> B from 2027-Q3", 1, 1, "during", False),
+            ("s", "dropped", "reassignment", "p5", "", "2027-Q3", "B -> A", 1, 0, "during",
+             False)]
+    # Reference: the same changes written by hand in changes.csv's words (docs/analysis.md,
+    # "changes.csv": routes as old and new, a reassignment "A -> B from 2027-Q3", hire counts,
+    # a moved hire's "1 in 2027-Q2").
+    assert change_rows(rows).values.tolist() == [
+        ["rerouted", "detail", "p1", "intake", "2027-Q1", "A -> B", "A -> C"],
+        ["dropped", "detail", "p2", "", "2027-Q2", "A -> B", ""],
+        ["added", "detail", "p6", "", "2027-Q3", "", "A -> B"],
+        ["more", "hire (vacancy)", "A", "intake", "2027-Q3", "2", "3"],
+        ["moved", "hire (new)", "B", "review", "2027-Q3", "1 in 2027-Q2", "1 in 2027-Q3"],
+        ["changed", "reassignment", "p4", "review", "2027-Q3", "A -> B from 2027-Q2",
+         "A -> B from 2027-Q3"],
+        ["dropped", "reassignment", "p5", "", "2027-Q3", "B -> A from 2027-Q3", ""]]
+
+
+def test_scenario_actions_say_why_as_changes_csv_does(tiny) -> None:
+    from analysis_helpers import exact_options
+
+    from rebalance.analysis.scenario_files import BudgetChange
+
+    b_q4 = (("B",), ("review",), (3,))
+    comparison = compare_scenarios(tiny, [
+        Scenario("q4-gone", "", (DemandChange(*b_q4, multiplier=0.0),)),
+        Scenario("q4-half", "", (DemandChange(*b_q4, multiplier=0.5),)),
+        Scenario("no-hiring", "", (), (BudgetChange(("2027",), hiring_add=-40_000.0),))],
+        exact_options(tiny), workers=1)
+    base = comparison.results[0].plan
+    assert base is not None
+    # tiny's base plan (exact): b1 leaves after 2027-Q3, so B's 1.0 FTE of review in 2027-Q4
+    # takes a2 on detail (0.8 at review:0.8) and one new review hire there from 2027-Q4.
+    assert set(map(tuple, base.details[["person", "period", "to_office"]].values.tolist())) >= {
+        ("a2", "2027-Q4", "B")}
+    assert base.hires[["office", "skill", "start_period", "count", "funding"]
+                      ].values.tolist() == [["B", "review", "2027-Q4", 1, "new"]]
+    actions = comparison.actions
+    got = {(r.scenario, r.change, r.action, r.person_or_office, r.period): r.reason
+           for r in actions.itertuples(index=False)}
+    assert got == {
+        # By hand: B's review demand in 2027-Q4 times 0 is none; a2's skills are review and
+        # intake (staff.csv) and B has no other demand then, and 2027-Q4 is the last period.
+        ("q4-gone", "dropped", "detail", "a2", "2027-Q4"):
+            "forced by the data: B has no demand left for a2's skills in 2027-Q4",
+        ("q4-gone", "fewer", "hire", "B", "2027-Q4"):
+            "forced by the data: no review demand is left at B from 2027-Q4 on for a hire to "
+            "cover",
+        # By hand: 1.0 x 0.5 = 0.5 FTE, 0.5 below the base plan's 1.0, and a2's 0.8 on
+        # detail covers it without the hire.
+        ("q4-half", "fewer", "hire", "B", "2027-Q4"):
+            "review demand at B from 2027-Q4 on is met without it: review demand at B from "
+            "2027-Q4 on is 0.500 FTE-periods lower than the base plan was made for",
+        # By hand: 40,000 - 40,000 leaves 0 of 2027's hiring cap; a new review hire from
+        # 2027-Q4 costs 8,000 onboarding + 20,000 salary for its one period = 28,000
+        # (skills.csv).  Without it B has a2's 0.8 of its 1.0: a1, on detail in 2027-Q2 and
+        # Q3, may not go a third period in a row (max_consecutive_detail_periods = 2).
+        ("no-hiring", "fewer", "hire", "B", "2027-Q4"):
+            "the scenario's plan leaves 0 of the 2027 hiring budget, less than the 28,000 it "
+            "would cost then; review demand at B from 2027-Q4 on is left 0.200 FTE-periods "
+            "short"}
 
 
 # A planner's reading of the demo comparison: "who moves for this surge?" had the rows in

@@ -121,3 +121,16 @@ def test_a_plan_made_ahead_reads_with_the_decimals_of_the_figures_beside_it():
     assert lines["new money"][3] == "2,580,000 EUR" and lines["hires"][3] == "25"
     page = " ".join(re.sub(r"<[^>]+>", " ", frame_table_html(frame, "replan")).split())
     assert "170.9605 170.9603 -0.0002 165.5000" in page
+
+
+def test_a_difference_one_off_in_the_last_place_keeps_the_rules_decimals():
+    # A reviewer's reading of a re-plan: shortfall FTE-periods 185.733247, 185.424554 and
+    # -0.308693 were written to six decimals, as 185.425 - 185.733 = -0.308 against -0.309 at
+    # three.  By hand, as in any rounded table, one in the last place is rounding; with more
+    # decimals than the rule's the difference stays exact (168.59153 above).
+    from rebalance.numbers import compared_texts
+
+    assert compared_texts(185.733247, 185.424554, -0.308693, "shortfall_fte_periods") == [
+        "185.733", "185.425", "-0.309"]
+    assert compared_texts(168.59153075497005, 168.5913621636079, -0.00016859136215430226,
+                          "weighted_shortfall") == ["168.59153", "168.59136", "-0.00017"]

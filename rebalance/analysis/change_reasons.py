@@ -330,8 +330,9 @@ def _held_back(f: _Facts, person: str, office: str, t: int) -> str:
     T = len(f.names)
     for start in range(max(0, t - m), min(t, T - m - 1) + 1) if m > 0 else ():
         if sum((person, s) in f.ctx.away for s in range(start, start + m + 1) if s != t) >= m:
-            found.append(f"at most {m} detail periods in {m + 1} in a row, and they have {m} "
-                         f"from {f.names[start]} to {f.names[start + m]} already")
+            found.append(f"a person may be away on detail at most {m} of any {m + 1} "
+                         f"periods, and they are {m} from {f.names[start]} to "
+                         f"{f.names[start + m]} already")
             break
     if found:
         return "held back by " + " and ".join(found)

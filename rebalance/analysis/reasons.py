@@ -194,7 +194,7 @@ def _move_words(instance: Instance, person: str, a: str, b: str, skill: str, nee
     parts.append(f"one move ({_money(instance, cost)}) costs "
                  f"{'less than' if cost < detail_cost else 'no less than'} detailing them for "
                  f"all of it ({_money(instance, detail_cost)})"
-                 + (f", which details, at most {m} {_periods(m)} in a row, could not do"
+                 + (f", which details, at most {m} of any {m + 1} periods, could not do"
                     if m is not None and m < n else ""))
     if not need and not seats_full and not share_full:
         parts.append("no gain visible from this move alone (review)")
@@ -290,11 +290,13 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
             after = t2 + 1 in gap_periods
             spare = all(ctx.short.get((a, skill, t), 0.0) <= _EPS for t in range(t1, t2 + 1))
             if not before and not after:
-                shape = f"a {n}-period spike" if n > 1 else "a one-period spike"
+                # A gap, not a spike: it may come from the office's own people away as
+                # much as from demand (a demand that barely moved had read as a spike).
+                shape = f"a {n}-period gap" if n > 1 else "a one-period gap"
             elif m and n == m:
                 # Only a run at the limit was cut short by it.
-                shape = (f"part of a longer gap, and details are limited to {m} "
-                         f"{_periods(m)} in a row")
+                shape = (f"part of a longer gap, and a person may be away on detail at "
+                         f"most {m} of any {m + 1} periods")
             else:
                 shape = "part of a longer gap"
             at_b = max(priority.get((b, skill, t), 1.0) for t in range(t1, t2 + 1))

@@ -90,7 +90,10 @@ def stay_put_plan(backend: Backend, model: Model, objective: np.ndarray,
     candidates: list[tuple[str, np.ndarray | BackendOutcome]] = [
         ("staying put (no moves, no hires)", model.col_lower)]
     if model.hint is not None and model.hint.size == model.num_cols:
-        candidates.insert(0, (f"{model.hint_words}'s moves and hires, work split afresh",
+        # Said as such: replan.csv scores the old plan with its own work split, which can
+        # leave more short (192.592 there beside 192.29 here had read as a contradiction).
+        candidates.insert(0, (f"{model.hint_words}'s moves and hires with the work split "
+                              "redone for these data (its own split may leave more short)",
                               _hint_held(model) if hint_split is None else hint_split))
     best: tuple[float, np.ndarray] | None = None
     for words, values in candidates:

@@ -149,3 +149,18 @@ def test_most_seconds_counts_rounds_of_workers() -> None:
     assert most_seconds(0, options, 2) == 0
     # A limit above 60 s leaves the LPs at 60 s each (rebalance.analysis.marginal_estimate).
     assert most_seconds(1, replace(options, time_limit_seconds=300.0), 2) == 120 + 300
+
+
+def test_the_old_plans_line_says_its_work_split_was_redone(tiny, capsys):
+    # A reviewer's reading of a re-plan: "the old plan's moves and hires, work split afresh:
+    # 192.29" beside replan.csv's old plan at 192.592 read as a contradiction; the line now
+    # says the split was redone and that the plan's own may leave more short.
+    from rebalance.analysis.replan import DisruptionCosts, replan
+
+    said: list[str] = []
+    options = replace(options_from_instance(tiny), progress=said.append)
+    base = make_plan(tiny, replace(options, progress=None))
+    assert base.plan is not None
+    replan(tiny, base.plan, 1, options, DisruptionCosts(2000, 10000, 5000))
+    assert any("the old plan's moves and hires with the work split redone for these data "
+               "(its own split may leave more short)" in line for line in said), said

@@ -111,7 +111,7 @@ def read_tables(folder: Path) -> tuple[dict[str, Any], dict[str, RawTable], list
     for name in REQUIRED_TABLES + OPTIONAL_TABLES:
         path = folder / f"{name}.csv"
         if path.is_file():
-            tables[name] = read_csv_table(path)
+            tables[name] = read_csv_table(path, COLUMNS[name][0] + COLUMNS[name][1])
         elif name in REQUIRED_TABLES:
             problems.append(Problem(f"{name}.csv", None, None, "file is missing"))
     return settings, tables, problems

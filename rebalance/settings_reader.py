@@ -8,7 +8,7 @@ Every problem is collected, not just the first, each naming the dotted key it is
 from __future__ import annotations
 
 import re
-from collections.abc import Iterable, Mapping
+from collections.abc import Collection, Iterable, Mapping
 from typing import Any, TypeGuard
 
 from rebalance.instance import Money, MoveCostDefaults, Objective, Period, Policy, SolverSettings
@@ -29,6 +29,7 @@ __all__ = [
     "read_periods",
     "read_sections",
     "read_title",
+    "typo_words",
     "warn_unknown_settings",
 ]
 
@@ -49,13 +50,34 @@ SETTINGS_KEYS = (
     "solver.seed", "money.currency", "report.title",
 )
 PERIOD_KEYS = ("name", "year", "hours_per_fte")
+# What each optional key's default means (docs/instance-format.md, the settings table): said
+# where a misspelt key leaves it in force, as the plan would run that way.
+DEFAULT_MEANINGS = {
+    "horizon.periods_per_year": "4 periods in a year",
+    "policy.max_away_share": "1.0: no cap",
+    "policy.max_consecutive_detail_periods": "none: no limit",
+    **dict.fromkeys(("move_costs.detail_cost_per_period", "move_costs.relocation_cost",
+                     "move_costs.same_location_detail_cost_per_period",
+                     "move_costs.same_location_relocation_cost"),
+                    "0: free where move_costs.csv gives no cost"),
+    "objective.mode": "shortfall-first: least shortfall, then least cost",
+    "objective.shortfall_cost": "100,000 a priority-weighted FTE-period short",
+    "objective.shortfall_tolerance": "1e-6",
+    "solver.name": "highs",
+    "solver.time_limit_seconds": "300",
+    "solver.relative_gap": "0.0001",
+    "solver.threads": "1",
+    "solver.seed": "0",
+    "money.currency": "none: amounts shown bare",
+    "report.title": "none: the reports are headed with the instance's name",
+}
 MAX_SHORTFALL_COST = 1e12
 _PERIOD_HOURS = re.compile(r"horizon\.periods\[\d+\]\.hours_per_fte")
 
 
 def warn_unknown_settings(settings: Mapping[str, Any], problems: list[Problem]) -> None:
     """A warning for each setting nothing reads: a typo (``max_away_shares``) would otherwise
-    leave the default in force without a word."""
+    leave the default in force without a word; an error where :func:`typo_words` says so."""
     def warn(key: str, what: str, expected: list[str], hint: str = "") -> None:
         given = key.rpartition(".")[2]  # the key within its section, as ``expected`` lists it
         problems.append(Problem("settings.toml", None, key, f"unknown {what}, ignored (expected "
@@ -63,8 +85,16 @@ def warn_unknown_settings(settings: Mapping[str, Any], problems: list[Problem]) 
                                 + (hint or did_you_mean(given, expected)), is_warning=True))
 
     sections = list(dict.fromkeys(key.partition(".")[0] for key in SETTINGS_KEYS))
+    given = {f"{section}.{key}" for section, table in settings.items()
+             if isinstance(table, dict) for key in table}
     for section, table in settings.items():
         if section not in sections:
+            typos = [(f"{section}.{key}", typo_words(f"{section}.{key}", given))
+                     for key in (table if isinstance(table, dict) else {})]
+            problems += [Problem("settings.toml", None, key, words) for key, words in typos
+                         if words]
+            if any(words for _, words in typos):
+                continue  # its keys' errors say where they belong
             # A key of a section written above every section (title = "..." at the top).
             owner = [k.partition(".")[0] for k in SETTINGS_KEYS if k.endswith("." + section)]
             warn(section, "section", sections,
@@ -75,7 +105,11 @@ def warn_unknown_settings(settings: Mapping[str, Any], problems: list[Problem]) 
         keys = [k.partition(".")[2] for k in SETTINGS_KEYS if k.startswith(section + ".")]
         keys += ["periods"] if section == "horizon" else []
         for key in table:
-            if key not in keys:
+            if key in keys:
+                continue
+            if words := typo_words(f"{section}.{key}", given):
+                problems.append(Problem("settings.toml", None, f"{section}.{key}", words))
+            else:
                 warn(f"{section}.{key}", "key", keys)
     listed = settings.get("horizon", {})
     listed = listed.get("periods") if isinstance(listed, dict) else None
@@ -83,6 +117,24 @@ def warn_unknown_settings(settings: Mapping[str, Any], problems: list[Problem]) 
         for key in entry if isinstance(entry, dict) else {}:
             if key not in PERIOD_KEYS:
                 warn(f"horizon.periods[{i}].{key}", "key", list(PERIOD_KEYS))
+
+
+def typo_words(key: str, given: Collection[str], *, dotted: bool = False) -> str:
+    """The message for unknown dotted ``key`` where it is a close match (:func:`close_names`,
+    the closest) for an optional key not in ``given`` (dotted): an error, as that key stays
+    at its default, which the message says; "" otherwise, where a warning says it is ignored.
+
+    The key is named as written: within its section in settings.toml (``max_away_share``),
+    dotted where ``key`` is of no known section or ``dotted`` (a workbook's key column)."""
+    section, _, name = key.partition(".")
+    known = _section_names(section)
+    close = close_names(name, known)[:1] if known else close_names(key, SETTINGS_KEYS)[:1]
+    meant = [f"{section}.{c}" for c in close] if known else close
+    if not meant or meant[0] not in DEFAULT_MEANINGS or meant[0] in given:
+        return ""
+    shown = close[0] if known and not dotted else meant[0]
+    return (f"unknown key; did you mean {shown}? (as written, {shown} stays at its default, "
+            f"{DEFAULT_MEANINGS[meant[0]]})")
 
 
 def _section_names(section: str) -> tuple[str, ...]:

@@ -17,7 +17,7 @@ import math
 import re
 from collections import Counter
 from collections.abc import Iterable, Iterator, Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
@@ -31,6 +31,7 @@ __all__ = [
     "RawTable",
     "TableRows",
     "collapse_repeats",
+    "known_case",
     "plain_csv_columns",
     "read_csv_table",
     "read_utf8",
@@ -172,13 +173,31 @@ def _repeated_columns(table: RawTable) -> dict[str, int]:
     return {column: count for column, count in counts.items() if count > 1}
 
 
-def read_csv_table(path: Path) -> RawTable:
+def read_csv_table(path: Path, known: Iterable[str] = ()) -> RawTable:
+    """The file as a table, its columns named as ``known`` ones where only case differs
+    (:func:`known_case`)."""
     try:
         text = read_utf8(path)
     except NotUtf8 as exc:
         return RawTable(path.name, (), (), fault=(exc.row, f"{exc} (in a spreadsheet program: "
                                                             "save as CSV UTF-8)"))
-    return _csv_table(path.name, csv.reader(io.StringIO(text, newline="")))
+    return known_case(_csv_table(path.name, csv.reader(io.StringIO(text, newline=""))), known)
+
+
+def known_case(table: RawTable, names: Iterable[str]) -> RawTable:
+    """``table`` with each column named as one of ``names`` but for case (``Office``)
+    renamed to it: "Office" had drawn "required column is missing" beside "unknown column".
+    Not where two columns would then have one name (``Office`` beside ``office``): those
+    stay as written, the unknown one suggested as the other."""
+    wanted = {name.lower(): name for name in names}
+    folded = Counter(c.lower() for c in table.columns)
+    rename = {c: wanted[c.lower()] for c in table.columns
+              if c not in wanted.values() and c.lower() in wanted and folded[c.lower()] == 1}
+    if not rename:
+        return table
+    return replace(table, columns=tuple(rename.get(c, c) for c in table.columns),
+                   rows=tuple({rename.get(k, k): v for k, v in row.items()} for row in table.rows),
+                   multiline_cells=tuple((n, rename.get(c, c)) for n, c in table.multiline_cells))
 
 
 def plain_csv_columns(file: Path) -> dict[str, np.ndarray] | None:

@@ -16,10 +16,11 @@ from pathlib import Path
 from typing import Literal
 
 from rebalance.instance import Instance
-from rebalance.numbers import distinct_texts, figures, money_text, number_text, share_of
+from rebalance.numbers import figures, number_text, share_of
 from rebalance.plan import BUDGET_LINES, COST_KINDS, PLAN_TABLES, Plan, read_plan, records
 from rebalance.problems import did_you_mean
-from rebalance.verify_causes import link_knock_ons
+from rebalance.verify_causes import hire_cost_lines, link_knock_ons
+from rebalance.verify_causes import money_amounts as _amounts
 
 __all__ = ["NameKind", "Violation", "unknown_names", "verify_folder", "verify_plan"]
 
@@ -111,15 +112,6 @@ def _beyond(value: float, limit: float) -> str:
     """``value`` as :func:`_figures` writes it beside ``limit``: a negative -1e-10 must not
     read as "0" (solver dust to the number rule, but below zero to a rule)."""
     return figures(value, limit)[0] if value != limit else number_text(value)
-
-
-def _amounts(instance: Instance, *values: float) -> list[str]:
-    """Amounts of money as the reports write them (whole units with separators, the
-    instance's currency after them), to the cent or beyond where whole units would make two
-    of them read the same: a mismatch must not read as none ("cost 1,500 but 1,500
-    applies"); see :func:`_apart`."""
-    whole = distinct_texts(values, [money_text(v) for v in values], 2)
-    return [instance.money.amount(text) for text in whole]
 
 
 def _over(value: float, cap: float) -> bool:
@@ -417,13 +409,11 @@ class _Checker:
             if row.funding == "vacancy":
                 vacancy_used[(row.office, row.skill)] += int(count)
             per_office_period[(row.office, s)] += int(count)
-            if not _close(float(row.onboarding_cost), skill.onboarding_cost * count):
-                flag("hire_cost", "onboarding cost does not match skills.csv")
-            salary = skill.salary_per_period * (self.T - s) * count if row.funding == "new" \
-                else 0.0
-            if not _close(float(row.salary_cost), salary):
-                stated, priced = _amounts(self.i, float(row.salary_cost), salary)
-                flag("hire_cost", f"salary cost {stated} but {priced} applies")
+            salary = skill.salary_per_period * (self.T - s) if row.funding == "new" else 0.0
+            for message in hire_cost_lines(self.i, count,
+                                           (float(row.onboarding_cost), skill.onboarding_cost),
+                                           (float(row.salary_cost), salary)):
+                flag("hire_cost", message)
         for (office, s), count in per_office_period.items():
             cap = self.offices[office].max_hires_per_period
             if cap is not None and count > cap:

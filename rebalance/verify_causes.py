@@ -23,10 +23,14 @@ of its own:
 :func:`group_problems` then gathers the violations into problems as a report lists them:
 each with the lines that follow from it, and the same seats excess at one office over
 consecutive periods (one extra hire had read as one problem a period) as one run.
+
+:func:`hire_cost_lines` says what is wrong with a hires.csv row's costs; where both fit
+another count than the row's, the count is what was edited, and that is the one line.
 """
 
 from __future__ import annotations
 
+import math
 import re
 from collections import defaultdict
 from collections.abc import Callable, Sequence
@@ -35,13 +39,14 @@ from pathlib import PurePath
 from typing import TYPE_CHECKING, Any
 
 from rebalance.instance import Instance
+from rebalance.numbers import distinct_texts, money_text, number_text
 from rebalance.plan import Plan, records
 
 if TYPE_CHECKING:
     from rebalance.verify import Violation
 
 __all__ = ["KNOCK_ONS_SHOWN", "KNOCK_ON_RULES", "PROBLEMS_SHOWN", "Problem", "group_problems",
-           "link_knock_ons"]
+           "hire_cost_lines", "link_knock_ons", "money_amounts"]
 
 # Problems listed of a failed verification before the rest are counted (on the console and the
 # page alike), and the knock-on lines kept under each where the list runs long.
@@ -57,6 +62,42 @@ LINE = re.compile(r":(\d+)$")
 
 def _close(a: float, b: float) -> bool:
     return abs(a - b) <= TOL + TOL * max(abs(a), abs(b))
+
+
+def money_amounts(instance: Instance, *values: float) -> list[str]:
+    """Amounts of money as the reports write them (whole units with separators, the
+    instance's currency after them), to the cent or beyond where whole units would make two
+    of them read the same: a mismatch must not read as none ("cost 1,500 but 1,500
+    applies")."""
+    whole = distinct_texts(values, [money_text(v) for v in values], 2)
+    return [instance.money.amount(text) for text in whole]
+
+
+def hire_cost_lines(instance: Instance, count: float, onboarding: tuple[float, float],
+                    salary: tuple[float, float]) -> list[str]:
+    """What is wrong with a hires.csv row's costs, each given as (the row's figure, the
+    price of one hire: 0 for the salary of a vacancy hire); none when both match ``count``.
+
+    Where both fit one other whole count (a price of 0 fits any, if its figure is 0), the
+    count was edited: one line says so, not a cost line each that points at a price.
+    """
+    costs = {"onboarding_cost": onboarding, "salary_cost": salary}
+    wrong = {name: (found, each * count) for name, (found, each) in costs.items()
+             if not _close(found, each * count)}
+    if not wrong:
+        return []
+    telling = [name for name, (_, each) in costs.items() if each > 0]
+    if telling and math.isfinite(ratio := costs[telling[0]][0] / costs[telling[0]][1]):
+        fit = round(ratio)
+        if fit >= 1 and fit != count and all(_close(found, each * fit)
+                                             for found, each in costs.values()):
+            return [f"count {number_text(count)} disagrees with {' and '.join(telling)}, "
+                    f"which fit{'s' if len(telling) == 1 else ''} {fit}"]
+    lines = []
+    for name, (found, expected) in wrong.items():
+        stated, priced = money_amounts(instance, found, expected)
+        lines.append(f"{name.replace('_', ' ')} {stated} but {priced} applies")
+    return lines
 
 
 def _line(v: Violation) -> int | None:

@@ -32,8 +32,8 @@ from rebalance.readers import (
     InstanceError,
     build_instance,
 )
-from rebalance.settings_reader import SETTINGS_KEYS, meant_for
-from rebalance.tables import RawTable
+from rebalance.settings_reader import SETTINGS_KEYS, meant_for, typo_words
+from rebalance.tables import RawTable, known_case
 from rebalance.workbook_layout import Layout, sheet_layout, sheet_parts
 from rebalance.workbook_writer import (
     NUMBER,
@@ -112,15 +112,19 @@ def read_workbook(path: str | Path) -> Instance:
     for problem in _dates_for_periods(sheets, label):
         problems.append(problem)
         merged[(problem.file, problem.row, problem.column)] = problem.message
+    # Said with a missing sheet: one named otherwise ("Skill set") is then seen at a glance.
+    found = ("; the workbook's sheets are " + ", ".join(titles.values()) if titles
+             else "; the workbook has no sheet")
     tables: dict[str, RawTable] = {}
     for name in REQUIRED_TABLES + OPTIONAL_TABLES:
         sheet = sheets.get(name)
         if sheet is not None:
-            tables[name] = RawTable(label(name), sheet.columns, sheet.rows,
-                                    overlong_rows=sheet.overlong_rows,
-                                    unnamed_cells=sheet.unnamed_cells)
+            tables[name] = known_case(RawTable(label(name), sheet.columns, sheet.rows,
+                                               overlong_rows=sheet.overlong_rows,
+                                               unnamed_cells=sheet.unnamed_cells),
+                                      COLUMNS[name][0] + COLUMNS[name][1])
         elif name in REQUIRED_TABLES:
-            problems.append(Problem(label(name), None, None, "sheet is missing"))
+            problems.append(Problem(label(name), None, None, "sheet is missing" + found))
     known = set(REQUIRED_TABLES + OPTIONAL_TABLES + (SETTINGS_SHEET, PERIODS_SHEET))
     for name in sheets:
         if name not in known:
@@ -139,7 +143,7 @@ def read_workbook(path: str | Path) -> Instance:
         problems.append(Problem(label(SETTINGS_SHEET), None, None, "sheet is missing; expected "
                                 "a sheet named settings with columns key and value, one "
                                 "setting per row, such as horizon.start, horizon.count and "
-                                "horizon.hours_per_fte"))
+                                "horizon.hours_per_fte" + found))
     # With no settings to read, every setting reads as missing: the sheet's own problem says
     # it once (a missing sheet had drawn a second line, "horizon: give either periods ...").
     settings_read = SETTINGS_SHEET in sheets and {"key", "value"} <= {
@@ -264,10 +268,10 @@ def _header_below(key: str, header: list[str], values: list[tuple[Any, ...]]) ->
     row 1 holds none of them, or None."""
     known = set(SHEET_COLUMNS.get(key, ())) | (set(COLUMNS[key][0]) | set(COLUMNS[key][1])
                                                if key in COLUMNS else set())
-    if not known or known & set(header):
+    if not known or known & {h.lower() for h in header}:
         return None
     for number, cells in enumerate(values[1:10], 2):
-        if known & {_text(c) for c in cells}:
+        if known & {_text(c).lower() for c in cells}:
             return number
     return None
 
@@ -450,6 +454,7 @@ def _settings(sheet: _Sheet, label: str, problems: list[Problem],
     if "key" not in columns or "value" not in columns:
         return settings, key_rows, dates
     key_at, value_at = columns.index("key"), columns.index("value")
+    unknown: list[tuple[int, str]] = []  # (index in problems, key) of each unknown key's warning
     for i, cells in enumerate(sheet.raw_rows):
         row_number = i + 2
         padded = list(cells) + [None] * (max(key_at, value_at) + 1 - len(cells))
@@ -464,6 +469,7 @@ def _settings(sheet: _Sheet, label: str, problems: list[Problem],
                                     f"at row {key_rows[key]})"))
             continue
         if key not in SETTINGS_KEYS:
+            unknown.append((len(problems), key))
             problems.append(Problem(label, row_number, "key", f"unknown key '{key}', ignored "
                                     "(expected one of: " + ", ".join(SETTINGS_KEYS) + ")"
                                     + did_you_mean(key, SETTINGS_KEYS), is_warning=True))
@@ -476,12 +482,20 @@ def _settings(sheet: _Sheet, label: str, problems: list[Problem],
         settings.setdefault(section, {})[name] = _typed(value)
         if isinstance(value, dt.date):  # a datetime is a date too
             dates[key] = value
+    # A close match for an optional key the sheet gives no value: an error, as in a folder
+    # (settings_reader.typo_words); known only once every row is read.
+    given = {f"{section}.{name}" for section, table in settings.items() for name in table}
+    for at, key in unknown:
+        if words := typo_words(key, given, dotted=True):
+            problems[at] = replace(problems[at], message=f"{key}: {words}", is_warning=False)
     return settings, key_rows, dates
 
 
 def _periods(sheet: _Sheet, label: str, settings: dict[str, Any],
              problems: list[Problem]) -> None:
     """Explicit periods from the periods sheet into ``settings['horizon']['periods']``."""
+    named = known_case(RawTable(label, sheet.columns, sheet.rows), PERIOD_COLUMNS)
+    sheet = replace(sheet, columns=named.columns, rows=named.rows)
     for needed in ("name", "year"):
         if needed not in sheet.columns:
             problems.append(Problem(label, 1, needed, "required column is missing"))

@@ -300,12 +300,11 @@ def test_a_byte_order_mark_in_settings_is_read(tmp_path):
 def test_a_setting_nothing_reads_is_a_warning_and_true_is_no_number(tmp_path):
     target = valid_copy(tmp_path)
     settings = target / "settings.toml"
-    text = settings.read_text().replace("max_away_share", "max_away_shares")
-    settings.write_text(text + "\n[extras]\nflag = 1\n")
+    text = settings.read_text()
+    settings.write_text(text + "\n[extras]\nflag = 1\n[policy.more]\nwidth = 2\n")
     warnings = read_instance(target).warnings
-    assert ("settings.toml: policy.max_away_shares: unknown key, ignored (expected one of: "
-            "max_away_share, max_consecutive_detail_periods) (did you mean 'max_away_share'?)"
-            ) in warnings
+    assert ("settings.toml: policy.more: unknown key, ignored (expected one of: "
+            "max_away_share, max_consecutive_detail_periods)") in warnings
     assert any(w.startswith("settings.toml: extras: unknown section") for w in warnings)
     settings.write_text(text.replace("hours_per_fte = 480", "hours_per_fte = true"))
     # TOML's own spelling: 'True' is a word the file does not hold (a docs sweep).
@@ -801,15 +800,15 @@ def test_a_misspelt_required_setting_is_one_problem_naming_the_key_written(tmp_p
     assert _warnings_too(variant("both", ("start =", "strat ="), ("count =", "cuont ="))) == [
         'settings.toml: horizon: give either periods = [...] or start = "YYYY-Qn" with '
         "count = N (horizon.strat may be meant as start; horizon.cuont may be meant as count)"]
-    # The hours are required when periods are generated; an optional key's typo stays a
-    # warning with its suggestion, as before.
+    # The hours are required when periods are generated; an optional key's typo is an error
+    # of its own, saying the default it leaves in force (docs/instance-format.md's table).
     got = _warnings_too(variant("hours", ("hours_per_fte =", "hours_per_fet ="),
                                 ("max_away_share =", "max_away_shares =")))
     assert got == [
+        "settings.toml: policy.max_away_shares: unknown key; did you mean max_away_share? (as "
+        "written, max_away_share stays at its default, 1.0: no cap)",
         "settings.toml: horizon.hours_per_fte: is missing; expected a number > 0 (required "
-        "when periods are generated from start) (horizon.hours_per_fet may be meant as it)",
-        "settings.toml: policy.max_away_shares: unknown key, ignored (expected one of: "
-        "max_away_share, max_consecutive_detail_periods) (did you mean 'max_away_share'?)"]
+        "when periods are generated from start) (horizon.hours_per_fet may be meant as it)"]
     # Listed periods: a misspelt name or year in an entry, and a misspelt default of hours.
     listed = ('[[horizon.periods]]\nnmae = "2027-Q1"\nyear = "2027"\n\n'
               '[[horizon.periods]]\nname = "2027-Q2"\nyaer = "2027"\n\n[policy]')
@@ -831,3 +830,46 @@ def test_a_misspelt_required_setting_is_one_problem_naming_the_key_written(tmp_p
         'settings.toml: horizon.start: is missing; expected text such as "2027-Q1"',
         "settings.toml: horizon.opening: unknown key, ignored (expected one of: start, count, "
         "hours_per_fte, periods_per_year, periods)"]
+
+
+def test_a_misspelt_optional_setting_is_an_error_saying_the_default_it_leaves(tmp_path):
+    # A reviewer's check: policy.max_away_shar had read "valid" with a warning, the cap left
+    # at 1.0 (no cap) for the plan.  Which names are close is difflib's ratio (Python's difflib
+    # documentation, get_close_matches); each default's meaning is docs/instance-format.md's
+    # settings table (max_away_share 1.0, relocation_cost 0).
+    target = valid_copy(tmp_path)
+    settings = target / "settings.toml"
+    text = settings.read_text()
+    settings.write_text(text.replace("max_away_share", "max_away_shar"))
+    assert _problems(target) == [
+        "settings.toml: policy.max_away_shar: unknown key; did you mean max_away_share? (as "
+        "written, max_away_share stays at its default, 1.0: no cap)"]
+    # The key it is close to given too: nothing is left at its default, so a warning.
+    settings.write_text(text.replace("max_away_share = 0.5", "max_away_share = 0.5\n"
+                                     "max_away_shar = 0.4"))
+    assert any(w.startswith("settings.toml: policy.max_away_shar: unknown key, ignored")
+               for w in read_instance(target).warnings)
+    # A misspelt section leaves each of its keys at its default.
+    settings.write_text(text.replace("[move_costs]", "[move_cost]"))
+    assert _problems(target) == [
+        f"settings.toml: move_cost.{key}: unknown key; did you mean move_costs.{key}? (as "
+        f"written, move_costs.{key} stays at its default, 0: free where move_costs.csv gives "
+        "no cost)" for key in ("detail_cost_per_period", "relocation_cost")]
+
+
+def test_column_names_are_read_whatever_their_case_and_spaces(tmp_path):
+    # A reviewer's check: a header typed "Office" drew "required column is missing" and an
+    # "unknown column" warning for one word (common practice: headers match ignoring case).
+    # Beside the column's own name, the other spelling stays an unknown column: which of the
+    # two to read is the file's to say.
+    target = valid_copy(tmp_path)
+    offices = target / "offices.csv"
+    text = offices.read_text()
+    offices.write_text(text.replace("office,location", "Office , LOCATION", 1))
+    instance = read_instance(target)
+    assert [o.name for o in instance.offices] == ["A", "B"] and not instance.warnings
+    offices.write_text(text.replace("office,location", "Office,office", 1))
+    assert _warnings_too(target) == [
+        "offices.csv:1: location: required column is missing",
+        "offices.csv:1: Office: unknown column (expected one of: office, location, seats, "
+        "max_hires_per_period) (did you mean 'office'?)"]

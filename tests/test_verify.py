@@ -499,13 +499,42 @@ def test_a_detail_while_absent_shows_the_coverage_line_of_its_work_under_it(tiny
 
 
 def test_a_hire_count_edited_shows_its_hire_output_line_under_it(tiny_plan):
-    # One review hire at B from 2027-Q4 (ramp 0.5, skills.csv) made two: B's review row in
-    # 2027-Q4 (coverage.csv:10) has hire output 1.0, not 0.5; its onboarding cost no longer
-    # matches, the first problem of that hires.csv row.
+    # Hand-worked on tests/data/tiny: one review hire at B from 2027-Q4 (hires.csv:2,
+    # onboarding 8,000 and salary 20,000 x 1 period left, skills.csv) made two: B's review
+    # row in 2027-Q4 (coverage.csv:10) has hire output 1.0, not 0.5 (ramp 0.5).  Both costs
+    # still fit one hire, so the count is what was edited, one problem, with the line under it.
     instance, result = tiny_plan
     broken = replace(result.plan, hires=result.plan.hires.assign(count=2))
     found = verify_plan(instance, broken)
     assert knock_ons(found) == [("hire_cost", "coverage.csv:10", "coverage_hire_output")]
+    assert [v.message for v in found if v.rule == "hire_cost"] == [
+        "count 2 disagrees with onboarding_cost and salary_cost, which fit 1"]
+
+
+def test_a_hire_cost_edited_says_its_figures(tiny_plan):
+    # Hand-worked on tests/data/tiny: the review hire's onboarding 8,000 (skills.csv, 1 hire)
+    # written 1.  With a count of 2, salary 40,000 (fits 2) and onboarding 12,000 (fits 1.5),
+    # the costs fit no one count, so the one that differs says its figures.
+    instance, result = tiny_plan
+    hires = result.plan.hires
+    found = verify_plan(instance, replace(result.plan, hires=hires.assign(onboarding_cost=1.0)))
+    assert [v.message for v in found if v.rule == "hire_cost"] == [
+        "onboarding cost 1 but 8,000 applies"]
+    both = hires.assign(count=2, onboarding_cost=12000.0, salary_cost=40000.0)
+    found = verify_plan(instance, replace(result.plan, hires=both))
+    assert [v.message for v in found if v.rule == "hire_cost"] == [
+        "onboarding cost 12,000 but 16,000 applies"]
+
+
+def test_a_vacancy_hire_count_edited_names_the_onboarding_cost_it_disagrees_with(tiny_plan):
+    # Hand-worked on tests/data/tiny: an intake hire at A from 2027-Q2 filling a vacancy
+    # (salary 0 at any count, docs/instance-format.md) with onboarding 5,000, one hire's
+    # (skills.csv), but a count of 3.
+    instance, result = tiny_plan
+    hires = add_rows(result.plan.hires, hire("A", "intake", "2027-Q2", 3, "vacancy", 5000.0, 0.0))
+    found = verify_plan(instance, replace(result.plan, hires=hires))
+    assert [v.message for v in found if v.rule == "hire_cost"] == [
+        "count 3 disagrees with onboarding_cost, which fits 1"]
 
 
 def test_coverage_differences_with_no_cause_stay_problems_of_their_own(tiny_plan):

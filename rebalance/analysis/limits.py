@@ -17,7 +17,7 @@ from dataclasses import dataclass
 import pandas as pd
 
 from rebalance.instance import Instance
-from rebalance.plan import Plan
+from rebalance.plan import BUDGET_LINES, Plan
 
 __all__ = ["BUDGET_LIMITS", "LIMIT_COLUMNS", "LIMIT_NAMES", "HireRow", "LimitUse", "hire_rows",
            "limit_use", "limit_use_frame", "limit_words"]
@@ -95,12 +95,22 @@ def _cheapest_detail(instance: Instance) -> float:
     return min(costs) if costs else 0.0
 
 
+def _spent(plan: Plan) -> defaultdict[tuple[str, str], float]:
+    """costs.csv summed by (year, cap): "hiring" and "moves" (:data:`BUDGET_LINES`)."""
+    cap_of = {kind: cap for cap, kinds in BUDGET_LINES for kind in kinds}
+    out: defaultdict[tuple[str, str], float] = defaultdict(float)
+    for year, kind, cost in zip(plan.costs["year"].astype(str), plan.costs["kind"].astype(str),
+                                plan.costs["cost"].astype(float), strict=True):
+        if kind in cap_of:
+            out[(year, cap_of[kind])] += cost
+    return out
+
+
 def limit_use(instance: Instance, plan: Plan) -> tuple[LimitUse, ...]:
     """Every limit of ``instance`` with what ``plan`` uses of it, in a fixed order."""
     names = instance.period_names
     ix = {name: t for t, name in enumerate(names)}
     T = len(names)
-    year_of = [p.year for p in instance.periods]
     people = {p.person: p for p in instance.staff}
     out: list[LimitUse] = []
 
@@ -113,29 +123,23 @@ def limit_use(instance: Instance, plan: Plan) -> tuple[LimitUse, ...]:
     for row in plan.details.itertuples(index=False):
         away[(str(row.person), ix[str(row.period)])] = str(row.to_office)
 
-    # Spending per year, from the tables' own cost columns and the instance's salaries.
-    hiring: dict[str, float] = defaultdict(float)
-    moves: dict[str, float] = defaultdict(float)
+    # Spending per year: costs.csv's, as the pages' money tables and the console's budget
+    # table show it.  Onboarding had come from hires.csv and salaries from its count priced
+    # afresh, so a plan whose count was edited showed a sum no file or check gave.
+    spent = _spent(plan)
+    hiring = {year: spent[(year, "hiring")] for year in instance.years}
+    moves = {year: spent[(year, "moves")] for year in instance.years}
     starts: Counter[tuple[str, int]] = Counter()
     held: Counter[tuple[str, int]] = Counter()
     vacancy_used: Counter[tuple[str, str]] = Counter()
     for hire in hire_rows(plan):
         s = ix[hire.start_period]
         n = hire.count
-        hiring[year_of[s]] += hire.onboarding_cost
-        if hire.funding == "new":
-            salary = instance.skill(hire.skill).salary_per_period * n
-            for t in range(s, T):
-                hiring[year_of[t]] += salary
-        else:
+        if hire.funding != "new":
             vacancy_used[(hire.office, hire.skill)] += n
         starts[(hire.office, s)] += n
         for t in range(s, T):
             held[(hire.office, t)] += n
-    for frame in (plan.details, plan.reassignments):
-        for period, cost in zip(frame["period"].astype(str), frame["cost"].astype(float),
-                                strict=True):
-            moves[year_of[ix[period]]] += cost
 
     cheapest_detail = _cheapest_detail(instance)
     for year in instance.years:

@@ -310,24 +310,34 @@ def _started_hires_ruled_out(instance: Instance, old: Plan, at: int) -> list[str
             by_start[(office, s)] += count
             if funding == "vacancy":
                 by_vacancy[(office, skill)].append((s, count))
-    problems += [f"{count:g} hire(s) of {skill} at {office} from {names[s]} have started (their "
-                 f"recruitment has begun), but the data now rule them out: {why}"
+    problems += [f"{_hires(count)} of {skill} at {office} from {names[s]} {_have(count)} started "
+                 f"(their recruitment has begun), but the data now rule "
+                 f"{'it' if count == 1 else 'them'} out: {why}"
                  for (office, skill, s, why), count in refused.items()]
     for (office, s), count in by_start.items():
         cap = offices[office].max_hires_per_period
         if cap is not None and count > cap:
-            problems.append(f"{count} hires at {office} from {names[s]} have started (their "
-                            "recruitment has begun), but the data now allow "
+            problems.append(f"{_hires(count)} at {office} from {names[s]} {_have(count)} "
+                            "started (their recruitment has begun), but the data now allow "
                             f"{cap} (offices.csv max_hires_per_period)")
     for (office, skill), starts in by_vacancy.items():
         funded = instance.vacancies.get((office, skill), 0)
         filled = sum(count for _, count in starts)
         if filled > funded:
             when = ", ".join(f"{count} from {names[s]}" for s, count in starts)
-            problems.append(f"{filled} hire(s) of {skill} at {office} into funded vacancies "
-                            f"have started ({when}; their recruitment has begun), but the data "
-                            f"now fund {funded} (vacancies.csv)")
+            problems.append(f"{_hires(filled)} of {skill} at {office} into funded vacancies "
+                            f"{_have(filled)} started ({when}; their recruitment has begun), "
+                            f"but the data now fund {funded} (vacancies.csv)")
     return problems
+
+
+def _hires(count: int) -> str:
+    """``1 hire``, ``2 hires``: counted, as the reports count ("1 hire(s)" had read as a form)."""
+    return f"{count:,} hire" + ("" if count == 1 else "s")
+
+
+def _have(count: int) -> str:
+    return "has" if count == 1 else "have"
 
 
 def _why_not(instance: Instance, person: Person, t: int, what: str) -> str:

@@ -23,10 +23,8 @@ from typing import Any
 from rebalance.numbers import (
     dust_free,
     fte_total_text,
-    gap_text,
     money_amount,
     money_text,
-    seconds_text,
     share_text,
 )
 from rebalance.planning import (
@@ -46,13 +44,15 @@ from rebalance.report.chart_data import (
 from rebalance.report.console import budget_note
 from rebalance.report.foresight_words import planned_ahead_heading
 from rebalance.report.htmlparts import (
+    RUN_ANCHOR,
+    RUN_TITLE,
     card,
     chart,
     e,
-    problem_list,
+    note_html,
+    run_details,
     scenario_box,
     section,
-    stage_cell,
     stage_words,
     table_html,
 )
@@ -401,7 +401,7 @@ def render_html(data: ReportData) -> str:
     found = limits_at_cap(inst, plan)
     nav = [("glance", "At a glance"), ("capacity", "Work and capacity"),
            ("gaps", "Where the gaps are"), ("moves", "Who moves where"),
-           ("hiring", "Hiring"), ("money", "Money"), *extra.nav, ("run", "How it was found")]
+           ("hiring", "Hiring"), ("money", "Money"), *extra.nav, (RUN_ANCHOR, RUN_TITLE)]
     sections.append(plan_section(
         "glance", "At a glance",
         "The plan's headline figures. An <em>FTE-period</em> is one full-time person for one "
@@ -470,10 +470,10 @@ def render_html(data: ReportData) -> str:
             ["year", "budget line", cash("spent"), cash("cap"), "used"], cost_rows, name="costs",
             numeric=[False, False, True, True, True]) + _commitments(data)))
     sections.extend(extra.sections)
-    sections.append(plan_section("run", "How it was found", "", _run_details(data)))
+    sections.append(plan_section(RUN_ANCHOR, RUN_TITLE, "", run_details(data)))
     toc = "".join(f'<a href="#{a}">{e(t)}</a>' for a, t in nav)
     words, tone = outcome_words(run.status, run.gap), STATUS_TONE.get(str(run.status), "fair")
-    notes = "".join(f'<p class="note">{e(n)}</p>' for n in (*quality_notes(data), *data.notes))
+    notes = "".join(note_html(n) for n in (*quality_notes(data), *data.notes))
     kicker, heading = _page_heading(data)
     title = (f"{heading} · {inst.heading}" if heading != inst.heading
              else f"Staffing plan: {heading}")
@@ -542,48 +542,6 @@ def _commitments(data: ReportData) -> str:
                           inst.money.header("salary a year")],
                          rows, name="commitments", numeric=[False, True, True, True],
                          foot=[["all skills", positions, "", _m(total)]]))
-
-
-def _run_details(data: ReportData) -> str:
-    run = data.summary
-    currency = data.instance.money.currency
-    replan = run.replan is not None
-
-    def secs(value: float | None) -> str:
-        return "-" if value is None else seconds_text(value)
-
-    facts = [
-        ("instance", data.instance.name),  # the folder's name, which a title stands in for
-        ("solver", run.solver_version or run.solver or "-"),
-        ("objective", run.objective_mode or "-"),
-        ("outcome", outcome_words(run.status, run.gap)),
-        ("largest stage gap at stop", "-" if run.gap is None else gap_text(run.gap)),
-        ("model", f"{run.model_columns or 0:,} columns ({run.model_integer_columns or 0:,} "
-                  f"whole-number) and {run.model_rows or 0:,} rows"),
-        ("build / solve seconds", f"{secs(run.build_seconds)} / {secs(run.solve_seconds)}"),
-        ("independent verification", {True: "passed: every rule and total recomputed from "
-                                      "the instance and the plan tables", False: "FAILED",
-                                      None: "unknown"}[run.verified]),
-    ]
-    out = '<dl class="facts">' + "".join(f"<dt>{e(k)}</dt><dd>{e(v)}</dd>"
-                                          for k, v in facts) + "</dl>"
-    if run.stages:
-        out += table_html(["stage", "outcome, and what the gap leaves open", "objective",
-                           "bound", "gap", "seconds", "solver says"],
-                          [[s.name, stage_words(s, currency, replan=replan),
-                            stage_cell(s, s.objective, currency),
-                            stage_cell(s, s.bound, currency),
-                            (s.gap if s.gap is not None else -1,
-                             "-" if s.gap is None else gap_text(s.gap)),
-                            (s.seconds if s.seconds is not None else -1,
-                             secs(s.seconds)), s.solver_says] for s in run.stages],
-                          name="stages", numeric=[False, False, True, True, True, True, False])
-    out += problem_list(data.problems, run.violations)  # each problem's knock-ons under it
-    for title, items in (("Limits in conflict", run.conflicts), ("Input warnings", run.warnings)):
-        if items:
-            out += f"<h3>{title}</h3><ul>" + "".join(f"<li>{e(i)}</li>" for i in items) + \
-                "</ul>"
-    return out
 
 
 def write_html(data: ReportData, path: str | Path) -> Path:

@@ -18,6 +18,7 @@ from rebalance.numbers import (
     is_money,
     money_header,
     number_text,
+    seconds_text,
     with_currency,
 )
 from rebalance.report.console import (
@@ -31,15 +32,28 @@ from rebalance.report.console import (
     room_left,
     stage_value,
 )
-from rebalance.report.words import optimal_words, plain_status, readable
+from rebalance.report.words import optimal_words, outcome_words, plain_status, readable
 from rebalance.solve import StageResult, Status
 
 if TYPE_CHECKING:
-    from rebalance.report.inputs import ProblemText, ScenarioSummary
+    from rebalance.report.inputs import ProblemText, ReportData, ScenarioSummary
 
-__all__ = ["card", "chart", "e", "frame_table_html", "problem_list", "scenario_box", "section",
-           "stage_cell", "stage_words", "table_html"]
+__all__ = ["PROBLEMS_TITLE", "RUN_ANCHOR", "RUN_TITLE", "card", "chart", "e", "frame_table_html",
+           "note_html", "problem_list", "run_details", "scenario_box", "section", "stage_cell",
+           "stage_words", "table_html"]
 
+# The last section, its anchor and heading, and the heading of a failed verification's list
+# in it: the console calls them problems, and the page had said "Violations".
+RUN_ANCHOR, RUN_TITLE = "run", "How it was found"
+PROBLEMS_TITLE = "Problems"
+# Where the notes at the top of the page (rebalance.report.inputs') point a reader to the
+# problems, and what the page says there instead: "the run details" had named no section
+# of the page, and the page's notes are links.
+_RUN_LINK = f'<a href="#{RUN_ANCHOR}">{RUN_TITLE}</a>'
+NOTE_POINTERS = (
+    ("the run details list why", f"the list of {PROBLEMS_TITLE} in {_RUN_LINK} says why"),
+    ("listed under the run's details", f"listed under {PROBLEMS_TITLE} in {_RUN_LINK}"),
+)
 # Under the scenario box: whose data the page's figures are.
 SCENARIO_FIGURES = ("Every figure on this page is of the plan made under these changes, not "
                     "under the instance's own data.")
@@ -47,6 +61,14 @@ SCENARIO_FIGURES = ("Every figure on this page is of the plan made under these c
 
 def e(value: object) -> str:
     return html.escape(str(value), quote=True)
+
+
+def note_html(note: str) -> str:
+    """A note at the top of the page, escaped, its pointer to the problems a link to them."""
+    text = e(note)
+    for words, link in NOTE_POINTERS:
+        text = text.replace(e(words), link)
+    return f'<p class="note">{text}</p>'
 
 
 class _Stage(Protocol):
@@ -245,4 +267,48 @@ def problem_list(problems: Sequence[ProblemText], flat: Sequence[str] = ()) -> s
             if len(listed) > PROBLEMS_SHOWN else "")
     lead = ("<p>Each problem once, with the coverage.csv rows only out of date because of it "
             "under it.</p>" if any(under for _, under in listed) else "")
-    return f'<h3>Violations</h3>{lead}<ul class="problems">{items}</ul>{more}'
+    return f'<h3>{PROBLEMS_TITLE}</h3>{lead}<ul class="problems">{items}</ul>{more}'
+
+
+def run_details(data: ReportData) -> str:
+    """The body of the page's :data:`RUN_TITLE` section: the run's facts, its stages, a
+    failed verification's problems, conflicts and input warnings."""
+    run = data.summary
+    currency = data.instance.money.currency
+    replan = run.replan is not None
+
+    def secs(value: float | None) -> str:
+        return "-" if value is None else seconds_text(value)
+
+    facts = [
+        ("instance", data.instance.name),  # the folder's name, which a title stands in for
+        ("solver", run.solver_version or run.solver or "-"),
+        ("objective", run.objective_mode or "-"),
+        ("outcome", outcome_words(run.status, run.gap)),
+        ("largest stage gap at stop", "-" if run.gap is None else gap_text(run.gap)),
+        ("model", f"{run.model_columns or 0:,} columns ({run.model_integer_columns or 0:,} "
+                  f"whole-number) and {run.model_rows or 0:,} rows"),
+        ("build / solve seconds", f"{secs(run.build_seconds)} / {secs(run.solve_seconds)}"),
+        ("independent verification", {True: "passed: every rule and total recomputed from "
+                                      "the instance and the plan tables", False: "FAILED",
+                                      None: "unknown"}[run.verified]),
+    ]
+    out = '<dl class="facts">' + "".join(f"<dt>{e(k)}</dt><dd>{e(v)}</dd>"
+                                          for k, v in facts) + "</dl>"
+    if run.stages:
+        out += table_html(["stage", "outcome, and what the gap leaves open", "objective",
+                           "bound", "gap", "seconds", "solver says"],
+                          [[s.name, stage_words(s, currency, replan=replan),
+                            stage_cell(s, s.objective, currency),
+                            stage_cell(s, s.bound, currency),
+                            (s.gap if s.gap is not None else -1,
+                             "-" if s.gap is None else gap_text(s.gap)),
+                            (s.seconds if s.seconds is not None else -1,
+                             secs(s.seconds)), s.solver_says] for s in run.stages],
+                          name="stages", numeric=[False, False, True, True, True, True, False])
+    out += problem_list(data.problems, run.violations)  # each problem's knock-ons under it
+    for title, items in (("Limits in conflict", run.conflicts), ("Input warnings", run.warnings)):
+        if items:
+            out += f"<h3>{title}</h3><ul>" + "".join(f"<li>{e(i)}</li>" for i in items) + \
+                "</ul>"
+    return out

@@ -55,6 +55,8 @@ SHORT_YET_AWAY = "away while short"
 # Its own lead: under LIMITS_LEAD ("each is at its cap, so more of it could help") it had read
 # as one more cap.
 SHORT_YET_AWAY_LEAD = "not a cap, but what full seats do to an office short of staff"
+# Money above a cap by less than this is the round-off of summed cost columns, not an overrun.
+BUDGET_TOL = 0.5
 # Shortfall below this (FTE) is rounding, as the console's shortfall by office takes it.
 SHORT_FTE = 1e-6
 
@@ -121,11 +123,33 @@ def _and(words: Sequence[str]) -> str:
     return words[0] if len(words) == 1 else ", ".join(words[:-1]) + " and " + words[-1]
 
 
+def _over(use: LimitUse) -> bool:
+    """Whether ``use`` spends more than its cap (a plan whose files were edited)."""
+    return use.used - use.cap > BUDGET_TOL
+
+
 def _budget_text(uses: Sequence[LimitUse], currency: str | None, action: str) -> str:
-    # "each": after two years' figures, the bracket had read as the last year's alone.
-    each = "each with " if len(uses) > 1 else ""
-    return "; ".join(f"{u.where} {money_text(u.used)} of {money_amount(u.cap, currency)} used"
-                     for u in uses) + f" ({each}too little left for one more {action})"
+    used = [f"{u.where} {money_text(u.used)} of {money_amount(u.cap, currency)} used"
+            for u in uses]
+    if not any(_over(u) for u in uses):
+        # "each": after two years' figures, the bracket had read as the last year's alone.
+        each = "each with " if len(uses) > 1 else ""
+        return "; ".join(used) + f" ({each}too little left for one more {action})"
+    # A year over its cap has nothing left, not "too little": each year says its own.
+    return "; ".join(
+        f"{text}: over the cap by {money_amount(u.used - u.cap, currency)}" if _over(u)
+        else f"{text}: too little left for one more {action}" for u, text in zip(
+            uses, used, strict=True))
+
+
+def _budget_total(uses: Sequence[LimitUse], action: str) -> str:
+    """What a surface too narrow for :func:`_budget_text` says of the same years."""
+    over = sum(1 for u in uses if _over(u))
+    short = f"too little left for one more {action}"
+    if not over:
+        return f"{_counted(len(uses), 'budget year')} with {short}"
+    said = f"{_counted(over, 'budget year')} over the cap"
+    return said if over == len(uses) else f"{said}, {len(uses) - over:,} with {short}"
 
 
 def _details_in_a_row(instance: Instance, plan: Plan) -> tuple[str, ...]:
@@ -229,8 +253,7 @@ def limits_at_cap(instance: Instance, plan: Plan) -> tuple[LimitLine, ...]:
         elif kind in ("hiring_budget", "moves_budget"):
             action = "hire" if kind == "hiring_budget" else "detail"
             text = _budget_text(uses, currency, action)
-            total = (f"{_counted(len(uses), 'budget year')} with too little left for one "
-                     f"more {action}")
+            total = _budget_total(uses, action)
         else:  # vacancies: "skill at office", funded over the whole horizon
             funded = sum(instance.vacancies.values())
             used = _vacancies_used(plan)

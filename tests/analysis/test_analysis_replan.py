@@ -338,7 +338,7 @@ def test_vacancies_cut_below_hires_under_way_are_refused_naming_vacancies(tiny, 
     # Both are the same case, a hire under way the data now rule out: a refusal naming them.
     roomy, old = _two_vacancy_hires_at_b(tiny)
     cut = roomy.with_changes(vacancies={("B", "review"): funded} if funded else {})
-    with pytest.raises(ReplanError, match=rf"2 hire\(s\) of review at B into funded vacancies "
+    with pytest.raises(ReplanError, match=rf"2 hires of review at B into funded vacancies "
                                           rf"have started.*now fund {funded} \(vacancies.csv\)"):
         replan(cut, old, 3, exact_options(cut))
     # Not yet under way at a re-plan from Q2 (time to hire 1): they may still be dropped.
@@ -365,7 +365,15 @@ def test_hires_under_way_of_both_fundings_are_refused_in_one_line(tiny) -> None:
     with pytest.raises(ReplanError) as refused:
         replan(slower, old, 3, exact_options(slower))
     lines = [p for p in refused.value.problems if "time to hire" in p]
-    assert len(lines) == 1 and lines[0].startswith("2 hire(s) of review at B from 2027-Q4")
+    assert len(lines) == 1 and lines[0].startswith("2 hires of review at B from 2027-Q4 have "
+                                                   "started")
+    # One hire counted as one (the project's counted words; "1 hire(s)" had read as a form).
+    slower_one = replace(old, hires=old.hires.iloc[:1].assign(count=1))
+    with pytest.raises(ReplanError) as refused:
+        replan(slower, slower_one, 3, exact_options(slower))
+    lines = [p for p in refused.value.problems if "time to hire" in p]
+    assert lines and lines[0].startswith("1 hire of review at B from 2027-Q4 has started")
+    assert "rule it out" in lines[0] and "(s)" not in lines[0]
 
 
 def test_hires_under_way_stay_when_their_demand_only_falls(tiny) -> None:
@@ -878,3 +886,25 @@ def test_the_console_counts_changes_in_words(tmp_path: Path, capsys) -> None:
     # The reason is a sentence: changes.csv holds it, the console's table says where.
     assert "why each changed: the reason column of changes.csv" in said
     assert "reason" not in said.split("1 change against")[1].splitlines()[1]
+
+
+def test_replan_counts_the_rules_the_old_plan_breaks_in_words(tmp_path, capsys) -> None:
+    # A reviewer's hand check of a re-plan: "the old plan breaks 9 rule(s)".  By hand from
+    # tests/data/tiny (NOTE.md): its plan details a1 to B in 2027-Q2 and Q3; with a1 leaving
+    # after 2027-Q2, a re-plan at 2027-Q3 finds a1's detail of Q3 and a1's work in Q3 and Q4
+    # in the old plan, 3 rules broken, counted as words count (common practice: "3 rules").
+    from rebalance.cli import main
+
+    shutil.copytree(DATA / "tiny", tmp_path / "tiny")
+    staff = tmp_path / "tiny" / "staff.csv"
+    staff.write_text(staff.read_text().replace("a1,A,1.0,review:1.0,true,false,",
+                                               "a1,A,1.0,review:1.0,true,false,2027-Q2"))
+    old = tmp_path / "old"
+    assert main(["plan", str(DATA / "tiny"), "-o", str(old), "-q"]) == 0
+    capsys.readouterr()
+    assert main(["replan", str(tmp_path / "tiny"), "--from", str(old), "--at", "2027-Q3",
+                 "-o", str(tmp_path / "new"), "-q"]) == 0
+    err = capsys.readouterr().err
+    assert ("note: the old plan breaks 3 rules of the current data; the new plan keeps every "
+            "rule from the re-plan period on:") in err
+    assert "rule(s)" not in err

@@ -486,7 +486,31 @@ def test_the_run_details_list_each_problem_once_with_its_knock_on_rows_under_it(
     for text in under:
         assert listed.count(f"<li>so {html.escape(text)}</li>") == 1
     # The note at the top counts what the list shows: problems, not its lines.
-    assert html.escape(f"{len(problems)} problems, listed under the run's details") in page
+    assert (f'{len(problems)} problems, listed under Problems in <a href="#run">How it was '
+            "found</a>") in page
+
+
+def test_a_failed_plans_notes_name_and_link_the_section_that_lists_its_problems(tmp_path):
+    # A reviewer's hand check of a broken plan's page: the notes said "the run details list
+    # why" and "listed under the run's details", but the section is headed "How it was
+    # found" and its list "Violations", where the console says "problems".  Each pointer now
+    # names the section as headed and links its anchor; the list is headed as the console
+    # words it.
+    from rebalance.verify import verify_folder
+
+    folder = _moved_and_one_more_hire(_copy(tmp_path))
+    instance = read_instance(TINY)
+    data = report_data_from_folder(folder, instance, verify_folder(instance, folder))
+    assert data.summary.verified is False
+    page = render_html(data)
+    notes = re.findall(r'<p class="note">(.*?)</p>', page)
+    assert ('This plan FAILED independent verification; the list of Problems in <a '
+            'href="#run">How it was found</a> says why.') in notes
+    assert sum('listed under Problems in <a href="#run">How it was found</a>' in n
+               for n in notes) == 1
+    assert '<section id="run"><h2>How it was found</h2>' in page
+    assert "<h3>Problems</h3>" in page and "Violations" not in page
+    assert "run details" not in page and "run's details" not in page
 
 
 def test_a_fresh_plans_page_groups_its_problems_as_a_rebuilt_one_does(tmp_path):

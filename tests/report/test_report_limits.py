@@ -20,6 +20,7 @@ from report_cases import TINY, page_text
 
 from rebalance import read_instance
 from rebalance.instance import Budget
+from rebalance.plan import Plan
 from rebalance.planning import PlanResult, plan_run_rate, run_rate_note, run_rate_warning
 from rebalance.report.console import LINE_CHARS, fitted_lines, format_summary
 from rebalance.report.html import render_html
@@ -398,3 +399,59 @@ def test_no_short_yet_away_line_where_the_office_is_not_short(tmp_path):
         assert "short_yet_away" not in _at_cap(result)
         assert SHORT_YET_AWAY not in format_summary(result)
         assert SHORT_YET_AWAY not in _page(result)
+
+
+# -- a plan whose files were edited: the figures are the files' as they stand ----------------
+
+
+def _tiny_edited(count: int, onboarding: float) -> tuple[PlanResult, Plan]:
+    """tiny's plan (its one hire: review at B from 2027-Q4, new position) with hires.csv's
+    count and costs.csv's 2027 onboarding changed as a hand edit would, the rest as written."""
+    result = _solved(str(TINY))
+    assert result.plan is not None
+    hires = result.plan.hires.copy()
+    assert hires["count"].tolist() == [1] and hires["funding"].tolist() == ["new"]
+    hires["count"] = count
+    costs = result.plan.costs.copy()
+    costs.loc[(costs["year"] == "2027") & (costs["kind"] == "onboarding"), "cost"] = onboarding
+    return result, replace(result.plan, hires=hires, costs=costs)
+
+
+def test_a_hire_count_edited_leaves_the_hiring_budget_at_the_files_figure():
+    # A reviewer's hand check of the demo (a hires.csv count raised by 1): the limits block
+    # said 557,000 used, onboarding from hires.csv plus salaries priced from the count, while
+    # costs.csv and the Money table said 515,000.  By hand from the tiny plan's costs.csv:
+    # 2027 onboarding 8,000 + new_position_salary 20,000 (one period, 2027-Q4, skills.csv)
+    # = 28,000, as the Money table; the count priced afresh would be 8,000 + 2 x 20,000 =
+    # 48,000, a figure in no file.
+    from rebalance.analysis.limits import limit_use
+    from rebalance.report.chart_data import chart_payload
+
+    result, plan = _tiny_edited(2, 8_000.0)
+    hiring = [u for u in limit_use(result.instance, plan) if u.limit == "hiring_budget"]
+    assert [(u.where, u.used, u.cap) for u in hiring] == [("2027", 28_000.0, 40_000.0)]
+    money = chart_payload(replace(report_data(result), plan=plan))["budget"]
+    assert [r["spend"] for r in money if r["kind"] == "hiring"] == [28_000.0]
+    line = next(line for line in limits_at_cap(result.instance, plan)
+                if line.kind == "hiring_budget")
+    assert line.text == "2027 28,000 of 40,000 used (too little left for one more hire)"
+
+
+def test_a_budget_used_past_its_cap_says_over_the_cap_not_too_little_left():
+    # By hand: costs.csv's 2027 onboarding edited to 30,000, new_position_salary 20,000 as
+    # written: 50,000 of tiny's 40,000 cap (budget.csv), over it by 10,000; "too little left
+    # for one more hire" had been said of a year with nothing left at all.
+    from rebalance.analysis.limits import LimitUse
+    from rebalance.report.limits_view import _budget_text
+
+    result, plan = _tiny_edited(1, 30_000.0)
+    line = next(line for line in limits_at_cap(result.instance, plan)
+                if line.kind == "hiring_budget")
+    assert line.text == "2027 50,000 of 40,000 used: over the cap by 10,000"
+    assert line.total == "1 budget year over the cap"
+    # One year over, one within (the demo's figures with 2027 edited): each says its own.
+    uses = [LimitUse("hiring_budget", "2027", "", 561_000.0, 520_000.0, True),
+            LimitUse("hiring_budget", "2028", "", 1_392_000.0, 1_400_000.0, True)]
+    assert _budget_text(uses, "EUR", "hire") == (
+        "2027 561,000 of 520,000 EUR used: over the cap by 41,000 EUR; 2028 1,392,000 of "
+        "1,400,000 EUR used: too little left for one more hire")

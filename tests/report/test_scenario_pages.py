@@ -20,13 +20,14 @@ from rebalance import read_instance
 from rebalance.analysis.scenario_files import (
     BudgetChange,
     DemandChange,
+    Scenario,
     apply_scenario,
     read_scenario,
 )
 from rebalance.report.html import render_html
 from rebalance.report.htmlparts import SCENARIO_FIGURES, scenario_box
 from rebalance.report.inputs import SCENARIO_KEY, ScenarioSummary, report_data_from_folder
-from rebalance.report.scenario_notes import budget_words, demand_words
+from rebalance.report.scenario_notes import budget_words, demand_words, scenario_entry
 
 SCENARIO = """name = "b-surge"
 description = "Review rush at B in the second half"
@@ -150,14 +151,57 @@ def test_changes_in_words_for_every_selection() -> None:
     # None selects everything; add_fte is per row and period; a budget change without years
     # changes every budget year's cap.
     instance = read_instance(TINY)
+    # add_fte of a table naming no office or skill is per office, skill and period; no row
+    # of tiny's demand.csv is under 0.5, so none stops at 0.
     assert demand_words(DemandChange(None, None, None, add_fte=-0.5), instance) == (
         "demand for every skill at every office in every period lowered by 0.5 FTE in each "
-        "period")
+        "office, skill and period")
+    # tiny's demand.csv has intake at A in 2027-Q1 only: the row of 2027-Q3 is new, at
+    # add_fte (apply_scenario multiplies only rows there were).
     assert demand_words(DemandChange(("A",), ("intake",), (2,), multiplier=2.0, add_fte=1.0,
                                      priority=3.0), instance) == (
-        "demand for intake at A in 2027-Q3 multiplied by 2 and then raised by 1 FTE in each "
-        "period, a row of 1 FTE added where there was none (priority 3)")
+        "demand for intake at A in 2027-Q3: 1 row of 1 FTE added where there was none "
+        "(priority 3)")
     assert budget_words(BudgetChange(None, moves_add=-1000.0), "EUR") == [
         "moves cap of every budget year each lowered by 1,000 EUR"]
     assert budget_words(BudgetChange(("2027",), hiring_add=5.0, moves_add=7.0), None) == [
         "hiring cap of 2027 raised by 5", "moves cap of 2027 raised by 7"]
+
+
+def test_an_add_to_rows_there_are_is_no_row_added() -> None:
+    # A reviewer's hand check of the demo's harbour surge: instances/demo/demand.csv has
+    # technical_review and environmental_review at port-ilse-harbour in 2028-Q1 to Q4 (one
+    # row each), so add_fte raises those 8 rows (apply_scenario: fte x multiplier + add_fte)
+    # and adds none; the page had said "a row of 4 FTE added where there was none".
+    root = Path(__file__).resolve().parents[2] / "instances"
+    demo = read_instance(root / "demo")
+    rush = read_scenario(root / "demo_scenarios" / "harbour_permit_rush.toml", demo)
+    quarters = "2028-Q1, 2028-Q2, 2028-Q3 and 2028-Q4"
+    assert [demand_words(c, demo) for c in rush.demand] == [
+        f"demand for technical_review at port-ilse-harbour in {quarters} raised by 4 FTE in "
+        "each period",
+        f"demand for environmental_review at port-ilse-harbour in {quarters} raised by 2 FTE "
+        "in each period"]
+    # The box's total: 4 x 4 + 4 x 2 = 24 FTE-periods more, no row more (demand.csv).
+    entry = scenario_entry(rush, demo, apply_scenario(demo, rush))
+    assert entry["demand"][-1].endswith("(+24.0)")
+    assert len(apply_scenario(demo, rush).demand) == len(demo.demand)
+
+
+def test_rows_added_raised_and_held_at_zero_are_each_said() -> None:
+    # By hand from tests/data/tiny/demand.csv: intake at A has a row in 2027-Q1 only; review
+    # at A is 0.5 in 2027-Q2 and Q3 (so 0.8 less stops at 0 there), 1.0 elsewhere and at B.
+    instance = read_instance(TINY)
+    assert demand_words(DemandChange(("A",), ("intake",), (0, 1), add_fte=1.0), instance) == (
+        "demand for intake at A in 2027-Q1 and 2027-Q2 raised by 1 FTE in each period where "
+        "it has demand (1 row); 1 row of 1 FTE added where there was none (priority 1)")
+    assert demand_words(DemandChange(None, ("review",), None, add_fte=-0.8), instance) == (
+        "demand for review at every office in every period lowered by 0.8 FTE in each office, "
+        "skill and period (2 rows to 0, not below)")
+    # A second table finds the row the first added (apply_scenario applies them in turn).
+    add = DemandChange(("A",), ("intake",), (1,), add_fte=1.0)
+    twice = Scenario("twice", "", (add, add))
+    assert scenario_entry(twice, instance, apply_scenario(instance, twice))["demand"][:2] == [
+        "demand for intake at A in 2027-Q2: 1 row of 1 FTE added where there was none "
+        "(priority 1)",
+        "demand for intake at A in 2027-Q2 raised by 1 FTE"]

@@ -9,185 +9,38 @@ a reassignment, more hires, a moved start) takes the new plan's own reason from
 first whether the data force it (the person has left, may no longer go, the destination has
 no demand left for their skills, no hire has a place left), else what the tables show: what
 the person does instead, and whether the old destination is covered without them and by what,
-or is still short; for fewer hires, whether the need fell, a budget year's cap or an office's
-hiring slots are full and what the new plan buys with them, or how the gap is covered now.
+or is still short; for fewer hires, whether the need fell, a budget year's cap, an office's
+hiring slots or its seats are full and what the new plan puts there instead, or how the gap
+is covered now; for a moved hire, the gap at both starts and what holds the old one back.
 
-Every figure is looked up in dictionaries built once per call, so a re-plan of thousands of
-changes costs one pass over each table.
+Every figure is looked up in dictionaries built once per call
+(:mod:`rebalance.analysis.change_facts`), so a re-plan of thousands of changes costs one pass
+over each table.
 """
 
 from __future__ import annotations
 
 from collections import defaultdict
-from collections.abc import Sequence
-from dataclasses import dataclass
 
 import pandas as pd
 
-from rebalance.analysis.limits import LimitUse, hire_rows
-from rebalance.analysis.reasons import Reasons, _Context, _describe, _fte
-from rebalance.analysis.scenario_actions import main_skills
-from rebalance.instance import Instance, Person
-from rebalance.numbers import money_amount, number_text
+from rebalance.analysis.change_facts import (
+    BASE_AND_SCENARIO,
+    FORCED,
+    OLD_AND_NEW,
+    PlanNames,
+    _Facts,
+    _people,
+    _texts,
+)
+from rebalance.analysis.reasons import Reasons, _describe, _fte
+from rebalance.instance import Instance
+from rebalance.numbers import money_amount
 from rebalance.plan import Plan
 
 __all__ = ["BASE_AND_SCENARIO", "FORCED", "OLD_AND_NEW", "PlanNames", "change_reasons"]
 
-# How a reason the data force begins (docs/analysis.md, "changes.csv").
-FORCED = "forced by the data"
 _EPS = 1e-6
-
-_Key = tuple[str, str, int]  # office, skill, period index
-
-
-@dataclass(frozen=True)
-class PlanNames:
-    """What a reason calls the two plans where it names them: a re-plan's ``old`` and
-    ``new`` plan, or a comparison's base plan and the scenario's."""
-
-    old: str = "the old plan"
-    new: str = "the new plan"
-
-
-OLD_AND_NEW = PlanNames()
-BASE_AND_SCENARIO = PlanNames("the base plan", "the scenario's plan")
-
-
-def _texts(column: pd.Series) -> list[str]:
-    return column.astype(str).tolist()
-
-
-def _floats(column: pd.Series) -> list[float]:
-    return column.astype(float).tolist()
-
-
-def _visitors(plan: Plan, ix: dict[str, int]) -> dict[_Key, dict[str, float]]:
-    """(office, skill, period) -> {person: output FTE} of the people detailed in there."""
-    d = plan.details
-    away = {(p, ix[t]): o for p, t, o in zip(_texts(d["person"]), _texts(d["period"]),
-                                             _texts(d["to_office"]), strict=True) if t in ix}
-    out: dict[_Key, dict[str, float]] = defaultdict(dict)
-    w = plan.work
-    for p, per, o, k, x in zip(*(_texts(w[c]) for c in ("person", "period", "office", "skill")),
-                               _floats(w["output_fte"]), strict=True):
-        t = ix.get(per)
-        if t is not None and away.get((p, t)) == o and x > _EPS:
-            out[(o, k, t)][p] = out[(o, k, t)].get(p, 0.0) + x
-    return out
-
-
-def _coverage(plan: Plan, ix: dict[str, int]) -> dict[_Key, tuple[float, float, float]]:
-    """(office, skill, period) -> (demand, staff output, hire output) as ``plan``'s coverage
-    table has them (an old plan's: at the data it was made for)."""
-    c = plan.coverage
-    return {(o, k, ix[p]): (dem, staff, hire) for o, k, p, dem, staff, hire in zip(
-        *(_texts(c[n]) for n in ("office", "skill", "period")),
-        *(_floats(c[n]) for n in ("demand_fte", "staff_output_fte", "hire_output_fte")),
-        strict=True) if p in ix}
-
-
-def _moves(plan: Plan) -> dict[str, tuple[str, str, str]]:
-    """person -> (period, from office, to office) of ``plan``'s reassignments."""
-    r = plan.reassignments
-    return {p: (t, a, b) for p, t, a, b in zip(
-        *(_texts(r[n]) for n in ("person", "period", "from_office", "to_office")), strict=True)}
-
-
-def _people(names: Sequence[str]) -> str:
-    shown = ", ".join(names[:3])
-    return shown + (f" and {len(names) - 3} more" if len(names) > 3 else "")
-
-
-class _Facts:
-    """Both plans' figures, indexed once for every row."""
-
-    def __init__(self, instance: Instance, old: Plan, new: Plan, at: int,
-                 new_reasons: Reasons, plans: PlanNames) -> None:
-        self.i = instance
-        self.at = at
-        self.plans = plans
-        self.names = instance.period_names
-        self.ix = {n: t for t, n in enumerate(self.names)}
-        self.people = {p.person: p for p in instance.staff}
-        self.ctx = _Context(instance, new)
-        self.old_cover = _coverage(old, self.ix)
-        self.old_visitors = _visitors(old, self.ix)
-        self.new_visitors = _visitors(new, self.ix)
-        self.new_moves = _moves(new)
-        # (home office, period) -> the people the old plan had detailed out of it then.
-        self.old_out: dict[tuple[str, int], list[str]] = defaultdict(list)
-        d = old.details
-        for p, per, a in zip(*(_texts(d[n]) for n in ("person", "period", "from_office")),
-                             strict=True):
-            if per in self.ix:
-                self.old_out[(a, self.ix[per])].append(p)
-        self.old_main = main_skills(old)  # (person, period, office) -> skill worked most
-        self.wanted: dict[tuple[str, int], set[str]] = defaultdict(set)
-        self.demand: dict[_Key, float] = {}
-        self.priority: dict[_Key, float] = {}
-        for dm in instance.demand:
-            self.demand[(dm.office, dm.skill, dm.period)] = dm.fte
-            self.priority[(dm.office, dm.skill, dm.period)] = dm.priority
-            if dm.fte > 0:
-                self.wanted[(dm.office, dm.period)].add(dm.skill)
-        # Hires by office, skill and start: new minus old (what started there instead).
-        self.hire_gain: dict[tuple[str, str], list[tuple[int, int]]] = defaultdict(list)
-        # The same by funding too: what a budget year pays for (start, office, skill, funding,
-        # count).
-        self.gains: list[tuple[int, str, str, str, int]] = []
-        counts: dict[tuple[str, str, int, str], int] = defaultdict(int)
-        for h in hire_rows(new):
-            counts[(h.office, h.skill, self.ix[h.start_period], h.funding)] += h.count
-        for h in hire_rows(old):
-            if h.start_period in self.ix:
-                counts[(h.office, h.skill, self.ix[h.start_period], h.funding)] -= h.count
-        by_start: dict[tuple[str, str, int], int] = defaultdict(int)
-        for (o, k, s, funding), n in sorted(counts.items(), key=lambda kv: kv[0][2]):
-            by_start[(o, k, s)] += n
-            if n > 0:
-                self.gains.append((s, o, k, funding, n))
-        for (o, k, s), n in by_start.items():
-            if n > 0:
-                self.hire_gain[(o, k)].append((s, n))
-        # The new plan's own reasons, by what they are about.
-        table = new_reasons.table
-        self.detail_why: dict[tuple[str, str], list[tuple[int, int, str]]] = defaultdict(list)
-        self.move_why: dict[str, str] = {}
-        self.hire_why: dict[tuple[str, str, str, str], str] = {}
-        hires = iter(hire_rows(new))  # reasons() writes one hire row per hire_rows row
-        for action, subject, office, first, last, text in zip(
-                *(_texts(table[n]) for n in ("action", "subject", "office", "first_period",
-                                             "last_period", "reason")), strict=True):
-            if action == "detail":
-                self.detail_why[(subject, office)].append((self.ix[first], self.ix[last], text))
-            elif action == "reassignment":
-                self.move_why[subject] = text
-            elif action == "hire":
-                h = next(hires)
-                self.hire_why[(h.office, h.skill, h.start_period, h.funding)] = text
-        self.binding = [u for u in new_reasons.limits if u.binding]
-        self.uses = {(u.limit, u.where, u.period): u for u in new_reasons.limits}
-        self.binding_at: dict[tuple[str, str, str], LimitUse] = {
-            (u.limit, u.where, u.period): u for u in self.binding}
-
-    # -- where a person is in the new plan ------------------------------------------------------
-    def home(self, person: Person, t: int) -> str:
-        move = self.new_moves.get(person.person)
-        if move is not None and t >= self.ix[move[0]]:
-            return move[2]
-        return person.home_office
-
-    def detail_reason(self, person: str, office: str, t: int) -> str:
-        for t1, t2, text in self.detail_why.get((person, office), ()):
-            if t1 <= t <= t2:
-                return text
-        return ""
-
-    def limit(self, kind: str, where: str, period: str = "") -> LimitUse | None:
-        return self.binding_at.get((kind, where, period))
-
-    def prio(self, key: _Key) -> str:
-        return number_text(self.priority.get(key, 1.0))
 
 
 # -- forced changes: the data leave the old decision no place (replan_model's `forced`) ---------
@@ -269,8 +122,17 @@ def _without_them(f: _Facts, person: str, office: str, skill: str, t: int) -> st
         back = sorted(p for p in f.old_out.get((office, t), ()) if p != person
                       and (p, t) not in f.ctx.away
                       and f.ctx.person_out.get((p, t), {}).get(skill, 0.0) > _EPS)
-        causes.append(f"its own staff give {_fte(own_new - own_old)} FTE more"
-                      + (f" ({_people(back)} no longer detailed out)" if back else ""))
+        if back:
+            # Their share apart from the rest's: "its own staff give 2.200 more (E0099, E0101
+            # no longer detailed out)" had read as theirs where they gave 1.826 of it.
+            theirs = sum(f.ctx.person_out[(p, t)][skill] for p in back)
+            rest = own_new - own_old - theirs
+            causes.append(f"{_people(back)} no longer detailed out "
+                          f"{'gives' if len(back) == 1 else 'give'} {_fte(theirs)} FTE"
+                          + (f"; the rest of its own staff give {_fte(abs(rest))} FTE "
+                             f"{'more' if rest > 0 else 'less'}" if abs(rest) > 5e-4 else ""))
+        else:
+            causes.append(f"its own staff give {_fte(own_new - own_old)} FTE more")
     covered = f"{office} covers {skill} in {name} without them"
     if causes:
         return f"{covered}: {'; '.join(causes)}"
@@ -364,8 +226,9 @@ def _rerouted_detail(f: _Facts, person: str, before: str, after: str, skill: str
                      t: int) -> str:
     old_office, new_office = before.split(" -> ")[-1], after.split(" -> ")[-1]
     forced = _detail_ruled_out(f, person, old_office, t)
-    out = f.ctx.person_out.get((person, t), {})
-    k = max(out, key=lambda x: (out[x], x)) if out else skill
+    # The skill the row names (most FTE of time there: replan._changes's rule), not the one
+    # of most output: a reason had spoken of inspection beside a row of safety_review.
+    k = f.new_main.get((person, f.names[t], new_office), "") or skill
     gap = f.ctx.gap_without(person, new_office, k, t) if k else 0.0
     if gap > _EPS:
         instead = (f"detailed to {new_office} instead, which would be {_fte(gap)} FTE short of "
@@ -420,11 +283,9 @@ def _fewer_hires(f: _Facts, office: str, skill: str, s: int, funding: str) -> st
     parts = []
     old_need = sum(f.old_cover.get((office, skill, t), (0.0, 0.0, 0.0))[0] for t in range(s, T))
     need = sum(f.demand.get((office, skill, t), 0.0) for t in range(s, T))
-    if need < old_need - _EPS:
-        parts.append(f"{skill} demand at {office} from {f.names[s]} on is "
-                     f"{_fte(old_need - need)} FTE-periods lower than {f.plans.old} was made "
-                     "for")
-    need_fell = len(parts)
+    # Said once, in the closing clause about the same demand.
+    fell = (f"{_fte(old_need - need)} FTE-periods lower than {f.plans.old} was made for"
+            if need < old_need - _EPS else "")
     # What one such hire costs the hiring budget of each year it is paid in (onboarding in
     # its start year; a new position's salary every period from its start, limits.py's rule),
     # against what the new plan leaves of that year's budget.
@@ -457,26 +318,73 @@ def _fewer_hires(f: _Facts, office: str, skill: str, s: int, funding: str) -> st
                   for t, n in starts if t == s]
         parts.append(f"the hiring slots at {office} in {f.names[s]} are full"
                      + (f", taken by {_people(others)} more" if others else ""))
-    paid = parts[need_fell:]  # a budget or the slots: said only where a gap is left
-    del parts[need_fell:]
+    # A hire holds its seat from its start to the horizon's end (limits.limit_use).
+    seats, seated = f.seats_full(office, range(s, T))
+    if seats:
+        parts.append(f"a hire there would hold a seat from {f.names[s]} on, and {seats}")
+    paid = parts[:]  # a budget, the slots or the seats: said only where a gap is left
+    parts.clear()
     elsewhen = [(t, n) for t, n in f.hire_gain.get((office, skill), ()) if t != s]
     if elsewhen:
         n = sum(n for _, n in elsewhen)
         parts.append(f"{n} {skill} {'hire starts' if n == 1 else 'hires start'} there in "
                      f"{', '.join(f.names[t] for t, _ in elsewhen)} instead")
+    short_new = sum(f.ctx.short.get((office, skill, t), 0.0) for t in range(s, T))
+    # Those named as taking the seats (said where a gap is left) are not named again.
     came = sorted({p for t in range(s, T) for p in f.new_visitors.get((office, skill, t), {})
-                   if p not in f.old_visitors.get((office, skill, t), {})})
+                   if p not in f.old_visitors.get((office, skill, t), {})}
+                  - (seated if short_new > _EPS else set()))
     if came:
         parts.append(f"{_people(came)} detailed in")
-    short_new = sum(f.ctx.short.get((office, skill, t), 0.0) for t in range(s, T))
+    head = f"{skill} demand at {office} from {f.names[s]} on is " + (f"{fell}, and " if fell
+                                                                      else "")
     if short_new <= _EPS:
-        return (f"{skill} demand at {office} from {f.names[s]} on is met without it"
-                + (f": {'; '.join(parts)}" if parts else ""))
-    text = (f"{skill} demand at {office} from {f.names[s]} on is left {_fte(short_new)} "
-            "FTE-periods short")
-    if not need_fell and not paid:
+        return f"{head}met without it" + (f": {'; '.join(parts)}" if parts else "")
+    text = f"{head}left {_fte(short_new)} FTE-periods short"
+    if not fell and not paid:
         text += ", and no binding limit found that keeps the hire (review)"
     return "; ".join([*paid, *parts, text])
+
+
+def _moved_hire(f: _Facts, office: str, skill: str, s_old: int, s_new: int) -> str:
+    """Why hires of ``skill`` at ``office`` start in ``s_new`` instead of ``s_old``: the gap a
+    hire is for (demand above the staff's output, hires left out, as the new hire's own reason
+    measures it) at both starts in each plan, and, for a later start, the new plan's binding
+    limits at the old start (a hire from then would hold a seat in every period to the new
+    start, a hiring slot then, and budget in that year)."""
+    names = f.names
+
+    def gaps(t: int) -> tuple[str, str]:
+        dem, staff, _ = f.old_cover.get((office, skill, t), (0.0, 0.0, 0.0))
+        return (_fte(max(0.0, dem - staff)),
+                _fte(max(0.0, f.ctx.gap_before_hires(office, skill, t))))
+
+    (old_a, new_a), (old_b, new_b) = gaps(s_old), gaps(s_new)
+    parts = [f"{office}'s {skill} demand above its staff's output (hires left out) is "
+             f"{old_a} FTE in {names[s_old]} and {old_b} in {names[s_new]} in {f.plans.old}, "
+             f"{new_a} and {new_b} in {f.plans.new}"]
+    if s_new < s_old:  # the hire still covers the old start: no limit there keeps it out
+        return parts[0]
+    found = []
+    seats, _ = f.seats_full(office, range(s_old, s_new))
+    if seats:
+        found.append(seats)
+    if f.limit("max_hires", office, names[s_old]) is not None:
+        others = [f"{n} x {k}" for (o, k), starts in f.hire_gain.items() if o == office
+                  for t, n in starts if t == s_old]
+        found.append(f"the hiring slots at {office} in {names[s_old]} are full"
+                     + (f", taken by {_people(others)} more" if others else ""))
+    budget = f.limit("hiring_budget", f.i.periods[s_old].year)
+    if budget is not None:
+        found.append(f"the {_describe(budget, f.i)} leaves less than any hire costs")
+    if found:
+        parts.append(f"a start in {names[s_old]} is held back: {'; '.join(found)}")
+    elif f.ctx.short.get((office, skill, s_old), 0.0) > _EPS:
+        parts.append(f"no binding limit found in {names[s_old]} that keeps it there (review)")
+    else:
+        parts.append(f"{f.plans.new} leaves no {skill} shortfall at {office} in "
+                     f"{names[s_old]} without it")
+    return "; ".join(parts)
 
 
 # -- the column ---------------------------------------------------------------------------------
@@ -520,12 +428,12 @@ def change_reasons(instance: Instance, old: Plan, new: Plan, at: int, changes: p
             if change == "fewer":
                 text = _fewer_hires(f, who, skill, t, funding)
             else:
-                text = f.hire_why.get((who, skill, period, funding), "")
+                text = (f.hire_why.get((who, skill, period, funding), "")
+                        or "no reason found for it in reasons.csv (review)")
                 if change == "moved":
                     old_start = before.split(" in ")[-1]
                     forced = _hire_ruled_out(f, who, skill, f.ix[old_start], funding)
-                    text = (f"{forced + '; ' if forced else ''}starts in {period} instead of "
-                            f"{old_start}; " + text)
-                text = text or "no reason found for it in reasons.csv (review)"
+                    why = forced or _moved_hire(f, who, skill, f.ix[old_start], t)
+                    text = f"starts in {period} instead of {old_start}; {why}; {text}"
         out.append(text)
     return out

@@ -481,10 +481,10 @@ def test_scenario_actions_say_why_as_changes_csv_does(tiny) -> None:
             "forced by the data: no review demand is left at B from 2027-Q4 on for a hire to "
             "cover",
         # By hand: 1.0 x 0.5 = 0.5 FTE, 0.5 below the base plan's 1.0, and a2's 0.8 on
-        # detail covers it without the hire.
+        # detail covers it without the hire.  Said once (it had named the demand twice).
         ("q4-half", "fewer", "hire", "B", "2027-Q4"):
-            "review demand at B from 2027-Q4 on is met without it: review demand at B from "
-            "2027-Q4 on is 0.500 FTE-periods lower than the base plan was made for",
+            "review demand at B from 2027-Q4 on is 0.500 FTE-periods lower than the base "
+            "plan was made for, and met without it",
         # By hand: 40,000 - 40,000 leaves 0 of 2027's hiring cap; a new review hire from
         # 2027-Q4 costs 8,000 onboarding + 20,000 salary for its one period = 28,000
         # (skills.csv).  Without it B has a2's 0.8 of its 1.0: a1, on detail in 2027-Q2 and
@@ -566,7 +566,7 @@ def test_the_scenario_line_says_who_moves_and_what_holds_the_shortfall_back() ->
 
 def test_held_back_by_ranks_the_limits_the_new_shortfall_cites(tiny) -> None:
     from rebalance.analysis.scenarios import held_back_by
-    from rebalance.plan import coverage_table
+    from rebalance.plan import cost_table, coverage_table
 
     # tests/data/tiny with 1.0 more review at B in 2027-Q3 and 2027-Q4.  Hand-made plans:
     # everyone works at home, a1 is detailed to B in 2027-Q4; the scenario's plan also
@@ -582,10 +582,13 @@ def test_held_back_by_ranks_the_limits_the_new_shortfall_cites(tiny) -> None:
         made = _plan(details=[("a1", "2027-Q4", "A", "B")], hires=hires, work=work)
         made.details["cost"] = 5000.0  # tests/data/tiny/settings.toml
         made.hires["onboarding_cost"] = 8000.0  # tests/data/tiny/skills.csv
+        made.hires["salary_cost"] = 20000.0  # one period (2027-Q4) of review's salary
         made.work["output_fte"] = [0.8 if p == "a2" else f for p, f in zip(
             made.work["person"], made.work["fte"], strict=True)]  # a2's review: 0.8
+        # The budget's use is read from costs.csv, as the page's Money table reads it.
         return Plan(made.details, made.reassignments, made.hires, made.work,
-                    coverage_table(instance, made.work, made.hires), made.costs)
+                    coverage_table(instance, made.work, made.hires),
+                    cost_table(instance, made.details, made.reassignments, made.hires))
 
     base = plan(tiny, [])
     mine = plan(variant, [("B", "review", "2027-Q4", 1, "new")])

@@ -18,7 +18,7 @@ from rebalance.analysis.replan import Replan, replan
 from rebalance.analysis.scenario_files import DemandChange, Scenario, apply_scenario
 from rebalance.generate import GeneratorSpec, generate, write_generated
 from rebalance.instance import Budget, Demand, Instance, Office
-from rebalance.plan import Plan
+from rebalance.plan import Plan, coverage_table
 from rebalance.planning import make_plan
 
 
@@ -234,3 +234,92 @@ def test_fewer_hires_say_what_the_budget_bought_instead(tiny) -> None:
         "now at home at A covering intake there (A would be 1.500 FTE short without them, "
         "priority 3); B is left 1.000 FTE short of review in 2027-Q4 (priority 2); they meet no "
         "less need at A than they could at B (priority-weighted FTE: 3.000 against 1.600)")
+
+
+def test_fewer_hires_name_the_full_seats_and_who_took_them(tiny) -> None:
+    # By hand: B now has 1 seat and needs 2.0 FTE of review in Q4 (times 2); A may not hire.
+    # Re-planned from Q2, b1 fills B's one seat in Q2-Q3 (a1's details go), and in Q4 one of
+    # a1 (1.0 of review: B 1.0 short x 2, A 0.2 short x 1 = 2.2), a2 (0.8: B 1.2 x 2 = 2.4) or
+    # the reviewer hired from Q4 (0.5 at ramp 0.5: B 1.5 x 2 = 3.0) can sit there: a1.  The
+    # hire would hold the seat from Q4 on; budget (0 of 40,000 spent) and slots (0 of 1) are
+    # free.  It had said "no binding limit found that keeps the hire (review)".
+    more = apply_scenario(tiny, Scenario("more", "", (
+        DemandChange(("B",), ("review",), (3,), multiplier=2.0),)))
+    tight = more.with_changes(offices=tuple(
+        replace(o, seats=1) if o.name == "B" else replace(o, max_hires_per_period=0)
+        for o in more.offices))
+    out = replan(tight, _tiny_base(tiny), 1, exact_options(tight))
+    assert out.result.verified
+    assert _reason(out, "fewer", "B", "2027-Q4") == (
+        "a hire there would hold a seat from 2027-Q4 on, and the seats at B are full in "
+        "2027-Q4 (1 of 1 used), taken by a1 detailed in; review demand at B from 2027-Q4 on "
+        "is left 1.000 FTE-periods short")
+
+
+def test_a_moved_hire_says_what_held_its_old_start_back(tiny) -> None:
+    # By hand: with 200,000 of hiring budget and B's Q3 review demand at 150% (3.0), the exact
+    # plan hires B's reviewer from Q2 (b1 + a1 cover Q2's 2.0; the hire, 0.5 then, 1.0 after,
+    # covers Q4's 1.0 alone).  With B cut to 2 seats, b1 and a1 fill them in Q2 and Q3, and the
+    # re-plan from Q1 starts the hire in Q4 beside a2 on detail (0.8 + 0.5 >= 1.0).  Demand
+    # above the staff's output, hires left out: Q2 2.0 - 2.0 = 0 in both plans; Q4 1.0 - 0 in
+    # the old, 1.0 - 0.8 in the new.
+    rich = tiny.with_changes(budgets=tuple(replace(b, hiring=200_000) for b in tiny.budgets))
+    early = apply_scenario(rich, Scenario("early", "", (
+        DemandChange(("B",), ("review",), (2,), multiplier=1.5),)))
+    base = solve_verified(early)
+    assert base.plan is not None
+    assert base.plan.hires[["office", "start_period", "count"]].values.tolist() == [
+        ["B", "2027-Q2", 1]]
+    tight = early.with_changes(offices=tuple(replace(o, seats=2) if o.name == "B" else o
+                                             for o in early.offices))
+    out = replan(tight, base.plan, 0, exact_options(tight))
+    assert out.result.verified
+    why = _reason(out, "moved", "B", "2027-Q4")
+    assert why.startswith(
+        "starts in 2027-Q4 instead of 2027-Q2; B's review demand above its staff's output "
+        "(hires left out) is 0.000 FTE in 2027-Q2 and 1.000 in 2027-Q4 in the old plan, "
+        "0.000 and 0.200 in the new plan; a start in 2027-Q2 is held back: the seats at B are "
+        "full in 2027-Q2, 2027-Q3 (2 of 2 used in each); ")
+
+
+def test_a_rerouted_details_reason_speaks_of_the_skill_its_row_names(tiny) -> None:
+    # By hand: a third office C (may not hire) needs 0.44 FTE of review and 0.45 of intake in
+    # Q4 at priority 3.  a2 (review 0.8, intake 1.0) covers both only as 0.55 FTE of review
+    # (0.44 output) and 0.45 of intake: most time on review (the row's skill), most output
+    # on intake.  a1 may not go a third period in a row and A may have one away, so a2's Q4
+    # detail goes to C instead of B: 2.670 of priority-weighted need (0.89 x 3) against B's
+    # 1.000 (its 0.5 short x 2, the hire giving 0.5).  It had said "short of intake".
+    more = tiny.with_changes(offices=(*tiny.offices, Office("C", "Cedar", 6, 0)),
+                             demand=(*tiny.demand, Demand("C", "review", 3, 0.44, 3.0),
+                                     Demand("C", "intake", 3, 0.45, 3.0)))
+    out = replan(more, _tiny_base(tiny), 2, exact_options(more))
+    assert out.result.verified
+    row = out.changes[out.changes.change == "rerouted"]
+    assert row[["who", "skill", "period"]].values.tolist() == [["a2", "review", "2027-Q4"]]
+    assert _reason(out, "rerouted", "a2", "2027-Q4") == (
+        "detailed to C instead, which would be 0.440 FTE short of review without them "
+        "(priority 3); B is left 0.500 FTE short of review in 2027-Q4 (priority 2); they meet "
+        "no less need at C than they could at B (priority-weighted FTE: 2.670 against 1.000)")
+
+
+def test_own_staff_back_from_a_detail_are_given_their_own_share(tiny) -> None:
+    # By hand: the old plan is tiny's with b1 (B's only staff) also detailed to A in Q3; B's
+    # Q3 review demand is halved to 1.0.  With early recall b1 stays home and gives its 1.0
+    # (B's whole demand), so a1's Q3 detail goes: B's own staff gave 0 (b1 away) and give
+    # 1.0, all of it b1's.  It had said "its own staff give 1.000 FTE more (b1 no longer
+    # detailed out)", which read as theirs a share that may be others' work split.
+    base = _tiny_base(tiny)
+    details = pd.concat([base.details, pd.DataFrame(
+        [["b1", "2027-Q3", "B", "A", 5000.0]], columns=list(base.details.columns))],
+        ignore_index=True)
+    work = base.work.copy()
+    work.loc[(work.person == "b1") & (work.period == "2027-Q3"), "office"] = "A"
+    old = replace(base, details=details, work=work,
+                  coverage=coverage_table(tiny, work, base.hires))
+    half = apply_scenario(tiny, Scenario("half", "", (
+        DemandChange(("B",), ("review",), (2,), multiplier=0.5),)))
+    out = replan(half, old, 2, exact_options(half), allow_recall=True)
+    assert out.result.verified
+    assert _reason(out, "dropped", "a1", "2027-Q3").endswith(
+        "; B covers review in 2027-Q3 without them: demand there fell from 2.000 to 1.000 "
+        "FTE; b1 no longer detailed out gives 1.000 FTE")

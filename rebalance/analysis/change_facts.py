@@ -1,0 +1,262 @@
+"""Both plans' figures for the reasons of ``changes.csv`` and ``scenario_actions.csv``
+(:mod:`rebalance.analysis.change_reasons`), indexed once per call: coverage, who is detailed
+where, who takes the seats, hires gained, and the new plan's own reasons and limits.
+
+Read off the instance, the old plan and the new plan only, as ``reasons.csv`` is: never off
+solver objects.
+"""
+
+from __future__ import annotations
+
+from collections import defaultdict
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import pandas as pd
+
+from rebalance.analysis.limits import LimitUse, hire_rows
+from rebalance.analysis.reasons import Reasons, _Context
+from rebalance.analysis.scenario_actions import main_skills
+from rebalance.instance import Instance, Person
+from rebalance.numbers import number_text
+from rebalance.plan import Plan
+
+__all__ = ["BASE_AND_SCENARIO", "FORCED", "OLD_AND_NEW", "PlanNames"]
+
+# How a reason the data force begins (docs/analysis.md, "changes.csv").
+FORCED = "forced by the data"
+_EPS = 1e-6
+
+_Key = tuple[str, str, int]  # office, skill, period index
+
+
+@dataclass(frozen=True)
+class PlanNames:
+    """What a reason calls the two plans where it names them: a re-plan's ``old`` and
+    ``new`` plan, or a comparison's base plan and the scenario's."""
+
+    old: str = "the old plan"
+    new: str = "the new plan"
+
+
+OLD_AND_NEW = PlanNames()
+BASE_AND_SCENARIO = PlanNames("the base plan", "the scenario's plan")
+
+
+def _texts(column: pd.Series) -> list[str]:
+    return column.astype(str).tolist()
+
+
+def _floats(column: pd.Series) -> list[float]:
+    return column.astype(float).tolist()
+
+
+def _visitors(plan: Plan, ix: dict[str, int]) -> dict[_Key, dict[str, float]]:
+    """(office, skill, period) -> {person: output FTE} of the people detailed in there."""
+    d = plan.details
+    away = {(p, ix[t]): o for p, t, o in zip(_texts(d["person"]), _texts(d["period"]),
+                                             _texts(d["to_office"]), strict=True) if t in ix}
+    out: dict[_Key, dict[str, float]] = defaultdict(dict)
+    w = plan.work
+    for p, per, o, k, x in zip(*(_texts(w[c]) for c in ("person", "period", "office", "skill")),
+                               _floats(w["output_fte"]), strict=True):
+        t = ix.get(per)
+        if t is not None and away.get((p, t)) == o and x > _EPS:
+            out[(o, k, t)][p] = out[(o, k, t)].get(p, 0.0) + x
+    return out
+
+
+def _coverage(plan: Plan, ix: dict[str, int]) -> dict[_Key, tuple[float, float, float]]:
+    """(office, skill, period) -> (demand, staff output, hire output) as ``plan``'s coverage
+    table has them (an old plan's: at the data it was made for)."""
+    c = plan.coverage
+    return {(o, k, ix[p]): (dem, staff, hire) for o, k, p, dem, staff, hire in zip(
+        *(_texts(c[n]) for n in ("office", "skill", "period")),
+        *(_floats(c[n]) for n in ("demand_fte", "staff_output_fte", "hire_output_fte")),
+        strict=True) if p in ix}
+
+
+def _moves(plan: Plan) -> dict[str, tuple[str, str, str]]:
+    """person -> (period, from office, to office) of ``plan``'s reassignments."""
+    r = plan.reassignments
+    return {p: (t, a, b) for p, t, a, b in zip(
+        *(_texts(r[n]) for n in ("person", "period", "from_office", "to_office")), strict=True)}
+
+
+def _whereabouts(instance: Instance, plan: Plan,
+                 ix: dict[str, int]) -> dict[tuple[str, int], tuple[str, str]]:
+    """(person, period index) -> (home office then, detail destination or "") of everyone
+    present, as the seats rule reads the tables (``limits.limit_use``)."""
+    T = len(ix)
+    moves = _moves(plan)
+    d = plan.details
+    away = {(p, ix[t]): o for p, t, o in zip(_texts(d["person"]), _texts(d["period"]),
+                                             _texts(d["to_office"]), strict=True) if t in ix}
+    out: dict[tuple[str, int], tuple[str, str]] = {}
+    for person in instance.staff:
+        move = moves.get(person.person)
+        moved_at = ix.get(move[0], T) if move is not None else T
+        for t in range(T):
+            if person.is_present(t):
+                home = move[2] if move is not None and t >= moved_at else person.home_office
+                out[(person.person, t)] = (home, away.get((person.person, t), ""))
+    return out
+
+
+def _seated(where: dict[tuple[str, int], tuple[str, str]]) -> dict[tuple[str, int], set[str]]:
+    """(office, period index) -> the people in a seat there: at home, or detailed in."""
+    out: dict[tuple[str, int], set[str]] = defaultdict(set)
+    for (p, t), (home, away) in where.items():
+        out[(away or home, t)].add(p)
+    return out
+
+
+def _people(names: Sequence[str]) -> str:
+    shown = ", ".join(names[:3])
+    return shown + (f" and {len(names) - 3} more" if len(names) > 3 else "")
+
+
+class _Facts:
+    """Both plans' figures, indexed once for every row."""
+
+    def __init__(self, instance: Instance, old: Plan, new: Plan, at: int,
+                 new_reasons: Reasons, plans: PlanNames) -> None:
+        self.i = instance
+        self.at = at
+        self.plans = plans
+        self.names = instance.period_names
+        self.ix = {n: t for t, n in enumerate(self.names)}
+        self.people = {p.person: p for p in instance.staff}
+        self.ctx = _Context(instance, new)
+        self.old_cover = _coverage(old, self.ix)
+        self.old_visitors = _visitors(old, self.ix)
+        self.new_visitors = _visitors(new, self.ix)
+        self.new_moves = _moves(new)
+        # (home office, period) -> the people the old plan had detailed out of it then.
+        self.old_out: dict[tuple[str, int], list[str]] = defaultdict(list)
+        d = old.details
+        for p, per, a in zip(*(_texts(d[n]) for n in ("person", "period", "from_office")),
+                             strict=True):
+            if per in self.ix:
+                self.old_out[(a, self.ix[per])].append(p)
+        # (person, period, office) -> skill worked most FTE of time: the ``skill`` column's
+        # rule (replan._changes), so a reason speaks of the skill its row names.
+        self.old_main = main_skills(old)
+        self.new_main = main_skills(new)
+        # Who sits where in each plan, for a hire's seat (a hire holds one from its start on).
+        self.old_where = _whereabouts(instance, old, self.ix)
+        self.new_where = _whereabouts(instance, new, self.ix)
+        self.old_seated = _seated(self.old_where)
+        self.new_seated = _seated(self.new_where)
+        self.wanted: dict[tuple[str, int], set[str]] = defaultdict(set)
+        self.demand: dict[_Key, float] = {}
+        self.priority: dict[_Key, float] = {}
+        for dm in instance.demand:
+            self.demand[(dm.office, dm.skill, dm.period)] = dm.fte
+            self.priority[(dm.office, dm.skill, dm.period)] = dm.priority
+            if dm.fte > 0:
+                self.wanted[(dm.office, dm.period)].add(dm.skill)
+        # Hires by office, skill and start: new minus old (what started there instead).
+        self.hire_gain: dict[tuple[str, str], list[tuple[int, int]]] = defaultdict(list)
+        # The same by funding too: what a budget year pays for (start, office, skill, funding,
+        # count).
+        self.gains: list[tuple[int, str, str, str, int]] = []
+        counts: dict[tuple[str, str, int, str], int] = defaultdict(int)
+        for h in hire_rows(new):
+            counts[(h.office, h.skill, self.ix[h.start_period], h.funding)] += h.count
+        for h in hire_rows(old):
+            if h.start_period in self.ix:
+                counts[(h.office, h.skill, self.ix[h.start_period], h.funding)] -= h.count
+        by_start: dict[tuple[str, str, int], int] = defaultdict(int)
+        for (o, k, s, funding), n in sorted(counts.items(), key=lambda kv: kv[0][2]):
+            by_start[(o, k, s)] += n
+            if n > 0:
+                self.gains.append((s, o, k, funding, n))
+        for (o, k, s), n in by_start.items():
+            if n > 0:
+                self.hire_gain[(o, k)].append((s, n))
+        # The new plan's own reasons, by what they are about.
+        table = new_reasons.table
+        self.detail_why: dict[tuple[str, str], list[tuple[int, int, str]]] = defaultdict(list)
+        self.move_why: dict[str, str] = {}
+        self.hire_why: dict[tuple[str, str, str, str], str] = {}
+        hires = iter(hire_rows(new))  # reasons() writes one hire row per hire_rows row
+        for action, subject, office, first, last, text in zip(
+                *(_texts(table[n]) for n in ("action", "subject", "office", "first_period",
+                                             "last_period", "reason")), strict=True):
+            if action == "detail":
+                self.detail_why[(subject, office)].append((self.ix[first], self.ix[last], text))
+            elif action == "reassignment":
+                self.move_why[subject] = text
+            elif action == "hire":
+                h = next(hires)
+                self.hire_why[(h.office, h.skill, h.start_period, h.funding)] = text
+        self.binding = [u for u in new_reasons.limits if u.binding]
+        self.uses = {(u.limit, u.where, u.period): u for u in new_reasons.limits}
+        self.binding_at: dict[tuple[str, str, str], LimitUse] = {
+            (u.limit, u.where, u.period): u for u in self.binding}
+
+    # -- where a person is in the new plan ------------------------------------------------------
+    def home(self, person: Person, t: int) -> str:
+        move = self.new_moves.get(person.person)
+        if move is not None and t >= self.ix[move[0]]:
+            return move[2]
+        return person.home_office
+
+    def detail_reason(self, person: str, office: str, t: int) -> str:
+        for t1, t2, text in self.detail_why.get((person, office), ()):
+            if t1 <= t <= t2:
+                return text
+        return ""
+
+    def limit(self, kind: str, where: str, period: str = "") -> LimitUse | None:
+        return self.binding_at.get((kind, where, period))
+
+    def prio(self, key: _Key) -> str:
+        return number_text(self.priority.get(key, 1.0))
+
+    def seats_full(self, office: str, periods: Sequence[int]) -> tuple[str, set[str]]:
+        """The new plan's full seats at ``office`` in those of ``periods`` where they bind,
+        and who took them against the old plan ("" where none binds); and those people."""
+        uses = [(t, u) for t in periods
+                if (u := self.limit("seats", office, self.names[t])) is not None]
+        if not uses:
+            return "", set()
+        if len({(u.used, u.cap) for _, u in uses}) == 1:
+            u = uses[0][1]
+            when = (f"{', '.join(self.names[t] for t, _ in uses)} ({number_text(u.used)} of "
+                    f"{number_text(u.cap)} used{' in each' if len(uses) > 1 else ''})")
+        else:
+            when = ", ".join(f"{self.names[t]} ({number_text(u.used)} of "
+                             f"{number_text(u.cap)} used)" for t, u in uses)
+        taken, who = self.seat_takers(office, [t for t, _ in uses])
+        return (f"the seats at {office} are full in {when}"
+                + (f", taken by {taken}" if taken else "")), who
+
+    def seat_takers(self, office: str, periods: Sequence[int]) -> tuple[str, set[str]]:
+        """Who has a seat at ``office`` in ``periods`` in the new plan and not in the old:
+        people detailed in, back from a detail, reassigned there; and hires the new plan adds
+        there by then.  In words, and the people."""
+        came: set[str] = set()
+        back: set[str] = set()
+        moved: set[str] = set()
+        for t in periods:
+            for p in self.new_seated.get((office, t), set()) - self.old_seated.get(
+                    (office, t), set()):
+                _, away = self.new_where[(p, t)]
+                old_home, old_away = self.old_where.get((p, t), ("", ""))
+                if away == office:
+                    came.add(p)
+                elif old_home == office and old_away:
+                    back.add(p)
+                elif old_home != office:
+                    moved.add(p)
+        last = max(periods)
+        hired = [f"{n} x {k} hired there from {self.names[s]}"
+                 for s, o, k, _, n in self.gains if o == office and s <= last]
+        parts = [f"{_people(sorted(who))} {words}" for who, words in (
+            (came, "detailed in"), (back, "no longer detailed out"),
+            (moved, "reassigned there")) if who]
+        return " and ".join(parts + hired), came | back | moved
+
+

@@ -32,6 +32,7 @@ from rebalance.report.console import (
     room_left,
     stage_value,
 )
+from rebalance.report.inputs import VERIFY_LISTED, VERIFY_LISTS
 from rebalance.report.words import optimal_words, outcome_words, plain_status, readable
 from rebalance.solve import StageResult, Status
 
@@ -47,12 +48,12 @@ __all__ = ["PROBLEMS_TITLE", "RUN_ANCHOR", "RUN_TITLE", "card", "chart", "e", "f
 RUN_ANCHOR, RUN_TITLE = "run", "How it was found"
 PROBLEMS_TITLE = "Problems"
 # Where the notes at the top of the page (rebalance.report.inputs') point a reader to the
-# problems, and what the page says there instead: "the run details" had named no section
-# of the page, and the page's notes are links.
+# problems, and what the page says there instead: its own list, linked ("the run details"
+# had named no section of the page; the workbook, which lists none, keeps the words).
 _RUN_LINK = f'<a href="#{RUN_ANCHOR}">{RUN_TITLE}</a>'
 NOTE_POINTERS = (
-    ("the run details list why", f"the list of {PROBLEMS_TITLE} in {_RUN_LINK} says why"),
-    ("listed under the run's details", f"listed under {PROBLEMS_TITLE} in {_RUN_LINK}"),
+    (VERIFY_LISTS, f"the list of {PROBLEMS_TITLE} in {_RUN_LINK} says why"),
+    (VERIFY_LISTED, f"listed under {PROBLEMS_TITLE} in {_RUN_LINK}"),
 )
 # Under the scenario box: whose data the page's figures are.
 SCENARIO_FIGURES = ("Every figure on this page is of the plan made under these changes, not "

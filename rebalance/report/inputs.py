@@ -31,6 +31,11 @@ __all__ = ["AHEAD_KEY", "ANALYSIS_FILES", "SCENARIO_KEY", "SHEET_ONLY", "TABLE_F
            "problem_texts", "quality_notes", "report_data", "report_data_from_folder",
            "stored_instance_path"]
 
+# Where the notes of a failed verification send a reader: true of every surface that shows
+# them (the workbook lists no problems); the page links its own list instead (htmlparts).
+VERIFY_LISTS = "rebalance verify lists why"
+VERIFY_LISTED = "listed by rebalance verify"
+
 # Analysis tables a plan folder may hold (issue 5 writes them); each section shows only if
 # its file is there.  Several names are accepted for the scenario comparison.
 ANALYSIS_FILES: dict[str, tuple[str, ...]] = {
@@ -266,7 +271,7 @@ def quality_notes(data: ReportData) -> list[str]:
                      "the best bound it proved: a better plan may exist. Give it more time "
                      "(--time-limit) before relying on these figures.")
     if run.verified is False:
-        notes.append("This plan FAILED independent verification; the run details list why.")
+        notes.append(f"This plan FAILED independent verification; {VERIFY_LISTS}.")
     return notes
 
 
@@ -328,7 +333,7 @@ def report_data_from_folder(plan_dir: str | Path, instance: Instance,
     if problems:
         # Counted as listed (a moved work row is one problem, not its nine lines).
         notes.append(f"verified again for this report against instance {instance.name}: "
-                     f"{problems_counted(len(problems))}, listed under the run's details; the "
+                     f"{problems_counted(len(problems))}, {VERIFY_LISTED}; the "
                      "figures below are the files' as they stand")
     analysis, tables, more = _analysis_tables(folder)
     return ReportData(instance, read_plan(folder), RunSummary.from_dict(raw), tables=tables,

@@ -511,6 +511,16 @@ def test_a_failed_plans_notes_name_and_link_the_section_that_lists_its_problems(
     assert '<section id="run"><h2>How it was found</h2>' in page
     assert "<h3>Problems</h3>" in page and "Violations" not in page
     assert "run details" not in page and "run's details" not in page
+    # The workbook lists no problems: its notes send the reader to rebalance verify.
+    from openpyxl import load_workbook
+
+    from rebalance.report.workbook import write_workbook
+
+    book = load_workbook(write_workbook(data, tmp_path / "plan.xlsx"))
+    said = " ".join(str(c) for row in book["summary"].iter_rows(values_only=True) for c in row
+                    if c is not None)
+    assert "This plan FAILED independent verification; rebalance verify lists why." in said
+    assert "run details" not in said
 
 
 def test_a_fresh_plans_page_groups_its_problems_as_a_rebuilt_one_does(tmp_path):

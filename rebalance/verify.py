@@ -418,7 +418,8 @@ class _Checker:
             cap = self.offices[office].max_hires_per_period
             if cap is not None and count > cap:
                 self.flag("max_hires", f"{office} in {self.i.periods[s].name}",
-                          f"{count} hires start; at most {cap} allowed")
+                          f"{count} {'hire starts' if count == 1 else 'hires start'}; "
+                          f"at most {cap} allowed")
         for (office_name, skill_name), used in vacancy_used.items():
             funded = self.i.vacancies.get((office_name, skill_name), 0)
             if used > funded:

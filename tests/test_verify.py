@@ -671,3 +671,17 @@ def test_an_analysis_plan_that_fails_verification_lists_problems_as_verify_does(
                         "  - hires.csv:2: 1 review at B from 2027-Q4: onboarding cost differs",
                         "      so coverage.csv:1: review at B in 2027-Q1: hire_output_fte off"]
     assert len(said) == 7 and sum(line.startswith("  - ") for line in said) == 1
+
+
+def test_hires_over_the_cap_are_counted_in_words(tiny_plan):
+    # A reviewer read "1 hires start; at most 0 allowed".  tests/data/tiny: B may start one
+    # hire a period and the plan starts one in 2027-Q4, so one more there is 2 (plural); an
+    # office that may not hire, given one, is 1 (singular).
+    instance, result = tiny_plan
+    two = BREAKS["max_hires"](instance, result.plan)
+    [over] = [v for v in verify_plan(instance, two) if v.rule == "max_hires"]
+    assert "2 hires start; at most 1 allowed" in str(over)
+    closed = instance.with_changes(offices=tuple(
+        replace(o, max_hires_per_period=0) if o.name == "B" else o for o in instance.offices))
+    said = [str(v) for v in verify_plan(closed, result.plan) if v.rule == "max_hires"]
+    assert said and all("1 hire starts; at most 0 allowed" in s for s in said), said

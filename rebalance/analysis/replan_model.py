@@ -158,8 +158,10 @@ def _fix_and_price(instance: Instance, model: Model, old: Plan,
         if (o, k, s, new) not in hire_cols and s < at + instance.skills[k].time_to_hire:
             # Not expected: the data's reasons were refused before the model was built, and
             # _with_committed_hires gives the others a column.
-            problems.append(f"{n:g} hire(s) of {skills[k]} at {offices[o]} from {names[s]} "
-                            "have started, but the model has no place for them")
+            problems.append(f"{n:g} {'hire' if n == 1 else 'hires'} of {skills[k]} at "
+                            f"{offices[o]} from {names[s]} "
+                            f"{'has' if n == 1 else 'have'} started, but the model has no "
+                            "place for them")
         elif (o, k, s, new) not in hire_cols:
             forced += costs.hire * n  # not started, and no demand left it could cover
 

@@ -25,6 +25,7 @@ from rebalance.tables import (
     RawTable,
     TableRows,
     collapse_repeats,
+    known_case,
     plain_csv_columns,
     read_csv_table,
     table_problems,
@@ -401,10 +402,12 @@ def _read_table(file: Path, columns: tuple[str, ...], problems: list[Problem]) -
     work rows), then the problems put in the order a row-by-row reading says them."""
     plain = plain_csv_columns(file)
     if plain is not None:
-        raw = RawTable(str(file), tuple(plain), ())
-        cells = plain
+        # Columns named as the instance's are, but for case (known_case): "Office" had
+        # drawn "required column is missing".
+        raw = known_case(RawTable(str(file), tuple(plain), ()), columns)
+        cells = dict(zip(raw.columns, plain.values(), strict=True))
     else:
-        raw = replace(read_csv_table(file), label=str(file))
+        raw = replace(read_csv_table(file, columns), label=str(file))
         cells = {c: np.asarray([row[c] for row in raw.rows], dtype=object)
                  for c in dict.fromkeys(raw.columns) if c}
     problems += table_problems(raw)

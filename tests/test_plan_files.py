@@ -14,7 +14,13 @@ import pytest
 from conftest import DATA, solve_verified
 
 from rebalance import read_instance
-from rebalance.cli import EXIT_INVALID_INPUT, EXIT_VERIFICATION_FAILED, VIOLATIONS_SHOWN, main
+from rebalance.cli import (
+    EXIT_INVALID_INPUT,
+    EXIT_OK,
+    EXIT_VERIFICATION_FAILED,
+    VIOLATIONS_SHOWN,
+    main,
+)
 from rebalance.plan import PLAN_TABLES, PlanError, read_plan
 from rebalance.planning import write_outputs
 
@@ -299,3 +305,41 @@ def test_verify_all_says_it_lists_every_problem():
                   if action.choices and "verify" in action.choices)
     words = next(action.help for action in verify._actions if "--all" in action.option_strings)
     assert words == f"list every problem, not only the first {VIOLATIONS_SHOWN}"
+
+
+def test_a_header_typed_with_capitals_and_spaces_verifies_the_same(written, plan_dir, capsys):
+    # A planner's "Office" or " period " had drawn "required column is missing", though the
+    # instance's tables read such names (docs/instance-format.md: column names are read
+    # ignoring case).  The reference is the same plan as written; no outside figure is
+    # involved.  details.csv gets a quoted cell: a file with quotes is read the other way
+    # (plain_csv_columns declines it), so both ways are checked.
+    for name in PLAN_TABLES:
+        path = plan_dir / f"{name}.csv"
+        header, rest = path.read_text().split("\n", 1)
+        typed = ",".join(f" {column.capitalize()} " if i % 2 else column.upper()
+                         for i, column in enumerate(header.split(",")))
+        path.write_text(typed + "\n" + rest)
+    edit(plan_dir, "details", "a1,2027-Q2,", '"a1",2027-Q2,')
+    assert (plan_dir / "work.csv").read_text().startswith("PERSON, Period ,OFFICE, Skill ,")
+    again = read_plan(plan_dir, complete=True)
+    for name in PLAN_TABLES:
+        pd.testing.assert_frame_equal(again.table(name), written[1].table(name),
+                                      check_dtype=False)
+    assert main(["verify", TINY, str(written[0])]) == EXIT_OK
+    as_written = capsys.readouterr()
+    assert main(["verify", TINY, str(plan_dir)]) == EXIT_OK
+    typed_out = capsys.readouterr()
+    assert typed_out.err == as_written.err == ""
+    assert typed_out.out.replace(str(plan_dir), "P") == as_written.out.replace(str(written[0]),
+                                                                               "P")
+
+
+def test_a_header_naming_a_column_twice_but_for_case_reads_as_before(written, plan_dir):
+    # As the instance's tables (known_case): beside "office", an "Office" is an unknown
+    # column, not read, and the plan reads as written.
+    path = plan_dir / "work.csv"
+    lines = path.read_text().splitlines()
+    path.write_text("\n".join([lines[0] + ",Office", *(line + ",Z" for line in lines[1:])])
+                    + "\n")
+    pd.testing.assert_frame_equal(read_plan(plan_dir, complete=True).work, written[1].work,
+                                  check_dtype=False)

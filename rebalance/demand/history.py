@@ -252,10 +252,12 @@ def read_history_partly(folder: str | Path, offices: set[str] | None, skills: se
             "history folder not found")
         return None, [Problem(str(path), None, None, what)]
     tables: dict[str, RawTable] = {}
-    for stem, (required, _, needed) in TABLES.items():
+    for stem, (required, optional, needed) in TABLES.items():
         file = path / f"{stem}.csv"
         if file.is_file():
-            tables[stem] = read_csv_table(file)
+            # Columns named but for case, as the instance's are (known_case): "Office" had
+            # drawn "required column is missing".
+            tables[stem] = read_csv_table(file, required + optional)
             problems += table_problems(tables[stem])
         elif needed:
             problems.append(Problem(f"{stem}.csv", None, None, "file is missing"))

@@ -251,3 +251,31 @@ def test_a_whole_float_is_a_whole_number_in_demand_toml(tmp_path: Path) -> None:
     assert problems == []
     assert settings.quality.anomaly_window == 8 and type(settings.quality.anomaly_window) is int
     assert type(settings.forecast.holdout_months) is int
+
+
+def test_a_history_header_typed_with_capitals_and_spaces_reads_the_same_demand(
+        tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    # A planner's "Office" or " period " had drawn "required column is missing", though the
+    # instance's tables read such names (docs/instance-format.md: column names are read
+    # ignoring case).  The reference is the same history with its headers as written by
+    # _make; no outside figure is involved.
+    (tmp_path / "plain").mkdir()
+    (tmp_path / "typed").mkdir()
+    plain_inst, plain_hist = _make(tmp_path / "plain")
+    typed_inst, typed_hist = _make(tmp_path / "typed")
+    for file in typed_hist.glob("*.csv"):
+        header, rest = file.read_text().split("\n", 1)
+        typed = ",".join(f" {name.capitalize()} " if i % 2 else name.upper()
+                         for i, name in enumerate(header.split(",")))
+        file.write_text(typed + "\n" + rest)
+    assert (typed_hist / "time_records.csv").read_text().startswith(
+        "PERSON, Period ,OFFICE, Skill ,ACTIVITY, Hours \n")
+    assert main(["demand", str(plain_hist), "-o", str(plain_inst)]) == EXIT_OK
+    plain_err = capsys.readouterr().err
+    assert main(["demand", str(typed_hist), "-o", str(typed_inst)]) == EXIT_OK
+    typed_err = capsys.readouterr().err
+    assert "required column" not in typed_err and "unknown column" not in typed_err
+    assert typed_err.replace(str(typed_hist), "H").replace(str(typed_inst), "I") == (
+        plain_err.replace(str(plain_hist), "H").replace(str(plain_inst), "I"))
+    for name in ("demand.csv", "demand_trace.csv"):
+        assert (typed_inst / name).read_text() == (plain_inst / name).read_text()

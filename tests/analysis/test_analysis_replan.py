@@ -9,7 +9,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
-from analysis_helpers import exact_options
+from analysis_helpers import a2_moved_then_forbidden, exact_options
 from conftest import DATA, solve_verified
 from randomized import random_instance
 
@@ -422,14 +422,7 @@ def test_a_reassignment_the_data_rule_out_from_period_on_counts_in_the_objective
     # now off for a2 the move has no column.  By hand: it is dropped (7,000), and a2's Q4
     # detail A -> B comes back (1,000, a priced choice); the new plan is tiny's optimum,
     # a1 and a2 on three detail periods at 5,000 and the Q4 hire at 8,000 + 20,000 = 43,000.
-    base = solve_verified(tiny)
-    assert base.plan is not None
-    moves = pd.DataFrame([["a2", "2027-Q4", "A", "B", 20000.0]],
-                         columns=list(base.plan.reassignments.columns))
-    details = base.plan.details
-    old = replace(base.plan, reassignments=moves, details=details[details.person != "a2"])
-    fixed = tiny.with_changes(staff=tuple(
-        replace(p, can_relocate=False) if p.person == "a2" else p for p in tiny.staff))
+    old, fixed = a2_moved_then_forbidden(tiny)
     out = replan(fixed, old, 2, exact_options(fixed), DisruptionCosts(1000, 7000, 3000))
     assert out.result.verified
     assert out.changes[["change", "kind", "who", "disruption_cost"]].values.tolist() == [

@@ -9,7 +9,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
-from analysis_helpers import exact_options
+from analysis_helpers import a2_moved_then_forbidden, exact_options
 from conftest import solve_verified
 
 from rebalance import options_from_instance, read_instance
@@ -165,14 +165,7 @@ def test_a_reassignment_the_flags_now_forbid_is_forced_and_an_added_detail_reuse
     # from Q4; staff.csv now says a2 may not be reassigned, so the move is dropped, forced,
     # and a2's Q4 detail comes back.  The added detail's reason is the new plan's own
     # reasons.csv row for it, word for word (one rule per fact).
-    base = solve_verified(tiny)
-    assert base.plan is not None
-    moves = pd.DataFrame([["a2", "2027-Q4", "A", "B", 20000.0]],
-                         columns=list(base.plan.reassignments.columns))
-    details = base.plan.details
-    old = replace(base.plan, reassignments=moves, details=details[details.person != "a2"])
-    fixed = tiny.with_changes(staff=tuple(
-        replace(p, can_relocate=False) if p.person == "a2" else p for p in tiny.staff))
+    old, fixed = a2_moved_then_forbidden(tiny)
     out = replan(fixed, old, 2, exact_options(fixed))
     assert out.result.verified and out.result.plan is not None
     assert _reason(out, "dropped", "a2", "2027-Q4") == (

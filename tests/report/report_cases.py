@@ -302,3 +302,20 @@ def page_text(page: str) -> str:
     """The page as read: tags, the style sheet and the scripts left out."""
     page = re.sub(r"<(script|style)\b.*?</\1>", " ", page, flags=re.S)
     return re.sub(r"\s+", " ", re.sub(r"<[^>]+>", " ", page))
+
+
+def replan_with_ahead(new_gaps: tuple[float, float],
+                      ahead_gaps: tuple[float, float]) -> pd.DataFrame:
+    """replan.csv as 'rebalance replan --planned-ahead' writes it (rebalance.analysis.foresight:
+    a planned_ahead column, and a row per stage gap, shortfall's and new money's), with made-up
+    figures: by hand, reacting late leaves 4.2 more weighted FTE-periods short and costs
+    38,000 more than planning ahead."""
+    nan = float("nan")
+    return pd.DataFrame({
+        "measure": ["weighted_shortfall", "total_cost", "disruption_cost", "shortfall_gap",
+                    "new_money_gap"],
+        "old_plan": [20.0, 90_000.0, 0.0, nan, nan],
+        "new_plan": [10.0, 138_000.0, 500.0, *new_gaps],
+        "difference": [-10.0, 48_000.0, 500.0, nan, nan],
+        "planned_ahead": [5.8, 100_000.0, nan, *ahead_gaps],
+    })

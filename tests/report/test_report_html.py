@@ -358,18 +358,12 @@ def test_a_replans_planned_ahead_column_is_named_a_plan_and_its_gaps_read_as_per
     # with two decimals is the number rule's (rebalance/numbers.py gap_text), as the console.
     from dataclasses import replace
 
+    from report_cases import replan_with_ahead
+
     from rebalance.report.foresight_words import GAP_ROWS_NOTE
     from rebalance.report.inputs import ReplanSummary
 
-    nan = float("nan")
-    table = pd.DataFrame({
-        "measure": ["weighted_shortfall", "total_cost", "disruption_cost", "shortfall_gap",
-                    "new_money_gap"],
-        "old_plan": [20.0, 90_000.0, 0.0, nan, nan],
-        "new_plan": [10.0, 138_000.0, 500.0, 0.0032, 0.0204],
-        "difference": [-10.0, 48_000.0, 500.0, nan, nan],
-        "planned_ahead": [5.8, 100_000.0, nan, 0.01, 0.0362],
-    })
+    table = replan_with_ahead((0.0032, 0.0204), (0.01, 0.0362))
     data = report_data_from_folder(tiny_plan_folder(), read_instance(TINY))
     data = replace(data, tables=(("replan", table),),
                    summary=replace(data.summary, replan=ReplanSummary("2027-Q3", "b-up")))

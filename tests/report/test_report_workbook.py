@@ -396,17 +396,9 @@ def test_frontier_factors_show_as_typed(tmp_path):
 
 
 def _replan_with_ahead() -> pd.DataFrame:
-    """replan.csv as 'rebalance replan --planned-ahead' writes it (rebalance.analysis.foresight:
-    a planned_ahead column, and a row per stage gap)."""
-    nan = float("nan")
-    return pd.DataFrame({
-        "measure": ["weighted_shortfall", "total_cost", "disruption_cost", "shortfall_gap",
-                    "new_money_gap"],
-        "old_plan": [20.0, 90_000.0, 0.0, nan, nan],
-        "new_plan": [10.0, 138_000.0, 500.0, 0.0001, 0.0312],
-        "difference": [-10.0, 48_000.0, 500.0, nan, nan],
-        "planned_ahead": [5.8, 100_000.0, nan, 0.0, 0.003],
-    })
+    from report_cases import replan_with_ahead
+
+    return replan_with_ahead((0.0001, 0.0312), (0.0, 0.003))
 
 
 def test_a_replans_gap_rows_read_as_percentages_under_the_late_notice_line(tmp_path):

@@ -12,6 +12,7 @@ from collections import defaultdict
 from collections.abc import Sequence
 from dataclasses import dataclass
 
+import numpy as np
 import pandas as pd
 
 from rebalance.analysis.limits import LimitUse, hire_rows
@@ -21,7 +22,7 @@ from rebalance.instance import Instance, Person
 from rebalance.numbers import number_text
 from rebalance.plan import Plan
 
-__all__ = ["BASE_AND_SCENARIO", "FORCED", "OLD_AND_NEW", "PlanNames"]
+__all__ = ["BASE_AND_SCENARIO", "FORCED", "OLD_AND_NEW", "PlanNames", "work_on_current_data"]
 
 # How a reason the data force begins (docs/analysis.md, "changes.csv").
 FORCED = "forced by the data"
@@ -74,6 +75,41 @@ def _coverage(plan: Plan, ix: dict[str, int]) -> dict[_Key, tuple[float, float, 
         *(_texts(c[n]) for n in ("office", "skill", "period")),
         *(_floats(c[n]) for n in ("demand_fte", "staff_output_fte", "hire_output_fte")),
         strict=True) if p in ix}
+
+
+def work_on_current_data(instance: Instance, work: pd.DataFrame) -> pd.DataFrame:
+    """A plan's ``work`` table as ``instance``'s data would have it: rows of people present
+    then only, each person within the FTE they have now (their shares kept), output at their
+    current proficiency.  (An old plan's own tables hold the data it was made for: a person
+    who has since left still covered demand there, and a reason had read a gap the current
+    data leave as none.)  Shared by the re-plan's scoring of the old plan and its reasons."""
+    people = {p.person: p for p in instance.staff}
+    ix = {name: t for t, name in enumerate(instance.period_names)}
+    person = work["person"].astype(str)
+    t = work["period"].astype(str).map(ix)
+    present = [name in people and not pd.isna(i) and people[name].is_present(int(i))
+               for name, i in zip(person, t, strict=True)]
+    work = work[present].copy()
+    person, t = person[present], t[present]
+    had = work.groupby([person, t])["fte"].transform("sum")
+    has = [instance.available_fte(people[name], int(i)) for name, i in zip(person, t,
+                                                                            strict=True)]
+    work["fte"] = work["fte"] * np.minimum(1.0, np.asarray(has) / had.clip(lower=1e-12))
+    work["output_fte"] = work["fte"] * [people[name].proficiency(str(k))
+                                        for name, k in zip(person, work["skill"], strict=True)]
+    return work
+
+
+def _staff_output_now(instance: Instance, plan: Plan,
+                      ix: dict[str, int]) -> dict[_Key, float]:
+    """(office, skill, period) -> output of ``plan``'s staff on ``instance``'s data
+    (:func:`work_on_current_data`)."""
+    work = work_on_current_data(instance, plan.work)
+    out: dict[_Key, float] = defaultdict(float)
+    for o, k, per, x in zip(*(_texts(work[c]) for c in ("office", "skill", "period")),
+                            _floats(work["output_fte"]), strict=True):
+        out[(o, k, ix[per])] += x
+    return out
 
 
 def _moves(plan: Plan) -> dict[str, tuple[str, str, str]]:
@@ -129,6 +165,7 @@ class _Facts:
         self.people = {p.person: p for p in instance.staff}
         self.ctx = _Context(instance, new)
         self.old_cover = _coverage(old, self.ix)
+        self.old_staff_now = _staff_output_now(instance, old, self.ix)
         self.old_visitors = _visitors(old, self.ix)
         self.new_visitors = _visitors(new, self.ix)
         self.new_moves = _moves(new)
@@ -158,9 +195,10 @@ class _Facts:
                 self.wanted[(dm.office, dm.period)].add(dm.skill)
         # Hires by office, skill and start: new minus old (what started there instead).
         self.hire_gain: dict[tuple[str, str], list[tuple[int, int]]] = defaultdict(list)
-        # The same by funding too: what a budget year pays for (start, office, skill, funding,
-        # count).
-        self.gains: list[tuple[int, str, str, str, int]] = []
+        # By funding too (what a budget year pays for): start -> new count minus old, so a
+        # moved hire is +n at its new start and -n at its old one.  Its new start alone had
+        # been named as a hire the new plan adds, where it cost the short year less.
+        self.hire_delta: dict[tuple[str, str, str], dict[int, int]] = defaultdict(dict)
         counts: dict[tuple[str, str, int, str], int] = defaultdict(int)
         for h in hire_rows(new):
             counts[(h.office, h.skill, self.ix[h.start_period], h.funding)] += h.count
@@ -170,8 +208,8 @@ class _Facts:
         by_start: dict[tuple[str, str, int], int] = defaultdict(int)
         for (o, k, s, funding), n in sorted(counts.items(), key=lambda kv: kv[0][2]):
             by_start[(o, k, s)] += n
-            if n > 0:
-                self.gains.append((s, o, k, funding, n))
+            if n != 0:
+                self.hire_delta[(o, k, funding)][s] = n
         for (o, k, s), n in by_start.items():
             if n > 0:
                 self.hire_gain[(o, k)].append((s, n))
@@ -212,6 +250,21 @@ class _Facts:
     def limit(self, kind: str, where: str, period: str = "") -> LimitUse | None:
         return self.binding_at.get((kind, where, period))
 
+    def hire_cost(self, skill: str, funding: str, starts: dict[int, int]) -> dict[str, float]:
+        """What hires of ``skill`` on ``funding`` cost the hiring budget each year, ``n``
+        starting in each period of ``starts`` (a negative ``n`` takes off): onboarding in the
+        start year, and a new position's salary every period from its start on, in that
+        period's year (limits.py's rule), at the current data's prices."""
+        k = self.i.skill(skill)
+        years = [p.year for p in self.i.periods]
+        cost: dict[str, float] = defaultdict(float)
+        for s, n in starts.items():
+            cost[years[s]] += n * k.onboarding_cost
+            if funding == "new":
+                for t in range(s, len(years)):
+                    cost[years[t]] += n * k.salary_per_period
+        return cost
+
     def prio(self, key: _Key) -> str:
         return number_text(self.priority.get(key, 1.0))
 
@@ -251,9 +304,22 @@ class _Facts:
                     back.add(p)
                 elif old_home != office:
                     moved.add(p)
+        # A hire holds a seat from its start on: one the new plan adds, or starts earlier,
+        # takes one only where it has more hires seated there than the old plan (a moved
+        # hire: from its new start to its old one).
         last = max(periods)
-        hired = [f"{n} x {k} hired there from {self.names[s]}"
-                 for s, o, k, _, n in self.gains if o == office and s <= last]
+        deltas: dict[str, list[tuple[int, int]]] = defaultdict(list)
+        for (o, k, _), delta in self.hire_delta.items():
+            if o == office:
+                deltas[k] += delta.items()
+        found = []
+        for k, starts in deltas.items():
+            more = max(sum(n for s, n in starts if s <= t) for t in periods)
+            if more > 0:  # then some start by ``last`` has more hires than before
+                first = sorted({s for s, n in starts if n > 0 and s <= last})
+                found.append((first, f"{more} x {k} hired there from "
+                              + ", ".join(self.names[s] for s in first)))
+        hired = [text for _, text in sorted(found)]
         parts = [f"{_people(sorted(who))} {words}" for who, words in (
             (came, "detailed in"), (back, "no longer detailed out"),
             (moved, "reassigned there")) if who]

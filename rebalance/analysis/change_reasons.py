@@ -20,8 +20,6 @@ over each table.
 
 from __future__ import annotations
 
-from collections import defaultdict
-
 import pandas as pd
 
 from rebalance.analysis.change_facts import (
@@ -286,26 +284,21 @@ def _fewer_hires(f: _Facts, office: str, skill: str, s: int, funding: str) -> st
     # Said once, in the closing clause about the same demand.
     fell = (f"{_fte(old_need - need)} FTE-periods lower than {f.plans.old} was made for"
             if need < old_need - _EPS else "")
-    # What one such hire costs the hiring budget of each year it is paid in (onboarding in
-    # its start year; a new position's salary every period from its start, limits.py's rule),
-    # against what the new plan leaves of that year's budget.
-    k = f.i.skill(skill)
-    cost: dict[str, float] = defaultdict(float)
-    cost[f.i.periods[s].year] += k.onboarding_cost
-    if funding == "new":
-        for t in range(s, T):
-            cost[f.i.periods[t].year] += k.salary_per_period
+    # What one such hire costs the hiring budget of each year it is paid in, against what the
+    # new plan leaves of that year's budget.
+    cost = f.hire_cost(skill, funding, {s: 1})
     short_of = [(u, cost[y]) for y in sorted(cost)
                 if (u := f.uses.get(("hiring_budget", y, ""))) is not None
                 and u.cap - u.used < cost[y] - _EPS]
     if short_of:
         years = {u.where for u, _ in short_of}
-        # Hires the new plan adds that are paid in those years (a new position's salary runs
-        # on past its start year).
-        last = max(years)
-        gained = [(t, o, k2, n) for t, o, k2, fund, n in f.gains
-                  if f.i.periods[t].year in years
-                  or (fund == "new" and f.i.periods[t].year <= last)]
+        # Only hires that cost those years more in the new plan than in the old, net of each
+        # office, skill and funding's starts: a hire moved out of a short year, or within
+        # one, had been named as bought instead.
+        gained = sorted((t, o, k2, n) for (o, k2, fund), delta in f.hire_delta.items()
+                        if any(c > _EPS for y, c in f.hire_cost(k2, fund, delta).items()
+                               if y in years)
+                        for t, n in delta.items() if n > 0)
         left = " and ".join(f"{money_amount(u.cap - u.used, money)} of the {u.where} hiring "
                             f"budget, less than the {money_amount(c, money)} it would cost then"
                             for u, c in short_of)
@@ -346,17 +339,20 @@ def _fewer_hires(f: _Facts, office: str, skill: str, s: int, funding: str) -> st
     return "; ".join([*paid, *parts, text])
 
 
-def _moved_hire(f: _Facts, office: str, skill: str, s_old: int, s_new: int) -> str:
+def _moved_hire(f: _Facts, office: str, skill: str, funding: str, s_old: int,
+                s_new: int) -> str:
     """Why hires of ``skill`` at ``office`` start in ``s_new`` instead of ``s_old``: the gap a
     hire is for (demand above the staff's output, hires left out, as the new hire's own reason
     measures it) at both starts in each plan, and, for a later start, the new plan's binding
     limits at the old start (a hire from then would hold a seat in every period to the new
-    start, a hiring slot then, and budget in that year)."""
+    start, a hiring slot then, and what the earlier start costs each year more)."""
     names = f.names
 
     def gaps(t: int) -> tuple[str, str]:
-        dem, staff, _ = f.old_cover.get((office, skill, t), (0.0, 0.0, 0.0))
-        return (_fte(max(0.0, dem - staff)),
+        # Both plans on the current data, as replan.csv scores the old plan: its own coverage
+        # table is the data it was made for (a storm's gap had read as 0.000 there).
+        key = (office, skill, t)
+        return (_fte(max(0.0, f.demand.get(key, 0.0) - f.old_staff_now.get(key, 0.0))),
                 _fte(max(0.0, f.ctx.gap_before_hires(office, skill, t))))
 
     (old_a, new_a), (old_b, new_b) = gaps(s_old), gaps(s_new)
@@ -374,9 +370,17 @@ def _moved_hire(f: _Facts, office: str, skill: str, s_old: int, s_new: int) -> s
                   for t, n in starts if t == s_old]
         found.append(f"the hiring slots at {office} in {names[s_old]} are full"
                      + (f", taken by {_people(others)} more" if others else ""))
-    budget = f.limit("hiring_budget", f.i.periods[s_old].year)
-    if budget is not None:
-        found.append(f"the {_describe(budget, f.i)} leaves less than any hire costs")
+    # What a start at s_old costs each year beyond one at s_new (onboarding moves year if the
+    # year differs; a new position pays one more period's salary per period brought forward).
+    # A budget is named only where what it leaves is less than that: a vacancy hire moved
+    # within 2027 had been said to be held back by 2027's budget, at no cost more there.
+    extra = f.hire_cost(skill, funding, {s_old: 1, s_new: -1})
+    money = f.i.money.currency
+    for y in sorted(extra):
+        u = f.uses.get(("hiring_budget", y, ""))
+        if u is not None and extra[y] > _EPS and u.cap - u.used < extra[y] - _EPS:
+            found.append(f"the {_describe(u, f.i)} leaves less than the "
+                         f"{money_amount(extra[y], money)} more a start then costs in {y}")
     if found:
         parts.append(f"a start in {names[s_old]} is held back: {'; '.join(found)}")
     elif f.ctx.short.get((office, skill, s_old), 0.0) > _EPS:
@@ -433,7 +437,7 @@ def change_reasons(instance: Instance, old: Plan, new: Plan, at: int, changes: p
                 if change == "moved":
                     old_start = before.split(" in ")[-1]
                     forced = _hire_ruled_out(f, who, skill, f.ix[old_start], funding)
-                    why = forced or _moved_hire(f, who, skill, f.ix[old_start], t)
+                    why = forced or _moved_hire(f, who, skill, funding, f.ix[old_start], t)
                     text = f"starts in {period} instead of {old_start}; {why}; {text}"
         out.append(text)
     return out

@@ -20,9 +20,9 @@ from collections.abc import Hashable
 from dataclasses import dataclass, replace
 from pathlib import Path
 
-import numpy as np
 import pandas as pd
 
+from rebalance.analysis.change_facts import work_on_current_data
 from rebalance.analysis.change_reasons import change_reasons
 from rebalance.analysis.reasons import reasons
 from rebalance.analysis.replan_checks import PastWork, ReplanError, _checked_past
@@ -288,22 +288,7 @@ def _under_current_data(instance: Instance, old: Plan) -> Plan:
     present then, at their current proficiency and within their current FTE, and every move
     and hire at current prices.  (Its own tables hold the old data's output and prices: a
     person who has since left still covered demand there, which overstated the old plan.)"""
-    people = {p.person: p for p in instance.staff}
-    ix = {name: t for t, name in enumerate(instance.period_names)}
-    work = old.work.copy()
-    person = work["person"].astype(str)
-    t = work["period"].astype(str).map(ix)
-    present = [name in people and not pd.isna(i) and people[name].is_present(int(i))
-               for name, i in zip(person, t, strict=True)]
-    work = work[present].copy()
-    person, t = person[present], t[present]
-    # Within what each person has now, shares kept.
-    had = work.groupby([person, t])["fte"].transform("sum")
-    has = [instance.available_fte(people[name], int(i)) for name, i in zip(person, t,
-                                                                            strict=True)]
-    work["fte"] = work["fte"] * np.minimum(1.0, np.asarray(has) / had.clip(lower=1e-12))
-    work["output_fte"] = work["fte"] * [people[name].proficiency(str(k))
-                                        for name, k in zip(person, work["skill"], strict=True)]
+    work = work_on_current_data(instance, old.work)
     details = old.details.copy()
     details["cost"] = [instance.detail_cost_per_period(str(a), str(b))
                        for a, b in zip(details["from_office"], details["to_office"],

@@ -495,6 +495,43 @@ def test_scenario_actions_say_why_as_changes_csv_does(tiny) -> None:
             "short"}
 
 
+def test_a_vacancy_hire_moved_within_its_year_is_not_held_back_by_the_budget(tiny) -> None:
+    from dataclasses import replace
+
+    from rebalance.analysis.change_reasons import BASE_AND_SCENARIO, change_reasons
+    from rebalance.analysis.scenario_actions import action_rows, change_rows
+    from rebalance.plan import cost_table, coverage_table
+
+    # By hand (the demo comparison's technical_review vacancy hire, 2027-Q3 -> 2027-Q4, had
+    # been said to be held back by 2027's budget): tiny with one funded review vacancy at B
+    # and a 2027 hiring cap of 10,000.  The base plan fills it from Q3, the scenario's plan
+    # from Q4, the work the same (tiny's exact plan).  A vacancy hire pays only its 8,000
+    # onboarding, in 2027 either way: the Q3 start costs nothing more, so the 2,000 left
+    # holds nothing back.  B's seats (2 of 6 in Q3) and slots (none used in Q3) are free, and
+    # B's Q3 review (2.0) is b1's and a1's 1.0 each: no shortfall there.  Gaps, hires left
+    # out: Q3 0; Q4 1.0 - a2's 0.8 = 0.200.
+    base = solve_verified(tiny).plan
+    assert base is not None
+    funded = tiny.with_changes(vacancies={("B", "review"): 1},
+                               budgets=tuple(replace(b, hiring=10_000.0) for b in tiny.budgets))
+
+    def filled(start: str) -> Plan:
+        hires = pd.DataFrame([("B", "review", start, 1, "vacancy", 8000.0, 0.0)],
+                             columns=list(PLAN_TABLES["hires"]))
+        return replace(base, hires=hires, coverage=coverage_table(funded, base.work, hires),
+                       costs=cost_table(funded, base.details, base.reassignments, hires))
+
+    old, new = filled("2027-Q3"), filled("2027-Q4")
+    found = action_rows("later", old, new, PERIODS, ())
+    (why,) = change_reasons(funded, old, new, 0, change_rows(found), reasons(funded, new),
+                            BASE_AND_SCENARIO)
+    assert why.startswith(
+        "starts in 2027-Q4 instead of 2027-Q3; B's review demand above its staff's output "
+        "(hires left out) is 0.000 FTE in 2027-Q3 and 0.200 in 2027-Q4 in the base plan, "
+        "0.000 and 0.200 in the scenario's plan; the scenario's plan leaves no review "
+        "shortfall at B in 2027-Q3 without it; ")
+
+
 # A planner's reading of the demo comparison: "who moves for this surge?" had the rows in
 # scenario_actions.csv and no sum anywhere, and "why is so much left short?" only in each
 # scenario folder's reasons.csv.

@@ -13,12 +13,13 @@ from analysis_helpers import a2_moved_then_forbidden, exact_options
 from conftest import solve_verified
 
 from rebalance import options_from_instance, read_instance
+from rebalance.analysis.change_reasons import change_reasons
 from rebalance.analysis.reasons import reasons
 from rebalance.analysis.replan import Replan, replan
 from rebalance.analysis.scenario_files import DemandChange, Scenario, apply_scenario
 from rebalance.generate import GeneratorSpec, generate, write_generated
 from rebalance.instance import Budget, Demand, Instance, Office
-from rebalance.plan import Plan, coverage_table
+from rebalance.plan import PLAN_TABLES, Plan, cost_table, coverage_table
 from rebalance.planning import make_plan
 
 
@@ -316,3 +317,106 @@ def test_own_staff_back_from_a_detail_are_given_their_own_share(tiny) -> None:
     assert _reason(out, "dropped", "a1", "2027-Q3").endswith(
         "; B covers review in 2027-Q3 without them: demand there fell from 2.000 to 1.000 "
         "FTE; b1 no longer detailed out gives 1.000 FTE")
+
+
+# Moved and fewer hires by hand: tiny's exact plan (above) with its hires table swapped, its
+# coverage and costs redone on the data given (no solve, so each figure is known by hand).
+# Prices (skills.csv): a review hire 8,000 onboarding and 20,000 salary a period, an intake
+# hire 5,000 and 15,000; every period is in 2027.
+
+def _hiring(instance: Instance, plan: Plan, hires: list[tuple[str, str, str]]) -> Plan:
+    """``plan`` with one new-position hire per (office, skill, start) of ``hires``."""
+    names = instance.period_names
+    rows = [(o, k, t, 1, "new", instance.skill(k).onboarding_cost,
+             instance.skill(k).salary_per_period * (len(names) - names.index(t)))
+            for o, k, t in hires]
+    table = pd.DataFrame(rows, columns=list(PLAN_TABLES["hires"]))
+    return replace(plan, hires=table, coverage=coverage_table(instance, plan.work, table),
+                   costs=cost_table(instance, plan.details, plan.reassignments, table))
+
+
+def _why(instance: Instance, old: Plan, new: Plan, *rows: tuple[str, ...]) -> list[str]:
+    """change_reasons of ``rows`` (change, kind, who, skill, period, old, new)."""
+    changes = pd.DataFrame(list(rows), columns=["change", "kind", "who", "skill", "period",
+                                                "old", "new"])
+    return change_reasons(instance, old, new, 1, changes, reasons(instance, new))
+
+
+def test_a_moved_hires_old_plan_figures_are_on_the_current_data(tiny) -> None:
+    # By hand: B's 2027-Q4 review demand doubles to 2.0; the old plan (made on tiny) hires
+    # B's reviewer from Q4, the new from Q3, with the same work.  In Q4 the old plan's staff
+    # at B are a2 on detail, 1.0 FTE at review 0.8: 2.0 - 0.8 = 1.200 on the current data
+    # (its own coverage table, made for 1.0 of demand, had given 0.200); in Q3 b1 and a1
+    # give 1.0 each of 2.0: 0.000.  The new plan's work is the same: 1.200 and 0.000.
+    base = _tiny_base(tiny)
+    more = apply_scenario(tiny, Scenario("more", "", (
+        DemandChange(("B",), ("review",), (3,), multiplier=2.0),)))
+    rich = more.with_changes(budgets=(Budget("2027", 200_000.0, 30_000.0),))
+    new = _hiring(rich, base, [("B", "review", "2027-Q3")])
+    (why,) = _why(rich, base, new, ("moved", "hire (new)", "B", "review", "2027-Q3",
+                                    "1 in 2027-Q4", "1 in 2027-Q3"))
+    assert why.startswith(
+        "starts in 2027-Q3 instead of 2027-Q4; B's review demand above its staff's output "
+        "(hires left out) is 1.200 FTE in 2027-Q4 and 0.000 in 2027-Q3 in the old plan, "
+        "1.200 and 0.000 in the new plan; ")
+
+
+def test_a_moved_hire_names_the_budget_by_what_the_earlier_start_costs_more(tiny) -> None:
+    # By hand: the old plan hires B's reviewer from Q3, the new (tiny's) from Q4.  The new
+    # plan spends 8,000 + 20,000 = 28,000 of 2027's 40,000: 12,000 left.  A start in Q3
+    # costs 2027 one period's salary more (onboarding is in 2027 either way): 20,000, more
+    # than is left, so the budget holds it back.  B's seats (2 of 6 in Q3) and slots (none
+    # used in Q3) do not.  Gaps: Q3 2.0 - (b1 1.0 + a1 1.0) = 0; Q4 1.0 - a2's 0.8 = 0.200,
+    # the same work in both plans.  It had said "leaves less than any hire costs".
+    base = _tiny_base(tiny)
+    old = _hiring(tiny, base, [("B", "review", "2027-Q3")])
+    (why,) = _why(tiny, old, base, ("moved", "hire (new)", "B", "review", "2027-Q4",
+                                    "1 in 2027-Q3", "1 in 2027-Q4"))
+    assert why.startswith(
+        "starts in 2027-Q4 instead of 2027-Q3; B's review demand above its staff's output "
+        "(hires left out) is 0.000 FTE in 2027-Q3 and 0.200 in 2027-Q4 in the old plan, "
+        "0.000 and 0.200 in the new plan; a start in 2027-Q3 is held back: the hiring budget "
+        "2027 (28,000 of 40,000 spent) leaves less than the 20,000 more a start then costs "
+        "in 2027; ")
+
+
+def test_fewer_hires_name_only_hires_that_cost_the_short_year_more(tiny) -> None:
+    # By hand: 2027's hiring cap is 68,000.  The old plan hires B's reviewer from Q4 and an
+    # intake hire at A from Q2 (5,000 + 3 x 15,000 = 50,000); the new drops B's reviewer,
+    # moves the intake hire to Q3 (5,000 + 2 x 15,000 = 35,000: 15,000 less) and hires a
+    # reviewer at A from Q4 (8,000 + 20,000 = 28,000 more).  It spends 63,000: 5,000 left,
+    # less than B's reviewer's 28,000.  Only A's reviewer costs 2027 more; the moved intake
+    # hire had been named too.  B's Q4 review: 1.0 - a2's 0.8 = 0.200 short.
+    base = _tiny_base(tiny)
+    capped = tiny.with_changes(budgets=(Budget("2027", 68_000.0, 30_000.0),))
+    old = _hiring(capped, base, [("B", "review", "2027-Q4"), ("A", "intake", "2027-Q2")])
+    new = _hiring(capped, base, [("A", "intake", "2027-Q3"), ("A", "review", "2027-Q4")])
+    (why,) = _why(capped, old, new, ("fewer", "hire (new)", "B", "review", "2027-Q4", "1",
+                                     "0"))
+    assert why == (
+        "the new plan leaves 5,000 of the 2027 hiring budget, less than the 28,000 it would "
+        "cost then; it hires instead 1 x review at A from 2027-Q4; review demand at B from "
+        "2027-Q4 on is left 0.200 FTE-periods short")
+
+
+def test_a_hire_moved_earlier_takes_no_seat_after_its_old_start(tiny) -> None:
+    # By hand: B has 3 seats and may hire 2 a period; 2027's hiring cap is 200,000.  The old
+    # plan hires a reviewer and an intake hire at B from Q3; the new drops the reviewer and
+    # starts the intake hire in Q2.  The new plan's seats at B: Q3 b1, a1 (on detail) and
+    # the intake hire, 3 of 3; Q4 a2 and the intake hire, 2.  In Q3 the old plan seats the
+    # intake hire too, so it takes no seat there the old plan left free: no one is named.
+    # It had said "taken by 1 x intake hired there from 2027-Q2".  The budget leaves 150,000
+    # (50,000 spent), more than the reviewer's 48,000; B's Q4 review is 0.200 short.
+    base = _tiny_base(tiny)
+    tight = tiny.with_changes(
+        offices=tuple(replace(o, seats=3, max_hires_per_period=2) if o.name == "B" else o
+                      for o in tiny.offices),
+        budgets=(Budget("2027", 200_000.0, 30_000.0),))
+    old = _hiring(tight, base, [("B", "review", "2027-Q3"), ("B", "intake", "2027-Q3")])
+    new = _hiring(tight, base, [("B", "intake", "2027-Q2")])
+    (why,) = _why(tight, old, new, ("fewer", "hire (new)", "B", "review", "2027-Q3", "1",
+                                    "0"))
+    assert why == (
+        "a hire there would hold a seat from 2027-Q3 on, and the seats at B are full in "
+        "2027-Q3 (3 of 3 used); review demand at B from 2027-Q3 on is left 0.200 "
+        "FTE-periods short")

@@ -191,9 +191,12 @@ def _move_words(instance: Instance, person: str, a: str, b: str, skill: str, nee
                      f"{how_many(share_full)}; a move does not")
     detail_cost = instance.detail_cost_per_period(a, b) * n
     m = instance.policy.max_consecutive_detail_periods
-    parts.append(f"one move ({_money(instance, cost)}) costs "
-                 f"{'less than' if cost < detail_cost else 'no less than'} detailing them for "
-                 f"all of it ({_money(instance, detail_cost)})"
+    move_text, detail_text = _money(instance, cost), _money(instance, detail_cost)
+    # As written: "costs no less than" had been said of 20,000 against 10,000.
+    than = ("as much as" if move_text == detail_text else
+            "less than" if cost < detail_cost else "more than")
+    parts.append(f"one move ({move_text}) costs {than} detailing them for all of it "
+                 f"({detail_text})"
                  + (f", which details, at most {m} of any {m + 1} periods, could not do"
                     if m is not None and m < n else ""))
     if not need and not seats_full and not share_full:

@@ -16,6 +16,7 @@ import pandas as pd
 
 from rebalance.analysis.limits import BUDGET_LIMITS, LIMIT_NAMES, limit_words
 from rebalance.numbers import fte_total_text, gap_text, money_amount, money_text, years_text
+from rebalance.report.like_for_like_words import not_like_for_like
 from rebalance.report.words import outcome_words
 
 __all__ = [
@@ -421,6 +422,8 @@ def scenario_lines(frame: pd.DataFrame, currency: str | None = None,
             money += f" {WITHIN_GAPS}"
         salaries = _salaries_words(row, base, currency)
         parts.append(f"{money}, {salaries}" if salaries else money)
+        unlike = not_like_for_like(w_diff if _shows(fte_total_text(w_diff)) else None,
+                                   cost if _shows(money_text(cost)) else None, before=". ")
         budget = _budget_words(row, currency)
         if budget is not None:
             parts.append(budget)
@@ -428,7 +431,7 @@ def scenario_lines(frame: pd.DataFrame, currency: str | None = None,
         by_office = _office_changes(offices, name, "shortfall_fte_periods")
         if by_office:
             line += f"; shortfall by office against the base: {_office_list(by_office)}"
-        lines.append(line)
+        lines.append(line + unlike)
     return lines
 
 

@@ -13,6 +13,7 @@ import pandas as pd
 from rebalance.analysis.foresight import AHEAD_COLUMN
 from rebalance.numbers import fte_total_text, gap_text, money_amount
 from rebalance.report.analysis_words import GAP_SAID, WITHIN_GAPS, finite
+from rebalance.report.like_for_like_words import not_like_for_like
 
 __all__ = ["GAP_ROWS_NOTE", "late_notice_line", "planned_ahead_heading"]
 
@@ -93,13 +94,11 @@ def late_notice_line(table: pd.DataFrame | None, at_period: str, first_period: s
 
     stages = (f"stage gaps, re-plan and planned ahead: shortfall {pair('shortfall_gap')}, "
               f"new money {pair('new_money_gap')}")
-    # Shortfall comes first: new money at two different shortfalls is no saving of one plan
-    # over the other (the demo's re-plan had cost less for more left short).
-    unlike = "" if not _shows(text_w) or not _shows(text_m) else (
-        " The two leave different shortfall, so their new money is not like for like: "
-        "shortfall is weighed first.")
-    return (f"Late notice: reacting in {at_period} {shortfall} and {money} than planning for "
-            f"it from {first_period} ({stages}).{unlike}")
+    unlike = not_like_for_like(more_w if _shows(text_w) else None,
+                               more_m if _shows(text_m) else None, either_way=True)
+    # "compared with", not "than": "leaves the same weighted shortfall ... than" had read.
+    return (f"Late notice: reacting in {at_period} {shortfall} and {money} compared with "
+            f"planning for it from {first_period} ({stages}).{unlike}")
 
 
 def planned_ahead_heading(for_replan_at: str, scenario: str | None, first_period: str) -> str:

@@ -386,3 +386,26 @@ def test_a_move_that_frees_a_seat_says_so_rather_than_a_lasting_need() -> None:
     assert "A's seats are full in both, and a move frees a seat there for good" in text
     assert "a detail would count against A's away share, at its cap in both; a move does not" \
         in text
+
+
+def test_a_moves_cost_against_details_says_more_as_much_or_less_as_the_figures_are() -> None:
+    # A reading of tests/data/seats_short's reasons: "one move (20,000) costs no less than
+    # detailing them for all of it (10,000)", where 20,000 is more.  English comparatives as
+    # commonly used: "more than" where larger, "as much as" where equal, "less than" where
+    # smaller; the figures by hand, the detail cost a period A to B times the 2 periods.
+    from conftest import DATA
+
+    from rebalance import read_instance
+    from rebalance.analysis.reasons import _move_words
+    from rebalance.numbers import money_amount
+
+    instance = read_instance(DATA / "seats_short")
+    details = instance.detail_cost_per_period("A", "B") * 2
+    said = {cost: _move_words(instance, "a5", "A", "B", "review", 2, [0, 1], cost, [], [])
+            for cost in (details * 2, details, details / 2)}
+    money = {cost: money_amount(cost, instance.money.currency) for cost in (*said, details)}
+    tail = f"detailing them for all of it ({money[details]})"
+    assert f"one move ({money[details * 2]}) costs more than {tail}" in said[details * 2]
+    assert f"one move ({money[details]}) costs as much as {tail}" in said[details]
+    assert f"one move ({money[details / 2]}) costs less than {tail}" in said[details / 2]
+    assert all("no less than" not in text for text in said.values())

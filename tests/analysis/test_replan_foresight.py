@@ -42,6 +42,7 @@ from rebalance.analysis.scenario_files import (
 from rebalance.instance import Instance
 from rebalance.report.analysis_words import WITHIN_GAPS
 from rebalance.report.foresight_words import NOT_PROVEN, late_notice_line
+from rebalance.report.like_for_like_words import NOT_LIKE_FOR_LIKE
 
 TINY = DATA / "tiny"
 # The cost stage holds shortfall within this of the first stage's (documented slack).
@@ -156,7 +157,7 @@ def test_the_line_says_what_reacting_late_cost_by_a_hand_worked_example() -> Non
     line = late_notice_line(proven, "2027-Q3", "2027-Q1")
     assert line is not None
     assert ("reacting in 2027-Q3 leaves 4.2 more weighted FTE-periods short and costs 38,000 "
-            "more new money than planning for it from 2027-Q1") in line
+            "more new money compared with planning for it from 2027-Q1") in line
     assert "shortfall 0.00% and 0.00%, new money 0.00% and 0.00%" in line
     assert WITHIN_GAPS not in line
     # A 30% gap on new money: 38,000 <= 0.3 x 138,000, so it is within, not claimed; the
@@ -198,7 +199,7 @@ def test_replan_planned_ahead_end_to_end(tmp_path: Path) -> None:
     assert done.returncode == 0, done.stderr
     said = " ".join(done.stdout.split())
     assert "Late notice: reacting in 2027-Q3" in said
-    assert "than planning for it from 2027-Q1" in said
+    assert "compared with planning for it from 2027-Q1" in said
     table = pd.read_csv(out / "replan.csv").set_index("measure")
     assert AHEAD_COLUMN in table.columns
     # The plan made ahead is a full plan folder, verified against the scenario's data (the
@@ -232,3 +233,28 @@ def test_replan_planned_ahead_end_to_end(tmp_path: Path) -> None:
     assert sheet["A3"].value == "measure"
     gaps = [row for row in sheet.iter_rows(min_row=4) if row[0].value == "shortfall gap"]
     assert gaps and {c.number_format for c in gaps[0][1:] if c.value is not None} == {"0.00%"}
+
+
+def test_the_late_notice_line_reads_as_english_whatever_differs() -> None:
+    # A reviewer read "leaves the same weighted shortfall and costs the same new money than
+    # planning for it": "than" follows a comparative (more, less), not "the same" (English
+    # grammar, common practice), so the line compares "with" the plan made ahead in every
+    # case.  Figures by hand: 10.0 - 5.8 = 4.2, 138,000 - 100,000 = 38,000.
+    tail = " compared with planning for it from 2027-Q1 (stage gaps"
+    cases = {
+        ((5.8, 100_000.0), (5.8, 100_000.0)):
+            "leaves the same weighted shortfall and costs the same new money",
+        ((10.0, 100_000.0), (5.8, 100_000.0)):
+            "leaves 4.2 more weighted FTE-periods short and costs the same new money",
+        ((5.8, 138_000.0), (5.8, 100_000.0)):
+            "leaves the same weighted shortfall and costs 38,000 more new money",
+        ((5.8, 100_000.0), (10.0, 138_000.0)):
+            "leaves 4.2 fewer weighted FTE-periods short and costs 38,000 less new money",
+    }
+    for (new, ahead), said in cases.items():
+        line = late_notice_line(_table(new, ahead, (0.0, 0.0, 0.0, 0.0)), "2027-Q3",
+                                "2027-Q1") or ""
+        assert f"reacting in 2027-Q3 {said}{tail}" in line, line
+        assert " than " not in line, line
+        # Not like for like only where both differ (the shared words, as compare's lines).
+        assert line.endswith(NOT_LIKE_FOR_LIKE) == (new[0] != ahead[0] and new[1] != ahead[1])

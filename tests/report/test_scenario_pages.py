@@ -205,3 +205,27 @@ def test_rows_added_raised_and_held_at_zero_are_each_said() -> None:
         "demand for intake at A in 2027-Q2: 1 row of 1 FTE added where there was none "
         "(priority 1)",
         "demand for intake at A in 2027-Q2 raised by 1 FTE"]
+
+
+def test_a_scenario_line_says_new_money_at_a_different_shortfall_is_not_like_for_like() -> None:
+    import pandas as pd
+
+    from rebalance.report.analysis_words import scenario_lines
+    from rebalance.report.like_for_like_words import NOT_LIKE_FOR_LIKE
+
+    # The demo's comparison as a reviewer read it: weighted shortfall 169.478 -> 193.152
+    # (+23.7) and new money 2,443,500 -> 2,277,000 (-166,500), by hand; less money for more
+    # left short is no saving (shortfall is weighed first), as the late-notice line says.
+    # Made-up rows beside it: more money for less short (the other way too), both up (money
+    # bought nothing back, no clause), shortfall the same (like for like).
+    frame = pd.DataFrame({
+        "scenario": ["base", "rush", "spend", "worse", "same"],
+        "description": ["the instance as it is", "a rush", "more spent", "both up", "flat"],
+        "demand_fte_periods": [2021.6] * 5,
+        "weighted_shortfall": [169.478, 193.152, 160.0, 180.0, 169.478],
+        "total_cost": [2_443_500.0, 2_277_000.0, 2_500_000.0, 2_500_000.0, 2_400_000.0]})
+    rush, spend, worse, same = scenario_lines(frame)
+    assert "weighted shortfall +23.7; new money -166,500" in rush
+    assert rush.endswith(f". {NOT_LIKE_FOR_LIKE}")
+    assert spend.endswith(f". {NOT_LIKE_FOR_LIKE}")
+    assert NOT_LIKE_FOR_LIKE not in worse and NOT_LIKE_FOR_LIKE not in same

@@ -85,8 +85,9 @@ class Violation:
     file and row), a message and the plan ``file`` it is about (and row, where one row breaks
     it).  An ``unknown_reference`` also says which ``column`` names what the instance lacks and
     which ``name_kind`` of name it should hold, so a caller need not read the message back.  A
-    coverage figure only out of date because of an earlier violation ``follows`` it; a seats
-    excess says the office and period (index) it is ``at``, so a report can join a run."""
+    coverage figure only out of date because of an earlier violation ``follows`` it (the
+    first, where several apply: the rest are ``also_follows``); a seats excess says the
+    office and period (index) it is ``at``, so a report can join a run."""
 
     rule: str
     where: str
@@ -96,6 +97,7 @@ class Violation:
     file: str = ""
     follows: Violation | None = None
     at: tuple[str, int] | None = None
+    also_follows: tuple[Violation, ...] = ()
 
     def __str__(self) -> str:
         """As a planner reads it: the file first (once), the rule in words last, no code."""

@@ -4,7 +4,8 @@ A plan edited by hand in one place (a work row moved to another office, more FTE
 person has, a detail that may not be) leaves coverage.csv as it was: each coverage row the
 edit touches then differs from its recomputed figures in several columns, and each of those
 lines had read as one more problem.  Here such a line is linked to the violation it follows
-from (:attr:`~rebalance.verify.Violation.follows`), so a report can show it under that cause.
+from (:attr:`~rebalance.verify.Violation.follows`, the first where several apply; the rest are
+its ``also_follows``), so a report can show it under the first and name the others.
 
 A coverage line follows from a cause only where all of this holds, else it stays a problem
 of its own:
@@ -113,7 +114,8 @@ def _table(v: Violation) -> str:
 def link_knock_ons(instance: Instance, plan: Plan, violations: Sequence[Violation],
                    lines: Callable[[str], list[int]]) -> list[Violation]:
     """``violations`` with each coverage line that follows from an earlier one marked so
-    (its ``follows`` set to that violation, the first where several apply).
+    (its ``follows`` set to that violation, the first where several apply, and the others in
+    ``also_follows``: a row that 25 moved work rows changed had named only the first).
 
     ``lines`` gives each row's line in its file, as the verifier numbered them.
     """
@@ -169,7 +171,7 @@ def link_knock_ons(instance: Instance, plan: Plan, violations: Sequence[Violatio
     causes_in: dict[int, list[tuple[str, int]]] = defaultdict(list)  # period -> person, cause
     for (name, t), ix in person_causes.items():
         causes_in[t].append((name, ix))
-    cause_of: dict[int, int] = {}
+    cause_of: dict[int, list[int]] = {}  # coverage line -> its causes, first first
     for line, rules in flagged.items():
         row = rows["coverage"].get(line)
         if (row is None or not rules <= KNOCK_ON_RULES or not _agrees(row)
@@ -194,8 +196,9 @@ def link_knock_ons(instance: Instance, plan: Plan, violations: Sequence[Violatio
                 continue
             causes += hired
         if causes:  # a row whose outputs agree differs only in figures edited by hand
-            cause_of[line] = min(causes)
-    return [replace(v, follows=violations[cause_of[line]])
+            cause_of[line] = sorted(set(causes))
+    return [replace(v, follows=violations[cause_of[line][0]],
+                    also_follows=tuple(violations[ix] for ix in cause_of[line][1:]))
             if v.rule in KNOCK_ON_RULES and (line := _line(v)) in cause_of else v
             for v in violations]
 

@@ -685,3 +685,53 @@ def test_hires_over_the_cap_are_counted_in_words(tiny_plan):
         replace(o, max_hires_per_period=0) if o.name == "B" else o for o in instance.offices))
     said = [str(v) for v in verify_plan(closed, result.plan) if v.rule == "max_hires"]
     assert said and all("1 hire starts; at most 0 allowed" in s for s in said), said
+
+
+def test_a_coverage_row_with_several_causes_is_under_the_first_and_names_the_others(tiny_plan):
+    # Hand-worked on tests/data/tiny: in 2027-Q2 a1 is detailed to B and b1 is based there,
+    # each with 1.0 review at B (work.csv:3 and :11).  Both moved to A: A's review row
+    # (coverage.csv:3) gets 0.8 (a2) + 1.0 + 1.0 = 2.8 for its 0.8, and B's (coverage.csv:8)
+    # 0 for its 2; each row follows from both moves.  It had been shown under the first
+    # alone, the other unnamed (a reviewer's reading of 25 moved rows of the demo plan).
+    from rebalance.report import format_violations
+
+    instance, result = tiny_plan
+    plan = result.plan
+    work = plan.work.copy()
+    work.loc[[1, 9], "office"] = "A"
+    found = verify_plan(instance, replace(plan, work=work))
+    first, second = [v for v in found if not v.follows]
+    assert (first.file, second.file) == ("work.csv:3", "work.csv:11")
+    assert {(v.file, v.follows, v.also_follows) for v in found if v.follows} == {
+        ("coverage.csv:3", first, (second,)), ("coverage.csv:8", first, (second,))}
+    lines = format_violations(found).splitlines()
+    assert lines[0] == ("verification failed: 2 problems; 5 figures in 2 coverage.csv rows "
+                        "differ because of them and are shown under the first problem each "
+                        "follows from")
+    assert lines[2] == ("      so coverage.csv:3: review at A in 2027-Q2: staff_output_fte "
+                        "0.800 but recomputed 2.800 (it also follows from b1)")
+    assert lines[3].endswith("with it (it also follows from b1)")
+    assert lines[4].startswith("  - work.csv:11: person b1 in 2027-Q2")
+
+
+def test_a_coverage_rows_other_causes_are_named_by_person_or_row_past_two_counted():
+    # The rule itself (no outside source): a person's name where a cause is about one, else
+    # its file and row; the first two named and the rest counted, once each.
+    from rebalance.report.console import problem_lines
+    from rebalance.verify import Violation
+    from rebalance.verify_causes import group_problems
+
+    people = [Violation("work_location", f"person p{n} in 2027-Q1", "works at B but is at A",
+                        file=f"work.csv:{n + 2}") for n in range(4)]
+    hire = Violation("hire_cost", "1 review at A from 2027-Q1", "count 2 disagrees",
+                     file="plans/x/hires.csv:2")
+    row = Violation("coverage_staff_output", "review at A in 2027-Q1", "staff_output_fte off",
+                    file="coverage.csv:2", follows=people[0],
+                    also_follows=(*people[1:], hire))
+    problem = group_problems([*people, hire, row])[0]
+    assert problem_lines(problem)[1] == [
+        "coverage.csv:2: review at A in 2027-Q1: staff_output_fte off (it also follows from "
+        "p1, p2 and 2 more)"]
+    fewer = replace(row, also_follows=(people[1], hire))
+    assert problem_lines(group_problems([*people, hire, fewer])[0])[1][0].endswith(
+        "(it also follows from p1 and hires.csv:2)")

@@ -6,6 +6,7 @@ import math
 import textwrap
 from collections.abc import Sequence
 from dataclasses import replace
+from pathlib import PurePath
 
 import numpy as np
 import pandas as pd
@@ -477,20 +478,17 @@ def format_frame(frame: pd.DataFrame, currency: str | None = None) -> str:
 
 def format_violations(violations: Sequence[Violation]) -> str:
     """The head line, then a line a problem (:func:`~rebalance.verify_causes.group_problems`):
-    a coverage.csv row only out of date because of an earlier problem is shown under it, one
-    line a row (a moved work row had read as nine problems), and the same seats excess at an
-    office over consecutive periods is one line (one extra hire had read as seven)."""
+    a coverage.csv row only out of date because of an earlier problem is shown under the first
+    it follows from, one line a row (a moved work row had read as nine problems), and the same
+    seats excess at an office over consecutive periods is one line (one extra hire had read as
+    seven)."""
     if not violations:
         return "verification passed: every rule and total checks out"
     problems = group_problems(violations)
     knock_ons = sum(len(group) for p in problems for group in p.under)
     head = f"verification failed: {counted(len(problems), 'problem')}"
     if knock_ons:
-        rows = sum(len(p.under) for p in problems)
-        one = len(problems) == 1
-        head += (f"; {counted(knock_ons, 'figure')} in {counted(rows, 'coverage.csv row')} "
-                 f"differ because of {'it' if one else 'them'} and are shown under "
-                 f"{'it' if one else 'the one each follows from'}")
+        head += f"; {_knock_on_words(problems, knock_ons)}"
     lines = [head]
     for problem in problems:
         text, under = problem_lines(problem)
@@ -498,16 +496,63 @@ def format_violations(violations: Sequence[Violation]) -> str:
     return "\n".join(lines)
 
 
+def _knock_on_words(problems: Sequence[Problem], knock_ons: int) -> str:
+    """How many coverage figures follow from the problems, and from how many: "1 figure ...
+    differ because of them" had read where one figure followed from one of several."""
+    problem_of = {v: ix for ix, p in enumerate(problems)
+                  for v in (*p.run, *(v for group in p.under for v in group))}
+    causes = {ix for ix, p in enumerate(problems) if p.under} | {
+        problem_of[cause] for p in problems for group in p.under for v in group
+        for cause in v.also_follows if cause in problem_of}
+    rows = sum(len(p.under) for p in problems)
+    one = knock_ons == 1
+    if len(problems) == 1:
+        because, under = "it", "it"
+    else:
+        because = ("one of them" if len(causes) == 1 else
+                   "them" if len(causes) == len(problems) else "some of them")
+        under = "it" if len(causes) == 1 else f"the first problem {'it' if one else 'each'} " \
+            "follows from"
+    return (f"{counted(knock_ons, 'figure')} in {counted(rows, 'coverage.csv row')} "
+            f"{'differs' if one else 'differ'} because of {because} and "
+            f"{'is' if one else 'are'} shown under {under}")
+
+
+# Other problems a coverage row follows from, named on its line before the rest are counted.
+ALSO_NAMED = 2
+
+
 def problem_lines(problem: Problem) -> tuple[str, list[str]]:
     """A problem's own line and one line for each coverage.csv row that follows from it (only
     a coverage figure ``follows`` another), in the console's words; a page's list can use the
-    same."""
+    same.  A row that also follows from other problems names them (by person, else by plan
+    row): it is listed under the first only."""
     under = []
     for first, *rest in problem.under:
         also = [other.message.split(" ", 1)[0] for other in rest]
         tail = f", and {_listed(also)} with it" if also else ""
+        others = _cause_names(first, *rest)
+        if others:
+            more = len(others) - ALSO_NAMED
+            named = others[:ALSO_NAMED] + ([f"{more} more"] if more > 1 else others[ALSO_NAMED:])
+            tail += f" (it also follows from {_listed(named)})"
         under.append(f"{first.file}: {first.where}: {first.message}{tail}")
     return _run_text(*problem.run), under
+
+
+def _cause_names(*figures: Violation) -> list[str]:
+    """The other causes of a coverage row's figures, each once and not the first's: a
+    person's name where the cause is about one, else its plan file and row."""
+
+    def name(cause: Violation) -> str:
+        words = cause.where.split(" ")
+        if words[0] == "person" and len(words) > 1:
+            return words[1]
+        return PurePath(cause.file).name or cause.where
+
+    first = {name(v.follows) for v in figures if v.follows is not None}
+    names = dict.fromkeys(name(cause) for v in figures for cause in v.also_follows)
+    return [n for n in names if n not in first]
 
 
 def _run_text(first: Violation, *rest: Violation) -> str:

@@ -129,3 +129,33 @@ def test_a_replans_verdict_counts_problems_as_the_summary_does():
                       file=f"coverage.csv:{q}", follows=cause) for q in range(1, 6)]
     text = format_outcome(replace(_tiny_result(), violations=(cause, *rows)), replan=True)
     assert "independent verification: FAILED (1 problem)" in text, text
+
+
+def test_the_head_line_agrees_with_its_counts_of_figures_and_problems():
+    # A reviewer read "1 figure in 1 coverage.csv row differ because of them": English
+    # agreement (common practice) of the verb with its count ("1 figure differs", "2 figures
+    # differ") and of the pronoun with the problems the figures follow from.
+    from rebalance.report.console import format_violations
+    from rebalance.verify import Violation
+
+    def work(line: int, person: str) -> Violation:
+        return Violation("work_location", f"person {person} in 2027-Q1", "works at B but is at A",
+                         file=f"work.csv:{line}")
+
+    a1, a2, a3 = work(2, "a1"), work(3, "a2"), work(4, "a3")
+    one = Violation("coverage_staff_output", "review at B in 2027-Q1", "staff_output_fte off",
+                    file="coverage.csv:7", follows=a1)
+    head = format_violations([a1, a2, one]).splitlines()[0]
+    assert head == ("verification failed: 2 problems; 1 figure in 1 coverage.csv row differs "
+                    "because of one of them and is shown under it")
+    # Both problems behind it, and two figures: "them", "the first problem each follows from".
+    both = Violation("coverage_staff_output", "review at A in 2027-Q1", "staff_output_fte off",
+                     file="coverage.csv:2", follows=a1, also_follows=(a2,))
+    head = format_violations([a1, a2, one, both]).splitlines()[0]
+    assert head == ("verification failed: 2 problems; 2 figures in 2 coverage.csv rows differ "
+                    "because of them and are shown under the first problem each follows from")
+    # Two of three problems behind one figure: "some of them", "it".
+    head = format_violations([a1, a2, a3, both]).splitlines()[0]
+    assert head == ("verification failed: 3 problems; 1 figure in 1 coverage.csv row differs "
+                    "because of some of them and is shown under the first problem it follows "
+                    "from")

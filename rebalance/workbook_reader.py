@@ -171,7 +171,8 @@ def read_workbook(path: str | Path) -> Instance:
 
         said = [(p, _relabel(p, book, title, key_rows, dates, periods_sheet, unknown_rows))
                 for p in exc.problems]
-        raise InstanceError([p for source, p in said if kept(source, p)]) from None
+        raise InstanceError(_in_row_order([p for source, p in said if kept(source, p)],
+                                          label(SETTINGS_SHEET))) from None
     warnings = tuple(str(_relabel(p, book, title, key_rows, dates, periods_sheet,
                                   unknown_rows)) for p in problems if p.is_warning)
     return instance.with_changes(warnings=warnings)
@@ -454,19 +455,22 @@ def _settings(sheet: _Sheet, label: str, problems: list[Problem],
     if "key" not in columns or "value" not in columns:
         return settings, key_rows, dates
     key_at, value_at = columns.index("key"), columns.index("value")
+    # Keys ignoring case, as the column names are: "Horizon.Start" had been refused.
+    known = {k.lower(): k for k in SETTINGS_KEYS}
     unknown: list[tuple[int, str]] = []  # (index in problems, key) of each unknown key's warning
     for i, cells in enumerate(sheet.raw_rows):
         row_number = i + 2
         padded = list(cells) + [None] * (max(key_at, value_at) + 1 - len(cells))
-        key, value = _text(padded[key_at]), padded[value_at]
+        written, value = _text(padded[key_at]), padded[value_at]
+        key = known.get(written.lower(), written)
         if key == "":
             if value not in (None, ""):
                 problems.append(Problem(label, row_number, "key", "is empty but a value is "
                                         "given; expected a key such as solver.time_limit_seconds"))
             continue
         if key in key_rows:
-            problems.append(Problem(label, row_number, "key", f"'{key}' is listed twice (first "
-                                    f"at row {key_rows[key]})"))
+            problems.append(Problem(label, row_number, "key", f"'{written}' is listed twice "
+                                    f"(first at row {key_rows[key]})"))
             continue
         if key not in SETTINGS_KEYS:
             unknown.append((len(problems), key))
@@ -489,6 +493,13 @@ def _settings(sheet: _Sheet, label: str, problems: list[Problem],
         if words := typo_words(key, given, dotted=True):
             problems[at] = replace(problems[at], message=f"{key}: {words}", is_warning=False)
     return settings, key_rows, dates
+
+
+def _in_row_order(problems: list[Problem], sheet: str) -> list[Problem]:
+    """``problems`` with those of ``sheet`` in row order, in the places they held (the
+    sheet's own had come first: row 5's unknown key before row 2's missing setting)."""
+    ordered = iter(sorted((p for p in problems if p.file == sheet), key=lambda p: p.row or 0))
+    return [next(ordered) if p.file == sheet else p for p in problems]
 
 
 def _periods(sheet: _Sheet, label: str, settings: dict[str, Any],

@@ -797,3 +797,35 @@ def test_a_misspelt_required_setting_is_one_problem_on_its_row(tmp_path):
                       "horizon.hours_per_fte (horizon.hours_per_fet may be meant as "
                       "horizon.hours_per_fte)" for row in range(2, 6)]
     assert not any("unknown key" in g for g in got), got
+
+
+def test_settings_keys_are_read_whatever_their_case_and_problems_in_row_order(tmp_path):
+    # A reviewer's check: "Horizon.Start" was refused (key unknown, horizon.start missing)
+    # where column names are read ignoring case; common practice, as for the headers
+    # (test_column_names_are_read_whatever_their_case): the same word whatever its case.
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    start = _settings_row(wb["settings"], "horizon.start")
+    wb["settings"].cell(start, 1).value = "Horizon.Start"
+    wb.save(book)
+    instance = read_workbook(book)
+    assert instance.period_names == read_instance(TINY).period_names
+    assert not instance.warnings
+    # The same key twice, whatever its case, is one key listed twice.
+    wb["settings"].append(["HORIZON.START", "2027-Q1"])
+    wb.save(book)
+    with pytest.raises(InstanceError) as caught:
+        read_workbook(book)
+    assert [str(p) for p in caught.value.problems] == [
+        f"tiny.xlsx[settings]:{wb['settings'].max_row}: key: 'HORIZON.START' is listed twice "
+        f"(first at row {start})"]
+
+    # Row order: a misspelt key (an error: the key it is close to is not given) below a value
+    # the instance's reader refuses had been listed first, row 5 before row 2 in the demo.
+    def edit(wb):
+        wb["settings"].cell(_settings_row(wb["settings"], "horizon.start"), 2).value = "soon"
+        wb["settings"].cell(_settings_row(wb["settings"], "policy.max_away_share"), 1).value = (
+            "policy.max_away_shar")
+
+    rows = [p.row for p in _edited_book(tmp_path, edit) if p.file == "tiny.xlsx[settings]"]
+    assert len(rows) == 2 and rows == sorted(rows), rows

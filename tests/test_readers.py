@@ -873,3 +873,30 @@ def test_column_names_are_read_whatever_their_case_and_spaces(tmp_path):
         "offices.csv:1: location: required column is missing",
         "offices.csv:1: Office: unknown column (expected one of: office, location, seats, "
         "max_hires_per_period) (did you mean 'office'?)"]
+
+
+def test_what_a_misspelt_key_leaves_in_force_is_the_readers_own_default(tmp_path):
+    # The error for a misspelt optional key says the default it leaves in force
+    # (settings_reader.DEFAULT_MEANINGS); read here from an instance that sets none of them,
+    # so the words cannot drift from the defaults the reader applies.
+    from rebalance.settings_reader import DEFAULT_MEANINGS
+
+    target = valid_copy(tmp_path)
+    (target / "settings.toml").write_text(
+        '[horizon]\nstart = "2027-Q1"\ncount = 4\nhours_per_fte = 480\n')
+    read = read_instance(target)
+    applied = {
+        "policy.max_away_share": f"{read.policy.max_away_share:.1f}: no cap",
+        "policy.max_consecutive_detail_periods": "none: no limit"
+        if read.policy.max_consecutive_detail_periods is None else "",
+        "objective.mode": f"{read.objective.mode}: least shortfall, then least cost",
+        "objective.shortfall_cost": f"{read.objective.shortfall_cost:,.0f} a priority-weighted "
+                                    "FTE-period short",
+        "objective.shortfall_tolerance": f"{read.objective.shortfall_tolerance:g}".replace(
+            "e-06", "e-6"),
+        "solver.name": read.solver.name,
+        "solver.time_limit_seconds": f"{read.solver.time_limit_seconds:g}",
+        "solver.relative_gap": f"{read.solver.relative_gap:g}",
+        "solver.threads": str(read.solver.threads), "solver.seed": str(read.solver.seed),
+    }
+    assert {k: DEFAULT_MEANINGS[k] for k in applied} == applied

@@ -318,7 +318,7 @@ def cmd_generate(args: argparse.Namespace) -> int:
 
 
 def cmd_workbook(args: argparse.Namespace) -> int:
-    from rebalance.workbook_writer import folder_to_workbook, sheet_rows
+    from rebalance.workbook_writer import folder_to_workbook
 
     out = Path(args.out)
     # Refused before the folder is read, as other outputs are before a solve.
@@ -340,12 +340,12 @@ def cmd_workbook(args: argparse.Namespace) -> int:
         return EXIT_INVALID_INPUT
     for warning in instance.warnings:
         _err(f"warning: {warning}")
+    rows: dict[str, int] = {}
     try:
-        folder_to_workbook(args.folder, out)
+        folder_to_workbook(args.folder, out, rows)
     except OSError as exc:  # a file where a folder on the way should be, no permission
         _err(f"{out}: cannot be written ({exc.strerror or exc}); nothing was written")
         return EXIT_USAGE
-    rows = sheet_rows(out)
     print(f"wrote {out}: {len(rows)} sheets ({', '.join(rows)}), "
           f"{sum(rows.values()):,} rows below their column names")
     return EXIT_OK

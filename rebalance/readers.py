@@ -179,8 +179,9 @@ def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, 
         return None if broken else defined
 
     office_rows: dict[str, int] = {}
+    skill_rows: dict[str, int] = {}
     offices = _read_offices(table("offices"), problems, office_rows)
-    skills = _read_skills(table("skills"), problems)
+    skills = _read_skills(table("skills"), problems, skill_rows)
     known_offices, known_skills = names(offices, "offices"), names(skills, "skills")
     known_periods = None if unread else known_period_names(settings, periods)
     staff = _read_staff(table("staff"), problems, known_offices, known_skills, known_periods)
@@ -215,11 +216,12 @@ def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, 
         money=money,
     )
     # Appended to ``problems``, not only returned: the workbook reader relabels them from there.
-    problems += _data_warnings(instance, office_rows)
+    problems += _data_warnings(instance, office_rows, skill_rows)
     return instance.with_changes(warnings=tuple(str(p) for p in problems if p.is_warning))
 
 
-def _data_warnings(instance: Instance, office_rows: Mapping[str, int]) -> list[Problem]:
+def _data_warnings(instance: Instance, office_rows: Mapping[str, int],
+                   skill_rows: Mapping[str, int]) -> list[Problem]:
     """What sound tables still say that a planner would want to hear before solving."""
     out: list[Problem] = []
     staffed_skills = {s for p in instance.staff for s, _ in p.skills}
@@ -231,13 +233,11 @@ def _data_warnings(instance: Instance, office_rows: Mapping[str, int]) -> list[P
                                f"nobody on staff has skill '{d.skill}'; only hires can "
                                "cover it", is_warning=True))
     T = len(instance.periods)
-    for row, skill in enumerate(instance.skills, 2):
-        if skill.time_to_hire >= T:
-            # Likely a typo (9 for 2 quarters): the skill can then never be hired.
-            out.append(Problem("skills.csv", row, "time_to_hire",
-                               f"{skill.time_to_hire} periods for '{skill.name}' is the whole "
-                               f"horizon ({T} periods) or more: no hire of it can start",
-                               is_warning=True))
+    # Likely a typo (9 for 2 quarters): the skill can then never be hired.
+    for skill in (s for s in instance.skills if s.time_to_hire >= T):
+        out.append(Problem("skills.csv", skill_rows.get(skill.name), "time_to_hire",
+                           f"{skill.time_to_hire} periods for '{skill.name}' is the whole horizon "
+                           f"({T} periods) or more: no hire of it can start", is_warning=True))
     # A period with no rows among periods with some is more likely rows lost than no work.
     with_demand = {d.period for d in instance.demand}
     empty = [p.name for t, p in enumerate(instance.periods) if t not in with_demand]
@@ -342,9 +342,9 @@ def _read_offices(table: RawTable, problems: list[Problem],
     return out
 
 
-def _read_skills(table: RawTable, problems: list[Problem]) -> dict[str, Skill]:
+def _read_skills(table: RawTable, problems: list[Problem],
+                 seen: dict[str, int]) -> dict[str, Skill]:
     rows, out = TableRows(table, problems, COLUMNS["skills"]), {}
-    seen: dict[str, int] = {}
     for row in rows:
         name = rows.text(row, "skill")
         if name is not None and not SKILL_NAME.match(name):

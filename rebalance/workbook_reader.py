@@ -40,11 +40,9 @@ from rebalance.workbook_writer import (
     PERIOD_COLUMNS,
     PERIODS_SHEET,
     SETTINGS_SHEET,
-    folder_to_workbook,
 )
 
-# folder_to_workbook lives in rebalance.workbook_writer; it stays importable from here.
-__all__ = ["SETTINGS_KEYS", "folder_to_workbook", "read_workbook"]
+__all__ = ["read_workbook"]
 # Columns that hold period names, by sheet: text, never a date.
 _PERIOD_CELLS = {"demand": ("period",), "staff": ("last_period",), PERIODS_SHEET: ("name",)}
 # Columns that hold budget years (names such as 2027 or FY27): never a date either.

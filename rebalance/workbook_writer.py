@@ -19,8 +19,7 @@ from rebalance.files import sibling_name
 from rebalance.readers import OPTIONAL_TABLES, REQUIRED_TABLES
 from rebalance.settings_reader import SETTINGS_KEYS
 
-__all__ = ["NUMBER", "PERIODS_SHEET", "PERIOD_COLUMNS", "SETTINGS_SHEET", "folder_to_workbook",
-           "sheet_rows"]
+__all__ = ["NUMBER", "PERIODS_SHEET", "PERIOD_COLUMNS", "SETTINGS_SHEET", "folder_to_workbook"]
 
 SETTINGS_SHEET = "settings"
 PERIODS_SHEET = "periods"
@@ -29,12 +28,15 @@ PERIOD_COLUMNS = ("name", "year", "hours_per_fte")
 NUMBER = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
 
 
-def folder_to_workbook(folder: str | Path, path: str | Path) -> Path:
+def folder_to_workbook(folder: str | Path, path: str | Path,
+                       rows: dict[str, int] | None = None) -> Path:
     """Copy an instance folder's files, cell for cell, into one workbook at ``path``.
 
     The files are copied as written, not as validated, so the workbook reads back to the same
     instance (and to the same problems, if the folder has any).  Numbers stay text-exact:
-    a cell holding ``0.15`` is stored as the number 0.15.
+    a cell holding ``0.15`` is stored as the number 0.15.  ``rows``, if given, is filled once
+    the book is saved with the filled rows below each sheet's header, by sheet name in the
+    book's order (counted from the book as saved, so the file need not be read back).
     """
     from openpyxl import Workbook
     from openpyxl.styles import Font
@@ -84,20 +86,10 @@ def folder_to_workbook(folder: str | Path, path: str | Path) -> Path:
     except BaseException:
         tmp.unlink(missing_ok=True)
         raise
+    if rows is not None:
+        rows.update({ws.title: sum(1 for cells in ws.iter_rows(min_row=2, values_only=True)
+                                   if any(c is not None for c in cells)) for ws in wb.worksheets})
     return target
-
-
-def sheet_rows(path: str | Path) -> dict[str, int]:
-    """The filled rows below the header of each sheet of the workbook at ``path``, by sheet
-    name in the book's order (read back from the file, not taken from what was meant)."""
-    from openpyxl import load_workbook
-
-    book = load_workbook(path, read_only=True)
-    try:
-        return {ws.title: sum(1 for cells in ws.iter_rows(min_row=2, values_only=True)
-                              if any(c is not None for c in cells)) for ws in book.worksheets}
-    finally:
-        book.close()
 
 
 # Columns stored as numbers; names, ids, years and periods stay text so "0042" keeps its zeros.

@@ -275,7 +275,7 @@ def test_outputs_that_would_land_in_an_instance_are_refused(tmp_path, capsys):
     # README: -o holding the instance itself is refused before any solve.  frontier adds
     # frontier.csv to any other folder, so an instance is what it must not write into.
     from rebalance.cli import EXIT_USAGE
-    from rebalance.workbook_reader import folder_to_workbook
+    from rebalance.workbook_writer import folder_to_workbook
 
     copy = tmp_path / "copy"
     shutil.copytree(DATA / "tiny", copy)

@@ -122,6 +122,18 @@ def test_warnings_do_not_stop_a_solve(tmp_path):
             "some: were rows left out?") in text
 
 
+def test_a_time_to_hire_warning_names_the_skills_own_row(tmp_path):
+    # A code review: the row was counted from the skills read, so a blank line (or a
+    # workbook's header below row 1) shifted it. Hand count: header 1, blank 2, review 3.
+    target = overlay(BAD / "empty_demand", tmp_path / "i")
+    shutil.copy(DATA / "tiny" / "demand.csv", target / "demand.csv")
+    (target / "skills.csv").write_text("skill,salary_per_period,onboarding_cost,time_to_hire,"
+                                       "ramp\n\nreview,20000,8000,9,0.5\nintake,15000,5000,1,\n")
+    warnings = [w for w in read_instance(target).warnings if ": time_to_hire: " in w]
+    assert warnings == ["skills.csv:3: time_to_hire: 9 periods for 'review' is the whole "
+                        "horizon (4 periods) or more: no hire of it can start"]
+
+
 SEATS = DATA / "seats_short"
 
 

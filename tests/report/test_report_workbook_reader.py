@@ -14,7 +14,9 @@ import pytest
 from openpyxl import load_workbook
 
 from rebalance.readers import InstanceError, read_instance
-from rebalance.workbook_reader import SETTINGS_KEYS, folder_to_workbook, read_workbook
+from rebalance.settings_reader import SETTINGS_KEYS
+from rebalance.workbook_reader import read_workbook
+from rebalance.workbook_writer import folder_to_workbook
 
 TESTS = Path(__file__).resolve().parent.parent
 ROOT = TESTS.parent

@@ -16,7 +16,7 @@ import numpy as np
 import pandas as pd
 
 from rebalance.analysis.limits import LimitUse, hire_rows
-from rebalance.analysis.reasons import Reasons, _Context
+from rebalance.analysis.reasons import _EPS, Reasons, _Context, _floats, _texts
 from rebalance.analysis.scenario_actions import main_skills
 from rebalance.instance import Instance, Person
 from rebalance.numbers import number_text
@@ -26,7 +26,6 @@ __all__ = ["BASE_AND_SCENARIO", "FORCED", "OLD_AND_NEW", "PlanNames", "work_on_c
 
 # How a reason the data force begins (docs/analysis.md, "changes.csv").
 FORCED = "forced by the data"
-_EPS = 1e-6
 
 _Key = tuple[str, str, int]  # office, skill, period index
 
@@ -42,14 +41,6 @@ class PlanNames:
 
 OLD_AND_NEW = PlanNames()
 BASE_AND_SCENARIO = PlanNames("the base plan", "the scenario's plan")
-
-
-def _texts(column: pd.Series) -> list[str]:
-    return column.astype(str).tolist()
-
-
-def _floats(column: pd.Series) -> list[float]:
-    return column.astype(float).tolist()
 
 
 def _visitors(plan: Plan, ix: dict[str, int]) -> dict[_Key, dict[str, float]]:
@@ -155,10 +146,9 @@ def _people(names: Sequence[str]) -> str:
 class _Facts:
     """Both plans' figures, indexed once for every row."""
 
-    def __init__(self, instance: Instance, old: Plan, new: Plan, at: int,
-                 new_reasons: Reasons, plans: PlanNames) -> None:
+    def __init__(self, instance: Instance, old: Plan, new: Plan, new_reasons: Reasons,
+                 plans: PlanNames) -> None:
         self.i = instance
-        self.at = at
         self.plans = plans
         self.names = instance.period_names
         self.ix = {n: t for t, n in enumerate(self.names)}

@@ -29,16 +29,13 @@ from rebalance.analysis.change_facts import (
     PlanNames,
     _Facts,
     _people,
-    _texts,
 )
-from rebalance.analysis.reasons import Reasons, _describe, _fte
+from rebalance.analysis.reasons import _EPS, Reasons, _describe, _fte, _texts
 from rebalance.instance import Instance
 from rebalance.numbers import money_amount
 from rebalance.plan import Plan
 
 __all__ = ["BASE_AND_SCENARIO", "FORCED", "OLD_AND_NEW", "PlanNames", "change_reasons"]
-
-_EPS = 1e-6
 
 
 # -- forced changes: the data leave the old decision no place (replan_model's `forced`) ---------
@@ -393,16 +390,16 @@ def _moved_hire(f: _Facts, office: str, skill: str, funding: str, s_old: int,
 
 # -- the column ---------------------------------------------------------------------------------
 
-def change_reasons(instance: Instance, old: Plan, new: Plan, at: int, changes: pd.DataFrame,
+def change_reasons(instance: Instance, old: Plan, new: Plan, changes: pd.DataFrame,
                    new_reasons: Reasons, plans: PlanNames = OLD_AND_NEW) -> list[str]:
     """One short reason per row of ``changes`` (``replan``'s ``CHANGE_COLUMNS`` but
-    ``reason``), from the re-plan's ``instance``, the ``old`` and ``new`` plans, the re-plan
-    period index ``at`` and the new plan's ``new_reasons`` (:func:`reasons` of it).
+    ``reason``), from the re-plan's ``instance``, the ``old`` and ``new`` plans and the new
+    plan's ``new_reasons`` (:func:`reasons` of it).
 
     ``plans``: what the reasons call the two plans (``compare`` passes
-    :data:`BASE_AND_SCENARIO`, with the base plan as ``old``, the scenario's as ``new``, its
-    data as ``instance`` and ``at`` 0)."""
-    f = _Facts(instance, old, new, at, new_reasons, plans)
+    :data:`BASE_AND_SCENARIO`, with the base plan as ``old``, the scenario's as ``new`` and
+    its data as ``instance``)."""
+    f = _Facts(instance, old, new, new_reasons, plans)
     out = []
     for change, kind, who, skill, period, before, after in zip(
             *(_texts(changes[c]) for c in ("change", "kind", "who", "skill", "period", "old",
@@ -424,7 +421,7 @@ def change_reasons(instance: Instance, old: Plan, new: Plan, at: int, changes: p
                 text = ((f"in place of {before}: " if change == "changed" else "")
                         + f.move_why.get(who, "no reason found for it in reasons.csv (review)"))
                 if change == "changed":
-                    route, _, when = before.partition(" from ")
+                    _, _, when = before.partition(" from ")
                     forced = _move_ruled_out(f, who, f.ix[when])
                     text = f"{forced}; {text}" if forced else text
         else:

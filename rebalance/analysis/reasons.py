@@ -161,10 +161,10 @@ def _gap_words(skill: str, office: str, names: tuple[str, ...], t1: int, t2: int
             f"{_span(names, t1, t2)}")
 
 
-def _move_words(instance: Instance, person: str, a: str, b: str, skill: str, need: int,
+def _move_words(instance: Instance, a: str, b: str, skill: str, need: int,
                 left: list[int], cost: float, seats_full: list[int],
                 share_full: list[int]) -> str:
-    """Why ``person`` is reassigned from ``a`` to ``b`` for the periods ``left`` (present
+    """Why a person is reassigned from ``a`` to ``b`` for the periods ``left`` (present
     from the move on): the periods ``skill`` work at ``b`` needs them, ``a``'s full seats
     a move frees for good, an away share at its cap a detail would count against, and the
     move's cost against detailing them instead.  "needs them in 0 of the 2 periods ...: a
@@ -346,7 +346,7 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
         skill_gaps = {k: sum(1 for t in left if ctx.gap_without(p, b, k, t) > _EPS)
                       for k, _ in person.skills}
         skill = max(skill_gaps, key=lambda k: skill_gaps[k])
-        text = _move_words(instance, p, a, b, skill, skill_gaps[skill], left, cost,
+        text = _move_words(instance, a, b, skill, skill_gaps[skill], left, cost,
                            [t for t in left if (a, names[t]) in seats_full],
                            [t for t in left if (a, names[t]) in share_full])
         rows.append(("reassignment", p, b, skill, per, names[T - 1], 1.0, text, ""))

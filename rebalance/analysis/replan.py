@@ -24,7 +24,7 @@ import pandas as pd
 
 from rebalance.analysis.change_facts import work_on_current_data
 from rebalance.analysis.change_reasons import change_reasons
-from rebalance.analysis.reasons import reasons
+from rebalance.analysis.reasons import Reasons, reasons
 from rebalance.analysis.replan_checks import PastWork, ReplanError, _checked_past
 from rebalance.analysis.replan_model import (
     DisruptionCosts,
@@ -69,6 +69,9 @@ class Replan:
     disruption_cost: float
     old_plan_violations: tuple[str, ...]
     notes: tuple[str, ...] = ()
+    # The new plan's own reasons (``reasons.csv``), worked out once for the change reasons
+    # and kept for the writer; None without a new plan.
+    reasons: Reasons | None = None
 
 
 def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
@@ -108,10 +111,11 @@ def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
     # prices and horizon (a longer one adds years and salary periods): only its rules count.
     old_violations = tuple(str(v) for v in verified
                            if not v.rule.startswith("coverage") and v.rule not in BOOKKEEPING)
+    new_reasons = None
     if result.plan is not None:
         changes = _changes(instance, old, result.plan, costs)
-        changes["reason"] = change_reasons(instance, old, result.plan, at, changes,
-                                           reasons(instance, result.plan, replanned_at=at))
+        new_reasons = reasons(instance, result.plan, replanned_at=at)
+        changes["reason"] = change_reasons(instance, old, result.plan, changes, new_reasons)
     else:
         changes = pd.DataFrame(columns=list(CHANGE_COLUMNS))
     # Priced from the person-level change table; equal to the model's change columns plus
@@ -119,7 +123,7 @@ def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
     disruption = float(changes["disruption_cost"].sum()) if len(changes) else 0.0
     summary = _summary(instance, old, result.plan, changes, disruption, at)
     return Replan(at, result, changes, summary, disruption, old_violations,
-                  tuple(idle + notes + _past_work_idle(instance, past_work)))
+                  tuple(idle + notes + _past_work_idle(instance, past_work)), new_reasons)
 
 
 def _idle_runs(instance: Instance, kept: list[DetailRoute]) -> list[str]:

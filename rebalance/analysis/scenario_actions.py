@@ -237,7 +237,7 @@ SUMMARY_COLUMNS = ("details_added", "hires_changed", "changes_before")
 
 
 def action_summary(base: Plan, plan: Plan, periods: Sequence[str], changed: Sequence[int],
-                   offices: Sequence[str]) -> dict[str, Any]:
+                   offices: Sequence[str], rows: Sequence[tuple[Any, ...]]) -> dict[str, Any]:
     """Who moves for a scenario, for its row of ``scenarios.csv`` (a planner's reading: the
     rows of ``scenario_actions.csv`` were there, summed up nowhere).
 
@@ -248,7 +248,8 @@ def action_summary(base: Plan, plan: Plan, periods: Sequence[str], changed: Sequ
     of :func:`hire_changes` as ``change|office|skill|funding|start|base|scenario|moved_from``
     (change: ``more``, ``fewer``, or a move ``earlier`` or ``later``).
     ``changes_before``: the rows of :func:`action_rows` that fall before the scenario's
-    changes begin (the solver's noise or its anticipation)."""
+    changes begin (the solver's noise or its anticipation); ``rows``: those rows of the two
+    plans, as the caller has them already."""
     ix = {p: t for t, p in enumerate(periods)}
     a, b = plan_actions(base), plan_actions(plan)
     first = min(changed) if changed else len(periods)
@@ -269,8 +270,7 @@ def action_summary(base: Plan, plan: Plan, periods: Sequence[str], changed: Sequ
     details = sorted(counts.items(), key=lambda kv: (-into[kv[0][0]], kv[0][0], -kv[1],
                                                      kv[0][1]))
     hires = hire_changes(a.hires, b.hires, lambda period: ix.get(period, -1))
-    before = sum(1 for row in action_rows("", base, plan, periods, changed)
-                 if row[ACTION_COLUMNS.index("when")] == "before")
+    before = sum(1 for row in rows if row[ACTION_COLUMNS.index("when")] == "before")
     return {
         "details_added": ";".join(f"{to}|{home}|{n}" for (to, home), n in details),
         "hires_changed": ";".join(f"{_hire_change(c, ix)}|{c.office}|{c.skill}|{c.funding}|"

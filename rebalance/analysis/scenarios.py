@@ -47,6 +47,7 @@ __all__ = [
     "compare_scenarios",
     "held_back_by",
     "plan_actions",
+    "shortfall_by_cell",
 ]
 
 OFFICE_COLUMNS = ("scenario", "office", "demand_fte_periods", "shortfall_fte_periods",
@@ -113,25 +114,31 @@ LIMITS_SAID = 3
 HELD_BACK_COLUMN = "held_back_by"
 
 
-def held_back_by(variant: Instance, table: pd.DataFrame, base: Plan | None,
-                 offices: Sequence[str]) -> str:
+def shortfall_by_cell(base: Plan) -> dict[tuple[str, str, str], float]:
+    """(office, skill, period) -> ``base``'s shortfall FTE there, summed from its coverage
+    table once for every scenario's :func:`held_back_by`."""
+    before: dict[tuple[str, str, str], float] = {}
+    c = base.coverage
+    for key, short in zip(zip(c["office"].astype(str), c["skill"].astype(str),
+                              c["period"].astype(str), strict=True),
+                          c["shortfall_fte"].astype(float), strict=True):
+        before[key] = before.get(key, 0.0) + short
+    return before
+
+
+def held_back_by(variant: Instance, table: pd.DataFrame,
+                 before: dict[tuple[str, str, str], float], offices: Sequence[str]) -> str:
     """The limits the scenario's new shortfall at ``offices`` cites most (``reasons.csv``'s
     ``binding_limits`` of its plan), for ``scenarios.csv``: a planner's reading found the
     harbour surge's 19.9 FTE-periods left short explained only in the scenario's folder.
 
     A shortfall row weighs what it is above the base plan's shortfall in the same office,
-    skill and period.  A limit is its kind and office (a budget: its kind, every year
-    together), ranked by the weight of the rows citing it; at most :data:`LIMITS_SAID`, as
+    skill and period (``before``: :func:`shortfall_by_cell` of the base plan).  A limit is
+    its kind and office (a budget: its kind, every year together), ranked by the weight of
+    the rows citing it; at most :data:`LIMITS_SAID`, as
     ``kind|where,where|period,period|fte`` joined by ``;`` (periods in horizon order).
     ``table``: the scenario plan's reasons table (:func:`~rebalance.analysis.reasons.reasons`,
     worked out once, as its folder's reasons.csv)."""
-    before: dict[tuple[str, str, str], float] = {}
-    if base is not None:
-        c = base.coverage
-        for key, short in zip(zip(c["office"].astype(str), c["skill"].astype(str),
-                                  c["period"].astype(str), strict=True),
-                              c["shortfall_fte"].astype(float), strict=True):
-            before[key] = before.get(key, 0.0) + short
     rows = table[(table["action"] == "shortfall") & table["office"].astype(str).isin(offices)]
     weight: dict[tuple[str, str], float] = {}
     wheres: dict[tuple[str, str], set[str]] = {}
@@ -278,6 +285,7 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
         variants[1:], options, workers, start=base.plan, names=names[1:])]]
     descriptions = {"base": BASE_DESCRIPTION, **{s.name: s.description for s in scenarios}}
     base_plan = results[0].plan
+    base_short = shortfall_by_cell(base_plan) if base_plan is not None else {}
     changed = {s.name: changed_periods(instance, s) for s in scenarios}
     offices_of = {s.name: changed_offices(instance, s) for s in scenarios}
     rows = []
@@ -306,11 +314,11 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
                 # Why, as a re-plan's changes.csv says it: the base plan as the old plan, on
                 # the scenario's data, from the first period (the scenario's solve only starts
                 # from the base plan; it may change any period, changes_before counts those).
-                action_reasons += change_reasons(variant, base_plan, result.plan, 0,
+                action_reasons += change_reasons(variant, base_plan, result.plan,
                                                  change_rows(found), why, BASE_AND_SCENARIO)
                 summary = action_summary(base_plan, result.plan, instance.period_names,
-                                         changed[name], offices_of[name])
-                summary[HELD_BACK_COLUMN] = held_back_by(variant, explained[name], base_plan,
+                                         changed[name], offices_of[name], found)
+                summary[HELD_BACK_COLUMN] = held_back_by(variant, explained[name], base_short,
                                                          offices_of[name])
             c = result.plan.costs
             for year, kind, cost in zip(c["year"].astype(str), c["kind"].astype(str),

@@ -401,7 +401,7 @@ def test_a_moves_cost_against_details_says_more_as_much_or_less_as_the_figures_a
 
     instance = read_instance(DATA / "seats_short")
     details = instance.detail_cost_per_period("A", "B") * 2
-    said = {cost: _move_words(instance, "a5", "A", "B", "review", 2, [0, 1], cost, [], [])
+    said = {cost: _move_words(instance, "A", "B", "review", 2, [0, 1], cost, [], [])
             for cost in (details * 2, details, details / 2)}
     money = {cost: money_amount(cost, instance.money.currency) for cost in (*said, details)}
     tail = f"detailing them for all of it ({money[details]})"

@@ -208,14 +208,15 @@ def test_each_scenario_line_says_where_demand_landed_how_much_is_covered_and_the
     assert "within the solves' gaps" not in line  # exact solves: no gap to be within
     # Who moves and what holds the shortfall back: scenarios.csv's keys, worked out from the
     # two plans (tests above count them by hand).
-    from rebalance.analysis.scenario_actions import action_summary
-    from rebalance.analysis.scenarios import held_back_by
+    from rebalance.analysis.scenario_actions import action_rows, action_summary
+    from rebalance.analysis.scenarios import held_back_by, shortfall_by_cell
 
-    keys = action_summary(base, rush, tiny.period_names, (0, 1, 2, 3), ("B",))
+    keys = action_summary(base, rush, tiny.period_names, (0, 1, 2, 3), ("B",),
+                          action_rows("b-rush", base, rush, tiny.period_names, (0, 1, 2, 3)))
     assert {k: row[k] for k in keys} == keys
     rushed = comparison.results[1].instance
-    assert row["held_back_by"] == held_back_by(rushed, reasons(rushed, rush).table, base,
-                                               ("B",))
+    assert row["held_back_by"] == held_back_by(rushed, reasons(rushed, rush).table,
+                                               shortfall_by_cell(base), ("B",))
     assert "; moves for it: " in line
 
 
@@ -523,7 +524,7 @@ def test_a_vacancy_hire_moved_within_its_year_is_not_held_back_by_the_budget(tin
 
     old, new = filled("2027-Q3"), filled("2027-Q4")
     found = action_rows("later", old, new, PERIODS, ())
-    (why,) = change_reasons(funded, old, new, 0, change_rows(found), reasons(funded, new),
+    (why,) = change_reasons(funded, old, new, change_rows(found), reasons(funded, new),
                             BASE_AND_SCENARIO)
     assert why.startswith(
         "starts in 2027-Q4 instead of 2027-Q3; B's review demand above its staff's output "
@@ -537,7 +538,7 @@ def test_a_vacancy_hire_moved_within_its_year_is_not_held_back_by_the_budget(tin
 # scenario folder's reasons.csv.
 
 def test_action_summary_of_hand_made_plans() -> None:
-    from rebalance.analysis.scenario_actions import action_summary
+    from rebalance.analysis.scenario_actions import action_rows, action_summary
 
     base = _plan(details=[("p1", "2027-Q2", "A", "B"), ("p2", "2027-Q3", "C", "B"),
                           ("p9", "2027-Q4", "A", "B")],
@@ -552,13 +553,15 @@ def test_action_summary_of_hand_made_plans() -> None:
     # Into B from then on: p3 and p4 from A, p5 from C (p1 and p2 as in the base; p6 is
     # before; p7 goes to C; p10 takes p9's place on the same run in 2027-Q4).  B's hire
     # starts two periods earlier; A gets two more.  Before: p6's detail, one row.
-    assert action_summary(base, plan, PERIODS, (1, 2), ("B",)) == {
+    found = action_rows("s", base, plan, PERIODS, (1, 2))
+    assert action_summary(base, plan, PERIODS, (1, 2), ("B",), found) == {
         "details_added": "B|A|2;B|C|1",
         "hires_changed": ("more|A|intake|new|2027-Q3|0|2|;"
                           "earlier|B|review|new|2027-Q2|1|1|2027-Q4"),
         "changes_before": 1}
     # Other offices' demand: nothing sent to C counts for B's, and the other way round.
-    assert action_summary(base, plan, PERIODS, (1, 2), ("C",))["details_added"] == "C|A|1"
+    assert action_summary(base, plan, PERIODS, (1, 2), ("C",), found)["details_added"] == (
+        "C|A|1")
 
 
 def test_the_scenario_line_says_who_moves_and_what_holds_the_shortfall_back() -> None:
@@ -602,7 +605,7 @@ def test_the_scenario_line_says_who_moves_and_what_holds_the_shortfall_back() ->
 
 
 def test_held_back_by_ranks_the_limits_the_new_shortfall_cites(tiny) -> None:
-    from rebalance.analysis.scenarios import held_back_by
+    from rebalance.analysis.scenarios import held_back_by, shortfall_by_cell
     from rebalance.plan import cost_table, coverage_table
 
     # tests/data/tiny with 1.0 more review at B in 2027-Q3 and 2027-Q4.  Hand-made plans:
@@ -635,9 +638,10 @@ def test_held_back_by_ranks_the_limits_the_new_shortfall_cites(tiny) -> None:
     # intake from 2027-Q4, costs 5,000 + 15,000); 2027-Q4 also A's away share (1 of 3 away,
     # 50%) and B's one hiring slot then.  Ties: by kind.
     explained = reasons(variant, mine).table
-    assert held_back_by(variant, explained, base, ("B",)) == (
+    assert held_back_by(variant, explained, shortfall_by_cell(base), ("B",)) == (
         "hiring_budget|2027||1.5;away_share|A|2027-Q4|0.5;max_hires|B|2027-Q4|0.5")
-    assert held_back_by(variant, explained, base, ("A",)) == ""  # A's shortfall is the base's
+    # A's shortfall is the base's.
+    assert held_back_by(variant, explained, shortfall_by_cell(base), ("A",)) == ""
 
 
 def test_compare_works_out_each_plans_reasons_once(tmp_path: Path, monkeypatch) -> None:

@@ -339,7 +339,7 @@ def _why(instance: Instance, old: Plan, new: Plan, *rows: tuple[str, ...]) -> li
     """change_reasons of ``rows`` (change, kind, who, skill, period, old, new)."""
     changes = pd.DataFrame(list(rows), columns=["change", "kind", "who", "skill", "period",
                                                 "old", "new"])
-    return change_reasons(instance, old, new, 1, changes, reasons(instance, new))
+    return change_reasons(instance, old, new, changes, reasons(instance, new))
 
 
 def test_a_moved_hires_old_plan_figures_are_on_the_current_data(tiny) -> None:

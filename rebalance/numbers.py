@@ -29,6 +29,7 @@ __all__ = [
     "column_texts",
     "compared_row_texts",
     "compared_texts",
+    "counted",
     "distinct_texts",
     "dust_free",
     "figures",
@@ -37,6 +38,7 @@ __all__ = [
     "has_decimals",
     "is_gap",
     "is_money",
+    "model_size_text",
     "money_amount",
     "money_header",
     "money_text",
@@ -374,6 +376,17 @@ def _plain(value: float, decimals: int) -> str:
     """``value`` with ``decimals`` decimals and separators, no sign on a zero."""
     text = f"{float(value) + 0.0:,.{decimals}f}"
     return text[1:] if text.startswith("-") and not text.strip("-0.,") else text
+
+
+def counted(number: int, noun: str) -> str:
+    """``number`` with ``noun``, plural unless one (``1 period``, ``3 periods``)."""
+    return f"{number:,} {noun}" + ("" if number == 1 else "s")
+
+
+def model_size_text(cols: int, integer: int, rows: int) -> str:
+    """A model's size as the console's summary and the workbook write it: ``1,204 columns
+    (312 whole-number) x 980 rows``."""
+    return f"{cols:,} columns ({integer:,} whole-number) x {rows:,} rows"
 
 
 def years_text(value: object) -> str:

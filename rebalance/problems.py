@@ -10,7 +10,7 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 from typing import Any, TypeGuard
 
-from rebalance.numbers import plain_number
+from rebalance.numbers import counted, plain_number
 
 __all__ = ["Problem", "close_names", "did_you_mean", "is_finite_number", "problems_counted",
            "range_words"]
@@ -43,7 +43,7 @@ class Problem:
 
 def problems_counted(count: int) -> str:
     """``1 problem``, ``3 problems`` (it had read "1 problem(s)")."""
-    return f"{count:,} problem{'' if count == 1 else 's'}"
+    return counted(count, "problem")
 
 
 def close_names(value: str, names: Iterable[Any]) -> list[str]:

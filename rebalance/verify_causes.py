@@ -46,8 +46,8 @@ from rebalance.plan import Plan, records
 if TYPE_CHECKING:
     from rebalance.verify import Violation
 
-__all__ = ["KNOCK_ONS_SHOWN", "KNOCK_ON_RULES", "PROBLEMS_SHOWN", "Problem", "group_problems",
-           "hire_cost_lines", "link_knock_ons", "money_amounts"]
+__all__ = ["KNOCK_ONS_SHOWN", "KNOCK_ON_RULES", "PROBLEMS_SHOWN", "ViolationGroup",
+           "group_problems", "hire_cost_lines", "link_knock_ons", "money_amounts"]
 
 # Problems listed of a failed verification before the rest are counted (on the console and the
 # page alike), and the knock-on lines kept under each where the list runs long.
@@ -215,7 +215,7 @@ def _agrees(row: Any) -> bool:
 
 
 @dataclass(frozen=True)
-class Problem:
+class ViolationGroup:
     """One problem as a report lists it: ``run``, its violations (one, or the same excess of
     seats at one office in consecutive periods, in period order), and ``under``, the lines
     that follow from it, each the figures of one coverage.csv row or a run as ``run`` is."""
@@ -224,7 +224,7 @@ class Problem:
     under: tuple[tuple[Violation, ...], ...] = ()
 
 
-def group_problems(violations: Sequence[Violation]) -> list[Problem]:
+def group_problems(violations: Sequence[Violation]) -> list[ViolationGroup]:
     """``violations`` as problems, in the order of each one's first violation: a run of
     violations ``at`` one office in consecutive periods, with the same rule, file, message and
     cause, is one; a violation that ``follows`` another goes under that one's problem.  Every
@@ -263,5 +263,5 @@ def group_problems(violations: Sequence[Violation]) -> list[Problem]:
         else:  # a coverage row's figures read as one line; a run keeps its own
             row = ix if run[0].at is not None else run[0].file
             under[head].setdefault(row, []).extend(run)
-    return [Problem(tuple(runs[ix]), tuple(tuple(group) for group in under[ix].values()))
+    return [ViolationGroup(tuple(runs[ix]), tuple(tuple(group) for group in under[ix].values()))
             for ix in listed]

@@ -19,7 +19,7 @@ import pandas as pd
 
 from rebalance.analysis.limits import hire_rows
 from rebalance.instance import Instance, Person
-from rebalance.numbers import figures
+from rebalance.numbers import counted, figures
 from rebalance.plan import Plan
 from rebalance.verify import Violation
 
@@ -333,7 +333,7 @@ def _started_hires_ruled_out(instance: Instance, old: Plan, at: int) -> list[str
 
 def _hires(count: int) -> str:
     """``1 hire``, ``2 hires``: counted, as the reports count ("1 hire(s)" had read as a form)."""
-    return f"{count:,} hire" + ("" if count == 1 else "s")
+    return counted(count, "hire")
 
 
 def _have(count: int) -> str:

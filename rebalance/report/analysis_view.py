@@ -16,7 +16,7 @@ from typing import Any
 
 import pandas as pd
 
-from rebalance.analysis.foresight import AHEAD_COLUMN, GAP_MEASURES
+from rebalance.analysis.planned_ahead import AHEAD_COLUMN, GAP_MEASURES
 from rebalance.numbers import money_amount
 from rebalance.report.analysis_charts import (
     _frontier,
@@ -42,9 +42,9 @@ from rebalance.report.analysis_words import (
     status_in_words,
     years_as_text,
 )
-from rebalance.report.foresight_words import GAP_ROWS_NOTE, late_notice_line
 from rebalance.report.htmlparts import chart, e, frame_table_html, section
 from rebalance.report.inputs import SHEET_ONLY, ReportData
+from rebalance.report.late_notice_words import GAP_ROWS_NOTE, late_notice_line
 
 __all__ = ["AnalysisView", "analysis_payload"]
 

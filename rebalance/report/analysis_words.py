@@ -17,7 +17,7 @@ import pandas as pd
 from rebalance.analysis.limits import BUDGET_LIMITS, LIMIT_NAMES, limit_words
 from rebalance.numbers import fte_total_text, gap_text, money_amount, money_text, years_text
 from rebalance.report.like_for_like_words import not_like_for_like
-from rebalance.report.words import outcome_words
+from rebalance.report.words import and_list, outcome_words
 
 __all__ = [
     "FROM_BASE_WORDS",
@@ -33,6 +33,7 @@ __all__ = [
     "reasons_by_limit",
     "reasons_by_office",
     "scenario_lines",
+    "shows",
     "status_in_words",
     "truthy",
     "years_as_text",
@@ -124,12 +125,12 @@ WITHIN_GAPS = "(within the solves' gaps)"
 def _signed(value: float, text: str) -> str:
     """``text`` (``value`` written) with its sign; by the figure shown, float dust (3.6e-15
     more demand) is 0.0, not +0.0 or -0.0."""
-    if not _shows(text):
+    if not shows(text):
         return text.removeprefix("-")
     return ("+" if value > 0 and not text.startswith("-") else "") + text
 
 
-def _shows(text: str) -> bool:
+def shows(text: str) -> bool:
     """Whether a written figure is other than zero."""
     return any(digit in text for digit in "123456789")
 
@@ -163,7 +164,7 @@ def _office_changes(offices: pd.DataFrame | None, name: str, column: str) -> lis
         return []
     changes = [(str(o), float(mine.get(o, 0.0)) - float(base.get(o, 0.0)))
                for o in dict.fromkeys([*mine.index, *base.index])]
-    changes = [(o, c) for o, c in changes if math.isfinite(c) and _shows(fte_total_text(c))]
+    changes = [(o, c) for o, c in changes if math.isfinite(c) and shows(fte_total_text(c))]
     return sorted(changes, key=lambda item: -abs(item[1]))
 
 
@@ -175,12 +176,12 @@ def _office_list(changes: list[tuple[str, float]]) -> str:
 
 def _covered_words(more: float, short: float) -> str:
     """How much of ``more`` demand the plan covers, given ``short`` more shortfall."""
-    if not _shows(fte_total_text(more)) or more < 0:
+    if not shows(fte_total_text(more)) or more < 0:
         return ""
     if short > more:
         return (f", none of it covered (shortfall rises by {fte_total_text(short)}, more "
                 "than the demand added)")
-    if short < 0 or not _shows(fte_total_text(short)):
+    if short < 0 or not shows(fte_total_text(short)):
         return ", all of it covered"
     return (f", of it {fte_total_text(more - short)} covered and {fte_total_text(short)} "
             "left short")
@@ -216,7 +217,7 @@ def _budget_words(row: Any, currency: str | None) -> str | None:
         if change is None:
             continue
         known = True
-        if not _shows(money_text(change)):
+        if not shows(money_text(change)):
             continue
         where = _years_text(getattr(row, f"{cap}_budget_years", None))
         text = f"{cap} budget{where} {_signed(change, money_amount(change, currency))}"
@@ -224,7 +225,7 @@ def _budget_words(row: Any, currency: str | None) -> str | None:
         if spent is not None:
             # Not "of it": the plan may spend more than was added (the base left cap unused).
             text += (f", {money_amount(spent, currency)} more spent under it than in the base"
-                     if spent > 0 and _shows(money_text(spent)) else
+                     if spent > 0 and shows(money_text(spent)) else
                      ", none of it spent beyond the base's spending")
         if change > 0:
             # A practitioner's reading: the storm's added hiring money bought a hire at an
@@ -243,10 +244,6 @@ def _keys(row: Any, name: str) -> list[list[str]]:
     return [key.split("|") for key in _text(getattr(row, name, None)).split(";") if key]
 
 
-def _and(items: Sequence[str]) -> str:
-    return items[0] if len(items) == 1 else f"{', '.join(items[:-1])} and {items[-1]}"
-
-
 def _span(periods: str, single: str = "in ") -> str:
     """``in 2027-Q4`` or ``2027-Q4 to 2028-Q4`` (the first and last of ``,``-joined periods)."""
     said = [p for p in periods.split(",") if p]
@@ -261,7 +258,7 @@ def _limit_phrase(kind: str, wheres: str, periods: str, previous: str) -> str:
     name = LIMIT_NAMES.get(kind, kind.replace("_", " "))
     places = [w for w in wheres.split(",") if w]
     if kind in BUDGET_LIMITS:
-        return f"the {name}{'s' if len(places) > 1 else ''} of {_and(places or ['its year'])}"
+        return f"the {name}{'s' if len(places) > 1 else ''} of {and_list(places or ['its year'])}"
     where = ", ".join(places)
     of = "of" if kind in ("vacancies", "time_to_hire") else "at"
     at = "there" if where == previous else f"{of} {where}"
@@ -280,7 +277,7 @@ def _held_back_words(row: Any) -> str:
         kind, wheres, periods = [*key, "", ""][:3]
         said.append(_limit_phrase(kind, wheres, periods, previous))
         previous = "" if kind in BUDGET_LIMITS else wheres.replace(",", ", ")
-    return f", held back mostly by {_and(said)}" if said else ""
+    return f", held back mostly by {and_list(said)}" if said else ""
 
 
 # The keyed columns of scenarios.csv that a scenario's line says in words
@@ -337,7 +334,7 @@ def _moves_words(row: Any, offices: Sequence[str] = ()) -> str:
         sources = ", ".join(f"{n} from {home}" for home, n in homes[:ACTIONS_SAID])
         moves.append(f"{total:,} detail-period{'s' if total != 1 else ''} into {to} "
                      f"({sources}{_more(len(homes) - ACTIONS_SAID, 'office')})")
-    said = "moves for it: " + (_and(moves) if moves else "no detail added into its offices")
+    said = "moves for it: " + (and_list(moves) if moves else "no detail added into its offices")
     said += f"; {_hires_words(_keys(row, 'hires_changed'), offices)}"
     early = int(_number(row, "changes_before") or 0)
     if early:
@@ -358,7 +355,7 @@ def _salaries_words(row: Any, base: Any, currency: str | None) -> str:
     if mine is None or theirs is None:
         return ""
     more = mine - theirs
-    if not _shows(money_text(more)):
+    if not shows(money_text(more)):
         return "salaries after the horizon as the base's"
     return f"{_signed(more, money_amount(more, currency))} a year in salaries after the horizon"
 
@@ -411,19 +408,19 @@ def scenario_lines(frame: pd.DataFrame, currency: str | None = None,
         moves = _moves_words(row, [o for o, _ in where])
         if moves:
             parts.append(moves)
-        if _shows(fte_total_text(w_diff)) and _within(w_diff, gap_of_shortfall, row, base,
+        if shows(fte_total_text(w_diff)) and _within(w_diff, gap_of_shortfall, row, base,
                                                       weighted, base_weighted):
             shortfall += f" {WITHIN_GAPS}"
         parts.append(shortfall)
         total, base_total = float(row.total_cost), float(base.total_cost)
         cost = total - base_total
         money = f"new money {_signed(cost, money_amount(cost, currency))}"
-        if _shows(money_text(cost)) and _within(cost, "gap", row, base, total, base_total):
+        if shows(money_text(cost)) and _within(cost, "gap", row, base, total, base_total):
             money += f" {WITHIN_GAPS}"
         salaries = _salaries_words(row, base, currency)
         parts.append(f"{money}, {salaries}" if salaries else money)
-        unlike = not_like_for_like(w_diff if _shows(fte_total_text(w_diff)) else None,
-                                   cost if _shows(money_text(cost)) else None, before=". ")
+        unlike = not_like_for_like(w_diff if shows(fte_total_text(w_diff)) else None,
+                                   cost if shows(money_text(cost)) else None, before=". ")
         budget = _budget_words(row, currency)
         if budget is not None:
             parts.append(budget)

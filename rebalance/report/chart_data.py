@@ -1,7 +1,8 @@
 """The page's chart data: sums of plan tables by office, period and skill, as JSON-ready
 dicts for the drawing script (``assets/report.js``), and the two tables of sums the page and
 the workbook both show (idle capacity per office; new positions' salaries by skill, which
-summary.json's warning also needs, are :mod:`rebalance.planning`'s and re-exported here).
+summary.json's warning also needs, are :mod:`rebalance.planning`'s: the reports take them
+from there).
 
 Aggregation only: the plan itself is never recomputed here.
 """

@@ -15,10 +15,12 @@ from rebalance.instance import Instance
 from rebalance.numbers import (
     column_header,
     compared_row_texts,
+    counted,
     fte_total_text,
     gap_text,
     has_decimals,
     is_money,
+    model_size_text,
     money_amount,
     money_text,
     number_text,
@@ -43,10 +45,15 @@ from rebalance.report.limits_view import (
     caps_and_explained,
     limits_at_cap,
 )
-from rebalance.report.words import outcome_words, plain_status, readable
+from rebalance.report.words import and_list, outcome_words, plain_status, readable
 from rebalance.solve import StageResult, Status
 from rebalance.verify import Violation
-from rebalance.verify_causes import KNOCK_ONS_SHOWN, PROBLEMS_SHOWN, Problem, group_problems
+from rebalance.verify_causes import (
+    KNOCK_ONS_SHOWN,
+    PROBLEMS_SHOWN,
+    ViolationGroup,
+    group_problems,
+)
 
 __all__ = [
     "KNOCK_ONS_SHOWN",
@@ -124,11 +131,6 @@ def budget_note(instance: Instance, costs: pd.DataFrame) -> str:
         return f"of {money(allowed)} allowed"
     return (f"{money(capped_spent)} of {money(allowed)} allowed where capped, "
             f"{money(uncapped_spent)} where uncapped")
-
-
-def counted(number: int, noun: str) -> str:
-    """``number`` with ``noun``, plural unless one (``1 period``, ``3 periods``)."""
-    return f"{number:,} {noun}" + ("" if number == 1 else "s")
 
 
 def seats_cannot_hold(instance: Instance) -> bool:
@@ -334,8 +336,8 @@ def _outcome_lines(result: PlanResult, *, replan: bool = False) -> list[str]:
         # Cut short while building: no model, so no model size and no stage to show.
         return [*lines, f"  {s.stages[0].solver_words}"]
     gap = s.gap
-    lines.append(f"  solver {s.solver_version}; model {result.num_cols:,} columns "
-                 f"({result.num_integer:,} whole-number) x {result.num_rows:,} rows; "
+    lines.append(f"  solver {s.solver_version}; model "
+                 f"{model_size_text(result.num_cols, result.num_integer, result.num_rows)}; "
                  f"build {seconds_text(result.build_seconds)}s, "
                  f"solve {seconds_text(s.solve_seconds)}s"
                  + (f", gap {gap_text(gap)}" if gap is not None else ""))
@@ -496,7 +498,7 @@ def format_violations(violations: Sequence[Violation]) -> str:
     return "\n".join(lines)
 
 
-def _knock_on_words(problems: Sequence[Problem], knock_ons: int) -> str:
+def _knock_on_words(problems: Sequence[ViolationGroup], knock_ons: int) -> str:
     """How many coverage figures follow from the problems, and from how many: "1 figure ...
     differ because of them" had read where one figure followed from one of several."""
     problem_of = {v: ix for ix, p in enumerate(problems)
@@ -522,7 +524,7 @@ def _knock_on_words(problems: Sequence[Problem], knock_ons: int) -> str:
 ALSO_NAMED = 2
 
 
-def problem_lines(problem: Problem) -> tuple[str, list[str]]:
+def problem_lines(problem: ViolationGroup) -> tuple[str, list[str]]:
     """A problem's own line and one line for each coverage.csv row that follows from it (only
     a coverage figure ``follows`` another), in the console's words; a page's list can use the
     same.  A row that also follows from other problems names them (by person, else by plan
@@ -530,12 +532,12 @@ def problem_lines(problem: Problem) -> tuple[str, list[str]]:
     under = []
     for first, *rest in problem.under:
         also = [other.message.split(" ", 1)[0] for other in rest]
-        tail = f", and {_listed(also)} with it" if also else ""
+        tail = f", and {and_list(also)} with it" if also else ""
         others = _cause_names(first, *rest)
         if others:
             more = len(others) - ALSO_NAMED
             named = others[:ALSO_NAMED] + ([f"{more} more"] if more > 1 else others[ALSO_NAMED:])
-            tail += f" (it also follows from {_listed(named)})"
+            tail += f" (it also follows from {and_list(named)})"
         under.append(f"{first.file}: {first.where}: {first.message}{tail}")
     return _run_text(*problem.run), under
 
@@ -563,7 +565,3 @@ def _run_text(first: Violation, *rest: Violation) -> str:
         last = rest[-1].where.removeprefix(f"{office} in ")
         first = replace(first, where=f"{first.where} to {last} ({len(rest) + 1} periods)")
     return str(first)
-
-
-def _listed(words: Sequence[str]) -> str:
-    return words[0] if len(words) == 1 else f"{', '.join(words[:-1])} and {words[-1]}"

@@ -42,7 +42,6 @@ from rebalance.report.chart_data import (
     spare_capacity,
 )
 from rebalance.report.console import budget_note
-from rebalance.report.foresight_words import planned_ahead_heading
 from rebalance.report.htmlparts import (
     RUN_ANCHOR,
     RUN_TITLE,
@@ -57,6 +56,7 @@ from rebalance.report.htmlparts import (
     table_html,
 )
 from rebalance.report.inputs import ReportData, quality_notes
+from rebalance.report.late_notice_words import planned_ahead_heading
 from rebalance.report.limits_view import (
     DETAILS_AT_LIMIT,
     LIMITS_LEAD,

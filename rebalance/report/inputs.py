@@ -77,9 +77,6 @@ class ReplanSummary:
 
     from_period: str
     scenario: str | None = None
-    # What that scenario (or a re-plan's) assumed; None: no scenario, or a folder written
-    # before the key.
-    scenario_changes: ScenarioSummary | None = None
 
     @classmethod
     def from_raw(cls, value: Any) -> ReplanSummary | None:
@@ -282,26 +279,27 @@ def report_data(result: PlanResult, plan_dir: str | Path | None = None) -> Repor
     analysis, tables, notes = _analysis_tables(Path(plan_dir)) if plan_dir else ({}, (), [])
     summary = summary_dict(result)
     if plan_dir:
+        saved = _saved_summary(Path(plan_dir))
         # Which re-plan this is: 'rebalance replan' adds it to the folder's summary.json.
-        summary.setdefault("replan", _summary_key(Path(plan_dir), "replan"))
+        summary.setdefault("replan", saved.get("replan"))
         # Which scenario's plan this is: 'rebalance compare' adds it to each scenario's.
-        summary.setdefault("scenario", _summary_key(Path(plan_dir), "scenario"))
+        summary.setdefault("scenario", saved.get("scenario"))
         # What that scenario assumed: both commands add it beside the name.
-        summary.setdefault(SCENARIO_KEY, _summary_key(Path(plan_dir), SCENARIO_KEY))
+        summary.setdefault(SCENARIO_KEY, saved.get(SCENARIO_KEY))
         # Which re-plan a plan was made ahead for: 'rebalance replan --planned-ahead' adds it.
-        summary.setdefault(AHEAD_KEY, _summary_key(Path(plan_dir), AHEAD_KEY))
+        summary.setdefault(AHEAD_KEY, saved.get(AHEAD_KEY))
     return ReportData(result.instance, result.plan, RunSummary.from_dict(summary),
                       tables=tables, notes=tuple(notes),
                       problems=problem_texts(result.violations), **analysis)
 
 
-def _summary_key(folder: Path, key: str) -> Any:
-    """One key of ``folder/summary.json``, or None (no file, unreadable, no such key)."""
+def _saved_summary(folder: Path) -> dict[str, Any]:
+    """``folder/summary.json``, read once; empty where there is none or it is unreadable."""
     try:
         raw = json.loads((folder / "summary.json").read_text(encoding="utf-8"))
     except (OSError, json.JSONDecodeError):
-        return None
-    return raw.get(key) if isinstance(raw, dict) else None
+        return {}
+    return raw if isinstance(raw, dict) else {}
 
 
 def report_data_from_folder(plan_dir: str | Path, instance: Instance,

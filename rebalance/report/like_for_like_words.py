@@ -3,7 +3,7 @@
 Shortfall is weighed first (the lexicographic objective), so new money saved at more shortfall
 is no saving of one plan over the other: the demo's re-plan had cost less for more left short,
 and a comparison's scenario 166,500 less with 22.8 more FTE-periods short.  The late-notice
-line (:mod:`rebalance.report.foresight_words`) and a comparison's scenario lines
+line (:mod:`rebalance.report.late_notice_words`) and a comparison's scenario lines
 (:func:`rebalance.report.analysis_words.scenario_lines`) say it in the same words.
 """
 

@@ -8,7 +8,7 @@ goes by its name there (:data:`rebalance.analysis.limits.LIMIT_NAMES`); only the
 details in a row is counted here, as neither that module nor the verifier (whose check only
 flags an overrun, inside its private checker) exposes how close a plan comes to it.  The
 salaries and their warning are :mod:`rebalance.planning`'s (summary.json carries the
-warning too), re-exported here for the reports.  Last comes a line for offices short of
+warning too), and the reports take them from there.  Last comes a line for offices short of
 staff that still send their own people out on detail while their seats are full: the reasons
 explain it detail by detail, but the summary had left leaders to ask.  That line names no cap
 (it says what one does), so it stands apart, under words of its own
@@ -23,8 +23,9 @@ from dataclasses import dataclass
 
 from rebalance.analysis.limits import LIMIT_NAMES, LimitUse, limit_use
 from rebalance.instance import Instance
-from rebalance.numbers import money_amount, money_text, number_text
+from rebalance.numbers import counted, money_amount, money_text, number_text
 from rebalance.plan import Plan
+from rebalance.report.words import and_list
 from rebalance.verify import unknown_names
 
 __all__ = ["DETAILS_AT_LIMIT", "LIMITS_LEAD", "LIMITS_TITLE", "SHORT_YET_AWAY",
@@ -105,22 +106,14 @@ def _by_office(uses: Sequence[LimitUse], instance: Instance) -> str:
     for office in sorted(periods, key=lambda o: order.get(o, len(order))):
         groups[tuple(sorted(periods[office]))].append(office)
     ranked = sorted(groups.items(), key=lambda g: -len(g[0]))
-    return "; ".join(f"{_and(offices)} {period_spans(list(key), names)}"
+    return "; ".join(f"{and_list(offices)} {period_spans(list(key), names)}"
                      for key, offices in ranked)
 
 
 def _office_total(uses: Sequence[LimitUse]) -> str:
     offices = len({use.where for use in uses})
-    return (f"{_counted(offices, 'office')} in "
-            f"{_counted(len({(u.where, u.period) for u in uses}), 'office-period')}")
-
-
-def _counted(count: int, noun: str) -> str:
-    return f"{count:,} {noun}{'' if count == 1 else 's'}"
-
-
-def _and(words: Sequence[str]) -> str:
-    return words[0] if len(words) == 1 else ", ".join(words[:-1]) + " and " + words[-1]
+    return (f"{counted(offices, 'office')} in "
+            f"{counted(len({(u.where, u.period) for u in uses}), 'office-period')}")
 
 
 def _over(use: LimitUse) -> bool:
@@ -147,8 +140,8 @@ def _budget_total(uses: Sequence[LimitUse], action: str) -> str:
     over = sum(1 for u in uses if _over(u))
     short = f"too little left for one more {action}"
     if not over:
-        return f"{_counted(len(uses), 'budget year')} with {short}"
-    said = f"{_counted(over, 'budget year')} over the cap"
+        return f"{counted(len(uses), 'budget year')} with {short}"
+    said = f"{counted(over, 'budget year')} over the cap"
     return said if over == len(uses) else f"{said}, {len(uses) - over:,} with {short}"
 
 
@@ -187,17 +180,17 @@ def _short_yet_away(plan: Plan, seats: Sequence[LimitUse]) -> LimitLine | None:
     if not counts:
         return None
     ranked = sorted(counts, key=lambda office: -counts[office])
-    periods = _counted(counts[ranked[0]], "person-period")
+    periods = counted(counts[ranked[0]], "person-period")
     most = f"{ranked[0]} ({periods})"
     why = "seats are full, and a person away frees a seat for a hire or a colleague"
     if len(ranked) == 1:
         text = (f"{ranked[0]} is short of staff yet sends people out on detail "
                 f"({periods}): its {why}")
     else:  # "A (8 person-periods) and B (3) are ...": the unit said once
-        offices = _and([most, *(f"{office} ({counts[office]:,})" for office in ranked[1:])])
+        offices = and_list([most, *(f"{office} ({counts[office]:,})" for office in ranked[1:])])
         text = f"{offices} are short of staff yet send people out on detail: their {why}"
     # What a surface too narrow for every office says: still why, and the office most out.
-    total = (f"{most} and {_counted(len(ranked) - 1, 'other office')} are short of staff "
+    total = (f"{most} and {counted(len(ranked) - 1, 'other office')} are short of staff "
              f"yet send people out on detail: their {why}")
     return LimitLine("short_yet_away", SHORT_YET_AWAY, text, tuple(pairs), total)
 
@@ -263,7 +256,7 @@ def limits_at_cap(instance: Instance, plan: Plan) -> tuple[LimitLine, ...]:
             listed = ", ".join(f"{u.where} ({number_text(u.cap)})" for u in uses)
             # "in all": the pairs listed need not add up to it (one used in part elsewhere).
             text = f"used in full: {listed}; {whole} used in all"
-            total = (f"used in full at {_counted(len(uses), 'skill-office pair')}; {whole} used "
+            total = (f"used in full at {counted(len(uses), 'skill-office pair')}; {whole} used "
                      "in all")
         out.append(LimitLine(kind, words, text, tuple((u.where, u.period) for u in uses),
                              total))

@@ -24,6 +24,7 @@ from rebalance.instance import Instance
 from rebalance.numbers import fte_total_text, money_amount, plain_number
 from rebalance.report.htmlparts import SCENARIO_FIGURES
 from rebalance.report.inputs import SCENARIO_KEY, ScenarioSummary
+from rebalance.report.words import and_list
 
 __all__ = ["SCENARIO_KEY", "budget_words", "demand_words", "scenario_entry", "scenario_rows"]
 # Names listed in one selection before "and N more": a file may name every period.
@@ -37,7 +38,7 @@ def _listed(names: Sequence[str], every: str) -> str:
         shown.append(f"{len(names) - NAMES_SHOWN} more")
     if not shown:
         return every
-    return shown[0] if len(shown) == 1 else f"{', '.join(shown[:-1])} and {shown[-1]}"
+    return and_list(shown)
 
 
 def _rows_words(count: int) -> str:

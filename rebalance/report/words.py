@@ -8,11 +8,12 @@ the page and in the workbook; the raw status (``feasible_with_gap``) stays in su
 from __future__ import annotations
 
 import re
+from collections.abc import Sequence
 
 from rebalance.instance import Instance
 from rebalance.numbers import gap_text
 
-__all__ = ["ATTRITION_NOTE", "CODE_WORDS", "STATUS_WORDS", "expects_attrition",
+__all__ = ["ATTRITION_NOTE", "CODE_WORDS", "STATUS_WORDS", "and_list", "expects_attrition",
            "optimal_words", "outcome_words", "plain_status", "readable"]
 
 # Beside the work table (the page's work and capacity section, the workbook's work sheet):
@@ -73,3 +74,8 @@ def readable(column: str) -> str:
     text = code.replace("_", " ")
     text = re.sub(r"\bfte periods\b", "FTE-periods", text, flags=re.I)
     return re.sub(r"\bfte\b", "FTE", text, flags=re.I)
+
+
+def and_list(words: Sequence[str]) -> str:
+    """``a``, ``a and b``, ``a, b and c``: one or more words as a sentence lists them."""
+    return words[0] if len(words) == 1 else f"{', '.join(words[:-1])} and {words[-1]}"

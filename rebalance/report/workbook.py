@@ -31,6 +31,7 @@ from rebalance.numbers import (
     has_decimals,
     is_gap,
     is_money,
+    model_size_text,
     money_amount,
     money_text,
     seconds_text,
@@ -42,9 +43,9 @@ from rebalance.planning import plan_run_rate, run_rate_warning
 from rebalance.report.analysis_charts import AMOUNT_COLUMNS, GRID_COLUMNS
 from rebalance.report.chart_data import spare_capacity
 from rebalance.report.console import MEASURE_COLUMN, budget_note, cell_text, measure_names
-from rebalance.report.foresight_words import planned_ahead_heading
 from rebalance.report.htmlparts import stage_words
 from rebalance.report.inputs import ReportData, quality_notes
+from rebalance.report.late_notice_words import planned_ahead_heading
 from rebalance.report.limits_view import (
     LIMITS_LEAD,
     LIMITS_TITLE,
@@ -504,8 +505,8 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
         if stage.name != "build":
             line(f"{stage.name} stage", stage_words(stage, instance.money.currency,
                                                     replan=run.replan is not None))
-    line("model size", f"{run.model_columns or 0:,} columns ({run.model_integer_columns or 0:,} "
-         f"whole-number) x {run.model_rows or 0:,} rows")
+    line("model size", model_size_text(run.model_columns or 0, run.model_integer_columns or 0,
+                                       run.model_rows or 0))
     # As text, as the page writes it: one rounding of the stored seconds (56.65, not 56.6).
     line("build / solve seconds", " / ".join(
         "-" if v is None else seconds_text(v) for v in (run.build_seconds, run.solve_seconds)))

@@ -15,8 +15,8 @@ import pandas as pd
 
 from rebalance.numbers import GAP_DIGITS, compared_row_texts, is_gap, is_money
 from rebalance.report.analysis_words import FROM_BASE_WORDS, gap_caution
-from rebalance.report.foresight_words import late_notice_line
 from rebalance.report.inputs import ReportData
+from rebalance.report.late_notice_words import late_notice_line
 
 __all__ = ["GAP", "MONEY", "SHEET_NOTES", "measure_formats", "money_format", "sheet_notes"]
 

@@ -306,7 +306,7 @@ def page_text(page: str) -> str:
 
 def replan_with_ahead(new_gaps: tuple[float, float],
                       ahead_gaps: tuple[float, float]) -> pd.DataFrame:
-    """replan.csv as 'rebalance replan --planned-ahead' writes it (rebalance.analysis.foresight:
+    """replan.csv as 'rebalance replan --planned-ahead' writes it (rebalance.analysis.planned_ahead:
     a planned_ahead column, and a row per stage gap, shortfall's and new money's), with made-up
     figures: by hand, reacting late leaves 4.2 more weighted FTE-periods short and costs
     38,000 more than planning ahead."""

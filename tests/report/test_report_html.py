@@ -332,7 +332,7 @@ def test_a_scenarios_plan_says_it_is_that_scenarios(tmp_path):
 
 def test_a_plan_made_ahead_for_a_replan_says_so_in_its_heading(tmp_path):
     # rebalance replan --planned-ahead writes the plan made ahead to planned_ahead/ with its
-    # scenario and a "planned_ahead" key in summary.json (rebalance/cli_foresight.py); its page
+    # scenario and a "planned_ahead" key in summary.json (rebalance/cli_planned_ahead.py); its page
     # had been headed "Scenario b-up", with no word that it was made ahead for a re-plan
     # (common practice: a page's heading says what it holds).
     folder = _copy(tmp_path)
@@ -360,8 +360,8 @@ def test_a_replans_planned_ahead_column_is_named_a_plan_and_its_gaps_read_as_per
 
     from report_cases import replan_with_ahead
 
-    from rebalance.report.foresight_words import GAP_ROWS_NOTE
     from rebalance.report.inputs import ReplanSummary
+    from rebalance.report.late_notice_words import GAP_ROWS_NOTE
 
     table = replan_with_ahead((0.0032, 0.0204), (0.01, 0.0362))
     data = report_data_from_folder(tiny_plan_folder(), read_instance(TINY))

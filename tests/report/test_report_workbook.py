@@ -408,8 +408,8 @@ def test_a_replans_gap_rows_read_as_percentages_under_the_late_notice_line(tmp_p
     # with openpyxl; number formats as ECMA-376 Part 1, 18.8.31 (numFmts) spells them.
     from dataclasses import replace
 
-    from rebalance.report.foresight_words import late_notice_line
     from rebalance.report.inputs import ReplanSummary
+    from rebalance.report.late_notice_words import late_notice_line
     from rebalance.report.workbook import write_workbook
 
     table = _replan_with_ahead()
@@ -439,7 +439,7 @@ def test_a_replans_gap_rows_read_as_percentages_under_the_late_notice_line(tmp_p
 
 
 def test_a_plan_made_ahead_for_a_replan_says_so_in_its_heading(tmp_path):
-    # A re-plan's planned_ahead/ folder (rebalance/cli_foresight.py) had been headed as any
+    # A re-plan's planned_ahead/ folder (rebalance/cli_planned_ahead.py) had been headed as any
     # scenario's plan; its summary.json's planned_ahead key says which re-plan it was made
     # for (common practice: a document's heading says what it holds).  Read back with
     # openpyxl.

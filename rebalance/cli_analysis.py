@@ -65,15 +65,10 @@ def _plan_failed(result) -> int | None:
             _err(f"  {conflict}")
         return STATUS_EXIT.get(result.status, EXIT_SOLVER_ERROR)
     if not result.verified:
-        _say_unverified(f"{result.instance.name}: the plan failed verification; nothing was "
-                        "written", result)
+        _say_violations(f"{result.instance.name}: the plan failed verification; nothing was "
+                        "written", result.violations)
         return EXIT_VERIFICATION_FAILED
     return None
-
-
-def _say_unverified(head: str, result: PlanResult) -> None:
-    """``head``, then the first problems of ``result``'s plan."""
-    _say_violations(head, result.violations)
 
 
 def _write_analysis_plan(args: argparse.Namespace, result, instance: Instance,
@@ -81,10 +76,11 @@ def _write_analysis_plan(args: argparse.Namespace, result, instance: Instance,
                          more: Callable[[Path], None] | None = None,
                          replanned_at: int | None = None, scenario: str | None = None,
                          assumed: dict | None = None) -> int:
-    """Write a verified analysis plan to ``args.out`` with ``tables``, its reasons and the
-    report; ``more`` adds to the folder first.  ``instance_path`` is recorded for
-    'rebalance report'; ``assumed``, what a re-plan's scenario changed
-    (:func:`rebalance.report.scenario_notes.scenario_entry`), for its page's box."""
+    """Write a verified analysis plan to ``args.out`` with ``tables``, its reasons (worked
+    out here unless ``tables`` holds reasons.csv) and the report; ``more`` adds to the folder
+    first.  ``instance_path`` is recorded for 'rebalance report'; ``assumed``, what a
+    re-plan's scenario changed (:func:`rebalance.report.scenario_notes.scenario_entry`), for
+    its page's box."""
     from rebalance.analysis.output import write_tables
     from rebalance.analysis.reasons import reasons
     from rebalance.planning import CAUTION, write_outputs
@@ -92,8 +88,11 @@ def _write_analysis_plan(args: argparse.Namespace, result, instance: Instance,
 
     def extra(result: PlanResult, folder: Path) -> None:
         assert result.plan is not None  # write_outputs writes only a plan
-        write_tables({**tables, "reasons.csv": reasons(instance, result.plan,
-                                                        replanned_at).table}, folder)
+        # Given where the caller has them already (a re-plan worked them out for its
+        # change reasons); else worked out here.
+        found = tables if "reasons.csv" in tables else {
+            **tables, "reasons.csv": reasons(instance, result.plan, replanned_at).table}
+        write_tables(found, folder)
         if replanned_at is not None:
             # Which re-plan this is, for the report and for whoever reads the folder later.
             summary = json.loads((folder / "summary.json").read_text())
@@ -178,8 +177,8 @@ def cmd_compare(args: argparse.Namespace) -> int:
             for conflict in result.solve.conflicts:
                 print(f"  - {conflict}")
         elif not result.verified:
-            _say_unverified(f"scenario '{name}': the plan failed verification; nothing was "
-                            "written", result)
+            _say_violations(f"scenario '{name}': the plan failed verification; nothing was "
+                            "written", result.violations)
             return EXIT_VERIFICATION_FAILED
 
     by_name = {s.name: s for s in scenarios}
@@ -271,7 +270,7 @@ def cmd_replan(args: argparse.Namespace) -> int:
                             args.disruption_hire)
     from dataclasses import replace
 
-    from rebalance.analysis.foresight import plan_ahead, split_time, with_planned_ahead
+    from rebalance.analysis.planned_ahead import plan_ahead, split_time, with_planned_ahead
 
     options = _analysis_options(instance, args, progress=True)
     own, ahead_options = split_time(options) if args.planned_ahead else (options, options)
@@ -327,7 +326,7 @@ def cmd_replan(args: argparse.Namespace) -> int:
         print(f"work split: everyone works as in the old plan from {args.at} on")
     more = None
     if ahead is not None:
-        from rebalance.cli_foresight import planned_ahead_folder, say_late_notice
+        from rebalance.cli_planned_ahead import planned_ahead_folder, say_late_notice
 
         code = say_late_notice(out.summary, args.at, instance, ahead)
         if code is not None:
@@ -337,7 +336,9 @@ def cmd_replan(args: argparse.Namespace) -> int:
     # Under a scenario the plan belongs to the changed data, not to the instance folder:
     # record no instance path, so 'rebalance report' asks for one rather than mislead.
     return _write_analysis_plan(args, out.result, instance,
-                                {"changes.csv": out.changes, "replan.csv": out.summary},
+                                {"changes.csv": out.changes, "replan.csv": out.summary,
+                                 **({} if out.reasons is None
+                                    else {"reasons.csv": out.reasons.table})},
                                 None if args.scenario else args.instance,
                                 "new plan, changes.csv and replan.csv" if not more else
                                 "new plan, changes.csv, replan.csv and the plan made ahead "
@@ -398,7 +399,7 @@ def cmd_frontier(args: argparse.Namespace) -> int:
         frontier.table["point"], frontier.results, strict=True)
         if result.plan is not None and not result.verified]
     for point, result in failed:
-        _say_unverified(f"point {point}: the plan failed verification", result)
+        _say_violations(f"point {point}: the plan failed verification", result.violations)
     if failed:
         _err("nothing was written")
         return EXIT_VERIFICATION_FAILED

@@ -2,8 +2,8 @@
 and the plan made ahead written as its own plan folder, ``planned_ahead/``, in the re-plan's.
 
 Kept apart from :mod:`rebalance.cli_analysis`, which the style guide's length holds; the
-figures come from :mod:`rebalance.analysis.foresight`, the words from
-:mod:`rebalance.report.foresight_words`.
+figures come from :mod:`rebalance.analysis.planned_ahead`, the words from
+:mod:`rebalance.report.late_notice_words`.
 """
 
 from __future__ import annotations
@@ -32,7 +32,7 @@ def say_late_notice(summary: pd.DataFrame, at: str, instance: Instance,
     with its planned_ahead column) and, where no plan was made ahead, why.  An exit code where
     the plan made ahead failed verification (nothing is then written, as for a comparison's
     scenario plan), else None: with no plan made ahead, the re-plan is still written."""
-    from rebalance.report.foresight_words import late_notice_line
+    from rebalance.report.late_notice_words import late_notice_line
 
     line = late_notice_line(summary, at, instance.period_names[0], instance.money.currency)
     if line:

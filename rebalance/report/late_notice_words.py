@@ -1,5 +1,5 @@
 """What late notice cost, in one line: a re-plan against the same data planned from the start
-(``replan.csv``'s ``planned_ahead`` column, :mod:`rebalance.analysis.foresight`).
+(``replan.csv``'s ``planned_ahead`` column, :mod:`rebalance.analysis.planned_ahead`).
 
 The console (``rebalance.cli_analysis``) prints it and the page's re-plan section leads with
 it, both from the table, so they say the same.  A difference no larger than the solves' gaps
@@ -10,9 +10,9 @@ from __future__ import annotations
 
 import pandas as pd
 
-from rebalance.analysis.foresight import AHEAD_COLUMN
+from rebalance.analysis.planned_ahead import AHEAD_COLUMN, GAP_MEASURES
 from rebalance.numbers import fte_total_text, gap_text, money_amount
-from rebalance.report.analysis_words import GAP_SAID, WITHIN_GAPS, finite
+from rebalance.report.analysis_words import GAP_SAID, WITHIN_GAPS, finite, shows
 from rebalance.report.like_for_like_words import not_like_for_like
 
 __all__ = ["GAP_ROWS_NOTE", "late_notice_line", "planned_ahead_heading"]
@@ -29,10 +29,6 @@ GAP_ROWS_NOTE = ("The shortfall gap and new money gap rows are each solve's stag
 def _figure(table: pd.DataFrame, measure: str, column: str) -> float | None:
     rows = table.loc[table["measure"].astype(str) == measure, column].tolist()
     return finite(rows[:1])[0] if rows else None
-
-
-def _shows(text: str) -> bool:
-    return any(digit in text for digit in "123456789")
 
 
 def _caveat(difference: float, gaps: list[float | None], *figures: float) -> str:
@@ -64,12 +60,12 @@ def late_notice_line(table: pd.DataFrame | None, at_period: str, first_period: s
                 f"its share of the time limit, so what reacting in {at_period} cost is not "
                 "known.")
     disruption = _figure(table, "disruption_cost", "new_plan") or 0.0
-    gaps = {(m, c): _figure(table, m, c) for m in ("shortfall_gap", "new_money_gap")
+    gaps = {(m, c): _figure(table, m, c) for m in GAP_MEASURES
             for c in ("new_plan", AHEAD_COLUMN)}
 
     more_w = new_w - ahead_w
     text_w = fte_total_text(abs(more_w))
-    if not _shows(text_w):
+    if not shows(text_w):
         shortfall = "leaves the same weighted shortfall"
     else:
         shortfall = (f"leaves {text_w} {'more' if more_w > 0 else 'fewer'} weighted "
@@ -78,7 +74,7 @@ def late_notice_line(table: pd.DataFrame | None, at_period: str, first_period: s
                                   gaps["shortfall_gap", AHEAD_COLUMN]], new_w, ahead_w))
     more_m = new_m - ahead_m
     text_m = money_amount(abs(more_m), currency)
-    if not _shows(text_m):
+    if not shows(text_m):
         money = "costs the same new money"
     else:
         # The re-plan's last stage weighed its new money with the disruption cost: its gap is
@@ -94,8 +90,8 @@ def late_notice_line(table: pd.DataFrame | None, at_period: str, first_period: s
 
     stages = (f"stage gaps, re-plan and planned ahead: shortfall {pair('shortfall_gap')}, "
               f"new money {pair('new_money_gap')}")
-    unlike = not_like_for_like(more_w if _shows(text_w) else None,
-                               more_m if _shows(text_m) else None, either_way=True)
+    unlike = not_like_for_like(more_w if shows(text_w) else None,
+                               more_m if shows(text_m) else None, either_way=True)
     # "compared with", not "than": "leaves the same weighted shortfall ... than" had read.
     return (f"Late notice: reacting in {at_period} {shortfall} and {money} compared with "
             f"planning for it from {first_period} ({stages}).{unlike}")

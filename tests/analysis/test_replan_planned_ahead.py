@@ -24,7 +24,7 @@ from randomized import random_instance
 from test_brute_force import REL, brute_force
 
 from rebalance import make_plan, read_instance, verify_folder
-from rebalance.analysis.foresight import (
+from rebalance.analysis.planned_ahead import (
     AHEAD_COLUMN,
     GAP_MEASURES,
     REPLAN_SHARE,
@@ -41,7 +41,7 @@ from rebalance.analysis.scenario_files import (
 )
 from rebalance.instance import Instance
 from rebalance.report.analysis_words import WITHIN_GAPS
-from rebalance.report.foresight_words import NOT_PROVEN, late_notice_line
+from rebalance.report.late_notice_words import NOT_PROVEN, late_notice_line
 from rebalance.report.like_for_like_words import NOT_LIKE_FOR_LIKE
 
 TINY = DATA / "tiny"

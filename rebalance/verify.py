@@ -11,9 +11,7 @@ from __future__ import annotations
 import json
 from collections import Counter, defaultdict
 from collections.abc import Callable, Mapping
-from dataclasses import dataclass
 from pathlib import Path
-from typing import Literal
 
 from rebalance.instance import Instance
 from rebalance.numbers import figures, number_text, share_of
@@ -21,10 +19,10 @@ from rebalance.plan import BUDGET_LINES, COST_KINDS, PLAN_TABLES, Plan, read_pla
 from rebalance.problems import did_you_mean
 from rebalance.verify_causes import hire_cost_lines, link_knock_ons
 from rebalance.verify_causes import money_amounts as _amounts
+from rebalance.verify_rules import RULES, NameKind, Violation, close, over
 
 __all__ = ["NameKind", "Violation", "unknown_names", "verify_folder", "verify_plan"]
 
-ABS_TOL = REL_TOL = 1e-6
 # Unknown names listed per table and column before the rest are counted.
 UNKNOWN_NAMES_LISTED = 5
 HAND_EDIT_SLIPS = 3  # unknown names in one column up to which each gets a suggestion
@@ -35,89 +33,10 @@ PERSON_LEFT_HINT = (" (not in staff.csv: a person who has left stays in staff.cs
                     "last_period set to the last period they work)")
 
 
-# The kinds of name a plan's columns hold, each checked against one of the instance's lists.
-NameKind = Literal["person", "office", "skill", "period"]
-
-# Each rule's plan table (of several, the one to open first) and what it asks in a planner's
-# words, said for its code ("one_detail" read as an internal name); none where the message is.
-RULES: dict[str, tuple[str, str]] = {
-    "missing_table": ("", ""), "missing_column": ("", ""), "unknown_reference": ("", ""),
-    "one_reassignment": ("reassignments", "at most one reassignment a person"),
-    "reassignment_allowed": ("reassignments", "only people who may relocate are reassigned"),
-    "reassignment_present": ("reassignments", "only people on the staff then are reassigned"),
-    "reassignment_from": ("reassignments", "a reassignment starts from the home office"),
-    "reassignment_to": ("reassignments", "a reassignment moves to another office"),
-    "reassignment_cost": ("reassignments", "cost at the relocation price"),
-    "one_detail": ("details", "one detail a period"),
-    "detail_to": ("details", "a detail goes to another office"),
-    "detail_allowed": ("details", "only people who may be detailed, where policy allows"),
-    "detail_present": ("details", "only people on the staff then are detailed"),
-    "detail_from": ("details", "a detail starts from the home office in force"),
-    "detail_cost": ("details", "cost at the detail price"),
-    "consecutive_details": ("details", "detail periods in a row within the policy's limit"),
-    "away_share": ("details", "people away within the policy's share of an office"),
-    "work_repeated": ("work", "one row per person, period, office and skill"),
-    "work_negative": ("work", "fte not below zero"),
-    "work_skill": ("work", "work only in skills the person has"),
-    "work_location": ("work", "work where the person is that period"),
-    "work_output": ("work", "output is proficiency x fte"),
-    "work_capacity": ("work", "work within the person's available FTE"),
-    "hire_count": ("hires", ""), "hire_funding": ("hires", ""), "time_to_hire": ("hires", ""),
-    "hire_cost": ("hires", "costs at the prices of skills.csv"),
-    "max_hires": ("hires", "hires a period within the office's limit"),
-    "vacancies": ("hires", "vacancy hires within the funded vacancies"),
-    "seats": ("hires", "people based there, detailed in and hired within the office's seats"),
-    **{rule: ("coverage", "one coverage row per demand row")
-       for rule in ("coverage_rows", "coverage_missing")},
-    **{f"coverage_{column}": ("coverage", "figures as recomputed from demand, work and hires")
-       for column in ("demand", "staff_output", "hire_output", "covered", "shortfall",
-                      "priority", "weighted_shortfall")},
-    "costs": ("costs", "costs a year and kind as recomputed from the plan"),
-    "hiring_budget": ("costs", "hiring spend within the year's budget"),
-    "moves_budget": ("costs", "moves spend within the year's budget"),
-    "summary": ("", "figures as recomputed from the plan tables"),
-}
-
-
-@dataclass(frozen=True)
-class Violation:
-    """One broken rule: ``rule`` (a code, see :data:`RULES`), ``where`` (what it concerns, or a
-    file and row), a message and the plan ``file`` it is about (and row, where one row breaks
-    it).  An ``unknown_reference`` also says which ``column`` names what the instance lacks and
-    which ``name_kind`` of name it should hold, so a caller need not read the message back.  A
-    coverage figure only out of date because of an earlier violation ``follows`` it (the
-    first, where several apply: the rest are ``also_follows``); a seats excess says the
-    office and period (index) it is ``at``, so a report can join a run."""
-
-    rule: str
-    where: str
-    message: str
-    column: str | None = None
-    name_kind: NameKind | None = None
-    file: str = ""
-    follows: Violation | None = None
-    at: tuple[str, int] | None = None
-    also_follows: tuple[Violation, ...] = ()
-
-    def __str__(self) -> str:
-        """As a planner reads it: the file first (once), the rule in words last, no code."""
-        words = RULES.get(self.rule, ("", ""))[1]
-        text = ": ".join(part for part in dict.fromkeys((self.file, self.where)) if part)
-        return f"{text}: {self.message}" + (f" ({words})" if words else "")
-
-
-def _close(a: float, b: float, tol: float = ABS_TOL) -> bool:
-    return abs(a - b) <= tol + REL_TOL * max(abs(a), abs(b))
-
-
 def _beyond(value: float, limit: float) -> str:
     """``value`` as :func:`_figures` writes it beside ``limit``: a negative -1e-10 must not
     read as "0" (solver dust to the number rule, but below zero to a rule)."""
     return figures(value, limit)[0] if value != limit else number_text(value)
-
-
-def _over(value: float, cap: float) -> bool:
-    return value > cap + ABS_TOL + REL_TOL * abs(cap)
 
 
 def _slip_hint(value: str, kind: NameKind, known: Mapping[str, object], slips: bool) -> str:
@@ -139,8 +58,9 @@ def verify_folder(instance: Instance, folder: str | Path, *,
     path = Path(folder)
     missing = [name for name in PLAN_TABLES if not (path / f"{name}.csv").exists()]
     if missing and not complete:
-        return [Violation("missing_table", str(path / f"{name}.csv"), "file is missing",
-                          file=str(path / f"{name}.csv")) for name in missing]
+        files = {name: str(path / f"{name}.csv") for name in missing}
+        return [Violation("missing_table", file, "file is missing", file=file, table=name)
+                for name, file in files.items()]
     checker = _Checker(instance, read_plan(path, complete=complete), path)
     checker.run()
     summary_path = path / "summary.json"
@@ -193,8 +113,15 @@ class _Checker:
 
     def flag(self, rule: str, where: str, message: str, line: int | None = None,
              at: tuple[str, int] | None = None) -> None:
-        file = self.file(RULES[rule][0]) + ("" if line is None else f":{line}")
-        self.violations.append(Violation(rule, where, message, file=file, at=at))
+        self.add(rule, where, message, RULES[rule][0], line, at=at)
+
+    def add(self, rule: str, where: str, message: str, table: str, line: int | None = None, *,
+            column: str | None = None, name_kind: NameKind | None = None,
+            at: tuple[str, int] | None = None) -> None:
+        """A violation of ``table`` (at ``line``), its ``file`` as printed made from them."""
+        self.violations.append(Violation(
+            rule, where, message, column, name_kind, file=self.file(table, line), at=at,
+            table=table, line=line))
 
     def row_flag(self, where: str, line: int) -> Callable[[str, str], None]:
         return lambda rule, message: self.flag(rule, where, message, line)
@@ -205,11 +132,12 @@ class _Checker:
         frame = self.plan.table(table)
         return [int(ix) + 2 for ix in (range(len(frame)) if self.folder is None else frame.index)]
 
-    def file(self, table: str) -> str:
-        """The table's file, with its folder when known: a line that names it can be pasted
-        (as read_plan's problems can)."""
+    def file(self, table: str, line: int | None = None) -> str:
+        """The table's file (and line), with its folder when known: a line that names it can
+        be pasted (as read_plan's problems can)."""
         name = f"{table}.csv"
-        return name if self.folder is None else str(self.folder / name)
+        file = name if self.folder is None else str(self.folder / name)
+        return file if line is None else f"{file}:{line}"
 
     def run(self) -> None:
         if not self._references_ok():
@@ -246,9 +174,8 @@ class _Checker:
             frame = self.plan.table(table)
             missing = [column for column in PLAN_TABLES[table] if column not in frame.columns]
             for column in missing:
-                self.violations.append(Violation("missing_column", self.file(table),
-                                                 f"column {column} is missing",
-                                                 file=self.file(table)))
+                self.add("missing_column", self.file(table), f"column {column} is missing",
+                         table)
             ok = ok and not missing
             if missing:
                 continue  # this table's names cannot be read; the other tables' still can
@@ -262,17 +189,16 @@ class _Checker:
                 # where none would help ('xa1' is no slip for 'a1').
                 slips = len(unknown) <= HAND_EDIT_SLIPS and 2 * len(unknown) < len(frame)
                 for row, value in unknown[:UNKNOWN_NAMES_LISTED]:
-                    self.violations.append(Violation(
-                        "unknown_reference", f"{self.file(table)}:{row}",
-                        f"{column} '{value}' is not in the instance"
-                        + _slip_hint(value, kind, known, slips), column, kind,
-                        f"{self.file(table)}:{row}"))
+                    self.add("unknown_reference", self.file(table, row),
+                             f"{column} '{value}' is not in the instance"
+                             + _slip_hint(value, kind, known, slips), table, row,
+                             column=column, name_kind=kind)
                 if len(unknown) > UNKNOWN_NAMES_LISTED:
                     # A plan of another instance names thousands; the first few say enough.
-                    self.violations.append(Violation(
-                        "unknown_reference", self.file(table),
-                        f"{len(unknown) - UNKNOWN_NAMES_LISTED:,} more rows whose "
-                        f"{column} is not in the instance", column, kind, self.file(table)))
+                    self.add("unknown_reference", self.file(table),
+                             f"{len(unknown) - UNKNOWN_NAMES_LISTED:,} more rows whose "
+                             f"{column} is not in the instance", table, column=column,
+                             name_kind=kind)
                 ok = ok and not unknown
         return ok
 
@@ -301,7 +227,7 @@ class _Checker:
                 flag("reassignment_to", "reassigned to the office they are in")
             expected = self.i.relocation_cost(person.home_office, row.to_office)
             self.spend[(self.i.periods[t].year, "relocation")] += expected
-            if not _close(float(row.cost), expected):
+            if not close(float(row.cost), expected):
                 stated, priced = _amounts(self.i, float(row.cost), expected)
                 flag("reassignment_cost", f"cost {stated} but {priced} applies")
             for s in range(t, self.T):
@@ -333,7 +259,7 @@ class _Checker:
                 flag("detail_to", "detailed to their own home office")
             expected = self.i.detail_cost_per_period(home[row.person][t], row.to_office)
             self.spend[(self.i.periods[t].year, "detail")] += expected
-            if not _close(float(row.cost), expected):
+            if not close(float(row.cost), expected):
                 stated, priced = _amounts(self.i, float(row.cost), expected)
                 flag("detail_cost", f"cost {stated} but {priced} applies")
         if m is not None and m > 0:
@@ -377,7 +303,7 @@ class _Checker:
             proficiency = person.proficiency(row.skill)
             if proficiency == 0:
                 flag("work_skill", f"does not have skill {row.skill}")
-            if not _close(float(row.output_fte), fte * proficiency):
+            if not close(float(row.output_fte), fte * proficiency):
                 output, product = figures(float(row.output_fte), fte * proficiency)
                 flag("work_output", f"output {output} but proficiency "
                      f"{number_text(proficiency)} x fte {number_text(fte)} = {product}")
@@ -385,7 +311,7 @@ class _Checker:
             self.staff_output[(row.office, row.skill, t)] += fte * proficiency
         for (name, t), total in totals.items():
             available = self.i.available_fte(self.people[name], t)
-            if _over(total, available):
+            if over(total, available):
                 works, has = figures(total, available)
                 self.flag("work_capacity", f"person {name} in {self.i.periods[t].name}",
                           f"works {works} FTE but has {has} available")
@@ -475,7 +401,7 @@ class _Checker:
                                      ("shortfall_fte", shortfall), ("priority", d.priority),
                                      ("weighted_shortfall", d.priority * shortfall)):
                 value = float(getattr(row, column))
-                if not _close(value, expected):
+                if not close(value, expected):
                     stated, recomputed = figures(value, expected)
                     self.flag(f"coverage_{column.removesuffix('_fte')}", where,
                               f"{column} {stated} but recomputed {recomputed}", line=number)
@@ -505,7 +431,7 @@ class _Checker:
         for office in self.i.offices:
             for t in range(self.T):
                 where, key = f"{office.name} in {self.i.periods[t].name}", (office.name, t)
-                if _over(gone[key], share * present[key]):
+                if over(gone[key], share * present[key]):
                     self.flag("away_share", where, f"{gone[key]} of {present[key]} people away; "
                               f"at most {share_of(share)} of them may be")
                 used = present[key] - gone[key] + arrived[key] + hires_held[key]
@@ -538,7 +464,7 @@ class _Checker:
         for key in sorted(expected_keys - set(reported)):
             self.flag("costs", f"{key[1]} in {key[0]}", "row missing")
         for key in set(spend) | set(reported):
-            if not _close(spend.get(key, 0.0), reported.get(key, 0.0), tol=1e-4):
+            if not close(spend.get(key, 0.0), reported.get(key, 0.0), tol=1e-4):
                 stated, priced = _amounts(self.i, reported.get(key, 0.0), spend.get(key, 0.0))
                 self.flag("costs", f"{key[1]} in {key[0]}",
                           f"says {stated}; recomputed {priced}", line_of.get(key))
@@ -548,10 +474,10 @@ class _Checker:
             line = {cap: sum(spend[(year, kind)] for kind in kinds)
                     for cap, kinds in BUDGET_LINES}
             hiring, moves = line["hiring"], line["moves"]
-            if budget.hiring is not None and _over(hiring, budget.hiring):
+            if budget.hiring is not None and over(hiring, budget.hiring):
                 spent, cap = _amounts(self.i, hiring, budget.hiring)
                 self.flag("hiring_budget", year, f"hiring spend {spent} exceeds {cap}")
-            if budget.moves is not None and _over(moves, budget.moves):
+            if budget.moves is not None and over(moves, budget.moves):
                 spent, cap = _amounts(self.i, moves, budget.moves)
                 self.flag("moves_budget", year, f"moves spend {spent} exceeds {cap}")
         self.total_cost = sum(spend.values())
@@ -581,7 +507,7 @@ def _check_summary(checker: _Checker, summary: dict[str, object],
     out = []
     for key, reported, value, tol in stated_figures:
         number = isinstance(reported, int | float) and not isinstance(reported, bool)
-        if not number or not _close(float(reported), value, tol=tol):  # type: ignore[arg-type]
+        if not number or not close(float(reported), value, tol=tol):  # type: ignore[arg-type]
             if number and (key == "total_cost" or key.startswith("cost_by_kind.")):
                 said, recomputed = _amounts(checker.i, float(reported), value)  # type: ignore[arg-type]
             else:

@@ -4,8 +4,8 @@ A plan edited by hand in one place (a work row moved to another office, more FTE
 person has, a detail that may not be) leaves coverage.csv as it was: each coverage row the
 edit touches then differs from its recomputed figures in several columns, and each of those
 lines had read as one more problem.  Here such a line is linked to the violation it follows
-from (:attr:`~rebalance.verify.Violation.follows`, the first where several apply; the rest are
-its ``also_follows``), so a report can show it under the first and name the others.
+from (:attr:`~rebalance.verify_rules.Violation.follows`, the first where several apply; the
+rest are its ``also_follows``), so a report can show it under the first and name the others.
 
 A coverage line follows from a cause only where all of this holds, else it stays a problem
 of its own:
@@ -32,19 +32,15 @@ another count than the row's, the count is what was edited, and that is the one 
 from __future__ import annotations
 
 import math
-import re
 from collections import defaultdict
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, replace
-from pathlib import PurePath
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
 from rebalance.instance import Instance
 from rebalance.numbers import distinct_texts, money_text, number_text
 from rebalance.plan import Plan, records
-
-if TYPE_CHECKING:
-    from rebalance.verify import Violation
+from rebalance.verify_rules import ABS_TOL, Violation, close
 
 __all__ = ["KNOCK_ONS_SHOWN", "KNOCK_ON_RULES", "PROBLEMS_SHOWN", "ViolationGroup",
            "group_problems", "hire_cost_lines", "link_knock_ons", "money_amounts"]
@@ -57,12 +53,6 @@ KNOCK_ONS_SHOWN = 3
 KNOCK_ON_RULES = frozenset(f"coverage_{column}" for column in (
     "staff_output", "hire_output", "covered", "shortfall", "weighted_shortfall"))
 PERSON_TABLES = ("work", "details", "reassignments")
-TOL = 1e-6  # absolute and relative, as the verifier's own comparisons
-LINE = re.compile(r":(\d+)$")
-
-
-def _close(a: float, b: float) -> bool:
-    return abs(a - b) <= TOL + TOL * max(abs(a), abs(b))
 
 
 def money_amounts(instance: Instance, *values: float) -> list[str]:
@@ -84,13 +74,13 @@ def hire_cost_lines(instance: Instance, count: float, onboarding: tuple[float, f
     """
     costs = {"onboarding_cost": onboarding, "salary_cost": salary}
     wrong = {name: (found, each * count) for name, (found, each) in costs.items()
-             if not _close(found, each * count)}
+             if not close(found, each * count)}
     if not wrong:
         return []
     telling = [name for name, (_, each) in costs.items() if each > 0]
     if telling and math.isfinite(ratio := costs[telling[0]][0] / costs[telling[0]][1]):
         fit = round(ratio)
-        if fit >= 1 and fit != count and all(_close(found, each * fit)
+        if fit >= 1 and fit != count and all(close(found, each * fit)
                                              for found, each in costs.values()):
             return [f"count {number_text(count)} disagrees with {' and '.join(telling)}, "
                     f"which fit{'s' if len(telling) == 1 else ''} {fit}"]
@@ -99,16 +89,6 @@ def hire_cost_lines(instance: Instance, count: float, onboarding: tuple[float, f
         stated, priced = money_amounts(instance, found, expected)
         lines.append(f"{name.replace('_', ' ')} {stated} but {priced} applies")
     return lines
-
-
-def _line(v: Violation) -> int | None:
-    found = LINE.search(v.file)
-    return None if found is None else int(found.group(1))
-
-
-def _table(v: Violation) -> str:
-    """The plan table a violation's file is ("work" for ``plans/a/work.csv:7``)."""
-    return PurePath(LINE.sub("", v.file)).name.removesuffix(".csv")
 
 
 def link_knock_ons(instance: Instance, plan: Plan, violations: Sequence[Violation],
@@ -149,7 +129,7 @@ def link_knock_ons(instance: Instance, plan: Plan, violations: Sequence[Violatio
     person_causes: dict[tuple[str, int], int] = {}  # the first violation of each
     hire_causes: list[tuple[int, str, str, int]] = []
     for ix, v in enumerate(violations):
-        table, line = _table(v), _line(v)
+        table, line = v.table, v.line
         found: list[tuple[str, int]] = []
         if table in PERSON_TABLES and line is not None and line in rows[table]:
             row = rows[table][line]
@@ -166,8 +146,8 @@ def link_knock_ons(instance: Instance, plan: Plan, violations: Sequence[Violatio
 
     flagged: dict[int, set[str]] = defaultdict(set)
     for v in violations:
-        if v.rule.startswith("coverage_") and (line := _line(v)) is not None:
-            flagged[line].add(v.rule)
+        if v.rule.startswith("coverage_") and v.line is not None:
+            flagged[v.line].add(v.rule)
     causes_in: dict[int, list[tuple[str, int]]] = defaultdict(list)  # period -> person, cause
     for (name, t), ix in person_causes.items():
         causes_in[t].append((name, ix))
@@ -186,7 +166,7 @@ def link_knock_ons(instance: Instance, plan: Plan, violations: Sequence[Violatio
             most = sum(people[name].proficiency(skill) * max(
                 fte_of[(name, t)], instance.available_fte(people[name], t)) for name, _ in near)
             change = abs(staff[(office, skill, t)] - float(row.staff_output_fte))
-            if not near or change > most + TOL:
+            if not near or change > most + ABS_TOL:
                 continue
             causes += [ix for _, ix in near]
         if "coverage_hire_output" in rules:
@@ -199,7 +179,7 @@ def link_knock_ons(instance: Instance, plan: Plan, violations: Sequence[Violatio
             cause_of[line] = sorted(set(causes))
     return [replace(v, follows=violations[cause_of[line][0]],
                     also_follows=tuple(violations[ix] for ix in cause_of[line][1:]))
-            if v.rule in KNOCK_ON_RULES and (line := _line(v)) in cause_of else v
+            if v.rule in KNOCK_ON_RULES and (line := v.line) in cause_of else v
             for v in violations]
 
 
@@ -209,9 +189,9 @@ def _agrees(row: Any) -> bool:
     demand, output = float(row.demand_fte), float(row.staff_output_fte) + float(
         row.hire_output_fte)
     shortfall = max(0.0, demand - output)
-    return (_close(float(row.covered_fte), min(demand, output))
-            and _close(float(row.shortfall_fte), shortfall)
-            and _close(float(row.weighted_shortfall), float(row.priority) * shortfall))
+    return (close(float(row.covered_fte), min(demand, output))
+            and close(float(row.shortfall_fte), shortfall)
+            and close(float(row.weighted_shortfall), float(row.priority) * shortfall))
 
 
 @dataclass(frozen=True)

@@ -147,7 +147,7 @@ FILE_OF_RULE = {
 def test_each_printed_violation_leads_with_its_file_and_says_no_rule_code(tiny_plan, rule):
     # A planner's reading of `rebalance verify`: "one_detail: person E0003 in 2027-Q3: ..."
     # read as an internal name, "period index 0" as code, and named no file to open.
-    from rebalance.verify import RULES
+    from rebalance.verify_rules import RULES
 
     instance, result = tiny_plan
     broken = BREAKS[rule](instance, result.plan)
@@ -580,6 +580,24 @@ def test_verify_on_a_plan_folder_counts_problems_and_knock_ons_and_exits_as_fail
     assert [line.split(": ")[0] for line in out[1:]] == [
         f"  - {path}:2", f"      so {tmp_path / 'plan' / 'coverage.csv'}:2",
         f"      so {tmp_path / 'plan' / 'coverage.csv'}:7"]
+
+
+def test_a_violation_carries_its_table_and_line_as_fields_and_prints_them(tiny_plan, tmp_path):
+    # The rule itself (no outside source): the causes are linked from a violation's table and
+    # line, not read back out of its printed file; the file printed is made from them.  One
+    # work row moved, as in the first case (work.csv:2; coverage.csv:2 and :7 follow).
+    instance, result = tiny_plan
+    folder = tmp_path / "plan"
+    write_outputs(result, folder)
+    work = pd.read_csv(folder / "work.csv")
+    work.loc[0, "office"] = "B"
+    work.to_csv(folder / "work.csv", index=False)
+    found = verify_folder(instance, folder)
+    assert [(v.table, v.line) for v in found if not v.follows] == [("work", 2)]
+    assert sorted({(v.table, v.line) for v in found if v.follows}) == [
+        ("coverage", 2), ("coverage", 7)]
+    for v in found:
+        assert v.file == f"{folder / (v.table + '.csv')}:{v.line}", v
 
 
 # -- one line per office and run of periods with the same seats excess ------------------------

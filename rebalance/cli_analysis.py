@@ -7,12 +7,11 @@ as in ``rebalance/cli.py``.
 from __future__ import annotations
 
 import argparse
-import json
 import textwrap
 from collections import Counter
 from collections.abc import Callable, Sequence
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Any
 
 from rebalance.cli_common import (
     COUNT,
@@ -45,8 +44,6 @@ from rebalance.solve import Status
 if TYPE_CHECKING:
     import pandas as pd
 
-    from rebalance.planning import PlanResult
-
 
 def _analysis_options(instance, args: argparse.Namespace, progress: bool = False):
     from rebalance.planning import options_from_instance
@@ -76,37 +73,30 @@ def _write_analysis_plan(args: argparse.Namespace, result, instance: Instance,
                          more: Callable[[Path], None] | None = None,
                          replanned_at: int | None = None, scenario: str | None = None,
                          assumed: dict | None = None) -> int:
-    """Write a verified analysis plan to ``args.out`` with ``tables``, its reasons (worked
-    out here unless ``tables`` holds reasons.csv) and the report; ``more`` adds to the folder
-    first.  ``instance_path`` is recorded for 'rebalance report'; ``assumed``, what a
-    re-plan's scenario changed (:func:`rebalance.report.scenario_notes.scenario_entry`), for
-    its page's box."""
-    from rebalance.analysis.output import write_tables
-    from rebalance.analysis.reasons import reasons
-    from rebalance.planning import CAUTION, write_outputs
-    from rebalance.report.files import plan_extras
+    """Write a verified analysis plan to ``args.out`` (:func:`write_plan_folder`, with the
+    frontier.csv already there kept).  A re-plan's summary.json says which re-plan it is and
+    ``assumed``, what its scenario changed
+    (:func:`rebalance.report.scenario_notes.scenario_entry`), for its page's box."""
+    from rebalance.files import staged_folder
+    from rebalance.planning import CAUTION
+    from rebalance.report.files import write_plan_folder
 
-    def extra(result: PlanResult, folder: Path) -> None:
-        assert result.plan is not None  # write_outputs writes only a plan
-        # Given where the caller has them already (a re-plan worked them out for its
-        # change reasons); else worked out here.
-        found = tables if "reasons.csv" in tables else {
-            **tables, "reasons.csv": reasons(instance, result.plan, replanned_at).table}
-        write_tables(found, folder)
-        if replanned_at is not None:
-            # Which re-plan this is, for the report and for whoever reads the folder later.
-            summary = json.loads((folder / "summary.json").read_text())
-            summary["replan"] = {"from_period": instance.period_names[replanned_at],
-                                 "scenario": scenario}
-            if assumed is not None:
-                summary[SCENARIO_KEY] = assumed
-            (folder / "summary.json").write_text(json.dumps(summary, indent=2) + "\n")
+    summary: dict[str, Any] = {}
+    if replanned_at is not None:
+        # Which re-plan this is, for the report and for whoever reads the folder later.
+        summary["replan"] = {"from_period": instance.period_names[replanned_at],
+                             "scenario": scenario}
+        if assumed is not None:
+            summary[SCENARIO_KEY] = assumed
+
+    def more_files(folder: Path) -> None:
         if more is not None:
             more(folder)
         _keep_frontier(args.out, folder)
-        plan_extras(instance_path)(result, folder)
 
-    write_outputs(result, args.out, extra=extra)
+    with staged_folder(args.out, kind="plan") as folder:
+        write_plan_folder(result, folder, summary, tables, replanned_at, instance_path,
+                          more_files)
     print(f"\n{written} written to {args.out}/")
     print("\nCaution: " + CAUTION)
     return EXIT_OK
@@ -123,17 +113,11 @@ def _say_gaps(table: pd.DataFrame) -> None:
         print("\n" + textwrap.fill(caution, width=90, break_on_hyphens=False))
 
 
-
-
 def cmd_compare(args: argparse.Namespace) -> int:
-    from rebalance.analysis.output import write_tables
     from rebalance.analysis.scenario_files import ScenarioError, folder_name, read_scenarios
     from rebalance.analysis.scenarios import compare_scenarios
-    from rebalance.plan import write_plan
-    from rebalance.planning import summary_dict
     from rebalance.report.analysis_words import FROM_BASE_WORDS, scenario_lines, status_in_words
-    from rebalance.report.files import write_reports
-    from rebalance.report.inputs import report_data
+    from rebalance.report.files import write_plan_folder
     from rebalance.report.scenario_notes import scenario_entry
 
     instance = _load(args.instance)
@@ -190,19 +174,16 @@ def cmd_compare(args: argparse.Namespace) -> int:
                 continue
             sub = folder / "scenarios" / folder_name(name)
             sub.mkdir(parents=True)
-            write_plan(other.plan, sub)
             # Which scenario's data it keeps: verify against the instance names it; and what
             # the scenario changed, for its page's and workbook's box (the storm's page had
-            # shown a hiring cap with no word that part of it was the scenario's).
-            summary = {**summary_dict(other), "scenario": name,
-                       SCENARIO_KEY: scenario_entry(by_name[name], instance, other.instance)}
-            (sub / "summary.json").write_text(json.dumps(summary, indent=2) + "\n")
-            # Worked out once, by the comparison (for its held_back_by column).
-            write_tables({"reasons.csv": comparison.reasons[name]}, sub)
-            # Its own report.html and plan.xlsx (a leader had only CSV files to open), drawn
-            # against the scenario's instance, so their figures and verification are its own.
-            # No instance_path: the base instance's would verify it against the wrong data.
-            write_reports(report_data(other, sub), sub)
+            # shown a hiring cap with no word that part of it was the scenario's).  Its
+            # reasons worked out once, by the comparison (for its held_back_by column); its
+            # report.html and plan.xlsx (a leader had only CSV files to open) drawn against
+            # the scenario's instance, so their figures and verification are its own.  No
+            # instance_path: the base instance's would verify it against the wrong data.
+            write_plan_folder(other, sub, {"scenario": name, SCENARIO_KEY: scenario_entry(
+                by_name[name], instance, other.instance)},
+                {"reasons.csv": comparison.reasons[name]})
 
     if len(comparison.actions):
         # The console shows each scenario's actions_differing only: the rows and their

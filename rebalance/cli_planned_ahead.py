@@ -8,7 +8,6 @@ figures come from :mod:`rebalance.analysis.planned_ahead`, the words from
 
 from __future__ import annotations
 
-import json
 import textwrap
 from collections.abc import Callable
 from pathlib import Path
@@ -55,25 +54,14 @@ def planned_ahead_folder(ahead: PlanResult, scenario: str | None, assumed: dict 
     where there is no plan."""
     if ahead.plan is None:
         return None
-    from rebalance.analysis.output import write_tables
-    from rebalance.analysis.reasons import reasons
-    from rebalance.plan import write_plan
-    from rebalance.planning import summary_dict
-    from rebalance.report.files import write_reports
-    from rebalance.report.inputs import report_data
+    from rebalance.report.files import write_plan_folder
 
     def write(folder: Path) -> None:
-        assert ahead.plan is not None  # checked above; for the type checker
         sub = folder / AHEAD_FOLDER
         sub.mkdir()
-        write_plan(ahead.plan, sub)
         # The scenario's data, not the instance's: no instance path, so 'rebalance report'
         # asks for one rather than verify it against the wrong data.
-        summary = {**summary_dict(ahead), "scenario": scenario, SCENARIO_KEY: assumed,
-                   AHEAD_KEY: {"for_replan_at": at}}
-        (sub / "summary.json").write_text(json.dumps(summary, indent=2) + "\n")
-        write_tables({"reasons.csv": reasons(ahead.instance, ahead.plan).table}, sub)
-        write_reports(report_data(ahead, sub), sub)
+        write_plan_folder(ahead, sub, {"scenario": scenario, SCENARIO_KEY: assumed,
+                                       AHEAD_KEY: {"for_replan_at": at}})
 
     return write
-

@@ -10,8 +10,8 @@ import shutil
 from collections.abc import Iterator
 from pathlib import Path
 
-__all__ = ["OutputInUse", "instance_file", "mark_folder", "output_problem", "sibling_name",
-           "staged_folder"]
+__all__ = ["OutputInUse", "atomic_file", "instance_file", "mark_folder", "output_problem",
+           "sibling_name", "staged_folder"]
 
 # Written into every folder staged with a kind: its content names the kind, so a later run
 # replaces only a folder of the same kind that this tool wrote.
@@ -29,6 +29,24 @@ def sibling_name(path: Path) -> Path:
     once renamed, where a colleague reading the plan expects the usual mode.
     """
     return path.with_name(f".{path.name}.{secrets.token_hex(8)}.tmp")
+
+
+@contextlib.contextmanager
+def atomic_file(path: str | Path) -> Iterator[Path]:
+    """A fresh name beside ``path`` to write the file under: renamed into place when the block
+    ends, removed if it fails, so ``path`` holds the whole new file or its old content.
+
+    ``path``'s folder is made where it is missing.  Same folder, so the rename is atomic.
+    """
+    target = Path(path)
+    target.parent.mkdir(parents=True, exist_ok=True)
+    tmp = sibling_name(target)
+    try:
+        yield tmp
+        os.replace(tmp, target)
+    except BaseException:
+        tmp.unlink(missing_ok=True)  # begun, say, before a full disk stopped it
+        raise
 
 
 def output_problem(out_dir: str | Path, kind: str | None) -> str | None:

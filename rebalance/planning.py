@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import json
 import time
-from collections.abc import Callable, Collection, Hashable
+from collections.abc import Callable, Collection, Hashable, Mapping
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
@@ -26,7 +26,8 @@ from rebalance.verify import Violation, verify_plan
 
 __all__ = ["BUILD_STAGE", "PlanResult", "RunRate", "make_plan", "new_position_salaries",
            "options_from_instance", "plan_run_rate", "plan_warnings", "run_rate_consequence",
-           "run_rate_note", "run_rate_warning", "summary_dict", "write_outputs"]
+           "run_rate_note", "run_rate_warning", "summary_dict", "write_outputs",
+           "write_plan_files"]
 
 
 # The one stage of a run cut short while its model was built (no solver stage ran).
@@ -288,13 +289,25 @@ def write_seconds(instance: Instance) -> float:
     return WRITE_SECONDS_BASE + WRITE_SECONDS_PER_PERSON * len(instance.staff)
 
 
+def write_plan_files(result: PlanResult, folder: Path,
+                     summary: Mapping[str, Any] | None = None) -> None:
+    """Write the plan tables and summary.json into ``folder`` (made already): what every plan
+    folder holds, the run's own and an analysis's scenario plans alike.  ``summary``'s keys
+    follow :func:`summary_dict`'s (which scenario, which re-plan, where the instance is)."""
+    if result.plan is None:
+        raise ValueError("no plan to write")
+    write_plan(result.plan, folder)
+    (folder / "summary.json").write_text(
+        json.dumps({**summary_dict(result), **(summary or {})}, indent=2) + "\n",
+        encoding="utf-8")
+
+
 def write_outputs(result: PlanResult, out_dir: str | Path,
                   extra: Callable[[PlanResult, Path], None] | None = None) -> None:
     """Write plan tables and summary.json atomically (and ``extra`` files in the same swap)."""
-    if result.plan is None:
+    if result.plan is None:  # before a folder is staged
         raise ValueError("no plan to write")
     with staged_folder(out_dir, kind="plan") as folder:
-        write_plan(result.plan, folder)
-        (folder / "summary.json").write_text(json.dumps(summary_dict(result), indent=2) + "\n")
+        write_plan_files(result, folder)
         if extra is not None:
             extra(result, folder)

@@ -9,13 +9,12 @@ sheets live here, and the reader takes them from here.
 from __future__ import annotations
 
 import csv
-import os
 import re
 import tomllib
 from pathlib import Path
 from typing import Any
 
-from rebalance.files import sibling_name
+from rebalance.files import atomic_file
 from rebalance.readers import OPTIONAL_TABLES, REQUIRED_TABLES
 from rebalance.settings_reader import SETTINGS_KEYS
 
@@ -77,15 +76,8 @@ def folder_to_workbook(folder: str | Path, path: str | Path,
         for cell in sheet[1]:
             cell.font = Font(bold=True)
         sheet.freeze_panes = "A2"
-    # Whole or not at all: under a fresh name beside the target, then renamed into place.
-    target.parent.mkdir(parents=True, exist_ok=True)
-    tmp = sibling_name(target)
-    try:
+    with atomic_file(target) as tmp:  # whole or not at all
         wb.save(tmp)
-        os.replace(tmp, target)
-    except BaseException:
-        tmp.unlink(missing_ok=True)
-        raise
     if rows is not None:
         rows.update({ws.title: sum(1 for cells in ws.iter_rows(min_row=2, values_only=True)
                                    if any(c is not None for c in cells)) for ws in wb.worksheets})

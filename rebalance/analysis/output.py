@@ -1,14 +1,13 @@
-"""Write analysis tables as CSV files, atomically: each file is written whole under a
-temporary name in its folder and renamed into place, so a reader never sees half a table."""
+"""Write analysis tables as CSV files, atomically (:func:`rebalance.files.atomic_file`), so a
+reader never sees half a table."""
 
 from __future__ import annotations
 
-import os
 from pathlib import Path
 
 import pandas as pd
 
-from rebalance.files import sibling_name
+from rebalance.files import atomic_file
 
 __all__ = ["write_table", "write_tables"]
 
@@ -20,17 +19,10 @@ CSV_DIGITS = 12
 
 def write_table(frame: pd.DataFrame, path: str | Path) -> Path:
     """Write ``frame`` to ``path`` (CSV, no index, numbers to :data:`CSV_DIGITS` significant
-    digits) by temp file and ``os.replace``."""
+    digits), whole or not at all."""
     target = Path(path)
-    target.parent.mkdir(parents=True, exist_ok=True)
-    tmp = sibling_name(target)
-    try:
-        with open(tmp, "x", encoding="utf-8", newline="") as handle:
-            frame.to_csv(handle, index=False, float_format=f"%.{CSV_DIGITS}g")
-        os.replace(tmp, target)
-    except BaseException:
-        tmp.unlink(missing_ok=True)
-        raise
+    with atomic_file(target) as tmp, open(tmp, "x", encoding="utf-8", newline="") as handle:
+        frame.to_csv(handle, index=False, float_format=f"%.{CSV_DIGITS}g")
     return target
 
 

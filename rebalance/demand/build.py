@@ -7,7 +7,6 @@ horizon and monthly forecasts are summed into it.  ``demand_trace.csv`` holds on
 
 from __future__ import annotations
 
-import os
 import re
 from collections.abc import Mapping
 from dataclasses import dataclass, replace
@@ -27,7 +26,7 @@ from rebalance.demand.history import (
 )
 from rebalance.demand.quality import QualityResult, check_quality
 from rebalance.demand.standards import EffortStandards, estimate_standards, forecast_noncase
-from rebalance.files import OutputInUse, sibling_name, staged_folder
+from rebalance.files import OutputInUse, atomic_file, staged_folder
 from rebalance.instance import Period
 from rebalance.problems import Problem
 from rebalance.readers import read_tables
@@ -379,18 +378,6 @@ def _check_horizon(history: History, periods: tuple[Period, ...],
                                 "newest arrivals; expected recent records"))
 
 
-def _write_csv_atomic(frame: pd.DataFrame, path: Path) -> Path:
-    """Write to a temporary file beside ``path``; the caller renames it into place."""
-    tmp = sibling_name(path)
-    try:
-        # Ten significant digits keep volume x hours_per_case = hours exact to well under 0.01 h.
-        frame.to_csv(tmp, index=False, float_format="%.10g")
-    except BaseException:
-        tmp.unlink(missing_ok=True)  # begun, say, before a full disk stopped it
-        raise
-    return tmp
-
-
 def write_demand(result: DemandResult, instance_dir: str | Path,
                  report_dir: str | Path | None = None) -> Path:
     """Write demand.csv and demand_trace.csv into the instance and the report folder.
@@ -404,42 +391,46 @@ def write_demand(result: DemandResult, instance_dir: str | Path,
     report = Path(report_dir) if report_dir is not None else folder / "demand_report"
     demand = result.demand.copy()
     demand["hours"] = demand["hours"].map("{:.2f}".format)
-    staged: list[tuple[Path, Path]] = []
     writing = folder  # what a failed write is said of: the folder written into, not a temporary
+    written = "nothing was written"  # until the report folder is swapped in
     try:
-        staged.append((_write_csv_atomic(demand, folder / "demand.csv"), folder / "demand.csv"))
-        staged.append((_write_csv_atomic(result.trace, folder / "demand_trace.csv"),
-                       folder / "demand_trace.csv"))
-        writing = report
-        with staged_folder(report) as tmp:
-            q = result.quality
-            result.backtest.to_csv(tmp / "backtest.csv", index=False, float_format="%.4f")
-            result.forecasts.to_csv(tmp / "forecasts.csv", index=False, float_format="%.3f")
-            result.standards.table.to_csv(tmp / "effort_standards.csv", index=False,
-                                          float_format="%.4f")
-            result.noncase.assign(month=result.noncase["month"].map(month_name)).to_csv(
-                tmp / "noncase_forecast.csv", index=False, float_format="%.3f")
-            q.summary.to_csv(tmp / "qc_summary.csv", index=False, float_format="%.2f")
-            kind = result.period_kind
-
-            def named(frame: pd.DataFrame) -> pd.DataFrame:
-                return frame.assign(period=[period_name(kind, int(p)) for p in frame["period"]])
-
-            named(q.compliance).to_csv(tmp / "qc_compliance.csv", index=False,
-                                       float_format="%.4f")
-            flagged = q.records[q.records["check"] != ""]
-            named(flagged).drop(columns=["month"]).to_csv(
-                tmp / "qc_flagged_records.csv", index=False, float_format="%.3f")
-            q.coverage.to_csv(tmp / "qc_coverage.csv", index=False, float_format="%.4f")
-            (tmp / "qc_verdict.txt").write_text(q.verdict + "\n", encoding="utf-8")
-    except BaseException as exc:
-        for tmp_path, _ in staged:
-            tmp_path.unlink(missing_ok=True)
-        if isinstance(exc, OSError):
-            reason = exc.strerror or type(exc).__name__
-            raise OutputInUse(f"{writing}: cannot be written ({reason}); nothing was "
-                              "written") from None
-        raise
-    for tmp_path, target in staged:
-        os.replace(tmp_path, target)
+        # Renamed into place only once the report folder is swapped in: all three or none.
+        with (atomic_file(folder / "demand.csv") as demand_tmp,
+              atomic_file(folder / "demand_trace.csv") as trace_tmp):
+            # Ten significant digits keep volume x hours_per_case = hours exact to well under
+            # 0.01 h.
+            demand.to_csv(demand_tmp, index=False, float_format="%.10g")
+            result.trace.to_csv(trace_tmp, index=False, float_format="%.10g")
+            writing = report
+            _write_report(result, report)
+            writing = folder
+            written = f"only the report in {report} was written"
+    except OSError as exc:
+        reason = exc.strerror or type(exc).__name__
+        raise OutputInUse(f"{writing}: cannot be written ({reason}); {written}") from None
     return report
+
+
+def _write_report(result: DemandResult, report: Path) -> None:
+    """The demand report's tables and QC verdict, swapped in as one folder."""
+    with staged_folder(report) as tmp:
+        q = result.quality
+        result.backtest.to_csv(tmp / "backtest.csv", index=False, float_format="%.4f")
+        result.forecasts.to_csv(tmp / "forecasts.csv", index=False, float_format="%.3f")
+        result.standards.table.to_csv(tmp / "effort_standards.csv", index=False,
+                                      float_format="%.4f")
+        result.noncase.assign(month=result.noncase["month"].map(month_name)).to_csv(
+            tmp / "noncase_forecast.csv", index=False, float_format="%.3f")
+        q.summary.to_csv(tmp / "qc_summary.csv", index=False, float_format="%.2f")
+        kind = result.period_kind
+
+        def named(frame: pd.DataFrame) -> pd.DataFrame:
+            return frame.assign(period=[period_name(kind, int(p)) for p in frame["period"]])
+
+        named(q.compliance).to_csv(tmp / "qc_compliance.csv", index=False,
+                                   float_format="%.4f")
+        flagged = q.records[q.records["check"] != ""]
+        named(flagged).drop(columns=["month"]).to_csv(
+            tmp / "qc_flagged_records.csv", index=False, float_format="%.3f")
+        q.coverage.to_csv(tmp / "qc_coverage.csv", index=False, float_format="%.4f")
+        (tmp / "qc_verdict.txt").write_text(q.verdict + "\n", encoding="utf-8")

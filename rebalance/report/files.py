@@ -8,17 +8,22 @@ the folder alone (plus the instance), e.g. after analysis tables have been added
 from __future__ import annotations
 
 import json
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from pathlib import Path
+from typing import Any
 
+import pandas as pd
+
+from rebalance.analysis.output import write_tables
+from rebalance.analysis.reasons import reasons
 from rebalance.instance import Instance
-from rebalance.planning import PlanResult
+from rebalance.planning import PlanResult, write_plan_files
 from rebalance.report.html import write_html
 from rebalance.report.inputs import ReportData, report_data, report_data_from_folder
 from rebalance.report.workbook import write_workbook
 from rebalance.verify import Violation
 
-__all__ = ["REPORT_FILES", "plan_extras", "rebuild_reports", "write_reports"]
+__all__ = ["REPORT_FILES", "plan_extras", "rebuild_reports", "write_plan_folder", "write_reports"]
 
 REPORT_FILES = ("report.html", "plan.xlsx")
 
@@ -46,6 +51,32 @@ def plan_extras(instance_path: str | Path | None = None) -> Callable[[PlanResult
         write_reports(report_data(result, folder), folder)
 
     return extra
+
+
+def write_plan_folder(result: PlanResult, folder: Path,
+                      summary: Mapping[str, Any] | None = None,
+                      tables: Mapping[str, pd.DataFrame] | None = None,
+                      replanned_at: int | None = None,
+                      instance_path: str | Path | None = None,
+                      more: Callable[[Path], None] | None = None) -> None:
+    """Fill ``folder`` (made already, inside a staged swap) with a verified plan: its tables
+    and summary.json (``summary``'s keys after its own), ``tables`` with its reasons (worked
+    out here, re-planned from ``replanned_at``, unless ``tables`` holds reasons.csv),
+    ``more``'s files, then report.html and plan.xlsx, which show all of those.
+    ``instance_path`` is recorded for 'rebalance report'; None where the plan's data are not
+    the instance folder's (a scenario's), so the report asks rather than mislead."""
+    assert result.plan is not None  # callers write only a verified plan
+    keys = dict(summary or {})
+    if instance_path is not None:
+        keys["instance_path"] = str(Path(instance_path).resolve())
+    write_plan_files(result, folder, keys)
+    found = dict(tables or {})
+    if "reasons.csv" not in found:
+        found["reasons.csv"] = reasons(result.instance, result.plan, replanned_at).table
+    write_tables(found, folder)
+    if more is not None:
+        more(folder)
+    write_reports(report_data(result, folder), folder)
 
 
 def rebuild_reports(plan_dir: str | Path, instance: Instance,

@@ -647,10 +647,11 @@ def test_held_back_by_ranks_the_limits_the_new_shortfall_cites(tiny) -> None:
 def test_compare_works_out_each_plans_reasons_once(tmp_path: Path, monkeypatch) -> None:
     # reasons() had run twice on each scenario's plan: for scenarios.csv's held_back_by and
     # again for the scenario folder's reasons.csv.  Counted where each caller looks it up:
-    # the comparison's module, and the reasons module itself (imported by the CLI at call).
+    # the comparison's module, and the plan folder's writer (report/files.py).
     import sys
 
     import rebalance.analysis.scenarios as scenarios_module
+    import rebalance.report.files as files_module
     from rebalance.analysis.reasons import REASON_COLUMNS
     from rebalance.cli import main
 
@@ -665,6 +666,7 @@ def test_compare_works_out_each_plans_reasons_once(tmp_path: Path, monkeypatch) 
 
     monkeypatch.setattr(scenarios_module, "reasons", counted)
     monkeypatch.setattr(reasons_module, "reasons", counted)
+    monkeypatch.setattr(files_module, "reasons", counted)
     scenario = tmp_path / "surge.toml"
     scenario.write_text('name = "b-surge"\n[[demand]]\noffices = ["B"]\nskills = ["review"]\n'
                         'periods = ["2027-Q3", "2027-Q4"]\nmultiplier = 1.5\n')

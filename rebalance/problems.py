@@ -12,14 +12,31 @@ from typing import Any, TypeGuard
 
 from rebalance.numbers import counted, plain_number
 
-__all__ = ["Problem", "close_names", "did_you_mean", "is_finite_number", "problems_counted",
-           "range_words"]
+__all__ = ["Problem", "UnknownName", "close_names", "did_you_mean", "is_finite_number",
+           "problems_counted", "range_words"]
 
 # How alike a name must be to a known one to be suggested (difflib's ratio, 0 to 1): 0.6,
 # difflib's own default, catches a dropped or swapped letter or two without offering an
 # unrelated name; two suggestions at most, as a longer list is the "expected" list again.
 CLOSE_MATCH_CUTOFF = 0.6
 CLOSE_MATCHES_SHOWN = 2
+
+
+@dataclass(frozen=True)
+class UnknownName:
+    """A name a cell gives that the table defining such names does not list, as data: a name
+    unknown in many rows is said once (``tables.collapse_repeats``) by grouping on it."""
+
+    kind: str  # office, skill, period, ...
+    name: str
+    defined_in: str  # where such names are listed: "skills.csv", "settings.toml (2027-Q1)"
+    hint: str = ""  # a did_you_mean, or ""
+
+    @property
+    def message(self) -> str:
+        """``unknown skill 'x'; expected one listed in skills.csv`` and the hint."""
+        return (f"unknown {self.kind} '{self.name}'; expected one listed in {self.defined_in}"
+                f"{self.hint}")
 
 
 @dataclass(frozen=True)
@@ -34,6 +51,12 @@ class Problem:
     # Rows this one line stands for: one fault on many rows is listed a few times, then once
     # more for the rest (``collapse_repeats``), and a count of problems counts them all.
     repeats: int = 1
+    # What the message says, as data, for the readers that merge problems: the name of an
+    # unknown-name problem; the settings key (as written) of an unknown key's; the unknown keys
+    # a missing setting's message names as perhaps meant as it (settings_reader.read_periods).
+    unknown_name: UnknownName | None = None
+    unknown_key: str | None = None
+    meant_keys: tuple[str, ...] = ()
 
     def __str__(self) -> str:
         where = self.file if self.row is None else f"{self.file}:{self.row}"

@@ -7,8 +7,10 @@ Every problem is collected, not just the first, each naming the dotted key it is
 
 from __future__ import annotations
 
+import datetime as dt
 import re
 from collections.abc import Collection, Iterable, Mapping
+from dataclasses import dataclass
 from typing import Any, TypeGuard
 
 from rebalance.instance import Money, MoveCostDefaults, Objective, Period, Policy, SolverSettings
@@ -23,6 +25,7 @@ from rebalance.problems import (
 
 __all__ = [
     "SETTINGS_KEYS",
+    "CellDate",
     "known_period_names",
     "meant_for",
     "read_money",
@@ -75,6 +78,36 @@ MAX_SHORTFALL_COST = 1e12
 _PERIOD_HOURS = re.compile(r"horizon\.periods\[\d+\]\.hours_per_fte")
 
 
+@dataclass(frozen=True)
+class CellDate:
+    """A settings value a workbook's cell holds as a date: a spreadsheet reads 2027-01-01 typed
+    in a cell as one, and only such a cell's message says so (a TOML date, or text such as
+    2027Q1, is no cell's)."""
+
+    value: dt.date  # a datetime is a date too
+
+    @property
+    def day(self) -> dt.date:
+        """The date without its time."""
+        return self.value.date() if isinstance(self.value, dt.datetime) else self.value
+
+    @property
+    def shown(self) -> str:
+        """The date as the cell shows it: ISO, with no time at midnight."""
+        midnight = self.value == dt.datetime.combine(self.day, dt.time())
+        return (self.day if midnight else self.value).isoformat()
+
+    @property
+    def quarter(self) -> str:
+        """The quarter the date falls in, as a period is named: ``2027-Q1``."""
+        return f"{self.day.year}-Q{(self.day.month - 1) // 3 + 1}"
+
+    def instead_of(self, what: str, typed: str, example: str) -> str:
+        """The message for a date in a cell that expects ``what`` as text (``a quarter``)."""
+        return (f"the cell holds a date ({self.shown}), not {what}; type {typed} as text, e.g. "
+                f"{example} (a spreadsheet reads 2027-01-01 typed in a cell as a date)")
+
+
 def warn_unknown_settings(settings: Mapping[str, Any], problems: list[Problem]) -> None:
     """A warning for each setting nothing reads: a typo (``max_away_shares``) would otherwise
     leave the default in force without a word; an error where :func:`typo_words` says so."""
@@ -82,7 +115,8 @@ def warn_unknown_settings(settings: Mapping[str, Any], problems: list[Problem]) 
         given = key.rpartition(".")[2]  # the key within its section, as ``expected`` lists it
         problems.append(Problem("settings.toml", None, key, f"unknown {what}, ignored (expected "
                                 "one of: " + ", ".join(expected) + ")"
-                                + (hint or did_you_mean(given, expected)), is_warning=True))
+                                + (hint or did_you_mean(given, expected)), is_warning=True,
+                                unknown_key=key if what == "key" else None))
 
     sections = list(dict.fromkeys(key.partition(".")[0] for key in SETTINGS_KEYS))
     given = {f"{section}.{key}" for section, table in settings.items()
@@ -91,8 +125,8 @@ def warn_unknown_settings(settings: Mapping[str, Any], problems: list[Problem]) 
         if section not in sections:
             typos = [(f"{section}.{key}", typo_words(f"{section}.{key}", given))
                      for key in (table if isinstance(table, dict) else {})]
-            problems += [Problem("settings.toml", None, key, words) for key, words in typos
-                         if words]
+            problems += [Problem("settings.toml", None, key, words, unknown_key=key)
+                         for key, words in typos if words]
             if any(words for _, words in typos):
                 continue  # its keys' errors say where they belong
             # A key of a section written above every section (title = "..." at the top).
@@ -108,7 +142,8 @@ def warn_unknown_settings(settings: Mapping[str, Any], problems: list[Problem]) 
             if key in keys:
                 continue
             if words := typo_words(f"{section}.{key}", given):
-                problems.append(Problem("settings.toml", None, f"{section}.{key}", words))
+                problems.append(Problem("settings.toml", None, f"{section}.{key}", words,
+                                        unknown_key=f"{section}.{key}"))
             else:
                 warn(f"{section}.{key}", "key", keys)
     listed = settings.get("horizon", {})
@@ -199,13 +234,21 @@ def _shown(value: Any) -> str:
     return f"'{value}'"
 
 
+def _invalid(value: Any) -> str:
+    """``'x' is not valid``; for a workbook cell holding a date, that it does (the date as the
+    cell shows it, not as ISO text with a time)."""
+    if isinstance(value, CellDate):
+        return f"the cell holds a date ({value.shown}), which is not valid"
+    return f"{_shown(value)} is not valid"
+
+
 def _not_valid(value: Any) -> str:
-    """``'x' is not valid``; for a number in quotes (hours_per_fte = "450"), that it is text:
+    """:func:`_invalid` of a number; for one in quotes (hours_per_fte = "450"), that it is text:
     TOML reads it as a string, and "'450' is not valid" left the quotes unsaid (a sweep)."""
     if isinstance(value, str) and re.fullmatch(r"[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?",
                                                value.strip()):
         return f'"{value}" is text in quotes, not a number (remove the quotes)'
-    return f"{_shown(value)} is not valid"
+    return _invalid(value)
 
 
 def _period_text(entry: Mapping[str, Any], key: str) -> str | None:
@@ -242,17 +285,20 @@ def read_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
     """The planning periods (listed in ``horizon.periods`` or generated from ``horizon.start``
     and ``count``) and the periods per year; none where the horizon cannot be read.
 
-    A required key said missing names the unknown keys that may be meant as it, and their
-    warnings (from :func:`warn_unknown_settings`, called first) are taken back: one problem
-    says both."""
+    A required key said missing names the unknown keys that may be meant as it (in
+    ``Problem.meant_keys`` too), and their warnings are taken back: one problem says both.
+    The unknown keys are those of ``settings`` and of the problems already said about one
+    (``Problem.unknown_key``: :func:`warn_unknown_settings`'s, called first, or a workbook's
+    key rows, which its reader leaves out of ``settings``); this is the one place that rule
+    lives."""
     def bad(key: str, message: str) -> None:
         problems.append(Problem("settings.toml", None, key, message))
 
     def missing(key: str, message: str) -> None:
         words, meant = meant_for(key, given)
-        problems[:] = [p for p in problems if not (
-            p.is_warning and p.file == "settings.toml" and p.column in meant)]
-        bad(key, message + words)
+        problems[:] = [p for p in problems if not (p.is_warning and p.unknown_key in meant)]
+        problems.append(Problem("settings.toml", None, key, message + words,
+                                meant_keys=tuple(meant)))
 
     horizon = settings.get("horizon", {})
     if not isinstance(horizon, dict):
@@ -262,6 +308,8 @@ def read_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
     given = [f"horizon.{k}" for k in horizon] + [  # the keys as written, for missing()
         f"horizon.periods[{i}].{k}" for i, e in enumerate(
             listed if isinstance(listed, list) else [], 1) if isinstance(e, dict) for k in e]
+    # Taken before missing() takes any back: each missing key may name the same one.
+    given = list(dict.fromkeys(given + [p.unknown_key for p in problems if p.unknown_key]))
     periods_per_year = horizon.get("periods_per_year", 4)
     if not _whole(periods_per_year) or periods_per_year < 1:
         bad("horizon.periods_per_year",
@@ -286,8 +334,8 @@ def read_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
         for i, entry in enumerate(listed, 1):
             key = f"horizon.periods[{i}]"
             if not isinstance(entry, dict):
-                bad(key, f"{_shown(entry)} is not valid; expected a table with name, year and "
-                    "optional hours_per_fte")
+                bad(key, f"{_invalid(entry)}; expected a table with name, year and optional "
+                    "hours_per_fte")
                 continue
             name, budget_year = _period_text(entry, "name"), _period_text(entry, "year")
             for part, value, expected in (
@@ -298,7 +346,7 @@ def read_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
                     missing(f"{key}.{part}", f"is missing; expected {expected}")
                 elif value is None:
                     found = ("is empty" if isinstance(entry[part], str)
-                             else f"{_shown(entry[part])} is not valid")
+                             else _invalid(entry[part]))
                     bad(f"{key}.{part}", f"{found}; expected {expected}")
             hours = entry.get("hours_per_fte", default_hours)
             if "hours_per_fte" in entry and (not is_finite_number(hours) or hours <= 0):
@@ -320,11 +368,11 @@ def read_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
         # start cell had read as "give either periods or start", with no row).
         if start is None:
             missing("horizon.start", "is missing; expected text such as \"2027-Q1\"")
+        elif isinstance(start, CellDate):
+            bad("horizon.start", start.instead_of("a quarter", "the quarter", start.quarter))
         elif match is None:
             bad("horizon.start", f"{_shown(start)} is not a quarter; expected text such as "
-                "\"2027-Q1\"" + (" (a spreadsheet reads 2027-01-01 typed in a cell as a date)"
-                                 if isinstance(start, str)
-                                 and re.match(r"\d{4}-\d\d-\d\d", start) else ""))
+                "\"2027-Q1\"")
         if count is None:
             missing("horizon.count", f"is missing; expected a whole number from 1 to "
                     f"{MAX_PERIODS}")
@@ -394,8 +442,7 @@ def read_sections(settings: Mapping[str, Any], problems: list[Problem]) -> tuple
     mode = obj_t.get("mode", "shortfall-first")
     if mode not in ("shortfall-first", "weighted"):
         problems.append(Problem("settings.toml", None, "objective.mode",
-                                f"{_shown(mode)} is not valid; expected shortfall-first or "
-                                "weighted"))
+                                f"{_invalid(mode)}; expected shortfall-first or weighted"))
         mode = "shortfall-first"
     objective = Objective(
         mode=mode,
@@ -409,7 +456,7 @@ def read_sections(settings: Mapping[str, Any], problems: list[Problem]) -> tuple
     name = solver_t.get("name", "highs")
     if name not in ("highs", "cbc"):
         problems.append(Problem("settings.toml", None, "solver.name",
-                                f"{_shown(name)} is not valid; expected highs or cbc"))
+                                f"{_invalid(name)}; expected highs or cbc"))
         name = "highs"
     solver = SolverSettings(
         name=name,
@@ -441,7 +488,7 @@ def read_money(settings: Mapping[str, Any], problems: list[Problem]) -> Money:
             and not any(c.isspace() for c in text)):
         problems.append(Problem(
             "settings.toml", None, "money.currency",
-            f"{_shown(value)} is not valid; expected text of 1 to {CURRENCY_MAX_CHARACTERS} "
+            f"{_invalid(value)}; expected text of 1 to {CURRENCY_MAX_CHARACTERS} "
             "characters without spaces, such as \"EUR\", \"USD\" or \"\u20ac\""))
         return Money()
     return Money(text)
@@ -461,13 +508,14 @@ def read_title(settings: Mapping[str, Any], problems: list[Problem]) -> str | No
     if "title" not in report:
         return None
     value = report["title"]
-    # A whole number is text to a reader (a workbook cell of 2027 reads as one), as a year is.
-    text = _period_text(report, "title") or ""
+    # A whole number is text to a reader (a workbook cell of 2027 reads as one), as a year is,
+    # and a cell's date the date it shows.
+    text = value.shown if isinstance(value, CellDate) else _period_text(report, "title") or ""
     # One line of printable text (no tab or line break): it heads a page and a workbook cell.
     if not (1 <= len(text) <= TITLE_MAX_CHARACTERS and text.isprintable()):
         problems.append(Problem(
             "settings.toml", None, "report.title",
-            f"{_shown(value)} is not valid; expected one line of text of 1 to "
+            f"{_invalid(value)}; expected one line of text of 1 to "
             f"{TITLE_MAX_CHARACTERS} characters, such as \"Permit review staffing\""))
         return None
     return text

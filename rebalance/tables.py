@@ -14,7 +14,6 @@ import codecs
 import csv
 import io
 import math
-import re
 from collections import Counter
 from collections.abc import Iterable, Iterator, Mapping
 from dataclasses import dataclass, replace
@@ -24,7 +23,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from rebalance.problems import Problem, did_you_mean, range_words
+from rebalance.problems import Problem, UnknownName, did_you_mean, range_words
 
 __all__ = [
     "NotUtf8",
@@ -36,7 +35,6 @@ __all__ = [
     "read_csv_table",
     "read_utf8",
     "table_problems",
-    "unknown_name",
 ]
 
 TRUE_WORDS = {"true", "yes", "y", "1"}
@@ -63,20 +61,10 @@ class RawTable:
     fault: tuple[int | None, str] | None = None
 
 
-# An unknown name, as :meth:`TableRows.reference` and the staff skills say it; parsed back by
-# :func:`collapse_repeats` to say a name missing from many rows once.
-UNKNOWN_NAME = re.compile(r"unknown (?P<kind>[a-z_ ]+) '(?P<name>.*)'; expected one listed in "
-                          r"(?P<where>.+?)(?P<hint> \(did you mean .*\?\))?")
 # A name unknown in this many rows or more is one line; fewer keep a line per row.
 UNKNOWN_NAME_ROWS = 3
 # Row numbers that line shows per file, before "and N more".
 ROWS_NAMED = 5
-
-
-def unknown_name(kind: str, name: str, defined_in: str, hint: str = "") -> str:
-    """The message for a cell naming what ``defined_in`` does not list (``hint``: a
-    :func:`~rebalance.problems.did_you_mean`)."""
-    return f"unknown {kind} '{name}'; expected one listed in {defined_in}{hint}"
 
 
 def collapse_repeats(problems: list[Problem], keep: int = 10) -> list[Problem]:
@@ -102,32 +90,30 @@ def _unknown_names(problems: list[Problem]) -> list[Problem]:
     in place of the first: a skill deleted from skills.csv had drawn 88 lines, ten per file
     and a count of the rest at the end, none saying the fix is one row in skills.csv.  Each
     row is still counted as a problem (``repeats``; a row naming it twice, once), and the
-    line says so."""
-    matches = [None if p.is_warning else UNKNOWN_NAME.fullmatch(p.message) for p in problems]
+    line says so.  Grouped on each problem's :class:`~rebalance.problems.UnknownName`."""
+    def key(p: Problem) -> tuple[str, str, str] | None:
+        name = None if p.is_warning else p.unknown_name
+        return None if name is None else (name.kind, name.name, name.defined_in)
+
     rows: dict[tuple[str, str, str], dict[str, set[int | None]]] = {}
-    for p, match in zip(problems, matches, strict=True):
-        if match is not None:
-            key = (match["kind"], match["name"], match["where"])
-            rows.setdefault(key, {}).setdefault(p.file, set()).add(p.row)
+    for p in problems:
+        if (k := key(p)) is not None:
+            rows.setdefault(k, {}).setdefault(p.file, set()).add(p.row)
     out: list[Problem] = []
     said: set[tuple[str, str, str]] = set()
-    for p, match in zip(problems, matches, strict=True):
-        if match is None:
+    for p in problems:
+        k = key(p)
+        if k is None or sum(map(len, rows[k].values())) < UNKNOWN_NAME_ROWS:
             out.append(p)
-            continue
-        key = (match["kind"], match["name"], match["where"])
-        if sum(map(len, rows[key].values())) < UNKNOWN_NAME_ROWS:
-            out.append(p)
-        elif key not in said:
-            said.add(key)
-            out.append(_unknown_name_line(p, key, rows[key], match["hint"] or ""))
+        elif k not in said and p.unknown_name is not None:
+            said.add(k)
+            out.append(_unknown_name_line(p, p.unknown_name, rows[k]))
     return out
 
 
-def _unknown_name_line(first: Problem, key: tuple[str, str, str],
-                       files: Mapping[str, set[int | None]], hint: str) -> Problem:
+def _unknown_name_line(first: Problem, unknown: UnknownName,
+                       files: Mapping[str, set[int | None]]) -> Problem:
     """One line for a name unknown in many rows of ``files``, located at its ``first``."""
-    kind, name, where = key
     total = sum(map(len, files.values()))
     used = []
     for file, numbers in files.items():
@@ -136,11 +122,12 @@ def _unknown_name_line(first: Problem, key: tuple[str, str, str],
         more = f" and {len(numbers) - ROWS_NAMED} more" if len(numbers) > ROWS_NAMED else ""
         count = f"{len(numbers)} row{'s' * (len(numbers) != 1)}"
         used.append(f"{file} ({count}: {shown}{more})" if shown else f"{file} ({count})")
+    where = unknown.defined_in
     target = where.split(" (")[0]
     return Problem(first.file, first.row, first.column,
-                   f"{kind} '{name}' is not in {where} but is named in {total} rows, each "
-                   f"counted as a problem: {', '.join(used)}; add it to {target} or correct "
-                   f"those rows{hint}", repeats=total)
+                   f"{unknown.kind} '{unknown.name}' is not in {where} but is named in {total} "
+                   f"rows, each counted as a problem: {', '.join(used)}; add it to {target} or "
+                   f"correct those rows{unknown.hint}", repeats=total)
 
 
 def table_problems(table: RawTable) -> list[Problem]:
@@ -415,10 +402,12 @@ class TableRows:
 
     def unknown(self, column: str, value: str, known: Iterable[Any], kind: str,
                 defined_in: str) -> None:
-        """Say the cell names ``value``, which ``defined_in`` does not list (:func:`unknown_name`,
-        with what it may have meant)."""
-        self.error(column, unknown_name(kind, value, defined_in,
-                                        self.suggest(column, value, known)))
+        """Say the cell names ``value``, which ``defined_in`` does not list, with what it may
+        have meant; the problem carries the name as an :class:`~rebalance.problems.UnknownName`
+        (:func:`collapse_repeats` groups on it)."""
+        name = UnknownName(kind, value, defined_in, self.suggest(column, value, known))
+        self.problems.append(Problem(self.table.label, self.row_number, column, name.message,
+                                     unknown_name=name))
 
     def suggest(self, column: str | None, value: str, known: Iterable[Any]) -> str:
         """:func:`~rebalance.problems.did_you_mean` for an unknown ``value`` in ``column``,

@@ -32,7 +32,7 @@ from rebalance.readers import (
     InstanceError,
     build_instance,
 )
-from rebalance.settings_reader import SETTINGS_KEYS, meant_for, typo_words
+from rebalance.settings_reader import SETTINGS_KEYS, CellDate, typo_words
 from rebalance.tables import RawTable, known_case
 from rebalance.workbook_layout import Layout, sheet_layout, sheet_parts
 from rebalance.workbook_writer import (
@@ -133,10 +133,9 @@ def read_workbook(path: str | Path) -> Instance:
     settings: dict[str, Any] = {}
     key_rows: dict[str, int] = {}
     unknown_rows: dict[str, int] = {}
-    dates: dict[str, dt.date] = {}
     if SETTINGS_SHEET in sheets:
-        settings, key_rows, dates = _settings(sheets[SETTINGS_SHEET], label(SETTINGS_SHEET),
-                                              problems, unknown_rows)
+        settings, key_rows = _settings(sheets[SETTINGS_SHEET], label(SETTINGS_SHEET), problems,
+                                       unknown_rows)
     else:
         problems.append(Problem(label(SETTINGS_SHEET), None, None, "sheet is missing; expected "
                                 "a sheet named settings with columns key and value, one "
@@ -154,25 +153,19 @@ def read_workbook(path: str | Path) -> Instance:
     try:
         instance = build_instance(name, settings, tables, problems)
     except InstanceError as exc:
-        # Unknown keys a missing setting's problem names as perhaps meant: not said again.
-        meant_rows = {unknown_rows[k] for p in exc.problems for k in _meant(p, unknown_rows)[1]}
-
         def kept(source: Problem, said: Problem) -> bool:
             if merged.get((said.file, said.row, said.column), said.message) != said.message:
                 return False  # said once already, as a merged or a date cell
-            if said.is_warning and said.file == label(SETTINGS_SHEET) and (
-                    said.row in meant_rows and said.column == "key"):
-                return False
             # A setting of a sheet that could not be read is said by the sheet's problem.
             return settings_read or source.file != "settings.toml" or (
                 said.file != label(SETTINGS_SHEET))
 
-        said = [(p, _relabel(p, book, title, key_rows, dates, periods_sheet, unknown_rows))
+        said = [(p, _relabel(p, book, title, key_rows, periods_sheet, unknown_rows))
                 for p in exc.problems]
         raise InstanceError(_in_row_order([p for source, p in said if kept(source, p)],
                                           label(SETTINGS_SHEET))) from None
-    warnings = tuple(str(_relabel(p, book, title, key_rows, dates, periods_sheet,
-                                  unknown_rows)) for p in problems if p.is_warning)
+    warnings = tuple(str(_relabel(p, book, title, key_rows, periods_sheet, unknown_rows))
+                     for p in problems if p.is_warning)
     return instance.with_changes(warnings=warnings)
 
 
@@ -378,12 +371,11 @@ def _dates_for_periods(sheets: Mapping[str, _Sheet],
     """Errors for date cells where a period name or a budget year is expected (a sweep:
     they had read as "unknown period '2027-01-01T00:00:00'", in the periods sheet named every
     period so, and in the budget sheet as "budget year '2027-01-01' belongs to no period")."""
-    def period(day: dt.date) -> str:
-        return (f"not a period name; type the period name as text, e.g. "
-                f"{day.year}-Q{(day.month - 1) // 3 + 1}")
+    def period(day: CellDate) -> str:
+        return day.instead_of("a period name", "the period name", day.quarter)
 
-    def year(day: dt.date) -> str:
-        return f"not a budget year; type the year's name as text, e.g. {day.year}"
+    def year(day: CellDate) -> str:
+        return day.instead_of("a budget year", "the year's name", str(day.day.year))
 
     out = []
     for cells_of, what in ((_PERIOD_CELLS, period), (_YEAR_CELLS, year)):
@@ -393,13 +385,8 @@ def _dates_for_periods(sheets: Mapping[str, _Sheet],
             for number, cells in enumerate(sheet.raw_rows, 2):
                 for i, column in at:
                     value = cells[i] if i < len(cells) else None
-                    if isinstance(value, dt.datetime | dt.date):
-                        day = value.date() if isinstance(value, dt.datetime) else value
-                        shown = _text(value if value != dt.datetime.combine(day, dt.time())
-                                      else day)
-                        out.append(Problem(label(name), number, column, (
-                            f"the cell holds a date ({shown}), {what(day)} (a spreadsheet "
-                            "reads 2027-01-01 typed in a cell as a date)")))
+                    if isinstance(value, dt.date):  # a datetime is a date too
+                        out.append(Problem(label(name), number, column, what(CellDate(value))))
     return out
 
 
@@ -431,27 +418,26 @@ def _typed(value: Any) -> Any:
             return text
     if isinstance(value, float) and math.isfinite(value) and value == int(value):
         return int(value)
-    if isinstance(value, dt.datetime | dt.date):
-        return value.isoformat()
+    if isinstance(value, dt.date):  # kept a date, so its message can say the cell holds one
+        return CellDate(value)
     return value
 
 
 def _settings(sheet: _Sheet, label: str, problems: list[Problem],
-              unknown_rows: dict[str, int]) -> tuple[
-        dict[str, Any], dict[str, int], dict[str, dt.date]]:
-    """Nested settings from ``key | value`` rows, the sheet row of each key, and the value of
-    each key whose cell holds a date (a date or a datetime); the row of each unknown key goes
-    in ``unknown_rows``."""
+              unknown_rows: dict[str, int]) -> tuple[dict[str, Any], dict[str, int]]:
+    """Nested settings from ``key | value`` rows (a date cell's value as a
+    :class:`~rebalance.settings_reader.CellDate`) and the sheet row of each key; the row of
+    each unknown key goes in ``unknown_rows``, its problem names it (``Problem.unknown_key``),
+    so the settings reader can say a required key it lacks may be meant as it."""
     settings: dict[str, Any] = {}
     key_rows: dict[str, int] = {}
-    dates: dict[str, dt.date] = {}
     columns = [c.lower() for c in sheet.columns]
     for needed in ("key", "value"):
         if needed not in columns:
             problems.append(Problem(label, 1, needed, "required column is missing (the "
                                     "settings sheet has columns key, value and optional note)"))
     if "key" not in columns or "value" not in columns:
-        return settings, key_rows, dates
+        return settings, key_rows
     key_at, value_at = columns.index("key"), columns.index("value")
     # Keys ignoring case, as the column names are: "Horizon.Start" had been refused.
     known = {k.lower(): k for k in SETTINGS_KEYS}
@@ -474,7 +460,8 @@ def _settings(sheet: _Sheet, label: str, problems: list[Problem],
             unknown.append((len(problems), key))
             problems.append(Problem(label, row_number, "key", f"unknown key '{key}', ignored "
                                     "(expected one of: " + ", ".join(SETTINGS_KEYS) + ")"
-                                    + did_you_mean(key, SETTINGS_KEYS), is_warning=True))
+                                    + did_you_mean(key, SETTINGS_KEYS), is_warning=True,
+                                    unknown_key=key))
             unknown_rows.setdefault(key, row_number)
             continue
         key_rows[key] = row_number
@@ -482,15 +469,13 @@ def _settings(sheet: _Sheet, label: str, problems: list[Problem],
             continue  # blank value: the default applies, as when a key is left out of TOML
         section, _, name = key.partition(".")
         settings.setdefault(section, {})[name] = _typed(value)
-        if isinstance(value, dt.date):  # a datetime is a date too
-            dates[key] = value
     # A close match for an optional key the sheet gives no value: an error, as in a folder
     # (settings_reader.typo_words); known only once every row is read.
     given = {f"{section}.{name}" for section, table in settings.items() for name in table}
     for at, key in unknown:
         if words := typo_words(key, given, dotted=True):
             problems[at] = replace(problems[at], message=f"{key}: {words}", is_warning=False)
-    return settings, key_rows, dates
+    return settings, key_rows
 
 
 def _in_row_order(problems: list[Problem], sheet: str) -> list[Problem]:
@@ -523,24 +508,14 @@ def _periods(sheet: _Sheet, label: str, settings: dict[str, Any],
         horizon["periods"] = listed
 
 
-def _meant(problem: Problem, unknown_rows: Mapping[str, int]) -> tuple[str, list[str]]:
-    """:func:`meant_for` of a setting the reader says is missing, from the sheet's unknown
-    keys (dropped before the reader, it cannot name them itself)."""
-    key = problem.column or ""
-    if problem.file != "settings.toml" or problem.is_warning or not (
-            key == "horizon" or problem.message.startswith("is missing")):
-        return "", []
-    return meant_for(key, unknown_rows)
-
-
 def _relabel(problem: Problem, book: str, title: Callable[[str], str],
-             key_rows: Mapping[str, int], dates: Mapping[str, dt.date],
-             periods_sheet: bool, unknown_rows: Mapping[str, int]) -> Problem:
+             key_rows: Mapping[str, int], periods_sheet: bool,
+             unknown_rows: Mapping[str, int]) -> Problem:
     """Rename a problem that :func:`build_instance` located in a folder's files; ``title``
-    gives a sheet's name as the book spells it.  A missing setting is put on the row of an
-    unknown key that may be meant as it."""
-    words, meant = _meant(problem, unknown_rows)
-    message = _sheet_words(problem.message, title, periods_sheet) + words
+    gives a sheet's name as the book spells it.  A missing setting is put on the row of the
+    first unknown key it names as perhaps meant as it (``Problem.meant_keys``)."""
+    message = _sheet_words(problem.message, title, periods_sheet)
+    meant = [k for k in problem.meant_keys if k in unknown_rows]
     file = problem.file
     if file == "settings.toml":
         key = problem.column or ""
@@ -552,7 +527,6 @@ def _relabel(problem: Problem, book: str, title: Callable[[str], str],
         if key == "horizon.periods":
             return Problem(f"{book}[{title(PERIODS_SHEET)}]", None, None, message,
                            problem.is_warning)
-        message = _date_words(message, dates.get(key))
         if key in key_rows:
             return Problem(f"{book}[{title(SETTINGS_SHEET)}]", key_rows[key], "value",
                            f"{key}: {message}", problem.is_warning)
@@ -564,25 +538,6 @@ def _relabel(problem: Problem, book: str, title: Callable[[str], str],
     if file.endswith(".csv") and file.removesuffix(".csv") in COLUMNS:
         file = f"{book}[{title(file.removesuffix('.csv'))}]"
     return replace(problem, file=file, message=message)
-
-
-# What the settings reader adds to a horizon.start that is not a quarter: true of a cell that
-# holds a date, not of one that holds text ('2027Q1' had drawn it too).
-_DATE_HINT = " (a spreadsheet reads 2027-01-01 typed in a cell as a date)"
-
-
-def _date_words(message: str, day: dt.date | None) -> str:
-    """A settings message as it fits the cell: the hint about dates only where the cell holds
-    one, and that value shown as the date the cell shows, not as ISO text with a time."""
-    if day is None:
-        return message.replace(_DATE_HINT, "")
-    plain = day.date() if isinstance(day, dt.datetime) else day
-    shown = _text(plain if day == dt.datetime.combine(plain, dt.time()) else day)
-    if message.endswith(_DATE_HINT):  # horizon.start: said as a period cell's date is
-        return (f"the cell holds a date ({shown}), not a quarter; type the quarter as text, "
-                f"e.g. {plain.year}-Q{(plain.month - 1) // 3 + 1}{_DATE_HINT}")
-    return message.replace(f"'{day.isoformat()}' is ", f"the cell holds a date ({shown}), "
-                           "which is ", 1)
 
 
 def _sheet_words(message: str, title: Callable[[str], str], periods_sheet: bool) -> str:

@@ -350,6 +350,25 @@ def test_a_count_of_problems_counts_the_rows_a_repeat_stands_for():
     assert len(listed) == 11 and count_problems(listed) == 15
 
 
+def test_a_name_unknown_in_many_rows_is_grouped_on_the_name_the_problem_carries():
+    # The one line for a name unknown in many rows is built from the name each problem
+    # carries (Problem.unknown_name), not from its words: a message that reads alike but
+    # carries no name is listed as it is.  Counts by hand: 3 rows, UNKNOWN_NAME_ROWS is 3.
+    from rebalance.problems import Problem, UnknownName
+    from rebalance.tables import UNKNOWN_NAME_ROWS, collapse_repeats
+
+    name = UnknownName("skill", "intake", "skills.csv", " (did you mean 'intakes'?)")
+    carried = [Problem("staff.csv", row, "skills", name.message, unknown_name=name)
+               for row in range(2, 2 + UNKNOWN_NAME_ROWS)]
+    [line] = collapse_repeats(carried)
+    assert (line.row, line.repeats) == (2, UNKNOWN_NAME_ROWS)
+    assert line.message == ("skill 'intake' is not in skills.csv but is named in 3 rows, each "
+                            "counted as a problem: staff.csv (3 rows: 2, 3, 4); add it to "
+                            "skills.csv or correct those rows (did you mean 'intakes'?)")
+    alike = [Problem("staff.csv", p.row, p.column, p.message) for p in carried]
+    assert collapse_repeats(alike) == alike
+
+
 def test_settings_numbers_are_finite_and_shortfall_cost_is_bounded(tmp_path):
     # A sweep of weighted mode: shortfall_cost = inf passed check and then every solve ended
     # in a solver error; 1e100 made CBC call a feasible model infeasible.
@@ -774,9 +793,10 @@ def test_every_bad_title_is_said_with_its_key_and_a_top_level_one_where_it_belon
 
 def test_a_mistyped_start_in_settings_toml_gets_no_spreadsheet_hint(tmp_path):
     # The hint that a spreadsheet turns 2027-01-01 into a date fits a workbook's cell, not a
-    # settings.toml typo, nor a TOML date (TOML reads an unquoted 2027-01-01 as one).
-    for start in ('"2027Q1"', "2027-01-01"):
-        target = tmp_path / start.strip('"')
+    # settings.toml typo, nor a TOML date (TOML reads an unquoted 2027-01-01 as one), nor the
+    # same date quoted, which TOML reads as text (TOML 1.0.0 spec, "Local Date" and "String").
+    for i, start in enumerate(('"2027Q1"', "2027-01-01", '"2027-01-01"')):
+        target = tmp_path / str(i)
         shutil.copytree(DATA / "tiny", target)
         settings = target / "settings.toml"
         lines = settings.read_text().splitlines()

@@ -184,12 +184,18 @@ class _Cells(TableRows):
         super().__init__(table, problems, (required, optional))
 
     def choice(self, row: Mapping[str, str], column: str, known: Mapping[str, Any] | set[str]
-               | tuple[str, ...] | None, what: str) -> str | None:
-        """A value from ``known``; ``known`` None accepts any (names could not be read)."""
+               | tuple[str, ...] | None, what: str = "", *, listed_in: str = "") -> str | None:
+        """A value from ``known``; ``known`` None accepts any (names could not be read).  An
+        unknown value is said as not ``what`` was expected, or as not listed in the file
+        ``listed_in`` (then a name unknown in many rows is said once, as the instance's)."""
         value = self.text(row, column)
         if value is not None and known is not None and value not in known:
-            self.error(column, f"unknown {column.replace('_', ' ')} '{value}'; expected {what}"
-                       + self.suggest(column, value, known))
+            kind = column.replace("_", " ")
+            if listed_in:
+                self.unknown(column, value, known, kind, listed_in)
+            else:
+                self.error(column, f"unknown {kind} '{value}'; expected {what}"
+                           + self.suggest(column, value, known))
             return None
         return value
 
@@ -438,7 +444,7 @@ def _read_arrivals(table: RawTable, problems: list[Problem], offices: set[str] |
     rejected: set[tuple[str, str, int]] = set()
     for row in cells:
         month = cells.month(row, "month")
-        office = cells.choice(row, "office", offices, "one listed in the instance's offices.csv")
+        office = cells.choice(row, "office", offices, listed_in="the instance's offices.csv")
         if case_types is None:
             case_type = cells.text(row, "case_type")
         else:
@@ -486,8 +492,8 @@ def _read_records(table: RawTable, problems: list[Problem], offices: set[str] | 
     for row in cells:
         person = cells.text(row, "person")
         period = cells.period(row, "period", kinds)
-        office = cells.choice(row, "office", offices, "one listed in the instance's offices.csv")
-        skill = cells.choice(row, "skill", skills, "one listed in the instance's skills.csv")
+        office = cells.choice(row, "office", offices, listed_in="the instance's offices.csv")
+        skill = cells.choice(row, "skill", skills, listed_in="the instance's skills.csv")
         activity = cells.text(row, "activity")
         # Hours out of plausible bounds are a quality finding, not an error here; only a
         # magnitude no timesheet holds is (1e300 had been written out as 300 digits).
@@ -533,7 +539,7 @@ def _read_adjustments(table: RawTable | None, problems: list[Problem], offices: 
     cells = _Cells(table, "adjustments", problems)
     rows: list[tuple[str, str | None, int, int, float, str]] = []
     for row in cells:
-        office = cells.choice(row, "office", offices, "one listed in the instance's offices.csv")
+        office = cells.choice(row, "office", offices, listed_in="the instance's offices.csv")
         case_type = None
         if row.get("case_type"):
             case_type = cells.choice(row, "case_type", case_types,

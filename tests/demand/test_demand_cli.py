@@ -302,3 +302,19 @@ def test_an_output_folder_that_cannot_be_written_is_a_refused_output_with_nothin
     assert f"{said}: cannot be written (Permission denied); nothing was written" in err, err
     assert "internal error" not in err and ".tmp" not in err
     assert sorted(p.name for p in out.iterdir()) == before  # no temporary left behind either
+
+
+def test_an_office_unknown_in_many_history_rows_is_said_once(tmp_path: Path, capsys) -> None:  # type: ignore[no-untyped-def]
+    # An office missing from the instance drew ten lines and "and N more rows like this";
+    # the instance's own tables say such a name once, with its rows (tables.collapse_repeats).
+    history = tmp_path / "history"
+    shutil.copytree(DEMO_HISTORY, history)
+    for row in range(2, 14):
+        _edit(history / "case_arrivals.csv", row, "office", "atlantis")
+    instance = _instance_without_demand(tmp_path / "instance")
+    assert main(["demand", str(history), "-o", str(instance)]) == EXIT_INVALID_INPUT
+    err = capsys.readouterr().err
+    assert err.count("'atlantis'") == 1, err
+    assert ("office 'atlantis' is not in the instance's offices.csv but is named in 12 rows"
+            in err)
+    assert "more rows like this" not in err

@@ -722,6 +722,13 @@ def test_a_start_typed_as_text_gets_no_hint_about_dates(tmp_path):
     (problem,) = _edited_book(tmp_path, count)
     assert problem.message == ("horizon.count: the cell holds a date (1900-01-04), which is "
                                "not valid; expected a whole number from 1 to 400")
+    # A title is text: a date cell reads as the date it shows (ECMA-376 Part 1, 18.3.1.4, as
+    # above), as a number cell reads as the number; it had read '2027-05-01T00:00:00'.
+    book = folder_to_workbook(TINY, tmp_path / "titled.xlsx")
+    wb = load_workbook(book)
+    wb["settings"].append(["report.title", datetime.datetime(2027, 5, 1)])
+    wb.save(book)
+    assert read_workbook(book).title == "2027-05-01"
 
 
 def test_a_sheet_is_named_as_the_book_spells_it(tmp_path):

@@ -18,6 +18,9 @@ from rebalance.numbers import money_header, with_currency
 
 ObjectiveMode = Literal["shortfall-first", "weighted"]
 SolverName = Literal["highs", "cbc"]
+# A rule of the data that rules an action out (Instance.move_ruled_out, hire_ruled_out).
+RuledOut = Literal["left", "may_not_detail", "no_details", "may_not_relocate", "may_not_hire",
+                   "before_time_to_hire", "no_demand", "no_vacancy"]
 
 
 @dataclass(frozen=True)
@@ -242,6 +245,14 @@ class Instance:
         object.__setattr__(self, "_office", {o.name: o for o in self.offices})
         object.__setattr__(self, "_skill", {s.name: s for s in self.skills})
         object.__setattr__(self, "_budget", {b.year: b for b in self.budgets})
+        # (office, skill) -> periods with demand above 0 (a repeated row: the last one's, as
+        # the model reads demand), for the hires a start could cover.
+        fte = {(d.office, d.skill, d.period): d.fte for d in self.demand}
+        wanted: dict[tuple[str, str], list[int]] = {}
+        for (o, k, t), x in fte.items():
+            if x > 0:
+                wanted.setdefault((o, k), []).append(t)
+        object.__setattr__(self, "_wanted", wanted)
 
     # -- look-ups -------------------------------------------------------------------------
     @property
@@ -266,6 +277,13 @@ class Instance:
 
     def budget(self, year: str) -> Budget | None:
         return self._budget.get(year)  # type: ignore[attr-defined]
+
+    def budget_cap(self, year: str, cap_name: str) -> float | None:
+        """The ``cap_name`` ("hiring" or "moves") cap of budget year ``year``; None where
+        there is none (a blank cap, or a year with no row in budget.csv)."""
+        budget = self.budget(year)
+        cap: float | None = None if budget is None else getattr(budget, cap_name)
+        return cap
 
     # -- semantics shared by the model and the verifier ------------------------------------
     def detail_cost_per_period(self, from_office: str, to_office: str) -> float:
@@ -313,6 +331,65 @@ class Instance:
         ramp = self.skill(skill).ramp
         productivity = ramp[j] if j < len(ramp) else 1.0
         return productivity * self.retention(self.attrition_rate(skill, office), j)
+
+    def hire_cost_by_year(self, skill: str, start: int, count: float = 1.0, *,
+                          new_position: bool) -> dict[str, float]:
+        """What ``count`` hires of ``skill`` starting in period ``start`` cost the hiring
+        budget, by budget year (docs/model.md, hiring_budget): onboarding in the start
+        period's year, and for a new position the salary of every period from the start to
+        the horizon's end, in that period's year; a vacancy hire pays onboarding only.  Years
+        it pays nothing in are left out.  The single statement of the rule: the model's rows,
+        the re-plan's added hires, the binding test and the reasons all call it."""
+        k = self.skill(skill)
+        years = [p.year for p in self.periods[start:]]
+        cost = {}
+        for year in dict.fromkeys(years):
+            amount = k.onboarding_cost if year == years[0] else 0.0
+            if new_position:
+                amount += k.salary_per_period * years.count(year)
+            if amount:
+                cost[year] = count * amount
+        return cost
+
+    # -- what the data rule out -------------------------------------------------------------
+    # One statement of which rules leave an action no place, each a RuledOut code: the model
+    # has no column for a hire they rule out (model._add_hire_columns), a re-plan refuses
+    # such a past (replan_checks) and a change's reason says the data force it
+    # (change_reasons).  Which to say first, and in what words, is each caller's.
+    def move_ruled_out(self, person: Person, period: int,
+                       what: Literal["detail", "reassignment"]) -> tuple[RuledOut, ...]:
+        """Every rule of the data that rules out ``person``'s detail or reassignment in
+        ``period``: they have left by then, may not go on detail (or no one may), may not be
+        reassigned.  Empty where none does."""
+        out: list[RuledOut] = []
+        if not person.is_present(period):
+            out.append("left")
+        if what == "detail":
+            if not person.can_detail:
+                out.append("may_not_detail")
+            if self.policy.max_consecutive_detail_periods == 0:
+                out.append("no_details")
+        elif not person.can_relocate:
+            out.append("may_not_relocate")
+        return tuple(out)
+
+    def hire_ruled_out(self, office: str, skill: str, start: int, *,
+                       new_position: bool) -> tuple[RuledOut, ...]:
+        """Every rule of the data that leaves no hire of ``skill`` at ``office`` starting in
+        period ``start``: the office may not hire (max_hires_per_period 0), the start is
+        before the skill's time to hire, no demand from the start on that a hire would
+        cover, or (a vacancy hire) no funded vacancy there.  Empty where none does."""
+        out: list[RuledOut] = []
+        if self.office(office).max_hires_per_period == 0:
+            out.append("may_not_hire")
+        if start < self.skill(skill).time_to_hire:
+            out.append("before_time_to_hire")
+        if not any(t >= start and self.hire_fte(skill, office, start, t) > 0
+                   for t in self._wanted.get((office, skill), ())):  # type: ignore[attr-defined]
+            out.append("no_demand")
+        if not new_position and self.vacancies.get((office, skill), 0) <= 0:
+            out.append("no_vacancy")
+        return tuple(out)
 
     def most_away(self, office: str, period: int) -> int:
         """The most of the people present in ``period`` whose home at the start is ``office``

@@ -132,15 +132,20 @@ def _hiring_limit_rows(b: _Builder, f: _Frame, cols: _Columns) -> None:
 
     # hiring_budget per year: onboarding of all hires + new-position salaries falling in it
     b.begin("hiring_budget")
-    for year, cap in _budget_caps(f, "hiring"):
+    caps = _budget_caps(f, "hiring")
+    # One look-up per start, skill and funding (Instance.hire_cost_by_year), not per column.
+    by_year: dict[tuple[int, int, int], dict[str, float]] = {}
+    costs = []
+    for j in range(len(hire) if caps else 0):
+        key = (int(H["period"][j]), int(H["skill"][j]), int(H["new"][j]))
+        if key not in by_year:
+            by_year[key] = f.instance.hire_cost_by_year(
+                f.skills[key[1]], key[0], new_position=bool(key[2]))
+        costs.append(by_year[key])
+    for year, cap in caps:
         row, vals = [], []
-        for j in range(len(hire)):
-            s, k, new = int(H["period"][j]), int(H["skill"][j]), int(H["new"][j])
-            skill = f.instance.skills[k]
-            amount = skill.onboarding_cost if f.year_of[s] == year else 0.0
-            if new:
-                amount += skill.salary_per_period * sum(
-                    1 for t in range(s, f.T) if f.year_of[t] == year)
+        for j, cost in enumerate(costs):
+            amount = cost.get(year, 0.0)
             if amount:
                 row.append(hire.start + j)
                 vals.append(amount)
@@ -182,8 +187,7 @@ def _budget_caps(f: _Frame, kind: str) -> list[tuple[str, float]]:
     """(year, cap) for every budget year with a ``kind`` ("hiring" or "moves") cap."""
     caps = []
     for year in f.instance.years:
-        budget = f.instance.budget(year)
-        cap = None if budget is None else getattr(budget, kind)
+        cap = f.instance.budget_cap(year, kind)
         if cap is not None:
             caps.append((year, float(cap)))
     return caps

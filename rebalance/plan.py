@@ -34,9 +34,11 @@ from rebalance.tables import (
 __all__ = [
     "BUDGET_LINES",
     "PLAN_TABLES",
+    "BudgetLine",
     "NamingError",
     "Plan",
     "PlanError",
+    "budget_lines",
     "extract_plan",
     "read_plan",
     "schedule_details",
@@ -101,6 +103,38 @@ class Plan:
 
     def hires_count(self) -> int:
         return int(self.hires["count"].sum())
+
+    def spent_by_cap(self) -> dict[tuple[str, str], float]:
+        """``costs.csv`` summed by (year, cap name): what the plan spends under each cap of
+        each budget year (:data:`BUDGET_LINES`); pairs it spends nothing under are left out."""
+        cap_of = {kind: cap for cap, kinds in BUDGET_LINES for kind in kinds}
+        out: dict[tuple[str, str], float] = defaultdict(float)
+        for year, kind, cost in zip(self.costs["year"].astype(str),
+                                    self.costs["kind"].astype(str),
+                                    self.costs["cost"].astype(float), strict=True):
+            if kind in cap_of:
+                out[(year, cap_of[kind])] += cost
+        return dict(out)
+
+
+@dataclass(frozen=True)
+class BudgetLine:
+    """What a plan spends under one cap of one budget year, against the cap (None: none)."""
+
+    year: str
+    cap_name: str  # "hiring" or "moves" (BUDGET_LINES)
+    spent: float
+    cap: float | None
+
+
+def budget_lines(instance: Instance, plan: Plan) -> tuple[BudgetLine, ...]:
+    """Every budget year's caps with what ``plan`` spends under them, year by year and in the
+    order of :data:`BUDGET_LINES` within a year (spending from ``costs.csv``: a plan whose
+    counts were edited by hand shows the sum its own file gives)."""
+    spent = plan.spent_by_cap()
+    return tuple(BudgetLine(year, cap_name, spent.get((year, cap_name), 0.0),
+                            instance.budget_cap(year, cap_name))
+                 for year in instance.years for cap_name, _ in BUDGET_LINES)
 
 
 def _frame(name: str, rows: Sequence[tuple[Any, ...]]) -> pd.DataFrame:

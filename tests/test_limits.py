@@ -19,7 +19,7 @@ import pytest
 from conftest import scipy_lp, scipy_milp
 from randomized import everyone_moves, random_instance
 
-from rebalance.instance import Instance
+from rebalance.instance import Instance, Period
 from rebalance.limits import rounded_down
 from rebalance.model import Model, build_model, without_rounded_rows
 
@@ -155,3 +155,33 @@ def test_a_seats_conflict_says_the_seats_the_people_based_there_and_who_may_go()
     # Without the instance the rows are named as before.
     bare = solve(model, options_from_instance(instance, relative_gap=0.0))
     assert "seats: A in 2027-Q1 (over by 1)" in bare.conflicts
+
+
+def test_a_hire_costs_onboarding_in_its_start_year_and_a_new_positions_salary_by_year(tiny):
+    # Hand reckoning by the hiring_budget rule of docs/model.md, on tests/data/tiny's review
+    # skill (skills.csv: 8,000 to onboard, 20,000 a period), its quarters moved to span two
+    # budget years (2027-Q3 to 2028-Q2).
+    periods = tuple(Period(name, name[:4], 480.0)
+                    for name in ("2027-Q3", "2027-Q4", "2028-Q1", "2028-Q2"))
+    instance = tiny.with_changes(periods=periods)
+    assert instance.hire_cost_by_year("review", 1, 2, new_position=True) == {
+        "2027": 2 * (8_000 + 20_000), "2028": 2 * 2 * 20_000}
+    assert instance.hire_cost_by_year("review", 2, new_position=True) == {
+        "2028": 8_000 + 2 * 20_000}
+    assert instance.hire_cost_by_year("review", 1, 3, new_position=False) == {"2027": 3 * 8_000}
+
+
+def test_hire_ruled_out_names_every_rule_of_the_data_that_leaves_no_hire(tiny):
+    # By hand from tests/data/tiny (NOTE.md): time to hire 1; intake is wanted at A in
+    # 2027-Q1 only; no vacancies.csv, so no funded vacancy; both offices may hire 1 a period.
+    assert tiny.hire_ruled_out("B", "review", 1, new_position=True) == ()
+    assert tiny.hire_ruled_out("B", "review", 0, new_position=True) == ("before_time_to_hire",)
+    assert tiny.hire_ruled_out("A", "intake", 1, new_position=False) == ("no_demand",
+                                                                       "no_vacancy")
+    closed = tiny.with_changes(offices=tuple(replace(o, max_hires_per_period=0)
+                                             for o in tiny.offices))
+    assert closed.hire_ruled_out("B", "review", 0, new_position=True) == (
+        "may_not_hire", "before_time_to_hire")
+    a1 = tiny.staff[0]
+    assert tiny.move_ruled_out(a1, 1, "detail") == ()
+    assert tiny.move_ruled_out(a1, 1, "reassignment") == ("may_not_relocate",)

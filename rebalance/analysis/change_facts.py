@@ -91,11 +91,9 @@ def work_on_current_data(instance: Instance, work: pd.DataFrame) -> pd.DataFrame
     return work
 
 
-def _staff_output_now(instance: Instance, plan: Plan,
-                      ix: dict[str, int]) -> dict[_Key, float]:
-    """(office, skill, period) -> output of ``plan``'s staff on ``instance``'s data
-    (:func:`work_on_current_data`)."""
-    work = work_on_current_data(instance, plan.work)
+def _staff_output_now(work: pd.DataFrame, ix: dict[str, int]) -> dict[_Key, float]:
+    """(office, skill, period) -> output of a plan's staff from its ``work`` table on the
+    current data (:func:`work_on_current_data`)."""
     out: dict[_Key, float] = defaultdict(float)
     for o, k, per, x in zip(*(_texts(work[c]) for c in ("office", "skill", "period")),
                             _floats(work["output_fte"]), strict=True):
@@ -147,7 +145,7 @@ class _Facts:
     """Both plans' figures, indexed once for every row."""
 
     def __init__(self, instance: Instance, old: Plan, new: Plan, new_reasons: Reasons,
-                 plans: PlanNames) -> None:
+                 plans: PlanNames, old_work_now: pd.DataFrame | None = None) -> None:
         self.i = instance
         self.plans = plans
         self.names = instance.period_names
@@ -155,7 +153,9 @@ class _Facts:
         self.people = {p.person: p for p in instance.staff}
         self.ctx = _Context(instance, new)
         self.old_cover = _coverage(old, self.ix)
-        self.old_staff_now = _staff_output_now(instance, old, self.ix)
+        if old_work_now is None:
+            old_work_now = work_on_current_data(instance, old.work)
+        self.old_staff_now = _staff_output_now(old_work_now, self.ix)
         self.old_visitors = _visitors(old, self.ix)
         self.new_visitors = _visitors(new, self.ix)
         self.new_moves = _moves(new)
@@ -244,15 +244,12 @@ class _Facts:
         """What hires of ``skill`` on ``funding`` cost the hiring budget each year, ``n``
         starting in each period of ``starts`` (a negative ``n`` takes off): onboarding in the
         start year, and a new position's salary every period from its start on, in that
-        period's year (limits.py's rule), at the current data's prices."""
-        k = self.i.skill(skill)
-        years = [p.year for p in self.i.periods]
+        period's year (:meth:`Instance.hire_cost_by_year`), at the current data's prices."""
         cost: dict[str, float] = defaultdict(float)
         for s, n in starts.items():
-            cost[years[s]] += n * k.onboarding_cost
-            if funding == "new":
-                for t in range(s, len(years)):
-                    cost[years[t]] += n * k.salary_per_period
+            for year, amount in self.i.hire_cost_by_year(
+                    skill, s, n, new_position=funding == "new").items():
+                cost[year] += amount
         return cost
 
     def prio(self, key: _Key) -> str:

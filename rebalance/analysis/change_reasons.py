@@ -31,7 +31,7 @@ from rebalance.analysis.change_facts import (
     _people,
 )
 from rebalance.analysis.reasons import _EPS, Reasons, _describe, _fte, _texts
-from rebalance.instance import Instance
+from rebalance.instance import Instance, RuledOut
 from rebalance.numbers import money_amount
 from rebalance.plan import Plan
 
@@ -40,16 +40,33 @@ __all__ = ["BASE_AND_SCENARIO", "FORCED", "OLD_AND_NEW", "PlanNames", "change_re
 
 # -- forced changes: the data leave the old decision no place (replan_model's `forced`) ---------
 
+# How a forced change's reason says each rule of the data (Instance.move_ruled_out and
+# hire_ruled_out); {who}, {skill}, {office} and {period} are filled in.
+_RULED_OUT_WORDS: dict[RuledOut, str] = {
+    "left": "{who} has left by then (staff.csv last_period)",
+    "may_not_detail": "staff.csv now says {who} may not go on detail (can_detail)",
+    "no_details": "settings.toml now allows no details",
+    "may_not_relocate": "staff.csv now says {who} may not be reassigned (can_relocate)",
+    "may_not_hire": "offices.csv now says {office} may not hire",
+    "before_time_to_hire": "{skill}'s time to hire now rules out a start in {period}",
+    "no_demand": "no {skill} demand is left at {office} from {period} on for a hire to cover",
+    "no_vacancy": "no funded {skill} vacancy is left at {office}",
+}
+
+
+def _forced(rule: RuledOut, who: str = "", skill: str = "", office: str = "",
+            period: str = "") -> str:
+    return f"{FORCED}: " + _RULED_OUT_WORDS[rule].format(who=who, skill=skill, office=office,
+                                                          period=period)
+
+
 def _detail_ruled_out(f: _Facts, person: str, office: str, t: int) -> str:
     p = f.people.get(person)
     if p is None:
         return f"{FORCED}: {person} is no longer in staff.csv"
-    if not p.is_present(t):
-        return f"{FORCED}: {person} has left by then (staff.csv last_period)"
-    if not p.can_detail:
-        return f"{FORCED}: staff.csv now says {person} may not go on detail (can_detail)"
-    if f.i.policy.max_consecutive_detail_periods == 0:
-        return f"{FORCED}: settings.toml now allows no details"
+    ruled_out = f.i.move_ruled_out(p, t, "detail")
+    if ruled_out:
+        return _forced(ruled_out[0], who=person)
     if not {k for k, _ in p.skills} & f.wanted.get((office, t), set()):
         return (f"{FORCED}: {office} has no demand left for {person}'s skills in "
                 f"{f.names[t]}")
@@ -60,29 +77,22 @@ def _move_ruled_out(f: _Facts, person: str, t: int) -> str:
     p = f.people.get(person)
     if p is None:
         return f"{FORCED}: {person} is no longer in staff.csv"
-    if not p.can_relocate:
-        return f"{FORCED}: staff.csv now says {person} may not be reassigned (can_relocate)"
-    if not p.is_present(t):
-        return f"{FORCED}: {person} has left by then (staff.csv last_period)"
+    ruled_out = f.i.move_ruled_out(p, t, "reassignment")
+    # "May not be reassigned" is said before "has left" here.
+    for rule in ("may_not_relocate", "left"):
+        if rule in ruled_out:
+            return _forced(rule, who=person)
     return ""
 
 
 def _hire_ruled_out(f: _Facts, office: str, skill: str, s: int, funding: str) -> str:
-    """Why the model has no hire column there (``model._add_hire_columns``), if it has none."""
-    o = next((x for x in f.i.offices if x.name == office), None)
-    if o is None:
+    """Why the model has no hire column there (:meth:`Instance.hire_ruled_out`), if it has
+    none."""
+    if office not in {x.name for x in f.i.offices}:
         return f"{FORCED}: {office} is no longer in offices.csv"
-    if o.max_hires_per_period == 0:
-        return f"{FORCED}: offices.csv now says {office} may not hire"
-    if s < f.i.skill(skill).time_to_hire:
-        return (f"{FORCED}: {skill}'s time to hire now rules out a start in {f.names[s]}")
-    T = len(f.names)
-    if not any(f.demand.get((office, skill, t), 0.0) > 0 and f.i.hire_fte(skill, office, s, t) > 0
-               for t in range(s, T)):
-        return (f"{FORCED}: no {skill} demand is left at {office} from {f.names[s]} on for a "
-                "hire to cover")
-    if funding == "vacancy" and f.i.vacancies.get((office, skill), 0) <= 0:
-        return f"{FORCED}: no funded {skill} vacancy is left at {office}"
+    ruled_out = f.i.hire_ruled_out(office, skill, s, new_position=funding != "vacancy")
+    if ruled_out:
+        return _forced(ruled_out[0], skill=skill, office=office, period=f.names[s])
     return ""
 
 
@@ -391,15 +401,18 @@ def _moved_hire(f: _Facts, office: str, skill: str, funding: str, s_old: int,
 # -- the column ---------------------------------------------------------------------------------
 
 def change_reasons(instance: Instance, old: Plan, new: Plan, changes: pd.DataFrame,
-                   new_reasons: Reasons, plans: PlanNames = OLD_AND_NEW) -> list[str]:
+                   new_reasons: Reasons, plans: PlanNames = OLD_AND_NEW,
+                   old_work_now: pd.DataFrame | None = None) -> list[str]:
     """One short reason per row of ``changes`` (``replan``'s ``CHANGE_COLUMNS`` but
     ``reason``), from the re-plan's ``instance``, the ``old`` and ``new`` plans and the new
     plan's ``new_reasons`` (:func:`reasons` of it).
 
     ``plans``: what the reasons call the two plans (``compare`` passes
     :data:`BASE_AND_SCENARIO`, with the base plan as ``old``, the scenario's as ``new`` and
-    its data as ``instance``)."""
-    f = _Facts(instance, old, new, new_reasons, plans)
+    its data as ``instance``).  ``old_work_now``: the old plan's work table on
+    ``instance``'s data (:func:`~rebalance.analysis.change_facts.work_on_current_data`),
+    where the caller has made it already; else it is made here."""
+    f = _Facts(instance, old, new, new_reasons, plans, old_work_now)
     out = []
     for change, kind, who, skill, period, before, after in zip(
             *(_texts(changes[c]) for c in ("change", "kind", "who", "skill", "period", "old",

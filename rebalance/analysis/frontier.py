@@ -54,8 +54,8 @@ def uncapped_years(instance: Instance, grid: BudgetGrid) -> list[str]:
         return []
     out = []
     for year in instance.years:
-        budget = instance.budget(year)
-        if budget is None or budget.hiring is None or (grid.moves and budget.moves is None):
+        if instance.budget_cap(year, "hiring") is None or (
+                grid.moves and instance.budget_cap(year, "moves") is None):
             out.append(year)
     return out
 
@@ -163,8 +163,7 @@ def cap_total(instance: Instance, cap_name: str) -> float:
     (that year is uncapped, so the horizon's total is not bounded)."""
     total = 0.0
     for year in instance.years:
-        budget = instance.budget(year)
-        cap = None if budget is None else getattr(budget, cap_name)
+        cap = instance.budget_cap(year, cap_name)
         if cap is None:
             return math.nan
         total += cap

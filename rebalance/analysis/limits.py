@@ -11,13 +11,13 @@ budget pays for (a hire starting that year, one detail period).
 
 from __future__ import annotations
 
-from collections import Counter, defaultdict
+from collections import Counter
 from dataclasses import dataclass
 
 import pandas as pd
 
 from rebalance.instance import Instance
-from rebalance.plan import BUDGET_LINES, Plan
+from rebalance.plan import Plan, budget_lines
 
 __all__ = ["BUDGET_LIMITS", "LIMIT_COLUMNS", "LIMIT_NAMES", "HireRow", "LimitUse", "hire_rows",
            "limit_use", "limit_use_frame", "limit_words"]
@@ -68,8 +68,8 @@ def _cheapest_hire(instance: Instance, year: str,
     """Least hiring-budget money one *more* hire starting in ``year`` needs: onboarding, and
     the new-position salary paid in ``year`` (every period from the start to the horizon's
     end, docs/model.md) unless a funded vacancy of that skill at that office is still left
-    after the ``vacancy_used`` of the plan.  Offices that may not hire have no hire to price."""
-    T = len(instance.periods)
+    after the ``vacancy_used`` of the plan (:meth:`Instance.hire_cost_by_year`).  Offices
+    that may not hire have no hire to price."""
     best: float | None = None
     for t, period in enumerate(instance.periods):
         if period.year != year:
@@ -82,9 +82,8 @@ def _cheapest_hire(instance: Instance, year: str,
                     continue
                 left = instance.vacancies.get((office.name, skill.name), 0) - vacancy_used[
                     (office.name, skill.name)]
-                salary = 0.0 if left > 0 else skill.salary_per_period * sum(
-                    1 for s in range(t, T) if instance.periods[s].year == year)
-                amount = skill.onboarding_cost + salary
+                amount = instance.hire_cost_by_year(skill.name, t, new_position=left <= 0).get(
+                    year, 0.0)
                 best = amount if best is None else min(best, amount)
     return best
 
@@ -93,17 +92,6 @@ def _cheapest_detail(instance: Instance) -> float:
     offices = [o.name for o in instance.offices]
     costs = [instance.detail_cost_per_period(a, b) for a in offices for b in offices if a != b]
     return min(costs) if costs else 0.0
-
-
-def _spent(plan: Plan) -> defaultdict[tuple[str, str], float]:
-    """costs.csv summed by (year, cap): "hiring" and "moves" (:data:`BUDGET_LINES`)."""
-    cap_of = {kind: cap for cap, kinds in BUDGET_LINES for kind in kinds}
-    out: defaultdict[tuple[str, str], float] = defaultdict(float)
-    for year, kind, cost in zip(plan.costs["year"].astype(str), plan.costs["kind"].astype(str),
-                                plan.costs["cost"].astype(float), strict=True):
-        if kind in cap_of:
-            out[(year, cap_of[kind])] += cost
-    return out
 
 
 def limit_use(instance: Instance, plan: Plan) -> tuple[LimitUse, ...]:
@@ -123,12 +111,6 @@ def limit_use(instance: Instance, plan: Plan) -> tuple[LimitUse, ...]:
     for row in plan.details.itertuples(index=False):
         away[(str(row.person), ix[str(row.period)])] = str(row.to_office)
 
-    # Spending per year: costs.csv's, as the pages' money tables and the console's budget
-    # table show it.  Onboarding had come from hires.csv and salaries from its count priced
-    # afresh, so a plan whose count was edited showed a sum no file or check gave.
-    spent = _spent(plan)
-    hiring = {year: spent[(year, "hiring")] for year in instance.years}
-    moves = {year: spent[(year, "moves")] for year in instance.years}
     starts: Counter[tuple[str, int]] = Counter()
     held: Counter[tuple[str, int]] = Counter()
     vacancy_used: Counter[tuple[str, str]] = Counter()
@@ -141,20 +123,21 @@ def limit_use(instance: Instance, plan: Plan) -> tuple[LimitUse, ...]:
         for t in range(s, T):
             held[(hire.office, t)] += n
 
+    # Spending per year: costs.csv's, as the pages' money tables and the console's budget
+    # table show it.  Onboarding had come from hires.csv and salaries from its count priced
+    # afresh, so a plan whose count was edited showed a sum no file or check gave.
     cheapest_detail = _cheapest_detail(instance)
-    for year in instance.years:
-        budget = instance.budget(year)
-        if budget is None:
+    for line in budget_lines(instance, plan):
+        if line.cap is None:
             continue
-        if budget.hiring is not None:
-            step = _cheapest_hire(instance, year, vacancy_used)
+        if line.cap_name == "hiring":
+            step = _cheapest_hire(instance, line.year, vacancy_used)
             # No hire can start or be paid in that year: the cap cannot bind there.
-            binding = step is not None and budget.hiring - hiring[year] < step - _TOL
-            out.append(LimitUse("hiring_budget", year, "", hiring[year], budget.hiring,
-                                binding))
-        if budget.moves is not None:
-            binding = budget.moves - moves[year] < max(cheapest_detail, _TOL) - _TOL
-            out.append(LimitUse("moves_budget", year, "", moves[year], budget.moves, binding))
+            binding = step is not None and line.cap - line.spent < step - _TOL
+        else:
+            binding = line.cap - line.spent < max(cheapest_detail, _TOL) - _TOL
+        out.append(LimitUse(f"{line.cap_name}_budget", line.year, "", line.spent, line.cap,
+                            binding))
 
     share = instance.policy.max_away_share
     present: Counter[tuple[str, int]] = Counter()

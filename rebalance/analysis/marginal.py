@@ -168,13 +168,8 @@ def binding_candidates(base: PlanResult, steps: Steps = Steps()) -> list[Candida
         return step_unit(limit, instance)
 
     for (limit, where), n in count.items():
-        if limit == "hiring_budget":
-            budget = instance.budget(where)
-            current = budget.hiring if budget is not None and budget.hiring is not None else 0.0
-            out.append(Candidate(limit, where, current, steps.budget, unit(limit), n))
-        elif limit == "moves_budget":
-            budget = instance.budget(where)
-            current = budget.moves if budget is not None and budget.moves is not None else 0.0
+        if limit in BUDGET_LIMITS:
+            current = instance.budget_cap(where, limit.removesuffix("_budget")) or 0.0
             out.append(Candidate(limit, where, current, steps.budget, unit(limit), n))
         elif limit == "seats":
             out.append(Candidate(limit, where, float(instance.office(where).seats or 0),

@@ -111,17 +111,21 @@ def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
     # prices and horizon (a longer one adds years and salary periods): only its rules count.
     old_violations = tuple(str(v) for v in verified
                            if not v.rule.startswith("coverage") and v.rule not in BOOKKEEPING)
+    # The old plan on the current data, made once: replan.csv scores it and the change
+    # reasons read its staff's output (each had made its own).
+    old_now = _under_current_data(instance, old)
     new_reasons = None
     if result.plan is not None:
         changes = _changes(instance, old, result.plan, costs)
         new_reasons = reasons(instance, result.plan, replanned_at=at)
-        changes["reason"] = change_reasons(instance, old, result.plan, changes, new_reasons)
+        changes["reason"] = change_reasons(instance, old, result.plan, changes, new_reasons,
+                                           old_work_now=old_now.work)
     else:
         changes = pd.DataFrame(columns=list(CHANGE_COLUMNS))
     # Priced from the person-level change table; equal to the model's change columns plus
     # the constant for decisions that lost their column (_fix_and_price's `forced`).
     disruption = float(changes["disruption_cost"].sum()) if len(changes) else 0.0
-    summary = _summary(instance, old, result.plan, changes, disruption, at)
+    summary = _summary(instance, old, old_now, result.plan, changes, disruption, at)
     return Replan(at, result, changes, summary, disruption, old_violations,
                   tuple(idle + notes + _past_work_idle(instance, past_work)), new_reasons)
 
@@ -328,9 +332,11 @@ def work_split_changes(instance: Instance, old: Plan, new: Plan, at: int) -> int
     return len({(person, period) for person, period, _, _ in moved.index})
 
 
-def _summary(instance: Instance, old: Plan, new: Plan | None, changes: pd.DataFrame,
-             disruption: float, at: int) -> pd.DataFrame:
-    before = plan_measures(instance, _under_current_data(instance, old))
+def _summary(instance: Instance, old: Plan, old_now: Plan, new: Plan | None,
+             changes: pd.DataFrame, disruption: float, at: int) -> pd.DataFrame:
+    """``replan.csv``: ``old_now`` (:func:`_under_current_data` of ``old``) measured against
+    ``new``."""
+    before = plan_measures(instance, old_now)
     after = plan_measures(instance, new) if new is not None else {}
     rows = [(k, before[k], after.get(k, math.nan), after.get(k, math.nan) - before[k])
             for k in before]

@@ -13,12 +13,12 @@ from __future__ import annotations
 from collections import defaultdict
 from collections.abc import Callable
 from pathlib import Path
-from typing import Any
+from typing import Any, Literal
 
 import pandas as pd
 
 from rebalance.analysis.limits import hire_rows
-from rebalance.instance import Instance, Person
+from rebalance.instance import Instance, Person, RuledOut
 from rebalance.numbers import counted, figures
 from rebalance.plan import Plan
 from rebalance.verify import Violation
@@ -300,10 +300,13 @@ def _started_hires_ruled_out(instance: Instance, old: Plan, at: int) -> list[str
     by_vacancy: dict[tuple[str, str], list[tuple[int, int]]] = defaultdict(list)
     for (office, skill, s, funding), count in sorted(started.items(), key=lambda i: i[0][2]):
         tth = skills[skill].time_to_hire
-        if s < tth:
+        # Demand and vacancies are no refusal here: the hire has begun, and its vacancies
+        # are counted below.
+        ruled_out = instance.hire_ruled_out(office, skill, s, new_position=funding == "new")
+        if "before_time_to_hire" in ruled_out:
             refuse(count, office, skill, s, f"it starts before {skill}'s time to hire ({tth} "
                    "periods from the horizon's start, skills.csv time_to_hire)")
-        elif offices[office].max_hires_per_period == 0:
+        elif "may_not_hire" in ruled_out:
             refuse(count, office, skill, s,
                    f"{office} may not hire (offices.csv max_hires_per_period = 0)")
         else:
@@ -340,15 +343,17 @@ def _have(count: int) -> str:
     return "has" if count == 1 else "have"
 
 
-def _why_not(instance: Instance, person: Person, t: int, what: str) -> str:
-    """Which data rule out ``person``'s detail or reassignment in period ``t`` (for a refusal:
-    the past cannot change, and each person's flags hold for the whole horizon)."""
-    if not person.is_present(t):
-        return f"{person.person} has left by then (staff.csv last_period)"
-    if what == "detail" and not person.can_detail:
-        return f"staff.csv says {person.person} may not go on detail (can_detail)"
-    if what == "detail" and instance.policy.max_consecutive_detail_periods == 0:
-        return "settings.toml allows no details (max_consecutive_detail_periods = 0)"
-    if what == "reassignment" and not person.can_relocate:
-        return f"staff.csv says {person.person} may not be reassigned (can_relocate)"
-    return "the model has no place for it"
+def _why_not(instance: Instance, person: Person, t: int,
+             what: Literal["detail", "reassignment"]) -> str:
+    """Which data rule out ``person``'s detail or reassignment in period ``t``
+    (:meth:`Instance.move_ruled_out`; for a refusal: the past cannot change, and each
+    person's flags hold for the whole horizon)."""
+    words: dict[RuledOut, str] = {
+        "left": f"{person.person} has left by then (staff.csv last_period)",
+        "may_not_detail": f"staff.csv says {person.person} may not go on detail (can_detail)",
+        "no_details": "settings.toml allows no details (max_consecutive_detail_periods = 0)",
+        "may_not_relocate": f"staff.csv says {person.person} may not be reassigned "
+                            "(can_relocate)",
+    }
+    ruled_out = instance.move_ruled_out(person, t, what)
+    return words[ruled_out[0]] if ruled_out else "the model has no place for it"

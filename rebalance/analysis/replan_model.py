@@ -287,14 +287,12 @@ def _insert_hire(instance: Instance, model: Model, o: int, k: int, s: int, new: 
     if not new:
         limit("vacancies", f"{skill.name} at {office.name}", 1.0, vacancy_cols,
               float(instance.vacancies.get((office.name, skill.name), 0)))
+    cost_by_year = instance.hire_cost_by_year(skill.name, s, new_position=bool(new))
     for year in instance.years:
         budget = instance.budget(year)
         if budget is None or budget.hiring is None:
             continue
-        amount = skill.onboarding_cost if instance.periods[s].year == year else 0.0
-        if new:
-            amount += skill.salary_per_period * sum(
-                1 for t in range(s, T) if instance.periods[t].year == year)
+        amount = cost_by_year.get(year, 0.0)
         if amount:
             limit("hiring_budget", f"hiring budget {year}", amount, [], budget.hiring)
 

@@ -179,21 +179,18 @@ def _budget_changes(base: Instance, variant: Instance) -> dict[str, dict[str, fl
     out: dict[str, dict[str, float]] = {}
     for cap_name, _ in BUDGET_LINES:
         for year in base.years:
-            old, new = base.budget(year), variant.budget(year)
-            before = None if old is None else getattr(old, cap_name)
-            after = None if new is None else getattr(new, cap_name)
+            before, after = base.budget_cap(year, cap_name), variant.budget_cap(year, cap_name)
             if before is not None and after is not None and abs(after - before) > 1e-9:
                 out.setdefault(cap_name, {})[year] = after - before
     return out
 
 
-def _spent(plan: Plan | None, kinds: Sequence[str], years: Sequence[str]) -> float:
-    """What ``plan`` spends on ``kinds`` of cost in ``years`` (nan with no plan)."""
+def _spent(plan: Plan | None, cap_name: str, years: Sequence[str]) -> float:
+    """What ``plan`` spends under the ``cap_name`` caps of ``years`` (nan with no plan)."""
     if plan is None:
         return math.nan
-    c = plan.costs
-    chosen = c["kind"].astype(str).isin(kinds) & c["year"].astype(str).isin(years)
-    return float(c.loc[chosen, "cost"].sum())
+    spent = plan.spent_by_cap()
+    return sum((spent.get((year, cap_name), 0.0) for year in years), 0.0)
 
 
 def _budget_columns(base: Instance, variant: Instance, base_plan: Plan | None,
@@ -204,12 +201,13 @@ def _budget_columns(base: Instance, variant: Instance, base_plan: Plan | None,
     cost difference without the 150,000 of budget it was given)."""
     changes = _budget_changes(base, variant)
     row: dict[str, Any] = {}
-    for cap_name, kinds in BUDGET_LINES:
+    for cap_name, _ in BUDGET_LINES:
         years = list(changes.get(cap_name, {}))
         row[f"{cap_name}_budget_change"] = sum(changes.get(cap_name, {}).values(), 0.0)
         row[f"{cap_name}_budget_years"] = "; ".join(years)
         row[f"{cap_name}_spent_change"] = (
-            _spent(plan, kinds, years) - _spent(base_plan, kinds, years) if years else 0.0)
+            _spent(plan, cap_name, years) - _spent(base_plan, cap_name, years) if years
+            else 0.0)
     return row
 
 

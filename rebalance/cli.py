@@ -26,7 +26,7 @@ import time
 from collections.abc import Sequence
 from dataclasses import replace
 from pathlib import Path
-from typing import TYPE_CHECKING, Any, TextIO
+from typing import Any, TextIO
 
 from rebalance.backends import raise_if_stopped, stoppable
 from rebalance.cli_analysis import add_analysis_commands
@@ -45,7 +45,6 @@ from rebalance.cli_common import (
     STATUS_EXIT,
     VIOLATIONS_SHOWN,
     _err,
-    _first,
     _keep_frontier,
     _load,
     _unreadable_plan,
@@ -56,9 +55,7 @@ from rebalance.numbers import seconds_text
 from rebalance.problems import problems_counted
 from rebalance.readers import count_problems
 from rebalance.solve import Status
-
-if TYPE_CHECKING:
-    from rebalance.planning import PlanResult
+from rebalance.verify_causes import first_problems
 
 # The exit codes stay importable from here (tests, scripts); they are defined in cli_common
 # so that cli_analysis can use them without importing this module back.
@@ -80,8 +77,8 @@ __all__ = [
 
 
 def cmd_check(args: argparse.Namespace) -> int:
+    from rebalance.conflicts import seats_cannot_hold
     from rebalance.report import format_check
-    from rebalance.report.console import seats_cannot_hold
 
     instance = _load(args.instance, writes=False)
     if instance is None:
@@ -103,7 +100,7 @@ def _seconds_since_process_start() -> float:
 
 
 def cmd_plan(args: argparse.Namespace) -> int:
-    from rebalance.planning import make_plan, options_from_instance, write_outputs, write_seconds
+    from rebalance.planning import make_plan, options_from_instance, write_seconds
     from rebalance.report import format_summary
 
     started = time.perf_counter() - _seconds_since_process_start()
@@ -134,20 +131,15 @@ def cmd_plan(args: argparse.Namespace) -> int:
     if not result.verified:
         _err("the plan failed verification; nothing was written")
         return EXIT_VERIFICATION_FAILED
-    from rebalance.analysis.output import write_tables
-    from rebalance.analysis.reasons import reasons
-    from rebalance.report.files import plan_extras
+    from rebalance.files import staged_folder
+    from rebalance.report.files import write_plan_folder
 
-    def extra(result: PlanResult, folder: Path) -> None:
-        assert result.plan is not None  # write_outputs writes only a plan
-        # Why each hire, detail and shortfall, with every plan (as the analyses write it):
-        # a planner defending a plain plan had no reason for a detail away from an office
-        # that is short itself.  First, with the frontier: the report shows both.
-        write_tables({"reasons.csv": reasons(instance, result.plan).table}, folder)
-        _keep_frontier(args.out, folder)
-        plan_extras(args.instance)(result, folder)
-
-    write_outputs(result, args.out, extra=extra)
+    # With reasons.csv (why each hire, detail and shortfall, as the analyses write it: a
+    # planner defending a plain plan had no reason for a detail away from an office that is
+    # short itself) and the frontier a plan there had, both shown by the report.
+    with staged_folder(args.out, kind="plan") as folder:
+        write_plan_folder(result, folder, instance_path=args.instance,
+                          more=lambda into: _keep_frontier(args.out, into))
     print(f"\nplan written to {args.out}/")
     return EXIT_OK
 
@@ -197,7 +189,7 @@ def cmd_verify(args: argparse.Namespace) -> int:
               "verified against it when made; checked here against the instance's own data, "
               "the scenario's changes show up as problems below.")
     print("\n".join([head, *(lines if args.all else
-                              _first(lines, "; --all lists every one"))]))
+                              first_problems(lines, "; --all lists every one"))]))
     return EXIT_OK if not violations else EXIT_VERIFICATION_FAILED
 
 
@@ -278,7 +270,7 @@ def cmd_report(args: argparse.Namespace) -> int:
         # an edited plan looks like.  Capped as verify's list is; report has no --all.
         head, *lines = format_violations(violations).splitlines()
         verify = f"rebalance verify {shlex.quote(str(source))} {shlex.quote(args.plan_dir)} --all"
-        for line in [head, *_first(lines, f"; {verify} lists every one")]:
+        for line in [head, *first_problems(lines, f"; {verify} lists every one")]:
             _err(line)
         return EXIT_VERIFICATION_FAILED
     return EXIT_OK

@@ -19,9 +19,10 @@ from rebalance.problems import problems_counted
 from rebalance.readers import InstanceError, count_problems, read_instance
 from rebalance.solve import Status
 from rebalance.verify import Violation
-from rebalance.verify_causes import KNOCK_ONS_SHOWN, PROBLEMS_SHOWN
+from rebalance.verify_causes import PROBLEMS_SHOWN, first_problems
 
-# Of a long list of problems or violations: enough to see why (the page's cap too).
+# Of a long list of problems or violations: enough to see why (the page's cap too), as
+# verify_causes.first_problems cuts them.
 VIOLATIONS_SHOWN = PROBLEMS_SHOWN
 EXIT_OK = 0
 EXIT_INTERNAL = 1
@@ -65,49 +66,15 @@ def _say_violations(head: str, violations: Sequence[Violation]) -> None:
     from rebalance.report.console import format_violations
 
     _err(head)
-    for line in _first(format_violations(violations).splitlines()[1:],
+    for line in first_problems(format_violations(violations).splitlines()[1:],
                        "; rebalance verify with --all lists every one"):
         _err(line)
-
-
-def _first(lines: Sequence[str], hint: str = "") -> list[str]:
-    """The first ``VIOLATIONS_SHOWN`` problems of ``lines`` and a count of the rest (an old
-    plan of another instance had listed 66 lines of names the instance lacks); ``hint`` says
-    how to see them all.  A line indented deeper than the problem's own (verify's "so" lines)
-    goes with it, so the cap and the count are of problems; past the cap in lines, a problem
-    shows its first ``KNOCK_ONS_SHOWN`` such lines and counts the rest."""
-    if len(lines) <= VIOLATIONS_SHOWN:
-        return list(lines)
-    problems: list[list[str]] = []
-    for line in lines:
-        if problems and _indent(line) > _indent(problems[-1][0]):
-            problems[-1].append(line)
-        else:
-            problems.append([line])
-    out: list[str] = []
-    cut = None  # the last line that says how many are left out: it carries the hint
-    for first, *under in problems[:VIOLATIONS_SHOWN]:
-        out += [first, *under[:KNOCK_ONS_SHOWN]]
-        if len(under) > KNOCK_ONS_SHOWN:
-            cut = len(out)
-            out.append(f"{' ' * _indent(under[0])}... and {len(under) - KNOCK_ONS_SHOWN} more "
-                       "under it")
-    if len(problems) > VIOLATIONS_SHOWN:
-        cut = len(out)
-        out.append(f"{' ' * _indent(lines[0])}... and {len(problems) - VIOLATIONS_SHOWN} more")
-    if cut is not None:
-        out[cut] += hint
-    return out
-
-
-def _indent(line: str) -> int:
-    return len(line) - len(line.lstrip(" "))
 
 
 def _say_first(head: str, problems: Sequence[object]) -> None:
     """``head``, then the first problems and how many more, on stderr."""
     _err(head)
-    for line in _first([f"  {problem}" for problem in problems]):
+    for line in first_problems([f"  {problem}" for problem in problems]):
         _err(line)
 
 

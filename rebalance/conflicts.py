@@ -25,7 +25,7 @@ from rebalance.numbers import money_text, number_text
 from rebalance.split import relaxed as all_continuous
 
 __all__ = ["WayOut", "WaysOut", "constant_conflicts", "find_conflicts", "other_ways_out",
-           "seat_words"]
+           "seat_words", "seats_cannot_hold"]
 
 # The first line of a conflict's list, where another kind of limit would do alone, and where
 # none would (then the least total is the one way out found).
@@ -55,6 +55,15 @@ def _describe_row(model: Model, row: int, excess: float | None,
     if family == "seats" and seats and label in seats:
         text += f": {seats[label]}"
     return text
+
+
+def seats_cannot_hold(instance: Instance) -> bool:
+    """Whether no plan can keep some office's seats, before any solve: too few may be away
+    in a period (:meth:`Instance.seat_counts`) or over a run of periods
+    (:meth:`Instance.seat_windows`).  ``rebalance check`` says so and exits as ``plan``
+    would: "valid" above that warning had read as ready to plan."""
+    return (any(c.too_few_may_go for c in instance.seat_counts())
+            or bool(instance.seat_windows()))
 
 
 def seat_words(instance: Instance, money_short: Mapping[str, str] | None = None

@@ -43,7 +43,8 @@ from rebalance.plan import Plan, records
 from rebalance.verify_rules import ABS_TOL, Violation, close
 
 __all__ = ["KNOCK_ONS_SHOWN", "KNOCK_ON_RULES", "PROBLEMS_SHOWN", "ViolationGroup",
-           "group_problems", "hire_cost_lines", "link_knock_ons", "money_amounts"]
+           "first_problems", "group_problems", "hire_cost_lines", "link_knock_ons",
+           "money_amounts"]
 
 # Problems listed of a failed verification before the rest are counted (on the console and the
 # page alike), and the knock-on lines kept under each where the list runs long.
@@ -245,3 +246,38 @@ def group_problems(violations: Sequence[Violation]) -> list[ViolationGroup]:
             under[head].setdefault(row, []).extend(run)
     return [ViolationGroup(tuple(runs[ix]), tuple(tuple(group) for group in under[ix].values()))
             for ix in listed]
+
+
+def first_problems(lines: Sequence[str], hint: str = "") -> list[str]:
+    """The first :data:`PROBLEMS_SHOWN` problems of ``lines`` and a count of the rest (an old
+    plan of another instance had listed 66 lines of names the instance lacks); ``hint`` says
+    how to see them all.  A line indented deeper than the problem's own (verify's "so" lines)
+    goes with it, so the cap and the count are of problems; past the cap in lines, a problem
+    shows its first :data:`KNOCK_ONS_SHOWN` such lines and counts the rest.  Verify's list
+    (``rebalance.cli_common``), the commands' and the console summary's are cut alike."""
+    if len(lines) <= PROBLEMS_SHOWN:
+        return list(lines)
+    problems: list[list[str]] = []
+    for line in lines:
+        if problems and _indent(line) > _indent(problems[-1][0]):
+            problems[-1].append(line)
+        else:
+            problems.append([line])
+    out: list[str] = []
+    cut = None  # the last line that says how many are left out: it carries the hint
+    for first, *under in problems[:PROBLEMS_SHOWN]:
+        out += [first, *under[:KNOCK_ONS_SHOWN]]
+        if len(under) > KNOCK_ONS_SHOWN:
+            cut = len(out)
+            out.append(f"{' ' * _indent(under[0])}... and {len(under) - KNOCK_ONS_SHOWN} more "
+                       "under it")
+    if len(problems) > PROBLEMS_SHOWN:
+        cut = len(out)
+        out.append(f"{' ' * _indent(lines[0])}... and {len(problems) - PROBLEMS_SHOWN} more")
+    if cut is not None:
+        out[cut] += hint
+    return out
+
+
+def _indent(line: str) -> int:
+    return len(line) - len(line.lstrip(" "))

@@ -72,7 +72,7 @@ def test_a_plan_folder_has_its_reasons_reports_and_instance_path(tiny_result, tm
                       {"extra.csv": pd.DataFrame({"x": [1]})}, instance_path=DATA / "tiny",
                       more=lambda folder: seen.append(sorted(p.name for p in folder.iterdir())))
     summary = json.loads((tmp_path / "summary.json").read_text(encoding="utf-8"))
-    # The instance path last, as 'rebalance report' reads it (report/files.py plan_extras).
+    # The instance path last, as 'rebalance report' reads it (report/files.py write_plan_folder).
     assert list(summary)[-2:] == ["scenario", "instance_path"]
     assert summary["instance_path"] == str((DATA / "tiny").resolve())
     # ``more`` runs once the tables and reasons are there, before the reports that show them.

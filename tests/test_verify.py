@@ -657,7 +657,9 @@ def test_a_seats_run_breaks_at_a_gap_another_office_excess_or_cause(tiny_plan):
 
 def test_the_printed_cap_counts_problems_and_keeps_their_lines_with_them():
     # The rule itself (no outside source): 25 problems of 4 knock-on lines each, 125 lines.
-    from rebalance.cli_common import KNOCK_ONS_SHOWN, VIOLATIONS_SHOWN, _first
+    from rebalance.cli_common import VIOLATIONS_SHOWN
+    from rebalance.verify_causes import KNOCK_ONS_SHOWN
+    from rebalance.verify_causes import first_problems as _first
 
     lines = [line for n in range(25)
              for line in (f"  - problem {n}", *(f"      so row {n}.{k}" for k in range(4)))]

@@ -1,4 +1,5 @@
-"""Scenario files: read and check a surge scenario against an instance, and apply it.
+"""Scenario files: read and check a surge scenario against an instance, and apply it
+(:func:`demand_effects` says what each demand table did, for the words of a report).
 
 A scenario is a variant of an instance (``Instance.with_changes``): demand multiplied or
 raised for a selection of offices, skills and periods, and optionally budgets changed.  The
@@ -21,9 +22,12 @@ from rebalance.tables import NotUtf8, read_utf8
 __all__ = [
     "BudgetChange",
     "DemandChange",
+    "DemandEffect",
+    "DemandKey",
     "Scenario",
     "ScenarioError",
     "apply_scenario",
+    "demand_effects",
     "folder_name",
     "read_scenario",
     "read_scenarios",
@@ -38,6 +42,8 @@ MAX_ADD_FTE = 100_000.0  # FTE added to one office, skill and period
 MAX_BUDGET_ADD = 1e12  # money; the bound of objective.shortfall_cost too
 # Longest folder name: NAME_MAX, 255 bytes, on Linux and macOS file systems (common practice).
 MAX_FOLDER_BYTES = 255
+# A demand row: office, skill and period index.
+DemandKey = tuple[str, str, int]
 
 
 @dataclass(frozen=True)
@@ -54,6 +60,12 @@ class DemandChange:
     multiplier: float = 1.0
     add_fte: float = 0.0
     priority: float | None = None  # priority of rows this change creates (default 1)
+
+    @property
+    def added_priority(self) -> float:
+        """The priority of rows this change creates: 1 unless given (0 is a priority
+        demand.csv allows, docs/instance-format.md)."""
+        return 1.0 if self.priority is None else self.priority
 
 
 @dataclass(frozen=True)
@@ -367,14 +379,32 @@ def _selected(change: DemandChange, office: str, skill: str, period: int) -> boo
             and (change.periods is None or period in change.periods))
 
 
-def apply_scenario(instance: Instance, scenario: Scenario) -> Instance:
-    """The instance with the scenario's changes; demand and caps never go below zero."""
+@dataclass(frozen=True)
+class DemandEffect:
+    """What one ``[[demand]]`` table did to demand as it found it (the tables before it
+    applied), by (office, skill, period index): ``changed``, the rows there it selected;
+    ``floored``, those of them taken to 0 rather than below; ``added``, the rows it created,
+    at ``add_fte`` each with :attr:`DemandChange.added_priority`."""
+
+    changed: tuple[DemandKey, ...] = ()
+    floored: tuple[DemandKey, ...] = ()
+    added: tuple[DemandKey, ...] = ()
+
+
+def _apply_demand(instance: Instance, changes: Sequence[DemandChange]
+                  ) -> tuple[dict[DemandKey, Demand], tuple[DemandEffect, ...]]:
+    """``instance``'s demand rows with ``changes`` applied in turn, and what each did."""
     rows = {(d.office, d.skill, d.period): d for d in instance.demand}
-    for change in scenario.demand:
-        for key, d in list(rows.items()):
+    effects = []
+    for change in changes:
+        changed, floored, added = [], [], []
+        for key, d in sorted(rows.items()):
             if _selected(change, *key):
-                fte = max(0.0, d.fte * change.multiplier + change.add_fte)
-                rows[key] = Demand(d.office, d.skill, d.period, fte, d.priority, None)
+                fte = d.fte * change.multiplier + change.add_fte
+                changed.append(key)
+                if fte < 0:
+                    floored.append(key)
+                rows[key] = Demand(d.office, d.skill, d.period, max(0.0, fte), d.priority, None)
         if change.add_fte > 0 and change.offices is not None and change.skills is not None:
             chosen = change.periods if change.periods is not None else range(
                 len(instance.periods))
@@ -382,9 +412,22 @@ def apply_scenario(instance: Instance, scenario: Scenario) -> Instance:
                 for k in change.skills:
                     for t in chosen:
                         if (o, k, t) not in rows:
-                            # 0 is a priority demand.csv allows (docs/instance-format.md)
-                            priority = 1.0 if change.priority is None else change.priority
-                            rows[(o, k, t)] = Demand(o, k, t, change.add_fte, priority, None)
+                            added.append((o, k, t))
+                            rows[(o, k, t)] = Demand(o, k, t, change.add_fte,
+                                                     change.added_priority, None)
+        effects.append(DemandEffect(tuple(changed), tuple(floored), tuple(added)))
+    return rows, tuple(effects)
+
+
+def demand_effects(instance: Instance, scenario: Scenario) -> tuple[DemandEffect, ...]:
+    """What each of ``scenario``'s ``[[demand]]`` tables does to ``instance``'s demand, as
+    :func:`apply_scenario` applies them (in turn, never below zero)."""
+    return _apply_demand(instance, scenario.demand)[1]
+
+
+def apply_scenario(instance: Instance, scenario: Scenario) -> Instance:
+    """The instance with the scenario's changes; demand and caps never go below zero."""
+    rows = _apply_demand(instance, scenario.demand)[0]
     budgets = {b.year: b for b in instance.budgets}
     for bchange in scenario.budget:
         for year in bchange.years if bchange.years is not None else instance.years:

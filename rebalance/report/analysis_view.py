@@ -36,8 +36,6 @@ from rebalance.report.analysis_words import (
     gap_caution,
     limit_texts,
     marginal_gap_words,
-    reasons_by_limit,
-    reasons_by_office,
     scenario_lines,
     status_in_words,
     years_as_text,
@@ -45,6 +43,7 @@ from rebalance.report.analysis_words import (
 from rebalance.report.htmlparts import chart, e, frame_table_html, section
 from rebalance.report.inputs import SHEET_ONLY, ReportData
 from rebalance.report.late_notice_words import GAP_ROWS_NOTE, late_notice_line
+from rebalance.report.reason_words import reasons_by_limit, reasons_by_office
 
 __all__ = ["AnalysisView", "analysis_payload"]
 
@@ -59,15 +58,17 @@ class AnalysisView:
 def _gap_note(frame: pd.DataFrame, key: str = "") -> str:
     """:func:`gap_caution` as a note of the page: its columns as the table below heads them
     ("shortfall gap"; a note had sent the reader to the CSV file for a column the table
-    shows), but for the marginal table, which leaves that column out (see :func:`_tables`)."""
-    caution = gap_caution(frame)
-    if not caution:
-        return ""
-    shortfall_gap = ("(<code>shortfall_gap</code> in marginal_values.csv)" if key == "marginal"
-                     else "(the shortfall gap column)")
-    marked = e(caution).replace("the gap column", "the <code>gap</code> column").replace(
-        "(the shortfall_gap column)", shortfall_gap)
-    return f'<p class="note">{marked.replace("(--time-limit)", "(<code>--time-limit</code>)")}</p>'
+    shows), but for the marginal table, which leaves that column out (see :func:`_tables`).
+    The caution's own words hold nothing to escape."""
+
+    def column(name: str) -> str:
+        if name != "shortfall_gap":
+            return f"the <code>{e(name)}</code> column"
+        return ("<code>shortfall_gap</code> in marginal_values.csv" if key == "marginal"
+                else "the shortfall gap column")
+
+    caution = gap_caution(frame, column, "<code>--time-limit</code>")
+    return f'<p class="note">{caution}</p>' if caution else ""
 
 
 # The scenarios section's lead, as the console says it (cli_analysis.FROM_BASE_WORDS): a

@@ -1,6 +1,6 @@
 """Reading analysis tables by role, and what they say in plain text on every surface: the
-caution about unproven solves, what each scenario of a comparison changed, each limit in words
-and the reasons table rolled up by office and by limit.
+caution about unproven solves, what each scenario of a comparison changed and each limit in
+words (the reasons table rolled up: :mod:`reason_words`).
 
 The console (``rebalance.cli_analysis``) prints these; the page (:mod:`analysis_view`) marks
 them up.  Columns are found by role, as the page's sections find them.
@@ -9,7 +9,7 @@ them up.  Columns are found by role, as the page's sections find them.
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from typing import Any
 
 import pandas as pd
@@ -21,17 +21,16 @@ from rebalance.report.words import and_list, outcome_words
 
 __all__ = [
     "FROM_BASE_WORDS",
-    "NO_LIMIT",
     "SUMMARY_KEYS",
     "actions_lead",
+    "cell_words",
+    "column_words",
     "find_column",
     "finite",
     "gap_caution",
     "is_numeric",
     "limit_texts",
     "marginal_gap_words",
-    "reasons_by_limit",
-    "reasons_by_office",
     "scenario_lines",
     "shows",
     "status_in_words",
@@ -88,30 +87,38 @@ FROM_BASE_WORDS = ("Each scenario was solved from the base plan, and a change th
                    "did pay.")
 
 
-def gap_caution(frame: pd.DataFrame) -> str:
+def column_words(name: str) -> str:
+    """A table's column, as plain text names it."""
+    return f"the {name} column"
+
+
+def gap_caution(frame: pd.DataFrame, column: Callable[[str], str] = column_words,
+                option: str = "--time-limit") -> str:
     """A warning where the solves behind a comparison stopped short of proof ("" where they
     did not): a difference smaller than their gaps may come from where each search stopped,
     not from what was compared (a practitioner's reading had a surge scenario cost less than
     the base).  Shortfall is held to its own stage's gap, which is far smaller than the
     largest (mostly the cost stage's): 5.59% of 165.8 had told a planner to dismiss a real
-    gain of 2.8.  Plain text, for the console and, marked up, the page."""
+    gain of 2.8.  Plain text for the console and workbook; the page names the columns
+    (``column``, given ``gap`` or ``shortfall_gap``) and the ``option`` marked up."""
     largest = _largest(frame, "gap")
     if largest is None or largest <= 1e-4:
         return ""
     shortfall = _largest(frame, "shortfall_gap")
     if shortfall is None:
-        within = (f"within gaps of up to {gap_text(largest)} (the gap column). A difference "
+        within = (f"within gaps of up to {gap_text(largest)} ({column('gap')}). A difference "
                   "between rows smaller than that share of a figure")
     else:
-        within = (f"within gaps of up to {gap_text(shortfall)} on shortfall (the shortfall_gap "
-                  f"column) and {gap_text(largest)} on cost (the gap column). A difference "
-                  "between rows smaller than that share of its figure")
+        within = (f"within gaps of up to {gap_text(shortfall)} on shortfall "
+                  f"({column('shortfall_gap')}) and {gap_text(largest)} on cost "
+                  f"({column('gap')}). A difference between rows smaller than that share of "
+                  "its figure")
     # "Proven only within": true of a row the status calls optimal (within the gap asked)
     # as of one stopped by the time limit; "stopped before proving" had contradicted the
     # first (a sweep).
     return (f"These plans are proven best only {within} may come from "
             "where each search stopped rather than from what was changed: give the solves "
-            "more time (--time-limit) before reading it as real.")
+            f"more time ({option}) before reading it as real.")
 
 
 # How many offices a scenario's line names where demand or shortfall moved, largest first.
@@ -241,7 +248,7 @@ def _budget_words(row: Any, currency: str | None) -> str | None:
 def _keys(row: Any, name: str) -> list[list[str]]:
     """The ``;``-joined, ``|``-split keys of ``row``'s column ``name`` (none where it is
     missing or blank: the base's row, or a table written before it)."""
-    return [key.split("|") for key in _text(getattr(row, name, None)).split(";") if key]
+    return [key.split("|") for key in cell_words(getattr(row, name, None)).split(";") if key]
 
 
 def _span(periods: str, single: str = "in ") -> str:
@@ -452,7 +459,8 @@ def _largest(frame: pd.DataFrame, name: str) -> float | None:
     return max(values) if values else None
 
 
-def _text(value: Any) -> str:
+def cell_words(value: Any) -> str:
+    """A cell as stripped text, "" where it is empty."""
     return "" if value is None or (isinstance(value, float) and math.isnan(value)) else str(
         value).strip()
 
@@ -464,85 +472,9 @@ def limit_texts(frame: pd.DataFrame) -> list[str]:
              else [None] * len(frame))
     limits = frame["limit"].tolist() if "limit" in frame.columns else [None] * len(frame)
     wheres = frame["where"].tolist() if "where" in frame.columns else [None] * len(frame)
-    return [_text(w) or (limit_words(_text(lim), _text(at)) if _text(lim) else "")
+    text = cell_words
+    return [text(w) or (limit_words(text(lim), text(at)) if text(lim) else "")
             for w, lim, at in zip(words, limits, wheres, strict=True)]
-
-
-REASON_KINDS = ("hire", "detail", "reassignment", "shortfall")
-# A reason that asks a person to look again ends with these words (reasons.py writes them).
-REVIEW = "(review)"
-
-
-def reasons_by_office(frame: pd.DataFrame) -> pd.DataFrame | None:
-    """``reasons.csv`` rolled up by office, for reading before its hundreds of rows: people
-    hired, detail runs and their periods, reassignments, shortfalls (office, skill and period
-    short) with their FTE-periods, and the reasons that ask for a review.  None where the
-    table lacks the columns."""
-    if not {"action", "office", "amount", "reason"} <= set(frame.columns) or frame.empty:
-        return None
-    action = frame["action"].astype(str)
-    amount = pd.to_numeric(frame["amount"], errors="coerce").fillna(0.0)
-    review = frame["reason"].astype(str).str.contains(REVIEW, regex=False)
-    rows = []
-    for office in dict.fromkeys(frame["office"].astype(str)):
-        at = frame["office"].astype(str) == office
-
-        def of(kind: str, mask: pd.Series = at) -> pd.Series:
-            return mask & (action == kind)
-
-        rows.append({"office": office, "hires": round(float(amount[of("hire")].sum())),
-                     "detail_runs": int(of("detail").sum()),
-                     "detail_periods": round(float(amount[of("detail")].sum())),
-                     "reassignments": int(of("reassignment").sum()),
-                     "shortfalls": int(of("shortfall").sum()),
-                     "shortfall_fte_periods": float(amount[of("shortfall")].sum()),
-                     "to_review": int((at & review).sum())})
-    table = pd.DataFrame(rows)
-    return table.sort_values(["shortfall_fte_periods", "office"], ascending=[False, True],
-                             kind="stable").reset_index(drop=True)
-
-
-NO_LIMIT = "no binding limit found"
-
-
-def _limit_name(key: str) -> str:
-    """A ``binding_limits`` key (``kind|where|period``) in words, its period left out."""
-    limit, _, rest = key.partition("|")
-    return limit_words(limit, rest.rpartition("|")[0] if "|" in rest else rest, "")
-
-
-def reasons_by_limit(frame: pd.DataFrame) -> pd.DataFrame | None:
-    """The shortfalls of ``reasons.csv`` by each limit that holds them back (its
-    ``binding_limits``, ``kind|where|period``; the limit in words, every period together):
-    how many shortfalls cite it, their FTE-periods and the periods they fall in, most FTE
-    first, then the shortfalls that cite none.  A shortfall held back by two limits counts
-    under both.  None where there is no shortfall."""
-    if not {"action", "amount", "binding_limits", "first_period"} <= set(frame.columns):
-        return None
-    short = frame[frame["action"].astype(str) == "shortfall"]
-    if short.empty:
-        return None
-    found: dict[str, dict[str, Any]] = {}
-    for cited, amount, period in zip(short["binding_limits"].tolist(),
-                                     pd.to_numeric(short["amount"], errors="coerce").fillna(0.0),
-                                     short["first_period"].astype(str), strict=True):
-        # One name per limit: a shortfall cites seats at its office in several periods.
-        names = list(dict.fromkeys(_limit_name(k) for k in _text(cited).split(";") if k))
-        for name in names or [NO_LIMIT]:
-            row = found.setdefault(name, {"limit": name, "shortfalls": 0,
-                                          "shortfall_fte_periods": 0.0, "periods_short": []})
-            row["shortfalls"] += 1
-            row["shortfall_fte_periods"] += float(amount)
-            if period not in row["periods_short"]:
-                row["periods_short"].append(period)
-    for row in found.values():
-        periods = row["periods_short"]
-        row["periods_short"] = (periods[0] if len(periods) == 1 else
-                                f"{len(periods)} periods, {periods[0]} to {periods[-1]}")
-    table = pd.DataFrame(list(found.values()))
-    table["_last"] = table["limit"] == NO_LIMIT
-    return table.sort_values(["_last", "shortfall_fte_periods"], ascending=[True, False],
-                             kind="stable").drop(columns="_last").reset_index(drop=True)
 
 
 def actions_lead(frame: pd.DataFrame) -> str:

@@ -11,6 +11,7 @@ from pathlib import PurePath
 import numpy as np
 import pandas as pd
 
+from rebalance.conflicts import seats_cannot_hold
 from rebalance.instance import Instance
 from rebalance.numbers import (
     column_header,
@@ -40,9 +41,8 @@ from rebalance.planning import (
 from rebalance.report.limits_view import (
     LIMITS_LEAD,
     LIMITS_TITLE,
-    SHORT_YET_AWAY,
     SHORT_YET_AWAY_LEAD,
-    caps_and_explained,
+    LimitLine,
     limits_at_cap,
 )
 from rebalance.report.words import and_list, outcome_words, plain_status, readable
@@ -52,6 +52,7 @@ from rebalance.verify_causes import (
     KNOCK_ONS_SHOWN,
     PROBLEMS_SHOWN,
     ViolationGroup,
+    first_problems,
     group_problems,
 )
 
@@ -133,14 +134,6 @@ def budget_note(instance: Instance, costs: pd.DataFrame) -> str:
             f"{money(uncapped_spent)} where uncapped")
 
 
-def seats_cannot_hold(instance: Instance) -> bool:
-    """Whether ``rebalance check`` can already tell that no plan keeps some office's seats:
-    too few may be away in a period (:meth:`Instance.seat_counts`) or over a run of periods
-    (:meth:`Instance.seat_windows`).  "valid" above that warning had read as ready to plan."""
-    return (any(c.too_few_may_go for c in instance.seat_counts())
-            or bool(instance.seat_windows()))
-
-
 def format_check(instance: Instance) -> str:
     periods = instance.periods
     span = periods[0].name if len(periods) == 1 else f"{periods[0].name} to {periods[-1].name}"
@@ -213,16 +206,11 @@ def format_summary(result: PlanResult) -> str:
         problems = group_problems(result.violations)
         lines += ["", "  independent verification: " + (
             "passed" if result.verified else f"FAILED ({counted(len(problems), 'problem')})")]
-        long = sum(1 + len(p.under) for p in problems) > PROBLEMS_SHOWN  # lines, as verify
-        for problem in problems[:PROBLEMS_SHOWN]:
+        listed = []
+        for problem in problems:
             text, under = problem_lines(problem)
-            shown = under[:KNOCK_ONS_SHOWN] if long else under
-            lines += [f"    - {text}", *(f"        so {line}" for line in shown)]
-            if len(shown) < len(under):
-                lines.append(f"        ... and {len(under) - len(shown)} more under it")
-        if len(problems) > PROBLEMS_SHOWN:
-            lines.append(f"    ... and {len(problems) - PROBLEMS_SHOWN} more; rebalance verify "
-                         "with --all lists every one")
+            listed += [f"    - {text}", *(f"        so {line}" for line in under)]
+        lines += first_problems(listed, "; rebalance verify with --all lists every one")
         lines += ["", "  Caution: " + CAUTION]
     else:
         # The caution is about a plan; with none, what a reader needs is that nothing moved.
@@ -276,19 +264,22 @@ def _limit_lines(result: PlanResult) -> list[str]:
     found = limits_at_cap(result.instance, result.plan)
     if not found:
         return [f"  {LIMITS_TITLE}: none is at its cap"]
-    width = max(len(line.words) for line in found)
+    width = max(len(line.words) for line in found.lines)
     lines = [f"  {LIMITS_TITLE}: {LIMITS_LEAD[0]}", f"  {LIMITS_LEAD[1]}:"]
     indent = " " * (4 + width + 2)
-    caps, explained = caps_and_explained(found)
-    for line in (*caps, *explained):
-        if explained and line is explained[0]:  # names no cap: under words of its own
-            lines.append(f"  {SHORT_YET_AWAY_LEAD[:1].upper()}{SHORT_YET_AWAY_LEAD[1:]}:")
+
+    def said(line: LimitLine, most: int) -> list[str]:
+        texts = fitted_lines(line.text, line.total, LINE_CHARS - len(indent), most)
+        return [f"    {line.words.ljust(width)}  {texts[0]}", *(indent + t for t in texts[1:])]
+
+    for line in found.caps:
+        lines += said(line, LIMIT_LINES)
+    if found.away_while_short:  # names no cap: under words of its own
+        lines.append(f"  {SHORT_YET_AWAY_LEAD[:1].upper()}{SHORT_YET_AWAY_LEAD[1:]}:")
+    for line in found.away_while_short:
         # The offices short yet sending people out are one sentence, not "; "-separated
         # entries to count: the demo's four offices take a fourth line rather than be cut.
-        texts = fitted_lines(line.text, line.total, LINE_CHARS - len(indent),
-                             LIMIT_LINES + (line.words == SHORT_YET_AWAY))
-        lines.append(f"    {line.words.ljust(width)}  {texts[0]}")
-        lines += [indent + text for text in texts[1:]]
+        lines += said(line, LIMIT_LINES + 1)
     return lines
 
 

@@ -1,13 +1,12 @@
-"""Write the people-facing files of a plan folder: ``report.html`` and ``plan.xlsx``.
-
-:func:`plan_extras` plugs into :func:`rebalance.planning.write_outputs`, so the two files land in
-the same atomic folder swap as the plan tables.  :func:`rebuild_reports` redraws them later from
-the folder alone (plus the instance), e.g. after analysis tables have been added beside it.
+"""Write a plan folder whole: :func:`write_plan_folder` fills a staged folder with the plan's
+tables, reasons, any analysis tables and the people-facing files (``report.html`` and
+``plan.xlsx``), all in one atomic swap, for ``rebalance plan`` and every analysis command.
+:func:`rebuild_reports` redraws the two files later from the folder alone (plus the instance),
+e.g. after analysis tables have been added beside it.
 """
 
 from __future__ import annotations
 
-import json
 from collections.abc import Callable, Mapping, Sequence
 from pathlib import Path
 from typing import Any
@@ -23,7 +22,7 @@ from rebalance.report.inputs import ReportData, report_data, report_data_from_fo
 from rebalance.report.workbook import write_workbook
 from rebalance.verify import Violation
 
-__all__ = ["REPORT_FILES", "plan_extras", "rebuild_reports", "write_plan_folder", "write_reports"]
+__all__ = ["REPORT_FILES", "rebuild_reports", "write_plan_folder", "write_reports"]
 
 REPORT_FILES = ("report.html", "plan.xlsx")
 
@@ -32,25 +31,6 @@ def write_reports(data: ReportData, folder: str | Path) -> list[Path]:
     """Write report.html and plan.xlsx into ``folder``; return their paths."""
     out = Path(folder)
     return [write_html(data, out / REPORT_FILES[0]), write_workbook(data, out / REPORT_FILES[1])]
-
-
-def plan_extras(instance_path: str | Path | None = None) -> Callable[[PlanResult, Path], None]:
-    """An ``extra=`` callback for ``write_outputs``: reports, and where the instance came from.
-
-    The instance path is added to summary.json as ``instance_path`` (a new key; no existing
-    key changes) so ``rebalance report PLAN_DIR`` can find the instance on its own.
-    """
-
-    def extra(result: PlanResult, folder: Path) -> None:
-        if instance_path is not None:
-            summary = folder / "summary.json"
-            raw = json.loads(summary.read_text(encoding="utf-8"))
-            raw["instance_path"] = str(Path(instance_path).resolve())
-            summary.write_text(json.dumps(raw, indent=2) + "\n", encoding="utf-8")
-        # Analysis tables an analysis command wrote into this folder first are shown too.
-        write_reports(report_data(result, folder), folder)
-
-    return extra
 
 
 def write_plan_folder(result: PlanResult, folder: Path,

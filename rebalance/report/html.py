@@ -63,7 +63,7 @@ from rebalance.report.limits_view import (
     LIMITS_TITLE,
     SHORT_YET_AWAY_LEAD,
     LimitLine,
-    caps_and_explained,
+    LimitsFound,
     limits_at_cap,
 )
 from rebalance.report.words import ATTRITION_NOTE, expects_attrition, outcome_words
@@ -164,7 +164,7 @@ def _headline(data: ReportData) -> str:
     return '<div class="cards">' + "".join(cards) + "</div>"
 
 
-def _limits_html(found: tuple[LimitLine, ...]) -> str:
+def _limits_html(found: LimitsFound) -> str:
     """The limits the plan has at their cap, one item per kind (the console's lines), then
     under words of their own any lines that explain a cap rather than name one."""
     if not found:
@@ -180,10 +180,10 @@ def _limits_html(found: tuple[LimitLine, ...]) -> str:
             f"<li><strong>{e(line.words)}:</strong> {e(line.text)}</li>" for line in lines
         ) + "</ul>"
 
-    caps, explained = caps_and_explained(found)
+    explained = found.away_while_short
     return (f'<h3 id="limits">{e(LIMITS_TITLE)}</h3>' + lead(LIMITS_LEAD[0], LIMITS_LEAD[1] + ".")
-            + items(caps) + (lead(SHORT_YET_AWAY_LEAD + ":") + items(explained)
-                             if explained else ""))
+            + items(found.caps) + (lead(SHORT_YET_AWAY_LEAD + ":") + items(explained)
+                                   if explained else ""))
 
 
 # Limits that hold people where they are (what can keep idle capacity from moving), by the
@@ -193,10 +193,10 @@ _MOVING_LIMITS = {"seats": "seats full at {}", "away_share": "away share at its 
                   "details_in_a_row": DETAILS_AT_LIMIT + " for {}"}
 
 
-def _idle_limits(found: tuple[LimitLine, ...]) -> str:
+def _idle_limits(caps: tuple[LimitLine, ...]) -> str:
     """What may keep idle capacity where it is, named from the limits at their cap."""
     named = []
-    for line in found:
+    for line in caps:
         words = _MOVING_LIMITS.get(line.kind)
         if words is None:
             continue
@@ -216,7 +216,7 @@ def _idle_limits(found: tuple[LimitLine, ...]) -> str:
             "keep it there.")
 
 
-def _spare_table(data: ReportData, found: tuple[LimitLine, ...]) -> str:
+def _spare_table(data: ReportData, caps: tuple[LimitLine, ...]) -> str:
     spare = spare_capacity(data)
     if spare.empty:
         return ""
@@ -234,7 +234,7 @@ def _spare_table(data: ReportData, found: tuple[LimitLine, ...]) -> str:
             "gives no work (their "
             "skills are not wanted there then, or the demand is met), summed over the horizon, "
             "in FTE-periods: neither covers anything in this plan. "
-            + e(_idle_limits(found)) + "</p>"
+            + e(_idle_limits(caps)) + "</p>"
             + table_html(["office", "demand", "output", "shortfall", "output beyond demand",
                           "share of output", "time with no work", "skills with most spare"],
                          rows, name="spare",
@@ -414,7 +414,7 @@ def render_html(data: ReportData) -> str:
         "dashed on top, is output beyond demand, which covers nothing (part of the idle "
         "capacity below)." + (f" {ATTRITION_NOTE}" if expects_attrition(inst) else ""),
         chart("coverage", "Demand against covered work per office")
-        + _spare_table(data, found)))
+        + _spare_table(data, found.caps)))
     sections.append(plan_section(
         "gaps", "Where the gaps are",
         "Uncovered FTE by office and period; darker is a larger gap. Hover a cell for the "

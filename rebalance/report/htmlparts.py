@@ -33,6 +33,7 @@ from rebalance.report.console import (
     stage_value,
 )
 from rebalance.report.inputs import VERIFY_LISTED, VERIFY_LISTS
+from rebalance.report.scenario_notes import figures_note
 from rebalance.report.words import optimal_words, outcome_words, plain_status, readable
 from rebalance.solve import StageResult, Status
 
@@ -56,8 +57,7 @@ NOTE_POINTERS = (
     (VERIFY_LISTED, f"listed under {PROBLEMS_TITLE} in {_RUN_LINK}"),
 )
 # Under the scenario box: whose data the page's figures are.
-SCENARIO_FIGURES = ("Every figure on this page is of the plan made under these changes, not "
-                    "under the instance's own data.")
+SCENARIO_FIGURES = figures_note("on this page")
 
 
 def e(value: object) -> str:

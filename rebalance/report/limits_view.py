@@ -29,7 +29,7 @@ from rebalance.report.words import and_list
 from rebalance.verify import unknown_names
 
 __all__ = ["DETAILS_AT_LIMIT", "LIMITS_LEAD", "LIMITS_TITLE", "SHORT_YET_AWAY",
-           "SHORT_YET_AWAY_LEAD", "LimitLine", "caps_and_explained", "limits_at_cap",
+           "SHORT_YET_AWAY_LEAD", "LimitLine", "LimitsFound", "limits_at_cap",
            "period_spans"]
 
 LIMITS_TITLE = "Limits the plan runs up against"
@@ -195,13 +195,23 @@ def _short_yet_away(plan: Plan, seats: Sequence[LimitUse]) -> LimitLine | None:
     return LimitLine("short_yet_away", SHORT_YET_AWAY, text, tuple(pairs), total)
 
 
-def caps_and_explained(found: Sequence[LimitLine]) -> tuple[tuple[LimitLine, ...],
-                                                              tuple[LimitLine, ...]]:
-    """``found`` (:func:`limits_at_cap`'s lines) as the limits at their cap, which
-    :data:`LIMITS_LEAD` introduces, and the lines that explain one rather than name one,
-    which :data:`SHORT_YET_AWAY_LEAD` introduces."""
-    return (tuple(line for line in found if line.kind != "short_yet_away"),
-            tuple(line for line in found if line.kind == "short_yet_away"))
+@dataclass(frozen=True)
+class LimitsFound:
+    """What :func:`limits_at_cap` found: ``caps``, the kinds of limit at their cap, which
+    :data:`LIMITS_LEAD` introduces, and ``away_while_short``, the lines that explain a cap
+    rather than name one (:data:`SHORT_YET_AWAY`), which :data:`SHORT_YET_AWAY_LEAD`
+    introduces."""
+
+    caps: tuple[LimitLine, ...] = ()
+    away_while_short: tuple[LimitLine, ...] = ()
+
+    @property
+    def lines(self) -> tuple[LimitLine, ...]:
+        """Every line, the caps first, as the surfaces list them."""
+        return (*self.caps, *self.away_while_short)
+
+    def __bool__(self) -> bool:
+        return bool(self.caps or self.away_while_short)
 
 
 def _vacancies_used(plan: Plan) -> float:
@@ -210,16 +220,16 @@ def _vacancies_used(plan: Plan) -> float:
     return float(hires.loc[hires["funding"].astype(str) == "vacancy", "count"].sum())
 
 
-def limits_at_cap(instance: Instance, plan: Plan) -> tuple[LimitLine, ...]:
+def limits_at_cap(instance: Instance, plan: Plan) -> LimitsFound:
     """Each kind of limit that ``plan`` has at its cap somewhere, in :data:`KIND_WORDS`'s
-    order, then any offices short yet sending people out (:func:`caps_and_explained` parts
-    them).  A limit counts where it binds (less is left than one more seat, hire, head away,
-    vacancy or priced action) and the plan uses some of it: a cap of nothing (an office that
-    may not hire, a share letting no one of a small office go) is a rule the plan was given,
-    not one it ran up against.  None for a plan naming what the instance lacks (a plan of
-    another instance, which ``rebalance report`` still draws): its uses cannot be read."""
+    order, and apart from them any offices short yet sending people out.  A limit counts
+    where it binds (less is left than one more seat, hire, head away, vacancy or priced
+    action) and the plan uses some of it: a cap of nothing (an office that may not hire, a
+    share letting no one of a small office go) is a rule the plan was given, not one it ran
+    up against.  Nothing for a plan naming what the instance lacks (a plan of another
+    instance, which ``rebalance report`` still draws): its uses cannot be read."""
     if unknown_names(instance, plan):
-        return ()
+        return LimitsFound()
     kinds: dict[str, list[LimitUse]] = defaultdict(list)
     for use in limit_use(instance, plan):
         if use.binding and use.used > 0:
@@ -261,4 +271,4 @@ def limits_at_cap(instance: Instance, plan: Plan) -> tuple[LimitLine, ...]:
         out.append(LimitLine(kind, words, text, tuple((u.where, u.period) for u in uses),
                              total))
     away = _short_yet_away(plan, kinds.get("seats", []))
-    return (*out, away) if away else tuple(out)
+    return LimitsFound(tuple(out), (away,) if away else ())

@@ -11,22 +11,22 @@ shown a 2027 hiring cap of 670,000 with no word that 150,000 of it was the scena
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import replace
 from typing import Any
 
 from rebalance.analysis.scenario_files import (
     BudgetChange,
     DemandChange,
+    DemandEffect,
     Scenario,
-    apply_scenario,
+    demand_effects,
 )
 from rebalance.instance import Instance
 from rebalance.numbers import fte_total_text, money_amount, plain_number
-from rebalance.report.htmlparts import SCENARIO_FIGURES
 from rebalance.report.inputs import SCENARIO_KEY, ScenarioSummary
 from rebalance.report.words import and_list
 
-__all__ = ["SCENARIO_KEY", "budget_words", "demand_words", "scenario_entry", "scenario_rows"]
+__all__ = ["SCENARIO_KEY", "budget_words", "demand_words", "figures_note", "scenario_entry",
+           "scenario_rows"]
 # Names listed in one selection before "and N more": a file may name every period.
 NAMES_SHOWN = 6
 
@@ -45,28 +45,24 @@ def _rows_words(count: int) -> str:
     return f"{count:,} row" + ("" if count == 1 else "s")
 
 
-def demand_words(change: DemandChange, instance: Instance) -> str:
+def demand_words(change: DemandChange, instance: Instance,
+                 effect: DemandEffect | None = None) -> str:
     """One ``[[demand]]`` table in words: "demand for inspection at hollin-cross in 2027-Q4
-    multiplied by 1.6", against ``instance``'s demand as the table finds it.
+    multiplied by 1.6", by what it did (``effect``, from :func:`demand_effects`; by default
+    what ``change`` alone does to ``instance``).
 
-    Rows are said to be added only where ``instance`` has none (as ``apply_scenario`` adds
-    them): the harbour surge's page had said "a row of 4 FTE added where there was none" of
-    rows demand.csv holds, which the surge raised."""
-    keys = {(d.office, d.skill, d.period): d.fte for d in instance.demand}
+    Rows are said to be added only where the demand it found had none: the harbour surge's
+    page had said "a row of 4 FTE added where there was none" of rows demand.csv holds,
+    which the surge raised."""
+    if effect is None:
+        effect = demand_effects(instance, Scenario("", "", (change,)))[0]
     skills = _listed(change.skills or (), "every skill")
     offices = _listed(change.offices or (), "every office")
     periods = _listed([instance.period_names[t] for t in change.periods or ()], "every period")
-    selected = [(o, k, t) for o, k, t in sorted(keys) if _selects(change, o, k, t)]
-    missing: list[tuple[str, str, int]] = []
-    if change.add_fte > 0 and change.offices is not None and change.skills is not None:
-        chosen = change.periods if change.periods is not None else range(
-            len(instance.periods))
-        missing = [(o, k, t) for o in change.offices for k in change.skills for t in chosen
-                   if (o, k, t) not in keys]
     where = f"demand for {skills} at {offices} in {periods}"
-    if missing and not selected:
+    if effect.added and not effect.changed:
         # Nothing there to multiply or raise: the rows are new, at add_fte each.
-        return where + ": " + _added(change, len(missing))
+        return where + ": " + _added(change, len(effect.added))
     what = []
     if change.multiplier != 1.0:
         what.append(f"multiplied by {plain_number(change.multiplier)}")
@@ -78,26 +74,18 @@ def demand_words(change: DemandChange, instance: Instance) -> str:
                 else " in each office, skill and period")
         what.append(f"{verb} by {plain_number(abs(change.add_fte))} FTE{each}")
     text = where + " " + (" and then ".join(what) or "unchanged")
-    if missing:
-        text += (f" where it has demand ({_rows_words(len(selected))}); "
-                 + _added(change, len(missing)))
-    floored = sum(1 for key in selected if keys[key] * change.multiplier + change.add_fte < 0)
-    if floored:  # apply_scenario takes demand to 0, not below
-        text += f" ({_rows_words(floored)} to 0, not below)"
+    if effect.added:
+        text += (f" where it has demand ({_rows_words(len(effect.changed))}); "
+                 + _added(change, len(effect.added)))
+    if effect.floored:  # apply_scenario takes demand to 0, not below
+        text += f" ({_rows_words(len(effect.floored))} to 0, not below)"
     return text
 
 
 def _added(change: DemandChange, count: int) -> str:
-    # apply_scenario adds such rows at add_fte each (priority 1 by default).
-    priority = 1.0 if change.priority is None else change.priority
     return (f"{_rows_words(count)} of {plain_number(change.add_fte)} FTE added where there "
-            f"{'was' if count == 1 else 'were'} none (priority {plain_number(priority)})")
-
-
-def _selects(change: DemandChange, office: str, skill: str, period: int) -> bool:
-    return ((change.offices is None or office in change.offices)
-            and (change.skills is None or skill in change.skills)
-            and (change.periods is None or period in change.periods))
+            f"{'was' if count == 1 else 'were'} none (priority "
+            f"{plain_number(change.added_priority)})")
 
 
 def budget_words(change: BudgetChange, currency: str | None) -> list[str]:
@@ -135,11 +123,10 @@ def scenario_entry(scenario: Scenario, base: Instance, applied: Instance) -> dic
     demand and budget changes in words (``applied``: ``base`` with the scenario applied,
     whose caps and demand the plan used).  The key "scenario" (the name alone) and
     "replan" keep their meaning: 'rebalance replan' reads the name from them."""
-    # Each table against the demand as it finds it: a table may raise rows an earlier one
-    # added (apply_scenario applies them in turn).
-    demand = [demand_words(c, base if i == 0 else apply_scenario(
-        base, replace(scenario, demand=scenario.demand[:i], budget=())))
-        for i, c in enumerate(scenario.demand)]
+    # Each table by what it did to the demand as it found it: a table may raise rows an
+    # earlier one added (apply_scenario applies them in turn).
+    demand = [demand_words(c, base, effect) for c, effect in zip(
+        scenario.demand, demand_effects(base, scenario), strict=True)]
     if scenario.demand:
         before = sum(d.fte for d in base.demand)
         after = sum(d.fte for d in applied.demand)
@@ -162,4 +149,11 @@ def scenario_rows(scenario: ScenarioSummary) -> list[tuple[str, str]]:
     rows = [("description", scenario.description)] if scenario.description else []
     for label, said in (("demand", scenario.demand), ("budgets", scenario.budget)):
         rows += [(label, text) for text in said or ("as in the instance's data",)]
-    return [*rows, (SCENARIO_FIGURES.replace("on this page", "here"), "")]
+    return [*rows, (figures_note("here"), "")]
+
+
+def figures_note(where: str) -> str:
+    """Whose data the figures ``where`` (the page's "on this page", the workbook's "here")
+    are: the scenario's, said under what it assumed."""
+    return (f"Every figure {where} is of the plan made under these changes, not under the "
+            "instance's own data.")

@@ -50,7 +50,6 @@ from rebalance.report.limits_view import (
     LIMITS_LEAD,
     LIMITS_TITLE,
     SHORT_YET_AWAY_LEAD,
-    caps_and_explained,
     limits_at_cap,
 )
 from rebalance.report.scenario_notes import scenario_rows
@@ -445,7 +444,8 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
     line("reassignments", len(plan.reassignments), WHOLE)
 
     band(LIMITS_TITLE)
-    caps, explained = caps_and_explained(limits_at_cap(instance, plan))
+    found = limits_at_cap(instance, plan)
+    caps, explained = found.caps, found.away_while_short
     # The console's backticks mark a command to type; a cell has no such marks.
     ws.write_string(next(rows), 0, " ".join(
         text[:1].upper() + text[1:] for text in LIMITS_LEAD).replace("`", "") + "." if caps else

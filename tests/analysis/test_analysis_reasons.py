@@ -225,8 +225,8 @@ def test_figures_in_reasons_follow_the_number_rule(tiny) -> None:
 
 def test_reasons_roll_up_by_office_and_by_limit_to_the_full_table(tiny) -> None:
     # The page's short tables before the full one (some 300 rows on the demo): each total
-    # recounted here from reasons.csv's own rows, apart from rebalance.report.analysis_words.
-    from rebalance.report.analysis_words import NO_LIMIT, reasons_by_limit, reasons_by_office
+    # recounted here from reasons.csv's own rows, apart from rebalance.report.reason_words.
+    from rebalance.report.reason_words import NO_LIMIT, reasons_by_limit, reasons_by_office
 
     table = reasons(tiny, solve_verified(tiny).plan).table
     offices = reasons_by_office(table)
@@ -257,7 +257,7 @@ def test_a_shortfall_citing_one_limit_in_many_periods_counts_once_under_it() -> 
     import pandas as pd
 
     from rebalance.analysis.reasons import REASON_COLUMNS
-    from rebalance.report.analysis_words import NO_LIMIT, reasons_by_limit, reasons_by_office
+    from rebalance.report.reason_words import NO_LIMIT, reasons_by_limit, reasons_by_office
 
     seats = ";".join(f"seats|B|2027-Q{q}" for q in (2, 3, 4))
     table = pd.DataFrame([

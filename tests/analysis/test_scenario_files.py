@@ -11,8 +11,12 @@ import pytest
 from conftest import DATA, ROOT
 
 from rebalance.analysis.scenario_files import (
+    DemandChange,
+    DemandEffect,
+    Scenario,
     ScenarioError,
     apply_scenario,
+    demand_effects,
     read_scenario,
     read_scenarios,
 )
@@ -45,6 +49,22 @@ def test_priority_zero_is_kept(tmp_path: Path, tiny) -> None:
     surged = apply_scenario(tiny, read_scenario(path, tiny))
     created = [d for d in surged.demand if (d.office, d.skill) == ("B", "intake")]
     assert len(created) == 4 and all(d.priority == 0.0 for d in created)
+
+
+def test_demand_effects_say_what_each_table_did(tiny) -> None:
+    # By hand from tests/data/tiny/demand.csv: intake at A has a row in 2027-Q1 only; review
+    # at A is 0.5 in 2027-Q2 and Q3, so 0.8 less stops at 0 there.  The third table finds
+    # the row the first added (tables apply in turn).
+    add = DemandChange(("A",), ("intake",), (0, 1), add_fte=1.0)
+    cut = DemandChange(("A",), ("review",), None, add_fte=-0.8)
+    scenario = Scenario("s", "", (add, cut, add))
+    assert demand_effects(tiny, scenario) == (
+        DemandEffect(changed=(("A", "intake", 0),), added=(("A", "intake", 1),)),
+        DemandEffect(changed=tuple(("A", "review", t) for t in range(4)),
+                     floored=(("A", "review", 1), ("A", "review", 2))),
+        DemandEffect(changed=(("A", "intake", 0), ("A", "intake", 1))))
+    applied = {(d.office, d.skill, d.period): d.fte for d in apply_scenario(tiny, scenario).demand}
+    assert applied[("A", "intake", 1)] == 2.0 and applied[("A", "review", 1)] == 0.0
 
 
 @pytest.mark.parametrize(("table", "key", "value", "expected"), [

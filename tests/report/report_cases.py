@@ -161,8 +161,8 @@ def demo_slice() -> Instance:
 @lru_cache(maxsize=1)
 def demo_slice_folder() -> Path:
     """A plan folder of the demo slice, written the way ``rebalance plan`` writes one."""
-    from rebalance.planning import write_outputs
-    from rebalance.report.files import plan_extras
+    from rebalance.files import staged_folder
+    from rebalance.report.files import write_plan_folder
 
     instance = demo_slice()
     result = make_plan(instance, options_from_instance(instance, relative_gap=0.02,
@@ -170,7 +170,8 @@ def demo_slice_folder() -> Path:
     if result.plan is None or not result.verified:
         raise RuntimeError(f"demo slice did not solve and verify: {result.status}")
     out = Path(tempfile.mkdtemp(prefix="rebalance-report-")) / "demo-slice"
-    write_outputs(result, out, extra=plan_extras())
+    with staged_folder(out, kind="plan") as folder:
+        write_plan_folder(result, folder)
     return out
 
 

@@ -90,7 +90,7 @@ def test_the_summary_lists_problems_as_verify_does(tmp_path):
 
 def test_the_summary_shows_the_first_20_problems_and_counts_the_rest():
     # Past the cap in lines, each problem keeps its first 3 knock-on lines, as verify's list
-    # does (rebalance.cli_common's VIOLATIONS_SHOWN and KNOCK_ONS_SHOWN).
+    # does (both cut by rebalance.report.console.first_problems).
     from dataclasses import replace
 
     from rebalance.report.console import KNOCK_ONS_SHOWN, PROBLEMS_SHOWN, format_summary

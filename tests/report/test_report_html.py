@@ -192,13 +192,14 @@ def test_frontier_over_both_budgets_draws_one_line_per_moves_budget(tmp_path):
 
 
 def test_tables_an_analysis_writes_before_the_reports_are_shown(tmp_path):
-    # The compare/replan/marginal commands write their tables into the staging folder and then
-    # call plan_extras, so the report of that one swap already shows them.
+    # The compare/replan/marginal commands hand their tables to write_plan_folder, which
+    # writes them into the staging folder before the reports, so the report of that one swap
+    # already shows them.
     from report_cases import scenario_table
 
     from rebalance import make_plan, options_from_instance
-    from rebalance.planning import write_outputs
-    from rebalance.report.files import plan_extras
+    from rebalance.files import staged_folder
+    from rebalance.report.files import write_plan_folder
 
     instance = read_instance(TINY)
     result = make_plan(instance, options_from_instance(instance, relative_gap=0.0))
@@ -206,14 +207,11 @@ def test_tables_an_analysis_writes_before_the_reports_are_shown(tmp_path):
                             "skill": ["review"], "first_period": ["2027-Q4"],
                             "last_period": ["2027-Q4"], "amount": [1],
                             "reason": ["b1 leaves after 2027-Q3"], "binding_limits": [""]})
-
-    def extra(result, folder: Path) -> None:
-        scenario_table(instance).to_csv(folder / "scenarios.csv", index=False)
-        reasons.to_csv(folder / "reasons.csv", index=False)
-        plan_extras(TINY)(result, folder)
-
     out = tmp_path / "compare"
-    write_outputs(result, out, extra=extra)
+    with staged_folder(out, kind="plan") as folder:
+        write_plan_folder(result, folder, tables={"reasons.csv": reasons}, instance_path=TINY,
+                          more=lambda into: scenario_table(instance).to_csv(
+                              into / "scenarios.csv", index=False))
     page = _page(out)
     assert 'data-chart="scenarios"' in page
     assert 'id="reasons"' in page and "b1 leaves after 2027-Q3" in page

@@ -47,7 +47,7 @@ def _solved(folder: str) -> PlanResult:
 def _at_cap(result: PlanResult) -> dict[str, set[tuple[str, str]]]:
     assert result.plan is not None
     return {line.kind: set(line.at_cap) for line in limits_at_cap(result.instance,
-                                                                   result.plan)}
+                                                                   result.plan).lines}
 
 
 def _page(result: PlanResult) -> str:
@@ -280,7 +280,7 @@ def test_vacancies_used_in_full_are_not_said_to_be_all_of_them(tmp_path):
     assert result.plan is not None
     hires = result.plan.hires
     assert hires.loc[hires["funding"] == "vacancy", "count"].sum() == 1
-    line = next(line for line in limits_at_cap(result.instance, result.plan)
+    line = next(line for line in limits_at_cap(result.instance, result.plan).lines
                 if line.kind == "vacancies")
     assert line.text == "used in full: review at B (1); 1 of 3 funded vacancies used in all"
 
@@ -379,7 +379,7 @@ def test_several_offices_short_yet_sending_people_out_share_one_line(tmp_path):
     offices = ("regional-casework-office-01", "regional-casework-office-02")
     result = _solved(str(_short_at(_many_seats_short(tmp_path / "many"), offices)))
     assert result.plan is not None
-    line = next(line for line in limits_at_cap(result.instance, result.plan)
+    line = next(line for line in limits_at_cap(result.instance, result.plan).lines
                 if line.kind == "short_yet_away")
     assert line.text == (
         f"{offices[0]} (8 person-periods) and {offices[1]} (8) are short of staff yet send "
@@ -432,7 +432,7 @@ def test_a_hire_count_edited_leaves_the_hiring_budget_at_the_files_figure():
     assert [(u.where, u.used, u.cap) for u in hiring] == [("2027", 28_000.0, 40_000.0)]
     money = chart_payload(replace(report_data(result), plan=plan))["budget"]
     assert [r["spend"] for r in money if r["kind"] == "hiring"] == [28_000.0]
-    line = next(line for line in limits_at_cap(result.instance, plan)
+    line = next(line for line in limits_at_cap(result.instance, plan).lines
                 if line.kind == "hiring_budget")
     assert line.text == "2027 28,000 of 40,000 used (too little left for one more hire)"
 
@@ -445,7 +445,7 @@ def test_a_budget_used_past_its_cap_says_over_the_cap_not_too_little_left():
     from rebalance.report.limits_view import _budget_text
 
     result, plan = _tiny_edited(1, 30_000.0)
-    line = next(line for line in limits_at_cap(result.instance, plan)
+    line = next(line for line in limits_at_cap(result.instance, plan).lines
                 if line.kind == "hiring_budget")
     assert line.text == "2027 50,000 of 40,000 used: over the cap by 10,000"
     assert line.total == "1 budget year over the cap"

@@ -245,13 +245,13 @@ class Instance:
         object.__setattr__(self, "_office", {o.name: o for o in self.offices})
         object.__setattr__(self, "_skill", {s.name: s for s in self.skills})
         object.__setattr__(self, "_budget", {b.year: b for b in self.budgets})
-        # (office, skill) -> periods with demand above 0 (a repeated row: the last one's, as
-        # the model reads demand), for the hires a start could cover.
+        # (office, skill) -> (period, fte) of each demand above 0 (a repeated row: the last
+        # one's, as the model reads demand), for the hires a start could cover.
         fte = {(d.office, d.skill, d.period): d.fte for d in self.demand}
-        wanted: dict[tuple[str, str], list[int]] = {}
+        wanted: dict[tuple[str, str], list[tuple[int, float]]] = {}
         for (o, k, t), x in fte.items():
             if x > 0:
-                wanted.setdefault((o, k), []).append(t)
+                wanted.setdefault((o, k), []).append((t, x))
         object.__setattr__(self, "_wanted", wanted)
 
     # -- look-ups -------------------------------------------------------------------------
@@ -379,13 +379,38 @@ class Instance:
         period ``start``: the office may not hire (max_hires_per_period 0), the start is
         before the skill's time to hire, no demand from the start on that a hire would
         cover, or (a vacancy hire) no funded vacancy there.  Empty where none does."""
+        return self._hire_rules(office, skill, start, self._hire_peak(office, skill, start),
+                                new_position)
+
+    def hire_need(self, office: str, skill: str, start: int) -> int:
+        """The most hires of ``skill`` starting at ``office`` in period ``start`` that could
+        help, the model's bound on such a start (a vacancy hire's within the vacancies too):
+        the whole hires the largest later demand needs at what one such hire then gives
+        (more than the peak needs is waste), within the office's max_hires_per_period; 0
+        where :meth:`hire_ruled_out` rules a new position out, as the model has no column
+        there."""
+        peak = self._hire_peak(office, skill, start)
+        if self._hire_rules(office, skill, start, peak, new_position=True):
+            return 0
+        cap = self.office(office).max_hires_per_period
+        return peak if cap is None else min(peak, cap)
+
+    def _hire_peak(self, office: str, skill: str, start: int) -> int:
+        need = 0
+        for t, fte in self._wanted.get((office, skill), ()):  # type: ignore[attr-defined]
+            if t >= start and (gives := self.hire_fte(skill, office, start, t)) > 0:
+                need = max(need, math.ceil(fte / gives - 1e-9))
+        return need
+
+    def _hire_rules(self, office: str, skill: str, start: int, peak: int,
+                    new_position: bool) -> tuple[RuledOut, ...]:
+        """:meth:`hire_ruled_out`, given the start's :meth:`_hire_peak` (no demand: 0)."""
         out: list[RuledOut] = []
         if self.office(office).max_hires_per_period == 0:
             out.append("may_not_hire")
         if start < self.skill(skill).time_to_hire:
             out.append("before_time_to_hire")
-        if not any(t >= start and self.hire_fte(skill, office, start, t) > 0
-                   for t in self._wanted.get((office, skill), ())):  # type: ignore[attr-defined]
+        if peak <= 0:
             out.append("no_demand")
         if not new_position and self.vacancies.get((office, skill), 0) <= 0:
             out.append("no_vacancy")

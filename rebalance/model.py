@@ -381,22 +381,11 @@ def _add_hire_columns(b: _Builder, f: _Frame) -> ColumnBlock:
     hire_ub: list[float] = []
     hire_cost: list[float] = []
     for o, office in enumerate(f.instance.offices):
-        if office.max_hires_per_period == 0:
-            continue
         for k, skill in enumerate(f.instance.skills):
-            later_demand = [(t, f.demand_fte.get((o, k, t), 0.0)) for t in range(T)]
             vac = f.instance.vacancies.get((office.name, skill.name), 0)
-            for s in range(skill.time_to_hire, T):
-                # No hire where nothing it could ever cover: more than the peak needs is waste.
-                need = 0
-                for t, fte in later_demand[s:]:
-                    eff = f.instance.hire_fte(skill.name, office.name, s, t)
-                    if fte > 0 and eff > 0:
-                        need = max(need, math.ceil(fte / eff - 1e-9))
-                if office.max_hires_per_period is not None:
-                    need = min(need, office.max_hires_per_period)
-                if need <= 0:
-                    continue
+            for s in range(T):
+                # 0 where the data rule a hire out (Instance.hire_ruled_out)
+                need = f.instance.hire_need(office.name, skill.name, s)
                 for new in (0, 1):
                     ub = need if new else min(need, vac)
                     if ub <= 0:

@@ -185,3 +185,19 @@ def test_hire_ruled_out_names_every_rule_of_the_data_that_leaves_no_hire(tiny):
     a1 = tiny.staff[0]
     assert tiny.move_ruled_out(a1, 1, "detail") == ()
     assert tiny.move_ruled_out(a1, 1, "reassignment") == ("may_not_relocate",)
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_the_model_has_a_hire_column_exactly_where_the_data_rule_none_out(seed):
+    # One statement of the rule (Instance.hire_ruled_out): the model's hire block, the
+    # re-plan's refusals and the change reasons all read it.
+    instance = random_instance(seed, people=3, periods=5, offices=3, skills=2)
+    model = build_model(instance, pooled=False)
+    hire = model.blocks["hire"]
+    columns = {(int(o), int(k), int(s), int(new)) for o, k, s, new in zip(
+        *(hire.keys[c] for c in ("office", "skill", "period", "new")), strict=True)}
+    for (o, office), (k, skill), s, new in itertools.product(
+            enumerate(instance.offices), enumerate(instance.skills), range(len(instance.periods)),
+            (0, 1)):
+        ruled_out = instance.hire_ruled_out(office.name, skill.name, s, new_position=bool(new))
+        assert ((o, k, s, new) in columns) == (not ruled_out), (office.name, skill.name, s, new)

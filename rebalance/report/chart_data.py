@@ -14,7 +14,7 @@ from typing import Any
 import pandas as pd
 
 from rebalance.numbers import NEAR_ZERO, fte_total_text, number_rule
-from rebalance.plan import BUDGET_LINES
+from rebalance.plan import BUDGET_LINES, budget_lines
 from rebalance.report.inputs import ReportData
 
 __all__ = ["chart_payload", "records", "spare_capacity"]
@@ -182,17 +182,14 @@ def _hires(data: ReportData) -> dict[str, Any]:
 
 
 def _budget_rows(data: ReportData) -> list[dict[str, Any]]:
+    """Each budget line (:func:`rebalance.plan.budget_lines`) with its spending split by kind
+    of cost, the parts the chart stacks."""
     costs = data.plan.costs.groupby(["year", "kind"])["cost"].sum() if len(
         data.plan.costs) else pd.Series(dtype=float)
-    rows = []
-    for year in data.instance.years:
-        budget = data.instance.budget(year)
-        for kind, kinds in BUDGET_LINES:
-            cap = None if budget is None else getattr(budget, kind)
-            parts = {k: float(costs.get((year, k), 0.0)) for k in kinds}
-            rows.append({"year": year, "kind": kind, "spend": sum(parts.values()),
-                         "cap": cap, "parts": parts})
-    return rows
+    kinds = dict(BUDGET_LINES)
+    return [{"year": line.year, "kind": line.cap_name, "spend": line.spent, "cap": line.cap,
+             "parts": {k: float(costs.get((line.year, k), 0.0)) for k in kinds[line.cap_name]}}
+            for line in budget_lines(data.instance, data.plan)]
 
 
 def chart_payload(data: ReportData) -> dict[str, Any]:

@@ -29,7 +29,7 @@ from rebalance.numbers import (
     share_text,
     with_currency,
 )
-from rebalance.plan import BUDGET_LINES
+from rebalance.plan import BudgetLine, budget_lines
 from rebalance.planning import (
     BUILD_STAGE,
     CAUTION,
@@ -100,26 +100,22 @@ def _table(headers: Sequence[str], rows: Sequence[Sequence[object]]) -> list[str
     return [line(cells[0]), "  ".join("-" * w for w in widths)] + [line(r) for r in cells[1:]]
 
 
-def budget_note(instance: Instance, costs: pd.DataFrame) -> str:
+def budget_note(instance: Instance, lines: Sequence[BudgetLine]) -> str:
     """New money against the caps, for a headline (console, page, workbook alike): "of
     314,000 allowed" where every cap is set, "no caps set" where none is, and otherwise the
     spending under caps against them, apart from the spending with none ("300,100 of 314,000
     allowed where capped, 201,600 where uncapped"): all spending "of" the set caps' sum
     ("501,700 of 314,000 allowed") had read as overspending.  A cap of 0 is a cap (nothing
     may be spent; it had read "no caps set"); a blank cap, or a year with no row in
-    budget.csv, is none.  ``costs`` is the plan's table of spending by year and kind."""
-    spent = costs.groupby(["year", "kind"])["cost"].sum().to_dict() if len(costs) else {}
+    budget.csv, is none.  ``lines`` are the plan's :func:`rebalance.plan.budget_lines`."""
     allowed = capped_spent = uncapped_spent = 0.0
     capped = uncapped = False
-    for year in instance.years:
-        budget = instance.budget(year)
-        for cap_name, kinds in BUDGET_LINES:
-            amount = sum(float(spent.get((year, kind), 0.0)) for kind in kinds)
-            cap = None if budget is None else getattr(budget, cap_name)
-            if cap is None:
-                uncapped, uncapped_spent = True, uncapped_spent + amount
-            else:
-                capped, capped_spent, allowed = True, capped_spent + amount, allowed + cap
+    for line in lines:
+        if line.cap is None:
+            uncapped, uncapped_spent = True, uncapped_spent + line.spent
+        else:
+            capped, capped_spent = True, capped_spent + line.spent
+            allowed += line.cap
     if not capped:
         return "no caps set"
 
@@ -159,6 +155,7 @@ def format_summary(result: PlanResult) -> str:
     plan = result.plan
     money = result.instance.money
     if plan is not None:
+        spending = budget_lines(result.instance, plan)
         demand = float(plan.coverage["demand_fte"].sum())
         lines += [
             "",
@@ -170,7 +167,7 @@ def format_summary(result: PlanResult) -> str:
             # "New money", as the page and the workbook name it: leaders had read "total
             # cost" as the whole staffing cost, when staff already employed are not in it.
             f"  new money            {money_amount(plan.total_cost, money.currency)} "
-            f"({budget_note(result.instance, plan.costs)})",
+            f"({budget_note(result.instance, spending)})",
             f"  hires                {plan.hires_count()}",
             f"  detail periods       {len(plan.details)} "
             f"({plan.details['person'].nunique()} people)",
@@ -178,20 +175,13 @@ def format_summary(result: PlanResult) -> str:
             *_run_rate_lines(result),
             "",
         ]
-        costs = plan.costs.groupby(["year", "kind"])["cost"].sum().to_dict()
-        rows = []
-        for year in result.instance.years:
-            budget = result.instance.budget(year)
-
-            def spent(*kinds: str, year: str = year) -> float:
-                return sum(float(costs.get((year, k), 0.0)) for k in kinds)
-
-            cells: list[str] = [year]
-            for cap_name, kinds in BUDGET_LINES:
-                cap = None if budget is None else getattr(budget, cap_name)
-                cells += [money_text(spent(*kinds)),
-                          "no cap" if cap is None else money_text(cap)]
-            rows.append(tuple(cells))
+        # One row a budget year: its hiring line, then its moves line (BUDGET_LINES' order).
+        by_year: dict[str, list[str]] = {}
+        for spent in spending:
+            by_year.setdefault(spent.year, [spent.year]).extend(
+                [money_text(spent.spent),
+                 "no cap" if spent.cap is None else money_text(spent.cap)])
+        rows = [tuple(cells) for cells in by_year.values()]
         lines += ["  " + x for x in _table(
             ("year", *(money.header(h) for h in ("hiring spend", "hiring cap", "moves spend",
                                                   "moves cap"))), rows)]

@@ -20,6 +20,7 @@ from importlib import resources
 from pathlib import Path
 from typing import Any
 
+from rebalance.files import atomic_file
 from rebalance.numbers import (
     dust_free,
     fte_total_text,
@@ -27,6 +28,7 @@ from rebalance.numbers import (
     money_text,
     share_text,
 )
+from rebalance.plan import budget_lines
 from rebalance.planning import (
     BUILD_STAGE,
     new_position_salaries,
@@ -107,7 +109,7 @@ def _headline(data: ReportData) -> str:
     plan, run, money_unit = data.plan, data.summary, data.instance.money
     demand = float(plan.coverage["demand_fte"].sum()) if len(plan.coverage) else 0.0
     share = plan.shortfall_fte / demand if demand else 0.0
-    money_note = (f"{budget_note(data.instance, plan.costs)}, "
+    money_note = (f"{budget_note(data.instance, budget_lines(data.instance, plan))}, "
                   f"{data.instance.periods[0].name} to {data.instance.periods[-1].name}")
     people = plan.details["person"].nunique() if len(plan.details) else 0
     hires_new = int(plan.hires.loc[plan.hires["funding"] == "new", "count"].sum()) if len(
@@ -546,9 +548,7 @@ def _commitments(data: ReportData) -> str:
 
 def write_html(data: ReportData, path: str | Path) -> Path:
     """Write ``report.html`` (a temporary file renamed into place, so never half-written)."""
-    target = Path(path)
-    target.parent.mkdir(parents=True, exist_ok=True)
-    tmp = target.with_name(f".{target.name}.tmp")
-    tmp.write_text(render_html(data), encoding="utf-8")
-    tmp.replace(target)
-    return target
+    page = render_html(data)  # before the file is begun: a failure leaves no temporary
+    with atomic_file(path) as tmp:
+        tmp.write_text(page, encoding="utf-8")
+    return Path(path)

@@ -32,13 +32,12 @@ from rebalance.report.console import (
     room_left,
     stage_value,
 )
-from rebalance.report.inputs import VERIFY_LISTED, VERIFY_LISTS
 from rebalance.report.scenario_notes import figures_note
 from rebalance.report.words import optimal_words, outcome_words, plain_status, readable
 from rebalance.solve import StageResult, Status
 
 if TYPE_CHECKING:
-    from rebalance.report.inputs import ProblemText, ReportData, ScenarioSummary
+    from rebalance.report.inputs import Note, Pointer, ProblemText, ReportData, ScenarioSummary
 
 __all__ = ["PROBLEMS_TITLE", "RUN_ANCHOR", "RUN_TITLE", "card", "chart", "e", "frame_table_html",
            "note_html", "problem_list", "run_details", "scenario_box", "section", "stage_cell",
@@ -48,14 +47,14 @@ __all__ = ["PROBLEMS_TITLE", "RUN_ANCHOR", "RUN_TITLE", "card", "chart", "e", "f
 # in it: the console calls them problems, and the page had said "Violations".
 RUN_ANCHOR, RUN_TITLE = "run", "How it was found"
 PROBLEMS_TITLE = "Problems"
-# Where the notes at the top of the page (rebalance.report.inputs') point a reader to the
-# problems, and what the page says there instead: its own list, linked ("the run details"
-# had named no section of the page; the workbook, which lists none, keeps the words).
+# What the page puts where a note at its top (rebalance.report.inputs.Note) points a reader
+# to the problems: its own list, linked ("the run details" had named no section of the page;
+# the workbook, which lists none, keeps inputs.VERIFY_POINTERS' words).
 _RUN_LINK = f'<a href="#{RUN_ANCHOR}">{RUN_TITLE}</a>'
-NOTE_POINTERS = (
-    (VERIFY_LISTS, f"the list of {PROBLEMS_TITLE} in {_RUN_LINK} says why"),
-    (VERIFY_LISTED, f"listed under {PROBLEMS_TITLE} in {_RUN_LINK}"),
-)
+NOTE_LINKS: dict[Pointer, str] = {
+    "verify_lists": f"the list of {PROBLEMS_TITLE} in {_RUN_LINK} says why",
+    "verify_listed": f"listed under {PROBLEMS_TITLE} in {_RUN_LINK}",
+}
 # Under the scenario box: whose data the page's figures are.
 SCENARIO_FIGURES = figures_note("on this page")
 
@@ -64,12 +63,10 @@ def e(value: object) -> str:
     return html.escape(str(value), quote=True)
 
 
-def note_html(note: str) -> str:
+def note_html(note: Note) -> str:
     """A note at the top of the page, escaped, its pointer to the problems a link to them."""
-    text = e(note)
-    for words, link in NOTE_POINTERS:
-        text = text.replace(e(words), link)
-    return f'<p class="note">{text}</p>'
+    link = "" if note.pointer is None else NOTE_LINKS[note.pointer]
+    return f'<p class="note">{e(note.text)}{link}{e(note.after)}</p>'
 
 
 class _Stage(Protocol):

@@ -12,29 +12,58 @@ import json
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import Any, Literal
 
 import pandas as pd
 
+from rebalance.analysis.frontier import FRONTIER_COLUMNS
+from rebalance.analysis.marginal import MARGINAL_COLUMNS
+from rebalance.analysis.reasons import REASON_COLUMNS
+from rebalance.analysis.replan import CHANGE_COLUMNS
+from rebalance.analysis.scenario_actions import ACTION_COLUMNS, REASON_COLUMN
+from rebalance.analysis.scenarios import OFFICE_COLUMNS
 from rebalance.instance import Instance
 from rebalance.numbers import gap_text
 from rebalance.plan import Plan, read_plan
 from rebalance.planning import CAUTION, PlanResult, summary_dict
 from rebalance.problems import problems_counted
 from rebalance.report.console import problem_lines
+from rebalance.tables import RawTable, known_case
 from rebalance.verify import Violation, verify_folder
 from rebalance.verify_causes import group_problems
 
 __all__ = ["AHEAD_KEY", "ANALYSIS_FILES", "SCENARIO_KEY", "SHEET_ONLY", "TABLE_FILES",
-           "PlannedAheadSummary", "ProblemText", "ReplanSummary", "ReportData", "RunSummary",
-           "ScenarioSummary", "StageSummary",
+           "VERIFY_POINTERS", "Note", "PlannedAheadSummary", "Pointer", "ProblemText",
+           "ReplanSummary", "ReportData", "RunSummary", "ScenarioSummary", "StageSummary",
            "problem_texts", "quality_notes", "report_data", "report_data_from_folder",
            "stored_instance_path"]
 
-# Where the notes of a failed verification send a reader: true of every surface that shows
-# them (the workbook lists no problems); the page links its own list instead (htmlparts).
-VERIFY_LISTS = "rebalance verify lists why"
-VERIFY_LISTED = "listed by rebalance verify"
+# Where the notes of a failed verification send a reader, by the kind of pointer a note
+# holds: words true of every surface that shows them (the workbook lists no problems); the
+# page links its own list instead (htmlparts.NOTE_LINKS).
+Pointer = Literal["verify_lists", "verify_listed"]
+VERIFY_POINTERS: dict[Pointer, str] = {
+    "verify_lists": "rebalance verify lists why",
+    "verify_listed": "listed by rebalance verify",
+}
+
+
+@dataclass(frozen=True)
+class Note:
+    """A note a reader must see before the figures.  One that sends the reader to the list of
+    problems holds that pointer apart, between ``text`` and ``after``, so each surface puts
+    its own: the page a link to its list, others :data:`VERIFY_POINTERS`' words (the page
+    had found those words in the finished text and rewritten them)."""
+
+    text: str
+    pointer: Pointer | None = None
+    after: str = ""
+
+    def words(self) -> str:
+        """The note as plain text, its pointer in :data:`VERIFY_POINTERS`' words."""
+        if self.pointer is None:
+            return self.text + self.after
+        return f"{self.text}{VERIFY_POINTERS[self.pointer]}{self.after}"
 
 # Analysis tables a plan folder may hold (issue 5 writes them); each section shows only if
 # its file is there.  Several names are accepted for the scenario comparison.
@@ -57,6 +86,18 @@ TABLE_FILES: dict[str, str] = {
 # the page already charts and lists those figures.  scenario_offices (demand and shortfall by
 # scenario and office) is said in the scenarios section's lines, where shortfall moved.
 SHEET_ONLY = frozenset({"scenario_costs", "scenario_offices"})
+# The columns each analysis table's writer gives it, so a header written but for case
+# ("Scenario", " SCENARIO ") reads as named (known_case), as the instance's and the plan
+# tables' do.  scenarios.csv (columns by cap, kind of cost and year), scenario_costs.csv and
+# replan.csv have no such list where they are written: their headers are read as written.
+TABLE_COLUMNS: dict[str, tuple[str, ...]] = {
+    "frontier": FRONTIER_COLUMNS,
+    "marginal_values": MARGINAL_COLUMNS,
+    "reasons": REASON_COLUMNS,
+    "changes": CHANGE_COLUMNS,
+    "scenario_actions": (*ACTION_COLUMNS, REASON_COLUMN),
+    "scenario_offices": OFFICE_COLUMNS,
+}
 
 
 @dataclass(frozen=True)
@@ -248,7 +289,7 @@ class ReportData:
     marginal_values: pd.DataFrame | None = None
     # TABLE_FILES present in the folder, in that order: (name, table).
     tables: tuple[tuple[str, pd.DataFrame], ...] = ()
-    notes: tuple[str, ...] = field(default=())
+    notes: tuple[Note, ...] = field(default=())
     # The summary's violations grouped into problems (problem_texts), which summary.json's
     # flat list of lines cannot say; empty where the plan passed.
     problems: tuple[ProblemText, ...] = ()
@@ -259,16 +300,16 @@ class ReportData:
 WIDE_GAP = 0.05
 
 
-def quality_notes(data: ReportData) -> list[str]:
+def quality_notes(data: ReportData) -> list[Note]:
     """Warnings a reader must see before the figures: a wide gap, a failed verification."""
     run, notes = data.summary, []
     if run.status == "feasible_with_gap" and (run.gap is None or run.gap > WIDE_GAP):
         gap = "an unknown gap" if run.gap is None else f"a gap of {gap_text(run.gap)}"
-        notes.append(f"The solver stopped at its time limit with {gap} between this plan and "
-                     "the best bound it proved: a better plan may exist. Give it more time "
-                     "(--time-limit) before relying on these figures.")
+        notes.append(Note(f"The solver stopped at its time limit with {gap} between this plan "
+                          "and the best bound it proved: a better plan may exist. Give it more "
+                          "time (--time-limit) before relying on these figures."))
     if run.verified is False:
-        notes.append(f"This plan FAILED independent verification; {VERIFY_LISTS}.")
+        notes.append(Note("This plan FAILED independent verification; ", "verify_lists", "."))
     return notes
 
 
@@ -310,16 +351,17 @@ def report_data_from_folder(plan_dir: str | Path, instance: Instance,
     run it (else it is run here)."""
     folder = Path(plan_dir)
     summary_path = folder / "summary.json"
-    notes: list[str] = []
+    notes: list[Note] = []
     raw: dict[str, Any] = {}
     if summary_path.is_file():
         try:
             loaded = json.loads(summary_path.read_text(encoding="utf-8"))
             raw = loaded if isinstance(loaded, dict) else {}
         except json.JSONDecodeError as exc:
-            notes.append(f"summary.json could not be read ({exc}); run details are unknown")
+            notes.append(Note(f"summary.json could not be read ({exc}); run details are "
+                              "unknown"))
     else:
-        notes.append("summary.json is missing; run details are unknown")
+        notes.append(Note("summary.json is missing; run details are unknown"))
     raw.setdefault("instance", instance.name)
     # The report says what the folder's files are now, not what summary.json said when the
     # plan was written: they may have been edited, lost a table, or belong to another instance.
@@ -330,15 +372,18 @@ def report_data_from_folder(plan_dir: str | Path, instance: Instance,
     problems = problem_texts(violations)
     if problems:
         # Counted as listed (a moved work row is one problem, not its nine lines).
-        notes.append(f"verified again for this report against instance {instance.name}: "
-                     f"{problems_counted(len(problems))}, {VERIFY_LISTED}; the "
-                     "figures below are the files' as they stand")
+        notes.append(Note(f"verified again for this report against instance {instance.name}: "
+                          f"{problems_counted(len(problems))}, ", "verify_listed",
+                          "; the figures below are the files' as they stand"))
     analysis, tables, more = _analysis_tables(folder)
     return ReportData(instance, read_plan(folder), RunSummary.from_dict(raw), tables=tables,
                       notes=tuple(notes + more), problems=problems, **analysis)
 
 
-def _read_table(path: Path, notes: list[str]) -> pd.DataFrame | None:
+def _read_table(path: Path, notes: list[Note],
+                columns: Sequence[str] = ()) -> pd.DataFrame | None:
+    """``path`` as a table, or None (a note says why) where it is empty or unreadable; each
+    column named as one of ``columns`` but for case or surrounding spaces renamed to it."""
     try:
         # Only an empty cell is missing: a scenario, office or person named null, NA or None
         # is a name (a scenario named null had lost its name on the page and in the workbook).
@@ -348,22 +393,25 @@ def _read_table(path: Path, notes: list[str]) -> pd.DataFrame | None:
         frame = pd.read_csv(path, keep_default_na=False, na_values=[""], dtype={
             c: str for c in header if str(c).strip().endswith("_budget_years")})
     except (ValueError, OSError) as exc:  # pandas' parser errors are ValueErrors
-        notes.append(f"{path.name} could not be read ({exc}); its section is left out")
+        notes.append(Note(f"{path.name} could not be read ({exc}); its section is left out"))
         return None
-    frame.columns = [str(c).strip() for c in frame.columns]
+    stripped = RawTable(path.name, tuple(str(c).strip() for c in frame.columns), ())
+    frame.columns = list(known_case(stripped, columns).columns)
     return frame if len(frame) else None
 
 
 def _analysis_tables(folder: Path) -> tuple[dict[str, pd.DataFrame | None],
-                                             tuple[tuple[str, pd.DataFrame], ...], list[str]]:
+                                             tuple[tuple[str, pd.DataFrame], ...], list[Note]]:
     charted: dict[str, pd.DataFrame | None] = {}
-    notes: list[str] = []
+    notes: list[Note] = []
     for name, files in ANALYSIS_FILES.items():
         present = [folder / f for f in files if (folder / f).is_file()]
-        charted[name] = _read_table(present[0], notes) if present else None
+        charted[name] = (_read_table(present[0], notes, TABLE_COLUMNS.get(name, ()))
+                         if present else None)
     tables = []
     for name, file in TABLE_FILES.items():
-        frame = _read_table(folder / file, notes) if (folder / file).is_file() else None
+        frame = (_read_table(folder / file, notes, TABLE_COLUMNS.get(name, ()))
+                 if (folder / file).is_file() else None)
         if frame is not None:
             tables.append((name, frame))
     return charted, tuple(tables), notes

@@ -10,7 +10,6 @@ from __future__ import annotations
 import datetime as dt
 import itertools
 import math
-import os
 from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
@@ -18,7 +17,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from rebalance.files import sibling_name
+from rebalance.files import atomic_file
 from rebalance.numbers import (
     FTE_TOTAL_DIGITS,
     NEAR_ZERO,
@@ -38,7 +37,7 @@ from rebalance.numbers import (
     typed_places,
     years_text,
 )
-from rebalance.plan import BUDGET_LINES, PLAN_TABLES
+from rebalance.plan import PLAN_TABLES, budget_lines
 from rebalance.planning import plan_run_rate, run_rate_warning
 from rebalance.report.analysis_charts import AMOUNT_COLUMNS, GRID_COLUMNS
 from rebalance.report.chart_data import spare_capacity
@@ -128,9 +127,7 @@ def write_workbook(data: ReportData, path: str | Path) -> Path:
     # would lose the whole plan folder for one sheet that the CSV files hold in full.
     cut = [_cut_note(name, len(frame)) for name, frame in sheets if len(frame) >= SHEET_ROWS]
     sheets = [(name, frame.iloc[:SHEET_ROWS - 1]) for name, frame in sheets]
-    target.parent.mkdir(parents=True, exist_ok=True)
-    tmp = sibling_name(target)
-    try:
+    with atomic_file(target) as tmp:  # whole or not at all
         # constant_memory sends each row to disk when the next one starts, so a large plan is
         # never held whole in memory; it needs every sheet written top to bottom.  Text is
         # written as text: no turning "00123" into a number or "=..." into a formula.
@@ -147,10 +144,6 @@ def write_workbook(data: ReportData, path: str | Path) -> Path:
                          typed=TYPED_COLUMNS.get(name, ()),
                          grid=GRID_FORMAT_COLUMNS.get(name, ()))
         book.close()
-        os.replace(tmp, target)
-    except BaseException:
-        tmp.unlink(missing_ok=True)
-        raise
     return target
 
 
@@ -366,6 +359,7 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
                    cut: Sequence[str] = ()) -> None:
     plan, instance, run = data.plan, data.instance, data.summary
     demand = float(plan.coverage["demand_fte"].sum()) if len(plan.coverage) else 0.0
+    spending = budget_lines(instance, plan)
     rows = itertools.count()  # rows go strictly downwards (constant_memory)
 
     def band(text: str) -> None:
@@ -392,7 +386,7 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
                     f"{instance.periods[-1].name}; {len(instance.offices)} offices, "
                     f"{len(instance.staff)} staff; written "
                     f"{dt.datetime.now(dt.UTC).strftime('%Y-%m-%d %H:%M')} UTC")
-    warnings = [*cut, *quality_notes(data)]
+    warnings = [*cut, *(note.words() for note in quality_notes(data))]
     if warnings:
         band("Read this first")
         for text in warnings:
@@ -414,7 +408,7 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
          f"of {fte_total_text(demand)} FTE-periods demanded")
     cash = _money_format(instance.money.currency)
     line("new money, all years", plan.total_cost, cash,
-         f"{budget_note(instance, plan.costs)}, {instance.periods[0].name} to "
+         f"{budget_note(instance, spending)}, {instance.periods[0].name} to "
          f"{instance.periods[-1].name}")
     rate = plan_run_rate(instance, plan)
     line("new positions' salaries a year", rate.per_year, cash,
@@ -463,20 +457,15 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
     for col, text in enumerate(["year", *(instance.money.header(h) for h in (
             "hiring spend", "hiring cap", "moves spend", "moves cap"))]):
         ws.write_string(header_row, col, text, styles.header)
-    costs = plan.costs.groupby(["year", "kind"])["cost"].sum() if len(plan.costs) else None
     money = styles.number(MONEY)
     numeric_years = _numeric_years(instance.years)
-    for year in instance.years:
-        def spent(*kinds: str, year: str = year) -> float:
-            return sum(float(costs.get((year, k), 0.0)) for k in kinds) if costs is not None \
-                else 0.0
-
-        budget = instance.budget(year)
+    # One row a budget year: its hiring line, then its moves line (BUDGET_LINES' order).
+    by_year: dict[str, list[float | None]] = {}
+    for spent in spending:
+        by_year.setdefault(spent.year, []).extend([spent.spent, spent.cap])
+    for year, cells in by_year.items():
         row = next(rows)
         ws.write(row, 0, _year_cell(year, numeric_years))
-        cells: list[float | None] = []
-        for cap_name, kinds in BUDGET_LINES:
-            cells += [spent(*kinds), None if budget is None else getattr(budget, cap_name)]
         for col, value in enumerate(cells, 1):
             value = _cell_value(value)
             ws.write(row, col, "no cap" if value is None else value, money)

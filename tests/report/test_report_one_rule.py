@@ -30,6 +30,7 @@ from rebalance.numbers import (
     share_of,
     share_text,
 )
+from rebalance.plan import PLAN_TABLES, Plan, budget_lines
 from rebalance.planning import PlanResult
 from rebalance.report.analysis_charts import _frontier, _scenarios
 from rebalance.report.analysis_view import _gap_note
@@ -123,7 +124,7 @@ def test_the_wide_gap_warning_writes_its_gap_by_the_rule():
     data = report_data(_tiny())
     data = replace(data, summary=replace(data.summary, status="feasible_with_gap", gap=0.4))
     notes = quality_notes(data)
-    assert any("a gap of 40.00%" in n for n in notes)
+    assert any("a gap of 40.00%" in n.words() for n in notes)
 
 
 def test_the_comparison_warning_writes_its_gap_by_the_rule():
@@ -249,24 +250,28 @@ def test_the_notebook_writes_figures_by_the_rule():
 #    generate ... --seed 3 --budget-tightness 0`), and "501,700 of 314,000 allowed (some lines
 #    uncapped)" with one hiring cap blank, all spending "of" the set caps as if overspent.
 
-def _costs(**by_kind: float) -> pd.DataFrame:
-    return pd.DataFrame({"year": "2027", "kind": list(by_kind), "cost": list(by_kind.values())})
+def _costs(**by_kind: float) -> Plan:
+    """A plan with only ``costs.csv`` rows (2027, by kind), the other tables empty."""
+    empty = {name: pd.DataFrame(columns=list(columns)) for name, columns in PLAN_TABLES.items()}
+    return Plan(**{**empty, "costs": pd.DataFrame(
+        {"year": "2027", "kind": list(by_kind), "cost": list(by_kind.values())})})
 
 
 def test_the_money_note_counts_a_zero_cap_and_keeps_uncapped_spending_apart():
     tiny = read_instance(TINY)  # one budget year, 2027: hiring 40,000, moves 30,000
     costs = _costs(onboarding=20_000.0, new_position_salary=5_000.0, detail=12_000.0,
                    relocation=0.0)
-    assert budget_note(tiny, costs) == "of 70,000 allowed"
+    assert budget_note(tiny, budget_lines(tiny, costs)) == "of 70,000 allowed"
     zero = tiny.with_changes(budgets=(Budget("2027", 0.0, 0.0),))
-    assert budget_note(zero, _costs(detail=0.0)) == "of 0 allowed"
+    assert budget_note(zero, budget_lines(zero, _costs(detail=0.0))) == "of 0 allowed"
     blank = tiny.with_changes(budgets=(Budget("2027", None, 30_000.0),))
     # Hand sums of `costs`: moves (detail, relocation) 12,000 under the 30,000 cap; hiring
     # (onboarding, new positions' salaries) 25,000 with no cap.
-    assert budget_note(blank, costs) == (
+    assert budget_note(blank, budget_lines(blank, costs)) == (
         "12,000 of 30,000 allowed where capped, 25,000 where uncapped")
     # docs/instance-format.md, budget.csv: "A budget year with no row has no caps".
-    assert budget_note(tiny.with_changes(budgets=()), costs) == "no caps set"
+    none = tiny.with_changes(budgets=())
+    assert budget_note(none, budget_lines(none, costs)) == "no caps set"
 
 
 @pytest.mark.parametrize(("hiring", "moves"), [(0.0, 0.0), (None, 30_000.0)])

@@ -228,9 +228,8 @@ def plan_run_rate(instance: Instance, plan: Plan,
     positions = int(table["positions"].sum()) if len(table) else 0
     cap_year, cap = None, None
     for year in instance.years:
-        budget = instance.budget(year)
-        if budget is not None and budget.hiring is not None:
-            cap_year, cap = year, budget.hiring
+        if (hiring := instance.budget_cap(year, "hiring")) is not None:
+            cap_year, cap = year, hiring
     return RunRate(per_year, positions, instance.periods[-1].name, cap_year, cap)
 
 

@@ -289,12 +289,10 @@ def _insert_hire(instance: Instance, model: Model, o: int, k: int, s: int, new: 
               float(instance.vacancies.get((office.name, skill.name), 0)))
     cost_by_year = instance.hire_cost_by_year(skill.name, s, new_position=bool(new))
     for year in instance.years:
-        budget = instance.budget(year)
-        if budget is None or budget.hiring is None:
-            continue
+        hiring = instance.budget_cap(year, "hiring")
         amount = cost_by_year.get(year, 0.0)
-        if amount:
-            limit("hiring_budget", f"hiring budget {year}", amount, [], budget.hiring)
+        if hiring is not None and amount:
+            limit("hiring_budget", f"hiring budget {year}", amount, [], hiring)
 
     m, n = model.num_rows, model.num_cols
     csc = model.matrix.tocsc()

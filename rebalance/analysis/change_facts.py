@@ -19,10 +19,13 @@ from rebalance.analysis.limits import LimitUse, hire_rows
 from rebalance.analysis.reasons import _EPS, Reasons, _Context, _floats, _texts
 from rebalance.analysis.scenario_actions import main_skills
 from rebalance.instance import Instance, Person
-from rebalance.numbers import number_text
+from rebalance.numbers import gap_text, number_text
 from rebalance.plan import Plan
 
 __all__ = ["BASE_AND_SCENARIO", "FORCED", "OLD_AND_NEW", "PlanNames", "work_on_current_data"]
+
+# A relative gap at or below this is proven (analysis_words.GAP_SAID says the same).
+PROVEN_GAP = 1e-4
 
 # How a reason the data force begins (docs/analysis.md, "changes.csv").
 FORCED = "forced by the data"
@@ -145,9 +148,14 @@ class _Facts:
     """Both plans' figures, indexed once for every row."""
 
     def __init__(self, instance: Instance, old: Plan, new: Plan, new_reasons: Reasons,
-                 plans: PlanNames, old_work_now: pd.DataFrame | None = None) -> None:
+                 plans: PlanNames, old_work_now: pd.DataFrame | None = None,
+                 shortfall_gap: float | None = None) -> None:
         self.i = instance
         self.plans = plans
+        # The larger relative gap on weighted shortfall of the two plans' solves (None:
+        # unknown), and the new plan's weighted shortfall it is a share of.
+        self.shortfall_gap = shortfall_gap
+        self.weighted_short = float(new.coverage["weighted_shortfall"].astype(float).sum())
         self.names = instance.period_names
         self.ix = {n: t for t, n in enumerate(self.names)}
         self.people = {p.person: p for p in instance.staff}
@@ -251,6 +259,19 @@ class _Facts:
                     skill, s, n, new_position=funding == "new").items():
                 cost[year] += amount
         return cost
+
+    def within_gap(self, weighted: float, what: str) -> str:
+        """Where the solves stopped short of proof by more than ``weighted`` (the
+        priority-weighted shortfall ``what`` could take off at most), that in words; else ""
+        (proven, gaps unknown, or the change is larger than they allow: a puzzle to review)."""
+        g = self.shortfall_gap
+        if g is None or g <= PROVEN_GAP or weighted > g * self.weighted_short:
+            return ""
+        return (f"within the solves' gaps: {what} could take at most {number_text(weighted)} "
+                f"off the weighted shortfall, and the plans are proven only within "
+                f"{gap_text(g)} of it ({number_text(g * self.weighted_short)} of "
+                f"{number_text(self.weighted_short)}), so where each search stopped, not a "
+                "limit in the tables, may account for it")
 
     def prio(self, key: _Key) -> str:
         return number_text(self.priority.get(key, 1.0))

@@ -10,8 +10,11 @@ first whether the data force it (the person has left, may no longer go, the dest
 no demand left for their skills, no hire has a place left), else what the tables show: what
 the person does instead, and whether the old destination is covered without them and by what,
 or is still short; for fewer hires, whether the need fell, a budget year's cap, an office's
-hiring slots or its seats are full and what the new plan puts there instead, or how the gap
-is covered now; for a moved hire, the gap at both starts and what holds the old one back.
+hiring slots or its seats are full and what the new plan puts there instead (on the other
+funding too), or how the gap is covered now; for a moved hire, the gap at both starts and
+what holds the old one back.  Where nothing in the tables explains a change and the solves
+stopped short of proof by more than the change is worth, the reason says so; else it is
+marked "(review)".
 
 Every figure is looked up in dictionaries built once per call
 (:mod:`rebalance.analysis.change_facts`), so a re-plan of thousands of changes costs one pass
@@ -182,16 +185,32 @@ def _meets_no_less(f: _Facts, person: str, where: str, office: str, skill: str,
     return ""
 
 
-def _held_back(f: _Facts, person: str, office: str, t: int) -> str:
+def _held_back(f: _Facts, person: str, office: str, t: int, *, one_period: bool = True) -> str:
     """The binding limits of the new plan that keep ``person`` from a detail to ``office`` in
-    ``t``, in words; or what the tables show where none is."""
+    ``t``, in words; or what the tables show where none is.  ``one_period``: the change is
+    that one detail period (not a move), so the shortfall it could take off is measured."""
     p = f.people[person]
     name = f.names[t]
+    home = f.home(p, t)
+    year = f.i.periods[t].year
     # In reasons.csv's words for a binding limit.
     found = [_describe(u, f.i) for u in (f.limit("seats", office, name),
-                                         f.limit("away_share", f.home(p, t), name),
-                                         f.limit("moves_budget", f.i.periods[t].year))
+                                         f.limit("away_share", home, name),
+                                         f.limit("moves_budget", year))
              if u is not None]
+    # A moves budget binds where less is left than the cheapest detail; this route may cost
+    # more than what is left (the storm's plan left 2,000 of 2027's, a dropped detail cost
+    # 9,000: said "no binding limit (review)").
+    budget = f.uses.get(("moves_budget", year, ""))
+    cost = f.i.detail_cost_per_period(home, office) if home != office else 0.0
+    if (budget is not None and f.limit("moves_budget", year) is None
+            and budget.cap - budget.used < cost - _EPS):
+        money = f.i.money.currency
+        left, used, cap = (money_amount(x, money) for x in (budget.cap - budget.used,
+                                                            budget.used, budget.cap))
+        found.append(f"the moves budget {year}, with {left} left ({used} of {cap} spent), "
+                     f"less than the {money_amount(cost, money)} a detail from {home} to "
+                     f"{office} costs")
     # The verifier's rule: at most m detail periods in any m + 1 periods in a row.
     m = f.i.policy.max_consecutive_detail_periods or 0
     T = len(f.names)
@@ -203,7 +222,14 @@ def _held_back(f: _Facts, person: str, office: str, t: int) -> str:
             break
     if found:
         return "held back by " + " and ".join(found)
-    return "the tables show no binding limit that keeps them from it (review)"
+    # What one period of theirs could take off the weighted shortfall there, at most: each
+    # skill's shortfall up to their FTE at it.
+    fte = f.i.available_fte(p, t)
+    gain = sum(min(fte * p.proficiency(k), f.ctx.short.get((office, k, t), 0.0))
+               * f.priority.get((office, k, t), 1.0) for k, _ in p.skills)
+    gap = f.within_gap(gain, "the detail") if one_period else ""
+    return ("the tables show no binding limit that keeps them from it"
+            + (f"; {gap}" if gap else " (review)"))
 
 
 # -- one writer per kind of row -----------------------------------------------------------------
@@ -273,9 +299,10 @@ def _dropped_move(f: _Facts, person: str, period: str, route: str) -> str:
     stays = (f"stays based at {f.home(p, t0)}, where their work is needed in {needed} of the "
              f"{n} periods from {period}")
     if short:
-        return (f"{stays}; {office} is short of their skills in {short} of them without them, "
-                f"and {_held_back(f, person, office, left[0])}") if not needed else (
-                f"{stays}; {office} is short of their skills in {short} of them without them")
+        short_there = f"{stays}; {office} is short of their skills in {short} of them without them"
+        if needed:
+            return short_there
+        return f"{short_there}, and {_held_back(f, person, office, left[0], one_period=False)}"
     return f"{stays}; {office} covers their skills in all of them without them"
 
 
@@ -324,6 +351,13 @@ def _fewer_hires(f: _Facts, office: str, skill: str, s: int, funding: str) -> st
         parts.append(f"a hire there would hold a seat from {f.names[s]} on, and {seats}")
     paid = parts[:]  # a budget, the slots or the seats: said only where a gap is left
     parts.clear()
+    # The same start on the other funding: hire_gain nets fundings, so it was not seen.
+    other = "new" if funding == "vacancy" else "vacancy"
+    switched = f.hire_delta.get((office, skill, other), {}).get(s, 0)
+    if switched > 0:
+        parts.append(f"{switched} {skill} {'hire' if switched == 1 else 'hires'} "
+                     f"{'as a new position' if other == 'new' else 'filling a funded vacancy'}"
+                     f" {'starts' if switched == 1 else 'start'} there then instead")
     elsewhen = [(t, n) for t, n in f.hire_gain.get((office, skill), ()) if t != s]
     if elsewhen:
         n = sum(n for _, n in elsewhen)
@@ -341,8 +375,13 @@ def _fewer_hires(f: _Facts, office: str, skill: str, s: int, funding: str) -> st
     if short_new <= _EPS:
         return f"{head}met without it" + (f": {'; '.join(parts)}" if parts else "")
     text = f"{head}left {_fte(short_new)} FTE-periods short"
-    if not fell and not paid:
-        text += ", and no binding limit found that keeps the hire (review)"
+    if not fell and not paid and not switched:
+        # What one such hire could take off the weighted shortfall left, at most.
+        gain = sum(min(f.i.hire_fte(skill, office, s, t), f.ctx.short.get((office, skill, t), 0.0))
+                   * f.priority.get((office, skill, t), 1.0) for t in range(s, T))
+        gap = f.within_gap(gain, "the hire")
+        text += (", and no binding limit found that keeps the hire"
+                 + (f"; {gap}" if gap else " (review)"))
     return "; ".join([*paid, *parts, text])
 
 
@@ -402,7 +441,8 @@ def _moved_hire(f: _Facts, office: str, skill: str, funding: str, s_old: int,
 
 def change_reasons(instance: Instance, old: Plan, new: Plan, changes: pd.DataFrame,
                    new_reasons: Reasons, plans: PlanNames = OLD_AND_NEW,
-                   old_work_now: pd.DataFrame | None = None) -> list[str]:
+                   old_work_now: pd.DataFrame | None = None,
+                   shortfall_gap: float | None = None) -> list[str]:
     """One short reason per row of ``changes`` (``replan``'s ``CHANGE_COLUMNS`` but
     ``reason``), from the re-plan's ``instance``, the ``old`` and ``new`` plans and the new
     plan's ``new_reasons`` (:func:`reasons` of it).
@@ -411,8 +451,11 @@ def change_reasons(instance: Instance, old: Plan, new: Plan, changes: pd.DataFra
     :data:`BASE_AND_SCENARIO`, with the base plan as ``old``, the scenario's as ``new`` and
     its data as ``instance``).  ``old_work_now``: the old plan's work table on
     ``instance``'s data (:func:`~rebalance.analysis.change_facts.work_on_current_data`),
-    where the caller has made it already; else it is made here."""
-    f = _Facts(instance, old, new, new_reasons, plans, old_work_now)
+    where the caller has made it already; else it is made here.  ``shortfall_gap``: the
+    larger relative gap on weighted shortfall of the two plans' solves (``summary.json``'s
+    stage gaps), so a change no limit explains and worth less than it says so; None
+    (unknown) leaves such a change marked for review."""
+    f = _Facts(instance, old, new, new_reasons, plans, old_work_now, shortfall_gap)
     out = []
     for change, kind, who, skill, period, before, after in zip(
             *(_texts(changes[c]) for c in ("change", "kind", "who", "skill", "period", "old",

@@ -6,7 +6,8 @@ be checked the way the verifier checks a plan.  A shortfall cites only limits th
 :func:`rebalance.analysis.limits.limit_use` shows binding, and only those that could matter to
 it: a hire that could cover it is stopped by hiring budgets, hiring slots, seats or time to
 hire; a detail by the away share at offices with people of the skill, the moves budget of that
-year, or seats at the office.
+year, or seats at the office.  Budgets and slots are cited only where they stop every start
+that could cover it (:meth:`_Binding.budgets_holding`).
 """
 
 from __future__ import annotations
@@ -413,6 +414,11 @@ class _Binding:
         for n, u in enumerate(binding):
             self.by_scope[(u.where, u.period if u.limit == "away_share" else "")].append((n, u))
         self.words: dict[LimitUse, str] = {}
+        # What a hire needs and may find full: a hiring budget's year, an office's slots in a
+        # period, an office's funded vacancies of a skill.
+        self.full_budgets = {u.where for u in binding if u.limit == "hiring_budget"}
+        self.full_slots = {(u.where, u.period) for u in binding if u.limit == "max_hires"}
+        self.no_vacancy = {u.where for u in binding if u.limit == "vacancies"}
         # By skill and home office: the last period a person who could be detailed to cover
         # the skill is present (people with no last period: the horizon's last).
         T = len(self.names)
@@ -432,6 +438,25 @@ class _Binding:
             self.words[use] = _describe(use, self.i)
         return self.words[use]
 
+    def budgets_holding(self, office: str, skill: str, t: int) -> set[str]:
+        """The years whose full hiring budget holds back a hire of ``skill`` at ``office``
+        covering period ``t``: none where some start from the time to hire to ``t`` pays
+        nothing into a full year (a funded vacancy left pays onboarding only, in its start
+        year); else the years whose lifting alone would free the start needing fewest lifted.
+        Every year a start could pay into had been cited: 2027's full budget for a 2028
+        shortfall that a 2028 start, paid from 2028's unspent budget, could cover (a planner's
+        reading of the demo's harbour surge)."""
+        instance = self.i
+        vacancy = (instance.vacancies.get((office, skill), 0) > 0
+                   and f"{skill} at {office}" not in self.no_vacancy)
+        blocked = [self.full_budgets & set(instance.hire_cost_by_year(
+            skill, s, new_position=not vacancy)) for s in range(instance.skill(
+                skill).time_to_hire, t + 1)]
+        if not blocked or not all(blocked):
+            return set()
+        fewest = min(len(years) for years in blocked)
+        return {y for years in blocked if len(years) == fewest for y in years}
+
     def relevant(self, office: str, skill: str, t: int) -> list[LimitUse]:
         """The binding limits that could matter to a shortfall of ``skill`` at ``office`` in
         period ``t``, in the order :func:`limit_use` gives them."""
@@ -439,8 +464,11 @@ class _Binding:
         T = len(names)
         tth = instance.skill(skill).time_to_hire
         hire_possible = tth <= t
-        hire_years = {instance.periods[s].year for s in range(tth, T)} if hire_possible else set()
+        hire_years = self.budgets_holding(office, skill, t)
         hire_periods = {names[s] for s in range(tth, t + 1)}
+        # Slots hold a hire back only where every start that could cover ``t`` finds them
+        # full: 2027-Q4's full slots had been cited for a 2028 shortfall a 2028 start covers.
+        slots_all_full = all((office, p) in self.full_slots for p in hire_periods)
         seat_periods = {names[s] for s in range(tth, T)} if hire_possible else set()
         seat_periods.add(names[t])
         sources = {home for home, last in self.last_present.get(skill, {}).items()
@@ -458,7 +486,7 @@ class _Binding:
             elif u.limit == "hiring_budget":
                 keep = u.where in hire_years
             elif u.limit == "max_hires":
-                keep = u.where == office and u.period in hire_periods
+                keep = slots_all_full and u.where == office and u.period in hire_periods
             elif u.limit == "seats":
                 keep = u.where == office and u.period in seat_periods
             elif u.limit == "away_share":

@@ -135,12 +135,16 @@ def held_back_by(variant: Instance, table: pd.DataFrame,
     A shortfall row weighs what it is above the base plan's shortfall in the same office,
     skill and period (``before``: :func:`shortfall_by_cell` of the base plan).  A limit is
     its kind and office (a budget: its kind, every year together), ranked by the weight of
-    the rows citing it; at most :data:`LIMITS_SAID`, as
-    ``kind|where,where|period,period|fte`` joined by ``;`` (periods in horizon order).
+    the rows citing it (ties by name); at most :data:`LIMITS_SAID`, as
+    ``kind|where,where|period,period|fte|of_fte`` joined by ``;`` (periods in horizon order;
+    ``of_fte``: the new shortfall of all the rows weighed, so the words can tell a limit
+    every row cites from one that leads, where every row citing the same limits had read as
+    "mostly" the first by name).
     ``table``: the scenario plan's reasons table (:func:`~rebalance.analysis.reasons.reasons`,
     worked out once, as its folder's reasons.csv)."""
     rows = table[(table["action"] == "shortfall") & table["office"].astype(str).isin(offices)]
     weight: dict[tuple[str, str], float] = {}
+    total = 0.0
     wheres: dict[tuple[str, str], set[str]] = {}
     periods: dict[tuple[str, str], set[str]] = {}
     for o, k, t, short, cited in zip(rows["office"].astype(str), rows["skill"].astype(str),
@@ -150,6 +154,7 @@ def held_back_by(variant: Instance, table: pd.DataFrame,
         new = short - before.get((o, k, t), 0.0)
         if new <= 1e-9:
             continue
+        total += new
         groups: set[tuple[str, str]] = set()
         for limit in (x for x in cited.split(";") if x):
             kind, where, period = [*limit.split("|"), "", ""][:3]
@@ -162,11 +167,12 @@ def held_back_by(variant: Instance, table: pd.DataFrame,
         for group in groups:
             weight[group] = weight.get(group, 0.0) + new
     order = {p: t for t, p in enumerate(variant.period_names)}
-    ranked = sorted(weight, key=lambda g: (-weight[g], g))[:LIMITS_SAID]
+    # As written: sums of the same rows in another order differ in float dust, not in rank.
+    ranked = sorted(weight, key=lambda g: (-float(f"{weight[g]:.6g}"), g))[:LIMITS_SAID]
     return ";".join(
         f"{kind}|{','.join(sorted(wheres[(kind, w)]))}|"
         f"{','.join(sorted(periods.get((kind, w), set()), key=lambda p: order.get(p, -1)))}|"
-        f"{weight[(kind, w)]:.6g}" for kind, w in ranked)
+        f"{weight[(kind, w)]:.6g}|{total:.6g}" for kind, w in ranked)
 
 
 # The base's description in scenarios.csv, beside each scenario's own.
@@ -261,6 +267,15 @@ def _row(name: str, description: str, result: PlanResult, instance: Instance,
     return row
 
 
+def _shortfall_gap(*results: PlanResult) -> float | None:
+    """The largest relative gap on weighted shortfall of ``results``' solves (the whole
+    objective's gap in weighted mode), None where none is known."""
+    gaps = [g for r in results
+            if (g := r.solve.shortfall_gap if r.solve.shortfall_gap is not None
+                else r.solve.gap) is not None]
+    return max(gaps) if gaps else None
+
+
 def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options: SolveOptions,
                       workers: int = 2) -> Comparison:
     """Solve the base, then each scenario from the base plan, and tabulate them side by side.
@@ -312,8 +327,9 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
                 # Why, as a re-plan's changes.csv says it: the base plan as the old plan, on
                 # the scenario's data, from the first period (the scenario's solve only starts
                 # from the base plan; it may change any period, changes_before counts those).
-                action_reasons += change_reasons(variant, base_plan, result.plan,
-                                                 change_rows(found), why, BASE_AND_SCENARIO)
+                action_reasons += change_reasons(
+                    variant, base_plan, result.plan, change_rows(found), why,
+                    BASE_AND_SCENARIO, shortfall_gap=_shortfall_gap(results[0], result))
                 summary = action_summary(base_plan, result.plan, instance.period_names,
                                          changed[name], offices_of[name], found)
                 summary[HELD_BACK_COLUMN] = held_back_by(variant, explained[name], base_short,

@@ -275,16 +275,47 @@ def _limit_phrase(kind: str, wheres: str, periods: str, previous: str) -> str:
     return f"{name} {at}" + (f" {span}" if span else "")
 
 
+def _cited_words(weight: float, total: float | None) -> str:
+    """How much of the new shortfall cites a limit: "all the new shortfall there", or
+    "12.5 of the 20.6 FTE-periods of new shortfall there" (without the total, written before
+    that field: "12.5 FTE-periods of new shortfall there")."""
+    text = fte_total_text(weight)
+    if total is None:
+        return f"{text} FTE-periods of new shortfall there"
+    if text == fte_total_text(total):
+        return "all the new shortfall there"
+    return f"{text} of the {fte_total_text(total)} FTE-periods of new shortfall there"
+
+
 def _held_back_words(row: Any) -> str:
-    """What holds the scenario's new shortfall back (``held_back_by``): ", held back mostly
-    by ..." or "" where the table has no such column or names no limit."""
+    """What holds the scenario's new shortfall back (``held_back_by``), or "" where the table
+    has no such column or names no limit.  "Mostly" only of what leads by the new shortfall
+    citing it, as written: the harbour surge's every row cited seats, slots and budgets alike,
+    and "held back mostly by the hiring budget of 2027" had ranked a tie by name.  Tied
+    limits are said together with how much cites each."""
     said: list[str] = []
+    weights: list[float | None] = []
+    total: float | None = None
     previous = ""
     for key in _keys(row, "held_back_by"):
-        kind, wheres, periods = [*key, "", ""][:3]
+        kind, wheres, periods, weight, of = [*key, "", "", "", ""][:5]
         said.append(_limit_phrase(kind, wheres, periods, previous))
         previous = "" if kind in BUDGET_LIMITS else wheres.replace(",", ", ")
-    return f", held back mostly by {and_list(said)}" if said else ""
+        weights.append(finite([weight or None])[0])
+        total = finite([of or None])[0]
+    if not said:
+        return ""
+    first = weights[0]
+    if first is None or any(w is None for w in weights):
+        return f", held back by {and_list(said)}"  # no weights to rank by
+    tied = sum(1 for w in weights if fte_total_text(w or 0.0) == fte_total_text(first))
+    if tied == 1:
+        return f", held back mostly by {and_list(said)}"
+    cited = f"each cited by {_cited_words(first, total)}"
+    if tied == len(said):
+        return f", held back by {and_list(said)}, {cited}"
+    return (f", held back mostly by {and_list(said[:tied])}, {cited}, and less by "
+            f"{and_list(said[tied:])}")
 
 
 # The keyed columns of scenarios.csv that a scenario's line says in words

@@ -325,8 +325,28 @@ def _relevant_by_scan(instance: Instance, binding: list[LimitUse], office: str, 
     T = len(names)
     tth = instance.skill(skill).time_to_hire
     hire_possible = tth <= t
-    hire_years = {instance.periods[s].year for s in range(tth, T)} if hire_possible else set()
     hire_periods = {names[s] for s in range(tth, t + 1)}
+    # A budget or slot holds a hire back only where every start that could cover t finds
+    # one full (a planner's reading of the demo's harbour surge): by brute force over the
+    # starts and the years each pays into (onboarding in the start year; a new position's
+    # salary in every year from it, docs/model.md; a funded vacancy left: onboarding only).
+    full = {u.where for u in binding if u.limit == "hiring_budget"}
+    vacancy = instance.vacancies.get((office, skill), 0) > 0 and not any(
+        u.limit == "vacancies" and u.where == f"{skill} at {office}" for u in binding)
+    salary = instance.skill(skill).salary_per_period > 0
+    onboarding = instance.skill(skill).onboarding_cost > 0
+    blocked = []
+    for s in range(tth, t + 1):
+        paid = {instance.periods[x].year for x in range(s, T) if salary and not vacancy}
+        if onboarding:
+            paid.add(instance.periods[s].year)
+        blocked.append(paid & full)
+    hire_years: set[str] = set()
+    if blocked and all(blocked):
+        least = min(map(len, blocked))
+        hire_years = set().union(*(b for b in blocked if len(b) == least))
+    slots_full = all(any(u.limit == "max_hires" and u.where == office and u.period == p
+                         for u in binding) for p in hire_periods)
     seat_periods = {names[s] for s in range(tth, T)} if hire_possible else set()
     seat_periods.add(names[t])
     sources = {p.home_office for p in instance.staff
@@ -335,7 +355,7 @@ def _relevant_by_scan(instance: Instance, binding: list[LimitUse], office: str, 
     keep = {
         "time_to_hire": lambda u: u.where == skill and u.period == names[t],
         "hiring_budget": lambda u: u.where in hire_years,
-        "max_hires": lambda u: u.where == office and u.period in hire_periods,
+        "max_hires": lambda u: slots_full and u.where == office and u.period in hire_periods,
         "seats": lambda u: u.where == office and u.period in seat_periods,
         "away_share": lambda u: u.where in sources and u.period == names[t],
         "moves_budget": lambda u: bool(sources) and u.where == instance.periods[t].year,
@@ -409,3 +429,41 @@ def test_a_moves_cost_against_details_says_more_as_much_or_less_as_the_figures_a
     assert f"one move ({money[details]}) costs as much as {tail}" in said[details]
     assert f"one move ({money[details / 2]}) costs less than {tail}" in said[details / 2]
     assert all("no less than" not in text for text in said.values())
+
+
+def test_a_full_budget_or_slot_a_later_start_avoids_is_not_cited() -> None:
+    # A planner's reading of the demo's harbour surge: 2027's full hiring budget and
+    # 2027-Q4's full hiring slots were cited for 2028 shortfalls that a hire starting in 2028,
+    # paid from 2028's unspent budget, could cover.  instances/demo: eight quarters of 2027
+    # and 2028; technical_review takes two periods to hire (skills.csv), so starts from
+    # 2027-Q3; port-ilse-harbour has no funded vacancy (vacancies.csv), so a hire pays its
+    # salary in every year from its start (docs/model.md, hiring budget).
+    from conftest import ROOT
+
+    from rebalance import read_instance
+    from rebalance.analysis.reasons import _Binding
+
+    demo = read_instance(ROOT / "instances" / "demo")
+    office, skill = "port-ilse-harbour", "technical_review"
+    budget_2027 = LimitUse("hiring_budget", "2027", "", 515_000.0, 520_000.0, True)
+    budget_2028 = LimitUse("hiring_budget", "2028", "", 1_397_000.0, 1_400_000.0, True)
+    slots = [LimitUse("max_hires", office, p, 2.0, 2.0, True) for p in ("2027-Q3", "2027-Q4")]
+
+    def cited(binding: list[LimitUse], t: int) -> list[str]:
+        return [f"{u.limit} {u.where} {u.period}".strip()
+                for u in _Binding(demo, binding).relevant(office, skill, t)]
+
+    # 2027 full only: a 2027-Q4 shortfall (starts 2027-Q3, 2027-Q4 both pay 2027) cites it;
+    # one in 2028-Q4 does not (a 2028 start pays 2028 alone).
+    assert cited([budget_2027], 3) == ["hiring_budget 2027"]
+    assert cited([budget_2027], 7) == []
+    # Both full: every start pays a full year; lifting 2028's alone frees a 2028 start, 2027's
+    # alone frees none, so 2028 only.  In 2027-Q4 each start pays both: both cited.
+    assert cited([budget_2027, budget_2028], 7) == ["hiring_budget 2028"]
+    assert cited([budget_2027, budget_2028], 3) == ["hiring_budget 2027", "hiring_budget 2028"]
+    # Slots full in 2027-Q4 only: a 2027-Q3 start is free of them, so not cited; full in both
+    # periods a 2027-Q4 shortfall could start from, they are; 2028 starts are free of them.
+    assert cited(slots[1:], 3) == []
+    assert cited(slots, 3) == ["max_hires port-ilse-harbour 2027-Q3",
+                               "max_hires port-ilse-harbour 2027-Q4"]
+    assert cited(slots, 7) == []

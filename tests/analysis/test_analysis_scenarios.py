@@ -604,6 +604,45 @@ def test_the_scenario_line_says_who_moves_and_what_holds_the_shortfall_back() ->
     assert "moves for it" not in line and "held back" not in line
 
 
+def test_the_scenario_line_says_mostly_only_of_a_limit_that_leads() -> None:
+    import pandas as pd
+
+    from rebalance.report.analysis_words import scenario_lines
+
+    # A planner's reading of the demo's harbour surge: every row of its new shortfall cited
+    # seats and the hiring budgets alike, and the line said "held back mostly by the hiring
+    # budget of 2027", first by name.  Made-up keys in scenarios.csv's form.
+    def said(held_back_by: str) -> str:
+        frame = pd.DataFrame({
+            "scenario": ["base", "rush"], "description": ["the instance as it is", "a rush"],
+            "demand_fte_periods": [100.0, 124.0], "weighted_shortfall": [10.0, 30.0],
+            "shortfall_fte_periods": [10.0, 29.9], "total_cost": [1000.0, 1000.0],
+            "held_back_by": [None, held_back_by]})
+        (line,) = scenario_lines(frame)
+        return line.split("left short")[1].split(";")[0]
+
+    seats = "seats|B|2028-Q1,2028-Q4|19.9|19.9"
+    # All tied, cited by every row: no "mostly".
+    assert said(f"hiring_budget|2028||19.9|19.9;{seats}") == (
+        ", held back by the hiring budget of 2028 and seats at B (full 2028-Q1 to 2028-Q4), "
+        "each cited by all the new shortfall there")
+    # All tied, cited by part of it.
+    assert said("hiring_budget|2028||12.5|19.9;seats|B|2028-Q1|12.5|19.9") == (
+        ", held back by the hiring budget of 2028 and seats at B (full in 2028-Q1), each "
+        "cited by 12.5 of the 19.9 FTE-periods of new shortfall there")
+    # Two lead alike, one follows.
+    assert said(f"hiring_budget|2028||19.9|19.9;{seats};away_share|A|2027-Q2|0.5|19.9") == (
+        ", held back mostly by the hiring budget of 2028 and seats at B (full 2028-Q1 to "
+        "2028-Q4), each cited by all the new shortfall there, and less by away share at A in "
+        "2027-Q2")
+    # One leads: "mostly", as before; a table without the total field says the same.
+    for total in ("|19.9", ""):
+        assert said(f"seats|B|2028-Q1|12.5{total};hiring_budget|2028||2{total}") == (
+            ", held back mostly by seats at B (full in 2028-Q1) and the hiring budget of 2028")
+    # Weights written as the same figure tie (sums of the same rows in another order).
+    assert "each cited" in said("seats|B||12.5000001|19.9;max_hires|B||12.5|19.9")
+
+
 def test_held_back_by_ranks_the_limits_the_new_shortfall_cites(tiny) -> None:
     from rebalance.analysis.scenarios import held_back_by, shortfall_by_cell
     from rebalance.plan import cost_table, coverage_table
@@ -636,10 +675,12 @@ def test_held_back_by_ranks_the_limits_the_new_shortfall_cites(tiny) -> None:
     # new; 2027-Q4 2.0 - a1's 1.0 - the hire's 0.5 (ramp) = 0.5 against the base's 0: 0.5.
     # Both cite the 2027 hiring budget (28,000 of 40,000 spent; the cheapest further hire,
     # intake from 2027-Q4, costs 5,000 + 15,000); 2027-Q4 also A's away share (1 of 3 away,
-    # 50%) and B's one hiring slot then.  Ties: by kind.
+    # 50%).  B's one hiring slot in 2027-Q4 is full, but not its slots in 2027-Q2 and
+    # 2027-Q3, from which a hire could cover 2027-Q4 too, so the slots are not cited.  The
+    # last field: the 1.5 FTE-periods of new shortfall weighed.
     explained = reasons(variant, mine).table
     assert held_back_by(variant, explained, shortfall_by_cell(base), ("B",)) == (
-        "hiring_budget|2027||1.5;away_share|A|2027-Q4|0.5;max_hires|B|2027-Q4|0.5")
+        "hiring_budget|2027||1.5|1.5;away_share|A|2027-Q4|0.5|1.5")
     # A's shortfall is the base's.
     assert held_back_by(variant, explained, shortfall_by_cell(base), ("A",)) == ""
 

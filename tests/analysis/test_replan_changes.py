@@ -420,3 +420,97 @@ def test_a_hire_moved_earlier_takes_no_seat_after_its_old_start(tiny) -> None:
         "a hire there would hold a seat from 2027-Q3 on, and the seats at B are full in "
         "2027-Q3 (3 of 3 used); review demand at B from 2027-Q3 on is left 0.200 "
         "FTE-periods short")
+
+
+def test_a_dropped_detail_names_a_moves_budget_short_of_its_route(tiny) -> None:
+    # A planner's reading of the demo comparison: the storm's plan dropped a detail that cost
+    # 9,000 where 2,000 of 2027's moves budget was left, and said "no binding limit (review)":
+    # the budget binds only below the cheapest detail anywhere.  By hand on tiny: a detail
+    # from A (Alder) to B (Birch) costs 9,000 (listed), B to A the default 5,000 (the
+    # cheapest).  The new plan is tiny's exact plan without a2's Q4 detail (a2 works at home
+    # instead): a1's two details spend 18,000 of 24,000, leaving 6,000: not binding (5,000
+    # would still pay), less than the 9,000 a2's detail costs.  B's Q4 review: 1.0 - the
+    # hire's 0.5 (ramp) = 0.500 short; A's seats and away share are free (0 of 3 away).
+    from rebalance.instance import MoveCost
+
+    base = _tiny_base(tiny)
+    dear = tiny.with_changes(move_costs={("Alder", "Birch"): MoveCost(9_000.0, None)},
+                             budgets=(Budget("2027", 40_000.0, 24_000.0),))
+
+    def priced(details: pd.DataFrame, work: pd.DataFrame) -> Plan:
+        details = details.assign(cost=9_000.0)
+        return replace(base, details=details, work=work,
+                       coverage=coverage_table(dear, work, base.hires),
+                       costs=cost_table(dear, details, base.reassignments, base.hires))
+
+    old = priced(base.details, base.work)
+    a2_q4 = (base.work["person"] == "a2") & (base.work["period"] == "2027-Q4")
+    new = priced(base.details[base.details["person"] != "a2"].reset_index(drop=True),
+                 base.work.assign(office=base.work["office"].where(~a2_q4, "A")))
+    (why,) = _why(dear, old, new, ("dropped", "detail", "a2", "review", "2027-Q4", "A -> B",
+                                   ""))
+    assert why.endswith(
+        "B is left 0.500 FTE short of review in 2027-Q4 (priority 2); held back by the moves "
+        "budget 2027, with 6,000 left (18,000 of 24,000 spent), less than the 9,000 a detail "
+        "from A to B costs"), why
+
+
+def test_fewer_hires_of_one_funding_say_the_other_funding_starts_instead(tiny) -> None:
+    # By hand: B now has one funded review vacancy; the old plan (tiny's) hires B's reviewer
+    # from Q4 as a new position, the new plan fills the vacancy then instead, with the same
+    # work.  The new-position row's reason had said only "met without it", the vacancy hire
+    # unnamed (hires are netted by office, skill and start across fundings).
+    base = _tiny_base(tiny)
+    funded = tiny.with_changes(vacancies={("B", "review"): 1})
+    hires = base.hires.assign(funding="vacancy", salary_cost=0.0)
+    new = replace(base, hires=hires, coverage=coverage_table(funded, base.work, hires),
+                  costs=cost_table(funded, base.details, base.reassignments, hires))
+    (why,) = _why(funded, base, new, ("fewer", "hire (new)", "B", "review", "2027-Q4", "1",
+                                      "0"))
+    assert why == ("review demand at B from 2027-Q4 on is met without it: 1 review hire "
+                   "filling a funded vacancy starts there then instead")
+
+
+def test_a_change_no_limit_explains_says_when_it_is_within_the_solves_gaps(tiny) -> None:
+    # By hand: tiny's exact plan as the old plan; the new drops B's reviewer from Q4 with
+    # nothing in its place, the budget then free (12,000 left had bound), B's seats (2 of 6)
+    # and slots free: "no binding limit found (review)".  B's Q4 review is then 1.0 - a2's
+    # 0.8 = 0.200 short at priority 2: the hire (0.5 at ramp) could take at most 0.400 off
+    # the weighted shortfall, of 0.400 in all.  Solves proven within 1% leave 0.004: review;
+    # within 200% (a made-up figure), 0.800: said so instead.
+    base = _tiny_base(tiny)
+    rich = tiny.with_changes(budgets=(Budget("2027", 200_000.0, 30_000.0),))
+    new = _hiring(rich, base, [])
+    changes = pd.DataFrame([("fewer", "hire (new)", "B", "review", "2027-Q4", "1", "0")],
+                           columns=["change", "kind", "who", "skill", "period", "old", "new"])
+    for gap, said in ((None, "(review)"), (0.01, "(review)"),
+                      (2.0, "hire; within the solves' gaps: the hire could take at most "
+                            "0.400 off the weighted shortfall, and the plans are proven only "
+                            "within 200.00% of it (0.800 of 0.400), so where each search "
+                            "stopped, not a limit in the tables, may account for it")):
+        (why,) = change_reasons(rich, base, new, changes, reasons(rich, new),
+                                shortfall_gap=gap)
+        assert why.startswith("review demand at B from 2027-Q4 on is left 0.200 "
+                              "FTE-periods short, and no binding limit found that keeps the "
+                              "hire"), why
+        assert said in why, (gap, why)
+
+
+def test_a_replan_hands_its_own_shortfall_gap_to_the_change_reasons(tiny, monkeypatch) -> None:
+    # A change nothing in the tables explains is weighed against where the re-plan's search
+    # stopped; without the gap every such change read "(review)".
+    import sys
+
+    replan_module = sys.modules["rebalance.analysis.replan"]
+    real = replan_module.change_reasons
+    seen: list[float | None] = []
+
+    def spy(*args, **kwargs):
+        seen.append(kwargs.get("shortfall_gap"))
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(replan_module, "change_reasons", spy)
+    calm = apply_scenario(tiny, Scenario("calm", "", (
+        DemandChange(("B",), ("review",), (3,), multiplier=0.0),)))
+    out = replan(calm, _tiny_base(tiny), 2, exact_options(calm))
+    assert seen == [out.result.solve.shortfall_gap] and seen[0] is not None

@@ -281,6 +281,8 @@ class Instance:
     def budget_cap(self, year: str, cap_name: str) -> float | None:
         """The ``cap_name`` ("hiring" or "moves") cap of budget year ``year``; None where
         there is none (a blank cap, or a year with no row in budget.csv)."""
+        if cap_name not in ("hiring", "moves"):  # not any attribute of a Budget
+            raise ValueError(f"no budget cap named {cap_name!r}")
         budget = self.budget(year)
         cap: float | None = None if budget is None else getattr(budget, cap_name)
         return cap
@@ -338,8 +340,10 @@ class Instance:
         budget, by budget year (docs/model.md, hiring_budget): onboarding in the start
         period's year, and for a new position the salary of every period from the start to
         the horizon's end, in that period's year; a vacancy hire pays onboarding only.  Years
-        it pays nothing in are left out.  The single statement of the rule: the model's rows,
-        the re-plan's added hires, the binding test and the reasons all call it."""
+        it pays nothing in are left out.  The model's rows, the re-plan's added hires, the
+        binding test and the reasons call it; a plan's costs.csv (``plan.cost_table``, from
+        the hires table's own onboarding cost) and the verifier state it apart, the verifier
+        on purpose, and the verifier checks the two agree."""
         k = self.skill(skill)
         years = [p.year for p in self.periods[start:]]
         cost = {}
@@ -377,14 +381,16 @@ class Instance:
                        new_position: bool) -> tuple[RuledOut, ...]:
         """Every rule of the data that leaves no hire of ``skill`` at ``office`` starting in
         period ``start``: the office may not hire (max_hires_per_period 0), the start is
-        before the skill's time to hire, no demand from the start on that a hire would
-        cover, or (a vacancy hire) no funded vacancy there.  Empty where none does."""
+        before the skill's time to hire, no demand from the start on that needs a whole hire
+        (:meth:`hire_need`; a sliver of demand under 1e-9 hires needs none), or (a vacancy
+        hire) no funded vacancy there.  Empty where none does."""
         return self._hire_rules(office, skill, start, self._hire_peak(office, skill, start),
                                 new_position)
 
     def hire_need(self, office: str, skill: str, start: int) -> int:
         """The most hires of ``skill`` starting at ``office`` in period ``start`` that could
-        help, the model's bound on such a start (a vacancy hire's within the vacancies too):
+        help, the model's bound on such a start (the model bounds a vacancy hire by the
+        vacancies too):
         the whole hires the largest later demand needs at what one such hire then gives
         (more than the peak needs is waste), within the office's max_hires_per_period; 0
         where :meth:`hire_ruled_out` rules a new position out, as the model has no column

@@ -106,7 +106,8 @@ class Plan:
 
     def spent_by_cap(self) -> dict[tuple[str, str], float]:
         """``costs.csv`` summed by (year, cap name): what the plan spends under each cap of
-        each budget year (:data:`BUDGET_LINES`); pairs it spends nothing under are left out."""
+        each budget year (:data:`BUDGET_LINES`); a pair costs.csv has no row for is left out
+        (it lists every year and kind, at 0 where nothing is spent)."""
         cap_of = {kind: cap for cap, kinds in BUDGET_LINES for kind in kinds}
         out: dict[tuple[str, str], float] = defaultdict(float)
         for year, kind, cost in zip(self.costs["year"].astype(str),

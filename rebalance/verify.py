@@ -9,6 +9,7 @@ extraction cannot hide itself.
 from __future__ import annotations
 
 import json
+import math
 from collections import Counter, defaultdict
 from collections.abc import Callable, Mapping
 from pathlib import Path
@@ -463,7 +464,9 @@ class _Checker:
             reported[key], line_of[key] = float(r.cost), number
         for key in sorted(expected_keys - set(reported)):
             self.flag("costs", f"{key[1]} in {key[0]}", "row missing")
-        for key in set(spend) | set(reported):
+        # In the file's order (a set's order had changed with the hash seed), then the rest.
+        for key in sorted(set(spend) | set(reported),
+                          key=lambda k: (line_of.get(k, math.inf), k)):
             if not close(spend.get(key, 0.0), reported.get(key, 0.0), tol=1e-4):
                 stated, priced = _amounts(self.i, reported.get(key, 0.0), spend.get(key, 0.0))
                 self.flag("costs", f"{key[1]} in {key[0]}",

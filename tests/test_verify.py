@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import os
 from dataclasses import replace
 from pathlib import Path
 
@@ -755,3 +756,30 @@ def test_a_coverage_rows_other_causes_are_named_by_person_or_row_past_two_counte
     fewer = replace(row, also_follows=(people[1], hire))
     assert problem_lines(group_problems([*people, hire, fewer])[0])[1][0].endswith(
         "(it also follows from p1 and hires.csv:2)")
+
+
+def test_costs_lines_come_in_the_files_order_whatever_the_hash_seed(tiny_plan, tmp_path):
+    # The costs.csv lines had come in a set's order, which Python's string hashing changes
+    # from run to run: the same plan read differently twice.
+    import subprocess
+    import sys
+
+    _, result = tiny_plan
+    write_outputs(result, tmp_path / "plan")
+    hires = tmp_path / "plan" / "hires.csv"
+    edited = pd.read_csv(hires)
+    edited["count"] = edited["count"] * 3
+    edited.to_csv(hires, index=False)
+    from conftest import DATA
+
+    script = ("import sys; from rebalance import read_instance, verify_folder; "
+              "print('\\n'.join(str(v) for v in verify_folder(read_instance(sys.argv[1]), "
+              "sys.argv[2]) if v.rule == 'costs'))")
+    runs = {subprocess.run([sys.executable, "-c", script, str(DATA / "tiny"),
+                            str(tmp_path / "plan")], capture_output=True, text=True, check=True,
+                           env={**os.environ, "PYTHONHASHSEED": str(seed)}).stdout
+            for seed in range(4)}
+    assert len(runs) == 1, runs
+    [out] = runs
+    lines = [int(line.split("costs.csv:")[1].split(":")[0]) for line in out.splitlines()]
+    assert len(lines) >= 2 and lines == sorted(lines)

@@ -305,8 +305,9 @@ def test_an_output_folder_that_cannot_be_written_is_a_refused_output_with_nothin
 
 
 def test_an_office_unknown_in_many_history_rows_is_said_once(tmp_path: Path, capsys) -> None:  # type: ignore[no-untyped-def]
-    # An office missing from the instance drew ten lines and "and N more rows like this";
-    # the instance's own tables say such a name once, with its rows (tables.collapse_repeats).
+    # Said once with its rows, as the instance's own tables say such a name: grouped on the
+    # name the problem carries (tables.collapse_repeats), no longer on its message's words,
+    # so the history reader must hand the name over (without it: ten lines and "N more").
     history = tmp_path / "history"
     shutil.copytree(DEMO_HISTORY, history)
     for row in range(2, 14):

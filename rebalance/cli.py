@@ -3,7 +3,7 @@
 Exit codes (also in the README):
     0  plan found and verified (or: input valid, plan verified)
     1  unexpected internal error
-    2  command-line usage error
+    2  command-line usage error (or an output that may not be replaced or cannot be written)
     3  invalid input (every problem is listed)
     4  infeasible: the hard limits conflict (the conflicting limits are listed)
     5  time limit reached with no plan
@@ -497,6 +497,10 @@ def _main(argv: Sequence[str] | None) -> int:
         return EXIT_STOPPED
     except OutputInUse as exc:  # the output path changed while the run solved
         _err(str(exc))
+        return EXIT_USAGE
+    except OSError as exc:  # a full disk, no permission: every output is staged or atomic
+        where = getattr(args, "out", None) or exc.filename or "the output"
+        _err(f"{where}: cannot be written ({exc.strerror or exc}); nothing was written")
         return EXIT_USAGE
     except Exception as exc:  # the last line of defence: a message, not a traceback
         _err(f"internal error: {type(exc).__name__}: {exc}")

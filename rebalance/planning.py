@@ -301,12 +301,11 @@ def write_plan_files(result: PlanResult, folder: Path,
         encoding="utf-8")
 
 
-def write_outputs(result: PlanResult, out_dir: str | Path,
-                  extra: Callable[[PlanResult, Path], None] | None = None) -> None:
-    """Write plan tables and summary.json atomically (and ``extra`` files in the same swap)."""
+def write_outputs(result: PlanResult, out_dir: str | Path) -> None:
+    """Write the plan tables and summary.json atomically: the tables alone, for a script.
+    ``rebalance plan`` writes the whole folder (reasons.csv, report.html and plan.xlsx too)
+    with :func:`rebalance.report.files.write_plan_folder` inside :func:`staged_folder`."""
     if result.plan is None:  # before a folder is staged
         raise ValueError("no plan to write")
     with staged_folder(out_dir, kind="plan") as folder:
         write_plan_files(result, folder)
-        if extra is not None:
-            extra(result, folder)

@@ -187,7 +187,7 @@ def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, 
     staff = _read_staff(table("staff"), problems, known_offices, known_skills, known_periods)
     demand = _read_demand(table("demand"), problems, known_offices, known_skills, periods,
                           known_periods, check_empty="demand" in tables)
-    locations = None if known_offices is None else {o.location for o in offices.values()}
+    locations = None if known_offices is None else [o.location for o in offices.values()]
     move_costs = _read_move_costs(tables.get("move_costs"), problems, locations)
     vacancies = _read_vacancies(tables.get("vacancies"), problems, known_offices, known_skills)
     attrition = _read_attrition(tables.get("attrition"), problems, known_offices, known_skills)
@@ -497,11 +497,11 @@ def _read_demand(table: RawTable, problems: list[Problem], offices: Mapping[str,
 
 
 def _read_move_costs(table: RawTable | None, problems: list[Problem],
-                     locations: set[str] | None) -> dict[tuple[str, str], MoveCost]:
+                     locations: list[str] | None) -> dict[tuple[str, str], MoveCost]:
     if table is None:
         return {}
     rows, out = TableRows(table, problems, COLUMNS["move_costs"]), {}
-    known = None if locations is None else {loc: None for loc in locations}
+    known = None if locations is None else dict.fromkeys(locations)  # file order
     for row in rows:
         a = rows.reference(row, "from_location", known, "location", "offices.csv")
         b = rows.reference(row, "to_location", known, "location", "offices.csv")

@@ -107,6 +107,16 @@ class CellDate:
         return (f"the cell holds a date ({self.shown}), not {what}; type {typed} as text, e.g. "
                 f"{example} (a spreadsheet reads 2027-01-01 typed in a cell as a date)")
 
+    @property
+    def not_period_name(self) -> str:
+        """The message for this date where a period's name is expected."""
+        return self.instead_of("a period name", "the period name", self.quarter)
+
+    @property
+    def not_budget_year(self) -> str:
+        """The message for this date where a budget year's name is expected."""
+        return self.instead_of("a budget year", "the year's name", str(self.day.year))
+
 
 def warn_unknown_settings(settings: Mapping[str, Any], problems: list[Problem]) -> None:
     """A warning for each setting nothing reads: a typo (``max_away_shares``) would otherwise
@@ -344,6 +354,10 @@ def read_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
                                    '"FY27"')):
                 if part not in entry:
                     missing(f"{key}.{part}", f"is missing; expected {expected}")
+                elif isinstance(entry[part], CellDate):  # a workbook's periods sheet
+                    day = entry[part]
+                    bad(f"{key}.{part}", day.not_period_name if part == "name"
+                        else day.not_budget_year)
                 elif value is None:
                     found = ("is empty" if isinstance(entry[part], str)
                              else _invalid(entry[part]))
@@ -393,7 +407,8 @@ def read_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
             if quarter > 4:
                 year, quarter = year + 1, 1
     names = [p.name for p in periods]
-    for name in {n for n in names if names.count(n) > 1}:
+    # In the file's order: a set's order of strings changes with each run's hash seed.
+    for name in dict.fromkeys(n for n in names if names.count(n) > 1):
         bad("horizon.periods", f"period '{name}' is listed twice")
     return tuple(periods), periods_per_year
 

@@ -43,10 +43,11 @@ from rebalance.workbook_writer import (
 )
 
 __all__ = ["read_workbook"]
-# Columns that hold period names, by sheet: text, never a date.
-_PERIOD_CELLS = {"demand": ("period",), "staff": ("last_period",), PERIODS_SHEET: ("name",)}
+# Columns that hold period names, by sheet: text, never a date.  (The periods sheet's date
+# cells reach the settings reader as dates, which says them: see _periods.)
+_PERIOD_CELLS = {"demand": ("period",), "staff": ("last_period",)}
 # Columns that hold budget years (names such as 2027 or FY27): never a date either.
-_YEAR_CELLS = {"budget": ("year",), PERIODS_SHEET: ("year",)}
+_YEAR_CELLS = {"budget": ("year",)}
 _PERIOD_KEY = re.compile(r"^horizon\.periods\[(\d+)\](?:\.(\w+))?$")
 
 
@@ -145,11 +146,11 @@ def read_workbook(path: str | Path) -> Instance:
     # it once (a missing sheet had drawn a second line, "horizon: give either periods ...").
     settings_read = SETTINGS_SHEET in sheets and {"key", "value"} <= {
         c.lower() for c in sheets[SETTINGS_SHEET].columns}
+    period_rows: tuple[int, ...] | None = None  # None: the book has no periods sheet
     if PERIODS_SHEET in sheets:
-        _periods(sheets[PERIODS_SHEET], label(PERIODS_SHEET), settings, problems)
+        period_rows = _periods(sheets[PERIODS_SHEET], label(PERIODS_SHEET), settings, problems)
 
     name = book_path.stem
-    periods_sheet = PERIODS_SHEET in sheets
     try:
         instance = build_instance(name, settings, tables, problems)
     except InstanceError as exc:
@@ -160,11 +161,11 @@ def read_workbook(path: str | Path) -> Instance:
             return settings_read or source.file != "settings.toml" or (
                 said.file != label(SETTINGS_SHEET))
 
-        said = [(p, _relabel(p, book, title, key_rows, periods_sheet, unknown_rows))
+        said = [(p, _relabel(p, book, title, key_rows, period_rows, unknown_rows))
                 for p in exc.problems]
         raise InstanceError(_in_row_order([p for source, p in said if kept(source, p)],
                                           label(SETTINGS_SHEET))) from None
-    warnings = tuple(str(_relabel(p, book, title, key_rows, periods_sheet, unknown_rows))
+    warnings = tuple(str(_relabel(p, book, title, key_rows, period_rows, unknown_rows))
                      for p in problems if p.is_warning)
     return instance.with_changes(warnings=warnings)
 
@@ -372,10 +373,10 @@ def _dates_for_periods(sheets: Mapping[str, _Sheet],
     they had read as "unknown period '2027-01-01T00:00:00'", in the periods sheet named every
     period so, and in the budget sheet as "budget year '2027-01-01' belongs to no period")."""
     def period(day: CellDate) -> str:
-        return day.instead_of("a period name", "the period name", day.quarter)
+        return day.not_period_name
 
     def year(day: CellDate) -> str:
-        return day.instead_of("a budget year", "the year's name", str(day.day.year))
+        return day.not_budget_year
 
     out = []
     for cells_of, what in ((_PERIOD_CELLS, period), (_YEAR_CELLS, year)):
@@ -486,44 +487,59 @@ def _in_row_order(problems: list[Problem], sheet: str) -> list[Problem]:
 
 
 def _periods(sheet: _Sheet, label: str, settings: dict[str, Any],
-             problems: list[Problem]) -> None:
-    """Explicit periods from the periods sheet into ``settings['horizon']['periods']``."""
+             problems: list[Problem]) -> tuple[int, ...]:
+    """Explicit periods from the periods sheet into ``settings['horizon']['periods']``, and
+    the sheet row of each (blank rows are skipped).  A cell of name, year or hours_per_fte
+    that holds a date goes as a :class:`~rebalance.settings_reader.CellDate`, so the settings
+    reader says so at the cell (as ISO text with a time it had been taken as a name,
+    '2027-01-01T00:00:00', which later problems then named)."""
     named = known_case(RawTable(label, sheet.columns, sheet.rows), PERIOD_COLUMNS)
     sheet = replace(sheet, columns=named.columns, rows=named.rows)
     for needed in ("name", "year"):
         if needed not in sheet.columns:
             problems.append(Problem(label, 1, needed, "required column is missing"))
     if "name" not in sheet.columns or "year" not in sheet.columns:
-        return
-    listed = []
-    for row in sheet.rows:
+        return ()
+    listed, rows = [], []
+    for number, (row, cells) in enumerate(zip(sheet.rows, sheet.raw_rows, strict=True), 2):
         if not any(row.values()):
             continue
-        entry: dict[str, Any] = {"name": row.get("name", ""), "year": row.get("year", "")}
+        # Date cells by column (the last of a name given twice, as ``row`` takes it).
+        dates = {c: CellDate(cells[i]) for i, c in enumerate(sheet.columns)
+                 if c and i < len(cells) and isinstance(cells[i], dt.date)}
+        entry: dict[str, Any] = {"name": dates.get("name", row.get("name", "")),
+                                 "year": dates.get("year", row.get("year", ""))}
         if row.get("hours_per_fte"):
-            entry["hours_per_fte"] = _typed(row["hours_per_fte"])
+            entry["hours_per_fte"] = dates.get("hours_per_fte", _typed(row["hours_per_fte"]))
         listed.append(entry)
+        rows.append(number)
     horizon = settings.setdefault("horizon", {})
     if isinstance(horizon, dict):
         horizon["periods"] = listed
+    return tuple(rows)
 
 
 def _relabel(problem: Problem, book: str, title: Callable[[str], str],
-             key_rows: Mapping[str, int], periods_sheet: bool,
+             key_rows: Mapping[str, int], period_rows: tuple[int, ...] | None,
              unknown_rows: Mapping[str, int]) -> Problem:
     """Rename a problem that :func:`build_instance` located in a folder's files; ``title``
-    gives a sheet's name as the book spells it.  A missing setting is put on the row of the
+    gives a sheet's name as the book spells it, ``period_rows`` the periods sheet's row of
+    each listed period (None: no such sheet).  A missing setting is put on the row of the
     first unknown key it names as perhaps meant as it (``Problem.meant_keys``)."""
-    message = _sheet_words(problem.message, title, periods_sheet)
+    message = _sheet_words(problem.message, title, period_rows is not None)
     meant = [k for k in problem.meant_keys if k in unknown_rows]
     file = problem.file
     if file == "settings.toml":
         key = problem.column or ""
         period = _PERIOD_KEY.match(key)
         if period is not None:
-            # horizon.periods[i] is the i-th period row (1-based), so sheet row i + 1.
-            return Problem(f"{book}[{title(PERIODS_SHEET)}]", int(period.group(1)) + 1,
-                           period.group(2) or "name", message, problem.is_warning)
+            # horizon.periods[i] is the i-th period row (1-based) read: blank rows skipped,
+            # its row had been taken as i + 1, below a blank row one row too high.
+            index = int(period.group(1))
+            row = period_rows[index - 1] if period_rows and index <= len(period_rows) else (
+                index + 1)
+            return Problem(f"{book}[{title(PERIODS_SHEET)}]", row, period.group(2) or "name",
+                           message, problem.is_warning)
         if key == "horizon.periods":
             return Problem(f"{book}[{title(PERIODS_SHEET)}]", None, None, message,
                            problem.is_warning)
@@ -547,6 +563,9 @@ def _sheet_words(message: str, title: Callable[[str], str], periods_sheet: bool)
     if periods_sheet:  # periods are named in their own sheet, not among the settings
         message = message.replace("periods in settings.toml",
                                   f"periods in sheet {title(PERIODS_SHEET)}")
-        message = message.replace("listed in settings.toml",
-                                  f"listed in sheet {title(PERIODS_SHEET)}")
+        # and a period unknown in many rows ("is not in settings.toml (2027-Q1 to ...) but
+        # is named in 4 rows ...; add it to settings.toml") had named the settings sheet.
+        for words in ("listed in", "is not in", "add it to"):
+            message = message.replace(f"{words} settings.toml",
+                                      f"{words} sheet {title(PERIODS_SHEET)}")
     return message.replace("settings.toml", f"sheet {title(SETTINGS_SHEET)}")

@@ -528,3 +528,26 @@ def test_a_time_limit_too_short_for_its_parts_is_said_so_with_one_that_fits() ->
     assert _limit_shares(60.0, 0.76, 2.80, 56.44) == (
         "of the 60 s limit, 0.76 s went to starting and reading the instance, 2.80 s were "
         "kept for writing the plan's files and 56.44 s were left to build and solve the model")
+
+
+def test_a_full_disk_while_writing_is_said_plainly_and_writes_nothing(tmp_path, capsys,
+                                                                     monkeypatch):
+    # An OSError while writing the reports had ended as "internal error ... please report
+    # this"; every output is staged, so nothing is left half-written and the old folder stays.
+    import rebalance.report.files as files_module
+
+    out = tmp_path / "plan"
+    assert main(["plan", str(DATA / "tiny"), "-o", str(out), "--quiet"]) == EXIT_OK
+    before = sorted(p.name for p in out.iterdir())
+    capsys.readouterr()
+
+    def full(*args, **kwargs):
+        raise OSError(28, "No space left on device", str(out / ".report.html.tmp"))
+
+    monkeypatch.setattr(files_module, "write_html", full)
+    assert main(["plan", str(DATA / "tiny"), "-o", str(out), "--quiet"]) == 2
+    err = capsys.readouterr().err
+    assert f"{out}: cannot be written (No space left on device); nothing was written" in err
+    assert "internal error" not in err
+    assert sorted(p.name for p in out.iterdir()) == before
+    assert not [p for p in tmp_path.iterdir() if p.name.startswith(".")]

@@ -932,3 +932,29 @@ def test_what_a_misspelt_key_leaves_in_force_is_the_readers_own_default(tmp_path
         "solver.threads": str(read.solver.threads), "solver.seed": str(read.solver.seed),
     }
     assert {k: DEFAULT_MEANINGS[k] for k in applied} == applied
+
+
+def test_a_workbook_cells_date_in_a_listed_period_is_said_as_a_date() -> None:
+    # A workbook's periods sheet hands a date cell to the settings reader as a CellDate (a
+    # spreadsheet reads 2027-01-01 typed in a cell as a date: the openpyxl and LibreOffice
+    # Calc documentation of cell types); the reader says what the cell holds and what to type.
+    import datetime
+
+    from rebalance.problems import Problem
+    from rebalance.settings_reader import CellDate, read_periods
+
+    day = CellDate(datetime.datetime(2027, 4, 1))
+    listed = [{"name": day, "year": "2027", "hours_per_fte": 480},
+              {"name": "2027-Q3", "year": day, "hours_per_fte": 480},
+              {"name": "2027-Q4", "year": "2027", "hours_per_fte": day}]
+    problems: list[Problem] = []
+    periods, _ = read_periods({"horizon": {"periods": listed}}, problems)
+    assert periods == ()
+    hint = "(a spreadsheet reads 2027-01-01 typed in a cell as a date)"
+    assert [(p.column, p.message) for p in problems] == [
+        ("horizon.periods[1].name", "the cell holds a date (2027-04-01), not a period name; "
+         f"type the period name as text, e.g. 2027-Q2 {hint}"),
+        ("horizon.periods[2].year", "the cell holds a date (2027-04-01), not a budget year; "
+         f"type the year's name as text, e.g. 2027 {hint}"),
+        ("horizon.periods[3].hours_per_fte", "the cell holds a date (2027-04-01), which is "
+         "not valid; expected a number > 0")]

@@ -92,7 +92,7 @@ def output_folder_problem(folder: str | Path) -> str | None:
 
 
 def _instance_context(folder: Path, problems: list[Problem]) -> tuple[
-        tuple[Period, ...], set[str] | None, set[str] | None]:
+        tuple[Period, ...], dict[str, None] | None, dict[str, None] | None]:
     """Periods, office names and skill names of the instance (None: that file is unusable)."""
     refused = output_folder_problem(folder)
     if refused is not None:
@@ -109,7 +109,7 @@ def _instance_context(folder: Path, problems: list[Problem]) -> tuple[
                                     f"period '{p.name}' is not a calendar quarter; "
                                     "`rebalance demand` expects periods named YYYY-Qn"))
 
-    def names(table: str, column: str) -> set[str] | None:
+    def names(table: str, column: str) -> dict[str, None] | None:
         raw = tables.get(table)
         if raw is not None and raw.fault is not None:
             # Not UTF-8: said as such (it had read as "required column is missing").
@@ -119,7 +119,9 @@ def _instance_context(folder: Path, problems: list[Problem]) -> tuple[
             if raw is not None:
                 problems.append(Problem(raw.label, 1, column, "required column is missing"))
             return None  # reported above; checking names against nothing would flood
-        return {r.get(column, "") for r in raw.rows if r.get(column)}
+        # In file order: a set's order of names (which "did you mean" picks from) changes
+        # with each run's hash seed.
+        return dict.fromkeys(r.get(column, "") for r in raw.rows if r.get(column))
 
     return periods, names("offices", "office"), names("skills", "skill")
 
@@ -394,17 +396,20 @@ def write_demand(result: DemandResult, instance_dir: str | Path,
     writing = folder  # what a failed write is said of: the folder written into, not a temporary
     written = "nothing was written"  # until the report folder is swapped in
     try:
-        # Renamed into place only once the report folder is swapped in: all three or none.
-        with (atomic_file(folder / "demand.csv") as demand_tmp,
-              atomic_file(folder / "demand_trace.csv") as trace_tmp):
-            # Ten significant digits keep volume x hours_per_case = hours exact to well under
-            # 0.01 h.
-            demand.to_csv(demand_tmp, index=False, float_format="%.10g")
-            result.trace.to_csv(trace_tmp, index=False, float_format="%.10g")
-            writing = report
-            _write_report(result, report)
-            writing = folder
-            written = f"only the report in {report} was written"
+        # Both files are renamed into place only once the report folder is swapped in, and
+        # demand.csv first; a rename that fails after that says what was written.
+        with atomic_file(folder / "demand_trace.csv") as trace_tmp:
+            with atomic_file(folder / "demand.csv") as demand_tmp:
+                # Ten significant digits keep volume x hours_per_case = hours exact to well
+                # under 0.01 h.
+                demand.to_csv(demand_tmp, index=False, float_format="%.10g")
+                result.trace.to_csv(trace_tmp, index=False, float_format="%.10g")
+                writing = report
+                _write_report(result, report)
+                writing = folder
+                written = f"only the report in {report} was written"
+            written = (f"the report in {report} and demand.csv were written, but not "
+                       "demand_trace.csv")
     except OSError as exc:
         reason = exc.strerror or type(exc).__name__
         raise OutputInUse(f"{writing}: cannot be written ({reason}); {written}") from None

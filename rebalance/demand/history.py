@@ -12,7 +12,7 @@ from __future__ import annotations
 import datetime
 import re
 import tomllib
-from collections.abc import Mapping
+from collections.abc import Collection, Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -183,8 +183,8 @@ class _Cells(TableRows):
         required, optional, _ = TABLES[stem]
         super().__init__(table, problems, (required, optional))
 
-    def choice(self, row: Mapping[str, str], column: str, known: Mapping[str, Any] | set[str]
-               | tuple[str, ...] | None, what: str = "", *, listed_in: str = "") -> str | None:
+    def choice(self, row: Mapping[str, str], column: str, known: Collection[str] | None,
+               what: str = "", *, listed_in: str = "") -> str | None:
         """A value from ``known``; ``known`` None accepts any (names could not be read).  An
         unknown value is said as not ``what`` was expected, or as not listed in the file
         ``listed_in`` (then a name unknown in many rows is said once, as the instance's)."""
@@ -228,8 +228,8 @@ class _Cells(TableRows):
         return index, month
 
 
-def read_history(folder: str | Path, offices: set[str] | None, skills: set[str] | None
-                 ) -> History:
+def read_history(folder: str | Path, offices: Collection[str] | None,
+                 skills: Collection[str] | None) -> History:
     """Read and validate a history folder against the instance's offices and skills.
 
     ``None`` for offices or skills skips that check (the caller could not read the names and
@@ -244,8 +244,8 @@ def read_history(folder: str | Path, offices: set[str] | None, skills: set[str] 
     return history
 
 
-def read_history_partly(folder: str | Path, offices: set[str] | None, skills: set[str] | None
-                        ) -> tuple[History | None, list[Problem]]:
+def read_history_partly(folder: str | Path, offices: Collection[str] | None,
+                        skills: Collection[str] | None) -> tuple[History | None, list[Problem]]:
     """The history from the rows that read, and every problem found (None: no folder).
 
     Checks that span the history and the instance (``build._check_horizon``) run on it even
@@ -270,7 +270,7 @@ def read_history_partly(folder: str | Path, offices: set[str] | None, skills: se
             tables[stem] = RawTable(f"{stem}.csv", required, ())
     settings = _read_settings(path / "demand.toml", skills, problems)
     activities = _read_activities(tables["activities"], problems)
-    case_types = {a for a, kind in activities.items() if kind == "case"}
+    case_types = dict.fromkeys(a for a, kind in activities.items() if kind == "case")
     have_activities = bool(activities) or "activities" not in tables
     arrivals = _read_arrivals(tables["case_arrivals"], problems, offices,
                               case_types if have_activities else None)
@@ -352,7 +352,7 @@ def _shown(value: Any) -> str:
     return f"a {type(value).__name__}"
 
 
-def _read_settings(file: Path, skills: set[str] | None, problems: list[Problem]
+def _read_settings(file: Path, skills: Collection[str] | None, problems: list[Problem]
                    ) -> DemandSettings:
     """Every key range-checked, every problem said: ``demand.toml: key: what; expected``."""
     if not file.is_file():
@@ -434,8 +434,8 @@ def _read_activities(table: RawTable, problems: list[Problem]) -> dict[str, str]
     return out
 
 
-def _read_arrivals(table: RawTable, problems: list[Problem], offices: set[str] | None,
-                   case_types: set[str] | None) -> pd.DataFrame:
+def _read_arrivals(table: RawTable, problems: list[Problem], offices: Collection[str] | None,
+                   case_types: Collection[str] | None) -> pd.DataFrame:
     cells = _Cells(table, "case_arrivals", problems)
     rows: list[tuple[str, str, int, int]] = []
     seen: dict[tuple[str, str, int], int] = {}
@@ -485,8 +485,8 @@ def _read_arrivals(table: RawTable, problems: list[Problem], offices: set[str] |
     return frame
 
 
-def _read_records(table: RawTable, problems: list[Problem], offices: set[str] | None,
-                  skills: set[str] | None, kinds: dict[str, str]) -> pd.DataFrame:
+def _read_records(table: RawTable, problems: list[Problem], offices: Collection[str] | None,
+                  skills: Collection[str] | None, kinds: dict[str, str]) -> pd.DataFrame:
     cells = _Cells(table, "time_records", problems)
     rows: list[tuple[int, str, int, int, str, str, str, float]] = []
     for row in cells:
@@ -531,8 +531,9 @@ def _read_expected(table: RawTable, problems: list[Problem], kinds: dict[str, st
     return pd.DataFrame(rows, columns=["person", "period", "expected_hours"])
 
 
-def _read_adjustments(table: RawTable | None, problems: list[Problem], offices: set[str] | None,
-                      case_types: set[str]) -> pd.DataFrame:
+def _read_adjustments(table: RawTable | None, problems: list[Problem],
+                      offices: Collection[str] | None,
+                      case_types: Collection[str]) -> pd.DataFrame:
     columns = ["office", "case_type", "first_month", "last_month", "factor", "note"]
     if table is None:
         return pd.DataFrame(columns=columns)

@@ -319,3 +319,28 @@ def test_an_office_unknown_in_many_history_rows_is_said_once(tmp_path: Path, cap
     assert ("office 'atlantis' is not in the instance's offices.csv but is named in 12 rows"
             in err)
     assert "more rows like this" not in err
+
+
+def test_a_rename_that_fails_late_says_what_was_written(tmp_path: Path, capsys,  # type: ignore[no-untyped-def]
+                                                        monkeypatch) -> None:
+    # demand.csv goes in first; if demand_trace.csv's rename then fails, the message had
+    # said only the report was written while demand.csv was new already.
+    import os
+
+    import rebalance.files as files_module
+
+    instance = _instance_without_demand(tmp_path / "instance")
+    real = os.replace
+
+    def replace(src, dst):  # type: ignore[no-untyped-def]
+        if str(dst).endswith("demand_trace.csv"):
+            raise PermissionError(13, "Permission denied")
+        return real(src, dst)
+
+    monkeypatch.setattr(files_module.os, "replace", replace)
+    assert main(["demand", str(DEMO_HISTORY), "-o", str(instance)]) != EXIT_OK
+    err = capsys.readouterr().err
+    assert "and demand.csv were written, but not demand_trace.csv" in err, err
+    assert (instance / "demand.csv").read_text() != "office,skill,period,fte\n"
+    assert not (instance / "demand_trace.csv").exists()
+    assert not [p for p in instance.iterdir() if p.name.startswith(".")]

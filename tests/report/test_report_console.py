@@ -90,7 +90,7 @@ def test_the_summary_lists_problems_as_verify_does(tmp_path):
 
 def test_the_summary_shows_the_first_20_problems_and_counts_the_rest():
     # Past the cap in lines, each problem keeps its first 3 knock-on lines, as verify's list
-    # does (both cut by rebalance.report.console.first_problems).
+    # does (both cut by rebalance.verify_causes.first_problems).
     from dataclasses import replace
 
     from rebalance.report.console import KNOCK_ONS_SHOWN, PROBLEMS_SHOWN, format_summary
@@ -113,6 +113,26 @@ def test_the_summary_shows_the_first_20_problems_and_counts_the_rest():
     assert listed[1 + KNOCK_ONS_SHOWN] == f"        ... and {5 - KNOCK_ONS_SHOWN} more under it"
     assert sum(line.startswith("    - ") for line in listed) == PROBLEMS_SHOWN
     assert listed[-1] == "    ... and 5 more; rebalance verify with --all lists every one"
+
+
+def test_knock_ons_cut_under_the_cap_say_how_to_see_them_all():
+    # Fewer problems than the cap, but one's knock-on lines cut: the last "more under it"
+    # line says how to list them all, as verify's own list does (it had said nothing).
+    from dataclasses import replace
+
+    from rebalance.report.console import KNOCK_ONS_SHOWN, format_summary
+    from rebalance.verify import Violation
+
+    cause = Violation("hire_costs", "1 review at B from 2027-Q4", "onboarding cost differs",
+                      file="hires.csv:2")
+    rows = [Violation("coverage_hire_output", f"review at B in 2027-Q{q}", "hire_output_fte off",
+                      file=f"coverage.csv:{q}", follows=cause) for q in range(1, 6)]
+    others = [Violation("summary", f"figure {i}", "says 1; recomputed 2", file="summary.json")
+              for i in range(15)]  # 21 lines, 16 problems: cut in lines, not in problems
+    lines = format_summary(replace(_tiny_result(), violations=(cause, *rows, *others))
+                           ).splitlines()
+    assert (f"        ... and {5 - KNOCK_ONS_SHOWN} more under it; rebalance verify with --all "
+            "lists every one") in lines
 
 
 def test_a_replans_verdict_counts_problems_as_the_summary_does():

@@ -838,3 +838,82 @@ def test_settings_keys_are_read_whatever_their_case_and_problems_in_row_order(tm
 
     rows = [p.row for p in _edited_book(tmp_path, edit) if p.file == "tiny.xlsx[settings]"]
     assert len(rows) == 2 and rows == sorted(rows), rows
+
+
+def _book_with_periods(tmp_path, rows) -> list:
+    """The problems of tiny's workbook with a periods sheet of ``rows`` (name, year,
+    hours_per_fte) in place of horizon.start and count; demand and staff keep 2027-Qn."""
+    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+    wb = load_workbook(book)
+    for row in list(wb["settings"].iter_rows(min_row=2)):
+        if row[0].value in ("horizon.start", "horizon.count"):
+            row[0].value = row[1].value = None
+    periods = wb.create_sheet("periods")
+    periods.append(["name", "year", "hours_per_fte"])
+    for row in rows:
+        periods.append(list(row))
+    wb.save(book)
+    with pytest.raises(InstanceError) as caught:
+        read_workbook(book)
+    return list(caught.value.problems)
+
+
+@pytest.mark.parametrize(("column", "said"), [
+    ("name", "the cell holds a date (2027-01-01), not a period name; type the period name as "
+             "text, e.g. 2027-Q1 (a spreadsheet reads 2027-01-01 typed in a cell as a date)"),
+    ("year", "the cell holds a date (2027-01-01), not a budget year; type the year's name as "
+             "text, e.g. 2027 (a spreadsheet reads 2027-01-01 typed in a cell as a date)"),
+    ("hours_per_fte", "the cell holds a date (2027-01-01), which is not valid; expected a "
+                      "number > 0"),
+], ids=["name", "year", "hours_per_fte"])
+def test_a_date_in_the_periods_sheet_is_said_once_at_its_cell(tmp_path, column, said):
+    # Review: the periods sheet's cells had reached the reader as ISO text with a time, so a
+    # date in hours_per_fte read "'2027-01-01T00:00:00' is not valid", one in a name left
+    # demand's rows saying "(2027-01-01T00:00:00 to 2027-Q4)" and one in a year "budget year
+    # '2027-01-01T00:00:00' has no row".  Said as the settings sheet says a date cell.  (A
+    # spreadsheet program reads 2027-01-01 typed in a cell as a date: the openpyxl and
+    # LibreOffice Calc documentation of cell types.)
+    import datetime
+
+    rows = [[f"2027-Q{q}", 2027, 480] for q in range(1, 5)]
+    rows[0][("name", "year", "hours_per_fte").index(column)] = datetime.datetime(2027, 1, 1)
+    problems = _book_with_periods(tmp_path, rows)
+    assert [str(p) for p in problems if not p.is_warning] == [
+        f"tiny.xlsx[periods]:2: {column}: {said}"]
+    assert not [str(p) for p in problems if "T00:00:00" in str(p)]  # no warning names it
+
+
+def test_a_periods_sheet_problem_below_a_blank_row_names_its_own_row(tmp_path):
+    # Blank rows are skipped, and the i-th period read had been put on sheet row i + 1: a
+    # date in row 4 below a blank row 3 was said on row 3.  (Rows as the spreadsheet numbers
+    # them, header in row 1: docs/instance-format.md, Instance as one workbook.)
+    import datetime
+
+    rows = [["2027-Q1", 2027, 480], [None, None, None], ["2027-Q2", 2027, 480],
+            ["2027-Q3", 2027, datetime.datetime(2027, 7, 1)], ["2027-Q4", 2027, -5]]
+    said = [(p.file, p.row, p.column) for p in _book_with_periods(tmp_path, rows)
+            if not p.is_warning]
+    assert said == [("tiny.xlsx[periods]", 5, "hours_per_fte"),
+                    ("tiny.xlsx[periods]", 6, "hours_per_fte")]
+
+
+def test_a_period_unknown_in_many_rows_points_at_the_periods_sheet(tmp_path):
+    # With a periods sheet, the one line for a period unknown in many rows had said "is not in
+    # sheet settings ...; add it to sheet settings", a sheet that lists no period (one row's
+    # problem already said "listed in sheet periods": test_periods_sheet_lists_periods).
+    def edit(wb):
+        for row in list(wb["settings"].iter_rows(min_row=2)):
+            if row[0].value in ("horizon.start", "horizon.count"):
+                row[0].value = row[1].value = None
+        periods = wb.create_sheet("periods")
+        periods.append(["name", "year", "hours_per_fte"])
+        for q in range(1, 5):
+            periods.append([f"2027-Q{q}", 2027, 480])
+        for row in range(2, 6):
+            wb["demand"].cell(row, 3).value = "2028-Q1"
+
+    (problem,) = [p for p in _edited_book(tmp_path, edit) if not p.is_warning]
+    assert "settings" not in problem.message, problem.message
+    assert problem.message.startswith("period '2028-Q1' is not in sheet periods (2027-Q1 to "
+                                      "2027-Q4) but is named in 4 rows"), problem.message
+    assert "add it to sheet periods or correct those rows" in problem.message

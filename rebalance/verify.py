@@ -113,19 +113,31 @@ class _Checker:
         self.spend: dict[tuple[str, str], float] = defaultdict(float)
 
     def flag(self, rule: str, where: str, message: str, line: int | None = None,
-             at: tuple[str, int] | None = None) -> None:
-        self.add(rule, where, message, RULES[rule][0], line, at=at)
+             at: tuple[str, int] | None = None, *, person: str | None = None,
+             period: str | None = None, figure_column: str | None = None) -> None:
+        self.add(rule, where, message, RULES[rule][0], line, at=at, person=person,
+                 period=period, figure_column=figure_column)
 
     def add(self, rule: str, where: str, message: str, table: str, line: int | None = None, *,
             column: str | None = None, name_kind: NameKind | None = None,
-            at: tuple[str, int] | None = None) -> None:
-        """A violation of ``table`` (at ``line``), its ``file`` as printed made from them."""
+            at: tuple[str, int] | None = None, person: str | None = None,
+            period: str | None = None, figure_column: str | None = None) -> None:
+        """A violation of ``table`` (at ``line``), its ``file`` as printed made from them;
+        ``at``'s period is named too (a run's printed last period)."""
+        if at is not None and period is None:
+            period = self.i.period_names[at[1]]
         self.violations.append(Violation(
             rule, where, message, column, name_kind, file=self.file(table, line), at=at,
-            table=table, line=line))
+            table=table, line=line, person=person, period=period, figure_column=figure_column))
 
     def row_flag(self, where: str, line: int) -> Callable[[str, str], None]:
         return lambda rule, message: self.flag(rule, where, message, line)
+
+    def person_flag(self, person: str, period: str, line: int) -> Callable[[str, str], None]:
+        """Flags a plan row about ``person`` in ``period``, its ``where`` said of them."""
+        where = f"person {person} in {period}"
+        return lambda rule, message: self.flag(rule, where, message, line, person=person,
+                                               period=period)
 
     def lines(self, table: str) -> list[int]:
         """Each row's line in its file: read_plan indexes rows by line less 2 (blank lines
@@ -210,8 +222,7 @@ class _Checker:
         seen: Counter[str] = Counter()
         for line, row in zip(self.lines("reassignments"), records(self.plan.reassignments),
                              strict=True):
-            where = f"person {row.person} in {row.period}"
-            flag = self.row_flag(where, line)
+            flag = self.person_flag(row.person, row.period, line)
             person = self.people[row.person]
             t = self.period_ix[row.period]
             seen[row.person] += 1
@@ -242,8 +253,7 @@ class _Checker:
         for line, row in zip(self.lines("details"), records(self.plan.details), strict=True):
             person = self.people[row.person]
             t = self.period_ix[row.period]
-            where = f"person {row.person} in {row.period}"
-            flag = self.row_flag(where, line)
+            flag = self.person_flag(row.person, row.period, line)
             if (row.person, t) in away:
                 flag("one_detail", "two details in one period")
             away[(row.person, t)] = row.to_office
@@ -274,7 +284,7 @@ class _Checker:
                         self.flag("consecutive_details",
                                   f"person {name} from {self.i.periods[start].name}",
                                   f"{len(periods & window)} detail periods in {m + 1} "
-                                  f"consecutive periods; at most {m} allowed")
+                                  f"consecutive periods; at most {m} allowed", person=name)
         return away
 
     # -- work ----------------------------------------------------------------------------
@@ -287,8 +297,7 @@ class _Checker:
         for line, row in zip(self.lines("work"), records(self.plan.work), strict=True):
             person = self.people[row.person]
             t = self.period_ix[row.period]
-            where = f"person {row.person} in {row.period}"
-            flag = self.row_flag(where, line)
+            flag = self.person_flag(row.person, row.period, line)
             key = (row.person, row.period, row.office, row.skill)
             if key in seen:
                 # One row per person, period, office and skill: repeats could carry small
@@ -314,8 +323,10 @@ class _Checker:
             available = self.i.available_fte(self.people[name], t)
             if over(total, available):
                 works, has = figures(total, available)
-                self.flag("work_capacity", f"person {name} in {self.i.periods[t].name}",
-                          f"works {works} FTE but has {has} available")
+                period = self.i.periods[t].name
+                self.flag("work_capacity", f"person {name} in {period}",
+                          f"works {works} FTE but has {has} available", person=name,
+                          period=period)
 
     # -- hires ---------------------------------------------------------------------------
     def _check_hires(self) -> None:
@@ -348,7 +359,7 @@ class _Checker:
             if cap is not None and count > cap:
                 self.flag("max_hires", f"{office} in {self.i.periods[s].name}",
                           f"{count} {'hire starts' if count == 1 else 'hires start'}; "
-                          f"at most {cap} allowed")
+                          f"at most {cap} allowed", period=self.i.periods[s].name)
         for (office_name, skill_name), used in vacancy_used.items():
             funded = self.i.vacancies.get((office_name, skill_name), 0)
             if used > funded:
@@ -378,7 +389,7 @@ class _Checker:
             key = (r.office, r.skill, str(r.period))
             if key in reported:
                 self.flag("coverage_rows", f"{r.skill} at {r.office} in {r.period}",
-                          "listed twice", line=number)
+                          "listed twice", line=number, period=str(r.period))
             reported[key] = (number, r)
         weighted = unweighted = 0.0
         demanded = set()
@@ -393,7 +404,8 @@ class _Checker:
             weighted += d.priority * shortfall
             unweighted += shortfall
             if (d.office, d.skill, name) not in reported:
-                self.flag("coverage_missing", where, "no row for this demand row")
+                self.flag("coverage_missing", where, "no row for this demand row",
+                          period=name)
                 continue
             number, row = reported[(d.office, d.skill, name)]
             # Every figure of the row: the report's headlines are sums of these columns.
@@ -405,10 +417,12 @@ class _Checker:
                 if not close(value, expected):
                     stated, recomputed = figures(value, expected)
                     self.flag(f"coverage_{column.removesuffix('_fte')}", where,
-                              f"{column} {stated} but recomputed {recomputed}", line=number)
+                              f"{column} {stated} but recomputed {recomputed}", line=number,
+                              period=name, figure_column=column)
         for office, skill, period in sorted(set(reported) - demanded):
             self.flag("coverage_rows", f"{skill} at {office} in {period}",
-                      "a coverage row for no demand row", reported[(office, skill, period)][0])
+                      "a coverage row for no demand row", reported[(office, skill, period)][0],
+                      period=period)
         self.weighted_shortfall = weighted
         self.shortfall_fte = unweighted
 
@@ -434,7 +448,8 @@ class _Checker:
                 where, key = f"{office.name} in {self.i.periods[t].name}", (office.name, t)
                 if over(gone[key], share * present[key]):
                     self.flag("away_share", where, f"{gone[key]} of {present[key]} people away; "
-                              f"at most {share_of(share)} of them may be")
+                              f"at most {share_of(share)} of them may be",
+                              period=self.i.periods[t].name)
                 used = present[key] - gone[key] + arrived[key] + hires_held[key]
                 if office.seats is not None and used > office.seats:
                     self.flag("seats", where, f"{used} seats used; {office.seats} exist", at=key)

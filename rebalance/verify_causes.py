@@ -125,8 +125,6 @@ def link_knock_ons(instance: Instance, plan: Plan, violations: Sequence[Violatio
             reach[(row.person, t)] |= {row.from_office, row.to_office}
 
     # The person-periods and hire rows each non-coverage violation is about.
-    by_where = {f"person {name} in {instance.period_names[t]}": (name, t)
-                for (name, t) in fte_of}
     person_causes: dict[tuple[str, int], int] = {}  # the first violation of each
     hire_causes: list[tuple[int, str, str, int]] = []
     for ix, v in enumerate(violations):
@@ -137,8 +135,9 @@ def link_knock_ons(instance: Instance, plan: Plan, violations: Sequence[Violatio
             t = period_ix[row.period]
             last = len(instance.periods) if table == "reassignments" else t + 1
             found = [(row.person, s) for s in range(t, last)]
-        elif v.rule == "work_capacity" and v.where in by_where:
-            found = [by_where[v.where]]
+        elif (v.rule == "work_capacity" and v.person is not None
+              and (worked := (v.person, period_ix.get(v.period or "", -1))) in fte_of):
+            found = [worked]
         elif table == "hires" and line is not None and line in rows["hires"]:
             row = rows["hires"][line]
             hire_causes.append((ix, row.office, row.skill, period_ix[row.start_period]))

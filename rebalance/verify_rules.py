@@ -83,7 +83,11 @@ class Violation:
     and which ``name_kind`` of name it should hold, so a caller need not read the message
     back.  A coverage figure only out of date because of an earlier violation ``follows`` it
     (the first, where several apply: the rest are ``also_follows``); a seats excess says the
-    office and period (index) it is ``at``, so a report can join a run."""
+    office and period (index) it is ``at``, so a report can join a run.  Where it is about
+    one ``person`` or one ``period`` (a work row, a person's capacity, a seats excess, a
+    coverage row: its ``where`` says them) it names them, and a coverage figure names its
+    ``figure_column`` ("staff_output_fte"; ``column`` stays an unknown name's alone), so a
+    report need not read them back out of the text."""
 
     rule: str
     where: str
@@ -96,6 +100,9 @@ class Violation:
     also_follows: tuple[Violation, ...] = ()
     table: str = ""
     line: int | None = None
+    person: str | None = None
+    period: str | None = None
+    figure_column: str | None = None
 
     def __str__(self) -> str:
         """As a planner reads it: the file first (once), the rule in words last, no code."""

@@ -629,6 +629,25 @@ def test_the_same_seats_excess_over_consecutive_periods_reads_as_one_problem(tin
     assert lines[0] == f"verification failed: {len(found) - 1} problems"
 
 
+def test_a_violation_names_its_person_period_and_coverage_column_as_fields(tiny_plan):
+    # The rule itself (no outside source): the console had read a cause's person out of its
+    # where ("person a1 in ..."), a knock-on's column out of its message's first word and a
+    # run's last period out of its where; verify now says them.  tests/data/tiny: a1 works
+    # 1.0 in 2027-Q4 (work.csv:5), so 1.5 there is over a1's FTE and moves A's review output.
+    instance, result = tiny_plan
+    work = result.plan.work.copy()
+    work.loc[3, ["fte", "output_fte"]] = 1.5
+    found = verify_plan(instance, replace(result.plan, work=work))
+    assert [(v.rule, v.person, v.period, v.figure_column) for v in found] == [
+        ("work_capacity", "a1", "2027-Q4", None),
+        ("coverage_staff_output", None, "2027-Q4", "staff_output_fte")]
+    assert found[1].follows == found[0]  # linked on the fields, not on the where
+    seats = consistent(instance, result.plan, hires=add_rows(
+        result.plan.hires, hire("B", "review", "2027-Q2", 6, "new", 48000.0, 360000.0)))
+    assert [(v.at, v.period) for v in verify_plan(instance, seats) if v.rule == "seats"] == [
+        (("B", 1), "2027-Q2"), (("B", 2), "2027-Q3"), (("B", 3), "2027-Q4")]
+
+
 def test_a_seats_run_breaks_at_a_gap_another_office_excess_or_cause(tiny_plan):
     # The rule itself (no outside source): one run is one office, consecutive periods, the
     # same message and the same cause; other violations between its periods do not break it.
@@ -737,15 +756,17 @@ def test_a_coverage_row_with_several_causes_is_under_the_first_and_names_the_oth
 
 def test_a_coverage_rows_other_causes_are_named_by_person_or_row_past_two_counted():
     # The rule itself (no outside source): a person's name where a cause is about one, else
-    # its file and row; the first two named and the rest counted, once each.
+    # its file and row; the first two named and the rest counted, once each.  Both are read
+    # from the fields verify sets (person; table and line), not from where or file.
     from rebalance.report.console import problem_lines
     from rebalance.verify import Violation
     from rebalance.verify_causes import group_problems
 
     people = [Violation("work_location", f"person p{n} in 2027-Q1", "works at B but is at A",
-                        file=f"work.csv:{n + 2}") for n in range(4)]
+                        file=f"work.csv:{n + 2}", table="work", line=n + 2, person=f"p{n}",
+                        period="2027-Q1") for n in range(4)]
     hire = Violation("hire_cost", "1 review at A from 2027-Q1", "count 2 disagrees",
-                     file="plans/x/hires.csv:2")
+                     file="plans/x/hires.csv:2", table="hires", line=2)
     row = Violation("coverage_staff_output", "review at A in 2027-Q1", "staff_output_fte off",
                     file="coverage.csv:2", follows=people[0],
                     also_follows=(*people[1:], hire))

@@ -6,7 +6,6 @@ import math
 import textwrap
 from collections.abc import Sequence
 from dataclasses import replace
-from pathlib import PurePath
 
 import numpy as np
 import pandas as pd
@@ -512,7 +511,7 @@ def problem_lines(problem: ViolationGroup) -> tuple[str, list[str]]:
     row): it is listed under the first only."""
     under = []
     for first, *rest in problem.under:
-        also = [other.message.split(" ", 1)[0] for other in rest]
+        also = [other.figure_column or other.rule for other in rest]
         tail = f", and {and_list(also)} with it" if also else ""
         others = _cause_names(first, *rest)
         if others:
@@ -528,10 +527,11 @@ def _cause_names(*figures: Violation) -> list[str]:
     person's name where the cause is about one, else its plan file and row."""
 
     def name(cause: Violation) -> str:
-        words = cause.where.split(" ")
-        if words[0] == "person" and len(words) > 1:
-            return words[1]
-        return PurePath(cause.file).name or cause.where
+        if cause.person is not None:
+            return cause.person
+        if cause.table:
+            return f"{cause.table}.csv" + ("" if cause.line is None else f":{cause.line}")
+        return cause.where
 
     first = {name(v.follows) for v in figures if v.follows is not None}
     names = dict.fromkeys(name(cause) for v in figures for cause in v.also_follows)
@@ -540,9 +540,9 @@ def _cause_names(*figures: Violation) -> list[str]:
 
 def _run_text(first: Violation, *rest: Violation) -> str:
     """A violation, or a run of it over consecutive periods ("B in 2027-Q2 to 2027-Q4 (3
-    periods): 7 seats used; 6 exist"): its ``where`` names the office, then the period."""
+    periods): 7 seats used; 6 exist"): its ``where`` ends with its first period, and the last
+    is named by ``period``."""
     if rest:
-        office = "" if first.at is None else first.at[0]
-        last = rest[-1].where.removeprefix(f"{office} in ")
+        last = rest[-1].period or rest[-1].where
         first = replace(first, where=f"{first.where} to {last} ({len(rest) + 1} periods)")
     return str(first)

@@ -179,3 +179,30 @@ def test_the_head_line_agrees_with_its_counts_of_figures_and_problems():
     assert head == ("verification failed: 3 problems; 1 figure in 1 coverage.csv row differs "
                     "because of some of them and is shown under the first problem it follows "
                     "from")
+
+
+def test_the_grouped_lines_read_person_column_and_period_from_fields_not_text():
+    # The rule itself (no outside source): a reworded where or message must not change what
+    # the grouped lines name; each Violation here says one thing in its text, another in its
+    # fields, and the fields win.
+    from rebalance.report.console import format_violations
+    from rebalance.verify import Violation
+
+    def moved(line: int, person: str) -> Violation:
+        return Violation("work_location", f"row of {person.upper()}", "works at B but is at A",
+                         file=f"plans/x/work.csv:{line}", table="work", line=line,
+                         person=person, period="2027-Q1")
+
+    a1, b1 = moved(2, "a1"), moved(9, "b1")
+    hire = Violation("hire_cost", "person z9 hired", "count 2 disagrees",
+                     file="elsewhere.csv", table="hires", line=2)
+    figures = [Violation("coverage_staff_output", "review at A in 2027-Q1", f"{word} changed",
+                         file="coverage.csv:2", follows=a1, also_follows=(b1, hire),
+                         table="coverage", line=2, period="2027-Q1", figure_column=column)
+               for word, column in (("output", "staff_output_fte"), ("cover", "covered_fte"))]
+    seats = [Violation("seats", f"B, period {t}", "8 seats used; 6 exist", file="hires.csv",
+                       at=("B", t), table="hires", period=f"2027-Q{t + 1}") for t in (1, 2, 3)]
+    lines = format_violations([a1, b1, hire, *figures, *seats]).splitlines()
+    assert lines[2] == ("      so coverage.csv:2: review at A in 2027-Q1: output changed, and "
+                        "covered_fte with it (it also follows from b1 and hires.csv:2)")
+    assert lines[-1].startswith("  - hires.csv: B, period 1 to 2027-Q4 (3 periods): 8 seats")

@@ -25,9 +25,9 @@ from rebalance.solve import SolveOptions, SolveResult, StageResult, Status, solv
 from rebalance.verify import Violation, verify_plan
 
 __all__ = ["BUILD_STAGE", "PlanResult", "RunRate", "make_plan", "new_position_salaries",
-           "options_from_instance", "plan_run_rate", "plan_warnings", "run_rate_consequence",
-           "run_rate_note", "run_rate_warning", "summary_dict", "write_outputs",
-           "write_plan_files"]
+           "new_position_salary_per_year", "options_from_instance", "plan_run_rate",
+           "plan_warnings", "run_rate_consequence", "run_rate_note", "run_rate_warning",
+           "summary_dict", "write_outputs", "write_plan_files"]
 
 
 # The one stage of a run cut short while its model was built (no solver stage ran).
@@ -180,19 +180,28 @@ def summary_dict(result: PlanResult) -> dict[str, Any]:
     return out
 
 
+def new_position_salary_per_year(instance: Instance, skill: str, count: int) -> float:
+    """What ``count`` new positions of ``skill`` cost in salary a year after the horizon:
+    count x the skill's salary per period x periods per year (a skill the instance lacks
+    costs 0: a plan naming one fails verification, and its report is still drawn)."""
+    return count * _salary_per_period(instance, skill) * instance.periods_per_year
+
+
+def _salary_per_period(instance: Instance, skill: str) -> float:
+    return next((float(s.salary_per_period) for s in instance.skills if s.name == skill), 0.0)
+
+
 def new_position_salaries(instance: Instance, plan: Plan) -> pd.DataFrame:
-    """Yearly salary that the plan's new positions commit beyond the horizon, by skill:
-    hires funded as new positions x the skill's salary per period x periods per year."""
+    """Yearly salary that the plan's new positions commit beyond the horizon, by skill
+    (:func:`new_position_salary_per_year` of the hires funded as new positions)."""
     hires = plan.hires
     columns = ["skill", "positions", "salary_per_period", "per_year"]
     if hires.empty:
         return pd.DataFrame(columns=columns)
     new = hires[hires["funding"] == "new"].groupby("skill")["count"].sum()
-    salary = {s.name: s.salary_per_period for s in instance.skills}
-    per_year = instance.periods_per_year
     rows = [{"skill": skill, "positions": int(count),
-             "salary_per_period": float(salary.get(str(skill), 0.0)),
-             "per_year": int(count) * float(salary.get(str(skill), 0.0)) * per_year}
+             "salary_per_period": _salary_per_period(instance, str(skill)),
+             "per_year": new_position_salary_per_year(instance, str(skill), int(count))}
             for skill, count in new.items() if count > 0]
     return pd.DataFrame(rows, columns=columns)
 

@@ -206,16 +206,16 @@ class ViolationGroup:
 
 def group_problems(violations: Sequence[Violation]) -> list[ViolationGroup]:
     """``violations`` as problems, in the order of each one's first violation: a run of
-    violations ``at`` one office in consecutive periods, with the same rule, file, message and
-    cause, is one; a violation that ``follows`` another goes under that one's problem.  Every
-    violation is in exactly one problem."""
+    violations ``at`` one office in consecutive periods, with the same rule, table and line
+    (file, where those are unset), message and cause, is one; a violation that ``follows``
+    another goes under that one's problem.  Every violation is in exactly one problem."""
     runs: list[list[Violation]] = []
     open_runs: dict[tuple[object, ...], list[Violation]] = {}  # a run the next period may join
     for v in violations:
         if v.at is None:
             runs.append([v])
             continue
-        key = (v.rule, v.file, v.message, v.follows, v.at[0])
+        key = (v.rule, _place(v), v.message, v.follows, v.at[0])
         run = open_runs.get(key)
         if run is not None and run[-1].at == (v.at[0], v.at[1] - 1):
             run.append(v)
@@ -241,10 +241,16 @@ def group_problems(violations: Sequence[Violation]) -> list[ViolationGroup]:
         if (head := top(ix)) == ix:
             listed.append(ix)
         else:  # a coverage row's figures read as one line; a run keeps its own
-            row = ix if run[0].at is not None else run[0].file
+            row = ix if run[0].at is not None else _place(run[0])
             under[head].setdefault(row, []).extend(run)
     return [ViolationGroup(tuple(runs[ix]), tuple(tuple(group) for group in under[ix].values()))
             for ix in listed]
+
+
+def _place(v: Violation) -> tuple[object, ...]:
+    """Which table and line ``v`` is about, as verify set them; its printed ``file`` where
+    it was built without them (summary.json's, or one made by hand)."""
+    return (v.table, v.line) if v.table else (v.file,)
 
 
 def first_problems(lines: Sequence[str], hint: str = "") -> list[str]:

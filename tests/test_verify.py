@@ -804,3 +804,30 @@ def test_costs_lines_come_in_the_files_order_whatever_the_hash_seed(tiny_plan, t
     [out] = runs
     lines = [int(line.split("costs.csv:")[1].split(":")[0]) for line in out.splitlines()]
     assert len(lines) >= 2 and lines == sorted(lines)
+
+
+def test_problems_are_grouped_on_the_table_and_line_verify_sets_not_the_printed_file():
+    # The rule itself (no outside source): a violation verify made says its table and line;
+    # its printed file may differ (with or without the plan's folder) and still be one place.
+    # One built without them (summary.json's) is placed by its printed file.
+    from rebalance.verify import Violation
+    from rebalance.verify_causes import group_problems
+
+    def seats(t, file, table="hires"):
+        return Violation("seats", f"B in P{t}", "8 seats used; 6 exist", file=file,
+                         at=("B", t), table=table)
+
+    run = group_problems([seats(0, "plans/a/hires.csv"), seats(1, "hires.csv")])
+    assert [len(p.run) for p in run] == [2]
+    apart = group_problems([seats(0, "hires.csv", ""), seats(1, "plans/a/hires.csv", "")])
+    assert [len(p.run) for p in apart] == [1, 1]
+    cause = Violation("hire_cost", "1 review at B from P0", "count 2 disagrees",
+                      file="hires.csv:2", table="hires", line=2)
+    figures = [Violation("coverage_hire_output", "review at B in P0", f"{column} off",
+                         file=file, follows=cause, table="coverage", line=3)
+               for column, file in (("hire_output_fte", "coverage.csv:3"),
+                                    ("covered_fte", "plans/a/coverage.csv:3"))]
+    [problem] = group_problems([cause, *figures])
+    assert problem.under == (tuple(figures),)  # one coverage row, one line under its cause
+    loose = [replace(v, table="", line=None) for v in figures]
+    assert group_problems([cause, *loose])[0].under == tuple((v,) for v in loose)

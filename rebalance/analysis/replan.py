@@ -40,14 +40,17 @@ from rebalance.planning import PlanResult, make_plan
 from rebalance.solve import SolveOptions
 from rebalance.verify import verify_plan
 
-__all__ = ["CHANGE_COLUMNS", "SPLIT_TOLERANCE_FTE", "DisruptionCosts", "Replan", "ReplanError",
-           "plan_measures", "replan", "work_split_changes"]
+__all__ = ["CHANGE_COLUMNS", "REPLAN_COLUMNS", "SPLIT_TOLERANCE_FTE", "DisruptionCosts", "Replan",
+           "ReplanError", "plan_measures", "replan", "work_split_changes"]
 
 # Verifier rules about the old plan's own figures, not about what it does.
 BOOKKEEPING = frozenset({"costs", "hire_cost", "detail_cost", "reassignment_cost"})
 # ``reason``: why, from the data and both plans (change_reasons), one short sentence.
 CHANGE_COLUMNS = ("change", "kind", "who", "skill", "period", "old", "new", "disruption_cost",
                   "reason")
+# replan.csv's columns as written here: one row per measure.  A re-plan with a plan made
+# ahead adds planned_ahead.AHEAD_COLUMN after them.
+REPLAN_COLUMNS = ("measure", "old_plan", "new_plan", "difference")
 
 # The default rates, made once as a call in the signature was (ruff B008 cannot see
 # that the dataclass, imported from replan_model, is frozen).
@@ -65,7 +68,7 @@ class Replan:
     at: int
     result: PlanResult
     changes: pd.DataFrame   # CHANGE_COLUMNS, one row per change (``changes.csv``)
-    summary: pd.DataFrame   # measure, old_plan, new_plan, difference (``replan.csv``)
+    summary: pd.DataFrame   # REPLAN_COLUMNS, one row per measure (``replan.csv``)
     disruption_cost: float
     old_plan_violations: tuple[str, ...]
     notes: tuple[str, ...] = ()
@@ -349,4 +352,4 @@ def _summary(instance: Instance, old: Plan, old_now: Plan, new: Plan | None,
     split = float(work_split_changes(instance, old, new, at)) if new is not None else math.nan
     rows.append(("work_split_changes", 0.0, split, split))
     rows.append(("disruption_cost", 0.0, disruption, disruption))
-    return pd.DataFrame(rows, columns=["measure", "old_plan", "new_plan", "difference"])
+    return pd.DataFrame(rows, columns=list(REPLAN_COLUMNS))

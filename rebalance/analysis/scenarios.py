@@ -40,6 +40,7 @@ __all__ = [
     "HELD_BACK_COLUMN",
     "LIMITS_SAID",
     "OFFICE_COLUMNS",
+    "SCENARIO_COST_COLUMNS",
     "SUMMARY_COLUMNS",
     "Comparison",
     "changed_offices",
@@ -52,6 +53,8 @@ __all__ = [
 
 OFFICE_COLUMNS = ("scenario", "office", "demand_fte_periods", "shortfall_fte_periods",
                   "weighted_shortfall")
+# scenario_costs.csv's columns: each plan's costs.csv rows, named by scenario.
+SCENARIO_COST_COLUMNS = ("scenario", "year", "kind", "cost")
 
 
 @dataclass(frozen=True)
@@ -342,7 +345,7 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
                      **_budget_columns(instance, variant, base_plan, result.plan), **summary})
         office_rows += _office_rows(name, result, variant)
     table = pd.DataFrame(rows)
-    costs = pd.DataFrame(cost_rows, columns=["scenario", "year", "kind", "cost"])
+    costs = pd.DataFrame(cost_rows, columns=list(SCENARIO_COST_COLUMNS))
     actions_frame = actions_table(actions, names[1:], action_reasons)
     offices = pd.DataFrame(office_rows, columns=list(OFFICE_COLUMNS))
     return Comparison(names, tuple(results), table, costs, actions_frame, offices, explained)

@@ -32,6 +32,7 @@ from rebalance.plan import budget_lines
 from rebalance.planning import (
     BUILD_STAGE,
     new_position_salaries,
+    new_position_salary_per_year,
     plan_run_rate,
     run_rate_consequence,
     run_rate_note,
@@ -441,10 +442,9 @@ def render_html(data: ReportData) -> str:
         "moves", "Who moves where",
         "Temporary details (blue) and permanent reassignments (purple), from home office on the "
         "left to the office helped on the right.", moves_body))
-    salary = {s.name: s.salary_per_period for s in inst.skills}
     hires = [[r["office"], r["skill"], r["start_period"], int(r["count"]), r["funding"],
               _m(r["onboarding_cost"]), _m(r["salary_cost"]),
-              _m(int(r["count"]) * salary.get(str(r["skill"]), 0.0) * inst.periods_per_year)
+              _m(new_position_salary_per_year(inst, str(r["skill"]), int(r["count"])))
               if r["funding"] == "new" else (0.0, "-")]
              for r in records(plan.hires)]
     sections.append(plan_section(

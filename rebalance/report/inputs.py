@@ -18,10 +18,11 @@ import pandas as pd
 
 from rebalance.analysis.frontier import FRONTIER_COLUMNS
 from rebalance.analysis.marginal import MARGINAL_COLUMNS
+from rebalance.analysis.planned_ahead import AHEAD_COLUMN
 from rebalance.analysis.reasons import REASON_COLUMNS
-from rebalance.analysis.replan import CHANGE_COLUMNS
+from rebalance.analysis.replan import CHANGE_COLUMNS, REPLAN_COLUMNS
 from rebalance.analysis.scenario_actions import ACTION_COLUMNS, REASON_COLUMN
-from rebalance.analysis.scenarios import OFFICE_COLUMNS
+from rebalance.analysis.scenarios import OFFICE_COLUMNS, SCENARIO_COST_COLUMNS
 from rebalance.instance import Instance
 from rebalance.numbers import gap_text
 from rebalance.plan import Plan, read_plan
@@ -88,14 +89,17 @@ TABLE_FILES: dict[str, str] = {
 SHEET_ONLY = frozenset({"scenario_costs", "scenario_offices"})
 # The columns each analysis table's writer gives it, so a header written but for case
 # ("Scenario", " SCENARIO ") reads as named (known_case), as the instance's and the plan
-# tables' do.  scenarios.csv (columns by cap, kind of cost and year), scenario_costs.csv and
-# replan.csv have no such list where they are written: their headers are read as written.
+# tables' do (replan.csv's planned_ahead only where a re-plan wrote it).  scenarios.csv has
+# no such list where it is written (columns by cap, kind of cost and year): its headers are
+# read as written.
 TABLE_COLUMNS: dict[str, tuple[str, ...]] = {
     "frontier": FRONTIER_COLUMNS,
     "marginal_values": MARGINAL_COLUMNS,
     "reasons": REASON_COLUMNS,
+    "replan": (*REPLAN_COLUMNS, AHEAD_COLUMN),
     "changes": CHANGE_COLUMNS,
     "scenario_actions": (*ACTION_COLUMNS, REASON_COLUMN),
+    "scenario_costs": SCENARIO_COST_COLUMNS,
     "scenario_offices": OFFICE_COLUMNS,
 }
 

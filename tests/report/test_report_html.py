@@ -551,3 +551,20 @@ def test_the_page_lists_the_first_problems_as_the_console_does_and_counts_the_re
     flat = problem_list([], ["costs.csv:4: says 1; recomputed 2"])
     assert "<li>costs.csv:4: says 1; recomputed 2</li>" in flat and "Showing" not in flat
     assert "knock-ons" not in flat and problem_list([], []) == ""
+
+
+def test_a_hire_rows_salary_a_year_after_the_horizon_is_plannings_rule():
+    # Hand-worked on tests/data/tiny: review costs 20,000 a quarter, four quarters a year, and
+    # the plan's one hire is a new review position at B: 80,000 a year after the horizon, the
+    # figure new_position_salaries gives by skill (tests/report/test_report_audit.py).
+    from rebalance.planning import new_position_salaries, new_position_salary_per_year
+
+    instance = read_instance(TINY)
+    assert new_position_salary_per_year(instance, "review", 1) == 80_000
+    assert new_position_salary_per_year(instance, "review", 3) == 240_000
+    assert new_position_salary_per_year(instance, "no such skill", 2) == 0
+    folder = tiny_plan_folder()
+    assert new_position_salaries(instance, read_plan(folder))["per_year"].tolist() == [80_000]
+    row = re.search(r'data-table="hires">.*?<tbody><tr>(.*?)</tr>', _page(folder))
+    assert row is not None
+    assert re.findall(r'data-v="([^"]+)"', row.group(1))[-1] == "80000.0"

@@ -13,8 +13,11 @@ from report_cases import TINY, tiny_plan_folder
 
 from rebalance import read_instance
 from rebalance.analysis.frontier import FRONTIER_COLUMNS
+from rebalance.analysis.planned_ahead import AHEAD_COLUMN
 from rebalance.analysis.reasons import REASON_COLUMNS
+from rebalance.analysis.replan import REPLAN_COLUMNS
 from rebalance.analysis.scenario_actions import ACTION_COLUMNS, REASON_COLUMN
+from rebalance.analysis.scenarios import SCENARIO_COST_COLUMNS
 from rebalance.report.inputs import report_data_from_folder
 
 
@@ -59,3 +62,24 @@ def test_a_column_beside_its_own_name_but_for_case_stays_as_written(tmp_path):
         folder / "scenario_actions.csv", index=False)
     data = report_data_from_folder(folder, read_instance(TINY))
     assert list(dict(data.tables)["scenario_actions"].columns) == columns
+
+
+def test_replan_and_scenario_costs_read_their_writers_columns_ignoring_case(tmp_path):
+    # replan.csv and scenario_costs.csv had been read as written, their writers building the
+    # columns inline.  replan.csv has planned_ahead only from a re-plan with a plan made
+    # ahead: read either way, as the other analysis tables are.
+    folder = _folder(tmp_path)
+    replan = (*REPLAN_COLUMNS, AHEAD_COLUMN)
+    for file, columns in {"replan.csv": replan,
+                          "scenario_costs.csv": SCENARIO_COST_COLUMNS}.items():
+        pd.DataFrame([[f"v{i}" for i in range(len(columns))]],
+                     columns=_shouted(columns)).to_csv(folder / file, index=False)
+    assert " PLANNED_AHEAD " in (folder / "replan.csv").read_text(encoding="utf-8")
+    read = dict(report_data_from_folder(folder, read_instance(TINY)).tables)
+    assert list(read["replan"].columns) == list(replan)
+    assert list(read["scenario_costs"].columns) == list(SCENARIO_COST_COLUMNS)
+    assert read["replan"].iloc[0].tolist() == [f"v{i}" for i in range(len(replan))]
+    pd.DataFrame([[f"v{i}" for i in range(len(REPLAN_COLUMNS))]],
+                 columns=_shouted(REPLAN_COLUMNS)).to_csv(folder / "replan.csv", index=False)
+    read = dict(report_data_from_folder(folder, read_instance(TINY)).tables)
+    assert list(read["replan"].columns) == list(REPLAN_COLUMNS)

@@ -3,16 +3,18 @@ the limits that keep it from being covered.
 
 Reasons are read off the plan tables and the instance (never off solver objects), so they can
 be checked the way the verifier checks a plan.  A shortfall cites only limits that
-:func:`rebalance.analysis.limits.limit_use` shows binding, and only those that could matter to
-it: a hire that could cover it is stopped by hiring budgets, hiring slots, seats or time to
-hire; a detail by the away share at offices with people of the skill, the moves budget of that
-year, or seats at the office.  Budgets and slots are cited only where they stop every start
+:func:`rebalance.analysis.limits.limit_use` shows binding (a hiring budget: one with less left
+than a start that could cover it costs that year), and only those that could matter to it: a
+hire that could cover it is stopped by hiring budgets, hiring slots, seats or time to hire; a
+detail by the away share at offices with people of the skill, the moves budget of that year,
+or seats at the office.  Budgets, slots and seats are cited only where they stop every start
 that could cover it (:meth:`_Binding.budgets_holding`).
 """
 
 from __future__ import annotations
 
 from collections import defaultdict
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import pandas as pd
@@ -353,7 +355,7 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
         rows.append(("reassignment", p, b, skill, per, names[T - 1], 1.0, text, ""))
 
     # -- shortfalls: the binding limits that could matter -------------------------------------
-    limits = _Binding(instance, binding)
+    limits = _Binding(instance, uses)
     for (o, k, t), short in sorted(ctx.short.items(), key=lambda kv: (kv[0][2], kv[0])):
         if short <= _EPS:
             continue
@@ -405,18 +407,23 @@ class _Binding:
     every person (a generated large plan's reasons took 8 s of the 10 s ``plan`` keeps for
     writing its files, most of it there; 0.6 s now)."""
 
-    def __init__(self, instance: Instance, binding: list[LimitUse]) -> None:
+    def __init__(self, instance: Instance, uses: Sequence[LimitUse]) -> None:
         self.i = instance
         self.names = instance.period_names
+        binding = [u for u in uses if u.binding]
         # By scope, and an away share by period too (a large plan's shortfalls each met the
-        # away shares of dozens of offices in every period).
+        # away shares of dozens of offices in every period); numbered in limit_use's order.
+        # Every hiring budget is here, bound or not: one with room for the cheapest hire
+        # anywhere may still hold back the hire a shortfall needs (budgets_holding).
         self.by_scope: dict[tuple[str, str], list[tuple[int, LimitUse]]] = defaultdict(list)
-        for n, u in enumerate(binding):
-            self.by_scope[(u.where, u.period if u.limit == "away_share" else "")].append((n, u))
+        for n, u in enumerate(uses):
+            if u.binding or u.limit == "hiring_budget":
+                self.by_scope[(u.where, u.period if u.limit == "away_share" else "")].append(
+                    (n, u))
         self.words: dict[LimitUse, str] = {}
-        # What a hire needs and may find full: a hiring budget's year, an office's slots in a
-        # period, an office's funded vacancies of a skill.
-        self.full_budgets = {u.where for u in binding if u.limit == "hiring_budget"}
+        # What a hire needs and may find short: what each capped year's hiring budget has
+        # left, an office's slots in a period, an office's funded vacancies of a skill.
+        self.budget_left = {u.where: u.cap - u.used for u in uses if u.limit == "hiring_budget"}
         self.full_slots = {(u.where, u.period) for u in binding if u.limit == "max_hires"}
         self.no_vacancy = {u.where for u in binding if u.limit == "vacancies"}
         # By skill and home office: the last period a person who could be detailed to cover
@@ -439,19 +446,21 @@ class _Binding:
         return self.words[use]
 
     def budgets_holding(self, office: str, skill: str, t: int) -> set[str]:
-        """The years whose full hiring budget holds back a hire of ``skill`` at ``office``
-        covering period ``t``: none where some start from the time to hire to ``t`` pays
-        nothing into a full year (a funded vacancy left pays onboarding only, in its start
-        year); else the years whose lifting alone would free the start needing fewest lifted.
-        Every year a start could pay into had been cited: 2027's full budget for a 2028
-        shortfall that a 2028 start, paid from 2028's unspent budget, could cover (a planner's
-        reading of the demo's harbour surge)."""
+        """The years whose hiring budget holds back a hire of ``skill`` at ``office`` covering
+        period ``t``: a year holds a start back where it has less left than that start costs
+        it (as a change's reason tests it; a funded vacancy left pays onboarding only, in its
+        start year).  None where some start from the time to hire to ``t`` is held back by no
+        year; else the years whose lifting would free the starts held back by fewest.  Every
+        year a start could pay into had been cited (2027's for a 2028 shortfall that a 2028
+        start could cover), and a year with room for the cheapest hire anywhere none (2028
+        with 12,000 left, against the 51,000 an inspection hire there costs)."""
         instance = self.i
         vacancy = (instance.vacancies.get((office, skill), 0) > 0
                    and f"{skill} at {office}" not in self.no_vacancy)
-        blocked = [self.full_budgets & set(instance.hire_cost_by_year(
-            skill, s, new_position=not vacancy)) for s in range(instance.skill(
-                skill).time_to_hire, t + 1)]
+        blocked = [{year for year, cost in instance.hire_cost_by_year(
+            skill, s, new_position=not vacancy).items()
+            if year in self.budget_left and cost > self.budget_left[year] + _EPS}
+            for s in range(instance.skill(skill).time_to_hire, t + 1)]
         if not blocked or not all(blocked):
             return set()
         fewest = min(len(years) for years in blocked)
@@ -469,8 +478,10 @@ class _Binding:
         # Slots hold a hire back only where every start that could cover ``t`` finds them
         # full: 2027-Q4's full slots had been cited for a 2028 shortfall a 2028 start covers.
         slots_all_full = all((office, p) in self.full_slots for p in hire_periods)
-        seat_periods = {names[s] for s in range(tth, T)} if hire_possible else set()
-        seat_periods.add(names[t])
+        # Seats full from ``t`` on hold back a detail then and every start that could cover
+        # it (the latest holds a seat from ``t``); full only before ``t``, no start from ``t``
+        # finds them so (seats full until 2028-Q2 had been cited for a 2028-Q4 shortfall).
+        seat_periods = {names[s] for s in range(t, T)} if hire_possible else {names[t]}
         sources = {home for home, last in self.last_present.get(skill, {}).items()
                    if home != office and t <= last}
         year = instance.periods[t].year

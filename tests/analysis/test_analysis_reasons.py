@@ -316,39 +316,43 @@ def test_a_detail_run_says_which_of_its_periods_meet_a_gap(tiny) -> None:
     assert "so the detail meets no gap there" in none and "-period gap" not in none
 
 
-def _relevant_by_scan(instance: Instance, binding: list[LimitUse], office: str, skill: str,
+def _relevant_by_scan(instance: Instance, uses: list[LimitUse], office: str, skill: str,
                       t: int) -> list[LimitUse]:
     """The limits a shortfall cites, found as reasons.py found them before it looked limits
-    up by scope (a scan of every binding limit and every person per shortfall, kept here as
-    the reference for the faster look-up)."""
+    up by scope (a scan of every limit and every person per shortfall, kept here as the
+    reference for the faster look-up)."""
     names = instance.period_names
     T = len(names)
+    binding = [u for u in uses if u.binding]
     tth = instance.skill(skill).time_to_hire
     hire_possible = tth <= t
     hire_periods = {names[s] for s in range(tth, t + 1)}
-    # A budget or slot holds a hire back only where every start that could cover t finds
-    # one full (a planner's reading of the demo's harbour surge): by brute force over the
-    # starts and the years each pays into (onboarding in the start year; a new position's
-    # salary in every year from it, docs/model.md; a funded vacancy left: onboarding only).
-    full = {u.where for u in binding if u.limit == "hiring_budget"}
+    # A budget holds a start back where the year has less left than the start costs it; it
+    # is cited only where every start that could cover t is held back (a planner's reading
+    # of the demo): by brute force over the starts, pricing each year by hand (onboarding in
+    # the start year; a new position's salary in every period from it, docs/model.md; a
+    # funded vacancy left: onboarding only).
+    left = {u.where: u.cap - u.used for u in uses if u.limit == "hiring_budget"}
     vacancy = instance.vacancies.get((office, skill), 0) > 0 and not any(
         u.limit == "vacancies" and u.where == f"{skill} at {office}" for u in binding)
-    salary = instance.skill(skill).salary_per_period > 0
-    onboarding = instance.skill(skill).onboarding_cost > 0
+    k = instance.skill(skill)
     blocked = []
     for s in range(tth, t + 1):
-        paid = {instance.periods[x].year for x in range(s, T) if salary and not vacancy}
-        if onboarding:
-            paid.add(instance.periods[s].year)
-        blocked.append(paid & full)
+        cost: dict[str, float] = {}
+        cost[instance.periods[s].year] = k.onboarding_cost
+        for x in range(s, T):
+            if not vacancy:
+                year = instance.periods[x].year
+                cost[year] = cost.get(year, 0.0) + k.salary_per_period
+        blocked.append({y for y, c in cost.items() if y in left and c > left[y] + 1e-6})
     hire_years: set[str] = set()
     if blocked and all(blocked):
         least = min(map(len, blocked))
         hire_years = set().union(*(b for b in blocked if len(b) == least))
     slots_full = all(any(u.limit == "max_hires" and u.where == office and u.period == p
                          for u in binding) for p in hire_periods)
-    seat_periods = {names[s] for s in range(tth, T)} if hire_possible else set()
-    seat_periods.add(names[t])
+    # Seats full from t on hold back a detail then and every start (the latest from t).
+    seat_periods = {names[s] for s in range(t, T)} if hire_possible else {names[t]}
     sources = {p.home_office for p in instance.staff
                if p.home_office != office and p.can_detail and p.is_present(t)
                and p.proficiency(skill) > 0}
@@ -361,7 +365,8 @@ def _relevant_by_scan(instance: Instance, binding: list[LimitUse], office: str, 
         "moves_budget": lambda u: bool(sources) and u.where == instance.periods[t].year,
         "vacancies": lambda u: hire_possible and u.where == f"{skill} at {office}",
     }
-    return [u for u in binding if u.limit in keep and keep[u.limit](u)]
+    return [u for u in uses if (u.binding or u.limit == "hiring_budget")
+            and u.limit in keep and keep[u.limit](u)]
 
 
 @settings(max_examples=10, deadline=None, suppress_health_check=[HealthCheck.too_slow])
@@ -375,11 +380,11 @@ def test_shortfalls_cite_what_a_scan_of_every_limit_and_person_finds(seed: int) 
     instance, result = feasible_random(seed, people=6, periods=4)
     plan = result.plan
     assert plan is not None
-    binding = [u for u in limit_use(instance, plan) if u.binding]
+    uses = list(limit_use(instance, plan))
     names = list(instance.period_names)
     table = reasons(instance, plan).table
     for _, row in table[table["action"] == "shortfall"].iterrows():
-        cited = _relevant_by_scan(instance, binding, str(row["office"]), str(row["skill"]),
+        cited = _relevant_by_scan(instance, uses, str(row["office"]), str(row["skill"]),
                                   names.index(str(row["first_period"])))
         assert (row["binding_limits"] or "") == ";".join(limit_key(u) for u in cited)
 
@@ -467,3 +472,32 @@ def test_a_full_budget_or_slot_a_later_start_avoids_is_not_cited() -> None:
     assert cited(slots, 3) == ["max_hires port-ilse-harbour 2027-Q3",
                                "max_hires port-ilse-harbour 2027-Q4"]
     assert cited(slots, 7) == []
+
+
+def test_a_budget_is_cited_by_what_this_start_costs_and_seats_from_the_shortfall_on() -> None:
+    # A reviewer's check of the demo re-plan: 2028 had 12,000 left, room for the cheapest
+    # hire anywhere (a vacancy's onboarding), so no shortfall cited it, while the change
+    # reasons said a 51,000 hire did not fit; and seats full until 2028-Q2 were cited for a
+    # 2028-Q4 shortfall, which a start in 2028-Q4 (holding a seat from then) escapes.
+    # instances/demo: technical_review takes two quarters to hire and port-ilse-harbour has
+    # no funded vacancy, so every start pays salary in 2028 (docs/model.md, hiring budget).
+    from conftest import ROOT
+
+    from rebalance import read_instance
+    from rebalance.analysis.reasons import _Binding
+
+    demo = read_instance(ROOT / "instances" / "demo")
+    office, skill = "port-ilse-harbour", "technical_review"
+
+    def cited(uses: list[LimitUse], t: int) -> list[str]:
+        return [f"{u.limit} {u.where} {u.period}".strip()
+                for u in _Binding(demo, uses).relevant(office, skill, t)]
+
+    little = LimitUse("hiring_budget", "2028", "", 1_388_000.0, 1_400_000.0, False)
+    plenty = LimitUse("hiring_budget", "2028", "", 400_000.0, 1_400_000.0, False)
+    assert cited([little], 7) == ["hiring_budget 2028"]
+    assert cited([plenty], 7) == []
+    seats = [LimitUse("seats", office, p, 40.0, 40.0, True)
+             for p in ("2027-Q3", "2027-Q4", "2028-Q1", "2028-Q2")]
+    assert cited(seats, 7) == []
+    assert cited(seats, 5) == ["seats port-ilse-harbour 2028-Q2"]

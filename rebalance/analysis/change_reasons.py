@@ -249,8 +249,26 @@ def _dropped_detail(f: _Facts, person: str, route: str, skill: str, t: int) -> s
     there = _without_them(f, person, office, skill, t)
     if f.ctx.short.get((office, skill, t), 0.0) <= _EPS:
         return f"{doing}; {there}"
-    why = _meets_no_less(f, person, home, office, skill, t) or _held_back(f, person, office, t)
+    why = (_replaced_on_route(f, person, home, office, skill, t)
+           or _meets_no_less(f, person, home, office, skill, t)
+           or _held_back(f, person, office, t))
     return f"{doing}; {there}; {why}"
+
+
+def _replaced_on_route(f: _Facts, person: str, home: str, office: str, skill: str,
+                       t: int) -> str:
+    """Who the new plan details from the same home to ``office`` in ``t`` for ``skill`` in
+    their place (the one giving most there), with both proficiencies; "" where no one.  A
+    swap on one route had read as held back by the moves budget."""
+    old = f.old_visitors.get((office, skill, t), {})
+    new = f.new_visitors.get((office, skill, t), {})
+    others = [(out, q) for q, out in new.items() if q != person and q not in old
+              and q in f.people and f.home(f.people[q], t) == home]
+    if not others:
+        return ""
+    _, q = max(others)
+    theirs, mine = f.people[q].proficiency(skill), f.people[person].proficiency(skill)
+    return f"replaced on the same route by {q} ({skill} {theirs:g} against their {mine:g})"
 
 
 def _rerouted_detail(f: _Facts, person: str, before: str, after: str, skill: str,

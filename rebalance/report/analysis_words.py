@@ -309,11 +309,11 @@ def _held_back_words(row: Any) -> str:
     if first is None or any(w is None for w in weights):
         return f", held back by {and_list(said)}"  # no weights to rank by
     tied = sum(1 for w in weights if fte_total_text(w or 0.0) == fte_total_text(first))
-    if tied == 1:
-        return f", held back mostly by {and_list(said)}"
-    cited = f"each cited by {_cited_words(first, total)}"
+    cited = f"{'each ' if tied > 1 else ''}cited by {_cited_words(first, total)}"
     if tied == len(said):
         return f", held back by {and_list(said)}, {cited}"
+    # "Mostly" of the leaders alone: the storm's line had said it of a limit cited by a
+    # fifth of the new shortfall too.
     return (f", held back mostly by {and_list(said[:tied])}, {cited}, and less by "
             f"{and_list(said[tied:])}")
 

@@ -514,3 +514,28 @@ def test_a_replan_hands_its_own_shortfall_gap_to_the_change_reasons(tiny, monkey
         DemandChange(("B",), ("review",), (3,), multiplier=0.0),)))
     out = replan(calm, _tiny_base(tiny), 2, exact_options(calm))
     assert seen == [out.result.solve.shortfall_gap] and seen[0] is not None
+
+
+def test_a_detail_handed_to_a_colleague_on_the_same_route_says_so(tiny) -> None:
+    # A planner's reading of the demo comparison: E0097's detail hollin-cross ->
+    # port-ilse-harbour was dropped and E0103's added on the same route and period, and the
+    # reason had spoken of the moves budget.  By hand on tiny with B's Q4 review demand 2.0:
+    # the old plan (tiny's) details a2 (review 0.8) A -> B in Q4; the new details a1 (review
+    # 1.0) there instead (from Q3, dropping Q2), a2 staying at A.  B's Q4: a1's 1.0 and the
+    # hire's 0.5 of 2.0 leave 0.500 short, so the reason says who went in their place.
+    base = _tiny_base(tiny)
+    more = apply_scenario(tiny, Scenario("more", "", (
+        DemandChange(("B",), ("review",), (3,), multiplier=2.0),)))
+    details = pd.DataFrame({"person": ["a1", "a1"], "period": ["2027-Q3", "2027-Q4"],
+                            "from_office": ["A", "A"], "to_office": ["B", "B"],
+                            "cost": [5_000.0, 5_000.0]})
+    moved = {("a1", "2027-Q2"): "A", ("a1", "2027-Q4"): "B", ("a2", "2027-Q4"): "A"}
+    work = base.work.assign(office=[moved.get((p, t), o) for p, t, o in zip(
+        base.work["person"], base.work["period"], base.work["office"], strict=True)])
+    old = replace(base, coverage=coverage_table(more, base.work, base.hires))
+    new = replace(base, details=details, work=work,
+                  coverage=coverage_table(more, work, base.hires),
+                  costs=cost_table(more, details, base.reassignments, base.hires))
+    (why,) = _why(more, old, new, ("dropped", "detail", "a2", "review", "2027-Q4", "A -> B",
+                                   ""))
+    assert why.endswith("; replaced on the same route by a1 (review 1 against their 0.8)"), why

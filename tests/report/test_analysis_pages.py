@@ -322,8 +322,9 @@ def test_the_scenario_line_on_the_page_says_who_moves_and_what_holds_it_back(tmp
     table.to_csv(folder / "scenarios.csv", index=False)
     data = report_data_from_folder(folder, read_instance(TINY))
     section = html.unescape(_section(render_html(data), "scenarios"))
-    assert ("left short, held back mostly by seats at B (full 2027-Q2 to 2027-Q3) and the "
-            "hiring budget of 2027; moves for it: 3 detail-periods into B (3 from A); hires: "
+    assert ("left short, held back mostly by seats at B (full 2027-Q2 to 2027-Q3), cited by "
+            "4.0 FTE-periods of new shortfall there, and less by the hiring budget of 2027; "
+            "moves for it: 3 detail-periods into B (3 from A); hires: "
             "1 review at B brought forward from 2027-Q4 to 2027-Q2; 2 changes before the "
             "scenario's changes begin;") in section
     # Said in the lead, so the table leaves the keys out.

@@ -6,7 +6,8 @@ be checked the way the verifier checks a plan.  A shortfall cites only limits th
 :func:`rebalance.analysis.limits.limit_use` shows binding (a hiring budget: one with less left
 than a start that could cover it costs that year), and only those that could matter to it: a
 hire that could cover it is stopped by hiring budgets, hiring slots, seats or time to hire; a
-detail by the away share at offices with people of the skill, the moves budget of that year,
+detail by the away share at offices with people of the skill, the moves budget of that year
+(where what is left pays for no detail into the office),
 or seats at the office.  Budgets, slots and seats are cited only where they stop every start
 that could cover it (:meth:`_Binding.budgets_holding`).
 """
@@ -19,7 +20,7 @@ from dataclasses import dataclass
 
 import pandas as pd
 
-from rebalance.analysis.limits import LIMIT_NAMES, LimitUse, hire_rows, limit_use
+from rebalance.analysis.limits import BUDGET_LIMITS, LIMIT_NAMES, LimitUse, hire_rows, limit_use
 from rebalance.instance import Instance
 from rebalance.numbers import money_amount, number_text, share_of
 from rebalance.plan import Plan
@@ -413,17 +414,18 @@ class _Binding:
         binding = [u for u in uses if u.binding]
         # By scope, and an away share by period too (a large plan's shortfalls each met the
         # away shares of dozens of offices in every period); numbered in limit_use's order.
-        # Every hiring budget is here, bound or not: one with room for the cheapest hire
-        # anywhere may still hold back the hire a shortfall needs (budgets_holding).
+        # Every budget is here, bound or not: one with room for the cheapest hire or detail
+        # anywhere may still hold back the hire or detail a shortfall needs.
         self.by_scope: dict[tuple[str, str], list[tuple[int, LimitUse]]] = defaultdict(list)
         for n, u in enumerate(uses):
-            if u.binding or u.limit == "hiring_budget":
+            if u.binding or u.limit in BUDGET_LIMITS:
                 self.by_scope[(u.where, u.period if u.limit == "away_share" else "")].append(
                     (n, u))
         self.words: dict[LimitUse, str] = {}
         # What a hire needs and may find short: what each capped year's hiring budget has
         # left, an office's slots in a period, an office's funded vacancies of a skill.
         self.budget_left = {u.where: u.cap - u.used for u in uses if u.limit == "hiring_budget"}
+        self.moves_left = {u.where: u.cap - u.used for u in uses if u.limit == "moves_budget"}
         self.full_slots = {(u.where, u.period) for u in binding if u.limit == "max_hires"}
         self.no_vacancy = {u.where for u in binding if u.limit == "vacancies"}
         # By skill and home office: the last period a person who could be detailed to cover
@@ -503,7 +505,10 @@ class _Binding:
             elif u.limit == "away_share":
                 keep = u.where in sources and u.period == names[t]
             elif u.limit == "moves_budget":
-                keep = bool(sources) and u.where == year
+                # Where what is left pays for no detail from any office that could send one
+                # (2,000 left had paid for the cheapest detail anywhere, not one into here).
+                keep = bool(sources) and u.where == year and self.moves_left[year] < min(
+                    instance.detail_cost_per_period(home, office) for home in sources) - _EPS
             elif u.limit == "vacancies":
                 keep = hire_possible and u.where == f"{skill} at {office}"
             else:

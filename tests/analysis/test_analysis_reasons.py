@@ -362,10 +362,13 @@ def _relevant_by_scan(instance: Instance, uses: list[LimitUse], office: str, ski
         "max_hires": lambda u: slots_full and u.where == office and u.period in hire_periods,
         "seats": lambda u: u.where == office and u.period in seat_periods,
         "away_share": lambda u: u.where in sources and u.period == names[t],
-        "moves_budget": lambda u: bool(sources) and u.where == instance.periods[t].year,
+        # Less left than a detail from any office that could send one costs.
+        "moves_budget": lambda u: bool(sources) and u.where == instance.periods[t].year
+        and u.cap - u.used < min(instance.detail_cost_per_period(h, office)
+                                 for h in sources) - 1e-6,
         "vacancies": lambda u: hire_possible and u.where == f"{skill} at {office}",
     }
-    return [u for u in uses if (u.binding or u.limit == "hiring_budget")
+    return [u for u in uses if (u.binding or u.limit in ("hiring_budget", "moves_budget"))
             and u.limit in keep and keep[u.limit](u)]
 
 
@@ -501,3 +504,25 @@ def test_a_budget_is_cited_by_what_this_start_costs_and_seats_from_the_shortfall
              for p in ("2027-Q3", "2027-Q4", "2028-Q1", "2028-Q2")]
     assert cited(seats, 7) == []
     assert cited(seats, 5) == ["seats port-ilse-harbour 2028-Q2"]
+
+
+def test_a_moves_budget_is_cited_where_it_pays_for_no_detail_into_the_office() -> None:
+    # A reviewer's check of the demo: 1,500 of 2027's moves budget was left, enough for the
+    # cheapest detail anywhere (within one city, settings.toml) but for none into aldercombe
+    # (9,000 to 16,000 from other cities), and no shortfall there cited it.
+    # instances/demo: aldercombe is a city of its own (offices.csv); people of
+    # environmental_review who may go on detail are based elsewhere (staff.csv).
+    from conftest import ROOT
+
+    from rebalance import read_instance
+    from rebalance.analysis.reasons import _Binding
+
+    demo = read_instance(ROOT / "instances" / "demo")
+
+    def cited(uses: list[LimitUse]) -> list[str]:
+        return [f"{u.limit} {u.where}" for u in _Binding(demo, uses).relevant(
+            "aldercombe", "environmental_review", 1) if u.limit == "moves_budget"]
+
+    assert cited([LimitUse("moves_budget", "2027", "", 298_500.0, 300_000.0, False)]) == [
+        "moves_budget 2027"]
+    assert cited([LimitUse("moves_budget", "2027", "", 200_000.0, 300_000.0, False)]) == []

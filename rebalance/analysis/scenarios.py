@@ -130,7 +130,8 @@ def shortfall_by_cell(base: Plan) -> dict[tuple[str, str, str], float]:
 
 
 def held_back_by(variant: Instance, table: pd.DataFrame,
-                 before: dict[tuple[str, str, str], float], offices: Sequence[str]) -> str:
+                 before: dict[tuple[str, str, str], float], offices: Sequence[str],
+                 from_period: int = 0) -> str:
     """The limits the scenario's new shortfall at ``offices`` cites most (``reasons.csv``'s
     ``binding_limits`` of its plan), for ``scenarios.csv``: a planner's reading found the
     harbour surge's 19.9 FTE-periods left short explained only in the scenario's folder.
@@ -144,8 +145,12 @@ def held_back_by(variant: Instance, table: pd.DataFrame,
     every row cites from one that leads, where every row citing the same limits had read as
     "mostly" the first by name).
     ``table``: the scenario plan's reasons table (:func:`~rebalance.analysis.reasons.reasons`,
-    worked out once, as its folder's reasons.csv)."""
+    worked out once, as its folder's reasons.csv).  Rows before ``from_period`` (the first
+    period the scenario changes) are not weighed: a shortfall the solve moved about there is
+    no part of the scenario's (the harbour surge, from 2028, had named away share in
+    2027-Q2)."""
     rows = table[(table["action"] == "shortfall") & table["office"].astype(str).isin(offices)]
+    order = {p: t for t, p in enumerate(variant.period_names)}
     weight: dict[tuple[str, str], float] = {}
     total = 0.0
     wheres: dict[tuple[str, str], set[str]] = {}
@@ -155,7 +160,7 @@ def held_back_by(variant: Instance, table: pd.DataFrame,
                                      rows["amount"].astype(float),
                                      rows["binding_limits"].astype(str), strict=True):
         new = short - before.get((o, k, t), 0.0)
-        if new <= 1e-9:
+        if new <= 1e-9 or order.get(t, from_period) < from_period:
             continue
         total += new
         groups: set[tuple[str, str]] = set()
@@ -169,7 +174,6 @@ def held_back_by(variant: Instance, table: pd.DataFrame,
         # A row citing seats in five periods counts once for seats.
         for group in groups:
             weight[group] = weight.get(group, 0.0) + new
-    order = {p: t for t, p in enumerate(variant.period_names)}
     # As written: sums of the same rows in another order differ in float dust, not in rank.
     ranked = sorted(weight, key=lambda g: (-float(f"{weight[g]:.6g}"), g))[:LIMITS_SAID]
     return ";".join(
@@ -335,8 +339,9 @@ def compare_scenarios(instance: Instance, scenarios: Sequence[Scenario], options
                     BASE_AND_SCENARIO, shortfall_gap=_shortfall_gap(results[0], result))
                 summary = action_summary(base_plan, result.plan, instance.period_names,
                                          changed[name], offices_of[name], found)
-                summary[HELD_BACK_COLUMN] = held_back_by(variant, explained[name], base_short,
-                                                         offices_of[name])
+                summary[HELD_BACK_COLUMN] = held_back_by(
+                    variant, explained[name], base_short, offices_of[name],
+                    min(changed[name]) if changed[name] else 0)
             c = result.plan.costs
             for year, kind, cost in zip(c["year"].astype(str), c["kind"].astype(str),
                                         c["cost"].astype(float), strict=True):

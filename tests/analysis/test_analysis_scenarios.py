@@ -686,6 +686,11 @@ def test_held_back_by_ranks_the_limits_the_new_shortfall_cites(tiny) -> None:
     explained = reasons(variant, mine).table
     assert held_back_by(variant, explained, shortfall_by_cell(base), ("B",)) == (
         "hiring_budget|2027||1.5|1.5;away_share|A|2027-Q4|0.5|1.5")
+    # From 2027-Q4 on only (as if the scenario began then): 2027-Q3's new shortfall is not
+    # weighed (the harbour surge, from 2028, had named away share in 2027-Q2); the two
+    # limits left tie, so by name.
+    assert held_back_by(variant, explained, shortfall_by_cell(base), ("B",), 3) == (
+        "away_share|A|2027-Q4|0.5|0.5;hiring_budget|2027||0.5|0.5")
     # A's shortfall is the base's.
     assert held_back_by(variant, explained, shortfall_by_cell(base), ("A",)) == ""
 

@@ -526,3 +526,27 @@ def test_a_moves_budget_is_cited_where_it_pays_for_no_detail_into_the_office() -
     assert cited([LimitUse("moves_budget", "2027", "", 298_500.0, 300_000.0, False)]) == [
         "moves_budget 2027"]
     assert cited([LimitUse("moves_budget", "2027", "", 200_000.0, 300_000.0, False)]) == []
+
+
+def test_a_detail_from_a_short_office_says_it_meets_more_need_where_it_goes(tiny) -> None:
+    # A reviewer's check of the demo: E0066 was detailed from port-ilse-harbour, short itself,
+    # to port-ilse-central at the same priority, and the reason said "no gain visible
+    # (review)"; central would have lacked 1.000 FTE without them, harbour was 0.072 short.
+    # By hand on tests/data/tiny with every priority 1 and A's 2027-Q2 review demand 1.0:
+    # tiny's plan details a1 (review 1.0) A -> B in Q2 and Q3; B's review is 2.0 in both,
+    # b1 gives 1.0, so B would lack 1.0 each period without a1 (2.000 in all); A in Q2: a2
+    # gives 0.8 of 1.0, 0.200 short, which a1 could have met; A in Q3 is covered (0.5).
+    from rebalance.plan import coverage_table
+
+    level = tiny.with_changes(demand=tuple(
+        replace(d, priority=1.0, fte=1.0 if (d.office, d.skill, d.period) == ("A", "review", 1)
+                else d.fte) for d in tiny.demand))
+    base = solve_verified(tiny).plan
+    assert base is not None
+    plan = replace(base, coverage=coverage_table(level, base.work, base.hires))
+    table = reasons(level, plan).table
+    (text,) = table[(table["action"] == "detail") & (table["subject"] == "a1")]["reason"]
+    assert text.endswith(
+        "although A is short of review itself then: they meet more need at B (2.000 "
+        "FTE-periods of review it would lack without them) than they could at A (0.200 left "
+        "short there), priorities counted"), text

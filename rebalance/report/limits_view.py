@@ -122,7 +122,7 @@ def _over(use: LimitUse) -> bool:
 
 
 def _budget_text(uses: Sequence[LimitUse], currency: str | None, action: str) -> str:
-    used = [f"{u.where} {money_text(u.used)} of {money_amount(u.cap, currency)} used"
+    used = [f"{u.where} {money_text(u.used)} of {money_amount(u.cap, currency)} spent"
             for u in uses]
     if not any(_over(u) for u in uses):
         # "each": after two years' figures, the bracket had read as the last year's alone.

@@ -118,7 +118,7 @@ def test_tiny_limits_at_their_cap_match_a_hand_count():
         "details_in_a_row": {("a1", "")},
     }
     console = format_summary(result)
-    assert "hiring budget         2027 28,000 of 40,000 used (too little left for one more " \
+    assert "hiring budget         2027 28,000 of 40,000 spent (too little left for one more " \
            "hire)" in console
     assert "hiring slots          B 2027-Q4" in console
     assert "away share            A 2027-Q2 to 2027-Q4 (3 periods)" in console
@@ -294,10 +294,10 @@ def test_two_budget_years_at_their_cap_each_say_so():
     uses = [LimitUse("hiring_budget", "2027", "", 515_000.0, 520_000.0, True),
             LimitUse("hiring_budget", "2028", "", 1_392_000.0, 1_400_000.0, True)]
     assert _budget_text(uses, None, "hire") == (
-        "2027 515,000 of 520,000 used; 2028 1,392,000 of 1,400,000 used (each with too little "
+        "2027 515,000 of 520,000 spent; 2028 1,392,000 of 1,400,000 spent (each with too little "
         "left for one more hire)")
     assert _budget_text(uses[:1], None, "hire").endswith(
-        "used (too little left for one more hire)")
+        "spent (too little left for one more hire)")
 
 
 # -- short of staff yet sending people out: full seats explain it ---------------------------
@@ -434,7 +434,7 @@ def test_a_hire_count_edited_leaves_the_hiring_budget_at_the_files_figure():
     assert [r["spend"] for r in money if r["kind"] == "hiring"] == [28_000.0]
     line = next(line for line in limits_at_cap(result.instance, plan).lines
                 if line.kind == "hiring_budget")
-    assert line.text == "2027 28,000 of 40,000 used (too little left for one more hire)"
+    assert line.text == "2027 28,000 of 40,000 spent (too little left for one more hire)"
 
 
 def test_a_budget_used_past_its_cap_says_over_the_cap_not_too_little_left():
@@ -447,11 +447,11 @@ def test_a_budget_used_past_its_cap_says_over_the_cap_not_too_little_left():
     result, plan = _tiny_edited(1, 30_000.0)
     line = next(line for line in limits_at_cap(result.instance, plan).lines
                 if line.kind == "hiring_budget")
-    assert line.text == "2027 50,000 of 40,000 used: over the cap by 10,000"
+    assert line.text == "2027 50,000 of 40,000 spent: over the cap by 10,000"
     assert line.total == "1 budget year over the cap"
     # One year over, one within (the demo's figures with 2027 edited): each says its own.
     uses = [LimitUse("hiring_budget", "2027", "", 561_000.0, 520_000.0, True),
             LimitUse("hiring_budget", "2028", "", 1_392_000.0, 1_400_000.0, True)]
     assert _budget_text(uses, "EUR", "hire") == (
-        "2027 561,000 of 520,000 EUR used: over the cap by 41,000 EUR; 2028 1,392,000 of "
-        "1,400,000 EUR used: too little left for one more hire")
+        "2027 561,000 of 520,000 EUR spent: over the cap by 41,000 EUR; 2028 1,392,000 of "
+        "1,400,000 EUR spent: too little left for one more hire")

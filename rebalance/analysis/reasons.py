@@ -267,6 +267,10 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
     for p, per, a, b in zip(*(_texts(d[name]) for name in ("person", "period", "from_office",
                                                               "to_office")), strict=True):
         by_person[p].append((ix[per], a, b))
+    # What each detail period costs, as details.csv says: a run with no work there is
+    # priced in its reason.
+    detail_cost = {(p, ix[per]): c for p, per, c in zip(
+        _texts(d["person"]), _texts(d["period"]), _floats(d["cost"]), strict=True)}
     for p, items in sorted(by_person.items()):
         items.sort()
         start = items[0]
@@ -290,7 +294,12 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
         if replanned_at is not None and t2 < replanned_at:
             text = f"before the re-plan from {names[replanned_at]}: kept as it happened"
         elif not skill:
-            text = f"detail to {b}; no work recorded there (review)"
+            text = f"detail to {b}"  # the idle clause below says there is no work there
+            if not (replanned_at is not None and t1 < replanned_at <= t2):  # not under way
+                cost = sum(detail_cost.get((p, t), 0.0) for t in range(t1, t2 + 1))
+                text += (f"; it meets no demand there, and the plan would cost "
+                         f"{money_amount(cost, instance.money.currency)} less without it "
+                         "(review)")
         else:
             gap_periods = [t for t in range(T) if ctx.gap_without_visitors(b, skill, t) > _EPS]
             before = t1 - 1 in gap_periods

@@ -550,3 +550,21 @@ def test_a_detail_from_a_short_office_says_it_meets_more_need_where_it_goes(tiny
         "although A is short of review itself then: they meet more need at B (2.000 "
         "FTE-periods of review it would lack without them) than they could at A (0.200 left "
         "short there), priorities counted"), text
+
+
+def test_a_detail_with_no_work_there_says_what_it_costs(tiny) -> None:
+    # A reviewer's check of the demo storm plan: a detail carried over from the base with no
+    # work left read only "no work recorded there (review)"; dropping it would save 9,000.
+    # By hand on tests/data/tiny: tiny's plan details a1 A -> B in Q2 and Q3 at 5,000 a
+    # period (settings.toml); here a1 does no work in either, so the run meets nothing.
+    from rebalance.plan import coverage_table
+
+    base = solve_verified(tiny).plan
+    assert base is not None
+    away = (base.work["person"] == "a1") & base.work["period"].isin(["2027-Q2", "2027-Q3"])
+    work = base.work[~away].reset_index(drop=True)
+    plan = replace(base, work=work, coverage=coverage_table(tiny, work, base.hires))
+    table = reasons(tiny, plan).table
+    (text,) = table[(table["action"] == "detail") & (table["subject"] == "a1")]["reason"]
+    assert text.startswith("detail to B; it meets no demand there, and the plan would cost "
+                           "10,000 less without it (review); idle in 2027-Q2, 2027-Q3"), text

@@ -21,7 +21,7 @@ from dataclasses import dataclass
 import pandas as pd
 
 from rebalance.analysis.limits import BUDGET_LIMITS, LIMIT_NAMES, LimitUse, hire_rows, limit_use
-from rebalance.instance import Instance
+from rebalance.instance import Instance, Person
 from rebalance.numbers import money_amount, number_text, share_of
 from rebalance.plan import Plan
 
@@ -261,6 +261,7 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
                      names[T - 1], float(h.count), text, ""))
 
     # -- details: runs of consecutive periods on one route per person -----------------------
+    staff = {x.person: x for x in instance.staff}
     runs: list[tuple[str, str, str, int, int]] = []
     d = plan.details
     by_person: dict[str, list[tuple[int, str, str]]] = defaultdict(list)
@@ -328,7 +329,8 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
                 elif full:
                     source = (f"{short_too}: {a}'s seats are full ({', '.join(full)}), and a "
                               "person away frees a seat there")
-                elif meets := _meets_more(instance, ctx, p, a, b, skill, t1, t2, priority):
+                elif meets := _meets_more(instance, ctx, staff[p], a, b, skill, t1, t2,
+                                          priority):
                     source = f"{short_too}: {meets}"
                 else:
                     source = (f"{short_too}, at priority {number_text(at_a)} against "
@@ -351,7 +353,6 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
 
     # -- reassignments: a lasting gap at the new home -----------------------------------------
     r = plan.reassignments
-    staff = {x.person: x for x in instance.staff}
     for p, per, a, b, cost in zip(
             *(_texts(r[name]) for name in ("person", "period", "from_office", "to_office")),
             _floats(r["cost"]), strict=True):
@@ -414,17 +415,15 @@ def _early_start(instance: Instance, office: str, skill: str, s: int, first: int
             "(review)")
 
 
-def _meets_more(instance: Instance, ctx: _Context, person: str, home: str, office: str,
+def _meets_more(instance: Instance, ctx: _Context, who: Person, home: str, office: str,
                 skill: str, t1: int, t2: int, priority: dict[tuple[str, str, int], float]
                 ) -> str:
-    """Where ``person`` meets more priority-weighted need of ``skill`` at ``office`` in periods
+    """Where ``who`` meets more priority-weighted need of ``skill`` at ``office`` in periods
     ``t1`` to ``t2`` (what they give there, up to its gap without them) than they could at
     ``home`` (what they could give there, up to its shortfall), that in words; else "".  A
     detail from a short office had read "no gain visible (review)" where the destination
     would have been 1.3 FTE short without them and home was 0.07 short."""
-    who = next((x for x in instance.staff if x.person == person), None)
-    if who is None:
-        return ""
+    person = who.person
     there = here = 0.0
     there_w = here_w = 0.0
     for t in range(t1, t2 + 1):

@@ -368,7 +368,7 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
         rows.append(("reassignment", p, b, skill, per, names[T - 1], 1.0, text, ""))
 
     # -- shortfalls: the binding limits that could matter -------------------------------------
-    limits = _Binding(instance, uses)
+    limits = _Binding(instance, uses, replanned_at or 0)
     for (o, k, t), short in sorted(ctx.short.items(), key=lambda kv: (kv[0][2], kv[0])):
         if short <= _EPS:
             continue
@@ -446,8 +446,11 @@ class _Binding:
     every person (a generated large plan's reasons took 8 s of the 10 s ``plan`` keeps for
     writing its files, most of it there; 0.6 s now)."""
 
-    def __init__(self, instance: Instance, uses: Sequence[LimitUse]) -> None:
+    def __init__(self, instance: Instance, uses: Sequence[LimitUse],
+                 earliest_start: int = 0) -> None:
         self.i = instance
+        # A re-plan adds no start before the period it re-plans from.
+        self.earliest_start = earliest_start
         self.names = instance.period_names
         binding = [u for u in uses if u.binding]
         # By scope, and an away share by period too (a large plan's shortfalls each met the
@@ -500,21 +503,27 @@ class _Binding:
         blocked = [{year for year, cost in instance.hire_cost_by_year(
             skill, s, new_position=not vacancy).items()
             if year in self.budget_left and cost > self.budget_left[year] + _EPS}
-            for s in range(instance.skill(skill).time_to_hire, t + 1)]
+            for s in range(self._first_start(skill), t + 1)]
         if not blocked or not all(blocked):
             return set()
         fewest = min(len(years) for years in blocked)
         return {y for years in blocked if len(years) == fewest for y in years}
+
+    def _first_start(self, skill: str) -> int:
+        """The first period a hire of ``skill`` could start in: its time to hire, and in a
+        re-plan not before the period re-planned from (slots full then and after had gone
+        uncited for a start in the fixed past that was 'free' of them)."""
+        return max(self.i.skill(skill).time_to_hire, self.earliest_start)
 
     def relevant(self, office: str, skill: str, t: int) -> list[LimitUse]:
         """The binding limits that could matter to a shortfall of ``skill`` at ``office`` in
         period ``t``, in the order :func:`limit_use` gives them."""
         instance, names = self.i, self.names
         T = len(names)
-        tth = instance.skill(skill).time_to_hire
-        hire_possible = tth <= t
+        first = self._first_start(skill)
+        hire_possible = first <= t
         hire_years = self.budgets_holding(office, skill, t)
-        hire_periods = {names[s] for s in range(tth, t + 1)}
+        hire_periods = {names[s] for s in range(first, t + 1)}
         # Slots hold a hire back only where every start that could cover ``t`` finds them
         # full: 2027-Q4's full slots had been cited for a 2028 shortfall a 2028 start covers.
         slots_all_full = all((office, p) in self.full_slots for p in hire_periods)

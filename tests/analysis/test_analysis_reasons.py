@@ -568,3 +568,20 @@ def test_a_detail_with_no_work_there_says_what_it_costs(tiny) -> None:
     (text,) = table[(table["action"] == "detail") & (table["subject"] == "a1")]["reason"]
     assert text.startswith("detail to B; it meets no demand there, and the plan would cost "
                            "10,000 less without it (review); idle in 2027-Q2, 2027-Q3"), text
+
+
+def test_a_replan_counts_no_start_before_the_period_it_replans_from(tiny) -> None:
+    # A re-plan adds no hire before the period it re-plans from, so slots full from then on
+    # hold back every start it could make; a start in the fixed past had counted as free of
+    # them.  By hand on tests/data/tiny: review takes one period to hire (skills.csv), so a
+    # hire covering 2027-Q4 could start from 2027-Q2; re-planned from 2027-Q3, from 2027-Q3.
+    from rebalance.analysis.reasons import _Binding
+
+    slots = [LimitUse("max_hires", "B", p, 1.0, 1.0, True) for p in ("2027-Q3", "2027-Q4")]
+
+    def cited(earliest: int) -> list[str]:
+        return [f"{u.limit} {u.period}" for u in _Binding(tiny, slots, earliest).relevant(
+            "B", "review", 3)]
+
+    assert cited(0) == []
+    assert cited(2) == ["max_hires 2027-Q3", "max_hires 2027-Q4"]

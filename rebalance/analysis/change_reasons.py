@@ -205,11 +205,10 @@ def _held_back(f: _Facts, person: str, office: str, t: int, *, one_period: bool 
     cost = f.i.detail_cost_per_period(home, office) if home != office else 0.0
     if (budget is not None and f.limit("moves_budget", year) is None
             and budget.cap - budget.used < cost - _EPS):
+        # In reasons.csv's words for the budget, then what is left against this route.
         money = f.i.money.currency
-        left, used, cap = (money_amount(x, money) for x in (budget.cap - budget.used,
-                                                            budget.used, budget.cap))
-        found.append(f"the moves budget {year}, with {left} left ({used} of {cap} spent), "
-                     f"less than the {money_amount(cost, money)} a detail from {home} to "
+        found.append(f"{_describe(budget, f.i)}: {money_amount(budget.cap - budget.used, money)} "
+                     f"left, less than the {money_amount(cost, money)} a detail from {home} to "
                      f"{office} costs")
     # The verifier's rule: at most m detail periods in any m + 1 periods in a row.
     m = f.i.policy.max_consecutive_detail_periods or 0

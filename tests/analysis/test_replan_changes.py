@@ -450,9 +450,9 @@ def test_a_dropped_detail_names_a_moves_budget_short_of_its_route(tiny) -> None:
     (why,) = _why(dear, old, new, ("dropped", "detail", "a2", "review", "2027-Q4", "A -> B",
                                    ""))
     assert why.endswith(
-        "B is left 0.500 FTE short of review in 2027-Q4 (priority 2); held back by the moves "
-        "budget 2027, with 6,000 left (18,000 of 24,000 spent), less than the 9,000 a detail "
-        "from A to B costs"), why
+        "B is left 0.500 FTE short of review in 2027-Q4 (priority 2); held back by moves "
+        "budget 2027 (18,000 of 24,000 spent): 6,000 left, less than the 9,000 a detail from "
+        "A to B costs"), why
 
 
 def test_fewer_hires_of_one_funding_say_the_other_funding_starts_instead(tiny) -> None:

@@ -89,6 +89,12 @@ class SolveResult:
         be from the least, where :attr:`gap`, the largest, is mostly the cost stage's."""
         return next((s.gap for s in self.stages if s.name == "shortfall"), None)
 
+    @property
+    def gap_on_shortfall(self) -> float | None:
+        """How far the plan's shortfall may be from the least, as a share: the shortfall
+        stage's gap, or in weighted mode the whole objective's (:attr:`gap`)."""
+        return self.gap if self.shortfall_gap is None else self.shortfall_gap
+
 
 def solve(model: Model, options: SolveOptions, instance: Instance | None = None) -> SolveResult:
     """Solve ``model`` lexicographically (or weighted) within one overall time limit.

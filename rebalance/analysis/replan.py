@@ -123,10 +123,9 @@ def replan(instance: Instance, old: Plan, at: int, options: SolveOptions,
         new_reasons = reasons(instance, result.plan, replanned_at=at)
         # A change nothing in the tables explains may be where the re-plan's search stopped:
         # its own gap (the old plan was made for other data, so it has none here).
-        gap = result.solve.shortfall_gap
         changes["reason"] = change_reasons(instance, old, result.plan, changes, new_reasons,
                                            old_work_now=old_now.work,
-                                           shortfall_gap=result.solve.gap if gap is None else gap)
+                                           shortfall_gap=result.solve.gap_on_shortfall)
     else:
         changes = pd.DataFrame(columns=list(CHANGE_COLUMNS))
     # Priced from the person-level change table; equal to the model's change columns plus

@@ -277,9 +277,7 @@ def _row(name: str, description: str, result: PlanResult, instance: Instance,
 def _shortfall_gap(*results: PlanResult) -> float | None:
     """The largest relative gap on weighted shortfall of ``results``' solves (the whole
     objective's gap in weighted mode), None where none is known."""
-    gaps = [g for r in results
-            if (g := r.solve.shortfall_gap if r.solve.shortfall_gap is not None
-                else r.solve.gap) is not None]
+    gaps = [g for r in results if (g := r.solve.gap_on_shortfall) is not None]
     return max(gaps) if gaps else None
 
 

@@ -88,12 +88,9 @@ def test_the_summary_lists_problems_as_verify_does(tmp_path):
     assert text[at + 1 + len(said)] == ""  # nothing cut, nothing counted
 
 
-def test_the_summary_shows_the_first_20_problems_and_counts_the_rest():
-    # Past the cap in lines, each problem keeps its first 3 knock-on lines, as verify's list
-    # does (both cut by rebalance.verify_causes.first_problems).
-    from dataclasses import replace
-
-    from rebalance.report.console import KNOCK_ONS_SHOWN, PROBLEMS_SHOWN, format_summary
+def _one_cause_and(figures: int) -> tuple:
+    """A hire-cost violation with five knock-on coverage lines, then ``figures`` summary
+    figures each a problem of its own."""
     from rebalance.verify import Violation
 
     cause = Violation("hire_costs", "1 review at B from 2027-Q4", "onboarding cost differs",
@@ -101,8 +98,18 @@ def test_the_summary_shows_the_first_20_problems_and_counts_the_rest():
     rows = [Violation("coverage_hire_output", f"review at B in 2027-Q{q}", "hire_output_fte off",
                       file=f"coverage.csv:{q}", follows=cause) for q in range(1, 6)]
     others = [Violation("summary", f"figure {i}", "says 1; recomputed 2", file="summary.json")
-              for i in range(PROBLEMS_SHOWN + 4)]
-    text = format_summary(replace(_tiny_result(), violations=(cause, *rows, *others)))
+              for i in range(figures)]
+    return (cause, *rows, *others)
+
+
+def test_the_summary_shows_the_first_20_problems_and_counts_the_rest():
+    # Past the cap in lines, each problem keeps its first 3 knock-on lines, as verify's list
+    # does (both cut by rebalance.verify_causes.first_problems).
+    from dataclasses import replace
+
+    from rebalance.report.console import KNOCK_ONS_SHOWN, PROBLEMS_SHOWN, format_summary
+
+    text = format_summary(replace(_tiny_result(), violations=_one_cause_and(PROBLEMS_SHOWN + 4)))
     lines = text.splitlines()
     at = lines.index(f"  independent verification: FAILED ({PROBLEMS_SHOWN + 5} problems)")
     listed = lines[at + 1:lines.index("", at)]
@@ -121,16 +128,9 @@ def test_knock_ons_cut_under_the_cap_say_how_to_see_them_all():
     from dataclasses import replace
 
     from rebalance.report.console import KNOCK_ONS_SHOWN, format_summary
-    from rebalance.verify import Violation
 
-    cause = Violation("hire_costs", "1 review at B from 2027-Q4", "onboarding cost differs",
-                      file="hires.csv:2")
-    rows = [Violation("coverage_hire_output", f"review at B in 2027-Q{q}", "hire_output_fte off",
-                      file=f"coverage.csv:{q}", follows=cause) for q in range(1, 6)]
-    others = [Violation("summary", f"figure {i}", "says 1; recomputed 2", file="summary.json")
-              for i in range(15)]  # 21 lines, 16 problems: cut in lines, not in problems
-    lines = format_summary(replace(_tiny_result(), violations=(cause, *rows, *others))
-                           ).splitlines()
+    # 21 lines, 16 problems: cut in lines, not in problems.
+    lines = format_summary(replace(_tiny_result(), violations=_one_cause_and(15))).splitlines()
     assert (f"        ... and {5 - KNOCK_ONS_SHOWN} more under it; rebalance verify with --all "
             "lists every one") in lines
 

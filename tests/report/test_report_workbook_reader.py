@@ -642,15 +642,8 @@ def test_a_date_where_a_period_name_is_expected_is_one_problem_with_the_hint(tmp
         "period name; type the period name as text, e.g. 2027-Q1 (a spreadsheet reads "
         "2027-01-01 typed in a cell as a date)"]
 
-    book = folder_to_workbook(TINY, tmp_path / "named.xlsx")
-    wb = load_workbook(book)
-    for row in list(wb["settings"].iter_rows(min_row=2)):
-        if row[0].value in ("horizon.start", "horizon.count"):
-            row[0].value = row[1].value = None
-    periods = wb.create_sheet("periods")
-    periods.append(["name", "year", "hours_per_fte"])
-    for month in (1, 4, 7, 10):
-        periods.append([datetime.datetime(2027, month, 1), 2027, 480])
+    book, wb = _periods_workbook(tmp_path / "named.xlsx", [
+        (datetime.datetime(2027, month, 1), 2027, 480) for month in (1, 4, 7, 10)])
     for sheet in ("demand", "staff"):
         for row in wb[sheet].iter_rows(min_row=2):
             for cell in row:
@@ -840,10 +833,10 @@ def test_settings_keys_are_read_whatever_their_case_and_problems_in_row_order(tm
     assert len(rows) == 2 and rows == sorted(rows), rows
 
 
-def _book_with_periods(tmp_path, rows) -> list:
-    """The problems of tiny's workbook with a periods sheet of ``rows`` (name, year,
-    hours_per_fte) in place of horizon.start and count; demand and staff keep 2027-Qn."""
-    book = folder_to_workbook(TINY, tmp_path / "tiny.xlsx")
+def _periods_workbook(path, rows):
+    """Tiny's workbook at ``path`` and the open book, with a periods sheet of ``rows`` (name,
+    year, hours_per_fte) in place of horizon.start and count; the caller saves it."""
+    book = folder_to_workbook(TINY, path)
     wb = load_workbook(book)
     for row in list(wb["settings"].iter_rows(min_row=2)):
         if row[0].value in ("horizon.start", "horizon.count"):
@@ -852,6 +845,13 @@ def _book_with_periods(tmp_path, rows) -> list:
     periods.append(["name", "year", "hours_per_fte"])
     for row in rows:
         periods.append(list(row))
+    return book, wb
+
+
+def _book_with_periods(tmp_path, rows) -> list:
+    """The problems of tiny's workbook with a periods sheet of ``rows`` (name, year,
+    hours_per_fte) in place of horizon.start and count; demand and staff keep 2027-Qn."""
+    book, wb = _periods_workbook(tmp_path / "tiny.xlsx", rows)
     wb.save(book)
     with pytest.raises(InstanceError) as caught:
         read_workbook(book)

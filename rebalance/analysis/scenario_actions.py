@@ -232,8 +232,18 @@ def _hire_change(c: HireChange, ix: Mapping[str, int]) -> str:
     return "earlier" if ix.get(c.start, -1) < ix.get(c.moved_from, -1) else "later"
 
 
+def _route_keys(counts: Mapping[tuple[str, str], int]) -> str:
+    """``to|home|count`` keys joined by ``;``: offices with most first, then routes."""
+    into: dict[str, int] = defaultdict(int)
+    for (to, _), n in counts.items():
+        into[to] += n
+    ordered = sorted(counts.items(), key=lambda kv: (-into[kv[0][0]], kv[0][0], -kv[1],
+                                                     kv[0][1]))
+    return ";".join(f"{to}|{home}|{n}" for (to, home), n in ordered)
+
+
 # What :func:`action_summary` adds to a scenario's row of ``scenarios.csv``.
-SUMMARY_COLUMNS = ("details_added", "hires_changed", "changes_before")
+SUMMARY_COLUMNS = ("details_added", "details_dropped", "hires_changed", "changes_before")
 
 
 def action_summary(base: Plan, plan: Plan, periods: Sequence[str], changed: Sequence[int],
@@ -244,7 +254,9 @@ def action_summary(base: Plan, plan: Plan, periods: Sequence[str], changed: Sequ
     ``details_added``: detail periods the scenario's plan adds into the ``offices`` whose
     demand it changes, from the first period it changes on: by route and period, what the
     scenario sends beyond the base (another person on the same run is no change), as
-    ``to|home|count`` keys joined by ``;``, most first.  ``hires_changed``: each hire change
+    ``to|home|count`` keys joined by ``;``, most first.  ``details_dropped``: the same for
+    what the base sends there and the scenario's plan does not (a count of 7 added beside
+    2 dropped is a net 5, which a planner had asked after).  ``hires_changed``: each hire change
     of :func:`hire_changes` as ``change|office|skill|funding|start|base|scenario|moved_from``
     (change: ``more``, ``fewer``, or a move ``earlier`` or ``later``).
     ``changes_before``: the rows of :func:`action_rows` that fall before the scenario's
@@ -259,20 +271,17 @@ def action_summary(base: Plan, plan: Plan, periods: Sequence[str], changed: Sequ
         for (_, period), route in sent.items():
             if ix.get(period, -1) >= first:
                 runs[(route, period)] += sign
-    counts: dict[tuple[str, str], int] = defaultdict(int)
+    added: dict[tuple[str, str], int] = defaultdict(int)
+    dropped: dict[tuple[str, str], int] = defaultdict(int)
     for (route, _), n in runs.items():
         home, _, to = route.partition(" -> ")
-        if to in offices and n > 0:
-            counts[(to, home)] += n
-    into: dict[str, int] = defaultdict(int)
-    for (to, _), n in counts.items():
-        into[to] += n
-    details = sorted(counts.items(), key=lambda kv: (-into[kv[0][0]], kv[0][0], -kv[1],
-                                                     kv[0][1]))
+        if to in offices and n:
+            (added if n > 0 else dropped)[(to, home)] += abs(n)
     hires = hire_changes(a.hires, b.hires, lambda period: ix.get(period, -1))
     before = sum(1 for row in rows if row[ACTION_COLUMNS.index("when")] == "before")
     return {
-        "details_added": ";".join(f"{to}|{home}|{n}" for (to, home), n in details),
+        "details_added": _route_keys(added),
+        "details_dropped": _route_keys(dropped),
         "hires_changed": ";".join(f"{_hire_change(c, ix)}|{c.office}|{c.skill}|{c.funding}|"
                                   f"{c.start}|{c.before}|{c.after}|{c.moved_from or ''}"
                                   for c in hires),

@@ -320,7 +320,7 @@ def _held_back_words(row: Any) -> str:
 
 # The keyed columns of scenarios.csv that a scenario's line says in words
 # (rebalance.analysis.scenario_actions.SUMMARY_COLUMNS and scenarios.HELD_BACK_COLUMN).
-SUMMARY_KEYS = ("details_added", "hires_changed", "held_back_by")
+SUMMARY_KEYS = ("details_added", "details_dropped", "hires_changed", "held_back_by")
 # How many home offices of a destination, and hire changes, a scenario's line names.
 ACTIONS_SAID = 3
 HIRES_SAID = 2
@@ -356,22 +356,45 @@ def _hires_words(keys: list[list[str]], offices: Sequence[str]) -> str:
     return f"hires: {text}"
 
 
-def _moves_words(row: Any, offices: Sequence[str] = ()) -> str:
-    """Who moves for the scenario and what hires change (``details_added``,
-    ``hires_changed``, ``changes_before``), or "" where the table has no such columns.
-    ``offices``: those whose demand the scenario changes, where known."""
-    if not {"details_added", "hires_changed"} <= set(row._fields):
-        return ""
+def _routes(row: Any, column: str) -> dict[str, list[tuple[str, int]]]:
+    """A ``to|home|count`` column of the row by destination, in the table's order."""
     into: dict[str, list[tuple[str, int]]] = {}
-    for key in _keys(row, "details_added"):
+    for key in _keys(row, column):
         to, home, n = [*key, "", "", "0"][:3]
         into.setdefault(to, []).append((home, int(float(n))))
-    moves = []
-    for to, homes in into.items():
-        total = sum(n for _, n in homes)
-        sources = ", ".join(f"{n} from {home}" for home, n in homes[:ACTIONS_SAID])
-        moves.append(f"{total:,} detail-period{'s' if total != 1 else ''} into {to} "
-                     f"({sources}{_more(len(homes) - ACTIONS_SAID, 'office')})")
+    return into
+
+
+def _details_into(to: str, added: list[tuple[str, int]],
+                  dropped: list[tuple[str, int]]) -> str:
+    """"7 detail-periods into B (4 from A, 3 from C), 2 dropped: net +5": a planner had read
+    the added count alone as what the scenario sends there."""
+    def counted(routes: list[tuple[str, int]]) -> tuple[int, str]:
+        sources = ", ".join(f"{n} from {home}" for home, n in routes[:ACTIONS_SAID])
+        return (sum(n for _, n in routes),
+                f"({sources}{_more(len(routes) - ACTIONS_SAID, 'office')})")
+
+    total, sources = counted(added)
+    said = f"{total:,} detail-period{'s' if total != 1 else ''} into {to} {sources}"
+    if not dropped:
+        return said
+    fewer, their_sources = counted(dropped)
+    if not added:
+        return (f"{fewer:,} fewer detail-period{'s' if fewer != 1 else ''} into {to} "
+                f"{their_sources}")
+    return f"{said}, {fewer:,} dropped {their_sources}: net {total - fewer:+,}"
+
+
+def _moves_words(row: Any, offices: Sequence[str] = ()) -> str:
+    """Who moves for the scenario and what hires change (``details_added``,
+    ``details_dropped``, ``hires_changed``, ``changes_before``), or "" where the table has no
+    such columns.  ``offices``: those whose demand the scenario changes, where known."""
+    if not {"details_added", "hires_changed"} <= set(row._fields):
+        return ""
+    dropped = _routes(row, "details_dropped")
+    added = _routes(row, "details_added")
+    moves = [_details_into(to, added.get(to, []), dropped.get(to, []))
+             for to in [*added, *(to for to in dropped if to not in added)]]
     said = "moves for it: " + (and_list(moves) if moves else "no detail added into its offices")
     said += f"; {_hires_words(_keys(row, 'hires_changed'), offices)}"
     early = int(_number(row, "changes_before") or 0)

@@ -552,16 +552,26 @@ def test_action_summary_of_hand_made_plans() -> None:
     # Reference: counted by hand; the scenario changes B's demand in 2027-Q2 and 2027-Q3.
     # Into B from then on: p3 and p4 from A, p5 from C (p1 and p2 as in the base; p6 is
     # before; p7 goes to C; p10 takes p9's place on the same run in 2027-Q4).  B's hire
-    # starts two periods earlier; A gets two more.  Before: p6's detail, one row.
+    # starts two periods earlier; A gets two more.  Before: p6's detail, one row.  Nothing
+    # the base sends into B from 2027-Q2 on is dropped (p9's run goes on with p10).
     found = action_rows("s", base, plan, PERIODS, (1, 2))
     assert action_summary(base, plan, PERIODS, (1, 2), ("B",), found) == {
         "details_added": "B|A|2;B|C|1",
+        "details_dropped": "",
         "hires_changed": ("more|A|intake|new|2027-Q3|0|2|;"
                           "earlier|B|review|new|2027-Q2|1|1|2027-Q4"),
         "changes_before": 1}
     # Other offices' demand: nothing sent to C counts for B's, and the other way round.
     assert action_summary(base, plan, PERIODS, (1, 2), ("C",), found)["details_added"] == (
         "C|A|1")
+    # Counted by hand: without p10, the run A -> B in 2027-Q4 is one the scenario drops;
+    # without p4, the scenario adds one detail-period from A into B, not two.
+    fewer = _plan(details=[("p1", "2027-Q2", "A", "B"), ("p3", "2027-Q2", "A", "B"),
+                           ("p2", "2027-Q3", "C", "B"), ("p5", "2027-Q3", "C", "B"),
+                           ("p6", "2027-Q1", "A", "B"), ("p7", "2027-Q3", "A", "C")])
+    summary = action_summary(base, fewer, PERIODS, (1, 2), ("B",),
+                             action_rows("s", base, fewer, PERIODS, (1, 2)))
+    assert (summary["details_added"], summary["details_dropped"]) == ("B|A|1;B|C|1", "B|A|1")
 
 
 def test_the_scenario_line_says_who_moves_and_what_holds_the_shortfall_back() -> None:
@@ -597,11 +607,21 @@ def test_the_scenario_line_says_who_moves_and_what_holds_the_shortfall_back() ->
     assert ("hires: 1 review at B brought forward from 2027-Q4 to 2027-Q2 (1 change "
             "elsewhere); 6 changes") in line
     # Nothing moved or hired, nothing before; a table written before the columns says less.
-    frame.loc[1, ["details_added", "hires_changed", "changes_before"]] = [None, None, 0]
+    # Hand-made keys: 7 added and 2 dropped into B is a net 5; only dropped reads "fewer".
+    frame.loc[1, ["details_added", "details_dropped"]] = ["B|A|4;B|C|3", "B|A|2"]
+    (line,) = scenario_lines(frame)
+    assert ("moves for it: 7 detail-periods into B (4 from A, 3 from C), 2 dropped (2 from "
+            "A): net +5; hires") in line
+    frame.loc[1, ["details_added", "details_dropped"]] = [None, "B|A|2"]
+    (line,) = scenario_lines(frame)
+    assert "moves for it: 2 fewer detail-periods into B (2 from A); hires" in line
+    frame.loc[1, ["details_added", "details_dropped", "hires_changed", "changes_before"]] = [
+        None, None, None, 0]
     (line,) = scenario_lines(frame)
     assert "moves for it: no detail added into its offices; hires as the base's; short" in line
-    (line,) = scenario_lines(frame.drop(columns=["details_added", "hires_changed",
-                                                 "changes_before", "held_back_by"]))
+    (line,) = scenario_lines(frame.drop(columns=["details_added", "details_dropped",
+                                                 "hires_changed", "changes_before",
+                                                 "held_back_by"]))
     assert "moves for it" not in line and "held back" not in line
 
 

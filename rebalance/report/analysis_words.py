@@ -275,24 +275,31 @@ def _limit_phrase(kind: str, wheres: str, periods: str, previous: str) -> str:
     return f"{name} {at}" + (f" {span}" if span else "")
 
 
-def _cited_words(weight: float, total: float | None) -> str:
+def _cited_words(weight: float, total: float | None, net: float | None = None) -> str:
     """How much of the new shortfall cites a limit: "all the new shortfall there", or
     "12.5 of the 20.6 FTE-periods of new shortfall there" (without the total, written before
-    that field: "12.5 FTE-periods of new shortfall there")."""
+    that field: "12.5 FTE-periods of new shortfall there").  Where the total is not the
+    ``net`` shortfall the line has just said, it says how it is counted: a planner had asked
+    why 21.1 FTE-periods of new shortfall sat beside 19.9 left short."""
     text = fte_total_text(weight)
     if total is None:
         return f"{text} FTE-periods of new shortfall there"
+    counted = ""
+    if net is not None and fte_total_text(total) != fte_total_text(net):
+        counted = (" (counted in each office, skill and period where shortfall rose, while the "
+                   f"{fte_total_text(net)} above is net of any that fell)")
     if text == fte_total_text(total):
-        return "all the new shortfall there"
-    return f"{text} of the {fte_total_text(total)} FTE-periods of new shortfall there"
+        return f"all the new shortfall there{counted}"
+    return f"{text} of the {fte_total_text(total)} FTE-periods of new shortfall there{counted}"
 
 
-def _held_back_words(row: Any) -> str:
+def _held_back_words(row: Any, net: float | None = None) -> str:
     """What holds the scenario's new shortfall back (``held_back_by``), or "" where the table
     has no such column or names no limit.  "Mostly" only of what leads by the new shortfall
     citing it, as written: the harbour surge's every row cited seats, slots and budgets alike,
     and "held back mostly by the hiring budget of 2027" had ranked a tie by name.  Tied
-    limits are said together with how much cites each."""
+    limits are said together with how much cites each; ``net``: the shortfall the line says
+    is left short."""
     said: list[str] = []
     weights: list[float | None] = []
     total: float | None = None
@@ -309,7 +316,7 @@ def _held_back_words(row: Any) -> str:
     if first is None or any(w is None for w in weights):
         return f", held back by {and_list(said)}"  # no weights to rank by
     tied = sum(1 for w in weights if fte_total_text(w or 0.0) == fte_total_text(first))
-    cited = f"{'each ' if tied > 1 else ''}cited by {_cited_words(first, total)}"
+    cited = f"{'each ' if tied > 1 else ''}cited by {_cited_words(first, total, net)}"
     if tied == len(said):
         return f", held back by {and_list(said)}, {cited}"
     # "Mostly" of the leaders alone: the storm's line had said it of a limit cited by a
@@ -463,7 +470,7 @@ def scenario_lines(frame: pd.DataFrame, currency: str | None = None,
         if plain is not None and base_plain is not None:
             short = plain - base_plain
             covered = _covered_words(more, short)
-            parts[0] += covered + (_held_back_words(row) if "short" in covered else "")
+            parts[0] += covered + (_held_back_words(row, short) if "short" in covered else "")
             shortfall = (f"shortfall {_signed(short, fte_total_text(short))} FTE-periods, "
                          f"weighted {_signed(w_diff, fte_total_text(w_diff))}")
         moves = _moves_words(row, [o for o, _ in where])

@@ -666,6 +666,13 @@ def test_the_scenario_line_says_mostly_only_of_a_limit_that_leads() -> None:
         "new shortfall there, and less by the hiring budget of 2028")
     # Weights written as the same figure tie (sums of the same rows in another order).
     assert "each cited" in said("seats|B||12.5000001|19.9;max_hires|B||12.5|19.9")
+    # New shortfall of 21.1 where it rose beside 19.9 left short, net (the demo's harbour
+    # surge): the line says how each is counted.
+    assert said("seats|B|2028-Q1|20.6|21.1;hiring_budget|2028||2|21.1") == (
+        ", held back mostly by seats at B (full in 2028-Q1), cited by 20.6 of the 21.1 "
+        "FTE-periods of new shortfall there (counted in each office, skill and period where "
+        "shortfall rose, while the 19.9 above is net of any that fell), and less by the hiring "
+        "budget of 2028")
 
 
 def test_held_back_by_ranks_the_limits_the_new_shortfall_cites(tiny) -> None:

@@ -139,7 +139,8 @@ def held_back_by(variant: Instance, table: pd.DataFrame,
     A shortfall row weighs what it is above the base plan's shortfall in the same office,
     skill and period (``before``: :func:`shortfall_by_cell` of the base plan).  A limit is
     its kind and office (a budget: its kind, every year together), ranked by the weight of
-    the rows citing it (ties by name); at most :data:`LIMITS_SAID`, as
+    the rows citing it (ties by name); at most :data:`LIMITS_SAID` and any tied with the last
+    of them, as
     ``kind|where,where|period,period|fte|of_fte`` joined by ``;`` (periods in horizon order;
     ``of_fte``: the new shortfall of all the rows weighed, so the words can tell a limit
     every row cites from one that leads, where every row citing the same limits had read as
@@ -175,11 +176,15 @@ def held_back_by(variant: Instance, table: pd.DataFrame,
         for group in groups:
             weight[group] = weight.get(group, 0.0) + new
     # As written: sums of the same rows in another order differ in float dust, not in rank.
-    ranked = sorted(weight, key=lambda g: (-float(f"{weight[g]:.6g}"), g))[:LIMITS_SAID]
+    written = {g: float(f"{w:.6g}") for g, w in weight.items()}
+    ranked = sorted(weight, key=lambda g: (-written[g], g))
+    # Limits tied with the last one said are said too: a cut by name would pick among equals.
+    kept = ranked[:LIMITS_SAID]
+    kept += [g for g in ranked[LIMITS_SAID:] if kept and written[g] == written[kept[-1]]]
     return ";".join(
         f"{kind}|{','.join(sorted(wheres[(kind, w)]))}|"
         f"{','.join(sorted(periods.get((kind, w), set()), key=lambda p: order.get(p, -1)))}|"
-        f"{weight[(kind, w)]:.6g}|{total:.6g}" for kind, w in ranked)
+        f"{weight[(kind, w)]:.6g}|{total:.6g}" for kind, w in kept)
 
 
 # The base's description in scenarios.csv, beside each scenario's own.

@@ -722,6 +722,27 @@ def test_held_back_by_ranks_the_limits_the_new_shortfall_cites(tiny) -> None:
     assert held_back_by(variant, explained, shortfall_by_cell(base), ("A",)) == ""
 
 
+def test_held_back_by_says_every_limit_tied_with_the_last_it_says(tiny) -> None:
+    from rebalance.analysis.scenarios import LIMITS_SAID, held_back_by
+
+    # A hand-made reasons table: row 1 (2.0 new) cites seats and slots at B; row 2 (1.0 new)
+    # cites vacancies and away share at A and the 2027 hiring budget, all three alike.
+    # Weighed by hand: seats 2.0, slots 2.0, then three at 1.0; the third said ties with
+    # the fourth and fifth, which a cut by name had left out.
+    table = pd.DataFrame({
+        "action": ["shortfall", "shortfall"], "office": ["B", "B"],
+        "skill": ["review", "review"], "first_period": ["2027-Q3", "2027-Q4"],
+        "amount": [2.0, 1.0],
+        "binding_limits": ["seats|B|2027-Q3;max_hires|B|2027-Q3",
+                           "vacancies|B|;away_share|A|2027-Q4;hiring_budget|2027|"]})
+    said = held_back_by(tiny, table, {}, ("B",)).split(";")
+    assert LIMITS_SAID == 3 and [key.split("|")[0] for key in said] == [
+        "max_hires", "seats", "away_share", "hiring_budget", "vacancies"]
+    # Without the tie, three.
+    table.loc[1, "binding_limits"] = "away_share|A|2027-Q4"
+    assert len(held_back_by(tiny, table, {}, ("B",)).split(";")) == 3
+
+
 def test_compare_works_out_each_plans_reasons_once(tmp_path: Path, monkeypatch) -> None:
     # reasons() had run twice on each scenario's plan: for scenarios.csv's held_back_by and
     # again for the scenario folder's reasons.csv.  Counted where each caller looks it up:

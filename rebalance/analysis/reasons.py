@@ -296,7 +296,11 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
             text = f"before the re-plan from {names[replanned_at]}: kept as it happened"
         elif not skill:
             text = f"detail to {b}"  # the idle clause below says there is no work there
-            if not (replanned_at is not None and t1 < replanned_at <= t2):  # not under way
+            full = [names[t] for t in range(t1, t2 + 1) if (a, names[t]) in seats_full]
+            if full:  # the seat it frees is its use (it had read "review")
+                text += (f"; it meets no demand there, but {a}'s seats are full "
+                         f"({', '.join(full)}), and a person away frees a seat there")
+            elif not (replanned_at is not None and t1 < replanned_at <= t2):  # not under way
                 cost = sum(detail_cost.get((p, t), 0.0) for t in range(t1, t2 + 1))
                 text += (f"; it meets no demand there, and the plan would cost "
                          f"{money_amount(cost, instance.money.currency)} less without it "

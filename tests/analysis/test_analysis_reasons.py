@@ -568,6 +568,16 @@ def test_a_detail_with_no_work_there_says_what_it_costs(tiny) -> None:
     (text,) = table[(table["action"] == "detail") & (table["subject"] == "a1")]["reason"]
     assert text.startswith("detail to B; it meets no demand there, and the plan would cost "
                            "10,000 less without it (review); idle in 2027-Q2, 2027-Q3"), text
+    # With A's seats full while a1 is away (2 seats for a2 and a3 in 2027-Q2 and 2027-Q3;
+    # hand-made, so A is over them in 2027-Q1 and 2027-Q4, which these reasons do not
+    # read), the seat the detail frees is its use, not a case for review.
+    seated = tiny.with_changes(offices=tuple(
+        replace(o, seats=2) if o.name == "A" else o for o in tiny.offices))
+    table = reasons(seated, plan).table
+    (text,) = table[(table["action"] == "detail") & (table["subject"] == "a1")]["reason"]
+    assert text.startswith("detail to B; it meets no demand there, but A's seats are full "
+                           "(2027-Q2, 2027-Q3), and a person away frees a seat there; idle "
+                           "in 2027-Q2, 2027-Q3"), text
 
 
 def test_a_replan_counts_no_start_before_the_period_it_replans_from(tiny) -> None:

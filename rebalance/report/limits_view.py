@@ -3,8 +3,9 @@ against, and what its new positions cost every year once the horizon ends.
 
 Both come from the plan's tables and the instance alone.  Which limits are at their cap is
 :func:`rebalance.analysis.limits.limit_use`'s answer (the one ``rebalance marginal`` and the
-reasons stand on), so the summary can never name a limit those call slack, and each limit
-goes by its name there (:data:`rebalance.analysis.limits.LIMIT_NAMES`); only the rule on
+reasons stand on), so the summary names no limit those call slack but one: a moves budget
+with money left for a detail within one location and for none between two, which stops
+every move between cities (:func:`_local_only`).  Each limit goes by its name there (:data:`rebalance.analysis.limits.LIMIT_NAMES`); only the rule on
 details in a row is counted here, as neither that module nor the verifier (whose check only
 flags an overrun, inside its private checker) exposes how close a plan comes to it.  The
 salaries and their warning are :mod:`rebalance.planning`'s (summary.json carries the
@@ -56,6 +57,8 @@ SHORT_YET_AWAY = "away while short"
 # Its own lead: under LIMITS_LEAD ("each is at its cap, so more of it could help") it had read
 # as one more cap.
 SHORT_YET_AWAY_LEAD = "not a cap, but what full seats do to an office short of staff"
+# A moves budget's year with money left for a detail within one location and none between two.
+LOCAL_ONLY = "enough left only for a detail within one location"
 # Money above a cap by less than this is the round-off of summed cost columns, not an overrun.
 BUDGET_TOL = 0.5
 # Shortfall below this (FTE) is rounding, as the console's shortfall by office takes it.
@@ -121,28 +124,53 @@ def _over(use: LimitUse) -> bool:
     return use.used - use.cap > BUDGET_TOL
 
 
-def _budget_text(uses: Sequence[LimitUse], currency: str | None, action: str) -> str:
+def _budget_text(uses: Sequence[LimitUse], currency: str | None, action: str,
+                 local: frozenset[str] = frozenset()) -> str:
+    """Each year's spending against its cap and what is left (``local``: the moves budget's
+    years with money left for a detail within one location and for none between two)."""
     used = [f"{u.where} {money_text(u.used)} of {money_amount(u.cap, currency)} spent"
             for u in uses]
-    if not any(_over(u) for u in uses):
+    left = [_left_words(u, currency, action, local) for u in uses]
+    if len(set(left)) == 1 and not any(_over(u) for u in uses):
         # "each": after two years' figures, the bracket had read as the last year's alone.
         each = "each with " if len(uses) > 1 else ""
-        return "; ".join(used) + f" ({each}too little left for one more {action})"
+        return "; ".join(used) + f" ({each}{left[0]})"
     # A year over its cap has nothing left, not "too little": each year says its own.
-    return "; ".join(
-        f"{text}: over the cap by {money_amount(u.used - u.cap, currency)}" if _over(u)
-        else f"{text}: too little left for one more {action}" for u, text in zip(
-            uses, used, strict=True))
+    return "; ".join(f"{text}: {words}" for text, words in zip(used, left, strict=True))
 
 
-def _budget_total(uses: Sequence[LimitUse], action: str) -> str:
+def _left_words(use: LimitUse, currency: str | None, action: str,
+                local: frozenset[str]) -> str:
+    if _over(use):
+        return f"over the cap by {money_amount(use.used - use.cap, currency)}"
+    if use.where in local:
+        return LOCAL_ONLY
+    return f"too little left for one more {action}"
+
+
+def _budget_total(uses: Sequence[LimitUse], action: str,
+                  local: frozenset[str] = frozenset()) -> str:
     """What a surface too narrow for :func:`_budget_text` says of the same years."""
     over = sum(1 for u in uses if _over(u))
-    short = f"too little left for one more {action}"
-    if not over:
-        return f"{counted(len(uses), 'budget year')} with {short}"
-    said = f"{counted(over, 'budget year')} over the cap"
-    return said if over == len(uses) else f"{said}, {len(uses) - over:,} with {short}"
+    near = sum(1 for u in uses if not _over(u) and u.where in local)
+    groups = [(over, "over the cap"),
+              (len(uses) - over - near, f"with too little left for one more {action}"),
+              (near, f"with {LOCAL_ONLY}")]
+    said = [(n, words) for n, words in groups if n]
+    # The first group counts budget years; the others follow it with a bare count.
+    return ", ".join(f"{counted(n, 'budget year') if i == 0 else f'{n:,}'} {words}"
+                     for i, (n, words) in enumerate(said))
+
+
+def _local_only(instance: Instance, use: LimitUse) -> bool:
+    """A moves budget with money left for a detail within one location but for none between
+    two (the demo's 1,500 left paid for a detail inside a city and no other): marginal and
+    the reasons count it as slack, yet it stops every move between cities."""
+    between = [instance.detail_cost_per_period(a.name, b.name) for a in instance.offices
+               for b in instance.offices if a.location != b.location]
+    return (use.limit == "moves_budget" and not use.binding and use.used > 0
+            and use.cap is not None and bool(between)
+            and use.cap - use.used < min(between) - BUDGET_TOL)
 
 
 def _details_in_a_row(instance: Instance, plan: Plan) -> tuple[str, ...]:
@@ -231,9 +259,13 @@ def limits_at_cap(instance: Instance, plan: Plan) -> LimitsFound:
     if unknown_names(instance, plan):
         return LimitsFound()
     kinds: dict[str, list[LimitUse]] = defaultdict(list)
+    local: set[str] = set()
     for use in limit_use(instance, plan):
         if use.binding and use.used > 0:
             kinds[use.limit].append(use)
+        elif _local_only(instance, use):
+            kinds[use.limit].append(use)
+            local.add(use.where)
     currency = instance.money.currency
     out = []
     for kind, words in KIND_WORDS:
@@ -255,8 +287,10 @@ def limits_at_cap(instance: Instance, plan: Plan) -> LimitsFound:
             text, total = _by_office(uses, instance), _office_total(uses)
         elif kind in ("hiring_budget", "moves_budget"):
             action = "hire" if kind == "hiring_budget" else "detail"
-            text = _budget_text(uses, currency, action)
-            total = _budget_total(uses, action)
+            # Only the moves budget has years with money left for local details alone.
+            near = frozenset(local) if kind == "moves_budget" else frozenset()
+            text = _budget_text(uses, currency, action, near)
+            total = _budget_total(uses, action, near)
         else:  # vacancies: "skill at office", funded over the whole horizon
             funded = sum(instance.vacancies.values())
             used = _vacancies_used(plan)

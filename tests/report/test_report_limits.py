@@ -300,6 +300,33 @@ def test_two_budget_years_at_their_cap_each_say_so():
         "spent (too little left for one more hire)")
 
 
+def test_a_moves_budget_left_only_for_a_detail_within_one_location_is_listed():
+    # A planner's reading of the demo: 1,500 left in the moves budget paid for a detail
+    # within one city (1,500 a period) and for none between two, yet the limits block left
+    # the budget out.  By hand on tests/data/tiny's plan (details of a1 in 2027-Q2 and Q3 and
+    # a2 in Q4 at 5,000 a period: 15,000 spent), with an office C in Alder beside A at
+    # 1,000 a period of detail within one location and a moves cap of 19,000: 4,000 left,
+    # less than the 5,000 between Alder and Birch, more than the 1,000 within Alder.
+    from rebalance.instance import Office
+
+    result = _solved(str(TINY))
+    assert result.plan is not None
+    local = result.instance.with_changes(
+        offices=(*result.instance.offices, Office("C", "Alder")),
+        move_cost_defaults=replace(result.instance.move_cost_defaults,
+                                   same_location_detail_cost_per_period=1000.0),
+        budgets=(Budget("2027", 40_000.0, 19_000.0),))
+    (line,) = [line for line in limits_at_cap(local, result.plan).lines
+               if line.kind == "moves_budget"]
+    assert line.text == ("2027 15,000 of 19,000 spent (enough left only for a detail within "
+                         "one location)")
+    assert line.total == "1 budget year with enough left only for a detail within one location"
+    # 5,000 left pays for a detail between the two: no line, as in the hand count above.
+    roomy = local.with_changes(budgets=(Budget("2027", 40_000.0, 20_000.0),))
+    assert "moves_budget" not in {line.kind for line in limits_at_cap(roomy,
+                                                                        result.plan).lines}
+
+
 # -- short of staff yet sending people out: full seats explain it ---------------------------
 
 

@@ -1,19 +1,20 @@
-"""What a planner defending a plan needs said beside its figures: which limits it runs up
-against, and what its new positions cost every year once the horizon ends.
+"""What a planner defending a plan needs said beside its figures: which limits it runs up against,
+and what its new positions cost every year once the horizon ends.
 
-Both come from the plan's tables and the instance alone.  Which limits are at their cap is
+Both come from the plan's tables and the instance alone. Which limits are at their cap is
 :func:`rebalance.analysis.limits.limit_use`'s answer (the one ``rebalance marginal`` and the
-reasons stand on), so the summary names no limit those call slack but one: a moves budget
-with money left for a detail within one location and for none between two, which stops
-every move between cities (:func:`_local_only`).  Each limit goes by its name there (:data:`rebalance.analysis.limits.LIMIT_NAMES`); only the rule on
-details in a row is counted here, as neither that module nor the verifier (whose check only
-flags an overrun, inside its private checker) exposes how close a plan comes to it.  The
-salaries and their warning are :mod:`rebalance.planning`'s (summary.json carries the
-warning too), and the reports take them from there.  Last comes a line for offices short of
-staff that still send their own people out on detail while their seats are full: the reasons
-explain it detail by detail, but the summary had left leaders to ask.  That line names no cap
-(it says what one does), so it stands apart, under words of its own
-(:data:`SHORT_YET_AWAY_LEAD`): :data:`LIMITS_LEAD` speaks of the caps alone.
+reasons stand on), so the summary names no limit those call slack but one: a moves budget with
+money left for a detail within one location and for none between two, which stops every move
+between cities (:func:`_local_only`). Each limit goes by its name there
+(:data:`rebalance.analysis.limits.LIMIT_NAMES`); only the rule on details in a row is counted
+here, as neither that module nor the verifier (whose check only flags an overrun, inside its
+private checker) exposes how close a plan comes to it. The salaries and their warning are
+:mod:`rebalance.planning`'s (summary.json carries the warning too), and the reports take them
+from there. Last comes a line for offices short of staff that still send their own people out
+on detail while their seats are full: the reasons explain it detail by detail, but the summary
+had left leaders to ask. That line names no cap (it says what one does), so it stands apart,
+under words of its own (:data:`SHORT_YET_AWAY_LEAD`): :data:`LIMITS_LEAD` speaks of the caps
+alone.
 """
 
 from __future__ import annotations

@@ -16,6 +16,10 @@ from typing import Any, Literal, NoReturn
 
 from rebalance.numbers import money_header, with_currency
 
+# Largest priority of a demand row.  Far past any ranking of work a planner makes; beyond it
+# the solvers' tolerances lose rows of priority 1 beside it (HiGHS, a held shortfall row
+# scaled by a priority of 1e10, dropped the others and left them short while saying optimal).
+MAX_PRIORITY = 1e6
 ObjectiveMode = Literal["shortfall-first", "weighted"]
 SolverName = Literal["highs", "cbc"]
 # A rule of the data that rules an action out (Instance.move_ruled_out, hire_ruled_out).

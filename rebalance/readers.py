@@ -18,6 +18,7 @@ from typing import Any
 
 from rebalance.files import MARKER
 from rebalance.instance import (
+    MAX_PRIORITY,
     Budget,
     Demand,
     Instance,
@@ -145,8 +146,7 @@ PROFICIENCY_RANGE = range_words(0.0, 1.0, open_minimum=True)
 ANNUAL_RATE_RANGE = range_words(0.0, 1.0, open_maximum=True)
 
 
-# --------------------------------------------------------------------------------------------
-# tables
+# -- tables ----------------------------------------------------------------------------------
 
 
 def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, RawTable],
@@ -471,7 +471,7 @@ def _read_demand(table: RawTable, problems: list[Problem], offices: Mapping[str,
             hours = rows.number(row, "hours")
         else:
             rows.error("fte", "neither fte nor hours is given; expected exactly one")
-        priority = rows.number(row, "priority", required=False)
+        priority = rows.number(row, "priority", required=False, maximum=MAX_PRIORITY)
         if office is None or skill is None or period is None:
             continue
         key = (office, skill, period)

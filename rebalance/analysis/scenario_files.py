@@ -14,7 +14,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from rebalance.instance import Budget, Demand, Instance
+from rebalance.instance import MAX_PRIORITY, Budget, Demand, Instance
 from rebalance.numbers import plain_number
 from rebalance.problems import Problem, did_you_mean, is_finite_number, range_words
 from rebalance.tables import NotUtf8, read_utf8
@@ -35,8 +35,8 @@ __all__ = [
 
 # Bounds on a scenario's numbers, far past any surge or budget change a plan is made for:
 # beyond them a value is a typo, and at the extreme no number a solve can use (multiplier =
-# 1e308 overflowed the demand to inf).  A priority is bounded as in demand.csv (finite, >= 0):
-# it labels rows demand.csv could hold.
+# 1e308 overflowed the demand to inf).  A priority is bounded as in demand.csv (0 to
+# MAX_PRIORITY): it labels rows demand.csv could hold.
 MAX_MULTIPLIER = 1000.0
 MAX_ADD_FTE = 100_000.0  # FTE added to one office, skill and period
 MAX_BUDGET_ADD = 1e12  # money; the bound of objective.shortfall_cost too
@@ -226,7 +226,7 @@ def _read(path: str | Path, instance: Instance) -> tuple[Scenario | None, str | 
                             -MAX_ADD_FTE, MAX_ADD_FTE),
             priority=(None if entry.get("priority") is None else _number(
                 entry.get("priority"), 1.0, f"{at}.priority", problems, file, name, 0.0,
-                None)),
+                MAX_PRIORITY)),
         )
         # A table with a bad value is not said to change nothing too (nan read as the default)
         problem = _inert(change, instance) if len(problems) == before else None

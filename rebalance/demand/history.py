@@ -19,6 +19,7 @@ from typing import Any
 
 import pandas as pd
 
+from rebalance.instance import MAX_PRIORITY
 from rebalance.numbers import plain_number
 from rebalance.problems import Problem, did_you_mean, is_finite_number, range_words
 from rebalance.readers import InstanceError
@@ -317,7 +318,6 @@ SETTING_RANGES: dict[str, dict[str, Range]] = {
         "seed": SEED,
     },
 }
-MAX_PRIORITY = 1e6
 # Case counts a month and hours of one record or timesheet beyond any office's: 1e300 had
 # passed, written 300-digit hours or rows of 0.00 hours and numpy overflow warnings.
 MAX_COUNT = 1e9

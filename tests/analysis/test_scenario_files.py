@@ -74,8 +74,10 @@ def test_demand_effects_say_what_each_table_did(tiny) -> None:
     ("demand", "multiplier", "1" + "0" * 400, "a number from 0 to 1,000"),
     ("demand", "add_fte", "nan", "a number from -100,000 to 100,000"),
     ("demand", "add_fte", "-inf", "a number from -100,000 to 100,000"),
-    ("demand", "priority", "nan", "a number >= 0"),
-    ("demand", "priority", "inf", "a number >= 0"),
+    ("demand", "priority", "nan", "a number from 0 to 1,000,000"),
+    ("demand", "priority", "inf", "a number from 0 to 1,000,000"),
+    # Beyond it HiGHS lost rows of priority 1 beside it (rebalance.instance.MAX_PRIORITY).
+    ("demand", "priority", "1e10", "a number from 0 to 1,000,000"),
     ("budget", "hiring_add", "nan", "a number from -1,000,000,000,000 to 1,000,000,000,000"),
     ("budget", "moves_add", "nan", "a number from -1,000,000,000,000 to 1,000,000,000,000"),
     ("budget", "hiring_add", "1e300", "a number from -1,000,000,000,000 to 1,000,000,000,000"),

@@ -16,11 +16,19 @@ from pathlib import Path
 
 from rebalance.instance import Instance
 from rebalance.numbers import figures, number_text, share_of
-from rebalance.plan import BUDGET_LINES, COST_KINDS, PLAN_TABLES, Plan, read_plan, records
-from rebalance.problems import did_you_mean
+from rebalance.plan import (
+    BUDGET_LINES,
+    COST_KINDS,
+    PLAN_TABLES,
+    Plan,
+    PlanError,
+    read_plan,
+    records,
+)
+from rebalance.problems import Problem, did_you_mean
 from rebalance.verify_causes import hire_cost_lines, link_knock_ons
 from rebalance.verify_causes import money_amounts as _amounts
-from rebalance.verify_rules import RULES, NameKind, Violation, close, over
+from rebalance.verify_rules import ABS_TOL, RULES, NameKind, Violation, close, over
 
 __all__ = ["NameKind", "Violation", "unknown_names", "verify_folder", "verify_plan"]
 
@@ -62,9 +70,19 @@ def verify_folder(instance: Instance, folder: str | Path, *,
         files = {name: str(path / f"{name}.csv") for name in missing}
         return [Violation("missing_table", file, "file is missing", file=file, table=name)
                 for name, file in files.items()]
+    summary_path = path / "summary.json"
+    if complete and not summary_path.exists():
+        # Its figures are checked too: without it "verification passed" had said more than
+        # was checked.  Listed with any table problems, all at once.
+        no_summary = Problem(str(summary_path), None, None, "file is missing; expected in every "
+                          "plan folder (rebalance plan writes it)")
+        try:
+            read_plan(path, complete=True)
+        except PlanError as exc:
+            raise PlanError([*exc.problems, no_summary]) from None
+        raise PlanError([no_summary])
     checker = _Checker(instance, read_plan(path, complete=complete), path)
     checker.run()
-    summary_path = path / "summary.json"
     if summary_path.exists() and not checker.violations:
         file = str(summary_path)
         try:
@@ -509,10 +527,12 @@ def _check_summary(checker: _Checker, summary: dict[str, object],
     report and the console lead with them)."""
     plan = checker.plan
     stated_figures: list[tuple[str, object, float, float]] = [
+        # FTE figures within ABS_TOL (plus REL_TOL of their size), as docs/instance-format.md
+        # says; 1e-4 had let a stated 0.00009 pass beside a recomputed 0.
         ("weighted_shortfall", summary.get("weighted_shortfall"), checker.weighted_shortfall,
-         1e-4),
+         ABS_TOL),
         ("shortfall_fte_periods", summary.get("shortfall_fte_periods"), checker.shortfall_fte,
-         1e-4),
+         ABS_TOL),
         ("total_cost", summary.get("total_cost"), checker.total_cost, 1e-4),
         ("hires", summary.get("hires"), float(plan.hires["count"].sum()), 0.0),
         ("detail_periods", summary.get("detail_periods"), float(len(plan.details)), 0.0),

@@ -317,6 +317,42 @@ def test_folder_summary_totals_are_checked(tiny_plan, tmp_path):
     assert [v.rule for v in verify_folder(instance, tmp_path / "plan")] == ["missing_table"]
 
 
+def test_a_summary_figure_off_by_more_than_the_fte_tolerance_is_flagged(tiny_plan, tmp_path):
+    # A reviewer's check: tiny's plan leaves no shortfall (tests/data/tiny/NOTE.md), and a
+    # summary.json stating 0.00009 of it had passed (checked within 1e-4, where
+    # docs/instance-format.md gives FTE figures 1e-6 plus 1e-6 of their size).
+    instance, result = tiny_plan
+    write_outputs(result, tmp_path / "plan")
+    path = tmp_path / "plan" / "summary.json"
+    good = json.loads(path.read_text())
+    assert good["weighted_shortfall"] == good["shortfall_fte_periods"] == 0.0
+    path.write_text(json.dumps({**good, "weighted_shortfall": 9e-5,
+                                "shortfall_fte_periods": 9e-5}))
+    assert [v.where for v in verify_folder(instance, tmp_path / "plan")] == [
+        "weighted_shortfall", "shortfall_fte_periods"]
+    path.write_text(json.dumps({**good, "weighted_shortfall": 9e-7}))
+    assert verify_folder(instance, tmp_path / "plan") == []
+
+
+def test_verify_refuses_a_plan_folder_without_its_summary(tiny_plan, tmp_path, capsys):
+    # A reviewer's check: with summary.json gone, `rebalance verify` had said "every rule
+    # and total checks out" with its figures unchecked; it is bad input, as a missing
+    # work.csv is, and both are listed at once.
+    from conftest import DATA
+
+    from rebalance.cli import EXIT_INVALID_INPUT, main
+
+    _, result = tiny_plan
+    write_outputs(result, tmp_path / "plan")
+    (tmp_path / "plan" / "summary.json").unlink()
+    assert main(["verify", str(DATA / "tiny"), str(tmp_path / "plan")]) == EXIT_INVALID_INPUT
+    assert f"{tmp_path / 'plan' / 'summary.json'}: file is missing" in capsys.readouterr().err
+    (tmp_path / "plan" / "work.csv").unlink()
+    assert main(["verify", str(DATA / "tiny"), str(tmp_path / "plan")]) == EXIT_INVALID_INPUT
+    err = capsys.readouterr().err
+    assert "summary.json: file is missing" in err and "work.csv: file is missing" in err
+
+
 def test_the_plan_folder_has_the_mode_of_any_new_folder(tiny_plan, tmp_path):
     # Swapped in whole from a staging folder, it must not keep a private staging mode: a
     # colleague reading the plan expects what a plain mkdir gives under the same umask.

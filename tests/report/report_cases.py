@@ -7,8 +7,10 @@ analyses on tiny, so every figure the browser draws came from a solver run.
 
 from __future__ import annotations
 
+import atexit
 import json
 import re
+import shutil
 import subprocess
 import sys
 import tempfile
@@ -98,10 +100,18 @@ def reasons_table(instance: Instance) -> pd.DataFrame:
     return reasons(instance, result.plan).table
 
 
+def scratch_folder(prefix: str) -> Path:
+    """A temporary folder for a case cached across tests, removed when the run ends (the
+    suite had left one behind in /tmp per run)."""
+    root = Path(tempfile.mkdtemp(prefix=prefix))
+    atexit.register(shutil.rmtree, root, ignore_errors=True)
+    return root
+
+
 @lru_cache(maxsize=1)
 def tiny_plan_folder() -> Path:
     """A plan folder of tiny written by ``rebalance plan``, plus analysis tables."""
-    out = Path(tempfile.mkdtemp(prefix="rebalance-report-")) / "plan"
+    out = scratch_folder("rebalance-report-") / "plan"
     done = cli("plan", str(TINY), "-o", str(out), "-q")
     if done.returncode != 0:
         raise RuntimeError(done.stderr)
@@ -169,7 +179,7 @@ def demo_slice_folder() -> Path:
                                                        time_limit_seconds=60.0))
     if result.plan is None or not result.verified:
         raise RuntimeError(f"demo slice did not solve and verify: {result.status}")
-    out = Path(tempfile.mkdtemp(prefix="rebalance-report-")) / "demo-slice"
+    out = scratch_folder("rebalance-report-") / "demo-slice"
     with staged_folder(out, kind="plan") as folder:
         write_plan_folder(result, folder)
     return out

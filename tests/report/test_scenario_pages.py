@@ -11,10 +11,9 @@ import html
 import json
 from functools import lru_cache
 from pathlib import Path
-from tempfile import mkdtemp
 
 from openpyxl import load_workbook
-from report_cases import TINY, cli, page_text
+from report_cases import TINY, cli, page_text, scratch_folder
 
 from rebalance import read_instance
 from rebalance.analysis.scenario_files import (
@@ -58,7 +57,7 @@ EXPECTED = {
 @lru_cache(maxsize=1)
 def _runs() -> tuple[Path, Path, Path]:
     """A compare of tiny under the scenario, and a re-plan of its base plan under it."""
-    root = Path(mkdtemp(prefix="rebalance-scenario-pages-"))
+    root = scratch_folder("rebalance-scenario-pages-")
     scenario = root / "surge.toml"
     scenario.write_text(SCENARIO)
     out, again = root / "compare", root / "replan"

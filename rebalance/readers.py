@@ -9,7 +9,6 @@ and their cells parsed, by :mod:`rebalance.tables`.
 
 from __future__ import annotations
 
-import math
 import re
 import tomllib
 from collections.abc import Mapping
@@ -27,10 +26,16 @@ from rebalance.instance import (
     Period,
     Person,
     SeatCount,
-    SeatWindow,
     Skill,
 )
 from rebalance.problems import Problem, range_words
+from rebalance.read_limits import (
+    COLUMNS,
+    MAX_DEMAND_FTE,
+    MAX_DEMAND_HOURS,
+    seats_too_few,
+    table_rows,
+)
 from rebalance.settings_reader import (
     known_period_names,
     read_money,
@@ -44,12 +49,14 @@ from rebalance.tables import (
     RawTable,
     TableRows,
     collapse_repeats,
+    parse_number,
     read_csv_table,
     read_utf8,
     table_problems,
 )
 
 __all__ = [
+    "COLUMNS",
     "InstanceError",
     "count_problems",
     "read_instance",
@@ -58,24 +65,6 @@ __all__ = [
 
 REQUIRED_TABLES = ("offices", "skills", "staff", "demand", "budget")
 OPTIONAL_TABLES = ("move_costs", "vacancies", "attrition")
-COLUMNS: dict[str, tuple[tuple[str, ...], tuple[str, ...]]] = {
-    # table: (required columns, optional columns)
-    "offices": (("office", "location"), ("seats", "max_hires_per_period")),
-    "skills": (("skill", "salary_per_period", "onboarding_cost", "time_to_hire"), ("ramp",)),
-    "staff": (
-        ("person", "home_office", "fte", "skills"),
-        ("can_detail", "can_relocate", "last_period"),
-    ),
-    "demand": (("office", "skill", "period"), ("fte", "hours", "priority")),
-    "move_costs": (
-        ("from_location", "to_location"),
-        ("detail_cost_per_period", "relocation_cost"),
-    ),
-    "vacancies": (("office", "skill", "count"), ()),
-    "attrition": (("skill", "annual_rate"), ("office",)),
-    "budget": (("year",), ("hiring", "moves")),
-}
-
 
 def count_problems(problems: list[Problem]) -> int:
     """How many problems ``problems`` stand for, the rows of collapsed repeats included."""
@@ -106,16 +95,25 @@ def read_tables(folder: Path) -> tuple[dict[str, Any], dict[str, RawTable], list
             problems.append(Problem("settings.toml", None, None, f"not valid TOML: {exc}"))
         except NotUtf8 as exc:
             problems.append(Problem("settings.toml", exc.row, None, str(exc)))
+        except RecursionError:  # a = [[[[...]]]] thousands deep had been an internal error
+            problems.append(Problem("settings.toml", None, None, "cannot be read: values "
+                                    "nested too deeply; expected tables and lists a few deep"))
     else:
-        problems.append(Problem("settings.toml", None, None, "file is missing"))
+        problems.append(_not_a_file("settings.toml", settings_path))
     tables: dict[str, RawTable] = {}
     for name in REQUIRED_TABLES + OPTIONAL_TABLES:
         path = folder / f"{name}.csv"
         if path.is_file():
             tables[name] = read_csv_table(path, COLUMNS[name][0] + COLUMNS[name][1])
-        elif name in REQUIRED_TABLES:
-            problems.append(Problem(f"{name}.csv", None, None, "file is missing"))
+        elif name in REQUIRED_TABLES or path.is_dir():
+            problems.append(_not_a_file(f"{name}.csv", path))
     return settings, tables, problems
+
+
+def _not_a_file(name: str, path: Path) -> Problem:
+    """A file that is missing, or a folder in its place (it had been said missing)."""
+    return Problem(name, None, None, "is a folder; expected a file" if path.is_dir()
+                   else "file is missing")
 
 
 def read_instance(path: str | Path) -> Instance:
@@ -153,7 +151,7 @@ def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, 
                    problems: list[Problem]) -> Instance:
     """Validate settings and raw tables into an :class:`Instance` (or raise with all problems)."""
     for raw in tables.values():
-        problems += table_problems(raw)
+        problems += table_problems(raw, ignore_case=True)
     # Settings that could not be read (missing, not TOML) are reported once, not again as
     # every setting they lack.
     unread = any(p.file == "settings.toml" and p.column is None for p in problems)
@@ -175,7 +173,8 @@ def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, 
         raw = tables.get(name)
         # A quote left open swallows the rows after it, names and all.
         broken = raw is None or raw.fault is not None or bool(raw.multiline_cells) or any(
-            p.file == raw.label and p.row in (None, 1) and not p.is_warning for p in problems)
+            p.file == raw.label and p.row in (None, raw.header_row) and not p.is_warning
+            for p in problems)
         return None if broken else defined
 
     office_rows: dict[str, int] = {}
@@ -261,49 +260,12 @@ def _data_warnings(instance: Instance, office_rows: Mapping[str, int],
                                f"nobody on staff is based at '{office.name}'",
                                is_warning=True))
         elif office.name in seat_counts:
-            said = _seats_too_few(instance, seat_counts[office.name],
+            said = seats_too_few(instance, seat_counts[office.name],
                                   windows.get(office.name))
             if said:
                 out.append(Problem("offices.csv", office_rows.get(office.name), "seats", said,
                                    is_warning=True))
     return out
-
-
-def _seats_too_few(instance: Instance, counts: list[SeatCount],
-                   window: SeatWindow | None = None) -> str | None:
-    """Where the people based at an office in each period (``counts``, one per period, from
-    :meth:`Instance.seat_counts`) outnumber its seats, how many must be away, and whether
-    enough may go (docs/model.md, seats: hires and details in only take seats), in each
-    period or, held back by the consecutive-detail limit, over a ``window`` of them
-    (:meth:`Instance.seat_windows`)."""
-    names = instance.period_names
-    over = [c for c in counts if c.must_go]
-    if not over:
-        return None
-    office, seats = over[0].office, over[0].seats
-    first, more = over[0], len(over) - 1
-    seat_count = f"{seats} seat{'s' * (seats != 1)}"
-    if more and all(c.based == first.based for c in over):
-        said = (f"'{office}' has {first.based} people based there in {names[first.period]} "
-                f"(and {more} more period{'s' * (more > 1)}) for {seat_count}: at least "
-                f"{first.must_go} must be away each period (detailed out or reassigned)")
-    else:
-        later = (f", and more than {seats} in {more} more period{'s' * (more > 1)}"
-                 if more else "")
-        said = (f"'{office}' has {first.based} people based there in {names[first.period]} "
-                f"for {seat_count}{later}: at least {first.must_go} must be away then "
-                "(detailed out or reassigned)")
-    short = next((c for c in over if c.too_few_may_go), None)
-    if short is None and window is not None:
-        return f"{said}; {window.words(names)}: no plan can keep its seats"
-    if short is None:
-        return said
-    why = ", ".join(instance.away_limits())
-    go = f"only {short.may_go} may go" if short.may_go else "none may go"
-    if short is first:
-        return f"{said}, and {go} ({why}): no plan can keep its seats"
-    return (f"{said}; in {names[short.period]} {short.must_go} must be away and {go} "
-            f"({why}): no plan can keep its seats")
 
 
 def _some(names: list[str]) -> str:
@@ -328,7 +290,7 @@ def _unique(rows: TableRows, column: str, value: str | None, seen: dict[str, int
 def _read_offices(table: RawTable, problems: list[Problem],
                   seen: dict[str, int]) -> dict[str, Office]:
     """The offices by name; ``seen`` is filled with each one's row, for warnings to name."""
-    rows, out = TableRows(table, problems, COLUMNS["offices"]), {}
+    rows, out = table_rows("offices", table, problems), {}
     for row in rows:
         name = rows.text(row, "office")
         location = rows.text(row, "location")
@@ -344,7 +306,7 @@ def _read_offices(table: RawTable, problems: list[Problem],
 
 def _read_skills(table: RawTable, problems: list[Problem],
                  seen: dict[str, int]) -> dict[str, Skill]:
-    rows, out = TableRows(table, problems, COLUMNS["skills"]), {}
+    rows, out = table_rows("skills", table, problems), {}
     for row in rows:
         name = rows.text(row, "skill")
         if name is not None and not SKILL_NAME.match(name):
@@ -356,11 +318,8 @@ def _read_skills(table: RawTable, problems: list[Problem],
         time_to_hire = rows.number(row, "time_to_hire", integer=True)
         ramp: list[float] = []
         for token in row.get("ramp", "").split():
-            try:
-                value = float(token)
-            except ValueError:
-                value = math.nan
-            if not 0.0 <= value <= 1.0:
+            value = parse_number(token)
+            if value is None or not 0.0 <= value <= 1.0:
                 rows.error("ramp", f"'{token}' is not valid; expected numbers from 0 to 1 "
                            "separated by spaces, e.g. '0.5 0.8'")
                 break
@@ -379,7 +338,7 @@ def _read_skills(table: RawTable, problems: list[Problem],
 def _read_staff(table: RawTable, problems: list[Problem], offices: Mapping[str, Office] | None,
                 skills: Mapping[str, Skill] | None,
                 period_index: Mapping[str, int | None] | None) -> list[Person]:
-    rows, out = TableRows(table, problems, COLUMNS["staff"]), []
+    rows, out = table_rows("staff", table, problems), []
     seen: dict[str, int] = {}
     for row in rows:
         person = rows.text(row, "person")
@@ -421,15 +380,13 @@ def _parse_skills(rows: TableRows, raw: str, skills: Mapping[str, Skill] | None)
             ok = False
             continue
         name, value = match.group(1), match.group(2)
-        try:
-            proficiency = float(value) if value else 1.0
-        except ValueError:
-            proficiency = math.nan
+        proficiency = parse_number(value) if value else 1.0
         if skills is not None and name not in skills:
             rows.unknown("skills", name, skills, "skill", "skills.csv")
             ok = False
-        elif not 0.0 < proficiency <= 1.0:
-            rows.error("skills", f"proficiency '{value}' for '{name}' is out of range; "
+        elif proficiency is None or not 0.0 < proficiency <= 1.0:
+            fault = "is not a number" if proficiency is None else "is out of range"
+            rows.error("skills", f"proficiency '{value}' for '{name}' {fault}; "
                        f"expected {PROFICIENCY_RANGE}")
             ok = False
         elif any(name == s for s, _ in parsed):
@@ -444,7 +401,7 @@ def _read_demand(table: RawTable, problems: list[Problem], offices: Mapping[str,
                  skills: Mapping[str, Skill] | None, periods: tuple[Period, ...],
                  known_periods: Mapping[str, int | None] | None,
                  check_empty: bool = True) -> list[Demand]:
-    rows, out = TableRows(table, problems, COLUMNS["demand"]), []
+    rows, out = table_rows("demand", table, problems), []
     seen: dict[tuple[str, str, str], int] = {}
     period_index = {p.name: i for i, p in enumerate(periods)}
     # The horizon is often start and count, not a list: name its ends, so "listed in
@@ -456,6 +413,11 @@ def _read_demand(table: RawTable, problems: list[Problem], offices: Mapping[str,
     else:
         periods_defined = f"settings.toml ({periods[0].name} to {periods[-1].name})"
     read = 0
+    # A header with neither column is said once, not on every row (nor for a missing file).
+    amounts = {"fte", "hours"} & set(table.columns)
+    if check_empty and rows.columns_ok and not amounts:
+        problems.append(Problem(table.label, table.header_row, "fte", "neither fte nor hours "
+                                "is a column; expected one of them, a value in each row"))
     for row in rows:
         read += 1
         office = rows.reference(row, "office", offices, "office", "offices.csv")
@@ -466,10 +428,10 @@ def _read_demand(table: RawTable, problems: list[Problem], offices: Mapping[str,
         if has_fte and has_hours:
             rows.error("hours", "both fte and hours are given; expected exactly one")
         elif has_fte:
-            fte = rows.number(row, "fte")
+            fte = rows.number(row, "fte", ceiling=MAX_DEMAND_FTE)
         elif has_hours:
-            hours = rows.number(row, "hours")
-        else:
+            hours = rows.number(row, "hours", ceiling=MAX_DEMAND_HOURS)
+        elif amounts:
             rows.error("fte", "neither fte nor hours is given; expected exactly one")
         priority = rows.number(row, "priority", required=False, maximum=MAX_PRIORITY)
         if office is None or skill is None or period is None:
@@ -486,6 +448,11 @@ def _read_demand(table: RawTable, problems: list[Problem], offices: Mapping[str,
         t = period_index[period]
         if hours is not None:
             fte = hours / periods[t].hours_per_fte
+            if fte > MAX_DEMAND_FTE:
+                rows.error("hours", f"'{row['hours']}' hours at {periods[t].hours_per_fte:g} "
+                           f"hours per FTE in {period} are {fte:,.0f} FTE; expected at most "
+                           f"{MAX_DEMAND_FTE:,.0f} FTE")
+                continue
         if fte is not None:
             out.append(Demand(office, skill, t, fte, 1.0 if priority is None else priority,
                               hours))
@@ -500,8 +467,9 @@ def _read_move_costs(table: RawTable | None, problems: list[Problem],
                      locations: list[str] | None) -> dict[tuple[str, str], MoveCost]:
     if table is None:
         return {}
-    rows, out = TableRows(table, problems, COLUMNS["move_costs"]), {}
+    rows, out = table_rows("move_costs", table, problems), {}
     known = None if locations is None else dict.fromkeys(locations)  # file order
+    seen: dict[tuple[str, str], int] = {}
     for row in rows:
         a = rows.reference(row, "from_location", known, "location", "offices.csv")
         b = rows.reference(row, "to_location", known, "location", "offices.csv")
@@ -509,10 +477,11 @@ def _read_move_costs(table: RawTable | None, problems: list[Problem],
         relocation = rows.number(row, "relocation_cost", required=False)
         if a is None or b is None:
             continue
-        if (a, b) in out:
-            rows.error("from_location, to_location",
-                       f"move costs from '{a}' to '{b}' are listed twice")
+        if (a, b) in seen:
+            rows.error("from_location, to_location", f"move costs from '{a}' to '{b}' are "
+                       f"listed twice (first at row {seen[(a, b)]})")
             continue
+        seen[(a, b)] = rows.row_number
         out[(a, b)] = MoveCost(detail, relocation)
     return out
 
@@ -523,17 +492,21 @@ def _read_vacancies(table: RawTable | None, problems: list[Problem],
                         tuple[str, str], int]:
     if table is None:
         return {}
-    rows, out = TableRows(table, problems, COLUMNS["vacancies"]), {}
+    rows, out = table_rows("vacancies", table, problems), {}
+    seen: dict[tuple[str, str], int] = {}  # a row whose count is bad is a first copy too
     for row in rows:
         office = rows.reference(row, "office", offices, "office", "offices.csv")
         skill = rows.reference(row, "skill", skills, "skill", "skills.csv")
         count = rows.number(row, "count", integer=True)
-        if office is None or skill is None or count is None:
+        if office is None or skill is None:
             continue
-        if (office, skill) in out:
-            rows.error("office, skill", f"vacancies for '{office}', '{skill}' are listed twice")
+        if (office, skill) in seen:
+            rows.error("office, skill", f"vacancies for '{office}', '{skill}' are listed twice "
+                       f"(first at row {seen[(office, skill)]})")
             continue
-        out[(office, skill)] = int(count)
+        seen[(office, skill)] = rows.row_number
+        if count is not None:
+            out[(office, skill)] = int(count)
     return out
 
 
@@ -543,26 +516,27 @@ def _read_attrition(table: RawTable | None, problems: list[Problem],
                         tuple[str, str | None], float]:
     if table is None:
         return {}
-    rows, out = TableRows(table, problems, COLUMNS["attrition"]), {}
+    rows, out = table_rows("attrition", table, problems), {}
+    seen: dict[tuple[str, str | None], int] = {}  # a row whose rate is bad is a first copy too
     for row in rows:
         skill = rows.reference(row, "skill", skills, "skill", "skills.csv")
         office = None
-        if row.get("office"):
+        if row.get("office"):  # an unknown office is said, and its rate is checked all the same
             office = rows.reference(row, "office", offices, "office", "offices.csv")
-            if office is None:
-                continue
         rate = rows.number(row, "annual_rate", maximum=1.0, expected=ANNUAL_RATE_RANGE)
         if rate is not None and rate >= 1.0:
             rows.error("annual_rate", f"'{row['annual_rate']}' is out of range; expected "
                        f"{ANNUAL_RATE_RANGE}")
+            rate = None
+        if skill is None or (row.get("office") and office is None):
             continue
-        if skill is None or rate is None:
-            continue
-        if (skill, office) in out:
+        if (skill, office) in seen:
             rows.error("skill, office", f"attrition for '{skill}' at '{office or 'any office'}' is "
-                       "listed twice")
+                       f"listed twice (first at row {seen[(skill, office)]})")
             continue
-        out[(skill, office)] = rate
+        seen[(skill, office)] = rows.row_number
+        if rate is not None:
+            out[(skill, office)] = rate
     return out
 
 
@@ -570,7 +544,7 @@ def _read_budgets(table: RawTable, problems: list[Problem],
                   periods: tuple[Period, ...], given: bool = True) -> list[Budget]:
     """The budget rows; ``given`` is False where the table itself is missing (reported
     already), so its years are not reported again, one by one, as having no row."""
-    rows, out = TableRows(table, problems, COLUMNS["budget"]), []
+    rows, out = table_rows("budget", table, problems), []
     seen: dict[str, int] = {}
     years = {p.year for p in periods}
     for row in rows:

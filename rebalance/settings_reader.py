@@ -22,6 +22,12 @@ from rebalance.problems import (
     is_finite_number,
     range_words,
 )
+from rebalance.read_limits import (
+    HOURS_PER_FTE_MAX,
+    HOURS_PER_FTE_MIN,
+    MAX_NUMBER,
+    MAX_TIME_LIMIT_SECONDS,
+)
 
 __all__ = [
     "SETTINGS_KEYS",
@@ -327,8 +333,8 @@ def read_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
         periods_per_year = 4
     periods_per_year = int(periods_per_year)
     default_hours = horizon.get("hours_per_fte")
-    if default_hours is not None and (not is_finite_number(default_hours) or default_hours <= 0):
-        bad("horizon.hours_per_fte", f"{_not_valid(default_hours)}; expected a number > 0")
+    if default_hours is not None and (said := _hours_problem(default_hours)):
+        bad("horizon.hours_per_fte", said)
         default_hours = None
     periods: list[Period] = []
     if listed is not None:
@@ -363,8 +369,8 @@ def read_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
                              else _invalid(entry[part]))
                     bad(f"{key}.{part}", f"{found}; expected {expected}")
             hours = entry.get("hours_per_fte", default_hours)
-            if "hours_per_fte" in entry and (not is_finite_number(hours) or hours <= 0):
-                bad(key + ".hours_per_fte", f"{_not_valid(hours)}; expected a number > 0")
+            if "hours_per_fte" in entry and (said := _hours_problem(hours)):
+                bad(key + ".hours_per_fte", said)
                 hours = None
             elif hours is None and "hours_per_fte" not in horizon:  # a bad default: said once
                 missing(key + ".hours_per_fte", "is missing and horizon.hours_per_fte gives "
@@ -413,6 +419,18 @@ def read_periods(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
     return tuple(periods), periods_per_year
 
 
+def _hours_problem(hours: Any) -> str:
+    """What is wrong with an hours_per_fte value, or "": a number > 0, and (said only of a
+    number beyond them) from 1 to 10,000 hours (an hours_per_fte of 1e-300 had turned a few
+    hours of demand into more FTE than a solver takes)."""
+    if not is_finite_number(hours) or hours <= 0:
+        return f"{_not_valid(hours)}; expected a number > 0"
+    if not HOURS_PER_FTE_MIN <= hours <= HOURS_PER_FTE_MAX:
+        return (f"{_not_valid(hours)}; expected "
+                f"{range_words(HOURS_PER_FTE_MIN, HOURS_PER_FTE_MAX)}")
+    return ""
+
+
 def read_sections(settings: Mapping[str, Any], problems: list[Problem]) -> tuple[
         Policy, MoveCostDefaults, Objective, SolverSettings]:
     """The policy, move_costs, objective and solver sections; a default for each key that is
@@ -425,12 +443,16 @@ def read_sections(settings: Mapping[str, Any], problems: list[Problem]) -> tuple
         return value
 
     def num(sec: str, table: dict[str, Any], key: str, default: Any, low: float,
-            high: float | None = None, integer: bool = False, allow_none: bool = False) -> Any:
+            high: float | None = None, integer: bool = False, allow_none: bool = False,
+            ceiling: float = MAX_NUMBER) -> Any:
+        # ``ceiling`` bounds a key with no ``high``, and is named only for a value above it.
         if key not in table:
             return default
         value = table[key]
         ok = (_whole(value) if integer else is_finite_number(value)) and value >= low
         ok = ok and (high is None or value <= high)
+        if ok and high is None and value > ceiling:
+            high, ok = ceiling, False
         if not ok:
             what = range_words(low, high, integer=integer)
             problems.append(Problem("settings.toml", None, f"{sec}.{key}",
@@ -475,7 +497,8 @@ def read_sections(settings: Mapping[str, Any], problems: list[Problem]) -> tuple
         name = "highs"
     solver = SolverSettings(
         name=name,
-        time_limit_seconds=float(num("solver", solver_t, "time_limit_seconds", 300.0, 0.1)),
+        time_limit_seconds=float(num("solver", solver_t, "time_limit_seconds", 300.0, 0.1,
+                                     ceiling=MAX_TIME_LIMIT_SECONDS)),
         relative_gap=float(num("solver", solver_t, "relative_gap", 1e-4, 0.0, 1.0)),
         threads=int(num("solver", solver_t, "threads", 1, 1, integer=True)),
         seed=int(num("solver", solver_t, "seed", 0, 0, integer=True)),

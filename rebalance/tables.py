@@ -12,8 +12,10 @@ from __future__ import annotations
 
 import codecs
 import csv
+import difflib
 import io
 import math
+import re
 from collections import Counter
 from collections.abc import Iterable, Iterator, Mapping
 from dataclasses import dataclass, replace
@@ -23,7 +25,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from rebalance.problems import Problem, UnknownName, did_you_mean, range_words
+from rebalance.problems import Problem, UnknownName, close_names, did_you_mean, range_words
 
 __all__ = [
     "NotUtf8",
@@ -31,14 +33,32 @@ __all__ = [
     "TableRows",
     "collapse_repeats",
     "known_case",
+    "parse_number",
     "plain_csv_columns",
     "read_csv_table",
     "read_utf8",
     "table_problems",
 ]
 
-TRUE_WORDS = {"true", "yes", "y", "1"}
-FALSE_WORDS = {"false", "no", "n", "0"}
+# Words a yes/no cell may hold, in pairs (any case); messages list them from here.
+YES_NO_PAIRS = (("true", "false"), ("yes", "no"), ("y", "n"), ("1", "0"))
+TRUE_WORDS = {yes for yes, _ in YES_NO_PAIRS}
+FALSE_WORDS = {no for _, no in YES_NO_PAIRS}
+YES_NO_WORDS = ", ".join(f"{yes}/{no}" for yes, no in YES_NO_PAIRS[1:])
+# The ceiling of every number a cell may hold where its column sets none: the bound the
+# project keeps for money (objective.shortfall_cost, a scenario's budget step).  Past it a
+# salary of 1e308 had passed check and made the plan's objective nan.
+MAX_NUMBER = 1e12
+# A number as a planner types one: ASCII digits, no '_' (Python's float() reads "1_0" as 10
+# and "\u0666" as 6); inf and nan are read, to be said out of range.
+_NUMBER = re.compile(r"[+-]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?"
+                     r"|[+-]?(?:inf|infinity|nan)", re.IGNORECASE)
+
+
+def parse_number(text: str) -> float | None:
+    """``text`` as a number, or None where it is not one as a planner writes it."""
+    text = text.strip()
+    return float(text) if _NUMBER.fullmatch(text) else None
 
 
 @dataclass(frozen=True)
@@ -59,6 +79,8 @@ class RawTable:
     # Why the file could not be read at all (not UTF-8), and the row that showed it; then it
     # has no columns.
     fault: tuple[int | None, str] | None = None
+    # The row that holds the column names: blank lines above it are skipped.
+    header_row: int = 1
 
 
 # A name unknown in this many rows or more is one line; fewer keep a line per row.
@@ -130,14 +152,17 @@ def _unknown_name_line(first: Problem, unknown: UnknownName,
                    f"correct those rows{unknown.hint}", repeats=total)
 
 
-def table_problems(table: RawTable) -> list[Problem]:
+def table_problems(table: RawTable, *, ignore_case: bool = False) -> list[Problem]:
     """What is wrong with ``table`` as a table, before any cell is read: a file that could not
-    be read, a column named twice (which copy would be read?), and cells no column reads,
-    such as the second half of a number a comma split (``1,234``)."""
+    be read, a column named twice (which copy would be read?; ``ignore_case``: ``Seats`` and
+    ``seats`` are one name, as for an instance's tables), and cells no column reads, such as
+    the second half of a number a comma split (``1,234``)."""
     if table.fault is not None:
         return [Problem(table.label, table.fault[0], None, table.fault[1])]
-    problems = [Problem(table.label, 1, column, f"is a column name {count} times; expected "
-                        "each column once") for column, count in _repeated_columns(table).items()]
+    problems = [Problem(table.label, table.header_row, column,
+                        f"is a column name {count} times{_case_words(table, column)}; expected "
+                        "each column once")
+                for column, count in _repeated_columns(table, ignore_case).items()]
     hint = " (a comma inside a value?)" if table.label.endswith(".csv") else ""
     problems += [Problem(table.label, number, None,
                          f"more cells than the header's {len(table.columns)} columns; expected "
@@ -154,10 +179,48 @@ def table_problems(table: RawTable) -> list[Problem]:
     return problems
 
 
-def _repeated_columns(table: RawTable) -> dict[str, int]:
-    """Column names the header holds more than once, with how often."""
-    counts = Counter(c for c in table.columns if c)
-    return {column: count for column, count in counts.items() if count > 1}
+def _repeated_columns(table: RawTable, ignore_case: bool = False) -> dict[str, int]:
+    """Column names the header holds more than once, ``ignore_case`` ignoring case
+    (``Seats,seats``: which would be read?), each as first written, with how often."""
+    def fold(name: str) -> str:
+        return name.lower() if ignore_case else name
+
+    counts = Counter(fold(c) for c in table.columns if c)
+    first = {fold(c): c for c in reversed(table.columns) if c}
+    return {first[name]: count for name, count in counts.items() if count > 1}
+
+
+# How alike an unknown column must be to a known one to be taken as meant for it, an error
+# (difflib's ratio): closer than a mere suggestion, as a column of notes is allowed and
+# "notes" is as close to "moves" (0.6) as "hire" is to "hiring"; or sharing its first
+# letters, as "hire" and "hiring" do and "notes" and "moves", "status" and "seats" do not.
+MISSPELT_RATIO = 0.8
+MISSPELT_PREFIX = 3
+
+
+def _misspelt(column: str, known: str) -> bool:
+    """Whether unknown ``column`` is taken as a misspelling of ``known``, one the table
+    lacks (:class:`TableRows`)."""
+    a, b = column.lower(), known.lower()
+    return (difflib.SequenceMatcher(None, a, b).ratio() >= MISSPELT_RATIO
+            or a[:MISSPELT_PREFIX] == b[:MISSPELT_PREFIX])
+
+
+def _article(word: str) -> str:
+    """``a`` or ``an`` before ``word`` (``an hours column``)."""
+    return "an" if word[0] in "aeiou" or word.startswith("hour") else "a"
+
+
+def _case_words(table: RawTable, column: str) -> str:
+    """`` (ignoring case)`` where the copies of ``column`` differ in case."""
+    same = {c for c in table.columns if c.lower() == column.lower()}
+    return " (ignoring case)" if len(same) > 1 else ""
+
+
+def repeated_column(table: RawTable, column: str, ignore_case: bool = False) -> bool:
+    """Whether ``column`` is one of a name the header holds twice (:func:`_repeated_columns`)."""
+    return any(c.lower() == column.lower() if ignore_case else c == column
+               for c in _repeated_columns(table, ignore_case))
 
 
 def read_csv_table(path: Path, known: Iterable[str] = ()) -> RawTable:
@@ -233,26 +296,31 @@ def read_utf8(path: Path) -> str:
 
 
 def _csv_table(label: str, reader: Iterator[list[str]]) -> RawTable:
-    try:
-        header = [h.strip() for h in next(reader)]
-    except StopIteration:
+    # Blank lines above the header are skipped, as blank lines below it are (they had made
+    # an empty header, and every row "more cells than the header's 0 columns").
+    header_row = 1
+    for cells in reader:
+        if any(c.strip() for c in cells):
+            header = [h.strip() for h in cells]
+            break
+        header_row += 1
+    else:
         return RawTable(label, (), ())
     if len(header) == 1 and label.endswith(".csv"):
         for mark, name in ((";", "';'"), ("\t", "tabs")):
             if mark in header[0]:
                 # A spreadsheet set up for decimal commas saves ';' between columns: every
                 # column had been reported missing beside one unknown column "year;hiring".
-                return RawTable(label, (), (), fault=(1, f"columns are separated by {name}; "
-                                                         "expected commas (in a spreadsheet "
-                                                         "program: save as CSV, comma "
-                                                         "delimited)"))
+                return RawTable(label, (), (), fault=(header_row, (
+                    f"columns are separated by {name}; expected commas (in a spreadsheet "
+                    "program: save as CSV, comma delimited)")), header_row=header_row)
     rows, overlong, unnamed, multiline = [], [], [], []
     # Rows with empty cells past the header: harmless where every row has them (a trailing
     # comma on each line), a shifted row where only some do ("A,Alder,1,200," had been read
     # as seats 1 and 200 hires a period, with no word).
     empty_tails: list[tuple[int, int]] = []
     widths: Counter[int] = Counter()
-    for number, cells in enumerate(reader, 2):
+    for number, cells in enumerate(reader, header_row + 1):
         if not any(c.strip() for c in cells):
             cells = []  # blank line: keep numbering, drop content
         else:
@@ -270,8 +338,9 @@ def _csv_table(label: str, reader: Iterator[list[str]]) -> RawTable:
     if len(widths) > 1:
         overlong = sorted(overlong + [number for number, width in empty_tails
                                       if width > min(widths)])
-    return RawTable(label, tuple(header), tuple(rows), overlong_rows=tuple(overlong),
-                    unnamed_cells=tuple(unnamed), multiline_cells=tuple(multiline))
+    return RawTable(label, tuple(header), tuple(rows), header_row + 1,
+                    overlong_rows=tuple(overlong), unnamed_cells=tuple(unnamed),
+                    multiline_cells=tuple(multiline), header_row=header_row)
 
 
 # --------------------------------------------------------------------------------------------
@@ -281,12 +350,18 @@ def _csv_table(label: str, reader: Iterator[list[str]]) -> RawTable:
 class TableRows:
     """Iterates a table's rows and collects problems with their locations.
 
-    ``columns`` is (required, optional).  Other readers (the workload history) subclass it
-    with their own cell types.
+    ``columns`` is (required, optional); ``assumed`` says, for optional columns, what every
+    row is read as where the column is not given (``every office's seats are unlimited``).
+    An unknown column that is a close match for one of those the table lacks is an error
+    saying so: a misspelt ``seat`` had been a warning, the plan run with no seat limit.
+    Other unknown columns are warnings (a column of notes is fine).  ``ignore_case`` as
+    :func:`table_problems` takes it, for the same table.  Other readers (the workload
+    history) subclass it with their own cell types.
     """
 
     def __init__(self, table: RawTable, problems: list[Problem],
-                 columns: tuple[tuple[str, ...], tuple[str, ...]]) -> None:
+                 columns: tuple[tuple[str, ...], tuple[str, ...]],
+                 assumed: Mapping[str, str] | None = None, *, ignore_case: bool = False) -> None:
         self.table = table
         self.problems = problems
         self.row_number = 0
@@ -301,21 +376,25 @@ class TableRows:
         missing = [c for c in required if c not in table.columns]
         # A column named twice is said by table_problems; which copy to read is unknowable,
         # so no row is read (each would report the copy that happened to be kept).
-        twice = _repeated_columns(table)
+        twice = _repeated_columns(table, ignore_case)
         for column in missing:
-            self.problems.append(Problem(table.label, 1, column, "required column is missing"))
-        unknown = [c for c in table.columns if c and c not in required + optional]
+            self.problems.append(Problem(table.label, table.header_row, column,
+                                         "required column is missing"))
+        unknown = [c for c in table.columns if c and c not in required + optional
+                   and not repeated_column(table, c, ignore_case)]  # a name given twice is said so
+        lacking = [c for c in (assumed or {}) if c not in table.columns]
         for column in unknown:
-            self.problems.append(
-                Problem(
-                    table.label,
-                    1,
-                    column,
-                    "unknown column (expected one of: " + ", ".join(required + optional) + ")"
-                    + did_you_mean(column, required + optional),
-                    is_warning=True,
-                )
-            )
+            meant = [c for c in close_names(column, lacking)[:1] if _misspelt(column, c)]
+            if meant and assumed is not None:
+                self.problems.append(Problem(
+                    table.label, table.header_row, column,
+                    f"unknown column '{column}' (did you mean {meant[0]}?); without "
+                    f"{_article(meant[0])} {meant[0]} column {assumed[meant[0]]}"))
+                continue
+            self.problems.append(Problem(
+                table.label, table.header_row, column,
+                "unknown column (expected one of: " + ", ".join(required + optional) + ")"
+                + did_you_mean(column, required + optional), is_warning=True))
         self.columns_ok = not missing and not twice
 
     def __iter__(self) -> Iterator[dict[str, str]]:
@@ -355,7 +434,11 @@ class TableRows:
         open_minimum: bool = False,
         integer: bool = False,
         expected: str | None = None,
+        ceiling: float = MAX_NUMBER,
     ) -> float | None:
+        """The cell as a number, or None (said) where it is not one in range.  Where the
+        column sets no ``maximum``, a value beyond ``ceiling`` either way is out of range
+        too, and only its message names that bound."""
         raw = row.get(column, "")
         what = expected or range_words(minimum, maximum, open_minimum=open_minimum,
                                        integer=integer)
@@ -363,9 +446,8 @@ class TableRows:
             if required:
                 self.error(column, f"is empty; expected {what}")
             return None
-        try:
-            value = float(raw)
-        except ValueError:
+        value = parse_number(raw)
+        if value is None:
             self.error(column, f"'{raw}' is not a number; expected {what}")
             return None
         bad = not math.isfinite(value)
@@ -375,6 +457,11 @@ class TableRows:
         bad = bad or (maximum is not None and value > maximum)
         if bad:
             self.error(column, f"'{raw}' is out of range; expected {what}")
+            return None
+        if maximum is None and abs(value) > ceiling:
+            low = -ceiling if minimum is None else minimum
+            self.error(column, f"'{raw}' is out of range; expected " + range_words(
+                low, ceiling, open_minimum=open_minimum, integer=integer))
             return None
         return value
 
@@ -386,7 +473,8 @@ class TableRows:
             return True
         if raw in FALSE_WORDS:
             return False
-        self.error(column, f"'{row.get(column)}' is not a yes/no value; expected true or false")
+        self.error(column, f"'{row.get(column)}' is not a yes/no value; expected true or false "
+                   f"(or {YES_NO_WORDS}, in any case)")
         return default
 
     def reference(self, row: Mapping[str, str], column: str,

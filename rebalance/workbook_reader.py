@@ -25,8 +25,8 @@ from openpyxl.worksheet.formula import ArrayFormula, DataTableFormula
 
 from rebalance.instance import Instance
 from rebalance.problems import Problem, did_you_mean
+from rebalance.read_limits import COLUMNS
 from rebalance.readers import (
-    COLUMNS,
     OPTIONAL_TABLES,
     REQUIRED_TABLES,
     InstanceError,
@@ -505,8 +505,13 @@ def _periods(sheet: _Sheet, label: str, settings: dict[str, Any],
         if not any(row.values()):
             continue
         # Date cells by column (the last of a name given twice, as ``row`` takes it).
-        dates = {c: CellDate(cells[i]) for i, c in enumerate(sheet.columns)
-                 if c and i < len(cells) and isinstance(cells[i], dt.date)}
+        dates: dict[str, Any] = {c: CellDate(cells[i]) for i, c in enumerate(sheet.columns)
+                                 if c and i < len(cells) and isinstance(cells[i], dt.date)}
+        # A number that is not whole goes as the number, which settings.toml refuses too (as
+        # text, a year of 2027.5 had been taken as the name "2027.5").
+        dates |= {c: cells[i] for i, c in enumerate(sheet.columns) if c in ("name", "year")
+                  and i < len(cells) and isinstance(cells[i], float)
+                  and not cells[i].is_integer()}
         entry: dict[str, Any] = {"name": dates.get("name", row.get("name", "")),
                                  "year": dates.get("year", row.get("year", ""))}
         if row.get("hours_per_fte"):

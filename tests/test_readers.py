@@ -635,11 +635,29 @@ def test_a_name_close_to_none_is_said_without_a_suggestion(tmp_path):
         "offices.csv"]
 
 
-def test_a_misspelt_column_is_said_with_the_column_it_is_close_to(tmp_path):
+def test_a_misspelt_column_is_an_error_saying_what_its_absence_leaves(tmp_path):
+    # A reviewer's check: a misspelt optional column (can_detial) had been a warning, and the
+    # plan was made as if the column were not there (everyone detailable).  Which names are
+    # close is difflib's ratio (Python's difflib documentation, get_close_matches); what a
+    # missing column means is docs/instance-format.md's tables.
     target = _staff_variant(tmp_path, "can_detail,", "can_detial,")
-    assert ("staff.csv:1: can_detial: unknown column (expected one of: person, home_office, "
-            "fte, skills, can_detail, can_relocate, last_period) (did you mean 'can_detail'?)"
-            ) in read_instance(target).warnings
+    assert _problems(target) == [
+        "staff.csv:1: can_detial: unknown column 'can_detial' (did you mean can_detail?); "
+        "without a can_detail column everyone may be detailed (true)"]
+    # Beside the column it is close to, nothing is left out: a warning, as is a column of
+    # notes close to no column, or one only as close as "notes" is to "moves" (0.6).
+    staff = target / "staff.csv"
+    staff.write_text("person,home_office,fte,skills,can_detail,can_detial,notes\n"
+                     "a1,A,1.0,review:1.0,true,no,new in March\nb1,B,1.0,review:1.0,,,\n")
+    budget = target / "budget.csv"
+    budget.write_text("year,hiring,notes\n2027,40000,agreed\n")
+    assert [w for w in read_instance(target).warnings if "unknown column" in w] == [
+        "staff.csv:1: can_detial: unknown column (expected one of: person, home_office, "
+        "fte, skills, can_detail, can_relocate, last_period) (did you mean 'can_detail'?)",
+        "staff.csv:1: notes: unknown column (expected one of: person, home_office, fte, "
+        "skills, can_detail, can_relocate, last_period)",
+        "budget.csv:1: notes: unknown column (expected one of: year, hiring, moves) (did you "
+        "mean 'moves'?)"]
 
 
 def test_an_fte_out_of_range_says_the_range_in_plain_words(tmp_path):
@@ -902,9 +920,17 @@ def test_column_names_are_read_whatever_their_case_and_spaces(tmp_path):
     assert [o.name for o in instance.offices] == ["A", "B"] and not instance.warnings
     offices.write_text(text.replace("office,location", "Office,office", 1))
     assert _warnings_too(target) == [
-        "offices.csv:1: location: required column is missing",
-        "offices.csv:1: Office: unknown column (expected one of: office, location, seats, "
-        "max_hires_per_period) (did you mean 'office'?)"]
+        "offices.csv:1: Office: is a column name 2 times (ignoring case); expected each "
+        "column once",
+        "offices.csv:1: location: required column is missing"]
+    # A reviewer's check: two spellings of one optional column had been read as one of them
+    # (Seats,seats: the other a warning) or, both unknown (Seats,SEATS), as no seats at all.
+    for header in ("Seats,seats", "Seats,SEATS", " seats , seats"):
+        offices.write_text(text.replace("seats", header, 1).replace(",1\n", ",1,1\n"))
+        twice = "" if header == " seats , seats" else " (ignoring case)"
+        assert _warnings_too(target) == [
+            f"offices.csv:1: {header.split(',')[0].strip()}: is a column name 2 times{twice}; "
+            "expected each column once"]
 
 
 def test_what_a_misspelt_key_leaves_in_force_is_the_readers_own_default(tmp_path):
@@ -958,3 +984,119 @@ def test_a_workbook_cells_date_in_a_listed_period_is_said_as_a_date() -> None:
          f"type the year's name as text, e.g. 2027 {hint}"),
         ("horizon.periods[3].hours_per_fte", "the cell holds a date (2027-04-01), which is "
          "not valid; expected a number > 0")]
+
+
+def test_numbers_beyond_what_a_plan_can_take_are_out_of_range(tmp_path):
+    # A reviewer's check: demand of 1e308 FTE passed check and ended plan in an internal
+    # error (OverflowError), 1e20 in a solver failure, a salary of 1e308 in a nan objective,
+    # and an hours_per_fte of 1e-300 made 480 hours such a demand.  The bounds are the
+    # project's own (rebalance.read_limits); a value inside the old range keeps its words.
+    from rebalance.read_limits import MAX_DEMAND_FTE, MAX_DEMAND_HOURS, MAX_NUMBER
+
+    assert (MAX_NUMBER, MAX_DEMAND_FTE, MAX_DEMAND_HOURS) == (1e12, 1e6, 1e9)
+    target = valid_copy(tmp_path)
+    demand = target / "demand.csv"
+    demand.write_text("office,skill,period,hours,priority\nA,review,2027-Q1,480,\n"
+                      "A,review,2027-Q2,2e9,\nB,review,2027-Q3,-1,\n")
+    settings = target / "settings.toml"
+    text = settings.read_text()
+    settings.write_text(text.replace("hours_per_fte = 480", "hours_per_fte = 1e-300"))
+    assert _problems(target) == [
+        "settings.toml: horizon.hours_per_fte: '1e-300' is not valid; expected a number from 1 "
+        "to 10,000",
+        "demand.csv:3: hours: '2e9' is out of range; expected a number from 0 to "
+        "1,000,000,000",
+        "demand.csv:4: hours: '-1' is out of range; expected a number >= 0"]
+    # Hours in range may still make too many FTE: 1e9 hours at 1 hour per FTE.
+    settings.write_text(text.replace("hours_per_fte = 480", "hours_per_fte = 1"))
+    demand.write_text("office,skill,period,hours\nA,review,2027-Q1,1e9\nA,review,2027-Q2,1e6\n")
+    assert _problems(target) == [
+        "demand.csv:2: hours: '1e9' hours at 1 hours per FTE in 2027-Q1 are 1,000,000,000 FTE; "
+        "expected at most 1,000,000 FTE"]
+    # The settings: a listed period's hours, the solver's time limit; -3 keeps its words.
+    settings.write_text(text.replace(
+        'start = "2027-Q1"\ncount = 4\nhours_per_fte = 480',
+        'hours_per_fte = -3\n[[horizon.periods]]\nname = "P1"\nyear = "2027"\n'
+        'hours_per_fte = 20000').replace("relative_gap = 0",
+                                         "relative_gap = 0\ntime_limit_seconds = 1e8"))
+    said = [p for p in _problems(target) if p.startswith("settings.toml")]
+    assert said == [
+        "settings.toml: horizon.hours_per_fte: '-3' is not valid; expected a number > 0",
+        "settings.toml: horizon.periods[1].hours_per_fte: '20,000' is not valid; expected a "
+        "number from 1 to 10,000",
+        "settings.toml: solver.time_limit_seconds: '100,000,000' is not valid; expected a "
+        "number from 0.1 to 10,000,000"]
+
+
+def test_settings_nested_thousands_deep_are_said_unreadable(tmp_path):
+    # A reviewer's check: a = [[[[...]]]] 5,000 deep had ended check in "internal error:
+    # RecursionError" (Python's tomllib parses nested arrays recursively).
+    target = valid_copy(tmp_path)
+    settings = target / "settings.toml"
+    settings.write_text(settings.read_text() + "\n[deep]\na = " + "[" * 5000 + "]" * 5000 + "\n")
+    assert _problems(target) == [
+        "settings.toml: cannot be read: values nested too deeply; expected tables and lists "
+        "a few deep"]
+
+
+def test_a_folder_where_a_file_belongs_is_said_to_be_one(tmp_path):
+    target = valid_copy(tmp_path)
+    for name in ("staff.csv", "settings.toml"):
+        (target / name).unlink()
+        (target / name).mkdir()
+    (target / "vacancies.csv").mkdir()
+    assert _problems(target) == [
+        "settings.toml: is a folder; expected a file", "staff.csv: is a folder; expected a file",
+        "vacancies.csv: is a folder; expected a file"]
+
+
+def test_blank_lines_above_the_header_are_skipped_and_rows_keep_their_lines(tmp_path):
+    # A reviewer's check: they had made an empty header, and every row "more cells than the
+    # header's 0 columns".  Rows are numbered as a spreadsheet shows them (the header on line
+    # 3, the first row on line 4).
+    target = valid_copy(tmp_path)
+    offices = target / "offices.csv"
+    offices.write_text("\n,,\n" + offices.read_text())
+    assert [o.seats for o in read_instance(target).offices] == [10, 6]
+    offices.write_text(offices.read_text().replace("A,Alder,10", "A,Alder,ten")
+                       .replace("seats", "seat"))
+    assert _problems(target) == [
+        "offices.csv:3: seat: unknown column 'seat' (did you mean seats?); without a seats "
+        "column every office's seats are unlimited"]
+    offices.write_text(offices.read_text().replace("seat,", "seats,"))
+    assert _problems(target) == [
+        "offices.csv:4: seats: 'ten' is not a number; expected a whole number >= 0"]
+
+
+def test_every_yes_no_word_the_message_lists_is_read():
+    # The message lists the words accepted (a reviewer: it had said only "true or false").
+    from rebalance.problems import Problem
+    from rebalance.tables import FALSE_WORDS, TRUE_WORDS, YES_NO_WORDS, RawTable, TableRows
+
+    listed = {w for pair in YES_NO_WORDS.split(", ") for w in pair.split("/")}
+    assert listed | {"true", "false"} == TRUE_WORDS | FALSE_WORDS
+    problems: list[Problem] = []
+    rows = TableRows(RawTable("t.csv", ("a",), ()), problems, (("a",), ()))
+    for word in sorted(TRUE_WORDS | FALSE_WORDS):
+        assert rows.boolean({"a": word.upper()}, "a", False) == (word in TRUE_WORDS)
+    assert problems == []
+
+
+@pytest.mark.parametrize("text", ["1_0", "\u0666", "50%", "1,5", "0x10", " "])
+def test_only_numbers_as_a_planner_writes_them_are_numbers(text):
+    # Python's float() reads "1_0" as 10 and Arabic-Indic digits as digits (Python's
+    # documentation of float and of numeric literals); a cell is read in ASCII digits only.
+    from rebalance.tables import parse_number
+
+    assert parse_number(text) is None
+    assert parse_number(" 1e3 ") == 1000.0 and parse_number("-.5") == -0.5
+
+
+def test_a_demand_header_with_neither_fte_nor_hours_is_one_problem(tmp_path):
+    # A reviewer's check: it had been said on every row ("neither fte nor hours is given").
+    target = valid_copy(tmp_path)
+    demand = target / "demand.csv"
+    demand.write_text(demand.read_text().replace(",fte,", ",amount,", 1))
+    assert _problems(target) == [
+        "demand.csv:1: fte: neither fte nor hours is a column; expected one of them, a value "
+        "in each row"]

@@ -138,3 +138,58 @@ def test_as_a_user_runs_it(tmp_path):
     checked = subprocess.run([sys.executable, "-m", "rebalance.cli", "check", str(book)],
                              capture_output=True, text=True, cwd=ROOT, timeout=120)
     assert checked.returncode == EXIT_OK, checked.stderr
+
+
+def _tiny_book(tmp_path, capsys):
+    """tiny written as a workbook, open in openpyxl to spoil, and its path."""
+    book = tmp_path / "tiny.xlsx"
+    assert main(["workbook", str(DATA / "tiny"), "-o", str(book)]) == EXIT_OK
+    capsys.readouterr()
+    return load_workbook(book), book
+
+
+def _problems(book) -> list[str]:
+    from rebalance.readers import InstanceError
+
+    with pytest.raises(InstanceError) as caught:
+        read_instance(book)
+    return [str(p) for p in caught.value.problems if not p.is_warning]
+
+
+def test_a_sheets_misspelt_or_twice_given_column_is_said_as_a_files(tmp_path, capsys):
+    # A reviewer's check: sheets are read by the CSV files' rules (docs/instance-format.md,
+    # "Instance as one workbook"), so a misspelt optional column leaving every office's seats
+    # unlimited is an error there too, and so is a column given twice ignoring case.
+    wb, book = _tiny_book(tmp_path, capsys)
+    wb["offices"]["C1"] = "seat"
+    staff = wb["staff"]
+    staff.cell(1, staff.max_column + 1, "FTE")
+    wb.save(book)
+    assert _problems(book) == [
+        "tiny.xlsx[staff]:1: fte: is a column name 2 times (ignoring case); expected each "
+        "column once",
+        "tiny.xlsx[offices]:1: seat: unknown column 'seat' (did you mean seats?); without a "
+        "seats column every office's seats are unlimited"]
+
+
+def test_a_periods_sheets_year_and_hours_are_read_as_settings_toml_reads_them(tmp_path,
+                                                                                capsys):
+    # A reviewer's check: a year of 2027.5 typed in the periods sheet had been taken as the
+    # name "2027.5", while settings.toml refuses year = 2027.5 (TOML 1.0, toml.io: 2027.5 is
+    # a float, not text), in the same words; hours_per_fte takes the same bounds in both.
+    wb, book = _tiny_book(tmp_path, capsys)
+    for row in range(wb["settings"].max_row, 1, -1):
+        if wb["settings"].cell(row, 1).value in ("horizon.start", "horizon.count"):
+            wb["settings"].delete_rows(row)
+    periods = wb.create_sheet("periods")
+    periods.append(["name", "year", "hours_per_fte"])
+    for quarter, year, hours in ((1, 2027.5, 480), (2, 2027, 0.5), (3, 2027, 480),
+                                 (4, 2027, 480)):
+        periods.append([f"2027-Q{quarter}", year, hours])
+    wb.save(book)
+    said = _problems(book)
+    assert said[:2] == [
+        "tiny.xlsx[periods]:2: year: '2,027.5' is not valid; expected the budget year its "
+        'spending falls in, as text such as "FY27"',
+        "tiny.xlsx[periods]:3: hours_per_fte: '0.5' is not valid; expected a number from 1 "
+        "to 10,000"], said

@@ -564,3 +564,40 @@ def test_staying_put_is_an_lp_of_the_work_split_alone(monkeypatch):
     assert x is not None and x.size == model.num_cols
     assert seen and all(not m.is_integer.any() and m.num_cols < model.num_cols for m in seen)
     assert np.array_equal(x[model.is_integer], model.col_lower[model.is_integer])
+
+
+@pytest.mark.skipif(not sys.platform.startswith("linux"), reason="prctl and setpriv: Linux")
+def test_cbc_dies_with_a_run_killed_outright(tmp_path):
+    # A reviewer's check: a run killed with SIGKILL (the out-of-memory killer) runs no
+    # clean-up, and its CBC went on solving, re-parented to pid 1.  Through util-linux's
+    # setpriv --pdeathsig, the kernel now kills it with the run.
+    import os
+    import shutil
+    import signal
+    import subprocess
+    import time
+
+    import psutil
+
+    if shutil.which("setpriv") is None:
+        pytest.skip("util-linux's setpriv is not installed")
+    rebalance = Path(sys.executable).with_name("rebalance")
+    subprocess.run([str(rebalance), "generate", str(tmp_path / "i"), "--size", "small",
+                    "--seed", "1"], check=True, capture_output=True)
+    run = subprocess.Popen([str(rebalance), "plan", str(tmp_path / "i"), "-o",
+                            str(tmp_path / "o"), "--solver", "cbc", "--time-limit", "60", "-q"],
+                           stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    parent = psutil.Process(run.pid)
+    solvers: list[psutil.Process] = []
+    for _ in range(300):
+        solvers = [p for p in parent.children(recursive=True) if p.name() == "cbc"]
+        if solvers or run.poll() is not None:
+            break
+        time.sleep(0.05)
+    assert solvers, "no CBC process was seen running"
+    os.kill(run.pid, signal.SIGKILL)
+    run.wait()
+    _, alive = psutil.wait_procs(solvers, timeout=5)
+    for process in alive:
+        process.kill()
+    assert not alive

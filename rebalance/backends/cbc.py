@@ -171,6 +171,10 @@ def _cbc_launcher() -> str:
     stop had left a folder each)."""
     cbc = _bundled_cbc()
     stdbuf = shutil.which("stdbuf")
+    # util-linux's setpriv, where present, has CBC killed with this process: one killed
+    # outright (SIGKILL, the out-of-memory killer) had left CBC solving on.
+    setpriv = shutil.which("setpriv")
+    dies_with_us = f"{shlex.quote(setpriv)} --pdeathsig KILL " if setpriv else ""
     getuid = getattr(os, "getuid", None)
     if stdbuf is None or getuid is None:
         return cbc
@@ -180,11 +184,11 @@ def _cbc_launcher() -> str:
         owned = folder.stat()
         if owned.st_uid != getuid() or owned.st_mode & 0o077:
             return cbc  # not this user's alone: run nothing from it
-        digest = hashlib.sha256(f"{stdbuf}\0{cbc}".encode()).hexdigest()[:16]
+        digest = hashlib.sha256(f"{stdbuf}\0{cbc}\0{setpriv}".encode()).hexdigest()[:16]
         launcher = folder / f"cbc-lines-{digest}"
         if not launcher.is_file():
             staged = folder / f".{launcher.name}.{os.getpid()}"
-            staged.write_text(f"#!/bin/sh\nexec {shlex.quote(stdbuf)} -oL -eL "
+            staged.write_text(f"#!/bin/sh\nexec {dies_with_us}{shlex.quote(stdbuf)} -oL -eL "
                               f'{shlex.quote(cbc)} "$@"\n')
             staged.chmod(0o700)
             os.replace(staged, launcher)  # whole or not at all, whoever writes it

@@ -5,6 +5,7 @@ a step in a thread of its own, and stopping every solver process at once (Ctrl-C
 from __future__ import annotations
 
 import contextlib
+import ctypes
 import multiprocessing
 import os
 import signal
@@ -96,6 +97,23 @@ def _forget_solver_threads() -> None:
 
 
 
+# prctl's option that sends the child a signal when its parent dies (Linux, <linux/prctl.h>).
+PR_SET_PDEATHSIG = 1
+
+
+def die_with_parent(parent: int) -> None:
+    """In a child: be killed with the parent ``parent`` (Linux; elsewhere nothing).  A parent
+    killed outright (SIGKILL, the out-of-memory killer) runs no clean-up, and its solver
+    children had gone on solving, re-parented to pid 1."""
+    try:
+        libc = ctypes.CDLL(None, use_errno=True)
+        libc.prctl(PR_SET_PDEATHSIG, signal.SIGKILL)
+    except (OSError, AttributeError, TypeError):
+        return
+    if os.getppid() != parent:  # it died before the request took hold
+        os._exit(1)
+
+
 def run_in_child(run: Callable[[SolveOptions, PlanSink, BoundSink], BackendOutcome],
                   options: SolveOptions, wall_seconds: float) -> BackendOutcome:
     """``run(options, on_plan, on_bound)`` in a forked child; its outcome, or, once
@@ -114,7 +132,10 @@ def run_in_child(run: Callable[[SolveOptions, PlanSink, BoundSink], BackendOutco
     context = multiprocessing.get_context("fork")
     receiver, sender = context.Pipe(duplex=False)
 
+    parent = os.getpid()
+
     def child() -> None:
+        die_with_parent(parent)
         # The parent's handlers would kill its other children from here.
         signal.signal(signal.SIGINT, signal.default_int_handler)
         signal.signal(signal.SIGTERM, signal.SIG_DFL)

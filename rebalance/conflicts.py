@@ -2,9 +2,11 @@
 
 Limits that fail before any decision (more people at home than seats, with nothing that can
 move) are read off the model's rows; otherwise each limit row gets an elastic column and the
-least total relaxation names the limits that had to give, and by how much: way out (a).
-That total adds seats to money, so each other kind of limit is then relaxed alone, to say
-which of them would also do, and by how much: ways out (b), (c), ..., each enough on its own.
+least total relaxation (to a gap of 0; firm only where proven the least) names the limits
+that had to give, and by how much: way out (a); where that finds none in the time, the seats
+the instance alone proves no plan can keep are named.  That total adds seats to money, so
+each other kind of limit is then relaxed alone, to say which of them would also do, and by
+how much: ways out (b), (c), ..., each enough on its own.
 """
 
 from __future__ import annotations
@@ -18,7 +20,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 import scipy.sparse as sp
 
-from rebalance.backends import Backend, BackendOutcome, SolveOptions, Status
+from rebalance.backends import Backend, BackendOutcome, SolveOptions, Status, relative_gap
 from rebalance.instance import Instance
 from rebalance.model import LIMIT_FAMILIES, Model
 from rebalance.numbers import money_text, number_text
@@ -114,7 +116,10 @@ def _people(n: int, one: str) -> str:
 
 def _amount(family: str, value: float) -> str:
     """How far a limit had to give, by the number rule: money in full for a budget (it had
-    read "over by 8.16e+04"), else as a table writes a figure."""
+    read "over by 8.16e+04"), else as a table writes a figure; a solver's dust off a whole
+    number dropped ("166.000 seat-periods" had read as a fraction to keep)."""
+    if abs(value - round(value)) <= 1e-6 * max(1.0, abs(value)):
+        value = float(round(value))
     return money_text(value) if "budget" in family else number_text(value)
 
 
@@ -165,13 +170,27 @@ def _counted(family: str, value: float, one: str, many: str) -> str:
     return f"{text} {unit}" if unit else text
 
 
-def _total_line(family: str, count: int, amount: float) -> str:
-    """The least total's line for a family with several rows giving: its total is firm, its
-    split between rows is not (equally small relaxations, and so solvers, differ)."""
+def _total_line(family: str, count: int, amount: float, firm: bool = True) -> str:
+    """The least total's line for a family with several rows giving: its total is firm
+    where proven the least (``firm``), its split between rows is not (equally small
+    relaxations, and so solvers, differ)."""
     m = _measure(family)
+    said = "the total is firm" if firm else "not proven the least"
     return (f"{family.replace('_', ' ')}: "
             f"{_counted(family, amount, m.total_one, m.total_many)} {m.beyond} in all, "
-            f"across {count} {m.rows} (the total is firm; which {m.which} take it can differ)")
+            f"across {count} {m.rows} ({said}; which {m.which} take it can differ)")
+
+
+def _not_proven_line(out: BackendOutcome, total: float) -> str:
+    """The first line of a least total not proven the least: what it is at most, and why
+    the search stopped.  It had been called firm at 167.65 where 166 was the least (HiGHS
+    within the instance's 1% gap)."""
+    why = ("at the time limit" if "time" in out.words.lower() or out.killed
+           else f"before proving it ({out.words})")
+    gap = relative_gap(out.objective, out.bound)
+    left = f", a gap of {gap:.1%} left" if gap else ""
+    return (f"at most {_amount('', total)} in all (each limit in its own unit, added as one); "
+            f"not proven the least: the search stopped {why}{left}")
 
 
 @dataclass(frozen=True)
@@ -244,7 +263,8 @@ def _relaxed(model: Model, rows: list[int], backend: Backend, options: SolveOpti
 def find_conflicts(model: Model, backend: Backend, options: SolveOptions,
                    time_limit: float, instance: Instance | None = None) -> list[str]:
     """Name the limits that cannot hold together: relax each limit row by an elastic column
-    and minimise the total relaxation; rows that still need relaxing are the conflict.
+    and minimise the total relaxation, to a gap of 0; rows that still need relaxing are the
+    conflict, its total said firm only where proven the least (:func:`_not_proven_line`).
     Empty where none needs to: the model was feasible all along.  With ``instance`` (the
     model's), seats say whom they are short of (:func:`seat_words`).
 
@@ -261,17 +281,22 @@ def find_conflicts(model: Model, backend: Backend, options: SolveOptions,
     # Where the other ways out could not have their least time each (one kind fewer than
     # there are: the answer's own, where it is one), the least total keeps it all.
     others = (1 - LEAST_SHARE) * time_limit / max(len(kinds) - 1, 1) >= MIN_ALTERNATIVE_SECONDS
-    out = _relaxed(model, limit_rows, backend, options,
+    # The least, not one within the plan's gap: at the instance's 1% HiGHS had called 167.65
+    # (away share and seats) firm where seats alone at 166 was the least.
+    out = _relaxed(model, limit_rows, backend, replace(options, relative_gap=0.0),
                    LEAST_SHARE * time_limit if others else time_limit)
     least_seconds = time.perf_counter() - started
-    if out.x is None:
-        return [f"the limits conflict, but the analysis found no relaxation ({out.words})"]
+    if out.x is None or not out.status.has_plan:
+        return _unrelaxed_lines(out, instance)
     excess = out.x[model.num_cols:]
     over = np.flatnonzero(excess > 1e-6)
     if not len(over):
         return []  # nothing had to give: the caller says the verdict was the solver's
-    # The least total relaxation is the answer's firm part; how it splits between offices
-    # and periods can differ between equally small relaxations (and so between solvers).
+    # Firm only where proven the least: optimal at a gap of 0.
+    firm = out.status is Status.OPTIMAL
+    # The least total relaxation, where proven, is the answer's firm part; how it splits
+    # between offices and periods can differ between equally small relaxations (and so
+    # between solvers).
     totals: dict[str, tuple[int, float]] = {}
     for i in over:
         family, _ = model.row_label(limit_rows[i])
@@ -283,10 +308,39 @@ def find_conflicts(model: Model, backend: Backend, options: SolveOptions,
     # A moves budget that would do alone is what stops the moves seats need, where the
     # rules let enough people go: the seats say so.
     seats = seat_words(instance, _money_short(model, ways)) if instance is not None else {}
-    least = ([_total_line(family, count, amount)
-              for family, (count, amount) in totals.items() if count > 1]
+    least = (([] if firm else [_not_proven_line(out, float(excess[over].sum()))])
+             + [_total_line(family, count, amount, firm)
+                for family, (count, amount) in totals.items() if count > 1]
              + [_describe_row(model, limit_rows[i], float(excess[i]), seats) for i in over])
     return _ways_lines(model, least, ways, len(answered) > 1)
+
+
+def _unrelaxed_lines(out: BackendOutcome, instance: Instance | None) -> list[str]:
+    """Where the least relaxation found none (stopped in the time, most often): the seats
+    the instance alone proves no plan can keep (:func:`seats_cannot_hold`, as ``rebalance
+    check`` says), each in the words of a seats limit, so that a run that ends as infeasible
+    names the limits it can prove conflict.  On medium at 10 seats for 88 people it had
+    named none ("the analysis found no relaxation (stopped at the time limit)")."""
+    found = (f"the analysis found no relaxation"
+             f"{' in the time' if out.status is Status.NO_PLAN_IN_TIME else ''} ({out.words})")
+    proven = _seats_proven(instance) if instance is not None else []
+    if not proven:
+        return [f"the limits conflict, but {found}"]
+    return [f"Limits that no plan can keep, from the instance alone ({found}; so not how far "
+            "each must give, nor the other ways out):", *proven]
+
+
+def _seats_proven(instance: Instance) -> list[str]:
+    """'seats: A in 2027-Q1: 2 seats for 5 people based there; 3 must be away ...' for each
+    office-period where too few may be away (:meth:`Instance.seat_counts`) or that is in a
+    run of periods too few may be away over (:meth:`Instance.seat_windows`)."""
+    names, words = instance.period_names, seat_words(instance)
+    windows = instance.seat_windows()
+    return [f"seats: {label}: {words[label]}"
+            for c in instance.seat_counts()
+            if c.too_few_may_go or (c.must_go and any(
+                w.office == c.office and w.first <= c.period <= w.last for w in windows))
+            for label in [f"{c.office} in {names[c.period]}"]]
 
 
 def _money_short(model: Model, ways: WaysOut) -> dict[str, str]:

@@ -12,15 +12,20 @@ only as "raised by", and where no kind would do alone nothing was said.
 from __future__ import annotations
 
 import json
+import re
 import shutil
 import time
 from dataclasses import replace
 
+import numpy as np
 import pytest
+import scipy.sparse as sp
 from conftest import DATA
+from scipy.optimize import Bounds, LinearConstraint, milp
 
 from rebalance import read_instance
-from rebalance.backends import HighsBackend, SolveOptions, Status
+from rebalance.backends import BackendOutcome, HighsBackend, SolveOptions, Status
+from rebalance.backends.common import KILLED
 from rebalance.cli import EXIT_INFEASIBLE, main
 from rebalance.conflicts import (
     ONE_WAY_HEADING,
@@ -29,8 +34,9 @@ from rebalance.conflicts import (
     _ways_lines,
     find_conflicts,
 )
+from rebalance.generate import GeneratorSpec, generate, write_generated
 from rebalance.instance import Budget, Instance, Policy
-from rebalance.model import build_model
+from rebalance.model import LIMIT_FAMILIES, build_model
 from rebalance.planning import make_plan, options_from_instance, summary_dict
 
 # Hand count (tests/data/seats_short/NOTE.md, share 0.5): A's 2 seats hold 5 people in Q1-Q2
@@ -242,3 +248,131 @@ def test_a_kind_the_lp_rules_out_is_not_searched_and_the_lines_are_the_searches(
     assert (find_conflicts(model, lp_first, options, 20.0, instance)
             == find_conflicts(model, searched_only, options, 20.0, instance))
     assert lp_first.searches == searches
+
+
+class _StoppedFirst:
+    """HiGHS whose first run, the least total, is handed back as a search stopped at the time
+    limit with its plan and a lower bound of half of it: the outcome of a run cut short,
+    forced (a real stop depends on the machine's speed).  Records each run's gap asked."""
+
+    name, reruns_cheaply = "highs", True
+
+    def __init__(self) -> None:
+        self.inner, self.gaps = HighsBackend(), []
+
+    def version(self) -> str:
+        return self.inner.version()
+
+    def run(self, model, objective, extra_rows, options, time_limit, start):
+        self.gaps.append(options.relative_gap)
+        out = self.inner.run(model, objective, extra_rows, options, time_limit, start)
+        if len(self.gaps) == 1 and out.objective is not None:
+            out = replace(out, status=Status.FEASIBLE_WITH_GAP, words=KILLED,
+                          bound=out.objective / 2)
+        return out
+
+
+def test_a_least_total_not_proven_says_at_most_and_why_and_is_never_firm():
+    # seats_short at a moves budget of 0: the least total is 10 seat-periods (hand count
+    # above); here its search is stopped with a bound of 5.
+    instance = _seats_short_with_moves(0.0)
+    backend = _StoppedFirst()
+    conflicts = find_conflicts(build_model(instance), backend,
+                               SolveOptions(relative_gap=0.01), 20.0, instance)
+    assert conflicts[1] == ("(a) at most 10 in all (each limit in its own unit, added as one); "
+                            "not proven the least: the search stopped at the time limit, a gap "
+                            "of 50.0% left")
+    assert conflicts[2] == ("seats: 10 seat-periods short in all, across 4 office-periods (not "
+                            "proven the least; which offices and periods take it can differ)")
+    assert not any("firm" in c for c in conflicts)
+    # The least total is searched to a gap of 0 whatever the plan's gap (0.01 here).
+    assert backend.gaps[0] == 0.0
+
+
+def _least_total(conflicts: tuple[str, ...] | list[str]) -> float:
+    """The sum of way out (a)'s rows, "(over by 21)" each."""
+    rows = conflicts[1:next((i for i, c in enumerate(conflicts) if c.startswith("(b)")),
+                            len(conflicts))]
+    return sum(float(m.group(1).replace(",", ""))
+               for c in rows for m in [re.search(r"\(over by ([\d,.]+)\)", c)] if m)
+
+
+def test_the_least_total_is_the_least_and_firm_at_the_plans_gap_of_1_percent(tmp_path):
+    # The reviewer's case: 300 generated people, the first office at 5 seats for 30 based
+    # there. At the generated gap of 1% HiGHS had stopped at 167.65 (away share 1.65, away
+    # share in whole people 3, seats 163) and called it firm; the least is seats alone, 166.
+    spec = GeneratorSpec(staff=300, offices=8, skills=6, periods=8, seed=1)
+    folder = write_generated(generate(spec), tmp_path / "small")
+    offices = folder / "offices.csv"
+    lines = offices.read_text().splitlines()
+    cells = lines[1].split(",")
+    cells[2] = "5"
+    offices.write_text("\n".join([lines[0], ",".join(cells), *lines[2:]]) + "\n")
+    instance = read_instance(folder)
+    assert instance.solver.relative_gap == 0.01
+    model = build_model(instance)
+    conflicts = find_conflicts(model, HighsBackend(),
+                               options_from_instance(instance, solver="highs"), 30.0, instance)
+    # Reference: scipy's milp (its own HiGHS build, asked for a gap of 0) on the same rows
+    # with an elastic column on every limit row, built here, not by rebalance.conflicts.
+    limit_rows = [i for f in model.rows if f.name in LIMIT_FAMILIES
+                  for i in range(f.start, f.stop) if np.isfinite(model.row_upper[i])]
+    k = len(limit_rows)
+    elastic = sp.csr_matrix((-np.ones(k), (limit_rows, np.arange(k))),
+                            shape=(model.num_rows, k))
+    reference = milp(np.concatenate([np.zeros(model.num_cols), np.ones(k)]),
+                     constraints=LinearConstraint(sp.hstack([model.matrix, elastic]),
+                                                  model.row_lower, model.row_upper),
+                     integrality=np.concatenate([model.is_integer, np.zeros(k)]),
+                     bounds=Bounds(np.concatenate([model.col_lower, np.zeros(k)]),
+                                   np.concatenate([model.col_upper, np.full(k, np.inf)])),
+                     options={"mip_rel_gap": 0.0})
+    assert reference.status == 0 and reference.fun == pytest.approx(166.0)
+    assert _least_total(conflicts) == pytest.approx(reference.fun, abs=1e-6)
+    assert conflicts[1] == ("(a) seats: 166 seat-periods short in all, across 8 office-periods "
+                            "(the total is firm; which offices and periods take it can differ)")
+
+
+class _NoPlanInTime:
+    """HiGHS that finds nothing in the time: every run ends as no plan within the limit."""
+
+    name, reruns_cheaply = "highs", True
+
+    def version(self) -> str:
+        return HighsBackend().version()
+
+    def run(self, model, objective, extra_rows, options, time_limit, start):
+        return BackendOutcome(Status.NO_PLAN_IN_TIME, None, None, None, KILLED, time_limit)
+
+
+def test_with_no_relaxation_in_the_time_the_seats_the_instance_proves_are_named():
+    # tiny with 1 seat at each office. Hand count (as tests/test_seat_windows.py): A has a1,
+    # a2, a3 every quarter, so 2 must be away each quarter; a2 may be reassigned and a1
+    # detailed, 2 a quarter, but a1 at most 2 quarters of any 3 and a3 never: in Q1-Q3 6
+    # person-periods must be away and at most 5 may be. B's 1 seat holds b1. The relaxation
+    # finding nothing had named no limit.
+    instance = _tiny_with_one_seat()
+    conflicts = find_conflicts(build_model(instance), _NoPlanInTime(), SolveOptions(), 5.0,
+                               instance)
+    assert conflicts[0] == ("Limits that no plan can keep, from the instance alone (the "
+                            "analysis found no relaxation in the time (stopped at the time "
+                            "limit); so not how far each must give, nor the other ways out):")
+    assert conflicts[1:] == [
+        f"seats: A in 2027-Q{q}: 1 seat for 3 people based there; 2 must be away or moved, "
+        "and at most 2 may be away or moved then, but not in every period: in 2027-Q1 to "
+        "2027-Q3, 6 person-periods must be away and at most 5 may be "
+        "(max_consecutive_detail_periods = 2: a person on detail is back 1 period in any 3)"
+        for q in range(1, 4)]
+    # Without the instance there is nothing to prove it by: said as before.
+    assert find_conflicts(build_model(instance), _NoPlanInTime(), SolveOptions(), 5.0) == [
+        "the limits conflict, but the analysis found no relaxation in the time (stopped at "
+        "the time limit)"]
+
+
+def test_a_plan_the_instance_proves_impossible_goes_straight_to_the_conflicts():
+    # No stage is run where `rebalance check` already proves the seats cannot hold: medium
+    # at 10 seats had spent 9.6 s of 15 on a stage that ended with no plan (exit 5).
+    instance = _tiny_with_one_seat()
+    result = make_plan(instance, options_from_instance(instance))
+    assert result.status is Status.INFEASIBLE and result.solve.stages == ()
+    assert result.solve.conflicts[1].startswith("(a) seats: ")

@@ -254,7 +254,15 @@ def _data_warnings(instance: Instance, office_rows: Mapping[str, int],
     for count in instance.seat_counts():
         seat_counts.setdefault(count.office, []).append(count)
     windows = {w.office: w for w in instance.seat_windows()}
+    # An office with staff and no demand at all: its people can only be sent away or idle,
+    # as where rows were lost (a history of two offices written over six's demand).
+    demanded = {d.office for d in instance.demand}
     for office in instance.offices:
+        if office.name in homes and demanded and office.name not in demanded:
+            out.append(Problem("offices.csv", office_rows.get(office.name), "office",
+                               f"no demand rows for '{office.name}', where staff are based: "
+                               "its people can only be detailed out or left idle; were rows "
+                               "left out?", is_warning=True))
         if office.name not in homes:
             out.append(Problem("offices.csv", office_rows.get(office.name), "office",
                                f"nobody on staff is based at '{office.name}'",

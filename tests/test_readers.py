@@ -120,6 +120,14 @@ def test_warnings_do_not_stop_a_solve(tmp_path):
     # Demand in Q1 and Q2 only: Q3 and Q4 have no rows (hand count of the rows above).
     assert ("demand.csv: period: no rows for 2027-Q3 and 2027-Q4, while other periods have "
             "some: were rows left out?") in text
+    # Staff at B, demand at A only: B's people can only be sent away or idle (a history of
+    # two offices written over six's demand had left four without rows, unsaid).
+    (target / "staff.csv").write_text("person,home_office,fte,skills\nx,A,1,review\n"
+                                      "y,B,1,review\n")
+    text = "\n".join(read_instance(target).warnings)
+    assert ("offices.csv:3: office: no demand rows for 'B', where staff are based: its people "
+            "can only be detailed out or left idle; were rows left out?") in text
+    assert "'A', where staff" not in text and "based at 'B'" not in text
 
 
 def test_a_time_to_hire_warning_names_the_skills_own_row(tmp_path):

@@ -1,15 +1,25 @@
 """rebalance: from a forecast of work to a verified staffing plan."""
 
-from rebalance.backends import TimeShares
-from rebalance.instance import Instance
-from rebalance.model import Model, build_model
-from rebalance.plan import Plan, extract_plan, read_plan
-from rebalance.planning import PlanResult, make_plan, options_from_instance, write_outputs
-from rebalance.problems import Problem
-from rebalance.readers import InstanceError, read_instance
-from rebalance.solve import SolveOptions, SolveResult, Status, solve
-from rebalance.verify import Violation, verify_folder, verify_plan
+from __future__ import annotations
 
+import importlib
+from typing import TYPE_CHECKING, Any
+
+# Where each name of the API lives: imported on first use (PEP 562), so that the command
+# line's first lines run before pandas, pulp and highspy load (a Ctrl-C while they loaded
+# had printed a traceback).
+_WHERE = {
+    "TimeShares": "rebalance.backends", "Instance": "rebalance.instance",
+    "Model": "rebalance.model", "build_model": "rebalance.model",
+    "Plan": "rebalance.plan", "extract_plan": "rebalance.plan", "read_plan": "rebalance.plan",
+    "PlanResult": "rebalance.planning", "make_plan": "rebalance.planning",
+    "options_from_instance": "rebalance.planning", "write_outputs": "rebalance.planning",
+    "Problem": "rebalance.problems", "InstanceError": "rebalance.readers",
+    "read_instance": "rebalance.readers", "SolveOptions": "rebalance.solve",
+    "SolveResult": "rebalance.solve", "Status": "rebalance.solve", "solve": "rebalance.solve",
+    "Violation": "rebalance.verify", "verify_folder": "rebalance.verify",
+    "verify_plan": "rebalance.verify",
+}
 __all__ = [
     "Instance",
     "InstanceError",
@@ -33,3 +43,23 @@ __all__ = [
     "verify_plan",
     "write_outputs",
 ]
+
+
+def __getattr__(name: str) -> Any:
+    if name not in _WHERE:
+        raise AttributeError(f"module 'rebalance' has no attribute {name!r}")
+    value = getattr(importlib.import_module(_WHERE[name]), name)
+    globals()[name] = value
+    return value
+
+
+if TYPE_CHECKING:
+    from rebalance.backends import TimeShares
+    from rebalance.instance import Instance
+    from rebalance.model import Model, build_model
+    from rebalance.plan import Plan, extract_plan, read_plan
+    from rebalance.planning import PlanResult, make_plan, options_from_instance, write_outputs
+    from rebalance.problems import Problem
+    from rebalance.readers import InstanceError, read_instance
+    from rebalance.solve import SolveOptions, SolveResult, Status, solve
+    from rebalance.verify import Violation, verify_folder, verify_plan

@@ -17,11 +17,35 @@ outcomes give 4 if any point is infeasible, else 7): docs/analysis.md, *Exit cod
 
 from __future__ import annotations
 
+import os
+import sys
+
+
+def _stopped_early(kind: type[BaseException], value: BaseException, tb: object) -> None:
+    """``sys.excepthook`` of the command line: a Ctrl-C before :func:`main` runs (while the
+    modules load, the first half second) ends the run as a stop later does, exit 130 with
+    one line, not a traceback."""
+    if issubclass(kind, KeyboardInterrupt):
+        try:
+            sys.stderr.write("stopped from outside; nothing written\n")
+            sys.stderr.flush()
+        finally:
+            os._exit(130)
+    _EXCEPTHOOK(kind, value, tb)  # type: ignore[arg-type]
+
+
+# ruff: noqa: E402 (the hook goes in before the other imports)
+# First, before the slow imports below; not at an interactive prompt, whose Ctrl-C must not
+# end it.  (rebalance/__init__.py runs before this module: what it imports comes first.)
+_EXCEPTHOOK = sys.excepthook
+if not sys.flags.interactive and not hasattr(sys, "ps1"):
+    sys.excepthook = _stopped_early
+
 import argparse
 import math
-import os
 import shlex
-import sys
+import signal
+import threading
 import time
 from collections.abc import Sequence
 from dataclasses import replace
@@ -47,6 +71,8 @@ from rebalance.cli_common import (
     _err,
     _keep_frontier,
     _load,
+    _os_error,
+    _output_refused,
     _unreadable_plan,
     add_solver_options,
     scenario_of,
@@ -471,37 +497,68 @@ class _ReaderMayLeave:
 
 
 def main(argv: Sequence[str] | None = None) -> int:
+    from rebalance.files import forget_written
+
+    forget_written()
     streams = sys.stdout, sys.stderr
     sys.stdout, sys.stderr = _ReaderMayLeave(sys.stdout), _ReaderMayLeave(sys.stderr)
+    before = _stop_by_interrupt()
     try:
-        return _main(argv)
+        try:
+            return _main(argv)
+        except KeyboardInterrupt:  # anywhere: reading, solving, writing, saying
+            _say_stopped()
+            return EXIT_STOPPED
+        finally:
+            sys.stdout.flush()  # through the guard (--help too): what is still buffered may
+    except KeyboardInterrupt:  # meet a reader that has gone; a second stop while it is said
+        return EXIT_STOPPED
     finally:
-        sys.stdout.flush()  # through the guard (--help too): what is still buffered may meet
-        sys.stdout, sys.stderr = streams  # a reader that has gone
+        for sig, handler in before.items():
+            signal.signal(sig, handler)
+        sys.stdout, sys.stderr = streams
+
+
+def _stop_by_interrupt() -> dict[int, Any]:
+    """SIGTERM raises KeyboardInterrupt for the whole run, as Ctrl-C does, where it had its
+    default action: between the solve's handlers and the end, it had killed the run without
+    a word (exit 143).  The handlers there were, to restore."""
+    if (threading.current_thread() is not threading.main_thread()
+            or signal.getsignal(signal.SIGTERM) != signal.SIG_DFL):
+        return {}
+    return {signal.SIGTERM: signal.signal(signal.SIGTERM, signal.default_int_handler)}
+
+
+def _say_stopped() -> None:
+    """That the run was stopped, and what it had put in place first: a plan folder swapped in
+    whole just before the stop is written (it had read "nothing written")."""
+    from rebalance.files import written
+
+    done = written()
+    if not done:
+        _err("stopped from outside; nothing written")
+        return
+    names = ", ".join(f"{path}/" if path.is_dir() else str(path) for path in done)
+    _err(f"{names}: written in full; then stopped from outside (nothing else written)")
 
 
 def _main(argv: Sequence[str] | None) -> int:
     args = build_parser().parse_args(argv)
-    from rebalance.files import OutputInUse, output_problem
+    from rebalance.files import OutputInUse
 
-    # Before any solve: a run refused only at the end would have wasted its time limit.
-    problem = output_problem(args.out, args.output_kind) if hasattr(args, "output_kind") else None
+    # Before any solve, any read: a run refused only at the end would have wasted its time.
+    problem = _output_refused(args)
     if problem is not None:
         _err(problem)
         return EXIT_USAGE
     try:
         with stoppable():
             code: int = args.run(args)
-    except KeyboardInterrupt:
-        _err("stopped from outside; nothing written")
-        return EXIT_STOPPED
     except OutputInUse as exc:  # the output path changed while the run solved
         _err(str(exc))
         return EXIT_USAGE
     except OSError as exc:  # a full disk, no permission: every output is staged or atomic
-        where = getattr(args, "out", None) or exc.filename or "the output"
-        _err(f"{where}: cannot be written ({exc.strerror or exc}); nothing was written")
-        return EXIT_USAGE
+        return _os_error(args, exc)
     except Exception as exc:  # the last line of defence: a message, not a traceback
         _err(f"internal error: {type(exc).__name__}: {exc}")
         _err("please report this with the instance that caused it")

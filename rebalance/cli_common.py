@@ -10,6 +10,7 @@ from __future__ import annotations
 import argparse
 import json
 import math
+import os
 import sys
 from collections.abc import Callable, Sequence
 from pathlib import Path
@@ -51,6 +52,9 @@ def _load(path: str, writes: bool = True) -> Instance | None:
     False (``check``, which never writes): no "nothing was written" after the count."""
     try:
         return read_instance(path)
+    except OSError as exc:  # no permission, a file gone meanwhile: the input, not an output
+        _err(_unreadable(exc, path) + ("; nothing was written" if writes else ""))
+        return None
     except InstanceError as exc:
         errors = [p for p in exc.problems if not p.is_warning]
         _err(f"{path}: {problems_counted(count_problems(errors))} in the input"
@@ -58,6 +62,92 @@ def _load(path: str, writes: bool = True) -> Instance | None:
         for problem in exc.problems:
             _err(("  warning: " if problem.is_warning else "  ") + str(problem))
         return None
+
+
+def _unreadable(exc: OSError, path: str | Path) -> str:
+    """``exc``'s file (else ``path``) cannot be read, and why."""
+    return f"{exc.filename or path}: cannot be read ({exc.strerror or exc})"
+
+
+# What each command writes: (attribute, how), "folder" replaced whole, "into" files added
+# into a folder, "file" one file, "there" files added into a folder that must exist (the
+# command itself says so where it does not); the attributes it reads from are its inputs.
+_WRITES = {"plan": (("out", "folder"),), "compare": (("out", "folder"),),
+           "replan": (("out", "folder"),), "marginal": (("out", "folder"),),
+           "generate": (("out", "folder"),), "frontier": (("out", "into"),),
+           "workbook": (("out", "file"),), "report": (("plan_dir", "there"),),
+           "demand": (("out", "there"), ("report", "folder"))}
+_READS = {"instance": "the instance", "from_dir": "the --from folder",
+          "scenario": "a scenario file", "history": "the history", "folder": "the instance"}
+
+
+def _outputs(args: argparse.Namespace) -> list[tuple[str, str]]:
+    """The paths ``args.command`` writes, each with how (see ``_WRITES``)."""
+    found = []
+    for name, how in _WRITES.get(args.command, ()):
+        value = getattr(args, name, None)
+        if name == "report" and value is None:  # demand's default report folder, in OUT
+            value = str(Path(args.out) / "demand_report") if Path(args.out).is_dir() else None
+        if value is not None:
+            found.append((value, how))
+    return found
+
+
+def _inputs(args: argparse.Namespace) -> list[tuple[str, str]]:
+    """The paths ``args`` names to read from, each with what it is."""
+    found: list[tuple[str, str]] = []
+    for name, what in _READS.items():
+        value = getattr(args, name, None)
+        for path in value if isinstance(value, list) else [] if value is None else [value]:
+            found.append((what, path))
+    return found
+
+
+def _output_refused(args: argparse.Namespace) -> str | None:
+    """Why an output of ``args`` cannot be written, before anything is read or solved (an
+    unwritable ``-o`` had been found only after the whole solve), or None."""
+    from rebalance.files import input_problem, output_problem, place_problem, unwritable
+
+    inputs = _inputs(args)
+    for path, how in _outputs(args):
+        # The current folder first (a plan folder replaced from inside it), then what is
+        # there, then an input it holds, then whether it can be made.
+        # An empty folder is filled in place (files.staged_folder): generate . is fine there.
+        filled = args.command == "generate" and Path(path).is_dir() and not any(
+            Path(path).iterdir())
+        problem = place_problem(path) if how == "folder" and not filled else None
+        if problem is None and hasattr(args, "output_kind") and path == args.out:
+            problem = output_problem(path, args.output_kind)
+        if problem is None and how == "folder":
+            problem = input_problem(path, inputs)
+        if how == "there" and not Path(path).is_dir():
+            continue
+        problem = problem or unwritable(path, into=how in ("into", "there"))
+        if problem is not None:
+            return problem
+    return None
+
+
+def _os_error(args: argparse.Namespace, exc: OSError) -> int:
+    """A file that could not be read or written, said as which: an input that cannot be read
+    is invalid input (exit 3), not an output that "cannot be written" (an unreadable
+    staff.csv had blamed the -o folder)."""
+    name = exc.filename
+    holding = [path for path, _ in _outputs(args)
+               if name is not None and _within(name, path, sibling=True)]
+    if name is not None and not holding and any(_within(name, path) for _, path in _inputs(args)):
+        _err(_unreadable(exc, name) + "; nothing was written")
+        return EXIT_INVALID_INPUT
+    where = (holding or [name or getattr(args, "out", None) or "the output"])[0]
+    _err(f"{where}: cannot be written ({exc.strerror or exc}); nothing was written")
+    return EXIT_USAGE
+
+
+def _within(name: str | Path, path: str | Path, sibling: bool = False) -> bool:
+    """``name`` is ``path`` or inside it, or (``sibling``) a name staged beside it."""
+    real, top = Path(os.path.realpath(name)), Path(os.path.realpath(path))
+    return real == top or top in real.parents or (
+        sibling and real.parent == top.parent and real.name.startswith(f".{top.name}."))
 
 
 def _say_violations(head: str, violations: Sequence[Violation]) -> None:

@@ -7,11 +7,18 @@ import contextlib
 import os
 import secrets
 import shutil
-from collections.abc import Iterator
+import signal
+import threading
+from collections.abc import Iterator, Sequence
 from pathlib import Path
 
-__all__ = ["OutputInUse", "atomic_file", "instance_file", "mark_folder", "output_problem",
-           "sibling_name", "staged_folder"]
+__all__ = ["OutputInUse", "atomic_file", "forget_written", "input_problem", "instance_file",
+           "mark_folder", "output_problem", "place_problem", "sibling_name", "staged_folder",
+           "unwritable", "written"]
+
+# What this process has put in place (a folder swapped in, a file renamed), newest last: a
+# stop that comes after a swap must not say "nothing written" of a complete plan.
+_WRITTEN: list[Path] = []
 
 # Written into every folder staged with a kind: its content names the kind, so a later run
 # replaces only a folder of the same kind that this tool wrote.
@@ -43,7 +50,9 @@ def atomic_file(path: str | Path) -> Iterator[Path]:
     tmp = sibling_name(target)
     try:
         yield tmp
-        os.replace(tmp, target)
+        with _stops_held():  # the rename and its record together
+            os.replace(tmp, target)
+            _WRITTEN.append(target)
     except BaseException:
         tmp.unlink(missing_ok=True)  # begun, say, before a full disk stopped it
         raise
@@ -129,20 +138,157 @@ def staged_folder(out_dir: str | Path, kind: str | None = None) -> Iterator[Path
                           f"{exc.filename}); nothing was written") from None
     tmp = sibling_name(out)
     tmp.mkdir()
-    if kind is not None:
-        mark_folder(tmp, kind)
+    # Files renamed into place inside the staged folder are not written until it is.
+    before = len(_WRITTEN)
     try:
+        if kind is not None:
+            mark_folder(tmp, kind)
         yield tmp
     except BaseException:
+        del _WRITTEN[before:]
         shutil.rmtree(tmp, ignore_errors=True)
         raise
+    del _WRITTEN[before:]
+    # The swap and its clean-up run whole: a stop between the two renames had left no folder
+    # at OUT, old and new plans hidden beside it, and the words "nothing written".  A stop
+    # that came meanwhile is delivered after, with OUT recorded as written.
+    try:
+        with _stops_held():
+            _swap(tmp, out)
+            _WRITTEN.append(out)
+    except BaseException:
+        shutil.rmtree(tmp, ignore_errors=True)  # gone already where the swap was made
+        raise
+
+
+def _swap(tmp: Path, out: Path) -> None:
+    """Put folder ``tmp`` at ``out``, removing what was there; on a failure, ``out`` as it
+    was.  An empty folder at ``out`` is filled, not replaced: it may be the current folder
+    (``rebalance generate .``), which a swap would leave a shell in as a deleted folder."""
+    if out.is_dir() and not any(out.iterdir()):
+        moved: list[Path] = []
+        try:
+            for entry in sorted(tmp.iterdir()):
+                os.replace(entry, out / entry.name)
+                moved.append(out / entry.name)
+        except BaseException:
+            for path in moved:  # out was empty: back to empty
+                if path.is_dir():
+                    shutil.rmtree(path, ignore_errors=True)
+                else:
+                    path.unlink(missing_ok=True)
+            raise
+        tmp.rmdir()
+        return
     old = None
     if out.exists():
         old = sibling_name(out)
         os.replace(out, old)
-    os.replace(tmp, out)
+    try:
+        os.replace(tmp, out)
+    except BaseException:
+        if old is not None:
+            os.replace(old, out)
+        raise
     if old is not None:
         if old.is_dir():
             shutil.rmtree(old, ignore_errors=True)
         else:  # a file replaced by --force (rmtree had left it behind, hidden)
             old.unlink(missing_ok=True)
+
+
+_STOPS = (signal.SIGINT, signal.SIGTERM)
+
+
+@contextlib.contextmanager
+def _stops_held() -> Iterator[None]:
+    """SIGINT and SIGTERM held back within and delivered on leaving, to the handlers there
+    were before.  Python handlers, not only ``signal.pthread_sigmask``: a mask holds back
+    only this thread's signals, and the kernel hands a process's signal to any thread not
+    masking it (a solver's or a pool's), whose handler would still raise here between two
+    renames.  Signals reach Python's handlers in the main thread only, so elsewhere this
+    holds nothing back (nor can a signal interrupt such a thread)."""
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    held: list[int] = []
+
+    def hold(signum: int, frame: object) -> None:
+        held.append(signum)
+
+    before = {sig: signal.signal(sig, hold) for sig in _STOPS}
+    try:
+        yield
+    finally:
+        for sig, handler in before.items():  # None: one set outside Python, not restorable
+            signal.signal(sig, signal.SIG_DFL if handler is None else handler)
+        for signum in dict.fromkeys(held):  # each once, in order of arrival
+            signal.raise_signal(signum)
+
+
+def written() -> list[Path]:
+    """What this process has put in place since :func:`forget_written`, oldest first."""
+    return list(_WRITTEN)
+
+
+def forget_written() -> None:
+    """Start a new record of what is written (a command line run's start)."""
+    _WRITTEN.clear()
+
+
+def unwritable(path: str | Path, into: bool = False) -> str | None:
+    """Why a file or folder cannot be written at ``path``, or None: found before a solve
+    (an unwritable ``-o`` had been found only after one).  ``into``: files are written
+    into the folder ``path`` (where it exists) rather than beside it.
+
+    The nearest folder that exists on the way is tried with a folder made and removed there
+    at once: no permission, a read-only disk, /proc all say so; a file on the way is named.
+    """
+    if not str(path):
+        return "an empty name is no folder; nothing was written"
+    target = Path(os.path.abspath(path))
+    start = target if into and target.is_dir() else target.parent
+    for folder in (start, *start.parents):
+        if folder.is_dir():
+            break
+        if folder.exists() or folder.is_symlink():
+            return (f"{path}: its folder cannot be made ({folder} is a file, not a folder); "
+                    "nothing was written")
+    probe = sibling_name(folder / "probe")
+    try:
+        probe.mkdir()
+        probe.rmdir()
+    except OSError as exc:
+        return (f"{path}: cannot be written ({exc.strerror or exc}: {folder}); "
+                "nothing was written")
+    return None
+
+
+def place_problem(out: str | Path) -> str | None:
+    """Why the folder ``out``, replaced whole, would take the current folder with it, or
+    None: ``out`` is empty (the current folder), the current folder or one of its parents
+    (``-o .`` had removed the folder the shell was in)."""
+    if not str(out):
+        return ("an empty name is no folder (it would be the current folder); give a "
+                "folder of its own for the output; nothing was written")
+    target = Path(os.path.realpath(out))
+    here = Path(os.path.realpath(os.getcwd()))
+    if target == here or target in here.parents:
+        return (f"{out}: is the current folder or holds it; the output replaces its folder "
+                "whole, so give a folder of its own; nothing was written")
+    return None
+
+
+def input_problem(out: str | Path, inputs: Sequence[tuple[str, str | Path]]) -> str | None:
+    """Why the folder ``out``, replaced whole, would take one of ``inputs`` with it, each
+    (what it is, its path): the instance, the plan re-planned from; or None."""
+    target = Path(os.path.realpath(out))
+    for what, given in inputs:
+        if not str(given):
+            continue
+        real = Path(os.path.realpath(given))
+        if real == target or target in real.parents:
+            return (f"{out}: {'is' if real == target else 'holds'} {what} ({given}), which "
+                    "the output would replace; give another folder to keep both; nothing was "
+                    "written")
+    return None

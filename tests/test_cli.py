@@ -9,6 +9,7 @@ import signal
 import subprocess
 import sys
 import time
+from pathlib import Path
 
 import pandas as pd
 import psutil
@@ -19,6 +20,7 @@ import rebalance.model as model_module
 import rebalance.planning as planning_module
 from rebalance.cli import (
     EXIT_INFEASIBLE,
+    EXIT_INVALID_INPUT,
     EXIT_NO_PLAN_IN_TIME,
     EXIT_OK,
     EXIT_SOLVER_ERROR,
@@ -551,3 +553,144 @@ def test_a_full_disk_while_writing_is_said_plainly_and_writes_nothing(tmp_path, 
     assert "internal error" not in err
     assert sorted(p.name for p in out.iterdir()) == before
     assert not [p for p in tmp_path.iterdir() if p.name.startswith(".")]
+
+
+@pytest.mark.parametrize("sig", [signal.SIGINT, signal.SIGTERM])
+def test_a_stop_just_after_the_plan_is_swapped_in_says_it_was_written(tmp_path, monkeypatch,
+                                                                     capsys, sig):
+    # It had said "stopped from outside; nothing written" of a folder holding the new plan
+    # whole.  The signal is sent by the last rename itself, not timed.
+    import os
+
+    import rebalance.files as files_module
+
+    out = tmp_path / "plan"
+    real_replace = os.replace
+
+    def replace(src, dst):  # type: ignore[no-untyped-def]
+        real_replace(src, dst)
+        if str(dst) == str(out):
+            os.kill(os.getpid(), sig)
+
+    monkeypatch.setattr(files_module.os, "replace", replace)
+    assert main(["plan", str(DATA / "tiny"), "-o", str(out), "--quiet"]) == EXIT_STOPPED
+    err = capsys.readouterr().err
+    assert f"{out}/: written in full; then stopped from outside" in err
+    assert "nothing written" not in err
+    assert (out / "summary.json").is_file()
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["plan"]
+
+
+def test_a_sigterm_after_the_solve_handlers_are_gone_is_still_said(tmp_path):
+    # Between the solve's handlers and the end, SIGTERM had its default action: the run died
+    # without a word (exit 143, 128 + SIGTERM by the shells' rule).  Sent in a child process,
+    # which that default would kill.
+    out = tmp_path / "plan"
+    script = (
+        "import contextlib, os, signal, sys\n"
+        "import rebalance.cli as cli\n"
+        "real = cli.stoppable\n"
+        "@contextlib.contextmanager\n"
+        "def then_term():\n"
+        "    with real():\n"
+        "        yield\n"
+        "    os.kill(os.getpid(), signal.SIGTERM)\n"
+        "cli.stoppable = then_term\n"
+        f"sys.exit(cli.main(['plan', {str(DATA / 'tiny')!r}, '-o', {str(out)!r}, '-q']))\n")
+    done = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True,
+                          cwd=ROOT, timeout=300)
+    assert done.returncode == EXIT_STOPPED, done.stderr
+    assert f"{out}/: written in full; then stopped from outside" in done.stderr
+    assert "Plan for tiny" in done.stdout  # what was said before is not lost
+
+
+def test_a_ctrl_c_before_main_runs_ends_quietly_with_130():
+    # While the modules load there is no main() to catch it: it had printed a traceback.
+    done = subprocess.run([sys.executable, "-c", "import rebalance.cli\nraise KeyboardInterrupt"],
+                          capture_output=True, text=True, cwd=ROOT, timeout=300)
+    assert done.returncode == EXIT_STOPPED
+    assert done.stderr == "stopped from outside; nothing written\n"
+
+
+@pytest.mark.parametrize("command", [
+    ["plan", "{tiny}", "-o", "{out}"],
+    ["marginal", "{tiny}", "-o", "{out}"],
+    ["frontier", "{tiny}", "--hiring", "1x", "-o", "{out}"],
+    ["workbook", "{tiny}", "-o", "{out}.xlsx"],
+    ["generate", "{out}"],
+    ["replan", "{tiny}", "--from", "{tiny}", "--at", "2027-Q3", "-o", "{out}"],
+    ["compare", "{tiny}", "--scenario", "{tiny}/settings.toml", "-o", "{out}"],
+])
+def test_an_output_that_cannot_be_written_is_refused_before_any_solve(tmp_path, capsys,
+                                                                     monkeypatch, command):
+    # Found only after the whole solve, the plan's summary printed, it had wasted the time.
+    import rebalance.cli_common as common
+
+    def no_read(*args, **kwargs):  # type: ignore[no-untyped-def]
+        raise AssertionError("the instance was read before the output was checked")
+
+    monkeypatch.setattr(common, "read_instance", no_read)
+    (tmp_path / "afile").write_text("x", encoding="utf-8")
+    for out, why in ((tmp_path / "afile" / "sub", "afile is a file, not a folder"),
+                     ("/proc/rebalance-out", ": /proc); nothing")):  # Linux
+        argv = [part.format(tiny=DATA / "tiny", out=out) for part in command]
+        assert main(argv) == 2
+        out_err = capsys.readouterr()
+        assert why in out_err.err and "nothing was written" in out_err.err
+        assert out_err.out == ""
+
+
+@pytest.mark.parametrize("out", ["", ".", "{here}", "{here}/."])
+def test_an_out_folder_must_be_a_folder_of_its_own(tmp_path, monkeypatch, capsys, out):
+    # -o "" had written into the current folder ("plan written to /"); -o . had replaced the
+    # current folder, a plan folder of an earlier run, leaving the shell in a deleted one.
+    here = tmp_path / "plan"
+    assert main(["plan", str(DATA / "tiny"), "-o", str(here), "--quiet"]) == EXIT_OK
+    before = sorted(here.iterdir())
+    monkeypatch.chdir(here)
+    capsys.readouterr()
+    assert main(["plan", str(DATA / "tiny"), "-o", out.format(here=here), "--quiet"]) == 2
+    err = capsys.readouterr().err
+    assert "a folder of its own" in err and "nothing was written" in err
+    assert sorted(here.iterdir()) == before and here.samefile(Path.cwd())
+
+
+def test_an_out_folder_holding_the_instance_is_refused(tmp_path, capsys):
+    plans = tmp_path / "plans"
+    assert main(["plan", str(DATA / "tiny"), "-o", str(plans), "--quiet"]) == EXIT_OK
+    shutil.copytree(DATA / "tiny", plans / "inst")  # an instance kept in a plan folder
+    capsys.readouterr()
+    assert main(["plan", str(plans / "inst"), "-o", str(plans), "--quiet"]) == 2
+    assert f"{plans}: holds the instance ({plans / 'inst'})" in capsys.readouterr().err
+    assert (plans / "inst" / "staff.csv").is_file()
+
+
+def test_an_unreadable_input_file_is_invalid_input_not_an_output_problem(tmp_path):
+    # It had read "staff.csv: cannot be written", exit 2, and for plan blamed the -o folder.
+    # As root the file is read by a user with no rights to it (setpriv(1)); root itself
+    # passes every permission check (capabilities(7), CAP_DAC_OVERRIDE).
+    import os
+    import tempfile
+
+    base = Path(tempfile.mkdtemp(prefix="rebalance-unreadable-"))  # others may enter
+    try:
+        base.chmod(0o777)
+        instance = base / "inst"
+        shutil.copytree(DATA / "tiny", instance)
+        for path in [instance, *instance.iterdir()]:
+            path.chmod(0o755 if path.is_dir() else 0o644)
+        (instance / "staff.csv").chmod(0)
+        prefix: list[str] = []
+        if os.geteuid() == 0:
+            if shutil.which("setpriv") is None:
+                pytest.skip("running as root without setpriv to drop the rights")
+            prefix = ["setpriv", "--reuid=65534", "--regid=65534", "--clear-groups"]
+        for command in (["check", str(instance)],
+                        ["plan", str(instance), "-o", str(base / "plan"), "-q"]):
+            done = subprocess.run([*prefix, sys.executable, "-m", "rebalance.cli", *command],
+                                  capture_output=True, text=True, cwd=ROOT, timeout=300)
+            assert done.returncode == EXIT_INVALID_INPUT, done.stderr
+            assert f"{instance / 'staff.csv'}: cannot be read (Permission denied)" in done.stderr
+            assert "cannot be written" not in done.stderr and "plan:" not in done.stderr
+    finally:
+        shutil.rmtree(base, ignore_errors=True)

@@ -17,6 +17,7 @@ from pathlib import Path
 
 from rebalance.instance import Instance
 from rebalance.problems import problems_counted
+from rebalance.read_limits import MAX_NUMBER, MAX_TIME_LIMIT_SECONDS
 from rebalance.readers import InstanceError, count_problems, read_instance
 from rebalance.solve import Status
 from rebalance.verify import Violation
@@ -202,11 +203,13 @@ def _number(kind: type, minimum: float, maximum: float | None = None,
     return parse
 
 
-SECONDS = _number(float, 0.1, what="seconds, at least 0.1")
+# As settings.toml bounds them: past 1e7 s a CBC run had printed tracebacks (its stop
+# thread's wait overflowed), past 1e12 money is a typo.
+SECONDS = _number(float, 0.1, MAX_TIME_LIMIT_SECONDS, what="seconds, from 0.1 to 10,000,000")
 GAP = _number(float, 0.0, 1.0, what="a relative gap from 0 to 1, e.g. 0.01")
 COUNT = _number(int, 1, what="a whole number, at least 1")
 SEED = _number(int, 0, what="a whole number, at least 0")
-MONEY = _number(float, 0.0, what="an amount of money, at least 0")
+MONEY = _number(float, 0.0, MAX_NUMBER, what="an amount of money, from 0 to 1,000,000,000,000")
 
 # Help shared by the commands that read an instance and solve it; a setting on the command
 # line overrides the instance's settings.toml.

@@ -36,7 +36,8 @@ from rebalance.tables import collapse_repeats, table_problems
 __all__ = ["DemandResult", "build_demand", "output_folder_problem", "run_demand", "write_demand"]
 
 QUARTER = re.compile(r"^(\d{4})-Q([1-4])$")
-# A month of arrivals above this many times its series' median is worth a second look.
+# A month of arrivals above this many times its series' median is worth a second look
+# (common practice, not from a published source).
 SPIKE_FACTOR = 5.0
 TRACE_COLUMNS = ["office", "skill", "period", "kind", "activity", "method", "forecast_volume",
                  "adjustment_factor", "volume", "volume_lower", "volume_upper",
@@ -196,8 +197,10 @@ def build_demand(history: History, periods: tuple[Period, ...]) -> DemandResult:
               .reset_index())
     demand = demand[demand["hours"] > 0].copy()
     demand["hours"] = demand["hours"].round(2)
+    # Every digit, no exponent: {:g} had written 0.123456789 as 0.123457 and 1e6 as 1e+06.
     demand["priority"] = demand["skill"].map(
-        lambda s: history.settings.priority.get(s, 1.0)).map(lambda v: f"{v:g}")
+        lambda s: np.format_float_positional(float(history.settings.priority.get(s, 1.0)),
+                                             trim="-"))
     forecasts = pd.DataFrame(forecast_rows, columns=["office", "case_type", "month", "method",
                                                      "volume", "lower", "upper",
                                                      "adjustment_factor"])
@@ -268,13 +271,15 @@ def run_demand(history_dir: str | Path, instance_dir: str | Path) -> DemandResul
         _check_horizon(history, periods, problems)
     errors = [p for p in problems if not p.is_warning]
     if errors or history is None:
-        raise HistoryError(collapse_repeats(errors) + [p for p in problems if p.is_warning])
+        raise HistoryError(_counts_after_examples(collapse_repeats(errors))
+                           + [p for p in problems if p.is_warning])
     warnings = [p for p in problems if p.is_warning] + _unused_work(history, periods)
     result = build_demand(history, periods)
     # An office that borrows the pooled hours a case (no usable records of its own): said
     # with the other warnings, not as a Python warning.
     warnings += [Problem("time_records.csv", None, None, note, is_warning=True)
                  for note in result.standards.notes]
+    warnings += _offices_without_demand(history, offices, result.demand)
     if result.demand.empty:
         # An empty demand.csv is no instance (its reader wants a row) and had replaced the
         # previous one without a word (standards.shrinkage_cases = inf).
@@ -284,6 +289,45 @@ def run_demand(history_dir: str | Path, instance_dir: str | Path) -> DemandResul
                                     "cases and hours booked to them (demand.csv is left as "
                                     "it was)"), *warnings])
     return replace(result, warnings=tuple(warnings))
+
+
+def _counts_after_examples(problems: list[Problem]) -> list[Problem]:
+    """``problems`` with each "(and N more rows like this)" line moved to just after the last
+    of its examples, as a listing reads, not at the end of everything (a review)."""
+    out = [p for p in problems if not _is_count_line(p)]
+    for count in (p for p in problems if _is_count_line(p)):
+        base = count.message[:count.message.rfind(" (and ")]
+        at = max((i for i, p in enumerate(out) if p.file == count.file
+                  and p.column == count.column and p.message == base), default=len(out) - 1)
+        out.insert(at + 1, count)
+    return out
+
+
+def _is_count_line(p: Problem) -> bool:
+    return p.row is None and p.message.endswith("more rows like this)")
+
+
+def _offices_without_demand(history: History, offices: Mapping[str, None] | None,
+                            demand: pd.DataFrame) -> list[Problem]:
+    """A warning naming the instance's offices that demand.csv gives no row: a history of two
+    offices written into a six-office instance had left four with no demand, unsaid (a
+    review).  Their demand is not 0 but unknown; the plan will cover none of it."""
+    if not offices:
+        return []
+    covered = set(demand["office"].astype(str))
+    seen = (set(history.arrivals["office"].astype(str))
+            | set(history.records["office"].astype(str)))
+    missing = [o for o in offices if o not in covered]
+    out = []
+    for unseen, why in ((True, "no case arrivals or time records of theirs in the history"),
+                        (False, "their history forecasts no hours")):
+        named = [o for o in missing if (o not in seen) == unseen]
+        if named:
+            out.append(Problem("offices.csv", None, "office",
+                               f"{len(named):,} office(s) of the instance get no rows in "
+                               f"demand.csv ({why}): " + ", ".join(f"'{o}'" for o in named)
+                               + "; the plan will see no work there", is_warning=True))
+    return out
 
 
 # Months past the newest arrivals a forecast reaches before a warning: a seasonal method's
@@ -333,6 +377,19 @@ def _unused_work(history: History, periods: tuple[Period, ...]) -> list[Problem]
                                "typo? it is forecast from as given", is_warning=True))
     if periods and all(QUARTER.match(p.name) for p in periods):
         last_plan = max(_quarter_months(p.name)[-1] for p in periods)
+        first_plan = min(_quarter_months(p.name)[0] for p in periods)
+        # An adjustment wholly outside the horizon changes nothing: said, naming the row (a
+        # review: a surge typed a year early had passed silently).
+        adj = history.adjustments
+        rows = adj["row"] if "row" in adj.columns else [None] * len(adj)
+        for row, first, last in zip(rows, adj["first_month"], adj["last_month"], strict=True):
+            if int(last) < first_plan or int(first) > last_plan:
+                out.append(Problem("adjustments.csv", None if row is None else int(row),
+                                   "first_month, last_month",
+                                   f"{month_name(int(first))} to {month_name(int(last))} is "
+                                   f"outside the plan horizon ({month_name(first_plan)} to "
+                                   f"{month_name(last_plan)}); the row changes nothing",
+                                   is_warning=True))
         if last_plan - history.last_month > FAR_MONTHS:
             out.append(Problem("case_arrivals.csv", None, "month",
                                f"the plan's last month, {month_name(last_plan)}, is "

@@ -152,7 +152,8 @@ class History:
     ``records``: row, person, period, month, office, skill, activity, hours (``row`` is the
     CSV row; ``period`` the reporting period's index, ``month`` the month it belongs to).
     ``expected``: person, period, expected_hours.  ``period_kind``: "month" or "week".
-    ``adjustments``: office, case_type (None = every type), first_month, last_month, factor.
+    ``adjustments``: office, case_type (None = every type), first_month, last_month, factor,
+    note, row (its row in adjustments.csv).
     """
 
     arrivals: pd.DataFrame
@@ -457,7 +458,8 @@ def _read_arrivals(table: RawTable, problems: list[Problem], offices: Collection
             continue
         key = (office, case_type, month)
         if key in seen:
-            cells.error(None, f"arrivals for office '{office}', case type '{case_type}', month "
+            cells.error("office, case_type, month",
+                        f"arrivals for office '{office}', case type '{case_type}', month "
                         f"{month_name(month)} are listed twice (first at row {seen[key]})")
             continue
         seen[key] = cells.row_number
@@ -523,8 +525,8 @@ def _read_expected(table: RawTable, problems: list[Problem], kinds: dict[str, st
             continue
         key = (person, period[0])
         if key in seen:
-            cells.error(None, f"expected hours for '{person}' in {row['period']} are listed "
-                        f"twice (first at row {seen[key]})")
+            cells.error("person, period", f"expected hours for '{person}' in "
+                        f"{row['period']} are listed twice (first at row {seen[key]})")
             continue
         seen[key] = cells.row_number
         rows.append((person, period[0], hours))
@@ -534,26 +536,29 @@ def _read_expected(table: RawTable, problems: list[Problem], kinds: dict[str, st
 def _read_adjustments(table: RawTable | None, problems: list[Problem],
                       offices: Collection[str] | None,
                       case_types: Collection[str]) -> pd.DataFrame:
-    columns = ["office", "case_type", "first_month", "last_month", "factor", "note"]
+    columns = ["office", "case_type", "first_month", "last_month", "factor", "note", "row"]
     if table is None:
         return pd.DataFrame(columns=columns)
     cells = _Cells(table, "adjustments", problems)
-    rows: list[tuple[str, str | None, int, int, float, str]] = []
+    rows: list[tuple[str, str | None, int, int, float, str, int]] = []
     for row in cells:
         office = cells.choice(row, "office", offices, listed_in="the instance's offices.csv")
         case_type = None
         if row.get("case_type"):
             case_type = cells.choice(row, "case_type", case_types,
                                      "an activity of kind 'case' in activities.csv")
-            if case_type is None:
-                continue
         first, last = cells.month(row, "first_month"), cells.month(row, "last_month")
         factor = cells.number(row, "factor", maximum=MAX_FACTOR)
-        if office is None or first is None or last is None or factor is None:
-            continue
-        if last < first:
+        # Every problem of the row at once: reversed months had gone unsaid beside a bad
+        # factor (a review).
+        if first is not None and last is not None and last < first:
             cells.error("last_month", f"{month_name(last)} is before first_month "
                         f"{month_name(first)}; expected a month on or after it")
             continue
-        rows.append((office, case_type, first, last, factor, row.get("note", "")))
+        if office is None or first is None or last is None or factor is None:
+            continue
+        if row.get("case_type") and case_type is None:
+            continue
+        rows.append((office, case_type, first, last, factor, row.get("note", ""),
+                     cells.row_number))
     return pd.DataFrame(rows, columns=columns)

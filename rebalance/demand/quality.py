@@ -12,7 +12,8 @@ order is its ``check``, the one ``qc_summary.csv`` counts it under):
 ``anomaly``
     the hours differ from the person's own recent history on that activity by a robust score
     above the threshold (see :func:`robust_scores`) and, when the person has a value a year
-    earlier (12 monthly or 52 weekly periods), from that value too.
+    earlier (12 monthly or 52 weekly periods), from that value too.  Records with
+    out-of-bounds hours are not scored (their ``score`` is NaN), so never fail it.
 ``incomplete``
     the person's total for the period is outside ``expected x (1 +- tolerance)``, or no
     expected hours are given for that person and period.
@@ -43,7 +44,8 @@ __all__ = ["CHECKS", "QualityResult", "check_quality", "coverage", "robust_score
 CHECKS = ("hours_out_of_bounds", "unknown_activity", "duplicate", "anomaly", "incomplete")
 MAD_TO_SD = 1.4826  # MAD of a normal sample x 1.4826 estimates its standard deviation
 # Expected hours more than this many times the person's median are taken for a typo: a change
-# of contract (part time to full time) is at most about 2x; 3x leaves room (no source).
+# of contract (part time to full time) is at most about 2x; 3x leaves room (common practice,
+# not from a published source).
 IMPLAUSIBLE_RATIO = 3.0
 PERIOD_HOURS = {"month": 24.0 * 31, "week": 24.0 * 7}  # no period holds more hours
 

@@ -20,8 +20,10 @@ own value).  Intervals are percentile bootstrap intervals over months resampled 
 replacement (the same months for every office, keeping their common swings), seeded.
 
 Non-case work (policy, guidance, training, ...) is trended per office, skill and activity:
-monthly hours with a Theil-Sen line (robust to an odd month), extended over the horizon and
-floored at zero.
+monthly hours, each month grossed up by its own coverage factor (timesheets counted in the
+month of their reporting period, records or none), with a Theil-Sen line (robust to an odd
+month) over the months with a kept timesheet, extended over the horizon and floored at zero.
+An office with no kept record has no non-case history: ``notes`` says so.
 """
 
 from __future__ import annotations
@@ -47,7 +49,8 @@ class EffortStandards:
     usable time records") (one row per office where the pooled standard is positive).
     ``noncase``: office, skill, activity, month, hours (grossed-up monthly history).
     ``window``: first and last month of kept records.  ``notes``: warnings (an office that
-    takes the pooled value for want of usable records), also issued as ``UserWarning``.
+    takes the pooled value for want of usable records, or has no non-case work estimated),
+    said by ``rebalance demand`` with its other warnings.
     """
 
     table: pd.DataFrame
@@ -182,12 +185,19 @@ def estimate_standards(history: History, quality: QualityResult) -> EffortStanda
     # coverage, and a month with nothing kept is left out of the fit: the office-wide factor
     # spread one excluded month's hours over the others while the month itself read as 0,
     # which a median-based trend ignores (+4.3% with one month of 24 excluded, by hand).
-    month_factor, office_months = _month_coverage(quality)
+    month_factor, office_months = _month_coverage(history, quality)
     nc = quality.kept[~quality.kept["activity"].isin(case_types)].copy()
     nc["hours"] = nc["hours"] * [month_factor.get((o, int(m)), 1.0)
                                  for o, m in zip(nc["office"], nc["month"], strict=True)]
     noncase = (nc.groupby(["office", "skill", "activity", "month"])["hours"].sum()
                .reset_index())
+    # An office with no kept time record has no non-case history to trend: said, as its case
+    # work's pooled standard is (a review: all its non-case hours had vanished silently).
+    for o in sorted(set(offices) | set(quality.records["office"].astype(str))):
+        if o not in office_months:
+            notes.append(f"office '{o}' has no usable time records (none, or none that passed "
+                         "quality control), so no non-case work could be estimated for it; "
+                         "its demand holds case work only")
     return EffortStandards(table, noncase, window, tuple(notes), office_months)
 
 
@@ -213,15 +223,19 @@ def _case_types_without_hours(history: History, case_types: list[str], pooled: n
     return notes
 
 
-def _month_coverage(quality: QualityResult) -> tuple[dict[tuple[str, int], float],
-                                                     dict[str, tuple[int, ...]]]:
+def _month_coverage(history: History, quality: QualityResult
+                    ) -> tuple[dict[tuple[str, int], float], dict[str, tuple[int, ...]]]:
     """Per office and month, expected hours of all timesheets / of the kept ones (the
-    coverage factor of that month alone), and per office the months with a kept timesheet."""
+    coverage factor of that month alone), and per office the months with a kept timesheet.
+
+    A timesheet's month is its reporting period's (an ISO week's Thursday's), not its
+    records': one with expected hours but no records counts in its month as it counts in the
+    office-wide factor (a review: taking the month from the records had dropped such
+    timesheets, and half of an office's people without records in a year had cut its
+    non-case hours by 80% where the documented method gives +9%)."""
     records = quality.records
-    month_of = (records.drop_duplicates(["person", "period"])
-                .set_index(["person", "period"])["month"])
-    ts = quality.timesheets.join(month_of, on=["person", "period"])
-    ts = ts[ts["month"].notna()].astype({"month": int})  # no records: no month to count in
+    ts = quality.timesheets.assign(month=[_period_month(history.period_kind, int(p))
+                                          for p in quality.timesheets["period"]])
     by_month = coverage(ts, ["office", "month"]).dropna(subset=["coverage_factor"])
     factor = {(str(o), int(m)): float(f) for o, m, f in zip(
         by_month["office"], by_month["month"], by_month["coverage_factor"], strict=True)}

@@ -106,3 +106,30 @@ def test_a_case_type_whose_records_book_no_hours_is_said() -> None:
     assert not len(standards.table)
     assert standards.notes == ("case type 'permit' has arrivals but no hours booked to it "
                                "(its 8 time record(s) all book 0 hours); it adds no demand",)
+
+
+def test_a_timesheet_without_records_counts_in_its_months_coverage() -> None:
+    # Review: a timesheet with expected hours but no time records dropped out of the
+    # per-month coverage factor of non-case hours (its month was taken from its records),
+    # while the office-wide factor for case hours counted it.  Method:
+    # docs/instance-format.md, "Non-case work" (each month grossed up by its own coverage).
+    history = _history()
+    # A second person at 'big' expects 20 h every month and books 20 h of training in the
+    # first two months, nothing in the last two (those timesheets are excluded: incomplete).
+    extra_records = pd.DataFrame(
+        [(100 + i, "big-2", START + i, START + i, "big", "review", "training", 20.0)
+         for i in range(2)], columns=history.records.columns)
+    extra_expected = pd.DataFrame([("big-2", START + i, 20.0) for i in range(4)],
+                                  columns=history.expected.columns)
+    history = replace(history,
+                      records=pd.concat([history.records, extra_records], ignore_index=True),
+                      expected=pd.concat([history.expected, extra_expected], ignore_index=True))
+    standards = estimate_standards(history, check_quality(history))
+    nc = standards.noncase[standards.noncase["office"] == "big"].set_index("month")["hours"]
+    # By hand: big-1 expects 250 x 2 + 14 = 514 h in month 3 and 500 + 16 = 516 h in month
+    # 4, all kept; big-2's 20 h are not.  Factors 534 / 514 and 536 / 516; months 1 and 2
+    # keep everything (factor 1): 10 + 20 and 12 + 20 hours of training.
+    assert nc[START] == pytest.approx(30.0)
+    assert nc[START + 1] == pytest.approx(32.0)
+    assert nc[START + 2] == pytest.approx(14.0 * 534 / 514)  # 14.5447; 14.0 before the fix
+    assert nc[START + 3] == pytest.approx(16.0 * 536 / 516)  # 16.6202; 16.0 before the fix

@@ -91,7 +91,9 @@ def test_an_office_with_cases_but_no_records_takes_the_pool_with_a_warning() -> 
     assert table.loc["B", "hours_per_case"] == pytest.approx(1.5)
     assert table.loc["B", "basis"].startswith("pooled")
     assert table.loc["A", "hours_per_case"] == pytest.approx(1.5)
-    assert len(standards.notes) == 1
+    # And B, with no records at all, has no non-case work estimated: said too (a review).
+    assert len(standards.notes) == 2
+    assert standards.notes[1].startswith("office 'B' has no usable time records")
 
 
 def test_a_fully_excluded_month_is_corrected_once() -> None:

@@ -368,11 +368,16 @@ def cmd_frontier(args: argparse.Namespace) -> int:
                                        "weighted_shortfall", "total_cost", "extra_cost",
                                        "knee"]])
     print(format_frame(shown, instance.money.currency))
-    print("\n" + textwrap.fill(
-        f"hiring_budget and moves_budget: {frontier.table['budget_unit'].iloc[0]}; a "
-        "moves_budget of - keeps the instance's caps; hiring_cap_total: the hiring caps of "
-        "all budget years together; extra_cost: new money over point 1's", width=98,
-        break_on_hyphens=False))
+    # What a "-" means, said only under a column that shows one (a grid with --moves had
+    # been told "a moves_budget of - keeps the instance's caps" with no "-" in sight).
+    dashes = {"moves_budget": "a moves_budget of - keeps the instance's caps",
+              "hiring_cap_total": "a hiring_cap_total of - has some year with no hiring cap"}
+    notes = [f"hiring_budget and moves_budget: {frontier.table['budget_unit'].iloc[0]}",
+             *[words for column, words in dashes.items()
+               if frontier.table[column].isna().any()],
+             "hiring_cap_total: the hiring caps of all budget years together",
+             "extra_cost: new money over point 1's"]
+    print("\n" + textwrap.fill("; ".join(notes), width=98, break_on_hyphens=False))
     _say_gaps(frontier.table)
     # A point without a plan (infeasible, out of time) is a result the table reports; a plan
     # that fails verification is a fault, and its figures would mislead: nothing is written.
@@ -463,7 +468,12 @@ def cmd_marginal(args: argparse.Namespace) -> int:
     candidates = binding_candidates(base, steps)
     resolves = resolve_count(candidates, args.max_resolves)
     if resolves:
-        binds = "1 limit binds" if len(candidates) == 1 else f"{len(candidates)} limits bind"
+        firsts = sum(1 for c in candidates if c.first_vacancy)
+        bound = len(candidates) - firsts
+        binds = "1 limit binds" if bound == 1 else f"{bound} limits bind"
+        if firsts:  # they bind nothing: counted apart
+            binds += (f" and {firsts} first funded vacanc{'y' if firsts == 1 else 'ies'} "
+                      "could help")
         _err(f"marginal: {binds}; re-solving {resolves}, {min(args.workers, resolves)} at a "
              f"time, each stopped at {_seconds(limit)}: at most "
              f"{_seconds(most_seconds(resolves, options, args.workers))} more with the LP "

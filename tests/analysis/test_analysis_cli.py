@@ -195,6 +195,12 @@ def test_frontier_and_marginal(tmp_path: Path) -> None:
     assert list(frontier.columns) == list(FRONTIER_COLUMNS) and len(frontier) == 6
     assert frontier["verified"].all()
     assert "Caution:" in done.stdout  # as every command that shows plans (a reading found none)
+    # Every point has its moves caps from --moves, so no "-" is shown, and no footnote says
+    # what a "-" means (a review found one under such a table); tiny caps every year.
+    table = done.stdout.split("\n\n")[0]
+    assert " - " not in table
+    said = " ".join(done.stdout.split())
+    assert "of - " not in said and "hiring_cap_total: the hiring caps" in said
     done = run("marginal", str(TINY), "-o", str(out), "--gap", "0", "-q")
     assert done.returncode == 0, done.stderr
     marginal = pd.read_csv(out / "marginal_values.csv")
@@ -228,6 +234,23 @@ def test_a_factor_frontier_on_the_console_gives_factors_as_typed_and_each_point_
     said = " ".join(done.stdout.split())
     assert "empty moves_budget" not in said
     assert "a moves_budget of - keeps the instance's caps" in said
+    assert "a hiring_cap_total of -" not in said  # every total shown (tiny caps 2027)
+
+
+def test_a_frontier_footnote_explains_a_dash_only_under_a_column_that_shows_one(
+        tmp_path: Path) -> None:
+    # tiny with 2027's hiring uncapped: a factor grid leaves it so, and the hiring caps'
+    # total is unbounded ("-", frontier.cap_total); --moves given, so no moves_budget "-".
+    shutil.copytree(TINY, tmp_path / "t")
+    (tmp_path / "t" / "budget.csv").write_text("year,hiring,moves\n2027,,30000\n")
+    done = run("frontier", str(tmp_path / "t"), "--hiring", "1x", "--moves", "1x", "-o",
+               str(tmp_path / "fr"), "--gap", "0", "--workers", "1")
+    assert done.returncode == 0, done.stderr
+    [row] = [line.split() for line in done.stdout.splitlines()[2:3]]
+    assert row[1:4] == ["1", "1", "-"]  # the factors as typed
+    said = " ".join(done.stdout.split())
+    assert "a hiring_cap_total of - has some year with no hiring cap" in said
+    assert "a moves_budget of -" not in said
 
 
 def test_replan_lists_the_rules_the_old_plan_breaks(tmp_path: Path) -> None:

@@ -18,7 +18,12 @@ from randomized import random_instance
 
 from rebalance import make_plan, read_instance
 from rebalance.analysis.limits import limit_use
-from rebalance.analysis.marginal import Steps, marginal_values
+from rebalance.analysis.marginal import (
+    Steps,
+    binding_candidates,
+    first_vacancies,
+    marginal_values,
+)
 from rebalance.instance import Budget, Instance
 from rebalance.model import build_model
 
@@ -133,3 +138,66 @@ def test_every_budget_whose_raise_lowers_the_least_shortfall_is_listed(seed: int
                 raised = _least_shortfall(_raised(instance, limit, budget.year, steps.budget))
                 if raised < least - 1e-6:
                     assert (limit, budget.year) in listed, (shape, limit, budget.year)
+
+
+# -- a first funded vacancy where the data have none ---------------------------------------
+# A review found `rebalance marginal` never tried a vacancy where vacancies.csv has no row:
+# on a generated instance one such vacancy bought 6.43 of weighted shortfall for 8,000, where
+# the best limit it listed (100,000 more hiring money) bought 6.65 for 127,000.
+
+
+def test_a_first_vacancy_is_tried_wherever_a_hire_could_help(tiny: Instance) -> None:
+    # By hand from tests/data/tiny: both offices may hire (offices.csv: 1 per period), and
+    # every skill has a time to hire of 1 (skills.csv), so the first start is 2027-Q2.
+    # Review has demand from 2027-Q2 at A (0.5, 0.5, 1.0) and at B (2, 2, 1): a hire could
+    # help at both.  Intake has demand only at A in 2027-Q1, before any start: no hire helps.
+    # tiny has no vacancies.csv, so no vacancy row binds: these come only from first_vacancies.
+    assert not tiny.vacancies
+    found = first_vacancies(tiny)
+    assert {(c.limit, c.where, c.current, c.step, c.binding_rows) for c in found} == {
+        ("vacancies", "review at A", 0.0, 1, 0), ("vacancies", "review at B", 0.0, 1, 0)}
+    base = solve_verified(tiny)
+    assert {c.where for c in binding_candidates(base) if c.limit == "vacancies"} == {
+        "review at A", "review at B"}
+    # An office that may not hire gets none (max_hires_per_period 0).
+    closed = tiny.with_changes(offices=tuple(
+        replace(o, max_hires_per_period=0) if o.name == "B" else o for o in tiny.offices))
+    assert [c.where for c in first_vacancies(closed)] == ["review at A"]
+
+
+def test_a_first_review_vacancy_at_b_saves_30000(tiny: Instance, tmp_path: Path) -> None:
+    # By hand from tests/data/tiny (NOTE.md, skills.csv: review salary 20,000 a period,
+    # onboarding 8,000, time to hire 1, ramp 0.5; settings.toml: a detail period 5,000, at
+    # most 2 in a row).  Base optimum, no shortfall: B is one reviewer short in Q2 and Q3, so
+    # a1 (review 1.0; a2's 0.8 falls short) goes there both quarters; b1 leaves after Q3, so
+    # Q4 at B needs 1.0: a1 may not go a third quarter in a row (and A needs a1's 1.0), a2
+    # gives 0.8, and a new-position hire starting Q4 (ramp 0.5) the rest.  An earlier new
+    # hire would cost 8,000 + 3 x 20,000 = 68,000 or 8,000 + 2 x 20,000 = 48,000, over the
+    # 40,000 hiring budget.  Cost: 3 details x 5,000 + 8,000 + 20,000 salary = 43,000.
+    # With one funded review vacancy at B the hire pays onboarding only and can start in Q2:
+    # Q2 b1 1.0 + hire 0.5 + one detail (a1) 1.0 >= 2; Q3 b1 1.0 + hire 1.0 = 2; Q4 hire 1.0
+    # = 1.  Cost: 8,000 + 5,000 = 13,000 (no cheaper way: B hires one per period and a
+    # second hire is a new position), so the vacancy saves 30,000 at no shortfall either way.
+    base = solve_verified(tiny)
+    assert base.plan is not None
+    [vacancy] = [c for c in first_vacancies(tiny) if c.where == "review at B"]
+    [row] = marginal_values(base, exact_options(tiny), workers=1,
+                            candidates=[vacancy]).table.to_dict("records")
+    assert row["limit_in_words"] == "funded vacancies of review at B"
+    assert base.plan.weighted_shortfall == pytest.approx(0.0, abs=1e-6)
+    assert base.plan.total_cost == pytest.approx(43_000.0)
+    assert row["shortfall_reduction"] == pytest.approx(0.0, abs=1e-6)
+    assert row["cost_change"] == pytest.approx(13_000.0 - 43_000.0)
+    # Re-solve reference: the instance with the row written into vacancies.csv, read from
+    # files and solved by make_plan at gap 0 (apart from Candidate.relax).
+    folder = tmp_path / "t"
+    shutil.copytree(DATA / "tiny", folder)
+    (folder / "vacancies.csv").write_text("office,skill,count\nB,review,1\n")
+    with_row = read_instance(folder)
+    relaxed = make_plan(with_row, exact_options(with_row))
+    assert relaxed.verified and relaxed.plan is not None
+    assert relaxed.plan.weighted_shortfall == pytest.approx(0.0, abs=1e-6)
+    assert relaxed.plan.total_cost - base.plan.total_cost == pytest.approx(row["cost_change"])
+    hires = relaxed.plan.hires
+    assert hires[["office", "skill", "start_period", "count", "funding"]].values.tolist() == [
+        ["B", "review", "2027-Q2", 1, "vacancy"]]

@@ -18,6 +18,7 @@ from rebalance.analysis.limits import BUDGET_LIMITS, limit_use, limit_words
 from rebalance.analysis.marginal_estimate import ESTIMATE_SECONDS, _estimates, _objective
 from rebalance.analysis.solving import solve_many
 from rebalance.instance import Budget, Instance
+from rebalance.plan import Plan
 from rebalance.planning import PlanResult
 from rebalance.solve import SolveOptions
 
@@ -25,6 +26,9 @@ __all__ = ["MARGINAL_COLUMNS", "STEP_UNITS", "Candidate", "MarginalValues", "Ste
            "binding_candidates", "first_vacancies", "marginal_values", "most_seconds",
            "resolve_choice", "resolve_count"]
 
+# At most this many first funded vacancies are tried (our choice, for the run's time: each is
+# a re-solve, and the plan's shortfall ranks them).
+FIRST_VACANCIES = 5
 # The solvers' primal feasibility tolerance (HiGHS's and CBC's default): a stage's shortfall
 # may be this far under its true least value.
 FEASIBILITY_TOLERANCE = 1e-6
@@ -198,18 +202,39 @@ def binding_candidates(base: PlanResult, steps: Steps = Steps()) -> list[Candida
             out.append(Candidate(limit, where, float(instance.skill(where).time_to_hire),
                                  -steps.time_to_hire, unit(limit), n))
     taken = {(c.limit, c.where) for c in out}
-    out.extend(c for c in first_vacancies(instance, steps) if (c.limit, c.where) not in taken)
+    out.extend(c for c in first_vacancies(instance, steps, plan)
+               if (c.limit, c.where) not in taken)
     return out
 
 
-def first_vacancies(instance: Instance, steps: Steps = Steps()) -> list[Candidate]:
+def first_vacancies(instance: Instance, steps: Steps = Steps(),
+                    plan: Plan | None = None) -> list[Candidate]:
     """A first funded vacancy (``current`` 0, ``binding_rows`` 0) for every office and skill
     with none where a hire could help: the office may hire and some start the time to hire
-    allows has demand a hire could cover (:meth:`Instance.hire_need`).
+    allows has demand a hire could cover (:meth:`Instance.hire_need`); given ``plan``, only
+    where it leaves that skill short there from the time to hire on, or hires it there as
+    new positions (a vacancy hire would save the salary).
 
     The tables show no vacancy row there, so nothing binds, yet a vacancy hire pays
     onboarding only, no new-position salary: a review found one vacancy buying 6.4 of
-    weighted shortfall for 8,000 where the best binding limit's 100,000 bought 6.6."""
+    weighted shortfall for 8,000 where the best binding limit's 100,000 bought 6.6.  Without
+    the plan's filter the demo had 43 of them to re-solve, most of them buying nothing."""
+    wanted: dict[tuple[str, str], tuple[int, float]] | None = None
+    if plan is not None:
+        # Each pair's new positions and the weighted shortfall a hire could reach there.
+        ix = {name: t for t, name in enumerate(instance.period_names)}
+        wanted = defaultdict(lambda: (0, 0.0))
+        c, h = plan.coverage, plan.hires
+        for o, k, t, short in zip(c["office"].astype(str), c["skill"].astype(str),
+                                  c["period"].astype(str), c["weighted_shortfall"].astype(float),
+                                  strict=True):
+            if short > 1e-6 and ix.get(t, -1) >= instance.skill(k).time_to_hire:
+                wanted[(o, k)] = (wanted[(o, k)][0], wanted[(o, k)][1] + short)
+        for o, k, n, funding in zip(h["office"].astype(str), h["skill"].astype(str),
+                                    h["count"].astype(int), h["funding"].astype(str),
+                                    strict=True):
+            if funding == "new":
+                wanted[(o, k)] = (wanted[(o, k)][0] + n, wanted[(o, k)][1])
     out: list[Candidate] = []
     for office in instance.offices:
         if office.max_hires_per_period == 0:
@@ -217,11 +242,23 @@ def first_vacancies(instance: Instance, steps: Steps = Steps()) -> list[Candidat
         for skill in instance.skills:
             if instance.vacancies.get((office.name, skill.name), 0) > 0:
                 continue  # funded: a vacancy row of the tables, binding when used up
+            if wanted is not None and wanted.get((office.name, skill.name), (0, 0.0)) == (
+                    0, 0.0):
+                continue
             if any(instance.hire_need(office.name, skill.name, t) > 0
                    for t in range(len(instance.periods))):
                 out.append(Candidate("vacancies", f"{skill.name} at {office.name}", 0.0,
                                      steps.vacancies, step_unit("vacancies", instance), 0))
-    return out
+    if wanted is None:
+        return out
+    # The pairs with most new positions (whose salary a vacancy saves), then most shortfall
+    # within a hire's reach, at most FIRST_VACANCIES of them: a medium plan at staying put
+    # had 84 pairs short, each a re-solve.
+    def weight(candidate: Candidate) -> tuple[int, float]:
+        skill, office = candidate.where.split(" at ", 1)
+        return wanted[(office, skill)]
+
+    return sorted(out, key=weight, reverse=True)[:FIRST_VACANCIES]
 
 
 def resolve_choice(chosen: Sequence[Candidate], estimates: Sequence[float],

@@ -56,8 +56,9 @@ COLUMN_ASSUMED: dict[str, dict[str, str]] = {
     "staff": {"can_detail": "everyone may be detailed (true)",
               "can_relocate": "nobody may be reassigned (false)",
               "last_period": "nobody leaves during the horizon"},
-    "demand": {"fte": "no row's work is read as FTE", "hours": "no row's work is read as hours",
-               "priority": "every row's priority is 1"},
+    # fte and hours are alternatives, so a table lacks one of them as a rule: neither is
+    # here ("hours_basis", a column of notes beside fte, had been refused as "hours").
+    "demand": {"priority": "every row's priority is 1"},
     "move_costs": {"detail_cost_per_period": "every detail costs the [move_costs] default of "
                                              "settings.toml",
                    "relocation_cost": "every reassignment costs the [move_costs] default of "

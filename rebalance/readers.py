@@ -150,8 +150,9 @@ ANNUAL_RATE_RANGE = range_words(0.0, 1.0, open_maximum=True)
 def build_instance(name: str, settings: Mapping[str, Any], tables: Mapping[str, RawTable],
                    problems: list[Problem]) -> Instance:
     """Validate settings and raw tables into an :class:`Instance` (or raise with all problems)."""
-    for raw in tables.values():
-        problems += table_problems(raw, ignore_case=True)
+    for table_name, raw in tables.items():
+        required, optional = COLUMNS.get(table_name, ((), ()))
+        problems += table_problems(raw, known=(*required, *optional))
     # Settings that could not be read (missing, not TOML) are reported once, not again as
     # every setting they lack.
     unread = any(p.file == "settings.toml" and p.column is None for p in problems)

@@ -668,6 +668,28 @@ def test_a_misspelt_column_is_an_error_saying_what_its_absence_leaves(tmp_path):
         "mean 'moves'?)"]
 
 
+def test_notes_columns_a_review_found_refused_are_warnings(tmp_path):
+    # A review of the misspelt-column rule: columns of notes sharing a known column's first
+    # letters (last_updated, hiring_manager, primary), one named like the alternative to fte
+    # (hours_basis beside fte) and two notes alike but for case (Note, note) had been
+    # refused; each is read by nothing, so each is a warning at most.
+    target = _staff_variant(tmp_path, "can_detail,", "can_detail,")
+    staff = target / "staff.csv"
+    lines = staff.read_text().splitlines()
+    staff.write_text("\n".join([lines[0].replace(",last_period", ",last_updated"),
+                                *lines[1:]]) + "\n")
+    (target / "budget.csv").write_text("year,hiring,moves,hiring_manager,Note,note\n"
+                                       "2027,40000,30000,J. Doe,agreed,in March\n")
+    demand = target / "demand.csv"
+    rows = demand.read_text().splitlines()
+    demand.write_text("\n".join([f"{rows[0]},hours_basis,primary",
+                                 *(f"{row},timesheets 2026,x" for row in rows[1:])]) + "\n")
+    instance = read_instance(target)  # no error: it reads
+    said = [w for w in instance.warnings if "unknown column" in w]
+    assert [w.split(": ")[1] for w in said] == [
+        "last_updated", "hours_basis", "primary", "hiring_manager", "Note", "note"]
+
+
 def test_an_fte_out_of_range_says_the_range_in_plain_words(tmp_path):
     target = _staff_variant(tmp_path, "a1,A,1.0,", "a1,A,1.5,")
     assert _problems(target) == [

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import importlib
+import importlib.util
 from typing import TYPE_CHECKING, Any
 
 # Where each name of the API lives: imported on first use (PEP 562), so that the command
@@ -47,10 +48,18 @@ __all__ = [
 
 def __getattr__(name: str) -> Any:
     if name not in _WHERE:
-        raise AttributeError(f"module 'rebalance' has no attribute {name!r}")
+        # A submodule (rebalance.readers), as an eager import had made every one loaded.
+        if name.startswith("_") or importlib.util.find_spec(f"{__name__}.{name}") is None:
+            raise AttributeError(f"module 'rebalance' has no attribute {name!r}")
+        return importlib.import_module(f"{__name__}.{name}")
     value = getattr(importlib.import_module(_WHERE[name]), name)
     globals()[name] = value
     return value
+
+
+def __dir__() -> list[str]:
+    """The API's names, for completion in a notebook, not this module's machinery."""
+    return sorted(__all__)
 
 
 if TYPE_CHECKING:

@@ -17,10 +17,15 @@ def test_workers_ended_on_a_stop_are_seen_gone_by_the_pool():
     others = set(multiprocessing.active_children())
     pool = ProcessPoolExecutor(max_workers=2, mp_context=multiprocessing.get_context("spawn"))
     busy = [pool.submit(time.sleep, 60) for _ in range(2)]
-    for _ in range(200):  # until both workers have started
+    # Until both workers have started (spawned, so slow on a loaded machine): a worker that
+    # started only after the others were ended would take its task and run it out.
+    workers: list[multiprocessing.process.BaseProcess] = []
+    waited = time.monotonic()
+    while len(workers) < 2 and time.monotonic() - waited < 60:
         workers = [p for p in multiprocessing.active_children() if p not in others]
-        if len(workers) == 2:
-            break
+        time.sleep(0.05)
+    assert len(workers) == 2
+    while not all(f.running() for f in busy) and time.monotonic() - waited < 60:
         time.sleep(0.05)
     pool.shutdown(wait=False, cancel_futures=True)
     _end_workers(workers)

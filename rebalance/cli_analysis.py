@@ -206,12 +206,8 @@ def cmd_replan(args: argparse.Namespace) -> int:
     if instance is None:
         return EXIT_INVALID_INPUT
     folder = Path(args.from_dir)
-    if Path(args.out).resolve() == folder.resolve():
-        # The old plan is the record of what was decided: a re-plan into its own folder had
-        # replaced it without a word.
-        _err(f"-o {args.out}: that is the --from folder; the new plan would replace the old "
-             "one it starts from. Give another folder to keep both; nothing was written")
-        return EXIT_USAGE
+    # -o naming the --from folder is refused before anything is read (cli_common's output
+    # check): the old plan is the record of what was decided.
     if args.planned_ahead and not args.scenario:
         # Unchanged data: planned from the start they are the old plan's own problem.
         _err("--planned-ahead needs --scenario: it compares reacting at --at with planning "

@@ -191,9 +191,9 @@ def _swap(tmp: Path, out: Path) -> None:
             os.replace(old, out)
         raise
     if old is not None:
-        if old.is_dir():
+        if old.is_dir() and not old.is_symlink():
             shutil.rmtree(old, ignore_errors=True)
-        else:  # a file replaced by --force (rmtree had left it behind, hidden)
+        else:  # a file replaced by --force, or a link (rmtree had left either behind, hidden)
             old.unlink(missing_ok=True)
 
 

@@ -247,3 +247,18 @@ def test_files_renamed_inside_a_staged_folder_count_as_written_only_with_it(tmp_
     with staged_folder(tmp_path / "out") as folder, atomic_file(folder / "a.csv") as tmp:
         tmp.write_text("a\n", encoding="utf-8")
     assert written() == [tmp_path / "out"]
+
+
+def test_an_output_given_as_a_link_leaves_no_hidden_link_behind(tmp_path: Path):
+    # A review: -o naming a symbolic link to an old plan folder put the new folder in the
+    # link's place and left the link hidden beside it (rmtree refuses a link).  The new
+    # folder takes the link's place; the folder it pointed to is left as it was.
+    target = _old_plan_folder(tmp_path)
+    link = tmp_path / "latest"
+    link.symlink_to(target, target_is_directory=True)
+    with staged_folder(link, kind="plan") as folder:
+        (folder / "summary.json").write_text("new\n", encoding="utf-8")
+    assert not link.is_symlink()
+    assert (link / "summary.json").read_text(encoding="utf-8") == "new\n"
+    assert (target / "summary.json").read_text(encoding="utf-8") == "old\n"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["latest", "plan"]

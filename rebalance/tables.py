@@ -94,16 +94,21 @@ def collapse_repeats(problems: list[Problem], keep: int = 10) -> list[Problem]:
     broken offices table left unknown to every staff row) listed ``keep`` times, and a name
     unknown in many rows said once, where it is first named (:func:`_unknown_names`)."""
     seen: dict[tuple[str, str | None, str], int] = {}
+    after: dict[tuple[str, str | None, str], int] = {}  # where each one's last example ends
     out: list[Problem] = []
     for p in _unknown_names(problems):
         key = (p.file, p.column, p.message)
         seen[key] = seen.get(key, 0) + 1
         if seen[key] <= keep:
             out.append(p)
-    for (file, column, message), count in seen.items():
+            after[key] = len(out)
+    # Each count right after its examples, as a listing reads (it had come at the end of
+    # everything); from the last place back, so earlier places stay where they are.
+    for (file, column, message), at in sorted(after.items(), key=lambda kv: -kv[1]):
+        count = seen[(file, column, message)]
         if count > keep:
-            out.append(Problem(file, None, column, f"{message} (and {count - keep} more rows "
-                                                   "like this)", repeats=count - keep))
+            out.insert(at, Problem(file, None, column, f"{message} (and {count - keep} more "
+                                                       "rows like this)", repeats=count - keep))
     return out
 
 

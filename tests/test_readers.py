@@ -1130,3 +1130,17 @@ def test_a_demand_header_with_neither_fte_nor_hours_is_one_problem(tmp_path):
     assert _problems(target) == [
         "demand.csv:1: fte: neither fte nor hours is a column; expected one of them, a value "
         "in each row"]
+
+
+def test_a_count_of_rows_like_these_follows_its_examples():
+    # A review: "(and 2 more rows like this)" came at the end of everything, after other
+    # files' problems; it follows the ten examples it counts on from, for every reader
+    # (demand building had moved it itself, by reading its own words back).
+    from rebalance.problems import Problem
+    from rebalance.tables import collapse_repeats
+
+    same = [Problem("staff.csv", row, "fte", "'x' is not a number") for row in range(2, 14)]
+    other = Problem("skills.csv", 2, "ramp", "'y' is not a number")
+    said = [str(p) for p in collapse_repeats([*same, other])]
+    assert said[10:] == ["staff.csv: fte: 'x' is not a number (and 2 more rows like this)",
+                         "skills.csv:2: ramp: 'y' is not a number"]

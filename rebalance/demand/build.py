@@ -271,8 +271,7 @@ def run_demand(history_dir: str | Path, instance_dir: str | Path) -> DemandResul
         _check_horizon(history, periods, problems)
     errors = [p for p in problems if not p.is_warning]
     if errors or history is None:
-        raise HistoryError(_counts_after_examples(collapse_repeats(errors))
-                           + [p for p in problems if p.is_warning])
+        raise HistoryError(collapse_repeats(errors) + [p for p in problems if p.is_warning])
     warnings = [p for p in problems if p.is_warning] + _unused_work(history, periods)
     result = build_demand(history, periods)
     # An office that borrows the pooled hours a case (no usable records of its own): said
@@ -289,22 +288,6 @@ def run_demand(history_dir: str | Path, instance_dir: str | Path) -> DemandResul
                                     "cases and hours booked to them (demand.csv is left as "
                                     "it was)"), *warnings])
     return replace(result, warnings=tuple(warnings))
-
-
-def _counts_after_examples(problems: list[Problem]) -> list[Problem]:
-    """``problems`` with each "(and N more rows like this)" line moved to just after the last
-    of its examples, as a listing reads, not at the end of everything (a review)."""
-    out = [p for p in problems if not _is_count_line(p)]
-    for count in (p for p in problems if _is_count_line(p)):
-        base = count.message[:count.message.rfind(" (and ")]
-        at = max((i for i, p in enumerate(out) if p.file == count.file
-                  and p.column == count.column and p.message == base), default=len(out) - 1)
-        out.insert(at + 1, count)
-    return out
-
-
-def _is_count_line(p: Problem) -> bool:
-    return p.row is None and p.message.endswith("more rows like this)")
 
 
 def _offices_without_demand(history: History, offices: Mapping[str, None] | None,

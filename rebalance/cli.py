@@ -66,6 +66,7 @@ from rebalance.cli_common import (
     EXIT_USAGE,
     EXIT_VERIFICATION_FAILED,
     INSTANCE_HELP,
+    SCENARIO_COPY,
     STATUS_EXIT,
     VIOLATIONS_SHOWN,
     _err,
@@ -75,6 +76,7 @@ from rebalance.cli_common import (
     _output_refused,
     _unreadable_plan,
     add_solver_options,
+    folder_instance,
     scenario_of,
 )
 from rebalance.numbers import seconds_text
@@ -201,14 +203,19 @@ def cmd_verify(args: argparse.Namespace) -> int:
     if not Path(args.plan_dir).is_dir():
         _err(f"{args.plan_dir}: plan folder not found")
         return EXIT_INVALID_INPUT
+    instance = folder_instance(instance, args.plan_dir, writes=False)
+    if instance is None:
+        return EXIT_INVALID_INPUT
     try:
         # A table missing or unreadable is bad input here, not a broken rule.
         violations = verify_folder(instance, args.plan_dir, complete=True)
     except PlanError as exc:
-        return _unreadable_plan(args.plan_dir, exc)
+        return _unreadable_plan(args.plan_dir, exc, writes=False)
     head, *lines = format_violations(violations).splitlines()
-    scenario = scenario_of(Path(args.plan_dir)) if violations else None
+    keeps_copy = (Path(args.plan_dir) / SCENARIO_COPY).is_file()
+    scenario = scenario_of(Path(args.plan_dir)) if violations and not keeps_copy else None
     if scenario is not None:
+        # A folder written before plans kept their scenario file.
         # A plan made under a scenario keeps the scenario's data, not the instance's: its
         # demand and budgets read as broken here (a sweep's planner took that for a fault).
         print(f"This plan was made under scenario '{scenario}' (summary.json) and was "
@@ -282,6 +289,8 @@ def cmd_report(args: argparse.Namespace) -> int:
         _err(f"{args.plan_dir}: {said}; give --instance")
         return EXIT_USAGE
     instance = _load(source)
+    if instance is not None:
+        instance = folder_instance(instance, args.plan_dir)
     if instance is None:
         return EXIT_INVALID_INPUT
     try:

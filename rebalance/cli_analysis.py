@@ -23,6 +23,7 @@ from rebalance.cli_common import (
     EXIT_VERIFICATION_FAILED,
     INSTANCE_HELP,
     MONEY,
+    SCENARIO_COPY,
     STATUS_EXIT,
     _err,
     _keep_frontier,
@@ -32,6 +33,7 @@ from rebalance.cli_common import (
     _say_violations,
     _unreadable_plan,
     add_solver_options,
+    copy_scenario,
     scenario_of,
 )
 from rebalance.instance import Instance
@@ -166,6 +168,8 @@ def cmd_compare(args: argparse.Namespace) -> int:
             return EXIT_VERIFICATION_FAILED
 
     by_name = {s.name: s for s in scenarios}
+    # One file, one scenario, in the order given (read_scenarios refuses any problem).
+    file_of = dict(zip((s.name for s in scenarios), args.scenario, strict=True))
 
     def scenario_plans(folder: Path) -> None:
         # Inside the compare's staged folder, so each scenario's files land in its one swap.
@@ -179,11 +183,13 @@ def cmd_compare(args: argparse.Namespace) -> int:
             # shown a hiring cap with no word that part of it was the scenario's).  Its
             # reasons worked out once, by the comparison (for its held_back_by column); its
             # report.html and plan.xlsx (a leader had only CSV files to open) drawn against
-            # the scenario's instance, so their figures and verification are its own.  No
-            # instance_path: the base instance's would verify it against the wrong data.
+            # the scenario's instance, so their figures and verification are its own.  The
+            # base instance's path with the scenario file kept beside the plan (SCENARIO_COPY):
+            # 'verify' and 'report' apply it, as the comparison did.
             write_plan_folder(other, sub, {"scenario": name, SCENARIO_KEY: scenario_entry(
                 by_name[name], instance, other.instance)},
-                {"reasons.csv": comparison.reasons[name]})
+                {"reasons.csv": comparison.reasons[name]}, instance_path=args.instance)
+            copy_scenario(file_of[name], sub)
 
     if len(comparison.actions):
         # The console shows each scenario's actions_differing only: the rows and their
@@ -235,10 +241,12 @@ def cmd_replan(args: argparse.Namespace) -> int:
     made_under = scenario_of(folder)
     if made_under is not None and made_under != scenario_name:
         # Its demand and budgets were the scenario's; the re-plan's are the data given here.
+        kept = folder / SCENARIO_COPY
         _err(f"note: the old plan was made under scenario '{made_under}' (its summary.json); "
              "this re-plan reads " + ("the instance's own data" if scenario_name is None
                                       else f"scenario '{scenario_name}'")
-             + "; to re-plan under it, give --scenario with its file")
+             + "; to re-plan under it, give --scenario "
+             + (str(kept) if kept.is_file() else "with its file"))
     if args.at not in instance.period_names:
         _err(f"--at {args.at}: not a period of the instance; expected one of "
              f"{', '.join(instance.period_names)}")
@@ -308,15 +316,23 @@ def cmd_replan(args: argparse.Namespace) -> int:
         code = say_late_notice(out.summary, args.at, instance, ahead)
         if code is not None:
             return code
-        more = planned_ahead_folder(ahead, scenario_name, assumed, args.at)
+        more = planned_ahead_folder(ahead, scenario_name, assumed, args.at, args.scenario,
+                                    args.instance)
+    if args.scenario:
+        # Under a scenario the plan belongs to the changed data: the scenario file is kept
+        # beside it (SCENARIO_COPY), and 'verify' and 'report' apply it to the instance.
+        ahead_files = more
 
-    # Under a scenario the plan belongs to the changed data, not to the instance folder:
-    # record no instance path, so 'rebalance report' asks for one rather than mislead.
+        def more(folder: Path) -> None:
+            copy_scenario(args.scenario, folder)
+            if ahead_files is not None:
+                ahead_files(folder)
+
     return _write_analysis_plan(args, out.result, instance,
                                 {"changes.csv": out.changes, "replan.csv": out.summary,
                                  **({} if out.reasons is None
                                     else {"reasons.csv": out.reasons.table})},
-                                None if args.scenario else args.instance,
+                                args.instance,
                                 "new plan, changes.csv and replan.csv" if not more else
                                 "new plan, changes.csv, replan.csv and the plan made ahead "
                                 "(planned_ahead/)",

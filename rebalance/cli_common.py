@@ -169,10 +169,11 @@ def _say_first(head: str, problems: Sequence[object]) -> None:
         _err(line)
 
 
-def _unreadable_plan(folder: str | Path, exc: InstanceError) -> int:
+def _unreadable_plan(folder: str | Path, exc: InstanceError, writes: bool = True) -> int:
+    """``writes`` False (``verify``, which never writes): no "nothing was written"."""
     _say_first(f"{folder}: not a plan folder rebalance can read, "
-               f"{problems_counted(count_problems(exc.problems))}; nothing was written",
-               exc.problems)
+               f"{problems_counted(count_problems(exc.problems))}"
+               + ("; nothing was written" if writes else ""), exc.problems)
     return EXIT_INVALID_INPUT
 
 
@@ -230,6 +231,42 @@ def add_solver_options(p: argparse.ArgumentParser, limit_covers: str) -> None:
                         "time_limit_seconds, else 300)")
     p.add_argument("--gap", type=GAP, help=GAP_HELP)
     p.add_argument("--seed", type=SEED, help=SEED_HELP)
+
+
+# A plan made under a scenario keeps a copy of its scenario file, so that 'verify' and
+# 'report' check and draw it against the data it was made for (the instance with the
+# scenario applied), not the instance's own: both had reported its surge as broken rules.
+SCENARIO_COPY = "scenario.toml"
+
+
+def copy_scenario(scenario_file: str | Path, folder: Path) -> None:
+    """Keep ``scenario_file`` in plan folder ``folder`` as :data:`SCENARIO_COPY`."""
+    import shutil
+
+    shutil.copyfile(scenario_file, folder / SCENARIO_COPY)
+
+
+def folder_instance(instance: Instance, plan_dir: str | Path,
+                    writes: bool = True) -> Instance | None:
+    """``instance`` as the plan in ``plan_dir`` was made for it: with the folder's copy of
+    its scenario file applied where it keeps one (saying so on stdout), else as it is.
+    None after listing the scenario file's problems on stderr (it no longer fits the
+    instance)."""
+    from rebalance.analysis.scenario_files import ScenarioError, apply_scenario, read_scenario
+
+    copy = Path(plan_dir) / SCENARIO_COPY
+    if not copy.is_file():
+        return instance
+    try:
+        scenario = read_scenario(copy, instance)
+    except ScenarioError as exc:
+        _say_first(f"{copy}: the scenario this plan was made under does not fit the instance "
+                   f"given, {problems_counted(len(exc.problems))}"
+                   + ("; nothing was written" if writes else ""), exc.problems)
+        return None
+    print(f"with scenario '{scenario.name}' applied to the instance's data ({copy}), as the "
+          "plan was made")
+    return apply_scenario(instance, scenario)
 
 
 def scenario_of(folder: Path) -> str | None:

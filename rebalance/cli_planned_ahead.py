@@ -14,7 +14,7 @@ from pathlib import Path
 
 import pandas as pd
 
-from rebalance.cli_common import EXIT_VERIFICATION_FAILED, _say_violations
+from rebalance.cli_common import EXIT_VERIFICATION_FAILED, _say_violations, copy_scenario
 from rebalance.instance import Instance
 from rebalance.planning import PlanResult
 from rebalance.report.inputs import AHEAD_KEY, SCENARIO_KEY
@@ -46,7 +46,8 @@ def say_late_notice(summary: pd.DataFrame, at: str, instance: Instance,
 
 
 def planned_ahead_folder(ahead: PlanResult, scenario: str | None, assumed: dict | None,
-                         at: str) -> Callable[[Path], None] | None:
+                         at: str, scenario_file: str | None = None,
+                         instance_path: str | None = None) -> Callable[[Path], None] | None:
     """What writes the plan made ahead into ``planned_ahead/`` of the re-plan's staged folder
     (one swap for both), as compare writes its scenarios' plans: the plan tables, its
     summary.json naming the scenario and the re-plan's period ``at`` (so its page and workbook
@@ -59,9 +60,12 @@ def planned_ahead_folder(ahead: PlanResult, scenario: str | None, assumed: dict 
     def write(folder: Path) -> None:
         sub = folder / AHEAD_FOLDER
         sub.mkdir()
-        # The scenario's data, not the instance's: no instance path, so 'rebalance report'
-        # asks for one rather than verify it against the wrong data.
+        # The scenario's data, not the instance's: the scenario file is kept beside the
+        # plan, and 'verify' and 'report' apply it to the instance.
         write_plan_folder(ahead, sub, {"scenario": scenario, SCENARIO_KEY: assumed,
-                                       AHEAD_KEY: {"for_replan_at": at}})
+                                       AHEAD_KEY: {"for_replan_at": at}},
+                          instance_path=instance_path)
+        if scenario_file is not None:
+            copy_scenario(scenario_file, sub)
 
     return write

@@ -43,8 +43,8 @@ def write_plan_folder(result: PlanResult, folder: Path,
     and summary.json (``summary``'s keys after its own), ``tables`` with its reasons (worked
     out here, re-planned from ``replanned_at``, unless ``tables`` holds reasons.csv),
     ``more``'s files, then report.html and plan.xlsx, which show all of those.
-    ``instance_path`` is recorded for 'rebalance report'; None where the plan's data are not
-    the instance folder's (a scenario's), so the report asks rather than mislead."""
+    ``instance_path`` is recorded for 'rebalance report' (a scenario's plan: the base
+    instance's, its scenario file kept beside the plan by the command that writes it)."""
     assert result.plan is not None  # callers write only a verified plan
     keys = dict(summary or {})
     if instance_path is not None:

@@ -107,8 +107,16 @@ def test_compare_and_replan(tmp_path: Path) -> None:
                "--gap", "0", "-q", "--scenario", str(scenario))
     assert done.returncode == 0, done.stderr
     assert json.loads((surge / "summary.json").read_text())["replan"]["scenario"] == "b-surge"
-    # Checked against the instance's own data, a plan made under a scenario fails, and says
-    # first why (a practitioner's reading: "verification failed" with no word of it).
+    # It keeps its scenario file, and verify checks it against the data it was made for,
+    # saying so (it had failed it against the instance's own data).
+    assert (surge / "scenario.toml").read_bytes() == scenario.read_bytes()
+    done = run("verify", str(TINY), str(surge))
+    assert done.returncode == 0, done.stdout + done.stderr
+    assert "with scenario 'b-surge' applied to the instance's data" in done.stdout
+    # A folder without the copy (written before plans kept one) is checked against the
+    # instance's own data and fails, saying first why (a practitioner's reading:
+    # "verification failed" with no word of it).
+    (surge / "scenario.toml").unlink()
     done = run("verify", str(TINY), str(surge))
     assert done.returncode == 6 and "made under scenario 'b-surge'" in done.stdout
     named = json.loads((out / "scenarios" / "b-surge" / "summary.json").read_text())
@@ -153,9 +161,25 @@ def test_compare_writes_each_scenario_a_report_of_its_own(tmp_path: Path) -> Non
     assert verify_folder(apply_scenario(instance, read_scenario(scenario, instance)), sub) == []
     summary = load_workbook(sub / "plan.xlsx", read_only=True)["summary"]
     assert next(summary.iter_rows(values_only=True))[0] == "Staffing plan for tiny+b-surge"
-    # No instance path: the base instance's would verify the scenario's plan against the
-    # wrong demand and budgets.
-    assert "instance_path" not in json.loads((sub / "summary.json").read_text())
+    # The base instance's path and the scenario file beside the plan: 'verify' and 'report'
+    # apply it, as the comparison did ('report' had asked for an instance, and the base's
+    # alone gives the wrong demand and budgets).
+    assert json.loads((sub / "summary.json").read_text())["instance_path"] == str(
+        TINY.resolve())
+    assert (sub / "scenario.toml").read_bytes() == scenario.read_bytes()
+    done = run("verify", str(TINY), str(sub))
+    assert done.returncode == 0, done.stdout + done.stderr
+    (sub / "report.html").unlink()
+    done = run("report", str(sub))
+    assert done.returncode == 0, done.stdout + done.stderr
+    assert "of 130,000 allowed" in _page_text(sub / "report.html")
+    # A scenario copy that no longer fits the instance given is bad input, said as such.
+    (sub / "scenario.toml").write_text('name = "b-surge"\n[[demand]]\noffices = ["Z"]\n'
+                                       "multiplier = 2\n")
+    done = run("verify", str(TINY), str(sub))
+    assert done.returncode == 3
+    assert "does not fit the instance given" in done.stderr and "unknown office Z" in done.stderr
+    assert "nothing was written" not in done.stderr
 
     # The base's page titles its plan sections as the base plan's; its money is the base's.
     base = _page_text(out / "report.html")

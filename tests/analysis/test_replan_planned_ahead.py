@@ -210,6 +210,11 @@ def test_replan_planned_ahead_end_to_end(tmp_path: Path) -> None:
         assert (ahead / name).exists(), name
     now = apply_scenario(read_instance(TINY), read_scenario(surge, read_instance(TINY)))
     assert verify_folder(now, ahead) == []
+    # Both folders keep the scenario file, so 'verify' applies it as the solves did.
+    for folder in (out, ahead):
+        assert (folder / "scenario.toml").read_bytes() == surge.read_bytes()
+        done = _run("verify", str(TINY), str(folder))
+        assert done.returncode == 0 and "with scenario 'b-up' applied" in done.stdout, folder
     summary = json.loads((ahead / "summary.json").read_text())
     assert summary["scenario"] == "b-up"
     assert summary["weighted_shortfall"] == pytest.approx(

@@ -79,7 +79,8 @@ _WRITES = {"plan": (("out", "folder"),), "compare": (("out", "folder"),),
            "workbook": (("out", "file"),), "report": (("plan_dir", "there"),),
            "demand": (("out", "there"), ("report", "folder"))}
 _READS = {"instance": "the instance", "from_dir": "the --from folder",
-          "scenario": "a scenario file", "history": "the history", "folder": "the instance"}
+          "scenario": "a scenario file", "history": "the history", "folder": "the instance",
+          "plan_dir": "the plan folder"}
 
 
 def _outputs(args: argparse.Namespace) -> list[tuple[str, str]]:

@@ -696,3 +696,25 @@ def test_an_unreadable_input_file_is_invalid_input_not_an_output_problem(tmp_pat
             assert "cannot be written" not in done.stderr and "plan:" not in done.stderr
     finally:
         shutil.rmtree(base, ignore_errors=True)
+
+
+def test_every_path_a_command_takes_is_checked_before_the_run() -> None:
+    # cli_common's _WRITES and _READS are kept by hand beside the parser: a new command's or
+    # option's path missing there would not be checked before the solve (an unwritable -o
+    # had been found only after it).  Every argument with no type and no fixed choices is a
+    # path, except the few named here, which are not.
+    import argparse
+
+    from rebalance.cli import build_parser
+    from rebalance.cli_common import _READS, _WRITES
+
+    not_paths = {"at", "hiring", "moves"}  # a period name; the budget grids
+    subcommands = next(a for a in build_parser()._actions
+                       if isinstance(a, argparse._SubParsersAction))
+    for command, parser in subcommands.choices.items():
+        written = {name for name, _ in _WRITES.get(command, ())}
+        for action in parser._actions:
+            if (action.type is not None or action.choices is not None or action.nargs == 0
+                    or action.dest in {"help", *not_paths}):
+                continue
+            assert action.dest in written or action.dest in _READS, (command, action.dest)

@@ -209,8 +209,9 @@ def _number(kind: type, minimum: float, maximum: float | None = None,
 # thread's wait overflowed), past 1e12 money is a typo.
 SECONDS = _number(float, 0.1, MAX_TIME_LIMIT_SECONDS, what="seconds, from 0.1 to 10,000,000")
 GAP = _number(float, 0.0, 1.0, what="a relative gap from 0 to 1, e.g. 0.01")
-COUNT = _number(int, 1, what="a whole number, at least 1")
-SEED = _number(int, 0, what="a whole number, at least 0")
+# Bounded as settings.toml's seed and threads are (a reviewer's 2e12 passed here, refused there).
+COUNT = _number(int, 1, MAX_NUMBER, what="a whole number from 1 to 1,000,000,000,000")
+SEED = _number(int, 0, MAX_NUMBER, what="a whole number from 0 to 1,000,000,000,000")
 MONEY = _number(float, 0.0, MAX_NUMBER, what="an amount of money, from 0 to 1,000,000,000,000")
 
 # Help shared by the commands that read an instance and solve it; a setting on the command

@@ -9,6 +9,7 @@ and their cells parsed, by :mod:`rebalance.tables`.
 
 from __future__ import annotations
 
+import os
 import re
 import tomllib
 from collections.abc import Mapping
@@ -133,7 +134,10 @@ def read_instance(path: str | Path) -> Instance:
     settings, tables, problems = read_tables(folder)
     if not folder.is_dir():  # nothing was read: checking empty settings would only add noise
         raise InstanceError(problems)
-    return build_instance(folder.name, settings, tables, problems)
+    # `.` and `..` name the folder they stand for (`.` had given an empty name everywhere);
+    # abspath keeps a symbolic link's own name, as the plain name does.
+    name = Path(os.path.abspath(folder)).name or "instance"
+    return build_instance(name, settings, tables, problems)
 
 
 SKILL_NAME = re.compile(r"^[A-Za-z0-9_.\-]+$")

@@ -111,9 +111,12 @@ def test_out_of_range_solver_options_are_usage_errors_that_say_what_was_expected
                                   ("--time-limit", "1e10", "seconds, from 0.1 to 10,000,000"),
                                   ("--gap", "1.5", "a relative gap from 0 to 1"),
                                   ("--gap", "nan", "a relative gap from 0 to 1"),
-                                  ("--threads", "0", "a whole number, at least 1"),
-                                  ("--threads", "two", "a whole number, at least 1"),
-                                  ("--seed", "-1", "a whole number, at least 0")):
+                                  ("--threads", "0", "a whole number from 1 to"),
+                                  ("--threads", "two", "a whole number from 1 to"),
+                                  ("--seed", "-1", "a whole number from 0 to"),
+                                  # settings.toml's bound, 1e12, on seed and threads too.
+                                  ("--seed", "2000000000000", "a whole number from 0 to"),
+                                  ("--threads", "2000000000000", "a whole number from 1 to")):
         with pytest.raises(SystemExit) as stop:
             main(["plan", str(DATA / "tiny"), "-o", str(out), flag, value])
         assert stop.value.code == EXIT_USAGE

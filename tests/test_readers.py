@@ -1144,3 +1144,13 @@ def test_a_count_of_rows_like_these_follows_its_examples():
     said = [str(p) for p in collapse_repeats([*same, other])]
     assert said[10:] == ["staff.csv: fte: 'x' is not a number (and 2 more rows like this)",
                          "skills.csv:2: ramp: 'y' is not a number"]
+
+
+def test_an_instance_given_as_dot_is_named_after_its_folder(monkeypatch):
+    # A reviewer's run from inside the folder (`rebalance plan . -o ...`): the name was ""
+    # in the console, summary.json and the page's title.  Path("tiny/.").name is "" and
+    # Path("tiny/..").name is ".." (Python's pathlib documentation).
+    monkeypatch.chdir(DATA / "tiny")
+    assert read_instance(".").name == "tiny"
+    monkeypatch.chdir(DATA / "tiny" / "..")
+    assert read_instance("tiny/.").name == "tiny"

@@ -312,12 +312,16 @@ def cmd_report(args: argparse.Namespace) -> int:
 
 
 def cmd_generate(args: argparse.Namespace) -> int:
-    from rebalance.generate import generate, spec_for_size, write_generated
+    from rebalance.generate import generate, replace_problem, spec_for_size, write_generated
 
     out = Path(args.out)
-    if out.exists() and (not out.is_dir() or any(out.iterdir())) and not args.force:
-        what = "already exists and is not empty" if out.is_dir() else "is a file"
-        _err(f"{out}: {what}; give --force to replace it")
+    # Before generating: --force replaces only an instance generate wrote (write_generated
+    # refuses anything else too, but only after the work).
+    refused = replace_problem(out)
+    if refused is None and out.is_dir() and any(out.iterdir()) and not args.force:
+        refused = f"{out}: holds an instance rebalance generate wrote; give --force to replace it"
+    if refused is not None:
+        _err(refused)
         return EXIT_USAGE
     spec = spec_for_size(
         args.size, staff=args.staff, offices=args.offices, skills=args.skills,
@@ -431,12 +435,14 @@ def build_parser() -> argparse.ArgumentParser:
         MAX_OFFICES,
         MAX_PERIODS,
         MAX_SKILLS,
+        MAX_STAFF,
         PRESETS,
         GeneratorSpec,
     )
 
     small = PRESETS["small"]
-    p.add_argument("--staff", type=int, help=f"at least 2 per office (small: {small[0]})")
+    p.add_argument("--staff", type=int,
+                   help=f"at least 2 per office, at most {MAX_STAFF:,} (small: {small[0]})")
     p.add_argument("--offices", type=int, help=f"2 to {MAX_OFFICES} (small: {small[1]})")
     p.add_argument("--skills", type=int, help=f"1 to {MAX_SKILLS} (small: {small[2]})")
     p.add_argument("--periods", type=int,
@@ -459,7 +465,8 @@ def build_parser() -> argparse.ArgumentParser:
         span = f"{low:g} or more" if high is None else f"{low:g} to {high:g}"
         p.add_argument(f"--{name.replace('_', '-')}", type=float,
                        help=f"{text}; {span} (default {getattr(knobs, name):g})")
-    p.add_argument("--force", action="store_true", help="replace OUT if it exists")
+    p.add_argument("--force", action="store_true",
+                   help="replace OUT if it holds an instance generate wrote (nothing else)")
     p.set_defaults(run=cmd_generate)
 
     p = sub.add_parser("workbook", help="copy a valid instance folder into one .xlsx workbook")

@@ -40,6 +40,7 @@ from rebalance.workbook_writer import (
     PERIOD_COLUMNS,
     PERIODS_SHEET,
     SETTINGS_SHEET,
+    plain_text,
 )
 
 __all__ = ["read_workbook"]
@@ -49,6 +50,8 @@ _PERIOD_CELLS = {"demand": ("period",), "staff": ("last_period",)}
 # Columns that hold budget years (names such as 2027 or FY27): never a date either.
 _YEAR_CELLS = {"budget": ("year",)}
 _PERIOD_KEY = re.compile(r"^horizon\.periods\[(\d+)\](?:\.(\w+))?$")
+# Cells read as lists split at white space, where a line break parts two items as a space does.
+_SPLIT_CELLS = {"staff": "skills", "skills": "ramp"}
 
 
 @dataclass(frozen=True)
@@ -74,7 +77,10 @@ def read_workbook(path: str | Path) -> Instance:
     book_path = Path(path)
     book = book_path.name
     if not book_path.is_file():
-        raise InstanceError([Problem(book, None, None, "workbook not found")])
+        raise InstanceError([Problem(book, None, None, "is a folder; expected a workbook file "
+                                     "(a folder whose name ends in .xlsx is not read as an "
+                                     "instance folder)" if book_path.is_dir()
+                                     else "workbook not found")])
     try:
         sheets, titles, problems = _load_sheets(book_path)
     except Exception as exc:  # openpyxl raises many kinds for a file that is not a workbook
@@ -111,6 +117,17 @@ def read_workbook(path: str | Path) -> Instance:
     for problem in _dates_for_periods(sheets, label):
         problems.append(problem)
         merged[(problem.file, problem.row, problem.column)] = problem.message
+    # A line break typed in a cell (Alt+Enter): the CSV route refuses it, and a name holding
+    # one had passed check and made a plan folder that verify could not read.
+    for name, read in sheets.items():
+        used = _used_columns(name) - {_SPLIT_CELLS.get(name, "")}
+        for number, texts in enumerate(read.rows, 2):
+            for column, text in texts.items():
+                if ("\n" in text or "\r" in text) and column.lower() in used:
+                    problem = Problem(label(name), number, column, "runs over several lines (a "
+                                      "line break inside the cell); expected one line per cell")
+                    problems.append(problem)
+                    merged[(problem.file, number, column)] = problem.message
     # Said with a missing sheet: one named otherwise ("Skill set") is then seen at a glance.
     found = ("; the workbook's sheets are " + ", ".join(titles.values()) if titles
              else "; the workbook has no sheet")
@@ -209,7 +226,10 @@ def _load_sheets(path: Path) -> tuple[dict[str, _Sheet], dict[str, str], list[Pr
             if ws.sheet_state != "visible":
                 problems.append(Problem(ws.title, None, None, "the sheet is hidden; read all "
                                         "the same, as every sheet is", is_warning=True))
-            values = [tuple(r) for r in ws.iter_rows(values_only=True)]
+            # Text as written: openpyxl leaves the _xHHHH_ escapes of characters XML cannot
+            # hold as they are stored (U+0001 read as "_x0001_").
+            values = [tuple(plain_text(c) if isinstance(c, str) else c for c in r)
+                      for r in ws.iter_rows(values_only=True)]
             used = _used_columns(key)
             layout = sheet_layout(archive, part) if used and part else Layout()
             shown = [r for r in layout.hidden_rows if r <= len(values)

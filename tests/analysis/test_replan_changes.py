@@ -57,9 +57,11 @@ def test_no_change_is_made_for_less_shortfall_than_the_gap_asked(tmp_path: Path)
     # A sweep: a re-plan made 15 changes (52,000 of disruption) for 0.057 of 32.8 weighted
     # shortfall, inside the 0.99% its own search had left open.  Where the old plan's
     # shortfall is within the gap asked of stage 1's bound, the cost stage may keep it.
-    # Reference: the same re-plan solved with no gap (the exact optimum).
+    # Reference: the same re-plan solved with no gap (the exact optimum).  Seed 7: on seed 1
+    # the generator's data since a9e1c3c let the search itself end within the gap, and the
+    # rule under test was no longer reached.
     folder = write_generated(generate(GeneratorSpec(staff=40, offices=3, skills=2, periods=6,
-                                                    seed=1)), tmp_path / "g1")
+                                                    seed=7)), tmp_path / "g7")
     instance = read_instance(folder)
     old = make_plan(instance, options_from_instance(instance, relative_gap=0.0,
                                                     time_limit_seconds=30))

@@ -3,7 +3,9 @@
 where, who takes the seats, hires gained, and the new plan's own reasons and limits.
 
 Read off the instance, the old plan and the new plan only, as ``reasons.csv`` is: never off
-solver objects.
+solver objects.  One plan's figures by office, skill and period (``_Context``) are here too,
+for :mod:`rebalance.analysis.reasons` reads them as well and had grown past the 600 lines a
+module keeps to (tests/test_layout.py); so this module imports that one for type checks only.
 """
 
 from __future__ import annotations
@@ -11,18 +13,23 @@ from __future__ import annotations
 from collections import defaultdict
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 import pandas as pd
 
 from rebalance.analysis.limits import LimitUse, hire_rows
-from rebalance.analysis.reasons import _EPS, Reasons, _Context, _floats, _texts
 from rebalance.analysis.scenario_actions import main_skills
 from rebalance.instance import Instance, Person
-from rebalance.numbers import gap_text, number_text
+from rebalance.numbers import gap_text, number_text, share_of
 from rebalance.plan import Plan
 
+if TYPE_CHECKING:  # reasons.py imports _Context from here: no import back at run time
+    from rebalance.analysis.reasons import Reasons
+
 __all__ = ["BASE_AND_SCENARIO", "FORCED", "OLD_AND_NEW", "PlanNames", "work_on_current_data"]
+
+_EPS = 1e-6
 
 # A relative gap at or below this is proven (analysis_words.GAP_SAID says the same).
 PROVEN_GAP = 1e-4
@@ -44,6 +51,66 @@ class PlanNames:
 
 OLD_AND_NEW = PlanNames()
 BASE_AND_SCENARIO = PlanNames("the base plan", "the scenario's plan")
+
+
+class _Context:
+    """Plan figures by office, skill and period index, shared by the reason writers."""
+
+    def __init__(self, instance: Instance, plan: Plan) -> None:
+        self.i = instance
+        self.names = instance.period_names
+        self.ix = {n: t for t, n in enumerate(self.names)}
+        c = plan.coverage
+        self.demand: dict[tuple[str, str, int], float] = {}
+        self.own: dict[tuple[str, str, int], float] = defaultdict(float)
+        self.staff_out: dict[tuple[str, str, int], float] = defaultdict(float)
+        self.short: dict[tuple[str, str, int], float] = {}
+        # Columns as lists: stepping through pandas arrays item by item was most of this.
+        for o, k, p, dem, staff_out, hire_out, short in zip(
+                *(_texts(c[name]) for name in ("office", "skill", "period")),
+                *(_floats(c[name]) for name in ("demand_fte", "staff_output_fte",
+                                                "hire_output_fte", "shortfall_fte")),
+                strict=True):
+            t = self.ix[p]
+            self.demand[(o, k, t)] = dem
+            self.own[(o, k, t)] = staff_out + hire_out
+            self.staff_out[(o, k, t)] = staff_out
+            self.short[(o, k, t)] = short
+        # Output of people on detail, by destination: removed to see the office's own cover.
+        d = plan.details
+        self.away = {(p, self.ix[t]): to for p, t, to in zip(
+            _texts(d["person"]), _texts(d["period"]), _texts(d["to_office"]), strict=True)}
+        self.visitor_out: dict[tuple[str, str, int], float] = defaultdict(float)
+        self.person_out: dict[tuple[str, int], dict[str, float]] = defaultdict(dict)
+        w = plan.work
+        for p, per, o, k, out in zip(
+                *(_texts(w[name]) for name in ("person", "period", "office", "skill")),
+                _floats(w["output_fte"]), strict=True):
+            t = self.ix[per]
+            if self.away.get((p, t)) == o:
+                self.visitor_out[(o, k, t)] += out
+            self.person_out[(p, t)][k] = self.person_out[(p, t)].get(k, 0.0) + out
+
+    def gap_without_visitors(self, office: str, skill: str, t: int) -> float:
+        key = (office, skill, t)
+        return self.demand.get(key, 0.0) - (self.own[key] - self.visitor_out[key])
+
+    def gap_before_hires(self, office: str, skill: str, t: int) -> float:
+        key = (office, skill, t)
+        return self.demand.get(key, 0.0) - self.staff_out[key]
+
+    def gap_without(self, person: str, office: str, skill: str, t: int) -> float:
+        key = (office, skill, t)
+        return self.demand.get(key, 0.0) - (self.own[key] - self.person_out.get(
+            (person, t), {}).get(skill, 0.0))
+
+
+def _texts(column: pd.Series) -> list[str]:
+    return column.astype(str).tolist()
+
+
+def _floats(column: pd.Series) -> list[float]:
+    return column.astype(float).tolist()
 
 
 def _visitors(plan: Plan, ix: dict[str, int]) -> dict[_Key, dict[str, float]]:
@@ -142,6 +209,46 @@ def _seated(where: dict[tuple[str, int], tuple[str, str]]) -> dict[tuple[str, in
 def _people(names: Sequence[str]) -> str:
     shown = ", ".join(names[:3])
     return shown + (f" and {len(names) - 3} more" if len(names) > 3 else "")
+
+
+def _both_ways(instance: Instance, moves: Sequence[tuple[str, int, str, str, str]],
+               staff: dict[str, Person]) -> dict[str, str]:
+    """person -> words on the plan's moves the other way between the same two offices in
+    the same period, of people with the skill (``moves``: person, period index, from, to,
+    the skill the move's reason names), and what tells the two groups apart in staff.csv
+    and attrition.csv: a generated plan moved 3 people with one skill from one office to
+    another and 7 with it back in one period, and had said of each that it freed a seat
+    "for good".  Nothing for a move with none the other way."""
+    route: dict[tuple[int, str, str], list[str]] = defaultdict(list)
+    for p, t, a, b, _ in moves:
+        route[(t, a, b)].append(p)
+    names = instance.period_names
+
+    def traits(p: Person) -> dict[str, str]:
+        rate = instance.attrition_rate(p.skills[0][0], p.home_office)
+        # Each keeps the rate of the office they were based at (Instance.available_fte).
+        return {"attrition (kept from their first office)": f"{share_of(rate)} a year",
+                "FTE": number_text(p.fte),
+                "skills": "(" + ", ".join(f"{k} {number_text(v)}" for k, v in p.skills) + ")",
+                "last period": "none" if p.last_period is None else names[p.last_period]}
+
+    def group(key: tuple[int, str, str], skill: str) -> list[str]:
+        return sorted(q for q in route.get(key, ()) if staff[q].proficiency(skill) > 0)
+    out = {}
+    for p, t, a, b, skill in moves:
+        there, back = group((t, a, b), skill), group((t, b, a), skill)
+        if not back:
+            continue
+        mine = {w: sorted({traits(staff[q])[w] for q in there}) for w in traits(staff[p])}
+        theirs = {w: sorted({traits(staff[q])[w] for q in back}) for w in mine}
+        differ = [f"{w} {' or '.join(mine[w])} against {' or '.join(theirs[w])}"
+                  for w in mine if mine[w] != theirs[w]]
+        out[p] = (f"moves both ways: in {names[t]} the plan moves {len(there)} with {skill} "
+                  f"from {a} to {b} ({_people(there)}) and {len(back)} with it from {b} to {a} "
+                  f"({_people(back)}); " + (f"what differs: {'; '.join(differ)}" if differ
+                                            else "nothing in the tables tells them apart")
+                  + " (review)")
+    return out
 
 
 class _Facts:

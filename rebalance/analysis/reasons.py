@@ -20,6 +20,7 @@ from dataclasses import dataclass
 
 import pandas as pd
 
+from rebalance.analysis.change_facts import _EPS, _both_ways, _Context, _floats, _texts
 from rebalance.analysis.limits import BUDGET_LIMITS, LIMIT_NAMES, LimitUse, hire_rows, limit_use
 from rebalance.instance import Instance, Person
 from rebalance.numbers import money_amount, number_text, share_of
@@ -29,9 +30,6 @@ __all__ = ["REASON_COLUMNS", "Reasons", "limit_key", "reasons"]
 
 REASON_COLUMNS = ("action", "subject", "office", "skill", "first_period", "last_period",
                   "amount", "reason", "binding_limits")
-
-_EPS = 1e-6
-
 
 @dataclass(frozen=True)
 class Reasons:
@@ -78,66 +76,6 @@ def _describe(use: LimitUse, instance: Instance) -> str:
     return f"{what} at {use.where}{when} ({number_text(use.used)} of {number_text(use.cap)} used)"
 
 
-class _Context:
-    """Plan figures by office, skill and period index, shared by the reason writers."""
-
-    def __init__(self, instance: Instance, plan: Plan) -> None:
-        self.i = instance
-        self.names = instance.period_names
-        self.ix = {n: t for t, n in enumerate(self.names)}
-        c = plan.coverage
-        self.demand: dict[tuple[str, str, int], float] = {}
-        self.own: dict[tuple[str, str, int], float] = defaultdict(float)
-        self.staff_out: dict[tuple[str, str, int], float] = defaultdict(float)
-        self.short: dict[tuple[str, str, int], float] = {}
-        # Columns as lists: stepping through pandas arrays item by item was most of this.
-        for o, k, p, dem, staff_out, hire_out, short in zip(
-                *(_texts(c[name]) for name in ("office", "skill", "period")),
-                *(_floats(c[name]) for name in ("demand_fte", "staff_output_fte",
-                                                "hire_output_fte", "shortfall_fte")),
-                strict=True):
-            t = self.ix[p]
-            self.demand[(o, k, t)] = dem
-            self.own[(o, k, t)] = staff_out + hire_out
-            self.staff_out[(o, k, t)] = staff_out
-            self.short[(o, k, t)] = short
-        # Output of people on detail, by destination: removed to see the office's own cover.
-        d = plan.details
-        self.away = {(p, self.ix[t]): to for p, t, to in zip(
-            _texts(d["person"]), _texts(d["period"]), _texts(d["to_office"]), strict=True)}
-        self.visitor_out: dict[tuple[str, str, int], float] = defaultdict(float)
-        self.person_out: dict[tuple[str, int], dict[str, float]] = defaultdict(dict)
-        w = plan.work
-        for p, per, o, k, out in zip(
-                *(_texts(w[name]) for name in ("person", "period", "office", "skill")),
-                _floats(w["output_fte"]), strict=True):
-            t = self.ix[per]
-            if self.away.get((p, t)) == o:
-                self.visitor_out[(o, k, t)] += out
-            self.person_out[(p, t)][k] = self.person_out[(p, t)].get(k, 0.0) + out
-
-    def gap_without_visitors(self, office: str, skill: str, t: int) -> float:
-        key = (office, skill, t)
-        return self.demand.get(key, 0.0) - (self.own[key] - self.visitor_out[key])
-
-    def gap_before_hires(self, office: str, skill: str, t: int) -> float:
-        key = (office, skill, t)
-        return self.demand.get(key, 0.0) - self.staff_out[key]
-
-    def gap_without(self, person: str, office: str, skill: str, t: int) -> float:
-        key = (office, skill, t)
-        return self.demand.get(key, 0.0) - (self.own[key] - self.person_out.get(
-            (person, t), {}).get(skill, 0.0))
-
-
-def _texts(column: pd.Series) -> list[str]:
-    return column.astype(str).tolist()
-
-
-def _floats(column: pd.Series) -> list[float]:
-    return column.astype(float).tolist()
-
-
 def _periods(n: int) -> str:
     return "period" if n == 1 else "periods"
 
@@ -167,12 +105,20 @@ def _gap_words(skill: str, office: str, names: tuple[str, ...], t1: int, t2: int
 
 def _move_words(instance: Instance, a: str, b: str, skill: str, need: int,
                 left: list[int], cost: float, seats_full: list[int],
-                share_full: list[int]) -> str:
+                share_full: list[int], *, can_detail: bool = True,
+                refilled: tuple[int, int] = (0, 0), both_ways: str = "") -> str:
     """Why a person is reassigned from ``a`` to ``b`` for the periods ``left`` (present
     from the move on): the periods ``skill`` work at ``b`` needs them, ``a``'s full seats
     a move frees for good, an away share at its cap a detail would count against, and the
-    move's cost against detailing them instead.  "needs them in 0 of the 2 periods ...: a
-    lasting need" had been said of a move that freed a seat (a reading of a seats case)."""
+    move's cost against what details could do instead.  "needs them in 0 of the 2 periods
+    ...: a lasting need" had been said of a move that freed a seat (a reading of a seats case).
+
+    ``can_detail`` False: no detail is open to them, so none is priced (31 of a generated
+    plan's 42 moves had been set against details their people may not go on).  ``refilled``:
+    the plan's moves into ``a`` and out of it from the move's period on, where the first is
+    not 0 (a seat freed "for good" had been claimed where counter-moves filled it again).
+    ``both_ways``: words on moves the other way in the same period
+    (:func:`rebalance.analysis.change_facts._both_ways`)."""
     names = instance.period_names
     n = len(left)
     start = names[left[0]] if left else ""
@@ -187,23 +133,43 @@ def _move_words(instance: Instance, a: str, b: str, skill: str, need: int,
             return f"{len(periods)} of them"
         return "that one" if n == 1 else "both" if n == 2 else "all of them"
 
-    if seats_full:
+    into, out = refilled
+    if seats_full and not into:
         parts.append(f"{a}'s seats are full in {how_many(seats_full)}, and a move frees a seat "
                      "there for good")
-    if share_full:
+    elif seats_full:
+        moved = (f"the plan moves {into} {'person' if into == 1 else 'people'} into {a} from "
+                 f"{start} on and {out} out")
+        parts.append(f"{a}'s seats are full in {how_many(seats_full)}, but {moved}, so "
+                     + (f"moves free {out - into} of its seats on balance" if out > into
+                        else "every seat moves free there is taken again"))
+    m = instance.policy.max_consecutive_detail_periods
+    move_text = _money(instance, cost)
+    if not can_detail or m == 0:
+        who = "them (not allowed to be detailed)" if not can_detail else "anyone (no details)"
+        parts.append(f"a detail is not open to {who}, so only a move brings them to {b}; one "
+                     f"move costs {move_text}")
+        share_full = []
+    elif share_full:
         parts.append(f"a detail would count against {a}'s away share, at its cap in "
                      f"{how_many(share_full)}; a move does not")
-    detail_cost = instance.detail_cost_per_period(a, b) * n
-    m = instance.policy.max_consecutive_detail_periods
-    move_text, detail_text = _money(instance, cost), _money(instance, detail_cost)
-    # As written: "costs no less than" had been said of 20,000 against 10,000.
-    than = ("as much as" if move_text == detail_text else
-            "less than" if cost < detail_cost else "more than")
-    parts.append(f"one move ({move_text}) costs {than} detailing them for all of it "
-                 f"({detail_text})"
-                 + (f", which details, at most {m} of any {m + 1} periods, could not do"
-                    if m is not None and m < n else ""))
-    if not need and not seats_full and not share_full:
+    per_period = instance.detail_cost_per_period(a, b)
+    if can_detail and m is not None and 0 < m < n:
+        # At most m of any m + 1 periods: on m, back 1, over the n periods left.
+        most = n // (m + 1) * m + min(n % (m + 1), m)
+        parts.append(f"one move ({move_text}) covers all {n} periods; details, at most {m} of "
+                     f"any {m + 1} periods, could cover at most {most} of them "
+                     f"({_money(instance, per_period * most)})")
+    elif can_detail and m != 0:
+        detail_text = _money(instance, per_period * n)
+        # As written: "costs no less than" had been said of 20,000 against 10,000.
+        than = ("as much as" if move_text == detail_text else
+                "less than" if cost < per_period * n else "more than")
+        parts.append(f"one move ({move_text}) costs {than} detailing them for all of it "
+                     f"({detail_text})")
+    if both_ways:
+        parts.append(both_ways)
+    elif not need and not (seats_full and out > into) and not share_full:
         parts.append("no gain visible from this move alone (review)")
     return "; ".join(parts)
 
@@ -357,19 +323,27 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
 
     # -- reassignments: a lasting gap at the new home -----------------------------------------
     r = plan.reassignments
-    for p, per, a, b, cost in zip(
-            *(_texts(r[name]) for name in ("person", "period", "from_office", "to_office")),
-            _floats(r["cost"]), strict=True):
-        t0 = ix[per]
-        person = staff[p]
-        left = [t for t in range(t0, T) if person.is_present(t)]
+    moves = [(p, ix[per], a, b) for p, per, a, b in zip(
+        *(_texts(r[name]) for name in ("person", "period", "from_office", "to_office")),
+        strict=True)]
+    skills = []
+    for p, t0, _, b in moves:
+        left = [t for t in range(t0, T) if staff[p].is_present(t)]
         skill_gaps = {k: sum(1 for t in left if ctx.gap_without(p, b, k, t) > _EPS)
-                      for k, _ in person.skills}
-        skill = max(skill_gaps, key=lambda k: skill_gaps[k])
+                      for k, _ in staff[p].skills}
+        skills.append((max(skill_gaps, key=lambda k: skill_gaps[k]), skill_gaps, left))
+    both_ways = _both_ways(instance, [(*move, k) for move, (k, _, _) in zip(
+        moves, skills, strict=True)], staff)
+    for (p, t0, a, b), cost, (skill, skill_gaps, left) in zip(moves, _floats(r["cost"]), skills,
+                                                             strict=True):
+        refilled = (sum(1 for _, t, _, y in moves if y == a and t >= t0),
+                    sum(1 for _, t, x, _ in moves if x == a and t >= t0))
         text = _move_words(instance, a, b, skill, skill_gaps[skill], left, cost,
                            [t for t in left if (a, names[t]) in seats_full],
-                           [t for t in left if (a, names[t]) in share_full])
-        rows.append(("reassignment", p, b, skill, per, names[T - 1], 1.0, text, ""))
+                           [t for t in left if (a, names[t]) in share_full],
+                           can_detail=staff[p].can_detail, refilled=refilled,
+                           both_ways=both_ways.get(p, ""))
+        rows.append(("reassignment", p, b, skill, names[t0], names[T - 1], 1.0, text, ""))
 
     # -- shortfalls: the binding limits that could matter -------------------------------------
     limits = _Binding(instance, uses, replanned_at or 0)
@@ -379,7 +353,7 @@ def reasons(instance: Instance, plan: Plan, replanned_at: int | None = None) -> 
         cited = limits.relevant(o, k, t)
         if cited:
             text = (f"{_fte(short)} FTE short; held back by " +
-                    "; ".join(limits.describe(u) for u in cited))
+                    "; ".join(limits.describe(u, o, k, t) for u in cited))
         else:
             text = (f"{_fte(short)} FTE short; no binding limit found for it (the gap may be "
                     "below what one more whole head adds after ramp-up and attrition, or the "
@@ -486,11 +460,37 @@ class _Binding:
                     homes = self.last_present[skill]
                     homes[p.home_office] = max(homes.get(p.home_office, -1), last)
 
-    def describe(self, use: LimitUse) -> str:
-        """:func:`_describe`, once per limit (the demo's seats are cited by many shortfalls)."""
+    def describe(self, use: LimitUse, office: str = "", skill: str = "", t: int = 0) -> str:
+        """:func:`_describe`, once per limit (the demo's seats are cited by many shortfalls);
+        a hiring budget cited for ``skill`` at ``office`` in period ``t`` adds what is left
+        against the least a start it holds back costs that year.  "held back by hiring
+        budget 2028 (1,322,000 of 1,400,000 spent)" had read as a budget at its cap, which
+        the limits at their cap did not list: 78,000 left, less than an inspection start
+        costs 2028 (a reading of the demo)."""
         if use not in self.words:
             self.words[use] = _describe(use, self.i)
-        return self.words[use]
+        held = sorted((cost, s) for s, cost in self._start_costs(office, skill, t, use.where)
+                      if cost > self.budget_left[use.where] + _EPS
+                      ) if use.limit == "hiring_budget" and skill else []
+        if not held:
+            return self.words[use]
+        cost, s = held[0]
+        vacancy = " into a funded vacancy" if self._vacancy(office, skill) else ""
+        return (f"{self.words[use][:-1]}: {_money(self.i, self.budget_left[use.where])} left, "
+                f"less than the {_money(self.i, cost)} one {skill} hire{vacancy} starting in "
+                f"{self.names[s]} would cost {use.where})")
+
+    def _vacancy(self, office: str, skill: str) -> bool:
+        """Whether a hire of ``skill`` at ``office`` may fill a funded vacancy still left."""
+        return (self.i.vacancies.get((office, skill), 0) > 0
+                and f"{skill} at {office}" not in self.no_vacancy)
+
+    def _start_costs(self, office: str, skill: str, t: int,
+                     year: str) -> list[tuple[int, float]]:
+        """(start, what it costs ``year``) of each hire start that could cover period ``t``."""
+        vacancy = self._vacancy(office, skill)
+        return [(s, self.i.hire_cost_by_year(skill, s, new_position=not vacancy).get(year, 0.0))
+                for s in range(self._first_start(skill), t + 1)]
 
     def budgets_holding(self, office: str, skill: str, t: int) -> set[str]:
         """The years whose hiring budget holds back a hire of ``skill`` at ``office`` covering
@@ -502,8 +502,7 @@ class _Binding:
         start could cover), and a year with room for the cheapest hire anywhere none (2028
         with 12,000 left, against the 51,000 an inspection hire there costs)."""
         instance = self.i
-        vacancy = (instance.vacancies.get((office, skill), 0) > 0
-                   and f"{skill} at {office}" not in self.no_vacancy)
+        vacancy = self._vacancy(office, skill)
         blocked = [{year for year, cost in instance.hire_cost_by_year(
             skill, s, new_position=not vacancy).items()
             if year in self.budget_left and cost > self.budget_left[year] + _EPS}

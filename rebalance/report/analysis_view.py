@@ -187,8 +187,12 @@ def _reasons_rolled_up(frame: pd.DataFrame, currency: str | None) -> str:
     if limits is not None:
         body += ("<h3>Limits the shortfalls cite</h3>" + _wrapped(frame_table_html(
             limits, "reasons_by_limit", currency=currency))
-                 + '<p class="more analysis-note">Each binding limit the shortfalls cite, all '
-                   "its periods together: a shortfall held back by two limits counts under "
+                 + '<p class="more analysis-note">Each limit the shortfalls cite, all its '
+                   "periods together: a cap in full, or a budget year with less left than the "
+                   "hire or detail a shortfall needs would cost it (a hiring budget's reason "
+                   "gives both figures), which may still have room for a cheaper one and so not "
+                   "be among the limits at their cap. A shortfall held back by two limits counts "
+                   "under "
                    "both, so the rows add up to more than the total. A hire is paid in every "
                    "year from its start, so a later year's hiring budget can hold back an "
                    "earlier shortfall. How often a limit is cited is not what relaxing it "

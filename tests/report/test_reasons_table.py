@@ -60,3 +60,15 @@ def test_past_the_cap_every_kind_is_shown_with_a_note_of_how_many(tmp_path) -> N
             "53 of 160 shortfalls (each kind's first rows, in the table's order); reasons.csv "
             "and plan.xlsx have all 2,000.") in words
     assert "Showing the first 500" not in words
+
+
+def test_the_cited_limits_note_does_not_call_every_cited_limit_binding() -> None:
+    # A reviewer's reading of the demo's page: "Each binding limit the shortfalls cite" over
+    # a 2028 hiring budget with 78,000 left, which the limits block rightly leaves out (a
+    # cheaper hire still fits); the note now says what a cited budget year means.
+    from rebalance.report.analysis_view import _reasons_rolled_up
+
+    frame = pd.DataFrame([("shortfall", "review at B", "B", "review", "2027-Q3", "2027-Q3",
+                           0.5, "short", "hiring_budget|2027|")], columns=list(REASON_COLUMNS))
+    body = _reasons_rolled_up(frame, None)
+    assert "Each binding limit" not in body and "may still have room for a cheaper one" in body

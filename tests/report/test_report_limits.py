@@ -482,3 +482,40 @@ def test_a_budget_used_past_its_cap_says_over_the_cap_not_too_little_left():
     assert _budget_text(uses, "EUR", "hire") == (
         "2027 561,000 of 520,000 EUR spent: over the cap by 41,000 EUR; 2028 1,392,000 of "
         "1,400,000 EUR spent: too little left for one more hire")
+
+
+def test_a_budget_the_reasons_cite_but_not_at_its_cap_is_said_to_have_money_left(
+        tmp_path) -> None:
+    # The demo's page ranked "hiring budget 2028" among the limits its shortfalls cite while
+    # the limits at their cap named 2027 alone: 2028 had 78,000 left, room for a cheaper hire
+    # but less than an inspection start costs it.  The two must not contradict each other.
+    # tiny with B's 2027-Q2 review raised to 3.0 and a 90,000 hiring budget; by hand from
+    # its skills.csv: the plan's one hire, review at B from Q2, spends 8,000 + 3 x 20,000 =
+    # 68,000, so 22,000 is left; the cheapest hire left (intake from Q4: 5,000 + 15,000 =
+    # 20,000) fits in it, so 2027 is not at its cap; a review start at A in Q2 for A's Q2
+    # shortfall would cost 68,000.
+    import shutil
+
+    import pandas as pd
+
+    from rebalance.analysis.reasons import reasons
+
+    folder = tmp_path / "tiny_budget"
+    shutil.copytree(TINY, folder)
+    demand = pd.read_csv(folder / "demand.csv", dtype=str, keep_default_na=False)
+    demand.loc[(demand["office"] == "B") & (demand["period"] == "2027-Q2"), "fte"] = "3.0"
+    demand.to_csv(folder / "demand.csv", index=False)
+    (folder / "budget.csv").write_text("year,hiring,moves\n2027,90000,30000\n")
+    instance = read_instance(folder)
+    plan = solve_verified(instance).plan
+    assert plan is not None
+    hires = plan.hires
+    assert list(zip(hires["office"], hires["skill"], hires["start_period"], hires["count"],
+                    strict=True)) == [("B", "review", "2027-Q2", 1)]
+    assert "hiring_budget" not in {line.kind for line in limits_at_cap(instance, plan).caps}
+    table = reasons(instance, plan).table
+    short = table[(table["action"] == "shortfall") & (table["subject"] == "review at A")]
+    assert short["binding_limits"].tolist() == ["hiring_budget|2027|"]
+    assert ("held back by hiring budget 2027 (68,000 of 90,000 spent: 22,000 left, less than "
+            "the 68,000 one review hire starting in 2027-Q2 would cost 2027)"
+            ) in str(short.iloc[0]["reason"])

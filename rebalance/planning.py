@@ -19,15 +19,16 @@ from rebalance.backends import BACKENDS, raise_if_stopped, stoppable
 from rebalance.files import staged_folder
 from rebalance.instance import Instance, Person
 from rebalance.model import BuildCutShort, DetailRoute, Model, build_model
-from rebalance.numbers import money_amount, seconds_text, share_text
+from rebalance.numbers import gap_text, money_amount, seconds_text, share_text
 from rebalance.plan import Plan, extract_plan, write_plan
 from rebalance.solve import SolveOptions, SolveResult, StageResult, Status, solve
 from rebalance.verify import Violation, verify_plan
 
-__all__ = ["BUILD_STAGE", "PlanResult", "RunRate", "make_plan", "new_position_salaries",
-           "new_position_salary_per_year", "options_from_instance", "plan_run_rate",
-           "plan_warnings", "run_rate_consequence", "run_rate_note", "run_rate_warning",
-           "summary_dict", "write_outputs", "write_plan_files"]
+__all__ = ["BUILD_STAGE", "WIDE_GAP", "PlanResult", "RunRate", "gap_warning", "make_plan",
+           "new_position_salaries", "new_position_salary_per_year", "options_from_instance",
+           "plan_run_rate", "plan_warnings", "run_rate_cap_words", "run_rate_consequence",
+           "run_rate_note",
+           "run_rate_warning", "summary_dict", "write_outputs", "write_plan_files"]
 
 
 # The one stage of a run cut short while its model was built (no solver stage ran).
@@ -155,6 +156,9 @@ def summary_dict(result: PlanResult) -> dict[str, Any]:
         "shortfall_fte_periods": plan.shortfall_fte if plan else None,
         "total_cost": plan.total_cost if plan else None,
         "cost_by_kind": plan.cost_by_kind() if plan else None,
+        # The unit of every amount here ([money] currency; null where the instance sets
+        # none): total_cost had carried no unit where the reports said EUR.
+        "currency": result.instance.money.currency,
         "hires": plan.hires_count() if plan else None,
         "detail_periods": len(plan.details) if plan else None,
         "reassignments": len(plan.reassignments) if plan else None,
@@ -177,7 +181,8 @@ def summary_dict(result: PlanResult) -> dict[str, Any]:
         "warnings": list(result.instance.warnings),
         # The plan's own warnings, which the console, the page and the workbook show too;
         # "warnings" stays the instance's (input) warnings.
-        "plan_warnings": list(plan_warnings(result.instance, plan)) if plan else [],
+        "plan_warnings": list(plan_warnings(result.instance, plan, result.status.value,
+                                            result.solve.gap)) if plan else [],
         "caution": CAUTION,
     }
     return out
@@ -215,44 +220,95 @@ def new_position_salaries(instance: Instance, plan: Plan) -> pd.DataFrame:
 @dataclass(frozen=True)
 class RunRate:
     """What the plan's new positions cost in salaries every year after the horizon
-    (``per_year``), beside the hiring cap of the last budget year that sets one
-    (``cap_year``, ``cap``; None where none does): that cap is the nearest guide to the
-    hiring money of the year after, which these salaries come out of first."""
+    (``per_year``), beside the hiring cap of the last budget year that sets one for a whole
+    year in the horizon (``cap_year``, ``cap``; None where none does): that cap is the
+    nearest guide to the hiring money of the year after, which these salaries come out of
+    first.  A later capped year only partly in the horizon (``part_year``, with
+    ``part_periods`` of its ``periods_per_year``) caps only those periods' spending: it is
+    passed over, and said to be.  Where no capped year is whole in the horizon, the part
+    year's cap is set against the salaries of its periods in the horizon (``compared``)."""
 
     per_year: float
     positions: int
     horizon_end: str
     cap_year: str | None
     cap: float | None
+    compared: float = 0.0
+    part_year: str | None = None
+    part_periods: int = 0
+    periods_per_year: int = 0
+
+    @property
+    def set_against_part(self) -> bool:
+        """The cap compared is a part year's, against its periods' salaries."""
+        return self.part_year is not None and self.part_year == self.cap_year
 
     @property
     def above_cap(self) -> bool:
         """The salaries alone take more than the whole cap (money to the cent)."""
-        return self.cap is not None and round(self.per_year, 2) > round(self.cap, 2)
+        return self.cap is not None and round(self.compared, 2) > round(self.cap, 2)
 
 
 def plan_run_rate(instance: Instance, plan: Plan,
                   salaries: pd.DataFrame | None = None) -> RunRate:
     """:func:`new_position_salaries` (or its table ``salaries`` where the caller has it
-    already), summed, beside the last hiring cap."""
+    already), summed, beside the last hiring cap of a whole year (:class:`RunRate`)."""
     table = new_position_salaries(instance, plan) if salaries is None else salaries
     per_year = float(table["per_year"].sum()) if len(table) else 0.0
     positions = int(table["positions"].sum()) if len(table) else 0
-    cap_year, cap = None, None
+    per = instance.periods_per_year
+    whole: tuple[str, float] | None = None
+    part: tuple[str, float, int] | None = None
     for year in instance.years:
-        if (hiring := instance.budget_cap(year, "hiring")) is not None:
-            cap_year, cap = year, hiring
-    return RunRate(per_year, positions, instance.periods[-1].name, cap_year, cap)
+        if (hiring := instance.budget_cap(year, "hiring")) is None:
+            continue
+        periods = sum(1 for p in instance.periods if p.year == year)
+        if periods >= per:
+            whole, part = (year, hiring), None
+        else:  # a year cut by the horizon's start or end caps only its periods in it
+            part = (year, hiring, periods)
+    end = instance.periods[-1].name
+    if whole is not None:
+        return RunRate(per_year, positions, end, whole[0], whole[1], per_year,
+                       part[0] if part else None, part[2] if part else 0, per)
+    if part is not None:
+        return RunRate(per_year, positions, end, part[0], part[1], per_year * part[2] / per,
+                       part[0], part[2], per)
+    return RunRate(per_year, positions, end, None, None, per_year, periods_per_year=per)
+
+
+def _periods(count: int) -> str:
+    return f"{count} period{'' if count == 1 else 's'}"
+
+
+def run_rate_cap_words(rate: RunRate, currency: str | None) -> str:
+    """The cap the salaries are set against, with any year the horizon cuts said: "2027's
+    hiring cap (1,400,000), the last whole year's (2028's covers only 2 periods of its 4 in
+    the horizon)"; "" with no cap."""
+    if rate.cap is None:
+        return ""
+    cap = money_amount(rate.cap, currency)
+    if rate.set_against_part:
+        return (f"{rate.cap_year}'s hiring cap ({cap}), which caps only its "
+                f"{_periods(rate.part_periods)} of {rate.periods_per_year} in the horizon "
+                "(no capped year is whole in it)")
+    return f"{rate.cap_year}'s hiring cap ({cap})" + (
+        f", the last whole year's ({rate.part_year}'s covers only "
+        f"{_periods(rate.part_periods)} of its {rate.periods_per_year} in the horizon)"
+        if rate.part_year else "")
 
 
 def run_rate_note(rate: RunRate, currency: str | None) -> str:
-    """"100.6% of 2028's hiring cap (1,400,000)", or "" with no cap or no salaries."""
+    """"100.6% of 2028's hiring cap (1,400,000)", or "" with no cap or no salaries
+    (:func:`run_rate_cap_words`); set against a part year's cap, over its periods."""
     if rate.cap is None or rate.per_year <= 0:
         return ""
-    cap = money_amount(rate.cap, currency)
+    over = (f"over {rate.cap_year}'s {_periods(rate.part_periods)} in the horizon "
+            f"({money_amount(rate.compared, currency)}), " if rate.set_against_part else "")
     if rate.cap <= 0:
-        return f"more than {rate.cap_year}'s hiring cap ({cap})"
-    return f"{share_text(rate.per_year, rate.cap)} of {rate.cap_year}'s hiring cap ({cap})"
+        return f"{over}more than {run_rate_cap_words(rate, currency)}"
+    return (f"{over}{share_text(rate.compared, rate.cap)} of "
+            f"{run_rate_cap_words(rate, currency)}")
 
 
 def run_rate_warning(rate: RunRate, currency: str | None) -> str:
@@ -266,15 +322,37 @@ def run_rate_warning(rate: RunRate, currency: str | None) -> str:
 def run_rate_consequence(rate: RunRate) -> str:
     """What salaries above the last hiring cap mean for the year after the horizon."""
     # "Used up on them before a single new hire" had read as muddled to a practitioner.
-    return (f"after the horizon, a hiring budget like {rate.cap_year}'s would not cover even "
+    like = (f"at {rate.cap_year}'s pace" if rate.set_against_part
+            else f"like {rate.cap_year}'s")
+    return (f"after the horizon, a hiring budget {like} would not cover even "
             "these salaries, let alone any new hire")
 
 
-def plan_warnings(instance: Instance, plan: Plan) -> tuple[str, ...]:
-    """Warnings about the plan itself (not its inputs), as the console writes them: the new
-    positions' salaries above the last hiring cap."""
-    warning = run_rate_warning(plan_run_rate(instance, plan), instance.money.currency)
-    return (warning,) if warning else ()
+# Above this gap a stopped solve is flagged before its figures (common practice is to quote
+# a plan's gap; 5% is a judgement of when it changes what a reader should conclude).
+WIDE_GAP = 0.05
+
+
+def gap_warning(status: str | None, gap: float | None) -> str:
+    """The warning of a solve stopped with a wide (or unknown) gap, else "": the console,
+    summary.json, the page and the workbook all carry it (the console and summary.json had
+    not, beside a cost gap of 46.84%)."""
+    if status != Status.FEASIBLE_WITH_GAP.value or (gap is not None and gap <= WIDE_GAP):
+        return ""
+    said = "an unknown gap" if gap is None else f"a gap of {gap_text(gap)}"
+    return (f"The solver stopped at its time limit with {said} between this plan and the best "
+            "bound it proved: a better plan may exist. Give it more time (--time-limit) "
+            "before relying on these figures.")
+
+
+def plan_warnings(instance: Instance, plan: Plan, status: str | None = None,
+                  gap: float | None = None) -> tuple[str, ...]:
+    """Warnings about the plan itself (not its inputs), as the console writes them: the
+    solve's wide gap (given its ``status`` and ``gap``), the new positions' salaries above
+    the last hiring cap."""
+    warnings = (gap_warning(status, gap),
+                run_rate_warning(plan_run_rate(instance, plan), instance.money.currency))
+    return tuple(w for w in warnings if w)
 
 
 CAUTION = ("This plan supports a decision; it does not make one. Personnel rules, agreements "

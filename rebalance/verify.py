@@ -28,7 +28,15 @@ from rebalance.plan import (
 from rebalance.problems import Problem, did_you_mean
 from rebalance.verify_causes import hire_cost_lines, link_knock_ons
 from rebalance.verify_causes import money_amounts as _amounts
-from rebalance.verify_rules import ABS_TOL, RULES, NameKind, Violation, close, over
+from rebalance.verify_rules import (
+    ABS_TOL,
+    RULES,
+    NameKind,
+    Violation,
+    close,
+    over,
+    solver_report_problems,
+)
 
 __all__ = ["NameKind", "Violation", "unknown_names", "verify_folder", "verify_plan"]
 
@@ -382,7 +390,8 @@ class _Checker:
             funded = self.i.vacancies.get((office_name, skill_name), 0)
             if used > funded:
                 self.flag("vacancies", f"{skill_name} at {office_name}",
-                          f"{used} hires fill vacancies but only {funded} "
+                          f"{used} {'hire fills' if used == 1 else 'hires fill'} vacancies "
+                          f"but only {funded} "
                           f"{'is' if funded == 1 else 'are'} funded")
 
     # -- coverage ------------------------------------------------------------------------
@@ -465,12 +474,15 @@ class _Checker:
             for t in range(self.T):
                 where, key = f"{office.name} in {self.i.periods[t].name}", (office.name, t)
                 if over(gone[key], share * present[key]):
-                    self.flag("away_share", where, f"{gone[key]} of {present[key]} people away; "
+                    self.flag("away_share", where, f"{gone[key]} of {present[key]} "
+                              f"{'person' if present[key] == 1 else 'people'} away; "
                               f"at most {share_of(share)} of them may be",
                               period=self.i.periods[t].name)
                 used = present[key] - gone[key] + arrived[key] + hires_held[key]
                 if office.seats is not None and used > office.seats:
-                    self.flag("seats", where, f"{used} seats used; {office.seats} exist", at=key)
+                    self.flag("seats", where, f"{used} seat{'' if used == 1 else 's'} used; "
+                              f"{office.seats} {'exists' if office.seats == 1 else 'exist'}",
+                              at=key)
 
     # -- costs and budgets -----------------------------------------------------------------
     def _check_costs(self) -> None:
@@ -553,4 +565,15 @@ def _check_summary(checker: _Checker, summary: dict[str, object],
                                     else (str(reported), number_text(value)))
             out.append(Violation("summary", key, f"says {said}; recomputed {recomputed}",
                                  file=file))
+    # The solver's own figures cannot be recomputed without solving again: they are checked
+    # against each other, and staying put against the weighted demand it cannot exceed.
+    out += [Violation("solver_report", key, message, file=file)
+            for key, message in solver_report_problems(summary)]
+    staying = summary.get("staying_put_weighted_shortfall")
+    most = sum(d.priority * d.fte for d in checker.i.demand)
+    if staying is not None and (not isinstance(staying, int | float) or isinstance(
+            staying, bool) or float(staying) < -ABS_TOL or over(float(staying), most)):
+        out.append(Violation("solver_report", "staying_put_weighted_shortfall",
+                             f"says {staying}; it lies between 0 and the weighted demand "
+                             f"{number_text(most)}", file=file))
     return out

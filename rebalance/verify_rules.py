@@ -8,10 +8,12 @@ the verifier's would have made a cycle).
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import Literal
 
-__all__ = ["ABS_TOL", "REL_TOL", "RULES", "NameKind", "Violation", "close", "over"]
+__all__ = ["ABS_TOL", "REL_TOL", "RULES", "NameKind", "Violation", "close", "over",
+           "solver_report_problems"]
 
 # Two figures agree within this, absolute and relative to the larger (the verifier's every
 # comparison, and its causes' reading of a row's figures).
@@ -69,6 +71,7 @@ RULES: dict[str, tuple[str, str]] = {
     "hiring_budget": ("costs", "hiring spend within the year's budget"),
     "moves_budget": ("costs", "moves spend within the year's budget"),
     "summary": ("", "figures as recomputed from the plan tables"),
+    "solver_report": ("", "the solver's own report must agree with itself"),
 }
 
 
@@ -109,3 +112,76 @@ class Violation:
         words = RULES.get(self.rule, ("", ""))[1]
         text = ": ".join(part for part in dict.fromkeys((self.file, self.where)) if part)
         return f"{text}: {self.message}" + (f" ({words})" if words else "")
+
+
+# The outcomes a folder with plan tables can record (solve.Status's with a plan).
+PLAN_STATUSES = ("optimal", "feasible_with_gap")
+
+
+def _number(value: object) -> float | None:
+    return float(value) if isinstance(value, int | float) and not isinstance(value, bool) \
+        and math.isfinite(value) else None
+
+
+def _gap(objective: float, bound: float) -> float | None:
+    """(objective - bound) / |objective|, 0 where they agree to 1e-9: the solve's formula
+    (backends.common.relative_gap), written again here as the rest of the verifier is."""
+    diff = objective - bound
+    if diff <= 1e-9 * max(1.0, abs(objective)):
+        return 0.0
+    return None if abs(objective) < 1e-9 else diff / abs(objective)
+
+
+def _pct(value: float) -> str:
+    return f"{value:.2%}"
+
+
+def solver_report_problems(summary: dict[str, object]) -> list[tuple[str, str]]:
+    """Where summary.json's solver figures (status, gap, stages' objective, bound and gap)
+    contradict each other or the gap asked, as (key, message): no re-solve can check them,
+    but an edit that leaves them inconsistent shows.  Keys absent from an older file are
+    not asked for."""
+    out: list[tuple[str, str]] = []
+    status = summary.get("status")
+    if "status" in summary and status not in PLAN_STATUSES:
+        out.append(("status", f"says {status!r}; a folder with a plan is "
+                              + " or ".join(PLAN_STATUSES)))
+    asked = _number(summary.get("relative_gap_asked"))
+    gap = _number(summary.get("gap"))
+    stages = summary.get("stages")
+    stage_gaps: list[float] = []
+    if isinstance(stages, list):
+        for ix, stage in enumerate(stages):
+            if not isinstance(stage, dict):
+                continue
+            name = f"stages[{ix}] ({stage.get('stage', '?')})"
+            objective, bound = _number(stage.get("objective")), _number(stage.get("bound"))
+            said = _number(stage.get("gap"))
+            if said is not None:
+                stage_gaps.append(said)
+            if objective is not None and bound is not None:
+                expected = _gap(objective, bound)
+                if (said is None) != (expected is None) or (
+                        said is not None and expected is not None and not close(said, expected)):
+                    out.append((f"{name}.gap", f"says {stage.get('gap')}; its objective "
+                                f"{objective:g} and bound {bound:g} give "
+                                + ("none" if expected is None else _pct(expected))))
+            if (stage.get("status") == "optimal" and asked is not None and said is not None
+                    and over(said, asked)):
+                out.append((f"{name}.status", f"says optimal at a gap of {_pct(said)}, above "
+                            f"the {_pct(asked)} asked"))
+        # The run's gap is its largest stage gap (solve.SolveResult.gap).
+        largest = max(stage_gaps) if stage_gaps else None
+        if ("gap" in summary and (gap is None) != (largest is None)) or (
+                gap is not None and largest is not None and not close(gap, largest)):
+            out.append(("gap", f"says {summary.get('gap')}; the largest stage gap is "
+                        + ("none" if largest is None else _pct(largest))))
+    if status == "optimal" and asked is not None and gap is not None and over(gap, asked):
+        out.append(("status", f"says optimal, but the gap {_pct(gap)} is above the "
+                    f"{_pct(asked)} asked"))
+    elif status == "optimal" and isinstance(stages, list) and any(
+            isinstance(s, dict) and s.get("status") != "optimal" for s in stages):
+        out.append(("status", "says optimal, but not every stage says so"))
+    if status == "feasible_with_gap" and "gap" in summary and gap is None and not stage_gaps:
+        out.append(("gap", "none recorded beside a status of feasible_with_gap"))
+    return out

@@ -33,6 +33,7 @@ from rebalance.planning import (
     BUILD_STAGE,
     CAUTION,
     PlanResult,
+    gap_warning,
     plan_run_rate,
     run_rate_note,
     run_rate_warning,
@@ -44,7 +45,13 @@ from rebalance.report.limits_view import (
     LimitLine,
     limits_at_cap,
 )
-from rebalance.report.words import and_list, outcome_words, plain_status, readable
+from rebalance.report.words import (
+    and_list,
+    outcome_words,
+    people_text,
+    plain_status,
+    readable,
+)
 from rebalance.solve import StageResult, Status
 from rebalance.verify import Violation
 from rebalance.verify_causes import (
@@ -72,6 +79,15 @@ __all__ = [
     "room_left",
     "stage_value",
 ]
+
+# What a pass covers and what it does not: summary.json's status, bounds, gaps and
+# staying-put shortfall are the solver's report, checked only for agreeing with each other
+# (a status of "optimal" beside a gap above the one asked had passed under "every rule and
+# total checks out").
+PASSED_WORDS = ("verification passed: every rule, the plan tables' figures and summary.json's "
+                "totals recomputed from the instance and the plan tables; the solver's status, "
+                "bounds, gaps and staying-put shortfall are its own report, checked only for "
+                "agreeing with each other")
 
 
 # Numbers are written by rebalance.numbers (one rule for every surface); what a table cell is
@@ -169,7 +185,7 @@ def format_summary(result: PlanResult) -> str:
             f"({budget_note(result.instance, spending)})",
             f"  hires                {plan.hires_count()}",
             f"  detail periods       {len(plan.details)} "
-            f"({plan.details['person'].nunique()} people)",
+            f"({people_text(plan.details['person'].nunique())})",
             f"  reassignments        {len(plan.reassignments)}",
             *_run_rate_lines(result),
             "",
@@ -333,6 +349,8 @@ def _outcome_lines(result: PlanResult, *, replan: bool = False) -> list[str]:
         room = room_left(stage, currency, replan=replan)
         if room:
             lines.append(f"    not proven: {room}")
+    if wide := gap_warning(result.status.value, gap):  # as summary.json and the page say it
+        lines.append(f"  warning: {wide}")
     if s.conflicts:
         lines.append("  limits in conflict:")
         lines += [f"    - {c}" for c in s.conflicts]
@@ -465,7 +483,7 @@ def format_violations(violations: Sequence[Violation]) -> str:
     seats excess at an office over consecutive periods is one line (one extra hire had read as
     seven)."""
     if not violations:
-        return "verification passed: every rule and total checks out"
+        return PASSED_WORDS
     problems = group_problems(violations)
     knock_ons = sum(len(group) for p in problems for group in p.under)
     head = f"verification failed: {counted(len(problems), 'problem')}"

@@ -22,6 +22,7 @@ from typing import Any
 
 from rebalance.files import atomic_file
 from rebalance.numbers import (
+    counted,
     dust_free,
     fte_total_text,
     money_amount,
@@ -69,7 +70,14 @@ from rebalance.report.limits_view import (
     LimitsFound,
     limits_at_cap,
 )
-from rebalance.report.words import ATTRITION_NOTE, expects_attrition, outcome_words
+from rebalance.report.words import (
+    ATTRITION_NOTE,
+    expects_attrition,
+    outcome_words,
+    parts_decimals,
+    people_text,
+    total_text,
+)
 
 __all__ = ["render_html", "write_html"]
 
@@ -115,21 +123,25 @@ def _headline(data: ReportData) -> str:
     people = plan.details["person"].nunique() if len(plan.details) else 0
     hires_new = int(plan.hires.loc[plan.hires["funding"] == "new", "count"].sum()) if len(
         plan.hires) else 0
+    vacancy_hires = plan.hires_count() - hires_new
     words, tone = outcome_words(run.status, run.gap), STATUS_TONE.get(str(run.status), "fair")
-    verified = {True: "verified independently", False: "FAILED verification",
+    # The plan's rules and figures; the outcome words beside it are the solver's report.
+    verified = {True: "plan tables verified independently; outcome as the solver reports it",
+                False: "FAILED verification",
                 None: "verification unknown"}[run.verified]
     spare = spare_capacity(data)
     beyond = float(spare["spare_fte"].sum()) if len(spare) else 0.0
     no_work = float(spare["unassigned_fte"].sum()) if len(spare) else 0.0
     spare_total = beyond + no_work
+    digits = parts_decimals([beyond, no_work])  # so that the parts shown add up to the total
     # "Idle capacity" is both parts, each named; "output beyond demand" is the first alone,
     # as in the table below and the workbook (the card had said "capacity beyond demand"
     # for 70.9 where the table's column of that name summed to 47.6).
     if spare_total >= 0.05:
         most = spare.assign(both=spare["spare_fte"] + spare["unassigned_fte"]).sort_values(
             "both", ascending=False).iloc[0]
-        spare_note = (f"FTE-periods: {fte_total_text(beyond)} of output beyond demand + "
-                      f"{fte_total_text(no_work)} of people's time with no work; most at "
+        spare_note = (f"FTE-periods: {total_text(beyond, digits)} of output beyond demand + "
+                      f"{total_text(no_work, digits)} of people's time with no work; most at "
                       f"{most['office']} ({fte_total_text(float(most['both']))})")
     else:
         spare_note = "FTE-periods: none to speak of"
@@ -148,7 +160,7 @@ def _headline(data: ReportData) -> str:
               f"{share_text(plan.shortfall_fte, demand)} of "
               f"{fte_total_text(demand)} demanded{staying_note}",
               "warn" if share > 0.02 else "ok"),
-        card("Idle capacity", fte_total_text(spare_total), spare_note),
+        card("Idle capacity", total_text(spare_total, digits), spare_note),
         # Money in full, as everywhere else: "2.46M" beside "2,463,500" read as two figures.
         card("New money", money_amount(plan.total_cost, money_unit.currency), money_note),
         card("Salaries after the horizon", money_amount(rate.per_year, money_unit.currency),
@@ -159,8 +171,11 @@ def _headline(data: ReportData) -> str:
              more=f'<p class="card-note"><strong>Warning:</strong> {e(warning)}</p>'
              if warning else ""),
         card("Hires", f"{plan.hires_count():,}",
-              f"{hires_new:,} new positions, {plan.hires_count() - hires_new:,} into vacancies"),
-        card("Details", f"{len(plan.details):,}", f"person-periods away, {people:,} people"),
+              f"{counted(hires_new, 'new position')}, {vacancy_hires:,} into "
+              + ("a vacancy" if vacancy_hires == 1 else "vacancies")),
+        card("Details", f"{len(plan.details):,}",
+             f"person-period{'' if len(plan.details) == 1 else 's'} away, "
+             f"{people_text(people)}"),
         card("Reassignments", f"{len(plan.reassignments):,}", "permanent moves"),
         card("Plan quality", words, verified, tone, more=_quality_list(data), wide=True),
     ]
@@ -393,9 +408,10 @@ def render_html(data: ReportData) -> str:
     data_json = json.dumps(payload, separators=(",", ":"), allow_nan=False).replace("</", "<\\/")
     written = dt.datetime.now(dt.UTC).strftime("%Y-%m-%d %H:%M UTC")
     locations = len({o.location for o in inst.offices})
-    subtitle = (f"{len(inst.periods)} periods, {inst.periods[0].name} to {inst.periods[-1].name}"
-                f" &middot; {len(inst.offices)} offices in {locations} locations &middot; "
-                f"{len(inst.staff):,} staff &middot; {len(inst.skills)} skills")
+    subtitle = (f"{counted(len(inst.periods), 'period')}, {inst.periods[0].name} to "
+                f"{inst.periods[-1].name} &middot; {counted(len(inst.offices), 'office')} in "
+                f"{counted(locations, 'location')} &middot; {len(inst.staff):,} staff &middot; "
+                f"{counted(len(inst.skills), 'skill')}")
     sections = []
 
     def plan_section(anchor: str, title: str, lead: str, body: str) -> str:
@@ -530,14 +546,18 @@ def _commitments(data: ReportData) -> str:
     rate = plan_run_rate(inst, data.plan, table)
     share_note, warning = (run_rate_note(rate, inst.money.currency),
                            run_rate_warning(rate, inst.money.currency))
-    beside = (f" That is {e(share_note)}, the last hiring cap set." if share_note else "")
+    # "The last hiring cap set" only where it is (a later year the horizon cuts is said).
+    beside = (f" That is {e(share_note)}" + ("" if rate.part_year else ", the last hiring cap "
+              "set") + "." if share_note else "")
     beside += (f'</p><p class="note"><strong>Warning:</strong> {e(warning)}.'
                if warning else "")
     return (f"<h3>Committed beyond the horizon</h3><p class=\"lead\">The {positions:,} new "
-            f"position{'' if positions == 1 else 's'} this plan creates keep being paid after "
+            f"position{'' if positions == 1 else 's'} this plan creates "
+            f"{'keeps' if positions == 1 else 'keep'} being paid after "
             f"{e(inst.periods[-1].name)}: <strong>{e(per_year)} a year"
             "</strong> in salaries "
-            f"(positions &times; salary per period &times; {inst.periods_per_year} periods a "
+            "(positions &times; salary per period &times; "
+            f"{counted(inst.periods_per_year, 'period')} a "
             "year), on top of the new money above, which stops at the horizon's end."
             f"{beside}</p>"
             + table_html(["skill", "new positions", inst.money.header("salary per period"),

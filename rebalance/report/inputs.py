@@ -24,9 +24,8 @@ from rebalance.analysis.replan import CHANGE_COLUMNS, REPLAN_COLUMNS
 from rebalance.analysis.scenario_actions import ACTION_COLUMNS, REASON_COLUMN
 from rebalance.analysis.scenarios import OFFICE_COLUMNS, SCENARIO_COST_COLUMNS
 from rebalance.instance import Instance
-from rebalance.numbers import gap_text
 from rebalance.plan import Plan, read_plan
-from rebalance.planning import CAUTION, PlanResult, summary_dict
+from rebalance.planning import CAUTION, PlanResult, gap_warning, summary_dict
 from rebalance.problems import problems_counted
 from rebalance.report.console import problem_lines
 from rebalance.tables import RawTable, known_case
@@ -299,19 +298,12 @@ class ReportData:
     problems: tuple[ProblemText, ...] = ()
 
 
-# Above this gap a stopped solve is flagged at the top of the page (common practice is to
-# quote a plan's gap; 5% is a judgement of when it changes what a reader should conclude).
-WIDE_GAP = 0.05
-
-
 def quality_notes(data: ReportData) -> list[Note]:
-    """Warnings a reader must see before the figures: a wide gap, a failed verification."""
+    """Warnings a reader must see before the figures: a wide gap (:func:`gap_warning`, as
+    the console and summary.json say it), a failed verification."""
     run, notes = data.summary, []
-    if run.status == "feasible_with_gap" and (run.gap is None or run.gap > WIDE_GAP):
-        gap = "an unknown gap" if run.gap is None else f"a gap of {gap_text(run.gap)}"
-        notes.append(Note(f"The solver stopped at its time limit with {gap} between this plan "
-                          "and the best bound it proved: a better plan may exist. Give it more "
-                          "time (--time-limit) before relying on these figures."))
+    if wide := gap_warning(run.status, run.gap):
+        notes.append(Note(wide))
     if run.verified is False:
         notes.append(Note("This plan FAILED independent verification; ", "verify_lists", "."))
     return notes

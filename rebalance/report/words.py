@@ -11,10 +11,11 @@ import re
 from collections.abc import Sequence
 
 from rebalance.instance import Instance
-from rebalance.numbers import gap_text
+from rebalance.numbers import FTE_TOTAL_DIGITS, dust_free, gap_text
 
 __all__ = ["ATTRITION_NOTE", "CODE_WORDS", "STATUS_WORDS", "and_list", "expects_attrition",
-           "optimal_words", "outcome_words", "plain_status", "readable"]
+           "optimal_words", "outcome_words", "parts_decimals", "people_text", "plain_status",
+           "readable", "total_text"]
 
 # Beside the work table (the page's work and capacity section, the workbook's work sheet):
 # work.csv's fte for a 1.0-FTE person reads 0.969, 0.938, ... (docs/model.md), and neither
@@ -76,6 +77,32 @@ def readable(column: str) -> str:
     return re.sub(r"\bfte\b", "FTE", text, flags=re.I)
 
 
+def people_text(count: int) -> str:
+    """``1 person``, ``3 people`` (:func:`~rebalance.numbers.counted` adds an s)."""
+    return f"{count:,} {'person' if count == 1 else 'people'}"
+
+
 def and_list(words: Sequence[str]) -> str:
     """``a``, ``a and b``, ``a, b and c``: one or more words as a sentence lists them."""
     return words[0] if len(words) == 1 else f"{', '.join(words[:-1])} and {words[-1]}"
+
+
+# Most decimals a total and its parts are shown with so that the shown parts add up.
+MOST_PART_DIGITS = 3
+
+
+def parts_decimals(parts: Sequence[float], digits: int = FTE_TOTAL_DIGITS) -> int:
+    """The fewest decimals, from ``digits``, at which ``parts`` as shown add up to their sum
+    as shown ("71.1 = 52.1 + 18.9" had read under a total of 52.130 + 18.934 = 71.064; at two
+    decimals 52.13 + 18.93 = 71.06); at most :data:`MOST_PART_DIGITS`."""
+    for d in range(digits, MOST_PART_DIGITS + 1):
+        shown = [round(dust_free(p), d) for p in parts]
+        if round(sum(shown), d) == round(dust_free(sum(parts)), d):
+            return d
+    return MOST_PART_DIGITS
+
+
+def total_text(value: float, decimals: int = FTE_TOTAL_DIGITS) -> str:
+    """FTE-periods as :func:`~rebalance.numbers.fte_total_text` writes them, with
+    ``decimals`` (:func:`parts_decimals`) in place of its one."""
+    return f"{dust_free(value) + 0.0:,.{decimals}f}"

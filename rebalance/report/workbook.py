@@ -25,20 +25,20 @@ from rebalance.numbers import (
     TABLE_DIGITS,
     WHOLE_FROM,
     column_header,
+    counted,
     dust_free,
     fte_total_text,
     has_decimals,
     is_gap,
     is_money,
     model_size_text,
-    money_amount,
     money_text,
     seconds_text,
     typed_places,
     years_text,
 )
 from rebalance.plan import PLAN_TABLES, budget_lines
-from rebalance.planning import plan_run_rate, run_rate_warning
+from rebalance.planning import plan_run_rate, run_rate_note, run_rate_warning
 from rebalance.report.analysis_charts import AMOUNT_COLUMNS, GRID_COLUMNS
 from rebalance.report.chart_data import spare_capacity
 from rebalance.report.console import MEASURE_COLUMN, budget_note, cell_text, measure_names
@@ -56,6 +56,8 @@ from rebalance.report.words import (
     ATTRITION_NOTE,
     expects_attrition,
     outcome_words,
+    parts_decimals,
+    people_text,
     plain_status,
     readable,
 )
@@ -382,8 +384,8 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
                                        instance.periods[0].name) + f" · {instance.heading}")
     ws.write_string(next(rows), 0, title, styles.title)
     ws.write_string(next(rows), 0, (f"instance {instance.name}: " if instance.title else "") +
-                    f"{len(instance.periods)} periods, {instance.periods[0].name} to "
-                    f"{instance.periods[-1].name}; {len(instance.offices)} offices, "
+                    f"{counted(len(instance.periods), 'period')}, {instance.periods[0].name} to "
+                    f"{instance.periods[-1].name}; {counted(len(instance.offices), 'office')}, "
                     f"{len(instance.staff)} staff; written "
                     f"{dt.datetime.now(dt.UTC).strftime('%Y-%m-%d %H:%M')} UTC")
     warnings = [*cut, *(note.words() for note in quality_notes(data))]
@@ -413,28 +415,31 @@ def _summary_sheet(ws: Any, styles: _Styles, data: ReportData, sheet_names: Sequ
     rate = plan_run_rate(instance, plan)
     line("new positions' salaries a year", rate.per_year, cash,
          f"every year after the horizon ({instance.periods[-1].name}), not in new money: "
-         f"{rate.positions} new positions x salary per period x {instance.periods_per_year} "
-         "periods a year")
+         f"{counted(rate.positions, 'new position')} x salary per period x "
+         f"{counted(instance.periods_per_year, 'period')} a year")
     if rate.cap and rate.per_year > 0:
-        # The share as the console and the page write it sits beside the cell's.
-        line(f"as a share of {rate.cap_year}'s hiring cap", rate.per_year / rate.cap, SHARE,
-             f"of {money_amount(rate.cap, instance.money.currency)}, the last hiring cap set")
+        # The share as the console and the page write it sits beside the cell's; a year
+        # the horizon cuts is said (a full year's salaries had been set against a half's cap).
+        line(f"as a share of {rate.cap_year}'s hiring cap", rate.compared / rate.cap, SHARE,
+             run_rate_note(rate, instance.money.currency))
     warning = run_rate_warning(rate, instance.money.currency)
     if warning:
         ws.write_string(next(rows), 0, f"Warning: {warning}.", styles.warning)
     spare = spare_capacity(data)
     beyond = float(spare["spare_fte"].sum()) if len(spare) else 0.0
     no_work = float(spare["unassigned_fte"].sum()) if len(spare) else 0.0
-    # One meaning per label, as on the page: idle capacity is both parts below it.
-    line("idle capacity (FTE-periods)", beyond + no_work, FTE_TOTAL,
+    # One meaning per label, as on the page: idle capacity is both parts below it, shown
+    # with the decimals that make them add up (71.1 had read beside 52.1 and 18.9).
+    parts = "#,##0." + "0" * parts_decimals([beyond, no_work])
+    line("idle capacity (FTE-periods)", beyond + no_work, parts,
          "output beyond demand plus time with no work: covers nothing in this plan")
-    line("output beyond demand (FTE-periods)", beyond, FTE_TOTAL,
+    line("output beyond demand (FTE-periods)", beyond, parts,
          "output beyond its office's and skill's demand")
-    line("time with no work (FTE-periods)", no_work, FTE_TOTAL,
+    line("time with no work (FTE-periods)", no_work, parts,
          "available time of people the plan gives no work where they are")
     line("people hired", plan.hires_count(), WHOLE)
     line("detail periods", len(plan.details), WHOLE,
-         f"{plan.details['person'].nunique()} people" if len(plan.details) else "")
+         people_text(plan.details['person'].nunique()) if len(plan.details) else "")
     line("reassignments", len(plan.reassignments), WHOLE)
 
     band(LIMITS_TITLE)

@@ -173,8 +173,10 @@ def solve(model: Model, options: SolveOptions, instance: Instance | None = None)
                                  hint_split=hint_split)
     first = settled(model, first, model.shortfall_weight, options.relative_gap)
     stages.append(_stage("shortfall", first))
-    # With a hint stage 1 starts from the better of it and staying put: not staying put.
-    staying_put = carried.staying_put if model.hint is None else None
+    # With a hint stage 1 starts from the better of it and staying put: not staying put;
+    # with nothing whole to decide, staying put is stage 1's plan (it had been left out).
+    staying_put = None if model.hint is not None else (
+        carried.staying_put if model.num_integer else first.objective)
     if not first.status.has_plan or first.x is None or first.objective is None:
         return _finish(model, backend, options, stages, first, started, deadline,
                        instance=instance, staying_put=staying_put)

@@ -121,3 +121,16 @@ def test_weighted_mode_does_not_work_it_out():
     result = solve_verified(read_instance(DATA / "tiny"), mode="weighted")
     assert result.solve.staying_put_shortfall is None
     assert summary_dict(result)["staying_put_weighted_shortfall"] is None
+
+
+def test_with_nothing_whole_to_decide_staying_put_is_the_plan_itself():
+    # tests/data/priority_pool has no detail, reassignment or hire column (nobody may be
+    # detailed or moved, and no office may hire): staying put is the plan, and its
+    # figure had been left out of summary.json (a reviewer's finding).
+    from rebalance import make_plan, options_from_instance, read_instance
+
+    instance = read_instance(DATA / "priority_pool")
+    result = make_plan(instance, options_from_instance(instance, time_limit_seconds=30))
+    assert result.plan is not None
+    assert result.solve.staying_put_shortfall == pytest.approx(result.plan.weighted_shortfall,
+                                                               abs=1e-6)

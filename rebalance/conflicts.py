@@ -80,7 +80,6 @@ def seat_words(instance: Instance, money_short: Mapping[str, str] | None = None
     rules let enough people go, it is that money that stops them ("at most 3 may be" had
     read as no conflict at all)."""
     names = instance.period_names
-    limits = ", ".join(instance.away_limits())
     windows = {w.office: w for w in instance.seat_windows()}
     out = {}
     for c in instance.seat_counts():
@@ -91,7 +90,7 @@ def seat_words(instance: Instance, money_short: Mapping[str, str] | None = None
             budget = (money_short or {}).get(instance.periods[c.period].year)
             window = windows.get(c.office)
             if c.too_few_may_go:
-                said += f" ({limits})"
+                said += f" ({', '.join(instance.away_limits(c.no_work_elsewhere > 0))})"
             elif window is not None and window.first <= c.period <= window.last:
                 # Each period alone lets enough go ("2 must, at most 2 may" beside "over by
                 # 1" had read as a contradiction): not all of them together.

@@ -162,6 +162,9 @@ class SeatCount:
     seats: int
     based: int  # heads present whose home at the start is the office
     may_go: int  # the most of them any plan can have away then (Instance.most_away)
+    # Of those who may be detailed (and not reassigned), how many have no work for their
+    # skills at another office then: a detail goes only where there is (docs/model.md).
+    no_work_elsewhere: int = 0
 
     @property
     def must_go(self) -> int:
@@ -431,10 +434,22 @@ class Instance:
         (heads, not FTE: a seat holds a person) any plan can have away then: every
         relocatable one reassigned out, and detailable others up to the away share, in whole
         people, of those left (a reassignment out counts in no share; one in only adds a head).
-        Where a detail needs demand elsewhere is not looked at: this never says too few."""
+        A detail goes only to an office with work for one of the person's skills then, as
+        the model has them (docs/model.md, *Pruning*): "at most 2 may be away" had stood
+        beside a conflict where the model could send none."""
         based = [p for p in self.staff if p.home_office == office and p.is_present(period)]
+        reach = self._detail_reach()
         return self._most_away(len(based), sum(1 for p in based if p.can_relocate),
-                               sum(1 for p in based if p.can_detail and not p.can_relocate))
+                               sum(1 for p in based if not p.can_relocate
+                                   and _work_elsewhere(p, period, reach)))
+
+    def _detail_reach(self) -> dict[tuple[str, int], tuple[str, ...]]:
+        """(skill, period index) -> the offices with demand above zero for it then."""
+        reach: dict[tuple[str, int], list[str]] = {}
+        for d in self.demand:
+            if d.fte > 0:
+                reach.setdefault((d.skill, d.period), []).append(d.office)
+        return {key: tuple(offices) for key, offices in reach.items()}
 
     def _most_away(self, based: int, relocatable: int, detailable: int) -> int:
         """:meth:`most_away` from the counts of the people based there: all, relocatable, and
@@ -447,15 +462,18 @@ class Instance:
         share_cap = math.floor(self.policy.max_away_share * (based - relocatable) + 1e-9)
         return relocatable + min(detailable, share_cap)
 
-    def away_limits(self) -> tuple[str, ...]:
+    def away_limits(self, no_work_elsewhere: bool = False) -> tuple[str, ...]:
         """What caps :meth:`most_away`, in the words of the input: the staff flags and the
-        policy settings that apply, or that there is no other office."""
+        policy settings that apply, or that there is no other office; ``no_work_elsewhere``:
+        and that some who may be detailed have no work for their skills at another office."""
         if len(self.offices) < 2:
             return ("no other office",)
+        details = self.policy.max_consecutive_detail_periods != 0
         return ("can_detail", "can_relocate",
-                *(["max_consecutive_detail_periods = 0"]
-                  if self.policy.max_consecutive_detail_periods == 0 else []),
-                *(["max_away_share"] if self.policy.max_away_share < 1.0 else []))
+                *([] if details else ["max_consecutive_detail_periods = 0"]),
+                *(["max_away_share"] if self.policy.max_away_share < 1.0 else []),
+                *(["no work for their skills at another office"]
+                  if details and no_work_elsewhere else []))
 
     def seat_counts(self) -> tuple[SeatCount, ...]:
         """For every office with seats and every period, the people based there against
@@ -464,8 +482,10 @@ class Instance:
         million steps)."""
         T = len(self.periods)
         seated = {o.name: o.seats for o in self.offices if o.seats is not None}
-        # Per office and period: [based, relocatable, detailable and not relocatable].
-        counts = {name: [[0, 0, 0] for _ in range(T)] for name in seated}
+        reach = self._detail_reach()
+        # Per office and period: [based, relocatable, detailable with work elsewhere and not
+        # relocatable, detailable with none].
+        counts = {name: [[0, 0, 0, 0] for _ in range(T)] for name in seated}
         for person in self.staff:
             rows = counts.get(person.home_office)
             if rows is None:
@@ -473,11 +493,12 @@ class Instance:
             for t in range(T if person.last_period is None else min(T, person.last_period + 1)):
                 rows[t][0] += 1
                 rows[t][1] += person.can_relocate
-                rows[t][2] += person.can_detail and not person.can_relocate
-        return tuple(SeatCount(name, t, seats, based, self._most_away(based, relocatable,
-                                                                        detailable))
+                if person.can_detail and not person.can_relocate:
+                    rows[t][2 if _work_elsewhere(person, t, reach) else 3] += 1
+        return tuple(SeatCount(name, t, seats, based,
+                               self._most_away(based, relocatable, detailable), idle)
                      for name, seats in seated.items()
-                     for t, (based, relocatable, detailable) in enumerate(counts[name]))
+                     for t, (based, relocatable, detailable, idle) in enumerate(counts[name]))
 
     def seat_windows(self) -> tuple[SeatWindow, ...]:
         """Where the consecutive-detail limit alone keeps too few away over a run of periods
@@ -494,6 +515,7 @@ class Instance:
         for c in self.seat_counts():
             counts.setdefault(c.office, []).append(c)
         out = []
+        reach = self._detail_reach()
         for office, by_period in counts.items():
             based = [p for p in self.staff if p.home_office == office]
             for first in range(T - m):
@@ -505,8 +527,10 @@ class Instance:
                                for c in window]
                 # Detailed, not relocatable: each period's share cap, each person's m.
                 by_share = sum(c.may_go - r for c, r in zip(window, relocatable, strict=True))
-                by_person = sum(min(sum(p.is_present(c.period) for c in window), m)
-                                for p in based if p.can_detail and not p.can_relocate)
+                by_person = sum(min(sum(p.is_present(c.period)
+                                        and _work_elsewhere(p, c.period, reach)
+                                        for c in window), m)
+                                for p in based if not p.can_relocate)
                 may = sum(relocatable) + min(by_share, by_person)
                 if may < must:
                     out.append(SeatWindow(office, first, first + m, must, may))
@@ -523,3 +547,11 @@ class Instance:
         from dataclasses import replace
 
         return replace(self, **changes)  # type: ignore[arg-type]
+
+
+def _work_elsewhere(person: Person, period: int,
+                    reach: dict[tuple[str, int], tuple[str, ...]]) -> bool:
+    """Whether ``person`` may be detailed in ``period`` to an office with work for one of
+    their skills then (:meth:`Instance._detail_reach`)."""
+    return person.can_detail and any(office != person.home_office for skill, _ in person.skills
+                                     for office in reach.get((skill, period), ()))

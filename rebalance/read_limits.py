@@ -117,7 +117,7 @@ def seats_too_few(instance: Instance, counts: list[SeatCount],
         return f"{said}; {window.words(names)}: no plan can keep its seats"
     if short is None:
         return said
-    why = ", ".join(instance.away_limits())
+    why = ", ".join(instance.away_limits(short.no_work_elsewhere > 0))
     go = f"only {short.may_go} may go" if short.may_go else "none may go"
     if short is first:
         return f"{said}, and {go} ({why}): no plan can keep its seats"

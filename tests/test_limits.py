@@ -201,3 +201,37 @@ def test_the_model_has_a_hire_column_exactly_where_the_data_rule_none_out(seed):
             (0, 1)):
         ruled_out = instance.hire_ruled_out(office.name, skill.name, s, new_position=bool(new))
         assert ((o, k, s, new) in columns) == (not ruled_out), (office.name, skill.name, s, new)
+
+
+def test_who_may_go_counts_only_details_to_work_for_their_skills(tmp_path):
+    # By hand from tests/data/tiny edited: A has 2 seats for a1, a2, a3; a2 may not be
+    # reassigned; B's review demand of 2027-Q1 is gone.  In 2027-Q1 the only office with
+    # work for review or intake is A itself, and details go only where there is work for the
+    # person's skills (docs/model.md, Pruning): none may go, 1 must.  From Q2 B wants review,
+    # so a1 and a2 could, and tiny's away share lets 1 go (0.5 of 3 people, whole).  'check'
+    # had said "valid" here while 'plan' found the seats in conflict, with "at most 2 may be
+    # away" in its words (a reviewer's finding).
+    import shutil
+
+    from conftest import DATA
+
+    from rebalance import read_instance
+    from rebalance.cli import EXIT_INFEASIBLE, main
+
+    folder = tmp_path / "tiny"
+    shutil.copytree(DATA / "tiny", folder)
+    offices = folder / "offices.csv"
+    offices.write_text(offices.read_text().replace("A,Alder,10,1", "A,Alder,2,1"))
+    staff = folder / "staff.csv"
+    staff.write_text(staff.read_text().replace("a2,A,1.0,review:0.8 intake:1.0,true,true,",
+                                               "a2,A,1.0,review:0.8 intake:1.0,true,false,"))
+    demand = folder / "demand.csv"
+    demand.write_text(demand.read_text().replace("B,review,2027-Q1,1.0,2\n", ""))
+    instance = read_instance(folder)
+    counts = {(c.office, c.period): c for c in instance.seat_counts()}
+    assert (counts["A", 0].must_go, counts["A", 0].may_go, counts["A", 0].no_work_elsewhere) \
+        == (1, 0, 2)
+    assert (counts["A", 1].may_go, counts["A", 1].no_work_elsewhere) == (1, 0)
+    assert instance.most_away("A", 0) == 0 and instance.most_away("A", 1) == 1
+    assert main(["check", str(folder)]) == EXIT_INFEASIBLE
+    assert main(["plan", str(folder), "-o", str(tmp_path / "out"), "-q"]) == EXIT_INFEASIBLE

@@ -100,9 +100,10 @@ def test_a_window_said_short_has_no_plan(seed):
 
 
 def test_the_random_windows_meet_both_kinds():
-    # Among the seeds, windows said short where every period alone lets enough go (7 of 80:
-    # what only the windows see), and instances the windows pass.
-    said = [_tight(seed) for seed in SEEDS]
+    # Among the seeds, windows said short where every period alone lets enough go (what
+    # only the windows see: 11 of 300 since each period counts only details to work for the
+    # person's skills, 7 of 80 before), and instances the windows pass.
+    said = [_tight(seed) for seed in range(300)]
     only_windows = [i for i in said if i.seat_windows()
                     and not any(c.too_few_may_go for c in i.seat_counts())]
     assert len(only_windows) >= 5

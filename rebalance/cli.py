@@ -69,6 +69,7 @@ from rebalance.cli_common import (
     SCENARIO_COPY,
     STATUS_EXIT,
     VIOLATIONS_SHOWN,
+    _asking_review,
     _err,
     _keep_frontier,
     _load,
@@ -169,6 +170,11 @@ def cmd_plan(args: argparse.Namespace) -> int:
         write_plan_folder(result, folder, instance_path=args.instance,
                           more=lambda into: _keep_frontier(args.out, into))
     print(f"\nplan written to {args.out}/")
+    review = _asking_review(Path(args.out) / "reasons.csv")
+    if review:
+        # Moves both ways between two offices had sat in reasons.csv alone (a reviewer's).
+        print(f"{review:,} of the plan's reasons ask for a review (they end in '(review)' in "
+              "reasons.csv and the page's table of reasons): read them before acting on those")
     return EXIT_OK
 
 

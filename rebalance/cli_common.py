@@ -178,6 +178,17 @@ def _unreadable_plan(folder: str | Path, exc: InstanceError, writes: bool = True
     return EXIT_INVALID_INPUT
 
 
+def _asking_review(path: Path) -> int:
+    """How many reasons in reasons.csv at ``path`` ask for a review."""
+    import pandas as pd
+
+    try:
+        said = pd.read_csv(path, usecols=["reason"], dtype=str)["reason"].fillna("")
+    except (OSError, ValueError):
+        return 0
+    return int(said.str.endswith("(review)").sum())
+
+
 def _keep_frontier(out: str, folder: Path) -> None:
     """A frontier.csv already in the output folder belongs to the instance, not to one plan:
     carry it into the folder that replaces it."""

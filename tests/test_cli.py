@@ -721,3 +721,15 @@ def test_every_path_a_command_takes_is_checked_before_the_run() -> None:
                     or action.dest in {"help", *not_paths}):
                 continue
             assert action.dest in written or action.dest in _READS, (command, action.dest)
+
+
+def test_plan_counts_the_reasons_that_ask_for_a_review(tmp_path) -> None:
+    # Moves both ways between two offices are marked "(review)" in reasons.csv only; plan
+    # now counts them on the console.  Counted by hand below: two of the four rows.
+    from rebalance.cli_common import _asking_review
+
+    path = tmp_path / "reasons.csv"
+    path.write_text('action,reason\nreassignment,"moves both ways, A and B (review)"\n'
+                    "detail,needed at B\nreassignment,no reason found (review)\nshortfall,\n")
+    assert _asking_review(path) == 2
+    assert _asking_review(tmp_path / "missing.csv") == 0

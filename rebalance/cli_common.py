@@ -231,7 +231,8 @@ INSTANCE_HELP = "instance folder, or one .xlsx workbook with a sheet per table"
 SOLVER_HELP = "solver (default: the instance's [solver] name, else highs)"
 GAP_HELP = ("relative gap at which to stop, e.g. 0.01 (default: the instance's [solver] "
             "relative_gap, else 0.0001)")
-SEED_HELP = ("the solver's random seed: the same seed gives the same plan (default: "
+SEED_HELP = ("the solver's random seed: the same seed gives the same plan, unless the "
+             "time limit stops the search (default: "
              "the instance's [solver] seed, else 0)")
 
 

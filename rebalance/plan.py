@@ -218,7 +218,8 @@ def extract_plan(instance: Instance, model: Model, x: np.ndarray) -> Plan:
         if p not in moved_to or t < moved_to[p][1]:
             moved_to[p] = (int(o), int(t))
     reassignment_rows = []
-    for p, (o, t) in sorted(moved_to.items()):
+    # In the order of the people's ids, as work.csv: not staff.csv's rows.
+    for p, (o, t) in sorted(moved_to.items(), key=lambda item: staff[item[0]].person):
         person = staff[p]
         reassignment_rows.append((person.person, periods[t], person.home_office, offices[o],
                                   instance.relocation_cost(person.home_office, offices[o])))
@@ -356,7 +357,12 @@ def coverage_table(instance: Instance, work: pd.DataFrame, hires: pd.DataFrame) 
             hire_out[(row.office, row.skill, periods[t])] += row.count * instance.hire_fte(
                 row.skill, row.office, s, t)
     rows = []
-    for d in instance.demand:
+    # Office, skill and period in the instance's order, whatever demand.csv's rows (a
+    # scenario re-sorts its demand, and the base's coverage.csv had followed the file).
+    office_ix = {o.name: i for i, o in enumerate(instance.offices)}
+    skill_ix = {k.name: i for i, k in enumerate(instance.skills)}
+    for d in sorted(instance.demand, key=lambda d: (office_ix.get(d.office, -1),
+                                                     skill_ix.get(d.skill, -1), d.period)):
         key = (d.office, d.skill, periods[d.period])
         staff_fte = float(staff_out.get(key, 0.0))
         hire_fte = float(hire_out.get(key, 0.0))

@@ -450,7 +450,9 @@ def scenario_lines(frame: pd.DataFrame, currency: str | None = None,
     lines = []
     for row in rows:
         name = str(row.scenario)
-        said = f"{name}: {str(row.description or '') or 'no description'}"
+        # A blank cell of scenarios.csv reads back as NaN, which is true: "nan" had shown.
+        described = "" if pd.isna(row.description) else str(row.description)
+        said = f"{name}: {described or 'no description'}"
         more = row.demand_fte_periods - base.demand_fte_periods
         demand = f"demand {_signed(more, fte_total_text(more))} FTE-periods"
         where = _office_changes(offices, name, "demand_fte_periods")

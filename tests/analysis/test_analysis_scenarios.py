@@ -268,6 +268,10 @@ def test_the_scenario_line_gives_the_salaries_after_the_horizon_against_the_base
     assert "new money +7,000 EUR, +32,000 EUR a year in salaries after the horizon" in line
     (line,) = scenario_lines(frame.drop(columns="salary_after_horizon_per_year"))
     assert "salaries" not in line  # a table written before the column
+    # A scenario without a description, as scenarios.csv reads back (a blank cell, NaN):
+    # the page had said "rush: nan".
+    (line,) = scenario_lines(frame.assign(description=["the instance as it is", float("nan")]))
+    assert line.startswith("rush: no description;")
 
 
 def test_a_difference_within_the_solves_gaps_is_marked_and_old_tables_say_less() -> None:

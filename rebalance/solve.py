@@ -201,10 +201,10 @@ def solve(model: Model, options: SolveOptions, instance: Instance | None = None)
         base = kept.objective
         start_plan = better_plan(model.cost, first.x, kept.x)
     held = options.held_shortfall(base)
-    # The row sits halfway to ``held``: a solver keeps a row only to its feasibility
-    # tolerance (HiGHS broke a held 4,515.094 by 4.9e-4 with priorities in the thousands,
-    # for a cost of 900 where keeping it costs 1,200), and the plan must keep ``held``.
-    hold = [(model.shortfall_weight, base + 0.5 * (held - base))]
+    # Below ``held`` by half the slack, at most 1e-6 of it: solvers keep a row to their
+    # tolerance (HiGHS broke a held 4,515.094 by 4.9e-4, for 900 where keeping it costs 1,200).
+    hold = [(model.shortfall_weight,
+             held - min(0.5 * (held - base), 1e-6 * max(1.0, abs(base))))]
     say(f"stage 2: least cost with weighted shortfall <= {progress_value(held)}")
     second, _ = solve_stage(backend, model, model.cost, hold, options,
                             deadline - _undo_reserve(model, options), start_plan, say, carried)

@@ -36,6 +36,7 @@ from rebalance.cli_common import (
     copy_scenario,
     scenario_of,
 )
+from rebalance.conflicts import bulleted
 from rebalance.instance import Instance
 from rebalance.problems import problems_counted
 from rebalance.report.console import counted, format_frame, is_missing
@@ -160,8 +161,8 @@ def cmd_compare(args: argparse.Namespace) -> int:
             print(f"\nscenario '{name}': "
                   + (words if words.startswith("no plan") else f"no plan ({words})")
                   + ("; limits in conflict:" if result.solve.conflicts else ""))
-            for conflict in result.solve.conflicts:
-                print(f"  - {conflict}")
+            for line in bulleted(result.solve.conflicts):
+                print(f"  {line}")
         elif not result.verified:
             _say_violations(f"scenario '{name}': the plan failed verification; nothing was "
                             "written", result.violations)

@@ -14,7 +14,7 @@ from __future__ import annotations
 import math
 import string
 import time
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, replace
 
 import numpy as np
@@ -26,13 +26,19 @@ from rebalance.model import LIMIT_FAMILIES, Model
 from rebalance.numbers import money_text, number_text
 from rebalance.split import relaxed as all_continuous
 
-__all__ = ["WayOut", "WaysOut", "constant_conflicts", "find_conflicts", "other_ways_out",
-           "seat_words", "seats_cannot_hold"]
+__all__ = ["WayOut", "WaysOut", "bulleted", "constant_conflicts", "find_conflicts",
+           "other_ways_out", "seat_words", "seats_cannot_hold"]
 
 # The first line of a conflict's list, where another kind of limit would do alone, and where
 # none would (then the least total is the one way out found).
 WAYS_HEADING = "Ways out, each enough on its own:"
 ONE_WAY_HEADING = "Way out (the least that must give):"
+
+
+def bulleted(conflicts: Sequence[str]) -> list[str]:
+    """Conflict lines as a list prints them: a heading as it is, each line under it after a
+    "- " (the heading had been printed as a bullet of its own list, a reviewer's reading)."""
+    return [c if c in (WAYS_HEADING, ONE_WAY_HEADING) else f"- {c}" for c in conflicts]
 
 
 def constant_conflicts(model: Model, instance: Instance | None = None) -> list[str]:

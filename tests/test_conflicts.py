@@ -205,7 +205,8 @@ def test_the_command_line_lists_the_ways_out(tmp_path, capsys):
     code = main(["plan", str(folder), "-o", str(tmp_path / "out"), "-q"])
     out = capsys.readouterr().out
     assert code == EXIT_INFEASIBLE
-    assert f"  limits in conflict:\n    - {WAYS_HEADING}\n    - (a) seats: 10 seat-periods" in out
+    # The heading as a heading, the ways out as bullets under it.
+    assert f"  limits in conflict:\n    {WAYS_HEADING}\n    - (a) seats: 10 seat-periods" in out
     assert "but moving them costs money the moves budget 2027 (0) does not have" in out
     assert (f"    - (b) raise the moves budget 2027 from 0 to {MOVES_NEEDED:,}, keeping every "
             "other limit") in out

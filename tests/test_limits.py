@@ -203,7 +203,7 @@ def test_the_model_has_a_hire_column_exactly_where_the_data_rule_none_out(seed):
         assert ((o, k, s, new) in columns) == (not ruled_out), (office.name, skill.name, s, new)
 
 
-def test_who_may_go_counts_only_details_to_work_for_their_skills(tmp_path):
+def test_who_may_go_counts_only_details_to_work_for_their_skills(tmp_path, capsys):
     # By hand from tests/data/tiny edited: A has 2 seats for a1, a2, a3; a2 may not be
     # reassigned; B's review demand of 2027-Q1 is gone.  In 2027-Q1 the only office with
     # work for review or intake is A itself, and details go only where there is work for the
@@ -234,4 +234,9 @@ def test_who_may_go_counts_only_details_to_work_for_their_skills(tmp_path):
     assert (counts["A", 1].may_go, counts["A", 1].no_work_elsewhere) == (1, 0)
     assert instance.most_away("A", 0) == 0 and instance.most_away("A", 1) == 1
     assert main(["check", str(folder)]) == EXIT_INFEASIBLE
+    capsys.readouterr()
     assert main(["plan", str(folder), "-o", str(tmp_path / "out"), "-q"]) == EXIT_INFEASIBLE
+    # The list's heading stands as a heading, its ways out as bullets under it.
+    said = capsys.readouterr().out.splitlines()
+    assert "    Way out (the least that must give):" in said
+    assert any(line.startswith("    - (a) seats: A in 2027-Q1") for line in said)

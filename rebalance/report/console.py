@@ -10,7 +10,7 @@ from dataclasses import replace
 import numpy as np
 import pandas as pd
 
-from rebalance.conflicts import seats_cannot_hold
+from rebalance.conflicts import bulleted, seats_cannot_hold
 from rebalance.instance import Instance
 from rebalance.numbers import (
     column_header,
@@ -353,7 +353,7 @@ def _outcome_lines(result: PlanResult, *, replan: bool = False) -> list[str]:
         lines.append(f"  warning: {wide}")
     if s.conflicts:
         lines.append("  limits in conflict:")
-        lines += [f"    - {c}" for c in s.conflicts]
+        lines += [f"    {line}" for line in bulleted(s.conflicts)]
     return lines
 
 

@@ -69,7 +69,6 @@ from rebalance.cli_common import (
     SCENARIO_COPY,
     STATUS_EXIT,
     VIOLATIONS_SHOWN,
-    _asking_review,
     _err,
     _keep_frontier,
     _load,
@@ -77,6 +76,7 @@ from rebalance.cli_common import (
     _output_refused,
     _unreadable_plan,
     add_solver_options,
+    asking_review,
     folder_instance,
     scenario_of,
 )
@@ -167,10 +167,10 @@ def cmd_plan(args: argparse.Namespace) -> int:
     # planner defending a plain plan had no reason for a detail away from an office that is
     # short itself) and the frontier a plan there had, both shown by the report.
     with staged_folder(args.out, kind="plan") as folder:
-        write_plan_folder(result, folder, instance_path=args.instance,
-                          more=lambda into: _keep_frontier(args.out, into))
+        reasons = write_plan_folder(result, folder, instance_path=args.instance,
+                                    more=lambda into: _keep_frontier(args.out, into))
     print(f"\nplan written to {args.out}/")
-    review = _asking_review(Path(args.out) / "reasons.csv")
+    review = asking_review(reasons)
     if review:
         # Moves both ways between two offices had sat in reasons.csv alone (a reviewer's).
         print(f"{review:,} of the plan's reasons ask for a review (they end in '(review)' in "

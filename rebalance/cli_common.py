@@ -14,6 +14,7 @@ import os
 import sys
 from collections.abc import Callable, Sequence
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from rebalance.instance import Instance
 from rebalance.problems import problems_counted
@@ -22,6 +23,9 @@ from rebalance.readers import InstanceError, count_problems, read_instance
 from rebalance.solve import Status
 from rebalance.verify import Violation
 from rebalance.verify_causes import PROBLEMS_SHOWN, first_problems
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 # Of a long list of problems or violations: enough to see why (the page's cap too), as
 # verify_causes.first_problems cuts them.
@@ -178,15 +182,9 @@ def _unreadable_plan(folder: str | Path, exc: InstanceError, writes: bool = True
     return EXIT_INVALID_INPUT
 
 
-def _asking_review(path: Path) -> int:
-    """How many reasons in reasons.csv at ``path`` ask for a review."""
-    import pandas as pd
-
-    try:
-        said = pd.read_csv(path, usecols=["reason"], dtype=str)["reason"].fillna("")
-    except (OSError, ValueError):
-        return 0
-    return int(said.str.endswith("(review)").sum())
+def asking_review(reasons: pd.DataFrame) -> int:
+    """How many of a plan's ``reasons`` (reasons.csv's table) ask for a review."""
+    return int(reasons["reason"].fillna("").astype(str).str.endswith("(review)").sum())
 
 
 def _keep_frontier(out: str, folder: Path) -> None:

@@ -23,7 +23,6 @@ from rebalance import stage_bounds
 from rebalance.backends import (
     Backend,
     BackendOutcome,
-    HighsBackend,
     SolveOptions,
     Status,
     in_background,
@@ -31,7 +30,7 @@ from rebalance.backends import (
 from rebalance.model import Model
 from rebalance.numbers import progress_value
 from rebalance.rounding import early_lp, movers_free, neighbourhood, plan_by_rounding
-from rebalance.split import relaxed, resplit, run_within
+from rebalance.split import lp_backends, relaxed, resplit, run_within
 from rebalance.stage_claims import higher_bound
 from rebalance.whole_plans import decomposable
 
@@ -134,8 +133,7 @@ def work_split_for(backend: Backend, model: Model, objective: np.ndarray,
     # (CBC through PuLP), HiGHS takes the LP's arrays instead: on a loaded machine CBC had
     # still not written it in its share, and a run that stays put keeps every limit.  The
     # backend asked for stays the fallback (HiGHS takes no cost of 1e20 or more).
-    lp_backends = [backend] if backend.reruns_cheaply else [HighsBackend(), backend]
-    for lp_backend in lp_backends:
+    for lp_backend in lp_backends(backend):
         left = deadline - time.perf_counter()
         if left <= 0.05:
             break

@@ -480,9 +480,13 @@ class Instance:
         its seats, office by office in the instance's order.  One pass over the staff (large:
         15,000 people, 60 offices, 12 periods; a count per office and period had been 10.8
         million steps)."""
+        return self._seat_counts(self._detail_reach())
+
+    def _seat_counts(self, reach: dict[tuple[str, int], tuple[str, ...]]
+                     ) -> tuple[SeatCount, ...]:
+        """:meth:`seat_counts` with the offices wanting each skill then already at hand."""
         T = len(self.periods)
         seated = {o.name: o.seats for o in self.offices if o.seats is not None}
-        reach = self._detail_reach()
         # Per office and period: [based, relocatable, detailable with work elsewhere and not
         # relocatable, detailable with none].
         counts = {name: [[0, 0, 0, 0] for _ in range(T)] for name in seated}
@@ -511,11 +515,11 @@ class Instance:
         T = len(self.periods)
         if not m or m + 1 > T or len(self.offices) < 2:
             return ()
+        reach = self._detail_reach()
         counts: dict[str, list[SeatCount]] = {}
-        for c in self.seat_counts():
+        for c in self._seat_counts(reach):
             counts.setdefault(c.office, []).append(c)
         out = []
-        reach = self._detail_reach()
         for office, by_period in counts.items():
             based = [p for p in self.staff if p.home_office == office]
             for first in range(T - m):

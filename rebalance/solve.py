@@ -20,7 +20,6 @@ from rebalance.backends import (
     BACKENDS,
     Backend,
     BackendOutcome,
-    HighsBackend,
     SolveOptions,
     Status,
     relative_gap,
@@ -42,7 +41,7 @@ from rebalance.heuristics import (
 from rebalance.instance import Instance
 from rebalance.model import Model
 from rebalance.numbers import progress_value
-from rebalance.split import resplit
+from rebalance.split import lp_backends, resplit
 from rebalance.stage_claims import (
     BOUND_TOLERANCE,
     OBJECTIVE_FLOOR,
@@ -314,9 +313,8 @@ def polish(backend: Backend, model: Model, out: BackendOutcome, options: SolveOp
     """
     if out.x is None or not (model.num_integer or not backend.reruns_cheaply):
         return out
-    # HiGHS first where CBC solves: CBC's solution file holds 8 significant digits, which
-    # priorities of 1e6 multiply (9.2 short beside "optimal at 0"); CBC stays the fallback.
-    for lp_backend in [backend] if backend.reruns_cheaply else [HighsBackend(), backend]:
+    # HiGHS first where CBC solves (9.2 short beside "optimal at 0" with CBC's digits).
+    for lp_backend in lp_backends(backend):
         left = min(POLISH_SECONDS, deadline - time.perf_counter())
         if left < MIN_POLISH_SECONDS:
             break

@@ -12,11 +12,11 @@ from dataclasses import replace
 
 import numpy as np
 
-from rebalance.backends import Backend, BackendOutcome, SolveOptions, Status
+from rebalance.backends import Backend, BackendOutcome, HighsBackend, SolveOptions, Status
 from rebalance.model import Model, without_rounded_rows
 from rebalance.submodel import hold_apart
 
-__all__ = ["relaxed", "resplit", "run_within", "solve_relaxation"]
+__all__ = ["lp_backends", "relaxed", "resplit", "run_within", "solve_relaxation"]
 
 
 def relaxed(model: Model) -> Model:
@@ -64,6 +64,15 @@ def run_within(backend: Backend, model: Model, objective: np.ndarray,
         return out
     x = part.whole(out.x)
     return replace(out, x=x, objective=float(objective @ x), row_dual=None)
+
+
+def lp_backends(backend: Backend) -> list[Backend]:
+    """The backends to try, in turn, for an LP with the whole-number decisions held: the one
+    asked for where it reruns cheaply, else HiGHS first, which takes the arrays as they are
+    (CBC through PuLP writes the model out for every run, and its solution file holds 8
+    significant digits, which priorities of 1e6 multiply), and the one asked for after it
+    (HiGHS takes no cost of 1e20 or more)."""
+    return [backend] if backend.reruns_cheaply else [HighsBackend(), backend]
 
 
 def resplit(backend: Backend, model: Model, plan: np.ndarray, objective: np.ndarray,

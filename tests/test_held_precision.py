@@ -10,6 +10,17 @@ import pytest
 from conftest import DATA
 
 from rebalance import make_plan, options_from_instance, read_instance
+from rebalance.planning import PlanResult
+
+
+def _verified_plan(name: str, solver: str) -> tuple[PlanResult, float]:
+    """tests/data/``name`` planned with ``solver``: the result and the weighted shortfall its
+    cost stage was to hold."""
+    instance = read_instance(DATA / name)
+    options = options_from_instance(instance, solver=solver, time_limit_seconds=30)
+    result = make_plan(instance, options)
+    assert result.plan is not None and result.verified
+    return result, options.held_shortfall(result.solve.stages[0].objective or 0.0)
 
 
 @pytest.mark.parametrize("solver", ["highs", "cbc"])
@@ -18,13 +29,10 @@ def test_the_cost_stage_keeps_the_held_shortfall(solver: str) -> None:
     # its feasibility tolerance (4.9e-4 over a held 4,515.094) and called a plan costing 900
     # optimal.  CBC, and a person-level MILP a reviewer wrote from docs/model.md and solved
     # with scipy.optimize.milp (HiGHS; not kept), both give 1,200 with the hold kept.
-    instance = read_instance(DATA / "held_row_slip")
-    options = options_from_instance(instance, solver=solver, time_limit_seconds=30)
-    result = make_plan(instance, options)
-    assert result.plan is not None and result.verified
+    result, held = _verified_plan("held_row_slip", solver)
+    assert result.plan is not None
     shortfall_stage, cost_stage = result.solve.stages
     assert shortfall_stage.objective is not None
-    held = options.held_shortfall(shortfall_stage.objective)
     assert result.plan.weighted_shortfall <= held + 1e-9 * held
     assert result.plan.total_cost == pytest.approx(1200.0)
     assert cost_stage.objective == pytest.approx(1200.0)
@@ -51,11 +59,8 @@ def test_a_shortfall_tolerance_set_in_the_settings_is_kept_whole(solver: str) ->
     # been set halfway (15.094), and the run called 11,000 optimal; a reviewer's person-level
     # MILP (scipy.optimize.milp, from docs/model.md; not kept) with the whole tolerance gives
     # 5,500, one reassignment and one detail, a plan `rebalance verify` accepts.
-    instance = read_instance(DATA / "tolerance_kept")
-    options = options_from_instance(instance, solver=solver, time_limit_seconds=30)
-    result = make_plan(instance, options)
-    assert result.plan is not None and result.verified
-    held = options.held_shortfall(result.solve.stages[0].objective or 0.0)
+    result, held = _verified_plan("tolerance_kept", solver)
+    assert result.plan is not None
     assert held == pytest.approx(14.726 * 1.05, rel=1e-4)
     assert result.plan.weighted_shortfall <= held * (1 + 1e-9)
     assert result.plan.total_cost == pytest.approx(5500.0)

@@ -38,11 +38,12 @@ def write_plan_folder(result: PlanResult, folder: Path,
                       tables: Mapping[str, pd.DataFrame] | None = None,
                       replanned_at: int | None = None,
                       instance_path: str | Path | None = None,
-                      more: Callable[[Path], None] | None = None) -> None:
+                      more: Callable[[Path], None] | None = None) -> pd.DataFrame:
     """Fill ``folder`` (made already, inside a staged swap) with a verified plan: its tables
     and summary.json (``summary``'s keys after its own), ``tables`` with its reasons (worked
     out here, re-planned from ``replanned_at``, unless ``tables`` holds reasons.csv),
-    ``more``'s files, then report.html and plan.xlsx, which show all of those.
+    ``more``'s files, then report.html and plan.xlsx, which show all of those.  Returns the
+    reasons table written.
     ``instance_path`` is recorded for 'rebalance report' (a scenario's plan: the base
     instance's, its scenario file kept beside the plan by the command that writes it)."""
     assert result.plan is not None  # callers write only a verified plan
@@ -57,6 +58,7 @@ def write_plan_folder(result: PlanResult, folder: Path,
     if more is not None:
         more(folder)
     write_reports(report_data(result, folder), folder)
+    return found["reasons.csv"]
 
 
 def rebuild_reports(plan_dir: str | Path, instance: Instance,
